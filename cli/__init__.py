@@ -1,0 +1,1 @@
+"""The ``librate`` command (installed as the package ``librate_cli``). Thin: parse, call, format."""

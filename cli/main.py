@@ -1,0 +1,58 @@
+"""Entry point of the ``librate`` command."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+
+from .commands import modules as _modules
+
+EXIT_CODES = """exit status:
+  0  done
+  2  bad input (a value that is not allowed; nothing is written)
+  3  no solution (the request is well formed but nothing satisfies it)
+  4  did not converge (an iteration gave up; the message says how far it got)
+"""
+
+GUIDE_HEAD = "librate: preliminary mission design in the circular restricted three-body problem.\n\ncommands:\n"
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="librate",
+        description="Preliminary spacecraft mission design in the circular restricted three-body problem.",
+        epilog=EXIT_CODES, formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser.add_argument("--version", action="version", version="librate 0.1.0")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    for mod in _modules():
+        p = sub.add_parser(mod.NAME, help=mod.HELP, description=mod.HELP,
+                           epilog=f"example:\n  {mod.EXAMPLE}\n\n{EXIT_CODES}",
+                           formatter_class=argparse.RawDescriptionHelpFormatter)
+        mod.add_arguments(p)
+        p.set_defaults(_run=mod.run)
+    return parser
+
+
+def guide() -> str:
+    rows = [f"  {m.NAME:<11} {m.HELP}\n              e.g. {m.EXAMPLE}" for m in _modules()]
+    return (GUIDE_HEAD + "\n".join(rows) +
+            "\n\n'librate COMMAND --help' shows a command's options.\n")
+
+
+def main(argv=None) -> int:
+    argv = sys.argv[1:] if argv is None else list(argv)
+    if not argv:
+        from .common import caution_footer
+        sys.stdout.write(guide() + caution_footer())
+        return 0
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if args.command is None:
+        parser.print_help()
+        return 0
+    from .common import run_command
+    return run_command(args)
+
+
+if __name__ == "__main__":
+    sys.exit(main())

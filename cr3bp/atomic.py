@@ -1,0 +1,53 @@
+"""Atomic file writes: every file goes to a temporary name beside its target, then is renamed.
+
+A failure part-way leaves the target untouched (no partial or corrupted output file).
+"""
+
+from __future__ import annotations
+
+import contextlib
+import os
+import tempfile
+from pathlib import Path
+
+
+@contextlib.contextmanager
+def writing(path, mode: str = "w", encoding: str | None = "utf-8"):
+    """Context manager yielding a file object; the target appears only if the block succeeds.
+
+    Examples
+    --------
+    >>> with writing("out.txt") as f:      # doctest: +SKIP
+    ...     f.write("hello")
+    """
+    path = Path(path)
+    if path.parent and not path.parent.exists():
+        path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent or ".")
+    try:
+        with os.fdopen(fd, mode, encoding=None if "b" in mode else encoding,
+                       newline=None if "b" in mode else "") as f:
+            yield f
+        os.replace(tmp, path)
+    except BaseException:
+        with contextlib.suppress(FileNotFoundError):
+            os.unlink(tmp)
+        raise
+
+
+def write_text(path, text: str) -> None:
+    with writing(path, "w") as f:
+        f.write(text)
+
+
+def write_bytes(path, data: bytes) -> None:
+    with writing(path, "wb") as f:
+        f.write(data)
+
+
+def save_figure(fig, path, **kwargs) -> None:
+    """Save a matplotlib figure atomically (format from the suffix of ``path``)."""
+    path = Path(path)
+    fmt = path.suffix.lstrip(".") or "png"
+    with writing(path, "wb") as f:
+        fig.savefig(f, format=fmt, **kwargs)

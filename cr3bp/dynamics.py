@@ -1,0 +1,193 @@
+"""CR3BP dynamics as compiled kernels: pseudo-potential, its gradient and Hessian, the
+equations of motion with and without the variational equations, and the Jacobi constant.
+
+Conventions are in :mod:`cr3bp.systems`. Equations of motion (Szebehely, *Theory of Orbits*,
+1967, §1.5)::
+
+    x'' - 2 y' = dOmega/dx,   y'' + 2 x' = dOmega/dy,   z'' = dOmega/dz
+
+Variational equations for the state transition matrix Phi (6x6, row-major in the last 36
+entries of the extended state): Phi' = A(t) Phi with A = [[0, I], [H, 2 W]], H the Hessian of
+Omega and W = [[0, 1, 0], [-1, 0, 0], [0, 0, 0]] (Koon, Lo, Marsden & Ross, *Dynamical Systems,
+the Three-Body Problem and Space Mission Design*, 2011, §4.4).
+
+Every kernel is ``numba.njit(cache=True)``; the Python wrappers at the bottom work on whole
+arrays of states.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from numba import njit
+
+# Right-hand-side modes understood by :func:`rhs` (also used by the integrator).
+MODE_STATE = 0
+MODE_STM = 1
+
+
+@njit(cache=True, fastmath=False)
+def omega(mu, x, y, z):
+    """Pseudo-potential Omega at a position."""
+    r1 = np.sqrt((x + mu) ** 2 + y * y + z * z)
+    r2 = np.sqrt((x - 1.0 + mu) ** 2 + y * y + z * z)
+    return 0.5 * (x * x + y * y) + (1.0 - mu) / r1 + mu / r2
+
+
+@njit(cache=True)
+def grad_omega(mu, x, y, z, out):
+    """Gradient of Omega into ``out[0:3]``."""
+    dx1 = x + mu
+    dx2 = x - 1.0 + mu
+    r1sq = dx1 * dx1 + y * y + z * z
+    r2sq = dx2 * dx2 + y * y + z * z
+    a = (1.0 - mu) / (r1sq * np.sqrt(r1sq))
+    b = mu / (r2sq * np.sqrt(r2sq))
+    out[0] = x - a * dx1 - b * dx2
+    out[1] = y - a * y - b * y
+    out[2] = -a * z - b * z
+
+
+@njit(cache=True)
+def hessian_omega(mu, x, y, z, out):
+    """Hessian of Omega (3x3) into ``out``."""
+    dx1 = x + mu
+    dx2 = x - 1.0 + mu
+    r1sq = dx1 * dx1 + y * y + z * z
+    r2sq = dx2 * dx2 + y * y + z * z
+    r1 = np.sqrt(r1sq)
+    r2 = np.sqrt(r2sq)
+    a3 = (1.0 - mu) / (r1sq * r1)
+    b3 = mu / (r2sq * r2)
+    a5 = 3.0 * (1.0 - mu) / (r1sq * r1sq * r1)
+    b5 = 3.0 * mu / (r2sq * r2sq * r2)
+    out[0, 0] = 1.0 - a3 - b3 + a5 * dx1 * dx1 + b5 * dx2 * dx2
+    out[1, 1] = 1.0 - a3 - b3 + (a5 + b5) * y * y
+    out[2, 2] = -a3 - b3 + (a5 + b5) * z * z
+    out[0, 1] = out[1, 0] = (a5 * dx1 + b5 * dx2) * y
+    out[0, 2] = out[2, 0] = (a5 * dx1 + b5 * dx2) * z
+    out[1, 2] = out[2, 1] = (a5 + b5) * y * z
+
+
+@njit(cache=True)
+def eom(t, s, mu, out):
+    """Time derivative of a 6-state ``s`` into ``out[0:6]``."""
+    x, y, z, vx, vy, vz = s[0], s[1], s[2], s[3], s[4], s[5]
+    dx1 = x + mu
+    dx2 = x - 1.0 + mu
+    r1sq = dx1 * dx1 + y * y + z * z
+    r2sq = dx2 * dx2 + y * y + z * z
+    a = (1.0 - mu) / (r1sq * np.sqrt(r1sq))
+    b = mu / (r2sq * np.sqrt(r2sq))
+    out[0] = vx
+    out[1] = vy
+    out[2] = vz
+    out[3] = 2.0 * vy + x - a * dx1 - b * dx2
+    out[4] = -2.0 * vx + y - (a + b) * y
+    out[5] = -(a + b) * z
+
+
+@njit(cache=True)
+def eom_stm(t, s, mu, out):
+    """Time derivative of the 42-state (state + row-major STM) into ``out[0:42]``."""
+    eom(t, s, mu, out)
+    x, y, z = s[0], s[1], s[2]
+    dx1 = x + mu
+    dx2 = x - 1.0 + mu
+    r1sq = dx1 * dx1 + y * y + z * z
+    r2sq = dx2 * dx2 + y * y + z * z
+    r1 = np.sqrt(r1sq)
+    r2 = np.sqrt(r2sq)
+    a3 = (1.0 - mu) / (r1sq * r1)
+    b3 = mu / (r2sq * r2)
+    a5 = 3.0 * (1.0 - mu) / (r1sq * r1sq * r1)
+    b5 = 3.0 * mu / (r2sq * r2sq * r2)
+    hxx = 1.0 - a3 - b3 + a5 * dx1 * dx1 + b5 * dx2 * dx2
+    hyy = 1.0 - a3 - b3 + (a5 + b5) * y * y
+    hzz = -a3 - b3 + (a5 + b5) * z * z
+    hxy = (a5 * dx1 + b5 * dx2) * y
+    hxz = (a5 * dx1 + b5 * dx2) * z
+    hyz = (a5 + b5) * y * z
+    # Phi' = A Phi; rows 0-2: Phi[3+i, :]; rows 3-5: H Phi[0:3, :] + 2 W Phi[3:6, :]
+    for j in range(6):
+        p0 = s[6 + j]
+        p1 = s[12 + j]
+        p2 = s[18 + j]
+        p3 = s[24 + j]
+        p4 = s[30 + j]
+        p5 = s[36 + j]
+        out[6 + j] = p3
+        out[12 + j] = p4
+        out[18 + j] = p5
+        out[24 + j] = hxx * p0 + hxy * p1 + hxz * p2 + 2.0 * p4
+        out[30 + j] = hxy * p0 + hyy * p1 + hyz * p2 - 2.0 * p3
+        out[36 + j] = hxz * p0 + hyz * p1 + hzz * p2
+
+
+@njit(cache=True)
+def rhs(mode, t, s, params, out):
+    """Dispatch on ``mode``: ``MODE_STATE`` (6) or ``MODE_STM`` (42). ``params[0]`` is mu."""
+    if mode == 1:
+        eom_stm(t, s, params[0], out)
+    else:
+        eom(t, s, params[0], out)
+
+
+@njit(cache=True)
+def _jacobi_many(mu, states, out):
+    for i in range(states.shape[0]):
+        s = states[i]
+        v2 = s[3] * s[3] + s[4] * s[4] + s[5] * s[5]
+        out[i] = 2.0 * omega(mu, s[0], s[1], s[2]) - v2
+
+
+# ---- array-level wrappers -------------------------------------------------------------
+
+def jacobi(mu: float, states) -> np.ndarray | float:
+    """Jacobi constant ``C = 2 Omega - v^2`` of one state (6,) or many (N, 6)."""
+    s = np.asarray(states, dtype=float)
+    flat = np.atleast_2d(s)
+    out = np.empty(flat.shape[0])
+    _jacobi_many(float(mu), np.ascontiguousarray(flat[:, :6]), out)
+    return float(out[0]) if s.ndim == 1 else out
+
+
+def acceleration(mu: float, state) -> np.ndarray:
+    """Time derivative of one 6-state (numpy convenience for tests and scripts)."""
+    out = np.empty(6)
+    eom(0.0, np.asarray(state, dtype=float), float(mu), out)
+    return out
+
+
+def hessian(mu: float, position) -> np.ndarray:
+    """Hessian of Omega at a position (3,)."""
+    out = np.empty((3, 3))
+    p = np.asarray(position, dtype=float)
+    hessian_omega(float(mu), p[0], p[1], p[2], out)
+    return out
+
+
+def jacobian(mu: float, state) -> np.ndarray:
+    """The 6x6 matrix A of the variational equations at ``state``."""
+    a = np.zeros((6, 6))
+    a[0:3, 3:6] = np.eye(3)
+    a[3:6, 0:3] = hessian(mu, np.asarray(state)[:3])
+    a[3, 4] = 2.0
+    a[4, 3] = -2.0
+    return a
+
+
+def mirror(states) -> np.ndarray:
+    """Image under the CR3BP symmetry (x, y, z, vx, vy, vz, t) -> (x, -y, z, -vx, vy, -vz, -t).
+
+    If ``s(t)`` is a solution then ``mirror(s(-t))`` is one too (Szebehely 1967, §2.6; the
+    symmetry about the x-z plane with time reversal). Works on (6,) or (N, 6).
+    """
+    s = np.array(states, dtype=float, copy=True)
+    s[..., 1] *= -1.0
+    s[..., 3] *= -1.0
+    s[..., 5] *= -1.0
+    return s
+
+
+#: Diagonal of the matrix G with mirror(s) = G s, for STM symmetry relations.
+MIRROR = np.array([1.0, -1.0, 1.0, -1.0, 1.0, -1.0])

@@ -1,0 +1,69 @@
+"""Typed exceptions raised by the library.
+
+The CLI maps them to exit statuses (documented in the README):
+
+========================  ======  =============================================
+exception                 status  meaning
+========================  ======  =============================================
+``InputError``            2       a value the user gave is not allowed
+``NoSolutionError``       3       the request is well formed but has no answer
+``ConvergenceError``      4       an iteration did not converge
+========================  ======  =============================================
+
+Messages are one line and name the offending value and what is allowed.
+"""
+
+
+class LibrateError(Exception):
+    """Base class of every error librate raises on purpose."""
+
+    exit_status = 1
+
+
+class InputError(LibrateError, ValueError):
+    """A value given by the user is malformed or out of the allowed range."""
+
+    exit_status = 2
+
+
+class UnknownSystemError(InputError, KeyError):
+    """A system name that is not in ``data/systems.toml``."""
+
+    def __str__(self):  # KeyError would otherwise quote the message
+        return self.args[0] if self.args else ""
+
+
+class UnitError(InputError):
+    """A quantity whose unit the parser does not know or that has the wrong dimension."""
+
+
+class StateError(InputError):
+    """A state vector that is malformed, non-finite or inside a primary."""
+
+
+class NoSolutionError(LibrateError):
+    """The request is well formed but nothing satisfies it (e.g. a target beyond a family's end)."""
+
+    exit_status = 3
+
+
+class ConvergenceError(LibrateError):
+    """An iterative correction did not converge. Carries its diagnostics.
+
+    Attributes
+    ----------
+    iterations : int
+        Iterations performed.
+    residuals : list of float
+        Residual norm after each iteration.
+    last : object
+        The last iterate (e.g. a state vector), for inspection.
+    """
+
+    exit_status = 4
+
+    def __init__(self, message, iterations=0, residuals=(), last=None):
+        super().__init__(message)
+        self.iterations = iterations
+        self.residuals = list(residuals)
+        self.last = last

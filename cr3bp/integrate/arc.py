@@ -1,0 +1,75 @@
+"""The result of a propagation."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+
+@dataclass(frozen=True)
+class EventHit:
+    """One located event: which spec (index into the ``events`` given), its name, time and state."""
+
+    event: int
+    name: str
+    t: float
+    state: np.ndarray
+
+    def to_dict(self) -> dict:
+        return {"event": self.event, "name": self.name, "t": self.t, "state": self.state.tolist()}
+
+
+@dataclass(frozen=True)
+class Arc:
+    """A propagated trajectory.
+
+    Attributes
+    ----------
+    system : System
+    t : ndarray (n,)
+        Output times: every accepted step, or the requested ``t_eval`` reached.
+    states : ndarray (n, 6)
+    stm : ndarray (6, 6) or None
+        State transition matrix from the initial to the final time, when asked for.
+    status : str
+        How it ended: ``"time"`` (reached ``t_final``), ``"event"`` (a terminal plane
+        crossing), ``"impact"`` or ``"escape"``.
+    events : tuple of EventHit
+        Every recorded event, in time order.
+    nfev, nsteps : int
+        Right-hand-side evaluations and accepted steps.
+    """
+
+    system: object
+    t: np.ndarray
+    states: np.ndarray
+    stm: np.ndarray | None
+    status: str
+    events: tuple = field(default_factory=tuple)
+    nfev: int = 0
+    nsteps: int = 0
+
+    @property
+    def t_final(self) -> float:
+        return float(self.t[-1])
+
+    @property
+    def final_state(self) -> np.ndarray:
+        return self.states[-1]
+
+    def events_named(self, name: str) -> list[EventHit]:
+        return [e for e in self.events if e.name == name]
+
+    def to_dict(self) -> dict:
+        return {
+            "system": self.system.name,
+            "status": self.status,
+            "t_final": self.t_final,
+            "final_state": self.final_state.tolist(),
+            "stm": None if self.stm is None else self.stm.tolist(),
+            "events": [e.to_dict() for e in self.events],
+            "nfev": self.nfev,
+            "nsteps": self.nsteps,
+            "points": int(len(self.t)),
+        }

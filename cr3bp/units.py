@@ -1,0 +1,128 @@
+"""Quantities with units for the edges of the program: ``"15000km"``, ``"6.56d"``, ``"450m/s"``.
+
+Internally everything is nondimensional (see :mod:`cr3bp.systems`). This module is the one
+place where text with a unit becomes a number in LU, TU or LU/TU.
+
+Units understood (case-sensitive, optional space between number and unit):
+
+=========  ==================================================
+dimension  units
+=========  ==================================================
+length     ``m``, ``km``, ``Mm``, ``au``, ``LU``
+time       ``s``, ``min``, ``h``, ``d``, ``yr`` (Julian year), ``TU``
+velocity   ``m/s``, ``km/s``, ``VU`` (= ``LU/TU``)
+=========  ==================================================
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass
+
+from .errors import UnitError
+
+AU_KM = 149597870.7  # IAU 2012 Resolution B2
+
+# unit -> (dimension, factor to the SI-ish base: km, s, km/s); None factor = nondimensional
+_UNITS = {
+    "m": ("length", 1e-3), "km": ("length", 1.0), "Mm": ("length", 1e3), "au": ("length", AU_KM),
+    "LU": ("length", None),
+    "s": ("time", 1.0), "min": ("time", 60.0), "h": ("time", 3600.0), "d": ("time", 86400.0),
+    "yr": ("time", 365.25 * 86400.0), "TU": ("time", None),
+    "m/s": ("velocity", 1e-3), "km/s": ("velocity", 1.0), "VU": ("velocity", None),
+    "LU/TU": ("velocity", None),
+}
+_NUMBER = r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?"
+_PATTERN = re.compile(rf"^\s*({_NUMBER})\s*([A-Za-z/]*)\s*$")
+
+
+@dataclass(frozen=True)
+class Quantity:
+    """A parsed number with its unit and dimension (``length``, ``time``, ``velocity`` or ``none``)."""
+
+    value: float
+    unit: str
+    dimension: str
+
+    def nondim(self, system) -> float:
+        """The value in LU, TU or LU/TU of ``system``."""
+        if self.dimension == "none":
+            return self.value
+        factor = _UNITS[self.unit][1]
+        if factor is None:
+            return self.value
+        system.require_dimensional(f"'{self.value}{self.unit}'")
+        scale = {"length": system.length_km, "time": system.time_s,
+                 "velocity": system.velocity_kms}[self.dimension]
+        return self.value * factor / scale
+
+    def si(self) -> float:
+        """The value in km, s or km/s (raises for nondimensional units)."""
+        factor = _UNITS.get(self.unit, (None, None))[1]
+        if factor is None:
+            raise UnitError(f"'{self.value}{self.unit}' is nondimensional; it needs a system to convert")
+        return self.value * factor
+
+
+def parse(text: str, dimension: str | None = None, default_unit: str | None = None) -> Quantity:
+    """Parse ``"<number><unit>"``.
+
+    Parameters
+    ----------
+    text : str
+        E.g. ``"15000km"``, ``"6.56 d"``, ``"0.3TU"``, ``"450m/s"``.
+    dimension : {"length", "time", "velocity"}, optional
+        Required dimension; a unit of another dimension is an error.
+    default_unit : str, optional
+        Unit assumed when ``text`` is a bare number. Without it a bare number is an error
+        when ``dimension`` is given (no silent guess of units).
+
+    Raises
+    ------
+    UnitError
+        Malformed text, an unknown unit, a non-finite number or the wrong dimension.
+    """
+    if isinstance(text, (int, float)) and not isinstance(text, bool):
+        text = repr(float(text))
+    if not isinstance(text, str):
+        raise UnitError(f"{text!r} is not a quantity; expected text like '15000km'")
+    m = _PATTERN.match(text)
+    if not m:
+        raise UnitError(f"'{text}' is not a number with a unit; expected e.g. '15000km', '6.56d', '450m/s'")
+    value = float(m.group(1))
+    unit = m.group(2)
+    if not math.isfinite(value):
+        raise UnitError(f"'{text}' is not finite")
+    if unit == "":
+        if default_unit is None:
+            if dimension is not None:
+                raise UnitError(f"'{text}' has no unit; give one of {', '.join(units_of(dimension))}")
+            return Quantity(value, "", "none")
+        unit = default_unit
+    if unit not in _UNITS:
+        allowed = units_of(dimension) if dimension else list(_UNITS)
+        raise UnitError(f"unknown unit '{unit}' in '{text}'; allowed: {', '.join(allowed)}")
+    dim = _UNITS[unit][0]
+    if dimension is not None and dim != dimension:
+        raise UnitError(f"'{text}' is a {dim}, but a {dimension} is needed ({', '.join(units_of(dimension))})")
+    return Quantity(value, unit, dim)
+
+
+def units_of(dimension: str) -> list[str]:
+    return [u for u, (d, _) in _UNITS.items() if d == dimension]
+
+
+def length(text, system, default_unit=None) -> float:
+    """Parse a length and return it in LU."""
+    return parse(text, "length", default_unit).nondim(system)
+
+
+def time(text, system, default_unit=None) -> float:
+    """Parse a time and return it in TU."""
+    return parse(text, "time", default_unit).nondim(system)
+
+
+def velocity(text, system, default_unit=None) -> float:
+    """Parse a velocity and return it in LU/TU."""
+    return parse(text, "velocity", default_unit).nondim(system)
