@@ -141,11 +141,11 @@ def _X(orbit: PeriodicOrbit, sym) -> np.ndarray:
 def _solve_at(system, sym, X_ref, t, ds, meta, check=True):
     """Member at arclength ``ds`` from ``X_ref`` along ``t``: (orbit, X, tangent, iterations)."""
     Xp = X_ref + ds * t
-    X, it, hist, (_, D) = shooting.newton(system, sym, Xp, shooting.arclength(X_ref, t, ds))
+    X, it, hist, (arc, D) = shooting.newton(system, sym, Xp, shooting.arclength(X_ref, t, ds))
     tn = shooting.null_tangent(D)
     if np.dot(tn, t) < 0:
         tn = -tn
-    orbit = shooting.finish(system, sym, X, it, hist, **meta, check=check)
+    orbit = shooting.finish(system, sym, X, it, hist, **meta, check=check, half_stm=arc.stm)
     return orbit, X, tn, it, float(np.linalg.norm(X - Xp))
 
 
@@ -170,11 +170,11 @@ def _solve_natural(system, sym, X_ref, t, ds, param, meta):
         c = shooting.hold_jacobi(dynamics.jacobi(system.mu, s0) + ds)
     else:
         raise InputError(f"natural parameter '{param}' is not allowed; use x, z, vz, jacobi or period")
-    X, it, hist, (_, D) = shooting.newton(system, sym, Xp, c)
+    X, it, hist, (arc, D) = shooting.newton(system, sym, Xp, c)
     tn = shooting.null_tangent(D)
     if np.dot(tn, t) < 0:
         tn = -tn
-    orbit = shooting.finish(system, sym, X, it, hist, **meta)
+    orbit = shooting.finish(system, sym, X, it, hist, **meta, half_stm=arc.stm)
     return orbit, X, tn, it, float(np.linalg.norm(X - Xp))
 
 
@@ -384,38 +384,70 @@ def _bif_note(kind, j, planar):
     return f"{which} stability index crosses -1: period doubling"
 
 
-def solve_on_members(system, kind, members, qname, value, family="", point="", branch="",
-                     planar=None):
+def member_value(member, qname: str) -> float:
+    """:func:`quantity` of a PeriodicOrbit or of a catalogued member record (dict)."""
+    if isinstance(member, PeriodicOrbit):
+        return quantity(member, qname)
+    m = member
+    if qname in ("jacobi", "period"):
+        return float(m[qname])
+    if qname in ("x", "z", "vz"):
+        return float(m["state"][shooting.COMPONENTS[qname]])
+    if qname in ("ax", "ay", "az"):
+        return float(m["amplitude_lu"][qname[1]])
+    if qname in ("approach1", "approach2"):
+        return float(m["approach_lu"][int(qname[-1]) - 1])
+    if qname in ("nu1", "nu2"):
+        return float(m["stability_indices"][int(qname[-1]) - 1])
+    raise InputError(f"quantity '{qname}' is not stored with catalogued members")
+
+
+def _member_X(member, sym):
+    if isinstance(member, PeriodicOrbit):
+        return _X(member, sym)
+    return shooting.pack(sym, member["state"], float(member["period"]) / 2.0)
+
+
+def value_range(members, qname):
+    vals = [member_value(m, qname) for m in members]
+    return min(vals), max(vals)
+
+
+def solve_on_members(system, kind, members, qname, value, family="", point="", branch=""):
     """The member of an already computed (e.g. catalogued) family where ``quantity = value``.
 
-    Finds consecutive members that bracket ``value`` and solves between them along their secant.
+    ``members`` are PeriodicOrbits or catalogue records (dicts). Finds the first pair of
+    consecutive members (from the family's start) that brackets ``value`` and solves between
+    them: directly with the quantity held (jacobi, period, x, z, vz) or by regula falsi along
+    their secant (other quantities). Only the bracketing pair is touched, so a catalogued
+    family is not recomputed.
 
     Raises
     ------
-    NoSolutionError when no pair brackets the value; the message gives the available range.
+    NoSolutionError when no pair brackets the value; the message gives the available range
+    (nondimensional; the request layer restates it in the user's units).
     """
     sym = shooting.symmetry(kind)
-    vals = [quantity(m, qname) for m in members]
+    vals = [member_value(m, qname) for m in members]
     meta = dict(family=family, point=point, branch=branch)
     for k in range(len(members) - 1):
         ga, gb = vals[k] - value, vals[k + 1] - value
-        if ga == 0:
-            return members[k]
-        if ga * gb < 0 or gb == 0:
-            if gb == 0:
-                return members[k + 1]
-            Xa, Xb = _X(members[k], sym), _X(members[k + 1], sym)
-            L = float(np.linalg.norm(Xb - Xa))
-            t = (Xb - Xa) / L
+        if ga * gb <= 0:
+            Xa, Xb = _member_X(members[k], sym), _member_X(members[k + 1], sym)
             if qname in ("jacobi", "period", "x", "z", "vz"):
-                frac = ga / (ga - gb)
+                frac = ga / (ga - gb) if ga != gb else 0.0
                 Xg = Xa + frac * (Xb - Xa)
                 c = {"jacobi": shooting.hold_jacobi, "period": shooting.hold_period}.get(qname)
                 c = c(value) if c else shooting.fix(qname, value)
-                Xs, it, hist, _ = shooting.newton(system, sym, Xg, c)
-                return shooting.finish(system, sym, Xs, it, hist, **meta)
-            return solve_between(system, sym, members[k], Xa, t, L,
-                                 lambda o: quantity(o, qname) - value, ga, gb, meta)
+                Xs, it, hist, (arc, _) = shooting.newton(system, sym, Xg, c)
+                return shooting.finish(system, sym, Xs, it, hist, **meta, half_stm=arc.stm)
+            L = float(np.linalg.norm(Xb - Xa))
+            t = (Xb - Xa) / L
+            if ga == 0:
+                Xs, it, hist, (arc, _) = shooting.newton(system, sym, Xa, shooting.arclength(Xa, t, 0.0))
+                return shooting.finish(system, sym, Xs, it, hist, **meta, half_stm=arc.stm)
+            g = lambda o: quantity(o, qname) - value  # noqa: E731
+            return solve_between(system, sym, None, Xa, t, L, g, ga, gb, meta)
     lo, hi = min(vals), max(vals)
     raise NoSolutionError(f"no member with {qname} = {value:.10g}; this family spans "
                           f"{lo:.10g} to {hi:.10g}")

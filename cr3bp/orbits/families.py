@@ -81,7 +81,7 @@ def first_member(system, family, point="", branch="", resonance=None, eccentrici
     if family == "vertical":
         p = collinear_point(mu, point)
         sd = seeds.linear_vertical(mu, point, 5e-3 * p.gamma)
-        tau = shooting.locate_half_period(system, sd.state, "z")
+        tau = shooting.locate_half_period(system, sd.state, "z", direction=-1)
         o = shooting.correct(system, sd.state, tau, "x-axis", shooting.fix("vz", sd.state[5]), **meta)
         return o, "x-axis", (lambda t, X: t[2] * X[2]), 2e-3 * p.gamma, 0.03 * p.gamma
     if family == "axial":

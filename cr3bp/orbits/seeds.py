@@ -49,11 +49,11 @@ def linear_lyapunov(mu: float, point: str, ax_lu: float) -> Seed:
     """Linear planar Lyapunov orbit of x-amplitude ``ax_lu`` (LU) about a collinear point.
 
     ``x = xL + Ax cos(w t), y = -k Ax sin(w t)``, ``k = (w^2 + 1 + 2 c2) / (2 w)`` (Richardson
-    1980, eq. (7) with Az = 0). Starts at the crossing farther from the smaller primary for
-    L1 (x < xL), nearer for L2.
+    1980, eq. (7) with Az = 0). Starts at the crossing farther from the smaller primary (L1,
+    L2) or from the larger one (L3).
     """
     p = collinear_point(mu, point)
-    a = -abs(ax_lu)
+    a = abs(ax_lu) if p.name == "L2" else -abs(ax_lu)
     w = p.omega_p
     s = np.array([p.x + a, 0.0, 0.0, 0.0, -p.kappa * a * w, 0.0])
     return Seed(s, math.pi / w, XZ_PLANAR, f"linear Lyapunov, Ax = {abs(ax_lu):.3g} LU")
@@ -142,8 +142,9 @@ def richardson_halo(mu: float, point: str, az_lu: float, branch: str = "north",
     ``gamma`` and axes parallel to the rotating frame (so ``x = xL + gamma x_R``); ``Ax``
     from the amplitude constraint ``l1 Ax^2 + l2 Az^2 + Delta = 0``; period
     ``T = 2 pi / (lambda omega)``. The seed starts at ``tau1 = 0`` (a perpendicular
-    crossing); ``delta_n = +-1`` is chosen to give the requested branch (module notes of
-    :mod:`cr3bp.orbits.orbit`).
+    crossing, the one farther from the smaller primary, or from the larger for L3);
+    ``delta_n = +-1`` is chosen to give the requested branch (module notes of
+    :mod:`cr3bp.orbits.orbit`): north means z > 0 at the start.
 
     With ``n_points > 0`` the seed's ``note`` is unchanged and the method also returns the
     sampled third-order curve in ``extra`` (see :func:`richardson_curve`).
@@ -158,10 +159,11 @@ def richardson_halo(mu: float, point: str, az_lu: float, branch: str = "north",
     if branch not in ("north", "south"):
         raise InputError(f"halo branch '{branch}' is not allowed; use north or south")
     # tau1 = 0 is the crossing at x_R ~ -Ax: farther from the smaller primary for L1, nearer for L2;
-    # for L3 it is farther from the larger primary.
+    # for L3 it is farther from the larger primary. The seed starts at the far crossing (tau1 = pi
+    # for L2), where the sensitivity of the full-period map is least.
     far_at_zero = p.name in ("L1", "L3")
     dn = 1.0 if (branch == "north") == far_at_zero else -1.0
-    state, period = _richardson_state(c, p, math.sqrt(ax2), az, dn, 0.0)
+    state, period = _richardson_state(c, p, math.sqrt(ax2), az, dn, 0.0 if far_at_zero else math.pi)
     return Seed(state, 0.5 * period, XZ,
                 f"Richardson third order, Az = {abs(az_lu):.4g} LU, Ax = {math.sqrt(ax2) * p.gamma:.4g} LU")
 

@@ -41,7 +41,7 @@ STALL_TOL = 1e-10
 #: Periodicity error |s(T) - s(0)| (nondimensional) required of a converged orbit.
 PERIODICITY_TOL = 1e-10
 MAX_ITER = 30
-RTOL = ATOL = 1e-12
+RTOL = ATOL = 1e-13
 
 
 @dataclass(frozen=True)
@@ -204,9 +204,11 @@ def newton(system, sym, X0, constraint: Constraint, tol=HALF_TOL, max_iter=MAX_I
         f"(needed < {tol:.0e})", len(history), history, unpack(sym, X)[0])
 
 
-def locate_half_period(system, state, coordinate: str, crossings: int = 1, t_max: float = 50.0):
-    """Time of the ``crossings``-th crossing of ``coordinate = 0`` from ``state`` (a seed refinement)."""
-    ev = plane(coordinate, 0.0, 0, terminal=True, count=crossings)
+def locate_half_period(system, state, coordinate: str, crossings: int = 1, t_max: float = 50.0,
+                       direction: int = 0):
+    """Time of the ``crossings``-th crossing of ``coordinate = 0`` (in ``direction``) from ``state``
+    (a seed refinement)."""
+    ev = plane(coordinate, 0.0, direction, terminal=True, count=crossings)
     arc = propagate(system, state, t_max, events=[ev], rtol=1e-10, atol=1e-10)
     if arc.status != "event":
         raise ConvergenceError(f"no {coordinate} = 0 crossing within {t_max:g} TU of the seed", last=state)
@@ -214,12 +216,20 @@ def locate_half_period(system, state, coordinate: str, crossings: int = 1, t_max
 
 
 def finish(system, sym, X, iterations, history, family="", point="", branch="",
-           extra=None, check=True) -> PeriodicOrbit:
-    """Build the PeriodicOrbit at converged ``X``: full-period propagation for the monodromy,
-    the periodicity error and the geometry."""
+           extra=None, check=True, half_stm=None) -> PeriodicOrbit:
+    """Build the PeriodicOrbit at converged ``X``.
+
+    * Monodromy from the half-period STM at ``X`` (``half_stm``, or propagated when not given)
+      with the mirror relation (:func:`cr3bp.orbits.stability.monodromy_from_half`).
+    * Periodicity error ``|s(T) - s(0)|`` from an independent propagation of the state over the
+      full period (no symmetry used), which also gives the samples for the geometry.
+    """
     s0, tau = unpack(sym, X)
     T = 2.0 * tau
-    arc = propagate(system, s0, T, stm=True, rtol=RTOL, atol=ATOL)
+    if half_stm is None:
+        half_stm = propagate(system, s0, tau, stm=True, rtol=RTOL, atol=ATOL).stm
+    monodromy = stability.monodromy_from_half(half_stm, sym.mirror)
+    arc = propagate(system, s0, T, rtol=RTOL, atol=ATOL)
     err = float(np.linalg.norm(arc.final_state - s0))
     if check and not err < PERIODICITY_TOL:
         raise ConvergenceError(
@@ -229,7 +239,7 @@ def finish(system, sym, X, iterations, history, family="", point="", branch="",
     ex = {"method": "single shooting", "symmetry_type": sym.name, "residuals": history,
           "half_period_residual": history[-1] if history else float("nan")}
     ex.update(extra or {})
-    return PeriodicOrbit(system, s0, T, arc.stm, family, point, branch,
+    return PeriodicOrbit(system, s0, T, monodromy, family, point, branch,
                          float(dynamics.jacobi(system.mu, s0)), err, iterations, ex,
                          tuple(float(a) for a in amp), tuple(float(d) for d in approach), sym.name)
 
@@ -258,5 +268,5 @@ def correct(system, state, half_period, kind=XZ, hold: Constraint | None = None,
     sym = symmetry(kind)
     X0 = pack(sym, state, half_period)
     hold = hold or fix("x", X0[0])
-    X, it, hist, _ = newton(system, sym, X0, hold, tol, max_iter)
-    return finish(system, sym, X, it, hist, family, point, branch)
+    X, it, hist, (arc, _) = newton(system, sym, X0, hold, tol, max_iter)
+    return finish(system, sym, X, it, hist, family, point, branch, half_stm=arc.stm)
