@@ -72,18 +72,18 @@ def first_member(system, family, point="", branch="", resonance=None, eccentrici
         p = collinear_point(mu, point)
         sd = seeds.linear_lyapunov(mu, point, 2e-3 * p.gamma)
         o = shooting.correct(system, sd.state, sd.half_period, sd.symmetry, shooting.fix("x", sd.state[0]), **meta)
-        return o, sd.symmetry, (lambda t, X, xl=p.x: t[0] * (X[0] - xl)), 1e-3 * p.gamma, 0.02 * p.gamma
+        return o, sd.symmetry, (lambda t, X, xl=p.x: t[0] * (X[0] - xl)), 1e-3 * p.gamma, 0.06 * p.gamma
     if family == "halo":
         p = collinear_point(mu, point)
         sd = seeds.richardson_halo(mu, point, 0.02 * p.gamma, branch)
         o = shooting.correct(system, sd.state, sd.half_period, sd.symmetry, shooting.fix("z", sd.state[2]), **meta)
-        return o, sd.symmetry, (lambda t, X: t[1] * X[1]), 2e-3 * p.gamma, 0.03 * p.gamma
+        return o, sd.symmetry, (lambda t, X: t[1] * X[1]), 2e-3 * p.gamma, 0.05 * p.gamma
     if family == "vertical":
         p = collinear_point(mu, point)
         sd = seeds.linear_vertical(mu, point, 5e-3 * p.gamma)
         tau = shooting.locate_half_period(system, sd.state, "z", direction=-1)
         o = shooting.correct(system, sd.state, tau, "x-axis", shooting.fix("vz", sd.state[5]), **meta)
-        return o, "x-axis", (lambda t, X: t[2] * X[2]), 2e-3 * p.gamma, 0.03 * p.gamma
+        return o, "x-axis", (lambda t, X: t[2] * X[2]), 2e-3 * p.gamma, 0.05 * p.gamma
     if family == "axial":
         lyap = grow_family(system, "lyapunov", point, stops=continuation.Stops(max_members=400),
                            until_bifurcations=2)

@@ -17,7 +17,6 @@ period, jacobi, ax, ay, az, x, perilune, resonance.
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 
 from ..errors import InputError, NoSolutionError
@@ -130,14 +129,11 @@ def solve_request(system, spec, catalog=None, progress=None) -> PeriodicOrbit:
     kind = families.kind_of(spec.family)
     members = None
     if catalog is not None:
-        rec = catalog.load_family(system.name, fam, point, branch)
-        if rec is not None and rec.get("members"):
+        rec = catalog.load_family(system, fam, point, branch)
+        if rec is not None and rec.get("members") and rec.get("complete"):
             members = rec["members"]
         else:
-            family = families.grow_family(system, spec.family, spec.point, spec.branch,
-                                          stops=default_stops(system, spec), progress=progress,
-                                          resonance=spec.resonance)
-            store_family(catalog, system, family)
+            family = compute_into_catalog(catalog, system, spec, progress=progress)
             members = [catalog_member(m, i) for i, m in enumerate(family.members)]
     if members is not None:
         try:
@@ -170,23 +166,29 @@ def catalog_member(orbit: PeriodicOrbit, index: int) -> dict:
     return d
 
 
-def store_family(catalog, system, family) -> int:
-    """Write a computed Family into the catalogue (members, bifurcations, completeness)."""
-    settings = {k: v for k, v in family.settings.items() if _jsonable(v)}
-    fid = catalog.begin_family(system.name, family.family, family.point, family.branch, settings)
+def catalog_settings(spec: OrbitSpec, stops: continuation.Stops) -> dict:
+    """The settings a catalogued family is keyed by (what changes its members)."""
+    return {"recipe": 1, "family": spec.family, "point": spec.point, "branch": spec.branch_label,
+            "max_members": stops.max_members, "altitude_km": stops.altitude_km,
+            "bounds": {k: list(v) for k, v in stops.bounds.items()}}
+
+
+def compute_into_catalog(catalog, system, spec: OrbitSpec, stops=None, progress=None):
+    """Grow the family of ``spec`` and store it; each member is written as it converges, so an
+    interrupted run keeps what it computed. Returns the Family."""
+    stops = stops or default_stops(system, spec)
+    fid = catalog.begin_family(system, spec.family, spec.point, spec.branch_label,
+                               catalog_settings(spec, stops))
+
+    def keep(i, n, orbit):
+        catalog.add_members(fid, [catalog_member(orbit, i - 1)])
+        if progress is not None:
+            progress(i, n, orbit)
+
+    family = families.grow_family(system, spec.family, spec.point, spec.branch, stops=stops,
+                                  progress=keep, resonance=spec.resonance)
     catalog.add_members(fid, [catalog_member(m, i) for i, m in enumerate(family.members)])
-    catalog.finish_family(fid, [b.to_dict() for b in family.bifurcations],
-                          complete=not family.stop_reason.startswith("step fell"))
-    return fid
+    catalog.finish_family(fid, [b.to_dict() for b in family.bifurcations], complete=True)
+    return family
 
 
-def _jsonable(v):
-    if v is None or isinstance(v, (str, bool, int)):
-        return True
-    if isinstance(v, float):
-        return math.isfinite(v)
-    if isinstance(v, (list, tuple)):
-        return all(_jsonable(x) for x in v)
-    if isinstance(v, dict):
-        return all(isinstance(k, str) and _jsonable(x) for k, x in v.items())
-    return False
