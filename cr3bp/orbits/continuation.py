@@ -45,6 +45,8 @@ class Stops:
     bounds : dict              quantity -> (low, high); quantities as in :func:`quantity`
     target : (quantity, value) stop when a member with that value is bracketed; solve it exactly
     detect_closure : bool      stop when the family returns to its first member
+    branch_points : int|None   stop once this many "+1" crossings of index ``which=1`` (the
+                               out-of-plane index of a planar family) have been located
     """
 
     max_members: int = 200
@@ -52,6 +54,7 @@ class Stops:
     bounds: dict = field(default_factory=dict)
     target: tuple | None = None
     detect_closure: bool = True
+    branch_points: int | None = None
 
 
 @dataclass(frozen=True)
@@ -335,6 +338,11 @@ def grow(system, first: PeriodicOrbit, kind, *, step=1e-3, max_step=0.05, direct
                 except ConvergenceError:
                     bifs.append(Bifurcation(kind_b, len(members) - 1, j, orbit,
                                             _bif_note(kind_b, j, planar) + " (not located; next member)"))
+        if stops.branch_points is not None and \
+                sum(1 for b in bifs if b.kind == "+1" and b.which == 1) >= stops.branch_points:
+            members.append(orbit)
+            reason = f"located {stops.branch_points} out-of-plane branch point(s)"
+            break
         if g_target is not None:
             ga, gb = g_target(prev), g_target(orbit)
             if ga == 0:

@@ -73,6 +73,17 @@ def first_member(system, family, point="", branch="", resonance=None, eccentrici
         sd = seeds.linear_lyapunov(mu, point, 2e-3 * p.gamma)
         o = shooting.correct(system, sd.state, sd.half_period, sd.symmetry, shooting.fix("x", sd.state[0]), **meta)
         return o, sd.symmetry, (lambda t, X, xl=p.x: t[0] * (X[0] - xl)), 1e-3 * p.gamma, 0.06 * p.gamma
+    if family == "halo" and point == "L3":
+        # Richardson's series is too inaccurate at L3 (the halos begin at Ax ~ 0.4 gamma, beyond
+        # the expansion's reach): branch from the L3 Lyapunov family instead.
+        p = collinear_point(mu, point)
+        lyap = grow_family(system, "lyapunov", point, stops=continuation.Stops(max_members=400, branch_points=1))
+        bif = [b for b in lyap.bifurcations if b.kind == "+1" and b.which == 1]
+        if not bif:
+            raise ConvergenceError(f"the L3 Lyapunov family showed no out-of-plane branch point "
+                                   f"({lyap.stop_reason})")
+        o = branch_at(system, bif[0].orbit, "halo", point, branch)
+        return o, seeds.XZ, (lambda t, X: t[1] * X[1]), 2e-3 * p.gamma, 0.05 * p.gamma
     if family == "halo":
         p = collinear_point(mu, point)
         sd = seeds.richardson_halo(mu, point, 0.02 * p.gamma, branch)
@@ -85,8 +96,7 @@ def first_member(system, family, point="", branch="", resonance=None, eccentrici
         o = shooting.correct(system, sd.state, tau, "x-axis", shooting.fix("vz", sd.state[5]), **meta)
         return o, "x-axis", (lambda t, X: t[2] * X[2]), 2e-3 * p.gamma, 0.05 * p.gamma
     if family == "axial":
-        lyap = grow_family(system, "lyapunov", point, stops=continuation.Stops(max_members=400),
-                           until_bifurcations=2)
+        lyap = grow_family(system, "lyapunov", point, stops=continuation.Stops(max_members=600, branch_points=2))
         bif = [b for b in lyap.bifurcations if b.kind == "+1" and b.which == 1]
         if len(bif) < 2:
             raise ConvergenceError(f"the {point} Lyapunov family showed {len(bif)} out-of-plane "
@@ -141,7 +151,7 @@ def _far_crossing_is_start(system, orbit, point):
 
 def grow_family(system, family, point="", branch="", *, stops=None, method="arclength",
                 parameter=None, step=None, progress=None, resonance=None, eccentricity=0.5,
-                until_bifurcations=None, first=None, locate_bifurcations=True):
+                first=None, locate_bifurcations=True):
     """Compute a named family from its recipe (see module table). Returns a Family."""
     family, point, branch = check_family(family, point, branch) if family != "resonant" else (family, "", branch)
     stops = stops or continuation.Stops()
@@ -150,9 +160,6 @@ def grow_family(system, family, point="", branch="", *, stops=None, method="arcl
     settings = {"family": family, "point": point, "branch": branch,
                 "resonance": list(resonance) if resonance else None, "eccentricity": eccentricity
                 if family == "resonant" else None}
-    if until_bifurcations:
-        return _grow_until(system, o, kind, direction, st, max_step, stops, family, point, branch,
-                           until_bifurcations, progress, settings)
     return continuation.grow(system, o, kind, step=step or st, max_step=max_step, direction=direction,
                              method=method, parameter=parameter, stops=stops, family=family,
                              point=point, branch=branch or (resonance_label(*resonance) if resonance else ""),
@@ -160,30 +167,15 @@ def grow_family(system, family, point="", branch="", *, stops=None, method="arcl
                              settings=settings)
 
 
-def _grow_until(system, o, kind, direction, st, max_step, stops, family, point, branch, nbif,
-                progress, settings):
-    """Grow in chunks until ``nbif`` out-of-plane +1 crossings are found (for branching)."""
-    count = {"n": 0}
-
-    def prog(i, n, orb):
-        if progress:
-            progress(i, n, orb)
-
-    fam = continuation.grow(system, o, kind, step=st, max_step=max_step, direction=direction,
-                            stops=stops, family=family, point=point, branch=branch, progress=prog,
-                            settings=settings)
-    del count
-    return fam
-
-
 def branch_family(system, family, point, branch="", *, stops=None, progress=None, parent=None):
     """Grow a three-dimensional family from its bifurcation on the planar Lyapunov family."""
-    parent = parent or grow_family(system, "lyapunov", point, stops=continuation.Stops(max_members=400))
+    need = {"halo": 1, "axial": 2}[family]
+    parent = parent or grow_family(system, "lyapunov", point,
+                                   stops=continuation.Stops(max_members=600, branch_points=need))
     bif = [b for b in parent.bifurcations if b.kind == "+1" and b.which == 1]
-    need = {"halo": 0, "axial": 1}[family]
-    if len(bif) <= need:
+    if len(bif) < need:
         raise ConvergenceError(f"the {point} Lyapunov family showed {len(bif)} out-of-plane branch points")
-    o = branch_at(system, bif[need].orbit, family, point, branch)
+    o = branch_at(system, bif[need - 1].orbit, family, point, branch)
     kind = seeds.XZ if family == "halo" else "x-axis"
     direction = (lambda t, X: t[1] * X[1]) if family == "halo" else (lambda t, X: t[2] * X[2])
     p = collinear_point(system.mu, point)
@@ -191,4 +183,4 @@ def branch_family(system, family, point, branch="", *, stops=None, progress=None
                              direction=direction, stops=stops or continuation.Stops(), family=family,
                              point=point, branch=branch if family == "halo" else "", progress=progress,
                              settings={"family": family, "point": point, "branch": branch,
-                                       "from": "lyapunov bifurcation"}), bif[need]
+                                       "from": "lyapunov bifurcation"}), bif[need - 1]
