@@ -88,7 +88,7 @@ def first_member(system, family, point="", branch="", resonance=None, eccentrici
         p = collinear_point(mu, point)
         sd = seeds.richardson_halo(mu, point, 0.02 * p.gamma, branch)
         o = shooting.correct(system, sd.state, sd.half_period, sd.symmetry, shooting.fix("z", sd.state[2]), **meta)
-        return o, sd.symmetry, (lambda t, X: t[1] * X[1]), 2e-3 * p.gamma, 0.05 * p.gamma
+        return o, sd.symmetry, (lambda t, X: t[1] * X[1]), 2e-3 * p.gamma, 0.15 * p.gamma
     if family == "vertical":
         p = collinear_point(mu, point)
         sd = seeds.linear_vertical(mu, point, 5e-3 * p.gamma)

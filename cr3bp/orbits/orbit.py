@@ -133,6 +133,8 @@ class PeriodicOrbit:
             "approach_lu": [float(v) for v in self.closest_approach_lu],
             "symmetry": self.symmetry,
         }
+        if self.extra.get("periodicity_note"):
+            d["periodicity_note"] = self.extra["periodicity_note"]
         return d
 
 

@@ -40,6 +40,13 @@ HALF_TOL = 1e-12
 STALL_TOL = 1e-10
 #: Periodicity error |s(T) - s(0)| (nondimensional) required of a converged orbit.
 PERIODICITY_TOL = 1e-10
+#: For strongly unstable orbits (largest multiplier lambda > 100) a full-period propagation at
+#: tolerance 1e-13 cannot itself close to better than about 1e-13 * lambda (its local errors grow
+#: with the unstable mode). Such an orbit is accepted when its half-period residual is < 1e-11 and
+#: its measured full-period error is < INSTABILITY_ALLOWANCE * lambda; the orbit carries a
+#: ``periodicity_note`` saying so. tests/test_against_heyoka.py re-checks these orbits with an
+#: independent Taylor integrator at tolerance 1e-16, which closes them to < 1e-10.
+INSTABILITY_ALLOWANCE = 3e-13
 MAX_ITER = 30
 RTOL = ATOL = 1e-13
 
@@ -231,13 +238,24 @@ def finish(system, sym, X, iterations, history, family="", point="", branch="",
     monodromy = stability.monodromy_from_half(half_stm, sym.mirror)
     arc = propagate(system, s0, T, rtol=RTOL, atol=ATOL)
     err = float(np.linalg.norm(arc.final_state - s0))
-    if check and not err < PERIODICITY_TOL:
-        raise ConvergenceError(
-            f"half-period conditions met but the periodicity error over one period is {err:.2e} "
-            f"(needed < {PERIODICITY_TOL:.0e})", iterations, history, s0)
+    note = ""
+    if not err < PERIODICITY_TOL:
+        # A single propagation over one period amplifies its own local errors by up to the
+        # largest multiplier lambda; above 1e-10 the measurement, not the orbit, may be at fault.
+        lam = stability.largest_multiplier(stability.stability_indices(monodromy))
+        if history and history[-1] < 1e-11 and err < INSTABILITY_ALLOWANCE * lam:
+            note = (f"full-period error {err:.2e} is within the integrator's reach for an orbit with "
+                    f"largest multiplier {lam:.3g} ({INSTABILITY_ALLOWANCE:g} x lambda); the half-period "
+                    f"conditions hold to {history[-1]:.1e}")
+        elif check:
+            raise ConvergenceError(
+                f"half-period conditions met but the periodicity error over one period is {err:.2e} "
+                f"(needed < {PERIODICITY_TOL:.0e})", iterations, history, s0)
     amp, approach = geometry.extremes(system, arc)
     ex = {"method": "single shooting", "symmetry_type": sym.name, "residuals": history,
           "half_period_residual": history[-1] if history else float("nan")}
+    if note:
+        ex["periodicity_note"] = note
     ex.update(extra or {})
     return PeriodicOrbit(system, s0, T, monodromy, family, point, branch,
                          float(dynamics.jacobi(system.mu, s0)), err, iterations, ex,
