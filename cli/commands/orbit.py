@@ -28,6 +28,8 @@ def run(args):
     spec = spec_from_options(args.family, args.point, args.branch, args.ratio, **given)
     if args.plot:
         _check_plot_path(args.plot)
+    from cr3bp.orbits.targets import make_target
+    make_target(system, spec.key, spec.value)   # bad units fail here, before any work
     cat = oo.open_catalog(args)
     common.progress(args, f"librate orbit: solving {spec.family} {spec.point} {spec.branch_label} "
                     f"{spec.key}={spec.value}".replace("  ", " "))

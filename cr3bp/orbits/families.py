@@ -72,7 +72,7 @@ def first_member(system, family, point="", branch="", resonance=None, eccentrici
         p = collinear_point(mu, point)
         sd = seeds.linear_lyapunov(mu, point, 2e-3 * p.gamma)
         o = shooting.correct(system, sd.state, sd.half_period, sd.symmetry, shooting.fix("x", sd.state[0]), **meta)
-        return o, sd.symmetry, (lambda t, X, xl=p.x: t[0] * (X[0] - xl)), 1e-3 * p.gamma, 0.06 * p.gamma
+        return o, sd.symmetry, (lambda t, X, xl=p.x: t[0] * (X[0] - xl)), 1e-3 * p.gamma, 0.3 * p.gamma
     if family == "halo" and point == "L3":
         # Richardson's series is too inaccurate at L3 (the halos begin at Ax ~ 0.4 gamma, beyond
         # the expansion's reach): branch from the L3 Lyapunov family instead.
@@ -106,7 +106,7 @@ def first_member(system, family, point="", branch="", resonance=None, eccentrici
     if family == "dro":
         sd = seeds.dro(mu, 0.03)
         o = shooting.correct(system, sd.state, sd.half_period, sd.symmetry, shooting.fix("x", sd.state[0]), **meta)
-        return o, sd.symmetry, (lambda t, X: t[0]), 2e-3, 0.03
+        return o, sd.symmetry, (lambda t, X: t[0]), 2e-3, 0.1
     if family == "resonant":
         if resonance is None:
             raise InputError("the resonant family needs p:q, e.g. 3:2")
