@@ -180,7 +180,7 @@ def default_extent(system, view: str = "system") -> tuple[float, float, float, f
     raise InputError(f"view {view!r} is not allowed; allowed: {', '.join(VIEWS)}")
 
 
-def _check_extent(extent):
+def check_extent(extent):
     try:
         e = tuple(float(v) for v in extent)
     except (TypeError, ValueError):
@@ -316,7 +316,7 @@ def hill_region(system, jacobi_value, plane: str = "xy", extent=None, view: str 
 
     c = check_jacobi(jacobi_value)
     _check_plane(plane)
-    e = _check_extent(extent) if extent is not None else default_extent(system, view)
+    e = check_extent(extent) if extent is not None else default_extent(system, view)
     if not (isinstance(resolution, (int, np.integer)) and 21 <= resolution <= 4001):
         raise InputError(f"resolution {resolution!r} must be an integer in [21, 4001]")
     levels = jacobi_constants(system)

@@ -63,7 +63,8 @@ def _extent(args, system):
     parts = [t for t in args.extent.split(",")]
     if len(parts) != 4:
         raise InputError(f"--extent {args.extent!r} must be four values UMIN,UMAX,VMIN,VMAX")
-    return tuple(units.length(t, system, default_unit="LU") for t in parts)
+    from cr3bp.energy import check_extent
+    return check_extent(tuple(units.length(t, system, default_unit="LU") for t in parts))
 
 
 def _resolution(text):
