@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
+from matplotlib.ticker import FuncFormatter
 
 from .base import VIEWS, axis_labels, draw_primaries, new_figure
 
@@ -51,9 +52,11 @@ def _km_axes(ax, system, view):
     i, j = VIEWS[view]
     sx = ax.secondary_xaxis("top", functions=(lambda u: u * L, lambda k: k / L))
     sy = ax.secondary_yaxis("right", functions=(lambda u: u * L, lambda k: k / L))
-    sx.set_xlabel(f"{'xyz'[i]} [km]", fontsize=8)
-    sy.set_ylabel(f"{'xyz'[j]} [km]", fontsize=8)
-    for s in (sx, sy):
+    thousands = FuncFormatter(lambda k, _: format(k / 1000.0, ",.6g"))
+    sx.set_xlabel(f"{'xyz'[i]} [1000 km]", fontsize=8)
+    sy.set_ylabel(f"{'xyz'[j]} [1000 km]", fontsize=8)
+    for s, axis in ((sx, sx.xaxis), (sy, sy.yaxis)):
+        axis.set_major_formatter(thousands)
         s.tick_params(labelsize=7)
     return ax
 
@@ -98,7 +101,7 @@ def plot_hill_region(region, ax=None, km=False, points=None, title=True):
              Line2D([], [], color=ZVC_COLOUR, lw=1.0, label="zero-velocity curve (2Ω = C)")]
     ax.legend(handles=extra + handles, loc="best", fontsize=7, framealpha=0.9)
     if title:
-        ax.set_title(hill_title(region), fontsize=9)
+        ax.set_title(hill_title(region), fontsize=9, pad=30 if (km and system.dimensional) else 6)
     return ax
 
 
