@@ -98,13 +98,15 @@ def collinear_gamma(name: str, mu: float) -> tuple[float, int]:
     ConvergenceError
         No convergence within ``GAMMA_MAX_ITER`` iterations.
     """
-    c = _quintic(name, mu)
-    dc = np.polyder(c)
+    c = [float(a) for a in _quintic(name, mu)]
     lo, hi, g = _bracket(name, mu)
-    flo = np.polyval(c, lo)
+    flo = -1.0  # f(0) < 0 for all three quintics (their constant terms are negative)
     steps = []
     for it in range(1, GAMMA_MAX_ITER + 1):
-        f = np.polyval(c, g)
+        f = d = 0.0
+        for a in c:  # Horner: value and derivative together
+            d = d * g + f
+            f = f * g + a
         if f == 0.0:
             return float(g), it
         # keep the bracket: f(lo) < 0 < f(hi)
@@ -112,7 +114,6 @@ def collinear_gamma(name: str, mu: float) -> tuple[float, int]:
             lo, flo = g, f
         else:
             hi = g
-        d = np.polyval(dc, g)
         new = g - f / d if d != 0.0 else 0.5 * (lo + hi)
         if not (lo <= new <= hi):
             new = 0.5 * (lo + hi)
@@ -385,8 +386,7 @@ def lagrange_point(system, name: str) -> LagrangePoint:
 
 def jacobi_constants(system) -> dict:
     """Jacobi constant at each Lagrange point, ``{"L1": C1, ...}`` (no linear modes computed)."""
-    out = {}
-    for n in NAMES:
-        pos, _, _ = _position(n, system.mu)
-        out[n] = float(dynamics.jacobi(system.mu, np.concatenate([pos, np.zeros(3)])))
-    return out
+    states = np.zeros((5, 6))
+    for k, n in enumerate(NAMES):
+        states[k, :3] = _position(n, system.mu)[0]
+    return dict(zip(NAMES, (float(c) for c in dynamics.jacobi(system.mu, states))))
