@@ -116,6 +116,13 @@ def test_bad_combinations(capsys, tmp_path, argv):
     check_rejected(capsys, tmp_path, argv)
 
 
+def test_bad_curves_suffix_writes_nothing(capsys, tmp_path):
+    rc = main(["zvc", "--system=earth-moon", "--jacobi=3.1", f"--curves={tmp_path / 'x.txt'}",
+               f"--plot={tmp_path / 'x.png'}"])
+    err = capsys.readouterr().err
+    assert rc == 2 and err.count("\n") == 1 and list(tmp_path.iterdir()) == []
+
+
 def test_bad_plot_suffix_writes_nothing(capsys, tmp_path):
     rc = main(["zvc", "--system=earth-moon", "--jacobi=3.1", f"--plot={tmp_path / 'x.pdf'}"])
     err = capsys.readouterr().err

@@ -99,3 +99,23 @@ def test_plot_pieces():
     assert {t.get_text() for t in ax.texts} >= {"L1", "L2", "L3", "L4", "L5"}
     import matplotlib.pyplot as plt
     plt.close(ax.figure)
+
+
+def test_zvc_curves_csv_points_lie_on_the_curve(capsys, tmp_path):
+    import numpy as np
+
+    from cr3bp import dynamics, system
+    out_csv = tmp_path / "zvc.csv"
+    rc, out, _ = run(capsys, "zvc", "--system", "earth-moon", "--jacobi", "3.18", "--curves", str(out_csv),
+                     "--view", "secondary", "--resolution", "151", "--format", "json")
+    assert rc == 0 and json.loads(out)["curves_file"] == str(out_csv)
+    text = out_csv.read_text()
+    assert "# CAUTION" in text
+    rows = list(csv.DictReader(io.StringIO("\n".join(ln for ln in text.splitlines() if not ln.startswith("#")))))
+    assert len(rows) > 100
+    em = system("earth-moon")
+    states = np.zeros((len(rows), 6))
+    states[:, 0] = [float(r["x_lu"]) for r in rows]
+    states[:, 1] = [float(r["y_lu"]) for r in rows]
+    assert np.max(np.abs(dynamics.jacobi(em.mu, states) - 3.18)) < 1e-10
+    assert float(rows[0]["x_km"]) == pytest.approx(float(rows[0]["x_lu"]) * em.length_km)

@@ -28,6 +28,8 @@ def add_arguments(p):
                    help="plot extent; numbers in LU or lengths with units (e.g. 300000km,460000km,-8e4km,8e4km)")
     q.add_argument("--resolution", metavar="N", default="601", help="grid points per side (21..4001, default 601)")
     q.add_argument("--km", action="store_true", help="add axes in km (dimensional systems)")
+    q.add_argument("--curves", metavar="FILE.csv",
+                   help="also write the zero-velocity curve points (LU, and km when dimensional) as CSV")
     common.add_output_options(p)
 
 
@@ -88,8 +90,10 @@ def run(args):
     system = common.resolve_system(args)
     if args.plot is not None and Path(args.plot).suffix.lower() not in PLOT_SUFFIXES:
         raise InputError(f"--plot {args.plot!r} must end in .png or .svg")
-    if args.plot is None and (args.extent or args.km):
-        raise InputError("--extent and --km shape the plot; give --plot FILE too")
+    if args.plot is None and args.curves is None and (args.extent or args.km):
+        raise InputError("--extent and --km shape the plot; give --plot FILE or --curves FILE too")
+    if args.curves is not None and Path(args.curves).suffix.lower() != ".csv":
+        raise InputError(f"--curves {args.curves!r} must end in .csv")
     c, source = _level(args, system)
     extent = _extent(args, system)
     resolution = _resolution(args.resolution)
@@ -105,10 +109,15 @@ def run(args):
                      opened.get(r["name"]) if r["name"] in opened else None, v,
                      system.mps(v) if (dim and v is not None) else None])
     region = None
-    if args.plot:
+    if args.plot or args.curves:
         common.progress(args, f"librate: tracing the zero-velocity curves on a {resolution} x {resolution} grid...")
         region = hill_region(system, c, plane=args.plane, extent=extent, view=args.view,
                              resolution=resolution)
+    if args.curves:
+        from cr3bp.atomic import write_text
+        write_text(args.curves, curves_csv(region))
+        common.progress(args, f"wrote {args.curves}")
+    if args.plot:
         from cr3bp.plotting import save
         from cr3bp.plotting.energy import plot_hill_region
         ax = plot_hill_region(region, km=args.km)
@@ -128,6 +137,7 @@ def run(args):
         "points": [dict(name=r[0], jacobi=r[1], jacobi_minus_point=r[2], neck_open=r[3],
                         speed_at_point_vu=r[4], speed_at_point_mps=r[5]) for r in rows],
         "plot": args.plot,
+        "curves_file": args.curves,
         "region": region.to_dict() if region is not None else None,
     }
     how = ("given" if source["given"] == "jacobi" else
@@ -141,7 +151,25 @@ def run(args):
               "has when it passes the point ('-': the point is in its forbidden region).\n"
               f"realms ({'z = 0' if args.plane == 'xy' else 'y = 0'}): {text}\n")
     if region is not None:
-        table += (f"plot: {args.plot} ({len(region.curves)} curve(s), max |2Omega - C| on them "
+        table += (f"{'plot: ' + args.plot if args.plot else 'curves: ' + args.curves} ({len(region.curves)} curve(s), max |2Omega - C| on them "
                   f"{region.curve_residual:.1e})\n")
     common.emit(args, payload=payload, headers=HEADERS, rows=rows, table=table, comments=[title])
     return 0
+
+
+def curves_csv(region) -> str:
+    """The zero-velocity curve points as CSV: curve index, coordinates in LU (and km)."""
+    system = region.system
+    v = "y" if region.plane == "xy" else "z"
+    headers = ["curve", "x_lu", f"{v}_lu"] + (["x_km", f"{v}_km"] if system.dimensional else [])
+    rows = []
+    for k, pts in enumerate(region.curves):
+        for a, b in pts:
+            row = [k, float(a), float(b)]
+            if system.dimensional:
+                row += [float(a) * system.length_km, float(b) * system.length_km]
+            rows.append(row)
+    comments = [f"zero-velocity curves (2 Omega = C) of {system.name}, mu = {system.mu!r}, "
+                f"C = {region.jacobi!r}, plane {'z = 0' if region.plane == 'xy' else 'y = 0'}",
+                f"max |2 Omega - C| on these points: {region.curve_residual:.1e}"]
+    return common.csv_text(headers, rows, comments)
