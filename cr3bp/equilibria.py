@@ -316,6 +316,10 @@ class LagrangePoint:
     modes : LinearModes
     iterations : int
         Newton iterations spent on ``gamma`` (0 for triangular points).
+    mu : float
+        Mass ratio of the system.
+    residual : float
+        ``|grad Omega|`` at ``position`` (an equilibrium has 0; ~1e-16 in practice).
     """
 
     name: str
@@ -325,6 +329,7 @@ class LagrangePoint:
     modes: LinearModes
     iterations: int = 0
     mu: float = field(default=float("nan"))
+    residual: float = field(default=float("nan"))
 
     @property
     def state(self) -> np.ndarray:
@@ -346,6 +351,7 @@ class LagrangePoint:
         return {"name": self.name, "x": float(self.position[0]), "y": float(self.position[1]),
                 "z": float(self.position[2]), "jacobi": self.jacobi, "gamma": self.gamma,
                 "distance_lu": self.distances(), "iterations": self.iterations,
+                "residual": self.residual,
                 "modes": self.modes.to_dict()}
 
 
@@ -353,7 +359,10 @@ def _point(system, name: str) -> LagrangePoint:
     mu = system.mu
     pos, g, it = _position(name, mu)
     c = float(dynamics.jacobi(mu, np.concatenate([pos, np.zeros(3)])))
-    return LagrangePoint(name, _frozen(pos), c, g, linear_modes(mu, pos, name), it, mu)
+    grad = np.empty(3)
+    dynamics.grad_omega(mu, pos[0], pos[1], pos[2], grad)
+    return LagrangePoint(name, _frozen(pos), c, g, linear_modes(mu, pos, name), it, mu,
+                         float(np.linalg.norm(grad)))
 
 
 def point_name(name) -> str:
