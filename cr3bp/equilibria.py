@@ -57,16 +57,16 @@ def routh_critical_mu() -> float:
 
 # ---- collinear points: the quintic in gamma ---------------------------------------------
 
-def _quintic(name: str, mu: float) -> np.ndarray:
+def _quintic(name: str, mu: float) -> tuple:
     """Coefficients (highest power first) of the quintic in gamma (Szebehely 1967, §4.4;
     Richardson 1980, §2)."""
     if name == "L1":
-        return np.array([1.0, -(3.0 - mu), 3.0 - 2.0 * mu, -mu, 2.0 * mu, -mu])
+        return (1.0, -(3.0 - mu), 3.0 - 2.0 * mu, -mu, 2.0 * mu, -mu)
     if name == "L2":
-        return np.array([1.0, 3.0 - mu, 3.0 - 2.0 * mu, -mu, -2.0 * mu, -mu])
+        return (1.0, 3.0 - mu, 3.0 - 2.0 * mu, -mu, -2.0 * mu, -mu)
     if name == "L3":
         m1 = 1.0 - mu
-        return np.array([1.0, 2.0 + mu, 1.0 + 2.0 * mu, -m1, -2.0 * m1, -m1])
+        return (1.0, 2.0 + mu, 1.0 + 2.0 * mu, -m1, -2.0 * m1, -m1)
     raise InputError(f"'{name}' is not a collinear point; allowed: L1, L2, L3")
 
 
@@ -98,7 +98,7 @@ def collinear_gamma(name: str, mu: float) -> tuple[float, int]:
     ConvergenceError
         No convergence within ``GAMMA_MAX_ITER`` iterations.
     """
-    c = [float(a) for a in _quintic(name, mu)]
+    c = _quintic(name, float(mu))
     lo, hi, g = _bracket(name, mu)
     flo = -1.0  # f(0) < 0 for all three quintics (their constant terms are negative)
     steps = []
@@ -152,7 +152,8 @@ class LinearModes:
     ----------
     eigenvalues : (6,) complex
         Eigenvalues of :func:`cr3bp.dynamics.jacobian` at the point (numpy), ordered:
-        real positive, real negative, then imaginary pairs (in-plane first, then vertical).
+        collinear ``+lambda, -lambda, +-i omega_p, +-i omega_v``; triangular when stable
+        ``+-i omega_long, +-i omega_short, +-i``; otherwise by decreasing real part.
     eigenvectors : (6, 6) complex
         Matching eigenvectors as columns, each of unit norm.
     kind : str
