@@ -21,8 +21,8 @@ def add_arguments(p):
     g.add_argument("--dv", metavar="SPEED", help="speed at the point, with a unit: 20m/s, 0.05km/s, 0.01VU")
     q = p.add_argument_group("plot")
     q.add_argument("--plot", metavar="FILE", help="write the Hill-region plot to FILE (.png or .svg)")
-    q.add_argument("--plane", choices=("xy", "xz"), default="xy", help="plane of the plot (default xy)")
-    q.add_argument("--view", choices=("system", "secondary"), default="system",
+    q.add_argument("--plane", metavar="xy|xz", default="xy", help="plane of the plot: z = 0 or y = 0 (default xy)")
+    q.add_argument("--view", metavar="system|secondary", default="system",
                    help="default extent: whole system, or around the smaller primary (default system)")
     q.add_argument("--extent", metavar="UMIN,UMAX,VMIN,VMAX",
                    help="plot extent; numbers in LU or lengths with units (e.g. 300000km,460000km,-8e4km,8e4km)")
@@ -83,11 +83,15 @@ def _resolution(text):
 def run(args):
     from pathlib import Path
 
-    from cr3bp.energy import energy_table, hill_region, necks, realms
+    from cr3bp.energy import PLANES, VIEWS, energy_table, hill_region, necks, realms
     from cr3bp.equilibria import jacobi_constants
     from cr3bp.errors import InputError
 
     system = common.resolve_system(args)
+    if args.plane not in PLANES:
+        raise InputError(f"--plane {args.plane!r} is not allowed; allowed: {', '.join(PLANES)}")
+    if args.view not in VIEWS:
+        raise InputError(f"--view {args.view!r} is not allowed; allowed: {', '.join(VIEWS)}")
     if args.plot is not None and Path(args.plot).suffix.lower() not in PLOT_SUFFIXES:
         raise InputError(f"--plot {args.plot!r} must end in .png or .svg")
     if args.plot is None and args.curves is None and (args.extent or args.km):
