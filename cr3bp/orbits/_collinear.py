@@ -1,24 +1,17 @@
-"""PRIVATE stand-in for :mod:`cr3bp.equilibria` (collinear points only).
+"""Collinear points as the orbit code needs them: a thin adapter over :mod:`cr3bp.equilibria`
+(position, ``gamma``, linear frequencies) adding Richardson's coefficients ``c_n``.
 
-TEMPORARY: the Lagrange-point module is being written on another branch. Until it is on main,
-the orbit code needs the collinear points, their distance ``gamma`` to the nearest primary and
-the linear frequencies there; this helper computes exactly that and nothing more. Switch the
-imports in :mod:`cr3bp.orbits.seeds` to ``cr3bp.equilibria`` once it lands.
-
-Method: the collinear points are the roots of dOmega/dx on the x axis, one in each interval
-between and beyond the primaries (Szebehely, *Theory of Orbits*, 1967, §4.5); the linearised equations at a collinear point have the in-plane
-frequencies ``lambda^2`` roots of ``s^2 + (2 - c2) s + (1 + c2)(1 - 2 c2) = 0`` with
-``s = lambda^2`` and out-of-plane frequency ``sqrt(c2)``, where ``c2`` is Richardson's
-coefficient (Richardson, Celestial Mechanics 22, 1980, eqs. (2)-(4)).
+Richardson, "Analytic construction of periodic orbits about the collinear points", Celestial
+Mechanics 22, 1980, eq. (4) for ``c_n``; the in-plane amplitude ratio
+``k = (omega_p^2 + 1 + 2 c2) / (2 omega_p)`` is his eq. (7).
 """
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
-from scipy.optimize import brentq
 
 from ..errors import InputError
 
@@ -59,30 +52,20 @@ def cn(mu: float, point: str, gamma: float, n: int) -> float:
 
 
 def collinear_point(mu: float, point: str) -> CollinearPoint:
-    """Collinear Lagrange point ``point`` of mass ratio ``mu`` with its linear frequencies."""
+    """Collinear Lagrange point ``point`` of mass ratio ``mu`` with its linear frequencies
+    (from :func:`cr3bp.equilibria.lagrange_point`)."""
     p = point_name(point)
-    def f(x):
-        r1, r2 = x + mu, x - 1.0 + mu
-        return x - (1.0 - mu) * r1 / abs(r1) ** 3 - mu * r2 / abs(r2) ** 3
+    return _cached(float(mu), p)
 
-    eps = 1e-9
-    if p == "L1":
-        x = brentq(f, -mu + eps, 1.0 - mu - eps * mu, xtol=1e-15, rtol=1e-15)
-        gamma = 1.0 - mu - x
-    elif p == "L2":
-        x = brentq(f, 1.0 - mu + eps * mu, 2.0, xtol=1e-15, rtol=1e-15)
-        gamma = x - (1.0 - mu)
-    else:
-        x = brentq(f, -2.0, -mu - eps, xtol=1e-15, rtol=1e-15)
-        gamma = -mu - x
-    c2 = cn(mu, p, gamma, 2)
-    b = 2.0 - c2
-    disc = math.sqrt(b * b + 4.0 * (c2 - 1.0) * (1.0 + 2.0 * c2))
-    # s = lambda^2 roots of s^2 + (2 - c2) s - (c2 - 1)(1 + 2 c2) = 0
-    s_plus = 0.5 * (-b + disc)
-    s_minus = 0.5 * (-b - disc)
-    lam_h = math.sqrt(s_plus)
-    omega_p = math.sqrt(-s_minus)
-    omega_v = math.sqrt(c2)
-    kappa = (omega_p**2 + 1.0 + 2.0 * c2) / (2.0 * omega_p)
-    return CollinearPoint(p, x, gamma, c2, omega_p, lam_h, omega_v, kappa)
+
+@lru_cache(maxsize=64)
+def _cached(mu: float, p: str) -> CollinearPoint:
+    from ..equilibria import lagrange_point
+    from ..systems import from_mu
+    lp = lagrange_point(from_mu(mu), p)
+    m = lp.modes
+    c2 = float(m.c2)
+    w = float(m.omega_inplane)
+    kappa = (w**2 + 1.0 + 2.0 * c2) / (2.0 * w)
+    return CollinearPoint(p, float(lp.position[0]), float(lp.gamma), c2, w, float(m.saddle_exponent),
+                          float(m.omega_vertical), kappa)

@@ -3,8 +3,6 @@ Lagrange points marked; a family coloured by Jacobi constant; stability indices.
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 
 from .base import VIEWS, axis_labels, draw_primaries, new_figure
@@ -13,12 +11,8 @@ _VIEW_ORDER = ("xy", "xz", "yz")
 
 
 def _lagrange_points(system):
-    from ..orbits._collinear import collinear_point
-    mu = system.mu
-    pts = {n: collinear_point(mu, n).position for n in ("L1", "L2", "L3")}
-    pts["L4"] = np.array([0.5 - mu, math.sqrt(3) / 2, 0.0])
-    pts["L5"] = np.array([0.5 - mu, -math.sqrt(3) / 2, 0.0])
-    return pts
+    from ..equilibria import lagrange_points
+    return {p.name: np.asarray(p.position) for p in lagrange_points(system)}
 
 
 def trajectory(orbit, n=1500):
