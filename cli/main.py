@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import re
 import sys
 
 from .commands import modules as _modules
@@ -39,8 +40,24 @@ def guide() -> str:
             "\n\n'librate COMMAND --help' shows a command's options.\n")
 
 
+_NEGATIVE_VALUE = re.compile(r"^-[0-9.]")
+
+
+def join_negative_values(argv):
+    """``--time -2d`` -> ``--time=-2d``: argparse would read a value that starts with a minus
+    sign and a digit (a negative time, a state ``-0.5,0,...``) as an unknown option."""
+    out = []
+    for tok in argv:
+        if (out and _NEGATIVE_VALUE.match(tok) and out[-1].startswith("--")
+                and "=" not in out[-1]):
+            out[-1] = f"{out[-1]}={tok}"
+        else:
+            out.append(tok)
+    return out
+
+
 def main(argv=None) -> int:
-    argv = sys.argv[1:] if argv is None else list(argv)
+    argv = join_negative_values(sys.argv[1:] if argv is None else list(argv))
     if not argv:
         from .common import caution_footer
         sys.stdout.write(guide() + caution_footer())
