@@ -53,6 +53,7 @@ def test_km_state_is_converted(capsys):
     km = list(s[:3] * em.length_km) + list(s[3:] * em.velocity_kms)
     code, out, _ = run(capsys, "propagate", "--system", "earth-moon", "--km", "--state",
                        ",".join(repr(float(v)) for v in km), "--time", "2TU", "--format", "json", "-q")
+    assert code == 0
     d = json.loads(out)
     np.testing.assert_allclose(d["initial_state"], s, rtol=1e-14, atol=1e-16)
 
