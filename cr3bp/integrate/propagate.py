@@ -30,6 +30,7 @@ from .events import ESCAPE, IMPACT, table
 STATUS_NAMES = dop853.STATUS_NAMES
 FAILED = ("max-steps", "stalled", "non-finite")
 DEFAULT_MAX_STEPS = dop853.DEFAULT_MAX_STEPS
+_IDENTITY_FLAT = np.eye(6).ravel()
 
 
 @dataclass(frozen=True)
@@ -187,8 +188,9 @@ def propagate(system, state, t_final, stm=False, rtol=1e-12, atol=1e-12, events=
     t0 = validate.finite_time("t0", t0)
     tf = validate.finite_time("t_final", t_final)
     events = tuple(events or ())
-    tab = np.ascontiguousarray(table(events), dtype=np.float64)
-    _check_events_start(system, tab, s0)
+    tab = table(events)
+    if events:
+        _check_events_start(system, tab, s0)
     direction = 1.0 if tf >= t0 else -1.0
     if t_eval is None:
         te = np.empty(0)
@@ -200,8 +202,7 @@ def propagate(system, state, t_final, stm=False, rtol=1e-12, atol=1e-12, events=
     nmax = _max_steps(max_steps)
     h0 = -1.0 if first_step is None else abs(validate.finite_time("first_step", first_step))
     mode = MODE_STM if stm else MODE_STATE
-    y0 = np.concatenate([s0, np.eye(6).ravel()]) if stm else s0.copy()
-    y0 = np.ascontiguousarray(y0, dtype=np.float64)
+    y0 = np.concatenate([s0, _IDENTITY_FLAT]) if stm else s0.copy()
 
     (code, t_end, y_end, ts, ys, ev_t, ev_y, ev_k, _seen, eval_y, n_eval, nfev, nsteps,
      _nrej) = dop853.integrate(int(mode), _params(system), y0, float(t0), float(tf), float(rtol),
@@ -214,12 +215,12 @@ def propagate(system, state, t_final, stm=False, rtol=1e-12, atol=1e-12, events=
     hits = tuple(EventHit(int(k), events[int(k)].name, float(t), np.array(s))
                  for t, s, k in zip(ev_t, ev_y, ev_k))
     if record:
-        t_out, s_out = np.array(ts), np.array(ys)
+        t_out, s_out = ts, ys
     else:
-        t_out, s_out = te[:n_eval].copy(), np.array(eval_y[:n_eval])
-    phi = np.array(y_end[6:]).reshape(6, 6) if stm else None
+        t_out, s_out = te[:n_eval].copy(), eval_y[:n_eval]
+    phi = y_end[6:].reshape(6, 6) if stm else None
     return Arc(system, t_out, s_out, phi, STATUS_NAMES[code], hits, int(nfev), int(nsteps),
-               t_end=float(t_end), state_end=np.array(y_end[:6]))
+               t_end=float(t_end), state_end=y_end[:6])
 
 
 def _t_eval(t_eval, t0, tf, direction) -> np.ndarray:
