@@ -5,8 +5,10 @@ Each module exposes ``run() -> list of rows`` with a row
 against a baseline measured in the same run, never by absolute times in tests. The target
 text is one of:
 
-* ``">= 50x"``  the baseline takes at least 50 times as long (ratio = baseline / seconds);
-* ``"< 0.5 s"`` the measured time itself is below 0.5 s (for wall-clock limits);
+* ``">= 50x"`` or ``"at least 50x ..."``: the baseline takes at least 50 times as long
+  (ratio = baseline / seconds);
+* ``"no slower than ..."``: ratio >= 1; ``"faster than ..."``: ratio > 1;
+* ``"< 0.5 s"``: the measured time itself is below 0.5 s (for wall-clock limits);
 * anything else (or an empty text) is shown as information, not judged.
 
 ``seconds`` may be None for a row that was skipped (its target text says why). The command
@@ -22,7 +24,9 @@ import sys
 import time
 from pathlib import Path
 
-_RATIO = re.compile(r"^\s*>=\s*([0-9.]+)\s*x\b")
+_RATIO = re.compile(r"^\s*(?:>=|at least)\s*([0-9.]+)\s*x\b", re.IGNORECASE)
+_NO_SLOWER = re.compile(r"^\s*no slower\b", re.IGNORECASE)
+_FASTER = re.compile(r"^\s*faster\b", re.IGNORECASE)
 _ABS = re.compile(r"^\s*<\s*([0-9.]+)\s*s\b")
 
 
@@ -34,6 +38,10 @@ def judge(seconds, baseline_seconds, target):
     m = _RATIO.match(target or "")
     if m and ratio is not None:
         return ratio, "yes" if ratio >= float(m.group(1)) else "NO"
+    if ratio is not None and _NO_SLOWER.match(target or ""):
+        return ratio, "yes" if ratio >= 1.0 else "NO"
+    if ratio is not None and _FASTER.match(target or ""):
+        return ratio, "yes" if ratio > 1.0 else "NO"
     m = _ABS.match(target or "")
     if m:
         return ratio, "yes" if seconds < float(m.group(1)) else "NO"
@@ -47,7 +55,8 @@ def _fmt_s(v):
 
 
 def main(argv=None) -> int:
-    here = Path(__file__).parent
+    here = Path(__file__).resolve().parent
+    sys.path.insert(0, str(here.parent))
     names = sorted(m.name for m in pkgutil.iter_modules([str(here)]) if m.name.startswith("bench_"))
     only = (argv if argv is not None else sys.argv[1:])
     rows = []

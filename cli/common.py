@@ -111,18 +111,31 @@ def kernels_cached(kernels=COMPILED_KERNELS) -> bool:
     return True
 
 
-def compile_notice(args, kernels=COMPILED_KERNELS):
-    """Say on screen when the compiled kernels are about to be built (first run only)."""
-    if not kernels_cached(kernels):
-        progress(args, "librate: compiling the numerical kernels (first run only, about half a "
-                       "minute; later runs reuse the cache)...")
+def compile_notice(args, kernels=None):
+    """Say on screen when the compiled kernels are about to be built (first run only).
+
+    ``kernels`` (a command module's ``KERNELS``) are checked exactly with
+    :func:`kernels_cached`; without it, any numba index file of the library counts.
+    """
+    if kernels is not None:
+        cold = not kernels_cached(kernels)
+    else:
+        import importlib.util
+        root = Path(importlib.util.find_spec("cr3bp").origin).parent
+        cold = not (list((root / "__pycache__").glob("*.nbi"))
+                    or list((root / "integrate" / "__pycache__").glob("*.nbi")))
+    if cold:
+        progress(args, "librate: compiling the numerical kernels (first run only; later runs "
+                       "reuse the cache)...")
 
 
 def run_command(args) -> int:
     from cr3bp.errors import LibrateError
     try:
         if args.command not in ("systems",):
-            compile_notice(args)
+            # a command module may name the compiled kernels it uses (KERNELS)
+            mod = sys.modules.get(getattr(args._run, "__module__", ""), None)
+            compile_notice(args, getattr(mod, "KERNELS", None))
         return int(args._run(args) or 0)
     except LibrateError as e:
         print(f"librate: error: {e}", file=sys.stderr)

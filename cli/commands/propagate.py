@@ -8,6 +8,8 @@ HELP = "propagate a state (optionally with its state transition matrix) and repo
 EXAMPLE = ("librate propagate --system earth-moon --state 0.8234,0,0.0224,0,0.1343,0 "
            "--time 12d --stm")
 
+#: compiled kernels this command uses (checked for the first-run compile notice)
+KERNELS = (("cr3bp.integrate.dop853", "integrate"),)
 PLOT_SUFFIXES = (".png", ".pdf", ".svg")
 MAX_OUTPUT_POINTS = 1_000_000
 PLOT_POINTS = 2000
