@@ -40,7 +40,8 @@ def _family(n, parent):
     from cr3bp import system
     from cr3bp.orbits import continuation, families
     em = system("earth-moon")
-    fam, _ = families.branch_family(em, "halo", "L1", "north", parent=parent,
+    g = parent.members[0].system and families.collinear_point(em.mu, "L1").gamma
+    fam, _ = families.branch_family(em, "halo", "L1", "north", parent=parent, max_step=0.025 * g,
                                     stops=continuation.Stops(max_members=n, altitude_km=100.0))
     return fam
 
@@ -62,9 +63,9 @@ def run():
         t_sub = time.perf_counter() - t0
     t_scipy = t_sub * n / len(sub.members)
     last = fam.members[-1]
-    rows = [(f"L1 north halo family, {n} members (to perilune {last.closest_approach_km['moon']:.0f} km)",
-             t_fast, f"solve_ivp, {len(sub.members)} members scaled to {n}", t_scipy,
-             "< 3 s and >= 30x faster")]
+    name = f"L1 north halo family, {n} members (to perilune {last.closest_approach_km['moon']:.0f} km)"
+    rows = [(name, t_fast, f"solve_ivp, {len(sub.members)} members scaled to {n}", t_scipy, ">= 30x"),
+            (name, t_fast, "wall-clock limit", 3.0, "< 3 s")]
 
     with tempfile.TemporaryDirectory() as d:
         cat = os.path.join(d, "cat.sqlite")

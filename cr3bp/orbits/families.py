@@ -167,7 +167,8 @@ def grow_family(system, family, point="", branch="", *, stops=None, method="arcl
                              settings=settings)
 
 
-def branch_family(system, family, point, branch="", *, stops=None, progress=None, parent=None):
+def branch_family(system, family, point, branch="", *, stops=None, progress=None, parent=None,
+                  max_step=None):
     """Grow a three-dimensional family from its bifurcation on the planar Lyapunov family."""
     need = {"halo": 1, "axial": 2}[family]
     parent = parent or grow_family(system, "lyapunov", point,
@@ -179,7 +180,7 @@ def branch_family(system, family, point, branch="", *, stops=None, progress=None
     kind = seeds.XZ if family == "halo" else "x-axis"
     direction = (lambda t, X: t[1] * X[1]) if family == "halo" else (lambda t, X: t[2] * X[2])
     p = collinear_point(system.mu, point)
-    return continuation.grow(system, o, kind, step=2e-3 * p.gamma, max_step=0.03 * p.gamma,
+    return continuation.grow(system, o, kind, step=2e-3 * p.gamma, max_step=max_step or 0.03 * p.gamma,
                              direction=direction, stops=stops or continuation.Stops(), family=family,
                              point=point, branch=branch if family == "halo" else "", progress=progress,
                              settings={"family": family, "point": point, "branch": branch,

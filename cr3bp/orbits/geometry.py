@@ -1,16 +1,19 @@
 """Sizes and closest approaches of a closed trajectory.
 
-Extremes are first found on the integrator's accepted steps (which crowd where the motion is
-fast, e.g. at perilune), then refined on a fine grid from a short re-propagation around each
-extreme, and finally by the vertex of the parabola through the three best samples (the error
-of that last step is third order in the grid spacing).
+* Extremes of x, y, z: located exactly as the events vx = 0, vy = 0, vz = 0 of the
+  full-period propagation (the integrator finds them on its dense output), together with the
+  end points.
+* Closest approaches: first found on the integrator's accepted steps (which crowd where the
+  motion is fast, e.g. at perilune), then refined on a fine grid from a short re-propagation
+  around the minimum, and finally by the vertex of the parabola through the three best
+  samples (the error of that last step is third order in the grid spacing).
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-from ..integrate import propagate
+from ..integrate import plane, propagate
 
 _FINE = 41
 
@@ -35,23 +38,23 @@ def _refine(system, arc, values_of, i, sign):
     return float(sign * best)
 
 
+#: events whose crossings are the extremes of x, y, z
+EXTREME_EVENTS = tuple(plane(c, 0.0, 0, terminal=False, label=f"{c}=0") for c in ("vx", "vy", "vz"))
+
+
 def extremes(system, arc):
-    """(amplitude_lu (Ax, Ay, Az), closest_approach_lu (d1, d2)) of a full-period arc.
+    """(amplitude_lu (Ax, Ay, Az), closest_approach_lu (d1, d2)) of a full-period arc that was
+    propagated with ``events=EXTREME_EVENTS``.
 
     Ax, Ay: half the extent in x, y; Az: the largest |z|; d1, d2: least distance to the larger
     and the smaller primary (conventions in :mod:`cr3bp.orbits.orbit`).
     """
     s = arc.states
     mu = system.mu
-    out = []
-    for k in (0, 1):
-        f = lambda st, k=k: st[:, k]  # noqa: E731
-        hi = _refine(system, arc, f, int(np.argmax(s[:, k])), +1)
-        lo = _refine(system, arc, f, int(np.argmin(s[:, k])), -1)
-        out.append(0.5 * (hi - lo))
-    fz = lambda st: np.abs(st[:, 2])  # noqa: E731
-    zabs = fz(s)
-    out.append(_refine(system, arc, fz, int(np.argmax(zabs)), +1) if zabs.max() > 0 else 0.0)
+    pts = [arc.states[0], arc.states[-1]] + [e.state for e in arc.events]
+    pts = np.array(pts)
+    out = [0.5 * (pts[:, 0].max() - pts[:, 0].min()), 0.5 * (pts[:, 1].max() - pts[:, 1].min()),
+           float(np.abs(pts[:, 2]).max())]
     approach = []
     for xc in (-mu, 1.0 - mu):
         f = lambda st, xc=xc: np.sqrt((st[:, 0] - xc) ** 2 + st[:, 1] ** 2 + st[:, 2] ** 2)  # noqa: E731

@@ -147,7 +147,7 @@ def correct_multiple(system, patches, dts, phase=("y", 0.0), hold=None, family="
     M = np.eye(6)
     for P in phis:
         M = P @ M
-    arc = propagate(system, S[0], T, rtol=RTOL, atol=ATOL)
+    arc = propagate(system, S[0], T, rtol=RTOL, atol=ATOL, events=geometry.EXTREME_EVENTS)
     err = float(np.linalg.norm(arc.final_state - S[0]))
     amp, approach = geometry.extremes(system, arc)
     defects = np.linalg.norm(R[:6 * n].reshape(n, 6), axis=1)

@@ -236,7 +236,7 @@ def finish(system, sym, X, iterations, history, family="", point="", branch="",
     if half_stm is None:
         half_stm = propagate(system, s0, tau, stm=True, rtol=RTOL, atol=ATOL).stm
     monodromy = stability.monodromy_from_half(half_stm, sym.mirror)
-    arc = propagate(system, s0, T, rtol=RTOL, atol=ATOL)
+    arc = propagate(system, s0, T, rtol=RTOL, atol=ATOL, events=geometry.EXTREME_EVENTS)
     err = float(np.linalg.norm(arc.final_state - s0))
     note = ""
     if not err < PERIODICITY_TOL:
