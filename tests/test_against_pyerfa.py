@@ -1,0 +1,100 @@
+"""Time scales and ephemerides against pyerfa (the ERFA library; test extra only).
+
+pyerfa's own leap-second table (2.0.1.5) stops at 2017-01-01 and pyerfa warns for UTC dates
+after mid-2017; its warnings are silenced here (our own warning is tested elsewhere).
+"""
+
+import warnings
+
+import numpy as np
+import pytest
+
+erfa = pytest.importorskip("erfa")
+
+from cr3bp import timescales as ts  # noqa: E402
+
+ONE_MICROSECOND = 1e-6
+ONE_NANOSECOND = 1e-9
+
+pytestmark = pytest.mark.filterwarnings("ignore::erfa.ErfaWarning")
+
+# UTC instants around leap seconds (IERS Bulletin C: end of 1972-06-30, 1998-12-31, 2016-12-31)
+AROUND_LEAPS = [
+    "1972-01-01T00:00:00", "1972-06-30T23:59:59.5", "1972-06-30T23:59:60.25", "1972-07-01T00:00:00",
+    "1998-12-31T12:00:00", "1998-12-31T23:59:60.999", "1999-01-01T00:00:00.001",
+    "2016-12-31T23:59:59", "2016-12-31T23:59:60", "2016-12-31T23:59:60.5", "2017-01-01T00:00:00",
+    "2005-06-15T08:45:12.123456",
+]
+
+
+def _erfa_utc(text):
+    date, clock = text.split("T")
+    y, m, d = (int(v) for v in date.split("-"))
+    hh, mm, ss = clock.split(":")
+    return erfa.dtf2d("UTC", y, m, d, int(hh), int(mm), float(ss))
+
+
+@pytest.mark.parametrize("text", AROUND_LEAPS)
+def test_utc_to_tai_and_tt(text):
+    u1, u2 = _erfa_utc(text)
+    a1, a2 = erfa.utctai(u1, u2)
+    t1, t2 = erfa.taitt(a1, a2)
+    e = ts.parse_iso(text + "Z")
+    b1, b2 = e.two_part_jd("tai")
+    assert ((b1 - a1) + (b2 - a2)) * 86400 == pytest.approx(0, abs=ONE_NANOSECOND * 100)
+    c1, c2 = e.two_part_jd("tt")
+    assert ((c1 - t1) + (c2 - t2)) * 86400 == pytest.approx(0, abs=ONE_NANOSECOND * 100)
+    # our UTC quasi-JD matches the ERFA convention (leap-second day of 86401 s)
+    q1, q2 = e.two_part_jd("utc")
+    assert ((q1 - u1) + (q2 - u2)) * 86400 == pytest.approx(0, abs=ONE_NANOSECOND * 100)
+
+
+@pytest.mark.parametrize("text", AROUND_LEAPS)
+def test_tai_to_utc_and_calendar(text):
+    u1, u2 = _erfa_utc(text)
+    a1, a2 = erfa.utctai(u1, u2)
+    back1, back2 = erfa.taiutc(a1, a2)
+    e = ts.Epoch.from_jd(a1, a2, "tai")
+    iy, im, idd, ihmsf = erfa.d2dtf("UTC", 6, back1, back2)
+    want = "%04d-%02d-%02dT%02d:%02d:%02d.%06d" % (iy, im, idd, ihmsf["h"], ihmsf["m"], ihmsf["s"], ihmsf["f"])
+    assert e.to_iso("utc", 6, designator=False) == want
+
+
+def test_leap_table_matches_pyerfa():
+    ours = ts.leap_second_table()
+    theirs = [row for row in erfa.leap_seconds.get() if row["year"] >= 1972]
+    assert len(theirs) == len(ours.mjd)
+    for row, mjd, dat in zip(theirs, ours.mjd, ours.tai_minus_utc_s):
+        assert ts.calendar_to_mjd(row["year"], row["month"], 1) == mjd
+        assert row["tai_utc"] == dat
+
+
+def test_calendar_against_dtf2d():
+    rng = np.random.default_rng(1)
+    y = rng.integers(1800, 2200, 500)
+    m = rng.integers(1, 13, 500)
+    d = rng.integers(1, 29, 500)
+    jd1, jd2 = erfa.dtf2d("TT", y, m, d, 0, 0, 0.0)
+    assert np.all(ts.calendar_to_mjd(y, m, d) + 2400000.5 == jd1 + jd2)
+    yy, mm, dd = ts.mjd_to_calendar(ts.calendar_to_mjd(y, m, d))
+    assert np.all((yy == y) & (mm == m) & (dd == d))
+
+
+def test_tdb_minus_tt():
+    """Our 45-term Fairhead & Bretagnon series vs pyerfa's dtdb (full series, geocentric)."""
+    jd = np.linspace(2415020.5, 2488069.5, 30001)   # 1900-2100
+    ours = ts.tdb_minus_tt(jd)
+    theirs = erfa.dtdb(jd, 0.0, 0.0, 0.0, 0.0, 0.0)
+    assert np.max(np.abs(ours - theirs)) < 0.7 * ONE_MICROSECOND
+    assert np.std(ours - theirs) < 0.2 * ONE_MICROSECOND
+
+
+def test_tt_tdb_via_epoch():
+    e = ts.parse_iso(["2031-03-01T00:00:00 TT", "1985-07-01T00:00:00 TT"])
+    t1, t2 = e.two_part_jd("tt")
+    b1, b2 = e.two_part_jd("tdb")
+    dt = erfa.dtdb(t1, t2, 0.0, 0.0, 0.0, 0.0)
+    x1, x2 = erfa.tttdb(t1, t2, dt)
+    assert np.max(np.abs(((b1 - x1) + (b2 - x2)) * 86400)) < 0.7 * ONE_MICROSECOND  # series truncation
+    back = ts.parse_iso("2031-03-01T00:01:09.185381 TDB")
+    assert back.to_iso("tt", 5) == "2031-03-01T00:01:09.18400 TT"  # input was rounded to 1 us
