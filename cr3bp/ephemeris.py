@@ -415,6 +415,7 @@ class _LunarSeries:
     y_keys: tuple      # (kD, kM) combinations
     x_keys: tuple      # (kMp, kF) combinations
     coef: np.ndarray   # (P, 3Q): longitude | distance | latitude blocks
+    coef_t: np.ndarray  # (3Q, P) C-contiguous transpose
     k_d: np.ndarray    # (Q,)
     k_m: np.ndarray
     k_mp: np.ndarray   # (P,)
@@ -437,9 +438,17 @@ def _lunar_series() -> _LunarSeries:
             coef[ip, q + iq] += c
         else:
             coef[ip, 2 * q + iq] += s
-    return _LunarSeries(y_keys, x_keys, coef,
+    return _LunarSeries(y_keys, x_keys, coef, np.ascontiguousarray(coef.T),
                         np.array([k[0] for k in y_keys], float), np.array([k[1] for k in y_keys], float),
                         np.array([k[0] for k in x_keys], float), np.array([k[1] for k in x_keys], float))
+
+
+def _real_matmul(a, z):
+    """Real matrix (or vector) ``a`` times complex array ``z`` (last axis n), as one real
+    product on the interleaved (re, im) view; no copies of ``z``."""
+    zr = z.view(float)
+    out = a @ zr
+    return out.view(complex)
 
 
 def _powers(z, kmax):
@@ -494,21 +503,21 @@ def _moon_block(t: np.ndarray, vel: bool) -> np.ndarray:
     epow = {0: 1.0, 1: ecc, 2: ecc * ecc}
     y = np.empty((q, t.size), complex)
     for i, (kd, km) in enumerate(ser.y_keys):
-        y[i] = pd[kd] * pm[km] * epow[abs(km)]
+        np.multiply(pd[kd], pm[km], out=y[i])
+        if km:
+            y[i] *= epow[abs(km)]
     x = np.empty((len(ser.x_keys), t.size), complex)
     for i, (kmp, kf) in enumerate(ser.x_keys):
-        x[i] = pmp[kmp] * pf[kf]
-    yr, yi = y.real.T, y.imag.T                          # (n, q) views
-    xr, xi = np.ascontiguousarray(x.real.T), np.ascontiguousarray(x.imag.T)
-    wr, wi = xr @ ser.coef, xi @ ser.coef                # (n, 3q)
+        np.multiply(pmp[kmp], pf[kf], out=x[i])
+    coef_t = ser.coef_t
+    w = _real_matmul(coef_t, x)                           # (3q, n) complex: sum_p C[p, .] x_p
+    prods = [y * w[blk * q:(blk + 1) * q] for blk in range(3)]   # (q, n) each
 
-    def im(w_r, w_i, blk, weight=None):
-        a = yr * w_i[:, blk * q:(blk + 1) * q] + yi * w_r[:, blk * q:(blk + 1) * q]
-        return a.sum(axis=1) if weight is None else a @ weight
+    def im(blk, weight=None):
+        return (prods[blk].sum(axis=0) if weight is None else _real_matmul(weight, prods[blk])).imag
 
-    def re(w_r, w_i, blk, weight=None):
-        a = yr * w_r[:, blk * q:(blk + 1) * q] - yi * w_i[:, blk * q:(blk + 1) * q]
-        return a.sum(axis=1) if weight is None else a @ weight
+    def re(blk, weight=None):
+        return (prods[blk].sum(axis=0) if weight is None else _real_matmul(weight, prods[blk])).real
 
     # additive terms (Meeus 1998, ch. 47, after the tables)
     a1, a1_dot = _angle(_A1, t)
@@ -522,9 +531,9 @@ def _moon_block(t: np.ndarray, vel: bool) -> np.ndarray:
     add_l = 3958.0 * za1.imag + 1962.0 * z_lp_f.imag + 318.0 * s_a2
     add_b = (-2235.0 * zlp.imag + 382.0 * s_a3 + 175.0 * z_a1_mf.imag + 175.0 * z_a1_pf.imag
              + 127.0 * z_lp_mmp.imag - 115.0 * z_lp_pmp.imag)
-    sum_l = im(wr, wi, 0) + add_l
-    sum_r = re(wr, wi, 1)
-    sum_b = im(wr, wi, 2) + add_b
+    sum_l = im(0) + add_l
+    sum_r = re(1)
+    sum_b = im(2) + add_b
 
     # lambda = L' + dl with dl small; beta small
     cdl, sdl = _cos_sin_small(sum_l * (1e-6 * DEG))
@@ -539,29 +548,30 @@ def _moon_block(t: np.ndarray, vel: bool) -> np.ndarray:
         out[:, 3:] = 0.0
         return out
 
-    # time derivatives of the three sums: sin series -> cos series times argument rates
-    wr_mp, wi_mp = (xr * ser.k_mp) @ ser.coef, (xi * ser.k_mp) @ ser.coef
-    wr_f, wi_f = (xr * ser.k_f) @ ser.coef, (xi * ser.k_f) @ ser.coef
+    # time derivatives of the three sums: sin series -> cos series times argument rates.
+    # Weights kD, kM act on the y factor; kM', kF on the x factor (new matrix products).
+    w_mp = _real_matmul(coef_t, x * ser.k_mp[:, None])
+    w_f = _real_matmul(coef_t, x * ser.k_f[:, None])
     e_w = np.abs(ser.k_m)                        # d(E^|k|)/dt = |k| E^|k| Edot/E
 
-    def rate_sin(blk):   # d/dt of Im(sum)
-        return (d_dot * re(wr, wi, blk, ser.k_d) + m_dot * re(wr, wi, blk, ser.k_m)
-                + mp_dot * re(wr_mp, wi_mp, blk) + f_dot * re(wr_f, wi_f, blk)
-                + (ecc_dot / ecc) * im(wr, wi, blk, e_w))
+    def both(blk, w_x):                          # sum_q y_q w_x[q] for the x-weighted parts
+        return (y * w_x[blk * q:(blk + 1) * q]).sum(axis=0)
 
-    def rate_cos(blk):   # d/dt of Re(sum)
-        return (-(d_dot * im(wr, wi, blk, ser.k_d) + m_dot * im(wr, wi, blk, ser.k_m)
-                  + mp_dot * im(wr_mp, wi_mp, blk) + f_dot * im(wr_f, wi_f, blk))
-                + (ecc_dot / ecc) * re(wr, wi, blk, e_w))
+    def rate(blk):   # d/dt of the complex sum: i * (weighted sum) + Edot/E part
+        z = (d_dot * _real_matmul(ser.k_d, prods[blk]) + m_dot * _real_matmul(ser.k_m, prods[blk])
+             + mp_dot * both(blk, w_mp) + f_dot * both(blk, w_f))
+        return 1j * z + (ecc_dot / ecc) * _real_matmul(e_w, prods[blk])
+
+    rate_l, rate_r, rate_b = rate(0), rate(1), rate(2)
 
     add_l_dot = (3958.0 * za1.real * a1_dot + 1962.0 * z_lp_f.real * (lp_dot - f_dot)
                  + 318.0 * np.cos(a2) * a2_dot)
     add_b_dot = (-2235.0 * zlp.real * lp_dot + 382.0 * np.cos(a3) * a3_dot
                  + 175.0 * z_a1_mf.real * (a1_dot - f_dot) + 175.0 * z_a1_pf.real * (a1_dot + f_dot)
                  + 127.0 * z_lp_mmp.real * (lp_dot - mp_dot) - 115.0 * z_lp_pmp.real * (lp_dot + mp_dot))
-    lam_dot = lp_dot + (rate_sin(0) + add_l_dot) * (1e-6 * DEG)
-    beta_dot = (rate_sin(2) + add_b_dot) * (1e-6 * DEG)
-    dist_dot = rate_cos(1) * 1e-3
+    lam_dot = lp_dot + (rate_l.imag + add_l_dot) * (1e-6 * DEG)
+    beta_dot = (rate_b.imag + add_b_dot) * (1e-6 * DEG)
+    dist_dot = rate_r.real * 1e-3
     _apply(rot,
            dist_dot * cb * cl - dist * sb * cl * beta_dot - dist * cb * sl * lam_dot,
            dist_dot * cb * sl - dist * sb * sl * beta_dot + dist * cb * cl * lam_dot,
