@@ -40,6 +40,6 @@ def run():
     rows.append(("ephemeris: Moon state, 1e6 epochs", st, base_name, base, "(position+velocity)"))
     sun = _best(lambda: eph.position("sun", t[:100_000], "earth"), repeat=1)
     rows.append(("ephemeris: Sun about Earth, 1e5 epochs", sun, "", None, "(Moon + EMB Kepler)"))
-    iso = _best(lambda: t[:100_000].to_iso("utc", 3), repeat=1)
-    rows.append(("timescales: 1e5 epochs to ISO UTC text", iso, "", None, "(export of 1e5 states)"))
+    iso = _best(lambda: t[:100_000].to_iso("tdb", 3), repeat=1)
+    rows.append(("timescales: 1e5 epochs to ISO TDB text", iso, "", None, "(export of 1e5 states)"))
     return rows

@@ -50,7 +50,7 @@ Neptune / Sun      1800-2050  1 660 000   66           15        plan94
 =================  =========  ==========  ===========  ========  ===================
 
 The Moon series is the one moon98 implements (it omits the 0.7 arcsec light-time constant
-that Meeus' mean longitude contains, and precesses with IAU 2006 angles), so against a full
+that Meeus' mean longitude contains, per its documentation), so against a full
 lunar ephemeris our Moon inherits moon98's documented error: about 20 arcsec and 34 km worst,
 3 arcsec and 6 km rms (1950-2100). The planetary errors are those of Standish's Table 1
 (his own estimate for Jupiter and Saturn is several hundred arcsec over 1800-2050).
@@ -78,7 +78,7 @@ DEG = math.pi / 180.0
 ARCSEC = DEG / 3600.0
 KEPLER_TOL_RAD = 1e-13
 KEPLER_MAX_ITER = 30
-CHUNK = 2048                              # epochs per block in the lunar series (fits in cache)
+CHUNK = 4096                              # epochs per block in the lunar series (fits in cache)
 
 #: Bodies whose elements are read; Pluto only enters the barycentre (no outside check of
 #: its own position is available to us, so it is not offered as a body).
@@ -396,8 +396,13 @@ def _dpoly(c, t):
 
 def _angle(c, t):
     """Angle in radians (not reduced: at most 1e4 rad over 1800-2100, so trigonometric
-    functions lose under 1e-12 rad) and its rate in rad/s."""
-    return _poly(c, t) * DEG, _dpoly(c, t) * (DEG / SECONDS_PER_CENTURY)
+    functions lose under 1e-12 rad)."""
+    return _poly(c, t) * DEG
+
+
+def _rate(c, t):
+    """Rate of the angle of :func:`_angle`, rad/s."""
+    return _dpoly(c, t) * (DEG / SECONDS_PER_CENTURY)
 
 
 def _unit(a):
@@ -416,6 +421,9 @@ class _LunarSeries:
     x_keys: tuple      # (kMp, kF) combinations
     coef: np.ndarray   # (P, 3Q): longitude | distance | latitude blocks
     coef_t: np.ndarray  # (3Q, P) C-contiguous transpose
+    rows: tuple         # sparse rows of coef_t: per row ((p, value), ...)
+    rows_mp: tuple      # the same with values times kM'
+    rows_f: tuple       # the same with values times kF
     k_d: np.ndarray    # (Q,)
     k_m: np.ndarray
     k_mp: np.ndarray   # (P,)
@@ -438,16 +446,42 @@ def _lunar_series() -> _LunarSeries:
             coef[ip, q + iq] += c
         else:
             coef[ip, 2 * q + iq] += s
-    return _LunarSeries(y_keys, x_keys, coef, np.ascontiguousarray(coef.T),
+    coef_t = np.ascontiguousarray(coef.T)
+    k_mp = np.array([k[0] for k in x_keys], float)
+    k_f = np.array([k[1] for k in x_keys], float)
+
+    def sparse(mat):
+        return tuple(tuple((int(j), float(mat[i, j])) for j in np.flatnonzero(mat[i])) for i in range(mat.shape[0]))
+
+    return _LunarSeries(y_keys, x_keys, coef, coef_t, sparse(coef_t), sparse(coef_t * k_mp), sparse(coef_t * k_f),
                         np.array([k[0] for k in y_keys], float), np.array([k[1] for k in y_keys], float),
                         np.array([k[0] for k in x_keys], float), np.array([k[1] for k in x_keys], float))
 
 
+def _sparse_product(rows, x):
+    """``C @ x`` for a sparse real C given by rows ((column, value), ...) and complex x (P, n).
+
+    The lunar coefficient matrix is 13% full (165 of 1287 entries), so accumulating its
+    non-zero entries beats any dense product."""
+    out = np.zeros((len(rows), x.shape[1]), complex)
+    tmp = np.empty(x.shape[1], complex)
+    for i, row in enumerate(rows):
+        acc = out[i]
+        for j, v in row:
+            np.multiply(x[j], v, out=tmp)
+            acc += tmp
+    return out
+
+
 def _real_matmul(a, z):
     """Real matrix (or vector) ``a`` times complex array ``z`` (last axis n), as one real
-    product on the interleaved (re, im) view; no copies of ``z``."""
+    product on the interleaved (re, im) view; no copies of ``z``.
+
+    ``np.einsum`` (its own C loop) rather than ``@``: these products are small (at most
+    39 x 33), and a threaded BLAS spends more time waking threads than multiplying,
+    badly so on a shared machine (measured: 3 to 4 times slower overall)."""
     zr = z.view(float)
-    out = a @ zr
+    out = np.einsum("q,qn->n", a, zr) if a.ndim == 1 else np.einsum("pq,qn->pn", a, zr)
     return out.view(complex)
 
 
@@ -489,13 +523,8 @@ def _moon_block(t: np.ndarray, vel: bool) -> np.ndarray:
     """
     ser = _lunar_series()
     q = len(ser.y_keys)
-    lp, lp_dot = _angle(_LP, t)
-    d, d_dot = _angle(_D, t)
-    m, m_dot = _angle(_M, t)
-    mp, mp_dot = _angle(_MP, t)
-    f, f_dot = _angle(_F, t)
+    lp, d, m, mp, f = (_angle(c, t) for c in (_LP, _D, _M, _MP, _F))
     ecc = _poly(_E, t)
-    ecc_dot = _dpoly(_E, t) / SECONDS_PER_CENTURY
 
     zd, zm, zmp, zf = _unit(d), _unit(m), _unit(mp), _unit(f)
     pd, pm = _powers(zd, 4), _powers(zm, 2)
@@ -509,8 +538,7 @@ def _moon_block(t: np.ndarray, vel: bool) -> np.ndarray:
     x = np.empty((len(ser.x_keys), t.size), complex)
     for i, (kmp, kf) in enumerate(ser.x_keys):
         np.multiply(pmp[kmp], pf[kf], out=x[i])
-    coef_t = ser.coef_t
-    w = _real_matmul(coef_t, x)                           # (3q, n) complex: sum_p C[p, .] x_p
+    w = _sparse_product(ser.rows, x)                      # (3q, n) complex: sum_p C[p, .] x_p
     prods = [y * w[blk * q:(blk + 1) * q] for blk in range(3)]   # (q, n) each
 
     def im(blk, weight=None):
@@ -520,9 +548,7 @@ def _moon_block(t: np.ndarray, vel: bool) -> np.ndarray:
         return (prods[blk].sum(axis=0) if weight is None else _real_matmul(weight, prods[blk])).real
 
     # additive terms (Meeus 1998, ch. 47, after the tables)
-    a1, a1_dot = _angle(_A1, t)
-    a2, a2_dot = _angle(_A2, t)
-    a3, a3_dot = _angle(_A3, t)
+    a1, a2, a3 = _angle(_A1, t), _angle(_A2, t), _angle(_A3, t)
     za1, zlp = _unit(a1), _unit(lp)
     s_a2, s_a3 = np.sin(a2), np.sin(a3)
     z_lp_f = zlp * pf[-1]
@@ -548,10 +574,13 @@ def _moon_block(t: np.ndarray, vel: bool) -> np.ndarray:
         out[:, 3:] = 0.0
         return out
 
+    lp_dot, d_dot, m_dot, mp_dot, f_dot, a1_dot, a2_dot, a3_dot = (
+        _rate(c, t) for c in (_LP, _D, _M, _MP, _F, _A1, _A2, _A3))
+    ecc_dot = _dpoly(_E, t) / SECONDS_PER_CENTURY
     # time derivatives of the three sums: sin series -> cos series times argument rates.
     # Weights kD, kM act on the y factor; kM', kF on the x factor (new matrix products).
-    w_mp = _real_matmul(coef_t, x * ser.k_mp[:, None])
-    w_f = _real_matmul(coef_t, x * ser.k_f[:, None])
+    w_mp = _sparse_product(ser.rows_mp, x)
+    w_f = _sparse_product(ser.rows_f, x)
     e_w = np.abs(ser.k_m)                        # d(E^|k|)/dt = |k| E^|k| Edot/E
 
     def both(blk, w_x):                          # sum_q y_q w_x[q] for the x-weighted parts
