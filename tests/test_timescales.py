@@ -111,3 +111,14 @@ def test_jd_round_trip(jd, scale):
     e = Epoch.from_jd(jd, 0.0, scale)
     a, b = e.two_part_jd(scale)
     assert ((a - jd) + b) * 86400 == pytest.approx(0.0, abs=ONE_MICROSECOND)
+
+
+def test_year_outside_iso_range():
+    e = Epoch.from_jd(5_400_000.5, 0.0, "tt")   # year 10072
+    with pytest.raises(InputError, match="10072"):
+        e.to_iso("tt")
+
+
+def test_text_fields_are_zero_padded_and_exact():
+    e = parse_iso(["0001-01-01T00:00:00 TT", "2024-02-29T07:08:09.000001 TT"])
+    assert e.to_iso("tt", 6) == ["0001-01-01T00:00:00.000000 TT", "2024-02-29T07:08:09.000001 TT"]
