@@ -420,10 +420,7 @@ class _LunarSeries:
     y_keys: tuple      # (kD, kM) combinations
     x_keys: tuple      # (kMp, kF) combinations
     coef: np.ndarray   # (P, 3Q): longitude | distance | latitude blocks
-    coef_t: np.ndarray  # (3Q, P) C-contiguous transpose
-    rows: tuple         # sparse rows of coef_t: per row ((p, value), ...)
-    rows_mp: tuple      # the same with values times kM'
-    rows_f: tuple       # the same with values times kF
+    rows: tuple        # sparse rows of coef.T: per row ((p, value), ...), 165 entries in all
     k_d: np.ndarray    # (Q,)
     k_m: np.ndarray
     k_mp: np.ndarray   # (P,)
@@ -446,43 +443,54 @@ def _lunar_series() -> _LunarSeries:
             coef[ip, q + iq] += c
         else:
             coef[ip, 2 * q + iq] += s
-    coef_t = np.ascontiguousarray(coef.T)
-    k_mp = np.array([k[0] for k in x_keys], float)
-    k_f = np.array([k[1] for k in x_keys], float)
-
-    def sparse(mat):
-        return tuple(tuple((int(j), float(mat[i, j])) for j in np.flatnonzero(mat[i])) for i in range(mat.shape[0]))
-
-    return _LunarSeries(y_keys, x_keys, coef, coef_t, sparse(coef_t), sparse(coef_t * k_mp), sparse(coef_t * k_f),
+    coef_t = coef.T
+    rows = tuple(tuple((int(j), float(coef_t[i, j])) for j in np.flatnonzero(coef_t[i]))
+                 for i in range(coef_t.shape[0]))
+    return _LunarSeries(y_keys, x_keys, coef, rows,
                         np.array([k[0] for k in y_keys], float), np.array([k[1] for k in y_keys], float),
                         np.array([k[0] for k in x_keys], float), np.array([k[1] for k in x_keys], float))
 
 
-def _sparse_product(rows, x):
-    """``C @ x`` for a sparse real C given by rows ((column, value), ...) and complex x (P, n).
+def _fused_sums(ser, x, y, vel):
+    """Sums of the lunar series, row by row of the coefficient matrix so that only vectors
+    of n stay in cache.
 
-    The lunar coefficient matrix is 13% full (165 of 1287 entries), so accumulating its
-    non-zero entries beats any dense product."""
-    out = np.zeros((len(rows), x.shape[1]), complex)
-    tmp = np.empty(x.shape[1], complex)
-    for i, row in enumerate(rows):
-        acc = out[i]
+    Returns, per block (longitude, distance, latitude), the complex sum
+    ``S = sum_q y_q (C @ x)_q`` and, with ``vel``, the weighted sums whose combination
+    with the argument rates gives dS/dt: weights kD, kM, |kM| on the y factor and kM', kF
+    on the x factor.
+    """
+    q = len(ser.y_keys)
+    n = x.shape[1]
+    names = ("s", "kd", "km", "ke", "kmp", "kf") if vel else ("s",)
+    out = {k: [np.zeros(n, complex) for _ in range(3)] for k in names}
+    w, tmp, prod = (np.empty(n, complex) for _ in range(3))
+    w_mp, w_f = np.empty(n, complex), np.empty(n, complex)
+    for i, row in enumerate(ser.rows):
+        if not row:
+            continue
+        blk, iq = divmod(i, q)
+        w[:] = 0.0
+        if vel:
+            w_mp[:] = 0.0
+            w_f[:] = 0.0
         for j, v in row:
             np.multiply(x[j], v, out=tmp)
-            acc += tmp
+            w += tmp
+            if vel:
+                if ser.k_mp[j]:
+                    w_mp += tmp * ser.k_mp[j]
+                if ser.k_f[j]:
+                    w_f += tmp * ser.k_f[j]
+        np.multiply(w, y[iq], out=prod)
+        out["s"][blk] += prod
+        if vel:
+            for key, k in (("kd", ser.k_d[iq]), ("km", ser.k_m[iq]), ("ke", abs(ser.k_m[iq]))):
+                if k:
+                    out[key][blk] += prod * k
+            out["kmp"][blk] += w_mp * y[iq]
+            out["kf"][blk] += w_f * y[iq]
     return out
-
-
-def _real_matmul(a, z):
-    """Real matrix (or vector) ``a`` times complex array ``z`` (last axis n), as one real
-    product on the interleaved (re, im) view; no copies of ``z``.
-
-    ``np.einsum`` (its own C loop) rather than ``@``: these products are small (at most
-    39 x 33), and a threaded BLAS spends more time waking threads than multiplying,
-    badly so on a shared machine (measured: 3 to 4 times slower overall)."""
-    zr = z.view(float)
-    out = np.einsum("q,qn->n", a, zr) if a.ndim == 1 else np.einsum("pq,qn->pn", a, zr)
-    return out.view(complex)
 
 
 def _powers(z, kmax):
@@ -518,11 +526,11 @@ def _moon_block(t: np.ndarray, vel: bool) -> np.ndarray:
 
     Each term sin(kD D + kM M + kM' M' + kF F) is the imaginary part of
     ``exp(i (kD D + kM M)) * exp(i (kM' M' + kF F))``: the two factors take few distinct
-    values (``y_keys``, ``x_keys``), so the series is one real matrix product per part;
-    only eight angles need trigonometric functions.
+    values (13 ``y_keys``, 33 ``x_keys``), so the series is a sparse real matrix (165
+    entries) applied to the x factors, then weighted by the y factors; only eight angles
+    need trigonometric functions.
     """
     ser = _lunar_series()
-    q = len(ser.y_keys)
     lp, d, m, mp, f = (_angle(c, t) for c in (_LP, _D, _M, _MP, _F))
     ecc = _poly(_E, t)
 
@@ -530,7 +538,7 @@ def _moon_block(t: np.ndarray, vel: bool) -> np.ndarray:
     pd, pm = _powers(zd, 4), _powers(zm, 2)
     pmp, pf = _powers(zmp, 4), _powers(zf, 3)
     epow = {0: 1.0, 1: ecc, 2: ecc * ecc}
-    y = np.empty((q, t.size), complex)
+    y = np.empty((len(ser.y_keys), t.size), complex)
     for i, (kd, km) in enumerate(ser.y_keys):
         np.multiply(pd[kd], pm[km], out=y[i])
         if km:
@@ -538,14 +546,8 @@ def _moon_block(t: np.ndarray, vel: bool) -> np.ndarray:
     x = np.empty((len(ser.x_keys), t.size), complex)
     for i, (kmp, kf) in enumerate(ser.x_keys):
         np.multiply(pmp[kmp], pf[kf], out=x[i])
-    w = _sparse_product(ser.rows, x)                      # (3q, n) complex: sum_p C[p, .] x_p
-    prods = [y * w[blk * q:(blk + 1) * q] for blk in range(3)]   # (q, n) each
-
-    def im(blk, weight=None):
-        return (prods[blk].sum(axis=0) if weight is None else _real_matmul(weight, prods[blk])).imag
-
-    def re(blk, weight=None):
-        return (prods[blk].sum(axis=0) if weight is None else _real_matmul(weight, prods[blk])).real
+    sums = _fused_sums(ser, x, y, vel)
+    totals = sums["s"]
 
     # additive terms (Meeus 1998, ch. 47, after the tables)
     a1, a2, a3 = _angle(_A1, t), _angle(_A2, t), _angle(_A3, t)
@@ -557,9 +559,9 @@ def _moon_block(t: np.ndarray, vel: bool) -> np.ndarray:
     add_l = 3958.0 * za1.imag + 1962.0 * z_lp_f.imag + 318.0 * s_a2
     add_b = (-2235.0 * zlp.imag + 382.0 * s_a3 + 175.0 * z_a1_mf.imag + 175.0 * z_a1_pf.imag
              + 127.0 * z_lp_mmp.imag - 115.0 * z_lp_pmp.imag)
-    sum_l = im(0) + add_l
-    sum_r = re(1)
-    sum_b = im(2) + add_b
+    sum_l = totals[0].imag + add_l
+    sum_r = totals[1].real
+    sum_b = totals[2].imag + add_b
 
     # lambda = L' + dl with dl small; beta small
     cdl, sdl = _cos_sin_small(sum_l * (1e-6 * DEG))
@@ -577,19 +579,12 @@ def _moon_block(t: np.ndarray, vel: bool) -> np.ndarray:
     lp_dot, d_dot, m_dot, mp_dot, f_dot, a1_dot, a2_dot, a3_dot = (
         _rate(c, t) for c in (_LP, _D, _M, _MP, _F, _A1, _A2, _A3))
     ecc_dot = _dpoly(_E, t) / SECONDS_PER_CENTURY
-    # time derivatives of the three sums: sin series -> cos series times argument rates.
-    # Weights kD, kM act on the y factor; kM', kF on the x factor (new matrix products).
-    w_mp = _sparse_product(ser.rows_mp, x)
-    w_f = _sparse_product(ser.rows_f, x)
-    e_w = np.abs(ser.k_m)                        # d(E^|k|)/dt = |k| E^|k| Edot/E
-
-    def both(blk, w_x):                          # sum_q y_q w_x[q] for the x-weighted parts
-        return (y * w_x[blk * q:(blk + 1) * q]).sum(axis=0)
-
-    def rate(blk):   # d/dt of the complex sum: i * (weighted sum) + Edot/E part
-        z = (d_dot * _real_matmul(ser.k_d, prods[blk]) + m_dot * _real_matmul(ser.k_m, prods[blk])
-             + mp_dot * both(blk, w_mp) + f_dot * both(blk, w_f))
-        return 1j * z + (ecc_dot / ecc) * _real_matmul(e_w, prods[blk])
+    # time derivatives of the three sums: d/dt sum A exp(i arg) = i sum A (k . rates) exp(i arg)
+    # plus the E^|kM| factor's rate (d(E^k)/dt = k E^k Edot/E)
+    def rate(blk):
+        z = (d_dot * sums["kd"][blk] + m_dot * sums["km"][blk] + mp_dot * sums["kmp"][blk]
+             + f_dot * sums["kf"][blk])
+        return 1j * z + (ecc_dot / ecc) * sums["ke"][blk]
 
     rate_l, rate_r, rate_b = rate(0), rate(1), rate(2)
 
