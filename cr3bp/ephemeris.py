@@ -8,9 +8,13 @@ Models
 ------
 * **Planets** (and the Earth-Moon barycentre, EMB): Keplerian orbits from mean elements and
   their linear rates, E. M. Standish, "Keplerian Elements for Approximate Positions of the
-  Major Planets" (JPL), **Table 1, valid 1800-2050** (``data/planet_elements.csv``), solved
-  with a vectorised Newton iteration for Kepler's equation. Table 2 (3000 BC-3000 AD) is not
-  implemented. The elements are referred to the J2000 ecliptic and equinox.
+  Major Planets" (JPL): **Table 1 (valid 1800-2050) inside 1800-2050**
+  (``data/planet_elements.csv``) and **Table 2a/2b (valid 3000 BC-3000 AD) outside it**
+  (``data/planet_elements_long.csv``, with the extra mean-anomaly terms of Jupiter to
+  Pluto), accepted over **1000-3000 AD** only, the span we can check against plan94. The
+  switch at 2051-01-01 jumps by up to the two tables' errors. Kepler's equation is solved
+  by a vectorised Newton iteration. The elements are referred to the J2000 ecliptic and
+  equinox.
 * **Moon** (geocentric): the ELP-2000/82 main terms as truncated in J. Meeus, *Astronomical
   Algorithms*, 2nd ed. (1998), ch. 47 (Tables 47.A/47.B, 60 + 60 terms plus the additive
   terms), velocity by analytic differentiation of the same series. The series gives the
@@ -37,23 +41,34 @@ asserted there; :data:`ACCURACY` holds them):
 body / center      years      km          arcsec       m/s       reference
 =================  =========  ==========  ===========  ========  ===================
 Moon / Earth       1900-2100  2.1         1.0          0.006     moon98 (same series)
-Sun / Earth        1900-2050  19 000      26           2.7       epv00
-Sun / SSB          1900-2050  2 400       -            0.03      epv00
-Mercury / Sun      1800-2050  6 600       30           6.7       plan94
-Venus / Sun        1800-2050  14 000      28           4.5       plan94
-EMB / Sun          1800-2050  18 000      25           3.5       plan94
-Mars / Sun         1800-2050  104 000     103          12        plan94
-Jupiter / Sun      1800-2050  1 850 000   514          38        plan94
-Saturn / Sun       1800-2050  4 900 000   656          41        plan94
-Uranus / Sun       1800-2050  2 370 000   147          21        plan94
-Neptune / Sun      1800-2050  1 660 000   66           15        plan94
+Sun / Earth        1900-2050  19 000      26           2.5       epv00
+Sun / Earth        2051-2100  30 000      41           4.1       epv00 (Table 2)
+Sun / SSB          1900-2100  2 400       -            0.03      epv00
+**Table 1**        1800-2050
+Mercury / Sun                 6 600       30           6.7       plan94
+Venus / Sun                   14 000      28           4.5       plan94
+EMB / Sun                     18 000      25           3.4       plan94
+Mars / Sun                    104 000     103          12        plan94
+Jupiter / Sun                 1 850 000   514          38        plan94
+Saturn / Sun                  4 900 000   656          41        plan94
+Uranus / Sun                  2 370 000   147          21        plan94
+Neptune / Sun                 1 660 000   66           8         plan94
+**Table 2**        1000-1800, 2051-3000
+Mercury / Sun                 10 800      33           8.1       plan94
+Venus / Sun                   49 000      93           13        plan94
+EMB / Sun                     44 000      61           6.6       plan94
+Mars / Sun                    191 000     182          20        plan94
+Jupiter / Sun                 2 830 000   788          45        plan94
+Saturn / Sun                  10 400 000  1462         66        plan94
+Uranus / Sun                  17 100 000  1262         43        plan94
+Neptune / Sun                 11 700 000  534          13        plan94
 =================  =========  ==========  ===========  ========  ===================
 
 The Moon series is the one moon98 implements (it omits the 0.7 arcsec light-time constant
 that Meeus' mean longitude contains, per its documentation), so against a full
 lunar ephemeris our Moon inherits moon98's documented error: about 20 arcsec and 34 km worst,
-3 arcsec and 6 km rms (1950-2100). The planetary errors are those of Standish's Table 1
-(his own estimate for Jupiter and Saturn is several hundred arcsec over 1800-2050).
+3 arcsec and 6 km rms (1950-2100). The planetary differences are dominated by Standish's
+mean elements (plan94 itself is good to about 1 arcmin for the outer planets).
 """
 
 from __future__ import annotations
@@ -87,11 +102,13 @@ BODIES = ("sun", "moon", "earth") + PLANETS[:-1]
 CENTERS = ("earth", "moon", "sun", "ssb", "emb")
 FRAMES = ("j2000-equator", "j2000-ecliptic")
 
-# Validity: TT Julian centuries from J2000 (inclusive).
-# Planets: Standish Table 1, 1800-01-01 .. 2050-12-31. Moon: the span over which our series
-# is checked against pyerfa's moon98 (itself checked by its authors against ELP/MPP02,
-# 1950-2100), 1900-01-01 .. 2100-12-31.
-PLANET_SPAN = ("1800-01-01T00:00:00 TT", "2051-01-01T00:00:00 TT")
+# Validity (TT). Planets: Standish Table 1 within 1800-2050, Table 2 outside it, accepted
+# 1000-3000 AD (the span over which Table 2 is checked against pyerfa's plan94; Standish
+# gives it for 3000 BC - 3000 AD). Moon: the span over which our series is checked against
+# pyerfa's moon98 (itself checked by its authors against ELP/MPP02, 1950-2100).
+# Anything needing both (Earth or Moon about the Sun, the SSB or a planet) gets the overlap.
+TABLE1_SPAN = ("1800-01-01T00:00:00 TT", "2051-01-01T00:00:00 TT")
+PLANET_SPAN = ("1000-01-01T00:00:00 TT", "3000-01-01T00:00:00 TT")
 MOON_SPAN = ("1900-01-01T00:00:00 TT", "2101-01-01T00:00:00 TT")
 
 #: Documented worst-case differences from pyerfa (position km, direction arcsec, velocity
@@ -100,19 +117,30 @@ MOON_SPAN = ("1900-01-01T00:00:00 TT", "2101-01-01T00:00:00 TT")
 #: worst 18.3 arcsec / 31.7 km against ELP/MPP02 over 1950-2100, per its documentation) or,
 #: for the planets, Standish's own Table 1 error estimates (which these figures match).
 ACCURACY = {
-    # (body, center): dict(years, reference, km, arcsec, mps)
-    ("moon", "earth"): dict(years=(1900, 2100), reference="pyerfa moon98", km=2.5, arcsec=1.3, mps=0.01,
-                            truth="about 34 km, 20 arcsec, 0.2 m/s worst (1950-2100)"),
-    ("sun", "earth"): dict(years=(1900, 2050), reference="pyerfa epv00", km=22000.0, arcsec=30.0, mps=3.0),
-    ("sun", "ssb"): dict(years=(1900, 2050), reference="pyerfa epv00", km=3000.0, arcsec=None, mps=0.05),
-    ("mercury", "sun"): dict(years=(1800, 2050), reference="pyerfa plan94", km=8000.0, arcsec=35.0, mps=8.0),
-    ("venus", "sun"): dict(years=(1800, 2050), reference="pyerfa plan94", km=17000.0, arcsec=33.0, mps=6.0),
-    ("emb", "sun"): dict(years=(1800, 2050), reference="pyerfa plan94", km=21000.0, arcsec=30.0, mps=4.0),
-    ("mars", "sun"): dict(years=(1800, 2050), reference="pyerfa plan94", km=125000.0, arcsec=125.0, mps=14.0),
-    ("jupiter", "sun"): dict(years=(1800, 2050), reference="pyerfa plan94", km=2.2e6, arcsec=620.0, mps=45.0),
-    ("saturn", "sun"): dict(years=(1800, 2050), reference="pyerfa plan94", km=5.9e6, arcsec=790.0, mps=50.0),
-    ("uranus", "sun"): dict(years=(1800, 2050), reference="pyerfa plan94", km=2.9e6, arcsec=180.0, mps=25.0),
-    ("neptune", "sun"): dict(years=(1800, 2050), reference="pyerfa plan94", km=2.0e6, arcsec=80.0, mps=18.0),
+    # (body, center, years): dict(reference, km, arcsec, mps)
+    ("moon", "earth", (1900, 2100)): dict(reference="pyerfa moon98", km=2.5, arcsec=1.3, mps=0.01,
+                                          truth="about 34 km, 20 arcsec, 0.2 m/s worst (1950-2100)"),
+    ("sun", "earth", (1900, 2050)): dict(reference="pyerfa epv00", km=22000.0, arcsec=30.0, mps=3.0),
+    ("sun", "earth", (2051, 2100)): dict(reference="pyerfa epv00", km=34000.0, arcsec=46.0, mps=4.6),
+    ("sun", "ssb", (1900, 2100)): dict(reference="pyerfa epv00", km=3000.0, arcsec=None, mps=0.05),
+    # Standish Table 1, 1800-2050
+    ("mercury", "sun", (1800, 2050)): dict(reference="pyerfa plan94", km=8000.0, arcsec=35.0, mps=8.0),
+    ("venus", "sun", (1800, 2050)): dict(reference="pyerfa plan94", km=17000.0, arcsec=33.0, mps=6.0),
+    ("emb", "sun", (1800, 2050)): dict(reference="pyerfa plan94", km=21000.0, arcsec=30.0, mps=4.0),
+    ("mars", "sun", (1800, 2050)): dict(reference="pyerfa plan94", km=125000.0, arcsec=125.0, mps=14.0),
+    ("jupiter", "sun", (1800, 2050)): dict(reference="pyerfa plan94", km=2.2e6, arcsec=620.0, mps=45.0),
+    ("saturn", "sun", (1800, 2050)): dict(reference="pyerfa plan94", km=5.9e6, arcsec=790.0, mps=50.0),
+    ("uranus", "sun", (1800, 2050)): dict(reference="pyerfa plan94", km=2.9e6, arcsec=180.0, mps=25.0),
+    ("neptune", "sun", (1800, 2050)): dict(reference="pyerfa plan94", km=2.0e6, arcsec=80.0, mps=18.0),
+    # Standish Table 2a/2b, 1000-1800 and 2051-3000
+    ("mercury", "sun", (1000, 3000)): dict(reference="pyerfa plan94", km=13000.0, arcsec=40.0, mps=10.0),
+    ("venus", "sun", (1000, 3000)): dict(reference="pyerfa plan94", km=60000.0, arcsec=110.0, mps=16.0),
+    ("emb", "sun", (1000, 3000)): dict(reference="pyerfa plan94", km=54000.0, arcsec=74.0, mps=8.0),
+    ("mars", "sun", (1000, 3000)): dict(reference="pyerfa plan94", km=230000.0, arcsec=220.0, mps=24.0),
+    ("jupiter", "sun", (1000, 3000)): dict(reference="pyerfa plan94", km=3.4e6, arcsec=950.0, mps=54.0),
+    ("saturn", "sun", (1000, 3000)): dict(reference="pyerfa plan94", km=1.25e7, arcsec=1750.0, mps=80.0),
+    ("uranus", "sun", (1000, 3000)): dict(reference="pyerfa plan94", km=2.05e7, arcsec=1520.0, mps=52.0),
+    ("neptune", "sun", (1000, 3000)): dict(reference="pyerfa plan94", km=1.4e7, arcsec=640.0, mps=16.0),
 }
 
 
@@ -123,7 +151,7 @@ ACCURACY = {
 def position(body: str, epochs, center: str = "earth", frame: str = "j2000-equator") -> np.ndarray:
     """Position of ``body`` relative to ``center``, km, in ``frame`` axes.
 
-    Method: Standish's Table 1 mean elements (planets, EMB) and Meeus ch. 47 (Moon), see the
+    Method: Standish's Table 1 / Table 2 mean elements (planets, EMB) and Meeus ch. 47 (Moon), see the
     module docstring for every model, frame rotation and constant.
 
     Parameters
@@ -183,8 +211,15 @@ def valid_interval(body: str, center: str = "earth") -> tuple[Epoch, Epoch]:
     """(first, last) epochs at which :func:`position` accepts ``body`` about ``center``."""
     body = _choice("body", body, BODIES)
     center = _choice("center", center, CENTERS)
-    span = MOON_SPAN if {body, center} <= {"moon", "earth"} else PLANET_SPAN
-    return parse_iso(span[0]), parse_iso(span[1])
+    pair = {body, center}
+    spans = []
+    if pair & {"moon", "earth"}:
+        spans.append(MOON_SPAN)
+    if not pair <= {"moon", "earth"}:
+        spans.append(PLANET_SPAN)
+    lo = max(parse_iso(sp[0]).jd("tt") for sp in spans)
+    hi = min(parse_iso(sp[1]).jd("tt") for sp in spans)
+    return Epoch.from_jd(lo, 0.0, "tt"), Epoch.from_jd(hi, 0.0, "tt")
 
 
 def ecliptic_to_equator_matrix() -> np.ndarray:
@@ -272,16 +307,38 @@ def _check_span(t, lo: Epoch, hi: Epoch, body, center):
 # Planets: Standish Table 1 mean elements + Kepler's equation
 
 
-@lru_cache(maxsize=1)
-def _elements() -> dict:
-    text = resources.files("cr3bp.data").joinpath("planet_elements.csv").read_text()
+@lru_cache(maxsize=2)
+def _elements(table: str = "planet_elements.csv") -> dict:
+    """Standish's elements: Table 1 (``planet_elements.csv``) or Table 2a/2b
+    (``planet_elements_long.csv``), as {body: {column: value}}; missing b, c, s, f are 0."""
+    text = resources.files("cr3bp.data").joinpath(table).read_text()
     rows = [ln for ln in text.splitlines() if ln.strip() and not ln.startswith("#")]
     keys = rows[0].split(",")
     out = {}
     for ln in rows[1:]:
         vals = ln.split(",")
-        out[vals[0]] = {k: float(v) for k, v in zip(keys[1:], vals[1:])}
+        el = {"b": 0.0, "c": 0.0, "s": 0.0, "f": 0.0}
+        el.update({k: float(v) for k, v in zip(keys[1:], vals[1:])})
+        out[vals[0]] = el
     return out
+
+
+@lru_cache(maxsize=1)
+def _table1_centuries() -> tuple[float, float]:
+    return tuple(float(parse_iso(x).seconds_since_j2000("tt")) / SECONDS_PER_CENTURY for x in TABLE1_SPAN)
+
+
+def _element_arrays(name: str, t: np.ndarray) -> dict:
+    """Per-epoch element coefficients: Table 1 inside 1800-2050, Table 2a/2b outside."""
+    one = _elements()[name]
+    lo, hi = _table1_centuries()
+    inside = (t >= lo) & (t <= hi)
+    if inside.all():
+        return dict(one)
+    two = _elements("planet_elements_long.csv")[name]
+    if not inside.any():
+        return dict(two)
+    return {k: np.where(inside, one[k], two[k]) for k in one if k != "gm_system_km3_s2"}
 
 
 def kepler_eccentric_anomaly(mean_anomaly, e):
@@ -313,8 +370,9 @@ def kepler_eccentric_anomaly(mean_anomaly, e):
 
 
 def _planet(t: np.ndarray, name: str, vel: bool) -> np.ndarray:
-    """Heliocentric J2000-ecliptic state (km, km/s) from Standish Table 1 (T centuries TT)."""
-    el = _elements()[name]
+    """Heliocentric J2000-ecliptic state (km, km/s) from Standish's elements (T centuries TT):
+    Table 1 within 1800-2050, Table 2a/2b (with the extra mean-anomaly terms) outside."""
+    el = _element_arrays(name, t)
     a = (el["a"] + el["a_rate"] * t) * AU_KM
     e = el["e"] + el["e_rate"] * t
     inc = (el["i"] + el["i_rate"] * t) * DEG
@@ -322,7 +380,9 @@ def _planet(t: np.ndarray, name: str, vel: bool) -> np.ndarray:
     peri = el["peri"] + el["peri_rate"] * t
     node = (el["node"] + el["node_rate"] * t) * DEG
     argp = peri * DEG - node
-    m = np.remainder(lon - peri + 180.0, 360.0) - 180.0
+    ft = el["f"] * t * DEG
+    m = lon - peri + el["b"] * t * t + el["c"] * np.cos(ft) + el["s"] * np.sin(ft)
+    m = np.remainder(m + 180.0, 360.0) - 180.0
     big = kepler_eccentric_anomaly(m * DEG, e)
     cos_e, sin_e = np.cos(big), np.sin(big)
     b = a * np.sqrt(1.0 - e * e)
@@ -341,7 +401,8 @@ def _planet(t: np.ndarray, name: str, vel: bool) -> np.ndarray:
     if vel:
         # exact time derivative: d/dt of every element (Kepler's equation differentiated)
         per_s = DEG / SECONDS_PER_CENTURY
-        m_dot = (el["L_rate"] - el["peri_rate"]) * per_s
+        m_dot = (el["L_rate"] - el["peri_rate"] + 2.0 * el["b"] * t
+                 + el["f"] * DEG * (el["s"] * np.cos(ft) - el["c"] * np.sin(ft))) * per_s
         argp_dot = (el["peri_rate"] - el["node_rate"]) * per_s
         node_dot = el["node_rate"] * per_s
         inc_dot = el["i_rate"] * per_s

@@ -141,25 +141,47 @@ def test_moon_against_moon98():
     e = _span(1900, 2100, 20001)
     t1, t2 = e.two_part_jd("tt")
     pv = erfa.moon98(t1, t2)
-    _check(("moon", "earth"), _errors(eph.state("moon", e, "earth"), pv["p"], pv["v"]))
+    _check(("moon", "earth", (1900, 2100)), _errors(eph.state("moon", e, "earth"), pv["p"], pv["v"]))
 
 
-def test_sun_and_barycentre_against_epv00():
-    e = _span(1900, 2050, 4001)
+@pytest.mark.parametrize("years", [(1900, 2050), (2051, 2100)])
+def test_sun_against_epv00(years):
+    e = _span(years[0], years[1], 4001)
+    t1, t2 = e.two_part_jd("tdb")
+    pvh, _ = erfa.epv00(t1, t2)
+    _check(("sun", "earth", years), _errors(eph.state("sun", e, "earth"), -pvh["p"], -pvh["v"]))
+
+
+def test_barycentre_against_epv00():
+    e = _span(1900, 2100, 6001)
     t1, t2 = e.two_part_jd("tdb")
     pvh, pvb = erfa.epv00(t1, t2)
-    _check(("sun", "earth"), _errors(eph.state("sun", e, "earth"), -pvh["p"], -pvh["v"]))
     # Sun about the solar-system barycentre = Earth about SSB - Earth about Sun
-    _check(("sun", "ssb"), _errors(eph.state("sun", e, "ssb"), pvb["p"] - pvh["p"], pvb["v"] - pvh["v"]))
+    _check(("sun", "ssb", (1900, 2100)),
+           _errors(eph.state("sun", e, "ssb"), pvb["p"] - pvh["p"], pvb["v"] - pvh["v"]))
 
 
-@pytest.mark.parametrize("number,name", [(1, "mercury"), (2, "venus"), (3, "emb"), (4, "mars"),
-                                         (5, "jupiter"), (6, "saturn"), (7, "uranus"), (8, "neptune")])
-def test_planets_against_plan94(number, name):
+PLAN94 = [(1, "mercury"), (2, "venus"), (3, "emb"), (4, "mars"), (5, "jupiter"), (6, "saturn"),
+          (7, "uranus"), (8, "neptune")]
+
+
+@pytest.mark.parametrize("number,name", PLAN94)
+def test_planets_table1_against_plan94(number, name):
     e = _span(1800, 2050, 4001)
     t1, t2 = e.two_part_jd("tdb")
     pv = erfa.plan94(t1, t2, number)
-    _check((name, "sun"), _errors(eph.state(name, e, "sun"), pv["p"], pv["v"]))
+    _check((name, "sun", (1800, 2050)), _errors(eph.state(name, e, "sun"), pv["p"], pv["v"]))
+
+
+@pytest.mark.parametrize("number,name", PLAN94)
+def test_planets_table2_against_plan94(number, name):
+    """Outside 1800-2050 Standish's Table 2a/2b is used; plan94's own span is 1000-3000."""
+    jd = np.concatenate([np.linspace(2086308.5, 2378496.0, 2000),     # 1000-01-01 .. 1800
+                         np.linspace(2469808.0, 2816787.0, 3001)])    # 2051 .. 2999-12-31
+    e = ts.Epoch.from_jd(jd, 0.0, "tdb")
+    t1, t2 = e.two_part_jd("tdb")
+    pv = erfa.plan94(t1, t2, number)
+    _check((name, "sun", (1000, 3000)), _errors(eph.state(name, e, "sun"), pv["p"], pv["v"]))
 
 
 def test_ecliptic_precession_against_ecm06():

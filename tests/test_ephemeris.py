@@ -57,7 +57,12 @@ def test_velocity_is_derivative_of_position(body, center, h):
 
 def test_validity_interval():
     with pytest.raises(InputError, match="outside the validity"):
-        eph.position("mars", "2060-01-01T00:00:00 TDB", "sun")
+        eph.position("mars", "3001-01-01T00:00:00 TDB", "sun")
+    with pytest.raises(InputError, match="outside the validity"):
+        eph.position("mars", "0999-12-31T00:00:00 TDB", "sun")
+    eph.position("mars", "2060-01-01T00:00:00 TDB", "sun")      # Table 2 beyond 2050
+    with pytest.raises(InputError, match="outside the validity"):  # Earth needs the Moon
+        eph.position("earth", "2101-06-01T00:00:00 TDB", "sun")
     with pytest.raises(InputError, match="outside the validity"):
         eph.position("moon", parse_iso("1899-12-31T00:00:00 TT"))
     lo, hi = eph.valid_interval("moon")
@@ -79,6 +84,17 @@ def test_blocks_agree_with_single_evaluation():
     whole = eph.state("moon", t)
     parts = np.vstack([eph.state("moon", t[i:i + 100]) for i in range(0, len(t), 100)])
     assert np.array_equal(whole, parts)
+
+
+def test_table_switch_is_small():
+    """At the 2051-01-01 switch from Table 1 to Table 2 the position jumps by no more than the
+    two tables' documented errors."""
+    t = parse_iso("2051-01-01T00:00:00 TT") + np.array([-1e-3, 1e-3])
+    for body in ("emb", "mars", "jupiter"):
+        p = eph.position(body, t, "sun")
+        jump = np.linalg.norm(p[1] - p[0])
+        bound = eph.ACCURACY[(body, "sun", (1800, 2050))]["km"] + eph.ACCURACY[(body, "sun", (1000, 3000))]["km"]
+        assert jump < bound
 
 
 def test_kepler_solver():
