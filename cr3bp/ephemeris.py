@@ -187,8 +187,8 @@ def state(body: str, epochs, center: str = "earth", frame: str = "j2000-equator"
 
     Same arguments as :func:`position`. Velocities are exact time derivatives of the
     positions: analytic differentiation of the lunar series (plus the turning of the
-    ecliptic of date, by a central difference of the precession matrix), and for the planets the derivative of the
-    Keplerian position including the rates of every element.
+    ecliptic of date, by a central difference of the precession matrix), and for the
+    planets the derivative of the Keplerian position including the rates of every element.
     """
     body = _choice("body", body, BODIES)
     center = _choice("center", center, CENTERS)
@@ -197,11 +197,13 @@ def state(body: str, epochs, center: str = "earth", frame: str = "j2000-equator"
     scalar = ep.isscalar
     t = np.atleast_1d(ep.seconds_since_j2000("tt")).ravel() / SECONDS_PER_CENTURY
     out = _relative(body, center, t, _velocity)
-    if frame == "j2000-equator":
-        m = ecliptic_to_equator_matrix()
-        out[:, :3] = out[:, :3] @ m.T
-        if _velocity:
-            out[:, 3:] = out[:, 3:] @ m.T
+    if frame == "j2000-equator":   # rotation about x by -eps (ecliptic_to_equator_matrix)
+        eps = OBLIQUITY_J2000_ARCSEC * ARCSEC
+        c, s = math.cos(eps), math.sin(eps)
+        for k in ((1, 2), (4, 5)) if _velocity else ((1, 2),):
+            y, z = out[:, k[0]].copy(), out[:, k[1]]
+            out[:, k[0]] = c * y - s * z
+            out[:, k[1]] = s * y + c * z
     if not _velocity:
         out = out[:, :3]
     return out[0] if scalar else out.reshape(ep.shape + (out.shape[1],))
