@@ -198,3 +198,24 @@ def test_ecliptic_precession_against_ecm06():
 def test_obliquity_is_iau2006():
     # pyerfa obl06: mean obliquity of the ecliptic, IAU 2006, at J2000
     assert erfa.obl06(2451545.0, 0.0) / ONE_ARCSEC == pytest.approx(eph.OBLIQUITY_J2000_ARCSEC, abs=1e-6)
+
+
+def test_many_utc_instants_against_utctai():
+    """2000 random UTC instants 1972-2016, including the last second of each leap-second day."""
+    rng = np.random.default_rng(7)
+    table = ts.leap_second_table()
+    days = np.concatenate([rng.integers(ts.FIRST_UTC_MJD, ts.calendar_to_mjd(2016, 12, 31), 1900),
+                           table.mjd[1:] - 1])                       # days ending in a leap second
+    length = np.array([86401.0 if d + 1 in set(table.mjd[1:].tolist()) else 86400.0 for d in days])
+    sec = rng.random(days.size) * length
+    sec[-len(table.mjd) + 1:] = 86400.0 + 0.5 * rng.random(len(table.mjd) - 1)   # inside 23:59:60
+    u1 = days + 2400000.5
+    u2 = sec / length                                                # quasi-JD fraction
+    a1, a2 = erfa.utctai(u1, u2)
+    e = ts.Epoch.from_jd(u1, u2, "utc")
+    b1, b2 = e.two_part_jd("tai")
+    assert np.max(np.abs(((b1 - a1) + (b2 - a2)) * 86400)) < ONE_MICROSECOND
+    # and back to UTC
+    c1, c2 = e.two_part_jd("utc")
+    r1, r2 = erfa.taiutc(a1, a2)
+    assert np.max(np.abs(((c1 - r1) + (c2 - r2)) * 86400)) < ONE_MICROSECOND

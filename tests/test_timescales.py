@@ -122,3 +122,17 @@ def test_year_outside_iso_range():
 def test_text_fields_are_zero_padded_and_exact():
     e = parse_iso(["0001-01-01T00:00:00 TT", "2024-02-29T07:08:09.000001 TT"])
     assert e.to_iso("tt", 6) == ["0001-01-01T00:00:00.000000 TT", "2024-02-29T07:08:09.000001 TT"]
+
+
+@settings(max_examples=40, deadline=None)
+@given(step=st.integers(1, 27), offset=st.floats(-3.0, 3.0))
+def test_utc_text_round_trip_across_leap_seconds(step, offset):
+    """Instants within 3 s of each leap second: TT -> UTC text -> TT is exact to 1 us."""
+    table = leap_second_table()
+    y, m, d = (int(v) for v in mjd_to_calendar(table.mjd[step]))
+    start = parse_iso(f"{y:04d}-{m:02d}-{d:02d}T00:00:00Z")
+    e = start + offset
+    text = e.to_iso("utc", 6)
+    if -1.0 <= offset < -1e-6:
+        assert "23:59:60" in text
+    assert abs(parse_iso(text) - e) <= 0.5e-6 + 1e-9
