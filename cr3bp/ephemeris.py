@@ -524,7 +524,7 @@ def _fused_sums(ser, x, y, vel):
     on the x factor.
     """
     q = len(ser.y_keys)
-    n = x.shape[1]
+    n = x[0].shape[0]
     names = ("s", "kd", "km", "ke", "kmp", "kf") if vel else ("s",)
     out = {k: [np.zeros(n, complex) for _ in range(3)] for k in names}
     w, tmp, prod = (np.empty(n, complex) for _ in range(3))
@@ -601,14 +601,10 @@ def _moon_block(t: np.ndarray, vel: bool) -> np.ndarray:
     pd, pm = _powers(zd, 4), _powers(zm, 2)
     pmp, pf = _powers(zmp, 4), _powers(zf, 3)
     epow = {0: 1.0, 1: ecc, 2: ecc * ecc}
-    y = np.empty((len(ser.y_keys), t.size), complex)
-    for i, (kd, km) in enumerate(ser.y_keys):
-        np.multiply(pd[kd], pm[km], out=y[i])
-        if km:
-            y[i] *= epow[abs(km)]
-    x = np.empty((len(ser.x_keys), t.size), complex)
-    for i, (kmp, kf) in enumerate(ser.x_keys):
-        np.multiply(pmp[kmp], pf[kf], out=x[i])
+    # factors as lists of arrays; a factor that is a single power is that array (no copy)
+    y = [pd[kd] if km == 0 else pd[kd] * (pm[km] * epow[abs(km)]) if kd else pm[km] * epow[abs(km)]
+         for kd, km in ser.y_keys]
+    x = [pmp[kmp] if kf == 0 else pf[kf] if kmp == 0 else pmp[kmp] * pf[kf] for kmp, kf in ser.x_keys]
     sums = _fused_sums(ser, x, y, vel)
     totals = sums["s"]
 

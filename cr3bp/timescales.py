@@ -202,10 +202,11 @@ def _days_in_month(y: int, m: int) -> int:
 
 #: Fairhead & Bretagnon (1990) series for TDB-TT, truncated: rows (amplitude s, frequency
 #: rad per Julian millennium, phase rad) for powers t^0, t^1, t^2 of t = Julian millennia of
-#: TT from J2000. The first seven terms (two of them the t^1 term and the leading t^0 term)
-#: are those of USNO Circular 179 (Kaplan 2005), eq. 2.6, printed there with fewer digits;
-#: all digits below are from memory of the series and are checked against pyerfa's full
-#: series (tests/test_against_pyerfa.py::test_tdb_minus_tt).
+#: TT from J2000. USNO Circular 179 (Kaplan 2005), eq. 2.6 (equation number from memory),
+#: prints the six largest t^0 terms and the leading t^1 term of this series, rounded and
+#: with T in centuries; the rest are further terms of the same series. All digits below are
+#: from memory and are checked against pyerfa's full series
+#: (tests/test_against_pyerfa.py::test_tdb_minus_tt: 0.6 us worst, 0.15 us rms, 1900-2100).
 FAIRHEAD_BRETAGNON_TERMS = {
     0: (
         (1656.674564e-6, 6283.075849991, 6.240054195),
