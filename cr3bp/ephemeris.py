@@ -68,7 +68,9 @@ The Moon series is the one moon98 implements (it omits the 0.7 arcsec light-time
 that Meeus' mean longitude contains, per its documentation), so against a full
 lunar ephemeris our Moon inherits moon98's documented error: about 20 arcsec and 34 km worst,
 3 arcsec and 6 km rms (1950-2100). The planetary differences are dominated by Standish's
-mean elements (plan94 itself is good to about 1 arcmin for the outer planets).
+mean elements: plan94's own worst errors against JPL DE200 over 1800-2100 are 7 arcsec
+(Mercury) to 87 arcsec (Saturn) in longitude, per its documentation, so against a full
+ephemeris add at most that much to the figures above.
 """
 
 from __future__ import annotations
@@ -114,8 +116,8 @@ MOON_SPAN = ("1900-01-01T00:00:00 TT", "2101-01-01T00:00:00 TT")
 #: Documented worst-case differences from pyerfa (position km, direction arcsec, velocity
 #: m/s) over the years given; tests/test_against_pyerfa.py asserts each bound. "truth" is the
 #: error against a full ephemeris implied by the reference's own published accuracy (moon98:
-#: worst 18.3 arcsec / 31.7 km against ELP/MPP02 over 1950-2100, per its documentation) or,
-#: for the planets, Standish's own Table 1 error estimates (which these figures match).
+#: worst 18.3 arcsec / 31.7 km / 172 mm/s against ELP/MPP02 over 1950-2100, per its
+#: documentation; plan94: worst 7-87 arcsec against DE200, 1800-2100).
 ACCURACY = {
     # (body, center, years): dict(reference, km, arcsec, mps)
     ("moon", "earth", (1900, 2100)): dict(reference="pyerfa moon98", km=2.5, arcsec=1.3, mps=0.01,
