@@ -531,28 +531,34 @@ def _fused_sums(ser, x, y, vel):
     out = {k: [np.zeros(n, complex) for _ in range(3)] for k in names}
     w, tmp, prod = (np.empty(n, complex) for _ in range(3))
     w_mp, w_f = np.empty(n, complex), np.empty(n, complex)
+    # real coefficients act on the interleaved (re, im) float views: one real multiply per
+    # number instead of a complex one
+    xv = [a.view(float) for a in x]
+    wv, tv, w_mpv, w_fv = w.view(float), tmp.view(float), w_mp.view(float), w_f.view(float)
     for i, row in enumerate(ser.rows):
         if not row:
             continue
         blk, iq = divmod(i, q)
-        w[:] = 0.0
+        (j0, v0), rest = row[0], row[1:]
+        np.multiply(xv[j0], v0, out=wv)
         if vel:
-            w_mp[:] = 0.0
-            w_f[:] = 0.0
-        for j, v in row:
-            np.multiply(x[j], v, out=tmp)
-            w += tmp
+            np.multiply(xv[j0], v0 * ser.k_mp[j0], out=w_mpv)
+            np.multiply(xv[j0], v0 * ser.k_f[j0], out=w_fv)
+        for j, v in rest:
+            np.multiply(xv[j], v, out=tv)
+            wv += tv
             if vel:
                 if ser.k_mp[j]:
-                    w_mp += tmp * ser.k_mp[j]
+                    w_mpv += tv * ser.k_mp[j]
                 if ser.k_f[j]:
-                    w_f += tmp * ser.k_f[j]
+                    w_fv += tv * ser.k_f[j]
         np.multiply(w, y[iq], out=prod)
         out["s"][blk] += prod
         if vel:
+            pv = prod.view(float)
             for key, k in (("kd", ser.k_d[iq]), ("km", ser.k_m[iq]), ("ke", abs(ser.k_m[iq]))):
                 if k:
-                    out[key][blk] += prod * k
+                    out[key][blk].view(float)[:] += pv * k
             out["kmp"][blk] += w_mp * y[iq]
             out["kf"][blk] += w_f * y[iq]
     return out
@@ -630,12 +636,13 @@ def _moon_block(t: np.ndarray, vel: bool) -> np.ndarray:
     sl = zlp.imag * cdl + zlp.real * sdl
     cb, sb = _cos_sin_small(sum_b * (1e-6 * DEG))
     dist = MOON_MEAN_DISTANCE_KM + sum_r * 1e-3
-    rot = _ecliptic_date_to_j2000(t)
     out = np.empty((t.size, 6))
-    _apply(rot, dist * cb * cl, dist * cb * sl, dist * sb, out[:, :3])
     if not vel:
+        _precess_position(t, dist * cb, cl, sl, dist * sb, out)
         out[:, 3:] = 0.0
         return out
+    rot = _ecliptic_date_to_j2000(t)
+    _apply(rot, dist * cb * cl, dist * cb * sl, dist * sb, out[:, :3])
 
     lp_dot, d_dot, m_dot, mp_dot, f_dot, a1_dot, a2_dot, a3_dot = (
         _rate(c, t) for c in (_LP, _D, _M, _MP, _F, _A1, _A2, _A3))
@@ -679,6 +686,37 @@ def _apply(rot, x, y, z, out):
         out[:, i] = rot[i][0] * x + rot[i][1] * y + rot[i][2] * z
 
 
+def _precession_angles(t):
+    """IAU 1976 ecliptic precession angles (Lieske et al. 1977; Meeus 1998, eq. 21.5, T = 0),
+    radians: pi_A, Pi_A - 174.876384 deg, p_A."""
+    pi_a = (47.0029 * t - 0.03302 * t**2 + 0.000060 * t**3) * ARCSEC
+    d_pi = (-869.8089 * t + 0.03536 * t**2) * ARCSEC
+    p_a = (5029.0966 * t + 1.11113 * t**2 - 0.000006 * t**3) * ARCSEC
+    return pi_a, d_pi, p_a
+
+
+_PI0 = 174.876384 * DEG
+
+
+def _precess_position(t, rho, cl, sl, z, out):
+    """out[:, :3] = R^T (rho cos l, rho sin l, z): the rotation of
+    :func:`_ecliptic_date_to_j2000` applied as its three factors, R3(Pi_A + p_A) folded
+    into the longitude, then R1(-pi_A) and R3(-Pi_A) (cheaper than forming the matrix)."""
+    pi_a, d_pi, p_a = _precession_angles(t)
+    c0, s0 = math.cos(_PI0), math.sin(_PI0)
+    cda, sda = _cos_sin_small(d_pi + p_a)
+    ca, sa = c0 * cda - s0 * sda, s0 * cda + c0 * sda          # of A = Pi_A + p_A
+    x1 = rho * (cl * ca + sl * sa)                              # rho cos(l - A)
+    y1 = rho * (sl * ca - cl * sa)                              # rho sin(l - A)
+    ci, si = _cos_sin_small(pi_a)
+    y2 = ci * y1 - si * z
+    out[:, 2] = si * y1 + ci * z
+    cd, sd = _cos_sin_small(d_pi)
+    c_pi, s_pi = c0 * cd - s0 * sd, s0 * cd + c0 * sd          # of Pi_A
+    out[:, 0] = c_pi * x1 - s_pi * y2
+    out[:, 1] = s_pi * x1 + c_pi * y2
+
+
 def _ecliptic_date_to_j2000(t: np.ndarray):
     """Rotation (3x3 nested list of arrays) taking mean-ecliptic-of-date components to J2000.
 
@@ -688,10 +726,8 @@ def _ecliptic_date_to_j2000(t: np.ndarray):
     The angles stay within 0.2 rad of fixed values over 1800-2100, so their cosines and
     sines are Taylor polynomials about those values.
     """
-    pi_a = (47.0029 * t - 0.03302 * t**2 + 0.000060 * t**3) * ARCSEC
-    d_pi = (-869.8089 * t + 0.03536 * t**2) * ARCSEC          # Pi_A - 174.876384 deg
-    p_a = (5029.0966 * t + 1.11113 * t**2 - 0.000006 * t**3) * ARCSEC
-    c0, s0 = math.cos(174.876384 * DEG), math.sin(174.876384 * DEG)
+    pi_a, d_pi, p_a = _precession_angles(t)
+    c0, s0 = math.cos(_PI0), math.sin(_PI0)
     cd, sd = _cos_sin_small(d_pi)
     c_pi, s_pi = c0 * cd - s0 * sd, s0 * cd + c0 * sd          # of Pi_A
     cda, sda = _cos_sin_small(d_pi + p_a)

@@ -97,6 +97,14 @@ def test_table_switch_is_small():
         assert jump < bound
 
 
+def test_position_and_state_paths_agree():
+    t = parse_iso("1900-03-01T00:00:00 TDB") + np.linspace(0, 6e9, 5001)
+    for body, center in (("moon", "earth"), ("sun", "earth"), ("mars", "sun")):
+        p = eph.position(body, t, center)
+        s = eph.state(body, t, center)
+        assert np.max(np.abs(p - s[:, :3])) < ONE_METER * 1e-3
+
+
 def test_kepler_solver():
     m = np.linspace(-np.pi, np.pi, 1001)
     for e in (0.0, 0.2, 0.7):
