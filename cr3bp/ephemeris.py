@@ -101,7 +101,7 @@ CHUNK = 4096                              # epochs per block in the lunar series
 #: its own position is available to us, so it is not offered as a body).
 PLANETS = ("mercury", "venus", "emb", "mars", "jupiter", "saturn", "uranus", "neptune", "pluto")
 BODIES = ("sun", "moon", "earth") + PLANETS[:-1]
-CENTERS = ("earth", "moon", "sun", "ssb", "emb")
+CENTERS = BODIES + ("ssb",)           # any body, or the solar-system barycentre
 FRAMES = ("j2000-equator", "j2000-ecliptic")
 
 # Validity (TT). Planets: Standish Table 1 within 1800-2050, Table 2 outside it, accepted
@@ -165,7 +165,7 @@ def position(body: str, epochs, center: str = "earth", frame: str = "j2000-equat
         Instants (any time scale inside an Epoch; ISO 8601 text is parsed with
         :func:`~cr3bp.timescales.parse_iso`).
     center : str
-        One of :data:`CENTERS`: ``earth``, ``moon``, ``sun``, ``ssb``, ``emb``.
+        One of :data:`CENTERS`: any body above, or ``ssb`` (solar-system barycentre).
     frame : str
         ``"j2000-equator"`` (default) or ``"j2000-ecliptic"``.
 

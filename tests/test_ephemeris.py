@@ -33,6 +33,13 @@ def test_compositions_close():
     assert np.allclose(frac, 1 / (1 + 398600.435436 / 4902.800066), rtol=1e-12)
 
 
+def test_planet_centres():
+    t = parse_iso("2031-03-01T00:00:00 TDB") + np.linspace(0, 3e7, 5)
+    a = eph.state("earth", t, "mars")
+    b = eph.state("earth", t, "sun") - eph.state("mars", t, "sun")
+    assert np.max(np.abs(a - b)) < 1e-6
+
+
 def test_frames():
     t = parse_iso("2031-03-01T00:00:00 TDB") + np.linspace(0, 3e7, 7)
     ecl = eph.state("emb", t, "sun", frame="j2000-ecliptic")
