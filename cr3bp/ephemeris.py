@@ -180,11 +180,10 @@ def position(body: str, epochs, center: str = "earth", frame: str = "j2000-equat
         Unknown body, center or frame; epochs outside the validity interval (see
         :func:`valid_interval`).
     """
-    return state(body, epochs, center, frame, _velocity=False)
+    return _evaluate(body, epochs, center, frame, False)
 
 
-def state(body: str, epochs, center: str = "earth", frame: str = "j2000-equator",
-          *, _velocity: bool = True) -> np.ndarray:
+def state(body: str, epochs, center: str = "earth", frame: str = "j2000-equator") -> np.ndarray:
     """Position and velocity of ``body`` relative to ``center``: (N, 6) km and km/s.
 
     Same arguments as :func:`position`. Velocities are exact time derivatives of the
@@ -192,6 +191,10 @@ def state(body: str, epochs, center: str = "earth", frame: str = "j2000-equator"
     ecliptic of date, by a central difference of the precession matrix), and for the
     planets the derivative of the Keplerian position including the rates of every element.
     """
+    return _evaluate(body, epochs, center, frame, True)
+
+
+def _evaluate(body, epochs, center, frame, _velocity: bool) -> np.ndarray:
     body = _choice("body", body, BODIES)
     center = _choice("center", center, CENTERS)
     frame = _choice("frame", frame, FRAMES)
