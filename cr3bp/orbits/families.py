@@ -151,16 +151,16 @@ def _far_crossing_is_start(system, orbit, point):
 
 def grow_family(system, family, point="", branch="", *, stops=None, method="arclength",
                 parameter=None, step=None, progress=None, resonance=None, eccentricity=0.5,
-                first=None, locate_bifurcations=True):
+                first=None, locate_bifurcations=True, max_step=None):
     """Compute a named family from its recipe (see module table). Returns a Family."""
     family, point, branch = check_family(family, point, branch) if family != "resonant" else (family, "", branch)
     stops = stops or continuation.Stops()
-    o, kind, direction, st, max_step = first_member(system, family, point, branch, resonance, eccentricity) \
+    o, kind, direction, st, mx = first_member(system, family, point, branch, resonance, eccentricity) \
         if first is None else first
     settings = {"family": family, "point": point, "branch": branch,
                 "resonance": list(resonance) if resonance else None, "eccentricity": eccentricity
                 if family == "resonant" else None}
-    return continuation.grow(system, o, kind, step=step or st, max_step=max_step, direction=direction,
+    return continuation.grow(system, o, kind, step=step or st, max_step=max_step or mx, direction=direction,
                              method=method, parameter=parameter, stops=stops, family=family,
                              point=point, branch=branch or (resonance_label(*resonance) if resonance else ""),
                              progress=progress, locate_bifurcations=locate_bifurcations,
