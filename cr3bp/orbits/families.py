@@ -9,7 +9,7 @@ vertical L1/L2          linear vertical seed, vz held               x-axis
 axial L1/L2             branch at the 2nd out-of-plane +1 crossing  x-axis
                         of the Lyapunov family, vz held
 dro                     retrograde circle about the smaller         xz-planar
-                        primary, x held
+                        primary (0.1 Hill radius), x held
 resonant p:q            Kepler ellipse about the larger primary,    xz-planar
                         x held
 ======================  ==========================================  =====================
@@ -104,9 +104,11 @@ def first_member(system, family, point="", branch="", resonance=None, eccentrici
         o = branch_at(system, bif[1].orbit, "axial", point)
         return o, "x-axis", (lambda t, X: t[2] * X[2]), 1e-3, 0.03
     if family == "dro":
-        sd = seeds.dro(mu, 0.03)
+        # sizes scale with the smaller primary's Hill radius (mu/3)^(1/3) (Szebehely 1967, §10)
+        rh = (mu / 3.0) ** (1.0 / 3.0)
+        sd = seeds.dro(mu, 0.1 * rh)
         o = shooting.correct(system, sd.state, sd.half_period, sd.symmetry, shooting.fix("x", sd.state[0]), **meta)
-        return o, sd.symmetry, (lambda t, X: t[0]), 2e-3, 0.1
+        return o, sd.symmetry, (lambda t, X: t[0]), 0.0125 * rh, 0.6 * rh
     if family == "resonant":
         if resonance is None:
             raise InputError("the resonant family needs p:q, e.g. 3:2")
