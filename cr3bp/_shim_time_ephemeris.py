@@ -161,8 +161,10 @@ def _ecl_to_eq(x, y, z):
 def _moon_position(t_s):
     """Geocentric Moon, EME2000 axes, km. Montenbruck & Gill, *Satellite Orbits* (2000),
     sec. 3.3.2, eqs. 3.47-3.49 (from memory)."""
-    T = np.asarray(t_s, dtype=float) / (86400.0 * 36525.0)
-    r = np.radians
+    T = np.asarray(t_s) / (86400.0 * 36525.0)
+
+    def r(deg):
+        return deg * (math.pi / 180.0)
     L0 = r(218.31617 + 481267.88088 * T - 1.3972 * T)
     l = r(134.96292 + 477198.86753 * T)
     lp = r(357.52543 + 35999.04944 * T)
@@ -190,17 +192,19 @@ def _moon_position(t_s):
 def _sun_position(t_s):
     """Geocentric Sun, EME2000 axes, km. Montenbruck & Gill (2000), sec. 3.3.2, eqs. 3.43-3.46
     (from memory)."""
-    T = np.asarray(t_s, dtype=float) / (86400.0 * 36525.0)
-    M = np.radians(357.5256 + 35999.049 * T)
-    lam = np.radians(282.9400) + M + _ARCSEC * (6892 * np.sin(M) + 72 * np.sin(2 * M))
+    T = np.asarray(t_s) / (86400.0 * 36525.0)
+    M = (357.5256 + 35999.049 * T) * (math.pi / 180.0)
+    lam = math.radians(282.9400) + M + _ARCSEC * (6892 * np.sin(M) + 72 * np.sin(2 * M))
     dist = (149.619 - 2.499 * np.cos(M) - 0.021 * np.cos(2 * M)) * 1e6
     return _ecl_to_eq(dist * np.cos(lam), dist * np.sin(lam), np.zeros_like(dist))
 
 
-def _with_velocity(fpos, t_s, h=30.0):
+def _with_velocity(fpos, t_s, h=1e-3):
+    """Position and its exact derivative by the complex step, d f = Im f(t + i h) / h
+    (Squire & Trapp, SIAM Review 40, 1998; no subtraction, so no rounding noise)."""
     t = np.atleast_1d(np.asarray(t_s, dtype=float))
     p = fpos(t)
-    v = (fpos(t + h) - fpos(t - h)) / (2.0 * h)
+    v = fpos(t + 1j * h).imag / h
     return np.concatenate([p, v], axis=-1)
 
 

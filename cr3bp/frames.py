@@ -57,7 +57,7 @@ OBLIQUITY_J2000_RAD = 84381.448 * math.pi / (180.0 * 3600.0)
 
 #: Step of the central difference that gives the secondary's acceleration from its ephemeris
 #: velocity (s). The rotating axes' x rate depends on it only through the acceleration.
-ACCEL_STEP_S = 60.0
+ACCEL_STEP_S = 600.0
 
 SECONDS_PER_DAY = 86400.0
 
