@@ -201,10 +201,15 @@ def _sun_position(t_s):
 
 def _with_velocity(fpos, t_s, h=1e-3):
     """Position and its exact derivative by the complex step, d f = Im f(t + i h) / h
-    (Squire & Trapp, SIAM Review 40, 1998; no subtraction, so no rounding noise)."""
+    (Squire & Trapp, SIAM Review 40, 1998; no subtraction, so no rounding noise).
+
+    The series run in extended precision: their angles reach thousands of radians, and in
+    double precision the rounding of ``rate * t`` would make positions at nearby epochs jitter
+    by ~0.1 mm, which the finite-difference acceleration in ``cr3bp.frames`` would amplify.
+    """
     t = np.atleast_1d(np.asarray(t_s, dtype=float))
-    p = fpos(t)
-    v = fpos(t + 1j * h).imag / h
+    p = fpos(t.astype(np.longdouble)).astype(float)
+    v = (fpos(t.astype(np.clongdouble) + 1j * h).imag / h).astype(float)
     return np.concatenate([p, v], axis=-1)
 
 

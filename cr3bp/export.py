@@ -174,7 +174,8 @@ def sample(system, source, t_eval, rtol=1e-12, atol=1e-12) -> Segment:
 
     Parameters
     ----------
-    source : Arc-like (``t``, ``states``), PeriodicOrbit-like (``state``) or a 6-vector. The
+    source : Arc-like (``t``, ``states``), a :class:`Segment`, PeriodicOrbit-like (``state``)
+        or a 6-vector. The
         propagation starts from its (first) state; ``t_eval`` counts from that state's time.
     t_eval : array
         Increasing times from 0, TU (e.g. from :func:`sample_grid` or :func:`epoch_grid`).
@@ -191,6 +192,9 @@ def sample(system, source, t_eval, rtol=1e-12, atol=1e-12) -> Segment:
     t0 = 0.0
     if hasattr(source, "t") and hasattr(source, "states"):
         t0 = float(np.asarray(source.t, dtype=float)[0])
+        state = np.asarray(source.states, dtype=float)[0]
+    elif hasattr(source, "t_tu") and hasattr(source, "states"):
+        t0 = float(np.asarray(source.t_tu, dtype=float)[0])
         state = np.asarray(source.states, dtype=float)[0]
     elif hasattr(source, "state"):
         state = np.asarray(source.state, dtype=float)
