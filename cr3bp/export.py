@@ -353,7 +353,7 @@ def oem_text(traj: Trajectory, *, creation_date: str | None = None, interpolatio
         w("META_STOP\n\n")
         for m, (mep, dv, mps, label) in zip(traj.maneuvers, man):
             if _segment_of(starts, m.t_tu) == k:
-                w(f"COMMENT MANEUVER epoch = {mep} dv_kms = {dv[0]!r} {dv[1]!r} {dv[2]!r} "
+                w(f"COMMENT MANEUVER epoch = {mep} dv_kms = {float(dv[0])!r} {float(dv[1])!r} {float(dv[2])!r} "
                   f"dv_mps = {mps!r}" + (f" label = {label}" if label else "") + "\n")
         w(_data_lines(ep, st))
     return out.getvalue()
@@ -407,7 +407,7 @@ def csv_text(traj: Trajectory) -> tuple[str, str | None]:
         wr = csv.writer(buf, lineterminator="\n")
         wr.writerow([f"epoch_{ts.lower()}", "dvx_kms", "dvy_kms", "dvz_kms", "dv_mps", "label"])
         for mep, dv, mps, label in man:
-            wr.writerow([mep, repr(dv[0]), repr(dv[1]), repr(dv[2]), repr(mps), label])
+            wr.writerow([mep, *(repr(float(x)) for x in dv), repr(mps), label])
         mtext = buf.getvalue()
     return "".join(parts), mtext
 
