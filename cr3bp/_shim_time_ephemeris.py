@@ -158,18 +158,36 @@ def _ecl_to_eq(x, y, z):
     return np.stack([x, c * y - s * z, s * y + c * z], axis=-1)
 
 
-def _moon_position(t_s):
+_CENTURY_S = 86400.0 * 36525.0
+_MOON_ARGS = {  # degrees and degrees per Julian century of TT
+    "L0": (218.31617, 481267.88088 - 1.3972), "l": (134.96292, 477198.86753),
+    "lp": (357.52543, 35999.04944), "F": (93.27283, 483202.01873), "D": (297.85027, 445267.11135),
+}
+_SUN_ARGS = {"M": (357.5256, 35999.049)}
+
+
+def _arguments(table, t_s, h=0.0):
+    """Fundamental arguments (rad) at ``t_s``, each reduced modulo 360 deg in extended
+    precision before it becomes a double; with ``h`` they carry the imaginary part ``h * rate``
+    of the complex step.
+
+    The angles reach thousands of radians: in double precision the rounding of ``rate * t``
+    would make positions at nearby epochs jitter by ~0.1 mm, which the finite-difference
+    acceleration in ``cr3bp.frames`` would amplify.
+    """
+    T = np.asarray(t_s, dtype=np.longdouble) / np.longdouble(_CENTURY_S)
+    out = {}
+    for k, (c0, c1) in table.items():
+        deg = np.fmod(np.longdouble(c0) + np.longdouble(c1) * T, np.longdouble(360.0)).astype(float)
+        rad = deg * (math.pi / 180.0)
+        out[k] = rad + 1j * (h * c1 * math.pi / 180.0 / _CENTURY_S) if h else rad
+    return out
+
+
+def _moon_position(a):
     """Geocentric Moon, EME2000 axes, km. Montenbruck & Gill, *Satellite Orbits* (2000),
     sec. 3.3.2, eqs. 3.47-3.49 (from memory)."""
-    T = np.asarray(t_s) / (86400.0 * 36525.0)
-
-    def r(deg):
-        return deg * (math.pi / 180.0)
-    L0 = r(218.31617 + 481267.88088 * T - 1.3972 * T)
-    l = r(134.96292 + 477198.86753 * T)
-    lp = r(357.52543 + 35999.04944 * T)
-    F = r(93.27283 + 483202.01873 * T)
-    D = r(297.85027 + 445267.11135 * T)
+    L0, l, lp, F, D = a["L0"], a["l"], a["lp"], a["F"], a["D"]
     sin = np.sin
     lam = L0 + _ARCSEC * (
         22640 * sin(l) + 769 * sin(2 * l) - 4586 * sin(l - 2 * D) + 2370 * sin(2 * D)
@@ -189,28 +207,22 @@ def _moon_position(t_s):
     return _ecl_to_eq(dist * cb * cos(lam), dist * cb * sin(lam), dist * sin(beta))
 
 
-def _sun_position(t_s):
+def _sun_position(a):
     """Geocentric Sun, EME2000 axes, km. Montenbruck & Gill (2000), sec. 3.3.2, eqs. 3.43-3.46
     (from memory)."""
-    T = np.asarray(t_s) / (86400.0 * 36525.0)
-    M = (357.5256 + 35999.049 * T) * (math.pi / 180.0)
+    M = a["M"]
     lam = math.radians(282.9400) + M + _ARCSEC * (6892 * np.sin(M) + 72 * np.sin(2 * M))
     dist = (149.619 - 2.499 * np.cos(M) - 0.021 * np.cos(2 * M)) * 1e6
     return _ecl_to_eq(dist * np.cos(lam), dist * np.sin(lam), np.zeros_like(dist))
 
 
-def _with_velocity(fpos, t_s, h=1e-3):
-    """Position and its exact derivative by the complex step, d f = Im f(t + i h) / h
-    (Squire & Trapp, SIAM Review 40, 1998; no subtraction, so no rounding noise).
-
-    The series run in extended precision: their angles reach thousands of radians, and in
-    double precision the rounding of ``rate * t`` would make positions at nearby epochs jitter
-    by ~0.1 mm, which the finite-difference acceleration in ``cr3bp.frames`` would amplify.
-    """
+def _with_velocity(fpos, table, t_s, h=1e-3):
+    """Position and its exact derivative by the complex step, f(t + i h) = f + i h f' + O(h^2):
+    the real part is the position (to 1e-20 relative), Im / h the velocity (Squire & Trapp,
+    SIAM Review 40, 1998; no subtraction, so no rounding noise)."""
     t = np.atleast_1d(np.asarray(t_s, dtype=float))
-    p = fpos(t.astype(np.longdouble)).astype(float)
-    v = (fpos(t.astype(np.clongdouble) + 1j * h).imag / h).astype(float)
-    return np.concatenate([p, v], axis=-1)
+    f = fpos(_arguments(table, t, h))
+    return np.concatenate([f.real, f.imag / h], axis=-1)
 
 
 def relative_state(primary: str, secondary: str, tdb_s):
@@ -224,7 +236,7 @@ def relative_state(primary: str, secondary: str, tdb_s):
         raise InputError(f"epoch outside the ephemeris validity {EPHEMERIS_VALID_TEXT}")
     pair = (primary, secondary)
     if pair == ("earth", "moon"):
-        return _with_velocity(_moon_position, t)
+        return _with_velocity(_moon_position, _MOON_ARGS, t)
     if pair in (("sun", "earth-moon"), ("sun", "earth")):
-        return -_with_velocity(_sun_position, t)
+        return -_with_velocity(_sun_position, _SUN_ARGS, t)
     return None
