@@ -214,6 +214,56 @@ def sample(system, source, t_eval, rtol=1e-12, atol=1e-12) -> Segment:
     return Segment(np.asarray(arc.t, dtype=float) + t0, np.ascontiguousarray(arc.states))
 
 
+def sample_legs(system, legs, t_eval, labels=None, join_tol=1e-9, rtol=1e-12, atol=1e-12):
+    """Segments and maneuvers of a piecewise trajectory (e.g. the legs of a route).
+
+    Parameters
+    ----------
+    legs : sequence of Arc-like (``t`` in TU from the frame epoch, ``states``), in time order.
+        Each leg starts where the previous one ends (same time, same position within
+        ``join_tol`` LU); the velocity difference there is an impulsive maneuver.
+    t_eval : array
+        The global output grid (TU from the epoch, e.g. :func:`epoch_grid`). Each leg is
+        sampled at the grid points inside it plus its own start and end, so every maneuver
+        epoch is a sample of both segments it separates.
+    labels : sequence of str, optional
+        Names of the maneuvers (one per junction).
+
+    Returns
+    -------
+    (tuple of Segment, tuple of Maneuver)
+    """
+    from . import propagate
+    legs = list(legs)
+    if not legs:
+        raise InputError("no legs to sample")
+    grid = np.asarray(t_eval, dtype=float)
+    segs, mans = [], []
+    for k, leg in enumerate(legs):
+        t = np.asarray(leg.t, dtype=float)
+        s = np.asarray(leg.states, dtype=float)
+        t0, t1 = float(t[0]), float(t[-1])
+        if k:
+            prev = legs[k - 1]
+            pt, ps = float(np.asarray(prev.t)[-1]), np.asarray(prev.states, dtype=float)[-1]
+            if abs(pt - t0) > 1e-12 * max(1.0, abs(t0)) or np.linalg.norm(ps[:3] - s[0, :3]) > join_tol:
+                raise InputError(f"leg {k + 1} does not start where leg {k} ends "
+                                 f"(gap {abs(pt - t0):.3g} TU, {np.linalg.norm(ps[:3] - s[0, :3]):.3g} LU)")
+            label = labels[k - 1] if labels and k - 1 < len(labels) else f"maneuver {k}"
+            mans.append(Maneuver(t0, s[0, 3:] - ps[3:], label))
+        inner = grid[(grid > t0 + 1e-12) & (grid < t1 - 1e-12)]
+        te = np.concatenate([[t0], inner, [t1]]) if t1 > t0 else np.array([t0])
+        if te.size == 1:
+            segs.append(Segment(te, s[:1].copy()))
+            continue
+        arc = propagate(system, s[0], float(te[-1] - t0), rtol=rtol, atol=atol, t_eval=te - t0)
+        if arc.states.shape[0] != te.size:
+            from .errors import NoSolutionError
+            raise NoSolutionError(f"leg {k + 1} stopped ({arc.status}) before its end")
+        segs.append(Segment(te, np.ascontiguousarray(arc.states)))
+    return tuple(segs), tuple(mans)
+
+
 # ---- dimensional evaluation ------------------------------------------------------------------
 
 def _center_name_oem(spec) -> str:

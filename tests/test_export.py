@@ -169,3 +169,25 @@ def test_write_failure_leaves_no_file(tmp_path, monkeypatch):
     with pytest.raises(RuntimeError):
         export.write_oem(tmp_path / "t.oem", traj)
     assert not list(tmp_path.iterdir())
+
+
+def test_sample_legs_makes_segments_and_maneuvers(tmp_path):
+    """Two legs joined by a burn: two OEM segments sharing the burn epoch, one maneuver."""
+    spec = frames.frame(EM, "2031-03-01T00:00:00Z", anchor="circular")
+    grid = export.epoch_grid(spec, "UTC", 2.0, 3600.0)
+    a = propagate(EM, STATE, 0.8123, t_eval=np.linspace(0, 0.8123, 5))
+    s1 = a.states[-1].copy()
+    s1[3:] += [0.0, 0.004, 0.001]
+    b = propagate(EM, s1, 1.1877, t_eval=np.linspace(0, 1.1877, 5))
+    leg_b = type("Leg", (), {"t": b.t + 0.8123, "states": b.states})()
+    segs, mans = export.sample_legs(EM, [a, leg_b], grid, labels=["trim"])
+    assert len(segs) == 2 and len(mans) == 1 and mans[0].label == "trim"
+    assert segs[0].t_tu[-1] == segs[1].t_tu[0] == pytest.approx(0.8123)
+    assert np.allclose(mans[0].dv, [0.0, 0.004, 0.001], atol=1e-15)
+    assert np.allclose(segs[1].states[-1], b.states[-1], atol=1e-10)
+    traj = export.Trajectory(spec, segs, "UTC", mans)
+    r = export.read_oem(export.write_oem(tmp_path / "legs.oem", traj))
+    assert len(r.segments) == 2 and r.maneuvers[0][0] == r.segments[1].epochs[0]
+    broken = type("Leg", (), {"t": b.t + 0.9, "states": b.states})()
+    with pytest.raises(InputError, match="does not start where"):
+        export.sample_legs(EM, [a, broken], grid)
