@@ -45,7 +45,7 @@ from .atomic import writing
 from .cautions import CAUTION, caution_lines
 from .errors import InputError
 
-FORMATS = ("oem", "csv", "json")
+FORMATS = ("oem", "xml", "csv", "json")   # xml = OEM in XML
 OEM_VERSION = "3.0"
 ORIGINATOR = "LIBRATE"
 REF_FRAMES = {"j2000-equator": "EME2000", "j2000-ecliptic": "J2000_ECLIPTIC"}
@@ -346,12 +346,14 @@ def _now_utc() -> str:
     return datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%S")
 
 
-def _data_lines(epochs, st) -> str:
+_ROW_FMT = "%s " + " ".join([POS_FMT] * 3 + [VEL_FMT] * 3) + "\n"
+
+
+def _data_lines(epochs, st, rowfmt=_ROW_FMT) -> str:
     """Data lines ``epoch x y z vx vy vz``: one %-format over the whole block (fast path)."""
     n = len(epochs)
     if n == 0:
         return ""
-    rowfmt = "%s " + " ".join([POS_FMT] * 3 + [VEL_FMT] * 3) + "\n"
     cols = [np.asarray(epochs, dtype=object)] + [st[:, k].tolist() for k in range(6)]
     items = np.empty((n, 7), dtype=object)
     items[:, 0] = cols[0]
@@ -362,9 +364,9 @@ def _data_lines(epochs, st) -> str:
 
 # ---- OEM -------------------------------------------------------------------------------------
 
-def oem_text(traj: Trajectory, *, creation_date: str | None = None, interpolation: str = "HERMITE",
-             degree: int = 5) -> str:
-    """The OEM (KVN) text of a trajectory (see the module docstring for the layout)."""
+def _oem_parts(traj: Trajectory, creation_date, interpolation, degree):
+    """The content of an OEM, independent of KVN or XML: header comments and keywords, and per
+    segment (metadata comments, metadata keywords, data comments, epochs, states)."""
     spec = traj.frame
     if spec.axes not in REF_FRAMES:
         raise InputError(f"OEM needs inertial axes (allowed: {', '.join(REF_FRAMES)}); "
@@ -372,40 +374,81 @@ def oem_text(traj: Trajectory, *, creation_date: str | None = None, interpolatio
     ts = _frames.time_system(traj.time_system)
     evaluated = _evaluate(traj)
     man = _maneuver_rows(traj)
+    header = (caution_lines(), [("CREATION_DATE", creation_date or _now_utc()), ("ORIGINATOR", ORIGINATOR)])
+    starts = [float(seg.t_tu[0]) for seg in traj.segments]
+    segments = []
+    for k, (seg, (tdb, ep, st)) in enumerate(zip(traj.segments, evaluated)):
+        if k == 0:
+            mcom = _model_lines(traj) + _frame_keys(traj)
+        else:
+            mcom = [f"segment {k + 1} of {len(traj.segments)} (follows a maneuver or a gap)"]
+        meta = [("OBJECT_NAME", traj.object_name), ("OBJECT_ID", traj.object_id),
+                ("CENTER_NAME", _center_name_oem(spec)), ("REF_FRAME", REF_FRAMES[spec.axes]),
+                ("TIME_SYSTEM", ts), ("START_TIME", ep[0]), ("USEABLE_START_TIME", ep[0]),
+                ("USEABLE_STOP_TIME", ep[-1]), ("STOP_TIME", ep[-1])]
+        if len(ep) > degree:
+            meta += [("INTERPOLATION", interpolation), ("INTERPOLATION_DEGREE", str(degree))]
+        dcom = [f"MANEUVER epoch = {mep} dv_kms = {float(dv[0])!r} {float(dv[1])!r} {float(dv[2])!r} "
+                f"dv_mps = {mps!r}" + (f" label = {label}" if label else "")
+                for m, (mep, dv, mps, label) in zip(traj.maneuvers, man) if _segment_of(starts, m.t_tu) == k]
+        segments.append((mcom, meta, dcom, ep, st))
+    return header, segments
+
+
+def oem_text(traj: Trajectory, *, creation_date: str | None = None, interpolation: str = "HERMITE",
+             degree: int = 5) -> str:
+    """The OEM (KVN) text of a trajectory (see the module docstring for the layout)."""
+    (hcom, hkv), segments = _oem_parts(traj, creation_date, interpolation, degree)
     out = io.StringIO()
     w = out.write
     w(f"CCSDS_OEM_VERS = {OEM_VERSION}\n")
-    for line in caution_lines():
+    for line in hcom:
         w(f"COMMENT {line}\n")
-    w(f"CREATION_DATE = {creation_date or _now_utc()}\n")
-    w(f"ORIGINATOR = {ORIGINATOR}\n")
-    # maneuvers go to the segment that starts at or after them
-    starts = [float(seg.t_tu[0]) for seg in traj.segments]
-    for k, (seg, (tdb, ep, st)) in enumerate(zip(traj.segments, evaluated)):
+    for k, v in hkv:
+        w(f"{k} = {v}\n")
+    for mcom, meta, dcom, ep, st in segments:
         w("\nMETA_START\n")
-        if k == 0:
-            for line in _model_lines(traj) + _frame_keys(traj):
-                w(f"COMMENT {line}\n")
-        else:
-            w(f"COMMENT segment {k + 1} of {len(traj.segments)} (follows a maneuver or a gap)\n")
-        w(f"OBJECT_NAME = {traj.object_name}\n")
-        w(f"OBJECT_ID = {traj.object_id}\n")
-        w(f"CENTER_NAME = {_center_name_oem(spec)}\n")
-        w(f"REF_FRAME = {REF_FRAMES[spec.axes]}\n")
-        w(f"TIME_SYSTEM = {ts}\n")
-        w(f"START_TIME = {ep[0]}\n")
-        w(f"USEABLE_START_TIME = {ep[0]}\n")
-        w(f"USEABLE_STOP_TIME = {ep[-1]}\n")
-        w(f"STOP_TIME = {ep[-1]}\n")
-        if len(ep) > degree:
-            w(f"INTERPOLATION = {interpolation}\n")
-            w(f"INTERPOLATION_DEGREE = {degree}\n")
+        for line in mcom:
+            w(f"COMMENT {line}\n")
+        for k, v in meta:
+            w(f"{k} = {v}\n")
         w("META_STOP\n\n")
-        for m, (mep, dv, mps, label) in zip(traj.maneuvers, man):
-            if _segment_of(starts, m.t_tu) == k:
-                w(f"COMMENT MANEUVER epoch = {mep} dv_kms = {float(dv[0])!r} {float(dv[1])!r} {float(dv[2])!r} "
-                  f"dv_mps = {mps!r}" + (f" label = {label}" if label else "") + "\n")
+        for line in dcom:
+            w(f"COMMENT {line}\n")
         w(_data_lines(ep, st))
+    return out.getvalue()
+
+
+def oem_xml_text(traj: Trajectory, *, creation_date: str | None = None, interpolation: str = "HERMITE",
+                 degree: int = 5) -> str:
+    """The OEM in XML (CCSDS 505.0-B, XML Specification for Navigation Data Messages; element
+    names as the KVN keywords, one ``stateVector`` per line of data -- from memory)."""
+    from xml.sax.saxutils import escape
+    (hcom, hkv), segments = _oem_parts(traj, creation_date, interpolation, degree)
+    out = io.StringIO()
+    w = out.write
+    w('<?xml version="1.0" encoding="UTF-8"?>\n')
+    w(f'<oem id="CCSDS_OEM_VERS" version="{OEM_VERSION}">\n  <header>\n')
+    for line in hcom:
+        w(f"    <COMMENT>{escape(line)}</COMMENT>\n")
+    for k, v in hkv:
+        w(f"    <{k}>{escape(str(v))}</{k}>\n")
+    w("  </header>\n  <body>\n")
+    rowfmt = ("        <stateVector><EPOCH>%s</EPOCH><X>" + POS_FMT + "</X><Y>" + POS_FMT + "</Y><Z>" + POS_FMT
+              + "</Z><X_DOT>" + VEL_FMT + "</X_DOT><Y_DOT>" + VEL_FMT + "</Y_DOT><Z_DOT>" + VEL_FMT
+              + "</Z_DOT></stateVector>\n")
+    for mcom, meta, dcom, ep, st in segments:
+        w("    <segment>\n      <metadata>\n")
+        for line in mcom:
+            w(f"        <COMMENT>{escape(line)}</COMMENT>\n")
+        for k, v in meta:
+            w(f"        <{k}>{escape(str(v))}</{k}>\n")
+        w("      </metadata>\n      <data>\n")
+        for line in dcom:
+            w(f"        <COMMENT>{escape(line)}</COMMENT>\n")
+        w(_data_lines(ep, st, rowfmt))
+        w("      </data>\n    </segment>\n")
+    w("  </body>\n</oem>\n")
     return out.getvalue()
 
 
@@ -418,6 +461,14 @@ def _segment_of(starts, t_tu) -> int:
 def write_oem(path, traj: Trajectory, **kwargs) -> Path:
     """Write an OEM (KVN) file atomically. Keyword arguments go to :func:`oem_text`."""
     text = oem_text(traj, **kwargs)
+    with writing(path) as f:
+        f.write(text)
+    return Path(path)
+
+
+def write_oem_xml(path, traj: Trajectory, **kwargs) -> Path:
+    """Write an OEM in XML atomically. Keyword arguments go to :func:`oem_xml_text`."""
+    text = oem_xml_text(traj, **kwargs)
     with writing(path) as f:
         f.write(text)
     return Path(path)
@@ -527,7 +578,7 @@ def format_of(path, fmt: str | None = None) -> str:
 def write(path, traj: Trajectory, fmt: str | None = None) -> Path:
     """Write ``traj`` to ``path`` in ``fmt`` (default from the suffix)."""
     f = format_of(path, fmt)
-    return {"oem": write_oem, "csv": write_csv, "json": write_json}[f](path, traj)
+    return {"oem": write_oem, "xml": write_oem_xml, "csv": write_csv, "json": write_json}[f](path, traj)
 
 
 # ---- readers ---------------------------------------------------------------------------------
@@ -652,8 +703,69 @@ def read_oem(path) -> ReadResult:
         else:
             rows.append(line.split())
     close()
+    return _oem_result(path, "oem", header, segments, keys, man_texts)
+
+
+def _comment_keys(comments, keys, man_texts):
+    for c in comments:
+        c = (c or "").strip()
+        if c.startswith("frame.") and "=" in c:
+            k, v = _kv(c)
+            keys[k] = v
+        elif c.startswith("MANEUVER"):
+            man_texts.append(c)
+
+
+def read_oem_xml(path) -> ReadResult:
+    """Read an OEM in XML (``<oem><header/><body><segment><metadata/><data>`` with
+    ``stateVector`` elements), ours or another writer's; covariance ignored."""
+    import xml.etree.ElementTree as ET
+    try:
+        root = ET.parse(path).getroot()
+    except OSError as e:
+        raise InputError(f"cannot read '{path}': {e.strerror}") from None
+    except ET.ParseError as e:
+        raise InputError(f"'{path}' is not well-formed XML ({e})") from None
+
+    def tag(e):
+        return e.tag.rpartition("}")[-1]
+    if tag(root) != "oem":
+        raise InputError(f"'{path}' is not an OEM in XML (root element <{tag(root)}>)")
+    kids = {tag(e): e for e in root}
+    if "header" not in kids or "body" not in kids:
+        raise InputError(f"'{path}': an XML OEM needs <header> and <body>")
+    header = {"CCSDS_OEM_VERS": root.attrib.get("version", "")}
+    keys, man_texts = {}, []
+    for e in kids["header"]:
+        if tag(e) == "COMMENT":
+            _comment_keys([e.text], keys, man_texts)
+        else:
+            header[tag(e)] = (e.text or "").strip()
+    segments = []
+    for seg in kids["body"]:
+        if tag(seg) != "segment":
+            continue
+        parts = {tag(e): e for e in seg}
+        meta = {}
+        for e in parts.get("metadata", []):
+            if tag(e) == "COMMENT":
+                _comment_keys([e.text], keys, man_texts)
+            else:
+                meta[tag(e)] = (e.text or "").strip()
+        rows = []
+        for e in parts.get("data", []):
+            if tag(e) == "COMMENT":
+                _comment_keys([e.text], keys, man_texts)
+            elif tag(e) == "stateVector":
+                f = {tag(c): (c.text or "").strip() for c in e}
+                rows.append([f.get(k, "") for k in ("EPOCH", "X", "Y", "Z", "X_DOT", "Y_DOT", "Z_DOT")])
+        segments.append((meta, rows))
+    return _oem_result(path, "xml", header, segments, keys, man_texts)
+
+
+def _oem_result(path, fmt, header, segments, keys, man_texts) -> ReadResult:
     if not segments:
-        raise InputError(f"'{path}' has no OEM segment (META_START ... META_STOP and data lines)")
+        raise InputError(f"'{path}' has no OEM segment (metadata and data)")
     out = []
     ts = None
     for meta, rows in segments:
@@ -678,7 +790,7 @@ def read_oem(path) -> ReadResult:
         if axes is not None and axes != frame.axes:
             raise InputError(f"'{path}': REF_FRAME {out[0].metadata['REF_FRAME']} contradicts frame.axes {frame.axes}")
     mans = tuple(_parse_maneuver(t, ts) for t in man_texts)
-    return ReadResult("oem", header, tuple(out), ts, frame, mans,
+    return ReadResult(fmt, header, tuple(out), ts, frame, mans,
                       out[0].metadata["OBJECT_NAME"], out[0].metadata["OBJECT_ID"])
 
 
@@ -819,8 +931,9 @@ def read(path, fmt: str | None = None) -> ReadResult:
         f = format_of(p, fmt)
     except InputError:
         first = p.read_text(encoding="utf-8", errors="replace").lstrip()[:20]
-        f = "oem" if first.startswith("CCSDS_OEM_VERS") else "json" if first.startswith("{") else "csv"
-    return {"oem": read_oem, "csv": read_csv, "json": read_json}[f](p)
+        f = ("oem" if first.startswith("CCSDS_OEM_VERS") else "json" if first.startswith("{")
+             else "xml" if first.startswith("<") else "csv")
+    return {"oem": read_oem, "xml": read_oem_xml, "csv": read_csv, "json": read_json}[f](p)
 
 
 def to_rotating(data: ReadResult, frame: _frames.FrameSpec | None = None) -> tuple:

@@ -122,3 +122,24 @@ def test_oem_interpolation_hint_is_adequate(tmp_path):
     arc = propagate(EM, traj.segments[0].states[0], t_tu, t_eval=[t_tu])
     _, want = frames.to_frame(traj.frame, [t_tu], arc.states)
     assert np.linalg.norm(s.position - want[0, :3]) < 1e-3
+
+
+@pytest.mark.parametrize("ts", ["TT", "UTC"])
+def test_oem_package_parses_our_xml(tmp_path, ts):
+    """The XML form (CCSDS 505.0-B, NDM/XML) read by the oem package: same states as the KVN."""
+    traj = _trajectory(ts, maneuver=True)
+    kvn = export.write_oem(tmp_path / "relay.oem", traj, creation_date="2031-01-01T00:00:00")
+    xml = export.write_oem_xml(tmp_path / "relay.xml", traj, creation_date="2031-01-01T00:00:00")
+    a, b = oem.OrbitEphemerisMessage.open(str(kvn)), oem.OrbitEphemerisMessage.open(str(xml))
+    assert b.version == "3.0" and len(list(b)) == 2
+    for sa, sb in zip(a, b):
+        assert sa.metadata["REF_FRAME"] == sb.metadata["REF_FRAME"] == "EME2000"
+        pa = np.array([np.concatenate([s.position, s.velocity]) for s in sa.states])
+        pb = np.array([np.concatenate([s.position, s.velocity]) for s in sb.states])
+        assert np.array_equal(pa, pb)
+    # and our own XML reader gives the frame, the states and the maneuver back
+    r = export.read_oem_xml(xml)
+    assert r.frame == traj.frame and len(r.maneuvers) == 1
+    k = export.read_oem(kvn)
+    for s1, s2 in zip(r.segments, k.segments):
+        assert np.array_equal(s1.states, s2.states) and np.array_equal(s1.tdb_s, s2.tdb_s)

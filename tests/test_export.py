@@ -34,7 +34,7 @@ def _traj(ts="TDB", axes="j2000-equator", center="earth", anchor="ephemeris", ma
 # OEM has no rotating frame (its refusal is tested below)
 @pytest.mark.parametrize("fmt, axes", [(f, a) for f in export.FORMATS
                                        for a in ("j2000-equator", "j2000-ecliptic", "rotating")
-                                       if not (f == "oem" and a == "rotating")])
+                                       if not (f in ("oem", "xml") and a == "rotating")])
 def test_round_trip_back_to_rotating(tmp_path, fmt, axes):
     traj = _traj("UTC", axes=axes, center="moon", maneuver=True)
     path = export.write(tmp_path / f"t.{fmt}", traj)
@@ -89,6 +89,8 @@ def test_json_keys(tmp_path):
 def test_oem_refuses_the_rotating_frame(tmp_path):
     with pytest.raises(InputError, match="OEM needs inertial axes"):
         export.write_oem(tmp_path / "t.oem", _traj(axes="rotating"))
+    with pytest.raises(InputError, match="OEM needs inertial axes"):
+        export.write_oem_xml(tmp_path / "t.xml", _traj(axes="rotating"))
     assert not list(tmp_path.iterdir())
 
 

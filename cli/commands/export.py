@@ -57,7 +57,7 @@ def add_arguments(p):
     t.add_argument("--step", metavar="TIME", help="output step on the output clock (10min, 1h, 60s)")
     add_frame_options(p)
     o = p.add_argument_group("output")
-    o.add_argument("--format", choices=("oem", "csv", "json"), help="file format (default from the --out suffix)")
+    o.add_argument("--format", choices=("oem", "xml", "csv", "json"), help="file format: oem (KVN), xml (OEM in XML), csv, json (default from the --out suffix)")
     o.add_argument("--object-name", metavar="NAME", default="LIBRATE DESIGN", help="OBJECT_NAME (default 'LIBRATE DESIGN')")
     o.add_argument("--object-id", metavar="ID", default="NONE", help="OBJECT_ID (default NONE)")
     o.add_argument("--out", metavar="FILE", required=True, help="file to write (atomically)")
@@ -124,7 +124,7 @@ def run(args):
     if len(chosen) != 1:
         raise InputError("give exactly one of --state, --orbit or --from FILE")
     fmt = export.format_of(args.out, args.format)
-    if fmt == "oem" and args.frame == "rotating":
+    if fmt in ("oem", "xml") and args.frame == "rotating":
         raise InputError("OEM needs inertial axes (--frame j2000-equator or j2000-ecliptic); "
                          "use --format csv or json for the rotating frame")
     ts = args.time_system.upper()
