@@ -5,8 +5,8 @@ from .. import common
 NAME = "export"
 ORDER = 80
 HELP = "write a trajectory as CCSDS OEM, CSV or JSON at an epoch, in an inertial frame, km and km/s"
-EXAMPLE = ("librate export --system earth-moon --state=1.1809,0,-0.0116,0,-0.1559,0 --period 13.1d "
-           "--epoch 2031-03-01T00:00:00Z --span 3periods --step 10min --out orbit.oem")
+EXAMPLE = ("librate export --system earth-moon --state 1.1805031,0,-0.02,0,-0.1581343,0 --period 14.8177d "
+           "--epoch 2031-03-01T00:00:00Z --span 3periods --step 10min --center moon --out relay.oem")
 
 FRAMES = ("j2000-equator", "j2000-ecliptic", "rotating")
 TIME_SYSTEMS = ("tdb", "tt", "tai", "utc")
@@ -40,8 +40,7 @@ def add_arguments(p):
     common.add_system_options(p)
     src = p.add_argument_group("what to export (one of)")
     src.add_argument("--state", metavar="X,Y,Z,VX,VY,VZ",
-                     help="initial rotating-frame state, nondimensional (or km and km/s with --km); "
-                          "write --state=-0.5,... when it starts with a minus sign")
+                     help="initial rotating-frame state, nondimensional (or km and km/s with --km)")
     src.add_argument("--km", action="store_true", help="--state is in km and km/s (barycentric rotating frame)")
     src.add_argument("--period", metavar="TIME", help="period of the --state orbit (e.g. 13.1d, 3.41TU), "
                                                        "so that --span can count periods")
