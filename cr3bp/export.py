@@ -325,7 +325,7 @@ def _model_lines(traj: Trajectory) -> list[str]:
     lines.append(f"Epoch of rotating time 0: {spec.to_dict()['epoch_tdb']} TDB; centre {spec.center_name}")
     if spec.axes == "j2000-ecliptic":
         lines.append("REF_FRAME J2000_ECLIPTIC: mean ecliptic and equinox of J2000, EME2000 rotated "
-                     "about x by the IAU 1976 obliquity 84381.448 arcsec (not a registry value)")
+                     "about x by the IAU 2006 obliquity 84381.406 arcsec (not a registry value)")
     for k, v in traj.model.items():
         lines.append(f"{k}: {v}")
     return lines

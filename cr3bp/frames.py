@@ -32,7 +32,8 @@ Anchorings
 
 Inertial axes: ``j2000-equator`` (EME2000: mean equator and equinox of J2000) and
 ``j2000-ecliptic`` (mean ecliptic and equinox of J2000, obtained from EME2000 by a rotation
-of the IAU 1976 obliquity 84381.448 arcsec about x; Lieske et al., A&A 58, 1977, from memory).
+of the IAU 2006 obliquity 84381.406 arcsec about x; Hilton et al., Celest. Mech. Dyn. Astr. 94,
+2006, from memory -- the value the project's ephemeris module uses for its J2000 ecliptic).
 ``rotating`` keeps the CR3BP axes, dimensional (km, km/s, length unit fixed), re-centred.
 """
 
@@ -51,9 +52,9 @@ ANCHORS = ("ephemeris", "circular")
 CENTERS = ("primary", "secondary", "barycenter")
 TIME_SYSTEMS = ("TDB", "TT", "TAI", "UTC")
 
-#: IAU 1976 obliquity of the ecliptic at J2000 (Lieske et al. 1977, from memory; pyerfa obl80
+#: IAU 2006 obliquity of the ecliptic at J2000 (Hilton et al. 2006, from memory; pyerfa obl06
 #: gives the same value, see tests/test_against_pyerfa_frames.py).
-OBLIQUITY_J2000_RAD = 84381.448 * math.pi / (180.0 * 3600.0)
+OBLIQUITY_J2000_RAD = 84381.406 * math.pi / (180.0 * 3600.0)
 
 #: Step of the central difference that gives the secondary's acceleration from its ephemeris
 #: velocity (s). The rotating axes' x rate depends on it only through the acceleration.

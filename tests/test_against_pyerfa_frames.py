@@ -20,14 +20,14 @@ AU_KM = 149597870.7
 J2000_JD = 2451545.0
 
 
-def test_obliquity_is_iau_1976_at_j2000():
-    # erfa.obl80: IAU 1976 mean obliquity (Lieske et al. 1977)
-    assert abs(frames.OBLIQUITY_J2000_RAD - erfa.obl80(J2000_JD, 0.0)) < ONE_MAS_RAD
+def test_obliquity_is_iau_2006_at_j2000():
+    # erfa.obl06: IAU 2006 mean obliquity (Hilton et al. 2006)
+    assert abs(frames.OBLIQUITY_J2000_RAD - erfa.obl06(J2000_JD, 0.0)) < ONE_MAS_RAD
 
 
 def test_ecliptic_rotation_matches_erfa_ecliptic_matrix_sense():
     # the equator's +y axis lies below the ecliptic plane by the obliquity: v_ecl = (0, cos e, -sin e)
-    e = erfa.obl80(J2000_JD, 0.0)
+    e = erfa.obl06(J2000_JD, 0.0)
     v = frames.ECL_FROM_EQ @ np.array([0.0, 1.0, 0.0])
     assert np.allclose(v, [0.0, math.cos(e), -math.sin(e)], atol=1e-15)
     # and the north ecliptic pole is at RA 270 deg, Dec 90 - e in equatorial axes
