@@ -160,7 +160,8 @@ def run(args):
             raise InputError("orbit specs (--orbit) are not available yet in this build; give --state "
                              "(with --period) or --from FILE") from None
         common.progress(args, f"solving orbit request '{args.orbit}'...")
-        orbit = solve_request(sysm, args.orbit)
+        orbit = solve_request(sysm, args.orbit, progress=lambda count, most, _orbit: common.progress(
+            args, f"  family member {count} of at most {most}", verbose_only=True))
         source, period_tu = orbit, float(orbit.period)
         model["orbit"] = f"{orbit.family} {orbit.point} {orbit.branch}".strip()
         model["orbit request"] = args.orbit
