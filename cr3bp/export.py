@@ -326,6 +326,10 @@ def _model_lines(traj: Trajectory) -> list[str]:
     if spec.axes == "j2000-ecliptic":
         lines.append("REF_FRAME J2000_ECLIPTIC: mean ecliptic and equinox of J2000, EME2000 rotated "
                      "about x by the IAU 2006 obliquity 84381.406 arcsec (not a registry value)")
+    if _frames.time_system(traj.time_system) == "UTC":
+        lines.append("UTC epochs use the leap-second table as known when this file was written; a "
+                     "leap second announced later shifts later epochs by 1 s (TDB/TT/TAI files do not "
+                     "depend on it)")
     for k, v in traj.model.items():
         lines.append(f"{k}: {v}")
     return lines
@@ -896,6 +900,15 @@ def read_json(path) -> ReadResult:
                     return _rotating_result("json", {}, np.asarray(src["t"], float), np.asarray(src["states"], float).reshape(-1, 6))
                 except (ValueError, TypeError):
                     break
+        if all(k in d for k in ("initial_state", "final_state", "t_final")):
+            # a propagation summary (librate propagate --format json): its two end states
+            try:
+                st = np.array([d["initial_state"], d["final_state"]], float).reshape(2, 6)
+                res = _rotating_result("json", {"system": d.get("system", "")},
+                                       np.array([0.0, float(d["t_final"])]), st)
+                return res
+            except (TypeError, ValueError):
+                pass
         if isinstance(d.get("points"), list):
             try:
                 t = np.array([p["t"] for p in d["points"]], float)

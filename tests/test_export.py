@@ -193,3 +193,24 @@ def test_sample_legs_makes_segments_and_maneuvers(tmp_path):
     broken = type("Leg", (), {"t": b.t + 0.9, "states": b.states})()
     with pytest.raises(InputError, match="does not start where"):
         export.sample_legs(EM, [a, broken], grid)
+
+
+def test_files_of_the_propagate_command_are_read(tmp_path):
+    """The layouts `librate propagate --out` writes: CSV columns t_tu, t_days, x_lu ... vz_vu,
+    jacobi (+ km columns) after '#' comment lines, and a JSON summary with initial_state,
+    final_state, t_final."""
+    arc = propagate(EM, STATE, 1.0, t_eval=np.linspace(0, 1, 4))
+    head = "t_tu,t_days,x_lu,y_lu,z_lu,vx_vu,vy_vu,vz_vu,jacobi,x_km,y_km,z_km,vx_kms,vy_kms,vz_kms"
+    rows = [",".join(repr(float(v)) for v in [t, t * EM.time_days, *s, 3.0, *(s[:3] * EM.length_km),
+                                                *(s[3:] * EM.velocity_kms)]) for t, s in zip(arc.t, arc.states)]
+    c = tmp_path / "p.csv"
+    c.write_text("# librate propagate: system earth-moon\n# CAUTION ...\n" + head + "\n" + "\n".join(rows) + "\n")
+    seg = export.to_rotating(export.read(c))[0]
+    assert np.array_equal(seg.t_tu, arc.t) and np.array_equal(seg.states, arc.states)
+    j = tmp_path / "p.json"
+    j.write_text(json.dumps({"system": "earth-moon", "status": "time", "t_final": 1.0,
+                             "initial_state": STATE, "final_state": arc.states[-1].tolist()}))
+    data = export.read(j)
+    assert data.header["system"] == "earth-moon"
+    seg = export.to_rotating(data)[0]
+    assert np.array_equal(seg.t_tu, [0.0, 1.0]) and np.array_equal(seg.states[0], STATE)

@@ -139,6 +139,9 @@ def run(args):
             sysm = common.resolve_system(args)
         elif file_frame is not None:
             sysm = file_frame.system
+        elif data.header.get("system"):
+            from cr3bp import system as _system
+            sysm = _system(data.header["system"])
         else:
             raise InputError(f"'{args.from_file}' does not name its system; give --system")
         if file_frame is not None and file_frame.system.mu != sysm.mu:
