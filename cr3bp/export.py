@@ -526,11 +526,15 @@ def maneuvers_path(path) -> Path:
 def write_csv(path, traj: Trajectory) -> Path:
     """Write the CSV (and ``NAME.maneuvers.csv`` when there are maneuvers), atomically."""
     text, mtext = csv_text(traj)
-    if mtext is not None:
-        with writing(maneuvers_path(path)) as f:
-            f.write(mtext)
-    with writing(path) as f:
+    if mtext is None:
+        with writing(path) as f:
+            f.write(text)
+        return Path(path)
+    # both files are written to temporary names first; a failure while writing either leaves
+    # neither (the two renames happen only after both writes succeeded)
+    with writing(path) as f, writing(maneuvers_path(path)) as g:
         f.write(text)
+        g.write(mtext)
     return Path(path)
 
 
