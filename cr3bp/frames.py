@@ -56,9 +56,13 @@ TIME_SYSTEMS = ("TDB", "TT", "TAI", "UTC")
 #: gives the same value, see tests/test_against_pyerfa_frames.py).
 OBLIQUITY_J2000_RAD = 84381.406 * math.pi / (180.0 * 3600.0)
 
-#: Step of the central difference that gives the secondary's acceleration from its ephemeris
-#: velocity (s). The rotating axes' x rate depends on it only through the acceleration.
-ACCEL_STEP_S = 600.0
+#: The instantaneous frame reads the secondary's ephemeris through Chebyshev series of this
+#: degree on segments of this length aligned on J2000 (so the series at an epoch does not
+#: depend on which other epochs are asked for). Position, velocity and acceleration are the
+#: series and its derivatives: one consistent, smooth (r, v, a), and the ephemeris is called
+#: at 14 nodes per half day however many epochs are transformed.
+SERIES_SEGMENT_S = 43200.0
+SERIES_DEGREE = 13
 
 SECONDS_PER_DAY = 86400.0
 
@@ -98,6 +102,46 @@ def secondary_state(system, tdb_s) -> np.ndarray:
         raise InputError(f"no ephemeris for the {system.primary.name}-{system.secondary.name} pair "
                          "in this build; use --anchor circular with an explicit orientation")
     return out
+
+
+def secondary_series(system, tdb_s):
+    """Position, velocity and acceleration of the secondary relative to the primary (km, km/s,
+    km/s^2, EME2000) from Chebyshev series fitted to its ephemeris positions.
+
+    Chebyshev interpolation at the points of the first kind on each segment
+    ``[k, k + 1] * SERIES_SEGMENT_S`` (TDB seconds since J2000) and the derivative recurrences
+    ``T'_{j+1} = 2 T_j + 2u T'_j - T'_{j-1}``, ``T''_{j+1} = 4 T'_j + 2u T''_j - T''_{j-1}``
+    (Press et al., *Numerical Recipes*, 3rd ed., 2007, sec. 5.8-5.9).
+    """
+    t = np.atleast_1d(np.asarray(tdb_s, dtype=float))
+    h = SERIES_SEGMENT_S
+    n = SERIES_DEGREE + 1
+    seg = np.floor(t / h)
+    uniq, inv = np.unique(seg, return_inverse=True)
+    start = uniq * h                                                         # exact (integers)
+    nodes = np.cos(np.pi * (np.arange(n) + 0.5) / n)
+    times = start[:, None] + 0.5 * (nodes[None, :] + 1.0) * h                # (M, n), rounded
+    pos = secondary_state(system, times.ravel())[:, :3].reshape(uniq.size, n, 3)
+    # the series interpolates at the node times actually used (rounded to double), so that
+    # rounding of ~1e-7 s does not become a 0.1 mm error at lunar speed
+    uk = 2.0 * (times - start[:, None]) / h - 1.0
+    coef = np.linalg.solve(np.polynomial.chebyshev.chebvander(uk, n - 1), pos)   # (M, n, 3)
+    u = 2.0 * (t - seg * h) / h - 1.0
+    T = np.empty((t.size, n))
+    D1 = np.empty_like(T)
+    D2 = np.empty_like(T)
+    T[:, 0], D1[:, 0], D2[:, 0] = 1.0, 0.0, 0.0
+    if n > 1:
+        T[:, 1], D1[:, 1], D2[:, 1] = u, 1.0, 0.0
+    for j in range(1, n - 1):
+        T[:, j + 1] = 2.0 * u * T[:, j] - T[:, j - 1]
+        D1[:, j + 1] = 2.0 * T[:, j] + 2.0 * u * D1[:, j] - D1[:, j - 1]
+        D2[:, j + 1] = 4.0 * D1[:, j] + 2.0 * u * D2[:, j] - D2[:, j - 1]
+    c = coef[inv]                                                            # (N, n, 3)
+    r = np.einsum("nj,njx->nx", T, c)
+    v = np.einsum("nj,njx->nx", D1, c) * (2.0 / h)
+    a = np.einsum("nj,njx->nx", D2, c) * (2.0 / h) ** 2
+    return r, v, a
 
 
 # ---- elementary rotations ----------------------------------------------------------------
@@ -164,9 +208,9 @@ def orientation_from_ephemeris(system, epoch_tdb_s: float, plane: str = "j2000-e
     (common practice, e.g. Vallado, *Fundamentals of Astrodynamics and Applications*, 4th ed.,
     2013, sec. 2.5, from memory).
     """
-    s = secondary_state(system, np.array([epoch_tdb_s]))[0]
+    rr, vv, _ = secondary_series(system, np.array([epoch_tdb_s]))
     a = _axes_from_eq(plane)
-    r, v = a @ s[:3], a @ s[3:]
+    r, v = a @ rr[0], a @ vv[0]
     h = np.cross(r, v)
     zh = h / np.linalg.norm(h)
     inc = math.acos(max(-1.0, min(1.0, zh[2])))
@@ -300,7 +344,7 @@ def frame(system, epoch, *, anchor="ephemeris", axes="j2000-equator", center="pr
     elif orientation is not None:
         raise InputError("an orientation goes with the circular anchoring only")
     else:
-        secondary_state(system, np.array([t0]))  # validity check of the epoch now, not later
+        secondary_series(system, np.array([t0]))  # validity check of the epoch now, not later
     return FrameSpec(system, t0, anchor, axes, center, ori)
 
 
@@ -329,11 +373,7 @@ def basis(spec: FrameSpec, tdb_s):
         w = np.zeros((n, 3))
         w[:, 2] = 1.0 / sysm.time_s
         return c, w, np.full(n, sysm.length_km), np.zeros(n)
-    s = secondary_state(sysm, t)
-    sp = secondary_state(sysm, t + ACCEL_STEP_S)
-    sm = secondary_state(sysm, t - ACCEL_STEP_S)
-    acc = (sp[:, 3:] - sm[:, 3:]) / (2.0 * ACCEL_STEP_S)
-    r, v = s[:, :3], s[:, 3:]
+    r, v, acc = secondary_series(sysm, t)
     rn = np.linalg.norm(r, axis=1)
     h = np.cross(r, v)
     hn = np.linalg.norm(h, axis=1)
