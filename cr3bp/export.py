@@ -162,8 +162,7 @@ def epoch_grid(spec, time_system: str, span_tu: float, step_s: float) -> np.ndar
     n = int(math.floor(span_s / step_s * (1 + 1e-12))) + 1
     if n > MAX_SAMPLES:
         raise InputError(f"{n} samples exceed the limit of {MAX_SAMPLES}; use a larger step")
-    label0 = float(_frames._pending.to_label(spec.epoch_tdb_s, ts))
-    tdb = _frames._pending.from_label(label0 + np.arange(n) * step_s, ts)
+    tdb = _frames.clock_grid(spec.epoch_tdb_s, n, step_s, ts)
     t = (np.asarray(tdb) - spec.epoch_tdb_s) / spec.system.time_s
     t[0] = 0.0
     return t

@@ -40,11 +40,11 @@ of the IAU 2006 obliquity 84381.406 arcsec about x; Hilton et al., Celest. Mech.
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from . import _shim_time_ephemeris as _pending  # TEMPORARY: see that module's docstring
 from .errors import InputError
 
 AXES = ("j2000-equator", "j2000-ecliptic", "rotating")
@@ -67,22 +67,126 @@ SERIES_DEGREE = 13
 SECONDS_PER_DAY = 86400.0
 
 
-# ---- adapters to the time / ephemeris modules (switch here when they land) -------------
+# ---- adapters to the project's time scales and ephemeris ------------------------------
+# cr3bp.timescales and cr3bp.ephemeris are used when they are installed. Until they are on
+# main, the TEMPORARY shim cr3bp/_shim_time_ephemeris.py stands in: delete it, the import
+# below and the `if _timescales is None` branches once they are.
+try:
+    from . import ephemeris as _ephemeris  # noqa: F401  (imported for the check only)
+    from . import timescales as _timescales
+except ImportError:
+    _timescales = None
+from . import _shim_time_ephemeris as _pending
+
+_DESIGNATOR = re.compile(r"(Z|\s(UTC|TAI|TT|TDB))\s*$", re.IGNORECASE)
+_BODY = {"earth-moon": "emb", "mars-system": "mars", "jupiter-system": "jupiter"}
+
+
+def _epoch(tdb_s):
+    """TDB seconds since J2000 -> :class:`cr3bp.timescales.Epoch` (two-part JD, exact split)."""
+    from .timescales import J2000_JD, Epoch
+    t = np.asarray(tdb_s, dtype=float)
+    days = np.floor(t / SECONDS_PER_DAY)
+    return Epoch.from_jd(J2000_JD + days, (t - days * SECONDS_PER_DAY) / SECONDS_PER_DAY, "tdb")
+
 
 def epoch_from_text(text: str, default_scale: str = "UTC") -> float:
     """ISO 8601 text -> TDB seconds since J2000. 'Z' (or a trailing scale name) sets the scale."""
-    label, scale = _pending.parse_iso(text)
-    return float(_pending.from_label(label, scale or time_system(default_scale)))
+    if not isinstance(text, str):
+        raise InputError(f"epoch {text!r} is not text; expected ISO 8601 like 2031-03-01T00:00:00Z")
+    if _timescales is None:
+        label, scale = _pending.parse_iso(text)
+        return float(_pending.from_label(label, scale or time_system(default_scale)))
+    from .timescales import parse_iso
+    named = _DESIGNATOR.search(text)
+    ep = parse_iso(text) if named else parse_iso(text, time_system(default_scale).lower())
+    return float(ep.seconds_since_j2000("tdb"))
+
+
+_MJD0 = np.datetime64("1858-11-17T00:00:00", "us")
 
 
 def epoch_to_text(tdb_s, scale: str = "TDB", digits: int = 6):
-    """TDB seconds since J2000 -> ISO 8601 strings on ``scale`` (no zone suffix), vectorised."""
-    return _pending.format_iso(_pending.to_label(tdb_s, time_system(scale)), digits)
+    """TDB seconds since J2000 -> ISO 8601 strings on ``scale`` (no zone suffix), vectorised.
+
+    Microsecond text (``digits=6``, the files' form) is built by numpy's datetime64 from the
+    scale's two-part Julian date; the rare instants inside a UTC leap second, and other digit
+    counts, go through :meth:`cr3bp.timescales.Epoch.to_iso`.
+    """
+    if _timescales is None:
+        return _pending.format_iso(_pending.to_label(tdb_s, time_system(scale)), digits)
+    import warnings
+    from .timescales import tai_minus_utc
+    t = np.asarray(tdb_s, dtype=float)
+    flat = t.ravel()
+    sc = time_system(scale).lower()
+    ep = _epoch(flat)
+    if digits != 6:
+        out = ep.to_iso(sc, digits, designator=False)
+        return np.asarray(out if isinstance(out, list) else [out]).reshape(t.shape)
+    jd1, jd2 = (np.atleast_1d(x) for x in ep.two_part_jd(sc))
+    mjd = np.rint(jd1 - 2400000.5).astype(np.int64)
+    length = np.full(mjd.shape, 86400.0)
+    if sc == "utc":
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")   # the conversion above has already warned
+            length = 86400.0 + tai_minus_utc(mjd + 1) - tai_minus_utc(mjd)
+    us = np.rint(jd2 * length * 1e6).astype(np.int64)
+    out = np.datetime_as_string(_MJD0 + (mjd * 86_400_000_000 + us).astype("timedelta64[us]"), unit="us")
+    odd = us >= 86_400_000_000                        # inside a leap second (23:59:60)
+    if odd.any():
+        out = out.astype(object)
+        idx = np.flatnonzero(odd)
+        fixed = ep[idx].to_iso(sc, 6, designator=False)
+        out[idx] = fixed if isinstance(fixed, list) else [fixed]
+        out = out.astype(str)
+    return out.reshape(t.shape)
 
 
 def epochs_from_texts(texts, scale: str) -> np.ndarray:
-    """ISO 8601 strings on ``scale`` -> TDB seconds since J2000."""
-    return np.asarray(_pending.from_label(_pending.parse_iso_many(texts), time_system(scale)))
+    """ISO 8601 strings on ``scale`` -> TDB seconds since J2000.
+
+    Plain ``YYYY-MM-DDThh:mm:ss[.f]`` text is read by numpy's datetime64 (vectorised) and
+    passed to :meth:`cr3bp.timescales.Epoch.from_jd`; anything else (a leap second, other
+    forms) goes through :func:`cr3bp.timescales.parse_iso`, which also names bad values.
+    """
+    if _timescales is None:
+        return np.asarray(_pending.from_label(_pending.parse_iso_many(texts), time_system(scale)))
+    import warnings
+    from .timescales import Epoch, parse_iso, tai_minus_utc
+    texts = [str(x).strip() for x in texts]
+    sc = time_system(scale).lower()
+    try:
+        if any(":60" in x[16:19] for x in texts):
+            raise ValueError("leap second")
+        stamps = np.array(texts, dtype="datetime64[us]")
+    except ValueError:
+        return np.atleast_1d(parse_iso(texts, sc).seconds_since_j2000("tdb"))
+    us = (stamps - _MJD0) / np.timedelta64(1, "us")
+    mjd = np.floor(us / 86_400_000_000).astype(np.int64)
+    sec = (us - mjd * 86_400_000_000) * 1e-6
+    length = np.full(mjd.shape, 86400.0)
+    if sc == "utc":
+        if mjd.min() < 41317:
+            return np.atleast_1d(parse_iso(texts, sc).seconds_since_j2000("tdb"))  # its message
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            length = 86400.0 + tai_minus_utc(mjd + 1) - tai_minus_utc(mjd)
+        tai_minus_utc(mjd, stacklevel=2)          # warns once past the leap-second table
+    ep = Epoch.from_jd(mjd + 2400000.5, sec / length, sc)
+    return np.atleast_1d(ep.seconds_since_j2000("tdb"))
+
+
+def clock_grid(epoch_tdb_s: float, n: int, step_s: float, scale: str) -> np.ndarray:
+    """Epochs (TDB s) ``k * step_s`` apart on the clock ``scale``, from ``epoch_tdb_s``: TDB
+    seconds for TDB, SI seconds (equal steps of TT, TAI and UTC away from leap seconds) else."""
+    k = np.arange(n) * float(step_s)
+    if time_system(scale) == "TDB":
+        return epoch_tdb_s + k
+    if _timescales is None:
+        ts = time_system(scale)
+        return np.asarray(_pending.from_label(float(_pending.to_label(epoch_tdb_s, ts)) + k, ts))
+    return np.asarray((_epoch(np.array([epoch_tdb_s])) + k).seconds_since_j2000("tdb"), dtype=float)
 
 
 def time_system(name: str) -> str:
@@ -93,15 +197,25 @@ def time_system(name: str) -> str:
 
 
 def secondary_state(system, tdb_s) -> np.ndarray:
-    """Ephemeris state of the secondary relative to the primary, (N, 6) km, km/s, EME2000."""
+    """Ephemeris state of the secondary relative to the primary, (N, 6) km, km/s, EME2000
+    (:func:`cr3bp.ephemeris.state`)."""
     if system.primary is None or system.secondary is None:
         raise InputError(f"system '{system.name}' has no named primaries, so it has no ephemeris; "
                          "use --anchor circular with an explicit orientation")
-    out = _pending.relative_state(system.primary.name, system.secondary.name, tdb_s)
-    if out is None:
-        raise InputError(f"no ephemeris for the {system.primary.name}-{system.secondary.name} pair "
-                         "in this build; use --anchor circular with an explicit orientation")
-    return out
+    if _timescales is None:
+        out = _pending.relative_state(system.primary.name, system.secondary.name, tdb_s)
+        if out is None:
+            raise InputError(f"no ephemeris for the {system.primary.name}-{system.secondary.name} pair "
+                             "in this build; use --anchor circular with an explicit orientation")
+        return out
+    from . import ephemeris
+    body = _BODY.get(system.secondary.name, system.secondary.name)
+    center = _BODY.get(system.primary.name, system.primary.name)
+    if body not in ephemeris.BODIES or center not in ephemeris.CENTERS:
+        raise InputError(f"no ephemeris for the {system.primary.name}-{system.secondary.name} pair; "
+                         "use --anchor circular with an explicit orientation")
+    t = np.atleast_1d(np.asarray(tdb_s, dtype=float))
+    return np.asarray(ephemeris.state(body, _epoch(t), center, "j2000-equator")).reshape(t.size, 6)
 
 
 def secondary_series(system, tdb_s):
