@@ -5,6 +5,7 @@ from .export import add_frame_options, parse_orientation, summary
 
 NAME = "convert"
 ORDER = 85
+KERNELS = ()   # no propagation: no compile notice
 HELP = "convert a trajectory file between OEM, CSV and JSON, and between frames, centres and time systems"
 EXAMPLE = "librate convert orbit.oem orbit.csv --frame j2000-ecliptic --center moon --time-system utc"
 

@@ -4,6 +4,7 @@ from .. import common
 
 NAME = "export"
 ORDER = 80
+KERNELS = (("cr3bp.integrate.dop853", "integrate"),)   # sampling propagates
 HELP = "write a trajectory as CCSDS OEM, CSV or JSON at an epoch, in an inertial frame, km and km/s"
 EXAMPLE = ("librate export --system earth-moon --state 1.1805031,0,-0.02,0,-0.1581343,0 --period 14.8177d "
            "--epoch 2031-03-01T00:00:00Z --span 3periods --step 10min --center moon --out relay.oem")
