@@ -175,3 +175,26 @@ def test_orbit_spec_wiring_with_a_stand_in_solver(tmp_path, monkeypatch):
     assert len(seg.epochs) == int(2 * halo.period * EM.time_s / 21600) + 1
     text = out.read_text()
     assert "COMMENT orbit: halo L2 south" in text and "COMMENT orbit request: halo L2 south period=14.8d" in text
+
+
+def test_other_systems_and_missing_period(tmp_path, capsys):
+    se = tmp_path / "se.oem"
+    assert main(["export", "--system", "sun-earth", "--state", "1.01,0,0.001,0,0.009,0", "--epoch",
+                 "2031-03-01T00:00:00Z", "--span", "30d", "--step", "1d", "--center", "earth-moon",
+                 "--out", str(se), "-q"]) == 0
+    d = export.read(se)
+    assert d.segments[0].metadata["CENTER_NAME"] == "EARTH-MOON BARYCENTER" and len(d.segments[0].epochs) == 31
+    # about 1.5 million km from the Earth-Moon barycentre near Sun-Earth L2 (1.01 au - 1 au)
+    r = np.linalg.norm(d.segments[0].states[0, :3])
+    assert 1.3e6 < r < 1.7e6
+    custom = ["export", "--mu", "0.01", "--length-km", "100000", "--time-s", "50000", "--state",
+              "0.8,0,0,0,0.1,0", "--epoch", "2031-03-01T00:00:00Z", "--span", "2d", "--step", "1h"]
+    assert main(custom + ["--out", str(tmp_path / "c1.oem")]) == 2
+    assert "no named primaries" in capsys.readouterr().err
+    assert main(custom + ["--anchor", "circular", "--orientation", "10,20,30", "--out",
+                          str(tmp_path / "c2.oem"), "-q"]) == 0
+    assert not (tmp_path / "c1.oem").exists() and (tmp_path / "c2.oem").exists()
+    args = [a for a in BASE if a not in ("--period", "3.1TU")]
+    assert main(args + ["--span", "3periods", "--out", str(tmp_path / "p.oem")]) == 2
+    assert "no period" in capsys.readouterr().err
+    assert not (tmp_path / "p.oem").exists()
