@@ -326,9 +326,11 @@ def _model_lines(traj: Trajectory) -> list[str]:
         lines.append("REF_FRAME J2000_ECLIPTIC: mean ecliptic and equinox of J2000, EME2000 rotated "
                      "about x by the IAU 2006 obliquity 84381.406 arcsec (not a registry value)")
     if _frames.time_system(traj.time_system) == "UTC":
-        lines.append("UTC epochs use the leap-second table as known when this file was written; a "
-                     "leap second announced later shifts later epochs by 1 s (TDB/TT/TAI files do not "
-                     "depend on it)")
+        from .timescales import leap_second_table, mjd_to_iso_date
+        table = leap_second_table()
+        lines.append(f"UTC epochs: leap-second table valid until {mjd_to_iso_date(table.valid_until_mjd)}, "
+                     f"TAI-UTC = {table.tai_minus_utc_s[-1]:g} s assumed after it; a leap second announced "
+                     "later would shift later epochs by 1 s (TDB/TT/TAI files do not depend on it)")
     for k, v in traj.model.items():
         lines.append(f"{k}: {v}")
     return lines

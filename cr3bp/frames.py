@@ -67,16 +67,7 @@ SERIES_DEGREE = 13
 SECONDS_PER_DAY = 86400.0
 
 
-# ---- adapters to the project's time scales and ephemeris ------------------------------
-# cr3bp.timescales and cr3bp.ephemeris are used when they are installed. Until they are on
-# main, the TEMPORARY shim cr3bp/_shim_time_ephemeris.py stands in: delete it, the import
-# below and the `if _timescales is None` branches once they are.
-try:
-    from . import ephemeris as _ephemeris  # noqa: F401  (imported for the check only)
-    from . import timescales as _timescales
-except ImportError:
-    _timescales = None
-from . import _shim_time_ephemeris as _pending
+# ---- adapters to the project's time scales (cr3bp.timescales) and ephemeris -------------
 
 _DESIGNATOR = re.compile(r"(Z|\s(UTC|TAI|TT|TDB))\s*$", re.IGNORECASE)
 _BODY = {"earth-moon": "emb", "mars-system": "mars", "jupiter-system": "jupiter"}
@@ -94,9 +85,6 @@ def epoch_from_text(text: str, default_scale: str = "UTC") -> float:
     """ISO 8601 text -> TDB seconds since J2000. 'Z' (or a trailing scale name) sets the scale."""
     if not isinstance(text, str):
         raise InputError(f"epoch {text!r} is not text; expected ISO 8601 like 2031-03-01T00:00:00Z")
-    if _timescales is None:
-        label, scale = _pending.parse_iso(text)
-        return float(_pending.from_label(label, scale or time_system(default_scale)))
     from .timescales import parse_iso
     named = _DESIGNATOR.search(text)
     ep = parse_iso(text) if named else parse_iso(text, time_system(default_scale).lower())
@@ -113,8 +101,6 @@ def epoch_to_text(tdb_s, scale: str = "TDB", digits: int = 6):
     scale's two-part Julian date; the rare instants inside a UTC leap second, and other digit
     counts, go through :meth:`cr3bp.timescales.Epoch.to_iso`.
     """
-    if _timescales is None:
-        return _pending.format_iso(_pending.to_label(tdb_s, time_system(scale)), digits)
     import warnings
     from .timescales import tai_minus_utc
     t = np.asarray(tdb_s, dtype=float)
@@ -150,8 +136,6 @@ def epochs_from_texts(texts, scale: str) -> np.ndarray:
     passed to :meth:`cr3bp.timescales.Epoch.from_jd`; anything else (a leap second, other
     forms) goes through :func:`cr3bp.timescales.parse_iso`, which also names bad values.
     """
-    if _timescales is None:
-        return np.asarray(_pending.from_label(_pending.parse_iso_many(texts), time_system(scale)))
     import warnings
     from .timescales import Epoch, parse_iso, tai_minus_utc
     texts = [str(x).strip() for x in texts]
@@ -183,9 +167,6 @@ def clock_grid(epoch_tdb_s: float, n: int, step_s: float, scale: str) -> np.ndar
     k = np.arange(n) * float(step_s)
     if time_system(scale) == "TDB":
         return epoch_tdb_s + k
-    if _timescales is None:
-        ts = time_system(scale)
-        return np.asarray(_pending.from_label(float(_pending.to_label(epoch_tdb_s, ts)) + k, ts))
     return np.asarray((_epoch(np.array([epoch_tdb_s])) + k).seconds_since_j2000("tdb"), dtype=float)
 
 
@@ -202,12 +183,6 @@ def secondary_state(system, tdb_s) -> np.ndarray:
     if system.primary is None or system.secondary is None:
         raise InputError(f"system '{system.name}' has no named primaries, so it has no ephemeris; "
                          "use --anchor circular with an explicit orientation")
-    if _timescales is None:
-        out = _pending.relative_state(system.primary.name, system.secondary.name, tdb_s)
-        if out is None:
-            raise InputError(f"no ephemeris for the {system.primary.name}-{system.secondary.name} pair "
-                             "in this build; use --anchor circular with an explicit orientation")
-        return out
     from . import ephemeris
     body = _BODY.get(system.secondary.name, system.secondary.name)
     center = _BODY.get(system.primary.name, system.primary.name)

@@ -21,7 +21,8 @@ ONE_MM_KM = 1e-6
 ONE_UM_S_KMS = 1e-9
 EM = system("earth-moon")
 # astropy warns that UTC in 2031 is beyond its leap-second table ("dubious year"): expected
-pytestmark = pytest.mark.filterwarnings("ignore:ERFA function")
+pytestmark = [pytest.mark.filterwarnings("ignore:ERFA function"),
+              pytest.mark.filterwarnings("ignore::cr3bp.timescales.LeapSecondsExpiredWarning")]
 
 HEADER_MANDATORY = ["CCSDS_OEM_VERS", "CREATION_DATE", "ORIGINATOR"]
 METADATA_MANDATORY = ["OBJECT_NAME", "OBJECT_ID", "CENTER_NAME", "REF_FRAME", "TIME_SYSTEM",

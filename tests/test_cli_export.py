@@ -12,6 +12,8 @@ from cr3bp import export, frames, propagate, system
 from librate_cli.main import main
 
 EM = system("earth-moon")
+# UTC in the 2030s is past the leap-second table: the time-scale module warns, as it should
+pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.timescales.LeapSecondsExpiredWarning")
 STATE = "1.15,0,0.12,0,-0.2,0"
 BASE = ["export", "--system", "earth-moon", f"--state={STATE}", "--period", "3.1TU",
         "--epoch", "2031-03-01T00:00:00Z", "--span", "1periods", "--step", "2h", "-q"]
@@ -198,3 +200,13 @@ def test_other_systems_and_missing_period(tmp_path, capsys):
     assert main(args + ["--span", "3periods", "--out", str(tmp_path / "p.oem")]) == 2
     assert "no period" in capsys.readouterr().err
     assert not (tmp_path / "p.oem").exists()
+
+
+def test_utc_past_the_leap_second_table_is_one_note(tmp_path, capsys):
+    out = tmp_path / "u.oem"
+    assert main(BASE + ["--time-system", "utc", "--out", str(out)]) == 0
+    err = capsys.readouterr().err
+    notes = [ln for ln in err.splitlines() if "leap-second table" in ln]
+    assert len(notes) == 1 and notes[0].startswith("librate: note:")
+    assert "Warning" not in err
+    assert "COMMENT UTC epochs: leap-second table valid until" in out.read_text()

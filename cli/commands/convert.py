@@ -1,7 +1,7 @@
 """librate convert: between OEM, CSV and JSON trajectory files, frames, centres and time systems."""
 
 from .. import common
-from .export import add_frame_options, parse_orientation, summary
+from .export import add_frame_options, leap_second_notes, parse_orientation, summary
 
 NAME = "convert"
 ORDER = 85
@@ -19,6 +19,10 @@ def add_arguments(p):
 
 
 def run(args):
+    return leap_second_notes(args, lambda: _run(args))
+
+
+def _run(args):
     from cr3bp import export, frames
     from cr3bp.errors import InputError
     fmt = export.format_of(args.output, args.format)

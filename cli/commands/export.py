@@ -113,9 +113,34 @@ def summary(args, traj, path, fmt):
         sys.stdout.write(text)
 
 
+def leap_second_notes(args, fn):
+    """Run ``fn()`` and say once, in one line, if UTC went past the leap-second table
+    (the time-scale module warns for every conversion; a person needs it once)."""
+    import warnings
+    from cr3bp.timescales import LeapSecondsExpiredWarning, leap_second_table, mjd_to_iso_date
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", LeapSecondsExpiredWarning)
+        out = fn()
+    if any(issubclass(w.category, LeapSecondsExpiredWarning) for w in caught):
+        table = leap_second_table()
+        import sys
+        print("librate: note: UTC epochs after "   # shown even with --quiet: it is not progress
+              f"{mjd_to_iso_date(table.valid_until_mjd)} (end of the leap-second table) assume "
+              f"TAI-UTC = {table.tai_minus_utc_s[-1]:g} s; a leap second announced later would "
+              "shift them by 1 s", file=sys.stderr)
+    for w in caught:
+        if not issubclass(w.category, LeapSecondsExpiredWarning):
+            warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
+    return out
+
+
 # ---- the command ------------------------------------------------------------------------
 
 def run(args):
+    return leap_second_notes(args, lambda: _run(args))
+
+
+def _run(args):
     import numpy as np
     from cr3bp import export, frames
     from cr3bp.errors import InputError
