@@ -49,4 +49,4 @@ def test_utc_epoch_to_tdb_matches_erfa():
     dt = erfa.dtdb(t1, t2, 0.0, 0.0, 0.0, 0.0)
     want = ((t1 - J2000_JD) + t2) * 86400.0 + dt
     got = frames.epoch_from_text("2031-03-01T00:00:00Z")
-    assert abs(got - want) < 50e-6
+    assert abs(got - want) < 2e-6          # the time-scale module agrees with erfa to ~0.6 us
