@@ -66,15 +66,24 @@ def rk_step(mode, params, t, y, h, K, ytmp, ynew):
     """
     n = y.shape[0]
     for s in range(1, _NS):
-        for i in range(n):
-            ytmp[i] = 0.0
-        for j in range(s):
-            a = A[s, j]
-            if a != 0.0:
-                for i in range(n):
-                    ytmp[i] += a * K[j, i]
-        for i in range(n):
-            ytmp[i] = y[i] + h * ytmp[i]
+        if n <= 6:
+            # short vectors: one dot product per component is quickest
+            for i in range(n):
+                acc = 0.0
+                for j in range(s):
+                    acc += A[s, j] * K[j, i]
+                ytmp[i] = y[i] + h * acc
+        else:
+            # long vectors (state + STM): sweep components per stage, which vectorises
+            for i in range(n):
+                ytmp[i] = 0.0
+            for j in range(s):
+                a = A[s, j]
+                if a != 0.0:
+                    for i in range(n):
+                        ytmp[i] += a * K[j, i]
+            for i in range(n):
+                ytmp[i] = y[i] + h * ytmp[i]
         rhs(mode, t + C[s] * h, ytmp, params, K[s])
     for i in range(n):
         ynew[i] = 0.0
