@@ -229,8 +229,8 @@ def parse_until(texts, system, t_max=None) -> Stop:
                 except ValueError:
                     raise InputError(f"crossing number '{n}' in '{text}' is not an integer") from None
         elif kind == "time":
-            tmax = abs(units.time(rest, system, default_unit="TU"))
-            if tmax <= 0:
+            tmax = units.time(rest, system, default_unit="TU")
+            if not tmax > 0:
                 raise InputError(f"time limit in '{text}' must be positive")
         elif kind == "altitude":
             body, _, h = rest.partition(":")
