@@ -4,7 +4,7 @@ VENV   := .venv
 BIN    := $(VENV)/bin
 STAMP  := $(VENV)/.installed
 
-.PHONY: demo test bench venv clean
+.PHONY: demo test bench venv clean system-deps
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -17,7 +17,15 @@ venv: $(STAMP)
 demo: $(STAMP)
 	$(BIN)/python examples/demo.py --out out
 
-test: $(STAMP)
+# Headless Chromium renders the HTML report in a test (Debian package 'chromium').
+system-deps:
+	@command -v chromium >/dev/null 2>&1 || command -v chromium-browser >/dev/null 2>&1 || { \
+	  if command -v apt-get >/dev/null 2>&1; then \
+	    echo "installing Debian's chromium for the report rendering test"; \
+	    apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq chromium >/dev/null; \
+	  else echo "warning: no chromium and no apt-get; the report rendering test will fail"; fi; }
+
+test: $(STAMP) system-deps
 	$(BIN)/python -m pytest -q
 
 bench: $(STAMP)

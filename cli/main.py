@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import re
 import sys
 
 from .commands import modules as _modules
@@ -17,8 +18,35 @@ EXIT_CODES = """exit status:
 GUIDE_HEAD = "librate: preliminary mission design in the circular restricted three-body problem.\n\ncommands:\n"
 
 
+class _Parser(argparse.ArgumentParser):
+    """argparse with one-line errors: 'librate: error: ...' and exit status 2, no usage dump."""
+
+    def error(self, message):
+        sys.stderr.write(f"{self.prog}: error: {message} (see '{self.prog} --help')\n")
+        sys.exit(2)
+
+
+_NEGATIVE = re.compile(r"^-[0-9.]")
+
+
+def _join_negative_values(argv):
+    """Let option values start with a minus sign ('--time -3d', '--state -0.5,0,...'): argparse
+    would take them for options, so they are joined as '--time=-3d'."""
+    out = []
+    i = 0
+    while i < len(argv):
+        a = argv[i]
+        if a.startswith("--") and "=" not in a and i + 1 < len(argv) and _NEGATIVE.match(argv[i + 1]):
+            out.append(f"{a}={argv[i + 1]}")
+            i += 2
+            continue
+        out.append(a)
+        i += 1
+    return out
+
+
 def build_parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(
+    parser = _Parser(
         prog="librate",
         description="Preliminary spacecraft mission design in the circular restricted three-body problem.",
         epilog=EXIT_CODES, formatter_class=argparse.RawDescriptionHelpFormatter)
@@ -46,7 +74,7 @@ def main(argv=None) -> int:
         sys.stdout.write(guide() + caution_footer())
         return 0
     parser = build_parser()
-    args = parser.parse_args(argv)
+    args = parser.parse_args(_join_negative_values(argv))
     if args.command is None:
         parser.print_help()
         return 0

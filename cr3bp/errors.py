@@ -14,6 +14,19 @@ Messages are one line and name the offending value and what is allowed.
 """
 
 
+#: Characters of a rejected value quoted back in a message.
+SHOWN_MAX = 60
+
+
+def shown(text) -> str:
+    """A user's value as it goes into a one-line message: control and other non-printable
+    characters escaped (so no line break sneaks in), long text cut to ``SHOWN_MAX``."""
+    t = str(text)
+    if not t.isprintable():
+        t = t.encode("unicode_escape").decode("ascii")
+    return t if len(t) <= SHOWN_MAX else t[:SHOWN_MAX] + "..."
+
+
 class LibrateError(Exception):
     """Base class of every error librate raises on purpose."""
 

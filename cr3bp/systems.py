@@ -18,7 +18,7 @@ import tomllib
 from dataclasses import dataclass, field
 from importlib import resources
 
-from .errors import InputError, UnknownSystemError
+from .errors import InputError, UnknownSystemError, shown
 
 SECONDS_PER_DAY = 86400.0
 
@@ -150,7 +150,7 @@ def body(name: str) -> Body:
     if name not in bodies:
         near = difflib.get_close_matches(name, list(bodies), n=3)
         hint = f"; did you mean {', '.join(near)}?" if near else ""
-        raise InputError(f"unknown body '{name}'{hint}")
+        raise InputError(f"unknown body '{shown(name)}'{hint}")
     b = bodies[name]
     return Body(name, float(b["gm_km3_s2"]), float(b["radius_km"]), b.get("source", ""))
 
@@ -230,7 +230,7 @@ def system(name: str | None = None, *, mu: float | None = None, length_km: float
     if key not in systems:
         near = difflib.get_close_matches(key, list(systems), n=3, cutoff=0.4)
         hint = f"; did you mean {', '.join(near)}?" if near else f"; known: {', '.join(systems)}"
-        raise UnknownSystemError(f"unknown system '{name}'{hint}")
+        raise UnknownSystemError(f"unknown system '{shown(name)}'{hint}")
     row = systems[key]
     b1, b2 = body(row["primary"]), body(row["secondary"])
     return from_gms(b1.gm_km3_s2, b2.gm_km3_s2, float(row["distance_km"]), name=key,

@@ -21,6 +21,7 @@ import re
 from dataclasses import dataclass
 
 from .errors import UnitError
+from .errors import shown as _shown
 
 AU_KM = 149597870.7  # IAU 2012 Resolution B2
 
@@ -34,7 +35,8 @@ _UNITS = {
     "LU/TU": ("velocity", None),
 }
 _NUMBER = r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?"
-_PATTERN = re.compile(rf"^\s*({_NUMBER})\s*([A-Za-z/]*)\s*$")
+_PATTERN = re.compile(rf"^\s*({_NUMBER})\s*([A-Za-z/]*)\s*$", re.ASCII)
+
 
 
 @dataclass(frozen=True)
@@ -84,28 +86,32 @@ def parse(text: str, dimension: str | None = None, default_unit: str | None = No
         Malformed text, an unknown unit, a non-finite number or the wrong dimension.
     """
     if isinstance(text, (int, float)) and not isinstance(text, bool):
-        text = repr(float(text))
+        try:
+            text = repr(float(text))
+        except OverflowError:
+            raise UnitError("an integer too large to be a quantity was given") from None
     if not isinstance(text, str):
-        raise UnitError(f"{text!r} is not a quantity; expected text like '15000km'")
+        raise UnitError(f"{_shown(repr(text))} is not a quantity; expected text like '15000km'")
     m = _PATTERN.match(text)
+    shown = _shown(text)
     if not m:
-        raise UnitError(f"'{text}' is not a number with a unit; expected e.g. '15000km', '6.56d', '450m/s'")
+        raise UnitError(f"'{shown}' is not a number with a unit; expected e.g. '15000km', '6.56d', '450m/s'")
     value = float(m.group(1))
     unit = m.group(2)
     if not math.isfinite(value):
-        raise UnitError(f"'{text}' is not finite")
+        raise UnitError(f"'{shown}' is not finite")
     if unit == "":
         if default_unit is None:
             if dimension is not None:
-                raise UnitError(f"'{text}' has no unit; give one of {', '.join(units_of(dimension))}")
+                raise UnitError(f"'{shown}' has no unit; give one of {', '.join(units_of(dimension))}")
             return Quantity(value, "", "none")
         unit = default_unit
     if unit not in _UNITS:
         allowed = units_of(dimension) if dimension else list(_UNITS)
-        raise UnitError(f"unknown unit '{unit}' in '{text}'; allowed: {', '.join(allowed)}")
+        raise UnitError(f"unknown unit '{unit}' in '{shown}'; allowed: {', '.join(allowed)}")
     dim = _UNITS[unit][0]
     if dimension is not None and dim != dimension:
-        raise UnitError(f"'{text}' is a {dim}, but a {dimension} is needed ({', '.join(units_of(dimension))})")
+        raise UnitError(f"'{shown}' is a {dim}, but a {dimension} is needed ({', '.join(units_of(dimension))})")
     return Quantity(value, unit, dim)
 
 

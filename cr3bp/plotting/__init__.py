@@ -6,5 +6,7 @@ added as the subjects land (trajectories, energy, orbits, manifolds, routes).
 """
 
 from .base import caption, draw_primaries, new_figure, save
+from .energy import draw_lagrange_points, plot_hill_region
 
-__all__ = ["new_figure", "draw_primaries", "caption", "save"]
+__all__ = ["new_figure", "draw_primaries", "caption", "save", "draw_lagrange_points",
+           "plot_hill_region"]

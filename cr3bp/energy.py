@@ -1,0 +1,357 @@
+"""Energy: Jacobi constants, zero-velocity curves and Hill regions.
+
+Conventions (Omega, ``C = 2 Omega - v^2``) are in :mod:`cr3bp.systems`. A spacecraft with
+Jacobi constant ``C`` can only be where ``2 Omega >= C`` (its Hill region); the boundary
+``2 Omega = C`` is the zero-velocity curve (Szebehely, *Theory of Orbits*, 1967, §4.3).
+A collinear point's "neck" lets the spacecraft pass from one realm to the next exactly when
+``C < C_Li``, the Jacobi constant at rest at the point (Koon, Lo, Marsden & Ross,
+*Dynamical Systems, the Three-Body Problem and Space Mission Design*, 2011, ch. 2 and 3).
+
+Everything here works on whole grids with numpy; curves are traced with contourpy (the
+contouring library matplotlib itself uses) and then projected onto ``2 Omega = C`` by
+Newton steps along the gradient, so their points satisfy the equation to ~1e-12.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from . import dynamics
+from .equilibria import COLLINEAR, NAMES, jacobi_constants, point_name
+from .errors import InputError
+
+PLANES = ("xy", "xz")
+VIEWS = ("system", "secondary")
+#: Grid points per side of the default Hill-region grid.
+DEFAULT_RESOLUTION = 601
+#: Half-width (LU) of the "system" view, centred on the barycentre.
+SYSTEM_HALF_WIDTH = 1.5
+#: Half-width of the "secondary" view in units of the larger of gamma_L1, gamma_L2.
+SECONDARY_HALF_WIDTH = 2.0
+#: Newton projections of contour points onto 2 Omega = C.
+REFINE_STEPS = 8
+#: Field values are clipped to this (2 Omega is infinite at the primaries' centres).
+FIELD_CAP = 1e6
+
+
+# ---- Jacobi constant helpers -------------------------------------------------------------
+
+def jacobi(system, states):
+    """Jacobi constant ``C = 2 Omega - v^2`` of one state (6,) or many (N, 6)
+    (Szebehely 1967, §1.6; wraps :func:`cr3bp.dynamics.jacobi`)."""
+    return dynamics.jacobi(system.mu, states)
+
+
+def check_jacobi(value, name: str = "Jacobi constant") -> float:
+    """A finite Jacobi constant, as float; InputError otherwise."""
+    try:
+        c = float(value)
+    except (TypeError, ValueError):
+        raise InputError(f"{name} {value!r} is not a number") from None
+    if not math.isfinite(c):
+        raise InputError(f"{name} {value!r} is not finite; give a finite number such as 3.15")
+    return c
+
+
+def _velocity(system, dv) -> float:
+    """``dv`` as LU/TU: a float is taken as nondimensional, text is parsed by cr3bp.units."""
+    from . import units
+    if isinstance(dv, str):
+        v = units.velocity(dv, system)
+    else:
+        try:
+            v = float(dv)
+        except (TypeError, ValueError):
+            raise InputError(f"dv {dv!r} is not a velocity; give e.g. '20m/s' or a number in LU/TU") from None
+    if not math.isfinite(v):
+        raise InputError(f"dv {dv!r} is not finite")
+    if v < 0:
+        raise InputError(f"dv {dv!r} is negative; a speed must be >= 0")
+    return v
+
+
+def jacobi_above(system, point: str, dv) -> float:
+    """Jacobi constant of a spacecraft at Lagrange point ``point`` moving at speed ``dv``.
+
+    ``C = C_L - dv^2`` with ``dv`` nondimensional (LU/TU): from ``C = 2 Omega - v^2`` at the
+    point's position (Szebehely 1967, §1.6). ``dv`` is a float in LU/TU or a quantity such as
+    ``"20m/s"`` (parsed by :mod:`cr3bp.units`; needs a dimensional system).
+
+    Raises
+    ------
+    InputError
+        Unknown point name, or ``dv`` negative, non-finite or not a velocity.
+    """
+    name = point_name(point)
+    v = _velocity(system, dv)
+    return jacobi_constants(system)[name] - v * v
+
+
+def speed_at_point(system, point: str, jacobi_value: float) -> float | None:
+    """Speed (LU/TU) a spacecraft with this Jacobi constant has when at ``point``:
+    ``sqrt(C_L - C)``, or None when ``C > C_L`` (the point is in its forbidden region)."""
+    c = check_jacobi(jacobi_value)
+    d = jacobi_constants(system)[point_name(point)] - c
+    return math.sqrt(d) if d >= 0 else None
+
+
+def necks(system, jacobi_value: float, levels: dict | None = None) -> dict:
+    """Which necks are open: ``{"L1": C < C_L1, "L2": C < C_L2, "L3": C < C_L3}``
+    (Koon et al. 2011, ch. 2, the energy cases of Hill's region, from memory)."""
+    c = check_jacobi(jacobi_value)
+    levels = levels or jacobi_constants(system)
+    return {n: bool(c < levels[n]) for n in COLLINEAR}
+
+
+def realms(system, jacobi_value: float, levels: dict | None = None, plane: str = "xy") -> str:
+    """Plain-English description of the realms a spacecraft with Jacobi constant C can reach
+    (the five energy cases of Koon et al. 2011, ch. 2, from memory)."""
+    c = check_jacobi(jacobi_value)
+    levels = levels or jacobi_constants(system)
+    p1, p2 = (n.title() for n in system.names)
+    o = necks(system, c, levels)
+    if c <= levels["L4"] and plane == "xy":
+        return ("C at or below C_L4 = C_L5: no forbidden region is left in the plane z = 0; "
+                "the spacecraft may go anywhere in it")
+    if not any(o.values()):
+        return (f"all necks closed: the spacecraft stays in the realm where it is, around {p1}, "
+                f"around {p2}, or the exterior realm")
+    parts = []
+    if o["L1"]:
+        parts.append(f"the {p1} and {p2} realms join through the L1 neck")
+    if o["L2"]:
+        parts.append(f"the {p2} realm opens to the exterior through the L2 neck")
+    if o["L3"]:
+        parts.append(f"the {p1} realm opens to the exterior through the L3 neck" + (
+            "; the forbidden region is reduced to two pieces around L4 and L5" if plane == "xy" else ""))
+    closed = [n for n, v in o.items() if not v]
+    tail = f" ({', '.join(closed)} closed)" if closed else ""
+    return "; ".join(parts) + tail
+
+
+# ---- grids ------------------------------------------------------------------------------------
+
+def two_omega(system, u, v, plane: str = "xy"):
+    """``2 Omega`` on arrays ``u, v`` of the plane ``"xy"`` (z = 0) or ``"xz"`` (y = 0);
+    vectorised numpy (Omega as in :mod:`cr3bp.systems`)."""
+    mu = system.mu
+    u = np.asarray(u, dtype=float)
+    v = np.asarray(v, dtype=float)
+    with np.errstate(divide="ignore"):
+        r1 = np.sqrt((u + mu) ** 2 + v * v)
+        r2 = np.sqrt((u - 1.0 + mu) ** 2 + v * v)
+        centrifugal = u * u + v * v if plane == "xy" else u * u
+        return centrifugal + 2.0 * (1.0 - mu) / r1 + 2.0 * mu / r2
+
+
+def _grad_two_omega(system, u, v, plane):
+    mu = system.mu
+    d1 = u + mu
+    d2 = u - 1.0 + mu
+    r1 = np.sqrt(d1 * d1 + v * v)
+    r2 = np.sqrt(d2 * d2 + v * v)
+    a = 2.0 * (1.0 - mu) / r1**3
+    b = 2.0 * mu / r2**3
+    gu = 2.0 * u - a * d1 - b * d2
+    gv = (2.0 * v if plane == "xy" else 0.0) - (a + b) * v
+    return gu, gv
+
+
+def _check_plane(plane):
+    if plane not in PLANES:
+        raise InputError(f"plane {plane!r} is not allowed; allowed: {', '.join(PLANES)}")
+
+
+def default_extent(system, view: str = "system") -> tuple[float, float, float, float]:
+    """(umin, umax, vmin, vmax) in LU for the ``"system"`` view (all five points) or the
+    ``"secondary"`` view (the smaller primary with L1 and L2)."""
+    if view == "system":
+        h = SYSTEM_HALF_WIDTH
+        return (-h, h, -h, h)
+    if view == "secondary":
+        from .equilibria import collinear_gamma
+        g = max(collinear_gamma("L1", system.mu)[0], collinear_gamma("L2", system.mu)[0])
+        h = SECONDARY_HALF_WIDTH * g
+        x0 = 1.0 - system.mu
+        return (x0 - h, x0 + h, -h, h)
+    raise InputError(f"view {view!r} is not allowed; allowed: {', '.join(VIEWS)}")
+
+
+def check_extent(extent):
+    try:
+        e = tuple(float(v) for v in extent)
+    except (TypeError, ValueError):
+        raise InputError(f"extent {extent!r} is not four numbers umin, umax, vmin, vmax") from None
+    if len(e) != 4 or not all(math.isfinite(v) for v in e):
+        raise InputError(f"extent {extent!r} must be four finite numbers umin, umax, vmin, vmax")
+    if not (e[0] < e[1] and e[2] < e[3]):
+        raise InputError(f"extent {extent!r} needs umin < umax and vmin < vmax")
+    return e
+
+
+def _refine(system, pts, c, plane, step_cap):
+    """Project points onto 2 Omega = C by Newton steps along the gradient (capped in size)."""
+    u, v = pts[:, 0].copy(), pts[:, 1].copy()
+    for _ in range(REFINE_STEPS):
+        f = two_omega(system, u, v, plane) - c
+        gu, gv = _grad_two_omega(system, u, v, plane)
+        g2 = gu * gu + gv * gv
+        ok = g2 > 0
+        s = np.where(ok, f / np.where(ok, g2, 1.0), 0.0)
+        du, dv = -s * gu, -s * gv
+        n = np.hypot(du, dv)
+        shrink = np.where(n > step_cap, step_cap / np.maximum(n, 1e-300), 1.0)
+        u += du * shrink
+        v += dv * shrink
+    return np.column_stack([u, v])
+
+
+# ---- the Hill region ------------------------------------------------------------------------
+
+@dataclass(frozen=True, eq=False)
+class HillRegion:
+    """The region a spacecraft of Jacobi constant C may reach, on a grid of one plane.
+
+    Attributes
+    ----------
+    system : System
+    jacobi : float
+        The Jacobi constant C.
+    plane : {"xy", "xz"}
+        ``"xy"``: z = 0, grid over (x, y); ``"xz"``: y = 0, grid over (x, z).
+    necks : dict
+        ``{"L1": bool, "L2": bool, "L3": bool}``, True where the neck is open (C < C_Li).
+    forbidden_region_vanishes : bool
+        Plane "xy" and C <= C_L4 = C_L5: nothing is forbidden in the plane z = 0.
+    realms : str
+        Plain-English description of what is connected.
+    levels : dict
+        Jacobi constant at each Lagrange point, ``{"L1": C_L1, ...}``.
+    extent : tuple
+        (umin, umax, vmin, vmax), LU.
+    u, v : 1-D arrays
+        Grid coordinates, LU.
+    field : 2-D array, shape (len(v), len(u))
+        ``2 Omega - C`` (clipped to ``FIELD_CAP``); allowed where >= 0.
+    curves : tuple of (N, 2) arrays
+        Zero-velocity curves in (u, v), LU, each point refined onto ``2 Omega = C``.
+    curve_residual : float
+        Largest ``|2 Omega - C|`` over the curve points (0 when there are none).
+    """
+
+    system: object
+    jacobi: float
+    plane: str
+    necks: dict
+    forbidden_region_vanishes: bool
+    realms: str
+    levels: dict
+    extent: tuple
+    u: np.ndarray
+    v: np.ndarray
+    field: np.ndarray
+    curves: tuple
+    curve_residual: float
+
+    @property
+    def allowed(self) -> np.ndarray:
+        """Boolean grid, True where motion is allowed (2 Omega >= C)."""
+        return self.field >= 0.0
+
+    @property
+    def allowed_fraction(self) -> float:
+        return float(np.mean(self.allowed))
+
+    def to_dict(self) -> dict:
+        return {
+            "system": self.system.name,
+            "mu": self.system.mu,
+            "jacobi": self.jacobi,
+            "plane": self.plane,
+            "necks_open": dict(self.necks),
+            "forbidden_region_vanishes": self.forbidden_region_vanishes,
+            "realms": self.realms,
+            "levels": dict(self.levels),
+            "jacobi_minus_level": {n: self.jacobi - c for n, c in self.levels.items()},
+            "extent_lu": list(self.extent),
+            "resolution": [len(self.u), len(self.v)],
+            "allowed_fraction": self.allowed_fraction,
+            "curve_count": len(self.curves),
+            "curve_points": int(sum(len(c) for c in self.curves)),
+            "curve_residual": self.curve_residual,
+        }
+
+
+def hill_region(system, jacobi_value, plane: str = "xy", extent=None, view: str = "system",
+                resolution: int = DEFAULT_RESOLUTION) -> HillRegion:
+    """Hill region and zero-velocity curves of Jacobi constant C in a plane.
+
+    Evaluates ``2 Omega - C`` on a grid (numpy, vectorised), traces its zero level with
+    contourpy's marching squares, and projects the traced points onto ``2 Omega = C`` by
+    Newton steps (Szebehely 1967, §4.3, zero-velocity surfaces; Koon et al. 2011, ch. 2,
+    Hill's region).
+
+    Parameters
+    ----------
+    system : System
+    jacobi_value : float
+        The Jacobi constant C (finite).
+    plane : {"xy", "xz"}
+    extent : 4 floats, optional
+        (umin, umax, vmin, vmax) in LU; default from ``view``.
+    view : {"system", "secondary"}
+        Default extent: the whole system or the neighbourhood of the smaller primary.
+    resolution : int
+        Grid points per side (21 .. 4001).
+
+    Raises
+    ------
+    InputError
+        Non-finite C, unknown plane or view, a bad extent or resolution.
+    """
+    import contourpy
+
+    c = check_jacobi(jacobi_value)
+    _check_plane(plane)
+    e = check_extent(extent) if extent is not None else default_extent(system, view)
+    if not (isinstance(resolution, (int, np.integer)) and 21 <= resolution <= 4001):
+        raise InputError(f"resolution {resolution!r} must be an integer in [21, 4001]")
+    levels = jacobi_constants(system)
+    u = np.linspace(e[0], e[1], int(resolution))
+    v = np.linspace(e[2], e[3], int(resolution))
+    uu, vv = np.meshgrid(u, v)
+    f = two_omega(system, uu, vv, plane) - c
+    f = np.where(np.isfinite(f), np.minimum(f, FIELD_CAP), FIELD_CAP)
+    gen = contourpy.contour_generator(u, v, f, line_type=contourpy.LineType.Separate)
+    spacing = max((e[1] - e[0]) / (resolution - 1), (e[3] - e[2]) / (resolution - 1))
+    curves, worst = [], 0.0
+    for line in gen.lines(0.0):
+        if len(line) < 2:
+            continue
+        pts = _refine(system, np.asarray(line, dtype=float), c, plane, step_cap=spacing)
+        res = np.abs(two_omega(system, pts[:, 0], pts[:, 1], plane) - c)
+        worst = max(worst, float(np.max(res)))
+        curves.append(pts)
+    return HillRegion(system=system, jacobi=c, plane=plane, necks=necks(system, c, levels),
+                      forbidden_region_vanishes=bool(plane == "xy" and c <= levels["L4"]),
+                      realms=realms(system, c, levels, plane), levels=levels, extent=e, u=u, v=v,
+                      field=f, curves=tuple(curves), curve_residual=worst)
+
+
+def energy_table(system, jacobi_value) -> list[dict]:
+    """For each Lagrange point: its C_L, C - C_L, whether C < C_L, and the speed (LU/TU) a
+    spacecraft with Jacobi constant C has there (``sqrt(C_L - C)``, None if forbidden)."""
+    c = check_jacobi(jacobi_value)
+    rows = []
+    for n, cl in jacobi_constants(system).items():
+        d = cl - c
+        rows.append({"name": n, "jacobi": cl, "jacobi_minus_level": c - cl, "below_level": bool(c < cl),
+                     "speed_vu": math.sqrt(d) if d >= 0 else None})
+    return rows
+
+
+__all__ = ["jacobi", "check_jacobi", "jacobi_above", "speed_at_point", "necks", "realms",
+           "two_omega", "hill_region", "HillRegion", "energy_table", "default_extent", "NAMES"]

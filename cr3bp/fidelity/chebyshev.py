@@ -1,0 +1,105 @@
+"""Piecewise Chebyshev interpolants of body positions, evaluated inside compiled code.
+
+Body positions come from :mod:`cr3bp.ephemeris` once, at Chebyshev nodes of equal time
+segments; the integrator then evaluates the fitted series (position and its time derivative)
+by Clenshaw's recurrence, with no Python call per step. Method: Chebyshev interpolation at the
+Chebyshev points of the first kind (Press et al., *Numerical Recipes*, 3rd ed., 2007, §5.8,
+"Chebyshev Approximation"); Clenshaw's recurrence (ibid. §5.4).
+
+Layout of a fit (a 4-D float array ``coef[body, segment, axis, k]``) with the segment grid
+``t0 + i * h``; time outside ``[t0, t0 + n_segments * h]`` is clamped to the end segments (the
+caller checks the span).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from numba import njit
+
+from ..errors import InputError
+
+
+@dataclass(frozen=True)
+class ChebyshevFit:
+    """Fitted series of several bodies over one span (times in the caller's unit)."""
+
+    t0: float
+    h: float
+    coef: np.ndarray  # (n_bodies, n_segments, 3, degree + 1)
+
+    @property
+    def t1(self) -> float:
+        return self.t0 + self.h * self.coef.shape[1]
+
+    def position(self, body: int, t) -> np.ndarray:
+        t = np.atleast_1d(np.asarray(t, dtype=float))
+        out = np.empty((t.size, 6))
+        for i, ti in enumerate(t):
+            _eval_body(self.coef, self.t0, self.h, body, ti, out[i])
+        return out[:, :3]
+
+    def state(self, body: int, t) -> np.ndarray:
+        t = np.atleast_1d(np.asarray(t, dtype=float))
+        out = np.empty((t.size, 6))
+        for i, ti in enumerate(t):
+            _eval_body(self.coef, self.t0, self.h, body, ti, out[i])
+        return out
+
+
+def fit(sample, t0: float, t1: float, n_segments: int, degree: int, n_bodies: int) -> ChebyshevFit:
+    """Fit ``sample(times) -> (n_bodies, len(times), 3)`` on ``[t0, t1]``.
+
+    Parameters
+    ----------
+    sample : callable
+        Vectorised over times; returns positions of every body at those times.
+    n_segments, degree : int
+        Equal segments and the series degree in each.
+    """
+    if not (np.isfinite(t0) and np.isfinite(t1) and t1 > t0):
+        raise InputError(f"Chebyshev span [{t0}, {t1}] must be finite and increasing")
+    if n_segments < 1 or not 2 <= degree <= 40:
+        raise InputError(f"n_segments = {n_segments} must be >= 1 and degree = {degree} in 2..40")
+    h = (t1 - t0) / n_segments
+    n = degree + 1
+    k = np.arange(n)
+    nodes = np.cos(np.pi * (k + 0.5) / n)                     # Chebyshev points of the first kind
+    # T_j(nodes) matrix and the discrete orthogonality weights
+    tj = np.cos(np.outer(np.arange(n), np.pi * (k + 0.5) / n))  # (j, k)
+    times = (t0 + h * (np.arange(n_segments)[:, None] + 0.5 * (nodes[None, :] + 1.0))).ravel()
+    pos = np.asarray(sample(times), dtype=float).reshape(n_bodies, n_segments, n, 3)
+    coef = 2.0 / n * np.einsum("jk,bskx->bsxj", tj, pos)
+    coef[..., 0] *= 0.5
+    return ChebyshevFit(float(t0), float(h), np.ascontiguousarray(coef))
+
+
+@njit(cache=True)
+def _eval_body(coef, t0, h, body, t, out):
+    """Position (out[0:3]) and its time derivative (out[3:6]) of ``body`` at ``t``."""
+    nseg = coef.shape[1]
+    n = coef.shape[3]
+    s = int(np.floor((t - t0) / h))
+    if s < 0:
+        s = 0
+    elif s >= nseg:
+        s = nseg - 1
+    u = 2.0 * (t - (t0 + s * h)) / h - 1.0
+    for axis in range(3):
+        # Clenshaw for the value and for the derivative (series of U-like recurrences)
+        b1 = 0.0
+        b2 = 0.0
+        d1 = 0.0
+        d2 = 0.0
+        for j in range(n - 1, 0, -1):
+            c = coef[body, s, axis, j]
+            b0 = 2.0 * u * b1 - b2 + c
+            d0 = 2.0 * u * d1 - d2 + 2.0 * b1
+            b2 = b1
+            b1 = b0
+            d2 = d1
+            d1 = d0
+        c0 = coef[body, s, axis, 0]
+        out[axis] = u * b1 - b2 + c0
+        out[3 + axis] = (u * d1 - d2 + b1) * 2.0 / h

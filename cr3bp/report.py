@@ -1,0 +1,106 @@
+"""The design report: one self-contained HTML file (figures embedded) an analyst can send on.
+
+The report reads the same plain dictionaries every stage produces (``to_dict()``), so what it
+shows is what the tables and exports say. The caution and the model's assumptions stand at the
+top, in a box that cannot be scrolled past unseen.
+"""
+
+from __future__ import annotations
+
+import base64
+import html
+import math
+from pathlib import Path
+
+from .atomic import write_text
+from .cautions import CAUTION
+
+ASSUMPTIONS = (
+    "Circular restricted three-body problem: two primaries on circular orbits about their "
+    "barycentre, the spacecraft massless.",
+    "Point-mass gravity only: no oblateness, no third bodies (e.g. the Sun in the Earth-Moon "
+    "problem), no solar radiation pressure or other perturbations.",
+    "Maneuvers are impulsive; Δv figures exclude gravity losses, navigation and margins.",
+    "Dimensional values use the tabulated constants of data/systems.toml; dates anchor the "
+    "rotating frame as stated with each export.",
+)
+
+_STYLE = """
+body { font-family: system-ui, sans-serif; margin: 2rem auto; max-width: 70rem; color: #1a1a1a; }
+.caution { border: 3px solid #b00020; background: #fff4f4; padding: 1rem 1.25rem; font-weight: 600; }
+.assumptions { background: #f6f6f6; padding: 0.5rem 1.25rem; }
+table { border-collapse: collapse; margin: 0.5rem 0 1rem; font-size: 0.9rem; }
+th, td { border: 1px solid #ccc; padding: 0.25rem 0.5rem; text-align: right; }
+th { background: #eee; } td.l, th.l { text-align: left; }
+.pass { color: #0a6b1f; font-weight: 600; } .fail { color: #b00020; font-weight: 600; }
+figure { margin: 1rem 0; } figure img { max-width: 100%; border: 1px solid #ddd; }
+figcaption { font-size: 0.8rem; color: #444; }
+"""
+
+
+def esc(v) -> str:
+    return html.escape(str(v))
+
+
+def fmt(v) -> str:
+    if v is None:
+        return "–"
+    if isinstance(v, bool):
+        return "yes" if v else "no"
+    if isinstance(v, float):
+        if not math.isfinite(v):
+            return "–"
+        return f"{v:.6g}" if abs(v) < 1e6 else f"{v:,.0f}"
+    if isinstance(v, (list, tuple)):
+        return ", ".join(fmt(x) for x in v)
+    return esc(v)
+
+
+def table(headers, rows, left=1) -> str:
+    head = "".join(f'<th class="{"l" if i < left else ""}">{esc(h)}</th>' for i, h in enumerate(headers))
+    body = "".join(
+        "<tr>" + "".join(f'<td class="{"l" if i < left else ""}">{c}</td>' for i, c in enumerate(r)) + "</tr>"
+        for r in rows)
+    return f"<table><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>"
+
+
+def kv_table(pairs) -> str:
+    return table(["quantity", "value"], [(esc(k), fmt(v)) for k, v in pairs])
+
+
+def figure(path, caption: str) -> str:
+    """An <img> with the file's bytes embedded (PNG or SVG) and a caption carrying the caution."""
+    path = Path(path)
+    data = path.read_bytes()
+    mime = "image/svg+xml" if path.suffix.lower() == ".svg" else "image/png"
+    b64 = base64.b64encode(data).decode("ascii")
+    return (f'<figure><img alt="{esc(caption)}" src="data:{mime};base64,{b64}">'
+            f"<figcaption>{esc(caption)} {esc(CAUTION)}</figcaption></figure>")
+
+
+def check_row(check: dict) -> tuple:
+    """A constraint row: name, required, actual, margin, pass/fail."""
+    ok = bool(check.get("passed"))
+    return (esc(check.get("name", "")), fmt(check.get("required")), fmt(check.get("actual")),
+            fmt(check.get("margin")), f'<span class="{"pass" if ok else "fail"}">{"PASS" if ok else "FAIL"}</span>')
+
+
+def document(title: str, sections: list[tuple[str, str]]) -> str:
+    """The whole HTML page: caution, assumptions, then the given (heading, html) sections."""
+    parts = [
+        "<!DOCTYPE html>", '<html lang="en"><head><meta charset="utf-8">',
+        f"<title>{esc(title)}</title><style>{_STYLE}</style></head><body>",
+        f"<h1>{esc(title)}</h1>",
+        f'<div class="caution" id="caution">{esc(CAUTION)}</div>',
+        '<div class="assumptions"><h2>Model assumptions</h2><ul>'
+        + "".join(f"<li>{esc(a)}</li>" for a in ASSUMPTIONS) + "</ul></div>",
+    ]
+    for heading, body in sections:
+        parts.append(f"<section><h2>{esc(heading)}</h2>{body}</section>")
+    parts.append(f'<footer><p class="caution">{esc(CAUTION)}</p></footer></body></html>')
+    return "\n".join(parts)
+
+
+def write(path, title: str, sections) -> Path:
+    write_text(path, document(title, sections))
+    return Path(path)
