@@ -387,6 +387,9 @@ def manifold_starts(orbit, stability, branch, n_points=200, spacing="time", step
     d, d_km = step_lu(system, step_km)
     modes = hyperbolic_modes(orbit.monodromy)
     v = modes.unstable if stability == "unstable" else modes.stable
+    if orbit.state[2] == 0.0 and orbit.state[5] == 0.0 and np.all(np.abs(v[[2, 5]]) < 1e-9 * np.abs(v).max()):
+        v = v.copy()
+        v[[2, 5]] = 0.0  # planar orbit: the in-plane eigenvector, without round-off out of plane
     t = orbit_times(orbit, n_points, spacing) if times is None else np.asarray(times, dtype=float)
     order = np.argsort(t)
     ts = t[order]
@@ -480,27 +483,34 @@ def _globalise(system, starts, stop, sign, progress=None):
 
 
 def _lagrange_jacobi(system, point) -> float:
-    """Jacobi constant of a collinear Lagrange point, from ``cr3bp.equilibria``.
-
-    TEMPORARY until ``cr3bp.equilibria`` is on main: the root of dOmega/dx on the x-axis by
-    Brent's method (Szebehely 1967, §4.4), then C = 2 Omega there."""
-    try:
-        from .equilibria import lagrange_point
-    except ImportError:
-        from scipy.optimize import brentq
-        mu = system.mu
-
-        def gx(x):
-            return (x - (1 - mu) * (x + mu) / abs(x + mu) ** 3
-                    - mu * (x - 1 + mu) / abs(x - 1 + mu) ** 3)
-        h = (mu / 3) ** (1 / 3)
-        brackets = {"L1": (1 - mu - 2 * h, 1 - mu - 1e-9 * h), "L2": (1 - mu + 1e-9 * h, 1 - mu + 2 * h),
-                    "L3": (-mu - 1.5, -mu - 0.5)}
-        if point not in brackets:
-            raise InputError(f"point '{point}' must be L1, L2 or L3")
-        x = brentq(gx, *brackets[point], xtol=1e-15)
-        return float(_jacobi(mu, np.array([x, 0, 0, 0, 0, 0.0])))
+    """Jacobi constant of a collinear Lagrange point (:func:`cr3bp.equilibria.lagrange_point`)."""
+    from .equilibria import lagrange_point
     return float(lagrange_point(system, point).jacobi)
+
+
+def orbit_from_state(system, state, period, family="given", point="", branch="",
+                     tolerance=1e-8):
+    """A :class:`~cr3bp.orbits.PeriodicOrbit` from a state and period the user already has
+    (e.g. from another run): its monodromy is propagated here and its periodicity checked.
+
+    Raises
+    ------
+    InputError
+        The state does not return to itself within ``tolerance`` (LU, LU/TU) after ``period``.
+    """
+    from . import validate
+    from .orbits import PeriodicOrbit
+    s0 = validate.state(system, state)
+    T = validate.finite_time("period", period)
+    if not T > 0:
+        raise InputError(f"period {period!r} must be positive")
+    arc = propagate(system, s0, T, stm=True, rtol=RTOL, atol=ATOL)
+    err = float(np.linalg.norm(arc.final_state - s0))
+    if err > tolerance:
+        raise InputError(f"the state does not return to itself after the period: |s(T) - s(0)| = "
+                         f"{err:.3e} > {tolerance:g}; give a converged periodic orbit")
+    return PeriodicOrbit(system, s0, T, arc.stm, family, point, branch,
+                         float(_jacobi(system.mu, s0)), err, 0)
 
 
 def point_tube(system, point, stability: str, branch: str, until=None, *, step_km=None,
