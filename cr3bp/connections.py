@@ -361,7 +361,9 @@ def connect_tubes(tube_u, tube_s, names=None, max_candidates=5, tol=PATCH_TOL):
         gap = _nearest_gap(ca, cb, search)
         raise NoSolutionError(f"the cuts of the two tubes on {section.label} do not cross "
                               f"(nearest approach {gap:.3e} in {'/'.join(search)}, nondimensional)")
-    homo = tube_u.origin == tube_s.origin
+    homo = (tube_u.orbit is not None and tube_s.orbit is not None
+            and abs(tube_u.period - tube_s.period) < 1e-9
+            and np.allclose(tube_u.orbit.state, tube_s.orbit.state, atol=1e-9))
     kind = "homoclinic" if homo else "heteroclinic"
     ba, bb = _Branch(tube_u), _Branch(tube_s)
     legs, failures = [], []

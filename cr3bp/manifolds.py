@@ -69,6 +69,8 @@ def step_lu(system, step_km=None) -> tuple[float, float]:
     if isinstance(step_km, str):
         q = units.parse(step_km, "length", "km")
         v = q.nondim(system)
+        if not v > 0:
+            raise InputError(f"step-off distance '{step_km}' must be positive")
         return v, (v * system.length_km if system.dimensional else float("nan"))
     if not (math.isfinite(step_km) and step_km > 0):
         raise InputError(f"step-off distance {step_km!r} km must be positive")
