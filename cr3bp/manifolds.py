@@ -142,15 +142,46 @@ def _count(n):
     return n
 
 
+def batch_features() -> dict:
+    """Which optional features the installed ``propagate_batch`` offers (per-trajectory final
+    times with STMs, a larger event record, marking failed trajectories instead of raising)."""
+    import inspect
+    params = inspect.signature(propagate_batch).parameters
+    return {k: k in params for k in ("stm", "max_events", "on_failure")}
+
+
+def batch(system, states, t_final, events=(), max_events=8):
+    """``propagate_batch`` with the tube settings, using the optional features when present."""
+    kw = {}
+    feats = batch_features()
+    if feats["max_events"]:
+        kw["max_events"] = int(max_events)
+    if feats["on_failure"]:
+        kw["on_failure"] = "mark"
+    return propagate_batch(system, np.ascontiguousarray(states), t_final, rtol=RTOL, atol=ATOL,
+                           events=events, **kw)
+
+
 def carry(orbit, times, progress=None):
-    """Orbit states x(t_k) and STMs Phi(t_k, 0) at ascending ``times`` (first 0), by chained
-    propagation of the state with its variational equations (Koon et al. 2011, §4.4)."""
+    """Orbit states x(t_k) and STMs Phi(t_k, 0) at ascending ``times`` (first 0), with the
+    variational equations (Koon et al. 2011, §4.4): one batch propagation of the orbit's
+    initial state to every t_k when the batch propagator returns STMs, else chained
+    propagations from one point to the next."""
     system = orbit.system
+    times = np.asarray(times, dtype=float)
     n = len(times)
     states = np.empty((n, 6))
     phis = np.empty((n, 6, 6))
     states[0] = orbit.state
     phis[0] = np.eye(6)
+    if n > 1 and batch_features()["stm"]:
+        res = propagate_batch(system, np.tile(orbit.state, (n - 1, 1)), times[1:], rtol=RTOL,
+                              atol=ATOL, stm=True)
+        states[1:] = res.states
+        phis[1:] = res.stm
+        if progress is not None:
+            progress(n, n, "carrying eigenvectors along the orbit")
+        return states, phis
     for k in range(1, n):
         arc = propagate(system, states[k - 1], float(times[k] - times[k - 1]), stm=True, rtol=RTOL,
                         atol=ATOL)
@@ -470,12 +501,11 @@ def _globalise(system, starts, stop, sign, progress=None):
     events, names = stop.events(system, sign)
     if progress is not None:
         progress(0, len(starts), f"propagating {len(starts)} trajectories")
-    res = propagate_batch(system, np.ascontiguousarray(starts), sign * stop.t_max, rtol=RTOL,
-                          atol=ATOL, events=events)
+    res = batch(system, starts, sign * stop.t_max, events, max_events=stop.count + 8)
     status = []
     for i in range(len(starts)):
         st = str(res.status[i])
-        if st != "time":
+        if st in ("event", "impact", "escape"):
             idx = np.asarray(res.event_index[i], dtype=int)
             st = names[int(idx[-1])] if idx.size else st
         status.append(st)

@@ -388,7 +388,8 @@ def crossings(system, states, section: Section, t_max: float, count: int = 1, *,
     sign = 1.0 if t_max >= 0 else -1.0
     ev = section.event(system, sign, terminal=True, count=count)
     events = [ev] + guard_events(system) + list(extra_events)
-    res = propagate_batch(system, states, float(t_max), rtol=rtol, atol=atol, events=events)
+    from .manifolds import batch
+    res = batch(system, states, float(t_max), events, max_events=count + 8)
     rows, ts, traj, cnt = [], [], [], []
     for i in range(states.shape[0]):
         idx = np.asarray(res.event_index[i], dtype=int)
