@@ -164,9 +164,9 @@ def batch(system, states, t_final, events=(), max_events=8):
 
 def carry(orbit, times, progress=None):
     """Orbit states x(t_k) and STMs Phi(t_k, 0) at ascending ``times`` (first 0), with the
-    variational equations (Koon et al. 2011, §4.4): one batch propagation of the orbit's
-    initial state to every t_k when the batch propagator returns STMs, else chained
-    propagations from one point to the next."""
+    variational equations (Koon et al. 2011, §4.4), chained from one point to the next:
+    Phi(t_k, 0) = Phi(t_k, t_k-1) ... Phi(t_1, 0). The segments run in one batch when the
+    batch propagator returns STMs, else one propagation each."""
     system = orbit.system
     times = np.asarray(times, dtype=float)
     n = len(times)
@@ -174,11 +174,14 @@ def carry(orbit, times, progress=None):
     phis = np.empty((n, 6, 6))
     states[0] = orbit.state
     phis[0] = np.eye(6)
-    if n > 1 and batch_features()["stm"]:
-        res = propagate_batch(system, np.tile(orbit.state, (n - 1, 1)), times[1:], rtol=RTOL,
-                              atol=ATOL, stm=True)
-        states[1:] = res.states
-        phis[1:] = res.stm
+    if n > 2 and batch_features()["stm"]:
+        # the orbit sampled once, then every segment t_k -> t_k+1 with its STM in one batch;
+        # Phi(t_k, 0) is the running product (one period of variational integration in all)
+        arc = propagate(system, orbit.state, float(times[-1]), t_eval=times, rtol=RTOL, atol=ATOL)
+        states[:] = arc.states
+        res = propagate_batch(system, states[:-1], np.diff(times), rtol=RTOL, atol=ATOL, stm=True)
+        for k in range(1, n):
+            phis[k] = res.stm[k - 1] @ phis[k - 1]
         if progress is not None:
             progress(n, n, "carrying eigenvectors along the orbit")
         return states, phis

@@ -189,3 +189,35 @@ def halo_by_continuation(system, point, z_target, n_steps=12):
         orbit = halo(system, point, float(z), float(x0), float(vy))
         x0, vy = float(orbit.state[0]), float(orbit.state[4])
     return orbit
+
+
+@functools.lru_cache(maxsize=None)
+def halo_at_jacobi(system, point, target_jacobi, z_start=1e-3, growth=1.3):
+    """Halo with a given Jacobi constant: continuation in z0 from the bifurcation until the
+    target is bracketed, then Brent's method on z0 (each z0 corrected from its neighbour)."""
+    base = halo_by_continuation(system, point, z_start)
+    z, x0, vy = z_start, float(base.state[0]), float(base.state[4])
+    prev = (z, x0, vy, base.jacobi)
+    if base.jacobi < target_jacobi:
+        raise ValueError("target above the start of the halo family")
+    for _ in range(60):
+        z *= growth
+        halo.cache_clear()
+        o = halo(system, point, float(z), x0, vy)
+        x0, vy = float(o.state[0]), float(o.state[4])
+        if o.jacobi <= target_jacobi:
+            break
+        prev = (z, x0, vy, o.jacobi)
+    else:
+        raise ConvergenceError("fixture: halo family never reached the target", 60, [])
+    memo = {}
+
+    def f(zz):
+        t = (zz - prev[0]) / (z - prev[0])
+        halo.cache_clear()
+        oo = halo(system, point, float(zz), prev[1] + t * (x0 - prev[1]), prev[2] + t * (vy - prev[2]))
+        memo[zz] = oo
+        return oo.jacobi - target_jacobi
+
+    zz = brentq(f, prev[0], z, xtol=1e-14, rtol=1e-14)
+    return memo[zz] if zz in memo else (f(zz), memo[zz])[1]
