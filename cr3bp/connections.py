@@ -478,8 +478,13 @@ def _min_dv_transfer(system, ba, bb, fa, fb, pname, tube_u, tube_s):
         return float(np.linalg.norm(eb[2][3:6] - ea[2][3:6]))
 
     width = 0.02 * Ta
-    r = minimize_scalar(dv_of, bracket=None, bounds=(fa * Ta - width, fa * Ta + width),
-                        method="bounded", options={"xatol": 1e-9 * Ta})
+    centre = fa * Ta
+    for _ in range(4):  # re-centre the window while the minimum sits on its edge
+        lo, hi = centre - width, centre + width
+        r = minimize_scalar(dv_of, bounds=(lo, hi), method="bounded", options={"xatol": 1e-9 * Ta})
+        if min(r.x - lo, hi - r.x) > 0.02 * width:
+            break
+        centre = r.x
     dv = dv_of(r.x)
     if dv >= 1e3:
         raise NoSolutionError("transfer refinement left the section")
