@@ -155,3 +155,17 @@ def test_connect_bad_parking_subprocess():
                        capture_output=True, text=True, timeout=120)
     assert r.returncode == 2 and "Traceback" not in r.stderr
     assert "must not be negative" in r.stderr
+
+
+def test_section_periapsis_map_json(tmp_path, l1):
+    out = tmp_path / "p.json"
+    rc = _run(["section", "--system", "earth-moon", "--tube", _state_request(l1) + " unstable interior",
+               "--section", "periapsis:moon", "--points", "8", "--time", "3TU", "--format", "json",
+               "--out", str(out), "-q"])
+    assert rc == 0
+    d = json.loads(out.read_text())
+    assert d["coords"] == ["tof_days", "altitude_km"]
+    cut = d["cuts"][0]
+    assert cut["crossings"] > 0
+    alt = np.array(cut["map"])[:, 1]
+    assert np.all(alt > -1737.5)

@@ -136,3 +136,12 @@ def test_bad_tube_input(l1):
         grow_tube(l1, "neutral", "interior", 10)
     with pytest.raises(InputError):
         grow_tube(l1, "stable", "interior", 2)
+
+
+def test_lagrange_point_manifold_from_equilibria():
+    # the point located by cr3bp.equilibria gives the same branch as the fixture's position
+    x1 = collinear_x(EM.mu, "L1")
+    a = point_tube(EM, "L1", "stable", "exterior", "time:1TU")
+    b = point_tube(EM, "L1", "stable", "exterior", "time:1TU", position=[x1, 0, 0])
+    np.testing.assert_allclose(a.start_states, b.start_states, atol=1e-12)
+    assert a.start_states[0, 0] < x1 and a.tof[0] == pytest.approx(-1.0)
