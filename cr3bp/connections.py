@@ -361,6 +361,7 @@ def connect_tubes(tube_u, tube_s, names=None, max_candidates=5, tol=PATCH_TOL):
         gap = _nearest_gap(ca, cb, search)
         raise NoSolutionError(f"the cuts of the two tubes on {section.label} do not cross "
                               f"(nearest approach {gap:.3e} in {'/'.join(search)}, nondimensional)")
+    zero = 1e-7  # patch dv (LU/TU) below which the patch is a true connection (0.1 mm/s Earth-Moon)
     homo = (tube_u.orbit is not None and tube_s.orbit is not None
             and abs(tube_u.period - tube_s.period) < 1e-9
             and np.allclose(tube_u.orbit.state, tube_s.orbit.state, atol=1e-9))
@@ -374,7 +375,9 @@ def connect_tubes(tube_u, tube_s, names=None, max_candidates=5, tol=PATCH_TOL):
         except ConvergenceError as e:
             failures.append(str(e))
             continue
-        legs.append(_leg_from_patch(system, ea, eb, ta, tb, tube_u, tube_s, kind,
+        dvn = float(np.linalg.norm(eb[2][3:6] - ea[2][3:6]))
+        legs.append(_leg_from_patch(system, ea, eb, ta, tb, tube_u, tube_s,
+                                    kind if dvn < zero else "transfer",
                                     "two-segment multiple shooting on the section, Newton in the "
                                     "departure phases (matched: " + ", ".join(names) + ")",
                                     {"residuals": res, "matched": list(names),
