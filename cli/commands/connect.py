@@ -21,10 +21,11 @@ def add_arguments(p):
     p.add_argument("--crossing", type=int, default=1, metavar="N", help="use the N-th crossing of the section")
     p.add_argument("--points", type=int, default=None, metavar="N",
                    help="trajectories per tube (default 200; 100 for parking-orbit legs)")
-    p.add_argument("--from-branch", choices=("interior", "exterior"), default="interior",
-                   help="half-manifold of the departure orbit (default interior: toward the smaller primary)")
-    p.add_argument("--to-branch", choices=("interior", "exterior"), default="interior",
-                   help="half-manifold of the arrival orbit (default interior)")
+    p.add_argument("--from-branch", choices=("interior", "exterior"), default=None,
+                   help="half-manifold of the departure orbit (default interior: toward the smaller primary; "
+                        "for a leg to a parking orbit, the half facing that primary)")
+    p.add_argument("--to-branch", choices=("interior", "exterior"), default=None,
+                   help="half-manifold of the arrival orbit (default as for --from-branch)")
     p.add_argument("--time", default=None, metavar="TIME", help="time limit per trajectory (default 2pi TU)")
     p.add_argument("--step-off", metavar="LENGTH", help="step-off distance (default per system)")
     p.add_argument("--candidates", type=int, default=5, metavar="K", help="candidates refined (default 5)")
@@ -90,7 +91,8 @@ def run(args):
         primary, alt = pa or pb
         req = args.target if pa else args.origin
         stability = "stable" if pa else "unstable"
-        branch = args.to_branch if pa else args.from_branch
+        facing = "interior" if primary == 1 else "exterior"
+        branch = (args.to_branch if pa else args.from_branch) or facing
         orbit = to.orbit_from_request(system, req, args)
         n = args.points or 100
         common.progress(args, f"librate connect: periapsis map of {n} {stability} {branch} trajectories "
@@ -107,6 +109,8 @@ def run(args):
         ob = to.orbit_from_request(system, args.target, args)
         n = args.points or 200
         common.progress(args, f"librate connect: growing two tubes of {n} trajectories to {args.section}...")
+        args.from_branch = args.from_branch or "interior"
+        args.to_branch = args.to_branch or "interior"
         legs, tu, ts = connect(oa, ob, args.section, n, step_km=args.step_off, t_max=t_max,
                                count=args.crossing, branch_a=args.from_branch, branch_b=args.to_branch,
                                max_candidates=args.candidates, progress=to.progress_printer(args))
