@@ -169,3 +169,12 @@ def test_section_periapsis_map_json(tmp_path, l1):
     assert cut["crossings"] > 0
     alt = np.array(cut["map"])[:, 1]
     assert np.all(alt > -1737.5)
+
+
+def test_manifold_of_a_lagrange_point(capsys):
+    rc = _run(["manifold", "--system", "earth-moon", "--lagrange", "L2", "--stable", "--branch", "exterior",
+               "--until", "time:2TU", "--format", "json", "-q"])
+    d = json.loads(capsys.readouterr().out)
+    assert rc == 0 and d["tube"]["n_trajectories"] == 1 and d["tube"]["stability"] == "stable"
+    assert d["tube"]["trajectories"][0]["start_state"][0] > 1 - EM.mu
+    assert _run(["manifold", "--system", "earth-moon", "--lagrange", "L4", "--stable", "-q"]) == 2

@@ -14,6 +14,8 @@ def add_arguments(p):
     common.add_system_options(p)
     to.add_orbit_options(p)
     to.add_manifold_options(p)
+    p.add_argument("--lagrange", metavar="L1|L2|L3",
+                   help="grow the one-dimensional manifold of this collinear Lagrange point instead of an orbit's")
     p.add_argument("--until", action="append", metavar="STOP",
                    help="stop condition, repeatable: section:x=1-mu (section:y=0:+, #2 for the 2nd "
                         "crossing), time:20d, altitude:earth:200km, escape:3LU (default time:2pi TU)")
@@ -32,6 +34,8 @@ def run(args):
         raise InputError("give --stable or --unstable")
     to.check_plot_path(args.plot)
     stop = parse_until(args.until, system)
+    if args.lagrange:
+        return _point(args, system, stop)
     orbit = to.resolve_orbit(args, system)
     common.progress(args, f"librate manifold: growing {args.points} {args.stability} {args.branch} "
                     f"trajectories of {orbit.family} {orbit.point} (C = {orbit.jacobi:.6f})...")
@@ -56,4 +60,28 @@ def run(args):
         common.progress(args, f"wrote {args.plot}")
     common.emit(args, payload={"tube": d}, headers=HEADERS, rows=rows, table=table,
                 comments=head)
+    return 0
+
+
+def _point(args, system, stop):
+    from cr3bp.errors import InputError
+    from cr3bp.manifolds import point_tube
+    name = args.lagrange.upper()
+    if name not in ("L1", "L2", "L3"):
+        raise InputError(f"--lagrange {args.lagrange!r}: only the collinear points L1, L2, L3 have "
+                         "one-dimensional manifolds")
+    tube = point_tube(system, name, args.stability, args.branch, stop, step_km=args.step_off)
+    d = tube.to_dict()
+    rows = [[t["phase"], t["t_orbit"], t["tof"], t["tof_days"], t["status"], *t["end_state"]]
+            for t in d["trajectories"]]
+    step = f"{tube.step_km:.3f} km" if tube.step_km == tube.step_km else f"{tube.step:.3e} LU"
+    head = [f"{name} {args.stability} {args.branch} branch: step-off {step} along the eigenvector "
+            f"of eigenvalue {tube.eigenvalue:.6g} (per TU), C = {tube.jacobi:.6f}"]
+    if args.plot:
+        from cr3bp.plotting import save
+        from cr3bp.plotting.manifolds import plot_tubes
+        save(plot_tubes([tube], views=("xy",)), args.plot, head[0] + "; rotating frame, LU")
+        common.progress(args, f"wrote {args.plot}")
+    table = "\n".join(head) + "\n\n" + common.format_table(HEADERS, rows)
+    common.emit(args, payload={"tube": d}, headers=HEADERS, rows=rows, table=table, comments=head)
     return 0
