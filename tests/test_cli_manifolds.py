@@ -129,12 +129,13 @@ def test_connect_below_the_necks_exit_3(capsys):
     assert rc == 3 and "L2 neck is closed" in err and "nearest feasible" in err and "3.172160" in err
 
 
-def test_connect_parking_unreachable_exit_3(capsys):
+def test_connect_parking_unreachable_exit_3(capsys, tmp_path):
     small = halo_by_continuation(SE, "L1", 8e-4, 40)
     rc = _run(["connect", "--system", "sun-earth", "--from", "parking earth 200km", "--to", _state_request(small),
-               "--points", "24", "--time", "6TU", "-q"])
+               "--points", "24", "--time", "6TU", "-q", "--map", str(tmp_path / "pmap.png")])
     err = capsys.readouterr().err
     assert rc == 3 and "nearest feasible altitude" in err
+    assert (tmp_path / "pmap.png").exists()  # the map shows why
 
 
 def test_connect_parking_to_halo(tmp_path):

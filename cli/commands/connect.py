@@ -30,6 +30,8 @@ def add_arguments(p):
     p.add_argument("--step-off", metavar="LENGTH", help="step-off distance (default per system)")
     p.add_argument("--candidates", type=int, default=5, metavar="K", help="candidates refined (default 5)")
     p.add_argument("--plot", metavar="FILE", help="draw the best leg over the tubes (PNG/PDF/SVG)")
+    p.add_argument("--map", metavar="FILE", help="parking-orbit legs: draw the periapsis map (altitude against "
+                   "time of flight, the target altitude marked)")
     common.add_output_options(p)
 
 
@@ -74,16 +76,19 @@ def run(args):
     import math
 
     from cr3bp import units
-    from cr3bp.connections import connect, necks_open, parking_legs
+    from cr3bp.connections import connect, necks_open, parking_legs, periapsis_map
     from cr3bp.errors import InputError
     system = common.resolve_system(args)
     to.check_plot_path(args.plot)
+    to.check_plot_path(args.map)
     if args.candidates < 1:
         raise InputError(f"--candidates {args.candidates} must be at least 1")
     t_max = units.time(args.time, system, default_unit="TU") if args.time else 2 * math.pi
     if not t_max > 0:
         raise InputError(f"--time {args.time} must be positive")
     pa, pb = parse_parking(args.origin, system), parse_parking(args.target, system)
+    if args.map and not (pa or pb):
+        raise InputError("--map draws the periapsis map of a parking-orbit leg; one end must be 'parking ...'")
     if pa and pb:
         raise InputError("one end must be a periodic orbit; both --from and --to are parking orbits")
     tubes = []
@@ -97,9 +102,17 @@ def run(args):
         n = args.points or 100
         common.progress(args, f"librate connect: periapsis map of {n} {stability} {branch} trajectories "
                         f"about {system.names[primary]}...")
+        pm = periapsis_map(orbit, primary, stability, branch, n, t_max=t_max, step_km=args.step_off,
+                           progress=to.progress_printer(args))
+        if args.map:
+            from cr3bp.plotting import save
+            from cr3bp.plotting.manifolds import plot_periapsis_map
+            ax = plot_periapsis_map(pm, target_km=alt)
+            save(ax.figure, args.map, f"first close periapsis about {system.names[primary]} of each {stability} "
+                 f"{branch} trajectory of {pm.origin}; colour: departure phase on the orbit")
+            common.progress(args, f"wrote {args.map}")
         legs = parking_legs(orbit, primary, alt, stability=stability, branch=branch, n_points=n,
-                            t_max=t_max, step_km=args.step_off, max_legs=args.candidates,
-                            progress=to.progress_printer(args))
+                            t_max=t_max, step_km=args.step_off, max_legs=args.candidates, pmap=pm)
         how = f"{stability} manifold ({branch}) periapsis at {alt:g} km above {system.names[primary]}"
     else:
         ca, cb = _jacobi_word(args.origin), _jacobi_word(args.target)

@@ -73,8 +73,8 @@ def plot_tubes(tubes, views=("xy", "xz"), n_samples=200, max_trajectories=80, ax
         if any(t.orbit is not None for t in tubes):
             handles.append(Line2D([], [], color=orbit_colour, lw=1.2, label="periodic orbit"))
         system = tubes[0].system
-        draw_primaries(ax, system, view=view)
-        _fit(ax, np.vstack(pts) if pts else np.zeros((1, 2)))
+        span = _fit(ax, np.vstack(pts) if pts else np.zeros((1, 2)))
+        draw_primaries(ax, system, view=view, min_radius=0.006 * span)
         if forbidden:
             draw_forbidden(ax, system, tubes[0].jacobi, view)
             if view in ("xy", "xz"):
@@ -92,6 +92,7 @@ def _fit(ax, pts, margin=0.12):
     ax.set_xlim(mid[0] - half, mid[0] + half)
     ax.set_ylim(mid[1] - half, mid[1] + half)
     ax.set_aspect("equal", adjustable="box")
+    return 2 * half
 
 
 def plot_tubes_3d(tubes, n_samples=200, max_trajectories=60):
@@ -167,9 +168,9 @@ def plot_connection(legs, tubes=(), view="xy", ax=None, n_samples=150):
                                     f"tof {leg.tof_days:.2f} d"))
     handles.append(Line2D([], [], marker="o", ls="", color="tab:red", label="patch point / manoeuvre"))
     system = legs[0].system if legs else tubes[0].system
-    draw_primaries(ax, system, view=view)
-    _fit(ax, np.vstack([leg.trajectory(100)[1][:, [i, j]] for leg in legs]) if legs else
-         np.array([[0.0, 0.0]]), margin=0.25)
+    span = _fit(ax, np.vstack([leg.trajectory(100)[1][:, [i, j]] for leg in legs]) if legs else
+                np.array([[0.0, 0.0]]), margin=0.25)
+    draw_primaries(ax, system, view=view, min_radius=0.006 * span)
     axis_labels(ax, system, view)
     ax.legend(handles=handles, fontsize=7, loc="best")
     return ax
