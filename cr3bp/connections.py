@@ -158,13 +158,18 @@ def _mps(system, dv):
 class _Branch:
     """A tube's trajectories as a function of departure time on the orbit (for refinement)."""
 
-    def __init__(self, tube):
+    def __init__(self, tube, stop=None):
         if tube.orbit is None:
             raise InputError("refinement needs a tube grown from a periodic orbit")
         self.tube = tube
         self.orbit = tube.orbit
         self.sign = tube.time_sign
+        self.stop = stop or tube.stop
         self.cache = {}
+
+    def at(self, stop):
+        """The same branch cut by another stop (e.g. the plane moved)."""
+        return _Branch(self.tube, stop)
 
     def end(self, t_orbit):
         """(start state, signed tof, end state, status) of the trajectory departing at t_orbit."""
@@ -174,7 +179,7 @@ class _Branch:
         tb = self.tube
         _, _, _, starts, _, _, _ = manifold_starts(
             self.orbit, tb.stability, tb.branch, step_km=_step_arg(tb), times=np.array([key]))
-        tof, ends, status = _globalise(tb.system, starts, tb.stop, self.sign)
+        tof, ends, status = _globalise(tb.system, starts, self.stop, self.sign)
         out = (starts[0], float(tof[0]), ends[0], status[0])
         self.cache[key] = out
         return out
@@ -322,12 +327,52 @@ def _min_altitude(system, segs, n=400):
     return best
 
 
-def connect_tubes(tube_u, tube_s, names=None, max_candidates=5, tol=PATCH_TOL):
+def _minimise_over_plane(ba, bb, ta, tb, names, tol, section, stop, width=0.02):
+    """Spatial patches: positions matched on the plane s[k] = c, then c moved (windows of
+    +/- ``width`` LU, re-centred up to three times) to minimise |dv| (Brent's bounded method;
+    each value re-solved by Newton from the last solution). Returns the best solution, the plane value and the dv on the
+    plane first given."""
+    import dataclasses
+    from .sections import hyperplane
+    c0 = section.value
+    first = {}
+    state = {"ta": ta, "tb": tb, "best": None}
+
+    def dv_at(c):
+        sec = hyperplane(section.coordinate, c, section.direction, label=section.label)
+        st = dataclasses.replace(stop, section=sec)
+        try:
+            a, b, ea, eb, res = _refine_pair(ba.at(st), bb.at(st), state["ta"], state["tb"], names, tol)
+        except ConvergenceError:
+            return 1e3
+        state["ta"], state["tb"] = a, b
+        dv = float(np.linalg.norm(eb[2][3:6] - ea[2][3:6]))
+        if state["best"] is None or dv < state["best"][0]:
+            state["best"] = (dv, a, b, ea, eb, res, c)
+        first.setdefault("dv", dv)
+        return dv
+
+    dv_at(c0)
+    centre = c0
+    for _ in range(3):  # re-centre while the minimum sits on the window's edge
+        r = minimize_scalar(dv_at, bounds=(centre - width, centre + width), method="bounded",
+                            options={"xatol": 1e-7})
+        if min(r.x - centre + width, centre + width - r.x) > 0.02 * width:
+            break
+        centre = r.x
+    if state["best"] is None:
+        raise NoSolutionError("no position-matched patch near the given plane")
+    dv, a, b, ea, eb, res, c = state["best"]
+    return a, b, ea, eb, res, c, first["dv"]
+
+
+def connect_tubes(tube_u, tube_s, names=None, max_candidates=5, tol=PATCH_TOL, minimise=True):
     """Connections between an unstable tube and a stable tube cut by the same section.
 
     Same energy: heteroclinic (or homoclinic, when both tubes belong to one orbit) connections,
     refined to zero mismatch on ``names`` (planar: in-section position and velocity; spatial:
-    in-section position, leaving a velocity mismatch reported as the patch Δv). Different
+    in-section position, leaving a velocity mismatch reported as the patch Δv, which is then
+    minimised by moving the patch plane within 0.02 LU when ``minimise``). Different
     energies: :func:`transfer_tubes`.
 
     Returns
@@ -376,12 +421,21 @@ def connect_tubes(tube_u, tube_s, names=None, max_candidates=5, tol=PATCH_TOL):
             failures.append(str(e))
             continue
         dvn = float(np.linalg.norm(eb[2][3:6] - ea[2][3:6]))
+        method = ("two-segment multiple shooting on the section, Newton in the departure phases "
+                  "(matched: " + ", ".join(names) + ")")
+        extra = {"residuals": res, "matched": list(names), "candidates": len(cands)}
+        if not planar and minimise and dvn >= zero:
+            try:
+                ta, tb, ea, eb, res, value, dv0 = _minimise_over_plane(ba, bb, ta, tb, names, tol,
+                                                                       section, tube_u.stop)
+                method += "; patch plane moved to minimise |dv| (Brent's method)"
+                extra.update({"residuals": res, "patch_plane_value": value,
+                              "dv_mps_on_given_plane": _mps(system, dv0)})
+                dvn = float(np.linalg.norm(eb[2][3:6] - ea[2][3:6]))
+            except (ConvergenceError, NoSolutionError) as e:
+                extra["minimisation"] = f"skipped: {e}"
         legs.append(_leg_from_patch(system, ea, eb, ta, tb, tube_u, tube_s,
-                                    kind if dvn < zero else "transfer",
-                                    "two-segment multiple shooting on the section, Newton in the "
-                                    "departure phases (matched: " + ", ".join(names) + ")",
-                                    {"residuals": res, "matched": list(names),
-                                     "candidates": len(cands)}))
+                                    kind if dvn < zero else "transfer", method, extra))
     if not legs:
         raise ConvergenceError("no candidate connection converged: " + "; ".join(failures[:3]),
                                0, [])
