@@ -481,18 +481,32 @@ def transfer_tubes(tube_u, tube_s, max_candidates=5):
     if not best:
         raise NoSolutionError(f"the tubes' cuts on {section.label} share no {pname} range; no "
                               "position match exists there")
-    best.sort()
+    # per departure sample its cheapest match; the local minima of that along the cut (cyclic
+    # in phase) are the candidates, cheapest first
+    per = {}
+    for dv0, fa, fb in best:
+        if fa not in per or dv0 < per[fa][0]:
+            per[fa] = (dv0, fa, fb)
+    ph = sorted(per)
+    vals = [per[f][0] for f in ph]
+    m = len(ph)
+    minima = [per[ph[k]] for k in range(m)
+              if m < 3 or (vals[k] <= vals[k - 1] and vals[k] <= vals[(k + 1) % m])]
+    minima.sort()
     ba, bb = _Branch(tube_u), _Branch(tube_s)
     legs = []
     seen = []
-    for dv0, fa, fb in best:
+    for dv0, fa, fb in minima + sorted(best):
         if any(abs(fa - s) < 0.02 for s in seen):
             continue
         seen.append(fa)
         try:
-            legs.append(_min_dv_transfer(system, ba, bb, fa, fb, pname, tube_u, tube_s))
+            leg = _min_dv_transfer(system, ba, bb, fa, fb, pname, tube_u, tube_s)
         except (ConvergenceError, NoSolutionError):
             continue
+        if any(abs(leg.details["phase_from"] - g.details["phase_from"]) < 1e-6 for g in legs):
+            continue  # the same local minimum reached from another start
+        legs.append(leg)
         if len(legs) >= max_candidates:
             break
     if not legs:

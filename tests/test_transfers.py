@@ -19,7 +19,7 @@ EM = system("earth-moon")
 
 def test_planar_transfer_between_energies():
     a, b = lyapunov(EM, "L1", 3.15), lyapunov(EM, "L2", 3.14)
-    legs, tu, ts = connect(a, b, "x=1-mu", 30, max_candidates=1)
+    legs, tu, ts = connect(a, b, "x=1-mu", 30, max_candidates=3)
     best = legs[0]
     assert best.kind == "transfer"
     assert best.details["position_mismatch"] * EM.length_km < 1e-3   # under a metre
@@ -33,7 +33,7 @@ def test_planar_transfer_between_energies():
     dv = np.linalg.norm(m.dv)
     assert bound <= dv <= 1.05 * bound
     assert best.dv_mps == pytest.approx(EM.mps(dv))
-    assert 5.0 < best.dv_mps < 15.0
+    assert 5.0 < best.dv_mps < 10.0
 
 
 def test_spatial_halo_to_halo_position_matched_patch():
