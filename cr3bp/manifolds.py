@@ -544,8 +544,9 @@ def orbit_from_state(system, state, period, family="given", point="", branch="",
     if err > tolerance:
         raise InputError(f"the state does not return to itself after the period: |s(T) - s(0)| = "
                          f"{err:.3e} > {tolerance:g}; give a converged periodic orbit")
-    return PeriodicOrbit(system, s0, T, arc.stm, family, point, branch,
-                         float(_jacobi(system.mu, s0)), err, 0)
+    return PeriodicOrbit(system=system, state=s0, period=T, monodromy=arc.stm, family=family,
+                         point=point, branch=branch, jacobi=float(_jacobi(system.mu, s0)),
+                         periodicity_error=err, iterations=0)
 
 
 def point_tube(system, point, stability: str, branch: str, until=None, *, step_km=None,

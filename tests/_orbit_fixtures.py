@@ -69,8 +69,9 @@ def _orbit(system, s0, family, point, branch=""):
     period = 2 * arc_half.t_final
     full = propagate(system, s0, period, stm=True, rtol=1e-13, atol=1e-13)
     err = float(np.linalg.norm(full.final_state - s0))
-    return PeriodicOrbit(system, s0, period, full.stm, family, point, branch,
-                         float(jacobi(system.mu, s0)), err, 0)
+    return PeriodicOrbit(system=system, state=s0, period=period, monodromy=full.stm, family=family,
+                         point=point, branch=branch, jacobi=float(jacobi(system.mu, s0)),
+                         periodicity_error=err, iterations=0)
 
 
 @functools.lru_cache(maxsize=None)
