@@ -5,7 +5,11 @@ from __future__ import annotations
 
 from .. import common
 
-TARGETS = ("jacobi", "period", "ax", "ay", "az", "perilune")
+try:  # the orbit command's own target list when the orbit library's CLI helpers are present
+    from ._orbit_options import TARGETS as _ORBIT_TARGETS
+    TARGETS = tuple(t[0] for t in _ORBIT_TARGETS if t[0] != "resonance")
+except ImportError:
+    TARGETS = ("jacobi", "period", "ax", "ay", "az", "perilune")
 
 
 def add_orbit_options(p):
@@ -51,8 +55,8 @@ def request_text(args) -> str | None:
     given = [(k, getattr(args, k)) for k in TARGETS if getattr(args, k, None) is not None]
     from cr3bp.errors import InputError
     if len(given) != 1:
-        raise InputError("give exactly one orbit target: --jacobi, --period, --ax, --ay, --az or --perilune "
-                         f"(got {len(given)})")
+        raise InputError("give exactly one orbit target: " + ", ".join("--" + t for t in TARGETS) +
+                         f" (got {len(given)})")
     words = [args.family] + [w for w in (args.point, args.halo_branch) if w]
     return " ".join(words + [f"{given[0][0]}={given[0][1]}"])
 

@@ -74,7 +74,14 @@ def plot_tubes(tubes, views=("xy", "xz"), n_samples=200, max_trajectories=80, ax
             handles.append(Line2D([], [], color=orbit_colour, lw=1.2, label="periodic orbit"))
         system = tubes[0].system
         span = _fit(ax, np.vstack(pts) if pts else np.zeros((1, 2)))
-        draw_primaries(ax, system, view=view, min_radius=0.006 * span)
+        if view == "yz":  # both primaries project onto the origin: show the smaller one only
+            from matplotlib.patches import Circle
+            r2 = max(system.radii[1], 0.006 * span)
+            ax.add_patch(Circle((0.0, 0.0), r2, color="0.45", zorder=5))
+            ax.annotate(f"{system.names[1]} (both primaries project here)", (0.0, 0.0),
+                        textcoords="offset points", xytext=(4, 6), fontsize=7, zorder=6)
+        else:
+            draw_primaries(ax, system, view=view, min_radius=0.006 * span)
         if forbidden:
             draw_forbidden(ax, system, tubes[0].jacobi, view)
             if view in ("xy", "xz"):
