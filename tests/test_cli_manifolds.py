@@ -179,3 +179,15 @@ def test_manifold_of_a_lagrange_point(capsys):
     assert rc == 0 and d["tube"]["n_trajectories"] == 1 and d["tube"]["stability"] == "stable"
     assert d["tube"]["trajectories"][0]["start_state"][0] > 1 - EM.mu
     assert _run(["manifold", "--system", "earth-moon", "--lagrange", "L4", "--stable", "-q"]) == 2
+
+
+def test_orbit_requests_through_the_orbit_library(capsys, l1):
+    # runs once the orbit library is on main; it must agree with the test-only fixture
+    request = pytest.importorskip("cr3bp.orbits.request")
+    lib = request.solve_request(EM, "lyapunov L1 jacobi=3.15")
+    assert lib.period == pytest.approx(l1.period, rel=1e-8)
+    rc = _run(["manifold", "--system", "earth-moon", "--family", "lyapunov", "--point", "L1", "--jacobi", "3.15",
+               "--unstable", "--points", "8", "--until", "time:1d", "--format", "json", "-q"])
+    d = json.loads(capsys.readouterr().out)
+    assert rc == 0 and d["tube"]["origin"].startswith("lyapunov L1")
+    assert d["tube"]["jacobi"] == pytest.approx(3.15, abs=1e-10)
