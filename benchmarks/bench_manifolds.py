@@ -9,13 +9,10 @@
    candidates included. Baseline: growing the two tubes alone with the scipy loop over a
    30-trajectory subset scaled by 10. Target: under 3 s.
 
-The halo comes from ``cr3bp.orbits.request.solve_request`` when the orbit library is
-installed, else from the test-only fixture in ``tests/_orbit_fixtures.py``.
+The orbits come from ``cr3bp.orbits.request.solve_request``.
 """
 
-import sys
 import time
-from pathlib import Path
 
 import numpy as np
 
@@ -30,15 +27,9 @@ def _best(fn, repeat=3):
 
 
 def _orbits(em):
-    try:
-        from cr3bp.orbits.request import solve_request
-        return (solve_request(em, "halo L1 north az=12000km"), solve_request(em, "lyapunov L1 jacobi=3.15"),
-                solve_request(em, "lyapunov L2 jacobi=3.15"))
-    except ImportError:
-        sys.path.insert(0, str(Path(__file__).resolve().parent.parent / "tests"))
-        from _orbit_fixtures import halo_by_continuation, lyapunov
-        return (halo_by_continuation(em, "L1", 12000.0 / em.length_km, 40), lyapunov(em, "L1", 3.15),
-                lyapunov(em, "L2", 3.15))
+    from cr3bp.orbits.request import solve_request
+    return (solve_request(em, "halo L1 north az=12000km"), solve_request(em, "lyapunov L1 jacobi=3.15"),
+            solve_request(em, "lyapunov L2 jacobi=3.15"))
 
 
 def _scipy_loop(system, starts, t_final, section):

@@ -21,7 +21,7 @@ from cr3bp import system
 from cr3bp.connections import parking_legs, periapsis_summary
 from cr3bp.errors import NoSolutionError
 
-from _orbit_fixtures import halo_by_continuation
+from _orbit_fixtures import halo_az
 
 SE = system("sun-earth")
 ONE_METER_KM = 1e-3
@@ -29,7 +29,7 @@ ONE_METER_KM = 1e-3
 
 @pytest.fixture(scope="module")
 def legs():
-    orbit = halo_by_continuation(SE, "L1", 2.4e-3, 40)
+    orbit = halo_az(SE, "L1", 2.4e-3)
     return orbit, parking_legs(orbit, "earth", 200.0, n_points=48, t_max=6.0)
 
 
@@ -62,6 +62,6 @@ def test_dv_formula_uses_the_inertial_velocity(legs):
 
 def test_unreachable_altitude_reports_nearest(legs):
     orbit, _ = legs
-    small = halo_by_continuation(SE, "L1", 8e-4, 40)   # its first periapsis stays ~5000 km up
+    small = halo_az(SE, "L1", 8e-4)   # its first periapsis stays ~5000 km up
     with pytest.raises(NoSolutionError, match="nearest feasible altitude"):
         parking_legs(small, "earth", 200.0, n_points=24, t_max=6.0)

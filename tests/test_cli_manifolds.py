@@ -14,7 +14,7 @@ from cr3bp.cautions import CAUTION
 from cr3bp.dynamics import jacobi
 from librate_cli.main import main
 
-from _orbit_fixtures import halo_by_continuation, lyapunov
+from _orbit_fixtures import halo_az, lyapunov
 
 EM = system("earth-moon")
 SE = system("sun-earth")
@@ -130,7 +130,7 @@ def test_connect_below_the_necks_exit_3(capsys):
 
 
 def test_connect_parking_unreachable_exit_3(capsys, tmp_path):
-    small = halo_by_continuation(SE, "L1", 8e-4, 40)
+    small = halo_az(SE, "L1", 8e-4)
     rc = _run(["connect", "--system", "sun-earth", "--from", "parking earth 200km", "--to", _state_request(small),
                "--points", "24", "--time", "6TU", "-q", "--map", str(tmp_path / "pmap.png")])
     err = capsys.readouterr().err
@@ -139,7 +139,7 @@ def test_connect_parking_unreachable_exit_3(capsys, tmp_path):
 
 
 def test_connect_parking_to_halo(tmp_path):
-    big = halo_by_continuation(SE, "L1", 2.4e-3, 40)
+    big = halo_az(SE, "L1", 2.4e-3)
     out = tmp_path / "leo.json"
     rc = _run(["connect", "--system", "sun-earth", "--from", "parking earth 200km", "--to", _state_request(big),
                "--points", "48", "--time", "6TU", "--candidates", "1", "--format", "json", "--out", str(out), "-q"])
@@ -182,10 +182,12 @@ def test_manifold_of_a_lagrange_point(capsys):
 
 
 def test_orbit_requests_through_the_orbit_library(capsys, l1):
-    # runs once the orbit library is on main; it must agree with the test-only fixture
-    request = pytest.importorskip("cr3bp.orbits.request")
-    lib = request.solve_request(EM, "lyapunov L1 jacobi=3.15")
-    assert lib.period == pytest.approx(l1.period, rel=1e-8)
+    # the library's orbit against the one the former test-only single-shooting corrector gave
+    # (an independent implementation): x0 = 0.8159585315319942, T = 2.8448313741665308 TU
+    from cr3bp.orbits.request import solve_request
+    lib = solve_request(EM, "lyapunov L1 jacobi=3.15")
+    assert lib.state[0] == pytest.approx(0.8159585315319942, abs=1e-10)
+    assert lib.period == pytest.approx(2.8448313741665308, rel=1e-9)
     rc = _run(["manifold", "--system", "earth-moon", "--family", "lyapunov", "--point", "L1", "--jacobi", "3.15",
                "--unstable", "--points", "8", "--until", "time:1d", "--format", "json", "-q"])
     d = json.loads(capsys.readouterr().out)

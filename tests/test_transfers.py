@@ -43,9 +43,9 @@ def test_spatial_halo_to_halo_position_matched_patch():
     # moving the patch plane. Candidates come back in increasing dv.
     from cr3bp.dynamics import jacobi
 
-    from _orbit_fixtures import halo_at_jacobi
-    a = halo_at_jacobi(EM, "L1", 3.15, 2e-3, 1.1)
-    b = halo_at_jacobi(EM, "L2", 3.15, 1e-3, 1.1)
+    from _orbit_fixtures import halo_jacobi
+    a = halo_jacobi(EM, "L1", 3.15)
+    b = halo_jacobi(EM, "L2", 3.15)
     assert abs(a.state[2]) > 0.01 and abs(b.state[2]) > 0.01
     legs, tu, ts = connect(a, b, "x=1-mu", 30, max_candidates=1)
     dvs = [g.dv_mps for g in legs]
