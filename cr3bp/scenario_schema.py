@@ -65,6 +65,7 @@ SCHEMA = {
     "mission": ("table", True, {
         "name": (S, True, "mission name"),
         "description": (S, False, "what the mission is for"),
+        "issued": (S, False, "ISO 8601 date written as the files' creation date (reproducible output)"),
     }),
     "system": ("table", True, {
         "name": (S, False, "tabulated system, e.g. 'earth-moon'"),

@@ -39,15 +39,8 @@ def run(args):
         stage["n"] += 1
         common.progress(args, f"[{time.time() - t0:6.1f} s] {text}")
 
-    import warnings
-    from cr3bp.timescales import LeapSecondsExpiredWarning
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always", LeapSecondsExpiredWarning)
-        result = mission.run(plan, args.out, catalog=Catalog(args.catalog) if args.catalog else None,
-                             workers=args.workers, scheduler=args.scheduler, progress=say)
-    notes = {str(w.message) for w in caught if issubclass(w.category, LeapSecondsExpiredWarning)}
-    for n in sorted(notes)[:1]:
-        common.progress(args, f"librate: note: {n}")
+    result = mission.run(plan, args.out, catalog=Catalog(args.catalog) if args.catalog else None,
+                         workers=args.workers, scheduler=args.scheduler, progress=say)
     failed = [f"{o}: {c.name}" for o, cs in result.checks.items() for c in cs if not c.passed]
     lines = [f"done in {result.seconds:.1f} s; results in {result.folder}/",
              f"  report:   {result.report}", f"  manifest: {result.manifest}",
