@@ -1,0 +1,334 @@
+"""Building the transfer graph from a node list: plan the legs, prune them by energy, compute
+them as independent tasks (a process pool, or a dask.distributed cluster), cache every leg.
+
+Plan. Every ordered pair of nodes (or only the pairs the node list names, with
+``all_pairs = false``) is a candidate leg. A pair whose hint allows no maneuver is attempted
+only where a ballistic arc can exist: equal Jacobi constants and, when the two nodes lie in
+different realms, the neck between them open (``C < C_Li``; Koon, Lo, Marsden & Ross, 2011,
+ch. 3, from memory). Pairs whose ends need a solver that is not on this build are listed as
+pruned, with the reason.
+
+Compute. A task is a plain dict (system, both nodes with their states, settings); the worker
+function :func:`compute_leg` is a module-level function of that dict alone, so it pickles to a
+``concurrent.futures.ProcessPoolExecutor`` or to a dask worker, and the same task gives the
+same leg byte for byte wherever it runs.
+
+Cache. Each leg is stored in the catalogue under a key made of both nodes' ids, the settings
+and the leg format; a rebuild reads every known leg and computes none of them. Legs that
+failed (no convergence, impact, over the Δv cap) are cached too, with the reason, so they are
+not retried either.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+import os
+from dataclasses import dataclass, field
+
+import networkx as nx
+import numpy as np
+
+from . import network
+from .errors import InputError, LibrateError
+from .nodes import BoundaryNode, OrbitNode, node_state
+from .targeting import LEG_FORMAT
+
+#: Two Jacobi constants closer than this count as one energy (ballistic legs).
+SAME_ENERGY = 1e-9
+#: A leg declared ballistic ("maneuvers = none") is kept only under this total Δv, m/s.
+BALLISTIC_DV_MPS = 0.01
+
+
+@dataclass(frozen=True)
+class BuildResult:
+    """The graph and how it was made.
+
+    Attributes
+    ----------
+    graph : networkx.MultiDiGraph   node ids as nodes; edges from :func:`cr3bp.network.add_leg`
+    nodes : tuple of nodes
+    legs : tuple of leg dicts (every attempted leg, ``status`` "ok" or "failed")
+    computed, cached : int          legs computed in this run / read from the catalogue
+    pruned : tuple of dicts         pairs not attempted, with the reason
+    """
+
+    graph: object
+    nodes: tuple
+    legs: tuple
+    computed: int
+    cached: int
+    pruned: tuple = ()
+    settings: dict = field(default_factory=dict)
+
+    def to_dict(self) -> dict:
+        return {"nodes": [dict(n.to_dict(), **_node_energy(self.graph, n.id)) for n in self.nodes],
+                "legs": [leg_summary(leg) for leg in self.legs],
+                "edges": self.graph.number_of_edges(), "computed": self.computed,
+                "cached": self.cached, "pruned": list(self.pruned), "settings": self.settings}
+
+
+def _node_energy(graph, nid):
+    d = graph.nodes[nid]
+    return {"jacobi": d.get("jacobi"), "x": d.get("x")}
+
+
+def leg_summary(leg: dict) -> dict:
+    keys = ("from", "to", "from_name", "to_name", "method", "status", "reason", "dv_mps", "tof_days",
+            "min_altitude_km", "key")
+    return {k: leg.get(k) for k in keys if k in leg}
+
+
+def system_spec(system) -> dict:
+    return {"name": system.name, "mu": float(system.mu), "length_km": float(system.length_km),
+            "time_s": float(system.time_s)}
+
+
+def system_from_spec(spec):
+    from .systems import from_mu, system
+    try:
+        s = system(spec["name"])
+        if s.mu == spec["mu"]:
+            return s
+    except LibrateError:
+        pass
+    return from_mu(spec["mu"], spec["length_km"], spec["time_s"])
+
+
+def leg_key(task: dict) -> str:
+    """Catalogue key of a leg: both node ids, the settings, the system and the leg format."""
+    body = {"from": task["from"]["id"], "to": task["to"]["id"], "settings": task["settings"],
+            "system": task["system"], "format": LEG_FORMAT, "method": task["method"],
+            "states": [task["from"].get("state_used"), task["to"].get("state_used")]}
+    text = json.dumps(body, sort_keys=True, separators=(",", ":"))
+    return f"leg/{task['from']['id']}->{task['to']['id']}/{hashlib.sha256(text.encode()).hexdigest()[:16]}"
+
+
+def compute_leg(task: dict) -> dict:
+    """Compute one leg from a plain task dict; never raises for a leg that cannot be made
+    (it comes back with ``status = "failed"`` and the reason)."""
+    from .targeting import targeted_leg
+    system = system_from_spec(task["system"])
+    st = task["settings"]
+    base = {"from": task["from"]["id"], "to": task["to"]["id"], "from_name": task["from"]["name"],
+            "to_name": task["to"]["name"], "key": task["key"], "method": task["method"]}
+    try:
+        leg = targeted_leg(system, task["from"]["state_used"], task["to"]["state_used"], st["tof_tu"],
+                           st["patches"])
+    except LibrateError as e:
+        return dict(base, status="failed", reason=str(e), dv_mps=None, tof_days=None)
+    leg.update(base)
+    cap = st.get("max_patch_dv_mps")
+    if st.get("maneuvers") == "none" and leg["dv_mps"] > BALLISTIC_DV_MPS:
+        return dict(base, status="failed", dv_mps=leg["dv_mps"], tof_days=leg["tof_days"],
+                    reason=f"declared ballistic but needs {leg['dv_mps']:.3f} m/s")
+    if cap is not None and leg["dv_mps"] > cap:
+        return dict(base, status="failed", dv_mps=leg["dv_mps"], tof_days=leg["tof_days"],
+                    reason=f"needs {leg['dv_mps']:.1f} m/s, over the cap of {cap:.1f} m/s")
+    leg["status"] = "ok"
+    leg["reason"] = ""
+    return leg
+
+
+# ---- planning --------------------------------------------------------------------------
+
+def realm(system, position) -> str:
+    """Which realm a position lies in: "larger" (inside the L1 neck's side of the larger
+    primary), "smaller" (between L1 and L2), or "exterior" (beyond L2, or farther from the
+    barycentre than L3). A coarse split by the collinear points' x (common practice)."""
+    from .equilibria import lagrange_point
+    x = float(position[0])
+    r = float(np.linalg.norm(position[:2]))
+    x1, x2 = lagrange_point(system, "L1").position[0], lagrange_point(system, "L2").position[0]
+    x3 = abs(lagrange_point(system, "L3").position[0])
+    if r > x3 and x < x1:
+        return "exterior"
+    if x < x1:
+        return "larger"
+    return "smaller" if x <= x2 else "exterior"
+
+
+def _necks_between(a: str, b: str) -> tuple:
+    pair = {a, b}
+    if pair == {"larger", "smaller"}:
+        return ("L1",)
+    if pair == {"smaller", "exterior"}:
+        return ("L2",)
+    if pair == {"larger", "exterior"}:
+        return ("L3",)
+    return ()
+
+
+def energy_prune(system, c_from, c_to, r_from, r_to, maneuvers: str) -> str | None:
+    """Why no leg is attempted (None: attempt it). Only ballistic pairs are pruned: different
+    energies, or a closed neck between their realms."""
+    if maneuvers != "none":
+        return None
+    if abs(c_from - c_to) > SAME_ENERGY:
+        return f"no maneuver allowed and the Jacobi constants differ ({c_from:.9f} vs {c_to:.9f})"
+    from .energy import necks
+    opened = necks(system, c_from)
+    for p in _necks_between(realm(system, r_from), realm(system, r_to)):
+        if not opened[p]:
+            return f"no maneuver allowed and the {p} neck is closed at C = {c_from:.9f}"
+    return None
+
+
+def plan(system, nodelist, tof_days=None, patches=None):
+    """Tasks (plain dicts, in a fixed order) and the pruned pairs of a node list."""
+    from .dynamics import jacobi
+    if not system.dimensional:
+        raise InputError(f"system '{system.name}' has no dimensional units; the graph reports m/s and days")
+    tof_days = nodelist.tof_days if tof_days is None else tof_days
+    patches = nodelist.patches if patches is None else patches
+    states = {n.id: node_state(system, n) for n in nodelist.nodes}
+    hints = {}
+    for h in nodelist.hints:
+        hints[(h.source, h.target)] = h
+        if h.both_ways:
+            hints.setdefault((h.target, h.source), h)
+    if nodelist.all_pairs:
+        pairs = [(a, b) for a in nodelist.nodes for b in nodelist.nodes if a is not b]
+    else:
+        byname = nodelist.by_name()
+        pairs = [(byname[s], byname[t]) for (s, t) in hints]
+    tasks, pruned = [], []
+    for a, b in pairs:
+        h = hints.get((a.name, b.name))
+        why = None
+        for n in (a, b):
+            if isinstance(n, OrbitNode):
+                why = f"orbit node '{n.name}' needs the periodic-orbit solver (cr3bp.orbits.request), not on this build"
+            elif isinstance(n, BoundaryNode):
+                why = f"{n.kind} node '{n.name}' needs manifold connections (cr3bp.connections), not on this build"
+        sa, sb = states[a.id], states[b.id]
+        maneuvers = h.maneuvers if h else "ends"
+        if why is None:
+            why = energy_prune(system, float(jacobi(system.mu, sa)), float(jacobi(system.mu, sb)),
+                               sa[:3], sb[:3], maneuvers)
+        if why is not None:
+            pruned.append({"from": a.name, "to": b.name, "reason": why})
+            continue
+        tof = h.tof_days if (h and h.tof_days is not None) else tof_days
+        settings = {"tof_tu": float(tof / system.time_days), "patches": int(patches), "maneuvers": maneuvers,
+                    "max_patch_dv_mps": h.max_patch_dv_mps if h else None}
+        task = {"system": system_spec(system), "method": "targeted", "settings": settings,
+                "from": dict(a.to_dict(), state_used=sa.tolist()), "to": dict(b.to_dict(), state_used=sb.tolist())}
+        task["key"] = leg_key(task)
+        tasks.append(task)
+    return tasks, pruned
+
+
+# ---- running the tasks --------------------------------------------------------------------
+
+def run_tasks(tasks, workers=None, scheduler=None, progress=None) -> list:
+    """Results of :func:`compute_leg` over ``tasks``, in task order.
+
+    ``scheduler``: address of a dask.distributed scheduler (or a ``distributed.Client``);
+    otherwise a process pool of ``workers`` processes (default: the machine's cores; 1 runs
+    in this process)."""
+    n = len(tasks)
+    out = [None] * n
+    done = 0
+
+    def tick(i, leg):
+        nonlocal done
+        out[i] = leg
+        done += 1
+        if progress is not None:
+            progress(done, n, leg)
+
+    if n == 0:
+        return []
+    if scheduler is not None:
+        try:
+            from distributed import Client, as_completed
+        except ImportError:
+            raise InputError("--scheduler needs dask.distributed: pip install 'librate[cluster]'") from None
+        client = scheduler if isinstance(scheduler, Client) else Client(scheduler, timeout="20s")
+        try:
+            futures = client.map(compute_leg, tasks, pure=False)
+            index = {f.key: i for i, f in enumerate(futures)}
+            for f in as_completed(futures):
+                tick(index[f.key], f.result())
+        finally:
+            if client is not scheduler:
+                client.close()
+        return out
+    workers = (os.cpu_count() or 1) if workers is None else int(workers)
+    if workers < 1:
+        raise InputError(f"--workers {workers} must be at least 1")
+    if workers == 1 or n == 1:
+        for i, t in enumerate(tasks):
+            tick(i, compute_leg(t))
+        return out
+    import multiprocessing
+    from concurrent.futures import ProcessPoolExecutor, as_completed as done_first
+    # fork where the platform has it: no re-import of the caller's main module (scripts
+    # without a main guard work); spawn elsewhere
+    methods = multiprocessing.get_all_start_methods()
+    ctx = multiprocessing.get_context("fork" if "fork" in methods else "spawn")
+    with ProcessPoolExecutor(max_workers=min(workers, n), mp_context=ctx) as ex:
+        futs = {ex.submit(compute_leg, t): i for i, t in enumerate(tasks)}
+        for f in done_first(futs):
+            tick(futs[f], f.result())
+    return out
+
+
+def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None, progress=None,
+                tof_days=None, patches=None) -> BuildResult:
+    """The transfer graph of ``nodelist``: plan, prune, compute (or read from ``catalog``).
+
+    Parameters
+    ----------
+    system : System (dimensional)
+    nodelist : cr3bp.nodes.NodeList
+    workers : int, optional       process-pool size (default: all cores; 1: in this process)
+    scheduler : str or distributed.Client, optional   run the legs on a dask cluster instead
+    catalog : cr3bp.catalog.Catalog, optional          leg cache
+    progress : callable(done, total, leg), optional
+    tof_days, patches : override the node list's settings
+
+    Returns
+    -------
+    BuildResult
+    """
+    from .dynamics import jacobi
+    tasks, pruned = plan(system, nodelist, tof_days, patches)
+    legs: list = [None] * len(tasks)
+    todo = []
+    for i, t in enumerate(tasks):
+        known = catalog.get_leg(t["key"]) if catalog is not None else None
+        if known is not None:
+            legs[i] = known
+        else:
+            todo.append(i)
+    cached = len(tasks) - len(todo)
+    results = run_tasks([tasks[i] for i in todo], workers, scheduler, progress)
+    for i, leg in zip(todo, results):
+        legs[i] = leg
+        if catalog is not None:
+            catalog.put_leg(leg["key"], system, leg)
+    graph = nx.MultiDiGraph(system=system.name)
+    for n in nodelist.nodes:
+        s = node_state(system, n)
+        graph.add_node(n.id, name=n.name, kind=n.kind, node=n.to_dict(),
+                       jacobi=None if s is None else float(jacobi(system.mu, s)),
+                       x=None if s is None else float(s[0]), y=None if s is None else float(s[1]))
+    for leg in legs:
+        if leg["status"] == "ok":
+            network.add_leg(graph, leg["from"], leg["to"], leg["dv_mps"], leg["tof_days"], key=leg["method"],
+                            kind=leg["method"], min_altitude_km=leg["min_altitude_km"], leg=leg)
+    settings = {"tof_days": nodelist.tof_days if tof_days is None else tof_days,
+                "patches": nodelist.patches if patches is None else patches}
+    return BuildResult(graph, tuple(nodelist.nodes), tuple(legs), len(todo), cached, tuple(pruned), settings)
+
+
+def leg_json(leg: dict) -> str:
+    """Canonical JSON of a leg (sorted keys): two equal legs give equal text."""
+    return json.dumps(leg, sort_keys=True, allow_nan=True)
+
+
+def finite(v):
+    return v if (isinstance(v, float) and math.isfinite(v)) else None
