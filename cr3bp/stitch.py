@@ -338,7 +338,7 @@ def _result(system, p, z, legs, constraints, optimised, note, iterations):
         after = np.concatenate([before[:3], before[3:] + dv])
         man.append({"t_days": t * system.time_days, "node": boundary_node.get(k, ""),
                     "position_lu": pos.tolist(), "position_km": (pos * system.length_km).tolist(),
-                    "dv_vector_mps": [system.mps(v) for v in dv], "dv_mps": system.mps(float(np.linalg.norm(dv))),
+                    "dv_vector_mps": [float(system.mps(v)) for v in dv], "dv_mps": float(system.mps(float(np.linalg.norm(dv)))),
                     "jacobi_before": float(jacobi(system.mu, before)),
                     "jacobi_after": float(jacobi(system.mu, after))})
     dv_total = float(sum(m["dv_mps"] for m in man))
