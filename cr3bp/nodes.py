@@ -363,13 +363,13 @@ def find_node(nodes, text: str):
     if not hits:
         hits = [n for n in nodes if isinstance(n, OrbitNode) and normalise(n.orbit) == t]
     if not hits:
-        m = re.fullmatch(r"parking (\w+) (\S+)", t)
+        m = re.fullmatch(r"\s*parking\s+(\w+)\s+(\S+)\s*", str(text), re.IGNORECASE)
         if m:
             try:
                 alt = units.parse(m.group(2), "length").si()
             except InputError:
                 alt = None
-            hits = [n for n in nodes if isinstance(n, ParkingNode) and n.body == m.group(1)
+            hits = [n for n in nodes if isinstance(n, ParkingNode) and n.body == m.group(1).lower()
                     and alt is not None and abs(n.altitude_km - alt) < 1e-6]
     if len(hits) == 1:
         return hits[0]
