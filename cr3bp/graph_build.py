@@ -32,7 +32,7 @@ import numpy as np
 
 from . import network
 from .errors import InputError, LibrateError
-from .nodes import BoundaryNode, OrbitNode, node_state
+from .nodes import BoundaryNode, OrbitNode, ParkingNode, node_state
 from .targeting import LEG_FORMAT
 
 #: Two Jacobi constants closer than this count as one energy (ballistic legs).
@@ -202,6 +202,11 @@ def plan(system, nodelist, tof_days=None, patches=None):
                 why = f"orbit node '{n.name}' needs the periodic-orbit solver (cr3bp.orbits.request), not on this build"
             elif isinstance(n, BoundaryNode):
                 why = f"{n.kind} node '{n.name}' needs manifold connections (cr3bp.connections), not on this build"
+            elif isinstance(n, ParkingNode):
+                # a departure from a parking orbit has a free phase: a primary-to-orbit leg of
+                # the connections library, not a two-point targeting from one fixed point
+                why = (f"parking node '{n.name}' needs primary-to-orbit legs (cr3bp.connections), "
+                       "not on this build")
         sa, sb = states[a.id], states[b.id]
         maneuvers = h.maneuvers if h else "ends"
         if why is None:

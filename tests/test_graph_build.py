@@ -101,7 +101,8 @@ def test_pruning_names_the_reason(em):
     tasks, pruned = plan(em, nl)
     reasons = {(p["from"], p["to"]): p["reason"] for p in pruned}
     assert "periodic-orbit solver" in reasons[("gate", "relay")]
-    assert {(t["from"]["name"], t["to"]["name"]) for t in tasks} == {("leo", "gate"), ("gate", "leo")}
+    assert "primary-to-orbit legs" in reasons[("leo", "gate")] and len(pruned) == 6
+    assert tasks == []
 
 
 def test_ballistic_pairs_pruned_by_energy_and_by_closed_necks(em):
