@@ -119,3 +119,13 @@ def test_bad_route_options_are_exit_2(capsys, nodes_file, args, message):
     d, p = nodes_file
     rc, out, err = run(capsys, "route", "--system", "earth-moon", "--nodes", p, "--no-catalog", *args)
     assert rc == 2 and message in err and err.count("\n") == 1, err
+
+
+def test_no_chain_names_the_nodes_and_why_their_legs_were_not_made(capsys, tmp_path):
+    from pathlib import Path
+    example = Path(__file__).resolve().parent.parent / "examples" / "cislunar_nodes.toml"
+    rc, out, err = run(capsys, "route", "--system", "earth-moon", "--nodes", example, "--no-catalog",
+                       "--from", "parking earth 200km", "--to", "dock", "--max-legs", "1", "-q")
+    assert rc == 3 and out == ""
+    assert "no chain of legs joins 'leo' to 'dock'" in err and "parking node 'leo' needs" in err
+    assert "relay" not in err and err.count("\n") == 1

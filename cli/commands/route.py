@@ -88,7 +88,7 @@ def _side(path, tag):
 def run(args):
     from pathlib import Path
 
-    from cr3bp.errors import InputError
+    from cr3bp.errors import InputError, NoSolutionError
     from cr3bp.network import best_routes, pareto_routes
     from cr3bp.nodes import find_node
 
@@ -108,7 +108,10 @@ def run(args):
     constraints = _constraints(args, system, nodes)
     nodelist, result = _graphing.build(args, system)
     g = result.graph
-    routes = best_routes(g, src.id, dst.id, constraints, args.objective, k)     # NoSolutionError -> 3
+    try:
+        routes = best_routes(g, src.id, dst.id, constraints, args.objective, k)
+    except NoSolutionError as e:                                                # exit status 3
+        raise NoSolutionError(_explain(str(e), nodes, result, src, dst)) from None
     front = pareto_routes(g, src.id, dst.id, constraints) if args.pareto else []
     name = {n.id: n.name for n in nodes}
     stitched = None
@@ -158,6 +161,15 @@ def run(args):
     import sys
     sys.stdout.write(text + common.caution_footer())
     return 0
+
+
+def _explain(message, nodes, result, src, dst):
+    """The search's reason with node names for ids, plus why legs at either end were not made."""
+    for n in nodes:
+        message = message.replace(f"'{n.id}'", f"'{n.name}'")
+    why = sorted({p["reason"] for p in result.pruned if f"'{src.name}'" in p["reason"]
+                  or f"'{dst.name}'" in p["reason"]})
+    return message + (f" (not attempted: {'; '.join(why)})" if why else "")
 
 
 def _route_dict(r, name):
