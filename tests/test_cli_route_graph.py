@@ -129,3 +129,19 @@ def test_no_chain_names_the_nodes_and_why_their_legs_were_not_made(capsys, tmp_p
     assert rc == 3 and out == ""
     assert "no chain of legs joins 'leo' to 'dock'" in err and "parking node 'leo' needs" in err
     assert "relay" not in err and err.count("\n") == 1
+
+
+def test_graph_build_on_a_dask_scheduler(capsys, nodes_file):
+    distributed = pytest.importorskip("distributed")
+    d, p = nodes_file
+    rc0, out0, _ = run(capsys, "graph", "build", "--system", "earth-moon", "--nodes", p, "--no-catalog",
+                       "--workers", "1", "--format", "json")
+    with distributed.LocalCluster(processes=False, n_workers=1, threads_per_worker=1,
+                                  dashboard_address=None) as cluster:
+        rc, out, err = run(capsys, "graph", "build", "--system", "earth-moon", "--nodes", p, "--no-catalog",
+                           "--scheduler", cluster.scheduler_address, "--format", "json")
+    assert rc0 == rc == 0, err
+    assert json.loads(out)["legs"] == json.loads(out0)["legs"]
+    rc, out, err = run(capsys, "graph", "build", "--system", "earth-moon", "--nodes", p, "--no-catalog",
+                       "--scheduler", "tcp://127.0.0.1:8786", "--workers", "2")
+    assert rc == 2 and "not both" in err

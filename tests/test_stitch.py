@@ -111,3 +111,23 @@ def test_route_without_patch_points_is_refused():
     from cr3bp.errors import InputError
     with pytest.raises(InputError):
         stitch.stitch_route(s, [{"from": "a", "to": "b", "dv_mps": 1.0}])
+
+
+from hypothesis import HealthCheck, assume, given, settings, strategies as st  # noqa: E402
+
+from cr3bp.errors import NoSolutionError  # noqa: E402
+
+
+@settings(max_examples=4, deadline=None, derandomize=True,
+          suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(seed=st.integers(0, 10_000), size=st.floats(0.002, 0.03))
+def test_property_stitching_never_costs_more_and_stays_continuous(seed, size):
+    s, states = perturbed_states(3, seed=seed, dv=size, dr=size / 5)
+    try:
+        s, g, route = _route(states, patches=2)
+    except NoSolutionError:            # a targeted leg struck the Moon: no route to stitch
+        assume(False)
+    res = stitch.stitch_route(s, route)
+    assert res.dv_total_mps <= route.dv_total_mps + ONE_MM_PER_S
+    assert res.continuity_lu < CONTINUITY_LU
+    assert res.tof_days <= route.tof_days * (1 + 1e-12)
