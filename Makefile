@@ -15,7 +15,7 @@ $(STAMP): pyproject.toml
 venv: $(STAMP)
 
 demo: $(STAMP)
-	$(BIN)/python examples/demo.py --out out
+	BIN=$(BIN) bash examples/demo.sh out
 
 # Headless Chromium renders the HTML report in a test (Debian package 'chromium').
 system-deps:

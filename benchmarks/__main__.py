@@ -1,24 +1,89 @@
-"""Run every ``benchmarks/bench_<subject>.py`` and print its rows (minimal runner; each module
-exposes ``run() -> list of (name, seconds, baseline_name, baseline_seconds, target_text)``)."""
+"""``python -m benchmarks`` (``make bench``): run every ``benchmarks/bench_*.py`` and print a table.
+
+Each module exposes ``run() -> list of rows`` with a row
+``(name, seconds, baseline_name, baseline_seconds, target_text)``. Speed is judged by ratios
+against a baseline measured in the same run, never by absolute times in tests. The target
+text is one of:
+
+* ``">= 50x"`` or ``"at least 50x ..."``: the baseline takes at least 50 times as long
+  (ratio = baseline / seconds);
+* ``"no slower than ..."``: ratio >= 1; ``"faster than ..."``: ratio > 1;
+* ``"< 0.5 s"``: the measured time itself is below 0.5 s (for wall-clock limits);
+* anything else (or an empty text) is shown as information, not judged.
+
+``seconds`` may be None for a row that was skipped (its target text says why). The command
+always exits 0: the table is a report, not a gate.
+"""
+
+from __future__ import annotations
 
 import importlib
 import pkgutil
+import re
 import sys
+import time
 from pathlib import Path
 
+_RATIO = re.compile(r"^\s*(?:>=|at least)\s*([0-9.]+)\s*x\b", re.IGNORECASE)
+_NO_SLOWER = re.compile(r"^\s*no slower\b", re.IGNORECASE)
+_FASTER = re.compile(r"^\s*faster\b", re.IGNORECASE)
+_ABS = re.compile(r"^\s*<\s*([0-9.]+)\s*s\b")
 
-def main():
+
+def judge(seconds, baseline_seconds, target):
+    """(ratio, verdict) of one row; verdict is "yes", "NO", "-" (not judged) or "skipped"."""
+    if seconds is None:
+        return None, "skipped"
+    ratio = baseline_seconds / seconds if baseline_seconds and seconds > 0 else None
+    m = _RATIO.match(target or "")
+    if m and ratio is not None:
+        return ratio, "yes" if ratio >= float(m.group(1)) else "NO"
+    if ratio is not None and _NO_SLOWER.match(target or ""):
+        return ratio, "yes" if ratio >= 1.0 else "NO"
+    if ratio is not None and _FASTER.match(target or ""):
+        return ratio, "yes" if ratio > 1.0 else "NO"
+    m = _ABS.match(target or "")
+    if m:
+        return ratio, "yes" if seconds < float(m.group(1)) else "NO"
+    return ratio, "-"
+
+
+def _fmt_s(v):
+    if v is None:
+        return "-"
+    return f"{v * 1e3:.3f} ms" if v < 1 else f"{v:.3f} s"
+
+
+def main(argv=None) -> int:
     here = Path(__file__).resolve().parent
     sys.path.insert(0, str(here.parent))
-    for m in sorted(pkgutil.iter_modules([str(here)]), key=lambda m: m.name):
-        if not m.name.startswith("bench_"):
+    names = sorted(m.name for m in pkgutil.iter_modules([str(here)]) if m.name.startswith("bench_"))
+    only = (argv if argv is not None else sys.argv[1:])
+    rows = []
+    for name in names:
+        if only and not any(o in name for o in only):
             continue
-        mod = importlib.import_module(f"benchmarks.{m.name}")
-        for name, t, base, tb, target in mod.run():
-            ratio = tb / t if t > 0 else float("inf")
-            print(f"{m.name[6:]:<12} {name:<55} {t * 1e3:10.3f} ms  vs {base} {tb * 1e3:10.3f} ms"
-                  f"  ({ratio:7.1f}x; target: {target})")
+        t0 = time.perf_counter()
+        mod = importlib.import_module(f"benchmarks.{name}")
+        print(f"running {name} ...", file=sys.stderr, flush=True)
+        for row in mod.run():
+            rows.append((name, *row))
+        print(f"  {name} done in {time.perf_counter() - t0:.1f} s", file=sys.stderr, flush=True)
+    header = ("benchmark", "seconds", "baseline", "baseline s", "ratio", "target", "met")
+    table = []
+    for module, name, sec, base, base_sec, target in rows:
+        ratio, verdict = judge(sec, base_sec, target)
+        table.append((name, _fmt_s(sec), base or "-", _fmt_s(base_sec),
+                      "-" if ratio is None else f"{ratio:.1f}x", target or "-", verdict))
+    widths = [max(len(str(r[i])) for r in [header] + table) for i in range(len(header))]
+    print("  ".join(h.ljust(w) for h, w in zip(header, widths)))
+    print("  ".join("-" * w for w in widths))
+    for r in table:
+        print("  ".join(str(c).ljust(w) for c, w in zip(r, widths)))
+    print("\nTimes are medians of repeated runs on this machine, after the first compile; the "
+          "machine may be shared, so compare the ratios, which are measured in the same run.")
+    return 0
 
 
 if __name__ == "__main__":
-    main()
+    sys.exit(main())

@@ -81,22 +81,61 @@ def progress(args, message: str, verbose_only=False):
     print(message, file=sys.stderr, flush=True)
 
 
-def compile_notice(args):
-    """Say on screen when the compiled kernels are about to be built for the first time."""
-    import importlib.util
-    spec = importlib.util.find_spec("cr3bp")
-    root = Path(spec.origin).parent
-    caches = list((root / "__pycache__").glob("dynamics.*.nbi")) + list(
-        (root / "integrate" / "__pycache__").glob("*.nbi"))
-    if not caches:
-        progress(args, "librate: compiling the numerical kernels (first run only; later runs reuse the cache)...")
+#: Compiled kernels whose cache decides the first-run notice: (module, function).
+COMPILED_KERNELS = (("cr3bp.integrate.dop853", "integrate"),
+                    ("cr3bp.integrate.dop853", "integrate_batch"))
+
+
+def kernels_cached(kernels=COMPILED_KERNELS) -> bool:
+    """True when numba's on-disk cache holds a fresh entry for every kernel in ``kernels``.
+
+    numba (``cache=True``) writes ``<module>.<function>-<line>.py<ver>.nbi`` index files
+    (plus ``.nbc`` data) into the ``__pycache__`` folder beside the module, or below
+    ``NUMBA_CACHE_DIR`` when that is set or the package folder is read-only. An index is
+    used only while the SHA-256 stamp of the module's source stored in it matches the
+    file, otherwise numba compiles again. The check asks each dispatcher's own cache, so it
+    looks exactly where numba will look.
+    """
+    import importlib
+    for module, func in kernels:
+        try:
+            disp = getattr(importlib.import_module(module), func)
+            cache_file = disp._cache._cache_file
+            if not cache_file._load_index():
+                return False
+        except Exception:  # a numba without this layout: look for index files instead
+            mod = importlib.import_module(module)
+            src = Path(mod.__file__)
+            if not list((src.parent / "__pycache__").glob(f"{src.stem}.{func}-*.nbi")):
+                return False
+    return True
+
+
+def compile_notice(args, kernels=None):
+    """Say on screen when the compiled kernels are about to be built (first run only).
+
+    ``kernels`` (a command module's ``KERNELS``) are checked exactly with
+    :func:`kernels_cached`; without it, any numba index file of the library counts.
+    """
+    if kernels is not None:
+        cold = not kernels_cached(kernels)
+    else:
+        import importlib.util
+        root = Path(importlib.util.find_spec("cr3bp").origin).parent
+        cold = not (list((root / "__pycache__").glob("*.nbi"))
+                    or list((root / "integrate" / "__pycache__").glob("*.nbi")))
+    if cold:
+        progress(args, "librate: compiling the numerical kernels (first run only; later runs "
+                       "reuse the cache)...")
 
 
 def run_command(args) -> int:
     from cr3bp.errors import LibrateError
     try:
-        if "propagate" in args.command or args.command not in ("systems",):
-            compile_notice(args)
+        if args.command not in ("systems",):
+            # a command module may name the compiled kernels it uses (KERNELS)
+            mod = sys.modules.get(getattr(args._run, "__module__", ""), None)
+            compile_notice(args, getattr(mod, "KERNELS", None))
         return int(args._run(args) or 0)
     except LibrateError as e:
         print(f"librate: error: {e}", file=sys.stderr)

@@ -66,6 +66,12 @@ def states(system, value, name: str = "states") -> np.ndarray:
 def _outside(system, s, name):
     mu = system.mu
     r_1, r_2 = system.radii
+    if s.shape[0] == 1:  # fast path for one state (called before every propagation)
+        x, y, z = float(s[0, 0]), float(s[0, 1]), float(s[0, 2])
+        d1 = math.sqrt((x + mu) ** 2 + y * y + z * z)
+        d2 = math.sqrt((x - 1 + mu) ** 2 + y * y + z * z)
+        if d1 > r_1 and d2 > r_2:
+            return
     d1 = np.sqrt((s[:, 0] + mu) ** 2 + s[:, 1] ** 2 + s[:, 2] ** 2)
     d2 = np.sqrt((s[:, 0] - 1 + mu) ** 2 + s[:, 1] ** 2 + s[:, 2] ** 2)
     names = system.names

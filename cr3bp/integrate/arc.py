@@ -39,6 +39,9 @@ class Arc:
         Every recorded event, in time order.
     nfev, nsteps : int
         Right-hand-side evaluations and accepted steps.
+    t_end, state_end : float, ndarray (6,)
+        Where the integration stopped (``t_final``/``final_state`` return them). They differ
+        from ``t[-1]``/``states[-1]`` only when ``t_eval`` did not include the end point.
     """
 
     system: object
@@ -49,14 +52,18 @@ class Arc:
     events: tuple = field(default_factory=tuple)
     nfev: int = 0
     nsteps: int = 0
+    t_end: float | None = None
+    state_end: np.ndarray | None = None
 
     @property
     def t_final(self) -> float:
-        return float(self.t[-1])
+        """Time at which the integration stopped (``t_final`` reached, or the stopping event)."""
+        return float(self.t[-1]) if self.t_end is None else float(self.t_end)
 
     @property
     def final_state(self) -> np.ndarray:
-        return self.states[-1]
+        """State at :attr:`t_final`."""
+        return self.states[-1] if self.state_end is None else self.state_end
 
     def events_named(self, name: str) -> list[EventHit]:
         return [e for e in self.events if e.name == name]

@@ -1,16 +1,36 @@
-"""Public propagation entry points.
+"""Public propagation entry points on the compiled Dormand-Prince 8(5,3) integrator.
 
-PLACEHOLDER until the compiled Dormand-Prince 8(5,3) integrator lands: ``propagate`` calls
-the scipy reference so that the rest of the library can be built against the interface.
+:func:`propagate` integrates one state (optionally with its state transition matrix) and
+returns an :class:`~cr3bp.integrate.arc.Arc`; :func:`propagate_batch` integrates many states
+in parallel inside compiled code and returns a :class:`BatchResult`. Both validate their
+input with :mod:`cr3bp.validate` and raise only the typed errors of :mod:`cr3bp.errors`.
+The kernels are in :mod:`.dop853`; :func:`~cr3bp.integrate.reference.propagate_scipy` is the
+same interface on scipy for cross-checks.
+
+Event directions follow the order of integration (as scipy's ``solve_ivp`` does): in a
+backward propagation, ``direction=+1`` selects crossings where g increases as the
+integration proceeds, i.e. decreases in time.
 """
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
 
-from .reference import propagate_scipy
+from .. import validate
+from ..dynamics import MODE_STATE, MODE_STM
+from ..errors import ConvergenceError, InputError
+from . import dop853
+from .arc import Arc, EventHit
+from .events import ESCAPE, IMPACT, table
+
+#: Status names of a finished trajectory; the last three are failures.
+STATUS_NAMES = dop853.STATUS_NAMES
+FAILED = ("max-steps", "stalled", "non-finite")
+DEFAULT_MAX_STEPS = dop853.DEFAULT_MAX_STEPS
+_IDENTITY_FLAT = np.eye(6).ravel()
 
 
 @dataclass(frozen=True)
@@ -19,10 +39,16 @@ class BatchResult:
 
     Attributes
     ----------
-    t_final : ndarray (N,)      time each trajectory stopped
-    states : ndarray (N, 6)     state there
-    status : ndarray (N,) of str  "time", "event", "impact" or "escape"
-    event_t, event_states, event_index : per-trajectory lists of recorded events
+    t_final : ndarray (N,)        time each trajectory stopped
+    states : ndarray (N, 6)       state there
+    status : ndarray (N,) of str  "time", "event", "impact", "escape", or a failure
+                                  ("max-steps", "stalled", "non-finite") when
+                                  ``on_failure="mark"``
+    event_t, event_states, event_index : per-trajectory lists of the recorded events
+                                  (at most ``max_events`` each), arrays (e,), (e, 6), (e,)
+    stm : ndarray (N, 6, 6) or None   final state transition matrices when asked for
+    events_seen : ndarray (N,)    events that occurred (may exceed ``max_events``)
+    nfev, nsteps : ndarray (N,)   right-hand-side evaluations and accepted steps
     """
 
     t_final: np.ndarray
@@ -31,16 +57,274 @@ class BatchResult:
     event_t: list
     event_states: list
     event_index: list
+    stm: np.ndarray | None = None
+    events_seen: np.ndarray | None = None
+    nfev: np.ndarray | None = None
+    nsteps: np.ndarray | None = None
+
+    def __len__(self) -> int:
+        return int(self.states.shape[0])
+
+    def to_dict(self) -> dict:
+        return {
+            "t_final": self.t_final.tolist(),
+            "states": self.states.tolist(),
+            "status": [str(s) for s in self.status],
+            "events": [{"t": t.tolist(), "states": s.tolist(), "index": k.tolist()}
+                       for t, s, k in zip(self.event_t, self.event_states, self.event_index)],
+            "stm": None if self.stm is None else self.stm.tolist(),
+        }
 
 
-def propagate(system, state, t_final, stm=False, rtol=1e-12, atol=1e-12, events=(), t_eval=None):
-    return propagate_scipy(system, state, t_final, stm=stm, rtol=rtol, atol=atol, events=events,
-                           t_eval=t_eval)
+# ---- helpers --------------------------------------------------------------------------
+
+def _params(system) -> np.ndarray:
+    return np.array([float(system.mu)], dtype=np.float64)
 
 
-def propagate_batch(system, states, t_final, rtol=1e-12, atol=1e-12, events=()):
-    arcs = [propagate_scipy(system, s, t_final, rtol=rtol, atol=atol, events=events) for s in states]
-    return BatchResult(np.array([a.t_final for a in arcs]), np.array([a.final_state for a in arcs]),
-                       np.array([a.status for a in arcs]), [np.array([e.t for e in a.events]) for a in arcs],
-                       [np.array([e.state for e in a.events]).reshape(-1, 6) for a in arcs],
-                       [np.array([e.event for e in a.events], dtype=int) for a in arcs])
+def _max_step(value) -> float:
+    if value is None:
+        return math.inf
+    v = validate.finite_time("max_step", value) if not (isinstance(value, float) and math.isinf(value)) else value
+    if not v > 0:
+        raise InputError(f"max_step = {value!r} must be positive")
+    return float(abs(v))
+
+
+def _max_steps(value) -> int:
+    try:
+        v = int(value)
+    except (TypeError, ValueError):
+        raise InputError(f"max_steps = {value!r} is not an integer") from None
+    if v < 1:
+        raise InputError(f"max_steps = {value!r} must be at least 1")
+    return v
+
+
+def _check_events_start(system, tab, s0, name="state"):
+    """Impact/escape events whose condition already holds at the start are input errors."""
+    mu = system.mu
+    centres = {-1: 0.0, 0: -mu, 1: 1.0 - mu}
+    s0 = np.atleast_2d(s0)
+    for k, row in enumerate(tab):
+        kind = int(row[0])
+        if kind not in (IMPACT, ESCAPE):
+            continue
+        d = np.sqrt((s0[:, 0] - centres[int(row[1])]) ** 2 + s0[:, 1] ** 2 + s0[:, 2] ** 2)
+        bad = d <= row[2] if kind == IMPACT else d >= row[2]
+        if np.any(bad):
+            i = int(np.argmax(bad))
+            where = f" row {i}" if s0.shape[0] > 1 else ""
+            what = "inside the impact radius" if kind == IMPACT else "beyond the escape radius"
+            raise InputError(f"{name}{where} already lies {what} of event {k} "
+                             f"({d[i]:.6g} LU, radius {row[2]:.6g} LU)")
+
+
+def _failure_message(code, t, t0, t_final, nsteps, max_steps):
+    name = STATUS_NAMES[int(code)]
+    if name == "max-steps":
+        return (f"propagation stopped after {max_steps} steps at t = {t:.9g} TU of "
+                f"[{t0:g}, {t_final:g}]; raise max_steps or loosen the tolerances")
+    if name == "stalled":
+        return (f"step size fell below round-off at t = {t:.9g} TU after {nsteps} steps "
+                "(the trajectory is probably colliding with a primary; add an impact event)")
+    return f"the solution became non-finite at t = {t:.9g} TU after {nsteps} steps"
+
+
+# ---- entry points ---------------------------------------------------------------------
+
+def propagate(system, state, t_final, stm=False, rtol=1e-12, atol=1e-12, events=(),
+              t_eval=None, *, t0=0.0, max_step=None, max_steps=DEFAULT_MAX_STEPS,
+              first_step=None) -> Arc:
+    """Propagate one state in the CR3BP of ``system``, optionally with its STM.
+
+    Adaptive Dormand-Prince 8(5,3) with dense output (Hairer, Norsett & Wanner, *Solving
+    Ordinary Differential Equations I*, 2nd ed., 1993, section II.5, code dop853), events
+    located on the interpolant with Brent's method.
+
+    Parameters
+    ----------
+    system : System
+    state : array_like (6,)
+        Initial state, nondimensional, barycentric rotating frame.
+    t_final : float
+        Final time in TU (negative: backward in time). Integration starts at ``t0``.
+    stm : bool
+        Also integrate the variational equations; ``Arc.stm`` is Phi(t_end, t0).
+        The error control then covers all 42 components.
+    rtol, atol : float
+        Relative and absolute tolerances, each in [1e-14, 1e-3].
+    events : sequence of Event
+        From :func:`~cr3bp.integrate.events.plane`, ``impact``, ``escape``.
+    t_eval : array_like, optional
+        Output times (monotone in the direction of integration, within [t0, t_final]),
+        filled from the dense output. Without it the arc holds every accepted step.
+    t0 : float
+        Initial time (the CR3BP is autonomous; it only shifts the time axis).
+    max_step : float, optional
+        Greatest step size in TU.
+    max_steps : int
+        Guard against runaway integrations: more steps raise ConvergenceError.
+    first_step : float, optional
+        Initial step size in TU (default: Hairer's automatic choice).
+
+    Returns
+    -------
+    Arc
+        ``status`` is "time", "event", "impact" or "escape"; ``t_end``/``state_end`` (and
+        ``t_final``/``final_state``) are where the integration stopped.
+
+    Raises
+    ------
+    InputError
+        Bad state, tolerance, time, events or t_eval.
+    ConvergenceError
+        The step limit was hit, the step size fell below round-off (e.g. a collision with a
+        point-mass primary) or the solution became non-finite.
+    """
+    s0 = validate.state(system, state)
+    rtol = validate.tolerance("rtol", rtol)
+    atol = validate.tolerance("atol", atol)
+    t0 = validate.finite_time("t0", t0)
+    tf = validate.finite_time("t_final", t_final)
+    events = tuple(events or ())
+    tab = table(events)
+    if events:
+        _check_events_start(system, tab, s0)
+    direction = 1.0 if tf >= t0 else -1.0
+    if t_eval is None:
+        te = np.empty(0)
+        record = True
+    else:
+        te = _t_eval(t_eval, t0, tf, direction)
+        record = False
+    mstep = _max_step(max_step)
+    nmax = _max_steps(max_steps)
+    h0 = -1.0 if first_step is None else abs(validate.finite_time("first_step", first_step))
+    mode = MODE_STM if stm else MODE_STATE
+    y0 = np.concatenate([s0, _IDENTITY_FLAT]) if stm else s0.copy()
+
+    (code, t_end, y_end, ts, ys, ev_t, ev_y, ev_k, _seen, eval_y, n_eval, nfev, nsteps,
+     _nrej) = dop853.integrate(int(mode), _params(system), y0, float(t0), float(tf), float(rtol),
+                               float(atol), float(h0), float(mstep), int(nmax), tab, -1, te,
+                               bool(record))
+    code = int(code)
+    if code < 0:
+        raise ConvergenceError(_failure_message(code, t_end, t0, tf, nsteps, nmax),
+                               iterations=int(nsteps), last=np.array(y_end[:6]))
+    hits = tuple(EventHit(int(k), events[int(k)].name, float(t), np.array(s))
+                 for t, s, k in zip(ev_t, ev_y, ev_k))
+    if record:
+        t_out, s_out = ts, ys
+    else:
+        t_out, s_out = te[:n_eval].copy(), eval_y[:n_eval]
+    phi = y_end[6:].reshape(6, 6) if stm else None
+    return Arc(system, t_out, s_out, phi, STATUS_NAMES[code], hits, int(nfev), int(nsteps),
+               t_end=float(t_end), state_end=y_end[:6])
+
+
+def _t_eval(t_eval, t0, tf, direction) -> np.ndarray:
+    try:
+        te = np.asarray(t_eval, dtype=np.float64).ravel()
+    except (TypeError, ValueError):
+        raise InputError("t_eval is not an array of times") from None
+    if not np.all(np.isfinite(te)):
+        raise InputError("t_eval has a non-finite entry")
+    lo, hi = min(t0, tf), max(t0, tf)
+    if te.size and (te.min() < lo or te.max() > hi):
+        raise InputError(f"t_eval must lie within [{lo:g}, {hi:g}] TU")
+    if te.size > 1 and np.any(np.diff(te) * direction < 0):
+        raise InputError("t_eval must be sorted in the direction of integration")
+    return np.ascontiguousarray(te)
+
+
+def propagate_batch(system, states, t_final, rtol=1e-12, atol=1e-12, events=(), *, stm=False,
+                    max_events=8, max_step=None, max_steps=DEFAULT_MAX_STEPS,
+                    on_failure="raise", t0=0.0) -> BatchResult:
+    """Propagate many states in parallel (``numba.prange`` inside compiled code).
+
+    Same method as :func:`propagate` (Hairer et al. 1993, section II.5, code dop853), run on
+    every row of ``states`` with no Python loop over trajectories.
+
+    Parameters
+    ----------
+    system : System
+    states : array_like (N, 6)
+    t_final : float or array_like (N,)
+        Final time of every trajectory, or one per trajectory (signs may differ).
+    rtol, atol : float
+    events : sequence of Event
+    stm : bool
+        Also integrate the STMs and return the final ones in ``BatchResult.stm``.
+    max_events : int
+        Events recorded per trajectory (the first ``max_events``; ``events_seen`` counts all).
+    on_failure : {"raise", "mark"}
+        A trajectory that hits the step limit, stalls or goes non-finite raises
+        ConvergenceError ("raise"), or is returned with that status ("mark").
+
+    Returns
+    -------
+    BatchResult
+    """
+    s = validate.states(system, states)
+    n = s.shape[0]
+    rtol = validate.tolerance("rtol", rtol)
+    atol = validate.tolerance("atol", atol)
+    t0 = validate.finite_time("t0", t0)
+    tf = np.asarray(t_final, dtype=np.float64) if not isinstance(t_final, str) else None
+    if tf is None or (tf.ndim == 0 and not np.isfinite(tf)):
+        raise InputError(f"t_final = {t_final!r} is not a finite time")
+    tf = np.full(n, float(tf)) if tf.ndim == 0 else np.ascontiguousarray(tf.ravel())
+    if tf.shape != (n,):
+        raise InputError(f"t_final has {tf.size} entries for {n} states")
+    if not np.all(np.isfinite(tf)):
+        raise InputError("t_final has a non-finite entry")
+    if on_failure not in ("raise", "mark"):
+        raise InputError(f"on_failure = {on_failure!r}; allowed: raise, mark")
+    try:
+        max_events = int(max_events)
+    except (TypeError, ValueError):
+        raise InputError(f"max_events = {max_events!r} is not an integer") from None
+    if max_events < 0:
+        raise InputError(f"max_events = {max_events} must be at least 0")
+    events = tuple(events or ())
+    tab = np.ascontiguousarray(table(events), dtype=np.float64)
+    _check_events_start(system, tab, s, "states")
+    mstep = _max_step(max_step)
+    nmax = _max_steps(max_steps)
+    mode = MODE_STM if stm else MODE_STATE
+    if stm:
+        y0s = np.hstack([s, np.tile(np.eye(6).ravel(), (n, 1))])
+    else:
+        y0s = s.copy()
+    y0s = np.ascontiguousarray(y0s, dtype=np.float64)
+    dim = y0s.shape[1]
+    m = max(max_events, 0)
+    out_y = np.empty((n, dim))
+    out_t = np.empty(n)
+    out_status = np.empty(n, dtype=np.int64)
+    out_nev = np.zeros(n, dtype=np.int64)
+    out_seen = np.zeros(n, dtype=np.int64)
+    ev_t = np.empty((n, max(m, 1)))
+    ev_y = np.empty((n, max(m, 1), 6))
+    ev_k = np.empty((n, max(m, 1)), dtype=np.int64)
+    out_nfev = np.zeros(n, dtype=np.int64)
+    out_nsteps = np.zeros(n, dtype=np.int64)
+    dop853.integrate_batch(int(mode), _params(system), y0s, float(t0), tf, float(rtol), float(atol),
+                           float(mstep), int(nmax), tab, int(m), False, out_y, out_t, out_status,
+                           out_nev, out_seen, ev_t, ev_y, ev_k, out_nfev, out_nsteps)
+    failed = out_status < 0
+    if failed.any() and on_failure == "raise":
+        i = int(np.argmax(failed))
+        raise ConvergenceError(f"trajectory {i} of {n}: " + _failure_message(
+            out_status[i], out_t[i], t0, tf[i], out_nsteps[i], nmax), iterations=int(out_nsteps[i]),
+            last=out_y[i, :6].copy())
+    names = np.array([STATUS_NAMES[c] for c in range(-3, 4)])
+    status = names[out_status + 3]
+    return BatchResult(
+        t_final=out_t, states=np.ascontiguousarray(out_y[:, :6]), status=status,
+        event_t=[ev_t[i, :out_nev[i]].copy() for i in range(n)],
+        event_states=[ev_y[i, :out_nev[i]].copy() for i in range(n)],
+        event_index=[ev_k[i, :out_nev[i]].copy() for i in range(n)],
+        stm=out_y[:, 6:].reshape(n, 6, 6).copy() if stm else None,
+        events_seen=out_seen, nfev=out_nfev, nsteps=out_nsteps)

@@ -80,7 +80,7 @@ def plot_hill_region(region, ax=None, km=False, points=None, title=True):
     ax : matplotlib Axes
     """
     if ax is None:
-        _, ax = new_figure()
+        _, ax = new_figure(size=(9.5, 6.5))
     system = region.system
     view = region.plane
     field = region.field
@@ -99,7 +99,9 @@ def plot_hill_region(region, ax=None, km=False, points=None, title=True):
     handles, labels = ax.get_legend_handles_labels()
     extra = [Patch(color=FORBIDDEN_COLOUR, label="forbidden region (2Ω < C)"),
              Line2D([], [], color=ZVC_COLOUR, lw=1.0, label="zero-velocity curve (2Ω = C)")]
-    ax.legend(handles=extra + handles, loc="best", fontsize=7, framealpha=0.9)
+    # beside the axes, so it never hides the primaries or the necks
+    ax.legend(handles=extra + handles, loc="upper left", bbox_to_anchor=(1.02, 1.0), fontsize=7,
+              framealpha=0.9)
     if title:
         ax.set_title(hill_title(region), fontsize=9, pad=30 if (km and system.dimensional) else 6)
     return ax

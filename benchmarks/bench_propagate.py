@@ -1,0 +1,116 @@
+"""Speed of the compiled propagator against scipy's solve_ivp (DOP853, numpy right-hand side),
+against heyoka at matched final-state accuracy, and the start-up time of ``librate --help``.
+"""
+
+from __future__ import annotations
+
+import statistics
+import subprocess
+import sys
+import time
+
+import numpy as np
+
+from cr3bp import propagate, propagate_batch, system
+from cr3bp.integrate import propagate_scipy
+
+from .seeds import earth_moon_l1_halo
+
+TOL = 1e-12
+BATCH_N = 1000
+BATCH_T = 5.0
+SCIPY_LOOP_SUBSET = 40
+
+
+def _median_time(fn, repeat, min_total=0.2):
+    """Median wall time of ``fn()`` over ``repeat`` calls (more while under ``min_total`` s)."""
+    times = []
+    start = time.perf_counter()
+    while len(times) < repeat or (time.perf_counter() - start < min_total and len(times) < 200):
+        t0 = time.perf_counter()
+        fn()
+        times.append(time.perf_counter() - t0)
+    return statistics.median(times)
+
+
+def _halo_rows(em, s0, period):
+    propagate(em, s0, period, stm=True, rtol=TOL, atol=TOL)            # compile / load cache
+    ours = _median_time(lambda: propagate(em, s0, period, stm=True, rtol=TOL, atol=TOL), 20)
+    ref = _median_time(lambda: propagate_scipy(em, s0, period, stm=True, rtol=TOL, atol=TOL), 3)
+    rows = [("halo period + STM, rtol=atol=1e-12", ours, "scipy solve_ivp DOP853", ref, ">= 50x")]
+    rows.append(_heyoka_row(em, s0, period, ours))
+    return rows
+
+
+def _heyoka_row(em, s0, period, ours_seconds):
+    name = "halo period + STM vs heyoka (matched accuracy)"
+    try:
+        import heyoka as hy
+    except ImportError:
+        return (name, None, "heyoka", None, "heyoka not installed (test extra): row skipped")
+    mu = em.mu
+    x, y, z, vx, vy, vz = hy.make_vars("x", "y", "z", "vx", "vy", "vz")
+    r1_3 = ((x + mu) ** 2 + y**2 + z**2) ** -1.5
+    r2_3 = ((x - 1.0 + mu) ** 2 + y**2 + z**2) ** -1.5
+    dyn = [(x, vx), (y, vy), (z, vz),
+           (vx, 2.0 * vy + x - (1.0 - mu) * (x + mu) * r1_3 - mu * (x - 1.0 + mu) * r2_3),
+           (vy, -2.0 * vx + y - (1.0 - mu) * y * r1_3 - mu * y * r2_3),
+           (vz, -(1.0 - mu) * z * r1_3 - mu * z * r2_3)]
+    # reference final state: heyoka at machine precision (state only)
+    ta = hy.taylor_adaptive(dyn, np.array(s0, float), tol=2.2e-16)
+    ta.propagate_until(period)
+    truth = ta.state.copy()
+    ours_err = np.max(np.abs(propagate(em, s0, period, stm=True, rtol=TOL, atol=TOL).final_state - truth))
+    var = hy.var_ode_sys(dyn, hy.var_args.vars, order=1)
+    y0 = np.concatenate([np.array(s0, float), np.eye(6).ravel()])
+    chosen = None
+    for tol in (1e-9, 1e-10, 1e-11, 1e-12, 1e-13, 1e-14, 1e-15):   # loosest first
+        tv = hy.taylor_adaptive(var, y0, tol=tol)
+
+        def once(tv=tv):
+            tv.time = 0.0
+            tv.state[:] = y0
+            tv.propagate_until(period)
+        once()
+        err = np.max(np.abs(tv.state[:6] - truth))
+        if err <= ours_err:
+            chosen = (tol, err, _median_time(once, 20))
+            break
+    if chosen is None:
+        return (name, ours_seconds, "heyoka (no tolerance reached our accuracy)", None, "-")
+    tol, err, secs = chosen
+    return (f"{name}: ours err {ours_err:.1e} LU, heyoka tol {tol:g} err {err:.1e} LU",
+            ours_seconds, "heyoka taylor_adaptive + variational", secs, ">= 1x")
+
+
+def _batch_row(em, s0):
+    rng = np.random.default_rng(2026)
+    states = np.array(s0) + rng.normal(scale=1e-4, size=(BATCH_N, 6))
+    propagate_batch(em, states[:4], BATCH_T, rtol=TOL, atol=TOL)       # compile / load cache
+    ours = _median_time(lambda: propagate_batch(em, states, BATCH_T, rtol=TOL, atol=TOL), 3)
+    sub = states[:SCIPY_LOOP_SUBSET]
+
+    def loop():
+        for s in sub:
+            propagate_scipy(em, s, BATCH_T, rtol=TOL, atol=TOL)
+    ref = _median_time(loop, 1, min_total=0.0) * (BATCH_N / SCIPY_LOOP_SUBSET)
+    return (f"propagate_batch {BATCH_N} x {BATCH_T:g} TU (state only)", ours,
+            f"scipy loop ({SCIPY_LOOP_SUBSET} timed, scaled x{BATCH_N // SCIPY_LOOP_SUBSET})",
+            ref, ">= 200x")
+
+
+def _help_row():
+    def once():
+        subprocess.run([sys.executable, "-m", "librate_cli.main", "--help"], check=True,
+                       capture_output=True)
+    secs = _median_time(once, 5, min_total=0.0)
+    return ("librate --help (subprocess wall time)", secs, "", None, "< 0.5 s")
+
+
+def run():
+    em = system("earth-moon")
+    s0, period = earth_moon_l1_halo(em)
+    rows = _halo_rows(em, s0, period)
+    rows.append(_batch_row(em, s0))
+    rows.append(_help_row())
+    return rows

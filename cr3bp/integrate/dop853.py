@@ -1,0 +1,564 @@
+"""Compiled Dormand-Prince 8(5,3) integrator with dense output and event location.
+
+The method, its error estimator, its step-size controller, its initial step and its 7th-order
+continuous extension are those of Hairer, Norsett & Wanner, *Solving Ordinary Differential
+Equations I*, 2nd ed., 1993, section II.5 and their code ``dop853`` (subroutines DP86CO and
+HINIT); the coefficients live in the data-only module :mod:`.coefficients`. Event roots are
+located on the dense interpolant with Brent's method (R. P. Brent, *Algorithms for
+Minimization without Derivatives*, 1973, ch. 4, procedure ``zero``).
+
+Every function is ``numba.njit(cache=True)``. The right-hand side is
+:func:`cr3bp.dynamics.rhs` ``(mode, t, s, params, out)``; a new force model is a new
+``mode`` there and nothing changes here. Arguments are always passed with the same types
+(int64 / float64 scalars, C-contiguous float64 arrays, one bool) so that each kernel has
+exactly one compiled specialisation.
+
+Status codes returned by :func:`integrate` (``STATUS_NAMES`` maps them to text):
+
+====  ==========  ============================================================
+code  name        meaning
+====  ==========  ============================================================
+0     time        reached ``t_final``
+1     event       a terminal plane crossing reached its count
+2     impact      an impact event (distance to a primary below a radius)
+3     escape      an escape event (distance above a bound)
+-1    max-steps   the maximum number of steps was taken before ``t_final``
+-2    stalled     the step size fell below the round-off of ``t`` (a singularity)
+-3    non-finite  the solution became non-finite and no smaller step helped
+====  ==========  ============================================================
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from numba import njit, prange
+
+from ..dynamics import rhs
+from .coefficients import A, B, C, D, E3, E5, N_STAGES, N_STAGES_EXTENDED, ERROR_ORDER
+
+# ---- tuning constants (Hairer et al. 1993, code dop853: SAFE, FAC1, FAC2) ---------------
+SAFETY = 0.9             # safety factor on the optimal step
+MIN_FACTOR = 1.0 / 3.0   # least ratio new step / old step (dop853 FAC1 = 0.333)
+MAX_FACTOR = 6.0         # greatest ratio new step / old step (dop853 FAC2 = 6)
+ERROR_EXPONENT = -1.0 / (ERROR_ORDER + 1.0)   # err ~ h^8 for the 8(5,3) estimator
+EPS = 2.220446049250313e-16   # double-precision unit round-off (dop853 UROUND)
+STALL_FACTOR = 10.0      # stop when 0.1 |h| <= |t| * EPS (dop853's "step size too small")
+LAST_STEP_STRETCH = 1.01 # take t_final if it is within 1 % beyond the next step (dop853)
+MAX_BRENT_ITERATIONS = 200
+DEFAULT_MAX_STEPS = 1_000_000
+
+STATUS_TIME, STATUS_EVENT, STATUS_IMPACT, STATUS_ESCAPE = 0, 1, 2, 3
+STATUS_MAX_STEPS, STATUS_STALLED, STATUS_NONFINITE = -1, -2, -3
+STATUS_NAMES = {0: "time", 1: "event", 2: "impact", 3: "escape", -1: "max-steps",
+                -2: "stalled", -3: "non-finite"}
+
+_NS = N_STAGES            # 12 stages of the method
+_NX = N_STAGES_EXTENDED   # 16 stages with the FSAL stage and three for dense output
+_NP = 7                   # interpolant coefficient vectors
+
+
+@njit(cache=True)
+def rk_step(mode, params, t, y, h, K, ytmp, ynew):
+    """One Dormand-Prince 8(5,3) step from (t, y) with step h; K[0] must hold f(t, y).
+
+    Fills K[1..12] (K[12] = f(t + h, ynew), the first stage of the next step) and ``ynew``.
+    Hairer et al. (1993), section II.5, method DOP853.
+    """
+    n = y.shape[0]
+    for s in range(1, _NS):
+        for i in range(n):
+            ytmp[i] = 0.0
+        for j in range(s):
+            a = A[s, j]
+            if a != 0.0:
+                for i in range(n):
+                    ytmp[i] += a * K[j, i]
+        for i in range(n):
+            ytmp[i] = y[i] + h * ytmp[i]
+        rhs(mode, t + C[s] * h, ytmp, params, K[s])
+    for i in range(n):
+        ynew[i] = 0.0
+    for j in range(_NS):
+        b = B[j]
+        if b != 0.0:
+            for i in range(n):
+                ynew[i] += b * K[j, i]
+    for i in range(n):
+        ynew[i] = y[i] + h * ynew[i]
+    rhs(mode, t + h, ynew, params, K[_NS])
+
+
+@njit(cache=True)
+def error_norm(K, h, y, ynew, rtol, atol):
+    """Hairer's combined 5th/3rd-order error estimate of the last step, scaled (accept if <= 1).
+
+    err = |h| e5^2 / sqrt(n (e5^2 + 0.01 e3^2)) with e5, e3 the RMS-free sums of the scaled
+    5th- and 3rd-order estimator components and scale sk = atol + rtol max(|y|, |ynew|)
+    (code dop853, subroutine DP86CO).
+    """
+    n = y.shape[0]
+    err5 = 0.0
+    err3 = 0.0
+    for i in range(n):
+        e5 = 0.0
+        e3 = 0.0
+        for j in range(_NS + 1):
+            e5 += E5[j] * K[j, i]
+            e3 += E3[j] * K[j, i]
+        sk = atol + rtol * max(abs(y[i]), abs(ynew[i]))
+        err5 += (e5 / sk) ** 2
+        err3 += (e3 / sk) ** 2
+    if err5 == 0.0 and err3 == 0.0:
+        return 0.0
+    deno = err5 + 0.01 * err3
+    return abs(h) * err5 / np.sqrt(deno * n)
+
+
+@njit(cache=True)
+def initial_step(mode, params, t, y, f0, direction, rtol, atol, max_step, ytmp, f1):
+    """Starting step size, Hairer et al. (1993), section II.4 and code dop853, HINIT."""
+    n = y.shape[0]
+    dnf = 0.0
+    dny = 0.0
+    for i in range(n):
+        sk = atol + rtol * abs(y[i])
+        dnf += (f0[i] / sk) ** 2
+        dny += (y[i] / sk) ** 2
+    if dnf <= 1e-10 or dny <= 1e-10:
+        h = 1e-6
+    else:
+        h = np.sqrt(dny / dnf) * 0.01
+    h = min(h, max_step)
+    h = direction * h
+    for i in range(n):
+        ytmp[i] = y[i] + h * f0[i]
+    rhs(mode, t + h, ytmp, params, f1)
+    der2 = 0.0
+    for i in range(n):
+        sk = atol + rtol * abs(y[i])
+        der2 += ((f1[i] - f0[i]) / sk) ** 2
+    der2 = np.sqrt(der2) / abs(h)
+    der12 = max(abs(der2), np.sqrt(dnf))
+    if der12 <= 1e-15:
+        h1 = max(1e-6, abs(h) * 1e-3)
+    else:
+        h1 = (0.01 / der12) ** (1.0 / (ERROR_ORDER + 1.0))
+    return direction * min(100.0 * abs(h), h1, max_step)
+
+
+@njit(cache=True)
+def dense_prepare(mode, params, t, y, ynew, h, K, ytmp, F):
+    """Coefficients F (7, n) of the 7th-order continuous extension of the accepted step.
+
+    Evaluates the three extra stages K[13..15] (code dop853, dense output of DP86CO).
+    """
+    n = y.shape[0]
+    for s in range(_NS + 1, _NX):
+        for i in range(n):
+            ytmp[i] = 0.0
+        for j in range(s):
+            a = A[s, j]
+            if a != 0.0:
+                for i in range(n):
+                    ytmp[i] += a * K[j, i]
+        for i in range(n):
+            ytmp[i] = y[i] + h * ytmp[i]
+        rhs(mode, t + C[s] * h, ytmp, params, K[s])
+    for i in range(n):
+        dy = ynew[i] - y[i]
+        F[0, i] = dy
+        F[1, i] = h * K[0, i] - dy
+        F[2, i] = 2.0 * dy - h * (K[_NS, i] + K[0, i])
+    for r in range(4):
+        for i in range(n):
+            acc = 0.0
+            for j in range(_NX):
+                acc += D[r, j] * K[j, i]
+            F[3 + r, i] = h * acc
+
+
+@njit(cache=True)
+def dense_eval(F, y, theta, ncomp, out):
+    """Interpolant at ``t_old + theta h`` for the first ``ncomp`` components into ``out``."""
+    for i in range(ncomp):
+        v = 0.0
+        for k in range(_NP):
+            v += F[_NP - 1 - k, i]
+            if k % 2 == 0:
+                v *= theta
+            else:
+                v *= 1.0 - theta
+        out[i] = v + y[i]
+
+
+@njit(cache=True)
+def event_g(kind, index, value, mu, s):
+    """Event function g(t, s) of one event-table row (see :mod:`.events`)."""
+    if kind == 0:
+        return s[index] - value
+    if index == -1:
+        cx = 0.0
+    elif index == 0:
+        cx = -mu
+    else:
+        cx = 1.0 - mu
+    dx = s[0] - cx
+    return np.sqrt(dx * dx + s[1] * s[1] + s[2] * s[2]) - value
+
+
+@njit(cache=True)
+def _g_at(kind, index, value, mu, F, y, t_old, h, tt, buf):
+    dense_eval(F, y, (tt - t_old) / h, buf.shape[0], buf)
+    return event_g(kind, index, value, mu, buf)
+
+
+@njit(cache=True)
+def locate_root(kind, index, value, mu, F, y, t_old, h, a, b, fa, fb, buf):
+    """Root of g on the interpolant in the bracket [a, b] (fa fb <= 0), Brent's method.
+
+    Brent (1973), ch. 4, procedure ``zero``; tolerance 2 EPS |t| + EPS |h| / 2, i.e. full
+    double precision of the event time.
+    """
+    if fa == 0.0:
+        return a
+    if fb == 0.0:
+        return b
+    xtol = EPS * abs(h)
+    c = a
+    fc = fa
+    d = b - a
+    e = d
+    for _ in range(MAX_BRENT_ITERATIONS):
+        if (fb > 0.0) == (fc > 0.0):
+            c = a
+            fc = fa
+            d = b - a
+            e = d
+        if abs(fc) < abs(fb):
+            a = b
+            b = c
+            c = a
+            fa = fb
+            fb = fc
+            fc = fa
+        tol1 = 2.0 * EPS * abs(b) + 0.5 * xtol
+        xm = 0.5 * (c - b)
+        if abs(xm) <= tol1 or fb == 0.0:
+            return b
+        if abs(e) >= tol1 and abs(fa) > abs(fb):
+            s = fb / fa
+            if a == c:
+                p = 2.0 * xm * s
+                q = 1.0 - s
+            else:
+                q = fa / fc
+                r = fb / fc
+                p = s * (2.0 * xm * q * (q - r) - (b - a) * (r - 1.0))
+                q = (q - 1.0) * (r - 1.0) * (s - 1.0)
+            if p > 0.0:
+                q = -q
+            p = abs(p)
+            if 2.0 * p < min(3.0 * xm * q - abs(tol1 * q), abs(e * q)):
+                e = d
+                d = p / q
+            else:
+                d = xm
+                e = d
+        else:
+            d = xm
+            e = d
+        a = b
+        fa = fb
+        if abs(d) > tol1:
+            b += d
+        elif xm > 0.0:
+            b += tol1
+        else:
+            b -= tol1
+        fb = _g_at(kind, index, value, mu, F, y, t_old, h, b, buf)
+    return b
+
+
+@njit(cache=True)
+def _grow_rows(a):
+    """A copy of the full (m, c) array ``a`` in storage of twice the rows."""
+    out = np.empty((2 * a.shape[0], a.shape[1]))
+    out[:a.shape[0]] = a
+    return out
+
+
+@njit(cache=True)
+def _grow(a):
+    """A copy of the full (m,) array ``a`` in storage of twice the length."""
+    out = np.empty(2 * a.shape[0], dtype=a.dtype)
+    out[:a.shape[0]] = a
+    return out
+
+
+@njit(cache=True)
+def integrate(mode, params, y0, t0, t_final, rtol, atol, first_step, max_step, max_steps,
+              events, max_events, t_eval, record):
+    """Integrate the CR3BP right-hand side ``mode`` from (t0, y0) to ``t_final``.
+
+    Adaptive Dormand-Prince 8(5,3) with Hairer's error estimate and step control, dense
+    output, event location and output at ``t_eval`` (Hairer et al. 1993, section II.5, code
+    dop853). Works forward and backward in time (sign of ``t_final - t0``).
+
+    Parameters
+    ----------
+    mode : int             right-hand side of :func:`cr3bp.dynamics.rhs` (0: 6, 1: 42 states)
+    params : (p,) float    model parameters, params[0] = mu
+    y0 : (n,) float        initial state (n = 6 or 42)
+    t0, t_final : float
+    rtol, atol : float     error tolerances over all n components
+    first_step : float     initial |h|; <= 0 selects it automatically (HINIT)
+    max_step : float       greatest |h| (inf for none)
+    max_steps : int        greatest number of accepted + rejected steps
+    events : (K, 6) float  event table (:func:`cr3bp.integrate.events.table`)
+    max_events : int       events to keep; < 0 keeps all (storage grows)
+    t_eval : (m,) float    output times, monotone in the direction of integration
+    record : bool          keep (t, state[0:6]) of every accepted step
+
+    Returns
+    -------
+    status, t_end, y_end (n,), ts (k,), ys (k, 6), ev_t (e,), ev_y (e, 6), ev_k (e,),
+    n_events_seen, eval_y (j, 6), n_eval, nfev, nsteps, nrejected
+    """
+    n = y0.shape[0]
+    mu = params[0]
+    direction = 1.0 if t_final >= t0 else -1.0
+    nev = events.shape[0]
+    m_eval = t_eval.shape[0]
+
+    K = np.empty((_NX, n))
+    F = np.empty((_NP, n))
+    y = y0.copy()
+    ynew = np.empty(n)
+    ytmp = np.empty(n)
+    yout = np.empty(n)
+    buf = np.empty(6)
+
+    cap = 256 if record else 1
+    ts = np.empty(cap)
+    ys = np.empty((cap, 6))
+    nrec = 0
+    ecap = 16 if max_events < 0 else max(max_events, 1)
+    ev_t = np.empty(ecap)
+    ev_y = np.empty((ecap, 6))
+    ev_k = np.empty(ecap, dtype=np.int64)
+    n_ev = 0
+    n_seen = 0
+    eval_y = np.empty((m_eval, 6))
+    ie = 0
+
+    hits = np.zeros(nev, dtype=np.int64)
+    g_old = np.empty(nev)
+    g_new = np.empty(nev)
+    cand_t = np.empty(nev)
+    cand_k = np.empty(nev, dtype=np.int64)
+    for k in range(nev):
+        g_old[k] = event_g(int(events[k, 0]), int(events[k, 1]), events[k, 2], mu, y)
+
+    t = t0
+    if record:
+        ts[0] = t
+        ys[0, :] = y[:6]
+        nrec = 1
+    while ie < m_eval and t_eval[ie] == t0:
+        eval_y[ie, :] = y[:6]
+        ie += 1
+
+    nfev = 0
+    nsteps = 0
+    nrej = 0
+    status = STATUS_TIME
+    if t_final == t0:
+        return (status, t, y, ts[:nrec], ys[:nrec], ev_t[:0], ev_y[:0], ev_k[:0], 0,
+                eval_y, ie, nfev, nsteps, nrej)
+
+    rhs(mode, t, y, params, K[0])
+    nfev += 1
+    if first_step > 0.0:
+        h = direction * min(first_step, max_step)
+    else:
+        h = initial_step(mode, params, t, y, K[0], direction, rtol, atol, max_step, ytmp, ynew)
+        nfev += 1
+    rejected = False
+
+    while True:
+        if nsteps + nrej >= max_steps:
+            status = STATUS_MAX_STEPS
+            break
+        if 0.1 * abs(h) <= abs(t) * EPS or h == 0.0:
+            status = STATUS_STALLED
+            break
+        if abs(h) > max_step:
+            h = direction * max_step
+        last = False
+        if (t + LAST_STEP_STRETCH * h - t_final) * direction >= 0.0:
+            h = t_final - t
+            last = True
+
+        rk_step(mode, params, t, y, h, K, ytmp, ynew)
+        nfev += _NS
+        err = error_norm(K, h, y, ynew, rtol, atol)
+
+        if not np.isfinite(err):
+            # the trial step left the domain (e.g. through a singularity): shrink hard
+            nrej += 1
+            h *= MIN_FACTOR
+            rejected = True
+            if abs(h) < EPS * max(abs(t), 1.0):
+                status = STATUS_NONFINITE
+                break
+            continue
+        if err > 1.0:
+            nrej += 1
+            h *= max(MIN_FACTOR, SAFETY * err ** ERROR_EXPONENT)
+            rejected = True
+            continue
+
+        # ---- accepted step ----------------------------------------------------------------
+        nsteps += 1
+        t_new = t_final if last else t + h
+        dense_ready = False
+        stop_kind = -1
+        t_stop = t_new
+
+        # events: sign changes of g between t and t_new, located on the interpolant
+        nc = 0
+        for k in range(nev):
+            kind = int(events[k, 0])
+            g_new[k] = event_g(kind, int(events[k, 1]), events[k, 2], mu, ynew)
+            go = g_old[k]
+            gn = g_new[k]
+            up = go < 0.0 and gn >= 0.0
+            down = go > 0.0 and gn <= 0.0
+            dk = events[k, 3]
+            if (up and dk >= 0.0) or (down and dk <= 0.0):
+                if not dense_ready:
+                    dense_prepare(mode, params, t, y, ynew, h, K, ytmp, F)
+                    nfev += 3
+                    dense_ready = True
+                tr = locate_root(kind, int(events[k, 1]), events[k, 2], mu, F, y, t, h,
+                                 t, t_new, go, gn, buf)
+                # insert in time order (integration order)
+                pos = nc
+                while pos > 0 and (cand_t[pos - 1] - tr) * direction > 0.0:
+                    cand_t[pos] = cand_t[pos - 1]
+                    cand_k[pos] = cand_k[pos - 1]
+                    pos -= 1
+                cand_t[pos] = tr
+                cand_k[pos] = k
+                nc += 1
+        for c in range(nc):
+            k = cand_k[c]
+            tr = cand_t[c]
+            hits[k] += 1
+            n_seen += 1
+            if max_events < 0 or n_ev < max_events:
+                if n_ev == ev_t.shape[0]:
+                    ev_t = _grow(ev_t)
+                    ev_k = _grow(ev_k)
+                    ev_y = _grow_rows(ev_y)
+                ev_t[n_ev] = tr
+                ev_k[n_ev] = k
+                dense_eval(F, y, (tr - t) / h, buf.shape[0], buf)
+                ev_y[n_ev, :] = buf
+                n_ev += 1
+            kind = int(events[k, 0])
+            if kind != 0 or (events[k, 4] > 0.0 and hits[k] >= int(events[k, 5])):
+                stop_kind = kind
+                t_stop = tr
+                break
+
+        # output at requested times up to the end of this step (or the terminal event)
+        while ie < m_eval and (t_eval[ie] - t_stop) * direction <= 0.0:
+            te = t_eval[ie]
+            if te == t_new and stop_kind < 0:
+                eval_y[ie, :] = ynew[:6]
+            else:
+                if not dense_ready:
+                    dense_prepare(mode, params, t, y, ynew, h, K, ytmp, F)
+                    nfev += 3
+                    dense_ready = True
+                dense_eval(F, y, (te - t) / h, buf.shape[0], buf)
+                eval_y[ie, :] = buf
+            ie += 1
+
+        if stop_kind >= 0:
+            dense_eval(F, y, (t_stop - t) / h, n, yout)
+            t = t_stop
+            y[:] = yout
+            if record:
+                if nrec == ts.shape[0]:
+                    ts = _grow(ts)
+                    ys = _grow_rows(ys)
+                ts[nrec] = t
+                ys[nrec, :] = y[:6]
+                nrec += 1
+            if stop_kind == 0:
+                status = STATUS_EVENT
+            elif stop_kind == 1:
+                status = STATUS_IMPACT
+            else:
+                status = STATUS_ESCAPE
+            break
+
+        t = t_new
+        y[:] = ynew
+        K[0, :] = K[_NS, :]   # first-same-as-last
+        for k in range(nev):
+            g_old[k] = g_new[k]
+        if record:
+            if nrec == ts.shape[0]:
+                ts = _grow(ts)
+                ys = _grow_rows(ys)
+            ts[nrec] = t
+            ys[nrec, :] = y[:6]
+            nrec += 1
+        if last:
+            status = STATUS_TIME
+            break
+
+        if err == 0.0:
+            fac = MAX_FACTOR
+        else:
+            fac = min(MAX_FACTOR, max(MIN_FACTOR, SAFETY * err ** ERROR_EXPONENT))
+        if rejected:
+            fac = min(fac, 1.0)
+        rejected = False
+        h *= fac
+
+    return (status, t, y, ts[:nrec], ys[:nrec], ev_t[:n_ev], ev_y[:n_ev], ev_k[:n_ev], n_seen,
+            eval_y, ie, nfev, nsteps, nrej)
+
+
+@njit(cache=True, parallel=True)
+def integrate_batch(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_steps, events,
+                    max_events, record, out_y, out_t, out_status, out_nev, out_seen, ev_t, ev_y,
+                    ev_k, out_nfev, out_nsteps):
+    """:func:`integrate` over the rows of ``y0s`` in parallel (``numba.prange``), final
+    states only; the first ``max_events`` events of each trajectory go to ``ev_*[i]``.
+
+    ``record`` must be False (no step history is kept); it is an argument rather than a
+    literal so that the call shares :func:`integrate`'s one compiled specialisation."""
+    no_eval = np.empty(0)
+    for i in prange(y0s.shape[0]):
+        res = integrate(mode, params, y0s[i].copy(), t0, t_finals[i], rtol, atol, -1.0, max_step,
+                        max_steps, events, max_events, no_eval, record)
+        out_status[i] = res[0]
+        out_t[i] = res[1]
+        out_y[i, :] = res[2]
+        te = res[5]
+        ye = res[6]
+        ke = res[7]
+        ne = te.shape[0]
+        out_nev[i] = ne
+        out_seen[i] = res[8]
+        for j in range(ne):
+            ev_t[i, j] = te[j]
+            ev_k[i, j] = ke[j]
+            ev_y[i, j, :] = ye[j]
+        out_nfev[i] = res[11]
+        out_nsteps[i] = res[12]
