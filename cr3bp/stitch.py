@@ -129,18 +129,16 @@ class _Problem:
         if key == self._cache_key:
             return self._cache
         from .dynamics import acceleration
-        from .integrate import propagate
+        from .integrate import propagate_batch
         X = z[:6 * self.K].reshape(self.K, 6)
         tau = self.tau0 * z[6 * self.K:][self.leg_of]
-        ends, stms, rates = [], [], []
-        for k in range(self.K):
-            arc = propagate(self.system, X[k], tau[k], stm=True, rtol=RTOL, atol=ATOL)
-            e = arc.final_state
-            ends.append(e)
-            stms.append(arc.stm)
-            rates.append(acceleration(self.system.mu, e))
+        # every segment with its STM in one compiled batch (no Python loop over segments)
+        batch = propagate_batch(self.system, X, tau, rtol=RTOL, atol=ATOL, stm=True)
+        ends = np.asarray(batch.states)
+        stms = list(np.asarray(batch.stm))
+        rates = np.array([acceleration(self.system.mu, e) for e in ends])
         self.evaluations += 1
-        self._cache_key, self._cache = key, (X, tau, np.array(ends), stms, np.array(rates))
+        self._cache_key, self._cache = key, (X, tau, ends, stms, rates)
         return self._cache
 
     # -- constraints F(z) = 0 and their Jacobian ---------------------------------------

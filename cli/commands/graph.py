@@ -9,6 +9,8 @@ HELP = "transfer graph from a node list: compute and cache the legs, list them, 
 EXAMPLE = "librate graph build --system earth-moon --nodes nodes.toml --workers 2"
 
 PLOT_SUFFIXES = (".png", ".svg")
+#: compiled kernels this command uses (checked for the first-run compile notice)
+KERNELS = (("cr3bp.integrate.dop853", "integrate"),)
 
 
 def add_arguments(p):

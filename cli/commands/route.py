@@ -11,6 +11,8 @@ EXAMPLE = ('librate route --system earth-moon --nodes nodes.toml --from gate --t
            '--max-dv 800m/s --best 5 --pareto --plot corridor.png --out run1')
 
 PLOT_SUFFIXES = (".png", ".svg")
+#: compiled kernels this command uses (checked for the first-run compile notice)
+KERNELS = (("cr3bp.integrate.dop853", "integrate"),)
 
 
 def add_arguments(p):
