@@ -39,6 +39,10 @@ from .targeting import LEG_FORMAT
 SAME_ENERGY = 1e-9
 #: A leg declared ballistic ("maneuvers = none") is kept only under this total Δv, m/s.
 BALLISTIC_DV_MPS = 0.01
+#: Chunks of legs per pool worker (progress is reported as each chunk completes).
+CHUNKS_PER_WORKER = 4
+#: Legs written to the catalogue per transaction.
+CATALOG_BATCH = 64
 
 
 @dataclass(frozen=True)
@@ -274,11 +278,21 @@ def run_tasks(tasks, workers=None, scheduler=None, progress=None) -> list:
     # without a main guard work); spawn elsewhere
     methods = multiprocessing.get_all_start_methods()
     ctx = multiprocessing.get_context("fork" if "fork" in methods else "spawn")
-    with ProcessPoolExecutor(max_workers=min(workers, n), mp_context=ctx) as ex:
-        futs = {ex.submit(compute_leg, t): i for i, t in enumerate(tasks)}
+    # legs take milliseconds with the compiled integrator: send them in chunks (a few per
+    # worker) so that process start-up and pickling do not outweigh the work
+    size = max(1, math.ceil(n / (CHUNKS_PER_WORKER * workers)))
+    chunks = [list(range(a, min(a + size, n))) for a in range(0, n, size)]
+    with ProcessPoolExecutor(max_workers=min(workers, len(chunks)), mp_context=ctx) as ex:
+        futs = {ex.submit(compute_legs, [tasks[i] for i in c]): c for c in chunks}
         for f in done_first(futs):
-            tick(futs[f], f.result())
+            for i, leg in zip(futs[f], f.result()):
+                tick(i, leg)
     return out
+
+
+def compute_legs(tasks: list) -> list:
+    """:func:`compute_leg` over a chunk of tasks (one pool submission)."""
+    return [compute_leg(t) for t in tasks]
 
 
 def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None, progress=None,
@@ -310,11 +324,28 @@ def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None,
         else:
             todo.append(i)
     cached = len(tasks) - len(todo)
-    results = run_tasks([tasks[i] for i in todo], workers, scheduler, progress)
+    pending = []
+
+    def flush():
+        if catalog is not None and pending:
+            catalog.put_legs([(leg["key"], system, leg) for leg in pending])
+        pending.clear()
+
+    def tick(done, total, leg):
+        # legs reach the catalogue in batches as they complete, so an interrupted build
+        # keeps what it computed
+        pending.append(leg)
+        if len(pending) >= CATALOG_BATCH:
+            flush()
+        if progress is not None:
+            progress(done, total, leg)
+
+    try:
+        results = run_tasks([tasks[i] for i in todo], workers, scheduler, tick)
+    finally:
+        flush()
     for i, leg in zip(todo, results):
         legs[i] = leg
-        if catalog is not None:
-            catalog.put_leg(leg["key"], system, leg)
     graph = nx.MultiDiGraph(system=system.name)
     for n in nodelist.nodes:
         s = node_state(system, n)

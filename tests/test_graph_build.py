@@ -197,3 +197,24 @@ def test_leg_over_its_cap_is_kept_out_of_the_graph(em):
     r = build_graph(s, parse_nodes(text, s), workers=1)
     assert r.graph.number_of_edges() == 0
     assert all(leg["status"] == "failed" and "over the cap" in leg["reason"] for leg in r.legs)
+
+
+def test_interrupted_build_keeps_the_legs_it_computed(tmp_path, monkeypatch):
+    s, nl = _small(3)
+    real = graph_build.compute_leg
+    calls = []
+
+    def flaky(task):
+        calls.append(1)
+        if len(calls) == 4:
+            raise KeyboardInterrupt
+        return real(task)
+    monkeypatch.setattr(graph_build, "compute_leg", flaky)
+    with Catalog(tmp_path / "c.sqlite") as cat:
+        with pytest.raises(KeyboardInterrupt):
+            build_graph(s, nl, workers=1, catalog=cat)
+        assert cat.count_legs() == 3
+    monkeypatch.setattr(graph_build, "compute_leg", real)
+    with Catalog(tmp_path / "c.sqlite") as cat:
+        again = build_graph(s, nl, workers=1, catalog=cat)
+    assert again.cached == 3 and again.computed == 3
