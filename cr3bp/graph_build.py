@@ -164,29 +164,75 @@ def _necks_between(a: str, b: str) -> tuple:
     return ()
 
 
-def energy_prune(system, c_from, c_to, r_from, r_to, maneuvers: str) -> str | None:
+#: Realms an orbit about a collinear point touches (it sits in that point's neck).
+NECK_REALMS = {"L1": {"larger", "smaller"}, "L2": {"smaller", "exterior"}, "L3": {"larger", "exterior"}}
+
+
+def realms_of(system, position, point: str = "") -> set:
+    """The realm(s) a node is in: an orbit about L1..L3 touches the two realms its neck joins."""
+    return set(NECK_REALMS[point]) if point in NECK_REALMS else {realm(system, position)}
+
+
+def energy_prune(system, c_from, c_to, r_from, r_to, maneuvers: str, point_from="", point_to="") -> str | None:
     """Why no leg is attempted (None: attempt it). Only ballistic pairs are pruned: different
-    energies, or a closed neck between their realms."""
+    energies, or every way between their realms through a closed neck."""
     if maneuvers != "none":
         return None
     if abs(c_from - c_to) > SAME_ENERGY:
         return f"no maneuver allowed and the Jacobi constants differ ({c_from:.9f} vs {c_to:.9f})"
     from .energy import necks
     opened = necks(system, c_from)
-    for p in _necks_between(realm(system, r_from), realm(system, r_to)):
-        if not opened[p]:
-            return f"no maneuver allowed and the {p} neck is closed at C = {c_from:.9f}"
-    return None
+    ra, rb = realms_of(system, r_from, point_from), realms_of(system, r_to, point_to)
+    if ra & rb:
+        return None
+    closed = set()
+    for a in ra:
+        for b in rb:
+            need = _necks_between(a, b)
+            if all(opened[p] for p in need):
+                return None
+            closed.update(p for p in need if not opened[p])
+    return f"no maneuver allowed and the {'/'.join(sorted(closed))} neck is closed at C = {c_from:.9f}"
 
 
-def plan(system, nodelist, tof_days=None, patches=None):
-    """Tasks (plain dicts, in a fixed order) and the pruned pairs of a node list."""
+def resolve_orbits(system, nodelist, catalog=None, progress=None) -> dict:
+    """Orbit node id -> {"state", "period", "jacobi"} or {"error"}: each orbit request solved
+    once by :func:`cr3bp.orbits.request.solve_request` (read from ``catalog`` when known)."""
+    from .errors import LibrateError
+    from .orbits.request import solve_request
+    out = {}
+    for n in nodelist.nodes:
+        if isinstance(n, OrbitNode) and n.id not in out:
+            try:
+                o = solve_request(system, n.orbit, catalog=catalog)
+                out[n.id] = {"state": np.asarray(o.state, dtype=float), "period": float(o.period),
+                             "jacobi": float(o.jacobi)}
+            except LibrateError as e:
+                out[n.id] = {"error": str(e)}
+            if progress is not None:
+                progress(n, out[n.id])
+    return out
+
+
+def _state_of(system, node, orbits):
+    if isinstance(node, OrbitNode):
+        return orbits.get(node.id, {}).get("state")
+    return node_state(system, node)
+
+
+def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
+    """Tasks (plain dicts, in a fixed order) and the pruned pairs of a node list.
+
+    ``orbits`` is :func:`resolve_orbits`'s result (computed here when not given). A leg to or
+    from an orbit node departs or arrives at the orbit's reference state (its initial state)."""
     from .dynamics import jacobi
     if not system.dimensional:
         raise InputError(f"system '{system.name}' has no dimensional units; the graph reports m/s and days")
     tof_days = nodelist.tof_days if tof_days is None else tof_days
     patches = nodelist.patches if patches is None else patches
-    states = {n.id: node_state(system, n) for n in nodelist.nodes}
+    if orbits is None:
+        orbits = resolve_orbits(system, nodelist)
+    states = {n.id: _state_of(system, n, orbits) for n in nodelist.nodes}
     hints = {}
     for h in nodelist.hints:
         hints[(h.source, h.target)] = h
@@ -203,7 +249,8 @@ def plan(system, nodelist, tof_days=None, patches=None):
         why = None
         for n in (a, b):
             if isinstance(n, OrbitNode):
-                why = f"orbit node '{n.name}' needs the periodic-orbit solver (cr3bp.orbits.request), not on this build"
+                if "error" in orbits.get(n.id, {}):
+                    why = f"orbit node '{n.name}': {orbits[n.id]['error']}"
             elif isinstance(n, BoundaryNode):
                 why = f"{n.kind} node '{n.name}' needs manifold connections (cr3bp.connections), not on this build"
             elif isinstance(n, ParkingNode):
@@ -215,7 +262,7 @@ def plan(system, nodelist, tof_days=None, patches=None):
         maneuvers = h.maneuvers if h else "ends"
         if why is None:
             why = energy_prune(system, float(jacobi(system.mu, sa)), float(jacobi(system.mu, sb)),
-                               sa[:3], sb[:3], maneuvers)
+                               sa[:3], sb[:3], maneuvers, getattr(a, "point", ""), getattr(b, "point", ""))
         if why is not None:
             pruned.append({"from": a.name, "to": b.name, "reason": why})
             continue
@@ -314,7 +361,8 @@ def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None,
     BuildResult
     """
     from .dynamics import jacobi
-    tasks, pruned = plan(system, nodelist, tof_days, patches)
+    orbits = resolve_orbits(system, nodelist, catalog)
+    tasks, pruned = plan(system, nodelist, tof_days, patches, orbits)
     legs: list = [None] * len(tasks)
     todo = []
     for i, t in enumerate(tasks):
@@ -348,10 +396,18 @@ def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None,
         legs[i] = leg
     graph = nx.MultiDiGraph(system=system.name)
     for n in nodelist.nodes:
-        s = node_state(system, n)
+        s = _state_of(system, n, orbits)
         graph.add_node(n.id, name=n.name, kind=n.kind, node=n.to_dict(),
                        jacobi=None if s is None else float(jacobi(system.mu, s)),
-                       x=None if s is None else float(s[0]), y=None if s is None else float(s[1]))
+                       x=None if s is None else float(s[0]), y=None if s is None else float(s[1]),
+                       period_days=orbits[n.id]["period"] * system.time_days
+                       if "period" in orbits.get(n.id, {}) else None)
+        if "period" in orbits.get(n.id, {}):
+            # phasing along the orbit: a self-loop of one period, no Δv (the simple-path search
+            # never takes it; it records how long one waits per revolution)
+            network.add_leg(graph, n.id, n.id, 0.0, orbits[n.id]["period"] * system.time_days, key="stay",
+                            kind="stay", leg={"from": n.id, "to": n.id, "method": "stay", "status": "ok",
+                                              "dv_mps": 0.0, "period_tu": orbits[n.id]["period"]})
     for leg in legs:
         if leg["status"] == "ok":
             network.add_leg(graph, leg["from"], leg["to"], leg["dv_mps"], leg["tof_days"], key=leg["method"],

@@ -278,7 +278,8 @@ def parse_nodes(text: str, system, file: str = "<nodes>") -> NodeList:
         try:
             nodes.append(_node(t, system))
         except InputError as e:
-            key = {"state": "state", "parking": "altitude", "capture": "body", "escape": "body"}.get(t["kind"], "kind")
+            key = {"state": "state", "parking": "altitude", "capture": "body", "escape": "body",
+                   "orbit": "orbit"}.get(t["kind"], "kind")
             problems.append(P(file, line(f"{where}.{key}"), f"{where}.{key}", str(e)))
     hints = []
     for i, t in enumerate(data.get("edge", [])):
@@ -319,8 +320,10 @@ def parse_nodes(text: str, system, file: str = "<nodes>") -> NodeList:
 def _node(t: dict, system):
     kind, name, sname = t["kind"], t["name"], system.name
     if kind == "orbit":
-        if not t["orbit"].strip():
-            raise InputError("the orbit text is empty; e.g. 'halo L2 south period=6.5626d'")
+        from .orbits.request import parse_request
+        spec = parse_request(t["orbit"])          # InputError names the bad word
+        if not spec.key:
+            raise InputError(f"orbit '{shown(t['orbit'])}' has no target; add e.g. period=, jacobi=, az=")
         return OrbitNode(name, sname, t["orbit"])
     if kind == "state":
         from . import validate
@@ -383,7 +386,7 @@ def node_state(system, node) -> np.ndarray | None:
     """The rotating-frame state at which legs leave or reach ``node``, when known without
     computing an orbit: a state node's state, or the point of a parking orbit on the
     primaries' line on the side away from the other primary (phase 0), moving prograde.
-    Orbit nodes need :mod:`cr3bp.orbits` (None here)."""
+    Orbit nodes are solved by :func:`cr3bp.graph_build.resolve_orbits` (None here)."""
     if isinstance(node, StateNode):
         return np.array(node.state, dtype=float)
     if isinstance(node, ParkingNode):

@@ -100,7 +100,7 @@ def test_pruning_names_the_reason(em):
     nl = parse_nodes(GOOD, em)
     tasks, pruned = plan(em, nl)
     reasons = {(p["from"], p["to"]): p["reason"] for p in pruned}
-    assert "periodic-orbit solver" in reasons[("gate", "relay")]
+    assert "Jacobi constants differ" in reasons[("gate", "relay")]        # ballistic, other energy
     assert "primary-to-orbit legs" in reasons[("leo", "gate")] and len(pruned) == 6
     assert tasks == []
 
@@ -218,3 +218,52 @@ def test_interrupted_build_keeps_the_legs_it_computed(tmp_path, monkeypatch):
     with Catalog(tmp_path / "c.sqlite") as cat:
         again = build_graph(s, nl, workers=1, catalog=cat)
     assert again.cached == 3 and again.computed == 3
+
+
+ORBITS = '''system = "earth-moon"
+[settings]
+tof = "5d"
+patches = 2
+[[node]]
+name = "west"
+kind = "orbit"
+orbit = "lyapunov L1 jacobi=3.15"
+[[node]]
+name = "east"
+kind = "orbit"
+orbit = "lyapunov L2 jacobi=3.15"
+[[edge]]
+from = "west"
+to = "east"
+maneuvers = "none"
+'''
+
+
+def test_orbit_nodes_are_solved_with_stay_edges_and_targeted_legs(em):
+    """Planar Lyapunov orbits about L1 and L2 at C = 3.15 (cr3bp.orbits): their Jacobi constant
+    is the node's energy; each gets a one-period "stay" self-loop; the L1 -> L2 pair at one
+    energy is not pruned (both orbits touch the Moon's realm) and its leg departs from the
+    orbit's reference state."""
+    nl = parse_nodes(ORBITS.split("[[edge]]")[0], em)
+    r = build_graph(em, nl, workers=1)
+    g = r.graph
+    west, east = (n.id for n in nl.nodes)
+    assert g.nodes[west]["jacobi"] == pytest.approx(3.15, abs=1e-9)
+    assert g.nodes[east]["jacobi"] == pytest.approx(3.15, abs=1e-9)
+    stays = [(u, d) for u, v, k, d in g.edges(keys=True, data=True) if k == "stay"]
+    assert sorted(u for u, _ in stays) == sorted([west, east])
+    assert all(d["dv_mps"] == 0.0 and d["tof_days"] == pytest.approx(g.nodes[u]["period_days"]) for u, d in stays)
+    assert not r.pruned and len(r.legs) == 2
+    leg = r.legs[0]
+    assert leg["from"] == west
+    if leg["status"] == "ok":
+        assert leg["departure_state"][0] == pytest.approx(g.nodes[west]["x"])
+    tasks, pruned = plan(em, parse_nodes(ORBITS, em))
+    assert not pruned and [t["settings"]["maneuvers"] for t in tasks] == ["none", "none"]
+
+
+def test_bad_orbit_text_names_file_line_key(em):
+    bad = ORBITS.replace("lyapunov L2 jacobi=3.15", "lyapunov L7 jacobi=3.15")
+    with pytest.raises(ScenarioError) as e:
+        parse_nodes(bad, em, "n.toml")
+    assert str(e.value).startswith("n.toml:12: node[1].orbit:"), str(e.value)
