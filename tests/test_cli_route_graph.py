@@ -145,3 +145,25 @@ def test_graph_build_on_a_dask_scheduler(capsys, nodes_file):
     rc, out, err = run(capsys, "graph", "build", "--system", "earth-moon", "--nodes", p, "--no-catalog",
                        "--scheduler", "tcp://127.0.0.1:8786", "--workers", "2")
     assert rc == 2 and "not both" in err
+
+
+def test_route_oem_with_an_epoch(capsys, nodes_file):
+    """--epoch writes route.oem: one OEM segment per maneuver-free arc, read back by the
+    independent `oem` package (a reader of the CCSDS standard)."""
+    oem = pytest.importorskip("oem")
+    d, p = nodes_file
+    out_dir = d / "run_oem"
+    rc, out, err = run(capsys, "route", "--system", "earth-moon", "--nodes", p, "--catalog", d / "cat.sqlite",
+                       "--from", "p0", "--to", "p3", "--out", out_dir, "--epoch", "2025-03-01T00:00:00Z",
+                       "--format", "json", "-q")
+    assert rc == 0, err
+    body = json.loads(out)
+    n_man = len(body["stitched"]["maneuvers"])
+    msg = oem.OrbitEphemerisMessage.open(str(out_dir / "route.oem"))
+    segments = list(msg)
+    assert len(segments) == n_man - 1                    # interior maneuvers split the arcs
+    t_total = sum((s.useable_stop_time - s.useable_start_time).sec for s in segments)
+    assert t_total / 86400.0 == pytest.approx(body["stitched"]["tof_days"], abs=1e-6)
+    rc, out, err = run(capsys, "route", "--system", "earth-moon", "--nodes", p, "--no-catalog",
+                       "--from", "p0", "--to", "p3", "--epoch", "2025-03-01T00:00:00Z")
+    assert rc == 2 and "--out" in err

@@ -37,6 +37,10 @@ def add_arguments(p):
                    "front and the graph go beside it as FILE-pareto and FILE-graph")
     q.add_argument("--out", metavar="DIR", help="folder for the stitched route: route.json, trajectory.csv, "
                    "maneuvers.csv")
+    q.add_argument("--epoch", metavar="ISO", help="with --out: also write route.oem (CCSDS OEM), the rotating "
+                   "frame's time 0 at this epoch, e.g. 2031-03-01T00:00:00Z")
+    q.add_argument("--frame", choices=("j2000-equator", "j2000-ecliptic", "rotating"), default="j2000-equator",
+                   help="axes of route.oem (default j2000-equator, centred on the larger primary)")
     q.add_argument("--format", choices=("table", "json"), default="table", help="screen output (default table)")
     common.add_verbosity(q)
 
@@ -101,6 +105,12 @@ def run(args):
         raise InputError(f"--out {args.out!r} exists and is not a folder")
     if args.no_stitch and (args.out or args.plot):
         raise InputError("--out and --plot show the stitched route; leave out --no-stitch")
+    if args.epoch is not None and not args.out:
+        raise InputError("--epoch sets the time of route.oem; give --out DIR too")
+    frame_spec = None
+    if args.epoch is not None:
+        from cr3bp.frames import frame
+        frame_spec = frame(system, args.epoch, axes=args.frame)       # checked before any work
     k = _best(args.best)
     from cr3bp.nodes import load_nodes
     nodes = load_nodes(args.nodes, system).nodes       # checked before any leg is computed
@@ -124,6 +134,14 @@ def run(args):
     files = []
     if args.out and stitched is not None:
         files += _export(args, system, routes, front, stitched, name)
+        if frame_spec is not None:
+            from pathlib import Path as _P
+
+            from cr3bp.export import write_oem
+            from cr3bp.stitch import to_export
+            oem = str(_P(args.out) / "route.oem")
+            write_oem(oem, to_export(stitched, frame_spec))
+            files.append(oem)
     if args.plot and stitched is not None:
         files += _plots(args, system, g, routes, front, stitched)
     payload = {"system": system.name, "from": src.name, "to": dst.name, "objective": args.objective,
