@@ -41,6 +41,8 @@ SAME_ENERGY = 1e-9
 BALLISTIC_DV_MPS = 0.01
 #: Chunks of legs per pool worker (progress is reported as each chunk completes).
 CHUNKS_PER_WORKER = 4
+#: Trajectories per manifold tube of a connection leg.
+TUBE_POINTS = 80
 #: Legs written to the catalogue per transaction.
 CATALOG_BATCH = 64
 
@@ -118,8 +120,11 @@ def compute_leg(task: dict) -> dict:
     base = {"from": task["from"]["id"], "to": task["to"]["id"], "from_name": task["from"]["name"],
             "to_name": task["to"]["name"], "key": task["key"], "method": task["method"]}
     try:
-        leg = targeted_leg(system, task["from"]["state_used"], task["to"]["state_used"], st["tof_tu"],
-                           st["patches"])
+        if task["method"] == "manifold":
+            leg = _manifold_leg(system, task)
+        else:
+            leg = targeted_leg(system, task["from"]["state_used"], task["to"]["state_used"], st["tof_tu"],
+                               st["patches"])
     except LibrateError as e:
         return dict(base, status="failed", reason=str(e), dv_mps=None, tof_days=None)
     leg.update(base)
@@ -206,12 +211,45 @@ def resolve_orbits(system, nodelist, catalog=None, progress=None) -> dict:
             try:
                 o = solve_request(system, n.orbit, catalog=catalog)
                 out[n.id] = {"state": np.asarray(o.state, dtype=float), "period": float(o.period),
-                             "jacobi": float(o.jacobi)}
+                             "jacobi": float(o.jacobi), "monodromy": np.asarray(o.monodromy).tolist(),
+                             "family": o.family, "point": o.point, "branch": o.branch}
             except LibrateError as e:
                 out[n.id] = {"error": str(e)}
             if progress is not None:
                 progress(n, out[n.id])
     return out
+
+
+def _orbit_plain(o: dict) -> dict:
+    return {k: (v.tolist() if isinstance(v, np.ndarray) else v) for k, v in o.items()}
+
+
+def _orbit_from_plain(system, d: dict):
+    from .orbits import PeriodicOrbit
+    return PeriodicOrbit(system, np.array(d["state"]), float(d["period"]), np.array(d["monodromy"]),
+                         d.get("family", ""), d.get("point", ""), d.get("branch", ""), float(d["jacobi"]))
+
+
+def _manifold_leg(system, task) -> dict:
+    """The cheapest connection between two orbit nodes over the hinted sections
+    (:func:`cr3bp.connections.connect`), as a plain leg dict."""
+    from .connections import connect
+    from .stitch import leg_from_connection
+    st = task["settings"]
+    a = _orbit_from_plain(system, task["from"]["orbit_data"])
+    b = _orbit_from_plain(system, task["to"]["orbit_data"])
+    found, reasons = [], []
+    for sec in st["sections"]:
+        try:
+            legs, _, _ = connect(a, b, sec, n_points=st["tube_points"])
+            found += legs
+        except LibrateError as e:
+            reasons.append(f"{sec}: {e}")
+    if not found:
+        from .errors import NoSolutionError
+        raise NoSolutionError("no manifold connection: " + ("; ".join(reasons) or "the cuts do not meet"))
+    best = min(found, key=lambda lg: (lg.dv_mps, lg.tof))
+    return leg_from_connection(system, best, st["patches"])
 
 
 def _state_of(system, node, orbits):
@@ -269,8 +307,17 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
         tof = h.tof_days if (h and h.tof_days is not None) else tof_days
         settings = {"tof_tu": float(tof / system.time_days), "patches": int(patches), "maneuvers": maneuvers,
                     "max_patch_dv_mps": h.max_patch_dv_mps if h else None}
-        task = {"system": system_spec(system), "method": "targeted", "settings": settings,
+        method = "targeted"
+        if h and h.sections and isinstance(a, OrbitNode) and isinstance(b, OrbitNode):
+            # manifold connection on the hinted section(s): unstable tube of a, stable of b
+            method = "manifold"
+            settings = {"patches": int(patches), "maneuvers": maneuvers, "sections": list(h.sections),
+                        "max_patch_dv_mps": h.max_patch_dv_mps, "tube_points": TUBE_POINTS}
+        task = {"system": system_spec(system), "method": method, "settings": settings,
                 "from": dict(a.to_dict(), state_used=sa.tolist()), "to": dict(b.to_dict(), state_used=sb.tolist())}
+        if method == "manifold":
+            task["from"]["orbit_data"] = _orbit_plain(orbits[a.id])
+            task["to"]["orbit_data"] = _orbit_plain(orbits[b.id])
         task["key"] = leg_key(task)
         tasks.append(task)
     return tasks, pruned
