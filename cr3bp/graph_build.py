@@ -43,6 +43,8 @@ BALLISTIC_DV_MPS = 0.01
 CHUNKS_PER_WORKER = 4
 #: Trajectories per manifold tube of a connection leg.
 TUBE_POINTS = 80
+#: Manifold trajectories searched for a periapsis at the parking altitude.
+PARKING_POINTS = 40
 #: Legs written to the catalogue per transaction.
 CATALOG_BATCH = 64
 
@@ -122,6 +124,8 @@ def compute_leg(task: dict) -> dict:
     try:
         if task["method"] == "manifold":
             leg = _manifold_leg(system, task)
+        elif task["method"] == "parking":
+            leg = _parking_leg(system, task)
         else:
             leg = targeted_leg(system, task["from"]["state_used"], task["to"]["state_used"], st["tof_tu"],
                                st["patches"])
@@ -252,6 +256,32 @@ def _manifold_leg(system, task) -> dict:
     return leg_from_connection(system, best, st["patches"])
 
 
+def _parking_leg(system, task) -> dict:
+    """The cheapest leg between a parking orbit and an orbit node through the orbit's manifold
+    and its first periapsis at the parking altitude (:func:`cr3bp.connections.parking_legs`:
+    stable manifold to arrive at the orbit, unstable to leave it; interior branch, then
+    exterior), as a plain leg dict."""
+    from .connections import parking_legs
+    from .stitch import leg_from_connection
+    st = task["settings"]
+    arrive = st["arrive"]                     # parking -> orbit
+    orbit = _orbit_from_plain(system, task["to" if arrive else "from"]["orbit_data"])
+    found, reasons = [], []
+    for branch in ("interior", "exterior"):
+        try:
+            found += parking_legs(orbit, st["body"], st["altitude_km"], stability="stable" if arrive else "unstable",
+                                  branch=branch, n_points=st["tube_points"])
+        except LibrateError as e:
+            reasons.append(str(e))
+        if found:
+            break
+    if not found:
+        from .errors import NoSolutionError
+        raise NoSolutionError("; ".join(reasons))
+    best = min(found, key=lambda lg: (lg.dv_mps, lg.tof))
+    return leg_from_connection(system, best, st["patches"])
+
+
 def _state_of(system, node, orbits):
     if isinstance(node, OrbitNode):
         return orbits.get(node.id, {}).get("state")
@@ -292,10 +322,12 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
             elif isinstance(n, BoundaryNode):
                 why = f"{n.kind} node '{n.name}' needs manifold connections (cr3bp.connections), not on this build"
             elif isinstance(n, ParkingNode):
-                # a departure from a parking orbit has a free phase: a primary-to-orbit leg of
-                # the connections library, not a two-point targeting from one fixed point
-                why = (f"parking node '{n.name}' needs primary-to-orbit legs (cr3bp.connections), "
-                       "not on this build")
+                # a leg from or to a parking orbit has a free phase: the primary-to-orbit legs of
+                # cr3bp.connections, between a parking orbit and a periodic orbit only
+                other = b if n is a else a
+                if not isinstance(other, OrbitNode):
+                    why = (f"parking node '{n.name}' joins periodic orbits only (manifold legs through "
+                           f"periapsis), not the {other.kind} node '{other.name}'")
         sa, sb = states[a.id], states[b.id]
         maneuvers = h.maneuvers if h else "ends"
         if why is None:
@@ -308,16 +340,22 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
         settings = {"tof_tu": float(tof / system.time_days), "patches": int(patches), "maneuvers": maneuvers,
                     "max_patch_dv_mps": h.max_patch_dv_mps if h else None}
         method = "targeted"
-        if h and h.sections and isinstance(a, OrbitNode) and isinstance(b, OrbitNode):
+        if isinstance(a, ParkingNode) or isinstance(b, ParkingNode):
+            method = "parking"
+            park, orb = (a, b) if isinstance(a, ParkingNode) else (b, a)
+            settings = {"patches": int(patches), "maneuvers": maneuvers, "body": park.body,
+                        "altitude_km": park.altitude_km, "arrive": park is a,
+                        "max_patch_dv_mps": h.max_patch_dv_mps if h else None, "tube_points": PARKING_POINTS}
+        elif h and h.sections and isinstance(a, OrbitNode) and isinstance(b, OrbitNode):
             # manifold connection on the hinted section(s): unstable tube of a, stable of b
             method = "manifold"
             settings = {"patches": int(patches), "maneuvers": maneuvers, "sections": list(h.sections),
                         "max_patch_dv_mps": h.max_patch_dv_mps, "tube_points": TUBE_POINTS}
         task = {"system": system_spec(system), "method": method, "settings": settings,
                 "from": dict(a.to_dict(), state_used=sa.tolist()), "to": dict(b.to_dict(), state_used=sb.tolist())}
-        if method == "manifold":
-            task["from"]["orbit_data"] = _orbit_plain(orbits[a.id])
-            task["to"]["orbit_data"] = _orbit_plain(orbits[b.id])
+        for end, n in (("from", a), ("to", b)):
+            if method in ("manifold", "parking") and isinstance(n, OrbitNode):
+                task[end]["orbit_data"] = _orbit_plain(orbits[n.id])
         task["key"] = leg_key(task)
         tasks.append(task)
     return tasks, pruned
@@ -368,10 +406,10 @@ def run_tasks(tasks, workers=None, scheduler=None, progress=None) -> list:
         return out
     import multiprocessing
     from concurrent.futures import ProcessPoolExecutor, as_completed as done_first
-    # fork where the platform has it: no re-import of the caller's main module (scripts
-    # without a main guard work); spawn elsewhere
-    methods = multiprocessing.get_all_start_methods()
-    ctx = multiprocessing.get_context("fork" if "fork" in methods else "spawn")
+    # spawn, not fork: a forked child of a process whose compiled kernels have started their
+    # thread pool (propagate_batch runs prange) may crash; a script that builds a graph with a
+    # pool therefore needs the usual `if __name__ == "__main__":` guard
+    ctx = multiprocessing.get_context("spawn")
     # legs take milliseconds with the compiled integrator: send them in chunks (a few per
     # worker) so that process start-up and pickling do not outweigh the work
     size = max(1, math.ceil(n / (CHUNKS_PER_WORKER * workers)))

@@ -30,7 +30,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .errors import ConvergenceError, InputError
+from .errors import ConvergenceError, InputError, NoSolutionError
 
 NEWTON_ITERATIONS = 25
 POSITION_TOL = 1e-11      # LU, ~4 mm in Earth-Moon
@@ -92,6 +92,10 @@ class StitchedRoute:
                 "method": "multiple shooting, minimum-norm Newton then SLSQP on total delta-v"}
 
 
+class PhasingError(NoSolutionError):
+    """Two legs of a route meet a node at different places (different phases of an orbit)."""
+
+
 class _Problem:
     """The multiple-shooting problem of a chain of legs (see the module docstring)."""
 
@@ -120,7 +124,7 @@ class _Problem:
                 gap = float(np.linalg.norm(np.array(leg["arrival_state"][:3]) -
                                            np.array(legs[i + 1]["departure_state"][:3])))
                 if gap > JUNCTION_GAP:
-                    raise InputError(f"legs {i + 1} and {i + 2} meet {gap:.3g} LU apart at "
+                    raise PhasingError(f"legs {i + 1} and {i + 2} meet {gap:.3g} LU apart at "
                                      f"'{leg.get('to_name', '')}' (different phases of the orbit); "
                                      "stitching with phasing along an orbit is not available yet")
                 self.junction[len(self.tau0) - 1] = (
@@ -432,9 +436,17 @@ def leg_from_connection(system, leg, patches=4) -> dict:
     mans = [{"t": float(m.t), "position": list(map(float, m.position)), "dv_vector": list(map(float, m.dv)),
              "dv_mps": float(m.dv_mps), "where": "patch" if 0.0 < m.t < leg.tof else
              ("departure" if m.t == 0.0 else "arrival")} for m in leg.maneuvers]
-    return {"format": 1, "method": "manifold", "how": leg.method, "kind": leg.kind,
+    start = np.array(states[0])
+    finish = np.array(end)
+    for m in leg.maneuvers:          # the nodes' states: before a first burn, after a last one
+        if m.t == 0.0:
+            start[3:] -= np.asarray(m.dv)
+        elif m.t >= leg.tof:
+            finish[3:] += np.asarray(m.dv)
+    return {"format": 1, "method": "parking" if leg.kind in ("arrival", "departure") else "manifold",
+            "how": leg.method, "kind": leg.kind,
             "dv_mps": float(leg.dv_mps), "tof_days": float(system.days(leg.tof)), "tof_tu": float(leg.tof),
-            "maneuvers": mans, "departure_state": list(states[0]), "arrival_state": end.tolist(),
+            "maneuvers": mans, "departure_state": start.tolist(), "arrival_state": finish.tolist(),
             "patch_times": times, "patch_states": states, "final_state": end.tolist(),
             "min_altitude_km": float(leg.min_altitude_km), "details": _plain_details(leg.details)}
 
