@@ -3,9 +3,11 @@ rebuilding it from the catalogue, and route queries on it.
 
 The graph: planar Lyapunov orbits about L1 and L2, northern L1 and southern L2 halos, each at
 five Jacobi constants (3.04 ... 3.12), solved with the orbit requests (20 orbit nodes), plus
-two parking orbits (200 km about the Earth, 100 km about the Moon). The manifold connections
-are not on this branch yet, so legs are two-impulse targeted arcs between the orbits'
-reference states (380 ordered pairs, 4-day flights); the parking pairs are listed as pruned.
+two parking orbits (200 km about the Earth, 100 km about the Moon). Legs: manifold
+connections on x = 1 - mu from each L1 orbit to the L2 orbit of its family at the same
+energy (the heteroclinic corridors), parking legs through the manifolds' first periapsis
+between each parking orbit and each orbit (both ways), and two-impulse targeted arcs (4-day
+flights between the orbits' reference states) for every other ordered pair.
 """
 
 import tempfile
@@ -25,6 +27,12 @@ def _nodes_text(em=None):
         for c in ENERGIES:
             lines += ["[[node]]", f'name = "{fam.replace(" ", "-")}-{c:.2f}"', 'kind = "orbit"',
                       f'orbit = "{fam} jacobi={c}"']
+    for l1, l2 in (("lyapunov L1", "lyapunov L2"), ("halo L1 north", "halo L2 south")):
+        for c in ENERGIES:
+            lines += ["[[edge]]", f'from = "{l1.replace(" ", "-")}-{c:.2f}"', f'to = "{l2.replace(" ", "-")}-{c:.2f}"',
+                      'sections = ["x=1-mu"]', "both_ways = false"]
+            if l1.startswith("lyapunov"):
+                lines.append('maneuvers = "none"')       # planar: heteroclinic, no Δv
     return "\n".join(lines) + "\n"
 
 
