@@ -95,7 +95,9 @@ def design_transfers(plan, orbits, out, *, catalog=None, workers=None, scheduler
             raise NoSolutionError(f"transfer '{name}': {msg}" + (f" (not attempted: {'; '.join(why)})" if why else "")) from None
         front = pareto_routes(built.graph, src.id, dst.id, c)
         _say(progress, f"transfer '{name}': stitching the best route by multiple shooting")
-        st = stitch_route(system, ranked[0], c)
+        periods = {u: d["leg"]["period_tu"] for u, v, k, d in built.graph.edges(keys=True, data=True)
+                   if u == v and k == "stay" and "period_tu" in d.get("leg", {})}
+        st = stitch_route(system, ranked[0], c, periods=periods)
         stitched[name] = st
 
         def rd(r):
@@ -152,7 +154,9 @@ def transfer_trajectory(plan, st, spec, ts, step_s, ex, model):
     base = to_export(st, spec, ex["object"].upper())
     span = float(st.times_tu[-1] - st.times_tu[0])
     grid = export.epoch_grid(spec, ts, span, step_s)
-    segs, _ = export.sample_legs(plan.system, base.segments, grid, join_tol=1e-8)
+    from types import SimpleNamespace
+    pieces = [SimpleNamespace(t=seg.t_tu, states=seg.states) for seg in base.segments]
+    segs, _ = export.sample_legs(plan.system, pieces, grid, join_tol=1e-8)
     m = dict(model)
     m.update(base.model)
     return dataclasses.replace(base, segments=segs, time_system=ts, model=m)

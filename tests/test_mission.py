@@ -171,3 +171,29 @@ def test_killed_run_resumes_without_duplicate_or_lost_rows(tmp_path):
     assert set(before) <= set(after)                           # nothing lost
     assert (tmp_path / "out" / "manifest.json").exists()
     assert interrupted or before, "the first run neither was interrupted nor catalogued anything"
+
+
+def test_demo_scenario_end_to_end(tmp_path):
+    """The demo mission (examples/farlight.toml) at reduced sample sizes: orbits, checks, a
+    multi-leg route stitched with a phasing coast, OEM and CSV exports, report, manifest."""
+    from oem import OrbitEphemerisMessage
+
+    from cr3bp import mission
+    from cr3bp.catalog import Catalog
+    plan = mission.prepare(Path(__file__).parent.parent / "examples" / "farlight.toml")
+    res = mission.run(plan, tmp_path / "out", catalog=Catalog(tmp_path / "c.sqlite"), reduced=True)
+    out = tmp_path / "out"
+    route = json.loads((out / "route-llo-to-relay.json").read_text())
+    assert route["best"]["nodes"] == ["parking moon 100km", "staging", "relay"]
+    st = route["stitched"]
+    assert st["dv_total_mps"] <= st["legs_dv_total_mps"] + 1e-6          # stitching never costs more
+    assert st["continuity_lu"] < 1e-9
+    assert all(c["holds"] for c in st["constraints"].values())
+    assert all(c.passed for cs in res.checks.values() for c in cs)
+    msg = OrbitEphemerisMessage.open(str(out / "relay.oem"))
+    assert sum(len(list(seg)) for seg in msg) > 100
+    manifest = json.loads((out / "manifest.json").read_text())
+    for o in manifest["outputs"]:
+        assert hashlib.sha256((out / o["file"]).read_bytes()).hexdigest() == o["sha256"]
+    probe = render(out / "report.html", tmp_path)
+    assert probe["broken"] == "0" and probe["caution"] == "true"
