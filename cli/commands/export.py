@@ -1,0 +1,257 @@
+"""librate export: a CR3BP trajectory as a dated hand-off file (CCSDS OEM, CSV or JSON)."""
+
+from .. import common
+
+NAME = "export"
+ORDER = 80
+KERNELS = (("cr3bp.integrate.dop853", "integrate"),)   # sampling propagates
+HELP = "write a trajectory as CCSDS OEM, CSV or JSON at an epoch, in an inertial frame, km and km/s"
+EXAMPLE = ("librate export --system earth-moon --state 1.1805031,0,-0.02,0,-0.1581343,0 --period 14.8177d "
+           "--epoch 2031-03-01T00:00:00Z --span 3periods --step 10min --center moon --out relay.oem")
+
+FRAMES = ("j2000-equator", "j2000-ecliptic", "rotating")
+TIME_SYSTEMS = ("tdb", "tt", "tai", "utc")
+ANCHORS = ("ephemeris", "circular")
+
+
+def add_frame_options(p, defaults=True):
+    """--frame, --center, --time-system, --anchor, --orientation (shared with convert)."""
+    g = p.add_argument_group("frame and time")
+    g.add_argument("--frame", choices=FRAMES, default="j2000-equator" if defaults else None,
+                   help="axes of the output: J2000 mean equator (EME2000), J2000 ecliptic, or the "
+                        "CR3BP rotating axes in km" + (" (default j2000-equator)" if defaults else ""))
+    g.add_argument("--center", metavar="BODY", default=None,
+                   help="origin: the larger primary (default), the smaller one, or barycenter; "
+                        "by name, e.g. earth, moon, barycenter")
+    g.add_argument("--time-system", choices=TIME_SYSTEMS, type=str.lower, default="tdb" if defaults else None,
+                   help="time system of the epochs written" + (" (default tdb)" if defaults else ""))
+    g.add_argument("--anchor", choices=ANCHORS, default="ephemeris" if defaults else None,
+                   help="ephemeris: axes from the secondary's ephemeris state at each epoch, lengths "
+                        "scaled by its distance; circular: the idealised uniformly rotating frame"
+                        + (" (default ephemeris)" if defaults else ""))
+    g.add_argument("--orientation", metavar="INC,NODE,ARGLAT",
+                   help="circular anchoring: inclination, node and argument of latitude (degrees) of the "
+                        "secondary's orbit at the epoch, relative to --orientation-plane; default: the "
+                        "osculating values of the ephemeris at the epoch")
+    g.add_argument("--orientation-plane", choices=("j2000-ecliptic", "j2000-equator"),
+                   default="j2000-ecliptic", help="reference plane of --orientation (default j2000-ecliptic)")
+
+
+def add_arguments(p):
+    common.add_system_options(p)
+    src = p.add_argument_group("what to export (one of)")
+    src.add_argument("--state", metavar="X,Y,Z,VX,VY,VZ",
+                     help="initial rotating-frame state, nondimensional (or km and km/s with --km)")
+    src.add_argument("--km", action="store_true", help="--state is in km and km/s (barycentric rotating frame)")
+    src.add_argument("--period", metavar="TIME", help="period of the --state orbit (e.g. 13.1d, 3.41TU), "
+                                                       "so that --span can count periods")
+    src.add_argument("--orbit", metavar="SPEC", help='a periodic orbit request, e.g. "halo L2 south period=6.5626d"')
+    src.add_argument("--from", dest="from_file", metavar="FILE",
+                     help="a CSV or JSON of rotating-frame states (librate propagate --out, or a file "
+                          "this command wrote)")
+    t = p.add_argument_group("time span")
+    t.add_argument("--epoch", metavar="ISO",
+                   help="date of rotating time 0, ISO 8601: 2031-03-01T00:00:00Z (Z = UTC) or with a "
+                        "trailing TDB, TT, TAI or UTC; bare text is read on --time-system")
+    t.add_argument("--span", metavar="SPAN", help="how long: a time (12d, 36h, 3.5TU) or Nperiods (3periods)")
+    t.add_argument("--step", metavar="TIME", help="output step on the output clock (10min, 1h, 60s)")
+    add_frame_options(p)
+    o = p.add_argument_group("output")
+    o.add_argument("--format", choices=("oem", "xml", "csv", "json"), help="file format: oem (KVN), xml (OEM in XML), csv, json (default from the --out suffix)")
+    o.add_argument("--object-name", metavar="NAME", default="LIBRATE DESIGN", help="OBJECT_NAME (default 'LIBRATE DESIGN')")
+    o.add_argument("--object-id", metavar="ID", default="NONE", help="OBJECT_ID (default NONE)")
+    o.add_argument("--out", metavar="FILE", required=True, help="file to write (atomically)")
+    common.add_verbosity(p)
+
+
+# ---- helpers shared with convert --------------------------------------------------------
+
+def parse_orientation(args):
+    from cr3bp.errors import InputError
+    if args.orientation is None:
+        return None
+    if args.anchor != "circular":
+        raise InputError("--orientation goes with --anchor circular")
+    try:
+        vals = [float(x) for x in args.orientation.split(",")]
+    except ValueError:
+        raise InputError(f"--orientation '{args.orientation}' is not three numbers INC,NODE,ARGLAT (degrees)") from None
+    if len(vals) != 3:
+        raise InputError(f"--orientation '{args.orientation}' needs three numbers INC,NODE,ARGLAT (degrees)")
+    from cr3bp.frames import Orientation
+    import math
+    if not all(math.isfinite(v) for v in vals) or not 0.0 <= vals[0] <= 180.0:
+        raise InputError(f"--orientation '{args.orientation}': finite angles, inclination in [0, 180]")
+    return Orientation(vals[0], vals[1] % 360.0, vals[2] % 360.0, args.orientation_plane)
+
+
+def step_seconds(text, system):
+    from cr3bp import units
+    from cr3bp.errors import InputError
+    q = units.parse(text, "time")
+    s = q.nondim(system) * system.time_s if q.unit == "TU" else q.si()
+    if not s > 0:
+        raise InputError(f"--step '{text}' must be positive")
+    return float(s)
+
+
+def summary(args, traj, path, fmt):
+    import numpy as np
+    from cr3bp import frames
+    n = sum(len(s.t_tu) for s in traj.segments)
+    first, last = traj.segments[0], traj.segments[-1]
+    ep = frames.epoch_to_text(np.array([traj.frame.epoch_tdb_s + first.t_tu[0] * traj.frame.system.time_s,
+                                        traj.frame.epoch_tdb_s + last.t_tu[-1] * traj.frame.system.time_s]),
+                              traj.time_system, 3)
+    rows = [["file", str(path)], ["format", fmt], ["states", n], ["segments", len(traj.segments)],
+            ["maneuvers", len(traj.maneuvers)], ["start", f"{ep[0]} {traj.time_system}"],
+            ["stop", f"{ep[1]} {traj.time_system}"], ["frame", traj.frame.axes],
+            ["center", traj.frame.center_name], ["anchoring", traj.frame.anchor]]
+    if not getattr(args, "quiet", False):
+        text = common.format_table(["item", "value"], rows, title="librate export") + common.caution_footer()
+        import sys
+        sys.stdout.write(text)
+
+
+def leap_second_notes(args, fn):
+    """Run ``fn()`` and say once, in one line, if UTC went past the leap-second table
+    (the time-scale module warns for every conversion; a person needs it once)."""
+    import warnings
+    from cr3bp.timescales import LeapSecondsExpiredWarning, leap_second_table, mjd_to_iso_date
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", LeapSecondsExpiredWarning)
+        out = fn()
+    if any(issubclass(w.category, LeapSecondsExpiredWarning) for w in caught):
+        table = leap_second_table()
+        import sys
+        print("librate: note: UTC epochs after "   # shown even with --quiet: it is not progress
+              f"{mjd_to_iso_date(table.valid_until_mjd)} (end of the leap-second table) assume "
+              f"TAI-UTC = {table.tai_minus_utc_s[-1]:g} s; a leap second announced later would "
+              "shift them by 1 s", file=sys.stderr)
+    for w in caught:
+        if not issubclass(w.category, LeapSecondsExpiredWarning):
+            warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
+    return out
+
+
+# ---- the command ------------------------------------------------------------------------
+
+def run(args):
+    return leap_second_notes(args, lambda: _run(args))
+
+
+def _run(args):
+    import numpy as np
+    from cr3bp import export, frames
+    from cr3bp.errors import InputError
+
+    chosen = [x for x in (args.state, args.orbit, args.from_file) if x is not None]
+    if len(chosen) != 1:
+        raise InputError("give exactly one of --state, --orbit or --from FILE")
+    fmt = export.format_of(args.out, args.format)
+    if fmt in ("oem", "xml") and args.frame == "rotating":
+        raise InputError("OEM needs inertial axes (--frame j2000-equator or j2000-ecliptic); "
+                         "use --format csv or json for the rotating frame")
+    ts = args.time_system.upper()
+    sysm = None
+    source = None
+    period_tu = None
+    model = {}
+    file_frame = None
+    if args.from_file is not None:
+        data = export.read(args.from_file)
+        file_frame = data.frame
+        if args.system or args.mu:
+            sysm = common.resolve_system(args)
+        elif file_frame is not None:
+            sysm = file_frame.system
+        elif data.header.get("system"):
+            from cr3bp import system as _system
+            sysm = _system(data.header["system"])
+        else:
+            raise InputError(f"'{args.from_file}' does not name its system; give --system")
+        if file_frame is not None and file_frame.system.mu != sysm.mu:
+            raise InputError(f"'{args.from_file}' is in system {file_frame.system.name}, not {sysm.name}")
+        segs = export.to_rotating(data)
+        if len(segs) != 1:
+            raise InputError(f"'{args.from_file}' has {len(segs)} segments; export one arc at a time "
+                             "or use 'librate convert'")
+        source = segs[0]
+        model["source file"] = str(args.from_file)
+    else:
+        sysm = common.resolve_system(args)
+    sysm.require_dimensional("an export in km")
+
+    if args.orbit is not None:
+        try:
+            from cr3bp.orbits.request import solve_request
+        except ImportError:
+            raise InputError("orbit specs (--orbit) are not available yet in this build; give --state "
+                             "(with --period) or --from FILE") from None
+        common.progress(args, f"solving orbit request '{args.orbit}'...")
+        orbit = solve_request(sysm, args.orbit, progress=lambda count, most, _orbit: common.progress(
+            args, f"  family member {count} of at most {most}", verbose_only=True))
+        source, period_tu = orbit, float(orbit.period)
+        model["orbit"] = f"{orbit.family} {orbit.point} {orbit.branch}".strip()
+        model["orbit request"] = args.orbit
+        model["period"] = f"{orbit.period!r} TU = {orbit.period * sysm.time_days:.9f} d"
+        model["jacobi"] = repr(float(orbit.jacobi))
+    elif args.state is not None:
+        parts = args.state.split(",")
+        try:
+            s = np.array([float(x) for x in parts])
+        except ValueError:
+            raise InputError(f"--state '{args.state}' is not six numbers x,y,z,vx,vy,vz") from None
+        if s.shape != (6,) or not np.all(np.isfinite(s)):
+            raise InputError(f"--state '{args.state}' must be six finite numbers x,y,z,vx,vy,vz")
+        if args.km:
+            s[:3] /= sysm.length_km
+            s[3:] /= sysm.velocity_kms
+        from cr3bp import validate
+        source = validate.state(sysm, s)
+        model["initial state (rotating, nondimensional)"] = ", ".join(repr(float(x)) for x in s)
+    if args.period is not None:
+        if args.orbit is not None:
+            raise InputError("--period goes with --state or --from (an --orbit has its own period)")
+        from cr3bp import units
+        period_tu = units.time(args.period, sysm)
+        if not period_tu > 0:
+            raise InputError(f"--period '{args.period}' must be positive")
+        model["period"] = f"{period_tu!r} TU = {period_tu * sysm.time_days:.9f} d"
+
+    # the frame
+    if args.epoch is None:
+        if file_frame is None:
+            raise InputError("give --epoch (the date of rotating time 0), e.g. 2031-03-01T00:00:00Z")
+        epoch = file_frame.epoch_tdb_s
+    else:
+        epoch = args.epoch
+    center = args.center or "primary"
+    spec = frames.frame(sysm, epoch, anchor=args.anchor, axes=args.frame, center=center,
+                        orientation=parse_orientation(args), time_scale=ts)
+
+    # the samples
+    if args.step is None:
+        if args.from_file is None:
+            raise InputError("give --step (e.g. 10min)")
+        if args.span is not None:
+            raise InputError("--span needs --step (without --step the file's own samples are written)")
+        seg = source
+    else:
+        step_s = step_seconds(args.step, sysm)
+        if args.span is None:
+            if args.from_file is None:
+                raise InputError("give --span (e.g. 12d or 3periods)")
+            span_tu = float(source.t_tu[-1] - source.t_tu[0])
+        else:
+            span_tu = export.parse_span(args.span, sysm, period_tu)
+        t0 = float(source.t_tu[0]) if args.from_file is not None else 0.0
+        grid = export.epoch_grid(spec, ts, span_tu, step_s)
+        start = export.Segment(np.array([t0]), source.states[:1]) if args.from_file is not None else source
+        common.progress(args, f"sampling {grid.size} states...", verbose_only=grid.size < 20000)
+        seg = export.sample(sysm, start, grid)
+    traj = export.Trajectory(spec, (seg,), ts, (), args.object_name, args.object_id, model)
+    path = export.write(args.out, traj, fmt)
+    common.progress(args, f"wrote {path}")
+    summary(args, traj, path, fmt)
+    return 0

@@ -1,0 +1,982 @@
+"""Hand-off files: CCSDS OEM (KVN), CSV and JSON writers and readers of epoch-anchored states.
+
+A :class:`Trajectory` holds rotating-frame CR3BP segments (nondimensional), the
+:class:`~cr3bp.frames.FrameSpec` that anchors them, the time system of the output and the
+impulsive maneuvers between segments. Writers put it in km and km/s on the frame's axes,
+centred on the frame's centre, with epochs on the chosen time system; readers give the
+states back, and :func:`to_rotating` returns them to nondimensional rotating states.
+
+OEM layout (CCSDS 502.0-B-3, Orbit Data Messages, 2023; header keywords sec. 5.2.2 table 5-2,
+metadata sec. 5.2.3 table 5-3, data lines sec. 5.2.4 -- section numbers from memory):
+
+* header ``CCSDS_OEM_VERS = 3.0``, the caution as COMMENT lines, ``CREATION_DATE``,
+  ``ORIGINATOR``;
+* one segment per maneuver-free arc: ``META_START`` ... ``META_STOP`` with COMMENT lines
+  naming the model (CR3BP, system, mu, units, anchoring) and the machine-readable frame
+  (``COMMENT frame.<key> = <value>``), then ``OBJECT_NAME``, ``OBJECT_ID``, ``CENTER_NAME``,
+  ``REF_FRAME``, ``TIME_SYSTEM``, ``START_TIME``, ``USEABLE_START_TIME``,
+  ``USEABLE_STOP_TIME``, ``STOP_TIME``, ``INTERPOLATION``, ``INTERPOLATION_DEGREE``;
+* data lines ``epoch x y z vx vy vz`` (km, km/s). A maneuver that starts a segment is a
+  COMMENT line at the start of that segment's data: ``COMMENT MANEUVER epoch = ... dv_kms =
+  dx dy dz dv_mps = m``.
+
+``REF_FRAME``: ``EME2000`` for the J2000 mean equator and equinox. The standard's frame list
+(502.0-B-2 annex A; in B-3 the SANA registry -- from memory, not consulted here) has no mean
+ecliptic of J2000, and values other than the listed ones are allowed by agreement between
+the parties (from memory). For ``j2000-ecliptic`` we write ``REF_FRAME = J2000_ECLIPTIC``
+and a COMMENT defining it; a reader that does not know the value will refuse the file rather
+than misread it. The rotating frame has no OEM value: OEM output requires inertial axes.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+from dataclasses import dataclass, field
+from datetime import datetime, timezone
+from pathlib import Path
+
+import numpy as np
+
+from . import frames as _frames
+from .atomic import writing
+from .cautions import CAUTION, caution_lines
+from .errors import InputError
+
+FORMATS = ("oem", "xml", "csv", "json")   # xml = OEM in XML
+OEM_VERSION = "3.0"
+ORIGINATOR = "LIBRATE"
+REF_FRAMES = {"j2000-equator": "EME2000", "j2000-ecliptic": "J2000_ECLIPTIC"}
+AXES_OF_REF_FRAME = {v: k for k, v in REF_FRAMES.items()}
+POS_FMT, VEL_FMT = "%.7f", "%.10f"      # 0.1 mm, 0.1 um/s
+MAX_SAMPLES = 5_000_000
+JSON_FORMAT = "librate-trajectory"
+COLUMNS = ["x_km", "y_km", "z_km", "vx_kms", "vy_kms", "vz_kms"]
+
+
+# ---- what is written -----------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class Segment:
+    """A maneuver-free piece of trajectory: rotating times (TU from the epoch), states (N, 6)."""
+
+    t_tu: np.ndarray
+    states: np.ndarray
+
+    def to_dict(self) -> dict:
+        return {"t_tu": self.t_tu.tolist(), "states": self.states.tolist()}
+
+
+@dataclass(frozen=True)
+class Maneuver:
+    """An impulsive velocity change at rotating time ``t_tu``, ``dv`` nondimensional rotating."""
+
+    t_tu: float
+    dv: np.ndarray
+    label: str = ""
+
+    def to_dict(self) -> dict:
+        return {"t_tu": self.t_tu, "dv": np.asarray(self.dv).tolist(), "label": self.label}
+
+
+@dataclass(frozen=True)
+class Trajectory:
+    """Segments, the frame that anchors them, the output time system and maneuvers.
+
+    ``model`` holds extra description for the COMMENT lines (e.g. the orbit request, period).
+    """
+
+    frame: _frames.FrameSpec
+    segments: tuple
+    time_system: str = "TDB"
+    maneuvers: tuple = ()
+    object_name: str = "LIBRATE DESIGN"
+    object_id: str = "NONE"
+    model: dict = field(default_factory=dict)
+
+    def to_dict(self) -> dict:
+        return {"frame": self.frame.to_dict(), "time_system": self.time_system,
+                "object_name": self.object_name, "object_id": self.object_id,
+                "segments": [s.to_dict() for s in self.segments],
+                "maneuvers": [m.to_dict() for m in self.maneuvers], "model": dict(self.model)}
+
+
+# ---- sampling --------------------------------------------------------------------------------
+
+def parse_span(text, system, period_tu: float | None = None) -> float:
+    """``"3periods"``, ``"12d"``, ``"2.5TU"`` -> TU. ``periods`` needs ``period_tu``."""
+    from . import units
+    s = str(text).strip()
+    low = s.lower()
+    for suffix in ("periods", "period"):
+        if low.endswith(suffix):
+            num = s[: -len(suffix)].strip()
+            try:
+                k = float(num) if num else 1.0
+            except ValueError:
+                raise InputError(f"span '{text}' is not '<number>periods'") from None
+            if period_tu is None:
+                raise InputError(f"span '{text}' counts periods, but this trajectory has no period; "
+                                 "give a time such as '12d', or a period")
+            value = k * period_tu
+            break
+    else:
+        value = units.time(s, system)
+    if not (math.isfinite(value) and value > 0):
+        raise InputError(f"span '{text}' must be positive")
+    return float(value)
+
+
+def sample_grid(span_tu: float, step_tu: float) -> np.ndarray:
+    """Times ``0, step, 2 step, ...`` up to ``span`` (inclusive when it falls on the grid)."""
+    if not (math.isfinite(step_tu) and step_tu > 0):
+        raise InputError(f"step {step_tu!r} TU must be positive")
+    if not (math.isfinite(span_tu) and span_tu > 0):
+        raise InputError(f"span {span_tu!r} TU must be positive")
+    if step_tu > span_tu:
+        raise InputError(f"step ({step_tu:.6g} TU) is larger than the span ({span_tu:.6g} TU)")
+    n = int(math.floor(span_tu / step_tu * (1 + 1e-12))) + 1
+    if n > MAX_SAMPLES:
+        raise InputError(f"{n} samples exceed the limit of {MAX_SAMPLES}; use a larger step")
+    return np.arange(n) * step_tu
+
+
+def epoch_grid(spec, time_system: str, span_tu: float, step_s: float) -> np.ndarray:
+    """Rotating times (TU) of samples evenly spaced by ``step_s`` on the output time system.
+
+    The user's step is a step of the clock the file is written in: labels ``L0 + k step`` on
+    ``time_system`` (L0 = the frame epoch on that scale), converted to TDB and then to TU.
+    So a 10-minute step gives epochs ending in :00, :10, ... in UTC as in TDB. (A UTC grid
+    across a leap second is uneven by that second.)
+    """
+    ts = _frames.time_system(time_system)
+    if not (math.isfinite(step_s) and step_s > 0):
+        raise InputError(f"step {step_s!r} s must be positive")
+    span_s = span_tu * spec.system.time_s
+    if not (math.isfinite(span_s) and span_s > 0):
+        raise InputError(f"span {span_tu!r} TU must be positive")
+    if step_s > span_s * (1 + 1e-12):
+        raise InputError(f"step ({step_s:.6g} s) is larger than the span ({span_s:.6g} s)")
+    n = int(math.floor(span_s / step_s * (1 + 1e-12))) + 1
+    if n > MAX_SAMPLES:
+        raise InputError(f"{n} samples exceed the limit of {MAX_SAMPLES}; use a larger step")
+    tdb = _frames.clock_grid(spec.epoch_tdb_s, n, step_s, ts)
+    t = (np.asarray(tdb) - spec.epoch_tdb_s) / spec.system.time_s
+    t[0] = 0.0
+    return t
+
+
+def sample(system, source, t_eval, rtol=1e-12, atol=1e-12) -> Segment:
+    """Sample a trajectory at given rotating times by propagation with dense output.
+
+    Parameters
+    ----------
+    source : Arc-like (``t``, ``states``), a :class:`Segment`, PeriodicOrbit-like (``state``)
+        or a 6-vector. The
+        propagation starts from its (first) state; ``t_eval`` counts from that state's time.
+    t_eval : array
+        Increasing times from 0, TU (e.g. from :func:`sample_grid` or :func:`epoch_grid`).
+
+    Returns
+    -------
+    Segment
+        Times ``t_eval`` shifted by the arc's own start time (0 for a state or an orbit).
+
+    Uses ``cr3bp.propagate(..., t_eval=...)``: samples come from the integrator's dense output
+    (Hairer, Norsett & Wanner, *Solving ODEs I*, 2nd ed., 1993, sec. II.6).
+    """
+    from . import propagate
+    t0 = 0.0
+    if hasattr(source, "t") and hasattr(source, "states"):
+        t0 = float(np.asarray(source.t, dtype=float)[0])
+        state = np.asarray(source.states, dtype=float)[0]
+    elif hasattr(source, "t_tu") and hasattr(source, "states"):
+        t0 = float(np.asarray(source.t_tu, dtype=float)[0])
+        state = np.asarray(source.states, dtype=float)[0]
+    elif hasattr(source, "state"):
+        state = np.asarray(source.state, dtype=float)
+    else:
+        state = np.asarray(source, dtype=float)
+    grid = np.asarray(t_eval, dtype=float)
+    if grid.ndim != 1 or grid.size == 0 or np.any(np.diff(grid) <= 0) or grid[0] < 0:
+        raise InputError("sample times must be increasing from 0")
+    if grid[-1] == 0.0:
+        from . import validate
+        return Segment(grid + t0, validate.state(system, state)[None, :].copy())
+    arc = propagate(system, state, float(grid[-1]), rtol=rtol, atol=atol, t_eval=grid)
+    if arc.states.shape[0] != grid.size:
+        from .errors import NoSolutionError
+        raise NoSolutionError(f"propagation stopped ({arc.status}) at t = {arc.t_final:.6g} TU before "
+                              f"the end of the span ({grid[-1]:.6g} TU)")
+    return Segment(np.asarray(arc.t, dtype=float) + t0, np.ascontiguousarray(arc.states))
+
+
+def sample_legs(system, legs, t_eval, labels=None, join_tol=1e-9, rtol=1e-12, atol=1e-12):
+    """Segments and maneuvers of a piecewise trajectory (e.g. the legs of a route).
+
+    Parameters
+    ----------
+    legs : sequence of Arc-like (``t`` in TU from the frame epoch, ``states``), in time order.
+        Each leg starts where the previous one ends (same time, same position within
+        ``join_tol`` LU); the velocity difference there is an impulsive maneuver.
+    t_eval : array
+        The global output grid (TU from the epoch, e.g. :func:`epoch_grid`). Each leg is
+        sampled at the grid points inside it plus its own start and end, so every maneuver
+        epoch is a sample of both segments it separates.
+    labels : sequence of str, optional
+        Names of the maneuvers (one per junction).
+
+    Returns
+    -------
+    (tuple of Segment, tuple of Maneuver)
+    """
+    from . import propagate
+    legs = list(legs)
+    if not legs:
+        raise InputError("no legs to sample")
+    grid = np.asarray(t_eval, dtype=float)
+    segs, mans = [], []
+    for k, leg in enumerate(legs):
+        t = np.asarray(leg.t, dtype=float)
+        s = np.asarray(leg.states, dtype=float)
+        t0, t1 = float(t[0]), float(t[-1])
+        if k:
+            prev = legs[k - 1]
+            pt, ps = float(np.asarray(prev.t)[-1]), np.asarray(prev.states, dtype=float)[-1]
+            if abs(pt - t0) > 1e-12 * max(1.0, abs(t0)) or np.linalg.norm(ps[:3] - s[0, :3]) > join_tol:
+                raise InputError(f"leg {k + 1} does not start where leg {k} ends "
+                                 f"(gap {abs(pt - t0):.3g} TU, {np.linalg.norm(ps[:3] - s[0, :3]):.3g} LU)")
+            label = labels[k - 1] if labels and k - 1 < len(labels) else f"maneuver {k}"
+            mans.append(Maneuver(t0, s[0, 3:] - ps[3:], label))
+        inner = grid[(grid > t0 + 1e-12) & (grid < t1 - 1e-12)]
+        te = np.concatenate([[t0], inner, [t1]]) if t1 > t0 else np.array([t0])
+        if te.size == 1:
+            segs.append(Segment(te, s[:1].copy()))
+            continue
+        arc = propagate(system, s[0], float(te[-1] - t0), rtol=rtol, atol=atol, t_eval=te - t0)
+        if arc.states.shape[0] != te.size:
+            from .errors import NoSolutionError
+            raise NoSolutionError(f"leg {k + 1} stopped ({arc.status}) before its end")
+        segs.append(Segment(te, np.ascontiguousarray(arc.states)))
+    return tuple(segs), tuple(mans)
+
+
+# ---- dimensional evaluation ------------------------------------------------------------------
+
+def _center_name_oem(spec) -> str:
+    def one(name):
+        n = name.lower()
+        if n == "earth-moon":
+            return "EARTH-MOON BARYCENTER"
+        if n.endswith("-system"):
+            return n[: -len("-system")].upper() + " BARYCENTER"
+        return n.upper()
+    p, s = spec.system.names
+    if spec.center == "primary":
+        return one(p)
+    if spec.center == "secondary":
+        return one(s)
+    return f"{p.upper()}-{s.upper()} BARYCENTER"
+
+
+def _evaluate(traj: Trajectory):
+    """Per segment: (epochs TDB s, epoch strings on the time system, (N, 6) km & km/s)."""
+    out = []
+    for seg in traj.segments:
+        tdb, st = _frames.to_frame(traj.frame, seg.t_tu, seg.states)
+        out.append((tdb, _frames.epoch_to_text(tdb, traj.time_system), st))
+    return out
+
+
+def _maneuver_rows(traj: Trajectory):
+    rows = []
+    for m in traj.maneuvers:
+        dv = _frames.delta_v_to_frame(traj.frame, [m.t_tu], [m.dv])[0]
+        tdb = traj.frame.epoch_tdb_s + m.t_tu * traj.frame.system.time_s
+        rows.append((str(_frames.epoch_to_text(np.array([tdb]), traj.time_system)[0]), dv,
+                     float(np.linalg.norm(dv)) * 1000.0, m.label))
+    return rows
+
+
+def _model_lines(traj: Trajectory) -> list[str]:
+    spec = traj.frame
+    sysm = spec.system
+    lines = [
+        f"Model: circular restricted three-body problem (CR3BP), system {sysm.name}, "
+        f"mu = {sysm.mu!r}",
+        f"Units: length unit {sysm.length_km!r} km, time unit {sysm.time_s!r} s; "
+        "positions km, velocities km/s",
+    ]
+    if spec.axes == "rotating":
+        lines.append("Axes: CR3BP rotating axes (x from the larger to the smaller primary, z along "
+                     "the orbit normal), dimensional with the fixed length unit; NOT inertial")
+    elif spec.anchor == "circular":
+        o = spec.orientation
+        lines.append("Anchoring: circular (idealised): axes turn uniformly at the CR3BP mean motion; "
+                     f"secondary orbit plane at epoch: inclination {o.inclination_deg:.6f} deg, node "
+                     f"{o.node_deg:.6f} deg, argument of latitude {o.latitude_arg_deg:.6f} deg relative "
+                     f"to the {o.plane} ({o.source})")
+    else:
+        lines.append("Anchoring: instantaneous ephemeris frame of the secondary relative to the primary "
+                     "(x along r, z along r x v, lengths scaled by |r|)")
+    lines.append(f"Epoch of rotating time 0: {spec.to_dict()['epoch_tdb']} TDB; centre {spec.center_name}")
+    if spec.axes == "j2000-ecliptic":
+        lines.append("REF_FRAME J2000_ECLIPTIC: mean ecliptic and equinox of J2000, EME2000 rotated "
+                     "about x by the IAU 2006 obliquity 84381.406 arcsec (not a registry value)")
+    if _frames.time_system(traj.time_system) == "UTC":
+        from .timescales import leap_second_table, mjd_to_iso_date
+        table = leap_second_table()
+        lines.append(f"UTC epochs: leap-second table valid until {mjd_to_iso_date(table.valid_until_mjd)}, "
+                     f"TAI-UTC = {table.tai_minus_utc_s[-1]:g} s assumed after it; a leap second announced "
+                     "later would shift later epochs by 1 s (TDB/TT/TAI files do not depend on it)")
+    for k, v in traj.model.items():
+        lines.append(f"{k}: {v}")
+    return lines
+
+
+def _frame_keys(traj: Trajectory) -> list[str]:
+    d = traj.frame.to_dict()
+    keys = [f"frame.{k} = {d[k]!r}" if isinstance(d[k], float) else f"frame.{k} = {d[k]}"
+            for k in ("system", "mu", "length_km", "time_s", "epoch_tdb_s", "anchor", "axes", "center")]
+    o = traj.frame.orientation
+    if o is not None:
+        keys.append(f"frame.orientation = {o.inclination_deg!r} {o.node_deg!r} {o.latitude_arg_deg!r} "
+                    f"{o.plane} {o.source.replace(' ', '_')}")
+    return keys
+
+
+def _now_utc() -> str:
+    return datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%S")
+
+
+_ROW_FMT = "%s " + " ".join([POS_FMT] * 3 + [VEL_FMT] * 3) + "\n"
+
+
+def _data_lines(epochs, st, rowfmt=_ROW_FMT) -> str:
+    """Data lines ``epoch x y z vx vy vz``: one %-format over the whole block (fast path)."""
+    n = len(epochs)
+    if n == 0:
+        return ""
+    cols = [np.asarray(epochs, dtype=object)] + [st[:, k].tolist() for k in range(6)]
+    items = np.empty((n, 7), dtype=object)
+    items[:, 0] = cols[0]
+    for k in range(6):
+        items[:, k + 1] = cols[k + 1]
+    return (rowfmt * n) % tuple(items.ravel().tolist())
+
+
+# ---- OEM -------------------------------------------------------------------------------------
+
+def _oem_parts(traj: Trajectory, creation_date, interpolation, degree):
+    """The content of an OEM, independent of KVN or XML: header comments and keywords, and per
+    segment (metadata comments, metadata keywords, data comments, epochs, states)."""
+    spec = traj.frame
+    if spec.axes not in REF_FRAMES:
+        raise InputError(f"OEM needs inertial axes (allowed: {', '.join(REF_FRAMES)}); "
+                         "use csv or json for the rotating frame")
+    ts = _frames.time_system(traj.time_system)
+    evaluated = _evaluate(traj)
+    man = _maneuver_rows(traj)
+    header = (caution_lines(), [("CREATION_DATE", creation_date or _now_utc()), ("ORIGINATOR", ORIGINATOR)])
+    starts = [float(seg.t_tu[0]) for seg in traj.segments]
+    segments = []
+    for k, (seg, (tdb, ep, st)) in enumerate(zip(traj.segments, evaluated)):
+        if k == 0:
+            mcom = _model_lines(traj) + _frame_keys(traj)
+        else:
+            mcom = [f"segment {k + 1} of {len(traj.segments)} (follows a maneuver or a gap)"]
+        meta = [("OBJECT_NAME", traj.object_name), ("OBJECT_ID", traj.object_id),
+                ("CENTER_NAME", _center_name_oem(spec)), ("REF_FRAME", REF_FRAMES[spec.axes]),
+                ("TIME_SYSTEM", ts), ("START_TIME", ep[0]), ("USEABLE_START_TIME", ep[0]),
+                ("USEABLE_STOP_TIME", ep[-1]), ("STOP_TIME", ep[-1])]
+        if len(ep) > degree:
+            meta += [("INTERPOLATION", interpolation), ("INTERPOLATION_DEGREE", str(degree))]
+        dcom = [f"MANEUVER epoch = {mep} dv_kms = {float(dv[0])!r} {float(dv[1])!r} {float(dv[2])!r} "
+                f"dv_mps = {mps!r}" + (f" label = {label}" if label else "")
+                for m, (mep, dv, mps, label) in zip(traj.maneuvers, man) if _segment_of(starts, m.t_tu) == k]
+        segments.append((mcom, meta, dcom, ep, st))
+    return header, segments
+
+
+def oem_text(traj: Trajectory, *, creation_date: str | None = None, interpolation: str = "HERMITE",
+             degree: int = 5) -> str:
+    """The OEM (KVN) text of a trajectory (see the module docstring for the layout)."""
+    (hcom, hkv), segments = _oem_parts(traj, creation_date, interpolation, degree)
+    out = io.StringIO()
+    w = out.write
+    w(f"CCSDS_OEM_VERS = {OEM_VERSION}\n")
+    for line in hcom:
+        w(f"COMMENT {line}\n")
+    for k, v in hkv:
+        w(f"{k} = {v}\n")
+    for mcom, meta, dcom, ep, st in segments:
+        w("\nMETA_START\n")
+        for line in mcom:
+            w(f"COMMENT {line}\n")
+        for k, v in meta:
+            w(f"{k} = {v}\n")
+        w("META_STOP\n\n")
+        for line in dcom:
+            w(f"COMMENT {line}\n")
+        w(_data_lines(ep, st))
+    return out.getvalue()
+
+
+def oem_xml_text(traj: Trajectory, *, creation_date: str | None = None, interpolation: str = "HERMITE",
+                 degree: int = 5) -> str:
+    """The OEM in XML (CCSDS 505.0-B, XML Specification for Navigation Data Messages; element
+    names as the KVN keywords, one ``stateVector`` per line of data -- from memory)."""
+    from xml.sax.saxutils import escape
+    (hcom, hkv), segments = _oem_parts(traj, creation_date, interpolation, degree)
+    out = io.StringIO()
+    w = out.write
+    w('<?xml version="1.0" encoding="UTF-8"?>\n')
+    w(f'<oem id="CCSDS_OEM_VERS" version="{OEM_VERSION}">\n  <header>\n')
+    for line in hcom:
+        w(f"    <COMMENT>{escape(line)}</COMMENT>\n")
+    for k, v in hkv:
+        w(f"    <{k}>{escape(str(v))}</{k}>\n")
+    w("  </header>\n  <body>\n")
+    rowfmt = ("        <stateVector><EPOCH>%s</EPOCH><X>" + POS_FMT + "</X><Y>" + POS_FMT + "</Y><Z>" + POS_FMT
+              + "</Z><X_DOT>" + VEL_FMT + "</X_DOT><Y_DOT>" + VEL_FMT + "</Y_DOT><Z_DOT>" + VEL_FMT
+              + "</Z_DOT></stateVector>\n")
+    for mcom, meta, dcom, ep, st in segments:
+        w("    <segment>\n      <metadata>\n")
+        for line in mcom:
+            w(f"        <COMMENT>{escape(line)}</COMMENT>\n")
+        for k, v in meta:
+            w(f"        <{k}>{escape(str(v))}</{k}>\n")
+        w("      </metadata>\n      <data>\n")
+        for line in dcom:
+            w(f"        <COMMENT>{escape(line)}</COMMENT>\n")
+        w(_data_lines(ep, st, rowfmt))
+        w("      </data>\n    </segment>\n")
+    w("  </body>\n</oem>\n")
+    return out.getvalue()
+
+
+def _segment_of(starts, t_tu) -> int:
+    """Index of the segment a maneuver at ``t_tu`` starts (the last one starting at or before)."""
+    k = int(np.searchsorted(np.asarray(starts), t_tu + 1e-12, side="right")) - 1
+    return max(k, 0)
+
+
+def write_oem(path, traj: Trajectory, **kwargs) -> Path:
+    """Write an OEM (KVN) file atomically. Keyword arguments go to :func:`oem_text`."""
+    text = oem_text(traj, **kwargs)
+    with writing(path) as f:
+        f.write(text)
+    return Path(path)
+
+
+def write_oem_xml(path, traj: Trajectory, **kwargs) -> Path:
+    """Write an OEM in XML atomically. Keyword arguments go to :func:`oem_xml_text`."""
+    text = oem_xml_text(traj, **kwargs)
+    with writing(path) as f:
+        f.write(text)
+    return Path(path)
+
+
+# ---- CSV -------------------------------------------------------------------------------------
+
+def _meta_pairs(traj: Trajectory) -> list[str]:
+    spec = traj.frame
+    return [f"object_name = {traj.object_name}", f"object_id = {traj.object_id}",
+            f"time_system = {_frames.time_system(traj.time_system)}",
+            f"center_name = {_center_name_oem(spec)}",
+            f"ref_frame = {REF_FRAMES.get(spec.axes, 'CR3BP_ROTATING')}"] + _frame_keys(traj)
+
+
+def csv_text(traj: Trajectory) -> tuple[str, str | None]:
+    """(CSV text of the states, CSV text of the maneuver table or None)."""
+    ts = _frames.time_system(traj.time_system)
+    head = io.StringIO()
+    head.write("# librate trajectory (CSV): one row per sample; 'segment' counts maneuver-free arcs\n")
+    for line in caution_lines():
+        head.write(f"# {line}\n")
+    for line in _model_lines(traj) + _meta_pairs(traj):
+        head.write(f"# {line}\n")
+    head.write(",".join(["segment", f"epoch_{ts.lower()}"] + COLUMNS) + "\n")
+    parts = [head.getvalue()]
+    for k, (tdb, ep, st) in enumerate(_evaluate(traj)):
+        body = _data_lines(ep, st).replace(" ", ",")
+        parts.append("".join(f"{k},{line}\n" for line in body.splitlines()))
+    man = _maneuver_rows(traj)
+    mtext = None
+    if man:
+        buf = io.StringIO()
+        buf.write("# librate maneuvers (CSV): impulsive velocity changes in the export frame\n")
+        for line in caution_lines():
+            buf.write(f"# {line}\n")
+        wr = csv.writer(buf, lineterminator="\n")
+        wr.writerow([f"epoch_{ts.lower()}", "dvx_kms", "dvy_kms", "dvz_kms", "dv_mps", "label"])
+        for mep, dv, mps, label in man:
+            wr.writerow([mep, *(repr(float(x)) for x in dv), repr(mps), label])
+        mtext = buf.getvalue()
+    return "".join(parts), mtext
+
+
+def maneuvers_path(path) -> Path:
+    """Where the maneuver table of a CSV file goes: ``NAME.maneuvers.csv`` beside it."""
+    p = Path(path)
+    return p.with_name(p.stem + ".maneuvers.csv")
+
+
+def write_csv(path, traj: Trajectory) -> Path:
+    """Write the CSV (and ``NAME.maneuvers.csv`` when there are maneuvers), atomically."""
+    text, mtext = csv_text(traj)
+    if mtext is None:
+        with writing(path) as f:
+            f.write(text)
+        return Path(path)
+    # both files are written to temporary names first; a failure while writing either leaves
+    # neither (the two renames happen only after both writes succeeded)
+    with writing(path) as f, writing(maneuvers_path(path)) as g:
+        f.write(text)
+        g.write(mtext)
+    return Path(path)
+
+
+# ---- JSON ------------------------------------------------------------------------------------
+
+def json_payload(traj: Trajectory, creation_date: str | None = None) -> dict:
+    spec = traj.frame
+    ts = _frames.time_system(traj.time_system)
+    segs = []
+    for tdb, ep, st in _evaluate(traj):
+        segs.append({"start_time": str(ep[0]), "stop_time": str(ep[-1]), "epochs": ep.tolist(),
+                     "states": np.round(st, 10).tolist()})
+    return {
+        "format": JSON_FORMAT, "format_version": 1, "caution": CAUTION,
+        "creation_date": creation_date or _now_utc(), "originator": ORIGINATOR,
+        "object_name": traj.object_name, "object_id": traj.object_id,
+        "model": _model_lines(traj), "frame": spec.to_dict(), "time_system": ts,
+        "center_name": _center_name_oem(spec), "ref_frame": REF_FRAMES.get(spec.axes, "CR3BP_ROTATING"),
+        "units": {"position": "km", "velocity": "km/s", "dv": "km/s"},
+        "columns": ["epoch"] + COLUMNS,
+        "segments": segs,
+        "maneuvers": [{"epoch": e, "dv_kms": dv.tolist(), "dv_mps": m, "label": label}
+                      for e, dv, m, label in _maneuver_rows(traj)],
+        "extra": dict(traj.model),
+    }
+
+
+def write_json(path, traj: Trajectory) -> Path:
+    text = json.dumps(json_payload(traj), indent=1) + "\n"
+    with writing(path) as f:
+        f.write(text)
+    return Path(path)
+
+
+def format_of(path, fmt: str | None = None) -> str:
+    """The format named by ``fmt`` or by the suffix of ``path`` (.oem/.csv/.json)."""
+    if fmt:
+        f = str(fmt).lower()
+        if f not in FORMATS:
+            raise InputError(f"unknown format '{fmt}'; allowed: {', '.join(FORMATS)}")
+        return f
+    suffix = Path(path).suffix.lower().lstrip(".")
+    if suffix in FORMATS:
+        return suffix
+    raise InputError(f"cannot tell the format of '{path}' from its suffix; give --format "
+                     f"({', '.join(FORMATS)})")
+
+
+def write(path, traj: Trajectory, fmt: str | None = None) -> Path:
+    """Write ``traj`` to ``path`` in ``fmt`` (default from the suffix)."""
+    f = format_of(path, fmt)
+    return {"oem": write_oem, "xml": write_oem_xml, "csv": write_csv, "json": write_json}[f](path, traj)
+
+
+# ---- readers ---------------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class FileSegment:
+    """A segment read from a file: metadata, epoch strings, TDB seconds, states km & km/s."""
+
+    metadata: dict
+    epochs: np.ndarray
+    tdb_s: np.ndarray
+    states: np.ndarray
+
+
+@dataclass(frozen=True)
+class ReadResult:
+    """What a reader returns. ``frame`` is None when the file does not say which CR3BP frame."""
+
+    format: str
+    header: dict
+    segments: tuple
+    time_system: str
+    frame: _frames.FrameSpec | None
+    maneuvers: tuple = ()          # (epoch str, tdb_s, dv_kms (3,), label)
+    object_name: str = ""
+    object_id: str = ""
+
+    def to_dict(self) -> dict:
+        return {"format": self.format, "header": self.header, "time_system": self.time_system,
+                "frame": None if self.frame is None else self.frame.to_dict(),
+                "segments": [{"metadata": s.metadata, "points": int(len(s.epochs))} for s in self.segments],
+                "maneuvers": len(self.maneuvers)}
+
+
+def _frame_from_keys(keys: dict):
+    if "frame.system" not in keys:
+        return None
+    d = {k[len("frame."):]: v for k, v in keys.items() if k.startswith("frame.")}
+    if "orientation" in d:
+        parts = d["orientation"].split()
+        d["orientation"] = {"inclination_deg": parts[0], "node_deg": parts[1], "latitude_arg_deg": parts[2],
+                            "plane": parts[3], "source": parts[4].replace("_", " ") if len(parts) > 4 else "explicit"}
+    else:
+        d["orientation"] = None
+    try:
+        return _frames.FrameSpec.from_dict(d)
+    except (KeyError, ValueError) as e:
+        raise InputError(f"the frame description in the file is incomplete ({e})") from None
+
+
+def _kv(line: str):
+    k, _, v = line.partition("=")
+    return k.strip(), v.strip()
+
+
+def _parse_maneuver(text: str, ts: str):
+    # "MANEUVER epoch = E dv_kms = a b c dv_mps = m [label = L]"
+    try:
+        body = text.split("MANEUVER", 1)[1]
+        ep = body.split("epoch =", 1)[1].split("dv_kms =", 1)[0].strip()
+        dvs = body.split("dv_kms =", 1)[1].split("dv_mps =", 1)[0].split()
+        label = body.split("label =", 1)[1].strip() if "label =" in body else ""
+        dv = np.array([float(x) for x in dvs[:3]])
+    except (IndexError, ValueError):
+        raise InputError(f"malformed maneuver comment: {text.strip()!r}") from None
+    return ep, float(_frames.epochs_from_texts([ep], ts)[0]), dv, label
+
+
+def read_oem(path) -> ReadResult:
+    """Read a KVN OEM file (ours or another writer's; covariance and accelerations ignored).
+
+    Returns the states in km and km/s with epochs on the file's TIME_SYSTEM (converted to TDB
+    seconds in ``tdb_s``); ``frame`` is rebuilt from our ``COMMENT frame.*`` lines if present.
+    """
+    try:
+        lines = Path(path).read_text(encoding="utf-8").splitlines()
+    except OSError as e:
+        raise InputError(f"cannot read '{path}': {e.strerror}") from None
+    if not lines or not lines[0].strip().startswith("CCSDS_OEM_VERS"):
+        raise InputError(f"'{path}' is not a KVN OEM file (first line must be CCSDS_OEM_VERS = ...)")
+    header, keys = {}, {}
+    segments, man_texts = [], []
+    meta, rows, in_meta, in_cov = None, [], False, False
+
+    def close():
+        if meta is not None:
+            segments.append((meta, rows))
+
+    for raw in lines:
+        line = raw.strip()
+        if not line:
+            continue
+        if line.startswith("COMMENT"):
+            c = line[len("COMMENT"):].strip()
+            if c.startswith("frame.") and "=" in c:
+                k, v = _kv(c)
+                keys[k] = v
+            elif c.startswith("MANEUVER"):
+                man_texts.append(c)
+            continue
+        if line == "META_START":
+            close()
+            meta, rows, in_meta, in_cov = {}, [], True, False
+            continue
+        if line == "META_STOP":
+            in_meta = False
+            continue
+        if line in ("COVARIANCE_START",):
+            in_cov = True
+            continue
+        if line in ("COVARIANCE_STOP",):
+            in_cov = False
+            continue
+        if in_cov:
+            continue
+        if meta is None:
+            k, v = _kv(line)
+            header[k] = v
+        elif in_meta:
+            k, v = _kv(line)
+            meta[k] = v
+        else:
+            rows.append(line.split())
+    close()
+    return _oem_result(path, "oem", header, segments, keys, man_texts)
+
+
+def _comment_keys(comments, keys, man_texts):
+    for c in comments:
+        c = (c or "").strip()
+        if c.startswith("frame.") and "=" in c:
+            k, v = _kv(c)
+            keys[k] = v
+        elif c.startswith("MANEUVER"):
+            man_texts.append(c)
+
+
+def read_oem_xml(path) -> ReadResult:
+    """Read an OEM in XML (``<oem><header/><body><segment><metadata/><data>`` with
+    ``stateVector`` elements), ours or another writer's; covariance ignored."""
+    import xml.etree.ElementTree as ET
+    try:
+        root = ET.parse(path).getroot()
+    except OSError as e:
+        raise InputError(f"cannot read '{path}': {e.strerror}") from None
+    except ET.ParseError as e:
+        raise InputError(f"'{path}' is not well-formed XML ({e})") from None
+
+    def tag(e):
+        return e.tag.rpartition("}")[-1]
+    if tag(root) != "oem":
+        raise InputError(f"'{path}' is not an OEM in XML (root element <{tag(root)}>)")
+    kids = {tag(e): e for e in root}
+    if "header" not in kids or "body" not in kids:
+        raise InputError(f"'{path}': an XML OEM needs <header> and <body>")
+    header = {"CCSDS_OEM_VERS": root.attrib.get("version", "")}
+    keys, man_texts = {}, []
+    for e in kids["header"]:
+        if tag(e) == "COMMENT":
+            _comment_keys([e.text], keys, man_texts)
+        else:
+            header[tag(e)] = (e.text or "").strip()
+    segments = []
+    for seg in kids["body"]:
+        if tag(seg) != "segment":
+            continue
+        parts = {tag(e): e for e in seg}
+        meta = {}
+        for e in parts.get("metadata", []):
+            if tag(e) == "COMMENT":
+                _comment_keys([e.text], keys, man_texts)
+            else:
+                meta[tag(e)] = (e.text or "").strip()
+        rows = []
+        for e in parts.get("data", []):
+            if tag(e) == "COMMENT":
+                _comment_keys([e.text], keys, man_texts)
+            elif tag(e) == "stateVector":
+                f = {tag(c): (c.text or "").strip() for c in e}
+                rows.append([f.get(k, "") for k in ("EPOCH", "X", "Y", "Z", "X_DOT", "Y_DOT", "Z_DOT")])
+        segments.append((meta, rows))
+    return _oem_result(path, "xml", header, segments, keys, man_texts)
+
+
+def _oem_result(path, fmt, header, segments, keys, man_texts) -> ReadResult:
+    if not segments:
+        raise InputError(f"'{path}' has no OEM segment (metadata and data)")
+    out = []
+    ts = None
+    for meta, rows in segments:
+        for req in ("OBJECT_NAME", "OBJECT_ID", "CENTER_NAME", "REF_FRAME", "TIME_SYSTEM",
+                    "START_TIME", "STOP_TIME"):
+            if req not in meta:
+                raise InputError(f"'{path}': a segment lacks the mandatory keyword {req}")
+        ts = _frames.time_system(meta["TIME_SYSTEM"])
+        if not rows:
+            raise InputError(f"'{path}': a segment has no data lines")
+        try:
+            ep = np.array([r[0] for r in rows])
+            st = np.array([[float(x) for x in r[1:7]] for r in rows])
+        except (ValueError, IndexError):
+            raise InputError(f"'{path}': a data line is not 'epoch x y z vx vy vz'") from None
+        if st.shape[1] != 6:
+            raise InputError(f"'{path}': a data line is not 'epoch x y z vx vy vz'")
+        out.append(FileSegment(meta, ep, _frames.epochs_from_texts(ep, ts), st))
+    frame = _frame_from_keys(keys)
+    if frame is not None:
+        axes = AXES_OF_REF_FRAME.get(out[0].metadata["REF_FRAME"])
+        if axes is not None and axes != frame.axes:
+            raise InputError(f"'{path}': REF_FRAME {out[0].metadata['REF_FRAME']} contradicts frame.axes {frame.axes}")
+    mans = tuple(_parse_maneuver(t, ts) for t in man_texts)
+    return ReadResult(fmt, header, tuple(out), ts, frame, mans,
+                      out[0].metadata["OBJECT_NAME"], out[0].metadata["OBJECT_ID"])
+
+
+def _read_rotating_table(path, headers, rows):
+    """A CSV of nondimensional rotating states (``t, x, y, z, vx, vy, vz`` columns)."""
+    names = [h.strip().lower() for h in headers]
+
+    def col(*cands):
+        for c in cands:
+            for i, n in enumerate(names):
+                if n == c or n.split("_")[0] == c and not n.endswith(("_km", "_kms")):
+                    return i
+        return None
+    idx = [col("t", "t_tu", "time")] + [col(c) for c in ("x", "y", "z", "vx", "vy", "vz")]
+    if any(i is None for i in idx):
+        raise InputError(f"'{path}' has neither our export columns nor rotating-state columns "
+                         "t,x,y,z,vx,vy,vz")
+    try:
+        a = np.array([[float(r[i]) for i in idx] for r in rows if r])
+    except ValueError:
+        raise InputError(f"'{path}': a row is not numbers") from None
+    return a[:, 0], a[:, 1:]
+
+
+def read_csv(path) -> ReadResult:
+    """Read a CSV written by :func:`write_csv` (its ``# key = value`` lines carry the frame)."""
+    try:
+        text = Path(path).read_text(encoding="utf-8")
+    except OSError as e:
+        raise InputError(f"cannot read '{path}': {e.strerror}") from None
+    keys, body = {}, []
+    for line in text.splitlines():
+        if line.startswith("#"):
+            c = line[1:].strip()
+            if " = " in c:
+                k, v = _kv(c)
+                keys[k] = v
+        elif line.strip():
+            body.append(line)
+    if not body:
+        raise InputError(f"'{path}' has no header row")
+    rows = list(csv.reader(body))
+    headers, rows = rows[0], rows[1:]
+    if not rows:
+        raise InputError(f"'{path}' has no data rows")
+    ecol = [i for i, h in enumerate(headers) if h.startswith("epoch_")]
+    if not ecol:
+        t, st = _read_rotating_table(path, headers, rows)
+        return _rotating_result("csv", keys, t, st)
+    ts = _frames.time_system(headers[ecol[0]][len("epoch_"):])
+    try:
+        idx = [headers.index(c) for c in COLUMNS]
+    except ValueError:
+        raise InputError(f"'{path}' lacks one of the columns {', '.join(COLUMNS)}") from None
+    seg_col = headers.index("segment") if "segment" in headers else None
+    try:
+        seg = np.array([int(r[seg_col]) for r in rows]) if seg_col is not None else np.zeros(len(rows), int)
+        ep = np.array([r[ecol[0]] for r in rows])
+        st = np.array([[float(r[i]) for i in idx] for r in rows])
+    except (ValueError, IndexError):
+        raise InputError(f"'{path}': a row is not segment, epoch and six numbers") from None
+    tdb = _frames.epochs_from_texts(ep, ts)
+    segs = []
+    meta = {"CENTER_NAME": keys.get("center_name", ""), "REF_FRAME": keys.get("ref_frame", ""),
+            "TIME_SYSTEM": ts}
+    for k in np.unique(seg):
+        m = seg == k
+        segs.append(FileSegment(meta, ep[m], tdb[m], st[m]))
+    mans = []
+    mp = maneuvers_path(path)
+    if mp.exists():
+        for line in csv.reader(x for x in mp.read_text(encoding="utf-8").splitlines()[1:] if x and not x.startswith("#")):
+            if line[0].startswith("epoch_"):
+                continue
+            mans.append((line[0], float(_frames.epochs_from_texts([line[0]], ts)[0]),
+                         np.array([float(x) for x in line[1:4]]), line[5] if len(line) > 5 else ""))
+    return ReadResult("csv", {}, tuple(segs), ts, _frame_from_keys(keys), tuple(mans),
+                      keys.get("object_name", ""), keys.get("object_id", ""))
+
+
+def _rotating_result(fmt, keys, t, st):
+    """Rotating nondimensional states without epochs: a 'segment' in TU, no frame."""
+    seg = FileSegment({"ROTATING_NONDIMENSIONAL": "yes"}, np.array([]), np.asarray(t, float), np.asarray(st, float))
+    return ReadResult(fmt, {k: v for k, v in keys.items()}, (seg,), "", None)
+
+
+def read_json(path) -> ReadResult:
+    """Read a JSON written by :func:`write_json`, or a JSON of rotating states
+    (``{"t": [...], "states": [[...]]}`` or the same under ``"arc"``/``"points"``)."""
+    try:
+        d = json.loads(Path(path).read_text(encoding="utf-8"))
+    except OSError as e:
+        raise InputError(f"cannot read '{path}': {e.strerror}") from None
+    except json.JSONDecodeError as e:
+        raise InputError(f"'{path}' is not valid JSON ({e.msg} at line {e.lineno})") from None
+    if not isinstance(d, dict):
+        raise InputError(f"'{path}' is not a JSON object")
+    if d.get("format") != JSON_FORMAT:
+        for key in (None, "arc", "trajectory"):
+            src = d if key is None else d.get(key)
+            if isinstance(src, dict) and "t" in src and "states" in src:
+                try:
+                    return _rotating_result("json", {}, np.asarray(src["t"], float), np.asarray(src["states"], float).reshape(-1, 6))
+                except (ValueError, TypeError):
+                    break
+        if all(k in d for k in ("initial_state", "final_state", "t_final")):
+            # a propagation summary (librate propagate --format json): its two end states
+            try:
+                st = np.array([d["initial_state"], d["final_state"]], float).reshape(2, 6)
+                res = _rotating_result("json", {"system": d.get("system", "")},
+                                       np.array([0.0, float(d["t_final"])]), st)
+                return res
+            except (TypeError, ValueError):
+                pass
+        if isinstance(d.get("points"), list):
+            try:
+                t = np.array([p["t"] for p in d["points"]], float)
+                st = np.array([p["state"] for p in d["points"]], float).reshape(-1, 6)
+                return _rotating_result("json", {}, t, st)
+            except (KeyError, TypeError, ValueError):
+                pass
+        raise InputError(f"'{path}' is neither a librate trajectory nor a JSON of rotating states "
+                         "(keys t and states)")
+    ts = _frames.time_system(d["time_system"])
+    segs = []
+    for s in d["segments"]:
+        ep = np.array(s["epochs"])
+        segs.append(FileSegment({"CENTER_NAME": d.get("center_name", ""), "REF_FRAME": d.get("ref_frame", ""),
+                                 "TIME_SYSTEM": ts}, ep, _frames.epochs_from_texts(ep, ts),
+                                np.asarray(s["states"], float).reshape(-1, 6)))
+    try:
+        frame = _frames.FrameSpec.from_dict(d["frame"]) if d.get("frame") else None
+    except (KeyError, ValueError, TypeError) as e:
+        raise InputError(f"'{path}': the frame description is incomplete ({e})") from None
+    mans = tuple((m["epoch"], float(_frames.epochs_from_texts([m["epoch"]], ts)[0]), np.asarray(m["dv_kms"], float),
+                  m.get("label", "")) for m in d.get("maneuvers", []))
+    return ReadResult("json", {"creation_date": d.get("creation_date"), "originator": d.get("originator")},
+                      tuple(segs), ts, frame, mans, d.get("object_name", ""), d.get("object_id", ""))
+
+
+def read(path, fmt: str | None = None) -> ReadResult:
+    """Read any of our formats (by ``fmt``, the suffix, or a look at the first line)."""
+    p = Path(path)
+    if not p.exists():
+        raise InputError(f"input file '{path}' does not exist")
+    try:
+        f = format_of(p, fmt)
+    except InputError:
+        first = p.read_text(encoding="utf-8", errors="replace").lstrip()[:20]
+        f = ("oem" if first.startswith("CCSDS_OEM_VERS") else "json" if first.startswith("{")
+             else "xml" if first.startswith("<") else "csv")
+    return {"oem": read_oem, "xml": read_oem_xml, "csv": read_csv, "json": read_json}[f](p)
+
+
+def to_rotating(data: ReadResult, frame: _frames.FrameSpec | None = None) -> tuple:
+    """States read from a file -> nondimensional rotating :class:`Segment` s (t in TU from the
+    frame's epoch). ``frame`` defaults to the one the file describes."""
+    spec = frame or data.frame
+    segs = []
+    for s in data.segments:
+        if s.metadata.get("ROTATING_NONDIMENSIONAL"):
+            segs.append(Segment(s.tdb_s, s.states))
+            continue
+        if spec is None:
+            raise InputError("the file does not say which CR3BP frame its states are in; give the "
+                             "frame (system, epoch, anchoring, axes, centre)")
+        t, st = _frames.from_frame(spec, s.tdb_s, s.states)
+        segs.append(Segment(t, st))
+    return tuple(segs)
+
+
+def trajectory_from(data: ReadResult, frame: _frames.FrameSpec | None = None) -> Trajectory:
+    """A :class:`Trajectory` again from a file read (for conversion between formats/frames)."""
+    spec = frame or data.frame
+    segs = to_rotating(data, spec)
+    mans = tuple(Maneuver((tdb - spec.epoch_tdb_s) / spec.system.time_s,
+                          _frames.delta_v_from_frame(spec, [tdb], [dv])[0], label)
+                 for _, tdb, dv, label in data.maneuvers)
+    return Trajectory(spec, segs, data.time_system or "TDB", mans, data.object_name or "LIBRATE DESIGN",
+                      data.object_id or "NONE")

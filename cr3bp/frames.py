@@ -1,0 +1,556 @@
+"""Rotating <-> inertial frames anchored at an epoch, in km and km/s.
+
+The CR3BP state (nondimensional, barycentric rotating; see :mod:`cr3bp.systems`) is mapped to
+a body-centred frame with inertial axes by one formula for both anchorings. With ``rho`` the
+rotating position, ``rho'`` its derivative in TU, ``rho_c`` the rotating position of the
+chosen centre (``-mu``, ``0`` or ``1 - mu`` on the x axis), ``C(t)`` the matrix whose columns
+are the rotating axes expressed in the inertial axes, ``l(t)`` the length scale, ``w`` the
+angular velocity of the rotating axes (components on the rotating axes, rad/s) and ``T`` the
+system's time unit (s)::
+
+    R = l C (rho - rho_c)
+    V = l' C (rho - rho_c) + l C [w x (rho - rho_c)] + (l / T) C rho'
+
+Time: an epoch ``t0`` (TDB seconds since J2000) anchors rotating time 0, and rotating time
+``tau`` is the epoch ``t0 + tau T``.
+
+Anchorings
+----------
+``circular``
+    The idealised model: ``l`` = the system's length unit, ``l' = 0``, the axes turn
+    uniformly at the CR3BP mean motion about the normal of the secondary's orbit plane:
+    ``C(tau) = R3(node) R1(inclination) R3(u0 + tau)``, ``w = (0, 0, 1/T)``, angles relative
+    to the J2000 ecliptic (or equator). Default orientation: the osculating plane, node and
+    argument of latitude of the secondary's ephemeris at the epoch.
+``ephemeris``
+    The instantaneous frame of the secondary's ephemeris state (r, v) relative to the
+    primary: ``x = r/|r|``, ``z = r x v / |r x v|``, ``y = z x x``, ``l = |r|``,
+    ``l' = r.v/|r|``, ``w = (|r| a.z / |h|, 0, |h| / r^2)`` (a = relative acceleration,
+    h = r x v). Gomez, Llibre, Martinez & Simo, *Dynamics and Mission Design Near Libration
+    Points*, vol. I, World Scientific (2001), ch. 1 (from memory); the same construction is
+    used by Pavlak & Howell for the transition to ephemeris models (from memory).
+
+Inertial axes: ``j2000-equator`` (EME2000: mean equator and equinox of J2000) and
+``j2000-ecliptic`` (mean ecliptic and equinox of J2000, obtained from EME2000 by a rotation
+of the IAU 2006 obliquity 84381.406 arcsec about x; Hilton et al., Celest. Mech. Dyn. Astr. 94,
+2006, from memory -- the value the project's ephemeris module uses for its J2000 ecliptic).
+``rotating`` keeps the CR3BP axes, dimensional (km, km/s, length unit fixed), re-centred.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass, field, replace
+
+import numpy as np
+
+from .errors import InputError
+
+AXES = ("j2000-equator", "j2000-ecliptic", "rotating")
+ANCHORS = ("ephemeris", "circular")
+CENTERS = ("primary", "secondary", "barycenter")
+TIME_SYSTEMS = ("TDB", "TT", "TAI", "UTC")
+
+#: IAU 2006 obliquity of the ecliptic at J2000 (Hilton et al. 2006, from memory; pyerfa obl06
+#: gives the same value, see tests/test_against_pyerfa_frames.py).
+OBLIQUITY_J2000_RAD = 84381.406 * math.pi / (180.0 * 3600.0)
+
+#: The instantaneous frame reads the secondary's ephemeris through Chebyshev series of this
+#: degree on segments of this length aligned on J2000 (so the series at an epoch does not
+#: depend on which other epochs are asked for). Position, velocity and acceleration are the
+#: series and its derivatives: one consistent, smooth (r, v, a), and the ephemeris is called
+#: at 14 nodes per half day however many epochs are transformed.
+SERIES_SEGMENT_S = 43200.0
+SERIES_DEGREE = 13
+
+SECONDS_PER_DAY = 86400.0
+
+
+# ---- adapters to the project's time scales (cr3bp.timescales) and ephemeris -------------
+
+_DESIGNATOR = re.compile(r"(Z|\s(UTC|TAI|TT|TDB))\s*$", re.IGNORECASE)
+_BODY = {"earth-moon": "emb", "mars-system": "mars", "jupiter-system": "jupiter"}
+
+
+def _epoch(tdb_s):
+    """TDB seconds since J2000 -> :class:`cr3bp.timescales.Epoch` (two-part JD, exact split)."""
+    from .timescales import J2000_JD, Epoch
+    t = np.asarray(tdb_s, dtype=float)
+    days = np.floor(t / SECONDS_PER_DAY)
+    return Epoch.from_jd(J2000_JD + days, (t - days * SECONDS_PER_DAY) / SECONDS_PER_DAY, "tdb")
+
+
+def epoch_from_text(text: str, default_scale: str = "UTC") -> float:
+    """ISO 8601 text -> TDB seconds since J2000. 'Z' (or a trailing scale name) sets the scale."""
+    if not isinstance(text, str):
+        raise InputError(f"epoch {text!r} is not text; expected ISO 8601 like 2031-03-01T00:00:00Z")
+    from .timescales import parse_iso
+    named = _DESIGNATOR.search(text)
+    ep = parse_iso(text) if named else parse_iso(text, time_system(default_scale).lower())
+    return float(ep.seconds_since_j2000("tdb"))
+
+
+_MJD0 = np.datetime64("1858-11-17T00:00:00", "us")
+
+
+def epoch_to_text(tdb_s, scale: str = "TDB", digits: int = 6):
+    """TDB seconds since J2000 -> ISO 8601 strings on ``scale`` (no zone suffix), vectorised.
+
+    Microsecond text (``digits=6``, the files' form) is built by numpy's datetime64 from the
+    scale's two-part Julian date; the rare instants inside a UTC leap second, and other digit
+    counts, go through :meth:`cr3bp.timescales.Epoch.to_iso`.
+    """
+    import warnings
+    from .timescales import tai_minus_utc
+    t = np.asarray(tdb_s, dtype=float)
+    flat = t.ravel()
+    sc = time_system(scale).lower()
+    ep = _epoch(flat)
+    if digits != 6:
+        out = ep.to_iso(sc, digits, designator=False)
+        return np.asarray(out if isinstance(out, list) else [out]).reshape(t.shape)
+    jd1, jd2 = (np.atleast_1d(x) for x in ep.two_part_jd(sc))
+    mjd = np.rint(jd1 - 2400000.5).astype(np.int64)
+    length = np.full(mjd.shape, 86400.0)
+    if sc == "utc":
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")   # the conversion above has already warned
+            length = 86400.0 + tai_minus_utc(mjd + 1) - tai_minus_utc(mjd)
+    us = np.rint(jd2 * length * 1e6).astype(np.int64)
+    out = np.datetime_as_string(_MJD0 + (mjd * 86_400_000_000 + us).astype("timedelta64[us]"), unit="us")
+    odd = us >= 86_400_000_000                        # inside a leap second (23:59:60)
+    if odd.any():
+        out = out.astype(object)
+        idx = np.flatnonzero(odd)
+        fixed = ep[idx].to_iso(sc, 6, designator=False)
+        out[idx] = fixed if isinstance(fixed, list) else [fixed]
+        out = out.astype(str)
+    return out.reshape(t.shape)
+
+
+def epochs_from_texts(texts, scale: str) -> np.ndarray:
+    """ISO 8601 strings on ``scale`` -> TDB seconds since J2000.
+
+    Plain ``YYYY-MM-DDThh:mm:ss[.f]`` text is read by numpy's datetime64 (vectorised) and
+    passed to :meth:`cr3bp.timescales.Epoch.from_jd`; anything else (a leap second, other
+    forms) goes through :func:`cr3bp.timescales.parse_iso`, which also names bad values.
+    """
+    import warnings
+    from .timescales import Epoch, parse_iso, tai_minus_utc
+    texts = [str(x).strip() for x in texts]
+    sc = time_system(scale).lower()
+    try:
+        if any(":60" in x[16:19] for x in texts):
+            raise ValueError("leap second")
+        stamps = np.array(texts, dtype="datetime64[us]")
+    except ValueError:
+        return np.atleast_1d(parse_iso(texts, sc).seconds_since_j2000("tdb"))
+    us = (stamps - _MJD0) / np.timedelta64(1, "us")
+    mjd = np.floor(us / 86_400_000_000).astype(np.int64)
+    sec = (us - mjd * 86_400_000_000) * 1e-6
+    length = np.full(mjd.shape, 86400.0)
+    if sc == "utc":
+        if mjd.min() < 41317:
+            return np.atleast_1d(parse_iso(texts, sc).seconds_since_j2000("tdb"))  # its message
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            length = 86400.0 + tai_minus_utc(mjd + 1) - tai_minus_utc(mjd)
+        tai_minus_utc(mjd, stacklevel=2)          # warns once past the leap-second table
+    ep = Epoch.from_jd(mjd + 2400000.5, sec / length, sc)
+    return np.atleast_1d(ep.seconds_since_j2000("tdb"))
+
+
+def clock_grid(epoch_tdb_s: float, n: int, step_s: float, scale: str) -> np.ndarray:
+    """Epochs (TDB s) ``k * step_s`` apart on the clock ``scale``, from ``epoch_tdb_s``: TDB
+    seconds for TDB, SI seconds (equal steps of TT, TAI and UTC away from leap seconds) else."""
+    k = np.arange(n) * float(step_s)
+    if time_system(scale) == "TDB":
+        return epoch_tdb_s + k
+    return np.asarray((_epoch(np.array([epoch_tdb_s])) + k).seconds_since_j2000("tdb"), dtype=float)
+
+
+def time_system(name: str) -> str:
+    key = str(name).strip().upper()
+    if key not in TIME_SYSTEMS:
+        raise InputError(f"unknown time system '{name}'; allowed: {', '.join(s.lower() for s in TIME_SYSTEMS)}")
+    return key
+
+
+def secondary_state(system, tdb_s) -> np.ndarray:
+    """Ephemeris state of the secondary relative to the primary, (N, 6) km, km/s, EME2000
+    (:func:`cr3bp.ephemeris.state`)."""
+    if system.primary is None or system.secondary is None:
+        raise InputError(f"system '{system.name}' has no named primaries, so it has no ephemeris; "
+                         "use --anchor circular with an explicit orientation")
+    from . import ephemeris
+    body = _BODY.get(system.secondary.name, system.secondary.name)
+    center = _BODY.get(system.primary.name, system.primary.name)
+    if body not in ephemeris.BODIES or center not in ephemeris.CENTERS:
+        raise InputError(f"no ephemeris for the {system.primary.name}-{system.secondary.name} pair; "
+                         "use --anchor circular with an explicit orientation")
+    t = np.atleast_1d(np.asarray(tdb_s, dtype=float))
+    return np.asarray(ephemeris.state(body, _epoch(t), center, "j2000-equator")).reshape(t.size, 6)
+
+
+def secondary_series(system, tdb_s):
+    """Position, velocity and acceleration of the secondary relative to the primary (km, km/s,
+    km/s^2, EME2000) from Chebyshev series fitted to its ephemeris positions.
+
+    Chebyshev interpolation at the points of the first kind on each segment
+    ``[k, k + 1] * SERIES_SEGMENT_S`` (TDB seconds since J2000) and the derivative recurrences
+    ``T'_{j+1} = 2 T_j + 2u T'_j - T'_{j-1}``, ``T''_{j+1} = 4 T'_j + 2u T''_j - T''_{j-1}``
+    (Press et al., *Numerical Recipes*, 3rd ed., 2007, sec. 5.8-5.9).
+    """
+    t = np.atleast_1d(np.asarray(tdb_s, dtype=float))
+    h = SERIES_SEGMENT_S
+    n = SERIES_DEGREE + 1
+    seg = np.floor(t / h)
+    uniq, inv = np.unique(seg, return_inverse=True)
+    start = uniq * h                                                         # exact (integers)
+    nodes = np.cos(np.pi * (np.arange(n) + 0.5) / n)
+    times = start[:, None] + 0.5 * (nodes[None, :] + 1.0) * h                # (M, n), rounded
+    pos = secondary_state(system, times.ravel())[:, :3].reshape(uniq.size, n, 3)
+    # the series interpolates at the node times actually used (rounded to double), so that
+    # rounding of ~1e-7 s does not become a 0.1 mm error at lunar speed
+    uk = 2.0 * (times - start[:, None]) / h - 1.0
+    coef = np.linalg.solve(np.polynomial.chebyshev.chebvander(uk, n - 1), pos)   # (M, n, 3)
+    u = 2.0 * (t - seg * h) / h - 1.0
+    T = np.empty((t.size, n))
+    D1 = np.empty_like(T)
+    D2 = np.empty_like(T)
+    T[:, 0], D1[:, 0], D2[:, 0] = 1.0, 0.0, 0.0
+    if n > 1:
+        T[:, 1], D1[:, 1], D2[:, 1] = u, 1.0, 0.0
+    for j in range(1, n - 1):
+        T[:, j + 1] = 2.0 * u * T[:, j] - T[:, j - 1]
+        D1[:, j + 1] = 2.0 * T[:, j] + 2.0 * u * D1[:, j] - D1[:, j - 1]
+        D2[:, j + 1] = 4.0 * D1[:, j] + 2.0 * u * D2[:, j] - D2[:, j - 1]
+    c = coef[inv]                                                            # (N, n, 3)
+    r = np.einsum("nj,njx->nx", T, c)
+    v = np.einsum("nj,njx->nx", D1, c) * (2.0 / h)
+    a = np.einsum("nj,njx->nx", D2, c) * (2.0 / h) ** 2
+    return r, v, a
+
+
+# ---- elementary rotations ----------------------------------------------------------------
+
+def _r1(a):
+    c, s = np.cos(a), np.sin(a)
+    o, z = np.ones_like(c), np.zeros_like(c)
+    return np.stack([np.stack([o, z, z], -1), np.stack([z, c, -s], -1), np.stack([z, s, c], -1)], -2)
+
+
+def _r3(a):
+    c, s = np.cos(a), np.sin(a)
+    o, z = np.ones_like(c), np.zeros_like(c)
+    return np.stack([np.stack([c, -s, z], -1), np.stack([s, c, z], -1), np.stack([z, z, o], -1)], -2)
+
+
+#: EME2000 -> J2000 ecliptic: v_ecl = ECL_FROM_EQ @ v_eq.
+ECL_FROM_EQ = _r1(-OBLIQUITY_J2000_RAD)
+
+
+def _axes_from_eq(axes: str) -> np.ndarray:
+    return ECL_FROM_EQ if axes == "j2000-ecliptic" else np.eye(3)
+
+
+# ---- the frame specification -------------------------------------------------------------
+
+@dataclass(frozen=True)
+class Orientation:
+    """Orientation of the secondary's orbit plane at the epoch (circular anchoring).
+
+    Attributes
+    ----------
+    inclination_deg, node_deg : float
+        Inclination and longitude of the ascending node relative to ``plane``.
+    latitude_arg_deg : float
+        Argument of latitude of the secondary at the epoch (angle from the node).
+    plane : str
+        ``"j2000-ecliptic"`` or ``"j2000-equator"``.
+    source : str
+        ``"explicit"`` or ``"osculating ephemeris at epoch"``.
+    """
+
+    inclination_deg: float
+    node_deg: float
+    latitude_arg_deg: float
+    plane: str = "j2000-ecliptic"
+    source: str = "explicit"
+
+    def matrix(self, u_extra=0.0) -> np.ndarray:
+        """Rotating axes in EME2000 axes, ``C = A R3(node) R1(i) R3(u0 + u_extra)``."""
+        d = math.radians
+        c = _r3(d(self.node_deg)) @ _r1(d(self.inclination_deg)) @ _r3(d(self.latitude_arg_deg) + np.asarray(u_extra))
+        return np.swapaxes(_axes_from_eq(self.plane), -1, -2) @ c
+
+    def to_dict(self) -> dict:
+        return {"inclination_deg": self.inclination_deg, "node_deg": self.node_deg,
+                "latitude_arg_deg": self.latitude_arg_deg, "plane": self.plane, "source": self.source}
+
+
+def orientation_from_ephemeris(system, epoch_tdb_s: float, plane: str = "j2000-ecliptic") -> Orientation:
+    """Osculating orbit plane, node and argument of latitude of the secondary at an epoch.
+
+    From the relative state (r, v): the plane normal is r x v; angles relative to ``plane``
+    (common practice, e.g. Vallado, *Fundamentals of Astrodynamics and Applications*, 4th ed.,
+    2013, sec. 2.5, from memory).
+    """
+    rr, vv, _ = secondary_series(system, np.array([epoch_tdb_s]))
+    a = _axes_from_eq(plane)
+    r, v = a @ rr[0], a @ vv[0]
+    h = np.cross(r, v)
+    zh = h / np.linalg.norm(h)
+    inc = math.acos(max(-1.0, min(1.0, zh[2])))
+    node = math.atan2(zh[0], -zh[1])
+    n = np.array([math.cos(node), math.sin(node), 0.0])
+    xh = r / np.linalg.norm(r)
+    u = math.atan2(float(np.dot(np.cross(n, xh), zh)), float(np.dot(n, xh)))
+    return Orientation(math.degrees(inc), math.degrees(node) % 360.0, math.degrees(u) % 360.0,
+                       plane, "osculating ephemeris at epoch")
+
+
+@dataclass(frozen=True)
+class FrameSpec:
+    """Where a CR3BP trajectory is put: epoch, anchoring, axes and centre.
+
+    Build with :func:`frame`. ``epoch_tdb_s`` is the epoch of rotating time 0 in TDB
+    seconds since J2000 (2000-01-01T12:00:00 TDB).
+    """
+
+    system: object
+    epoch_tdb_s: float
+    anchor: str = "ephemeris"
+    axes: str = "j2000-equator"
+    center: str = "primary"
+    orientation: Orientation | None = None
+    extra: dict = field(default_factory=dict, compare=False, repr=False)
+
+    @property
+    def center_x(self) -> float:
+        """Rotating x of the centre (nondimensional)."""
+        mu = self.system.mu
+        return {"primary": -mu, "barycenter": 0.0, "secondary": 1.0 - mu}[self.center]
+
+    @property
+    def center_name(self) -> str:
+        """Plain name of the centre, e.g. ``"earth"`` or ``"earth-moon barycenter"``."""
+        p, s = self.system.names
+        return {"primary": p, "secondary": s, "barycenter": f"{p}-{s} barycenter"}[self.center]
+
+    def to_dict(self) -> dict:
+        return {
+            "system": self.system.name, "mu": self.system.mu,
+            "length_km": self.system.length_km, "time_s": self.system.time_s,
+            "epoch_tdb_s": self.epoch_tdb_s,
+            "epoch_tdb": str(epoch_to_text(self.epoch_tdb_s, "TDB")),
+            "anchor": self.anchor, "axes": self.axes, "center": self.center,
+            "center_name": self.center_name,
+            "orientation": None if self.orientation is None else self.orientation.to_dict(),
+        }
+
+    @classmethod
+    def from_dict(cls, d: dict) -> "FrameSpec":
+        """Rebuild a spec written by :meth:`to_dict` (system by name, or by mu and units)."""
+        from .systems import system
+        try:
+            sysm = system(d["system"])
+            if abs(sysm.mu - float(d["mu"])) > 1e-15 * max(1.0, sysm.mu):
+                raise InputError("mu differs")
+        except InputError:
+            sysm = system(mu=float(d["mu"]), length_km=float(d["length_km"]), time_s=float(d["time_s"]))
+        o = d.get("orientation")
+        ori = None if o is None else Orientation(float(o["inclination_deg"]), float(o["node_deg"]),
+                                                 float(o["latitude_arg_deg"]), o["plane"], o.get("source", "explicit"))
+        return cls(sysm, float(d["epoch_tdb_s"]), d["anchor"], d["axes"], d["center"], ori)
+
+
+def _choice(name, value, allowed):
+    v = str(value).strip().lower()
+    if v not in allowed:
+        raise InputError(f"unknown {name} '{value}'; allowed: {', '.join(allowed)}")
+    return v
+
+
+def resolve_center(system, center: str) -> str:
+    """``"moon"``/``"earth"``/``"barycenter"``/``"primary"``... -> primary|secondary|barycenter."""
+    key = str(center).strip().lower()
+    p, s = (n.lower() for n in system.names)
+    table = {"primary": "primary", "secondary": "secondary", "barycenter": "barycenter",
+             "barycentre": "barycenter", p: "primary", s: "secondary"}
+    if key not in table:
+        raise InputError(f"unknown centre '{center}'; allowed: {p}, {s}, barycenter")
+    return table[key]
+
+
+def frame(system, epoch, *, anchor="ephemeris", axes="j2000-equator", center="primary",
+          orientation=None, time_scale="UTC") -> FrameSpec:
+    """A validated :class:`FrameSpec`.
+
+    Parameters
+    ----------
+    system : System
+        Must have dimensional units.
+    epoch : str or float
+        ISO 8601 text (``Z`` = UTC, or a trailing ``TDB``/``TT``/``TAI``/``UTC``; bare text is
+        read on ``time_scale``), or TDB seconds since J2000.
+    anchor : {"ephemeris", "circular"}
+    axes : {"j2000-equator", "j2000-ecliptic", "rotating"}
+    center : str
+        ``"primary"``, ``"secondary"``, ``"barycenter"`` or a primary's name.
+    orientation : Orientation or (inclination_deg, node_deg, latitude_arg_deg), optional
+        Circular anchoring only; default from the secondary's ephemeris at the epoch.
+
+    Raises
+    ------
+    InputError
+        Unknown names, a system without units, an epoch outside the ephemeris validity.
+    """
+    system.require_dimensional("an epoch-anchored frame")
+    anchor = _choice("anchoring", anchor, ANCHORS)
+    axes = _choice("frame", axes, AXES)
+    center = resolve_center(system, center)
+    t0 = epoch_from_text(epoch, time_scale) if isinstance(epoch, str) else float(epoch)
+    if not math.isfinite(t0):
+        raise InputError(f"epoch {epoch!r} is not finite")
+    ori = None
+    if anchor == "circular":
+        if orientation is None:
+            ori = orientation_from_ephemeris(system, t0)
+        elif isinstance(orientation, Orientation):
+            ori = orientation
+        else:
+            try:
+                i, n, u = (float(x) for x in orientation)
+            except (TypeError, ValueError):
+                raise InputError(f"orientation {orientation!r} must be three angles in degrees: "
+                                 "inclination, node, argument of latitude") from None
+            if not all(math.isfinite(x) for x in (i, n, u)) or not 0.0 <= i <= 180.0:
+                raise InputError(f"orientation {orientation!r}: angles must be finite and the "
+                                 "inclination within [0, 180] degrees")
+            ori = Orientation(i, n, u)
+    elif orientation is not None:
+        raise InputError("an orientation goes with the circular anchoring only")
+    else:
+        secondary_series(system, np.array([t0]))  # validity check of the epoch now, not later
+    return FrameSpec(system, t0, anchor, axes, center, ori)
+
+
+# ---- the kinematics of the rotating axes -------------------------------------------------
+
+def basis(spec: FrameSpec, tdb_s):
+    """Rotating axes at epochs: ``(C, w, l, ldot)``.
+
+    Returns
+    -------
+    C : ndarray (N, 3, 3)   columns = rotating axes in the output axes
+    w : ndarray (N, 3)      angular velocity of the rotating axes, on those axes, rad/s
+    l : ndarray (N,)        length scale, km
+    ldot : ndarray (N,)     its rate, km/s
+    """
+    t = np.atleast_1d(np.asarray(tdb_s, dtype=float))
+    n = t.size
+    sysm = spec.system
+    if spec.axes == "rotating":
+        return (np.broadcast_to(np.eye(3), (n, 3, 3)), np.zeros((n, 3)),
+                np.full(n, sysm.length_km), np.zeros(n))
+    a = _axes_from_eq(spec.axes)
+    if spec.anchor == "circular":
+        tau = (t - spec.epoch_tdb_s) / sysm.time_s
+        c = a @ spec.orientation.matrix(tau)
+        w = np.zeros((n, 3))
+        w[:, 2] = 1.0 / sysm.time_s
+        return c, w, np.full(n, sysm.length_km), np.zeros(n)
+    r, v, acc = secondary_series(sysm, t)
+    rn = np.linalg.norm(r, axis=1)
+    h = np.cross(r, v)
+    hn = np.linalg.norm(h, axis=1)
+    xh = r / rn[:, None]
+    zh = h / hn[:, None]
+    yh = np.cross(zh, xh)
+    c = np.stack([xh, yh, zh], axis=-1)          # columns
+    w = np.zeros((n, 3))
+    w[:, 0] = rn * np.einsum("ij,ij->i", acc, zh) / hn
+    w[:, 2] = hn / rn**2
+    c = a @ c
+    return c, w, rn, np.einsum("ij,ij->i", r, v) / rn
+
+
+def _epochs(spec, t_tu):
+    return spec.epoch_tdb_s + np.asarray(t_tu, dtype=float) * spec.system.time_s
+
+
+def to_frame(spec: FrameSpec, t_tu, states) -> tuple[np.ndarray, np.ndarray]:
+    """Nondimensional rotating states at rotating times -> (epochs TDB s, states km & km/s).
+
+    Parameters
+    ----------
+    spec : FrameSpec
+    t_tu : array (N,)          rotating times, TU from the epoch
+    states : array (N, 6)      nondimensional barycentric rotating states
+
+    Returns
+    -------
+    tdb_s : ndarray (N,)       epochs, TDB seconds since J2000
+    out : ndarray (N, 6)       position (km) and velocity (km/s) relative to the centre, on the
+                               spec's axes
+    """
+    t_tu = np.atleast_1d(np.asarray(t_tu, dtype=float))
+    s = np.atleast_2d(np.asarray(states, dtype=float))
+    if s.shape != (t_tu.size, 6):
+        raise InputError(f"states have shape {s.shape}; expected ({t_tu.size}, 6) to match the times")
+    tdb = _epochs(spec, t_tu)
+    c, w, l, ld = basis(spec, tdb)
+    rho = s[:, :3].copy()
+    rho[:, 0] -= spec.center_x
+    rot_v = ld[:, None] * rho + l[:, None] * np.cross(w, rho) + (l / spec.system.time_s)[:, None] * s[:, 3:]
+    out = np.empty_like(s)
+    out[:, :3] = np.einsum("nij,nj->ni", c, l[:, None] * rho)
+    out[:, 3:] = np.einsum("nij,nj->ni", c, rot_v)
+    return tdb, out
+
+
+def from_frame(spec: FrameSpec, tdb_s, states_km) -> tuple[np.ndarray, np.ndarray]:
+    """Inverse of :func:`to_frame`: (epochs TDB s, km & km/s states) -> (t TU, rotating states)."""
+    tdb = np.atleast_1d(np.asarray(tdb_s, dtype=float))
+    s = np.atleast_2d(np.asarray(states_km, dtype=float))
+    if s.shape != (tdb.size, 6):
+        raise InputError(f"states have shape {s.shape}; expected ({tdb.size}, 6) to match the epochs")
+    c, w, l, ld = basis(spec, tdb)
+    ct = np.swapaxes(c, -1, -2)
+    rho = np.einsum("nij,nj->ni", ct, s[:, :3]) / l[:, None]
+    rv = np.einsum("nij,nj->ni", ct, s[:, 3:])
+    vel = (spec.system.time_s / l)[:, None] * (rv - ld[:, None] * rho - l[:, None] * np.cross(w, rho))
+    out = np.empty_like(s)
+    out[:, :3] = rho
+    out[:, 0] += spec.center_x
+    out[:, 3:] = vel
+    return (tdb - spec.epoch_tdb_s) / spec.system.time_s, out
+
+
+def delta_v_to_frame(spec: FrameSpec, t_tu, dv) -> np.ndarray:
+    """Impulsive velocity changes (nondimensional, rotating axes) -> km/s on the spec's axes.
+
+    Position is continuous across an impulse, so only the ``(l / T) C rho'`` term changes:
+    ``dV = (l / T) C dv``.
+    """
+    t_tu = np.atleast_1d(np.asarray(t_tu, dtype=float))
+    dv = np.atleast_2d(np.asarray(dv, dtype=float))
+    c, _, l, _ = basis(spec, _epochs(spec, t_tu))
+    return np.einsum("nij,nj->ni", c, (l / spec.system.time_s)[:, None] * dv)
+
+
+def delta_v_from_frame(spec: FrameSpec, tdb_s, dv_kms) -> np.ndarray:
+    """Inverse of :func:`delta_v_to_frame`."""
+    c, _, l, _ = basis(spec, tdb_s)
+    return np.einsum("nji,nj->ni", c, np.atleast_2d(dv_kms)) * (spec.system.time_s / l)[:, None]
+
+
+def with_(spec: FrameSpec, **changes) -> FrameSpec:
+    """A copy of ``spec`` with other axes/centre (validated)."""
+    if "axes" in changes:
+        changes["axes"] = _choice("frame", changes["axes"], AXES)
+    if "center" in changes:
+        changes["center"] = resolve_center(spec.system, changes["center"])
+    return replace(spec, **changes)

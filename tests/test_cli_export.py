@@ -1,0 +1,212 @@
+"""``librate export`` and ``librate convert`` end to end."""
+
+import json
+import re
+import subprocess
+import sys
+
+import numpy as np
+import pytest
+
+from cr3bp import export, frames, propagate, system
+from librate_cli.main import main
+
+EM = system("earth-moon")
+# UTC in the 2030s is past the leap-second table: the time-scale module warns, as it should
+pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.timescales.LeapSecondsExpiredWarning")
+STATE = "1.15,0,0.12,0,-0.2,0"
+BASE = ["export", "--system", "earth-moon", f"--state={STATE}", "--period", "3.1TU",
+        "--epoch", "2031-03-01T00:00:00Z", "--span", "1periods", "--step", "2h", "-q"]
+
+
+@pytest.mark.parametrize("fmt", ["oem", "csv", "json"])
+def test_export_state_each_format(tmp_path, fmt, capsys):
+    out = tmp_path / f"relay.{fmt}"
+    assert main(BASE + ["--out", str(out), "--time-system", "utc", "--center", "moon"]) == 0
+    data = export.read(out)
+    assert data.time_system == "UTC" and data.frame.center == "secondary"
+    seg = data.segments[0]
+    # span 1 period = 3.1 TU = 13.46 d at a 2 h step: floor(13.46*12)+1 samples
+    assert len(seg.epochs) == int(3.1 * EM.time_s / 7200) + 1
+    assert str(seg.epochs[0]).startswith("2031-03-01T00:00:00")
+    # the numbers: the exported states are the CR3BP propagation put in the frame
+    t_tu = (seg.tdb_s - data.frame.epoch_tdb_s) / EM.time_s
+    arc = propagate(EM, [float(x) for x in STATE.split(",")], float(t_tu[-1]), t_eval=t_tu)
+    _, want = frames.to_frame(data.frame, t_tu, arc.states)
+    assert np.max(np.linalg.norm(seg.states[:, :3] - want[:, :3], axis=1)) < 1e-6  # 1 mm
+    assert "CAUTION" in out.read_text()
+
+
+def test_export_km_state_matches_nondimensional(tmp_path):
+    s = np.array([float(x) for x in STATE.split(",")])
+    km = np.concatenate([s[:3] * EM.length_km, s[3:] * EM.velocity_kms])
+    a, b = tmp_path / "a.json", tmp_path / "b.json"
+    assert main(BASE + ["--out", str(a)]) == 0
+    args = [x if not x.startswith("--state=") else "--state=" + ",".join(repr(float(v)) for v in km) for x in BASE]
+    assert main(args + ["--km", "--out", str(b)]) == 0
+    sa, sb = export.read(a).segments[0].states, export.read(b).segments[0].states
+    assert np.max(np.abs(sa - sb)) < 1e-6
+
+
+def test_convert_round_trip_oem_csv_json(tmp_path):
+    oem = tmp_path / "a.oem"
+    assert main(BASE + ["--out", str(oem), "--anchor", "circular"]) == 0
+    csvf, js, oem2 = tmp_path / "b.csv", tmp_path / "c.json", tmp_path / "d.oem"
+    assert main(["convert", str(oem), str(csvf), "--frame", "j2000-ecliptic", "--center", "moon",
+                 "--time-system", "tai", "-q"]) == 0
+    assert main(["convert", str(csvf), str(js), "--frame", "rotating", "--center", "barycenter", "-q"]) == 0
+    assert main(["convert", str(js), str(oem2), "--frame", "j2000-equator", "--center", "earth",
+                 "--time-system", "tdb", "-q"]) == 0
+    a, d = export.read(oem), export.read(oem2)
+    sa, sd = a.segments[0], d.segments[0]
+    assert np.max(np.abs(sa.tdb_s - sd.tdb_s)) < 2e-6   # epochs written to 1 us, via TAI
+    # three conversions, each rounding to 0.1 mm and 1 us: within a few mm
+    assert np.max(np.linalg.norm(sa.states[:, :3] - sd.states[:, :3], axis=1)) < 5e-6
+    assert np.max(np.linalg.norm(sa.states[:, 3:] - sd.states[:, 3:], axis=1)) < 5e-9
+    c = json.loads(js.read_text())
+    assert c["frame"]["axes"] == "rotating" and c["ref_frame"] == "CR3BP_ROTATING"
+
+
+def test_export_from_a_rotating_state_file(tmp_path):
+    arc = propagate(EM, [float(x) for x in STATE.split(",")], 1.0, t_eval=np.linspace(0, 1, 11))
+    src = tmp_path / "arc.csv"
+    src.write_text("t,x,y,z,vx,vy,vz\n" + "".join(",".join(repr(float(v)) for v in [t, *s]) + "\n"
+                                               for t, s in zip(arc.t, arc.states)))
+    out = tmp_path / "arc.oem"
+    assert main(["export", "--system", "earth-moon", "--from", str(src), "--epoch", "2031-03-01T00:00:00Z",
+                 "--out", str(out), "-q"]) == 0
+    assert len(export.read(out).segments[0].epochs) == 11
+    out2 = tmp_path / "arc2.oem"
+    assert main(["export", "--system", "earth-moon", "--from", str(src), "--epoch", "2031-03-01T00:00:00Z",
+                 "--step", "1h", "--out", str(out2), "-q"]) == 0
+    assert len(export.read(out2).segments[0].epochs) == int(EM.time_s / 3600) + 1
+
+
+BAD = [
+    (["--epoch", "2031-02-30T00:00:00Z"], "not a valid date|has day 30"),
+    (["--epoch", "next tuesday"], "not an ISO 8601"),
+    (["--frame", "galactic"], "invalid choice"),
+    (["--center", "mars"], "unknown centre"),
+    (["--step", "20d"], "larger than the span"),
+    (["--step", "0min"], "must be positive"),
+    (["--step", "-5min"], "must be positive"),
+    (["--epoch", "2199-01-01T00:00:00Z"], "outside the (ephemeris )?validity"),
+    (["--span", "3periods", "--period", "abc"], "not a number"),
+    (["--time-system", "gps"], "invalid choice"),
+]
+
+
+@pytest.mark.parametrize("extra, words", BAD)
+def test_bad_inputs_exit_2_and_write_nothing(tmp_path, capsys, extra, words):
+    out = tmp_path / "x.oem"
+    args = list(BASE)
+    for i in range(0, len(extra), 2):
+        if extra[i] in args:
+            j = args.index(extra[i])
+            del args[j:j + 2]
+        args.append(f"{extra[i]}={extra[i + 1]}")
+    try:
+        rc = main(args + ["--out", str(out)])
+    except SystemExit as e:          # argparse choices
+        rc = e.code
+    assert rc == 2
+    err = capsys.readouterr().err
+    assert re.search(words, err), err
+    # one line of ours (argparse's own refusals come after its usage lines)
+    assert err.strip().splitlines()[-1].startswith(("librate: error:", "librate export: error:"))
+    assert "Traceback" not in err
+    assert not list(tmp_path.iterdir())
+
+
+def test_orbit_spec_not_available_yet_is_one_clear_line(tmp_path, capsys):
+    try:
+        import cr3bp.orbits.request  # noqa: F401
+        pytest.skip("orbit requests are available: covered by the orbits tests")
+    except ImportError:
+        pass
+    rc = main(["export", "--system", "earth-moon", "--orbit", "halo L2 south period=6.5626d",
+               "--epoch", "2031-03-01T00:00:00Z", "--span", "1periods", "--step", "1h",
+               "--out", str(tmp_path / "h.oem")])
+    assert rc == 2
+    assert "not available yet" in capsys.readouterr().err
+    assert not list(tmp_path.iterdir())
+
+
+def test_oem_rotating_refused_and_convert_of_foreign_file(tmp_path, capsys):
+    rc = main(BASE + ["--frame", "rotating", "--out", str(tmp_path / "r.oem")])
+    assert rc == 2 and "OEM needs inertial axes" in capsys.readouterr().err
+    foreign = tmp_path / "f.csv"
+    foreign.write_text("a,b\n1,2\n")
+    rc = main(["convert", str(foreign), str(tmp_path / "g.json")])
+    assert rc == 2
+    assert not (tmp_path / "g.json").exists() and not (tmp_path / "r.oem").exists()
+
+
+def test_shell_command(tmp_path):
+    out = tmp_path / "s.oem"
+    r = subprocess.run([sys.executable, "-m", "librate_cli.main"] + BASE[:-1] + ["--out", str(out)],
+                       capture_output=True, text=True, timeout=120)
+    assert r.returncode == 0, r.stderr
+    assert "CAUTION" in r.stdout and out.exists()
+
+
+def test_orbit_spec_wiring_with_a_stand_in_solver(tmp_path, monkeypatch):
+    """The --orbit path: the request goes to cr3bp.orbits.request.solve_request, the orbit's
+    period drives '--span 2periods', the orbit is named in the file. The solver is replaced
+    here by one that returns a fixed small L2 halo (corrected by single shooting when this
+    test was written: periodic to 2e-10 over one period); the real solver is tested by the
+    orbits work."""
+    import sys
+    import types
+    from cr3bp.orbits import PeriodicOrbit
+    halo = PeriodicOrbit(EM, np.array([1.1805030863028119, 0, -0.02, 0, -0.15813432716819675, 0]),
+                         3.4122572917029457, np.eye(6), "halo", "L2", "south", jacobi=3.15)
+    calls = []
+
+    def solve_request(system, spec, catalog=None, progress=None):
+        calls.append((system.name, spec))
+        return halo
+    mod = types.ModuleType("cr3bp.orbits.request")
+    mod.solve_request = solve_request
+    monkeypatch.setitem(sys.modules, "cr3bp.orbits.request", mod)
+    out = tmp_path / "halo.oem"
+    assert main(["export", "--system", "earth-moon", "--orbit", "halo L2 south period=14.8d", "--epoch",
+                 "2031-03-01T00:00:00Z", "--span", "2periods", "--step", "6h", "--out", str(out), "-q"]) == 0
+    assert calls == [("earth-moon", "halo L2 south period=14.8d")]
+    seg = export.read(out).segments[0]
+    assert len(seg.epochs) == int(2 * halo.period * EM.time_s / 21600) + 1
+    text = out.read_text()
+    assert "COMMENT orbit: halo L2 south" in text and "COMMENT orbit request: halo L2 south period=14.8d" in text
+
+
+def test_other_systems_and_missing_period(tmp_path, capsys):
+    se = tmp_path / "se.oem"
+    assert main(["export", "--system", "sun-earth", "--state", "1.01,0,0.001,0,0.009,0", "--epoch",
+                 "2031-03-01T00:00:00Z", "--span", "30d", "--step", "1d", "--center", "earth-moon",
+                 "--out", str(se), "-q"]) == 0
+    d = export.read(se)
+    assert d.segments[0].metadata["CENTER_NAME"] == "EARTH-MOON BARYCENTER" and len(d.segments[0].epochs) == 31
+    # about 1.5 million km from the Earth-Moon barycentre near Sun-Earth L2 (1.01 au - 1 au)
+    r = np.linalg.norm(d.segments[0].states[0, :3])
+    assert 1.3e6 < r < 1.7e6
+    custom = ["export", "--mu", "0.01", "--length-km", "100000", "--time-s", "50000", "--state",
+              "0.8,0,0,0,0.1,0", "--epoch", "2031-03-01T00:00:00Z", "--span", "2d", "--step", "1h"]
+    assert main(custom + ["--out", str(tmp_path / "c1.oem")]) == 2
+    assert "no named primaries" in capsys.readouterr().err
+    assert main(custom + ["--anchor", "circular", "--orientation", "10,20,30", "--out",
+                          str(tmp_path / "c2.oem"), "-q"]) == 0
+    assert not (tmp_path / "c1.oem").exists() and (tmp_path / "c2.oem").exists()
+    args = [a for a in BASE if a not in ("--period", "3.1TU")]
+    assert main(args + ["--span", "3periods", "--out", str(tmp_path / "p.oem")]) == 2
+    assert "no period" in capsys.readouterr().err
+    assert not (tmp_path / "p.oem").exists()
+
+
+def test_utc_past_the_leap_second_table_is_one_note(tmp_path, capsys):
+    out = tmp_path / "u.oem"
+    assert main(BASE + ["--time-system", "utc", "--out", str(out)]) == 0
+    err = capsys.readouterr().err
+    notes = [ln for ln in err.splitlines() if "leap-second table" in ln]
+    assert len(notes) == 1 and notes[0].startswith("librate: note:")
+    assert "Warning" not in err
+    assert "COMMENT UTC epochs: leap-second table valid until" in out.read_text()
