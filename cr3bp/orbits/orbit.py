@@ -1,10 +1,31 @@
-"""The ``PeriodicOrbit`` result type shared by orbits, manifolds, connections and export."""
+"""The ``PeriodicOrbit`` result type shared by orbits, manifolds, connections and export.
+
+Geometry conventions (used by the CLI, the catalogue and the targets):
+
+* ``amplitude_lu = (Ax, Ay, Az)``: ``Ax`` and ``Ay`` are half the extent of the orbit in x
+  and y; ``Az`` is the largest ``|z|`` (the out-of-plane excursion from the plane of the
+  primaries). For small halo and vertical orbits ``Az`` equals half the z extent.
+* ``closest_approach_lu = (d1, d2)``: least distance from the centre of each primary over
+  one period (perilune radius for an Earth–Moon orbit is ``d2``).
+* Halo branches: ``north`` when ``z > 0`` at the perpendicular crossing farther from the
+  smaller primary (the apolune side for L1/L2; for L3, farther from the larger primary),
+  ``south`` when ``z < 0`` there. With this convention the Earth–Moon L2 southern
+  near-rectilinear halos have their apolune south of the plane (common practice). Families
+  start every member at that far crossing: the full-period map is far less sensitive there
+  than at perilune, so the periodicity error of near-rectilinear orbits stays at 1e-13
+  instead of 1e-10.
+"""
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 
 import numpy as np
+
+from . import stability as _stab
+
+_NAN3 = (float("nan"),) * 3
 
 
 @dataclass(frozen=True)
@@ -19,8 +40,13 @@ class PeriodicOrbit:
     monodromy : ndarray (6, 6)  STM over one period from ``state``
     family, point, branch : str  e.g. "halo", "L2", "south" ("" where not meaningful)
     jacobi : float
-    periodicity_error : float  |s(T) - s(0)| of the converged orbit, nondimensional
+    periodicity_error : float  |s(T) - s(0)| of the converged orbit, nondimensional, from a
+        propagation over the full period
     iterations : int          corrector iterations used
+    amplitude_lu : (Ax, Ay, Az) in LU (see module notes)
+    closest_approach_lu : (d1, d2) least distance to each primary's centre, LU
+    symmetry : str            "xz" (x-z plane), "x-axis", or "none"
+    extra : dict              anything else (method, residual history, ...)
     """
 
     system: object
@@ -34,3 +60,84 @@ class PeriodicOrbit:
     periodicity_error: float = float("nan")
     iterations: int = 0
     extra: dict = field(default_factory=dict, compare=False, repr=False)
+    amplitude_lu: tuple = _NAN3
+    closest_approach_lu: tuple = (float("nan"), float("nan"))
+    symmetry: str = "xz"
+
+    # ---- derived values --------------------------------------------------------------
+    @property
+    def period_days(self) -> float:
+        return self.system.days(self.period) if self.system.dimensional else float("nan")
+
+    @property
+    def stability_indices(self):
+        """The two non-trivial stability indices nu = (lambda + 1/lambda)/2 (see :mod:`.stability`)."""
+        return _stab.stability_indices(self.monodromy)
+
+    @property
+    def eigenvalues(self) -> np.ndarray:
+        return _stab.eigenvalues(self.monodromy)
+
+    @property
+    def stable(self) -> bool:
+        return _stab.is_stable(self.stability_indices)
+
+    @property
+    def largest_multiplier(self) -> float:
+        return _stab.largest_multiplier(self.stability_indices)
+
+    @property
+    def e_folding_tu(self) -> float:
+        """Time for the most unstable mode to grow by e: ``T / ln|lambda_max|`` (inf if stable)."""
+        lam = self.largest_multiplier
+        return self.period / math.log(lam) if lam > 1.0 + 1e-9 else float("inf")
+
+    @property
+    def e_folding_days(self) -> float:
+        t = self.e_folding_tu
+        return self.system.days(t) if (self.system.dimensional and math.isfinite(t)) else (
+            float("inf") if not math.isfinite(t) else float("nan"))
+
+    @property
+    def amplitude_km(self) -> dict:
+        f = self.system.length_km if self.system.dimensional else float("nan")
+        return {k: v * f for k, v in zip("xyz", self.amplitude_lu)}
+
+    @property
+    def closest_approach_km(self) -> dict:
+        f = self.system.length_km if self.system.dimensional else float("nan")
+        return {n: d * f for n, d in zip(self.system.names, self.closest_approach_lu)}
+
+    def to_dict(self) -> dict:
+        nus = self.stability_indices
+        nu_out = [float(n.real) if isinstance(n, complex) else float(n) for n in nus]
+        d = {
+            "system": self.system.name,
+            "family": self.family,
+            "point": self.point,
+            "branch": self.branch,
+            "state": [float(v) for v in self.state],
+            "period": float(self.period),
+            "period_days": _num(self.period_days),
+            "jacobi": float(self.jacobi),
+            "stability_indices": nu_out,
+            "stability_complex": any(isinstance(n, complex) for n in nus),
+            "stable": self.stable,
+            "e_folding_days": _num(self.e_folding_days),
+            "periodicity_error": float(self.periodicity_error),
+            "iterations": int(self.iterations),
+            "amplitude_km": {k: _num(v) for k, v in self.amplitude_km.items()},
+            "amplitude_lu": {k: float(v) for k, v in zip("xyz", self.amplitude_lu)},
+            "closest_approach_km": {k: _num(v) for k, v in self.closest_approach_km.items()},
+            "closest_approach_lu": {n: float(v) for n, v in zip(self.system.names, self.closest_approach_lu)},
+            "approach_lu": [float(v) for v in self.closest_approach_lu],
+            "symmetry": self.symmetry,
+        }
+        if self.extra.get("periodicity_note"):
+            d["periodicity_note"] = self.extra["periodicity_note"]
+        return d
+
+
+def _num(v):
+    v = float(v)
+    return v if math.isfinite(v) else None

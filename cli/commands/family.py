@@ -1,0 +1,150 @@
+"""librate family: grow a family of periodic orbits, with its stability and bifurcations."""
+
+from .. import common
+from . import _orbit_options as oo
+
+NAME = "family"
+ORDER = 50
+HELP = "grow a family of periodic orbits: table of members, stability indices, bifurcations, plots"
+EXAMPLE = "librate family --system earth-moon --family lyapunov --point L1 --members 300 --format csv"
+
+UNTIL = ("jacobi", "period", "az", "ax", "perilune")
+
+
+def add_arguments(p):
+    common.add_system_options(p)
+    oo.add_family_options(p)
+    g = p.add_argument_group("extent")
+    g.add_argument("--members", type=int, default=200, metavar="N", help="largest member count (default 200)")
+    g.add_argument("--until", metavar="KEY=VALUE", help="stop at the member where KEY reaches VALUE "
+                   "(solved exactly); KEY: jacobi, period, az, ax, perilune; e.g. --until period=8d")
+    g.add_argument("--altitude", metavar="LENGTH", help="stop when a member passes below this altitude "
+                   "above a primary (default: its surface)")
+    g.add_argument("--method", choices=("arclength", "natural"), default="arclength",
+                   help="continuation method (default arclength)")
+    g.add_argument("--parameter", choices=("x", "z", "vz", "jacobi", "period"),
+                   help="natural-parameter continuation: the quantity stepped")
+    g.add_argument("--step", metavar="VALUE", help="first step (nondimensional; default per family)")
+    oo.add_catalog_option(p, "also store the family in the orbit catalogue at PATH (default path "
+                          "when PATH is omitted)")
+    p.add_argument("--plot", metavar="PREFIX", help="write PREFIX-family.png (members coloured by Jacobi "
+                   "constant) and PREFIX-stability.png (stability indices vs Jacobi constant and period)")
+    common.add_output_options(p)
+
+
+def _parse_until(system, text):
+    from cr3bp.errors import InputError
+    from cr3bp.orbits import targets
+    if "=" not in text:
+        raise InputError(f"--until {text!r} must be KEY=VALUE with KEY one of {', '.join(UNTIL)}")
+    k, v = (s.strip() for s in text.split("=", 1))
+    if k.lower() not in UNTIL:
+        raise InputError(f"--until key '{k}' is not allowed; use one of {', '.join(UNTIL)}")
+    t = targets.make_target(system, k.lower(), v)
+    return (t.quantity, t.value)
+
+
+def run(args):
+    from cr3bp import units
+    from cr3bp.errors import InputError
+    from cr3bp.orbits import continuation, families
+    from cr3bp.orbits.request import catalog_member, catalog_settings, spec_from_options
+    system = common.resolve_system(args)
+    spec = spec_from_options(args.family, args.point, args.branch, args.ratio)
+    if not 2 <= args.members <= 5000:
+        raise InputError(f"--members {args.members} is outside the allowed range 2..5000")
+    if args.method == "natural" and not args.parameter:
+        raise InputError("--method natural needs --parameter (x, z, vz, jacobi or period)")
+    target = _parse_until(system, args.until) if args.until else None
+    alt = None
+    if args.altitude:
+        system.require_dimensional("--altitude")
+        alt = units.length(args.altitude, system) * system.length_km
+        if alt < 0:
+            raise InputError(f"--altitude {args.altitude} must not be negative")
+    step = None
+    if args.step is not None:
+        step = common._float_arg("--step", args.step)
+        if not 0 < step < 1:
+            raise InputError(f"--step {args.step} is outside the allowed range (0, 1)")
+    stops = continuation.Stops(max_members=args.members, altitude_km=alt, target=target)
+    if args.plot:
+        import os
+        d = os.path.dirname(args.plot) or "."
+        if not os.path.isdir(d):
+            raise InputError(f"--plot {args.plot}: folder {d} does not exist")
+    cat = oo.open_catalog(args)
+    name = " ".join(w for w in (spec.family, spec.point, spec.branch_label) if w)
+    common.progress(args, f"librate family: growing the {system.name} {name} family (up to {args.members} members)")
+    fam = families.grow_family(system, spec.family, spec.point, spec.branch, stops=stops, method=args.method,
+                               parameter=args.parameter, step=step, resonance=spec.resonance,
+                               progress=oo.progress_printer(args, name))
+    common.progress(args, f"done: {len(fam.members)} members; stopped because {fam.stop_reason}")
+    if cat is not None:
+        fid = cat.begin_family(system, spec.family, spec.point, spec.branch_label, catalog_settings(spec, stops))
+        cat.add_members(fid, [catalog_member(m, i) for i, m in enumerate(fam.members)])
+        cat.finish_family(fid, [b.to_dict() for b in fam.bifurcations], complete=True)
+        common.progress(args, f"stored as family {fid} in the catalogue {cat.path}")
+    rows = [_row(i, m.to_dict()) for i, m in enumerate(fam.members)]
+    bifs = [b.to_dict() for b in fam.bifurcations]
+    payload = {"system": system.name, "family": spec.family, "point": spec.point, "branch": spec.branch_label,
+               "stop_reason": fam.stop_reason, "columns": HEADERS,
+               "members": [dict(m.to_dict(), index=i) for i, m in enumerate(fam.members)],
+               "bifurcations": [{"type": b["type"], "member_index": b["member_index"], "jacobi": b["jacobi"],
+                                 "period": b["period"], "period_days": b["period_days"], "note": b["note"],
+                                 "state": b["state"]} for b in bifs],
+               "target": fam.target.to_dict() if fam.target is not None else None}
+    if args.plot:
+        _plots(system, fam, args.plot, name)
+        common.progress(args, f"wrote {args.plot}-family.png and {args.plot}-stability.png")
+    comments = [f"{system.name} {name} family: {len(fam.members)} members; stopped because {fam.stop_reason}"]
+    comments += [f"bifurcation {b['type']} after member {b['member_index']}: Jacobi constant {b['jacobi']:.10f}, "
+                 f"period {b['period']:.10f} TU; {b['note']}" for b in bifs]
+    table = common.format_table(HEADERS, rows, title=comments[0]) + _bif_text(bifs, system)
+    common.emit(args, payload=payload, headers=HEADERS, rows=rows, table=table, comments=comments)
+    return 0
+
+
+HEADERS = ["index", "x", "y", "z", "vx", "vy", "vz", "period", "period_days", "jacobi", "nu1", "nu2",
+           "periodicity_error", "amplitude_x_km", "amplitude_y_km", "amplitude_z_km",
+           "closest_approach_1_km", "closest_approach_2_km"]
+
+
+def _row(i, d):
+    a = d["amplitude_km"]
+    ca = list(d["closest_approach_km"].values())
+    return [i, *d["state"], d["period"], d["period_days"], d["jacobi"], *d["stability_indices"],
+            d["periodicity_error"], a["x"], a["y"], a["z"], *ca]
+
+
+def _bif_text(bifs, system):
+    if not bifs:
+        return "\nno bifurcations detected along the computed members\n"
+    lines = ["", "bifurcations:"]
+    for b in bifs:
+        per = f"{b['period_days']:.6f} d" if b["period_days"] is not None else f"{b['period']:.8f} TU"
+        lines.append(f"  {b['type']:>7} after member {b['member_index']}: Jacobi constant {b['jacobi']:.10f}, "
+                     f"period {per} - {b['note']}")
+    return "\n".join(lines) + "\n"
+
+
+def _plots(system, fam, prefix, name):
+    import numpy as np
+
+    from cr3bp.plotting import save
+    from cr3bp.plotting.orbits import plot_family, plot_stability, trajectory
+    members = fam.members
+    pick = np.unique(np.linspace(0, len(members) - 1, min(len(members), 60)).round().astype(int))
+    trajs = {int(k): trajectory(members[k], 600) for k in pick}
+    jac = [m.jacobi for m in members]
+    full = [trajs.get(k) for k in range(len(members))]
+    fig = plot_family(system, [full[k] for k in pick], [jac[k] for k in pick],
+                      title=f"{system.name} {name} family ({len(members)} members, {len(pick)} drawn)")
+    save(fig, f"{prefix}-family.png", f"{name} family, rotating frame, colour: Jacobi constant")
+    dim = system.dimensional
+    per = [m.period_days if dim else m.period for m in members]
+    nu = [[complex(v).real for v in m.stability_indices] for m in members]
+    bifs = [dict(b.to_dict(), _period_plot=(b.orbit.period_days if dim else b.orbit.period)) for b in fam.bifurcations]
+    fig = plot_stability(jac, per, nu, "d" if dim else "TU", title=f"{system.name} {name}: stability indices",
+                         bifurcations=bifs)
+    save(fig, f"{prefix}-stability.png", f"{name} family stability indices (real parts)")

@@ -1,0 +1,91 @@
+"""librate orbit: one periodic orbit picked out of a family by a target value."""
+
+from .. import common
+from . import _orbit_options as oo
+
+NAME = "orbit"
+ORDER = 40
+HELP = "compute a periodic orbit (halo, Lyapunov, vertical, axial, DRO, resonant) meeting a target"
+EXAMPLE = "librate orbit --system earth-moon --family halo --point L2 --branch south --period 6.5626d"
+
+
+def add_arguments(p):
+    common.add_system_options(p)
+    oo.add_family_options(p)
+    oo.add_target_options(p)
+    oo.add_catalog_option(p)
+    p.add_argument("--plot", metavar="FILE", help="draw the orbit in three views (PNG, PDF or SVG by suffix)")
+    common.add_output_options(p)
+
+
+def run(args):
+    from cr3bp.errors import InputError
+    from cr3bp.orbits.request import solve_request, spec_from_options
+    system = common.resolve_system(args)
+    given = oo.targets_given(args)
+    if not given:
+        raise InputError("give a target: --period, --jacobi, --ax, --ay, --az, --x, --perilune or --resonance")
+    spec = spec_from_options(args.family, args.point, args.branch, args.ratio, **given)
+    if args.plot:
+        _check_plot_path(args.plot)
+    from cr3bp.orbits.targets import make_target
+    make_target(system, spec.key, spec.value)   # bad units fail here, before any work
+    cat = oo.open_catalog(args)
+    common.progress(args, f"librate orbit: solving {spec.family} {spec.point} {spec.branch_label} "
+                    f"{spec.key}={spec.value}".replace("  ", " "))
+    orbit = solve_request(system, spec, catalog=cat, progress=oo.progress_printer(args, "family"))
+    d = orbit.to_dict()
+    if args.plot:
+        from cr3bp.plotting import save
+        from cr3bp.plotting.orbits import plot_orbit
+        fig = plot_orbit(orbit)
+        save(fig, args.plot, f"{spec.family} {spec.point} {spec.branch_label} orbit, rotating frame, "
+             f"primaries to scale; {spec.key} = {spec.value}")
+        common.progress(args, f"wrote {args.plot}")
+    common.emit(args, payload=d, headers=_HEADERS, rows=[_row(d)], table=_table(system, d))
+    return 0
+
+
+_HEADERS = ["family", "point", "branch", "x", "y", "z", "vx", "vy", "vz", "period", "period_days",
+            "jacobi", "nu1", "nu2", "periodicity_error", "amplitude_x_km", "amplitude_y_km",
+            "amplitude_z_km", "closest_approach_1_km", "closest_approach_2_km"]
+
+
+def _row(d):
+    ca = list(d["closest_approach_km"].values())
+    a = d["amplitude_km"]
+    return [d["family"], d["point"], d["branch"], *d["state"], d["period"], d["period_days"], d["jacobi"],
+            *d["stability_indices"], d["periodicity_error"], a["x"], a["y"], a["z"], *ca]
+
+
+def _table(system, d):
+    def km(v):
+        return "-" if v is None else f"{v:,.3f} km"
+    lines = [f"{system.name} {d['family']} {d['point']} {d['branch']}".rstrip() + " periodic orbit", ""]
+    lines.append("initial state (nondimensional, rotating frame, barycentric):")
+    for k, v in zip(("x", "y", "z", "vx", "vy", "vz"), d["state"]):
+        lines.append(f"  {k:<3} {v: .15f}")
+    per_d = "" if d["period_days"] is None else f" = {d['period_days']:.6f} d"
+    lines.append(f"period               {d['period']:.12f} TU{per_d}")
+    lines.append(f"Jacobi constant      {d['jacobi']:.12f}")
+    nu = d["stability_indices"]
+    cplx = " (complex pair: real parts shown)" if d["stability_complex"] else ""
+    lines.append(f"stability indices    {nu[0]:.6g}, {nu[1]:.6g}{cplx}; "
+                 + ("linearly stable" if d["stable"] else "unstable"))
+    if d["e_folding_days"] is not None:
+        lines.append(f"e-folding time       {d['e_folding_days']:.4f} d (most unstable mode)")
+    lines.append(f"periodicity error    {d['periodicity_error']:.2e} (nondimensional, over one period)")
+    a = d["amplitude_km"]
+    lines.append(f"amplitudes           Ax {km(a['x'])}, Ay {km(a['y'])}, Az {km(a['z'])}")
+    for name, v in d["closest_approach_km"].items():
+        lines.append(f"closest approach     {name}: {km(v)} from its centre")
+    return "\n".join(lines) + "\n"
+
+
+def _check_plot_path(path):
+    from pathlib import Path
+
+    from cr3bp.errors import InputError
+    suffix = Path(path).suffix.lower()
+    if suffix not in (".png", ".pdf", ".svg"):
+        raise InputError(f"--plot {path}: the file name must end in .png, .pdf or .svg")

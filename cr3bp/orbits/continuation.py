@@ -1,0 +1,461 @@
+"""Continuation of families of symmetric periodic orbits, bifurcation detection, and solving
+for a member with a given property.
+
+* Pseudo-arclength continuation (Keller, "Numerical solution of bifurcation and nonlinear
+  eigenvalue problems", in *Applications of Bifurcation Theory*, 1977; as applied to halo
+  families by Doedel et al., "Elemental periodic orbits associated with the libration points
+  in the circular restricted 3-body problem", *Int. J. Bifurcation and Chaos* 17, 2007):
+  predictor ``X + ds t`` along the unit null vector ``t`` of the half-period Jacobian, corrector
+  Newton on the half-period conditions plus ``(X - X_k) . t = ds``.
+* Natural-parameter continuation: step one held quantity (``x``, ``z``, ``vz``, ``jacobi`` or
+  ``period``) and correct with it held fixed.
+* Adaptive step: grow by ``GROW`` after a quick convergence, shrink by ``SHRINK`` after a slow
+  one, halve on failure (common practice).
+* Bifurcations: a stability index crossing +1 or -1, or the two indices meeting and leaving the
+  real axis (complex quadruple), between consecutive members (Broucke 1969; Howell 1984 for
+  the halo branch at the Lyapunov family), located by the Illinois variant of regula falsi
+  on the arclength (Dowell & Jarratt, *BIT* 11, 1971).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..errors import ConvergenceError, InputError, NoSolutionError
+from . import shooting, stability
+from .orbit import PeriodicOrbit
+
+GROW = 1.5
+SHRINK = 0.6
+MIN_STEP = 1e-7
+#: corrector iterations at or below which the step grows / above which it shrinks
+FAST, SLOW = 3, 6
+
+
+@dataclass(frozen=True)
+class Stops:
+    """When a family stops growing.
+
+    max_members : int          member count (including the first)
+    altitude_km : float|None   stop when a member passes lower than this above a primary's
+                               surface (None: at the surface, i.e. altitude 0)
+    bounds : dict              quantity -> (low, high); quantities as in :func:`quantity`
+    target : (quantity, value) stop when a member with that value is bracketed; solve it exactly
+    detect_closure : bool      stop when the family returns to its first member
+    branch_points : int|None   stop once this many "+1" crossings of index ``which=1`` (the
+                               out-of-plane index of a planar family) have been located
+    """
+
+    max_members: int = 200
+    altitude_km: float | None = None
+    bounds: dict = field(default_factory=dict)
+    target: tuple | None = None
+    detect_closure: bool = True
+    branch_points: int | None = None
+
+
+@dataclass(frozen=True)
+class Bifurcation:
+    """A located change of stability along a family.
+
+    kind : "+1" (an index crosses +1: branch point or fold — a new family may branch here),
+           "-1" (period doubling), "complex" (indices collide and leave the real axis).
+    index : member index just before the crossing
+    which : which stability index (0 = larger or in-plane, 1 = the other / out-of-plane)
+    orbit : the orbit at the crossing, solved on the family
+    """
+
+    kind: str
+    index: int
+    which: int
+    orbit: PeriodicOrbit
+    note: str = ""
+
+    def to_dict(self) -> dict:
+        o = self.orbit
+        return {"type": self.kind, "member_index": self.index, "which_index": self.which,
+                "jacobi": o.jacobi, "period": o.period, "period_days": _num(o.period_days),
+                "state": [float(v) for v in o.state], "amplitude_km": o.to_dict()["amplitude_km"],
+                "note": self.note}
+
+
+@dataclass(frozen=True)
+class Family:
+    """A computed family: members in order, located bifurcations, why it stopped."""
+
+    system: object
+    family: str
+    point: str
+    branch: str
+    kind: str
+    members: tuple
+    bifurcations: tuple
+    stop_reason: str
+    settings: dict = field(default_factory=dict)
+    target: PeriodicOrbit | None = None
+
+    def to_dict(self) -> dict:
+        return {"system": self.system.name, "family": self.family, "point": self.point,
+                "branch": self.branch, "symmetry": self.kind, "stop_reason": self.stop_reason,
+                "settings": self.settings,
+                "members": [dict(m.to_dict(), index=i) for i, m in enumerate(self.members)],
+                "bifurcations": [b.to_dict() for b in self.bifurcations],
+                "target": self.target.to_dict() if self.target is not None else None}
+
+
+def _num(v):
+    return float(v) if math.isfinite(v) else None
+
+
+QUANTITIES = ("jacobi", "period", "x", "z", "vz", "ax", "ay", "az", "approach1", "approach2",
+              "nu1", "nu2", "nu_in", "nu_out")
+
+
+def quantity(orbit: PeriodicOrbit, name: str) -> float:
+    """A scalar of an orbit by name (nondimensional): jacobi, period (TU), x/z/vz of the initial
+    state, ax/ay/az amplitudes (LU), approach1/approach2 (closest approach to the larger/smaller
+    primary, LU), nu1/nu2 (stability indices, real part) or nu_in/nu_out (planar orbits)."""
+    if name == "jacobi":
+        return orbit.jacobi
+    if name == "period":
+        return orbit.period
+    if name in ("x", "z", "vz"):
+        return float(orbit.state[shooting.COMPONENTS[name]])
+    if name in ("ax", "ay", "az"):
+        return float(orbit.amplitude_lu["xyz".index(name[1])])
+    if name in ("approach1", "approach2"):
+        return float(orbit.closest_approach_lu[int(name[-1]) - 1])
+    if name in ("nu1", "nu2"):
+        return float(complex(orbit.stability_indices[int(name[-1]) - 1]).real)
+    if name in ("nu_in", "nu_out"):
+        return stability.planar_indices(orbit.monodromy)[0 if name == "nu_in" else 1]
+    raise InputError(f"unknown quantity '{name}'; allowed: {', '.join(QUANTITIES)}")
+
+
+# ---- one step -----------------------------------------------------------------------------
+
+def _X(orbit: PeriodicOrbit, sym) -> np.ndarray:
+    return shooting.pack(sym, orbit.state, orbit.period / 2.0)
+
+
+def _solve_at(system, sym, X_ref, t, ds, meta, check=True):
+    """Member at arclength ``ds`` from ``X_ref`` along ``t``: (orbit, X, tangent, iterations)."""
+    Xp = X_ref + ds * t
+    X, it, hist, (arc, D) = shooting.newton(system, sym, Xp, shooting.arclength(X_ref, t, ds))
+    tn = shooting.null_tangent(D)
+    if np.dot(tn, t) < 0:
+        tn = -tn
+    orbit = shooting.finish(system, sym, X, it, hist, **meta, check=check, half_stm=arc.stm)
+    return orbit, X, tn, it, float(np.linalg.norm(X - Xp))
+
+
+def _solve_natural(system, sym, X_ref, t, ds, param, meta):
+    if param in ("x", "z", "vz"):
+        j = sym.free.index(shooting.COMPONENTS[param])
+        if abs(t[j]) < 1e-12:
+            raise ConvergenceError(f"natural parameter {param} is stationary here (a fold); use arclength")
+        Xp = X_ref + ds * t / t[j]
+        c = shooting.fix(param, X_ref[j] + ds)
+    elif param == "period":
+        Xp = X_ref + ds * t / (2 * t[-1])
+        c = shooting.hold_period(2 * X_ref[-1] + ds)
+    elif param == "jacobi":
+        from .. import dynamics
+        s0, _ = shooting.unpack(sym, X_ref)
+        _, row = shooting._extra_row(system, sym, shooting.hold_jacobi(0.0), X_ref)
+        dcdt = float(np.dot(row, t))
+        if abs(dcdt) < 1e-12:
+            raise ConvergenceError("the Jacobi constant is stationary here (a fold); use arclength")
+        Xp = X_ref + ds * t / dcdt
+        c = shooting.hold_jacobi(dynamics.jacobi(system.mu, s0) + ds)
+    else:
+        raise InputError(f"natural parameter '{param}' is not allowed; use x, z, vz, jacobi or period")
+    X, it, hist, (arc, D) = shooting.newton(system, sym, Xp, c)
+    tn = shooting.null_tangent(D)
+    if np.dot(tn, t) < 0:
+        tn = -tn
+    orbit = shooting.finish(system, sym, X, it, hist, **meta, half_stm=arc.stm)
+    return orbit, X, tn, it, float(np.linalg.norm(X - Xp))
+
+
+def solve_between(system, sym, orbit_a, X_a, t_a, ds_b, g, g_a, g_b, meta, tol=1e-11, max_eval=40):
+    """Orbit where ``g(orbit) = 0`` between arclength 0 (value g_a) and ds_b (value g_b),
+    Illinois regula falsi on the arclength (Dowell & Jarratt 1971)."""
+    lo, hi, glo, ghi = 0.0, float(ds_b), float(g_a), float(g_b)
+    side = 0
+    best = None
+    for _ in range(max_eval):
+        ds = (lo * ghi - hi * glo) / (ghi - glo) if ghi != glo else 0.5 * (lo + hi)
+        if not (min(lo, hi) < ds < max(lo, hi)):
+            ds = 0.5 * (lo + hi)
+        orbit, _, _, _, _ = _solve_at(system, sym, X_a, t_a, ds, meta)
+        gv = float(g(orbit))
+        best = orbit
+        if abs(gv) < tol or abs(hi - lo) < 1e-13:
+            return orbit
+        if (gv > 0) == (ghi > 0):
+            hi, ghi = ds, gv
+            if side == 1:
+                glo *= 0.5
+            side = 1
+        else:
+            lo, glo = ds, gv
+            if side == -1:
+                ghi *= 0.5
+            side = -1
+    if best is not None and abs(float(g(best))) < 1e3 * tol:
+        return best
+    raise ConvergenceError("could not solve for the requested member between two family members")
+
+
+# ---- index tracking -------------------------------------------------------------------------
+
+def _indices(orbit, planar):
+    if planar:
+        return tuple(complex(v) for v in stability.planar_indices(orbit.monodromy))
+    return tuple(complex(v) for v in stability.stability_indices(orbit.monodromy))
+
+
+def _match(prev, new):
+    """Order ``new`` like ``prev`` (continuity of the two indices)."""
+    a = abs(prev[0] - new[0]) + abs(prev[1] - new[1])
+    b = abs(prev[0] - new[1]) + abs(prev[1] - new[0])
+    return new if a <= b else (new[1], new[0])
+
+
+def _disc(orbit):
+    m = orbit.monodromy
+    p = np.trace(m) - 2.0
+    q = 0.5 * (p * p - (np.trace(m @ m) + 2.0))
+    return float(p * p - 4.0 * q)
+
+
+def _crossings(prev_nu, new_nu, prev_orbit, new_orbit):
+    out = []
+    cp, cn = _disc(prev_orbit), _disc(new_orbit)
+    if (cp >= 0) != (cn >= 0):
+        out.append(("complex", -1))
+    for j in (0, 1):
+        a, b = prev_nu[j], new_nu[j]
+        if abs(a.imag) > 0 or abs(b.imag) > 0:
+            continue
+        for level, kind in ((1.0, "+1"), (-1.0, "-1")):
+            if (a.real - level) * (b.real - level) < 0:
+                out.append((kind, j))
+    return out
+
+
+# ---- the loop -------------------------------------------------------------------------------
+
+def grow(system, first: PeriodicOrbit, kind, *, step=1e-3, max_step=0.05, direction=None,
+         method="arclength", parameter=None, stops: Stops = Stops(), family="", point="",
+         branch="", progress=None, locate_bifurcations=True, planar=None, settings=None) -> Family:
+    """Continue a family from its first member.
+
+    Parameters
+    ----------
+    first : PeriodicOrbit (converged)
+    kind : symmetry type of the family ("xz", "xz-planar", "x-axis")
+    step, max_step : initial and largest step (arclength in the unknowns (free state, T/2), or
+        the natural parameter's units)
+    direction : callable(tangent, X) -> float whose sign orients the first step (positive is
+        forward); default: keep the sign that increases the first free component
+    method : "arclength" or "natural" (then give ``parameter``: x, z, vz, jacobi, period)
+    stops : Stops
+    progress : callable(count, max_members, orbit) called after each member (numerics never print)
+
+    Returns
+    -------
+    Family (members, bifurcations, stop_reason, target if one was asked for)
+    """
+    sym = shooting.symmetry(kind)
+    if method not in ("arclength", "natural"):
+        raise InputError(f"continuation method '{method}' is not allowed; use arclength or natural")
+    if method == "natural" and parameter is None:
+        raise InputError("natural-parameter continuation needs a parameter (x, z, vz, jacobi or period)")
+    meta = dict(family=family, point=point, branch=branch)
+    planar = (kind == "xz-planar") if planar is None else planar
+    X = _X(first, sym)
+    D = shooting.jacobian(system, sym, X)
+    t = shooting.null_tangent(D)
+    sgn = direction(t, X) if direction is not None else t[0]
+    if sgn < 0:
+        t = -t
+    members = [first]
+    Xs = [X]
+    ts = [t]
+    nus = [_indices(first, planar)]
+    bifs = []
+    target = None
+    ds = float(step)
+    reason = f"reached {stops.max_members} members"
+    radii = system.radii
+    alt = 0.0 if stops.altitude_km is None else stops.altitude_km / system.length_km if system.dimensional else 0.0
+    g_target = None
+    if stops.target is not None:
+        qname, qval = stops.target
+        g_target = lambda o: quantity(o, qname) - qval  # noqa: E731
+    while len(members) < stops.max_members:
+        try:
+            if method == "arclength":
+                orbit, Xn, tn, it, jump = _solve_at(system, sym, X, t, ds, meta)
+            else:
+                orbit, Xn, tn, it, jump = _solve_natural(system, sym, X, t, ds, parameter, meta)
+            if method == "arclength" and jump > max(0.5 * abs(ds), 1e-5):
+                raise ConvergenceError("corrector jumped too far from the predictor")
+        except (ConvergenceError, InputError) as e:
+            ds *= 0.5
+            if abs(ds) < MIN_STEP:
+                reason = f"step fell below {MIN_STEP:g} ({e})"
+                break
+            continue
+        # stop: passes within a primary (or the given altitude above it)
+        hit = None
+        if any(r > 0 for r in radii):
+            for k, (d, r) in enumerate(zip(orbit.closest_approach_lu, radii)):
+                if r > 0 and d < r + alt:
+                    hit = k
+        if hit is not None:
+            name = system.names[hit]
+            what = "its surface" if stops.altitude_km is None else f"{stops.altitude_km:g} km altitude"
+            reason = f"next member passes below {what} of {name}"
+            break
+        prev = members[-1]
+        nu = _match(nus[-1], _indices(orbit, planar))
+        if locate_bifurcations:
+            for kind_b, j in _crossings(nus[-1], nu, prev, orbit):
+                if kind_b == "complex":
+                    g = _disc
+                else:
+                    level = 1.0 if kind_b == "+1" else -1.0
+                    g = lambda o, j=j, level=level: _match(nus[-1], _indices(o, planar))[j].real - level  # noqa: E731
+                try:
+                    bo = solve_between(system, sym, prev, X, t, ds, g, g(prev), g(orbit), meta)
+                    bifs.append(Bifurcation(kind_b, len(members) - 1, j, bo, _bif_note(kind_b, j, planar)))
+                except ConvergenceError:
+                    bifs.append(Bifurcation(kind_b, len(members) - 1, j, orbit,
+                                            _bif_note(kind_b, j, planar) + " (not located; next member)"))
+        if stops.branch_points is not None and \
+                sum(1 for b in bifs if b.kind == "+1" and b.which == 1) >= stops.branch_points:
+            members.append(orbit)
+            reason = f"located {stops.branch_points} out-of-plane branch point(s)"
+            break
+        if g_target is not None:
+            ga, gb = g_target(prev), g_target(orbit)
+            if ga == 0:
+                target = prev
+            elif ga * gb <= 0:
+                target = orbit if gb == 0 else solve_between(system, sym, prev, X, t, ds, g_target, ga, gb, meta)
+            if target is not None:
+                members.append(orbit)
+                reason = f"target {stops.target[0]} = {stops.target[1]:.12g} reached"
+                break
+        out = None
+        for qn, (lo, hi) in stops.bounds.items():
+            v = quantity(orbit, qn)
+            if (lo is not None and v < lo) or (hi is not None and v > hi):
+                out = qn
+        if out is not None:
+            reason = f"next member leaves the bound on {out}"
+            break
+        members.append(orbit)
+        Xs.append(Xn)
+        ts.append(tn)
+        nus.append(nu)
+        if progress is not None:
+            progress(len(members), stops.max_members, orbit)
+        if stops.detect_closure and len(members) > 10 and np.linalg.norm(Xn - Xs[0]) < 0.5 * abs(ds) \
+                and np.dot(tn, ts[0]) > 0:
+            reason = "the family closed (returned to its first member)"
+            break
+        X, t = Xn, tn
+        if it <= FAST:
+            ds = math.copysign(min(abs(ds) * GROW, max_step), ds)
+        elif it > SLOW:
+            ds *= SHRINK
+    settings = dict(settings or {})
+    settings.update({"step": step, "max_step": max_step, "method": method, "parameter": parameter,
+                     "max_members": stops.max_members, "altitude_km": stops.altitude_km})
+    return Family(system, family, point, branch, sym.name if kind != "xz-planar" else "xz-planar",
+                  tuple(members), tuple(bifs), reason, settings, target)
+
+
+def _bif_note(kind, j, planar):
+    if kind == "complex":
+        return "stability indices collide and leave the real axis (complex quadruple)"
+    which = ("in-plane" if j == 0 else "out-of-plane") if planar else f"index {j + 1}"
+    if kind == "+1":
+        return f"{which} stability index crosses +1: branch point or fold"
+    return f"{which} stability index crosses -1: period doubling"
+
+
+def member_value(member, qname: str) -> float:
+    """:func:`quantity` of a PeriodicOrbit or of a catalogued member record (dict)."""
+    if isinstance(member, PeriodicOrbit):
+        return quantity(member, qname)
+    m = member
+    if qname in ("jacobi", "period"):
+        return float(m[qname])
+    if qname in ("x", "z", "vz"):
+        return float(m["state"][shooting.COMPONENTS[qname]])
+    if qname in ("ax", "ay", "az"):
+        return float(m["amplitude_lu"][qname[1]])
+    if qname in ("approach1", "approach2"):
+        return float(m["approach_lu"][int(qname[-1]) - 1])
+    if qname in ("nu1", "nu2"):
+        return float(m["stability_indices"][int(qname[-1]) - 1])
+    raise InputError(f"quantity '{qname}' is not stored with catalogued members")
+
+
+def _member_X(member, sym):
+    if isinstance(member, PeriodicOrbit):
+        return _X(member, sym)
+    return shooting.pack(sym, member["state"], float(member["period"]) / 2.0)
+
+
+def value_range(members, qname):
+    vals = [member_value(m, qname) for m in members]
+    return min(vals), max(vals)
+
+
+def solve_on_members(system, kind, members, qname, value, family="", point="", branch=""):
+    """The member of an already computed (e.g. catalogued) family where ``quantity = value``.
+
+    ``members`` are PeriodicOrbits or catalogue records (dicts). Finds the first pair of
+    consecutive members (from the family's start) that brackets ``value`` and solves between
+    them: directly with the quantity held (jacobi, period, x, z, vz) or by regula falsi along
+    their secant (other quantities). Only the bracketing pair is touched, so a catalogued
+    family is not recomputed.
+
+    Raises
+    ------
+    NoSolutionError when no pair brackets the value; the message gives the available range
+    (nondimensional; the request layer restates it in the user's units).
+    """
+    sym = shooting.symmetry(kind)
+    vals = [member_value(m, qname) for m in members]
+    meta = dict(family=family, point=point, branch=branch)
+    for k in range(len(members) - 1):
+        ga, gb = vals[k] - value, vals[k + 1] - value
+        if ga * gb <= 0:
+            Xa, Xb = _member_X(members[k], sym), _member_X(members[k + 1], sym)
+            if qname in ("jacobi", "period", "x", "z", "vz"):
+                frac = ga / (ga - gb) if ga != gb else 0.0
+                Xg = Xa + frac * (Xb - Xa)
+                c = {"jacobi": shooting.hold_jacobi, "period": shooting.hold_period}.get(qname)
+                c = c(value) if c else shooting.fix(qname, value)
+                Xs, it, hist, (arc, _) = shooting.newton(system, sym, Xg, c)
+                return shooting.finish(system, sym, Xs, it, hist, **meta, half_stm=arc.stm)
+            L = float(np.linalg.norm(Xb - Xa))
+            t = (Xb - Xa) / L
+            if ga == 0:
+                Xs, it, hist, (arc, _) = shooting.newton(system, sym, Xa, shooting.arclength(Xa, t, 0.0))
+                return shooting.finish(system, sym, Xs, it, hist, **meta, half_stm=arc.stm)
+            g = lambda o: quantity(o, qname) - value  # noqa: E731
+            return solve_between(system, sym, None, Xa, t, L, g, ga, gb, meta)
+    lo, hi = min(vals), max(vals)
+    raise NoSolutionError(f"no member with {qname} = {value:.10g}; this family spans "
+                          f"{lo:.10g} to {hi:.10g}")

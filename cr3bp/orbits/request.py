@@ -1,0 +1,194 @@
+"""Orbit requests in plain words, for the CLI and other commands.
+
+Grammar: ``FAMILY [POINT] [BRANCH] [RESONANCE] KEY=VALUE``, for example::
+
+    halo L2 south period=6.5626d
+    halo L2 south resonance=9:2        # 9 periods = 2 synodic months (see targets)
+    lyapunov L1 jacobi=3.15
+    halo L1 north az=12000km
+    halo L2 south perilune=3500km
+    vertical L1 az=20000km
+    dro x=1.08                         # x of the far-side crossing (LU unless a unit is given)
+    resonant 3:2 jacobi=2.9
+
+FAMILY is one of lyapunov, halo (alias nrho), vertical, axial, dro, resonant. KEY is one of
+period, jacobi, ax, ay, az, x, perilune, resonance.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from ..errors import InputError, NoSolutionError
+from . import continuation, families, targets
+from .orbit import PeriodicOrbit
+
+ALIASES = {"nrho": "halo", "lyap": "lyapunov", "planar": "lyapunov"}
+
+
+@dataclass(frozen=True)
+class OrbitSpec:
+    family: str
+    point: str = ""
+    branch: str = ""
+    key: str = ""
+    value: str = ""
+    resonance: tuple | None = None   # p:q of a resonant family (not a target)
+
+    def to_dict(self) -> dict:
+        return {"family": self.family, "point": self.point, "branch": self.branch, "key": self.key,
+                "value": self.value, "resonance": list(self.resonance) if self.resonance else None}
+
+    @property
+    def branch_label(self) -> str:
+        if self.family == "resonant" and self.resonance:
+            return f"{self.resonance[0]}:{self.resonance[1]}"
+        return self.branch
+
+
+def parse_request(text: str) -> OrbitSpec:
+    """Parse a request (grammar in the module notes). Raises InputError naming the bad word."""
+    if not isinstance(text, str) or not text.strip():
+        raise InputError("empty orbit request; expected e.g. 'halo L2 south period=6.5626d'")
+    words = text.replace(",", " ").split()
+    fam = ALIASES.get(words[0].lower(), words[0].lower())
+    if fam not in families.FAMILIES:
+        raise InputError(f"unknown family '{words[0]}'; allowed: {', '.join(families.FAMILIES)}")
+    point = branch = key = value = ""
+    resonance = None
+    for w in words[1:]:
+        lw = w.lower()
+        if "=" in w:
+            if key:
+                raise InputError(f"only one target per request; got '{key}={value}' and '{w}'")
+            key, value = (p.strip() for p in w.split("=", 1))
+            key = key.lower()
+            if key not in targets.KINDS or key == "approach1":
+                raise InputError(f"unknown target '{key}'; allowed: period, jacobi, ax, ay, az, x, "
+                                 "perilune, resonance")
+            if not value:
+                raise InputError(f"target '{key}=' has no value")
+        elif lw in ("l1", "l2", "l3", "l4", "l5"):
+            point = w.upper()
+        elif lw in ("north", "south", "northern", "southern"):
+            branch = "north" if lw.startswith("north") else "south"
+        elif ":" in w and fam == "resonant":
+            resonance = targets.parse_resonance(w)
+        else:
+            raise InputError(f"'{w}' is not understood in the request '{text}'; expected a point "
+                             "(L1, L2, L3), a branch (north, south), p:q for resonant, or KEY=VALUE")
+    if fam == "resonant" and resonance is None:
+        raise InputError("a resonant family needs p:q, e.g. 'resonant 3:2 jacobi=2.9'")
+    if fam != "resonant":
+        fam, point, branch = families.check_family(fam, point or None, branch or None)
+    return OrbitSpec(fam, point, branch, key, value, resonance)
+
+
+def spec_from_options(family, point=None, branch=None, resonance_family=None, **target) -> OrbitSpec:
+    """The same spec from separate options (the CLI's --family/--point/--branch/--period ...)."""
+    given = {k: v for k, v in target.items() if v is not None}
+    if len(given) > 1:
+        raise InputError(f"give one target, not {len(given)}: {', '.join('--' + k for k in given)}")
+    words = [family] + [w for w in (point, branch, resonance_family) if w]
+    words += [f"{k}={v}" for k, v in given.items()]
+    return parse_request(" ".join(words))
+
+
+def default_stops(system, spec: OrbitSpec, target=None) -> continuation.Stops:
+    return continuation.Stops(max_members=600, target=target)
+
+
+def family_key(spec: OrbitSpec):
+    return (spec.family, spec.point, spec.branch_label)
+
+
+def solve_request(system, spec, catalog=None, progress=None) -> PeriodicOrbit:
+    """The orbit a request asks for.
+
+    Parameters
+    ----------
+    system : System
+    spec : OrbitSpec or str (parsed with :func:`parse_request`)
+    catalog : cr3bp.catalog.Catalog, optional
+        When given, the family is read from it if catalogued (not recomputed: only the two
+        members bracketing the target are corrected), else computed in full and stored.
+    progress : callable(count, max, orbit), optional
+
+    Raises
+    ------
+    InputError (malformed request), NoSolutionError (target outside the family; the message
+    gives the family's range in the request's units), ConvergenceError.
+    """
+    if isinstance(spec, str):
+        spec = parse_request(spec)
+    if not spec.key:
+        raise InputError("the request has no target; add one of period=, jacobi=, ax=, ay=, az=, x=, "
+                         "perilune=, resonance=")
+    tg = targets.make_target(system, spec.key, spec.value)
+    fam, point, branch = family_key(spec)
+    kind = families.kind_of(spec.family)
+    members = None
+    if catalog is not None:
+        rec = catalog.load_family(system, fam, point, branch)
+        if rec is not None and rec.get("members") and rec.get("complete"):
+            members = rec["members"]
+        else:
+            family = compute_into_catalog(catalog, system, spec, progress=progress)
+            members = [catalog_member(m, i) for i, m in enumerate(family.members)]
+    if members is not None:
+        try:
+            return continuation.solve_on_members(system, kind, members, tg.quantity, tg.value,
+                                                 spec.family, spec.point, branch)
+        except NoSolutionError:
+            lo, hi = continuation.value_range(members, tg.quantity)
+            raise NoSolutionError(_range_message(system, spec, tg, lo, hi)) from None
+    family = families.grow_family(system, spec.family, spec.point, spec.branch,
+                                  stops=default_stops(system, spec, (tg.quantity, tg.value)),
+                                  progress=progress, resonance=spec.resonance,
+                                  locate_bifurcations=False)
+    if family.target is None:
+        lo, hi = continuation.value_range(family.members, tg.quantity)
+        raise NoSolutionError(_range_message(system, spec, tg, lo, hi) + f" (family stopped: {family.stop_reason})")
+    return family.target
+
+
+def _range_message(system, spec, tg, lo, hi):
+    name = " ".join(w for w in (spec.family, spec.point, spec.branch_label) if w)
+    d = targets.describe_value
+    return (f"no {name} orbit has {spec.key} = {spec.value}; the family covers {tg.quantity} from "
+            f"{d(system, tg.quantity, lo)} to {d(system, tg.quantity, hi)}")
+
+
+def catalog_member(orbit: PeriodicOrbit, index: int) -> dict:
+    d = orbit.to_dict()
+    d["index"] = int(index)
+    d.pop("system", None)
+    return d
+
+
+def catalog_settings(spec: OrbitSpec, stops: continuation.Stops) -> dict:
+    """The settings a catalogued family is keyed by (what changes its members)."""
+    return {"recipe": 1, "family": spec.family, "point": spec.point, "branch": spec.branch_label,
+            "max_members": stops.max_members, "altitude_km": stops.altitude_km,
+            "bounds": {k: list(v) for k, v in stops.bounds.items()}}
+
+
+def compute_into_catalog(catalog, system, spec: OrbitSpec, stops=None, progress=None):
+    """Grow the family of ``spec`` and store it; each member is written as it converges, so an
+    interrupted run keeps what it computed. Returns the Family."""
+    stops = stops or default_stops(system, spec)
+    fid = catalog.begin_family(system, spec.family, spec.point, spec.branch_label,
+                               catalog_settings(spec, stops))
+
+    def keep(i, n, orbit):
+        catalog.add_members(fid, [catalog_member(orbit, i - 1)])
+        if progress is not None:
+            progress(i, n, orbit)
+
+    family = families.grow_family(system, spec.family, spec.point, spec.branch, stops=stops,
+                                  progress=keep, resonance=spec.resonance)
+    catalog.add_members(fid, [catalog_member(m, i) for i, m in enumerate(family.members)])
+    catalog.finish_family(fid, [b.to_dict() for b in family.bifurcations], complete=True)
+    return family
+
+

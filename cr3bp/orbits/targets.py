@@ -1,0 +1,99 @@
+"""Picking one orbit out of a family by a property: amplitude, Jacobi constant, period,
+closest approach to a primary, or a synodic resonance.
+
+Synodic resonance (Earth–Moon only): a p:q resonance means ``p`` orbit periods equal ``q``
+synodic months, ``T = q * S / p``. The synodic month is computed from the sidereal month and
+the sidereal year, ``1/S = 1/P_month - 1/P_year`` (the Moon's sidereal rate minus the Sun's
+apparent rate; common practice), with P_month = 27.321662 d and P_year = 365.256363 d
+(Astronomical Almanac; from memory), giving S = 29.530589 d. The Earth–Moon L2 9:2
+near-rectilinear halo therefore has ``T = 2 S / 9 = 6.5624 d``.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from .. import units
+from ..errors import InputError
+
+SIDEREAL_MONTH_DAYS = 27.321662   # Astronomical Almanac (from memory)
+SIDEREAL_YEAR_DAYS = 365.256363   # Astronomical Almanac (from memory)
+SYNODIC_MONTH_DAYS = 1.0 / (1.0 / SIDEREAL_MONTH_DAYS - 1.0 / SIDEREAL_YEAR_DAYS)
+
+KINDS = ("period", "jacobi", "ax", "ay", "az", "x", "perilune", "approach1", "resonance")
+
+
+@dataclass(frozen=True)
+class Target:
+    """A requested property: ``kind`` (see KINDS), the value in nondimensional units for the
+    family quantity ``quantity`` (see :func:`cr3bp.orbits.continuation.quantity`), and the
+    user's text for messages."""
+
+    kind: str
+    quantity: str
+    value: float
+    text: str
+    unit: str = ""
+
+    def to_dict(self) -> dict:
+        return {"kind": self.kind, "quantity": self.quantity, "value": self.value, "text": self.text}
+
+
+def synodic_period_days(p: int, q: int) -> float:
+    """Period (days) of a p:q synodic resonance: q synodic months over p orbit periods."""
+    return q * SYNODIC_MONTH_DAYS / p
+
+
+def parse_resonance(text: str) -> tuple[int, int]:
+    try:
+        a, b = str(text).split(":")
+        p, q = int(a), int(b)
+    except ValueError:
+        raise InputError(f"resonance '{text}' is not p:q with two positive integers, e.g. 9:2") from None
+    if p <= 0 or q <= 0:
+        raise InputError(f"resonance '{text}' needs two positive integers, e.g. 9:2")
+    return p, q
+
+
+def make_target(system, kind: str, text) -> Target:
+    """Turn a user target (e.g. ``("period", "6.5626d")``, ``("az", "12000km")``,
+    ``("jacobi", "3.15")``, ``("resonance", "9:2")``) into a nondimensional Target."""
+    kind = str(kind).strip().lower()
+    text = str(text).strip()
+    if kind == "period":
+        return Target(kind, "period", units.time(text, system), text)
+    if kind == "jacobi":
+        try:
+            v = float(text)
+        except ValueError:
+            raise InputError(f"Jacobi constant '{text}' is not a number") from None
+        return Target(kind, "jacobi", v, text)
+    if kind in ("ax", "ay", "az", "x"):
+        if kind == "x":
+            return Target(kind, "x", units.length(text, system, default_unit="LU"), text)
+        return Target(kind, kind, units.length(text, system), text)
+    if kind == "perilune":
+        return Target(kind, "approach2", units.length(text, system), text)
+    if kind == "approach1":
+        return Target(kind, "approach1", units.length(text, system), text)
+    if kind == "resonance":
+        p, q = parse_resonance(text)
+        if system.name != "earth-moon":
+            raise InputError(f"synodic resonance is defined for earth-moon only (system '{system.name}')")
+        T = synodic_period_days(p, q) * 86400.0 / system.time_s
+        return Target(kind, "period", T, text)
+    raise InputError(f"unknown target '{kind}'; allowed: {', '.join(KINDS)}")
+
+
+def describe_value(system, quantity: str, value: float) -> str:
+    """A nondimensional family quantity in the user's units, for messages."""
+    if system.dimensional:
+        if quantity == "period":
+            return f"{system.days(value):.6g} d"
+        if quantity in ("ax", "ay", "az", "approach1", "approach2"):
+            return f"{system.km(value):.6g} km"
+    if quantity == "period":
+        return f"{value:.8g} TU"
+    if quantity in ("x", "ax", "ay", "az", "approach1", "approach2"):
+        return f"{value:.8g} LU"
+    return f"{value:.10g}"
