@@ -218,8 +218,9 @@ def transition(orbit, epoch, revs: int, bodies=("sun", "earth", "moon"), *, cent
     # the CR3BP reference, densely sampled (patch times are among the samples)
     ns = samples_per_rev * revs
     ts = np.linspace(0.0, revs * T, ns + 1)
-    arc = cr3bp_propagate(system, orbit.state, revs * T, t_eval=ts, rtol=1e-13, atol=1e-13)
-    ref_rot = arc.states
+    # one period, repeated (propagating N periods would let an unstable orbit drift away)
+    arc = cr3bp_propagate(system, orbit.state, T, t_eval=ts[:samples_per_rev], rtol=1e-13, atol=1e-13)
+    ref_rot = np.vstack([np.tile(arc.states, (revs, 1)), arc.states[:1]])
     ref_km = _cr3bp_to_inertial(system, spec, ts, ref_rot, central)
     stride = samples_per_rev // per_rev if samples_per_rev % per_rev == 0 else None
     if stride is None:
