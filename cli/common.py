@@ -129,8 +129,23 @@ def compile_notice(args, kernels=None):
                        "reuse the cache)...")
 
 
+def _one_line_warnings():
+    """Warnings (e.g. the leap-second table's end of validity) as one 'librate: note:' line
+    each, shown once per distinct message, instead of Python's two-line form."""
+    import warnings
+    seen = set()
+
+    def show(message, category, filename, lineno, file=None, line=None):
+        text = str(message)
+        if text not in seen:
+            seen.add(text)
+            print(f"librate: note: {text}", file=sys.stderr)
+    warnings.showwarning = show
+
+
 def run_command(args) -> int:
     from cr3bp.errors import LibrateError
+    _one_line_warnings()
     try:
         if args.command not in ("systems",):
             # a command module may name the compiled kernels it uses (KERNELS)

@@ -11,6 +11,17 @@ import tempfile
 from pathlib import Path
 
 
+def _umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
+
+
+#: Mode of new files: what ``open()`` would give (0o666 less the umask). ``mkstemp`` makes its
+#: temporary file 0o600, which would otherwise leave every output unreadable to other users.
+NEW_FILE_MODE = 0o666 & ~_umask()
+
+
 @contextlib.contextmanager
 def writing(path, mode: str = "w", encoding: str | None = "utf-8"):
     """Context manager yielding a file object; the target appears only if the block succeeds.
@@ -28,6 +39,11 @@ def writing(path, mode: str = "w", encoding: str | None = "utf-8"):
         with os.fdopen(fd, mode, encoding=None if "b" in mode else encoding,
                        newline=None if "b" in mode else "") as f:
             yield f
+        try:
+            mode = os.stat(path).st_mode & 0o7777   # an existing file keeps its mode
+        except FileNotFoundError:
+            mode = NEW_FILE_MODE
+        os.chmod(tmp, mode)
         os.replace(tmp, path)
     except BaseException:
         with contextlib.suppress(FileNotFoundError):

@@ -214,6 +214,13 @@ class Catalog:
             self._db.execute("INSERT OR REPLACE INTO legs (key, system, data, created) VALUES (?,?,?,?)",
                              (key, system.name, _dumps(data), time.time()))
 
+    def put_legs(self, items) -> None:
+        """Store many ``(key, system, data)`` legs in one transaction (one disk sync)."""
+        now = time.time()
+        with self._tx():
+            self._db.executemany("INSERT OR REPLACE INTO legs (key, system, data, created) VALUES (?,?,?,?)",
+                                 [(k, sys_.name, _dumps(d), now) for k, sys_, d in items])
+
     def get_leg(self, key: str):
         row = self._db.execute("SELECT data FROM legs WHERE key=?", (key,)).fetchone()
         return None if row is None else json.loads(row[0])

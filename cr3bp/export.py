@@ -563,8 +563,8 @@ def json_payload(traj: Trajectory, creation_date: str | None = None) -> dict:
     }
 
 
-def write_json(path, traj: Trajectory) -> Path:
-    text = json.dumps(json_payload(traj), indent=1) + "\n"
+def write_json(path, traj: Trajectory, creation_date: str | None = None) -> Path:
+    text = json.dumps(json_payload(traj, creation_date), indent=1) + "\n"
     with writing(path) as f:
         f.write(text)
     return Path(path)
@@ -584,10 +584,14 @@ def format_of(path, fmt: str | None = None) -> str:
                      f"({', '.join(FORMATS)})")
 
 
-def write(path, traj: Trajectory, fmt: str | None = None) -> Path:
-    """Write ``traj`` to ``path`` in ``fmt`` (default from the suffix)."""
+def write(path, traj: Trajectory, fmt: str | None = None, creation_date: str | None = None) -> Path:
+    """Write ``traj`` to ``path`` in ``fmt`` (default from the suffix). ``creation_date`` (ISO
+    text) fixes the file's creation date for reproducible output; default: now."""
     f = format_of(path, fmt)
-    return {"oem": write_oem, "xml": write_oem_xml, "csv": write_csv, "json": write_json}[f](path, traj)
+    if f == "csv":
+        return write_csv(path, traj)
+    writer = {"oem": write_oem, "xml": write_oem_xml, "json": write_json}[f]
+    return writer(path, traj, creation_date=creation_date)
 
 
 # ---- readers ---------------------------------------------------------------------------------

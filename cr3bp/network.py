@@ -120,7 +120,7 @@ def _check(graph, source, target, c: Constraints, objective: str):
 
 
 def iter_routes(graph: nx.MultiDiGraph, source, target, constraints: Constraints = Constraints(),
-                objective: str = "dv"):
+                objective: str = "dv", _tof_below=None):
     """Yield the simple routes from ``source`` to ``target`` satisfying ``constraints``, in
     non-decreasing order of ``objective`` ("dv" total Δv, "tof" time of flight); ties broken by
     the other objective, then by number of legs.
@@ -132,6 +132,9 @@ def iter_routes(graph: nx.MultiDiGraph, source, target, constraints: Constraints
     source, target : node ids
     constraints : Constraints
     objective : {"dv", "tof"}
+    _tof_below : one-element list, optional
+        A time-of-flight bound the caller may lower while iterating (used by
+        :func:`pareto_routes`): partial routes whose time of flight is not below it are dropped.
 
     Yields
     ------
@@ -159,6 +162,8 @@ def iter_routes(graph: nx.MultiDiGraph, source, target, constraints: Constraints
     heap = [(key(0.0, 0.0, 0), next(counter), 0.0, 0.0, math.inf, (source,), (), ())]
     while heap:
         _, _, dv, tof, alt, nodes, edges, legs = heapq.heappop(heap)
+        if _tof_below is not None and edges and tof >= _tof_below[0]:
+            continue
         here = nodes[-1]
         if here == target and edges:
             if through <= set(nodes):
@@ -173,6 +178,8 @@ def iter_routes(graph: nx.MultiDiGraph, source, target, constraints: Constraints
             if c.max_dv_mps is not None and ndv > c.max_dv_mps:
                 continue
             if c.max_tof_days is not None and ntof > c.max_tof_days:
+                continue
+            if _tof_below is not None and ntof >= _tof_below[0]:
                 continue
             nalt = min(alt, d.get("min_altitude_km", math.inf))
             heapq.heappush(heap, (key(ndv, ntof, len(edges) + 1), next(counter), ndv, ntof, nalt,
@@ -195,7 +202,9 @@ def pareto_routes(graph, source, target, constraints: Constraints = Constraints(
     """The Pareto set of Δv against time of flight: every route that no other beats on both.
 
     Routes are enumerated in Δv order; a route is kept when its time of flight is strictly below
-    that of every cheaper route. Enumeration stops once the least time of flight of any feasible
+    that of every cheaper route. Partial routes whose time of flight already reaches that of the
+    last route kept are dropped (they cannot complete into a non-dominated route, every weight
+    being non-negative), and enumeration stops once the least time of flight of any feasible
     route is reached. Ordered by increasing Δv (so decreasing time of flight).
     """
     try:
@@ -203,12 +212,12 @@ def pareto_routes(graph, source, target, constraints: Constraints = Constraints(
     except StopIteration:
         raise NoSolutionError(explain_no_route(graph, source, target, constraints, "dv")) from None
     front: list[Route] = []
-    best_tof = math.inf
-    for r in iter_routes(graph, source, target, constraints, "dv"):
-        if r.tof_days < best_tof:
+    bound = [math.inf]
+    for r in iter_routes(graph, source, target, constraints, "dv", _tof_below=bound):
+        if r.tof_days < bound[0]:
             front.append(r)
-            best_tof = r.tof_days
-            if best_tof <= fastest.tof_days:
+            bound[0] = r.tof_days
+            if bound[0] <= fastest.tof_days:
                 break
     return front
 

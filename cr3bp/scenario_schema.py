@@ -65,6 +65,7 @@ SCHEMA = {
     "mission": ("table", True, {
         "name": (S, True, "mission name"),
         "description": (S, False, "what the mission is for"),
+        "issued": (S, False, "ISO 8601 date written as the files' creation date (reproducible output)"),
     }),
     "system": ("table", True, {
         "name": (S, False, "tabulated system, e.g. 'earth-moon'"),
@@ -163,7 +164,10 @@ def load(path) -> dict:
     return data
 
 
-def check(data: dict, lines: dict, file: str) -> list[Problem]:
+def check(data: dict, lines: dict, file: str, schema: dict | None = None) -> list[Problem]:
+    """Every problem of ``data`` against ``schema`` (default: the scenario schema, with its
+    cross-key rules). Other file formats (e.g. the node lists of :mod:`cr3bp.nodes`) pass
+    their own schema and get the key, type and line checks only."""
     problems: list[Problem] = []
 
     def line(key):
@@ -231,6 +235,10 @@ def check(data: dict, lines: dict, file: str) -> list[Problem]:
         elif typ == "list[str]":
             if not isinstance(v, list) or not all(isinstance(x, str) for x in v):
                 bad(full, v, "a list of text values")
+        elif typ == "list[float]":
+            if not isinstance(v, list) or not all(isinstance(x, (int, float)) and not isinstance(x, bool)
+                                                  for x in v):
+                bad(full, v, "a list of numbers")
         elif typ.startswith("one-of:"):
             options = typ[len("one-of:"):].split("|")
             if not isinstance(v, str) or v not in options:
@@ -239,6 +247,9 @@ def check(data: dict, lines: dict, file: str) -> list[Problem]:
     def bad(full, v, expected):
         problems.append(Problem(file, line(full), full, f"{v!r} is not {expected}"))
 
+    if schema is not None:
+        check_table(data, schema, "")
+        return sorted(problems, key=lambda p: (p.line, p.key))
     check_table(data, SCHEMA, "")
     sysd = data.get("system", {})
     if isinstance(sysd, dict) and ("name" in sysd) == ("mu" in sysd):

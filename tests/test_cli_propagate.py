@@ -115,3 +115,18 @@ def test_subprocess_end_to_end(tmp_path):
                           "earth-moon", "--state", "1,2", "--time", "1d"], capture_output=True,
                          text=True, timeout=300)
     assert bad.returncode == 2 and "Traceback" not in bad.stderr
+
+
+def test_later_processes_reuse_the_kernel_cache(tmp_path):
+    # the second process must load every integrator kernel from numba's cache, not compile
+    import os
+    env = dict(os.environ, NUMBA_DEBUG_CACHE="1")
+    cmd = [sys.executable, "-m", "librate_cli.main", "propagate", "--system", "earth-moon",
+           "--state", HALO_GUESS, "--time", "1d", "--stm", "--format", "json",
+           "--out", str(tmp_path / "a.json")]
+    subprocess.run(cmd, capture_output=True, text=True, timeout=600, env=env, check=True)
+    second = subprocess.run(cmd, capture_output=True, text=True, timeout=600, env=env, check=True)
+    log = second.stdout + second.stderr
+    assert "dop853.integrate-" in log and "data loaded" in log
+    assert "data saved" not in log, [ln for ln in log.splitlines() if "saved" in ln]
+    assert "compiling the numerical kernels" not in second.stderr

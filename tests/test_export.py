@@ -216,3 +216,16 @@ def test_files_of_the_propagate_command_are_read(tmp_path):
     assert data.header["system"] == "earth-moon"
     seg = export.to_rotating(data)[0]
     assert np.array_equal(seg.t_tu, [0.0, 1.0]) and np.array_equal(seg.states[0], STATE)
+
+
+def test_written_files_have_ordinary_permissions(tmp_path):
+    """Atomic writes go through a 0o600 temporary file; the result must be readable like any
+    file the user creates (0o666 less the umask), and an existing file keeps its mode."""
+    import os
+    import stat
+    from cr3bp.atomic import NEW_FILE_MODE
+    p = export.write_csv(tmp_path / "t.csv", _traj())
+    assert stat.S_IMODE(os.stat(p).st_mode) == NEW_FILE_MODE
+    os.chmod(p, 0o640)
+    export.write_csv(p, _traj())
+    assert stat.S_IMODE(os.stat(p).st_mode) == 0o640

@@ -92,7 +92,7 @@ def _find(args, cat):
     if not lo <= tg.value <= hi:
         d = targets.describe_value
         raise NoSolutionError(f"no catalogued member near {spec.key} = {spec.value}: family {rec['id']} covers "
-                              f"{tg.quantity} from {d(system, tg.quantity, lo)} to {d(system, tg.quantity, hi)}")
+                              f"{spec.key} from {d(system, tg.quantity, lo)} to {d(system, tg.quantity, hi)}")
     order = sorted(range(len(members)), key=lambda k: abs(vals[k] - tg.value))[:3]
     rows = [_member_row(members[k]) for k in order]
     title = (f"family {rec['id']}: catalogued members nearest {spec.key} = {spec.value} "

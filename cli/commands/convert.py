@@ -7,7 +7,7 @@ NAME = "convert"
 ORDER = 85
 KERNELS = ()   # no propagation: no compile notice
 HELP = "convert a trajectory file between OEM, CSV and JSON, and between frames, centres and time systems"
-EXAMPLE = "librate convert orbit.oem orbit.csv --frame j2000-ecliptic --center moon --time-system utc"
+EXAMPLE = "librate convert relay.oem relay.csv --frame j2000-ecliptic --center earth --time-system utc"
 
 
 def add_arguments(p):

@@ -25,6 +25,8 @@ def add_arguments(p):
     g.add_argument("--parameter", choices=("x", "z", "vz", "jacobi", "period"),
                    help="natural-parameter continuation: the quantity stepped")
     g.add_argument("--step", metavar="VALUE", help="first step (nondimensional; default per family)")
+    g.add_argument("--max-step", metavar="VALUE", help="largest step (nondimensional; default per family); "
+                   "smaller steps resolve stability changes that come in close pairs")
     oo.add_catalog_option(p, "also store the family in the orbit catalogue at PATH (default path "
                           "when PATH is omitted)")
     p.add_argument("--plot", metavar="PREFIX", help="write PREFIX-family.png (members coloured by Jacobi "
@@ -67,6 +69,11 @@ def run(args):
         step = common._float_arg("--step", args.step)
         if not 0 < step < 1:
             raise InputError(f"--step {args.step} is outside the allowed range (0, 1)")
+    max_step = None
+    if args.max_step is not None:
+        max_step = common._float_arg("--max-step", args.max_step)
+        if not 0 < max_step < 1:
+            raise InputError(f"--max-step {args.max_step} is outside the allowed range (0, 1)")
     stops = continuation.Stops(max_members=args.members, altitude_km=alt, target=target)
     if args.plot:
         import os
@@ -77,7 +84,7 @@ def run(args):
     name = " ".join(w for w in (spec.family, spec.point, spec.branch_label) if w)
     common.progress(args, f"librate family: growing the {system.name} {name} family (up to {args.members} members)")
     fam = families.grow_family(system, spec.family, spec.point, spec.branch, stops=stops, method=args.method,
-                               parameter=args.parameter, step=step, resonance=spec.resonance,
+                               parameter=args.parameter, step=step, resonance=spec.resonance, max_step=max_step,
                                progress=oo.progress_printer(args, name))
     common.progress(args, f"done: {len(fam.members)} members; stopped because {fam.stop_reason}")
     if cat is not None:

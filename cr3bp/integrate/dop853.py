@@ -68,15 +68,24 @@ def rk_step(mode, params, t, y, h, K, ytmp, ynew):
     """
     n = y.shape[0]
     for s in range(1, _NS):
-        for i in range(n):
-            ytmp[i] = 0.0
-        for j in range(s):
-            a = A[s, j]
-            if a != 0.0:
-                for i in range(n):
-                    ytmp[i] += a * K[j, i]
-        for i in range(n):
-            ytmp[i] = y[i] + h * ytmp[i]
+        if n <= 6:
+            # short vectors: one dot product per component is quickest
+            for i in range(n):
+                acc = 0.0
+                for j in range(s):
+                    acc += A[s, j] * K[j, i]
+                ytmp[i] = y[i] + h * acc
+        else:
+            # long vectors (state + STM): sweep components per stage, which vectorises
+            for i in range(n):
+                ytmp[i] = 0.0
+            for j in range(s):
+                a = A[s, j]
+                if a != 0.0:
+                    for i in range(n):
+                        ytmp[i] += a * K[j, i]
+            for i in range(n):
+                ytmp[i] = y[i] + h * ytmp[i]
         rhs(mode, t + C[s] * h, ytmp, params, K[s])
     for i in range(n):
         ynew[i] = 0.0
@@ -91,25 +100,30 @@ def rk_step(mode, params, t, y, h, K, ytmp, ynew):
 
 
 @njit(cache=True)
-def error_norm(K, h, y, ynew, rtol, atol):
+def error_norm(K, h, y, ynew, rtol, atol, w5, w3):
     """Hairer's combined 5th/3rd-order error estimate of the last step, scaled (accept if <= 1).
 
-    err = |h| e5^2 / sqrt(n (e5^2 + 0.01 e3^2)) with e5, e3 the RMS-free sums of the scaled
+    err = |h| e5 / sqrt(n (e5 + 0.01 e3)) with e5, e3 the sums of squares of the scaled
     5th- and 3rd-order estimator components and scale sk = atol + rtol max(|y|, |ynew|)
-    (code dop853, subroutine DP86CO).
+    (code dop853, subroutine DP86CO). ``w5``, ``w3`` (n,) are work arrays.
     """
     n = y.shape[0]
+    for i in range(n):
+        w5[i] = 0.0
+        w3[i] = 0.0
+    for j in range(_NS + 1):
+        c5 = E5[j]
+        c3 = E3[j]
+        if c5 != 0.0 or c3 != 0.0:
+            for i in range(n):
+                w5[i] += c5 * K[j, i]
+                w3[i] += c3 * K[j, i]
     err5 = 0.0
     err3 = 0.0
     for i in range(n):
-        e5 = 0.0
-        e3 = 0.0
-        for j in range(_NS + 1):
-            e5 += E5[j] * K[j, i]
-            e3 += E3[j] * K[j, i]
         sk = atol + rtol * max(abs(y[i]), abs(ynew[i]))
-        err5 += (e5 / sk) ** 2
-        err3 += (e3 / sk) ** 2
+        err5 += (w5[i] / sk) ** 2
+        err3 += (w3[i] / sk) ** 2
     if err5 == 0.0 and err3 == 0.0:
         return 0.0
     deno = err5 + 0.01 * err3
@@ -338,6 +352,8 @@ def integrate(mode, params, y0, t0, t_final, rtol, atol, first_step, max_step, m
     ynew = np.empty(n)
     ytmp = np.empty(n)
     yout = np.empty(n)
+    w5 = np.empty(n)
+    w3 = np.empty(n)
     buf = np.empty(6)
 
     cap = 256 if record else 1
@@ -403,7 +419,7 @@ def integrate(mode, params, y0, t0, t_final, rtol, atol, first_step, max_step, m
 
         rk_step(mode, params, t, y, h, K, ytmp, ynew)
         nfev += _NS
-        err = error_norm(K, h, y, ynew, rtol, atol)
+        err = error_norm(K, h, y, ynew, rtol, atol, w5, w3)
 
         if not np.isfinite(err):
             # the trial step left the domain (e.g. through a singularity): shrink hard

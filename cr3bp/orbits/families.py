@@ -9,7 +9,7 @@ vertical L1/L2          linear vertical seed, vz held               x-axis
 axial L1/L2             branch at the 2nd out-of-plane +1 crossing  x-axis
                         of the Lyapunov family, vz held
 dro                     retrograde circle about the smaller         xz-planar
-                        primary, x held
+                        primary (0.1 Hill radius), x held
 resonant p:q            Kepler ellipse about the larger primary,    xz-planar
                         x held
 ======================  ==========================================  =====================
@@ -104,9 +104,11 @@ def first_member(system, family, point="", branch="", resonance=None, eccentrici
         o = branch_at(system, bif[1].orbit, "axial", point)
         return o, "x-axis", (lambda t, X: t[2] * X[2]), 1e-3, 0.03
     if family == "dro":
-        sd = seeds.dro(mu, 0.03)
+        # sizes scale with the smaller primary's Hill radius (mu/3)^(1/3) (Szebehely 1967, §10)
+        rh = (mu / 3.0) ** (1.0 / 3.0)
+        sd = seeds.dro(mu, 0.1 * rh)
         o = shooting.correct(system, sd.state, sd.half_period, sd.symmetry, shooting.fix("x", sd.state[0]), **meta)
-        return o, sd.symmetry, (lambda t, X: t[0]), 2e-3, 0.1
+        return o, sd.symmetry, (lambda t, X: t[0]), 0.0125 * rh, 0.6 * rh
     if family == "resonant":
         if resonance is None:
             raise InputError("the resonant family needs p:q, e.g. 3:2")
@@ -151,16 +153,16 @@ def _far_crossing_is_start(system, orbit, point):
 
 def grow_family(system, family, point="", branch="", *, stops=None, method="arclength",
                 parameter=None, step=None, progress=None, resonance=None, eccentricity=0.5,
-                first=None, locate_bifurcations=True):
+                first=None, locate_bifurcations=True, max_step=None):
     """Compute a named family from its recipe (see module table). Returns a Family."""
     family, point, branch = check_family(family, point, branch) if family != "resonant" else (family, "", branch)
     stops = stops or continuation.Stops()
-    o, kind, direction, st, max_step = first_member(system, family, point, branch, resonance, eccentricity) \
+    o, kind, direction, st, mx = first_member(system, family, point, branch, resonance, eccentricity) \
         if first is None else first
     settings = {"family": family, "point": point, "branch": branch,
                 "resonance": list(resonance) if resonance else None, "eccentricity": eccentricity
                 if family == "resonant" else None}
-    return continuation.grow(system, o, kind, step=step or st, max_step=max_step, direction=direction,
+    return continuation.grow(system, o, kind, step=step or st, max_step=max_step or mx, direction=direction,
                              method=method, parameter=parameter, stops=stops, family=family,
                              point=point, branch=branch or (resonance_label(*resonance) if resonance else ""),
                              progress=progress, locate_bifurcations=locate_bifurcations,

@@ -155,7 +155,7 @@ def solve_request(system, spec, catalog=None, progress=None) -> PeriodicOrbit:
 def _range_message(system, spec, tg, lo, hi):
     name = " ".join(w for w in (spec.family, spec.point, spec.branch_label) if w)
     d = targets.describe_value
-    return (f"no {name} orbit has {spec.key} = {spec.value}; the family covers {tg.quantity} from "
+    return (f"no {name} orbit has {spec.key} = {spec.value}; the family covers {spec.key} from "
             f"{d(system, tg.quantity, lo)} to {d(system, tg.quantity, hi)}")
 
 

@@ -58,8 +58,13 @@ def parse_resonance(text: str) -> tuple[int, int]:
 def make_target(system, kind: str, text) -> Target:
     """Turn a user target (e.g. ``("period", "6.5626d")``, ``("az", "12000km")``,
     ``("jacobi", "3.15")``, ``("resonance", "9:2")``) into a nondimensional Target."""
-    kind = str(kind).strip().lower()
-    text = str(text).strip()
+    t = _make(system, str(kind).strip().lower(), str(text).strip())
+    if t.kind in ("period", "ax", "ay", "az", "perilune", "approach1") and not t.value > 0:
+        raise InputError(f"{t.kind} = {t.text} must be positive")
+    return t
+
+
+def _make(system, kind, text):
     if kind == "period":
         return Target(kind, "period", units.time(text, system), text)
     if kind == "jacobi":

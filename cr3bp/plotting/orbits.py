@@ -23,17 +23,23 @@ def trajectory(orbit, n=1500):
 
 
 def _mark_points(ax, system, view, box):
+    """Lagrange points inside the frame; points that project onto the same spot share a label."""
     i, j = VIEWS[view]
+    spots = {}
     for name, p in _lagrange_points(system).items():
         if box[0] <= p[i] <= box[1] and box[2] <= p[j] <= box[3]:
-            ax.plot(p[i], p[j], marker="+", color="tab:red", ms=7, zorder=6)
-            ax.annotate(name, (p[i], p[j]), textcoords="offset points", xytext=(3, -10), fontsize=7,
-                        color="tab:red")
+            spots.setdefault((round(p[i], 12), round(p[j], 12)), []).append(name)
+    for (u, v), names in spots.items():
+        ax.plot(u, v, marker="+", color="tab:red", ms=7, zorder=6)
+        ax.annotate(", ".join(names), (u, v), textcoords="offset points", xytext=(3, -10), fontsize=7,
+                    color="tab:red")
 
 
-def _frame(ax, system, view, arrays, pad=0.15):
+def _frame(ax, system, view, arrays, pad=0.15, include=()):
+    """Equal-aspect frame around ``arrays`` (and the points ``include``), primaries and Lagrange
+    points drawn."""
     i, j = VIEWS[view]
-    pts = np.vstack([a[:, :3] for a in arrays])
+    pts = np.vstack([a[:, :3] for a in arrays] + [np.atleast_2d(p) for p in include])
     lo_i, hi_i = pts[:, i].min(), pts[:, i].max()
     lo_j, hi_j = pts[:, j].min(), pts[:, j].max()
     span = max(hi_i - lo_i, hi_j - lo_j, 1e-3) * (1 + 2 * pad)
@@ -58,11 +64,12 @@ def plot_orbit(orbit, states=None, title=None):
         i, j = VIEWS[view]
         ax.plot(states[:, i], states[:, j], color="tab:orange", lw=1.2, label="orbit")
         ax.plot(states[0, i], states[0, j], "o", color="k", ms=3, label="initial state")
-        _frame(ax, orbit.system, view, [states])
+        own = _lagrange_points(orbit.system).get(orbit.point)
+        _frame(ax, orbit.system, view, [states], include=[own] if own is not None else [])
         ax.set_title(f"{view[0]}-{view[1]} view" + (" (primaries on the line y = z = 0, not drawn)"
                                                       if view == "yz" else ""), fontsize=9)
     axes[0][0].legend(loc="upper right", fontsize=7)
-    fig.suptitle(title or _orbit_title(orbit), fontsize=10)
+    fig.suptitle((title or _orbit_title(orbit)) + "; red +: Lagrange points", fontsize=10)
     return fig
 
 

@@ -1,0 +1,77 @@
+"""What 'librate graph' and 'librate route' share: the node-list and build options, building
+the graph with progress on stderr, and the legs table."""
+
+from .. import common
+
+
+def add_build_options(p):
+    p.add_argument("--nodes", metavar="FILE.toml", required=True, help="node list (see README, 'Node lists')")
+    g = p.add_argument_group("computing the legs")
+    g.add_argument("--workers", metavar="N", help="worker processes (default: all cores; 1: no pool)")
+    g.add_argument("--scheduler", metavar="ADDRESS",
+                   help="run the legs on a dask.distributed scheduler instead (needs librate[cluster])")
+    g.add_argument("--catalog", metavar="PATH", help="leg cache (default $LIBRATE_CATALOG or "
+                   "~/.local/share/librate/catalog.sqlite)")
+    g.add_argument("--no-catalog", action="store_true", help="compute every leg, keep nothing")
+    g.add_argument("--tof", metavar="TIME", help="time of flight of targeted legs without their own (e.g. 6d)")
+
+
+def _workers(text):
+    from cr3bp.errors import InputError
+    if text is None:
+        return None
+    try:
+        n = int(text)
+    except ValueError:
+        raise InputError(f"--workers {text!r} is not a whole number") from None
+    if not 1 <= n <= 256:
+        raise InputError(f"--workers {n} is outside 1..256")
+    return n
+
+
+def build(args, system):
+    """(node list, BuildResult) from the options; progress to stderr."""
+    from cr3bp import units
+    from cr3bp.catalog import Catalog
+    from cr3bp.graph_build import build_graph
+    from cr3bp.nodes import load_nodes
+    from cr3bp.errors import InputError
+    nodelist = load_nodes(args.nodes, system)
+    workers = _workers(args.workers)
+    if args.scheduler and workers:
+        raise InputError("give --workers or --scheduler, not both")
+    tof_days = None
+    if args.tof is not None:
+        t = units.time(args.tof, system)
+        if not t > 0:
+            raise InputError(f"--tof {args.tof!r} must be positive")
+        tof_days = system.days(t)
+    if args.no_catalog and args.catalog:
+        raise InputError("give --catalog or --no-catalog, not both")
+    catalog = None if args.no_catalog else Catalog(args.catalog)
+
+    def tick(done, total, leg):
+        if done == 1 or done == total or done % max(1, total // 20) == 0:
+            what = "ok" if leg["status"] == "ok" else "failed"
+            common.progress(args, f"librate: leg {done}/{total} ({leg['from_name']} -> {leg['to_name']}: {what})")
+
+    common.progress(args, f"librate: building the graph of {len(nodelist.nodes)} node(s) from {args.nodes}...")
+    try:
+        result = build_graph(system, nodelist, workers=workers, scheduler=args.scheduler, catalog=catalog,
+                             progress=tick, tof_days=tof_days)
+    finally:
+        if catalog is not None:
+            catalog.close()
+    common.progress(args, f"librate: {result.computed} leg(s) computed, {result.cached} read from the "
+                          f"catalogue, {len(result.pruned)} pair(s) pruned")
+    return nodelist, result
+
+
+LEG_HEADERS = ["from", "to", "status", "dv_mps", "tof_days", "min_altitude_km", "reason"]
+
+
+def leg_rows(result):
+    rows = [[leg["from_name"], leg["to_name"], leg["status"], leg.get("dv_mps"), leg.get("tof_days"),
+             leg.get("min_altitude_km"), leg.get("reason", "")] for leg in result.legs]
+    rows += [[p["from"], p["to"], "pruned", None, None, None, p["reason"]] for p in result.pruned]
+    return rows

@@ -1,0 +1,120 @@
+"""Options shared by the manifold, section and connect commands: picking a periodic orbit and
+a half-manifold of it."""
+
+from __future__ import annotations
+
+from .. import common
+
+try:  # the orbit command's own target list when the orbit library's CLI helpers are present
+    from ._orbit_options import TARGETS as _ORBIT_TARGETS
+    TARGETS = tuple(t[0] for t in _ORBIT_TARGETS if t[0] != "resonance")
+except ImportError:
+    TARGETS = ("jacobi", "period", "ax", "ay", "az", "perilune")
+
+
+def add_orbit_options(p):
+    g = p.add_argument_group("periodic orbit (a request, the family options, or a state)")
+    g.add_argument("--orbit", metavar="REQUEST",
+                   help="the orbit in words, e.g. 'lyapunov L1 jacobi=3.17' or 'halo L1 north az=12000km'")
+    g.add_argument("--family", metavar="NAME", help="lyapunov, halo, vertical, axial, ...")
+    g.add_argument("--point", metavar="L1|L2|L3", help="collinear Lagrange point of the family")
+    g.add_argument("--halo-branch", metavar="north|south", help="halo branch")
+    for name in TARGETS:
+        g.add_argument(f"--{name}", metavar="VALUE", help=f"target {name} of the orbit "
+                       "(with --state: --period is the state's period)" if name == "period" else
+                       f"target {name} of the orbit")
+    g.add_argument("--state", metavar="X,Y,Z,VX,VY,VZ",
+                   help="an already converged periodic orbit's state (LU, LU/TU) instead of a request; "
+                        "needs --period")
+
+
+def add_manifold_options(p, points_default=200):
+    g = p.add_argument_group("manifold")
+    s = g.add_mutually_exclusive_group()
+    s.add_argument("--stable", dest="stability", action="store_const", const="stable",
+                   help="stable manifold (arrivals; propagated backward in time)")
+    s.add_argument("--unstable", dest="stability", action="store_const", const="unstable",
+                   help="unstable manifold (departures; propagated forward in time)")
+    g.add_argument("--branch", choices=("interior", "exterior"), default="interior",
+                   help="interior: the half stepping toward the smaller primary; exterior: away from it "
+                        "(default interior)")
+    g.add_argument("--points", type=int, default=points_default, metavar="N",
+                   help=f"departure points along the orbit (default {points_default})")
+    g.add_argument("--spacing", choices=("time", "arc"), default="time",
+                   help="points equally spaced in time or in arc length (default time)")
+    g.add_argument("--step-off", metavar="LENGTH",
+                   help="step-off distance from the orbit, e.g. 40km (default: 40 km Earth-Moon, "
+                        "200 km Sun-Earth; see DEVELOPERS.md)")
+
+
+def request_text(args) -> str | None:
+    if args.orbit:
+        return args.orbit
+    if not args.family:
+        return None
+    given = [(k, getattr(args, k)) for k in TARGETS if getattr(args, k, None) is not None]
+    from cr3bp.errors import InputError
+    if len(given) != 1:
+        raise InputError("give exactly one orbit target: " + ", ".join("--" + t for t in TARGETS) +
+                         f" (got {len(given)})")
+    words = [args.family] + [w for w in (args.point, args.halo_branch) if w]
+    return " ".join(words + [f"{given[0][0]}={given[0][1]}"])
+
+
+def orbit_from_request(system, text, args=None):
+    """A PeriodicOrbit from a request: 'state=X,Y,Z,VX,VY,VZ period=T' (a given orbit) or the
+    orbit library's grammar ('lyapunov L1 jacobi=3.15')."""
+    from cr3bp.errors import InputError
+    words = text.split()
+    kv = dict(w.split("=", 1) for w in words if "=" in w)
+    if "state" in kv:
+        if "period" not in kv:
+            raise InputError(f"'{text}': a state needs period=T (e.g. period=2.84TU)")
+        return _given(system, kv["state"], kv["period"], kv.get("family", "given"), kv.get("point", ""))
+    try:
+        from cr3bp.orbits.request import solve_request
+    except ImportError:
+        raise InputError(f"orbit request '{text}' needs the orbit library (cr3bp.orbits.request), "
+                         "which is not in this build; give 'state=X,Y,Z,VX,VY,VZ period=T' instead") from None
+    if args is not None:
+        common.progress(args, f"solving the orbit '{text}'...")
+    return solve_request(system, text)
+
+
+def _given(system, state_text, period_text, family="given", point=""):
+    from cr3bp import units
+    from cr3bp.errors import InputError
+    from cr3bp.manifolds import orbit_from_state
+    try:
+        s = [float(v) for v in state_text.split(",")]
+    except ValueError:
+        raise InputError(f"state '{state_text}' is not six comma-separated numbers") from None
+    if len(s) != 6:
+        raise InputError(f"state '{state_text}' has {len(s)} numbers; expected six (x,y,z,vx,vy,vz)")
+    T = units.time(period_text, system, default_unit="TU")
+    return orbit_from_state(system, s, T, family=family, point=point)
+
+
+def resolve_orbit(args, system):
+    from cr3bp.errors import InputError
+    if args.state is not None:
+        if args.period is None:
+            raise InputError("--state needs --period (the orbit's period, e.g. 2.84TU or 12.4d)")
+        return _given(system, args.state, args.period)
+    text = request_text(args)
+    if text is None:
+        raise InputError("give the orbit: --orbit 'lyapunov L1 jacobi=3.17', or --family/--point and one "
+                         "target, or --state and --period")
+    return orbit_from_request(system, text, args)
+
+
+def progress_printer(args):
+    def report(done, total, message):
+        common.progress(args, f"  {message}: {done}/{total}")
+    return report
+
+
+def check_plot_path(path):
+    from cr3bp.errors import InputError
+    if path and not path.lower().endswith((".png", ".pdf", ".svg")):
+        raise InputError(f"plot file '{path}' must end in .png, .pdf or .svg")

@@ -1,0 +1,156 @@
+"""librate connect: legs between periodic orbits, or a parking orbit and a periodic orbit, through tubes."""
+
+from .. import common
+from . import _tube_options as to
+
+NAME = "connect"
+ORDER = 70
+HELP = "connect two orbits (or a parking orbit and an orbit) through their manifolds: delta-v, time of flight"
+EXAMPLE = ("librate connect --system earth-moon --from 'lyapunov L1 jacobi=3.15' "
+           "--to 'lyapunov L2 jacobi=3.15' --section x=1-mu")
+
+
+def add_arguments(p):
+    common.add_system_options(p)
+    p.add_argument("--from", dest="origin", required=True, metavar="WHAT",
+                   help="departure: an orbit request ('lyapunov L1 jacobi=3.15', 'halo L1 north az=12000km', "
+                        "'state=X,Y,Z,VX,VY,VZ period=T') or a parking orbit ('parking earth 200km')")
+    p.add_argument("--to", dest="target", required=True, metavar="WHAT", help="arrival, same forms as --from")
+    p.add_argument("--section", default="x=1-mu", metavar="SECTION",
+                   help="common section of the two tubes (orbit to orbit; default x=1-mu)")
+    p.add_argument("--crossing", type=int, default=1, metavar="N", help="use the N-th crossing of the section")
+    p.add_argument("--points", type=int, default=None, metavar="N",
+                   help="trajectories per tube (default 200; 100 for parking-orbit legs)")
+    p.add_argument("--from-branch", choices=("interior", "exterior"), default=None,
+                   help="half-manifold of the departure orbit (default interior: toward the smaller primary; "
+                        "for a leg to a parking orbit, the half facing that primary)")
+    p.add_argument("--to-branch", choices=("interior", "exterior"), default=None,
+                   help="half-manifold of the arrival orbit (default as for --from-branch)")
+    p.add_argument("--time", default=None, metavar="TIME", help="time limit per trajectory (default 2pi TU)")
+    p.add_argument("--step-off", metavar="LENGTH", help="step-off distance (default per system)")
+    p.add_argument("--candidates", type=int, default=5, metavar="K", help="candidates refined (default 5)")
+    p.add_argument("--plot", metavar="FILE", help="draw the best leg over the tubes (PNG/PDF/SVG)")
+    p.add_argument("--map", metavar="FILE", help="parking-orbit legs: draw the periapsis map (altitude against "
+                   "time of flight, the target altitude marked)")
+    common.add_output_options(p)
+
+
+def parse_parking(text, system):
+    """'parking earth 200km' -> (primary index, altitude km), or None if not a parking orbit."""
+    from cr3bp import units
+    from cr3bp.errors import InputError
+    from cr3bp.sections import primary_index
+    words = text.split()
+    if not words or words[0].lower() != "parking":
+        return None
+    if len(words) != 3:
+        raise InputError(f"'{text}': write 'parking BODY ALTITUDE', e.g. 'parking earth 200km'")
+    p = primary_index(system, words[1])
+    q = units.parse(words[2], "length", "km")
+    system.require_dimensional("a parking altitude")
+    alt = q.si() if q.unit != "LU" else q.value * system.length_km
+    if alt < 0:
+        raise InputError(f"parking altitude '{words[2]}' must not be negative")
+    return p, float(alt)
+
+
+def _jacobi_word(text):
+    for w in text.split():
+        if w.lower().startswith("jacobi="):
+            try:
+                return float(w.split("=", 1)[1])
+            except ValueError:
+                return None
+    return None
+
+
+def _points(text):
+    return [w.upper() for w in text.split() if w.upper() in ("L1", "L2", "L3")]
+
+
+HEADERS = ["rank", "kind", "dv_mps", "tof_days", "patch_x", "patch_y", "patch_z", "patch_vx", "patch_vy",
+           "patch_vz", "min_altitude_km"]
+
+
+def run(args):
+    import math
+
+    from cr3bp import units
+    from cr3bp.connections import connect, necks_open, parking_legs, periapsis_map
+    from cr3bp.errors import InputError
+    system = common.resolve_system(args)
+    to.check_plot_path(args.plot)
+    to.check_plot_path(args.map)
+    if args.candidates < 1:
+        raise InputError(f"--candidates {args.candidates} must be at least 1")
+    t_max = units.time(args.time, system, default_unit="TU") if args.time else 2 * math.pi
+    if not t_max > 0:
+        raise InputError(f"--time {args.time} must be positive")
+    pa, pb = parse_parking(args.origin, system), parse_parking(args.target, system)
+    if args.map and not (pa or pb):
+        raise InputError("--map draws the periapsis map of a parking-orbit leg; one end must be 'parking ...'")
+    if pa and pb:
+        raise InputError("one end must be a periodic orbit; both --from and --to are parking orbits")
+    tubes = []
+    if pa or pb:
+        primary, alt = pa or pb
+        req = args.target if pa else args.origin
+        stability = "stable" if pa else "unstable"
+        facing = "interior" if primary == 1 else "exterior"
+        branch = (args.to_branch if pa else args.from_branch) or facing
+        orbit = to.orbit_from_request(system, req, args)
+        n = args.points or 100
+        common.progress(args, f"librate connect: periapsis map of {n} {stability} {branch} trajectories "
+                        f"about {system.names[primary]}...")
+        pm = periapsis_map(orbit, primary, stability, branch, n, t_max=t_max, step_km=args.step_off,
+                           progress=to.progress_printer(args))
+        if args.map:
+            from cr3bp.plotting import save
+            from cr3bp.plotting.manifolds import plot_periapsis_map
+            ax = plot_periapsis_map(pm, target_km=alt)
+            save(ax.figure, args.map, f"first close periapsis about {system.names[primary]} of each {stability} "
+                 f"{branch} trajectory of {pm.origin}; colour: departure phase on the orbit")
+            common.progress(args, f"wrote {args.map}")
+        legs = parking_legs(orbit, primary, alt, stability=stability, branch=branch, n_points=n,
+                            t_max=t_max, step_km=args.step_off, max_legs=args.candidates, pmap=pm)
+        how = f"{stability} manifold ({branch}) periapsis at {alt:g} km above {system.names[primary]}"
+    else:
+        ca, cb = _jacobi_word(args.origin), _jacobi_word(args.target)
+        if ca is not None and cb is not None and ca == cb:
+            necks_open(system, ca, sorted(set(_points(args.origin) + _points(args.target))) or ("L1",))
+        oa = to.orbit_from_request(system, args.origin, args)
+        ob = to.orbit_from_request(system, args.target, args)
+        n = args.points or 200
+        common.progress(args, f"librate connect: growing two tubes of {n} trajectories to {args.section}...")
+        args.from_branch = args.from_branch or "interior"
+        args.to_branch = args.to_branch or "interior"
+        legs, tu, ts = connect(oa, ob, args.section, n, step_km=args.step_off, t_max=t_max,
+                               count=args.crossing, branch_a=args.from_branch, branch_b=args.to_branch,
+                               max_candidates=args.candidates, progress=to.progress_printer(args))
+        tubes = [tu, ts]
+        how = f"unstable ({args.from_branch}) and stable ({args.to_branch}) tubes cut by {args.section}"
+    rows = [[k + 1, g.kind, g.dv_mps, g.tof_days, *map(float, g.patch_state),
+             None if math.isinf(g.min_altitude_km) else g.min_altitude_km] for k, g in enumerate(legs)]
+    best = legs[0]
+    head = [f"{args.origin} -> {args.target}: {len(legs)} leg(s) via {how}",
+            f"best: {best.kind}, dv {best.dv_mps:.6g} m/s, time of flight {best.tof_days:.4f} days",
+            f"method: {best.method}"]
+    if best.kind in ("arrival", "departure"):
+        per = best.details["periapsis"]
+        head.append(f"periapsis: altitude {per['altitude_km']:.3f} km, inertial speed "
+                    f"{per['speed_inertial_kms']:.4f} km/s, circular {per['speed_circular_kms']:.4f} km/s, "
+                    f"inclination {per['inclination_deg']:.3f} deg (to the primaries' orbit plane)")
+        head.append("dv = |v + omega x r| - sqrt(GM/r) at periapsis (tangential burn); time of flight "
+                    "from periapsis to the step-off point on the orbit")
+    if args.plot:
+        from cr3bp.plotting import save
+        from cr3bp.plotting.manifolds import plot_connection
+        common.progress(args, "drawing the connection...")
+        ax = plot_connection(legs[:3], tubes)
+        save(ax.figure, args.plot, f"{args.origin} -> {args.target}; best dv {best.dv_mps:.4g} m/s, "
+             f"time of flight {best.tof_days:.3f} d; rotating frame, LU")
+        common.progress(args, f"wrote {args.plot}")
+    table = "\n".join(head) + "\n\n" + common.format_table(HEADERS, rows)
+    common.emit(args, payload={"from": args.origin, "to": args.target, "legs": [g.to_dict() for g in legs]},
+                headers=HEADERS, rows=rows, table=table, comments=head)
+    return 0

@@ -1,0 +1,87 @@
+"""librate manifold: grow the stable or unstable manifold (tube) of a periodic orbit."""
+
+from .. import common
+from . import _tube_options as to
+
+NAME = "manifold"
+ORDER = 65
+HELP = "grow a stable or unstable manifold (tube) of a periodic orbit to a section, time, altitude or escape"
+EXAMPLE = ("librate manifold --system earth-moon --family lyapunov --point L1 --jacobi 3.17 --unstable "
+           "--branch interior --points 200 --until section:x=1-mu --plot tube.png")
+
+
+def add_arguments(p):
+    common.add_system_options(p)
+    to.add_orbit_options(p)
+    to.add_manifold_options(p)
+    p.add_argument("--lagrange", metavar="L1|L2|L3",
+                   help="grow the one-dimensional manifold of this collinear Lagrange point instead of an orbit's")
+    p.add_argument("--until", action="append", metavar="STOP",
+                   help="stop condition, repeatable: section:x=1-mu (section:y=0:+, #2 for the 2nd "
+                        "crossing), time:20d, altitude:earth:200km, escape:3LU (default time:2pi TU)")
+    p.add_argument("--plot", metavar="FILE", help="draw the tube (xy and xz projections) to PNG/PDF/SVG")
+    common.add_output_options(p)
+
+
+HEADERS = ["phase", "t_orbit", "tof", "tof_days", "status", "x", "y", "z", "vx", "vy", "vz"]
+
+
+def run(args):
+    from cr3bp.errors import InputError
+    from cr3bp.manifolds import grow_tube, parse_until
+    system = common.resolve_system(args)
+    if args.stability is None:
+        raise InputError("give --stable or --unstable")
+    to.check_plot_path(args.plot)
+    stop = parse_until(args.until, system)
+    if args.lagrange:
+        return _point(args, system, stop)
+    orbit = to.resolve_orbit(args, system)
+    common.progress(args, f"librate manifold: growing {args.points} {args.stability} {args.branch} "
+                    f"trajectories of {orbit.family} {orbit.point} (C = {orbit.jacobi:.6f})...")
+    tube = grow_tube(orbit, args.stability, args.branch, args.points, stop, spacing=args.spacing,
+                     step_km=args.step_off, progress=to.progress_printer(args))
+    d = tube.to_dict()
+    rows = [[t["phase"], t["t_orbit"], t["tof"], t["tof_days"], t["status"], *t["end_state"]]
+            for t in d["trajectories"]]
+    step = f"{tube.step_km:.3f} km" if tube.step_km == tube.step_km else f"{tube.step:.3e} LU"
+    head = [f"{tube.label}: {tube.n} trajectories, step-off {step} from the orbit",
+            f"orbit period {tube.period:.6f} TU, dominant monodromy eigenvalue {tube.eigenvalue:.6g}",
+            "stop: " + ", ".join(args.until or ["time:2pi TU"]) +
+            "; ended by: " + ", ".join(f"{k} {v}" for k, v in d["status_counts"].items())]
+    table = "\n".join(head) + "\n\n" + common.format_table(HEADERS, rows)
+    if args.plot:
+        from cr3bp.plotting import save
+        from cr3bp.plotting.manifolds import plot_tubes
+        common.progress(args, "drawing the tube...")
+        planar = tube.orbit.state[2] == 0 and tube.orbit.state[5] == 0
+        fig = plot_tubes([tube], views=("xy",) if planar else ("xy", "xz", "yz"))
+        save(fig, args.plot, f"{tube.label}; step-off {step}; rotating frame, LU; primaries to scale")
+        common.progress(args, f"wrote {args.plot}")
+    common.emit(args, payload={"tube": d}, headers=HEADERS, rows=rows, table=table,
+                comments=head)
+    return 0
+
+
+def _point(args, system, stop):
+    from cr3bp.errors import InputError
+    from cr3bp.manifolds import point_tube
+    name = args.lagrange.upper()
+    if name not in ("L1", "L2", "L3"):
+        raise InputError(f"--lagrange {args.lagrange!r}: only the collinear points L1, L2, L3 have "
+                         "one-dimensional manifolds")
+    tube = point_tube(system, name, args.stability, args.branch, stop, step_km=args.step_off)
+    d = tube.to_dict()
+    rows = [[t["phase"], t["t_orbit"], t["tof"], t["tof_days"], t["status"], *t["end_state"]]
+            for t in d["trajectories"]]
+    step = f"{tube.step_km:.3f} km" if tube.step_km == tube.step_km else f"{tube.step:.3e} LU"
+    head = [f"{name} {args.stability} {args.branch} branch: step-off {step} along the eigenvector "
+            f"of eigenvalue {tube.eigenvalue:.6g} (per TU), C = {tube.jacobi:.6f}"]
+    if args.plot:
+        from cr3bp.plotting import save
+        from cr3bp.plotting.manifolds import plot_tubes
+        save(plot_tubes([tube], views=("xy",)), args.plot, head[0] + "; rotating frame, LU")
+        common.progress(args, f"wrote {args.plot}")
+    table = "\n".join(head) + "\n\n" + common.format_table(HEADERS, rows)
+    common.emit(args, payload={"tube": d}, headers=HEADERS, rows=rows, table=table, comments=head)
+    return 0

@@ -1,0 +1,235 @@
+"""librate route: ranked routes between two nodes of a transfer graph, the Pareto set, and the
+best route stitched into one continuous trajectory with its maneuver table."""
+
+from .. import common
+from . import _graphing
+
+NAME = "route"
+ORDER = 75
+HELP = "rank the routes between two nodes, stitch the best into one trajectory, export and plot it"
+EXAMPLE = ('librate route --system earth-moon --nodes nodes.toml --from gate --to relay '
+           '--max-dv 800m/s --best 5 --pareto --plot corridor.png --out run1')
+
+PLOT_SUFFIXES = (".png", ".svg")
+#: compiled kernels this command uses (checked for the first-run compile notice)
+KERNELS = (("cr3bp.integrate.dop853", "integrate"),)
+
+
+def add_arguments(p):
+    common.add_system_options(p)
+    _graphing.add_build_options(p)
+    g = p.add_argument_group("the route")
+    g.add_argument("--from", dest="source", metavar="NODE", required=True,
+                   help="start: a node's name, its orbit text, or 'parking BODY ALTITUDE'")
+    g.add_argument("--to", dest="target", metavar="NODE", required=True, help="end (as --from)")
+    g.add_argument("--max-dv", metavar="SPEED", help="cap on the total Δv, e.g. 800m/s")
+    g.add_argument("--max-tof", metavar="TIME", help="cap on the time of flight, e.g. 120d")
+    g.add_argument("--max-legs", metavar="N", help="cap on the number of legs")
+    g.add_argument("--min-altitude", metavar="LENGTH", help="least altitude over either primary, e.g. 100km")
+    g.add_argument("--through", metavar="NODE", action="append", default=[], help="pass through NODE (repeatable)")
+    g.add_argument("--avoid", metavar="NODE", action="append", default=[], help="never visit NODE (repeatable)")
+    g.add_argument("--best", metavar="K", default="5", help="how many ranked routes (default 5)")
+    g.add_argument("--objective", choices=("dv", "tof"), default="dv", help="rank by total Δv or time of flight")
+    g.add_argument("--pareto", action="store_true", help="also give the Pareto set of Δv against time of flight")
+    g.add_argument("--no-stitch", action="store_true", help="rank only; do not stitch the best route")
+    q = p.add_argument_group("output")
+    q.add_argument("--plot", metavar="FILE", help="transfer-corridor figure to FILE (.png/.svg); the Pareto "
+                   "front and the graph go beside it as FILE-pareto and FILE-graph")
+    q.add_argument("--out", metavar="DIR", help="folder for the stitched route: route.json, trajectory.csv, "
+                   "maneuvers.csv")
+    q.add_argument("--epoch", metavar="ISO", help="with --out: also write route.oem (CCSDS OEM), the rotating "
+                   "frame's time 0 at this epoch, e.g. 2031-03-01T00:00:00Z")
+    q.add_argument("--frame", choices=("j2000-equator", "j2000-ecliptic", "rotating"), default="j2000-equator",
+                   help="axes of route.oem (default j2000-equator, centred on the larger primary)")
+    q.add_argument("--format", choices=("table", "json"), default="table", help="screen output (default table)")
+    common.add_verbosity(q)
+
+
+def _constraints(args, system, nodes):
+    from cr3bp import units
+    from cr3bp.errors import InputError
+    from cr3bp.network import Constraints
+    from cr3bp.nodes import find_node
+    dv = tof = alt = legs = None
+    if args.max_dv is not None:
+        dv = system.mps(units.velocity(args.max_dv, system))
+        if not dv >= 0:
+            raise InputError(f"--max-dv {args.max_dv!r} must not be negative")
+    if args.max_tof is not None:
+        tof = system.days(units.time(args.max_tof, system))
+        if not tof >= 0:
+            raise InputError(f"--max-tof {args.max_tof!r} must not be negative")
+    if args.min_altitude is not None:
+        alt = units.parse(args.min_altitude, "length").si() if not args.min_altitude.endswith("LU") else \
+            system.km(units.length(args.min_altitude, system))
+    if args.max_legs is not None:
+        try:
+            legs = int(args.max_legs)
+        except ValueError:
+            raise InputError(f"--max-legs {args.max_legs!r} is not a whole number") from None
+        if legs < 1:
+            raise InputError(f"--max-legs {legs} must be at least 1")
+    through = tuple(find_node(nodes, t).id for t in args.through)
+    avoid = tuple(find_node(nodes, t).id for t in args.avoid)
+    return Constraints(dv, tof, legs, alt, through, avoid)
+
+
+def _best(text):
+    from cr3bp.errors import InputError
+    try:
+        k = int(text)
+    except ValueError:
+        raise InputError(f"--best {text!r} is not a whole number") from None
+    if not 1 <= k <= 1000:
+        raise InputError(f"--best {k} is outside 1..1000")
+    return k
+
+
+def _side(path, tag):
+    from pathlib import Path
+    p = Path(path)
+    return str(p.with_name(f"{p.stem}-{tag}{p.suffix}"))
+
+
+def run(args):
+    from pathlib import Path
+
+    from cr3bp.errors import InputError, NoSolutionError
+    from cr3bp.network import best_routes, pareto_routes
+    from cr3bp.nodes import find_node
+
+    system = common.resolve_system(args)
+    if args.plot is not None and Path(args.plot).suffix.lower() not in PLOT_SUFFIXES:
+        raise InputError(f"--plot {args.plot!r} must end in .png or .svg")
+    if args.out is not None and Path(args.out).exists() and not Path(args.out).is_dir():
+        raise InputError(f"--out {args.out!r} exists and is not a folder")
+    if args.no_stitch and (args.out or args.plot):
+        raise InputError("--out and --plot show the stitched route; leave out --no-stitch")
+    if args.epoch is not None and not args.out:
+        raise InputError("--epoch sets the time of route.oem; give --out DIR too")
+    frame_spec = None
+    if args.epoch is not None:
+        from cr3bp.frames import frame
+        frame_spec = frame(system, args.epoch, axes=args.frame)       # checked before any work
+    k = _best(args.best)
+    from cr3bp.nodes import load_nodes
+    nodes = load_nodes(args.nodes, system).nodes       # checked before any leg is computed
+    src, dst = find_node(nodes, args.source), find_node(nodes, args.target)
+    if src.id == dst.id:
+        raise InputError("--from and --to name the same node")
+    constraints = _constraints(args, system, nodes)
+    nodelist, result = _graphing.build(args, system)
+    g = result.graph
+    try:
+        routes = best_routes(g, src.id, dst.id, constraints, args.objective, k)
+    except NoSolutionError as e:                                                # exit status 3
+        raise NoSolutionError(_explain(str(e), nodes, result, src, dst)) from None
+    front = pareto_routes(g, src.id, dst.id, constraints) if args.pareto else []
+    name = {n.id: n.name for n in nodes}
+    stitched = None
+    if not args.no_stitch:
+        from cr3bp.stitch import stitch_route
+        common.progress(args, f"librate: stitching the best route ({routes[0].n_legs} leg(s)) by multiple shooting...")
+        stitched = stitch_route(system, routes[0], constraints)
+    files = []
+    if args.out and stitched is not None:
+        files += _export(args, system, routes, front, stitched, name)
+        if frame_spec is not None:
+            from pathlib import Path as _P
+
+            from cr3bp.export import write_oem
+            from cr3bp.stitch import to_export
+            oem = str(_P(args.out) / "route.oem")
+            write_oem(oem, to_export(stitched, frame_spec))
+            files.append(oem)
+    if args.plot and stitched is not None:
+        files += _plots(args, system, g, routes, front, stitched)
+    payload = {"system": system.name, "from": src.name, "to": dst.name, "objective": args.objective,
+               "constraints": {k2: v for k2, v in constraints.__dict__.items()},
+               "routes": [_route_dict(r, name) for r in routes],
+               "pareto": [_route_dict(r, name) for r in front] if args.pareto else None,
+               "stitched": stitched.to_dict() if stitched is not None else None,
+               "graph": {"nodes": g.number_of_nodes(), "edges": g.number_of_edges(), "computed": result.computed,
+                         "cached": result.cached, "pruned": len(result.pruned)},
+               "files": files}
+    if args.format == "json":
+        import sys
+        sys.stdout.write(common.json_text(payload))
+        return 0
+    rows = [[i + 1, " -> ".join(name[n] for n in r.nodes), r.n_legs, r.dv_total_mps, r.tof_days]
+            for i, r in enumerate(routes)]
+    text = common.format_table(["rank", "route", "legs", "dv_total_mps", "tof_days"], rows,
+                               title=f"{system.name}: best routes from {src.name} to {dst.name} by "
+                                     f"{'total Δv' if args.objective == 'dv' else 'time of flight'}")
+    if front:
+        text += "\n" + common.format_table(
+            ["route", "dv_total_mps", "tof_days"],
+            [[" -> ".join(name[n] for n in r.nodes), r.dv_total_mps, r.tof_days] for r in front],
+            title="Pareto set (no other route is better on both Δv and time of flight)")
+    if stitched is not None:
+        text += "\n" + common.format_table(
+            ["t_days", "node", "dv_x_mps", "dv_y_mps", "dv_z_mps", "dv_mps"],
+            [[m["t_days"], m["node"], *m["dv_vector_mps"], m["dv_mps"]] for m in stitched.maneuvers],
+            title=(f"stitched best route: Δv {stitched.dv_total_mps:.3f} m/s (legs alone "
+                   f"{stitched.legs_dv_total_mps:.3f} m/s), time of flight {stitched.tof_days:.4f} d, "
+                   f"largest position jump {stitched.continuity_lu * system.length_km * 1e3:.2e} m"))
+        for c, v in stitched.constraints.items():
+            text += f"{c}: {v['value']:.6g} against {v['limit']:.6g}: {'holds' if v['holds'] else 'VIOLATED'}\n"
+        text += "Δv vectors are in the rotating frame.\n"
+    for f in files:
+        text += f"wrote {f}\n"
+    import sys
+    sys.stdout.write(text + common.caution_footer())
+    return 0
+
+
+def _explain(message, nodes, result, src, dst):
+    """The search's reason with node names for ids, plus why legs at either end were not made."""
+    for n in nodes:
+        message = message.replace(f"'{n.id}'", f"'{n.name}'")
+    why = sorted({p["reason"] for p in result.pruned if f"'{src.name}'" in p["reason"]
+                  or f"'{dst.name}'" in p["reason"]})
+    return message + (f" (not attempted: {'; '.join(why)})" if why else "")
+
+
+def _route_dict(r, name):
+    d = r.to_dict()
+    d["node_names"] = [name[n] for n in r.nodes]
+    for leg in d["legs"]:
+        leg["from_name"], leg["to_name"] = name[leg["from"]], name[leg["to"]]
+    return d
+
+
+def _export(args, system, routes, front, stitched, name):
+    from pathlib import Path
+
+    from cr3bp.atomic import write_text
+    from cr3bp.stitch import trajectory_rows
+    out = Path(args.out)
+    title = f"stitched route {' -> '.join(stitched.nodes)} in {system.name} (mu = {system.mu!r}), rotating frame"
+    headers, rows = trajectory_rows(stitched)
+    mrows = [[m["t_days"], m["node"], *m["position_km"], *m["dv_vector_mps"], m["dv_mps"]]
+             for m in stitched.maneuvers]
+    files = [str(out / "trajectory.csv"), str(out / "maneuvers.csv"), str(out / "route.json")]
+    write_text(files[0], common.csv_text(headers, rows, [title]))
+    write_text(files[1], common.csv_text(["t_days", "node", "x_km", "y_km", "z_km", "dv_x_mps", "dv_y_mps",
+                                          "dv_z_mps", "dv_mps"], mrows, [title, "Δv vectors in the rotating frame"]))
+    write_text(files[2], common.json_text({"system": system.to_dict(), "stitched": stitched.to_dict(),
+                                           "routes": [_route_dict(r, name) for r in routes]}))
+    return files
+
+
+def _plots(args, system, g, routes, front, stitched):
+    from cr3bp.plotting import save
+    from cr3bp.plotting.routes import plot_corridor, plot_graph, plot_pareto
+    legs = [d["leg"] for d in routes[0].legs]
+    ax = plot_corridor(stitched, legs)
+    save(ax.figure, args.plot, f"{system.name}: best route stitched by multiple shooting; dashed: zero-velocity "
+         f"curves at each leg's Jacobi constant; triangles: maneuvers (Δv in m/s).")
+    pareto_file, graph_file = _side(args.plot, "pareto"), _side(args.plot, "graph")
+    ax = plot_pareto(routes, front, routes[0])
+    save(ax.figure, pareto_file, "Totals over the legs as computed separately (stitching lowers the chosen "
+         f"route's to {stitched.dv_total_mps:.1f} m/s).")
+    ax = plot_graph(g, route=routes[0])
+    save(ax.figure, graph_file, f"{system.name}: transfer graph; the chosen route in red.")
+    return [args.plot, pareto_file, graph_file]

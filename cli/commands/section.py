@@ -1,0 +1,116 @@
+"""librate section: cut one or more tubes with a Poincaré section and draw or export the map."""
+
+from .. import common
+from . import _tube_options as to
+
+NAME = "section"
+ORDER = 66
+HELP = "cut tubes with a Poincaré section (plane, sphere, periapsis) and draw or export the map"
+EXAMPLE = ("librate section --system earth-moon --tube 'lyapunov L1 jacobi=3.15 unstable' "
+           "--tube 'lyapunov L2 jacobi=3.15 stable' --section x=1-mu --coords y,vy --plot map.png")
+
+
+def add_arguments(p):
+    common.add_system_options(p)
+    p.add_argument("--tube", action="append", required=True, metavar="SPEC",
+                   help="an orbit request plus 'stable' or 'unstable' and optionally 'interior' (default) "
+                        "or 'exterior', e.g. 'lyapunov L1 jacobi=3.15 unstable'; or "
+                        "'state=X,Y,Z,VX,VY,VZ period=T stable exterior'. Repeatable")
+    p.add_argument("--section", required=True, metavar="SECTION",
+                   help="x=1-mu, y=0:+ (one direction), sphere:moon:20000km, periapsis:earth, apoapsis:moon")
+    p.add_argument("--coords", default=None, metavar="A,B",
+                   help="map coordinates (default y,vy for x=c; x,vx for y=c; tof_days,altitude_km for "
+                        "spheres and apsides); any of x y z vx vy vz t tof_days altitude_km r jacobi")
+    p.add_argument("--crossing", type=int, default=1, metavar="N", help="take the N-th crossing (default 1)")
+    p.add_argument("--points", type=int, default=200, metavar="N", help="trajectories per tube (default 200)")
+    p.add_argument("--time", default=None, metavar="TIME", help="time limit per trajectory (default 2pi TU)")
+    p.add_argument("--step-off", metavar="LENGTH", help="step-off distance (default per system)")
+    p.add_argument("--plot", metavar="FILE", help="draw the map (PNG/PDF/SVG)")
+    common.add_output_options(p)
+
+
+def parse_tube_spec(text):
+    from cr3bp.errors import InputError
+    words = text.split()
+    stab = [w for w in words if w.lower() in ("stable", "unstable")]
+    br = [w for w in words if w.lower() in ("interior", "exterior")]
+    if len(stab) != 1:
+        raise InputError(f"tube '{text}' must say 'stable' or 'unstable' once")
+    if len(br) > 1:
+        raise InputError(f"tube '{text}' names more than one branch")
+    rest = " ".join(w for w in words if w.lower() not in ("stable", "unstable", "interior", "exterior"))
+    if not rest:
+        raise InputError(f"tube '{text}' has no orbit request")
+    return rest, stab[0].lower(), (br[0].lower() if br else "interior")
+
+
+def default_coords(section):
+    if section.kind != "plane":
+        return ("tof_days", "altitude_km")
+    return {0: ("y", "vy"), 1: ("x", "vx"), 2: ("x", "y")}.get(section.coordinate, ("x", "y"))
+
+
+HEADERS = ["tube", "trajectory", "phase", "crossing", "t", "map_a", "map_b", "x", "y", "z", "vx", "vy", "vz"]
+
+
+def run(args):
+    import math
+
+    from cr3bp import units
+    from cr3bp.errors import InputError
+    from cr3bp.manifolds import Stop, grow_tube, manifold_starts
+    from cr3bp.sections import MAP_COORDS, crossings, parse_section
+    system = common.resolve_system(args)
+    to.check_plot_path(args.plot)
+    section = parse_section(args.section, system)
+    names = tuple(args.coords.split(",")) if args.coords else default_coords(section)
+    if len(names) != 2 or any(n not in MAP_COORDS for n in names):
+        raise InputError(f"--coords '{args.coords}' must be two of {', '.join(MAP_COORDS)}")
+    if args.crossing < 1:
+        raise InputError(f"--crossing {args.crossing} must be at least 1")
+    t_max = units.time(args.time, system, default_unit="TU") if args.time else 2 * math.pi
+    if not t_max > 0:
+        raise InputError(f"--time {args.time} must be positive")
+    specs = [parse_tube_spec(t) for t in args.tube]
+    cuts, out = [], []
+    for req, stab, br in specs:
+        orbit = to.orbit_from_request(system, req, args)
+        from cr3bp.manifolds import describe
+        label = f"{describe(orbit) if 'state=' in req else req} {stab} {br}"
+        common.progress(args, f"librate section: {label}: {args.points} trajectories to {section.label}...")
+        sign = 1.0 if stab == "unstable" else -1.0
+        if section.kind == "apsis":
+            ts, _, _, starts, *_ = manifold_starts(orbit, stab, br, args.points, step_km=args.step_off)
+            cut = crossings(system, starts, section, sign * t_max, args.crossing, phase=ts / orbit.period,
+                            label=label).nth(args.crossing)
+        else:
+            tube = grow_tube(orbit, stab, br, args.points, Stop(section, args.crossing, t_max),
+                             step_km=args.step_off, progress=to.progress_printer(args), origin=req)
+            cut = tube.section_cut()
+            cut = type(cut)(**{**cut.__dict__, "label": label})
+        cuts.append(cut)
+        d = cut.to_dict(names)
+        d["closed"] = cut.closed
+        d["area"] = cut.area(names) if cut.closed else None
+        out.append(d)
+    rows = []
+    for k, cut in enumerate(cuts):
+        m = cut.coords(names)
+        for i in range(len(cut)):
+            rows.append([k + 1, int(cut.trajectory[i]), None if cut.phase is None else float(cut.phase[i]),
+                         int(cut.count[i]), float(cut.t[i]), float(m[i, 0]), float(m[i, 1]),
+                         *map(float, cut.states[i])])
+    head = [f"section {section.label}, map ({names[0]}, {names[1]}), crossing {args.crossing}"]
+    head += [f"tube {k + 1}: {c.label}: {len(c)} of {c.n_trajectories} trajectories crossed"
+             + (f", closed cut, area {c.area(names):.6g}" if c.closed else "") for k, c in enumerate(cuts)]
+    if args.plot:
+        from cr3bp.plotting import save
+        from cr3bp.plotting.manifolds import plot_section_map
+        ax = plot_section_map(cuts, names)
+        save(ax.figure, args.plot, f"Poincaré map on {section.label}: " + "; ".join(c.label for c in cuts))
+        common.progress(args, f"wrote {args.plot}")
+    hdr = HEADERS[:5] + [f"map_{n}" for n in names] + HEADERS[7:]
+    table = "\n".join(head) + "\n\n" + common.format_table(hdr, rows)
+    common.emit(args, payload={"section": section.to_dict(), "coords": list(names), "cuts": out},
+                headers=hdr, rows=rows, table=table, comments=head)
+    return 0

@@ -1,0 +1,426 @@
+"""Building the transfer graph from a node list: plan the legs, prune them by energy, compute
+them as independent tasks (a process pool, or a dask.distributed cluster), cache every leg.
+
+Plan. Every ordered pair of nodes (or only the pairs the node list names, with
+``all_pairs = false``) is a candidate leg. A pair whose hint allows no maneuver is attempted
+only where a ballistic arc can exist: equal Jacobi constants and, when the two nodes lie in
+different realms, the neck between them open (``C < C_Li``; Koon, Lo, Marsden & Ross, 2011,
+ch. 3, from memory). Pairs whose ends need a solver that is not on this build are listed as
+pruned, with the reason.
+
+Compute. A task is a plain dict (system, both nodes with their states, settings); the worker
+function :func:`compute_leg` is a module-level function of that dict alone, so it pickles to a
+``concurrent.futures.ProcessPoolExecutor`` or to a dask worker, and the same task gives the
+same leg byte for byte wherever it runs.
+
+Cache. Each leg is stored in the catalogue under a key made of both nodes' ids, the settings
+and the leg format; a rebuild reads every known leg and computes none of them. Legs that
+failed (no convergence, impact, over the Δv cap) are cached too, with the reason, so they are
+not retried either.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+import os
+from dataclasses import dataclass, field
+
+import networkx as nx
+import numpy as np
+
+from . import network
+from .errors import InputError, LibrateError
+from .nodes import BoundaryNode, OrbitNode, ParkingNode, node_state
+from .targeting import LEG_FORMAT
+
+#: Two Jacobi constants closer than this count as one energy (ballistic legs).
+SAME_ENERGY = 1e-9
+#: A leg declared ballistic ("maneuvers = none") is kept only under this total Δv, m/s.
+BALLISTIC_DV_MPS = 0.01
+#: Chunks of legs per pool worker (progress is reported as each chunk completes).
+CHUNKS_PER_WORKER = 4
+#: Legs written to the catalogue per transaction.
+CATALOG_BATCH = 64
+
+
+@dataclass(frozen=True)
+class BuildResult:
+    """The graph and how it was made.
+
+    Attributes
+    ----------
+    graph : networkx.MultiDiGraph   node ids as nodes; edges from :func:`cr3bp.network.add_leg`
+    nodes : tuple of nodes
+    legs : tuple of leg dicts (every attempted leg, ``status`` "ok" or "failed")
+    computed, cached : int          legs computed in this run / read from the catalogue
+    pruned : tuple of dicts         pairs not attempted, with the reason
+    """
+
+    graph: object
+    nodes: tuple
+    legs: tuple
+    computed: int
+    cached: int
+    pruned: tuple = ()
+    settings: dict = field(default_factory=dict)
+
+    def to_dict(self) -> dict:
+        return {"nodes": [dict(n.to_dict(), **_node_energy(self.graph, n.id)) for n in self.nodes],
+                "legs": [leg_summary(leg) for leg in self.legs],
+                "edges": self.graph.number_of_edges(), "computed": self.computed,
+                "cached": self.cached, "pruned": list(self.pruned), "settings": self.settings}
+
+
+def _node_energy(graph, nid):
+    d = graph.nodes[nid]
+    return {"jacobi": d.get("jacobi"), "x": d.get("x")}
+
+
+def leg_summary(leg: dict) -> dict:
+    keys = ("from", "to", "from_name", "to_name", "method", "status", "reason", "dv_mps", "tof_days",
+            "min_altitude_km", "key")
+    return {k: leg.get(k) for k in keys if k in leg}
+
+
+def system_spec(system) -> dict:
+    return {"name": system.name, "mu": float(system.mu), "length_km": float(system.length_km),
+            "time_s": float(system.time_s)}
+
+
+def system_from_spec(spec):
+    from .systems import from_mu, system
+    try:
+        s = system(spec["name"])
+        if s.mu == spec["mu"]:
+            return s
+    except LibrateError:
+        pass
+    return from_mu(spec["mu"], spec["length_km"], spec["time_s"])
+
+
+def leg_key(task: dict) -> str:
+    """Catalogue key of a leg: both node ids, the settings, the system and the leg format."""
+    body = {"from": task["from"]["id"], "to": task["to"]["id"], "settings": task["settings"],
+            "system": task["system"], "format": LEG_FORMAT, "method": task["method"],
+            "states": [task["from"].get("state_used"), task["to"].get("state_used")]}
+    text = json.dumps(body, sort_keys=True, separators=(",", ":"))
+    return f"leg/{task['from']['id']}->{task['to']['id']}/{hashlib.sha256(text.encode()).hexdigest()[:16]}"
+
+
+def compute_leg(task: dict) -> dict:
+    """Compute one leg from a plain task dict; never raises for a leg that cannot be made
+    (it comes back with ``status = "failed"`` and the reason)."""
+    from .targeting import targeted_leg
+    system = system_from_spec(task["system"])
+    st = task["settings"]
+    base = {"from": task["from"]["id"], "to": task["to"]["id"], "from_name": task["from"]["name"],
+            "to_name": task["to"]["name"], "key": task["key"], "method": task["method"]}
+    try:
+        leg = targeted_leg(system, task["from"]["state_used"], task["to"]["state_used"], st["tof_tu"],
+                           st["patches"])
+    except LibrateError as e:
+        return dict(base, status="failed", reason=str(e), dv_mps=None, tof_days=None)
+    leg.update(base)
+    cap = st.get("max_patch_dv_mps")
+    if st.get("maneuvers") == "none" and leg["dv_mps"] > BALLISTIC_DV_MPS:
+        return dict(base, status="failed", dv_mps=leg["dv_mps"], tof_days=leg["tof_days"],
+                    reason=f"declared ballistic but needs {leg['dv_mps']:.3f} m/s")
+    if cap is not None and leg["dv_mps"] > cap:
+        return dict(base, status="failed", dv_mps=leg["dv_mps"], tof_days=leg["tof_days"],
+                    reason=f"needs {leg['dv_mps']:.1f} m/s, over the cap of {cap:.1f} m/s")
+    leg["status"] = "ok"
+    leg["reason"] = ""
+    return leg
+
+
+# ---- planning --------------------------------------------------------------------------
+
+def realm(system, position) -> str:
+    """Which realm a position lies in: "larger" (inside the L1 neck's side of the larger
+    primary), "smaller" (between L1 and L2), or "exterior" (beyond L2, or farther from the
+    barycentre than L3). A coarse split by the collinear points' x (common practice)."""
+    from .equilibria import lagrange_point
+    x = float(position[0])
+    r = float(np.linalg.norm(position[:2]))
+    x1, x2 = lagrange_point(system, "L1").position[0], lagrange_point(system, "L2").position[0]
+    x3 = abs(lagrange_point(system, "L3").position[0])
+    if r > x3 and x < x1:
+        return "exterior"
+    if x < x1:
+        return "larger"
+    return "smaller" if x <= x2 else "exterior"
+
+
+def _necks_between(a: str, b: str) -> tuple:
+    pair = {a, b}
+    if pair == {"larger", "smaller"}:
+        return ("L1",)
+    if pair == {"smaller", "exterior"}:
+        return ("L2",)
+    if pair == {"larger", "exterior"}:
+        return ("L3",)
+    return ()
+
+
+#: Realms an orbit about a collinear point touches (it sits in that point's neck).
+NECK_REALMS = {"L1": {"larger", "smaller"}, "L2": {"smaller", "exterior"}, "L3": {"larger", "exterior"}}
+
+
+def realms_of(system, position, point: str = "") -> set:
+    """The realm(s) a node is in: an orbit about L1..L3 touches the two realms its neck joins."""
+    return set(NECK_REALMS[point]) if point in NECK_REALMS else {realm(system, position)}
+
+
+def energy_prune(system, c_from, c_to, r_from, r_to, maneuvers: str, point_from="", point_to="") -> str | None:
+    """Why no leg is attempted (None: attempt it). Only ballistic pairs are pruned: different
+    energies, or every way between their realms through a closed neck."""
+    if maneuvers != "none":
+        return None
+    if abs(c_from - c_to) > SAME_ENERGY:
+        return f"no maneuver allowed and the Jacobi constants differ ({c_from:.9f} vs {c_to:.9f})"
+    from .energy import necks
+    opened = necks(system, c_from)
+    ra, rb = realms_of(system, r_from, point_from), realms_of(system, r_to, point_to)
+    if ra & rb:
+        return None
+    closed = set()
+    for a in ra:
+        for b in rb:
+            need = _necks_between(a, b)
+            if all(opened[p] for p in need):
+                return None
+            closed.update(p for p in need if not opened[p])
+    return f"no maneuver allowed and the {'/'.join(sorted(closed))} neck is closed at C = {c_from:.9f}"
+
+
+def resolve_orbits(system, nodelist, catalog=None, progress=None) -> dict:
+    """Orbit node id -> {"state", "period", "jacobi"} or {"error"}: each orbit request solved
+    once by :func:`cr3bp.orbits.request.solve_request` (read from ``catalog`` when known)."""
+    from .errors import LibrateError
+    from .orbits.request import solve_request
+    out = {}
+    for n in nodelist.nodes:
+        if isinstance(n, OrbitNode) and n.id not in out:
+            try:
+                o = solve_request(system, n.orbit, catalog=catalog)
+                out[n.id] = {"state": np.asarray(o.state, dtype=float), "period": float(o.period),
+                             "jacobi": float(o.jacobi)}
+            except LibrateError as e:
+                out[n.id] = {"error": str(e)}
+            if progress is not None:
+                progress(n, out[n.id])
+    return out
+
+
+def _state_of(system, node, orbits):
+    if isinstance(node, OrbitNode):
+        return orbits.get(node.id, {}).get("state")
+    return node_state(system, node)
+
+
+def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
+    """Tasks (plain dicts, in a fixed order) and the pruned pairs of a node list.
+
+    ``orbits`` is :func:`resolve_orbits`'s result (computed here when not given). A leg to or
+    from an orbit node departs or arrives at the orbit's reference state (its initial state)."""
+    from .dynamics import jacobi
+    if not system.dimensional:
+        raise InputError(f"system '{system.name}' has no dimensional units; the graph reports m/s and days")
+    tof_days = nodelist.tof_days if tof_days is None else tof_days
+    patches = nodelist.patches if patches is None else patches
+    if orbits is None:
+        orbits = resolve_orbits(system, nodelist)
+    states = {n.id: _state_of(system, n, orbits) for n in nodelist.nodes}
+    hints = {}
+    for h in nodelist.hints:
+        hints[(h.source, h.target)] = h
+        if h.both_ways:
+            hints.setdefault((h.target, h.source), h)
+    if nodelist.all_pairs:
+        pairs = [(a, b) for a in nodelist.nodes for b in nodelist.nodes if a is not b]
+    else:
+        byname = nodelist.by_name()
+        pairs = [(byname[s], byname[t]) for (s, t) in hints]
+    tasks, pruned = [], []
+    for a, b in pairs:
+        h = hints.get((a.name, b.name))
+        why = None
+        for n in (a, b):
+            if isinstance(n, OrbitNode):
+                if "error" in orbits.get(n.id, {}):
+                    why = f"orbit node '{n.name}': {orbits[n.id]['error']}"
+            elif isinstance(n, BoundaryNode):
+                why = f"{n.kind} node '{n.name}' needs manifold connections (cr3bp.connections), not on this build"
+            elif isinstance(n, ParkingNode):
+                # a departure from a parking orbit has a free phase: a primary-to-orbit leg of
+                # the connections library, not a two-point targeting from one fixed point
+                why = (f"parking node '{n.name}' needs primary-to-orbit legs (cr3bp.connections), "
+                       "not on this build")
+        sa, sb = states[a.id], states[b.id]
+        maneuvers = h.maneuvers if h else "ends"
+        if why is None:
+            why = energy_prune(system, float(jacobi(system.mu, sa)), float(jacobi(system.mu, sb)),
+                               sa[:3], sb[:3], maneuvers, getattr(a, "point", ""), getattr(b, "point", ""))
+        if why is not None:
+            pruned.append({"from": a.name, "to": b.name, "reason": why})
+            continue
+        tof = h.tof_days if (h and h.tof_days is not None) else tof_days
+        settings = {"tof_tu": float(tof / system.time_days), "patches": int(patches), "maneuvers": maneuvers,
+                    "max_patch_dv_mps": h.max_patch_dv_mps if h else None}
+        task = {"system": system_spec(system), "method": "targeted", "settings": settings,
+                "from": dict(a.to_dict(), state_used=sa.tolist()), "to": dict(b.to_dict(), state_used=sb.tolist())}
+        task["key"] = leg_key(task)
+        tasks.append(task)
+    return tasks, pruned
+
+
+# ---- running the tasks --------------------------------------------------------------------
+
+def run_tasks(tasks, workers=None, scheduler=None, progress=None) -> list:
+    """Results of :func:`compute_leg` over ``tasks``, in task order.
+
+    ``scheduler``: address of a dask.distributed scheduler (or a ``distributed.Client``);
+    otherwise a process pool of ``workers`` processes (default: the machine's cores; 1 runs
+    in this process)."""
+    n = len(tasks)
+    out = [None] * n
+    done = 0
+
+    def tick(i, leg):
+        nonlocal done
+        out[i] = leg
+        done += 1
+        if progress is not None:
+            progress(done, n, leg)
+
+    if n == 0:
+        return []
+    if scheduler is not None:
+        try:
+            from distributed import Client, as_completed
+        except ImportError:
+            raise InputError("--scheduler needs dask.distributed: pip install 'librate[cluster]'") from None
+        client = scheduler if isinstance(scheduler, Client) else Client(scheduler, timeout="20s")
+        try:
+            futures = client.map(compute_leg, tasks, pure=False)
+            index = {f.key: i for i, f in enumerate(futures)}
+            for f in as_completed(futures):
+                tick(index[f.key], f.result())
+        finally:
+            if client is not scheduler:
+                client.close()
+        return out
+    workers = (os.cpu_count() or 1) if workers is None else int(workers)
+    if workers < 1:
+        raise InputError(f"--workers {workers} must be at least 1")
+    if workers == 1 or n == 1:
+        for i, t in enumerate(tasks):
+            tick(i, compute_leg(t))
+        return out
+    import multiprocessing
+    from concurrent.futures import ProcessPoolExecutor, as_completed as done_first
+    # fork where the platform has it: no re-import of the caller's main module (scripts
+    # without a main guard work); spawn elsewhere
+    methods = multiprocessing.get_all_start_methods()
+    ctx = multiprocessing.get_context("fork" if "fork" in methods else "spawn")
+    # legs take milliseconds with the compiled integrator: send them in chunks (a few per
+    # worker) so that process start-up and pickling do not outweigh the work
+    size = max(1, math.ceil(n / (CHUNKS_PER_WORKER * workers)))
+    chunks = [list(range(a, min(a + size, n))) for a in range(0, n, size)]
+    with ProcessPoolExecutor(max_workers=min(workers, len(chunks)), mp_context=ctx) as ex:
+        futs = {ex.submit(compute_legs, [tasks[i] for i in c]): c for c in chunks}
+        for f in done_first(futs):
+            for i, leg in zip(futs[f], f.result()):
+                tick(i, leg)
+    return out
+
+
+def compute_legs(tasks: list) -> list:
+    """:func:`compute_leg` over a chunk of tasks (one pool submission)."""
+    return [compute_leg(t) for t in tasks]
+
+
+def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None, progress=None,
+                tof_days=None, patches=None) -> BuildResult:
+    """The transfer graph of ``nodelist``: plan, prune, compute (or read from ``catalog``).
+
+    Parameters
+    ----------
+    system : System (dimensional)
+    nodelist : cr3bp.nodes.NodeList
+    workers : int, optional       process-pool size (default: all cores; 1: in this process)
+    scheduler : str or distributed.Client, optional   run the legs on a dask cluster instead
+    catalog : cr3bp.catalog.Catalog, optional          leg cache
+    progress : callable(done, total, leg), optional
+    tof_days, patches : override the node list's settings
+
+    Returns
+    -------
+    BuildResult
+    """
+    from .dynamics import jacobi
+    orbits = resolve_orbits(system, nodelist, catalog)
+    tasks, pruned = plan(system, nodelist, tof_days, patches, orbits)
+    legs: list = [None] * len(tasks)
+    todo = []
+    for i, t in enumerate(tasks):
+        known = catalog.get_leg(t["key"]) if catalog is not None else None
+        if known is not None:
+            legs[i] = known
+        else:
+            todo.append(i)
+    cached = len(tasks) - len(todo)
+    pending = []
+
+    def flush():
+        if catalog is not None and pending:
+            catalog.put_legs([(leg["key"], system, leg) for leg in pending])
+        pending.clear()
+
+    def tick(done, total, leg):
+        # legs reach the catalogue in batches as they complete, so an interrupted build
+        # keeps what it computed
+        pending.append(leg)
+        if len(pending) >= CATALOG_BATCH:
+            flush()
+        if progress is not None:
+            progress(done, total, leg)
+
+    try:
+        results = run_tasks([tasks[i] for i in todo], workers, scheduler, tick)
+    finally:
+        flush()
+    for i, leg in zip(todo, results):
+        legs[i] = leg
+    graph = nx.MultiDiGraph(system=system.name)
+    for n in nodelist.nodes:
+        s = _state_of(system, n, orbits)
+        graph.add_node(n.id, name=n.name, kind=n.kind, node=n.to_dict(),
+                       jacobi=None if s is None else float(jacobi(system.mu, s)),
+                       x=None if s is None else float(s[0]), y=None if s is None else float(s[1]),
+                       period_days=orbits[n.id]["period"] * system.time_days
+                       if "period" in orbits.get(n.id, {}) else None)
+        if "period" in orbits.get(n.id, {}):
+            # phasing along the orbit: a self-loop of one period, no Δv (the simple-path search
+            # never takes it; it records how long one waits per revolution)
+            network.add_leg(graph, n.id, n.id, 0.0, orbits[n.id]["period"] * system.time_days, key="stay",
+                            kind="stay", leg={"from": n.id, "to": n.id, "method": "stay", "status": "ok",
+                                              "dv_mps": 0.0, "period_tu": orbits[n.id]["period"]})
+    for leg in legs:
+        if leg["status"] == "ok":
+            network.add_leg(graph, leg["from"], leg["to"], leg["dv_mps"], leg["tof_days"], key=leg["method"],
+                            kind=leg["method"], min_altitude_km=leg["min_altitude_km"], leg=leg)
+    settings = {"tof_days": nodelist.tof_days if tof_days is None else tof_days,
+                "patches": nodelist.patches if patches is None else patches}
+    return BuildResult(graph, tuple(nodelist.nodes), tuple(legs), len(todo), cached, tuple(pruned), settings)
+
+
+def leg_json(leg: dict) -> str:
+    """Canonical JSON of a leg (sorted keys): two equal legs give equal text."""
+    return json.dumps(leg, sort_keys=True, allow_nan=True)
+
+
+def finite(v):
+    return v if (isinstance(v, float) and math.isfinite(v)) else None

@@ -1,0 +1,87 @@
+"""The sections of a mission run's HTML report (built with :mod:`cr3bp.report`)."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from . import report as R
+
+
+def _system_section(plan) -> str:
+    s = plan.system
+    d = s.to_dict()
+    pairs = [("system", s.name), ("mass ratio mu", s.mu), ("epoch of rotating time 0", plan.epoch)]
+    if s.dimensional:
+        pairs += [("length unit [km]", s.length_km), ("time unit [d]", s.time_days),
+                  ("velocity unit [km/s]", s.velocity_kms), ("larger primary", d["primary"]),
+                  ("smaller primary", d["secondary"]), ("constants", s.source)]
+    return R.kv_table(pairs)
+
+
+def _orbit_section(name, orbit, checks, figures) -> str:
+    d = orbit.to_dict()
+    nu = [float(np.real(v)) for v in orbit.stability_indices]
+    amp = d.get("amplitude_km") or {}
+    close = d.get("closest_approach_km") or {}
+    pairs = [("family", f"{orbit.family} {orbit.point} {orbit.branch}".strip()),
+             ("initial state [LU, LU/TU]", ", ".join(f"{v:.12f}" for v in orbit.state)),
+             ("period [d]", orbit.period_days), ("Jacobi constant", orbit.jacobi),
+             ("stability indices", nu), ("periodicity error", orbit.periodicity_error)]
+    pairs += [(f"amplitude {k} [km]", v) for k, v in amp.items()]
+    pairs += [(f"closest approach to {k} [km, from centre]", v) for k, v in close.items()]
+    html = R.kv_table(pairs)
+    if checks:
+        html += "<h3>Constraints</h3>" + R.table(
+            ["check", "required", "actual", "margin", "result"],
+            [R.check_row({"name": f"{c.description} [{c.unit}]" if c.unit else c.description,
+                          "required": c.required, "actual": c.actual, "margin": c.margin,
+                          "passed": c.passed}) for c in checks])
+    for key in (f"orbit-{name}", f"hill-{name}", f"family-{name}"):
+        if key in figures:
+            html += R.figure(figures[key]["path"], figures[key]["caption"])
+    return html
+
+
+def _routes_section(routes, figures) -> str:
+    html = ""
+    for name, r in routes.items():
+        html += f"<h3>{R.esc(name)}</h3>"
+        best = r.get("best") or {}
+        legs = best.get("legs", [])
+        html += R.table(["leg", "from", "to", "Δv [m/s]", "time of flight [d]"],
+                        [(str(i + 1), R.esc(l["from"]), R.esc(l["to"]), R.fmt(l["dv_mps"]), R.fmt(l["tof_days"]))
+                         for i, l in enumerate(legs)] +
+                        [("total", "", "", R.fmt(best.get("dv_total_mps")), R.fmt(best.get("tof_days")))], left=3)
+        if r.get("maneuvers"):
+            html += "<p>Maneuvers of the stitched trajectory:</p>" + R.table(
+                ["time since start [d]", "Δv [m/s]", "Δv vector (rotating) [m/s]"],
+                [(R.fmt(m["t_days"]), R.fmt(m["dv_mps"]), R.fmt(m["dv_vector_mps"])) for m in r["maneuvers"]], left=0)
+        if r.get("note"):
+            html += f"<p>{R.esc(r['note'])}</p>"
+        for key in (f"corridor-{name}", f"pareto-{name}"):
+            if key in figures:
+                html += R.figure(figures[key]["path"], figures[key]["caption"])
+    return html
+
+
+def _exports_section(exports) -> str:
+    return R.table(["file", "object", "format", "frame", "centre", "time system", "anchoring"],
+                   [(R.esc(e["file"]), R.esc(e["object"]), e["format"], e["frame"], e["center"],
+                     e["time_system"], e["anchor"]) for e in exports])
+
+
+def write_report(plan, orbits, checks, routes, exports, figures, out):
+    sections = [("System and units", _system_section(plan))]
+    desc = plan.data["mission"].get("description")
+    if desc:
+        sections.insert(0, ("Mission", f"<p>{R.esc(desc)}</p><p>Scenario file: {R.esc(plan.path.name)} "
+                                       f"(sha256 {plan.sha256[:16]}…)</p>"))
+    for name, orbit in orbits.items():
+        sections.append((f"Orbit '{name}'", _orbit_section(name, orbit, checks.get(name), figures)))
+    if routes:
+        sections.append(("Transfers: Δv and time-of-flight budget", _routes_section(routes, figures)))
+    if exports:
+        sections.append(("Exports written", _exports_section(exports)))
+    path = out.path("report.html")
+    R.write(path, f"{plan.name}: preliminary design report", sections)
+    return path

@@ -1,0 +1,406 @@
+"""Nodes of the transfer graph and the node-list file that declares them.
+
+A node is a place a spacecraft can be: a periodic orbit (named by the orbit request text of
+:mod:`cr3bp.orbits`), a circular parking orbit about a primary, a fixed state in the rotating
+frame (a patch point, a rendezvous point), or a capture / escape condition about a body. Each
+is a frozen dataclass with a stable string ``id`` (the same declaration always gives the same
+id, whatever it is called in the file) and ``to_dict()``.
+
+The node list is a TOML file with keys of our own (README, "Node lists")::
+
+    system = "earth-moon"
+    [settings]
+    tof = "6d"                       # default time of flight of a targeted leg
+    [[node]]
+    name = "gate"
+    kind = "state"
+    state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
+    [[edge]]
+    from = "gate"
+    to = "relay"
+    maneuvers = "ends"               # ends | none
+    tof = "4d"
+    max_patch_dv = "300m/s"
+
+It is checked with the scenario checker (:func:`cr3bp.scenario_schema.check`): every unknown,
+missing or mistyped key is reported with file, line and dotted key before anything is computed.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import math
+import re
+import tomllib
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from . import scenario_schema as schema_mod
+from . import units
+from .errors import InputError, shown
+
+KINDS = ("orbit", "parking", "state", "capture", "escape")
+MANEUVERS = ("ends", "none")
+
+NODE_KEYS = {
+    "name": ("str", True, "name of the node, used by edges and --from/--to"),
+    "kind": ("one-of:" + "|".join(KINDS), True, "what sort of place"),
+    "orbit": ("str", False, "orbit request text, e.g. 'halo L2 south period=6.5626d' (kind orbit)"),
+    "body": ("str", False, "primary, e.g. 'earth' (kinds parking, capture, escape)"),
+    "altitude": ("quantity", False, "altitude of the circular parking orbit or the capture periapsis"),
+    "inclination": ("float", False, "inclination of the parking orbit to the primaries' plane, degrees"),
+    "radius": ("quantity", False, "distance from the body at which the escape condition holds"),
+    "state": ("list[float]", False, "x, y, z, vx, vy, vz in LU and LU/TU (kind state)"),
+}
+EDGE_KEYS = {
+    "from": ("str", True, "name of the departure node"),
+    "to": ("str", True, "name of the arrival node"),
+    "maneuvers": ("one-of:" + "|".join(MANEUVERS), False,
+                  "'ends': impulses allowed at both ends; 'none': ballistic only"),
+    "max_patch_dv": ("quantity", False, "largest Δv accepted for this leg, e.g. '300m/s'"),
+    "sections": ("list[str]", False, "Poincaré sections to patch on, e.g. ['x=1-mu'] (connections)"),
+    "tof": ("quantity", False, "time of flight of a targeted leg, e.g. '4d'"),
+    "both_ways": ("bool", False, "also compute the leg in the other direction (default true)"),
+}
+SCHEMA = {
+    "system": ("str", False, "tabulated system, e.g. 'earth-moon' (must match --system)"),
+    "settings": ("table", False, {
+        "tof": ("quantity", False, "default time of flight of a targeted leg"),
+        "patches": ("int", False, "patch points per leg kept for stitching (2..50)"),
+        "all_pairs": ("bool", False, "attempt a leg between every pair (default true); false: edges only"),
+    }),
+    "node": ("list-of-tables", True, NODE_KEYS),
+    "edge": ("list-of-tables", False, EDGE_KEYS),
+}
+REQUIRED_BY_KIND = {"orbit": ("orbit",), "parking": ("body", "altitude"), "state": ("state",),
+                    "capture": ("body", "altitude"), "escape": ("body", "radius")}
+
+
+def _fmt(v: float) -> str:
+    return repr(float(v))
+
+
+@dataclass(frozen=True)
+class OrbitNode:
+    """A periodic orbit named by its request text ("halo L2 south period=6.5626d")."""
+
+    name: str
+    system: str
+    orbit: str
+    kind: str = "orbit"
+
+    @property
+    def id(self) -> str:
+        return f"orbit/{self.system}/{normalise(self.orbit)}"
+
+    @property
+    def words(self) -> list[str]:
+        return normalise(self.orbit).split()
+
+    @property
+    def family(self) -> str:
+        return self.words[0] if self.words else ""
+
+    @property
+    def point(self) -> str:
+        return next((w.upper() for w in self.words if re.fullmatch(r"l[1-5]", w)), "")
+
+    @property
+    def branch(self) -> str:
+        return next((w for w in self.words if w in ("north", "south")), "")
+
+    @property
+    def selector(self) -> str:
+        return " ".join(w for w in self.words if "=" in w)
+
+    def to_dict(self) -> dict:
+        return {"id": self.id, "name": self.name, "kind": self.kind, "system": self.system,
+                "orbit": self.orbit, "family": self.family, "point": self.point,
+                "branch": self.branch, "selector": self.selector}
+
+
+@dataclass(frozen=True)
+class ParkingNode:
+    """A circular orbit about a primary (altitude in km, inclination in degrees)."""
+
+    name: str
+    system: str
+    body: str
+    altitude_km: float
+    inclination_deg: float = 0.0
+    kind: str = "parking"
+
+    @property
+    def id(self) -> str:
+        return (f"parking/{self.system}/{self.body}/{self.altitude_km:g}km"
+                f"/{self.inclination_deg:g}deg")
+
+    def to_dict(self) -> dict:
+        return {"id": self.id, "name": self.name, "kind": self.kind, "system": self.system,
+                "body": self.body, "altitude_km": self.altitude_km,
+                "inclination_deg": self.inclination_deg}
+
+
+@dataclass(frozen=True)
+class StateNode:
+    """A fixed state in the rotating frame (LU, LU/TU)."""
+
+    name: str
+    system: str
+    state: tuple
+    kind: str = "state"
+
+    @property
+    def id(self) -> str:
+        text = ",".join(_fmt(v) for v in self.state)
+        return f"state/{self.system}/{hashlib.sha256(text.encode()).hexdigest()[:12]}"
+
+    def to_dict(self) -> dict:
+        return {"id": self.id, "name": self.name, "kind": self.kind, "system": self.system,
+                "state": [float(v) for v in self.state]}
+
+
+@dataclass(frozen=True)
+class BoundaryNode:
+    """A capture (periapsis altitude about a body) or escape (distance from a body) condition."""
+
+    name: str
+    system: str
+    kind: str
+    body: str
+    distance_km: float
+
+    @property
+    def id(self) -> str:
+        return f"{self.kind}/{self.system}/{self.body}/{self.distance_km:g}km"
+
+    def to_dict(self) -> dict:
+        return {"id": self.id, "name": self.name, "kind": self.kind, "system": self.system,
+                "body": self.body, "distance_km": self.distance_km}
+
+
+@dataclass(frozen=True)
+class EdgeHint:
+    """What a node list says about the leg(s) between two named nodes."""
+
+    source: str
+    target: str
+    maneuvers: str = "ends"
+    max_patch_dv_mps: float | None = None
+    sections: tuple = ()
+    tof_days: float | None = None
+    both_ways: bool = True
+
+    def to_dict(self) -> dict:
+        return {"from": self.source, "to": self.target, "maneuvers": self.maneuvers,
+                "max_patch_dv_mps": self.max_patch_dv_mps, "sections": list(self.sections),
+                "tof_days": self.tof_days, "both_ways": self.both_ways}
+
+
+@dataclass(frozen=True)
+class NodeList:
+    """A checked node list: the nodes (in file order), edge hints and settings."""
+
+    system: str | None
+    nodes: tuple
+    hints: tuple = ()
+    tof_days: float = 6.0
+    patches: int = 4
+    all_pairs: bool = True
+    file: str = ""
+
+    def by_name(self) -> dict:
+        return {n.name: n for n in self.nodes}
+
+    def to_dict(self) -> dict:
+        return {"file": self.file, "system": self.system, "tof_days": self.tof_days,
+                "patches": self.patches, "all_pairs": self.all_pairs,
+                "nodes": [n.to_dict() for n in self.nodes], "hints": [h.to_dict() for h in self.hints]}
+
+
+def normalise(text: str) -> str:
+    """Lower-case words separated by single spaces, ``key = value`` written ``key=value``."""
+    t = re.sub(r"\s*=\s*", "=", str(text).strip())
+    return " ".join(w if "=" in w else w.lower() for w in t.split())
+
+
+def load_nodes(path, system) -> NodeList:
+    """Read and check a node list for ``system``.
+
+    Raises
+    ------
+    ScenarioError (an InputError)
+        Every problem at once, each as ``file:line: key: message``.
+    """
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except OSError as e:
+        raise InputError(f"cannot read node list {shown(path)}: {e.strerror}") from None
+    return parse_nodes(text, system, str(path))
+
+
+def parse_nodes(text: str, system, file: str = "<nodes>") -> NodeList:
+    """Check the TOML ``text`` of a node list and build its nodes (see :func:`load_nodes`)."""
+    P = schema_mod.Problem
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as e:
+        m = re.search(r"line (\d+)", str(e))
+        raise schema_mod.ScenarioError([P(file, int(m.group(1)) if m else 0, "(syntax)", str(e))]) from None
+    lines = schema_mod.line_index(text)
+    problems = schema_mod.check(data, lines, file, schema=SCHEMA)
+    if problems:
+        raise schema_mod.ScenarioError(problems)
+
+    def line(key):
+        while key and key not in lines:
+            key = key.rpartition(".")[0]
+        return lines.get(key, 1)
+
+    if data.get("system") is not None and system is not None and data["system"] != system.name:
+        problems.append(P(file, line("system"), "system",
+                          f"the list is for '{data['system']}' but the system is '{system.name}'"))
+    nodes, names = [], {}
+    for i, t in enumerate(data["node"]):
+        where = f"node[{i}]"
+        for k in REQUIRED_BY_KIND[t["kind"]]:
+            if k not in t:
+                problems.append(P(file, line(where), f"{where}.{k}", f"missing; kind '{t['kind']}' needs it"))
+        if t["name"] in names:
+            problems.append(P(file, line(f"{where}.name"), f"{where}.name",
+                              f"name '{shown(t['name'])}' is already used by node[{names[t['name']]}]"))
+        names.setdefault(t["name"], i)
+        if any(k not in t for k in REQUIRED_BY_KIND[t["kind"]]):
+            continue
+        try:
+            nodes.append(_node(t, system))
+        except InputError as e:
+            key = {"state": "state", "parking": "altitude", "capture": "body", "escape": "body",
+                   "orbit": "orbit"}.get(t["kind"], "kind")
+            problems.append(P(file, line(f"{where}.{key}"), f"{where}.{key}", str(e)))
+    hints = []
+    for i, t in enumerate(data.get("edge", [])):
+        where = f"edge[{i}]"
+        for end in ("from", "to"):
+            if t[end] not in names:
+                problems.append(P(file, line(f"{where}.{end}"), f"{where}.{end}",
+                                  f"no node is named '{shown(t[end])}'"))
+        if t["from"] == t["to"]:
+            problems.append(P(file, line(f"{where}.to"), f"{where}.to", "a leg joins two different nodes"))
+        try:
+            dv = units.velocity(t["max_patch_dv"], system) if "max_patch_dv" in t else None
+            tof = units.time(t["tof"], system) if "tof" in t else None
+        except InputError as e:
+            problems.append(P(file, line(where), where, str(e)))
+            continue
+        if tof is not None and not tof > 0:
+            problems.append(P(file, line(f"{where}.tof"), f"{where}.tof", "must be positive"))
+        hints.append(EdgeHint(t["from"], t["to"], t.get("maneuvers", "ends"),
+                              None if dv is None else system.mps(dv), tuple(t.get("sections", ())),
+                              None if tof is None else system.days(tof), t.get("both_ways", True)))
+    settings = data.get("settings", {})
+    tof_days = 6.0
+    if "tof" in settings:
+        tof_tu = units.time(settings["tof"], system)
+        if not tof_tu > 0:
+            problems.append(P(file, line("settings.tof"), "settings.tof", "must be positive"))
+        tof_days = system.days(tof_tu)
+    patches = settings.get("patches", 4)
+    if not 2 <= patches <= 50:
+        problems.append(P(file, line("settings.patches"), "settings.patches", f"{patches} is outside 2..50"))
+    if problems:
+        raise schema_mod.ScenarioError(sorted(problems, key=lambda p: (p.line, p.key)))
+    return NodeList(data.get("system"), tuple(nodes), tuple(hints), tof_days, patches,
+                    settings.get("all_pairs", True), file)
+
+
+def _node(t: dict, system):
+    kind, name, sname = t["kind"], t["name"], system.name
+    if kind == "orbit":
+        from .orbits.request import parse_request
+        spec = parse_request(t["orbit"])          # InputError names the bad word
+        if not spec.key:
+            raise InputError(f"orbit '{shown(t['orbit'])}' has no target; add e.g. period=, jacobi=, az=")
+        return OrbitNode(name, sname, t["orbit"])
+    if kind == "state":
+        from . import validate
+        s = validate.state(system, t["state"], "state")
+        return StateNode(name, sname, tuple(float(v) for v in s))
+    body = _body(system, t["body"])
+    if kind == "parking":
+        alt = units.parse(t["altitude"], "length").si()
+        if not alt > 0:
+            raise InputError(f"altitude {shown(t['altitude'])} must be positive")
+        inc = float(t.get("inclination", 0.0))
+        if not (math.isfinite(inc) and 0.0 <= inc <= 180.0):
+            raise InputError(f"inclination {inc!r} is outside 0..180 degrees")
+        return ParkingNode(name, sname, body, alt, inc)
+    dist = units.parse(t["altitude" if kind == "capture" else "radius"], "length").si()
+    if not dist > 0:
+        raise InputError(f"the distance of the {kind} condition must be positive")
+    return BoundaryNode(name, sname, kind, body, dist)
+
+
+def _body(system, text) -> str:
+    names = [n.lower() for n in system.names]
+    b = str(text).strip().lower()
+    if b not in names:
+        raise InputError(f"body '{shown(text)}' is not a primary of {system.name}; allowed: {', '.join(names)}")
+    return b
+
+
+def find_node(nodes, text: str):
+    """The node that ``text`` names: its name, its id, its orbit text, or
+    ``"parking BODY ALTITUDE"`` (e.g. ``"parking earth 200km"``).
+
+    Raises
+    ------
+    InputError
+        Nothing matches, or several do (the message lists the names).
+    """
+    t = normalise(text)
+    hits = [n for n in nodes if n.name == text or n.id == text]
+    if not hits:
+        hits = [n for n in nodes if isinstance(n, OrbitNode) and normalise(n.orbit) == t]
+    if not hits:
+        m = re.fullmatch(r"\s*parking\s+(\w+)\s+(\S+)\s*", str(text), re.IGNORECASE)
+        if m:
+            try:
+                alt = units.parse(m.group(2), "length").si()
+            except InputError:
+                alt = None
+            hits = [n for n in nodes if isinstance(n, ParkingNode) and n.body == m.group(1).lower()
+                    and alt is not None and abs(n.altitude_km - alt) < 1e-6]
+    if len(hits) == 1:
+        return hits[0]
+    names = ", ".join(f"'{n.name}'" for n in nodes)
+    if not hits:
+        raise InputError(f"no node matches '{shown(text)}'; the nodes are {names}")
+    raise InputError(f"'{shown(text)}' matches several nodes: {', '.join(n.name for n in hits)}")
+
+
+def node_state(system, node) -> np.ndarray | None:
+    """The rotating-frame state at which legs leave or reach ``node``, when known without
+    computing an orbit: a state node's state, or the point of a parking orbit on the
+    primaries' line on the side away from the other primary (phase 0), moving prograde.
+    Orbit nodes are solved by :func:`cr3bp.graph_build.resolve_orbits` (None here)."""
+    if isinstance(node, StateNode):
+        return np.array(node.state, dtype=float)
+    if isinstance(node, ParkingNode):
+        k = [n.lower() for n in system.names].index(node.body)
+        gm = (1.0 - system.mu) if k == 0 else system.mu
+        bodyr = system.radii[k]
+        r = bodyr + node.altitude_km / system.length_km
+        xc = system.positions[k]
+        side = -1.0 if k == 0 else 1.0
+        v_in = math.sqrt(gm / r)
+        inc = math.radians(node.inclination_deg)
+        # inertial circular velocity, minus the frame's rotation (omega x r, omega = z)
+        pos = np.array([xc + side * r, 0.0, 0.0])
+        v = np.array([0.0, side * v_in * math.cos(inc), side * v_in * math.sin(inc)])
+        v[1] -= pos[0]
+        return np.concatenate([pos, v])
+    return None

@@ -1,0 +1,203 @@
+"""Figures of tubes, section maps, connections and periapsis maps.
+
+Every function takes an Axes (or makes a figure) and returns it; save with
+:func:`cr3bp.plotting.save` (caption with the caution).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from matplotlib.lines import Line2D
+from matplotlib.patches import Patch
+
+from .base import VIEWS, axis_labels, draw_primaries, new_figure
+
+TUBE_COLOURS = {("unstable", "interior"): "tab:red", ("unstable", "exterior"): "tab:orange",
+                ("stable", "interior"): "tab:green", ("stable", "exterior"): "tab:cyan"}
+CYCLE = ("tab:red", "tab:green", "tab:blue", "tab:purple", "tab:orange", "tab:brown", "tab:pink")
+FORBIDDEN = "0.85"
+
+
+def tube_colour(tube, k=0):
+    return TUBE_COLOURS.get((tube.stability, tube.branch), CYCLE[k % len(CYCLE)])
+
+
+def draw_forbidden(ax, system, jacobi_value, view="xy"):
+    """Shade the forbidden region 2 Omega < C in the plane z = 0 (xy view) or y = 0 (xz view),
+    with the zero-velocity curves, from :func:`cr3bp.energy.hill_region`."""
+    if view not in ("xy", "xz"):
+        return ax
+    from ..energy import hill_region
+    x0, x1 = ax.get_xlim()
+    y0, y1 = ax.get_ylim()
+    region = hill_region(system, jacobi_value, plane=view, extent=(x0, x1, y0, y1), resolution=301)
+    f = region.field
+    ax.contourf(region.u, region.v, f, levels=[f.min() - 1.0, 0.0], colors=[FORBIDDEN], zorder=0)
+    for c in region.curves:
+        ax.plot(c[:, 0], c[:, 1], color="0.3", lw=0.8, zorder=1)
+    ax.set_xlim(x0, x1)
+    ax.set_ylim(y0, y1)
+    return ax
+
+
+def plot_tubes(tubes, views=("xy", "xz"), n_samples=200, max_trajectories=80, axes=None,
+               forbidden=True, orbit_colour="k"):
+    """Tubes in projections of the rotating frame, with the forbidden region at the first
+    tube's energy (xy: z = 0 slice; xz: y = 0 slice) and the primaries to scale."""
+    tubes = list(tubes)
+    if axes is None:
+        fig, axs = new_figure(ncols=len(views), size=(6.0 * len(views), 5.6))
+        axs = np.atleast_1d(axs).ravel()
+    else:
+        axs = np.atleast_1d(axes).ravel()
+        fig = axs[0].figure
+    cache = {}
+    for ax, view in zip(axs, views):
+        i, j = VIEWS[view]
+        handles = []
+        pts = []
+        for k, tube in enumerate(tubes):
+            col = tube_colour(tube, k)
+            step = max(1, tube.n // max_trajectories)
+            if k not in cache:
+                cache[k] = tube.trajectories(n_samples, indices=range(0, tube.n, step))
+            for t, s in cache[k]:
+                ax.plot(s[:, i], s[:, j], color=col, lw=0.5, alpha=0.6, zorder=2)
+                pts.append(s[:, [i, j]])
+            handles.append(Line2D([], [], color=col, label=f"{tube.label} ({tube.n} trajectories)"))
+            if tube.orbit is not None:
+                te = np.linspace(0, tube.period, 400)
+                from ..integrate import propagate
+                arc = propagate(tube.system, tube.orbit.state, tube.period, t_eval=te)
+                ax.plot(arc.states[:, i], arc.states[:, j], color=orbit_colour, lw=1.2, zorder=4)
+        if any(t.orbit is not None for t in tubes):
+            handles.append(Line2D([], [], color=orbit_colour, lw=1.2, label="periodic orbit"))
+        system = tubes[0].system
+        span = _fit(ax, np.vstack(pts) if pts else np.zeros((1, 2)))
+        if view == "yz":  # both primaries project onto the origin: show the smaller one only
+            from matplotlib.patches import Circle
+            r2 = max(system.radii[1], 0.006 * span)
+            ax.add_patch(Circle((0.0, 0.0), r2, color="0.45", zorder=5))
+            ax.annotate(f"{system.names[1]} (both primaries project here)", (0.0, 0.0),
+                        textcoords="offset points", xytext=(4, 6), fontsize=7, zorder=6)
+        else:
+            draw_primaries(ax, system, view=view, min_radius=0.006 * span)
+        if forbidden:
+            draw_forbidden(ax, system, tubes[0].jacobi, view)
+            if view in ("xy", "xz"):
+                handles.append(Patch(color=FORBIDDEN, label=f"forbidden region at C = {tubes[0].jacobi:.5f}"))
+        axis_labels(ax, system, view)
+        ax.legend(handles=handles, fontsize=7, loc="best", framealpha=0.9)
+    return fig
+
+
+def _fit(ax, pts, margin=0.12):
+    lo, hi = pts.min(axis=0), pts.max(axis=0)
+    span = max(float(np.max(hi - lo)), 1e-3)
+    mid = 0.5 * (lo + hi)
+    half = 0.5 * span * (1 + 2 * margin)
+    ax.set_xlim(mid[0] - half, mid[0] + half)
+    ax.set_ylim(mid[1] - half, mid[1] + half)
+    ax.set_aspect("equal", adjustable="box")
+    return 2 * half
+
+
+def plot_tubes_3d(tubes, n_samples=200, max_trajectories=60):
+    """Tubes in 3-D (rotating frame, LU)."""
+    import matplotlib.pyplot as plt
+    fig = plt.figure(figsize=(7.5, 6.5))
+    ax = fig.add_subplot(111, projection="3d")
+    handles = []
+    for k, tube in enumerate(tubes):
+        col = tube_colour(tube, k)
+        step = max(1, tube.n // max_trajectories)
+        for t, s in tube.trajectories(n_samples, indices=range(0, tube.n, step)):
+            ax.plot(s[:, 0], s[:, 1], s[:, 2], color=col, lw=0.5, alpha=0.6)
+        handles.append(Line2D([], [], color=col, label=tube.label))
+    system = tubes[0].system
+    for x, name in zip(system.positions, system.names):
+        ax.scatter([x], [0], [0], color="k", s=12)
+        ax.text(x, 0, 0, name, fontsize=7)
+    ax.set_xlabel("x [LU]")
+    ax.set_ylabel("y [LU]")
+    ax.set_zlabel("z [LU]")
+    ax.legend(handles=handles, fontsize=7)
+    return fig
+
+
+def plot_section_map(cuts, names=("y", "vy"), ax=None, connect_points=True, labels=None):
+    """Cuts of several tubes on one section, each labelled; ``names`` the map coordinates."""
+    if ax is None:
+        fig, ax = new_figure(size=(7.0, 6.0))
+    for k, cut in enumerate(cuts):
+        if len(cut) == 0:
+            continue
+        pts = cut.polygon(names) if cut.phase is not None else cut.coords(names)
+        lab = (labels[k] if labels else cut.label) or f"cut {k + 1}"
+        col = CYCLE[k % len(CYCLE)]
+        style = "-" if connect_points and cut.closed else ""
+        ax.plot(pts[:, 0], pts[:, 1], style + ".", color=col, ms=3, lw=0.8,
+                label=f"{lab} ({len(pts)} crossings)")
+    ax.set_xlabel(_unit_label(names[0]))
+    ax.set_ylabel(_unit_label(names[1]))
+    title = cuts[0].section.label if cuts else ""
+    ax.set_title(f"Poincaré section {title}", fontsize=9)
+    ax.legend(fontsize=7, loc="best")
+    ax.grid(alpha=0.3)
+    return ax
+
+
+def _unit_label(name):
+    units = {"x": "LU", "y": "LU", "z": "LU", "vx": "LU/TU", "vy": "LU/TU", "vz": "LU/TU", "t": "TU",
+             "tof_days": "days", "altitude_km": "km", "r": "LU", "radius": "LU", "jacobi": "-"}
+    return f"{name} [{units.get(name, '')}]"
+
+
+def plot_connection(legs, tubes=(), view="xy", ax=None, n_samples=150):
+    """Connection legs (black) over the tubes they were found in, with the patch points."""
+    if ax is None:
+        fig, ax = new_figure(size=(8.0, 6.0))
+    i, j = VIEWS[view]
+    handles = []
+    for k, tube in enumerate(tubes):
+        col = tube_colour(tube, k)
+        step = max(1, tube.n // 40)
+        for t, s in tube.trajectories(n_samples, indices=range(0, tube.n, step)):
+            ax.plot(s[:, i], s[:, j], color=col, lw=0.4, alpha=0.45)
+        handles.append(Line2D([], [], color=col, label=tube.label))
+    for k, leg in enumerate(legs):
+        t, s = leg.trajectory()
+        ax.plot(s[:, i], s[:, j], color="k" if k == 0 else "0.4", lw=1.6 if k == 0 else 0.9, zorder=5)
+        for m in leg.maneuvers:
+            ax.plot(m.position[i], m.position[j], "o", color="tab:red", ms=5, zorder=6)
+        handles.append(Line2D([], [], color="k" if k == 0 else "0.4",
+                              label=f"{leg.kind} {k + 1}: dv {leg.dv_mps:.3g} m/s, "
+                                    f"tof {leg.tof_days:.2f} d"))
+    handles.append(Line2D([], [], marker="o", ls="", color="tab:red", label="patch point / manoeuvre"))
+    system = legs[0].system if legs else tubes[0].system
+    span = _fit(ax, np.vstack([leg.trajectory(100)[1][:, [i, j]] for leg in legs]) if legs else
+                np.array([[0.0, 0.0]]), margin=0.25)
+    draw_primaries(ax, system, view=view, min_radius=0.006 * span)
+    axis_labels(ax, system, view)
+    ax.legend(handles=handles, fontsize=7, loc="best")
+    return ax
+
+
+def plot_periapsis_map(pmap, target_km=None, ax=None):
+    """Periapsis altitude against time of flight (and against departure phase on the orbit)."""
+    if ax is None:
+        fig, ax = new_figure(size=(7.0, 5.5))
+    s = pmap.system
+    ok = np.isfinite(pmap.altitude_km)
+    tof = np.abs(s.days(pmap.tof[ok]))
+    sc = ax.scatter(tof, pmap.altitude_km[ok], c=pmap.phase[ok], cmap="viridis", s=12,
+                    label=f"{pmap.stability} {pmap.branch} manifold of {pmap.origin}")
+    ax.figure.colorbar(sc, ax=ax, label="departure phase on the orbit [fraction of period]")
+    if target_km is not None:
+        ax.axhline(target_km, color="tab:red", lw=1.0, label=f"target altitude {target_km:g} km")
+    ax.set_xlabel("time of flight from periapsis to the orbit [days]")
+    ax.set_ylabel(f"periapsis altitude above {s.names[pmap.primary]} [km]")
+    ax.set_yscale("symlog", linthresh=1000.0)
+    ax.legend(fontsize=7)
+    ax.grid(alpha=0.3)
+    return ax

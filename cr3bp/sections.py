@@ -1,0 +1,496 @@
+"""Poincaré sections and their crossings: planes, spheres about a primary, apsides.
+
+A section is a surface of the phase space that trajectories cross; the states where they
+cross, mapped to two coordinates the user picks, form a Poincaré map (Poincaré, *Les méthodes
+nouvelles de la mécanique céleste*, 1899; for tube cuts in the CR3BP: Koon, Lo, Marsden &
+Ross, *Dynamical Systems, the Three-Body Problem and Space Mission Design*, 2011, §3.4 and
+§4.5). Three kinds:
+
+==========  ==========================================  =====================================
+kind        surface                                     crossing found by
+==========  ==========================================  =====================================
+plane       ``s[coordinate] = value`` (x, y, z, vx...)  the integrator's event location
+sphere      ``|r - r_primary| = radius``                the integrator's event location
+apsis       ``(r - r_primary) . v = 0`` (peri-/apo-)    per-trajectory steps, Newton in time
+==========  ==========================================  =====================================
+
+``(r - r_p) . v`` is the same in the rotating and the inertial frame because
+``(r - r_p) . (omega x (r - r_p)) = 0`` and the primary is at rest in the rotating frame;
+its time derivative is ``|v|^2 + (r - r_p) . a`` (a the rotating-frame acceleration), which
+Newton's method uses.
+
+Directions are physical: ``+1`` keeps crossings where the section function increases in
+forward time (``vx > 0`` at ``x = c``; for an apsis, a periapsis), whatever the direction of
+the propagation.
+
+Crossings of whole batches run in one ``propagate_batch`` call (plane and sphere). For planar
+tubes the cut is a closed curve ordered by the orbit phase; :meth:`Crossings.polygon` and
+:meth:`Crossings.area` give it and its area (shoelace formula).
+"""
+
+from __future__ import annotations
+
+import ast
+import math
+import operator
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .dynamics import acceleration, jacobi
+from .errors import InputError, StateError
+from .integrate import escape, impact, plane, propagate, propagate_batch
+from .integrate.events import COORDS
+
+KINDS = ("plane", "sphere", "apsis")
+#: Names the map coordinates may take (besides the six state components).
+MAP_COORDS = tuple(COORDS) + ("t", "tof_days", "altitude_km", "radius", "r", "jacobi")
+
+
+@dataclass(frozen=True)
+class Section:
+    """A Poincaré section. Build with :func:`parse_section`, :func:`hyperplane`, :func:`sphere`
+    or :func:`apsis`.
+
+    Attributes
+    ----------
+    kind : {"plane", "sphere", "apsis"}
+    coordinate : int        state index (plane)
+    value : float           plane value, or sphere radius (LU)
+    direction : int         +1, -1 or 0 (both), physical (see module docstring)
+    primary : int           0 larger, 1 smaller (sphere, apsis)
+    label : str             as the user wrote it, e.g. ``"x=1-mu"``
+    """
+
+    kind: str
+    coordinate: int = 0
+    value: float = 0.0
+    direction: int = 0
+    primary: int = 1
+    label: str = ""
+
+    def g(self, system, states) -> np.ndarray:
+        """Section function of (N, 6) states (zero on the section)."""
+        s = np.atleast_2d(np.asarray(states, dtype=float))
+        if self.kind == "plane":
+            return s[:, self.coordinate] - self.value
+        c = system.positions[self.primary]
+        rel = s[:, :3] - np.array([c, 0.0, 0.0])
+        if self.kind == "sphere":
+            return np.linalg.norm(rel, axis=1) - self.value
+        return np.einsum("ij,ij->i", rel, s[:, 3:6])
+
+    def event(self, system, time_sign: float, terminal=True, count=1):
+        """The integrator event for this section (plane or sphere) in a propagation of the
+        given time direction; ``None`` for an apsis (not an integrator event)."""
+        d = int(self.direction * (1 if time_sign >= 0 else -1))
+        if self.kind == "plane":
+            return plane(self.coordinate, self.value, d, terminal, count, label=self.label)
+        if self.kind == "sphere":
+            if self.direction <= 0:
+                return impact(self.primary, self.value, label=self.label)
+            return escape(self.value, center=self.primary, label=self.label)
+        return None
+
+    def to_dict(self) -> dict:
+        return {"kind": self.kind, "label": self.label, "coordinate": list(COORDS)[self.coordinate]
+                if self.kind == "plane" else None, "value": self.value, "direction": self.direction,
+                "primary": self.primary if self.kind != "plane" else None}
+
+
+def hyperplane(coordinate, value: float, direction: int = 0, label: str = "") -> Section:
+    """The plane ``s[coordinate] = value`` (coordinate a name such as ``"x"`` or an index)."""
+    if isinstance(coordinate, str):
+        if coordinate not in COORDS:
+            raise InputError(f"unknown section coordinate '{coordinate}'; allowed: {', '.join(COORDS)}")
+        coordinate = COORDS[coordinate]
+    _check_direction(direction)
+    return Section("plane", int(coordinate), float(value), int(direction), 1,
+                   label or f"{list(COORDS)[coordinate]}={value:g}")
+
+
+def sphere(system, primary, radius: float, direction: int = -1, label: str = "") -> Section:
+    """The sphere of ``radius`` (LU) about a primary (0/1 or its name); -1 = entering it."""
+    p = primary_index(system, primary)
+    if not (math.isfinite(radius) and radius > 0):
+        raise InputError(f"sphere radius {radius!r} must be positive")
+    if direction == 0:
+        raise InputError("a sphere section needs a direction: entering (-1) or leaving (+1)")
+    _check_direction(direction)
+    return Section("sphere", 0, float(radius), int(direction), p,
+                   label or f"sphere {system.names[p]} r={radius:g}")
+
+
+def apsis(system, primary, which: str = "periapsis", label: str = "") -> Section:
+    """Periapsis (``which="periapsis"``) or apoapsis passages about a primary."""
+    p = primary_index(system, primary)
+    if which not in ("periapsis", "apoapsis", "both"):
+        raise InputError(f"apsis '{which}' must be periapsis, apoapsis or both")
+    d = {"periapsis": 1, "apoapsis": -1, "both": 0}[which]
+    return Section("apsis", 0, 0.0, d, p, label or f"{which} {system.names[p]}")
+
+
+def primary_index(system, primary) -> int:
+    """0 (larger) or 1 (smaller) from an index or a body name (``"earth"``, ``"moon"``)."""
+    if isinstance(primary, (int, np.integer)) and primary in (0, 1):
+        return int(primary)
+    names = [n.lower() for n in system.names]
+    key = str(primary).strip().lower()
+    aliases = {"primary": 0, "larger": 0, "secondary": 1, "smaller": 1, "1": 0, "2": 1}
+    if key in names:
+        return names.index(key)
+    # a body given as e.g. "earth" in a system whose secondary is the Earth+Moon barycentre
+    for i, n in enumerate(names):
+        if n.split("-")[0] == key:
+            return i
+    if key in aliases:
+        return aliases[key]
+    raise InputError(f"unknown primary '{primary}' for system {system.name}; "
+                     f"allowed: {', '.join(names)}")
+
+
+def _check_direction(d):
+    if d not in (-1, 0, 1):
+        raise InputError(f"section direction {d!r} must be -1, 0 or +1")
+
+
+# ---- text form -------------------------------------------------------------------------
+
+_OPS = {ast.Add: operator.add, ast.Sub: operator.sub, ast.Mult: operator.mul,
+        ast.Div: operator.truediv, ast.USub: operator.neg, ast.UAdd: operator.pos}
+
+
+def expression(text: str, system) -> float:
+    """A number or simple arithmetic in ``mu`` (``"1-mu"``, ``"-mu"``, ``"0.8"``)."""
+    def ev(node):
+        if isinstance(node, ast.Expression):
+            return ev(node.body)
+        if isinstance(node, ast.Constant) and isinstance(node.value, (int, float)):
+            return float(node.value)
+        if isinstance(node, ast.Name) and node.id == "mu":
+            return float(system.mu)
+        if isinstance(node, ast.BinOp) and type(node.op) in _OPS:
+            return _OPS[type(node.op)](ev(node.left), ev(node.right))
+        if isinstance(node, ast.UnaryOp) and type(node.op) in _OPS:
+            return _OPS[type(node.op)](ev(node.operand))
+        raise ValueError
+    try:
+        v = ev(ast.parse(text.strip(), mode="eval"))
+    except (SyntaxError, ValueError, ZeroDivisionError):
+        raise InputError(f"section value '{text}' is not a number or arithmetic in mu "
+                         "(e.g. 1-mu, -mu, 0.8)") from None
+    if not math.isfinite(v):
+        raise InputError(f"section value '{text}' is not finite")
+    return v
+
+
+def parse_section(text: str, system) -> Section:
+    """A section from text.
+
+    Forms: ``x=1-mu`` (plane, both directions), ``y=0:+`` / ``y=0:-`` (one direction),
+    ``sphere:moon:20000km`` (entering), ``sphere:moon:20000km:+`` (leaving),
+    ``periapsis:earth``, ``apoapsis:moon``.
+    """
+    from . import units
+    t = str(text).strip()
+    parts = t.split(":")
+    head = parts[0].strip().lower()
+    if head in ("periapsis", "apoapsis"):
+        if len(parts) != 2:
+            raise InputError(f"section '{text}': write {head}:BODY, e.g. {head}:earth")
+        return apsis(system, parts[1], head, label=t)
+    if head == "sphere":
+        if len(parts) not in (3, 4):
+            raise InputError(f"section '{text}': write sphere:BODY:RADIUS[:+|-], e.g. sphere:moon:20000km")
+        r = units.length(parts[2], system)
+        d = _direction_text(parts[3], text) if len(parts) == 4 else -1
+        return sphere(system, parts[1], r, d or -1, label=t)
+    if "=" not in head:
+        raise InputError(f"section '{text}' is not understood; use e.g. x=1-mu, y=0:+, "
+                         "sphere:moon:20000km, periapsis:earth")
+    coord, value = parts[0].split("=", 1)
+    coord = coord.strip()
+    if coord not in COORDS:
+        raise InputError(f"unknown section coordinate '{coord}' in '{text}'; allowed: {', '.join(COORDS)}")
+    d = _direction_text(parts[1], text) if len(parts) == 2 else 0
+    if len(parts) > 2:
+        raise InputError(f"section '{text}' has too many ':' parts")
+    return hyperplane(coord, expression(value, system), d, label=t)
+
+
+def _direction_text(s, text):
+    s = s.strip()
+    if s in ("+", "+1", "up", "increasing"):
+        return 1
+    if s in ("-", "-1", "down", "decreasing"):
+        return -1
+    if s in ("0", "both", "any"):
+        return 0
+    raise InputError(f"direction '{s}' in section '{text}' must be + or -")
+
+
+# ---- crossings --------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class Crossings:
+    """States where trajectories cross a section.
+
+    Attributes
+    ----------
+    system : System
+    section : Section
+    states : ndarray (M, 6)     states on the section
+    t : ndarray (M,)            signed time from each trajectory's start (TU)
+    trajectory : ndarray (M,)   index of the trajectory each crossing belongs to
+    count : ndarray (M,)        1 for a trajectory's first crossing, 2 for its second...
+    n_trajectories : int        trajectories examined (those that never crossed have no row)
+    phase : ndarray (M,) or None  orbit phase in [0, 1) of the trajectory (for tube cuts)
+    label : str                 e.g. the tube's description, for legends
+    """
+
+    system: object
+    section: Section
+    states: np.ndarray
+    t: np.ndarray
+    trajectory: np.ndarray
+    count: np.ndarray
+    n_trajectories: int
+    phase: np.ndarray | None = None
+    label: str = ""
+    extra: dict = field(default_factory=dict, compare=False, repr=False)
+
+    def __len__(self):
+        return int(self.states.shape[0])
+
+    @property
+    def jacobi(self) -> np.ndarray:
+        return jacobi(self.system.mu, self.states) if len(self) else np.zeros(0)
+
+    def first(self) -> "Crossings":
+        """Only the first crossing of each trajectory."""
+        return self.select(self.count == 1)
+
+    def nth(self, n: int) -> "Crossings":
+        return self.select(self.count == n)
+
+    def select(self, mask) -> "Crossings":
+        m = np.asarray(mask)
+        return Crossings(self.system, self.section, self.states[m], self.t[m], self.trajectory[m],
+                         self.count[m], self.n_trajectories,
+                         None if self.phase is None else self.phase[m], self.label, dict(self.extra))
+
+    def coords(self, names) -> np.ndarray:
+        """Map coordinates (M, k) by name: a state component (``x``...``vz``), ``t`` (TU),
+        ``tof_days``, ``r``/``radius`` (LU from the section's primary), ``altitude_km`` (above
+        the section's primary's mean radius) or ``jacobi``."""
+        cols = []
+        for name in names:
+            cols.append(map_coordinate(self.system, self.section, self.states, self.t, name))
+        return np.column_stack(cols) if cols else np.zeros((len(self), 0))
+
+    def polygon(self, names=("y", "vy")) -> np.ndarray:
+        """The cut as a closed polygon in two map coordinates, ordered by orbit phase.
+
+        Only meaningful for a planar tube whose trajectories all crossed (``closed``)."""
+        first = self.first()
+        order = np.argsort(first.phase if first.phase is not None else first.trajectory)
+        return first.coords(names)[order]
+
+    @property
+    def closed(self) -> bool:
+        """Whether every trajectory of the tube crossed (so the first cut is a closed curve)."""
+        return len(self.first()) == self.n_trajectories and self.n_trajectories >= 3
+
+    def area(self, names=("y", "vy")) -> float:
+        """Area enclosed by :meth:`polygon` (shoelace formula), in the product of the units."""
+        p = self.polygon(names)
+        if len(p) < 3:
+            return 0.0
+        x, y = p[:, 0], p[:, 1]
+        return float(0.5 * abs(np.dot(x, np.roll(y, -1)) - np.dot(y, np.roll(x, -1))))
+
+    def contains(self, points, names=("y", "vy")) -> np.ndarray:
+        """Whether map points (K, 2) lie inside the closed cut (even-odd ray casting)."""
+        poly = self.polygon(names)
+        return points_in_polygon(np.atleast_2d(np.asarray(points, dtype=float)), poly)
+
+    def to_dict(self, names=None) -> dict:
+        d = {"section": self.section.to_dict(), "label": self.label, "crossings": len(self),
+             "n_trajectories": self.n_trajectories, "states": self.states.tolist(),
+             "t": self.t.tolist(), "trajectory": self.trajectory.tolist(), "count": self.count.tolist()}
+        if self.phase is not None:
+            d["phase"] = self.phase.tolist()
+        if names:
+            d["map_coordinates"] = list(names)
+            d["map"] = self.coords(names).tolist()
+        return d
+
+
+def map_coordinate(system, section, states, t, name) -> np.ndarray:
+    states = np.atleast_2d(states)
+    if name in COORDS:
+        return states[:, COORDS[name]]
+    if name == "t":
+        return np.asarray(t, dtype=float)
+    if name == "tof_days":
+        return np.abs(system.days(np.asarray(t, dtype=float)))
+    if name == "jacobi":
+        return jacobi(system.mu, states)
+    p = section.primary if section.kind != "plane" else 1
+    c = system.positions[p]
+    r = np.linalg.norm(states[:, :3] - np.array([c, 0.0, 0.0]), axis=1)
+    if name in ("r", "radius"):
+        return r
+    if name == "altitude_km":
+        return system.km(r) - (system.primary, system.secondary)[p].radius_km
+    raise InputError(f"unknown map coordinate '{name}'; allowed: {', '.join(MAP_COORDS)}")
+
+
+def points_in_polygon(points, poly) -> np.ndarray:
+    """Even-odd rule point-in-polygon, vectorised over points (Shimrat, "Algorithm 112:
+    Position of point relative to polygon", Commun. ACM 5, 1962)."""
+    x, y = points[:, 0][:, None], points[:, 1][:, None]
+    x1, y1 = poly[:, 0][None, :], poly[:, 1][None, :]
+    x2, y2 = np.roll(poly[:, 0], -1)[None, :], np.roll(poly[:, 1], -1)[None, :]
+    cond = (y1 > y) != (y2 > y)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        xint = x1 + (y - y1) * (x2 - x1) / (y2 - y1)
+    hits = cond & (x < xint)
+    return (np.count_nonzero(hits, axis=1) % 2) == 1
+
+
+def guard_events(system, altitude_km=None):
+    """Impact with either primary's surface (radius + altitude where given) as events."""
+    evs = []
+    radii = system.radii
+    for p in (0, 1):
+        r = radii[p]
+        if r > 0:
+            evs.append(impact(p, r, label=f"impact {system.names[p]}"))
+    return evs
+
+
+def crossings(system, states, section: Section, t_max: float, count: int = 1, *,
+              phase=None, label="", rtol=1e-12, atol=1e-12, extra_events=()) -> Crossings:
+    """Crossings of ``section`` by trajectories from ``states`` (N, 6) within time ``t_max``
+    (negative: backward in time), up to the ``count``-th crossing of each.
+
+    Planes and spheres are located by the integrator's event finder in one batch; apsides by
+    :func:`apsides` (one propagation per trajectory, Newton refinement in time). Trajectories
+    that hit a primary's surface stop there.
+    """
+    states = np.ascontiguousarray(np.atleast_2d(np.asarray(states, dtype=float)))
+    if count < 1:
+        raise InputError(f"crossing count {count} must be at least 1")
+    if section.kind == "apsis":
+        return apsides(system, states, section, t_max, count, phase=phase, label=label, rtol=rtol,
+                       atol=atol)
+    sign = 1.0 if t_max >= 0 else -1.0
+    ev = section.event(system, sign, terminal=True, count=count)
+    events = [ev] + guard_events(system) + list(extra_events)
+    from .manifolds import batch
+    res = batch(system, states, float(t_max), events, max_events=count + 8)
+    rows, ts, traj, cnt = [], [], [], []
+    for i in range(states.shape[0]):
+        idx = np.asarray(res.event_index[i], dtype=int)
+        et = np.asarray(res.event_t[i], dtype=float)
+        es = np.asarray(res.event_states[i], dtype=float).reshape(-1, 6)
+        keep = (idx == 0) & (np.abs(et) > 1e-12)
+        k = 0
+        for tt, ss in zip(et[keep], es[keep]):
+            k += 1
+            rows.append(ss)
+            ts.append(tt)
+            traj.append(i)
+            cnt.append(k)
+    return _make(system, section, rows, ts, traj, cnt, states.shape[0], phase, label)
+
+
+def _make(system, section, rows, ts, traj, cnt, n, phase, label):
+    traj = np.asarray(traj, dtype=int)
+    return Crossings(system, section, np.asarray(rows, dtype=float).reshape(-1, 6),
+                     np.asarray(ts, dtype=float), traj, np.asarray(cnt, dtype=int), int(n),
+                     None if phase is None else np.asarray(phase, dtype=float)[traj], label)
+
+
+def _apsis_g(system, section, s):
+    c = system.positions[section.primary]
+    rel = s[:3] - np.array([c, 0.0, 0.0])
+    a = acceleration(system.mu, s)
+    return float(rel @ s[3:6]), float(s[3:6] @ s[3:6] + rel @ a[3:6])
+
+
+def refine_apsis(system, section, t0, s0, t1, s1, rtol=1e-12, atol=1e-12, iters=12):
+    """Time and state of the apsis between two samples, by Newton's method on
+    g(t) = (r - r_p).v with g' = |v|^2 + (r - r_p).a, each iterate propagated from the left
+    sample (so the result lies on the trajectory to the integrator's accuracy)."""
+    g0, _ = _apsis_g(system, section, s0)
+    g1, _ = _apsis_g(system, section, s1)
+    dt = (t1 - t0) * g0 / (g0 - g1) if g0 != g1 else 0.5 * (t1 - t0)
+    s = s0
+    for _ in range(iters):
+        arc = propagate(system, s0, dt, rtol=rtol, atol=atol) if dt != 0 else None
+        s = s0 if arc is None else arc.final_state
+        g, gp = _apsis_g(system, section, s)
+        step = -g / gp if gp != 0 else 0.0
+        new = dt + step
+        lo, hi = min(0.0, t1 - t0), max(0.0, t1 - t0)
+        if not lo <= new <= hi:  # keep the iterate in the bracket
+            new = 0.5 * (dt + (hi if new > hi else lo))
+        if abs(new - dt) < 1e-14 * max(1.0, abs(t1 - t0)) + 1e-15:
+            dt = new
+            break
+        dt = new
+    arc = propagate(system, s0, dt, rtol=rtol, atol=atol) if dt != 0 else None
+    return t0 + dt, (s0 if arc is None else arc.final_state)
+
+
+def apsides(system, states, section: Section, t_max: float, count: int = 1, *, phase=None,
+            label="", rtol=1e-12, atol=1e-12, guard=True, progress=None,
+            within=None) -> Crossings:
+    """Periapsis/apoapsis passages about ``section.primary`` within ``t_max`` (signed), the
+    first ``count`` of each trajectory. One propagation per trajectory (every accepted step is
+    a sample; a sign change of g brackets an apsis), refined by :func:`refine_apsis`.
+    ``guard=False`` lets trajectories pass through the primaries' surfaces (point masses), so
+    that a periapsis below the surface is still found (altitude maps stay continuous).
+    ``within`` (LU) keeps only apsides closer than that to the primary."""
+    states = np.atleast_2d(np.asarray(states, dtype=float))
+    rows, ts, traj, cnt = [], [], [], []
+    sign = 1.0 if t_max >= 0 else -1.0
+    for i in range(states.shape[0]):
+        arc = propagate(system, states[i], float(t_max), rtol=rtol, atol=atol,
+                        events=guard_events(system) if guard else ())
+        if progress is not None and (i % 10 == 0 or i == states.shape[0] - 1):
+            progress(i + 1, states.shape[0], "periapsis search")
+        g = section.g(system, arc.states)
+        # physical direction of g in forward time: periapsis is g going - to +
+        dg = np.sign(np.diff(g)) * sign
+        change = np.nonzero((np.sign(g[:-1]) != np.sign(g[1:])) & (g[:-1] != 0))[0]
+        k = 0
+        for j in change:
+            if section.direction != 0 and dg[j] != section.direction:
+                continue
+            if within is not None:
+                c = system.positions[section.primary]
+                rj = min(np.linalg.norm(arc.states[j, :3] - [c, 0, 0]),
+                         np.linalg.norm(arc.states[j + 1, :3] - [c, 0, 0]))
+                if rj > within:
+                    continue
+            try:
+                tt, ss = refine_apsis(system, section, arc.t[j], arc.states[j], arc.t[j + 1],
+                                      arc.states[j + 1], rtol, atol)
+            except StateError:
+                # the apsis lies inside the primary (possible with guard=False): keep the
+                # nearer sample, which is enough to say it is below the surface
+                c = system.positions[section.primary]
+                jj = j if (np.linalg.norm(arc.states[j, :3] - [c, 0, 0])
+                           < np.linalg.norm(arc.states[j + 1, :3] - [c, 0, 0])) else j + 1
+                tt, ss = arc.t[jj], arc.states[jj]
+            k += 1
+            rows.append(ss)
+            ts.append(tt)
+            traj.append(i)
+            cnt.append(k)
+            if k >= count:
+                break
+    return _make(system, section, rows, ts, traj, cnt, states.shape[0], phase, label)

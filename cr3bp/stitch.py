@@ -1,0 +1,400 @@
+"""Stitching a route into one continuous trajectory by multiple shooting.
+
+Each leg of the route brings its patch points (the start states of its shooting segments).
+The unknowns are every segment's start state and one time scale per leg; the constraints are
+position continuity at every segment boundary, velocity continuity where no maneuver is
+declared, the route's start and end positions, and the junction of two legs held at the
+node's position. A junction's arrival and departure impulses become one impulse there (so
+the stitched Δv never exceeds the legs' sum: |a + b| <= |a| + |b|), and the time scales let
+the legs trade time between them, the total not exceeding the route's.
+
+Solution in three steps (multiple shooting with the maneuvers and segment times free: Pavlak
+& Howell, "Strategy for optimal, long-duration trajectories in the Earth-Moon system",
+AAS 11-515, 2011, and Betts, *Practical Methods for Optimal Control and Estimation Using
+Nonlinear Programming*, 2nd ed., 2010, ch. 4 — both from memory):
+
+1. minimum-norm Newton on the constraints (the least-squares step of an underdetermined
+   system) from the legs' own patch points;
+2. minimisation of the total Δv under those constraints by sequential quadratic programming
+   (scipy's SLSQP; the |Δv| norm smoothed by ε² under the square root);
+3. minimum-norm Newton again to polish continuity to ``POSITION_TOL``.
+
+The optimised answer is kept only if it is feasible and cheaper than step 1's; otherwise
+step 1's is returned and the result says why. No feasible point → ConvergenceError.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .errors import ConvergenceError, InputError
+
+NEWTON_ITERATIONS = 25
+POSITION_TOL = 1e-11      # LU, ~4 mm in Earth-Moon
+CONTINUITY_LIMIT = 1e-9   # LU, the promise checked on the output (0.4 m in Earth-Moon)
+SMOOTHING = 1e-9          # LU/TU added in quadrature to each |Δv| for the optimiser
+TIME_SCALE_BOUNDS = (0.5, 2.0)
+SAMPLES_PER_SEGMENT = 40
+RTOL = ATOL = 1e-12
+
+
+@dataclass(frozen=True)
+class StitchedRoute:
+    """One continuous trajectory along a route, with its maneuver table.
+
+    Attributes
+    ----------
+    times_tu : ndarray (n,)      time since the route's start (a maneuver time appears twice:
+                                 before and after the impulse)
+    states : ndarray (n, 6)      rotating frame, LU and LU/TU
+    segment : ndarray (n,)       shooting segment of each sample
+    maneuvers : tuple of dict    ``t_days``, ``node``, ``position_lu``, ``position_km``,
+                                 ``dv_vector_mps`` (rotating frame), ``dv_mps``
+    dv_total_mps, tof_days       of the stitched trajectory
+    legs_dv_total_mps, legs_tof_days   the route's legs as computed separately
+    continuity_lu : float        largest position jump at any segment boundary
+    constraints : dict           name -> {"value", "limit", "holds"}
+    optimised : bool             step 2 improved on step 1 (see ``note``)
+    """
+
+    system: object
+    nodes: tuple
+    times_tu: np.ndarray
+    states: np.ndarray
+    segment: np.ndarray
+    maneuvers: tuple
+    dv_total_mps: float
+    tof_days: float
+    legs_dv_total_mps: float
+    legs_tof_days: float
+    continuity_lu: float
+    min_altitude_km: float
+    constraints: dict
+    optimised: bool
+    note: str = ""
+    iterations: dict = field(default_factory=dict)
+
+    @property
+    def times_days(self):
+        return self.times_tu * self.system.time_days
+
+    def to_dict(self) -> dict:
+        return {"nodes": list(self.nodes), "dv_total_mps": self.dv_total_mps, "tof_days": self.tof_days,
+                "legs_dv_total_mps": self.legs_dv_total_mps, "legs_tof_days": self.legs_tof_days,
+                "continuity_lu": self.continuity_lu, "continuity_m": self.continuity_lu * self.system.length_km * 1e3,
+                "min_altitude_km": self.min_altitude_km, "maneuvers": list(self.maneuvers),
+                "constraints": self.constraints, "optimised": self.optimised, "note": self.note,
+                "iterations": self.iterations, "samples": int(len(self.times_tu)),
+                "method": "multiple shooting, minimum-norm Newton then SLSQP on total delta-v"}
+
+
+class _Problem:
+    """The multiple-shooting problem of a chain of legs (see the module docstring)."""
+
+    def __init__(self, system, legs):
+        self.system = system
+        self.legs = legs
+        self.tau0, self.leg_of, x0 = [], [], []
+        self.junction = {}            # boundary index k (between segment k and k+1) -> node position
+        self.start_burn = _has_burn(legs[0], 0.0)
+        self.end_burn = _has_burn(legs[-1], legs[-1]["tof_tu"])
+        for i, leg in enumerate(legs):
+            times = list(leg["patch_times"]) + [leg["tof_tu"]]
+            for j, st in enumerate(leg["patch_states"]):
+                self.tau0.append(times[j + 1] - times[j])
+                self.leg_of.append(i)
+                x0.append(st)
+            for m in leg.get("maneuvers", []):
+                if 0.0 < m["t"] < leg["tof_tu"]:
+                    raise InputError("stitching handles maneuvers at the ends of legs only")
+            if i + 1 < len(legs):
+                self.junction[len(self.tau0) - 1] = (
+                    np.array(leg["arrival_state"][:3]),
+                    _has_burn(leg, leg["tof_tu"]) or _has_burn(legs[i + 1], 0.0))
+        self.K, self.L = len(self.tau0), len(legs)
+        self.tau0 = np.array(self.tau0)
+        self.leg_of = np.array(self.leg_of)
+        self.z0 = np.concatenate([np.ravel(x0), np.ones(self.L)])
+        self.s_start = np.array(legs[0]["departure_state"])
+        self.s_end = np.array(legs[-1]["arrival_state"])
+        self._cache_key = None
+        self.evaluations = 0
+
+    # -- propagation of every segment with its STM, cached on z ------------------------
+    def segments(self, z):
+        key = z.tobytes()
+        if key == self._cache_key:
+            return self._cache
+        from .dynamics import acceleration
+        from .integrate import propagate_batch
+        X = z[:6 * self.K].reshape(self.K, 6)
+        tau = self.tau0 * z[6 * self.K:][self.leg_of]
+        # every segment with its STM in one compiled batch (no Python loop over segments)
+        batch = propagate_batch(self.system, X, tau, rtol=RTOL, atol=ATOL, stm=True)
+        ends = np.asarray(batch.states)
+        stms = list(np.asarray(batch.stm))
+        rates = np.array([acceleration(self.system.mu, e) for e in ends])
+        self.evaluations += 1
+        self._cache_key, self._cache = key, (X, tau, ends, stms, rates)
+        return self._cache
+
+    # -- constraints F(z) = 0 and their Jacobian ---------------------------------------
+    def constraints(self, z):
+        X, tau, E, P, R = self.segments(z)
+        n = z.size
+        rows, jac = [], []
+
+        def add(value, parts):
+            for r in range(value.size):
+                row = np.zeros(n)
+                for col, block in parts:
+                    row[col] += block[r]
+                jac.append(row)
+            rows.extend(value)
+
+        K6 = 6 * self.K
+        add(X[0, :3] - self.s_start[:3], [(slice(0, 3), np.eye(3))])
+        if not self.start_burn:
+            add(X[0, 3:] - self.s_start[3:], [(slice(3, 6), np.eye(3))])
+        for k in range(self.K):
+            dT = R[k] * self.tau0[k]                                 # d(end state)/d(scale)
+            tcol = K6 + self.leg_of[k]
+            last = k == self.K - 1
+            if not last:
+                nxt = slice(6 * (k + 1), 6 * (k + 2))
+                burn = k in self.junction and self.junction[k][1]
+                comps = slice(0, 3) if burn else slice(0, 6)
+                m = 3 if burn else 6
+                add(E[k, comps] - X[k + 1, comps],
+                    [(slice(6 * k, 6 * k + 6), P[k][comps]), (slice(tcol, tcol + 1), dT[comps][:, None]),
+                     (slice(6 * (k + 1), 6 * (k + 1) + m), -np.eye(6)[:m, :m])])
+                if k in self.junction:
+                    add(X[k + 1, :3] - self.junction[k][0], [(slice(nxt.start, nxt.start + 3), np.eye(3))])
+            else:
+                comps = slice(0, 3) if self.end_burn else slice(0, 6)
+                add(E[k, comps] - self.s_end[comps],
+                    [(slice(6 * k, 6 * k + 6), P[k][comps]), (slice(tcol, tcol + 1), dT[comps][:, None])])
+        return np.array(rows), np.array(jac)
+
+    # -- the impulses and the total Δv ------------------------------------------------
+    def burns(self, z):
+        """[(boundary tag, Δv vector, d(Δv)/dz)] for every declared maneuver."""
+        X, tau, E, P, R = self.segments(z)
+        n = z.size
+        K6 = 6 * self.K
+        out = []
+        if self.start_burn:
+            J = np.zeros((3, n))
+            J[:, 3:6] = np.eye(3)
+            out.append((-1, X[0, 3:] - self.s_start[3:], J))
+        for k, (pos, burn) in sorted(self.junction.items()):
+            if burn:
+                J = np.zeros((3, n))
+                J[:, 6 * (k + 1) + 3:6 * (k + 1) + 6] = np.eye(3)
+                J[:, 6 * k:6 * k + 6] -= P[k][3:]
+                J[:, K6 + self.leg_of[k]] -= R[k][3:] * self.tau0[k]
+                out.append((k, X[k + 1, 3:] - E[k, 3:], J))
+        if self.end_burn:
+            k = self.K - 1
+            J = np.zeros((3, n))
+            J[:, 6 * k:6 * k + 6] = -P[k][3:]
+            J[:, K6 + self.leg_of[k]] = -R[k][3:] * self.tau0[k]
+            out.append((k, self.s_end[3:] - E[k, 3:], J))
+        return out
+
+    def cost(self, z):
+        return float(sum(np.linalg.norm(dv) for _, dv, _ in self.burns(z)))
+
+    def smooth_cost(self, z):
+        f, g = 0.0, np.zeros(z.size)
+        for _, dv, J in self.burns(z):
+            m = math.sqrt(float(dv @ dv) + SMOOTHING ** 2)
+            f += m
+            g += (dv / m) @ J
+        return f, g
+
+    def total_time(self, z):
+        return float(np.sum(self.tau0 * z[6 * self.K:][self.leg_of]))
+
+    def time_gradient(self, z):
+        g = np.zeros(z.size)
+        for i in range(self.L):
+            g[6 * self.K + i] = float(np.sum(self.tau0[self.leg_of == i]))
+        return g
+
+
+def _has_burn(leg, t) -> bool:
+    return any(abs(m["t"] - t) <= 1e-12 * max(1.0, abs(t)) for m in leg.get("maneuvers", []))
+
+
+def _newton(problem, z):
+    """Minimum-norm Newton steps on F(z) = 0 (least-squares solution of J dz = -F)."""
+    res = []
+    for it in range(1, NEWTON_ITERATIONS + 1):
+        F, J = problem.constraints(z)
+        res.append(float(np.max(np.abs(F))) if F.size else 0.0)
+        if res[-1] < POSITION_TOL:
+            return z, it, res
+        dz = np.linalg.lstsq(J, -F, rcond=None)[0]
+        if not np.all(np.isfinite(dz)):
+            break
+        z = z + dz
+        lo, hi = TIME_SCALE_BOUNDS
+        z[6 * problem.K:] = np.clip(z[6 * problem.K:], lo, hi)
+    raise ConvergenceError(f"stitching: continuity not reached in {NEWTON_ITERATIONS} Newton iterations "
+                           f"(largest residual {res[-1]:.3e} LU)", len(res), res, z)
+
+
+def stitch_route(system, route, constraints=None, optimise=True, max_iterations=60) -> StitchedRoute:
+    """Stitch ``route`` (a :class:`cr3bp.network.Route` whose edges carry ``leg`` dicts, or a
+    list of leg dicts) into one continuous trajectory with re-minimised total Δv.
+
+    Parameters
+    ----------
+    system : System
+    route : Route or list of dict
+    constraints : cr3bp.network.Constraints, optional   reported as held or not
+    optimise : bool                step 2 (SLSQP) on or off
+    max_iterations : int           SLSQP iterations
+
+    Returns
+    -------
+    StitchedRoute
+
+    Raises
+    ------
+    ConvergenceError
+        Continuity cannot be reached (carries iterations and residuals).
+    """
+    legs = [d["leg"] if "leg" in d else d for d in getattr(route, "legs", route)]
+    if not legs:
+        raise InputError("a route to stitch needs at least one leg")
+    for leg in legs:
+        if "patch_states" not in leg:
+            raise InputError(f"leg {leg.get('from')} -> {leg.get('to')} carries no patch points to stitch")
+    p = _Problem(system, legs)
+    T0 = p.total_time(p.z0)
+    z1, it1, res1 = _newton(p, p.z0.copy())
+    cost1 = p.cost(z1)
+    z, note, optimised, it2 = z1, "", False, 0
+    if optimise and p.L >= 1:
+        from scipy.optimize import minimize
+        lo, hi = TIME_SCALE_BOUNDS
+        bounds = [(None, None)] * (6 * p.K) + [(lo, hi)] * p.L
+        cons = [{"type": "eq", "fun": lambda q: p.constraints(q)[0], "jac": lambda q: p.constraints(q)[1]},
+                {"type": "ineq", "fun": lambda q: T0 - p.total_time(q), "jac": lambda q: -p.time_gradient(q)}]
+        try:
+            sol = minimize(p.smooth_cost, z1, jac=True, method="SLSQP", bounds=bounds, constraints=cons,
+                           options={"maxiter": max_iterations, "ftol": 1e-12})
+            it2 = int(sol.nit)
+            z2, _, _ = _newton(p, np.array(sol.x))
+            cost2 = p.cost(z2)
+            if cost2 < cost1 and p.total_time(z2) <= T0 * (1 + 1e-12):
+                z, optimised = z2, True
+                note = f"SLSQP: {sol.message}"
+            else:
+                note = f"SLSQP gave no improvement ({sol.message}); continuity solution kept"
+        except (ConvergenceError, ValueError, np.linalg.LinAlgError) as e:
+            note = f"optimisation step failed ({e}); continuity solution kept"
+    return _result(system, p, z, legs, constraints, optimised, note,
+                   {"newton": it1, "optimiser": it2, "evaluations": p.evaluations})
+
+
+def _result(system, p, z, legs, constraints, optimised, note, iterations):
+    from .dynamics import jacobi
+    from .integrate import propagate
+    F, _ = p.constraints(z)
+    X, tau, E, _, _ = p.segments(z)
+    starts = np.concatenate([[0.0], np.cumsum(tau)])
+    times, states, seg = [], [], []
+    cont = 0.0
+    for k in range(p.K):
+        te = np.linspace(0.0, tau[k], SAMPLES_PER_SEGMENT)
+        arc = propagate(system, X[k], tau[k], rtol=RTOL, atol=ATOL, t_eval=te)
+        times.append(starts[k] + arc.t)
+        states.append(arc.states)
+        seg.append(np.full(arc.t.size, k))
+        if k + 1 < p.K:
+            cont = max(cont, float(np.linalg.norm(arc.states[-1, :3] - X[k + 1, :3])))
+    cont = max(cont, float(np.linalg.norm(X[0, :3] - p.s_start[:3])),
+               float(np.linalg.norm(E[-1, :3] - p.s_end[:3])))
+    if cont > CONTINUITY_LIMIT:
+        raise ConvergenceError(f"stitched trajectory has a position jump of {cont:.3e} LU", 0, [cont], z)
+    times, states, seg = np.concatenate(times), np.concatenate(states), np.concatenate(seg)
+    names = [legs[0]["from_name"]] + [leg["to_name"] for leg in legs]
+    boundary_node = {-1: names[0], p.K - 1: names[-1]}
+    for k, i in zip(sorted(p.junction), range(1, len(names) - 1)):
+        boundary_node[k] = names[i]
+    man = []
+    for k, dv, _ in p.burns(z):
+        t = 0.0 if k == -1 else float(starts[k + 1])
+        pos = X[0, :3] if k == -1 else E[k, :3]
+        before = p.s_start if k == -1 else E[k]
+        after = np.concatenate([before[:3], before[3:] + dv])
+        man.append({"t_days": t * system.time_days, "node": boundary_node.get(k, ""),
+                    "position_lu": pos.tolist(), "position_km": (pos * system.length_km).tolist(),
+                    "dv_vector_mps": [float(system.mps(v)) for v in dv], "dv_mps": float(system.mps(float(np.linalg.norm(dv)))),
+                    "jacobi_before": float(jacobi(system.mu, before)),
+                    "jacobi_after": float(jacobi(system.mu, after))})
+    dv_total = float(sum(m["dv_mps"] for m in man))
+    tof_days = float(starts[-1] * system.time_days)
+    alt = math.inf
+    for k in range(2):
+        if system.radii[k] > 0:
+            d = np.linalg.norm(states[:, :3] - np.array([system.positions[k], 0.0, 0.0]), axis=1).min()
+            alt = min(alt, (d - system.radii[k]) * system.length_km)
+    checks = {}
+    if constraints is not None:
+        for name, value in (("max_dv_mps", dv_total), ("max_tof_days", tof_days), ("min_altitude_km", alt),
+                            ("max_legs", len(legs))):
+            limit = getattr(constraints, name)
+            if limit is not None:
+                holds = value >= limit if name == "min_altitude_km" else value <= limit
+                checks[name] = {"value": value, "limit": limit, "holds": bool(holds)}
+    return StitchedRoute(system, tuple(names), times, states, seg, tuple(man), dv_total, tof_days,
+                         float(sum(leg["dv_mps"] for leg in legs)), float(sum(leg["tof_days"] for leg in legs)),
+                         cont, float(alt), checks, optimised, note, iterations)
+
+
+def trajectory_rows(result: StitchedRoute):
+    """CSV rows of the stitched trajectory: time (d), segment, state (LU, LU/TU), km, Jacobi."""
+    from .dynamics import jacobi
+    s = result.system
+    C = jacobi(s.mu, result.states)
+    rows = []
+    for t, k, st, c in zip(result.times_days, result.segment, result.states, np.atleast_1d(C)):
+        rows.append([float(t), int(k), *map(float, st), *(float(v) * s.length_km for v in st[:3]), float(c)])
+    return ["t_days", "segment", "x_lu", "y_lu", "z_lu", "vx_vu", "vy_vu", "vz_vu", "x_km", "y_km", "z_km",
+            "jacobi"], rows
+
+
+def to_export(result: StitchedRoute, frame_spec, object_name="LIBRATE ROUTE"):
+    """The stitched route as a :class:`cr3bp.export.Trajectory` (maneuver-free segments
+    joined at the maneuvers, impulses in the rotating frame nondimensional), ready for
+    ``export.write_oem`` / ``write_csv`` / ``write_json``."""
+    from . import export
+    s = result.system
+    man_t = [m["t_days"] / s.time_days for m in result.maneuvers]
+    inner = man_t[1:-1] if len(man_t) >= 2 else []
+    # shooting segments whose start time is an interior maneuver time begin a new export segment
+    segs, cur_t, cur_s = [], [], []
+    for k in np.unique(result.segment):
+        m = result.segment == k
+        t, st = result.times_tu[m], result.states[m]
+        if cur_t and any(abs(t[0] - tm) < 1e-9 for tm in inner):
+            segs.append(export.Segment(np.concatenate(cur_t), np.concatenate(cur_s)))
+            cur_t, cur_s = [], []
+        if cur_t:                                    # drop the duplicate boundary sample
+            t, st = t[1:], st[1:]
+        cur_t.append(t)
+        cur_s.append(st)
+    segs.append(export.Segment(np.concatenate(cur_t), np.concatenate(cur_s)))
+    vu = s.velocity_kms * 1e3
+    mans = tuple(export.Maneuver(float(tm), np.asarray(m["dv_vector_mps"]) / vu, m["node"])
+                 for tm, m in zip(man_t, result.maneuvers))
+    model = {"route": " -> ".join(result.nodes), "dv_total_mps": result.dv_total_mps,
+             "tof_days": result.tof_days, "method": "multiple shooting (librate stitch)"}
+    return export.Trajectory(frame_spec, tuple(segs), "TDB", mans, object_name, "NONE", model)

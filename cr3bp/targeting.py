@@ -1,0 +1,120 @@
+"""Two-impulse targeted legs: the transfer arc that joins two positions in a given time.
+
+This is the graph's own leg where no manifold connection applies (two fixed states, or any
+two nodes whose states are known): the departure velocity is corrected by Newton's method so
+that the arc reaches the arrival position after the time of flight, using the position-velocity
+block of the state transition matrix (single shooting; Koon, Lo, Marsden & Ross, *Dynamical
+Systems, the Three-Body Problem and Space Mission Design*, 2011, §4.6 "differential correction",
+from memory). The leg costs the impulse at departure plus the one at arrival that matches the
+arrival node's velocity. Manifold legs come from :mod:`cr3bp.connections`.
+
+Everything returned is plain data (floats and lists) so that a leg can cross a process
+boundary, go into the catalogue as JSON and come back byte for byte.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from .errors import ConvergenceError
+
+LEG_FORMAT = 1
+#: Newton iterations on the departure velocity before giving up.
+MAX_ITERATIONS = 30
+#: Arrival position residual accepted, LU (~4e-6 m in Earth-Moon).
+POSITION_TOL = 1e-11
+#: Largest Newton step in velocity, LU/TU (damping far from the solution).
+MAX_STEP = 0.5
+RTOL = ATOL = 1e-12
+
+
+def _impacts(system):
+    from .integrate import impact
+    r1, r2 = system.radii
+    return [impact(k, r) for k, r in ((0, r1), (1, r2)) if r > 0]
+
+
+def solve_departure(system, r0, v_guess, r1, tof):
+    """Departure velocity that reaches ``r1`` from ``r0`` in ``tof`` (TU).
+
+    Returns
+    -------
+    v0 : ndarray (3,), iterations : int, residual : float (LU)
+
+    Raises
+    ------
+    ConvergenceError
+        No convergence in ``MAX_ITERATIONS``, or the arc strikes a primary.
+    """
+    from .integrate import propagate
+    v = np.array(v_guess, dtype=float)
+    res = []
+    events = _impacts(system)
+    for it in range(1, MAX_ITERATIONS + 1):
+        arc = propagate(system, np.concatenate([r0, v]), tof, stm=True, rtol=RTOL, atol=ATOL, events=events)
+        if arc.status != "time":
+            raise ConvergenceError(f"targeted arc ends in {arc.status} at t = {arc.t_final:.6g} TU",
+                                   it, res, v.copy())
+        f = arc.final_state[:3] - r1
+        res.append(float(np.linalg.norm(f)))
+        if res[-1] < POSITION_TOL:
+            return v, it, res[-1]
+        step = np.linalg.lstsq(arc.stm[:3, 3:], -f, rcond=None)[0]
+        n = np.linalg.norm(step)
+        if not np.isfinite(n):
+            break
+        if n > MAX_STEP:
+            step *= MAX_STEP / n
+        v = v + step
+    raise ConvergenceError(f"targeting did not converge in {MAX_ITERATIONS} iterations "
+                           f"(arrival miss {res[-1] if res else math.nan:.3e} LU)", MAX_ITERATIONS, res, v)
+
+
+def targeted_leg(system, s_from, s_to, tof, patches=4) -> dict:
+    """The two-impulse leg from state ``s_from`` to state ``s_to`` in ``tof`` TU.
+
+    Returns a plain dict: ``dv_mps`` (both impulses), ``tof_days``, ``maneuvers`` (each with
+    ``t`` TU since the leg's start, ``position`` LU, ``dv_vector`` LU/TU in the rotating frame,
+    ``dv_mps``), ``patch_times`` / ``patch_states`` (the arc at ``patches`` evenly spaced
+    times, the start of each shooting segment), ``departure_state`` / ``arrival_state`` (the
+    nodes' states), ``min_altitude_km`` (least altitude over each primary along the arc).
+    """
+    from .integrate import propagate
+    s_from = np.asarray(s_from, dtype=float)
+    s_to = np.asarray(s_to, dtype=float)
+    v0, iterations, residual = solve_departure(system, s_from[:3], s_from[3:], s_to[:3], tof)
+    start = np.concatenate([s_from[:3], v0])
+    times = np.linspace(0.0, tof, patches + 1)
+    arc = propagate(system, start, tof, rtol=RTOL, atol=ATOL)
+    sampled = propagate(system, start, tof, rtol=RTOL, atol=ATOL, t_eval=times)
+    end = sampled.states[-1]
+    dv1 = v0 - s_from[3:]
+    dv2 = s_to[3:] - end[3:]
+    alts = {}
+    for k, name in enumerate(system.names):
+        d = np.linalg.norm(arc.states[:, :3] - np.array([system.positions[k], 0.0, 0.0]), axis=1).min()
+        alts[name.lower()] = float(system.km(d) - system.km(system.radii[k]))
+    return {
+        "format": LEG_FORMAT,
+        "method": "targeted",
+        "dv_mps": float(system.mps(np.linalg.norm(dv1)) + system.mps(np.linalg.norm(dv2))),
+        "tof_days": float(system.days(tof)),
+        "tof_tu": float(tof),
+        "maneuvers": [
+            {"t": 0.0, "position": s_from[:3].tolist(), "dv_vector": dv1.tolist(),
+             "dv_mps": float(system.mps(np.linalg.norm(dv1))), "where": "departure"},
+            {"t": float(tof), "position": end[:3].tolist(), "dv_vector": dv2.tolist(),
+             "dv_mps": float(system.mps(np.linalg.norm(dv2))), "where": "arrival"},
+        ],
+        "departure_state": s_from.tolist(),
+        "arrival_state": s_to.tolist(),
+        "patch_times": times[:-1].tolist(),
+        "patch_states": sampled.states[:-1].tolist(),
+        "final_state": end.tolist(),
+        "min_altitude_km": min(alts.values()) if alts else math.inf,
+        "altitude_km_by_body": alts,
+        "iterations": int(iterations),
+        "arrival_miss_lu": float(residual),
+    }
