@@ -77,3 +77,18 @@ def test_no_convergence_exit_4(capsys, tmp_path):
     assert code == 4
     assert "did not converge" in err
     assert not (tmp_path / "x.oem").exists()
+
+
+def test_oem_file_read_by_the_oem_package(capsys, tmp_path):
+    """The refined trajectory's OEM is read by the independent `oem` package (test extra)."""
+    oem = pytest.importorskip("oem")
+    path = tmp_path / "nrho.oem"
+    code, _, err = run(capsys, *ARGS, "--out", str(path), "-q")
+    assert code == 0, err
+    seg = list(oem.OrbitEphemerisMessage.open(str(path)))[0]
+    states = list(seg.states)
+    from fidelity_cases import nrho_transition
+    tr = nrho_transition(3)
+    assert len(states) == tr.sample_km.shape[0]
+    assert np.abs(np.asarray(states[0].position) - tr.sample_km[0, :3]).max() < 1e-3   # 1 m
+    assert np.abs(np.asarray(states[-1].velocity) - tr.sample_km[-1, 3:]).max() < 1e-6

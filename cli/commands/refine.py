@@ -112,7 +112,9 @@ def run(args):
         spec = frames.frame(sysm, tr.epoch_tdb_s, anchor="ephemeris", axes="j2000-equator", center="secondary")
         from cr3bp.plotting.fidelity import rotating_states
         rot = rotating_states(tr, tr.sample_km, tr.sample_t_tu)
-        model = {"orbit request": args.orbit, "force model": f"point masses {central} (central), "
+        model = {"trajectory": "integrated in the ephemeris point-mass model below, NOT the CR3BP; "
+                               "the CR3BP lines above describe only the frame that carries the states",
+                 "orbit request": args.orbit, "force model": f"point masses {central} (central), "
                  f"{', '.join(tr.model.bodies)}" + (f"; cannonball SRP A/m {srp[0]} m2/kg, Cr {srp[1]}" if srp else ""),
                  "ephemeris": "cr3bp.ephemeris (Meeus 1998 lunar series, Standish mean elements)",
                  "iterations": str(tr.iterations), "continuity": f"{tr.continuity_km * 1000:.3g} m, "
