@@ -100,9 +100,10 @@ def run(args):
                         progress=lambda i, err: common.progress(
                             args, f"  iteration {i}: largest mismatch {err:.3e} (nondimensional)"))
     central = tr.model.central
-    headers = ["rev", "max_dr_km", "max_dv_mps", f"min_r_{central}_km", "min_r_cr3bp_km"]
-    rows = [[r["rev"], r["max_position_diff_km"], r["max_velocity_diff_mps"], r["min_radius_km"],
-             r["min_radius_cr3bp_km"]] for r in tr.per_rev]
+    headers = ["rev", "max_dr_km", "max_dv_mps", "max_path_offset_km", f"min_r_{central}_km",
+               "min_r_cr3bp_km"]
+    rows = [[r["rev"], r["max_position_diff_km"], r["max_velocity_diff_mps"], r["max_path_offset_km"],
+             r["min_radius_km"], r["min_radius_cr3bp_km"]] for r in tr.per_rev]
     title = (f"{sysm.name}: '{args.orbit}' in the ephemeris model ({central} + {', '.join(tr.model.bodies)}"
              f"{', SRP' if srp else ''}) from {args.epoch}, {revs} revolutions; converged in "
              f"{tr.iterations} iterations, continuity {tr.continuity_km * 1000:.3g} m / "

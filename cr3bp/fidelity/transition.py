@@ -42,9 +42,10 @@ class Transition:
     patches_km : ndarray (M+1, 6)  the same in km, km/s about the central body, EME2000
     initial_km : ndarray (M+1, 6)  the CR3BP patch states converted (the first guess)
     sample_t_tu, sample_km : dense samples of the converged trajectory (km, km/s)
-    reference_km : ndarray         the CR3BP orbit at the same samples, same frame
-    per_rev : tuple of dict        rev, max_position_diff_km, max_velocity_diff_mps,
-                                   min_radius_km, min_radius_cr3bp_km
+    reference_km : ndarray         the CR3BP orbit at the same epochs as the samples, same frame
+    per_rev : tuple of dict        rev, max_position_diff_km, max_velocity_diff_mps (at equal
+                                   epochs), max_path_offset_km (to the nearest design sample,
+                                   timing aside), min_radius_km, min_radius_cr3bp_km
     dv_total_mps : float           maneuvers needed (0: continuous)
     iterations : int; residuals : tuple (max-norm of the mismatch, nondimensional)
     continuity_km, continuity_mps : final largest mismatch at a patch point
@@ -244,15 +245,29 @@ def transition(orbit, epoch, revs: int, bodies=("sun", "earth", "moon"), *, cent
     samp_t = ts if not free_times else np.concatenate(
         [[tt[0]]] + [np.linspace(tt[k], tt[k + 1], stride + 1)[1:] for k in range(m)])
     samp_km = samp * scale
+    if free_times:
+        # the design at the same epochs as the samples (the orbit is periodic: phase = t mod T)
+        tau = np.mod(samp_t, T)
+        order = np.argsort(tau, kind="stable")
+        one = cr3bp_propagate(system, orbit.state, T, t_eval=np.clip(tau[order], 0.0, T), rtol=1e-13,
+                              atol=1e-13).states
+        rot = np.empty_like(one)
+        rot[order] = one
+        ref_km = _cr3bp_to_inertial(system, spec, samp_t, rot, central)
     ends, _ = _model.propagate_many(mdl, X[:-1], tt[:-1], tt[1:])
     gap = ends - X[1:]
     rows = []
+    from scipy.spatial import cKDTree
     for r in range(revs):
         a, b = r * samples_per_rev, (r + 1) * samples_per_rev + 1
         dr = np.linalg.norm(samp_km[a:b, :3] - ref_km[a:b, :3], axis=1)
         dv = np.linalg.norm(samp_km[a:b, 3:] - ref_km[a:b, 3:], axis=1) * 1000.0
+        # distance to the design's path (nearest design sample of this and the adjacent revs)
+        lo, hi = max(0, a - samples_per_rev), min(ns + 1, b + samples_per_rev)
+        path, _ = cKDTree(ref_km[lo:hi, :3]).query(samp_km[a:b, :3])
         rows.append({"rev": r + 1, "max_position_diff_km": float(dr.max()),
                      "max_velocity_diff_mps": float(dv.max()),
+                     "max_path_offset_km": float(path.max()),
                      "min_radius_km": _min_radius(samp_km[a:b, :3]),
                      "min_radius_cr3bp_km": _min_radius(ref_km[a:b, :3])})
     return Transition(

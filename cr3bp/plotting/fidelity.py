@@ -29,8 +29,7 @@ def transition_figure(transition, title=""):
     fig, axes = new_figure(ncols=2, size=(12.0, 5.8))
     ax1, ax2 = np.ravel(axes)
     s = transition.model.system
-    ref_rot = rotating_states(transition, transition.reference_km, np.linspace(
-        0.0, transition.revs * transition.options["period_tu"], transition.reference_km.shape[0]))
+    ref_rot = rotating_states(transition, transition.reference_km, transition.sample_t_tu)
     eph_rot = rotating_states(transition, transition.sample_km, transition.sample_t_tu)
     ax1.plot(ref_rot[:, 0], ref_rot[:, 2], color="tab:blue", lw=1.0, ls="--", zorder=3, label="CR3BP design")
     ax1.plot(eph_rot[:, 0], eph_rot[:, 2], color="tab:red", lw=0.6, label="ephemeris model")
