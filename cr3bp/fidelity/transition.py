@@ -174,11 +174,13 @@ def correct(model, X0, t, *, fix_first=False, free_times=False, tol=TOLERANCE, m
                 break
             alpha *= 0.5
         else:
-            raise ConvergenceError(f"step halving failed at iteration {it} (mismatch {err:.3g})",
+            raise ConvergenceError(f"step halving failed at iteration {it} (mismatch {err:.3g}); "
+                                   f"mismatch by iteration: {_history(hist)}",
                                    iterations=it, residuals=hist, last=X)
         X, t = Xn, tn
     raise ConvergenceError(f"multiple shooting did not converge in {max_iter} iterations "
-                           f"(mismatch {hist[-1]:.3g}, tolerance {tol:g})", iterations=max_iter,
+                           f"(mismatch {hist[-1]:.3g}, tolerance {tol:g}); mismatch by iteration: "
+                           f"{_history(hist)}", iterations=max_iter,
                            residuals=hist, last=X)
 
 
@@ -278,6 +280,10 @@ def transition(orbit, epoch, revs: int, bodies=("sun", "earth", "moon"), *, cent
         continuity_mps=float(np.abs(gap[:, 3:]).max() * vu * 1000.0),
         options={"central": central, "per_rev": per_rev, "fix_first": fix_first,
                  "free_times": free_times, "tolerance": tol, "period_tu": T})
+
+
+def _history(hist) -> str:
+    return " ".join(f"{h:.2e}" for h in hist)
 
 
 def _min_radius(r) -> float:
