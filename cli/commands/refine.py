@@ -88,7 +88,6 @@ def run(args):
         frames.frame(sysm, args.epoch, anchor="ephemeris", center="secondary")   # epoch check first
     for w in caught:
         common.progress(args, f"note: {w.message}")
-    common.compile_notice(args, KERNELS)
     common.progress(args, f"solving orbit request '{args.orbit}'...")
     orbit = solve_request(sysm, args.orbit)
     common.progress(args, f"orbit: period {orbit.period_days:.6f} d; transition over {revs} revolutions "
