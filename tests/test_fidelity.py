@@ -52,13 +52,12 @@ def test_circular_moon_without_sun_reproduces_the_cr3bp():
     ref = propagate(s, o.state, o.period, t_eval=ts, rtol=1e-13, atol=1e-13).states
     _, ref_km = frames.to_frame(spec, ts, ref)
     sc = np.array([s.length_km] * 3 + [s.velocity_kms] * 3)
-    _, _, _, mine = fm.propagate(m, ref_km[0] / sc, 0.0, o.period, t_eval=ts, rtol=1e-13, atol=1e-13)
-    mine = mine * sc
+    mine = fm.propagate(m, ref_km[0] / sc, 0.0, o.period, t_eval=ts, rtol=1e-13, atol=1e-13).states * sc
     assert np.abs(mine[:, :3] - ref_km[:, :3]).max() < ONE_METER
     assert np.abs(mine[:, 3:] - ref_km[:, 3:]).max() < ONE_MM_PER_S
     # and it is not trivially so: the real ephemeris departs by far more in one period
     real = fm.build(s, spec.epoch_tdb_s, -0.01, 1.01 * o.period, "moon", "sun,earth")
-    _, _, _, other = fm.propagate(real, ref_km[0] / sc, 0.0, o.period, t_eval=ts)
+    other = fm.propagate(real, ref_km[0] / sc, 0.0, o.period, t_eval=ts).states
     assert np.abs(other[:, :3] * s.length_km - ref_km[:, :3]).max() > 100.0
 
 
@@ -67,14 +66,14 @@ def test_stm_against_central_differences(srp):
     s = system("earth-moon")
     m = fm.build(s, epoch_tdb_s(), -0.1, 2.0, "moon", "sun,earth,jupiter", srp=srp)
     x0 = np.array([0.01, 0.03, -0.16, 0.2, 0.05, -0.02])
-    _, phi, _, _ = fm.propagate(m, x0, 0.1, 1.2, stm=True, rtol=1e-13, atol=1e-13)
+    phi = fm.propagate(m, x0, 0.1, 1.2, stm=True, rtol=1e-13, atol=1e-13).stm
     fd = np.empty((6, 6))
     h = 1e-6
     for j in range(6):
         e = np.zeros(6)
         e[j] = h
-        a = fm.propagate(m, x0 + e, 0.1, 1.2, rtol=1e-13, atol=1e-13)[0]
-        b = fm.propagate(m, x0 - e, 0.1, 1.2, rtol=1e-13, atol=1e-13)[0]
+        a = fm.propagate(m, x0 + e, 0.1, 1.2, rtol=1e-13, atol=1e-13).state_end
+        b = fm.propagate(m, x0 - e, 0.1, 1.2, rtol=1e-13, atol=1e-13).state_end
         fd[:, j] = (a - b) / (2 * h)
     assert np.abs(phi - fd).max() < 1e-6 * max(1.0, np.abs(phi).max())
 
@@ -88,6 +87,28 @@ def test_radiation_pressure_size():
     da = (m1.acceleration(0.0, st) - m0.acceleration(0.0, st))[3:] * s.length_km / s.time_s ** 2 * 1e3
     d_au = np.linalg.norm(st[:3] - m1.body_position_km("sun", [0.0])[0] / s.length_km)
     assert np.linalg.norm(da) == pytest.approx(4.56e-6 * 1.3 * 0.01 / d_au ** 2, rel=1e-9)
+
+
+def test_events_in_the_ephemeris_model():
+    """Crossings of the J2000 equator plane by the NRHO (located to 1e-9 LU) and an impact at
+    the lunar surface: the compiled integrator's events work on the model unchanged."""
+    from cr3bp.integrate.events import impact, plane
+    o = nrho()
+    s = o.system
+    spec = frames.frame(s, EPOCH, anchor="ephemeris", axes="j2000-equator", center="secondary")
+    _, km = frames.to_frame(spec, [0.0], o.state[None])
+    sc = np.array([s.length_km] * 3 + [s.velocity_kms] * 3)
+    m = fm.build(s, spec.epoch_tdb_s, -0.01, 1.2 * o.period, "moon", "sun,earth")
+    x0 = km[0] / sc
+    arc = fm.propagate(m, x0, 0.0, o.period, events=[plane(2, 0.0)])
+    assert arc.status == "time" and len(arc.events) >= 1
+    for t, st, k in arc.events:
+        assert abs(st[2]) < 1e-9 and 0.0 < t < o.period
+    # start 100 km above the surface falling straight down: impact with the Moon
+    r0 = (1737.4 + 100.0) / s.length_km
+    hit = fm.propagate(m, [r0, 0, 0, -0.5, 0, 0], 0.0, 0.1, events=[impact(0, 1737.4 / s.length_km)])
+    assert hit.status == "impact"
+    assert np.linalg.norm(hit.state_end[:3]) * s.length_km == pytest.approx(1737.4, abs=ONE_METER)
 
 
 def test_bad_input():

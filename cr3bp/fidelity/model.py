@@ -202,26 +202,47 @@ def _check_span(model, t0, t1):
                          f"[{model.t0:.6g}, {model.t1:.6g}] TU")
 
 
-def propagate(model: Model, state, t0: float, t1: float, *, stm=False, t_eval=None,
-              rtol=1e-12, atol=1e-12, max_steps=dop853.DEFAULT_MAX_STEPS):
+@dataclass(frozen=True)
+class EphemerisArc:
+    """One propagation in the ephemeris model (nondimensional, inertial, about the central body).
+
+    ``t``/``states``: dense output at the requested ``t_eval`` (empty without it);
+    ``events``: (t, state, event index) of each recorded event; ``status`` as the CR3BP
+    propagator's ("time", "event", "impact", "escape").
+    """
+
+    t_end: float
+    state_end: np.ndarray
+    stm: np.ndarray | None
+    t: np.ndarray
+    states: np.ndarray
+    events: tuple
+    status: str
+
+    def to_dict(self) -> dict:
+        return {"t_end": self.t_end, "state_end": self.state_end.tolist(), "status": self.status,
+                "stm": None if self.stm is None else self.stm.tolist(),
+                "events": [{"t": t, "state": st.tolist(), "index": k} for t, st, k in self.events]}
+
+
+def propagate(model: Model, state, t0: float, t1: float, *, stm=False, t_eval=None, events=(),
+              rtol=1e-12, atol=1e-12, max_steps=dop853.DEFAULT_MAX_STEPS) -> EphemerisArc:
     """Propagate one nondimensional inertial state from ``t0`` to ``t1`` (TU from the epoch).
 
-    Dormand-Prince 8(5,3) (Hairer, Norsett & Wanner, *Solving ODE I*, 1993, section II.5).
-
-    Returns
-    -------
-    (state_end (6,), stm (6, 6) or None, t_out (k,), states_out (k, 6))
-        ``t_out``/``states_out``: the dense output at ``t_eval`` (empty without it).
+    Dormand-Prince 8(5,3) (Hairer, Norsett & Wanner, *Solving ODE I*, 1993, section II.5), the
+    project's compiled integrator with its events: :func:`cr3bp.integrate.events.plane` on any
+    state component, and ``impact(0, radius)`` / ``escape(radius, 0)`` about the central body
+    (the model sits it at the origin).
     """
+    from ..integrate.events import table
     _check_span(model, t0, t1)
     s0 = np.asarray(state, dtype=float).ravel()
     if s0.shape != (6,) or not np.all(np.isfinite(s0)):
         raise InputError("an ephemeris state must be 6 finite numbers")
     y0 = np.concatenate([s0, np.eye(6).ravel()]) if stm else s0.copy()
     te = np.empty(0) if t_eval is None else np.ascontiguousarray(t_eval, dtype=float)
-    from ..integrate.events import table
-    tab = table(())
-    (code, t_end, y_end, _ts, _ys, _et, _ey, _ek, _seen, eval_y, n_eval, _nfev, nsteps,
+    tab = np.ascontiguousarray(table(events), dtype=np.float64)
+    (code, t_end, y_end, _ts, _ys, ev_t, ev_y, ev_k, _seen, eval_y, n_eval, _nfev, nsteps,
      _nrej) = dop853.integrate(_MODE_STM if stm else _MODE, model.params, y0, float(t0), float(t1),
                                float(rtol), float(atol), -1.0, math.inf, int(max_steps), tab, -1,
                                te, False)
@@ -230,7 +251,9 @@ def propagate(model: Model, state, t0: float, t1: float, *, stm=False, t_eval=No
                                f"t = {t_end:.9g} TU after {nsteps} steps", iterations=int(nsteps),
                                last=np.array(y_end[:6]))
     phi = y_end[6:].reshape(6, 6).copy() if stm else None
-    return y_end[:6].copy(), phi, te[:n_eval].copy(), np.array(eval_y[:n_eval, :6])
+    hits = tuple((float(a), np.array(b), int(k)) for a, b, k in zip(ev_t, ev_y, ev_k))
+    return EphemerisArc(float(t_end), y_end[:6].copy(), phi, te[:n_eval].copy(),
+                        np.array(eval_y[:n_eval, :6]), hits, dop853.STATUS_NAMES[int(code)])
 
 
 def propagate_many(model: Model, states, t0s, t1s, *, stm=False, rtol=1e-12, atol=1e-12,

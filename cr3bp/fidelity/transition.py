@@ -242,8 +242,7 @@ def transition(orbit, epoch, revs: int, bodies=("sun", "earth", "moon"), *, cent
     for k in range(m):
         sel = np.arange(k * stride + 1, (k + 1) * stride + 1)
         te = ts[sel] if not free_times else np.linspace(tt[k], tt[k + 1], stride + 1)[1:]
-        _, _, _, st = _model.propagate(mdl, X[k], tt[k], tt[k + 1], t_eval=te)
-        samp[sel] = st
+        samp[sel] = _model.propagate(mdl, X[k], tt[k], tt[k + 1], t_eval=te).states
     samp_t = ts if not free_times else np.concatenate(
         [[tt[0]]] + [np.linspace(tt[k], tt[k + 1], stride + 1)[1:] for k in range(m)])
     samp_km = samp * scale
