@@ -85,7 +85,14 @@ def run(args):
         raise InputError(f"--plot '{args.plot}' must name a .png file")
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        frames.frame(sysm, args.epoch, anchor="ephemeris", center="secondary")   # epoch check first
+        try:
+            frames.frame(sysm, args.epoch, anchor="ephemeris", center="secondary")   # epoch check first
+        except InputError as e:
+            if "no ephemeris" in str(e) or "no named primaries" in str(e):
+                raise InputError(f"system '{sysm.name}' has no ephemeris for its primaries, so it has "
+                                 "no ephemeris model; refine supports systems whose primaries are in "
+                                 "cr3bp.ephemeris (e.g. earth-moon, sun-earth, sun-mars)") from None
+            raise
     for w in caught:
         common.progress(args, f"note: {w.message}")
     common.progress(args, f"solving orbit request '{args.orbit}'...")

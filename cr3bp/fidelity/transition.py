@@ -83,8 +83,11 @@ class Transition:
 
 
 def _central_default(system) -> str:
+    """The secondary's body (its system's main body; the Earth for the Earth-Moon barycentre)."""
+    from ..frames import _BODY
     name = system.secondary.name if system.secondary is not None else ""
-    return {"earth-moon": "earth"}.get(name, name)
+    body = _BODY.get(name, name)
+    return "earth" if body == "emb" else body
 
 
 def _cr3bp_to_inertial(system, spec, t_tu, states, central):
