@@ -58,6 +58,7 @@ def test_json(capsys):
     (["--revs", "0"], "--revs"),
     (["--epoch", "2031-13-01T00:00:00Z"], "2031-13-01"),
     (["--plot", "x.pdf"], ".png"),
+    (["--system", "jupiter-europa"], "no ephemeris"),
 ])
 def test_bad_input_exit_2(capsys, tmp_path, extra, needle):
     argv = list(ARGS)
