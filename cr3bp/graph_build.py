@@ -41,6 +41,10 @@ SAME_ENERGY = 1e-9
 BALLISTIC_DV_MPS = 0.01
 #: Chunks of legs per pool worker (progress is reported as each chunk completes).
 CHUNKS_PER_WORKER = 4
+#: Trajectories per manifold tube of a connection leg.
+TUBE_POINTS = 80
+#: Manifold trajectories searched for a periapsis at the parking altitude.
+PARKING_POINTS = 40
 #: Legs written to the catalogue per transaction.
 CATALOG_BATCH = 64
 
@@ -118,8 +122,13 @@ def compute_leg(task: dict) -> dict:
     base = {"from": task["from"]["id"], "to": task["to"]["id"], "from_name": task["from"]["name"],
             "to_name": task["to"]["name"], "key": task["key"], "method": task["method"]}
     try:
-        leg = targeted_leg(system, task["from"]["state_used"], task["to"]["state_used"], st["tof_tu"],
-                           st["patches"])
+        if task["method"] == "manifold":
+            leg = _manifold_leg(system, task)
+        elif task["method"] == "parking":
+            leg = _parking_leg(system, task)
+        else:
+            leg = targeted_leg(system, task["from"]["state_used"], task["to"]["state_used"], st["tof_tu"],
+                               st["patches"])
     except LibrateError as e:
         return dict(base, status="failed", reason=str(e), dv_mps=None, tof_days=None)
     leg.update(base)
@@ -206,12 +215,71 @@ def resolve_orbits(system, nodelist, catalog=None, progress=None) -> dict:
             try:
                 o = solve_request(system, n.orbit, catalog=catalog)
                 out[n.id] = {"state": np.asarray(o.state, dtype=float), "period": float(o.period),
-                             "jacobi": float(o.jacobi)}
+                             "jacobi": float(o.jacobi), "monodromy": np.asarray(o.monodromy).tolist(),
+                             "family": o.family, "point": o.point, "branch": o.branch}
             except LibrateError as e:
                 out[n.id] = {"error": str(e)}
             if progress is not None:
                 progress(n, out[n.id])
     return out
+
+
+def _orbit_plain(o: dict) -> dict:
+    return {k: (v.tolist() if isinstance(v, np.ndarray) else v) for k, v in o.items()}
+
+
+def _orbit_from_plain(system, d: dict):
+    from .orbits import PeriodicOrbit
+    return PeriodicOrbit(system, np.array(d["state"]), float(d["period"]), np.array(d["monodromy"]),
+                         d.get("family", ""), d.get("point", ""), d.get("branch", ""), float(d["jacobi"]))
+
+
+def _manifold_leg(system, task) -> dict:
+    """The cheapest connection between two orbit nodes over the hinted sections
+    (:func:`cr3bp.connections.connect`), as a plain leg dict."""
+    from .connections import connect
+    from .stitch import leg_from_connection
+    st = task["settings"]
+    a = _orbit_from_plain(system, task["from"]["orbit_data"])
+    b = _orbit_from_plain(system, task["to"]["orbit_data"])
+    found, reasons = [], []
+    for sec in st["sections"]:
+        try:
+            legs, _, _ = connect(a, b, sec, n_points=st["tube_points"])
+            found += legs
+        except LibrateError as e:
+            reasons.append(f"{sec}: {e}")
+    if not found:
+        from .errors import NoSolutionError
+        raise NoSolutionError("no manifold connection: " + ("; ".join(reasons) or "the cuts do not meet"))
+    best = min(found, key=lambda lg: (lg.dv_mps, lg.tof))
+    return leg_from_connection(system, best, st["patches"])
+
+
+def _parking_leg(system, task) -> dict:
+    """The cheapest leg between a parking orbit and an orbit node through the orbit's manifold
+    and its first periapsis at the parking altitude (:func:`cr3bp.connections.parking_legs`:
+    stable manifold to arrive at the orbit, unstable to leave it; interior branch, then
+    exterior), as a plain leg dict."""
+    from .connections import parking_legs
+    from .stitch import leg_from_connection
+    st = task["settings"]
+    arrive = st["arrive"]                     # parking -> orbit
+    orbit = _orbit_from_plain(system, task["to" if arrive else "from"]["orbit_data"])
+    found, reasons = [], []
+    for branch in ("interior", "exterior"):
+        try:
+            found += parking_legs(orbit, st["body"], st["altitude_km"], stability="stable" if arrive else "unstable",
+                                  branch=branch, n_points=st["tube_points"])
+        except LibrateError as e:
+            reasons.append(str(e))
+        if found:
+            break
+    if not found:
+        from .errors import NoSolutionError
+        raise NoSolutionError("; ".join(reasons))
+    best = min(found, key=lambda lg: (lg.dv_mps, lg.tof))
+    return leg_from_connection(system, best, st["patches"])
 
 
 def _state_of(system, node, orbits):
@@ -254,10 +322,12 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
             elif isinstance(n, BoundaryNode):
                 why = f"{n.kind} node '{n.name}' needs manifold connections (cr3bp.connections), not on this build"
             elif isinstance(n, ParkingNode):
-                # a departure from a parking orbit has a free phase: a primary-to-orbit leg of
-                # the connections library, not a two-point targeting from one fixed point
-                why = (f"parking node '{n.name}' needs primary-to-orbit legs (cr3bp.connections), "
-                       "not on this build")
+                # a leg from or to a parking orbit has a free phase: the primary-to-orbit legs of
+                # cr3bp.connections, between a parking orbit and a periodic orbit only
+                other = b if n is a else a
+                if not isinstance(other, OrbitNode):
+                    why = (f"parking node '{n.name}' joins periodic orbits only (manifold legs through "
+                           f"periapsis), not the {other.kind} node '{other.name}'")
         sa, sb = states[a.id], states[b.id]
         maneuvers = h.maneuvers if h else "ends"
         if why is None:
@@ -269,8 +339,23 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
         tof = h.tof_days if (h and h.tof_days is not None) else tof_days
         settings = {"tof_tu": float(tof / system.time_days), "patches": int(patches), "maneuvers": maneuvers,
                     "max_patch_dv_mps": h.max_patch_dv_mps if h else None}
-        task = {"system": system_spec(system), "method": "targeted", "settings": settings,
+        method = "targeted"
+        if isinstance(a, ParkingNode) or isinstance(b, ParkingNode):
+            method = "parking"
+            park, orb = (a, b) if isinstance(a, ParkingNode) else (b, a)
+            settings = {"patches": int(patches), "maneuvers": maneuvers, "body": park.body,
+                        "altitude_km": park.altitude_km, "arrive": park is a,
+                        "max_patch_dv_mps": h.max_patch_dv_mps if h else None, "tube_points": PARKING_POINTS}
+        elif h and h.sections and isinstance(a, OrbitNode) and isinstance(b, OrbitNode):
+            # manifold connection on the hinted section(s): unstable tube of a, stable of b
+            method = "manifold"
+            settings = {"patches": int(patches), "maneuvers": maneuvers, "sections": list(h.sections),
+                        "max_patch_dv_mps": h.max_patch_dv_mps, "tube_points": TUBE_POINTS}
+        task = {"system": system_spec(system), "method": method, "settings": settings,
                 "from": dict(a.to_dict(), state_used=sa.tolist()), "to": dict(b.to_dict(), state_used=sb.tolist())}
+        for end, n in (("from", a), ("to", b)):
+            if method in ("manifold", "parking") and isinstance(n, OrbitNode):
+                task[end]["orbit_data"] = _orbit_plain(orbits[n.id])
         task["key"] = leg_key(task)
         tasks.append(task)
     return tasks, pruned
@@ -321,10 +406,10 @@ def run_tasks(tasks, workers=None, scheduler=None, progress=None) -> list:
         return out
     import multiprocessing
     from concurrent.futures import ProcessPoolExecutor, as_completed as done_first
-    # fork where the platform has it: no re-import of the caller's main module (scripts
-    # without a main guard work); spawn elsewhere
-    methods = multiprocessing.get_all_start_methods()
-    ctx = multiprocessing.get_context("fork" if "fork" in methods else "spawn")
+    # spawn, not fork: a forked child of a process whose compiled kernels have started their
+    # thread pool (propagate_batch runs prange) may crash; a script that builds a graph with a
+    # pool therefore needs the usual `if __name__ == "__main__":` guard
+    ctx = multiprocessing.get_context("spawn")
     # legs take milliseconds with the compiled integrator: send them in chunks (a few per
     # worker) so that process start-up and pickling do not outweigh the work
     size = max(1, math.ceil(n / (CHUNKS_PER_WORKER * workers)))

@@ -30,7 +30,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .errors import ConvergenceError, InputError
+from .errors import ConvergenceError, InputError, NoSolutionError
 
 NEWTON_ITERATIONS = 25
 POSITION_TOL = 1e-11      # LU, ~4 mm in Earth-Moon
@@ -38,6 +38,7 @@ CONTINUITY_LIMIT = 1e-9   # LU, the promise checked on the output (0.4 m in Eart
 SMOOTHING = 1e-9          # LU/TU added in quadrature to each |Δv| for the optimiser
 TIME_SCALE_BOUNDS = (0.5, 2.0)
 SAMPLES_PER_SEGMENT = 40
+JUNCTION_GAP = 1e-6       # LU (~0.4 km): legs farther apart at a node cannot be joined
 RTOL = ATOL = 1e-12
 
 
@@ -91,6 +92,10 @@ class StitchedRoute:
                 "method": "multiple shooting, minimum-norm Newton then SLSQP on total delta-v"}
 
 
+class PhasingError(NoSolutionError):
+    """Two legs of a route meet a node at different places (different phases of an orbit)."""
+
+
 class _Problem:
     """The multiple-shooting problem of a chain of legs (see the module docstring)."""
 
@@ -99,6 +104,7 @@ class _Problem:
         self.legs = legs
         self.tau0, self.leg_of, x0 = [], [], []
         self.junction = {}            # boundary index k (between segment k and k+1) -> node position
+        self.inner_burn = set()       # boundaries inside a leg where it declares a maneuver
         self.start_burn = _has_burn(legs[0], 0.0)
         self.end_burn = _has_burn(legs[-1], legs[-1]["tof_tu"])
         for i, leg in enumerate(legs):
@@ -107,10 +113,20 @@ class _Problem:
                 self.tau0.append(times[j + 1] - times[j])
                 self.leg_of.append(i)
                 x0.append(st)
-            for m in leg.get("maneuvers", []):
-                if 0.0 < m["t"] < leg["tof_tu"]:
-                    raise InputError("stitching handles maneuvers at the ends of legs only")
+            inner = [m["t"] for m in leg.get("maneuvers", []) if 0.0 < m["t"] < leg["tof_tu"]]
+            for tm in inner:
+                hit = [j for j in range(1, len(times) - 1) if abs(times[j] - tm) <= 1e-9 * max(1.0, tm)]
+                if not hit:
+                    raise InputError(f"leg {leg.get('from_name', i)}: a maneuver at t = {tm:.6g} TU is not "
+                                     "at a patch point")
+                self.inner_burn.add(len(self.tau0) - len(leg["patch_states"]) + hit[0] - 1)
             if i + 1 < len(legs):
+                gap = float(np.linalg.norm(np.array(leg["arrival_state"][:3]) -
+                                           np.array(legs[i + 1]["departure_state"][:3])))
+                if gap > JUNCTION_GAP:
+                    raise PhasingError(f"legs {i + 1} and {i + 2} meet {gap:.3g} LU apart at "
+                                     f"'{leg.get('to_name', '')}' (different phases of the orbit); "
+                                     "stitching with phasing along an orbit is not available yet")
                 self.junction[len(self.tau0) - 1] = (
                     np.array(leg["arrival_state"][:3]),
                     _has_burn(leg, leg["tof_tu"]) or _has_burn(legs[i + 1], 0.0))
@@ -165,7 +181,7 @@ class _Problem:
             last = k == self.K - 1
             if not last:
                 nxt = slice(6 * (k + 1), 6 * (k + 2))
-                burn = k in self.junction and self.junction[k][1]
+                burn = (k in self.junction and self.junction[k][1]) or k in self.inner_burn
                 comps = slice(0, 3) if burn else slice(0, 6)
                 m = 3 if burn else 6
                 add(E[k, comps] - X[k + 1, comps],
@@ -190,7 +206,9 @@ class _Problem:
             J = np.zeros((3, n))
             J[:, 3:6] = np.eye(3)
             out.append((-1, X[0, 3:] - self.s_start[3:], J))
-        for k, (pos, burn) in sorted(self.junction.items()):
+        bounds = sorted([(k, burn) for k, (pos, burn) in self.junction.items()] +
+                        [(k, True) for k in self.inner_burn])
+        for k, burn in bounds:
             if burn:
                 J = np.zeros((3, n))
                 J[:, 6 * (k + 1) + 3:6 * (k + 1) + 6] = np.eye(3)
@@ -334,7 +352,7 @@ def _result(system, p, z, legs, constraints, optimised, note, iterations):
         pos = X[0, :3] if k == -1 else E[k, :3]
         before = p.s_start if k == -1 else E[k]
         after = np.concatenate([before[:3], before[3:] + dv])
-        man.append({"t_days": t * system.time_days, "node": boundary_node.get(k, ""),
+        man.append({"t_days": t * system.time_days, "node": boundary_node.get(k, "patch point"),
                     "position_lu": pos.tolist(), "position_km": (pos * system.length_km).tolist(),
                     "dv_vector_mps": [float(system.mps(v)) for v in dv], "dv_mps": float(system.mps(float(np.linalg.norm(dv)))),
                     "jacobi_before": float(jacobi(system.mu, before)),
@@ -398,3 +416,41 @@ def to_export(result: StitchedRoute, frame_spec, object_name="LIBRATE ROUTE"):
     model = {"route": " -> ".join(result.nodes), "dv_total_mps": result.dv_total_mps,
              "tof_days": result.tof_days, "method": "multiple shooting (librate stitch)"}
     return export.Trajectory(frame_spec, tuple(segs), "TDB", mans, object_name, "NONE", model)
+
+
+def leg_from_connection(system, leg, patches=4) -> dict:
+    """A :class:`cr3bp.connections.Leg` as the plain leg dict the graph and the stitcher use:
+    each of its ballistic segments cut into ``patches`` shooting segments (so every maneuver
+    falls on a patch point), the departure and arrival states where its arcs begin and end."""
+    from .integrate import propagate
+    times, states = [], []
+    end = None
+    for t0, s0, dur in leg.segments:
+        if dur <= 0:
+            continue
+        te = np.linspace(0.0, float(dur), patches + 1)
+        arc = propagate(system, np.asarray(s0, dtype=float), float(dur), rtol=RTOL, atol=ATOL, t_eval=te)
+        times += list(float(t0) + te[:-1])
+        states += [st.tolist() for st in arc.states[:-1]]
+        end = arc.states[-1]
+    mans = [{"t": float(m.t), "position": list(map(float, m.position)), "dv_vector": list(map(float, m.dv)),
+             "dv_mps": float(m.dv_mps), "where": "patch" if 0.0 < m.t < leg.tof else
+             ("departure" if m.t == 0.0 else "arrival")} for m in leg.maneuvers]
+    start = np.array(states[0])
+    finish = np.array(end)
+    for m in leg.maneuvers:          # the nodes' states: before a first burn, after a last one
+        if m.t == 0.0:
+            start[3:] -= np.asarray(m.dv)
+        elif m.t >= leg.tof:
+            finish[3:] += np.asarray(m.dv)
+    return {"format": 1, "method": "parking" if leg.kind in ("arrival", "departure") else "manifold",
+            "how": leg.method, "kind": leg.kind,
+            "dv_mps": float(leg.dv_mps), "tof_days": float(system.days(leg.tof)), "tof_tu": float(leg.tof),
+            "maneuvers": mans, "departure_state": start.tolist(), "arrival_state": finish.tolist(),
+            "patch_times": times, "patch_states": states, "final_state": end.tolist(),
+            "min_altitude_km": float(leg.min_altitude_km), "details": _plain_details(leg.details)}
+
+
+def _plain_details(d):
+    import json
+    return json.loads(json.dumps(d, default=lambda o: o.tolist() if hasattr(o, "tolist") else str(o)))

@@ -127,10 +127,15 @@ def run(args):
     front = pareto_routes(g, src.id, dst.id, constraints) if args.pareto else []
     name = {n.id: n.name for n in nodes}
     stitched = None
+    not_stitched = None
     if not args.no_stitch:
-        from cr3bp.stitch import stitch_route
+        from cr3bp.stitch import PhasingError, stitch_route
         common.progress(args, f"librate: stitching the best route ({routes[0].n_legs} leg(s)) by multiple shooting...")
-        stitched = stitch_route(system, routes[0], constraints)
+        try:
+            stitched = stitch_route(system, routes[0], constraints)
+        except PhasingError as e:
+            not_stitched = str(e)
+            common.progress(args, f"librate: the best route is not stitched: {e}")
     files = []
     if args.out and stitched is not None:
         files += _export(args, system, routes, front, stitched, name)
@@ -149,6 +154,7 @@ def run(args):
                "routes": [_route_dict(r, name) for r in routes],
                "pareto": [_route_dict(r, name) for r in front] if args.pareto else None,
                "stitched": stitched.to_dict() if stitched is not None else None,
+               "not_stitched": not_stitched,
                "graph": {"nodes": g.number_of_nodes(), "edges": g.number_of_edges(), "computed": result.computed,
                          "cached": result.cached, "pruned": len(result.pruned)},
                "files": files}
@@ -176,6 +182,8 @@ def run(args):
         for c, v in stitched.constraints.items():
             text += f"{c}: {v['value']:.6g} against {v['limit']:.6g}: {'holds' if v['holds'] else 'VIOLATED'}\n"
         text += "Δv vectors are in the rotating frame.\n"
+    if not_stitched:
+        text += f"\nnot stitched: {not_stitched}\n"
     for f in files:
         text += f"wrote {f}\n"
     import sys
