@@ -15,7 +15,7 @@ $(STAMP): pyproject.toml
 venv: $(STAMP)
 
 demo: $(STAMP)
-	BIN=$(BIN) bash examples/demo.sh out
+	$(BIN)/librate run examples/farlight.toml --out out
 
 # Headless Chromium renders the HTML report in a test (Debian package 'chromium').
 system-deps:

@@ -72,7 +72,7 @@ def _heyoka_row(em, s0, period, ours_seconds):
     var = hy.var_ode_sys(dyn, hy.var_args.vars, order=1)
     y0 = np.concatenate([np.array(s0, float), np.eye(6).ravel()])
     chosen = None
-    for tol in (1e-9, 1e-10, 1e-11, 1e-12, 1e-13, 1e-14, 1e-15):   # loosest first
+    for tol in (1e-6, 1e-7, 1e-8, 1e-9, 1e-10, 1e-11, 1e-12, 1e-13, 1e-14, 1e-15):  # loosest first
         tv = hy.taylor_adaptive(var, y0, tol=tol)
 
         def once(tv=tv):

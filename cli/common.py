@@ -131,14 +131,15 @@ def compile_notice(args, kernels=None):
 
 def _one_line_warnings():
     """Warnings (e.g. the leap-second table's end of validity) as one 'librate: note:' line
-    each, shown once per distinct message, instead of Python's two-line form."""
+    each, shown once per kind of warning, instead of Python's two-line form."""
     import warnings
     seen = set()
 
     def show(message, category, filename, lineno, file=None, line=None):
         text = str(message)
-        if text not in seen:
-            seen.add(text)
+        key = category if issubclass(category, UserWarning) and category is not UserWarning else text
+        if key not in seen:                    # one note per kind of warning
+            seen.add(key)
             print(f"librate: note: {text}", file=sys.stderr)
     warnings.showwarning = show
 

@@ -20,9 +20,13 @@ from __future__ import annotations
 import numpy as np
 from numba import njit
 
+from .fidelity import forces as _ephemeris_forces
+
 # Right-hand-side modes understood by :func:`rhs` (also used by the integrator).
 MODE_STATE = 0
 MODE_STM = 1
+MODE_EPHEMERIS = 2       # point-mass ephemeris model (cr3bp.fidelity.forces), 6 states
+MODE_EPHEMERIS_STM = 3   # the same with its variational equations, 42 states
 
 
 @njit(cache=True, fastmath=False)
@@ -125,11 +129,17 @@ def eom_stm(t, s, mu, out):
 
 @njit(cache=True)
 def rhs(mode, t, s, params, out):
-    """Dispatch on ``mode``: ``MODE_STATE`` (6) or ``MODE_STM`` (42). ``params[0]`` is mu."""
+    """Dispatch on ``mode``: ``MODE_STATE`` (6) or ``MODE_STM`` (42), ``params[0]`` is mu;
+    ``MODE_EPHEMERIS`` (6) or ``MODE_EPHEMERIS_STM`` (42), ``params`` packed as described in
+    :mod:`cr3bp.fidelity.forces`."""
     if mode == 1:
         eom_stm(t, s, params[0], out)
-    else:
+    elif mode == 0:
         eom(t, s, params[0], out)
+    elif mode == 2:
+        _ephemeris_forces.eom(t, s, params, out)
+    else:
+        _ephemeris_forces.eom_stm(t, s, params, out)
 
 
 @njit(cache=True)

@@ -453,6 +453,8 @@ def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None,
     for i, t in enumerate(tasks):
         known = catalog.get_leg(t["key"]) if catalog is not None else None
         if known is not None:
+            # the cache is keyed by what the nodes are, not by what a node list calls them
+            known["from_name"], known["to_name"] = t["from"]["name"], t["to"]["name"]
             legs[i] = known
         else:
             todo.append(i)

@@ -237,8 +237,8 @@ def run(plan: Plan, folder, *, catalog=None, workers=None, scheduler=None, progr
     from .catalog import Catalog
     started = time.time()
     folder = Path(folder)
-    folder.mkdir(parents=True, exist_ok=True)
-    out = Outputs(folder)
+    if folder.exists() and not folder.is_dir():
+        raise InputError(f"--out {folder} exists and is not a folder")
     catalog = catalog if catalog is not None else Catalog()
     system = plan.system
     created = creation_date(plan)
@@ -246,11 +246,11 @@ def run(plan: Plan, folder, *, catalog=None, workers=None, scheduler=None, progr
     plots = plan.data.get("plots", {})
 
     # ---- orbits -----------------------------------------------------------------------
-    from .orbits.request import solve_request
-    orbits = {}
-    for name, spec in plan.orbit_specs.items():
-        _say(progress, f"orbit '{name}': {spec.family} {spec.point} {spec.branch} {spec.key}={spec.value}")
-        orbits[name] = solve_request(system, spec, catalog=catalog, progress=None)
+    # solved before the folder exists: an impossible target is a scenario error (exit 2) and
+    # leaves nothing behind
+    orbits = solve_orbits(plan, catalog, progress)
+    folder.mkdir(parents=True, exist_ok=True)
+    out = Outputs(folder)
     write_text(out.path("orbits.json"), _json({"system": system.to_dict(), "caution": CAUTION,
                                                "orbits": {k: v.to_dict() for k, v in orbits.items()}}))
     write_text(out.path("orbits.csv"), _csv(ORBIT_COLUMNS, [orbit_row(k, v) for k, v in orbits.items()],
@@ -291,7 +291,8 @@ def run(plan: Plan, folder, *, catalog=None, workers=None, scheduler=None, progr
 
     # ---- figures ----------------------------------------------------------------------
     figures = _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progress)
-    figures.update(getattr(design_transfers, "figures", {}) if plan.data.get("transfers") else {})
+    if plan.data.get("transfers"):
+        figures.update(design_transfers.figures)
 
     # ---- report and manifest ----------------------------------------------------------
     from .mission_report import write_report
@@ -299,6 +300,24 @@ def run(plan: Plan, folder, *, catalog=None, workers=None, scheduler=None, progr
     seconds = time.time() - started
     manifest = _manifest(plan, out, seconds)
     return RunResult(folder, report, manifest, orbits, checks, routes, tuple(out.files), seconds)
+
+
+def solve_orbits(plan, catalog, progress=None) -> dict:
+    """Every orbit of the plan; a target outside its family becomes a ScenarioError naming the
+    file, line and key, with the range the family covers."""
+    from .errors import NoSolutionError
+    from .orbits.request import solve_request
+    lines = scenario_schema.line_index(plan.path.read_text(encoding="utf-8"))
+    orbits = {}
+    for name, spec in plan.orbit_specs.items():
+        _say(progress, f"orbit '{name}': {spec.family} {spec.point} {spec.branch} {spec.key}={spec.value}")
+        try:
+            orbits[name] = solve_request(plan.system, spec, catalog=catalog, progress=None)
+        except NoSolutionError as e:
+            key = f"orbits.{name}.{spec.key}"
+            raise ScenarioError([Problem(str(plan.path), lines.get(key, lines.get(f"orbits.{name}", 1)),
+                                         key, f"impossible target: {e}")]) from None
+    return orbits
 
 
 def _export(plan, ex, orbits, stitched, out, created):

@@ -266,7 +266,75 @@ def _newton(problem, z):
                            f"(largest residual {res[-1]:.3e} LU)", len(res), res, z)
 
 
-def stitch_route(system, route, constraints=None, optimise=True, max_iterations=60) -> StitchedRoute:
+PHASING_SAMPLES = 4000    # samples of one period when looking for the departure phase
+PHASING_PATCHES = 6       # shooting segments of a phasing coast
+
+
+def phasing_coast(system, arriving: dict, leaving: dict, period_tu: float, patches: int = PHASING_PATCHES) -> dict:
+    """A coast along an orbit from where ``arriving`` ends to where ``leaving`` starts.
+
+    Two legs may meet an orbit at different phases (e.g. a manifold arrival and a departure
+    toward the next orbit). The coast propagates from the arrival state for the time ``tau`` in
+    (0, 1.2 T] that brings it closest to the departure position (found on a dense sampling of
+    the coast and refined by bounded scalar minimisation, scipy's ``minimize_scalar``), and
+    declares impulses at both ends (zero as laid) so that the multiple shooting, which holds
+    junctions at the node's position, can close the remaining gap and then minimise their sum. This is the "stay" edge of the transfer graph, made concrete.
+    """
+    from scipy.optimize import minimize_scalar
+
+    from .integrate import propagate
+    a = np.asarray(arriving["arrival_state"], dtype=float)
+    d = np.asarray(leaving["departure_state"], dtype=float)
+    if not (period_tu and period_tu > 0):
+        raise PhasingError(f"legs meet '{arriving.get('to_name', '')}' at different phases and its period "
+                           "is unknown, so no phasing coast can be laid")
+    horizon = 1.2 * float(period_tu)
+    t = np.linspace(0.0, horizon, PHASING_SAMPLES)
+    arc = propagate(system, a, horizon, rtol=RTOL, atol=ATOL, t_eval=t)
+    n = arc.states.shape[0]
+    dist = np.linalg.norm(arc.states[:, :3] - d[:3], axis=1)
+    skip = max(1, int(0.01 * n))                  # not the trivial start
+    k = skip + int(np.argmin(dist[skip:]))
+    lo, hi = t[max(k - 1, 0)], t[min(k + 1, n - 1)]
+
+    def gap(tau):
+        return float(np.linalg.norm(propagate(system, a, tau, rtol=RTOL, atol=ATOL).final_state[:3] - d[:3]))
+    tau = float(minimize_scalar(gap, bounds=(lo, hi), method="bounded", options={"xatol": 1e-10}).x)
+    te = np.linspace(0.0, tau, patches + 1)
+    path = propagate(system, a, tau, rtol=RTOL, atol=ATOL, t_eval=te)
+    end = path.states[-1]
+    dv = d[3:] - end[3:]
+    name = arriving.get("to_name", arriving.get("to", ""))
+    return {"format": 1, "method": "stay", "how": "phasing coast along the orbit", "kind": "phasing",
+            "from": arriving.get("to"), "to": leaving.get("from"), "from_name": name,
+            "to_name": leaving.get("from_name", name),
+            "dv_mps": float(system.mps(np.linalg.norm(dv))), "tof_tu": tau, "tof_days": float(system.days(tau)),
+            # impulses allowed at both ends (zero at the start as laid): with the junction
+            # positions held at the node, a coast without them would be over-determined
+            "maneuvers": [{"t": 0.0, "position": a[:3].tolist(), "dv_vector": [0.0, 0.0, 0.0], "dv_mps": 0.0,
+                           "where": "departure"},
+                          {"t": tau, "position": end[:3].tolist(), "dv_vector": dv.tolist(),
+                           "dv_mps": float(system.mps(np.linalg.norm(dv))), "where": "arrival"}],
+            "departure_state": a.tolist(), "arrival_state": d.tolist(),
+            "patch_times": te[:-1].tolist(), "patch_states": path.states[:-1].tolist(),
+            "final_state": end.tolist(), "min_altitude_km": float("inf"), "details": {"gap_lu": gap(tau)}}
+
+
+def with_phasing(system, legs: list, periods: dict | None) -> list:
+    """``legs`` with a :func:`phasing_coast` wherever two consecutive legs meet an orbit node at
+    different phases (``periods``: node id -> period in TU)."""
+    out = [legs[0]]
+    for nxt in legs[1:]:
+        prev = out[-1]
+        gap = float(np.linalg.norm(np.asarray(prev["arrival_state"][:3]) - np.asarray(nxt["departure_state"][:3])))
+        if gap > JUNCTION_GAP and periods and prev.get("to") in periods:
+            out.append(phasing_coast(system, prev, nxt, periods[prev["to"]]))
+        out.append(nxt)
+    return out
+
+
+def stitch_route(system, route, constraints=None, optimise=True, max_iterations=60,
+                 periods: dict | None = None) -> StitchedRoute:
     """Stitch ``route`` (a :class:`cr3bp.network.Route` whose edges carry ``leg`` dicts, or a
     list of leg dicts) into one continuous trajectory with re-minimised total Δv.
 
@@ -277,6 +345,9 @@ def stitch_route(system, route, constraints=None, optimise=True, max_iterations=
     constraints : cr3bp.network.Constraints, optional   reported as held or not
     optimise : bool                step 2 (SLSQP) on or off
     max_iterations : int           SLSQP iterations
+    periods : dict, optional       orbit node id -> period (TU): where two legs meet an orbit at
+                                   different phases, a coast along it is laid between them
+                                   (:func:`phasing_coast`) instead of refusing the route
 
     Returns
     -------
@@ -293,6 +364,7 @@ def stitch_route(system, route, constraints=None, optimise=True, max_iterations=
     for leg in legs:
         if "patch_states" not in leg:
             raise InputError(f"leg {leg.get('from')} -> {leg.get('to')} carries no patch points to stitch")
+    legs = with_phasing(system, legs, periods)
     p = _Problem(system, legs)
     T0 = p.total_time(p.z0)
     z1, it1, res1 = _newton(p, p.z0.copy())

@@ -118,18 +118,22 @@ def test_bad_inputs_exit_2_and_write_nothing(tmp_path, capsys, extra, words):
     assert not list(tmp_path.iterdir())
 
 
-def test_orbit_spec_not_available_yet_is_one_clear_line(tmp_path, capsys):
-    try:
-        import cr3bp.orbits.request  # noqa: F401
-        pytest.skip("orbit requests are available: covered by the orbits tests")
-    except ImportError:
-        pass
-    rc = main(["export", "--system", "earth-moon", "--orbit", "halo L2 south period=6.5626d",
-               "--epoch", "2031-03-01T00:00:00Z", "--span", "1periods", "--step", "1h",
-               "--out", str(tmp_path / "h.oem")])
-    assert rc == 2
-    assert "not available yet" in capsys.readouterr().err
-    assert not list(tmp_path.iterdir())
+def test_export_orbit_request_end_to_end(tmp_path, capsys):
+    """An orbit named by its request, solved by the orbit library, written as OEM and read back
+    by the oem package; the exported span is one period of the solved orbit."""
+    from oem import OrbitEphemerisMessage
+    out = tmp_path / "h.oem"
+    rc = main(["export", "--system", "earth-moon", "--orbit", "lyapunov L1 jacobi=3.17", "--epoch",
+               "2031-03-01T00:00:00Z", "--span", "1periods", "--step", "1h", "--center", "moon",
+               "--time-system", "tdb", "--out", str(out), "--quiet"])
+    assert rc == 0, capsys.readouterr().err
+    from cr3bp import system
+    from cr3bp.orbits.request import solve_request
+    orbit = solve_request(system("earth-moon"), "lyapunov L1 jacobi=3.17")
+    states = [st for seg in OrbitEphemerisMessage.open(str(out)) for st in seg]
+    span_s = (states[-1].epoch - states[0].epoch).sec
+    assert span_s == pytest.approx(orbit.period_days * 86400.0, abs=3600.0)
+    assert "COMMENT orbit" in out.read_text() or "lyapunov" in out.read_text()
 
 
 def test_oem_rotating_refused_and_convert_of_foreign_file(tmp_path, capsys):

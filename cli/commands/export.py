@@ -183,11 +183,7 @@ def _run(args):
     sysm.require_dimensional("an export in km")
 
     if args.orbit is not None:
-        try:
-            from cr3bp.orbits.request import solve_request
-        except ImportError:
-            raise InputError("orbit specs (--orbit) are not available yet in this build; give --state "
-                             "(with --period) or --from FILE") from None
+        from cr3bp.orbits.request import solve_request
         common.progress(args, f"solving orbit request '{args.orbit}'...")
         orbit = solve_request(sysm, args.orbit, progress=lambda count, most, _orbit: common.progress(
             args, f"  family member {count} of at most {most}", verbose_only=True))

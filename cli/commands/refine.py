@@ -1,0 +1,147 @@
+"""librate refine: carry a CR3BP periodic orbit into the ephemeris model at an epoch."""
+
+from .. import common
+
+NAME = "refine"
+ORDER = 90
+KERNELS = (("cr3bp.integrate.dop853", "integrate"), ("cr3bp.fidelity.segments", "integrate_segments"))
+HELP = "carry a CR3BP orbit into an ephemeris model at an epoch and correct it to a continuous trajectory"
+EXAMPLE = ('librate refine --system earth-moon --orbit "halo L2 south resonance=9:2" '
+           "--epoch 2031-03-01T00:00:00Z --revs 12 --bodies sun,earth,moon --out nrho.oem")
+
+
+def add_arguments(p):
+    common.add_system_options(p)
+    g = p.add_argument_group("design and model")
+    g.add_argument("--orbit", metavar="SPEC", required=True,
+                   help='periodic-orbit request, e.g. "halo L2 south period=6.5626d"')
+    g.add_argument("--epoch", metavar="ISO", required=True,
+                   help="date of the first patch point, ISO 8601 (Z = UTC, or a trailing TDB/TT/TAI/UTC)")
+    g.add_argument("--revs", metavar="N", default="12", help="revolutions (default 12)")
+    g.add_argument("--bodies", metavar="LIST", default="sun,earth,moon",
+                   help="point masses, comma-separated: sun, earth, moon, mercury ... neptune (default "
+                        "sun,earth,moon; the central body is its own term)")
+    g.add_argument("--central", metavar="BODY", help="central body (default: the smaller primary; the "
+                                                     "Earth for Sun-Earth)")
+    g.add_argument("--srp", metavar="A/M,CR", help="cannonball radiation pressure: area-to-mass and "
+                                                   "reflectivity, e.g. 0.01m2/kg,1.3")
+    g.add_argument("--patches", metavar="N", default="7", help="patch points per revolution (default 7)")
+    g.add_argument("--fix-first", action="store_true", help="hold the first patch state")
+    g.add_argument("--fixed-times", action="store_true", help="hold the patch times (default: interior "
+                                                              "times free)")
+    g.add_argument("--max-iter", metavar="N", default="25", help="Newton iterations at most (default 25)")
+    p.add_argument("--format", choices=common.FORMATS, default="table", help="output format (default table)")
+    p.add_argument("--out", metavar="FILE", help="write the trajectory: .oem, .xml, .csv or .json")
+    p.add_argument("--plot", metavar="FILE.png", help="plot the CR3BP and ephemeris trajectories")
+    common.add_verbosity(p)
+
+
+def _int(name, text, lo, hi):
+    from cr3bp.errors import InputError
+    try:
+        v = int(text)
+    except (TypeError, ValueError):
+        raise InputError(f"{name} '{text}' is not an integer") from None
+    if not lo <= v <= hi:
+        raise InputError(f"{name} = {v} must be in {lo}..{hi}")
+    return v
+
+
+def parse_srp(text):
+    """``0.01m2/kg,1.3`` -> (0.01, 1.3)."""
+    from cr3bp.errors import InputError
+    if text is None:
+        return None
+    parts = [w.strip() for w in text.split(",")]
+    if len(parts) != 2:
+        raise InputError(f"--srp '{text}' must be AREA_TO_MASS,CR, e.g. 0.01m2/kg,1.3")
+    am = parts[0].lower().removesuffix("m2/kg").strip()
+    try:
+        return float(am), float(parts[1])
+    except ValueError:
+        raise InputError(f"--srp '{text}' must be AREA_TO_MASS,CR, e.g. 0.01m2/kg,1.3") from None
+
+
+def run(args):
+    import warnings
+
+    import numpy as np
+
+    from cr3bp import export, frames
+    from cr3bp.errors import InputError
+    from cr3bp.fidelity import model as fm
+    from cr3bp.fidelity.transition import transition
+    from cr3bp.orbits.request import solve_request
+
+    sysm = common.resolve_system(args)
+    sysm.require_dimensional("an ephemeris model")
+    revs = _int("--revs", args.revs, 1, 200)
+    per_rev = _int("--patches", args.patches, 2, 64)
+    max_iter = _int("--max-iter", args.max_iter, 1, 200)
+    srp = parse_srp(args.srp)
+    bodies = fm.parse_bodies(args.bodies)
+    fmt_out = export.format_of(args.out) if args.out else None
+    if args.plot and not args.plot.lower().endswith(".png"):
+        raise InputError(f"--plot '{args.plot}' must name a .png file")
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            frames.frame(sysm, args.epoch, anchor="ephemeris", center="secondary")   # epoch check first
+        except InputError as e:
+            if "no ephemeris" in str(e) or "no named primaries" in str(e):
+                raise InputError(f"system '{sysm.name}' has no ephemeris for its primaries, so it has "
+                                 "no ephemeris model; refine supports systems whose primaries are in "
+                                 "cr3bp.ephemeris (e.g. earth-moon, sun-earth, sun-mars)") from None
+            raise
+    for w in caught:
+        common.progress(args, f"note: {w.message}")
+    common.progress(args, f"solving orbit request '{args.orbit}'...")
+    orbit = solve_request(sysm, args.orbit)
+    common.progress(args, f"orbit: period {orbit.period_days:.6f} d; transition over {revs} revolutions "
+                          f"with {per_rev} patch points each")
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        tr = transition(orbit, args.epoch, revs, bodies, central=args.central, srp=srp, per_rev=per_rev,
+                        fix_first=args.fix_first, free_times=not args.fixed_times, max_iter=max_iter,
+                        progress=lambda i, err: common.progress(
+                            args, f"  iteration {i}: largest mismatch {err:.3e} (nondimensional)"))
+    central = tr.model.central
+    headers = ["rev", "max_dr_km", "max_dv_mps", "max_path_offset_km", f"min_r_{central}_km",
+               "min_r_cr3bp_km"]
+    rows = [[r["rev"], r["max_position_diff_km"], r["max_velocity_diff_mps"], r["max_path_offset_km"],
+             r["min_radius_km"], r["min_radius_cr3bp_km"]] for r in tr.per_rev]
+    title = (f"{sysm.name}: '{args.orbit}' in the ephemeris model ({central} + {', '.join(tr.model.bodies)}"
+             f"{', SRP' if srp else ''}) from {args.epoch}, {revs} revolutions; converged in "
+             f"{tr.iterations} iterations, continuity {tr.continuity_km * 1000:.3g} m / "
+             f"{tr.continuity_mps:.3g} m/s, maneuvers {tr.dv_total_mps:.3g} m/s")
+    table = common.format_table(headers, rows, title=title)
+    if args.out:
+        spec = frames.frame(sysm, tr.epoch_tdb_s, anchor="ephemeris", axes="j2000-equator", center="secondary")
+        from cr3bp.plotting.fidelity import rotating_states
+        rot = rotating_states(tr, tr.sample_km, tr.sample_t_tu)
+        model = {"trajectory": "integrated in the ephemeris point-mass model below, NOT the CR3BP; "
+                               "the CR3BP lines above describe only the frame that carries the states",
+                 "orbit request": args.orbit, "force model": f"point masses {central} (central), "
+                 f"{', '.join(tr.model.bodies)}" + (f"; cannonball SRP A/m {srp[0]} m2/kg, Cr {srp[1]}" if srp else ""),
+                 "ephemeris": "cr3bp.ephemeris (Meeus 1998 lunar series, Standish mean elements)",
+                 "iterations": str(tr.iterations), "continuity": f"{tr.continuity_km * 1000:.3g} m, "
+                 f"{tr.continuity_mps:.3g} m/s"}
+        traj = export.Trajectory(spec, (export.Segment(np.asarray(tr.sample_t_tu), rot),), "TDB", (),
+                                 "LIBRATE REFINED", "NONE", model)
+        export.write(args.out, traj, fmt_out)
+        common.progress(args, f"wrote {args.out}")
+    if args.plot:
+        from cr3bp.plotting import save
+        from cr3bp.plotting.fidelity import transition_figure
+        fig = transition_figure(tr, title=f"{args.orbit} from {args.epoch}, {revs} revolutions")
+        save(fig, args.plot, f"CR3BP design (blue) and ephemeris trajectory (red); {central}-centred")
+        common.progress(args, f"wrote {args.plot}")
+    payload = tr.to_dict()
+    payload["orbit_request"] = args.orbit
+    out_save = args.out
+    args.out = None          # the table goes to the screen; --out is the trajectory file
+    try:
+        common.emit(args, payload=payload, headers=headers, rows=rows, table=table)
+    finally:
+        args.out = out_save
+    return 0

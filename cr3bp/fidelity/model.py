@@ -1,0 +1,290 @@
+"""The ephemeris force model at an epoch: bodies fitted by Chebyshev series, packed for the
+compiled integrator, and propagation in it (state and state + STM).
+
+Equations in :mod:`cr3bp.fidelity.forces` (Montenbruck & Gill, *Satellite Orbits*, 2000,
+eq. 3.37, from memory). Units: the CR3BP system's length and time units (LU, TU), positions
+relative to the central body on J2000 equator axes, model time ``t`` in TU from the epoch.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from .. import ephemeris
+from ..errors import ConvergenceError, InputError
+from ..integrate import dop853
+from . import chebyshev
+from .forces import HEADER
+
+#: Solar flux pressure at 1 au, N/m^2 (common practice).
+SOLAR_PRESSURE_1AU = 4.56e-6
+#: Astronomical unit, km (IAU 2012 Resolution B2).
+AU_KM = 149597870.7
+#: Series layout: segment length (days) and degree. Checked against the tables in
+#: tests/test_fidelity_model.py (below 1 m for the Moon, far below for the others).
+SEGMENT_DAYS = 1.0
+DEGREE = 16
+
+BODY_NAMES = ("sun", "earth", "moon", "mercury", "venus", "mars", "jupiter", "saturn",
+              "uranus", "neptune")
+_GM_FALLBACK = {  # km^3/s^2, DE430 values (Folkner et al., IPN PR 42-196, 2014, table 8, from memory)
+    "mercury": 22031.78, "venus": 324858.592, "uranus": 5793939.3, "neptune": 6836529.0,
+}
+_MODE = 2
+_MODE_STM = 3
+
+
+def gm_km3_s2(name: str) -> float:
+    """GM of a body: the project's table (:mod:`cr3bp.systems`), else DE430 (from memory)."""
+    from .. import systems
+    try:
+        return float(systems.body(name).gm_km3_s2)
+    except Exception:
+        if name in _GM_FALLBACK:
+            return _GM_FALLBACK[name]
+        raise InputError(f"no GM known for '{name}'") from None
+
+
+def parse_bodies(text) -> tuple:
+    """``"sun,earth,moon"`` -> ("sun", "earth", "moon"), checked."""
+    names = [w.strip().lower() for w in (text.split(",") if isinstance(text, str) else text)]
+    names = [w for w in names if w]
+    if not names:
+        raise InputError("--bodies is empty; give e.g. sun,earth,moon")
+    for w in names:
+        if w not in BODY_NAMES:
+            raise InputError(f"unknown body '{w}'; allowed: {', '.join(BODY_NAMES)}")
+    if len(set(names)) != len(names):
+        raise InputError(f"--bodies '{text}' names a body twice")
+    return tuple(names)
+
+
+@dataclass(frozen=True)
+class Model:
+    """A packed ephemeris model.
+
+    Attributes
+    ----------
+    system : System           gives LU (km) and TU (s)
+    epoch_tdb_s : float       model time 0, TDB seconds since J2000
+    central : str             central body
+    bodies : tuple            perturbing bodies (point masses)
+    fitted : tuple            bodies in the series (perturbers, plus the Sun for SRP)
+    srp : (area_to_mass_m2_kg, cr) or None
+    t0, t1 : float            span of the series, TU from the epoch
+    params : ndarray          parameter vector for the compiled kernels
+    """
+
+    system: object
+    epoch_tdb_s: float
+    central: str
+    bodies: tuple
+    fitted: tuple
+    srp: tuple | None
+    t0: float
+    t1: float
+    params: np.ndarray
+
+    def to_dict(self) -> dict:
+        return {"epoch_tdb_s": self.epoch_tdb_s, "central": self.central, "bodies": list(self.bodies),
+                "srp": None if self.srp is None else {"area_to_mass_m2_kg": self.srp[0], "cr": self.srp[1]},
+                "span_tu": [self.t0, self.t1]}
+
+    def body_position_km(self, name: str, t_tu) -> np.ndarray:
+        """Series position (km) of a fitted body at model times (for checks)."""
+        j = self.fitted.index(name)
+        t = np.atleast_1d(np.asarray(t_tu, dtype=float))
+        from .forces import body_position
+        out = np.empty((t.size, 3))
+        for i in range(t.size):
+            body_position(self.params, j, t[i], out[i])
+        return out * self.system.length_km
+
+    def acceleration(self, t, state) -> np.ndarray:
+        """Time derivative of one nondimensional 6-state (numpy convenience)."""
+        from .forces import eom
+        out = np.empty(6)
+        eom(float(t), np.ascontiguousarray(state, dtype=float), self.params, out)
+        return out
+
+    def rhs_stm(self, t, y) -> np.ndarray:
+        from .forces import eom_stm
+        out = np.empty(42)
+        eom_stm(float(t), np.ascontiguousarray(y, dtype=float), self.params, out)
+        return out
+
+
+def _epochs(epoch_tdb_s, seconds):
+    from ..frames import _epoch
+    return _epoch(epoch_tdb_s + np.asarray(seconds, dtype=float))
+
+
+def build(system, epoch_tdb_s: float, t0_tu: float, t1_tu: float, central: str, bodies,
+          srp=None, *, segment_days: float = SEGMENT_DAYS, degree: int = DEGREE,
+          sample=None) -> Model:
+    """Fit the bodies over ``[t0_tu, t1_tu]`` (TU from the epoch) and pack the model.
+
+    Chebyshev interpolation on equal segments (Press et al., *Numerical Recipes*, 3rd ed., 2007,
+    section 5.8) of :func:`cr3bp.ephemeris.position` relative to the central body.
+
+    Parameters
+    ----------
+    system : System (dimensional)
+    central : str             body at the origin
+    bodies : sequence of str  perturbing point masses (the central body is dropped if named)
+    srp : (area_to_mass_m2_kg, cr), optional
+    sample : callable, optional
+        ``sample(times_tu) -> (n_fitted, len(times), 3)`` positions in LU in place of the
+        ephemeris (e.g. the idealised circular motion, for the consistency check).
+
+    Raises
+    ------
+    InputError  unknown bodies, bad SRP figures, a span outside the ephemeris validity.
+    """
+    system.require_dimensional("an ephemeris model")
+    central = central.lower()
+    if central not in BODY_NAMES:
+        raise InputError(f"unknown central body '{central}'; allowed: {', '.join(BODY_NAMES)}")
+    bodies = tuple(b for b in parse_bodies(bodies) if b != central)
+    if srp is not None:
+        am, cr = (float(v) for v in srp)
+        if not (math.isfinite(am) and am >= 0.0 and math.isfinite(cr) and 0.0 <= cr <= 2.0):
+            raise InputError(f"radiation pressure {srp!r}: area-to-mass must be >= 0 m2/kg and Cr in [0, 2]")
+        srp = (am, cr)
+        if central == "sun":
+            raise InputError("radiation pressure about the Sun is not modelled (the Sun-line is the origin)")
+    fitted = bodies + (("sun",) if srp is not None and "sun" not in bodies else ())
+    lu, tu = system.length_km, system.time_s
+    span = float(t1_tu) - float(t0_tu)
+    if not (math.isfinite(span) and span > 0):
+        raise InputError(f"model span [{t0_tu}, {t1_tu}] TU must be increasing")
+    nseg = max(1, int(math.ceil(span * tu / 86400.0 / segment_days)))
+    nb = len(fitted)
+    if nb and sample is None:
+        def sample(times_tu):
+            ep = _epochs(epoch_tdb_s, np.asarray(times_tu) * tu)
+            return np.stack([np.asarray(ephemeris.position(b, ep, central, "j2000-equator")) / lu
+                             for b in fitted])
+    if nb:
+        f = chebyshev.fit(sample, float(t0_tu), float(t1_tu), nseg, degree, nb)
+        coef = f.coef.ravel()
+        h = f.h
+    else:
+        coef = np.zeros(0)
+        h = span
+    p = np.zeros(HEADER + nb + coef.size)
+    p[1] = gm_km3_s2(central) * tu * tu / lu ** 3
+    p[2] = nb
+    p[3] = nseg
+    p[4] = degree + 1
+    p[5] = float(t0_tu)
+    p[6] = h
+    p[8] = fitted.index("sun") if "sun" in fitted else -1
+    for j, b in enumerate(fitted):
+        p[HEADER + j] = gm_km3_s2(b) * tu * tu / lu ** 3 if b in bodies else 0.0
+    if srp is not None:
+        # K = P Cr A/m au^2: N/m^2 * m^2/kg = m/s^2; /1000 -> km/s^2; * au^2 -> km^3/s^2
+        k = SOLAR_PRESSURE_1AU * srp[1] * srp[0] / 1000.0 * AU_KM ** 2
+        p[7] = k * tu * tu / lu ** 3
+    p[HEADER + nb:] = coef
+    return Model(system, float(epoch_tdb_s), central, bodies, fitted, srp, float(t0_tu),
+                 float(t1_tu), np.ascontiguousarray(p))
+
+
+def _check_span(model, t0, t1):
+    lo, hi = min(t0, t1), max(t0, t1)
+    eps = 1e-9 * max(1.0, abs(model.t1))
+    if lo < model.t0 - eps or hi > model.t1 + eps:
+        raise InputError(f"times [{lo:.6g}, {hi:.6g}] TU lie outside the model span "
+                         f"[{model.t0:.6g}, {model.t1:.6g}] TU")
+
+
+@dataclass(frozen=True)
+class EphemerisArc:
+    """One propagation in the ephemeris model (nondimensional, inertial, about the central body).
+
+    ``t``/``states``: dense output at the requested ``t_eval`` (empty without it);
+    ``events``: (t, state, event index) of each recorded event; ``status`` as the CR3BP
+    propagator's ("time", "event", "impact", "escape").
+    """
+
+    t_end: float
+    state_end: np.ndarray
+    stm: np.ndarray | None
+    t: np.ndarray
+    states: np.ndarray
+    events: tuple
+    status: str
+
+    def to_dict(self) -> dict:
+        return {"t_end": self.t_end, "state_end": self.state_end.tolist(), "status": self.status,
+                "stm": None if self.stm is None else self.stm.tolist(),
+                "events": [{"t": t, "state": st.tolist(), "index": k} for t, st, k in self.events]}
+
+
+def propagate(model: Model, state, t0: float, t1: float, *, stm=False, t_eval=None, events=(),
+              rtol=1e-12, atol=1e-12, max_steps=dop853.DEFAULT_MAX_STEPS) -> EphemerisArc:
+    """Propagate one nondimensional inertial state from ``t0`` to ``t1`` (TU from the epoch).
+
+    Dormand-Prince 8(5,3) (Hairer, Norsett & Wanner, *Solving ODE I*, 1993, section II.5), the
+    project's compiled integrator with its events: :func:`cr3bp.integrate.events.plane` on any
+    state component, and ``impact(0, radius)`` / ``escape(radius, 0)`` about the central body
+    (the model sits it at the origin).
+    """
+    from ..integrate.events import table
+    _check_span(model, t0, t1)
+    s0 = np.asarray(state, dtype=float).ravel()
+    if s0.shape != (6,) or not np.all(np.isfinite(s0)):
+        raise InputError("an ephemeris state must be 6 finite numbers")
+    y0 = np.concatenate([s0, np.eye(6).ravel()]) if stm else s0.copy()
+    te = np.empty(0) if t_eval is None else np.ascontiguousarray(t_eval, dtype=float)
+    tab = np.ascontiguousarray(table(events), dtype=np.float64)
+    (code, t_end, y_end, _ts, _ys, ev_t, ev_y, ev_k, _seen, eval_y, n_eval, _nfev, nsteps,
+     _nrej) = dop853.integrate(_MODE_STM if stm else _MODE, model.params, y0, float(t0), float(t1),
+                               float(rtol), float(atol), -1.0, math.inf, int(max_steps), tab, -1,
+                               te, False)
+    if int(code) < 0:
+        raise ConvergenceError(f"ephemeris propagation failed ({dop853.STATUS_NAMES[int(code)]}) at "
+                               f"t = {t_end:.9g} TU after {nsteps} steps", iterations=int(nsteps),
+                               last=np.array(y_end[:6]))
+    phi = y_end[6:].reshape(6, 6).copy() if stm else None
+    hits = tuple((float(a), np.array(b), int(k)) for a, b, k in zip(ev_t, ev_y, ev_k))
+    return EphemerisArc(float(t_end), y_end[:6].copy(), phi, te[:n_eval].copy(),
+                        np.array(eval_y[:n_eval, :6]), hits, dop853.STATUS_NAMES[int(code)])
+
+
+def propagate_many(model: Model, states, t0s, t1s, *, stm=False, rtol=1e-12, atol=1e-12,
+                   max_steps=dop853.DEFAULT_MAX_STEPS):
+    """Propagate segments (row k from ``t0s[k]`` to ``t1s[k]``) in parallel inside compiled
+    code (:func:`cr3bp.fidelity.segments.integrate_segments`).
+
+    Returns
+    -------
+    ends : ndarray (M, 6); stms : ndarray (M, 6, 6) or None
+    """
+    from ..integrate.events import table
+    from .segments import integrate_segments
+    s = np.ascontiguousarray(np.atleast_2d(states), dtype=float)
+    m = s.shape[0]
+    t0s = np.ascontiguousarray(t0s, dtype=float).ravel()
+    t1s = np.ascontiguousarray(t1s, dtype=float).ravel()
+    if t0s.size != m or t1s.size != m:
+        raise InputError("one start and one end time per segment")
+    _check_span(model, float(min(t0s.min(), t1s.min())), float(max(t0s.max(), t1s.max())))
+    y0 = np.hstack([s, np.tile(np.eye(6).ravel(), (m, 1))]) if stm else s.copy()
+    y0 = np.ascontiguousarray(y0)
+    out_y = np.empty_like(y0)
+    out_status = np.zeros(m, dtype=np.int64)
+    out_t = np.empty(m)
+    integrate_segments(_MODE_STM if stm else _MODE, model.params, y0, t0s, t1s, float(rtol),
+                       float(atol), math.inf, int(max_steps), table(()), out_y, out_status, out_t)
+    bad = out_status < 0
+    if bad.any():
+        k = int(np.argmax(bad))
+        raise ConvergenceError(f"segment {k} of {m}: ephemeris propagation failed "
+                               f"({dop853.STATUS_NAMES[int(out_status[k])]}) at t = {out_t[k]:.9g} TU",
+                               iterations=0, last=out_y[k, :6].copy())
+    return out_y[:, :6].copy(), (out_y[:, 6:].reshape(m, 6, 6).copy() if stm else None)

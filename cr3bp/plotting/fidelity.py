@@ -1,0 +1,53 @@
+"""Plots of a transition to the ephemeris model: the CR3BP design and the ephemeris trajectory
+together, in the rotating frame (instantaneous ephemeris anchoring, nondimensional) and on
+inertial J2000 equator axes about the central body (km)."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .base import new_figure
+
+
+def rotating_states(transition, states_km, t_tu):
+    """km, km/s about the central body -> nondimensional rotating states (ephemeris anchoring)."""
+    from .. import ephemeris, frames
+    mdl = transition.model
+    s = mdl.system
+    spec = frames.frame(s, transition.epoch_tdb_s, anchor="ephemeris", axes="j2000-equator",
+                        center="secondary")
+    tdb = transition.epoch_tdb_s + np.asarray(t_tu) * s.time_s
+    sec = frames._BODY.get(s.secondary.name, s.secondary.name)
+    km = np.asarray(states_km, dtype=float)
+    if sec != mdl.central:
+        km = km - np.asarray(ephemeris.state(sec, frames._epoch(tdb), mdl.central, "j2000-equator"))
+    return frames.from_frame(spec, tdb, km)[1]
+
+
+def transition_figure(transition, title=""):
+    """Figure with two panels: rotating x-z (LU) and inertial x-y (km). Returns the Figure."""
+    fig, axes = new_figure(ncols=2, size=(12.0, 5.8))
+    ax1, ax2 = np.ravel(axes)
+    s = transition.model.system
+    ref_rot = rotating_states(transition, transition.reference_km, transition.sample_t_tu)
+    eph_rot = rotating_states(transition, transition.sample_km, transition.sample_t_tu)
+    ax1.plot(ref_rot[:, 0], ref_rot[:, 2], color="tab:blue", lw=1.0, ls="--", zorder=3, label="CR3BP design")
+    ax1.plot(eph_rot[:, 0], eph_rot[:, 2], color="tab:red", lw=0.6, label="ephemeris model")
+    ax1.plot([1.0 - s.mu], [0.0], "o", color="0.4", ms=4, label=s.names[1])
+    ax1.set_xlabel("x (LU, rotating, pulsating)")
+    ax1.set_ylabel("z (LU)")
+    ax1.set_title("rotating frame (ephemeris anchoring)")
+    ax1.set_aspect("equal", adjustable="datalim")
+    ax1.legend(fontsize=8)
+    ref, eph = transition.reference_km, transition.sample_km
+    ax2.plot(ref[:, 0], ref[:, 1], color="tab:blue", lw=1.0, label="CR3BP design")
+    ax2.plot(eph[:, 0], eph[:, 1], color="tab:red", lw=0.6, label="ephemeris model")
+    ax2.plot([0.0], [0.0], "o", color="0.4", ms=4, label=transition.model.central.title())
+    ax2.set_xlabel(f"x (km, J2000 equator, about the {transition.model.central.title()})")
+    ax2.set_ylabel("y (km)")
+    ax2.set_title("inertial axes")
+    ax2.set_aspect("equal", adjustable="datalim")
+    ax2.legend(fontsize=8)
+    if title:
+        fig.suptitle(title)
+    return fig
