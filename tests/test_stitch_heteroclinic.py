@@ -114,7 +114,10 @@ def test_parking_legs_through_periapsis_and_their_stitching():
     assert np.ptp(C[res.times_tu > 0]) < 1e-9
 
 
-def test_route_through_an_orbit_at_two_phases_is_ranked_but_not_stitched(capsys, tmp_path):
+def test_route_through_an_orbit_at_two_phases_is_stitched_with_a_coast_along_it(capsys, tmp_path):
+    """llo -> east arrives on the L2 orbit at one phase, east -> west (heteroclinic) leaves it
+    at another: the route command lays a coast along the orbit between them (the stay edge)
+    and stitches the whole chain, Δv not above the legs' and the coast's."""
     from librate_cli.main import main
     f = tmp_path / "n.toml"
     f.write_text(PARKED)
@@ -125,4 +128,8 @@ def test_route_through_an_orbit_at_two_phases_is_ranked_but_not_stitched(capsys,
     import json
     body = json.loads(out)
     assert body["routes"][0]["node_names"] == ["llo", "east", "west"]
-    assert body["stitched"] is None and "phasing along an orbit" in body["not_stitched"]
+    st = body["stitched"]
+    assert body["not_stitched"] is None and st["nodes"] == ["llo", "east", "east", "west"]
+    assert st["dv_total_mps"] <= st["legs_dv_total_mps"] + ONE_MM_PER_S
+    assert st["continuity_lu"] < 1e-9
+    assert st["tof_days"] > body["routes"][0]["tof_days"]          # the coast adds time

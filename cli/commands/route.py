@@ -131,8 +131,10 @@ def run(args):
     if not args.no_stitch:
         from cr3bp.stitch import PhasingError, stitch_route
         common.progress(args, f"librate: stitching the best route ({routes[0].n_legs} leg(s)) by multiple shooting...")
+        # where two legs meet an orbit at different phases, a coast along it joins them
+        periods = {n: d["period_days"] / system.time_days for n, d in g.nodes(data=True) if d.get("period_days")}
         try:
-            stitched = stitch_route(system, routes[0], constraints)
+            stitched = stitch_route(system, routes[0], constraints, periods=periods)
         except PhasingError as e:
             not_stitched = str(e)
             common.progress(args, f"librate: the best route is not stitched: {e}")
