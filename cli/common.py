@@ -201,20 +201,10 @@ def csv_text(headers, rows, comments=()) -> str:
 
 def json_text(payload: dict) -> str:
     from cr3bp.cautions import CAUTION
+    from cr3bp.plain import json_default
     body = dict(payload)
     body.setdefault("caution", CAUTION)
-    return json.dumps(body, indent=2, default=_json_default) + "\n"
-
-
-def _json_default(o):
-    import numpy as np
-    if isinstance(o, np.ndarray):
-        return o.tolist()
-    if isinstance(o, np.generic):
-        return o.item()
-    if hasattr(o, "to_dict"):
-        return o.to_dict()
-    raise TypeError(f"cannot write {type(o).__name__} as JSON")
+    return json.dumps(body, indent=2, default=json_default) + "\n"
 
 
 def emit(args, *, payload: dict, headers=None, rows=None, table: str | None = None, comments=()):

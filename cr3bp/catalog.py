@@ -21,6 +21,7 @@ import time
 from pathlib import Path
 
 from .errors import InputError
+from .plain import json_default
 
 SCHEMA_VERSION = 1
 BUSY_TIMEOUT_S = 30.0
@@ -66,21 +67,12 @@ def default_path() -> Path:
 
 def settings_hash(settings: dict) -> str:
     """A stable hash of JSON-serialisable settings (key order does not matter)."""
-    text = json.dumps(settings, sort_keys=True, separators=(",", ":"), default=_json_default)
+    text = json.dumps(settings, sort_keys=True, separators=(",", ":"), default=json_default)
     return hashlib.sha256(text.encode()).hexdigest()[:16]
 
 
-def _json_default(o):
-    import numpy as np
-    if isinstance(o, np.ndarray):
-        return o.tolist()
-    if isinstance(o, np.generic):
-        return o.item()
-    raise TypeError(f"catalogue values must be JSON-serialisable, not {type(o).__name__}")
-
-
 def _dumps(obj) -> str:
-    return json.dumps(obj, sort_keys=True, default=_json_default, allow_nan=True)
+    return json.dumps(obj, sort_keys=True, default=json_default, allow_nan=True)
 
 
 def _system_key(system) -> tuple[str, float]:

@@ -146,15 +146,8 @@ def _sha256(path: Path) -> str:
 
 
 def _json(obj) -> str:
-    def default(o):
-        if isinstance(o, np.ndarray):
-            return o.tolist()
-        if isinstance(o, np.generic):
-            return o.item()
-        if hasattr(o, "to_dict"):
-            return o.to_dict()
-        raise TypeError(type(o).__name__)
-    return json.dumps(obj, indent=2, sort_keys=True, default=default) + "\n"
+    from .plain import json_default
+    return json.dumps(obj, indent=2, sort_keys=True, default=json_default) + "\n"
 
 
 def _csv(headers, rows, comments=()) -> str:
