@@ -120,7 +120,7 @@ def design_transfers(plan, orbits, out, *, catalog=None, workers=None, scheduler
             ["t_days", "node", "x_km", "y_km", "z_km", "dv_x_mps", "dv_y_mps", "dv_z_mps", "dv_mps"],
             [[m["t_days"], label.get(m["node"], m["node"]), *m["position_km"], *m["dv_vector_mps"], m["dv_mps"]]
              for m in st.maneuvers], [f"maneuvers of transfer {name}; Δv vectors in the rotating frame"]))
-        _figures(plan, name, ranked, front, st, out)
+        _figures(plan, t, orbits, ranked, front, st, out)
     return routes, stitched
 
 
@@ -129,14 +129,15 @@ def plan_caution():
     return CAUTION
 
 
-def _figures(plan, name, ranked, front, st, out):
+def _figures(plan, transfer, orbits, ranked, front, st, out):
     from .mission import _save_all
     from .plotting.routes import plot_corridor, plot_pareto
+    name = transfer["name"]
     formats = plan.data.get("plots", {}).get("formats", ["png"])
     if not plan.data.get("plots", {}).get("corridors", True):
         return
     legs = [d["leg"] for d in ranked[0].legs]
-    ax = plot_corridor(st, legs)
+    ax = plot_corridor(st, legs, tubes=corridor_tubes(route_orbits(transfer, orbits)))
     design_transfers.figures[f"corridor-{name}"] = _save_all(
         ax.figure, out, f"corridor-{name}", formats,
         f"{plan.name}: transfer '{name}', the best route stitched by multiple shooting over the "
@@ -145,6 +146,29 @@ def _figures(plan, name, ranked, front, st, out):
     design_transfers.figures[f"pareto-{name}"] = _save_all(
         ax.figure, out, f"pareto-{name}", formats,
         f"{plan.name}: transfer '{name}', total Δv against time of flight of the ranked routes and the Pareto set.")
+
+
+TUBE_POINTS = 16          # trajectories per half-manifold in the corridor figure
+TUBE_DAYS = "8d"          # how far each is grown
+
+
+def route_orbits(transfer: dict, orbits: dict) -> list:
+    """The solved orbits a scenario transfer starts from, passes through or ends on."""
+    return [orbits[n] for n in (transfer["from"], *transfer.get("via", []), transfer["to"]) if n in orbits]
+
+
+def corridor_tubes(orbits, n_points=TUBE_POINTS, until=f"time:{TUBE_DAYS}"):
+    """Stable and unstable half-manifolds (both branches) of each orbit, as trajectory arrays
+    for :func:`cr3bp.plotting.routes.plot_corridor` (Koon et al. 2011, ch. 4: the tubes are
+    the corridors the route rides)."""
+    from .manifolds import grow_tube
+    tubes = []
+    for orbit in orbits:
+        for stability in ("stable", "unstable"):
+            for branch in ("interior", "exterior"):
+                tube = grow_tube(orbit, stability, branch, n_points, until=until)
+                tubes.append([states for _, states in tube.trajectories(200)])
+    return tubes
 
 
 def transfer_trajectory(plan, st, spec, ts, step_s, ex, model):
