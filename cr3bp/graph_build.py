@@ -126,6 +126,8 @@ def compute_leg(task: dict) -> dict:
             leg = _manifold_leg(system, task)
         elif task["method"] == "parking":
             leg = _parking_leg(system, task)
+        elif task["method"] in ("capture", "escape"):
+            leg = _boundary_leg(system, task)
         else:
             leg = targeted_leg(system, task["from"]["state_used"], task["to"]["state_used"], st["tof_tu"],
                                st["patches"])
@@ -282,6 +284,72 @@ def _parking_leg(system, task) -> dict:
     return leg_from_connection(system, best, st["patches"])
 
 
+def _boundary_leg(system, task) -> dict:
+    """The fastest ballistic way from an orbit node to a capture or escape condition along the
+    orbit's unstable manifold (interior branch, then exterior): for a capture, the first
+    periapsis at the capture altitude about the body (:func:`cr3bp.connections.parking_legs`,
+    its insertion impulse left out: a capture node asks for the arrival condition, not an
+    orbit); for an escape, the first crossing of the escape distance from the body. Zero Δv."""
+    from .connections import parking_legs
+    from .manifolds import Stop, grow_tube
+    from .sections import primary_index
+    from .stitch import RTOL, ATOL
+    st = task["settings"]
+    orbit = _orbit_from_plain(system, task["from"]["orbit_data"])
+    reasons = []
+    if task["method"] == "capture":
+        from .stitch import leg_from_connection
+        found = []
+        for branch in ("interior", "exterior"):
+            try:
+                found += parking_legs(orbit, st["body"], st["distance_km"], stability="unstable",
+                                      branch=branch, n_points=st["tube_points"])
+            except LibrateError as e:
+                reasons.append(str(e))
+            if found:
+                break
+        if not found:
+            from .errors import NoSolutionError
+            raise NoSolutionError("; ".join(reasons))
+        best = min(found, key=lambda lg: lg.tof)
+        leg = leg_from_connection(system, best, st["patches"])
+        # the arrival condition itself: the state at periapsis before any insertion impulse
+        leg["arrival_state"] = leg["final_state"]
+        leg["maneuvers"] = [m for m in leg["maneuvers"] if m["where"] != "arrival"]
+        leg["dv_mps"] = float(sum(m["dv_mps"] for m in leg["maneuvers"]))
+        leg["method"], leg["kind"] = "capture", "capture"
+        return leg
+    p = primary_index(system, st["body"])
+    radius = st["distance_km"] / system.length_km
+    from .errors import NoSolutionError
+    for branch in ("interior", "exterior"):
+        tube = grow_tube(orbit, "unstable", branch, st["tube_points"],
+                         until=Stop(t_max=4.0 * math.pi, escape_radius=radius, escape_center=p))
+        hit = [i for i, s_ in enumerate(tube.status) if s_ == "escape"]
+        if hit:
+            i = min(hit, key=lambda k: tube.tof[k])
+            tof = float(tube.tof[i])
+            te = np.linspace(0.0, tof, st["patches"] + 1)
+            from .integrate import propagate
+            arc = propagate(system, tube.start_states[i], tof, rtol=RTOL, atol=ATOL, t_eval=te)
+            r = np.linalg.norm(arc.states[:, :3] - np.array([system.positions[p], 0, 0]), axis=1)
+            return {"format": 1, "method": "escape", "how": f"unstable {branch} manifold to escape",
+                    "kind": "escape", "dv_mps": 0.0, "tof_days": float(system.days(tof)), "tof_tu": tof,
+                    "maneuvers": [], "departure_state": tube.start_states[i].tolist(),
+                    "arrival_state": arc.states[-1].tolist(), "patch_times": te[:-1].tolist(),
+                    "patch_states": arc.states[:-1].tolist(), "final_state": arc.states[-1].tolist(),
+                    "min_altitude_km": float(r.min() * system.length_km - (system.primary, system.secondary)[p].radius_km),
+                    "details": {"branch": branch, "escaped": len(hit), "of": int(tube.n)}}
+        reasons.append(f"no trajectory of the unstable {branch} manifold of {describe_orbit(orbit)} gets "
+                       f"{st['distance_km']:g} km from {system.names[p]} within {system.days(4 * math.pi):.0f} days")
+    raise NoSolutionError("; ".join(reasons))
+
+
+def describe_orbit(orbit) -> str:
+    from .manifolds import describe
+    return describe(orbit)
+
+
 def _state_of(system, node, orbits):
     if isinstance(node, OrbitNode):
         return orbits.get(node.id, {}).get("state")
@@ -316,11 +384,19 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
         h = hints.get((a.name, b.name))
         why = None
         for n in (a, b):
+            if why is not None:               # the first reason found stands
+                break
             if isinstance(n, OrbitNode):
                 if "error" in orbits.get(n.id, {}):
                     why = f"orbit node '{n.name}': {orbits[n.id]['error']}"
             elif isinstance(n, BoundaryNode):
-                why = f"{n.kind} node '{n.name}' needs manifold connections (cr3bp.connections), not on this build"
+                # a capture or escape condition is an end: reached from a periodic orbit along
+                # its unstable manifold, never left
+                if n is a:
+                    why = f"{n.kind} node '{n.name}' is an end point: legs arrive at it, none leave"
+                elif not isinstance(a, OrbitNode):
+                    why = (f"{n.kind} node '{n.name}' is reached from periodic orbits (their unstable "
+                           f"manifolds), not from the {a.kind} node '{a.name}'")
             elif isinstance(n, ParkingNode):
                 # a leg from or to a parking orbit has a free phase: the primary-to-orbit legs of
                 # cr3bp.connections, between a parking orbit and a periodic orbit only
@@ -330,7 +406,7 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
                            f"periapsis), not the {other.kind} node '{other.name}'")
         sa, sb = states[a.id], states[b.id]
         maneuvers = h.maneuvers if h else "ends"
-        if why is None:
+        if why is None and not isinstance(b, BoundaryNode):   # a boundary has no state: the manifold decides
             why = energy_prune(system, float(jacobi(system.mu, sa)), float(jacobi(system.mu, sb)),
                                sa[:3], sb[:3], maneuvers, getattr(a, "point", ""), getattr(b, "point", ""))
         if why is not None:
@@ -340,7 +416,12 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
         settings = {"tof_tu": float(tof / system.time_days), "patches": int(patches), "maneuvers": maneuvers,
                     "max_patch_dv_mps": h.max_patch_dv_mps if h else None}
         method = "targeted"
-        if isinstance(a, ParkingNode) or isinstance(b, ParkingNode):
+        if isinstance(b, BoundaryNode):
+            method = b.kind                       # "capture" or "escape"
+            settings = {"patches": int(patches), "maneuvers": maneuvers, "body": b.body,
+                        "distance_km": b.distance_km, "max_patch_dv_mps": h.max_patch_dv_mps if h else None,
+                        "tube_points": PARKING_POINTS}
+        elif isinstance(a, ParkingNode) or isinstance(b, ParkingNode):
             method = "parking"
             park, orb = (a, b) if isinstance(a, ParkingNode) else (b, a)
             settings = {"patches": int(patches), "maneuvers": maneuvers, "body": park.body,
@@ -352,9 +433,10 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
             settings = {"patches": int(patches), "maneuvers": maneuvers, "sections": list(h.sections),
                         "max_patch_dv_mps": h.max_patch_dv_mps, "tube_points": TUBE_POINTS}
         task = {"system": system_spec(system), "method": method, "settings": settings,
-                "from": dict(a.to_dict(), state_used=sa.tolist()), "to": dict(b.to_dict(), state_used=sb.tolist())}
+                "from": dict(a.to_dict(), state_used=None if sa is None else sa.tolist()),
+                "to": dict(b.to_dict(), state_used=None if sb is None else sb.tolist())}
         for end, n in (("from", a), ("to", b)):
-            if method in ("manifold", "parking") and isinstance(n, OrbitNode):
+            if method in ("manifold", "parking", "capture", "escape") and isinstance(n, OrbitNode):
                 task[end]["orbit_data"] = _orbit_plain(orbits[n.id])
         task["key"] = leg_key(task)
         tasks.append(task)

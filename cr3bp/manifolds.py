@@ -207,7 +207,8 @@ class Stop:
     count : int
     t_max : float                 time limit, TU (always set)
     altitudes : tuple of (primary, altitude_km)  stop on descending to that altitude
-    escape_radius : float or None distance from the barycentre (LU) counted as escape
+    escape_radius : float or None distance (LU) counted as escape, from ``escape_center``
+    escape_center : int           -1 the barycentre (default), 0 / 1 a primary
     """
 
     section: Section | None = None
@@ -215,6 +216,7 @@ class Stop:
     t_max: float = 2.0 * math.pi
     altitudes: tuple = ()
     escape_radius: float | None = None
+    escape_center: int = -1
 
     def events(self, system, time_sign):
         evs, names = [], []
@@ -233,7 +235,7 @@ class Stop:
             evs.append(e)
             names.append("impact")
         if self.escape_radius is not None:
-            evs.append(escape(self.escape_radius))
+            evs.append(escape(self.escape_radius, self.escape_center))
             names.append("escape")
         return evs, names
 
@@ -241,7 +243,7 @@ class Stop:
         d = {"section": None if self.section is None else self.section.to_dict(),
              "count": self.count, "t_max": self.t_max,
              "altitudes_km": [[p, a] for p, a in self.altitudes],
-             "escape_radius": self.escape_radius}
+             "escape_radius": self.escape_radius, "escape_center": self.escape_center}
         if system is not None and system.dimensional:
             d["t_max_days"] = system.days(self.t_max)
         return d
@@ -580,3 +582,20 @@ def point_tube(system, point, stability: str, branch: str, until=None, *, step_k
     return Tube(system, f"{point}", stability, branch, c, 0.0, float(modes.lambda_unstable),
                 d, d_km, np.zeros(1), np.zeros(1), xl[None, :], w[None, :], start[None, :], tof,
                 ends, status, stop, "time", None)
+
+
+TUBE_POINTS = 16          # trajectories per half-manifold in a corridor figure
+TUBE_DAYS = "8d"          # how far each is grown there
+
+
+def corridor_tubes(orbits, n_points=TUBE_POINTS, until=f"time:{TUBE_DAYS}"):
+    """Stable and unstable half-manifolds (both branches) of each orbit, as trajectory arrays
+    for :func:`cr3bp.plotting.routes.plot_corridor` (Koon et al. 2011, ch. 4: the tubes are
+    the corridors the route rides)."""
+    tubes = []
+    for orbit in orbits:
+        for stability in ("stable", "unstable"):
+            for branch in ("interior", "exterior"):
+                tube = grow_tube(orbit, stability, branch, n_points, until=until)
+                tubes.append([states for _, states in tube.trajectories(200)])
+    return tubes

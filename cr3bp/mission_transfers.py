@@ -137,6 +137,7 @@ def _figures(plan, transfer, orbits, ranked, front, st, out):
     if not plan.data.get("plots", {}).get("corridors", True):
         return
     legs = [d["leg"] for d in ranked[0].legs]
+    from .manifolds import corridor_tubes
     ax = plot_corridor(st, legs, tubes=corridor_tubes(route_orbits(transfer, orbits)))
     design_transfers.figures[f"corridor-{name}"] = _save_all(
         ax.figure, out, f"corridor-{name}", formats,
@@ -148,27 +149,9 @@ def _figures(plan, transfer, orbits, ranked, front, st, out):
         f"{plan.name}: transfer '{name}', total Δv against time of flight of the ranked routes and the Pareto set.")
 
 
-TUBE_POINTS = 16          # trajectories per half-manifold in the corridor figure
-TUBE_DAYS = "8d"          # how far each is grown
-
-
 def route_orbits(transfer: dict, orbits: dict) -> list:
     """The solved orbits a scenario transfer starts from, passes through or ends on."""
     return [orbits[n] for n in (transfer["from"], *transfer.get("via", []), transfer["to"]) if n in orbits]
-
-
-def corridor_tubes(orbits, n_points=TUBE_POINTS, until=f"time:{TUBE_DAYS}"):
-    """Stable and unstable half-manifolds (both branches) of each orbit, as trajectory arrays
-    for :func:`cr3bp.plotting.routes.plot_corridor` (Koon et al. 2011, ch. 4: the tubes are
-    the corridors the route rides)."""
-    from .manifolds import grow_tube
-    tubes = []
-    for orbit in orbits:
-        for stability in ("stable", "unstable"):
-            for branch in ("interior", "exterior"):
-                tube = grow_tube(orbit, stability, branch, n_points, until=until)
-                tubes.append([states for _, states in tube.trajectories(200)])
-    return tubes
 
 
 def transfer_trajectory(plan, st, spec, ts, step_s, ex, model):

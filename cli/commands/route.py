@@ -232,8 +232,16 @@ def _export(args, system, routes, front, stitched, name):
 def _plots(args, system, g, routes, front, stitched):
     from cr3bp.plotting import save
     from cr3bp.plotting.routes import plot_corridor, plot_graph, plot_pareto
+    from cr3bp.manifolds import corridor_tubes
+    from cr3bp.orbits.request import solve_request
     legs = [d["leg"] for d in routes[0].legs]
-    ax = plot_corridor(stitched, legs)
+    # the tubes of the periodic orbits on the route: the corridors it rides
+    from cr3bp.catalog import Catalog
+    catalog = None if args.no_catalog else Catalog(args.catalog)
+    orbits = [solve_request(system, g.nodes[n]["node"]["orbit"], catalog=catalog)
+              for n in dict.fromkeys(routes[0].nodes) if g.nodes[n].get("kind") == "orbit"]
+    common.progress(args, f"librate: growing the tubes of {len(orbits)} orbit(s) for the corridor figure...")
+    ax = plot_corridor(stitched, legs, tubes=corridor_tubes(orbits))
     save(ax.figure, args.plot, f"{system.name}: best route stitched by multiple shooting; dashed: zero-velocity "
          f"curves at each leg's Jacobi constant; triangles: maneuvers (Δv in m/s).")
     pareto_file, graph_file = _side(args.plot, "pareto"), _side(args.plot, "graph")
