@@ -808,24 +808,33 @@ def _oem_result(path, fmt, header, segments, keys, man_texts) -> ReadResult:
 
 
 def _read_rotating_table(path, headers, rows):
-    """A CSV of nondimensional rotating states (``t, x, y, z, vx, vy, vz`` columns)."""
+    """A CSV of nondimensional rotating states (``t, x, y, z, vx, vy, vz`` columns, time in TU;
+    ``_lu``/``_vu``/``_tu`` suffixes allowed). A ``segment`` column splits it into segments.
+    Returns (t, states, segment numbers)."""
     names = [h.strip().lower() for h in headers]
 
     def col(*cands):
         for c in cands:
             for i, n in enumerate(names):
-                if n == c or n.split("_")[0] == c and not n.endswith(("_km", "_kms")):
+                head, _, unit = n.partition("_")
+                if n == c or (head == c and unit in ("lu", "vu", "tu", "nd")):
                     return i
         return None
-    idx = [col("t", "t_tu", "time")] + [col(c) for c in ("x", "y", "z", "vx", "vy", "vz")]
+    idx = [col("t", "time")] + [col(c) for c in ("x", "y", "z", "vx", "vy", "vz")]
+    if idx[0] is None and "t_days" in names:
+        raise InputError(f"'{path}' gives its times in days (t_days) but no t_tu column; rotating states "
+                         "are read with their times in TU")
     if any(i is None for i in idx):
         raise InputError(f"'{path}' has neither our export columns nor rotating-state columns "
                          "t,x,y,z,vx,vy,vz")
+    seg_col = names.index("segment") if "segment" in names else None
     try:
         a = np.array([[float(r[i]) for i in idx] for r in rows if r])
+        seg = (np.array([int(r[seg_col]) for r in rows if r]) if seg_col is not None
+               else np.zeros(len(a), dtype=int))
     except ValueError:
         raise InputError(f"'{path}': a row is not numbers") from None
-    return a[:, 0], a[:, 1:]
+    return a[:, 0], a[:, 1:], seg
 
 
 def read_csv(path) -> ReadResult:
@@ -851,8 +860,8 @@ def read_csv(path) -> ReadResult:
         raise InputError(f"'{path}' has no data rows")
     ecol = [i for i, h in enumerate(headers) if h.startswith("epoch_")]
     if not ecol:
-        t, st = _read_rotating_table(path, headers, rows)
-        return _rotating_result("csv", keys, t, st)
+        t, st, seg = _read_rotating_table(path, headers, rows)
+        return _rotating_result("csv", keys, t, st, seg)
     ts = _frames.time_system(headers[ecol[0]][len("epoch_"):])
     try:
         idx = [headers.index(c) for c in COLUMNS]
@@ -884,10 +893,13 @@ def read_csv(path) -> ReadResult:
                       keys.get("object_name", ""), keys.get("object_id", ""))
 
 
-def _rotating_result(fmt, keys, t, st):
-    """Rotating nondimensional states without epochs: a 'segment' in TU, no frame."""
-    seg = FileSegment({"ROTATING_NONDIMENSIONAL": "yes"}, np.array([]), np.asarray(t, float), np.asarray(st, float))
-    return ReadResult(fmt, {k: v for k, v in keys.items()}, (seg,), "", None)
+def _rotating_result(fmt, keys, t, st, seg=None):
+    """Rotating nondimensional states without epochs: segments in TU (split on ``seg``), no frame."""
+    t, st = np.asarray(t, float), np.asarray(st, float)
+    seg = np.zeros(len(t), dtype=int) if seg is None else np.asarray(seg)
+    segs = tuple(FileSegment({"ROTATING_NONDIMENSIONAL": "yes"}, np.array([]), t[seg == k], st[seg == k])
+                 for k in np.unique(seg))
+    return ReadResult(fmt, {k: v for k, v in keys.items()}, segs, "", None)
 
 
 def read_json(path) -> ReadResult:

@@ -450,14 +450,16 @@ def _result(system, p, z, legs, constraints, optimised, note, iterations):
 
 
 def trajectory_rows(result: StitchedRoute):
-    """CSV rows of the stitched trajectory: time (d), segment, state (LU, LU/TU), km, Jacobi."""
+    """CSV rows of the stitched trajectory: time (TU and d), segment, state (LU, LU/TU), km, Jacobi."""
     from .dynamics import jacobi
     s = result.system
     C = jacobi(s.mu, result.states)
     rows = []
-    for t, k, st, c in zip(result.times_days, result.segment, result.states, np.atleast_1d(C)):
-        rows.append([float(t), int(k), *map(float, st), *(float(v) * s.length_km for v in st[:3]), float(c)])
-    return ["t_days", "segment", "x_lu", "y_lu", "z_lu", "vx_vu", "vy_vu", "vz_vu", "x_km", "y_km", "z_km",
+    for tu, t, k, st, c in zip(result.times_tu, result.times_days, result.segment, result.states,
+                               np.atleast_1d(C)):
+        rows.append([float(tu), float(t), int(k), *map(float, st), *(float(v) * s.length_km for v in st[:3]),
+                     float(c)])
+    return ["t_tu", "t_days", "segment", "x_lu", "y_lu", "z_lu", "vx_vu", "vy_vu", "vz_vu", "x_km", "y_km", "z_km",
             "jacobi"], rows
 
 

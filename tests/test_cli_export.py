@@ -214,3 +214,20 @@ def test_utc_past_the_leap_second_table_is_one_note(tmp_path, capsys):
     assert len(notes) == 1 and notes[0].startswith("librate: note:")
     assert "Warning" not in err
     assert "COMMENT UTC epochs: leap-second table valid until" in out.read_text()
+
+
+def test_rotating_tables_read_time_in_tu_only(tmp_path, capsys):
+    """A table whose time column is in days must not be read as TU (a silent factor of 4.3 in
+    Earth-Moon); a table with segments (a stitched route) is refused for single-arc export."""
+    days = tmp_path / "days.csv"
+    days.write_text("t_days,x,y,z,vx,vy,vz\n0,0.8,0,0,0,0.1,0\n")
+    rc = main(["export", "--system", "earth-moon", "--from", str(days), "--epoch", "2031-03-01T00:00:00Z",
+               "--step", "1h", "--span", "1d", "--center", "moon", "--out", str(tmp_path / "a.oem")])
+    assert rc == 2 and "times in days" in capsys.readouterr().err
+    segs = tmp_path / "segs.csv"
+    segs.write_text("t_tu,segment,x_lu,y_lu,z_lu,vx_vu,vy_vu,vz_vu\n0,0,0.8,0,0,0,0.1,0\n0.1,0,0.8,0.01,0,0,0.1,0\n"
+                    "0.1,1,0.8,0.01,0,0.01,0.1,0\n0.2,1,0.8,0.02,0,0.01,0.1,0\n")
+    rc = main(["export", "--system", "earth-moon", "--from", str(segs), "--epoch", "2031-03-01T00:00:00Z",
+               "--step", "1h", "--center", "moon", "--out", str(tmp_path / "b.oem")])
+    assert rc == 2 and "2 segments" in capsys.readouterr().err
+    assert not (tmp_path / "a.oem").exists() and not (tmp_path / "b.oem").exists()

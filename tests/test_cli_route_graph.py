@@ -71,7 +71,7 @@ def test_route_end_to_end_with_files(capsys, nodes_file):
     assert len(rows) == len(body["stitched"]["maneuvers"])
     assert sum(float(r["dv_mps"]) for r in rows) == pytest.approx(body["stitched"]["dv_total_mps"], rel=1e-9)
     traj = [r for r in (out_dir / "trajectory.csv").read_text().splitlines() if not r.startswith("#")]
-    assert traj[0].startswith("t_days,segment,x_lu")
+    assert traj[0].startswith("t_tu,t_days,segment,x_lu")
 
 
 def test_route_table_output(capsys, nodes_file):

@@ -174,8 +174,9 @@ def _run(args):
             raise InputError(f"'{args.from_file}' is in system {file_frame.system.name}, not {sysm.name}")
         segs = export.to_rotating(data)
         if len(segs) != 1:
-            raise InputError(f"'{args.from_file}' has {len(segs)} segments; export one arc at a time "
-                             "or use 'librate convert'")
+            raise InputError(f"'{args.from_file}' has {len(segs)} segments (arcs between maneuvers); export "
+                             "one arc at a time, or write a stitched route with 'librate route --epoch ... "
+                             "--out DIR' (route.oem) or 'librate run'")
         source = segs[0]
         model["source file"] = str(args.from_file)
     else:
