@@ -47,3 +47,18 @@ def sample_members():
         out += [ms[0], ms[len(ms) // 2], ms[-1]]
     out.append(nrho_9_2())
     return out
+
+
+@lru_cache(maxsize=None)
+def axial_from_lyapunov(point, max_members=200):
+    """The axial family branched at the Lyapunov family's second out-of-plane branch point, grown
+    past its junction with the vertical family (member ~140 at L1, ~111 at L2)."""
+    fam, _ = families.branch_family(em(), "axial", point, stops=continuation.Stops(max_members=max_members))
+    return fam
+
+
+@lru_cache(maxsize=None)
+def vertical_to_branch_point(point):
+    """The vertical family from its linear seed up to its first +1 crossing."""
+    return families.grow_family(em(), "vertical", point,
+                                stops=continuation.Stops(max_members=400, branch_points=1))

@@ -99,3 +99,20 @@ def test_family_bad_input(capsys):
     rc, _, err = run(capsys, "family", "--system", "earth-moon", "--family", "lyapunov", "--point", "L1",
                      "--until", "colour=3")
     assert rc == 2
+
+
+def test_family_route_option(capsys):
+    """--route branch reaches the vertical family through the axial family; the members are
+    vertical orbits (checked against the seeded route in tests/test_orbits_branching.py)."""
+    rc, out, err = run(capsys, "family", "--system", "earth-moon", "--family", "vertical", "--point", "L1",
+                       "--route", "branch", "--members", "6", "--format", "json", "-q")
+    assert rc == 0, err
+    d = json.loads(out)
+    assert d["route"] == "branch" and len(d["members"]) == 6
+    assert all(abs(m["state"][1]) == 0 and abs(m["state"][2]) == 0 for m in d["members"])
+    assert all(m["periodicity_error"] < 1e-10 for m in d["members"])
+    rc, _, err = run(capsys, "family", "--system", "earth-moon", "--family", "dro", "--route", "seed")
+    assert rc == 2 and "--route" in err
+    rc, _, err = run(capsys, "family", "--system", "earth-moon", "--family", "halo", "--point", "L3",
+                     "--branch", "north", "--route", "seed")
+    assert rc == 2 and "route 'seed'" in err

@@ -27,6 +27,11 @@ def add_arguments(p):
     g.add_argument("--step", metavar="VALUE", help="first step (nondimensional; default per family)")
     g.add_argument("--max-step", metavar="VALUE", help="largest step (nondimensional; default per family); "
                    "smaller steps resolve stability changes that come in close pairs")
+    g.add_argument("--route", choices=("seed", "branch"),
+                   help="how a three-dimensional family is reached: seed (halo, vertical: default; axial: "
+                   "from the vertical family's branch point) or branch (axial: default, at the Lyapunov "
+                   "family's second out-of-plane branch point; halo: at its first; vertical: where the "
+                   "axial family meets it)")
     oo.add_catalog_option(p, "also store the family in the orbit catalogue at PATH (default path "
                           "when PATH is omitted)")
     p.add_argument("--plot", metavar="PREFIX", help="write PREFIX-family.png (members coloured by Jacobi "
@@ -57,6 +62,10 @@ def run(args):
         raise InputError(f"--members {args.members} is outside the allowed range 2..5000")
     if args.method == "natural" and not args.parameter:
         raise InputError("--method natural needs --parameter (x, z, vz, jacobi or period)")
+    if args.route is not None and spec.family not in families.ROUTES:
+        raise InputError(f"--route is offered for the halo, vertical and axial families, not {spec.family}")
+    if args.route is not None and (args.method != "arclength" or args.step is not None):
+        raise InputError("--route works with the default arclength continuation and steps; drop --method/--step")
     target = _parse_until(system, args.until) if args.until else None
     alt = None
     if args.altitude:
@@ -83,18 +92,26 @@ def run(args):
     cat = oo.open_catalog(args)
     name = " ".join(w for w in (spec.family, spec.point, spec.branch_label) if w)
     common.progress(args, f"librate family: growing the {system.name} {name} family (up to {args.members} members)")
-    fam = families.grow_family(system, spec.family, spec.point, spec.branch, stops=stops, method=args.method,
-                               parameter=args.parameter, step=step, resonance=spec.resonance, max_step=max_step,
-                               progress=oo.progress_printer(args, name))
+    if args.route is not None:
+        fam = families.grow_by_route(system, spec.family, spec.point, spec.branch, args.route, stops=stops,
+                                     max_step=max_step, progress=oo.progress_printer(args, name))
+    else:
+        fam = families.grow_family(system, spec.family, spec.point, spec.branch, stops=stops, method=args.method,
+                                   parameter=args.parameter, step=step, resonance=spec.resonance,
+                                   max_step=max_step, progress=oo.progress_printer(args, name))
     common.progress(args, f"done: {len(fam.members)} members; stopped because {fam.stop_reason}")
     if cat is not None:
-        fid = cat.begin_family(system, spec.family, spec.point, spec.branch_label, catalog_settings(spec, stops))
+        settings = catalog_settings(spec, stops)
+        if args.route is not None:
+            settings["route"] = args.route
+        fid = cat.begin_family(system, spec.family, spec.point, spec.branch_label, settings)
         cat.add_members(fid, [catalog_member(m, i) for i, m in enumerate(fam.members)])
         cat.finish_family(fid, [b.to_dict() for b in fam.bifurcations], complete=True)
         common.progress(args, f"stored as family {fid} in the catalogue {cat.path}")
     rows = [_row(i, m.to_dict()) for i, m in enumerate(fam.members)]
     bifs = [b.to_dict() for b in fam.bifurcations]
     payload = {"system": system.name, "family": spec.family, "point": spec.point, "branch": spec.branch_label,
+               "route": args.route or families.ROUTES.get(spec.family, ("seed",))[0],
                "stop_reason": fam.stop_reason, "columns": HEADERS,
                "members": [dict(m.to_dict(), index=i) for i, m in enumerate(fam.members)],
                "bifurcations": [{"type": b["type"], "member_index": b["member_index"], "jacobi": b["jacobi"],

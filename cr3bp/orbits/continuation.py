@@ -181,9 +181,16 @@ def _solve_natural(system, sym, X_ref, t, ds, param, meta):
     return orbit, X, tn, it, float(np.linalg.norm(X - Xp))
 
 
-def solve_between(system, sym, orbit_a, X_a, t_a, ds_b, g, g_a, g_b, meta, tol=1e-11, max_eval=40):
+def solve_between(system, sym, orbit_a, X_a, t_a, ds_b, g, g_a, g_b, meta, tol=1e-11, max_eval=40,
+                  check=True):
     """Orbit where ``g(orbit) = 0`` between arclength 0 (value g_a) and ds_b (value g_b),
-    Illinois regula falsi on the arclength (Dowell & Jarratt 1971)."""
+    Illinois regula falsi on the arclength (Dowell & Jarratt 1971).
+
+    ``check=False`` (used to locate branch points) accepts a solution whose full-period error
+    exceeds the periodicity tolerance: next to a branch point the half-period Jacobian is nearly
+    singular, Newton stalls a little higher, and a strongly unstable orbit (largest multiplier
+    ~250 for the vertical L1 branch point) then closes only to ~5e-10. The orbit keeps its
+    measured ``periodicity_error``; the members of the branching family are checked in full."""
     lo, hi, glo, ghi = 0.0, float(ds_b), float(g_a), float(g_b)
     side = 0
     best = None
@@ -191,7 +198,7 @@ def solve_between(system, sym, orbit_a, X_a, t_a, ds_b, g, g_a, g_b, meta, tol=1
         ds = (lo * ghi - hi * glo) / (ghi - glo) if ghi != glo else 0.5 * (lo + hi)
         if not (min(lo, hi) < ds < max(lo, hi)):
             ds = 0.5 * (lo + hi)
-        orbit, _, _, _, _ = _solve_at(system, sym, X_a, t_a, ds, meta)
+        orbit, _, _, _, _ = _solve_at(system, sym, X_a, t_a, ds, meta, check=check)
         gv = float(g(orbit))
         best = orbit
         if abs(gv) < tol or abs(hi - lo) < 1e-13:
@@ -333,7 +340,8 @@ def grow(system, first: PeriodicOrbit, kind, *, step=1e-3, max_step=0.05, direct
                     level = 1.0 if kind_b == "+1" else -1.0
                     g = lambda o, j=j, level=level: _match(nus[-1], _indices(o, planar))[j].real - level  # noqa: E731
                 try:
-                    bo = solve_between(system, sym, prev, X, t, ds, g, g(prev), g(orbit), meta)
+                    bo = solve_between(system, sym, prev, X, t, ds, g, g(prev), g(orbit), meta,
+                                       check=False)
                     bifs.append(Bifurcation(kind_b, len(members) - 1, j, bo, _bif_note(kind_b, j, planar)))
                 except ConvergenceError:
                     bifs.append(Bifurcation(kind_b, len(members) - 1, j, orbit,
@@ -459,3 +467,52 @@ def solve_on_members(system, kind, members, qname, value, family="", point="", b
     lo, hi = min(vals), max(vals)
     raise NoSolutionError(f"no member with {qname} = {value:.10g}; this family spans "
                           f"{lo:.10g} to {hi:.10g}")
+
+
+# ---- branch switching -----------------------------------------------------------------------
+
+def branch_direction(system, kind, orbit, parent_tangent):
+    """Direction of the other family through a branch point ``orbit`` (unknowns space).
+
+    At a simple branch point the half-period Jacobian (n-1 x n) loses one rank, so its null
+    space is two-dimensional: the parent family's tangent and the branch's. The branch direction
+    is the unit vector of that plane (the last two right singular vectors) orthogonal to the
+    parent's tangent (Keller 1977; Doedel et al. 2007, branch switching in the same symmetry
+    class). Returns (direction, ratio of the two smallest singular values to the largest).
+    """
+    sym = shooting.symmetry(kind)
+    X = _X(orbit, sym)
+    D = shooting.jacobian(system, sym, X)
+    _, sv, vt = np.linalg.svd(D, full_matrices=True)
+    plane = vt[-2:]
+    tp = plane.T @ (plane @ np.asarray(parent_tangent, float))
+    tp /= np.linalg.norm(tp)
+    tb = plane[0] - np.dot(plane[0], tp) * tp
+    if np.linalg.norm(tb) < 0.5:
+        tb = plane[1] - np.dot(plane[1], tp) * tp
+    return tb / np.linalg.norm(tb), float(sv[-1] / sv[0])
+
+
+def switch_branch(system, kind, orbit, parent_tangent, ds=5e-3, meta=None):
+    """First member of the family crossing the parent at branch point ``orbit``: predictor
+    ``X_bp + ds t_b`` along :func:`branch_direction`, corrector Newton with the pseudo-arclength
+    condition along ``t_b`` (Keller 1977). The member's distance from the parent's tangent line
+    is checked to be at least ds/4, so the corrector cannot fall back onto the parent family.
+    Returns (orbit, t_b)."""
+    sym = shooting.symmetry(kind)
+    tb, _ = branch_direction(system, kind, orbit, parent_tangent)
+    X0 = _X(orbit, sym)
+    tp = np.asarray(parent_tangent, float) / np.linalg.norm(parent_tangent)
+    last = None
+    for step in (ds, 0.5 * ds, 2.0 * ds, 0.25 * ds):
+        try:
+            o, Xn, _, _, _ = _solve_at(system, sym, X0, tb, step, meta or {})
+        except ConvergenceError as e:
+            last = e
+            continue
+        d = Xn - X0
+        off = np.linalg.norm(d - np.dot(d, tp) * tp)
+        if off >= 0.25 * abs(step):
+            return o, (tb if step > 0 else -tb)
+        last = ConvergenceError(f"the corrector fell back onto the parent family (offset {off:.2e})")
+    raise ConvergenceError(f"could not switch branch at the branch point ({last})")

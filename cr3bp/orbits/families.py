@@ -14,6 +14,11 @@ resonant p:q            Kepler ellipse about the larger primary,    xz-planar
                         x held
 ======================  ==========================================  =====================
 
+Other routes (:func:`grow_by_route`): vertical orbits also from the junction of the axial family
+with the vertical family (:func:`vertical_by_branching`), axial orbits also from the vertical
+family's branch point (:func:`axial_from_vertical`); branch switching there uses the second null
+direction of the half-period Jacobian (:func:`cr3bp.orbits.continuation.switch_branch`).
+
 Branching at a bifurcation (:func:`branch_at`): the new family's first member is the
 bifurcating orbit pushed out of the plane (``z`` for halos, ``vz`` for axial orbits) by a
 small amount and corrected with that component held (Howell 1984 for the halo branch).
@@ -187,3 +192,144 @@ def branch_family(system, family, point, branch="", *, stops=None, progress=None
                              point=point, branch=branch if family == "halo" else "", progress=progress,
                              settings={"family": family, "point": point, "branch": branch,
                                        "from": "lyapunov bifurcation"}), bif[need - 1]
+
+
+# ---- the vertical and axial families by the other route -------------------------------------
+#
+# Doedel et al., "Elemental periodic orbits associated with the libration points in the circular
+# restricted 3-body problem", Int. J. Bifurcation and Chaos 17 (2007) (from memory): the axial
+# family connects the planar Lyapunov family (at its second out-of-plane branch point) with the
+# vertical family (at a branch point of the vertical family). Along the Earth-Moon L1 and L2
+# Lyapunov families computed here the out-of-plane index crosses +1 only twice (halo, axial)
+# before the family nears the Moon, so the vertical family is reached from the Lyapunov family
+# through the axial family, and the axial family from the vertical seed through the vertical
+# family's branch point.
+
+def _secant(family, index, sym):
+    a = continuation._X(family.members[index], sym)
+    b = continuation._X(family.members[index + 1], sym)
+    return (b - a) / np.linalg.norm(b - a)
+
+
+def _x_half_gap(system, orbit):
+    """x(T/2) - x(0) of an x-axis-symmetric orbit: zero for a vertical orbit, whose half-period
+    shift is the reflection z -> -z (so both axis crossings are at the same point); odd about the
+    vertical orbit along the axial family, whose two arms there are mirror images (Doedel et al.
+    2007, from memory)."""
+    from ..integrate import propagate
+    end = propagate(system, orbit.state, orbit.period / 2, rtol=shooting.RTOL, atol=shooting.ATOL)
+    return float(end.final_state[0] - orbit.state[0])
+
+
+def vertical_junction(system, axial, point):
+    """The orbit where the axial family meets the vertical family: the sign change of
+    :func:`_x_half_gap` between two consecutive axial members, solved by regula falsi along
+    their secant. Returns (orbit, member index before it, axial secant there)."""
+    sym = shooting.symmetry("x-axis")
+    gs = [_x_half_gap(system, m) for m in axial.members]
+    meta = dict(family="vertical", point=point, branch="")
+    for k in range(len(gs) - 1):
+        if gs[k] * gs[k + 1] < 0:
+            Xa = continuation._X(axial.members[k], sym)
+            t = _secant(axial, k, sym)
+            L = float(np.linalg.norm(continuation._X(axial.members[k + 1], sym) - Xa))
+            try:
+                o = continuation.solve_between(system, sym, axial.members[k], Xa, t, L,
+                                               lambda o: _x_half_gap(system, o), gs[k], gs[k + 1],
+                                               meta, tol=1e-10, check=False)
+            except ConvergenceError:
+                # exactly at the branch point the pseudo-arclength system is singular (the null
+                # space of the half-period Jacobian is two-dimensional); the secant root of the
+                # gap is close enough for the branch switch, which corrects onto the other family
+                f = gs[k] / (gs[k] - gs[k + 1])
+                o = None
+                for ff in (f, f + 0.05, f - 0.05):
+                    try:
+                        o = continuation._solve_at(system, sym, Xa, t, ff * L, meta, check=False)[0]
+                        break
+                    except ConvergenceError:
+                        continue
+                if o is None:
+                    raise
+            return o, k, t
+    raise ConvergenceError(f"the {point} axial family ({len(gs)} members) did not reach a vertical orbit")
+
+
+def vertical_by_branching(system, point, *, stops=None, progress=None, axial=None, max_step=None):
+    """The vertical family grown from its branch point with the axial family, the axial family
+    itself branched from the Lyapunov family (Doedel et al. 2007, from memory).
+
+    Returns (vertical Family grown towards the Lagrange point, junction orbit)."""
+    _, point, _ = check_family("vertical", point, None)
+    if axial is None:
+        axial, _ = branch_family(system, "axial", point, stops=continuation.Stops(max_members=400))
+    j, _, t_axial = vertical_junction(system, axial, point)
+    meta = dict(family="vertical", point=point, branch="")
+    first, tb = continuation.switch_branch(system, "x-axis", j, t_axial, ds=2e-3, meta=meta)
+    p = collinear_point(system.mu, point)
+    # towards the Lagrange point: the out-of-plane speed at the node decreases
+    fam = continuation.grow(system, first, "x-axis", step=2e-3 * p.gamma, max_step=max_step or 0.05 * p.gamma,
+                            direction=lambda t, X: -t[2] * X[2], stops=stops or continuation.Stops(),
+                            family="vertical", point=point, branch="", progress=progress,
+                            settings={"family": "vertical", "point": point, "branch": "",
+                                      "from": "axial family junction"})
+    return fam, j
+
+
+def axial_from_vertical(system, point, *, stops=None, progress=None, vertical=None, max_step=None):
+    """The axial family branched from the vertical family (grown from its linear seed) at the
+    vertical family's first out-of-plane +1 crossing (Doedel et al. 2007, from memory), grown
+    towards the Lyapunov family (for L1 x decreases, for L2 x increases: towards the crossing
+    farther from the Moon).
+
+    Returns (axial Family, Bifurcation on the vertical family)."""
+    _, point, _ = check_family("axial", point, None)
+    if vertical is None:
+        vertical = grow_family(system, "vertical", point,
+                               stops=continuation.Stops(max_members=400, branch_points=1))
+    bifs = [b for b in vertical.bifurcations if b.kind == "+1"]
+    if not bifs:
+        raise ConvergenceError(f"the {point} vertical family showed no +1 crossing ({vertical.stop_reason})")
+    bif = bifs[0]
+    sym = shooting.symmetry("x-axis")
+    meta = dict(family="axial", point=point, branch="")
+    first, tb = continuation.switch_branch(system, "x-axis", bif.orbit, _secant(vertical, bif.index, sym),
+                                           ds=2e-3, meta=meta)
+    outward = -1.0 if point == "L1" else 1.0
+    p = collinear_point(system.mu, point)
+    fam = continuation.grow(system, first, "x-axis", step=1e-3, max_step=max_step or 0.03 * p.gamma,
+                            direction=lambda t, X: outward * t[0], stops=stops or continuation.Stops(),
+                            family="axial", point=point, branch="", progress=progress,
+                            settings={"family": "axial", "point": point, "branch": "",
+                                      "from": "vertical bifurcation"})
+    return fam, bif
+
+
+#: how each family is reached by default, and the other route offered
+ROUTES = {"halo": ("seed", "branch"), "vertical": ("seed", "branch"), "axial": ("branch", "seed")}
+
+
+def grow_by_route(system, family, point, branch="", route=None, *, stops=None, progress=None, max_step=None):
+    """Grow a three-dimensional family by the route asked for: ``seed`` (halo: Richardson's seed;
+    vertical: the linear seed; axial: the vertical family's branch point, itself from the linear
+    vertical seed) or ``branch`` (halo and axial: the Lyapunov family's first / second
+    out-of-plane branch point; vertical: the junction of the axial family branched from the
+    Lyapunov family). The two routes reach the same orbits (tests/test_orbits_branching.py and
+    test_against_published_orbits.py check members at equal Jacobi constant or z to 1e-9)."""
+    family, point, branch = check_family(family, point, branch)
+    allowed = ROUTES.get(family, ("seed",))
+    if family == "halo" and point == "L3":
+        allowed = ("branch",)   # Richardson's series is too inaccurate at L3 (see first_member)
+    route = allowed[0] if route is None else str(route).strip().lower()
+    if route not in allowed:
+        raise InputError(f"route '{route}' is not offered for the {family} {point} family; allowed: "
+                         f"{', '.join(allowed)}")
+    if family == "halo":
+        if route == "seed":
+            return grow_family(system, family, point, branch, stops=stops, progress=progress, max_step=max_step)
+        return branch_family(system, "halo", point, branch, stops=stops, progress=progress, max_step=max_step)[0]
+    if route == ROUTES[family][0]:
+        return grow_family(system, family, point, branch, stops=stops, progress=progress, max_step=max_step)
+    if family == "vertical":
+        return vertical_by_branching(system, point, stops=stops, progress=progress, max_step=max_step)[0]
+    return axial_from_vertical(system, point, stops=stops, progress=progress, max_step=max_step)[0]
