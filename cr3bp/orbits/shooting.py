@@ -22,7 +22,7 @@ x-axis     (x, 0, 0, 0, vy, vz) x, vy, vz            y, z, vx              G_XAX
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -57,6 +57,15 @@ class Symmetry:
     free: tuple
     targets: tuple
     mirror: np.ndarray
+    # index arrays built once (the Newton loop indexes with them at every iteration)
+    free_idx: np.ndarray = field(init=False, repr=False, compare=False)
+    target_idx: np.ndarray = field(init=False, repr=False, compare=False)
+    block: tuple = field(init=False, repr=False, compare=False)
+
+    def __post_init__(self):
+        object.__setattr__(self, "free_idx", np.array(self.free, dtype=np.intp))
+        object.__setattr__(self, "target_idx", np.array(self.targets, dtype=np.intp))
+        object.__setattr__(self, "block", np.ix_(self.targets, self.free))
 
 
 SYMMETRIES = {
@@ -79,12 +88,15 @@ def symmetry(kind) -> Symmetry:
 
 def pack(sym: Symmetry, state, tau) -> np.ndarray:
     s = np.asarray(state, dtype=float)
-    return np.concatenate([s[list(sym.free)], [float(tau)]])
+    X = np.empty(len(sym.free) + 1)
+    X[:-1] = s[sym.free_idx]
+    X[-1] = float(tau)
+    return X
 
 
 def unpack(sym: Symmetry, X) -> tuple[np.ndarray, float]:
     s = np.zeros(6)
-    s[list(sym.free)] = X[:-1]
+    s[sym.free_idx] = X[:-1]
     return s, float(X[-1])
 
 
@@ -140,7 +152,7 @@ def _extra_row(system, sym, c: Constraint, X):
         grad = np.empty(3)
         dynamics.grad_omega(system.mu, s[0], s[1], s[2], grad)
         dc = np.concatenate([2.0 * grad, -2.0 * s[3:]])
-        row[:-1] = dc[list(sym.free)]
+        row[:-1] = dc[sym.free_idx]
         return dynamics.jacobi(system.mu, s) - c.value, row
     if c.kind == "arclength":
         return float(np.dot(X - c.ref, c.tangent) - c.value), c.tangent.copy()
@@ -156,10 +168,12 @@ def half_residual(system, sym: Symmetry, X):
     if arc.status != "time":
         raise ConvergenceError(f"propagation stopped early ({arc.status}) at t = {arc.t_final:g}", last=X)
     sf = arc.final_state
-    tg = list(sym.targets)
+    tg = sym.target_idx
     F = sf[tg]
     fs = dynamics.acceleration(system.mu, sf)
-    D = np.column_stack([arc.stm[np.ix_(tg, list(sym.free))], fs[tg]])
+    D = np.empty((len(tg), len(X)))
+    D[:, :-1] = arc.stm[sym.block]
+    D[:, -1] = fs[tg]
     return F, D, arc
 
 
