@@ -420,6 +420,8 @@ def connect_tubes(tube_u, tube_s, names=None, max_candidates=5, tol=PATCH_TOL, m
         except ConvergenceError as e:
             failures.append(str(e))
             continue
+        if any(_same_phases(ta, tb, g, tube_u.period, tube_s.period) for g in legs):
+            continue  # the same connection reached from another candidate crossing
         dvn = float(np.linalg.norm(eb[2][3:6] - ea[2][3:6]))
         method = ("two-segment multiple shooting on the section, Newton in the departure phases "
                   "(matched: " + ", ".join(names) + ")")
@@ -441,6 +443,16 @@ def connect_tubes(tube_u, tube_s, names=None, max_candidates=5, tol=PATCH_TOL, m
                                0, [])
     legs.sort(key=lambda g: (round(g.dv_mps, 6), g.tof))
     return legs
+
+
+def _same_phases(ta, tb, leg, Ta, Tb, tol=1e-7):
+    """Whether refined departure times (ta, tb) give the same connection as ``leg`` (phases
+    equal to ``tol``, cyclically)."""
+    def close(f, g):
+        d = abs((f - g) % 1.0)
+        return min(d, 1.0 - d) < tol
+    return (close((ta / Ta) % 1.0, leg.details["phase_from"])
+            and close((tb / Tb) % 1.0, leg.details["phase_to"]))
 
 
 def _nearest_gap(ca, cb, names):

@@ -132,12 +132,47 @@ def test_jupiter_realm_homoclinics_mirror_across_the_x_axis():
                                                           atol=1e-8) for h in above)
 
 
-def test_earth_moon_homoclinic_in_the_earth_realm():
-    c = 3.15
+@pytest.mark.parametrize("c", [3.15, 3.12])
+def test_earth_moon_homoclinic_in_the_earth_realm(c):
     o = lyapunov(EM, "L1", c)
     legs, tu, ts = connect(o, o, "y=0,x<0", 200, t_max=20.0, branch_a="exterior",
-                           branch_b="exterior", max_candidates=4)
+                           branch_b="exterior", max_candidates=8)
     assert legs
+    # each connection once (several candidate crossings may refine to the same one)
+    phases = {(round(g.details["phase_from"], 6), round(g.details["phase_to"], 6)) for g in legs}
+    assert len(phases) == len(legs)
     for g in legs:
         check_leg(EM, o, g, c)
-        assert abs(g.patch_state[3]) < 1e-9  # symmetric (vx = 0 on y = 0)
+        # symmetric (vx = 0 on y = 0) or one of a mirror pair
+        assert abs(g.patch_state[3]) < 1e-9 or any(
+            np.allclose(mirror(h.patch_state), g.patch_state, atol=1e-8) for h in legs)
+
+
+def test_earth_moon_homoclinic_in_the_moon_realm():
+    """Moon's realm, U2 = {x = 1 - mu, y < 0}, first crossing, C = 3.17 (on the full plane
+    x = 1 - mu the first crossing of most trajectories lies on y > 0, so this is a different
+    cut from the full plane's)."""
+    c = 3.17
+    o = lyapunov(EM, "L1", c)
+    legs, _, _ = connect(o, o, "x=1-mu,y<0", 200, t_max=12.0, max_candidates=4)
+    assert legs
+    for g in legs:
+        check_leg(EM, o, g, c, reach=0.05)
+        assert g.patch_state[1] < 0
+
+
+def test_sun_jupiter_l2_homoclinic_in_the_exterior_realm():
+    """Exterior realm, U4 = {y = 0, x < -1}, first crossing, C = 3.035, L2 Lyapunov orbit
+    (Koon et al. 2000 construct these too, from memory): distinct connections only (each
+    refined pair of phases once), symmetric ones in the middle of mirror pairs."""
+    c = 3.035
+    o = lyapunov(SJ, "L2", c)
+    legs, _, _ = connect(o, o, "y=0,x<-1", 200, t_max=14.0, branch_a="exterior",
+                         branch_b="exterior", max_candidates=8)
+    assert len(legs) >= 2
+    phases = {(round(g.details["phase_from"], 6), round(g.details["phase_to"], 6)) for g in legs}
+    assert len(phases) == len(legs)
+    for g in legs:
+        check_leg(SJ, o, g, c)
+        assert g.patch_state[0] < -1
+    assert any(abs(g.patch_state[3]) < 1e-9 for g in legs)
