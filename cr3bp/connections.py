@@ -209,8 +209,9 @@ def _is_planar(tube):
 # ---- candidates on a common section ---------------------------------------------------------
 
 def _polylines(cut: Crossings, names):
-    """Pieces of the cut polyline between consecutive (cyclic) phases that both crossed."""
-    first = cut.first()
+    """Pieces of the cut polyline between consecutive (cyclic) phases that both crossed (one
+    crossing per trajectory: a tube's cut at its ``count``-th crossing, else the first)."""
+    first = cut.one_each()
     order = np.argsort(first.phase)
     pts = first.coords(names)[order]
     ph = first.phase[order]
@@ -400,7 +401,8 @@ def connect_tubes(tube_u, tube_s, names=None, max_candidates=5, tol=PATCH_TOL, m
     ca, cb = tube_u.section_cut(), tube_s.section_cut()
     if len(ca) < 2 or len(cb) < 2:
         raise NoSolutionError(f"the tubes reach the section {section.label} with {len(ca)} and "
-                              f"{len(cb)} trajectories; grow more points or pick another section")
+                              f"{len(cb)} trajectories; grow more points, allow more time, pick another "
+                              f"section or the other branch (now {tube_u.branch} and {tube_s.branch})")
     cands = cut_intersections(ca, cb, search)
     if not cands:
         gap = _nearest_gap(ca, cb, search)
@@ -472,7 +474,7 @@ def transfer_tubes(tube_u, tube_s, max_candidates=5):
         names = match_names(section, False, False)
         return _spatial_transfer(tube_u, tube_s, names, max_candidates)
     (pname,) = match_names(section, True, False)
-    ca, cb = tube_u.section_cut().first(), tube_s.section_cut().first()
+    ca, cb = tube_u.section_cut().one_each(), tube_s.section_cut().one_each()
     if len(ca) < 2 or len(cb) < 2:
         raise NoSolutionError(f"the tubes reach {section.label} with {len(ca)} and {len(cb)} "
                               "trajectories; nothing to patch")

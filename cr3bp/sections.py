@@ -339,6 +339,13 @@ class Crossings:
         """Only the first crossing of each trajectory."""
         return self.select(self.count == 1)
 
+    def one_each(self) -> "Crossings":
+        """One crossing per trajectory: itself when that is already so (a tube's cut at its
+        ``count``-th crossing, or :meth:`nth`), else :meth:`first`."""
+        if len(self) and np.unique(self.trajectory).size == len(self):
+            return self
+        return self.first()
+
     def nth(self, n: int) -> "Crossings":
         return self.select(self.count == n)
 
@@ -360,15 +367,16 @@ class Crossings:
     def polygon(self, names=("y", "vy")) -> np.ndarray:
         """The cut as a closed polygon in two map coordinates, ordered by orbit phase.
 
-        Only meaningful for a planar tube whose trajectories all crossed (``closed``)."""
-        first = self.first()
+        Only meaningful for a planar tube whose trajectories all crossed (``closed``). Uses
+        one crossing per trajectory (:meth:`one_each`)."""
+        first = self.one_each()
         order = np.argsort(first.phase if first.phase is not None else first.trajectory)
         return first.coords(names)[order]
 
     @property
     def closed(self) -> bool:
         """Whether every trajectory of the tube crossed (so the first cut is a closed curve)."""
-        return len(self.first()) == self.n_trajectories and self.n_trajectories >= 3
+        return len(self.one_each()) == self.n_trajectories and self.n_trajectories >= 3
 
     def area(self, names=("y", "vy")) -> float:
         """Area enclosed by :meth:`polygon` (shoelace formula), in the product of the units."""

@@ -165,3 +165,14 @@ def test_tube_stopped_by_a_half_plane_ends_inside_it():
         r = ref.select((ref.trajectory == j) & (ref.states[:, 0] < 0))
         np.testing.assert_allclose(ends[j], r.states[0], atol=1e-10)
         assert tube.tof[i] == pytest.approx(r.t[0], abs=1e-10)
+
+
+def test_cut_at_a_later_crossing_is_one_curve():
+    """A tube's cut at its 2nd crossing (count = 2 on every row) is used as it is by
+    polygon/closed/area, not emptied by taking first crossings."""
+    cr = crossings(EM, STARTS, hyperplane("y", 0.0), 12.0, count=2).nth(2)
+    assert len(cr) == len(STARTS) and set(cr.count.tolist()) == {2}
+    assert cr.one_each() is cr and cr.closed
+    assert len(cr.polygon(("x", "vx"))) == len(STARTS)
+    both = crossings(EM, STARTS, hyperplane("y", 0.0), 12.0, count=2)
+    assert len(both.one_each()) == len(STARTS) and set(both.one_each().count.tolist()) == {1}
