@@ -109,7 +109,8 @@ def test_each_arc_repropagated_with_scipy(refined):
 def test_delta_v_table_and_bounds(refined):
     """Ephemeris total Δv: (1) the sum of its table; (2) no more than the minimum-norm Newton
     answer (the optimiser keeps only an improvement); (3) per maneuver, the triangle inequality
-    |dv_eph| <= |dv_cr3bp| (1 + 0.1) + |v_eph - v_cr3bp| before + after, at equal epochs: the
+    |dv_eph| <= |dv_cr3bp| (1 + 0.1) + |v_eph - v_cr3bp| before + after, at equal epochs (the
+    departure's pre-burn and the arrival's post-burn states are the converted CR3BP ones): the
     CR3BP impulse seen in the inertial frame differs from its rotating-frame size only by the
     instantaneous anchoring's velocity scale (the Moon's distance and rate vary by ~6 %, its
     eccentricity 0.055; from memory), given a 10 % margin; (4) within a factor 4 of the CR3BP
@@ -124,11 +125,10 @@ def test_delta_v_table_and_bounds(refined):
     assert not newton.optimised and tr.optimised
     assert tr.dv_total_mps <= newton.dv_total_mps + 1e-9
     for m in tr.maneuvers:
-        i = int(np.argmin(np.abs(tr.sample_t_tu - m["t_tu"])))
         hits = np.flatnonzero(np.abs(tr.sample_t_tu - m["t_tu"]) < 1e-9)
         diff = [np.linalg.norm(tr.sample_km[j, 3:] - tr.reference_km[j, 3:]) * 1000 for j in hits]
-        assert hits.size >= 1, i
-        assert m["dv_mps"] <= 1.1 * m["dv_cr3bp_mps"] + 2 * max(diff) + 1e-6
+        assert hits.size == (2 if m["kind"] == "interior" else 1)
+        assert m["dv_mps"] <= 1.1 * m["dv_cr3bp_mps"] + sum(diff) + 1e-6
     assert 0.25 * tr.dv_total_cr3bp_mps <= tr.dv_total_mps <= 4.0 * tr.dv_total_cr3bp_mps
     for a in tr.arcs:
         assert 0.0 < a["max_position_diff_km"] < 20_000.0 and a["patches"] >= 3
