@@ -13,7 +13,8 @@ Howell, AAS 11-515, 2011, from memory):
 
 * position and velocity continuity between consecutive patch points of an arc;
 * position continuity across every declared interior maneuver (the velocity jump is free and
-  is that maneuver's Δv);
+  is that maneuver's Δv); a maneuver at a route node (a junction of two legs) also keeps the
+  node's converted position, as :mod:`cr3bp.stitch` holds it;
 * the start position held (and the start velocity too, if the route declares no departure
   maneuver; otherwise the departure Δv is measured from the converted CR3BP pre-burn state);
 * the end position held (``hold_end``), with an arrival Δv measured to the converted CR3BP
@@ -109,8 +110,15 @@ class RouteTransition:
 class _Problem:
     """Constraints and Δv of the patch states ``z`` (flattened (P, 6)); see the module docstring."""
 
-    def __init__(self, model, t, arc_of, start, start_pre, end, end_post, hold_end):
+    def __init__(self, model, t, arc_of, start, start_pre, end, end_post, hold_end, held=(), free_times=False):
         self.model, self.t, self.arc_of = model, t, arc_of
+        self.held = tuple(held)                    # (patch index, position): a route node passed
+        # junction times T_0 .. T_J (arc j spans T_j .. T_j+1); patch i at its fraction of its arc
+        J = int(arc_of.max()) + 1
+        self.T0 = np.array([t[arc_of == j][0] for j in range(J)] + [t[-1]])
+        d = self.T0[arc_of + 1] - self.T0[arc_of]
+        self.frac = (t - self.T0[arc_of]) / d
+        self.nT = (J - 1) if free_times else 0     # interior junction times free (start, end held)
         self.P = t.size
         same = arc_of[:-1] == arc_of[1:]
         self.seg = np.flatnonzero(same)            # segment k: patch k -> k + 1, within an arc
@@ -123,29 +131,63 @@ class _Problem:
         key, val = self._cache
         if key is not None and np.array_equal(key, z):
             return val
-        X = z.reshape(self.P, 6)
+        X = z[:6 * self.P].reshape(self.P, 6)
         k = self.seg
-        ends, phis = _model.propagate_many(self.model, X[k], self.t[k], self.t[k + 1], stm=True)
+        t = self.times(z)
+        ends, phis = _model.propagate_many(self.model, X[k], t[k], t[k + 1], stm=True)
         self._cache = (z.copy(), (ends, phis))
         return ends, phis
 
+    def junctions(self, z):
+        T = self.T0.copy()
+        if self.nT:
+            T[1:-1] = z[6 * self.P:]
+        return T
+
+    def times(self, z):
+        """Patch times of ``z`` (each patch at its fixed fraction of its arc)."""
+        T = self.junctions(z)
+        a = self.arc_of
+        return T[a] + self.frac * (T[a + 1] - T[a])
+
+    def _time_cols(self, i, n):
+        """d t_i / d z (row of length n)."""
+        g = np.zeros(n)
+        if self.nT:
+            j = self.arc_of[i]
+            if 1 <= j <= self.nT:
+                g[6 * self.P + j - 1] += 1.0 - self.frac[i]
+            if 1 <= j + 1 <= self.nT:
+                g[6 * self.P + j] += self.frac[i]
+        return g
+
     def constraints(self, z):
         """F(z) and its Jacobian."""
-        X = z.reshape(self.P, 6)
+        X = z[:6 * self.P].reshape(self.P, 6)
         ends, phis = self._prop(z)
         n = z.size
+        N = 6 * self.P
+        t = self.times(z)
         rows, jac = [], []
         for i, k in enumerate(self.seg):
             rows.append(ends[i] - X[k + 1])
             J = np.zeros((6, n))
             J[:, 6 * k:6 * k + 6] = phis[i]
             J[:, 6 * k + 6:6 * k + 12] -= np.eye(6)
+            if self.nT:      # dF/dt_k = -Phi f(t_k, x_k), dF/dt_k+1 = f(t_k+1, end_k)
+                J += np.outer(-phis[i] @ self.model.acceleration(t[k], X[k]), self._time_cols(k, n))
+                J += np.outer(self.model.acceleration(t[k + 1], ends[i]), self._time_cols(k + 1, n))
             jac.append(J)
         for k in self.jump:
             rows.append(X[k, :3] - X[k + 1, :3])
             J = np.zeros((3, n))
             J[:, 6 * k:6 * k + 3] = np.eye(3)
             J[:, 6 * k + 6:6 * k + 9] = -np.eye(3)
+            jac.append(J)
+        for k, pos in self.held:
+            rows.append(X[k, :3] - pos)
+            J = np.zeros((3, n))
+            J[:, 6 * k:6 * k + 3] = np.eye(3)
             jac.append(J)
         c = 3 if self.start_pre is not None else 6
         rows.append(X[0, :c] - self.start[:c])
@@ -155,14 +197,15 @@ class _Problem:
         if self.hold_end:
             rows.append(X[-1, :3] - self.end[:3])
             J = np.zeros((3, n))
-            J[:, n - 6:n - 3] = np.eye(3)
+            J[:, N - 6:N - 3] = np.eye(3)
             jac.append(J)
         return np.concatenate(rows), np.vstack(jac)
 
     def burns(self, z):
         """[(kind, patch index, Δv vector, d(Δv)/dz)] for every declared maneuver."""
-        X = z.reshape(self.P, 6)
+        X = z[:6 * self.P].reshape(self.P, 6)
         n = z.size
+        N = 6 * self.P
         out = []
         if self.start_pre is not None:
             J = np.zeros((3, n))
@@ -175,7 +218,7 @@ class _Problem:
             out.append(("interior", int(k), X[k + 1, 3:] - X[k, 3:], J))
         if self.end_post is not None:
             J = np.zeros((3, n))
-            J[:, n - 3:] = -np.eye(3)
+            J[:, N - 3:N] = -np.eye(3)
             out.append(("arrival", self.P - 1, self.end_post[3:] - X[-1, 3:], J))
         return out
 
@@ -216,6 +259,9 @@ def _newton(p, z, tol, max_iter, progress=None, stage="Newton"):
         alpha = 1.0
         for _ in range(8):
             zn = z + alpha * d
+            if p.nT and np.any(np.diff(p.junctions(zn)) <= 0):
+                alpha *= 0.5
+                continue
             try:
                 Fn, _ = p.constraints(zn)
             except ConvergenceError:
@@ -259,8 +305,9 @@ def _check_route(system, times_tu, states, maneuvers):
 
 def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", "earth", "moon"), *,
                      central=None, srp=None, patch_days: float = PATCH_DAYS, min_patches: int = 2,
-                     hold_end: bool = True, optimise: bool = True, tol: float = TOLERANCE,
-                     max_iter: int = 25, slsqp_iter: int = 200, progress=None) -> RouteTransition:
+                     hold_end: bool = True, optimise: bool = True, free_times: bool = True, tol: float = TOLERANCE,
+                     max_iter: int = 25, slsqp_iter: int = 200, progress=None, anchor: str = "ephemeris",
+                     sample=None) -> RouteTransition:
     """Carry a stitched CR3BP route into the ephemeris model at ``epoch`` (module docstring).
 
     Parameters
@@ -274,8 +321,12 @@ def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", 
     patch_days : float             one more patch segment per this flight time on an arc
     min_patches : int              least patch segments on an arc (>= 1)
     hold_end : bool                hold the end position
+    free_times : bool              let the interior maneuver times move (start and end held)
     optimise : bool                step 2 (SLSQP on the total Δv) on or off
     progress : callable(stage, iteration, mismatch), optional
+    anchor, sample : the frame anchoring of the conversion and the body sampler of
+                     :func:`cr3bp.fidelity.model.build` (``"circular"`` with the idealised
+                     circular motion gives back the CR3BP: the consistency check)
 
     Raises
     ------
@@ -305,7 +356,7 @@ def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", 
                                  "sample time of the route (before and after the impulse)")
             cuts.append((int(hit[0]), (tm, dv, node, mag)))
     bounds = [0] + [c + 1 for c, _ in cuts] + [t.size]
-    spec = frames.frame(system, epoch, anchor="ephemeris", axes="j2000-equator", center="secondary")
+    spec = frames.frame(system, epoch, anchor=anchor, axes="j2000-equator", center="secondary")
     central = (central or _central_default(system)).lower()
     lu, vu = system.length_km, system.velocity_kms
     scale = np.array([lu, lu, lu, vu, vu, vu])
@@ -350,16 +401,25 @@ def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", 
         end_post = converted(t1, post)
     span = t1 - t0
     margin = 0.02 * span
-    mdl = _model.build(system, spec.epoch_tdb_s, t0 - margin, t1 + margin, central, bodies, srp)
-    p = _Problem(mdl, pt, arc_of, X0[0], start_pre, X0[-1], end_post, hold_end)
-    z1, it1, hist1 = _newton(p, X0.ravel().copy(), tol, max_iter, progress, "Newton")
+    mdl = _model.build(system, spec.epoch_tdb_s, t0 - margin, t1 + margin, central, bodies, srp, sample=sample)
+    # an interior maneuver at a route node (not at a mere patch point of a leg) keeps the
+    # node's position, as cr3bp.stitch holds a junction at its node
+    jumps = np.flatnonzero(arc_of[:-1] != arc_of[1:])
+    held = [(int(k), X0[k, :3].copy()) for k, (_, c) in zip(jumps, cuts)
+            if c[2] and c[2] != "patch point"]
+    p = _Problem(mdl, pt, arc_of, X0[0], start_pre, X0[-1], end_post, hold_end, held, free_times)
+    zinit = np.concatenate([X0.ravel(), p.T0[1:-1] if p.nT else np.zeros(0)])
+    z1, it1, hist1 = _newton(p, zinit, tol, max_iter, progress, "Newton")
     z, optimised, note, iters = z1, False, "", {"newton": it1}
     hist = list(hist1)
     if optimise and (start_pre is not None or end_post is not None or p.jump.size):
         from scipy.optimize import minimize
         cost1 = p.cost(z1)
         cons = {"type": "eq", "fun": lambda v: p.constraints(v)[0], "jac": lambda v: p.constraints(v)[1]}
-        sol = minimize(p.smooth_cost, z1, jac=True, method="SLSQP", constraints=[cons],
+        bounds = [(None, None)] * (6 * p.P)
+        d = np.diff(p.T0)
+        bounds += [(p.T0[j] - 0.4 * d[j - 1], p.T0[j] + 0.4 * d[j]) for j in range(1, p.nT + 1)]
+        sol = minimize(p.smooth_cost, z1, jac=True, method="SLSQP", constraints=[cons], bounds=bounds,
                        options={"maxiter": int(slsqp_iter), "ftol": 1e-14})
         iters["slsqp"] = int(sol.nit)
         try:
@@ -372,13 +432,16 @@ def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", 
                 note = f"SLSQP gave no improvement ({sol.message}); continuity solution kept"
         except ConvergenceError as e:
             note = f"SLSQP answer could not be polished ({e}); continuity solution kept"
-    X = z.reshape(-1, 6)
+    X = z[:6 * p.P].reshape(-1, 6)
+    pt_cr3bp = pt
+    pt = p.times(z)
     F, _ = p.constraints(z)
     # continuity (position everywhere, velocity at patch points without a maneuver)
     ends, _ = _model.propagate_many(mdl, X[p.seg], pt[p.seg], pt[p.seg + 1])
     gap = ends - X[p.seg + 1]
     jpos = np.abs(X[p.jump, :3] - X[p.jump + 1, :3]) if p.jump.size else np.zeros((0, 3))
-    cont_km = float(max(np.abs(gap[:, :3]).max(initial=0.0), jpos.max(initial=0.0),
+    hpos = [np.abs(X[k, :3] - pos).max() for k, pos in held]
+    cont_km = float(max(np.abs(gap[:, :3]).max(initial=0.0), jpos.max(initial=0.0), max(hpos, default=0.0),
                         np.abs(X[0, :3] - X0[0, :3]).max(),
                         np.abs(X[-1, :3] - X0[-1, :3]).max() if hold_end else 0.0) * lu)
     cont_mps = float(np.abs(gap[:, 3:]).max(initial=0.0) * vu_mps)
@@ -388,7 +451,10 @@ def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", 
     # dense samples: the route's own sample times, arc by arc
     samp_idx = np.concatenate(samp_idx)
     samp_arc = np.concatenate(samp_arc)
-    st = t[samp_idx]
+    st_cr3bp = t[samp_idx]
+    T0, T1 = p.T0, p.junctions(z)          # sample times mapped to the (moved) arcs
+    st = T1[samp_arc] + (st_cr3bp - T0[samp_arc]) / (T0[samp_arc + 1] - T0[samp_arc]) * (
+        T1[samp_arc + 1] - T1[samp_arc])
     samp = np.empty((st.size, 6))
     for k in range(pt.size):
         if k < pt.size - 1 and arc_of[k] == arc_of[k + 1]:
@@ -396,7 +462,7 @@ def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", 
             arc = _model.propagate(mdl, X[k], pt[k], pt[k + 1], t_eval=np.clip(st[sel], pt[k], pt[k + 1]))
             samp[sel] = arc.states
     samp_km = samp * scale
-    ref_km = _cr3bp_to_inertial(system, spec, st, s[samp_idx], central)
+    ref_km = _cr3bp_to_inertial(system, spec, st_cr3bp, s[samp_idx], central)
     for row in arc_rows:
         m = samp_arc == row["arc"] - 1
         row["max_position_diff_km"] = float(np.linalg.norm(samp_km[m, :3] - ref_km[m, :3], axis=1).max())
@@ -408,7 +474,9 @@ def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", 
         before = {"departure": start_pre, "interior": X[k], "arrival": X[-1]}[kind]
         after = {"departure": X[0], "interior": X[k + 1] if kind == "interior" else None,
                  "arrival": end_post}[kind]
-        rows.append({"t_days": float(tm * system.time_days), "t_tu": float(tm), "node": node, "kind": kind,
+        te = float(pt[k + 1] if kind == "interior" else pt[k])
+        rows.append({"t_days": te * system.time_days, "t_tu": te, "t_cr3bp_days": float(tm * system.time_days),
+                     "node": node, "kind": kind,
                      "dv_cr3bp_mps": mag, "dv_mps": float(np.linalg.norm(dv) * vu_mps),
                      "dv_vector_kms": (dv * vu).tolist(), "position_km": (X[k, :3] * lu).tolist(),
                      "state_before_km": (before * scale).tolist(), "state_after_km": (after * scale).tolist()})
@@ -420,7 +488,8 @@ def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", 
         sample_t_tu=st, sample_km=samp_km, reference_km=ref_km, sample_arc=samp_arc, iterations=iters,
         residuals=tuple(hist), optimised=optimised, note=note,
         options={"central": central, "patch_days": float(patch_days), "min_patches": int(min_patches),
-                 "hold_end": bool(hold_end), "tolerance": tol, "final_max_constraint": float(np.abs(F).max())})
+                 "hold_end": bool(hold_end), "held_nodes": [c[2] for _, c in cuts if c[2] and c[2] != "patch point"],
+                 "tolerance": tol, "final_max_constraint": float(np.abs(F).max())})
 
 
 def read_route(path):
