@@ -137,13 +137,15 @@ def _run_route(args, sysm):
                               progress=lambda stage, i, err: common.progress(
                                   args, f"  {stage} iteration {i}: largest mismatch {err:.3e} (nondimensional)"))
     central = tr.model.central
-    headers = ["t_days", "node", "kind", "dv_cr3bp_mps", "dv_ephemeris_mps"]
-    rows = [[m["t_days"], m["node"], m["kind"], m["dv_cr3bp_mps"], m["dv_mps"]] for m in tr.maneuvers]
-    rows.append(["total", "", "", tr.dv_total_cr3bp_mps, tr.dv_total_mps])
+    headers = ["t_days", "t_cr3bp_days", "node", "kind", "dv_cr3bp_mps", "dv_ephemeris_mps"]
+    rows = [[m["t_days"], m["t_cr3bp_days"], m["node"], m["kind"], m["dv_cr3bp_mps"], m["dv_mps"]]
+            for m in tr.maneuvers]
+    rows.append(["total", "", "", "", tr.dv_total_cr3bp_mps, tr.dv_total_mps])
     arcs = common.format_table(["arc", "t_start_days", "t_end_days", "patches", "max_dr_km", "max_dv_mps"],
                                [[a["arc"], a["t_start_days"], a["t_end_days"], a["patches"],
                                  a["max_position_diff_km"], a["max_velocity_diff_mps"]] for a in tr.arcs],
-                               title="drift of each arc from the CR3BP route (equal epochs)")
+                               title="drift of each arc from the CR3BP route (CR3BP times; compared at the same fraction "
+                                     "of the arc: equal epochs where the maneuver times did not move)")
     title = (f"{sysm.name}: route {args.route} in the ephemeris model ({central} + {', '.join(tr.model.bodies)}"
              f"{', SRP' if srp else ''}) from {args.epoch}; {len(tr.arcs)} arcs, {tr.t_tu.size} patch points; "
              f"iterations {tr.iterations}; continuity {tr.continuity_km * 1000:.3g} m / "
