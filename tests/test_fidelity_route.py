@@ -84,11 +84,19 @@ def test_start_and_end_positions_held(refined):
     tr, _ = refined
     assert np.abs(tr.patches_km[0, :3] - tr.initial_km[0, :3]).max() < POS_TOL_KM
     assert np.abs(tr.patches_km[-1, :3] - tr.initial_km[-1, :3]).max() < POS_TOL_KM
-    # the route's nodes p1 and p2 (junctions of legs) are passed at their converted positions
-    # (converted at the CR3BP epoch of the node)
+    # the route's nodes p1 and p2 (junctions of legs; fixed points of the rotating frame) are
+    # passed at their places converted at the (moved) maneuver epochs
+    from cr3bp import frames
+    from cr3bp.fidelity.transition import _cr3bp_to_inertial
     assert tr.options["held_nodes"] == ["p1", "p2"]
-    k = np.flatnonzero(tr.arc_of[:-1] != tr.arc_of[1:])
-    assert np.abs(tr.patches_km[k, :3] - tr.initial_km[k, :3]).max() < POS_TOL_KM
+    t, st, _ = refined[1]
+    spec = frames.frame(S, EPOCH, anchor="ephemeris", axes="j2000-equator", center="secondary")
+    for m in (m for m in tr.maneuvers if m["kind"] == "interior"):
+        i = int(np.argmin(np.abs(t - m["t_cr3bp_days"] / S.time_days)))
+        node = np.concatenate([st[i, :3], np.zeros(3)])[None]
+        want = _cr3bp_to_inertial(S, spec, np.array([m["t_tu"]]), node, "moon")[0, :3]
+        assert np.abs(np.asarray(m["position_km"]) - want).max() < POS_TOL_KM, m["node"]
+        assert abs(m["t_days"] - m["t_cr3bp_days"]) > 1e-4      # the time did move (> 9 s)
     assert [m["kind"] for m in tr.maneuvers] == ["departure", "interior", "interior", "arrival"]
 
 

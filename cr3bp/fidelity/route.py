@@ -7,14 +7,16 @@ own samples, converted to km, km/s about the central body on J2000 equator axes 
 instantaneous ephemeris anchoring of :mod:`cr3bp.frames` (as :mod:`.transition` does).
 
 Unknowns: every patch state (inertial, nondimensional); an arc's last state is the state just
-before its maneuver, the next arc's first state the state just after. Patch times are held
-(the route's own schedule). Constraints (multiple shooting in the ephemeris model: Pavlak &
+before its maneuver, the next arc's first state the state just after. The start and end
+times are held; the interior maneuver times may move (``free_times``), each patch point
+keeping its fraction of its arc. Constraints (multiple shooting in the ephemeris model: Pavlak &
 Howell, AAS 11-515, 2011, from memory):
 
 * position and velocity continuity between consecutive patch points of an arc;
 * position continuity across every declared interior maneuver (the velocity jump is free and
   is that maneuver's Δv); a maneuver at a route node (a junction of two legs) also keeps the
-  node's converted position, as :mod:`cr3bp.stitch` holds it;
+  node's position, a fixed point of the rotating frame converted at the maneuver's (moving)
+  time, as :mod:`cr3bp.stitch` holds it;
 * the start position held (and the start velocity too, if the route declares no departure
   maneuver; otherwise the departure Δv is measured from the converted CR3BP pre-burn state);
 * the end position held (``hold_end``), with an arrival Δv measured to the converted CR3BP
@@ -112,7 +114,7 @@ class _Problem:
 
     def __init__(self, model, t, arc_of, start, start_pre, end, end_post, hold_end, held=(), free_times=False):
         self.model, self.t, self.arc_of = model, t, arc_of
-        self.held = tuple(held)                    # (patch index, position): a route node passed
+        self.held = tuple(held)                    # (patch index, fn(T) -> inertial position, velocity)
         # junction times T_0 .. T_J (arc j spans T_j .. T_j+1); patch i at its fraction of its arc
         J = int(arc_of.max()) + 1
         self.T0 = np.array([t[arc_of == j][0] for j in range(J)] + [t[-1]])
@@ -184,10 +186,13 @@ class _Problem:
             J[:, 6 * k:6 * k + 3] = np.eye(3)
             J[:, 6 * k + 6:6 * k + 9] = -np.eye(3)
             jac.append(J)
-        for k, pos in self.held:
+        for k, fn in self.held:      # the node co-rotates: its inertial place depends on the time
+            pos, vel = fn(t[k])
             rows.append(X[k, :3] - pos)
             J = np.zeros((3, n))
             J[:, 6 * k:6 * k + 3] = np.eye(3)
+            if self.nT:
+                J -= np.outer(vel, self._time_cols(k, n))
             jac.append(J)
         c = 3 if self.start_pre is not None else 6
         rows.append(X[0, :c] - self.start[:c])
@@ -405,7 +410,13 @@ def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", 
     # an interior maneuver at a route node (not at a mere patch point of a leg) keeps the
     # node's position, as cr3bp.stitch holds a junction at its node
     jumps = np.flatnonzero(arc_of[:-1] != arc_of[1:])
-    held = [(int(k), X0[k, :3].copy()) for k, (_, c) in zip(jumps, cuts)
+    def node_at(rot_pos):
+        def fn(time):
+            q = converted(float(time), np.concatenate([rot_pos, np.zeros(3)]))
+            return q[:3], q[3:]
+        return fn
+
+    held = [(int(k), node_at(s[i, :3].copy())) for k, (i, c) in zip(jumps, cuts)
             if c[2] and c[2] != "patch point"]
     p = _Problem(mdl, pt, arc_of, X0[0], start_pre, X0[-1], end_post, hold_end, held, free_times)
     zinit = np.concatenate([X0.ravel(), p.T0[1:-1] if p.nT else np.zeros(0)])
@@ -440,7 +451,7 @@ def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", 
     ends, _ = _model.propagate_many(mdl, X[p.seg], pt[p.seg], pt[p.seg + 1])
     gap = ends - X[p.seg + 1]
     jpos = np.abs(X[p.jump, :3] - X[p.jump + 1, :3]) if p.jump.size else np.zeros((0, 3))
-    hpos = [np.abs(X[k, :3] - pos).max() for k, pos in held]
+    hpos = [np.abs(X[k, :3] - fn(pt[k])[0]).max() for k, fn in held]
     cont_km = float(max(np.abs(gap[:, :3]).max(initial=0.0), jpos.max(initial=0.0), max(hpos, default=0.0),
                         np.abs(X[0, :3] - X0[0, :3]).max(),
                         np.abs(X[-1, :3] - X0[-1, :3]).max() if hold_end else 0.0) * lu)
