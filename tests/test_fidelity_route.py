@@ -222,6 +222,7 @@ def test_cli_end_to_end_oem_read_back(route_dir, refined, tmp_path, capsys):
     (["--patch-days", "0"], "--patch-days"),
     (["--bodies", "sun,vulcan"], "unknown body 'vulcan'"),
     (["--epoch", "2031-13-01T00:00:00Z"], "2031-13-01"),
+    (["--system", "sun-earth"], "designed in system 'earth-moon'"),
 ])
 def test_bad_input_exit_2(route_dir, tmp_path, capsys, extra, needle):
     argv = ["refine", "--system", "earth-moon", "--route", str(route_dir), "--epoch", EPOCH]

@@ -127,7 +127,7 @@ def _run_route(args, sysm):
     if args.plot and not args.plot.lower().endswith(".png"):
         raise InputError(f"--plot '{args.plot}' must name a .png file")
     _check_epoch(args, sysm)
-    t_tu, states, maneuvers = read_route(args.route)
+    t_tu, states, maneuvers = read_route(args.route, sysm)
     common.progress(args, f"route: {len(t_tu)} samples over {(t_tu[-1] - t_tu[0]) * sysm.time_days:.4g} d, "
                           f"{len(maneuvers)} maneuvers; multiple shooting in the ephemeris model...")
     with warnings.catch_warnings():

@@ -503,11 +503,12 @@ def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", 
                  "tolerance": tol, "final_max_constraint": float(np.abs(F).max())})
 
 
-def read_route(path):
+def read_route(path, system=None):
     """A ``librate route --out`` folder (or a file in it) -> (times_tu, states, maneuvers).
 
     Reads ``trajectory.csv`` (columns ``t_tu``, ``x_lu`` ... ``vz_vu``) and the maneuvers of
-    ``route.json`` (key ``stitched``).
+    ``route.json`` (key ``stitched``); with ``system``, the route's system (key ``system``:
+    ``name``, ``mu``) must be the same.
     """
     import csv
     import json
@@ -519,9 +520,15 @@ def read_route(path):
         if not f.is_file():
             raise InputError(f"--route '{path}': no {f.name} in {d} (write one with librate route --out DIR)")
     try:
-        maneuvers = json.loads(rj.read_text())["stitched"]["maneuvers"]
+        body = json.loads(rj.read_text())
+        maneuvers = body["stitched"]["maneuvers"]
     except (ValueError, KeyError, TypeError):
         raise InputError(f"{rj} is not a route file (no stitched.maneuvers)") from None
+    if system is not None and isinstance(body.get("system"), dict):
+        name, mu = body["system"].get("name"), body["system"].get("mu")
+        if name != system.name or (mu is not None and abs(float(mu) - system.mu) > 1e-12 * max(1.0, system.mu)):
+            raise InputError(f"--route '{path}' was designed in system '{name}' (mu = {mu}), not in "
+                             f"'{system.name}' (mu = {system.mu}); give --system {name}")
     lines = [ln for ln in tj.read_text().splitlines() if ln and not ln.startswith("#")]
     reader = csv.reader(lines)
     try:
