@@ -209,8 +209,9 @@ def _is_planar(tube):
 # ---- candidates on a common section ---------------------------------------------------------
 
 def _polylines(cut: Crossings, names):
-    """Pieces of the cut polyline between consecutive (cyclic) phases that both crossed."""
-    first = cut.first()
+    """Pieces of the cut polyline between consecutive (cyclic) phases that both crossed (one
+    crossing per trajectory: a tube's cut at its ``count``-th crossing, else the first)."""
+    first = cut.one_each()
     order = np.argsort(first.phase)
     pts = first.coords(names)[order]
     ph = first.phase[order]
@@ -400,7 +401,8 @@ def connect_tubes(tube_u, tube_s, names=None, max_candidates=5, tol=PATCH_TOL, m
     ca, cb = tube_u.section_cut(), tube_s.section_cut()
     if len(ca) < 2 or len(cb) < 2:
         raise NoSolutionError(f"the tubes reach the section {section.label} with {len(ca)} and "
-                              f"{len(cb)} trajectories; grow more points or pick another section")
+                              f"{len(cb)} trajectories; grow more points, allow more time, pick another "
+                              f"section or the other branch (now {tube_u.branch} and {tube_s.branch})")
     cands = cut_intersections(ca, cb, search)
     if not cands:
         gap = _nearest_gap(ca, cb, search)
@@ -420,6 +422,8 @@ def connect_tubes(tube_u, tube_s, names=None, max_candidates=5, tol=PATCH_TOL, m
         except ConvergenceError as e:
             failures.append(str(e))
             continue
+        if any(_same_phases(ta, tb, g, tube_u.period, tube_s.period) for g in legs):
+            continue  # the same connection reached from another candidate crossing
         dvn = float(np.linalg.norm(eb[2][3:6] - ea[2][3:6]))
         method = ("two-segment multiple shooting on the section, Newton in the departure phases "
                   "(matched: " + ", ".join(names) + ")")
@@ -443,6 +447,16 @@ def connect_tubes(tube_u, tube_s, names=None, max_candidates=5, tol=PATCH_TOL, m
     return legs
 
 
+def _same_phases(ta, tb, leg, Ta, Tb, tol=1e-7):
+    """Whether refined departure times (ta, tb) give the same connection as ``leg`` (phases
+    equal to ``tol``, cyclically)."""
+    def close(f, g):
+        d = abs((f - g) % 1.0)
+        return min(d, 1.0 - d) < tol
+    return (close((ta / Ta) % 1.0, leg.details["phase_from"])
+            and close((tb / Tb) % 1.0, leg.details["phase_to"]))
+
+
 def _nearest_gap(ca, cb, names):
     a, b = ca.coords(names), cb.coords(names)
     d = np.linalg.norm(a[:, None, :] - b[None, :, :], axis=2)
@@ -460,7 +474,7 @@ def transfer_tubes(tube_u, tube_s, max_candidates=5):
         names = match_names(section, False, False)
         return _spatial_transfer(tube_u, tube_s, names, max_candidates)
     (pname,) = match_names(section, True, False)
-    ca, cb = tube_u.section_cut().first(), tube_s.section_cut().first()
+    ca, cb = tube_u.section_cut().one_each(), tube_s.section_cut().one_each()
     if len(ca) < 2 or len(cb) < 2:
         raise NoSolutionError(f"the tubes reach {section.label} with {len(ca)} and {len(cb)} "
                               "trajectories; nothing to patch")

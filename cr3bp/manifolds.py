@@ -224,7 +224,10 @@ class Stop:
             if self.section.kind == "apsis":
                 raise InputError("an apsis cannot stop a tube; grow the tube to a time limit and "
                                  "take its apsides with sections.crossings")
-            evs.append(self.section.event(system, time_sign, True, self.count))
+            if self.section.bounded:  # recorded, filtered to the half-plane in _globalise
+                evs.append(self.section.event(system, time_sign, False, 1))
+            else:
+                evs.append(self.section.event(system, time_sign, True, self.count))
             names.append("section")
         for p, alt in self.altitudes:
             body = (system.primary, system.secondary)[p]
@@ -502,21 +505,49 @@ def grow_tube(orbit, stability: str, branch: str, n_points: int = 200, until=Non
                 w, starts, tof, ends, status, stop, spacing, orbit)
 
 
+def bounded_max_events(count: int) -> int:
+    """Events recorded per trajectory when a half-plane section's crossings are filtered
+    after the propagation (crossings outside the bound take room too)."""
+    return 16 * int(count) + 48
+
+
 def _globalise(system, starts, stop, sign, progress=None):
     events, names = stop.events(system, sign)
     if progress is not None:
         progress(0, len(starts), f"propagating {len(starts)} trajectories")
-    res = batch(system, starts, sign * stop.t_max, events, max_events=stop.count + 8)
+    sec = stop.section
+    bounded = sec is not None and sec.bounded
+    res = batch(system, starts, sign * stop.t_max, events,
+                max_events=bounded_max_events(stop.count) if bounded else stop.count + 8)
     status = []
+    tof = np.array(res.t_final, dtype=float)
+    ends = np.array(res.states, dtype=float)
     for i in range(len(starts)):
         st = str(res.status[i])
+        idx = np.asarray(res.event_index[i], dtype=int)
+        if bounded:
+            # the count-th crossing inside the half-plane ends the trajectory; other crossings
+            # are passed through (Stop.events made the plane event non-terminal)
+            et = np.asarray(res.event_t[i], dtype=float)
+            es = np.asarray(res.event_states[i], dtype=float).reshape(-1, 6)
+            hit = np.nonzero((idx == 0) & (np.abs(et) > 1e-12) & sec.inside(es))[0] \
+                if idx.size else np.zeros(0, dtype=int)
+            if hit.size >= stop.count:
+                k = hit[stop.count - 1]
+                tof[i], ends[i] = et[k], es[k]
+                status.append("section")
+                continue
+            other = idx[idx != 0]
+            if st in ("event", "impact", "escape"):
+                st = names[int(other[-1])] if other.size else st
+            status.append(st)
+            continue
         if st in ("event", "impact", "escape"):
-            idx = np.asarray(res.event_index[i], dtype=int)
             st = names[int(idx[-1])] if idx.size else st
         status.append(st)
     if progress is not None:
         progress(len(starts), len(starts), "propagated")
-    return np.asarray(res.t_final, dtype=float), np.asarray(res.states, dtype=float), tuple(status)
+    return tof, ends, tuple(status)
 
 
 def _lagrange_jacobi(system, point) -> float:

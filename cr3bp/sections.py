@@ -19,6 +19,13 @@ apsis       ``(r - r_primary) . v = 0`` (peri-/apo-)    per-trajectory steps, Ne
 its time derivative is ``|v|^2 + (r - r_p) . a`` (a the rotating-frame acceleration), which
 Newton's method uses.
 
+A plane may be bounded to a half-plane by a strict inequality on another coordinate
+(``y=0,x<0``: the part of ``y = 0`` with ``x < 0``; ``x=1-mu:-,y>0``). Crossings outside the
+half-plane are skipped, not stopped at: the ``count``-th crossing is the ``count``-th one
+inside the bound (the half-plane sections U1..U4 of Koon, Lo, Marsden & Ross, "Heteroclinic
+connections between periodic orbits and resonance transitions in celestial mechanics",
+*Chaos* 10, 2000, §3 -- from memory).
+
 Directions are physical: ``+1`` keeps crossings where the section function increases in
 forward time (``vx > 0`` at ``x = c``; for an apsis, a periapsis), whatever the direction of
 the propagation.
@@ -60,6 +67,8 @@ class Section:
     direction : int         +1, -1 or 0 (both), physical (see module docstring)
     primary : int           0 larger, 1 smaller (sphere, apsis)
     label : str             as the user wrote it, e.g. ``"x=1-mu"``
+    bound : tuple           ``()`` or ``(coordinate, sign, value)``: a plane restricted to the
+                            half-plane ``sign * (s[coordinate] - value) > 0``
     """
 
     kind: str
@@ -68,6 +77,19 @@ class Section:
     direction: int = 0
     primary: int = 1
     label: str = ""
+    bound: tuple = ()
+
+    @property
+    def bounded(self) -> bool:
+        return bool(self.bound)
+
+    def inside(self, states) -> np.ndarray:
+        """Whether (N, 6) states lie in the bound's half-plane (all True when unbounded)."""
+        s = np.atleast_2d(np.asarray(states, dtype=float))
+        if not self.bound:
+            return np.ones(s.shape[0], dtype=bool)
+        k, sign, value = self.bound
+        return sign * (s[:, int(k)] - value) > 0
 
     def g(self, system, states) -> np.ndarray:
         """Section function of (N, 6) states (zero on the section)."""
@@ -93,20 +115,47 @@ class Section:
         return None
 
     def to_dict(self) -> dict:
-        return {"kind": self.kind, "label": self.label, "coordinate": list(COORDS)[self.coordinate]
-                if self.kind == "plane" else None, "value": self.value, "direction": self.direction,
-                "primary": self.primary if self.kind != "plane" else None}
+        d = {"kind": self.kind, "label": self.label, "coordinate": list(COORDS)[self.coordinate]
+             if self.kind == "plane" else None, "value": self.value, "direction": self.direction,
+             "primary": self.primary if self.kind != "plane" else None}
+        if self.bound:
+            k, sign, value = self.bound
+            d["bound"] = {"coordinate": list(COORDS)[int(k)], "side": "<" if sign < 0 else ">",
+                          "value": value}
+        return d
 
 
-def hyperplane(coordinate, value: float, direction: int = 0, label: str = "") -> Section:
-    """The plane ``s[coordinate] = value`` (coordinate a name such as ``"x"`` or an index)."""
+def hyperplane(coordinate, value: float, direction: int = 0, label: str = "",
+               bound=None) -> Section:
+    """The plane ``s[coordinate] = value`` (coordinate a name such as ``"x"`` or an index).
+
+    ``bound = (coordinate, side, value)`` with side ``"<"`` or ``">"`` (or -1/+1) keeps only
+    the half-plane where that other coordinate is below / above the value."""
     if isinstance(coordinate, str):
         if coordinate not in COORDS:
             raise InputError(f"unknown section coordinate '{coordinate}'; allowed: {', '.join(COORDS)}")
         coordinate = COORDS[coordinate]
     _check_direction(direction)
-    return Section("plane", int(coordinate), float(value), int(direction), 1,
-                   label or f"{list(COORDS)[coordinate]}={value:g}")
+    b = ()
+    if bound:
+        bc, side, bv = bound
+        if isinstance(bc, str):
+            if bc not in COORDS:
+                raise InputError(f"unknown bound coordinate '{bc}'; allowed: {', '.join(COORDS)}")
+            bc = COORDS[bc]
+        if int(bc) == int(coordinate) or int(bc) not in range(6):
+            raise InputError(f"a half-plane bound must be on another coordinate than the plane's "
+                             f"({list(COORDS)[coordinate]})")
+        sign = {"<": -1, ">": 1, -1: -1, 1: 1}.get(side)
+        if sign is None:
+            raise InputError(f"bound side {side!r} must be '<' or '>'")
+        if not math.isfinite(float(bv)):
+            raise InputError(f"bound value {bv!r} is not finite")
+        b = (int(bc), int(sign), float(bv))
+    text = f"{list(COORDS)[coordinate]}={value:g}"
+    if b:
+        text += f",{list(COORDS)[b[0]]}{'<' if b[1] < 0 else '>'}{b[2]:g}"
+    return Section("plane", int(coordinate), float(value), int(direction), 1, label or text, b)
 
 
 def sphere(system, primary, radius: float, direction: int = -1, label: str = "") -> Section:
@@ -188,11 +237,31 @@ def parse_section(text: str, system) -> Section:
     """A section from text.
 
     Forms: ``x=1-mu`` (plane, both directions), ``y=0:+`` / ``y=0:-`` (one direction),
+    ``y=0,x<0`` / ``x=1-mu:+,y>0`` (a half-plane: the plane, optionally a direction, then a comma
+    and one strict inequality on another coordinate, whose right side may use mu),
     ``sphere:moon:20000km`` (entering), ``sphere:moon:20000km:+`` (leaving),
     ``periapsis:earth``, ``apoapsis:moon``.
     """
     from . import units
     t = str(text).strip()
+    if "," in t:
+        plane_text, _, bound_text = t.partition(",")
+        if "," in bound_text:
+            raise InputError(f"section '{text}': only one bound is allowed, e.g. y=0,x<0")
+        base = parse_section(plane_text, system)
+        if base.kind != "plane":
+            raise InputError(f"section '{text}': only a plane can be bounded, e.g. y=0,x<0")
+        bt = bound_text.strip()
+        side = "<" if "<" in bt else (">" if ">" in bt else None)
+        if side is None or bt.count(side) != 1 or "=" in bt:
+            raise InputError(f"bound '{bt}' in section '{text}' must be COORD<VALUE or COORD>VALUE, "
+                             "e.g. x<0 or y>0")
+        bc, bv = bt.split(side)
+        bc = bc.strip()
+        if bc not in COORDS:
+            raise InputError(f"unknown bound coordinate '{bc}' in '{text}'; allowed: {', '.join(COORDS)}")
+        return hyperplane(base.coordinate, base.value, base.direction, label=t,
+                          bound=(bc, side, expression(bv, system)))
     parts = t.split(":")
     head = parts[0].strip().lower()
     if head in ("periapsis", "apoapsis"):
@@ -270,6 +339,13 @@ class Crossings:
         """Only the first crossing of each trajectory."""
         return self.select(self.count == 1)
 
+    def one_each(self) -> "Crossings":
+        """One crossing per trajectory: itself when that is already so (a tube's cut at its
+        ``count``-th crossing, or :meth:`nth`), else :meth:`first`."""
+        if len(self) and np.unique(self.trajectory).size == len(self):
+            return self
+        return self.first()
+
     def nth(self, n: int) -> "Crossings":
         return self.select(self.count == n)
 
@@ -291,15 +367,16 @@ class Crossings:
     def polygon(self, names=("y", "vy")) -> np.ndarray:
         """The cut as a closed polygon in two map coordinates, ordered by orbit phase.
 
-        Only meaningful for a planar tube whose trajectories all crossed (``closed``)."""
-        first = self.first()
+        Only meaningful for a planar tube whose trajectories all crossed (``closed``). Uses
+        one crossing per trajectory (:meth:`one_each`)."""
+        first = self.one_each()
         order = np.argsort(first.phase if first.phase is not None else first.trajectory)
         return first.coords(names)[order]
 
     @property
     def closed(self) -> bool:
         """Whether every trajectory of the tube crossed (so the first cut is a closed curve)."""
-        return len(self.first()) == self.n_trajectories and self.n_trajectories >= 3
+        return len(self.one_each()) == self.n_trajectories and self.n_trajectories >= 3
 
     def area(self, names=("y", "vy")) -> float:
         """Area enclosed by :meth:`polygon` (shoelace formula), in the product of the units."""
@@ -386,18 +463,26 @@ def crossings(system, states, section: Section, t_max: float, count: int = 1, *,
         return apsides(system, states, section, t_max, count, phase=phase, label=label, rtol=rtol,
                        atol=atol)
     sign = 1.0 if t_max >= 0 else -1.0
-    ev = section.event(system, sign, terminal=True, count=count)
+    # a half-plane counts only crossings inside its bound: the plane event is then recorded
+    # (not terminal) over the whole time limit and filtered here
+    bounded = section.bounded
+    ev = section.event(system, sign, terminal=not bounded, count=1 if bounded else count)
     events = [ev] + guard_events(system) + list(extra_events)
-    from .manifolds import batch
-    res = batch(system, states, float(t_max), events, max_events=count + 8)
+    from .manifolds import batch, bounded_max_events
+    res = batch(system, states, float(t_max), events,
+                max_events=bounded_max_events(count) if bounded else count + 8)
     rows, ts, traj, cnt = [], [], [], []
     for i in range(states.shape[0]):
         idx = np.asarray(res.event_index[i], dtype=int)
         et = np.asarray(res.event_t[i], dtype=float)
         es = np.asarray(res.event_states[i], dtype=float).reshape(-1, 6)
         keep = (idx == 0) & (np.abs(et) > 1e-12)
+        if bounded:
+            keep &= section.inside(es) if es.shape[0] else keep
         k = 0
         for tt, ss in zip(et[keep], es[keep]):
+            if k >= count:
+                break
             k += 1
             rows.append(ss)
             ts.append(tt)

@@ -113,3 +113,66 @@ def test_map_coordinates_and_dict():
     assert d["crossings"] == len(cr) and len(d["map"]) == len(cr)
     with pytest.raises(InputError):
         cr.coords(["speed_of_light"])
+
+
+# ---- half-plane sections ------------------------------------------------------------------
+
+def test_half_plane_parse_forms_and_bad_input():
+    s = parse_section("y=0,x<0", EM)
+    assert s.kind == "plane" and s.coordinate == 1 and s.bound == (0, -1, 0.0) and s.direction == 0
+    s = parse_section("x=1-mu:+,y>0", EM)
+    assert s.direction == 1 and s.bound == (1, 1, 0.0) and s.value == pytest.approx(1 - EM.mu)
+    s = parse_section("y=0,x>1-mu", EM)
+    assert s.bound == (0, 1, pytest.approx(1 - EM.mu))
+    assert s.to_dict()["bound"] == {"coordinate": "x", "side": ">", "value": s.bound[2]}
+    states = np.array([[0.5, 0, 0, 0, 0, 0], [1.5, 0, 0, 0, 0, 0]])
+    assert s.inside(states).tolist() == [False, True]
+    for bad in ("y=0,x=0", "y=0,y<0", "y=0,q<0", "y=0,x<0,x>-1", "sphere:moon:2000km,x<0",
+                "y=0,x<abc", "y=0,x"):
+        with pytest.raises(InputError):
+            parse_section(bad, EM)
+
+
+def test_half_plane_counts_only_crossings_inside_the_bound():
+    """The k-th crossing of a half-plane is the k-th crossing of the full plane that lies in
+    the bound: crossings outside it are passed through, not stopped at."""
+    full = crossings(EM, STARTS, hyperplane("y", 0.0), 12.0, count=12)
+    half = crossings(EM, STARTS, parse_section("y=0,x<0.99", EM), 12.0, count=3)
+    assert len(half) > 0 and np.all(half.states[:, 0] < 0.99)
+    assert np.any(full.states[:, 0] >= 0.99)  # there are crossings to skip
+    for i in range(len(STARTS)):
+        want = full.select((full.trajectory == i) & (full.states[:, 0] < 0.99))
+        got = half.select(half.trajectory == i)
+        n = min(len(want), 3)
+        assert len(got) == n
+        np.testing.assert_allclose(got.states, want.states[:n], atol=1e-10)
+        assert got.count.tolist() == list(range(1, n + 1))
+
+
+def test_tube_stopped_by_a_half_plane_ends_inside_it():
+    from cr3bp.manifolds import Stop, grow_tube
+    from _orbit_fixtures import lyapunov
+    o = lyapunov(EM, "L1", 3.15)
+    sec = parse_section("y=0,x<0", EM)
+    tube = grow_tube(o, "unstable", "exterior", 24, Stop(sec, 1, 20.0))
+    m = tube.reached("section")
+    assert m.sum() >= 20
+    ends = tube.end_states[m]
+    assert np.all(np.abs(ends[:, 1]) < 1e-12) and np.all(ends[:, 0] < 0)
+    # the same as the first in-bound crossing of the full plane
+    ref = crossings(EM, tube.start_states[m], hyperplane("y", 0.0), 20.0, count=10)
+    for j, i in enumerate(np.nonzero(m)[0]):
+        r = ref.select((ref.trajectory == j) & (ref.states[:, 0] < 0))
+        np.testing.assert_allclose(ends[j], r.states[0], atol=1e-10)
+        assert tube.tof[i] == pytest.approx(r.t[0], abs=1e-10)
+
+
+def test_cut_at_a_later_crossing_is_one_curve():
+    """A tube's cut at its 2nd crossing (count = 2 on every row) is used as it is by
+    polygon/closed/area, not emptied by taking first crossings."""
+    cr = crossings(EM, STARTS, hyperplane("y", 0.0), 12.0, count=2).nth(2)
+    assert len(cr) == len(STARTS) and set(cr.count.tolist()) == {2}
+    assert cr.one_each() is cr and cr.closed
+    assert len(cr.polygon(("x", "vx"))) == len(STARTS)
+    both = crossings(EM, STARTS, hyperplane("y", 0.0), 12.0, count=2)
+    assert len(both.one_each()) == len(STARTS) and set(both.one_each().count.tolist()) == {1}

@@ -17,7 +17,9 @@ def add_arguments(p):
                         "'state=X,Y,Z,VX,VY,VZ period=T') or a parking orbit ('parking earth 200km')")
     p.add_argument("--to", dest="target", required=True, metavar="WHAT", help="arrival, same forms as --from")
     p.add_argument("--section", default="x=1-mu", metavar="SECTION",
-                   help="common section of the two tubes (orbit to orbit; default x=1-mu)")
+                   help="common section of the two tubes (orbit to orbit; default x=1-mu); a half-plane "
+                        "such as 'y=0,x<0' or 'x=1-mu,y>0' counts only crossings inside it (homoclinic "
+                        "connections: the same orbit as --from and --to)")
     p.add_argument("--crossing", type=int, default=1, metavar="N", help="use the N-th crossing of the section")
     p.add_argument("--points", type=int, default=None, metavar="N",
                    help="trajectories per tube (default 200; 100 for parking-orbit legs)")
