@@ -6,15 +6,21 @@ NAME = "refine"
 ORDER = 90
 KERNELS = (("cr3bp.integrate.dop853", "integrate"), ("cr3bp.fidelity.segments", "integrate_segments"))
 HELP = "carry a CR3BP orbit into an ephemeris model at an epoch and correct it to a continuous trajectory"
-EXAMPLE = ('librate refine --system earth-moon --orbit "halo L2 south resonance=9:2" '
+EXAMPLE = ('librate refine --system earth-moon --route out/route --epoch 2031-03-01T00:00:00Z '
+           "--bodies sun,earth,moon --out route.oem\n"
+           'librate refine --system earth-moon --orbit "halo L2 south resonance=9:2" '
            "--epoch 2031-03-01T00:00:00Z --revs 12 --bodies sun,earth,moon --out nrho.oem")
 
 
 def add_arguments(p):
     common.add_system_options(p)
     g = p.add_argument_group("design and model")
-    g.add_argument("--orbit", metavar="SPEC", required=True,
-                   help='periodic-orbit request, e.g. "halo L2 south period=6.5626d"')
+    src = g.add_mutually_exclusive_group(required=True)
+    src.add_argument("--orbit", metavar="SPEC",
+                     help='periodic-orbit request, e.g. "halo L2 south period=6.5626d"')
+    src.add_argument("--route", metavar="DIR_OR_FILE",
+                     help="a stitched route: the folder written by 'librate route --out DIR' (or a file "
+                          "in it); its maneuvers are re-optimised in the ephemeris model")
     g.add_argument("--epoch", metavar="ISO", required=True,
                    help="date of the first patch point, ISO 8601 (Z = UTC, or a trailing TDB/TT/TAI/UTC)")
     g.add_argument("--revs", metavar="N", default="12", help="revolutions (default 12)")
@@ -29,6 +35,10 @@ def add_arguments(p):
     g.add_argument("--fix-first", action="store_true", help="hold the first patch state")
     g.add_argument("--fixed-times", action="store_true", help="hold the patch times (default: interior "
                                                               "times free)")
+    g.add_argument("--patch-days", metavar="D", default="1", help="with --route: one patch segment per D days "
+                                                                 "of each arc, at least two (default 1)")
+    g.add_argument("--hold-end", choices=("yes", "no"), default="yes",
+                   help="with --route: hold the route's end position (default yes)")
     g.add_argument("--max-iter", metavar="N", default="25", help="Newton iterations at most (default 25)")
     p.add_argument("--format", choices=common.FORMATS, default="table", help="output format (default table)")
     p.add_argument("--out", metavar="FILE", help="write the trajectory: .oem, .xml, .csv or .json")
@@ -62,6 +72,125 @@ def parse_srp(text):
         raise InputError(f"--srp '{text}' must be AREA_TO_MASS,CR, e.g. 0.01m2/kg,1.3") from None
 
 
+def _check_epoch(args, sysm):
+    import warnings
+
+    from cr3bp import frames
+    from cr3bp.errors import InputError
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            frames.frame(sysm, args.epoch, anchor="ephemeris", center="secondary")   # epoch check first
+        except InputError as e:
+            if "no ephemeris" in str(e) or "no named primaries" in str(e):
+                raise InputError(f"system '{sysm.name}' has no ephemeris for its primaries, so it has "
+                                 "no ephemeris model; refine supports systems whose primaries are in "
+                                 "cr3bp.ephemeris (e.g. earth-moon, sun-earth, sun-mars)") from None
+            raise
+    for w in caught:
+        common.progress(args, f"note: {w.message}")
+
+
+def _float(name, text, lo, hi):
+    import math
+
+    from cr3bp.errors import InputError
+    try:
+        v = float(str(text).lower().removesuffix("d"))
+    except (TypeError, ValueError):
+        raise InputError(f"{name} '{text}' is not a number") from None
+    if not (math.isfinite(v) and lo <= v <= hi):
+        raise InputError(f"{name} = {text} must be in {lo:g}..{hi:g}")
+    return v
+
+
+def _run_route(args, sysm):
+    """--route: a stitched route carried into the ephemeris model (cr3bp.fidelity.route)."""
+    import warnings
+
+    import numpy as np
+
+    from cr3bp import export, frames
+    from cr3bp.errors import InputError
+    from cr3bp.fidelity import model as fm
+    from cr3bp.fidelity.route import read_route, transition_route
+    from cr3bp.plotting.fidelity import rotating_states
+    for flag, given in (("--revs", args.revs != "12"), ("--patches", args.patches != "7"),
+                        ("--fix-first", args.fix_first), ("--fixed-times", args.fixed_times)):
+        if given:
+            raise InputError(f"{flag} applies to --orbit only; with --route use --patch-days and --hold-end")
+    patch_days = _float("--patch-days", args.patch_days, 0.01, 1000.0)
+    max_iter = _int("--max-iter", args.max_iter, 1, 200)
+    srp = parse_srp(args.srp)
+    bodies = fm.parse_bodies(args.bodies)
+    fmt_out = export.format_of(args.out) if args.out else None
+    if args.plot and not args.plot.lower().endswith(".png"):
+        raise InputError(f"--plot '{args.plot}' must name a .png file")
+    _check_epoch(args, sysm)
+    t_tu, states, maneuvers = read_route(args.route, sysm)
+    common.progress(args, f"route: {len(t_tu)} samples over {(t_tu[-1] - t_tu[0]) * sysm.time_days:.4g} d, "
+                          f"{len(maneuvers)} maneuvers; multiple shooting in the ephemeris model...")
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        tr = transition_route(sysm, t_tu, states, maneuvers, args.epoch, bodies, central=args.central, srp=srp,
+                              patch_days=patch_days, hold_end=args.hold_end == "yes", max_iter=max_iter,
+                              progress=lambda stage, i, err: common.progress(
+                                  args, f"  {stage} iteration {i}: largest mismatch {err:.3e} (nondimensional)"))
+    central = tr.model.central
+    headers = ["t_days", "t_cr3bp_days", "node", "kind", "dv_cr3bp_mps", "dv_ephemeris_mps"]
+    rows = [[m["t_days"], m["t_cr3bp_days"], m["node"], m["kind"], m["dv_cr3bp_mps"], m["dv_mps"]]
+            for m in tr.maneuvers]
+    rows.append(["total", "", "", "", tr.dv_total_cr3bp_mps, tr.dv_total_mps])
+    arcs = common.format_table(["arc", "t_start_days", "t_end_days", "patches", "max_dr_km", "max_dv_mps"],
+                               [[a["arc"], a["t_start_days"], a["t_end_days"], a["patches"],
+                                 a["max_position_diff_km"], a["max_velocity_diff_mps"]] for a in tr.arcs],
+                               title="drift of each arc from the CR3BP route (CR3BP times; compared at the same fraction "
+                                     "of the arc: equal epochs where the maneuver times did not move)")
+    title = (f"{sysm.name}: route {args.route} in the ephemeris model ({central} + {', '.join(tr.model.bodies)}"
+             f"{', SRP' if srp else ''}) from {args.epoch}; {len(tr.arcs)} arcs, {tr.t_tu.size} patch points; "
+             f"iterations {tr.iterations}; continuity {tr.continuity_km * 1000:.3g} m / "
+             f"{tr.continuity_mps:.3g} m/s away from the maneuvers; "
+             f"{'maneuvers re-optimised' if tr.optimised else 'continuity solution (not optimised)'}")
+    table = arcs + "\n\n" + common.format_table(headers, rows, title=title)
+    if args.out:
+        spec = frames.frame(sysm, tr.epoch_tdb_s, anchor="ephemeris", axes="j2000-equator", center="secondary")
+        segs = []
+        for j in range(len(tr.arcs)):
+            m = tr.sample_arc == j
+            segs.append(export.Segment(np.asarray(tr.sample_t_tu[m]),
+                                       rotating_states(tr, tr.sample_km[m], tr.sample_t_tu[m])))
+        mans = []
+        for m in tr.maneuvers:
+            pair = rotating_states(tr, np.array([m["state_before_km"], m["state_after_km"]]),
+                                   np.array([m["t_tu"], m["t_tu"]]))
+            mans.append(export.Maneuver(float(m["t_tu"]), pair[1, 3:] - pair[0, 3:], m["node"] or m["kind"]))
+        model = {"trajectory": "integrated in the ephemeris point-mass model below, NOT the CR3BP; "
+                               "the CR3BP lines above describe only the frame that carries the states",
+                 "route": str(args.route), "force model": f"point masses {central} (central), "
+                 f"{', '.join(tr.model.bodies)}" + (f"; cannonball SRP A/m {srp[0]} m2/kg, Cr {srp[1]}" if srp else ""),
+                 "ephemeris": "cr3bp.ephemeris (Meeus 1998 lunar series, Standish mean elements)",
+                 "dv_total_mps": f"{tr.dv_total_mps:.6g} (CR3BP route: {tr.dv_total_cr3bp_mps:.6g})",
+                 "continuity": f"{tr.continuity_km * 1000:.3g} m, {tr.continuity_mps:.3g} m/s"}
+        traj = export.Trajectory(spec, tuple(segs), "TDB", tuple(mans), "LIBRATE REFINED ROUTE", "NONE", model)
+        export.write(args.out, traj, fmt_out)
+        common.progress(args, f"wrote {args.out}")
+    if args.plot:
+        from cr3bp.plotting import save
+        from cr3bp.plotting.fidelity import transition_figure
+        fig = transition_figure(tr, title=f"route {args.route} from {args.epoch}")
+        save(fig, args.plot, f"CR3BP route (blue) and ephemeris trajectory (red); {central}-centred")
+        common.progress(args, f"wrote {args.plot}")
+    payload = tr.to_dict()
+    payload["route"] = str(args.route)
+    out_save = args.out
+    args.out = None          # the table goes to the screen; --out is the trajectory file
+    try:
+        common.emit(args, payload=payload, headers=headers, rows=rows, table=table)
+    finally:
+        args.out = out_save
+    return 0
+
+
 def run(args):
     import warnings
 
@@ -75,6 +204,8 @@ def run(args):
 
     sysm = common.resolve_system(args)
     sysm.require_dimensional("an ephemeris model")
+    if args.route is not None:
+        return _run_route(args, sysm)
     revs = _int("--revs", args.revs, 1, 200)
     per_rev = _int("--patches", args.patches, 2, 64)
     max_iter = _int("--max-iter", args.max_iter, 1, 200)
@@ -83,18 +214,7 @@ def run(args):
     fmt_out = export.format_of(args.out) if args.out else None
     if args.plot and not args.plot.lower().endswith(".png"):
         raise InputError(f"--plot '{args.plot}' must name a .png file")
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        try:
-            frames.frame(sysm, args.epoch, anchor="ephemeris", center="secondary")   # epoch check first
-        except InputError as e:
-            if "no ephemeris" in str(e) or "no named primaries" in str(e):
-                raise InputError(f"system '{sysm.name}' has no ephemeris for its primaries, so it has "
-                                 "no ephemeris model; refine supports systems whose primaries are in "
-                                 "cr3bp.ephemeris (e.g. earth-moon, sun-earth, sun-mars)") from None
-            raise
-    for w in caught:
-        common.progress(args, f"note: {w.message}")
+    _check_epoch(args, sysm)
     common.progress(args, f"solving orbit request '{args.orbit}'...")
     orbit = solve_request(sysm, args.orbit)
     common.progress(args, f"orbit: period {orbit.period_days:.6f} d; transition over {revs} revolutions "
