@@ -8,8 +8,9 @@ STAMP  := $(VENV)/.installed
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
-	$(BIN)/pip install --quiet --upgrade pip
-	$(BIN)/pip install --quiet -e '.[test]'
+	$(BIN)/pip install -qq --upgrade pip
+	@echo "installing librate and its dependencies into $(VENV)/ (first time only)..."
+	$(BIN)/pip install -qq -e '.[test]'
 	touch $(STAMP)
 
 venv: $(STAMP)
