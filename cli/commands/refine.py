@@ -174,21 +174,26 @@ def _run_route(args, sysm):
         traj = export.Trajectory(spec, tuple(segs), "TDB", tuple(mans), "LIBRATE REFINED ROUTE", "NONE", model)
         export.write(args.out, traj, fmt_out)
         common.progress(args, f"wrote {args.out}")
+    _finish(args, tr, f"route {args.route} from {args.epoch}",
+            f"CR3BP route (blue) and ephemeris trajectory (red); {central}-centred",
+            {"route": str(args.route)}, headers, rows, table)
+    return 0
+
+
+def _finish(args, tr, title, caption, extra, headers, rows, table):
+    """The plot (--plot) and the screen output shared by --orbit and --route."""
     if args.plot:
         from cr3bp.plotting import save
         from cr3bp.plotting.fidelity import transition_figure
-        fig = transition_figure(tr, title=f"route {args.route} from {args.epoch}")
-        save(fig, args.plot, f"CR3BP route (blue) and ephemeris trajectory (red); {central}-centred")
+        save(transition_figure(tr, title=title), args.plot, caption)
         common.progress(args, f"wrote {args.plot}")
-    payload = tr.to_dict()
-    payload["route"] = str(args.route)
+    payload = dict(tr.to_dict(), **extra)
     out_save = args.out
     args.out = None          # the table goes to the screen; --out is the trajectory file
     try:
         common.emit(args, payload=payload, headers=headers, rows=rows, table=table)
     finally:
         args.out = out_save
-    return 0
 
 
 def run(args):
@@ -250,18 +255,7 @@ def run(args):
                                  "LIBRATE REFINED", "NONE", model)
         export.write(args.out, traj, fmt_out)
         common.progress(args, f"wrote {args.out}")
-    if args.plot:
-        from cr3bp.plotting import save
-        from cr3bp.plotting.fidelity import transition_figure
-        fig = transition_figure(tr, title=f"{args.orbit} from {args.epoch}, {revs} revolutions")
-        save(fig, args.plot, f"CR3BP design (blue) and ephemeris trajectory (red); {central}-centred")
-        common.progress(args, f"wrote {args.plot}")
-    payload = tr.to_dict()
-    payload["orbit_request"] = args.orbit
-    out_save = args.out
-    args.out = None          # the table goes to the screen; --out is the trajectory file
-    try:
-        common.emit(args, payload=payload, headers=headers, rows=rows, table=table)
-    finally:
-        args.out = out_save
+    _finish(args, tr, f"{args.orbit} from {args.epoch}, {revs} revolutions",
+            f"CR3BP design (blue) and ephemeris trajectory (red); {central}-centred",
+            {"orbit_request": args.orbit}, headers, rows, table)
     return 0
