@@ -34,6 +34,18 @@ def add_verbosity(p):
     p.add_argument("--verbose", "-v", action="store_true", help="more detail in progress messages")
 
 
+def whole_number(name, text, lo, hi):
+    """An option's whole number in lo..hi, or a one-line InputError naming it."""
+    from cr3bp.errors import InputError
+    try:
+        v = int(text)
+    except (TypeError, ValueError):
+        raise InputError(f"{name} {text!r} is not a whole number") from None
+    if not lo <= v <= hi:
+        raise InputError(f"{name} {v} is outside {lo}..{hi}")
+    return v
+
+
 def _float_arg(name, text):
     from cr3bp.errors import InputError
     try:

@@ -17,16 +17,7 @@ def add_build_options(p):
 
 
 def _workers(text):
-    from cr3bp.errors import InputError
-    if text is None:
-        return None
-    try:
-        n = int(text)
-    except ValueError:
-        raise InputError(f"--workers {text!r} is not a whole number") from None
-    if not 1 <= n <= 256:
-        raise InputError(f"--workers {n} is outside 1..256")
-    return n
+    return None if text is None else common.whole_number("--workers", text, 1, 256)
 
 
 def build(args, system):

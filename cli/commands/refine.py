@@ -46,17 +46,6 @@ def add_arguments(p):
     common.add_verbosity(p)
 
 
-def _int(name, text, lo, hi):
-    from cr3bp.errors import InputError
-    try:
-        v = int(text)
-    except (TypeError, ValueError):
-        raise InputError(f"{name} '{text}' is not an integer") from None
-    if not lo <= v <= hi:
-        raise InputError(f"{name} = {v} must be in {lo}..{hi}")
-    return v
-
-
 def parse_srp(text):
     """``0.01m2/kg,1.3`` -> (0.01, 1.3)."""
     from cr3bp.errors import InputError
@@ -120,7 +109,7 @@ def _run_route(args, sysm):
         if given:
             raise InputError(f"{flag} applies to --orbit only; with --route use --patch-days and --hold-end")
     patch_days = _float("--patch-days", args.patch_days, 0.01, 1000.0)
-    max_iter = _int("--max-iter", args.max_iter, 1, 200)
+    max_iter = common.whole_number("--max-iter", args.max_iter, 1, 200)
     srp = parse_srp(args.srp)
     bodies = fm.parse_bodies(args.bodies)
     fmt_out = export.format_of(args.out) if args.out else None
@@ -211,9 +200,9 @@ def run(args):
     sysm.require_dimensional("an ephemeris model")
     if args.route is not None:
         return _run_route(args, sysm)
-    revs = _int("--revs", args.revs, 1, 200)
-    per_rev = _int("--patches", args.patches, 2, 64)
-    max_iter = _int("--max-iter", args.max_iter, 1, 200)
+    revs = common.whole_number("--revs", args.revs, 1, 200)
+    per_rev = common.whole_number("--patches", args.patches, 2, 64)
+    max_iter = common.whole_number("--max-iter", args.max_iter, 1, 200)
     srp = parse_srp(args.srp)
     bodies = fm.parse_bodies(args.bodies)
     fmt_out = export.format_of(args.out) if args.out else None

@@ -63,26 +63,10 @@ def _constraints(args, system, nodes):
         alt = units.parse(args.min_altitude, "length").si() if not args.min_altitude.endswith("LU") else \
             system.km(units.length(args.min_altitude, system))
     if args.max_legs is not None:
-        try:
-            legs = int(args.max_legs)
-        except ValueError:
-            raise InputError(f"--max-legs {args.max_legs!r} is not a whole number") from None
-        if legs < 1:
-            raise InputError(f"--max-legs {legs} must be at least 1")
+        legs = common.whole_number("--max-legs", args.max_legs, 1, 1000)
     through = tuple(find_node(nodes, t).id for t in args.through)
     avoid = tuple(find_node(nodes, t).id for t in args.avoid)
     return Constraints(dv, tof, legs, alt, through, avoid)
-
-
-def _best(text):
-    from cr3bp.errors import InputError
-    try:
-        k = int(text)
-    except ValueError:
-        raise InputError(f"--best {text!r} is not a whole number") from None
-    if not 1 <= k <= 1000:
-        raise InputError(f"--best {k} is outside 1..1000")
-    return k
 
 
 def _side(path, tag):
@@ -111,7 +95,7 @@ def run(args):
     if args.epoch is not None:
         from cr3bp.frames import frame
         frame_spec = frame(system, args.epoch, axes=args.frame)       # checked before any work
-    k = _best(args.best)
+    k = common.whole_number("--best", args.best, 1, 1000)
     from cr3bp.nodes import load_nodes
     nodes = load_nodes(args.nodes, system).nodes       # checked before any leg is computed
     src, dst = find_node(nodes, args.source), find_node(nodes, args.target)
