@@ -119,3 +119,21 @@ def test_vertical_family_closes_through_its_planar_orbit_and_mirror_images():
         mirror = np.array(m.state) * np.array([1, 1, 1, 1, 1, -1])
         assert np.allclose(half, mirror, atol=1e-8)
     assert min(vz) < 0
+
+
+def test_long_steps_through_the_lagrange_point_do_not_land_on_the_point_itself(capsys):
+    """Near the Lagrange point the vertical family shrinks to the point, where the half-period
+    conditions also hold at rest for any T/2 (a line of equilibria crossing the family). With
+    long steps the corrector used to land on that line and slide along it: members of zero size
+    (1e-20 LU), T/2 falling to zero, and a stop on "half period became non-positive". Such a
+    member is now refused like a failed step, and the family closes."""
+    rc = main(["family", "--system", "earth-moon", "--family", "vertical", "--point", "L1", "--members", "700",
+               "--max-step", "0.045", "--step", "0.004", "--format", "json", "-q"])
+    out = capsys.readouterr()
+    assert rc == 0, out.err
+    d = json.loads(out.out)
+    assert "closed" in d["stop_reason"]
+    sizes = [max(m["amplitude_lu"].values()) for m in d["members"]]
+    assert min(sizes) == pytest.approx(sizes[0], rel=0.5)     # the first (smallest) member: 290 km
+    X = np.array([[m["state"][0], m["state"][4], m["state"][5], m["period"] / 2] for m in d["members"]])
+    assert np.linalg.norm(X[-1] - X[0]) < np.linalg.norm(X[-1] - X[-2])
