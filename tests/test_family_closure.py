@@ -137,3 +137,21 @@ def test_long_steps_through_the_lagrange_point_do_not_land_on_the_point_itself(c
     assert min(sizes) == pytest.approx(sizes[0], rel=0.5)     # the first (smallest) member: 290 km
     X = np.array([[m["state"][0], m["state"][4], m["state"][5], m["period"] / 2] for m in d["members"]])
     assert np.linalg.norm(X[-1] - X[0]) < np.linalg.norm(X[-1] - X[-2])
+
+
+def test_long_steps_across_the_vertical_junction_stay_on_the_axial_family(capsys):
+    """The axial family crosses the vertical family at their junction (a branch point of the
+    x-axis-symmetric orbits). A long step across it used to land on the vertical family and go
+    on along it, silently, as "axial" members (with these options: 300 members, never closing).
+    Now a step whose tangent turns by more than 60 degrees is refused and halved: the family
+    stays axial and closes, and its path has no corner."""
+    rc = main(["family", "--system", "earth-moon", "--family", "axial", "--point", "L1", "--members", "300",
+               "--max-step", "0.04", "--step", "0.004", "--format", "json", "-q"])
+    out = capsys.readouterr()
+    assert rc == 0, out.err
+    d = json.loads(out.out)
+    assert "closed" in d["stop_reason"]
+    X = np.array([[m["state"][0], m["state"][4], m["state"][5], m["period"] / 2] for m in d["members"]])
+    chords = np.diff(X, axis=0)
+    chords /= np.linalg.norm(chords, axis=1)[:, None]
+    assert np.min(np.sum(chords[1:] * chords[:-1], axis=1)) > 0.9
