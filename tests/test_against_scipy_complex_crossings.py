@@ -36,7 +36,7 @@ import _independent_cr3bp as ind
 #: about 5e-5 in the monodromy's entries (measured against the full-period scipy monodromy), i.e.
 #: ~3e-3 in the discriminant, whose slope along the family is 2.7e4 per unit of Jacobi constant:
 #: 1e-7. Measured: 3.3e-8 (Sun-Jupiter), 5e-12 (Pluto-Charon).
-CASES = [("sun-jupiter", 155, 3e-7), ("pluto-charon", 40, 1e-9)]
+CASES = [("sun-jupiter", 170, 3e-7), ("pluto-charon", 40, 1e-9)]
 STEP_C = 1e-6
 
 
