@@ -90,8 +90,30 @@ def test_axial_family_closure_from_the_command_line(axial_loop, capsys):
     assert "closed" in d["stop_reason"]
     assert len(d["members"]) == len(axial_loop.members)
     assert np.allclose(d["members"][-1]["state"], axial_loop.members[-1].state, atol=1e-10)
-    # the stop is said where a reader looks: the table footer / JSON reason
-    assert d["stop_reason"] == axial_loop.stop_reason
+    assert d["stop_reason"] == axial_loop.stop_reason and d["until_reached"] is None
+
+
+def test_until_a_value_the_loop_never_reaches_stops_at_the_closure(axial_loop, capsys):
+    argv = ["family", "--system", "earth-moon", "--family", "axial", "--point", "L1", "--members", "400",
+            "--max-step", str(AXIAL_MAX_STEP), "-q"]
+    # the loop's Jacobi constants stay within 2.9918..3.0214: 2.5 is never reached
+    rc = main(argv + ["--until", "jacobi=2.5", "--format", "json"])
+    d = json.loads(capsys.readouterr().out)
+    assert rc == 0 and "closed" in d["stop_reason"] and d["until_reached"] is False and d["target"] is None
+    assert len(d["members"]) == len(axial_loop.members)
+    rc = main(argv + ["--until", "jacobi=2.5"])
+    out = capsys.readouterr().out
+    lo = min(m.jacobi for m in axial_loop.members)
+    hi = max(m.jacobi for m in axial_loop.members)
+    assert f"--until jacobi=2.5 was not reached: the members cover jacobi from {lo:.10g} to {hi:.10g}" in out
+    assert "CAUTION" in out
+    # a value on the loop is reached first (going down from the first member's 3.0214), before the
+    # loop closes, and solved exactly
+    rc = main(argv + ["--until", "jacobi=3.0", "--format", "json"])
+    d = json.loads(capsys.readouterr().out)
+    assert rc == 0 and d["until_reached"] is True and "target jacobi" in d["stop_reason"]
+    assert d["target"]["jacobi"] == pytest.approx(3.0, abs=1e-11)
+    assert len(d["members"]) < len(axial_loop.members) // 2
 
 
 def test_vertical_family_closes_through_its_planar_orbit_and_mirror_images():
