@@ -30,6 +30,8 @@ import _orbit_cache as cache
 
 SYM = shooting.symmetry("x-axis")
 ONE_KM_LU = 1.0 / 384400.0           # Earth-Moon length unit 384 400 km (systems table)
+ONE_CM_S_VU = 1e-5 / 1.024547        # velocity unit 1.024547 km/s
+ONE_S_TU = 1.0 / (4.34248 * 86400)   # time unit 4.34248 d
 AXIAL_MAX_STEP = 0.03                # steps the axial loop in ~110 members
 
 
@@ -73,10 +75,11 @@ def test_axial_family_closes_through_the_other_crossing_of_its_lyapunov_orbit(ax
     assert fam.members[0].state[0] == pytest.approx(bp.state[0], abs=1e-4)
     other = ind.propagate(cache.em().mu, bp.state, bp.period / 2.0, rtol=1e-13, atol=1e-13)
     assert abs(other[1]) < 1e-10 and abs(other[3]) < 1e-10     # a perpendicular x-axis crossing
-    # cubic interpolation over steps of 0.03 (measured: 3e-8 LU, 4e-7, 4e-8 TU)
+    # cubic interpolation over steps of 0.03 (measured: 3e-8 LU = 12 m, 4e-7 VU = 0.4 mm/s,
+    # 4e-8 TU = 0.015 s)
     assert at_zero[0] == pytest.approx(other[0], abs=1.0 * ONE_KM_LU)
-    assert at_zero[1] == pytest.approx(other[4], abs=1e-5)
-    assert at_zero[2] == pytest.approx(bp.period / 2.0, abs=1e-6)
+    assert at_zero[1] == pytest.approx(other[4], abs=1.0 * ONE_CM_S_VU)
+    assert at_zero[2] == pytest.approx(bp.period / 2.0, abs=1.0 * ONE_S_TU)
     # the far arc is the mirror image of the near one: the loop is traversed once
     assert np.min(vz) < -0.4 < 0.4 < np.max(vz)
 
