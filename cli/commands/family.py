@@ -100,6 +100,13 @@ def run(args):
                                    parameter=args.parameter, step=step, resonance=spec.resonance,
                                    max_step=max_step, progress=oo.progress_printer(args, name))
     common.progress(args, f"done: {len(fam.members)} members; stopped because {fam.stop_reason}")
+    missed = None
+    if target is not None and fam.target is None:
+        from cr3bp.orbits.targets import describe_value
+        lo, hi = continuation.value_range(fam.members, target[0])
+        missed = (f"--until {args.until} was not reached: the members cover {target[0]} from "
+                  f"{describe_value(system, target[0], lo)} to {describe_value(system, target[0], hi)}")
+        common.progress(args, missed)
     if cat is not None:
         settings = catalog_settings(spec, stops)
         if args.route is not None:
@@ -117,14 +124,18 @@ def run(args):
                "bifurcations": [{"type": b["type"], "member_index": b["member_index"], "jacobi": b["jacobi"],
                                  "period": b["period"], "period_days": b["period_days"], "note": b["note"],
                                  "state": b["state"]} for b in bifs],
-               "target": fam.target.to_dict() if fam.target is not None else None}
+               "target": fam.target.to_dict() if fam.target is not None else None,
+               "until_reached": None if target is None else fam.target is not None}
     if args.plot:
         _plots(system, fam, args.plot, name)
         common.progress(args, f"wrote {args.plot}-family.png and {args.plot}-stability.png")
     comments = [f"{system.name} {name} family: {len(fam.members)} members; stopped because {fam.stop_reason}"]
+    comments += [missed] if missed else []
     comments += [f"bifurcation {b['type']} after member {b['member_index']}: Jacobi constant {b['jacobi']:.10f}, "
                  f"period {b['period']:.10f} TU; {b['note']}" for b in bifs]
     table = common.format_table(HEADERS, rows, title=comments[0]) + _bif_text(bifs, system)
+    if missed:
+        table += missed + "\n"
     common.emit(args, payload=payload, headers=HEADERS, rows=rows, table=table, comments=comments)
     return 0
 

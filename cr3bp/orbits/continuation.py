@@ -33,6 +33,17 @@ SHRINK = 0.6
 MIN_STEP = 1e-7
 #: corrector iterations at or below which the step grows / above which it shrinks
 FAST, SLOW = 3, 6
+#: a member smaller than this (LU) is the Lagrange point itself: where a family shrinks to the
+#: point, the half-period conditions also hold at rest for any T/2, and a long step can land on
+#: that line of equilibria (seen on the Earth-Moon L1 vertical family with --max-step 0.045)
+DEGENERATE_LU = 1e-8
+#: least cosine between consecutive tangents. Along a family resolved by the steps the tangent
+#: turns by a few degrees per step (cosine > 0.99 measured along the Earth-Moon axial and
+#: vertical families); a long step across a branch point can land on the crossing family, and
+#: the tangent then turns by the angle between the two (~88 degrees at the axial-vertical
+#: junction). Such a step is refused and halved (step control by the angle between successive
+#: tangents: Allgower & Georg, *Numerical Continuation Methods*, 1990, ch. 6, from memory).
+MIN_TANGENT_COSINE = 0.5
 
 
 @dataclass(frozen=True)
@@ -313,6 +324,11 @@ def grow(system, first: PeriodicOrbit, kind, *, step=1e-3, max_step=0.05, direct
                 orbit, Xn, tn, it, jump = _solve_natural(system, sym, X, t, ds, parameter, meta)
             if method == "arclength" and jump > max(0.5 * abs(ds), 1e-5):
                 raise ConvergenceError("corrector jumped too far from the predictor")
+            if max(orbit.amplitude_lu) < DEGENERATE_LU:
+                raise ConvergenceError("corrector fell onto the equilibrium point (an orbit of zero size)")
+            if np.dot(tn, t) < MIN_TANGENT_COSINE:
+                raise ConvergenceError("the tangent turned by more than 60 degrees in one step (a switch "
+                                       "onto a crossing family)")
         except (ConvergenceError, InputError) as e:
             ds *= 0.5
             if abs(ds) < MIN_STEP:
