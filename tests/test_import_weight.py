@@ -1,8 +1,9 @@
 """What a command imports (not how long it takes: speed is judged in benchmarks/).
 
 A `librate orbit` request answered from the catalogue must not pull in plotting, graph or
-cluster libraries, scipy's integrators, or numba's parallel threading layer (the batch
-propagator): each would cost start-up time of a command that answers in well under a second.
+cluster libraries, scipy's integrators, numba's parallel threading layer (the batch
+propagator) or the other command modules: each would cost start-up time of a command that
+answers in well under a second.
 Checked in a fresh interpreter, on the modules it has loaded when the command returns.
 """
 
@@ -56,3 +57,7 @@ def test_catalogued_orbit_request_loads_no_heavy_module(tmp_path):
     d = json.loads(out[:out.index("MODULES=")])
     assert abs(d["jacobi"] - jac) < 1e-9            # the request was really answered
     assert _heavy(mods) == []
+    # only the command that runs is imported, not every command module
+    others = [m for m in mods if m.startswith("librate_cli.commands.")
+              and not m.rsplit(".", 1)[1].startswith("_") and m != "librate_cli.commands.orbit"]
+    assert others == []
