@@ -84,7 +84,9 @@ def extremes(system, arc):
 
 #: |(r - c) . v| / (|r - c| |v|) below which a point counts as stationary in distance: at the
 #: located perpendicular crossings it is ~1e-10 (the event and the periodicity tolerances);
-#: the distance there then exceeds the true minimum by ~1e-20 of itself (second order).
+#: the distance there exceeds the true minimum by rate^2 |v|^2 / (2 (|v|^2 + (r - c) . a)) of
+#: itself (second order: ~1e-20 unless the distance hardly curves, as on a near-circular arc
+#: about the primary).
 STATIONARY_RATE = 1e-9
 
 
