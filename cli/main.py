@@ -6,6 +6,7 @@ import argparse
 import re
 import sys
 
+from .commands import module_named as _module_named
 from .commands import modules as _modules
 
 EXIT_CODES = """exit status:
@@ -45,14 +46,16 @@ def _join_negative_values(argv):
     return out
 
 
-def build_parser() -> argparse.ArgumentParser:
+def build_parser(only=None) -> argparse.ArgumentParser:
+    """The parser of every command, or of the one command module ``only`` (what ``main`` builds
+    when the first word names a command: the other command modules are then not imported)."""
     parser = _Parser(
         prog="librate",
         description="Preliminary spacecraft mission design in the circular restricted three-body problem.",
         epilog=EXIT_CODES, formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("--version", action="version", version="librate 0.1.0")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
-    for mod in _modules():
+    for mod in ([only] if only is not None else _modules()):
         p = sub.add_parser(mod.NAME, help=mod.HELP, description=mod.HELP,
                            epilog=f"example:\n  {mod.EXAMPLE}\n\n{EXIT_CODES}",
                            formatter_class=argparse.RawDescriptionHelpFormatter)
@@ -73,7 +76,7 @@ def main(argv=None) -> int:
         from .common import caution_footer
         sys.stdout.write(guide() + caution_footer())
         return 0
-    parser = build_parser()
+    parser = build_parser(_module_named(argv[0]))
     args = parser.parse_args(_join_negative_values(argv))
     if args.command is None:
         parser.print_help()

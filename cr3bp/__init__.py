@@ -1,18 +1,50 @@
 """librate's library: preliminary mission design in the circular restricted three-body problem.
 
 Conventions (units, frame, Omega, Jacobi constant) are stated once in :mod:`cr3bp.systems`.
+
+The names below are loaded on first use (PEP 562 module ``__getattr__``): ``import cr3bp`` or
+``from cr3bp.errors import InputError`` costs no numba, scipy or matplotlib import, so a
+command pays only for what it uses. ``from cr3bp import propagate`` and ``cr3bp.system(...)``
+work as before; so does attribute access to a submodule (``cr3bp.dynamics``).
 """
+
+from __future__ import annotations
+
+import importlib
 
 from .cautions import CAUTION
 from .errors import ConvergenceError, InputError, LibrateError, NoSolutionError
-from .integrate import Arc, escape, impact, plane, propagate, propagate_batch
-from .systems import System, system, system_names
-from .equilibria import LagrangePoint, lagrange_point, lagrange_points
-from .energy import HillRegion, hill_region, jacobi_above
 
 __version__ = "0.1.0"
+
+#: public name -> submodule that defines it (imported on first access)
+_LAZY = {
+    "propagate": "integrate", "propagate_batch": "integrate", "Arc": "integrate",
+    "plane": "integrate", "impact": "integrate", "escape": "integrate",
+    "System": "systems", "system": "systems", "system_names": "systems",
+    "LagrangePoint": "equilibria", "lagrange_point": "equilibria", "lagrange_points": "equilibria",
+    "HillRegion": "energy", "hill_region": "energy", "jacobi_above": "energy",
+}
 
 __all__ = ["CAUTION", "System", "system", "system_names", "propagate", "propagate_batch", "Arc",
            "plane", "impact", "escape", "InputError", "NoSolutionError", "ConvergenceError",
            "LibrateError", "__version__", "LagrangePoint", "lagrange_point", "lagrange_points",
            "HillRegion", "hill_region", "jacobi_above"]
+
+
+def __getattr__(name):
+    if name in _LAZY:
+        value = getattr(importlib.import_module(f".{_LAZY[name]}", __name__), name)
+        globals()[name] = value
+        return value
+    if not name.startswith("_"):
+        try:
+            return importlib.import_module(f".{name}", __name__)
+        except ModuleNotFoundError as e:
+            if e.name != f"{__name__}.{name}":
+                raise
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
+
+def __dir__():
+    return sorted(set(globals()) | set(__all__))

@@ -7,6 +7,17 @@ import importlib
 import pkgutil
 
 
+def module_named(name):
+    """The command module called ``name`` alone (None if there is none), so running one command
+    imports one command module instead of all of them."""
+    if not isinstance(name, str) or not name.isidentifier() or name.startswith("_"):
+        return None
+    if not any(m.name == name for m in pkgutil.iter_modules(__path__)):
+        return None
+    mod = importlib.import_module(f"{__name__}.{name}")
+    return mod if getattr(mod, "NAME", None) == name else None
+
+
 def modules():
     mods = [importlib.import_module(f"{__name__}.{m.name}") for m in pkgutil.iter_modules(__path__)
             if not m.name.startswith("_")]

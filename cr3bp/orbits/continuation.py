@@ -121,6 +121,11 @@ def _num(v):
     return float(v) if math.isfinite(v) else None
 
 
+def _norm(v) -> float:
+    """Euclidean norm of a small 1-D array (the same value as np.linalg.norm, less overhead)."""
+    return math.sqrt(float(v @ v))
+
+
 QUANTITIES = ("jacobi", "period", "x", "z", "vz", "ax", "ay", "az", "approach1", "approach2",
               "nu1", "nu2", "nu_in", "nu_out")
 
@@ -157,10 +162,10 @@ def _solve_at(system, sym, X_ref, t, ds, meta, check=True):
     Xp = X_ref + ds * t
     X, it, hist, (arc, D) = shooting.newton(system, sym, Xp, shooting.arclength(X_ref, t, ds))
     tn = shooting.null_tangent(D)
-    if np.dot(tn, t) < 0:
+    if float(tn @ t) < 0:
         tn = -tn
     orbit = shooting.finish(system, sym, X, it, hist, **meta, check=check, half_stm=arc.stm)
-    return orbit, X, tn, it, float(np.linalg.norm(X - Xp))
+    return orbit, X, tn, it, _norm(X - Xp)
 
 
 def _solve_natural(system, sym, X_ref, t, ds, param, meta):
@@ -251,9 +256,11 @@ def _disc(orbit):
     return float(p * p - 4.0 * q)
 
 
-def _crossings(prev_nu, new_nu, prev_orbit, new_orbit):
+def _crossings(prev_nu, new_nu, prev_orbit, new_orbit, discs=None):
+    """Stability changes between two consecutive members: [(kind, which index)].
+    ``discs``: their :func:`_disc` values when already known (the loop keeps them)."""
     out = []
-    cp, cn = _disc(prev_orbit), _disc(new_orbit)
+    cp, cn = discs if discs is not None else (_disc(prev_orbit), _disc(new_orbit))
     if (cp >= 0) != (cn >= 0):
         out.append(("complex", -1))
     for j in (0, 1):
@@ -306,6 +313,7 @@ def grow(system, first: PeriodicOrbit, kind, *, step=1e-3, max_step=0.05, direct
     Xs = [X]
     ts = [t]
     nus = [_indices(first, planar)]
+    disc_prev = _disc(first) if locate_bifurcations else 0.0
     bifs = []
     target = None
     ds = float(step)
@@ -349,7 +357,8 @@ def grow(system, first: PeriodicOrbit, kind, *, step=1e-3, max_step=0.05, direct
         prev = members[-1]
         nu = _match(nus[-1], _indices(orbit, planar))
         if locate_bifurcations:
-            for kind_b, j in _crossings(nus[-1], nu, prev, orbit):
+            disc_new = _disc(orbit)
+            for kind_b, j in _crossings(nus[-1], nu, prev, orbit, (disc_prev, disc_new)):
                 if kind_b == "complex":
                     g = _disc
                 else:
@@ -389,10 +398,12 @@ def grow(system, first: PeriodicOrbit, kind, *, step=1e-3, max_step=0.05, direct
         Xs.append(Xn)
         ts.append(tn)
         nus.append(nu)
+        if locate_bifurcations:
+            disc_prev = disc_new
         if progress is not None:
             progress(len(members), stops.max_members, orbit)
-        if stops.detect_closure and len(members) > 10 and np.linalg.norm(Xn - Xs[0]) < 0.5 * abs(ds) \
-                and np.dot(tn, ts[0]) > 0:
+        if stops.detect_closure and len(members) > 10 and _norm(Xn - Xs[0]) < 0.5 * abs(ds) \
+                and float(tn @ ts[0]) > 0:
             reason = "the family closed (returned to its first member)"
             break
         X, t = Xn, tn

@@ -6,13 +6,20 @@
 * Closest approaches: first found on the integrator's accepted steps (which crowd where the
   motion is fast, e.g. at perilune), then refined on a fine grid from a short re-propagation
   around the minimum, and finally by the vertex of the parabola through the three best
-  samples (the error of that last step is third order in the grid spacing).
+  samples (the error of that last step is third order in the grid spacing). When the window
+  of the sampled minimum holds an exact point of the trajectory where the distance is
+  stationary and curves upward (the start, or a located perpendicular crossing: symmetric
+  orbits cross their symmetry plane or axis with (r - c) . v = 0 for a primary c on the x
+  axis), that point is the closest approach and no re-propagation is needed.
 """
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
+from .. import dynamics
 from ..integrate import plane, propagate
 
 _FINE = 41
@@ -50,13 +57,52 @@ def extremes(system, arc):
     and the smaller primary (conventions in :mod:`cr3bp.orbits.orbit`).
     """
     s = arc.states
+    t = arc.t
     mu = system.mu
-    pts = [arc.states[0], arc.states[-1]] + [e.state for e in arc.events]
-    pts = np.array(pts)
+    events = arc.events
+    pts = np.array([s[0], s[-1]] + [e.state for e in events])
     out = [0.5 * (pts[:, 0].max() - pts[:, 0].min()), 0.5 * (pts[:, 1].max() - pts[:, 1].min()),
            float(np.abs(pts[:, 2]).max())]
     approach = []
+    n = len(s)
+    yz2 = s[:, 1] ** 2 + s[:, 2] ** 2
     for xc in (-mu, 1.0 - mu):
-        f = lambda st, xc=xc: np.sqrt((st[:, 0] - xc) ** 2 + st[:, 1] ** 2 + st[:, 2] ** 2)  # noqa: E731
-        approach.append(_refine(system, arc, f, int(np.argmin(f(s))), -1))
+        i = int(np.argmin((s[:, 0] - xc) ** 2 + yz2))
+        # exact points of the trajectory in the window of the sampled minimum where the
+        # distance is stationary: the start, and the located events (perpendicular crossings)
+        lo, hi = t[max(i - 1, 0)], t[min(i + 1, n - 1)]
+        cands = [s[0]] if i == 0 else []
+        cands += [e.state for e in events if lo < e.t < hi]
+        exact = [d for d in (_stationary_minimum(mu, c, xc) for c in cands) if d is not None]
+        if exact:
+            approach.append(min(exact))
+        else:
+            f = lambda st, xc=xc: np.sqrt((st[:, 0] - xc) ** 2 + st[:, 1] ** 2 + st[:, 2] ** 2)  # noqa: E731
+            approach.append(_refine(system, arc, f, i, -1))
     return tuple(out), tuple(approach)
+
+
+#: |(r - c) . v| / (|r - c| |v|) below which a point counts as stationary in distance: at the
+#: located perpendicular crossings it is ~1e-10 (the event and the periodicity tolerances);
+#: the distance there exceeds the true minimum by rate^2 |v|^2 / (2 (|v|^2 + (r - c) . a)) of
+#: itself (second order: ~1e-20 unless the distance hardly curves, as on a near-circular arc
+#: about the primary).
+STATIONARY_RATE = 1e-9
+
+
+def _stationary_minimum(mu, state, xc):
+    """The distance from (xc, 0, 0) to ``state`` when it is a local minimum along the
+    trajectory, else None. A local minimum: zero rate, ``(r - c) . v = 0`` to
+    :data:`STATIONARY_RATE` (as at the perpendicular crossings of every symmetric orbit: on the
+    x-z plane with vx = vz = 0, or on the x axis with vx = 0), and positive curvature,
+    ``d2(|r - c|^2 / 2)/dt2 = |v|^2 + (r - c) . a > 0``."""
+    x, y, z, vx, vy, vz = state.tolist()
+    rx = x - xc
+    rr = rx * rx + y * y + z * z
+    vv = vx * vx + vy * vy + vz * vz
+    if abs(rx * vx + y * vy + z * vz) > STATIONARY_RATE * math.sqrt(rr * vv):
+        return None
+    a = dynamics.acceleration(mu, state)
+    if vv + rx * a[3] + y * a[4] + z * a[5] > 0.0:
+        return math.sqrt(rr)
+    return None

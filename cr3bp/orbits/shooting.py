@@ -136,6 +136,10 @@ def arclength(ref, tangent, ds) -> Constraint:
 
 
 def _extra_row(system, sym, c: Constraint, X):
+    """(value, gradient row) of the closing condition at ``X`` (the row may be the constraint's
+    own array: callers copy it into their matrix)."""
+    if c.kind == "arclength":
+        return float((X - c.ref) @ c.tangent) - c.value, c.tangent
     n = len(X)
     row = np.zeros(n)
     if c.kind == "fix":
@@ -154,13 +158,19 @@ def _extra_row(system, sym, c: Constraint, X):
         dc = np.concatenate([2.0 * grad, -2.0 * s[3:]])
         row[:-1] = dc[sym.free_idx]
         return dynamics.jacobi(system.mu, s) - c.value, row
-    if c.kind == "arclength":
-        return float(np.dot(X - c.ref, c.tangent) - c.value), c.tangent.copy()
     raise InputError(f"unknown constraint kind '{c.kind}'")
 
 
 def half_residual(system, sym: Symmetry, X):
     """(F, dF/dX, arc) of the half-period conditions at unknowns ``X``."""
+    D = np.empty((len(sym.targets), len(X)))
+    F, arc = _residual_into(system, sym, X, D)
+    return F, D, arc
+
+
+def _residual_into(system, sym: Symmetry, X, D):
+    """F of the half-period conditions at ``X``; dF/dX written into the first rows of ``D``
+    (the Newton loop hands it the rows of its own matrix, so nothing is stacked or copied)."""
     s0, tau = unpack(sym, X)
     if not tau > 0:
         raise ConvergenceError(f"half period became non-positive ({tau:g} TU)", last=X)
@@ -169,12 +179,10 @@ def half_residual(system, sym: Symmetry, X):
         raise ConvergenceError(f"propagation stopped early ({arc.status}) at t = {arc.t_final:g}", last=X)
     sf = arc.final_state
     tg = sym.target_idx
-    F = sf[tg]
-    fs = dynamics.acceleration(system.mu, sf)
-    D = np.empty((len(tg), len(X)))
-    D[:, :-1] = arc.stm[sym.block]
-    D[:, -1] = fs[tg]
-    return F, D, arc
+    m = len(tg)
+    D[:m, :-1] = arc.stm[sym.block]
+    D[:m, -1] = dynamics.acceleration(system.mu, sf)[tg]
+    return sf[tg], arc
 
 
 def jacobian(system, sym, X):
@@ -194,32 +202,40 @@ def newton(system, sym, X0, constraint: Constraint, tol=HALF_TOL, max_iter=MAX_I
 
     Returns (X, iterations, residual history, (last half-period arc, dF/dX at X)).
     Raises ConvergenceError with iterations, residuals and the last iterate.
+
+    The Jacobian ``J = [dF/dX; constraint row]`` and the residual ``R = [F; g]`` live in two
+    arrays allocated once per call; each iteration overwrites them in place.
     """
     X = np.array(X0, dtype=float)
+    n = len(X)
+    m = n - 1
+    J = np.empty((n, n))
+    R = np.empty(n)
     history = []
     for it in range(1, max_iter + 1):
         try:
-            F, D, arc = half_residual(system, sym, X)
+            F, arc = _residual_into(system, sym, X, J)
         except ConvergenceError as e:
             raise ConvergenceError(f"shooting failed: {e}", it, history, X) from None
         except InputError as e:  # e.g. a state inside a primary
             raise ConvergenceError(f"shooting failed: {e}", it, history, X) from None
         g, row = _extra_row(system, sym, constraint, X)
-        R = np.concatenate([F, [g]])
-        norm = float(np.linalg.norm(R))
+        R[:m] = F
+        R[m] = g
+        norm = math.sqrt(float(R @ R))
         history.append(norm)
         if not math.isfinite(norm):
             break
         if norm < tol or (norm < STALL_TOL and len(history) > 1 and norm > 0.3 * history[-2]):
-            return X, it - 1, history, (arc, D)
-        J = np.vstack([D, row])
+            return X, it - 1, history, (arc, J[:m].copy())
+        J[m] = row
         try:
             dX = np.linalg.solve(J, -R)
         except np.linalg.LinAlgError:
             dX = np.linalg.lstsq(J, -R, rcond=None)[0]
         # damping: never move more than a tenth of the state's scale at once
-        scale = max(1.0, float(np.linalg.norm(dX)) / 0.1)
-        X = X + dX / scale
+        step = math.sqrt(float(dX @ dX))
+        X = X + dX / max(1.0, step / 0.1)
     raise ConvergenceError(
         f"single shooting did not converge in {max_iter} iterations; residual {history[-1]:.3e} "
         f"(needed < {tol:.0e})", len(history), history, unpack(sym, X)[0])
