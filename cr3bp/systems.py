@@ -13,6 +13,7 @@ Conventions (the one place they are written down; everything else refers here):
 from __future__ import annotations
 
 import difflib
+import functools
 import math
 import tomllib
 from dataclasses import dataclass, field
@@ -77,9 +78,10 @@ class System:
         s = self.secondary.name if self.secondary else "primary 2"
         return p, s
 
-    @property
+    @functools.cached_property
     def radii(self) -> tuple[float, float]:
-        """Mean radii of the primaries, nondimensional (0 when unknown)."""
+        """Mean radii of the primaries, nondimensional (0 when unknown); computed once (it is
+        read before every propagation)."""
         if not (self.primary and self.secondary and self.dimensional):
             return 0.0, 0.0
         return self.primary.radius_km / self.length_km, self.secondary.radius_km / self.length_km

@@ -41,7 +41,7 @@ def state(system, value, name: str = "state", allow_inside: bool = False) -> np.
         raise StateError(f"{name} {value!r} is not six numbers x,y,z,vx,vy,vz") from None
     if s.shape != (6,):
         raise StateError(f"{name} has shape {s.shape}; expected six numbers x,y,z,vx,vy,vz")
-    if not np.all(np.isfinite(s)):
+    if not np.isfinite(s).all():
         raise StateError(f"{name} {s.tolist()} has a non-finite entry")
     if not allow_inside:
         _outside(system, s[None, :], name)

@@ -31,6 +31,7 @@ STATUS_NAMES = dop853.STATUS_NAMES
 FAILED = ("max-steps", "stalled", "non-finite")
 DEFAULT_MAX_STEPS = dop853.DEFAULT_MAX_STEPS
 _IDENTITY_FLAT = np.eye(6).ravel()
+_NO_TIMES = np.empty(0)
 
 
 @dataclass(frozen=True)
@@ -193,7 +194,7 @@ def propagate(system, state, t_final, stm=False, rtol=1e-12, atol=1e-12, events=
         _check_events_start(system, tab, s0)
     direction = 1.0 if tf >= t0 else -1.0
     if t_eval is None:
-        te = np.empty(0)
+        te = _NO_TIMES
         record = True
     else:
         te = _t_eval(t_eval, t0, tf, direction)
@@ -202,7 +203,12 @@ def propagate(system, state, t_final, stm=False, rtol=1e-12, atol=1e-12, events=
     nmax = _max_steps(max_steps)
     h0 = -1.0 if first_step is None else abs(validate.finite_time("first_step", first_step))
     mode = MODE_STM if stm else MODE_STATE
-    y0 = np.concatenate([s0, _IDENTITY_FLAT]) if stm else s0.copy()
+    if stm:
+        y0 = np.empty(42)
+        y0[:6] = s0
+        y0[6:] = _IDENTITY_FLAT
+    else:
+        y0 = s0.copy()
 
     (code, t_end, y_end, ts, ys, ev_t, ev_y, ev_k, _seen, eval_y, n_eval, nfev, nsteps,
      _nrej) = dop853.integrate(int(mode), _params(system), y0, float(t0), float(tf), float(rtol),
