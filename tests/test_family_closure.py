@@ -146,18 +146,24 @@ def test_vertical_family_closes_through_its_planar_orbit_and_mirror_images():
     assert min(vz) < 0
 
 
+def _closed_family_json(capsys, family, members, max_step):
+    """`librate family` of an Earth-Moon L1 family with long steps, as JSON; it must close."""
+    rc = main(["family", "--system", "earth-moon", "--family", family, "--point", "L1", "--members",
+               members, "--max-step", max_step, "--step", "0.004", "--format", "json", "-q"])
+    out = capsys.readouterr()
+    assert rc == 0, out.err
+    d = json.loads(out.out)
+    assert "closed" in d["stop_reason"]
+    return d
+
+
 def test_long_steps_through_the_lagrange_point_do_not_land_on_the_point_itself(capsys):
     """Near the Lagrange point the vertical family shrinks to the point, where the half-period
     conditions also hold at rest for any T/2 (a line of equilibria crossing the family). With
     long steps the corrector used to land on that line and slide along it: members of zero size
     (1e-20 LU), T/2 falling to zero, and a stop on "half period became non-positive". Such a
     member is now refused like a failed step, and the family closes."""
-    rc = main(["family", "--system", "earth-moon", "--family", "vertical", "--point", "L1", "--members", "700",
-               "--max-step", "0.045", "--step", "0.004", "--format", "json", "-q"])
-    out = capsys.readouterr()
-    assert rc == 0, out.err
-    d = json.loads(out.out)
-    assert "closed" in d["stop_reason"]
+    d = _closed_family_json(capsys, "vertical", "700", "0.045")
     sizes = [max(m["amplitude_lu"].values()) for m in d["members"]]
     assert min(sizes) == pytest.approx(sizes[0], rel=0.5)     # the first (smallest) member: 290 km
     X = np.array([[m["state"][0], m["state"][4], m["state"][5], m["period"] / 2] for m in d["members"]])
@@ -170,12 +176,7 @@ def test_long_steps_across_the_vertical_junction_stay_on_the_axial_family(capsys
     on along it, silently, as "axial" members (with these options: 300 members, never closing).
     Now a step whose tangent turns by more than 60 degrees is refused and halved: the family
     stays axial and closes, and its path has no corner."""
-    rc = main(["family", "--system", "earth-moon", "--family", "axial", "--point", "L1", "--members", "300",
-               "--max-step", "0.04", "--step", "0.004", "--format", "json", "-q"])
-    out = capsys.readouterr()
-    assert rc == 0, out.err
-    d = json.loads(out.out)
-    assert "closed" in d["stop_reason"]
+    d = _closed_family_json(capsys, "axial", "300", "0.04")
     X = np.array([[m["state"][0], m["state"][4], m["state"][5], m["period"] / 2] for m in d["members"]])
     chords = np.diff(X, axis=0)
     chords /= np.linalg.norm(chords, axis=1)[:, None]

@@ -216,3 +216,24 @@ def test_batch_bad_input():
         propagate_batch(em(), _fan(3), [1.0, 2.0])
     with pytest.raises(InputError):
         propagate_batch(em(), _fan(3), 1.0, on_failure="ignore")
+
+
+def test_cr3bp_step_kernels_equal_the_generic_step():
+    """The CR3BP step kernels (stage loop specialised, the STM one written out stage by stage)
+    compute the same Dormand-Prince step as the generic kernel through ``dynamics.rhs``: all
+    twelve stages and the new state, to round-off."""
+    from cr3bp.integrate import dop853
+    s0 = np.array(halo()[0], dtype=float)
+    params = np.array([em().mu])
+    for mode, y, kernel in ((0, s0.copy(), dop853.step_state),
+                            (1, np.concatenate([s0, np.eye(6).ravel()]), dop853.step_stm)):
+        n = y.shape[0]
+        k_gen, k_fast = np.zeros((16, n)), np.zeros((16, n))
+        dop853.rhs(mode, 0.0, y, params, k_gen[0])
+        k_fast[0] = k_gen[0]
+        new_gen, new_fast = np.empty(n), np.empty(n)
+        dop853.rk_step(mode, params, 0.0, y, 0.05, k_gen, np.empty(n), new_gen)
+        kernel(params, 0.0, y, 0.05, k_fast, np.empty(n), new_fast)
+        scale = np.abs(k_gen[:13]).max()
+        assert np.abs(k_fast[:13] - k_gen[:13]).max() <= 1e-14 * scale
+        assert np.abs(new_fast - new_gen).max() <= 1e-15 * max(1.0, np.abs(new_gen).max())
