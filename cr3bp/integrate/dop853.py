@@ -61,15 +61,16 @@ _NP = 7                   # interpolant coefficient vectors
 
 # ---- one step -------------------------------------------------------------------------
 # The step kernels below are the hot path of every propagation. Measured on this project's
-# benchmarks (numba 0.6x, x86-64), three things matter: (1) calling the CR3BP equations
+# benchmarks (numba 0.68, x86-64), three things matter: (1) calling the CR3BP equations
 # directly in the stage loop -- through the generic ``rhs`` dispatcher a stage costs about
 # twice as much; (2) as few compiled-function layers per step as possible (each call passes
 # its arrays with reference counting); (3) the loop order: one dot product over the stages
 # per component, with the number of stages a compile-time constant for long vectors (see
 # :func:`step_stm`), or one sweep over the components per stage where it is not. Hence one
 # step kernel per right-hand side, chosen once per step by :func:`integrate`, sharing the
-# inlined combination helpers. Differences under ~15 % are within the spread between two
-# compilations of the same code on this machine (code placement), so they were not pursued.
+# inlined combination helpers. Two compilations of the same source differ by up to ~15 % on
+# this machine (code placement), so a variant was kept only where it won in every one of
+# several interleaved runs against separately compiled copies of the current code.
 
 @njit(cache=True, inline="always")
 def _combine_dot(coef, m, y, h, K, out):
