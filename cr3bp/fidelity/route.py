@@ -38,7 +38,8 @@ import numpy as np
 
 from ..errors import ConvergenceError, InputError
 from . import model as _model
-from .transition import TOLERANCE, _central_default, _cr3bp_to_inertial, _history
+from .newton import solve as _solve
+from .transition import TOLERANCE, _central_default, _cr3bp_to_inertial
 
 #: One more patch segment per this many days of flight on an arc.
 PATCH_DAYS = 1.0
@@ -240,49 +241,11 @@ class _Problem:
 
 
 def _newton(p, z, tol, max_iter, progress=None, stage="Newton"):
-    """Minimum-norm Newton with step halving on the residual norm (Golub & Van Loan 2013, 5.6)."""
-    hist = []
-    for it in range(max_iter + 1):
-        F, J = p.constraints(z)
-        err = float(np.max(np.abs(F)))
-        hist.append(err)
-        if progress is not None:
-            progress(stage, it, err)
-        if not math.isfinite(err):
-            raise ConvergenceError(f"route multiple shooting diverged (non-finite mismatch) at iteration {it}",
-                                   iterations=it, residuals=hist)
-        if err < tol:
-            return z, it, hist
-        if it == max_iter:
-            break
-        try:
-            d = -(J.T @ np.linalg.solve(J @ J.T, F))
-        except np.linalg.LinAlgError:
-            raise ConvergenceError(f"singular route multiple-shooting system at iteration {it}",
-                                   iterations=it, residuals=hist) from None
-        norm0 = float(np.linalg.norm(F))
-        alpha = 1.0
-        for _ in range(8):
-            zn = z + alpha * d
-            if p.nT and np.any(np.diff(p.junctions(zn)) <= 0):
-                alpha *= 0.5
-                continue
-            try:
-                Fn, _ = p.constraints(zn)
-            except ConvergenceError:
-                alpha *= 0.5
-                continue
-            if np.linalg.norm(Fn) < norm0:
-                break
-            alpha *= 0.5
-        else:
-            raise ConvergenceError(f"route multiple shooting: step halving failed at iteration {it} "
-                                   f"(mismatch {err:.3g}); mismatch by iteration: {_history(hist)}",
-                                   iterations=it, residuals=hist, last=z)
-        z = zn
-    raise ConvergenceError(f"route multiple shooting did not converge in {max_iter} iterations "
-                           f"(mismatch {hist[-1]:.3g}, tolerance {tol:g}); mismatch by iteration: "
-                           f"{_history(hist)}", iterations=max_iter, residuals=hist, last=z)
+    """Minimum-norm Newton with step halving on the residual norm (:mod:`.newton`)."""
+    report = None if progress is None else (lambda it, err: progress(stage, it, err))
+    return _solve(p.constraints, z, tol, max_iter, what="route multiple shooting",
+                  admissible=(lambda zn: not np.any(np.diff(p.junctions(zn)) <= 0)) if p.nT else None,
+                  progress=report)
 
 
 def _check_route(system, times_tu, states, maneuvers):

@@ -18,13 +18,13 @@ first and last times are always held. Partials: ``dF_k/dx_k = Phi_k``,
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..errors import ConvergenceError, InputError
+from ..errors import InputError
 from . import model as _model
+from . import newton as _newton
 
 #: Continuity tolerance (nondimensional, max component): 1e-9 LU and 1e-9 VU (Earth-Moon:
 #: 0.4 m and 1 mm/s).
@@ -117,74 +117,42 @@ def correct(model, X0, t, *, fix_first=False, free_times=False, tol=TOLERANCE, m
     ------
     ConvergenceError  no convergence within ``max_iter`` or the step halving fails.
     """
-    X = np.array(X0, dtype=float)
-    t = np.array(t, dtype=float)
-    m = X.shape[0] - 1
-    hist = []
-    for it in range(max_iter + 1):
-        ends, phis = _model.propagate_many(model, X[:-1], t[:-1], t[1:], stm=True)
-        F = (ends - X[1:]).ravel()
-        err = float(np.max(np.abs(F)))
-        hist.append(err)
-        if progress is not None:
-            progress(it, err)
-        if not math.isfinite(err):
-            raise ConvergenceError(f"multiple shooting diverged (non-finite mismatch) at iteration {it}",
-                                   iterations=it, residuals=hist)
-        if err < tol:
-            return X, t, it, hist
-        if it == max_iter:
-            break
-        # Jacobian: columns for states (6 (M+1)) then interior times (M-1)
-        nt = (m - 1) if free_times else 0
-        J = np.zeros((6 * m, 6 * (m + 1) + nt))
+    X0 = np.array(X0, dtype=float)
+    t0 = np.array(t, dtype=float)
+    m = X0.shape[0] - 1
+    ns = 6 * (m + 1)                    # state unknowns, then the interior times (free_times)
+    cols = np.arange(ns + ((m - 1) if free_times else 0))
+    if fix_first:
+        cols = cols[6:]
+
+    def unpack(z):
+        full = np.concatenate([X0[0], z]) if fix_first else z
+        tt = t0.copy()
+        if free_times:
+            tt[1:-1] = full[ns:]
+        return full[:ns].reshape(m + 1, 6), tt
+
+    def constraints(z):
+        X, tt = unpack(z)
+        ends, phis = _model.propagate_many(model, X[:-1], tt[:-1], tt[1:], stm=True)
+        J = np.zeros((6 * m, ns + ((m - 1) if free_times else 0)))
         for k in range(m):
             J[6 * k:6 * k + 6, 6 * k:6 * k + 6] = phis[k]
             J[6 * k:6 * k + 6, 6 * k + 6:6 * k + 12] = -np.eye(6)
-        if free_times:
-            for k in range(m):
-                if k >= 1:   # t_k is interior: dF_k/dt_k = -Phi_k f(t_k, x_k)
-                    J[6 * k:6 * k + 6, 6 * (m + 1) + k - 1] = -phis[k] @ model.acceleration(t[k], X[k])
-                if k + 1 <= m - 1:  # dF_k/dt_{k+1} = f(t_{k+1}, end_k)
-                    J[6 * k:6 * k + 6, 6 * (m + 1) + k] = model.acceleration(t[k + 1], ends[k])
-        cols = np.arange(J.shape[1])
-        if fix_first:
-            cols = cols[6:]
-        Jr = J[:, cols]
-        try:
-            y = np.linalg.solve(Jr @ Jr.T, F)
-        except np.linalg.LinAlgError:
-            raise ConvergenceError(f"singular multiple-shooting system at iteration {it}",
-                                   iterations=it, residuals=hist) from None
-        d = np.zeros(J.shape[1])
-        d[cols] = -(Jr.T @ y)
-        norm0 = float(np.linalg.norm(F))
-        alpha = 1.0
-        for _ in range(8):
-            Xn = X + alpha * d[:6 * (m + 1)].reshape(m + 1, 6)
-            tn = t.copy()
-            if free_times:
-                tn[1:-1] += alpha * d[6 * (m + 1):]
-                if np.any(np.diff(tn) <= 0):
-                    alpha *= 0.5
-                    continue
-            try:
-                Fn = _residual(model, Xn, tn)
-            except ConvergenceError:
-                alpha *= 0.5
-                continue
-            if np.linalg.norm(Fn) < norm0:
-                break
-            alpha *= 0.5
-        else:
-            raise ConvergenceError(f"step halving failed at iteration {it} (mismatch {err:.3g}); "
-                                   f"mismatch by iteration: {_history(hist)}",
-                                   iterations=it, residuals=hist, last=X)
-        X, t = Xn, tn
-    raise ConvergenceError(f"multiple shooting did not converge in {max_iter} iterations "
-                           f"(mismatch {hist[-1]:.3g}, tolerance {tol:g}); mismatch by iteration: "
-                           f"{_history(hist)}", iterations=max_iter,
-                           residuals=hist, last=X)
+            if free_times and k >= 1:   # t_k is interior: dF_k/dt_k = -Phi_k f(t_k, x_k)
+                J[6 * k:6 * k + 6, ns + k - 1] = -phis[k] @ model.acceleration(tt[k], X[k])
+            if free_times and k + 1 <= m - 1:  # dF_k/dt_{k+1} = f(t_{k+1}, end_k)
+                J[6 * k:6 * k + 6, ns + k] = model.acceleration(tt[k + 1], ends[k])
+        return (ends - X[1:]).ravel(), J[:, cols]
+
+    z0 = np.concatenate([X0.ravel(), t0[1:-1] if free_times else []])[cols]
+    z, it, hist = _newton.solve(
+        constraints, z0, tol, max_iter, what="multiple shooting",
+        residual=lambda z: _residual(model, *unpack(z)),
+        admissible=(lambda z: bool(np.all(np.diff(unpack(z)[1]) > 0))) if free_times else None,
+        progress=progress, shown=lambda z: unpack(z)[0])
+    X, tt = unpack(z)
+    return X, tt, it, hist
 
 
 def transition(orbit, epoch, revs: int, bodies=("sun", "earth", "moon"), *, central=None,
@@ -282,10 +250,6 @@ def transition(orbit, epoch, revs: int, bodies=("sun", "earth", "moon"), *, cent
         continuity_mps=float(np.abs(gap[:, 3:]).max() * vu * 1000.0),
         options={"central": central, "per_rev": per_rev, "fix_first": fix_first,
                  "free_times": free_times, "tolerance": tol, "period_tu": T})
-
-
-def _history(hist) -> str:
-    return " ".join(f"{h:.2e}" for h in hist)
 
 
 def _min_radius(r) -> float:

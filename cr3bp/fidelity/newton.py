@@ -1,0 +1,92 @@
+"""Minimum-norm Newton with step halving on the residual norm, shared by the ephemeris-model
+corrections (:func:`cr3bp.fidelity.transition.correct`, :func:`cr3bp.fidelity.route.transition_route`).
+
+The update is the least-norm solution of J d = -F, d = -J^T (J J^T)^-1 F (Golub & Van Loan,
+*Matrix Computations*, 4th ed., 2013, section 5.6); the step is halved, at most eight times,
+until it is admissible and lowers the residual's 2-norm.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ..errors import ConvergenceError
+
+HALVINGS = 8
+
+
+def history_text(hist) -> str:
+    """The mismatch by iteration, for an error message."""
+    return " ".join(f"{h:.2e}" for h in hist)
+
+
+def solve(constraints, z, tol, max_iter, *, what="multiple shooting", residual=None,
+          admissible=None, progress=None, shown=None):
+    """Drive ``constraints(z) -> (F, J)`` to ``max |F| < tol``.
+
+    Parameters
+    ----------
+    constraints : callable   residual F (k,) and its Jacobian J (k, n) at z (n,)
+    z : (n,) float           start
+    residual : callable, optional   F alone (cheaper, for trial steps; default from constraints)
+    admissible : callable, optional  False for a trial z that must not be evaluated
+    progress : callable(iteration, mismatch), optional
+    shown : callable, optional   what the error's ``last`` carries (default z itself)
+
+    Returns
+    -------
+    (z, iterations, mismatch history)
+
+    Raises
+    ------
+    ConvergenceError  non-finite mismatch, singular system, failed step halving or no
+                      convergence in ``max_iter`` iterations; the message names ``what``.
+    """
+    residual = residual or (lambda zz: constraints(zz)[0])
+    shown = shown or (lambda zz: zz)
+    z = np.asarray(z, dtype=float)
+    hist = []
+    for it in range(max_iter + 1):
+        F, J = constraints(z)
+        err = float(np.max(np.abs(F)))
+        hist.append(err)
+        if progress is not None:
+            progress(it, err)
+        if not math.isfinite(err):
+            raise ConvergenceError(f"{what} diverged (non-finite mismatch) at iteration {it}",
+                                   iterations=it, residuals=hist)
+        if err < tol:
+            return z, it, hist
+        if it == max_iter:
+            break
+        try:
+            d = -(J.T @ np.linalg.solve(J @ J.T, F))
+        except np.linalg.LinAlgError:
+            raise ConvergenceError(f"singular {what} system at iteration {it}",
+                                   iterations=it, residuals=hist) from None
+        norm0 = float(np.linalg.norm(F))
+        alpha = 1.0
+        for _ in range(HALVINGS):
+            zn = z + alpha * d
+            if admissible is not None and not admissible(zn):
+                alpha *= 0.5
+                continue
+            try:
+                Fn = residual(zn)
+            except ConvergenceError:
+                alpha *= 0.5
+                continue
+            if np.linalg.norm(Fn) < norm0:
+                break
+            alpha *= 0.5
+        else:
+            raise ConvergenceError(f"{what}: step halving failed at iteration {it} (mismatch "
+                                   f"{err:.3g}); mismatch by iteration: {history_text(hist)}",
+                                   iterations=it, residuals=hist, last=shown(z))
+        z = zn
+    raise ConvergenceError(f"{what} did not converge in {max_iter} iterations (mismatch "
+                           f"{hist[-1]:.3g}, tolerance {tol:g}); mismatch by iteration: "
+                           f"{history_text(hist)}", iterations=max_iter, residuals=hist,
+                           last=shown(z))
