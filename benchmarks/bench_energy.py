@@ -1,20 +1,12 @@
 """Speed of the energy stage: Hill-region grids and Lagrange points, as ratios against
 baselines measured in the same run."""
 
-import time
 
 import numpy as np
 
+from .timing import best_time
+
 N = 201
-
-
-def _best(fn, repeat=3):
-    best = float("inf")
-    for _ in range(repeat):
-        t = time.perf_counter()
-        fn()
-        best = min(best, time.perf_counter() - t)
-    return best
 
 
 def run():
@@ -52,11 +44,11 @@ def run():
         brentq(f, 1 - mu + 1e-9, 3.0)
         brentq(f, -3.0, -mu - 1e-9)
 
-    t_vec = _best(grid_vectorised)
-    t_loop = _best(grid_loop, repeat=1)
-    t_hill = _best(lambda: hill_region(em, 3.17, resolution=N))
-    t_pts = _best(points, repeat=20)
-    t_brq = _best(points_brentq, repeat=20)
+    t_vec = best_time(grid_vectorised)
+    t_loop = best_time(grid_loop, repeat=1)
+    t_hill = best_time(lambda: hill_region(em, 3.17, resolution=N))
+    t_pts = best_time(points, repeat=20)
+    t_brq = best_time(points_brentq, repeat=20)
     return [
         (f"2 Omega on a {N}x{N} grid (numpy)", t_vec, "per-point kernel calls", t_loop,
          "at least 20x faster than per-point calls"),

@@ -12,16 +12,13 @@ import time
 
 import numpy as np
 
+from .timing import best_time
+
 N = 1_000_000
 
 
-def _best(f, repeat=3):
-    best = float("inf")
-    for _ in range(repeat):
-        t0 = time.process_time()
-        f()
-        best = min(best, time.process_time() - t0)
-    return best
+def _best_cpu(f, repeat=3):
+    return best_time(f, repeat, clock=time.process_time)
 
 
 def run():
@@ -31,27 +28,27 @@ def run():
     t = parse_iso("2031-03-01T00:00:00 TDB") + np.linspace(0.0, 20 * 365.25 * 86400.0, N)
     eph.position("moon", t[:10])
     rows = []
-    pos = _best(lambda: eph.position("moon", t))
-    st = _best(lambda: eph.state("moon", t), repeat=1)
+    pos = _best_cpu(lambda: eph.position("moon", t))
+    st = _best_cpu(lambda: eph.state("moon", t), repeat=1)
     try:
         import erfa
     except ImportError:
         erfa = None
     nan = float("nan")
     t1, t2 = t.two_part_jd("tt")
-    base = _best(lambda: erfa.moon98(t1, t2), repeat=2) if erfa else nan
+    base = _best_cpu(lambda: erfa.moon98(t1, t2), repeat=2) if erfa else nan
     name = "pyerfa moon98 (C, vectorised)" if erfa else "pyerfa not installed"
     rows.append(("Moon position, 1e6 epochs (CPU s)", pos, name, base, "< 1 s"))
     rows.append(("Moon position and velocity, 1e6 epochs (CPU s)", st, name, base, "none"))
     few = t[:100_000]
     f1, f2 = few.two_part_jd("tdb")
-    sun = _best(lambda: eph.position("sun", few, "earth"), repeat=1)
+    sun = _best_cpu(lambda: eph.position("sun", few, "earth"), repeat=1)
     # epv00 (thousands of terms) on 1e4 of the epochs, scaled by 10
-    base = 10 * _best(lambda: erfa.epv00(f1[:10_000], f2[:10_000]), repeat=1) if erfa else nan
+    base = 10 * _best_cpu(lambda: erfa.epv00(f1[:10_000], f2[:10_000]), repeat=1) if erfa else nan
     rows.append(("Sun about Earth, 1e5 epochs (CPU s)", sun, "pyerfa epv00 (C; 1e4 x 10)" if erfa else name,
                  base, "none"))
-    iso = _best(lambda: few.to_iso("tdb", 3), repeat=1)
-    base = _best(lambda: erfa.d2dtf("TT", 3, f1, f2), repeat=1) if erfa else nan
+    iso = _best_cpu(lambda: few.to_iso("tdb", 3), repeat=1)
+    base = _best_cpu(lambda: erfa.d2dtf("TT", 3, f1, f2), repeat=1) if erfa else nan
     rows.append(("1e5 epochs to ISO 8601 TDB text (CPU s)", iso, "pyerfa d2dtf fields (C)" if erfa else name, base,
                  "none (export of 1e5 states)"))
     return rows

@@ -7,11 +7,12 @@ Target: under 2 s for 10^5 states, and faster than the naive formatter.
 from __future__ import annotations
 
 import tempfile
-import time
 from datetime import datetime, timedelta
 from pathlib import Path
 
 import numpy as np
+
+from .timing import best_time
 
 N_STATES = 100_000
 
@@ -60,15 +61,6 @@ def _naive_lines(labels, st):
     return "".join(out)
 
 
-def _best(fn, repeat=3):
-    best = float("inf")
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        best = min(best, time.perf_counter() - t0)
-    return best
-
-
 def run():
     from cr3bp import export
     traj = _trajectory()
@@ -76,8 +68,8 @@ def run():
         ours = Path(d) / "ours.oem"
         naive = Path(d) / "naive.oem"
         export.write_oem(ours, traj)          # warm up (imports, caches)
-        t_ours = _best(lambda: export.write_oem(ours, traj))
-        t_naive = _best(lambda: _naive(naive, traj))
+        t_ours = best_time(lambda: export.write_oem(ours, traj))
+        t_naive = best_time(lambda: _naive(naive, traj))
         # both files carry the same data lines
         a = ours.read_text().split("META_STOP\n\n", 1)[1]
         b = naive.read_text().split("META_STOP\n\n", 1)[1]
@@ -86,8 +78,8 @@ def run():
     from cr3bp import frames
     tdb, st = frames.to_frame(traj.frame, traj.segments[0].t_tu, traj.segments[0].states)
     labels = _labels(frames.epoch_to_text(tdb, "UTC"))   # (prepared outside the timing)
-    t_fmt = _best(lambda: export._data_lines(frames.epoch_to_text(tdb, "UTC"), st))
-    t_fmt_naive = _best(lambda: _naive_lines(labels, st))
+    t_fmt = best_time(lambda: export._data_lines(frames.epoch_to_text(tdb, "UTC"), st))
+    t_fmt_naive = best_time(lambda: _naive_lines(labels, st))
     same_fmt = export._data_lines(frames.epoch_to_text(tdb, "UTC"), st) == _naive_lines(labels, st)
     return [(f"export OEM, {N_STATES} states{'' if same else ' (DATA DIFFER)'}", t_ours,
              "naive per-line writer", t_naive, "< 2 s end to end (frame, epochs, lines, write)"),

@@ -12,18 +12,10 @@
 The orbits come from ``cr3bp.orbits.request.solve_request``.
 """
 
-import time
 
 import numpy as np
 
-
-def _best(fn, repeat=3):
-    best = float("inf")
-    for _ in range(repeat):
-        t = time.perf_counter()
-        fn()
-        best = min(best, time.perf_counter() - t)
-    return best
+from .timing import best_time
 
 
 def _orbits(em):
@@ -51,18 +43,18 @@ def run():
     rows = []
 
     grow_tube(halo, "unstable", "interior", 400, stop)  # compile
-    t_tube = _best(lambda: grow_tube(halo, "unstable", "interior", 400, stop), repeat=3)
+    t_tube = best_time(lambda: grow_tube(halo, "unstable", "interior", 400, stop), repeat=3)
     _, _, _, starts, *_ = manifold_starts(halo, "unstable", "interior", 400)
     sec = parse_section("x=1-mu", em)
-    t_base = _best(lambda: _scipy_loop(em, starts[::10], stop.t_max, sec), repeat=1) * 10
+    t_base = best_time(lambda: _scipy_loop(em, starts[::10], stop.t_max, sec), repeat=1) * 10
     rows.append(("400-trajectory L1 halo tube to x=1-mu", t_tube, "scipy solve_ivp loop (40, x10)", t_base,
                  "< 0.5 s and >= 100x"))
 
     connect(l1, l2, "x=1-mu", 30)  # compile the refinement path
-    t_conn = _best(lambda: connect(l1, l2, "x=1-mu", 300), repeat=1)
+    t_conn = best_time(lambda: connect(l1, l2, "x=1-mu", 300), repeat=1)
     _, _, _, s1, *_ = manifold_starts(l1, "unstable", "interior", 300)
     _, _, _, s2, *_ = manifold_starts(l2, "stable", "interior", 300)
-    t_b2 = _best(lambda: (_scipy_loop(em, s1[::10], stop.t_max, sec),
+    t_b2 = best_time(lambda: (_scipy_loop(em, s1[::10], stop.t_max, sec),
                           _scipy_loop(em, s2[::10], -stop.t_max, sec)), repeat=1) * 10
     rows.append(("planar L1-L2 heteroclinic search, 300-point tubes + refinement", t_conn,
                  "scipy loop, tubes only (30, x10)", t_b2, "< 3 s"))

@@ -15,6 +15,7 @@ from cr3bp import propagate, propagate_batch, system
 from cr3bp.integrate import propagate_scipy
 
 from .seeds import earth_moon_l1_halo
+from .timing import cpu_time, median_time
 
 TOL = 1e-12
 BATCH_N = 1000
@@ -22,29 +23,10 @@ BATCH_T = 5.0
 SCIPY_LOOP_SUBSET = 40
 
 
-def _median_time(fn, repeat, min_total=0.2):
-    """Median wall time of ``fn()`` over ``repeat`` calls (more while under ``min_total`` s)."""
-    times = []
-    start = time.perf_counter()
-    while len(times) < repeat or (time.perf_counter() - start < min_total and len(times) < 200):
-        t0 = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t0)
-    return statistics.median(times)
-
-
-def _cpu_time(fn):
-    """Processor time of one ``fn()`` call, summed over all threads (insensitive to how
-    many other programs share the machine, unlike wall time)."""
-    t0 = time.process_time()
-    fn()
-    return time.process_time() - t0
-
-
 def _halo_rows(em, s0, period):
     propagate(em, s0, period, stm=True, rtol=TOL, atol=TOL)            # compile / load cache
-    ours = _median_time(lambda: propagate(em, s0, period, stm=True, rtol=TOL, atol=TOL), 20)
-    ref = _median_time(lambda: propagate_scipy(em, s0, period, stm=True, rtol=TOL, atol=TOL), 3)
+    ours = median_time(lambda: propagate(em, s0, period, stm=True, rtol=TOL, atol=TOL), 20)
+    ref = median_time(lambda: propagate_scipy(em, s0, period, stm=True, rtol=TOL, atol=TOL), 3)
     rows = [("halo period + STM, rtol=atol=1e-12", ours, "scipy solve_ivp DOP853", ref, ">= 50x")]
     rows.append(_heyoka_row(em, s0, period))
     return rows
@@ -114,22 +96,22 @@ def _batch_row(em, s0):
     rng = np.random.default_rng(2026)
     states = np.array(s0) + rng.normal(scale=1e-4, size=(BATCH_N, 6))
     propagate_batch(em, states[:4], BATCH_T, rtol=TOL, atol=TOL)       # compile / load cache
-    ours = _median_time(lambda: propagate_batch(em, states, BATCH_T, rtol=TOL, atol=TOL), 3)
+    ours = median_time(lambda: propagate_batch(em, states, BATCH_T, rtol=TOL, atol=TOL), 3)
     sub = states[:SCIPY_LOOP_SUBSET]
 
     def loop():
         for s in sub:
             propagate_scipy(em, s, BATCH_T, rtol=TOL, atol=TOL)
-    ref = _median_time(loop, 1, min_total=0.0) * (BATCH_N / SCIPY_LOOP_SUBSET)
-    ours_cpu = min(_cpu_time(lambda: propagate_batch(em, states, BATCH_T, rtol=TOL, atol=TOL))
+    ref = median_time(loop, 1, min_total=0.0) * (BATCH_N / SCIPY_LOOP_SUBSET)
+    ours_cpu = min(cpu_time(lambda: propagate_batch(em, states, BATCH_T, rtol=TOL, atol=TOL))
                    for _ in range(3))
-    ref_cpu = _cpu_time(loop) * (BATCH_N / SCIPY_LOOP_SUBSET)
+    ref_cpu = cpu_time(loop) * (BATCH_N / SCIPY_LOOP_SUBSET)
     # the same batch on one thread: shows what the parallel loop adds on this machine
     import numba
     threads = numba.get_num_threads()
     numba.set_num_threads(1)
     try:
-        one = _median_time(lambda: propagate_batch(em, states, BATCH_T, rtol=TOL, atol=TOL), 3)
+        one = median_time(lambda: propagate_batch(em, states, BATCH_T, rtol=TOL, atol=TOL), 3)
     finally:
         numba.set_num_threads(threads)
     return [(f"propagate_batch {BATCH_N} x {BATCH_T:g} TU (state only, {threads} threads)", ours,
@@ -147,7 +129,7 @@ def _help_row():
     def once():
         subprocess.run([sys.executable, "-m", "librate_cli.main", "--help"], check=True,
                        capture_output=True)
-    secs = _median_time(once, 5, min_total=0.0)
+    secs = median_time(once, 5, min_total=0.0)
     return ("librate --help (subprocess wall time)", secs, "", None, "< 0.5 s")
 
 
