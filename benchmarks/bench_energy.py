@@ -1,7 +1,6 @@
 """Speed of the energy stage: Hill-region grids and Lagrange points, as ratios against
 baselines measured in the same run."""
 
-
 import numpy as np
 
 from .timing import best_time

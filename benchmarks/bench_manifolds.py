@@ -12,7 +12,6 @@
 The orbits come from ``cr3bp.orbits.request.solve_request``.
 """
 
-
 import numpy as np
 
 from .timing import best_time

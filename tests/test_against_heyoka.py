@@ -40,17 +40,11 @@ def _heyoka_grid(ta, s0, grid):
     return out[-1]
 
 
-def test_dro_five_periods_agrees_with_heyoka(heyoka_integrator):
-    s0, period = dro()
-    grid = np.linspace(0.0, 5.0 * period, 41)
-    ours = propagate(em(), s0, grid[-1], rtol=1e-13, atol=1e-13, t_eval=grid).states
-    ref = _heyoka_grid(heyoka_integrator, s0, grid)
-    assert np.max(np.abs(ours - ref)) < STATE_AGREEMENT_LU
-
-
-def test_halo_half_period_agrees_with_heyoka(heyoka_integrator):
-    s0, period = halo()
-    grid = np.linspace(0.0, 0.5 * period, 11)
+@pytest.mark.parametrize("orbit,periods,samples", [(dro, 5.0, 41), (halo, 0.5, 11)],
+                         ids=["dro five periods", "halo half period"])
+def test_states_agree_with_heyoka(heyoka_integrator, orbit, periods, samples):
+    s0, period = orbit()
+    grid = np.linspace(0.0, periods * period, samples)
     ours = propagate(em(), s0, grid[-1], rtol=1e-13, atol=1e-13, t_eval=grid).states
     ref = _heyoka_grid(heyoka_integrator, s0, grid)
     assert np.max(np.abs(ours - ref)) < STATE_AGREEMENT_LU
