@@ -258,28 +258,35 @@ def _manifold_leg(system, task) -> dict:
     return leg_from_connection(system, best, st["patches"])
 
 
+def _periapsis_legs(orbit, body, altitude_km, stability, n_points) -> list:
+    """Legs of :func:`cr3bp.connections.parking_legs` through the orbit's manifold and its first
+    periapsis at ``altitude_km`` over ``body``: the interior branch, then the exterior one if
+    the interior gives none. Raises NoSolutionError with both branches' reasons."""
+    from .connections import parking_legs
+    from .errors import NoSolutionError
+    found, reasons = [], []
+    for branch in ("interior", "exterior"):
+        try:
+            found += parking_legs(orbit, body, altitude_km, stability=stability, branch=branch,
+                                  n_points=n_points)
+        except LibrateError as e:
+            reasons.append(str(e))
+        if found:
+            return found
+    raise NoSolutionError("; ".join(reasons))
+
+
 def _parking_leg(system, task) -> dict:
     """The cheapest leg between a parking orbit and an orbit node through the orbit's manifold
     and its first periapsis at the parking altitude (:func:`cr3bp.connections.parking_legs`:
     stable manifold to arrive at the orbit, unstable to leave it; interior branch, then
     exterior), as a plain leg dict."""
-    from .connections import parking_legs
     from .stitch import leg_from_connection
     st = task["settings"]
     arrive = st["arrive"]                     # parking -> orbit
     orbit = _orbit_from_plain(system, task["to" if arrive else "from"]["orbit_data"])
-    found, reasons = [], []
-    for branch in ("interior", "exterior"):
-        try:
-            found += parking_legs(orbit, st["body"], st["altitude_km"], stability="stable" if arrive else "unstable",
-                                  branch=branch, n_points=st["tube_points"])
-        except LibrateError as e:
-            reasons.append(str(e))
-        if found:
-            break
-    if not found:
-        from .errors import NoSolutionError
-        raise NoSolutionError("; ".join(reasons))
+    found = _periapsis_legs(orbit, st["body"], st["altitude_km"], "stable" if arrive else "unstable",
+                            st["tube_points"])
     best = min(found, key=lambda lg: (lg.dv_mps, lg.tof))
     return leg_from_connection(system, best, st["patches"])
 
@@ -290,7 +297,6 @@ def _boundary_leg(system, task) -> dict:
     periapsis at the capture altitude about the body (:func:`cr3bp.connections.parking_legs`,
     its insertion impulse left out: a capture node asks for the arrival condition, not an
     orbit); for an escape, the first crossing of the escape distance from the body. Zero Δv."""
-    from .connections import parking_legs
     from .manifolds import Stop, grow_tube
     from .sections import primary_index
     from .stitch import RTOL, ATOL
@@ -299,18 +305,7 @@ def _boundary_leg(system, task) -> dict:
     reasons = []
     if task["method"] == "capture":
         from .stitch import leg_from_connection
-        found = []
-        for branch in ("interior", "exterior"):
-            try:
-                found += parking_legs(orbit, st["body"], st["distance_km"], stability="unstable",
-                                      branch=branch, n_points=st["tube_points"])
-            except LibrateError as e:
-                reasons.append(str(e))
-            if found:
-                break
-        if not found:
-            from .errors import NoSolutionError
-            raise NoSolutionError("; ".join(reasons))
+        found = _periapsis_legs(orbit, st["body"], st["distance_km"], "unstable", st["tube_points"])
         best = min(found, key=lambda lg: lg.tof)
         leg = leg_from_connection(system, best, st["patches"])
         # the arrival condition itself: the state at periapsis before any insertion impulse
