@@ -93,6 +93,21 @@ def _float(name, text, lo, hi):
     return v
 
 
+def _model_options(args, sysm):
+    """The options --orbit and --route share, checked: (max_iter, srp, bodies, output format)."""
+    from cr3bp import export
+    from cr3bp.errors import InputError
+    from cr3bp.fidelity import model as fm
+    max_iter = common.whole_number("--max-iter", args.max_iter, 1, 200)
+    srp = parse_srp(args.srp)
+    bodies = fm.parse_bodies(args.bodies)
+    fmt_out = export.format_of(args.out) if args.out else None
+    if args.plot and not args.plot.lower().endswith(".png"):
+        raise InputError(f"--plot '{args.plot}' must name a .png file")
+    _check_epoch(args, sysm)
+    return max_iter, srp, bodies, fmt_out
+
+
 def _run_route(args, sysm):
     """--route: a stitched route carried into the ephemeris model (cr3bp.fidelity.route)."""
     import warnings
@@ -101,7 +116,6 @@ def _run_route(args, sysm):
 
     from cr3bp import export, frames
     from cr3bp.errors import InputError
-    from cr3bp.fidelity import model as fm
     from cr3bp.fidelity.route import read_route, transition_route
     from cr3bp.plotting.fidelity import rotating_states
     for flag, given in (("--revs", args.revs != "12"), ("--patches", args.patches != "7"),
@@ -109,13 +123,7 @@ def _run_route(args, sysm):
         if given:
             raise InputError(f"{flag} applies to --orbit only; with --route use --patch-days and --hold-end")
     patch_days = _float("--patch-days", args.patch_days, 0.01, 1000.0)
-    max_iter = common.whole_number("--max-iter", args.max_iter, 1, 200)
-    srp = parse_srp(args.srp)
-    bodies = fm.parse_bodies(args.bodies)
-    fmt_out = export.format_of(args.out) if args.out else None
-    if args.plot and not args.plot.lower().endswith(".png"):
-        raise InputError(f"--plot '{args.plot}' must name a .png file")
-    _check_epoch(args, sysm)
+    max_iter, srp, bodies, fmt_out = _model_options(args, sysm)
     t_tu, states, maneuvers = read_route(args.route, sysm)
     common.progress(args, f"route: {len(t_tu)} samples over {(t_tu[-1] - t_tu[0]) * sysm.time_days:.4g} d, "
                           f"{len(maneuvers)} maneuvers; multiple shooting in the ephemeris model...")
@@ -191,8 +199,6 @@ def run(args):
     import numpy as np
 
     from cr3bp import export, frames
-    from cr3bp.errors import InputError
-    from cr3bp.fidelity import model as fm
     from cr3bp.fidelity.transition import transition
     from cr3bp.orbits.request import solve_request
 
@@ -202,13 +208,7 @@ def run(args):
         return _run_route(args, sysm)
     revs = common.whole_number("--revs", args.revs, 1, 200)
     per_rev = common.whole_number("--patches", args.patches, 2, 64)
-    max_iter = common.whole_number("--max-iter", args.max_iter, 1, 200)
-    srp = parse_srp(args.srp)
-    bodies = fm.parse_bodies(args.bodies)
-    fmt_out = export.format_of(args.out) if args.out else None
-    if args.plot and not args.plot.lower().endswith(".png"):
-        raise InputError(f"--plot '{args.plot}' must name a .png file")
-    _check_epoch(args, sysm)
+    max_iter, srp, bodies, fmt_out = _model_options(args, sysm)
     common.progress(args, f"solving orbit request '{args.orbit}'...")
     orbit = solve_request(sysm, args.orbit)
     common.progress(args, f"orbit: period {orbit.period_days:.6f} d; transition over {revs} revolutions "
