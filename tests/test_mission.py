@@ -135,10 +135,18 @@ def test_scenario_errors_exit_2_and_write_nothing(tmp_path, catalog, capsys, edi
 
 
 def _members(path):
+    """(family_id, idx) of the catalogued members; none while the file exists but the
+    writer has not yet committed the schema (the poll below can look in that window)."""
     import sqlite3
     db = sqlite3.connect(path)
-    rows = db.execute("SELECT family_id, idx FROM members").fetchall()
-    db.close()
+    try:
+        rows = db.execute("SELECT family_id, idx FROM members").fetchall()
+    except sqlite3.OperationalError as e:
+        if "no such table" not in str(e):
+            raise
+        rows = []
+    finally:
+        db.close()
     return rows
 
 
