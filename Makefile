@@ -4,7 +4,7 @@ VENV   := .venv
 BIN    := $(VENV)/bin
 STAMP  := $(VENV)/.installed
 
-.PHONY: demo test bench venv clean system-deps
+.PHONY: demo test bench venv kernels clean system-deps
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -15,7 +15,13 @@ $(STAMP): pyproject.toml
 
 venv: $(STAMP)
 
-demo: $(STAMP)
+# The integrator built ahead of time (cr3bp/integrate/prebuilt.py): single requests then start
+# without numba. Rebuilt only when its source changed; without it everything still runs
+# (numba's just-in-time kernels), only slower to start, hence the leading '-'.
+kernels: $(STAMP)
+	-@$(BIN)/python -m cr3bp.integrate build --if-stale
+
+demo: kernels
 	$(BIN)/librate run examples/farlight.toml --out out
 
 # Headless Chromium renders the HTML report in a test (Debian package 'chromium').
@@ -26,11 +32,11 @@ system-deps:
 	    apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq chromium >/dev/null; \
 	  else echo "warning: no chromium and no apt-get; the report rendering test will fail"; fi; }
 
-test: $(STAMP) system-deps
+test: kernels system-deps
 	$(BIN)/python -m pytest -q
 
-bench: $(STAMP)
+bench: kernels
 	$(BIN)/python -m benchmarks
 
 clean:
-	rm -rf $(VENV) out .pytest_cache
+	rm -rf $(VENV) out .pytest_cache cr3bp/integrate/_prebuilt

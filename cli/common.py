@@ -98,6 +98,15 @@ COMPILED_KERNELS = (("cr3bp.integrate.dop853", "integrate"),
                     ("cr3bp.integrate.dop853", "integrate_batch"))
 
 
+#: The kernel that :mod:`cr3bp.integrate.prebuilt` builds ahead of time for ``propagate``.
+PREBUILT_KERNEL = ("cr3bp.integrate.dop853", "integrate")
+
+
+def _prebuilt_current() -> bool:
+    from cr3bp.integrate import prebuilt
+    return prebuilt.kernels() is not None
+
+
 def kernels_cached(kernels=COMPILED_KERNELS) -> bool:
     """True when numba's on-disk cache holds a fresh entry for every kernel in ``kernels``.
 
@@ -106,10 +115,13 @@ def kernels_cached(kernels=COMPILED_KERNELS) -> bool:
     ``NUMBA_CACHE_DIR`` when that is set or the package folder is read-only. An index is
     used only while the SHA-256 stamp of the module's source stored in it matches the
     file, otherwise numba compiles again. The check asks each dispatcher's own cache, so it
-    looks exactly where numba will look.
+    looks exactly where numba will look. The integrator counts as cached when its current
+    ahead-of-time build is present (then ``propagate`` does not use numba's).
     """
     import importlib
     for module, func in kernels:
+        if (module, func) == PREBUILT_KERNEL and _prebuilt_current():
+            continue        # the ahead-of-time build replaces it: nothing to compile
         try:
             disp = getattr(importlib.import_module(module), func)
             cache_file = disp._cache._cache_file

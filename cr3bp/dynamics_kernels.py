@@ -1,18 +1,11 @@
-"""CR3BP dynamics as compiled kernels: pseudo-potential, its gradient and Hessian, the
-equations of motion with and without the variational equations, and the Jacobi constant.
+"""CR3BP dynamics as compiled kernels (numba ``njit(cache=True)``): the pseudo-potential, its
+gradient and Hessian, the equations of motion with and without the variational equations,
+the right-hand-side dispatcher of the integrator, and the Jacobi constant of many states.
 
-Conventions are in :mod:`cr3bp.systems`. Equations of motion (Szebehely, *Theory of Orbits*,
-1967, §1.5)::
-
-    x'' - 2 y' = dOmega/dx,   y'' + 2 x' = dOmega/dy,   z'' = dOmega/dz
-
-Variational equations for the state transition matrix Phi (6x6, row-major in the last 36
-entries of the extended state): Phi' = A(t) Phi with A = [[0, I], [H, 2 W]], H the Hessian of
-Omega and W = [[0, 1, 0], [-1, 0, 0], [0, 0, 0]] (Koon, Lo, Marsden & Ross, *Dynamical Systems,
-the Three-Body Problem and Space Mission Design*, 2011, §4.4).
-
-Every kernel is ``numba.njit(cache=True)``; the Python wrappers at the bottom work on whole
-arrays of states.
+The equations and their sources are in :mod:`cr3bp.dynamics`, which holds the array-level
+wrappers and imports nothing compiled: code that only needs the wrappers or the
+ahead-of-time built kernels (:mod:`cr3bp.integrate.prebuilt`) does not import numba.
+``cr3bp.dynamics.<kernel>`` still reaches every kernel here (module ``__getattr__``).
 """
 
 from __future__ import annotations
@@ -21,12 +14,6 @@ import numpy as np
 from numba import njit
 
 from .fidelity import forces as _ephemeris_forces
-
-# Right-hand-side modes understood by :func:`rhs` (also used by the integrator).
-MODE_STATE = 0
-MODE_STM = 1
-MODE_EPHEMERIS = 2       # point-mass ephemeris model (cr3bp.fidelity.forces), 6 states
-MODE_EPHEMERIS_STM = 3   # the same with its variational equations, 42 states
 
 
 @njit(cache=True, fastmath=False)
@@ -158,56 +145,3 @@ def _jacobi_many(mu, states, out):
         s = states[i]
         v2 = s[3] * s[3] + s[4] * s[4] + s[5] * s[5]
         out[i] = 2.0 * omega(mu, s[0], s[1], s[2]) - v2
-
-
-# ---- array-level wrappers -------------------------------------------------------------
-
-def jacobi(mu: float, states) -> np.ndarray | float:
-    """Jacobi constant ``C = 2 Omega - v^2`` of one state (6,) or many (N, 6)."""
-    s = np.asarray(states, dtype=float)
-    flat = np.atleast_2d(s)
-    out = np.empty(flat.shape[0])
-    _jacobi_many(float(mu), np.ascontiguousarray(flat[:, :6]), out)
-    return float(out[0]) if s.ndim == 1 else out
-
-
-def acceleration(mu: float, state) -> np.ndarray:
-    """Time derivative of one 6-state (numpy convenience for tests and scripts)."""
-    out = np.empty(6)
-    eom(0.0, np.asarray(state, dtype=float), float(mu), out)
-    return out
-
-
-def hessian(mu: float, position) -> np.ndarray:
-    """Hessian of Omega at a position (3,)."""
-    out = np.empty((3, 3))
-    p = np.asarray(position, dtype=float)
-    hessian_omega(float(mu), p[0], p[1], p[2], out)
-    return out
-
-
-def jacobian(mu: float, state) -> np.ndarray:
-    """The 6x6 matrix A of the variational equations at ``state``."""
-    a = np.zeros((6, 6))
-    a[0:3, 3:6] = np.eye(3)
-    a[3:6, 0:3] = hessian(mu, np.asarray(state)[:3])
-    a[3, 4] = 2.0
-    a[4, 3] = -2.0
-    return a
-
-
-def mirror(states) -> np.ndarray:
-    """Image under the CR3BP symmetry (x, y, z, vx, vy, vz, t) -> (x, -y, z, -vx, vy, -vz, -t).
-
-    If ``s(t)`` is a solution then ``mirror(s(-t))`` is one too (Szebehely 1967, §2.6; the
-    symmetry about the x-z plane with time reversal). Works on (6,) or (N, 6).
-    """
-    s = np.array(states, dtype=float, copy=True)
-    s[..., 1] *= -1.0
-    s[..., 3] *= -1.0
-    s[..., 5] *= -1.0
-    return s
-
-
-#: Diagonal of the matrix G with mirror(s) = G s, for STM symmetry relations.
-MIRROR = np.array([1.0, -1.0, 1.0, -1.0, 1.0, -1.0])

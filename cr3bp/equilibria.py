@@ -360,8 +360,7 @@ def _point(system, name: str) -> LagrangePoint:
     mu = system.mu
     pos, g, it = _position(name, mu)
     c = float(dynamics.jacobi(mu, np.concatenate([pos, np.zeros(3)])))
-    grad = np.empty(3)
-    dynamics.grad_omega(mu, pos[0], pos[1], pos[2], grad)
+    grad = dynamics.gradient(mu, pos)
     return LagrangePoint(name, _frozen(pos), c, g, linear_modes(mu, pos, name), it, mu,
                          float(np.linalg.norm(grad)))
 

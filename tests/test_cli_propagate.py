@@ -118,9 +118,10 @@ def test_subprocess_end_to_end(tmp_path):
 
 
 def test_later_processes_reuse_the_kernel_cache(tmp_path):
-    # the second process must load every integrator kernel from numba's cache, not compile
+    # on numba's just-in-time kernels (the prebuilt module switched off), the second process
+    # must load every integrator kernel from numba's cache, not compile
     import os
-    env = dict(os.environ, NUMBA_DEBUG_CACHE="1")
+    env = dict(os.environ, NUMBA_DEBUG_CACHE="1", LIBRATE_KERNELS="jit")
     cmd = [sys.executable, "-m", "librate_cli.main", "propagate", "--system", "earth-moon",
            "--state", HALO_GUESS, "--time", "1d", "--stm", "--format", "json",
            "--out", str(tmp_path / "a.json")]
@@ -130,3 +131,20 @@ def test_later_processes_reuse_the_kernel_cache(tmp_path):
     assert "dop853.integrate-" in log and "data loaded" in log
     assert "data saved" not in log, [ln for ln in log.splitlines() if "saved" in ln]
     assert "compiling the numerical kernels" not in second.stderr
+
+
+def test_with_the_prebuilt_kernels_a_process_does_not_touch_numba(tmp_path):
+    import os
+    from cr3bp.integrate import prebuilt
+    assert prebuilt.find() is not None, "no current prebuilt kernels: run 'make kernels'"
+    env = {k: v for k, v in os.environ.items() if k != "LIBRATE_KERNELS"}
+    env["NUMBA_DEBUG_CACHE"] = "1"
+    p = subprocess.run([sys.executable, "-c", "import sys\nfrom librate_cli.main import main\n"
+                        f"rc = main(['propagate', '--system', 'earth-moon', '--state', '{HALO_GUESS}', "
+                        f"'--time', '1d', '--stm', '--format', 'json', '--out', '{tmp_path / 'a.json'}'])\n"
+                        "print('NUMBA' if 'numba' in sys.modules else 'NO-NUMBA'); sys.exit(rc)"],
+                       capture_output=True, text=True, timeout=600, env=env)
+    assert p.returncode == 0, p.stderr
+    assert "NO-NUMBA" in p.stdout and "data loaded" not in p.stdout + p.stderr
+    assert "compiling the numerical kernels" not in p.stderr
+    assert json.loads((tmp_path / "a.json").read_text())["status"] == "time"

@@ -4,6 +4,7 @@ from .. import common
 from . import _tube_options as to
 
 NAME = "connect"
+KERNELS = (("cr3bp.integrate.dop853", "integrate"), ("cr3bp.integrate.dop853", "integrate_batch"))
 ORDER = 70
 HELP = "connect two orbits (or a parking orbit and an orbit) through their manifolds: delta-v, time of flight"
 EXAMPLE = ("librate connect --system earth-moon --from 'lyapunov L1 jacobi=3.15' "

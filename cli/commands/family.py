@@ -4,6 +4,7 @@ from .. import common
 from . import _orbit_options as oo
 
 NAME = "family"
+KERNELS = (("cr3bp.integrate.dop853", "integrate"),)   # the prebuilt build counts
 ORDER = 50
 HELP = "grow a family of periodic orbits: table of members, stability indices, bifurcations, plots"
 EXAMPLE = "librate family --system earth-moon --family lyapunov --point L1 --members 300 --format csv"

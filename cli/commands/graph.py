@@ -10,7 +10,7 @@ EXAMPLE = "librate graph build --system earth-moon --nodes nodes.toml --workers 
 
 PLOT_SUFFIXES = (".png", ".svg")
 #: compiled kernels this command uses (checked for the first-run compile notice)
-KERNELS = (("cr3bp.integrate.dop853", "integrate"),)
+KERNELS = (("cr3bp.integrate.dop853", "integrate"), ("cr3bp.integrate.dop853", "integrate_batch"))
 
 
 def add_arguments(p):

@@ -4,6 +4,7 @@ from .. import common
 from . import _tube_options as to
 
 NAME = "manifold"
+KERNELS = (("cr3bp.integrate.dop853", "integrate"), ("cr3bp.integrate.dop853", "integrate_batch"))
 ORDER = 65
 HELP = "grow a stable or unstable manifold (tube) of a periodic orbit to a section, time, altitude or escape"
 EXAMPLE = ("librate manifold --system earth-moon --family lyapunov --point L1 --jacobi 3.17 --unstable "

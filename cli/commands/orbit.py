@@ -4,6 +4,7 @@ from .. import common
 from . import _orbit_options as oo
 
 NAME = "orbit"
+KERNELS = (("cr3bp.integrate.dop853", "integrate"),)   # the prebuilt build counts
 ORDER = 40
 HELP = "compute a periodic orbit (halo, Lyapunov, vertical, axial, DRO, resonant) meeting a target"
 EXAMPLE = "librate orbit --system earth-moon --family halo --point L2 --branch south --period 6.5626d"

@@ -8,7 +8,7 @@ located on the dense interpolant with Brent's method (R. P. Brent, *Algorithms f
 Minimization without Derivatives*, 1973, ch. 4, procedure ``zero``).
 
 Every function is ``numba.njit(cache=True)``. The right-hand side is
-:func:`cr3bp.dynamics.rhs` ``(mode, t, s, params, out)``; a new force model is a new
+:func:`cr3bp.dynamics_kernels.rhs` ``(mode, t, s, params, out)``; a new force model is a new
 ``mode`` there and nothing changes here (modes 0/1: the CR3BP; 2/3: the ephemeris model of
 :mod:`cr3bp.fidelity.forces` -- this line also renews numba's cache stamp of this module, which
 does not notice a change of ``rhs`` in another file). Arguments are always passed with the same types
@@ -35,8 +35,12 @@ from __future__ import annotations
 import numpy as np
 from numba import njit, prange
 
-from ..dynamics import MODE_STATE, MODE_STM, eom, eom_stm, rhs
+from ..dynamics import MODE_STATE, MODE_STM
+from ..dynamics_kernels import eom, eom_stm, rhs
 from .coefficients import A, B, C, D, E3, E5, N_STAGES, N_STAGES_EXTENDED, ERROR_ORDER
+from .status import (DEFAULT_MAX_STEPS, STATUS_ESCAPE, STATUS_EVENT, STATUS_IMPACT,  # noqa: F401
+                     STATUS_MAX_STEPS, STATUS_NAMES, STATUS_NONFINITE, STATUS_STALLED,
+                     STATUS_TIME)
 
 # ---- tuning constants (Hairer et al. 1993, code dop853: SAFE, FAC1, FAC2) ---------------
 SAFETY = 0.9             # safety factor on the optimal step
@@ -47,12 +51,6 @@ EPS = 2.220446049250313e-16   # double-precision unit round-off (dop853 UROUND)
 STALL_FACTOR = 10.0      # stop when 0.1 |h| <= |t| * EPS (dop853's "step size too small")
 LAST_STEP_STRETCH = 1.01 # take t_final if it is within 1 % beyond the next step (dop853)
 MAX_BRENT_ITERATIONS = 200
-DEFAULT_MAX_STEPS = 1_000_000
-
-STATUS_TIME, STATUS_EVENT, STATUS_IMPACT, STATUS_ESCAPE = 0, 1, 2, 3
-STATUS_MAX_STEPS, STATUS_STALLED, STATUS_NONFINITE = -1, -2, -3
-STATUS_NAMES = {0: "time", 1: "event", 2: "impact", 3: "escape", -1: "max-steps",
-                -2: "stalled", -3: "non-finite"}
 
 _NS = N_STAGES            # 12 stages of the method
 _NX = N_STAGES_EXTENDED   # 16 stages with the FSAL stage and three for dense output
@@ -164,7 +162,7 @@ def step_stm(params, t, y, h, K, ytmp, ynew):
 
 @njit(cache=True)
 def rk_step(mode, params, t, y, h, K, ytmp, ynew):
-    """:func:`step_state` for any right-hand side ``mode`` of :func:`cr3bp.dynamics.rhs` (a new
+    """:func:`step_state` for any right-hand side ``mode`` of :func:`cr3bp.dynamics_kernels.rhs` (a new
     force model runs here unchanged; the CR3BP modes have the kernels above)."""
     for s in range(1, _NS):
         _combine(A[s], s, y, h, K, ytmp)
@@ -409,7 +407,7 @@ def integrate(mode, params, y0, t0, t_final, rtol, atol, first_step, max_step, m
 
     Parameters
     ----------
-    mode : int             right-hand side of :func:`cr3bp.dynamics.rhs` (0: 6, 1: 42 states)
+    mode : int             right-hand side of :func:`cr3bp.dynamics_kernels.rhs` (0: 6, 1: 42 states)
     params : (p,) float    model parameters, params[0] = mu
     y0 : (n,) float        initial state (n = 6 or 42)
     t0, t_final : float

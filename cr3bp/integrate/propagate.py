@@ -4,8 +4,10 @@
 returns an :class:`~cr3bp.integrate.arc.Arc`; :func:`propagate_batch` integrates many states
 in parallel inside compiled code and returns a :class:`BatchResult`. Both validate their
 input with :mod:`cr3bp.validate` and raise only the typed errors of :mod:`cr3bp.errors`.
-The kernels are in :mod:`.dop853`; :func:`~cr3bp.integrate.reference.propagate_scipy` is the
-same interface on scipy for cross-checks.
+The kernels are in :mod:`.dop853`; :func:`propagate` runs the ahead-of-time build of them
+when it is current (:mod:`.prebuilt`: no numba start-up), else numba's just-in-time one.
+:func:`~cr3bp.integrate.reference.propagate_scipy` is the same interface on scipy for
+cross-checks.
 
 Event directions follow the order of integration (as scipy's ``solve_ivp`` does): in a
 backward propagation, ``direction=+1`` selects crossings where g increases as the
@@ -22,14 +24,13 @@ import numpy as np
 from .. import validate
 from ..dynamics import MODE_STATE, MODE_STM
 from ..errors import ConvergenceError, InputError
-from . import dop853
+from . import prebuilt
 from .arc import Arc, EventHit
 from .events import ESCAPE, IMPACT, table
+from .status import DEFAULT_MAX_STEPS, STATUS_NAMES
 
-#: Status names of a finished trajectory; the last three are failures.
-STATUS_NAMES = dop853.STATUS_NAMES
+#: Status names of a finished trajectory (``STATUS_NAMES``); these three are failures.
 FAILED = ("max-steps", "stalled", "non-finite")
-DEFAULT_MAX_STEPS = dop853.DEFAULT_MAX_STEPS
 _IDENTITY_FLAT = np.eye(6).ravel()
 _NO_TIMES = np.empty(0)
 
@@ -78,6 +79,16 @@ class BatchResult:
 
 
 # ---- helpers --------------------------------------------------------------------------
+
+def integrator():
+    """The integration kernel :func:`propagate` calls: the prebuilt one when it is current,
+    else :func:`cr3bp.integrate.dop853.integrate` (same source, same arguments and results)."""
+    k = prebuilt.kernels()
+    if k is not None:
+        return k.integrate
+    from . import dop853
+    return dop853.integrate
+
 
 def _params(system) -> np.ndarray:
     return np.array([float(system.mu)], dtype=np.float64)
@@ -211,9 +222,9 @@ def propagate(system, state, t_final, stm=False, rtol=1e-12, atol=1e-12, events=
         y0 = s0.copy()
 
     (code, t_end, y_end, ts, ys, ev_t, ev_y, ev_k, _seen, eval_y, n_eval, nfev, nsteps,
-     _nrej) = dop853.integrate(int(mode), _params(system), y0, float(t0), float(tf), float(rtol),
-                               float(atol), float(h0), float(mstep), int(nmax), tab, -1, te,
-                               bool(record))
+     _nrej) = integrator()(int(mode), _params(system), y0, float(t0), float(tf), float(rtol),
+                           float(atol), float(h0), float(mstep), int(nmax), tab, -1, te,
+                           bool(record))
     code = int(code)
     if code < 0:
         raise ConvergenceError(_failure_message(code, t_end, t0, tf, nsteps, nmax),
@@ -316,6 +327,7 @@ def propagate_batch(system, states, t_final, rtol=1e-12, atol=1e-12, events=(), 
     ev_k = np.empty((n, max(m, 1)), dtype=np.int64)
     out_nfev = np.zeros(n, dtype=np.int64)
     out_nsteps = np.zeros(n, dtype=np.int64)
+    from . import dop853
     dop853.integrate_batch(int(mode), _params(system), y0s, float(t0), tf, float(rtol), float(atol),
                            float(mstep), int(nmax), tab, int(m), False, out_y, out_t, out_status,
                            out_nev, out_seen, ev_t, ev_y, ev_k, out_nfev, out_nsteps)

@@ -75,8 +75,7 @@ def _system(system, Z, n, phase, hold):
             J[6 * n + 1, 6 * n:] = 1.0
         elif kind == "jacobi":
             s0 = S[0]
-            g = np.empty(3)
-            dynamics.grad_omega(system.mu, s0[0], s0[1], s0[2], g)
+            g = dynamics.gradient(system.mu, s0[:3])
             extra.append(dynamics.jacobi(system.mu, s0) - value)
             J[6 * n + 1, :6] = np.concatenate([2 * g, -2 * s0[3:]])
         else:

@@ -153,8 +153,7 @@ def _extra_row(system, sym, c: Constraint, X):
         return 2.0 * X[-1] - c.value, row
     if c.kind == "jacobi":
         s, _ = unpack(sym, X)
-        grad = np.empty(3)
-        dynamics.grad_omega(system.mu, s[0], s[1], s[2], grad)
+        grad = dynamics.gradient(system.mu, s[:3])
         dc = np.concatenate([2.0 * grad, -2.0 * s[3:]])
         row[:-1] = dc[sym.free_idx]
         return dynamics.jacobi(system.mu, s) - c.value, row

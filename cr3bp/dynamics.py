@@ -1,0 +1,113 @@
+"""CR3BP dynamics: the array-level functions (Jacobi constant, accelerations, gradient and
+Hessian of the pseudo-potential, the variational matrix, the mirror symmetry) over the
+compiled kernels of :mod:`cr3bp.dynamics_kernels`.
+
+Conventions are in :mod:`cr3bp.systems`. Equations of motion (Szebehely, *Theory of Orbits*,
+1967, §1.5)::
+
+    x'' - 2 y' = dOmega/dx,   y'' + 2 x' = dOmega/dy,   z'' = dOmega/dz
+
+Variational equations for the state transition matrix Phi (6x6, row-major in the last 36
+entries of the extended state): Phi' = A(t) Phi with A = [[0, I], [H, 2 W]], H the Hessian of
+Omega and W = [[0, 1, 0], [-1, 0, 0], [0, 0, 0]] (Koon, Lo, Marsden & Ross, *Dynamical Systems,
+the Three-Body Problem and Space Mission Design*, 2011, §4.4).
+
+This module imports nothing compiled. The functions below call the ahead-of-time built
+kernels when they are present and current (:mod:`cr3bp.integrate.prebuilt`: the same source,
+built once by ``make``), otherwise numba's just-in-time ones; a single request therefore
+does not pay numba's start-up. The kernels themselves (``omega``, ``grad_omega``,
+``hessian_omega``, ``eom``, ``eom_stm``, ``rhs``) are reached as ``cr3bp.dynamics.<name>``,
+for use inside other compiled code.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+# Right-hand-side modes understood by ``rhs`` (also used by the integrator).
+MODE_STATE = 0
+MODE_STM = 1
+MODE_EPHEMERIS = 2       # point-mass ephemeris model (cr3bp.fidelity.forces), 6 states
+MODE_EPHEMERIS_STM = 3   # the same with its variational equations, 42 states
+
+#: Kernels of :mod:`cr3bp.dynamics_kernels` reachable as attributes of this module.
+KERNEL_NAMES = ("omega", "grad_omega", "hessian_omega", "eom", "eom_stm", "rhs", "_jacobi_many",
+                "_ephemeris_forces")
+
+
+def __getattr__(name):
+    if name in KERNEL_NAMES:
+        from . import dynamics_kernels
+        return getattr(dynamics_kernels, name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
+
+def _kernels():
+    """The prebuilt kernel module when present and current, else the just-in-time one (both
+    export ``eom``, ``grad_omega``, ``hessian_omega`` and ``_jacobi_many``)."""
+    from .integrate import prebuilt
+    k = prebuilt.kernels()
+    if k is None:
+        from . import dynamics_kernels as k
+    return k
+
+
+# ---- array-level functions ------------------------------------------------------------
+
+def jacobi(mu: float, states) -> np.ndarray | float:
+    """Jacobi constant ``C = 2 Omega - v^2`` of one state (6,) or many (N, 6)."""
+    s = np.asarray(states, dtype=float)
+    flat = np.atleast_2d(s)
+    out = np.empty(flat.shape[0])
+    _kernels()._jacobi_many(float(mu), np.ascontiguousarray(flat[:, :6]), out)
+    return float(out[0]) if s.ndim == 1 else out
+
+
+def acceleration(mu: float, state) -> np.ndarray:
+    """Time derivative of one 6-state (numpy convenience for tests and scripts)."""
+    out = np.empty(6)
+    _kernels().eom(0.0, np.ascontiguousarray(state, dtype=float)[:6], float(mu), out)
+    return out
+
+
+def gradient(mu: float, position) -> np.ndarray:
+    """Gradient of Omega at a position (3,)."""
+    out = np.empty(3)
+    p = np.asarray(position, dtype=float)
+    _kernels().grad_omega(float(mu), float(p[0]), float(p[1]), float(p[2]), out)
+    return out
+
+
+def hessian(mu: float, position) -> np.ndarray:
+    """Hessian of Omega at a position (3,)."""
+    out = np.empty((3, 3))
+    p = np.asarray(position, dtype=float)
+    _kernels().hessian_omega(float(mu), float(p[0]), float(p[1]), float(p[2]), out)
+    return out
+
+
+def jacobian(mu: float, state) -> np.ndarray:
+    """The 6x6 matrix A of the variational equations at ``state``."""
+    a = np.zeros((6, 6))
+    a[0:3, 3:6] = np.eye(3)
+    a[3:6, 0:3] = hessian(mu, np.asarray(state)[:3])
+    a[3, 4] = 2.0
+    a[4, 3] = -2.0
+    return a
+
+
+def mirror(states) -> np.ndarray:
+    """Image under the CR3BP symmetry (x, y, z, vx, vy, vz, t) -> (x, -y, z, -vx, vy, -vz, -t).
+
+    If ``s(t)`` is a solution then ``mirror(s(-t))`` is one too (Szebehely 1967, §2.6; the
+    symmetry about the x-z plane with time reversal). Works on (6,) or (N, 6).
+    """
+    s = np.array(states, dtype=float, copy=True)
+    s[..., 1] *= -1.0
+    s[..., 3] *= -1.0
+    s[..., 5] *= -1.0
+    return s
+
+
+#: Diagonal of the matrix G with mirror(s) = G s, for STM symmetry relations.
+MIRROR = np.array([1.0, -1.0, 1.0, -1.0, 1.0, -1.0])

@@ -1,0 +1,220 @@
+"""The integrator and the dynamics kernels built ahead of time, so that a short job does not
+pay numba's start-up.
+
+A process that calls a just-in-time kernel first imports numba and initialises its compiler
+(its type registries, LLVM and, through its BLAS check, scipy.linalg) even when the machine
+code comes from numba's cache: 0.4-1.1 s measured on this project's 2-core machine, more than
+a whole catalogued orbit request needs for its numerics (~0.01 s). ``make`` therefore also
+compiles the same source -- :func:`cr3bp.integrate.dop853.integrate` and the kernels
+:mod:`cr3bp.dynamics` calls -- into an extension module with ``numba.pycc``, which loads
+without numba in about a millisecond. :func:`cr3bp.integrate.propagate` and the functions of
+:mod:`cr3bp.dynamics` use it when it is present and current; :func:`propagate_batch` (which
+runs threads) and the ephemeris model keep the just-in-time kernels.
+
+Current means built from exactly the source files in :data:`SOURCES`, for this Python, this
+numpy and this processor (the module is compiled for the host processor, so a copy on a
+machine with another processor is not used). The module's file name carries a key of all of
+these; when the key differs -- an edited kernel, a new numpy -- the module is simply not
+found and the just-in-time kernels are used until ``make`` (or ``python -m
+cr3bp.integrate build``) builds it again. The environment variable
+``LIBRATE_KERNELS=jit`` turns the prebuilt module off.
+
+``numba.pycc`` is marked for deprecation by numba; if a numba without it is installed, the
+build says so and everything runs on the just-in-time kernels.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import os
+import platform
+import sys
+from pathlib import Path
+
+#: Files (relative to the ``cr3bp`` package) whose code or constants the built kernels
+#: contain; ``tests/test_prebuilt.py`` checks that nothing the kernels read is missing.
+SOURCES = ("integrate/dop853.py", "integrate/coefficients.py", "integrate/status.py",
+           "dynamics.py", "dynamics_kernels.py", "fidelity/forces.py")
+#: Where the module is written (inside the package; ignored by git).
+DIRECTORY = Path(__file__).resolve().parent / "_prebuilt"
+#: Environment variable: ``jit`` turns the prebuilt module off.
+ENV = "LIBRATE_KERNELS"
+
+_F1 = "float64[::1]"
+_F2 = "float64[:, ::1]"
+#: Exported kernels and their only signatures (the types every caller passes).
+SIGNATURES = {
+    "integrate": (
+        f"Tuple((int64, float64, {_F1}, {_F1}, {_F2}, {_F1}, {_F2}, int64[::1], int64, {_F2}, "
+        f"int64, int64, int64, int64))"
+        f"(int64, {_F1}, {_F1}, float64, float64, float64, float64, float64, float64, int64, "
+        f"{_F2}, int64, {_F1}, boolean)"),
+    "eom": f"void(float64, {_F1}, float64, {_F1})",
+    "grad_omega": f"void(float64, float64, float64, float64, {_F1})",
+    "hessian_omega": f"void(float64, float64, float64, float64, {_F2})",
+    "_jacobi_many": f"void(float64, {_F2}, {_F1})",
+}
+
+_PACKAGE = Path(__file__).resolve().parent.parent
+_state = {"done": False, "module": None}
+
+
+class BuildError(RuntimeError):
+    """The prebuilt module could not be built (no numba.pycc, no C compiler, ...)."""
+
+
+def _processor() -> str:
+    try:
+        with open("/proc/cpuinfo", encoding="ascii", errors="replace") as f:
+            keep = [ln for ln in f.read(65536).splitlines()
+                    if ln.startswith(("model name", "flags", "vendor_id", "cpu family", "model\t"))]
+        if keep:
+            return "\n".join(sorted(set(keep)))
+    except OSError:
+        pass
+    return f"{platform.machine()} {platform.processor()}"
+
+
+def key(package: Path | None = None) -> str:
+    """The key of the sources, Python, numpy and processor (16 hex digits)."""
+    import numpy
+    root = _PACKAGE if package is None else Path(package)
+    h = hashlib.sha256()
+    for rel in SOURCES:
+        h.update(rel.encode())
+        h.update((root / rel).read_bytes())
+    h.update(f"{sys.version}|{numpy.__version__}|{_processor()}|{sorted(SIGNATURES.items())}".encode())
+    return h.hexdigest()[:16]
+
+
+def module_name(package: Path | None = None) -> str:
+    return f"_kernels_{key(package)}"
+
+
+def find(directory: Path | None = None) -> Path | None:
+    """The current prebuilt module's file, or None."""
+    d = DIRECTORY if directory is None else Path(directory)
+    if not d.is_dir():
+        return None
+    name = module_name()
+    for p in d.glob(name + ".*"):
+        if p.suffix in (".so", ".pyd"):
+            return p
+    return None
+
+
+def kernels():
+    """The current prebuilt module (attributes named as in :data:`SIGNATURES`), or None
+    when it is absent, stale, switched off by ``LIBRATE_KERNELS=jit`` or fails to load (a
+    warning then says why). Looked up once per process."""
+    if _state["done"]:
+        return _state["module"]
+    _state["done"] = True
+    if os.environ.get(ENV, "").strip().lower() == "jit":
+        return None
+    path = find()
+    if path is None:
+        return None
+    import importlib.util
+    try:
+        spec = importlib.util.spec_from_file_location(path.name.split(".")[0], path)
+        mod = importlib.util.module_from_spec(spec)
+        spec.loader.exec_module(mod)
+        missing = [n for n in SIGNATURES if not hasattr(mod, n)]
+        if missing:
+            raise ImportError(f"it lacks {', '.join(missing)}")
+    except Exception as e:  # a damaged file: the just-in-time kernels give the same numbers
+        import warnings
+        warnings.warn(f"the prebuilt kernels {path} could not be loaded ({e}); using numba's "
+                      "just-in-time kernels (rebuild: python -m cr3bp.integrate build)",
+                      RuntimeWarning, stacklevel=2)
+        return None
+    _state["module"] = mod
+    return mod
+
+
+def reset():
+    """Forget the lookup (tests, and after a build in the same process)."""
+    _state.update(done=False, module=None)
+
+
+def build(directory: Path | None = None, progress=None) -> Path:
+    """Compile the kernels of :data:`SIGNATURES` into ``directory`` (default
+    :data:`DIRECTORY`) and remove the modules of other keys there. Returns the file.
+    Raises BuildError."""
+    import shutil
+    import tempfile
+    import warnings
+    d = DIRECTORY if directory is None else Path(directory)
+    try:
+        d.mkdir(parents=True, exist_ok=True)
+    except OSError as e:
+        raise BuildError(f"cannot create {d}: {e.strerror}") from None
+    if not os.access(d, os.W_OK):
+        raise BuildError(f"{d} is not writable")
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        try:
+            from numba.pycc import CC
+        except ImportError:
+            raise BuildError("this numba has no ahead-of-time compiler (numba.pycc); "
+                             "the just-in-time kernels are used") from None
+    from .. import dynamics_kernels
+    from . import dop853
+    funcs = {"integrate": dop853.integrate, "eom": dynamics_kernels.eom,
+             "grad_omega": dynamics_kernels.grad_omega, "hessian_omega": dynamics_kernels.hessian_omega,
+             "_jacobi_many": dynamics_kernels._jacobi_many}
+    name = module_name()
+    if progress:
+        progress(f"librate: building the prebuilt kernels {name} (once per change of their source)...")
+    tmp = Path(tempfile.mkdtemp(prefix=".build-", dir=d))
+    try:
+        cc = CC(name)
+        cc.output_dir = str(tmp)
+        cc.target_cpu = "host"
+        cc.verbose = False
+        for export, sig in SIGNATURES.items():
+            cc.export(export, sig)(funcs[export].py_func)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            try:
+                cc.compile()
+            except Exception as e:
+                raise BuildError(f"numba.pycc could not build the kernels: {str(e).splitlines()[0] if str(e) else type(e).__name__}") from None
+        built = [p for p in tmp.iterdir() if p.name.startswith(name + ".")]
+        if len(built) != 1:
+            raise BuildError(f"numba.pycc left {len(built)} files for {name} in {tmp}")
+        target = d / built[0].name
+        os.replace(built[0], target)          # atomic: a reader sees the old file or the new
+    finally:
+        shutil.rmtree(tmp, ignore_errors=True)
+    for old in d.glob("_kernels_*"):
+        if old != target and old.is_file():
+            old.unlink(missing_ok=True)
+    reset()
+    return target
+
+
+def main(argv=None) -> int:
+    """``python -m cr3bp.integrate [build [--if-stale] | status]``."""
+    args = list(sys.argv[1:] if argv is None else argv)
+    cmd = args.pop(0) if args else "status"
+    if cmd == "status" and not args:
+        p = find()
+        print(f"prebuilt kernels: {p} (current)" if p else
+              f"prebuilt kernels: none current in {DIRECTORY} (key {key()}); the just-in-time "
+              "kernels are used")
+        return 0
+    if cmd == "build" and args in ([], ["--if-stale"]):
+        if args and find() is not None:
+            return 0
+        try:
+            p = build(progress=lambda m: print(m, file=sys.stderr, flush=True))
+        except BuildError as e:
+            print(f"librate: warning: {e}", file=sys.stderr)
+            return 1
+        print(f"prebuilt kernels: {p}", file=sys.stderr)
+        return 0
+    print(f"usage: python -m cr3bp.integrate [build [--if-stale] | status]; got {' '.join([cmd] + args)!r}",
+          file=sys.stderr)
+    return 2

@@ -1,0 +1,206 @@
+"""The ahead-of-time built kernels (cr3bp.integrate.prebuilt) against numba's just-in-time
+ones compiled from the same source: same results, used only while current, and a clean
+fall-back otherwise. ``make test`` builds the module first (``make kernels``)."""
+
+import ast
+import sys
+import types
+import warnings
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from cr3bp import dynamics, dynamics_kernels, system
+from cr3bp.integrate import dop853, events, prebuilt
+from cr3bp.integrate.propagate import integrator, propagate
+
+EM = system("earth-moon")
+HALO = np.array([1.0220325268769859, 0.0, -0.1821043666916314, 0.0, -0.10328034227137894, 0.0])
+PERIOD = 1.511256281147235
+
+
+@pytest.fixture
+def fresh_lookup():
+    prebuilt.reset()
+    yield
+    prebuilt.reset()
+
+
+def _current():
+    k = prebuilt.kernels()
+    assert k is not None, ("no current prebuilt kernels: run 'make kernels' (and unset "
+                           "LIBRATE_KERNELS=jit, which switches them off)")
+    return k
+
+
+def test_the_current_module_is_found_and_used_by_propagate():
+    k = _current()
+    assert prebuilt.find().name.startswith(prebuilt.module_name() + ".")
+    assert integrator() is k.integrate
+
+
+def _cases():
+    mu = np.array([EM.mu])
+    y42 = np.concatenate([HALO, np.eye(6).ravel()])
+    none, no_t = np.zeros((0, 6)), np.empty(0)
+    cross = events.table([events.plane("y", 0.0, terminal=True, count=2)])
+    moon = events.table([events.impact(1, 0.002)])
+    t_eval = np.linspace(0.0, PERIOD, 9)
+    yield "state, record", (0, mu, HALO.copy(), 0.0, PERIOD, 1e-12, 1e-12, -1.0, np.inf, 10**6,
+                            none, -1, no_t, True)
+    yield "state+STM, backward", (1, mu, y42.copy(), 0.0, -PERIOD, 1e-12, 1e-12, -1.0, np.inf,
+                                  10**6, none, -1, no_t, True)
+    yield "STM, second x-z crossing", (1, mu, y42.copy(), 0.0, 3.0, 1e-12, 1e-12, -1.0, np.inf,
+                                       10**6, cross, -1, no_t, False)
+    yield "t_eval, max_step, first_step", (0, mu, HALO.copy(), 0.0, PERIOD, 1e-10, 1e-11, 1e-3,
+                                           0.05, 10**6, none, 4, t_eval, False)
+    yield "impact", (0, mu, np.array([1.05, 0.0, 0.0, 0.0, -0.05, 0.0]), 0.0, 5.0, 1e-12, 1e-12,
+                     -1.0, np.inf, 10**6, moon, -1, no_t, True)
+    yield "step limit", (0, mu, HALO.copy(), 0.0, PERIOD, 1e-12, 1e-12, -1.0, np.inf, 7, none,
+                         -1, no_t, True)
+
+
+@pytest.mark.parametrize("name,args", list(_cases()), ids=[c[0] for c in _cases()])
+def test_prebuilt_integrator_gives_the_just_in_time_results(name, args):
+    """Every output of the two builds of dop853.integrate: same status, step counts and event
+    records, and values equal to round-off (both are compiled by LLVM for this processor
+    from one source; they measured bitwise equal here, the bound allows for a different
+    instruction choice)."""
+    a = _current().integrate(*args)
+    b = dop853.integrate(*args)
+    assert len(a) == len(b) == 14
+    for k, (u, v) in enumerate(zip(a, b)):
+        if isinstance(v, np.ndarray):
+            assert u.shape == v.shape and u.dtype == v.dtype, (name, k)
+            assert np.allclose(u, v, rtol=1e-13, atol=1e-15), (name, k, np.abs(u - v).max())
+        elif isinstance(v, float):
+            assert u == pytest.approx(v, rel=1e-13, abs=1e-15), (name, k)
+        else:
+            assert int(u) == int(v), (name, k)
+    if name == "impact":
+        assert int(a[0]) == 2
+    if name == "step limit":
+        assert int(a[0]) == -1
+
+
+def test_dynamics_functions_agree_between_builds(monkeypatch, fresh_lookup):
+    rng = np.random.default_rng(7)
+    states = np.column_stack([rng.uniform(0.7, 1.2, 20), rng.uniform(-0.2, 0.2, (20, 2)),
+                              rng.uniform(-0.3, 0.3, (20, 3))])
+    k = _current()
+    pre = (dynamics.jacobi(EM.mu, states), [dynamics.acceleration(EM.mu, s) for s in states],
+           [dynamics.gradient(EM.mu, s[:3]) for s in states], [dynamics.hessian(EM.mu, s[:3]) for s in states])
+    assert dynamics._kernels() is k
+    monkeypatch.setenv(prebuilt.ENV, "jit")
+    prebuilt.reset()
+    assert dynamics._kernels() is dynamics_kernels
+    jit = (dynamics.jacobi(EM.mu, states), [dynamics.acceleration(EM.mu, s) for s in states],
+           [dynamics.gradient(EM.mu, s[:3]) for s in states], [dynamics.hessian(EM.mu, s[:3]) for s in states])
+    for u, v in zip(pre, jit):
+        assert np.allclose(u, v, rtol=1e-14, atol=0.0)
+    # and the gradient is the derivative of Omega (central differences, 1e-7 relative)
+    h = 1e-6
+    p = states[0, :3]
+    fd = [(dynamics_kernels.omega(EM.mu, *(p + h * e)) - dynamics_kernels.omega(EM.mu, *(p - h * e))) / (2 * h)
+          for e in np.eye(3)]
+    assert np.allclose(dynamics.gradient(EM.mu, p), fd, rtol=1e-7, atol=1e-9)
+
+
+def test_switched_off_absent_or_damaged_module_falls_back(monkeypatch, tmp_path, fresh_lookup):
+    monkeypatch.setenv(prebuilt.ENV, "jit")
+    assert prebuilt.kernels() is None and integrator() is dop853.integrate
+    monkeypatch.delenv(prebuilt.ENV)
+    prebuilt.reset()
+    monkeypatch.setattr(prebuilt, "DIRECTORY", tmp_path)
+    assert prebuilt.kernels() is None                       # absent (or stale: another key)
+    prebuilt.reset()
+    (tmp_path / (prebuilt.module_name() + ".cpython-311-x86_64-linux-gnu.so")).write_bytes(b"not a module")
+    with pytest.warns(RuntimeWarning, match="could not be loaded"):
+        assert prebuilt.kernels() is None
+    arc = propagate(EM, HALO, PERIOD)     # still propagates, on numba's kernels
+    assert np.abs(arc.state_end - HALO).max() < 1e-9
+
+
+def test_the_key_changes_with_every_source(tmp_path):
+    root = Path(prebuilt.__file__).resolve().parent.parent
+    for rel in prebuilt.SOURCES:
+        (tmp_path / rel).parent.mkdir(parents=True, exist_ok=True)
+        (tmp_path / rel).write_bytes((root / rel).read_bytes())
+    k0 = prebuilt.key(tmp_path)
+    assert k0 == prebuilt.key()
+    for rel in prebuilt.SOURCES:
+        f = tmp_path / rel
+        text = f.read_bytes()
+        f.write_bytes(text + b"\n")
+        assert prebuilt.key(tmp_path) != k0, rel
+        f.write_bytes(text)
+    assert prebuilt.key(tmp_path) == k0
+
+
+def _top_level_names(path):
+    tree = ast.parse(Path(path).read_text(encoding="utf-8"))
+    names = set()
+    for node in tree.body:
+        targets = node.targets if isinstance(node, ast.Assign) else (
+            [node.target] if isinstance(node, ast.AnnAssign) else [])
+        for t in targets:
+            for n in ast.walk(t):
+                if isinstance(n, ast.Name):
+                    names.add(n.id)
+    return names
+
+
+def test_sources_cover_everything_the_built_kernels_read():
+    """Walk the compiled call graph from the exported kernels: every function's file, every
+    cr3bp module it reads through an attribute, and the module that assigns each constant it
+    reads, must be in prebuilt.SOURCES (else an edit there would not mark the build stale)."""
+    from numba.core.dispatcher import Dispatcher
+    roots = [dop853.integrate, dynamics_kernels.eom, dynamics_kernels.grad_omega,
+             dynamics_kernels.hessian_omega, dynamics_kernels._jacobi_many]
+    package = Path(prebuilt.__file__).resolve().parent.parent
+    mods = [m for n, m in sys.modules.items() if n.startswith("cr3bp") and getattr(m, "__file__", None)]
+    needed, seen, todo = set(), set(), list(roots)
+    while todo:
+        py = todo.pop().py_func
+        if py in seen:
+            continue
+        seen.add(py)
+        needed.add(Path(py.__code__.co_filename).resolve())
+        names, stack = set(), [py.__code__]
+        while stack:
+            c = stack.pop()
+            names |= set(c.co_names)
+            stack += [k for k in c.co_consts if isinstance(k, types.CodeType)]
+        g = py.__globals__
+        for n in names & set(g):
+            v = g[n]
+            if isinstance(v, Dispatcher):
+                todo.append(v)
+            elif isinstance(v, types.ModuleType) and v.__name__.startswith("cr3bp"):
+                needed.add(Path(v.__file__).resolve())
+                todo += [getattr(v, a) for a in names if isinstance(getattr(v, a, None), Dispatcher)]
+            elif isinstance(v, (int, float, np.ndarray, tuple)):
+                needed |= {Path(m.__file__).resolve() for m in mods
+                           if getattr(m, n, None) is v and n in _top_level_names(m.__file__)}
+    listed = {(package / rel).resolve() for rel in prebuilt.SOURCES}
+    missing = sorted(str(p.relative_to(package)) for p in needed - listed)
+    assert not missing, f"add to prebuilt.SOURCES: {missing}"
+    assert (package / "integrate/coefficients.py").resolve() in needed   # the walk sees constants
+    assert (package / "fidelity/forces.py").resolve() in needed          # and modules read by attribute
+
+
+def test_build_writes_a_loadable_module_and_removes_stale_ones(tmp_path, monkeypatch, fresh_lookup):
+    stale = tmp_path / "_kernels_0000000000000000.cpython-311-x86_64-linux-gnu.so"
+    stale.write_bytes(b"old")
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        path = prebuilt.build(tmp_path)
+    assert path.parent == tmp_path and path.name.startswith(prebuilt.module_name() + ".")
+    assert not stale.exists() and not list(tmp_path.glob(".build-*"))
+    monkeypatch.setattr(prebuilt, "DIRECTORY", tmp_path)
+    prebuilt.reset()
+    k = prebuilt.kernels()
+    assert k is not None and k.__file__ == str(path)
+    args = next(_cases())[1]
+    assert np.array_equal(k.integrate(*args)[2], dop853.integrate(*args)[2])
