@@ -204,3 +204,16 @@ def test_build_writes_a_loadable_module_and_removes_stale_ones(tmp_path, monkeyp
     assert k is not None and k.__file__ == str(path)
     args = next(_cases())[1]
     assert np.array_equal(k.integrate(*args)[2], dop853.integrate(*args)[2])
+
+
+def test_clearing_the_jit_cache_removes_only_the_sources_entries(tmp_path):
+    for rel in ("integrate/__pycache__/dop853.integrate-401.py311.nbi",
+                "integrate/__pycache__/dop853.integrate-401.py311.1.nbc",
+                "__pycache__/dynamics_kernels.eom-62.py311.nbi",
+                "__pycache__/energy._field-10.py311.nbi",             # not a kernel source
+                "integrate/__pycache__/dop853.cpython-311.pyc"):      # byte code stays
+        (tmp_path / rel).parent.mkdir(parents=True, exist_ok=True)
+        (tmp_path / rel).write_bytes(b"x")
+    assert prebuilt.clear_jit_cache(tmp_path) == 3
+    left = sorted(str(p.relative_to(tmp_path)) for p in tmp_path.rglob("*") if p.is_file())
+    assert left == ["__pycache__/energy._field-10.py311.nbi", "integrate/__pycache__/dop853.cpython-311.pyc"]

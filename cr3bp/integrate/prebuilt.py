@@ -195,6 +195,22 @@ def build(directory: Path | None = None, progress=None) -> Path:
     return target
 
 
+def clear_jit_cache(package: Path | None = None) -> int:
+    """Remove numba's on-disk cache (``__pycache__/<module>.*.nbi|nbc`` beside each file of
+    :data:`SOURCES`); returns the number of files removed. numba stamps a cache entry with its
+    own module's source only, so after an edit to, say, ``dynamics_kernels.py`` it would still
+    load ``dop853.py``'s kernels with the old right-hand side inlined. ``build`` from the
+    command line calls this whenever it replaces a module of another key."""
+    root = _PACKAGE if package is None else Path(package)
+    n = 0
+    for rel in SOURCES:
+        src = root / rel
+        for f in (src.parent / "__pycache__").glob(f"{src.stem}.*.nb[ic]"):
+            f.unlink(missing_ok=True)
+            n += 1
+    return n
+
+
 def main(argv=None) -> int:
     """``python -m cr3bp.integrate [build [--if-stale] | status]``."""
     args = list(sys.argv[1:] if argv is None else argv)
@@ -208,12 +224,16 @@ def main(argv=None) -> int:
     if cmd == "build" and args in ([], ["--if-stale"]):
         if args and find() is not None:
             return 0
+        replaced = DIRECTORY.is_dir() and any(DIRECTORY.glob("_kernels_*"))
         try:
             p = build(progress=lambda m: print(m, file=sys.stderr, flush=True))
         except BuildError as e:
             print(f"librate: warning: {e}", file=sys.stderr)
             return 1
         print(f"prebuilt kernels: {p}", file=sys.stderr)
+        if replaced and (n := clear_jit_cache()):
+            print(f"removed {n} files of numba's cache of the same sources (they may hold the old "
+                  "code; numba compiles them again on first use)", file=sys.stderr)
         return 0
     print(f"usage: python -m cr3bp.integrate [build [--if-stale] | status]; got {' '.join([cmd] + args)!r}",
           file=sys.stderr)
