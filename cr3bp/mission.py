@@ -67,7 +67,7 @@ def _spec_for(entry: dict):
     target = {k: (str(v) if not isinstance(v, str) else v) for k, v in target.items()}
     res = entry.get("resonant")
     return spec_from_options(entry["family"], entry.get("point"), entry.get("branch") or None,
-                             resonance_family=res, **target)
+                             resonance_family=res, occurrence=entry.get("occurrence"), **target)
 
 
 def prepare(path) -> Plan:
@@ -299,6 +299,7 @@ def solve_orbits(plan, catalog, progress=None) -> dict:
     """Every orbit of the plan; a target outside its family becomes a ScenarioError naming the
     file, line and key, with the range the family covers."""
     from .errors import NoSolutionError
+    from .mission_report import places_note
     from .orbits.request import solve_request
     lines = scenario_schema.line_index(plan.path.read_text(encoding="utf-8"))
     orbits = {}
@@ -306,6 +307,9 @@ def solve_orbits(plan, catalog, progress=None) -> dict:
         _say(progress, f"orbit '{name}': {spec.family} {spec.point} {spec.branch} {spec.key}={spec.value}")
         try:
             orbits[name] = solve_request(plan.system, spec, catalog=catalog, progress=None)
+            note = places_note(orbits[name].to_dict())
+            if note:
+                _say(progress, f"note: orbit '{name}': {note}")
         except NoSolutionError as e:
             key = f"orbits.{name}.{spec.key}"
             raise ScenarioError([Problem(str(plan.path), lines.get(key, lines.get(f"orbits.{name}", 1)),

@@ -18,6 +18,21 @@ def _system_section(plan) -> str:
     return R.kv_table(pairs)
 
 
+def places_note(d) -> str:
+    """A sentence when the orbit's target is met at more than one place along its family
+    (``target_matches`` of :meth:`PeriodicOrbit.to_dict`), else ""."""
+    tm = d.get("target_matches")
+    if not tm or tm["count"] < 2:
+        return ""
+    where = "; ".join(
+        f"{i}: period {p['period_days']:.4f} d, Jacobi constant {p['jacobi']:.6f}"
+        if p["period_days"] is not None else f"{i}: period {p['period']:.6f} TU"
+        for i, p in enumerate(tm["places"], 1))
+    return (f"The target ({tm['quantity']}) is met at {tm['count']} places along the family, "
+            f"counted from its start ({where}); this is place {tm['occurrence']}. The scenario "
+            "key 'occurrence' chooses another.")
+
+
 def _orbit_section(name, orbit, checks, figures) -> str:
     d = orbit.to_dict()
     nu = [float(np.real(v)) for v in orbit.stability_indices]
@@ -30,6 +45,9 @@ def _orbit_section(name, orbit, checks, figures) -> str:
     pairs += [(f"amplitude {k} [km]", v) for k, v in amp.items()]
     pairs += [(f"closest approach to {k} [km, from centre]", v) for k, v in close.items()]
     html = R.kv_table(pairs)
+    note = places_note(d)
+    if note:
+        html += f"<p>{R.esc(note)}</p>"
     if checks:
         html += "<h3>Constraints</h3>" + R.table(
             ["check", "required", "actual", "margin", "result"],

@@ -30,6 +30,7 @@ ORBIT_KEYS = {
     "perigee": (Q, False, "target closest approach to the larger primary (radius)"),
     "resonance": (S, False, "synodic resonance p:q, e.g. '9:2'"),
     "resonant": (S, False, "p:q of a resonant family"),
+    "occurrence": (I, False, "which place along the family meeting the target, from its start (default 1)"),
     "checks": ("table", False, "constraints to check on the orbit"),
 }
 CHECK_KEYS = {

@@ -1,5 +1,7 @@
 """librate orbit: one periodic orbit picked out of a family by a target value."""
 
+import sys
+
 from .. import common
 from . import _orbit_options as oo
 
@@ -15,6 +17,8 @@ def add_arguments(p):
     oo.add_family_options(p)
     oo.add_target_options(p)
     oo.add_catalog_option(p)
+    p.add_argument("--occurrence", metavar="N", help="where the family meets the target more than once: "
+                   "the N-th place from the family's start (default 1; every place is listed)")
     p.add_argument("--plot", metavar="FILE", help="draw the orbit in three views (PNG, PDF or SVG by suffix)")
     common.add_output_options(p)
 
@@ -26,7 +30,8 @@ def run(args):
     given = oo.targets_given(args)
     if not given:
         raise InputError("give a target: --period, --jacobi, --ax, --ay, --az, --x, --perilune or --resonance")
-    spec = spec_from_options(args.family, args.point, args.branch, args.ratio, **given)
+    spec = spec_from_options(args.family, args.point, args.branch, args.ratio,
+                             occurrence=args.occurrence, **given)
     if args.plot:
         _check_plot_path(args.plot)
     from cr3bp.orbits.targets import make_target
@@ -36,6 +41,9 @@ def run(args):
                     f"{spec.key}={spec.value}".replace("  ", " "))
     orbit = solve_request(system, spec, catalog=cat, progress=oo.progress_printer(args, "family"))
     d = orbit.to_dict()
+    note = _places_note(spec, d)
+    if note:
+        print(f"librate: note: {note}", file=sys.stderr)
     if args.plot:
         from cr3bp.plotting import save
         from cr3bp.plotting.orbits import plot_orbit
@@ -80,7 +88,29 @@ def _table(system, d):
     lines.append(f"amplitudes           Ax {km(a['x'])}, Ay {km(a['y'])}, Az {km(a['z'])}")
     for name, v in d["closest_approach_km"].items():
         lines.append(f"closest approach     {name}: {km(v)} from its centre")
+    tm = d.get("target_matches")
+    if tm and tm["count"] > 1:
+        lines.append(f"target met at        {tm['count']} places along the family, from its start:")
+        for i, p in enumerate(tm["places"], 1):
+            mark = "  <- this orbit" if i == tm["occurrence"] else ""
+            lines.append(f"  {i}: {_place(p)}{mark}")
     return "\n".join(lines) + "\n"
+
+
+def _place(p):
+    per = f"period {p['period_days']:.4f} d" if p["period_days"] is not None else f"period {p['period']:.6f} TU"
+    return f"{per}, Jacobi constant {p['jacobi']:.6f} (near member {p['member']})"
+
+
+def _places_note(spec, d):
+    """One line when the family meets the target at more than one place."""
+    tm = d.get("target_matches")
+    if not tm or tm["count"] < 2:
+        return ""
+    others = "; ".join(f"{i}: {_place(p)}" for i, p in enumerate(tm["places"], 1) if i != tm["occurrence"])
+    return (f"{spec.key} = {spec.value} is met at {tm['count']} places along the family; this is "
+            f"place {tm['occurrence']} from its start; the others ({others}) are chosen with "
+            "--occurrence N")
 
 
 def _check_plot_path(path):

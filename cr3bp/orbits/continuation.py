@@ -456,44 +456,86 @@ def value_range(members, qname):
     return min(vals), max(vals)
 
 
-def solve_on_members(system, kind, members, qname, value, family="", point="", branch=""):
+def target_brackets(vals, value) -> list:
+    """Indices ``k`` of the consecutive member pairs ``(k, k + 1)`` between which
+    ``vals - value`` changes sign, one per place where the family meets the value: a member
+    that meets it exactly is counted once (with the pair before it), and a family that only
+    touches the value and turns back meets it once."""
+    out = []
+    for k in range(len(vals) - 1):
+        ga, gb = vals[k] - value, vals[k + 1] - value
+        if ga * gb > 0:
+            continue
+        if ga == 0 and out and out[-1] == k - 1:
+            continue
+        out.append(k)
+    return out
+
+
+def solve_on_members(system, kind, members, qname, value, family="", point="", branch="",
+                     occurrence=1):
     """The member of an already computed (e.g. catalogued) family where ``quantity = value``.
 
-    ``members`` are PeriodicOrbits or catalogue records (dicts). Finds the first pair of
-    consecutive members (from the family's start) that brackets ``value`` and solves between
-    them: directly with the quantity held (jacobi, period, x, z, vz) or by regula falsi along
-    their secant (other quantities). Only the bracketing pair is touched, so a catalogued
-    family is not recomputed.
+    ``members`` are PeriodicOrbits or catalogue records (dicts). Families are not monotone in
+    every quantity (the Earth–Moon L2 halo family meets a Jacobi constant of 3.05 twice), so
+    every place where the family meets the value is found (:func:`target_brackets`, in order
+    from the family's start) and the ``occurrence``-th one (1-based) is solved: directly with
+    the quantity held (jacobi, period, x, z, vz) or by regula falsi along the secant of the
+    bracketing pair (other quantities). Only that pair is corrected, so a catalogued family is
+    not recomputed. ``orbit.extra["target_matches"]`` records ``occurrence``, ``count`` and,
+    per place, the member index and the period (TU) and Jacobi constant interpolated there.
 
     Raises
     ------
-    NoSolutionError when no pair brackets the value; the message gives the available range
-    (nondimensional; the request layer restates it in the user's units).
+    NoSolutionError when no pair brackets the value (the message gives the available range,
+    nondimensional; the request layer restates it in the user's units), or when the family
+    meets it fewer than ``occurrence`` times.
     """
     sym = shooting.symmetry(kind)
     vals = [member_value(m, qname) for m in members]
     meta = dict(family=family, point=point, branch=branch)
-    for k in range(len(members) - 1):
-        ga, gb = vals[k] - value, vals[k + 1] - value
-        if ga * gb <= 0:
-            Xa, Xb = _member_X(members[k], sym), _member_X(members[k + 1], sym)
-            if qname in ("jacobi", "period", "x", "z", "vz"):
-                frac = ga / (ga - gb) if ga != gb else 0.0
-                Xg = Xa + frac * (Xb - Xa)
-                c = {"jacobi": shooting.hold_jacobi, "period": shooting.hold_period}.get(qname)
-                c = c(value) if c else shooting.fix(qname, value)
-                Xs, it, hist, (arc, _) = shooting.newton(system, sym, Xg, c)
-                return shooting.finish(system, sym, Xs, it, hist, **meta, half_stm=arc.stm)
-            L = float(np.linalg.norm(Xb - Xa))
-            t = (Xb - Xa) / L
-            if ga == 0:
-                Xs, it, hist, (arc, _) = shooting.newton(system, sym, Xa, shooting.arclength(Xa, t, 0.0))
-                return shooting.finish(system, sym, Xs, it, hist, **meta, half_stm=arc.stm)
-            g = lambda o: quantity(o, qname) - value  # noqa: E731
-            return solve_between(system, sym, None, Xa, t, L, g, ga, gb, meta)
-    lo, hi = min(vals), max(vals)
-    raise NoSolutionError(f"no member with {qname} = {value:.10g}; this family spans "
-                          f"{lo:.10g} to {hi:.10g}")
+    places = target_brackets(vals, value)
+    if not places:
+        lo, hi = min(vals), max(vals)
+        raise NoSolutionError(f"no member with {qname} = {value:.10g}; this family spans "
+                              f"{lo:.10g} to {hi:.10g}")
+    if not (isinstance(occurrence, int) and 1 <= occurrence):
+        raise InputError(f"occurrence = {occurrence!r} must be a whole number >= 1")
+    if occurrence > len(places):
+        raise NoSolutionError(f"this family meets {qname} = {value:.10g} at {len(places)} "
+                              f"place{'s' if len(places) > 1 else ''}; occurrence {occurrence} "
+                              "does not exist")
+    k = places[occurrence - 1]
+    orbit = _solve_pair(system, sym, members[k], members[k + 1], vals[k] - value,
+                        vals[k + 1] - value, qname, value, meta)
+    matches = []
+    for j in places:
+        ga, gb = vals[j] - value, vals[j + 1] - value
+        f = ga / (ga - gb) if ga != gb else 0.0
+        at = {q: (1 - f) * member_value(members[j], q) + f * member_value(members[j + 1], q)
+              for q in ("period", "jacobi")}
+        matches.append({"member": int(j), "period": float(at["period"]), "jacobi": float(at["jacobi"])})
+    orbit.extra["target_matches"] = {"quantity": qname, "occurrence": occurrence,
+                                     "count": len(places), "places": matches}
+    return orbit
+
+
+def _solve_pair(system, sym, ma, mb, ga, gb, qname, value, meta):
+    Xa, Xb = _member_X(ma, sym), _member_X(mb, sym)
+    if qname in ("jacobi", "period", "x", "z", "vz"):
+        frac = ga / (ga - gb) if ga != gb else 0.0
+        Xg = Xa + frac * (Xb - Xa)
+        c = {"jacobi": shooting.hold_jacobi, "period": shooting.hold_period}.get(qname)
+        c = c(value) if c else shooting.fix(qname, value)
+        Xs, it, hist, (arc, _) = shooting.newton(system, sym, Xg, c)
+        return shooting.finish(system, sym, Xs, it, hist, **meta, half_stm=arc.stm)
+    L = float(np.linalg.norm(Xb - Xa))
+    t = (Xb - Xa) / L
+    if ga == 0:
+        Xs, it, hist, (arc, _) = shooting.newton(system, sym, Xa, shooting.arclength(Xa, t, 0.0))
+        return shooting.finish(system, sym, Xs, it, hist, **meta, half_stm=arc.stm)
+    g = lambda o: quantity(o, qname) - value  # noqa: E731
+    return solve_between(system, sym, None, Xa, t, L, g, ga, gb, meta)
 
 
 # ---- branch switching -----------------------------------------------------------------------

@@ -135,6 +135,13 @@ class PeriodicOrbit:
         }
         if self.extra.get("periodicity_note"):
             d["periodicity_note"] = self.extra["periodicity_note"]
+        tm = self.extra.get("target_matches")
+        if tm:
+            d["target_matches"] = {
+                "quantity": tm["quantity"], "occurrence": tm["occurrence"], "count": tm["count"],
+                "places": [{"member": p["member"], "period": p["period"],
+                            "period_days": _num(self.system.days(p["period"])) if self.system.dimensional else None,
+                            "jacobi": p["jacobi"]} for p in tm["places"]]}
         return d
 
 

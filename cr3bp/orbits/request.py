@@ -10,9 +10,13 @@ Grammar: ``FAMILY [POINT] [BRANCH] [RESONANCE] KEY=VALUE``, for example::
     vertical L1 az=20000km
     dro x=1.08                         # x of the far-side crossing (LU unless a unit is given)
     resonant 3:2 jacobi=2.9
+    halo L2 south jacobi=3.05 occurrence=2  # the second place along the family meeting it
 
 FAMILY is one of lyapunov, halo (alias nrho), vertical, axial, dro, resonant. KEY is one of
-period, jacobi, ax, ay, az, x, perilune, resonance.
+period, jacobi, ax, ay, az, x, perilune, resonance. A family need not be monotone in its
+target (the Earth–Moon L2 southern halo family meets C = 3.05 twice): ``occurrence=N``
+(default 1) picks the N-th place from the family's start, and the orbit records every place
+(``extra["target_matches"]``, JSON ``target_matches``).
 """
 
 from __future__ import annotations
@@ -34,10 +38,14 @@ class OrbitSpec:
     key: str = ""
     value: str = ""
     resonance: tuple | None = None   # p:q of a resonant family (not a target)
+    occurrence: int = 1               # which place along the family meeting the target
 
     def to_dict(self) -> dict:
-        return {"family": self.family, "point": self.point, "branch": self.branch, "key": self.key,
-                "value": self.value, "resonance": list(self.resonance) if self.resonance else None}
+        d = {"family": self.family, "point": self.point, "branch": self.branch, "key": self.key,
+             "value": self.value, "resonance": list(self.resonance) if self.resonance else None}
+        if self.occurrence != 1:
+            d["occurrence"] = self.occurrence
+        return d
 
     @property
     def branch_label(self) -> str:
@@ -56,9 +64,12 @@ def parse_request(text: str) -> OrbitSpec:
         raise InputError(f"unknown family '{words[0]}'; allowed: {', '.join(families.FAMILIES)}")
     point = branch = key = value = ""
     resonance = None
+    occurrence = 1
     for w in words[1:]:
         lw = w.lower()
-        if "=" in w:
+        if lw.startswith("occurrence="):
+            occurrence = parse_occurrence(w.split("=", 1)[1])
+        elif "=" in w:
             if key:
                 raise InputError(f"only one target per request; got '{key}={value}' and '{w}'")
             key, value = (p.strip() for p in w.split("=", 1))
@@ -81,21 +92,35 @@ def parse_request(text: str) -> OrbitSpec:
         raise InputError("a resonant family needs p:q, e.g. 'resonant 3:2 jacobi=2.9'")
     if fam != "resonant":
         fam, point, branch = families.check_family(fam, point or None, branch or None)
-    return OrbitSpec(fam, point, branch, key, value, resonance)
+    return OrbitSpec(fam, point, branch, key, value, resonance, occurrence)
 
 
-def spec_from_options(family, point=None, branch=None, resonance_family=None, **target) -> OrbitSpec:
+def parse_occurrence(value) -> int:
+    """``occurrence`` as an int >= 1 (InputError naming the value otherwise)."""
+    text = str(value).strip()
+    if not text.isdigit() or int(text) < 1:
+        raise InputError(f"occurrence {value!r} must be a whole number >= 1 (1: the first place "
+                         "along the family, from its start, that meets the target)")
+    return int(text)
+
+
+def spec_from_options(family, point=None, branch=None, resonance_family=None, occurrence=None,
+                      **target) -> OrbitSpec:
     """The same spec from separate options (the CLI's --family/--point/--branch/--period ...)."""
     given = {k: v for k, v in target.items() if v is not None}
     if len(given) > 1:
         raise InputError(f"give one target, not {len(given)}: {', '.join('--' + k for k in given)}")
     words = [family] + [w for w in (point, branch, resonance_family) if w]
     words += [f"{k}={v}" for k, v in given.items()]
+    if occurrence is not None:
+        words.append(f"occurrence={occurrence}")
     return parse_request(" ".join(words))
 
 
-def default_stops(system, spec: OrbitSpec, target=None) -> continuation.Stops:
-    return continuation.Stops(max_members=600, target=target)
+def default_stops(system, spec: OrbitSpec) -> continuation.Stops:
+    """How far a requested family is grown: all of it (up to 600 members), so that every
+    place meeting the target is known."""
+    return continuation.Stops(max_members=600)
 
 
 def family_key(spec: OrbitSpec):
@@ -112,6 +137,9 @@ def solve_request(system, spec, catalog=None, progress=None) -> PeriodicOrbit:
     catalog : cr3bp.catalog.Catalog, optional
         When given, the family is read from it if catalogued (not recomputed: only the two
         members bracketing the target are corrected), else computed in full and stored.
+        Without it the family is computed in full and not kept. Either way every place
+        where the family meets the target is known, the ``spec.occurrence``-th is solved,
+        and ``orbit.extra["target_matches"]`` lists them all.
     progress : callable(count, max, orbit), optional
 
     Raises
@@ -127,7 +155,7 @@ def solve_request(system, spec, catalog=None, progress=None) -> PeriodicOrbit:
     tg = targets.make_target(system, spec.key, spec.value)
     fam, point, branch = family_key(spec)
     kind = families.kind_of(spec.family)
-    members = None
+    stopped = ""
     if catalog is not None:
         rec = catalog.load_family(system, fam, point, branch)
         if rec is not None and rec.get("members") and rec.get("complete"):
@@ -135,25 +163,33 @@ def solve_request(system, spec, catalog=None, progress=None) -> PeriodicOrbit:
         else:
             family = compute_into_catalog(catalog, system, spec, progress=progress)
             members = [catalog_member(m, i) for i, m in enumerate(family.members)]
-    if members is not None:
-        try:
-            return continuation.solve_on_members(system, kind, members, tg.quantity, tg.value,
-                                                 spec.family, spec.point, branch)
-        except NoSolutionError:
-            lo, hi = continuation.value_range(members, tg.quantity)
-            raise NoSolutionError(_range_message(system, spec, tg, lo, hi)) from None
-    family = families.grow_family(system, spec.family, spec.point, spec.branch,
-                                  stops=default_stops(system, spec, (tg.quantity, tg.value)),
-                                  progress=progress, resonance=spec.resonance,
-                                  locate_bifurcations=False)
-    if family.target is None:
-        lo, hi = continuation.value_range(family.members, tg.quantity)
-        raise NoSolutionError(_range_message(system, spec, tg, lo, hi) + f" (family stopped: {family.stop_reason})")
-    return family.target
+            stopped = family.stop_reason
+    else:
+        family = families.grow_family(system, spec.family, spec.point, spec.branch,
+                                      stops=default_stops(system, spec), progress=progress,
+                                      resonance=spec.resonance, locate_bifurcations=False)
+        members = family.members
+        stopped = family.stop_reason
+    vals = [continuation.member_value(m, tg.quantity) for m in members]
+    places = continuation.target_brackets(vals, tg.value)
+    if not places:
+        why = f" (family stopped: {stopped})" if stopped else ""
+        raise NoSolutionError(_range_message(system, spec, tg, min(vals), max(vals)) + why)
+    if spec.occurrence > len(places):
+        n = len(places)
+        raise NoSolutionError(f"the {_name(spec)} family meets {spec.key} = {spec.value} at {n} "
+                              f"place{'s' if n > 1 else ''}; occurrence {spec.occurrence} does not "
+                              f"exist (allowed: 1{f' to {n}' if n > 1 else ''})")
+    return continuation.solve_on_members(system, kind, members, tg.quantity, tg.value,
+                                         spec.family, spec.point, branch, spec.occurrence)
+
+
+def _name(spec):
+    return " ".join(w for w in (spec.family, spec.point, spec.branch_label) if w)
 
 
 def _range_message(system, spec, tg, lo, hi):
-    name = " ".join(w for w in (spec.family, spec.point, spec.branch_label) if w)
+    name = _name(spec)
     d = targets.describe_value
     return (f"no {name} orbit has {spec.key} = {spec.value}; the family covers {spec.key} from "
             f"{d(system, tg.quantity, lo)} to {d(system, tg.quantity, hi)}")
