@@ -44,6 +44,18 @@ DEGENERATE_LU = 1e-8
 #: junction). Such a step is refused and halved (step control by the angle between successive
 #: tangents: Allgower & Georg, *Numerical Continuation Methods*, 1990, ch. 6, from memory).
 MIN_TANGENT_COSINE = 0.5
+#: A stability index can cross +1 or -1 twice within one step (the Earth–Moon L2 southern halo
+#: family touches -1 twice near 12 d, 0.04 d of period apart) and no sign change shows it.
+#: When the parabola through the last three members' distances to the level dips through it
+#: between the last two, the step is refused and halved, down to this arclength; the two
+#: crossings then fall between consecutive members and are located as any other.
+PAIR_STEP_FLOOR = 1e-3
+#: A member that passes below a primary's surface (or the altitude asked for) or leaves a bound
+#: ends the family, but only once the step that reached it is below this arclength: longer
+#: steps are halved first, so the family ends near its true limit whatever the step size was
+#: there (without this the L2 southern halo family ended at 6.11 d or at 5.96 d depending on
+#: the steps before, losing a -1 crossing at 5.97 d).
+LIMIT_STEP_FLOOR = 1e-3
 
 
 @dataclass(frozen=True)
@@ -256,6 +268,33 @@ def _disc(orbit):
     return float(p * p - 4.0 * q)
 
 
+def _hidden_pair(nus3, h1, h2):
+    """True when a stability index may cross +1 or -1 twice between the last two of three
+    consecutive members (indices ``nus3``, arclength spacings ``h1``, ``h2``): all three on
+    one side of the level, the middle nearest, and the parabola through them reaching the
+    other side at a vertex between the last two."""
+    for j in (0, 1):
+        vals = [n[j] for n in nus3]
+        if any(abs(v.imag) > 0 for v in vals):
+            continue
+        for level in (1.0, -1.0):
+            da, db, dc = (v.real - level for v in vals)
+            if da * db <= 0 or db * dc <= 0 or not (abs(db) < abs(da) and abs(db) < abs(dc)):
+                continue
+            # f(s) = db + p s + q s^2 with f(-h1) = da, f(h2) = dc
+            det = h1 * h2 * (h1 + h2)
+            if det == 0.0:
+                continue
+            p = ((dc - db) * h1 * h1 - (da - db) * h2 * h2) / det
+            q = ((da - db) * h2 + (dc - db) * h1) / det
+            if q == 0.0:
+                continue
+            vertex = -p / (2.0 * q)
+            if 0.0 < vertex < h2 and (db - p * p / (4.0 * q)) * db < 0:
+                return True
+    return False
+
+
 def _crossings(prev_nu, new_nu, prev_orbit, new_orbit, discs=None):
     """Stability changes between two consecutive members: [(kind, which index)].
     ``discs``: their :func:`_disc` values when already known (the loop keeps them)."""
@@ -349,6 +388,9 @@ def grow(system, first: PeriodicOrbit, kind, *, step=1e-3, max_step=0.05, direct
             for k, (d, r) in enumerate(zip(orbit.closest_approach_lu, radii)):
                 if r > 0 and d < r + alt:
                     hit = k
+        if hit is not None and abs(ds) > LIMIT_STEP_FLOOR:
+            ds *= 0.5
+            continue
         if hit is not None:
             name = system.names[hit]
             what = "its surface" if stops.altitude_km is None else f"{stops.altitude_km:g} km altitude"
@@ -356,6 +398,10 @@ def grow(system, first: PeriodicOrbit, kind, *, step=1e-3, max_step=0.05, direct
             break
         prev = members[-1]
         nu = _match(nus[-1], _indices(orbit, planar))
+        if locate_bifurcations and len(nus) >= 2 and abs(ds) > PAIR_STEP_FLOOR and \
+                _hidden_pair((nus[-2], nus[-1], nu), _norm(Xs[-1] - Xs[-2]), _norm(Xn - Xs[-1])):
+            ds *= 0.5
+            continue
         if locate_bifurcations:
             disc_new = _disc(orbit)
             for kind_b, j in _crossings(nus[-1], nu, prev, orbit, (disc_prev, disc_new)):
@@ -391,6 +437,9 @@ def grow(system, first: PeriodicOrbit, kind, *, step=1e-3, max_step=0.05, direct
             v = quantity(orbit, qn)
             if (lo is not None and v < lo) or (hi is not None and v > hi):
                 out = qn
+        if out is not None and abs(ds) > LIMIT_STEP_FLOOR:
+            ds *= 0.5
+            continue
         if out is not None:
             reason = f"next member leaves the bound on {out}"
             break
