@@ -98,8 +98,13 @@ COMPILED_KERNELS = (("cr3bp.integrate.dop853", "integrate"),
                     ("cr3bp.integrate.dop853", "integrate_batch"))
 
 
-#: The kernel that :mod:`cr3bp.integrate.prebuilt` builds ahead of time for ``propagate``.
-PREBUILT_KERNEL = ("cr3bp.integrate.dop853", "integrate")
+#: Kernels that :mod:`cr3bp.integrate.prebuilt` builds ahead of time (``propagate`` and the
+#: functions of :mod:`cr3bp.dynamics` use the prebuilt ones when current).
+PREBUILT_KERNELS = frozenset([("cr3bp.integrate.dop853", "integrate")] + [
+    ("cr3bp.dynamics_kernels", name) for name in ("eom", "grad_omega", "hessian_omega", "_jacobi_many")])
+#: What the dynamics functions compile (the Lagrange points, Jacobi constants, ...).
+DYNAMICS_KERNELS = (("cr3bp.dynamics_kernels", "_jacobi_many"), ("cr3bp.dynamics_kernels", "grad_omega"),
+                    ("cr3bp.dynamics_kernels", "hessian_omega"))
 
 
 def _prebuilt_current() -> bool:
@@ -115,12 +120,12 @@ def kernels_cached(kernels=COMPILED_KERNELS) -> bool:
     ``NUMBA_CACHE_DIR`` when that is set or the package folder is read-only. An index is
     used only while the SHA-256 stamp of the module's source stored in it matches the
     file, otherwise numba compiles again. The check asks each dispatcher's own cache, so it
-    looks exactly where numba will look. The integrator counts as cached when its current
-    ahead-of-time build is present (then ``propagate`` does not use numba's).
+    looks exactly where numba will look. The kernels of :data:`PREBUILT_KERNELS` count as
+    cached when their current ahead-of-time build is present (then numba's are not used).
     """
     import importlib
     for module, func in kernels:
-        if (module, func) == PREBUILT_KERNEL and _prebuilt_current():
+        if (module, func) in PREBUILT_KERNELS and _prebuilt_current():
             continue        # the ahead-of-time build replaces it: nothing to compile
         try:
             disp = getattr(importlib.import_module(module), func)

@@ -148,3 +148,21 @@ def test_with_the_prebuilt_kernels_a_process_does_not_touch_numba(tmp_path):
     assert "NO-NUMBA" in p.stdout and "data loaded" not in p.stdout + p.stderr
     assert "compiling the numerical kernels" not in p.stderr
     assert json.loads((tmp_path / "a.json").read_text())["status"] == "time"
+
+
+def test_first_run_notice_follows_the_kernels_a_command_really_compiles(tmp_path):
+    """With an empty numba cache: on the prebuilt kernels `librate points` compiles nothing
+    and says nothing; on the just-in-time ones it compiles the dynamics kernels and says so."""
+    import os
+    base = {k: v for k, v in os.environ.items() if k != "LIBRATE_KERNELS"}
+    cmd = [sys.executable, "-m", "librate_cli.main", "points", "--system", "earth-moon", "--format", "json"]
+    pre = subprocess.run(cmd, capture_output=True, text=True, timeout=600,
+                         env=dict(base, NUMBA_CACHE_DIR=str(tmp_path / "a")))
+    assert pre.returncode == 0, pre.stderr
+    assert "compiling the numerical kernels" not in pre.stderr
+    assert not (tmp_path / "a").exists()                     # numba never ran
+    jit = subprocess.run(cmd, capture_output=True, text=True, timeout=600,
+                         env=dict(base, NUMBA_CACHE_DIR=str(tmp_path / "b"), LIBRATE_KERNELS="jit"))
+    assert jit.returncode == 0, jit.stderr
+    assert "compiling the numerical kernels" in jit.stderr
+    assert json.loads(pre.stdout)["points"] == json.loads(jit.stdout)["points"]

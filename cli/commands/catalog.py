@@ -4,6 +4,7 @@ from .. import common
 from . import _orbit_options as oo
 
 NAME = "catalog"
+KERNELS = ()   # reads and writes the catalogue: no propagation
 ORDER = 60
 HELP = "list, show, search (find) and remove families kept in the orbit catalogue"
 EXAMPLE = "librate catalog find --system earth-moon --family halo --point L2 --branch south --period 6.56d"

@@ -3,6 +3,7 @@
 from .. import common
 
 NAME = "points"
+KERNELS = common.DYNAMICS_KERNELS
 ORDER = 20
 HELP = "Lagrange points L1..L5: positions, distances, Jacobi constants, linear modes, stability"
 EXAMPLE = "librate points --system earth-moon"

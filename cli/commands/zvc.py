@@ -3,6 +3,7 @@
 from .. import common
 
 NAME = "zvc"
+KERNELS = common.DYNAMICS_KERNELS
 ORDER = 30
 HELP = "zero-velocity curves and Hill region at a Jacobi constant: which necks are open, plot"
 EXAMPLE = "librate zvc --system earth-moon --above L1 --dv 20m/s --plot hill.png"
