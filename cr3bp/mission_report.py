@@ -21,13 +21,12 @@ def _system_section(plan) -> str:
 def places_note(d) -> str:
     """A sentence when the orbit's target is met at more than one place along its family
     (``target_matches`` of :meth:`PeriodicOrbit.to_dict`), else ""."""
-    tm = d.get("target_matches")
-    if not tm or tm["count"] < 2:
+    from .orbits.request import describe_places
+    places = describe_places(d)
+    if not places:
         return ""
-    where = "; ".join(
-        f"{i}: period {p['period_days']:.4f} d, Jacobi constant {p['jacobi']:.6f}"
-        if p["period_days"] is not None else f"{i}: period {p['period']:.6f} TU"
-        for i, p in enumerate(tm["places"], 1))
+    tm = d["target_matches"]
+    where = "; ".join(f"{i}: {text}" for i, text in enumerate(places, 1))
     return (f"The target ({tm['quantity']}) is met at {tm['count']} places along the family, "
             f"counted from its start ({where}); this is place {tm['occurrence']}. The scenario "
             "key 'occurrence' chooses another.")

@@ -115,3 +115,10 @@ def test_scenario_occurrence_is_checked_with_file_and_line(tmp_path):
     good = tmp_path / "g.toml"
     good.write_text(text.replace('resonance = "9:2"', 'resonance = "9:2"\noccurrence = 1'))
     assert mission.prepare(good).orbit_specs["relay"].occurrence == 1
+
+
+def test_the_report_says_which_place_was_used(both):
+    from cr3bp.mission_report import places_note
+    text = places_note(both[1].to_dict())
+    assert "met at 2 places" in text and "this is place 2" in text and "'occurrence'" in text
+    assert places_note(solve_request(EM, "halo L2 south period=6.5626d").to_dict()) == ""

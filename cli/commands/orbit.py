@@ -68,6 +68,7 @@ def _row(d):
 
 
 def _table(system, d):
+    from cr3bp.orbits.request import describe_places
     def km(v):
         return "-" if v is None else f"{v:,.3f} km"
     lines = [f"{system.name} {d['family']} {d['point']} {d['branch']}".rstrip() + " periodic orbit", ""]
@@ -88,29 +89,25 @@ def _table(system, d):
     lines.append(f"amplitudes           Ax {km(a['x'])}, Ay {km(a['y'])}, Az {km(a['z'])}")
     for name, v in d["closest_approach_km"].items():
         lines.append(f"closest approach     {name}: {km(v)} from its centre")
-    tm = d.get("target_matches")
-    if tm and tm["count"] > 1:
-        lines.append(f"target met at        {tm['count']} places along the family, from its start:")
-        for i, p in enumerate(tm["places"], 1):
-            mark = "  <- this orbit" if i == tm["occurrence"] else ""
-            lines.append(f"  {i}: {_place(p)}{mark}")
+    places = describe_places(d)
+    if places:
+        lines.append(f"target met at        {len(places)} places along the family, from its start:")
+        for i, text in enumerate(places, 1):
+            mark = "  <- this orbit" if i == d["target_matches"]["occurrence"] else ""
+            lines.append(f"  {i}: {text}{mark}")
     return "\n".join(lines) + "\n"
-
-
-def _place(p):
-    per = f"period {p['period_days']:.4f} d" if p["period_days"] is not None else f"period {p['period']:.6f} TU"
-    return f"{per}, Jacobi constant {p['jacobi']:.6f} (near member {p['member']})"
 
 
 def _places_note(spec, d):
     """One line when the family meets the target at more than one place."""
-    tm = d.get("target_matches")
-    if not tm or tm["count"] < 2:
+    from cr3bp.orbits.request import describe_places
+    places = describe_places(d)
+    if not places:
         return ""
-    others = "; ".join(f"{i}: {_place(p)}" for i, p in enumerate(tm["places"], 1) if i != tm["occurrence"])
-    return (f"{spec.key} = {spec.value} is met at {tm['count']} places along the family; this is "
-            f"place {tm['occurrence']} from its start; the others ({others}) are chosen with "
-            "--occurrence N")
+    this = d["target_matches"]["occurrence"]
+    others = "; ".join(f"{i}: {text}" for i, text in enumerate(places, 1) if i != this)
+    return (f"{spec.key} = {spec.value} is met at {len(places)} places along the family; this is "
+            f"place {this} from its start; the others ({others}) are chosen with --occurrence N")
 
 
 def _check_plot_path(path):

@@ -184,6 +184,18 @@ def solve_request(system, spec, catalog=None, progress=None) -> PeriodicOrbit:
                                          spec.family, spec.point, branch, spec.occurrence)
 
 
+def describe_places(orbit_dict) -> list:
+    """One text per place where the orbit's family meets its target ("period 13.3147 d,
+    Jacobi constant 3.050000"), from ``target_matches`` of :meth:`PeriodicOrbit.to_dict`;
+    empty when the target is met at one place only."""
+    tm = orbit_dict.get("target_matches")
+    if not tm or tm["count"] < 2:
+        return []
+    return [(f"period {p['period_days']:.4f} d" if p["period_days"] is not None else
+             f"period {p['period']:.6f} TU") + f", Jacobi constant {p['jacobi']:.6f}"
+            for p in tm["places"]]
+
+
 def _name(spec):
     return " ".join(w for w in (spec.family, spec.point, spec.branch_label) if w)
 
