@@ -72,3 +72,20 @@ def test_bad_paths(tmp_path):
     bad.write_bytes(b"this is not a database at all" * 100)
     with pytest.raises(InputError, match="not a librate catalogue"):
         Catalog(bad)
+
+
+def test_a_family_of_an_older_recipe_is_grown_again_not_reused(tmp_path):
+    """A request reuses only families grown by the current recipes (request.RECIPE): an
+    older family (here a made-up complete one of recipe 1, whose single member would answer
+    nothing) is left in place and the family is grown and stored anew."""
+    from cr3bp.orbits.request import RECIPE, solve_request
+    em = system("earth-moon")
+    with Catalog(tmp_path / "c.sqlite") as cat:
+        old = cat.begin_family(em, "halo", "L2", "south", {"recipe": RECIPE - 1})
+        cat.add_members(old, [_member(0)])
+        cat.finish_family(old, [], complete=True)
+        o = solve_request(em, "halo L2 south period=6.5626d", catalog=cat)
+        assert o.period_days == pytest.approx(6.5626, abs=1e-9)
+        fams = cat.list_families()
+        assert len(fams) == 2 and fams[1]["members"] > 50
+        assert cat.load_family(em, "halo", "L2", "south")["settings"]["recipe"] == RECIPE

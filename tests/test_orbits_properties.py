@@ -74,11 +74,11 @@ def test_parse_request():
 
 def test_out_of_range_gives_the_available_range():
     from cr3bp.catalog import Catalog
-    from cr3bp.orbits.request import catalog_member
+    from cr3bp.orbits.request import RECIPE, catalog_member
     em = cache.em()
-    fam = cache.halo("L1", "north")
+    fam = cache.halo("L1", "north")      # part of the family only: az = 90 000 km lies beyond it
     cat = Catalog(":memory:")
-    fid = cat.begin_family(em, "halo", "L1", "north", {"test": 1})
+    fid = cat.begin_family(em, "halo", "L1", "north", {"test": 1, "recipe": RECIPE})
     cat.add_members(fid, [catalog_member(m, i) for i, m in enumerate(fam.members)])
     cat.finish_family(fid, [], complete=True)
     with pytest.raises(NoSolutionError, match=r"covers az from .* km to .* km"):

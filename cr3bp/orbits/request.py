@@ -135,8 +135,9 @@ def solve_request(system, spec, catalog=None, progress=None) -> PeriodicOrbit:
     system : System
     spec : OrbitSpec or str (parsed with :func:`parse_request`)
     catalog : cr3bp.catalog.Catalog, optional
-        When given, the family is read from it if catalogued (not recomputed: only the two
-        members bracketing the target are corrected), else computed in full and stored.
+        When given, the family is read from it if catalogued by this version of the recipes
+        (:data:`RECIPE`; not recomputed: only the two members bracketing the target are
+        corrected), else computed in full and stored.
         Without it the family is computed in full and not kept. Either way every place
         where the family meets the target is known, the ``spec.occurrence``-th is solved,
         and ``orbit.extra["target_matches"]`` lists them all.
@@ -158,7 +159,8 @@ def solve_request(system, spec, catalog=None, progress=None) -> PeriodicOrbit:
     stopped = ""
     if catalog is not None:
         rec = catalog.load_family(system, fam, point, branch)
-        if rec is not None and rec.get("members") and rec.get("complete"):
+        if rec is not None and rec.get("members") and rec.get("complete") and \
+                rec["settings"].get("recipe", 0) >= RECIPE:
             members = rec["members"]
         else:
             family = compute_into_catalog(catalog, system, spec, progress=progress)
@@ -214,9 +216,16 @@ def catalog_member(orbit: PeriodicOrbit, index: int) -> dict:
     return d
 
 
+#: Version of how families are grown, stored with every catalogued family. A request reuses
+#: a catalogued family only from this version on. 2 (2026-12-02): the continuation refuses
+#: steps that may hide two crossings of +1/-1 and approaches the family's limit (more members
+#: near bifurcation pairs and at the end; families of version 1 could miss such pairs).
+RECIPE = 2
+
+
 def catalog_settings(spec: OrbitSpec, stops: continuation.Stops) -> dict:
     """The settings a catalogued family is keyed by (what changes its members)."""
-    return {"recipe": 1, "family": spec.family, "point": spec.point, "branch": spec.branch_label,
+    return {"recipe": RECIPE, "family": spec.family, "point": spec.point, "branch": spec.branch_label,
             "max_members": stops.max_members, "altitude_km": stops.altitude_km,
             "bounds": {k: list(v) for k, v in stops.bounds.items()}}
 
