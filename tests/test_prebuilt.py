@@ -217,3 +217,10 @@ def test_clearing_the_jit_cache_removes_only_the_sources_entries(tmp_path):
     assert prebuilt.clear_jit_cache(tmp_path) == 3
     left = sorted(str(p.relative_to(tmp_path)) for p in tmp_path.rglob("*") if p.is_file())
     assert left == ["__pycache__/energy._field-10.py311.nbi", "integrate/__pycache__/dop853.cpython-311.pyc"]
+
+
+def test_an_unknown_switch_value_is_named_and_ignored(monkeypatch, fresh_lookup):
+    monkeypatch.setenv(prebuilt.ENV, "fast")
+    with pytest.warns(RuntimeWarning, match="LIBRATE_KERNELS='fast' is not understood"):
+        k = prebuilt.kernels()
+    assert k is not None and integrator() is k.integrate      # treated as unset

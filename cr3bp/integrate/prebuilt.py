@@ -37,7 +37,7 @@ SOURCES = ("integrate/dop853.py", "integrate/coefficients.py", "integrate/status
            "dynamics.py", "dynamics_kernels.py", "fidelity/forces.py")
 #: Where the module is written (inside the package; ignored by git).
 DIRECTORY = Path(__file__).resolve().parent / "_prebuilt"
-#: Environment variable: ``jit`` turns the prebuilt module off.
+#: Environment variable: ``jit`` turns the prebuilt module off (``auto`` or unset: use it).
 ENV = "LIBRATE_KERNELS"
 
 _F1 = "float64[::1]"
@@ -110,8 +110,13 @@ def kernels():
     if _state["done"]:
         return _state["module"]
     _state["done"] = True
-    if os.environ.get(ENV, "").strip().lower() == "jit":
+    choice = os.environ.get(ENV, "").strip().lower()
+    if choice == "jit":
         return None
+    if choice not in ("", "auto"):
+        import warnings
+        warnings.warn(f"{ENV}={os.environ[ENV]!r} is not understood (allowed: jit, auto or unset); "
+                      "using the prebuilt kernels when current", RuntimeWarning, stacklevel=2)
     path = find()
     if path is None:
         return None
