@@ -1,7 +1,7 @@
 """What a command imports (not how long it takes: speed is judged in benchmarks/).
 
 A `librate orbit` request answered from the catalogue must not pull in plotting, graph or
-cluster libraries, scipy's integrators, numba (it runs on the ahead-of-time built kernels of
+cluster libraries, scipy (any of it), numba (it runs on the ahead-of-time built kernels of
 ``cr3bp.integrate.prebuilt``, which ``make`` builds) or the other command modules: each would
 cost start-up time of a command that answers in well under a second.
 Checked in a fresh interpreter, on the modules it has loaded when the command returns.
