@@ -51,3 +51,14 @@ def test_bad_input_and_non_convergence():
     with pytest.raises(ConvergenceError) as e:
         multiple.correct_multiple(em, P + 0.05, d, max_iter=1)
     assert e.value.iterations >= 1 and e.value.residuals
+
+
+def test_residual_floor_accepted_and_recorded():
+    """A tolerance below what double precision and the 1e-13 integration allow: the Newton stalls
+    at the floor (below multiple.FLOOR) and says so instead of failing or looping."""
+    em = cache.em()
+    o = cache.halo("L2", "south").members[8]
+    P, d = multiple.patches_from_trajectory(em, o.state, o.period, 6)
+    m = multiple.correct_multiple(em, P * (1 + 1e-6), d, hold=("jacobi", o.jacobi), tol=1e-18)
+    assert m.extra["stalled_at"] < multiple.FLOOR
+    assert m.periodicity_error < 1e-10

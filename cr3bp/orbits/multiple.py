@@ -25,6 +25,10 @@ from . import geometry
 from .orbit import PeriodicOrbit
 
 TOL = 1e-11
+#: a residual this small that no damped Newton step reduces further is the floor set by the
+#: integration tolerance (RTOL/ATOL over N segments, amplified by the STMs): accepted as converged
+#: and recorded as ``extra["stalled_at"]``. Measured: 1.3e-11 on some hosts for a 6-patch L2 halo.
+FLOOR = 1e-10
 MAX_ITER = 40
 MAX_HALVINGS = 8
 RTOL = ATOL = 1e-13
@@ -115,6 +119,7 @@ def correct_multiple(system, patches, dts, phase=("y", 0.0), hold=None, family="
     ph = (COMPONENTS[comp], float(phase[1]))
     Z = np.concatenate([S.ravel(), dts])
     history = []
+    stalled = None
     R, J, phis = _system(system, Z, n, ph, hold)
     for it in range(1, max_iter + 1):
         norm = float(np.linalg.norm(R))
@@ -132,6 +137,9 @@ def correct_multiple(system, patches, dts, phase=("y", 0.0), hold=None, family="
                 pass
             step *= 0.5
         else:
+            if norm < FLOOR:
+                stalled = norm
+                break
             raise ConvergenceError(f"multiple shooting: no damped step reduced the residual {norm:.3e}",
                                    it, history, Z[:6 * n].reshape(n, 6))
         Z = Z + step * dZ
@@ -152,6 +160,8 @@ def correct_multiple(system, patches, dts, phase=("y", 0.0), hold=None, family="
     defects = np.linalg.norm(R[:6 * n].reshape(n, 6), axis=1)
     extra = {"method": "multiple shooting", "patches": S.tolist(), "segment_durations": dts.tolist(),
              "defects": defects.tolist(), "residuals": history}
+    if stalled is not None:
+        extra["stalled_at"] = stalled
     return PeriodicOrbit(system, S[0].copy(), T, M, family, point, branch,
                          float(dynamics.jacobi(system.mu, S[0])), err, len(history) - 1, extra,
                          tuple(float(a) for a in amp), tuple(float(d) for d in approach), "none")
