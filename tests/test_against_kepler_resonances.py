@@ -303,3 +303,25 @@ def test_catalogued_resonant_family_of_an_older_recipe_is_grown_again(tmp_path):
     o = solve_request(je, "resonant 3:4 perilune=5000km", catalog=cat)
     _check_europa_3_4_flyby(je, o.to_dict(), 5000.0)
     assert cat.load_family(je, "resonant", "", "3:4")["settings"]["recipe"] == RECIPE
+
+
+@pytest.mark.parametrize("ratio,words", [("1:1", "co-orbital"), ("2:4", "write it as 1:2"),
+                                         ("3:1", "p/q < 2.8")])
+def test_resonances_not_offered_are_refused_before_any_work(capsys, tmp_path, ratio, words):
+    """p = q, a ratio not in lowest terms, and inner resonances whose ellipses cannot reach the
+    secondary: one line, exit 2, from the command line and from the scenario check."""
+    from pathlib import Path
+
+    from cr3bp import mission
+    from cr3bp.scenario_schema import ScenarioError
+    rc = main(["orbit", "--system", "jupiter-europa", "--family", "resonant", "--ratio", ratio,
+               "--perilune", "5000km", "-q"])
+    err = capsys.readouterr().err
+    assert rc == 2 and words in err and err.strip().count("\n") == 0
+    text = (Path(__file__).parent.parent / "examples" / "farlight.toml").read_text()
+    bad = tmp_path / "s.toml"
+    bad.write_text(text.replace('family = "halo"\npoint = "L2"\nbranch = "south"\nresonance = "9:2"',
+                                f'family = "resonant"\nresonant = "{ratio}"\nperilune = "20000km"'))
+    assert f'resonant = "{ratio}"' in bad.read_text()
+    with pytest.raises(ScenarioError, match=words.replace("(", r"\(").replace(")", r"\)").replace("/", "/")):
+        mission.prepare(bad)

@@ -24,7 +24,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from ..errors import InputError, NoSolutionError
-from . import continuation, families, targets
+from . import continuation, families, seeds, targets
 from .orbit import PeriodicOrbit
 
 ALIASES = {"nrho": "halo", "lyap": "lyapunov", "planar": "lyapunov"}
@@ -85,6 +85,7 @@ def parse_request(text: str) -> OrbitSpec:
             branch = "north" if lw.startswith("north") else "south"
         elif ":" in w and fam == "resonant":
             resonance = targets.parse_resonance(w)
+            seeds.check_resonance(*resonance)
         else:
             raise InputError(f"'{w}' is not understood in the request '{text}'; expected a point "
                              "(L1, L2, L3), a branch (north, south), p:q for resonant, or KEY=VALUE")

@@ -257,6 +257,16 @@ def resonant_geometry(mu: float, p: int, q: int):
     return a, 1.0 / a - 1.0, "apoapsis"
 
 
+def check_resonance(p: int, q: int) -> None:
+    """Raise InputError when a p:q resonant family is not offered: p = q, p:q not in lowest
+    terms, or an inner resonance whose ellipses cannot reach the secondary's orbit (p/q >= 2.8;
+    the exact limit depends a little on the mass ratio, checked again when seeding)."""
+    _, e_touch, _ = resonant_geometry(0.0, p, q)
+    if e_touch >= 0.98:
+        raise InputError(f"a {p}:{q} orbit cannot reach the secondary's orbit on an ellipse; inner "
+                         "resonances are offered while p/q < 2.8 (e.g. 5:2)")
+
+
 def resonant_encounter(mu: float, p: int, q: int, eccentricity: float | None = None) -> Seed:
     """p:q resonant seed whose apsis nearer the secondary's orbit lies on the secondary's side
     of the larger primary, half a period after the start: as the eccentricity grows towards
