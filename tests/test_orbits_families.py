@@ -50,6 +50,7 @@ def test_resonant_orbit_period_near_resonance():
     assert o.period == pytest.approx(4 * math.pi, rel=0.1)
     fam = families.grow_family(em, "resonant", resonance=(3, 2), stops=continuation.Stops(max_members=5))
     assert len(fam.members) == 5 and fam.branch == "3:2"
+    assert all(m.period_ratio[0] - m.period_ratio[1] == pytest.approx(1.0, abs=1e-12) for m in fam.members)
 
 
 def test_stop_conditions():

@@ -117,10 +117,14 @@ def run(args):
         cat.finish_family(fid, [b.to_dict() for b in fam.bifurcations], complete=True)
         common.progress(args, f"stored as family {fid} in the catalogue {cat.path}")
     rows = [_row(i, m.to_dict()) for i, m in enumerate(fam.members)]
+    headers = HEADERS
+    if spec.family == "resonant":   # the measured p:q of every member (label kept within a band)
+        headers = HEADERS + ["spacecraft_revolutions", "primaries_revolutions"]
+        rows = [r + list(m.period_ratio) for r, m in zip(rows, fam.members)]
     bifs = [b.to_dict() for b in fam.bifurcations]
     payload = {"system": system.name, "family": spec.family, "point": spec.point, "branch": spec.branch_label,
                "route": args.route or families.ROUTES.get(spec.family, ("seed",))[0],
-               "stop_reason": fam.stop_reason, "columns": HEADERS,
+               "stop_reason": fam.stop_reason, "columns": headers,
                "members": [dict(m.to_dict(), index=i) for i, m in enumerate(fam.members)],
                "bifurcations": [{"type": b["type"], "member_index": b["member_index"], "jacobi": b["jacobi"],
                                  "period": b["period"], "period_days": b["period_days"], "note": b["note"],
@@ -134,10 +138,10 @@ def run(args):
     comments += [missed] if missed else []
     comments += [f"bifurcation {b['type']} after member {b['member_index']}: Jacobi constant {b['jacobi']:.10f}, "
                  f"period {b['period']:.10f} TU; {b['note']}" for b in bifs]
-    table = common.format_table(HEADERS, rows, title=comments[0]) + _bif_text(bifs, system)
+    table = common.format_table(headers, rows, title=comments[0]) + _bif_text(bifs, system)
     if missed:
         table += missed + "\n"
-    common.emit(args, payload=payload, headers=HEADERS, rows=rows, table=table, comments=comments)
+    common.emit(args, payload=payload, headers=headers, rows=rows, table=table, comments=comments)
     return 0
 
 

@@ -51,7 +51,9 @@ def run(args):
         save(fig, args.plot, f"{spec.family} {spec.point} {spec.branch_label} orbit, rotating frame, "
              f"primaries to scale; {spec.key} = {spec.value}")
         common.progress(args, f"wrote {args.plot}")
-    common.emit(args, payload=d, headers=_HEADERS, rows=[_row(d)], table=_table(system, d))
+    ratio = ["spacecraft_revolutions", "primaries_revolutions"] if "period_ratio" in d else []
+    common.emit(args, payload=d, headers=_HEADERS + ratio, rows=[_row(d) + list(d.get("period_ratio", []))],
+                table=_table(system, d))
     return 0
 
 
@@ -78,6 +80,16 @@ def _table(system, d):
     per_d = "" if d["period_days"] is None else f" = {d['period_days']:.6f} d"
     lines.append(f"period               {d['period']:.12f} TU{per_d}")
     lines.append(f"Jacobi constant      {d['jacobi']:.12f}")
+    if "period_ratio" in d:
+        from cr3bp.orbits.families import RESONANCE_TOL
+        n_sc, n_prim = d["period_ratio"]
+        osc = d["osculating_period_ratio"]
+        lines.append(f"period ratio         {n_sc:.4f}:{n_prim:.4f} (revolutions of the spacecraft about "
+                     f"{system.names[0]} : of the primaries, in one period; family {d['branch']}, kept within "
+                     f"{RESONANCE_TOL:.0%} of its period)")
+        if osc is not None:
+            lines.append(f"osculating period    {osc:.6f} periods of the primaries (two-body, about "
+                         f"{system.names[0]}, at the initial state)")
     nu = d["stability_indices"]
     cplx = " (complex pair: real parts shown)" if d["stability_complex"] else ""
     lines.append(f"stability indices    {nu[0]:.6g}, {nu[1]:.6g}{cplx}; "

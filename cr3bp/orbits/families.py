@@ -11,8 +11,18 @@ axial L1/L2             branch at the 2nd out-of-plane +1 crossing  x-axis
 dro                     retrograde circle about the smaller         xz-planar
                         primary (0.1 Hill radius), x held
 resonant p:q            Kepler ellipse about the larger primary,    xz-planar
-                        x held
+                        its apsis nearer the secondary's orbit on
+                        the secondary's side; x held
 ======================  ==========================================  =====================
+
+Resonant families (p revolutions of the spacecraft about the larger primary in q revolutions
+of the primaries; rotating-frame period ``2 pi q`` in the Kepler limit) are followed along the
+resonance towards the secondary (:func:`grow_resonant`): a periodic orbit of the planar
+problem lies on a one-parameter family along which period and Jacobi constant change together
+(the cylinder theorem: Hénon, "Numerical exploration of the restricted problem. V",
+*Astron. Astrophys.* 1, 1969, from memory), so the period cannot be held at ``2 pi q`` while the
+orbit closes on the secondary; the family is kept where its period stays within
+:data:`RESONANCE_TOL` of ``2 pi q`` and every member reports its measured period ratio.
 
 Other routes (:func:`grow_by_route`): vertical orbits also from the junction of the axial family
 with the vertical family (:func:`vertical_by_branching`), axial orbits also from the vertical
@@ -30,11 +40,18 @@ import math
 
 import numpy as np
 
-from ..errors import ConvergenceError, InputError
+from ..errors import ConvergenceError, InputError, NoSolutionError
 from . import continuation, seeds, shooting
 from ._collinear import collinear_point, point_name
 
 FAMILIES = ("lyapunov", "halo", "vertical", "axial", "dro", "resonant")
+#: Largest relative departure of a resonant member's rotating-frame period from ``2 pi q`` (the
+#: time in which the p:q resonance closes): members beyond it are not on the resonance and end
+#: the family. Measured along Jupiter-Europa 3:4 (tests/test_against_kepler_resonances.py): the
+#: period stays within 0.3 % of 2 pi q while the orbit passes more than 60 000 km from Europa and
+#: departs by 2 to 3 % at the closest approaches above Europa's surface, where the flyby itself
+#: takes part of the period.
+RESONANCE_TOL = 0.03
 BRANCHES = {"halo": ("north", "south")}
 
 
@@ -69,8 +86,15 @@ def resonance_label(p: int, q: int) -> str:
     return f"{p}:{q}"
 
 
-def first_member(system, family, point="", branch="", resonance=None, eccentricity=0.5):
-    """(first PeriodicOrbit, symmetry kind, direction function, step, max_step)."""
+def first_member(system, family, point="", branch="", resonance=None, eccentricity=None,
+                 alignment="secondary"):
+    """(first PeriodicOrbit, symmetry kind, direction function, step, max_step).
+
+    Resonant families: ``alignment="secondary"`` (default) seeds the ellipse whose apsis nearer
+    the secondary's orbit points at the secondary (:func:`seeds.resonant_encounter`, default
+    eccentricity half the touching one) and orients the family towards the secondary;
+    ``"away"`` seeds the ellipse with its periapsis on the far side (:func:`seeds.resonant`,
+    default eccentricity 0.5), oriented towards smaller eccentricity."""
     mu = system.mu
     meta = dict(family=family, point=point, branch=branch)
     if family == "lyapunov":
@@ -118,11 +142,51 @@ def first_member(system, family, point="", branch="", resonance=None, eccentrici
         if resonance is None:
             raise InputError("the resonant family needs p:q, e.g. 3:2")
         pp, qq = resonance
-        sd = seeds.resonant(mu, pp, qq, eccentricity)
+        if alignment == "away":
+            sd = seeds.resonant(mu, pp, qq, 0.5 if eccentricity is None else eccentricity)
+            toward = -1.0
+        elif alignment == "secondary":
+            o, e0 = _resonant_first(system, pp, qq, eccentricity)
+            _, e_touch, _ = seeds.resonant_geometry(mu, pp, qq)
+            rate = seeds.resonant_x_rate(mu, pp, qq, e0)
+            toward = rate if e0 < e_touch else -rate
+            return o, seeds.XZ_PLANAR, (lambda t, X, s=toward: s * t[0]), 2e-3, 0.02
+        else:
+            raise InputError(f"resonant alignment '{alignment}' is not allowed; use secondary or away")
         o = shooting.correct(system, sd.state, sd.half_period, sd.symmetry, shooting.fix("x", sd.state[0]),
                              family=family, point="", branch=resonance_label(pp, qq))
-        return o, sd.symmetry, (lambda t, X: -t[0]), 2e-3, 0.02
+        return o, sd.symmetry, (lambda t, X, s=toward: s * t[0]), 2e-3, 0.02
     raise InputError(f"unknown family '{family}'")
+
+
+#: eccentricities tried for the first resonant member, as fractions of the one at which the
+#: nearer apsis touches the secondary's orbit (the Kepler guess does not converge everywhere
+#: when the secondary is massive: Earth-Moon 3:4 converges from 0.65 and 0.8 only)
+RESONANT_SEED_FRACTIONS = (0.5, 0.35, 0.65, 0.2, 0.8, 0.1)
+
+
+def _resonant_first(system, p, q, eccentricity=None):
+    """(first member, its seed eccentricity): the first Kepler guess of
+    :data:`RESONANT_SEED_FRACTIONS` (or the eccentricity given) that converges to an orbit whose
+    period is within :func:`resonance_band`."""
+    _, e_touch, _ = seeds.resonant_geometry(system.mu, p, q)
+    tries = [eccentricity] if eccentricity is not None else [f * e_touch for f in RESONANT_SEED_FRACTIONS]
+    band = resonance_band((p, q))
+    seen = []
+    for e in tries:
+        sd = seeds.resonant_encounter(system.mu, p, q, e)
+        try:
+            o = shooting.correct(system, sd.state, sd.half_period, sd.symmetry, shooting.fix("x", sd.state[0]),
+                                 family="resonant", point="", branch=resonance_label(p, q))
+        except ConvergenceError:
+            seen.append(f"e = {e:.3g}: no convergence")
+            continue
+        if band[0] <= o.period <= band[1]:
+            return o, e
+        seen.append(f"e = {e:.3g}: {o.period / (2 * math.pi):.4g} revolutions of the primaries")
+    raise NoSolutionError(f"no {p}:{q} resonant orbit was found within {RESONANCE_TOL:.0%} of {q} revolutions "
+                          f"of the primaries (mass ratio {system.mu:.6g}; Kepler guesses: {'; '.join(seen)}): "
+                          "the secondary perturbs this resonance too much")
 
 
 def branch_at(system, orbit, family, point, branch="north", push=None):
@@ -157,21 +221,95 @@ def _far_crossing_is_start(system, orbit, point):
 
 
 def grow_family(system, family, point="", branch="", *, stops=None, method="arclength",
-                parameter=None, step=None, progress=None, resonance=None, eccentricity=0.5,
-                first=None, locate_bifurcations=True, max_step=None):
-    """Compute a named family from its recipe (see module table). Returns a Family."""
+                parameter=None, step=None, progress=None, resonance=None, eccentricity=None,
+                first=None, locate_bifurcations=True, max_step=None, alignment="secondary"):
+    """Compute a named family from its recipe (see module table). Returns a Family.
+
+    Resonant families with ``alignment="secondary"`` are followed along the resonance towards
+    the secondary (:func:`grow_resonant`)."""
     family, point, branch = check_family(family, point, branch) if family != "resonant" else (family, "", branch)
     stops = stops or continuation.Stops()
-    o, kind, direction, st, mx = first_member(system, family, point, branch, resonance, eccentricity) \
-        if first is None else first
+    if family == "resonant" and alignment == "secondary" and first is None:
+        return grow_resonant(system, resonance, stops=stops, method=method, parameter=parameter,
+                             step=step, progress=progress, eccentricity=eccentricity,
+                             locate_bifurcations=locate_bifurcations, max_step=max_step)
+    o, kind, direction, st, mx = first_member(system, family, point, branch, resonance, eccentricity,
+                                              alignment) if first is None else first
     settings = {"family": family, "point": point, "branch": branch,
                 "resonance": list(resonance) if resonance else None, "eccentricity": eccentricity
                 if family == "resonant" else None}
+    if family == "resonant":
+        settings["alignment"] = alignment
     return continuation.grow(system, o, kind, step=step or st, max_step=max_step or mx, direction=direction,
                              method=method, parameter=parameter, stops=stops, family=family,
                              point=point, branch=branch or (resonance_label(*resonance) if resonance else ""),
                              progress=progress, locate_bifurcations=locate_bifurcations,
                              settings=settings)
+
+
+def resonance_band(resonance, tol=None):
+    """(low, high) of the rotating-frame period (TU) of members on the p:q resonance:
+    ``2 pi q (1 -+ tol)`` (:data:`RESONANCE_TOL`)."""
+    tol = RESONANCE_TOL if tol is None else tol
+    q = resonance[1]
+    return (2 * math.pi * q * (1 - tol), 2 * math.pi * q * (1 + tol))
+
+
+def grow_resonant(system, resonance, *, stops=None, method="arclength", parameter=None, step=None,
+                  progress=None, eccentricity=None, locate_bifurcations=True, max_step=None):
+    """The p:q resonant family followed along the resonance towards the secondary.
+
+    1. First member: :func:`seeds.resonant_encounter` (default eccentricity half the one at
+       which the nearer apsis touches the secondary's orbit), corrected with x held.
+    2. Its start: the family is first followed away from the secondary (towards the circular
+       orbit, where it leaves the resonance onto the near-circular family whose period changes
+       with the radius) until the period leaves the band :func:`resonance_band`; the last member
+       inside the band is the family's first member.
+    3. From there the family is followed towards the secondary, the period held inside the band
+       as a bound, until a member passes below the surface (or ``stops.altitude_km``), leaves the
+       band, or another stop applies.
+
+    Every member's ``period_ratio`` (see :class:`cr3bp.orbits.orbit.PeriodicOrbit`) then lies
+    within the band: the label p:q holds to :data:`RESONANCE_TOL` of the period."""
+    from dataclasses import replace
+    if resonance is None:
+        raise InputError("the resonant family needs p:q, e.g. 3:2")
+    pp, qq = resonance
+    label = resonance_label(pp, qq)
+    stops = stops or continuation.Stops()
+    band = resonance_band(resonance)
+    o, kind, toward, st, mx = first_member(system, "resonant", resonance=resonance,
+                                           eccentricity=eccentricity, alignment="secondary")
+    back = continuation.grow(system, o, kind, step=st, max_step=mx,
+                             direction=lambda t, X: -toward(t, X),
+                             stops=continuation.Stops(max_members=400, bounds={"period": band},
+                                                      detect_closure=False),
+                             family="resonant", branch=label, locate_bifurcations=False)
+    start = back.members[-1]
+    direction = toward
+    if len(back.members) > 1:
+        # back again along the secant of the last two members: beyond a fold of x (where the
+        # family turns onto the near-circular orbits) the sign of dx no longer says which way
+        sym = shooting.symmetry(kind)
+        back_secant = continuation._X(start, sym) - continuation._X(back.members[-2], sym)
+        direction = lambda t, X: -float(t @ back_secant)  # noqa: E731
+    bounds = dict(stops.bounds)
+    bounds["period"] = band if "period" not in bounds else (
+        max(band[0], bounds["period"][0] if bounds["period"][0] is not None else band[0]),
+        min(band[1], bounds["period"][1] if bounds["period"][1] is not None else band[1]))
+    settings = {"family": "resonant", "point": "", "branch": label, "resonance": [pp, qq],
+                "eccentricity": eccentricity, "alignment": "secondary",
+                "resonance_tol": RESONANCE_TOL, "period_band": list(band)}
+    fam = continuation.grow(system, start, kind, step=step or st, max_step=max_step or mx,
+                            direction=direction, method=method, parameter=parameter,
+                            stops=replace(stops, bounds=bounds), family="resonant", point="",
+                            branch=label, progress=progress, locate_bifurcations=locate_bifurcations,
+                            settings=settings)
+    if fam.stop_reason == "next member leaves the bound on period":
+        fam = replace(fam, stop_reason=f"the next member's period departs from {qq} revolutions of the "
+                                       f"primaries by more than {RESONANCE_TOL:.0%}: it leaves the "
+                                       f"{label} resonance")
+    return fam
 
 
 def branch_family(system, family, point, branch="", *, stops=None, progress=None, parent=None,

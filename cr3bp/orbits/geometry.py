@@ -106,3 +106,18 @@ def _stationary_minimum(mu, state, xc):
     if vv + rx * a[3] + y * a[4] + z * a[5] > 0.0:
         return math.sqrt(rr)
     return None
+
+
+def winding_about_larger(system, arc) -> int:
+    """Whole turns (signed, counter-clockwise positive) of the rotating-frame position about the
+    larger primary over a closed full-period arc: the angle ``atan2(y, x + mu)`` unwrapped
+    along the integrator's accepted steps (re-sampled on a fine grid when a step turns by more
+    than a quarter turn). For a p:q resonant orbit it is ``p - q``: in one period ``T = 2 pi q``
+    the spacecraft turns ``2 pi p`` in inertial space and the frame ``2 pi q``."""
+    s = arc.states
+    ang = np.unwrap(np.arctan2(s[:, 1], s[:, 0] + system.mu))
+    if len(ang) < 2 or np.max(np.abs(np.diff(ang))) > 0.5 * math.pi:
+        fine = propagate(system, s[0], float(arc.t[-1] - arc.t[0]),
+                         t_eval=np.linspace(0.0, float(arc.t[-1] - arc.t[0]), 20001))
+        ang = np.unwrap(np.arctan2(fine.states[:, 1], fine.states[:, 0] + system.mu))
+    return int(round((ang[-1] - ang[0]) / (2 * math.pi)))

@@ -99,6 +99,41 @@ class PeriodicOrbit:
             float("inf") if not math.isfinite(t) else float("nan"))
 
     @property
+    def period_ratio(self):
+        """The measured p:q of a resonant orbit, ``(n_sc, n_prim)``: revolutions of the
+        spacecraft about the larger primary (inertial) and of the primaries about each other in
+        one period, ``n_prim = T / 2 pi`` and ``n_sc = w + n_prim`` with ``w`` the whole turns of
+        the rotating-frame position about the larger primary over the period (an inertial angle
+        is the rotating one plus the frame's). Same order as the family's label p:q; exactly
+        (p, q) for a Kepler ellipse of sidereal period 2 pi q / p. None for other families."""
+        w = self.extra.get("winding_larger")
+        if w is None:
+            return None
+        n_prim = self.period / (2 * math.pi)
+        return (w + n_prim, n_prim)
+
+    @property
+    def osculating_period_ratio(self):
+        """Sidereal two-body period about the larger primary (GM = 1 - mu) of the initial state,
+        in periods of the primaries (2 pi), for a resonant orbit (else None): ``q/p`` for a
+        Kepler ellipse of the p:q resonance. Resonant members start at a crossing far from the
+        secondary, where the orbit about the larger primary is least perturbed; the osculating
+        elements from the vis-viva equation (Murray & Dermott, *Solar System Dynamics*, 1999,
+        eq. 2.34, from memory)."""
+        if self.extra.get("winding_larger") is None:
+            return None
+        mu = self.system.mu
+        x, y, _, vx, vy, _ = (float(v) for v in self.state)
+        rx = x + mu
+        r = math.hypot(rx, y)
+        # inertial velocity = rotating velocity + omega x r (omega = 1 about z)
+        ux, uy = vx - y, vy + rx
+        inv_a = 2.0 / r - (ux * ux + uy * uy) / (1.0 - mu)
+        if inv_a <= 0:
+            return None
+        return math.sqrt(1.0 / inv_a ** 3 / (1.0 - mu))
+
+    @property
     def amplitude_km(self) -> dict:
         f = self.system.length_km if self.system.dimensional else float("nan")
         return {k: v * f for k, v in zip("xyz", self.amplitude_lu)}
@@ -133,6 +168,10 @@ class PeriodicOrbit:
             "approach_lu": [float(v) for v in self.closest_approach_lu],
             "symmetry": self.symmetry,
         }
+        pr = self.period_ratio
+        if pr is not None:
+            d["period_ratio"] = [float(pr[0]), float(pr[1])]
+            d["osculating_period_ratio"] = _num(self.osculating_period_ratio or float("nan"))
         if self.extra.get("periodicity_note"):
             d["periodicity_note"] = self.extra["periodicity_note"]
         tm = self.extra.get("target_matches")

@@ -24,7 +24,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from ..errors import InputError, NoSolutionError
-from . import continuation, families, targets
+from . import continuation, families, seeds, targets
 from .orbit import PeriodicOrbit
 
 ALIASES = {"nrho": "halo", "lyap": "lyapunov", "planar": "lyapunov"}
@@ -85,6 +85,7 @@ def parse_request(text: str) -> OrbitSpec:
             branch = "north" if lw.startswith("north") else "south"
         elif ":" in w and fam == "resonant":
             resonance = targets.parse_resonance(w)
+            seeds.check_resonance(*resonance)
         else:
             raise InputError(f"'{w}' is not understood in the request '{text}'; expected a point "
                              "(L1, L2, L3), a branch (north, south), p:q for resonant, or KEY=VALUE")
@@ -205,7 +206,12 @@ def _name(spec):
 def _range_message(system, spec, tg, lo, hi):
     name = _name(spec)
     d = targets.describe_value
-    return (f"no {name} orbit has {spec.key} = {spec.value}; the family covers {spec.key} from "
+    where = "the family covers"
+    if spec.family == "resonant" and spec.resonance:
+        p, q = spec.resonance
+        where = (f"along the {p}:{q} resonance (members whose period is within "
+                 f"{families.RESONANCE_TOL:.0%} of {q} revolutions of the primaries) the family covers")
+    return (f"no {name} orbit has {spec.key} = {spec.value}; {where} {spec.key} from "
             f"{d(system, tg.quantity, lo)} to {d(system, tg.quantity, hi)}")
 
 
@@ -220,7 +226,9 @@ def catalog_member(orbit: PeriodicOrbit, index: int) -> dict:
 #: a catalogued family only from this version on. 2 (2026-12-02): the continuation refuses
 #: steps that may hide two crossings of +1/-1 and approaches the family's limit (more members
 #: near bifurcation pairs and at the end; families of version 1 could miss such pairs).
-RECIPE = 2
+#: 3 (2026-12-03): resonant families are seeded towards the secondary and kept on the
+#: resonance (families.grow_resonant); members carry their period ratio.
+RECIPE = 3
 
 
 def catalog_settings(spec: OrbitSpec, stops: continuation.Stops) -> dict:

@@ -16,7 +16,10 @@ orbits.
   (Hill-problem limit; Hénon, "Numerical exploration of the restricted problem. V", *Astron.
   Astrophys.* 1, 1969, family f).
 * p:q resonant orbits from a Kepler ellipse about the larger primary of period ``2 pi q / p``
-  (sidereal), which in the rotating frame closes after ``2 pi q`` (common practice).
+  (sidereal), which in the rotating frame closes after ``2 pi q`` (common practice):
+  :func:`resonant_encounter` places the apsis nearer the secondary's orbit on the secondary's
+  side (the orbits of the family then come close to the secondary), :func:`resonant` the other
+  way round.
 """
 
 from __future__ import annotations
@@ -231,3 +234,78 @@ def resonant(mu: float, p: int, q: int, eccentricity: float = 0.5, start: str = 
     v = math.sqrt(gm * (2 / r - 1 / a))
     s = np.array([-mu - r, 0.0, 0.0, 0.0, -(v - r), 0.0])
     return Seed(s, math.pi * q, XZ_PLANAR, f"{p}:{q} Kepler ellipse, e = {e:.3g}")
+
+
+def resonant_geometry(mu: float, p: int, q: int):
+    """(a, e_touch, close) of a p:q orbit about the larger primary (p revolutions of the
+    spacecraft in q of the primaries): semi-major axis ``a = ((1 - mu) (q/p)^2)^(1/3)`` (Kepler's
+    third law with GM = 1 - mu and the secondary's mean motion 1), the eccentricity at which the
+    apsis nearer the secondary's orbit reaches it (distance 1 from the larger primary:
+    ``a (1 - e) = 1`` outside, ``a (1 + e) = 1`` inside), and which apsis that is
+    ("periapsis" for a > 1, "apoapsis" for a < 1)."""
+    if not (isinstance(p, int) and isinstance(q, int) and p > 0 and q > 0):
+        raise InputError(f"resonance {p}:{q} must be two positive integers")
+    if p == q:
+        raise InputError(f"resonance {p}:{q} is the secondary's own period (co-orbital motion): "
+                         "not offered as a resonant family; use p different from q, e.g. 3:4")
+    if math.gcd(p, q) != 1:
+        g = math.gcd(p, q)
+        raise InputError(f"resonance {p}:{q} is not in lowest terms; write it as {p // g}:{q // g}")
+    a = ((1.0 - mu) * (q / p) ** 2) ** (1.0 / 3.0)
+    if a > 1.0:
+        return a, 1.0 - 1.0 / a, "periapsis"
+    return a, 1.0 / a - 1.0, "apoapsis"
+
+
+def check_resonance(p: int, q: int) -> None:
+    """Raise InputError when a p:q resonant family is not offered: p = q, p:q not in lowest
+    terms, or an inner resonance whose ellipses cannot reach the secondary's orbit (p/q >= 2.8;
+    the exact limit depends a little on the mass ratio, checked again when seeding)."""
+    _, e_touch, _ = resonant_geometry(0.0, p, q)
+    if e_touch >= 0.98:
+        raise InputError(f"a {p}:{q} orbit cannot reach the secondary's orbit on an ellipse; inner "
+                         "resonances are offered while p/q < 2.8 (e.g. 5:2)")
+
+
+def resonant_encounter(mu: float, p: int, q: int, eccentricity: float | None = None) -> Seed:
+    """p:q resonant seed whose apsis nearer the secondary's orbit lies on the secondary's side
+    of the larger primary, half a period after the start: as the eccentricity grows towards
+    ``e_touch`` (:func:`resonant_geometry`) that apsis closes on the secondary, so the family
+    through this seed reaches close approaches (the flyby orbits of moon tours).
+
+    Kepler ellipse of sidereal period ``2 pi q / p`` (common practice, Kepler's third law);
+    rotating-frame period ``2 pi q``. At ``t = T/2 = pi q`` the spacecraft has made ``p/2``
+    revolutions and the frame ``q/2``: the apsis type alternates every half revolution and the
+    direction turns by ``(p - q) pi`` in the rotating frame. So the seed starts on the far side
+    of the larger primary (``theta0 = pi``) when ``p - q`` is odd, on the secondary's side
+    (``theta0 = 0``) when it is even, at the nearer apsis when ``p`` is even and at the other
+    apsis when ``p`` is odd; the nearer apsis is then at ``theta = 0`` at ``T/2``.
+    Default eccentricity: ``e_touch / 2``. Raises InputError when no ellipse (e < 0.98)
+    reaches the secondary's orbit (inner resonances with p/q > 2.8)."""
+    a, e_touch, close = resonant_geometry(mu, p, q)
+    if e_touch >= 0.98:
+        raise InputError(f"a {p}:{q} orbit (semi-major axis {a:.4f} of the primaries' distance) cannot "
+                         f"reach the secondary's orbit on an ellipse; inner resonances are offered while "
+                         f"p/q < 2.8 (e.g. 5:2)")
+    e = 0.5 * e_touch if eccentricity is None else float(eccentricity)
+    if not 0.0 <= e < 0.98:
+        raise InputError(f"eccentricity {eccentricity} must be in [0, 0.98)")
+    theta0 = math.pi if (p - q) % 2 else 0.0
+    start_close = p % 2 == 0
+    at_periapsis = (close == "periapsis") == start_close
+    gm = 1.0 - mu
+    r = a * (1 - e) if at_periapsis else a * (1 + e)
+    v = math.sqrt(gm * (2 / r - 1 / a))
+    c = math.cos(theta0)
+    s = np.array([-mu + c * r, 0.0, 0.0, 0.0, c * (v - r), 0.0])
+    return Seed(s, math.pi * q, XZ_PLANAR,
+                f"{p}:{q} Kepler ellipse, e = {e:.3g}, {close} towards the secondary at T/2")
+
+
+def resonant_x_rate(mu: float, p: int, q: int, e: float) -> float:
+    """Sign of d x0 / d e of :func:`resonant_encounter` (+1 or -1): which way along the family's
+    tangent the eccentricity, and with it the approach to the secondary, grows."""
+    h = 1e-6
+    x1 = resonant_encounter(mu, p, q, e + h).state[0]
+    x0 = resonant_encounter(mu, p, q, e).state[0]
+    return 1.0 if x1 > x0 else -1.0

@@ -285,6 +285,9 @@ def finish(system, sym, X, iterations, history, family="", point="", branch="",
           "half_period_residual": history[-1] if history else float("nan")}
     if note:
         ex["periodicity_note"] = note
+    if family == "resonant":
+        # turns about the larger primary: with the period, the measured p:q (orbit.period_ratio)
+        ex["winding_larger"] = geometry.winding_about_larger(system, arc)
     ex.update(extra or {})
     return PeriodicOrbit(system, s0, T, monodromy, family, point, branch,
                          float(dynamics.jacobi(system.mu, s0)), err, iterations, ex,
