@@ -66,8 +66,8 @@ def parse_parking(text, system):
 def _tof_text(leg):
     """'time of flight 99.1 d to within 10000 km of the orbit (210.3 d to the step-off point)'."""
     if math.isnan(leg.arrival_distance_km):
-        return f"time of flight {leg.tof_days:.4f} d"
-    return (f"time of flight {leg.tof_arrival_days:.4f} d to within {leg.arrival_distance_km:g} km of "
+        return f"CR3BP time of flight {leg.tof_days:.4f} d"
+    return (f"CR3BP time of flight {leg.tof_arrival_days:.4f} d to within {leg.arrival_distance_km:g} km of "
             f"the orbit ({leg.tof_days:.4f} d to the step-off point)")
 
 
@@ -110,6 +110,9 @@ def run(args):
         within_km = within_km * system.length_km if system.dimensional else within_km
         if not (math.isfinite(within_km) and within_km > 0):
             raise InputError(f"--arrival-within {args.arrival_within!r} must be a positive length")
+        if pb:
+            raise InputError(f"--arrival-within {args.arrival_within!r} measures the approach to an arrival "
+                             "orbit; this leg ends on a parking orbit, which it reaches when it ends")
     if args.map and not (pa or pb):
         raise InputError("--map draws the periapsis map of a parking-orbit leg; one end must be 'parking ...'")
     if pa and pb:
@@ -165,7 +168,7 @@ def run(args):
              None if math.isinf(g.min_altitude_km) else g.min_altitude_km] for k, g in enumerate(legs)]
     best = legs[0]
     head = [f"{args.origin} -> {args.target}: {len(legs)} leg(s) via {how}",
-            f"best: {best.kind}, dv {best.dv_mps:.6g} m/s, {_tof_text(best)} (CR3BP)",
+            f"best: {best.kind}, CR3BP dv {best.dv_mps:.6g} m/s, {_tof_text(best)}",
             f"method: {best.method}"]
     if best.kind in ("arrival", "departure"):
         per = best.details["periapsis"]
