@@ -199,11 +199,21 @@ def arrival_distance_km(system) -> float:
     return 0.01 * hill * (system.length_km if system.dimensional else 1.0)
 
 
+_PATHS: dict = {}
+
+
 def orbit_path(orbit, n: int = ORBIT_PATH_SAMPLES) -> np.ndarray:
-    """Positions (n, 3), LU, evenly in time over one period of ``orbit`` (the closed path)."""
-    te = np.linspace(0.0, orbit.period, int(n) + 1)
-    arc = propagate(orbit.system, orbit.state, orbit.period, t_eval=te, rtol=RTOL, atol=ATOL)
-    return arc.states[:-1, :3].copy()
+    """Positions (n, 3), LU, evenly in time over one period of ``orbit`` (the closed path).
+    The last few paths are kept (every candidate leg to one orbit reuses its path)."""
+    key = (float(orbit.system.mu), float(orbit.period), np.asarray(orbit.state, dtype=float).tobytes(), int(n))
+    if key not in _PATHS:
+        te = np.linspace(0.0, orbit.period, int(n) + 1)
+        arc = propagate(orbit.system, orbit.state, orbit.period, t_eval=te, rtol=RTOL, atol=ATOL)
+        if len(_PATHS) >= 8:
+            _PATHS.pop(next(iter(_PATHS)))
+        _PATHS[key] = arc.states[:-1, :3].copy()
+        _PATHS[key].flags.writeable = False
+    return _PATHS[key]
 
 
 def distance_to_path(path, points) -> np.ndarray:
