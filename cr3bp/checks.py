@@ -5,10 +5,17 @@ Every check samples the orbit over one period (dense output of the propagator) a
 met) and pass/fail. Geometry (common practice for libration-point mission design):
 
 * altitude over a primary: distance to its centre minus its mean radius;
-* angle from the primaries' line: the angle at the larger primary between the directions to
-  the spacecraft and to the smaller primary (e.g. the Sun-Earth-spacecraft angle of a Sun-Earth
-  L1 observatory, kept above a few degrees so its downlink is not drowned by the Sun; or the
-  Earth-Moon-line angle of a lunar relay);
+* angles seen from the Earth: the Sun-Earth-spacecraft angle (kept above a few degrees so a
+  ground antenna pointed at the spacecraft does not look into the Sun) and the
+  Moon-Earth-spacecraft angle (so the Moon's disc does not sit in the beam of a lunar relay's
+  ground link). The vertex is the Earth in every system: in Sun-Earth the Earth is the smaller
+  primary (the model's Earth-Moon barycentre; the Earth's own offset from it, up to 4 700 km,
+  moves the angle by at most about 0.2 degrees at the L1/L2 distance) and the Sun direction is
+  the rotating -x axis; in Earth-Moon the Earth is the larger primary and the Moon direction is
+  the rotating +x axis. Every other direction (the Moon in Sun-Earth, the Sun in Earth-Moon,
+  both in Sun-Mars and Sun-Jupiter) comes from :mod:`cr3bp.ephemeris` at the epochs
+  ``epoch + t`` over the period sampled from the scenario epoch, turned into the rotating axes
+  by the ephemeris-anchored frame of :mod:`cr3bp.frames`;
 * line of sight to the larger primary: the segment from the spacecraft to the larger
   primary's centre never passes within the smaller primary's radius (no occultation).
 """
@@ -21,6 +28,7 @@ import numpy as np
 
 from . import units
 from .errors import InputError
+from .scenario_schema import RENAMED_CHECKS   # withdrawn check keys and their message
 
 SAMPLES_PER_PERIOD = 4000
 
@@ -56,11 +64,109 @@ def altitude_km(system, states, which: int) -> np.ndarray:
     return d * system.length_km - body.radius_km
 
 
-def angle_from_line_deg(system, states) -> np.ndarray:
-    """Angle at the larger primary between the spacecraft and the smaller primary, degrees."""
-    r = states[:, :3] - np.array([system.positions[0], 0.0, 0.0])
-    cosang = r[:, 0] / np.linalg.norm(r, axis=1)
-    return np.degrees(np.arccos(np.clip(cosang, -1.0, 1.0)))
+#: The checks measured at the Earth and the body whose direction each compares with the
+#: spacecraft's.
+ANGLE_CHECKS = {"min_angle_at_earth_from_sun_deg": "sun", "min_angle_at_earth_from_moon_deg": "moon"}
+
+
+def _angle_deg(a, b) -> np.ndarray:
+    """Angle between the rows of ``a`` and ``b`` (atan2 of |a x b| and a.b: exact near 0 and 180)."""
+    c = np.linalg.norm(np.cross(a, b), axis=1)
+    d = np.einsum("ij,ij->i", a, b)
+    return np.degrees(np.arctan2(c, d))
+
+
+def _names(system):
+    p = system.primary.name if system.primary is not None else ""
+    s = system.secondary.name if system.secondary is not None else ""
+    return p, s
+
+
+def _frame(system, epoch):
+    from . import frames
+    return frames.frame(system, epoch, anchor="ephemeris", axes="j2000-equator", center="primary")
+
+
+def angle_at_earth_deg(system, t_tu, states, epoch, body: str) -> np.ndarray:
+    """Angle at the Earth between the directions to the spacecraft and to ``body`` ("sun" or
+    "moon"), degrees, at rotating times ``t_tu`` (TU from ``epoch``) of the rotating ``states``.
+
+    ``epoch``: ISO 8601 text (``Z`` = UTC) or TDB seconds since J2000, the date of rotating
+    time 0. Geometry and sources of each direction: see the module docstring.
+
+    Raises
+    ------
+    InputError
+        The system has no ephemeris for its pair (only Earth-Moon, Sun-Earth, Sun-Mars and
+        Sun-Jupiter have), or the epochs fall outside the ephemeris.
+    """
+    from . import ephemeris, frames
+    if body not in ("sun", "moon"):
+        raise InputError(f"angle at the Earth from '{body}': allowed sun, moon")
+    problem = angle_check_problem(system, body)
+    if problem:
+        raise InputError(problem)
+    t = np.asarray(t_tu, dtype=float)
+    s = np.atleast_2d(np.asarray(states, dtype=float))
+    p, q = _names(system)
+    spec = _frame(system, epoch)
+    tdb = spec.epoch_tdb_s + t * system.time_s
+    if (p, q) in (("earth", "moon"), ("sun", "earth-moon")):
+        earth_x = system.positions[0 if p == "earth" else 1]
+        sc = s[:, :3] - np.array([earth_x, 0.0, 0.0])
+        on_axis = {("earth", "moon"): "moon", ("sun", "earth-moon"): "sun"}[(p, q)]
+        if body == on_axis:
+            d = np.zeros_like(sc)
+            d[:, 0] = 1.0 if body == "moon" else -1.0
+        else:
+            c, _, _, _ = frames.basis(spec, tdb)            # columns: rotating axes in EME2000
+            eq = np.asarray(ephemeris.position(body, frames._epoch(tdb), "earth", "j2000-equator"))
+            d = np.einsum("nji,nj->ni", c, eq.reshape(-1, 3))
+        return _angle_deg(sc, d)
+    # Sun-Mars, Sun-Jupiter: the spacecraft about the Sun from the anchored frame, the Earth
+    # and the body from the ephemeris
+    _, out = frames.to_frame(spec, t, s)
+    ep = frames._epoch(tdb)
+    earth = np.asarray(ephemeris.position("earth", ep, "sun", "j2000-equator")).reshape(-1, 3)
+    sc = out[:, :3] - earth
+    d = np.asarray(ephemeris.position(body, ep, "earth", "j2000-equator")).reshape(-1, 3)
+    return _angle_deg(sc, d)
+
+
+def angle_check_problem(system, body: str = "sun") -> str:
+    """Why an angle at the Earth cannot be measured in ``system`` ("" when it can)."""
+    p, q = _names(system)
+    if (p, q) in (("earth", "moon"), ("sun", "earth-moon"), ("sun", "mars-system"), ("sun", "jupiter-system")):
+        return ""
+    return (f"an angle at the Earth from the {body.capitalize()} needs the spacecraft's place relative "
+            f"to the Earth, which librate knows in earth-moon, sun-earth, sun-mars and sun-jupiter "
+            f"only (system '{system.name}' has no ephemeris for its primaries)")
+
+
+def plan_problems(system, checks: dict, epoch) -> list[tuple[str, str]]:
+    """Problems of a scenario's ``checks`` table found before anything is computed:
+    ``[(key, message)]`` for withdrawn keys, angle checks in systems without the geometry, and
+    an epoch outside the ephemeris."""
+    out = []
+    for key in checks:
+        if key in RENAMED_CHECKS:
+            out.append((key, RENAMED_CHECKS[key]))
+        elif key in ANGLE_CHECKS:
+            why = angle_check_problem(system, ANGLE_CHECKS[key])
+            try:
+                from .frames import epoch_from_text
+                epoch_from_text(epoch) if isinstance(epoch, str) else float(epoch)
+            except (InputError, TypeError, ValueError):
+                continue            # the epoch itself is reported where it is read
+            if not why:
+                try:
+                    angle_at_earth_deg(system, np.zeros(1), np.array([[0.5, 0.1, 0.0, 0, 0, 0]]),
+                                       epoch, ANGLE_CHECKS[key])
+                except InputError as e:
+                    why = str(e)
+            if why:
+                out.append((key, why))
+    return out
 
 
 def occultation_clearance_km(system, states) -> np.ndarray:
@@ -84,11 +190,14 @@ def _result(name, description, required, actual, unit, at_least: bool) -> CheckR
                        bool(margin >= 0.0))
 
 
-def run_checks(orbit, checks: dict, states=None) -> list[CheckResult]:
+def run_checks(orbit, checks: dict, states=None, epoch=None) -> list[CheckResult]:
     """Evaluate the scenario's ``checks`` table on ``orbit``.
 
     Keys: ``min_altitude_smaller``, ``min_altitude_larger`` (lengths), ``max_stability_index``,
-    ``min_angle_from_primaries_line_deg``, ``line_of_sight_to_larger`` (bool), ``max_period``.
+    ``min_angle_at_earth_from_sun_deg``, ``min_angle_at_earth_from_moon_deg`` (need ``epoch``,
+    the date of rotating time 0: ISO 8601 text or TDB seconds since J2000),
+    ``line_of_sight_to_larger`` (bool), ``max_period``. ``states`` are samples evenly in time
+    over one period from t = 0 (as :func:`sample` gives).
     """
     system = orbit.system
     if states is None and checks:
@@ -104,10 +213,16 @@ def run_checks(orbit, checks: dict, states=None) -> list[CheckResult]:
         elif key == "max_stability_index":
             act = float(np.max(np.abs(np.real(orbit.stability_indices))))
             out.append(_result(key, "largest |stability index|", float(value), act, "", False))
-        elif key == "min_angle_from_primaries_line_deg":
-            act = float(angle_from_line_deg(system, states).min())
-            out.append(_result(key, f"least angle from the {names[0]}-{names[1]} line seen from {names[0]}",
-                               float(value), act, "deg", True))
+        elif key in ANGLE_CHECKS:
+            body = ANGLE_CHECKS[key]
+            if epoch is None:
+                raise InputError(f"check '{key}' needs the epoch of rotating time 0")
+            t = np.linspace(0.0, orbit.period, len(states))
+            act = float(angle_at_earth_deg(system, t, states, epoch, body).min())
+            out.append(_result(key, f"least {body.capitalize()}-Earth-spacecraft angle (vertex at the "
+                                    "Earth) over one period from the epoch", float(value), act, "deg", True))
+        elif key in RENAMED_CHECKS:
+            raise InputError(f"check '{key}': {RENAMED_CHECKS[key]}")
         elif key == "line_of_sight_to_larger":
             if not value:
                 continue

@@ -89,6 +89,14 @@ class Leg:
     kind : str                     "heteroclinic", "homoclinic", "transfer", "arrival", "departure"
     min_altitude_km : float        lowest altitude over either primary along the leg
     details : dict                 method-specific values (residuals, phases, periapsis data...)
+    tof_arrival : float            time of flight to arrival, TU: from the leg's start until its
+                                   trajectory first comes within ``arrival_distance_km`` of the
+                                   target orbit's path (:func:`arrival_time`); equal to ``tof``
+                                   for a leg that ends on a parking orbit
+    arrival_distance_km : float    the distance that counts as arrived (NaN: not an orbit)
+
+    ``tof`` runs to the manifold's step-off point on the target orbit, which includes the
+    asymptotic approach (months in Sun-Earth); ``tof_arrival`` stops at the stated distance.
     """
 
     system: object
@@ -103,10 +111,17 @@ class Leg:
     kind: str = "transfer"
     min_altitude_km: float = math.inf
     details: dict = field(default_factory=dict, compare=False)
+    tof_arrival: float = math.nan
+    arrival_distance_km: float = math.nan
 
     @property
     def tof_days(self) -> float:
         return float(self.system.days(self.tof)) if self.system.dimensional else float("nan")
+
+    @property
+    def tof_arrival_days(self) -> float:
+        t = self.tof if math.isnan(self.tof_arrival) else self.tof_arrival
+        return float(self.system.days(t)) if self.system.dimensional else float("nan")
 
     def trajectory(self, n_per_segment: int = 400):
         """``(t, states)`` of the whole leg (segments re-propagated and joined)."""
@@ -128,6 +143,9 @@ class Leg:
             "from": self.origin, "to": self.target, "kind": self.kind, "method": self.method,
             "dv_mps": self.dv_mps, "tof": self.tof,
             "tof_days": self.tof_days if s.dimensional else None,
+            "tof_arrival_days": self.tof_arrival_days if s.dimensional else None,
+            "arrival_distance_km": None if math.isnan(self.arrival_distance_km) else self.arrival_distance_km,
+            "tof_definitions": TOF_DEFINITIONS,
             "maneuvers": [m.to_dict(s) for m in self.maneuvers],
             "patch_state": list(map(float, self.patch_state)),
             "min_altitude_km": None if math.isinf(self.min_altitude_km) else self.min_altitude_km,
@@ -151,6 +169,114 @@ def _plain(d):
 
 def _mps(system, dv):
     return float(system.mps(dv)) if system.dimensional else float(dv)
+
+
+# ---- arrival at an orbit: the time to come within a stated distance of its path -------------
+
+#: Distance from the target orbit's path at which a leg counts as arrived, km (a design choice
+#: of librate, not a standard): 1 000 km in Earth-Moon, 10 000 km in Sun-Earth; elsewhere 1 % of
+#: the smaller primary's Hill radius LU (mu/3)^(1/3) (:func:`arrival_distance_km`).
+ARRIVAL_DISTANCE_KM = {"earth-moon": 1000.0, "sun-earth": 10000.0}
+#: Points per period on the target orbit's path (nearest point refined on the polyline).
+ORBIT_PATH_SAMPLES = 20000
+#: Samples per ballistic segment when looking for the first approach (then Brent's method).
+ARRIVAL_SCAN_SAMPLES = 4000
+TOF_DEFINITIONS = {
+    "tof_days": "step-off time of flight: from the leg's start to the manifold's step-off point "
+                "on the target orbit (includes the asymptotic approach)",
+    "tof_arrival_days": "time of flight to arrival: from the leg's start until the trajectory first "
+                        "comes within arrival_distance_km of the target orbit's path (nearest point "
+                        "of the orbit); equal to tof_days when the leg ends on a parking orbit",
+}
+
+
+def arrival_distance_km(system) -> float:
+    """The default arrival distance of ``system`` (:data:`ARRIVAL_DISTANCE_KM`), km; in a system
+    without units, the same 1 % of the Hill radius in LU."""
+    if system.name in ARRIVAL_DISTANCE_KM:
+        return ARRIVAL_DISTANCE_KM[system.name]
+    hill = (system.mu / 3.0) ** (1.0 / 3.0)
+    return 0.01 * hill * (system.length_km if system.dimensional else 1.0)
+
+
+_PATHS: dict = {}
+
+
+def orbit_path(orbit, n: int = ORBIT_PATH_SAMPLES) -> np.ndarray:
+    """Positions (n, 3), LU, evenly in time over one period of ``orbit`` (the closed path).
+    The last few paths are kept (every candidate leg to one orbit reuses its path)."""
+    key = (float(orbit.system.mu), float(orbit.period), np.asarray(orbit.state, dtype=float).tobytes(), int(n))
+    if key not in _PATHS:
+        te = np.linspace(0.0, orbit.period, int(n) + 1)
+        arc = propagate(orbit.system, orbit.state, orbit.period, t_eval=te, rtol=RTOL, atol=ATOL)
+        if len(_PATHS) >= 8:
+            _PATHS.pop(next(iter(_PATHS)))
+        _PATHS[key] = arc.states[:-1, :3].copy()
+        _PATHS[key].flags.writeable = False
+    return _PATHS[key]
+
+
+def distance_to_path(path, points) -> np.ndarray:
+    """Distance (LU) from each point (K, 3) to the closed polyline through ``path`` (n, 3): the
+    nearest vertex (k-d tree), then the nearest point of the two segments meeting there."""
+    from scipy.spatial import cKDTree
+    pts = np.atleast_2d(np.asarray(points, dtype=float))
+    n = len(path)
+    _, i = cKDTree(path).query(pts)
+    best = np.linalg.norm(pts - path[i], axis=1)
+    for j in (i - 1, i):
+        a, b = path[j % n], path[(j + 1) % n]
+        ab = b - a
+        u = np.clip(np.einsum("ij,ij->i", pts - a, ab) / np.maximum(np.einsum("ij,ij->i", ab, ab), 1e-300),
+                    0.0, 1.0)
+        best = np.minimum(best, np.linalg.norm(pts - (a + u[:, None] * ab), axis=1))
+    return best
+
+
+def arrival_time(system, segments, orbit, distance_km=None, path=None):
+    """When a leg's trajectory first comes within ``distance_km`` (default
+    :func:`arrival_distance_km`) of the path of ``orbit``.
+
+    ``segments``: the leg's ballistic arcs ``(t0, state, duration)`` forward in time (as
+    :class:`Leg` holds them). Each is sampled at :data:`ARRIVAL_SCAN_SAMPLES` points, the first
+    sample inside the distance is bracketed with the one before it and the crossing found by
+    Brent's method on the re-propagated state (Brent, *Algorithms for Minimization without
+    Derivatives*, 1973, ch. 4, as scipy's ``brentq``).
+
+    Returns
+    -------
+    (t, distance_km) : TU from the leg's start; the leg's full duration when it never comes that
+    close (it then ends on the orbit at its step-off point).
+    """
+    d_km = arrival_distance_km(system) if distance_km is None else float(distance_km)
+    if not (math.isfinite(d_km) and d_km > 0):
+        raise InputError(f"arrival distance {distance_km!r} km must be a positive number")
+    lu = d_km / system.length_km if system.dimensional else d_km
+    path = orbit_path(orbit) if path is None else path
+    end = 0.0
+    for t0, s0, dur in segments:
+        if dur <= 0:
+            continue
+        end = max(end, float(t0) + float(dur))
+        te = np.linspace(0.0, float(dur), ARRIVAL_SCAN_SAMPLES)
+        arc = propagate(system, s0, float(dur), t_eval=te, rtol=RTOL, atol=ATOL)
+        d = distance_to_path(path, arc.states[:, :3])
+        inside = np.nonzero(d <= lu)[0]
+        if inside.size == 0:
+            continue
+        k = int(inside[0])
+        if k == 0:
+            return float(t0), d_km
+        sa, h = arc.states[k - 1], float(te[k] - te[k - 1])
+
+        def gap(dt):
+            if dt == 0.0:
+                return float(d[k - 1] - lu)
+            st = propagate(system, sa, dt, rtol=RTOL, atol=ATOL).states[-1]
+            return float(distance_to_path(path, st[:3])[0] - lu)
+        dt = brentq(gap, 0.0, h, xtol=1e-12 * max(1.0, h), rtol=1e-14, maxiter=100)
+        return float(t0) + float(te[k - 1]) + dt, d_km
+    return end, d_km
 
 
 # ---- one manifold trajectory as a function of its departure time ---------------------------
@@ -309,8 +435,9 @@ def _leg_from_patch(system, ea, eb, ta, tb, tube_a, tube_b, kind, method, detail
               "t_orbit_from": ta, "t_orbit_to": tb, "patch_dv": dvn,
               "position_mismatch": float(np.linalg.norm(pb[:3] - pa[:3])),
               "step_km": tube_a.step_km, "jacobi_from": tube_a.jacobi, "jacobi_to": tube_b.jacobi})
+    t_arr, d_arr = arrival_time(system, segs, tube_b.orbit) if tube_b.orbit is not None else (tof, math.nan)
     return Leg(system, tube_a.origin, tube_b.origin, (man,) if dvn > 0 else (man,), man.dv_mps,
-               tof, pa.copy(), segs, method, kind, alt, d)
+               tof, pa.copy(), segs, method, kind, alt, d, t_arr, d_arr)
 
 
 def _min_altitude(system, segs, n=400):
@@ -825,10 +952,14 @@ def _parking_leg(system, orbit, p, altitude_km, stability, branch, t_orbit, star
                "primary": name, "target_altitude_km": altitude_km, "stability": stability,
                "branch": branch, "jacobi": orbit.jacobi,
                "tof_note": "time from periapsis to the manifold's step-off point on the orbit"}
+    if stability == "stable":
+        t_arr, d_arr = arrival_time(system, segs, orbit)
+    else:
+        t_arr, d_arr = abs(tp), math.nan
     return Leg(system, origin, target, (man,), man.dv_mps, abs(tp), ps.copy(), segs,
                "first periapsis of the manifold about the primary, departure phase refined by "
                "Brent's method to the target altitude; tangential burn at periapsis",
-               kind, float(info.get("altitude_km", math.inf)), details)
+               kind, float(info.get("altitude_km", math.inf)), details, t_arr, d_arr)
 
 
 # ---- transit classification -----------------------------------------------------------------

@@ -84,7 +84,7 @@ def _node_energy(graph, nid):
 
 def leg_summary(leg: dict) -> dict:
     keys = ("from", "to", "from_name", "to_name", "method", "status", "reason", "dv_mps", "tof_days",
-            "min_altitude_km", "key")
+            "tof_arrival_days", "arrival_distance_km", "min_altitude_km", "key")
     return {k: leg.get(k) for k in keys if k in leg}
 
 
@@ -134,6 +134,9 @@ def compute_leg(task: dict) -> dict:
     except LibrateError as e:
         return dict(base, status="failed", reason=str(e), dv_mps=None, tof_days=None)
     leg.update(base)
+    # legs that do not end on a periodic orbit arrive when they end
+    leg.setdefault("tof_arrival_days", leg["tof_days"])
+    leg.setdefault("arrival_distance_km", None)
     cap = st.get("max_patch_dv_mps")
     if st.get("maneuvers") == "none" and leg["dv_mps"] > BALLISTIC_DV_MPS:
         return dict(base, status="failed", dv_mps=leg["dv_mps"], tof_days=leg["tof_days"],
@@ -255,7 +258,15 @@ def _manifold_leg(system, task) -> dict:
         from .errors import NoSolutionError
         raise NoSolutionError("no manifold connection: " + ("; ".join(reasons) or "the cuts do not meet"))
     best = min(found, key=lambda lg: (lg.dv_mps, lg.tof))
-    return leg_from_connection(system, best, st["patches"])
+    return _with_arrival(leg_from_connection(system, best, st["patches"]), best)
+
+
+def _with_arrival(plain: dict, leg) -> dict:
+    """The plain leg dict with the time of flight to arrival of the
+    :class:`cr3bp.connections.Leg` it came from (see :data:`cr3bp.connections.TOF_DEFINITIONS`)."""
+    plain["tof_arrival_days"] = float(leg.tof_arrival_days)
+    plain["arrival_distance_km"] = None if math.isnan(leg.arrival_distance_km) else float(leg.arrival_distance_km)
+    return plain
 
 
 def _periapsis_legs(orbit, body, altitude_km, stability, n_points) -> list:
@@ -288,7 +299,7 @@ def _parking_leg(system, task) -> dict:
     found = _periapsis_legs(orbit, st["body"], st["altitude_km"], "stable" if arrive else "unstable",
                             st["tube_points"])
     best = min(found, key=lambda lg: (lg.dv_mps, lg.tof))
-    return leg_from_connection(system, best, st["patches"])
+    return _with_arrival(leg_from_connection(system, best, st["patches"]), best)
 
 
 def _boundary_leg(system, task) -> dict:
@@ -575,7 +586,9 @@ def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None,
     for leg in legs:
         if leg["status"] == "ok":
             network.add_leg(graph, leg["from"], leg["to"], leg["dv_mps"], leg["tof_days"], key=leg["method"],
-                            kind=leg["method"], min_altitude_km=leg["min_altitude_km"], leg=leg)
+                            kind=leg["method"], min_altitude_km=leg["min_altitude_km"], leg=leg,
+                            tof_arrival_days=leg.get("tof_arrival_days", leg["tof_days"]),
+                            arrival_distance_km=leg.get("arrival_distance_km"))
     settings = {"tof_days": nodelist.tof_days if tof_days is None else tof_days,
                 "patches": nodelist.patches if patches is None else patches}
     return BuildResult(graph, tuple(nodelist.nodes), tuple(legs), len(todo), cached, tuple(pruned), settings)

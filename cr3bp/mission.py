@@ -104,6 +104,10 @@ def prepare(path) -> Plan:
             specs[name] = _spec_for(entry)
         except InputError as e:
             add(f"orbits.{name}", e)
+        if system is not None and isinstance(entry.get("checks"), dict):
+            from .checks import plan_problems
+            for key, why in plan_problems(system, entry["checks"], sysd["epoch"]):
+                add(f"orbits.{name}.checks.{key}", InputError(why))
     known = set(data["orbits"])
     transfers = data.get("transfers", [])
     for i, t in enumerate(transfers):
@@ -257,7 +261,7 @@ def run(plan: Plan, folder, *, catalog=None, workers=None, scheduler=None, progr
     for name, entry in plan.data["orbits"].items():
         if entry.get("checks"):
             _say(progress, f"checks on '{name}'")
-            checks[name] = run_checks(orbits[name], entry["checks"], samples[name])
+            checks[name] = run_checks(orbits[name], entry["checks"], samples[name], epoch=plan.epoch)
     rows = [[name, c.name, c.required, c.actual, c.margin, c.unit, "pass" if c.passed else "FAIL"]
             for name, cs in checks.items() for c in cs]
     write_text(out.path("checks.csv"), _csv(["orbit", "check", "required", "actual", "margin", "unit", "result"],

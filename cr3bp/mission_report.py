@@ -65,10 +65,15 @@ def _routes_section(routes, figures) -> str:
         html += f"<h3>{R.esc(name)}</h3>"
         best = r.get("best") or {}
         legs = best.get("legs", [])
-        html += R.table(["leg", "from", "to", "Δv [m/s]", "time of flight [d]"],
-                        [(str(i + 1), R.esc(l["from"]), R.esc(l["to"]), R.fmt(l["dv_mps"]), R.fmt(l["tof_days"]))
+        html += R.table(["leg", "from", "to", "Δv [m/s]", "time of flight to arrival [d] ¹",
+                         "to the step-off point [d] ²"],
+                        [(str(i + 1), R.esc(l["from"]), R.esc(l["to"]), R.fmt(l["dv_mps"]),
+                          R.fmt(l.get("tof_arrival_days", l["tof_days"])), R.fmt(l["tof_days"]))
                          for i, l in enumerate(legs)] +
-                        [("total", "", "", R.fmt(best.get("dv_total_mps")), R.fmt(best.get("tof_days")))], left=3)
+                        [("total", "", "", R.fmt(best.get("dv_total_mps")),
+                          R.fmt(best.get("tof_arrival_days", best.get("tof_days"))), R.fmt(best.get("tof_days")))],
+                        left=3)
+        html += f"<p>{R.esc(tof_definition_note(legs))}</p>"
         if r.get("maneuvers"):
             html += "<p>Maneuvers of the stitched trajectory:</p>" + R.table(
                 ["time since start [d]", "Δv [m/s]", "Δv vector (rotating) [m/s]"],
@@ -79,6 +84,18 @@ def _routes_section(routes, figures) -> str:
             if key in figures:
                 html += R.figure(figures[key]["path"], figures[key]["caption"])
     return html
+
+
+def tof_definition_note(legs) -> str:
+    """The footnotes of the route table: what each time of flight measures (CR3BP times)."""
+    dists = sorted({l["arrival_distance_km"] for l in legs if l.get("arrival_distance_km") is not None})
+    within = " or ".join(f"{d:g} km" for d in dists) or "the stated distance"
+    return ("Times of flight in the CR3BP model. ¹ Time of flight to arrival: from the leg's start until its "
+            f"trajectory first comes within {within} of the target orbit's path (nearest point of the orbit); "
+            "for a leg ending on a parking orbit, its whole time. The total runs from departure until the "
+            "route first comes within that distance of its final orbit (earlier legs counted whole). "
+            "² To the manifold's step-off point on the target orbit, which includes the slow asymptotic "
+            "approach; the scenario's max_tof caps this longer time.")
 
 
 def _exports_section(exports) -> str:

@@ -110,7 +110,8 @@ def design_transfers(plan, orbits, out, *, catalog=None, workers=None, scheduler
                         "pareto": [rd(r) for r in front], "stitched": st.to_dict(),
                         "maneuvers": list(st.maneuvers),
                         "note": (f"stitched: Δv {st.dv_total_mps:.2f} m/s (legs alone {st.legs_dv_total_mps:.2f} m/s), "
-                                 f"time of flight {st.tof_days:.3f} d, largest position jump "
+                                 f"time of flight {st.tof_days:.3f} d to the step-off point on the final orbit "
+                                 "(coasts included), largest position jump "
                                  f"{st.continuity_lu * system.length_km * 1e3:.2e} m")}
         write_text(out.path(f"route-{name}.json"), _json({"caution": plan_caution(), "transfer": name,
                                                            **routes[name]}))

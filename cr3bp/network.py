@@ -37,9 +37,16 @@ class Route:
     ----------
     nodes : tuple of node ids, source first
     edges : tuple of (u, v, key) multigraph edges
-    dv_total_mps, tof_days : totals over the legs
+    dv_total_mps, tof_days : totals over the legs (``tof_days``: step-off times of flight, to
+                             the manifold's step-off point on each leg's target orbit)
     min_altitude_km : lowest altitude over any primary along the route (inf when unknown)
     legs : tuple of the edge data dicts, in order
+
+    ``tof_arrival_days`` is the time from departure until the route first comes within
+    ``arrival_distance_km`` of its final orbit: the step-off times of every leg but the last,
+    plus the last leg's time of flight to arrival (edge ``tof_arrival_days``; see
+    :data:`cr3bp.connections.TOF_DEFINITIONS`). Caps and ranking by time use ``tof_days``, the
+    longer of the two.
     """
 
     nodes: tuple
@@ -53,12 +60,27 @@ class Route:
     def n_legs(self) -> int:
         return len(self.edges)
 
+    @property
+    def tof_arrival_days(self) -> float:
+        if not self.legs:
+            return self.tof_days
+        last = self.legs[-1]
+        return float(self.tof_days - last["tof_days"] + last.get("tof_arrival_days", last["tof_days"]))
+
+    @property
+    def arrival_distance_km(self):
+        """The distance that counts as arrived on the final orbit, km (None: the route ends on a
+        parking orbit or another end that is reached when its last leg ends)."""
+        return self.legs[-1].get("arrival_distance_km") if self.legs else None
+
     def to_dict(self) -> dict:
         return {
             "nodes": [str(n) for n in self.nodes],
             "legs": [_leg_summary(u, v, k, d) for (u, v, k), d in zip(self.edges, self.legs)],
             "dv_total_mps": self.dv_total_mps,
             "tof_days": self.tof_days,
+            "tof_arrival_days": self.tof_arrival_days,
+            "arrival_distance_km": self.arrival_distance_km,
             "min_altitude_km": None if math.isinf(self.min_altitude_km) else self.min_altitude_km,
             "n_legs": self.n_legs,
         }
@@ -66,7 +88,9 @@ class Route:
 
 def _leg_summary(u, v, k, d) -> dict:
     out = {"from": str(u), "to": str(v), "key": str(k), "dv_mps": float(d.get("dv_mps", 0.0)),
-           "tof_days": float(d.get("tof_days", 0.0)), "kind": d.get("kind", "")}
+           "tof_days": float(d.get("tof_days", 0.0)),
+           "tof_arrival_days": float(d.get("tof_arrival_days", d.get("tof_days", 0.0))),
+           "arrival_distance_km": d.get("arrival_distance_km"), "kind": d.get("kind", "")}
     if "min_altitude_km" in d:
         out["min_altitude_km"] = float(d["min_altitude_km"])
     return out

@@ -37,10 +37,19 @@ CHECK_KEYS = {
     "min_altitude_smaller": (Q, False, "least altitude over the smaller primary, e.g. '1000km'"),
     "min_altitude_larger": (Q, False, "least altitude over the larger primary"),
     "max_stability_index": (F, False, "largest allowed |stability index|"),
-    "min_angle_from_primaries_line_deg": (F, False,
-        "least angle between the spacecraft and the primaries' line, seen from the larger primary"),
+    "min_angle_at_earth_from_sun_deg": (F, False,
+        "least Sun-Earth-spacecraft angle (vertex at the Earth), degrees"),
+    "min_angle_at_earth_from_moon_deg": (F, False,
+        "least Moon-Earth-spacecraft angle (vertex at the Earth), degrees"),
     "line_of_sight_to_larger": (B, False, "continuous line of sight to the larger primary past the smaller"),
     "max_period": (Q, False, "longest allowed period"),
+}
+#: Withdrawn check keys and what replaces them (the same text as cr3bp.checks.RENAMED_CHECKS).
+RENAMED_CHECKS = {
+    "min_angle_from_primaries_line_deg":
+        "this check measured the angle at the larger primary (in Sun-Earth: at the Sun) and is "
+        "withdrawn; use min_angle_at_earth_from_sun_deg (Sun-Earth-spacecraft angle) or "
+        "min_angle_at_earth_from_moon_deg (Moon-Earth-spacecraft angle)",
 }
 TRANSFER_KEYS = {
     "name": (S, True, "name of the transfer"),
@@ -182,8 +191,9 @@ def check(data: dict, lines: dict, file: str, schema: dict | None = None) -> lis
         for k in table:
             if k not in keys:
                 allowed = ", ".join(sorted(keys))
+                why = RENAMED_CHECKS.get(k) if keys is CHECK_KEYS else None
                 problems.append(Problem(file, line(f"{prefix}.{k}"), f"{prefix}.{k}",
-                                        f"unknown key; allowed here: {allowed}"))
+                                        why or f"unknown key; allowed here: {allowed}"))
         for k, (typ, required, sub) in keys.items():
             full = f"{prefix}.{k}" if prefix else k
             if k not in table:

@@ -20,7 +20,9 @@ import numpy as np
 
 from .errors import ConvergenceError
 
-LEG_FORMAT = 1
+#: Version of the plain leg dicts (part of their catalogue key). 2: legs carry the time of
+#: flight to arrival (``tof_arrival_days``, ``arrival_distance_km``).
+LEG_FORMAT = 2
 #: Newton iterations on the departure velocity before giving up.
 MAX_ITERATIONS = 30
 #: Arrival position residual accepted, LU (~4e-6 m in Earth-Moon).

@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 
 from cr3bp import system
-from cr3bp.checks import altitude_km, angle_from_line_deg, occultation_clearance_km
+from cr3bp.checks import altitude_km, angle_at_earth_deg, occultation_clearance_km
 
 EM = system("earth-moon")
 
@@ -15,11 +15,12 @@ def test_altitude_over_the_moon():
     assert altitude_km(EM, s, 1)[0] == pytest.approx(5000.0 - 1737.4, abs=1e-6)
 
 
-def test_angle_from_line():
+def test_moon_angle_at_the_earth_in_earth_moon():
     x1 = -EM.mu
-    # a point at 45 degrees above the Earth-Moon line, seen from the Earth
+    # a point at 45 degrees above the Earth-Moon line, seen from the Earth; on the line; behind it
     s = np.array([[x1 + 0.5, 0.5, 0, 0, 0, 0], [x1 + 1.0, 0, 0.0, 0, 0, 0], [x1 - 1.0, 0, 0, 0, 0, 0]])
-    assert angle_from_line_deg(EM, s) == pytest.approx([45.0, 0.0, 180.0])
+    a = angle_at_earth_deg(EM, np.zeros(3), s, "2031-03-01T00:00:00Z", "moon")
+    assert a == pytest.approx([45.0, 0.0, 180.0], abs=1e-12)
 
 
 def test_occultation_behind_the_moon_and_clear_of_it():

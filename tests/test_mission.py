@@ -198,6 +198,10 @@ def test_demo_scenario_end_to_end(tmp_path):
     assert st["continuity_lu"] < 1e-9
     assert all(c["holds"] for c in st["constraints"].values())
     assert all(c.passed for cs in res.checks.values() for c in cs)
+    assert "min_angle_at_earth_from_moon_deg" in {c.name for c in res.checks["relay"]}
+    first = route["best"]["legs"][0]           # time of flight to within 1 000 km of the staging halo
+    assert first["arrival_distance_km"] == 1000.0 and first["tof_arrival_days"] < first["tof_days"]
+    assert "time of flight to arrival [d]" in (out / "report.html").read_text()
     msg = OrbitEphemerisMessage.open(str(out / "relay.oem"))
     assert sum(len(list(seg)) for seg in msg) > 100
     manifest = json.loads((out / "manifest.json").read_text())

@@ -58,11 +58,15 @@ def build(args, system):
     return nodelist, result
 
 
-LEG_HEADERS = ["from", "to", "status", "dv_mps", "tof_days", "min_altitude_km", "reason"]
+#: tof_arrival_days: to within arrival_within_km of the target orbit's path (the leg's whole time
+#: when it ends elsewhere); tof_stepoff_days: to the manifold's step-off point (CR3BP times).
+LEG_HEADERS = ["from", "to", "status", "dv_mps", "tof_arrival_days", "tof_stepoff_days", "arrival_within_km",
+               "min_altitude_km", "reason"]
 
 
 def leg_rows(result):
-    rows = [[leg["from_name"], leg["to_name"], leg["status"], leg.get("dv_mps"), leg.get("tof_days"),
+    rows = [[leg["from_name"], leg["to_name"], leg["status"], leg.get("dv_mps"),
+             leg.get("tof_arrival_days", leg.get("tof_days")), leg.get("tof_days"), leg.get("arrival_distance_km"),
              leg.get("min_altitude_km"), leg.get("reason", "")] for leg in result.legs]
-    rows += [[p["from"], p["to"], "pruned", None, None, None, p["reason"]] for p in result.pruned]
+    rows += [[p["from"], p["to"], "pruned", None, None, None, None, None, p["reason"]] for p in result.pruned]
     return rows

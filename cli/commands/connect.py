@@ -1,5 +1,7 @@
 """librate connect: legs between periodic orbits, or a parking orbit and a periodic orbit, through tubes."""
 
+import math
+
 from .. import common
 from . import _tube_options as to
 
@@ -32,6 +34,10 @@ def add_arguments(p):
     p.add_argument("--time", default=None, metavar="TIME", help="time limit per trajectory (default 2pi TU)")
     p.add_argument("--step-off", metavar="LENGTH", help="step-off distance (default per system)")
     p.add_argument("--candidates", type=int, default=5, metavar="K", help="candidates refined (default 5)")
+    p.add_argument("--arrival-within", metavar="LENGTH",
+                   help="distance from the arrival orbit's path that counts as arrived, with its unit (e.g. "
+                        "5000km), for the time of flight to arrival (default 1000km in earth-moon, 10000km in sun-earth, else 1%% of "
+                        "the smaller primary's Hill radius)")
     p.add_argument("--plot", metavar="FILE", help="draw the best leg over the tubes (PNG/PDF/SVG)")
     p.add_argument("--map", metavar="FILE", help="parking-orbit legs: draw the periapsis map (altitude against "
                    "time of flight, the target altitude marked)")
@@ -57,6 +63,14 @@ def parse_parking(text, system):
     return p, float(alt)
 
 
+def _tof_text(leg):
+    """'time of flight 99.1 d to within 10000 km of the orbit (210.3 d to the step-off point)'."""
+    if math.isnan(leg.arrival_distance_km):
+        return f"CR3BP time of flight {leg.tof_days:.4f} d"
+    return (f"CR3BP time of flight {leg.tof_arrival_days:.4f} d to within {leg.arrival_distance_km:g} km of "
+            f"the orbit ({leg.tof_days:.4f} d to the step-off point)")
+
+
 def _jacobi_word(text):
     for w in text.split():
         if w.lower().startswith("jacobi="):
@@ -71,7 +85,7 @@ def _points(text):
     return [w.upper() for w in text.split() if w.upper() in ("L1", "L2", "L3")]
 
 
-HEADERS = ["rank", "kind", "dv_mps", "tof_days", "patch_x", "patch_y", "patch_z", "patch_vx", "patch_vy",
+HEADERS = ["rank", "kind", "dv_mps", "tof_arrival_days", "tof_stepoff_days", "arrival_within_km", "patch_x", "patch_y", "patch_z", "patch_vx", "patch_vy",
            "patch_vz", "min_altitude_km"]
 
 
@@ -90,6 +104,15 @@ def run(args):
     if not t_max > 0:
         raise InputError(f"--time {args.time} must be positive")
     pa, pb = parse_parking(args.origin, system), parse_parking(args.target, system)
+    within_km = None
+    if args.arrival_within is not None:
+        within_km = units.length(args.arrival_within, system)
+        within_km = within_km * system.length_km if system.dimensional else within_km
+        if not (math.isfinite(within_km) and within_km > 0):
+            raise InputError(f"--arrival-within {args.arrival_within!r} must be a positive length")
+        if pb:
+            raise InputError(f"--arrival-within {args.arrival_within!r} measures the approach to an arrival "
+                             "orbit; this leg ends on a parking orbit, which it reaches when it ends")
     if args.map and not (pa or pb):
         raise InputError("--map draws the periapsis map of a parking-orbit leg; one end must be 'parking ...'")
     if pa and pb:
@@ -132,26 +155,37 @@ def run(args):
                                max_candidates=args.candidates, progress=to.progress_printer(args))
         tubes = [tu, ts]
         how = f"unstable ({args.from_branch}) and stable ({args.to_branch}) tubes cut by {args.section}"
-    rows = [[k + 1, g.kind, g.dv_mps, g.tof_days, *map(float, g.patch_state),
+    arrival_orbit = (orbit if pa else None) if (pa or pb) else ob
+    if within_km is not None and arrival_orbit is not None:
+        import dataclasses
+
+        from cr3bp.connections import arrival_time, orbit_path
+        path = orbit_path(arrival_orbit)
+        legs = [dataclasses.replace(g, tof_arrival=t, arrival_distance_km=d)
+                for g in legs for t, d in [arrival_time(system, g.segments, arrival_orbit, within_km, path)]]
+    rows = [[k + 1, g.kind, g.dv_mps, g.tof_arrival_days, g.tof_days,
+             None if math.isnan(g.arrival_distance_km) else g.arrival_distance_km, *map(float, g.patch_state),
              None if math.isinf(g.min_altitude_km) else g.min_altitude_km] for k, g in enumerate(legs)]
     best = legs[0]
     head = [f"{args.origin} -> {args.target}: {len(legs)} leg(s) via {how}",
-            f"best: {best.kind}, dv {best.dv_mps:.6g} m/s, time of flight {best.tof_days:.4f} days",
+            f"best: {best.kind}, CR3BP dv {best.dv_mps:.6g} m/s, {_tof_text(best)}",
             f"method: {best.method}"]
     if best.kind in ("arrival", "departure"):
         per = best.details["periapsis"]
         head.append(f"periapsis: altitude {per['altitude_km']:.3f} km, inertial speed "
                     f"{per['speed_inertial_kms']:.4f} km/s, circular {per['speed_circular_kms']:.4f} km/s, "
                     f"inclination {per['inclination_deg']:.3f} deg (to the primaries' orbit plane)")
-        head.append("dv = |v + omega x r| - sqrt(GM/r) at periapsis (tangential burn); time of flight "
-                    "from periapsis to the step-off point on the orbit")
+        head.append("dv = |v + omega x r| - sqrt(GM/r) at periapsis (tangential burn)")
+    head.append("tof_arrival_days: from the leg's start until the trajectory first comes within "
+                "arrival_within_km of the arrival orbit's path (nearest point of the orbit); "
+                "tof_stepoff_days: to the manifold's step-off point on the orbit")
     if args.plot:
         from cr3bp.plotting import save
         from cr3bp.plotting.manifolds import plot_connection
         common.progress(args, "drawing the connection...")
         ax = plot_connection(legs[:3], tubes)
         save(ax.figure, args.plot, f"{args.origin} -> {args.target}; best dv {best.dv_mps:.4g} m/s, "
-             f"time of flight {best.tof_days:.3f} d; rotating frame, LU")
+             f"{_tof_text(best)}; rotating frame, LU")
         common.progress(args, f"wrote {args.plot}")
     table = "\n".join(head) + "\n\n" + common.format_table(HEADERS, rows)
     common.emit(args, payload={"from": args.origin, "to": args.target, "legs": [g.to_dict() for g in legs]},

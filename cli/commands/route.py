@@ -148,15 +148,17 @@ def run(args):
         import sys
         sys.stdout.write(common.json_text(payload))
         return 0
-    rows = [[i + 1, " -> ".join(name[n] for n in r.nodes), r.n_legs, r.dv_total_mps, r.tof_days]
-            for i, r in enumerate(routes)]
-    text = common.format_table(["rank", "route", "legs", "dv_total_mps", "tof_days"], rows,
-                               title=f"{system.name}: best routes from {src.name} to {dst.name} by "
-                                     f"{'total Δv' if args.objective == 'dv' else 'time of flight'}")
+    rows = [[i + 1, " -> ".join(name[n] for n in r.nodes), r.n_legs, r.dv_total_mps, r.tof_arrival_days,
+             r.tof_days] for i, r in enumerate(routes)]
+    text = common.format_table(["rank", "route", "legs", "dv_total_mps", "tof_arrival_days", "tof_stepoff_days"],
+                               rows, title=f"{system.name}: best routes from {src.name} to {dst.name} by "
+                                           f"{'total Δv' if args.objective == 'dv' else 'time of flight'}")
+    text += tof_note(routes[0]) + "\n"
     if front:
         text += "\n" + common.format_table(
-            ["route", "dv_total_mps", "tof_days"],
-            [[" -> ".join(name[n] for n in r.nodes), r.dv_total_mps, r.tof_days] for r in front],
+            ["route", "dv_total_mps", "tof_arrival_days", "tof_stepoff_days"],
+            [[" -> ".join(name[n] for n in r.nodes), r.dv_total_mps, r.tof_arrival_days, r.tof_days]
+             for r in front],
             title="Pareto set (no other route is better on both Δv and time of flight)")
     if stitched is not None:
         text += "\n" + common.format_table(
@@ -175,6 +177,16 @@ def run(args):
     import sys
     sys.stdout.write(text + common.caution_footer())
     return 0
+
+
+def tof_note(route) -> str:
+    """What the two time-of-flight columns mean (CR3BP times)."""
+    d = route.arrival_distance_km
+    where = (f"first comes within {d:g} km of the final orbit's path (nearest point of the orbit)"
+             if d is not None else "reaches its end (the route does not end on a periodic orbit)")
+    return (f"tof_arrival_days: CR3BP time from departure until the route {where}; tof_stepoff_days: to "
+            "the manifold's step-off point on the final orbit. Caps (--max-tof) and ranking by time use "
+            "tof_stepoff_days.")
 
 
 def _explain(message, nodes, result, src, dst):
