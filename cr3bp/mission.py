@@ -80,10 +80,17 @@ def prepare(path) -> Plan:
     from . import system as make_system
     from .timescales import parse_iso
     path = Path(path)
-    data = scenario_schema.load(path)
-    lines = scenario_schema.line_index(scenario_schema.read_text(path))
+    file = scenario_schema.path_text(path)
+    text = scenario_schema.read_text(path)
+    data = scenario_schema.parse_toml(text, file)
+    lines = scenario_schema.line_index(text)
+    found = scenario_schema.check(data, lines, file, text=text)
+    if found:
+        # the meaning of every value that could be read is checked too: all problems at once
+        data = scenario_schema.well_typed(data, found)
+        if data is None:
+            raise ScenarioError(found)
     problems = []
-    file = str(path)
 
     def add(key, exc):
         k = key
@@ -94,13 +101,19 @@ def prepare(path) -> Plan:
     sysd = data["system"]
     system = None
     try:
-        system = make_system(sysd["name"]) if "name" in sysd else make_system(mu=sysd["mu"])
+        if "name" in sysd or "mu" in sysd:
+            system = make_system(sysd["name"]) if "name" in sysd else make_system(mu=sysd["mu"])
     except InputError as e:
         add("system.name" if "name" in sysd else "system.mu", e)
     try:
         parse_iso(sysd["epoch"])
     except InputError as e:
         add("system.epoch", e)
+    if "issued" in data["mission"]:
+        try:
+            parse_iso(data["mission"]["issued"])
+        except InputError as e:
+            add("mission.issued", e)
     specs = {}
     for name, entry in data["orbits"].items():
         try:
@@ -136,9 +149,14 @@ def prepare(path) -> Plan:
         add("system", InputError("exports and transfers need a system with dimensional units"))
     _check_values(data, system, add)
     _check_files(data, add)
-    if problems:
+    if found or problems:
+        known = [p.key for p in found]
+
+        def said(key):              # a problem of this key (or of its table) is reported already
+            return any(key == k or key.startswith(k + ".") or key.startswith(k + "[") for k in known)
+        problems = list(found) + [p for p in problems if not said(p.key)]
         raise ScenarioError(sorted(problems, key=lambda p: (p.line, p.key)))
-    sha = hashlib.sha256(scenario_schema.read_text(path).encode("utf-8")).hexdigest()
+    sha = hashlib.sha256(text.encode("utf-8")).hexdigest()
     return Plan(path, data, system, sysd["epoch"], specs, sha)
 
 
@@ -209,6 +227,7 @@ def _check_values(data, system, add):
     if not exports or system is None or not system.dimensional:
         return
     orbit_names = set(data["orbits"])
+    transfer_names = {t["name"] for t in transfers}
     epoch = data["system"]["epoch"]
     epoch_ok = True
     for i, ex in enumerate(exports):
@@ -240,6 +259,8 @@ def _check_values(data, system, add):
             if isinstance(ex.get("step", "10min"), str) else None
         if "span" in ex:
             if ex["object"] not in orbit_names:
+                if ex["object"] not in transfer_names:
+                    continue                  # an unknown object: said above
                 add(f"{key}.span", InputError(f"'{shown(ex['span'])}': a transfer export covers the whole "
                                               "transfer; 'span' goes with orbit exports only"))
                 continue
@@ -603,7 +624,7 @@ def check_spans(plan, orbits) -> None:
         k = key
         while k and k not in lines:
             k = k.rpartition(".")[0] if "." in k else ""
-        problems.append(Problem(str(plan.path), lines.get(k, 1), key, str(exc)))
+        problems.append(Problem(scenario_schema.path_text(plan.path), lines.get(k, 1), key, str(exc)))
 
     system = plan.system
     for i, ex in enumerate(plan.data.get("exports", [])):

@@ -108,6 +108,9 @@ class Problem:
     line: int
     key: str
     message: str
+    #: "type" (a key, type or format problem: the value cannot be read) or "meaning" (a
+    #: readable value that is not allowed here)
+    kind: str = "type"
 
     def __str__(self):
         return f"{self.file}:{self.line}: {self.key}: {self.message}"
@@ -159,22 +162,86 @@ def _with_list_index(name, counts):
     return name
 
 
+_PART = re.compile(r"([^.\[\]]+)|\[(\d+)\]")
+
+
+def key_parts(key: str) -> list:
+    """``"exports[1].step"`` -> ``["exports", 1, "step"]``."""
+    return [int(i) if i else k for k, i in _PART.findall(key)]
+
+
+def _schema_entry(parts):
+    """(type, required) of the key at ``parts`` in the scenario schema, or None if unknown."""
+    if not parts or parts[0] not in SCHEMA:
+        return None
+    typ, req, sub = SCHEMA[parts[0]]
+    rest = parts[1:]
+    if typ == "table-of-tables":
+        rest = rest[1:]
+    elif typ == "list-of-tables":
+        if not rest or not isinstance(rest[0], int):
+            return (typ, req) if not rest else None
+        rest = rest[1:]
+    if not rest:
+        return (typ, req)
+    if len(rest) == 2 and rest[0] == "checks":
+        e = CHECK_KEYS.get(rest[1])
+        return None if e is None else (e[0], e[1])
+    e = sub.get(rest[0]) if isinstance(sub, dict) and len(rest) == 1 else None
+    return None if e is None else (e[0], e[1])
+
+
+def well_typed(data: dict, problems: list):
+    """A copy of ``data`` without the optional values the schema refused (so the meaning of
+    everything else can still be checked and reported at once), or None when a refused value
+    is one that cannot be done without (a required key, a whole section)."""
+    import copy
+    d = copy.deepcopy(data)
+    for p in problems:
+        if p.kind == "meaning":
+            continue
+        parts = key_parts(p.key)
+        if not parts or p.message == "missing required key":
+            return None
+        c = d
+        try:
+            for part in parts[:-1]:
+                c = c[part]
+        except (KeyError, IndexError, TypeError):
+            return None
+        leaf = parts[-1]
+        entry = _schema_entry(parts)
+        if entry is not None and (entry[1] or entry[0] in ("table", "table-of-tables", "list-of-tables")):
+            return None
+        if not isinstance(c, dict) or leaf not in c:
+            return None
+        del c[leaf]
+    return d
+
+
 def load(path) -> dict:
     """Read and check a scenario file; raises ScenarioError listing every problem."""
     path = Path(path)
     text = read_text(path)
-    data = parse_toml(text, str(path))
-    problems = check(data, line_index(text), str(path), text=text)
+    data = parse_toml(text, path_text(path))
+    problems = check(data, line_index(text), path_text(path), text=text)
     if problems:
         raise ScenarioError(problems)
     return data
+
+
+def path_text(path) -> str:
+    """A file path as it goes into a FILE:LINE message: whole, with any control character
+    escaped (so a message stays one line)."""
+    t = str(path)
+    return t if t.isprintable() else t.encode("unicode_escape").decode("ascii")
 
 
 def read_text(path, what: str = "scenario") -> str:
     """The text of a scenario-like file: at most MAX_SCENARIO_BYTES, UTF-8, no NUL bytes;
     otherwise one InputError line naming the file."""
     path = Path(path)
-    where = shown(path)
+    where = path_text(path)
     try:
         if path.is_dir():
             raise InputError(f"{what} {where} is a folder, not a file")
@@ -331,7 +398,7 @@ def check(data: dict, lines: dict, file: str, schema: dict | None = None,
     check_table(data, SCHEMA, "")
     sysd = data.get("system", {})
     if isinstance(sysd, dict) and ("name" in sysd) == ("mu" in sysd):
-        problems.append(Problem(file, line("system"), "system", "give exactly one of 'name' or 'mu'"))
+        problems.append(Problem(file, line("system"), "system", "give exactly one of 'name' or 'mu'", "meaning"))
     orbits = data.get("orbits", {})
     if isinstance(orbits, dict):
         targets = ("period", "jacobi", "ax", "ay", "az", "perilune", "perigee", "resonance")
@@ -341,12 +408,12 @@ def check(data: dict, lines: dict, file: str, schema: dict | None = None,
                 if len(given) != 1:
                     problems.append(Problem(file, line(f"orbits.{name}"), f"orbits.{name}",
                                             f"give exactly one target among {', '.join(targets)}"
-                                            + (f" (got {', '.join(given)})" if given else "")))
+                                            + (f" (got {', '.join(given)})" if given else ""), "meaning"))
     names_seen: dict = {}
     for name in (orbits if isinstance(orbits, dict) else {}):
         if not NAME_PATTERN.fullmatch(name):
             problems.append(Problem(file, line(f"orbits.{name}"), f"orbits.{shown(name)}",
-                                    f"orbit name '{shown(name)}' is not allowed in file names; use {NAME_RULE}"))
+                                    f"orbit name '{shown(name)}' is not allowed in file names; use {NAME_RULE}", "meaning"))
         names_seen[name] = f"orbits.{name}"
     transfers = data.get("transfers", [])
     for i, t in enumerate(transfers if isinstance(transfers, list) else []):
@@ -356,9 +423,9 @@ def check(data: dict, lines: dict, file: str, schema: dict | None = None,
         key = f"transfers[{i}].name"
         if not NAME_PATTERN.fullmatch(name):
             problems.append(Problem(file, line(key), key,
-                                    f"transfer name '{shown(name)}' is not allowed in file names; use {NAME_RULE}"))
+                                    f"transfer name '{shown(name)}' is not allowed in file names; use {NAME_RULE}", "meaning"))
         elif name in names_seen:
             problems.append(Problem(file, line(key), key, f"name '{name}' is already used by "
-                                    f"{names_seen[name]}; orbits and transfers need distinct names"))
+                                    f"{names_seen[name]}; orbits and transfers need distinct names", "meaning"))
         names_seen.setdefault(name, key.removesuffix(".name"))
     return sorted(problems, key=lambda p: (p.line, p.key))
