@@ -163,7 +163,7 @@ def prepare(path) -> Plan:
 #: Files every run writes, whatever the scenario.
 FIXED_FILES = ("orbits.json", "orbits.csv", "checks.csv", "checks.json", "report.html", "manifest.json")
 #: Whole-number settings and their allowed ranges.
-INT_RANGES = {"occurrence": (1, 1000), "best": (1, 100), "family_members": (2, 100_000),
+INT_RANGES = {"best": (1, 100), "family_members": (2, 100_000),
               "tube_points": (2, 100_000), "workers": (1, 1024)}
 #: Quantity keys of orbits, checks, transfers and exports: (dimension, least allowed, rule).
 QUANTITY_RULES = {
@@ -209,7 +209,6 @@ def _check_values(data, system, add):
         if isinstance(mx, (int, float)) and not mx > 0:
             add(f"orbits.{name}.checks.max_stability_index",
                 InputError(f"{mx!r} is not allowed; a positive number is needed (|index| is at least 1)"))
-        _int_range(f"orbits.{name}.occurrence", entry.get("occurrence"), add)
     for k, v in (data.get("settings") or {}).items():
         _int_range(f"settings.{k}", v, add)
     transfers = data.get("transfers", [])
