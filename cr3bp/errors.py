@@ -8,6 +8,7 @@ exception                 status  meaning
 ``InputError``            2       a value the user gave is not allowed
 ``NoSolutionError``       3       the request is well formed but has no answer
 ``ConvergenceError``      4       an iteration did not converge
+``OutputError``           1       a result could not be written (disk full, I/O)
 ========================  ======  =============================================
 
 Messages are one line and name the offending value and what is allowed.
@@ -80,3 +81,10 @@ class ConvergenceError(LibrateError):
         self.iterations = iterations
         self.residuals = list(residuals)
         self.last = last
+
+
+class OutputError(LibrateError):
+    """A result could not be written part-way through (disk full, an I/O error); what was
+    being written is removed, so no partial output is left."""
+
+    exit_status = 1

@@ -14,9 +14,12 @@ recomputed, and every file is written atomically.
 
 from __future__ import annotations
 
+import errno
 import hashlib
 import json
 import os
+import shutil
+import tempfile
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -77,27 +80,40 @@ def prepare(path) -> Plan:
     from . import system as make_system
     from .timescales import parse_iso
     path = Path(path)
-    data = scenario_schema.load(path)
-    lines = scenario_schema.line_index(path.read_text(encoding="utf-8"))
+    file = scenario_schema.path_text(path)
+    text = scenario_schema.read_text(path)
+    data = scenario_schema.parse_toml(text, file)
+    lines = scenario_schema.line_index(text)
+    found = scenario_schema.check(data, lines, file, text=text)
+    if found:
+        # the meaning of every value that could be read is checked too: all problems at once
+        data = scenario_schema.well_typed(data, found)
+        if data is None:
+            raise ScenarioError(found)
     problems = []
-    file = str(path)
 
     def add(key, exc):
         k = key
         while k and k not in lines:
-            k = k.rpartition(".")[0]
+            k = k.rpartition(".")[0] if "." in k else k.partition("[")[0] if "[" in k else ""
         problems.append(Problem(file, lines.get(k, 1), key, str(exc)))
 
     sysd = data["system"]
     system = None
     try:
-        system = make_system(sysd["name"]) if "name" in sysd else make_system(mu=sysd["mu"])
+        if "name" in sysd or "mu" in sysd:
+            system = make_system(sysd["name"]) if "name" in sysd else make_system(mu=sysd["mu"])
     except InputError as e:
         add("system.name" if "name" in sysd else "system.mu", e)
     try:
         parse_iso(sysd["epoch"])
     except InputError as e:
         add("system.epoch", e)
+    if "issued" in data["mission"]:
+        try:
+            parse_iso(data["mission"]["issued"])
+        except InputError as e:
+            add("mission.issued", e)
     specs = {}
     for name, entry in data["orbits"].items():
         try:
@@ -135,10 +151,245 @@ def prepare(path) -> Plan:
             add("plots.formats", InputError(f"image format '{f}' is not one of png, svg"))
     if system is not None and not system.dimensional and (data.get("exports") or transfers):
         add("system", InputError("exports and transfers need a system with dimensional units"))
-    if problems:
+    _check_values(data, system, add)
+    _check_files(data, add)
+    if found or problems:
+        known = [p.key for p in found]
+
+        def said(key):              # a problem of this key (or of its table) is reported already
+            return any(key == k or key.startswith(k + ".") or key.startswith(k + "[") for k in known)
+        problems = list(found) + [p for p in problems if not said(p.key)]
         raise ScenarioError(sorted(problems, key=lambda p: (p.line, p.key)))
-    sha = hashlib.sha256(path.read_bytes()).hexdigest()
+    sha = hashlib.sha256(text.encode("utf-8")).hexdigest()
     return Plan(path, data, system, sysd["epoch"], specs, sha)
+
+
+#: Files every run writes, whatever the scenario.
+FIXED_FILES = ("orbits.json", "orbits.csv", "checks.csv", "checks.json", "report.html", "manifest.json")
+#: Whole-number settings and their allowed ranges.
+INT_RANGES = {"best": (1, 100), "family_members": (2, 100_000),
+              "tube_points": (2, 100_000), "workers": (1, 1024)}
+#: Quantity keys of orbits, checks, transfers and exports: (dimension, least allowed, rule).
+QUANTITY_RULES = {
+    "period": ("time", "positive"), "ax": ("length", "positive"), "ay": ("length", "positive"),
+    "az": ("length", "positive"), "perilune": ("length", "positive"), "perigee": ("length", "positive"),
+    "min_altitude_smaller": ("length", "zero or more"), "min_altitude_larger": ("length", "zero or more"),
+    "max_period": ("time", "positive"), "max_dv": ("velocity", "positive"), "max_tof": ("time", "positive"),
+    "step": ("time", "positive"),
+}
+EXAMPLES = {"length": "'12000km'", "time": "'6.5d'", "velocity": "'1500m/s'"}
+
+
+def _quantity(key, text, dimension, rule, system, add):
+    """The value of a quantity key in the system's units (TU, LU, ...) or None (problem added)."""
+    from . import units
+    try:
+        q = units.parse(text, dimension)
+        value = q.nondim(system) if system is not None and system.dimensional else q.value
+    except InputError as e:
+        add(key, e)
+        return None
+    ok = q.value > 0 if rule == "positive" else q.value >= 0
+    if not ok:
+        add(key, InputError(f"'{text}' is not allowed; a {dimension} that is {rule} is needed, "
+                            f"e.g. {EXAMPLES[dimension]}"))
+        return None
+    return value
+
+
+def _check_values(data, system, add):
+    """The meaning of each value: signs, ranges, units of each key; parking orbits, caps and
+    export options as the run will read them. Every problem goes to ``add``."""
+    from . import frames
+    from .errors import shown
+    for name, entry in data["orbits"].items():
+        for k, v in entry.items():
+            if k in QUANTITY_RULES and isinstance(v, str):
+                _quantity(f"orbits.{name}.{k}", v, *QUANTITY_RULES[k], system, add)
+        for k, v in (entry.get("checks") or {}).items():
+            if k in QUANTITY_RULES and isinstance(v, str):
+                _quantity(f"orbits.{name}.checks.{k}", v, *QUANTITY_RULES[k], system, add)
+        mx = (entry.get("checks") or {}).get("max_stability_index")
+        if isinstance(mx, (int, float)) and not mx > 0:
+            add(f"orbits.{name}.checks.max_stability_index",
+                InputError(f"{mx!r} is not allowed; a positive number is needed (|index| is at least 1)"))
+    for k, v in (data.get("settings") or {}).items():
+        _int_range(f"settings.{k}", v, add)
+    transfers = data.get("transfers", [])
+    for i, t in enumerate(transfers):
+        for k in ("max_dv", "max_tof"):
+            if k in t:
+                _quantity(f"transfers[{i}].{k}", t[k], *QUANTITY_RULES[k], system, add)
+        _int_range(f"transfers[{i}].best", t.get("best"), add)
+        if t["from"] == t["to"]:
+            add(f"transfers[{i}].to", InputError(f"'{shown(t['to'])}' is also where the transfer starts"))
+        for k in ("from", "to"):
+            if t[k].startswith("parking "):
+                _check_parking(f"transfers[{i}].{k}", t[k], system, add)
+    exports = data.get("exports", [])
+    if not exports or system is None or not system.dimensional:
+        return
+    orbit_names = set(data["orbits"])
+    transfer_names = {t["name"] for t in transfers}
+    epoch = data["system"]["epoch"]
+    epoch_ok = True
+    for i, ex in enumerate(exports):
+        key = f"exports[{i}]"
+        ok = True
+        try:
+            frames.resolve_center(system, ex.get("center", "primary"))
+        except InputError as e:
+            add(f"{key}.center", e)
+            ok = False
+        try:
+            frames.time_system(ex.get("time_system", "tdb"))
+        except InputError as e:
+            add(f"{key}.time_system", e)
+            ok = False
+        if ok and epoch_ok:
+            try:
+                frames.frame(system, epoch, anchor=ex.get("anchor", "ephemeris"),
+                             axes=ex.get("frame", "j2000-equator"), center=ex.get("center", "primary"),
+                             time_scale=ex.get("time_system", "tdb").upper())
+            except InputError as e:
+                if "epoch" in str(e).lower() or "ephemeris" in str(e).lower():
+                    add("system.epoch", InputError(f"'{shown(epoch)}' cannot anchor the export of "
+                                                   f"{key}: {e}"))
+                    epoch_ok = False
+                else:
+                    add(key, e)
+        step = _quantity(f"{key}.step", ex.get("step", "10min"), "time", "positive", system, add) \
+            if isinstance(ex.get("step", "10min"), str) else None
+        if "span" in ex:
+            if ex["object"] not in orbit_names:
+                if ex["object"] not in transfer_names:
+                    continue                  # an unknown object: said above
+                add(f"{key}.span", InputError(f"'{shown(ex['span'])}': a transfer export covers the whole "
+                                              "transfer; 'span' goes with orbit exports only"))
+                continue
+            span = _span(f"{key}.span", ex["span"], system, add)
+            if span is not None and step is not None and span is not True:
+                _samples(key, span, step, ex, add)
+
+
+def _span(key, text, system, add):
+    """A span in TU, ``True`` for a count of periods (checked once the period is known), or None."""
+    from .errors import shown
+    s = text.strip()
+    low = s.lower()
+    for suffix in ("periods", "period"):
+        if low.endswith(suffix):
+            num = s[: -len(suffix)].strip()
+            try:
+                k = float(num) if num else 1.0
+            except ValueError:
+                add(key, InputError(f"'{shown(text)}' is not '<number>periods' or a time such as '20d'"))
+                return None
+            import math
+            if not (math.isfinite(k) and k > 0):
+                add(key, InputError(f"'{shown(text)}' is not allowed; a positive number of periods "
+                                    "(e.g. '3periods') or a positive time is needed"))
+                return None
+            return True
+    return _quantity(key, text, "time", "positive", system, add)
+
+
+def _samples(key, span_tu, step_tu, ex, add):
+    from .export import MAX_SAMPLES
+    from .errors import shown
+    if step_tu > span_tu * (1 + 1e-12):
+        add(f"{key}.step", InputError(f"'{shown(ex.get('step', '10min'))}' is longer than the span "
+                                      f"'{shown(ex['span'])}'; give a shorter step"))
+        return
+    n = span_tu / step_tu + 1
+    if n > MAX_SAMPLES:
+        add(f"{key}.step", InputError(f"'{shown(ex.get('step', '10min'))}' over '{shown(ex['span'])}' gives "
+                                      f"{n:.3g} samples, more than {MAX_SAMPLES}; give a larger step"))
+
+
+def _int_range(key, v, add):
+    name = key.rpartition(".")[2]
+    if name not in INT_RANGES or not isinstance(v, int) or isinstance(v, bool):
+        return
+    lo, hi = INT_RANGES[name]
+    if not lo <= v <= hi:
+        add(key, InputError(f"{v} is outside the allowed range {lo}..{hi}"))
+
+
+def _check_parking(key, text, system, add):
+    """'parking BODY ALTITUDE': three words, a primary of the system, a positive length."""
+    from .errors import shown
+    parts = text.split()
+    if len(parts) != 3:
+        add(key, InputError(f"'{shown(text)}' must read 'parking BODY ALTITUDE', e.g. 'parking earth 200km'"))
+        return
+    if system is not None:
+        names = [n.lower() for n in system.names]
+        if parts[1].lower() not in names:
+            add(key, InputError(f"body '{shown(parts[1])}' in '{shown(text)}' is not a primary of "
+                                f"{system.name}; allowed: {', '.join(names)}"))
+    _quantity(key, parts[2], "length", "positive", system, add)
+
+
+def planned_files(data) -> dict:
+    """Every file name a run of ``data`` writes -> the scenario key that makes it."""
+    fmts = [f for f in data.get("plots", {}).get("formats", ["png"]) if f in ("png", "svg")]
+    plots = data.get("plots", {})
+    planned = {}
+
+    def plan(name, key):
+        planned.setdefault(name, []).append(key)
+
+    for f in FIXED_FILES:
+        plan(f, "(every run)")
+    for name in data.get("orbits", {}):
+        for flag, default, stem in (("orbits", True, "orbit"), ("hill_regions", False, "hill-region"),
+                                    ("families", False, "family")):
+            if plots.get(flag, default):
+                for f in fmts:
+                    plan(f"{stem}-{name}.{f}", f"orbits.{name}")
+    for i, t in enumerate(data.get("transfers", [])):
+        n = t.get("name")
+        for suffix in (".json", "-trajectory.csv", "-maneuvers.csv"):
+            plan(f"route-{n}{suffix}", f"transfers[{i}].name")
+        if plots.get("corridors", True):
+            for stem in ("corridor", "pareto"):
+                for f in fmts:
+                    plan(f"{stem}-{n}.{f}", f"transfers[{i}].name")
+    transfers = {t.get("name") for t in data.get("transfers", [])}
+    for i, ex in enumerate(data.get("exports", [])):
+        name = export_file_name(ex)
+        key = f"exports[{i}].file" if "file" in ex else f"exports[{i}].object"
+        plan(name, key)
+        if ex.get("format") == "csv" and ex.get("object") in transfers:
+            plan(name.rpartition(".")[0] + ".maneuvers.csv" if "." in name else name + ".maneuvers.csv", key)
+    return planned
+
+
+def export_file_name(ex) -> str:
+    return ex.get("file") or f"{ex['object']}.{ex['format']}"
+
+
+def _check_files(data, add):
+    """Export file names: plain, and no two outputs of one run under one name (case-blind)."""
+    from .errors import shown
+    from .scenario_schema import FILE_PATTERN, FILE_RULE
+    for i, ex in enumerate(data.get("exports", [])):
+        if "file" in ex:
+            f = ex["file"]
+            if not FILE_PATTERN.fullmatch(f) or f.lower().endswith(".part"):
+                add(f"exports[{i}].file", InputError(f"file name '{shown(f)}' is not allowed; use {FILE_RULE} "
+                                                     "(a plain name inside the run folder, not ending in .part)"))
+    seen = {}
+    for name, keys in planned_files(data).items():
+        for key in keys:
+            low = name.lower()
+            if low in seen and seen[low][1] != key:
+                first_name, first_key = seen[low]
+                what = "a file every run writes" if first_key == "(every run)" else f"the file of {first_key}"
+                add(key, InputError(f"output file '{shown(name)}' would overwrite {what} ('{shown(first_name)}'); "
+                                    "give this one another name"))
+            seen.setdefault(low, (name, key))
 
 
 def _sha256(path: Path) -> str:
@@ -234,20 +485,171 @@ def run(plan: Plan, folder, *, catalog=None, workers=None, scheduler=None, progr
     from .catalog import Catalog
     started = time.time()
     folder = Path(folder)
-    if folder.exists() and not folder.is_dir():
-        raise InputError(f"--out {folder} exists and is not a folder")
     catalog = catalog if catalog is not None else Catalog()
-    system = plan.system
-    created = creation_date(plan)
-    formats = plan.data.get("plots", {}).get("formats", ["png"])
-    plots = plan.data.get("plots", {})
+    check_output_folder(folder, plan.path, getattr(catalog, "path", None), planned_files(plan.data))
 
     # ---- orbits -----------------------------------------------------------------------
     # solved before the folder exists: an impossible target is a scenario error (exit 2) and
     # leaves nothing behind
     orbits = solve_orbits(plan, catalog, progress)
-    folder.mkdir(parents=True, exist_ok=True)
-    out = Outputs(folder)
+    check_spans(plan, orbits)
+    # everything is written into a hidden staging folder inside ``folder`` and moved into
+    # place at the end: a failure or a full disk part-way leaves the folder as it was
+    missing = [p for p in (folder, *folder.parents) if not p.exists()]
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+        remove_stale_parts(folder)
+        stage = Path(tempfile.mkdtemp(prefix=f"{STAGE_PREFIX}{os.getpid()}-", suffix=".part", dir=folder))
+    except OSError as e:
+        _remove_created(missing)
+        raise _output_error(e, folder) from None
+    try:
+        out = Outputs(stage)
+        result = _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduced, started)
+        for name in sorted(os.listdir(stage)):
+            os.replace(stage / name, folder / name)
+        stage.rmdir()
+    except BaseException as e:
+        shutil.rmtree(stage, ignore_errors=True)
+        _remove_created(missing)
+        if isinstance(e, OSError):
+            raise _output_error(e, folder) from None
+        raise
+    report, manifest, checks, routes, seconds = result
+    return RunResult(folder, folder / report.name, folder / manifest.name, orbits, checks, routes,
+                     tuple(folder / p.name for p in out.files), seconds)
+
+
+#: Name of the staging folder a run writes into (inside the output folder): prefix PID- ... suffix.
+STAGE_PREFIX = ".librate-run-"
+
+
+def _pid_alive(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except OSError:
+        return True
+    return True
+
+
+def remove_stale_parts(folder: Path) -> list:
+    """Remove what an interrupted (killed) run left in ``folder``: staging folders of runs
+    whose process is gone and temporary ``.NAME.XXXX.part`` files of atomic writes. Returns
+    the names removed."""
+    removed = []
+    for p in Path(folder).iterdir():
+        name = p.name
+        if not (name.startswith(".") and name.endswith(".part")):
+            continue
+        if name.startswith(STAGE_PREFIX) and p.is_dir() and not p.is_symlink():
+            pid = name[len(STAGE_PREFIX):].partition("-")[0]
+            if pid.isdigit() and int(pid) != os.getpid() and _pid_alive(int(pid)):
+                continue                      # another run is writing there now
+            shutil.rmtree(p, ignore_errors=True)
+            removed.append(name)
+        elif p.is_file() or p.is_symlink():
+            p.unlink(missing_ok=True)
+            removed.append(name)
+    return removed
+
+
+def _remove_created(missing):
+    for p in missing:                     # deepest first; only empty folders we made
+        try:
+            p.rmdir()
+        except OSError:
+            break
+
+
+#: OS errors that say the output place is unusable (a bad --out: exit 2); others (disk full,
+#: I/O) are an OutputError (exit 1).
+_USER_ERRNOS = {errno.EACCES, errno.EPERM, errno.EROFS, errno.ENAMETOOLONG, errno.ENOTDIR,
+                errno.EISDIR, errno.EEXIST, errno.ELOOP}
+
+
+def _output_error(e: OSError, folder):
+    from .errors import OutputError, shown
+    what = f"{e.strerror or e}" + (f" ({shown(Path(e.filename).name)})" if e.filename else "")
+    text = f"cannot write the results in {shown(folder)}: {what}; nothing was kept"
+    return InputError(text) if e.errno in _USER_ERRNOS else OutputError(text)
+
+
+def check_output_folder(folder, scenario=None, catalog=None, names=()) -> Path:
+    """Refuse an output folder a run cannot use, before anything is computed or written:
+    empty, equal to the scenario or the catalogue, an existing file, a name longer than the
+    file system allows, under a file, or not writable. ``names``: the files the run writes."""
+    from .errors import shown
+    text = os.fspath(folder) if not isinstance(folder, str) else folder
+    if not text.strip():
+        raise InputError("--out is empty; give the folder for the results, e.g. --out results")
+    if not text.isprintable():
+        raise InputError(f"--out '{shown(text)}' holds a control character; give a plain folder name")
+    folder = Path(text)
+    name_max = 255
+    for part in folder.parts:
+        if len(os.fsencode(part)) > name_max:
+            raise InputError(f"--out '{shown(text)}': the name '{shown(part)}' is {len(os.fsencode(part))} "
+                             f"bytes long; the file system allows at most {name_max}")
+    resolved = folder.resolve()
+    for what, other in (("the scenario file", scenario), ("the catalogue", catalog)):
+        if other and str(other) != ":memory:" and Path(other).resolve() == resolved:
+            raise InputError(f"--out '{shown(text)}' is {what}; give a separate folder for the results")
+    if folder.exists() or folder.is_symlink():
+        if not folder.is_dir():
+            raise InputError(f"--out '{shown(text)}' exists and is not a folder; give a folder "
+                             "(new or existing) for the results")
+        if not os.access(folder, os.W_OK | os.X_OK):
+            raise InputError(f"--out '{shown(text)}' is not writable")
+        for name in names:
+            if (folder / name).is_dir():
+                raise InputError(f"--out '{shown(text)}' holds a folder named '{shown(name)}' where the "
+                                 "run writes that file; move it away or choose another --out")
+    else:
+        anc = resolved.parent
+        while not anc.exists() and anc != anc.parent:
+            anc = anc.parent
+        if not anc.is_dir():
+            raise InputError(f"--out '{shown(text)}' cannot be created: '{shown(anc)}' is a file")
+        if not os.access(anc, os.W_OK | os.X_OK):
+            raise InputError(f"--out '{shown(text)}' cannot be created: '{shown(anc)}' is not writable")
+    return folder
+
+
+def check_spans(plan, orbits) -> None:
+    """Spans counted in periods, now that the periods are known: refused (ScenarioError with
+    FILE:LINE) before anything is written when they hold too many samples."""
+    problems = []
+    lines = scenario_schema.line_index(scenario_schema.read_text(plan.path))
+
+    def add(key, exc):
+        k = key
+        while k and k not in lines:
+            k = k.rpartition(".")[0] if "." in k else ""
+        problems.append(Problem(scenario_schema.path_text(plan.path), lines.get(k, 1), key, str(exc)))
+
+    system = plan.system
+    for i, ex in enumerate(plan.data.get("exports", [])):
+        if ex["object"] in orbits and str(ex.get("span", "")).strip().lower().endswith(("period", "periods")):
+            from . import export, units
+            try:
+                span = export.parse_span(ex["span"], system, float(orbits[ex["object"]].period))
+                step = units.time(ex.get("step", "10min"), system)
+            except InputError as e:
+                add(f"exports[{i}].span", e)
+                continue
+            _samples(f"exports[{i}]", span, step, ex, add)
+    if problems:
+        raise ScenarioError(problems)
+
+
+def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduced, started):
+    """Write every output of the run into ``out`` (the staging folder)."""
+    system = plan.system
+    created = creation_date(plan)
+    formats = plan.data.get("plots", {}).get("formats", ["png"])
+    plots = plan.data.get("plots", {})
     write_text(out.path("orbits.json"), _json({"system": system.to_dict(), "caution": CAUTION,
                                                "orbits": {k: v.to_dict() for k, v in orbits.items()}}))
     write_text(out.path("orbits.csv"), _csv(ORBIT_COLUMNS, [orbit_row(k, v) for k, v in orbits.items()],
@@ -296,7 +698,7 @@ def run(plan: Plan, folder, *, catalog=None, workers=None, scheduler=None, progr
     report = write_report(plan, orbits, checks, routes, exports, figures, out)
     seconds = time.time() - started
     manifest = _manifest(plan, out, seconds)
-    return RunResult(folder, report, manifest, orbits, checks, routes, tuple(out.files), seconds)
+    return report, manifest, checks, routes, seconds
 
 
 def solve_orbits(plan, catalog, progress=None) -> dict:
@@ -305,7 +707,7 @@ def solve_orbits(plan, catalog, progress=None) -> dict:
     from .errors import NoSolutionError
     from .mission_report import places_note
     from .orbits.request import solve_request
-    lines = scenario_schema.line_index(plan.path.read_text(encoding="utf-8"))
+    lines = scenario_schema.line_index(scenario_schema.read_text(plan.path))
     orbits = {}
     for name, spec in plan.orbit_specs.items():
         _say(progress, f"orbit '{name}': {spec.family} {spec.point} {spec.branch} {spec.key}={spec.value}")

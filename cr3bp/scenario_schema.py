@@ -7,12 +7,25 @@ and dotted key, all at once, before anything is computed.
 
 from __future__ import annotations
 
+import math
 import re
 import tomllib
 from dataclasses import dataclass
 from pathlib import Path
 
-from .errors import InputError
+from .errors import InputError, shown
+
+#: Largest scenario file read (a scenario is a few kilobytes; this keeps a hostile file cheap).
+MAX_SCENARIO_BYTES = 1 << 20
+#: Longest text value (mission names, descriptions, requests); names of files are shorter.
+MAX_TEXT_CHARS = 2000
+#: Names that become parts of file names (orbits, transfers): one plain character set, no
+#: separators, no leading dot or dash, so no name can point outside the output folder.
+NAME_PATTERN = re.compile(r"[A-Za-z0-9][A-Za-z0-9_-]{0,63}")
+NAME_RULE = "1 to 64 letters, digits, '-' or '_', starting with a letter or digit"
+#: Export file names: the name characters plus '.', no separators, not hidden.
+FILE_PATTERN = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.-]{0,99}")
+FILE_RULE = "1 to 100 letters, digits, '-', '_' or '.', starting with a letter or digit"
 
 # type names: "str", "float" (int accepted), "int", "bool", "quantity" (str with a unit, e.g. "200km"),
 # "table", "list[str]"; "one-of:a|b|c" for enumerations
@@ -104,6 +117,9 @@ class Problem:
     line: int
     key: str
     message: str
+    #: "type" (a key, type or format problem: the value cannot be read) or "meaning" (a
+    #: readable value that is not allowed here)
+    kind: str = "type"
 
     def __str__(self):
         return f"{self.file}:{self.line}: {self.key}: {self.message}"
@@ -114,9 +130,8 @@ class ScenarioError(InputError):
 
     def __init__(self, problems):
         self.problems = list(problems)
-        first = self.problems[0]
-        more = f" (and {len(self.problems) - 1} more)" if len(self.problems) > 1 else ""
-        super().__init__(str(first) + more)
+        # every problem, one line each (FILE:LINE: key: message), not the first alone
+        super().__init__("\n".join(str(p) for p in self.problems))
 
 
 _HEADER = re.compile(r"^\s*(\[\[?)\s*([^\]]+?)\s*\]\]?\s*(#.*)?$")
@@ -156,29 +171,127 @@ def _with_list_index(name, counts):
     return name
 
 
+_PART = re.compile(r"([^.\[\]]+)|\[(\d+)\]")
+
+
+def key_parts(key: str) -> list:
+    """``"exports[1].step"`` -> ``["exports", 1, "step"]``."""
+    return [int(i) if i else k for k, i in _PART.findall(key)]
+
+
+def _schema_entry(parts):
+    """(type, required) of the key at ``parts`` in the scenario schema, or None if unknown."""
+    if not parts or parts[0] not in SCHEMA:
+        return None
+    typ, req, sub = SCHEMA[parts[0]]
+    rest = parts[1:]
+    if typ == "table-of-tables":
+        rest = rest[1:]
+    elif typ == "list-of-tables":
+        if not rest or not isinstance(rest[0], int):
+            return (typ, req) if not rest else None
+        rest = rest[1:]
+    if not rest:
+        return (typ, req)
+    if len(rest) == 2 and rest[0] == "checks":
+        e = CHECK_KEYS.get(rest[1])
+        return None if e is None else (e[0], e[1])
+    e = sub.get(rest[0]) if isinstance(sub, dict) and len(rest) == 1 else None
+    return None if e is None else (e[0], e[1])
+
+
+def well_typed(data: dict, problems: list):
+    """A copy of ``data`` without the optional values the schema refused (so the meaning of
+    everything else can still be checked and reported at once), or None when a refused value
+    is one that cannot be done without (a required key, a whole section)."""
+    import copy
+    d = copy.deepcopy(data)
+    for p in problems:
+        if p.kind == "meaning":
+            continue
+        parts = key_parts(p.key)
+        if not parts or p.message == "missing required key":
+            return None
+        c = d
+        try:
+            for part in parts[:-1]:
+                c = c[part]
+        except (KeyError, IndexError, TypeError):
+            return None
+        leaf = parts[-1]
+        entry = _schema_entry(parts)
+        if entry is not None and (entry[1] or entry[0] in ("table", "table-of-tables", "list-of-tables")):
+            return None
+        if not isinstance(c, dict) or leaf not in c:
+            return None
+        del c[leaf]
+    return d
+
+
 def load(path) -> dict:
     """Read and check a scenario file; raises ScenarioError listing every problem."""
     path = Path(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except OSError as e:
-        raise InputError(f"cannot read scenario {path}: {e.strerror}") from None
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as e:
-        m = re.search(r"line (\d+)", str(e))
-        raise ScenarioError([Problem(str(path), int(m.group(1)) if m else 0, "(syntax)", str(e))]) from None
-    problems = check(data, line_index(text), str(path))
+    text = read_text(path)
+    data = parse_toml(text, path_text(path))
+    problems = check(data, line_index(text), path_text(path), text=text)
     if problems:
         raise ScenarioError(problems)
     return data
 
 
-def check(data: dict, lines: dict, file: str, schema: dict | None = None) -> list[Problem]:
+def path_text(path) -> str:
+    """A file path as it goes into a FILE:LINE message: whole, with any control character
+    escaped (so a message stays one line)."""
+    t = str(path)
+    return t if t.isprintable() else t.encode("unicode_escape").decode("ascii")
+
+
+def read_text(path, what: str = "scenario") -> str:
+    """The text of a scenario-like file: at most MAX_SCENARIO_BYTES, UTF-8, no NUL bytes;
+    otherwise one InputError line naming the file."""
+    path = Path(path)
+    where = path_text(path)
+    try:
+        if path.is_dir():
+            raise InputError(f"{what} {where} is a folder, not a file")
+        with open(path, "rb") as f:
+            raw = f.read(MAX_SCENARIO_BYTES + 1)
+    except OSError as e:
+        raise InputError(f"cannot read {what} {where}: {e.strerror or e}") from None
+    if len(raw) > MAX_SCENARIO_BYTES:
+        raise InputError(f"{where}:1: the {what} is larger than {MAX_SCENARIO_BYTES // 1024} KiB; "
+                         "a scenario is a short TOML text file")
+    if b"\0" in raw:
+        line = raw[:raw.index(b"\0")].count(b"\n") + 1
+        raise InputError(f"{where}:{line}: the {what} is not a text file (it holds NUL bytes); "
+                         "expected TOML text")
+    try:
+        return raw.decode("utf-8")
+    except UnicodeDecodeError as e:
+        line = raw[:e.start].count(b"\n") + 1
+        raise InputError(f"{where}:{line}: byte 0x{raw[e.start]:02x} is not UTF-8 text; "
+                         f"save the {what} as UTF-8 TOML") from None
+
+
+def parse_toml(text: str, file: str) -> dict:
+    """TOML text -> dict; a syntax error or an absurdly nested value is one ScenarioError."""
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as e:
+        m = re.search(r"line (\d+)", str(e))
+        raise ScenarioError([Problem(file, int(m.group(1)) if m else 0, "(syntax)", str(e))]) from None
+    except RecursionError:
+        raise ScenarioError([Problem(file, 1, "(syntax)", "values nested too deeply to be a scenario "
+                                     "(arrays or tables inside each other hundreds of levels deep)")]) from None
+
+
+def check(data: dict, lines: dict, file: str, schema: dict | None = None,
+          text: str | None = None) -> list[Problem]:
     """Every problem of ``data`` against ``schema`` (default: the scenario schema, with its
     cross-key rules). Other file formats (e.g. the node lists of :mod:`cr3bp.nodes`) pass
     their own schema and get the key, type and line checks only."""
     problems: list[Problem] = []
+    text_lines = text.splitlines() if text is not None else None
 
     def line(key):
         while key:
@@ -226,9 +339,14 @@ def check(data: dict, lines: dict, file: str, schema: dict | None = None) -> lis
         elif typ == S:
             if not isinstance(v, str):
                 bad(full, v, "text")
+            else:
+                plain_text(v, full)
         elif typ == F:
             if isinstance(v, bool) or not isinstance(v, (int, float)):
                 bad(full, v, "a number")
+            elif not math.isfinite(v):
+                problems.append(Problem(file, line(full), full,
+                                        f"{written(full, v)} is not a finite number"))
         elif typ == I:
             if isinstance(v, bool) or not isinstance(v, int):
                 bad(full, v, "a whole number")
@@ -239,6 +357,8 @@ def check(data: dict, lines: dict, file: str, schema: dict | None = None) -> lis
             from . import units
             if not isinstance(v, str):
                 return bad(full, v, "text with a unit, e.g. '200km'")
+            if not plain_text(v, full):
+                return
             try:
                 units.parse(v)
             except InputError as e:
@@ -246,6 +366,10 @@ def check(data: dict, lines: dict, file: str, schema: dict | None = None) -> lis
         elif typ == "list[str]":
             if not isinstance(v, list) or not all(isinstance(x, str) for x in v):
                 bad(full, v, "a list of text values")
+            else:
+                for x in v:
+                    if not plain_text(x, full):
+                        break
         elif typ == "list[float]":
             if not isinstance(v, list) or not all(isinstance(x, (int, float)) and not isinstance(x, bool)
                                                   for x in v):
@@ -256,7 +380,27 @@ def check(data: dict, lines: dict, file: str, schema: dict | None = None) -> lis
                 bad(full, v, "one of " + ", ".join(repr(o) for o in options if o))
 
     def bad(full, v, expected):
-        problems.append(Problem(file, line(full), full, f"{v!r} is not {expected}"))
+        problems.append(Problem(file, line(full), full, f"{shown(repr(v))} is not {expected}"))
+
+    def written(full, v):
+        # the value as the user wrote it on its line (TOML reads 1e309 as inf)
+        n = lines.get(full)
+        if n and text_lines and n <= len(text_lines):
+            raw = text_lines[n - 1].partition("=")[2].split("#")[0].strip()
+            if raw:
+                return shown(raw)
+        return shown(repr(v))
+
+    def plain_text(v, full):
+        if len(v) > MAX_TEXT_CHARS:
+            problems.append(Problem(file, line(full), full, f"text of {len(v)} characters "
+                                    f"({shown(v)}); at most {MAX_TEXT_CHARS} are allowed"))
+            return False
+        if not v.isprintable():
+            problems.append(Problem(file, line(full), full, f"'{shown(v)}' holds a control character "
+                                    "(line break, tab, ...); plain one-line text is allowed"))
+            return False
+        return True
 
     if schema is not None:
         check_table(data, schema, "")
@@ -264,7 +408,7 @@ def check(data: dict, lines: dict, file: str, schema: dict | None = None) -> lis
     check_table(data, SCHEMA, "")
     sysd = data.get("system", {})
     if isinstance(sysd, dict) and ("name" in sysd) == ("mu" in sysd):
-        problems.append(Problem(file, line("system"), "system", "give exactly one of 'name' or 'mu'"))
+        problems.append(Problem(file, line("system"), "system", "give exactly one of 'name' or 'mu'", "meaning"))
     orbits = data.get("orbits", {})
     if isinstance(orbits, dict):
         targets = ("period", "jacobi", "ax", "ay", "az", "perilune", "perigee", "resonance")
@@ -274,5 +418,24 @@ def check(data: dict, lines: dict, file: str, schema: dict | None = None) -> lis
                 if len(given) != 1:
                     problems.append(Problem(file, line(f"orbits.{name}"), f"orbits.{name}",
                                             f"give exactly one target among {', '.join(targets)}"
-                                            + (f" (got {', '.join(given)})" if given else "")))
+                                            + (f" (got {', '.join(given)})" if given else ""), "meaning"))
+    names_seen: dict = {}
+    for name in (orbits if isinstance(orbits, dict) else {}):
+        if not NAME_PATTERN.fullmatch(name):
+            problems.append(Problem(file, line(f"orbits.{name}"), f"orbits.{shown(name)}",
+                                    f"orbit name '{shown(name)}' is not allowed in file names; use {NAME_RULE}", "meaning"))
+        names_seen[name] = f"orbits.{name}"
+    transfers = data.get("transfers", [])
+    for i, t in enumerate(transfers if isinstance(transfers, list) else []):
+        name = t.get("name") if isinstance(t, dict) else None
+        if not isinstance(name, str):
+            continue
+        key = f"transfers[{i}].name"
+        if not NAME_PATTERN.fullmatch(name):
+            problems.append(Problem(file, line(key), key,
+                                    f"transfer name '{shown(name)}' is not allowed in file names; use {NAME_RULE}", "meaning"))
+        elif name in names_seen:
+            problems.append(Problem(file, line(key), key, f"name '{name}' is already used by "
+                                    f"{names_seen[name]}; orbits and transfers need distinct names", "meaning"))
+        names_seen.setdefault(name, key.removesuffix(".name"))
     return sorted(problems, key=lambda p: (p.line, p.key))

@@ -178,6 +178,7 @@ def test_killed_run_resumes_without_duplicate_or_lost_rows(tmp_path):
     assert len(after) == len(set(after))                       # no duplicates
     assert set(before) <= set(after)                           # nothing lost
     assert (tmp_path / "out" / "manifest.json").exists()
+    assert not [p.name for p in (tmp_path / "out").iterdir() if p.name.endswith(".part")]
     assert interrupted or before, "the first run neither was interrupted nor catalogued anything"
 
 

@@ -19,13 +19,28 @@ def add_arguments(p):
 
 
 def run(args):
+    """Check (scenario and --out), then run; a scenario with problems prints one line per
+    problem, FILE:LINE: key: message, and exits 2 with nothing written."""
+    from cr3bp.scenario_schema import ScenarioError
+    try:
+        return _run(args)
+    except ScenarioError as e:
+        import sys
+        for p in e.problems:
+            print(f"librate: error: {p}", file=sys.stderr)
+        return e.exit_status
+
+
+def _run(args):
     import time
     from cr3bp import mission
-    from cr3bp.catalog import Catalog
+    from cr3bp.catalog import default_path
     from cr3bp.errors import InputError
     if args.workers is not None and args.workers < 1:
         raise InputError(f"--workers {args.workers} must be at least 1")
     plan = mission.prepare(args.scenario)
+    mission.check_output_folder(args.out, plan.path, args.catalog or default_path(),
+                                mission.planned_files(plan.data))
     common.progress(args, f"scenario {args.scenario}: '{plan.name}', {len(plan.orbit_specs)} orbit(s), "
                           f"{len(plan.data.get('transfers', []))} transfer(s), "
                           f"{len(plan.data.get('exports', []))} export(s)")
@@ -39,6 +54,7 @@ def run(args):
         stage["n"] += 1
         common.progress(args, f"[{time.time() - t0:6.1f} s] {text}")
 
+    from cr3bp.catalog import Catalog
     result = mission.run(plan, args.out, catalog=Catalog(args.catalog) if args.catalog else None,
                          workers=args.workers, scheduler=args.scheduler, progress=say)
     failed = [f"{o}: {c.name}" for o, cs in result.checks.items() for c in cs if not c.passed]
