@@ -60,6 +60,8 @@ BODIES = _series.BODIES
 CENTERS = _series.CENTERS
 FRAMES = _series.FRAMES
 MODELS = ("de421", "series")
+TDB_DIRECT_MAX = 20000        # up to this many epochs TDB - TT is summed directly
+TDB_NODE_DAYS = 0.25          # else interpolated between nodes this far apart
 DEFAULT_MODEL = "de421"
 
 #: How outputs name each model.
@@ -217,7 +219,7 @@ def _evaluate(body, epochs, center, frame, model, velocity: bool) -> np.ndarray:
     center = _choice("center", center, CENTERS)
     frame = _choice("frame", frame, FRAMES)
     ep = _epochs(epochs)
-    jd1, jd2 = (np.atleast_1d(x).ravel() for x in ep.two_part_jd("tdb"))
+    jd1, jd2 = _tdb_jd(ep)
     if body == center:
         out = np.zeros((jd1.size, 6))
     else:
@@ -234,6 +236,36 @@ def _evaluate(body, epochs, center, frame, model, velocity: bool) -> np.ndarray:
     if not velocity:
         out = out[:, :3]
     return out[0] if ep.isscalar else out.reshape(ep.shape + (out.shape[1],))
+
+
+def _tdb_jd(ep: Epoch):
+    """Two-part TDB Julian dates (flat arrays) of the epochs, the whole part exact.
+
+    TDB - TT is the 45-term series of :func:`cr3bp.timescales.tdb_minus_tt`; for many epochs
+    close together (more than :data:`TDB_DIRECT_MAX`, and at least four per node) it is
+    evaluated at nodes every :data:`TDB_NODE_DAYS` days and interpolated by 4-point Lagrange
+    polynomials. Interpolation error at most h^4 max|f^(4)| (9/16) / 24 (the remainder of
+    polynomial interpolation, e.g. Hildebrand, *Introduction to Numerical Analysis*, 2nd ed.,
+    1974, sec. 2.6), f^(4) dominated by the series' monthly term (1.55 us at 77 714 rad per
+    millennium): under 3 ns, against the series' own 0.6 us (tests/test_ephemeris.py: 5 ns).
+    """
+    from .timescales import tdb_minus_tt
+    jd1, jd2 = (np.atleast_1d(np.asarray(x, dtype=float)).ravel() for x in ep.two_part_jd("tt"))
+    n = jd1.size
+    if n > TDB_DIRECT_MAX:
+        days = (jd1 - 2451545.0) + jd2
+        lo = math.floor(float(days.min()) / TDB_NODE_DAYS) - 1
+        n_nodes = math.floor(float(days.max()) / TDB_NODE_DAYS) - lo + 3
+        if 4 * n_nodes <= n:
+            f = tdb_minus_tt(2451545.0, (lo + np.arange(n_nodes)) * TDB_NODE_DAYS)
+            u = days / TDB_NODE_DAYS - lo
+            i = np.floor(u).astype(np.int64)
+            p = u - i
+            q, r, w = p + 1.0, p - 1.0, p - 2.0
+            dt = (p * r * w * (-1.0 / 6.0) * f[i - 1] + q * r * w * 0.5 * f[i]
+                  - q * p * w * 0.5 * f[i + 1] + q * p * r * (1.0 / 6.0) * f[i + 2])
+            return jd1, jd2 + dt / 86400.0
+    return jd1, jd2 + tdb_minus_tt(jd1, jd2) / 86400.0
 
 
 def _check_span(kernel, jd1, jd2, body, center):
