@@ -3,8 +3,8 @@
 Not the default: :mod:`cr3bp.ephemeris` evaluates JPL's DE421 tables and offers these series
 only when asked (``model="series"``), e.g. for epochs outside DE421's span; outputs say which
 model they come from (:func:`cr3bp.ephemeris.describe`). Against DE421 they are off by up to
-23 km (Moon), 16 000 km (Sun about the Earth) and 1.9 million km (Jupiter), 2000-2049
-(measured in tests/test_against_jplephem.py).
+27 km (Moon), 16 500 km (Sun about the Earth) and 1.9 million km (Jupiter), measured every
+66 minutes over 2000-2049 (tests/test_against_jplephem.py shows the gap).
 
 Everything is vectorised over epochs: an :class:`~cr3bp.timescales.Epoch` array of N
 instants gives an (N, 3) array in km (or (N, 6) in km and km/s); a single Epoch gives (3,)
