@@ -12,7 +12,8 @@ Models (the ``model`` keyword; outputs name theirs with :func:`describe`)
     PyPI data package ``skyfield-data``, read and evaluated by our own numpy code
     (:mod:`cr3bp.ephemeris_tables`). Velocities are the exact derivatives of the tables'
     polynomials. Agreement with ``jplephem`` reading the same file: every body within 1 m
-    and 1 mm/s (tests/test_against_jplephem.py; measured: below 1e-6 m). Span: the kernel's
+    and 1 mm/s (tests/test_against_jplephem.py; measured: below 2 mm for Neptune, 0.03 mm
+    for the Moon about the Earth: double-precision rounding). Span: the kernel's
     coverage, **1899-07-29 to 2053-10-09 TDB** (DE421 is documented for 1900-2050); epochs
     outside it raise :class:`~cr3bp.errors.EphemerisSpanError`, never a silent fallback.
 ``"series"``
@@ -31,7 +32,8 @@ not applied: the two are taken as one, as before); ``"j2000-ecliptic"`` is reach
 by a rotation about x by the **IAU 2006 obliquity at J2000, 84381.406 arcsec** (Hilton et
 al. 2006, Celest. Mech. Dyn. Astr. 94, 351).
 
-Time argument: TDB (the tables' argument), from the Epoch's two-part Julian date.
+Time argument: TDB (the tables' argument), from the Epoch's two-part Julian date (TDB - TT
+interpolated between quarter-day nodes for more than 20 000 epochs, see :func:`_tdb_jd`).
 
 Accuracy against pyerfa's analytic models (:data:`ACCURACY`, asserted in
 tests/test_against_pyerfa.py): the differences are those models' published errors, since
