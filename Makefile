@@ -4,7 +4,7 @@ VENV   := .venv
 BIN    := $(VENV)/bin
 STAMP  := $(VENV)/.installed
 
-.PHONY: demo test bench venv kernels clean system-deps
+.PHONY: demo test bench venv kernels clean system-deps leap-seconds
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -20,6 +20,11 @@ venv: $(STAMP)
 # (numba's just-in-time kernels), only slower to start, hence the leading '-'.
 kernels: $(STAMP)
 	-@$(BIN)/python -m cr3bp.integrate build --if-stale
+
+# Copy the IERS leap-second file of the installed astropy-iers-data (a test extra) into
+# data/leap_seconds.txt with its source and expiry; run after upgrading that package.
+leap-seconds: $(STAMP)
+	$(BIN)/python -m cr3bp.data.refresh_leap_seconds
 
 demo: kernels
 	$(BIN)/librate run examples/farlight.toml --out out

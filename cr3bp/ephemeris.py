@@ -1,160 +1,145 @@
-"""Approximate positions and velocities of the Sun, the Moon and the planets, in pure numpy.
+"""Positions and velocities of the Sun, the Moon and the planets: JPL DE421, in numpy.
 
 Everything is vectorised over epochs: an :class:`~cr3bp.timescales.Epoch` array of N
 instants gives an (N, 3) array in km (or (N, 6) in km and km/s); a single Epoch gives (3,)
-or (6,). Import is cheap (no compilation); the tables in ``data/`` are read on first use.
+or (6,). Import is cheap (no compilation, no file read); the kernel is opened on first use.
 
-Models
-------
-* **Planets** (and the Earth-Moon barycentre, EMB): Keplerian orbits from mean elements and
-  their linear rates, E. M. Standish, "Keplerian Elements for Approximate Positions of the
-  Major Planets" (JPL): **Table 1 (valid 1800-2050) inside 1800-2050**
-  (``data/planet_elements.csv``) and **Table 2a/2b (valid 3000 BC-3000 AD) outside it**
-  (``data/planet_elements_long.csv``, with the extra mean-anomaly terms of Jupiter to
-  Pluto), accepted over **1000-3000 AD** only, the span we can check against plan94. The
-  switch at 2051-01-01 jumps by up to the two tables' errors. Kepler's equation is solved
-  by a vectorised Newton iteration. The elements are referred to the J2000 ecliptic and
-  equinox.
-* **Moon** (geocentric): the ELP-2000/82 main terms as truncated in J. Meeus, *Astronomical
-  Algorithms*, 2nd ed. (1998), ch. 47 (Tables 47.A/47.B, 60 + 60 terms plus the additive
-  terms), velocity by analytic differentiation of the same series. The series gives the
-  mean ecliptic and equinox of date; it is rotated to the J2000 ecliptic with the IAU 1976
-  ecliptic precession angles (Lieske et al. 1977, A&A 58, 1; as in Meeus ch. 21, eq. 21.5);
-  the rotation's own rate (up to 3 mm/s in the Moon's velocity) is included.
-* **Earth** from the EMB and the Moon: ``r_earth = r_emb - r_moon / (1 + GM_earth/GM_moon)``
-  with the GMs of ``data/systems.toml``; **Sun** relative to the Earth is ``-r_earth``.
-* **Solar-system barycentre** (SSB): the Sun's offset ``-sum(GM_i r_i) / sum(GM)`` over the
-  eight planet systems and Pluto (GMs in ``data/planet_elements.csv``).
-* **Axes**: ``"j2000-ecliptic"`` is the mean ecliptic and equinox of J2000;
-  ``"j2000-equator"`` is the mean equator and equinox of J2000, reached by a rotation about
-  x by the **IAU 2006 obliquity at J2000, 84381.406 arcsec** (Hilton et al. 2006, Celest.
-  Mech. Dyn. Astr. 94, 351), the value the current IAU precession model uses; the IAU 1976
-  value 84381.448 arcsec would move positions by 0.04 arcsec, far below these models' errors.
-  The J2000 mean equator differs from the ICRS/GCRS axes by 23 mas (frame bias), neglected.
-* **Time argument**: TT (taken for TDB; the difference, under 1.7 ms, moves the Moon by
-  under 2 m and the planets by less).
+Models (the ``model`` keyword; outputs name theirs with :func:`describe`)
+----------------------------------------------------------------------------
+``"de421"`` (default)
+    JPL's planetary and lunar ephemeris DE421 (Folkner, Williams & Boggs, IPN Progress
+    Report 42-178, 2009): its Chebyshev tables as shipped in the kernel ``de421.bsp`` of the
+    PyPI data package ``skyfield-data``, read and evaluated by our own numpy code
+    (:mod:`cr3bp.ephemeris_tables`). Velocities are the exact derivatives of the tables'
+    polynomials. Agreement with ``jplephem`` reading the same file: every body within 1 m
+    and 1 mm/s (tests/test_against_jplephem.py; measured: below 2 mm for Neptune, 0.03 mm
+    for the Moon about the Earth: double-precision rounding). Span: the kernel's
+    coverage, **1899-07-29 to 2053-10-09 TDB** (DE421 is documented for 1900-2050); epochs
+    outside it raise :class:`~cr3bp.errors.EphemerisSpanError`, never a silent fallback.
+``"series"``
+    The analytic series of :mod:`cr3bp.ephemeris_series` (Standish's mean elements, Meeus'
+    lunar series), accepted 1000-3000 AD (Moon 1900-2100): the labelled fallback for epochs
+    outside DE421, km-level for the Moon and up to millions of km for the outer planets.
 
-Accuracy: worst differences from pyerfa measured in tests/test_against_pyerfa.py (bounds
-asserted there; :data:`ACCURACY` holds them):
+Bodies: ``sun``, ``moon``, ``earth``, ``emb`` (Earth-Moon barycentre), ``mercury``,
+``venus``, ``mars``, and ``jupiter``, ``saturn``, ``uranus``, ``neptune`` (for these four:
+the planet system's barycentre, which is what DE421 tabulates); centres: any body or ``ssb``
+(the solar-system barycentre).
 
-=================  =========  ==========  ===========  ========  ===================
-body / center      years      km          arcsec       m/s       reference
-=================  =========  ==========  ===========  ========  ===================
-Moon / Earth       1900-2100  2.1         1.0          0.006     moon98 (same series)
-Sun / Earth        1900-2050  19 000      26           2.5       epv00
-Sun / Earth        2051-2100  30 000      41           4.1       epv00 (Table 2)
-Sun / SSB          1900-2100  2 400       -            0.03      epv00
-**Table 1**        1800-2050
-Mercury / Sun                 6 600       30           6.7       plan94
-Venus / Sun                   14 000      28           4.5       plan94
-EMB / Sun                     18 000      25           3.4       plan94
-Mars / Sun                    104 000     103          12        plan94
-Jupiter / Sun                 1 850 000   514          38        plan94
-Saturn / Sun                  4 900 000   656          41        plan94
-Uranus / Sun                  2 370 000   147          21        plan94
-Neptune / Sun                 1 660 000   66           8         plan94
-**Table 2**        1000-1800, 2051-3000
-Mercury / Sun                 10 800      33           8.1       plan94
-Venus / Sun                   49 000      93           13        plan94
-EMB / Sun                     44 000      61           6.6       plan94
-Mars / Sun                    191 000     182          20        plan94
-Jupiter / Sun                 2 830 000   788          45        plan94
-Saturn / Sun                  10 400 000  1462         66        plan94
-Uranus / Sun                  17 100 000  1262         43        plan94
-Neptune / Sun                 11 700 000  534          13        plan94
-=================  =========  ==========  ===========  ========  ===================
+Axes: ``"j2000-equator"`` is the DE421 kernel's own frame, the ICRF as realised by DE421
+(the mean equator and equinox of J2000 differ from it by the 23 mas frame bias, which is
+not applied: the two are taken as one, as before); ``"j2000-ecliptic"`` is reached from it
+by a rotation about x by the **IAU 2006 obliquity at J2000, 84381.406 arcsec** (Hilton et
+al. 2006, Celest. Mech. Dyn. Astr. 94, 351).
 
-The Moon series is the one moon98 implements (it omits the 0.7 arcsec light-time constant
-that Meeus' mean longitude contains, per its documentation), so against a full
-lunar ephemeris our Moon inherits moon98's documented error: about 20 arcsec and 34 km worst,
-3 arcsec and 6 km rms (1950-2100). The planetary differences are dominated by Standish's
-mean elements: plan94's own worst errors against JPL DE200 over 1800-2100 are 7 arcsec
-(Mercury) to 87 arcsec (Saturn) in longitude, per its documentation, so against a full
-ephemeris add at most that much to the figures above.
+Time argument: TDB (the tables' argument), from the Epoch's two-part Julian date (TDB - TT
+interpolated between quarter-day nodes for more than 20 000 epochs, see :func:`_tdb_jd`).
+
+Accuracy against pyerfa's analytic models (:data:`ACCURACY`, asserted in
+tests/test_against_pyerfa.py): the differences are those models' published errors, since
+DE421 is far closer to the truth than they are (moon98 against ELP/MPP02, epv00 against
+DE405 and plan94 against DE200, per the pyerfa docstrings of each function).
 """
 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
-from functools import lru_cache
-from importlib import resources
 
 import numpy as np
 
-from .errors import ConvergenceError, InputError
+from . import ephemeris_series as _series
+from .errors import EphemerisSpanError, InputError
 from .timescales import Epoch, parse_iso
 
-__all__ = ["BODIES", "CENTERS", "FRAMES", "ACCURACY", "position", "state", "valid_interval",
-           "ecliptic_to_equator_matrix", "OBLIQUITY_J2000_ARCSEC", "AU_KM"]
+__all__ = ["BODIES", "CENTERS", "FRAMES", "MODELS", "ACCURACY", "position", "state", "valid_interval",
+           "describe", "ecliptic_to_equator_matrix", "OBLIQUITY_J2000_ARCSEC", "AU_KM"]
 
-AU_KM = 149597870.7                       # IAU 2012 Resolution B2
-OBLIQUITY_J2000_ARCSEC = 84381.406        # IAU 2006 (Hilton et al. 2006)
-SECONDS_PER_CENTURY = 36525.0 * 86400.0
-DEG = math.pi / 180.0
-ARCSEC = DEG / 3600.0
-KEPLER_TOL_RAD = 1e-13
-KEPLER_MAX_ITER = 30
-CHUNK = 4096                              # epochs per block in the lunar series (fits in cache)
+AU_KM = _series.AU_KM                            # IAU 2012 Resolution B2
+OBLIQUITY_J2000_ARCSEC = _series.OBLIQUITY_J2000_ARCSEC   # IAU 2006 (Hilton et al. 2006)
+ARCSEC = math.pi / 180.0 / 3600.0
 
-#: Bodies whose elements are read; Pluto only enters the barycentre (no outside check of
-#: its own position is available to us, so it is not offered as a body).
-PLANETS = ("mercury", "venus", "emb", "mars", "jupiter", "saturn", "uranus", "neptune", "pluto")
-BODIES = ("sun", "moon", "earth") + PLANETS[:-1]
-CENTERS = BODIES + ("ssb",)           # any body, or the solar-system barycentre
-FRAMES = ("j2000-equator", "j2000-ecliptic")
+BODIES = _series.BODIES
+CENTERS = _series.CENTERS
+FRAMES = _series.FRAMES
+MODELS = ("de421", "series")
+TDB_DIRECT_MAX = 20000        # up to this many epochs TDB - TT is summed directly
+TDB_NODE_DAYS = 0.25          # else interpolated between nodes this far apart
+DEFAULT_MODEL = "de421"
 
-# Validity (TT). Planets: Standish Table 1 within 1800-2050, Table 2 outside it, accepted
-# 1000-3000 AD (the span over which Table 2 is checked against pyerfa's plan94; Standish
-# gives it for 3000 BC - 3000 AD). Moon: the span over which our series is checked against
-# pyerfa's moon98 (itself checked by its authors against ELP/MPP02, 1950-2100).
-# Anything needing both (Earth or Moon about the Sun, the SSB or a planet) gets the overlap.
-TABLE1_SPAN = ("1800-01-01T00:00:00 TT", "2051-01-01T00:00:00 TT")
-PLANET_SPAN = ("1000-01-01T00:00:00 TT", "3000-01-01T00:00:00 TT")
-MOON_SPAN = ("1900-01-01T00:00:00 TT", "2101-01-01T00:00:00 TT")
-
-#: Documented worst-case differences from pyerfa (position km, direction arcsec, velocity
-#: m/s) over the years given; tests/test_against_pyerfa.py asserts each bound. "truth" is the
-#: error against a full ephemeris implied by the reference's own published accuracy (moon98:
-#: worst 18.3 arcsec / 31.7 km / 172 mm/s against ELP/MPP02 over 1950-2100, per its
-#: documentation; plan94: worst 7-87 arcsec against DE200, 1800-2100).
-ACCURACY = {
-    # (body, center, years): dict(reference, km, arcsec, mps)
-    ("moon", "earth", (1900, 2100)): dict(reference="pyerfa moon98", km=2.5, arcsec=1.3, mps=0.01,
-                                          truth="about 34 km, 20 arcsec, 0.2 m/s worst (1950-2100)"),
-    ("sun", "earth", (1900, 2050)): dict(reference="pyerfa epv00", km=22000.0, arcsec=30.0, mps=3.0),
-    ("sun", "earth", (2051, 2100)): dict(reference="pyerfa epv00", km=34000.0, arcsec=46.0, mps=4.6),
-    ("sun", "ssb", (1900, 2100)): dict(reference="pyerfa epv00", km=3000.0, arcsec=None, mps=0.05),
-    # Standish Table 1, 1800-2050
-    ("mercury", "sun", (1800, 2050)): dict(reference="pyerfa plan94", km=8000.0, arcsec=35.0, mps=8.0),
-    ("venus", "sun", (1800, 2050)): dict(reference="pyerfa plan94", km=17000.0, arcsec=33.0, mps=6.0),
-    ("emb", "sun", (1800, 2050)): dict(reference="pyerfa plan94", km=21000.0, arcsec=30.0, mps=4.0),
-    ("mars", "sun", (1800, 2050)): dict(reference="pyerfa plan94", km=125000.0, arcsec=125.0, mps=14.0),
-    ("jupiter", "sun", (1800, 2050)): dict(reference="pyerfa plan94", km=2.2e6, arcsec=620.0, mps=45.0),
-    ("saturn", "sun", (1800, 2050)): dict(reference="pyerfa plan94", km=5.9e6, arcsec=790.0, mps=50.0),
-    ("uranus", "sun", (1800, 2050)): dict(reference="pyerfa plan94", km=2.9e6, arcsec=180.0, mps=25.0),
-    ("neptune", "sun", (1800, 2050)): dict(reference="pyerfa plan94", km=2.0e6, arcsec=80.0, mps=18.0),
-    # Standish Table 2a/2b, 1000-1800 and 2051-3000
-    ("mercury", "sun", (1000, 3000)): dict(reference="pyerfa plan94", km=13000.0, arcsec=40.0, mps=10.0),
-    ("venus", "sun", (1000, 3000)): dict(reference="pyerfa plan94", km=60000.0, arcsec=110.0, mps=16.0),
-    ("emb", "sun", (1000, 3000)): dict(reference="pyerfa plan94", km=54000.0, arcsec=74.0, mps=8.0),
-    ("mars", "sun", (1000, 3000)): dict(reference="pyerfa plan94", km=230000.0, arcsec=220.0, mps=24.0),
-    ("jupiter", "sun", (1000, 3000)): dict(reference="pyerfa plan94", km=3.4e6, arcsec=950.0, mps=54.0),
-    ("saturn", "sun", (1000, 3000)): dict(reference="pyerfa plan94", km=1.25e7, arcsec=1750.0, mps=80.0),
-    ("uranus", "sun", (1000, 3000)): dict(reference="pyerfa plan94", km=2.05e7, arcsec=1520.0, mps=52.0),
-    ("neptune", "sun", (1000, 3000)): dict(reference="pyerfa plan94", km=1.4e7, arcsec=640.0, mps=16.0),
+#: How outputs name each model.
+LABELS = {
+    "de421": "JPL DE421 (Folkner et al. 2009), kernel de421.bsp of the skyfield-data package",
+    "series": _series.LABEL,
 }
+
+#: Bounds on the differences between DE421 and pyerfa's analytic models over 1900-2050
+#: (position km, direction arcsec, velocity m/s); tests/test_against_pyerfa.py asserts each.
+#: Each bound is the model's own published worst error (``published``, quoted from the
+#: pyerfa docstring of moon98, epv00 or plan94) plus 10 %, for the comparison being against
+#: DE421 over 1900-2050 rather than the authors' reference and span. For plan94 the position
+#: bound combines the published worst longitude L, latitude B and radius R errors (against
+#: DE200, 1800-2100) at the planet's aphelion distance (from memory: 0.467, 0.728, 1.017,
+#: 1.666, 5.46, 10.12, 20.1, 30.4 au), the direction bound is hypot(L, B), and the velocity
+#: bound is 2.5 times the published worst radial-rate error (the transverse part is not
+#: published). ``measured`` is the worst difference seen in the test (8001 epochs).
+ACCURACY = {
+    # (body, center, years): dict(reference, km, arcsec, mps, published, measured)
+    ("moon", "earth", (1900, 2050)): dict(
+        reference="pyerfa moon98", km=34.9, arcsec=20.1, mps=0.189,
+        published="moon98 vs ELP/MPP02, 1950-2100: worst 31.7 km, 18.3 arcsec, 172 mm/s",
+        measured="31.7 km, 18.2 arcsec, 0.150 m/s"),
+    ("sun", "earth", (1900, 2050)): dict(
+        reference="pyerfa epv00", km=12.3, arcsec=None, mps=0.0055,
+        published="epv00 vs DE405, 1900-2100: heliocentric Earth worst 11.2 km, 5.0 mm/s",
+        measured="11.2 km, 3.8 mm/s"),
+    ("earth", "ssb", (1900, 2050)): dict(
+        reference="pyerfa epv00", km=14.7, arcsec=None, mps=0.0054,
+        published="epv00 vs DE405, 1900-2100: barycentric Earth worst 13.4 km, 4.9 mm/s",
+        measured="12.8 km, 3.8 mm/s"),
+    ("sun", "ssb", (1900, 2050)): dict(
+        reference="pyerfa epv00 (barycentric minus heliocentric Earth)", km=27.1, arcsec=None,
+        mps=0.0109, published="the sum of the two epv00 worst errors above",
+        measured="5.7 km, 0.3 mm/s"),
+    ("mercury", "sun", (1900, 2050)): dict(reference="pyerfa plan94", km=2690.0, arcsec=7.78, mps=1.75,
+                                           published="L 7, B 1 arcsec, R 500 km, Rdot 0.7 m/s",
+                                           measured="1472 km, 6.5 arcsec, 1.5 m/s"),
+    ("venus", "sun", (1900, 2050)): dict(reference="pyerfa plan94", km=4280.0, arcsec=7.78, mps=2.25,
+                                         published="L 7, B 1 arcsec, R 1100 km, Rdot 0.9 m/s",
+                                         measured="3575 km, 6.8 arcsec, 1.8 m/s"),
+    ("emb", "sun", (1900, 2050)): dict(reference="pyerfa plan94", km=7490.0, arcsec=9.96, mps=2.5,
+                                       published="L 9, B 1 arcsec, R 1300 km, Rdot 1.0 m/s",
+                                       measured="5721 km, 7.8 arcsec, 2.1 m/s"),
+    ("mars", "sun", (1900, 2050)): dict(reference="pyerfa plan94", km=35970.0, arcsec=28.6, mps=6.25,
+                                        published="L 26, B 1 arcsec, R 9000 km, Rdot 2.5 m/s",
+                                        measured="26 848 km, 26.4 arcsec, 4.5 m/s"),
+    ("jupiter", "sun", (1900, 2050)): dict(reference="pyerfa plan94", km=352510.0, arcsec=86.0, mps=20.5,
+                                           published="L 78, B 6 arcsec, R 82 000 km, Rdot 8.2 m/s",
+                                           measured="243 795 km, 66.2 arcsec, 16.3 m/s"),
+    ("saturn", "sun", (1900, 2050)): dict(reference="pyerfa plan94", km=768020.0, arcsec=96.9, mps=61.5,
+                                          published="L 87, B 14 arcsec, R 263 000 km, Rdot 24.6 m/s",
+                                          measured="584 269 km, 87.3 arcsec, 36.5 m/s"),
+    ("uranus", "sun", (1900, 2050)): dict(reference="pyerfa plan94", km=1563050.0, arcsec=94.9, mps=68.5,
+                                          published="L 86, B 7 arcsec, R 661 000 km, Rdot 27.4 m/s",
+                                          measured="1 173 225 km, 86.4 arcsec, 29.1 m/s"),
+    ("neptune", "sun", (1900, 2050)): dict(reference="pyerfa plan94", km=384640.0, arcsec=12.3, mps=53.5,
+                                           published="L 11, B 2 arcsec, R 248 000 km, Rdot 21.4 m/s",
+                                           measured="276 881 km, 10.0 arcsec, 21.7 m/s"),
+}
+
+#: The analytic series' own bounds against pyerfa (1000-3000 AD), kept for the fallback.
+SERIES_ACCURACY = _series.ACCURACY
 
 
 # ---------------------------------------------------------------------------------------
 # Public API
 
 
-def position(body: str, epochs, center: str = "earth", frame: str = "j2000-equator") -> np.ndarray:
+def position(body: str, epochs, center: str = "earth", frame: str = "j2000-equator", *,
+             model: str = DEFAULT_MODEL) -> np.ndarray:
     """Position of ``body`` relative to ``center``, km, in ``frame`` axes.
 
-    Method: Standish's Table 1 / Table 2 mean elements (planets, EMB) and Meeus ch. 47 (Moon), see the
-    module docstring for every model, frame rotation and constant.
+    Method: JPL DE421's Chebyshev tables (module docstring), or with ``model="series"`` the
+    analytic series of :mod:`cr3bp.ephemeris_series`.
 
     Parameters
     ----------
@@ -168,6 +153,8 @@ def position(body: str, epochs, center: str = "earth", frame: str = "j2000-equat
         One of :data:`CENTERS`: any body above, or ``ssb`` (solar-system barycentre).
     frame : str
         ``"j2000-equator"`` (default) or ``"j2000-ecliptic"``.
+    model : str
+        ``"de421"`` (default) or ``"series"``.
 
     Returns
     -------
@@ -177,573 +164,130 @@ def position(body: str, epochs, center: str = "earth", frame: str = "j2000-equat
     Raises
     ------
     InputError
-        Unknown body, center or frame; epochs outside the validity interval (see
-        :func:`valid_interval`).
+        Unknown body, center, frame or model.
+    EphemerisSpanError
+        Epochs outside the model's span (see :func:`valid_interval`); an ``InputError``.
     """
-    return _evaluate(body, epochs, center, frame, False)
+    return _evaluate(body, epochs, center, frame, model, False)
 
 
-def state(body: str, epochs, center: str = "earth", frame: str = "j2000-equator") -> np.ndarray:
+def state(body: str, epochs, center: str = "earth", frame: str = "j2000-equator", *,
+          model: str = DEFAULT_MODEL) -> np.ndarray:
     """Position and velocity of ``body`` relative to ``center``: (N, 6) km and km/s.
 
     Same arguments as :func:`position`. Velocities are exact time derivatives of the
-    positions: analytic differentiation of the lunar series (plus the turning of the
-    ecliptic of date, by a central difference of the precession matrix), and for the
-    planets the derivative of the Keplerian position including the rates of every element.
+    positions (of the tables' Chebyshev polynomials for DE421).
     """
-    return _evaluate(body, epochs, center, frame, True)
+    return _evaluate(body, epochs, center, frame, model, True)
 
 
-def _evaluate(body, epochs, center, frame, _velocity: bool) -> np.ndarray:
+def valid_interval(body: str, center: str = "earth", *, model: str = DEFAULT_MODEL) -> tuple[Epoch, Epoch]:
+    """(first, last) epochs at which :func:`position` accepts ``body`` about ``center``."""
+    model = _choice("model", model, MODELS)
+    if model == "series":
+        return _series.valid_interval(body, center)
+    _choice("body", body, BODIES)
+    _choice("center", center, CENTERS)
+    from . import ephemeris_tables as tables
+    k = tables.kernel()
+    return _tdb_epoch(k.start_s), _tdb_epoch(k.end_s)
+
+
+def describe(model: str = DEFAULT_MODEL) -> dict:
+    """What an output should say about the ephemeris behind it: ``{"model", "label",
+    "span_tdb"}`` (the span as ISO 8601 TDB text; the kernel is opened for DE421)."""
+    model = _choice("model", model, MODELS)
+    lo, hi = valid_interval("moon", "earth", model=model)
+    return {"model": model, "label": LABELS[model],
+            "span_tdb": [lo.to_iso("tdb", 0, designator=False), hi.to_iso("tdb", 0, designator=False)]}
+
+
+def ecliptic_to_equator_matrix() -> np.ndarray:
+    """Rotation taking J2000 ecliptic components to J2000 equator components.
+
+    ``r_eq = M @ r_ecl`` with M a rotation about x by -eps, eps = 84381.406 arcsec (IAU 2006)."""
+    return _series.ecliptic_to_equator_matrix()
+
+
+# ---------------------------------------------------------------------------------------
+
+
+def _evaluate(body, epochs, center, frame, model, velocity: bool) -> np.ndarray:
+    model = _choice("model", model, MODELS)
+    if model == "series":
+        fn = _series.state if velocity else _series.position
+        return fn(body, epochs, center, frame)
     body = _choice("body", body, BODIES)
     center = _choice("center", center, CENTERS)
     frame = _choice("frame", frame, FRAMES)
     ep = _epochs(epochs)
-    scalar = ep.isscalar
-    t = np.atleast_1d(ep.seconds_since_j2000("tt")).ravel() / SECONDS_PER_CENTURY
-    out = _relative(body, center, t, _velocity)
-    if frame == "j2000-equator":   # rotation about x by -eps (ecliptic_to_equator_matrix)
+    jd1, jd2 = _tdb_jd(ep)
+    if body == center:
+        out = np.zeros((jd1.size, 6))
+    else:
+        from . import ephemeris_tables as tables
+        _check_span(tables.kernel(), jd1, jd2, body, center)
+        out = tables.relative(body, center, jd1, jd2, velocity)
+    if frame == "j2000-ecliptic":   # rotation about x by +eps (the transpose of the matrix)
         eps = OBLIQUITY_J2000_ARCSEC * ARCSEC
         c, s = math.cos(eps), math.sin(eps)
-        for k in ((1, 2), (4, 5)) if _velocity else ((1, 2),):
-            y, z = out[:, k[0]].copy(), out[:, k[1]]
-            out[:, k[0]] = c * y - s * z
-            out[:, k[1]] = s * y + c * z
-    if not _velocity:
+        for i, j in ((1, 2), (4, 5)) if velocity else ((1, 2),):
+            y, z = out[:, i].copy(), out[:, j]
+            out[:, i] = c * y + s * z
+            out[:, j] = -s * y + c * z
+    if not velocity:
         out = out[:, :3]
-    return out[0] if scalar else out.reshape(ep.shape + (out.shape[1],))
+    return out[0] if ep.isscalar else out.reshape(ep.shape + (out.shape[1],))
 
 
-def valid_interval(body: str, center: str = "earth") -> tuple[Epoch, Epoch]:
-    """(first, last) epochs at which :func:`position` accepts ``body`` about ``center``."""
-    body = _choice("body", body, BODIES)
-    center = _choice("center", center, CENTERS)
-    pair = {body, center}
-    spans = []
-    if pair & {"moon", "earth"}:
-        spans.append(MOON_SPAN)
-    if not pair <= {"moon", "earth"}:
-        spans.append(PLANET_SPAN)
-    lo = max(parse_iso(sp[0]).jd("tt") for sp in spans)
-    hi = min(parse_iso(sp[1]).jd("tt") for sp in spans)
-    return Epoch.from_jd(lo, 0.0, "tt"), Epoch.from_jd(hi, 0.0, "tt")
+def _tdb_jd(ep: Epoch):
+    """Two-part TDB Julian dates (flat arrays) of the epochs, the whole part exact.
 
-
-def ecliptic_to_equator_matrix() -> np.ndarray:
-    """Rotation taking J2000 ecliptic components to J2000 mean-equator components.
-
-    ``r_eq = M @ r_ecl`` with M a rotation about x by -eps, eps = 84381.406 arcsec (IAU 2006)."""
-    e = OBLIQUITY_J2000_ARCSEC * ARCSEC
-    c, s = math.cos(e), math.sin(e)
-    return np.array([[1.0, 0.0, 0.0], [0.0, c, -s], [0.0, s, c]])
-
-
-# ---------------------------------------------------------------------------------------
-# Composition of bodies and centres (J2000 ecliptic, km, km/s)
-
-
-def _about_sun(name: str, t: np.ndarray, vel: bool) -> np.ndarray:
-    """Heliocentric J2000-ecliptic state (km, km/s) of a body or centre."""
-    n = t.size
-    if name == "sun":
-        return np.zeros((n, 6))
-    if name == "ssb":
-        return _ssb_heliocentric(t, vel)
-    if name in ("earth", "moon"):
-        moon = _moon_geocentric(t, vel)
-        emb = _planet(t, "emb", vel)
-        earth = emb - moon * _moon_fraction()
-        return earth if name == "earth" else earth + moon
-    return _planet(t, name, vel)
-
-
-def _relative_pair_geocentric(body, center, t, vel):
-    moon = _moon_geocentric(t, vel)
-    return moon if body == "moon" else -moon
-
-
-def _relative(body: str, center: str, t: np.ndarray, vel: bool) -> np.ndarray:
-    """State of body about center; the Earth-Moon pair alone skips the planetary theory."""
-    if body == center:
-        return np.zeros((t.size, 6))
-    lo, hi = valid_interval(body, center)
-    _check_span(t, lo, hi, body, center)
-    if {body, center} == {"moon", "earth"}:
-        return _relative_pair_geocentric(body, center, t, vel)
-    return _about_sun(body, t, vel) - _about_sun(center, t, vel)
-
-
-@lru_cache(maxsize=1)
-def _moon_fraction() -> float:
-    """GM_moon / (GM_earth + GM_moon) from data/systems.toml (DE430 GMs, from memory)."""
-    from .systems import body
-    gm_e, gm_m = body("earth").gm_km3_s2, body("moon").gm_km3_s2
-    return gm_m / (gm_e + gm_m)
-
-
-def _ssb_heliocentric(t, vel):
-    """Heliocentric state of the solar-system barycentre: sum(GM_i r_i) / (GM_sun + sum GM_i)."""
-    el = _elements()
-    total = _gm_sun()
-    acc = np.zeros((t.size, 6))
-    for name in PLANETS:
-        gm = el[name]["gm_system_km3_s2"]
-        acc += gm * _planet(t, name, vel)
-        total += gm
-    return acc / total
-
-
-@lru_cache(maxsize=1)
-def _gm_sun() -> float:
-    from .systems import body
-    return body("sun").gm_km3_s2
-
-
-def _check_span(t, lo: Epoch, hi: Epoch, body, center):
-    a = float(lo.seconds_since_j2000("tt")) / SECONDS_PER_CENTURY
-    b = float(hi.seconds_since_j2000("tt")) / SECONDS_PER_CENTURY
-    if t.size and (t.min() < a or t.max() > b):
-        bad = t.min() if t.min() < a else t.max()
-        when = parse_iso("2000-01-01T12:00:00 TT") + bad * SECONDS_PER_CENTURY
-        raise InputError(
-            f"epoch {when.to_iso('tt', 0)} is outside the validity of the {body}-about-{center} "
-            f"ephemeris, {lo.to_iso('tt', 0)} .. {hi.to_iso('tt', 0)}")
-
-
-# ---------------------------------------------------------------------------------------
-# Planets: Standish Table 1 mean elements + Kepler's equation
-
-
-@lru_cache(maxsize=2)
-def _elements(table: str = "planet_elements.csv") -> dict:
-    """Standish's elements: Table 1 (``planet_elements.csv``) or Table 2a/2b
-    (``planet_elements_long.csv``), as {body: {column: value}}; missing b, c, s, f are 0."""
-    text = resources.files("cr3bp.data").joinpath(table).read_text()
-    rows = [ln for ln in text.splitlines() if ln.strip() and not ln.startswith("#")]
-    keys = rows[0].split(",")
-    out = {}
-    for ln in rows[1:]:
-        vals = ln.split(",")
-        el = {"b": 0.0, "c": 0.0, "s": 0.0, "f": 0.0}
-        el.update({k: float(v) for k, v in zip(keys[1:], vals[1:])})
-        out[vals[0]] = el
-    return out
-
-
-@lru_cache(maxsize=1)
-def _table1_centuries() -> tuple[float, float]:
-    return tuple(float(parse_iso(x).seconds_since_j2000("tt")) / SECONDS_PER_CENTURY for x in TABLE1_SPAN)
-
-
-def _element_arrays(name: str, t: np.ndarray) -> dict:
-    """Per-epoch element coefficients: Table 1 inside 1800-2050, Table 2a/2b outside."""
-    one = _elements()[name]
-    lo, hi = _table1_centuries()
-    inside = (t >= lo) & (t <= hi)
-    if inside.all():
-        return dict(one)
-    two = _elements("planet_elements_long.csv")[name]
-    if not inside.any():
-        return dict(two)
-    return {k: np.where(inside, one[k], two[k]) for k in one if k != "gm_system_km3_s2"}
-
-
-def kepler_eccentric_anomaly(mean_anomaly, e):
-    """Eccentric anomaly E with E - e sin E = M (radians), vectorised Newton iteration.
-
-    Method: Newton's method from E0 = M + e sin M (e.g. Danby, *Fundamentals of Celestial
-    Mechanics*, 2nd ed., 1988, sec. 6.6); stops when every |dE| < 1e-13 rad.
-
-    Raises
-    ------
-    ConvergenceError
-        If 30 iterations do not reach the tolerance (not expected for e < 0.9).
+    TDB - TT is the 45-term series of :func:`cr3bp.timescales.tdb_minus_tt`; for many epochs
+    close together (more than :data:`TDB_DIRECT_MAX`, and at least four per node) it is
+    evaluated at nodes every :data:`TDB_NODE_DAYS` days and interpolated by 4-point Lagrange
+    polynomials. Interpolation error at most h^4 max|f^(4)| (9/16) / 24 (the remainder of
+    polynomial interpolation, e.g. Hildebrand, *Introduction to Numerical Analysis*, 2nd ed.,
+    1974, sec. 2.6), f^(4) dominated by the series' monthly term (1.55 us at 77 714 rad per
+    millennium): under 3 ns, against the series' own 0.6 us (tests/test_ephemeris.py: 5 ns).
     """
-    m = np.asarray(mean_anomaly, dtype=float)
-    e = np.asarray(e, dtype=float)
-    ecc = e + np.zeros_like(m)
-    big = m + ecc * np.sin(m)
-    residuals = []
-    for i in range(KEPLER_MAX_ITER):
-        f = big - ecc * np.sin(big) - m
-        d = f / (1.0 - ecc * np.cos(big))
-        big = big - d
-        worst = float(np.max(np.abs(d))) if d.size else 0.0
-        residuals.append(worst)
-        if worst < KEPLER_TOL_RAD:
-            return big
-    raise ConvergenceError(f"Kepler's equation did not converge in {KEPLER_MAX_ITER} iterations "
-                           f"(last step {residuals[-1]:.2e} rad)", KEPLER_MAX_ITER, residuals, big)
+    from .timescales import tdb_minus_tt
+    jd1, jd2 = (np.atleast_1d(np.asarray(x, dtype=float)).ravel() for x in ep.two_part_jd("tt"))
+    n = jd1.size
+    if n > TDB_DIRECT_MAX:
+        days = (jd1 - 2451545.0) + jd2
+        lo = math.floor(float(days.min()) / TDB_NODE_DAYS) - 1
+        n_nodes = math.floor(float(days.max()) / TDB_NODE_DAYS) - lo + 3
+        if 4 * n_nodes <= n:
+            f = tdb_minus_tt(2451545.0, (lo + np.arange(n_nodes)) * TDB_NODE_DAYS)
+            u = days / TDB_NODE_DAYS - lo
+            i = np.floor(u).astype(np.int64)
+            p = u - i
+            q, r, w = p + 1.0, p - 1.0, p - 2.0
+            dt = (p * r * w * (-1.0 / 6.0) * f[i - 1] + q * r * w * 0.5 * f[i]
+                  - q * p * w * 0.5 * f[i + 1] + q * p * r * (1.0 / 6.0) * f[i + 2])
+            return jd1, jd2 + dt / 86400.0
+    return jd1, jd2 + tdb_minus_tt(jd1, jd2) / 86400.0
 
 
-def _planet(t: np.ndarray, name: str, vel: bool) -> np.ndarray:
-    """Heliocentric J2000-ecliptic state (km, km/s) from Standish's elements (T centuries TT):
-    Table 1 within 1800-2050, Table 2a/2b (with the extra mean-anomaly terms) outside."""
-    el = _element_arrays(name, t)
-    a = (el["a"] + el["a_rate"] * t) * AU_KM
-    e = el["e"] + el["e_rate"] * t
-    inc = (el["i"] + el["i_rate"] * t) * DEG
-    lon = el["L"] + el["L_rate"] * t
-    peri = el["peri"] + el["peri_rate"] * t
-    node = (el["node"] + el["node_rate"] * t) * DEG
-    argp = peri * DEG - node
-    ft = el["f"] * t * DEG
-    m = lon - peri + el["b"] * t * t + el["c"] * np.cos(ft) + el["s"] * np.sin(ft)
-    m = np.remainder(m + 180.0, 360.0) - 180.0
-    big = kepler_eccentric_anomaly(m * DEG, e)
-    cos_e, sin_e = np.cos(big), np.sin(big)
-    b = a * np.sqrt(1.0 - e * e)
-    xp = a * (cos_e - e)
-    yp = b * sin_e
-    co, so = np.cos(argp), np.sin(argp)
-    cn, sn = np.cos(node), np.sin(node)
-    ci, si = np.cos(inc), np.sin(inc)
-    # columns of the orbit-plane -> ecliptic rotation (Standish, eq. 8.34-style)
-    px, py, pz = co * cn - so * sn * ci, co * sn + so * cn * ci, so * si
-    qx, qy, qz = -so * cn - co * sn * ci, -so * sn + co * cn * ci, co * si
-    out = np.empty((t.size, 6))
-    out[:, 0] = px * xp + qx * yp
-    out[:, 1] = py * xp + qy * yp
-    out[:, 2] = pz * xp + qz * yp
-    if vel:
-        # exact time derivative: d/dt of every element (Kepler's equation differentiated)
-        per_s = DEG / SECONDS_PER_CENTURY
-        m_dot = (el["L_rate"] - el["peri_rate"] + 2.0 * el["b"] * t
-                 + el["f"] * DEG * (el["s"] * np.cos(ft) - el["c"] * np.sin(ft))) * per_s
-        argp_dot = (el["peri_rate"] - el["node_rate"]) * per_s
-        node_dot = el["node_rate"] * per_s
-        inc_dot = el["i_rate"] * per_s
-        a_dot = el["a_rate"] * AU_KM / SECONDS_PER_CENTURY
-        e_dot = el["e_rate"] / SECONDS_PER_CENTURY
-        root = np.sqrt(1.0 - e * e)
-        denom = 1.0 - e * cos_e
-        big_dot = (m_dot + sin_e * e_dot) / denom               # from E - e sin E = M
-        vxp = (a_dot / a) * xp + a * (-sin_e * big_dot - e_dot)
-        vyp = (a_dot / a) * yp + a * (root * cos_e * big_dot - e * e_dot * sin_e / root)
-        x, y, z = out[:, 0], out[:, 1], out[:, 2]
-        # rotations of the orbit: about its normal (argp), the ecliptic pole (node) and the
-        # line of nodes (inclination): d r = omega x r
-        wn = (sn * si, -cn * si, ci)
-        vx = px * vxp + qx * vyp + argp_dot * (wn[1] * z - wn[2] * y) - node_dot * y + inc_dot * (sn * z)
-        vy = py * vxp + qy * vyp + argp_dot * (wn[2] * x - wn[0] * z) + node_dot * x - inc_dot * (cn * z)
-        vz = pz * vxp + qz * vyp + argp_dot * (wn[0] * y - wn[1] * x) + inc_dot * (cn * y - sn * x)
-        out[:, 3], out[:, 4], out[:, 5] = vx, vy, vz
-    else:
-        out[:, 3:] = 0.0
-    return out
+def _check_span(kernel, jd1, jd2, body, center):
+    if not jd1.size:
+        return
+    sec = (jd1 - 2451545.0) * 86400.0 + jd2 * 86400.0
+    bad = (sec < kernel.start_s) | (sec > kernel.end_s) | ~np.isfinite(sec)
+    if bad.any():
+        k = int(np.argmax(bad))
+        when = Epoch.from_jd(jd1[k], jd2[k], "tdb").to_iso("tdb", 0) if np.isfinite(sec[k]) else repr(sec[k])
+        lo, hi = _tdb_epoch(kernel.start_s), _tdb_epoch(kernel.end_s)
+        raise EphemerisSpanError(
+            f"epoch {when} is outside the validity of JPL DE421 for the {body} about the {center}, "
+            f"{lo.to_iso('tdb', 0)} .. {hi.to_iso('tdb', 0)} (model='series' gives the "
+            "approximate analytic series, 1000-3000 AD)")
 
 
-# ---------------------------------------------------------------------------------------
-# Moon: Meeus ch. 47 (ELP-2000/82 main terms)
-
-# Fundamental arguments, degrees, polynomial coefficients in T (Meeus 1998, eq. 47.1-47.5)
-_LP = (218.3164477, 481267.88123421, -0.0015786, 1.0 / 538841.0, -1.0 / 65194000.0)
-_D = (297.8501921, 445267.1114034, -0.0018819, 1.0 / 545868.0, -1.0 / 113065000.0)
-_M = (357.5291092, 35999.0502909, -0.0001536, 1.0 / 24490000.0, 0.0)
-_MP = (134.9633964, 477198.8675055, 0.0087414, 1.0 / 69699.0, -1.0 / 14712000.0)
-_F = (93.2720950, 483202.0175233, -0.0036539, -1.0 / 3526000.0, 1.0 / 863310000.0)
-_A1 = (119.75, 131.849)
-_A2 = (53.09, 479264.290)
-_A3 = (313.45, 481266.484)
-_E = (1.0, -0.002516, -0.0000074)           # eccentricity factor of the Earth's orbit, eq. 47.6
-MOON_MEAN_DISTANCE_KM = 385000.56           # Meeus 1998, ch. 47
-
-
-def _poly(c, t):
-    r = np.full_like(t, c[-1])
-    for k in c[-2::-1]:
-        r = r * t + k
-    return r
-
-
-def _dpoly(c, t):
-    """Derivative of the polynomial, per century."""
-    d = [k * i for i, k in enumerate(c)][1:]
-    return _poly(tuple(d), t) if d else np.zeros_like(t)
-
-
-def _angle(c, t):
-    """Angle in radians (not reduced: at most 1e4 rad over 1800-2100, so trigonometric
-    functions lose under 1e-12 rad)."""
-    return _poly(c, t) * DEG
-
-
-def _rate(c, t):
-    """Rate of the angle of :func:`_angle`, rad/s."""
-    return _dpoly(c, t) * (DEG / SECONDS_PER_CENTURY)
-
-
-def _unit(a):
-    """exp(i a) built from cos and sin (cheaper than a complex exponential)."""
-    z = np.empty(a.shape, complex)
-    z.real = np.cos(a)
-    z.imag = np.sin(a)
-    return z
-
-
-@dataclass(frozen=True)
-class _LunarSeries:
-    """The Meeus tables arranged for block evaluation (see :func:`_moon_geocentric`)."""
-
-    y_keys: tuple      # (kD, kM) combinations
-    x_keys: tuple      # (kMp, kF) combinations
-    coef: np.ndarray   # (P, 3Q): longitude | distance | latitude blocks
-    rows: tuple        # sparse rows of coef.T: per row ((p, value), ...), 165 entries in all
-    k_d: np.ndarray    # (Q,)
-    k_m: np.ndarray
-    k_mp: np.ndarray   # (P,)
-    k_f: np.ndarray
-
-
-@lru_cache(maxsize=1)
-def _lunar_series() -> _LunarSeries:
-    text = resources.files("cr3bp.data").joinpath("moon_series.csv").read_text()
-    rows = [ln.split(",") for ln in text.splitlines() if ln.strip() and not ln.startswith("#")][1:]
-    terms = [(r[0], int(r[1]), int(r[2]), int(r[3]), int(r[4]), float(r[5]), float(r[6])) for r in rows]
-    y_keys = tuple(sorted({(d, m) for _, d, m, _, _, _, _ in terms}))
-    x_keys = tuple(sorted({(mp, f) for _, _, _, mp, f, _, _ in terms}))
-    q, p = len(y_keys), len(x_keys)
-    coef = np.zeros((p, 3 * q))
-    for tab, d, m, mp, f, s, c in terms:
-        iq, ip = y_keys.index((d, m)), x_keys.index((mp, f))
-        if tab == "A":
-            coef[ip, iq] += s
-            coef[ip, q + iq] += c
-        else:
-            coef[ip, 2 * q + iq] += s
-    coef_t = coef.T
-    rows = tuple(tuple((int(j), float(coef_t[i, j])) for j in np.flatnonzero(coef_t[i]))
-                 for i in range(coef_t.shape[0]))
-    return _LunarSeries(y_keys, x_keys, coef, rows,
-                        np.array([k[0] for k in y_keys], float), np.array([k[1] for k in y_keys], float),
-                        np.array([k[0] for k in x_keys], float), np.array([k[1] for k in x_keys], float))
-
-
-def _fused_sums(ser, x, y, vel):
-    """Sums of the lunar series, row by row of the coefficient matrix so that only vectors
-    of n stay in cache.
-
-    Returns, per block (longitude, distance, latitude), the complex sum
-    ``S = sum_q y_q (C @ x)_q`` and, with ``vel``, the weighted sums whose combination
-    with the argument rates gives dS/dt: weights kD, kM, |kM| on the y factor and kM', kF
-    on the x factor.
-    """
-    q = len(ser.y_keys)
-    n = x[0].shape[0]
-    names = ("s", "kd", "km", "ke", "kmp", "kf") if vel else ("s",)
-    out = {k: [np.zeros(n, complex) for _ in range(3)] for k in names}
-    w, tmp, prod = (np.empty(n, complex) for _ in range(3))
-    w_mp, w_f = np.empty(n, complex), np.empty(n, complex)
-    # real coefficients act on the interleaved (re, im) float views: one real multiply per
-    # number instead of a complex one
-    xv = [a.view(float) for a in x]
-    wv, tv, w_mpv, w_fv = w.view(float), tmp.view(float), w_mp.view(float), w_f.view(float)
-    for i, row in enumerate(ser.rows):
-        if not row:
-            continue
-        blk, iq = divmod(i, q)
-        (j0, v0), rest = row[0], row[1:]
-        np.multiply(xv[j0], v0, out=wv)
-        if vel:
-            np.multiply(xv[j0], v0 * ser.k_mp[j0], out=w_mpv)
-            np.multiply(xv[j0], v0 * ser.k_f[j0], out=w_fv)
-        for j, v in rest:
-            np.multiply(xv[j], v, out=tv)
-            wv += tv
-            if vel:
-                if ser.k_mp[j]:
-                    w_mpv += tv * ser.k_mp[j]
-                if ser.k_f[j]:
-                    w_fv += tv * ser.k_f[j]
-        np.multiply(w, y[iq], out=prod)
-        out["s"][blk] += prod
-        if vel:
-            pv = prod.view(float)
-            for key, k in (("kd", ser.k_d[iq]), ("km", ser.k_m[iq]), ("ke", abs(ser.k_m[iq]))):
-                if k:
-                    out[key][blk].view(float)[:] += pv * k
-            out["kmp"][blk] += w_mp * y[iq]
-            out["kf"][blk] += w_f * y[iq]
-    return out
-
-
-def _powers(z, kmax):
-    """{k: z**k} for -kmax <= k <= kmax (unit complex z; negative powers by conjugation)."""
-    out = {0: np.ones_like(z), 1: z}
-    for k in range(2, kmax + 1):
-        out[k] = out[k - 1] * z
-    for k in range(1, kmax + 1):
-        out[-k] = np.conj(out[k])
-    return out
-
-
-def _moon_geocentric(t: np.ndarray, vel: bool) -> np.ndarray:
-    """Geocentric J2000-ecliptic state of the Moon (km, km/s), T = centuries of TT."""
-    out = np.empty((t.size, 6))
-    for s in range(0, t.size, CHUNK):
-        out[s:s + CHUNK] = _moon_block(t[s:s + CHUNK], vel)
-    return out
-
-
-def _cos_sin_small(x):
-    """cos and sin of |x| < 0.2 rad by Taylor polynomials (error < 1e-16); cheaper than trig."""
-    x2 = x * x
-    c = 1.0 + x2 * (-1 / 2 + x2 * (1 / 24 + x2 * (-1 / 720 + x2 * (1 / 40320 + x2 * (-1 / 3628800
-        + x2 * (1 / 479001600))))))
-    s = x * (1.0 + x2 * (-1 / 6 + x2 * (1 / 120 + x2 * (-1 / 5040 + x2 * (1 / 362880 + x2 * (-1 / 39916800
-        + x2 * (1 / 6227020800)))))))
-    return c, s
-
-
-def _moon_block(t: np.ndarray, vel: bool) -> np.ndarray:
-    """Meeus ch. 47 for one block of epochs.
-
-    Each term sin(kD D + kM M + kM' M' + kF F) is the imaginary part of
-    ``exp(i (kD D + kM M)) * exp(i (kM' M' + kF F))``: the two factors take few distinct
-    values (13 ``y_keys``, 33 ``x_keys``), so the series is a sparse real matrix (165
-    entries) applied to the x factors, then weighted by the y factors; only eight angles
-    need trigonometric functions.
-    """
-    ser = _lunar_series()
-    lp, d, m, mp, f = (_angle(c, t) for c in (_LP, _D, _M, _MP, _F))
-    ecc = _poly(_E, t)
-
-    zd, zm, zmp, zf = _unit(d), _unit(m), _unit(mp), _unit(f)
-    pd, pm = _powers(zd, 4), _powers(zm, 2)
-    pmp, pf = _powers(zmp, 4), _powers(zf, 3)
-    epow = {0: 1.0, 1: ecc, 2: ecc * ecc}
-    # factors as lists of arrays; a factor that is a single power is that array (no copy)
-    y = [pd[kd] if km == 0 else pd[kd] * (pm[km] * epow[abs(km)]) if kd else pm[km] * epow[abs(km)]
-         for kd, km in ser.y_keys]
-    x = [pmp[kmp] if kf == 0 else pf[kf] if kmp == 0 else pmp[kmp] * pf[kf] for kmp, kf in ser.x_keys]
-    sums = _fused_sums(ser, x, y, vel)
-    totals = sums["s"]
-
-    # additive terms (Meeus 1998, ch. 47, after the tables)
-    a1, a2, a3 = _angle(_A1, t), _angle(_A2, t), _angle(_A3, t)
-    za1, zlp = _unit(a1), _unit(lp)
-    s_a2, s_a3 = np.sin(a2), np.sin(a3)
-    z_lp_f = zlp * pf[-1]
-    z_a1_mf, z_a1_pf = za1 * pf[-1], za1 * zf
-    z_lp_mmp, z_lp_pmp = zlp * pmp[-1], zlp * zmp
-    add_l = 3958.0 * za1.imag + 1962.0 * z_lp_f.imag + 318.0 * s_a2
-    add_b = (-2235.0 * zlp.imag + 382.0 * s_a3 + 175.0 * z_a1_mf.imag + 175.0 * z_a1_pf.imag
-             + 127.0 * z_lp_mmp.imag - 115.0 * z_lp_pmp.imag)
-    sum_l = totals[0].imag + add_l
-    sum_r = totals[1].real
-    sum_b = totals[2].imag + add_b
-
-    # lambda = L' + dl with dl small; beta small
-    cdl, sdl = _cos_sin_small(sum_l * (1e-6 * DEG))
-    cl = zlp.real * cdl - zlp.imag * sdl
-    sl = zlp.imag * cdl + zlp.real * sdl
-    cb, sb = _cos_sin_small(sum_b * (1e-6 * DEG))
-    dist = MOON_MEAN_DISTANCE_KM + sum_r * 1e-3
-    out = np.empty((t.size, 6))
-    if not vel:
-        _precess_position(t, dist * cb, cl, sl, dist * sb, out)
-        out[:, 3:] = 0.0
-        return out
-    rot = _ecliptic_date_to_j2000(t)
-    _apply(rot, dist * cb * cl, dist * cb * sl, dist * sb, out[:, :3])
-
-    lp_dot, d_dot, m_dot, mp_dot, f_dot, a1_dot, a2_dot, a3_dot = (
-        _rate(c, t) for c in (_LP, _D, _M, _MP, _F, _A1, _A2, _A3))
-    ecc_dot = _dpoly(_E, t) / SECONDS_PER_CENTURY
-    # time derivatives of the three sums: d/dt sum A exp(i arg) = i sum A (k . rates) exp(i arg)
-    # plus the E^|kM| factor's rate (d(E^k)/dt = k E^k Edot/E)
-    def rate(blk):
-        z = (d_dot * sums["kd"][blk] + m_dot * sums["km"][blk] + mp_dot * sums["kmp"][blk]
-             + f_dot * sums["kf"][blk])
-        return 1j * z + (ecc_dot / ecc) * sums["ke"][blk]
-
-    rate_l, rate_r, rate_b = rate(0), rate(1), rate(2)
-
-    add_l_dot = (3958.0 * za1.real * a1_dot + 1962.0 * z_lp_f.real * (lp_dot - f_dot)
-                 + 318.0 * np.cos(a2) * a2_dot)
-    add_b_dot = (-2235.0 * zlp.real * lp_dot + 382.0 * np.cos(a3) * a3_dot
-                 + 175.0 * z_a1_mf.real * (a1_dot - f_dot) + 175.0 * z_a1_pf.real * (a1_dot + f_dot)
-                 + 127.0 * z_lp_mmp.real * (lp_dot - mp_dot) - 115.0 * z_lp_pmp.real * (lp_dot + mp_dot))
-    lam_dot = lp_dot + (rate_l.imag + add_l_dot) * (1e-6 * DEG)
-    beta_dot = (rate_b.imag + add_b_dot) * (1e-6 * DEG)
-    dist_dot = rate_r.real * 1e-3
-    _apply(rot,
-           dist_dot * cb * cl - dist * sb * cl * beta_dot - dist * cb * sl * lam_dot,
-           dist_dot * cb * sl - dist * sb * sl * beta_dot + dist * cb * cl * lam_dot,
-           dist_dot * sb + dist * cb * beta_dot, out[:, 3:])
-    # turning of the ecliptic of date (up to 3 mm/s): d(rot)/dt by a central difference of
-    # the precession matrix, step 0.001 century (its angles are cubics: error negligible)
-    h = 1e-3
-    r_plus, r_minus = _ecliptic_date_to_j2000(t + h), _ecliptic_date_to_j2000(t - h)
-    scale = 1.0 / (2 * h * SECONDS_PER_CENTURY)
-    rot_dot = [[(r_plus[i][k] - r_minus[i][k]) * scale for k in range(3)] for i in range(3)]
-    turn = np.empty((t.size, 3))
-    _apply(rot_dot, dist * cb * cl, dist * cb * sl, dist * sb, turn)
-    out[:, 3:] += turn
-    return out
-
-
-def _apply(rot, x, y, z, out):
-    """out[:, i] = sum_k rot[i][k] * (x, y, z)[k] for a 3x3 nested list of arrays."""
-    for i in range(3):
-        out[:, i] = rot[i][0] * x + rot[i][1] * y + rot[i][2] * z
-
-
-def _precession_angles(t):
-    """IAU 1976 ecliptic precession angles (Lieske et al. 1977; Meeus 1998, eq. 21.5, T = 0),
-    radians: pi_A, Pi_A - 174.876384 deg, p_A."""
-    pi_a = (47.0029 * t - 0.03302 * t**2 + 0.000060 * t**3) * ARCSEC
-    d_pi = (-869.8089 * t + 0.03536 * t**2) * ARCSEC
-    p_a = (5029.0966 * t + 1.11113 * t**2 - 0.000006 * t**3) * ARCSEC
-    return pi_a, d_pi, p_a
-
-
-_PI0 = 174.876384 * DEG
-
-
-def _precess_position(t, rho, cl, sl, z, out):
-    """out[:, :3] = R^T (rho cos l, rho sin l, z): the rotation of
-    :func:`_ecliptic_date_to_j2000` applied as its three factors, R3(Pi_A + p_A) folded
-    into the longitude, then R1(-pi_A) and R3(-Pi_A) (cheaper than forming the matrix)."""
-    pi_a, d_pi, p_a = _precession_angles(t)
-    c0, s0 = math.cos(_PI0), math.sin(_PI0)
-    cda, sda = _cos_sin_small(d_pi + p_a)
-    ca, sa = c0 * cda - s0 * sda, s0 * cda + c0 * sda          # of A = Pi_A + p_A
-    x1 = rho * (cl * ca + sl * sa)                              # rho cos(l - A)
-    y1 = rho * (sl * ca - cl * sa)                              # rho sin(l - A)
-    ci, si = _cos_sin_small(pi_a)
-    y2 = ci * y1 - si * z
-    out[:, 2] = si * y1 + ci * z
-    cd, sd = _cos_sin_small(d_pi)
-    c_pi, s_pi = c0 * cd - s0 * sd, s0 * cd + c0 * sd          # of Pi_A
-    out[:, 0] = c_pi * x1 - s_pi * y2
-    out[:, 1] = s_pi * x1 + c_pi * y2
-
-
-def _ecliptic_date_to_j2000(t: np.ndarray):
-    """Rotation (3x3 nested list of arrays) taking mean-ecliptic-of-date components to J2000.
-
-    Method: IAU 1976 ecliptic precession from J2000 to date (Lieske et al. 1977; Meeus 1998,
-    eq. 21.5 with T = 0): inclination pi_A, node longitude Pi_A, general precession p_A;
-    date <- J2000 is R = R3(-(Pi_A + p_A)) R1(pi_A) R3(Pi_A); we return R transposed.
-    The angles stay within 0.2 rad of fixed values over 1800-2100, so their cosines and
-    sines are Taylor polynomials about those values.
-    """
-    pi_a, d_pi, p_a = _precession_angles(t)
-    c0, s0 = math.cos(_PI0), math.sin(_PI0)
-    cd, sd = _cos_sin_small(d_pi)
-    c_pi, s_pi = c0 * cd - s0 * sd, s0 * cd + c0 * sd          # of Pi_A
-    cda, sda = _cos_sin_small(d_pi + p_a)
-    ca, sa = c0 * cda - s0 * sda, s0 * cda + c0 * sda          # of Pi_A + p_A
-    ci, si = _cos_sin_small(pi_a)
-    r = [[ca * c_pi + sa * ci * s_pi, ca * s_pi - sa * ci * c_pi, -sa * si],
-         [sa * c_pi - ca * ci * s_pi, sa * s_pi + ca * ci * c_pi, ca * si],
-         [si * s_pi, -si * c_pi, ci]]
-    return [[r[k][i] for k in range(3)] for i in range(3)]
-
-
-# ---------------------------------------------------------------------------------------
-# helpers
+def _tdb_epoch(seconds: float) -> Epoch:
+    days = math.floor(seconds / 86400.0)
+    return Epoch.from_jd(2451545.0 + days, (seconds - days * 86400.0) / 86400.0, "tdb")
 
 
 def _choice(what: str, value, allowed) -> str:

@@ -55,6 +55,11 @@ class StateError(InputError):
     """A state vector that is malformed, non-finite or inside a primary."""
 
 
+class EphemerisSpanError(InputError):
+    """An epoch outside the span of the ephemeris asked for (JPL DE421: 1899-07-29 to
+    2053-10-09 TDB); the message names the epoch, the body and the span."""
+
+
 class NoSolutionError(LibrateError):
     """The request is well formed but nothing satisfies it (e.g. a target beyond a family's end)."""
 

@@ -3,7 +3,9 @@
 Scales (the relations are those of the IERS Conventions 2010, ch. 10):
 
 * **UTC** — civil time; ``TAI - UTC`` is a whole number of seconds that steps by one at a
-  leap second (``data/leap_seconds.txt``, from IERS Bulletin C). Only UTC from 1972-01-01
+  leap second (``data/leap_seconds.txt``: the IERS leap-second file of Bulletin C, copied from
+  the PyPI package astropy-iers-data by ``data/refresh_leap_seconds.py``, with its source,
+  SHA-256 and expiry). Only UTC from 1972-01-01
   is supported: before that UTC had fractional, drifting offsets (rubber seconds).
 * **TAI** — International Atomic Time.
 * **TT** — Terrestrial Time, ``TT = TAI + 32.184 s`` exactly.
@@ -91,7 +93,8 @@ class LeapSecondTable:
 
 @lru_cache(maxsize=1)
 def leap_second_table() -> LeapSecondTable:
-    """The TAI-UTC table read from ``data/leap_seconds.txt`` (IERS Bulletin C; from memory)."""
+    """The TAI-UTC table read from ``data/leap_seconds.txt`` (the IERS Bulletin C leap-second
+    file as shipped by astropy-iers-data, copied by ``data/refresh_leap_seconds.py``)."""
     text = resources.files("cr3bp.data").joinpath("leap_seconds.txt").read_text()
     mjd, dat, source, valid = [], [], [], None
     for line in text.splitlines():

@@ -7,9 +7,10 @@ the model's own (cr3bp.systems / DE430 from memory). The bound is what the ephem
 implies: the gradient of x/|x|^3 has norm at most 2/|x|^3, so a body position error ds gives
 at most GM * 2 ds (1/|s - r|^3 + 1/|s|^3), and, as the direct and indirect terms move
 together, also at most 24 GM ds |r| / (|s| - |r|)^4 (the third derivatives of 1/|x| contract
-to at most 24/|x|^4 with unit vectors); the smaller of the two is used. The position errors are the bounds of
-cr3bp.ephemeris.ACCURACY (Moon/Earth 2.1 km, Sun/Earth 19 000 km, Jupiter/Sun 1 850 000 km,
-EMB/Sun 18 000 km), plus 1 km of margin for the Chebyshev fit.
+to at most 24/|x|^4 with unit vectors); the smaller of the two is used. The position errors are
+the bounds on the differences between DE421 (the model's tables) and these pyerfa models, from
+their published errors (cr3bp.ephemeris.ACCURACY: Moon/Earth 34.9 km, Sun/Earth 12.3 km,
+Jupiter/Sun 352 510 km), plus 1 m for the Chebyshev fit (tests/test_fidelity.py).
 """
 
 import warnings
@@ -26,7 +27,15 @@ from cr3bp.frames import _epoch  # noqa: E402
 
 pytestmark = pytest.mark.filterwarnings("ignore::erfa.ErfaWarning")
 
-ERR_KM = {"moon": 2.1 + 1.0, "sun": 19000.0 + 2.1 + 1.0, "jupiter": 1850000.0 + 18000.0 + 19000.0 + 1.0}
+def _bound(body, center):
+    return eph.ACCURACY[(body, center, (1900, 2050))]["km"]
+
+
+FIT_KM = 1e-3
+# about the Moon every other body also carries the Moon's error (as before)
+MOON_KM = _bound("moon", "earth")
+ERR_KM = {"moon": MOON_KM + FIT_KM, "sun": _bound("sun", "earth") + MOON_KM + FIT_KM,
+          "jupiter": _bound("jupiter", "sun") + _bound("sun", "earth") + MOON_KM + FIT_KM}
 
 
 def _erfa_positions(ep):

@@ -16,19 +16,25 @@ from fidelity_cases import EPOCH, epoch_tdb_s, nrho
 
 ONE_METER = 1e-3  # km
 ONE_MM_PER_S = 1e-6  # km/s
+ONE_CENTIMETER = 1e-5  # km
 
 pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.timescales.LeapSecondsExpiredWarning")
 
 
 def test_series_reproduce_the_tables():
-    """Chebyshev series of every body within 1 m of cr3bp.ephemeris over 40 days."""
+    """Chebyshev series of every body within 5 cm of DE421 (cr3bp.ephemeris) over a year
+    (measured 0.1 mm for the Earth, 3-8 mm for the Sun and the inner planets, 1 cm for Neptune:
+    the rounding of positions of 1e8-5e9 km), and the model says its source."""
     s = system("earth-moon")
     t0 = epoch_tdb_s()
-    m = fm.build(s, t0, 0.0, 40 * 86400 / s.time_s, "moon", "sun,earth,jupiter,venus")
-    t = np.random.default_rng(3).uniform(0.0, 40 * 86400 / s.time_s, 300)
-    for b in ("sun", "earth", "jupiter", "venus"):
+    span = 365 * 86400 / s.time_s
+    names = ("sun", "earth", "mercury", "venus", "mars", "jupiter", "saturn", "uranus", "neptune")
+    m = fm.build(s, t0, 0.0, span, "moon", ",".join(names))
+    t = np.random.default_rng(3).uniform(0.0, span, 1000)
+    for b in names:
         ref = np.asarray(ephemeris.position(b, frames._epoch(t0 + t * s.time_s), "moon", "j2000-equator"))
-        assert np.abs(m.body_position_km(b, t) - ref).max() < ONE_METER, b
+        assert np.abs(m.body_position_km(b, t) - ref).max() < 5 * ONE_CENTIMETER, b
+    assert "DE421" in m.to_dict()["ephemeris"]
 
 
 def _circular_model(s, spec, t1):

@@ -1,5 +1,6 @@
 """Time scales: ISO 8601 text, leap seconds, bad input, the beyond-validity warning."""
 
+import re
 import warnings
 
 import numpy as np
@@ -9,7 +10,7 @@ from hypothesis import strategies as st
 
 from cr3bp.errors import InputError
 from cr3bp.timescales import (Epoch, LeapSecondsExpiredWarning, calendar_to_mjd, leap_second_table,
-                              mjd_to_calendar, parse_iso, tai_minus_utc)
+                              mjd_to_calendar, mjd_to_iso_date, parse_iso, tai_minus_utc)
 
 ONE_MICROSECOND = 1e-6
 ONE_NANOSECOND = 1e-9
@@ -65,9 +66,45 @@ def test_beyond_validity_warns():
 
 def test_table_has_source_and_validity():
     t = leap_second_table()
-    assert "Bulletin C" in t.source and "FROM MEMORY" in t.source
+    assert "Bulletin C" in t.source and "astropy-iers-data" in t.source
     assert t.tai_minus_utc_s[0] == 10 and np.all(np.diff(t.tai_minus_utc_s) == 1)
     assert tai_minus_utc(calendar_to_mjd(2016, 12, 31)) == 36
+    assert t.to_dict()["valid_until"] >= "2027-06-28"      # Bulletin C 72 (July 2026) or later
+
+
+def test_table_is_the_data_package_copy():
+    """data/leap_seconds.txt is what data/refresh_leap_seconds.py writes from the IERS file of
+    the installed astropy-iers-data (a test extra): the same steps up to the table's validity,
+    its expiry as the valid-until date, and on the same package version the same bytes."""
+    refresh = pytest.importorskip("cr3bp.data.refresh_leap_seconds")
+    pytest.importorskip("astropy_iers_data")
+    src = refresh.load()
+    table = leap_second_table()
+    ours = [(mjd_to_iso_date(int(m)), float(v)) for m, v in zip(table.mjd, table.tai_minus_utc_s)]
+    valid = table.to_dict()["valid_until"]
+    theirs = [(d, float(v)) for d, v in src.steps if d < valid]
+    assert ours == theirs, "rerun data/refresh_leap_seconds.py (make leap-seconds)"
+    assert valid <= src.expires
+    recorded = re.search(rf"{refresh.PACKAGE} (\S+);", table.source)
+    assert recorded, "the table does not name the package version it was copied from"
+    if recorded[1] == src.version:
+        assert valid == src.expires
+        assert refresh.render(src) == refresh.TARGET.read_text()
+
+
+def test_refresh_parses_the_iers_layout():
+    """The IERS layout (rows 'MJD day month year TAI-UTC', 'File expires on ...'); rows in
+    another shape are refused rather than guessed."""
+    refresh = pytest.importorskip("cr3bp.data.refresh_leap_seconds")
+    text = ("#  Updated through IERS Bulletin 72 issued in July 2026\n#  File expires on 28 June 2027\n"
+            "    41317.0    1  1 1972       10\n    57754.0    1  1 2017       37\n")
+    f = refresh.parse(text)
+    assert f.steps == (("1972-01-01", 10), ("2017-01-01", 37)) and f.expires == "2027-06-28"
+    assert "Bulletin 72" in f.updated_through
+    with pytest.raises(ValueError, match="unexpected row"):
+        refresh.parse(text + "2017-01-01 37\n")
+    with pytest.raises(ValueError, match="expires"):
+        refresh.parse("    41317.0    1  1 1972       10\n")
 
 
 def test_date_only_and_minutes_forms():

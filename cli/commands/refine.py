@@ -165,7 +165,7 @@ def _run_route(args, sysm):
                                "the CR3BP lines above describe only the frame that carries the states",
                  "route": str(args.route), "force model": f"point masses {central} (central), "
                  f"{', '.join(tr.model.bodies)}" + (f"; cannonball SRP A/m {srp[0]} m2/kg, Cr {srp[1]}" if srp else ""),
-                 "ephemeris": "cr3bp.ephemeris (Meeus 1998 lunar series, Standish mean elements)",
+                 "ephemeris": tr.model.ephemeris,
                  "dv_total_mps": f"{tr.dv_total_mps:.6g} (CR3BP route: {tr.dv_total_cr3bp_mps:.6g})",
                  "continuity": f"{tr.continuity_km * 1000:.3g} m, {tr.continuity_mps:.3g} m/s"}
         traj = export.Trajectory(spec, tuple(segs), "TDB", tuple(mans), "LIBRATE REFINED ROUTE", "NONE", model)
@@ -237,7 +237,7 @@ def run(args):
                                "the CR3BP lines above describe only the frame that carries the states",
                  "orbit request": args.orbit, "force model": f"point masses {central} (central), "
                  f"{', '.join(tr.model.bodies)}" + (f"; cannonball SRP A/m {srp[0]} m2/kg, Cr {srp[1]}" if srp else ""),
-                 "ephemeris": "cr3bp.ephemeris (Meeus 1998 lunar series, Standish mean elements)",
+                 "ephemeris": tr.model.ephemeris,
                  "iterations": str(tr.iterations), "continuity": f"{tr.continuity_km * 1000:.3g} m, "
                  f"{tr.continuity_mps:.3g} m/s"}
         traj = export.Trajectory(spec, (export.Segment(np.asarray(tr.sample_t_tu), rot),), "TDB", (),

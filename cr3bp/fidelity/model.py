@@ -1,6 +1,11 @@
 """The ephemeris force model at an epoch: bodies fitted by Chebyshev series, packed for the
 compiled integrator, and propagation in it (state and state + STM).
 
+Body positions are JPL DE421 (:mod:`cr3bp.ephemeris`), sampled once at the Chebyshev nodes of
+one-day segments and refitted relative to the central body, so the compiled right-hand side
+evaluates one short series per body and step: within 1 cm of DE421 over a year for every body
+(rounding of positions up to 5e9 km; tests/test_fidelity.py asserts 5 cm).
+
 Equations in :mod:`cr3bp.fidelity.forces` (Montenbruck & Gill, *Satellite Orbits*, 2000,
 eq. 3.37, from memory). Units: the CR3BP system's length and time units (LU, TU), positions
 relative to the central body on J2000 equator axes, model time ``t`` in TU from the epoch.
@@ -23,8 +28,8 @@ from .forces import HEADER
 SOLAR_PRESSURE_1AU = 4.56e-6
 #: Astronomical unit, km (IAU 2012 Resolution B2).
 AU_KM = 149597870.7
-#: Series layout: segment length (days) and degree. Checked against the tables in
-#: tests/test_fidelity_model.py (below 1 m for the Moon, far below for the others).
+#: Series layout: segment length (days) and degree. Checked against DE421 in
+#: tests/test_fidelity.py (below 5 cm for every body over a year; measured 1 cm, rounding).
 SEGMENT_DAYS = 1.0
 DEGREE = 16
 
@@ -76,6 +81,7 @@ class Model:
     srp : (area_to_mass_m2_kg, cr) or None
     t0, t1 : float            span of the series, TU from the epoch
     params : ndarray          parameter vector for the compiled kernels
+    ephemeris : str           where the body positions come from (:func:`cr3bp.ephemeris.describe`)
     """
 
     system: object
@@ -87,11 +93,12 @@ class Model:
     t0: float
     t1: float
     params: np.ndarray
+    ephemeris: str = ""
 
     def to_dict(self) -> dict:
         return {"epoch_tdb_s": self.epoch_tdb_s, "central": self.central, "bodies": list(self.bodies),
                 "srp": None if self.srp is None else {"area_to_mass_m2_kg": self.srp[0], "cr": self.srp[1]},
-                "span_tu": [self.t0, self.t1]}
+                "span_tu": [self.t0, self.t1], "ephemeris": self.ephemeris}
 
     def body_position_km(self, name: str, t_tu) -> np.ndarray:
         """Series position (km) of a fitted body at model times (for checks)."""
@@ -142,7 +149,8 @@ def build(system, epoch_tdb_s: float, t0_tu: float, t1_tu: float, central: str, 
 
     Raises
     ------
-    InputError  unknown bodies, bad SRP figures, a span outside the ephemeris validity.
+    InputError  unknown bodies, bad SRP figures, a span outside the ephemeris validity
+                (:class:`~cr3bp.errors.EphemerisSpanError` outside DE421, 1899-07-29 .. 2053-10-09).
     """
     system.require_dimensional("an ephemeris model")
     central = central.lower()
@@ -163,6 +171,8 @@ def build(system, epoch_tdb_s: float, t0_tu: float, t1_tu: float, central: str, 
         raise InputError(f"model span [{t0_tu}, {t1_tu}] TU must be increasing")
     nseg = max(1, int(math.ceil(span * tu / 86400.0 / segment_days)))
     nb = len(fitted)
+    source = ephemeris.LABELS[ephemeris.DEFAULT_MODEL] if nb and sample is None else (
+        "positions supplied by the caller" if nb else "none (no bodies fitted)")
     if nb and sample is None:
         def sample(times_tu):
             ep = _epochs(epoch_tdb_s, np.asarray(times_tu) * tu)
@@ -191,7 +201,7 @@ def build(system, epoch_tdb_s: float, t0_tu: float, t1_tu: float, central: str, 
         p[7] = k * tu * tu / lu ** 3
     p[HEADER + nb:] = coef
     return Model(system, float(epoch_tdb_s), central, bodies, fitted, srp, float(t0_tu),
-                 float(t1_tu), np.ascontiguousarray(p))
+                 float(t1_tu), np.ascontiguousarray(p), source)
 
 
 def _check_span(model, t0, t1):
