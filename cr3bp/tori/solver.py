@@ -33,9 +33,12 @@ from . import circle
 
 #: Newton stops when the largest residual component is below this (nondimensional).
 RESIDUAL_TOL = 1e-10
-#: ... or when it has stalled below this.
+#: ... or when it has stalled below ``max(STALL_TOL, FLOOR_PER_GAIN * |STM|)``: the integrator's
+#: error (tolerance 1e-12) grows with the largest STM entry, so strongly hyperbolic tori
+#: cannot close better than that.
 STALL_TOL = 1e-8
-MAX_ITER = 25
+FLOOR_PER_GAIN = 1e-11
+MAX_ITER = 15
 #: Integrator tolerances for the circle's propagation.
 RTOL = ATOL = 1e-12
 HOLD_KINDS = ("jacobi", "period", "rotation", "amplitude")
@@ -135,7 +138,7 @@ def _residual_and_jacobian(system, x, n, ref, holds, arclength):
         vals.append(float(tangent @ (x - x0) - ds))
     jac = np.vstack([np.hstack([j_u, j_t[:, None], j_r[:, None]]), np.array(rows)])
     f = np.concatenate([inv.ravel(), vals])
-    return f, jac, float(np.abs(inv).max())
+    return f, jac, float(np.abs(stm).max())
 
 
 def solve(system, u0, T0, rho0, holds, reference=None, arclength=None, max_iter=MAX_ITER):
@@ -166,8 +169,9 @@ def solve(system, u0, T0, rho0, holds, reference=None, arclength=None, max_iter=
     ref = reference if reference is not None else (u0.copy(), float(T0), float(rho0))
     x = np.concatenate([u0.ravel(), [float(T0), float(rho0)]])
     history = []
-    f, jac, inv = _residual_and_jacobian(system, x, n, ref, holds, arclength)
+    f, jac, gain = _residual_and_jacobian(system, x, n, ref, holds, arclength)
     norm = float(np.abs(f).max())
+    floor = max(STALL_TOL, FLOOR_PER_GAIN * gain)
     history.append(norm)
     for it in range(1, max_iter + 1):
         if norm < RESIDUAL_TOL:
@@ -187,7 +191,7 @@ def solve(system, u0, T0, rho0, holds, reference=None, arclength=None, max_iter=
         if not math.isfinite(nt):
             raise ConvergenceError("invariance-circle Newton left the region the integrator "
                                    "can follow", iterations=it, residuals=history)
-        stalled = nt >= 0.5 * norm and nt < STALL_TOL
+        stalled = nt >= 0.5 * norm and nt < floor
         x, f, jac, norm = xt, ft, jt, nt
         history.append(norm)
         if stalled:
@@ -197,11 +201,12 @@ def solve(system, u0, T0, rho0, holds, reference=None, arclength=None, max_iter=
             raise ConvergenceError(f"invariance circle did not converge in {max_iter} iterations "
                                    f"(residual {norm:.2e})", iterations=max_iter,
                                    residuals=history)
-    if norm >= STALL_TOL:
+    if norm >= floor:
         raise ConvergenceError(f"invariance circle did not converge (residual {norm:.2e})",
                                iterations=len(history) - 1, residuals=history)
     u = x[:6 * n].reshape(n, 6).copy()
-    return u, float(x[-2]), float(x[-1]), {"iterations": len(history) - 1, "residuals": history}
+    return u, float(x[-2]), float(x[-1]), {"iterations": len(history) - 1, "residuals": history,
+                                            "floor": floor, "gain": gain}
 
 
 def invariance_error(system, u, T, rho) -> float:

@@ -21,11 +21,15 @@ from . import circle, seeds, solver
 N_MIN, N_MAX = 15, 151
 #: The circle has enough points when its top quarter of harmonics is below this (relative).
 TAIL_TOL = 1e-9
-#: Largest accepted invariance error between the nodes (nondimensional 6-vector norm).
+#: Largest accepted invariance error between the nodes (nondimensional 6-vector norm), raised
+#: for strongly hyperbolic tori to the Newton floor (``solver.FLOOR_PER_GAIN`` times the largest
+#: STM entry): the tolerance a torus states is ``Torus.invariance_tolerance``.
 INVARIANCE_TOL = 1e-8
-#: Amplitude continuation from the periodic orbit: first step (LU) and growth per step.
+#: Amplitude continuation from the periodic orbit: first step (LU; smaller about unstable
+#: orbits: ``FIRST_GAIN_AMPLITUDE / |largest multiplier|``) and growth per step.
 FIRST_AMPLITUDE = 1e-3
-GROWTH = 2.0
+FIRST_GAIN_AMPLITUDE = 0.03
+GROWTH = 3.0
 MIN_RATIO = 1.05
 
 
@@ -42,6 +46,8 @@ class Torus:
     jacobi : float             mean Jacobi constant of the circle's points
     jacobi_spread : float      largest minus smallest Jacobi constant on the circle
     invariance_error : float   largest |phi_T(u(theta)) - u(theta + rho)| between the nodes
+    invariance_tolerance : float   the tolerance it was solved to (INVARIANCE_TOL, or the
+                               integrator's floor for strongly hyperbolic tori)
     family : str               "quasi-halo" or "lissajous"
     around : dict              the periodic orbit it was grown from (to_dict summary)
     amplitude_lu : float       RMS distance of the circle's positions from their mean (LU)
@@ -59,6 +65,7 @@ class Torus:
     jacobi: float
     jacobi_spread: float
     invariance_error: float
+    invariance_tolerance: float = INVARIANCE_TOL
     family: str = ""
     point: str = ""
     branch: str = ""
@@ -120,6 +127,7 @@ class Torus:
             "jacobi": self.jacobi,
             "jacobi_spread": self.jacobi_spread,
             "invariance_error": self.invariance_error,
+            "invariance_tolerance": self.invariance_tolerance,
             "n_circle_points": self.n_circle_points,
             "amplitude_lu": self.amplitude_lu,
             "amplitude_km": km(self.amplitude_lu),
@@ -151,14 +159,15 @@ def solve_adaptive(system, u, T, rho, holds, reference=None, arclength_fn=None):
         its += info["iterations"]
         tail = circle.tail(u)
         err = solver.invariance_error(system, u, T, rho)
-        if (tail < TAIL_TOL and err < INVARIANCE_TOL) or n >= N_MAX:
+        tol = max(INVARIANCE_TOL, info["floor"])
+        if (tail < TAIL_TOL and err < tol) or n >= N_MAX:
             break
         u = circle.resample(u, min(2 * n + 1, N_MAX))
-    if err >= INVARIANCE_TOL:
+    if err >= tol:
         raise ConvergenceError(f"the torus needs more than {N_MAX} points on its circle "
                                f"(invariance error {err:.2e} with {n})", iterations=its)
-    # fewer points when they suffice (a simpler torus than the start)
-    return u, T, rho, {"iterations": its, "tail": tail, "invariance_error": err}
+    return u, T, rho, {"iterations": its, "tail": tail, "invariance_error": err,
+                       "invariance_tolerance": tol}
 
 
 def _kind(orbit) -> tuple[str, float | None]:
@@ -216,7 +225,8 @@ def torus_around(orbit, amplitude_lu: float, hold: str = "jacobi", progress=None
     if sign < 0:
         v = np.conj(v)
     value = {"jacobi": orbit.jacobi, "period": orbit.period, "rotation": rho0}[hold]
-    a = min(amplitude_lu, FIRST_AMPLITUDE)
+    lam = float(np.abs(np.linalg.eigvals(orbit.monodromy)).max())
+    a = min(amplitude_lu, FIRST_AMPLITUDE, FIRST_GAIN_AMPLITUDE / lam)
     u = seeds.circle_from_pair(orbit.state, v, a, N_MIN)
     T, rho = float(orbit.period), float(rho0)
     done_a, step_ratio, k, its = 0.0, GROWTH, 0, 0
@@ -241,7 +251,8 @@ def torus_around(orbit, amplitude_lu: float, hold: str = "jacobi", progress=None
             break
         a = min(a * step_ratio, amplitude_lu)
         u, T, rho = _scaled(prev, a / done_a)
-    return build(system, u1, T1, rho1, info["invariance_error"], family=kind, point=orbit.point,
+    return build(system, u1, T1, rho1, info["invariance_error"], info["invariance_tolerance"],
+                 family=kind, point=orbit.point,
                  branch=orbit.branch, around=_orbit_summary(orbit), holds=holds, iterations=its,
                  extra={"amplitude_steps": k, "centre_angle_rad": alpha})
 
@@ -259,7 +270,7 @@ def _orbit_summary(orbit) -> dict:
             "jacobi": float(orbit.jacobi)}
 
 
-def build(system, u, T, rho, err, samples=256, **kw) -> Torus:
+def build(system, u, T, rho, err, tol=INVARIANCE_TOL, samples=256, **kw) -> Torus:
     """Torus with its geometry (closest approaches, extents) measured on the surface."""
     C = solver.jacobi_many(system.mu, u)
     grid = surface(system, u, T, samples)
@@ -269,6 +280,7 @@ def build(system, u, T, rho, err, samples=256, **kw) -> Torus:
     ca = tuple(closest_approach(system, grid, c, T / samples) for c in (-system.mu, 1 - system.mu))
     return Torus(system=system, circle=u, stroboscopic_time=T, rotation=rho, jacobi=float(C.mean()),
                  jacobi_spread=float(C.max() - C.min()), invariance_error=err,
+                 invariance_tolerance=tol,
                  amplitude_lu=solver.amplitude(u), closest_approach_lu=ca, extent_lu=ext, **kw)
 
 
