@@ -106,3 +106,34 @@ def test_l1_quasi_halo_is_invariant_over_one_stroboscopic_time():
     for th, s in zip((0.1, 2.2, 5.0), pts):
         got = propagate(em().mu, s, t.stroboscopic_time, rtol=1e-13, atol=1e-13)
         assert np.linalg.norm(got - evaluate(t.circle, [th + t.rotation])[0]) < INVARIANCE_TOL
+
+
+@functools.lru_cache(maxsize=None)
+def family(hold):
+    from cr3bp.tori.family import continue_family
+    return continue_family(torus("halo L2 south resonance=9:2", 1000.0, "jacobi"), hold,
+                           members=2, step=0.005)
+
+
+@pytest.mark.parametrize("hold, attr", [("jacobi", "jacobi"), ("period", "stroboscopic_time"),
+                                        ("rotation", "rotation")])
+def test_torus_family_members_hold_their_quantity_and_are_invariant(hold, attr):
+    """Pseudo-arclength family (Baresi, Olikara & Scheeres 2018) about the 9:2 NRHO: each member
+    keeps the held quantity, grows, and its points land on it again under scipy's DOP853."""
+    f = family(hold)
+    assert f.stop == "members" and len(f.members) == 3
+    held = getattr(f.members[0], attr)
+    amps = [m.amplitude_lu for m in f.members]
+    assert amps[0] < amps[1] < amps[2]
+    for m in f.members[1:]:
+        assert getattr(m, attr) == pytest.approx(held, abs=1e-10)
+        assert m.invariance_error < m.invariance_tolerance
+    last = f.members[-1]
+    for th in (0.7, 3.6):
+        s = evaluate(last.circle, [th])[0]
+        got = propagate(em().mu, s, last.stroboscopic_time, rtol=1e-13, atol=1e-13)
+        want = evaluate(last.circle, [th + last.rotation])[0]
+        assert np.linalg.norm(got - want) < last.invariance_tolerance
+    # the family quantities that are not held do change
+    free = [a for a in ("jacobi", "stroboscopic_time", "rotation") if a != attr]
+    assert any(abs(getattr(last, a) - getattr(f.members[0], a)) > 1e-6 for a in free)

@@ -65,3 +65,16 @@ def test_no_centre_pair_is_refused():
 def test_bad_amplitude_or_hold(amp, hold):
     with pytest.raises(InputError):
         torus_around(_orbit(np.eye(6)), amp, hold=hold)
+
+
+def test_family_refuses_bad_settings():
+    from cr3bp.tori.family import continue_family
+    from cr3bp.tori.torus import Torus
+    t = Torus(system=system("earth-moon"), circle=np.zeros((15, 6)), stroboscopic_time=1.0,
+              rotation=0.1, jacobi=3.0, jacobi_spread=0.0, invariance_error=0.0)
+    with pytest.raises(InputError, match="hold"):
+        continue_family(t, "mass")
+    with pytest.raises(InputError, match="members"):
+        continue_family(t, "jacobi", members=0)
+    with pytest.raises(InputError, match="direction"):
+        continue_family(t, "jacobi", direction=2)

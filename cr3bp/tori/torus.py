@@ -13,7 +13,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..errors import ConvergenceError, InputError, NoSolutionError
+from ..errors import ConvergenceError, InputError, NoSolutionError, StateError
 from ..integrate import propagate_batch
 from . import circle, seeds, solver
 
@@ -31,6 +31,10 @@ FIRST_AMPLITUDE = 1e-3
 FIRST_GAIN_AMPLITUDE = 0.03
 GROWTH = 3.0
 MIN_RATIO = 1.05
+
+
+class SurfaceError(NoSolutionError):
+    """The torus passes inside a primary (no such torus in the model's domain)."""
 
 
 @dataclass(frozen=True)
@@ -291,7 +295,11 @@ def surface(system, u, T, samples=256) -> np.ndarray:
     dt = T / samples
     s = out[0]
     for _ in range(samples):
-        s = propagate_batch(system, s, dt, rtol=solver.RTOL, atol=solver.ATOL).states
+        try:
+            s = propagate_batch(system, s, dt, rtol=solver.RTOL, atol=solver.ATOL).states
+        except StateError as e:
+            raise SurfaceError(f"the torus passes inside a primary ({e}); choose a smaller "
+                               "amplitude") from None
         out.append(s)
     return np.array(out)
 
