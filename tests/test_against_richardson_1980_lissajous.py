@@ -53,3 +53,20 @@ def test_small_lissajous_frequencies_tend_to_the_linear_ones(point):
         assert b / s == pytest.approx(4.0, rel=0.25)   # second order in the amplitudes
     assert max(d_small) < 2e-3 * wp
     assert small.invariance_error < small.invariance_tolerance
+
+
+@pytest.mark.parametrize("point", ["L1", "L2"])
+def test_lissajous_from_the_linear_solution_tends_to_the_linear_frequencies(point):
+    """The same check for tori grown from the linear solution at the point itself."""
+    from cr3bp.tori import lissajous_near_point
+    wp, wv = linear_frequencies(em().mu, point)
+    lu = em().length_km
+    big = lissajous_near_point(em(), point, 200.0 / lu, 200.0 / lu)
+    small = lissajous_near_point(em(), point, 100.0 / lu, 100.0 / lu)
+    for t in (big, small):
+        assert t.invariance_error < t.invariance_tolerance
+        assert t.extent_lu["z"][1] * lu == pytest.approx(200.0 if t is big else 100.0, rel=0.02)
+    for k, w in enumerate((wp, wv)):
+        b, s = abs(big.frequencies_rad_tu[k] - w), abs(small.frequencies_rad_tu[k] - w)
+        assert b / s == pytest.approx(4.0, rel=0.25)   # second order in the amplitudes
+        assert s < 1e-4 * w

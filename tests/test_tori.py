@@ -78,3 +78,10 @@ def test_family_refuses_bad_settings():
         continue_family(t, "jacobi", members=0)
     with pytest.raises(InputError, match="direction"):
         continue_family(t, "jacobi", direction=2)
+
+
+@pytest.mark.parametrize("point, ax, az", [("L4", 1e-3, 1e-3), ("L1", -1e-3, 1e-3), ("L2", 1e-3, 0.0)])
+def test_linear_lissajous_refuses_bad_input(point, ax, az):
+    from cr3bp.tori import lissajous_near_point
+    with pytest.raises(InputError):
+        lissajous_near_point(system("earth-moon"), point, ax, az)

@@ -10,6 +10,6 @@
 """
 
 from .family import TorusFamily, continue_family
-from .torus import Torus, build, surface, torus_around
+from .torus import Torus, build, lissajous_near_point, surface, torus_around
 
-__all__ = ["Torus", "TorusFamily", "torus_around", "continue_family", "build", "surface"]
+__all__ = ["Torus", "TorusFamily", "torus_around", "lissajous_near_point", "continue_family", "build", "surface"]

@@ -70,3 +70,19 @@ def branch_rotation(alpha: float, rho_linear: float | None) -> tuple[float, int]
         if best is None or abs(cand - rho_linear) < abs(best[0] - rho_linear):
             best = (cand, sign)
     return best
+
+
+def linear_lissajous(modes, position, ax_lu: float, az_lu: float, n: int):
+    """Invariance circle of the linearised Lissajous motion at a collinear point (Richardson,
+    Celestial Mechanics 22, 1980, eqs. for the linear solution; Szebehely 1967, §5.6):
+    in plane ``Ax (planar_centre[0])`` at phase 0 (the x-axis crossing), out of plane
+    ``Az (cos theta e_z - omega_v sin theta e_vz)``. Returns ``(U, T, rho)`` with
+    ``T = 2 pi / omega_p`` and ``rho = 2 pi omega_v / omega_p``."""
+    wp, wv = modes.omega_inplane, modes.omega_vertical
+    th = circle.angles(n)
+    base = np.concatenate([np.asarray(position, dtype=float), np.zeros(3)])
+    base = base + ax_lu * np.asarray(modes.planar_centre[0], dtype=float)
+    u = np.tile(base, (n, 1))
+    u[:, 2] += az_lu * np.cos(th)
+    u[:, 5] += -az_lu * wv * np.sin(th)
+    return u, 2 * math.pi / wp, 2 * math.pi * wv / wp

@@ -329,3 +329,50 @@ def closest_approach(system, grid, xc, spacing) -> float:
                                        atol=solver.ATOL).states
     dist = np.linalg.norm(s[:, :3] - c, axis=1)
     return float(min(dist.min(), best.min()))
+
+
+def lissajous_near_point(system, point: str, ax_lu: float, az_lu: float) -> Torus:
+    """A small Lissajous torus at a collinear point from the linear solution
+    (:func:`seeds.linear_lissajous`), grown from a tiny copy by amplitude steps, each solved
+    holding the Jacobi constant of the linear seed of that size and
+    the circle's amplitude ``az_lu / sqrt(2)`` (the out-of-plane oscillation); the in-plane size
+    follows from the energy. For amplitudes where the linear solution is a good first guess
+    (a few thousand km in the Earth–Moon system); larger Lissajous tori are reached from a
+    planar Lyapunov orbit (:func:`torus_around`) or by continuation.
+    """
+    from ..equilibria import lagrange_point
+    if point not in ("L1", "L2", "L3"):
+        raise InputError(f"point '{point}': Lissajous tori are about a collinear point (L1, L2, L3)")
+    for name, v in (("ax", ax_lu), ("az", az_lu)):
+        if not (isinstance(v, (int, float)) and math.isfinite(v) and v > 0):
+            raise InputError(f"{name} {v!r} must be a positive length")
+    lp = lagrange_point(system, point)
+    centre = np.concatenate([np.asarray(lp.position, dtype=float), np.zeros(3)])
+    # the saddle of the point amplifies the seed's error by e^(lambda T) per map: start small
+    gain = math.exp(lp.modes.saddle_exponent * 2 * math.pi / lp.modes.omega_inplane)
+    f = min(1.0, FIRST_GAIN_AMPLITUDE / gain / max(ax_lu, az_lu))
+    u, T, rho = seeds.linear_lissajous(lp.modes, lp.position, f * ax_lu, f * az_lu, N_MIN)
+    ratio, done, its, prev = GROWTH, None, 0, None
+    while True:
+        seed_u = seeds.linear_lissajous(lp.modes, lp.position, f * ax_lu, f * az_lu, N_MIN)[0]
+        holds = {"jacobi": float(solver.jacobi_many(system.mu, seed_u).mean()),
+                 "amplitude": f * az_lu / math.sqrt(2.0)}
+        try:
+            u1, T1, rho1, info = solve_adaptive(system, u, T, rho, holds)
+        except ConvergenceError:
+            if prev is None or ratio < MIN_RATIO:
+                raise
+            ratio = 1 + (ratio - 1) / 2
+            f = min(done * ratio, 1.0)
+            u, T, rho = centre + (prev[0] - centre) * (f / done), prev[1], prev[2]
+            continue
+        its += info["iterations"]
+        prev, done = (u1, T1, rho1), f
+        if f >= 1.0:
+            break
+        f = min(f * ratio, 1.0)
+        u, T, rho = centre + (u1 - centre) * (f / done), T1, rho1
+    return build(system, u1, T1, rho1, info["invariance_error"], info["invariance_tolerance"],
+                 family="lissajous", point=point, holds=holds, iterations=its,
+                 around={"family": "linear Lissajous", "point": point, "ax_lu": ax_lu,
+                         "az_lu": az_lu})
