@@ -27,7 +27,7 @@ import math
 
 import numpy as np
 
-from ..errors import ConvergenceError, InputError
+from ..errors import ConvergenceError, InputError, StateError
 from ..integrate import propagate_batch
 from . import circle
 
@@ -99,7 +99,10 @@ def _residual_and_jacobian(system, x, n, ref, holds, arclength):
     T, rho = x[-2], x[-1]
     if not (T > 0 and math.isfinite(T)):
         raise ConvergenceError(f"stroboscopic time left the positive reals (T = {T:.6g} TU)")
-    res = propagate_batch(system, u, T, rtol=RTOL, atol=ATOL, stm=True)
+    try:
+        res = propagate_batch(system, u, T, rtol=RTOL, atol=ATOL, stm=True)
+    except StateError as e:   # an iterate put a point inside a primary
+        raise ConvergenceError(f"invariance-circle Newton put a point inside a primary ({e})") from None
     phi, stm = res.states, res.stm
     q, dq = circle.rotation(n, rho)
     inv = q @ phi - u
