@@ -1,0 +1,155 @@
+"""Families of tori by pseudo-arclength continuation with one quantity held.
+
+Tori of the spatial CR3BP come in two-parameter families; holding one of the Jacobi constant,
+the stroboscopic time or the rotation leaves a one-parameter family, followed here by
+pseudo-arclength continuation in the unknowns ``x = [U, T, rho]`` (Baresi, Olikara &
+Scheeres, "Fully numerical methods for continuing families of quasi-periodic invariant tori
+in astrodynamics", J. Astronaut. Sci. 65, 2018, §III; Keller's pseudo-arclength). The tangent
+is the null vector of the Jacobian of invariance + phase conditions + held quantity (numpy
+SVD); step lengths are measured with the circle's part weighted by ``1/sqrt(N)``, so that
+they do not depend on the number of points.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..errors import ConvergenceError, InputError
+from . import circle, solver
+from .torus import SurfaceError, Torus, build, solve_adaptive
+
+HOLDS = ("jacobi", "period", "rotation")
+#: A member smaller than this (LU) is the periodic orbit the family started from.
+SHRUNK_LU = 1e-6
+
+
+@dataclass(frozen=True)
+class TorusFamily:
+    """Members in continuation order, the held quantity and why the continuation stopped."""
+
+    members: tuple
+    hold: str
+    stop: str
+
+    def to_dict(self) -> dict:
+        return {"kind": "torus family", "hold": self.hold, "stop": self.stop,
+                "members": [_summary(t) for t in self.members]}
+
+
+def _summary(t: Torus) -> dict:
+    d = t.to_dict()
+    for k in ("circle", "around"):
+        d.pop(k)
+    return d
+
+
+def _weights(n: int) -> np.ndarray:
+    return np.concatenate([np.full(6 * n, 1.0 / math.sqrt(n)), [1.0, 1.0]])
+
+
+def _x(t: Torus) -> np.ndarray:
+    return np.concatenate([t.circle.ravel(), [t.stroboscopic_time, t.rotation]])
+
+
+def _resample_x(x, n_old, n_new):
+    if n_old == n_new:
+        return x
+    u = circle.resample(x[:6 * n_old].reshape(n_old, 6), n_new)
+    return np.concatenate([u.ravel(), x[-2:]])
+
+
+def tangent(system, t: Torus, hold: str, previous=None) -> np.ndarray:
+    """Unit tangent (in the weighted norm) of the family through ``t`` holding ``hold``;
+    oriented along ``previous`` when given, else towards growing amplitude."""
+    n = t.n_circle_points
+    x = _x(t)
+    value = {"jacobi": t.jacobi, "period": t.stroboscopic_time, "rotation": t.rotation}[hold]
+    ref = (t.circle, t.stroboscopic_time, t.rotation)
+    _, jac, _ = solver._residual_and_jacobian(system, x, n, ref, {hold: value}, None)
+    w = _weights(n)
+    v = np.linalg.svd(jac / w[None, :])[2][-1] / w      # null vector of J, back in x
+    v /= np.linalg.norm(w * v)
+    if previous is not None:
+        if np.dot(w * w * v, _resample_x(previous[0], previous[1], n)) < 0:
+            v = -v
+    else:
+        u, du = t.circle, v[:6 * n].reshape(n, 6)
+        grow = np.sum((u[:, :3] - u[:, :3].mean(0)) * (du[:, :3] - du[:, :3].mean(0)))
+        if grow < 0:
+            v = -v
+    return v
+
+
+def continue_family(start: Torus, hold: str = "jacobi", members: int = 10, step: float = 0.02,
+                    min_step: float = 1e-4, max_step: float = 0.2, direction: int = 1,
+                    progress=None) -> TorusFamily:
+    """Pseudo-arclength continuation of tori from ``start`` with ``hold`` fixed.
+
+    Parameters
+    ----------
+    start : Torus
+    hold : {"jacobi", "period", "rotation"}
+    members : int   members to compute after ``start``
+    step, min_step, max_step : float   arclength steps (weighted norm, nondimensional)
+    direction : +1 (growing amplitude) or -1
+    progress : callable(i, torus) or None
+
+    Returns
+    -------
+    TorusFamily (``start`` first). ``stop`` says why it ended: "members" or the reason the
+    step fell below ``min_step``.
+    """
+    if hold not in HOLDS:
+        raise InputError(f"hold '{hold}' is not allowed; allowed: {', '.join(HOLDS)}")
+    if not (isinstance(members, int) and members >= 1):
+        raise InputError(f"members {members!r} must be a whole number >= 1")
+    if direction not in (1, -1):
+        raise InputError(f"direction {direction!r} must be +1 or -1")
+    system = start.system
+    value = {"jacobi": start.jacobi, "period": start.stroboscopic_time, "rotation": start.rotation}[hold]
+    out = [start]
+    t = start
+    tan = direction * tangent(system, t, hold)
+    ds = step
+    stop = "members"
+    while len(out) <= members:
+        n = t.n_circle_points
+        x0 = _x(t)
+        xp = x0 + ds * tan
+        u = xp[:6 * n].reshape(n, 6)
+
+        def arclength(m, x0=x0, tan=tan, ds=ds, n=n):
+            w = _weights(m)
+            return (_resample_x(x0, n, m), w * w * _resample_x(tan, n, m), ds)
+        try:
+            u1, T1, rho1, info = solve_adaptive(system, u, xp[-2], xp[-1], {hold: value},
+                                                reference=(t.circle, t.stroboscopic_time, t.rotation),
+                                                arclength_fn=arclength)
+        except ConvergenceError as e:
+            ds /= 2
+            if ds < min_step:
+                stop = f"step below {min_step:g}: {e}"
+                break
+            continue
+        try:
+            new = build(system, u1, T1, rho1, info["invariance_error"], info["invariance_tolerance"],
+                        samples=64, family=start.family, point=start.point, branch=start.branch,
+                        around=start.around, holds={hold: value}, iterations=info["iterations"])
+        except SurfaceError as e:
+            stop = str(e)
+            break
+        if new.amplitude_lu < SHRUNK_LU:
+            out.append(new)
+            stop = "the torus shrank to its periodic orbit"
+            break
+        tan = tangent(system, new, hold, previous=(tan, n))
+        out.append(new)
+        t = new
+        if progress:
+            progress(len(out) - 1, new)
+        if info["iterations"] <= 4:
+            ds = min(ds * 1.5, max_step)
+    return TorusFamily(members=tuple(out), hold=hold, stop=stop)

@@ -1,0 +1,378 @@
+"""The ``Torus`` result type and the computation of a torus about a periodic orbit.
+
+A torus is stored as its invariance circle ``U`` (N x 6, the states at ``theta_1 = 2 pi j /
+N`` on the section ``theta_0 = 0``), the stroboscopic time ``T`` and the rotation ``rho``:
+``phi_T(u(theta)) = u(theta + rho)``. Its frequencies are ``omega_0 = 2 pi / T`` and
+``omega_1 = rho / T`` (rad/TU); the rotation number is ``rho / 2 pi``.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..errors import ConvergenceError, InputError, NoSolutionError, StateError
+from ..integrate import propagate_batch
+from . import circle, seeds, solver
+
+#: Smallest and largest number of points on the circle (odd).
+N_MIN, N_MAX = 15, 151
+#: The circle has enough points when its top quarter of harmonics is below this (relative).
+TAIL_TOL = 1e-9
+#: Largest accepted invariance error between the nodes (nondimensional 6-vector norm), raised
+#: for strongly hyperbolic tori to the Newton floor (``solver.FLOOR_PER_GAIN`` times the largest
+#: STM entry): the tolerance a torus states is ``Torus.invariance_tolerance``.
+INVARIANCE_TOL = 1e-8
+#: Amplitude continuation from the periodic orbit: first step (LU; smaller about unstable
+#: orbits: ``FIRST_GAIN_AMPLITUDE / |largest multiplier|``) and growth per step.
+FIRST_AMPLITUDE = 1e-3
+FIRST_GAIN_AMPLITUDE = 0.03
+GROWTH = 3.0
+MIN_RATIO = 1.05
+
+
+class SurfaceError(NoSolutionError):
+    """The torus passes inside a primary (no such torus in the model's domain)."""
+
+
+@dataclass(frozen=True)
+class Torus:
+    """A converged quasi-periodic invariant torus (2-D) of the CR3BP.
+
+    Attributes
+    ----------
+    system : System
+    circle : ndarray (N, 6)     invariance circle (nondimensional, rotating frame)
+    stroboscopic_time : float  T (TU)
+    rotation : float           rho (rad): the circle turns by rho over T
+    jacobi : float             mean Jacobi constant of the circle's points
+    jacobi_spread : float      largest minus smallest Jacobi constant on the circle
+    invariance_error : float   largest |phi_T(u(theta)) - u(theta + rho)| between the nodes
+    invariance_tolerance : float   the tolerance it was solved to (INVARIANCE_TOL, or the
+                               integrator's floor for strongly hyperbolic tori)
+    family : str               "quasi-halo" or "lissajous"
+    around : dict              the periodic orbit it was grown from (to_dict summary)
+    amplitude_lu : float       RMS distance of the circle's positions from their mean (LU)
+    holds : dict               the quantities held when it was solved
+    closest_approach_lu : (d1, d2)   least distance from each primary's centre over the torus
+    extent_lu : dict           {"x": (min, max), "y": ..., "z": ...} over the torus
+    iterations : int
+    extra : dict
+    """
+
+    system: object
+    circle: np.ndarray
+    stroboscopic_time: float
+    rotation: float
+    jacobi: float
+    jacobi_spread: float
+    invariance_error: float
+    invariance_tolerance: float = INVARIANCE_TOL
+    family: str = ""
+    point: str = ""
+    branch: str = ""
+    around: dict = field(default_factory=dict, compare=False)
+    amplitude_lu: float = float("nan")
+    holds: dict = field(default_factory=dict, compare=False)
+    closest_approach_lu: tuple = (float("nan"), float("nan"))
+    extent_lu: dict = field(default_factory=dict, compare=False)
+    iterations: int = 0
+    extra: dict = field(default_factory=dict, compare=False, repr=False)
+
+    @property
+    def n_circle_points(self) -> int:
+        return int(self.circle.shape[0])
+
+    @property
+    def frequencies_rad_tu(self) -> tuple:
+        T = self.stroboscopic_time
+        return (2 * math.pi / T, self.rotation / T)
+
+    @property
+    def rotation_deg(self) -> float:
+        return math.degrees(self.rotation)
+
+    @property
+    def rotation_number(self) -> float:
+        return self.rotation / (2 * math.pi)
+
+    def _days(self, tu):
+        return self.system.days(tu) if self.system.dimensional else None
+
+    @property
+    def stroboscopic_period_days(self):
+        return self._days(self.stroboscopic_time)
+
+    @property
+    def frequency_periods_days(self) -> tuple:
+        return tuple(None if w == 0 else self._days(2 * math.pi / abs(w))
+                     for w in self.frequencies_rad_tu)
+
+    def to_dict(self) -> dict:
+        km = self.system.km if self.system.dimensional else (lambda v: None)
+        return {
+            "kind": "torus",
+            "family": self.family,
+            "point": self.point,
+            "branch": self.branch,
+            "system": self.system.name,
+            "model": "circular restricted three-body problem (rotating frame, nondimensional "
+                     "unless a unit is named)",
+            "around": self.around,
+            "stroboscopic_time": self.stroboscopic_time,
+            "stroboscopic_period_days": self.stroboscopic_period_days,
+            "rotation_rad": self.rotation,
+            "rotation_deg": self.rotation_deg,
+            "rotation_number": self.rotation_number,
+            "frequencies_rad_tu": list(self.frequencies_rad_tu),
+            "frequency_periods_days": list(self.frequency_periods_days),
+            "jacobi": self.jacobi,
+            "jacobi_spread": self.jacobi_spread,
+            "invariance_error": self.invariance_error,
+            "invariance_tolerance": self.invariance_tolerance,
+            "n_circle_points": self.n_circle_points,
+            "amplitude_lu": self.amplitude_lu,
+            "amplitude_km": km(self.amplitude_lu),
+            "holds": dict(self.holds),
+            "closest_approach_km": dict(zip(self.system.names if self.system.dimensional
+                                            else ("primary 1", "primary 2"),
+                                            [km(d) for d in self.closest_approach_lu])),
+            "closest_approach_lu": list(self.closest_approach_lu),
+            "extent_lu": {k: list(v) for k, v in self.extent_lu.items()},
+            "extent_km": {k: [km(a) for a in v] for k, v in self.extent_lu.items()},
+            "iterations": self.iterations,
+            "circle": self.circle.tolist(),
+        }
+
+
+# ---- solving with an adaptive number of points ----------------------------------------
+
+def solve_adaptive(system, u, T, rho, holds, reference=None, arclength_fn=None):
+    """Solve, then double N (spectral resampling) while the Fourier tail or the invariance
+    error between the nodes is too large. Returns (U, T, rho, info)."""
+    its = 0
+    while True:
+        n = u.shape[0]
+        ref = reference
+        if ref is not None and ref[0].shape[0] != n:
+            ref = (circle.resample(ref[0], n), ref[1], ref[2])
+        arc = arclength_fn(n) if arclength_fn else None
+        u, T, rho, info = solver.solve(system, u, T, rho, holds, reference=ref, arclength=arc)
+        its += info["iterations"]
+        tail = circle.tail(u)
+        err = solver.invariance_error(system, u, T, rho)
+        tol = max(INVARIANCE_TOL, info["floor"])
+        if (tail < TAIL_TOL and err < tol) or n >= N_MAX:
+            break
+        u = circle.resample(u, min(2 * n + 1, N_MAX))
+    if err >= tol:
+        raise ConvergenceError(f"the torus needs more than {N_MAX} points on its circle "
+                               f"(invariance error {err:.2e} with {n})", iterations=its)
+    return u, T, rho, {"iterations": its, "tail": tail, "invariance_error": err,
+                       "invariance_tolerance": tol}
+
+
+def _kind(orbit) -> tuple[str, float | None]:
+    """Torus family around this orbit and the linear rotation that picks the branch."""
+    from ..equilibria import lagrange_point
+    if orbit.family == "halo":
+        return "quasi-halo", None
+    if orbit.family in ("lyapunov", "vertical") and orbit.point in ("L1", "L2", "L3"):
+        m = lagrange_point(orbit.system, orbit.point).modes
+        wp, wv = m.omega_inplane, m.omega_vertical
+        ratio = wv / wp if orbit.family == "lyapunov" else wp / wv
+        return "lissajous", 2 * math.pi * ratio
+    return "quasi-periodic", None
+
+
+def torus_around(orbit, amplitude_lu: float, hold: str = "jacobi", progress=None) -> Torus:
+    """The torus of the given amplitude about a periodic orbit, grown from its centre eigenpair.
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+    amplitude_lu : float   RMS distance of the invariance circle's positions from their centre
+    hold : {"jacobi", "period", "rotation"}
+        Held at the orbit's value (the Jacobi constant, the period as stroboscopic time) or at
+        the rotation of the centre eigenpair while the amplitude grows.
+    progress : callable(i, amplitude_lu) or None
+
+    Raises
+    ------
+    InputError: bad amplitude or hold. NoSolutionError: the orbit has no centre eigenpair.
+    ConvergenceError: Newton failed even with small amplitude steps.
+
+    References
+    ----------
+    Olikara & Scheeres, AAS 12-361, 2012 (method); Gómez & Mondelo, Physica D 157, 2001.
+    """
+    if not (isinstance(amplitude_lu, (int, float)) and math.isfinite(amplitude_lu)
+            and amplitude_lu > 0):
+        raise InputError(f"amplitude {amplitude_lu!r} must be a positive length")
+    if hold not in ("jacobi", "period", "rotation"):
+        raise InputError(f"hold '{hold}' is not allowed; allowed: jacobi, period, rotation")
+    system = orbit.system
+    pairs = seeds.centre_pairs(orbit.monodromy)
+    kind, rho_lin = _kind(orbit)
+    if not pairs:
+        raise NoSolutionError(f"the {orbit.family} {orbit.point} orbit has no centre eigenpair "
+                              "(no quasi-periodic tori about it); its multipliers are "
+                              f"{seeds.multipliers_text(orbit.monodromy)}")
+    if rho_lin is not None:   # the pair whose angle is nearest the linear one, mod 2 pi
+        alpha, v = min(pairs, key=lambda p: min(abs(math.remainder(s * p[0] - rho_lin, 2 * math.pi))
+                                                for s in (1, -1)))
+    else:
+        alpha, v = pairs[0]
+    rho0, sign = seeds.branch_rotation(alpha, rho_lin)
+    if sign < 0:
+        v = np.conj(v)
+    value = {"jacobi": orbit.jacobi, "period": orbit.period, "rotation": rho0}[hold]
+    lam = float(np.abs(np.linalg.eigvals(orbit.monodromy)).max())
+    a = min(amplitude_lu, FIRST_AMPLITUDE, FIRST_GAIN_AMPLITUDE / lam)
+    u = seeds.circle_from_pair(orbit.state, v, a, N_MIN)
+    T, rho = float(orbit.period), float(rho0)
+    done_a, step_ratio, k, its = 0.0, GROWTH, 0, 0
+    prev = None
+    while True:
+        holds = {hold: value, "amplitude": a}
+        try:
+            u1, T1, rho1, info = solve_adaptive(system, u, T, rho, holds)
+        except ConvergenceError:
+            if prev is None or step_ratio < MIN_RATIO:
+                raise
+            step_ratio = 1 + (step_ratio - 1) / 2
+            a = done_a * step_ratio if done_a * step_ratio < amplitude_lu else amplitude_lu
+            u, T, rho = _scaled(prev, a / done_a)
+            continue
+        its += info["iterations"]
+        k += 1
+        if progress:
+            progress(k, a)
+        prev, done_a = (u1, T1, rho1), a
+        if a >= amplitude_lu:
+            break
+        a = min(a * step_ratio, amplitude_lu)
+        u, T, rho = _scaled(prev, a / done_a)
+    return build(system, u1, T1, rho1, info["invariance_error"], info["invariance_tolerance"],
+                 family=kind, point=orbit.point,
+                 branch=orbit.branch, around=_orbit_summary(orbit), holds=holds, iterations=its,
+                 extra={"amplitude_steps": k, "centre_angle_rad": alpha})
+
+
+def _scaled(prev, ratio):
+    u, T, rho = prev
+    c = u.mean(axis=0)
+    return c + (u - c) * ratio, T, rho
+
+
+def _orbit_summary(orbit) -> dict:
+    return {"family": orbit.family, "point": orbit.point, "branch": orbit.branch,
+            "state": np.asarray(orbit.state).tolist(), "period": float(orbit.period),
+            "period_days": orbit.period_days if orbit.system.dimensional else None,
+            "jacobi": float(orbit.jacobi)}
+
+
+def build(system, u, T, rho, err, tol=INVARIANCE_TOL, samples=256, **kw) -> Torus:
+    """Torus with its geometry (closest approaches, extents) measured on the surface."""
+    C = solver.jacobi_many(system.mu, u)
+    grid = surface(system, u, T, samples)
+    flat = grid.reshape(-1, 6)
+    ext = {name: (float(flat[:, i].min()), float(flat[:, i].max()))
+           for i, name in enumerate("xyz")}
+    ca = tuple(closest_approach(system, grid, c, T / samples) for c in (-system.mu, 1 - system.mu))
+    return Torus(system=system, circle=u, stroboscopic_time=T, rotation=rho, jacobi=float(C.mean()),
+                 jacobi_spread=float(C.max() - C.min()), invariance_error=err,
+                 invariance_tolerance=tol,
+                 amplitude_lu=solver.amplitude(u), closest_approach_lu=ca, extent_lu=ext, **kw)
+
+
+def surface(system, u, T, samples=256) -> np.ndarray:
+    """States on the torus, ``grid[m, j] = phi_{m T / M}(u_j)``, shape (M + 1, N, 6); one batch
+    propagation of the whole circle per time step (no loop over points)."""
+    out = [np.asarray(u, dtype=float)]
+    dt = T / samples
+    s = out[0]
+    for _ in range(samples):
+        try:
+            s = propagate_batch(system, s, dt, rtol=solver.RTOL, atol=solver.ATOL).states
+        except StateError as e:
+            raise SurfaceError(f"the torus passes inside a primary ({e}); choose a smaller "
+                               "amplitude") from None
+        out.append(s)
+    return np.array(out)
+
+
+def closest_approach(system, grid, xc, spacing) -> float:
+    """Least distance to the primary at (xc, 0, 0): the best sample on each trajectory, then
+    Newton on ``(r - c) . v = 0`` (the distance is stationary) for all trajectories at once."""
+    N = grid.shape[1]
+    c = np.array([xc, 0.0, 0.0])
+    d = np.linalg.norm(grid[:, :, :3] - c, axis=2)
+    idx = np.argmin(d, axis=0)
+    s = grid[idx, np.arange(N)].copy()
+    best = d[idx, np.arange(N)].copy()
+    for _ in range(6):
+        rel = s[:, :3] - c
+        f = solver.eom_many(system.mu, s)
+        g = np.sum(rel * s[:, 3:], axis=1)
+        dg = np.sum(s[:, 3:] ** 2, axis=1) + np.sum(rel * f[:, 3:], axis=1)
+        ok = dg > 0
+        dt = np.where(ok, -g / np.where(ok, dg, 1.0), 0.0)
+        dt = np.clip(dt, -2.0 * spacing, 2.0 * spacing)
+        if np.all(np.abs(dt) < 1e-14):
+            break
+        moved = np.abs(dt) > 0
+        if moved.any():
+            s[moved] = propagate_batch(system, s[moved], dt[moved], rtol=solver.RTOL,
+                                       atol=solver.ATOL).states
+    dist = np.linalg.norm(s[:, :3] - c, axis=1)
+    return float(min(dist.min(), best.min()))
+
+
+def lissajous_near_point(system, point: str, ax_lu: float, az_lu: float) -> Torus:
+    """A small Lissajous torus at a collinear point from the linear solution
+    (:func:`seeds.linear_lissajous`), grown from a tiny copy by amplitude steps, each solved
+    holding the Jacobi constant of the linear seed of that size and
+    the circle's amplitude ``az_lu / sqrt(2)`` (the out-of-plane oscillation); the in-plane size
+    follows from the energy. For amplitudes where the linear solution is a good first guess
+    (a few thousand km in the Earth–Moon system); larger Lissajous tori are reached from a
+    planar Lyapunov orbit (:func:`torus_around`) or by continuation.
+    """
+    from ..equilibria import lagrange_point
+    if point not in ("L1", "L2", "L3"):
+        raise InputError(f"point '{point}': Lissajous tori are about a collinear point (L1, L2, L3)")
+    for name, v in (("ax", ax_lu), ("az", az_lu)):
+        if not (isinstance(v, (int, float)) and math.isfinite(v) and v > 0):
+            raise InputError(f"{name} {v!r} must be a positive length")
+    lp = lagrange_point(system, point)
+    centre = np.concatenate([np.asarray(lp.position, dtype=float), np.zeros(3)])
+    # the saddle of the point amplifies the seed's error by e^(lambda T) per map: start small
+    gain = math.exp(lp.modes.saddle_exponent * 2 * math.pi / lp.modes.omega_inplane)
+    f = min(1.0, FIRST_GAIN_AMPLITUDE / gain / max(ax_lu, az_lu))
+    u, T, rho = seeds.linear_lissajous(lp.modes, lp.position, f * ax_lu, f * az_lu, N_MIN)
+    ratio, done, its, prev = GROWTH, None, 0, None
+    while True:
+        seed_u = seeds.linear_lissajous(lp.modes, lp.position, f * ax_lu, f * az_lu, N_MIN)[0]
+        holds = {"jacobi": float(solver.jacobi_many(system.mu, seed_u).mean()),
+                 "amplitude": f * az_lu / math.sqrt(2.0)}
+        try:
+            u1, T1, rho1, info = solve_adaptive(system, u, T, rho, holds)
+        except ConvergenceError:
+            if prev is None or ratio < MIN_RATIO:
+                raise
+            ratio = 1 + (ratio - 1) / 2
+            f = min(done * ratio, 1.0)
+            u, T, rho = centre + (prev[0] - centre) * (f / done), prev[1], prev[2]
+            continue
+        its += info["iterations"]
+        prev, done = (u1, T1, rho1), f
+        if f >= 1.0:
+            break
+        f = min(f * ratio, 1.0)
+        u, T, rho = centre + (u1 - centre) * (f / done), T1, rho1
+    return build(system, u1, T1, rho1, info["invariance_error"], info["invariance_tolerance"],
+                 family="lissajous", point=point, holds=holds, iterations=its,
+                 around={"family": "linear Lissajous", "point": point, "ax_lu": ax_lu,
+                         "az_lu": az_lu})

@@ -1,0 +1,60 @@
+"""librate torus end to end (in-process, through cli.main), and its refusals."""
+
+import json
+
+import pytest
+
+from librate_cli.main import main
+
+
+def run(capsys, *argv):
+    try:
+        rc = main(list(argv))
+    except SystemExit as e:     # argparse's own refusals (a choice not allowed)
+        rc = e.code
+    out = capsys.readouterr()
+    return rc, out.out, out.err
+
+
+def test_torus_json_keys_and_figure(capsys, tmp_path):
+    plot = tmp_path / "t.png"
+    rc, out, err = run(capsys, "torus", "--system", "earth-moon", "--around",
+                       "halo L2 south resonance=9:2", "--amplitude", "1000km", "--format", "json",
+                       "--plot", str(plot), "-q")
+    assert rc == 0, err
+    d = json.loads(out)
+    for k in ("frequencies_rad_tu", "rotation_deg", "stroboscopic_period_days", "invariance_error",
+              "n_circle_points", "jacobi", "closest_approach_km", "extent_km", "caution", "circle"):
+        assert k in d
+    assert d["family"] == "quasi-halo" and len(d["frequencies_rad_tu"]) == 2
+    assert d["amplitude_km"] == pytest.approx(1000.0, abs=1e-3)
+    assert d["invariance_error"] < d["invariance_tolerance"]
+    assert len(d["circle"]) == d["n_circle_points"]
+    # held at the orbit's Jacobi constant (the default)
+    assert d["jacobi"] == pytest.approx(d["around"]["jacobi"], abs=1e-10)
+    assert 5000.0 > d["closest_approach_km"]["moon"] > 1737.4
+    assert plot.exists() and plot.stat().st_size > 20000
+
+
+def test_torus_table_has_caution_and_model(capsys):
+    rc, out, err = run(capsys, "torus", "--system", "earth-moon", "--around", "lyapunov L1 ax=2000km",
+                       "--amplitude", "300km", "--hold", "period", "-q")
+    assert rc == 0, err
+    assert "lissajous torus" in out and "CAUTION" in out
+    assert "circular restricted three-body model" in out
+
+
+@pytest.mark.parametrize("argv", [
+    ["--around", "halo L2 south resonance=9:2", "--amplitude", "-5km"],
+    ["--around", "halo L2 south resonance=9:2", "--amplitude", "2000 parsecs"],
+    ["--around", "halo L2 south resonance=9:2", "--amplitude", "200000km"],
+    ["--around", "halo L2 south", "--amplitude", "2000km"],
+    ["--around", "blob L2 az=3km", "--amplitude", "2000km"],
+    ["--around", "halo L2 south resonance=9:2", "--amplitude", "2000km", "--plot", "t.gif"],
+    ["--around", "halo L2 south resonance=9:2", "--amplitude", "2000km", "--plot", "/no/such/t.png"],
+    ["--around", "halo L2 south resonance=9:2", "--amplitude", "2000km", "--hold", "mass"],
+])
+def test_torus_bad_input_exit_2(capsys, argv):
+    rc, out, err = run(capsys, "torus", "--system", "earth-moon", *argv)
+    assert rc == 2 and err.startswith("librate") and "error:" in err and out == ""
+    assert len(err.strip().splitlines()) == 1
