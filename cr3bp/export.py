@@ -307,6 +307,8 @@ def _evaluate(traj: Trajectory):
 
 #: Exported and design Δv differing by more than this fraction get a warning line.
 DV_WARN_FRACTION = 0.01
+#: ... and by more than this (a zero impulse rescaled stays below it).
+DV_WARN_FLOOR_MPS = 1e-3
 _JOIN_TU = 1e-9
 
 
@@ -378,10 +380,17 @@ def dv_model_lines(traj: Trajectory) -> list[str]:
             "dv_change_percent: (dv_exported_mps - dv_design_mps) / dv_design_mps x 100"]
 
 
+def dv_differs(row) -> bool:
+    """An exported Δv differs from its design Δv by more than :data:`DV_WARN_FRACTION` (and
+    by more than :data:`DV_WARN_FLOOR_MPS`)."""
+    return (abs(row["dv_change_percent"]) > DV_WARN_FRACTION * 100.0
+            and abs(row["dv_exported_mps"] - row["dv_design_mps"]) > DV_WARN_FLOOR_MPS)
+
+
 def dv_warning(rows) -> str:
     """One warning line when an exported Δv differs from its design Δv by more than
     :data:`DV_WARN_FRACTION`, else ""."""
-    bad = [r for r in rows if abs(r["dv_change_percent"]) > DV_WARN_FRACTION * 100.0]
+    bad = [r for r in rows if dv_differs(r)]
     if not bad:
         return ""
     what = "; ".join(f"{r['label'] or r['epoch']}: design {r['dv_design_mps']:.1f} m/s, exported "

@@ -109,9 +109,9 @@ def design_transfers(plan, orbits, out, *, catalog=None, workers=None, scheduler
         routes[name] = {"best": rd(ranked[0]), "ranked": [rd(r) for r in ranked],
                         "pareto": [rd(r) for r in front], "stitched": st.to_dict(),
                         "maneuvers": list(st.maneuvers),
-                        "note": (f"stitched: Δv {st.dv_total_mps:.2f} m/s (legs alone {st.legs_dv_total_mps:.2f} m/s), "
+                        "note": (f"stitched (CR3BP): Δv {st.dv_total_mps:.2f} m/s (legs alone {st.legs_dv_total_mps:.2f} m/s), "
                                  f"time of flight {st.tof_days:.3f} d, largest position jump "
-                                 f"{st.continuity_lu * system.length_km * 1e3:.2e} m")}
+                                 f"{st.continuity_lu * system.length_km * 1e3:.2e} m; {st.note}")}
         routes[name]["labels"] = {str(k): v for k, v in label.items()}
         write_route_tables(plan, name, routes[name], out)
         headers, rows = trajectory_rows(st)
@@ -120,8 +120,7 @@ def design_transfers(plan, orbits, out, *, catalog=None, workers=None, scheduler
     return routes, stitched
 
 
-DV_DESIGN_NOTE = ("dv_design_mps (and the route's dv_mps, dv_vector_mps): the CR3BP design, rotating frame, "
-                  "fixed units")
+DV_DESIGN_NOTE = "the CR3BP design, rotating frame, fixed units (the route's dv_mps and dv_vector_mps too)"
 
 
 def write_route_tables(plan, name, summary, out, exported=()):
@@ -131,7 +130,7 @@ def write_route_tables(plan, name, summary, out, exported=()):
     exported trajectory, side by side and labelled, with a warning line where they differ by
     more than 1 %. Written after the design and again once the exports exist."""
     from .atomic import write_text
-    from .export import DV_WARN_FRACTION
+    from .export import dv_differs
     from .mission import _csv, _json
     label = summary.get("labels", {})
     mans = [dict(m, dv_design_mps=m["dv_mps"]) for m in summary["maneuvers"]]
@@ -146,7 +145,7 @@ def write_route_tables(plan, name, summary, out, exported=()):
                        f"{e['frame']}, centre {e['center']})")
         for m, r in zip(mans, rows):
             m[key] = r["dv_exported_mps"]
-            if abs(r["dv_change_percent"]) > DV_WARN_FRACTION * 100.0:
+            if dv_differs(r):
                 warnings.append(f"WARNING: transfer '{name}', maneuver at {m['t_days']:.4f} d "
                                 f"({label.get(m['node'], m['node'])}): design (CR3BP) {m['dv_design_mps']:.1f} m/s, "
                                 f"exported in {e['file']} {r['dv_exported_mps']:.1f} m/s "
