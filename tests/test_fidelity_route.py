@@ -207,7 +207,9 @@ def test_cli_end_to_end_oem_read_back(route_dir, refined, tmp_path, capsys):
     lines = [ln for ln in text.splitlines() if "MANEUVER" in ln]
     assert len(lines) == 4
     for ln, m in zip(lines, tr.maneuvers):
-        assert float(ln.split("dv_mps = ")[1].split()[0]) == pytest.approx(m["dv_mps"], rel=1e-6)
+        # the velocity jump of the file's (ephemeris-model) trajectory, and the CR3BP route's Δv beside it
+        assert float(ln.split("dv_exported_mps = ")[1].split()[0]) == pytest.approx(m["dv_mps"], rel=1e-6)
+        assert float(ln.split("dv_design_mps = ")[1].split()[0]) == pytest.approx(m["dv_cr3bp_mps"], rel=1e-12)
     rc = main(["refine", "--system", "earth-moon", "--route", str(route_dir / "route.json"), "--epoch", EPOCH,
                "--format", "json", "-q"])
     d = json.loads(capsys.readouterr().out)
