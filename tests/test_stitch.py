@@ -163,10 +163,10 @@ def test_one_leg_sun_earth_route_stitches_with_physical_tolerances():
     from cr3bp.connections import parking_legs
     se = system("sun-earth")
     orbit = halo_az(se, "L1", 2.4e-3)
-    leg = stitch.leg_from_connection(se, parking_legs(orbit, "earth", 200.0, n_points=24, t_max=6.0)[0])
+    leg = stitch.leg_from_connection(se, parking_legs(orbit, "earth", 200.0, n_points=48, t_max=6.0)[0])
     leg["from_name"], leg["to_name"] = "leo", "halo"
     res = stitch.stitch_route(se, [leg])
-    assert res.continuity_lu * se.length_km * 1e3 < stitch.CONTINUITY_LIMIT_M          # metres
+    assert res.continuity_lu * se.length_km * 1e3 < 10.0          # metres (stitch.CONTINUITY_LIMIT_M)
     assert res.note.startswith("optimised") or res.note.startswith("not optimised")
     assert res.optimised == res.note.startswith("optimised")
     assert "trim impulse at the route's end" in res.note
