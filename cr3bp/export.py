@@ -71,14 +71,27 @@ class Segment:
 
 @dataclass(frozen=True)
 class Maneuver:
-    """An impulsive velocity change at rotating time ``t_tu``, ``dv`` nondimensional rotating."""
+    """An impulsive velocity change at rotating time ``t_tu``, ``dv`` nondimensional rotating.
+
+    ``dv_design_mps`` is the maneuver's Δv in the design model (the CR3BP); by default
+    ``|dv|`` in the system's fixed velocity unit. The Δv written to a file is measured on the
+    exported trajectory instead (:func:`maneuver_table`): with the ephemeris anchoring it
+    differs, and both are written side by side.
+    """
 
     t_tu: float
     dv: np.ndarray
     label: str = ""
+    dv_design_mps: float | None = None
+
+    def design_mps(self, system) -> float:
+        if self.dv_design_mps is not None:
+            return float(self.dv_design_mps)
+        return float(np.linalg.norm(np.asarray(self.dv, dtype=float))) * system.velocity_kms * 1000.0
 
     def to_dict(self) -> dict:
-        return {"t_tu": self.t_tu, "dv": np.asarray(self.dv).tolist(), "label": self.label}
+        return {"t_tu": self.t_tu, "dv": np.asarray(self.dv).tolist(), "label": self.label,
+                "dv_design_mps": self.dv_design_mps}
 
 
 @dataclass(frozen=True)
@@ -274,6 +287,8 @@ def _center_name_oem(spec) -> str:
             return n[: -len("-system")].upper() + " BARYCENTER"
         return n.upper()
     p, s = spec.system.names
+    if spec.center in ("earth", "moon"):
+        return spec.center.upper()
     if spec.center == "primary":
         return one(p)
     if spec.center == "secondary":
@@ -290,14 +305,98 @@ def _evaluate(traj: Trajectory):
     return out
 
 
-def _maneuver_rows(traj: Trajectory):
+#: Exported and design Δv differing by more than this fraction get a warning line.
+DV_WARN_FRACTION = 0.01
+#: ... and by more than this (a zero impulse rescaled stays below it).
+DV_WARN_FLOOR_MPS = 1e-3
+_JOIN_TU = 1e-9
+
+
+def _jump_states(traj: Trajectory, m: Maneuver):
+    """Rotating states just before and just after maneuver ``m`` as the trajectory holds them:
+    the last sample of the segment ending at the maneuver and the first of the one starting
+    there; where the trajectory has only one side (a departure or arrival burn), the other
+    side is that state less (plus) the maneuver's rotating ``dv``."""
+    pre = post = None
+    for seg in traj.segments:
+        t = np.asarray(seg.t_tu, dtype=float)
+        if pre is None and abs(t[-1] - m.t_tu) <= _JOIN_TU * max(1.0, abs(m.t_tu)) and t.size > 1:
+            pre = np.asarray(seg.states[-1], dtype=float)
+        if post is None and abs(t[0] - m.t_tu) <= _JOIN_TU * max(1.0, abs(m.t_tu)):
+            post = np.asarray(seg.states[0], dtype=float)
+    dv = np.concatenate([np.zeros(3), np.asarray(m.dv, dtype=float)])
+    if pre is None and post is None:
+        raise InputError(f"maneuver '{m.label}' at t = {m.t_tu:.9g} TU is not at a segment boundary of the "
+                         "trajectory")
+    if pre is None:
+        pre = post - dv
+    if post is None:
+        post = pre + dv
+    return pre, post
+
+
+def maneuver_table(traj: Trajectory) -> list[dict]:
+    """The maneuvers as written: per maneuver ``epoch`` (text on the trajectory's time system),
+    ``tdb_s``, ``dv_kms`` (the velocity jump of the exported trajectory at that epoch, on the
+    export axes: state after minus state before, both through :func:`cr3bp.frames.to_frame`),
+    ``dv_exported_mps`` (its magnitude), ``dv_design_mps`` (the design model's, the CR3BP),
+    ``dv_change_percent`` and ``label``.
+
+    The exported jump is measured on the trajectory, not converted from the design's Δv: with
+    the ephemeris anchoring velocities scale with the instantaneous distance of the
+    primaries, so the two differ (by a few per cent in Earth-Moon); both are reported.
+    """
     rows = []
+    system = traj.frame.system
     for m in traj.maneuvers:
-        dv = _frames.delta_v_to_frame(traj.frame, [m.t_tu], [m.dv])[0]
-        tdb = traj.frame.epoch_tdb_s + m.t_tu * traj.frame.system.time_s
-        rows.append((str(_frames.epoch_to_text(np.array([tdb]), traj.time_system)[0]), dv,
-                     float(np.linalg.norm(dv)) * 1000.0, m.label))
+        pre, post = _jump_states(traj, m)
+        tdb, kms = _frames.to_frame(traj.frame, [m.t_tu, m.t_tu], np.vstack([pre, post]))
+        dv = kms[1, 3:] - kms[0, 3:]
+        exported = float(np.linalg.norm(dv)) * 1000.0
+        design = m.design_mps(system)
+        change = (exported - design) / design * 100.0 if design > 0 else 0.0
+        rows.append({"epoch": str(_frames.epoch_to_text(tdb[:1], traj.time_system)[0]), "tdb_s": float(tdb[0]),
+                     "dv_kms": dv, "dv_exported_mps": exported, "dv_design_mps": design,
+                     "dv_change_percent": float(change), "label": m.label,
+                     "position_jump_km": float(np.linalg.norm(kms[1, :3] - kms[0, :3]))})
     return rows
+
+
+def dv_model_lines(traj: Trajectory) -> list[str]:
+    """Header lines saying which model each Δv of the maneuver table belongs to."""
+    sysm = traj.frame.system
+    spec = traj.frame
+    if spec.axes == "rotating":
+        how = "CR3BP rotating axes with the fixed length unit"
+    elif spec.anchor == "circular":
+        how = "circular anchoring: the fixed CR3BP units, so equal to the design's up to rounding"
+    else:
+        how = (f"ephemeris anchoring: lengths and speeds scale with the instantaneous {sysm.names[0]}-"
+               f"{sysm.names[1]} distance, so it differs from the design's")
+    return [f"dv_design_mps: the maneuver's Δv in the design model, the CR3BP of {sysm.name} with fixed "
+            f"units (1 VU = {sysm.velocity_kms:.9g} km/s)",
+            f"dv_exported_mps: the velocity jump of the exported trajectory at the maneuver epoch "
+            f"(state after minus state before, in this file's frame; {how}); dv_kms holds its components",
+            "dv_change_percent: (dv_exported_mps - dv_design_mps) / dv_design_mps x 100"]
+
+
+def dv_differs(row) -> bool:
+    """An exported Δv differs from its design Δv by more than :data:`DV_WARN_FRACTION` (and
+    by more than :data:`DV_WARN_FLOOR_MPS`)."""
+    return (abs(row["dv_change_percent"]) > DV_WARN_FRACTION * 100.0
+            and abs(row["dv_exported_mps"] - row["dv_design_mps"]) > DV_WARN_FLOOR_MPS)
+
+
+def dv_warning(rows) -> str:
+    """One warning line when an exported Δv differs from its design Δv by more than
+    :data:`DV_WARN_FRACTION`, else ""."""
+    bad = [r for r in rows if dv_differs(r)]
+    if not bad:
+        return ""
+    what = "; ".join(f"{r['label'] or r['epoch']}: design {r['dv_design_mps']:.1f} m/s, exported "
+                     f"{r['dv_exported_mps']:.1f} m/s ({r['dv_change_percent']:+.1f}%)" for r in bad)
+    return (f"WARNING: {len(bad)} of {len(rows)} exported maneuvers differ from the design (CR3BP) Δv by more "
+            f"than {DV_WARN_FRACTION * 100:g}% ({what}); budget with the model you will fly")
 
 
 def _model_lines(traj: Trajectory) -> list[str]:
@@ -321,6 +420,14 @@ def _model_lines(traj: Trajectory) -> list[str]:
     else:
         lines.append("Anchoring: instantaneous ephemeris frame of the secondary relative to the primary "
                      "(x along r, z along r x v, lengths scaled by |r|)")
+        lo, hi = _length_scale_range(traj)
+        if lo is not None:
+            lines.append(f"Length scale over this file: {lo:.1f} to {hi:.1f} km (x{lo / sysm.length_km:.4f} to "
+                         f"x{hi / sysm.length_km:.4f} of the CR3BP length unit): distances, speeds and Δv here "
+                         "differ from the CR3BP design's by that factor")
+    if spec.center in ("earth", "moon"):
+        lines.append(f"Centre: the {spec.center} placed in the {sysm.names[1]} barycentre by the ephemeris "
+                     "(cr3bp.ephemeris); the CR3BP places only the barycentre")
     lines.append(f"Epoch of rotating time 0: {spec.to_dict()['epoch_tdb']} TDB; centre {spec.center_name}")
     if spec.axes == "j2000-ecliptic":
         lines.append("REF_FRAME J2000_ECLIPTIC: mean ecliptic and equinox of J2000, EME2000 rotated "
@@ -334,6 +441,17 @@ def _model_lines(traj: Trajectory) -> list[str]:
     for k, v in traj.model.items():
         lines.append(f"{k}: {v}")
     return lines
+
+
+def _length_scale_range(traj: Trajectory, most: int = 4000):
+    """Least and greatest length scale |r| (km) of the ephemeris anchoring over the trajectory's
+    epochs (a subsample of at most ``most`` epochs, plus each segment's ends)."""
+    t = np.concatenate([np.asarray(seg.t_tu, dtype=float) for seg in traj.segments]) if traj.segments else np.zeros(0)
+    if t.size == 0:
+        return None, None
+    pick = np.unique(np.concatenate([t[:: max(1, t.size // most)], [t.min(), t.max()]]))
+    _, _, length, _ = _frames.basis(traj.frame, traj.frame.epoch_tdb_s + pick * traj.frame.system.time_s)
+    return float(length.min()), float(length.max())
 
 
 def _frame_keys(traj: Trajectory) -> list[str]:
@@ -378,13 +496,17 @@ def _oem_parts(traj: Trajectory, creation_date, interpolation, degree):
                          "use csv or json for the rotating frame")
     ts = _frames.time_system(traj.time_system)
     evaluated = _evaluate(traj)
-    man = _maneuver_rows(traj)
-    header = (caution_lines(), [("CREATION_DATE", creation_date or _now_utc()), ("ORIGINATOR", ORIGINATOR)])
+    table = maneuver_table(traj)
+    warn = dv_warning(table)
+    header = (caution_lines() + ([warn] if warn else []),
+              [("CREATION_DATE", creation_date or _now_utc()), ("ORIGINATOR", ORIGINATOR)])
     starts = [float(seg.t_tu[0]) for seg in traj.segments]
     segments = []
     for k, (seg, (tdb, ep, st)) in enumerate(zip(traj.segments, evaluated)):
         if k == 0:
             mcom = _model_lines(traj) + _frame_keys(traj)
+            if table:
+                mcom += ["Maneuver lines: " + line for line in dv_model_lines(traj)]
         else:
             mcom = [f"segment {k + 1} of {len(traj.segments)} (follows a maneuver or a gap)"]
         meta = [("OBJECT_NAME", traj.object_name), ("OBJECT_ID", traj.object_id),
@@ -393,9 +515,10 @@ def _oem_parts(traj: Trajectory, creation_date, interpolation, degree):
                 ("USEABLE_STOP_TIME", ep[-1]), ("STOP_TIME", ep[-1])]
         if len(ep) > degree:
             meta += [("INTERPOLATION", interpolation), ("INTERPOLATION_DEGREE", str(degree))]
-        dcom = [f"MANEUVER epoch = {mep} dv_kms = {float(dv[0])!r} {float(dv[1])!r} {float(dv[2])!r} "
-                f"dv_mps = {mps!r}" + (f" label = {label}" if label else "")
-                for m, (mep, dv, mps, label) in zip(traj.maneuvers, man) if _segment_of(starts, m.t_tu) == k]
+        dcom = [f"MANEUVER epoch = {r['epoch']} dv_kms = {float(r['dv_kms'][0])!r} {float(r['dv_kms'][1])!r} "
+                f"{float(r['dv_kms'][2])!r} dv_exported_mps = {r['dv_exported_mps']!r} "
+                f"dv_design_mps = {r['dv_design_mps']!r}" + (f" label = {r['label']}" if r["label"] else "")
+                for m, r in zip(traj.maneuvers, table) if _segment_of(starts, m.t_tu) == k]
         segments.append((mcom, meta, dcom, ep, st))
     return header, segments
 
@@ -503,19 +626,31 @@ def csv_text(traj: Trajectory) -> tuple[str, str | None]:
     for k, (tdb, ep, st) in enumerate(_evaluate(traj)):
         body = _data_lines(ep, st).replace(" ", ",")
         parts.append("".join(f"{k},{line}\n" for line in body.splitlines()))
-    man = _maneuver_rows(traj)
+    table = maneuver_table(traj)
     mtext = None
-    if man:
+    if table:
         buf = io.StringIO()
-        buf.write("# librate maneuvers (CSV): impulsive velocity changes in the export frame\n")
+        buf.write("# librate maneuvers (CSV): impulsive velocity changes of the trajectory beside this file\n")
         for line in caution_lines():
             buf.write(f"# {line}\n")
+        for line in dv_model_lines(traj):
+            buf.write(f"# {line}\n")
+        warn = dv_warning(table)
+        if warn:
+            buf.write(f"# {warn}\n")
         wr = csv.writer(buf, lineterminator="\n")
-        wr.writerow([f"epoch_{ts.lower()}", "dvx_kms", "dvy_kms", "dvz_kms", "dv_mps", "label"])
-        for mep, dv, mps, label in man:
-            wr.writerow([mep, *(repr(float(x)) for x in dv), repr(mps), label])
+        wr.writerow(maneuver_columns(ts))
+        for r in table:
+            wr.writerow([r["epoch"], *(repr(float(x)) for x in r["dv_kms"]), repr(r["dv_exported_mps"]),
+                         repr(r["dv_design_mps"]), f"{r['dv_change_percent']:.3f}", r["label"]])
         mtext = buf.getvalue()
     return "".join(parts), mtext
+
+
+def maneuver_columns(ts: str) -> list[str]:
+    """Columns of the maneuver table ``NAME.maneuvers.csv``."""
+    return [f"epoch_{ts.lower()}", "dvx_kms", "dvy_kms", "dvz_kms", "dv_exported_mps", "dv_design_mps",
+            "dv_change_percent", "label"]
 
 
 def maneuvers_path(path) -> Path:
@@ -544,6 +679,8 @@ def write_csv(path, traj: Trajectory) -> Path:
 def json_payload(traj: Trajectory, creation_date: str | None = None) -> dict:
     spec = traj.frame
     ts = _frames.time_system(traj.time_system)
+    table = maneuver_table(traj)
+    warn = dv_warning(table)
     segs = []
     for tdb, ep, st in _evaluate(traj):
         segs.append({"start_time": str(ep[0]), "stop_time": str(ep[-1]), "epochs": ep.tolist(),
@@ -557,8 +694,11 @@ def json_payload(traj: Trajectory, creation_date: str | None = None) -> dict:
         "units": {"position": "km", "velocity": "km/s", "dv": "km/s"},
         "columns": ["epoch"] + COLUMNS,
         "segments": segs,
-        "maneuvers": [{"epoch": e, "dv_kms": dv.tolist(), "dv_mps": m, "label": label}
-                      for e, dv, m, label in _maneuver_rows(traj)],
+        "maneuvers": [{"epoch": r["epoch"], "dv_kms": r["dv_kms"].tolist(), "dv_exported_mps": r["dv_exported_mps"],
+                       "dv_design_mps": r["dv_design_mps"], "dv_change_percent": r["dv_change_percent"],
+                       "label": r["label"]} for r in table],
+        "maneuver_keys": dv_model_lines(traj) if table else [],
+        "warnings": [warn] if warn else [],
         "extra": dict(traj.model),
     }
 
@@ -652,7 +792,8 @@ def _parse_maneuver(text: str, ts: str):
     try:
         body = text.split("MANEUVER", 1)[1]
         ep = body.split("epoch =", 1)[1].split("dv_kms =", 1)[0].strip()
-        dvs = body.split("dv_kms =", 1)[1].split("dv_mps =", 1)[0].split()
+        key = "dv_exported_mps =" if "dv_exported_mps =" in body else "dv_mps ="
+        dvs = body.split("dv_kms =", 1)[1].split(key, 1)[0].split()
         label = body.split("label =", 1)[1].strip() if "label =" in body else ""
         dv = np.array([float(x) for x in dvs[:3]])
     except (IndexError, ValueError):
@@ -884,11 +1025,14 @@ def read_csv(path) -> ReadResult:
     mans = []
     mp = maneuvers_path(path)
     if mp.exists():
+        head = None
         for line in csv.reader(x for x in mp.read_text(encoding="utf-8").splitlines()[1:] if x and not x.startswith("#")):
             if line[0].startswith("epoch_"):
+                head = line
                 continue
+            lab = head.index("label") if head and "label" in head else 5
             mans.append((line[0], float(_frames.epochs_from_texts([line[0]], ts)[0]),
-                         np.array([float(x) for x in line[1:4]]), line[5] if len(line) > 5 else ""))
+                         np.array([float(x) for x in line[1:4]]), line[lab] if len(line) > lab else ""))
     return ReadResult("csv", {}, tuple(segs), ts, _frame_from_keys(keys), tuple(mans),
                       keys.get("object_name", ""), keys.get("object_id", ""))
 

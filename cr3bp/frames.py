@@ -35,6 +35,12 @@ Inertial axes: ``j2000-equator`` (EME2000: mean equator and equinox of J2000) an
 of the IAU 2006 obliquity 84381.406 arcsec about x; Hilton et al., Celest. Mech. Dyn. Astr. 94,
 2006, from memory -- the value the project's ephemeris module uses for its J2000 ecliptic).
 ``rotating`` keeps the CR3BP axes, dimensional (km, km/s, length unit fixed), re-centred.
+
+Centres: the primary, the secondary or the barycentre (points of the rotating x axis), and
+where the secondary is itself a barycentre (Sun-Earth: the Earth-Moon barycentre) also the
+``earth`` or the ``moon``: the state about the secondary minus the body's ephemeris state
+about that barycentre (:func:`body_offset`; inertial axes only). Ground systems expect
+geocentric states; the CR3BP places only the barycentre.
 """
 
 from __future__ import annotations
@@ -49,7 +55,11 @@ from .errors import InputError
 
 AXES = ("j2000-equator", "j2000-ecliptic", "rotating")
 ANCHORS = ("ephemeris", "circular")
-CENTERS = ("primary", "secondary", "barycenter")
+CENTERS = ("primary", "secondary", "barycenter", "earth", "moon")
+#: Centres that are bodies of a secondary barycentre (Sun-Earth: the secondary is the
+#: Earth-Moon barycentre): secondary name -> (body, ...). Their offset from the barycentre
+#: comes from the ephemeris (:func:`body_offset`).
+BODY_CENTERS = {"earth-moon": ("earth", "moon")}
 TIME_SYSTEMS = ("TDB", "TT", "TAI", "UTC")
 
 #: IAU 2006 obliquity of the ecliptic at J2000 (Hilton et al. 2006, from memory; pyerfa obl06
@@ -327,17 +337,22 @@ class FrameSpec:
     orientation: Orientation | None = None
     extra: dict = field(default_factory=dict, compare=False, repr=False)
 
+    def __post_init__(self):
+        # one spelling per centre: "earth" in Earth-Moon is the primary, in Sun-Earth a body
+        # inside the secondary barycentre (placed by the ephemeris)
+        object.__setattr__(self, "center", resolve_center(self.system, self.center))
+
     @property
     def center_x(self) -> float:
         """Rotating x of the centre (nondimensional)."""
         mu = self.system.mu
-        return {"primary": -mu, "barycenter": 0.0, "secondary": 1.0 - mu}[self.center]
+        return {"primary": -mu, "barycenter": 0.0}.get(self.center, 1.0 - mu)
 
     @property
     def center_name(self) -> str:
         """Plain name of the centre, e.g. ``"earth"`` or ``"earth-moon barycenter"``."""
         p, s = self.system.names
-        return {"primary": p, "secondary": s, "barycenter": f"{p}-{s} barycenter"}[self.center]
+        return {"primary": p, "secondary": s, "barycenter": f"{p}-{s} barycenter"}.get(self.center, self.center)
 
     def to_dict(self) -> dict:
         return {
@@ -379,9 +394,38 @@ def resolve_center(system, center: str) -> str:
     p, s = (n.lower() for n in system.names)
     table = {"primary": "primary", "secondary": "secondary", "barycenter": "barycenter",
              "barycentre": "barycenter", p: "primary", s: "secondary"}
+    bodies = BODY_CENTERS.get(s, ())
+    for b in bodies:
+        table.setdefault(b, b)
     if key not in table:
-        raise InputError(f"unknown centre '{center}'; allowed: {p}, {s}, barycenter")
+        raise InputError(f"unknown centre '{center}'; allowed: {', '.join([p, s, 'barycenter', *bodies])}")
     return table[key]
+
+
+def check_center_axes(system, center: str, axes: str) -> None:
+    """A body centre inside the secondary barycentre (the Earth or the Moon in Sun-Earth) is
+    placed through the ephemeris: it needs inertial axes."""
+    if center in ("earth", "moon") and center not in (n.lower() for n in system.names) and axes == "rotating":
+        raise InputError(f"centre '{center}' in {system.name} is placed by the ephemeris and needs inertial "
+                         "axes (j2000-equator or j2000-ecliptic), not rotating")
+
+
+def body_offset(spec: "FrameSpec", tdb_s):
+    """State (N, 6) km, km/s of a body centre relative to the secondary barycentre, on the
+    spec's axes (zeros for the centres on the CR3BP x axis).
+
+    Sun-Earth: the Earth (or the Moon) about the Earth-Moon barycentre from
+    :func:`cr3bp.ephemeris.state` (``center="emb"``), whatever the anchoring: the CR3BP
+    places the barycentre, the ephemeris the body inside it.
+    """
+    t = np.atleast_1d(np.asarray(tdb_s, dtype=float))
+    if spec.center not in ("earth", "moon") or spec.center in (n.lower() for n in spec.system.names):
+        return np.zeros((t.size, 6))
+    from . import ephemeris
+    off = np.asarray(ephemeris.state(spec.center, _epoch(t), _BODY.get(spec.system.secondary.name, "emb"),
+                                     "j2000-equator")).reshape(t.size, 6)
+    a = _axes_from_eq(spec.axes)
+    return np.hstack([off[:, :3] @ a.T, off[:, 3:] @ a.T])
 
 
 def frame(system, epoch, *, anchor="ephemeris", axes="j2000-equator", center="primary",
@@ -398,7 +442,8 @@ def frame(system, epoch, *, anchor="ephemeris", axes="j2000-equator", center="pr
     anchor : {"ephemeris", "circular"}
     axes : {"j2000-equator", "j2000-ecliptic", "rotating"}
     center : str
-        ``"primary"``, ``"secondary"``, ``"barycenter"`` or a primary's name.
+        ``"primary"``, ``"secondary"``, ``"barycenter"`` or a primary's name; in Sun-Earth also
+        ``"earth"`` or ``"moon"`` (through the ephemeris, inertial axes only).
     orientation : Orientation or (inclination_deg, node_deg, latitude_arg_deg), optional
         Circular anchoring only; default from the secondary's ephemeris at the epoch.
 
@@ -411,6 +456,7 @@ def frame(system, epoch, *, anchor="ephemeris", axes="j2000-equator", center="pr
     anchor = _choice("anchoring", anchor, ANCHORS)
     axes = _choice("frame", axes, AXES)
     center = resolve_center(system, center)
+    check_center_axes(system, center, axes)
     t0 = epoch_from_text(epoch, time_scale) if isinstance(epoch, str) else float(epoch)
     if not math.isfinite(t0):
         raise InputError(f"epoch {epoch!r} is not finite")
@@ -508,6 +554,8 @@ def to_frame(spec: FrameSpec, t_tu, states) -> tuple[np.ndarray, np.ndarray]:
     out = np.empty_like(s)
     out[:, :3] = np.einsum("nij,nj->ni", c, l[:, None] * rho)
     out[:, 3:] = np.einsum("nij,nj->ni", c, rot_v)
+    if spec.center in ("earth", "moon"):
+        out -= body_offset(spec, tdb)
     return tdb, out
 
 
@@ -518,6 +566,8 @@ def from_frame(spec: FrameSpec, tdb_s, states_km) -> tuple[np.ndarray, np.ndarra
     if s.shape != (tdb.size, 6):
         raise InputError(f"states have shape {s.shape}; expected ({tdb.size}, 6) to match the epochs")
     c, w, l, ld = basis(spec, tdb)
+    if spec.center in ("earth", "moon"):
+        s = s + body_offset(spec, tdb)
     ct = np.swapaxes(c, -1, -2)
     rho = np.einsum("nij,nj->ni", ct, s[:, :3]) / l[:, None]
     rv = np.einsum("nij,nj->ni", ct, s[:, 3:])
@@ -553,4 +603,6 @@ def with_(spec: FrameSpec, **changes) -> FrameSpec:
         changes["axes"] = _choice("frame", changes["axes"], AXES)
     if "center" in changes:
         changes["center"] = resolve_center(spec.system, changes["center"])
-    return replace(spec, **changes)
+    out = replace(spec, **changes)
+    check_center_axes(out.system, out.center, out.axes)
+    return out

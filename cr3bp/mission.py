@@ -681,12 +681,19 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
     # ---- exports ----------------------------------------------------------------------
     exports = []
     for i, ex in enumerate(plan.data.get("exports", [])):
-        path = _export(plan, ex, orbits, stitched, out, created)
+        path, man = _export(plan, ex, orbits, stitched, out, created)
         exports.append({"object": ex["object"], "format": ex["format"], "file": path.name,
                         "frame": ex.get("frame", "j2000-equator"), "center": ex.get("center", "primary"),
                         "time_system": ex.get("time_system", "tdb").upper(),
-                        "anchor": ex.get("anchor", "ephemeris")})
+                        "anchor": ex.get("anchor", "ephemeris"), "maneuvers": man})
         _say(progress, f"export {path.name}")
+        from .export import dv_warning
+        if dv_warning(man):
+            _say(progress, f"{path.name}: {dv_warning(man)}")
+    if routes:     # the route tables again, now with the exported Δv beside the design's
+        from .mission_transfers import write_route_tables
+        for name in routes:
+            write_route_tables(plan, name, routes[name], out, [e for e in exports if e["object"] == name])
 
     # ---- figures ----------------------------------------------------------------------
     figures = _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progress)
@@ -754,7 +761,7 @@ def _export(plan, ex, orbits, stitched, out, created):
     export.write(path, traj, fmt, creation_date=created)
     if fmt == "csv" and traj.maneuvers:
         out.files.append(export.maneuvers_path(path))
-    return path
+    return path, export.maneuver_table(traj)
 
 
 def _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progress) -> dict:

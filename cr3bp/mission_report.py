@@ -75,9 +75,18 @@ def _routes_section(routes, figures) -> str:
                         left=3)
         html += f"<p>{R.esc(tof_definition_note(legs))}</p>"
         if r.get("maneuvers"):
-            html += "<p>Maneuvers of the stitched trajectory:</p>" + R.table(
-                ["time since start [d]", "Δv [m/s]", "Δv vector (rotating) [m/s]"],
-                [(R.fmt(m["t_days"]), R.fmt(m["dv_mps"]), R.fmt(m["dv_vector_mps"])) for m in r["maneuvers"]], left=0)
+            mans = r.get("maneuvers_labelled") or [dict(m, dv_design_mps=m["dv_mps"]) for m in r["maneuvers"]]
+            keys = [k for k in (r.get("dv_models") or {}) if k.startswith("dv_exported_mps[")]
+            html += ("<p>Maneuvers of the stitched trajectory. Design: the CR3BP, fixed units. Exported: the "
+                     "velocity jump measured on the exported trajectory in the file named (its anchoring "
+                     "rescales speeds, so it can differ from the design).</p>") + R.table(
+                ["time since start [d]", "Δv, design (CR3BP) [m/s]"]
+                + [f"Δv, exported ({R.esc(k[len('dv_exported_mps['):-1])}) [m/s]" for k in keys]
+                + ["Δv vector (rotating, CR3BP) [m/s]"],
+                [(R.fmt(m["t_days"]), R.fmt(m["dv_design_mps"]), *(R.fmt(m[k]) for k in keys),
+                  R.fmt(m["dv_vector_mps"])) for m in mans], left=0)
+            for w in r.get("dv_warnings") or []:
+                html += f"<p><strong>{R.esc(w)}</strong></p>"
         if r.get("note"):
             html += f"<p>{R.esc(r['note'])}</p>"
         for key in (f"corridor-{name}", f"pareto-{name}"):

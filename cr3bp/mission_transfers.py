@@ -109,20 +109,61 @@ def design_transfers(plan, orbits, out, *, catalog=None, workers=None, scheduler
         routes[name] = {"best": rd(ranked[0]), "ranked": [rd(r) for r in ranked],
                         "pareto": [rd(r) for r in front], "stitched": st.to_dict(),
                         "maneuvers": list(st.maneuvers),
-                        "note": (f"stitched: Δv {st.dv_total_mps:.2f} m/s (legs alone {st.legs_dv_total_mps:.2f} m/s), "
+                        "note": (f"stitched (CR3BP): Δv {st.dv_total_mps:.2f} m/s (legs alone {st.legs_dv_total_mps:.2f} m/s), "
                                  f"time of flight {st.tof_days:.3f} d to the step-off point on the final orbit "
                                  "(coasts included), largest position jump "
-                                 f"{st.continuity_lu * system.length_km * 1e3:.2e} m")}
-        write_text(out.path(f"route-{name}.json"), _json({"caution": plan_caution(), "transfer": name,
-                                                           **routes[name]}))
+                                 f"{st.continuity_lu * system.length_km * 1e3:.2e} m; {st.note}")}
+        routes[name]["labels"] = {str(k): v for k, v in label.items()}
+        write_route_tables(plan, name, routes[name], out)
         headers, rows = trajectory_rows(st)
         write_text(out.path(f"route-{name}-trajectory.csv"), _csv(headers, rows, [f"stitched transfer {name}"]))
-        write_text(out.path(f"route-{name}-maneuvers.csv"), _csv(
-            ["t_days", "node", "x_km", "y_km", "z_km", "dv_x_mps", "dv_y_mps", "dv_z_mps", "dv_mps"],
-            [[m["t_days"], label.get(m["node"], m["node"]), *m["position_km"], *m["dv_vector_mps"], m["dv_mps"]]
-             for m in st.maneuvers], [f"maneuvers of transfer {name}; Δv vectors in the rotating frame"]))
         _figures(plan, t, orbits, ranked, front, st, out)
     return routes, stitched
+
+
+DV_DESIGN_NOTE = "the CR3BP design, rotating frame, fixed units (the route's dv_mps and dv_vector_mps too)"
+
+
+def write_route_tables(plan, name, summary, out, exported=()):
+    """``route-NAME.json`` and ``route-NAME-maneuvers.csv``: the stitched route's maneuvers with
+    their design (CR3BP) Δv and, per export of this transfer (``exported``: dicts with ``file``
+    and ``maneuvers``, the rows of :func:`cr3bp.export.maneuver_table`), the Δv measured on the
+    exported trajectory, side by side and labelled, with a warning line where they differ by
+    more than 1 %. Written after the design and again once the exports exist."""
+    from .atomic import write_text
+    from .export import dv_differs
+    from .mission import _csv, _json
+    label = summary.get("labels", {})
+    mans = [dict(m, dv_design_mps=m["dv_mps"]) for m in summary["maneuvers"]]
+    models = {"dv_design_mps": DV_DESIGN_NOTE}
+    warnings = []
+    for e in exported:
+        rows = e["maneuvers"]
+        if len(rows) != len(mans):
+            continue
+        key = f"dv_exported_mps[{e['file']}]"
+        models[key] = (f"the velocity jump of the exported trajectory in {e['file']} ({e['anchor']} anchoring, "
+                       f"{e['frame']}, centre {e['center']})")
+        for m, r in zip(mans, rows):
+            m[key] = r["dv_exported_mps"]
+            if dv_differs(r):
+                warnings.append(f"WARNING: transfer '{name}', maneuver at {m['t_days']:.4f} d "
+                                f"({label.get(m['node'], m['node'])}): design (CR3BP) {m['dv_design_mps']:.1f} m/s, "
+                                f"exported in {e['file']} {r['dv_exported_mps']:.1f} m/s "
+                                f"({r['dv_change_percent']:+.1f}%): budget with the model you will fly")
+    summary["maneuvers_labelled"] = mans
+    summary["dv_models"] = models
+    summary["dv_warnings"] = warnings
+    body = {k: v for k, v in summary.items() if k not in ("labels", "maneuvers_labelled")}
+    body["maneuvers"] = mans
+    write_text(out.path(f"route-{name}.json"), _json({"caution": plan_caution(), "transfer": name, **body}))
+    keys = [k for k in models if k != "dv_design_mps"]
+    write_text(out.path(f"route-{name}-maneuvers.csv"), _csv(
+        ["t_days", "node", "x_km", "y_km", "z_km", "dv_x_mps", "dv_y_mps", "dv_z_mps", "dv_design_mps"] + keys,
+        [[m["t_days"], label.get(m["node"], m["node"]), *m["position_km"], *m["dv_vector_mps"], m["dv_design_mps"],
+          *(m[k] for k in keys)] for m in mans],
+        [f"maneuvers of transfer {name}; Δv vectors in the rotating frame"]
+        + [f"{k}: {v}" for k, v in models.items()] + warnings))
 
 
 def plan_caution():

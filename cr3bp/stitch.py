@@ -17,7 +17,8 @@ Nonlinear Programming*, 2nd ed., 2010, ch. 4 — both from memory):
    system) from the legs' own patch points;
 2. minimisation of the total Δv under those constraints by sequential quadratic programming
    (scipy's SLSQP; the |Δv| norm smoothed by ε² under the square root);
-3. minimum-norm Newton again to polish continuity to ``POSITION_TOL``.
+3. minimum-norm Newton again to polish continuity to ``POSITION_TOL_M`` and
+   ``VELOCITY_TOL_MMPS`` (physical units, the same in every system).
 
 The optimised answer is kept only if it is feasible and cheaper than step 1's; otherwise
 step 1's is returned and the result says why. No feasible point → ConvergenceError.
@@ -33,8 +34,13 @@ import numpy as np
 from .errors import ConvergenceError, InputError, NoSolutionError
 
 NEWTON_ITERATIONS = 25
-POSITION_TOL = 1e-11      # LU, ~4 mm in Earth-Moon
-CONTINUITY_LIMIT = 1e-9   # LU, the promise checked on the output (0.4 m in Earth-Moon)
+# Tolerances in physical units, the same in every system (in LU they were 4 mm in Earth-Moon
+# but 1.5 m in Sun-Earth, where months-long arcs integrated at rtol 1e-12 stall above that)
+POSITION_TOL_M = 0.01         # Newton stops when every position mismatch is under 1 cm ...
+VELOCITY_TOL_MMPS = 0.01      # ... and every velocity mismatch under 0.01 mm/s,
+CONTINUITY_LIMIT_M = 10.0     # or, stalled at the integration's floor, under these limits
+VELOCITY_LIMIT_MMPS = 1.0     # (the promise checked on the output: position jumps under 10 m)
+STALL_ITERATIONS = 4          # no tenfold decrease over this many iterations: stalled
 SMOOTHING = 1e-9          # LU/TU added in quadrature to each |Δv| for the optimiser
 TIME_SCALE_BOUNDS = (0.5, 2.0)
 SAMPLES_PER_SEGMENT = 40
@@ -58,7 +64,8 @@ class StitchedRoute:
     legs_dv_total_mps, legs_tof_days   the route's legs as computed separately
     continuity_lu : float        largest position jump at any segment boundary
     constraints : dict           name -> {"value", "limit", "holds"}
-    optimised : bool             step 2 improved on step 1 (see ``note``)
+    optimised : bool             step 2 ran to its end (see ``note``: whether it lowered the
+                                 total, or why it did not run: no free direction, or stopped)
     """
 
     system: object
@@ -138,6 +145,27 @@ class _Problem:
         self.s_end = np.array(legs[-1]["arrival_state"])
         self._cache_key = None
         self.evaluations = 0
+        # Without a burn at the route's end (a manifold arrival) the end state is held whole:
+        # with the start and the continuity that is more equations than unknowns (one leg:
+        # 6K + 3 > 6K + 1), solvable only as far as the legs themselves are consistent and
+        # leaving the optimiser nothing to move. A trim impulse there (zero as laid; then the
+        # start if needed) makes the problem square or better, and is reported as a maneuver.
+        self.trim_end = self.trim_start = False
+        if self.rows() > self.unknowns() and not self.end_burn:
+            self.end_burn = self.trim_end = True
+        if self.rows() > self.unknowns() and not self.start_burn:
+            self.start_burn = self.trim_start = True
+
+    def unknowns(self) -> int:
+        return 6 * self.K + self.L
+
+    def rows(self) -> int:
+        """Number of constraint equations (see :meth:`constraints`)."""
+        n = 3 + (0 if self.start_burn else 3) + (3 if self.end_burn else 6)
+        for k in range(self.K - 1):
+            burn = (k in self.junction and self.junction[k][1]) or k in self.inner_burn
+            n += (3 if burn else 6) + (3 if k in self.junction else 0)
+        return n
 
     # -- propagation of every segment with its STM, cached on z ------------------------
     def segments(self, z):
@@ -161,20 +189,21 @@ class _Problem:
     def constraints(self, z):
         X, tau, E, P, R = self.segments(z)
         n = z.size
-        rows, jac = [], []
+        rows, jac, kinds = [], [], []
 
-        def add(value, parts):
+        def add(value, parts, comps=slice(0, 3)):
             for r in range(value.size):
                 row = np.zeros(n)
                 for col, block in parts:
                     row[col] += block[r]
                 jac.append(row)
             rows.extend(value)
+            kinds.extend([0, 0, 0, 1, 1, 1][comps][:value.size])   # 0: position, 1: velocity
 
         K6 = 6 * self.K
         add(X[0, :3] - self.s_start[:3], [(slice(0, 3), np.eye(3))])
         if not self.start_burn:
-            add(X[0, 3:] - self.s_start[3:], [(slice(3, 6), np.eye(3))])
+            add(X[0, 3:] - self.s_start[3:], [(slice(3, 6), np.eye(3))], slice(3, 6))
         for k in range(self.K):
             dT = R[k] * self.tau0[k]                                 # d(end state)/d(scale)
             tcol = K6 + self.leg_of[k]
@@ -186,14 +215,23 @@ class _Problem:
                 m = 3 if burn else 6
                 add(E[k, comps] - X[k + 1, comps],
                     [(slice(6 * k, 6 * k + 6), P[k][comps]), (slice(tcol, tcol + 1), dT[comps][:, None]),
-                     (slice(6 * (k + 1), 6 * (k + 1) + m), -np.eye(6)[:m, :m])])
+                     (slice(6 * (k + 1), 6 * (k + 1) + m), -np.eye(6)[:m, :m])], comps)
                 if k in self.junction:
                     add(X[k + 1, :3] - self.junction[k][0], [(slice(nxt.start, nxt.start + 3), np.eye(3))])
             else:
                 comps = slice(0, 3) if self.end_burn else slice(0, 6)
                 add(E[k, comps] - self.s_end[comps],
-                    [(slice(6 * k, 6 * k + 6), P[k][comps]), (slice(tcol, tcol + 1), dT[comps][:, None])])
+                    [(slice(6 * k, 6 * k + 6), P[k][comps]), (slice(tcol, tcol + 1), dT[comps][:, None])], comps)
+        self.kinds = np.array(kinds)
         return np.array(rows), np.array(jac)
+
+    def tolerances(self, pos_m=None, vel_mmps=None):
+        """Per constraint row, a tolerance in LU or LU/TU from physical ones (default the
+        Newton tolerances :data:`POSITION_TOL_M`, :data:`VELOCITY_TOL_MMPS`)."""
+        s = self.system
+        pos = (POSITION_TOL_M if pos_m is None else pos_m) / (s.length_km * 1e3)
+        vel = (VELOCITY_TOL_MMPS if vel_mmps is None else vel_mmps) / (s.velocity_kms * 1e6)
+        return np.where(self.kinds == 1, vel, pos)
 
     # -- the impulses and the total Δv ------------------------------------------------
     def burns(self, z):
@@ -251,19 +289,32 @@ def _has_burn(leg, t) -> bool:
 def _newton(problem, z):
     """Minimum-norm Newton steps on F(z) = 0 (least-squares solution of J dz = -F)."""
     res = []
+    best = None
     for it in range(1, NEWTON_ITERATIONS + 1):
         F, J = problem.constraints(z)
         res.append(float(np.max(np.abs(F))) if F.size else 0.0)
-        if res[-1] < POSITION_TOL:
+        if not F.size or np.all(np.abs(F) < problem.tolerances()):
             return z, it, res
+        # months-long Sun-Earth arcs stall at metres (integration error amplified): accept the
+        # best point once stalled if it is within the physical limits
+        within = np.all(np.abs(F) < problem.tolerances(CONTINUITY_LIMIT_M, VELOCITY_LIMIT_MMPS))
+        if within and (best is None or res[-1] < best[1]):
+            best = (z.copy(), res[-1])
+        if best is not None and it > STALL_ITERATIONS and min(res[-STALL_ITERATIONS:]) > 0.1 * res[-STALL_ITERATIONS - 1]:
+            return best[0], it, res
         dz = np.linalg.lstsq(J, -F, rcond=None)[0]
         if not np.all(np.isfinite(dz)):
             break
         z = z + dz
         lo, hi = TIME_SCALE_BOUNDS
         z[6 * problem.K:] = np.clip(z[6 * problem.K:], lo, hi)
+    F, _ = problem.constraints(z)
+    s = problem.system
+    pos = float(np.abs(F[problem.kinds == 0]).max(initial=0.0)) * s.length_km * 1e3
+    vel = float(np.abs(F[problem.kinds == 1]).max(initial=0.0)) * s.velocity_kms * 1e6
     raise ConvergenceError(f"stitching: continuity not reached in {NEWTON_ITERATIONS} Newton iterations "
-                           f"(largest residual {res[-1]:.3e} LU)", len(res), res, z)
+                           f"(largest mismatch {pos:.3g} m in position, {vel:.3g} mm/s in velocity; "
+                           f"tolerances {POSITION_TOL_M:g} m, {VELOCITY_TOL_MMPS:g} mm/s)", len(res), res, z)
 
 
 PHASING_SAMPLES = 4000    # samples of one period when looking for the departure phase
@@ -370,7 +421,13 @@ def stitch_route(system, route, constraints=None, optimise=True, max_iterations=
     z1, it1, res1 = _newton(p, p.z0.copy())
     cost1 = p.cost(z1)
     z, note, optimised, it2 = z1, "", False, 0
-    if optimise and p.L >= 1:
+    free = p.unknowns() - int(np.linalg.matrix_rank(p.constraints(z1)[1]))
+    if not optimise:
+        note = "not optimised (switched off): the continuity solution"
+    elif free <= 0:
+        note = (f"not optimised: the constraints ({p.rows()} equations on {p.unknowns()} unknowns) leave no "
+                "free direction, so the total Δv is the continuity solution's")
+    if optimise and free > 0:
         from scipy.optimize import minimize
         lo, hi = TIME_SCALE_BOUNDS
         bounds = [(None, None)] * (6 * p.K) + [(lo, hi)] * p.L
@@ -384,11 +441,18 @@ def stitch_route(system, route, constraints=None, optimise=True, max_iterations=
             cost2 = p.cost(z2)
             if cost2 < cost1 and p.total_time(z2) <= T0 * (1 + 1e-12):
                 z, optimised = z2, True
-                note = f"SLSQP: {sol.message}"
+                note = f"optimised by SLSQP ({sol.message})"
+            elif not sol.success:
+                note = f"not optimised: SLSQP stopped ({sol.message}); the continuity solution is kept"
             else:
-                note = f"SLSQP gave no improvement ({sol.message}); continuity solution kept"
+                note = f"optimised: SLSQP found no lower total ({sol.message}); the continuity solution is kept"
+                optimised = True
         except (ConvergenceError, ValueError, np.linalg.LinAlgError) as e:
-            note = f"optimisation step failed ({e}); continuity solution kept"
+            note = f"not optimised: the optimisation step failed ({e}); the continuity solution is kept"
+    if p.trim_end or p.trim_start:
+        where = " and ".join(w for w, f in (("start", p.trim_start), ("end", p.trim_end)) if f)
+        note += (f"; a trim impulse at the route's {where} (none declared there) keeps the problem from being "
+                 "over-determined")
     return _result(system, p, z, legs, constraints, optimised, note,
                    {"newton": it1, "optimiser": it2, "evaluations": p.evaluations})
 
@@ -411,8 +475,9 @@ def _result(system, p, z, legs, constraints, optimised, note, iterations):
             cont = max(cont, float(np.linalg.norm(arc.states[-1, :3] - X[k + 1, :3])))
     cont = max(cont, float(np.linalg.norm(X[0, :3] - p.s_start[:3])),
                float(np.linalg.norm(E[-1, :3] - p.s_end[:3])))
-    if cont > CONTINUITY_LIMIT:
-        raise ConvergenceError(f"stitched trajectory has a position jump of {cont:.3e} LU", 0, [cont], z)
+    if cont * system.length_km * 1e3 > CONTINUITY_LIMIT_M:
+        raise ConvergenceError(f"stitched trajectory has a position jump of {cont * system.length_km * 1e3:.3g} m "
+                               f"(limit {CONTINUITY_LIMIT_M:g} m)", 0, [cont], z)
     times, states, seg = np.concatenate(times), np.concatenate(states), np.concatenate(seg)
     names = [legs[0]["from_name"]] + [leg["to_name"] for leg in legs]
     boundary_node = {-1: names[0], p.K - 1: names[-1]}
@@ -424,7 +489,8 @@ def _result(system, p, z, legs, constraints, optimised, note, iterations):
         pos = X[0, :3] if k == -1 else E[k, :3]
         before = p.s_start if k == -1 else E[k]
         after = np.concatenate([before[:3], before[3:] + dv])
-        man.append({"t_days": t * system.time_days, "node": boundary_node.get(k, "patch point"),
+        trim = (k == -1 and p.trim_start) or (k == p.K - 1 and p.trim_end)
+        man.append({"t_days": t * system.time_days, "node": boundary_node.get(k, "patch point"), "trim": bool(trim),
                     "position_lu": pos.tolist(), "position_km": (pos * system.length_km).tolist(),
                     "dv_vector_mps": [float(system.mps(v)) for v in dv], "dv_mps": float(system.mps(float(np.linalg.norm(dv)))),
                     "jacobi_before": float(jacobi(system.mu, before)),
@@ -485,9 +551,9 @@ def to_export(result: StitchedRoute, frame_spec, object_name="LIBRATE ROUTE"):
         cur_s.append(st)
     segs.append(export.Segment(np.concatenate(cur_t), np.concatenate(cur_s)))
     vu = s.velocity_kms * 1e3
-    mans = tuple(export.Maneuver(float(tm), np.asarray(m["dv_vector_mps"]) / vu, m["node"])
+    mans = tuple(export.Maneuver(float(tm), np.asarray(m["dv_vector_mps"]) / vu, m["node"], float(m["dv_mps"]))
                  for tm, m in zip(man_t, result.maneuvers))
-    model = {"route": " -> ".join(result.nodes), "dv_total_mps": result.dv_total_mps,
+    model = {"route": " -> ".join(result.nodes), "dv_total_design_mps (CR3BP)": result.dv_total_mps,
              "tof_days": result.tof_days, "method": "multiple shooting (librate stitch)"}
     return export.Trajectory(frame_spec, tuple(segs), "TDB", mans, object_name, "NONE", model)
 

@@ -36,5 +36,6 @@ def test_sun_earth_l1_halo_four_revolutions():
     ref = np.linalg.norm(tr.reference_km[:, :3], axis=1)
     assert r.min() > 0.9 * ref.min() and r.max() < 1.1 * ref.max()
     for row in tr.per_rev:
-        assert row["max_position_diff_km"] < 100000.0, row
+        assert row["max_same_epoch_separation_km"] < 100000.0, row
+        assert row["max_path_offset_km"] <= row["max_same_epoch_separation_km"] + 1e-6, row
     assert sel1_halo().period_days == pytest.approx(177.8, abs=0.5)

@@ -183,6 +183,36 @@ def test_orbit_spec_wiring_with_a_stand_in_solver(tmp_path, monkeypatch):
     assert "COMMENT orbit: halo L2 south" in text and "COMMENT orbit request: halo L2 south period=14.8d" in text
 
 
+def test_sun_earth_geocentric_and_selenocentric_exports(tmp_path, capsys):
+    """Regression: Sun-Earth exports could be centred only on the Earth-Moon barycentre.
+    `--center earth` / `moon` give geocentric / selenocentric states (the body placed in the
+    barycentre by the ephemeris; checked against pyerfa in tests/test_against_pyerfa_frames.py):
+    here the files differ from the barycentric one by that offset, row by row."""
+    base = ["export", "--system", "sun-earth", "--state", "1.01,0,0.001,0,0.009,0", "--epoch",
+            "2031-03-01T00:00:00Z", "--span", "10d", "--step", "1d", "-q"]
+    files = {}
+    for c in ("earth-moon", "earth", "moon"):
+        files[c] = tmp_path / f"se-{c}.oem"
+        assert main(base + ["--center", c, "--out", str(files[c])]) == 0
+    emb, geo, sel = (export.read(files[c]) for c in ("earth-moon", "earth", "moon"))
+    assert geo.segments[0].metadata["CENTER_NAME"] == "EARTH"
+    assert sel.segments[0].metadata["CENTER_NAME"] == "MOON"
+    assert geo.frame.center == "earth" and "placed in the earth-moon barycentre" in files["earth"].read_text()
+    d_geo = np.linalg.norm(geo.segments[0].states[:, :3] - emb.segments[0].states[:, :3], axis=1)
+    d_sel = np.linalg.norm(sel.segments[0].states[:, :3] - emb.segments[0].states[:, :3], axis=1)
+    # the Earth is ~4 700 km from the barycentre, the Moon ~380 000 km (from memory)
+    assert np.all((4000 < d_geo) & (d_geo < 5000)) and np.all((3.4e5 < d_sel) & (d_sel < 4.1e5))
+    # and back to rotating states through the file's own frame description
+    back = export.to_rotating(geo)[0].states
+    assert np.allclose(back, export.to_rotating(emb)[0].states, rtol=0, atol=1e-11)   # file precision
+    # the rotating axes have no place for an ephemeris body: refused, nothing written
+    bad = tmp_path / "bad.csv"
+    assert main(base + ["--center", "earth", "--frame", "rotating", "--out", str(bad)]) == 2
+    assert "needs inertial axes" in capsys.readouterr().err and not bad.exists()
+    assert main(base + ["--center", "pluto", "--out", str(bad)]) == 2
+    assert "allowed: sun, earth-moon, barycenter, earth, moon" in capsys.readouterr().err
+
+
 def test_other_systems_and_missing_period(tmp_path, capsys):
     se = tmp_path / "se.oem"
     assert main(["export", "--system", "sun-earth", "--state", "1.01,0,0.001,0,0.009,0", "--epoch",

@@ -52,6 +52,26 @@ def test_json(capsys):
     assert d["continuity_km"] < 1e-3
 
 
+def test_offsets_are_named_for_what_they_are(capsys):
+    """Regression: the table showed 'max_dv_mps' and 'max_dr_km', differences at equal epochs
+    that read as Δv and distance but are mostly timing. Now: the distance to the nearest point
+    of the design's path, the timing offset, and the separation at equal epochs, named so; no
+    Δv column but real maneuvers."""
+    code, out, _ = run(capsys, *ARGS, "-q")
+    assert code == 0
+    for old in ("max_dv_mps", "max_dr_km"):
+        assert old not in out
+    for new in ("max_path_offset_km", "max_timing_offset_min", "max_same_epoch_separation_km"):
+        assert new in out
+    code, out, _ = run(capsys, *ARGS, "--format", "json", "-q")
+    rows = json.loads(out)["per_revolution"]
+    for r in rows:
+        assert not any(k.startswith("max_dv") or k.startswith("max_dr") for k in r)
+        # the path offset is a distance to the nearest point: never more than the separation at equal epochs
+        assert 0.0 <= r["max_path_offset_km"] <= r["max_same_epoch_separation_km"] + 1e-6
+        assert r["max_timing_offset_min"] >= 0.0
+
+
 @pytest.mark.parametrize("extra,needle", [
     (["--bodies", "sun,vulcan"], "unknown body 'vulcan'"),
     (["--srp", "0.01m2/kg"], "--srp"),

@@ -69,7 +69,7 @@ def test_route_end_to_end_with_files(capsys, nodes_file):
     assert "CAUTION" in text
     rows = list(csv.DictReader(line for line in text.splitlines() if not line.startswith("#")))
     assert len(rows) == len(body["stitched"]["maneuvers"])
-    assert sum(float(r["dv_mps"]) for r in rows) == pytest.approx(body["stitched"]["dv_total_mps"], rel=1e-9)
+    assert sum(float(r["dv_design_mps"]) for r in rows) == pytest.approx(body["stitched"]["dv_total_mps"], rel=1e-9)
     traj = [r for r in (out_dir / "trajectory.csv").read_text().splitlines() if not r.startswith("#")]
     assert traj[0].startswith("t_tu,t_days,segment,x_lu")
 
@@ -164,6 +164,20 @@ def test_route_oem_with_an_epoch(capsys, nodes_file):
     assert len(segments) == n_man - 1                    # interior maneuvers split the arcs
     t_total = sum((s.useable_stop_time - s.useable_start_time).sec for s in segments)
     assert t_total / 86400.0 == pytest.approx(body["stitched"]["tof_days"], abs=1e-6)
+    # route.json and maneuvers.csv carry the design (CR3BP) Δv and the Δv measured on route.oem
+    # side by side, labelled; they agree with the OEM's MANEUVER lines
+    saved = json.loads((out_dir / "route.json").read_text())
+    key = "dv_exported_mps[route.oem]"
+    assert "CR3BP" in saved["dv_models"]["dv_design_mps"] and "route.oem" in saved["dv_models"][key]
+    from cr3bp import export
+    read = export.read(out_dir / "route.oem")
+    text = (out_dir / "route.oem").read_text()
+    for m in saved["maneuvers"]:
+        assert m["dv_design_mps"] == m["dv_mps"]
+        assert f"dv_exported_mps = {m[key]!r}" in text
+    assert len(read.maneuvers) == n_man
+    mcsv = (out_dir / "maneuvers.csv").read_text()
+    assert key in mcsv and "dv_design_mps" in mcsv
     rc, out, err = run(capsys, "route", "--system", "earth-moon", "--nodes", p, "--no-catalog",
                        "--from", "p0", "--to", "p3", "--epoch", "2025-03-01T00:00:00Z")
     assert rc == 2 and "--out" in err

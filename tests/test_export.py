@@ -69,11 +69,53 @@ def test_csv_layout_and_maneuver_file(tmp_path):
     mlines = man.read_text().splitlines()
     assert any("CAUTION" in ln for ln in mlines)
     row = [ln for ln in mlines if not ln.startswith("#")]
-    assert row[0] == "epoch_tt,dvx_kms,dvy_kms,dvz_kms,dv_mps,label"
+    assert row[0] == "epoch_tt,dvx_kms,dvy_kms,dvz_kms,dv_exported_mps,dv_design_mps,dv_change_percent,label"
     vals = row[1].split(",")
     dv = np.array([float(x) for x in vals[1:4]])
     assert abs(np.linalg.norm(dv) * 1000 - float(vals[4])) < 1e-9
-    assert vals[5] == "burn-1"
+    assert vals[7] == "burn-1"
+
+
+@pytest.mark.parametrize("anchor", ["ephemeris", "circular"])
+def test_exported_maneuvers_are_the_velocity_jumps_of_the_exported_trajectory(tmp_path, anchor):
+    """The maneuver table is measured on the file's own trajectory (velocity after minus before
+    at the maneuver epoch), and the design (CR3BP) Δv sits beside it, labelled; with the
+    ephemeris anchoring the two differ by the instantaneous Earth-Moon distance over the length
+    unit, and a warning line says so when that exceeds 1 %."""
+    traj = _traj("TDB", anchor=anchor, maneuver=True)
+    path = export.write_csv(tmp_path / "t.csv", traj)
+    data = export.read(path)
+    a, b = data.segments
+    assert a.epochs[-1] == b.epochs[0]
+    jump = b.states[0, 3:] - a.states[-1, 3:]                    # km/s, read back from the file
+    mtext = export.maneuvers_path(path).read_text()
+    lines = [ln for ln in mtext.splitlines() if not ln.startswith("#")]
+    head, vals = lines[0].split(","), lines[1].split(",")
+    row = dict(zip(head, vals))
+    dv_file = np.array([float(row[k]) for k in ("dvx_kms", "dvy_kms", "dvz_kms")])
+    assert np.abs(dv_file - jump).max() < 3e-10                 # the file's 1e-10 km/s print precision
+    assert abs(float(row["dv_exported_mps"]) - np.linalg.norm(jump) * 1000) < 1e-6
+    design = np.linalg.norm(traj.maneuvers[0].dv) * EM.velocity_kms * 1000
+    assert abs(float(row["dv_design_mps"]) - design) < 1e-9
+    assert "dv_design_mps: the maneuver's Δv in the design model, the CR3BP" in mtext
+    assert "dv_exported_mps: the velocity jump of the exported trajectory" in mtext
+    tdb = traj.frame.epoch_tdb_s + traj.maneuvers[0].t_tu * EM.time_s
+    scale = frames.basis(traj.frame, [tdb])[2][0] / EM.length_km
+    change = float(row["dv_change_percent"])
+    if anchor == "ephemeris":
+        assert abs(change - (scale - 1) * 100) < 1e-3
+        assert abs(scale - 1) > 0.01                            # the epoch's Moon is 1 % off the mean
+        assert "WARNING: 1 of 1 exported maneuvers differ from the design (CR3BP)" in mtext
+    else:
+        assert abs(change) < 1e-6 and "WARNING" not in mtext
+    # the OEM and the JSON carry the same pair, labelled
+    oem = export.write_oem(tmp_path / "t.oem", traj).read_text()
+    assert f"dv_design_mps = {float(design)!r}"[:30] in oem and "dv_exported_mps = " in oem
+    assert ("WARNING" in oem) == (anchor == "ephemeris")
+    js = json.loads(export.write_json(tmp_path / "t.json", traj).read_text())
+    m = js["maneuvers"][0]
+    assert abs(m["dv_design_mps"] - design) < 1e-9 and abs(m["dv_exported_mps"] - float(row["dv_exported_mps"])) < 1e-9
+    assert len(export.read(tmp_path / "t.oem").maneuvers) == 1
 
 
 def test_json_keys(tmp_path):

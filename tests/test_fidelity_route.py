@@ -153,7 +153,8 @@ def test_delta_v_table_and_bounds(refined):
     slack = sum(2 * 3 * e * np.linalg.norm(m["state_before_km"][3:]) * 1000 for m in tr.maneuvers)
     assert 0.0 < tr.dv_total_mps <= tr.dv_total_cr3bp_mps + slack
     for a in tr.arcs:
-        assert 0.0 < a["max_position_diff_km"] < 20_000.0 and a["patches"] >= 3
+        assert 0.0 < a["max_same_epoch_separation_km"] < 20_000.0 and a["patches"] >= 3
+        assert a["max_path_offset_km"] <= a["max_same_epoch_separation_km"] + 1e-6
 
 
 def test_circular_model_gives_back_the_cr3bp_route(refined):
@@ -173,8 +174,9 @@ def test_circular_model_gives_back_the_cr3bp_route(refined):
 
     kw = dict(anchor="circular", sample=sample)
     same = transition_route(S, t, st, man, EPOCH, ("earth",), optimise=False, **kw)
-    assert max(a["max_position_diff_km"] for a in same.arcs) < 1e-3
-    assert max(a["max_velocity_diff_mps"] for a in same.arcs) < 1e-3
+    assert max(a["max_same_epoch_separation_km"] for a in same.arcs) < 1e-3
+    assert max(a["max_path_offset_km"] for a in same.arcs) < 1e-3 and max(a["max_timing_offset_min"] for a in same.arcs) < 1e-3
+    assert max(a["max_same_epoch_velocity_diff_mps"] for a in same.arcs) < 1e-3
     for m in same.maneuvers:
         assert m["dv_mps"] == pytest.approx(m["dv_cr3bp_mps"], abs=1e-3)
     opt = transition_route(S, t, st, man, EPOCH, ("earth",), **kw)
@@ -205,7 +207,9 @@ def test_cli_end_to_end_oem_read_back(route_dir, refined, tmp_path, capsys):
     lines = [ln for ln in text.splitlines() if "MANEUVER" in ln]
     assert len(lines) == 4
     for ln, m in zip(lines, tr.maneuvers):
-        assert float(ln.split("dv_mps = ")[1].split()[0]) == pytest.approx(m["dv_mps"], rel=1e-6)
+        # the velocity jump of the file's (ephemeris-model) trajectory, and the CR3BP route's Δv beside it
+        assert float(ln.split("dv_exported_mps = ")[1].split()[0]) == pytest.approx(m["dv_mps"], rel=1e-6)
+        assert float(ln.split("dv_design_mps = ")[1].split()[0]) == pytest.approx(m["dv_cr3bp_mps"], rel=1e-12)
     rc = main(["refine", "--system", "earth-moon", "--route", str(route_dir / "route.json"), "--epoch", EPOCH,
                "--format", "json", "-q"])
     d = json.loads(capsys.readouterr().out)

@@ -11,6 +11,7 @@ import sys
 import time
 from pathlib import Path
 
+import numpy as np
 import pytest
 from _chromium import render
 
@@ -208,5 +209,33 @@ def test_demo_scenario_end_to_end(tmp_path):
     manifest = json.loads((out / "manifest.json").read_text())
     for o in manifest["outputs"]:
         assert hashlib.sha256((out / o["file"]).read_bytes()).hexdigest() == o["sha256"]
+    # the seam design -> export (issue: the report said 631.5 m/s where the maneuver file said
+    # 661.2 m/s, unlabelled): every maneuver file, the route JSON and the report carry the
+    # design (CR3BP) Δv and the Δv measured on the exported trajectory side by side, labelled
+    from cr3bp import export
+    key = "dv_exported_mps[llo-to-relay.csv]"
+    design = [m["dv_mps"] for m in st["maneuvers"]]
+    assert [m["dv_design_mps"] for m in route["maneuvers"]] == design
+    exported = [m[key] for m in route["maneuvers"]]
+    assert "CR3BP" in route["dv_models"]["dv_design_mps"] and "llo-to-relay.csv" in route["dv_models"][key]
+    data = export.read(out / "llo-to-relay.csv")          # the exported trajectory, as written
+    jumps = [np.linalg.norm(b.states[0, 3:] - a.states[-1, 3:]) * 1000.0
+             for a, b in zip(data.segments[:-1], data.segments[1:])]
+    # interior maneuvers: the velocity jumps between the file's segments (1e-10 km/s printed)
+    assert np.allclose(jumps, exported[1:-1], rtol=0, atol=1e-6)
+    mfile = (out / "llo-to-relay.maneuvers.csv").read_text()
+    rows = [ln.split(",") for ln in mfile.splitlines() if ln and not ln.startswith("#")]
+    head, rows = rows[0], rows[1:]
+    col = {h: i for i, h in enumerate(head)}
+    assert np.allclose([float(r[col["dv_exported_mps"]]) for r in rows], exported, rtol=0, atol=1e-9)
+    assert np.allclose([float(r[col["dv_design_mps"]]) for r in rows], design, rtol=0, atol=1e-9)
+    big = [abs(e - d) > 0.01 * d and abs(e - d) > 1e-3 for e, d in zip(exported, design)]
+    assert any(big)                      # the ephemeris anchoring moves them by a few per cent
+    assert ("WARNING" in mfile) and len(route["dv_warnings"]) == sum(big)
+    routes_csv = (out / "route-llo-to-relay-maneuvers.csv").read_text()
+    assert "dv_design_mps" in routes_csv and key in routes_csv
+    html = (out / "report.html").read_text()
+    assert "Δv, design (CR3BP) [m/s]" in html and "Δv, exported (llo-to-relay.csv) [m/s]" in html
+    assert html.count("WARNING: transfer") == sum(big)
     probe = render(out / "report.html", tmp_path)
     assert probe["broken"] == "0" and probe["caution"] == "true"

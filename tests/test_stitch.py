@@ -144,3 +144,33 @@ def test_retiming_recovers_the_ballistic_arc_through_the_nodes():
     assert res.dv_total_mps < 1e-2                      # one centimetre per second
     assert res.tof_days == pytest.approx(5.4, abs=1e-4)
     assert res.continuity_lu < CONTINUITY_LU
+
+
+def test_one_leg_sun_earth_route_stitches_with_physical_tolerances():
+    """Regression: a one-leg Sun-Earth route (200 km LEO to an L1 halo along its stable
+    manifold, about 3.2 km/s and 200 days; common practice, from memory, as in
+    tests/test_against_common_practice_leo_halo.py) failed: the end state held whole made the
+    problem over-determined (6K + 3 equations on 6K + 1 unknowns), the optimiser could not run
+    ("More equality constraints than independent variables") and Newton stalled metres away
+    from a tolerance of 1e-11 LU. Now the tolerances are metres and mm/s, a trim impulse at the
+    end keeps the problem square, and the note says plainly whether it was optimised."""
+    import sys
+    from pathlib import Path
+    sys.path.insert(0, str(Path(__file__).parent))
+    from _orbit_fixtures import halo_az
+
+    from cr3bp import system
+    from cr3bp.connections import parking_legs
+    se = system("sun-earth")
+    orbit = halo_az(se, "L1", 2.4e-3)
+    leg = stitch.leg_from_connection(se, parking_legs(orbit, "earth", 200.0, n_points=48, t_max=6.0)[0])
+    leg["from_name"], leg["to_name"] = "leo", "halo"
+    res = stitch.stitch_route(se, [leg])
+    assert res.continuity_lu * se.length_km * 1e3 < 10.0          # metres (stitch.CONTINUITY_LIMIT_M)
+    assert res.note.startswith("optimised") or res.note.startswith("not optimised")
+    assert res.optimised == res.note.startswith("optimised")
+    assert "trim impulse at the route's end" in res.note
+    assert [m["trim"] for m in res.maneuvers] == [False, True]
+    assert res.maneuvers[-1]["dv_mps"] < 1.0                  # the trim is small: the leg arrives
+    assert res.dv_total_mps <= res.legs_dv_total_mps + 1.0
+    assert 3100.0 <= res.dv_total_mps <= 3300.0

@@ -56,7 +56,10 @@ def test_one_heteroclinic_leg_stitches_to_zero_dv():
     assert res.tof_days == pytest.approx(leg["tof_days"], rel=1e-6)
     C = jacobi(em.mu, res.states)
     assert np.ptp(C) < 1e-9 and C[0] == pytest.approx(3.15, abs=1e-6)
-    assert [m["node"] for m in res.maneuvers] == ["patch point"]
+    # the declared burn, and the end's trim impulse (the end state is not held whole: see
+    # cr3bp.stitch; the whole total is under 1 mm/s, so the trim is too)
+    assert [m["node"] for m in res.maneuvers if not m["trim"]] == ["patch point"]
+    assert [m["node"] for m in res.maneuvers if m["trim"]] == ["east"]
 
 
 PARKED = '''system = "earth-moon"

@@ -22,7 +22,8 @@ def add_frame_options(p, defaults=True):
                         "CR3BP rotating axes in km" + (" (default j2000-equator)" if defaults else ""))
     g.add_argument("--center", metavar="BODY", default=None,
                    help="origin: the larger primary (default), the smaller one, or barycenter; "
-                        "by name, e.g. earth, moon, barycenter")
+                        "by name, e.g. earth, moon, barycenter; in sun-earth also earth or moon "
+                        "(placed in the Earth-Moon barycentre by the ephemeris)")
     g.add_argument("--time-system", choices=TIME_SYSTEMS, type=str.lower, default="tdb" if defaults else None,
                    help="time system of the epochs written" + (" (default tdb)" if defaults else ""))
     g.add_argument("--anchor", choices=ANCHORS, default="ephemeris" if defaults else None,

@@ -123,15 +123,22 @@ def run(args):
             not_stitched = str(e)
             common.progress(args, f"librate: the best route is not stitched: {e}")
     files = []
+    table, warn = [], ""
     if args.out and stitched is not None:
-        files += _export(args, system, routes, front, stitched, name)
+        traj = None
         if frame_spec is not None:
+            from cr3bp.export import dv_warning, maneuver_table
+            from cr3bp.stitch import to_export
+            traj = to_export(stitched, frame_spec)
+            table = maneuver_table(traj)          # Δv measured on the exported trajectory
+            warn = dv_warning(table)
+        files += _export(args, system, routes, front, stitched, name, table)
+        if traj is not None:
             from pathlib import Path as _P
 
             from cr3bp.export import write_oem
-            from cr3bp.stitch import to_export
             oem = str(_P(args.out) / "route.oem")
-            write_oem(oem, to_export(stitched, frame_spec))
+            write_oem(oem, traj)
             files.append(oem)
     if args.plot and stitched is not None:
         files += _plots(args, system, g, routes, front, stitched)
@@ -161,15 +168,22 @@ def run(args):
              for r in front],
             title="Pareto set (no other route is better on both Δv and time of flight)")
     if stitched is not None:
+        ex_head = ["dv_exported_mps[route.oem]"] if table else []
         text += "\n" + common.format_table(
-            ["t_days", "node", "dv_x_mps", "dv_y_mps", "dv_z_mps", "dv_mps"],
-            [[m["t_days"], m["node"], *m["dv_vector_mps"], m["dv_mps"]] for m in stitched.maneuvers],
-            title=(f"stitched best route: Δv {stitched.dv_total_mps:.3f} m/s (legs alone "
+            ["t_days", "node", "dv_x_mps", "dv_y_mps", "dv_z_mps", "dv_design_mps"] + ex_head,
+            [[m["t_days"], m["node"], *m["dv_vector_mps"], m["dv_mps"]] + ([r["dv_exported_mps"]] if table else [])
+             for m, r in zip(stitched.maneuvers, table or [None] * len(stitched.maneuvers))],
+            title=(f"stitched best route (CR3BP): Δv {stitched.dv_total_mps:.3f} m/s (legs alone "
                    f"{stitched.legs_dv_total_mps:.3f} m/s), time of flight {stitched.tof_days:.4f} d, "
-                   f"largest position jump {stitched.continuity_lu * system.length_km * 1e3:.2e} m"))
+                   f"largest position jump {stitched.continuity_lu * system.length_km * 1e3:.2e} m; "
+                   f"{stitched.note}"))
         for c, v in stitched.constraints.items():
             text += f"{c}: {v['value']:.6g} against {v['limit']:.6g}: {'holds' if v['holds'] else 'VIOLATED'}\n"
-        text += "Δv vectors are in the rotating frame.\n"
+        text += ("Δv vectors and dv_design_mps: the CR3BP design, rotating frame." + (
+            " dv_exported_mps[route.oem]: the velocity jump of the trajectory in route.oem (its anchoring "
+            "rescales speeds)." if table else "") + "\n")
+        if warn:
+            text += warn + "\n"
     if not_stitched:
         text += f"\nnot stitched: {not_stitched}\n"
     for f in files:
@@ -206,7 +220,7 @@ def _route_dict(r, name):
     return d
 
 
-def _export(args, system, routes, front, stitched, name):
+def _export(args, system, routes, front, stitched, name, table=()):
     from pathlib import Path
 
     from cr3bp.atomic import write_text
@@ -214,14 +228,26 @@ def _export(args, system, routes, front, stitched, name):
     out = Path(args.out)
     title = f"stitched route {' -> '.join(stitched.nodes)} in {system.name} (mu = {system.mu!r}), rotating frame"
     headers, rows = trajectory_rows(stitched)
+    key = "dv_exported_mps[route.oem]"
     mrows = [[m["t_days"], m["node"], *m["position_km"], *m["dv_vector_mps"], m["dv_mps"]]
-             for m in stitched.maneuvers]
+             + ([table[i]["dv_exported_mps"]] if table else []) for i, m in enumerate(stitched.maneuvers)]
+    models = {"dv_design_mps": "the CR3BP design, rotating frame, fixed units (also the stitched route's dv_mps)"}
+    if table:
+        models[key] = "the velocity jump of the exported trajectory in route.oem (its frame and anchoring)"
+    from cr3bp.export import dv_warning
+    warn = dv_warning(table) if table else ""
     files = [str(out / "trajectory.csv"), str(out / "maneuvers.csv"), str(out / "route.json")]
     write_text(files[0], common.csv_text(headers, rows, [title]))
     write_text(files[1], common.csv_text(["t_days", "node", "x_km", "y_km", "z_km", "dv_x_mps", "dv_y_mps",
-                                          "dv_z_mps", "dv_mps"], mrows, [title, "Δv vectors in the rotating frame"]))
-    write_text(files[2], common.json_text({"system": system.to_dict(), "stitched": stitched.to_dict(),
-                                           "routes": [_route_dict(r, name) for r in routes]}))
+                                          "dv_z_mps", "dv_design_mps"] + ([key] if table else []), mrows,
+                                         [title, "Δv vectors in the rotating frame"]
+                                         + [f"{k}: {v}" for k, v in models.items()] + ([warn] if warn else [])))
+    payload = {"system": system.to_dict(), "stitched": stitched.to_dict(),
+               "routes": [_route_dict(r, name) for r in routes], "dv_models": models,
+               "maneuvers": [dict(m, dv_design_mps=m["dv_mps"], **({key: table[i]["dv_exported_mps"]} if table else {}))
+                             for i, m in enumerate(stitched.maneuvers)],
+               "dv_warnings": [warn] if warn else []}
+    write_text(files[2], common.json_text(payload))
     return files
 
 
@@ -242,8 +268,8 @@ def _plots(args, system, g, routes, front, stitched):
          f"curves at each leg's Jacobi constant; triangles: maneuvers (Δv in m/s).")
     pareto_file, graph_file = _side(args.plot, "pareto"), _side(args.plot, "graph")
     ax = plot_pareto(routes, front, routes[0])
-    save(ax.figure, pareto_file, "Totals over the legs as computed separately (stitching lowers the chosen "
-         f"route's to {stitched.dv_total_mps:.1f} m/s).")
+    save(ax.figure, pareto_file, "CR3BP totals over the legs as computed separately (stitched, the chosen "
+         f"route's is {stitched.dv_total_mps:.1f} m/s; {'optimised' if stitched.optimised else 'not optimised'}).")
     ax = plot_graph(g, route=routes[0])
     save(ax.figure, graph_file, f"{system.name}: transfer graph; the chosen route in red.")
     return [args.plot, pareto_file, graph_file]

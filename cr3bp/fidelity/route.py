@@ -60,8 +60,11 @@ class RouteTransition:
     initial_km : ndarray (P, 6)    the CR3BP patch states converted (the first guess)
     arc_of : ndarray (P,)          arc index of each patch point
     arcs : tuple of dict           arc, t_start_days, t_end_days, patches,
-                                   max_position_diff_km, max_velocity_diff_mps (to the CR3BP
-                                   route at equal epochs)
+                                   max_path_offset_km and max_timing_offset_min (to the
+                                   nearest point of the CR3BP route's path, and how far ahead
+                                   or behind it), max_same_epoch_separation_km and
+                                   max_same_epoch_velocity_diff_mps (at equal epochs: timing
+                                   and path mixed, NOT maneuvers)
     maneuvers : tuple of dict      t_days, node, kind (departure/interior/arrival),
                                    dv_cr3bp_mps, dv_mps, dv_vector_kms (EME2000), position_km,
                                    state_before_km, state_after_km (km, km/s about the central body)
@@ -437,10 +440,16 @@ def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", 
             samp[sel] = arc.states
     samp_km = samp * scale
     ref_km = _cr3bp_to_inertial(system, spec, st_cr3bp, s[samp_idx], central)
+    from .offsets import path_and_timing_offsets
     for row in arc_rows:
         m = samp_arc == row["arc"] - 1
-        row["max_position_diff_km"] = float(np.linalg.norm(samp_km[m, :3] - ref_km[m, :3], axis=1).max())
-        row["max_velocity_diff_mps"] = float(np.linalg.norm(samp_km[m, 3:] - ref_km[m, 3:], axis=1).max() * 1000)
+        path, timing = path_and_timing_offsets(st[m] * system.time_s, samp_km[m, :3], st_cr3bp[m] * system.time_s,
+                                               ref_km[m, :3], ref_km[m, 3:])
+        row["max_path_offset_km"] = float(path.max())
+        row["max_timing_offset_min"] = float(np.abs(timing).max() / 60.0)
+        row["max_same_epoch_separation_km"] = float(np.linalg.norm(samp_km[m, :3] - ref_km[m, :3], axis=1).max())
+        row["max_same_epoch_velocity_diff_mps"] = float(
+            np.linalg.norm(samp_km[m, 3:] - ref_km[m, 3:], axis=1).max() * 1000)
     # maneuver table: CR3BP magnitudes beside the ephemeris ones
     cr_list = ([start_burn] if start_burn else []) + [c for _, c in cuts] + ([end_burn] if end_burn else [])
     rows = []

@@ -43,9 +43,13 @@ class Transition:
     initial_km : ndarray (M+1, 6)  the CR3BP patch states converted (the first guess)
     sample_t_tu, sample_km : dense samples of the converged trajectory (km, km/s)
     reference_km : ndarray         the CR3BP orbit at the same epochs as the samples, same frame
-    per_rev : tuple of dict        rev, max_position_diff_km, max_velocity_diff_mps (at equal
-                                   epochs), max_path_offset_km (to the nearest design sample,
-                                   timing aside), min_radius_km, min_radius_cr3bp_km
+    per_rev : tuple of dict        rev, max_path_offset_km (distance to the nearest point of the
+                                   design's path, timing aside), max_timing_offset_min (largest
+                                   |epoch - epoch of that nearest point|), the differences at
+                                   equal epochs max_same_epoch_separation_km and
+                                   max_same_epoch_velocity_diff_mps (timing and path mixed: NOT
+                                   a maneuver), min_radius_km, min_radius_cr3bp_km
+                                   (:mod:`cr3bp.fidelity.offsets`)
     dv_total_mps : float           maneuvers needed (0: continuous)
     iterations : int; residuals : tuple (max-norm of the mismatch, nondimensional)
     continuity_km, continuity_mps : final largest mismatch at a patch point
@@ -229,17 +233,19 @@ def transition(orbit, epoch, revs: int, bodies=("sun", "earth", "moon"), *, cent
     ends, _ = _model.propagate_many(mdl, X[:-1], tt[:-1], tt[1:])
     gap = ends - X[1:]
     rows = []
-    from scipy.spatial import cKDTree
+    from .offsets import path_and_timing_offsets
+    # the design's path: distance to its nearest point, and how far ahead or behind (timing)
+    t_s = samp_t * system.time_s
+    path, timing = path_and_timing_offsets(t_s, samp_km[:, :3], t_s, ref_km[:, :3], ref_km[:, 3:],
+                                           window_s=0.5 * T * system.time_s)
     for r in range(revs):
         a, b = r * samples_per_rev, (r + 1) * samples_per_rev + 1
         dr = np.linalg.norm(samp_km[a:b, :3] - ref_km[a:b, :3], axis=1)
         dv = np.linalg.norm(samp_km[a:b, 3:] - ref_km[a:b, 3:], axis=1) * 1000.0
-        # distance to the design's path (nearest design sample of this and the adjacent revs)
-        lo, hi = max(0, a - samples_per_rev), min(ns + 1, b + samples_per_rev)
-        path, _ = cKDTree(ref_km[lo:hi, :3]).query(samp_km[a:b, :3])
-        rows.append({"rev": r + 1, "max_position_diff_km": float(dr.max()),
-                     "max_velocity_diff_mps": float(dv.max()),
-                     "max_path_offset_km": float(path.max()),
+        rows.append({"rev": r + 1, "max_path_offset_km": float(path[a:b].max()),
+                     "max_timing_offset_min": float(np.abs(timing[a:b]).max() / 60.0),
+                     "max_same_epoch_separation_km": float(dr.max()),
+                     "max_same_epoch_velocity_diff_mps": float(dv.max()),
                      "min_radius_km": _min_radius(samp_km[a:b, :3]),
                      "min_radius_cr3bp_km": _min_radius(ref_km[a:b, :3])})
     return Transition(
