@@ -49,11 +49,9 @@ def parse_parking(text, system):
     if len(words) != 3:
         raise InputError(f"'{text}': write 'parking BODY ALTITUDE', e.g. 'parking earth 200km'")
     p = primary_index(system, words[1])
-    q = units.parse(words[2], "length", "km")
+    from cr3bp.validate import quantity
     system.require_dimensional("a parking altitude")
-    alt = q.si() if q.unit != "LU" else q.value * system.length_km
-    if alt < 0:
-        raise InputError(f"parking altitude '{words[2]}' must not be negative")
+    alt = system.km(quantity(f"parking altitude in '{text}'", words[2], "length", system, sign="nonnegative"))
     return p, float(alt)
 
 
@@ -84,8 +82,10 @@ def run(args):
     system = common.resolve_system(args)
     to.check_plot_path(args.plot)
     to.check_plot_path(args.map)
-    if args.candidates < 1:
-        raise InputError(f"--candidates {args.candidates} must be at least 1")
+    common.whole_number("--candidates", args.candidates, 1, 1000)
+    common.whole_number("--crossing", args.crossing, 1, 1000)
+    if args.points is not None:
+        common.whole_number("--points", args.points, 2, 100_000)
     t_max = units.time(args.time, system, default_unit="TU") if args.time else 2 * math.pi
     if not t_max > 0:
         raise InputError(f"--time {args.time} must be positive")

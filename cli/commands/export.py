@@ -145,9 +145,14 @@ def _run(args):
     from cr3bp import export, frames
     from cr3bp.errors import InputError
 
+    from cr3bp.validate import plain_text
     chosen = [x for x in (args.state, args.orbit, args.from_file) if x is not None]
     if len(chosen) != 1:
         raise InputError("give exactly one of --state, --orbit or --from FILE")
+    plain_text("--object-name", args.object_name, 100)
+    plain_text("--object-id", args.object_id, 100)
+    if args.km and args.state is None:
+        raise InputError("--km says how --state is given; it goes with --state only")
     fmt = export.format_of(args.out, args.format)
     if fmt in ("oem", "xml") and args.frame == "rotating":
         raise InputError("OEM needs inertial axes (--frame j2000-equator or j2000-ecliptic); "
@@ -215,6 +220,8 @@ def _run(args):
         if not period_tu > 0:
             raise InputError(f"--period '{args.period}' must be positive")
         model["period"] = f"{period_tu!r} TU = {period_tu * sysm.time_days:.9f} d"
+    if args.span is not None:
+        export.parse_span(args.span, sysm, period_tu)    # '3periods' without a period: said now
 
     # the frame
     if args.epoch is None:

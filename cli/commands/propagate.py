@@ -68,9 +68,8 @@ def _output_times(args, system, t_final):
     from cr3bp.errors import InputError
     if args.step is None:
         return None
-    step = abs(units.time(args.step, system))
-    if step == 0:
-        raise InputError(f"--step {args.step!r} must be positive")
+    from cr3bp.validate import quantity
+    step = quantity("--step", args.step, "time", system, sign="positive")
     n = int(np.floor(abs(t_final) / step + 1e-9))
     if n + 2 > MAX_OUTPUT_POINTS:
         raise InputError(f"--step {args.step!r} gives {n + 2} output points; allowed at most "

@@ -60,8 +60,8 @@ def _constraints(args, system, nodes):
         if not tof >= 0:
             raise InputError(f"--max-tof {args.max_tof!r} must not be negative")
     if args.min_altitude is not None:
-        alt = units.parse(args.min_altitude, "length").si() if not args.min_altitude.endswith("LU") else \
-            system.km(units.length(args.min_altitude, system))
+        from cr3bp.validate import quantity
+        alt = system.km(quantity("--min-altitude", args.min_altitude, "length", system, sign="nonnegative"))
     if args.max_legs is not None:
         legs = common.whole_number("--max-legs", args.max_legs, 1, 1000)
     through = tuple(find_node(nodes, t).id for t in args.through)
@@ -85,8 +85,6 @@ def run(args):
     system = common.resolve_system(args)
     if args.plot is not None and Path(args.plot).suffix.lower() not in PLOT_SUFFIXES:
         raise InputError(f"--plot {args.plot!r} must end in .png or .svg")
-    if args.out is not None and Path(args.out).exists() and not Path(args.out).is_dir():
-        raise InputError(f"--out {args.out!r} exists and is not a folder")
     if args.no_stitch and (args.out or args.plot):
         raise InputError("--out and --plot show the stitched route; leave out --no-stitch")
     if args.epoch is not None and not args.out:

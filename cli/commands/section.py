@@ -67,8 +67,8 @@ def run(args):
     names = tuple(args.coords.split(",")) if args.coords else default_coords(section)
     if len(names) != 2 or any(n not in MAP_COORDS for n in names):
         raise InputError(f"--coords '{args.coords}' must be two of {', '.join(MAP_COORDS)}")
-    if args.crossing < 1:
-        raise InputError(f"--crossing {args.crossing} must be at least 1")
+    common.whole_number("--crossing", args.crossing, 1, 1000)
+    common.whole_number("--points", args.points, 2, 100_000)
     t_max = units.time(args.time, system, default_unit="TU") if args.time else 2 * math.pi
     if not t_max > 0:
         raise InputError(f"--time {args.time} must be positive")

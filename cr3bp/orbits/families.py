@@ -49,6 +49,8 @@ def check_family(family: str, point: str | None, branch: str | None):
         if f in ("vertical", "axial") and point == "L3":
             raise InputError(f"{f} families are offered at L1 and L2 only")
     else:
+        if point:
+            raise InputError(f"the {f} family has no Lagrange point; leave out the point '{point}'")
         point = ""
     if f == "halo":
         b = (branch or "").strip().lower()
@@ -56,6 +58,8 @@ def check_family(family: str, point: str | None, branch: str | None):
             raise InputError(f"halo branch '{branch}' is not allowed; use north or south")
         branch = b
     else:
+        if branch:
+            raise InputError(f"the {f} family has no north/south branch; leave out '{branch}'")
         branch = ""
     return f, point, branch
 

@@ -68,10 +68,8 @@ def _make(system, kind, text):
     if kind == "period":
         return Target(kind, "period", units.time(text, system), text)
     if kind == "jacobi":
-        try:
-            v = float(text)
-        except ValueError:
-            raise InputError(f"Jacobi constant '{text}' is not a number") from None
+        from ..validate import finite_number
+        v = finite_number("Jacobi constant", text)
         return Target(kind, "jacobi", v, text)
     if kind in ("ax", "ay", "az", "x"):
         if kind == "x":
