@@ -123,7 +123,8 @@ def parse_span(text, system, period_tu: float | None = None) -> float:
             value = k * period_tu
             break
     else:
-        value = units.time(s, system)
+        from .validate import quantity
+        value = quantity("span", s, "time", system)
     if not (math.isfinite(value) and value > 0):
         raise InputError(f"span '{text}' must be positive")
     return float(value)

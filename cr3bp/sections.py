@@ -277,7 +277,8 @@ def parse_section(text: str, system) -> Section:
     if head == "sphere":
         if len(parts) not in (3, 4):
             raise InputError(f"section '{text}': write sphere:BODY:RADIUS[:+|-], e.g. sphere:moon:20000km")
-        r = units.length(parts[2], system)
+        from .validate import quantity
+        r = quantity(f"sphere radius in section '{text}'", parts[2], "length", system, sign="positive")
         d = _direction_text(parts[3], text) if len(parts) == 4 else -1
         return sphere(system, parts[1], r, d or -1, label=t)
     if "=" not in head:

@@ -88,7 +88,6 @@ def orbit_from_request(system, text, args=None):
 
 
 def _given(system, state_text, period_text, family="given", point=""):
-    from cr3bp import units
     from cr3bp.errors import InputError
     from cr3bp.manifolds import orbit_from_state
     try:

@@ -40,7 +40,6 @@ def add_arguments(p):
 
 def parse_parking(text, system):
     """'parking earth 200km' -> (primary index, altitude km), or None if not a parking orbit."""
-    from cr3bp import units
     from cr3bp.errors import InputError
     from cr3bp.sections import primary_index
     words = text.split()
@@ -76,7 +75,6 @@ HEADERS = ["rank", "kind", "dv_mps", "tof_days", "patch_x", "patch_y", "patch_z"
 def run(args):
     import math
 
-    from cr3bp import units
     from cr3bp.connections import connect, necks_open, parking_legs, periapsis_map
     from cr3bp.errors import InputError
     system = common.resolve_system(args)
@@ -86,9 +84,9 @@ def run(args):
     common.whole_number("--crossing", args.crossing, 1, 1000)
     if args.points is not None:
         common.whole_number("--points", args.points, 2, 100_000)
-    t_max = units.time(args.time, system, default_unit="TU") if args.time else 2 * math.pi
-    if not t_max > 0:
-        raise InputError(f"--time {args.time} must be positive")
+    from cr3bp.validate import quantity
+    t_max = quantity("--time", args.time, "time", system, sign="positive", default_unit="TU") \
+        if args.time is not None else 2 * math.pi
     pa, pb = parse_parking(args.origin, system), parse_parking(args.target, system)
     if args.map and not (pa or pb):
         raise InputError("--map draws the periapsis map of a parking-orbit leg; one end must be 'parking ...'")

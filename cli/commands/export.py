@@ -86,10 +86,9 @@ def parse_orientation(args):
 
 
 def step_seconds(text, system):
-    from cr3bp import units
     from cr3bp.errors import InputError
-    q = units.parse(text, "time")
-    s = q.nondim(system) * system.time_s if q.unit == "TU" else q.si()
+    from cr3bp.validate import quantity
+    s = quantity("--step", text, "time", system, sign="positive") * system.time_s
     if not s > 0:
         raise InputError(f"--step '{text}' must be positive")
     return float(s)
@@ -215,10 +214,8 @@ def _run(args):
     if args.period is not None:
         if args.orbit is not None:
             raise InputError("--period goes with --state or --from (an --orbit has its own period)")
-        from cr3bp import units
-        period_tu = units.time(args.period, sysm)
-        if not period_tu > 0:
-            raise InputError(f"--period '{args.period}' must be positive")
+        from cr3bp.validate import quantity
+        period_tu = quantity("--period", args.period, "time", sysm, sign="positive")
         model["period"] = f"{period_tu!r} TU = {period_tu * sysm.time_days:.9f} d"
     if args.span is not None:
         export.parse_span(args.span, sysm, period_tu)    # '3periods' without a period: said now

@@ -46,19 +46,16 @@ def add_arguments(p):
 
 
 def _constraints(args, system, nodes):
-    from cr3bp import units
     from cr3bp.errors import InputError
     from cr3bp.network import Constraints
     from cr3bp.nodes import find_node
     dv = tof = alt = legs = None
     if args.max_dv is not None:
-        dv = system.mps(units.velocity(args.max_dv, system))
-        if not dv >= 0:
-            raise InputError(f"--max-dv {args.max_dv!r} must not be negative")
+        from cr3bp.validate import quantity
+        dv = system.mps(quantity("--max-dv", args.max_dv, "velocity", system, sign="nonnegative"))
     if args.max_tof is not None:
-        tof = system.days(units.time(args.max_tof, system))
-        if not tof >= 0:
-            raise InputError(f"--max-tof {args.max_tof!r} must not be negative")
+        from cr3bp.validate import quantity
+        tof = system.days(quantity("--max-tof", args.max_tof, "time", system, sign="nonnegative"))
     if args.min_altitude is not None:
         from cr3bp.validate import quantity
         alt = system.km(quantity("--min-altitude", args.min_altitude, "length", system, sign="nonnegative"))

@@ -54,6 +54,8 @@ def check_family(family: str, point: str | None, branch: str | None):
         point = ""
     if f == "halo":
         b = (branch or "").strip().lower()
+        if not b:
+            raise InputError("the halo family needs a branch: north or south")
         if b not in BRANCHES["halo"]:
             raise InputError(f"halo branch '{branch}' is not allowed; use north or south")
         branch = b
