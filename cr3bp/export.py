@@ -818,9 +818,6 @@ def _oem_result(path, fmt, header, segments, keys, man_texts) -> ReadResult:
         ts = _frames.time_system(meta["TIME_SYSTEM"])
         if not rows:
             raise InputError(f"'{path}': a segment has no data lines")
-        if meta["REF_FRAME"] not in AXES_OF_REF_FRAME:
-            raise InputError(f"'{path}': REF_FRAME '{shown(meta['REF_FRAME'])}' is not one librate reads "
-                             f"({', '.join(AXES_OF_REF_FRAME)})")
         ep, st = _data_rows(path, rows)
         tdb = _frames.epochs_from_texts(ep, ts)
         _check_times(path, rows, tdb)
@@ -838,7 +835,12 @@ def _oem_result(path, fmt, header, segments, keys, man_texts) -> ReadResult:
             raise InputError(f"'{path}': segment {k + 1} starts at {out[k].epochs[0]}, before segment {k} "
                              f"ends ({out[k - 1].epochs[-1]})")
     frame = _frame_from_keys(keys)
-    if frame is not None:
+    if frame is not None:      # our frame description: REF_FRAME and CENTER_NAME must agree with it
+        for seg in out:
+            if seg.metadata["REF_FRAME"] not in AXES_OF_REF_FRAME:
+                raise InputError(f"'{path}': REF_FRAME '{shown(seg.metadata['REF_FRAME'])}' is not one "
+                                 f"librate writes ({', '.join(AXES_OF_REF_FRAME)}), but the file describes "
+                                 f"a librate frame ({frame.axes})")
         axes = AXES_OF_REF_FRAME[out[0].metadata["REF_FRAME"]]
         if axes != frame.axes:
             raise InputError(f"'{path}': REF_FRAME {out[0].metadata['REF_FRAME']} contradicts frame.axes {frame.axes}")

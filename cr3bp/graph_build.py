@@ -494,7 +494,10 @@ def run_tasks(tasks, workers=None, scheduler=None, progress=None) -> list:
     ex = ProcessPoolExecutor(max_workers=min(workers, len(chunks)), mp_context=ctx,
                              initializer=worker_init, initargs=(os.getpid(),))
     try:
-        futs = {ex.submit(compute_legs, [tasks[i] for i in c]): c for c in chunks}
+        # the workers are started by the submissions, with SIGINT blocked until worker_init
+        # ignores it
+        with _sigint_ignored():
+            futs = {ex.submit(compute_legs, [tasks[i] for i in c]): c for c in chunks}
         for f in done_first(futs):
             for i, leg in zip(futs[f], f.result()):
                 tick(i, leg)
@@ -510,6 +513,25 @@ def run_tasks(tasks, workers=None, scheduler=None, progress=None) -> list:
         raise
     ex.shutdown(wait=True)
     return out
+
+
+class _sigint_ignored:
+    """SIGINT blocked inside the block (POSIX; elsewhere a no-op). Processes started inside it
+    inherit the blocked signal across exec, so a Ctrl-C while they import cannot make them print
+    a traceback; one that arrived meanwhile is delivered to this process when the block ends."""
+
+    def __enter__(self):
+        import signal
+        self.old = None
+        if hasattr(signal, "pthread_sigmask"):
+            self.old = signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGINT})
+        return self
+
+    def __exit__(self, *exc):
+        import signal
+        if self.old is not None:
+            signal.pthread_sigmask(signal.SIG_SETMASK, self.old)
+        return False
 
 
 #: Linux prctl option: the signal a process gets when its parent dies (linux/prctl.h).

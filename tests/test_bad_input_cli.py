@@ -439,7 +439,7 @@ def value_cases():
         add(f"refine-{opt}-{v}", [a for a in RF if not a.startswith(f"--{opt}=")] + [f"--{opt}={v}"])
     add("refine-plot-svg", RF + ["--plot={out}/x.svg"])
     add("refine-out-suffix", RF + ["--out={out}/x.txt"])
-    add("refine-patch-days-with-orbit", ["refine", EM, "--route={in}", EPOCH, "--revs=3"])
+    add("refine-revs-with-route", ["refine", EM, "--route={in}", EPOCH, "--revs=3"])
     add("refine-custom-system", ["refine", "--mu=0.01", "--orbit=lyapunov L1 jacobi=3.1", EPOCH])
     add("refine-route-missing", ["refine", EM, "--route={in}/nowhere", EPOCH])
     return c
@@ -759,7 +759,7 @@ def test_pool_workers_end_with_the_command(tmp_path, sig):
             if kids else []
         time.sleep(0.05)
     assert workers, "no pool workers seen"
-    time.sleep(0.3)
+    # at once: the workers are still importing (a Ctrl-C then must not make them print either)
     if sig == signal.SIGINT:
         os.killpg(p.pid, signal.SIGINT)
     else:
