@@ -36,25 +36,87 @@ def add_verbosity(p):
 
 def whole_number(name, text, lo, hi):
     """An option's whole number in lo..hi, or a one-line InputError naming it."""
-    from cr3bp.errors import InputError
-    try:
-        v = int(text)
-    except (TypeError, ValueError):
-        raise InputError(f"{name} {text!r} is not a whole number") from None
-    if not lo <= v <= hi:
-        raise InputError(f"{name} {v} is outside {lo}..{hi}")
-    return v
+    from cr3bp.validate import whole_number as _whole
+    return _whole(name, text, lo, hi)
 
 
 def _float_arg(name, text):
+    from cr3bp.validate import finite_number
+    return finite_number(name, text)
+
+
+def output_file(args, name="--out", path=None, inputs=()):
+    """Check an output file before any work (cr3bp.validate.output_file); None passes."""
+    path = getattr(args, name.lstrip("-").replace("-", "_"), None) if path is None else path
+    if path is None:
+        return None
+    from cr3bp.validate import output_file as _check
+    return _check(name, path, inputs)
+
+
+def output_folder(args, name="--out", path=None, inputs=()):
+    path = getattr(args, name.lstrip("-").replace("-", "_"), None) if path is None else path
+    if path is None:
+        return None
+    from cr3bp.validate import output_folder as _check
+    return _check(name, path, inputs)
+
+
+#: Options naming files a command reads (checked against its outputs).
+_INPUT_OPTIONS = ("nodes", "input", "from_file", "route", "scenario")
+#: Options naming files a command writes: (option, attribute).
+_OUTPUT_OPTIONS = (("--out", "out"), ("--plot", "plot"), ("--curves", "curves"), ("--map", "map"),
+                   ("OUT", "output"))
+
+
+def check_outputs(args):
+    """Before any work: every output file or folder of the command can be written, is not one of
+    its inputs (node list, trajectory file, route folder, catalogue) and no two outputs are one
+    file (cr3bp.validate.output_file / output_folder). ``librate run`` checks its own."""
     from cr3bp.errors import InputError
-    try:
-        v = float(text)
-    except (TypeError, ValueError):
-        raise InputError(f"{name} {text!r} is not a number") from None
-    if not math.isfinite(v):
-        raise InputError(f"{name} {text!r} is not finite")
-    return v
+    from cr3bp.validate import _same_path
+    if args.command == "run":
+        return
+    inputs = [getattr(args, k, None) for k in _INPUT_OPTIONS]
+    inputs = [str(x) for x in inputs if x is not None]
+    if hasattr(args, "catalog"):
+        c = catalog_path(args)
+        if c is not None:
+            inputs.append(c)
+    outs = []
+    for name, attr in _OUTPUT_OPTIONS:
+        path = getattr(args, attr, None)
+        if path is None:
+            continue
+        path = str(path)
+        if not path.strip():
+            raise InputError(f"{name} is empty; give a {'folder' if args.command == 'route' and attr == 'out' else 'file name'}")
+        if args.command == "route" and attr == "out":
+            output_folder(args, name, path, inputs)
+            continue
+        if args.command == "family" and attr == "plot":
+            for tag in ("family", "stability"):
+                output_file(args, name, f"{path}-{tag}.png", inputs)
+            continue
+        output_file(args, name, path, inputs)
+        for other_name, other in outs:
+            if _same_path(path, other):
+                raise InputError(f"{name} and {other_name} name the same file '{path}'")
+        outs.append((name, path))
+
+
+def catalog_path(args):
+    """The catalogue file a command uses (its --catalog, else the default when the command uses
+    one without it), for the same-file check; None when it uses none."""
+    c = getattr(args, "catalog", None)
+    if getattr(args, "no_catalog", False):
+        return None
+    if c:
+        return str(c)
+    if c is None and args.command not in ("catalog", "graph", "route"):
+        return None          # orbit/family: no --catalog, no catalogue
+    from cr3bp.catalog import default_path
+    return str(default_path())
 
 
 def resolve_system(args):
@@ -173,21 +235,73 @@ def _one_line_warnings():
     warnings.showwarning = show
 
 
+#: OSError numbers that mean the output place is not usable (bad input: exit status 2);
+#: any other (a full disk, an I/O error) is a failure of the environment (exit status 1).
+_BAD_PLACE = {"EACCES", "EPERM", "EROFS", "EISDIR", "ENOTDIR", "ENAMETOOLONG", "ENOENT", "EEXIST",
+              "ELOOP", "EINVAL"}
+
+
+def os_error_message(e) -> tuple[str, int]:
+    """(one-line message, exit status) for an OSError that reached the command."""
+    import errno
+    from cr3bp.errors import shown
+    name = errno.errorcode.get(e.errno or 0, "")
+    what = e.strerror or str(e)
+    where = f" '{shown(e.filename)}'" if e.filename else ""
+    status = 2 if name in _BAD_PLACE else 1
+    if name in ("ENOSPC", "EDQUOT"):
+        what += " (the file system is full; nothing was written)"
+    return f"cannot use{where}: {what}", status
+
+
+def one_line(message) -> str:
+    """A message as one line: any character that is not printable (a line break, a record
+    separator that splitlines() breaks on) is escaped; nothing is cut."""
+    t = str(message)
+    if t.isprintable():
+        return t
+    return "".join(c if c.isprintable() else c.encode("unicode_escape").decode("ascii") for c in t)
+
+
 def run_command(args) -> int:
-    from cr3bp.errors import LibrateError
+    import os
+    from cr3bp.errors import LibrateError, shown
     _one_line_warnings()
     try:
         if args.command not in ("systems",):
             # a command module may name the compiled kernels it uses (KERNELS)
             mod = sys.modules.get(getattr(args._run, "__module__", ""), None)
+            check_outputs(args)
             compile_notice(args, getattr(mod, "KERNELS", None))
+        else:
+            check_outputs(args)
         return int(args._run(args) or 0)
     except LibrateError as e:
-        print(f"librate: error: {e}", file=sys.stderr)
+        print(f"librate: error: {one_line(e)}", file=sys.stderr)
         return e.exit_status
     except KeyboardInterrupt:
         print("librate: interrupted", file=sys.stderr)
         return 130
+    except OSError as e:
+        if os.environ.get("LIBRATE_DEBUG"):
+            raise
+        text, status = os_error_message(e)
+        print(f"librate: error: {one_line(text)}", file=sys.stderr)
+        return status
+    except RecursionError:
+        if os.environ.get("LIBRATE_DEBUG"):
+            raise
+        print("librate: error: an input is nested too deeply to read", file=sys.stderr)
+        return 2
+    except MemoryError:
+        print("librate: error: out of memory (an input asks for more than this machine has)", file=sys.stderr)
+        return 1
+    except Exception as e:   # a bug: one line, not a traceback (LIBRATE_DEBUG=1 shows it)
+        if os.environ.get("LIBRATE_DEBUG"):
+            raise
+        print(f"librate: error: internal error ({type(e).__name__}: {one_line(shown(e))}); please report it "
+              "with the command line (LIBRATE_DEBUG=1 shows the traceback)", file=sys.stderr)
+        return 1
 
 
 # ---- output --------------------------------------------------------------------------

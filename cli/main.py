@@ -14,6 +14,8 @@ EXIT_CODES = """exit status:
   2  bad input (a value that is not allowed; nothing is written)
   3  no solution (the request is well formed but nothing satisfies it)
   4  did not converge (an iteration gave up; the message says how far it got)
+  1  could not finish (the file system refused a write, e.g. a full disk; nothing partial is left)
+  130 interrupted (Ctrl-C)
 """
 
 GUIDE_HEAD = "librate: preliminary mission design in the circular restricted three-body problem.\n\ncommands:\n"
@@ -23,7 +25,8 @@ class _Parser(argparse.ArgumentParser):
     """argparse with one-line errors: 'librate: error: ...' and exit status 2, no usage dump."""
 
     def error(self, message):
-        sys.stderr.write(f"{self.prog}: error: {message} (see '{self.prog} --help')\n")
+        from .common import one_line
+        sys.stderr.write(f"librate: error: {one_line(message)} (see '{self.prog} --help')\n")
         sys.exit(2)
 
 
@@ -71,6 +74,15 @@ def guide() -> str:
 
 
 def main(argv=None) -> int:
+    """Run one command; Ctrl-C anywhere gives one line and exit status 130."""
+    try:
+        return _main(argv)
+    except KeyboardInterrupt:
+        sys.stderr.write("librate: interrupted\n")
+        return 130
+
+
+def _main(argv=None) -> int:
     argv = sys.argv[1:] if argv is None else list(argv)
     if not argv:
         from .common import caution_footer

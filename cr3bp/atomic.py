@@ -61,9 +61,22 @@ def write_bytes(path, data: bytes) -> None:
         f.write(data)
 
 
+#: Metadata that would change from run to run, per format: left out so that the same figure
+#: gives the same bytes (SVG: its ``Date``; PDF: ``CreationDate``; PNG has none).
+_VOLATILE_METADATA = {"svg": {"Date": None}, "pdf": {"CreationDate": None}}
+
+
 def save_figure(fig, path, **kwargs) -> None:
-    """Save a matplotlib figure atomically (format from the suffix of ``path``)."""
+    """Save a matplotlib figure atomically (format from the suffix of ``path``), byte-identical
+    from run to run: no date in the metadata, and SVG element ids (clip paths) derived from a
+    fixed salt (matplotlib's ``svg.hashsalt``) instead of random ones."""
+    import matplotlib
     path = Path(path)
-    fmt = path.suffix.lstrip(".") or "png"
-    with writing(path, "wb") as f:
-        fig.savefig(f, format=fmt, **kwargs)
+    fmt = path.suffix.lstrip(".").lower() or "png"
+    meta = dict(_VOLATILE_METADATA.get(fmt, {}))
+    meta.update(kwargs.pop("metadata", None) or {})
+    if meta:
+        kwargs["metadata"] = meta
+    with matplotlib.rc_context({"svg.hashsalt": "librate"}):
+        with writing(path, "wb") as f:
+            fig.savefig(f, format=fmt, **kwargs)

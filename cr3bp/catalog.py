@@ -20,7 +20,7 @@ import sqlite3
 import time
 from pathlib import Path
 
-from .errors import InputError
+from .errors import InputError, LibrateError
 from .plain import json_default
 
 SCHEMA_VERSION = 1
@@ -79,6 +79,50 @@ def _system_key(system) -> tuple[str, float]:
     return system.name, float(system.mu)
 
 
+def _looks_like_sqlite(p: Path) -> bool:
+    try:
+        with open(p, "rb") as f:
+            return f.read(16) == b"SQLite format 3\x00"
+    except OSError:
+        return True        # unreadable: let SQLite say so
+
+
+def _is_read_only_problem(e) -> bool:
+    t = str(e).lower()
+    return "readonly" in t or "read-only" in t or "unable to open" in t
+
+
+def _guarded(fn):
+    """Map SQLite and JSON failures inside a catalogue call to one-line librate errors: a damaged
+    file or member (InputError, status 2), a read-only catalogue asked to write (InputError),
+    a full disk (CatalogWriteError, status 1; the transaction is rolled back, so the catalogue
+    keeps what it held)."""
+    import functools
+
+    @functools.wraps(fn)
+    def call(self, *a, **kw):
+        try:
+            return fn(self, *a, **kw)
+        except sqlite3.DatabaseError as e:
+            t = str(e).lower()
+            if "full" in t:
+                raise CatalogWriteError(f"cannot write to the catalogue {self.path}: the disk is full "
+                                        "(nothing of this write was kept; the catalogue is intact)") from None
+            if _is_read_only_problem(e):
+                raise InputError(f"the catalogue {self.path} is read-only; it can be read but not "
+                                 "written (give another --catalog)") from None
+            raise InputError(f"the catalogue {self.path} is damaged ({e}); move it aside or give "
+                             "another --catalog") from None
+        except (json.JSONDecodeError, UnicodeDecodeError, TypeError, KeyError) as e:
+            raise InputError(f"the catalogue {self.path} holds a record that is not librate data "
+                             f"({type(e).__name__}); move it aside or give another --catalog") from None
+    return call
+
+
+class CatalogWriteError(LibrateError):
+    """The catalogue could not be written (a full disk): exit status 1, the file intact."""
+
+
 class Catalog:
     """SQLite store of computed families and legs.
 
@@ -96,23 +140,82 @@ class Catalog:
 
     def __init__(self, path=None):
         self.path = str(path) if path is not None else str(default_path())
+        self.read_only = False
         if self.path != ":memory:":
             p = Path(self.path)
+            if not self.path.strip():
+                raise InputError("the catalogue path is empty; give a file path")
             if p.exists() and p.is_dir():
                 raise InputError(f"catalogue path {self.path} is a folder; give a file path")
-            try:
-                p.parent.mkdir(parents=True, exist_ok=True)
-            except OSError as e:
-                raise InputError(f"cannot create the catalogue folder {p.parent}: {e.strerror}") from None
+            if not p.exists():
+                try:
+                    p.parent.mkdir(parents=True, exist_ok=True)
+                except OSError as e:
+                    raise InputError(f"cannot create the catalogue folder {p.parent}: {e.strerror}") from None
+                if not os.access(p.parent, os.W_OK | os.X_OK):
+                    raise InputError(f"cannot create the catalogue {self.path}: its folder is not writable")
+            elif p.is_file() and p.stat().st_size and not _looks_like_sqlite(p):
+                raise InputError(f"{self.path} is not a librate catalogue (not an SQLite file)")
         try:
-            self._db = sqlite3.connect(self.path, timeout=BUSY_TIMEOUT_S, isolation_level=None)
+            self._open_read_write()
+        except sqlite3.DatabaseError as e:
+            if self.path == ":memory:" or not _is_read_only_problem(e):
+                raise InputError(f"{self.path} is not a librate catalogue ({e})") from None
+            self._open_read_only()
+            try:
+                self._check_version()
+            except InputError:
+                self._db.close()
+                raise
+
+    def _open_read_write(self):
+        self._db = sqlite3.connect(self.path, timeout=BUSY_TIMEOUT_S, isolation_level=None)
+        try:
             self._db.execute("PRAGMA foreign_keys = ON")
+            existing = self._has_tables()
+            if existing:
+                self._check_version()          # a catalogue of another version is not touched
             if self.path != ":memory:":
                 self._db.execute("PRAGMA journal_mode = WAL")
-            self._db.executescript(_SCHEMA)
-            self._db.execute("INSERT OR IGNORE INTO meta VALUES ('schema_version', ?)", (str(SCHEMA_VERSION),))
+            if not existing:
+                self._db.executescript(_SCHEMA)
+                self._db.execute("INSERT OR IGNORE INTO meta VALUES ('schema_version', ?)",
+                                 (str(SCHEMA_VERSION),))
+        except (sqlite3.DatabaseError, InputError):
+            self._db.close()
+            raise
+
+    def _open_read_only(self):
+        """A catalogue in a read-only file or folder: read it (writes give a one-line refusal)."""
+        from urllib.parse import quote
+        uri = "file:" + quote(str(Path(self.path).resolve()))
+        last = None
+        for query in ("?mode=ro", "?mode=ro&immutable=1"):
+            try:
+                self._db = sqlite3.connect(uri + query, uri=True, timeout=BUSY_TIMEOUT_S, isolation_level=None)
+                if not self._has_tables():
+                    raise InputError(f"{self.path} is not a librate catalogue (no tables) and is read-only")
+                self.read_only = True
+                return
+            except sqlite3.DatabaseError as e:
+                last = e
+        raise InputError(f"cannot read the catalogue {self.path} ({last})") from None
+
+    def _has_tables(self) -> bool:
+        names = {r[0] for r in self._db.execute("SELECT name FROM sqlite_master WHERE type='table'")}
+        if names and "meta" not in names:
+            raise InputError(f"{self.path} is an SQLite file but not a librate catalogue (no meta table)")
+        return {"meta", "families", "members", "legs"} <= names
+
+    def _check_version(self):
+        try:
+            row = self._db.execute("SELECT value FROM meta WHERE key='schema_version'").fetchone()
         except sqlite3.DatabaseError as e:
             raise InputError(f"{self.path} is not a librate catalogue ({e})") from None
+        if row is None or str(row[0]) != str(SCHEMA_VERSION):
+            found = "none" if row is None else repr(str(row[0]))[:40]
+            raise InputError(f"catalogue {self.path} has schema version {found}; this librate reads "
+                             f"version {SCHEMA_VERSION} (use another --catalog file)")
 
     def close(self):
         self._db.close()
@@ -124,6 +227,7 @@ class Catalog:
         self.close()
 
     # ---- families --------------------------------------------------------------------
+    @_guarded
     def begin_family(self, system, family: str, point: str, branch: str, settings: dict) -> int:
         """Id of the family with this key and settings, creating it if new."""
         name, mu = _system_key(system)
@@ -139,6 +243,7 @@ class Catalog:
                 "AND settings_hash=?", (name, mu, family, point or "", branch or "", h)).fetchone()
         return int(row[0])
 
+    @_guarded
     def add_members(self, family_id: int, members: list[dict]) -> None:
         """Store members (idempotent on their ``index``) in one transaction."""
         rows = []
@@ -150,11 +255,13 @@ class Catalog:
             self._db.executemany("INSERT OR REPLACE INTO members (family_id, idx, data) VALUES (?,?,?)", rows)
             self._db.execute("UPDATE families SET updated=? WHERE id=?", (time.time(), int(family_id)))
 
+    @_guarded
     def finish_family(self, family_id: int, bifurcations: list[dict], complete: bool = True) -> None:
         with self._tx():
             self._db.execute("UPDATE families SET bifurcations=?, complete=?, updated=? WHERE id=?",
                              (_dumps(list(bifurcations)), 1 if complete else 0, time.time(), int(family_id)))
 
+    @_guarded
     def load_family(self, system, family: str, point: str, branch: str, settings: dict | None = None):
         """The stored family as a dict, or None. Without ``settings``: the most recently updated
         complete one (else the most recent incomplete one)."""
@@ -171,6 +278,7 @@ class Catalog:
             return None
         return self._family_dict(row[0])
 
+    @_guarded
     def family(self, family_id: int) -> dict:
         row = self._db.execute("SELECT id FROM families WHERE id=?", (int(family_id),)).fetchone()
         if row is None:
@@ -187,6 +295,7 @@ class Catalog:
                 "settings": json.loads(r[6]), "complete": bool(r[7]), "bifurcations": json.loads(r[8]),
                 "created": r[9], "updated": r[10], "members": members}
 
+    @_guarded
     def list_families(self) -> list[dict]:
         rows = self._db.execute(
             "SELECT f.id, f.system, f.mu, f.family, f.point, f.branch, f.complete, f.updated, "
@@ -194,6 +303,7 @@ class Catalog:
         return [{"id": r[0], "system": r[1], "mu": r[2], "family": r[3], "point": r[4], "branch": r[5],
                  "complete": bool(r[6]), "updated": r[7], "members": r[8]} for r in rows]
 
+    @_guarded
     def remove_family(self, family_id: int) -> None:
         with self._tx():
             cur = self._db.execute("DELETE FROM families WHERE id=?", (int(family_id),))
@@ -201,11 +311,13 @@ class Catalog:
                 raise InputError(f"no family with id {family_id} in the catalogue {self.path}")
 
     # ---- legs (transfer graph) ---------------------------------------------------------
+    @_guarded
     def put_leg(self, key: str, system, data: dict) -> None:
         with self._tx():
             self._db.execute("INSERT OR REPLACE INTO legs (key, system, data, created) VALUES (?,?,?,?)",
                              (key, system.name, _dumps(data), time.time()))
 
+    @_guarded
     def put_legs(self, items) -> None:
         """Store many ``(key, system, data)`` legs in one transaction (one disk sync)."""
         now = time.time()
@@ -213,10 +325,12 @@ class Catalog:
             self._db.executemany("INSERT OR REPLACE INTO legs (key, system, data, created) VALUES (?,?,?,?)",
                                  [(k, sys_.name, _dumps(d), now) for k, sys_, d in items])
 
+    @_guarded
     def get_leg(self, key: str):
         row = self._db.execute("SELECT data FROM legs WHERE key=?", (key,)).fetchone()
         return None if row is None else json.loads(row[0])
 
+    @_guarded
     def count_legs(self) -> int:
         return int(self._db.execute("SELECT COUNT(*) FROM legs").fetchone()[0])
 
@@ -236,7 +350,13 @@ class _Transaction:
         return self.db
 
     def __exit__(self, exc_type, exc, tb):
-        self.db.execute("ROLLBACK" if exc_type else "COMMIT")
+        if exc_type is None:
+            self.db.execute("COMMIT")
+        elif self.db.in_transaction:      # SQLite may have rolled back already (a full disk)
+            try:
+                self.db.execute("ROLLBACK")
+            except sqlite3.DatabaseError:
+                pass
         return False
 
 

@@ -43,7 +43,7 @@ import numpy as np
 from . import frames as _frames
 from .atomic import writing
 from .cautions import CAUTION, caution_lines
-from .errors import InputError
+from .errors import InputError, shown
 
 FORMATS = ("oem", "xml", "csv", "json")   # xml = OEM in XML
 OEM_VERSION = "3.0"
@@ -132,11 +132,12 @@ def parse_span(text, system, period_tu: float | None = None) -> float:
                 raise InputError(f"span '{text}' is not '<number>periods'") from None
             if period_tu is None:
                 raise InputError(f"span '{text}' counts periods, but this trajectory has no period; "
-                                 "give a time such as '12d', or a period")
+                                 "give a time such as '12d', or the orbit's period (--period)")
             value = k * period_tu
             break
     else:
-        value = units.time(s, system)
+        from .validate import quantity
+        value = quantity("span", s, "time", system)
     if not (math.isfinite(value) and value > 0):
         raise InputError(f"span '{text}' must be positive")
     return float(value)
@@ -297,12 +298,37 @@ def _center_name_oem(spec) -> str:
 
 
 def _evaluate(traj: Trajectory):
-    """Per segment: (epochs TDB s, epoch strings on the time system, (N, 6) km & km/s)."""
+    """Per segment: (epochs TDB s, epoch strings on the time system, (N, 6) km & km/s).
+    A non-finite state or time, or times that do not increase, are refused (InputError naming
+    the row) before anything is written."""
+    check_header(traj)
     out = []
-    for seg in traj.segments:
+    for k, seg in enumerate(traj.segments):
+        t = np.asarray(seg.t_tu, dtype=float)
+        st_in = np.asarray(seg.states, dtype=float)
+        if t.size == 0:
+            raise InputError(f"segment {k + 1} of the trajectory has no states")
+        _check_table(f"segment {k + 1}", t, st_in.reshape(len(t), -1), "row")
         tdb, st = _frames.to_frame(traj.frame, seg.t_tu, seg.states)
+        _check_table(f"segment {k + 1}", tdb, st, "row")
         out.append((tdb, _frames.epoch_to_text(tdb, traj.time_system), st))
     return out
+
+
+def check_header(traj: Trajectory, creation_date: str | None = None) -> None:
+    """Text that goes into a file header: OBJECT_NAME, OBJECT_ID, the model lines and the
+    creation date hold no control characters (a line break would add header lines), and the
+    creation date is ISO 8601."""
+    from .validate import iso8601, plain_text
+    plain_text("object name", traj.object_name, 100)
+    plain_text("object id", traj.object_id, 100)
+    for k, v in traj.model.items():
+        plain_text("model key", k, 200)
+        plain_text(f"model entry '{shown(k)}'", v, 2000)
+    for m in traj.maneuvers:
+        plain_text("maneuver label", m.label, 200)
+    if creation_date is not None:
+        iso8601("creation date", creation_date)
 
 
 #: Exported and design Δv differing by more than this fraction get a warning line.
@@ -496,6 +522,7 @@ def _oem_parts(traj: Trajectory, creation_date, interpolation, degree):
                          "use csv or json for the rotating frame")
     ts = _frames.time_system(traj.time_system)
     evaluated = _evaluate(traj)
+    check_header(traj, creation_date)
     table = maneuver_table(traj)
     warn = dv_warning(table)
     header = (caution_lines() + ([warn] if warn else []),
@@ -677,6 +704,7 @@ def write_csv(path, traj: Trajectory) -> Path:
 # ---- JSON ------------------------------------------------------------------------------------
 
 def json_payload(traj: Trajectory, creation_date: str | None = None) -> dict:
+    check_header(traj, creation_date)
     spec = traj.frame
     ts = _frames.time_system(traj.time_system)
     table = maneuver_table(traj)
@@ -821,7 +849,7 @@ def read_oem(path) -> ReadResult:
         if meta is not None:
             segments.append((meta, rows))
 
-    for raw in lines:
+    for lineno, raw in enumerate(lines, 1):
         line = raw.strip()
         if not line:
             continue
@@ -855,7 +883,7 @@ def read_oem(path) -> ReadResult:
             k, v = _kv(line)
             meta[k] = v
         else:
-            rows.append(line.split())
+            rows.append((f"line {lineno}", line.split()))
     close()
     return _oem_result(path, "oem", header, segments, keys, man_texts)
 
@@ -912,7 +940,8 @@ def read_oem_xml(path) -> ReadResult:
                 _comment_keys([e.text], keys, man_texts)
             elif tag(e) == "stateVector":
                 f = {tag(c): (c.text or "").strip() for c in e}
-                rows.append([f.get(k, "") for k in ("EPOCH", "X", "Y", "Z", "X_DOT", "Y_DOT", "Z_DOT")])
+                rows.append((f"stateVector {len(rows) + 1} of segment {len(segments) + 1}",
+                             [f.get(k, "") for k in ("EPOCH", "X", "Y", "Z", "X_DOT", "Y_DOT", "Z_DOT")]))
         segments.append((meta, rows))
     return _oem_result(path, "xml", header, segments, keys, man_texts)
 
@@ -930,22 +959,84 @@ def _oem_result(path, fmt, header, segments, keys, man_texts) -> ReadResult:
         ts = _frames.time_system(meta["TIME_SYSTEM"])
         if not rows:
             raise InputError(f"'{path}': a segment has no data lines")
-        try:
-            ep = np.array([r[0] for r in rows])
-            st = np.array([[float(x) for x in r[1:7]] for r in rows])
-        except (ValueError, IndexError):
-            raise InputError(f"'{path}': a data line is not 'epoch x y z vx vy vz'") from None
-        if st.shape[1] != 6:
-            raise InputError(f"'{path}': a data line is not 'epoch x y z vx vy vz'")
-        out.append(FileSegment(meta, ep, _frames.epochs_from_texts(ep, ts), st))
+        ep, st = _data_rows(path, rows)
+        tdb = _frames.epochs_from_texts(ep, ts)
+        _check_times(path, rows, tdb)
+        start, stop = _frames.epochs_from_texts([meta["START_TIME"], meta["STOP_TIME"]], ts)
+        tol = 1e-3      # s: epochs are written to the millisecond or better
+        if abs(tdb[0] - start) > tol:
+            raise InputError(f"'{path}': the first data line ({rows[0][0]}) is at {ep[0]}, not at "
+                             f"START_TIME {meta['START_TIME']}")
+        if abs(tdb[-1] - stop) > tol:
+            raise InputError(f"'{path}': the data end at {ep[-1]} ({rows[-1][0]}), not at STOP_TIME "
+                             f"{meta['STOP_TIME']}: the file is truncated or damaged")
+        out.append(FileSegment(meta, ep, tdb, st))
+    for k in range(1, len(out)):
+        if out[k].tdb_s[0] < out[k - 1].tdb_s[-1] - 1e-3:
+            raise InputError(f"'{path}': segment {k + 1} starts at {out[k].epochs[0]}, before segment {k} "
+                             f"ends ({out[k - 1].epochs[-1]})")
     frame = _frame_from_keys(keys)
-    if frame is not None:
-        axes = AXES_OF_REF_FRAME.get(out[0].metadata["REF_FRAME"])
-        if axes is not None and axes != frame.axes:
+    if frame is not None:      # our frame description: REF_FRAME and CENTER_NAME must agree with it
+        for seg in out:
+            if seg.metadata["REF_FRAME"] not in AXES_OF_REF_FRAME:
+                raise InputError(f"'{path}': REF_FRAME '{shown(seg.metadata['REF_FRAME'])}' is not one "
+                                 f"librate writes ({', '.join(AXES_OF_REF_FRAME)}), but the file describes "
+                                 f"a librate frame ({frame.axes})")
+        axes = AXES_OF_REF_FRAME[out[0].metadata["REF_FRAME"]]
+        if axes != frame.axes:
             raise InputError(f"'{path}': REF_FRAME {out[0].metadata['REF_FRAME']} contradicts frame.axes {frame.axes}")
+        want = _center_name_oem(frame)
+        for seg in out:
+            if seg.metadata["CENTER_NAME"].strip().upper() != want:
+                raise InputError(f"'{path}': CENTER_NAME '{shown(seg.metadata['CENTER_NAME'])}' contradicts "
+                                 f"the frame the file describes (centre {want})")
     mans = tuple(_parse_maneuver(t, ts) for t in man_texts)
     return ReadResult(fmt, header, tuple(out), ts, frame, mans,
                       out[0].metadata["OBJECT_NAME"], out[0].metadata["OBJECT_ID"])
+
+
+def _data_rows(path, rows):
+    """(epoch strings, (N, 6) finite states) from OEM data rows ``(where, tokens)``; a row that is
+    not 'epoch x y z vx vy vz' (accelerations may follow) or holds a non-finite number is named."""
+    ep, st = [], []
+    for where, r in rows:
+        if len(r) not in (7, 10):
+            raise InputError(f"'{path}' {where}: a data line must be 'epoch x y z vx vy vz' "
+                             f"(found {len(r)} fields)")
+        try:
+            v = [float(x) for x in r[1:7]]
+        except ValueError:
+            raise InputError(f"'{path}' {where}: '{shown(' '.join(r))}' is not an epoch and six numbers") from None
+        if not all(math.isfinite(x) for x in v):
+            raise InputError(f"'{path}' {where}: a state is not finite ('{shown(' '.join(r))}')")
+        ep.append(r[0])
+        st.append(v)
+    return np.array(ep), np.array(st, dtype=float)
+
+
+def _check_times(path, rows, t):
+    """Epochs (or times) must increase strictly, row after row; the first that does not is named."""
+    t = np.asarray(t, dtype=float)
+    if t.size and not np.all(np.isfinite(t)):
+        k = int(np.argmin(np.isfinite(t)))
+        raise InputError(f"'{path}' {rows[k][0]}: the time is not finite")
+    if t.size > 1:
+        bad = np.diff(t) <= 0
+        if bad.any():
+            k = int(np.argmax(bad)) + 1
+            raise InputError(f"'{path}' {rows[k][0]}: the time does not increase (equal to or before the "
+                             "previous row's)")
+
+
+def _check_table(path, t, st, where="row", first_row=1):
+    """Rotating or exported states from a table: finite, times strictly increasing."""
+    st = np.asarray(st, dtype=float)
+    rows = [(f"{where} {first_row + k}", None) for k in range(len(t))]
+    bad = ~np.all(np.isfinite(st), axis=1) if st.ndim == 2 and len(st) else np.zeros(0, bool)
+    if bad.any():
+        k = int(np.argmax(bad))
+        raise InputError(f"'{path}' {rows[k][0]}: a state is not finite")
+    _check_times(path, rows, t)
 
 
 def _read_rotating_table(path, headers, rows):
@@ -1002,7 +1093,7 @@ def read_csv(path) -> ReadResult:
     ecol = [i for i, h in enumerate(headers) if h.startswith("epoch_")]
     if not ecol:
         t, st, seg = _read_rotating_table(path, headers, rows)
-        return _rotating_result("csv", keys, t, st, seg)
+        return _rotating_result("csv", keys, t, st, seg, path)
     ts = _frames.time_system(headers[ecol[0]][len("epoch_"):])
     try:
         idx = [headers.index(c) for c in COLUMNS]
@@ -1016,6 +1107,9 @@ def read_csv(path) -> ReadResult:
     except (ValueError, IndexError):
         raise InputError(f"'{path}': a row is not segment, epoch and six numbers") from None
     tdb = _frames.epochs_from_texts(ep, ts)
+    for k in np.unique(seg):
+        m = np.flatnonzero(seg == k)
+        _check_table(path, tdb[m], st[m], "data row", int(m[0]) + 1)
     segs = []
     meta = {"CENTER_NAME": keys.get("center_name", ""), "REF_FRAME": keys.get("ref_frame", ""),
             "TIME_SYSTEM": ts}
@@ -1037,10 +1131,15 @@ def read_csv(path) -> ReadResult:
                       keys.get("object_name", ""), keys.get("object_id", ""))
 
 
-def _rotating_result(fmt, keys, t, st, seg=None):
+def _rotating_result(fmt, keys, t, st, seg=None, path="<input>"):
     """Rotating nondimensional states without epochs: segments in TU (split on ``seg``), no frame."""
     t, st = np.asarray(t, float), np.asarray(st, float)
     seg = np.zeros(len(t), dtype=int) if seg is None else np.asarray(seg)
+    if len(t) != len(st):
+        raise InputError(f"'{path}': {len(t)} times but {len(st)} states")
+    for k in np.unique(seg):
+        m = np.flatnonzero(seg == k)
+        _check_table(path, t[m], st[m], "data row", int(m[0]) + 1)
     segs = tuple(FileSegment({"ROTATING_NONDIMENSIONAL": "yes"}, np.array([]), t[seg == k], st[seg == k])
                  for k in np.unique(seg))
     return ReadResult(fmt, {k: v for k, v in keys.items()}, segs, "", None)
@@ -1062,7 +1161,9 @@ def read_json(path) -> ReadResult:
             src = d if key is None else d.get(key)
             if isinstance(src, dict) and "t" in src and "states" in src:
                 try:
-                    return _rotating_result("json", {}, np.asarray(src["t"], float), np.asarray(src["states"], float).reshape(-1, 6))
+                    return _rotating_result("json", {}, np.asarray(src["t"], float), np.asarray(src["states"], float).reshape(-1, 6), path=path)
+                except InputError:
+                    raise
                 except (ValueError, TypeError):
                     break
         if all(k in d for k in ("initial_state", "final_state", "t_final")):
@@ -1070,26 +1171,40 @@ def read_json(path) -> ReadResult:
             try:
                 st = np.array([d["initial_state"], d["final_state"]], float).reshape(2, 6)
                 res = _rotating_result("json", {"system": d.get("system", "")},
-                                       np.array([0.0, float(d["t_final"])]), st)
+                                       np.array([0.0, float(d["t_final"])]), st, path=path)
                 return res
+            except InputError:
+                raise
             except (TypeError, ValueError):
                 pass
         if isinstance(d.get("points"), list):
             try:
                 t = np.array([p["t"] for p in d["points"]], float)
                 st = np.array([p["state"] for p in d["points"]], float).reshape(-1, 6)
-                return _rotating_result("json", {}, t, st)
+                return _rotating_result("json", {}, t, st, path=path)
+            except InputError:
+                raise
             except (KeyError, TypeError, ValueError):
                 pass
         raise InputError(f"'{path}' is neither a librate trajectory nor a JSON of rotating states "
                          "(keys t and states)")
-    ts = _frames.time_system(d["time_system"])
-    segs = []
-    for s in d["segments"]:
-        ep = np.array(s["epochs"])
-        segs.append(FileSegment({"CENTER_NAME": d.get("center_name", ""), "REF_FRAME": d.get("ref_frame", ""),
-                                 "TIME_SYSTEM": ts}, ep, _frames.epochs_from_texts(ep, ts),
-                                np.asarray(s["states"], float).reshape(-1, 6)))
+    try:
+        ts = _frames.time_system(d["time_system"])
+        segs = []
+        for k, s in enumerate(d["segments"]):
+            ep = np.array(s["epochs"], dtype=str)
+            st = np.asarray(s["states"], float).reshape(-1, 6)
+            if len(ep) != len(st) or not len(ep):
+                raise InputError(f"'{path}': segment {k + 1} has {len(ep)} epochs and {len(st)} states")
+            tdb = _frames.epochs_from_texts(ep, ts)
+            _check_table(path, tdb, st, f"segment {k + 1} state")
+            segs.append(FileSegment({"CENTER_NAME": d.get("center_name", ""), "REF_FRAME": d.get("ref_frame", ""),
+                                     "TIME_SYSTEM": ts}, ep, tdb, st))
+    except (KeyError, TypeError, ValueError) as e:
+        if isinstance(e, InputError):
+            raise
+        raise InputError(f"'{path}': a librate trajectory JSON with a missing or malformed "
+                         f"{e if isinstance(e, KeyError) else 'value'} ({type(e).__name__})") from None
     try:
         frame = _frames.FrameSpec.from_dict(d["frame"]) if d.get("frame") else None
     except (KeyError, ValueError, TypeError) as e:
@@ -1111,7 +1226,14 @@ def read(path, fmt: str | None = None) -> ReadResult:
         first = p.read_text(encoding="utf-8", errors="replace").lstrip()[:20]
         f = ("oem" if first.startswith("CCSDS_OEM_VERS") else "json" if first.startswith("{")
              else "xml" if first.startswith("<") else "csv")
-    return {"oem": read_oem, "xml": read_oem_xml, "csv": read_csv, "json": read_json}[f](p)
+    if p.is_dir():
+        raise InputError(f"input file '{shown(path)}' is a folder")
+    try:
+        return {"oem": read_oem, "xml": read_oem_xml, "csv": read_csv, "json": read_json}[f](p)
+    except UnicodeDecodeError as e:
+        raise InputError(f"'{shown(path)}' is not UTF-8 text (byte {e.start}); a trajectory file is text") from None
+    except RecursionError:
+        raise InputError(f"'{shown(path)}' is nested too deeply to read") from None
 
 
 def to_rotating(data: ReadResult, frame: _frames.FrameSpec | None = None) -> tuple:

@@ -502,12 +502,74 @@ def run_tasks(tasks, workers=None, scheduler=None, progress=None) -> list:
     # worker) so that process start-up and pickling do not outweigh the work
     size = max(1, math.ceil(n / (CHUNKS_PER_WORKER * workers)))
     chunks = [list(range(a, min(a + size, n))) for a in range(0, n, size)]
-    with ProcessPoolExecutor(max_workers=min(workers, len(chunks)), mp_context=ctx) as ex:
-        futs = {ex.submit(compute_legs, [tasks[i] for i in c]): c for c in chunks}
+    ex = ProcessPoolExecutor(max_workers=min(workers, len(chunks)), mp_context=ctx,
+                             initializer=worker_init, initargs=(os.getpid(),))
+    try:
+        # the workers are started by the submissions, with SIGINT blocked until worker_init
+        # ignores it
+        with _sigint_ignored():
+            futs = {ex.submit(compute_legs, [tasks[i] for i in c]): c for c in chunks}
         for f in done_first(futs):
             for i, leg in zip(futs[f], f.result()):
                 tick(i, leg)
+    except BaseException:
+        # Ctrl-C or an error: stop the workers now instead of waiting for their chunks
+        procs = list((getattr(ex, "_processes", None) or {}).values())
+        ex.shutdown(wait=False, cancel_futures=True)
+        for p in procs:
+            if p.is_alive():
+                p.terminate()
+        for p in procs:
+            p.join(timeout=5)
+        raise
+    ex.shutdown(wait=True)
     return out
+
+
+class _sigint_ignored:
+    """SIGINT blocked inside the block (POSIX; elsewhere a no-op). Processes started inside it
+    inherit the blocked signal across exec, so a Ctrl-C while they import cannot make them print
+    a traceback; one that arrived meanwhile is delivered to this process when the block ends."""
+
+    def __enter__(self):
+        import signal
+        self.old = None
+        if hasattr(signal, "pthread_sigmask"):
+            self.old = signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGINT})
+        return self
+
+    def __exit__(self, *exc):
+        import signal
+        if self.old is not None:
+            signal.pthread_sigmask(signal.SIG_SETMASK, self.old)
+        return False
+
+
+#: Linux prctl option: the signal a process gets when its parent dies (linux/prctl.h).
+PR_SET_PDEATHSIG = 1
+
+
+def worker_init(parent_pid=None):
+    """Initializer of every pool worker: die with the parent, and leave Ctrl-C to it.
+
+    A worker ignores SIGINT (the terminal sends it to the whole process group; the parent
+    reports the interruption once and stops the pool) and, on Linux, asks the kernel for
+    SIGKILL when its parent dies (prctl PR_SET_PDEATHSIG, prctl(2)), so that a killed
+    ``librate`` leaves no worker holding the terminal's pipes. If the parent is already gone
+    when the worker starts, it exits at once.
+    """
+    import signal
+    import sys
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    if sys.platform.startswith("linux"):
+        try:
+            import ctypes
+            libc = ctypes.CDLL(None, use_errno=True)
+            libc.prctl(PR_SET_PDEATHSIG, signal.SIGKILL, 0, 0, 0)
+        except (OSError, AttributeError):    # no prctl: workers end when the pool's pipes close
+            pass
+    if parent_pid is not None and os.getppid() != parent_pid:
+        os._exit(1)
 
 
 def compute_legs(tasks: list) -> list:

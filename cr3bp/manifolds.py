@@ -67,10 +67,8 @@ def step_lu(system, step_km=None) -> tuple[float, float]:
             return 1e-6, float("nan")
         step_km = default_step_km(system)
     if isinstance(step_km, str):
-        q = units.parse(step_km, "length", "km")
-        v = q.nondim(system)
-        if not v > 0:
-            raise InputError(f"step-off distance '{step_km}' must be positive")
+        from .validate import quantity
+        v = quantity("step-off distance", step_km, "length", system, sign="positive")
         return v, (v * system.length_km if system.dimensional else float("nan"))
     if not (math.isfinite(step_km) and step_km > 0):
         raise InputError(f"step-off distance {step_km!r} km must be positive")
@@ -265,25 +263,23 @@ def parse_until(texts, system, t_max=None) -> Stop:
             body, _, n = rest.partition("#")
             section = parse_section(body, system)
             if n:
-                try:
-                    count = int(n)
-                except ValueError:
-                    raise InputError(f"crossing number '{n}' in '{text}' is not an integer") from None
+                from .validate import whole_number
+                count = whole_number(f"crossing number in '{text}'", n, 1, 1000)
         elif kind == "time":
             tmax = units.time(rest, system, default_unit="TU")
             if not tmax > 0:
                 raise InputError(f"time limit in '{text}' must be positive")
         elif kind == "altitude":
             body, _, h = rest.partition(":")
+            from .validate import quantity
             p = primary_index(system, body)
-            q = units.parse(h, "length", "km")
             system.require_dimensional("an altitude")
-            alt_km = q.si() if q.unit != "LU" else q.value * system.length_km
-            if alt_km < 0:
-                raise InputError(f"altitude in '{text}' must not be negative")
+            alt_km = system.km(quantity(f"altitude in '{text}'", h, "length", system, sign="nonnegative"))
             alts.append((p, float(alt_km)))
         elif kind == "escape":
-            esc = units.length(rest, system, default_unit="LU")
+            from .validate import quantity
+            esc = quantity(f"escape radius in '{text}'", rest, "length", system, sign="positive",
+                           default_unit="LU")
         else:
             raise InputError(f"stop condition '{text}' is not understood; use section:x=1-mu, "
                              "time:20d, altitude:earth:200km or escape:3LU")

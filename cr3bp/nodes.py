@@ -41,6 +41,8 @@ from . import scenario_schema as schema_mod
 from . import units
 from .errors import InputError, shown
 
+#: Largest node list read (characters): far above any real one, it keeps a hostile file cheap.
+MAX_NODE_LIST_CHARS = 2_000_000
 KINDS = ("orbit", "parking", "state", "capture", "escape")
 MANEUVERS = ("ends", "none")
 
@@ -237,6 +239,9 @@ def load_nodes(path, system) -> NodeList:
     path = Path(path)
     try:
         text = path.read_text(encoding="utf-8")
+    except UnicodeDecodeError as e:
+        raise InputError(f"node list {shown(path)} is not UTF-8 text (byte {e.start}); a node list "
+                         "is a TOML file") from None
     except OSError as e:
         raise InputError(f"cannot read node list {shown(path)}: {e.strerror}") from None
     return parse_nodes(text, system, str(path))
@@ -245,8 +250,14 @@ def load_nodes(path, system) -> NodeList:
 def parse_nodes(text: str, system, file: str = "<nodes>") -> NodeList:
     """Check the TOML ``text`` of a node list and build its nodes (see :func:`load_nodes`)."""
     P = schema_mod.Problem
+    if len(text) > MAX_NODE_LIST_CHARS:
+        raise InputError(f"node list {shown(file)} has {len(text)} characters; at most "
+                         f"{MAX_NODE_LIST_CHARS} are read")
     try:
         data = tomllib.loads(text)
+    except RecursionError:
+        raise InputError(f"node list {shown(file)} is nested too deeply to read (a TOML array or "
+                         "table inside thousands of others)") from None
     except tomllib.TOMLDecodeError as e:
         m = re.search(r"line (\d+)", str(e))
         raise schema_mod.ScenarioError([P(file, int(m.group(1)) if m else 0, "(syntax)", str(e))]) from None

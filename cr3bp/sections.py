@@ -205,6 +205,8 @@ def _check_direction(d):
 
 # ---- text form -------------------------------------------------------------------------
 
+#: Longest arithmetic read in a section value (a 50 000-character one would exhaust the parser).
+MAX_EXPRESSION_CHARS = 200
 _OPS = {ast.Add: operator.add, ast.Sub: operator.sub, ast.Mult: operator.mul,
         ast.Div: operator.truediv, ast.USub: operator.neg, ast.UAdd: operator.pos}
 
@@ -223,13 +225,17 @@ def expression(text: str, system) -> float:
         if isinstance(node, ast.UnaryOp) and type(node.op) in _OPS:
             return _OPS[type(node.op)](ev(node.operand))
         raise ValueError
+    from .errors import shown
+    if len(str(text)) > MAX_EXPRESSION_CHARS:
+        raise InputError(f"section value '{shown(text)}' is longer than {MAX_EXPRESSION_CHARS} "
+                         "characters; give a number or short arithmetic in mu (e.g. 1-mu)")
     try:
         v = ev(ast.parse(text.strip(), mode="eval"))
-    except (SyntaxError, ValueError, ZeroDivisionError):
-        raise InputError(f"section value '{text}' is not a number or arithmetic in mu "
+    except (SyntaxError, ValueError, ZeroDivisionError, RecursionError, MemoryError, OverflowError):
+        raise InputError(f"section value '{shown(text)}' is not a number or arithmetic in mu "
                          "(e.g. 1-mu, -mu, 0.8)") from None
     if not math.isfinite(v):
-        raise InputError(f"section value '{text}' is not finite")
+        raise InputError(f"section value '{shown(text)}' is not finite")
     return v
 
 
@@ -271,7 +277,8 @@ def parse_section(text: str, system) -> Section:
     if head == "sphere":
         if len(parts) not in (3, 4):
             raise InputError(f"section '{text}': write sphere:BODY:RADIUS[:+|-], e.g. sphere:moon:20000km")
-        r = units.length(parts[2], system)
+        from .validate import quantity
+        r = quantity(f"sphere radius in section '{text}'", parts[2], "length", system, sign="positive")
         d = _direction_text(parts[3], text) if len(parts) == 4 else -1
         return sphere(system, parts[1], r, d or -1, label=t)
     if "=" not in head:

@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 import math
+import os
+import re
 
 import numpy as np
 
@@ -85,3 +87,199 @@ def _outside(system, s, name):
                     f"{name}{where} lies inside {who}: {d[i] * system.length_km:.1f} km from its "
                     f"centre, radius {r * system.length_km:.1f} km")
             raise StateError(f"{name}{where} lies at the centre of {who}")
+
+
+# ---- values given as text (command-line options): one parser per kind of value -------------
+#
+# Each returns the value or raises InputError naming the option and the text the user gave
+# (escaped by errors.shown, so the message stays one line), and what is allowed.
+
+def _show(text) -> str:
+    from .errors import shown
+    return shown(text)
+
+
+def finite_number(name: str, text) -> float:
+    """A finite float (``nan``, ``inf``, ``1e999`` refused)."""
+    try:
+        v = float(str(text).strip())
+    except (TypeError, ValueError):
+        raise InputError(f"{name} '{_show(text)}' is not a number") from None
+    if not math.isfinite(v):
+        raise InputError(f"{name} '{_show(text)}' is not a finite number") from None
+    return v
+
+
+def number_in(name: str, text, lo: float | None = None, hi: float | None = None, *,
+              open_lo: bool = False, open_hi: bool = False) -> float:
+    """A finite float in the interval [lo, hi] (open at an end when asked)."""
+    v = finite_number(name, text)
+    bad = (lo is not None and (v <= lo if open_lo else v < lo)) or \
+          (hi is not None and (v >= hi if open_hi else v > hi))
+    if bad:
+        a = "-inf" if lo is None else f"{lo:g}"
+        b = "inf" if hi is None else f"{hi:g}"
+        raise InputError(f"{name} '{_show(text)}' is outside the allowed range "
+                         f"{'(' if open_lo or lo is None else '['}{a}, {b}{')' if open_hi or hi is None else ']'}")
+    return v
+
+
+def positive_number(name: str, text) -> float:
+    """A finite float > 0."""
+    v = finite_number(name, text)
+    if not v > 0:
+        raise InputError(f"{name} '{_show(text)}' must be positive")
+    return v
+
+
+def whole_number(name: str, text, lo: int, hi: int) -> int:
+    """A whole number in lo..hi (``3.0``, ``1e3``, ``nan`` refused: no rounding)."""
+    if isinstance(text, bool):
+        raise InputError(f"{name} {text!r} is not a whole number")
+    if isinstance(text, int):
+        v = text
+    else:
+        t = str(text).strip()
+        if not t.lstrip("+-").isdigit() or len(t) > 12:
+            raise InputError(f"{name} '{_show(text)}' is not a whole number; allowed {lo}..{hi}")
+        v = int(t)
+    if not lo <= v <= hi:
+        raise InputError(f"{name} {v} is outside the allowed range {lo}..{hi}")
+    return v
+
+
+def quantity(name: str, text, dimension: str, system=None, *, sign: str = "any",
+             default_unit: str | None = None) -> float:
+    """A length, time or velocity with its unit (no unit guessed unless ``default_unit``).
+
+    Returns the value in LU, TU or LU/TU of ``system`` (or in km, s, km/s when ``system`` is None).
+    ``sign``: "any", "positive" (> 0) or "nonnegative" (>= 0); a refusal names the text the user
+    gave, in the user's unit.
+    """
+    from . import units
+    from .errors import UnitError
+    try:
+        q = units.parse(text, dimension, default_unit)
+        v = q.nondim(system) if system is not None else q.si()
+    except UnitError as e:
+        raise UnitError(f"{name}: {e}") from None
+    if sign == "positive" and not q.value > 0:
+        raise InputError(f"{name} '{_show(text)}' must be positive")
+    if sign == "nonnegative" and not q.value >= 0:
+        raise InputError(f"{name} '{_show(text)}' must not be negative")
+    return float(v)
+
+
+def plain_text(name: str, text, max_len: int = 200) -> str:
+    """Free text written into a file header (an OEM's OBJECT_NAME, a comment): no control
+    characters (a line break would add header lines), at most ``max_len`` characters."""
+    t = str(text)
+    bad = [c for c in t if not c.isprintable()]
+    if bad:
+        raise InputError(f"{name} '{_show(t)}' contains a control character ({bad[0].encode('unicode_escape').decode()}); "
+                         "allowed: printable characters on one line")
+    if len(t) > max_len:
+        raise InputError(f"{name} '{_show(t)}' is longer than {max_len} characters")
+    return t
+
+
+_ISO_8601 = re.compile(r"^\d{4}-\d{2}-\d{2}(T\d{2}:\d{2}(:\d{2}(\.\d+)?)?)?(Z|[+-]\d{2}:\d{2})?$", re.ASCII)
+
+
+def iso8601(name: str, text) -> str:
+    """An ISO 8601 date or date-time (``2031-03-01``, ``2031-03-01T00:00:00Z``), checked as a
+    real calendar date; returned as given."""
+    from datetime import datetime
+    t = str(text)
+    if not _ISO_8601.match(t):
+        raise InputError(f"{name} '{_show(t)}' is not an ISO 8601 date or date-time "
+                         "(e.g. 2031-03-01T00:00:00Z)")
+    try:
+        datetime.fromisoformat(t.replace("Z", "+00:00"))
+    except ValueError:
+        raise InputError(f"{name} '{_show(t)}' is not a calendar date-time") from None
+    return t
+
+
+# ---- files --------------------------------------------------------------------------------
+
+#: Longest file name (one path component, in bytes) most file systems allow.
+NAME_MAX = 255
+
+
+def _same_path(a, b) -> bool:
+    import os
+    from pathlib import Path
+    pa, pb = Path(a), Path(b)
+    try:
+        if pa.exists() and pb.exists():
+            return os.path.samefile(pa, pb)
+    except OSError:
+        pass
+    return os.path.realpath(pa) == os.path.realpath(pb)
+
+
+def output_file(name: str, path, inputs=()) -> str:
+    """Check, before any work, that ``path`` can be written as a file: not empty, not a folder,
+    not one of ``inputs`` (files the command reads), each name at most NAME_MAX bytes, and the
+    nearest existing folder above it writable. Returns ``path`` as text."""
+    import os
+    from pathlib import Path
+    t = str(path)
+    if not t.strip():
+        raise InputError(f"{name} is empty; give a file name")
+    if "\x00" in t:
+        raise InputError(f"{name} '{_show(t)}' contains a NUL character")
+    p = Path(t)
+    for part in p.parts:
+        if len(part.encode("utf-8", "surrogateescape")) > NAME_MAX:
+            raise InputError(f"{name} '{_show(t)}': the name '{_show(part)}' is longer than "
+                             f"{NAME_MAX} bytes")
+    if p.is_dir():
+        raise InputError(f"{name} '{_show(t)}' is a folder; give a file name")
+    for src in inputs:
+        if src is not None and str(src) != "" and _same_path(p, src):
+            raise InputError(f"{name} '{_show(t)}' is also an input of this command; "
+                             "write to another file")
+    _writable_folder(name, t, p.parent)
+    return t
+
+
+def output_folder(name: str, path, inputs=()) -> str:
+    """As :func:`output_file`, for a folder that will hold the outputs (it may exist)."""
+    from pathlib import Path
+    t = str(path)
+    if not t.strip():
+        raise InputError(f"{name} is empty; give a folder")
+    p = Path(t)
+    for part in p.parts:
+        if len(part.encode("utf-8", "surrogateescape")) > NAME_MAX:
+            raise InputError(f"{name} '{_show(t)}': the name '{_show(part)}' is longer than "
+                             f"{NAME_MAX} bytes")
+    if p.exists() and not p.is_dir():
+        raise InputError(f"{name} '{_show(t)}' exists and is not a folder")
+    for src in inputs:
+        if src is not None and str(src) != "" and _same_path(p, src):
+            raise InputError(f"{name} '{_show(t)}' is also an input of this command")
+    _writable_folder(name, t, p)
+    return t
+
+
+def _writable_folder(name, shown_path, folder):
+    import os
+    from pathlib import Path
+    d = Path(folder) if str(folder) else Path(".")
+    while not d.exists():
+        if d.is_symlink():       # a dangling link
+            raise InputError(f"{name} '{_show(shown_path)}': {d} is a broken link")
+        d = d.parent
+    if not d.is_dir():
+        raise InputError(f"{name} '{_show(shown_path)}': {d} is not a folder")
+    if not os.access(d, os.W_OK | os.X_OK):
+        raise InputError(f"{name} '{_show(shown_path)}': the folder {d} is not writable")
+    try:
+        st = os.statvfs(d)
+        if st.f_flag & os.ST_RDONLY:
+            raise InputError(f"{name} '{_show(shown_path)}': {d} is on a read-only file system")
+    except (AttributeError, OSError):
+        pass

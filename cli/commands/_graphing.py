@@ -22,7 +22,6 @@ def _workers(text):
 
 def build(args, system):
     """(node list, BuildResult) from the options; progress to stderr."""
-    from cr3bp import units
     from cr3bp.catalog import Catalog
     from cr3bp.graph_build import build_graph
     from cr3bp.nodes import load_nodes
@@ -33,9 +32,8 @@ def build(args, system):
         raise InputError("give --workers or --scheduler, not both")
     tof_days = None
     if args.tof is not None:
-        t = units.time(args.tof, system)
-        if not t > 0:
-            raise InputError(f"--tof {args.tof!r} must be positive")
+        from cr3bp.validate import quantity
+        t = quantity("--tof", args.tof, "time", system, sign="positive")
         tof_days = system.days(t)
     if args.no_catalog and args.catalog:
         raise InputError("give --catalog or --no-catalog, not both")

@@ -47,6 +47,12 @@ def add_manifold_options(p, points_default=200):
                         "200 km Sun-Earth; see DEVELOPERS.md)")
 
 
+def orbit_options_given(args) -> list[str]:
+    """The orbit-choosing options given (for refusing them beside another source)."""
+    names = ["orbit", "family", "point", "halo_branch", "state", *TARGETS]
+    return ["--" + n.replace("_", "-") for n in names if getattr(args, n, None) is not None]
+
+
 def request_text(args) -> str | None:
     if args.orbit:
         return args.orbit
@@ -82,7 +88,6 @@ def orbit_from_request(system, text, args=None):
 
 
 def _given(system, state_text, period_text, family="given", point=""):
-    from cr3bp import units
     from cr3bp.errors import InputError
     from cr3bp.manifolds import orbit_from_state
     try:
@@ -91,7 +96,8 @@ def _given(system, state_text, period_text, family="given", point=""):
         raise InputError(f"state '{state_text}' is not six comma-separated numbers") from None
     if len(s) != 6:
         raise InputError(f"state '{state_text}' has {len(s)} numbers; expected six (x,y,z,vx,vy,vz)")
-    T = units.time(period_text, system, default_unit="TU")
+    from cr3bp.validate import quantity
+    T = quantity("period", period_text, "time", system, sign="positive", default_unit="TU")
     return orbit_from_state(system, s, T, family=family, point=point)
 
 
@@ -100,7 +106,14 @@ def resolve_orbit(args, system):
     if args.state is not None:
         if args.period is None:
             raise InputError("--state needs --period (the orbit's period, e.g. 2.84TU or 12.4d)")
+        others = [o for o in orbit_options_given(args) if o not in ("--state", "--period")]
+        if others:
+            raise InputError(f"--state (with --period) gives the orbit; leave out {', '.join(others)}")
         return _given(system, args.state, args.period)
+    if args.orbit is not None:
+        others = [o for o in orbit_options_given(args) if o != "--orbit"]
+        if others:
+            raise InputError(f"--orbit gives the orbit; leave out {', '.join(others)}")
     text = request_text(args)
     if text is None:
         raise InputError("give the orbit: --orbit 'lyapunov L1 jacobi=3.17', or --family/--point and one "

@@ -37,7 +37,10 @@ def _common(a):
 def run(args):
     from cr3bp.catalog import Catalog
     cat = Catalog(args.catalog)
-    return {"list": _list, "show": _show, "find": _find, "remove": _remove}[args.action](args, cat)
+    try:
+        return {"list": _list, "show": _show, "find": _find, "remove": _remove}[args.action](args, cat)
+    finally:
+        cat.close()
 
 
 def _list(args, cat):

@@ -46,7 +46,6 @@ def add_arguments(p):
 
 def parse_parking(text, system):
     """'parking earth 200km' -> (primary index, altitude km), or None if not a parking orbit."""
-    from cr3bp import units
     from cr3bp.errors import InputError
     from cr3bp.sections import primary_index
     words = text.split()
@@ -55,11 +54,9 @@ def parse_parking(text, system):
     if len(words) != 3:
         raise InputError(f"'{text}': write 'parking BODY ALTITUDE', e.g. 'parking earth 200km'")
     p = primary_index(system, words[1])
-    q = units.parse(words[2], "length", "km")
+    from cr3bp.validate import quantity
     system.require_dimensional("a parking altitude")
-    alt = q.si() if q.unit != "LU" else q.value * system.length_km
-    if alt < 0:
-        raise InputError(f"parking altitude '{words[2]}' must not be negative")
+    alt = system.km(quantity(f"parking altitude in '{text}'", words[2], "length", system, sign="nonnegative"))
     return p, float(alt)
 
 
@@ -92,17 +89,18 @@ HEADERS = ["rank", "kind", "dv_mps", "tof_arrival_days", "tof_stepoff_days", "ar
 def run(args):
     import math
 
-    from cr3bp import units
     from cr3bp.connections import connect, necks_open, parking_legs, periapsis_map
     from cr3bp.errors import InputError
     system = common.resolve_system(args)
     to.check_plot_path(args.plot)
     to.check_plot_path(args.map)
-    if args.candidates < 1:
-        raise InputError(f"--candidates {args.candidates} must be at least 1")
-    t_max = units.time(args.time, system, default_unit="TU") if args.time else 2 * math.pi
-    if not t_max > 0:
-        raise InputError(f"--time {args.time} must be positive")
+    common.whole_number("--candidates", args.candidates, 1, 1000)
+    common.whole_number("--crossing", args.crossing, 1, 1000)
+    if args.points is not None:
+        common.whole_number("--points", args.points, 2, 100_000)
+    from cr3bp.validate import quantity
+    t_max = quantity("--time", args.time, "time", system, sign="positive", default_unit="TU") \
+        if args.time is not None else 2 * math.pi
     pa, pb = parse_parking(args.origin, system), parse_parking(args.target, system)
     within_km = None
     if args.arrival_within is not None:

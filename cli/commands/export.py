@@ -87,10 +87,9 @@ def parse_orientation(args):
 
 
 def step_seconds(text, system):
-    from cr3bp import units
     from cr3bp.errors import InputError
-    q = units.parse(text, "time")
-    s = q.nondim(system) * system.time_s if q.unit == "TU" else q.si()
+    from cr3bp.validate import quantity
+    s = quantity("--step", text, "time", system, sign="positive") * system.time_s
     if not s > 0:
         raise InputError(f"--step '{text}' must be positive")
     return float(s)
@@ -146,9 +145,14 @@ def _run(args):
     from cr3bp import export, frames
     from cr3bp.errors import InputError
 
+    from cr3bp.validate import plain_text
     chosen = [x for x in (args.state, args.orbit, args.from_file) if x is not None]
     if len(chosen) != 1:
         raise InputError("give exactly one of --state, --orbit or --from FILE")
+    plain_text("--object-name", args.object_name, 100)
+    plain_text("--object-id", args.object_id, 100)
+    if args.km and args.state is None:
+        raise InputError("--km says how --state is given; it goes with --state only")
     fmt = export.format_of(args.out, args.format)
     if fmt in ("oem", "xml") and args.frame == "rotating":
         raise InputError("OEM needs inertial axes (--frame j2000-equator or j2000-ecliptic); "
@@ -211,11 +215,11 @@ def _run(args):
     if args.period is not None:
         if args.orbit is not None:
             raise InputError("--period goes with --state or --from (an --orbit has its own period)")
-        from cr3bp import units
-        period_tu = units.time(args.period, sysm)
-        if not period_tu > 0:
-            raise InputError(f"--period '{args.period}' must be positive")
+        from cr3bp.validate import quantity
+        period_tu = quantity("--period", args.period, "time", sysm, sign="positive")
         model["period"] = f"{period_tu!r} TU = {period_tu * sysm.time_days:.9f} d"
+    if args.span is not None:
+        export.parse_span(args.span, sysm, period_tu)    # '3periods' without a period: said now
 
     # the frame
     if args.epoch is None:

@@ -53,7 +53,6 @@ def _parse_until(system, text):
 
 
 def run(args):
-    from cr3bp import units
     from cr3bp.errors import InputError
     from cr3bp.orbits import continuation, families
     from cr3bp.orbits.request import catalog_member, catalog_settings, spec_from_options
@@ -71,9 +70,8 @@ def run(args):
     alt = None
     if args.altitude:
         system.require_dimensional("--altitude")
-        alt = units.length(args.altitude, system) * system.length_km
-        if alt < 0:
-            raise InputError(f"--altitude {args.altitude} must not be negative")
+        from cr3bp.validate import quantity
+        alt = quantity("--altitude", args.altitude, "length", system, sign="nonnegative") * system.length_km
     step = None
     if args.step is not None:
         step = common._float_arg("--step", args.step)

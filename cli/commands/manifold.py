@@ -34,8 +34,13 @@ def run(args):
     if args.stability is None:
         raise InputError("give --stable or --unstable")
     to.check_plot_path(args.plot)
+    common.whole_number("--points", args.points, 2, 100_000)
     stop = parse_until(args.until, system)
     if args.lagrange:
+        given = to.orbit_options_given(args)
+        if given:
+            raise InputError(f"--lagrange grows a Lagrange point's manifold; it does not go with "
+                             f"{', '.join(given)} (an orbit's)")
         return _point(args, system, stop)
     orbit = to.resolve_orbit(args, system)
     common.progress(args, f"librate manifold: growing {args.points} {args.stability} {args.branch} "

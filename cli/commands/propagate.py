@@ -64,13 +64,11 @@ def _parse_state(text, system, km):
 def _output_times(args, system, t_final):
     import numpy as np
 
-    from cr3bp import units
     from cr3bp.errors import InputError
     if args.step is None:
         return None
-    step = abs(units.time(args.step, system))
-    if step == 0:
-        raise InputError(f"--step {args.step!r} must be positive")
+    from cr3bp.validate import quantity
+    step = quantity("--step", args.step, "time", system, sign="positive")
     n = int(np.floor(abs(t_final) / step + 1e-9))
     if n + 2 > MAX_OUTPUT_POINTS:
         raise InputError(f"--step {args.step!r} gives {n + 2} output points; allowed at most "
@@ -89,7 +87,7 @@ def run(args):
 
     import numpy as np
 
-    from cr3bp import propagate, units, validate
+    from cr3bp import propagate, validate
     from cr3bp.dynamics import jacobi
     from cr3bp.errors import InputError
     from cr3bp.integrate import impact
@@ -97,7 +95,8 @@ def run(args):
     system = common.resolve_system(args)
     state = _parse_state(args.state, system, args.km)
     state = validate.state(system, state)
-    t_final = units.time(args.time, system)
+    from cr3bp.validate import quantity
+    t_final = quantity("--time", args.time, "time", system)
     rtol = validate.tolerance("--rtol", args.rtol)
     atol = validate.tolerance("--atol", args.atol)
     t_eval = _output_times(args, system, t_final)

@@ -51,14 +51,16 @@ def parse_srp(text):
     from cr3bp.errors import InputError
     if text is None:
         return None
+    from cr3bp.errors import shown
+    from cr3bp.validate import number_in
     parts = [w.strip() for w in text.split(",")]
     if len(parts) != 2:
-        raise InputError(f"--srp '{text}' must be AREA_TO_MASS,CR, e.g. 0.01m2/kg,1.3")
-    am = parts[0].lower().removesuffix("m2/kg").strip()
-    try:
-        return float(am), float(parts[1])
-    except ValueError:
-        raise InputError(f"--srp '{text}' must be AREA_TO_MASS,CR, e.g. 0.01m2/kg,1.3") from None
+        raise InputError(f"--srp '{shown(text)}' must be AREA_TO_MASS,CR, e.g. 0.01m2/kg,1.3")
+    if not parts[0].endswith("m2/kg"):
+        raise InputError(f"--srp '{shown(text)}': the area-to-mass ratio needs its unit m2/kg, e.g. 0.01m2/kg,1.3")
+    am = number_in("--srp area-to-mass", parts[0].removesuffix("m2/kg").strip(), 0.0, 100.0)
+    cr = number_in("--srp reflectivity coefficient", parts[1], 0.0, 2.0)
+    return am, cr
 
 
 def _check_epoch(args, sysm):

@@ -46,22 +46,19 @@ def add_arguments(p):
 
 
 def _constraints(args, system, nodes):
-    from cr3bp import units
     from cr3bp.errors import InputError
     from cr3bp.network import Constraints
     from cr3bp.nodes import find_node
     dv = tof = alt = legs = None
     if args.max_dv is not None:
-        dv = system.mps(units.velocity(args.max_dv, system))
-        if not dv >= 0:
-            raise InputError(f"--max-dv {args.max_dv!r} must not be negative")
+        from cr3bp.validate import quantity
+        dv = system.mps(quantity("--max-dv", args.max_dv, "velocity", system, sign="nonnegative"))
     if args.max_tof is not None:
-        tof = system.days(units.time(args.max_tof, system))
-        if not tof >= 0:
-            raise InputError(f"--max-tof {args.max_tof!r} must not be negative")
+        from cr3bp.validate import quantity
+        tof = system.days(quantity("--max-tof", args.max_tof, "time", system, sign="nonnegative"))
     if args.min_altitude is not None:
-        alt = units.parse(args.min_altitude, "length").si() if not args.min_altitude.endswith("LU") else \
-            system.km(units.length(args.min_altitude, system))
+        from cr3bp.validate import quantity
+        alt = system.km(quantity("--min-altitude", args.min_altitude, "length", system, sign="nonnegative"))
     if args.max_legs is not None:
         legs = common.whole_number("--max-legs", args.max_legs, 1, 1000)
     through = tuple(find_node(nodes, t).id for t in args.through)
@@ -85,8 +82,6 @@ def run(args):
     system = common.resolve_system(args)
     if args.plot is not None and Path(args.plot).suffix.lower() not in PLOT_SUFFIXES:
         raise InputError(f"--plot {args.plot!r} must end in .png or .svg")
-    if args.out is not None and Path(args.out).exists() and not Path(args.out).is_dir():
-        raise InputError(f"--out {args.out!r} exists and is not a folder")
     if args.no_stitch and (args.out or args.plot):
         raise InputError("--out and --plot show the stitched route; leave out --no-stitch")
     if args.epoch is not None and not args.out:

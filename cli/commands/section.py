@@ -57,7 +57,6 @@ HEADERS = ["tube", "trajectory", "phase", "crossing", "t", "map_a", "map_b", "x"
 def run(args):
     import math
 
-    from cr3bp import units
     from cr3bp.errors import InputError
     from cr3bp.manifolds import Stop, grow_tube, manifold_starts
     from cr3bp.sections import MAP_COORDS, crossings, parse_section
@@ -67,11 +66,11 @@ def run(args):
     names = tuple(args.coords.split(",")) if args.coords else default_coords(section)
     if len(names) != 2 or any(n not in MAP_COORDS for n in names):
         raise InputError(f"--coords '{args.coords}' must be two of {', '.join(MAP_COORDS)}")
-    if args.crossing < 1:
-        raise InputError(f"--crossing {args.crossing} must be at least 1")
-    t_max = units.time(args.time, system, default_unit="TU") if args.time else 2 * math.pi
-    if not t_max > 0:
-        raise InputError(f"--time {args.time} must be positive")
+    common.whole_number("--crossing", args.crossing, 1, 1000)
+    common.whole_number("--points", args.points, 2, 100_000)
+    from cr3bp.validate import quantity
+    t_max = quantity("--time", args.time, "time", system, sign="positive", default_unit="TU") \
+        if args.time is not None else 2 * math.pi
     specs = [parse_tube_spec(t) for t in args.tube]
     cuts, out = [], []
     for req, stab, br in specs:

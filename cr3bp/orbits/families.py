@@ -66,13 +66,19 @@ def check_family(family: str, point: str | None, branch: str | None):
         if f in ("vertical", "axial") and point == "L3":
             raise InputError(f"{f} families are offered at L1 and L2 only")
     else:
+        if point:
+            raise InputError(f"the {f} family has no Lagrange point; leave out the point '{point}'")
         point = ""
     if f == "halo":
         b = (branch or "").strip().lower()
+        if not b:
+            raise InputError("the halo family needs a branch: north or south")
         if b not in BRANCHES["halo"]:
             raise InputError(f"halo branch '{branch}' is not allowed; use north or south")
         branch = b
     else:
+        if branch:
+            raise InputError(f"the {f} family has no north/south branch; leave out '{branch}'")
         branch = ""
     return f, point, branch
 

@@ -58,6 +58,10 @@ def parse_request(text: str) -> OrbitSpec:
     """Parse a request (grammar in the module notes). Raises InputError naming the bad word."""
     if not isinstance(text, str) or not text.strip():
         raise InputError("empty orbit request; expected e.g. 'halo L2 south period=6.5626d'")
+    if not text.isprintable():
+        from ..errors import shown
+        raise InputError(f"orbit request '{shown(text)}' contains a control character; expected e.g. "
+                         "'halo L2 south period=6.5626d'")
     words = text.replace(",", " ").split()
     fam = ALIASES.get(words[0].lower(), words[0].lower())
     if fam not in families.FAMILIES:
@@ -91,6 +95,9 @@ def parse_request(text: str) -> OrbitSpec:
                              "(L1, L2, L3), a branch (north, south), p:q for resonant, or KEY=VALUE")
     if fam == "resonant" and resonance is None:
         raise InputError("a resonant family needs p:q, e.g. 'resonant 3:2 jacobi=2.9'")
+    if fam == "resonant" and (point or branch):
+        raise InputError(f"the resonant family has no Lagrange point or branch; leave out "
+                         f"'{point or branch}'")
     if fam != "resonant":
         fam, point, branch = families.check_family(fam, point or None, branch or None)
     return OrbitSpec(fam, point, branch, key, value, resonance, occurrence)

@@ -58,7 +58,11 @@ def parse_resonance(text: str) -> tuple[int, int]:
 def make_target(system, kind: str, text) -> Target:
     """Turn a user target (e.g. ``("period", "6.5626d")``, ``("az", "12000km")``,
     ``("jacobi", "3.15")``, ``("resonance", "9:2")``) into a nondimensional Target."""
-    t = _make(system, str(kind).strip().lower(), str(text).strip())
+    from ..errors import UnitError
+    try:
+        t = _make(system, str(kind).strip().lower(), str(text).strip())
+    except UnitError as e:
+        raise UnitError(f"{str(kind).strip().lower()}: {e}") from None
     if t.kind in ("period", "ax", "ay", "az", "perilune", "approach1") and not t.value > 0:
         raise InputError(f"{t.kind} = {t.text} must be positive")
     return t
@@ -68,10 +72,8 @@ def _make(system, kind, text):
     if kind == "period":
         return Target(kind, "period", units.time(text, system), text)
     if kind == "jacobi":
-        try:
-            v = float(text)
-        except ValueError:
-            raise InputError(f"Jacobi constant '{text}' is not a number") from None
+        from ..validate import finite_number
+        v = finite_number("Jacobi constant", text)
         return Target(kind, "jacobi", v, text)
     if kind in ("ax", "ay", "az", "x"):
         if kind == "x":
