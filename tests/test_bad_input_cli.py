@@ -172,6 +172,7 @@ BASE = {
                "--span=1d", "--step=1h"],
     "convert": ["convert", "{in}/good.oem"],
     "refine": ["refine", EM, "--orbit=halo L2 south period=6.5626d", EPOCH, "--revs=1"],
+    "torus": ["torus", EM, "--around=lyapunov L1 jacobi=3.17", "--amplitude=100km"],
 }
 #: the option each command writes its main output with (convert: the positional OUT)
 OUT_OPTION = {"route": "--out", "family": "--plot", "convert": ""}
@@ -239,6 +240,16 @@ def value_cases():
     P, Z, O, F = BASE["propagate"], BASE["zvc"], ["orbit", EM], ["family", EM]
     M, S, C = BASE["manifold"], BASE["section"], ["connect", EM]
     G, R, X, RF = BASE["graph"], BASE["route"], BASE["export"], BASE["refine"]
+    # torus
+    T = BASE["torus"]
+    for v in ("-5km", "0km", "nankm", "infkm", "1e999km", "5kg", "five"):
+        add(f"torus-amplitude-{v}", T[:-1] + [f"--amplitude={v}"])
+    add("torus-hold-unknown", T + ["--hold=energy"])
+    add("torus-around-unknown-family", T[:2] + ["--around=bagel L1 jacobi=3.17"] + T[3:])
+    add("torus-around-empty", T[:2] + ["--around="] + T[3:])
+    add("torus-around-control-char", T[:2] + ["--around=lyapunov L1\njacobi=3.17"] + T[3:])
+    add("torus-plot-suffix", T + ["--plot={out}/t.bmp"])
+    add("torus-format", T + ["--format=xml"])
     # systems, points
     add("systems-format", ["systems", "--format=xml"])
     add("points-mu-nan", ["points", "--mu=nan"])
