@@ -7,7 +7,8 @@ import math
 
 import numpy as np
 
-from .base import VIEWS, axis_labels, draw_primaries, new_figure
+from .base import VIEWS, axis_labels, draw_lagrange_points, draw_primaries, legend_beside, new_figure
+from .base import title as set_title
 
 LEG_COLOURS = ("tab:red", "tab:green", "tab:purple", "tab:orange", "tab:brown", "tab:pink", "tab:cyan")
 ZVC_STYLE = dict(lw=0.8, ls="--", zorder=2)
@@ -28,7 +29,6 @@ def plot_corridor(stitched, legs=(), tubes=(), ax=None, view="xy", margin=0.25, 
     """
     from ..dynamics import jacobi
     from ..energy import hill_region
-    from .energy import draw_lagrange_points
     system = stitched.system
     if ax is None:
         _, ax = new_figure(size=(7.5, 6.5))
@@ -90,9 +90,9 @@ def plot_corridor(stitched, legs=(), tubes=(), ax=None, view="xy", margin=0.25, 
     ax.set_ylim(extent[2], extent[3])
     ax.set_aspect("equal")
     axis_labels(ax, system, view)
-    ax.set_title(f"Transfer corridor: {' → '.join(stitched.nodes)}\n"
-                 f"Δv {stitched.dv_total_mps:.1f} m/s, time of flight {stitched.tof_days:.2f} d", fontsize=9)
-    ax.legend(loc="best", fontsize=7, framealpha=0.9)
+    set_title(ax, f"Transfer corridor: {' → '.join(stitched.nodes)}\n"
+                  f"Δv {stitched.dv_total_mps:.1f} m/s, time of flight {stitched.tof_days:.2f} d (CR3BP)")
+    legend_beside(ax)
     return ax
 
 
@@ -125,9 +125,9 @@ def plot_pareto(routes, front=(), chosen=None, ax=None):
                 label=f"chosen: {chosen.dv_total_mps:.1f} m/s, {chosen.tof_days:.2f} d")
     ax.set_xlabel("time of flight [days]")
     ax.set_ylabel("total Δv [m/s] (sum over the legs, before stitching)")
-    ax.set_title("Δv against time of flight of the routes found", fontsize=9)
+    ax.set_title("Δv against time of flight of the routes found (CR3BP)", fontsize=9)
     ax.grid(alpha=0.3)
-    ax.legend(loc="best", fontsize=7)
+    legend_beside(ax)
     return ax
 
 
@@ -200,7 +200,7 @@ def plot_graph(graph, ax=None, route=None, max_labels=60):
     ax.plot([], [], "-", color="0.55", label="leg (Δv, time of flight)")
     if route is not None:
         ax.plot([], [], "-", color="tab:red", lw=2, label="chosen route")
-    ax.legend(loc="best", fontsize=7)
+    legend_beside(ax)
     ax.grid(alpha=0.2)
     if not math.isfinite(base):
         ax.set_ylim(-1, 1)
