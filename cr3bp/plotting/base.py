@@ -199,19 +199,26 @@ def colorbar_beside(ax, mappable, label, size="4%", pad=0.12):
 
 
 def _fit_margins(fig):
-    """Shrink the subplots' area until legends beside the axes fit inside the figure."""
+    """Shrink the subplots' area until legends beside the axes fit inside the figure (secant
+    steps on the right margin: an equal-aspect axes moves by less than its slot)."""
     legends = [a.get_legend() for a in fig.axes if a.get_legend() is not None
                and a.get_legend().get_gid() == OUTSIDE_GID]
     if not legends:
         return
-    for _ in range(4):
+    w = fig.bbox.width
+    prev = None
+    for _ in range(6):
         fig.canvas.draw()
-        w = fig.bbox.width
-        over = max(leg.get_window_extent().x1 for leg in legends) - (w - 10.0)
-        if over <= 0:
+        right = fig.subplotpars.right
+        x1 = max(leg.get_window_extent().x1 for leg in legends)
+        over = x1 - (w - 10.0)
+        if over <= 0 or right <= 0.3:
             return
-        right = fig.subplotpars.right - over / w
-        fig.subplots_adjust(right=max(right, 0.35))
+        slope = w
+        if prev is not None and prev[0] != right and (x1 - prev[1]) / (right - prev[0]) > 0.05 * w:
+            slope = (x1 - prev[1]) / (right - prev[0])
+        prev = (right, x1)
+        fig.subplots_adjust(right=max(right - over / slope, 0.3))
 
 
 def caption(fig, text=""):
