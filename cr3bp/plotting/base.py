@@ -211,7 +211,7 @@ def _fit_margins(fig):
         fig.canvas.draw()
         right = fig.subplotpars.right
         x1 = max(leg.get_window_extent().x1 for leg in legends)
-        over = x1 - (w - 10.0)
+        over = x1 - 0.98 * w     # text at the saving dpi runs a little wider: 2 % slack
         if over <= 0 or right <= 0.3:
             return
         slope = w
