@@ -32,11 +32,12 @@ def new_figure(ncols=1, nrows=1, size=(7.0, 6.0), **kw):
     return fig, (axes[0, 0] if axes.size == 1 else axes)
 
 
-def draw_primaries(ax, system, view="xy", labels=True, min_radius=0.004, front=1):
+def draw_primaries(ax, system, view="xy", labels=True, min_radius=0.004, front=1, box=None):
     """The two primaries as discs to scale (at least ``min_radius`` LU so they stay visible).
     In the y-z view (seen along x) both primaries project onto the origin: only the one in
     front is drawn (``front``: 1 the smaller primary, the default; 0 the larger;
-    :func:`draw_smaller_primary`)."""
+    :func:`draw_smaller_primary`). With ``box`` (umin, umax, vmin, vmax) a primary wholly
+    outside it is left out (and out of the legend)."""
     if view == "yz":
         return draw_smaller_primary(ax, system, min_radius=min_radius, labels=labels, k=front)
     i, j = VIEWS[view]
@@ -45,7 +46,10 @@ def draw_primaries(ax, system, view="xy", labels=True, min_radius=0.004, front=1
     for k, (x, r, name) in enumerate(zip(system.positions, (r1, r2), names)):
         centre = [0.0, 0.0, 0.0]
         centre[0] = x
-        ax.add_patch(Circle((centre[i], centre[j]), max(r, min_radius), color=PRIMARY_COLOURS[k],
+        rr = max(r, min_radius)
+        if box is not None and not (box[0] - rr <= centre[i] <= box[1] + rr and box[2] - rr <= centre[j] <= box[3] + rr):
+            continue
+        ax.add_patch(Circle((centre[i], centre[j]), rr, color=PRIMARY_COLOURS[k],
                             zorder=5, label=f"{name} (to scale)" if r > min_radius else f"{name}",
                             gid=f"primary-{k + 1}"))
         if labels:

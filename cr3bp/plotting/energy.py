@@ -39,7 +39,8 @@ def plot_hill_region(region, ax=None, km=True, points=None, title=True):
                 zorder=1)
     for c in region.curves:
         ax.plot(c[:, 0], c[:, 1], color=ZVC_COLOUR, lw=1.0, zorder=3)
-    draw_primaries(ax, system, view=view, min_radius=0.004 * (region.extent[1] - region.extent[0]) / 3.0)
+    draw_primaries(ax, system, view=view, min_radius=0.004 * (region.extent[1] - region.extent[0]) / 3.0,
+                   box=region.extent)
     draw_lagrange_points(ax, system, view=view, points=points)
     ax.set_xlim(region.extent[0], region.extent[1])
     ax.set_ylim(region.extent[2], region.extent[3])

@@ -76,9 +76,9 @@ def plot_tubes(tubes, views=("xy", "xz"), n_samples=200, max_trajectories=80, ax
         system = tubes[0].system
         span = _fit(ax, np.vstack(pts) if pts else np.zeros((1, 2)))
         # in the y-z view both primaries project onto the origin: the smaller one is drawn
-        draw_primaries(ax, system, view=view, min_radius=0.006 * span)
         x0, x1 = ax.get_xlim()
         y0, y1 = ax.get_ylim()
+        draw_primaries(ax, system, view=view, min_radius=0.006 * span, box=(x0, x1, y0, y1))
         draw_lagrange_points(ax, system, view, box=(x0, x1, y0, y1))
         if forbidden:
             draw_forbidden(ax, system, tubes[0].jacobi, view)
@@ -215,9 +215,9 @@ def plot_connection(legs, tubes=(), view="xy", ax=None, n_samples=150):
     system = legs[0].system if legs else tubes[0].system
     span = _fit(ax, np.vstack([leg.trajectory(100)[1][:, [i, j]] for leg in legs]) if legs else
                 np.array([[0.0, 0.0]]), margin=0.25)
-    draw_primaries(ax, system, view=view, min_radius=0.006 * span)
     x0, x1 = ax.get_xlim()
     y0, y1 = ax.get_ylim()
+    draw_primaries(ax, system, view=view, min_radius=0.006 * span, box=(x0, x1, y0, y1))
     draw_lagrange_points(ax, system, view, box=(x0, x1, y0, y1))
     axis_labels(ax, system, view)
     legend_beside(ax, handles + _point_handle(ax))

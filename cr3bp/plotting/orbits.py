@@ -37,7 +37,7 @@ def _frame(ax, system, view, arrays, pad=0.15, include=()):
     ax.set_xlim(box[0], box[1])
     ax.set_ylim(box[2], box[3])
     ax.set_aspect("equal")
-    draw_primaries(ax, system, view, min_radius=0.008 * span)
+    draw_primaries(ax, system, view, min_radius=0.008 * span, box=box)
     draw_lagrange_points(ax, system, view, box=box)
     axis_labels(ax, system, view)
     ax.grid(alpha=0.3)

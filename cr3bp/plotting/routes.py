@@ -84,7 +84,7 @@ def plot_corridor(stitched, legs=(), tubes=(), ax=None, view="xy", margin=0.25, 
         ax.plot(p[i], p[j], "^", color="k", ms=7, zorder=6, label="maneuver" if n == 0 else None)
         ax.annotate(f"{man['dv_mps']:.1f} m/s", (p[i], p[j]), textcoords="offset points", xytext=(5, 5),
                     fontsize=7, zorder=7)
-    draw_primaries(ax, system, view)
+    draw_primaries(ax, system, view, box=extent)
     draw_lagrange_points(ax, system, view)
     ax.set_xlim(extent[0], extent[1])
     ax.set_ylim(extent[2], extent[3])
