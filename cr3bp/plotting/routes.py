@@ -31,7 +31,7 @@ def plot_corridor(stitched, legs=(), tubes=(), ax=None, view="xy", margin=0.25, 
     from ..energy import hill_region
     system = stitched.system
     if ax is None:
-        _, ax = new_figure(size=(7.5, 6.5))
+        _, ax = new_figure(size=(10.5, 6.8))
     i, j = VIEWS[view]
     s = stitched.states
     lo = s[:, [i, j]].min(axis=0)
@@ -112,7 +112,7 @@ def plot_pareto(routes, front=(), chosen=None, ax=None):
     """Δv against time of flight of ranked ``routes`` (grey), the Pareto ``front`` (line) and
     the ``chosen`` route (highlighted)."""
     if ax is None:
-        _, ax = new_figure(size=(7.0, 5.0))
+        _, ax = new_figure(size=(9.0, 5.2))
     if routes:
         ax.plot([r.tof_days for r in routes], [r.dv_total_mps for r in routes], "o", color="0.6", ms=5,
                 label="ranked routes")
@@ -136,7 +136,7 @@ def plot_graph(graph, ax=None, route=None, max_labels=60):
     without a known state in a row below; edges as arrows labelled "Δv m/s, TOF d"; the edges
     of ``route`` (a :class:`cr3bp.network.Route`) drawn thick."""
     if ax is None:
-        _, ax = new_figure(size=(8.0, 6.0))
+        _, ax = new_figure(size=(9.5, 6.0))
     known = [n for n, d in graph.nodes(data=True) if d.get("jacobi") is not None]
     unknown = [n for n in graph.nodes if n not in known]
     pos = {n: (graph.nodes[n]["x"], graph.nodes[n]["jacobi"]) for n in known}
