@@ -104,7 +104,7 @@ def draw_lagrange_points(ax, system, view="xy", points=None, labels=True, includ
         for (u, v), names in spots.items():
             ax.annotate(", ".join(names), (u, v), textcoords="offset points", xytext=(5, -11), fontsize=8,
                         color=LAGRANGE_COLOUR, zorder=7)
-    (line,) = ax.plot(xs, ys, label="Lagrange points", gid=LAGRANGE_GID, **LAGRANGE_STYLE)
+    ax.plot(xs, ys, label="Lagrange points", gid=LAGRANGE_GID, **LAGRANGE_STYLE)
     return ax
 
 
