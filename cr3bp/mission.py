@@ -776,8 +776,9 @@ def _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progr
                                               f"{plan.name}: orbit '{name}' over one period.")
         if plots.get("hill_regions", False):
             from .energy import hill_region
-            from .plotting.energy import plot_hill_region
-            region = hill_region(orbit.system, float(orbit.jacobi), resolution=201 if reduced else 601)
+            from .plotting.energy import default_view, plot_hill_region
+            region = hill_region(orbit.system, float(orbit.jacobi), resolution=201 if reduced else 601,
+                                 view=default_view(orbit.system, orbit.point))
             ax = plot_hill_region(region)
             figs[f"hill-{name}"] = _save_all(ax.figure, out, f"hill-region-{name}", formats,
                                              f"{plan.name}: Hill region at the Jacobi constant of '{name}'.")

@@ -2,7 +2,8 @@
 
 The report reads the same plain dictionaries every stage produces (``to_dict()``), so what it
 shows is what the tables and exports say. The caution and the model's assumptions stand at the
-top, in a box that cannot be scrolled past unseen.
+top, in a box that cannot be scrolled past unseen; the caution is said once there, not under
+every figure (each embedded figure carries it once in its own caption).
 """
 
 from __future__ import annotations
@@ -69,13 +70,15 @@ def kv_table(pairs) -> str:
 
 
 def figure(path, caption: str) -> str:
-    """An <img> with the file's bytes embedded (PNG or SVG) and a caption carrying the caution."""
+    """An <img> with the file's bytes embedded (PNG or SVG) and its caption. The caution stands
+    once at the top of the report (and once inside each figure, in the image's own caption),
+    not again under every figure."""
     path = Path(path)
     data = path.read_bytes()
     mime = "image/svg+xml" if path.suffix.lower() == ".svg" else "image/png"
     b64 = base64.b64encode(data).decode("ascii")
     return (f'<figure><img alt="{esc(caption)}" src="data:{mime};base64,{b64}">'
-            f"<figcaption>{esc(caption)} {esc(CAUTION)}</figcaption></figure>")
+            f"<figcaption>{esc(caption)}</figcaption></figure>")
 
 
 def check_row(check: dict) -> tuple:
@@ -86,7 +89,8 @@ def check_row(check: dict) -> tuple:
 
 
 def document(title: str, sections: list[tuple[str, str]]) -> str:
-    """The whole HTML page: caution, assumptions, then the given (heading, html) sections."""
+    """The whole HTML page: the caution (once, at the top), assumptions, then the given
+    (heading, html) sections."""
     parts = [
         "<!DOCTYPE html>", '<html lang="en"><head><meta charset="utf-8">',
         f"<title>{esc(title)}</title><style>{_STYLE}</style></head><body>",
@@ -97,7 +101,7 @@ def document(title: str, sections: list[tuple[str, str]]) -> str:
     ]
     for heading, body in sections:
         parts.append(f"<section><h2>{esc(heading)}</h2>{body}</section>")
-    parts.append(f'<footer><p class="caution">{esc(CAUTION)}</p></footer></body></html>')
+    parts.append("</body></html>")
     return "\n".join(parts)
 
 

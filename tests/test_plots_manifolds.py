@@ -30,9 +30,9 @@ def _legend_texts(ax):
 def test_tube_projection_figure(tubes, tmp_path):
     fig = plot_tubes(tubes, views=("xy", "xz"), max_trajectories=6)
     ax = fig.axes[0]
-    texts = _legend_texts(ax)
+    texts = _legend_texts(fig.axes[1])      # one legend, beside the last view
     assert any("unstable interior" in t for t in texts) and any("forbidden region" in t for t in texts)
-    assert "[LU]" in ax.get_xlabel() and "[LU]" in ax.get_ylabel()
+    assert "[10³ km]" in ax.get_xlabel() and "[10³ km]" in ax.get_ylabel()
     caption(fig, "tubes")
     assert any(CAUTION_SHORT in t.get_text() for t in fig.texts)
     save(fig, tmp_path / "t.png", "")
@@ -48,7 +48,7 @@ def test_tube_3d(tubes, tmp_path):
 def test_section_map(tubes, tmp_path):
     cuts = [t.section_cut() for t in tubes]
     ax = plot_section_map(cuts, ("y", "vy"))
-    assert len(_legend_texts(ax)) == 2 and ax.get_xlabel() == "y [LU]" and ax.get_ylabel() == "vy [LU/TU]"
+    assert len(_legend_texts(ax)) == 2 and ax.get_xlabel() == "y [10³ km]" and ax.get_ylabel() == "vy [m/s]"
     save(ax.figure, tmp_path / "m.svg", "map")
     assert (tmp_path / "m.svg").read_text().count("<svg") == 1
 

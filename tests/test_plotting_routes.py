@@ -35,7 +35,7 @@ def test_corridor_legend_axes_and_tubes(routed, tmp_path):
     labels = _labels(ax)
     assert "leg 1 (stitched)" in labels and "maneuver" in labels and "manifold tube" in labels
     assert any(lbl.startswith("zero-velocity curve") or "no zero-velocity curve" in lbl for lbl in labels)
-    assert "[LU]" in ax.get_xlabel() and "[LU]" in ax.get_ylabel()
+    assert "[10³ km]" in ax.get_xlabel() and "[10³ km]" in ax.get_ylabel()
     assert len(ax.texts) >= len(st.maneuvers)                     # each maneuver labelled in m/s
     path = save(ax.figure, tmp_path / "c.png", "test")
     assert path.stat().st_size > 10_000

@@ -37,17 +37,6 @@ def test_demo_scenario_is_valid():
     assert "relay" in data["orbits"]
 
 
-def test_readme_copy_of_the_demo_is_the_file():
-    """The README shows examples/farlight.toml verbatim (it had drifted: old check key, old route)."""
-    from pathlib import Path
-    root = Path(__file__).parent.parent
-    readme = (root / "README.md").read_text(encoding="utf-8")
-    head = "The demo mission, `examples/farlight.toml` (a fictional far-side lunar relay):\n\n```toml\n"
-    start = readme.index(head) + len(head)
-    copy = readme[start:readme.index("```\n", start)]
-    assert copy == (root / "examples" / "farlight.toml").read_text(encoding="utf-8")
-
-
 def test_good(tmp_path):
     assert load(write(tmp_path, GOOD))["orbits"]["relay"]["period"] == "6.5626d"
 

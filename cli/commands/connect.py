@@ -128,7 +128,10 @@ def run(args):
                         f"about {system.names[primary]}...")
         pm = periapsis_map(orbit, primary, stability, branch, n, t_max=t_max, step_km=args.step_off,
                            progress=to.progress_printer(args))
-        if args.map:
+        if args.map and not any(math.isfinite(a) for a in pm.altitude_km):
+            common.progress(args, f"no trajectory reached a periapsis about {system.names[primary]}: "
+                            f"{args.map} not written")
+        elif args.map:
             from cr3bp.plotting import save
             from cr3bp.plotting.manifolds import plot_periapsis_map
             ax = plot_periapsis_map(pm, target_km=alt)
@@ -183,7 +186,7 @@ def run(args):
         common.progress(args, "drawing the connection...")
         ax = plot_connection(legs[:3], tubes)
         save(ax.figure, args.plot, f"{args.origin} -> {args.target}; best dv {best.dv_mps:.4g} m/s, "
-             f"{_tof_text(best)}; rotating frame, LU")
+             f"{_tof_text(best)}; rotating frame (CR3BP)")
         common.progress(args, f"wrote {args.plot}")
     table = "\n".join(head) + "\n\n" + common.format_table(HEADERS, rows)
     common.emit(args, payload={"from": args.origin, "to": args.target, "legs": [g.to_dict() for g in legs]},

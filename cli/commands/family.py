@@ -124,13 +124,14 @@ def run(args):
                "route": args.route or families.ROUTES.get(spec.family, ("seed",))[0],
                "stop_reason": fam.stop_reason, "columns": headers,
                "members": [dict(m.to_dict(), index=i) for i, m in enumerate(fam.members)],
-               "bifurcations": [{"type": b["type"], "member_index": b["member_index"], "jacobi": b["jacobi"],
+               "bifurcations": [{"type": b["type"], "member_index": b["member_index"],
+                                 "stability_index": b["stability_index"], "jacobi": b["jacobi"],
                                  "period": b["period"], "period_days": b["period_days"], "note": b["note"],
                                  "state": b["state"]} for b in bifs],
                "target": fam.target.to_dict() if fam.target is not None else None,
                "until_reached": None if target is None else fam.target is not None}
     if args.plot:
-        _plots(system, fam, args.plot, name)
+        _plots(system, fam, args.plot, name, spec, target)
         common.progress(args, f"wrote {args.plot}-family.png and {args.plot}-stability.png")
     comments = [f"{system.name} {name} family: {len(fam.members)} members; stopped because {fam.stop_reason}"]
     comments += [missed] if missed else []
@@ -166,7 +167,26 @@ def _bif_text(bifs, system):
     return "\n".join(lines) + "\n"
 
 
-def _plots(system, fam, prefix, name):
+def resonance_marks(system, spec, target):
+    """The requested values the stability figure marks: [(panel, value, label)] with the panel
+    "period" (days, or TU when nondimensional) or "perilune" (km, or LU). A p:q resonant family
+    closes after q revolutions of the primaries (2 pi TU each), so its nominal period is
+    q * 2 pi TU; an ``--until`` target on the period or the perilune radius is marked too."""
+    import math
+    dim = system.dimensional
+    per_unit = system.days(1.0) if dim else 1.0
+    length = system.length_km if dim else 1.0
+    marks = []
+    if spec is not None and spec.resonance:
+        p, q = spec.resonance
+        marks.append(("period", q * 2.0 * math.pi * per_unit, f"{p}:{q} resonance"))
+    if target is not None and target[0] in ("period", "approach2"):
+        where, scale = ("period", per_unit) if target[0] == "period" else ("perilune", length)
+        marks.append((where, target[1] * scale, "--until target"))
+    return marks
+
+
+def _plots(system, fam, prefix, name, spec=None, target=None):
     import numpy as np
 
     from cr3bp.plotting import save
@@ -180,9 +200,18 @@ def _plots(system, fam, prefix, name):
                       title=f"{system.name} {name} family ({len(members)} members, {len(pick)} drawn)")
     save(fig, f"{prefix}-family.png", f"{name} family, rotating frame, colour: Jacobi constant")
     dim = system.dimensional
-    per = [m.period_days if dim else m.period for m in members]
+    per_unit = system.days(1.0) if dim else 1.0
+    per = [m.period * per_unit for m in members]
+    length = system.length_km if dim else 1.0
+    peri = [m.closest_approach_lu[1] * length for m in members]
     nu = [[complex(v).real for v in m.stability_indices] for m in members]
-    bifs = [dict(b.to_dict(), _period_plot=(b.orbit.period_days if dim else b.orbit.period)) for b in fam.bifurcations]
-    fig = plot_stability(jac, per, nu, "d" if dim else "TU", title=f"{system.name} {name}: stability indices",
-                         bifurcations=bifs)
-    save(fig, f"{prefix}-stability.png", f"{name} family stability indices (real parts)")
+    bifs = [dict(b.to_dict(), _period_plot=b.orbit.period * per_unit,
+                 _perilune_plot=b.orbit.closest_approach_lu[1] * length) for b in fam.bifurcations]
+    marks = resonance_marks(system, spec, target)
+    unit = "km" if dim else "LU"
+    fig = plot_stability(jac, per, nu, "d" if dim else "TU", title=f"{system.name} {name}: stability indices "
+                         "nu1, nu2 (signed)", bifurcations=bifs, perilune=peri,
+                         perilune_label=f"perilune radius: closest approach to {system.names[1]} [{unit}]",
+                         marks=marks)
+    save(fig, f"{prefix}-stability.png", f"{name} family stability indices nu1, nu2 (real parts, numbered as "
+         "in the table)")

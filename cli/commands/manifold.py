@@ -62,7 +62,7 @@ def run(args):
         common.progress(args, "drawing the tube...")
         planar = tube.orbit.state[2] == 0 and tube.orbit.state[5] == 0
         fig = plot_tubes([tube], views=("xy",) if planar else ("xy", "xz", "yz"))
-        save(fig, args.plot, f"{tube.label}; step-off {step}; rotating frame, LU; primaries to scale")
+        save(fig, args.plot, f"{tube.label}; step-off {step}; rotating frame (CR3BP); primaries to scale")
         common.progress(args, f"wrote {args.plot}")
     common.emit(args, payload={"tube": d}, headers=HEADERS, rows=rows, table=table,
                 comments=head)
@@ -86,7 +86,7 @@ def _point(args, system, stop):
     if args.plot:
         from cr3bp.plotting import save
         from cr3bp.plotting.manifolds import plot_tubes
-        save(plot_tubes([tube], views=("xy",)), args.plot, head[0] + "; rotating frame, LU")
+        save(plot_tubes([tube], views=("xy",)), args.plot, head[0] + "; rotating frame (CR3BP)")
         common.progress(args, f"wrote {args.plot}")
     table = "\n".join(head) + "\n\n" + common.format_table(HEADERS, rows)
     common.emit(args, payload={"tube": d}, headers=HEADERS, rows=rows, table=table, comments=head)

@@ -19,9 +19,11 @@ def add_arguments(p):
                         "'state=X,Y,Z,VX,VY,VZ period=T stable exterior'. Repeatable")
     p.add_argument("--section", required=True, metavar="SECTION",
                    help="x=1-mu, y=0:+ (one direction), sphere:moon:20000km, periapsis:earth, apoapsis:moon")
-    p.add_argument("--coords", default=None, metavar="A,B",
-                   help="map coordinates (default y,vy for x=c; x,vx for y=c; tof_days,altitude_km for "
-                        "spheres and apsides); any of x y z vx vy vz t tof_days altitude_km r jacobi")
+    p.add_argument("--coords", "--coordinates", default=None, action="append", metavar="A,B",
+                   help="map coordinates (default y,vy for x=c, and also z,vz when a tube leaves the plane "
+                        "z = 0; x,vx for y=c; tof_days,altitude_km for spheres and apsides); any of x y z vx vy "
+                        "vz t tof_days altitude_km r jacobi. Several maps, one panel each: 'y,vy|z,vz' or "
+                        "the option repeated")
     p.add_argument("--crossing", type=int, default=1, metavar="N", help="take the N-th crossing (default 1)")
     p.add_argument("--points", type=int, default=200, metavar="N", help="trajectories per tube (default 200)")
     p.add_argument("--time", default=None, metavar="TIME", help="time limit per trajectory (default 2pi TU)")
@@ -51,6 +53,31 @@ def default_coords(section):
     return {0: ("y", "vy"), 1: ("x", "vx"), 2: ("x", "y")}.get(section.coordinate, ("x", "y"))
 
 
+def parse_pairs(texts):
+    """``['y,vy|z,vz']`` or ``['y,vy', 'z,vz']`` -> (('y', 'vy'), ('z', 'vz')); InputError naming
+    the text otherwise."""
+    from cr3bp.errors import InputError
+    from cr3bp.sections import MAP_COORDS
+    pairs = []
+    for text in texts:
+        for part in text.split("|"):
+            names = tuple(w.strip() for w in part.split(","))
+            if len(names) != 2 or any(n not in MAP_COORDS for n in names):
+                raise InputError(f"--coords '{text}' must be pairs A,B (several separated by '|') of "
+                                 f"{', '.join(MAP_COORDS)}")
+            if names not in pairs:
+                pairs.append(names)
+    return tuple(pairs)
+
+
+def spatial_pairs(section, cuts, tol=1e-9):
+    """The default maps: (z, vz) beside (y, vy) on an x = c section when a cut leaves z = 0."""
+    first = default_coords(section)
+    if first == ("y", "vy") and any(len(c) and float(abs(c.states[:, [2, 5]]).max()) > tol for c in cuts):
+        return (first, ("z", "vz"))
+    return (first,)
+
+
 HEADERS = ["tube", "trajectory", "phase", "crossing", "t", "map_a", "map_b", "x", "y", "z", "vx", "vy", "vz"]
 
 
@@ -59,13 +86,12 @@ def run(args):
 
     from cr3bp.errors import InputError
     from cr3bp.manifolds import Stop, grow_tube, manifold_starts
-    from cr3bp.sections import MAP_COORDS, crossings, parse_section
+    from cr3bp.sections import crossings, parse_section
     system = common.resolve_system(args)
     to.check_plot_path(args.plot)
     section = parse_section(args.section, system)
-    names = tuple(args.coords.split(",")) if args.coords else default_coords(section)
-    if len(names) != 2 or any(n not in MAP_COORDS for n in names):
-        raise InputError(f"--coords '{args.coords}' must be two of {', '.join(MAP_COORDS)}")
+    pairs = parse_pairs(args.coords) if args.coords else None
+    names = pairs[0] if pairs else default_coords(section)
     common.whole_number("--crossing", args.crossing, 1, 1000)
     common.whole_number("--points", args.points, 2, 100_000)
     from cr3bp.validate import quantity
@@ -89,28 +115,35 @@ def run(args):
             cut = tube.section_cut()
             cut = type(cut)(**{**cut.__dict__, "label": label})
         cuts.append(cut)
+    pairs = pairs or spatial_pairs(section, cuts)
+    columns = tuple(dict.fromkeys(n for p in pairs for n in p))
+    for cut in cuts:
         d = cut.to_dict(names)
         d["closed"] = cut.closed
         d["area"] = cut.area(names) if cut.closed else None
+        if len(pairs) > 1:
+            d["maps"] = [{"coordinates": list(p), "map": cut.coords(p).tolist()} for p in pairs]
         out.append(d)
     rows = []
     for k, cut in enumerate(cuts):
-        m = cut.coords(names)
+        m = cut.coords(columns)
         for i in range(len(cut)):
             rows.append([k + 1, int(cut.trajectory[i]), None if cut.phase is None else float(cut.phase[i]),
-                         int(cut.count[i]), float(cut.t[i]), float(m[i, 0]), float(m[i, 1]),
+                         int(cut.count[i]), float(cut.t[i]), *map(float, m[i]),
                          *map(float, cut.states[i])])
-    head = [f"section {section.label}, map ({names[0]}, {names[1]}), crossing {args.crossing}"]
+    maps = ", ".join(f"({a}, {b})" for a, b in pairs)
+    head = [f"section {section.label}, map{'s' if len(pairs) > 1 else ''} {maps}, crossing {args.crossing}"]
     head += [f"tube {k + 1}: {c.label}: {len(c)} of {c.n_trajectories} trajectories crossed"
              + (f", closed cut, area {c.area(names):.6g}" if c.closed else "") for k, c in enumerate(cuts)]
     if args.plot:
         from cr3bp.plotting import save
         from cr3bp.plotting.manifolds import plot_section_map
-        ax = plot_section_map(cuts, names)
+        ax = plot_section_map(cuts, pairs)
         save(ax.figure, args.plot, f"Poincaré map on {section.label}: " + "; ".join(c.label for c in cuts))
         common.progress(args, f"wrote {args.plot}")
-    hdr = HEADERS[:5] + [f"map_{n}" for n in names] + HEADERS[7:]
+    hdr = HEADERS[:5] + [f"map_{n}" for n in columns] + HEADERS[7:]
     table = "\n".join(head) + "\n\n" + common.format_table(hdr, rows)
-    common.emit(args, payload={"section": section.to_dict(), "coords": list(names), "cuts": out},
+    common.emit(args, payload={"section": section.to_dict(), "coords": list(names),
+                               "maps": [list(p) for p in pairs], "cuts": out},
                 headers=hdr, rows=rows, table=table, comments=head)
     return 0

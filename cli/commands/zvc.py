@@ -23,8 +23,10 @@ def add_arguments(p):
     q = p.add_argument_group("plot")
     q.add_argument("--plot", metavar="FILE", help="write the Hill-region plot to FILE (.png or .svg)")
     q.add_argument("--plane", metavar="xy|xz", default="xy", help="plane of the plot: z = 0 or y = 0 (default xy)")
-    q.add_argument("--view", metavar="system|secondary", default="system",
-                   help="default extent: whole system, or around the smaller primary (default system)")
+    q.add_argument("--view", metavar="system|secondary", default=None,
+                   help="default extent: whole system, or around the smaller primary with L1 and L2 "
+                        "(default: secondary when the mass ratio is below 1e-4, e.g. sun-earth, "
+                        "where the whole system hides the necks; else system)")
     q.add_argument("--extent", metavar="UMIN,UMAX,VMIN,VMAX",
                    help="plot extent; numbers in LU or lengths with units (e.g. 300000km,460000km,-8e4km,8e4km)")
     q.add_argument("--resolution", metavar="N", default="601", help="grid points per side (21..4001, default 601)")
@@ -91,6 +93,9 @@ def run(args):
     system = common.resolve_system(args)
     if args.plane not in PLANES:
         raise InputError(f"--plane {args.plane!r} is not allowed; allowed: {', '.join(PLANES)}")
+    if args.view is None:
+        from cr3bp.plotting.energy import default_view
+        args.view = default_view(system)
     if args.view not in VIEWS:
         raise InputError(f"--view {args.view!r} is not allowed; allowed: {', '.join(VIEWS)}")
     if args.plot is not None and Path(args.plot).suffix.lower() not in PLOT_SUFFIXES:

@@ -87,7 +87,9 @@ class Bifurcation:
     kind : "+1" (an index crosses +1: branch point or fold — a new family may branch here),
            "-1" (period doubling), "complex" (indices collide and leave the real axis).
     index : member index just before the crossing
-    which : which stability index (0 = larger or in-plane, 1 = the other / out-of-plane)
+    which : which stability index as the continuation tracked it (0 = in-plane, 1 = out-of-plane
+            for planar families); the table's name of the crossing index (nu1 = larger |nu|,
+            nu2) is ``to_dict()["stability_index"]`` (:func:`table_index`)
     orbit : the orbit at the crossing, solved on the family
     """
 
@@ -99,7 +101,9 @@ class Bifurcation:
 
     def to_dict(self) -> dict:
         o = self.orbit
+        name = None if self.kind == "complex" else f"nu{table_index(o, self.kind) + 1}"
         return {"type": self.kind, "member_index": self.index, "which_index": self.which,
+                "stability_index": name,
                 "jacobi": o.jacobi, "period": o.period, "period_days": _num(o.period_days),
                 "state": [float(v) for v in o.state], "amplitude_km": o.to_dict()["amplitude_km"],
                 "note": self.note}
@@ -413,10 +417,10 @@ def grow(system, first: PeriodicOrbit, kind, *, step=1e-3, max_step=0.05, direct
                 try:
                     bo = solve_between(system, sym, prev, X, t, ds, g, g(prev), g(orbit), meta,
                                        check=False)
-                    bifs.append(Bifurcation(kind_b, len(members) - 1, j, bo, _bif_note(kind_b, j, planar)))
+                    bifs.append(Bifurcation(kind_b, len(members) - 1, j, bo, _bif_note(kind_b, j, planar, bo)))
                 except ConvergenceError:
                     bifs.append(Bifurcation(kind_b, len(members) - 1, j, orbit,
-                                            _bif_note(kind_b, j, planar) + " (not located; next member)"))
+                                            _bif_note(kind_b, j, planar, orbit) + " (not located; next member)"))
         if stops.branch_points is not None and \
                 sum(1 for b in bifs if b.kind == "+1" and b.which == 1) >= stops.branch_points:
             members.append(orbit)
@@ -467,13 +471,24 @@ def grow(system, first: PeriodicOrbit, kind, *, step=1e-3, max_step=0.05, direct
                   tuple(members), tuple(bifs), reason, settings, target)
 
 
-def _bif_note(kind, j, planar):
+def table_index(orbit, kind) -> int:
+    """Which of the member's indices (0: nu1, the larger |nu|; 1: nu2 — the numbering of
+    :attr:`PeriodicOrbit.stability_indices`, the family table and the stability plot) sits at
+    the level of a ``"+1"`` or ``"-1"`` crossing on ``orbit``."""
+    level = 1.0 if kind == "+1" else -1.0
+    nus = [complex(v).real for v in stability.stability_indices(orbit.monodromy)]
+    return int(np.argmin([abs(v - level) for v in nus]))
+
+
+def _bif_note(kind, j, planar, orbit=None):
+    """The note of a bifurcation, naming the index as the table does (nu1 / nu2)."""
     if kind == "complex":
-        return "stability indices collide and leave the real axis (complex quadruple)"
-    which = ("in-plane" if j == 0 else "out-of-plane") if planar else f"index {j + 1}"
+        return "stability indices nu1 and nu2 collide and leave the real axis (complex quadruple)"
+    k = table_index(orbit, kind) if orbit is not None else j
+    which = f"nu{k + 1}" + ((" (in-plane)" if j == 0 else " (out-of-plane)") if planar else "")
     if kind == "+1":
-        return f"{which} stability index crosses +1: branch point or fold"
-    return f"{which} stability index crosses -1: period doubling"
+        return f"stability index {which} crosses +1: branch point or fold"
+    return f"stability index {which} crosses -1: period doubling"
 
 
 def member_value(member, qname: str) -> float:

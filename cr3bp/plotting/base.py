@@ -1,4 +1,6 @@
-"""Shared plotting pieces: a figure with a caution caption, primaries to scale, saving."""
+"""Shared plotting pieces: a figure with a caution caption, primaries to scale, the one
+Lagrange-point marker, axes in km (LU on a secondary axis), legends and colour bars beside
+the data, saving."""
 
 from __future__ import annotations
 
@@ -6,13 +8,22 @@ import matplotlib
 
 matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402
+import numpy as np  # noqa: E402
 from matplotlib.patches import Circle  # noqa: E402
+from matplotlib.ticker import FuncFormatter, MaxNLocator  # noqa: E402
 
 from ..atomic import save_figure  # noqa: E402
 from ..cautions import CAUTION_SHORT  # noqa: E402
 
 PRIMARY_COLOURS = ("tab:blue", "0.45")
 VIEWS = {"xy": (0, 1), "xz": (0, 2), "yz": (1, 2)}
+
+#: The one marker of a Lagrange point, in every figure (:func:`draw_lagrange_points`).
+LAGRANGE_COLOUR = "tab:purple"
+LAGRANGE_STYLE = dict(marker="+", color=LAGRANGE_COLOUR, markersize=9, mew=1.6, linestyle="none", zorder=7)
+LAGRANGE_GID = "lagrange-points"
+#: gid of the legend or colour bar axes placed beside the data (tests look them up).
+OUTSIDE_GID = "outside-data"
 
 
 def new_figure(ncols=1, nrows=1, size=(7.0, 6.0), **kw):
@@ -21,35 +32,206 @@ def new_figure(ncols=1, nrows=1, size=(7.0, 6.0), **kw):
     return fig, (axes[0, 0] if axes.size == 1 else axes)
 
 
-def draw_primaries(ax, system, view="xy", labels=True, min_radius=0.004):
-    """The two primaries as discs to scale (at least ``min_radius`` LU so they stay visible)."""
+def draw_primaries(ax, system, view="xy", labels=True, min_radius=0.004, front=1, box=None):
+    """The two primaries as discs to scale (at least ``min_radius`` LU so they stay visible).
+    In the y-z view (seen along x) both primaries project onto the origin: only the one in
+    front is drawn (``front``: 1 the smaller primary, the default; 0 the larger;
+    :func:`draw_smaller_primary`). With ``box`` (umin, umax, vmin, vmax) a primary wholly
+    outside it is left out (and out of the legend)."""
+    if view == "yz":
+        return draw_smaller_primary(ax, system, min_radius=min_radius, labels=labels, k=front)
     i, j = VIEWS[view]
     r1, r2 = system.radii
     names = system.names
     for k, (x, r, name) in enumerate(zip(system.positions, (r1, r2), names)):
         centre = [0.0, 0.0, 0.0]
         centre[0] = x
-        ax.add_patch(Circle((centre[i], centre[j]), max(r, min_radius), color=PRIMARY_COLOURS[k],
-                            zorder=5, label=f"{name} (to scale)" if r > min_radius else f"{name}"))
+        rr = max(r, min_radius)
+        if box is not None and not (box[0] - rr <= centre[i] <= box[1] + rr and box[2] - rr <= centre[j] <= box[3] + rr):
+            continue
+        ax.add_patch(Circle((centre[i], centre[j]), rr, color=PRIMARY_COLOURS[k],
+                            zorder=5, label=f"{name} (to scale)" if r > min_radius else f"{name}",
+                            gid=f"primary-{k + 1}"))
         if labels:
             ax.annotate(name, (centre[i], centre[j]), textcoords="offset points", xytext=(4, 6),
                         fontsize=8, zorder=6)
     return ax
 
 
-def axis_labels(ax, system, view="xy", unit="LU"):
-    i, j = VIEWS[view]
-    names = "xyz"
-    ax.set_xlabel(f"{names[i]} [{unit}] (rotating frame, barycentric)")
-    ax.set_ylabel(f"{names[j]} [{unit}]")
+def draw_smaller_primary(ax, system, min_radius=0.0, labels=True, k=1):
+    """The smaller primary (``k`` = 1; the larger with ``k`` = 0) in the y-z view, where it
+    sits at (0, 0) in front of the other (to scale when its radius exceeds ``min_radius`` LU)."""
+    r = system.radii[k]
+    name = system.names[k]
+    ax.add_patch(Circle((0.0, 0.0), max(r, min_radius), color=PRIMARY_COLOURS[k], zorder=5,
+                        label=f"{name} (to scale)" if r > min_radius else name, gid=f"primary-{k + 1}"))
+    if labels:
+        ax.annotate(f"{name} ({system.names[1 - k]} behind, on the x axis)", (0.0, 0.0),
+                    textcoords="offset points", xytext=(4, 6), fontsize=7, zorder=6)
     return ax
 
 
+def draw_lagrange_points(ax, system, view="xy", points=None, labels=True, include_out_of_plane=None,
+                         box=None):
+    """Mark and label the Lagrange points of ``system`` on ``ax`` (coordinates in LU), with the
+    one marker style of every figure (:data:`LAGRANGE_STYLE`).
+
+    Parameters
+    ----------
+    points : list of LagrangePoint, optional
+        Precomputed points (default: :func:`cr3bp.equilibria.lagrange_points`).
+    include_out_of_plane : bool, optional
+        Draw L4/L5 in views that do not contain them (projected); default only for "xy".
+    box : (umin, umax, vmin, vmax), optional
+        Only the points inside this frame. Points that project onto one spot share a label.
+    """
+    from ..equilibria import lagrange_points
+    pts = points if points is not None else lagrange_points(system)
+    i, j = VIEWS[view]
+    if include_out_of_plane is None:
+        include_out_of_plane = view == "xy"
+    spots = {}
+    for p in pts:
+        if not include_out_of_plane and not p.collinear:
+            continue
+        u, v = float(p.position[i]), float(p.position[j])
+        if box is not None and not (box[0] <= u <= box[1] and box[2] <= v <= box[3]):
+            continue
+        spots.setdefault((round(u, 12), round(v, 12)), []).append(p.name)
+    xs = [u for u, _ in spots]
+    ys = [v for _, v in spots]
+    if labels:
+        for (u, v), names in spots.items():
+            ax.annotate(", ".join(names), (u, v), textcoords="offset points", xytext=(5, -11), fontsize=8,
+                        color=LAGRANGE_COLOUR, zorder=7)
+    ax.plot(xs, ys, label="Lagrange points", gid=LAGRANGE_GID, **LAGRANGE_STYLE)
+    return ax
+
+
+# ---- axes in km -------------------------------------------------------------------------------
+
+class _ScaledLocator(MaxNLocator):
+    """Ticks at round values of ``factor`` times the data (data in LU, ticks at round km)."""
+
+    def __init__(self, factor, **kw):
+        super().__init__(**kw)
+        self.factor = float(factor)
+
+    def tick_values(self, vmin, vmax):
+        return np.asarray(super().tick_values(vmin * self.factor, vmax * self.factor)) / self.factor
+
+
+def km_scale(system):
+    """(km per axis unit, unit text): 10³ km below 10⁷ km per LU, else 10⁶ km."""
+    return (1.0e3, "10³ km") if system.length_km < 1.0e7 else (1.0e6, "10⁶ km")
+
+
+def _tick_text(v):
+    t = f"{v:.6g}"
+    return "0" if t in ("-0", "0") else t
+
+
+def axis_labels(ax, system, view="xy", unit=None, secondary=True):
+    """Axis labels of a rotating-frame view. Dimensional systems read in km (ticks at round
+    10³ or 10⁶ km; the data stay in LU) with LU on a secondary x axis on top; nondimensional
+    systems in LU."""
+    i, j = VIEWS[view]
+    names = "xyz"
+    if unit == "LU" or not getattr(system, "dimensional", False):
+        ax.set_xlabel(f"{names[i]} [LU] (rotating frame, barycentric)")
+        ax.set_ylabel(f"{names[j]} [LU]")
+        return ax
+    per, text = km_scale(system)
+    f = system.length_km / per
+    scaled_axis(ax.xaxis, f, f"{names[i]} [{text}] (rotating frame, barycentric)",
+                f"{names[i]} [LU]" if secondary else None)
+    scaled_axis(ax.yaxis, f, f"{names[j]} [{text}]")
+    return ax
+
+
+def scaled_axis(axis, factor, label, secondary_label=None):
+    """Show a nondimensional data axis in a physical unit: ticks at round multiples of the unit
+    (``factor`` units per data unit) labelled ``label``; with ``secondary_label`` an x axis also
+    gets the data unit on top (:meth:`~matplotlib.axes.Axes.secondary_xaxis`, identity
+    functions since the data are nondimensional)."""
+    ax = axis.axes
+    axis.set_major_locator(_ScaledLocator(factor, nbins=6, steps=[1, 2, 2.5, 5, 10]))
+    axis.set_major_formatter(FuncFormatter(lambda u, _, f=factor: _tick_text(u * f)))
+    axis.set_label_text(label)
+    if secondary_label and axis is ax.xaxis:
+        sx = ax.secondary_xaxis("top", functions=(lambda u: u, lambda u: u))
+        sx.set_xlabel(secondary_label, fontsize=7, labelpad=2)
+        sx.tick_params(labelsize=6.5)
+        sx.xaxis.set_major_locator(MaxNLocator(nbins=5))
+        ax._librate_top_axis = True
+    return axis
+
+
+def title(ax, text, **kw):
+    """Axes title clear of a secondary axis on top."""
+    pad = 30 if getattr(ax, "_librate_top_axis", False) else 6
+    kw.setdefault("fontsize", 9)
+    return ax.set_title(text, pad=pad, **kw)
+
+
+# ---- legends and colour bars beside the data --------------------------------------------------
+
+def legend_beside(ax, handles=None, where="right", **kw):
+    """A legend outside the data area: ``right`` of ``ax`` or ``above`` it. The figure's right
+    margin is fitted to it when the figure is captioned (:func:`caption`)."""
+    kw.setdefault("fontsize", 7)
+    kw.setdefault("framealpha", 0.9)
+    if where == "right":
+        kw.update(loc="upper left", bbox_to_anchor=(1.02, 1.0), borderaxespad=0.0)
+    elif where == "above":
+        kw.update(loc="lower left", bbox_to_anchor=(0.0, 1.02), borderaxespad=0.0, ncol=kw.get("ncol", 2))
+    else:
+        raise ValueError(where)
+    leg = ax.legend(handles=handles, **kw) if handles is not None else ax.legend(**kw)
+    leg.set_gid(OUTSIDE_GID)
+    return leg
+
+
+def colorbar_beside(ax, mappable, label, size="4%", pad=0.12):
+    """A colour bar in its own axes to the right of ``ax`` (it follows the axes when the
+    layout changes, so it never covers data)."""
+    from mpl_toolkits.axes_grid1 import make_axes_locatable
+    cax = make_axes_locatable(ax).append_axes("right", size=size, pad=pad)
+    cax.set_gid(OUTSIDE_GID)
+    cb = ax.figure.colorbar(mappable, cax=cax, label=label)
+    return cb
+
+
+def _fit_margins(fig):
+    """Shrink the subplots' area until legends beside the axes fit inside the figure (secant
+    steps on the right margin: an equal-aspect axes moves by less than its slot)."""
+    legends = [a.get_legend() for a in fig.axes if a.get_legend() is not None
+               and a.get_legend().get_gid() == OUTSIDE_GID]
+    if not legends:
+        return
+    w = fig.bbox.width
+    prev = None
+    for _ in range(6):
+        fig.canvas.draw()
+        right = fig.subplotpars.right
+        x1 = max(leg.get_window_extent().x1 for leg in legends)
+        over = x1 - 0.98 * w     # text at the saving dpi runs a little wider: 2 % slack
+        if over <= 0 or right <= 0.3:
+            return
+        slope = w
+        if prev is not None and prev[0] != right and (x1 - prev[1]) / (right - prev[0]) > 0.05 * w:
+            slope = (x1 - prev[1]) / (right - prev[0])
+        prev = (right, x1)
+        fig.subplots_adjust(right=max(right - over / slope, 0.3))
+
+
 def caption(fig, text=""):
-    """Bottom caption: the given text, then the caution (always)."""
+    """Bottom caption: the given text, then the caution (always, once per figure)."""
     body = (text + "\n" if text else "") + CAUTION_SHORT
-    fig.text(0.5, 0.005, body, ha="center", va="bottom", fontsize=6.5, wrap=True, color="0.25")
-    fig.subplots_adjust(bottom=0.16)
+    fig.text(0.5, 0.005, body, ha="center", va="bottom", fontsize=6.5, wrap=True, color="0.25",
+             gid="caption")
+    fig.subplots_adjust(bottom=max(0.16, fig.subplotpars.bottom))
+    _fit_margins(fig)
     return fig
 
 

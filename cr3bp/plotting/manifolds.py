@@ -10,7 +10,8 @@ import numpy as np
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 
-from .base import VIEWS, axis_labels, draw_primaries, new_figure
+from .base import (VIEWS, axis_labels, colorbar_beside, draw_lagrange_points, draw_primaries,
+                   legend_beside, new_figure, scaled_axis)
 
 TUBE_COLOURS = {("unstable", "interior"): "tab:red", ("unstable", "exterior"): "tab:orange",
                 ("stable", "interior"): "tab:green", ("stable", "exterior"): "tab:cyan"}
@@ -74,21 +75,23 @@ def plot_tubes(tubes, views=("xy", "xz"), n_samples=200, max_trajectories=80, ax
             handles.append(Line2D([], [], color=orbit_colour, lw=1.2, label="periodic orbit"))
         system = tubes[0].system
         span = _fit(ax, np.vstack(pts) if pts else np.zeros((1, 2)))
-        if view == "yz":  # both primaries project onto the origin: show the smaller one only
-            from matplotlib.patches import Circle
-            r2 = max(system.radii[1], 0.006 * span)
-            ax.add_patch(Circle((0.0, 0.0), r2, color="0.45", zorder=5))
-            ax.annotate(f"{system.names[1]} (both primaries project here)", (0.0, 0.0),
-                        textcoords="offset points", xytext=(4, 6), fontsize=7, zorder=6)
-        else:
-            draw_primaries(ax, system, view=view, min_radius=0.006 * span)
+        # in the y-z view both primaries project onto the origin: the smaller one is drawn
+        x0, x1 = ax.get_xlim()
+        y0, y1 = ax.get_ylim()
+        draw_primaries(ax, system, view=view, min_radius=0.006 * span, box=(x0, x1, y0, y1))
+        draw_lagrange_points(ax, system, view, box=(x0, x1, y0, y1))
         if forbidden:
             draw_forbidden(ax, system, tubes[0].jacobi, view)
             if view in ("xy", "xz"):
                 handles.append(Patch(color=FORBIDDEN, label=f"forbidden region at C = {tubes[0].jacobi:.5f}"))
         axis_labels(ax, system, view)
-        ax.legend(handles=handles, fontsize=7, loc="best", framealpha=0.9)
+        if ax is axs[min(len(views), len(axs)) - 1]:
+            legend_beside(ax, handles + _point_handle(ax))
     return fig
+
+
+def _point_handle(ax):
+    return [h for h, lab in zip(*ax.get_legend_handles_labels()) if lab == "Lagrange points"][:1]
 
 
 def _fit(ax, pts, margin=0.12):
@@ -126,25 +129,60 @@ def plot_tubes_3d(tubes, n_samples=200, max_trajectories=60):
 
 
 def plot_section_map(cuts, names=("y", "vy"), ax=None, connect_points=True, labels=None):
-    """Cuts of several tubes on one section, each labelled; ``names`` the map coordinates."""
+    """Cuts of several tubes on one section, each labelled; ``names`` the map coordinates: one
+    pair (``("y", "vy")``) or several (``(("y", "vy"), ("z", "vz"))``: one panel each, e.g. both
+    maps of a spatial tube). Dimensional systems read in 10³ km and m/s (LU, LU/TU on a
+    secondary axis). Returns the (first) Axes."""
+    pairs = [tuple(names)] if isinstance(names[0], str) else [tuple(p) for p in names]
     if ax is None:
-        fig, ax = new_figure(size=(7.0, 6.0))
-    for k, cut in enumerate(cuts):
-        if len(cut) == 0:
-            continue
-        pts = cut.polygon(names) if cut.phase is not None else cut.coords(names)
-        lab = (labels[k] if labels else cut.label) or f"cut {k + 1}"
-        col = CYCLE[k % len(CYCLE)]
-        style = "-" if connect_points and cut.closed else ""
-        ax.plot(pts[:, 0], pts[:, 1], style + ".", color=col, ms=3, lw=0.8,
-                label=f"{lab} ({len(pts)} crossings)")
-    ax.set_xlabel(_unit_label(names[0]))
-    ax.set_ylabel(_unit_label(names[1]))
+        fig, axs = new_figure(len(pairs), 1, size=(6.2 * len(pairs) + 2.0, 6.0))
+        axs = list(np.atleast_1d(axs).ravel())
+    else:
+        axs = [ax]
     title = cuts[0].section.label if cuts else ""
-    ax.set_title(f"Poincaré section {title}", fontsize=9)
-    ax.legend(fontsize=7, loc="best")
-    ax.grid(alpha=0.3)
-    return ax
+    system = cuts[0].system if cuts else None
+    for a, pair in zip(axs, pairs):
+        for k, cut in enumerate(cuts):
+            if len(cut) == 0:
+                continue
+            pts = cut.polygon(pair) if cut.phase is not None else cut.coords(pair)
+            lab = (labels[k] if labels else cut.label) or f"cut {k + 1}"
+            col = CYCLE[k % len(CYCLE)]
+            style = "-" if connect_points and cut.closed else ""
+            a.plot(pts[:, 0], pts[:, 1], style + ".", color=col, ms=3, lw=0.8,
+                   label=f"{lab} ({len(pts)} crossings)")
+        _map_axis(a.xaxis, system, pair[0])
+        _map_axis(a.yaxis, system, pair[1])
+        a.set_title(f"Poincaré section {title}: ({pair[0]}, {pair[1]})", fontsize=9,
+                    pad=30 if _dimensional(system) and pair[0] in _SCALES else 6)
+        a.grid(alpha=0.3)
+    legend_beside(axs[len(pairs) - 1] if len(axs) >= len(pairs) else axs[0])
+    return axs[0]
+
+
+_SCALES = {"x": "length", "y": "length", "z": "length", "r": "length", "radius": "length",
+           "vx": "speed", "vy": "speed", "vz": "speed", "t": "time"}
+
+
+def _dimensional(system):
+    return system is not None and getattr(system, "dimensional", False)
+
+
+def _map_axis(axis, system, name):
+    """Label a map axis; lengths in 10³ km, speeds in m/s, times in days for dimensional systems
+    (the data stay nondimensional; the nondimensional unit on a secondary axis)."""
+    kind = _SCALES.get(name)
+    if not _dimensional(system) or kind is None:
+        axis.set_label_text(_unit_label(name))
+        return
+    from .base import km_scale
+    if kind == "length":
+        per, unit = km_scale(system)
+        scaled_axis(axis, system.length_km / per, f"{name} [{unit}]", f"{name} [LU]")
+    elif kind == "speed":
+        scaled_axis(axis, system.velocity_kms * 1000.0, f"{name} [m/s]", f"{name} [LU/TU]")
+    else:
+        scaled_axis(axis, system.days(1.0), f"{name} [days]", f"{name} [TU]")
 
 
 def _unit_label(name):
@@ -177,27 +215,34 @@ def plot_connection(legs, tubes=(), view="xy", ax=None, n_samples=150):
     system = legs[0].system if legs else tubes[0].system
     span = _fit(ax, np.vstack([leg.trajectory(100)[1][:, [i, j]] for leg in legs]) if legs else
                 np.array([[0.0, 0.0]]), margin=0.25)
-    draw_primaries(ax, system, view=view, min_radius=0.006 * span)
+    x0, x1 = ax.get_xlim()
+    y0, y1 = ax.get_ylim()
+    draw_primaries(ax, system, view=view, min_radius=0.006 * span, box=(x0, x1, y0, y1))
+    draw_lagrange_points(ax, system, view, box=(x0, x1, y0, y1))
     axis_labels(ax, system, view)
-    ax.legend(handles=handles, fontsize=7, loc="best")
+    legend_beside(ax, handles + _point_handle(ax))
     return ax
 
 
 def plot_periapsis_map(pmap, target_km=None, ax=None):
     """Periapsis altitude against time of flight (and against departure phase on the orbit)."""
-    if ax is None:
-        fig, ax = new_figure(size=(7.0, 5.5))
     s = pmap.system
     ok = np.isfinite(pmap.altitude_km)
+    if not ok.any():
+        from ..errors import NoSolutionError
+        raise NoSolutionError(f"no trajectory of the {pmap.stability} {pmap.branch} manifold of {pmap.origin} "
+                              f"reached a periapsis about {s.names[pmap.primary]}: the periapsis map is empty")
+    if ax is None:
+        fig, ax = new_figure(size=(8.0, 6.0))
     tof = np.abs(s.days(pmap.tof[ok]))
     sc = ax.scatter(tof, pmap.altitude_km[ok], c=pmap.phase[ok], cmap="viridis", s=12,
                     label=f"{pmap.stability} {pmap.branch} manifold of {pmap.origin}")
-    ax.figure.colorbar(sc, ax=ax, label="departure phase on the orbit [fraction of period]")
+    colorbar_beside(ax, sc, "departure phase on the orbit [fraction of period]")
     if target_km is not None:
         ax.axhline(target_km, color="tab:red", lw=1.0, label=f"target altitude {target_km:g} km")
     ax.set_xlabel("time of flight from periapsis to the orbit [days]")
     ax.set_ylabel(f"periapsis altitude above {s.names[pmap.primary]} [km]")
     ax.set_yscale("symlog", linthresh=1000.0)
-    ax.legend(fontsize=7)
+    legend_beside(ax, where="above", ncol=1)
     ax.grid(alpha=0.3)
     return ax

@@ -4,8 +4,10 @@ Lagrange points marked; a family coloured by Jacobi constant; stability indices.
 from __future__ import annotations
 
 import numpy as np
+from matplotlib.ticker import FuncFormatter
 
-from .base import VIEWS, axis_labels, draw_primaries, new_figure
+from .base import (VIEWS, axis_labels, colorbar_beside, draw_lagrange_points, draw_primaries,
+                   legend_beside, new_figure, title as set_title)
 
 _VIEW_ORDER = ("xy", "xz", "yz")
 
@@ -22,22 +24,9 @@ def trajectory(orbit, n=1500):
     return propagate(orbit.system, orbit.state, orbit.period, t_eval=t).states
 
 
-def _mark_points(ax, system, view, box):
-    """Lagrange points inside the frame; points that project onto the same spot share a label."""
-    i, j = VIEWS[view]
-    spots = {}
-    for name, p in _lagrange_points(system).items():
-        if box[0] <= p[i] <= box[1] and box[2] <= p[j] <= box[3]:
-            spots.setdefault((round(p[i], 12), round(p[j], 12)), []).append(name)
-    for (u, v), names in spots.items():
-        ax.plot(u, v, marker="+", color="tab:red", ms=7, zorder=6)
-        ax.annotate(", ".join(names), (u, v), textcoords="offset points", xytext=(3, -10), fontsize=7,
-                    color="tab:red")
-
-
 def _frame(ax, system, view, arrays, pad=0.15, include=()):
-    """Equal-aspect frame around ``arrays`` (and the points ``include``), primaries and Lagrange
-    points drawn."""
+    """Equal-aspect frame around ``arrays`` (and the points ``include``), primaries (in the y-z
+    view the smaller one, in front of the larger) and the Lagrange points inside the frame."""
     i, j = VIEWS[view]
     pts = np.vstack([a[:, :3] for a in arrays] + [np.atleast_2d(p) for p in include])
     lo_i, hi_i = pts[:, i].min(), pts[:, i].max()
@@ -48,12 +37,16 @@ def _frame(ax, system, view, arrays, pad=0.15, include=()):
     ax.set_xlim(box[0], box[1])
     ax.set_ylim(box[2], box[3])
     ax.set_aspect("equal")
-    if view != "yz":   # in the y-z view both primaries project onto the origin, behind the orbit
-        draw_primaries(ax, system, view, min_radius=0.0)
-    _mark_points(ax, system, view, box)
+    draw_primaries(ax, system, view, min_radius=0.008 * span, box=box)
+    draw_lagrange_points(ax, system, view, box=box)
     axis_labels(ax, system, view)
     ax.grid(alpha=0.3)
     return box
+
+
+def planar(trajectories, tol=1e-9) -> bool:
+    """Whether every trajectory stays in the plane z = 0 (|z| and |vz| below ``tol`` LU, LU/TU)."""
+    return all(float(np.max(np.abs(np.asarray(s)[:, [2, 5]]))) < tol for s in trajectories)
 
 
 def plot_orbit(orbit, states=None, title=None):
@@ -66,11 +59,19 @@ def plot_orbit(orbit, states=None, title=None):
         ax.plot(states[0, i], states[0, j], "o", color="k", ms=3, label="initial state")
         own = _lagrange_points(orbit.system).get(orbit.point)
         _frame(ax, orbit.system, view, [states], include=[own] if own is not None else [])
-        ax.set_title(f"{view[0]}-{view[1]} view" + (" (primaries on the line y = z = 0, not drawn)"
-                                                      if view == "yz" else ""), fontsize=9)
-    axes[0][0].legend(loc="upper right", fontsize=7)
-    fig.suptitle((title or _orbit_title(orbit)) + "; red +: Lagrange points", fontsize=10)
+        set_title(ax, f"{view[0]}-{view[1]} view" + (" (seen along x)" if view == "yz" else ""))
+    legend_beside(axes[0][2], _unique_handles(axes[0]))
+    fig.suptitle(title or _orbit_title(orbit), fontsize=10)
     return fig
+
+
+def _unique_handles(axes):
+    """Legend handles of several axes, one per label."""
+    seen = {}
+    for ax in axes:
+        for h, lab in zip(*ax.get_legend_handles_labels()):
+            seen.setdefault(lab, h)
+    return [h for h in seen.values()]
 
 
 def _orbit_title(o):
@@ -80,44 +81,83 @@ def _orbit_title(o):
 
 
 def plot_family(system, trajectories, jacobi, title="", max_curves=60):
-    """Members coloured by Jacobi constant in the x-y and x-z views (LU)."""
+    """Members coloured by Jacobi constant in the x-y and x-z views (only x-y for a planar
+    family); the colour bar stands beside the last view."""
     import matplotlib.pyplot as plt
     from matplotlib.colors import Normalize
-    fig, axes = new_figure(2, 1, size=(12.0, 6.0))
     n = len(trajectories)
     pick = np.unique(np.linspace(0, n - 1, min(n, max_curves)).round().astype(int))
+    views = ("xy",) if planar([trajectories[k] for k in pick]) else ("xy", "xz")
+    fig, axes = new_figure(len(views), 1, size=(6.6 * len(views) + 1.2, 6.0))
+    axes = np.atleast_1d(axes).ravel()
     norm = Normalize(min(jacobi), max(jacobi))
     cmap = plt.get_cmap("viridis")
-    for ax, view in zip(axes[0], ("xy", "xz")):
+    for ax, view in zip(axes, views):
         i, j = VIEWS[view]
         for k in pick:
             s = trajectories[k]
             ax.plot(s[:, i], s[:, j], color=cmap(norm(jacobi[k])), lw=0.7)
         _frame(ax, system, view, [trajectories[k] for k in pick])
-        ax.set_title(f"{view[0]}-{view[1]} view", fontsize=9)
+        set_title(ax, f"{view[0]}-{view[1]} view" + (" (planar family: z = 0)" if len(views) == 1 else ""))
     sm = plt.cm.ScalarMappable(norm=norm, cmap=cmap)
-    fig.colorbar(sm, ax=axes[0].tolist(), label="Jacobi constant (nondimensional)", shrink=0.8)
+    colorbar_beside(axes[-1], sm, "Jacobi constant (nondimensional)")
     fig.suptitle(title, fontsize=10)
     return fig
 
 
-def plot_stability(jacobi, period, nu, period_unit="d", title="", bifurcations=()):
-    """Stability indices against the Jacobi constant and against the period (log scale of |nu|)."""
-    fig, axes = new_figure(2, 1, size=(12.0, 5.0))
+def plot_stability(jacobi, period, nu, period_unit="d", title="", bifurcations=(), perilune=None,
+                   perilune_label="perilune radius [km]", marks=()):
+    """Signed stability indices nu1 (larger |nu|) and nu2 of each member against the perilune
+    radius (when given; else the Jacobi constant) and against the period, with the stability
+    band -1 <= nu <= +1 shaded and the lines nu = +1 and nu = -1 drawn (symmetric-log scale:
+    linear inside |nu| <= 1, logarithmic beyond).
+
+    Parameters
+    ----------
+    nu : (n, 2) array
+        Real parts of the indices in the members' numbering (nu1 the larger |nu|), as in the
+        family table's nu1, nu2 columns.
+    bifurcations : dicts with ``jacobi`` and ``_period_plot`` (and ``_perilune_plot``)
+    marks : (panel, value, label) triples, panel "period" or "perilune": requested values (a
+        resonance, a target) drawn as labelled dash-dot lines.
+    """
+    fig, axes = new_figure(2, 1, size=(13.5, 5.4))
     nu = np.asarray(nu, dtype=float)
-    for ax, x, label in ((axes[0][0], jacobi, "Jacobi constant (nondimensional)"),
-                         (axes[0][1], period, f"period [{period_unit}]")):
-        ax.plot(x, np.abs(nu[:, 0]), ".-", ms=2, lw=0.8, label="|nu1| (larger)")
-        ax.plot(x, np.abs(nu[:, 1]), ".-", ms=2, lw=0.8, label="|nu2|")
-        ax.axhline(1.0, color="k", lw=0.8, ls="--", label="|nu| = 1 (stability boundary)")
+    first = ((perilune, perilune_label, "_perilune_plot") if perilune is not None
+             else (jacobi, "Jacobi constant (nondimensional)", "jacobi"))
+    panels = (first, (period, f"period [{period_unit}]", "_period_plot"))
+    for ax, (x, label, key) in zip(axes[0], panels):
+        x = np.asarray(x, dtype=float)
+        ax.axhspan(-1.0, 1.0, color="tab:green", alpha=0.08, lw=0)
+        ax.plot(x, nu[:, 0], ".-", ms=2.5, lw=0.9, color="tab:blue", label="nu1 (larger |nu|)")
+        ax.plot(x, nu[:, 1], ".-", ms=2.5, lw=0.9, color="tab:orange", label="nu2")
+        for level in (1.0, -1.0):
+            ax.axhline(level, color="k", lw=0.8, ls="--")
         for b in bifurcations:
-            xv = b["jacobi"] if x is jacobi else b.get("_period_plot")
+            xv = b.get(key)
             if xv is not None:
-                ax.axvline(xv, color="tab:red", lw=0.6, alpha=0.6)
-        ax.set_yscale("log")
+                ax.axvline(xv, color="tab:red", lw=0.7, alpha=0.7)
+        for where, xv, text in marks:
+            if ("_" + where + "_plot") == key:
+                ax.axvline(xv, color="tab:purple", lw=1.2, ls="-.")
+                ax.annotate(text, (xv, 1.0), xycoords=("data", "axes fraction"), xytext=(3, -6),
+                            textcoords="offset points", fontsize=7, color="tab:purple", rotation=90,
+                            va="top", ha="left")
+        ax.set_yscale("symlog", linthresh=1.0, linscale=1.0)
+        ax.yaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
         ax.set_xlabel(label)
-        ax.set_ylabel("|stability index| (nondimensional)")
+        ax.set_ylabel("stability index nu (real part, nondimensional)")
         ax.grid(alpha=0.3, which="both")
-    axes[0][0].legend(fontsize=7)
-    fig.suptitle(title + ("; red lines: bifurcations" if bifurcations else ""), fontsize=10)
+    from matplotlib.lines import Line2D
+    from matplotlib.patches import Patch
+    handles = [Line2D([], [], color="tab:blue", marker=".", label="nu1 (larger |nu|)"),
+               Line2D([], [], color="tab:orange", marker=".", label="nu2"),
+               Line2D([], [], color="k", ls="--", lw=0.8, label="nu = +1 and nu = -1"),
+               Patch(color="tab:green", alpha=0.2, label="stable band |nu| <= 1")]
+    if bifurcations:
+        handles.append(Line2D([], [], color="tab:red", lw=0.7, label="bifurcation"))
+    if marks:
+        handles.append(Line2D([], [], color="tab:purple", ls="-.", lw=1.2, label="requested value"))
+    legend_beside(axes[0][1], handles)
+    fig.suptitle(title, fontsize=10)
     return fig

@@ -7,7 +7,8 @@ import math
 
 import numpy as np
 
-from .base import VIEWS, axis_labels, draw_primaries, new_figure
+from .base import VIEWS, axis_labels, draw_lagrange_points, draw_primaries, legend_beside, new_figure
+from .base import title as set_title
 
 LEG_COLOURS = ("tab:red", "tab:green", "tab:purple", "tab:orange", "tab:brown", "tab:pink", "tab:cyan")
 ZVC_STYLE = dict(lw=0.8, ls="--", zorder=2)
@@ -28,10 +29,9 @@ def plot_corridor(stitched, legs=(), tubes=(), ax=None, view="xy", margin=0.25, 
     """
     from ..dynamics import jacobi
     from ..energy import hill_region
-    from .energy import draw_lagrange_points
     system = stitched.system
     if ax is None:
-        _, ax = new_figure(size=(7.5, 6.5))
+        _, ax = new_figure(size=(10.5, 6.8))
     i, j = VIEWS[view]
     s = stitched.states
     lo = s[:, [i, j]].min(axis=0)
@@ -84,15 +84,15 @@ def plot_corridor(stitched, legs=(), tubes=(), ax=None, view="xy", margin=0.25, 
         ax.plot(p[i], p[j], "^", color="k", ms=7, zorder=6, label="maneuver" if n == 0 else None)
         ax.annotate(f"{man['dv_mps']:.1f} m/s", (p[i], p[j]), textcoords="offset points", xytext=(5, 5),
                     fontsize=7, zorder=7)
-    draw_primaries(ax, system, view)
+    draw_primaries(ax, system, view, box=extent)
     draw_lagrange_points(ax, system, view)
     ax.set_xlim(extent[0], extent[1])
     ax.set_ylim(extent[2], extent[3])
     ax.set_aspect("equal")
     axis_labels(ax, system, view)
-    ax.set_title(f"Transfer corridor: {' → '.join(stitched.nodes)}\n"
-                 f"Δv {stitched.dv_total_mps:.1f} m/s, time of flight {stitched.tof_days:.2f} d", fontsize=9)
-    ax.legend(loc="best", fontsize=7, framealpha=0.9)
+    set_title(ax, f"Transfer corridor: {' → '.join(stitched.nodes)}\n"
+                  f"Δv {stitched.dv_total_mps:.1f} m/s, time of flight {stitched.tof_days:.2f} d (CR3BP)")
+    legend_beside(ax)
     return ax
 
 
@@ -112,7 +112,7 @@ def plot_pareto(routes, front=(), chosen=None, ax=None):
     """Δv against time of flight of ranked ``routes`` (grey), the Pareto ``front`` (line) and
     the ``chosen`` route (highlighted)."""
     if ax is None:
-        _, ax = new_figure(size=(7.0, 5.0))
+        _, ax = new_figure(size=(9.0, 5.2))
     if routes:
         ax.plot([r.tof_days for r in routes], [r.dv_total_mps for r in routes], "o", color="0.6", ms=5,
                 label="ranked routes")
@@ -125,9 +125,9 @@ def plot_pareto(routes, front=(), chosen=None, ax=None):
                 label=f"chosen: {chosen.dv_total_mps:.1f} m/s, {chosen.tof_days:.2f} d")
     ax.set_xlabel("time of flight [days]")
     ax.set_ylabel("total Δv [m/s] (sum over the legs, before stitching)")
-    ax.set_title("Δv against time of flight of the routes found", fontsize=9)
+    ax.set_title("Δv against time of flight of the routes found (CR3BP)", fontsize=9)
     ax.grid(alpha=0.3)
-    ax.legend(loc="best", fontsize=7)
+    legend_beside(ax)
     return ax
 
 
@@ -136,7 +136,7 @@ def plot_graph(graph, ax=None, route=None, max_labels=60):
     without a known state in a row below; edges as arrows labelled "Δv m/s, TOF d"; the edges
     of ``route`` (a :class:`cr3bp.network.Route`) drawn thick."""
     if ax is None:
-        _, ax = new_figure(size=(8.0, 6.0))
+        _, ax = new_figure(size=(9.5, 6.0))
     known = [n for n, d in graph.nodes(data=True) if d.get("jacobi") is not None]
     unknown = [n for n in graph.nodes if n not in known]
     pos = {n: (graph.nodes[n]["x"], graph.nodes[n]["jacobi"]) for n in known}
@@ -200,7 +200,7 @@ def plot_graph(graph, ax=None, route=None, max_labels=60):
     ax.plot([], [], "-", color="0.55", label="leg (Δv, time of flight)")
     if route is not None:
         ax.plot([], [], "-", color="tab:red", lw=2, label="chosen route")
-    ax.legend(loc="best", fontsize=7)
+    legend_beside(ax)
     ax.grid(alpha=0.2)
     if not math.isfinite(base):
         ax.set_ylim(-1, 1)

@@ -4,9 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from matplotlib.patches import Circle
-
-from .base import PRIMARY_COLOURS, VIEWS, axis_labels, draw_primaries, new_figure
+from .base import VIEWS, axis_labels, draw_lagrange_points, draw_primaries, legend_beside, new_figure
+from .base import title as set_title
 
 TRAJECTORY_COLOUR = "tab:orange"
 
@@ -28,12 +27,7 @@ def plot_views(states, system, title="", label="trajectory", size=(13.0, 5.2)):
     near = int(np.argmin([np.min(np.abs(s[:, 0] - x)) for x in xs]))
     for ax, view in zip(axes, ("xy", "xz", "yz")):
         i, j = VIEWS[view]
-        if view != "yz":
-            draw_primaries(ax, system, view=view)
-        else:
-            r = max(system.radii[near], 0.004)
-            ax.add_patch(Circle((0.0, 0.0), r, color=PRIMARY_COLOURS[near], zorder=5,
-                                label=f"{system.names[near]} (along x)"))
+        draw_primaries(ax, system, view=view, front=near)
         pi = np.append(s[:, i], xs[near] if i == 0 else 0.0)
         pj = np.append(s[:, j], 0.0)
         span = max(np.ptp(pi), np.ptp(pj), 1e-3)
@@ -43,12 +37,19 @@ def plot_views(states, system, title="", label="trajectory", size=(13.0, 5.2)):
         ax.plot(s[:, i], s[:, j], color=TRAJECTORY_COLOUR, lw=1.0, label=label)
         ax.plot(s[0, i], s[0, j], "o", color="tab:green", ms=5, label="start", zorder=7)
         ax.plot(s[-1, i], s[-1, j], "x", color="tab:red", ms=7, mew=2, label="end", zorder=7)
+        x0, x1 = ax.get_xlim()
+        y0, y1 = ax.get_ylim()
+        draw_lagrange_points(ax, system, view, box=(x0, x1, y0, y1))
         axis_labels(ax, system, view=view)
         ax.set_aspect("equal", adjustable="box")
         ax.grid(True, lw=0.3, alpha=0.5)
-        ax.set_title(f"{view[0]}-{view[1]} view", fontsize=9)
-    axes[0].legend(loc="best", fontsize=7)
+        set_title(ax, f"{view[0]}-{view[1]} view" + (" (seen along x)" if view == "yz" else ""))
+    seen = {}
+    for ax in axes:
+        for h, lab in zip(*ax.get_legend_handles_labels()):
+            seen.setdefault(lab, h)
+    legend_beside(axes[-1], list(seen.values()))
     if title:
         fig.suptitle(title, fontsize=10)
-    fig.tight_layout(rect=(0.0, 0.1, 1.0, 0.95))
+    fig.subplots_adjust(left=0.06, right=0.84, top=0.86, wspace=0.3)
     return fig
