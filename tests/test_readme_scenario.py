@@ -7,7 +7,7 @@ from importlib.machinery import SourceFileLoader
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parent.parent
-sync = SourceFileLoader("sync_readme", str(ROOT / "tools" / "sync_readme.py")).load_module()
+sync = SourceFileLoader("sync_readme", str(ROOT / "docs" / "sync_readme.py")).load_module()
 
 
 def test_readme_block_is_the_scenario_file():
@@ -23,5 +23,5 @@ def test_check_mode_notices_a_difference(tmp_path):
     edited = sync.synced(readme, "[mission]\nname = \"other\"\n")
     assert sync.current(edited) != sync.current(readme)
     assert sync.synced(edited, (ROOT / "examples" / "farlight.toml").read_text(encoding="utf-8")) == readme
-    r = subprocess.run([sys.executable, str(ROOT / "tools" / "sync_readme.py"), "--check"], capture_output=True)
+    r = subprocess.run([sys.executable, str(ROOT / "docs" / "sync_readme.py"), "--check"], capture_output=True)
     assert r.returncode == 0, r.stdout

@@ -89,6 +89,7 @@ HEADERS = ["rank", "kind", "dv_mps", "tof_arrival_days", "tof_stepoff_days", "ar
 def run(args):
     import math
 
+    from cr3bp import units
     from cr3bp.connections import connect, necks_open, parking_legs, periapsis_map
     from cr3bp.errors import InputError
     system = common.resolve_system(args)
