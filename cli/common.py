@@ -277,7 +277,9 @@ def run_command(args) -> int:
             check_outputs(args)
         return int(args._run(args) or 0)
     except LibrateError as e:
-        print(f"librate: error: {one_line(e)}", file=sys.stderr)
+        # a scenario or node list with several problems: one line each (FILE:LINE: key: message)
+        for problem in getattr(e, "problems", None) or [e]:
+            print(f"librate: error: {one_line(problem)}", file=sys.stderr)
         return e.exit_status
     except KeyboardInterrupt:
         print("librate: interrupted", file=sys.stderr)

@@ -167,8 +167,7 @@ def prepare(path) -> Plan:
 #: Files every run writes, whatever the scenario.
 FIXED_FILES = ("orbits.json", "orbits.csv", "checks.csv", "checks.json", "report.html", "manifest.json")
 #: Whole-number settings and their allowed ranges.
-INT_RANGES = {"best": (1, 100), "family_members": (2, 100_000),
-              "tube_points": (2, 100_000), "workers": (1, 1024)}
+INT_RANGES = {"best": (1, 100), "workers": (1, 1024)}
 #: Quantity keys of orbits, checks, transfers and exports: (dimension, least allowed, rule).
 QUANTITY_RULES = {
     "period": ("time", "positive"), "ax": ("length", "positive"), "ay": ("length", "positive"),
@@ -478,12 +477,15 @@ def run(plan: Plan, folder, *, catalog=None, workers=None, scheduler=None, progr
     plan : Plan (from :func:`prepare`)
     folder : path of the output folder (created)
     catalog : cr3bp.catalog.Catalog, optional (default: the per-user catalogue)
-    workers, scheduler : leg computation in a process pool / on a dask cluster
+    workers, scheduler : leg computation in a process pool / on a dask cluster (workers: the
+        scenario's ``settings.workers`` when not given)
     progress : callable(str), optional: one line per step
     reduced : smaller samples (tests)
     """
     from .catalog import Catalog
     started = time.time()
+    if workers is None:
+        workers = (plan.data.get("settings") or {}).get("workers")
     folder = Path(folder)
     catalog = catalog if catalog is not None else Catalog()
     check_output_folder(folder, plan.path, getattr(catalog, "path", None), planned_files(plan.data))

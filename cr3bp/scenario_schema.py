@@ -105,9 +105,15 @@ SCHEMA = {
         "formats": ("list[str]", False, "image formats, from png and svg"),
     }),
     "settings": ("table", False, {
-        "family_members": (I, False, "members per family"), "tube_points": (I, False, "points per tube"),
-        "workers": (I, False, "worker processes"),
+        "workers": (I, False, "worker processes for transfer legs (when --workers is not given)"),
     }),
+}
+#: Settings of earlier versions that no run ever read: refused with the reason, not ignored.
+UNUSED_SETTINGS = {
+    "family_members": "librate run grows each family whole (its own continuation stops) and has no "
+                      "member count to set; remove the key",
+    "tube_points": "librate run chooses the points of each tube by the kind of leg (see the node "
+                   "list's hints in the README); remove the key",
 }
 
 
@@ -304,7 +310,8 @@ def check(data: dict, lines: dict, file: str, schema: dict | None = None,
         for k in table:
             if k not in keys:
                 allowed = ", ".join(sorted(keys))
-                why = RENAMED_CHECKS.get(k) if keys is CHECK_KEYS else None
+                why = (RENAMED_CHECKS.get(k) if keys is CHECK_KEYS
+                       else UNUSED_SETTINGS.get(k) if prefix == "settings" else None)
                 problems.append(Problem(file, line(f"{prefix}.{k}"), f"{prefix}.{k}",
                                         why or f"unknown key; allowed here: {allowed}"))
         for k, (typ, required, sub) in keys.items():

@@ -20,18 +20,7 @@ def add_arguments(p):
 
 def run(args):
     """Check (scenario and --out), then run; a scenario with problems prints one line per
-    problem, FILE:LINE: key: message, and exits 2 with nothing written."""
-    from cr3bp.scenario_schema import ScenarioError
-    try:
-        return _run(args)
-    except ScenarioError as e:
-        import sys
-        for p in e.problems:
-            print(f"librate: error: {p}", file=sys.stderr)
-        return e.exit_status
-
-
-def _run(args):
+    problem, FILE:LINE: key: message (cli.common.run_command), and exits 2 with nothing written."""
     import time
     from cr3bp import mission
     from cr3bp.catalog import default_path
