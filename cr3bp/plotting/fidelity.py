@@ -6,7 +6,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .base import new_figure
+from .base import legend_beside, new_figure
 
 
 def rotating_states(transition, states_km, t_tu):
@@ -38,7 +38,6 @@ def transition_figure(transition, title=""):
     ax1.set_ylabel("z (LU)")
     ax1.set_title("rotating frame (ephemeris anchoring)")
     ax1.set_aspect("equal", adjustable="datalim")
-    ax1.legend(fontsize=8)
     ref, eph = transition.reference_km, transition.sample_km
     ax2.plot(ref[:, 0], ref[:, 1], color="tab:blue", lw=1.0, label="CR3BP design")
     ax2.plot(eph[:, 0], eph[:, 1], color="tab:red", lw=0.6, label="ephemeris model")
@@ -47,7 +46,10 @@ def transition_figure(transition, title=""):
     ax2.set_ylabel("y (km)")
     ax2.set_title("inertial axes")
     ax2.set_aspect("equal", adjustable="datalim")
-    ax2.legend(fontsize=8)
+    # one legend for both panels, beside the data (the primary's marker differs per panel)
+    h1, l1 = ax1.get_legend_handles_labels()
+    h2, l2 = ax2.get_legend_handles_labels()
+    legend_beside(ax2, h2 + [h for h, lab in zip(h1[2:], l1[2:]) if lab.lower() not in {x.lower() for x in l2}])
     if title:
         fig.suptitle(title)
     return fig

@@ -10,7 +10,7 @@ import numpy as np
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 
-from .base import (VIEWS, axis_labels, colorbar_beside, draw_lagrange_points, draw_primaries,
+from .base import (VIEWS, axis_labels, colorbar_beside, draw_lagrange_points, draw_primaries, km_scale,
                    legend_beside, new_figure, scaled_axis)
 
 TUBE_COLOURS = {("unstable", "interior"): "tab:red", ("unstable", "exterior"): "tab:orange",
@@ -121,10 +121,15 @@ def plot_tubes_3d(tubes, n_samples=200, max_trajectories=60):
     for x, name in zip(system.positions, system.names):
         ax.scatter([x], [0], [0], color="k", s=12)
         ax.text(x, 0, 0, name, fontsize=7)
-    ax.set_xlabel("x [LU]")
-    ax.set_ylabel("y [LU]")
-    ax.set_zlabel("z [LU]")
-    ax.legend(handles=handles, fontsize=7)
+    if getattr(system, "dimensional", False):
+        per, text = km_scale(system)
+        for axis, name in ((ax.xaxis, "x"), (ax.yaxis, "y"), (ax.zaxis, "z")):
+            scaled_axis(axis, system.length_km / per, f"{name} [{text}]")
+    else:
+        ax.set_xlabel("x [LU]")
+        ax.set_ylabel("y [LU]")
+        ax.set_zlabel("z [LU]")
+    legend_beside(ax, handles)
     return fig
 
 

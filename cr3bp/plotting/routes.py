@@ -7,7 +7,8 @@ import math
 
 import numpy as np
 
-from .base import VIEWS, axis_labels, draw_lagrange_points, draw_primaries, legend_beside, new_figure
+from .base import (VIEWS, axis_labels, draw_lagrange_points, draw_primaries, km_scale, legend_beside,
+                   new_figure, scaled_axis)
 from .base import title as set_title
 
 LEG_COLOURS = ("tab:red", "tab:green", "tab:purple", "tab:orange", "tab:brown", "tab:pink", "tab:cyan")
@@ -131,6 +132,23 @@ def plot_pareto(routes, front=(), chosen=None, ax=None):
     return ax
 
 
+def _graph_x_axis(ax, graph):
+    """x of the nodes' states in km (ticks at round 10³ or 10⁶ km, LU on top) when the graph's
+    system is a tabulated dimensional one; in LU otherwise."""
+    from ..errors import LibrateError
+    from ..systems import system as _system
+    try:
+        sysm = _system(graph.graph.get("system", ""))
+    except (LibrateError, KeyError, TypeError):
+        sysm = None
+    if sysm is None or not getattr(sysm, "dimensional", False):
+        ax.set_xlabel("x of the node's state [LU] (rotating frame, barycentric)")
+        return
+    per, text = km_scale(sysm)
+    scaled_axis(ax.xaxis, sysm.length_km / per, f"x of the node's state [{text}] (rotating frame, barycentric)",
+                "x [LU]")
+
+
 def plot_graph(graph, ax=None, route=None, max_labels=60):
     """The graph as a schematic: each node at (x of its state, its Jacobi constant); nodes
     without a known state in a row below; edges as arrows labelled "Δv m/s, TOF d"; the edges
@@ -189,7 +207,7 @@ def plot_graph(graph, ax=None, route=None, max_labels=60):
         ax.annotate(d.get("name", str(n)), (x, y), textcoords="offset points", xytext=(6, 6), fontsize=8, zorder=5)
     if known:
         ax.set_ylim(base - 0.15 * span, max(p[1] for p in pos.values()) + 0.2 * span)
-    ax.set_xlabel("x of the node's state [LU] (rotating frame, barycentric)")
+    _graph_x_axis(ax, graph)
     ax.set_ylabel("Jacobi constant C (nondimensional)")
     title = f"Transfer graph: {graph.number_of_nodes()} nodes, {graph.number_of_edges()} legs"
     if unknown:
