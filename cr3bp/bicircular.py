@@ -208,8 +208,8 @@ def bicircular_system(system="earth-moon", *, sun_phase=0.0, epoch=None) -> Bici
     sys_ = systems.system(system) if isinstance(system, str) else system
     names = (getattr(sys_.primary, "name", None), getattr(sys_.secondary, "name", None))
     if names != ("earth", "moon"):
-        raise InputError(f"the bicircular model is set up for the earth-moon system; got "
-                         f"'{sys_.name}' (build BicircularSystem directly for another)")
+        raise InputError(f"the bicircular model is set up for the earth-moon system only; got "
+                         f"'{sys_.name}'")
     phase = _finite("sun_phase", sun_phase)
     m_s, a_s, w_s = sun_parameters(sys_)
     epoch_s = None

@@ -214,7 +214,7 @@ def test_bad_model_values_are_named(kwargs, match):
 
 
 def test_bad_requests_are_refused():
-    with pytest.raises(InputError, match="set up for the earth-moon system; got 'sun-earth'"):
+    with pytest.raises(InputError, match="set up for the earth-moon system only; got 'sun-earth'"):
         bicircular_system("sun-earth")
     with pytest.raises(InputError, match="not both"):
         bicircular_system(sun_phase=1.0, epoch="2024-04-08T00:00:00Z")
@@ -225,3 +225,67 @@ def test_bad_requests_are_refused():
     with pytest.raises(InputError, match="BicircularSystem"):
         bicircular.propagate(EM, OUTER, 1.0)
     assert isinstance(BC, BicircularSystem) and BC.mu == EM.mu and BC.km(1.0) == EM.length_km
+
+
+# ---- librate propagate --model bicircular -------------------------------------------------
+
+def _cli(capsys, *argv):
+    from librate_cli.main import main
+    code = main(list(argv))
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def test_cli_propagates_in_the_bicircular_model(capsys, tmp_path):
+    """The command's numbers are the library's for the same model (the seam CLI -> library):
+    the phase given in degrees, the days turned into TU, the Hamiltonian reported."""
+    import json
+    from cr3bp import CAUTION
+    code, out, _ = _cli(capsys, "propagate", "--system", "earth-moon", "--state",
+                        ",".join(map(repr, OUTER.tolist())), "--time", "20d", "--model",
+                        "bicircular", "--sun-phase", "45deg", "--stm", "--format", "json", "-q")
+    assert code == 0
+    d = json.loads(out)
+    ref = bicircular.propagate(bicircular_system(sun_phase=math.radians(45.0)), OUTER,
+                               20.0 / EM.time_days, stm=True)
+    np.testing.assert_allclose(d["final_state"], ref.final_state, rtol=0, atol=1e-14)
+    np.testing.assert_allclose(d["stm"], ref.stm, rtol=1e-13, atol=1e-13)
+    assert d["model"] == "bicircular" and d["bicircular"]["sun_phase_deg"] == pytest.approx(45.0)
+    assert d["hamiltonian_final"] == pytest.approx(
+        bicircular.hamiltonian(ref.system, ref.t_final, ref.final_state), abs=1e-13)
+    assert "jacobi_final" not in d and d["caution"] == CAUTION
+    # the same state in the CR3BP ends far away (the option does reach the model)
+    code, out, _ = _cli(capsys, "propagate", "--system", "earth-moon", "--state",
+                        ",".join(map(repr, OUTER.tolist())), "--time", "20d", "--format", "json", "-q")
+    assert np.abs(np.array(json.loads(out)["final_state"]) - ref.final_state).max() > 1e-3
+
+
+def test_cli_takes_the_suns_phase_from_an_epoch(capsys):
+    import json
+    when = "2022-11-08T10:59:00Z"
+    code, out, _ = _cli(capsys, "propagate", "--system", "earth-moon", "--state",
+                        ",".join(map(repr, OUTER.tolist())), "--time", "1d", "--model",
+                        "bicircular", "--epoch", when, "--format", "json", "-q")
+    assert code == 0
+    assert json.loads(out)["bicircular"]["sun_phase_rad"] == pytest.approx(bicircular.sun_phase_at(when), abs=1e-12)
+    code, out, _ = _cli(capsys, "propagate", "--system", "earth-moon", "--state",
+                        ",".join(map(repr, OUTER.tolist())), "--time", "1d", "--model",
+                        "bicircular", "--epoch", when, "-q")
+    assert "model: bicircular" in out and "from the ephemeris at 2022-11-08T10:59:00" in out
+    assert "Hamiltonian" in out and "not conserved" in out
+
+
+@pytest.mark.parametrize("extra,message", [
+    (["--model", "bicircular", "--sun-phase", "45"], "--sun-phase '45' is not an angle with a unit"),
+    (["--sun-phase", "45deg"], "--sun-phase goes with --model bicircular"),
+    (["--model", "bicircular", "--sun-phase", "1rad", "--epoch", "2024-01-01"], "not both"),
+    (["--model", "fourbody"], "--model 'fourbody' is not known; allowed: cr3bp, bicircular"),
+    (["--model", "bicircular", "--sun-phase", "infdeg"], "must be finite"),
+])
+def test_cli_bad_model_options_exit_2(capsys, tmp_path, extra, message):
+    out_file = tmp_path / "t.csv"
+    code, _, err = _cli(capsys, "propagate", "--system", "earth-moon", "--state",
+                        ",".join(map(repr, OUTER.tolist())), "--time", "1d", *extra,
+                        "--out", str(out_file), "-q")
+    assert code == 2 and message in err and "Traceback" not in err
+    assert not out_file.exists()
