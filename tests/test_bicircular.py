@@ -179,8 +179,7 @@ def test_prebuilt_integrator_runs_the_bicircular_modes():
     """The ahead-of-time build holds the bicircular right-hand side: same results as numba's
     just-in-time kernels."""
     k = prebuilt.kernels()
-    if k is None:
-        pytest.skip("no current prebuilt kernels (make kernels)")
+    assert k is not None, "no current prebuilt kernels: run 'make kernels'"
     y42 = np.concatenate([OUTER, np.eye(6).ravel()])
     for mode, y0 in ((4, OUTER.copy()), (5, y42)):
         args = (mode, BC.params, y0, 0.3, 5.0, 1e-12, 1e-12, -1.0, np.inf, 10**6,
