@@ -142,9 +142,9 @@ def resolve_system(args):
 
 # ---- messages ------------------------------------------------------------------------
 
-def caution_footer() -> str:
+def caution_footer(model: str = "cr3bp") -> str:
     from cr3bp.cautions import caution_lines
-    return "\n" + "\n".join(caution_lines()) + "\n"
+    return "\n" + "\n".join(caution_lines(model=model)) + "\n"
 
 
 def progress(args, message: str, verbose_only=False):
@@ -332,10 +332,10 @@ def _cell(v):
     return str(v)
 
 
-def csv_text(headers, rows, comments=()) -> str:
+def csv_text(headers, rows, comments=(), model: str = "cr3bp") -> str:
     from cr3bp.cautions import caution_lines
     buf = io.StringIO()
-    for line in list(comments) + caution_lines():
+    for line in list(comments) + caution_lines(model=model):
         buf.write(f"# {line}\n" if not line.startswith("#") else line + "\n")
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(headers)
@@ -344,32 +344,33 @@ def csv_text(headers, rows, comments=()) -> str:
     return buf.getvalue()
 
 
-def json_text(payload: dict) -> str:
-    from cr3bp.cautions import CAUTION
+def json_text(payload: dict, model: str = "cr3bp") -> str:
+    from cr3bp.cautions import caution
     from cr3bp.plain import json_default
     body = dict(payload)
-    body.setdefault("caution", CAUTION)
+    body.setdefault("caution", caution(model))
     return json.dumps(body, indent=2, default=json_default) + "\n"
 
 
-def emit(args, *, payload: dict, headers=None, rows=None, table: str | None = None, comments=()):
+def emit(args, *, payload: dict, headers=None, rows=None, table: str | None = None, comments=(),
+         model: str = "cr3bp"):
     """Write the result in the chosen format, to --out (atomically) or to the screen.
 
-    ``table`` is the human text (the caution is appended); ``headers``/``rows`` feed CSV;
-    ``payload`` feeds JSON.
+    ``table`` is the human text (the caution for ``model`` is appended); ``headers``/``rows``
+    feed CSV; ``payload`` feeds JSON.
     """
     fmt = args.format
     if fmt == "json":
-        text = json_text(payload)
+        text = json_text(payload, model)
     elif fmt == "csv":
         if headers is None:
             from cr3bp.errors import InputError
             raise InputError("this command has no CSV form; use --format table or json")
-        text = csv_text(headers, rows, comments)
+        text = csv_text(headers, rows, comments, model)
     else:
         if table is None:
             table = format_table(headers, rows)
-        text = table + caution_footer()
+        text = table + caution_footer(model)
     if args.out:
         from cr3bp.atomic import write_text
         write_text(args.out, text)

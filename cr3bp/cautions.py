@@ -1,21 +1,35 @@
-"""The one caution every human-facing output carries (CLI footer, report, plot caption, file header)."""
+"""The one caution every human-facing output carries (CLI footer, report, plot caption, file header).
 
-CAUTION = (
-    "CAUTION: preliminary design in the circular restricted three-body model. "
-    "Verify every result in a high-fidelity model, and have it reviewed by qualified, "
-    "licensed mission analysts under the applicable agency and range-safety rules, "
-    "before any flight decision."
-)
+The caution names the model the numbers belong to: the circular restricted three-body model
+unless an output comes from another one (``model="bicircular"``)."""
 
-#: Short form for plot captions, where space is scarce. Same meaning, same words.
-CAUTION_SHORT = (
-    "Preliminary CR3BP design: verify in a high-fidelity model and have it reviewed by "
-    "qualified, licensed mission analysts under agency and range-safety rules before any flight decision."
-)
+#: model key -> (the model in the long caution, the model in the short caption)
+MODELS = {
+    "cr3bp": ("the circular restricted three-body model", "CR3BP"),
+    "bicircular": ("the bicircular restricted four-body model (Earth, Moon and Sun)", "bicircular-model"),
+}
 
 
-def caution_lines(prefix="", width=88):
+def caution(model: str = "cr3bp") -> str:
+    """The caution for results of ``model`` (a key of :data:`MODELS`)."""
+    return (f"CAUTION: preliminary design in {MODELS[model][0]}. "
+            "Verify every result in a high-fidelity model, and have it reviewed by qualified, "
+            "licensed mission analysts under the applicable agency and range-safety rules, "
+            "before any flight decision.")
+
+
+def caution_short(model: str = "cr3bp") -> str:
+    """Short form for plot captions, where space is scarce. Same meaning, same words."""
+    return (f"Preliminary {MODELS[model][1]} design: verify in a high-fidelity model and have it reviewed by "
+            "qualified, licensed mission analysts under agency and range-safety rules before any flight decision.")
+
+
+CAUTION = caution()
+CAUTION_SHORT = caution_short()
+
+
+def caution_lines(prefix="", width=88, model: str = "cr3bp"):
     """The caution wrapped to ``width`` columns, each line starting with ``prefix``."""
     import textwrap
 
-    return [prefix + line for line in textwrap.wrap(CAUTION, width - len(prefix))]
+    return [prefix + line for line in textwrap.wrap(caution(model), width - len(prefix))]

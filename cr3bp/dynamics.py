@@ -29,10 +29,12 @@ MODE_STATE = 0
 MODE_STM = 1
 MODE_EPHEMERIS = 2       # point-mass ephemeris model (cr3bp.fidelity.forces), 6 states
 MODE_EPHEMERIS_STM = 3   # the same with its variational equations, 42 states
+MODE_BICIRCULAR = 4      # bicircular Earth-Moon-Sun model (cr3bp.bicircular_kernels), 6 states
+MODE_BICIRCULAR_STM = 5  # the same with its variational equations, 42 states
 
 #: Kernels of :mod:`cr3bp.dynamics_kernels` reachable as attributes of this module.
 KERNEL_NAMES = ("omega", "grad_omega", "hessian_omega", "eom", "eom_stm", "rhs", "_jacobi_many",
-                "_ephemeris_forces")
+                "_ephemeris_forces", "_bicircular")
 
 
 def __getattr__(name):

@@ -13,6 +13,7 @@ from __future__ import annotations
 import numpy as np
 from numba import njit
 
+from . import bicircular_kernels as _bicircular
 from .fidelity import forces as _ephemeris_forces
 
 
@@ -128,15 +129,20 @@ def eom_stm(t, s, mu, out):
 def rhs(mode, t, s, params, out):
     """Dispatch on ``mode``: ``MODE_STATE`` (6) or ``MODE_STM`` (42), ``params[0]`` is mu;
     ``MODE_EPHEMERIS`` (6) or ``MODE_EPHEMERIS_STM`` (42), ``params`` packed as described in
-    :mod:`cr3bp.fidelity.forces`."""
+    :mod:`cr3bp.fidelity.forces`; ``MODE_BICIRCULAR`` (6) or ``MODE_BICIRCULAR_STM`` (42),
+    ``params`` packed as described in :mod:`cr3bp.bicircular_kernels`."""
     if mode == 1:
         eom_stm(t, s, params[0], out)
     elif mode == 0:
         eom(t, s, params[0], out)
     elif mode == 2:
         _ephemeris_forces.eom(t, s, params, out)
-    else:
+    elif mode == 3:
         _ephemeris_forces.eom_stm(t, s, params, out)
+    elif mode == 4:
+        _bicircular.eom(t, s, params, out)
+    else:
+        _bicircular.eom_stm(t, s, params, out)
 
 
 @njit(cache=True)

@@ -1,4 +1,5 @@
-"""librate propagate: integrate one state in the CR3BP and report where it goes."""
+"""librate propagate: integrate one state in the CR3BP (or the Earth-Moon-Sun bicircular model)
+and report where it goes."""
 
 from .. import common
 
@@ -36,6 +37,16 @@ def add_arguments(p):
                    help="output spacing, e.g. 1h (from the dense output); default: every "
                         "integration step")
     g.add_argument("--plot", metavar="FILE", help="save a figure of the trajectory (.png, .pdf, .svg)")
+    m = p.add_argument_group("model")
+    m.add_argument("--model", default="cr3bp", metavar="NAME",
+                   help="cr3bp (default) or bicircular: the Earth-Moon CR3BP with the Sun on a "
+                        "circle about the barycentre (earth-moon only)")
+    m.add_argument("--sun-phase", metavar="ANGLE",
+                   help="bicircular: the Sun's angle from the Earth-Moon line at the start, with "
+                        "a unit: 45deg or 0.785rad (0: new moon, 180deg: full moon; default 0)")
+    m.add_argument("--epoch", metavar="ISO",
+                   help="bicircular: the date of the start (ISO 8601, UTC unless it names its "
+                        "scale); the Sun's phase is taken from the ephemeris at that date")
     common.add_output_options(p)
 
 
@@ -59,6 +70,45 @@ def _parse_state(text, system, km):
         values = [v / system.length_km for v in values[:3]] + \
                  [v / system.velocity_kms for v in values[3:]]
     return values
+
+
+MODELS = ("cr3bp", "bicircular")
+
+
+def _angle_rad(text, name):
+    """'45deg' or '0.785rad' -> radians; a bare number is refused (which unit was meant?)."""
+    import math
+
+    from cr3bp.errors import InputError
+    t = str(text).strip().lower()
+    for unit, factor in (("deg", math.pi / 180.0), ("rad", 1.0)):
+        if t.endswith(unit):
+            try:
+                v = float(t[:-len(unit)])
+            except ValueError:
+                break
+            if not math.isfinite(v):
+                raise InputError(f"{name} {text!r} must be finite")
+            return v * factor
+    raise InputError(f"{name} {text!r} is not an angle with a unit; give e.g. 45deg or 0.785rad")
+
+
+def _model(args, system):
+    """None for the CR3BP, else the BicircularSystem the options ask for."""
+    from cr3bp.errors import InputError
+    name = str(args.model).strip().lower()
+    if name not in MODELS:
+        raise InputError(f"--model {args.model!r} is not known; allowed: {', '.join(MODELS)}")
+    if name == "cr3bp":
+        for opt, v in (("--sun-phase", args.sun_phase), ("--epoch", args.epoch)):
+            if v is not None:
+                raise InputError(f"{opt} goes with --model bicircular")
+        return None
+    from cr3bp.bicircular import bicircular_system
+    if args.sun_phase is not None and args.epoch is not None:
+        raise InputError("give --sun-phase or --epoch, not both")
+    phase = 0.0 if args.sun_phase is None else _angle_rad(args.sun_phase, "--sun-phase")
+    return bicircular_system(system, sun_phase=phase, epoch=args.epoch)
 
 
 def _output_times(args, system, t_final):
@@ -87,7 +137,7 @@ def run(args):
 
     import numpy as np
 
-    from cr3bp import propagate, validate
+    from cr3bp import bicircular, propagate, validate
     from cr3bp.dynamics import jacobi
     from cr3bp.errors import InputError
     from cr3bp.integrate import impact
@@ -105,25 +155,40 @@ def run(args):
                          f"{', '.join(PLOT_SUFFIXES)}")
     events = [impact(k, r, label=f"impact {name}")
               for k, (r, name) in enumerate(zip(system.radii, system.names)) if r > 0]
+    model = _model(args, system)
+    if model is None:
+        def run_model(*a, **k):
+            return propagate(system, *a, **k)
+
+        def energy(t, s):
+            return jacobi(system.mu, s)
+    else:
+        def run_model(*a, **k):
+            return bicircular.propagate(model, *a, **k)
+
+        def energy(t, s):
+            return bicircular.hamiltonian(model, t, s)
 
     common.progress(args, f"propagating for {t_final:.6g} TU...", verbose_only=True)
-    arc = propagate(system, state, t_final, stm=args.stm, rtol=rtol, atol=atol, events=events,
+    arc = run_model(state, t_final, stm=args.stm, rtol=rtol, atol=atol, events=events,
                     t_eval=t_eval)
 
     dim = system.dimensional
-    c0 = jacobi(system.mu, state)
-    c1 = jacobi(system.mu, arc.final_state)
+    c0 = energy(0.0, state)
+    c1 = energy(arc.t_final, arc.final_state)
     t_days = arc.t_final * system.time_days if dim else None
+    energy_key = "jacobi" if model is None else "hamiltonian"
     payload = {
         "system": system.name,
+        "model": "cr3bp" if model is None else "bicircular",
         "status": arc.status,
         "t_final": arc.t_final,
         "t_final_days": t_days,
         "initial_state": state.tolist(),
         "final_state": arc.final_state.tolist(),
-        "jacobi_initial": c0,
-        "jacobi_final": c1,
-        "jacobi_drift": c1 - c0,
+        f"{energy_key}_initial": c0,
+        f"{energy_key}_final": c1,
+        f"{energy_key}_{'drift' if model is None else 'change'}": c1 - c0,
         "events": [{"name": e.name, "t": e.t, "t_days": e.t * system.time_days if dim else None,
                     "state": e.state.tolist()} for e in arc.events],
         "steps": arc.nsteps,
@@ -131,16 +196,18 @@ def run(args):
         "rtol": rtol,
         "atol": atol,
     }
+    if model is not None:
+        payload["bicircular"] = {k: v for k, v in model.to_dict().items() if k != "system"}
     if dim:
         payload["final_state_km"] = _to_km(system, arc.final_state)
     if args.stm:
         payload["stm"] = arc.stm.tolist()
 
     # CSV: one row per output time
-    headers = ["t_tu", "t_days", "x_lu", "y_lu", "z_lu", "vx_vu", "vy_vu", "vz_vu", "jacobi"]
+    headers = ["t_tu", "t_days", "x_lu", "y_lu", "z_lu", "vx_vu", "vy_vu", "vz_vu", energy_key]
     if dim:
         headers += ["x_km", "y_km", "z_km", "vx_kms", "vy_kms", "vz_kms"]
-    cs = jacobi(system.mu, arc.states) if len(arc.t) else np.empty(0)
+    cs = energy(arc.t, arc.states) if len(arc.t) else np.empty(0)
     rows = []
     for k in range(len(arc.t)):
         s = arc.states[k]
@@ -150,9 +217,11 @@ def run(args):
             row += _to_km(system, s)
         rows.append(row)
 
-    table = _table(system, arc, state, c0, c1, t_days, args.stm)
+    table = _table(system, arc, state, c0, c1, t_days, args.stm, model)
     comments = [f"librate propagate: system {system.name}, status {arc.status}, "
                 f"t_final {arc.t_final!r} TU, rtol {rtol:g}, atol {atol:g}"]
+    if model is not None:
+        comments.append(_model_line(model))
     if args.plot:
         from cr3bp.plotting import save
         from cr3bp.plotting.trajectories import plot_views
@@ -160,14 +229,17 @@ def run(args):
         shown = arc.states
         if t_eval is None:  # draw the curve from the dense output, not the step points
             t_plot = np.linspace(0.0, arc.t_final, PLOT_POINTS)
-            shown = propagate(system, state, arc.t_final, rtol=rtol, atol=atol,
-                              t_eval=t_plot).states
-        fig = plot_views(shown, system,
-                         title=f"{system.name}: propagated {span} ({arc.status})")
+            shown = run_model(state, arc.t_final, rtol=rtol, atol=atol, t_eval=t_plot).states
+        where = system.name if model is None else f"{system.name} with the Sun (bicircular)"
+        fig = plot_views(shown, system, title=f"{where}: propagated {span} ({arc.status})")
+        drift = (f"Jacobi drift {c1 - c0:.2e}" if model is None else
+                 f"Sun phase {model.sun_phase_deg:.2f} deg at t = 0; H change {c1 - c0:.2e}")
         save(fig, args.plot, text=f"librate propagate; start {np.round(state, 6).tolist()}; "
-                                  f"rtol {rtol:g}, atol {atol:g}; Jacobi drift {c1 - c0:.2e}")
+                                  f"rtol {rtol:g}, atol {atol:g}; {drift}",
+             model="cr3bp" if model is None else "bicircular")
         common.progress(args, f"wrote {args.plot}")
-    common.emit(args, payload=payload, headers=headers, rows=rows, table=table, comments=comments)
+    common.emit(args, payload=payload, headers=headers, rows=rows, table=table, comments=comments,
+                model="cr3bp" if model is None else "bicircular")
     return 0
 
 
@@ -176,7 +248,16 @@ def _to_km(system, s):
            [float(v) * system.velocity_kms for v in s[3:6]]
 
 
-def _table(system, arc, state, c0, c1, t_days, stm):
+def _model_line(model):
+    line = (f"model: bicircular (Earth-Moon CR3BP with the Sun on a circle, Boudad, Howell & Davis "
+            f"2020); Sun phase at t = 0: {model.sun_phase_deg:.4f} deg")
+    if model.epoch_tdb_s is not None:
+        from cr3bp.frames import epoch_to_text
+        line += f" (from the ephemeris at {epoch_to_text(model.epoch_tdb_s, 'UTC')} UTC)"
+    return line
+
+
+def _table(system, arc, state, c0, c1, t_days, stm, model=None):
     dim = system.dimensional
     head = ["", *STATE_NAMES]
     rows = [["initial [LU, LU/TU]", *map(float, state)], ["final [LU, LU/TU]", *map(float, arc.final_state)]]
@@ -186,9 +267,14 @@ def _table(system, arc, state, c0, c1, t_days, stm):
     when = f"{arc.t_final:.12g} TU" + (f" = {t_days:.9g} days" if dim else "")
     text = common.format_table(head, rows, title=f"librate propagate: {system.name}, status "
                                                  f"{arc.status} at t = {when}")
+    if model is None:
+        energy = f"Jacobi constant: initial {c0:.15g}, final {c1:.15g}, drift {c1 - c0:.3e}"
+    else:
+        energy = (f"{_model_line(model)}\nHamiltonian H = 2U - v^2 - 2 m_s/a_s (not conserved: the "
+                  f"Sun moves): initial {c0:.15g}, final {c1:.15g}, change {c1 - c0:.3e}")
     lines = [
         "",
-        f"Jacobi constant: initial {c0:.15g}, final {c1:.15g}, drift {c1 - c0:.3e}",
+        energy,
         f"steps: {arc.nsteps} accepted, {arc.nfev} right-hand-side evaluations",
     ]
     if arc.events:

@@ -10,7 +10,7 @@ Minimization without Derivatives*, 1973, ch. 4, procedure ``zero``).
 Every function is ``numba.njit(cache=True)``. The right-hand side is
 :func:`cr3bp.dynamics_kernels.rhs` ``(mode, t, s, params, out)``; a new force model is a new
 ``mode`` there and nothing changes here (modes 0/1: the CR3BP; 2/3: the ephemeris model of
-:mod:`cr3bp.fidelity.forces` -- this line also renews numba's cache stamp of this module, which
+:mod:`cr3bp.fidelity.forces`; 4/5: the bicircular model of :mod:`cr3bp.bicircular_kernels` -- this line also renews numba's cache stamp of this module, which
 does not notice a change of ``rhs`` in another file). Arguments are always passed with the same types
 (int64 / float64 scalars, C-contiguous float64 arrays, one bool) so that each kernel has
 exactly one compiled specialisation.

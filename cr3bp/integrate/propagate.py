@@ -22,7 +22,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .. import validate
-from ..dynamics import MODE_STATE, MODE_STM
+from ..dynamics import MODE_BICIRCULAR, MODE_BICIRCULAR_STM, MODE_STATE, MODE_STM
 from ..errors import ConvergenceError, InputError
 from . import prebuilt
 from .arc import Arc, EventHit
@@ -33,6 +33,8 @@ from .status import DEFAULT_MAX_STEPS, STATUS_NAMES
 FAILED = ("max-steps", "stalled", "non-finite")
 _IDENTITY_FLAT = np.eye(6).ravel()
 _NO_TIMES = np.empty(0)
+#: (state mode, STM mode) pairs ``model=`` may name (models whose params[0] is mu).
+_MODEL_MODES = ((MODE_STATE, MODE_STM), (MODE_BICIRCULAR, MODE_BICIRCULAR_STM))
 
 
 @dataclass(frozen=True)
@@ -94,6 +96,20 @@ def _params(system) -> np.ndarray:
     return np.array([float(system.mu)], dtype=np.float64)
 
 
+def _model(system, model, stm):
+    """The integrator's mode and parameter vector: the CR3BP of ``system`` or ``model``."""
+    if model is None:
+        return (MODE_STM if stm else MODE_STATE), _params(system)
+    mode_state, mode_stm, params = model
+    if (mode_state, mode_stm) not in _MODEL_MODES:
+        raise InputError(f"model modes {mode_state}, {mode_stm}; allowed: "
+                         f"{', '.join(f'{a}, {b}' for a, b in _MODEL_MODES)}")
+    params = np.ascontiguousarray(params, dtype=np.float64)
+    if params.ndim != 1 or params.size == 0 or params[0] != system.mu:
+        raise InputError("model parameters must be a vector starting with the system's mu")
+    return int(mode_stm if stm else mode_state), params
+
+
 def _max_step(value) -> float:
     if value is None:
         return math.inf
@@ -147,7 +163,7 @@ def _failure_message(code, t, t0, t_final, nsteps, max_steps):
 
 def propagate(system, state, t_final, stm=False, rtol=1e-12, atol=1e-12, events=(),
               t_eval=None, *, t0=0.0, max_step=None, max_steps=DEFAULT_MAX_STEPS,
-              first_step=None) -> Arc:
+              first_step=None, model=None) -> Arc:
     """Propagate one state in the CR3BP of ``system``, optionally with its STM.
 
     Adaptive Dormand-Prince 8(5,3) with dense output (Hairer, Norsett & Wanner, *Solving
@@ -172,13 +188,20 @@ def propagate(system, state, t_final, stm=False, rtol=1e-12, atol=1e-12, events=
         Output times (monotone in the direction of integration, within [t0, t_final]),
         filled from the dense output. Without it the arc holds every accepted step.
     t0 : float
-        Initial time (the CR3BP is autonomous; it only shifts the time axis).
+        Initial time (the CR3BP is autonomous; it only shifts the time axis; a
+        time-dependent ``model`` reads it).
     max_step : float, optional
         Greatest step size in TU.
     max_steps : int
         Guard against runaway integrations: more steps raise ConvergenceError.
     first_step : float, optional
         Initial step size in TU (default: Hairer's automatic choice).
+    model : (mode, stm_mode, params), optional
+        Another right-hand side of the integrator (modes of
+        :func:`cr3bp.dynamics_kernels.rhs`, ``params[0]`` = mu of ``system``) with its
+        parameter vector; :func:`cr3bp.bicircular.propagate` passes the bicircular model's.
+        Default: the CR3BP of ``system``. ``system`` still checks the state and places the
+        primaries for the events.
 
     Returns
     -------
@@ -213,7 +236,7 @@ def propagate(system, state, t_final, stm=False, rtol=1e-12, atol=1e-12, events=
     mstep = _max_step(max_step)
     nmax = _max_steps(max_steps)
     h0 = -1.0 if first_step is None else abs(validate.finite_time("first_step", first_step))
-    mode = MODE_STM if stm else MODE_STATE
+    mode, params = _model(system, model, stm)
     if stm:
         y0 = np.empty(42)
         y0[:6] = s0
@@ -222,7 +245,7 @@ def propagate(system, state, t_final, stm=False, rtol=1e-12, atol=1e-12, events=
         y0 = s0.copy()
 
     (code, t_end, y_end, ts, ys, ev_t, ev_y, ev_k, _seen, eval_y, n_eval, nfev, nsteps,
-     _nrej) = integrator()(int(mode), _params(system), y0, float(t0), float(tf), float(rtol),
+     _nrej) = integrator()(int(mode), params, y0, float(t0), float(tf), float(rtol),
                            float(atol), float(h0), float(mstep), int(nmax), tab, -1, te,
                            bool(record))
     code = int(code)
@@ -257,7 +280,7 @@ def _t_eval(t_eval, t0, tf, direction) -> np.ndarray:
 
 def propagate_batch(system, states, t_final, rtol=1e-12, atol=1e-12, events=(), *, stm=False,
                     max_events=8, max_step=None, max_steps=DEFAULT_MAX_STEPS,
-                    on_failure="raise", t0=0.0) -> BatchResult:
+                    on_failure="raise", t0=0.0, model=None) -> BatchResult:
     """Propagate many states in parallel (``numba.prange`` inside compiled code).
 
     Same method as :func:`propagate` (Hairer et al. 1993, section II.5, code dop853), run on
@@ -278,6 +301,8 @@ def propagate_batch(system, states, t_final, rtol=1e-12, atol=1e-12, events=(), 
     on_failure : {"raise", "mark"}
         A trajectory that hits the step limit, stalls or goes non-finite raises
         ConvergenceError ("raise"), or is returned with that status ("mark").
+    model : (mode, stm_mode, params), optional
+        Another right-hand side, as for :func:`propagate`.
 
     Returns
     -------
@@ -309,7 +334,7 @@ def propagate_batch(system, states, t_final, rtol=1e-12, atol=1e-12, events=(), 
     _check_events_start(system, tab, s, "states")
     mstep = _max_step(max_step)
     nmax = _max_steps(max_steps)
-    mode = MODE_STM if stm else MODE_STATE
+    mode, params = _model(system, model, stm)
     if stm:
         y0s = np.hstack([s, np.tile(np.eye(6).ravel(), (n, 1))])
     else:
@@ -328,7 +353,7 @@ def propagate_batch(system, states, t_final, rtol=1e-12, atol=1e-12, events=(), 
     out_nfev = np.zeros(n, dtype=np.int64)
     out_nsteps = np.zeros(n, dtype=np.int64)
     from . import dop853
-    dop853.integrate_batch(int(mode), _params(system), y0s, float(t0), tf, float(rtol), float(atol),
+    dop853.integrate_batch(int(mode), params, y0s, float(t0), tf, float(rtol), float(atol),
                            float(mstep), int(nmax), tab, int(m), False, out_y, out_t, out_status,
                            out_nev, out_seen, ev_t, ev_y, ev_k, out_nfev, out_nsteps)
     failed = out_status < 0

@@ -225,9 +225,10 @@ def _fit_margins(fig):
         fig.subplots_adjust(right=max(right - over / slope, 0.3))
 
 
-def caption(fig, text=""):
-    """Bottom caption: the given text, then the caution (always, once per figure)."""
-    body = (text + "\n" if text else "") + CAUTION_SHORT
+def caption(fig, text="", model="cr3bp"):
+    """Bottom caption: the given text, then the caution for ``model`` (always, once per figure)."""
+    from ..cautions import caution_short
+    body = (text + "\n" if text else "") + caution_short(model)
     fig.text(0.5, 0.005, body, ha="center", va="bottom", fontsize=6.5, wrap=True, color="0.25",
              gid="caption")
     fig.subplots_adjust(bottom=max(0.16, fig.subplotpars.bottom))
@@ -235,9 +236,10 @@ def caption(fig, text=""):
     return fig
 
 
-def save(fig, path, text="", dpi=150):
-    """Caption ``fig`` with ``text`` and the caution, save it atomically to ``path``, close it."""
-    caption(fig, text)
+def save(fig, path, text="", dpi=150, model="cr3bp"):
+    """Caption ``fig`` with ``text`` and the caution for ``model``, save it atomically to
+    ``path``, close it."""
+    caption(fig, text, model)
     save_figure(fig, path, dpi=dpi)
     plt.close(fig)
     return path
