@@ -5,8 +5,7 @@ from .. import common
 NAME = "shadow"
 ORDER = 85
 KERNELS = (("cr3bp.integrate.dop853", "integrate"),)   # the orbit is sampled by propagation
-HELP = ("eclipse passes (Earth and Moon, umbra and penumbra), Earth angles and station visibility of a "
-        "periodic orbit placed at a date; choose the phase that avoids eclipses")
+HELP = "eclipses, Earth angles and station visibility of an orbit at a date; phasing to avoid eclipses"
 EXAMPLE = ('librate shadow --system earth-moon --orbit "halo L2 south resonance=9:2" '
            "--epoch 2031-03-01T00:00:00Z --span 365d --avoid-eclipses --plot timeline.png")
 
