@@ -145,3 +145,18 @@ def test_cli_bad_input(tmp_path, capsys, extra, words):
 def test_cli_bad_plot_folder(tmp_path, capsys):
     assert main(BASE + ["--plot", str(tmp_path / "no" / "t.png")]) == 2
     assert "does not exist" in capsys.readouterr().err
+
+
+def test_earth_angles_against_direct_geometry(placed):
+    _, pl = placed
+    sk = phasing.sky(pl, 5 * 86400.0, 3600.0)
+    ang = phasing.earth_angles(pl, sk, 45.0)
+    k = 37
+    r, s, m = ang["position_km"][k], sk.sun[k], sk.moon[k]
+    want = np.degrees(np.arctan2(np.linalg.norm(np.cross(r, s)), r @ s))
+    assert abs(ang["sun_earth_spacecraft_deg"][k] - want) < 1e-9
+    want = np.degrees(np.arctan2(np.linalg.norm(np.cross(r, m)), r @ m))
+    assert abs(ang["moon_earth_spacecraft_deg"][k] - want) < 1e-9
+    # an orbit about the Moon stays within about 10 deg of it seen from the Earth
+    assert ang["moon_earth_spacecraft_deg"].max() < 12.0
+    assert 3.2e5 < ang["range_km"].min() < ang["range_km"].max() < 4.6e5

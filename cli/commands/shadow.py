@@ -100,17 +100,6 @@ def run(args):
     return leap_second_notes(args, lambda: _run(args))
 
 
-def _angles(placed, sk, phase):
-    import numpy as np
-    r = placed.geocentric(sk.tdb_s, phase, basis=sk.basis)
-    rn = np.linalg.norm(r, axis=1)
-
-    def angle(v):
-        cosv = np.einsum("ij,ij->i", r, v) / (rn * np.linalg.norm(v, axis=1))
-        return np.degrees(np.arccos(np.clip(cosv, -1.0, 1.0)))
-    return r, rn, angle(sk.sun), angle(sk.moon)
-
-
 def _run(args):
     import numpy as np
     from cr3bp import export, frames
@@ -135,7 +124,9 @@ def _run(args):
     else:
         best = phasing.history(placed, sk, phase, bodies)
     phase = best.phase_deg
-    r, rn, sun_angle, moon_angle = _angles(placed, sk, phase)
+    ang = phasing.earth_angles(placed, sk, phase)
+    r, rn = ang["position_km"], ang["range_km"]
+    sun_angle, moon_angle = ang["sun_earth_spacecraft_deg"], ang["moon_earth_spacecraft_deg"]
     wins = []
     if stations:
         m = visibility._to_terrestrial(sk.tdb_s)

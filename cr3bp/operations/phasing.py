@@ -107,3 +107,16 @@ def scan(placed, sk: Sky, n_phases: int = 36, max_pass_min: float | None = None,
         over = max_pass_min is not None and h.longest_min() > max_pass_min
         return (over, round(h.total_min(), 6), round(h.longest_min(), 6), h.phase_deg)
     return sorted(hs, key=key)
+
+
+def earth_angles(placed, sk: Sky, phase_deg: float) -> dict:
+    """Along the orbit at ``phase_deg``: geocentric positions (km), range to the Earth (km),
+    Sun-Earth-spacecraft and Moon-Earth-spacecraft angles (deg), at the sky's epochs."""
+    r = placed.geocentric(sk.tdb_s, phase_deg, basis=sk.basis)
+    rn = np.linalg.norm(r, axis=1)
+
+    def angle(v):
+        cosv = np.einsum("ij,ij->i", r, v) / (rn * np.linalg.norm(v, axis=1))
+        return np.degrees(np.arccos(np.clip(cosv, -1.0, 1.0)))
+    return {"position_km": r, "range_km": rn, "sun_earth_spacecraft_deg": angle(sk.sun),
+            "moon_earth_spacecraft_deg": angle(sk.moon)}
