@@ -160,3 +160,26 @@ def test_earth_angles_against_direct_geometry(placed):
     # an orbit about the Moon stays within about 10 deg of it seen from the Earth
     assert ang["moon_earth_spacecraft_deg"].max() < 12.0
     assert 3.2e5 < ang["range_km"].min() < ang["range_km"].max() < 4.6e5
+
+
+@pytest.mark.parametrize("text, words", [
+    ("[stations.a]\nlatitude_deg = 95\nlongitude_deg = 0\n", "stations.a.latitude_deg = 95"),
+    ("[stations.a]\nlongitude_deg = 0\n", "stations.a needs latitude_deg"),
+    ("[stations.a]\nlatitude_deg = 1\nlongitude_deg = 0\nelev = 3\n", "unknown key 'elev'"),
+    ("[stations.a]\nlatitude_deg = 1\nlongitude_deg = 0\nmin_elevation_deg = true\n", "min_elevation_deg = True"),
+    ("stations = 3\n", "no [stations.NAME] tables"),
+    ("[stations.a\n", "not valid TOML"),
+])
+def test_station_file_errors(tmp_path, text, words):
+    from cr3bp.errors import InputError
+    f = tmp_path / "st.toml"
+    f.write_text(text)
+    with pytest.raises(InputError, match=None) as e:
+        visibility.read_stations(f)
+    assert words in str(e.value) and "\n" not in str(e.value)
+
+
+def test_example_station_file_reads():
+    from pathlib import Path
+    st = visibility.read_stations(Path(__file__).resolve().parents[1] / "examples" / "stations.toml")
+    assert [s.name for s in st] == ["north-hill", "south-plain", "west-coast"]

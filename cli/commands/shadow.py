@@ -129,7 +129,7 @@ def _run(args):
     sun_angle, moon_angle = ang["sun_earth_spacecraft_deg"], ang["moon_earth_spacecraft_deg"]
     wins = []
     if stations:
-        m = visibility._to_terrestrial(sk.tdb_s)
+        m = visibility.terrestrial_matrices(sk.tdb_s)
         for st in stations:
             wins += visibility.windows(sk.tdb_s, r, st, m)
 

@@ -132,7 +132,7 @@ def station_terrestrial_km(station: Station) -> np.ndarray:
                      (n * (1.0 - e2) + h) * math.sin(lat)])
 
 
-def _to_terrestrial(tdb_s):
+def terrestrial_matrices(tdb_s):
     """(N, 3, 3) matrices J2000 mean equator -> Earth-fixed (no nutation, no polar motion)."""
     from ..frames import _epoch
     ep = _epoch(np.atleast_1d(np.asarray(tdb_s, dtype=float)))
@@ -147,7 +147,7 @@ def _to_terrestrial(tdb_s):
 
 def look_angles(tdb_s, r_eq_km, station: Station, to_terrestrial=None):
     """Elevation (deg) and range (km) of geocentric J2000-equator positions from a station."""
-    m = _to_terrestrial(tdb_s) if to_terrestrial is None else to_terrestrial
+    m = terrestrial_matrices(tdb_s) if to_terrestrial is None else to_terrestrial
     r = np.einsum("nij,nj->ni", m, np.atleast_2d(np.asarray(r_eq_km, dtype=float)))
     st = station_terrestrial_km(station)
     lat, lon = math.radians(station.latitude_deg), math.radians(station.longitude_deg)
