@@ -1,0 +1,208 @@
+"""librate shadow: eclipses, Earth angles and ground-station visibility of an orbit at a date."""
+
+from .. import common
+
+NAME = "shadow"
+ORDER = 85
+KERNELS = (("cr3bp.integrate.dop853", "integrate"),)   # the orbit is sampled by propagation
+HELP = "eclipses, Earth angles and station visibility of an orbit at a date; phasing to avoid eclipses"
+EXAMPLE = ('librate shadow --system earth-moon --orbit "halo L2 south resonance=9:2" '
+           "--epoch 2031-03-01T00:00:00Z --span 365d --avoid-eclipses --plot timeline.png")
+
+MODEL = ("CR3BP periodic orbit placed at the epoch by the ephemeris-anchored rotating frame "
+         "(J2000 mean equator, Earth-centred); eclipse geometry from the project's ephemeris, "
+         "conical shadow model (Montenbruck & Gill 2000, sec. 3.4.2), geometric positions, spherical bodies")
+PLOT_SUFFIXES = (".png", ".svg", ".pdf")
+
+
+def add_arguments(p):
+    common.add_system_options(p)
+    g = p.add_argument_group("orbit and date")
+    g.add_argument("--orbit", metavar="SPEC", required=True,
+                   help='periodic-orbit request, e.g. "halo L2 south resonance=9:2"')
+    g.add_argument("--epoch", metavar="ISO", required=True,
+                   help="date of rotating time 0, ISO 8601 (Z = UTC, or a trailing TDB/TT/TAI/UTC)")
+    g.add_argument("--span", metavar="SPAN", default="365d", help="how long: a time (365d, 30d) or Nperiods "
+                                                                  "(default 365d)")
+    g.add_argument("--step", metavar="TIME", default="5min",
+                   help="search step, 10s..1h (default 5min); edges are refined, but a pass shorter "
+                        "than the step may be missed")
+    ph = g.add_mutually_exclusive_group()
+    ph.add_argument("--phase", metavar="ANGLE", help="phase of the orbit at the epoch: 120deg, 0.25rev "
+                                                     "(fraction of the period from its initial state; default 0)")
+    ph.add_argument("--avoid-eclipses", action="store_true",
+                    help="scan --phases phases over one period and keep the one with the least shadow time "
+                         "(meeting --max-eclipse first when given)")
+    g.add_argument("--phases", metavar="N", default="36", help="phases scanned by --avoid-eclipses, 1..720 "
+                                                               "(default 36)")
+    g.add_argument("--max-eclipse", metavar="TIME", help="with --avoid-eclipses: prefer phases whose longest "
+                                                         "shadow pass is at most this (e.g. 90min)")
+    g.add_argument("--bodies", metavar="LIST", default="earth,moon",
+                   help="occulting bodies counted: earth, moon or earth,moon (default earth,moon)")
+    g.add_argument("--stations", metavar="FILE",
+                   help="ground stations, TOML: [stations.NAME] latitude_deg, longitude_deg (east), "
+                        "min_elevation_deg (default 0), altitude_km (default 0)")
+    o = p.add_argument_group("output")
+    o.add_argument("--plot", metavar="FILE", help="timeline figure of the passes (.png, .svg or .pdf)")
+    common.add_output_options(p)
+
+
+def _folder_ok(option, path):
+    import os
+    from cr3bp.errors import InputError
+    d = os.path.dirname(os.path.abspath(path))
+    if not os.path.isdir(d):
+        raise InputError(f"{option} {path}: folder {d} does not exist")
+
+
+def _inputs(args):
+    """Every check of the user's values, before anything is computed or written."""
+    from cr3bp import units
+    from cr3bp.errors import InputError
+    from cr3bp.operations import eclipses, placement, visibility
+    sysm = common.resolve_system(args)
+    sysm.require_dimensional("eclipses at a date")
+    if sysm.name != "earth-moon":
+        raise InputError(f"--system {sysm.name}: eclipses and stations are computed for earth-moon only "
+                         "(the Earth and the Moon as occulting bodies)")
+    bodies = tuple(b.strip().lower() for b in args.bodies.split(",") if b.strip())
+    if not bodies or any(b not in eclipses.BODIES for b in bodies) or len(set(bodies)) != len(bodies):
+        raise InputError(f"--bodies '{args.bodies}': allowed earth, moon or earth,moon")
+    q = units.parse(args.step, "time")
+    step_s = q.nondim(sysm) * sysm.time_s if q.unit == "TU" else q.si()
+    if not 10.0 <= step_s <= 3600.0:
+        raise InputError(f"--step '{args.step}' is {step_s:g} s; allowed 10 s to 1 h")
+    phase = placement.parse_phase(args.phase) if args.phase is not None else 0.0
+    n_phases = common.whole_number("--phases", args.phases, 1, 720)
+    max_min = None
+    if args.max_eclipse is not None:
+        if not args.avoid_eclipses:
+            raise InputError("--max-eclipse goes with --avoid-eclipses")
+        q = units.parse(args.max_eclipse, "time")
+        max_s = q.nondim(sysm) * sysm.time_s if q.unit == "TU" else q.si()
+        if not max_s >= 0:
+            raise InputError(f"--max-eclipse '{args.max_eclipse}' must be zero or positive")
+        max_min = max_s / 60.0
+    stations = visibility.read_stations(args.stations) if args.stations else []
+    if args.plot:
+        if not args.plot.lower().endswith(PLOT_SUFFIXES):
+            raise InputError(f"--plot {args.plot!r} must end in {', '.join(PLOT_SUFFIXES)}")
+        _folder_ok("--plot", args.plot)
+    if args.out:
+        _folder_ok("--out", args.out)
+    from cr3bp import frames
+    epoch = frames.epoch_from_text(args.epoch)
+    return sysm, bodies, step_s, phase, n_phases, max_min, stations, epoch
+
+
+def run(args):
+    from .export import leap_second_notes
+    return leap_second_notes(args, lambda: _run(args))
+
+
+def _run(args):
+    import numpy as np
+    from cr3bp import export, frames
+    from cr3bp.operations import eclipses, phasing, placement, visibility
+    from cr3bp.orbits.request import solve_request
+
+    sysm, bodies, step_s, phase, n_phases, max_min, stations, epoch = _inputs(args)
+    common.progress(args, f"solving orbit request '{args.orbit}'...")
+    orbit = solve_request(sysm, args.orbit)
+    span_tu = export.parse_span(args.span, sysm, float(orbit.period))
+    span_s = span_tu * sysm.time_s
+    if span_s > 20 * 365.25 * 86400.0:
+        from cr3bp.errors import InputError
+        raise InputError(f"--span '{args.span}' is longer than 20 years")
+    placed = placement.place(sysm, orbit, epoch)
+    sk = phasing.sky(placed, span_s, step_s)
+    scan = []
+    if args.avoid_eclipses:
+        common.progress(args, f"scanning {n_phases} phases over one period...")
+        scan = phasing.scan(placed, sk, n_phases, max_min, bodies)
+        best = scan[0]
+    else:
+        best = phasing.history(placed, sk, phase, bodies)
+    phase = best.phase_deg
+    ang = phasing.earth_angles(placed, sk, phase)
+    r, rn = ang["position_km"], ang["range_km"]
+    sun_angle, moon_angle = ang["sun_earth_spacecraft_deg"], ang["moon_earth_spacecraft_deg"]
+    wins = []
+    if stations:
+        m = visibility.terrestrial_matrices(sk.tdb_s)
+        for st in stations:
+            wins += visibility.windows(sk.tdb_s, r, st, m)
+
+    year = 365.25 * 86400.0
+    tot = eclipses.totals(best.passes, span_s)
+    t0, t1 = frames.epoch_to_text(np.array([sk.tdb_s[0], sk.tdb_s[-1]]), "UTC", 3)
+    model = {"model": MODEL, "system": sysm.name, "orbit request": args.orbit,
+             "orbit": f"{orbit.family} {orbit.point} {orbit.branch}".strip(),
+             "period_days": float(orbit.period * sysm.time_days), "epoch_utc": t0 + "Z", "end_utc": t1 + "Z",
+             "span_days": span_s / 86400.0, "step_s": step_s, "bodies": list(bodies),
+             "phase_deg": phase, "phase_chosen_by": "scan" if scan else "given"}
+    angles = {"sun_earth_spacecraft_deg": {"min": float(sun_angle.min()), "max": float(sun_angle.max())},
+              "moon_earth_spacecraft_deg": {"min": float(moon_angle.min()), "max": float(moon_angle.max())},
+              "range_to_earth_km": {"min": float(rn.min()), "max": float(rn.max())}}
+    vis = []
+    for st in stations:
+        ws = [w for w in wins if w.station == st.name]
+        in_view = sum(w.duration_s for w in ws)
+        vis.append({"station": st.name, "windows": len(ws), "in_view_h": in_view / 3600.0,
+                    "in_view_fraction": in_view / span_s,
+                    "longest_window_h": max((w.duration_s for w in ws), default=0.0) / 3600.0,
+                    "min_elevation_deg": st.min_elevation_deg})
+    payload = {"model": model, "passes": [p.to_dict() for p in best.passes], "totals": tot,
+               "angles": angles, "stations": [s.to_dict() for s in stations], "visibility": vis,
+               "windows": [w.to_dict() for w in wins],
+               "phase_scan": [{"phase_deg": h.phase_deg, "shadow_total_min": h.total_min(),
+                               "longest_shadow_min": h.longest_min(),
+                               "umbra_total_min": h.total_min("umbra")} for h in scan]}
+    headers = ["body", "kind", "start_utc", "end_utc", "duration_min", "depth"]
+    rows = [[d["body"], d["kind"], d["start_utc"], d["end_utc"], round(d["duration_min"], 2),
+             round(d["depth"], 4)] for d in payload["passes"]]
+    label = "CR3BP orbit at the epoch, ephemeris eclipse geometry"
+    parts = ["librate shadow", "", f"model: {MODEL}", ""]
+    parts.append(common.format_table(["item", "value"], [
+        ["orbit", f"{model['orbit']} ({args.orbit})"], ["period (CR3BP)", f"{model['period_days']:.4f} d"],
+        ["from", model["epoch_utc"]], ["to", model["end_utc"]], ["search step", f"{step_s:g} s"],
+        ["phase at the epoch", f"{phase:g} deg ({'best of ' + str(n_phases) + ' scanned' if scan else 'given'})"],
+        ["Sun-Earth-spacecraft angle", f"{sun_angle.min():.1f} .. {sun_angle.max():.1f} deg"],
+        ["Moon-Earth-spacecraft angle", f"{moon_angle.min():.1f} .. {moon_angle.max():.1f} deg"],
+        ["range to the Earth", f"{rn.min():,.0f} .. {rn.max():,.0f} km"]]))
+    parts.append("")
+    parts.append(common.format_table(headers[:4] + ["duration [min]", "depth (least visible Sun)"], rows,
+                                     title=f"eclipse passes ({label}); a penumbra pass includes its umbra")
+                 if rows else "eclipse passes: none over the span\n")
+    parts.append("")
+    trows = [[k.split()[0], k.split()[1], v["passes"], round(v["total_min"], 1), round(v["per_year_min"], 1),
+              round(v["longest_min"], 1)] for k, v in tot.items() if k.split()[0] in bodies]
+    parts.append(common.format_table(["body", "kind", "passes", "total [min]", "per year [min]",
+                                      "longest [min]"], trows, title=f"totals ({label}; per year = x "
+                                                                      f"{year / span_s:.4g})"))
+    if scan:
+        parts.append("")
+        srows = [[h.phase_deg, round(h.total_min(), 1), round(h.longest_min(), 1), round(h.total_min("umbra"), 1),
+                  sum(1 for p in h.passes if p.kind == "penumbra")] for h in scan[:5]]
+        parts.append(common.format_table(["phase [deg]", "shadow total [min]", "longest [min]", "umbra total [min]",
+                                          "passes"], srows, title="best phases of the scan"
+                                         + (f" (longest pass at most {max_min:g} min first)" if max_min is not None
+                                            else "")))
+    if vis:
+        parts.append("")
+        parts.append(common.format_table(["station", "min el [deg]", "windows", "in view [h]", "in view [%]",
+                                          "longest [h]"],
+                                         [[v["station"], v["min_elevation_deg"], v["windows"],
+                                           round(v["in_view_h"], 1), round(100 * v["in_view_fraction"], 1),
+                                           round(v["longest_window_h"], 2)] for v in vis],
+                                         title="ground-station visibility (UT1 = UTC, no nutation: ~0.01 deg)"))
+    table = "\n".join(parts)
+    comments = [f"librate shadow: {MODEL}", f"orbit {args.orbit}; phase {phase:g} deg; epoch {t0}Z"]
+    if args.plot:
+        from cr3bp.plotting.eclipses import timeline
+        timeline(best, epoch, args.plot, title=f"{args.orbit} from {t0[:10]}, phase {phase:g} deg",
+                 text="CR3BP orbit placed at the epoch by the ephemeris-anchored frame; conical shadows of the Earth "
+                      "and the Moon from the project's ephemeris (Montenbruck & Gill 2000, sec. 3.4.2).")
+        common.progress(args, f"wrote {args.plot}")
+    common.emit(args, payload=payload, headers=headers, rows=rows, table=table, comments=comments)
+    return 0

@@ -1,0 +1,34 @@
+"""Eclipse timeline: shadow passes over the span, one row per body and kind."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .base import new_figure, save
+
+ROWS = (("earth", "umbra"), ("earth", "penumbra"), ("moon", "umbra"), ("moon", "penumbra"))
+COLOURS = {"umbra": "0.1", "penumbra": "tab:orange"}
+
+
+def timeline(history, epoch_tdb_s: float, path, title: str = "", text: str = ""):
+    """Draw the passes of ``history`` (days from the epoch, one row per body and kind); save to ``path``."""
+    rows = list(ROWS)
+    fig, ax = new_figure(size=(9.0, 4.6))
+    labels = []
+    for k, (body, kind) in enumerate(rows):
+        spans = [((p.start_tdb_s - epoch_tdb_s) / 86400.0, max(p.duration_s / 86400.0, 0.02))
+                 for p in history.passes if p.body == body and p.kind == kind]
+        if spans:
+            ax.broken_barh(spans, (k - 0.35, 0.7), color=COLOURS[kind])
+        tot = sum(p.duration_s for p in history.passes if p.body == body and p.kind == kind) / 60.0
+        labels.append(f"{body.capitalize()} {kind}\n{len(spans)} passes, {tot:.0f} min")
+    ax.set_yticks(np.arange(len(labels)))
+    ax.set_yticklabels(labels, fontsize=7)
+    ax.set_ylim(len(labels) - 0.5, -0.5)
+    span_d = (history.span_s) / 86400.0
+    ax.set_xlim(0.0, span_d)
+    ax.set_xlabel("days from the epoch (TDB)")
+    ax.grid(axis="x", color="0.85")
+    ax.set_title(title, fontsize=9)
+    fig.tight_layout()
+    return save(fig, path, text)
