@@ -173,6 +173,7 @@ BASE = {
     "convert": ["convert", "{in}/good.oem"],
     "refine": ["refine", EM, "--orbit=halo L2 south period=6.5626d", EPOCH, "--revs=1"],
     "torus": ["torus", EM, "--around=lyapunov L1 jacobi=3.17", "--amplitude=100km"],
+    "shadow": ["shadow", EM, "--orbit=lyapunov L1 jacobi=3.17", EPOCH, "--span=2d"],
 }
 #: the option each command writes its main output with (convert: the positional OUT)
 OUT_OPTION = {"route": "--out", "family": "--plot", "convert": ""}
@@ -250,6 +251,25 @@ def value_cases():
     add("torus-around-control-char", T[:2] + ["--around=lyapunov L1\njacobi=3.17"] + T[3:])
     add("torus-plot-suffix", T + ["--plot={out}/t.bmp"])
     add("torus-format", T + ["--format=xml"])
+    # shadow
+    SH = BASE["shadow"]
+    for v in ("-1d", "0d", "nand", "1e999d", "3km", "3"):
+        add(f"shadow-span-{v}", SH[:-1] + [f"--span={v}"])
+    for v in ("-5min", "0s", "1km"):
+        add(f"shadow-step-{v}", SH + [f"--step={v}"])
+    for v in ("nandeg", "1e999deg", "5km"):
+        add(f"shadow-phase-{v}", SH + [f"--phase={v}"])
+    for v in ("0", "-3", "2.5", "x"):
+        add(f"shadow-phases-{v}", SH + ["--avoid-eclipses", f"--phases={v}"])
+    add("shadow-phase-and-avoid", SH + ["--phase=10deg", "--avoid-eclipses"])
+    add("shadow-max-eclipse-negative", SH + ["--avoid-eclipses", "--max-eclipse=-5min"])
+    add("shadow-bodies-unknown", SH + ["--bodies=earth,mars"])
+    add("shadow-epoch-bad", SH[:3] + ["--epoch=2031-13-01T00:00:00Z", "--span=2d"])
+    add("shadow-epoch-beyond-tables", SH[:3] + ["--epoch=2200-01-01T00:00:00Z", "--span=2d"])
+    add("shadow-stations-missing", SH + ["--stations={in}/none.toml"])
+    add("shadow-stations-binary", SH + ["--stations={in}/binary.toml"])
+    add("shadow-no-ephemeris", ["shadow", "--system=jupiter-europa", "--orbit=lyapunov L1 jacobi=3.0", EPOCH])
+    add("shadow-plot-suffix", SH + ["--plot={out}/t.bmp"])
     # systems, points
     add("systems-format", ["systems", "--format=xml"])
     add("points-mu-nan", ["points", "--mu=nan"])
