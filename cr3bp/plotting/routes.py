@@ -124,7 +124,7 @@ def plot_pareto(routes, front=(), chosen=None, ax=None):
     if chosen is not None:
         ax.plot([chosen.tof_days], [chosen.dv_total_mps], "*", color="tab:red", ms=15, zorder=5,
                 label=f"chosen: {chosen.dv_total_mps:.1f} m/s, {chosen.tof_days:.2f} d")
-    ax.set_xlabel("time of flight [days]")
+    ax.set_xlabel("time of flight to the step-off point on the final orbit [days] (CR3BP)")
     ax.set_ylabel("total Δv [m/s] (sum over the legs, before stitching)")
     ax.set_title("Δv against time of flight of the routes found (CR3BP)", fontsize=9)
     ax.grid(alpha=0.3)
