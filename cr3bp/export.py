@@ -118,9 +118,9 @@ class Trajectory:
 
 # ---- sampling --------------------------------------------------------------------------------
 
-def parse_span(text, system, period_tu: float | None = None) -> float:
-    """``"3periods"``, ``"12d"``, ``"2.5TU"`` -> TU. ``periods`` needs ``period_tu``."""
-    from . import units
+def span_periods(text) -> float | None:
+    """The count of periods in a span such as ``"3periods"`` or ``"period"`` (one); None when
+    the span is a time instead. A count that is not a positive finite number is an InputError."""
     s = str(text).strip()
     low = s.lower()
     for suffix in ("periods", "period"):
@@ -129,12 +129,23 @@ def parse_span(text, system, period_tu: float | None = None) -> float:
             try:
                 k = float(num) if num else 1.0
             except ValueError:
-                raise InputError(f"span '{text}' is not '<number>periods'") from None
-            if period_tu is None:
-                raise InputError(f"span '{text}' counts periods, but this trajectory has no period; "
-                                 "give a time such as '12d', or the orbit's period (--period)")
-            value = k * period_tu
-            break
+                raise InputError(f"span '{shown(text)}' is not '<number>periods' or a time such as '20d'") from None
+            if not (math.isfinite(k) and k > 0):
+                raise InputError(f"span '{shown(text)}' is not allowed; a positive number of periods "
+                                 "(e.g. '3periods') or a positive time is needed")
+            return k
+    return None
+
+
+def parse_span(text, system, period_tu: float | None = None) -> float:
+    """``"3periods"``, ``"12d"``, ``"2.5TU"`` -> TU. ``periods`` needs ``period_tu``."""
+    s = str(text).strip()
+    k = span_periods(s)
+    if k is not None:
+        if period_tu is None:
+            raise InputError(f"span '{text}' counts periods, but this trajectory has no period; "
+                             "give a time such as '12d', or the orbit's period (--period)")
+        value = k * period_tu
     else:
         from .validate import quantity
         value = quantity("span", s, "time", system)

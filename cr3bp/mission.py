@@ -273,23 +273,13 @@ def _check_values(data, system, add):
 
 def _span(key, text, system, add):
     """A span in TU, ``True`` for a count of periods (checked once the period is known), or None."""
-    from .errors import shown
-    s = text.strip()
-    low = s.lower()
-    for suffix in ("periods", "period"):
-        if low.endswith(suffix):
-            num = s[: -len(suffix)].strip()
-            try:
-                k = float(num) if num else 1.0
-            except ValueError:
-                add(key, InputError(f"'{shown(text)}' is not '<number>periods' or a time such as '20d'"))
-                return None
-            import math
-            if not (math.isfinite(k) and k > 0):
-                add(key, InputError(f"'{shown(text)}' is not allowed; a positive number of periods "
-                                    "(e.g. '3periods') or a positive time is needed"))
-                return None
+    from .export import span_periods
+    try:
+        if span_periods(text) is not None:
             return True
+    except InputError as e:
+        add(key, e)
+        return None
     return _quantity(key, text, "time", "positive", system, add)
 
 
@@ -767,7 +757,6 @@ def _export(plan, ex, orbits, stitched, out, created):
 
 
 def _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progress) -> dict:
-    from .plotting import save
     from .plotting.orbits import plot_orbit
     figs = {}
     for name, orbit in orbits.items():
