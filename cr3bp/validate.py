@@ -208,7 +208,6 @@ NAME_MAX = 255
 
 
 def _same_path(a, b) -> bool:
-    import os
     from pathlib import Path
     pa, pb = Path(a), Path(b)
     try:
@@ -223,7 +222,6 @@ def output_file(name: str, path, inputs=()) -> str:
     """Check, before any work, that ``path`` can be written as a file: not empty, not a folder,
     not one of ``inputs`` (files the command reads), each name at most NAME_MAX bytes, and the
     nearest existing folder above it writable. Returns ``path`` as text."""
-    import os
     from pathlib import Path
     t = str(path)
     if not t.strip():
@@ -266,7 +264,6 @@ def output_folder(name: str, path, inputs=()) -> str:
 
 
 def _writable_folder(name, shown_path, folder):
-    import os
     from pathlib import Path
     d = Path(folder) if str(folder) else Path(".")
     while not d.exists():
