@@ -40,7 +40,8 @@ from . import units
 from .dynamics import jacobi as _jacobi, jacobian
 from .errors import InputError, NoSolutionError
 from .integrate import escape, impact, propagate, propagate_batch
-from .sections import Section, guard_events, parse_section, primary_index
+from .sections import (Section, batch, batch_features, bounded_max_events, guard_events,
+                       parse_section, primary_index)
 
 #: Step-off distances (km) by system name (common practice, see module docstring).
 STEP_OFF_KM = {"earth-moon": 40.0, "sun-earth": 200.0}
@@ -140,24 +141,6 @@ def _count(n):
     return n
 
 
-def batch_features() -> dict:
-    """Which optional features the installed ``propagate_batch`` offers (per-trajectory final
-    times with STMs, a larger event record, marking failed trajectories instead of raising)."""
-    import inspect
-    params = inspect.signature(propagate_batch).parameters
-    return {k: k in params for k in ("stm", "max_events", "on_failure")}
-
-
-def batch(system, states, t_final, events=(), max_events=8):
-    """``propagate_batch`` with the tube settings, using the optional features when present."""
-    kw = {}
-    feats = batch_features()
-    if feats["max_events"]:
-        kw["max_events"] = int(max_events)
-    if feats["on_failure"]:
-        kw["on_failure"] = "mark"
-    return propagate_batch(system, np.ascontiguousarray(states), t_final, rtol=RTOL, atol=ATOL,
-                           events=events, **kw)
 
 
 def carry(orbit, times, progress=None):
@@ -500,11 +483,6 @@ def grow_tube(orbit, stability: str, branch: str, n_points: int = 200, until=Non
                 float(orbit.period), modes.lambda_unstable, d, d_km, ts / orbit.period, ts, ostates,
                 w, starts, tof, ends, status, stop, spacing, orbit)
 
-
-def bounded_max_events(count: int) -> int:
-    """Events recorded per trajectory when a half-plane section's crossings are filtered
-    after the propagation (crossings outside the bound take room too)."""
-    return 16 * int(count) + 48
 
 
 def _globalise(system, starts, stop, sign, progress=None):

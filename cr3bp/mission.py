@@ -16,7 +16,6 @@ from __future__ import annotations
 
 import errno
 import hashlib
-import json
 import os
 import shutil
 import tempfile
@@ -30,6 +29,7 @@ from . import __version__, scenario_schema
 from .atomic import write_text
 from .cautions import CAUTION
 from .errors import InputError
+from .scenario.outputs import csv_text, json_text, save_figures, say
 from .scenario_schema import Problem, ScenarioError
 
 TARGET_KEYS = ("period", "jacobi", "ax", "ay", "az", "perilune", "perigee", "resonance")
@@ -400,23 +400,8 @@ def _sha256(path: Path) -> str:
     return h.hexdigest()
 
 
-def _json(obj) -> str:
-    from .plain import json_default
-    return json.dumps(obj, indent=2, sort_keys=True, default=json_default) + "\n"
 
 
-def _csv(headers, rows, comments=()) -> str:
-    import csv
-    import io
-    from .cautions import caution_lines
-    buf = io.StringIO()
-    for c in list(comments) + caution_lines():
-        buf.write(f"# {c}\n")
-    w = csv.writer(buf, lineterminator="\n")
-    w.writerow(headers)
-    for r in rows:
-        w.writerow([repr(float(v)) if isinstance(v, (float, np.floating)) else v for v in r])
-    return buf.getvalue()
 
 
 def creation_date(plan: Plan) -> str:
@@ -464,9 +449,6 @@ class RunResult:
                 "routes": self.routes, "files": [str(f) for f in self.files], "seconds": self.seconds}
 
 
-def _say(progress, text):
-    if progress is not None:
-        progress(text)
 
 
 def run(plan: Plan, folder, *, catalog=None, workers=None, scheduler=None, progress=None,
@@ -650,9 +632,9 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
     created = creation_date(plan)
     formats = plan.data.get("plots", {}).get("formats", ["png"])
     plots = plan.data.get("plots", {})
-    write_text(out.path("orbits.json"), _json({"system": system.to_dict(), "caution": CAUTION,
+    write_text(out.path("orbits.json"), json_text({"system": system.to_dict(), "caution": CAUTION,
                                                "orbits": {k: v.to_dict() for k, v in orbits.items()}}))
-    write_text(out.path("orbits.csv"), _csv(ORBIT_COLUMNS, [orbit_row(k, v) for k, v in orbits.items()],
+    write_text(out.path("orbits.csv"), csv_text(ORBIT_COLUMNS, [orbit_row(k, v) for k, v in orbits.items()],
                                             [f"librate {__version__}: orbits of scenario {plan.name}",
                                              "lengths km, times days, states nondimensional (rotating, barycentric)"]))
 
@@ -662,21 +644,22 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
     checks = {}
     for name, entry in plan.data["orbits"].items():
         if entry.get("checks"):
-            _say(progress, f"checks on '{name}'")
+            say(progress, f"checks on '{name}'")
             checks[name] = run_checks(orbits[name], entry["checks"], samples[name], epoch=plan.epoch)
     rows = [[name, c.name, c.required, c.actual, c.margin, c.unit, "pass" if c.passed else "FAIL"]
             for name, cs in checks.items() for c in cs]
-    write_text(out.path("checks.csv"), _csv(["orbit", "check", "required", "actual", "margin", "unit", "result"],
+    write_text(out.path("checks.csv"), csv_text(["orbit", "check", "required", "actual", "margin", "unit", "result"],
                                             rows, [f"librate {__version__}: constraint checks of {plan.name}"]))
-    write_text(out.path("checks.json"), _json({"caution": CAUTION, "checks": {
+    write_text(out.path("checks.json"), json_text({"caution": CAUTION, "checks": {
         k: [c.to_dict() for c in v] for k, v in checks.items()}}))
 
     # ---- transfers --------------------------------------------------------------------
     routes, stitched = {}, {}
     if plan.data.get("transfers"):
         from .mission_transfers import design_transfers
-        routes, stitched = design_transfers(plan, orbits, out, catalog=catalog, workers=workers,
-                                            scheduler=scheduler, progress=progress, reduced=reduced)
+        routes, stitched, transfer_figures = design_transfers(
+            plan, orbits, out, catalog=catalog, workers=workers, scheduler=scheduler,
+            progress=progress, reduced=reduced)
 
     # ---- exports ----------------------------------------------------------------------
     exports = []
@@ -686,10 +669,10 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
                         "frame": ex.get("frame", "j2000-equator"), "center": ex.get("center", "primary"),
                         "time_system": ex.get("time_system", "tdb").upper(),
                         "anchor": ex.get("anchor", "ephemeris"), "maneuvers": man})
-        _say(progress, f"export {path.name}")
+        say(progress, f"export {path.name}")
         from .export import dv_warning
         if dv_warning(man):
-            _say(progress, f"{path.name}: {dv_warning(man)}")
+            say(progress, f"{path.name}: {dv_warning(man)}")
     if routes:     # the route tables again, now with the exported Δv beside the design's
         from .mission_transfers import write_route_tables
         for name in routes:
@@ -698,7 +681,7 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
     # ---- figures ----------------------------------------------------------------------
     figures = _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progress)
     if plan.data.get("transfers"):
-        figures.update(design_transfers.figures)
+        figures.update(transfer_figures)
 
     # ---- report and manifest ----------------------------------------------------------
     from .mission_report import write_report
@@ -717,12 +700,12 @@ def solve_orbits(plan, catalog, progress=None) -> dict:
     lines = scenario_schema.line_index(scenario_schema.read_text(plan.path))
     orbits = {}
     for name, spec in plan.orbit_specs.items():
-        _say(progress, f"orbit '{name}': {spec.family} {spec.point} {spec.branch} {spec.key}={spec.value}")
+        say(progress, f"orbit '{name}': {spec.family} {spec.point} {spec.branch} {spec.key}={spec.value}")
         try:
             orbits[name] = solve_request(plan.system, spec, catalog=catalog, progress=None)
             note = places_note(orbits[name].to_dict())
             if note:
-                _say(progress, f"note: orbit '{name}': {note}")
+                say(progress, f"note: orbit '{name}': {note}")
         except NoSolutionError as e:
             key = f"orbits.{name}.{spec.key}"
             raise ScenarioError([Problem(str(plan.path), lines.get(key, lines.get(f"orbits.{name}", 1)),
@@ -770,9 +753,9 @@ def _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progr
     figs = {}
     for name, orbit in orbits.items():
         if plots.get("orbits", True):
-            _say(progress, f"figure: orbit '{name}'")
+            say(progress, f"figure: orbit '{name}'")
             fig = plot_orbit(orbit, samples[name])
-            figs[f"orbit-{name}"] = _save_all(fig, out, f"orbit-{name}", formats,
+            figs[f"orbit-{name}"] = save_figures(fig, out, f"orbit-{name}", formats,
                                               f"{plan.name}: orbit '{name}' over one period.")
         if plots.get("hill_regions", False):
             from .energy import hill_region
@@ -780,7 +763,7 @@ def _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progr
             region = hill_region(orbit.system, float(orbit.jacobi), resolution=201 if reduced else 601,
                                  view=default_view(orbit.system, orbit.point))
             ax = plot_hill_region(region)
-            figs[f"hill-{name}"] = _save_all(ax.figure, out, f"hill-region-{name}", formats,
+            figs[f"hill-{name}"] = save_figures(ax.figure, out, f"hill-region-{name}", formats,
                                              f"{plan.name}: Hill region at the Jacobi constant of '{name}'.")
         if plots.get("families", False):
             fam = catalog.load_family(orbit.system, orbit.family, orbit.point, orbit.branch)
@@ -794,24 +777,11 @@ def _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progr
                                    t_eval=np.linspace(0, members[k]["period"], 300)).states for k in pick]
                 fig = plot_family(orbit.system, trajs, [members[k]["jacobi"] for k in pick],
                                   title=f"{orbit.family} {orbit.point} {orbit.branch} family (catalogued members)")
-                figs[f"family-{name}"] = _save_all(fig, out, f"family-{name}", formats,
+                figs[f"family-{name}"] = save_figures(fig, out, f"family-{name}", formats,
                                                    f"{plan.name}: the family of '{name}'.")
     return figs
 
 
-def _save_all(fig, out, stem, formats, caption):
-    """Save ``fig`` in every format (SVG without a date, for reproducible files); the PNG path."""
-    import matplotlib.pyplot as plt
-    from .atomic import save_figure
-    from .plotting.base import caption as add_caption
-    add_caption(fig, caption)
-    first = None
-    for f in formats:
-        p = out.path(f"{stem}.{f}")
-        save_figure(fig, p, dpi=130, metadata={"Date": None} if f == "svg" else None)
-        first = first or p
-    plt.close(fig)
-    return {"path": first, "caption": caption}
 
 
 def _manifest(plan, out, seconds) -> Path:
@@ -830,5 +800,5 @@ def _manifest(plan, out, seconds) -> Path:
         "caution": CAUTION,
     }
     path = out.folder / "manifest.json"
-    write_text(path, _json(manifest))
+    write_text(path, json_text(manifest))
     return path

@@ -54,6 +54,37 @@ KINDS = ("plane", "sphere", "apsis")
 MAP_COORDS = tuple(COORDS) + ("t", "tof_days", "altitude_km", "radius", "r", "jacobi")
 
 
+#: Tolerances of the tube propagations (manifolds and section crossings in one batch).
+BATCH_RTOL = 1e-12
+BATCH_ATOL = 1e-12
+
+
+def batch_features() -> dict:
+    """Which optional features the installed ``propagate_batch`` offers (per-trajectory final
+    times with STMs, a larger event record, marking failed trajectories instead of raising)."""
+    import inspect
+    params = inspect.signature(propagate_batch).parameters
+    return {k: k in params for k in ("stm", "max_events", "on_failure")}
+
+
+def batch(system, states, t_final, events=(), max_events=8):
+    """``propagate_batch`` with the tube settings, using the optional features when present."""
+    kw = {}
+    feats = batch_features()
+    if feats["max_events"]:
+        kw["max_events"] = int(max_events)
+    if feats["on_failure"]:
+        kw["on_failure"] = "mark"
+    return propagate_batch(system, np.ascontiguousarray(states), t_final, rtol=BATCH_RTOL,
+                           atol=BATCH_ATOL, events=events, **kw)
+
+
+def bounded_max_events(count: int) -> int:
+    """Events recorded per trajectory when a half-plane section's crossings are filtered
+    after the propagation (crossings outside the bound take room too)."""
+    return 16 * int(count) + 48
+
+
 @dataclass(frozen=True)
 class Section:
     """A Poincaré section. Build with :func:`parse_section`, :func:`hyperplane`, :func:`sphere`
@@ -475,7 +506,6 @@ def crossings(system, states, section: Section, t_max: float, count: int = 1, *,
     bounded = section.bounded
     ev = section.event(system, sign, terminal=not bounded, count=1 if bounded else count)
     events = [ev] + guard_events(system) + list(extra_events)
-    from .manifolds import batch, bounded_max_events
     res = batch(system, states, float(t_max), events,
                 max_events=bounded_max_events(count) if bounded else count + 8)
     rows, ts, traj, cnt = [], [], [], []
