@@ -1,7 +1,7 @@
 """Hand-off files: CCSDS OEM (KVN), CSV and JSON writers and readers of epoch-anchored states.
 
 A :class:`Trajectory` holds rotating-frame CR3BP segments (nondimensional), the
-:class:`~cr3bp.frames.FrameSpec` that anchors them, the time system of the output and the
+:class:`~cr3bp.time.frames.FrameSpec` that anchors them, the time system of the output and the
 impulsive maneuvers between segments. Writers put it in km and km/s on the frame's axes,
 centred on the frame's centre, with epochs on the chosen time system; readers give the
 states back, and :func:`to_rotating` returns them to nondimensional rotating states.
@@ -40,7 +40,7 @@ from pathlib import Path
 
 import numpy as np
 
-from . import frames as _frames
+from .time import frames as _frames
 from .atomic import writing
 from .cautions import CAUTION, caution_lines
 from .errors import InputError, shown
@@ -364,7 +364,7 @@ def _jump_states(traj: Trajectory, m: Maneuver):
 def maneuver_table(traj: Trajectory) -> list[dict]:
     """The maneuvers as written: per maneuver ``epoch`` (text on the trajectory's time system),
     ``tdb_s``, ``dv_kms`` (the velocity jump of the exported trajectory at that epoch, on the
-    export axes: state after minus state before, both through :func:`cr3bp.frames.to_frame`),
+    export axes: state after minus state before, both through :func:`cr3bp.time.frames.to_frame`),
     ``dv_exported_mps`` (its magnitude), ``dv_design_mps`` (the design model's, the CR3BP),
     ``dv_change_percent`` and ``label``.
 
@@ -453,13 +453,13 @@ def _model_lines(traj: Trajectory) -> list[str]:
                          "differ from the CR3BP design's by that factor")
     if spec.center in ("earth", "moon"):
         lines.append(f"Centre: the {spec.center} placed in the {sysm.names[1]} barycentre by the ephemeris "
-                     "(cr3bp.ephemeris); the CR3BP places only the barycentre")
+                     "(cr3bp.time.ephemeris); the CR3BP places only the barycentre")
     lines.append(f"Epoch of rotating time 0: {spec.to_dict()['epoch_tdb']} TDB; centre {spec.center_name}")
     if spec.axes == "j2000-ecliptic":
         lines.append("REF_FRAME J2000_ECLIPTIC: mean ecliptic and equinox of J2000, EME2000 rotated "
                      "about x by the IAU 2006 obliquity 84381.406 arcsec (not a registry value)")
     if _frames.time_system(traj.time_system) == "UTC":
-        from .timescales import leap_second_table, mjd_to_iso_date
+        from .time.scales import leap_second_table, mjd_to_iso_date
         table = leap_second_table()
         lines.append(f"UTC epochs: leap-second table valid until {mjd_to_iso_date(table.valid_until_mjd)}, "
                      f"TAI-UTC = {table.tai_minus_utc_s[-1]:g} s assumed after it; a leap second announced "

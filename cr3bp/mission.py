@@ -78,7 +78,7 @@ def prepare(path) -> Plan:
     (system, epoch, orbit requests, references between sections). Raises ScenarioError listing
     every problem; nothing is computed or written."""
     from . import system as make_system
-    from .timescales import parse_iso
+    from .time.scales import parse_iso
     path = Path(path)
     file = scenario_schema.path_text(path)
     text = scenario_schema.read_text(path)
@@ -200,7 +200,7 @@ def _quantity(key, text, dimension, rule, system, add):
 def _check_values(data, system, add):
     """The meaning of each value: signs, ranges, units of each key; parking orbits, caps and
     export options as the run will read them. Every problem goes to ``add``."""
-    from . import frames
+    from .time import frames
     from .errors import shown
     for name, entry in data["orbits"].items():
         for k, v in entry.items():
@@ -714,7 +714,8 @@ def solve_orbits(plan, catalog, progress=None) -> dict:
 
 
 def _export(plan, ex, orbits, stitched, out, created):
-    from . import export, frames, units
+    from . import export, units
+    from .time import frames
     system = plan.system
     fmt = ex["format"]
     suffix = {"oem": "oem", "csv": "csv", "json": "json"}[fmt]

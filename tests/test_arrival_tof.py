@@ -23,7 +23,7 @@ from cr3bp.connections import connect, parking_legs
 from cr3bp.orbits.request import solve_request
 from librate_cli.main import main
 
-pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.timescales.LeapSecondsExpiredWarning")
+pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.time.scales.LeapSecondsExpiredWarning")
 
 SE = system("sun-earth")
 EM = system("earth-moon")

@@ -810,7 +810,8 @@ def test_svg_figures_are_byte_identical(capsys, tmp_path):
 def test_oem_writer_refuses_a_bad_creation_date_and_control_characters(tmp_path):
     import numpy as np
 
-    from cr3bp import export, frames, system
+    from cr3bp import export, system
+    from cr3bp.time import frames
     from cr3bp.errors import InputError
     from cr3bp.export import write
     s = system("earth-moon")

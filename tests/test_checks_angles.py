@@ -15,18 +15,18 @@ from _independent_cr3bp import propagate as reference_propagate
 
 from cr3bp import system
 from cr3bp.checks import angle_at_earth_deg, run_checks
-from cr3bp.frames import epoch_from_text
+from cr3bp.time.frames import epoch_from_text
 from cr3bp.orbits.request import solve_request
 
 erfa = pytest.importorskip("erfa")
 pytestmark = [pytest.mark.filterwarnings("ignore::erfa.ErfaWarning"),
-              pytest.mark.filterwarnings("ignore::cr3bp.timescales.LeapSecondsExpiredWarning")]
+              pytest.mark.filterwarnings("ignore::cr3bp.time.scales.LeapSecondsExpiredWarning")]
 
 EPOCH = "2031-03-01T00:00:00Z"
 SE = system("sun-earth")
 EM = system("earth-moon")
 #: The library's ephemeris differs from pyerfa by up to 30 arcsec in the Sun-Earth direction
-#: and 1.3 arcsec in the Moon's (cr3bp.ephemeris.ACCURACY); the EME2000 axes differ from pyerfa's
+#: and 1.3 arcsec in the Moon's (cr3bp.time.ephemeris.ACCURACY); the EME2000 axes differ from pyerfa's
 #: GCRS/BCRS axes by 23 mas (frame bias). 0.02 degree = 72 arcsec covers both.
 DIRECTION_TOL_DEG = 0.02
 N = 400

@@ -88,7 +88,7 @@ def run(args):
         raise InputError("--epoch sets the time of route.oem; give --out DIR too")
     frame_spec = None
     if args.epoch is not None:
-        from cr3bp.frames import frame
+        from cr3bp.time.frames import frame
         frame_spec = frame(system, args.epoch, axes=args.frame)       # checked before any work
     k = common.whole_number("--best", args.best, 1, 1000)
     from cr3bp.nodes import load_nodes

@@ -1,7 +1,7 @@
 """The ephemeris force model at an epoch: bodies fitted by Chebyshev series, packed for the
 compiled integrator, and propagation in it (state and state + STM).
 
-Body positions are JPL DE421 (:mod:`cr3bp.ephemeris`), sampled once at the Chebyshev nodes of
+Body positions are JPL DE421 (:mod:`cr3bp.time.ephemeris`), sampled once at the Chebyshev nodes of
 one-day segments and refitted relative to the central body, so the compiled right-hand side
 evaluates one short series per body and step: within 1 cm of DE421 over a year for every body
 (rounding of positions up to 5e9 km; tests/test_fidelity.py asserts 5 cm).
@@ -18,7 +18,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .. import ephemeris
+from ..time import ephemeris
 from ..errors import ConvergenceError, InputError
 from ..integrate import dop853
 from . import chebyshev
@@ -81,7 +81,7 @@ class Model:
     srp : (area_to_mass_m2_kg, cr) or None
     t0, t1 : float            span of the series, TU from the epoch
     params : ndarray          parameter vector for the compiled kernels
-    ephemeris : str           where the body positions come from (:func:`cr3bp.ephemeris.describe`)
+    ephemeris : str           where the body positions come from (:func:`cr3bp.time.ephemeris.describe`)
     """
 
     system: object
@@ -125,7 +125,7 @@ class Model:
 
 
 def _epochs(epoch_tdb_s, seconds):
-    from ..frames import _epoch
+    from ..time.frames import _epoch
     return _epoch(epoch_tdb_s + np.asarray(seconds, dtype=float))
 
 
@@ -135,7 +135,7 @@ def build(system, epoch_tdb_s: float, t0_tu: float, t1_tu: float, central: str, 
     """Fit the bodies over ``[t0_tu, t1_tu]`` (TU from the epoch) and pack the model.
 
     Chebyshev interpolation on equal segments (Press et al., *Numerical Recipes*, 3rd ed., 2007,
-    section 5.8) of :func:`cr3bp.ephemeris.position` relative to the central body.
+    section 5.8) of :func:`cr3bp.time.ephemeris.position` relative to the central body.
 
     Parameters
     ----------

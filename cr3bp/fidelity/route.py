@@ -4,7 +4,7 @@ The route (a :class:`cr3bp.stitch.StitchedRoute`, or its ``trajectory.csv`` and 
 is cut at its interior maneuvers into maneuver-free arcs. Each arc gets patch points (at least
 ``min_patches`` segments, one more for every ``patch_days`` of flight), taken from the route's
 own samples, converted to km, km/s about the central body on J2000 equator axes with the
-instantaneous ephemeris anchoring of :mod:`cr3bp.frames` (as :mod:`.transition` does).
+instantaneous ephemeris anchoring of :mod:`cr3bp.time.frames` (as :mod:`.transition` does).
 
 Unknowns: every patch state (inertial, nondimensional); an arc's last state is the state just
 before its maneuver, the next arc's first state the state just after. The start and end
@@ -304,7 +304,7 @@ def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", 
     InputError        bad route, maneuvers not on the route, bad model options.
     ConvergenceError  step 1 or the final polish does not reach ``tol``.
     """
-    from .. import frames
+    from ..time import frames
     system.require_dimensional("an ephemeris model")
     t, s, man = _check_route(system, times_tu, states, maneuvers)
     if not (math.isfinite(float(patch_days)) and float(patch_days) > 0):

@@ -37,7 +37,7 @@ from functools import lru_cache
 
 import numpy as np
 
-from .errors import LibrateError
+from ..errors import LibrateError
 
 #: The kernel as shipped by the data package, and the SHA-256 of the copy this code was
 #: checked on (skyfield-data 7.0.0; tests/test_against_jplephem.py asserts it).
@@ -188,7 +188,7 @@ def read_kernel(path: str) -> Kernel:
 
 def seconds_parts(jd1, jd2):
     """TDB Julian date in two parts -> (whole, fraction) seconds past J2000 (``whole`` exact
-    when jd1 is a whole or half day, as :class:`cr3bp.timescales.Epoch` gives it)."""
+    when jd1 is a whole or half day, as :class:`cr3bp.time.scales.Epoch` gives it)."""
     return (np.asarray(jd1, float) - J2000_JD) * SECONDS_PER_DAY, np.asarray(jd2, float) * SECONDS_PER_DAY
 
 

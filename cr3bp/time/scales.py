@@ -40,7 +40,7 @@ from importlib import resources
 
 import numpy as np
 
-from .errors import InputError
+from ..errors import InputError
 
 __all__ = [
     "SCALES", "Epoch", "LeapSecondsExpiredWarning", "leap_second_table", "tai_minus_utc",
