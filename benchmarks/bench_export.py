@@ -18,7 +18,8 @@ N_STATES = 100_000
 
 
 def _trajectory():
-    from cr3bp import export, system
+    from cr3bp.io import export
+    from cr3bp import system
     from cr3bp.time import frames
     em = system("earth-moon")
     spec = frames.frame(em, "2031-03-01T00:00:00Z", anchor="ephemeris")
@@ -32,7 +33,7 @@ def _trajectory():
 
 def _naive(path, traj):
     """Per-line baseline: the same header, then one datetime and one f-string per state."""
-    from cr3bp import export
+    from cr3bp.io import export
     from cr3bp.time import frames
     head = export.oem_text(export.Trajectory(traj.frame, (export.Segment(traj.segments[0].t_tu[:8],
                                                                          traj.segments[0].states[:8]),),
@@ -64,7 +65,7 @@ def _naive_lines(labels, st):
 
 
 def run():
-    from cr3bp import export
+    from cr3bp.io import export
     traj = _trajectory()
     with tempfile.TemporaryDirectory() as d:
         ours = Path(d) / "ours.oem"

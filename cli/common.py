@@ -344,7 +344,7 @@ def csv_text(headers, rows, comments=()) -> str:
 
 def json_text(payload: dict) -> str:
     from cr3bp.cautions import CAUTION
-    from cr3bp.plain import json_default
+    from cr3bp.io.plain import json_default
     body = dict(payload)
     body.setdefault("caution", CAUTION)
     return json.dumps(body, indent=2, default=json_default) + "\n"
@@ -369,7 +369,7 @@ def emit(args, *, payload: dict, headers=None, rows=None, table: str | None = No
             table = format_table(headers, rows)
         text = table + caution_footer()
     if args.out:
-        from cr3bp.atomic import write_text
+        from cr3bp.io.atomic import write_text
         write_text(args.out, text)
         progress(args, f"wrote {args.out}")
     else:

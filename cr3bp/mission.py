@@ -26,7 +26,7 @@ from pathlib import Path
 import numpy as np
 
 from . import __version__, scenario_schema
-from .atomic import write_text
+from .io.atomic import write_text
 from .cautions import CAUTION
 from .errors import InputError
 from .scenario.outputs import csv_text, json_text, save_figures, say
@@ -295,7 +295,7 @@ def _span(key, text, system, add):
 
 
 def _samples(key, span_tu, step_tu, ex, add):
-    from .export import MAX_SAMPLES
+    from .io.export import MAX_SAMPLES
     from .errors import shown
     if step_tu > span_tu * (1 + 1e-12):
         add(f"{key}.step", InputError(f"'{shown(ex.get('step', '10min'))}' is longer than the span "
@@ -614,7 +614,8 @@ def check_spans(plan, orbits) -> None:
     system = plan.system
     for i, ex in enumerate(plan.data.get("exports", [])):
         if ex["object"] in orbits and str(ex.get("span", "")).strip().lower().endswith(("period", "periods")):
-            from . import export, units
+            from .io import export
+            from . import units
             try:
                 span = export.parse_span(ex["span"], system, float(orbits[ex["object"]].period))
                 step = units.time(ex.get("step", "10min"), system)
@@ -670,7 +671,7 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
                         "time_system": ex.get("time_system", "tdb").upper(),
                         "anchor": ex.get("anchor", "ephemeris"), "maneuvers": man})
         say(progress, f"export {path.name}")
-        from .export import dv_warning
+        from .io.export import dv_warning
         if dv_warning(man):
             say(progress, f"{path.name}: {dv_warning(man)}")
     if routes:     # the route tables again, now with the exported Δv beside the design's
@@ -714,7 +715,8 @@ def solve_orbits(plan, catalog, progress=None) -> dict:
 
 
 def _export(plan, ex, orbits, stitched, out, created):
-    from . import export, units
+    from .io import export
+    from . import units
     from .time import frames
     system = plan.system
     fmt = ex["format"]

@@ -61,7 +61,7 @@ def design_transfers(plan, orbits, out, *, catalog=None, workers=None, scheduler
     the :class:`cr3bp.stitch.StitchedRoute`; the figures written (name -> path and caption).
     """
     from . import units
-    from .atomic import write_text
+    from .io.atomic import write_text
     from .graph_build import build_graph
     from .network import Constraints, best_routes, pareto_routes
     from .nodes import find_node, parse_nodes
@@ -127,11 +127,11 @@ DV_DESIGN_NOTE = "the CR3BP design, rotating frame, fixed units (the route's dv_
 def write_route_tables(plan, name, summary, out, exported=()):
     """``route-NAME.json`` and ``route-NAME-maneuvers.csv``: the stitched route's maneuvers with
     their design (CR3BP) Δv and, per export of this transfer (``exported``: dicts with ``file``
-    and ``maneuvers``, the rows of :func:`cr3bp.export.maneuver_table`), the Δv measured on the
+    and ``maneuvers``, the rows of :func:`cr3bp.io.export.maneuver_table`), the Δv measured on the
     exported trajectory, side by side and labelled, with a warning line where they differ by
     more than 1 %. Written after the design and again once the exports exist."""
-    from .atomic import write_text
-    from .export import dv_differs
+    from .io.atomic import write_text
+    from .io.export import dv_differs
     label = summary.get("labels", {})
     mans = [dict(m, dv_design_mps=m["dv_mps"]) for m in summary["maneuvers"]]
     models = {"dv_design_mps": DV_DESIGN_NOTE}
@@ -198,7 +198,7 @@ def route_orbits(transfer: dict, orbits: dict) -> list:
 
 def transfer_trajectory(plan, st, spec, ts, step_s, ex, model):
     """The stitched transfer sampled on the export's clock, with its maneuvers."""
-    from . import export
+    from .io import export
     from .stitch import to_export
     base = to_export(st, spec, ex["object"].upper())
     span = float(st.times_tu[-1] - st.times_tu[0])

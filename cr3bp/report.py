@@ -13,7 +13,7 @@ import html
 import math
 from pathlib import Path
 
-from .atomic import write_text
+from .io.atomic import write_text
 from .cautions import CAUTION
 
 ASSUMPTIONS = (

@@ -530,10 +530,10 @@ def trajectory_rows(result: StitchedRoute):
 
 
 def to_export(result: StitchedRoute, frame_spec, object_name="LIBRATE ROUTE"):
-    """The stitched route as a :class:`cr3bp.export.Trajectory` (maneuver-free segments
+    """The stitched route as a :class:`cr3bp.io.export.Trajectory` (maneuver-free segments
     joined at the maneuvers, impulses in the rotating frame nondimensional), ready for
     ``export.write_oem`` / ``write_csv`` / ``write_json``."""
-    from . import export
+    from .io import export
     s = result.system
     man_t = [m["t_days"] / s.time_days for m in result.maneuvers]
     inner = man_t[1:-1] if len(man_t) >= 2 else []

@@ -16,7 +16,7 @@ from astropy.time import Time  # noqa: E402  (installed with oem)
 
 from cr3bp.time import frames  # noqa: E402
 from cr3bp import propagate, system  # noqa: E402
-from cr3bp import export  # noqa: E402
+from cr3bp.io import export  # noqa: E402
 
 ONE_MM_KM = 1e-6
 ONE_UM_S_KMS = 1e-9

@@ -8,7 +8,8 @@ import sys
 import numpy as np
 import pytest
 
-from cr3bp import export, propagate, system
+from cr3bp.io import export
+from cr3bp import propagate, system
 from cr3bp.time import frames
 from librate_cli.main import main
 

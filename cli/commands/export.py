@@ -142,7 +142,7 @@ def run(args):
 
 def _run(args):
     import numpy as np
-    from cr3bp import export
+    from cr3bp.io import export
     from cr3bp.time import frames
     from cr3bp.errors import InputError
 

@@ -97,7 +97,7 @@ def _float(name, text, lo, hi):
 
 def _model_options(args, sysm):
     """The options --orbit and --route share, checked: (max_iter, srp, bodies, output format)."""
-    from cr3bp import export
+    from cr3bp.io import export
     from cr3bp.errors import InputError
     from cr3bp.fidelity import model as fm
     max_iter = common.whole_number("--max-iter", args.max_iter, 1, 200)
@@ -116,7 +116,7 @@ def _run_route(args, sysm):
 
     import numpy as np
 
-    from cr3bp import export
+    from cr3bp.io import export
     from cr3bp.time import frames
     from cr3bp.errors import InputError
     from cr3bp.fidelity.route import read_route, transition_route
@@ -205,7 +205,7 @@ def run(args):
 
     import numpy as np
 
-    from cr3bp import export
+    from cr3bp.io import export
     from cr3bp.time import frames
     from cr3bp.fidelity.transition import transition
     from cr3bp.orbits.request import solve_request

@@ -122,7 +122,7 @@ def run(args):
     if args.out and stitched is not None:
         traj = None
         if frame_spec is not None:
-            from cr3bp.export import dv_warning, maneuver_table
+            from cr3bp.io.export import dv_warning, maneuver_table
             from cr3bp.stitch import to_export
             traj = to_export(stitched, frame_spec)
             table = maneuver_table(traj)          # Δv measured on the exported trajectory
@@ -131,7 +131,7 @@ def run(args):
         if traj is not None:
             from pathlib import Path as _P
 
-            from cr3bp.export import write_oem
+            from cr3bp.io.export import write_oem
             oem = str(_P(args.out) / "route.oem")
             write_oem(oem, traj)
             files.append(oem)
@@ -218,7 +218,7 @@ def _route_dict(r, name):
 def _export(args, system, routes, front, stitched, name, table=()):
     from pathlib import Path
 
-    from cr3bp.atomic import write_text
+    from cr3bp.io.atomic import write_text
     from cr3bp.stitch import trajectory_rows
     out = Path(args.out)
     title = f"stitched route {' -> '.join(stitched.nodes)} in {system.name} (mu = {system.mu!r}), rotating frame"
@@ -229,7 +229,7 @@ def _export(args, system, routes, front, stitched, name, table=()):
     models = {"dv_design_mps": "the CR3BP design, rotating frame, fixed units (also the stitched route's dv_mps)"}
     if table:
         models[key] = "the velocity jump of the exported trajectory in route.oem (its frame and anchoring)"
-    from cr3bp.export import dv_warning
+    from cr3bp.io.export import dv_warning
     warn = dv_warning(table) if table else ""
     files = [str(out / "trajectory.csv"), str(out / "maneuvers.csv"), str(out / "route.json")]
     write_text(files[0], common.csv_text(headers, rows, [title]))

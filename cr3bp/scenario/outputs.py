@@ -11,7 +11,7 @@ import numpy as np
 
 def json_text(obj) -> str:
     """``obj`` as indented, key-sorted JSON text (numpy values made plain)."""
-    from ..plain import json_default
+    from ..io.plain import json_default
     return json.dumps(obj, indent=2, sort_keys=True, default=json_default) + "\n"
 
 
@@ -40,7 +40,7 @@ def say(progress, text):
 def save_figures(fig, out, stem, formats, caption):
     """Save ``fig`` in every format (SVG without a date, for reproducible files); the PNG path."""
     import matplotlib.pyplot as plt
-    from ..atomic import save_figure
+    from ..io.atomic import save_figure
     from ..plotting.base import caption as add_caption
     add_caption(fig, caption)
     first = None
