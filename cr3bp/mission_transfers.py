@@ -178,7 +178,7 @@ def _figures(plan, transfer, orbits, ranked, front, st, out):
         return {}
     figures = {}
     legs = [d["leg"] for d in ranked[0].legs]
-    from .manifolds import corridor_tubes
+    from .tubes.manifolds import corridor_tubes
     ax = plot_corridor(st, legs, tubes=corridor_tubes(route_orbits(transfer, orbits)))
     figures[f"corridor-{name}"] = save_figures(
         ax.figure, out, f"corridor-{name}", formats,

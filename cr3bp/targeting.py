@@ -6,7 +6,7 @@ that the arc reaches the arrival position after the time of flight, using the po
 block of the state transition matrix (single shooting; Koon, Lo, Marsden & Ross, *Dynamical
 Systems, the Three-Body Problem and Space Mission Design*, 2011, §4.6 "differential correction",
 from memory). The leg costs the impulse at departure plus the one at arrival that matches the
-arrival node's velocity. Manifold legs come from :mod:`cr3bp.connections`.
+arrival node's velocity. Manifold legs come from :mod:`cr3bp.tubes.connections`.
 
 Everything returned is plain data (floats and lists) so that a leg can cross a process
 boundary, go into the catalogue as JSON and come back byte for byte.

@@ -1,4 +1,4 @@
-"""A route of one heteroclinic leg (the manifold connections of cr3bp.connections) built
+"""A route of one heteroclinic leg (the manifold connections of cr3bp.tubes.connections) built
 through the graph and stitched: it costs zero Δv to tolerance and keeps one Jacobi constant.
 
 Planar Lyapunov orbits about Earth-Moon L1 and L2 at C = 3.15 are joined by the unstable
@@ -93,7 +93,7 @@ both_ways = false
 
 def test_parking_legs_through_periapsis_and_their_stitching():
     """Low lunar orbit (100 km) to and from the L2 Lyapunov orbit through the orbit's manifolds
-    and their first periapsis at that altitude (cr3bp.connections.parking_legs): one tangential
+    and their first periapsis at that altitude (cr3bp.tubes.connections.parking_legs): one tangential
     burn at periapsis. Stitched, the one-leg routes keep their Δv (nothing to merge) and their
     periapsis is 100 km above the Moon."""
     em = system("earth-moon")

@@ -44,10 +44,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .dynamics import acceleration, jacobi
-from .errors import InputError, StateError
-from .integrate import escape, impact, plane, propagate, propagate_batch
-from .integrate.events import COORDS
+from ..dynamics import acceleration, jacobi
+from ..errors import InputError, StateError
+from ..integrate import escape, impact, plane, propagate, propagate_batch
+from ..integrate.events import COORDS
 
 KINDS = ("plane", "sphere", "apsis")
 #: Names the map coordinates may take (besides the six state components).
@@ -256,7 +256,7 @@ def expression(text: str, system) -> float:
         if isinstance(node, ast.UnaryOp) and type(node.op) in _OPS:
             return _OPS[type(node.op)](ev(node.operand))
         raise ValueError
-    from .errors import shown
+    from ..errors import shown
     if len(str(text)) > MAX_EXPRESSION_CHARS:
         raise InputError(f"section value '{shown(text)}' is longer than {MAX_EXPRESSION_CHARS} "
                          "characters; give a number or short arithmetic in mu (e.g. 1-mu)")
@@ -279,7 +279,7 @@ def parse_section(text: str, system) -> Section:
     ``sphere:moon:20000km`` (entering), ``sphere:moon:20000km:+`` (leaving),
     ``periapsis:earth``, ``apoapsis:moon``.
     """
-    from . import units
+    from .. import units
     t = str(text).strip()
     if "," in t:
         plane_text, _, bound_text = t.partition(",")
@@ -308,7 +308,7 @@ def parse_section(text: str, system) -> Section:
     if head == "sphere":
         if len(parts) not in (3, 4):
             raise InputError(f"section '{text}': write sphere:BODY:RADIUS[:+|-], e.g. sphere:moon:20000km")
-        from .validate import quantity
+        from ..validate import quantity
         r = quantity(f"sphere radius in section '{text}'", parts[2], "length", system, sign="positive")
         d = _direction_text(parts[3], text) if len(parts) == 4 else -1
         return sphere(system, parts[1], r, d or -1, label=t)
