@@ -1,5 +1,5 @@
 """Transfers of a mission run: the scenario's transfers become node lists for the transfer
-graph (:mod:`cr3bp.graph_build`), whose best route is stitched (:mod:`cr3bp.stitch`) and
+graph (:mod:`cr3bp.transfers.graph`), whose best route is stitched (:mod:`cr3bp.transfers.stitch`) and
 drawn, and whose stitched trajectory the exports sample."""
 
 from __future__ import annotations
@@ -31,7 +31,7 @@ def _toml_str(v: str) -> str:
 
 
 def node_list_text(plan, transfer: dict) -> str:
-    """A node list (TOML, the format of :mod:`cr3bp.nodes`) for one scenario transfer."""
+    """A node list (TOML, the format of :mod:`cr3bp.transfers.nodes`) for one scenario transfer."""
     names = [transfer["from"], *transfer.get("via", []), transfer["to"]]
     lines = ["[settings]", "all_pairs = true", ""]
     seen = set()
@@ -58,14 +58,14 @@ def design_transfers(plan, orbits, out, *, catalog=None, workers=None, scheduler
     """Build, search and stitch every scenario transfer; write its tables and figures.
 
     Returns ``(routes, stitched, figures)``: per transfer name, a summary dict for the report and
-    the :class:`cr3bp.stitch.StitchedRoute`; the figures written (name -> path and caption).
+    the :class:`cr3bp.transfers.stitch.StitchedRoute`; the figures written (name -> path and caption).
     """
     from . import units
     from .io.atomic import write_text
-    from .graph_build import build_graph
-    from .network import Constraints, best_routes, pareto_routes
-    from .nodes import find_node, parse_nodes
-    from .stitch import stitch_route, trajectory_rows
+    from .transfers.graph import build_graph
+    from .transfers.search import Constraints, best_routes, pareto_routes
+    from .transfers.nodes import find_node, parse_nodes
+    from .transfers.stitch import stitch_route, trajectory_rows
     system = plan.system
     routes, stitched = {}, {}
     figures = {}
@@ -199,7 +199,7 @@ def route_orbits(transfer: dict, orbits: dict) -> list:
 def transfer_trajectory(plan, st, spec, ts, step_s, ex, model):
     """The stitched transfer sampled on the export's clock, with its maneuvers."""
     from .io import export
-    from .stitch import to_export
+    from .transfers.stitch import to_export
     base = to_export(st, spec, ex["object"].upper())
     span = float(st.times_tu[-1] - st.times_tu[0])
     grid = export.epoch_grid(spec, ts, span, step_s)

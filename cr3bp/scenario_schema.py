@@ -288,7 +288,7 @@ def parse_toml(text: str, file: str) -> dict:
 def check(data: dict, lines: dict, file: str, schema: dict | None = None,
           text: str | None = None) -> list[Problem]:
     """Every problem of ``data`` against ``schema`` (default: the scenario schema, with its
-    cross-key rules). Other file formats (e.g. the node lists of :mod:`cr3bp.nodes`) pass
+    cross-key rules). Other file formats (e.g. the node lists of :mod:`cr3bp.transfers.nodes`) pass
     their own schema and get the key, type and line checks only."""
     problems: list[Problem] = []
     text_lines = text.splitlines() if text is not None else None

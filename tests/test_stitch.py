@@ -4,13 +4,13 @@ Jacobi constant changing only at maneuvers and by the amount the impulse implies
 import numpy as np
 import pytest
 
-from cr3bp import stitch
+from cr3bp.transfers import stitch
 from cr3bp.dynamics import jacobi
 from cr3bp.errors import ConvergenceError
-from cr3bp.graph_build import build_graph
+from cr3bp.transfers.graph import build_graph
 from cr3bp.integrate import propagate_scipy
-from cr3bp.network import Constraints, best_routes
-from cr3bp.nodes import parse_nodes
+from cr3bp.transfers.search import Constraints, best_routes
+from cr3bp.transfers.nodes import parse_nodes
 
 from graph_fixtures import arc_states, node_list_text, perturbed_states
 

@@ -12,10 +12,10 @@ import pytest
 
 from cr3bp import system
 from cr3bp.dynamics import jacobi
-from cr3bp.graph_build import build_graph
-from cr3bp.network import best_routes
-from cr3bp.nodes import parse_nodes
-from cr3bp.stitch import stitch_route
+from cr3bp.transfers.graph import build_graph
+from cr3bp.transfers.search import best_routes
+from cr3bp.transfers.nodes import parse_nodes
+from cr3bp.transfers.stitch import stitch_route
 
 ONE_MM_PER_S = 1e-3
 
@@ -57,7 +57,7 @@ def test_one_heteroclinic_leg_stitches_to_zero_dv():
     C = jacobi(em.mu, res.states)
     assert np.ptp(C) < 1e-9 and C[0] == pytest.approx(3.15, abs=1e-6)
     # the declared burn, and the end's trim impulse (the end state is not held whole: see
-    # cr3bp.stitch; the whole total is under 1 mm/s, so the trim is too)
+    # cr3bp.transfers.stitch; the whole total is under 1 mm/s, so the trim is too)
     assert [m["node"] for m in res.maneuvers if not m["trim"]] == ["patch point"]
     assert [m["node"] for m in res.maneuvers if m["trim"]] == ["east"]
 

@@ -47,8 +47,8 @@ def add_arguments(p):
 
 def _constraints(args, system, nodes):
     from cr3bp.errors import InputError
-    from cr3bp.network import Constraints
-    from cr3bp.nodes import find_node
+    from cr3bp.transfers.search import Constraints
+    from cr3bp.transfers.nodes import find_node
     dv = tof = alt = legs = None
     if args.max_dv is not None:
         from cr3bp.validate import quantity
@@ -76,8 +76,8 @@ def run(args):
     from pathlib import Path
 
     from cr3bp.errors import InputError, NoSolutionError
-    from cr3bp.network import best_routes, pareto_routes
-    from cr3bp.nodes import find_node
+    from cr3bp.transfers.search import best_routes, pareto_routes
+    from cr3bp.transfers.nodes import find_node
 
     system = common.resolve_system(args)
     if args.plot is not None and Path(args.plot).suffix.lower() not in PLOT_SUFFIXES:
@@ -91,7 +91,7 @@ def run(args):
         from cr3bp.time.frames import frame
         frame_spec = frame(system, args.epoch, axes=args.frame)       # checked before any work
     k = common.whole_number("--best", args.best, 1, 1000)
-    from cr3bp.nodes import load_nodes
+    from cr3bp.transfers.nodes import load_nodes
     nodes = load_nodes(args.nodes, system).nodes       # checked before any leg is computed
     src, dst = find_node(nodes, args.source), find_node(nodes, args.target)
     if src.id == dst.id:
@@ -108,7 +108,7 @@ def run(args):
     stitched = None
     not_stitched = None
     if not args.no_stitch:
-        from cr3bp.stitch import PhasingError, stitch_route
+        from cr3bp.transfers.stitch import PhasingError, stitch_route
         common.progress(args, f"librate: stitching the best route ({routes[0].n_legs} leg(s)) by multiple shooting...")
         # where two legs meet an orbit at different phases, a coast along it joins them
         periods = {n: d["period_days"] / system.time_days for n, d in g.nodes(data=True) if d.get("period_days")}
@@ -123,7 +123,7 @@ def run(args):
         traj = None
         if frame_spec is not None:
             from cr3bp.io.export import dv_warning, maneuver_table
-            from cr3bp.stitch import to_export
+            from cr3bp.transfers.stitch import to_export
             traj = to_export(stitched, frame_spec)
             table = maneuver_table(traj)          # Δv measured on the exported trajectory
             warn = dv_warning(table)
@@ -219,7 +219,7 @@ def _export(args, system, routes, front, stitched, name, table=()):
     from pathlib import Path
 
     from cr3bp.io.atomic import write_text
-    from cr3bp.stitch import trajectory_rows
+    from cr3bp.transfers.stitch import trajectory_rows
     out = Path(args.out)
     title = f"stitched route {' -> '.join(stitched.nodes)} in {system.name} (mu = {system.mu!r}), rotating frame"
     headers, rows = trajectory_rows(stitched)

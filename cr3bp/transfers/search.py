@@ -24,7 +24,7 @@ from dataclasses import dataclass, field
 
 import networkx as nx
 
-from .errors import InputError, NoSolutionError
+from ..errors import InputError, NoSolutionError
 
 OBJECTIVES = ("dv", "tof")
 
