@@ -217,7 +217,7 @@ corridors = false
 
 
 def test_sun_earth_scenario_run_reports_the_arrival_time(tmp_path):
-    from cr3bp import mission
+    from cr3bp.scenario import run as mission
     from cr3bp.catalog import Catalog
     p = tmp_path / "s.toml"
     p.write_text(SCENARIO)

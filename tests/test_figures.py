@@ -313,7 +313,7 @@ def test_periapsis_plot_refuses_an_empty_map():
 
 def test_caution_once_per_figure_and_once_per_report(tmp_path, halo):
     import matplotlib.pyplot as plt
-    from cr3bp import report
+    from cr3bp.scenario import page as report
     from cr3bp.plotting import save
     from cr3bp.plotting.orbits import plot_orbit
     fig = plot_orbit(halo)

@@ -12,7 +12,7 @@ from cr3bp.dynamics import jacobi
 from cr3bp.errors import InputError
 from cr3bp.transfers.graph import build_graph, leg_json, plan
 from cr3bp.transfers.nodes import OrbitNode, ParkingNode, find_node, node_state, parse_nodes
-from cr3bp.scenario_schema import ScenarioError
+from cr3bp.scenario.schema import ScenarioError
 
 from graph_fixtures import arc_states, node_list_text, perturbed_states
 

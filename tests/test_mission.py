@@ -188,7 +188,7 @@ def test_demo_scenario_end_to_end(tmp_path):
     multi-leg route stitched with a phasing coast, OEM and CSV exports, report, manifest."""
     from oem import OrbitEphemerisMessage
 
-    from cr3bp import mission
+    from cr3bp.scenario import run as mission
     from cr3bp.catalog import Catalog
     plan = mission.prepare(Path(__file__).parent.parent / "examples" / "farlight.toml")
     res = mission.run(plan, tmp_path / "out", catalog=Catalog(tmp_path / "c.sqlite"), reduced=True)

@@ -21,7 +21,7 @@ def add_arguments(p):
 def run(args):
     """Check (scenario and --out), then run; a scenario with problems prints one line per
     problem, FILE:LINE: key: message, and exits 2 with nothing written."""
-    from cr3bp.scenario_schema import ScenarioError
+    from cr3bp.scenario.schema import ScenarioError
     try:
         return _run(args)
     except ScenarioError as e:
@@ -33,7 +33,7 @@ def run(args):
 
 def _run(args):
     import time
-    from cr3bp import mission
+    from cr3bp.scenario import run as mission
     from cr3bp.catalog import default_path
     from cr3bp.errors import InputError
     if args.workers is not None and args.workers < 1:

@@ -22,7 +22,7 @@ The node list is a TOML file with keys of our own (README, "Node lists")::
     tof = "4d"
     max_patch_dv = "300m/s"
 
-It is checked with the scenario checker (:func:`cr3bp.scenario_schema.check`): every unknown,
+It is checked with the scenario checker (:func:`cr3bp.scenario.schema.check`): every unknown,
 missing or mistyped key is reported with file, line and dotted key before anything is computed.
 """
 
@@ -37,7 +37,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .. import scenario_schema as schema_mod
+from ..scenario import schema as schema_mod
 from .. import units
 from ..errors import InputError, shown
 

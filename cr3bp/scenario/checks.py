@@ -26,9 +26,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from . import units
-from .errors import InputError
-from .scenario_schema import RENAMED_CHECKS   # withdrawn check keys and their message
+from .. import units
+from ..errors import InputError
+from .schema import RENAMED_CHECKS   # withdrawn check keys and their message
 
 SAMPLES_PER_PERIOD = 4000
 
@@ -50,7 +50,7 @@ class CheckResult:
 
 def sample(orbit, n: int = SAMPLES_PER_PERIOD) -> np.ndarray:
     """States (n, 6) evenly in time over one period."""
-    from .integrate import propagate
+    from ..integrate import propagate
     t = np.linspace(0.0, orbit.period, n)
     return propagate(orbit.system, orbit.state, orbit.period, t_eval=t).states
 
@@ -83,7 +83,7 @@ def _names(system):
 
 
 def _frame(system, epoch):
-    from .time import frames
+    from ..time import frames
     return frames.frame(system, epoch, anchor="ephemeris", axes="j2000-equator", center="primary")
 
 
@@ -100,7 +100,7 @@ def angle_at_earth_deg(system, t_tu, states, epoch, body: str) -> np.ndarray:
         The system has no ephemeris for its pair (only Earth-Moon, Sun-Earth, Sun-Mars and
         Sun-Jupiter have), or the epochs fall outside the ephemeris.
     """
-    from .time import ephemeris, frames
+    from ..time import ephemeris, frames
     if body not in ("sun", "moon"):
         raise InputError(f"angle at the Earth from '{body}': allowed sun, moon")
     problem = angle_check_problem(system, body)
@@ -154,7 +154,7 @@ def plan_problems(system, checks: dict, epoch) -> list[tuple[str, str]]:
         elif key in ANGLE_CHECKS:
             why = angle_check_problem(system, ANGLE_CHECKS[key])
             try:
-                from .time.frames import epoch_from_text
+                from ..time.frames import epoch_from_text
                 epoch_from_text(epoch) if isinstance(epoch, str) else float(epoch)
             except (InputError, TypeError, ValueError):
                 continue            # the epoch itself is reported where it is read

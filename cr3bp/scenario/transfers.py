@@ -8,8 +8,8 @@ import dataclasses
 
 import numpy as np
 
-from .errors import InputError, NoSolutionError
-from .scenario.outputs import csv_text, json_text, save_figures, say
+from ..errors import InputError, NoSolutionError
+from .outputs import csv_text, json_text, save_figures, say
 
 TARGET_KEYS = ("period", "jacobi", "ax", "ay", "az", "perilune", "resonance")
 
@@ -60,12 +60,12 @@ def design_transfers(plan, orbits, out, *, catalog=None, workers=None, scheduler
     Returns ``(routes, stitched, figures)``: per transfer name, a summary dict for the report and
     the :class:`cr3bp.transfers.stitch.StitchedRoute`; the figures written (name -> path and caption).
     """
-    from . import units
-    from .io.atomic import write_text
-    from .transfers.graph import build_graph
-    from .transfers.search import Constraints, best_routes, pareto_routes
-    from .transfers.nodes import find_node, parse_nodes
-    from .transfers.stitch import stitch_route, trajectory_rows
+    from .. import units
+    from ..io.atomic import write_text
+    from ..transfers.graph import build_graph
+    from ..transfers.search import Constraints, best_routes, pareto_routes
+    from ..transfers.nodes import find_node, parse_nodes
+    from ..transfers.stitch import stitch_route, trajectory_rows
     system = plan.system
     routes, stitched = {}, {}
     figures = {}
@@ -130,8 +130,8 @@ def write_route_tables(plan, name, summary, out, exported=()):
     and ``maneuvers``, the rows of :func:`cr3bp.io.export.maneuver_table`), the Δv measured on the
     exported trajectory, side by side and labelled, with a warning line where they differ by
     more than 1 %. Written after the design and again once the exports exist."""
-    from .io.atomic import write_text
-    from .io.export import dv_differs
+    from ..io.atomic import write_text
+    from ..io.export import dv_differs
     label = summary.get("labels", {})
     mans = [dict(m, dv_design_mps=m["dv_mps"]) for m in summary["maneuvers"]]
     models = {"dv_design_mps": DV_DESIGN_NOTE}
@@ -166,19 +166,19 @@ def write_route_tables(plan, name, summary, out, exported=()):
 
 
 def plan_caution():
-    from .cautions import CAUTION
+    from ..cautions import CAUTION
     return CAUTION
 
 
 def _figures(plan, transfer, orbits, ranked, front, st, out):
-    from .plotting.routes import plot_corridor, plot_pareto
+    from ..plotting.routes import plot_corridor, plot_pareto
     name = transfer["name"]
     formats = plan.data.get("plots", {}).get("formats", ["png"])
     if not plan.data.get("plots", {}).get("corridors", True):
         return {}
     figures = {}
     legs = [d["leg"] for d in ranked[0].legs]
-    from .tubes.manifolds import corridor_tubes
+    from ..tubes.manifolds import corridor_tubes
     ax = plot_corridor(st, legs, tubes=corridor_tubes(route_orbits(transfer, orbits)))
     figures[f"corridor-{name}"] = save_figures(
         ax.figure, out, f"corridor-{name}", formats,
@@ -198,8 +198,8 @@ def route_orbits(transfer: dict, orbits: dict) -> list:
 
 def transfer_trajectory(plan, st, spec, ts, step_s, ex, model):
     """The stitched transfer sampled on the export's clock, with its maneuvers."""
-    from .io import export
-    from .transfers.stitch import to_export
+    from ..io import export
+    from ..transfers.stitch import to_export
     base = to_export(st, spec, ex["object"].upper())
     span = float(st.times_tu[-1] - st.times_tu[0])
     grid = export.epoch_grid(spec, ts, span, step_s)

@@ -25,12 +25,13 @@ from pathlib import Path
 
 import numpy as np
 
-from . import __version__, scenario_schema
-from .io.atomic import write_text
-from .cautions import CAUTION
-from .errors import InputError
-from .scenario.outputs import csv_text, json_text, save_figures, say
-from .scenario_schema import Problem, ScenarioError
+from .. import __version__
+from . import schema as scenario_schema
+from ..io.atomic import write_text
+from ..cautions import CAUTION
+from ..errors import InputError
+from .outputs import csv_text, json_text, save_figures, say
+from .schema import Problem, ScenarioError
 
 TARGET_KEYS = ("period", "jacobi", "ax", "ay", "az", "perilune", "perigee", "resonance")
 
@@ -63,7 +64,7 @@ class Outputs:
 
 
 def _spec_for(entry: dict):
-    from .orbits.request import spec_from_options
+    from ..orbits.request import spec_from_options
     target = {k: entry[k] for k in TARGET_KEYS if k in entry}
     if "perigee" in target:
         raise InputError("target 'perigee' is not offered yet; use perilune, period, jacobi or an amplitude")
@@ -77,8 +78,8 @@ def prepare(path) -> Plan:
     """Read and check a scenario: the schema (file, line, key), then the meaning of each value
     (system, epoch, orbit requests, references between sections). Raises ScenarioError listing
     every problem; nothing is computed or written."""
-    from . import system as make_system
-    from .time.scales import parse_iso
+    from .. import system as make_system
+    from ..time.scales import parse_iso
     path = Path(path)
     file = scenario_schema.path_text(path)
     text = scenario_schema.read_text(path)
@@ -182,7 +183,7 @@ EXAMPLES = {"length": "'12000km'", "time": "'6.5d'", "velocity": "'1500m/s'"}
 
 def _quantity(key, text, dimension, rule, system, add):
     """The value of a quantity key in the system's units (TU, LU, ...) or None (problem added)."""
-    from . import units
+    from .. import units
     try:
         q = units.parse(text, dimension)
         value = q.nondim(system) if system is not None and system.dimensional else q.value
@@ -200,8 +201,8 @@ def _quantity(key, text, dimension, rule, system, add):
 def _check_values(data, system, add):
     """The meaning of each value: signs, ranges, units of each key; parking orbits, caps and
     export options as the run will read them. Every problem goes to ``add``."""
-    from .time import frames
-    from .errors import shown
+    from ..time import frames
+    from ..errors import shown
     for name, entry in data["orbits"].items():
         for k, v in entry.items():
             if k in QUANTITY_RULES and isinstance(v, str):
@@ -274,7 +275,7 @@ def _check_values(data, system, add):
 
 def _span(key, text, system, add):
     """A span in TU, ``True`` for a count of periods (checked once the period is known), or None."""
-    from .errors import shown
+    from ..errors import shown
     s = text.strip()
     low = s.lower()
     for suffix in ("periods", "period"):
@@ -295,8 +296,8 @@ def _span(key, text, system, add):
 
 
 def _samples(key, span_tu, step_tu, ex, add):
-    from .io.export import MAX_SAMPLES
-    from .errors import shown
+    from ..io.export import MAX_SAMPLES
+    from ..errors import shown
     if step_tu > span_tu * (1 + 1e-12):
         add(f"{key}.step", InputError(f"'{shown(ex.get('step', '10min'))}' is longer than the span "
                                       f"'{shown(ex['span'])}'; give a shorter step"))
@@ -318,7 +319,7 @@ def _int_range(key, v, add):
 
 def _check_parking(key, text, system, add):
     """'parking BODY ALTITUDE': three words, a primary of the system, a positive length."""
-    from .errors import shown
+    from ..errors import shown
     parts = text.split()
     if len(parts) != 3:
         add(key, InputError(f"'{shown(text)}' must read 'parking BODY ALTITUDE', e.g. 'parking earth 200km'"))
@@ -372,8 +373,8 @@ def export_file_name(ex) -> str:
 
 def _check_files(data, add):
     """Export file names: plain, and no two outputs of one run under one name (case-blind)."""
-    from .errors import shown
-    from .scenario_schema import FILE_PATTERN, FILE_RULE
+    from ..errors import shown
+    from .schema import FILE_PATTERN, FILE_RULE
     for i, ex in enumerate(data.get("exports", [])):
         if "file" in ex:
             f = ex["file"]
@@ -464,7 +465,7 @@ def run(plan: Plan, folder, *, catalog=None, workers=None, scheduler=None, progr
     progress : callable(str), optional: one line per step
     reduced : smaller samples (tests)
     """
-    from .catalog import Catalog
+    from ..catalog import Catalog
     started = time.time()
     folder = Path(folder)
     catalog = catalog if catalog is not None else Catalog()
@@ -552,7 +553,7 @@ _USER_ERRNOS = {errno.EACCES, errno.EPERM, errno.EROFS, errno.ENAMETOOLONG, errn
 
 
 def _output_error(e: OSError, folder):
-    from .errors import OutputError, shown
+    from ..errors import OutputError, shown
     what = f"{e.strerror or e}" + (f" ({shown(Path(e.filename).name)})" if e.filename else "")
     text = f"cannot write the results in {shown(folder)}: {what}; nothing was kept"
     return InputError(text) if e.errno in _USER_ERRNOS else OutputError(text)
@@ -562,7 +563,7 @@ def check_output_folder(folder, scenario=None, catalog=None, names=()) -> Path:
     """Refuse an output folder a run cannot use, before anything is computed or written:
     empty, equal to the scenario or the catalogue, an existing file, a name longer than the
     file system allows, under a file, or not writable. ``names``: the files the run writes."""
-    from .errors import shown
+    from ..errors import shown
     text = os.fspath(folder) if not isinstance(folder, str) else folder
     if not text.strip():
         raise InputError("--out is empty; give the folder for the results, e.g. --out results")
@@ -614,8 +615,8 @@ def check_spans(plan, orbits) -> None:
     system = plan.system
     for i, ex in enumerate(plan.data.get("exports", [])):
         if ex["object"] in orbits and str(ex.get("span", "")).strip().lower().endswith(("period", "periods")):
-            from .io import export
-            from . import units
+            from ..io import export
+            from .. import units
             try:
                 span = export.parse_span(ex["span"], system, float(orbits[ex["object"]].period))
                 step = units.time(ex.get("step", "10min"), system)
@@ -657,7 +658,7 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
     # ---- transfers --------------------------------------------------------------------
     routes, stitched = {}, {}
     if plan.data.get("transfers"):
-        from .mission_transfers import design_transfers
+        from .transfers import design_transfers
         routes, stitched, transfer_figures = design_transfers(
             plan, orbits, out, catalog=catalog, workers=workers, scheduler=scheduler,
             progress=progress, reduced=reduced)
@@ -671,11 +672,11 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
                         "time_system": ex.get("time_system", "tdb").upper(),
                         "anchor": ex.get("anchor", "ephemeris"), "maneuvers": man})
         say(progress, f"export {path.name}")
-        from .io.export import dv_warning
+        from ..io.export import dv_warning
         if dv_warning(man):
             say(progress, f"{path.name}: {dv_warning(man)}")
     if routes:     # the route tables again, now with the exported Δv beside the design's
-        from .mission_transfers import write_route_tables
+        from .transfers import write_route_tables
         for name in routes:
             write_route_tables(plan, name, routes[name], out, [e for e in exports if e["object"] == name])
 
@@ -685,7 +686,7 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
         figures.update(transfer_figures)
 
     # ---- report and manifest ----------------------------------------------------------
-    from .mission_report import write_report
+    from .report import write_report
     report = write_report(plan, orbits, checks, routes, exports, figures, out)
     seconds = time.time() - started
     manifest = _manifest(plan, out, seconds)
@@ -695,9 +696,9 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
 def solve_orbits(plan, catalog, progress=None) -> dict:
     """Every orbit of the plan; a target outside its family becomes a ScenarioError naming the
     file, line and key, with the range the family covers."""
-    from .errors import NoSolutionError
-    from .mission_report import places_note
-    from .orbits.request import solve_request
+    from ..errors import NoSolutionError
+    from .report import places_note
+    from ..orbits.request import solve_request
     lines = scenario_schema.line_index(scenario_schema.read_text(plan.path))
     orbits = {}
     for name, spec in plan.orbit_specs.items():
@@ -715,9 +716,9 @@ def solve_orbits(plan, catalog, progress=None) -> dict:
 
 
 def _export(plan, ex, orbits, stitched, out, created):
-    from .io import export
-    from . import units
-    from .time import frames
+    from ..io import export
+    from .. import units
+    from ..time import frames
     system = plan.system
     fmt = ex["format"]
     suffix = {"oem": "oem", "csv": "csv", "json": "json"}[fmt]
@@ -741,7 +742,7 @@ def _export(plan, ex, orbits, stitched, out, created):
                       "jacobi": repr(float(orbit.jacobi))})
         traj = export.Trajectory(spec, (seg,), ts, (), ex["object"].upper(), "NONE", model)
     else:
-        from .mission_transfers import transfer_trajectory
+        from .transfers import transfer_trajectory
         traj = transfer_trajectory(plan, stitched[ex["object"]], spec, ts, step_s, ex, model)
     path = out.path(name)
     export.write(path, traj, fmt, creation_date=created)
@@ -751,8 +752,8 @@ def _export(plan, ex, orbits, stitched, out, created):
 
 
 def _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progress) -> dict:
-    from .plotting import save
-    from .plotting.orbits import plot_orbit
+    from ..plotting import save
+    from ..plotting.orbits import plot_orbit
     figs = {}
     for name, orbit in orbits.items():
         if plots.get("orbits", True):
@@ -761,8 +762,8 @@ def _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progr
             figs[f"orbit-{name}"] = save_figures(fig, out, f"orbit-{name}", formats,
                                               f"{plan.name}: orbit '{name}' over one period.")
         if plots.get("hill_regions", False):
-            from .energy import hill_region
-            from .plotting.energy import default_view, plot_hill_region
+            from ..energy import hill_region
+            from ..plotting.energy import default_view, plot_hill_region
             region = hill_region(orbit.system, float(orbit.jacobi), resolution=201 if reduced else 601,
                                  view=default_view(orbit.system, orbit.point))
             ax = plot_hill_region(region)
@@ -771,8 +772,8 @@ def _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progr
         if plots.get("families", False):
             fam = catalog.load_family(orbit.system, orbit.family, orbit.point, orbit.branch)
             if fam and fam.get("members"):
-                from .integrate import propagate
-                from .plotting.orbits import plot_family
+                from ..integrate import propagate
+                from ..plotting.orbits import plot_family
                 members = fam["members"]
                 pick = np.unique(np.linspace(0, len(members) - 1, min(len(members), 12 if reduced else 40))
                                  .round().astype(int))
@@ -788,7 +789,7 @@ def _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progr
 
 
 def _manifest(plan, out, seconds) -> Path:
-    from . import __version__ as version
+    from .. import __version__ as version
     outputs = []
     for p in sorted(set(out.files)):
         if p.exists():
