@@ -18,16 +18,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..time import ephemeris
+from ..constants import AU_KM, GM_KM3_S2_DE430, SECONDS_PER_DAY, SOLAR_PRESSURE_1AU
 from ..errors import ConvergenceError, InputError
+from ..time import ephemeris
 from ..integrate import dop853
 from . import chebyshev
 from .forces import HEADER
 
-#: Solar flux pressure at 1 au, N/m^2 (common practice).
-SOLAR_PRESSURE_1AU = 4.56e-6
-#: Astronomical unit, km (IAU 2012 Resolution B2).
-AU_KM = 149597870.7
 #: Series layout: segment length (days) and degree. Checked against DE421 in
 #: tests/test_fidelity.py (below 5 cm for every body over a year; measured 1 cm, rounding).
 SEGMENT_DAYS = 1.0
@@ -35,9 +32,6 @@ DEGREE = 16
 
 BODY_NAMES = ("sun", "earth", "moon", "mercury", "venus", "mars", "jupiter", "saturn",
               "uranus", "neptune")
-_GM_FALLBACK = {  # km^3/s^2, DE430 values (Folkner et al., IPN PR 42-196, 2014, table 8, from memory)
-    "mercury": 22031.78, "venus": 324858.592, "uranus": 5793939.3, "neptune": 6836529.0,
-}
 _MODE = 2
 _MODE_STM = 3
 
@@ -48,8 +42,8 @@ def gm_km3_s2(name: str) -> float:
     try:
         return float(systems.body(name).gm_km3_s2)
     except Exception:
-        if name in _GM_FALLBACK:
-            return _GM_FALLBACK[name]
+        if name in GM_KM3_S2_DE430:
+            return GM_KM3_S2_DE430[name]
         raise InputError(f"no GM known for '{name}'") from None
 
 
@@ -169,7 +163,7 @@ def build(system, epoch_tdb_s: float, t0_tu: float, t1_tu: float, central: str, 
     span = float(t1_tu) - float(t0_tu)
     if not (math.isfinite(span) and span > 0):
         raise InputError(f"model span [{t0_tu}, {t1_tu}] TU must be increasing")
-    nseg = max(1, int(math.ceil(span * tu / 86400.0 / segment_days)))
+    nseg = max(1, int(math.ceil(span * tu / SECONDS_PER_DAY / segment_days)))
     nb = len(fitted)
     source = ephemeris.LABELS[ephemeris.DEFAULT_MODEL] if nb and sample is None else (
         "positions supplied by the caller" if nb else "none (no bodies fitted)")

@@ -14,6 +14,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from .. import units
+from ..constants import SECONDS_PER_DAY
 from ..errors import InputError
 
 SIDEREAL_MONTH_DAYS = 27.321662   # Astronomical Almanac (from memory)
@@ -87,7 +88,7 @@ def _make(system, kind, text):
         p, q = parse_resonance(text)
         if system.name != "earth-moon":
             raise InputError(f"synodic resonance is defined for earth-moon only (system '{system.name}')")
-        T = synodic_period_days(p, q) * 86400.0 / system.time_s
+        T = synodic_period_days(p, q) * SECONDS_PER_DAY / system.time_s
         return Target(kind, "period", T, text)
     raise InputError(f"unknown target '{kind}'; allowed: {', '.join(KINDS)}")
 

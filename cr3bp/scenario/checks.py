@@ -27,6 +27,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .. import units
+from ..constants import SECONDS_PER_DAY
 from ..errors import InputError
 from .schema import RENAMED_CHECKS   # withdrawn check keys and their message
 
@@ -229,7 +230,7 @@ def run_checks(orbit, checks: dict, states=None, epoch=None) -> list[CheckResult
             act = float(occultation_clearance_km(system, states).min())
             out.append(_result(key, f"line of sight to {names[0]} clears {names[1]} by", 0.0, act, "km", True))
         elif key == "max_period":
-            req = units.parse(value, "time").si() / 86400.0
+            req = units.parse(value, "time").si() / SECONDS_PER_DAY
             out.append(_result(key, "period", req, float(orbit.period_days), "d", False))
         else:
             raise InputError(f"unknown check '{key}'")

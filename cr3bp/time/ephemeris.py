@@ -48,14 +48,13 @@ import math
 import numpy as np
 
 from . import ephemeris_series as _series
+from ..constants import AU_KM, J2000_JD, OBLIQUITY_J2000_ARCSEC, SECONDS_PER_DAY
 from ..errors import EphemerisSpanError, InputError
 from .scales import Epoch, parse_iso
 
 __all__ = ["BODIES", "CENTERS", "FRAMES", "MODELS", "ACCURACY", "position", "state", "valid_interval",
            "describe", "ecliptic_to_equator_matrix", "OBLIQUITY_J2000_ARCSEC", "AU_KM"]
 
-AU_KM = _series.AU_KM                            # IAU 2012 Resolution B2
-OBLIQUITY_J2000_ARCSEC = _series.OBLIQUITY_J2000_ARCSEC   # IAU 2006 (Hilton et al. 2006)
 ARCSEC = math.pi / 180.0 / 3600.0
 
 BODIES = _series.BODIES
@@ -255,25 +254,25 @@ def _tdb_jd(ep: Epoch):
     jd1, jd2 = (np.atleast_1d(np.asarray(x, dtype=float)).ravel() for x in ep.two_part_jd("tt"))
     n = jd1.size
     if n > TDB_DIRECT_MAX:
-        days = (jd1 - 2451545.0) + jd2
+        days = (jd1 - J2000_JD) + jd2
         lo = math.floor(float(days.min()) / TDB_NODE_DAYS) - 1
         n_nodes = math.floor(float(days.max()) / TDB_NODE_DAYS) - lo + 3
         if 4 * n_nodes <= n:
-            f = tdb_minus_tt(2451545.0, (lo + np.arange(n_nodes)) * TDB_NODE_DAYS)
+            f = tdb_minus_tt(J2000_JD, (lo + np.arange(n_nodes)) * TDB_NODE_DAYS)
             u = days / TDB_NODE_DAYS - lo
             i = np.floor(u).astype(np.int64)
             p = u - i
             q, r, w = p + 1.0, p - 1.0, p - 2.0
             dt = (p * r * w * (-1.0 / 6.0) * f[i - 1] + q * r * w * 0.5 * f[i]
                   - q * p * w * 0.5 * f[i + 1] + q * p * r * (1.0 / 6.0) * f[i + 2])
-            return jd1, jd2 + dt / 86400.0
-    return jd1, jd2 + tdb_minus_tt(jd1, jd2) / 86400.0
+            return jd1, jd2 + dt / SECONDS_PER_DAY
+    return jd1, jd2 + tdb_minus_tt(jd1, jd2) / SECONDS_PER_DAY
 
 
 def _check_span(kernel, jd1, jd2, body, center):
     if not jd1.size:
         return
-    sec = (jd1 - 2451545.0) * 86400.0 + jd2 * 86400.0
+    sec = (jd1 - J2000_JD) * SECONDS_PER_DAY + jd2 * SECONDS_PER_DAY
     bad = (sec < kernel.start_s) | (sec > kernel.end_s) | ~np.isfinite(sec)
     if bad.any():
         k = int(np.argmax(bad))
@@ -286,8 +285,8 @@ def _check_span(kernel, jd1, jd2, body, center):
 
 
 def _tdb_epoch(seconds: float) -> Epoch:
-    days = math.floor(seconds / 86400.0)
-    return Epoch.from_jd(2451545.0 + days, (seconds - days * 86400.0) / 86400.0, "tdb")
+    days = math.floor(seconds / SECONDS_PER_DAY)
+    return Epoch.from_jd(J2000_JD + days, (seconds - days * SECONDS_PER_DAY) / SECONDS_PER_DAY, "tdb")
 
 
 def _choice(what: str, value, allowed) -> str:

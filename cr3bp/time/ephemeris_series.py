@@ -88,6 +88,8 @@ from importlib import resources
 
 import numpy as np
 
+from ..constants import (AU_KM, DAYS_PER_JULIAN_CENTURY, OBLIQUITY_J2000_ARCSEC,
+                         SECONDS_PER_DAY)
 from ..errors import ConvergenceError, InputError
 from .scales import Epoch, parse_iso
 
@@ -98,9 +100,7 @@ __all__ = ["BODIES", "CENTERS", "FRAMES", "ACCURACY", "position", "state", "vali
 LABEL = ("analytic series (Standish mean elements, Meeus ch. 47 Moon; km to 10^6 km level, "
          "not DE421)")
 
-AU_KM = 149597870.7                       # IAU 2012 Resolution B2
-OBLIQUITY_J2000_ARCSEC = 84381.406        # IAU 2006 (Hilton et al. 2006)
-SECONDS_PER_CENTURY = 36525.0 * 86400.0
+SECONDS_PER_CENTURY = DAYS_PER_JULIAN_CENTURY * SECONDS_PER_DAY
 DEG = math.pi / 180.0
 ARCSEC = DEG / 3600.0
 KEPLER_TOL_RAD = 1e-13

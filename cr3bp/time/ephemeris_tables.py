@@ -37,6 +37,7 @@ from functools import lru_cache
 
 import numpy as np
 
+from ..constants import J2000_JD, SECONDS_PER_DAY
 from ..errors import LibrateError
 
 #: The kernel as shipped by the data package, and the SHA-256 of the copy this code was
@@ -44,8 +45,6 @@ from ..errors import LibrateError
 PACKAGE = "skyfield-data"
 KERNEL_NAME = "de421.bsp"
 KERNEL_SHA256 = "a20a7139da04cbc462454634918e9a9ca69127044e2cc9d4f9c16e238d2deedc"
-J2000_JD = 2451545.0
-SECONDS_PER_DAY = 86400.0
 CHUNK = 32768                     # epochs per block: gathered coefficients stay a few MB
 RECORD_BYTES = 1024
 WORD = np.dtype("<f8")

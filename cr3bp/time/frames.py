@@ -51,6 +51,7 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
+from ..constants import MJD_ZERO_JD, OBLIQUITY_J2000_ARCSEC, SECONDS_PER_DAY
 from ..errors import InputError
 
 AXES = ("j2000-equator", "j2000-ecliptic", "rotating")
@@ -62,9 +63,8 @@ CENTERS = ("primary", "secondary", "barycenter", "earth", "moon")
 BODY_CENTERS = {"earth-moon": ("earth", "moon")}
 TIME_SYSTEMS = ("TDB", "TT", "TAI", "UTC")
 
-#: IAU 2006 obliquity of the ecliptic at J2000 (Hilton et al. 2006, from memory; pyerfa obl06
-#: gives the same value, see tests/test_against_pyerfa_frames.py).
-OBLIQUITY_J2000_RAD = 84381.406 * math.pi / (180.0 * 3600.0)
+#: The obliquity of :mod:`cr3bp.constants` in radians.
+OBLIQUITY_J2000_RAD = OBLIQUITY_J2000_ARCSEC * math.pi / (180.0 * 3600.0)
 
 #: The instantaneous frame reads the secondary's ephemeris through Chebyshev series of this
 #: degree on segments of this length aligned on J2000 (so the series at an epoch does not
@@ -74,7 +74,6 @@ OBLIQUITY_J2000_RAD = 84381.406 * math.pi / (180.0 * 3600.0)
 SERIES_SEGMENT_S = 43200.0
 SERIES_DEGREE = 13
 
-SECONDS_PER_DAY = 86400.0
 
 
 # ---- adapters to the project's time scales (cr3bp.time.scales) and ephemeris -------------
@@ -121,12 +120,12 @@ def epoch_to_text(tdb_s, scale: str = "TDB", digits: int = 6):
         out = ep.to_iso(sc, digits, designator=False)
         return np.asarray(out if isinstance(out, list) else [out]).reshape(t.shape)
     jd1, jd2 = (np.atleast_1d(x) for x in ep.two_part_jd(sc))
-    mjd = np.rint(jd1 - 2400000.5).astype(np.int64)
-    length = np.full(mjd.shape, 86400.0)
+    mjd = np.rint(jd1 - MJD_ZERO_JD).astype(np.int64)
+    length = np.full(mjd.shape, SECONDS_PER_DAY)
     if sc == "utc":
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")   # the conversion above has already warned
-            length = 86400.0 + tai_minus_utc(mjd + 1) - tai_minus_utc(mjd)
+            length = SECONDS_PER_DAY + tai_minus_utc(mjd + 1) - tai_minus_utc(mjd)
     us = np.rint(jd2 * length * 1e6).astype(np.int64)
     out = np.datetime_as_string(_MJD0 + (mjd * 86_400_000_000 + us).astype("timedelta64[us]"), unit="us")
     odd = us >= 86_400_000_000                        # inside a leap second (23:59:60)
@@ -159,15 +158,15 @@ def epochs_from_texts(texts, scale: str) -> np.ndarray:
     us = (stamps - _MJD0) / np.timedelta64(1, "us")
     mjd = np.floor(us / 86_400_000_000).astype(np.int64)
     sec = (us - mjd * 86_400_000_000) * 1e-6
-    length = np.full(mjd.shape, 86400.0)
+    length = np.full(mjd.shape, SECONDS_PER_DAY)
     if sc == "utc":
         if mjd.min() < 41317:
             return np.atleast_1d(parse_iso(texts, sc).seconds_since_j2000("tdb"))  # its message
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
-            length = 86400.0 + tai_minus_utc(mjd + 1) - tai_minus_utc(mjd)
+            length = SECONDS_PER_DAY + tai_minus_utc(mjd + 1) - tai_minus_utc(mjd)
         tai_minus_utc(mjd, stacklevel=2)          # warns once past the leap-second table
-    ep = Epoch.from_jd(mjd + 2400000.5, sec / length, sc)
+    ep = Epoch.from_jd(mjd + MJD_ZERO_JD, sec / length, sc)
     return np.atleast_1d(ep.seconds_since_j2000("tdb"))
 
 
