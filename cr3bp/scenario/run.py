@@ -26,7 +26,7 @@ from pathlib import Path
 import numpy as np
 
 from .. import __version__
-from . import schema as scenario_schema
+from . import schema
 from ..io.atomic import write_text
 from ..cautions import CAUTION
 from ..errors import InputError
@@ -81,14 +81,14 @@ def prepare(path) -> Plan:
     from .. import system as make_system
     from ..time.scales import parse_iso
     path = Path(path)
-    file = scenario_schema.path_text(path)
-    text = scenario_schema.read_text(path)
-    data = scenario_schema.parse_toml(text, file)
-    lines = scenario_schema.line_index(text)
-    found = scenario_schema.check(data, lines, file, text=text)
+    file = schema.path_text(path)
+    text = schema.read_text(path)
+    data = schema.parse_toml(text, file)
+    lines = schema.line_index(text)
+    found = schema.check(data, lines, file, text=text)
     if found:
         # the meaning of every value that could be read is checked too: all problems at once
-        data = scenario_schema.well_typed(data, found)
+        data = schema.well_typed(data, found)
         if data is None:
             raise ScenarioError(found)
     problems = []
@@ -604,13 +604,13 @@ def check_spans(plan, orbits) -> None:
     """Spans counted in periods, now that the periods are known: refused (ScenarioError with
     FILE:LINE) before anything is written when they hold too many samples."""
     problems = []
-    lines = scenario_schema.line_index(scenario_schema.read_text(plan.path))
+    lines = schema.line_index(schema.read_text(plan.path))
 
     def add(key, exc):
         k = key
         while k and k not in lines:
             k = k.rpartition(".")[0] if "." in k else ""
-        problems.append(Problem(scenario_schema.path_text(plan.path), lines.get(k, 1), key, str(exc)))
+        problems.append(Problem(schema.path_text(plan.path), lines.get(k, 1), key, str(exc)))
 
     system = plan.system
     for i, ex in enumerate(plan.data.get("exports", [])):
@@ -699,7 +699,7 @@ def solve_orbits(plan, catalog, progress=None) -> dict:
     from ..errors import NoSolutionError
     from .report import places_note
     from ..orbits.request import solve_request
-    lines = scenario_schema.line_index(scenario_schema.read_text(plan.path))
+    lines = schema.line_index(schema.read_text(plan.path))
     orbits = {}
     for name, spec in plan.orbit_specs.items():
         say(progress, f"orbit '{name}': {spec.family} {spec.point} {spec.branch} {spec.key}={spec.value}")
