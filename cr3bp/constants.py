@@ -20,6 +20,10 @@ MJD_ZERO_JD = 2400000.5
 J2000_JD = 2451545.0
 #: TT - TAI, s (exact: IAU 1991 Resolution A4; IERS Conventions 2010, eq. 10.1).
 TT_MINUS_TAI_S = 32.184
+#: The Moon's sidereal month and the Earth's sidereal year, days (Astronomical Almanac, from
+#: memory; the synodic month they give is checked in tests/test_against_published_orbits.py).
+SIDEREAL_MONTH_DAYS = 27.321662
+SIDEREAL_YEAR_DAYS = 365.256363
 
 # ---- orientation --------------------------------------------------------------------------
 #: Obliquity of the ecliptic at J2000, arcsec (IAU 2006: Hilton et al. 2006, Celest. Mech. Dyn.

@@ -14,11 +14,9 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from .. import units
-from ..constants import SECONDS_PER_DAY
+from ..constants import SECONDS_PER_DAY, SIDEREAL_MONTH_DAYS, SIDEREAL_YEAR_DAYS
 from ..errors import InputError
 
-SIDEREAL_MONTH_DAYS = 27.321662   # Astronomical Almanac (from memory)
-SIDEREAL_YEAR_DAYS = 365.256363   # Astronomical Almanac (from memory)
 SYNODIC_MONTH_DAYS = 1.0 / (1.0 / SIDEREAL_MONTH_DAYS - 1.0 / SIDEREAL_YEAR_DAYS)
 
 KINDS = ("period", "jacobi", "ax", "ay", "az", "x", "perilune", "approach1", "resonance")
