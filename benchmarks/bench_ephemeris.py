@@ -24,8 +24,8 @@ def _best_cpu(f, repeat=3):
 
 
 def run():
-    from cr3bp import ephemeris as eph
-    from cr3bp.timescales import parse_iso
+    from cr3bp.time import ephemeris as eph
+    from cr3bp.time.scales import parse_iso
 
     t = parse_iso("2031-03-01T00:00:00 TDB") + np.linspace(0.0, 20 * 365.25 * 86400.0, N)
     eph.position("moon", t[:10])

@@ -18,7 +18,9 @@ N_STATES = 100_000
 
 
 def _trajectory():
-    from cr3bp import export, frames, system
+    from cr3bp.io import export
+    from cr3bp import system
+    from cr3bp.time import frames
     em = system("earth-moon")
     spec = frames.frame(em, "2031-03-01T00:00:00Z", anchor="ephemeris")
     # a smooth stand-in trajectory (the propagation is not what is timed here)
@@ -31,7 +33,8 @@ def _trajectory():
 
 def _naive(path, traj):
     """Per-line baseline: the same header, then one datetime and one f-string per state."""
-    from cr3bp import export, frames
+    from cr3bp.io import export
+    from cr3bp.time import frames
     head = export.oem_text(export.Trajectory(traj.frame, (export.Segment(traj.segments[0].t_tu[:8],
                                                                          traj.segments[0].states[:8]),),
                                              traj.time_system))
@@ -62,7 +65,7 @@ def _naive_lines(labels, st):
 
 
 def run():
-    from cr3bp import export
+    from cr3bp.io import export
     traj = _trajectory()
     with tempfile.TemporaryDirectory() as d:
         ours = Path(d) / "ours.oem"
@@ -75,7 +78,7 @@ def run():
         b = naive.read_text().split("META_STOP\n\n", 1)[1]
         same = a == b
     # formatting alone (epochs + data lines), on precomputed states
-    from cr3bp import frames
+    from cr3bp.time import frames
     tdb, st = frames.to_frame(traj.frame, traj.segments[0].t_tu, traj.segments[0].states)
     labels = _labels(frames.epoch_to_text(tdb, "UTC"))   # (prepared outside the timing)
     t_fmt = best_time(lambda: export._data_lines(frames.epoch_to_text(tdb, "UTC"), st))

@@ -40,13 +40,13 @@ def run():
 
     from cr3bp import system
     from cr3bp.catalog import Catalog
-    from cr3bp.graph_build import build_graph, plan, run_tasks
-    from cr3bp.network import best_routes, pareto_routes
-    from cr3bp.nodes import parse_nodes
+    from cr3bp.transfers.graph import build_graph, plan, run_tasks
+    from cr3bp.transfers.search import best_routes, pareto_routes
+    from cr3bp.transfers.nodes import parse_nodes
 
     em = system("earth-moon")
     nl = parse_nodes(_nodes_text(em), em)
-    from cr3bp.graph_build import resolve_orbits
+    from cr3bp.transfers.graph import resolve_orbits
     tasks, _ = plan(em, nl, orbits=resolve_orbits(em, nl))
     run_tasks(tasks[:2], workers=1)                       # warm caches
     t = time.perf_counter()

@@ -32,9 +32,9 @@ def _scipy_loop(system, starts, t_final, section):
 
 def run():
     from cr3bp import system
-    from cr3bp.connections import connect
-    from cr3bp.manifolds import grow_tube, manifold_starts, parse_until
-    from cr3bp.sections import parse_section
+    from cr3bp.tubes.connections import connect
+    from cr3bp.tubes.manifolds import grow_tube, manifold_starts, parse_until
+    from cr3bp.tubes.sections import parse_section
 
     em = system("earth-moon")
     halo, l1, l2 = _orbits(em)

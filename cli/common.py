@@ -346,7 +346,7 @@ def csv_text(headers, rows, comments=(), model: str = "cr3bp") -> str:
 
 def json_text(payload: dict, model: str = "cr3bp") -> str:
     from cr3bp.cautions import caution
-    from cr3bp.plain import json_default
+    from cr3bp.io.plain import json_default
     body = dict(payload)
     body.setdefault("caution", caution(model))
     return json.dumps(body, indent=2, default=json_default) + "\n"
@@ -372,7 +372,7 @@ def emit(args, *, payload: dict, headers=None, rows=None, table: str | None = No
             table = format_table(headers, rows)
         text = table + caution_footer(model)
     if args.out:
-        from cr3bp.atomic import write_text
+        from cr3bp.io.atomic import write_text
         write_text(args.out, text)
         progress(args, f"wrote {args.out}")
     else:

@@ -28,7 +28,7 @@ The compiled right-hand side and variational equations are in
 project's integrator, :mod:`cr3bp.integrate.dop853`).
 
 Constants: the Sun's and the Earth-Moon GMs from ``data/systems.toml``
-(:func:`cr3bp.systems.body`), the astronomical unit from :data:`cr3bp.units.AU_KM` (IAU 2012
+(:func:`cr3bp.systems.body`), the astronomical unit from :data:`cr3bp.constants.AU_KM` (IAU 2012
 Resolution B2) for the Sun-barycentre distance, the Earth-Moon distance of the system
 (384 400 km for ``earth-moon``). With those, ``m_s = 328 900.56``, ``a_s = 389.17``,
 ``omega_s = -0.925 30``; Boudad et al. (2020) quote 328 900.5, 388.81 and -0.925 195 from a
@@ -171,10 +171,10 @@ class BicircularSystem:
 
 def sun_parameters(system) -> tuple[float, float, float]:
     """``(m_s, a_s, omega_s)`` of the Sun for an Earth-Moon ``system``: the Sun's GM over the
-    primaries' GMs (``data/systems.toml``), 1 au (:data:`cr3bp.units.AU_KM`) over the
+    primaries' GMs (``data/systems.toml``), 1 au (:data:`cr3bp.constants.AU_KM`) over the
     system's length unit, and ``sqrt((1 + m_s) / a_s^3) - 1``."""
     from . import systems
-    from .units import AU_KM
+    from .constants import AU_KM
     if system.primary is None or system.secondary is None or not system.dimensional:
         raise InputError(f"system '{system.name}' has no named primaries with masses and units; "
                          "the Sun's mass ratio and distance cannot be formed")
@@ -225,14 +225,14 @@ def bicircular_system(system="earth-moon", *, sun_phase=0.0, epoch=None) -> Bici
 
 def _epoch_seconds(epoch) -> float:
     if isinstance(epoch, str):
-        from .frames import epoch_from_text
+        from .time.frames import epoch_from_text
         return epoch_from_text(epoch)
     return _finite("epoch", epoch)
 
 
 def sun_angles_at(epoch, system="earth-moon") -> tuple[float, float]:
     """The Sun's direction in the Earth-Moon rotating frame at a date, from the ephemeris
-    (:func:`cr3bp.ephemeris.state`): ``(phase, elevation)`` in rad.
+    (:func:`cr3bp.time.ephemeris.state`): ``(phase, elevation)`` in rad.
 
     The frame at the date: x from the Earth towards the Moon, z along the Moon's geocentric
     angular momentum r x v, y = z x x (the instantaneous rotating frame); the Sun's direction
@@ -242,8 +242,9 @@ def sun_angles_at(epoch, system="earth-moon") -> tuple[float, float]:
 
     ``epoch``: ISO 8601 text (UTC unless it names its scale) or TDB seconds since J2000.
     """
-    from . import ephemeris, systems
-    from .timescales import J2000_JD, Epoch
+    from . import systems
+    from .time import ephemeris
+    from .time.scales import J2000_JD, Epoch
     sys_ = systems.system(system) if isinstance(system, str) else system
     if getattr(sys_.secondary, "name", None) != "moon":
         raise InputError(f"the Sun's phase is defined for the earth-moon system; got '{sys_.name}'")

@@ -21,7 +21,7 @@ import time
 from pathlib import Path
 
 from .errors import InputError, LibrateError
-from .plain import json_default
+from .io.plain import json_default
 
 SCHEMA_VERSION = 1
 BUSY_TIMEOUT_S = 30.0

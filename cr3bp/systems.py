@@ -19,9 +19,8 @@ import tomllib
 from dataclasses import dataclass, field
 from importlib import resources
 
+from .constants import SECONDS_PER_DAY
 from .errors import InputError, UnknownSystemError, shown
-
-SECONDS_PER_DAY = 86400.0
 
 
 @dataclass(frozen=True)

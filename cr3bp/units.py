@@ -20,17 +20,16 @@ import math
 import re
 from dataclasses import dataclass
 
+from .constants import AU_KM, SECONDS_PER_DAY
 from .errors import UnitError
 from .errors import shown as _shown
-
-AU_KM = 149597870.7  # IAU 2012 Resolution B2
 
 # unit -> (dimension, factor to the SI-ish base: km, s, km/s); None factor = nondimensional
 _UNITS = {
     "m": ("length", 1e-3), "km": ("length", 1.0), "Mm": ("length", 1e3), "au": ("length", AU_KM),
     "LU": ("length", None),
-    "s": ("time", 1.0), "min": ("time", 60.0), "h": ("time", 3600.0), "d": ("time", 86400.0),
-    "yr": ("time", 365.25 * 86400.0), "TU": ("time", None),
+    "s": ("time", 1.0), "min": ("time", 60.0), "h": ("time", 3600.0), "d": ("time", SECONDS_PER_DAY),
+    "yr": ("time", 365.25 * SECONDS_PER_DAY), "TU": ("time", None),
     "m/s": ("velocity", 1e-3), "km/s": ("velocity", 1.0), "VU": ("velocity", None),
     "LU/TU": ("velocity", None),
 }

@@ -5,7 +5,7 @@ Centre (Paris Observatory) with each Bulletin C, as shipped in the PyPI package
 ``astropy-iers-data`` (a test extra of librate; the runtime reads only the copy written
 here). The copy records the package version, the file's SHA-256, the Bulletin it was updated
 through and its expiry date, which becomes the table's ``valid-until:`` line (UTC instants
-from that day on warn, see :mod:`cr3bp.timescales`).
+from that day on warn, see :mod:`cr3bp.time.scales`).
 
 Run after upgrading the package (``make leap-seconds``)::
 
@@ -80,7 +80,7 @@ def load() -> LeapFile:
 
 
 def render(f: LeapFile) -> str:
-    """The text of ``data/leap_seconds.txt`` (the layout :mod:`cr3bp.timescales` reads)."""
+    """The text of ``data/leap_seconds.txt`` (the layout :mod:`cr3bp.time.scales` reads)."""
     lines = [
         "# TAI-UTC (whole seconds) in force from 00:00:00 UTC of the date given, since 1972-01-01.",
         "#",
@@ -91,7 +91,7 @@ def render(f: LeapFile) -> str:
         "#",
         "# Written by data/refresh_leap_seconds.py; do not edit by hand: upgrade the package and",
         "# rerun the script (make leap-seconds). UTC instants on or after the valid-until date are",
-        "# converted with the last value and trigger cr3bp.timescales.LeapSecondsExpiredWarning.",
+        "# converted with the last value and trigger cr3bp.time.scales.LeapSecondsExpiredWarning.",
         "#",
         f"# valid-until: {f.expires}",
         "#",
@@ -108,7 +108,7 @@ def main(argv=None) -> int:
         print(f"refresh_leap_seconds: the package '{PACKAGE}' is not installed "
               f"(pip install {PACKAGE}, or make venv: it is a test extra)", file=sys.stderr)
         return 2
-    from cr3bp.atomic import write_text
+    from cr3bp.io.atomic import write_text
     write_text(TARGET, render(f))
     print(f"wrote {TARGET}: {len(f.steps)} steps, last {f.steps[-1][0]} ({f.steps[-1][1]} s), "
           f"valid until {f.expires} ({PACKAGE} {f.version})")

@@ -40,7 +40,7 @@ def sel1_transition(revs=4):
 
 
 def epoch_tdb_s(text=EPOCH):
-    from cr3bp import frames
+    from cr3bp.time import frames
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         return frames.epoch_from_text(text)

@@ -9,7 +9,7 @@ import pytest
 
 from fidelity_cases import nrho, nrho_transition, sel1_halo, sel1_transition
 
-pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.timescales.LeapSecondsExpiredWarning")
+pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.time.scales.LeapSecondsExpiredWarning")
 
 FEW_HUNDRED_KM = 500.0   # "a few hundred km" (common practice, from memory)
 

@@ -15,10 +15,10 @@ import numpy as np
 import pytest
 
 from cr3bp import plane, propagate, system
-from cr3bp.connections import necks_open, transit
+from cr3bp.tubes.connections import necks_open, transit
 from cr3bp.dynamics import omega
 from cr3bp.errors import NoSolutionError
-from cr3bp.manifolds import grow_tube
+from cr3bp.tubes.manifolds import grow_tube
 
 from _orbit_fixtures import collinear_x, lyapunov, point_jacobi
 

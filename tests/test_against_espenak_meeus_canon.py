@@ -16,7 +16,7 @@ another. Greatest eclipse here is the instant the Moon's centre (lunar) or the E
 import numpy as np
 import pytest
 
-from cr3bp import ephemeris, frames
+from cr3bp.time import ephemeris, frames
 from cr3bp.operations import eclipses
 
 TOL_S = 180.0

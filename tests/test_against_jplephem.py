@@ -19,9 +19,9 @@ import pytest
 
 spk = pytest.importorskip("jplephem.spk")
 
-from cr3bp import ephemeris as eph  # noqa: E402
-from cr3bp import ephemeris_tables as tables  # noqa: E402
-from cr3bp.timescales import Epoch  # noqa: E402
+from cr3bp.time import ephemeris as eph  # noqa: E402
+from cr3bp.time import ephemeris_tables as tables  # noqa: E402
+from cr3bp.time.scales import Epoch  # noqa: E402
 
 ONE_METER = 1e-3            # km
 ONE_MM_PER_S = 1e-6         # km/s
@@ -64,7 +64,7 @@ def _reference(kernel, body, epochs):
 
 def test_kernel_is_the_checked_file():
     """The package's file is the one this code was checked on (SHA-256 recorded in
-    cr3bp.ephemeris_tables), and its segments are what both readers see."""
+    cr3bp.time.ephemeris_tables), and its segments are what both readers see."""
     assert tables.sha256(tables.kernel_path()) == tables.KERNEL_SHA256
     k = spk.SPK.open(tables.kernel_path())
     try:

@@ -312,8 +312,8 @@ def test_resonances_not_offered_are_refused_before_any_work(capsys, tmp_path, ra
     secondary: one line, exit 2, from the command line and from the scenario check."""
     from pathlib import Path
 
-    from cr3bp import mission
-    from cr3bp.scenario_schema import ScenarioError
+    from cr3bp.scenario import run as mission
+    from cr3bp.scenario.schema import ScenarioError
     rc = main(["orbit", "--system", "jupiter-europa", "--family", "resonant", "--ratio", ratio,
                "--perilune", "5000km", "-q"])
     err = capsys.readouterr().err

@@ -18,7 +18,7 @@ import numpy as np
 import pytest
 
 from cr3bp import system
-from cr3bp.connections import connect
+from cr3bp.tubes.connections import connect
 from cr3bp.dynamics import jacobi
 
 from _orbit_fixtures import collinear_x, lyapunov, point_jacobi

@@ -25,7 +25,7 @@ import numpy as np
 import pytest
 
 from cr3bp import propagate, system
-from cr3bp.connections import connect
+from cr3bp.tubes.connections import connect
 from cr3bp.dynamics import jacobi
 
 from _orbit_fixtures import lyapunov, point_jacobi

@@ -9,8 +9,8 @@ published rounding and the difference between Meeus' lunar theory and DE421.
 
 import numpy as np
 
-from cr3bp import ephemeris as eph
-from cr3bp.timescales import parse_iso
+from cr3bp.time import ephemeris as eph
+from cr3bp.time.scales import parse_iso
 
 LEAST_PERIGEE_KM = 356375.0     # Meeus 1997, ch. 2 (from memory)
 GREATEST_APOGEE_KM = 406720.0   # Meeus 1997, ch. 2 (from memory)

@@ -13,7 +13,7 @@ import pytest
 from hypothesis import given, settings, strategies as st
 
 from cr3bp.errors import InputError, NoSolutionError
-from cr3bp.network import Constraints, add_leg, best_routes, iter_routes, pareto_routes
+from cr3bp.transfers.search import Constraints, add_leg, best_routes, iter_routes, pareto_routes
 
 
 def random_graph(seed, n=7, p=0.35, multi=2):

@@ -14,15 +14,16 @@ import pytest
 oem = pytest.importorskip("oem")
 from astropy.time import Time  # noqa: E402  (installed with oem)
 
-from cr3bp import frames, propagate, system  # noqa: E402
-from cr3bp import export  # noqa: E402
+from cr3bp.time import frames  # noqa: E402
+from cr3bp import propagate, system  # noqa: E402
+from cr3bp.io import export  # noqa: E402
 
 ONE_MM_KM = 1e-6
 ONE_UM_S_KMS = 1e-9
 EM = system("earth-moon")
 # astropy warns that UTC in 2031 is beyond its leap-second table ("dubious year"): expected
 pytestmark = [pytest.mark.filterwarnings("ignore:ERFA function"),
-              pytest.mark.filterwarnings("ignore::cr3bp.timescales.LeapSecondsExpiredWarning")]
+              pytest.mark.filterwarnings("ignore::cr3bp.time.scales.LeapSecondsExpiredWarning")]
 
 HEADER_MANDATORY = ["CCSDS_OEM_VERS", "CREATION_DATE", "ORIGINATOR"]
 METADATA_MANDATORY = ["OBJECT_NAME", "OBJECT_ID", "CENTER_NAME", "REF_FRAME", "TIME_SYSTEM",

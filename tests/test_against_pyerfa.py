@@ -11,7 +11,7 @@ import pytest
 
 erfa = pytest.importorskip("erfa")
 
-from cr3bp import timescales as ts  # noqa: E402
+from cr3bp.time import scales as ts  # noqa: E402
 
 ONE_MICROSECOND = 1e-6
 ONE_NANOSECOND = 1e-9
@@ -107,12 +107,12 @@ def test_tt_tdb_via_epoch():
 # 23 mas frame bias is far below every tolerance here.
 #
 # DE421 (the default model) against pyerfa: the differences are pyerfa's models' own
-# published errors; the bounds (cr3bp.ephemeris.ACCURACY) are those published worst errors
+# published errors; the bounds (cr3bp.time.ephemeris.ACCURACY) are those published worst errors
 # plus 10 %, each quoted there. The analytic series (model="series", the labelled fallback
-# outside DE421's span) keeps its own bounds (cr3bp.ephemeris.SERIES_ACCURACY).
+# outside DE421's span) keeps its own bounds (cr3bp.time.ephemeris.SERIES_ACCURACY).
 
-from cr3bp import ephemeris as eph  # noqa: E402
-from cr3bp import ephemeris_series as series  # noqa: E402
+from cr3bp.time import ephemeris as eph  # noqa: E402
+from cr3bp.time import ephemeris_series as series  # noqa: E402
 
 ONE_KM = 1.0
 ONE_ARCSEC = np.pi / 180 / 3600

@@ -9,7 +9,7 @@ at most GM * 2 ds (1/|s - r|^3 + 1/|s|^3), and, as the direct and indirect terms
 together, also at most 24 GM ds |r| / (|s| - |r|)^4 (the third derivatives of 1/|x| contract
 to at most 24/|x|^4 with unit vectors); the smaller of the two is used. The position errors are
 the bounds on the differences between DE421 (the model's tables) and these pyerfa models, from
-their published errors (cr3bp.ephemeris.ACCURACY: Moon/Earth 34.9 km, Sun/Earth 12.3 km,
+their published errors (cr3bp.time.ephemeris.ACCURACY: Moon/Earth 34.9 km, Sun/Earth 12.3 km,
 Jupiter/Sun 352 510 km), plus 1 m for the Chebyshev fit (tests/test_fidelity.py).
 """
 
@@ -20,10 +20,10 @@ import pytest
 
 erfa = pytest.importorskip("erfa")
 
-from cr3bp import ephemeris as eph  # noqa: E402
+from cr3bp.time import ephemeris as eph  # noqa: E402
 from cr3bp import system  # noqa: E402
 from cr3bp.fidelity import model as fm  # noqa: E402
-from cr3bp.frames import _epoch  # noqa: E402
+from cr3bp.time.frames import _epoch  # noqa: E402
 
 pytestmark = pytest.mark.filterwarnings("ignore::erfa.ErfaWarning")
 

@@ -9,7 +9,8 @@ import pytest
 
 erfa = pytest.importorskip("erfa")
 
-from cr3bp import frames, system  # noqa: E402
+from cr3bp.time import frames  # noqa: E402
+from cr3bp import system  # noqa: E402
 
 ONE_MAS_RAD = math.pi / (180 * 3600 * 1000)
 AU_KM = 149597870.7
@@ -22,7 +23,7 @@ def test_obliquity_is_iau_2006_at_j2000():
 
 
 def test_one_j2000_ecliptic_in_the_project():
-    from cr3bp import ephemeris
+    from cr3bp.time import ephemeris
     assert np.allclose(frames.ECL_FROM_EQ, ephemeris.ecliptic_to_equator_matrix().T, rtol=0, atol=1e-16)
 
 
@@ -37,7 +38,7 @@ def test_ecliptic_rotation_matches_erfa_ecliptic_matrix_sense():
     assert abs((ra % (2 * math.pi)) - 1.5 * math.pi) < 1e-12 and abs(dec - (math.pi / 2 - e)) < 1e-12
 
 
-@pytest.mark.filterwarnings("ignore::cr3bp.timescales.LeapSecondsExpiredWarning")
+@pytest.mark.filterwarnings("ignore::cr3bp.time.scales.LeapSecondsExpiredWarning")
 def test_utc_epoch_to_tdb_matches_erfa():
     """2031-03-01T00:00:00 UTC -> TDB with erfa's chain (utctai, taitt, dtdb)."""
     import warnings
@@ -57,7 +58,7 @@ def test_utc_epoch_to_tdb_matches_erfa():
 # states). The CR3BP places the Earth-Moon barycentre; the Earth or the Moon inside it comes
 # from the ephemeris. Checked against pyerfa: erfa.epv00 (Earth about the Sun, BCRS axes)
 # and erfa.moon98 (Moon about the Earth, GCRS; Meeus 1998 ch. 47 as truncated in ERFA).
-# Tolerances: our ephemeris' documented bounds against these same routines (cr3bp.ephemeris
+# Tolerances: our ephemeris' documented bounds against these same routines (cr3bp.time.ephemeris
 # ACCURACY: Sun/Earth 22 000 km, 3 m/s over 1900-2050; Moon/Earth 2.5 km) widened to cover a
 # full-ephemeris Moon (moon98's own documented worst against ELP/MPP02: 31.7 km, 0.17 m/s).
 

@@ -3,7 +3,7 @@ the IAU SOFA routines; a test-only dependency).
 
 - Positions: ``erfa.epv00`` (Earth about the Sun, Bretagnon & Francou VSOP87 fit) and
   ``erfa.moon98`` (Moon about the Earth, Meeus 1998 ch. 47 series) give the Sun and the Moon
-  about the Earth, independently of cr3bp.ephemeris.
+  about the Earth, independently of cr3bp.time.ephemeris.
 - Visible fraction: an independent 3-D ray cast (rays from the spacecraft to a grid of points
   on the Sun's disc, each tested against the occulting sphere), not the closed-form
   circle-overlap area of Montenbruck & Gill (2000) sec. 3.4.2 that cr3bp.operations implements.
@@ -19,7 +19,7 @@ import pytest
 
 erfa = pytest.importorskip("erfa")
 
-from cr3bp import frames  # noqa: E402
+from cr3bp.time import frames  # noqa: E402
 from cr3bp.operations import eclipses, phasing, visibility  # noqa: E402
 
 AU_KM = 149597870.7          # IAU 2012 Resolution B2
@@ -99,7 +99,7 @@ def test_cases_cover_umbra_penumbra_antumbra_and_clear():
 
 
 def test_project_ephemeris_shadow_against_pyerfa_positions():
-    """The Sun and the Moon the eclipse search uses (cr3bp.ephemeris) against pyerfa's: the
+    """The Sun and the Moon the eclipse search uses (cr3bp.time.ephemeris) against pyerfa's: the
     fractions agree to 0.03 at penumbral points (the analytic Sun is ~1e-4 rad off, about 1% of
     a penumbra's angular width)."""
     t0 = frames.epoch_from_text("2031-03-01T00:00:00Z")

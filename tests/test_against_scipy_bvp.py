@@ -2,7 +2,7 @@
 
 scipy.integrate.solve_bvp (a collocation method of Kierzenka & Shampine, "A BVP solver based
 on residual control and the MATLAB PSE", ACM TOMS 27, 2001) solves the same two-point problem
-as :func:`cr3bp.targeting.solve_departure` — CR3BP motion with the position fixed at both ends
+as :func:`cr3bp.transfers.targeting.solve_departure` — CR3BP motion with the position fixed at both ends
 and a fixed time of flight — by a method that shares nothing with our shooting: no state
 transition matrix, no propagator. Both departure velocities must agree.
 """
@@ -12,7 +12,7 @@ import pytest
 from scipy.integrate import solve_bvp
 
 from cr3bp.integrate.reference import eom_numpy
-from cr3bp.targeting import solve_departure
+from cr3bp.transfers.targeting import solve_departure
 
 from graph_fixtures import perturbed_states
 

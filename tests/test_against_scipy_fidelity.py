@@ -17,7 +17,7 @@ from cr3bp.fidelity import model as fm
 
 from fidelity_cases import nrho_transition, sel1_transition
 
-pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.timescales.LeapSecondsExpiredWarning")
+pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.time.scales.LeapSecondsExpiredWarning")
 
 
 def _check(tr):

@@ -6,7 +6,7 @@ Reference: scipy's ``solve_ivp`` with its DOP853 method (Hairer, Norsett & Wanne
 Ordinary Differential Equations I*, 2nd ed., 1993) on the equations of motion written out in
 tests/_independent_cr3bp.py re-propagates each leg to its arrival time and samples the target
 orbit; the distance to the orbit is computed here by brute force over every segment of that
-sampled path (nothing shared with cr3bp.connections.distance_to_path).
+sampled path (nothing shared with cr3bp.tubes.connections.distance_to_path).
 """
 
 import json
@@ -19,11 +19,11 @@ from scipy.integrate import solve_ivp
 from _independent_cr3bp import rhs
 
 from cr3bp import system
-from cr3bp.connections import connect, parking_legs
+from cr3bp.tubes.connections import connect, parking_legs
 from cr3bp.orbits.request import solve_request
 from librate_cli.main import main
 
-pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.timescales.LeapSecondsExpiredWarning")
+pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.time.scales.LeapSecondsExpiredWarning")
 
 SE = system("sun-earth")
 EM = system("earth-moon")
@@ -217,7 +217,7 @@ corridors = false
 
 
 def test_sun_earth_scenario_run_reports_the_arrival_time(tmp_path):
-    from cr3bp import mission
+    from cr3bp.scenario import run as mission
     from cr3bp.catalog import Catalog
     p = tmp_path / "s.toml"
     p.write_text(SCENARIO)

@@ -648,7 +648,7 @@ def test_read_only_folder_is_refused_before_work(capsys, tmp_path):
 def test_a_failing_write_is_one_line_and_leaves_nothing(capsys, tmp_path, monkeypatch, code, status, cmd):
     """The file system refuses the write after the checks passed (a full disk, a permission
     change): one line, a documented status, no partial or temporary file."""
-    import cr3bp.atomic as atomic
+    import cr3bp.io.atomic as atomic
     real_fdopen = os.fdopen
 
     class Failing:
@@ -830,9 +830,11 @@ def test_svg_figures_are_byte_identical(capsys, tmp_path):
 def test_oem_writer_refuses_a_bad_creation_date_and_control_characters(tmp_path):
     import numpy as np
 
-    from cr3bp import export, frames, system
+    from cr3bp.io import export
+    from cr3bp import system
+    from cr3bp.time import frames
     from cr3bp.errors import InputError
-    from cr3bp.export import write
+    from cr3bp.io.export import write
     s = system("earth-moon")
     spec = frames.frame(s, "2031-03-01T00:00:00Z")
     seg = export.Segment(np.array([0.0, 0.01]), np.array([[1.1, 0, 0, 0, -0.15, 0]] * 2))

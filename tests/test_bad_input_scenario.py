@@ -479,7 +479,7 @@ def test_span_in_periods_too_fine_is_refused_before_writing(tmp_path, capsys, ca
 def test_disk_full_mid_run_leaves_the_folder_as_it_was(tmp_path, capsys, catalog, monkeypatch):
     """ENOSPC on the third file written: one line, exit 1, and the output folder holds what it
     held before (here one file of the user's) and nothing else."""
-    from cr3bp import atomic
+    from cr3bp.io import atomic
     real = atomic.writing
     calls = {"n": 0}
 

@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 
 from cr3bp import system
-from cr3bp.checks import altitude_km, angle_at_earth_deg, occultation_clearance_km
+from cr3bp.scenario.checks import altitude_km, angle_at_earth_deg, occultation_clearance_km
 
 EM = system("earth-moon")
 

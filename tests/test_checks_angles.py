@@ -14,19 +14,19 @@ import pytest
 from _independent_cr3bp import propagate as reference_propagate
 
 from cr3bp import system
-from cr3bp.checks import angle_at_earth_deg, run_checks
-from cr3bp.frames import epoch_from_text
+from cr3bp.scenario.checks import angle_at_earth_deg, run_checks
+from cr3bp.time.frames import epoch_from_text
 from cr3bp.orbits.request import solve_request
 
 erfa = pytest.importorskip("erfa")
 pytestmark = [pytest.mark.filterwarnings("ignore::erfa.ErfaWarning"),
-              pytest.mark.filterwarnings("ignore::cr3bp.timescales.LeapSecondsExpiredWarning")]
+              pytest.mark.filterwarnings("ignore::cr3bp.time.scales.LeapSecondsExpiredWarning")]
 
 EPOCH = "2031-03-01T00:00:00Z"
 SE = system("sun-earth")
 EM = system("earth-moon")
 #: The library's ephemeris differs from pyerfa by up to 30 arcsec in the Sun-Earth direction
-#: and 1.3 arcsec in the Moon's (cr3bp.ephemeris.ACCURACY); the EME2000 axes differ from pyerfa's
+#: and 1.3 arcsec in the Moon's (cr3bp.time.ephemeris.ACCURACY); the EME2000 axes differ from pyerfa's
 #: GCRS/BCRS axes by 23 mas (frame bias). 0.02 degree = 72 arcsec covers both.
 DIRECTION_TOL_DEG = 0.02
 N = 400
@@ -180,8 +180,8 @@ def test_scenario_check_refuses_before_writing(tmp_path, capsys, sysname, az, ke
 
 def test_scenario_runs_the_new_angle_checks(tmp_path):
     """A Sun-Earth scenario through prepare and run_checks as `librate run` calls them."""
-    from cr3bp import mission
-    from cr3bp.checks import run_checks
+    from cr3bp.scenario import run as mission
+    from cr3bp.scenario.checks import run_checks
     p = tmp_path / "s.toml"
     p.write_text(SCENARIO.format(system="sun-earth", az="200000km", key="min_angle_at_earth_from_sun_deg")
                  + "min_angle_at_earth_from_moon_deg = 0.1\n")

@@ -8,12 +8,14 @@ import sys
 import numpy as np
 import pytest
 
-from cr3bp import export, frames, propagate, system
+from cr3bp.io import export
+from cr3bp import propagate, system
+from cr3bp.time import frames
 from librate_cli.main import main
 
 EM = system("earth-moon")
 # UTC in the 2030s is past the leap-second table: the time-scale module warns, as it should
-pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.timescales.LeapSecondsExpiredWarning")
+pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.time.scales.LeapSecondsExpiredWarning")
 STATE = "1.15,0,0.12,0,-0.2,0"
 BASE = ["export", "--system", "earth-moon", f"--state={STATE}", "--period", "3.1TU",
         "--epoch", "2031-03-01T00:00:00Z", "--span", "1periods", "--step", "2h", "-q"]

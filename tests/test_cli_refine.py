@@ -27,7 +27,7 @@ def test_table_oem_and_plot(capsys, tmp_path):
     assert "min_r_moon_km" in out and "CAUTION:" in out
     assert "iteration 0" in err
     assert png.stat().st_size > 10000
-    from cr3bp import export
+    from cr3bp.io import export
     data = export.read(oem)
     seg = data.segments[0]
     assert data.header.get("CENTER_NAME", "MOON").upper() == "MOON"

@@ -169,7 +169,7 @@ def test_route_oem_with_an_epoch(capsys, nodes_file):
     saved = json.loads((out_dir / "route.json").read_text())
     key = "dv_exported_mps[route.oem]"
     assert "CR3BP" in saved["dv_models"]["dv_design_mps"] and "route.oem" in saved["dv_models"][key]
-    from cr3bp import export
+    from cr3bp.io import export
     read = export.read(out_dir / "route.oem")
     text = (out_dir / "route.oem").read_text()
     for m in saved["maneuvers"]:

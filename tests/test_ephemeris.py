@@ -4,11 +4,11 @@ the labelled fallback to the analytic series, the kernel file's checks."""
 import numpy as np
 import pytest
 
-from cr3bp import ephemeris as eph
-from cr3bp import ephemeris_series as series
-from cr3bp import ephemeris_tables as tables
+from cr3bp.time import ephemeris as eph
+from cr3bp.time import ephemeris_series as series
+from cr3bp.time import ephemeris_tables as tables
 from cr3bp.errors import EphemerisSpanError, InputError
-from cr3bp.timescales import parse_iso
+from cr3bp.time.scales import parse_iso
 
 ONE_KM = 1.0
 ONE_METER = 1e-3
@@ -185,7 +185,7 @@ def test_many_epochs_interpolate_tdb(monkeypatch):
     """For many epochs TDB - TT is interpolated between quarter-day nodes (module docstring
     bound: 3 ns); against the series summed at every epoch it stays within 5 ns, and the
     Earth about the Sun within 1 mm of the epoch-by-epoch path."""
-    from cr3bp import timescales
+    from cr3bp.time import scales as timescales
     t = parse_iso("2031-03-01T00:00:00 TDB") + np.linspace(0.0, 5 * 365.25 * 86400.0, 100_001)
     sizes = []
     real = timescales.tdb_minus_tt

@@ -5,8 +5,9 @@ import json
 import numpy as np
 import pytest
 
-from cr3bp import frames, propagate, system
-from cr3bp import export
+from cr3bp.time import frames
+from cr3bp import propagate, system
+from cr3bp.io import export
 from cr3bp.errors import InputError
 from cr3bp.orbits import PeriodicOrbit
 
@@ -14,7 +15,7 @@ ONE_MM_KM = 1e-6
 ONE_UM_S_KMS = 1e-9
 EM = system("earth-moon")
 # UTC in the 2030s is past the leap-second table: the time-scale module warns, as it should
-pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.timescales.LeapSecondsExpiredWarning")
+pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.time.scales.LeapSecondsExpiredWarning")
 STATE = [1.15, 0.0, 0.12, 0.0, -0.2, 0.0]
 
 
@@ -265,7 +266,7 @@ def test_written_files_have_ordinary_permissions(tmp_path):
     file the user creates (0o666 less the umask), and an existing file keeps its mode."""
     import os
     import stat
-    from cr3bp.atomic import NEW_FILE_MODE
+    from cr3bp.io.atomic import NEW_FILE_MODE
     p = export.write_csv(tmp_path / "t.csv", _traj())
     assert stat.S_IMODE(os.stat(p).st_mode) == NEW_FILE_MODE
     os.chmod(p, 0o640)

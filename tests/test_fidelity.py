@@ -6,7 +6,8 @@ import warnings
 import numpy as np
 import pytest
 
-from cr3bp import ephemeris, frames, system
+from cr3bp.time import ephemeris, frames
+from cr3bp import system
 from cr3bp.errors import ConvergenceError, InputError
 from cr3bp.fidelity import model as fm
 from cr3bp.fidelity import transition as ftr
@@ -18,11 +19,11 @@ ONE_METER = 1e-3  # km
 ONE_MM_PER_S = 1e-6  # km/s
 ONE_CENTIMETER = 1e-5  # km
 
-pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.timescales.LeapSecondsExpiredWarning")
+pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.time.scales.LeapSecondsExpiredWarning")
 
 
 def test_series_reproduce_the_tables():
-    """Chebyshev series of every body within 5 cm of DE421 (cr3bp.ephemeris) over a year
+    """Chebyshev series of every body within 5 cm of DE421 (cr3bp.time.ephemeris) over a year
     (measured 0.1 mm for the Earth, 3-8 mm for the Sun and the inner planets, 1 cm for Neptune:
     the rounding of positions of 1e8-5e9 km), and the model says its source."""
     s = system("earth-moon")

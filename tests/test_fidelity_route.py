@@ -21,7 +21,7 @@ from librate_cli.main import main
 
 from graph_fixtures import node_list_text, perturbed_states
 
-pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.timescales.LeapSecondsExpiredWarning")
+pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.time.scales.LeapSecondsExpiredWarning")
 
 EPOCH = "2031-03-01T00:00:00Z"
 S = system("earth-moon")
@@ -86,7 +86,7 @@ def test_start_and_end_positions_held(refined):
     assert np.abs(tr.patches_km[-1, :3] - tr.initial_km[-1, :3]).max() < POS_TOL_KM
     # the route's nodes p1 and p2 (junctions of legs; fixed points of the rotating frame) are
     # passed at their places converted at the (moved) maneuver epochs
-    from cr3bp import frames
+    from cr3bp.time import frames
     from cr3bp.fidelity.transition import _cr3bp_to_inertial
     assert tr.options["held_nodes"] == ["p1", "p2"]
     t, st, _ = refined[1]
@@ -163,7 +163,7 @@ def test_circular_model_gives_back_the_cr3bp_route(refined):
     CR3BP on inertial axes. Continuity alone (no optimisation) then returns the route itself:
     within 1 m, 1 mm/s at equal epochs, and each maneuver's Δv to 1 mm/s. With the
     optimisation (interior times free) the total can only drop: the route is feasible."""
-    from cr3bp import frames
+    from cr3bp.time import frames
     _, (t, st, man) = refined
     spec = frames.frame(S, EPOCH, anchor="circular", axes="j2000-equator", center="secondary")
 

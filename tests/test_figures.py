@@ -72,7 +72,7 @@ def halo():
 
 @pytest.fixture(scope="module")
 def halo_tube(halo):
-    from cr3bp.manifolds import grow_tube
+    from cr3bp.tubes.manifolds import grow_tube
     return grow_tube(halo, "unstable", "interior", 16, "section:x=1-mu")
 
 
@@ -300,7 +300,7 @@ def test_no_periapsis_map_file_when_nothing_is_found(tmp_path):
 
 
 def test_periapsis_plot_refuses_an_empty_map():
-    from cr3bp.connections import periapsis_map
+    from cr3bp.tubes.connections import periapsis_map
     from cr3bp.errors import NoSolutionError
     from cr3bp.plotting.manifolds import plot_periapsis_map
     pm = periapsis_map(lyapunov(EM, "L1", 3.15), "moon", "unstable", "interior", 4, t_max=0.05)
@@ -313,7 +313,7 @@ def test_periapsis_plot_refuses_an_empty_map():
 
 def test_caution_once_per_figure_and_once_per_report(tmp_path, halo):
     import matplotlib.pyplot as plt
-    from cr3bp import report
+    from cr3bp.scenario import page as report
     from cr3bp.plotting import save
     from cr3bp.plotting.orbits import plot_orbit
     fig = plot_orbit(halo)

@@ -4,7 +4,8 @@ import numpy as np
 import pytest
 from scipy.integrate import solve_ivp
 
-from cr3bp import frames, propagate, system
+from cr3bp.time import frames
+from cr3bp import propagate, system
 from cr3bp.errors import InputError
 
 ONE_METER_KM = 1e-3
@@ -18,7 +19,7 @@ SERIES_TOL_KMS = 5 * ONE_UM_S_KMS
 
 EM = system("earth-moon")
 # UTC in the 2030s is past the leap-second table: the time-scale module warns, as it should
-pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.timescales.LeapSecondsExpiredWarning")
+pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.time.scales.LeapSecondsExpiredWarning")
 EPOCHS = ["2031-03-01T00:00:00Z", "2026-07-15T06:30:00 TDB", "2040-12-31T23:59:59.5 TT"]
 
 

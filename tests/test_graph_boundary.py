@@ -7,8 +7,8 @@ import pytest
 
 from cr3bp import system
 from cr3bp.dynamics import jacobi
-from cr3bp.graph_build import build_graph
-from cr3bp.nodes import parse_nodes
+from cr3bp.transfers.graph import build_graph
+from cr3bp.transfers.nodes import parse_nodes
 
 EM = system("earth-moon")
 NODES = """

@@ -6,13 +6,13 @@ import json
 import numpy as np
 import pytest
 
-from cr3bp import graph_build
+from cr3bp.transfers import graph as graph_build
 from cr3bp.catalog import Catalog
 from cr3bp.dynamics import jacobi
 from cr3bp.errors import InputError
-from cr3bp.graph_build import build_graph, leg_json, plan
-from cr3bp.nodes import OrbitNode, ParkingNode, find_node, node_state, parse_nodes
-from cr3bp.scenario_schema import ScenarioError
+from cr3bp.transfers.graph import build_graph, leg_json, plan
+from cr3bp.transfers.nodes import OrbitNode, ParkingNode, find_node, node_state, parse_nodes
+from cr3bp.scenario.schema import ScenarioError
 
 from graph_fixtures import arc_states, node_list_text, perturbed_states
 

@@ -9,8 +9,8 @@ import pytest
 from cr3bp import propagate, system
 from cr3bp.dynamics import jacobi
 from cr3bp.errors import InputError, NoSolutionError
-from cr3bp.manifolds import (default_step_km, grow_tube, hyperbolic_modes, manifold_starts,
-                             parse_until, point_tube)
+from cr3bp.tubes.manifolds import (default_step_km, grow_tube, hyperbolic_modes, manifold_starts, parse_until,
+    point_tube)
 
 from _orbit_fixtures import collinear_x, lyapunov, point_jacobi
 

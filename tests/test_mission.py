@@ -188,7 +188,7 @@ def test_demo_scenario_end_to_end(tmp_path):
     multi-leg route stitched with a phasing coast, OEM and CSV exports, report, manifest."""
     from oem import OrbitEphemerisMessage
 
-    from cr3bp import mission
+    from cr3bp.scenario import run as mission
     from cr3bp.catalog import Catalog
     plan = mission.prepare(Path(__file__).parent.parent / "examples" / "farlight.toml")
     res = mission.run(plan, tmp_path / "out", catalog=Catalog(tmp_path / "c.sqlite"), reduced=True)
@@ -212,7 +212,7 @@ def test_demo_scenario_end_to_end(tmp_path):
     # the seam design -> export (issue: the report said 631.5 m/s where the maneuver file said
     # 661.2 m/s, unlabelled): every maneuver file, the route JSON and the report carry the
     # design (CR3BP) Δv and the Δv measured on the exported trajectory side by side, labelled
-    from cr3bp import export
+    from cr3bp.io import export
     key = "dv_exported_mps[llo-to-relay.csv]"
     design = [m["dv_mps"] for m in st["maneuvers"]]
     assert [m["dv_design_mps"] for m in route["maneuvers"]] == design

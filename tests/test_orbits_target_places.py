@@ -105,8 +105,8 @@ def test_cli_lists_the_places_and_says_so():
 def test_scenario_occurrence_is_checked_with_file_and_line(tmp_path):
     from pathlib import Path
 
-    from cr3bp import mission
-    from cr3bp.scenario_schema import ScenarioError
+    from cr3bp.scenario import run as mission
+    from cr3bp.scenario.schema import ScenarioError
     text = (Path(__file__).parent.parent / "examples" / "farlight.toml").read_text()
     bad = tmp_path / "s.toml"
     bad.write_text(text.replace('resonance = "9:2"', 'resonance = "9:2"\noccurrence = 0'))
@@ -118,7 +118,7 @@ def test_scenario_occurrence_is_checked_with_file_and_line(tmp_path):
 
 
 def test_the_report_says_which_place_was_used(both):
-    from cr3bp.mission_report import places_note
+    from cr3bp.scenario.report import places_note
     text = places_note(both[1].to_dict())
     assert "met at 2 places" in text and "this is place 2" in text and "'occurrence'" in text
     assert places_note(solve_request(EM, "halo L2 south period=6.5626d").to_dict()) == ""

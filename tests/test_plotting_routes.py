@@ -3,12 +3,12 @@
 import numpy as np
 import pytest
 
-from cr3bp.graph_build import build_graph
-from cr3bp.network import best_routes, pareto_routes
-from cr3bp.nodes import parse_nodes
+from cr3bp.transfers.graph import build_graph
+from cr3bp.transfers.search import best_routes, pareto_routes
+from cr3bp.transfers.nodes import parse_nodes
 from cr3bp.plotting import save
 from cr3bp.plotting.routes import plot_corridor, plot_graph, plot_pareto
-from cr3bp.stitch import stitch_route
+from cr3bp.transfers.stitch import stitch_route
 
 from graph_fixtures import node_list_text, perturbed_states
 

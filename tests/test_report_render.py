@@ -2,7 +2,7 @@
 
 from _chromium import render
 
-from cr3bp import report
+from cr3bp.scenario import page as report
 from cr3bp.cautions import CAUTION
 
 def make_report(tmp_path, extra_img=None):

@@ -2,7 +2,7 @@
 
 import pytest
 
-from cr3bp.scenario_schema import ScenarioError, load
+from cr3bp.scenario.schema import ScenarioError, load
 
 GOOD = """
 [mission]

@@ -7,7 +7,7 @@ from pathlib import Path
 
 import pytest
 
-from cr3bp import mission
+from cr3bp.scenario import run as mission
 from librate_cli.main import main
 
 ROOT = Path(__file__).resolve().parents[1]

@@ -8,8 +8,8 @@ import pytest
 from cr3bp import propagate, system
 from cr3bp.dynamics import jacobi
 from cr3bp.errors import InputError
-from cr3bp.sections import (Crossings, apsis, crossings, hyperplane, parse_section,
-                            points_in_polygon, sphere)
+from cr3bp.tubes.sections import (Crossings, apsis, crossings, hyperplane, parse_section, points_in_polygon,
+    sphere)
 
 EM = system("earth-moon")
 ONE_METER_LU = 1e-3 / EM.length_km
@@ -150,7 +150,7 @@ def test_half_plane_counts_only_crossings_inside_the_bound():
 
 
 def test_tube_stopped_by_a_half_plane_ends_inside_it():
-    from cr3bp.manifolds import Stop, grow_tube
+    from cr3bp.tubes.manifolds import Stop, grow_tube
     from _orbit_fixtures import lyapunov
     o = lyapunov(EM, "L1", 3.15)
     sec = parse_section("y=0,x<0", EM)

@@ -5,12 +5,14 @@ import json
 import numpy as np
 import pytest
 
-from cr3bp import export, frames, system
+from cr3bp import system
+from cr3bp.io import export
+from cr3bp.time import frames
 from cr3bp.operations import eclipses, phasing, placement, visibility
 from cr3bp.orbits.request import solve_request
 from librate_cli.main import main
 
-pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.timescales.LeapSecondsExpiredWarning")
+pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.time.scales.LeapSecondsExpiredWarning")
 EM = system("earth-moon")
 EPOCH = "2031-03-01T00:00:00Z"
 NRHO = "halo L2 south resonance=9:2"

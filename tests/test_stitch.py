@@ -4,13 +4,13 @@ Jacobi constant changing only at maneuvers and by the amount the impulse implies
 import numpy as np
 import pytest
 
-from cr3bp import stitch
+from cr3bp.transfers import stitch
 from cr3bp.dynamics import jacobi
 from cr3bp.errors import ConvergenceError
-from cr3bp.graph_build import build_graph
+from cr3bp.transfers.graph import build_graph
 from cr3bp.integrate import propagate_scipy
-from cr3bp.network import Constraints, best_routes
-from cr3bp.nodes import parse_nodes
+from cr3bp.transfers.search import Constraints, best_routes
+from cr3bp.transfers.nodes import parse_nodes
 
 from graph_fixtures import arc_states, node_list_text, perturbed_states
 
@@ -160,7 +160,7 @@ def test_one_leg_sun_earth_route_stitches_with_physical_tolerances():
     from _orbit_fixtures import halo_az
 
     from cr3bp import system
-    from cr3bp.connections import parking_legs
+    from cr3bp.tubes.connections import parking_legs
     se = system("sun-earth")
     orbit = halo_az(se, "L1", 2.4e-3)
     leg = stitch.leg_from_connection(se, parking_legs(orbit, "earth", 200.0, n_points=48, t_max=6.0)[0])

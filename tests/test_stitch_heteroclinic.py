@@ -1,4 +1,4 @@
-"""A route of one heteroclinic leg (the manifold connections of cr3bp.connections) built
+"""A route of one heteroclinic leg (the manifold connections of cr3bp.tubes.connections) built
 through the graph and stitched: it costs zero Δv to tolerance and keeps one Jacobi constant.
 
 Planar Lyapunov orbits about Earth-Moon L1 and L2 at C = 3.15 are joined by the unstable
@@ -12,10 +12,10 @@ import pytest
 
 from cr3bp import system
 from cr3bp.dynamics import jacobi
-from cr3bp.graph_build import build_graph
-from cr3bp.network import best_routes
-from cr3bp.nodes import parse_nodes
-from cr3bp.stitch import stitch_route
+from cr3bp.transfers.graph import build_graph
+from cr3bp.transfers.search import best_routes
+from cr3bp.transfers.nodes import parse_nodes
+from cr3bp.transfers.stitch import stitch_route
 
 ONE_MM_PER_S = 1e-3
 
@@ -57,7 +57,7 @@ def test_one_heteroclinic_leg_stitches_to_zero_dv():
     C = jacobi(em.mu, res.states)
     assert np.ptp(C) < 1e-9 and C[0] == pytest.approx(3.15, abs=1e-6)
     # the declared burn, and the end's trim impulse (the end state is not held whole: see
-    # cr3bp.stitch; the whole total is under 1 mm/s, so the trim is too)
+    # cr3bp.transfers.stitch; the whole total is under 1 mm/s, so the trim is too)
     assert [m["node"] for m in res.maneuvers if not m["trim"]] == ["patch point"]
     assert [m["node"] for m in res.maneuvers if m["trim"]] == ["east"]
 
@@ -93,7 +93,7 @@ both_ways = false
 
 def test_parking_legs_through_periapsis_and_their_stitching():
     """Low lunar orbit (100 km) to and from the L2 Lyapunov orbit through the orbit's manifolds
-    and their first periapsis at that altitude (cr3bp.connections.parking_legs): one tangential
+    and their first periapsis at that altitude (cr3bp.tubes.connections.parking_legs): one tangential
     burn at periapsis. Stitched, the one-leg routes keep their Δv (nothing to merge) and their
     periapsis is 100 km above the Moon."""
     em = system("earth-moon")

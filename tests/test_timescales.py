@@ -9,8 +9,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from cr3bp.errors import InputError
-from cr3bp.timescales import (Epoch, LeapSecondsExpiredWarning, calendar_to_mjd, leap_second_table,
-                              mjd_to_calendar, mjd_to_iso_date, parse_iso, tai_minus_utc)
+from cr3bp.time.scales import (Epoch, LeapSecondsExpiredWarning, calendar_to_mjd, leap_second_table,
+    mjd_to_calendar, mjd_to_iso_date, parse_iso, tai_minus_utc)
 
 ONE_MICROSECOND = 1e-6
 ONE_NANOSECOND = 1e-9

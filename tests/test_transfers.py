@@ -10,7 +10,7 @@ import numpy as np
 import pytest
 
 from cr3bp import system
-from cr3bp.connections import connect
+from cr3bp.tubes.connections import connect
 
 from _orbit_fixtures import lyapunov
 

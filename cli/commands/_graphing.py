@@ -23,8 +23,8 @@ def _workers(text):
 def build(args, system):
     """(node list, BuildResult) from the options; progress to stderr."""
     from cr3bp.catalog import Catalog
-    from cr3bp.graph_build import build_graph
-    from cr3bp.nodes import load_nodes
+    from cr3bp.transfers.graph import build_graph
+    from cr3bp.transfers.nodes import load_nodes
     from cr3bp.errors import InputError
     nodelist = load_nodes(args.nodes, system)
     workers = _workers(args.workers)

@@ -89,7 +89,7 @@ def orbit_from_request(system, text, args=None):
 
 def _given(system, state_text, period_text, family="given", point=""):
     from cr3bp.errors import InputError
-    from cr3bp.manifolds import orbit_from_state
+    from cr3bp.tubes.manifolds import orbit_from_state
     try:
         s = [float(v) for v in state_text.split(",")]
     except ValueError:

@@ -47,7 +47,7 @@ def add_arguments(p):
 def parse_parking(text, system):
     """'parking earth 200km' -> (primary index, altitude km), or None if not a parking orbit."""
     from cr3bp.errors import InputError
-    from cr3bp.sections import primary_index
+    from cr3bp.tubes.sections import primary_index
     words = text.split()
     if not words or words[0].lower() != "parking":
         return None
@@ -90,7 +90,7 @@ def run(args):
     import math
 
     from cr3bp import units
-    from cr3bp.connections import connect, necks_open, parking_legs, periapsis_map
+    from cr3bp.tubes.connections import connect, necks_open, parking_legs, periapsis_map
     from cr3bp.errors import InputError
     system = common.resolve_system(args)
     to.check_plot_path(args.plot)
@@ -161,7 +161,7 @@ def run(args):
     if within_km is not None and arrival_orbit is not None:
         import dataclasses
 
-        from cr3bp.connections import arrival_time, orbit_path
+        from cr3bp.tubes.connections import arrival_time, orbit_path
         path = orbit_path(arrival_orbit)
         legs = [dataclasses.replace(g, tof_arrival=t, arrival_distance_km=d)
                 for g in legs for t, d in [arrival_time(system, g.segments, arrival_orbit, within_km, path)]]

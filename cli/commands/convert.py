@@ -23,7 +23,8 @@ def run(args):
 
 
 def _run(args):
-    from cr3bp import export, frames
+    from cr3bp.io import export
+    from cr3bp.time import frames
     from cr3bp.errors import InputError
     fmt = export.format_of(args.output, args.format)
     data = export.read(args.input)

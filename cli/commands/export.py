@@ -79,7 +79,7 @@ def parse_orientation(args):
         raise InputError(f"--orientation '{args.orientation}' is not three numbers INC,NODE,ARGLAT (degrees)") from None
     if len(vals) != 3:
         raise InputError(f"--orientation '{args.orientation}' needs three numbers INC,NODE,ARGLAT (degrees)")
-    from cr3bp.frames import Orientation
+    from cr3bp.time.frames import Orientation
     import math
     if not all(math.isfinite(v) for v in vals) or not 0.0 <= vals[0] <= 180.0:
         raise InputError(f"--orientation '{args.orientation}': finite angles, inclination in [0, 180]")
@@ -97,7 +97,7 @@ def step_seconds(text, system):
 
 def summary(args, traj, path, fmt):
     import numpy as np
-    from cr3bp import frames
+    from cr3bp.time import frames
     n = sum(len(s.t_tu) for s in traj.segments)
     first, last = traj.segments[0], traj.segments[-1]
     ep = frames.epoch_to_text(np.array([traj.frame.epoch_tdb_s + first.t_tu[0] * traj.frame.system.time_s,
@@ -117,7 +117,7 @@ def leap_second_notes(args, fn):
     """Run ``fn()`` and say once, in one line, if UTC went past the leap-second table
     (the time-scale module warns for every conversion; a person needs it once)."""
     import warnings
-    from cr3bp.timescales import LeapSecondsExpiredWarning, leap_second_table, mjd_to_iso_date
+    from cr3bp.time.scales import LeapSecondsExpiredWarning, leap_second_table, mjd_to_iso_date
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", LeapSecondsExpiredWarning)
         out = fn()
@@ -142,7 +142,8 @@ def run(args):
 
 def _run(args):
     import numpy as np
-    from cr3bp import export, frames
+    from cr3bp.io import export
+    from cr3bp.time import frames
     from cr3bp.errors import InputError
 
     from cr3bp.validate import plain_text

@@ -29,7 +29,7 @@ HEADERS = ["phase", "t_orbit", "tof", "tof_days", "status", "x", "y", "z", "vx",
 
 def run(args):
     from cr3bp.errors import InputError
-    from cr3bp.manifolds import grow_tube, parse_until
+    from cr3bp.tubes.manifolds import grow_tube, parse_until
     system = common.resolve_system(args)
     if args.stability is None:
         raise InputError("give --stable or --unstable")
@@ -71,7 +71,7 @@ def run(args):
 
 def _point(args, system, stop):
     from cr3bp.errors import InputError
-    from cr3bp.manifolds import point_tube
+    from cr3bp.tubes.manifolds import point_tube
     name = args.lagrange.upper()
     if name not in ("L1", "L2", "L3"):
         raise InputError(f"--lagrange {args.lagrange!r}: only the collinear points L1, L2, L3 have "

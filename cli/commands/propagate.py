@@ -252,7 +252,7 @@ def _model_line(model):
     line = (f"model: bicircular (Earth-Moon CR3BP with the Sun on a circle, Boudad, Howell & Davis "
             f"2020); Sun phase at t = 0: {model.sun_phase_deg:.4f} deg")
     if model.epoch_tdb_s is not None:
-        from cr3bp.frames import epoch_to_text
+        from cr3bp.time.frames import epoch_to_text
         line += f" (from the ephemeris at {epoch_to_text(model.epoch_tdb_s, 'UTC')} UTC)"
     return line
 

@@ -66,7 +66,7 @@ def parse_srp(text):
 def _check_epoch(args, sysm):
     import warnings
 
-    from cr3bp import frames
+    from cr3bp.time import frames
     from cr3bp.errors import InputError
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
@@ -76,7 +76,7 @@ def _check_epoch(args, sysm):
             if "no ephemeris" in str(e) or "no named primaries" in str(e):
                 raise InputError(f"system '{sysm.name}' has no ephemeris for its primaries, so it has "
                                  "no ephemeris model; refine supports systems whose primaries are in "
-                                 "cr3bp.ephemeris (e.g. earth-moon, sun-earth, sun-mars)") from None
+                                 "cr3bp.time.ephemeris (e.g. earth-moon, sun-earth, sun-mars)") from None
             raise
     for w in caught:
         common.progress(args, f"note: {w.message}")
@@ -97,7 +97,7 @@ def _float(name, text, lo, hi):
 
 def _model_options(args, sysm):
     """The options --orbit and --route share, checked: (max_iter, srp, bodies, output format)."""
-    from cr3bp import export
+    from cr3bp.io import export
     from cr3bp.errors import InputError
     from cr3bp.fidelity import model as fm
     max_iter = common.whole_number("--max-iter", args.max_iter, 1, 200)
@@ -116,7 +116,8 @@ def _run_route(args, sysm):
 
     import numpy as np
 
-    from cr3bp import export, frames
+    from cr3bp.io import export
+    from cr3bp.time import frames
     from cr3bp.errors import InputError
     from cr3bp.fidelity.route import read_route, transition_route
     from cr3bp.plotting.fidelity import rotating_states
@@ -204,7 +205,8 @@ def run(args):
 
     import numpy as np
 
-    from cr3bp import export, frames
+    from cr3bp.io import export
+    from cr3bp.time import frames
     from cr3bp.fidelity.transition import transition
     from cr3bp.orbits.request import solve_request
 

@@ -47,8 +47,8 @@ def add_arguments(p):
 
 def _constraints(args, system, nodes):
     from cr3bp.errors import InputError
-    from cr3bp.network import Constraints
-    from cr3bp.nodes import find_node
+    from cr3bp.transfers.search import Constraints
+    from cr3bp.transfers.nodes import find_node
     dv = tof = alt = legs = None
     if args.max_dv is not None:
         from cr3bp.validate import quantity
@@ -76,8 +76,8 @@ def run(args):
     from pathlib import Path
 
     from cr3bp.errors import InputError, NoSolutionError
-    from cr3bp.network import best_routes, pareto_routes
-    from cr3bp.nodes import find_node
+    from cr3bp.transfers.search import best_routes, pareto_routes
+    from cr3bp.transfers.nodes import find_node
 
     system = common.resolve_system(args)
     if args.plot is not None and Path(args.plot).suffix.lower() not in PLOT_SUFFIXES:
@@ -88,10 +88,10 @@ def run(args):
         raise InputError("--epoch sets the time of route.oem; give --out DIR too")
     frame_spec = None
     if args.epoch is not None:
-        from cr3bp.frames import frame
+        from cr3bp.time.frames import frame
         frame_spec = frame(system, args.epoch, axes=args.frame)       # checked before any work
     k = common.whole_number("--best", args.best, 1, 1000)
-    from cr3bp.nodes import load_nodes
+    from cr3bp.transfers.nodes import load_nodes
     nodes = load_nodes(args.nodes, system).nodes       # checked before any leg is computed
     src, dst = find_node(nodes, args.source), find_node(nodes, args.target)
     if src.id == dst.id:
@@ -108,7 +108,7 @@ def run(args):
     stitched = None
     not_stitched = None
     if not args.no_stitch:
-        from cr3bp.stitch import PhasingError, stitch_route
+        from cr3bp.transfers.stitch import PhasingError, stitch_route
         common.progress(args, f"librate: stitching the best route ({routes[0].n_legs} leg(s)) by multiple shooting...")
         # where two legs meet an orbit at different phases, a coast along it joins them
         periods = {n: d["period_days"] / system.time_days for n, d in g.nodes(data=True) if d.get("period_days")}
@@ -122,8 +122,8 @@ def run(args):
     if args.out and stitched is not None:
         traj = None
         if frame_spec is not None:
-            from cr3bp.export import dv_warning, maneuver_table
-            from cr3bp.stitch import to_export
+            from cr3bp.io.export import dv_warning, maneuver_table
+            from cr3bp.transfers.stitch import to_export
             traj = to_export(stitched, frame_spec)
             table = maneuver_table(traj)          # Δv measured on the exported trajectory
             warn = dv_warning(table)
@@ -131,7 +131,7 @@ def run(args):
         if traj is not None:
             from pathlib import Path as _P
 
-            from cr3bp.export import write_oem
+            from cr3bp.io.export import write_oem
             oem = str(_P(args.out) / "route.oem")
             write_oem(oem, traj)
             files.append(oem)
@@ -218,8 +218,8 @@ def _route_dict(r, name):
 def _export(args, system, routes, front, stitched, name, table=()):
     from pathlib import Path
 
-    from cr3bp.atomic import write_text
-    from cr3bp.stitch import trajectory_rows
+    from cr3bp.io.atomic import write_text
+    from cr3bp.transfers.stitch import trajectory_rows
     out = Path(args.out)
     title = f"stitched route {' -> '.join(stitched.nodes)} in {system.name} (mu = {system.mu!r}), rotating frame"
     headers, rows = trajectory_rows(stitched)
@@ -229,7 +229,7 @@ def _export(args, system, routes, front, stitched, name, table=()):
     models = {"dv_design_mps": "the CR3BP design, rotating frame, fixed units (also the stitched route's dv_mps)"}
     if table:
         models[key] = "the velocity jump of the exported trajectory in route.oem (its frame and anchoring)"
-    from cr3bp.export import dv_warning
+    from cr3bp.io.export import dv_warning
     warn = dv_warning(table) if table else ""
     files = [str(out / "trajectory.csv"), str(out / "maneuvers.csv"), str(out / "route.json")]
     write_text(files[0], common.csv_text(headers, rows, [title]))
@@ -249,7 +249,7 @@ def _export(args, system, routes, front, stitched, name, table=()):
 def _plots(args, system, g, routes, front, stitched):
     from cr3bp.plotting import save
     from cr3bp.plotting.routes import plot_corridor, plot_graph, plot_pareto
-    from cr3bp.manifolds import corridor_tubes
+    from cr3bp.tubes.manifolds import corridor_tubes
     from cr3bp.orbits.request import solve_request
     legs = [d["leg"] for d in routes[0].legs]
     # the tubes of the periodic orbits on the route: the corridors it rides

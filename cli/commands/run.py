@@ -22,7 +22,7 @@ def run(args):
     """Check (scenario and --out), then run; a scenario with problems prints one line per
     problem, FILE:LINE: key: message (cli.common.run_command), and exits 2 with nothing written."""
     import time
-    from cr3bp import mission
+    from cr3bp.scenario import run as mission
     from cr3bp.catalog import default_path
     from cr3bp.errors import InputError
     if args.workers is not None and args.workers < 1:

@@ -57,7 +57,7 @@ def parse_pairs(texts):
     """``['y,vy|z,vz']`` or ``['y,vy', 'z,vz']`` -> (('y', 'vy'), ('z', 'vz')); InputError naming
     the text otherwise."""
     from cr3bp.errors import InputError
-    from cr3bp.sections import MAP_COORDS
+    from cr3bp.tubes.sections import MAP_COORDS
     pairs = []
     for text in texts:
         for part in text.split("|"):
@@ -85,8 +85,8 @@ def run(args):
     import math
 
     from cr3bp.errors import InputError
-    from cr3bp.manifolds import Stop, grow_tube, manifold_starts
-    from cr3bp.sections import crossings, parse_section
+    from cr3bp.tubes.manifolds import Stop, grow_tube, manifold_starts
+    from cr3bp.tubes.sections import crossings, parse_section
     system = common.resolve_system(args)
     to.check_plot_path(args.plot)
     section = parse_section(args.section, system)
@@ -101,7 +101,7 @@ def run(args):
     cuts, out = [], []
     for req, stab, br in specs:
         orbit = to.orbit_from_request(system, req, args)
-        from cr3bp.manifolds import describe
+        from cr3bp.tubes.manifolds import describe
         label = f"{describe(orbit) if 'state=' in req else req} {stab} {br}"
         common.progress(args, f"librate section: {label}: {args.points} trajectories to {section.label}...")
         sign = 1.0 if stab == "unstable" else -1.0

@@ -90,7 +90,7 @@ def _inputs(args):
         _folder_ok("--plot", args.plot)
     if args.out:
         _folder_ok("--out", args.out)
-    from cr3bp import frames
+    from cr3bp.time import frames
     epoch = frames.epoch_from_text(args.epoch)
     return sysm, bodies, step_s, phase, n_phases, max_min, stations, epoch
 
@@ -102,7 +102,8 @@ def run(args):
 
 def _run(args):
     import numpy as np
-    from cr3bp import export, frames
+    from cr3bp.io import export
+    from cr3bp.time import frames
     from cr3bp.operations import eclipses, phasing, placement, visibility
     from cr3bp.orbits.request import solve_request
 

@@ -124,7 +124,7 @@ def run(args):
         region = hill_region(system, c, plane=args.plane, extent=extent, view=args.view,
                              resolution=resolution)
     if args.curves:
-        from cr3bp.atomic import write_text
+        from cr3bp.io.atomic import write_text
         write_text(args.curves, curves_csv(region))
         common.progress(args, f"wrote {args.curves}")
     if args.plot:

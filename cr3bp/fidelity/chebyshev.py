@@ -1,6 +1,6 @@
 """Piecewise Chebyshev interpolants of body positions, evaluated inside compiled code.
 
-Body positions come from :mod:`cr3bp.ephemeris` once, at Chebyshev nodes of equal time
+Body positions come from :mod:`cr3bp.time.ephemeris` once, at Chebyshev nodes of equal time
 segments; the integrator then evaluates the fitted series (position and its time derivative)
 by Clenshaw's recurrence, with no Python call per step. Method: Chebyshev interpolation at the
 Chebyshev points of the first kind (Press et al., *Numerical Recipes*, 3rd ed., 2007, §5.8,

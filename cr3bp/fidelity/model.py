@@ -1,7 +1,7 @@
 """The ephemeris force model at an epoch: bodies fitted by Chebyshev series, packed for the
 compiled integrator, and propagation in it (state and state + STM).
 
-Body positions are JPL DE421 (:mod:`cr3bp.ephemeris`), sampled once at the Chebyshev nodes of
+Body positions are JPL DE421 (:mod:`cr3bp.time.ephemeris`), sampled once at the Chebyshev nodes of
 one-day segments and refitted relative to the central body, so the compiled right-hand side
 evaluates one short series per body and step: within 1 cm of DE421 over a year for every body
 (rounding of positions up to 5e9 km; tests/test_fidelity.py asserts 5 cm).
@@ -18,16 +18,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .. import ephemeris
+from ..constants import AU_KM, GM_KM3_S2_DE430, SECONDS_PER_DAY, SOLAR_PRESSURE_1AU
 from ..errors import ConvergenceError, InputError
+from ..time import ephemeris
 from ..integrate import dop853
 from . import chebyshev
 from .forces import HEADER
 
-#: Solar flux pressure at 1 au, N/m^2 (common practice).
-SOLAR_PRESSURE_1AU = 4.56e-6
-#: Astronomical unit, km (IAU 2012 Resolution B2).
-AU_KM = 149597870.7
 #: Series layout: segment length (days) and degree. Checked against DE421 in
 #: tests/test_fidelity.py (below 5 cm for every body over a year; measured 1 cm, rounding).
 SEGMENT_DAYS = 1.0
@@ -35,9 +32,6 @@ DEGREE = 16
 
 BODY_NAMES = ("sun", "earth", "moon", "mercury", "venus", "mars", "jupiter", "saturn",
               "uranus", "neptune")
-_GM_FALLBACK = {  # km^3/s^2, DE430 values (Folkner et al., IPN PR 42-196, 2014, table 8, from memory)
-    "mercury": 22031.78, "venus": 324858.592, "uranus": 5793939.3, "neptune": 6836529.0,
-}
 _MODE = 2
 _MODE_STM = 3
 
@@ -48,8 +42,8 @@ def gm_km3_s2(name: str) -> float:
     try:
         return float(systems.body(name).gm_km3_s2)
     except Exception:
-        if name in _GM_FALLBACK:
-            return _GM_FALLBACK[name]
+        if name in GM_KM3_S2_DE430:
+            return GM_KM3_S2_DE430[name]
         raise InputError(f"no GM known for '{name}'") from None
 
 
@@ -81,7 +75,7 @@ class Model:
     srp : (area_to_mass_m2_kg, cr) or None
     t0, t1 : float            span of the series, TU from the epoch
     params : ndarray          parameter vector for the compiled kernels
-    ephemeris : str           where the body positions come from (:func:`cr3bp.ephemeris.describe`)
+    ephemeris : str           where the body positions come from (:func:`cr3bp.time.ephemeris.describe`)
     """
 
     system: object
@@ -125,7 +119,7 @@ class Model:
 
 
 def _epochs(epoch_tdb_s, seconds):
-    from ..frames import _epoch
+    from ..time.frames import _epoch
     return _epoch(epoch_tdb_s + np.asarray(seconds, dtype=float))
 
 
@@ -135,7 +129,7 @@ def build(system, epoch_tdb_s: float, t0_tu: float, t1_tu: float, central: str, 
     """Fit the bodies over ``[t0_tu, t1_tu]`` (TU from the epoch) and pack the model.
 
     Chebyshev interpolation on equal segments (Press et al., *Numerical Recipes*, 3rd ed., 2007,
-    section 5.8) of :func:`cr3bp.ephemeris.position` relative to the central body.
+    section 5.8) of :func:`cr3bp.time.ephemeris.position` relative to the central body.
 
     Parameters
     ----------
@@ -169,7 +163,7 @@ def build(system, epoch_tdb_s: float, t0_tu: float, t1_tu: float, central: str, 
     span = float(t1_tu) - float(t0_tu)
     if not (math.isfinite(span) and span > 0):
         raise InputError(f"model span [{t0_tu}, {t1_tu}] TU must be increasing")
-    nseg = max(1, int(math.ceil(span * tu / 86400.0 / segment_days)))
+    nseg = max(1, int(math.ceil(span * tu / SECONDS_PER_DAY / segment_days)))
     nb = len(fitted)
     source = ephemeris.LABELS[ephemeris.DEFAULT_MODEL] if nb and sample is None else (
         "positions supplied by the caller" if nb else "none (no bodies fitted)")

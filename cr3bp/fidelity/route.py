@@ -1,10 +1,10 @@
 """From a stitched CR3BP route to an ephemeris-model trajectory with its maneuvers re-optimised.
 
-The route (a :class:`cr3bp.stitch.StitchedRoute`, or its ``trajectory.csv`` and ``route.json``)
+The route (a :class:`cr3bp.transfers.stitch.StitchedRoute`, or its ``trajectory.csv`` and ``route.json``)
 is cut at its interior maneuvers into maneuver-free arcs. Each arc gets patch points (at least
 ``min_patches`` segments, one more for every ``patch_days`` of flight), taken from the route's
 own samples, converted to km, km/s about the central body on J2000 equator axes with the
-instantaneous ephemeris anchoring of :mod:`cr3bp.frames` (as :mod:`.transition` does).
+instantaneous ephemeris anchoring of :mod:`cr3bp.time.frames` (as :mod:`.transition` does).
 
 Unknowns: every patch state (inertial, nondimensional); an arc's last state is the state just
 before its maneuver, the next arc's first state the state just after. The start and end
@@ -16,13 +16,13 @@ Howell, AAS 11-515, 2011, from memory):
 * position continuity across every declared interior maneuver (the velocity jump is free and
   is that maneuver's Δv); a maneuver at a route node (a junction of two legs) also keeps the
   node's position, a fixed point of the rotating frame converted at the maneuver's (moving)
-  time, as :mod:`cr3bp.stitch` holds it;
+  time, as :mod:`cr3bp.transfers.stitch` holds it;
 * the start position held (and the start velocity too, if the route declares no departure
   maneuver; otherwise the departure Δv is measured from the converted CR3BP pre-burn state);
 * the end position held (``hold_end``), with an arrival Δv measured to the converted CR3BP
   post-burn state if the route declares one.
 
-Solution as :mod:`cr3bp.stitch` does it in the CR3BP: (1) minimum-norm Newton
+Solution as :mod:`cr3bp.transfers.stitch` does it in the CR3BP: (1) minimum-norm Newton
 (``dX = -J^T (J J^T)^{-1} F``; Golub & Van Loan, *Matrix Computations*, 4th ed., 2013,
 section 5.6) from the converted route; (2) scipy's SLSQP minimising the summed |Δv| (smoothed
 by ε² under the square root) under the continuity constraints; (3) Newton again to polish.
@@ -43,7 +43,7 @@ from .transition import TOLERANCE, _central_default, _cr3bp_to_inertial
 
 #: One more patch segment per this many days of flight on an arc.
 PATCH_DAYS = 1.0
-#: Smoothing of |Δv| for the optimiser, VU (as cr3bp.stitch.SMOOTHING).
+#: Smoothing of |Δv| for the optimiser, VU (as cr3bp.transfers.stitch.SMOOTHING).
 SMOOTHING = 1e-9
 _TIME_EPS = 1e-9
 
@@ -304,7 +304,7 @@ def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", 
     InputError        bad route, maneuvers not on the route, bad model options.
     ConvergenceError  step 1 or the final polish does not reach ``tol``.
     """
-    from .. import frames
+    from ..time import frames
     system.require_dimensional("an ephemeris model")
     t, s, man = _check_route(system, times_tu, states, maneuvers)
     if not (math.isfinite(float(patch_days)) and float(patch_days) > 0):
@@ -374,7 +374,7 @@ def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", 
     margin = 0.02 * span
     mdl = _model.build(system, spec.epoch_tdb_s, t0 - margin, t1 + margin, central, bodies, srp, sample=sample)
     # an interior maneuver at a route node (not at a mere patch point of a leg) keeps the
-    # node's position, as cr3bp.stitch holds a junction at its node
+    # node's position, as cr3bp.transfers.stitch holds a junction at its node
     jumps = np.flatnonzero(arc_of[:-1] != arc_of[1:])
     def node_at(rot_pos):
         def fn(time):

@@ -3,7 +3,7 @@
 Steps: (1) the orbit repeated N revolutions is sampled at ``per_rev`` patch points a
 revolution, equally spaced in time; (2) each patch state goes to km, km/s about the
 secondary on J2000 equator axes with the instantaneous ephemeris anchoring of
-:mod:`cr3bp.frames` (rotating time tau = epoch + tau TU), then about the model's central
+:mod:`cr3bp.time.frames` (rotating time tau = epoch + tau TU), then about the model's central
 body; (3) multiple shooting (Pavlak & Howell's formulation of the ephemeris transition, from
 memory) drives the position and velocity mismatch at every interior patch point to zero.
 
@@ -88,7 +88,7 @@ class Transition:
 
 def _central_default(system) -> str:
     """The secondary's body (its system's main body; the Earth for the Earth-Moon barycentre)."""
-    from ..frames import _BODY
+    from ..time.frames import _BODY
     name = system.secondary.name if system.secondary is not None else ""
     body = _BODY.get(name, name)
     return "earth" if body == "emb" else body
@@ -96,7 +96,7 @@ def _central_default(system) -> str:
 
 def _cr3bp_to_inertial(system, spec, t_tu, states, central):
     """Rotating nondimensional states -> km, km/s about ``central`` (EME2000)."""
-    from .. import ephemeris, frames
+    from ..time import ephemeris, frames
     tdb, km = frames.to_frame(spec, t_tu, states)
     sec = frames._BODY.get(system.secondary.name, system.secondary.name)
     if sec != central:
@@ -176,7 +176,7 @@ def transition(orbit, epoch, revs: int, bodies=("sun", "earth", "moon"), *, cent
     fix_first : bool              hold the first patch state
     free_times : bool             let the interior patch times move
     """
-    from .. import frames
+    from ..time import frames
     from ..integrate.propagate import propagate as cr3bp_propagate
     system = orbit.system
     try:

@@ -115,7 +115,7 @@ class Pass:
         return self.end_tdb_s - self.start_tdb_s
 
     def to_dict(self) -> dict:
-        from ..frames import epoch_to_text
+        from ..time.frames import epoch_to_text
         s, e, d = epoch_to_text(np.array([self.start_tdb_s, self.end_tdb_s, self.deepest_tdb_s]), "UTC", 3)
         return {"body": self.body, "kind": self.kind, "start_utc": s + "Z", "end_utc": e + "Z",
                 "duration_min": self.duration_s / 60.0, "depth": self.depth, "deepest_utc": d + "Z",

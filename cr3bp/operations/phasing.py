@@ -30,8 +30,8 @@ class Sky:
 
 
 def _bodies(tdb_s):
-    from .. import ephemeris
-    from ..frames import _epoch
+    from ..time import ephemeris
+    from ..time.frames import _epoch
     ep = _epoch(np.atleast_1d(np.asarray(tdb_s, dtype=float)))
     return (ephemeris.position("sun", ep, center="earth", frame="j2000-equator"),
             ephemeris.position("moon", ep, center="earth", frame="j2000-equator"))
@@ -44,7 +44,7 @@ def sky(placed, span_s: float, step_s: float = STEP_S) -> Sky:
     if not (math.isfinite(step_s) and 0 < step_s <= span_s):
         raise InputError(f"step {step_s!r} s must be positive and at most the span ({span_s:g} s)")
     n = int(math.floor(span_s / step_s * (1 + 1e-12))) + 1
-    from ..export import MAX_SAMPLES
+    from ..io.export import MAX_SAMPLES
     if n > MAX_SAMPLES:
         raise InputError(f"{n} samples exceed the limit of {MAX_SAMPLES}; use a larger step")
     t = placed.epoch_tdb_s + np.arange(n) * step_s

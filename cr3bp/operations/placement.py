@@ -1,12 +1,12 @@
 """A periodic orbit placed at a date: geocentric J2000-equator positions at any phase.
 
 The orbit is sampled once over one period with the export sampler
-(:func:`cr3bp.export.sample`, dense output of the project's integrator) and read at any
+(:func:`cr3bp.io.export.sample`, dense output of the project's integrator) and read at any
 rotating time by cubic Hermite interpolation of position with velocity. Starting it at a
 ``phase`` (degrees of the period) means the state at rotating time 0 (the epoch) is the
 orbit's state ``phase / 360`` of a period after its own initial state. Rotating states go
 to the primary-centred J2000 mean-equator axes by the ephemeris-anchored frame of
-:mod:`cr3bp.frames` (``R = l C (rho - rho_c)``), the same mapping as ``librate export
+:mod:`cr3bp.time.frames` (``R = l C (rho - rho_c)``), the same mapping as ``librate export
 --anchor ephemeris --center primary --frame j2000-equator``.
 """
 
@@ -45,7 +45,7 @@ class PlacedOrbit:
     """A periodic orbit, its frame at the epoch and its one-period sample."""
 
     system: object
-    spec: object              # cr3bp.frames.FrameSpec (ephemeris anchoring, primary centre)
+    spec: object              # cr3bp.time.frames.FrameSpec (ephemeris anchoring, primary centre)
     period_tu: float
     t_tu: np.ndarray          # one-period sample times, 0..period
     states: np.ndarray        # rotating states there, nondimensional
@@ -70,7 +70,7 @@ class PlacedOrbit:
 
     def frame_basis(self, tdb_s):
         """``(C, l)`` of the anchored frame at epochs (reused across phases)."""
-        from ..frames import basis
+        from ..time.frames import basis
         c, _w, l, _ld = basis(self.spec, tdb_s)
         return c, l
 
@@ -85,7 +85,8 @@ class PlacedOrbit:
 
 def place(system, orbit, epoch, samples_per_period: int = SAMPLES_PER_PERIOD) -> PlacedOrbit:
     """Place a periodic orbit (``state``, ``period``) at an epoch (ISO text or TDB s)."""
-    from .. import export, frames
+    from ..io import export
+    from ..time import frames
     system.require_dimensional("an orbit placed at a date")
     period = float(orbit.period)
     if not (math.isfinite(period) and period > 0):

@@ -134,7 +134,7 @@ def station_terrestrial_km(station: Station) -> np.ndarray:
 
 def terrestrial_matrices(tdb_s):
     """(N, 3, 3) matrices J2000 mean equator -> Earth-fixed (no nutation, no polar motion)."""
-    from ..frames import _epoch
+    from ..time.frames import _epoch
     ep = _epoch(np.atleast_1d(np.asarray(tdb_s, dtype=float)))
     u1, u2 = ep.two_part_jd("utc")                # UT1 ~ UTC (module docstring)
     tt = np.atleast_1d(ep.seconds_since_j2000("tt")) / (86400.0 * 36525.0)
@@ -171,7 +171,7 @@ class Window:
         return self.end_tdb_s - self.start_tdb_s
 
     def to_dict(self) -> dict:
-        from ..frames import epoch_to_text
+        from ..time.frames import epoch_to_text
         s, e = epoch_to_text(np.array([self.start_tdb_s, self.end_tdb_s]), "UTC", 3)
         return {"station": self.station, "start_utc": s + "Z", "end_utc": e + "Z",
                 "duration_h": self.duration_s / 3600.0, "max_elevation_deg": self.max_elevation_deg,

@@ -14,10 +14,9 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from .. import units
+from ..constants import SECONDS_PER_DAY, SIDEREAL_MONTH_DAYS, SIDEREAL_YEAR_DAYS
 from ..errors import InputError
 
-SIDEREAL_MONTH_DAYS = 27.321662   # Astronomical Almanac (from memory)
-SIDEREAL_YEAR_DAYS = 365.256363   # Astronomical Almanac (from memory)
 SYNODIC_MONTH_DAYS = 1.0 / (1.0 / SIDEREAL_MONTH_DAYS - 1.0 / SIDEREAL_YEAR_DAYS)
 
 KINDS = ("period", "jacobi", "ax", "ay", "az", "x", "perilune", "approach1", "resonance")
@@ -87,7 +86,7 @@ def _make(system, kind, text):
         p, q = parse_resonance(text)
         if system.name != "earth-moon":
             raise InputError(f"synodic resonance is defined for earth-moon only (system '{system.name}')")
-        T = synodic_period_days(p, q) * 86400.0 / system.time_s
+        T = synodic_period_days(p, q) * SECONDS_PER_DAY / system.time_s
         return Target(kind, "period", T, text)
     raise InputError(f"unknown target '{kind}'; allowed: {', '.join(KINDS)}")
 

@@ -12,7 +12,7 @@ import numpy as np  # noqa: E402
 from matplotlib.patches import Circle  # noqa: E402
 from matplotlib.ticker import FuncFormatter, MaxNLocator  # noqa: E402
 
-from ..atomic import save_figure  # noqa: E402
+from ..io.atomic import save_figure  # noqa: E402
 from ..cautions import CAUTION_SHORT  # noqa: E402
 
 PRIMARY_COLOURS = ("tab:blue", "0.45")

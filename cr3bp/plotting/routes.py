@@ -24,7 +24,7 @@ def plot_corridor(stitched, legs=(), tubes=(), ax=None, view="xy", margin=0.25, 
 
     Parameters
     ----------
-    stitched : cr3bp.stitch.StitchedRoute
+    stitched : cr3bp.transfers.stitch.StitchedRoute
     legs : sequence of leg dicts (optional; their patch points are drawn as dots)
     tubes : sequence of arrays (optional)
     """
@@ -152,7 +152,7 @@ def _graph_x_axis(ax, graph):
 def plot_graph(graph, ax=None, route=None, max_labels=60):
     """The graph as a schematic: each node at (x of its state, its Jacobi constant); nodes
     without a known state in a row below; edges as arrows labelled "Δv m/s, TOF d"; the edges
-    of ``route`` (a :class:`cr3bp.network.Route`) drawn thick."""
+    of ``route`` (a :class:`cr3bp.transfers.search.Route`) drawn thick."""
     if ax is None:
         _, ax = new_figure(size=(9.5, 6.0))
     known = [n for n, d in graph.nodes(data=True) if d.get("jacobi") is not None]

@@ -31,7 +31,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .errors import ConvergenceError, InputError, NoSolutionError
+from ..errors import ConvergenceError, InputError, NoSolutionError
 
 NEWTON_ITERATIONS = 25
 # Tolerances in physical units, the same in every system (in LU they were 4 mm in Earth-Moon
@@ -172,8 +172,8 @@ class _Problem:
         key = z.tobytes()
         if key == self._cache_key:
             return self._cache
-        from .dynamics import acceleration
-        from .integrate import propagate_batch
+        from ..dynamics import acceleration
+        from ..integrate import propagate_batch
         X = z[:6 * self.K].reshape(self.K, 6)
         tau = self.tau0 * z[6 * self.K:][self.leg_of]
         # every segment with its STM in one compiled batch (no Python loop over segments)
@@ -333,7 +333,7 @@ def phasing_coast(system, arriving: dict, leaving: dict, period_tu: float, patch
     """
     from scipy.optimize import minimize_scalar
 
-    from .integrate import propagate
+    from ..integrate import propagate
     a = np.asarray(arriving["arrival_state"], dtype=float)
     d = np.asarray(leaving["departure_state"], dtype=float)
     if not (period_tu and period_tu > 0):
@@ -386,14 +386,14 @@ def with_phasing(system, legs: list, periods: dict | None) -> list:
 
 def stitch_route(system, route, constraints=None, optimise=True, max_iterations=60,
                  periods: dict | None = None) -> StitchedRoute:
-    """Stitch ``route`` (a :class:`cr3bp.network.Route` whose edges carry ``leg`` dicts, or a
+    """Stitch ``route`` (a :class:`cr3bp.transfers.search.Route` whose edges carry ``leg`` dicts, or a
     list of leg dicts) into one continuous trajectory with re-minimised total Δv.
 
     Parameters
     ----------
     system : System
     route : Route or list of dict
-    constraints : cr3bp.network.Constraints, optional   reported as held or not
+    constraints : cr3bp.transfers.search.Constraints, optional   reported as held or not
     optimise : bool                step 2 (SLSQP) on or off
     max_iterations : int           SLSQP iterations
     periods : dict, optional       orbit node id -> period (TU): where two legs meet an orbit at
@@ -458,8 +458,8 @@ def stitch_route(system, route, constraints=None, optimise=True, max_iterations=
 
 
 def _result(system, p, z, legs, constraints, optimised, note, iterations):
-    from .dynamics import jacobi
-    from .integrate import propagate
+    from ..dynamics import jacobi
+    from ..integrate import propagate
     F, _ = p.constraints(z)
     X, tau, E, _, _ = p.segments(z)
     starts = np.concatenate([[0.0], np.cumsum(tau)])
@@ -517,7 +517,7 @@ def _result(system, p, z, legs, constraints, optimised, note, iterations):
 
 def trajectory_rows(result: StitchedRoute):
     """CSV rows of the stitched trajectory: time (TU and d), segment, state (LU, LU/TU), km, Jacobi."""
-    from .dynamics import jacobi
+    from ..dynamics import jacobi
     s = result.system
     C = jacobi(s.mu, result.states)
     rows = []
@@ -530,10 +530,10 @@ def trajectory_rows(result: StitchedRoute):
 
 
 def to_export(result: StitchedRoute, frame_spec, object_name="LIBRATE ROUTE"):
-    """The stitched route as a :class:`cr3bp.export.Trajectory` (maneuver-free segments
+    """The stitched route as a :class:`cr3bp.io.export.Trajectory` (maneuver-free segments
     joined at the maneuvers, impulses in the rotating frame nondimensional), ready for
     ``export.write_oem`` / ``write_csv`` / ``write_json``."""
-    from . import export
+    from ..io import export
     s = result.system
     man_t = [m["t_days"] / s.time_days for m in result.maneuvers]
     inner = man_t[1:-1] if len(man_t) >= 2 else []
@@ -559,10 +559,10 @@ def to_export(result: StitchedRoute, frame_spec, object_name="LIBRATE ROUTE"):
 
 
 def leg_from_connection(system, leg, patches=4) -> dict:
-    """A :class:`cr3bp.connections.Leg` as the plain leg dict the graph and the stitcher use:
+    """A :class:`cr3bp.tubes.connections.Leg` as the plain leg dict the graph and the stitcher use:
     each of its ballistic segments cut into ``patches`` shooting segments (so every maneuver
     falls on a patch point), the departure and arrival states where its arcs begin and end."""
-    from .integrate import propagate
+    from ..integrate import propagate
     times, states = [], []
     end = None
     for t0, s0, dur in leg.segments:

@@ -1,12 +1,12 @@
 """The analytic series: approximate positions of the Sun, the Moon and the planets, in pure numpy.
 
-Not the default: :mod:`cr3bp.ephemeris` evaluates JPL's DE421 tables and offers these series
+Not the default: :mod:`cr3bp.time.ephemeris` evaluates JPL's DE421 tables and offers these series
 only when asked (``model="series"``), e.g. for epochs outside DE421's span; outputs say which
-model they come from (:func:`cr3bp.ephemeris.describe`). Against DE421 they are off by up to
+model they come from (:func:`cr3bp.time.ephemeris.describe`). Against DE421 they are off by up to
 27 km (Moon), 16 500 km (Sun about the Earth) and 1.9 million km (Jupiter), measured every
 66 minutes over 2000-2049 (tests/test_against_jplephem.py shows the gap).
 
-Everything is vectorised over epochs: an :class:`~cr3bp.timescales.Epoch` array of N
+Everything is vectorised over epochs: an :class:`~cr3bp.time.scales.Epoch` array of N
 instants gives an (N, 3) array in km (or (N, 6) in km and km/s); a single Epoch gives (3,)
 or (6,). Import is cheap (no compilation); the tables in ``data/`` are read on first use.
 
@@ -88,8 +88,10 @@ from importlib import resources
 
 import numpy as np
 
-from .errors import ConvergenceError, InputError
-from .timescales import Epoch, parse_iso
+from ..constants import (AU_KM, DAYS_PER_JULIAN_CENTURY, OBLIQUITY_J2000_ARCSEC,
+                         SECONDS_PER_DAY)
+from ..errors import ConvergenceError, InputError
+from .scales import Epoch, parse_iso
 
 __all__ = ["BODIES", "CENTERS", "FRAMES", "ACCURACY", "position", "state", "valid_interval",
            "ecliptic_to_equator_matrix", "OBLIQUITY_J2000_ARCSEC", "AU_KM", "LABEL"]
@@ -98,9 +100,7 @@ __all__ = ["BODIES", "CENTERS", "FRAMES", "ACCURACY", "position", "state", "vali
 LABEL = ("analytic series (Standish mean elements, Meeus ch. 47 Moon; km to 10^6 km level, "
          "not DE421)")
 
-AU_KM = 149597870.7                       # IAU 2012 Resolution B2
-OBLIQUITY_J2000_ARCSEC = 84381.406        # IAU 2006 (Hilton et al. 2006)
-SECONDS_PER_CENTURY = 36525.0 * 86400.0
+SECONDS_PER_CENTURY = DAYS_PER_JULIAN_CENTURY * SECONDS_PER_DAY
 DEG = math.pi / 180.0
 ARCSEC = DEG / 3600.0
 KEPLER_TOL_RAD = 1e-13
@@ -173,7 +173,7 @@ def position(body: str, epochs, center: str = "earth", frame: str = "j2000-equat
         ``mercury``, ``venus``, ``mars``, ``jupiter``, ``saturn``, ``uranus``, ``neptune``.
     epochs : Epoch or str or sequence of str
         Instants (any time scale inside an Epoch; ISO 8601 text is parsed with
-        :func:`~cr3bp.timescales.parse_iso`).
+        :func:`~cr3bp.time.scales.parse_iso`).
     center : str
         One of :data:`CENTERS`: any body above, or ``ssb`` (solar-system barycentre).
     frame : str
@@ -286,7 +286,7 @@ def _relative(body: str, center: str, t: np.ndarray, vel: bool) -> np.ndarray:
 @lru_cache(maxsize=1)
 def _moon_fraction() -> float:
     """GM_moon / (GM_earth + GM_moon) from data/systems.toml (DE430 GMs, from memory)."""
-    from .systems import body
+    from ..systems import body
     gm_e, gm_m = body("earth").gm_km3_s2, body("moon").gm_km3_s2
     return gm_m / (gm_e + gm_m)
 
@@ -305,7 +305,7 @@ def _ssb_heliocentric(t, vel):
 
 @lru_cache(maxsize=1)
 def _gm_sun() -> float:
-    from .systems import body
+    from ..systems import body
     return body("sun").gm_km3_s2
 
 

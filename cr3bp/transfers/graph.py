@@ -30,8 +30,8 @@ from dataclasses import dataclass, field
 import networkx as nx
 import numpy as np
 
-from . import network
-from .errors import InputError, LibrateError
+from . import search
+from ..errors import InputError, LibrateError
 from .nodes import BoundaryNode, OrbitNode, ParkingNode, node_state
 from .targeting import LEG_FORMAT
 
@@ -55,7 +55,7 @@ class BuildResult:
 
     Attributes
     ----------
-    graph : networkx.MultiDiGraph   node ids as nodes; edges from :func:`cr3bp.network.add_leg`
+    graph : networkx.MultiDiGraph   node ids as nodes; edges from :func:`cr3bp.transfers.search.add_leg`
     nodes : tuple of nodes
     legs : tuple of leg dicts (every attempted leg, ``status`` "ok" or "failed")
     computed, cached : int          legs computed in this run / read from the catalogue
@@ -94,7 +94,7 @@ def system_spec(system) -> dict:
 
 
 def system_from_spec(spec):
-    from .systems import from_mu, system
+    from ..systems import from_mu, system
     try:
         s = system(spec["name"])
         if s.mu == spec["mu"]:
@@ -155,7 +155,7 @@ def realm(system, position) -> str:
     """Which realm a position lies in: "larger" (inside the L1 neck's side of the larger
     primary), "smaller" (between L1 and L2), or "exterior" (beyond L2, or farther from the
     barycentre than L3). A coarse split by the collinear points' x (common practice)."""
-    from .equilibria import lagrange_point
+    from ..equilibria import lagrange_point
     x = float(position[0])
     r = float(np.linalg.norm(position[:2]))
     x1, x2 = lagrange_point(system, "L1").position[0], lagrange_point(system, "L2").position[0]
@@ -194,7 +194,7 @@ def energy_prune(system, c_from, c_to, r_from, r_to, maneuvers: str, point_from=
         return None
     if abs(c_from - c_to) > SAME_ENERGY:
         return f"no maneuver allowed and the Jacobi constants differ ({c_from:.9f} vs {c_to:.9f})"
-    from .energy import necks
+    from ..energy import necks
     opened = necks(system, c_from)
     ra, rb = realms_of(system, r_from, point_from), realms_of(system, r_to, point_to)
     if ra & rb:
@@ -212,8 +212,8 @@ def energy_prune(system, c_from, c_to, r_from, r_to, maneuvers: str, point_from=
 def resolve_orbits(system, nodelist, catalog=None, progress=None) -> dict:
     """Orbit node id -> {"state", "period", "jacobi"} or {"error"}: each orbit request solved
     once by :func:`cr3bp.orbits.request.solve_request` (read from ``catalog`` when known)."""
-    from .errors import LibrateError
-    from .orbits.request import solve_request
+    from ..errors import LibrateError
+    from ..orbits.request import solve_request
     out = {}
     for n in nodelist.nodes:
         if isinstance(n, OrbitNode) and n.id not in out:
@@ -234,15 +234,15 @@ def _orbit_plain(o: dict) -> dict:
 
 
 def _orbit_from_plain(system, d: dict):
-    from .orbits import PeriodicOrbit
+    from ..orbits import PeriodicOrbit
     return PeriodicOrbit(system, np.array(d["state"]), float(d["period"]), np.array(d["monodromy"]),
                          d.get("family", ""), d.get("point", ""), d.get("branch", ""), float(d["jacobi"]))
 
 
 def _manifold_leg(system, task) -> dict:
     """The cheapest connection between two orbit nodes over the hinted sections
-    (:func:`cr3bp.connections.connect`), as a plain leg dict."""
-    from .connections import connect
+    (:func:`cr3bp.tubes.connections.connect`), as a plain leg dict."""
+    from ..tubes.connections import connect
     from .stitch import leg_from_connection
     st = task["settings"]
     a = _orbit_from_plain(system, task["from"]["orbit_data"])
@@ -255,7 +255,7 @@ def _manifold_leg(system, task) -> dict:
         except LibrateError as e:
             reasons.append(f"{sec}: {e}")
     if not found:
-        from .errors import NoSolutionError
+        from ..errors import NoSolutionError
         raise NoSolutionError("no manifold connection: " + ("; ".join(reasons) or "the cuts do not meet"))
     best = min(found, key=lambda lg: (lg.dv_mps, lg.tof))
     return _with_arrival(leg_from_connection(system, best, st["patches"]), best)
@@ -263,18 +263,18 @@ def _manifold_leg(system, task) -> dict:
 
 def _with_arrival(plain: dict, leg) -> dict:
     """The plain leg dict with the time of flight to arrival of the
-    :class:`cr3bp.connections.Leg` it came from (see :data:`cr3bp.connections.TOF_DEFINITIONS`)."""
+    :class:`cr3bp.tubes.connections.Leg` it came from (see :data:`cr3bp.tubes.connections.TOF_DEFINITIONS`)."""
     plain["tof_arrival_days"] = float(leg.tof_arrival_days)
     plain["arrival_distance_km"] = None if math.isnan(leg.arrival_distance_km) else float(leg.arrival_distance_km)
     return plain
 
 
 def _periapsis_legs(orbit, body, altitude_km, stability, n_points) -> list:
-    """Legs of :func:`cr3bp.connections.parking_legs` through the orbit's manifold and its first
+    """Legs of :func:`cr3bp.tubes.connections.parking_legs` through the orbit's manifold and its first
     periapsis at ``altitude_km`` over ``body``: the interior branch, then the exterior one if
     the interior gives none. Raises NoSolutionError with both branches' reasons."""
-    from .connections import parking_legs
-    from .errors import NoSolutionError
+    from ..tubes.connections import parking_legs
+    from ..errors import NoSolutionError
     found, reasons = [], []
     for branch in ("interior", "exterior"):
         try:
@@ -289,7 +289,7 @@ def _periapsis_legs(orbit, body, altitude_km, stability, n_points) -> list:
 
 def _parking_leg(system, task) -> dict:
     """The cheapest leg between a parking orbit and an orbit node through the orbit's manifold
-    and its first periapsis at the parking altitude (:func:`cr3bp.connections.parking_legs`:
+    and its first periapsis at the parking altitude (:func:`cr3bp.tubes.connections.parking_legs`:
     stable manifold to arrive at the orbit, unstable to leave it; interior branch, then
     exterior), as a plain leg dict."""
     from .stitch import leg_from_connection
@@ -305,11 +305,11 @@ def _parking_leg(system, task) -> dict:
 def _boundary_leg(system, task) -> dict:
     """The fastest ballistic way from an orbit node to a capture or escape condition along the
     orbit's unstable manifold (interior branch, then exterior): for a capture, the first
-    periapsis at the capture altitude about the body (:func:`cr3bp.connections.parking_legs`,
+    periapsis at the capture altitude about the body (:func:`cr3bp.tubes.connections.parking_legs`,
     its insertion impulse left out: a capture node asks for the arrival condition, not an
     orbit); for an escape, the first crossing of the escape distance from the body. Zero Δv."""
-    from .manifolds import Stop, grow_tube
-    from .sections import primary_index
+    from ..tubes.manifolds import Stop, grow_tube
+    from ..tubes.sections import primary_index
     from .stitch import RTOL, ATOL
     st = task["settings"]
     orbit = _orbit_from_plain(system, task["from"]["orbit_data"])
@@ -327,7 +327,7 @@ def _boundary_leg(system, task) -> dict:
         return leg
     p = primary_index(system, st["body"])
     radius = st["distance_km"] / system.length_km
-    from .errors import NoSolutionError
+    from ..errors import NoSolutionError
     for branch in ("interior", "exterior"):
         tube = grow_tube(orbit, "unstable", branch, st["tube_points"],
                          until=Stop(t_max=4.0 * math.pi, escape_radius=radius, escape_center=p))
@@ -336,7 +336,7 @@ def _boundary_leg(system, task) -> dict:
             i = min(hit, key=lambda k: tube.tof[k])
             tof = float(tube.tof[i])
             te = np.linspace(0.0, tof, st["patches"] + 1)
-            from .integrate import propagate
+            from ..integrate import propagate
             arc = propagate(system, tube.start_states[i], tof, rtol=RTOL, atol=ATOL, t_eval=te)
             r = np.linalg.norm(arc.states[:, :3] - np.array([system.positions[p], 0, 0]), axis=1)
             return {"format": 1, "method": "escape", "how": f"unstable {branch} manifold to escape",
@@ -352,7 +352,7 @@ def _boundary_leg(system, task) -> dict:
 
 
 def describe_orbit(orbit) -> str:
-    from .manifolds import describe
+    from ..tubes.manifolds import describe
     return describe(orbit)
 
 
@@ -367,7 +367,7 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
 
     ``orbits`` is :func:`resolve_orbits`'s result (computed here when not given). A leg to or
     from an orbit node departs or arrives at the orbit's reference state (its initial state)."""
-    from .dynamics import jacobi
+    from ..dynamics import jacobi
     if not system.dimensional:
         raise InputError(f"system '{system.name}' has no dimensional units; the graph reports m/s and days")
     tof_days = nodelist.tof_days if tof_days is None else tof_days
@@ -405,7 +405,7 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
                            f"manifolds), not from the {a.kind} node '{a.name}'")
             elif isinstance(n, ParkingNode):
                 # a leg from or to a parking orbit has a free phase: the primary-to-orbit legs of
-                # cr3bp.connections, between a parking orbit and a periodic orbit only
+                # cr3bp.tubes.connections, between a parking orbit and a periodic orbit only
                 other = b if n is a else a
                 if not isinstance(other, OrbitNode):
                     why = (f"parking node '{n.name}' joins periodic orbits only (manifold legs through "
@@ -584,7 +584,7 @@ def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None,
     Parameters
     ----------
     system : System (dimensional)
-    nodelist : cr3bp.nodes.NodeList
+    nodelist : cr3bp.transfers.nodes.NodeList
     workers : int, optional       process-pool size (default: all cores; 1: in this process)
     scheduler : str or distributed.Client, optional   run the legs on a dask cluster instead
     catalog : cr3bp.catalog.Catalog, optional          leg cache
@@ -595,7 +595,7 @@ def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None,
     -------
     BuildResult
     """
-    from .dynamics import jacobi
+    from ..dynamics import jacobi
     orbits = resolve_orbits(system, nodelist, catalog)
     tasks, pruned = plan(system, nodelist, tof_days, patches, orbits)
     legs: list = [None] * len(tasks)
@@ -642,12 +642,12 @@ def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None,
         if "period" in orbits.get(n.id, {}):
             # phasing along the orbit: a self-loop of one period, no Δv (the simple-path search
             # never takes it; it records how long one waits per revolution)
-            network.add_leg(graph, n.id, n.id, 0.0, orbits[n.id]["period"] * system.time_days, key="stay",
+            search.add_leg(graph, n.id, n.id, 0.0, orbits[n.id]["period"] * system.time_days, key="stay",
                             kind="stay", leg={"from": n.id, "to": n.id, "method": "stay", "status": "ok",
                                               "dv_mps": 0.0, "period_tu": orbits[n.id]["period"]})
     for leg in legs:
         if leg["status"] == "ok":
-            network.add_leg(graph, leg["from"], leg["to"], leg["dv_mps"], leg["tof_days"], key=leg["method"],
+            search.add_leg(graph, leg["from"], leg["to"], leg["dv_mps"], leg["tof_days"], key=leg["method"],
                             kind=leg["method"], min_altitude_km=leg["min_altitude_km"], leg=leg,
                             tof_arrival_days=leg.get("tof_arrival_days", leg["tof_days"]),
                             arrival_distance_km=leg.get("arrival_distance_km"))

@@ -1,6 +1,6 @@
 """Positions and velocities of the Sun, the Moon and the planets: JPL DE421, in numpy.
 
-Everything is vectorised over epochs: an :class:`~cr3bp.timescales.Epoch` array of N
+Everything is vectorised over epochs: an :class:`~cr3bp.time.scales.Epoch` array of N
 instants gives an (N, 3) array in km (or (N, 6) in km and km/s); a single Epoch gives (3,)
 or (6,). Import is cheap (no compilation, no file read); the kernel is opened on first use.
 
@@ -10,14 +10,14 @@ Models (the ``model`` keyword; outputs name theirs with :func:`describe`)
     JPL's planetary and lunar ephemeris DE421 (Folkner, Williams & Boggs, IPN Progress
     Report 42-178, 2009): its Chebyshev tables as shipped in the kernel ``de421.bsp`` of the
     PyPI data package ``skyfield-data``, read and evaluated by our own numpy code
-    (:mod:`cr3bp.ephemeris_tables`). Velocities are the exact derivatives of the tables'
+    (:mod:`cr3bp.time.ephemeris_tables`). Velocities are the exact derivatives of the tables'
     polynomials. Agreement with ``jplephem`` reading the same file: every body within 1 m
     and 1 mm/s (tests/test_against_jplephem.py; measured: below 2 mm for Neptune, 0.03 mm
     for the Moon about the Earth: double-precision rounding). Span: the kernel's
     coverage, **1899-07-29 to 2053-10-09 TDB** (DE421 is documented for 1900-2050); epochs
     outside it raise :class:`~cr3bp.errors.EphemerisSpanError`, never a silent fallback.
 ``"series"``
-    The analytic series of :mod:`cr3bp.ephemeris_series` (Standish's mean elements, Meeus'
+    The analytic series of :mod:`cr3bp.time.ephemeris_series` (Standish's mean elements, Meeus'
     lunar series), accepted 1000-3000 AD (Moon 1900-2100): the labelled fallback for epochs
     outside DE421, km-level for the Moon and up to millions of km for the outer planets.
 
@@ -48,14 +48,13 @@ import math
 import numpy as np
 
 from . import ephemeris_series as _series
-from .errors import EphemerisSpanError, InputError
-from .timescales import Epoch, parse_iso
+from ..constants import AU_KM, J2000_JD, OBLIQUITY_J2000_ARCSEC, SECONDS_PER_DAY
+from ..errors import EphemerisSpanError, InputError
+from .scales import Epoch, parse_iso
 
 __all__ = ["BODIES", "CENTERS", "FRAMES", "MODELS", "ACCURACY", "position", "state", "valid_interval",
            "describe", "ecliptic_to_equator_matrix", "OBLIQUITY_J2000_ARCSEC", "AU_KM"]
 
-AU_KM = _series.AU_KM                            # IAU 2012 Resolution B2
-OBLIQUITY_J2000_ARCSEC = _series.OBLIQUITY_J2000_ARCSEC   # IAU 2006 (Hilton et al. 2006)
 ARCSEC = math.pi / 180.0 / 3600.0
 
 BODIES = _series.BODIES
@@ -139,7 +138,7 @@ def position(body: str, epochs, center: str = "earth", frame: str = "j2000-equat
     """Position of ``body`` relative to ``center``, km, in ``frame`` axes.
 
     Method: JPL DE421's Chebyshev tables (module docstring), or with ``model="series"`` the
-    analytic series of :mod:`cr3bp.ephemeris_series`.
+    analytic series of :mod:`cr3bp.time.ephemeris_series`.
 
     Parameters
     ----------
@@ -148,7 +147,7 @@ def position(body: str, epochs, center: str = "earth", frame: str = "j2000-equat
         ``mercury``, ``venus``, ``mars``, ``jupiter``, ``saturn``, ``uranus``, ``neptune``.
     epochs : Epoch or str or sequence of str
         Instants (any time scale inside an Epoch; ISO 8601 text is parsed with
-        :func:`~cr3bp.timescales.parse_iso`).
+        :func:`~cr3bp.time.scales.parse_iso`).
     center : str
         One of :data:`CENTERS`: any body above, or ``ssb`` (solar-system barycentre).
     frame : str
@@ -243,7 +242,7 @@ def _evaluate(body, epochs, center, frame, model, velocity: bool) -> np.ndarray:
 def _tdb_jd(ep: Epoch):
     """Two-part TDB Julian dates (flat arrays) of the epochs, the whole part exact.
 
-    TDB - TT is the 45-term series of :func:`cr3bp.timescales.tdb_minus_tt`; for many epochs
+    TDB - TT is the 45-term series of :func:`cr3bp.time.scales.tdb_minus_tt`; for many epochs
     close together (more than :data:`TDB_DIRECT_MAX`, and at least four per node) it is
     evaluated at nodes every :data:`TDB_NODE_DAYS` days and interpolated by 4-point Lagrange
     polynomials. Interpolation error at most h^4 max|f^(4)| (9/16) / 24 (the remainder of
@@ -251,29 +250,29 @@ def _tdb_jd(ep: Epoch):
     1974, sec. 2.6), f^(4) dominated by the series' monthly term (1.55 us at 77 714 rad per
     millennium): under 3 ns, against the series' own 0.6 us (tests/test_ephemeris.py: 5 ns).
     """
-    from .timescales import tdb_minus_tt
+    from .scales import tdb_minus_tt
     jd1, jd2 = (np.atleast_1d(np.asarray(x, dtype=float)).ravel() for x in ep.two_part_jd("tt"))
     n = jd1.size
     if n > TDB_DIRECT_MAX:
-        days = (jd1 - 2451545.0) + jd2
+        days = (jd1 - J2000_JD) + jd2
         lo = math.floor(float(days.min()) / TDB_NODE_DAYS) - 1
         n_nodes = math.floor(float(days.max()) / TDB_NODE_DAYS) - lo + 3
         if 4 * n_nodes <= n:
-            f = tdb_minus_tt(2451545.0, (lo + np.arange(n_nodes)) * TDB_NODE_DAYS)
+            f = tdb_minus_tt(J2000_JD, (lo + np.arange(n_nodes)) * TDB_NODE_DAYS)
             u = days / TDB_NODE_DAYS - lo
             i = np.floor(u).astype(np.int64)
             p = u - i
             q, r, w = p + 1.0, p - 1.0, p - 2.0
             dt = (p * r * w * (-1.0 / 6.0) * f[i - 1] + q * r * w * 0.5 * f[i]
                   - q * p * w * 0.5 * f[i + 1] + q * p * r * (1.0 / 6.0) * f[i + 2])
-            return jd1, jd2 + dt / 86400.0
-    return jd1, jd2 + tdb_minus_tt(jd1, jd2) / 86400.0
+            return jd1, jd2 + dt / SECONDS_PER_DAY
+    return jd1, jd2 + tdb_minus_tt(jd1, jd2) / SECONDS_PER_DAY
 
 
 def _check_span(kernel, jd1, jd2, body, center):
     if not jd1.size:
         return
-    sec = (jd1 - 2451545.0) * 86400.0 + jd2 * 86400.0
+    sec = (jd1 - J2000_JD) * SECONDS_PER_DAY + jd2 * SECONDS_PER_DAY
     bad = (sec < kernel.start_s) | (sec > kernel.end_s) | ~np.isfinite(sec)
     if bad.any():
         k = int(np.argmax(bad))
@@ -286,8 +285,8 @@ def _check_span(kernel, jd1, jd2, body, center):
 
 
 def _tdb_epoch(seconds: float) -> Epoch:
-    days = math.floor(seconds / 86400.0)
-    return Epoch.from_jd(2451545.0 + days, (seconds - days * 86400.0) / 86400.0, "tdb")
+    days = math.floor(seconds / SECONDS_PER_DAY)
+    return Epoch.from_jd(J2000_JD + days, (seconds - days * SECONDS_PER_DAY) / SECONDS_PER_DAY, "tdb")
 
 
 def _choice(what: str, value, allowed) -> str:

@@ -1,5 +1,5 @@
 """Transfers of a mission run: the scenario's transfers become node lists for the transfer
-graph (:mod:`cr3bp.graph_build`), whose best route is stitched (:mod:`cr3bp.stitch`) and
+graph (:mod:`cr3bp.transfers.graph`), whose best route is stitched (:mod:`cr3bp.transfers.stitch`) and
 drawn, and whose stitched trajectory the exports sample."""
 
 from __future__ import annotations
@@ -8,7 +8,8 @@ import dataclasses
 
 import numpy as np
 
-from .errors import InputError, NoSolutionError
+from ..errors import InputError, NoSolutionError
+from .outputs import csv_text, json_text, save_figures, say
 
 TARGET_KEYS = ("period", "jacobi", "ax", "ay", "az", "perilune", "resonance")
 
@@ -30,7 +31,7 @@ def _toml_str(v: str) -> str:
 
 
 def node_list_text(plan, transfer: dict) -> str:
-    """A node list (TOML, the format of :mod:`cr3bp.nodes`) for one scenario transfer."""
+    """A node list (TOML, the format of :mod:`cr3bp.transfers.nodes`) for one scenario transfer."""
     names = [transfer["from"], *transfer.get("via", []), transfer["to"]]
     lines = ["[settings]", "all_pairs = true", ""]
     seen = set()
@@ -56,28 +57,27 @@ def design_transfers(plan, orbits, out, *, catalog=None, workers=None, scheduler
                      reduced=False):
     """Build, search and stitch every scenario transfer; write its tables and figures.
 
-    Returns ``(routes, stitched)``: per transfer name, a summary dict for the report and the
-    :class:`cr3bp.stitch.StitchedRoute`.
+    Returns ``(routes, stitched, figures)``: per transfer name, a summary dict for the report and
+    the :class:`cr3bp.transfers.stitch.StitchedRoute`; the figures written (name -> path and caption).
     """
-    from . import units
-    from .atomic import write_text
-    from .graph_build import build_graph
-    from .network import Constraints, best_routes, pareto_routes
-    from .nodes import find_node, parse_nodes
-    from .stitch import stitch_route, trajectory_rows
-    from .mission import _csv, _json, _say
+    from .. import units
+    from ..io.atomic import write_text
+    from ..transfers.graph import build_graph
+    from ..transfers.search import Constraints, best_routes, pareto_routes
+    from ..transfers.nodes import find_node, parse_nodes
+    from ..transfers.stitch import stitch_route, trajectory_rows
     system = plan.system
     routes, stitched = {}, {}
-    design_transfers.figures = {}
+    figures = {}
     for i, t in enumerate(plan.data.get("transfers", [])):
         name = t["name"]
-        _say(progress, f"transfer '{name}': building the transfer graph")
+        say(progress, f"transfer '{name}': building the transfer graph")
         nodelist = parse_nodes(node_list_text(plan, t), system, file=f"{plan.path} [transfers {i}]")
         nodes = nodelist.nodes
 
         def tick(done, total, leg, _n=name):
             if done == total or done % 5 == 0:
-                _say(progress, f"transfer '{_n}': leg {done} of {total}")
+                say(progress, f"transfer '{_n}': leg {done} of {total}")
         built = build_graph(system, nodelist, workers=workers, scheduler=scheduler, catalog=catalog, progress=tick)
         src, dst = find_node(nodes, t["from"]), find_node(nodes, t["to"])
         through = tuple(find_node(nodes, v).id for v in t.get("via", []))
@@ -94,7 +94,7 @@ def design_transfers(plan, orbits, out, *, catalog=None, workers=None, scheduler
             why = sorted({p["reason"] for p in built.pruned})
             raise NoSolutionError(f"transfer '{name}': {msg}" + (f" (not attempted: {'; '.join(why)})" if why else "")) from None
         front = pareto_routes(built.graph, src.id, dst.id, c)
-        _say(progress, f"transfer '{name}': stitching the best route by multiple shooting")
+        say(progress, f"transfer '{name}': stitching the best route by multiple shooting")
         periods = {u: d["leg"]["period_tu"] for u, v, k, d in built.graph.edges(keys=True, data=True)
                    if u == v and k == "stay" and "period_tu" in d.get("leg", {})}
         st = stitch_route(system, ranked[0], c, periods=periods)
@@ -116,9 +116,9 @@ def design_transfers(plan, orbits, out, *, catalog=None, workers=None, scheduler
         routes[name]["labels"] = {str(k): v for k, v in label.items()}
         write_route_tables(plan, name, routes[name], out)
         headers, rows = trajectory_rows(st)
-        write_text(out.path(f"route-{name}-trajectory.csv"), _csv(headers, rows, [f"stitched transfer {name}"]))
-        _figures(plan, t, orbits, ranked, front, st, out)
-    return routes, stitched
+        write_text(out.path(f"route-{name}-trajectory.csv"), csv_text(headers, rows, [f"stitched transfer {name}"]))
+        figures.update(_figures(plan, t, orbits, ranked, front, st, out))
+    return routes, stitched, figures
 
 
 DV_DESIGN_NOTE = "the CR3BP design, rotating frame, fixed units (the route's dv_mps and dv_vector_mps too)"
@@ -127,12 +127,11 @@ DV_DESIGN_NOTE = "the CR3BP design, rotating frame, fixed units (the route's dv_
 def write_route_tables(plan, name, summary, out, exported=()):
     """``route-NAME.json`` and ``route-NAME-maneuvers.csv``: the stitched route's maneuvers with
     their design (CR3BP) Δv and, per export of this transfer (``exported``: dicts with ``file``
-    and ``maneuvers``, the rows of :func:`cr3bp.export.maneuver_table`), the Δv measured on the
+    and ``maneuvers``, the rows of :func:`cr3bp.io.export.maneuver_table`), the Δv measured on the
     exported trajectory, side by side and labelled, with a warning line where they differ by
     more than 1 %. Written after the design and again once the exports exist."""
-    from .atomic import write_text
-    from .export import dv_differs
-    from .mission import _csv, _json
+    from ..io.atomic import write_text
+    from ..io.export import dv_differs
     label = summary.get("labels", {})
     mans = [dict(m, dv_design_mps=m["dv_mps"]) for m in summary["maneuvers"]]
     models = {"dv_design_mps": DV_DESIGN_NOTE}
@@ -156,9 +155,9 @@ def write_route_tables(plan, name, summary, out, exported=()):
     summary["dv_warnings"] = warnings
     body = {k: v for k, v in summary.items() if k not in ("labels", "maneuvers_labelled")}
     body["maneuvers"] = mans
-    write_text(out.path(f"route-{name}.json"), _json({"caution": plan_caution(), "transfer": name, **body}))
+    write_text(out.path(f"route-{name}.json"), json_text({"caution": plan_caution(), "transfer": name, **body}))
     keys = [k for k in models if k != "dv_design_mps"]
-    write_text(out.path(f"route-{name}-maneuvers.csv"), _csv(
+    write_text(out.path(f"route-{name}-maneuvers.csv"), csv_text(
         ["t_days", "node", "x_km", "y_km", "z_km", "dv_x_mps", "dv_y_mps", "dv_z_mps", "dv_design_mps"] + keys,
         [[m["t_days"], label.get(m["node"], m["node"]), *m["position_km"], *m["dv_vector_mps"], m["dv_design_mps"],
           *(m[k] for k in keys)] for m in mans],
@@ -167,28 +166,29 @@ def write_route_tables(plan, name, summary, out, exported=()):
 
 
 def plan_caution():
-    from .cautions import CAUTION
+    from ..cautions import CAUTION
     return CAUTION
 
 
 def _figures(plan, transfer, orbits, ranked, front, st, out):
-    from .mission import _save_all
-    from .plotting.routes import plot_corridor, plot_pareto
+    from ..plotting.routes import plot_corridor, plot_pareto
     name = transfer["name"]
     formats = plan.data.get("plots", {}).get("formats", ["png"])
     if not plan.data.get("plots", {}).get("corridors", True):
-        return
+        return {}
+    figures = {}
     legs = [d["leg"] for d in ranked[0].legs]
-    from .manifolds import corridor_tubes
+    from ..tubes.manifolds import corridor_tubes
     ax = plot_corridor(st, legs, tubes=corridor_tubes(route_orbits(transfer, orbits)))
-    design_transfers.figures[f"corridor-{name}"] = _save_all(
+    figures[f"corridor-{name}"] = save_figures(
         ax.figure, out, f"corridor-{name}", formats,
         f"{plan.name}: transfer '{name}', the best route stitched by multiple shooting over the "
         "zero-velocity curves of its legs; triangles: maneuvers.")
     ax = plot_pareto(ranked, front, ranked[0])
-    design_transfers.figures[f"pareto-{name}"] = _save_all(
+    figures[f"pareto-{name}"] = save_figures(
         ax.figure, out, f"pareto-{name}", formats,
         f"{plan.name}: transfer '{name}', total Δv against time of flight of the ranked routes and the Pareto set.")
+    return figures
 
 
 def route_orbits(transfer: dict, orbits: dict) -> list:
@@ -198,8 +198,8 @@ def route_orbits(transfer: dict, orbits: dict) -> list:
 
 def transfer_trajectory(plan, st, spec, ts, step_s, ex, model):
     """The stitched transfer sampled on the export's clock, with its maneuvers."""
-    from . import export
-    from .stitch import to_export
+    from ..io import export
+    from ..transfers.stitch import to_export
     base = to_export(st, spec, ex["object"].upper())
     span = float(st.times_tu[-1] - st.times_tu[0])
     grid = export.epoch_grid(spec, ts, span, step_s)

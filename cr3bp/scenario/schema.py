@@ -13,7 +13,7 @@ import tomllib
 from dataclasses import dataclass
 from pathlib import Path
 
-from .errors import InputError, shown
+from ..errors import InputError, shown
 
 #: Largest scenario file read (a scenario is a few kilobytes; this keeps a hostile file cheap).
 MAX_SCENARIO_BYTES = 1 << 20
@@ -57,7 +57,7 @@ CHECK_KEYS = {
     "line_of_sight_to_larger": (B, False, "continuous line of sight to the larger primary past the smaller"),
     "max_period": (Q, False, "longest allowed period"),
 }
-#: Withdrawn check keys and what replaces them (the same text as cr3bp.checks.RENAMED_CHECKS).
+#: Withdrawn check keys and what replaces them (the same text as cr3bp.scenario.checks.RENAMED_CHECKS).
 RENAMED_CHECKS = {
     "min_angle_from_primaries_line_deg":
         "this check measured the angle at the larger primary (in Sun-Earth: at the Sun) and is "
@@ -294,7 +294,7 @@ def parse_toml(text: str, file: str) -> dict:
 def check(data: dict, lines: dict, file: str, schema: dict | None = None,
           text: str | None = None) -> list[Problem]:
     """Every problem of ``data`` against ``schema`` (default: the scenario schema, with its
-    cross-key rules). Other file formats (e.g. the node lists of :mod:`cr3bp.nodes`) pass
+    cross-key rules). Other file formats (e.g. the node lists of :mod:`cr3bp.transfers.nodes`) pass
     their own schema and get the key, type and line checks only."""
     problems: list[Problem] = []
     text_lines = text.splitlines() if text is not None else None
@@ -361,7 +361,7 @@ def check(data: dict, lines: dict, file: str, schema: dict | None = None,
             if not isinstance(v, bool):
                 bad(full, v, "true or false")
         elif typ == Q:
-            from . import units
+            from .. import units
             if not isinstance(v, str):
                 return bad(full, v, "text with a unit, e.g. '200km'")
             if not plain_text(v, full):

@@ -22,7 +22,7 @@ The node list is a TOML file with keys of our own (README, "Node lists")::
     tof = "4d"
     max_patch_dv = "300m/s"
 
-It is checked with the scenario checker (:func:`cr3bp.scenario_schema.check`): every unknown,
+It is checked with the scenario checker (:func:`cr3bp.scenario.schema.check`): every unknown,
 missing or mistyped key is reported with file, line and dotted key before anything is computed.
 """
 
@@ -37,9 +37,9 @@ from pathlib import Path
 
 import numpy as np
 
-from . import scenario_schema as schema_mod
-from . import units
-from .errors import InputError, shown
+from ..scenario import schema as schema_mod
+from .. import units
+from ..errors import InputError, shown
 
 #: Largest node list read (characters): far above any real one, it keeps a hostile file cheap.
 MAX_NODE_LIST_CHARS = 2_000_000
@@ -331,13 +331,13 @@ def parse_nodes(text: str, system, file: str = "<nodes>") -> NodeList:
 def _node(t: dict, system):
     kind, name, sname = t["kind"], t["name"], system.name
     if kind == "orbit":
-        from .orbits.request import parse_request
+        from ..orbits.request import parse_request
         spec = parse_request(t["orbit"])          # InputError names the bad word
         if not spec.key:
             raise InputError(f"orbit '{shown(t['orbit'])}' has no target; add e.g. period=, jacobi=, az=")
         return OrbitNode(name, sname, t["orbit"])
     if kind == "state":
-        from . import validate
+        from .. import validate
         s = validate.state(system, t["state"], "state")
         return StateNode(name, sname, tuple(float(v) for v in s))
     body = _body(system, t["body"])
@@ -397,7 +397,7 @@ def node_state(system, node) -> np.ndarray | None:
     """The rotating-frame state at which legs leave or reach ``node``, when known without
     computing an orbit: a state node's state, or the point of a parking orbit on the
     primaries' line on the side away from the other primary (phase 0), moving prograde.
-    Orbit nodes are solved by :func:`cr3bp.graph_build.resolve_orbits` (None here)."""
+    Orbit nodes are solved by :func:`cr3bp.transfers.graph.resolve_orbits` (None here)."""
     if isinstance(node, StateNode):
         return np.array(node.state, dtype=float)
     if isinstance(node, ParkingNode):

@@ -13,8 +13,8 @@ import html
 import math
 from pathlib import Path
 
-from .atomic import write_text
-from .cautions import CAUTION
+from ..io.atomic import write_text
+from ..cautions import CAUTION
 
 ASSUMPTIONS = (
     "Circular restricted three-body problem: two primaries on circular orbits about their "

@@ -39,9 +39,9 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.optimize import brentq, minimize_scalar
 
-from .errors import ConvergenceError, InputError, NoSolutionError
-from .integrate import propagate
-from .integrate.events import COORDS
+from ..errors import ConvergenceError, InputError, NoSolutionError
+from ..integrate import propagate
+from ..integrate.events import COORDS
 from .manifolds import RTOL, ATOL, Stop, _globalise, grow_tube, manifold_starts
 from .sections import Crossings, Section, apsides, apsis, primary_index
 

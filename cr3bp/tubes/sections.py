@@ -44,14 +44,45 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .dynamics import acceleration, jacobi
-from .errors import InputError, StateError
-from .integrate import escape, impact, plane, propagate, propagate_batch
-from .integrate.events import COORDS
+from ..dynamics import acceleration, jacobi
+from ..errors import InputError, StateError
+from ..integrate import escape, impact, plane, propagate, propagate_batch
+from ..integrate.events import COORDS
 
 KINDS = ("plane", "sphere", "apsis")
 #: Names the map coordinates may take (besides the six state components).
 MAP_COORDS = tuple(COORDS) + ("t", "tof_days", "altitude_km", "radius", "r", "jacobi")
+
+
+#: Tolerances of the tube propagations (manifolds and section crossings in one batch).
+BATCH_RTOL = 1e-12
+BATCH_ATOL = 1e-12
+
+
+def batch_features() -> dict:
+    """Which optional features the installed ``propagate_batch`` offers (per-trajectory final
+    times with STMs, a larger event record, marking failed trajectories instead of raising)."""
+    import inspect
+    params = inspect.signature(propagate_batch).parameters
+    return {k: k in params for k in ("stm", "max_events", "on_failure")}
+
+
+def batch(system, states, t_final, events=(), max_events=8):
+    """``propagate_batch`` with the tube settings, using the optional features when present."""
+    kw = {}
+    feats = batch_features()
+    if feats["max_events"]:
+        kw["max_events"] = int(max_events)
+    if feats["on_failure"]:
+        kw["on_failure"] = "mark"
+    return propagate_batch(system, np.ascontiguousarray(states), t_final, rtol=BATCH_RTOL,
+                           atol=BATCH_ATOL, events=events, **kw)
+
+
+def bounded_max_events(count: int) -> int:
+    """Events recorded per trajectory when a half-plane section's crossings are filtered
+    after the propagation (crossings outside the bound take room too)."""
+    return 16 * int(count) + 48
 
 
 @dataclass(frozen=True)
@@ -225,7 +256,7 @@ def expression(text: str, system) -> float:
         if isinstance(node, ast.UnaryOp) and type(node.op) in _OPS:
             return _OPS[type(node.op)](ev(node.operand))
         raise ValueError
-    from .errors import shown
+    from ..errors import shown
     if len(str(text)) > MAX_EXPRESSION_CHARS:
         raise InputError(f"section value '{shown(text)}' is longer than {MAX_EXPRESSION_CHARS} "
                          "characters; give a number or short arithmetic in mu (e.g. 1-mu)")
@@ -248,7 +279,7 @@ def parse_section(text: str, system) -> Section:
     ``sphere:moon:20000km`` (entering), ``sphere:moon:20000km:+`` (leaving),
     ``periapsis:earth``, ``apoapsis:moon``.
     """
-    from . import units
+    from .. import units
     t = str(text).strip()
     if "," in t:
         plane_text, _, bound_text = t.partition(",")
@@ -277,7 +308,7 @@ def parse_section(text: str, system) -> Section:
     if head == "sphere":
         if len(parts) not in (3, 4):
             raise InputError(f"section '{text}': write sphere:BODY:RADIUS[:+|-], e.g. sphere:moon:20000km")
-        from .validate import quantity
+        from ..validate import quantity
         r = quantity(f"sphere radius in section '{text}'", parts[2], "length", system, sign="positive")
         d = _direction_text(parts[3], text) if len(parts) == 4 else -1
         return sphere(system, parts[1], r, d or -1, label=t)
@@ -475,7 +506,6 @@ def crossings(system, states, section: Section, t_max: float, count: int = 1, *,
     bounded = section.bounded
     ev = section.event(system, sign, terminal=not bounded, count=1 if bounded else count)
     events = [ev] + guard_events(system) + list(extra_events)
-    from .manifolds import batch, bounded_max_events
     res = batch(system, states, float(t_max), events,
                 max_events=bounded_max_events(count) if bounded else count + 8)
     rows, ts, traj, cnt = [], [], [], []

@@ -37,15 +37,14 @@ from functools import lru_cache
 
 import numpy as np
 
-from .errors import LibrateError
+from ..constants import J2000_JD, SECONDS_PER_DAY
+from ..errors import LibrateError
 
 #: The kernel as shipped by the data package, and the SHA-256 of the copy this code was
 #: checked on (skyfield-data 7.0.0; tests/test_against_jplephem.py asserts it).
 PACKAGE = "skyfield-data"
 KERNEL_NAME = "de421.bsp"
 KERNEL_SHA256 = "a20a7139da04cbc462454634918e9a9ca69127044e2cc9d4f9c16e238d2deedc"
-J2000_JD = 2451545.0
-SECONDS_PER_DAY = 86400.0
 CHUNK = 32768                     # epochs per block: gathered coefficients stay a few MB
 RECORD_BYTES = 1024
 WORD = np.dtype("<f8")
@@ -188,7 +187,7 @@ def read_kernel(path: str) -> Kernel:
 
 def seconds_parts(jd1, jd2):
     """TDB Julian date in two parts -> (whole, fraction) seconds past J2000 (``whole`` exact
-    when jd1 is a whole or half day, as :class:`cr3bp.timescales.Epoch` gives it)."""
+    when jd1 is a whole or half day, as :class:`cr3bp.time.scales.Epoch` gives it)."""
     return (np.asarray(jd1, float) - J2000_JD) * SECONDS_PER_DAY, np.asarray(jd2, float) * SECONDS_PER_DAY
 
 

@@ -51,7 +51,8 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from .errors import InputError
+from ..constants import MJD_ZERO_JD, OBLIQUITY_J2000_ARCSEC, SECONDS_PER_DAY
+from ..errors import InputError
 
 AXES = ("j2000-equator", "j2000-ecliptic", "rotating")
 ANCHORS = ("ephemeris", "circular")
@@ -62,9 +63,8 @@ CENTERS = ("primary", "secondary", "barycenter", "earth", "moon")
 BODY_CENTERS = {"earth-moon": ("earth", "moon")}
 TIME_SYSTEMS = ("TDB", "TT", "TAI", "UTC")
 
-#: IAU 2006 obliquity of the ecliptic at J2000 (Hilton et al. 2006, from memory; pyerfa obl06
-#: gives the same value, see tests/test_against_pyerfa_frames.py).
-OBLIQUITY_J2000_RAD = 84381.406 * math.pi / (180.0 * 3600.0)
+#: The obliquity of :mod:`cr3bp.constants` in radians.
+OBLIQUITY_J2000_RAD = OBLIQUITY_J2000_ARCSEC * math.pi / (180.0 * 3600.0)
 
 #: The instantaneous frame reads the secondary's ephemeris through Chebyshev series of this
 #: degree on segments of this length aligned on J2000 (so the series at an epoch does not
@@ -74,18 +74,17 @@ OBLIQUITY_J2000_RAD = 84381.406 * math.pi / (180.0 * 3600.0)
 SERIES_SEGMENT_S = 43200.0
 SERIES_DEGREE = 13
 
-SECONDS_PER_DAY = 86400.0
 
 
-# ---- adapters to the project's time scales (cr3bp.timescales) and ephemeris -------------
+# ---- adapters to the project's time scales (cr3bp.time.scales) and ephemeris -------------
 
 _DESIGNATOR = re.compile(r"(Z|\s(UTC|TAI|TT|TDB))\s*$", re.IGNORECASE)
 _BODY = {"earth-moon": "emb", "mars-system": "mars", "jupiter-system": "jupiter"}
 
 
 def _epoch(tdb_s):
-    """TDB seconds since J2000 -> :class:`cr3bp.timescales.Epoch` (two-part JD, exact split)."""
-    from .timescales import J2000_JD, Epoch
+    """TDB seconds since J2000 -> :class:`cr3bp.time.scales.Epoch` (two-part JD, exact split)."""
+    from .scales import J2000_JD, Epoch
     t = np.asarray(tdb_s, dtype=float)
     days = np.floor(t / SECONDS_PER_DAY)
     return Epoch.from_jd(J2000_JD + days, (t - days * SECONDS_PER_DAY) / SECONDS_PER_DAY, "tdb")
@@ -95,7 +94,7 @@ def epoch_from_text(text: str, default_scale: str = "UTC") -> float:
     """ISO 8601 text -> TDB seconds since J2000. 'Z' (or a trailing scale name) sets the scale."""
     if not isinstance(text, str):
         raise InputError(f"epoch {text!r} is not text; expected ISO 8601 like 2031-03-01T00:00:00Z")
-    from .timescales import parse_iso
+    from .scales import parse_iso
     named = _DESIGNATOR.search(text)
     ep = parse_iso(text) if named else parse_iso(text, time_system(default_scale).lower())
     return float(ep.seconds_since_j2000("tdb"))
@@ -109,10 +108,10 @@ def epoch_to_text(tdb_s, scale: str = "TDB", digits: int = 6):
 
     Microsecond text (``digits=6``, the files' form) is built by numpy's datetime64 from the
     scale's two-part Julian date; the rare instants inside a UTC leap second, and other digit
-    counts, go through :meth:`cr3bp.timescales.Epoch.to_iso`.
+    counts, go through :meth:`cr3bp.time.scales.Epoch.to_iso`.
     """
     import warnings
-    from .timescales import tai_minus_utc
+    from .scales import tai_minus_utc
     t = np.asarray(tdb_s, dtype=float)
     flat = t.ravel()
     sc = time_system(scale).lower()
@@ -121,12 +120,12 @@ def epoch_to_text(tdb_s, scale: str = "TDB", digits: int = 6):
         out = ep.to_iso(sc, digits, designator=False)
         return np.asarray(out if isinstance(out, list) else [out]).reshape(t.shape)
     jd1, jd2 = (np.atleast_1d(x) for x in ep.two_part_jd(sc))
-    mjd = np.rint(jd1 - 2400000.5).astype(np.int64)
-    length = np.full(mjd.shape, 86400.0)
+    mjd = np.rint(jd1 - MJD_ZERO_JD).astype(np.int64)
+    length = np.full(mjd.shape, SECONDS_PER_DAY)
     if sc == "utc":
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")   # the conversion above has already warned
-            length = 86400.0 + tai_minus_utc(mjd + 1) - tai_minus_utc(mjd)
+            length = SECONDS_PER_DAY + tai_minus_utc(mjd + 1) - tai_minus_utc(mjd)
     us = np.rint(jd2 * length * 1e6).astype(np.int64)
     out = np.datetime_as_string(_MJD0 + (mjd * 86_400_000_000 + us).astype("timedelta64[us]"), unit="us")
     odd = us >= 86_400_000_000                        # inside a leap second (23:59:60)
@@ -143,11 +142,11 @@ def epochs_from_texts(texts, scale: str) -> np.ndarray:
     """ISO 8601 strings on ``scale`` -> TDB seconds since J2000.
 
     Plain ``YYYY-MM-DDThh:mm:ss[.f]`` text is read by numpy's datetime64 (vectorised) and
-    passed to :meth:`cr3bp.timescales.Epoch.from_jd`; anything else (a leap second, other
-    forms) goes through :func:`cr3bp.timescales.parse_iso`, which also names bad values.
+    passed to :meth:`cr3bp.time.scales.Epoch.from_jd`; anything else (a leap second, other
+    forms) goes through :func:`cr3bp.time.scales.parse_iso`, which also names bad values.
     """
     import warnings
-    from .timescales import Epoch, parse_iso, tai_minus_utc
+    from .scales import Epoch, parse_iso, tai_minus_utc
     texts = [str(x).strip() for x in texts]
     sc = time_system(scale).lower()
     try:
@@ -159,15 +158,15 @@ def epochs_from_texts(texts, scale: str) -> np.ndarray:
     us = (stamps - _MJD0) / np.timedelta64(1, "us")
     mjd = np.floor(us / 86_400_000_000).astype(np.int64)
     sec = (us - mjd * 86_400_000_000) * 1e-6
-    length = np.full(mjd.shape, 86400.0)
+    length = np.full(mjd.shape, SECONDS_PER_DAY)
     if sc == "utc":
         if mjd.min() < 41317:
             return np.atleast_1d(parse_iso(texts, sc).seconds_since_j2000("tdb"))  # its message
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
-            length = 86400.0 + tai_minus_utc(mjd + 1) - tai_minus_utc(mjd)
+            length = SECONDS_PER_DAY + tai_minus_utc(mjd + 1) - tai_minus_utc(mjd)
         tai_minus_utc(mjd, stacklevel=2)          # warns once past the leap-second table
-    ep = Epoch.from_jd(mjd + 2400000.5, sec / length, sc)
+    ep = Epoch.from_jd(mjd + MJD_ZERO_JD, sec / length, sc)
     return np.atleast_1d(ep.seconds_since_j2000("tdb"))
 
 
@@ -189,7 +188,7 @@ def time_system(name: str) -> str:
 
 def secondary_state(system, tdb_s) -> np.ndarray:
     """Ephemeris state of the secondary relative to the primary, (N, 6) km, km/s, EME2000
-    (:func:`cr3bp.ephemeris.state`)."""
+    (:func:`cr3bp.time.ephemeris.state`)."""
     if system.primary is None or system.secondary is None:
         raise InputError(f"system '{system.name}' has no named primaries, so it has no ephemeris; "
                          "use --anchor circular with an explicit orientation")
@@ -368,7 +367,7 @@ class FrameSpec:
     @classmethod
     def from_dict(cls, d: dict) -> "FrameSpec":
         """Rebuild a spec written by :meth:`to_dict` (system by name, or by mu and units)."""
-        from .systems import system
+        from ..systems import system
         try:
             sysm = system(d["system"])
             if abs(sysm.mu - float(d["mu"])) > 1e-15 * max(1.0, sysm.mu):
@@ -415,7 +414,7 @@ def body_offset(spec: "FrameSpec", tdb_s):
     spec's axes (zeros for the centres on the CR3BP x axis).
 
     Sun-Earth: the Earth (or the Moon) about the Earth-Moon barycentre from
-    :func:`cr3bp.ephemeris.state` (``center="emb"``), whatever the anchoring: the CR3BP
+    :func:`cr3bp.time.ephemeris.state` (``center="emb"``), whatever the anchoring: the CR3BP
     places the barycentre, the ephemeris the body inside it.
     """
     t = np.atleast_1d(np.asarray(tdb_s, dtype=float))

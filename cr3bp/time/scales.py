@@ -40,7 +40,9 @@ from importlib import resources
 
 import numpy as np
 
-from .errors import InputError
+from ..constants import (DAYS_PER_JULIAN_MILLENNIUM, J2000_JD, MJD_ZERO_JD, SECONDS_PER_DAY,
+                         TT_MINUS_TAI_S)
+from ..errors import InputError
 
 __all__ = [
     "SCALES", "Epoch", "LeapSecondsExpiredWarning", "leap_second_table", "tai_minus_utc",
@@ -49,11 +51,6 @@ __all__ = [
 ]
 
 SCALES = ("utc", "tai", "tt", "tdb")
-SECONDS_PER_DAY = 86400.0
-MJD_ZERO_JD = 2400000.5          # JD of MJD 0.0 (definition of the Modified Julian Date)
-J2000_JD = 2451545.0             # JD(TT) of the epoch J2000.0 (IAU 1976/2000, common practice)
-DAYS_PER_JULIAN_MILLENNIUM = 365250.0
-TT_MINUS_TAI_S = 32.184          # IAU 1991 Resolution A4 (IERS Conventions 2010, eq. 10.1)
 FIRST_UTC_MJD = 41317            # 1972-01-01, start of UTC with whole-second TAI-UTC
 MAX_DECIMALS = 9
 

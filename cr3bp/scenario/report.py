@@ -1,10 +1,10 @@
-"""The sections of a mission run's HTML report (built with :mod:`cr3bp.report`)."""
+"""The sections of a mission run's HTML report (built with :mod:`cr3bp.scenario.page`)."""
 
 from __future__ import annotations
 
 import numpy as np
 
-from . import report as R
+from . import page as R
 
 
 def _system_section(plan) -> str:
@@ -21,7 +21,7 @@ def _system_section(plan) -> str:
 def places_note(d) -> str:
     """A sentence when the orbit's target is met at more than one place along its family
     (``target_matches`` of :meth:`PeriodicOrbit.to_dict`), else ""."""
-    from .orbits.request import describe_places
+    from ..orbits.request import describe_places
     places = describe_places(d)
     if not places:
         return ""

@@ -36,11 +36,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from . import units
-from .dynamics import jacobi as _jacobi, jacobian
-from .errors import InputError, NoSolutionError
-from .integrate import escape, impact, propagate, propagate_batch
-from .sections import Section, guard_events, parse_section, primary_index
+from .. import units
+from ..dynamics import jacobi as _jacobi, jacobian
+from ..errors import InputError, NoSolutionError
+from ..integrate import escape, impact, propagate, propagate_batch
+from .sections import (Section, batch, batch_features, bounded_max_events, guard_events, parse_section,
+    primary_index)
 
 #: Step-off distances (km) by system name (common practice, see module docstring).
 STEP_OFF_KM = {"earth-moon": 40.0, "sun-earth": 200.0}
@@ -67,7 +68,7 @@ def step_lu(system, step_km=None) -> tuple[float, float]:
             return 1e-6, float("nan")
         step_km = default_step_km(system)
     if isinstance(step_km, str):
-        from .validate import quantity
+        from ..validate import quantity
         v = quantity("step-off distance", step_km, "length", system, sign="positive")
         return v, (v * system.length_km if system.dimensional else float("nan"))
     if not (math.isfinite(step_km) and step_km > 0):
@@ -140,24 +141,6 @@ def _count(n):
     return n
 
 
-def batch_features() -> dict:
-    """Which optional features the installed ``propagate_batch`` offers (per-trajectory final
-    times with STMs, a larger event record, marking failed trajectories instead of raising)."""
-    import inspect
-    params = inspect.signature(propagate_batch).parameters
-    return {k: k in params for k in ("stm", "max_events", "on_failure")}
-
-
-def batch(system, states, t_final, events=(), max_events=8):
-    """``propagate_batch`` with the tube settings, using the optional features when present."""
-    kw = {}
-    feats = batch_features()
-    if feats["max_events"]:
-        kw["max_events"] = int(max_events)
-    if feats["on_failure"]:
-        kw["on_failure"] = "mark"
-    return propagate_batch(system, np.ascontiguousarray(states), t_final, rtol=RTOL, atol=ATOL,
-                           events=events, **kw)
 
 
 def carry(orbit, times, progress=None):
@@ -263,7 +246,7 @@ def parse_until(texts, system, t_max=None) -> Stop:
             body, _, n = rest.partition("#")
             section = parse_section(body, system)
             if n:
-                from .validate import whole_number
+                from ..validate import whole_number
                 count = whole_number(f"crossing number in '{text}'", n, 1, 1000)
         elif kind == "time":
             tmax = units.time(rest, system, default_unit="TU")
@@ -271,13 +254,13 @@ def parse_until(texts, system, t_max=None) -> Stop:
                 raise InputError(f"time limit in '{text}' must be positive")
         elif kind == "altitude":
             body, _, h = rest.partition(":")
-            from .validate import quantity
+            from ..validate import quantity
             p = primary_index(system, body)
             system.require_dimensional("an altitude")
             alt_km = system.km(quantity(f"altitude in '{text}'", h, "length", system, sign="nonnegative"))
             alts.append((p, float(alt_km)))
         elif kind == "escape":
-            from .validate import quantity
+            from ..validate import quantity
             esc = quantity(f"escape radius in '{text}'", rest, "length", system, sign="positive",
                            default_unit="LU")
         else:
@@ -352,7 +335,7 @@ class Tube:
         return np.array([s == what for s in self.status])
 
     def section_cut(self):
-        """The tube's cut on its stop section as :class:`~cr3bp.sections.Crossings`."""
+        """The tube's cut on its stop section as :class:`~cr3bp.tubes.sections.Crossings`."""
         from .sections import Crossings
         if self.stop.section is None:
             raise InputError("this tube was not grown to a section")
@@ -501,11 +484,6 @@ def grow_tube(orbit, stability: str, branch: str, n_points: int = 200, until=Non
                 w, starts, tof, ends, status, stop, spacing, orbit)
 
 
-def bounded_max_events(count: int) -> int:
-    """Events recorded per trajectory when a half-plane section's crossings are filtered
-    after the propagation (crossings outside the bound take room too)."""
-    return 16 * int(count) + 48
-
 
 def _globalise(system, starts, stop, sign, progress=None):
     events, names = stop.events(system, sign)
@@ -548,7 +526,7 @@ def _globalise(system, starts, stop, sign, progress=None):
 
 def _lagrange_jacobi(system, point) -> float:
     """Jacobi constant of a collinear Lagrange point (:func:`cr3bp.equilibria.lagrange_point`)."""
-    from .equilibria import lagrange_point
+    from ..equilibria import lagrange_point
     return float(lagrange_point(system, point).jacobi)
 
 
@@ -562,8 +540,8 @@ def orbit_from_state(system, state, period, family="given", point="", branch="",
     InputError
         The state does not return to itself within ``tolerance`` (LU, LU/TU) after ``period``.
     """
-    from . import validate
-    from .orbits import PeriodicOrbit
+    from .. import validate
+    from ..orbits import PeriodicOrbit
     s0 = validate.state(system, state)
     T = validate.finite_time("period", period)
     if not T > 0:
@@ -588,7 +566,7 @@ def point_tube(system, point, stability: str, branch: str, until=None, *, step_k
     ``position`` (3,) may give its position directly.
     """
     if position is None:
-        from .equilibria import lagrange_point  # lands with the equilibria module
+        from ..equilibria import lagrange_point  # lands with the equilibria module
         position = lagrange_point(system, point).position
     pos = np.asarray(position, dtype=float)
     xl = np.concatenate([pos, np.zeros(3)])

@@ -6,7 +6,7 @@ that the arc reaches the arrival position after the time of flight, using the po
 block of the state transition matrix (single shooting; Koon, Lo, Marsden & Ross, *Dynamical
 Systems, the Three-Body Problem and Space Mission Design*, 2011, §4.6 "differential correction",
 from memory). The leg costs the impulse at departure plus the one at arrival that matches the
-arrival node's velocity. Manifold legs come from :mod:`cr3bp.connections`.
+arrival node's velocity. Manifold legs come from :mod:`cr3bp.tubes.connections`.
 
 Everything returned is plain data (floats and lists) so that a leg can cross a process
 boundary, go into the catalogue as JSON and come back byte for byte.
@@ -18,7 +18,7 @@ import math
 
 import numpy as np
 
-from .errors import ConvergenceError
+from ..errors import ConvergenceError
 
 #: Version of the plain leg dicts (part of their catalogue key). 2: legs carry the time of
 #: flight to arrival (``tof_arrival_days``, ``arrival_distance_km``).
@@ -33,7 +33,7 @@ RTOL = ATOL = 1e-12
 
 
 def _impacts(system):
-    from .integrate import impact
+    from ..integrate import impact
     r1, r2 = system.radii
     return [impact(k, r) for k, r in ((0, r1), (1, r2)) if r > 0]
 
@@ -50,7 +50,7 @@ def solve_departure(system, r0, v_guess, r1, tof):
     ConvergenceError
         No convergence in ``MAX_ITERATIONS``, or the arc strikes a primary.
     """
-    from .integrate import propagate
+    from ..integrate import propagate
     v = np.array(v_guess, dtype=float)
     res = []
     events = _impacts(system)
@@ -83,7 +83,7 @@ def targeted_leg(system, s_from, s_to, tof, patches=4) -> dict:
     times, the start of each shooting segment), ``departure_state`` / ``arrival_state`` (the
     nodes' states), ``min_altitude_km`` (least altitude over each primary along the arc).
     """
-    from .integrate import propagate
+    from ..integrate import propagate
     s_from = np.asarray(s_from, dtype=float)
     s_to = np.asarray(s_to, dtype=float)
     v0, iterations, residual = solve_departure(system, s_from[:3], s_from[3:], s_to[:3], tof)

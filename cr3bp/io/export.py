@@ -1,7 +1,7 @@
 """Hand-off files: CCSDS OEM (KVN), CSV and JSON writers and readers of epoch-anchored states.
 
 A :class:`Trajectory` holds rotating-frame CR3BP segments (nondimensional), the
-:class:`~cr3bp.frames.FrameSpec` that anchors them, the time system of the output and the
+:class:`~cr3bp.time.frames.FrameSpec` that anchors them, the time system of the output and the
 impulsive maneuvers between segments. Writers put it in km and km/s on the frame's axes,
 centred on the frame's centre, with epochs on the chosen time system; readers give the
 states back, and :func:`to_rotating` returns them to nondimensional rotating states.
@@ -40,10 +40,10 @@ from pathlib import Path
 
 import numpy as np
 
-from . import frames as _frames
+from ..time import frames as _frames
 from .atomic import writing
-from .cautions import CAUTION, caution_lines
-from .errors import InputError, shown
+from ..cautions import CAUTION, caution_lines
+from ..errors import InputError, shown
 
 FORMATS = ("oem", "xml", "csv", "json")   # xml = OEM in XML
 OEM_VERSION = "3.0"
@@ -147,7 +147,7 @@ def parse_span(text, system, period_tu: float | None = None) -> float:
                              "give a time such as '12d', or the orbit's period (--period)")
         value = k * period_tu
     else:
-        from .validate import quantity
+        from ..validate import quantity
         value = quantity("span", s, "time", system)
     if not (math.isfinite(value) and value > 0):
         raise InputError(f"span '{text}' must be positive")
@@ -212,7 +212,7 @@ def sample(system, source, t_eval, rtol=1e-12, atol=1e-12) -> Segment:
     Uses ``cr3bp.propagate(..., t_eval=...)``: samples come from the integrator's dense output
     (Hairer, Norsett & Wanner, *Solving ODEs I*, 2nd ed., 1993, sec. II.6).
     """
-    from . import propagate
+    from .. import propagate
     t0 = 0.0
     if hasattr(source, "t") and hasattr(source, "states"):
         t0 = float(np.asarray(source.t, dtype=float)[0])
@@ -228,11 +228,11 @@ def sample(system, source, t_eval, rtol=1e-12, atol=1e-12) -> Segment:
     if grid.ndim != 1 or grid.size == 0 or np.any(np.diff(grid) <= 0) or grid[0] < 0:
         raise InputError("sample times must be increasing from 0")
     if grid[-1] == 0.0:
-        from . import validate
+        from .. import validate
         return Segment(grid + t0, validate.state(system, state)[None, :].copy())
     arc = propagate(system, state, float(grid[-1]), rtol=rtol, atol=atol, t_eval=grid)
     if arc.states.shape[0] != grid.size:
-        from .errors import NoSolutionError
+        from ..errors import NoSolutionError
         raise NoSolutionError(f"propagation stopped ({arc.status}) at t = {arc.t_final:.6g} TU before "
                               f"the end of the span ({grid[-1]:.6g} TU)")
     return Segment(np.asarray(arc.t, dtype=float) + t0, np.ascontiguousarray(arc.states))
@@ -257,7 +257,7 @@ def sample_legs(system, legs, t_eval, labels=None, join_tol=1e-9, rtol=1e-12, at
     -------
     (tuple of Segment, tuple of Maneuver)
     """
-    from . import propagate
+    from .. import propagate
     legs = list(legs)
     if not legs:
         raise InputError("no legs to sample")
@@ -282,7 +282,7 @@ def sample_legs(system, legs, t_eval, labels=None, join_tol=1e-9, rtol=1e-12, at
             continue
         arc = propagate(system, s[0], float(te[-1] - t0), rtol=rtol, atol=atol, t_eval=te - t0)
         if arc.states.shape[0] != te.size:
-            from .errors import NoSolutionError
+            from ..errors import NoSolutionError
             raise NoSolutionError(f"leg {k + 1} stopped ({arc.status}) before its end")
         segs.append(Segment(te, np.ascontiguousarray(arc.states)))
     return tuple(segs), tuple(mans)
@@ -330,7 +330,7 @@ def check_header(traj: Trajectory, creation_date: str | None = None) -> None:
     """Text that goes into a file header: OBJECT_NAME, OBJECT_ID, the model lines and the
     creation date hold no control characters (a line break would add header lines), and the
     creation date is ISO 8601."""
-    from .validate import iso8601, plain_text
+    from ..validate import iso8601, plain_text
     plain_text("object name", traj.object_name, 100)
     plain_text("object id", traj.object_id, 100)
     for k, v in traj.model.items():
@@ -375,7 +375,7 @@ def _jump_states(traj: Trajectory, m: Maneuver):
 def maneuver_table(traj: Trajectory) -> list[dict]:
     """The maneuvers as written: per maneuver ``epoch`` (text on the trajectory's time system),
     ``tdb_s``, ``dv_kms`` (the velocity jump of the exported trajectory at that epoch, on the
-    export axes: state after minus state before, both through :func:`cr3bp.frames.to_frame`),
+    export axes: state after minus state before, both through :func:`cr3bp.time.frames.to_frame`),
     ``dv_exported_mps`` (its magnitude), ``dv_design_mps`` (the design model's, the CR3BP),
     ``dv_change_percent`` and ``label``.
 
@@ -464,13 +464,13 @@ def _model_lines(traj: Trajectory) -> list[str]:
                          "differ from the CR3BP design's by that factor")
     if spec.center in ("earth", "moon"):
         lines.append(f"Centre: the {spec.center} placed in the {sysm.names[1]} barycentre by the ephemeris "
-                     "(cr3bp.ephemeris); the CR3BP places only the barycentre")
+                     "(cr3bp.time.ephemeris); the CR3BP places only the barycentre")
     lines.append(f"Epoch of rotating time 0: {spec.to_dict()['epoch_tdb']} TDB; centre {spec.center_name}")
     if spec.axes == "j2000-ecliptic":
         lines.append("REF_FRAME J2000_ECLIPTIC: mean ecliptic and equinox of J2000, EME2000 rotated "
                      "about x by the IAU 2006 obliquity 84381.406 arcsec (not a registry value)")
     if _frames.time_system(traj.time_system) == "UTC":
-        from .timescales import leap_second_table, mjd_to_iso_date
+        from ..time.scales import leap_second_table, mjd_to_iso_date
         table = leap_second_table()
         lines.append(f"UTC epochs: leap-second table valid until {mjd_to_iso_date(table.valid_until_mjd)}, "
                      f"TAI-UTC = {table.tai_minus_utc_s[-1]:g} s assumed after it; a leap second announced "

@@ -13,9 +13,9 @@ met) and pass/fail. Geometry (common practice for libration-point mission design
   moves the angle by at most about 0.2 degrees at the L1/L2 distance) and the Sun direction is
   the rotating -x axis; in Earth-Moon the Earth is the larger primary and the Moon direction is
   the rotating +x axis. Every other direction (the Moon in Sun-Earth, the Sun in Earth-Moon,
-  both in Sun-Mars and Sun-Jupiter) comes from :mod:`cr3bp.ephemeris` at the epochs
+  both in Sun-Mars and Sun-Jupiter) comes from :mod:`cr3bp.time.ephemeris` at the epochs
   ``epoch + t`` over the period sampled from the scenario epoch, turned into the rotating axes
-  by the ephemeris-anchored frame of :mod:`cr3bp.frames`;
+  by the ephemeris-anchored frame of :mod:`cr3bp.time.frames`;
 * line of sight to the larger primary: the segment from the spacecraft to the larger
   primary's centre never passes within the smaller primary's radius (no occultation).
 """
@@ -26,9 +26,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from . import units
-from .errors import InputError
-from .scenario_schema import RENAMED_CHECKS   # withdrawn check keys and their message
+from .. import units
+from ..constants import SECONDS_PER_DAY
+from ..errors import InputError
+from .schema import RENAMED_CHECKS   # withdrawn check keys and their message
 
 SAMPLES_PER_PERIOD = 4000
 
@@ -50,7 +51,7 @@ class CheckResult:
 
 def sample(orbit, n: int = SAMPLES_PER_PERIOD) -> np.ndarray:
     """States (n, 6) evenly in time over one period."""
-    from .integrate import propagate
+    from ..integrate import propagate
     t = np.linspace(0.0, orbit.period, n)
     return propagate(orbit.system, orbit.state, orbit.period, t_eval=t).states
 
@@ -83,7 +84,7 @@ def _names(system):
 
 
 def _frame(system, epoch):
-    from . import frames
+    from ..time import frames
     return frames.frame(system, epoch, anchor="ephemeris", axes="j2000-equator", center="primary")
 
 
@@ -100,7 +101,7 @@ def angle_at_earth_deg(system, t_tu, states, epoch, body: str) -> np.ndarray:
         The system has no ephemeris for its pair (only Earth-Moon, Sun-Earth, Sun-Mars and
         Sun-Jupiter have), or the epochs fall outside the ephemeris.
     """
-    from . import ephemeris, frames
+    from ..time import ephemeris, frames
     if body not in ("sun", "moon"):
         raise InputError(f"angle at the Earth from '{body}': allowed sun, moon")
     problem = angle_check_problem(system, body)
@@ -154,7 +155,7 @@ def plan_problems(system, checks: dict, epoch) -> list[tuple[str, str]]:
         elif key in ANGLE_CHECKS:
             why = angle_check_problem(system, ANGLE_CHECKS[key])
             try:
-                from .frames import epoch_from_text
+                from ..time.frames import epoch_from_text
                 epoch_from_text(epoch) if isinstance(epoch, str) else float(epoch)
             except (InputError, TypeError, ValueError):
                 continue            # the epoch itself is reported where it is read
@@ -229,7 +230,7 @@ def run_checks(orbit, checks: dict, states=None, epoch=None) -> list[CheckResult
             act = float(occultation_clearance_km(system, states).min())
             out.append(_result(key, f"line of sight to {names[0]} clears {names[1]} by", 0.0, act, "km", True))
         elif key == "max_period":
-            req = units.parse(value, "time").si() / 86400.0
+            req = units.parse(value, "time").si() / SECONDS_PER_DAY
             out.append(_result(key, "period", req, float(orbit.period_days), "d", False))
         else:
             raise InputError(f"unknown check '{key}'")

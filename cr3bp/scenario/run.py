@@ -16,7 +16,6 @@ from __future__ import annotations
 
 import errno
 import hashlib
-import json
 import os
 import shutil
 import tempfile
@@ -26,11 +25,13 @@ from pathlib import Path
 
 import numpy as np
 
-from . import __version__, scenario_schema
-from .atomic import write_text
-from .cautions import CAUTION
-from .errors import InputError
-from .scenario_schema import Problem, ScenarioError
+from .. import __version__
+from . import schema
+from ..io.atomic import write_text
+from ..cautions import CAUTION
+from ..errors import InputError
+from .outputs import csv_text, json_text, save_figures, say
+from .schema import Problem, ScenarioError
 
 TARGET_KEYS = ("period", "jacobi", "ax", "ay", "az", "perilune", "perigee", "resonance")
 
@@ -63,7 +64,7 @@ class Outputs:
 
 
 def _spec_for(entry: dict):
-    from .orbits.request import spec_from_options
+    from ..orbits.request import spec_from_options
     target = {k: entry[k] for k in TARGET_KEYS if k in entry}
     if "perigee" in target:
         raise InputError("target 'perigee' is not offered yet; use perilune, period, jacobi or an amplitude")
@@ -77,17 +78,17 @@ def prepare(path) -> Plan:
     """Read and check a scenario: the schema (file, line, key), then the meaning of each value
     (system, epoch, orbit requests, references between sections). Raises ScenarioError listing
     every problem; nothing is computed or written."""
-    from . import system as make_system
-    from .timescales import parse_iso
+    from .. import system as make_system
+    from ..time.scales import parse_iso
     path = Path(path)
-    file = scenario_schema.path_text(path)
-    text = scenario_schema.read_text(path)
-    data = scenario_schema.parse_toml(text, file)
-    lines = scenario_schema.line_index(text)
-    found = scenario_schema.check(data, lines, file, text=text)
+    file = schema.path_text(path)
+    text = schema.read_text(path)
+    data = schema.parse_toml(text, file)
+    lines = schema.line_index(text)
+    found = schema.check(data, lines, file, text=text)
     if found:
         # the meaning of every value that could be read is checked too: all problems at once
-        data = scenario_schema.well_typed(data, found)
+        data = schema.well_typed(data, found)
         if data is None:
             raise ScenarioError(found)
     problems = []
@@ -181,7 +182,7 @@ EXAMPLES = {"length": "'12000km'", "time": "'6.5d'", "velocity": "'1500m/s'"}
 
 def _quantity(key, text, dimension, rule, system, add):
     """The value of a quantity key in the system's units (TU, LU, ...) or None (problem added)."""
-    from . import units
+    from .. import units
     try:
         q = units.parse(text, dimension)
         value = q.nondim(system) if system is not None and system.dimensional else q.value
@@ -199,8 +200,8 @@ def _quantity(key, text, dimension, rule, system, add):
 def _check_values(data, system, add):
     """The meaning of each value: signs, ranges, units of each key; parking orbits, caps and
     export options as the run will read them. Every problem goes to ``add``."""
-    from . import frames
-    from .errors import shown
+    from ..time import frames
+    from ..errors import shown
     for name, entry in data["orbits"].items():
         for k, v in entry.items():
             if k in QUANTITY_RULES and isinstance(v, str):
@@ -273,7 +274,7 @@ def _check_values(data, system, add):
 
 def _span(key, text, system, add):
     """A span in TU, ``True`` for a count of periods (checked once the period is known), or None."""
-    from .export import span_periods
+    from ..io.export import span_periods
     try:
         if span_periods(text) is not None:
             return True
@@ -284,8 +285,8 @@ def _span(key, text, system, add):
 
 
 def _samples(key, span_tu, step_tu, ex, add):
-    from .export import MAX_SAMPLES
-    from .errors import shown
+    from ..io.export import MAX_SAMPLES
+    from ..errors import shown
     if step_tu > span_tu * (1 + 1e-12):
         add(f"{key}.step", InputError(f"'{shown(ex.get('step', '10min'))}' is longer than the span "
                                       f"'{shown(ex['span'])}'; give a shorter step"))
@@ -307,7 +308,7 @@ def _int_range(key, v, add):
 
 def _check_parking(key, text, system, add):
     """'parking BODY ALTITUDE': three words, a primary of the system, a positive length."""
-    from .errors import shown
+    from ..errors import shown
     parts = text.split()
     if len(parts) != 3:
         add(key, InputError(f"'{shown(text)}' must read 'parking BODY ALTITUDE', e.g. 'parking earth 200km'"))
@@ -361,8 +362,8 @@ def export_file_name(ex) -> str:
 
 def _check_files(data, add):
     """Export file names: plain, and no two outputs of one run under one name (case-blind)."""
-    from .errors import shown
-    from .scenario_schema import FILE_PATTERN, FILE_RULE
+    from ..errors import shown
+    from .schema import FILE_PATTERN, FILE_RULE
     for i, ex in enumerate(data.get("exports", [])):
         if "file" in ex:
             f = ex["file"]
@@ -389,23 +390,8 @@ def _sha256(path: Path) -> str:
     return h.hexdigest()
 
 
-def _json(obj) -> str:
-    from .plain import json_default
-    return json.dumps(obj, indent=2, sort_keys=True, default=json_default) + "\n"
 
 
-def _csv(headers, rows, comments=()) -> str:
-    import csv
-    import io
-    from .cautions import caution_lines
-    buf = io.StringIO()
-    for c in list(comments) + caution_lines():
-        buf.write(f"# {c}\n")
-    w = csv.writer(buf, lineterminator="\n")
-    w.writerow(headers)
-    for r in rows:
-        w.writerow([repr(float(v)) if isinstance(v, (float, np.floating)) else v for v in r])
-    return buf.getvalue()
 
 
 def creation_date(plan: Plan) -> str:
@@ -453,9 +439,6 @@ class RunResult:
                 "routes": self.routes, "files": [str(f) for f in self.files], "seconds": self.seconds}
 
 
-def _say(progress, text):
-    if progress is not None:
-        progress(text)
 
 
 def run(plan: Plan, folder, *, catalog=None, workers=None, scheduler=None, progress=None,
@@ -472,7 +455,7 @@ def run(plan: Plan, folder, *, catalog=None, workers=None, scheduler=None, progr
     progress : callable(str), optional: one line per step
     reduced : smaller samples (tests)
     """
-    from .catalog import Catalog
+    from ..catalog import Catalog
     started = time.time()
     if workers is None:
         workers = (plan.data.get("settings") or {}).get("workers")
@@ -562,7 +545,7 @@ _USER_ERRNOS = {errno.EACCES, errno.EPERM, errno.EROFS, errno.ENAMETOOLONG, errn
 
 
 def _output_error(e: OSError, folder):
-    from .errors import OutputError, shown
+    from ..errors import OutputError, shown
     what = f"{e.strerror or e}" + (f" ({shown(Path(e.filename).name)})" if e.filename else "")
     text = f"cannot write the results in {shown(folder)}: {what}; nothing was kept"
     return InputError(text) if e.errno in _USER_ERRNOS else OutputError(text)
@@ -572,7 +555,7 @@ def check_output_folder(folder, scenario=None, catalog=None, names=()) -> Path:
     """Refuse an output folder a run cannot use, before anything is computed or written:
     empty, equal to the scenario or the catalogue, an existing file, a name longer than the
     file system allows, under a file, or not writable. ``names``: the files the run writes."""
-    from .errors import shown
+    from ..errors import shown
     text = os.fspath(folder) if not isinstance(folder, str) else folder
     if not text.strip():
         raise InputError("--out is empty; give the folder for the results, e.g. --out results")
@@ -613,18 +596,19 @@ def check_spans(plan, orbits) -> None:
     """Spans counted in periods, now that the periods are known: refused (ScenarioError with
     FILE:LINE) before anything is written when they hold too many samples."""
     problems = []
-    lines = scenario_schema.line_index(scenario_schema.read_text(plan.path))
+    lines = schema.line_index(schema.read_text(plan.path))
 
     def add(key, exc):
         k = key
         while k and k not in lines:
             k = k.rpartition(".")[0] if "." in k else ""
-        problems.append(Problem(scenario_schema.path_text(plan.path), lines.get(k, 1), key, str(exc)))
+        problems.append(Problem(schema.path_text(plan.path), lines.get(k, 1), key, str(exc)))
 
     system = plan.system
     for i, ex in enumerate(plan.data.get("exports", [])):
         if ex["object"] in orbits and str(ex.get("span", "")).strip().lower().endswith(("period", "periods")):
-            from . import export, units
+            from ..io import export
+            from .. import units
             try:
                 span = export.parse_span(ex["span"], system, float(orbits[ex["object"]].period))
                 step = units.time(ex.get("step", "10min"), system)
@@ -642,9 +626,9 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
     created = creation_date(plan)
     formats = plan.data.get("plots", {}).get("formats", ["png"])
     plots = plan.data.get("plots", {})
-    write_text(out.path("orbits.json"), _json({"system": system.to_dict(), "caution": CAUTION,
+    write_text(out.path("orbits.json"), json_text({"system": system.to_dict(), "caution": CAUTION,
                                                "orbits": {k: v.to_dict() for k, v in orbits.items()}}))
-    write_text(out.path("orbits.csv"), _csv(ORBIT_COLUMNS, [orbit_row(k, v) for k, v in orbits.items()],
+    write_text(out.path("orbits.csv"), csv_text(ORBIT_COLUMNS, [orbit_row(k, v) for k, v in orbits.items()],
                                             [f"librate {__version__}: orbits of scenario {plan.name}",
                                              "lengths km, times days, states nondimensional (rotating, barycentric)"]))
 
@@ -654,21 +638,22 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
     checks = {}
     for name, entry in plan.data["orbits"].items():
         if entry.get("checks"):
-            _say(progress, f"checks on '{name}'")
+            say(progress, f"checks on '{name}'")
             checks[name] = run_checks(orbits[name], entry["checks"], samples[name], epoch=plan.epoch)
     rows = [[name, c.name, c.required, c.actual, c.margin, c.unit, "pass" if c.passed else "FAIL"]
             for name, cs in checks.items() for c in cs]
-    write_text(out.path("checks.csv"), _csv(["orbit", "check", "required", "actual", "margin", "unit", "result"],
+    write_text(out.path("checks.csv"), csv_text(["orbit", "check", "required", "actual", "margin", "unit", "result"],
                                             rows, [f"librate {__version__}: constraint checks of {plan.name}"]))
-    write_text(out.path("checks.json"), _json({"caution": CAUTION, "checks": {
+    write_text(out.path("checks.json"), json_text({"caution": CAUTION, "checks": {
         k: [c.to_dict() for c in v] for k, v in checks.items()}}))
 
     # ---- transfers --------------------------------------------------------------------
     routes, stitched = {}, {}
     if plan.data.get("transfers"):
-        from .mission_transfers import design_transfers
-        routes, stitched = design_transfers(plan, orbits, out, catalog=catalog, workers=workers,
-                                            scheduler=scheduler, progress=progress, reduced=reduced)
+        from .transfers import design_transfers
+        routes, stitched, transfer_figures = design_transfers(
+            plan, orbits, out, catalog=catalog, workers=workers, scheduler=scheduler,
+            progress=progress, reduced=reduced)
 
     # ---- exports ----------------------------------------------------------------------
     exports = []
@@ -678,22 +663,22 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
                         "frame": ex.get("frame", "j2000-equator"), "center": ex.get("center", "primary"),
                         "time_system": ex.get("time_system", "tdb").upper(),
                         "anchor": ex.get("anchor", "ephemeris"), "maneuvers": man})
-        _say(progress, f"export {path.name}")
-        from .export import dv_warning
+        say(progress, f"export {path.name}")
+        from ..io.export import dv_warning
         if dv_warning(man):
-            _say(progress, f"{path.name}: {dv_warning(man)}")
+            say(progress, f"{path.name}: {dv_warning(man)}")
     if routes:     # the route tables again, now with the exported Δv beside the design's
-        from .mission_transfers import write_route_tables
+        from .transfers import write_route_tables
         for name in routes:
             write_route_tables(plan, name, routes[name], out, [e for e in exports if e["object"] == name])
 
     # ---- figures ----------------------------------------------------------------------
     figures = _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progress)
     if plan.data.get("transfers"):
-        figures.update(design_transfers.figures)
+        figures.update(transfer_figures)
 
     # ---- report and manifest ----------------------------------------------------------
-    from .mission_report import write_report
+    from .report import write_report
     report = write_report(plan, orbits, checks, routes, exports, figures, out)
     seconds = time.time() - started
     manifest = _manifest(plan, out, seconds)
@@ -703,18 +688,18 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
 def solve_orbits(plan, catalog, progress=None) -> dict:
     """Every orbit of the plan; a target outside its family becomes a ScenarioError naming the
     file, line and key, with the range the family covers."""
-    from .errors import NoSolutionError
-    from .mission_report import places_note
-    from .orbits.request import solve_request
-    lines = scenario_schema.line_index(scenario_schema.read_text(plan.path))
+    from ..errors import NoSolutionError
+    from .report import places_note
+    from ..orbits.request import solve_request
+    lines = schema.line_index(schema.read_text(plan.path))
     orbits = {}
     for name, spec in plan.orbit_specs.items():
-        _say(progress, f"orbit '{name}': {spec.family} {spec.point} {spec.branch} {spec.key}={spec.value}")
+        say(progress, f"orbit '{name}': {spec.family} {spec.point} {spec.branch} {spec.key}={spec.value}")
         try:
             orbits[name] = solve_request(plan.system, spec, catalog=catalog, progress=None)
             note = places_note(orbits[name].to_dict())
             if note:
-                _say(progress, f"note: orbit '{name}': {note}")
+                say(progress, f"note: orbit '{name}': {note}")
         except NoSolutionError as e:
             key = f"orbits.{name}.{spec.key}"
             raise ScenarioError([Problem(str(plan.path), lines.get(key, lines.get(f"orbits.{name}", 1)),
@@ -723,7 +708,9 @@ def solve_orbits(plan, catalog, progress=None) -> dict:
 
 
 def _export(plan, ex, orbits, stitched, out, created):
-    from . import export, frames, units
+    from ..io import export
+    from .. import units
+    from ..time import frames
     system = plan.system
     fmt = ex["format"]
     suffix = {"oem": "oem", "csv": "csv", "json": "json"}[fmt]
@@ -747,7 +734,7 @@ def _export(plan, ex, orbits, stitched, out, created):
                       "jacobi": repr(float(orbit.jacobi))})
         traj = export.Trajectory(spec, (seg,), ts, (), ex["object"].upper(), "NONE", model)
     else:
-        from .mission_transfers import transfer_trajectory
+        from .transfers import transfer_trajectory
         traj = transfer_trajectory(plan, stitched[ex["object"]], spec, ts, step_s, ex, model)
     path = out.path(name)
     export.write(path, traj, fmt, creation_date=created)
@@ -757,27 +744,27 @@ def _export(plan, ex, orbits, stitched, out, created):
 
 
 def _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progress) -> dict:
-    from .plotting.orbits import plot_orbit
+    from ..plotting.orbits import plot_orbit
     figs = {}
     for name, orbit in orbits.items():
         if plots.get("orbits", True):
-            _say(progress, f"figure: orbit '{name}'")
+            say(progress, f"figure: orbit '{name}'")
             fig = plot_orbit(orbit, samples[name])
-            figs[f"orbit-{name}"] = _save_all(fig, out, f"orbit-{name}", formats,
+            figs[f"orbit-{name}"] = save_figures(fig, out, f"orbit-{name}", formats,
                                               f"{plan.name}: orbit '{name}' over one period.")
         if plots.get("hill_regions", False):
-            from .energy import hill_region
-            from .plotting.energy import default_view, plot_hill_region
+            from ..energy import hill_region
+            from ..plotting.energy import default_view, plot_hill_region
             region = hill_region(orbit.system, float(orbit.jacobi), resolution=201 if reduced else 601,
                                  view=default_view(orbit.system, orbit.point))
             ax = plot_hill_region(region)
-            figs[f"hill-{name}"] = _save_all(ax.figure, out, f"hill-region-{name}", formats,
+            figs[f"hill-{name}"] = save_figures(ax.figure, out, f"hill-region-{name}", formats,
                                              f"{plan.name}: Hill region at the Jacobi constant of '{name}'.")
         if plots.get("families", False):
             fam = catalog.load_family(orbit.system, orbit.family, orbit.point, orbit.branch)
             if fam and fam.get("members"):
-                from .integrate import propagate
-                from .plotting.orbits import plot_family
+                from ..integrate import propagate
+                from ..plotting.orbits import plot_family
                 members = fam["members"]
                 pick = np.unique(np.linspace(0, len(members) - 1, min(len(members), 12 if reduced else 40))
                                  .round().astype(int))
@@ -785,28 +772,15 @@ def _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progr
                                    t_eval=np.linspace(0, members[k]["period"], 300)).states for k in pick]
                 fig = plot_family(orbit.system, trajs, [members[k]["jacobi"] for k in pick],
                                   title=f"{orbit.family} {orbit.point} {orbit.branch} family (catalogued members)")
-                figs[f"family-{name}"] = _save_all(fig, out, f"family-{name}", formats,
+                figs[f"family-{name}"] = save_figures(fig, out, f"family-{name}", formats,
                                                    f"{plan.name}: the family of '{name}'.")
     return figs
 
 
-def _save_all(fig, out, stem, formats, caption):
-    """Save ``fig`` in every format (SVG without a date, for reproducible files); the PNG path."""
-    import matplotlib.pyplot as plt
-    from .atomic import save_figure
-    from .plotting.base import caption as add_caption
-    add_caption(fig, caption)
-    first = None
-    for f in formats:
-        p = out.path(f"{stem}.{f}")
-        save_figure(fig, p, dpi=130, metadata={"Date": None} if f == "svg" else None)
-        first = first or p
-    plt.close(fig)
-    return {"path": first, "caption": caption}
 
 
 def _manifest(plan, out, seconds) -> Path:
-    from . import __version__ as version
+    from .. import __version__ as version
     outputs = []
     for p in sorted(set(out.files)):
         if p.exists():
@@ -821,5 +795,5 @@ def _manifest(plan, out, seconds) -> Path:
         "caution": CAUTION,
     }
     path = out.folder / "manifest.json"
-    write_text(path, _json(manifest))
+    write_text(path, json_text(manifest))
     return path
