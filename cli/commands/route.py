@@ -46,7 +46,6 @@ def add_arguments(p):
 
 
 def _constraints(args, system, nodes):
-    from cr3bp.errors import InputError
     from cr3bp.transfers.search import Constraints
     from cr3bp.transfers.nodes import find_node
     dv = tof = alt = legs = None

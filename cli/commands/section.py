@@ -84,7 +84,6 @@ HEADERS = ["tube", "trajectory", "phase", "crossing", "t", "map_a", "map_b", "x"
 def run(args):
     import math
 
-    from cr3bp.errors import InputError
     from cr3bp.tubes.manifolds import Stop, grow_tube, manifold_starts
     from cr3bp.tubes.sections import crossings, parse_section
     system = common.resolve_system(args)

@@ -6,7 +6,6 @@ from __future__ import annotations
 
 import dataclasses
 
-import numpy as np
 
 from ..errors import InputError, NoSolutionError
 from .outputs import csv_text, json_text, save_figures, say

@@ -31,7 +31,6 @@ UTC dates beyond the table's validity are converted with the last TAI-UTC value 
 
 from __future__ import annotations
 
-import math
 import re
 import warnings
 from dataclasses import dataclass

@@ -279,7 +279,6 @@ def parse_section(text: str, system) -> Section:
     ``sphere:moon:20000km`` (entering), ``sphere:moon:20000km:+`` (leaving),
     ``periapsis:earth``, ``apoapsis:moon``.
     """
-    from .. import units
     t = str(text).strip()
     if "," in t:
         plane_text, _, bound_text = t.partition(",")
