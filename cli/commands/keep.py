@@ -43,8 +43,9 @@ def add_arguments(p):
     m.add_argument("--hold-phase", action="store_true",
                    help="hold the target crossing's epoch too (keeps the reference's timing; costs more)")
     m.add_argument("--seed", metavar="N", default="0", help="random seed, 0..999999999999 (default 0)")
-    m.add_argument("--workers", metavar="N", help="process-pool size (default: the machine's cores; 1: in "
-                                                  "this process); results do not depend on it")
+    m.add_argument("--workers", metavar="N", help="process-pool size (default 1: in this process, whose "
+                                                  "compiled propagation already uses every core); results "
+                                                  "do not depend on it")
     o = p.add_argument_group("output")
     o.add_argument("--plot", metavar="FILE", help="histogram of the Δv per year and per maneuver "
                                                   "(.png, .svg or .pdf)")

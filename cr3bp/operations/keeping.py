@@ -375,16 +375,21 @@ def simulate(ref: Reference, errors: Errors, trials, seed: int, min_burn_mps: fl
         X = _propagate(ref.model, X, t_prev, ref.t_man[k], alive)
         lost[(~alive) & (lost < 0)] = k
         states[:, k] = X
-        dev_km[:, k] = np.linalg.norm(X[:, :3] - ref.x_man[k, :3], axis=1) * s.length_km
+        dev_km[:, k] = np.sqrt(np.sum((X[:, :3] - ref.x_man[k, :3]) ** 2, axis=1)) * s.length_km
         gone = alive & (dev_km[:, k] > LOST_KM)
         lost[gone] = k
         alive &= ~gone
         zk = z[:, 6 + 12 * k: 18 + 12 * k]
         nav = X + zk[:, :6] * sig_nav
-        g = (nav - ref.x_man[k]) @ ref.rows[k].T                     # (n, m)
+        # row by row, in a fixed order of operations (no matrix product over the trials, whose
+        # rounding could depend on how many trials run together)
+        d = nav - ref.x_man[k]
         B = ref.rows[k][:, 3:]                                         # (m, 3)
-        dv = -g @ np.linalg.solve(B @ B.T, B)                          # least-norm solution
-        mag = np.linalg.norm(dv, axis=1)
+        M = np.linalg.solve(B @ B.T, B)                                # least-norm solution
+        dv = np.zeros((n, 3))
+        for j, row in enumerate(ref.rows[k]):
+            dv -= np.sum(d * row, axis=1)[:, None] * M[j]
+        mag = np.sqrt(np.sum(dv * dv, axis=1))
         planned[:, k] = np.where(alive, mag, 0.0) * vu_mps
         burn = alive & (mag >= min_burn) & (mag > 0.0)
         ex = dv + (errors.burn_proportional * mag[:, None] * zk[:, 6:9]
@@ -421,14 +426,16 @@ def _merge(parts, n):
 
 def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, min_burn_mps: float = 0.0,
                workers: int | None = None, progress=None) -> dict:
-    """:func:`simulate` over ``trials`` trials, in this process (``workers=1``) or over a
-    process pool of ``workers`` processes (default: the machine's cores), with the pool
-    helpers of :mod:`cr3bp.graph_build` (workers die with the parent, Ctrl-C goes to the
-    parent). The result does not depend on ``workers``."""
+    """:func:`simulate` over ``trials`` trials, in this process (``workers`` None or 1; the
+    compiled propagation runs the trials on parallel threads) or over a process pool of
+    ``workers`` processes, with the pool helpers of :mod:`cr3bp.graph_build` (workers die with
+    the parent, Ctrl-C goes to the parent). The result does not depend on ``workers``.
+    Measured (200 trials, a year of the 9:2 NRHO, 2 shared cores): 17 s in this process, 27 s
+    on a pool of 2 (the workers' start-up), so this process is the default."""
     n = int(trials)
     if n < 1:
         raise InputError(f"trials {n} must be at least 1")
-    workers = (os.cpu_count() or 1) if workers is None else int(workers)
+    workers = 1 if workers is None else int(workers)
     if workers < 1:
         raise InputError(f"workers {workers} must be at least 1")
     if workers == 1 or n == 1:
