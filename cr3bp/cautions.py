@@ -7,6 +7,7 @@ unless an output comes from another one (``model="bicircular"``)."""
 MODELS = {
     "cr3bp": ("the circular restricted three-body model", "CR3BP"),
     "bicircular": ("the bicircular restricted four-body model (Earth, Moon and Sun)", "bicircular-model"),
+    "ephemeris": ("a point-mass ephemeris model (DE421 positions, no higher-order gravity)", "ephemeris-model"),
 }
 
 

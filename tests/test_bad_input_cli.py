@@ -174,6 +174,7 @@ BASE = {
     "refine": ["refine", EM, "--orbit=halo L2 south period=6.5626d", EPOCH, "--revs=1"],
     "torus": ["torus", EM, "--around=lyapunov L1 jacobi=3.17", "--amplitude=100km"],
     "shadow": ["shadow", EM, "--orbit=lyapunov L1 jacobi=3.17", EPOCH, "--span=2d"],
+    "keep": ["keep", EM, "--orbit=halo L2 south period=6.5626d", EPOCH, "--trials=2", "--span=10d"],
 }
 #: the option each command writes its main output with (convert: the positional OUT)
 OUT_OPTION = {"route": "--out", "family": "--plot", "convert": ""}
@@ -270,6 +271,29 @@ def value_cases():
     add("shadow-stations-binary", SH + ["--stations={in}/binary.toml"])
     add("shadow-no-ephemeris", ["shadow", "--system=jupiter-europa", "--orbit=lyapunov L1 jacobi=3.0", EPOCH])
     add("shadow-plot-suffix", SH + ["--plot={out}/t.bmp"])
+    # keep
+    K = BASE["keep"]
+    for v in ("1km", "1km,1cm/s,2", "-1km,1cm/s", "1km,-1cm/s", "1kg,1cm/s", "1km,1cm", "nankm,1cm/s"):
+        add(f"keep-nav-error-{v}", K + [f"--nav-error={v}"])
+    for v in ("1,1mm/s", "101%,1mm/s", "-1%,1mm/s", "1%,1mm", "1%"):
+        add(f"keep-burn-error-{v}", K + [f"--burn-error={v}"])
+    for v in ("-1cm/s", "1cm", "x"):
+        add(f"keep-min-burn-{v}", K + [f"--min-burn={v}"])
+    for v in ("0", "-2", "2.5", "x"):
+        add(f"keep-trials-{v}", K[:-2] + [f"--trials={v}", "--span=10d"])
+    for v in ("0", "11"):
+        add(f"keep-target-revs-{v}", K + [f"--target-revs={v}"])
+    for v in ("-1d", "0d", "3km", "2d"):
+        add(f"keep-span-{v}", K[:-1] + [f"--span={v}"])
+    add("keep-interval-too-long", K + ["--interval=30d"])
+    add("keep-seed-negative", K + ["--seed=-1"])
+    add("keep-workers-zero", K + ["--workers=0"])
+    add("keep-bodies-unknown", K + ["--bodies=sun,pluto"])
+    add("keep-srp-no-unit", K + ["--srp=0.01,1.3"])
+    add("keep-no-ephemeris", ["keep", "--system=jupiter-europa", "--orbit=lyapunov L1 jacobi=3.0", EPOCH])
+    add("keep-epoch-bad", K[:3] + ["--epoch=2031-13-01T00:00:00Z"])
+    add("keep-plot-suffix", K + ["--plot={out}/t.bmp"])
+    add("keep-format", K + ["--format=csv"])
     # systems, points
     add("systems-format", ["systems", "--format=xml"])
     add("points-mu-nan", ["points", "--mu=nan"])
