@@ -3,7 +3,7 @@
 own implementation) on point-mass equations written here in km and s (Montenbruck & Gill,
 *Satellite Orbits*, 2000, eq. 3.37: the central body, and each perturber's direct and
 indirect terms), with the bodies' positions read from JPL DE421 directly
-(:func:`cr3bp.ephemeris.position`, not the model's refitted Chebyshev series) at every step.
+(:func:`cr3bp.time.ephemeris.position`, not the model's refitted Chebyshev series) at every step.
 
 From the true state after each executed burn to the next maneuver epoch, the two agree
 within 1 m and 0.1 mm/s over a revolution of the 9:2 NRHO with a perilune passage (measured
@@ -17,13 +17,13 @@ import numpy as np
 import pytest
 from scipy.integrate import solve_ivp
 
-from cr3bp import ephemeris, frames
+from cr3bp.time import ephemeris, frames
 from cr3bp.fidelity import model as fm
 from cr3bp.operations import keeping as kp
 
 from fidelity_cases import EPOCH, nrho
 
-pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.timescales.LeapSecondsExpiredWarning")
+pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.time.scales.LeapSecondsExpiredWarning")
 
 POSITION_KM = 1e-3
 VELOCITY_KMS = 1e-7

@@ -21,7 +21,7 @@ from librate_cli.main import main
 
 from fidelity_cases import EPOCH, nrho
 
-pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.timescales.LeapSecondsExpiredWarning")
+pytestmark = pytest.mark.filterwarnings("ignore::cr3bp.time.scales.LeapSecondsExpiredWarning")
 
 NOMINAL = kp.Errors(1.0, 0.01, 0.01, 0.001)     # 1 km, 1 cm/s; 1 %, 1 mm/s (1-sigma per axis)
 

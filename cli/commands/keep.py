@@ -115,7 +115,7 @@ def _folder_ok(option, path):
 
 def _inputs(args):
     """Every check of the user's values, before anything is computed or written."""
-    from cr3bp import export
+    from cr3bp.io import export
     from cr3bp.errors import InputError
     from cr3bp.fidelity import model as fm
     from .refine import _check_epoch, parse_srp
@@ -151,7 +151,7 @@ def run(args):
 
 
 def _run(args):
-    from cr3bp import export
+    from cr3bp.io import export
     from cr3bp.errors import InputError
     from cr3bp.operations import keeping
     from cr3bp.orbits.request import solve_request

@@ -154,7 +154,7 @@ class Reference:
 # ---- the rotating frame of the reference ----------------------------------------------------
 
 def _frame(model, epoch_tdb_s):
-    from .. import frames
+    from ..time import frames
     s = model.system
     spec = frames.frame(s, float(epoch_tdb_s), anchor="ephemeris", axes="j2000-equator", center="secondary")
     sec = frames._BODY.get(s.secondary.name, s.secondary.name)
@@ -163,8 +163,8 @@ def _frame(model, epoch_tdb_s):
 
 def _rotating(model, frame, t_tu, X):
     """Nondimensional inertial states about the central body -> rotating states (the project's
-    ephemeris-anchored, pulsating frame, :func:`cr3bp.frames.from_frame`)."""
-    from .. import ephemeris, frames
+    ephemeris-anchored, pulsating frame, :func:`cr3bp.time.frames.from_frame`)."""
+    from ..time import ephemeris, frames
     spec, sec = frame
     s = model.system
     t = np.atleast_1d(np.asarray(t_tu, dtype=float))
@@ -428,7 +428,7 @@ def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, mi
                workers: int | None = None, progress=None) -> dict:
     """:func:`simulate` over ``trials`` trials, in this process (``workers`` None or 1; the
     compiled propagation runs the trials on parallel threads) or over a process pool of
-    ``workers`` processes, with the pool helpers of :mod:`cr3bp.graph_build` (workers die with
+    ``workers`` processes, with the pool helpers of :mod:`cr3bp.transfers.graph` (workers die with
     the parent, Ctrl-C goes to the parent). The result does not depend on ``workers``.
     Measured (200 trials, a year of the 9:2 NRHO, 2 shared cores): 17 s in this process, 27 s
     on a pool of 2 (the workers' start-up), so this process is the default."""
@@ -445,16 +445,16 @@ def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, mi
         return res
     import multiprocessing
     from concurrent.futures import ProcessPoolExecutor, as_completed
-    from .. import graph_build
+    from ..transfers import graph
     size = max(1, math.ceil(n / (CHUNKS_PER_WORKER * workers)))
     chunks = [list(range(a, min(a + size, n))) for a in range(0, n, size)]
     ctx = multiprocessing.get_context("spawn")     # as graph_build: no fork under compiled threads
     ex = ProcessPoolExecutor(max_workers=min(workers, len(chunks)), mp_context=ctx,
-                             initializer=graph_build.worker_init, initargs=(os.getpid(),))
+                             initializer=graph.worker_init, initargs=(os.getpid(),))
     parts = []
     done = 0
     try:
-        with graph_build._sigint_ignored():
+        with graph._sigint_ignored():
             futs = [ex.submit(_chunk, {"reference": ref, "errors": errors, "trials": c, "seed": seed,
                                        "min_burn_mps": min_burn_mps}) for c in chunks]
         for f in as_completed(futs):
