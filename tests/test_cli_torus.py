@@ -58,3 +58,46 @@ def test_torus_bad_input_exit_2(capsys, argv):
     rc, out, err = run(capsys, "torus", "--system", "earth-moon", *argv)
     assert rc == 2 and err.startswith("librate") and "error:" in err and out == ""
     assert len(err.strip().splitlines()) == 1
+
+
+@pytest.mark.parametrize("argv, words", [
+    (["--family", "lissajous", "--point", "L2", "--ay", "-5km", "--az", "500000km"], ["--ay", "positive"]),
+    (["--family", "lissajous", "--point", "L2", "--ay", "800000", "--az", "500000km"], ["--ay", "no unit"]),
+    (["--family", "lissajous", "--point", "L2", "--ay", "800000km"], ["--az", "missing"]),
+    (["--family", "lissajous", "--point", "L4", "--ay", "800000km", "--az", "5km"], ["--point L4", "L1 or L2"]),
+    (["--ay", "800000km", "--az", "500000km"], ["--ay", "--family lissajous"]),
+    (["--around", "halo L2 south resonance=9:2", "--amplitude", "2000km", "--az", "5km"], ["--az", "--family lissajous"]),
+    (["--family", "lissajous", "--point", "L2", "--ay", "8km", "--az", "5km", "--around", "halo L2 south"], ["not both"]),
+    (["--family", "lissajous", "--point", "L2", "--ay", "8km", "--az", "5km", "--members", "0"], ["--members 0"]),
+])
+def test_lissajous_and_family_bad_input_exit_2(capsys, argv, words):
+    rc, out, err = run(capsys, "torus", "--system", "sun-earth", *argv)
+    assert rc == 2 and out == "" and len(err.strip().splitlines()) == 1
+    for w in words:
+        assert w in err
+
+
+def test_lissajous_unreachable_target_exit_3_with_range(capsys):
+    # Earth–Moon L1: the vertical orbit with Az 30000 km exists, the planar Lyapunov orbit
+    # with Ay 60000 km would reach past the Moon: refused with what was reached
+    rc, out, err = run(capsys, "torus", "--system", "earth-moon", "--family", "lissajous",
+                       "--point", "L1", "--ay", "60000km", "--az", "30000km", "-q")
+    assert rc == 3 and out == "", err
+    assert len(err.strip().splitlines()) == 1
+
+
+def test_torus_family_table_csv_and_figure(capsys, tmp_path):
+    plot = tmp_path / "fam.png"
+    rc, out, err = run(capsys, "torus", "--system", "earth-moon", "--around", "lyapunov L1 ax=2000km",
+                       "--amplitude", "300km", "--members", "2", "--plot", str(plot), "--format", "json")
+    assert rc == 0, err
+    d = json.loads(out)
+    assert len(d["members"]) == 3 and d["hold"] == "jacobi"
+    c = [m["jacobi"] for m in d["members"]]
+    assert max(c) - min(c) < 1e-10                                       # held
+    a = [m["amplitude_km"] for m in d["members"]]
+    assert a[0] < a[1] < a[2]
+    assert all(m["invariance_error"] < m["invariance_tolerance"] for m in d["members"])
+    assert all(m["az_km"] > 0 for m in d["members"])
+    assert err.count("torus family: member") == 2
+    assert plot.exists() and plot.stat().st_size > 20000

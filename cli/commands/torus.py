@@ -219,11 +219,12 @@ def _family_rows(system, fam):
 def _family_table(system, fam, what, headers, rows):
     lines = [f"{system.name} torus family from the {what}, the {fam.hold} held "
              f"({len(fam.members)} tori; stop: {fam.stop})", ""]
-    lines.append("  ".join(f"{h:>16}" for h in headers))
+    w = [max(len(h), 14) for h in headers]
+    lines.append("  ".join(f"{h:>{n}}" for h, n in zip(headers, w)))
     for r in rows:
-        cells = [f"{r[0]:>16d}", f"{r[1]:>16,.3f}", f"{r[2]:>16.12f}", f"{r[3]:>16.6f}",
-                 f"{r[4]:>16.6f}", f"{r[5]:>16.1e}", f"{r[6]:>16,.1f}", f"{r[7]:>16,.1f}"]
-        lines.append("  ".join(cells))
+        cells = [f"{r[0]:d}", f"{r[1]:,.3f}", f"{r[2]:.12f}", f"{r[3]:.6f}", f"{r[4]:.6f}",
+                 f"{r[5]:.1e}", f"{r[6]:,.1f}", f"{r[7]:,.1f}"]
+        lines.append("  ".join(f"{c:>{n}}" for c, n in zip(cells, w)))
     lines.append("")
     lines.append("amplitude: RMS distance of the invariance circle from its centre; closest: least "
                  "distance from each primary's centre over the torus")

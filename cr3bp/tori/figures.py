@@ -24,7 +24,7 @@ def plot_family(fam, title=None):
     for ax, view in zip(axes[0][:2], ("xy", "xz")):
         ax.set_xlabel(f"{view[0]} ({unit}, rotating frame)")
         ax.set_ylabel(f"{view[1]} ({unit})")
-        ax.set_aspect("equal", adjustable="datalim")
+        ax.tick_params(axis="x", labelrotation=20)
         ax.grid(alpha=0.3)
         ax.set_title(f"invariance circles, {view[0]}-{view[1]} view (colour: member order)",
                      fontsize=9)

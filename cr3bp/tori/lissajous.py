@@ -38,7 +38,7 @@ from .family import continue_family
 from .torus import SurfaceError, build, solve_adaptive, torus_around
 
 #: Relative tolerance on each measured amplitude.
-AMPLITUDE_RTOL = 1e-6
+AMPLITUDE_RTOL = 1e-5
 MAX_ITER = 14
 POINTS = ("L1", "L2")
 #: The first torus about the Lyapunov orbit: RMS circle size as a fraction of Ay (or Az/sqrt 2).
