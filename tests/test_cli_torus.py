@@ -77,13 +77,16 @@ def test_lissajous_and_family_bad_input_exit_2(capsys, argv, words):
         assert w in err
 
 
-def test_lissajous_unreachable_target_exit_3_with_range(capsys):
-    # Earth–Moon L1: the vertical orbit with Az 30000 km exists, the planar Lyapunov orbit
-    # with Ay 60000 km would reach past the Moon: refused with what was reached
-    rc, out, err = run(capsys, "torus", "--system", "earth-moon", "--family", "lissajous",
-                       "--point", "L1", "--ay", "60000km", "--az", "30000km", "-q")
+def test_lissajous_unreachable_target_exit_3_with_range(capsys, monkeypatch):
+    # the family is allowed only 2 members, far too few to grow Az to 150000 km: refused with
+    # status 3 and the range of amplitudes that was reached
+    import cr3bp.tori.lissajous as liss
+    monkeypatch.setattr(liss, "MAX_MEMBERS", 2)
+    rc, out, err = run(capsys, "torus", "--system", "sun-earth", "--family", "lissajous",
+                       "--point", "L2", "--ay", "300000km", "--az", "150000km", "-q")
     assert rc == 3 and out == "", err
     assert len(err.strip().splitlines()) == 1
+    assert "reached Ay" in err and "Az" in err and " km to " in err
 
 
 def test_torus_family_table_csv_and_figure(capsys, tmp_path):

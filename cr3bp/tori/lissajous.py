@@ -11,9 +11,11 @@ The measured amplitudes of a torus (:func:`measured_amplitudes`) are
 
 Method (a two-parameter target needs both parameters of the 2-D family of Lissajous tori):
 
-1. the planar Lyapunov orbit with ``Ay`` (``lyapunov L2 ay=...``), the family's edge
-   ``Az = 0``; past the halo bifurcation it has no centre eigenpair (no Lissajous tori about
-   it), and the vertical orbit with ``Az`` (the edge ``Ay = 0``) is used instead;
+1. the target's Jacobi constant estimated as ``C_p + C_v - C_L`` (the planar Lyapunov orbit
+   with ``Ay``, the vertical orbit with ``Az``, the point: to first order the energies of the
+   two oscillations add), and the planar Lyapunov orbit with that Jacobi constant, the
+   family's edge ``Az = 0``; past the halo bifurcation it has no centre eigenpair (no
+   Lissajous tori about it), and the vertical orbit with it (the edge ``Ay = 0``) is used;
 2. a small torus about it at the orbit's Jacobi constant (:func:`torus.torus_around`),
    continued by pseudo-arclength at that Jacobi constant (:func:`family.continue_family`)
    until the other measured amplitude passes its target;
@@ -86,23 +88,31 @@ def lissajous(system, point: str, ay_lu: float, az_lu: float, progress=None,
         return (f"reached Ay {km(min(ys))} to {km(max(ys))}, Az {km(min(zs))} to "
                 f"{km(max(zs))}")
     target = np.array([ay_lu, az_lu])
+
+    def edge(fam_name, key, value):
+        text = (f"{system.km(value)}km" if system.dimensional and key != "jacobi"
+                else repr(float(value)))
+        try:
+            return solve_request(system, parse_request(f"{fam_name} {point} {key}={text}"))
+        except (NoSolutionError, ConvergenceError) as e:
+            raise NoSolutionError(f"no {fam_name} orbit at {point} with {key} {text} to start "
+                                  f"the Lissajous torus from ({e})") from None
+    # the target's energy: the edge orbits' Jacobi offsets from the point add (to first order)
+    say(f"lissajous: the planar Lyapunov orbit with Ay {km(ay_lu)} and the vertical orbit with "
+        f"Az {km(az_lu)} at {point}")
+    c_target = (edge("lyapunov", "ay", ay_lu).jacobi + edge("vertical", "az", az_lu).jacobi
+                - _c_point(system, point))
     orbit = None
     for fam_name, k in (("lyapunov", 0), ("vertical", 1)):
-        name = "ay" if k == 0 else "az"
-        value = f"{system.km(target[k])}km" if system.dimensional else f"{target[k]!r}"
-        say(f"lissajous: the {fam_name} orbit at {point} with {name.capitalize()} {km(target[k])}")
-        try:
-            o = solve_request(system, parse_request(f"{fam_name} {point} {name}={value}"))
-        except (NoSolutionError, ConvergenceError) as e:
-            raise NoSolutionError(f"no {fam_name} orbit at {point} with {name.capitalize()} "
-                                  f"{km(target[k])} to start the Lissajous torus from ({e})") from None
+        say(f"lissajous: the {fam_name} orbit at {point} with Jacobi constant {c_target:.10f}")
+        o = edge(fam_name, "jacobi", c_target)
         if seeds.centre_pairs(o.monodromy):
             orbit = o
             break
         say(f"lissajous: the {fam_name} orbit has no centre pair (past the halo bifurcation)")
     if orbit is None:
-        raise NoSolutionError(f"neither the planar Lyapunov orbit with Ay {km(ay_lu)} nor the "
-                              f"vertical orbit with Az {km(az_lu)} at {point} has a centre "
+        raise NoSolutionError(f"neither the planar Lyapunov nor the vertical orbit at {point} "
+                              f"with the target's Jacobi constant {c_target:.10f} has a centre "
                               "eigenpair to grow a Lissajous torus from")
     other = 1 - k                 # the amplitude grown along the family
     small = min(target[other] / math.sqrt(2.0), SEED_FRACTION * target[k])
@@ -114,7 +124,7 @@ def lissajous(system, point: str, ay_lu: float, az_lu: float, progress=None,
                               f"{point} ({e})") from None
     seen.append(np.array(measured_amplitudes(t)))
     if seen[-1][other] < target[other]:
-        say(f"lissajous: continuing the family at the orbit's Jacobi constant")
+        say("lissajous: continuing the family at the orbit's Jacobi constant")
 
         def member(i, m):
             seen.append(np.array(measured_amplitudes(m)))
