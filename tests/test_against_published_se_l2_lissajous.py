@@ -31,6 +31,7 @@ from cr3bp.tori.lissajous import lissajous, measured_amplitudes
 from test_against_richardson_1980_lissajous import linear_frequencies
 
 AY_KM, AZ_KM = 300000.0, 150000.0     # observatory size (several hundred thousand km)
+pytestmark = pytest.mark.slow   # about 2-5 min: a torus family and a secant iteration
 
 
 @functools.lru_cache(maxsize=None)
