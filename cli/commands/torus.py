@@ -13,18 +13,31 @@ ORDER = 45
 HELP = "compute a quasi-periodic torus (quasi-halo, Lissajous) of a given amplitude about a periodic orbit"
 EXAMPLE = ('librate torus --system earth-moon --around "halo L2 south resonance=9:2" '
            "--amplitude 2000km")
+EXAMPLE_LISSAJOUS = ("librate torus --system sun-earth --family lissajous --point L2 "
+                     "--ay 800000km --az 500000km")
 
 HOLDS = ("jacobi", "period", "rotation")
 
 
 def add_arguments(p):
     common.add_system_options(p)
-    p.add_argument("--around", metavar="REQUEST", required=True,
+    p.add_argument("--around", metavar="REQUEST",
                    help="the periodic orbit, as an orbit request, e.g. \"halo L2 south "
                    "resonance=9:2\" (quasi-halo) or \"lyapunov L1 ax=5000km\" (Lissajous)")
-    p.add_argument("--amplitude", metavar="LENGTH", required=True,
-                   help="size of the torus about the orbit: the RMS distance of the invariance "
-                   "circle's points from its centre (km unless another unit is given)")
+    p.add_argument("--amplitude", metavar="LENGTH",
+                   help="with --around: size of the torus about the orbit: the RMS distance of "
+                   "the invariance circle's points from its centre (km unless another unit is "
+                   "given)")
+    p.add_argument("--family", choices=("lissajous",),
+                   help="instead of --around: a Lissajous torus at --point targeted by its "
+                   "amplitudes --ay and --az")
+    p.add_argument("--point", metavar="L1|L2", help="with --family lissajous: L1 or L2")
+    p.add_argument("--ay", metavar="LENGTH", help="with --family lissajous: the largest |y| over "
+                   "the torus (a unit is required, e.g. 800000km)")
+    p.add_argument("--az", metavar="LENGTH", help="with --family lissajous: the largest |z| over "
+                   "the torus (a unit is required)")
+    p.add_argument("--members", metavar="N", help="continue a family of N more tori from the "
+                   "first (pseudo-arclength, --hold kept) and print one row per torus")
     p.add_argument("--hold", choices=HOLDS, default="jacobi",
                    help="kept at the orbit's value while the torus grows from it: its Jacobi "
                    "constant (default), its period as the stroboscopic time, or the rotation of "
@@ -48,52 +61,175 @@ def _check_output(option, path, suffixes=None):
         raise InputError(f"{option} {shown(path)}: the folder {shown(str(p.parent))} does not exist")
 
 
+def _check_lissajous(args, system):
+    """The Lissajous target's options, all checked before any work: (point, ay_lu, az_lu)."""
+    from cr3bp import validate
+    from cr3bp.errors import InputError, shown
+    if args.around:
+        raise InputError("give --around or --family lissajous, not both")
+    if args.amplitude is not None:
+        raise InputError("--amplitude goes with --around; a Lissajous torus is sized by --ay "
+                         "and --az")
+    if args.point not in ("L1", "L2"):
+        raise InputError(f"--point {shown(args.point or '(missing)')}: Lissajous tori by "
+                         "amplitudes are built at L1 or L2")
+    out = []
+    for name, text in (("--ay", args.ay), ("--az", args.az)):
+        if text is None:
+            raise InputError(f"{name} is missing: --family lissajous needs --ay and --az "
+                             "(lengths with a unit, e.g. 800000km)")
+        v = validate.quantity(name, text, "length", system, sign="positive")
+        if v > 0.2:
+            raise InputError(f"{name} {text} is larger than 0.2 of the distance between the "
+                             "primaries; tori that large are not attempted")
+        out.append(v)
+    return args.point, out[0], out[1]
+
+
 def run(args):
+    from cr3bp import validate
     from cr3bp.errors import InputError
     from cr3bp.orbits.request import parse_request, solve_request
     from cr3bp.orbits.targets import make_target
     from cr3bp.units import length
     system = common.resolve_system(args)
-    spec = parse_request(args.around)
-    if not spec.key:
-        raise InputError(f"--around '{args.around}' has no target; e.g. \"halo L2 south "
-                         "resonance=9:2\" or \"lyapunov L1 ax=5000km\"")
-    make_target(system, spec.key, spec.value)   # bad units fail here, before any work
-    amp = length(args.amplitude, system, default_unit="km")
-    if not amp > 0:
-        raise InputError(f"--amplitude {args.amplitude} must be a positive length")
-    if amp > 0.2:
-        raise InputError(f"--amplitude {args.amplitude} is larger than 0.2 of the distance "
-                         "between the primaries; tori that large are not attempted")
+    members = (validate.whole_number("--members", args.members, 1, 500)
+               if args.members is not None else None)
+    if args.family == "lissajous":
+        point, ay, az = _check_lissajous(args, system)
+    else:
+        for name in ("ay", "az", "point"):
+            if getattr(args, name) is not None:
+                raise InputError(f"--{name} goes with --family lissajous")
+        if not args.around:
+            raise InputError("give --around REQUEST --amplitude LENGTH, or --family lissajous "
+                             "--point L1|L2 --ay LENGTH --az LENGTH")
+        if args.amplitude is None:
+            raise InputError("--around needs --amplitude LENGTH (the torus's size about the orbit)")
+        spec = parse_request(args.around)
+        if not spec.key:
+            raise InputError(f"--around '{args.around}' has no target; e.g. \"halo L2 south "
+                             "resonance=9:2\" or \"lyapunov L1 ax=5000km\"")
+        make_target(system, spec.key, spec.value)   # bad units fail here, before any work
+        amp = length(args.amplitude, system, default_unit="km")
+        if not amp > 0:
+            raise InputError(f"--amplitude {args.amplitude} must be a positive length")
+        if amp > 0.2:
+            raise InputError(f"--amplitude {args.amplitude} is larger than 0.2 of the distance "
+                             "between the primaries; tori that large are not attempted")
     if args.plot:
         _check_output("--plot", args.plot, (".png", ".pdf", ".svg"))
     if args.out:
         _check_output("--out", args.out)
     cat = oo.open_catalog(args)
-    common.progress(args, f"librate torus: solving the periodic orbit {args.around}")
-    orbit = solve_request(system, spec, catalog=cat)
-    common.progress(args, f"librate torus: growing the torus to {args.amplitude} "
-                    f"(holding the {args.hold})")
+    if args.family == "lissajous":
+        from cr3bp.tori.lissajous import lissajous
+        common.progress(args, f"librate torus: the Lissajous torus at {point} with Ay {args.ay}, "
+                        f"Az {args.az}")
+        torus = lissajous(system, point, ay, az,
+                          progress=lambda m: common.progress(args, m, verbose_only=True))
+        what = f"Lissajous torus at {point} (Ay {args.ay}, Az {args.az})"
+    else:
+        common.progress(args, f"librate torus: solving the periodic orbit {args.around}")
+        orbit = solve_request(system, spec, catalog=cat)
+        common.progress(args, f"librate torus: growing the torus to {args.amplitude} "
+                        f"(holding the {args.hold})")
 
-    def step(k, a):
-        size = f"{system.km(a):,.1f} km" if system.dimensional else f"{a:.3g} LU"
-        common.progress(args, f"torus: step {k}, amplitude {size}", verbose_only=True)
+        def step(k, a):
+            size = f"{system.km(a):,.1f} km" if system.dimensional else f"{a:.3g} LU"
+            common.progress(args, f"torus: step {k}, amplitude {size}", verbose_only=True)
 
-    from cr3bp.tori import surface, torus_around
-    torus = torus_around(orbit, amp, hold=args.hold, progress=step)
-    d = torus.to_dict()
+        from cr3bp.tori import torus_around
+        torus = torus_around(orbit, amp, hold=args.hold, progress=step)
+        what = f"{torus.family} torus about the {args.around} orbit"
+    if members is not None:
+        return _run_family(args, system, torus, members, what)
+    from cr3bp.tori import surface
+    d = _with_amplitudes(system, torus.to_dict(), torus)
     if args.plot:
         from cr3bp.plotting import save
         from cr3bp.plotting.tori import plot_torus
         fig = plot_torus(torus, grid=surface(system, torus.circle, torus.stroboscopic_time, 256))
-        save(fig, args.plot, f"{torus.family} torus about the {args.around} orbit, rotating frame "
-             f"of the circular restricted three-body model, primaries to scale; amplitude "
-             f"{args.amplitude}")
+        size = f"amplitude {args.amplitude}" if args.amplitude else f"Ay {args.ay}, Az {args.az}"
+        save(fig, args.plot, f"{what}, rotating frame of the circular restricted three-body "
+             f"model, primaries to scale; {size}")
         common.progress(args, f"wrote {args.plot}")
-    common.emit(args, payload=d, headers=_HEADERS, rows=_rows(torus), table=_table(system, d),
-                comments=[f"invariance circle of the {torus.family} torus about {args.around}: "
+    common.emit(args, payload=d, headers=_HEADERS, rows=_rows(torus), table=_table(system, d, what),
+                comments=[f"invariance circle of the {what}: "
                           "theta (rad) and the state (nondimensional, rotating frame)"])
     return 0
+
+
+def _with_amplitudes(system, d, torus):
+    """``ay_km``/``az_km`` (and ``_lu``): largest |y| and |z| over the sampled torus surface."""
+    from cr3bp.tori.lissajous import measured_amplitudes
+    ay, az = measured_amplitudes(torus)
+    d["ay_lu"], d["az_lu"] = ay, az
+    d["ay_km"] = system.km(ay) if system.dimensional else None
+    d["az_km"] = system.km(az) if system.dimensional else None
+    return d
+
+
+def _run_family(args, system, start, members, what):
+    from cr3bp.tori import continue_family
+
+    def member(i, t):
+        size = f"{system.km(t.amplitude_lu):,.1f} km" if system.dimensional else f"{t.amplitude_lu:.4g} LU"
+        common.progress(args, f"torus family: member {i} of {members}, amplitude {size}, "
+                        f"Jacobi constant {t.jacobi:.10f}, rotation {t.rotation_deg:.4f} deg")
+    common.progress(args, f"librate torus: continuing the family from the {what} "
+                    f"({members} members, holding the {args.hold})")
+    fam = continue_family(start, hold=args.hold, members=members, progress=member)
+    d = fam.to_dict()
+    d["members"] = [_with_amplitudes(system, m, t) for m, t in zip(d["members"], fam.members)]
+    d["model"] = start.to_dict()["model"]
+    d["system"] = system.name
+    d["start"] = what
+    if args.plot:
+        from cr3bp.plotting import save
+        from cr3bp.tori.figures import plot_family
+        save(plot_family(fam), args.plot, f"family of {len(fam.members)} tori from the {what}, "
+             f"{args.hold} held; rotating frame of the circular restricted three-body model")
+        common.progress(args, f"wrote {args.plot}")
+    headers, rows = _family_rows(system, fam)
+    common.emit(args, payload=d, headers=headers, rows=rows,
+                table=_family_table(system, fam, what, headers, rows),
+                comments=[f"torus family from the {what}, {args.hold} held; distances and times "
+                          "of the circular restricted three-body model"])
+    return 0
+
+
+def _family_rows(system, fam):
+    dim = system.dimensional
+    names = system.names if dim else ("primary 1", "primary 2")
+    u = "km" if dim else "LU"
+    headers = ["member", f"amplitude_{u}", "jacobi",
+               "stroboscopic_period_days" if dim else "stroboscopic_time_tu", "rotation_deg",
+               "invariance_error", f"closest_{names[0]}_{u}", f"closest_{names[1]}_{u}"]
+    conv = system.km if dim else (lambda v: v)
+    rows = []
+    for i, t in enumerate(fam.members):
+        rows.append([i, conv(t.amplitude_lu), t.jacobi,
+                     t.stroboscopic_period_days if dim else t.stroboscopic_time, t.rotation_deg,
+                     t.invariance_error, conv(t.closest_approach_lu[0]),
+                     conv(t.closest_approach_lu[1])])
+    return headers, rows
+
+
+def _family_table(system, fam, what, headers, rows):
+    lines = [f"{system.name} torus family from the {what}, the {fam.hold} held "
+             f"({len(fam.members)} tori; stop: {fam.stop})", ""]
+    w = [max(len(h), 14) for h in headers]
+    lines.append("  ".join(f"{h:>{n}}" for h, n in zip(headers, w)))
+    for r in rows:
+        cells = [f"{r[0]:d}", f"{r[1]:,.3f}", f"{r[2]:.12f}", f"{r[3]:.6f}", f"{r[4]:.6f}",
+                 f"{r[5]:.1e}", f"{r[6]:,.1f}", f"{r[7]:,.1f}"]
+        lines.append("  ".join(f"{c:>{n}}" for c, n in zip(cells, w)))
+    lines.append("")
+    lines.append("amplitude: RMS distance of the invariance circle from its centre; closest: least "
+                 "distance from each primary's centre over the torus")
+    lines.append("distances and times are those of the circular restricted three-body model")
+    return "\n".join(lines) + "\n"
 
 
 _HEADERS = ["theta", "x", "y", "z", "vx", "vy", "vz"]
@@ -104,16 +240,15 @@ def _rows(torus):
     return [[float(th), *map(float, s)] for th, s in zip(angles(torus.n_circle_points), torus.circle)]
 
 
-def _table(system, d):
+def _table(system, d, what):
     def km(v):
         return "-" if v is None else f"{v:,.3f} km"
 
     def days(v):
         return "" if v is None else f" = {v:.6f} d"
     o = d["around"]
-    lines = [f"{system.name} {d['family']} torus about the {o['family']} {o['point']} "
-             f"{o['branch']}".rstrip() + " orbit", ""]
-    lines.append(f"periodic orbit       period {o['period']:.12f} TU{days(o['period_days'])}, "
+    lines = [f"{system.name} {what}", ""]
+    lines.append(f"grown from the {o['family']} {o['point']} orbit: period {o['period']:.12f} TU{days(o['period_days'])}, "
                  f"Jacobi constant {o['jacobi']:.12f}")
     lines.append(f"stroboscopic time    {d['stroboscopic_time']:.12f} TU"
                  f"{days(d['stroboscopic_period_days'])}")
@@ -131,6 +266,9 @@ def _table(system, d):
     lines.append(f"invariance error     {d['invariance_error']:.2e} (nondimensional, between the "
                  f"circle's nodes; tolerance {d['invariance_tolerance']:.1e})")
     lines.append(f"circle points        {d['n_circle_points']}")
+    if d["ay_km"] is not None:
+        lines.append(f"Ay, Az               {d['ay_km']:,.3f} km, {d['az_km']:,.3f} km (largest "
+                     "|y| and |z| over the torus)")
     for name, v in d["closest_approach_km"].items():
         lines.append(f"closest approach     {name}: {km(v)} from its centre")
     for axis, (lo, hi) in d["extent_km"].items():

@@ -85,7 +85,7 @@ def tangent(system, t: Torus, hold: str, previous=None) -> np.ndarray:
 
 def continue_family(start: Torus, hold: str = "jacobi", members: int = 10, step: float = 0.02,
                     min_step: float = 1e-4, max_step: float = 0.2, direction: int = 1,
-                    progress=None) -> TorusFamily:
+                    progress=None, until=None) -> TorusFamily:
     """Pseudo-arclength continuation of tori from ``start`` with ``hold`` fixed.
 
     Parameters
@@ -96,6 +96,8 @@ def continue_family(start: Torus, hold: str = "jacobi", members: int = 10, step:
     step, min_step, max_step : float   arclength steps (weighted norm, nondimensional)
     direction : +1 (growing amplitude) or -1
     progress : callable(i, torus) or None
+    until : callable(torus) -> bool or None   stop after the first member for which it is true
+        (``stop`` = "until")
 
     Returns
     -------
@@ -150,6 +152,9 @@ def continue_family(start: Torus, hold: str = "jacobi", members: int = 10, step:
         t = new
         if progress:
             progress(len(out) - 1, new)
+        if until is not None and until(new):
+            stop = "until"
+            break
         if info["iterations"] <= 4:
             ds = min(ds * 1.5, max_step)
     return TorusFamily(members=tuple(out), hold=hold, stop=stop)

@@ -1,0 +1,210 @@
+"""Lissajous tori at L1/L2 targeted by their in-plane and out-of-plane amplitudes (Ay, Az).
+
+The measured amplitudes of a torus (:func:`measured_amplitudes`) are
+
+* ``ay`` = the largest ``|y|`` and ``az`` = the largest ``|z|`` over the torus surface, i.e.
+  the distances from the x-z and x-y planes through the collinear point (both contain the
+  point, y = z = 0), taken over the states ``phi_{m T / M}(u_j)`` of the N circle points at
+  M = 256 time steps over one stroboscopic time T (:func:`torus.surface`): every point of the
+  torus lies on one of these N trajectory arcs, and 256 samples per in-plane period bound the
+  sampling error of a maximum by about ``(pi / 256)^2 / 2 < 1e-4`` (relative).
+
+Method (a two-parameter target needs both parameters of the 2-D family of Lissajous tori):
+
+1. the target's Jacobi constant estimated as ``C_p + C_v - C_L`` (the planar Lyapunov orbit
+   with ``Ay``, the vertical orbit with ``Az``, the point: to first order the energies of the
+   two oscillations add), and the planar Lyapunov orbit with that Jacobi constant, the
+   family's edge ``Az = 0``; past the halo bifurcation it has no centre eigenpair (no
+   Lissajous tori about it), and the vertical orbit with it (the edge ``Ay = 0``) is used;
+2. a small torus about it at the orbit's Jacobi constant (:func:`torus.torus_around`),
+   continued by pseudo-arclength at that Jacobi constant (:func:`family.continue_family`)
+   until the other measured amplitude passes its target;
+3. the two held quantities of the torus (Jacobi constant C and RMS circle size a) corrected
+   by a secant (Broyden) iteration on ``(ay - Ay, az - Az)``, the first Jacobian by finite
+   differences; each step is a torus solve warm-started from the previous torus, the step
+   halved when a solve fails. Stops when both amplitudes are within ``AMPLITUDE_RTOL``.
+
+The target is refused (``NoSolutionError``, CLI exit 3) when the Lyapunov orbit does not exist,
+or the iteration cannot reach it; the message gives the range of (ay, az) reached.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ..errors import ConvergenceError, InputError, NoSolutionError
+from . import seeds, solver
+from .family import continue_family
+from .torus import SurfaceError, build, solve_adaptive, torus_around
+
+#: Relative tolerance on each measured amplitude.
+AMPLITUDE_RTOL = 1e-5
+MAX_ITER = 14
+POINTS = ("L1", "L2")
+#: The first torus about the Lyapunov orbit: RMS circle size as a fraction of Ay (or Az/sqrt 2).
+SEED_FRACTION = 0.04
+#: Continuation at the orbit's Jacobi constant until the measured Az passes the target.
+MAX_MEMBERS = 200
+FAMILY_STEP, FAMILY_MAX_STEP = 0.005, 0.2
+
+
+def measured_amplitudes(torus) -> tuple[float, float]:
+    """``(ay, az)`` in LU: largest ``|y|`` and ``|z|`` over the sampled torus surface (module
+    notes)."""
+    e = torus.extent_lu
+    return (max(abs(e["y"][0]), abs(e["y"][1])), max(abs(e["z"][0]), abs(e["z"][1])))
+
+
+def _check(name, v):
+    if not (isinstance(v, (int, float)) and math.isfinite(v) and v > 0):
+        raise InputError(f"{name} {v!r} must be a positive length")
+    return float(v)
+
+
+def lissajous(system, point: str, ay_lu: float, az_lu: float, progress=None,
+              rtol: float = AMPLITUDE_RTOL):
+    """The Lissajous torus at ``point`` (L1 or L2) with measured amplitudes ``ay_lu, az_lu``.
+
+    Returns a :class:`Torus` with ``extra["ay_lu"], extra["az_lu"]`` (measured) and
+    ``extra["target_iterations"]``. ``progress(message)`` receives one line per step.
+
+    Raises InputError (bad point or amplitude), NoSolutionError (not reachable; the message
+    gives the range of amplitudes reached).
+    """
+    from ..orbits.request import parse_request, solve_request
+    if point not in POINTS:
+        raise InputError(f"point '{point}': Lissajous tori by amplitudes are built at L1 or L2")
+    ay_lu, az_lu = _check("ay", ay_lu), _check("az", az_lu)
+    say = progress or (lambda m: None)
+    km = (lambda v: f"{system.km(v):,.0f} km") if system.dimensional else (lambda v: f"{v:.4g} LU")
+    seen = []
+
+    def reached():
+        if not seen:
+            return "nothing was reached"
+        ys, zs = [s[0] for s in seen], [s[1] for s in seen]
+        return (f"reached Ay {km(min(ys))} to {km(max(ys))}, Az {km(min(zs))} to "
+                f"{km(max(zs))}")
+    target = np.array([ay_lu, az_lu])
+
+    def edge(fam_name, key, value):
+        text = (f"{system.km(value)}km" if system.dimensional and key != "jacobi"
+                else repr(float(value)))
+        try:
+            return solve_request(system, parse_request(f"{fam_name} {point} {key}={text}"))
+        except (NoSolutionError, ConvergenceError) as e:
+            raise NoSolutionError(f"no {fam_name} orbit at {point} with {key} {text} to start "
+                                  f"the Lissajous torus from ({e})") from None
+    # the target's energy: the edge orbits' Jacobi offsets from the point add (to first order)
+    say(f"lissajous: the planar Lyapunov orbit with Ay {km(ay_lu)} and the vertical orbit with "
+        f"Az {km(az_lu)} at {point}")
+    c_target = (edge("lyapunov", "ay", ay_lu).jacobi + edge("vertical", "az", az_lu).jacobi
+                - _c_point(system, point))
+    orbit = None
+    for fam_name, k in (("lyapunov", 0), ("vertical", 1)):
+        say(f"lissajous: the {fam_name} orbit at {point} with Jacobi constant {c_target:.10f}")
+        o = edge(fam_name, "jacobi", c_target)
+        if seeds.centre_pairs(o.monodromy):
+            orbit = o
+            break
+        say(f"lissajous: the {fam_name} orbit has no centre pair (past the halo bifurcation)")
+    if orbit is None:
+        raise NoSolutionError(f"neither the planar Lyapunov nor the vertical orbit at {point} "
+                              f"with the target's Jacobi constant {c_target:.10f} has a centre "
+                              "eigenpair to grow a Lissajous torus from")
+    other = 1 - k                 # the amplitude grown along the family
+    small = min(target[other] / math.sqrt(2.0), SEED_FRACTION * target[k])
+    say(f"lissajous: the torus about it with size {km(small)}")
+    try:
+        t = torus_around(orbit, small, hold="jacobi")
+    except (ConvergenceError, SurfaceError, NoSolutionError) as e:
+        raise NoSolutionError(f"no Lissajous torus could be grown from the {fam_name} orbit at "
+                              f"{point} ({e})") from None
+    seen.append(np.array(measured_amplitudes(t)))
+    if seen[-1][other] < target[other]:
+        say("lissajous: continuing the family at the orbit's Jacobi constant")
+
+        def member(i, m):
+            seen.append(np.array(measured_amplitudes(m)))
+            say(f"lissajous: member {i}, Ay {km(seen[-1][0])}, Az {km(seen[-1][1])}")
+        fam = continue_family(t, "jacobi", members=MAX_MEMBERS, step=FAMILY_STEP,
+                              max_step=FAMILY_MAX_STEP, progress=member,
+                              until=lambda m: measured_amplitudes(m)[other] >= target[other])
+        if fam.stop != "until":
+            raise NoSolutionError(f"the Lissajous family at {point} from the {fam_name} orbit "
+                                  f"did not reach the target ({fam.stop}); {reached()}")
+        t = fam.members[-1]
+
+    def measure(t):
+        m = np.array(measured_amplitudes(t))
+        seen.append(m)
+        return m
+
+    def solve_at(t, C, a):
+        u1, T1, rho1, info = solve_adaptive(system, t.circle, t.stroboscopic_time, t.rotation,
+                                            {"jacobi": C, "amplitude": a})
+        return build(system, u1, T1, rho1, info["invariance_error"], info["invariance_tolerance"],
+                     family="lissajous", point=point, around=t.around,
+                     holds={"jacobi": C, "amplitude": a},
+                     iterations=t.iterations + info["iterations"])
+
+    p = np.array([t.jacobi, t.amplitude_lu])
+    t = solve_at(t, *p)        # the member again, its amplitudes measured on 256 samples
+    m = measure(t)
+    say(f"lissajous: start Ay {km(m[0])}, Az {km(m[1])}")
+    # first Jacobian by finite differences along the two held quantities
+    J = np.empty((2, 2))
+    h = np.array([1e-3 * abs(_c_point(system, point) - p[0]) + 1e-12, 1e-3 * p[1]])
+    for k in range(2):
+        q = p.copy()
+        q[k] += h[k]
+        try:
+            J[:, k] = (measure(solve_at(t, *q)) - m) / h[k]
+        except (ConvergenceError, SurfaceError) as e:
+            raise NoSolutionError(f"the Lissajous family at {point} could not be followed from "
+                                  f"Ay {km(m[0])}, Az {km(m[1])} ({e}); {reached()}") from None
+    for it in range(1, MAX_ITER + 1):
+        r = m - target
+        if np.all(np.abs(r) <= rtol * target):
+            break
+        try:
+            dp = np.linalg.solve(J, -r)
+        except np.linalg.LinAlgError:
+            raise NoSolutionError(f"the amplitudes stopped responding to the family's "
+                                  f"parameters; {reached()}") from None
+        lam = 1.0
+        while True:
+            q = p + lam * dp
+            try:
+                if not q[1] > 0:
+                    raise ConvergenceError("the torus would shrink to its orbit")
+                t1 = solve_at(t, *q)
+                break
+            except (ConvergenceError, SurfaceError) as e:
+                lam /= 2
+                if lam < 1.0 / 64:
+                    raise NoSolutionError(f"the Lissajous torus with Ay {km(ay_lu)}, Az "
+                                          f"{km(az_lu)} at {point} was not reached ({e}); "
+                                          f"{reached()}") from None
+        m1 = measure(t1)
+        s = q - p
+        J += np.outer((m1 - m) - J @ s, s) / (s @ s)      # Broyden's update
+        p, m, t = q, m1, t1
+        say(f"lissajous: iteration {it}, Ay {km(m[0])}, Az {km(m[1])}")
+    else:
+        raise NoSolutionError(f"the Lissajous torus with Ay {km(ay_lu)}, Az {km(az_lu)} at "
+                              f"{point} was not reached in {MAX_ITER} iterations; {reached()}")
+    extra = dict(t.extra)
+    extra.update({"ay_lu": float(m[0]), "az_lu": float(m[1]), "target_iterations": it,
+                  "target_ay_lu": ay_lu, "target_az_lu": az_lu})
+    return t.__class__(**{**{f: getattr(t, f) for f in t.__dataclass_fields__}, "extra": extra})
+
+
+def _c_point(system, point):
+    """Jacobi constant of the collinear point (the family's scale for C steps)."""
+    from ..equilibria import lagrange_point
+    lp = lagrange_point(system, point)
+    s = np.concatenate([np.asarray(lp.position, dtype=float), np.zeros(3)])[None, :]
+    return float(solver.jacobi_many(system.mu, s)[0])

@@ -1,0 +1,97 @@
+"""A Sun–Earth L2 Lissajous torus of observatory size, targeted by its amplitudes (Ay, Az).
+
+Outside references:
+
+* the linear in-plane and vertical frequencies at the collinear point,
+  ``omega_p^2 = (2 - c2 + sqrt(9 c2^2 - 8 c2)) / 2`` and ``omega_v^2 = c2`` with
+  ``c2 = (1 - mu)/r1^3 + mu/r2^3`` (Richardson, "Analytic construction of periodic orbits about
+  the collinear points", Celestial Mechanics 22, 1980; Szebehely, Theory of Orbits, 1967, §5.6);
+  the point is found here with scipy's brentq, not by the library. At Sun–Earth L2 these give
+  periods of about 178 d in plane and 184 d out of plane; the amplitude corrections are of
+  second order and, at these sizes, a few days at most;
+* from memory: observatories at Sun–Earth L2 fly Lissajous orbits with amplitudes of several
+  hundred thousand km, an in-plane period near 180 d and an out-of-plane period somewhat longer
+  (about 185 d);
+* scipy's DOP853 (an integrator independent of the library's) re-propagates torus points over
+  several stroboscopic times: they stay on the torus.
+"""
+
+import functools
+import math
+
+import numpy as np
+import pytest
+from scipy.integrate import solve_ivp
+
+from cr3bp import system
+from cr3bp.tori import surface
+from cr3bp.tori.circle import evaluate
+from cr3bp.tori.lissajous import lissajous, measured_amplitudes
+
+from test_against_richardson_1980_lissajous import linear_frequencies
+
+AY_KM, AZ_KM = 300000.0, 150000.0     # observatory size (several hundred thousand km)
+pytestmark = pytest.mark.slow   # about 2-5 min: a torus family and a secant iteration
+
+
+@functools.lru_cache(maxsize=None)
+def se():
+    return system("sun-earth")
+
+
+@functools.lru_cache(maxsize=None)
+def torus():
+    s = se()
+    return lissajous(s, "L2", AY_KM / s.length_km, AZ_KM / s.length_km)
+
+
+def test_amplitudes_are_met_and_measured_on_the_surface():
+    t, s = torus(), se()
+    ay, az = measured_amplitudes(t)
+    assert s.km(ay) == pytest.approx(AY_KM, rel=2e-5)
+    assert s.km(az) == pytest.approx(AZ_KM, rel=2e-5)
+    assert t.extra["ay_lu"] == ay and t.extra["az_lu"] == az
+    # the documented sampling error of the maxima (256 steps per T): a 4x finer surface agrees
+    fine = surface(s, t.circle, t.stroboscopic_time, 1024).reshape(-1, 6)
+    assert np.abs(fine[:, 1]).max() == pytest.approx(ay, rel=1e-4)
+    assert np.abs(fine[:, 2]).max() == pytest.approx(az, rel=1e-4)
+    assert t.invariance_error < t.invariance_tolerance
+    assert t.family == "lissajous" and t.point == "L2"
+
+
+def test_frequencies_against_the_linear_ones_and_published_periods():
+    t, s = torus(), se()
+    wp, wv = linear_frequencies(s.mu, "L2")
+    w0, w1 = t.frequencies_rad_tu
+    # the in-plane frequency is 2 pi / T, the out-of-plane one rho / T (seeds' branch choice)
+    p_in, p_out = (s.days(2 * math.pi / w) for w in (w0, w1))
+    p_in_lin, p_out_lin = (s.days(2 * math.pi / w) for w in (wp, wv))
+    assert 177.0 < p_in_lin < 179.0 and 183.0 < p_out_lin < 185.0     # Richardson 1980
+    # second-order amplitude dependence: a few days at most at several 1e5 km
+    assert abs(p_in - p_in_lin) < 3.0 and abs(p_out - p_out_lin) < 3.0
+    assert p_in != pytest.approx(p_in_lin, abs=1e-3)                  # not the linear value
+    # from memory: near 180 d in plane, out of plane somewhat longer
+    assert 175.0 < p_in < 185.0 and p_in < p_out < p_in + 12.0
+
+
+def test_scipy_dop853_keeps_torus_points_on_the_torus():
+    t, s = torus(), se()
+    mu = s.mu
+
+    def f(_, y):
+        x, yy, z, vx, vy, vz = y
+        r1 = math.sqrt((x + mu) ** 2 + yy * yy + z * z)
+        r2 = math.sqrt((x - 1 + mu) ** 2 + yy * yy + z * z)
+        k1, k2 = (1 - mu) / r1 ** 3, mu / r2 ** 3
+        return [vx, vy, vz, x - k1 * (x + mu) - k2 * (x - 1 + mu) + 2 * vy,
+                yy - k1 * yy - k2 * yy - 2 * vx, -k1 * z - k2 * z]
+    T, rho = t.stroboscopic_time, t.rotation
+    maps = 3
+    for th in (0.3, 2.1, 4.4):
+        y0 = evaluate(t.circle, [th])[0]
+        sol = solve_ivp(f, (0, maps * T), y0, method="DOP853", rtol=1e-12, atol=1e-12,
+                        t_eval=[k * T for k in range(1, maps + 1)])
+        for k in range(maps):
+            want = evaluate(t.circle, [th + (k + 1) * rho])[0]
+            # the saddle of L2 amplifies errors by ~1600 per map: the bound grows with it
+            assert np.linalg.norm(sol.y[:, k] - want) < 1e-7 * 2000.0 ** k
