@@ -2,8 +2,6 @@
 
 from __future__ import annotations
 
-import sys
-
 from .. import common
 from . import _orbit_options as oo
 
