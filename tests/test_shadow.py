@@ -185,3 +185,14 @@ def test_example_station_file_reads():
     from pathlib import Path
     st = visibility.read_stations(Path(__file__).resolve().parents[1] / "examples" / "stations.toml")
     assert [s.name for s in st] == ["north-hill", "south-plain", "west-coast"]
+
+
+def test_span_beyond_the_tables_is_refused_before_the_orbit_is_solved(capsys, tmp_path):
+    """An epoch whose span runs past DE421's end (2053-10-09 TDB) is refused at once, naming
+    the tables' span, with no orbit solved and nothing written."""
+    out = tmp_path / "s.json"
+    rc = main(["shadow", "--system", "earth-moon", "--orbit", "halo L2 south resonance=9:2",
+               "--epoch", "2053-09-01T00:00:00Z", "--span", "365d", "--format", "json", "--out", str(out)])
+    err = capsys.readouterr().err
+    assert rc == 2 and "DE421" in err and "2053-10-09" in err
+    assert "solving orbit request" not in err and not out.exists()

@@ -108,6 +108,14 @@ def _run(args):
     from cr3bp.orbits.request import solve_request
 
     sysm, bodies, step_s, phase, n_phases, max_min, stations, epoch = _inputs(args)
+    # the ephemeris must cover the epoch (and its end, for a span given as a time) before the
+    # orbit is solved: an EphemerisSpanError here names the epoch and the tables' span
+    from cr3bp.time import ephemeris
+    ends = [epoch]
+    if export.span_periods(args.span) is None:
+        ends.append(epoch + export.parse_span(args.span, sysm) * sysm.time_s)
+    for body in ("sun", "moon"):
+        ephemeris.position(body, frames._epoch(np.array(ends)), "earth")
     common.progress(args, f"solving orbit request '{args.orbit}'...")
     orbit = solve_request(sysm, args.orbit)
     span_tu = export.parse_span(args.span, sysm, float(orbit.period))
