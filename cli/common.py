@@ -5,6 +5,7 @@ from __future__ import annotations
 import csv
 import io
 import json
+import os
 import sys
 from pathlib import Path
 
@@ -140,6 +141,14 @@ def resolve_system(args):
 
 
 # ---- messages ------------------------------------------------------------------------
+
+def folder_exists(option: str, path) -> None:
+    """The folder a file will be written into exists (InputError naming the option otherwise)."""
+    from cr3bp.errors import InputError
+    d = os.path.dirname(os.path.abspath(path))
+    if not os.path.isdir(d):
+        raise InputError(f"{option} {path}: folder {d} does not exist")
+
 
 def caution_footer(model: str = "cr3bp") -> str:
     from cr3bp.cautions import caution_lines

@@ -105,14 +105,6 @@ def parse_errors(nav_text, burn_text):
     return Errors(pos_km, vel_mps, p / 100.0, fixed_mps)
 
 
-def _folder_ok(option, path):
-    import os
-    from cr3bp.errors import InputError
-    d = os.path.dirname(os.path.abspath(path))
-    if not os.path.isdir(d):
-        raise InputError(f"{option} {path}: folder {d} does not exist")
-
-
 def _inputs(args):
     """Every check of the user's values, before anything is computed or written."""
     from cr3bp.io import export
@@ -138,9 +130,9 @@ def _inputs(args):
     if args.plot:
         if not args.plot.lower().endswith(PLOT_SUFFIXES):
             raise InputError(f"--plot {args.plot!r} must end in {', '.join(PLOT_SUFFIXES)}")
-        _folder_ok("--plot", args.plot)
+        common.folder_exists("--plot", args.plot)
     if args.out:
-        _folder_ok("--out", args.out)
+        common.folder_exists("--out", args.out)
     _check_epoch(args, sysm)
     return sysm, errors, min_burn, trials, target, seed, workers, bodies, srp, interval
 

@@ -47,14 +47,6 @@ def add_arguments(p):
     common.add_output_options(p)
 
 
-def _folder_ok(option, path):
-    import os
-    from cr3bp.errors import InputError
-    d = os.path.dirname(os.path.abspath(path))
-    if not os.path.isdir(d):
-        raise InputError(f"{option} {path}: folder {d} does not exist")
-
-
 def _inputs(args):
     """Every check of the user's values, before anything is computed or written."""
     from cr3bp import units
@@ -87,9 +79,9 @@ def _inputs(args):
     if args.plot:
         if not args.plot.lower().endswith(PLOT_SUFFIXES):
             raise InputError(f"--plot {args.plot!r} must end in {', '.join(PLOT_SUFFIXES)}")
-        _folder_ok("--plot", args.plot)
+        common.folder_exists("--plot", args.plot)
     if args.out:
-        _folder_ok("--out", args.out)
+        common.folder_exists("--out", args.out)
     from cr3bp.time import frames
     epoch = frames.epoch_from_text(args.epoch)
     return sysm, bodies, step_s, phase, n_phases, max_min, stations, epoch

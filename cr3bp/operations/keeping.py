@@ -464,13 +464,7 @@ def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, mi
             if progress:
                 progress(done, n)
     except BaseException:
-        procs = list((getattr(ex, "_processes", None) or {}).values())
-        ex.shutdown(wait=False, cancel_futures=True)
-        for p in procs:
-            if p.is_alive():
-                p.terminate()
-        for p in procs:
-            p.join(timeout=5)
+        graph.stop_pool(ex)
         raise
     ex.shutdown(wait=True)
     return _merge(parts, n)

@@ -514,16 +514,22 @@ def run_tasks(tasks, workers=None, scheduler=None, progress=None) -> list:
                 tick(i, leg)
     except BaseException:
         # Ctrl-C or an error: stop the workers now instead of waiting for their chunks
-        procs = list((getattr(ex, "_processes", None) or {}).values())
-        ex.shutdown(wait=False, cancel_futures=True)
-        for p in procs:
-            if p.is_alive():
-                p.terminate()
-        for p in procs:
-            p.join(timeout=5)
+        stop_pool(ex)
         raise
     ex.shutdown(wait=True)
     return out
+
+
+def stop_pool(ex) -> None:
+    """Stop a process pool at once (Ctrl-C or an error): cancel what has not started and
+    terminate the workers instead of waiting for their chunks."""
+    procs = list((getattr(ex, "_processes", None) or {}).values())
+    ex.shutdown(wait=False, cancel_futures=True)
+    for p in procs:
+        if p.is_alive():
+            p.terminate()
+    for p in procs:
+        p.join(timeout=5)
 
 
 class _sigint_ignored:
