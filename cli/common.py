@@ -142,6 +142,17 @@ def resolve_system(args):
 
 # ---- messages ------------------------------------------------------------------------
 
+def add_orbit_at_date(group, epoch_help: str, span_help: str) -> None:
+    """``--orbit REQUEST``, ``--epoch ISO`` and ``--span SPAN`` (default 365d): the options of the
+    commands that follow a periodic orbit placed at a date (shadow, keep)."""
+    group.add_argument("--orbit", metavar="SPEC", required=True,
+                       help='periodic-orbit request, e.g. "halo L2 south resonance=9:2"')
+    group.add_argument("--epoch", metavar="ISO", required=True,
+                       help=f"{epoch_help}, ISO 8601 (Z = UTC, or a trailing TDB/TT/TAI/UTC)")
+    group.add_argument("--span", metavar="SPAN", default="365d",
+                       help=f"{span_help}: a time (365d) or Nperiods (default 365d)")
+
+
 def folder_exists(option: str, path) -> None:
     """The folder a file will be written into exists (InputError naming the option otherwise)."""
     from cr3bp.errors import InputError

@@ -17,12 +17,7 @@ _SMALL_VELOCITY = {"mm/s": 1e-3, "cm/s": 1e-2}
 def add_arguments(p):
     common.add_system_options(p)
     g = p.add_argument_group("orbit, date and model")
-    g.add_argument("--orbit", metavar="SPEC", required=True,
-                   help='periodic-orbit request, e.g. "halo L2 south resonance=9:2"')
-    g.add_argument("--epoch", metavar="ISO", required=True,
-                   help="date of the reference's start, ISO 8601 (Z = UTC, or a trailing TDB/TT/TAI/UTC)")
-    g.add_argument("--span", metavar="SPAN", default="365d", help="span maintained: a time (365d) or Nperiods "
-                                                                  "(default 365d)")
+    common.add_orbit_at_date(g, "date of the reference's start", "span maintained")
     g.add_argument("--bodies", metavar="LIST", default="sun,earth,moon",
                    help="point masses of the ephemeris model (default sun,earth,moon; the central body, the "
                         "smaller primary, is its own term)")

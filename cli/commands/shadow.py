@@ -18,12 +18,7 @@ PLOT_SUFFIXES = (".png", ".svg", ".pdf")
 def add_arguments(p):
     common.add_system_options(p)
     g = p.add_argument_group("orbit and date")
-    g.add_argument("--orbit", metavar="SPEC", required=True,
-                   help='periodic-orbit request, e.g. "halo L2 south resonance=9:2"')
-    g.add_argument("--epoch", metavar="ISO", required=True,
-                   help="date of rotating time 0, ISO 8601 (Z = UTC, or a trailing TDB/TT/TAI/UTC)")
-    g.add_argument("--span", metavar="SPAN", default="365d", help="how long: a time (365d, 30d) or Nperiods "
-                                                                  "(default 365d)")
+    common.add_orbit_at_date(g, "date of rotating time 0", "how long")
     g.add_argument("--step", metavar="TIME", default="5min",
                    help="search step, 10s..1h (default 5min); edges are refined, but a pass shorter "
                         "than the step may be missed")
