@@ -1,4 +1,8 @@
-"""Family recipes: how each named family is seeded, oriented and grown.
+"""Families of periodic orbits grown from their recipes.
+
+Each family's recipe is one row of :data:`cr3bp.orbits.recipes.RECIPES` (points, branches,
+seed, symmetry, held component, orientation, steps, routes); the functions here read the row
+and never ask which family it is. In short:
 
 ======================  ==========================================  =====================
 family                  first member                                symmetry
@@ -41,10 +45,11 @@ import math
 import numpy as np
 
 from ..errors import ConvergenceError, InputError, NoSolutionError
-from . import continuation, seeds, shooting
+from . import continuation, recipes, seeds, shooting
 from ._collinear import collinear_point, point_name
 
-FAMILIES = ("lyapunov", "halo", "vertical", "axial", "dro", "resonant")
+#: The family words (the rows of :data:`cr3bp.orbits.recipes.RECIPES`).
+FAMILIES = recipes.FAMILIES
 #: Largest relative departure of a resonant member's rotating-frame period from ``2 pi q`` (the
 #: time in which the p:q resonance closes): members beyond it are not on the resonance and end
 #: the family. Measured along Jupiter-Europa 3:4 (tests/test_against_kepler_resonances.py): the
@@ -52,29 +57,66 @@ FAMILIES = ("lyapunov", "halo", "vertical", "axial", "dro", "resonant")
 #: departs by 2 to 3 % at the closest approaches above Europa's surface, where the flyby itself
 #: takes part of the period.
 RESONANCE_TOL = 0.03
-BRANCHES = {"halo": ("north", "south")}
+#: Branch words of the families that have branches.
+BRANCHES = {r.name: r.branches for r in recipes.RECIPES.values() if r.branches}
 
 
 def check_family(family: str, point: str | None, branch: str | None):
+    """Clean a family word, its Lagrange point and its branch against the family's recipe.
+
+    Parameters
+    ----------
+    family : str
+        Family word (case and surrounding blanks ignored), one of :data:`FAMILIES`.
+    point : str or None
+        Lagrange point (``"L1"``), required by families that have one and refused by the others.
+    branch : str or None
+        Branch word (``"north"``), required by families that have branches and refused by the
+        others.
+
+    Returns
+    -------
+    tuple of str
+        ``(family, point, branch)`` cleaned; ``""`` where the family has no point or branch.
+
+    Raises
+    ------
+    InputError
+        Naming the word that is not allowed and what is.
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics*
+       32, 1984 (the northern and southern halo branches).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.families import check_family
+    >>> check_family(" Halo ", "l2", "South")
+    ('halo', 'L2', 'south')
+    >>> check_family("dro", None, None)
+    ('dro', '', '')
+    """
     f = str(family).strip().lower()
-    if f not in FAMILIES:
+    if f not in recipes.RECIPES:
         raise InputError(f"unknown family '{family}'; allowed: {', '.join(FAMILIES)}")
-    if f in ("lyapunov", "halo", "vertical", "axial"):
+    rec = recipes.RECIPES[f]
+    if rec.points:
         if point is None:
             raise InputError(f"the {f} family needs a collinear point: L1, L2 or L3")
         point = point_name(point)
-        if f in ("vertical", "axial") and point == "L3":
-            raise InputError(f"{f} families are offered at L1 and L2 only")
+        if point not in rec.points:
+            raise InputError(f"{f} families are offered at {' and '.join(rec.points)} only")
     else:
         if point:
             raise InputError(f"the {f} family has no Lagrange point; leave out the point '{point}'")
         point = ""
-    if f == "halo":
+    if rec.branches:
         b = (branch or "").strip().lower()
         if not b:
-            raise InputError("the halo family needs a branch: north or south")
-        if b not in BRANCHES["halo"]:
-            raise InputError(f"halo branch '{branch}' is not allowed; use north or south")
+            raise InputError(f"the {f} family needs a branch: {' or '.join(rec.branches)}")
+        if b not in rec.branches:
+            raise InputError(f"{f} branch '{branch}' is not allowed; use {' or '.join(rec.branches)}")
         branch = b
     else:
         if branch:
@@ -84,85 +126,195 @@ def check_family(family: str, point: str | None, branch: str | None):
 
 
 def kind_of(family: str) -> str:
-    return {"lyapunov": seeds.XZ_PLANAR, "halo": seeds.XZ, "vertical": "x-axis", "axial": "x-axis",
-            "dro": seeds.XZ_PLANAR, "resonant": seeds.XZ_PLANAR}[family]
+    """Symmetry type the corrector uses for ``family`` (its recipe's ``symmetry``).
+
+    Parameters
+    ----------
+    family : str
+        A family word of :data:`FAMILIES`.
+
+    Returns
+    -------
+    str
+        ``"xz"``, ``"xz-planar"`` or ``"x-axis"`` (see :mod:`cr3bp.orbits.shooting`).
+
+    Raises
+    ------
+    KeyError
+        When ``family`` has no recipe.
+
+    References
+    ----------
+    .. [1] A. E. Roy and M. W. Ovenden, "On the occurrence of commensurable mean motions in the
+       solar system: the mirror theorem", *Mon. Not. R. Astron. Soc.* 115, 1955 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.families import kind_of
+    >>> kind_of("halo"), kind_of("vertical")
+    ('xz', 'x-axis')
+    """
+    return recipes.RECIPES[family].symmetry
 
 
 def resonance_label(p: int, q: int) -> str:
+    """The label ``"p:q"`` of a resonant family.
+
+    Parameters
+    ----------
+    p, q : int
+        Revolutions of the spacecraft about the larger primary, and of the primaries.
+
+    Returns
+    -------
+    str
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] M. Hénon, "Numerical exploration of the restricted problem. V", *Astron. Astrophys.*
+       1, 1969 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.families import resonance_label
+    >>> resonance_label(3, 2)
+    '3:2'
+    """
     return f"{p}:{q}"
+
+
+def _scale(system, rec, point):
+    """The recipe's length scale (see :mod:`cr3bp.orbits.recipes`)."""
+    if rec.scale == "gamma":
+        return collinear_point(system.mu, point).gamma
+    if rec.scale == "hill":
+        # sizes scale with the smaller primary's Hill radius (mu/3)^(1/3) (Szebehely 1967, §10)
+        return (system.mu / 3.0) ** (1.0 / 3.0)
+    return 1.0
+
+
+def _point(system, rec, point):
+    return collinear_point(system.mu, point) if rec.points else None
+
+
+def _start_from_seed(system, rec, point, branch, resonance, eccentricity, alignment):
+    """A seed corrected by single shooting with the recipe's component held."""
+    scale = _scale(system, rec, point)
+    sd = rec.seed(system.mu, point, rec.seed_size * scale, branch)
+    tau = sd.half_period
+    if rec.half_period_at is not None:
+        coordinate, sense = rec.half_period_at
+        tau = shooting.locate_half_period(system, sd.state, coordinate, direction=sense)
+    hold = shooting.fix(rec.hold, sd.state[shooting.COMPONENTS[rec.hold]])
+    o = shooting.correct(system, sd.state, tau, rec.symmetry, hold, family=rec.name, point=point,
+                         branch=branch)
+    return o, rec.symmetry, rec.direction(_point(system, rec, point)), rec.step * scale, rec.max_step * scale
+
+
+def _start_from_branch(system, rec, point, branch, resonance, eccentricity, alignment):
+    """The branch point on the parent family, pushed out of the plane (Howell 1984)."""
+    scale = _scale(system, rec, point)
+    bp = rec.branching
+    parent = grow_family(system, bp.parent, point, stops=continuation.Stops(
+        max_members=rec.parent_members, branch_points=bp.crossing))
+    bif = [b for b in parent.bifurcations if b.kind == "+1" and b.which == 1]
+    if len(bif) < bp.crossing:
+        if bp.crossing == 1:
+            raise ConvergenceError(f"the {point} {bp.parent.capitalize()} family showed no out-of-plane "
+                                   f"branch point ({parent.stop_reason})")
+        raise ConvergenceError(f"the {point} {bp.parent.capitalize()} family showed {len(bif)} out-of-plane "
+                               f"branch points; the {rec.name} family needs the second")
+    o = branch_at(system, bif[bp.crossing - 1].orbit, rec.name, point, branch)
+    return o, rec.symmetry, rec.direction(_point(system, rec, point)), rec.step * scale, rec.max_step * scale
+
+
+def _start_on_resonance(system, rec, point, branch, resonance, eccentricity, alignment):
+    """A Kepler ellipse on the p:q resonance (:func:`seeds.resonant_encounter` or
+    :func:`seeds.resonant`), corrected with x held."""
+    mu = system.mu
+    if resonance is None:
+        raise InputError("the resonant family needs p:q, e.g. 3:2")
+    pp, qq = resonance
+    if alignment == "away":
+        sd = seeds.resonant(mu, pp, qq, 0.5 if eccentricity is None else eccentricity)
+        toward = -1.0
+    elif alignment == "secondary":
+        o, e0 = _resonant_first(system, pp, qq, eccentricity)
+        _, e_touch, _ = seeds.resonant_geometry(mu, pp, qq)
+        rate = seeds.resonant_x_rate(mu, pp, qq, e0)
+        toward = rate if e0 < e_touch else -rate
+        return o, rec.symmetry, (lambda t, X, s=toward: s * t[0]), rec.step, rec.max_step
+    else:
+        raise InputError(f"resonant alignment '{alignment}' is not allowed; use secondary or away")
+    o = shooting.correct(system, sd.state, sd.half_period, sd.symmetry, shooting.fix(rec.hold, sd.state[0]),
+                         family=rec.name, point="", branch=resonance_label(pp, qq))
+    return o, sd.symmetry, (lambda t, X, s=toward: s * t[0]), rec.step, rec.max_step
+
+
+#: How a recipe's ``start`` is carried out.
+STARTS = {"seed": _start_from_seed, "branch": _start_from_branch, "resonance": _start_on_resonance}
 
 
 def first_member(system, family, point="", branch="", resonance=None, eccentricity=None,
                  alignment="secondary"):
-    """(first PeriodicOrbit, symmetry kind, direction function, step, max_step).
+    """The first member of a family, from its recipe (:mod:`cr3bp.orbits.recipes`).
 
-    Resonant families: ``alignment="secondary"`` (default) seeds the ellipse whose apsis nearer
-    the secondary's orbit points at the secondary (:func:`seeds.resonant_encounter`, default
-    eccentricity half the touching one) and orients the family towards the secondary;
-    ``"away"`` seeds the ellipse with its periapsis on the far side (:func:`seeds.resonant`,
-    default eccentricity 0.5), oriented towards smaller eccentricity."""
-    mu = system.mu
-    meta = dict(family=family, point=point, branch=branch)
-    if family == "lyapunov":
-        p = collinear_point(mu, point)
-        sd = seeds.linear_lyapunov(mu, point, 2e-3 * p.gamma)
-        o = shooting.correct(system, sd.state, sd.half_period, sd.symmetry, shooting.fix("x", sd.state[0]), **meta)
-        return o, sd.symmetry, (lambda t, X, xl=p.x: t[0] * (X[0] - xl)), 1e-3 * p.gamma, 0.3 * p.gamma
-    if family == "halo" and point == "L3":
-        # Richardson's series is too inaccurate at L3 (the halos begin at Ax ~ 0.4 gamma, beyond
-        # the expansion's reach): branch from the L3 Lyapunov family instead.
-        p = collinear_point(mu, point)
-        lyap = grow_family(system, "lyapunov", point, stops=continuation.Stops(max_members=400, branch_points=1))
-        bif = [b for b in lyap.bifurcations if b.kind == "+1" and b.which == 1]
-        if not bif:
-            raise ConvergenceError(f"the L3 Lyapunov family showed no out-of-plane branch point "
-                                   f"({lyap.stop_reason})")
-        o = branch_at(system, bif[0].orbit, "halo", point, branch)
-        return o, seeds.XZ, (lambda t, X: t[1] * X[1]), 2e-3 * p.gamma, 0.05 * p.gamma
-    if family == "halo":
-        p = collinear_point(mu, point)
-        sd = seeds.richardson_halo(mu, point, 0.02 * p.gamma, branch)
-        o = shooting.correct(system, sd.state, sd.half_period, sd.symmetry, shooting.fix("z", sd.state[2]), **meta)
-        return o, sd.symmetry, (lambda t, X: t[1] * X[1]), 2e-3 * p.gamma, 0.15 * p.gamma
-    if family == "vertical":
-        p = collinear_point(mu, point)
-        sd = seeds.linear_vertical(mu, point, 5e-3 * p.gamma)
-        tau = shooting.locate_half_period(system, sd.state, "z", direction=-1)
-        o = shooting.correct(system, sd.state, tau, "x-axis", shooting.fix("vz", sd.state[5]), **meta)
-        return o, "x-axis", (lambda t, X: t[2] * X[2]), 2e-3 * p.gamma, 0.05 * p.gamma
-    if family == "axial":
-        lyap = grow_family(system, "lyapunov", point, stops=continuation.Stops(max_members=600, branch_points=2))
-        bif = [b for b in lyap.bifurcations if b.kind == "+1" and b.which == 1]
-        if len(bif) < 2:
-            raise ConvergenceError(f"the {point} Lyapunov family showed {len(bif)} out-of-plane "
-                                   "branch points; the axial family needs the second")
-        o = branch_at(system, bif[1].orbit, "axial", point)
-        return o, "x-axis", (lambda t, X: t[2] * X[2]), 1e-3, 0.03
-    if family == "dro":
-        # sizes scale with the smaller primary's Hill radius (mu/3)^(1/3) (Szebehely 1967, §10)
-        rh = (mu / 3.0) ** (1.0 / 3.0)
-        sd = seeds.dro(mu, 0.1 * rh)
-        o = shooting.correct(system, sd.state, sd.half_period, sd.symmetry, shooting.fix("x", sd.state[0]), **meta)
-        return o, sd.symmetry, (lambda t, X: t[0]), 0.0125 * rh, 0.6 * rh
-    if family == "resonant":
-        if resonance is None:
-            raise InputError("the resonant family needs p:q, e.g. 3:2")
-        pp, qq = resonance
-        if alignment == "away":
-            sd = seeds.resonant(mu, pp, qq, 0.5 if eccentricity is None else eccentricity)
-            toward = -1.0
-        elif alignment == "secondary":
-            o, e0 = _resonant_first(system, pp, qq, eccentricity)
-            _, e_touch, _ = seeds.resonant_geometry(mu, pp, qq)
-            rate = seeds.resonant_x_rate(mu, pp, qq, e0)
-            toward = rate if e0 < e_touch else -rate
-            return o, seeds.XZ_PLANAR, (lambda t, X, s=toward: s * t[0]), 2e-3, 0.02
-        else:
-            raise InputError(f"resonant alignment '{alignment}' is not allowed; use secondary or away")
-        o = shooting.correct(system, sd.state, sd.half_period, sd.symmetry, shooting.fix("x", sd.state[0]),
-                             family=family, point="", branch=resonance_label(pp, qq))
-        return o, sd.symmetry, (lambda t, X, s=toward: s * t[0]), 2e-3, 0.02
-    raise InputError(f"unknown family '{family}'")
+    Parameters
+    ----------
+    system : System
+    family : str
+        A family word of :data:`FAMILIES` (cleaned: see :func:`check_family`).
+    point, branch : str
+        Lagrange point and branch, ``""`` where the family has none.
+    resonance : tuple of int, optional
+        ``(p, q)`` of a resonant family.
+    eccentricity : float, optional
+        Seed eccentricity of a resonant family (default: see below).
+    alignment : str
+        Resonant families: ``"secondary"`` (default) seeds the ellipse whose apsis nearer the
+        secondary's orbit points at the secondary (:func:`seeds.resonant_encounter`, default
+        eccentricity half the touching one) and orients the family towards the secondary;
+        ``"away"`` seeds the ellipse with its periapsis on the far side (:func:`seeds.resonant`,
+        default eccentricity 0.5), oriented towards smaller eccentricity.
+
+    Returns
+    -------
+    tuple
+        ``(first PeriodicOrbit, symmetry kind, direction function, step, max_step)``.
+
+    Raises
+    ------
+    InputError
+        Unknown family, a resonant family without p:q, an unknown alignment.
+    ConvergenceError, NoSolutionError
+        When the seed does not correct into an orbit (or no branch point is found).
+
+    References
+    ----------
+    .. [1] D. L. Richardson, "Analytic construction of periodic orbits about the collinear
+       points", *Celestial Mechanics* 22, 1980 (halo seed).
+    .. [2] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics*
+       32, 1984 (symmetric single shooting; the branch from the planar family).
+    .. [3] V. Szebehely, *Theory of Orbits*, Academic Press, 1967, §4.5 (linear seeds; from
+       memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits.families import first_member
+    >>> orbit, kind, direction, step, max_step = first_member(system("earth-moon"), "lyapunov", "L1")
+    >>> kind, orbit.periodicity_error < 1e-10
+    ('xz-planar', True)
+    """
+    rec = recipes.RECIPES.get(family)
+    if rec is None:
+        raise InputError(f"unknown family '{family}'")
+    rec = rec.at_point(point)
+    return STARTS[rec.start](system, rec, point, branch, resonance, eccentricity, alignment)
 
 
 #: eccentricities tried for the first resonant member, as fractions of the one at which the
@@ -196,23 +348,66 @@ def _resonant_first(system, p, q, eccentricity=None):
 
 
 def branch_at(system, orbit, family, point, branch="north", push=None):
-    """First member of a three-dimensional family branching from a planar orbit at a +1
-    out-of-plane crossing: push out of the plane and correct with the push held (Howell 1984)."""
+    """First member of a three-dimensional family branching from a planar orbit.
+
+    The planar orbit at an out-of-plane +1 crossing of its family is pushed out of the plane in
+    the component the family's recipe names (``z`` for halos, ``vz`` for axial orbits) and
+    corrected by single shooting with the push held.
+
+    Parameters
+    ----------
+    system : System
+    orbit : PeriodicOrbit
+        The planar orbit at the branch point.
+    family : str
+        The branching family (its recipe has ``branching``).
+    point : str
+        Lagrange point of the planar family.
+    branch : str
+        Branch word of families that have branches (halo: north means z > 0 at the crossing
+        farther from the reference primary).
+    push : float, optional
+        Size of the push (nondimensional); default the recipe's.
+
+    Returns
+    -------
+    PeriodicOrbit
+
+    Raises
+    ------
+    InputError
+        When ``family`` has no branching recipe.
+    ConvergenceError
+        When the pushed orbit does not correct.
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics*
+       32, 1984.
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.families import branch_at
+    >>> branch_at(None, None, "dro", "")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: no branching recipe for 'dro'
+    """
+    rec = recipes.RECIPES.get(family)
+    if rec is None or rec.branching is None:
+        raise InputError(f"no branching recipe for '{family}'")
+    bp = rec.branching
     s = np.array(orbit.state, dtype=float)
-    meta = dict(family=family, point=point, branch=branch if family == "halo" else "")
-    if family == "halo":
-        p = collinear_point(system.mu, point)
-        dz = push or 2e-3 * p.gamma
+    meta = dict(family=family, point=point, branch=branch if rec.branches else "")
+    size = push or bp.push_size * (collinear_point(system.mu, point).gamma if bp.scale == "gamma" else 1.0)
+    sign = 1.0
+    if rec.branches:
         # north: z > 0 at the crossing farther from the smaller primary (orbit module notes)
         far = _far_crossing_is_start(system, orbit, point)
-        sign = 1.0 if (branch == "north") == far else -1.0
-        s[2] = sign * dz
-        return shooting.correct(system, s, orbit.period / 2, seeds.XZ, shooting.fix("z", s[2]), **meta)
-    if family == "axial":
-        dv = push or 1e-3
-        s[5] = dv
-        return shooting.correct(system, s, orbit.period / 2, "x-axis", shooting.fix("vz", dv), **meta)
-    raise InputError(f"no branching recipe for '{family}'")
+        sign = 1.0 if (branch == rec.branches[0]) == far else -1.0
+    k = shooting.COMPONENTS[bp.push]
+    s[k] = sign * size
+    return shooting.correct(system, s, orbit.period / 2, rec.symmetry, shooting.fix(bp.push, s[k]), **meta)
 
 
 def _far_crossing_is_start(system, orbit, point):
@@ -233,9 +428,11 @@ def grow_family(system, family, point="", branch="", *, stops=None, method="arcl
 
     Resonant families with ``alignment="secondary"`` are followed along the resonance towards
     the secondary (:func:`grow_resonant`)."""
-    family, point, branch = check_family(family, point, branch) if family != "resonant" else (family, "", branch)
+    rec = recipes.RECIPES.get(family)
+    on_ratio = rec is not None and rec.ratio
+    family, point, branch = (family, "", branch) if on_ratio else check_family(family, point, branch)
     stops = stops or continuation.Stops()
-    if family == "resonant" and alignment == "secondary" and first is None:
+    if on_ratio and alignment == "secondary" and first is None:
         return grow_resonant(system, resonance, stops=stops, method=method, parameter=parameter,
                              step=step, progress=progress, eccentricity=eccentricity,
                              locate_bifurcations=locate_bifurcations, max_step=max_step)
@@ -243,8 +440,8 @@ def grow_family(system, family, point="", branch="", *, stops=None, method="arcl
                                               alignment) if first is None else first
     settings = {"family": family, "point": point, "branch": branch,
                 "resonance": list(resonance) if resonance else None, "eccentricity": eccentricity
-                if family == "resonant" else None}
-    if family == "resonant":
+                if on_ratio else None}
+    if on_ratio:
         settings["alignment"] = alignment
     return continuation.grow(system, o, kind, step=step or st, max_step=max_step or mx, direction=direction,
                              method=method, parameter=parameter, stops=stops, family=family,
@@ -318,24 +515,83 @@ def grow_resonant(system, resonance, *, stops=None, method="arclength", paramete
     return fam
 
 
+#: Parent members grown, first step and largest step (units of gamma) of a family grown from
+#: its branch point by :func:`branch_family`.
+BRANCH_PARENT_MEMBERS = 600
+BRANCH_STEP = 2e-3
+BRANCH_MAX_STEP = 0.03
+
+
 def branch_family(system, family, point, branch="", *, stops=None, progress=None, parent=None,
                   max_step=None):
-    """Grow a three-dimensional family from its bifurcation on the planar Lyapunov family."""
-    need = {"halo": 1, "axial": 2}[family]
-    parent = parent or grow_family(system, "lyapunov", point,
-                                   stops=continuation.Stops(max_members=600, branch_points=need))
+    """Grow a three-dimensional family from its branch point on the planar parent family.
+
+    The recipe's ``branching`` names the parent (the Lyapunov family) and which out-of-plane +1
+    crossing along it the family leaves from; the first member is :func:`branch_at` there.
+
+    Parameters
+    ----------
+    system : System
+    family : str
+        A family whose recipe has ``branching`` (halo, axial).
+    point : str
+        Collinear Lagrange point.
+    branch : str
+        Branch word (halo: north or south).
+    stops : continuation.Stops, optional
+    progress : callable(count, max, orbit), optional
+    parent : Family, optional
+        The parent family already grown (else grown to :data:`BRANCH_PARENT_MEMBERS`).
+    max_step : float, optional
+        Largest continuation step (nondimensional); default ``0.03 gamma``.
+
+    Returns
+    -------
+    tuple
+        ``(Family, Bifurcation on the parent where it branches)``.
+
+    Raises
+    ------
+    InputError
+        When ``family`` has no branching recipe.
+    ConvergenceError
+        When the parent shows too few out-of-plane branch points or a member does not correct.
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics*
+       32, 1984.
+    .. [2] E. J. Doedel et al., "Elemental periodic orbits associated with the libration
+       points in the circular restricted 3-body problem", *Int. J. Bifurcation and Chaos* 17,
+       2007 (the axial branch; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.families import branch_family
+    >>> branch_family(None, "resonant", "")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: no branching recipe for 'resonant'
+    """
+    rec = recipes.RECIPES.get(family)
+    if rec is None or rec.branching is None:
+        raise InputError(f"no branching recipe for '{family}'")
+    bp = rec.branching
+    need = bp.crossing
+    parent = parent or grow_family(system, bp.parent, point,
+                                   stops=continuation.Stops(max_members=BRANCH_PARENT_MEMBERS, branch_points=need))
     bif = [b for b in parent.bifurcations if b.kind == "+1" and b.which == 1]
     if len(bif) < need:
-        raise ConvergenceError(f"the {point} Lyapunov family showed {len(bif)} out-of-plane branch points")
+        raise ConvergenceError(f"the {point} {bp.parent.capitalize()} family showed {len(bif)} out-of-plane "
+                               "branch points")
     o = branch_at(system, bif[need - 1].orbit, family, point, branch)
-    kind = seeds.XZ if family == "halo" else "x-axis"
-    direction = (lambda t, X: t[1] * X[1]) if family == "halo" else (lambda t, X: t[2] * X[2])
     p = collinear_point(system.mu, point)
-    return continuation.grow(system, o, kind, step=2e-3 * p.gamma, max_step=max_step or 0.03 * p.gamma,
-                             direction=direction, stops=stops or continuation.Stops(), family=family,
-                             point=point, branch=branch if family == "halo" else "", progress=progress,
+    return continuation.grow(system, o, rec.symmetry, step=BRANCH_STEP * p.gamma,
+                             max_step=max_step or BRANCH_MAX_STEP * p.gamma,
+                             direction=rec.direction(p), stops=stops or continuation.Stops(), family=family,
+                             point=point, branch=branch if rec.branches else "", progress=progress,
                              settings={"family": family, "point": point, "branch": branch,
-                                       "from": "lyapunov bifurcation"}), bif[need - 1]
+                                       "from": f"{bp.parent} bifurcation"}), bif[need - 1]
 
 
 # ---- the vertical and axial families by the other route -------------------------------------
@@ -449,31 +705,85 @@ def axial_from_vertical(system, point, *, stops=None, progress=None, vertical=No
     return fam, bif
 
 
-#: how each family is reached by default, and the other route offered
-ROUTES = {"halo": ("seed", "branch"), "vertical": ("seed", "branch"), "axial": ("branch", "seed")}
+#: how each family is reached by default, and the other route offered (from the recipes)
+ROUTES = recipes.routes_offered()
+
+
+def _by_growing(system, family, point, branch, stops, progress, max_step):
+    return grow_family(system, family, point, branch, stops=stops, progress=progress, max_step=max_step)
+
+
+def _by_lyapunov_branch(system, family, point, branch, stops, progress, max_step):
+    return branch_family(system, family, point, branch, stops=stops, progress=progress, max_step=max_step)[0]
+
+
+def _by_axial_junction(system, family, point, branch, stops, progress, max_step):
+    return vertical_by_branching(system, point, stops=stops, progress=progress, max_step=max_step)[0]
+
+
+def _by_vertical_branch(system, family, point, branch, stops, progress, max_step):
+    return axial_from_vertical(system, point, stops=stops, progress=progress, max_step=max_step)[0]
+
+
+#: The ways a recipe's ``routes`` name, and the function that carries each out.
+WAYS = {"grow": _by_growing, "lyapunov branch point": _by_lyapunov_branch,
+        "axial junction": _by_axial_junction, "vertical branch point": _by_vertical_branch}
 
 
 def grow_by_route(system, family, point, branch="", route=None, *, stops=None, progress=None, max_step=None):
-    """Grow a three-dimensional family by the route asked for: ``seed`` (halo: Richardson's seed;
-    vertical: the linear seed; axial: the vertical family's branch point, itself from the linear
-    vertical seed) or ``branch`` (halo and axial: the Lyapunov family's first / second
-    out-of-plane branch point; vertical: the junction of the axial family branched from the
-    Lyapunov family). The two routes reach the same orbits (tests/test_orbits_branching.py and
-    test_against_published_orbits.py check members at equal Jacobi constant or z to 1e-9)."""
+    """Grow a family by the route asked for (the recipe's ``routes``; default the first).
+
+    ``seed`` (halo: Richardson's seed; vertical: the linear seed; axial: the vertical family's
+    branch point, itself from the linear vertical seed) or ``branch`` (halo and axial: the
+    Lyapunov family's first / second out-of-plane branch point; vertical: the junction of the
+    axial family branched from the Lyapunov family). The two routes reach the same orbits
+    (tests/test_orbits_branching.py and test_against_published_orbits.py check members at
+    equal Jacobi constant or z to 1e-9).
+
+    Parameters
+    ----------
+    system : System
+    family, point, branch : str
+        As for :func:`check_family`.
+    route : str, optional
+        ``"seed"`` or ``"branch"``, where the family's recipe offers it.
+    stops : continuation.Stops, optional
+    progress : callable(count, max, orbit), optional
+    max_step : float, optional
+        Largest continuation step (nondimensional).
+
+    Returns
+    -------
+    Family
+
+    Raises
+    ------
+    InputError
+        A bad family, point or branch, or a route the family does not offer.
+    ConvergenceError
+        When a member or a branch point is not found.
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics*
+       32, 1984.
+    .. [2] E. J. Doedel et al., "Elemental periodic orbits associated with the libration
+       points in the circular restricted 3-body problem", *Int. J. Bifurcation and Chaos* 17,
+       2007 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.families import grow_by_route
+    >>> grow_by_route(None, "halo", "L3", "north", route="seed")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: route 'seed' is not offered for the halo L3 family; allowed: branch
+    """
     family, point, branch = check_family(family, point, branch)
-    allowed = ROUTES.get(family, ("seed",))
-    if family == "halo" and point == "L3":
-        allowed = ("branch",)   # Richardson's series is too inaccurate at L3 (see first_member)
+    ways = dict(recipes.RECIPES[family].at_point(point).routes)
+    allowed = tuple(ways)
     route = allowed[0] if route is None else str(route).strip().lower()
     if route not in allowed:
         raise InputError(f"route '{route}' is not offered for the {family} {point} family; allowed: "
                          f"{', '.join(allowed)}")
-    if family == "halo":
-        if route == "seed":
-            return grow_family(system, family, point, branch, stops=stops, progress=progress, max_step=max_step)
-        return branch_family(system, "halo", point, branch, stops=stops, progress=progress, max_step=max_step)[0]
-    if route == ROUTES[family][0]:
-        return grow_family(system, family, point, branch, stops=stops, progress=progress, max_step=max_step)
-    if family == "vertical":
-        return vertical_by_branching(system, point, stops=stops, progress=progress, max_step=max_step)[0]
-    return axial_from_vertical(system, point, stops=stops, progress=progress, max_step=max_step)[0]
+    return WAYS[ways[route]](system, family, point, branch, stops, progress, max_step)

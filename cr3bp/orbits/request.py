@@ -24,7 +24,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from ..errors import InputError, NoSolutionError
-from . import continuation, families, seeds, targets
+from . import continuation, families, recipes, seeds, targets
 from .orbit import PeriodicOrbit
 
 ALIASES = {"nrho": "halo", "lyap": "lyapunov", "planar": "lyapunov"}
@@ -49,7 +49,7 @@ class OrbitSpec:
 
     @property
     def branch_label(self) -> str:
-        if self.family == "resonant" and self.resonance:
+        if recipes.has_ratio(self.family) and self.resonance:
             return f"{self.resonance[0]}:{self.resonance[1]}"
         return self.branch
 
@@ -78,27 +78,27 @@ def parse_request(text: str) -> OrbitSpec:
                 raise InputError(f"only one target per request; got '{key}={value}' and '{w}'")
             key, value = (p.strip() for p in w.split("=", 1))
             key = key.lower()
-            if key not in targets.KINDS or key == "approach1":
-                raise InputError(f"unknown target '{key}'; allowed: period, jacobi, ax, ay, az, x, "
-                                 "perilune, resonance")
+            if key not in recipes.RECIPES[fam].targets:
+                raise InputError(f"unknown target '{key}'; allowed: {', '.join(recipes.RECIPES[fam].targets)}")
             if not value:
                 raise InputError(f"target '{key}=' has no value")
         elif lw in ("l1", "l2", "l3", "l4", "l5"):
             point = w.upper()
         elif lw in ("north", "south", "northern", "southern"):
             branch = "north" if lw.startswith("north") else "south"
-        elif ":" in w and fam == "resonant":
+        elif ":" in w and recipes.has_ratio(fam):
             resonance = targets.parse_resonance(w)
             seeds.check_resonance(*resonance)
         else:
             raise InputError(f"'{w}' is not understood in the request '{text}'; expected a point "
                              "(L1, L2, L3), a branch (north, south), p:q for resonant, or KEY=VALUE")
-    if fam == "resonant" and resonance is None:
-        raise InputError("a resonant family needs p:q, e.g. 'resonant 3:2 jacobi=2.9'")
-    if fam == "resonant" and (point or branch):
-        raise InputError(f"the resonant family has no Lagrange point or branch; leave out "
-                         f"'{point or branch}'")
-    if fam != "resonant":
+    if recipes.has_ratio(fam):
+        if resonance is None:
+            raise InputError(f"a {fam} family needs p:q, e.g. 'resonant 3:2 jacobi=2.9'")
+        if point or branch:
+            raise InputError(f"the {fam} family has no Lagrange point or branch; leave out "
+                             f"'{point or branch}'")
+    else:
         fam, point, branch = families.check_family(fam, point or None, branch or None)
     return OrbitSpec(fam, point, branch, key, value, resonance, occurrence)
 
@@ -214,7 +214,7 @@ def _range_message(system, spec, tg, lo, hi):
     name = _name(spec)
     d = targets.describe_value
     where = "the family covers"
-    if spec.family == "resonant" and spec.resonance:
+    if recipes.has_ratio(spec.family) and spec.resonance:
         p, q = spec.resonance
         where = (f"along the {p}:{q} resonance (members whose period is within "
                  f"{families.RESONANCE_TOL:.0%} of {q} revolutions of the primaries) the family covers")

@@ -29,7 +29,7 @@ import numpy as np
 from .. import dynamics
 from ..errors import ConvergenceError, InputError
 from ..integrate import plane, propagate
-from . import geometry, stability
+from . import geometry, recipes, stability
 from .orbit import PeriodicOrbit
 from .seeds import X_AXIS_Y, X_AXIS_Z, XZ, XZ_PLANAR
 
@@ -53,6 +53,32 @@ RTOL = ATOL = 1e-13
 
 @dataclass(frozen=True)
 class Symmetry:
+    """A symmetry type of the corrector: free initial components, zero components at T/2, mirror.
+
+    Parameters
+    ----------
+    name : str
+        ``"xz"`` or ``"x-axis"``.
+    free : tuple of int
+        Indices of the initial-state components the corrector may change.
+    targets : tuple of int
+        Indices of the components that must vanish at the half period.
+    mirror : ndarray, shape (6, 6)
+        The reflection ``G`` of the symmetry (see :mod:`cr3bp.orbits.stability`).
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (symmetric single shooting with the state transition matrix).
+    .. [2] A. E. Roy and M. W. Ovenden, "On the occurrence of commensurable mean motions in the
+       solar system: the mirror theorem", *Mon. Not. R. Astron. Soc.* 115, 1955 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.shooting import symmetry
+    >>> symmetry("xz").free, symmetry("xz").targets
+    ((0, 2, 4), (1, 3, 5))
+    """
     name: str
     free: tuple
     targets: tuple
@@ -79,6 +105,35 @@ COMPONENTS = {"x": 0, "y": 1, "z": 2, "vx": 3, "vy": 4, "vz": 5}
 
 
 def symmetry(kind) -> Symmetry:
+    """The :class:`Symmetry` of a symmetry type name.
+
+    Parameters
+    ----------
+    kind : str or Symmetry
+        ``"xz"``, ``"xz-planar"``, ``"x-axis"``, ``"x-axis/y"`` or ``"x-axis/z"``.
+
+    Returns
+    -------
+    Symmetry
+
+    Raises
+    ------
+    InputError
+        Unknown name.
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (symmetric single shooting with the state transition matrix).
+    .. [2] A. E. Roy and M. W. Ovenden, "On the occurrence of commensurable mean motions in the
+       solar system: the mirror theorem", *Mon. Not. R. Astron. Soc.* 115, 1955 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.shooting import symmetry
+    >>> symmetry("x-axis/z").name
+    'x-axis'
+    """
     if isinstance(kind, Symmetry):
         return kind
     if kind not in SYMMETRIES:
@@ -87,6 +142,36 @@ def symmetry(kind) -> Symmetry:
 
 
 def pack(sym: Symmetry, state, tau) -> np.ndarray:
+    """The corrector's unknowns ``X = (free components of state, tau)``.
+
+    Parameters
+    ----------
+    sym : Symmetry
+    state : array_like, shape (6,)
+    tau : float
+        Half period (TU).
+
+    Returns
+    -------
+    ndarray
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (symmetric single shooting with the state transition matrix).
+    .. [2] A. E. Roy and M. W. Ovenden, "On the occurrence of commensurable mean motions in the
+       solar system: the mirror theorem", *Mon. Not. R. Astron. Soc.* 115, 1955 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.shooting import pack, symmetry
+    >>> pack(symmetry("xz-planar"), [0.8, 0, 0, 0, 0.1, 0], 1.5).tolist()
+    [0.8, 0.1, 1.5]
+    """
     s = np.asarray(state, dtype=float)
     X = np.empty(len(sym.free) + 1)
     X[:-1] = s[sym.free_idx]
@@ -95,6 +180,38 @@ def pack(sym: Symmetry, state, tau) -> np.ndarray:
 
 
 def unpack(sym: Symmetry, X) -> tuple[np.ndarray, float]:
+    """The initial state and half period from the corrector's unknowns (inverse of :func:`pack`).
+
+    Parameters
+    ----------
+    sym : Symmetry
+    X : array_like
+        Unknowns ``(free components, tau)``.
+
+    Returns
+    -------
+    state : ndarray, shape (6,)
+        Components that are not free are zero.
+    tau : float
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (symmetric single shooting with the state transition matrix).
+    .. [2] A. E. Roy and M. W. Ovenden, "On the occurrence of commensurable mean motions in the
+       solar system: the mirror theorem", *Mon. Not. R. Astron. Soc.* 115, 1955 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.shooting import unpack, symmetry
+    >>> s, tau = unpack(symmetry("xz-planar"), [0.8, 0.1, 1.5])
+    >>> s.tolist(), tau
+    ([0.8, 0.0, 0.0, 0.0, 0.1, 0.0], 1.5)
+    """
     s = np.zeros(6)
     s[sym.free_idx] = X[:-1]
     return s, float(X[-1])
@@ -104,8 +221,31 @@ def unpack(sym: Symmetry, X) -> tuple[np.ndarray, float]:
 class Constraint:
     """The extra scalar condition closing the Newton system.
 
-    kind: "fix" (component ``index`` of the initial state = value), "jacobi", "period",
-    or "arclength" (``(X - X_ref) . tangent = value``).
+    Parameters
+    ----------
+    kind : str
+        ``"fix"`` (component ``index`` of the initial state = value), ``"jacobi"``, ``"period"``,
+        or ``"arclength"`` (``(X - X_ref) . tangent = value``).
+    value : float
+    index : int
+        Component index for ``"fix"``.
+    ref, tangent : ndarray, optional
+        Reference unknowns and unit tangent for ``"arclength"``.
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (symmetric single shooting with the state transition matrix).
+    .. [2] A. E. Roy and M. W. Ovenden, "On the occurrence of commensurable mean motions in the
+       solar system: the mirror theorem", *Mon. Not. R. Astron. Soc.* 115, 1955 (from memory).
+    .. [3] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems",
+       in *Applications of Bifurcation Theory*, Academic Press, 1977 (pseudo-arclength).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.shooting import fix
+    >>> fix("z", 0.01).index
+    2
     """
 
     kind: str
@@ -116,22 +256,140 @@ class Constraint:
 
 
 def fix(component: str, value: float) -> Constraint:
+    """Hold one initial-state component at ``value``.
+
+    Parameters
+    ----------
+    component : str
+        ``"x"``, ``"y"``, ``"z"``, ``"vx"``, ``"vy"`` or ``"vz"``.
+    value : float
+
+    Returns
+    -------
+    Constraint
+
+    Raises
+    ------
+    InputError
+        Unknown component.
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (symmetric single shooting with the state transition matrix).
+    .. [2] A. E. Roy and M. W. Ovenden, "On the occurrence of commensurable mean motions in the
+       solar system: the mirror theorem", *Mon. Not. R. Astron. Soc.* 115, 1955 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.shooting import fix
+    >>> fix("w", 1.0)
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: cannot hold 'w' fixed; allowed: x, y, z, vx, vy, vz
+    """
     if component not in COMPONENTS:
         raise InputError(f"cannot hold '{component}' fixed; allowed: {', '.join(COMPONENTS)}")
     return Constraint("fix", float(value), COMPONENTS[component])
 
 
 def hold_jacobi(value: float) -> Constraint:
+    """Hold the Jacobi constant at ``value``.
+
+    Parameters
+    ----------
+    value : float
+
+    Returns
+    -------
+    Constraint
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (symmetric single shooting with the state transition matrix).
+    .. [2] A. E. Roy and M. W. Ovenden, "On the occurrence of commensurable mean motions in the
+       solar system: the mirror theorem", *Mon. Not. R. Astron. Soc.* 115, 1955 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.shooting import hold_jacobi
+    >>> hold_jacobi(3.15).kind
+    'jacobi'
+    """
     return Constraint("jacobi", float(value))
 
 
 def hold_period(value: float) -> Constraint:
+    """Hold the period at ``value`` (TU).
+
+    Parameters
+    ----------
+    value : float
+        Positive.
+
+    Returns
+    -------
+    Constraint
+
+    Raises
+    ------
+    InputError
+        ``value`` not positive.
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (symmetric single shooting with the state transition matrix).
+    .. [2] A. E. Roy and M. W. Ovenden, "On the occurrence of commensurable mean motions in the
+       solar system: the mirror theorem", *Mon. Not. R. Astron. Soc.* 115, 1955 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.shooting import hold_period
+    >>> hold_period(3.0).value
+    3.0
+    """
     if not value > 0:
         raise InputError(f"period {value!r} must be positive")
     return Constraint("period", float(value))
 
 
 def arclength(ref, tangent, ds) -> Constraint:
+    """The pseudo-arclength condition ``(X - ref) . tangent = ds``.
+
+    Parameters
+    ----------
+    ref : array_like
+        Unknowns of the previous member.
+    tangent : array_like
+        Unit tangent of the family there.
+    ds : float
+        Step along the tangent.
+
+    Returns
+    -------
+    Constraint
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [3] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems",
+       in *Applications of Bifurcation Theory*, Academic Press, 1977 (pseudo-arclength).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.shooting import arclength
+    >>> arclength([0.8, 0.1, 1.5], [1.0, 0.0, 0.0], 1e-3).kind
+    'arclength'
+    """
     return Constraint("arclength", float(ds), -1, np.asarray(ref, float), np.asarray(tangent, float))
 
 
@@ -161,7 +419,47 @@ def _extra_row(system, sym, c: Constraint, X):
 
 
 def half_residual(system, sym: Symmetry, X):
-    """(F, dF/dX, arc) of the half-period conditions at unknowns ``X``."""
+    """Half-period conditions, their Jacobian and the half-period arc at unknowns ``X``.
+
+    Parameters
+    ----------
+    system : System
+    sym : Symmetry
+    X : ndarray
+        Unknowns (see :func:`pack`).
+
+    Returns
+    -------
+    F : ndarray
+        Target components at the half period.
+    D : ndarray
+        dF/dX from the state transition matrix and the vector field.
+    arc : Arc
+        The half-period propagation.
+
+    Raises
+    ------
+    ConvergenceError
+        Half period not positive, or the propagation stopped early.
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (symmetric single shooting with the state transition matrix).
+    .. [2] A. E. Roy and M. W. Ovenden, "On the occurrence of commensurable mean motions in the
+       solar system: the mirror theorem", *Mon. Not. R. Astron. Soc.* 115, 1955 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 1e-3)
+    >>> sym = shooting.symmetry("xz-planar")
+    >>> F, D, arc = shooting.half_residual(em, sym, shooting.pack(sym, sd.state, sd.half_period))
+    >>> D.shape
+    (2, 3)
+    """
     D = np.empty((len(sym.targets), len(X)))
     F, arc = _residual_into(system, sym, X, D)
     return F, D, arc
@@ -185,12 +483,71 @@ def _residual_into(system, sym: Symmetry, X, D):
 
 
 def jacobian(system, sym, X):
-    """dF/dX (len(targets) x len(X)) at ``X``; its null vector is the family tangent."""
+    """dF/dX of the half-period conditions at ``X``; its null vector is the family tangent.
+
+    Parameters
+    ----------
+    system : System
+    sym : Symmetry
+    X : ndarray
+
+    Returns
+    -------
+    ndarray, shape (len(targets), len(X))
+
+    Raises
+    ------
+    ConvergenceError
+        As :func:`half_residual`.
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (symmetric single shooting with the state transition matrix).
+    .. [2] A. E. Roy and M. W. Ovenden, "On the occurrence of commensurable mean motions in the
+       solar system: the mirror theorem", *Mon. Not. R. Astron. Soc.* 115, 1955 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 1e-3)
+    >>> sym = shooting.symmetry("xz-planar")
+    >>> shooting.jacobian(em, sym, shooting.pack(sym, sd.state, sd.half_period)).shape
+    (2, 3)
+    """
     return half_residual(system, sym, X)[1]
 
 
 def null_tangent(D: np.ndarray) -> np.ndarray:
-    """Unit null vector of the (n-1) x n matrix D (last right singular vector)."""
+    """Unit null vector of an (n-1) x n matrix (its last right singular vector).
+
+    Parameters
+    ----------
+    D : ndarray, shape (n - 1, n)
+
+    Returns
+    -------
+    ndarray, shape (n,)
+
+    Raises
+    ------
+    numpy.linalg.LinAlgError
+        When the singular value decomposition does not converge.
+
+    References
+    ----------
+    .. [3] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems",
+       in *Applications of Bifurcation Theory*, Academic Press, 1977 (pseudo-arclength).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.orbits.shooting import null_tangent
+    >>> np.abs(null_tangent(np.array([[1.0, 0.0, 0.0], [0.0, 1.0, 0.0]]))).tolist()
+    [0.0, 0.0, 1.0]
+    """
     _, _, vt = np.linalg.svd(D)
     t = vt[-1]
     return t / np.linalg.norm(t)
@@ -199,11 +556,48 @@ def null_tangent(D: np.ndarray) -> np.ndarray:
 def newton(system, sym, X0, constraint: Constraint, tol=HALF_TOL, max_iter=MAX_ITER):
     """Damped Newton iteration on the half-period conditions plus ``constraint``.
 
-    Returns (X, iterations, residual history, (last half-period arc, dF/dX at X)).
-    Raises ConvergenceError with iterations, residuals and the last iterate.
-
     The Jacobian ``J = [dF/dX; constraint row]`` and the residual ``R = [F; g]`` live in two
     arrays allocated once per call; each iteration overwrites them in place.
+
+    Parameters
+    ----------
+    system : System
+    sym : Symmetry
+    X0 : array_like
+        Initial unknowns.
+    constraint : Constraint
+    tol : float
+        Residual norm at which the iteration stops.
+    max_iter : int
+
+    Returns
+    -------
+    tuple
+        ``(X, iterations, residual history, (last half-period arc, dF/dX at X))``.
+
+    Raises
+    ------
+    ConvergenceError
+        With iterations, residuals and the last iterate.
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (symmetric single shooting with the state transition matrix).
+    .. [2] A. E. Roy and M. W. Ovenden, "On the occurrence of commensurable mean motions in the
+       solar system: the mirror theorem", *Mon. Not. R. Astron. Soc.* 115, 1955 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 1e-3)
+    >>> sym = shooting.symmetry("xz-planar")
+    >>> X0 = shooting.pack(sym, sd.state, sd.half_period)
+    >>> X, it, history, _ = shooting.newton(em, sym, X0, shooting.fix("x", sd.state[0]))
+    >>> history[-1] < 1e-10
+    True
     """
     X = np.array(X0, dtype=float)
     n = len(X)
@@ -242,8 +636,47 @@ def newton(system, sym, X0, constraint: Constraint, tol=HALF_TOL, max_iter=MAX_I
 
 def locate_half_period(system, state, coordinate: str, crossings: int = 1, t_max: float = 50.0,
                        direction: int = 0):
-    """Time of the ``crossings``-th crossing of ``coordinate = 0`` (in ``direction``) from ``state``
-    (a seed refinement)."""
+    """Time of the ``crossings``-th crossing of ``coordinate = 0`` from ``state``.
+
+    Parameters
+    ----------
+    system : System
+    state : array_like, shape (6,)
+    coordinate : str
+        ``"x"``, ``"y"``, ``"z"``, ...
+    crossings : int
+        Which crossing.
+    t_max : float
+        Longest propagation (TU).
+    direction : int
+        +1, -1 or 0 (either way).
+
+    Returns
+    -------
+    float
+        Time (TU).
+
+    Raises
+    ------
+    ConvergenceError
+        No crossing within ``t_max``.
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (symmetric single shooting with the state transition matrix).
+    .. [2] A. E. Roy and M. W. Ovenden, "On the occurrence of commensurable mean motions in the
+       solar system: the mirror theorem", *Mon. Not. R. Astron. Soc.* 115, 1955 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_vertical(em.mu, "L1", 1e-3)
+    >>> abs(shooting.locate_half_period(em, sd.state, "z", direction=-1) - sd.half_period) < 0.01
+    True
+    """
     ev = plane(coordinate, 0.0, direction, terminal=True, count=crossings)
     arc = propagate(system, state, t_max, events=[ev], rtol=1e-10, atol=1e-10)
     if arc.status != "event":
@@ -253,12 +686,57 @@ def locate_half_period(system, state, coordinate: str, crossings: int = 1, t_max
 
 def finish(system, sym, X, iterations, history, family="", point="", branch="",
            extra=None, check=True, half_stm=None) -> PeriodicOrbit:
-    """Build the PeriodicOrbit at converged ``X``.
+    """Build the PeriodicOrbit at converged unknowns ``X``.
 
     * Monodromy from the half-period STM at ``X`` (``half_stm``, or propagated when not given)
       with the mirror relation (:func:`cr3bp.orbits.stability.monodromy_from_half`).
     * Periodicity error ``|s(T) - s(0)|`` from an independent propagation of the state over the
       full period (no symmetry used), which also gives the samples for the geometry.
+
+    Parameters
+    ----------
+    system : System
+    sym : Symmetry
+    X : ndarray
+        Converged unknowns.
+    iterations : int
+    history : list of float
+        Residual norms of the iteration.
+    family, point, branch : str
+        Labels of the orbit.
+    extra : dict, optional
+        Added to ``orbit.extra``.
+    check : bool
+        Refuse an orbit whose periodicity error exceeds :data:`PERIODICITY_TOL`.
+    half_stm : ndarray, optional
+
+    Returns
+    -------
+    PeriodicOrbit
+
+    Raises
+    ------
+    ConvergenceError
+        Periodicity error too large (with ``check``).
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (symmetric single shooting with the state transition matrix).
+    .. [2] A. E. Roy and M. W. Ovenden, "On the occurrence of commensurable mean motions in the
+       solar system: the mirror theorem", *Mon. Not. R. Astron. Soc.* 115, 1955 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 1e-3)
+    >>> sym = shooting.symmetry("xz-planar")
+    >>> X, it, hist, _ = shooting.newton(em, sym, shooting.pack(sym, sd.state, sd.half_period),
+    ...                                  shooting.fix("x", sd.state[0]))
+    >>> shooting.finish(em, sym, X, it, hist).periodicity_error < 1e-10
+    True
     """
     s0, tau = unpack(sym, X)
     T = 2.0 * tau
@@ -285,7 +763,7 @@ def finish(system, sym, X, iterations, history, family="", point="", branch="",
           "half_period_residual": history[-1] if history else float("nan")}
     if note:
         ex["periodicity_note"] = note
-    if family == "resonant":
+    if recipes.measures_winding(family):
         # turns about the larger primary: with the period, the measured p:q (orbit.period_ratio)
         ex["winding_larger"] = geometry.winding_about_larger(system, arc)
     ex.update(extra or {})
@@ -301,19 +779,46 @@ def correct(system, state, half_period, kind=XZ, hold: Constraint | None = None,
     Parameters
     ----------
     system : System
-    state : (6,) initial guess on the symmetry plane/axis (components that must be zero are zeroed)
-    half_period : float, guess of T/2 (TU)
-    kind : "xz", "xz-planar" or "x-axis" (see module table)
-    hold : Constraint, what is held fixed: :func:`fix` ("x", "z", "vz", ...), :func:`hold_jacobi`,
+    state : array_like, shape (6,)
+        Initial guess on the symmetry plane/axis (components that must be zero are zeroed).
+    half_period : float
+        Guess of T/2 (TU).
+    kind : str
+        ``"xz"``, ``"xz-planar"`` or ``"x-axis"`` (see module table).
+    hold : Constraint, optional
+        What is held fixed: :func:`fix` (``"x"``, ``"z"``, ``"vz"``, ...), :func:`hold_jacobi`,
         :func:`hold_period`. Default: the initial x.
+    family, point, branch : str
+        Labels of the orbit.
+    tol : float
+    max_iter : int
 
     Returns
     -------
-    PeriodicOrbit (periodicity error < 1e-10 checked over a full period)
+    PeriodicOrbit
+        Periodicity error < 1e-10 checked over a full period.
 
     Raises
     ------
-    ConvergenceError with iterations, residual history and the last state.
+    ConvergenceError
+        With iterations, residual history and the last state.
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (symmetric single shooting with the state transition matrix).
+    .. [2] A. E. Roy and M. W. Ovenden, "On the occurrence of commensurable mean motions in the
+       solar system: the mirror theorem", *Mon. Not. R. Astron. Soc.* 115, 1955 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 1e-3)
+    >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry)
+    >>> round(orbit.period, 4), orbit.periodicity_error < 1e-10
+    (2.6918, True)
     """
     sym = symmetry(kind)
     X0 = pack(sym, state, half_period)
