@@ -133,9 +133,13 @@ class Catalog:
 
     Examples
     --------
-    >>> cat = Catalog(":memory:")                       # doctest: +SKIP
-    >>> fid = cat.begin_family(system, "halo", "L2", "south", {"step": 1e-3})
-    >>> cat.add_members(fid, [{"index": 0, "state": [...], "period": 3.4}])
+    >>> from cr3bp.systems import system
+    >>> cat = Catalog(":memory:")
+    >>> fid = cat.begin_family(system("earth-moon"), "halo", "L2", "south", {"step": 1e-3})
+    >>> cat.add_members(fid, [{"index": 0, "state": [1.18, 0, -0.004, 0, -0.156, 0], "period": 3.4}])
+    >>> cat.finish_family(fid, [])
+    >>> len(cat.family(fid)["members"])
+    1
     """
 
     def __init__(self, path=None):

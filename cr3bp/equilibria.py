@@ -382,7 +382,7 @@ def lagrange_points(system) -> list[LagrangePoint]:
     Examples
     --------
     >>> from cr3bp import system
-    >>> round(lagrange_points(system("earth-moon"))[0].position[0], 4)
+    >>> round(float(lagrange_points(system("earth-moon"))[0].position[0]), 4)
     0.8369
     """
     return [_point(system, n) for n in NAMES]

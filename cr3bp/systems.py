@@ -25,7 +25,30 @@ from .errors import InputError, UnknownSystemError, shown
 
 @dataclass(frozen=True)
 class Body:
-    """A primary: name, GM (km^3/s^2), mean radius (km) and where the numbers come from."""
+    """A primary: name, GM, mean radius and where the numbers come from.
+
+    Parameters
+    ----------
+    name : str
+        Body name as tabulated in ``data/systems.toml`` (``"moon"``).
+    gm_km3_s2 : float
+        Gravitational parameter GM (km^3/s^2).
+    radius_km : float
+        Mean radius (km).
+    source : str
+        Where GM and radius come from (the data file names its published source).
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits: The Restricted Problem of Three Bodies*, Academic
+       Press, 1967, ch. 1 (the nondimensional units and the rotating frame; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import body
+    >>> body("moon").radius_km
+    1737.4
+    """
 
     name: str
     gm_km3_s2: float
@@ -40,6 +63,33 @@ class System:
     Build one with :func:`system`. A system defined by ``mu`` alone has no dimensional units
     unless ``length_km`` and ``time_s`` are given; then ``dimensional`` is False and every
     dimensional conversion raises :class:`~cr3bp.errors.InputError`.
+
+    Parameters
+    ----------
+    name : str
+        System name (``"earth-moon"``) or ``"custom"``.
+    mu : float
+        Mass ratio ``GM2 / (GM1 + GM2)`` in (0, 0.5].
+    length_km : float
+        Length unit LU, the distance between the primaries (km); NaN when not dimensional.
+    time_s : float
+        Time unit TU, ``sqrt(LU^3 / (GM1 + GM2))`` (s); NaN when not dimensional.
+    primary, secondary : Body, optional
+        The larger and the smaller primary.
+    source : str
+        Where the distance comes from.
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits: The Restricted Problem of Three Bodies*, Academic
+       Press, 1967, ch. 1 (the nondimensional units and the rotating frame; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> em = system("earth-moon")
+    >>> em.dimensional, round(em.km(1.0))
+    (True, 384400)
     """
 
     name: str
@@ -146,7 +196,33 @@ def _data() -> dict:
 
 
 def body(name: str) -> Body:
-    """A body of ``data/systems.toml`` by name."""
+    """A body of ``data/systems.toml`` by name.
+
+    Parameters
+    ----------
+    name : str
+        Body name (``"earth"``, ``"moon"``, ...).
+
+    Returns
+    -------
+    Body
+
+    Raises
+    ------
+    InputError
+        ``name`` is not tabulated (the message suggests the nearest names).
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits: The Restricted Problem of Three Bodies*, Academic
+       Press, 1967, ch. 1 (the nondimensional units and the rotating frame; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import body
+    >>> body("moon").gm_km3_s2
+    4902.800066
+    """
     bodies = _data()["bodies"]
     if name not in bodies:
         near = difflib.get_close_matches(name, list(bodies), n=3)
@@ -157,13 +233,69 @@ def body(name: str) -> Body:
 
 
 def system_names() -> list[str]:
-    """Names of the tabulated systems, in table order."""
+    """Names of the tabulated systems, in table order.
+
+    Returns
+    -------
+    list of str
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits: The Restricted Problem of Three Bodies*, Academic
+       Press, 1967, ch. 1 (the nondimensional units and the rotating frame; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system_names
+    >>> "earth-moon" in system_names()
+    True
+    """
     return list(_data()["systems"])
 
 
 def from_gms(gm1: float, gm2: float, distance_km: float, name: str = "custom",
              primary: Body | None = None, secondary: Body | None = None, source: str = "") -> System:
-    """A system from two GMs (km^3/s^2) and the distance between the primaries (km)."""
+    """A system from two GMs and the distance between the primaries.
+
+    ``mu = GM2 / (GM1 + GM2)``, ``LU = distance``, ``TU = sqrt(LU^3 / (GM1 + GM2))``.
+
+    Parameters
+    ----------
+    gm1, gm2 : float
+        Gravitational parameters of the larger and the smaller primary (km^3/s^2).
+    distance_km : float
+        Distance between the primaries (km).
+    name : str
+        Name of the system.
+    primary, secondary : Body, optional
+    source : str
+        Where the numbers come from.
+
+    Returns
+    -------
+    System
+
+    Raises
+    ------
+    InputError
+        A value that is not a positive finite number, or ``gm2 > gm1``.
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits: The Restricted Problem of Three Bodies*, Academic
+       Press, 1967, ch. 1 (the nondimensional units and the rotating frame; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import from_gms
+    >>> s = from_gms(398600.4418, 4902.8, 384400.0)
+    >>> round(s.mu, 6), round(s.time_s)
+    (0.012151, 375190)
+    """
     for label, v in (("gm1", gm1), ("gm2", gm2), ("distance_km", distance_km)):
         if not (isinstance(v, (int, float)) and math.isfinite(v) and v > 0):
             raise InputError(f"{label} = {v!r} must be a positive finite number")
@@ -176,7 +308,36 @@ def from_gms(gm1: float, gm2: float, distance_km: float, name: str = "custom",
 
 def from_mu(mu: float, length_km: float | None = None, time_s: float | None = None,
             name: str = "custom") -> System:
-    """A system from the mass ratio alone, optionally with dimensional units."""
+    """A system from the mass ratio alone, optionally with dimensional units.
+
+    Parameters
+    ----------
+    mu : float
+        Mass ratio in (0, 0.5].
+    length_km, time_s : float, optional
+        Both or neither: the dimensional units.
+    name : str
+
+    Returns
+    -------
+    System
+
+    Raises
+    ------
+    InputError
+        ``mu`` out of range, one unit without the other, or a unit that is not positive.
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits: The Restricted Problem of Three Bodies*, Academic
+       Press, 1967, ch. 1 (the nondimensional units and the rotating frame; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import from_mu
+    >>> from_mu(0.01).dimensional
+    False
+    """
     check_mu(mu)
     if (length_km is None) != (time_s is None):
         raise InputError("give both length_km and time_s for a custom system, or neither")
@@ -189,6 +350,35 @@ def from_mu(mu: float, length_km: float | None = None, time_s: float | None = No
 
 
 def check_mu(mu) -> None:
+    """Refuse a mass ratio outside (0, 0.5].
+
+    Parameters
+    ----------
+    mu : float
+        Mass ratio (the smaller primary's share of the total mass).
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    InputError
+        Naming the value when it is not a number in (0, 0.5].
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits: The Restricted Problem of Three Bodies*, Academic
+       Press, 1967, ch. 1 (the nondimensional units and the rotating frame; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import check_mu
+    >>> check_mu(0.6)
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: mu = 0.6 is outside the allowed range (0, 0.5]
+    """
     try:
         ok = math.isfinite(float(mu)) and 0.0 < float(mu) <= 0.5
     except (TypeError, ValueError):
@@ -210,6 +400,10 @@ def system(name: str | None = None, *, mu: float | None = None, length_km: float
     length_km, time_s : float, optional
         Dimensional units of a custom system.
 
+    Returns
+    -------
+    System
+
     Raises
     ------
     UnknownSystemError
@@ -217,8 +411,14 @@ def system(name: str | None = None, *, mu: float | None = None, length_km: float
     InputError
         ``mu`` is out of range, or both or neither of ``name`` and ``mu`` are given.
 
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits: The Restricted Problem of Three Bodies*, Academic
+       Press, 1967, ch. 1 (the nondimensional units and the rotating frame; from memory).
+
     Examples
     --------
+    >>> from cr3bp.systems import system
     >>> round(system("earth-moon").mu, 6)
     0.012151
     """

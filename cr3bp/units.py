@@ -40,7 +40,31 @@ _PATTERN = re.compile(rf"^\s*({_NUMBER})\s*([A-Za-z/]*)\s*$", re.ASCII)
 
 @dataclass(frozen=True)
 class Quantity:
-    """A parsed number with its unit and dimension (``length``, ``time``, ``velocity`` or ``none``)."""
+    """A parsed number with its unit and dimension.
+
+    Parameters
+    ----------
+    value : float
+        The number as written.
+    unit : str
+        The unit as written (``"km"``), ``""`` for a bare number.
+    dimension : str
+        ``"length"``, ``"time"``, ``"velocity"`` or ``"none"``.
+
+    References
+    ----------
+    .. [1] Bureau International des Poids et Mesures, *The International System of Units (SI)*,
+       9th edition, 2019 (the units m, s, min, h, d; the Julian year of 365.25 d is the IAU's;
+       from memory).
+    .. [2] V. Szebehely, *Theory of Orbits*, Academic Press, 1967, ch. 1 (the nondimensional
+       units LU and TU; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.units import parse
+    >>> parse("450m/s").si()
+    0.45
+    """
 
     value: float
     unit: str
@@ -79,10 +103,32 @@ def parse(text: str, dimension: str | None = None, default_unit: str | None = No
         Unit assumed when ``text`` is a bare number. Without it a bare number is an error
         when ``dimension`` is given (no silent guess of units).
 
+    Returns
+    -------
+    Quantity
+
     Raises
     ------
     UnitError
         Malformed text, an unknown unit, a non-finite number or the wrong dimension.
+
+    References
+    ----------
+    .. [1] Bureau International des Poids et Mesures, *The International System of Units (SI)*,
+       9th edition, 2019 (the units m, s, min, h, d; the Julian year of 365.25 d is the IAU's;
+       from memory).
+    .. [2] V. Szebehely, *Theory of Orbits*, Academic Press, 1967, ch. 1 (the nondimensional
+       units LU and TU; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.units import parse
+    >>> parse("6.56 d")
+    Quantity(value=6.56, unit='d', dimension='time')
+    >>> parse("3km", "time")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.UnitError: '3km' is a length, but a time is needed (s, min, h, d, yr, TU)
     """
     if isinstance(text, (int, float)) and not isinstance(text, bool):
         try:
@@ -115,19 +161,160 @@ def parse(text: str, dimension: str | None = None, default_unit: str | None = No
 
 
 def units_of(dimension: str) -> list[str]:
+    """The units understood for a dimension, in table order.
+
+    Parameters
+    ----------
+    dimension : str
+        ``"length"``, ``"time"`` or ``"velocity"``.
+
+    Returns
+    -------
+    list of str
+        Empty for an unknown dimension.
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] Bureau International des Poids et Mesures, *The International System of Units (SI)*,
+       9th edition, 2019 (the units m, s, min, h, d; the Julian year of 365.25 d is the IAU's;
+       from memory).
+    .. [2] V. Szebehely, *Theory of Orbits*, Academic Press, 1967, ch. 1 (the nondimensional
+       units LU and TU; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.units import units_of
+    >>> units_of("velocity")
+    ['m/s', 'km/s', 'VU', 'LU/TU']
+    """
     return [u for u, (d, _) in _UNITS.items() if d == dimension]
 
 
 def length(text, system, default_unit=None) -> float:
-    """Parse a length and return it in LU."""
+    """Parse a length and return it in LU of ``system``.
+
+    Parameters
+    ----------
+    text : str or float
+        A length with its unit (see :func:`parse`).
+    system : System
+        Gives the units; must be dimensional unless the unit is LU.
+    default_unit : str, optional
+        Unit of a bare number (none: a bare number is refused).
+
+    Returns
+    -------
+    float
+        The length in LU.
+
+    Raises
+    ------
+    UnitError
+        Malformed text, unknown unit or wrong dimension.
+    InputError
+        A dimensional unit with a system that has no dimensional units.
+
+    References
+    ----------
+    .. [1] Bureau International des Poids et Mesures, *The International System of Units (SI)*,
+       9th edition, 2019 (the units m, s, min, h, d; the Julian year of 365.25 d is the IAU's;
+       from memory).
+    .. [2] V. Szebehely, *Theory of Orbits*, Academic Press, 1967, ch. 1 (the nondimensional
+       units LU and TU; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.units import length
+    >>> length("384400km", system("earth-moon"))
+    1.0
+    """
     return parse(text, "length", default_unit).nondim(system)
 
 
 def time(text, system, default_unit=None) -> float:
-    """Parse a time and return it in TU."""
+    """Parse a time and return it in TU of ``system``.
+
+    Parameters
+    ----------
+    text : str or float
+        A time with its unit (see :func:`parse`).
+    system : System
+        Gives the units; must be dimensional unless the unit is TU.
+    default_unit : str, optional
+        Unit of a bare number (none: a bare number is refused).
+
+    Returns
+    -------
+    float
+        The time in TU.
+
+    Raises
+    ------
+    UnitError
+        Malformed text, unknown unit or wrong dimension.
+    InputError
+        A dimensional unit with a system that has no dimensional units.
+
+    References
+    ----------
+    .. [1] Bureau International des Poids et Mesures, *The International System of Units (SI)*,
+       9th edition, 2019 (the units m, s, min, h, d; the Julian year of 365.25 d is the IAU's;
+       from memory).
+    .. [2] V. Szebehely, *Theory of Orbits*, Academic Press, 1967, ch. 1 (the nondimensional
+       units LU and TU; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.units import time
+    >>> round(time("1d", system("earth-moon")), 6)
+    0.230283
+    """
     return parse(text, "time", default_unit).nondim(system)
 
 
 def velocity(text, system, default_unit=None) -> float:
-    """Parse a velocity and return it in LU/TU."""
+    """Parse a velocity and return it in LU/TU of ``system``.
+
+    Parameters
+    ----------
+    text : str or float
+        A velocity with its unit (see :func:`parse`).
+    system : System
+        Gives the units; must be dimensional unless the unit is LU/TU.
+    default_unit : str, optional
+        Unit of a bare number (none: a bare number is refused).
+
+    Returns
+    -------
+    float
+        The velocity in LU/TU.
+
+    Raises
+    ------
+    UnitError
+        Malformed text, unknown unit or wrong dimension.
+    InputError
+        A dimensional unit with a system that has no dimensional units.
+
+    References
+    ----------
+    .. [1] Bureau International des Poids et Mesures, *The International System of Units (SI)*,
+       9th edition, 2019 (the units m, s, min, h, d; the Julian year of 365.25 d is the IAU's;
+       from memory).
+    .. [2] V. Szebehely, *Theory of Orbits*, Academic Press, 1967, ch. 1 (the nondimensional
+       units LU and TU; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.units import velocity
+    >>> round(velocity("1km/s", system("earth-moon")), 6)
+    0.976041
+    """
     return parse(text, "velocity", default_unit).nondim(system)

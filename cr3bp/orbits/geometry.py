@@ -50,11 +50,46 @@ EXTREME_EVENTS = tuple(plane(c, 0.0, 0, terminal=False, label=f"{c}=0") for c in
 
 
 def extremes(system, arc):
-    """(amplitude_lu (Ax, Ay, Az), closest_approach_lu (d1, d2)) of a full-period arc that was
-    propagated with ``events=EXTREME_EVENTS``.
+    """Amplitudes and closest approaches of a full-period arc.
 
-    Ax, Ay: half the extent in x, y; Az: the largest |z|; d1, d2: least distance to the larger
-    and the smaller primary (conventions in :mod:`cr3bp.orbits.orbit`).
+    The arc must have been propagated with ``events=EXTREME_EVENTS``. Ax, Ay: half the extent in
+    x, y; Az: the largest |z|; d1, d2: least distance to the larger and the smaller primary
+    (conventions in :mod:`cr3bp.orbits.orbit`), refined at the located stationary points.
+
+    Parameters
+    ----------
+    system : System
+    arc : Arc
+        Full-period propagation with the extreme events.
+
+    Returns
+    -------
+    amplitude_lu : tuple of float
+        (Ax, Ay, Az) in LU.
+    closest_approach_lu : tuple of float
+        (d1, d2) in LU.
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits*, Academic Press, 1967 (the rotating frame and the
+       primaries' positions; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.integrate import propagate
+    >>> from cr3bp.orbits import geometry, seeds, shooting
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 1e-3)
+    >>> o = shooting.correct(em, sd.state, sd.half_period, sd.symmetry)
+    >>> arc = propagate(em, o.state, o.period, events=geometry.EXTREME_EVENTS)
+    >>> amp, near = geometry.extremes(em, arc)
+    >>> bool(round(amp[0], 5) == round(o.amplitude_lu[0], 5))
+    True
     """
     s = arc.states
     t = arc.t
@@ -109,11 +144,43 @@ def _stationary_minimum(mu, state, xc):
 
 
 def winding_about_larger(system, arc) -> int:
-    """Whole turns (signed, counter-clockwise positive) of the rotating-frame position about the
-    larger primary over a closed full-period arc: the angle ``atan2(y, x + mu)`` unwrapped
-    along the integrator's accepted steps (re-sampled on a fine grid when a step turns by more
-    than a quarter turn). For a p:q resonant orbit it is ``p - q``: in one period ``T = 2 pi q``
-    the spacecraft turns ``2 pi p`` in inertial space and the frame ``2 pi q``."""
+    """Whole turns of the rotating-frame position about the larger primary over one period.
+
+    Signed, counter-clockwise positive: the angle ``atan2(y, x + mu)`` unwrapped along the
+    integrator's accepted steps (re-sampled on a fine grid when a step turns by more than a
+    quarter turn). For a p:q resonant orbit it is ``p - q``: in one period ``T = 2 pi q`` the
+    spacecraft turns ``2 pi p`` in inertial space and the frame ``2 pi q``.
+
+    Parameters
+    ----------
+    system : System
+    arc : Arc
+        A closed full-period arc.
+
+    Returns
+    -------
+    int
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011 (resonant orbits in the rotating frame).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.integrate import propagate
+    >>> from cr3bp.orbits import geometry, seeds, shooting
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 1e-3)
+    >>> o = shooting.correct(em, sd.state, sd.half_period, sd.symmetry)
+    >>> geometry.winding_about_larger(em, propagate(em, o.state, o.period))  # L1 orbit: Earth not enclosed
+    0
+    """
     s = arc.states
     ang = np.unwrap(np.arctan2(s[:, 1], s[:, 0] + system.mu))
     if len(ang) < 2 or np.max(np.abs(np.diff(ang))) > 0.5 * math.pi:

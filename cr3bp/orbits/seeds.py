@@ -40,7 +40,30 @@ X_AXIS_Z = "x-axis/z"  # symmetric about the x axis, half period ends on z = 0 (
 
 @dataclass(frozen=True)
 class Seed:
-    """An initial guess: state, half-period guess (TU), symmetry type, and a description."""
+    """An initial guess for the corrector.
+
+    Parameters
+    ----------
+    state : ndarray, shape (6,)
+        Initial state on the symmetry plane or axis (nondimensional, rotating frame).
+    half_period : float
+        Guess of half the period (TU).
+    symmetry : str
+        Symmetry type the corrector should use (:data:`XZ`, :data:`XZ_PLANAR`, ...).
+    note : str
+        What the guess is, for messages.
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits*, Academic Press, 1967, §4.5 (linearised motion about the
+       collinear points; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.seeds import linear_lyapunov
+    >>> linear_lyapunov(0.0121505843, "L1", 1e-3).symmetry
+    'xz-planar'
+    """
 
     state: np.ndarray
     half_period: float
@@ -54,6 +77,37 @@ def linear_lyapunov(mu: float, point: str, ax_lu: float) -> Seed:
     ``x = xL + Ax cos(w t), y = -k Ax sin(w t)``, ``k = (w^2 + 1 + 2 c2) / (2 w)`` (Richardson
     1980, eq. (7) with Az = 0). Starts at the crossing farther from the smaller primary (L1,
     L2) or from the larger one (L3).
+
+    Parameters
+    ----------
+    mu : float
+        Mass ratio.
+    point : str
+        ``"L1"``, ``"L2"`` or ``"L3"``.
+    ax_lu : float
+        x amplitude (LU).
+
+    Returns
+    -------
+    Seed
+
+    Raises
+    ------
+    InputError
+        ``point`` is not collinear.
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits*, Academic Press, 1967, §4.5 (linearised motion about the
+       collinear points; from memory).
+    .. [2] D. L. Richardson, *Celestial Mechanics* 22, 1980, eq. (7).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.seeds import linear_lyapunov
+    >>> sd = linear_lyapunov(0.0121505843, "L1", 1e-3)
+    >>> round(sd.half_period, 4)
+    1.3458
     """
     p = collinear_point(mu, point)
     a = abs(ax_lu) if p.name == "L2" else -abs(ax_lu)
@@ -63,9 +117,38 @@ def linear_lyapunov(mu: float, point: str, ax_lu: float) -> Seed:
 
 
 def linear_vertical(mu: float, point: str, az_lu: float) -> Seed:
-    """Linear vertical orbit ``z = Az sin(wv t)`` through the collinear point (Szebehely 1967, §4.5).
+    """Linear vertical orbit ``z = Az sin(wv t)`` through the collinear point.
 
     Starts at the node on the x axis going up; half period ends at the next z = 0 crossing.
+
+    Parameters
+    ----------
+    mu : float
+        Mass ratio.
+    point : str
+        ``"L1"``, ``"L2"`` or ``"L3"``.
+    az_lu : float
+        z amplitude (LU).
+
+    Returns
+    -------
+    Seed
+
+    Raises
+    ------
+    InputError
+        ``point`` is not collinear.
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits*, Academic Press, 1967, §4.5 (linearised motion about the
+       collinear points; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.seeds import linear_vertical
+    >>> linear_vertical(0.0121505843, "L1", 1e-3).symmetry
+    'x-axis/z'
     """
     p = collinear_point(mu, point)
     s = np.array([p.x, 0.0, 0.0, 0.0, 0.0, abs(az_lu) * p.omega_v])
@@ -74,6 +157,31 @@ def linear_vertical(mu: float, point: str, az_lu: float) -> Seed:
 
 @dataclass(frozen=True)
 class RichardsonCoefficients:
+    """The coefficients of Richardson's third-order halo solution.
+
+    Parameters
+    ----------
+    lam, k, delta : float
+        In-plane frequency, amplitude ratio and ``lam^2 - c2``.
+    c2, c3, c4 : float
+        Legendre coefficients of the expanded potential.
+    a21, a22, a23, a24, a31, a32, b21, b22, b31, b32, d21, d31, d32 : float
+        Second- and third-order amplitude coefficients.
+    s1, s2, l1, l2 : float
+        Frequency-correction and amplitude-constraint coefficients.
+
+    References
+    ----------
+    .. [1] D. L. Richardson, "Analytic construction of periodic orbits about the collinear points",
+       *Celestial Mechanics* 22, 1980, pp. 241-253 (eqs. (17)-(19) and the appendix; coefficients
+       from memory, checked by the corrector converging from them).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.seeds import richardson_coefficients
+    >>> round(richardson_coefficients(0.0121505843, "L1").c2, 4)
+    5.1476
+    """
     lam: float
     k: float
     delta: float
@@ -100,7 +208,37 @@ class RichardsonCoefficients:
 
 
 def richardson_coefficients(mu: float, point: str) -> RichardsonCoefficients:
-    """Coefficients of Richardson's third-order solution (Richardson 1980, appendix; from memory)."""
+    """Coefficients of Richardson's third-order solution at a collinear point.
+
+    Parameters
+    ----------
+    mu : float
+        Mass ratio.
+    point : str
+        ``"L1"``, ``"L2"`` or ``"L3"``.
+
+    Returns
+    -------
+    RichardsonCoefficients
+
+    Raises
+    ------
+    InputError
+        ``point`` is not collinear.
+
+    References
+    ----------
+    .. [1] D. L. Richardson, "Analytic construction of periodic orbits about the collinear points",
+       *Celestial Mechanics* 22, 1980, pp. 241-253 (eqs. (17)-(19) and the appendix; coefficients
+       from memory, checked by the corrector converging from them).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.seeds import richardson_coefficients
+    >>> c = richardson_coefficients(0.0121505843, "L2")
+    >>> round(c.lam, 4)
+    1.8626
+    """
     p = collinear_point(mu, point)
     g = p.gamma
     c2, c3, c4 = (cn(mu, p.name, g, n) for n in (2, 3, 4))
@@ -144,13 +282,45 @@ def richardson_halo(mu: float, point: str, az_lu: float, branch: str = "north",
     Richardson 1980, eqs. (17)-(19) in the frame centred on the Lagrange point with unit
     ``gamma`` and axes parallel to the rotating frame (so ``x = xL + gamma x_R``); ``Ax``
     from the amplitude constraint ``l1 Ax^2 + l2 Az^2 + Delta = 0``; period
-    ``T = 2 pi / (lambda omega)``. The seed starts at ``tau1 = 0`` (a perpendicular
-    crossing, the one farther from the smaller primary, or from the larger for L3);
-    ``delta_n = +-1`` is chosen to give the requested branch (module notes of
-    :mod:`cr3bp.orbits.orbit`): north means z > 0 at the start.
+    ``T = 2 pi / (lambda omega)``. The seed starts at a perpendicular crossing, the one farther
+    from the smaller primary (or from the larger for L3); ``delta_n = +-1`` is chosen to give
+    the requested branch (module notes of :mod:`cr3bp.orbits.orbit`): north means z > 0 at the
+    start.
 
-    With ``n_points > 0`` the seed's ``note`` is unchanged and the method also returns the
-    sampled third-order curve in ``extra`` (see :func:`richardson_curve`).
+    Parameters
+    ----------
+    mu : float
+        Mass ratio.
+    point : str
+        ``"L1"``, ``"L2"`` or ``"L3"``.
+    az_lu : float
+        Out-of-plane amplitude (LU).
+    branch : str
+        ``"north"`` or ``"south"``.
+    n_points : int
+        Unused (kept for callers); see :func:`richardson_curve` for the sampled curve.
+
+    Returns
+    -------
+    Seed
+
+    Raises
+    ------
+    InputError
+        A bad point or branch, or an amplitude with no real Ax in the amplitude constraint.
+
+    References
+    ----------
+    .. [1] D. L. Richardson, "Analytic construction of periodic orbits about the collinear points",
+       *Celestial Mechanics* 22, 1980, pp. 241-253 (eqs. (17)-(19) and the appendix; coefficients
+       from memory, checked by the corrector converging from them).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.seeds import richardson_halo
+    >>> sd = richardson_halo(0.0121505843, "L2", 0.01, "south")
+    >>> sd.symmetry, bool(sd.state[2] < 0)
+    ('xz', True)
     """
     p = collinear_point(mu, point)
     c = richardson_coefficients(mu, point)
@@ -193,7 +363,45 @@ def _richardson_state(c, p, ax, az, dn, tau1):
 
 
 def richardson_curve(mu: float, point: str, az_lu: float, branch: str = "north", n: int = 400):
-    """The third-order halo sampled at ``n`` phases over one period: (t (n,), states (n, 6))."""
+    """The third-order halo sampled at ``n`` phases over one period.
+
+    Parameters
+    ----------
+    mu : float
+        Mass ratio.
+    point : str
+        ``"L1"``, ``"L2"`` or ``"L3"``.
+    az_lu : float
+        Out-of-plane amplitude (LU).
+    branch : str
+        ``"north"`` or ``"south"``.
+    n : int
+        Number of samples.
+
+    Returns
+    -------
+    t : ndarray, shape (n,)
+        Times (TU) from the start.
+    states : ndarray, shape (n, 6)
+
+    Raises
+    ------
+    InputError
+        ``point`` is not collinear.
+
+    References
+    ----------
+    .. [1] D. L. Richardson, "Analytic construction of periodic orbits about the collinear points",
+       *Celestial Mechanics* 22, 1980, pp. 241-253 (eqs. (17)-(19) and the appendix; coefficients
+       from memory, checked by the corrector converging from them).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.seeds import richardson_curve
+    >>> t, s = richardson_curve(0.0121505843, "L1", 0.005, n=8)
+    >>> s.shape
+    (8, 6)
+    """
     p = collinear_point(mu, point)
     c = richardson_coefficients(mu, point)
     az = abs(az_lu) / p.gamma
@@ -207,9 +415,40 @@ def richardson_curve(mu: float, point: str, az_lu: float, branch: str = "north",
 
 
 def dro(mu: float, distance_lu: float) -> Seed:
-    """Distant retrograde orbit seed: retrograde circular orbit of radius ``distance_lu`` about the
-    smaller primary, started on the far side (x = 1 - mu + d): ``vy = -(sqrt(mu/d) + d)``
-    (two-body speed plus the frame rotation; Hill limit, Hénon 1969)."""
+    """Distant retrograde orbit seed: a retrograde circle about the smaller primary.
+
+    Radius ``distance_lu``, started on the far side (x = 1 - mu + d) with
+    ``vy = -(sqrt(mu/d) + d)`` (two-body speed plus the frame rotation; Hill limit).
+
+    Parameters
+    ----------
+    mu : float
+        Mass ratio.
+    distance_lu : float
+        Radius of the circle (LU).
+
+    Returns
+    -------
+    Seed
+
+    Raises
+    ------
+    InputError
+        ``distance_lu`` is not positive.
+
+    References
+    ----------
+    .. [1] M. Hénon, "Numerical exploration of the restricted problem. V", *Astron. Astrophys.* 1,
+       1969 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.seeds import dro
+    >>> dro(0.0121505843, -1.0)
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: DRO distance -1.0 must be positive
+    """
     d = float(distance_lu)
     if not d > 0:
         raise InputError(f"DRO distance {distance_lu!r} must be positive")
@@ -219,10 +458,44 @@ def dro(mu: float, distance_lu: float) -> Seed:
 
 
 def resonant(mu: float, p: int, q: int, eccentricity: float = 0.5, start: str = "periapsis") -> Seed:
-    """p:q resonant orbit seed about the larger primary: Kepler ellipse with sidereal period
-    ``2 pi q / p`` (``a = (q/p)^(2/3)`` with GM = 1 - mu), started at periapsis (or apoapsis) on
-    the far side of the larger primary from the smaller; rotating-frame period ``2 pi q``
-    (common practice)."""
+    """p:q resonant orbit seed about the larger primary, periapsis away from the secondary.
+
+    Kepler ellipse with sidereal period ``2 pi q / p`` (``a = (q/p)^(2/3)`` with GM = 1 - mu),
+    started at periapsis (or apoapsis) on the far side of the larger primary from the smaller;
+    rotating-frame period ``2 pi q``.
+
+    Parameters
+    ----------
+    mu : float
+        Mass ratio.
+    p, q : int
+        Revolutions of the spacecraft and of the primaries.
+    eccentricity : float
+        In [0, 0.98).
+    start : str
+        ``"periapsis"`` or ``"apoapsis"``.
+
+    Returns
+    -------
+    Seed
+
+    Raises
+    ------
+    InputError
+        p or q not positive integers, or the eccentricity out of range.
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011 (resonant orbits of the restricted problem; Kepler's
+       third law, common practice).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.seeds import resonant
+    >>> round(resonant(0.0121505843, 3, 2, 0.3).half_period, 6)
+    6.283185
+    """
     if not (isinstance(p, int) and isinstance(q, int) and p > 0 and q > 0):
         raise InputError(f"resonance {p}:{q} must be two positive integers")
     if not 0.0 <= eccentricity < 0.98:
@@ -237,12 +510,45 @@ def resonant(mu: float, p: int, q: int, eccentricity: float = 0.5, start: str = 
 
 
 def resonant_geometry(mu: float, p: int, q: int):
-    """(a, e_touch, close) of a p:q orbit about the larger primary (p revolutions of the
-    spacecraft in q of the primaries): semi-major axis ``a = ((1 - mu) (q/p)^2)^(1/3)`` (Kepler's
-    third law with GM = 1 - mu and the secondary's mean motion 1), the eccentricity at which the
-    apsis nearer the secondary's orbit reaches it (distance 1 from the larger primary:
-    ``a (1 - e) = 1`` outside, ``a (1 + e) = 1`` inside), and which apsis that is
-    ("periapsis" for a > 1, "apoapsis" for a < 1)."""
+    """Semi-major axis, touching eccentricity and nearer apsis of a p:q orbit.
+
+    ``a = ((1 - mu) (q/p)^2)^(1/3)`` (Kepler's third law with GM = 1 - mu and the secondary's
+    mean motion 1); the eccentricity at which the apsis nearer the secondary's orbit reaches it
+    (``a (1 - e) = 1`` outside, ``a (1 + e) = 1`` inside); which apsis that is.
+
+    Parameters
+    ----------
+    mu : float
+        Mass ratio.
+    p, q : int
+        Revolutions of the spacecraft and of the primaries.
+
+    Returns
+    -------
+    a : float
+        Semi-major axis (LU).
+    e_touch : float
+    close : str
+        ``"periapsis"`` (a > 1) or ``"apoapsis"`` (a < 1).
+
+    Raises
+    ------
+    InputError
+        p, q not positive integers, p = q, or p:q not in lowest terms.
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011 (resonant orbits of the restricted problem; Kepler's
+       third law, common practice).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.seeds import resonant_geometry
+    >>> a, e, close = resonant_geometry(0.0, 1, 8)
+    >>> round(a, 12), round(e, 6), close
+    (4.0, 0.75, 'periapsis')
+    """
     if not (isinstance(p, int) and isinstance(q, int) and p > 0 and q > 0):
         raise InputError(f"resonance {p}:{q} must be two positive integers")
     if p == q:
@@ -258,9 +564,41 @@ def resonant_geometry(mu: float, p: int, q: int):
 
 
 def check_resonance(p: int, q: int) -> None:
-    """Raise InputError when a p:q resonant family is not offered: p = q, p:q not in lowest
-    terms, or an inner resonance whose ellipses cannot reach the secondary's orbit (p/q >= 2.8;
-    the exact limit depends a little on the mass ratio, checked again when seeding)."""
+    """Refuse a p:q resonant family that is not offered.
+
+    p = q, p:q not in lowest terms, or an inner resonance whose ellipses cannot reach the
+    secondary's orbit (p/q >= 2.8; the exact limit depends a little on the mass ratio, checked
+    again when seeding).
+
+    Parameters
+    ----------
+    p, q : int
+        Revolutions of the spacecraft and of the primaries.
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    InputError
+        Naming the resonance and what is offered.
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011 (resonant orbits of the restricted problem; Kepler's
+       third law, common practice).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.seeds import check_resonance
+    >>> check_resonance(3, 2)
+    >>> check_resonance(4, 2)
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: resonance 4:2 is not in lowest terms; write it as 2:1
+    """
     _, e_touch, _ = resonant_geometry(0.0, p, q)
     if e_touch >= 0.98:
         raise InputError(f"a {p}:{q} orbit cannot reach the secondary's orbit on an ellipse; inner "
@@ -268,20 +606,47 @@ def check_resonance(p: int, q: int) -> None:
 
 
 def resonant_encounter(mu: float, p: int, q: int, eccentricity: float | None = None) -> Seed:
-    """p:q resonant seed whose apsis nearer the secondary's orbit lies on the secondary's side
-    of the larger primary, half a period after the start: as the eccentricity grows towards
-    ``e_touch`` (:func:`resonant_geometry`) that apsis closes on the secondary, so the family
-    through this seed reaches close approaches (the flyby orbits of moon tours).
+    """p:q resonant seed whose nearer apsis points at the secondary half a period later.
 
-    Kepler ellipse of sidereal period ``2 pi q / p`` (common practice, Kepler's third law);
-    rotating-frame period ``2 pi q``. At ``t = T/2 = pi q`` the spacecraft has made ``p/2``
-    revolutions and the frame ``q/2``: the apsis type alternates every half revolution and the
-    direction turns by ``(p - q) pi`` in the rotating frame. So the seed starts on the far side
-    of the larger primary (``theta0 = pi``) when ``p - q`` is odd, on the secondary's side
-    (``theta0 = 0``) when it is even, at the nearer apsis when ``p`` is even and at the other
-    apsis when ``p`` is odd; the nearer apsis is then at ``theta = 0`` at ``T/2``.
-    Default eccentricity: ``e_touch / 2``. Raises InputError when no ellipse (e < 0.98)
-    reaches the secondary's orbit (inner resonances with p/q > 2.8)."""
+    As the eccentricity grows towards ``e_touch`` (:func:`resonant_geometry`) that apsis closes
+    on the secondary, so the family through this seed reaches close approaches (the flyby orbits
+    of moon tours). Kepler ellipse of sidereal period ``2 pi q / p``; rotating-frame period
+    ``2 pi q``. At ``t = T/2 = pi q`` the spacecraft has made ``p/2`` revolutions and the frame
+    ``q/2``: the seed starts on the far side of the larger primary when ``p - q`` is odd, on the
+    secondary's side when it is even, at the nearer apsis when ``p`` is even and at the other
+    apsis when ``p`` is odd. Default eccentricity ``e_touch / 2``.
+
+    Parameters
+    ----------
+    mu : float
+        Mass ratio.
+    p, q : int
+        Revolutions of the spacecraft and of the primaries.
+    eccentricity : float, optional
+        In [0, 0.98); default ``e_touch / 2``.
+
+    Returns
+    -------
+    Seed
+
+    Raises
+    ------
+    InputError
+        No ellipse (e < 0.98) reaches the secondary's orbit (inner resonances with p/q > 2.8),
+        or a bad p:q or eccentricity.
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011 (resonant orbits of the restricted problem; Kepler's
+       third law, common practice).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.seeds import resonant_encounter
+    >>> resonant_encounter(0.0121505843, 3, 2).symmetry
+    'xz-planar'
+    """
     a, e_touch, close = resonant_geometry(mu, p, q)
     if e_touch >= 0.98:
         raise InputError(f"a {p}:{q} orbit (semi-major axis {a:.4f} of the primaries' distance) cannot "
@@ -303,8 +668,42 @@ def resonant_encounter(mu: float, p: int, q: int, eccentricity: float | None = N
 
 
 def resonant_x_rate(mu: float, p: int, q: int, e: float) -> float:
-    """Sign of d x0 / d e of :func:`resonant_encounter` (+1 or -1): which way along the family's
-    tangent the eccentricity, and with it the approach to the secondary, grows."""
+    """Sign of d x0 / d e of :func:`resonant_encounter`.
+
+    Which way along the family's tangent the eccentricity, and with it the approach to the
+    secondary, grows.
+
+    Parameters
+    ----------
+    mu : float
+        Mass ratio.
+    p, q : int
+        Revolutions of the spacecraft and of the primaries.
+    e : float
+        Eccentricity.
+
+    Returns
+    -------
+    float
+        +1.0 or -1.0.
+
+    Raises
+    ------
+    InputError
+        As :func:`resonant_encounter`.
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011 (resonant orbits of the restricted problem; Kepler's
+       third law, common practice).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.seeds import resonant_x_rate
+    >>> resonant_x_rate(0.0121505843, 3, 2, 0.2) in (1.0, -1.0)
+    True
+    """
     h = 1e-6
     x1 = resonant_encounter(mu, p, q, e + h).state[0]
     x0 = resonant_encounter(mu, p, q, e).state[0]

@@ -28,16 +28,72 @@ G_XAXIS = np.diag([1.0, -1.0, -1.0, -1.0, 1.0, 1.0])
 
 
 def monodromy_from_half(phi_half: np.ndarray, mirror: np.ndarray = G_XZ) -> np.ndarray:
-    """Full-period STM of a symmetric orbit from its half-period STM (Howell 1984, §4; derivation above)."""
+    """Full-period STM of a symmetric orbit from its half-period STM.
+
+    ``M = G Phi(T/2)^-1 G Phi(T/2)`` with the symmetry's reflection ``G`` (derivation in the
+    module notes).
+
+    Parameters
+    ----------
+    phi_half : ndarray, shape (6, 6)
+        STM from the start to the half period.
+    mirror : ndarray, shape (6, 6)
+        :data:`G_XZ` or :data:`G_XAXIS`.
+
+    Returns
+    -------
+    ndarray, shape (6, 6)
+
+    Raises
+    ------
+    numpy.linalg.LinAlgError
+        When ``phi_half`` is singular.
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984, §4 (monodromy from the half-period STM).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.orbits.stability import monodromy_from_half
+    >>> monodromy_from_half(np.eye(6)).tolist() == np.eye(6).tolist()
+    True
+    """
     phi = np.asarray(phi_half, dtype=float)
     return mirror @ np.linalg.solve(phi, mirror @ phi)
 
 
 def stability_indices(monodromy: np.ndarray):
-    """The two non-trivial stability indices, largest |nu| first (Broucke 1969 trace method).
+    """The two non-trivial stability indices, largest |nu| first (trace method).
 
-    Returns a tuple of two floats, or of two complex numbers when the non-trivial eigenvalues
-    form a complex quadruple (then the indices are complex conjugates).
+    Parameters
+    ----------
+    monodromy : ndarray, shape (6, 6)
+
+    Returns
+    -------
+    tuple
+        Two floats, or two complex conjugates when the non-trivial eigenvalues form a complex
+        quadruple.
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] R. A. Broucke, "Stability of periodic orbits in the elliptic restricted three-body
+       problem", *AIAA Journal* 7, 1969 (stability indices; trace method).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.orbits import stability
+    >>> M = np.diag([4.0, 0.25, 1.0, 1.0, 1.0, 1.0])
+    >>> stability.stability_indices(M)
+    (2.125, 1.0)
     """
     m = np.asarray(monodromy, dtype=float)
     t1 = float(np.trace(m))
@@ -54,8 +110,36 @@ def stability_indices(monodromy: np.ndarray):
 
 
 def planar_indices(monodromy: np.ndarray):
-    """(in-plane, out-of-plane) indices of a planar orbit: the z-block decouples, so
-    ``nu_out = (M[2,2] + M[5,5]) / 2`` and ``nu_in = (tr M - 2)/2 - nu_out`` (exact for z = 0 orbits)."""
+    """(in-plane, out-of-plane) indices of a planar orbit.
+
+    The z-block decouples, so ``nu_out = (M[2,2] + M[5,5]) / 2`` and
+    ``nu_in = (tr M - 2)/2 - nu_out`` (exact for z = 0 orbits).
+
+    Parameters
+    ----------
+    monodromy : ndarray, shape (6, 6)
+
+    Returns
+    -------
+    tuple of float
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] R. A. Broucke, "Stability of periodic orbits in the elliptic restricted three-body
+       problem", *AIAA Journal* 7, 1969 (stability indices; trace method).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.orbits import stability
+    >>> M = np.diag([4.0, 0.25, 1.0, 1.0, 1.0, 1.0])
+    >>> stability.planar_indices(M)
+    (2.125, 1.0)
+    """
     m = np.asarray(monodromy, dtype=float)
     nu_out = 0.5 * (m[2, 2] + m[5, 5])
     nu_in = 0.5 * (np.trace(m) - 2.0) - nu_out
@@ -63,13 +147,65 @@ def planar_indices(monodromy: np.ndarray):
 
 
 def eigenvalues(monodromy: np.ndarray) -> np.ndarray:
-    """Eigenvalues of the monodromy, sorted by decreasing modulus."""
+    """Eigenvalues of the monodromy, sorted by decreasing modulus.
+
+    Parameters
+    ----------
+    monodromy : ndarray, shape (6, 6)
+
+    Returns
+    -------
+    ndarray of complex
+
+    Raises
+    ------
+    numpy.linalg.LinAlgError
+        When the eigenvalue computation does not converge.
+
+    References
+    ----------
+    .. [1] R. A. Broucke, "Stability of periodic orbits in the elliptic restricted three-body
+       problem", *AIAA Journal* 7, 1969 (stability indices; trace method).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.orbits import stability
+    >>> M = np.diag([4.0, 0.25, 1.0, 1.0, 1.0, 1.0])
+    >>> float(abs(stability.eigenvalues(M)[0]))
+    4.0
+    """
     ev = np.linalg.eigvals(np.asarray(monodromy, dtype=float))
     return ev[np.argsort(-np.abs(ev))]
 
 
 def largest_multiplier(indices) -> float:
-    """|lambda| of the most unstable mode from the indices (lambda = nu + sqrt(nu^2 - 1))."""
+    """|lambda| of the most unstable mode from the indices (``lambda = nu + sqrt(nu^2 - 1)``).
+
+    Parameters
+    ----------
+    indices : iterable of float or complex
+
+    Returns
+    -------
+    float
+        1.0 for a linearly stable orbit.
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] R. A. Broucke, "Stability of periodic orbits in the elliptic restricted three-body
+       problem", *AIAA Journal* 7, 1969 (stability indices; trace method).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.stability import largest_multiplier
+    >>> largest_multiplier((2.125, 1.0))
+    4.0
+    """
     best = 1.0
     for nu in indices:
         if isinstance(nu, complex) and abs(nu.imag) > 0:
@@ -83,7 +219,32 @@ def largest_multiplier(indices) -> float:
 
 
 def is_stable(indices, tol: float = 1e-6) -> bool:
-    """Linearly stable: both indices real with |nu| <= 1 (+tol)."""
+    """Linearly stable: both indices real with |nu| <= 1 (+tol).
+
+    Parameters
+    ----------
+    indices : iterable of float or complex
+    tol : float
+
+    Returns
+    -------
+    bool
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] R. A. Broucke, "Stability of periodic orbits in the elliptic restricted three-body
+       problem", *AIAA Journal* 7, 1969 (stability indices; trace method).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.stability import is_stable
+    >>> is_stable((0.9, -0.5)), is_stable((2.125, 1.0))
+    (True, False)
+    """
     for nu in indices:
         if isinstance(nu, complex) and abs(nu.imag) > tol:
             return False
@@ -93,6 +254,35 @@ def is_stable(indices, tol: float = 1e-6) -> bool:
 
 
 def reciprocal_pair_error(monodromy: np.ndarray) -> float:
-    """max over eigenvalues lambda of min_j |lambda * lambda_j - 1| (0 for a symplectic matrix)."""
+    """How far the eigenvalues are from reciprocal pairs (0 for a symplectic matrix).
+
+    ``max over lambda of min_j |lambda lambda_j - 1| / max(1, |lambda lambda_j|)``.
+
+    Parameters
+    ----------
+    monodromy : ndarray, shape (6, 6)
+
+    Returns
+    -------
+    float
+
+    Raises
+    ------
+    numpy.linalg.LinAlgError
+        When the eigenvalue computation does not converge.
+
+    References
+    ----------
+    .. [1] R. A. Broucke, "Stability of periodic orbits in the elliptic restricted three-body
+       problem", *AIAA Journal* 7, 1969 (stability indices; trace method).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.orbits import stability
+    >>> M = np.diag([4.0, 0.25, 1.0, 1.0, 1.0, 1.0])
+    >>> stability.reciprocal_pair_error(M)
+    0.0
+    """
     ev = eigenvalues(monodromy)
     return float(max(min(abs(a * b - 1.0) / max(1.0, abs(a * b)) for b in ev) for a in ev))
