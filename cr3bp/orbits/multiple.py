@@ -35,7 +35,46 @@ RTOL = ATOL = 1e-13
 
 
 def patches_from_trajectory(system, state, period, n: int):
-    """N patch states spaced evenly in time along the propagated guess (state, period)."""
+    """N patch states spaced evenly in time along the propagated guess.
+
+    Parameters
+    ----------
+    system : System
+    state : array_like, shape (6,)
+    period : float
+        TU.
+    n : int
+        Patch count, at least 2.
+
+    Returns
+    -------
+    patches : ndarray, shape (n, 6)
+    dts : ndarray, shape (n,)
+        Segment durations (TU).
+
+    Raises
+    ------
+    InputError
+        ``n`` not an integer >= 2.
+
+    References
+    ----------
+    .. [1] T. A. Pavlak, "Mission design applications in the Earth-Moon system: transfer
+       trajectories and stationkeeping", MSc thesis, Purdue University, 2010, ch. 3.
+    .. [2] B. G. Marchand, K. C. Howell and R. S. Wilson, "An improved corrections process for
+       constrained trajectory design in the n-body problem", *J. Spacecraft and Rockets* 44, 2007.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds
+    >>> from cr3bp.orbits.multiple import patches_from_trajectory
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 1e-3)
+    >>> S, dts = patches_from_trajectory(em, sd.state, 2 * sd.half_period, 4)
+    >>> S.shape, dts.shape
+    ((4, 6), (4,))
+    """
     if not isinstance(n, int) or n < 2:
         raise InputError(f"patch count {n!r} must be an integer of at least 2")
     t = np.linspace(0.0, period, n + 1)[:-1]
@@ -93,17 +132,51 @@ def correct_multiple(system, patches, dts, phase=("y", 0.0), hold=None, family="
 
     Parameters
     ----------
-    patches : (N, 6) initial guesses; dts : (N,) segment durations (TU)
-    phase : (component, value) held at patch 0, e.g. ("y", 0.0)
-    hold : None, ("period", T) or ("jacobi", C)
+    system : System
+    patches : array_like, shape (N, 6)
+        Initial guesses.
+    dts : array_like, shape (N,)
+        Segment durations (TU).
+    phase : tuple
+        ``(component, value)`` held at patch 0, e.g. ``("y", 0.0)``.
+    hold : tuple, optional
+        None, ``("period", T)`` or ``("jacobi", C)``.
+    family, point, branch : str
+        Labels of the orbit.
+    tol : float
+    max_iter : int
 
     Returns
     -------
-    PeriodicOrbit with ``symmetry="none"``, ``extra["patches"]`` (N, 6), ``extra["defects"]``.
+    PeriodicOrbit
+        With ``symmetry="none"``, ``extra["patches"]`` (N, 6), ``extra["defects"]``.
 
     Raises
     ------
-    ConvergenceError with iterations, the residual history and the last patch states.
+    ConvergenceError
+        With iterations, the residual history and the last patch states.
+    InputError
+        A bad phase component or hold.
+
+    References
+    ----------
+    .. [1] T. A. Pavlak, "Mission design applications in the Earth-Moon system: transfer
+       trajectories and stationkeeping", MSc thesis, Purdue University, 2010, ch. 3.
+    .. [2] B. G. Marchand, K. C. Howell and R. S. Wilson, "An improved corrections process for
+       constrained trajectory design in the n-body problem", *J. Spacecraft and Rockets* 44, 2007.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> from cr3bp.orbits.multiple import correct_multiple, patches_from_trajectory
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 1e-3)
+    >>> o = shooting.correct(em, sd.state, sd.half_period, sd.symmetry)
+    >>> S, dts = patches_from_trajectory(em, o.state, o.period, 4)
+    >>> m = correct_multiple(em, S, dts)
+    >>> abs(m.period - o.period) < 1e-8, m.symmetry
+    (True, 'none')
     """
     from .shooting import COMPONENTS
     S = np.array(patches, dtype=float)

@@ -32,21 +32,48 @@ _NAN3 = (float("nan"),) * 3
 class PeriodicOrbit:
     """A converged periodic orbit.
 
-    Attributes
+    Parameters
     ----------
     system : System
-    state : ndarray (6,)     initial state (nondimensional, rotating frame)
-    period : float           TU
-    monodromy : ndarray (6, 6)  STM over one period from ``state``
-    family, point, branch : str  e.g. "halo", "L2", "south" ("" where not meaningful)
+    state : ndarray, shape (6,)
+        Initial state (nondimensional, rotating frame).
+    period : float
+        TU.
+    monodromy : ndarray, shape (6, 6)
+        STM over one period from ``state``.
+    family, point, branch : str
+        E.g. ``"halo"``, ``"L2"``, ``"south"`` (``""`` where not meaningful).
     jacobi : float
-    periodicity_error : float  |s(T) - s(0)| of the converged orbit, nondimensional, from a
-        propagation over the full period
-    iterations : int          corrector iterations used
-    amplitude_lu : (Ax, Ay, Az) in LU (see module notes)
-    closest_approach_lu : (d1, d2) least distance to each primary's centre, LU
-    symmetry : str            "xz" (x-z plane), "x-axis", or "none"
-    extra : dict              anything else (method, residual history, ...)
+    periodicity_error : float
+        ``|s(T) - s(0)|`` of the converged orbit, nondimensional, from a propagation over the
+        full period.
+    iterations : int
+        Corrector iterations used.
+    extra : dict
+        Anything else (method, residual history, ...).
+    amplitude_lu : tuple of float
+        (Ax, Ay, Az) in LU (see module notes).
+    closest_approach_lu : tuple of float
+        (d1, d2) least distance to each primary's centre, LU.
+    symmetry : str
+        ``"xz"`` (x-z plane), ``"x-axis"``, or ``"none"``.
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (periodic orbits, monodromy and stability of the restricted problem).
+    .. [2] R. A. Broucke, "Stability of periodic orbits in the elliptic restricted three-body
+       problem", *AIAA Journal* 7, 1969 (stability indices).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 1e-3)
+    >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry, family="lyapunov", point="L1")
+    >>> round(orbit.period_days, 3), orbit.stable
+    (11.689, False)
     """
 
     system: object

@@ -24,9 +24,34 @@ KINDS = ("period", "jacobi", "ax", "ay", "az", "x", "perilune", "approach1", "re
 
 @dataclass(frozen=True)
 class Target:
-    """A requested property: ``kind`` (see KINDS), the value in nondimensional units for the
-    family quantity ``quantity`` (see :func:`cr3bp.orbits.continuation.quantity`), and the
-    user's text for messages."""
+    """A requested property of an orbit, in nondimensional units.
+
+    Parameters
+    ----------
+    kind : str
+        One of :data:`KINDS`.
+    quantity : str
+        The family quantity it picks by (see :func:`cr3bp.orbits.continuation.quantity`).
+    value : float
+        Nondimensional value.
+    text : str
+        The user's text, for messages.
+    unit : str
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (picking family members by amplitude, period or Jacobi constant).
+    .. [2] The Astronomical Almanac (sidereal month and year; from memory); synodic month
+       ``1/S = 1/P_month - 1/P_year`` (common practice).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits.targets import make_target
+    >>> make_target(system("earth-moon"), "perilune", "3500km").quantity
+    'approach2'
+    """
 
     kind: str
     quantity: str
@@ -39,11 +64,67 @@ class Target:
 
 
 def synodic_period_days(p: int, q: int) -> float:
-    """Period (days) of a p:q synodic resonance: q synodic months over p orbit periods."""
+    """Period (days) of a p:q synodic resonance: q synodic months over p orbit periods.
+
+    Parameters
+    ----------
+    p, q : int
+
+    Returns
+    -------
+    float
+        Days.
+
+    Raises
+    ------
+    ZeroDivisionError
+        When ``p`` is 0.
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (picking family members by amplitude, period or Jacobi constant).
+    .. [2] The Astronomical Almanac (sidereal month and year; from memory); synodic month
+       ``1/S = 1/P_month - 1/P_year`` (common practice).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.targets import synodic_period_days
+    >>> round(synodic_period_days(9, 2), 4)
+    6.5624
+    """
     return q * SYNODIC_MONTH_DAYS / p
 
 
 def parse_resonance(text: str) -> tuple[int, int]:
+    """``"p:q"`` as two positive integers.
+
+    Parameters
+    ----------
+    text : str
+
+    Returns
+    -------
+    tuple of int
+
+    Raises
+    ------
+    InputError
+        Not two positive integers separated by a colon.
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (picking family members by amplitude, period or Jacobi constant).
+    .. [2] The Astronomical Almanac (sidereal month and year; from memory); synodic month
+       ``1/S = 1/P_month - 1/P_year`` (common practice).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.targets import parse_resonance
+    >>> parse_resonance("9:2")
+    (9, 2)
+    """
     try:
         a, b = str(text).split(":")
         p, q = int(a), int(b)
@@ -55,8 +136,45 @@ def parse_resonance(text: str) -> tuple[int, int]:
 
 
 def make_target(system, kind: str, text) -> Target:
-    """Turn a user target (e.g. ``("period", "6.5626d")``, ``("az", "12000km")``,
-    ``("jacobi", "3.15")``, ``("resonance", "9:2")``) into a nondimensional Target."""
+    """Turn a user target into a nondimensional :class:`Target`.
+
+    E.g. ``("period", "6.5626d")``, ``("az", "12000km")``, ``("jacobi", "3.15")``,
+    ``("resonance", "9:2")``.
+
+    Parameters
+    ----------
+    system : System
+    kind : str
+        One of :data:`KINDS`.
+    text : str
+        The value with its unit.
+
+    Returns
+    -------
+    Target
+
+    Raises
+    ------
+    InputError
+        Unknown kind, a value that must be positive and is not, a synodic resonance outside
+        Earth-Moon.
+    UnitError
+        Malformed value or wrong unit (the message names the kind).
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (picking family members by amplitude, period or Jacobi constant).
+    .. [2] The Astronomical Almanac (sidereal month and year; from memory); synodic month
+       ``1/S = 1/P_month - 1/P_year`` (common practice).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits.targets import make_target
+    >>> round(make_target(system("earth-moon"), "resonance", "9:2").value, 4)
+    1.5112
+    """
     from ..errors import UnitError
     try:
         t = _make(system, str(kind).strip().lower(), str(text).strip())
@@ -92,7 +210,36 @@ def _make(system, kind, text):
 
 
 def describe_value(system, quantity: str, value: float) -> str:
-    """A nondimensional family quantity in the user's units, for messages."""
+    """A nondimensional family quantity in the user's units, for messages.
+
+    Parameters
+    ----------
+    system : System
+    quantity : str
+    value : float
+
+    Returns
+    -------
+    str
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (picking family members by amplitude, period or Jacobi constant).
+    .. [2] The Astronomical Almanac (sidereal month and year; from memory); synodic month
+       ``1/S = 1/P_month - 1/P_year`` (common practice).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits.targets import describe_value
+    >>> describe_value(system("earth-moon"), "az", 0.03)
+    '11532 km'
+    """
     if system.dimensional:
         if quantity == "period":
             return f"{system.days(value):.6g} d"
