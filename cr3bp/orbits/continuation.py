@@ -62,14 +62,34 @@ LIMIT_STEP_FLOOR = 1e-3
 class Stops:
     """When a family stops growing.
 
-    max_members : int          member count (including the first)
-    altitude_km : float|None   stop when a member passes lower than this above a primary's
-                               surface (None: at the surface, i.e. altitude 0)
-    bounds : dict              quantity -> (low, high); quantities as in :func:`quantity`
-    target : (quantity, value) stop when a member with that value is bracketed; solve it exactly
-    detect_closure : bool      stop when the family returns to its first member
-    branch_points : int|None   stop once this many "+1" crossings of index ``which=1`` (the
-                               out-of-plane index of a planar family) have been located
+    Parameters
+    ----------
+    max_members : int
+        Member count (including the first).
+    altitude_km : float or None
+        Stop when a member passes lower than this above a primary's surface (None: at the
+        surface, i.e. altitude 0).
+    bounds : dict
+        quantity -> (low, high); quantities as in :func:`quantity`.
+    target : tuple or None
+        ``(quantity, value)``: stop when a member with that value is bracketed; solve it exactly.
+    detect_closure : bool
+        Stop when the family returns to its first member.
+    branch_points : int or None
+        Stop once this many "+1" crossings of index ``which=1`` (the out-of-plane index of a
+        planar family) have been located.
+
+    References
+    ----------
+    .. [1] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems", in
+       *Applications of Bifurcation Theory*, Academic Press, 1977 (pseudo-arclength continuation,
+       branch switching).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.continuation import Stops
+    >>> Stops(max_members=50).detect_closure
+    True
     """
 
     max_members: int = 200
@@ -84,13 +104,37 @@ class Stops:
 class Bifurcation:
     """A located change of stability along a family.
 
-    kind : "+1" (an index crosses +1: branch point or fold — a new family may branch here),
-           "-1" (period doubling), "complex" (indices collide and leave the real axis).
-    index : member index just before the crossing
-    which : which stability index as the continuation tracked it (0 = in-plane, 1 = out-of-plane
-            for planar families); the table's name of the crossing index (nu1 = larger |nu|,
-            nu2) is ``to_dict()["stability_index"]`` (:func:`table_index`)
-    orbit : the orbit at the crossing, solved on the family
+    Parameters
+    ----------
+    kind : str
+        ``"+1"`` (an index crosses +1: branch point or fold; a new family may branch here),
+        ``"-1"`` (period doubling), ``"complex"`` (indices collide and leave the real axis).
+    index : int
+        Member index just before the crossing.
+    which : int
+        Which stability index as the continuation tracked it (0 = in-plane, 1 = out-of-plane for
+        planar families); the table's name of the crossing index (nu1 = larger |nu|, nu2) is
+        ``to_dict()["stability_index"]`` (:func:`table_index`).
+    orbit : PeriodicOrbit
+        The orbit at the crossing, solved on the family.
+    note : str
+
+    References
+    ----------
+    .. [2] E. J. Doedel et al., "Elemental periodic orbits associated with the libration points in
+       the circular restricted 3-body problem", *Int. J. Bifurcation and Chaos* 17, 2007 (families,
+       bifurcations and branch switching; from memory).
+    .. [3] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (families of symmetric orbits and their stability).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import continuation, families
+    >>> em = system("earth-moon")
+    >>> fam = families.grow_family(em, "lyapunov", "L1", stops=continuation.Stops(max_members=3))
+    >>> fam.bifurcations
+    ()
     """
 
     kind: str
@@ -111,7 +155,40 @@ class Bifurcation:
 
 @dataclass(frozen=True)
 class Family:
-    """A computed family: members in order, located bifurcations, why it stopped."""
+    """A computed family: members in order, located bifurcations, why it stopped.
+
+    Parameters
+    ----------
+    system : System
+    family, point, branch : str
+    kind : str
+        Symmetry type.
+    members : tuple of PeriodicOrbit
+    bifurcations : tuple of Bifurcation
+    stop_reason : str
+    settings : dict
+        What grew it (recipe, family, point, ...).
+    target : PeriodicOrbit or None
+        The member solved at ``Stops.target``.
+
+    References
+    ----------
+    .. [1] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems", in
+       *Applications of Bifurcation Theory*, Academic Press, 1977 (pseudo-arclength continuation,
+       branch switching).
+    .. [2] E. J. Doedel et al., "Elemental periodic orbits associated with the libration points in
+       the circular restricted 3-body problem", *Int. J. Bifurcation and Chaos* 17, 2007 (families,
+       bifurcations and branch switching; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import continuation, families
+    >>> em = system("earth-moon")
+    >>> fam = families.grow_family(em, "lyapunov", "L1", stops=continuation.Stops(max_members=3))
+    >>> len(fam.members), fam.kind
+    (3, 'xz-planar')
+    """
 
     system: object
     family: str
@@ -147,9 +224,41 @@ QUANTITIES = ("jacobi", "period", "x", "z", "vz", "ax", "ay", "az", "approach1",
 
 
 def quantity(orbit: PeriodicOrbit, name: str) -> float:
-    """A scalar of an orbit by name (nondimensional): jacobi, period (TU), x/z/vz of the initial
-    state, ax/ay/az amplitudes (LU), approach1/approach2 (closest approach to the larger/smaller
-    primary, LU), nu1/nu2 (stability indices, real part) or nu_in/nu_out (planar orbits)."""
+    """A scalar of an orbit by name (nondimensional).
+
+    jacobi, period (TU), x/z/vz of the initial state, ax/ay/az amplitudes (LU),
+    approach1/approach2 (closest approach to the larger/smaller primary, LU), nu1/nu2
+    (stability indices, real part) or nu_in/nu_out (planar orbits).
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+    name : str
+        One of :data:`QUANTITIES`.
+
+    Returns
+    -------
+    float
+
+    Raises
+    ------
+    InputError
+        Unknown name.
+
+    References
+    ----------
+    .. [3] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (families of symmetric orbits and their stability).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import continuation, families
+    >>> em = system("earth-moon")
+    >>> fam = families.grow_family(em, "lyapunov", "L1", stops=continuation.Stops(max_members=3))
+    >>> continuation.quantity(fam.members[0], "jacobi") == fam.members[0].jacobi
+    True
+    """
     if name == "jacobi":
         return orbit.jacobi
     if name == "period":
@@ -215,14 +324,70 @@ def _solve_natural(system, sym, X_ref, t, ds, param, meta):
 
 def solve_between(system, sym, orbit_a, X_a, t_a, ds_b, g, g_a, g_b, meta, tol=1e-11, max_eval=40,
                   check=True):
-    """Orbit where ``g(orbit) = 0`` between arclength 0 (value g_a) and ds_b (value g_b),
-    Illinois regula falsi on the arclength (Dowell & Jarratt 1971).
+    """Orbit where ``g(orbit) = 0`` between arclength 0 and ``ds_b`` along ``t_a``.
 
-    ``check=False`` (used to locate branch points) accepts a solution whose full-period error
-    exceeds the periodicity tolerance: next to a branch point the half-period Jacobian is nearly
-    singular, Newton stalls a little higher, and a strongly unstable orbit (largest multiplier
-    ~250 for the vertical L1 branch point) then closes only to ~5e-10. The orbit keeps its
-    measured ``periodicity_error``; the members of the branching family are checked in full."""
+    Illinois regula falsi on the arclength (Dowell & Jarratt 1971). ``check=False`` (used to
+    locate branch points) accepts a solution whose full-period error exceeds the periodicity
+    tolerance: next to a branch point the half-period Jacobian is nearly singular, Newton stalls
+    a little higher, and a strongly unstable orbit (largest multiplier ~250 for the vertical L1
+    branch point) then closes only to ~5e-10. The orbit keeps its measured
+    ``periodicity_error``; the members of the branching family are checked in full.
+
+    Parameters
+    ----------
+    system : System
+    sym : Symmetry
+    orbit_a : PeriodicOrbit or None
+        Unused (kept for callers).
+    X_a : ndarray
+        Unknowns at arclength 0.
+    t_a : ndarray
+        Unit tangent.
+    ds_b : float
+        Arclength of the other end of the bracket.
+    g : callable(PeriodicOrbit) -> float
+    g_a, g_b : float
+        Values of ``g`` at the two ends (of opposite sign).
+    meta : dict
+        family, point, branch labels.
+    tol : float
+    max_eval : int
+    check : bool
+
+    Returns
+    -------
+    PeriodicOrbit
+
+    Raises
+    ------
+    ConvergenceError
+        When the bracket does not close within ``max_eval`` evaluations.
+
+    References
+    ----------
+    .. [1] M. Dowell and P. Jarratt, "A modified regula falsi method for computing the root of an
+       equation", *BIT* 11, 1971 (the Illinois variant; from memory).
+    .. [2] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems", in
+       *Applications of Bifurcation Theory*, Academic Press, 1977 (pseudo-arclength continuation,
+       branch switching).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import continuation, families
+    >>> em = system("earth-moon")
+    >>> fam = families.grow_family(em, "lyapunov", "L1", stops=continuation.Stops(max_members=3))
+    >>> from cr3bp.orbits import shooting
+    >>> sym = shooting.symmetry("xz-planar")
+    >>> a, b = fam.members[0], fam.members[1]
+    >>> Xa, Xb = continuation._X(a, sym), continuation._X(b, sym)
+    >>> L = float(((Xb - Xa) ** 2).sum() ** 0.5)
+    >>> mid = 0.5 * (a.jacobi + b.jacobi)
+    >>> o = continuation.solve_between(em, sym, a, Xa, (Xb - Xa) / L, L, lambda o: o.jacobi - mid,
+    ...                                a.jacobi - mid, b.jacobi - mid, {})
+    >>> abs(o.jacobi - mid) < 1e-10
+    True
+    """
     lo, hi, glo, ghi = 0.0, float(ds_b), float(g_a), float(g_b)
     side = 0
     best = None
@@ -325,19 +490,62 @@ def grow(system, first: PeriodicOrbit, kind, *, step=1e-3, max_step=0.05, direct
 
     Parameters
     ----------
-    first : PeriodicOrbit (converged)
-    kind : symmetry type of the family ("xz", "xz-planar", "x-axis")
-    step, max_step : initial and largest step (arclength in the unknowns (free state, T/2), or
-        the natural parameter's units)
-    direction : callable(tangent, X) -> float whose sign orients the first step (positive is
-        forward); default: keep the sign that increases the first free component
-    method : "arclength" or "natural" (then give ``parameter``: x, z, vz, jacobi, period)
+    system : System
+    first : PeriodicOrbit
+        Converged first member.
+    kind : str
+        Symmetry type of the family (``"xz"``, ``"xz-planar"``, ``"x-axis"``).
+    step, max_step : float
+        Initial and largest step (arclength in the unknowns (free state, T/2), or the natural
+        parameter's units).
+    direction : callable(tangent, X) -> float, optional
+        Its sign orients the first step (positive is forward); default: keep the sign that
+        increases the first free component.
+    method : str
+        ``"arclength"`` or ``"natural"`` (then give ``parameter``: x, z, vz, jacobi, period).
+    parameter : str, optional
     stops : Stops
-    progress : callable(count, max_members, orbit) called after each member (numerics never print)
+    family, point, branch : str
+        Labels of the members.
+    progress : callable(count, max_members, orbit), optional
+        Called after each member (numerics never print).
+    locate_bifurcations : bool
+    planar : bool, optional
+        Track the in-plane and out-of-plane indices separately (default: ``kind == "xz-planar"``).
+    settings : dict, optional
+        Stored with the family.
 
     Returns
     -------
-    Family (members, bifurcations, stop_reason, target if one was asked for)
+    Family
+        Members, bifurcations, stop_reason, target if one was asked for.
+
+    Raises
+    ------
+    InputError
+        Unknown method, or natural continuation without a parameter.
+    ConvergenceError
+        When the first step cannot be taken.
+
+    References
+    ----------
+    .. [1] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems", in
+       *Applications of Bifurcation Theory*, Academic Press, 1977 (pseudo-arclength continuation,
+       branch switching).
+    .. [2] E. J. Doedel et al., "Elemental periodic orbits associated with the libration points in
+       the circular restricted 3-body problem", *Int. J. Bifurcation and Chaos* 17, 2007 (families,
+       bifurcations and branch switching; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import continuation, seeds, shooting
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 1e-3)
+    >>> first = shooting.correct(em, sd.state, sd.half_period, sd.symmetry)
+    >>> fam = continuation.grow(em, first, "xz-planar", stops=continuation.Stops(max_members=3))
+    >>> len(fam.members), fam.stop_reason
+    (3, 'reached 3 members')
     """
     sym = shooting.symmetry(kind)
     if method not in ("arclength", "natural"):
@@ -472,9 +680,39 @@ def grow(system, first: PeriodicOrbit, kind, *, step=1e-3, max_step=0.05, direct
 
 
 def table_index(orbit, kind) -> int:
-    """Which of the member's indices (0: nu1, the larger |nu|; 1: nu2 — the numbering of
-    :attr:`PeriodicOrbit.stability_indices`, the family table and the stability plot) sits at
-    the level of a ``"+1"`` or ``"-1"`` crossing on ``orbit``."""
+    """Which of the member's indices sits at the level of a ``"+1"`` or ``"-1"`` crossing.
+
+    0: nu1, the larger |nu|; 1: nu2 (the numbering of
+    :attr:`PeriodicOrbit.stability_indices`, the family table and the stability plot).
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+    kind : str
+        ``"+1"`` or ``"-1"``.
+
+    Returns
+    -------
+    int
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [3] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (families of symmetric orbits and their stability).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import continuation, families
+    >>> em = system("earth-moon")
+    >>> fam = families.grow_family(em, "lyapunov", "L1", stops=continuation.Stops(max_members=3))
+    >>> continuation.table_index(fam.members[0], "+1")
+    1
+    """
     level = 1.0 if kind == "+1" else -1.0
     nus = [complex(v).real for v in stability.stability_indices(orbit.monodromy)]
     return int(np.argmin([abs(v - level) for v in nus]))
@@ -492,7 +730,33 @@ def _bif_note(kind, j, planar, orbit=None):
 
 
 def member_value(member, qname: str) -> float:
-    """:func:`quantity` of a PeriodicOrbit or of a catalogued member record (dict)."""
+    """:func:`quantity` of a PeriodicOrbit or of a catalogued member record (dict).
+
+    Parameters
+    ----------
+    member : PeriodicOrbit or dict
+    qname : str
+
+    Returns
+    -------
+    float
+
+    Raises
+    ------
+    InputError
+        A quantity not stored with catalogued members.
+
+    References
+    ----------
+    .. [3] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (families of symmetric orbits and their stability).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.continuation import member_value
+    >>> member_value({"jacobi": 3.1, "period": 2.7}, "jacobi")
+    3.1
+    """
     if isinstance(member, PeriodicOrbit):
         return quantity(member, qname)
     m = member
@@ -516,15 +780,69 @@ def _member_X(member, sym):
 
 
 def value_range(members, qname):
+    """Least and greatest value of a quantity over the members.
+
+    Parameters
+    ----------
+    members : sequence of PeriodicOrbit or dict
+    qname : str
+
+    Returns
+    -------
+    tuple of float
+
+    Raises
+    ------
+    InputError
+        As :func:`member_value`.
+
+    References
+    ----------
+    .. [3] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (families of symmetric orbits and their stability).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.continuation import value_range
+    >>> value_range([{"period": 2.7}, {"period": 2.9}], "period")
+    (2.7, 2.9)
+    """
     vals = [member_value(m, qname) for m in members]
     return min(vals), max(vals)
 
 
 def target_brackets(vals, value) -> list:
-    """Indices ``k`` of the consecutive member pairs ``(k, k + 1)`` between which
-    ``vals - value`` changes sign, one per place where the family meets the value: a member
-    that meets it exactly is counted once (with the pair before it), and a family that only
-    touches the value and turns back meets it once."""
+    """Indices of the consecutive member pairs between which ``vals - value`` changes sign.
+
+    One per place where the family meets the value: a member that meets it exactly is counted
+    once (with the pair before it), and a family that only touches the value and turns back
+    meets it once.
+
+    Parameters
+    ----------
+    vals : sequence of float
+    value : float
+
+    Returns
+    -------
+    list of int
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems", in
+       *Applications of Bifurcation Theory*, Academic Press, 1977 (pseudo-arclength continuation,
+       branch switching).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.continuation import target_brackets
+    >>> target_brackets([3.0, 3.1, 3.2, 3.1, 3.0], 3.05)
+    [0, 3]
+    """
     out = []
     for k in range(len(vals) - 1):
         ga, gb = vals[k] - value, vals[k + 1] - value
@@ -538,10 +856,10 @@ def target_brackets(vals, value) -> list:
 
 def solve_on_members(system, kind, members, qname, value, family="", point="", branch="",
                      occurrence=1):
-    """The member of an already computed (e.g. catalogued) family where ``quantity = value``.
+    """The member of an already computed family where ``quantity = value``.
 
     ``members`` are PeriodicOrbits or catalogue records (dicts). Families are not monotone in
-    every quantity (the Earth–Moon L2 halo family meets a Jacobi constant of 3.05 twice), so
+    every quantity (the Earth-Moon L2 halo family meets a Jacobi constant of 3.05 twice), so
     every place where the family meets the value is found (:func:`target_brackets`, in order
     from the family's start) and the ``occurrence``-th one (1-based) is solved: directly with
     the quantity held (jacobi, period, x, z, vz) or by regula falsi along the secant of the
@@ -549,11 +867,51 @@ def solve_on_members(system, kind, members, qname, value, family="", point="", b
     not recomputed. ``orbit.extra["target_matches"]`` records ``occurrence``, ``count`` and,
     per place, the member index and the period (TU) and Jacobi constant interpolated there.
 
+    Parameters
+    ----------
+    system : System
+    kind : str
+        Symmetry type.
+    members : sequence of PeriodicOrbit or dict
+    qname : str
+        Quantity (see :func:`quantity`).
+    value : float
+        Nondimensional.
+    family, point, branch : str
+        Labels of the orbit.
+    occurrence : int
+
+    Returns
+    -------
+    PeriodicOrbit
+
     Raises
     ------
-    NoSolutionError when no pair brackets the value (the message gives the available range,
-    nondimensional; the request layer restates it in the user's units), or when the family
-    meets it fewer than ``occurrence`` times.
+    NoSolutionError
+        When no pair brackets the value (the message gives the available range,
+        nondimensional; the request layer restates it in the user's units), or when the family
+        meets it fewer than ``occurrence`` times.
+    ConvergenceError
+        When the member does not correct.
+
+    References
+    ----------
+    .. [1] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems", in
+       *Applications of Bifurcation Theory*, Academic Press, 1977 (pseudo-arclength continuation,
+       branch switching).
+    .. [3] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (families of symmetric orbits and their stability).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import continuation, families
+    >>> em = system("earth-moon")
+    >>> fam = families.grow_family(em, "lyapunov", "L1", stops=continuation.Stops(max_members=3))
+    >>> c = 0.5 * (fam.members[0].jacobi + fam.members[1].jacobi)
+    >>> o = continuation.solve_on_members(em, "xz-planar", fam.members, "jacobi", c)
+    >>> abs(o.jacobi - c) < 1e-10, o.extra["target_matches"]["count"]
+    (True, 1)
     """
     sym = shooting.symmetry(kind)
     vals = [member_value(m, qname) for m in members]
@@ -610,8 +968,51 @@ def branch_direction(system, kind, orbit, parent_tangent):
     At a simple branch point the half-period Jacobian (n-1 x n) loses one rank, so its null
     space is two-dimensional: the parent family's tangent and the branch's. The branch direction
     is the unit vector of that plane (the last two right singular vectors) orthogonal to the
-    parent's tangent (Keller 1977; Doedel et al. 2007, branch switching in the same symmetry
-    class). Returns (direction, ratio of the two smallest singular values to the largest).
+    parent's tangent.
+
+    Parameters
+    ----------
+    system : System
+    kind : str
+        Symmetry type.
+    orbit : PeriodicOrbit
+        The orbit at the branch point.
+    parent_tangent : array_like
+        The parent family's tangent there.
+
+    Returns
+    -------
+    direction : ndarray
+        Unit vector.
+    ratio : float
+        Smallest singular value over the largest (near 0 at a branch point).
+
+    Raises
+    ------
+    numpy.linalg.LinAlgError
+        When the singular value decomposition does not converge.
+
+    References
+    ----------
+    .. [1] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems", in
+       *Applications of Bifurcation Theory*, Academic Press, 1977 (pseudo-arclength continuation,
+       branch switching).
+    .. [2] E. J. Doedel et al., "Elemental periodic orbits associated with the libration points in
+       the circular restricted 3-body problem", *Int. J. Bifurcation and Chaos* 17, 2007 (families,
+       bifurcations and branch switching; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import continuation, families
+    >>> em = system("earth-moon")
+    >>> fam = families.grow_family(em, "lyapunov", "L1", stops=continuation.Stops(max_members=3))
+    >>> from cr3bp.orbits import shooting
+    >>> sym = shooting.symmetry("xz-planar")
+    >>> t = continuation._X(fam.members[1], sym) - continuation._X(fam.members[0], sym)
+    >>> d, ratio = continuation.branch_direction(em, "xz-planar", fam.members[0], t)
+    >>> d.shape, ratio > 1e-6        # not a branch point: the Jacobian keeps its rank
+    ((3,), True)
     """
     sym = shooting.symmetry(kind)
     X = _X(orbit, sym)
@@ -627,11 +1028,53 @@ def branch_direction(system, kind, orbit, parent_tangent):
 
 
 def switch_branch(system, kind, orbit, parent_tangent, ds=5e-3, meta=None):
-    """First member of the family crossing the parent at branch point ``orbit``: predictor
-    ``X_bp + ds t_b`` along :func:`branch_direction`, corrector Newton with the pseudo-arclength
-    condition along ``t_b`` (Keller 1977). The member's distance from the parent's tangent line
-    is checked to be at least ds/4, so the corrector cannot fall back onto the parent family.
-    Returns (orbit, t_b)."""
+    """First member of the family crossing the parent at branch point ``orbit``.
+
+    Predictor ``X_bp + ds t_b`` along :func:`branch_direction`, corrector Newton with the
+    pseudo-arclength condition along ``t_b``. The member's distance from the parent's tangent
+    line is checked to be at least ds/4, so the corrector cannot fall back onto the parent
+    family.
+
+    Parameters
+    ----------
+    system : System
+    kind : str
+        Symmetry type.
+    orbit : PeriodicOrbit
+        The orbit at the branch point.
+    parent_tangent : array_like
+    ds : float
+        Predictor step.
+    meta : dict, optional
+        family, point, branch labels of the new member.
+
+    Returns
+    -------
+    orbit : PeriodicOrbit
+    t_b : ndarray
+        The branch direction, oriented along the step taken.
+
+    Raises
+    ------
+    ConvergenceError
+        When no step lands on the other family.
+
+    References
+    ----------
+    .. [1] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems", in
+       *Applications of Bifurcation Theory*, Academic Press, 1977 (pseudo-arclength continuation,
+       branch switching).
+    .. [2] E. J. Doedel et al., "Elemental periodic orbits associated with the libration points in
+       the circular restricted 3-body problem", *Int. J. Bifurcation and Chaos* 17, 2007 (families,
+       bifurcations and branch switching; from memory).
+
+    Examples
+    --------
+    The vertical family branches from the axial family (Doedel et al. 2007); growing them takes
+    minutes, so this example is not run here (tests/test_orbits_branching.py runs it):
+
+    >>> first, tb = continuation.switch_branch(em, "x-axis", junction, axial_tangent)  # doctest: +SKIP
+    """
     sym = shooting.symmetry(kind)
     tb, _ = branch_direction(system, kind, orbit, parent_tangent)
     X0 = _X(orbit, sym)
