@@ -424,10 +424,61 @@ def _far_crossing_is_start(system, orbit, point):
 def grow_family(system, family, point="", branch="", *, stops=None, method="arclength",
                 parameter=None, step=None, progress=None, resonance=None, eccentricity=None,
                 first=None, locate_bifurcations=True, max_step=None, alignment="secondary"):
-    """Compute a named family from its recipe (see module table). Returns a Family.
+    """Compute a named family from its recipe (:mod:`cr3bp.orbits.recipes`).
 
     Resonant families with ``alignment="secondary"`` are followed along the resonance towards
-    the secondary (:func:`grow_resonant`)."""
+    the secondary (:func:`grow_resonant`).
+
+    Parameters
+    ----------
+    system : System
+    family, point, branch : str
+        As for :func:`check_family` (resonant families: point and branch are not used).
+    stops : continuation.Stops, optional
+    method : str
+        ``"arclength"`` or ``"natural"``.
+    parameter : str, optional
+        Natural-parameter continuation: x, z, vz, jacobi or period.
+    step, max_step : float, optional
+        First and largest step; default the recipe's.
+    progress : callable(count, max, orbit), optional
+    resonance : tuple of int, optional
+        ``(p, q)`` of a resonant family.
+    eccentricity : float, optional
+        Seed eccentricity of a resonant family.
+    first : tuple, optional
+        A first member as returned by :func:`first_member` (skips the seeding).
+    locate_bifurcations : bool
+    alignment : str
+        Resonant families: ``"secondary"`` or ``"away"`` (see :func:`first_member`).
+
+    Returns
+    -------
+    continuation.Family
+
+    Raises
+    ------
+    InputError
+        A bad family, point, branch, resonance or alignment.
+    ConvergenceError, NoSolutionError
+        When the first member or a step fails.
+
+    References
+    ----------
+    .. [1] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems", in
+       *Applications of Bifurcation Theory*, Academic Press, 1977 (pseudo-arclength continuation).
+    .. [2] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import continuation, families
+    >>> fam = families.grow_family(system("earth-moon"), "halo", "L1", "north",
+    ...                            stops=continuation.Stops(max_members=3))
+    >>> len(fam.members), fam.members[0].branch, bool(fam.members[0].state[2] > 0)
+    (3, 'north', True)
+    """
     rec = recipes.RECIPES.get(family)
     on_ratio = rec is not None and rec.ratio
     family, point, branch = (family, "", branch) if on_ratio else check_family(family, point, branch)
@@ -451,8 +502,37 @@ def grow_family(system, family, point="", branch="", *, stops=None, method="arcl
 
 
 def resonance_band(resonance, tol=None):
-    """(low, high) of the rotating-frame period (TU) of members on the p:q resonance:
-    ``2 pi q (1 -+ tol)`` (:data:`RESONANCE_TOL`)."""
+    """Low and high rotating-frame period (TU) of members on the p:q resonance.
+
+    ``2 pi q (1 -+ tol)`` (:data:`RESONANCE_TOL`).
+
+    Parameters
+    ----------
+    resonance : tuple of int
+        ``(p, q)``.
+    tol : float, optional
+        Default :data:`RESONANCE_TOL`.
+
+    Returns
+    -------
+    tuple of float
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] M. Hénon, "Numerical exploration of the restricted problem. V", *Astron. Astrophys.* 1,
+       1969 (periodic orbits of the planar problem lie on one-parameter families along which
+       period and Jacobi constant change together; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.families import resonance_band
+    >>> [round(v, 4) for v in resonance_band((3, 2), tol=0.01)]
+    [12.4407, 12.692]
+    """
     tol = RESONANCE_TOL if tol is None else tol
     q = resonance[1]
     return (2 * math.pi * q * (1 - tol), 2 * math.pi * q * (1 + tol))
@@ -473,7 +553,45 @@ def grow_resonant(system, resonance, *, stops=None, method="arclength", paramete
        band, or another stop applies.
 
     Every member's ``period_ratio`` (see :class:`cr3bp.orbits.orbit.PeriodicOrbit`) then lies
-    within the band: the label p:q holds to :data:`RESONANCE_TOL` of the period."""
+    within the band: the label p:q holds to :data:`RESONANCE_TOL` of the period.
+
+    Parameters
+    ----------
+    system : System
+    resonance : tuple of int
+        ``(p, q)``.
+    stops : continuation.Stops, optional
+    method, parameter, step, progress, eccentricity, locate_bifurcations, max_step
+        As for :func:`grow_family`.
+
+    Returns
+    -------
+    continuation.Family
+
+    Raises
+    ------
+    InputError
+        No resonance given, or one that is not offered.
+    NoSolutionError
+        No Kepler guess converges onto the resonance.
+
+    References
+    ----------
+    .. [1] M. Hénon, "Numerical exploration of the restricted problem. V", *Astron. Astrophys.* 1,
+       1969 (periodic orbits of the planar problem lie on one-parameter families along which
+       period and Jacobi constant change together; from memory).
+    .. [2] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011 (resonant orbits and flybys).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import continuation, families
+    >>> fam = families.grow_resonant(system("earth-moon"), (3, 2), stops=continuation.Stops(max_members=3))
+    >>> lo, hi = families.resonance_band((3, 2))
+    >>> all(lo <= m.period <= hi for m in fam.members)
+    True
+    """
     from dataclasses import replace
     if resonance is None:
         raise InputError("the resonant family needs p:q, e.g. 3:2")
@@ -622,9 +740,45 @@ def _x_half_gap(system, orbit):
 
 
 def vertical_junction(system, axial, point):
-    """The orbit where the axial family meets the vertical family: the sign change of
-    :func:`_x_half_gap` between two consecutive axial members, solved by regula falsi along
-    their secant. Returns (orbit, member index before it, axial secant there)."""
+    """The orbit where the axial family meets the vertical family.
+
+    The sign change of ``x(T/2) - x(0)`` between two consecutive axial members, solved by
+    regula falsi along their secant.
+
+    Parameters
+    ----------
+    system : System
+    axial : continuation.Family
+        The axial family.
+    point : str
+
+    Returns
+    -------
+    orbit : PeriodicOrbit
+    index : int
+        Member index before it.
+    tangent : ndarray
+        Axial secant there.
+
+    Raises
+    ------
+    ConvergenceError
+        When the axial family does not reach a vertical orbit.
+
+    References
+    ----------
+    .. [1] E. J. Doedel et al., "Elemental periodic orbits associated with the libration points in
+       the circular restricted 3-body problem", *Int. J. Bifurcation and Chaos* 17, 2007 (the axial
+       family joins the Lyapunov and vertical families; from memory).
+
+    Examples
+    --------
+    Growing the axial and vertical families takes minutes, so this example is not run here
+    (tests/test_orbits_branching.py runs it)::
+
+        >>> axial, _ = families.branch_family(em, "axial", "L1")  # doctest: +SKIP
+        >>> orbit, k, t = families.vertical_junction(em, axial, "L1")  # doctest: +SKIP
+    """
     sym = shooting.symmetry("x-axis")
     gs = [_x_half_gap(system, m) for m in axial.members]
     meta = dict(family="vertical", point=point, branch="")
@@ -656,10 +810,49 @@ def vertical_junction(system, axial, point):
 
 
 def vertical_by_branching(system, point, *, stops=None, progress=None, axial=None, max_step=None):
-    """The vertical family grown from its branch point with the axial family, the axial family
-    itself branched from the Lyapunov family (Doedel et al. 2007, from memory).
+    """The vertical family grown from its branch point with the axial family.
 
-    Returns (vertical Family grown towards the Lagrange point, junction orbit)."""
+    The axial family itself is branched from the Lyapunov family.
+
+    Parameters
+    ----------
+    system : System
+    point : str
+        ``"L1"`` or ``"L2"``.
+    stops : continuation.Stops, optional
+    progress : callable, optional
+    axial : continuation.Family, optional
+        The axial family already grown.
+    max_step : float, optional
+
+    Returns
+    -------
+    family : continuation.Family
+        Vertical family grown towards the Lagrange point.
+    junction : PeriodicOrbit
+
+    Raises
+    ------
+    InputError
+        A bad point.
+    ConvergenceError
+        When the junction or the branch switch fails.
+
+    References
+    ----------
+    .. [1] E. J. Doedel et al., "Elemental periodic orbits associated with the libration points in
+       the circular restricted 3-body problem", *Int. J. Bifurcation and Chaos* 17, 2007 (the axial
+       family joins the Lyapunov and vertical families; from memory).
+    .. [2] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems", in
+       *Applications of Bifurcation Theory*, Academic Press, 1977 (pseudo-arclength continuation).
+
+    Examples
+    --------
+    Growing the axial and vertical families takes minutes, so this example is not run here
+    (tests/test_orbits_branching.py runs it)::
+
+        >>> fam, junction = families.vertical_by_branching(em, "L1")  # doctest: +SKIP
+    """
     _, point, _ = check_family("vertical", point, None)
     if axial is None:
         axial, _ = branch_family(system, "axial", point, stops=continuation.Stops(max_members=400))
@@ -677,12 +870,51 @@ def vertical_by_branching(system, point, *, stops=None, progress=None, axial=Non
 
 
 def axial_from_vertical(system, point, *, stops=None, progress=None, vertical=None, max_step=None):
-    """The axial family branched from the vertical family (grown from its linear seed) at the
-    vertical family's first out-of-plane +1 crossing (Doedel et al. 2007, from memory), grown
-    towards the Lyapunov family (for L1 x decreases, for L2 x increases: towards the crossing
-    farther from the Moon).
+    """The axial family branched from the vertical family at its first +1 crossing.
 
-    Returns (axial Family, Bifurcation on the vertical family)."""
+    The vertical family is grown from its linear seed; the axial family is grown towards the
+    Lyapunov family (for L1 x decreases, for L2 x increases: towards the crossing farther from
+    the Moon).
+
+    Parameters
+    ----------
+    system : System
+    point : str
+        ``"L1"`` or ``"L2"``.
+    stops : continuation.Stops, optional
+    progress : callable, optional
+    vertical : continuation.Family, optional
+        The vertical family already grown (to its first branch point).
+    max_step : float, optional
+
+    Returns
+    -------
+    family : continuation.Family
+    bifurcation : continuation.Bifurcation
+        Where it leaves the vertical family.
+
+    Raises
+    ------
+    InputError
+        A bad point.
+    ConvergenceError
+        When the vertical family shows no +1 crossing, or the branch switch fails.
+
+    References
+    ----------
+    .. [1] E. J. Doedel et al., "Elemental periodic orbits associated with the libration points in
+       the circular restricted 3-body problem", *Int. J. Bifurcation and Chaos* 17, 2007 (the axial
+       family joins the Lyapunov and vertical families; from memory).
+    .. [2] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems", in
+       *Applications of Bifurcation Theory*, Academic Press, 1977 (pseudo-arclength continuation).
+
+    Examples
+    --------
+    Growing the axial and vertical families takes minutes, so this example is not run here
+    (tests/test_orbits_branching.py runs it)::
+
+        >>> fam, bif = families.axial_from_vertical(em, "L1")  # doctest: +SKIP
+    """
     _, point, _ = check_family("axial", point, None)
     if vertical is None:
         vertical = grow_family(system, "vertical", point,
