@@ -47,7 +47,6 @@ MODULES = [
 
 #: Public names whose docstrings do not yet have the sections (module -> names).
 NOT_YET: dict[str, set[str]] = {
-    "cr3bp.orbits.request": {'OrbitSpec', 'catalog_member', 'catalog_settings', 'compute_into_catalog', 'default_stops', 'describe_places', 'family_key', 'parse_occurrence', 'parse_request', 'solve_request', 'spec_from_options'},
     "cr3bp.equilibria": {'LagrangePoint', 'LinearModes', 'collinear_gamma', 'jacobi_constants', 'lagrange_point', 'lagrange_points', 'linear_modes', 'point_name', 'routh_critical_mu'},
     "cr3bp.energy": {'HillRegion', 'check_extent', 'check_jacobi', 'default_extent', 'energy_table', 'hill_region', 'jacobi', 'jacobi_above', 'necks', 'realms', 'speed_at_point', 'two_omega'},
     "cr3bp.catalog": {'Catalog', 'CatalogWriteError', 'default_path', 'finite_or_none', 'settings_hash'},

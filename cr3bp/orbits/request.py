@@ -32,6 +32,36 @@ ALIASES = {"nrho": "halo", "lyap": "lyapunov", "planar": "lyapunov"}
 
 @dataclass(frozen=True)
 class OrbitSpec:
+    """A parsed orbit request: family, point, branch, one target and its place.
+
+    Parameters
+    ----------
+    family : str
+    point, branch : str
+        ``""`` where the family has none.
+    key : str
+        Target word (``"period"``), ``""`` for none.
+    value : str
+        Target value as written (``"6.5626d"``).
+    resonance : tuple of int, optional
+        p:q of a resonant family (not a target).
+    occurrence : int
+        Which place along the family meeting the target.
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (picking a member of a family by a property).
+    .. [2] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems", in
+       *Applications of Bifurcation Theory*, Academic Press, 1977 (the continuation that grows the
+       family).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.request import parse_request
+    >>> parse_request("resonant 3:2 jacobi=3.07").branch_label
+    '3:2'
+    """
     family: str
     point: str = ""
     branch: str = ""
@@ -55,7 +85,40 @@ class OrbitSpec:
 
 
 def parse_request(text: str) -> OrbitSpec:
-    """Parse a request (grammar in the module notes). Raises InputError naming the bad word."""
+    """Parse a request (grammar in the module notes).
+
+    Parameters
+    ----------
+    text : str
+        E.g. ``"halo L2 south period=6.5626d"``.
+
+    Returns
+    -------
+    OrbitSpec
+
+    Raises
+    ------
+    InputError
+        Naming the bad word and what is allowed.
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (picking a member of a family by a property).
+    .. [2] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems", in
+       *Applications of Bifurcation Theory*, Academic Press, 1977 (the continuation that grows the
+       family).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.request import parse_request
+    >>> parse_request("nrho L2 southern az=70000km")
+    OrbitSpec(family='halo', point='L2', branch='south', key='az', value='70000km', resonance=None, occurrence=1)
+    >>> parse_request("halo L2 south colour=red")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: unknown target 'colour'; allowed: period, jacobi, ax, ay, az, x, perilune, resonance
+    """
     if not isinstance(text, str) or not text.strip():
         raise InputError("empty orbit request; expected e.g. 'halo L2 south period=6.5626d'")
     if not text.isprintable():
@@ -104,7 +167,35 @@ def parse_request(text: str) -> OrbitSpec:
 
 
 def parse_occurrence(value) -> int:
-    """``occurrence`` as an int >= 1 (InputError naming the value otherwise)."""
+    """``occurrence`` as an int >= 1.
+
+    Parameters
+    ----------
+    value : str or int
+
+    Returns
+    -------
+    int
+
+    Raises
+    ------
+    InputError
+        Naming the value when it is not a whole number >= 1.
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (picking a member of a family by a property).
+    .. [2] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems", in
+       *Applications of Bifurcation Theory*, Academic Press, 1977 (the continuation that grows the
+       family).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.request import parse_occurrence
+    >>> parse_occurrence(" 2 ")
+    2
+    """
     text = str(value).strip()
     if not text.isdigit() or int(text) < 1:
         raise InputError(f"occurrence {value!r} must be a whole number >= 1 (1: the first place "
@@ -114,7 +205,41 @@ def parse_occurrence(value) -> int:
 
 def spec_from_options(family, point=None, branch=None, resonance_family=None, occurrence=None,
                       **target) -> OrbitSpec:
-    """The same spec from separate options (the CLI's --family/--point/--branch/--period ...)."""
+    """The same spec from separate options (the CLI's --family/--point/--branch/--period ...).
+
+    Parameters
+    ----------
+    family : str
+    point, branch : str, optional
+    resonance_family : str, optional
+        p:q of a resonant family.
+    occurrence : int or str, optional
+    **target
+        At most one target keyword (``period="6.5626d"``); None values are ignored.
+
+    Returns
+    -------
+    OrbitSpec
+
+    Raises
+    ------
+    InputError
+        More than one target, or as :func:`parse_request`.
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (picking a member of a family by a property).
+    .. [2] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems", in
+       *Applications of Bifurcation Theory*, Academic Press, 1977 (the continuation that grows the
+       family).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.request import spec_from_options
+    >>> spec_from_options("halo", "L1", "north", az="12000km").key
+    'az'
+    """
     given = {k: v for k, v in target.items() if v is not None}
     if len(given) > 1:
         raise InputError(f"give one target, not {len(given)}: {', '.join('--' + k for k in given)}")
@@ -126,12 +251,69 @@ def spec_from_options(family, point=None, branch=None, resonance_family=None, oc
 
 
 def default_stops(system, spec: OrbitSpec) -> continuation.Stops:
-    """How far a requested family is grown: all of it (up to 600 members), so that every
-    place meeting the target is known."""
+    """How far a requested family is grown: all of it (up to 600 members).
+
+    So that every place meeting the target is known.
+
+    Parameters
+    ----------
+    system : System
+    spec : OrbitSpec
+
+    Returns
+    -------
+    continuation.Stops
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (picking a member of a family by a property).
+    .. [2] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems", in
+       *Applications of Bifurcation Theory*, Academic Press, 1977 (the continuation that grows the
+       family).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.request import default_stops
+    >>> default_stops(None, None).max_members
+    600
+    """
     return continuation.Stops(max_members=600)
 
 
 def family_key(spec: OrbitSpec):
+    """The (family, point, branch label) a family is catalogued under.
+
+    Parameters
+    ----------
+    spec : OrbitSpec
+
+    Returns
+    -------
+    tuple of str
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (picking a member of a family by a property).
+    .. [2] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems", in
+       *Applications of Bifurcation Theory*, Academic Press, 1977 (the continuation that grows the
+       family).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.request import family_key, parse_request
+    >>> family_key(parse_request("resonant 3:2 jacobi=3.07"))
+    ('resonant', '', '3:2')
+    """
     return (spec.family, spec.point, spec.branch_label)
 
 
@@ -141,20 +323,43 @@ def solve_request(system, spec, catalog=None, progress=None) -> PeriodicOrbit:
     Parameters
     ----------
     system : System
-    spec : OrbitSpec or str (parsed with :func:`parse_request`)
+    spec : OrbitSpec or str
+        Parsed with :func:`parse_request` when text.
     catalog : cr3bp.catalog.Catalog, optional
         When given, the family is read from it if catalogued by this version of the recipes
         (:data:`RECIPE`; not recomputed: only the two members bracketing the target are
-        corrected), else computed in full and stored.
-        Without it the family is computed in full and not kept. Either way every place
-        where the family meets the target is known, the ``spec.occurrence``-th is solved,
-        and ``orbit.extra["target_matches"]`` lists them all.
+        corrected), else computed in full and stored. Without it the family is computed in full
+        and not kept. Either way every place where the family meets the target is known, the
+        ``spec.occurrence``-th is solved, and ``orbit.extra["target_matches"]`` lists them all.
     progress : callable(count, max, orbit), optional
+
+    Returns
+    -------
+    PeriodicOrbit
 
     Raises
     ------
-    InputError (malformed request), NoSolutionError (target outside the family; the message
-    gives the family's range in the request's units), ConvergenceError.
+    InputError
+        Malformed request, or no target.
+    NoSolutionError
+        Target outside the family (the message gives the family's range in the request's units).
+    ConvergenceError
+        When a member does not correct.
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (picking a member of a family by a property).
+    .. [2] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems", in
+       *Applications of Bifurcation Theory*, Academic Press, 1977 (the continuation that grows the
+       family).
+
+    Examples
+    --------
+    Growing the whole family takes several seconds, so this example is not run here
+    (tests/test_cli_orbits.py runs requests end to end)::
+
+        >>> orbit = solve_request(system("earth-moon"), "halo L2 south period=6.5626d")  # doctest: +SKIP
     """
     if isinstance(spec, str):
         spec = parse_request(spec)
@@ -195,9 +400,39 @@ def solve_request(system, spec, catalog=None, progress=None) -> PeriodicOrbit:
 
 
 def describe_places(orbit_dict) -> list:
-    """One text per place where the orbit's family meets its target ("period 13.3147 d,
-    Jacobi constant 3.050000"), from ``target_matches`` of :meth:`PeriodicOrbit.to_dict`;
-    empty when the target is met at one place only."""
+    """One text per place where the orbit's family meets its target.
+
+    E.g. "period 13.3147 d, Jacobi constant 3.050000", from ``target_matches`` of
+    :meth:`PeriodicOrbit.to_dict`; empty when the target is met at one place only.
+
+    Parameters
+    ----------
+    orbit_dict : dict
+        :meth:`PeriodicOrbit.to_dict` of a requested orbit.
+
+    Returns
+    -------
+    list of str
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (picking a member of a family by a property).
+    .. [2] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems", in
+       *Applications of Bifurcation Theory*, Academic Press, 1977 (the continuation that grows the
+       family).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.request import describe_places
+    >>> describe_places({"target_matches": {"count": 2, "places": [
+    ...     {"period_days": 13.3147, "jacobi": 3.05}, {"period_days": 9.1, "jacobi": 3.05}]}})
+    ['period 13.3147 d, Jacobi constant 3.050000', 'period 9.1000 d, Jacobi constant 3.050000']
+    """
     tm = orbit_dict.get("target_matches")
     if not tm or tm["count"] < 2:
         return []
@@ -223,6 +458,40 @@ def _range_message(system, spec, tg, lo, hi):
 
 
 def catalog_member(orbit: PeriodicOrbit, index: int) -> dict:
+    """A member's record for the catalogue: ``to_dict()`` with its index, without the system.
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+    index : int
+
+    Returns
+    -------
+    dict
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (picking a member of a family by a property).
+    .. [2] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems", in
+       *Applications of Bifurcation Theory*, Academic Press, 1977 (the continuation that grows the
+       family).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> from cr3bp.orbits.request import catalog_member
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 1e-3)
+    >>> rec = catalog_member(shooting.correct(em, sd.state, sd.half_period, sd.symmetry), 0)
+    >>> rec["index"], "system" in rec
+    (0, False)
+    """
     d = orbit.to_dict()
     d["index"] = int(index)
     d.pop("system", None)
@@ -239,15 +508,86 @@ RECIPE = 3
 
 
 def catalog_settings(spec: OrbitSpec, stops: continuation.Stops) -> dict:
-    """The settings a catalogued family is keyed by (what changes its members)."""
+    """The settings a catalogued family is keyed by (what changes its members).
+
+    Parameters
+    ----------
+    spec : OrbitSpec
+    stops : continuation.Stops
+
+    Returns
+    -------
+    dict
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (picking a member of a family by a property).
+    .. [2] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems", in
+       *Applications of Bifurcation Theory*, Academic Press, 1977 (the continuation that grows the
+       family).
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.continuation import Stops
+    >>> from cr3bp.orbits.request import catalog_settings, parse_request
+    >>> catalog_settings(parse_request("dro x=1.08"), Stops())["recipe"]
+    3
+    """
     return {"recipe": RECIPE, "family": spec.family, "point": spec.point, "branch": spec.branch_label,
             "max_members": stops.max_members, "altitude_km": stops.altitude_km,
             "bounds": {k: list(v) for k, v in stops.bounds.items()}}
 
 
 def compute_into_catalog(catalog, system, spec: OrbitSpec, stops=None, progress=None):
-    """Grow the family of ``spec`` and store it; each member is written as it converges, so an
-    interrupted run keeps what it computed. Returns the Family."""
+    """Grow the family of ``spec`` and store it.
+
+    Each member is written as it converges, so an interrupted run keeps what it computed.
+
+    Parameters
+    ----------
+    catalog : cr3bp.catalog.Catalog
+    system : System
+    spec : OrbitSpec
+    stops : continuation.Stops, optional
+        Default :func:`default_stops`.
+    progress : callable(count, max, orbit), optional
+
+    Returns
+    -------
+    continuation.Family
+
+    Raises
+    ------
+    InputError, ConvergenceError, NoSolutionError
+        As :func:`cr3bp.orbits.families.grow_family`.
+    CatalogWriteError
+        When the catalogue cannot be written.
+
+    References
+    ----------
+    .. [1] K. C. Howell, "Three-dimensional, periodic, 'halo' orbits", *Celestial Mechanics* 32,
+       1984 (picking a member of a family by a property).
+    .. [2] H. B. Keller, "Numerical solution of bifurcation and nonlinear eigenvalue problems", in
+       *Applications of Bifurcation Theory*, Academic Press, 1977 (the continuation that grows the
+       family).
+
+    Examples
+    --------
+    >>> from cr3bp.catalog import Catalog
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits.continuation import Stops
+    >>> from cr3bp.orbits.request import compute_into_catalog, parse_request
+    >>> cat = Catalog(":memory:")
+    >>> fam = compute_into_catalog(cat, system("earth-moon"), parse_request("lyapunov L1 jacobi=3.18"),
+    ...                            stops=Stops(max_members=3))
+    >>> [f["members"] for f in cat.list_families()]
+    [3]
+    """
     stops = stops or default_stops(system, spec)
     fid = catalog.begin_family(system, spec.family, spec.point, spec.branch_label,
                                catalog_settings(spec, stops))
