@@ -50,7 +50,27 @@ IMAGINARY_TOL = 1e-9
 def routh_critical_mu() -> float:
     """Routh's critical mass ratio ``mu_R = (1 - sqrt(23/27)) / 2 ~ 0.0385208965``.
 
-    Below it the triangular points are linearly stable (Routh 1875; Szebehely 1967, §5.5).
+    Below it the triangular points are linearly stable.
+
+    Returns
+    -------
+    float
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] E. J. Routh, "On Laplace's three particles, with a supplement on the stability of
+       steady motion", *Proc. London Math. Soc.* 6, 1875.
+    .. [2] V. Szebehely, *Theory of Orbits*, Academic Press, 1967, §5.5 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.equilibria import routh_critical_mu
+    >>> round(routh_critical_mu(), 10)
+    0.0385208965
     """
     return 0.5 * (1.0 - math.sqrt(23.0 / 27.0))
 
@@ -83,10 +103,16 @@ def _bracket(name: str, mu: float) -> tuple[float, float, float]:
 def collinear_gamma(name: str, mu: float) -> tuple[float, int]:
     """Distance ``gamma`` of a collinear point from its nearer primary, by safeguarded Newton.
 
-    Newton's method on the quintic of Szebehely (1967, §4.4) / Richardson (1980, §2), falling
-    back to bisection whenever a step would leave the bracket that holds the root (the
-    quintic has exactly one root in it: one sign change for L2/L3, and for L1 the unique
-    equilibrium between the primaries).
+    Newton's method on the quintic in gamma, falling back to bisection whenever a step would
+    leave the bracket that holds the root (the quintic has exactly one root in it: one sign
+    change for L2/L3, and for L1 the unique equilibrium between the primaries).
+
+    Parameters
+    ----------
+    name : str
+        ``"L1"``, ``"L2"`` or ``"L3"``.
+    mu : float
+        Mass ratio.
 
     Returns
     -------
@@ -95,8 +121,24 @@ def collinear_gamma(name: str, mu: float) -> tuple[float, int]:
 
     Raises
     ------
+    InputError
+        ``name`` is not collinear.
     ConvergenceError
         No convergence within ``GAMMA_MAX_ITER`` iterations.
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits: The Restricted Problem of Three Bodies*, Academic
+       Press, 1967, §4.4-§5.5 (the equilibria, their quintic and their stability; from memory).
+    .. [2] D. L. Richardson, "Analytic construction of periodic orbits about the collinear points",
+       *Celestial Mechanics* 22, 1980, §2.
+
+    Examples
+    --------
+    >>> from cr3bp.equilibria import collinear_gamma
+    >>> g, it = collinear_gamma("L1", 0.0121505843)
+    >>> round(g, 6)
+    0.150934
     """
     c = _quintic(name, float(mu))
     lo, hi, g = _bracket(name, mu)
@@ -148,7 +190,7 @@ def _frozen(a) -> np.ndarray:
 class LinearModes:
     """Linearised motion about an equilibrium.
 
-    Attributes
+    Parameters
     ----------
     eigenvalues : (6,) complex
         Eigenvalues of :func:`cr3bp.dynamics.jacobian` at the point (numpy), ordered:
@@ -183,6 +225,23 @@ class LinearModes:
         first is the seed of a planar Lyapunov orbit started on the x axis.
     vertical_centre : (2, 6) float
         ``[0, 0, 1, 0, 0, 0]`` and ``[0, 0, 0, 0, 0, omega_v]``: the seed of a vertical orbit.
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits: The Restricted Problem of Three Bodies*, Academic
+       Press, 1967, §4.4-§5.5 (the equilibria, their quintic and their stability; from memory).
+    .. [2] D. L. Richardson, "Analytic construction of periodic orbits about the collinear points",
+       *Celestial Mechanics* 22, 1980, §2.
+    .. [3] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §2.7 and §4.4 (linearisation about the points).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.equilibria import lagrange_point
+    >>> L1 = lagrange_point(system("earth-moon"), "L1")
+    >>> L1.modes.kind, round(L1.modes.omega_inplane, 4)
+    ('saddle x centre x centre', 2.3344)
     """
 
     eigenvalues: np.ndarray
@@ -232,11 +291,44 @@ class LinearModes:
 
 
 def linear_modes(mu: float, position, name: str = "") -> LinearModes:
-    """Linear modes at an equilibrium ``position`` (3,) of the system with mass ratio ``mu``.
+    """Linear modes at an equilibrium ``position`` of the system with mass ratio ``mu``.
 
-    Eigen-decomposition of :func:`cr3bp.dynamics.jacobian` (Koon, Lo, Marsden & Ross, 2011,
-    §2.7 and §4.4) together with Richardson's (1980) closed forms for collinear points and
-    Szebehely's (1967, §5.5) for the triangular ones.
+    Eigen-decomposition of :func:`cr3bp.dynamics.jacobian` together with Richardson's (1980)
+    closed forms for collinear points and Szebehely's (1967, §5.5) for the triangular ones.
+
+    Parameters
+    ----------
+    mu : float
+        Mass ratio.
+    position : array_like, shape (3,)
+        The equilibrium (LU).
+    name : str
+        Its name, for messages.
+
+    Returns
+    -------
+    LinearModes
+
+    Raises
+    ------
+    numpy.linalg.LinAlgError
+        When the eigen-decomposition does not converge.
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits: The Restricted Problem of Three Bodies*, Academic
+       Press, 1967, §4.4-§5.5 (the equilibria, their quintic and their stability; from memory).
+    .. [2] D. L. Richardson, "Analytic construction of periodic orbits about the collinear points",
+       *Celestial Mechanics* 22, 1980, §2.
+    .. [3] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §2.7 and §4.4 (linearisation about the points).
+
+    Examples
+    --------
+    >>> from cr3bp.equilibria import linear_modes
+    >>> m = linear_modes(0.0121505843, [0.5 - 0.0121505843, 3 ** 0.5 / 2, 0.0], "L4")
+    >>> m.linearly_stable
+    True
     """
     pos = np.asarray(position, dtype=float)
     a = dynamics.jacobian(mu, np.concatenate([pos, np.zeros(3)]))
@@ -303,7 +395,7 @@ def _match(w, targets) -> list[int]:
 class LagrangePoint:
     """An equilibrium of the CR3BP.
 
-    Attributes
+    Parameters
     ----------
     name : str
         ``"L1"`` .. ``"L5"``.
@@ -321,6 +413,21 @@ class LagrangePoint:
         Mass ratio of the system.
     residual : float
         ``|grad Omega|`` at ``position`` (an equilibrium has 0; ~1e-16 in practice).
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits: The Restricted Problem of Three Bodies*, Academic
+       Press, 1967, §4.4-§5.5 (the equilibria, their quintic and their stability; from memory).
+    .. [2] D. L. Richardson, "Analytic construction of periodic orbits about the collinear points",
+       *Celestial Mechanics* 22, 1980, §2.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.equilibria import lagrange_point
+    >>> L1 = lagrange_point(system("earth-moon"), "L1")
+    >>> L1.name, round(float(L1.position[0]), 6), round(L1.jacobi, 6)
+    ('L1', 0.836915, 3.188341)
     """
 
     name: str
@@ -366,7 +473,34 @@ def _point(system, name: str) -> LagrangePoint:
 
 
 def point_name(name) -> str:
-    """Normalise ``"l2"``, ``" L2 "`` to ``"L2"``; raise InputError for anything else."""
+    """Normalise ``"l2"``, ``" L2 "`` to ``"L2"``.
+
+    Parameters
+    ----------
+    name : str
+
+    Returns
+    -------
+    str
+
+    Raises
+    ------
+    InputError
+        Not one of L1 .. L5.
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits: The Restricted Problem of Three Bodies*, Academic
+       Press, 1967, §4.4-§5.5 (the equilibria, their quintic and their stability; from memory).
+    .. [2] D. L. Richardson, "Analytic construction of periodic orbits about the collinear points",
+       *Celestial Mechanics* 22, 1980, §2.
+
+    Examples
+    --------
+    >>> from cr3bp.equilibria import point_name
+    >>> point_name(" l4 ")
+    'L4'
+    """
     key = str(name).strip().upper()
     if key not in NAMES:
         raise InputError(f"unknown Lagrange point {name!r}; allowed: {', '.join(NAMES)}")
@@ -376,12 +510,33 @@ def point_name(name) -> str:
 def lagrange_points(system) -> list[LagrangePoint]:
     """The five Lagrange points L1..L5 of ``system`` with their linear modes.
 
-    Collinear points by Newton's method on the quintic in gamma (Szebehely 1967, §4.4;
-    Richardson 1980), triangular points in closed form (Szebehely 1967, §4.5).
+    Collinear points by Newton's method on the quintic in gamma, triangular points in closed
+    form.
+
+    Parameters
+    ----------
+    system : System
+
+    Returns
+    -------
+    list of LagrangePoint
+
+    Raises
+    ------
+    ConvergenceError
+        When the quintic's Newton iteration does not converge.
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits: The Restricted Problem of Three Bodies*, Academic
+       Press, 1967, §4.4-§5.5 (the equilibria, their quintic and their stability; from memory).
+    .. [2] D. L. Richardson, "Analytic construction of periodic orbits about the collinear points",
+       *Celestial Mechanics* 22, 1980, §2.
 
     Examples
     --------
     >>> from cr3bp import system
+    >>> from cr3bp.equilibria import lagrange_points
     >>> round(float(lagrange_points(system("earth-moon"))[0].position[0]), 4)
     0.8369
     """
@@ -389,12 +544,71 @@ def lagrange_points(system) -> list[LagrangePoint]:
 
 
 def lagrange_point(system, name: str) -> LagrangePoint:
-    """One Lagrange point by name (``"L1"`` .. ``"L5"``, case-insensitive)."""
+    """One Lagrange point by name (``"L1"`` .. ``"L5"``, case-insensitive).
+
+    Parameters
+    ----------
+    system : System
+    name : str
+
+    Returns
+    -------
+    LagrangePoint
+
+    Raises
+    ------
+    InputError
+        Unknown name.
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits: The Restricted Problem of Three Bodies*, Academic
+       Press, 1967, §4.4-§5.5 (the equilibria, their quintic and their stability; from memory).
+    .. [2] D. L. Richardson, "Analytic construction of periodic orbits about the collinear points",
+       *Celestial Mechanics* 22, 1980, §2.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.equilibria import lagrange_point
+    >>> L1 = lagrange_point(system("earth-moon"), "L1")
+    >>> round(L1.gamma, 6)
+    0.150934
+    """
     return _point(system, point_name(name))
 
 
 def jacobi_constants(system) -> dict:
-    """Jacobi constant at each Lagrange point, ``{"L1": C1, ...}`` (no linear modes computed)."""
+    """Jacobi constant at each Lagrange point (no linear modes computed).
+
+    Parameters
+    ----------
+    system : System
+
+    Returns
+    -------
+    dict
+        ``{"L1": C1, ...}``.
+
+    Raises
+    ------
+    ConvergenceError
+        When the quintic's Newton iteration does not converge.
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits: The Restricted Problem of Three Bodies*, Academic
+       Press, 1967, §4.4-§5.5 (the equilibria, their quintic and their stability; from memory).
+    .. [2] D. L. Richardson, "Analytic construction of periodic orbits about the collinear points",
+       *Celestial Mechanics* 22, 1980, §2.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.equilibria import jacobi_constants
+    >>> {k: round(v, 4) for k, v in jacobi_constants(system("earth-moon")).items()}
+    {'L1': 3.1883, 'L2': 3.1722, 'L3': 3.0121, 'L4': 2.988, 'L5': 2.988}
+    """
     states = np.zeros((5, 6))
     for k, n in enumerate(NAMES):
         states[k, :3] = _position(n, system.mu)[0]
