@@ -127,6 +127,7 @@ def test_examples_run(modname):
         runner.run(t)
     took = time.perf_counter() - start
     result = runner.summarize(verbose=False)
-    assert result.attempted > 0, f"{modname}: no examples found"
+    documented = [n for n, _ in public_names(module) if n not in NOT_YET.get(modname, set())]
+    assert result.attempted > 0 or not documented, f"{modname}: no examples found"
     assert result.failed == 0, f"{modname}: {result.failed} of {result.attempted} examples failed"
     assert took < DOCTEST_SECONDS, f"{modname}: examples took {took:.1f} s"
