@@ -40,13 +40,68 @@ FIELD_CAP = 1e6
 # ---- Jacobi constant helpers -------------------------------------------------------------
 
 def jacobi(system, states):
-    """Jacobi constant ``C = 2 Omega - v^2`` of one state (6,) or many (N, 6)
-    (Szebehely 1967, §1.6; wraps :func:`cr3bp.dynamics.jacobi`)."""
+    """Jacobi constant ``C = 2 Omega - v^2`` of one state or many.
+
+    Wraps :func:`cr3bp.dynamics.jacobi`.
+
+    Parameters
+    ----------
+    system : System
+    states : array_like, shape (6,) or (N, 6)
+
+    Returns
+    -------
+    float or ndarray
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits*, Academic Press, 1967, §1.6 and §4.3 (the Jacobi
+       integral and the zero-velocity surfaces; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp import energy
+    >>> em = system("earth-moon")
+    >>> round(float(energy.jacobi(em, [0.836915, 0, 0, 0, 0, 0])), 4)
+    3.1883
+    """
     return dynamics.jacobi(system.mu, states)
 
 
 def check_jacobi(value, name: str = "Jacobi constant") -> float:
-    """A finite Jacobi constant, as float; InputError otherwise."""
+    """A finite Jacobi constant, as float.
+
+    Parameters
+    ----------
+    value : float or str
+    name : str
+        What the value is, for the message.
+
+    Returns
+    -------
+    float
+
+    Raises
+    ------
+    InputError
+        Not a number, or not finite.
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits*, Academic Press, 1967, §1.6 and §4.3 (the Jacobi
+       integral and the zero-velocity surfaces; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.energy import check_jacobi
+    >>> check_jacobi("3.15")
+    3.15
+    """
     try:
         c = float(value)
     except (TypeError, ValueError):
@@ -77,13 +132,38 @@ def jacobi_above(system, point: str, dv) -> float:
     """Jacobi constant of a spacecraft at Lagrange point ``point`` moving at speed ``dv``.
 
     ``C = C_L - dv^2`` with ``dv`` nondimensional (LU/TU): from ``C = 2 Omega - v^2`` at the
-    point's position (Szebehely 1967, §1.6). ``dv`` is a float in LU/TU or a quantity such as
-    ``"20m/s"`` (parsed by :mod:`cr3bp.units`; needs a dimensional system).
+    point's position. ``dv`` is a float in LU/TU or a quantity such as ``"20m/s"`` (parsed by
+    :mod:`cr3bp.units`; needs a dimensional system).
+
+    Parameters
+    ----------
+    system : System
+    point : str
+        ``"L1"`` .. ``"L5"``.
+    dv : float or str
+        Speed at the point.
+
+    Returns
+    -------
+    float
 
     Raises
     ------
     InputError
         Unknown point name, or ``dv`` negative, non-finite or not a velocity.
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits*, Academic Press, 1967, §1.6 and §4.3 (the Jacobi
+       integral and the zero-velocity surfaces; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp import energy
+    >>> em = system("earth-moon")
+    >>> round(energy.jacobi_above(em, "L1", 0.1), 4)
+    3.1783
     """
     name = point_name(point)
     v = _velocity(system, dv)
@@ -91,24 +171,115 @@ def jacobi_above(system, point: str, dv) -> float:
 
 
 def speed_at_point(system, point: str, jacobi_value: float) -> float | None:
-    """Speed (LU/TU) a spacecraft with this Jacobi constant has when at ``point``:
-    ``sqrt(C_L - C)``, or None when ``C > C_L`` (the point is in its forbidden region)."""
+    """Speed (LU/TU) a spacecraft with this Jacobi constant has when at ``point``.
+
+    ``sqrt(C_L - C)``, or None when ``C > C_L`` (the point is in its forbidden region).
+
+    Parameters
+    ----------
+    system : System
+    point : str
+    jacobi_value : float
+
+    Returns
+    -------
+    float or None
+
+    Raises
+    ------
+    InputError
+        Unknown point, or a Jacobi constant that is not finite.
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits*, Academic Press, 1967, §1.6 and §4.3 (the Jacobi
+       integral and the zero-velocity surfaces; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp import energy
+    >>> em = system("earth-moon")
+    >>> energy.speed_at_point(em, "L1", 3.2) is None
+    True
+    """
     c = check_jacobi(jacobi_value)
     d = jacobi_constants(system)[point_name(point)] - c
     return math.sqrt(d) if d >= 0 else None
 
 
 def necks(system, jacobi_value: float, levels: dict | None = None) -> dict:
-    """Which necks are open: ``{"L1": C < C_L1, "L2": C < C_L2, "L3": C < C_L3}``
-    (Koon et al. 2011, ch. 2, the energy cases of Hill's region, from memory)."""
+    """Which necks are open: ``{"L1": C < C_L1, "L2": C < C_L2, "L3": C < C_L3}``.
+
+    Parameters
+    ----------
+    system : System
+    jacobi_value : float
+    levels : dict, optional
+        Jacobi constants of the points (computed when not given).
+
+    Returns
+    -------
+    dict
+
+    Raises
+    ------
+    InputError
+        A Jacobi constant that is not finite.
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, ch. 2 (Hill's region, realms and necks).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp import energy
+    >>> em = system("earth-moon")
+    >>> energy.necks(em, 3.18)
+    {'L1': True, 'L2': False, 'L3': False}
+    """
     c = check_jacobi(jacobi_value)
     levels = levels or jacobi_constants(system)
     return {n: bool(c < levels[n]) for n in COLLINEAR}
 
 
 def realms(system, jacobi_value: float, levels: dict | None = None, plane: str = "xy") -> str:
-    """Plain-English description of the realms a spacecraft with Jacobi constant C can reach
-    (the five energy cases of Koon et al. 2011, ch. 2, from memory)."""
+    """Plain-English description of the realms a spacecraft with Jacobi constant C can reach.
+
+    The five energy cases of Hill's region.
+
+    Parameters
+    ----------
+    system : System
+    jacobi_value : float
+    levels : dict, optional
+    plane : str
+        ``"xy"`` or ``"xz"``.
+
+    Returns
+    -------
+    str
+
+    Raises
+    ------
+    InputError
+        A Jacobi constant that is not finite.
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, ch. 2 (Hill's region, realms and necks).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp import energy
+    >>> em = system("earth-moon")
+    >>> energy.realms(em, 3.18)
+    'the Earth and Moon realms join through the L1 neck (L2, L3 closed)'
+    """
     c = check_jacobi(jacobi_value)
     levels = levels or jacobi_constants(system)
     p1, p2 = (n.title() for n in system.names)
@@ -135,8 +306,38 @@ def realms(system, jacobi_value: float, levels: dict | None = None, plane: str =
 # ---- grids ------------------------------------------------------------------------------------
 
 def two_omega(system, u, v, plane: str = "xy"):
-    """``2 Omega`` on arrays ``u, v`` of the plane ``"xy"`` (z = 0) or ``"xz"`` (y = 0);
-    vectorised numpy (Omega as in :mod:`cr3bp.systems`)."""
+    """``2 Omega`` on arrays ``u, v`` of the plane ``"xy"`` (z = 0) or ``"xz"`` (y = 0).
+
+    Vectorised numpy (Omega as in :mod:`cr3bp.systems`).
+
+    Parameters
+    ----------
+    system : System
+    u, v : array_like
+        Coordinates in the plane (LU).
+    plane : str
+
+    Returns
+    -------
+    ndarray
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits*, Academic Press, 1967, §1.6 and §4.3 (the Jacobi
+       integral and the zero-velocity surfaces; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp import energy
+    >>> em = system("earth-moon")
+    >>> round(float(energy.two_omega(em, 0.836915, 0.0)), 4)
+    3.1883
+    """
     mu = system.mu
     u = np.asarray(u, dtype=float)
     v = np.asarray(v, dtype=float)
@@ -166,8 +367,38 @@ def _check_plane(plane):
 
 
 def default_extent(system, view: str = "system") -> tuple[float, float, float, float]:
-    """(umin, umax, vmin, vmax) in LU for the ``"system"`` view (all five points) or the
-    ``"secondary"`` view (the smaller primary with L1 and L2)."""
+    """Default grid extent (umin, umax, vmin, vmax) in LU.
+
+    The ``"system"`` view (all five points) or the ``"secondary"`` view (the smaller primary
+    with L1 and L2).
+
+    Parameters
+    ----------
+    system : System
+    view : str
+
+    Returns
+    -------
+    tuple of float
+
+    Raises
+    ------
+    InputError
+        Unknown view.
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, ch. 2 (Hill's region, realms and necks).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp import energy
+    >>> em = system("earth-moon")
+    >>> energy.default_extent(em)
+    (-1.5, 1.5, -1.5, 1.5)
+    """
     if view == "system":
         h = SYSTEM_HALF_WIDTH
         return (-h, h, -h, h)
@@ -181,6 +412,34 @@ def default_extent(system, view: str = "system") -> tuple[float, float, float, f
 
 
 def check_extent(extent):
+    """Four finite numbers umin < umax, vmin < vmax, as floats.
+
+    Parameters
+    ----------
+    extent : sequence of 4 numbers
+
+    Returns
+    -------
+    tuple of float
+
+    Raises
+    ------
+    InputError
+        Not four finite numbers in order.
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, ch. 2 (Hill's region, realms and necks).
+
+    Examples
+    --------
+    >>> from cr3bp.energy import check_extent
+    >>> check_extent([0, 1, 2, 1])
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: extent [0, 1, 2, 1] needs umin < umax and vmin < vmax
+    """
     try:
         e = tuple(float(v) for v in extent)
     except (TypeError, ValueError):
@@ -215,7 +474,7 @@ def _refine(system, pts, c, plane, step_cap):
 class HillRegion:
     """The region a spacecraft of Jacobi constant C may reach, on a grid of one plane.
 
-    Attributes
+    Parameters
     ----------
     system : System
     jacobi : float
@@ -240,6 +499,22 @@ class HillRegion:
         Zero-velocity curves in (u, v), LU, each point refined onto ``2 Omega = C``.
     curve_residual : float
         Largest ``|2 Omega - C|`` over the curve points (0 when there are none).
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits*, Academic Press, 1967, §1.6 and §4.3 (the Jacobi
+       integral and the zero-velocity surfaces; from memory).
+    .. [2] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, ch. 2 (Hill's region, realms and necks).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp import energy
+    >>> em = system("earth-moon")
+    >>> region = energy.hill_region(em, 3.18, resolution=101)
+    >>> region.necks["L1"], region.curve_residual < 1e-9
+    (True, True)
     """
 
     system: object
@@ -290,9 +565,8 @@ def hill_region(system, jacobi_value, plane: str = "xy", extent=None, view: str 
     """Hill region and zero-velocity curves of Jacobi constant C in a plane.
 
     Evaluates ``2 Omega - C`` on a grid (numpy, vectorised), traces its zero level with
-    contourpy's marching squares, and projects the traced points onto ``2 Omega = C`` by
-    Newton steps (Szebehely 1967, §4.3, zero-velocity surfaces; Koon et al. 2011, ch. 2,
-    Hill's region).
+    contourpy's marching squares, and projects the traced points onto ``2 Omega = C`` by Newton
+    steps.
 
     Parameters
     ----------
@@ -307,10 +581,30 @@ def hill_region(system, jacobi_value, plane: str = "xy", extent=None, view: str 
     resolution : int
         Grid points per side (21 .. 4001).
 
+    Returns
+    -------
+    HillRegion
+
     Raises
     ------
     InputError
         Non-finite C, unknown plane or view, a bad extent or resolution.
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits*, Academic Press, 1967, §1.6 and §4.3 (the Jacobi
+       integral and the zero-velocity surfaces; from memory).
+    .. [2] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, ch. 2 (Hill's region, realms and necks).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp import energy
+    >>> em = system("earth-moon")
+    >>> region = energy.hill_region(em, 3.0, resolution=101)
+    >>> region.forbidden_region_vanishes, region.necks
+    (False, {'L1': True, 'L2': True, 'L3': True})
     """
     import contourpy
 
@@ -342,8 +636,40 @@ def hill_region(system, jacobi_value, plane: str = "xy", extent=None, view: str 
 
 
 def energy_table(system, jacobi_value) -> list[dict]:
-    """For each Lagrange point: its C_L, C - C_L, whether C < C_L, and the speed (LU/TU) a
-    spacecraft with Jacobi constant C has there (``sqrt(C_L - C)``, None if forbidden)."""
+    """For each Lagrange point: its C_L, C - C_L, whether C < C_L, and the speed there.
+
+    The speed (LU/TU) of a spacecraft with Jacobi constant C at the point is
+    ``sqrt(C_L - C)`` (None where forbidden).
+
+    Parameters
+    ----------
+    system : System
+    jacobi_value : float
+
+    Returns
+    -------
+    list of dict
+
+    Raises
+    ------
+    InputError
+        A Jacobi constant that is not finite.
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits*, Academic Press, 1967, §1.6 and §4.3 (the Jacobi
+       integral and the zero-velocity surfaces; from memory).
+    .. [2] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, ch. 2 (Hill's region, realms and necks).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp import energy
+    >>> em = system("earth-moon")
+    >>> [row["below_level"] for row in energy.energy_table(em, 3.1)]
+    [True, True, False, False, False]
+    """
     c = check_jacobi(jacobi_value)
     rows = []
     for n, cl in jacobi_constants(system).items():
