@@ -59,6 +59,36 @@ CREATE TABLE IF NOT EXISTS legs (
 
 
 def default_path() -> Path:
+    """The default catalogue file.
+
+    ``$LIBRATE_CATALOG`` if set, else ``~/.local/share/librate/catalog.sqlite`` (the XDG data
+    folder; common practice).
+
+    Returns
+    -------
+    pathlib.Path
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] SQLite documentation, "Write-Ahead Logging" and "The SQLite Database File Format"
+       (the store and its concurrent writers; common practice).
+    .. [2] freedesktop.org, "XDG Base Directory Specification" (the data folder; from memory).
+
+    Examples
+    --------
+    >>> import os
+    >>> from cr3bp.catalog import default_path
+    >>> before = os.environ.get("LIBRATE_CATALOG")
+    >>> os.environ["LIBRATE_CATALOG"] = "/tmp/cat.sqlite"
+    >>> str(default_path())
+    '/tmp/cat.sqlite'
+    >>> _ = os.environ.pop("LIBRATE_CATALOG")
+    >>> os.environ.update({} if before is None else {"LIBRATE_CATALOG": before})
+    """
     env = os.environ.get("LIBRATE_CATALOG")
     if env:
         return Path(env)
@@ -66,7 +96,33 @@ def default_path() -> Path:
 
 
 def settings_hash(settings: dict) -> str:
-    """A stable hash of JSON-serialisable settings (key order does not matter)."""
+    """A stable hash of JSON-serialisable settings (key order does not matter).
+
+    The first 16 hexadecimal digits of the SHA-256 of the settings' canonical JSON.
+
+    Parameters
+    ----------
+    settings : dict
+
+    Returns
+    -------
+    str
+
+    Raises
+    ------
+    TypeError
+        A value JSON cannot hold.
+
+    References
+    ----------
+    .. [1] NIST, FIPS 180-4, *Secure Hash Standard*, 2015 (SHA-256).
+
+    Examples
+    --------
+    >>> from cr3bp.catalog import settings_hash
+    >>> settings_hash({"a": 1, "b": 2}) == settings_hash({"b": 2, "a": 1})
+    True
+    """
     text = json.dumps(settings, sort_keys=True, separators=(",", ":"), default=json_default)
     return hashlib.sha256(text.encode()).hexdigest()[:16]
 
@@ -120,7 +176,20 @@ def _guarded(fn):
 
 
 class CatalogWriteError(LibrateError):
-    """The catalogue could not be written (a full disk): exit status 1, the file intact."""
+    """The catalogue could not be written (a full disk): exit status 1, the file intact.
+
+    References
+    ----------
+    .. [1] SQLite documentation, "Write-Ahead Logging" and "The SQLite Database File Format"
+       (the store and its concurrent writers; common practice).
+
+    Examples
+    --------
+    >>> from cr3bp.catalog import CatalogWriteError
+    >>> from cr3bp.errors import LibrateError
+    >>> issubclass(CatalogWriteError, LibrateError)
+    True
+    """
 
 
 class Catalog:
@@ -130,6 +199,17 @@ class Catalog:
     ----------
     path : str or Path, optional
         Database file; default :func:`default_path`. Parent folders are created.
+
+    Raises
+    ------
+    InputError
+        An empty path, a folder, a file that is not a librate catalogue, or a catalogue of
+        another schema version.
+
+    References
+    ----------
+    .. [1] SQLite documentation, "Write-Ahead Logging" and "The SQLite Database File Format"
+       (the store and its concurrent writers; common practice).
 
     Examples
     --------
@@ -365,5 +445,29 @@ class _Transaction:
 
 
 def finite_or_none(v):
-    """JSON has no NaN in strict readers: store non-finite floats as None."""
+    """A non-finite float as None (JSON has no NaN in strict readers); anything else unchanged.
+
+    Parameters
+    ----------
+    v : object
+
+    Returns
+    -------
+    object
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] T. Bray (ed.), RFC 8259, *The JavaScript Object Notation (JSON) Data Interchange
+       Format*, 2017 (numbers exclude NaN and infinity).
+
+    Examples
+    --------
+    >>> from cr3bp.catalog import finite_or_none
+    >>> finite_or_none(float("nan")), finite_or_none(2.5)
+    (None, 2.5)
+    """
     return None if (isinstance(v, float) and not math.isfinite(v)) else v
