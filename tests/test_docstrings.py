@@ -47,7 +47,6 @@ MODULES = [
 
 #: Public names whose docstrings do not yet have the sections (module -> names).
 NOT_YET: dict[str, set[str]] = {
-    "cr3bp.tubes.manifolds": {'Modes', 'Stop', 'Tube', 'branch_sign', 'carry', 'corridor_tubes', 'default_step_km', 'describe', 'grow_tube', 'hyperbolic_modes', 'manifold_starts', 'on_energy', 'orbit_from_state', 'orbit_times', 'parse_until', 'point_tube', 'step_lu'},
     "cr3bp.tubes.sections": {'Crossings', 'Section', 'apsides', 'apsis', 'batch', 'batch_features', 'bounded_max_events', 'crossings', 'expression', 'guard_events', 'hyperplane', 'map_coordinate', 'parse_section', 'points_in_polygon', 'primary_index', 'refine_apsis', 'sphere'},
 }
 

@@ -54,7 +54,36 @@ ATOL = 1e-12
 
 
 def default_step_km(system) -> float:
-    """The default step-off distance in km for ``system`` (see the module docstring)."""
+    """The default step-off distance in km for ``system`` (see the module docstring).
+
+    Parameters
+    ----------
+    system : System
+
+    Returns
+    -------
+    float
+
+    Raises
+    ------
+    InputError
+        A system without dimensional units and no tabulated default.
+
+    References
+    ----------
+    .. [1] G. Gómez, W. S. Koon, M. W. Lo, J. E. Marsden, J. Masdemont and S. D. Ross, "Connecting
+       orbits and invariant manifolds in the spatial restricted three-body problem",
+       *Nonlinearity* 17, 2004, §3.
+    .. [2] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §4.5.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.tubes.manifolds import default_step_km
+    >>> default_step_km(system("earth-moon"))
+    40.0
+    """
     if system.name in STEP_OFF_KM:
         return STEP_OFF_KM[system.name]
     system.require_dimensional("a step-off distance")
@@ -62,7 +91,42 @@ def default_step_km(system) -> float:
 
 
 def step_lu(system, step_km=None) -> tuple[float, float]:
-    """(step in LU, step in km, NaN for a nondimensional system given in LU)."""
+    """The step-off distance in LU and in km.
+
+    Parameters
+    ----------
+    system : System
+    step_km : float or str, optional
+        km as a float, or a length with its unit (``"50km"``, ``"1e-4LU"``); default
+        :func:`default_step_km` (1e-6 LU for a nondimensional system).
+
+    Returns
+    -------
+    step : float
+        LU.
+    step_km : float
+        km; NaN for a nondimensional system given in LU.
+
+    Raises
+    ------
+    InputError
+        A step that is not positive, or km with a nondimensional system.
+
+    References
+    ----------
+    .. [1] G. Gómez, W. S. Koon, M. W. Lo, J. E. Marsden, J. Masdemont and S. D. Ross, "Connecting
+       orbits and invariant manifolds in the spatial restricted three-body problem",
+       *Nonlinearity* 17, 2004, §3.
+    .. [2] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §4.5.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.tubes.manifolds import step_lu
+    >>> step_lu(system("earth-moon"), 384.4)
+    (0.001, 384.4)
+    """
     if step_km is None:
         if not system.dimensional and system.name not in STEP_OFF_KM:
             return 1e-6, float("nan")
@@ -81,7 +145,30 @@ def step_lu(system, step_km=None) -> tuple[float, float]:
 
 @dataclass(frozen=True)
 class Modes:
-    """The hyperbolic pair of a monodromy (or Jacobian) matrix."""
+    """The hyperbolic pair of a monodromy (or Jacobian) matrix.
+
+    Parameters
+    ----------
+    lambda_unstable, lambda_stable : float
+        The real eigenvalues of greatest and least modulus (or sign, for a Jacobian).
+    unstable, stable : ndarray, shape (6,)
+        Their real eigenvectors.
+
+    References
+    ----------
+    .. [1] G. Gómez, W. S. Koon, M. W. Lo, J. E. Marsden, J. Masdemont and S. D. Ross, "Connecting
+       orbits and invariant manifolds in the spatial restricted three-body problem",
+       *Nonlinearity* 17, 2004, §3.
+    .. [2] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §4.5.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.tubes.manifolds import hyperbolic_modes
+    >>> hyperbolic_modes(np.diag([4.0, 0.25, 1.0, 1.0, 1.0, 1.0])).lambda_unstable
+    4.0
+    """
 
     lambda_unstable: float
     lambda_stable: float
@@ -90,14 +177,42 @@ class Modes:
 
 
 def hyperbolic_modes(matrix, continuous=False) -> Modes:
-    """The real eigenvalue pair of greatest and least modulus (lambda_u lambda_s = 1 for a
-    monodromy matrix; +/- lambda for a Jacobian when ``continuous``) and real eigenvectors.
+    """The real eigenvalue pair of greatest and least modulus, with real eigenvectors.
+
+    ``lambda_u lambda_s = 1`` for a monodromy matrix; ``+- lambda`` for a Jacobian when
+    ``continuous``.
+
+    Parameters
+    ----------
+    matrix : array_like, shape (6, 6)
+    continuous : bool
+        The matrix is the Jacobian of the flow (eigenvalues ``+- lambda``) rather than a monodromy.
+
+    Returns
+    -------
+    Modes
 
     Raises
     ------
     NoSolutionError
-        The matrix has no real eigenvalue off the unit circle (the orbit is linearly stable
-        and has no stable/unstable manifolds).
+        The matrix has no real eigenvalue off the unit circle (the orbit is linearly stable and
+        has no stable/unstable manifolds).
+
+    References
+    ----------
+    .. [1] G. Gómez, W. S. Koon, M. W. Lo, J. E. Marsden, J. Masdemont and S. D. Ross, "Connecting
+       orbits and invariant manifolds in the spatial restricted three-body problem",
+       *Nonlinearity* 17, 2004, §3.
+    .. [2] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §4.5.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.tubes.manifolds import hyperbolic_modes
+    >>> m = hyperbolic_modes(np.diag([4.0, 0.25, 1.0, 1.0, 1.0, 1.0]))
+    >>> m.lambda_stable, np.abs(m.unstable).tolist()
+    (0.25, [1.0, 0.0, 0.0, 0.0, 0.0, 0.0])
     """
     w, v = np.linalg.eig(np.asarray(matrix, dtype=float))
     real = np.abs(w.imag) < 1e-8 * np.maximum(1.0, np.abs(w))
@@ -117,7 +232,43 @@ def hyperbolic_modes(matrix, continuous=False) -> Modes:
 
 
 def orbit_times(orbit, n_points: int, spacing: str = "time") -> np.ndarray:
-    """Times in [0, T) of ``n_points`` along the orbit, equally spaced in time or in arc length."""
+    """Times in [0, T) of ``n_points`` along the orbit, equally spaced in time or in arc length.
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+    n_points : int
+    spacing : str
+        ``"time"`` or ``"arc"``.
+
+    Returns
+    -------
+    ndarray, shape (n_points,)
+
+    Raises
+    ------
+    InputError
+        A bad count or spacing.
+
+    References
+    ----------
+    .. [1] G. Gómez, W. S. Koon, M. W. Lo, J. E. Marsden, J. Masdemont and S. D. Ross, "Connecting
+       orbits and invariant manifolds in the spatial restricted three-body problem",
+       *Nonlinearity* 17, 2004, §3.
+    .. [2] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §4.5.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> from cr3bp.tubes import manifolds
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 0.01)
+    >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry, family="lyapunov", point="L1")
+    >>> manifolds.orbit_times(orbit, 4).tolist() == [k * orbit.period / 4 for k in range(4)]
+    True
+    """
     n = _count(n_points)
     if spacing not in SPACINGS:
         raise InputError(f"spacing '{spacing}' must be one of {', '.join(SPACINGS)}")
@@ -144,10 +295,46 @@ def _count(n):
 
 
 def carry(orbit, times, progress=None):
-    """Orbit states x(t_k) and STMs Phi(t_k, 0) at ascending ``times`` (first 0), with the
-    variational equations (Koon et al. 2011, §4.4), chained from one point to the next:
-    Phi(t_k, 0) = Phi(t_k, t_k-1) ... Phi(t_1, 0). The segments run in one batch when the
-    batch propagator returns STMs, else one propagation each."""
+    """Orbit states x(t_k) and STMs Phi(t_k, 0) at ascending ``times`` (first 0).
+
+    One batch propagation when the batch propagator returns STMs, else one propagation each.
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+    times : array_like
+        Ascending, from 0 (TU).
+    progress : callable(done, total, message), optional
+
+    Returns
+    -------
+    states : ndarray, shape (N, 6)
+    stms : ndarray, shape (N, 6, 6)
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] G. Gómez, W. S. Koon, M. W. Lo, J. E. Marsden, J. Masdemont and S. D. Ross, "Connecting
+       orbits and invariant manifolds in the spatial restricted three-body problem",
+       *Nonlinearity* 17, 2004, §3.
+    .. [2] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §4.5.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> from cr3bp.tubes import manifolds
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 0.01)
+    >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry, family="lyapunov", point="L1")
+    >>> states, stms = manifolds.carry(orbit, [0.0, 1.0])
+    >>> stms.shape, bool(abs(stms[0] - __import__("numpy").eye(6)).max() < 1e-12)
+    ((2, 6, 6), True)
+    """
     system = orbit.system
     times = np.asarray(times, dtype=float)
     n = len(times)
@@ -182,14 +369,34 @@ def carry(orbit, times, progress=None):
 class Stop:
     """When a tube trajectory stops (the first of these to happen).
 
-    Attributes
+    Parameters
     ----------
-    section : Section or None     a Poincaré section (its ``count``-th crossing)
+    section : Section or None
+        A Poincaré section (its ``count``-th crossing).
     count : int
-    t_max : float                 time limit, TU (always set)
-    altitudes : tuple of (primary, altitude_km)  stop on descending to that altitude
-    escape_radius : float or None distance (LU) counted as escape, from ``escape_center``
-    escape_center : int           -1 the barycentre (default), 0 / 1 a primary
+    t_max : float
+        Time limit, TU (always set).
+    altitudes : tuple of (primary, altitude_km)
+        Stop on descending to that altitude.
+    escape_radius : float or None
+        Distance (LU) counted as escape, from ``escape_center``.
+    escape_center : int
+        -1 the barycentre (default), 0 / 1 a primary.
+
+    References
+    ----------
+    .. [1] G. Gómez, W. S. Koon, M. W. Lo, J. E. Marsden, J. Masdemont and S. D. Ross, "Connecting
+       orbits and invariant manifolds in the spatial restricted three-body problem",
+       *Nonlinearity* 17, 2004, §3.
+    .. [2] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §4.5.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.tubes.manifolds import parse_until
+    >>> parse_until(["section:x=1-mu", "time:20d"], system("earth-moon")).count
+    1
     """
 
     section: Section | None = None
@@ -234,8 +441,42 @@ class Stop:
 
 
 def parse_until(texts, system, t_max=None) -> Stop:
-    """A :class:`Stop` from text: ``section:x=1-mu``, ``section:y=0:+``, ``time:20d``,
-    ``altitude:earth:200km``, ``escape:3LU``; several may be given (a list)."""
+    """A :class:`Stop` from text.
+
+    ``section:x=1-mu``, ``section:y=0:+``, ``time:20d``, ``altitude:earth:200km``,
+    ``escape:3LU``; several may be given (a list).
+
+    Parameters
+    ----------
+    texts : str or list of str
+    system : System
+    t_max : float, optional
+        Time limit (TU) when none is given; default 2 pi.
+
+    Returns
+    -------
+    Stop
+
+    Raises
+    ------
+    InputError
+        A condition that is not understood, or a bad value in it.
+
+    References
+    ----------
+    .. [1] G. Gómez, W. S. Koon, M. W. Lo, J. E. Marsden, J. Masdemont and S. D. Ross, "Connecting
+       orbits and invariant manifolds in the spatial restricted three-body problem",
+       *Nonlinearity* 17, 2004, §3.
+    .. [2] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §4.5.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.tubes.manifolds import parse_until
+    >>> round(parse_until("time:1d", system("earth-moon")).t_max, 6)
+    0.230283
+    """
     if isinstance(texts, str):
         texts = [texts]
     section, count, tmax, alts, esc = None, 1, t_max, [], None
@@ -277,7 +518,7 @@ def parse_until(texts, system, t_max=None) -> Stop:
 class Tube:
     """A globalised half-manifold of a periodic orbit (or of a Lagrange point).
 
-    Attributes
+    Parameters
     ----------
     system : System
     origin : str                description of the orbit, e.g. ``"lyapunov L1 C=3.15"``
@@ -296,6 +537,26 @@ class Tube:
     end_states : ndarray (N, 6)
     status : tuple of str       per trajectory: "section", "time", "altitude", "impact", "escape"
     stop : Stop
+
+    References
+    ----------
+    .. [1] G. Gómez, W. S. Koon, M. W. Lo, J. E. Marsden, J. Masdemont and S. D. Ross, "Connecting
+       orbits and invariant manifolds in the spatial restricted three-body problem",
+       *Nonlinearity* 17, 2004, §3.
+    .. [2] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §4.5.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> from cr3bp.tubes import manifolds
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 0.01)
+    >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry, family="lyapunov", point="L1")
+    >>> tube = manifolds.grow_tube(orbit, "unstable", "interior", 4, until="time:2d")
+    >>> tube.n, tube.label
+    (4, 'lyapunov L1 C=3.181211 unstable interior')
     """
 
     system: object
@@ -382,13 +643,82 @@ class Tube:
 
 
 def describe(orbit) -> str:
+    """A short description of an orbit for a tube's ``origin``: family, point, branch and C.
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+
+    Returns
+    -------
+    str
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] G. Gómez, W. S. Koon, M. W. Lo, J. E. Marsden, J. Masdemont and S. D. Ross, "Connecting
+       orbits and invariant manifolds in the spatial restricted three-body problem",
+       *Nonlinearity* 17, 2004, §3.
+    .. [2] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §4.5.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> from cr3bp.tubes import manifolds
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 0.01)
+    >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry, family="lyapunov", point="L1")
+    >>> manifolds.describe(orbit)[:12]
+    'lyapunov L1 '
+    """
     parts = [p for p in (orbit.family, orbit.point, orbit.branch) if p]
     return " ".join(parts + [f"C={orbit.jacobi:.6f}"])
 
 
 def branch_sign(system, state, direction, branch) -> float:
     """+1 or -1 so that ``sign * direction`` steps toward the smaller primary ("interior") or
-    away from it ("exterior")."""
+    away from it ("exterior").
+
+    1 or -1 so that ``sign * direction`` steps toward the smaller primary or away from it.
+
+    Toward it for ``"interior"``, away for ``"exterior"``.
+
+    Parameters
+    ----------
+    system : System
+    state : array_like, shape (6,)
+    direction : array_like, shape (6,)
+    branch : str
+
+    Returns
+    -------
+    float
+
+    Raises
+    ------
+    InputError
+        ``branch`` not interior or exterior.
+
+    References
+    ----------
+    .. [1] G. Gómez, W. S. Koon, M. W. Lo, J. E. Marsden, J. Masdemont and S. D. Ross, "Connecting
+       orbits and invariant manifolds in the spatial restricted three-body problem",
+       *Nonlinearity* 17, 2004, §3.
+    .. [2] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §4.5.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.tubes.manifolds import branch_sign
+    >>> branch_sign(system("earth-moon"), [0.8, 0, 0, 0, 0, 0], [1, 0, 0, 0, 0, 0], "exterior")
+    -1.0
+    """
     if branch not in BRANCHES:
         raise InputError(f"branch '{branch}' must be interior or exterior")
     to_secondary = np.array([1.0 - system.mu, 0.0, 0.0]) - state[:3]
@@ -398,9 +728,55 @@ def branch_sign(system, state, direction, branch) -> float:
 
 def manifold_starts(orbit, stability, branch, n_points=200, spacing="time", step_km=None,
                     progress=None, times=None):
-    """Departure data of a half-manifold: times, orbit states, unit directions and the
-    displaced start states (steps 1-3 of the module docstring). ``times`` (TU, in [0, T))
-    overrides ``n_points``/``spacing``."""
+    """Departure data of a half-manifold (steps 1-3 of the module docstring).
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+    stability : str
+        ``"stable"`` or ``"unstable"``.
+    branch : str
+        ``"interior"`` or ``"exterior"``.
+    n_points : int
+    spacing : str
+    step_km : float or str, optional
+    progress : callable, optional
+    times : array_like, optional
+        Departure times (TU, in [0, T)); overrides ``n_points``/``spacing``.
+
+    Returns
+    -------
+    tuple
+        ``(times, orbit states, unit directions, displaced start states, Modes, step LU,
+        step km)``.
+
+    Raises
+    ------
+    InputError
+        A bad stability or branch.
+    NoSolutionError
+        The orbit is linearly stable, or a displaced state leaves the Hill region.
+
+    References
+    ----------
+    .. [1] G. Gómez, W. S. Koon, M. W. Lo, J. E. Marsden, J. Masdemont and S. D. Ross, "Connecting
+       orbits and invariant manifolds in the spatial restricted three-body problem",
+       *Nonlinearity* 17, 2004, §3.
+    .. [2] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §4.5.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> from cr3bp.tubes import manifolds
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 0.01)
+    >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry, family="lyapunov", point="L1")
+    >>> ts, states, w, starts, modes, d, d_km = manifolds.manifold_starts(orbit, "stable", "exterior", 3)
+    >>> starts.shape, d_km
+    ((3, 6), 40.0)
+    """
     if stability not in STABILITIES:
         raise InputError(f"stability '{stability}' must be stable or unstable")
     system = orbit.system
@@ -432,8 +808,43 @@ def on_energy(system, states, c):
     """Rescale each state's rotating-frame speed so its Jacobi constant is ``c`` exactly.
 
     The step-off direction is tangent to the energy surface, so a displacement d changes C by
-    O(d^2) only; this removes that second-order error (a change of the same order as the
-    linear approximation's own), so that every tube trajectory has its orbit's energy."""
+    O(d^2) only; this removes that second-order error (a change of the same order as the linear
+    approximation's own), so that every tube trajectory has its orbit's energy.
+
+    Parameters
+    ----------
+    system : System
+    states : array_like, shape (N, 6)
+    c : float
+        Jacobi constant.
+
+    Returns
+    -------
+    ndarray, shape (N, 6)
+
+    Raises
+    ------
+    NoSolutionError
+        A state lies outside the Hill region of ``c`` or is at rest.
+
+    References
+    ----------
+    .. [1] G. Gómez, W. S. Koon, M. W. Lo, J. E. Marsden, J. Masdemont and S. D. Ross, "Connecting
+       orbits and invariant manifolds in the spatial restricted three-body problem",
+       *Nonlinearity* 17, 2004, §3.
+    .. [2] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §4.5.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.dynamics import jacobi
+    >>> from cr3bp.tubes.manifolds import on_energy
+    >>> em = system("earth-moon")
+    >>> s = on_energy(em, [[0.85, 0.0, 0.0, 0.0, 0.1, 0.0]], 3.1)
+    >>> round(float(jacobi(em.mu, s[0])), 12)
+    3.1
+    """
     s = np.array(states, dtype=float, copy=True)
     v2 = np.einsum("ij,ij->i", s[:, 3:6], s[:, 3:6])
     two_omega = _jacobi(system.mu, s) + v2
@@ -464,14 +875,39 @@ def grow_tube(orbit, stability: str, branch: str, n_points: int = 200, until=Non
     times : array, optional
         Departure times along the orbit (TU) instead of ``n_points``.
     progress : callable(done, total, message), optional
+    origin : str, optional
+        Description of the orbit (default :func:`describe`).
 
     Returns
     -------
     Tube
 
+    Raises
+    ------
+    InputError
+        A bad stability, branch, stop condition or step.
+    NoSolutionError
+        The orbit is linearly stable.
+
     References
     ----------
-    Gómez et al., *Nonlinearity* 17, 2004, §3; Koon et al. 2011, §4.5.
+    .. [1] G. Gómez, W. S. Koon, M. W. Lo, J. E. Marsden, J. Masdemont and S. D. Ross, "Connecting
+       orbits and invariant manifolds in the spatial restricted three-body problem",
+       *Nonlinearity* 17, 2004, §3.
+    .. [2] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §4.5.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> from cr3bp.tubes import manifolds
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 0.01)
+    >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry, family="lyapunov", point="L1")
+    >>> tube = manifolds.grow_tube(orbit, "unstable", "interior", 4, until="section:x=1-mu")
+    >>> set(tube.status)
+    {'section'}
     """
     system = orbit.system
     stop = until if isinstance(until, Stop) else parse_until(until, system)
@@ -532,13 +968,50 @@ def _lagrange_jacobi(system, point) -> float:
 
 def orbit_from_state(system, state, period, family="given", point="", branch="",
                      tolerance=1e-8):
-    """A :class:`~cr3bp.orbits.PeriodicOrbit` from a state and period the user already has
-    (e.g. from another run): its monodromy is propagated here and its periodicity checked.
+    """A PeriodicOrbit from a state and period the user already has.
+
+    Its monodromy is propagated here and its periodicity checked.
+
+    Parameters
+    ----------
+    system : System
+    state : array_like, shape (6,)
+    period : float
+        TU.
+    family, point, branch : str
+        Labels.
+    tolerance : float
+        Largest ``|s(T) - s(0)|`` accepted (LU, LU/TU).
+
+    Returns
+    -------
+    PeriodicOrbit
 
     Raises
     ------
     InputError
-        The state does not return to itself within ``tolerance`` (LU, LU/TU) after ``period``.
+        The state does not return to itself within ``tolerance`` after ``period``, or a bad
+        state or period.
+
+    References
+    ----------
+    .. [1] G. Gómez, W. S. Koon, M. W. Lo, J. E. Marsden, J. Masdemont and S. D. Ross, "Connecting
+       orbits and invariant manifolds in the spatial restricted three-body problem",
+       *Nonlinearity* 17, 2004, §3.
+    .. [2] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §4.5.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> from cr3bp.tubes import manifolds
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 0.01)
+    >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry, family="lyapunov", point="L1")
+    >>> again = manifolds.orbit_from_state(em, orbit.state, orbit.period)
+    >>> again.periodicity_error < 1e-9
+    True
     """
     from .. import validate
     from ..orbits import PeriodicOrbit
@@ -558,12 +1031,43 @@ def orbit_from_state(system, state, period, family="given", point="", branch="",
 
 def point_tube(system, point, stability: str, branch: str, until=None, *, step_km=None,
                position=None) -> Tube:
-    """The one-dimensional manifold branch of a collinear Lagrange point: the real eigenvector
-    of the linearised flow at the point (Szebehely 1967, §4.6; Koon et al. 2011, §2.5),
-    displaced by the step-off distance and propagated like a tube trajectory.
+    """The one-dimensional manifold branch of a collinear Lagrange point.
 
-    ``point`` is a name (``"L1"``, ``"L2"``, ``"L3"``; located by ``cr3bp.equilibria``) and
-    ``position`` (3,) may give its position directly.
+    The real eigenvector of the linearised flow at the point, displaced by the step-off distance
+    and propagated like a tube trajectory. ``point`` is a name (``"L1"``, ``"L2"``, ``"L3"``;
+    located by :mod:`cr3bp.equilibria`) and ``position`` (3,) may give its position directly.
+
+    Parameters
+    ----------
+    system : System
+    point : str
+    stability : str
+    branch : str
+    until : Stop, str or list of str, optional
+    step_km : float or str, optional
+    position : array_like, optional
+
+    Returns
+    -------
+    Tube
+
+    Raises
+    ------
+    InputError
+        A bad point, stability, branch or stop condition.
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits*, Academic Press, 1967, §4.6 (from memory).
+    .. [2] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §2.5.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.tubes.manifolds import point_tube
+    >>> point_tube(system("earth-moon"), "L1", "unstable", "interior", until="time:1d").n
+    1
     """
     if position is None:
         from ..equilibria import lagrange_point  # lands with the equilibria module
@@ -594,9 +1098,49 @@ TUBE_DAYS = "8d"          # how far each is grown there
 
 
 def corridor_tubes(orbits, n_points=TUBE_POINTS, until=f"time:{TUBE_DAYS}"):
-    """Stable and unstable half-manifolds (both branches) of each orbit, as trajectory arrays
-    for :func:`cr3bp.plotting.routes.plot_corridor` (Koon et al. 2011, ch. 4: the tubes are
-    the corridors the route rides)."""
+    """Stable and unstable half-manifolds (both branches) of each orbit, as trajectory arrays.
+
+    For :func:`cr3bp.plotting.routes.plot_corridor`: the tubes are the corridors the route
+    rides.
+
+    Parameters
+    ----------
+    orbits : sequence of PeriodicOrbit
+    n_points : int
+        Trajectories per half-manifold.
+    until : str
+        Stop condition.
+
+    Returns
+    -------
+    list of list of ndarray
+        Per tube, the sampled states of each trajectory.
+
+    Raises
+    ------
+    NoSolutionError
+        An orbit is linearly stable.
+
+    References
+    ----------
+    .. [1] G. Gómez, W. S. Koon, M. W. Lo, J. E. Marsden, J. Masdemont and S. D. Ross, "Connecting
+       orbits and invariant manifolds in the spatial restricted three-body problem",
+       *Nonlinearity* 17, 2004, §3.
+    .. [2] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §4.5.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> from cr3bp.tubes import manifolds
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 0.01)
+    >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry, family="lyapunov", point="L1")
+    >>> tubes = manifolds.corridor_tubes([orbit], n_points=3, until="time:1d")
+    >>> len(tubes), len(tubes[0])
+    (4, 3)
+    """
     tubes = []
     for orbit in orbits:
         for stability in ("stable", "unstable"):
