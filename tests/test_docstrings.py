@@ -46,9 +46,7 @@ MODULES = [
 ]
 
 #: Public names whose docstrings do not yet have the sections (module -> names).
-NOT_YET: dict[str, set[str]] = {
-    "cr3bp.tubes.sections": {'Crossings', 'Section', 'apsides', 'apsis', 'batch', 'batch_features', 'bounded_max_events', 'crossings', 'expression', 'guard_events', 'hyperplane', 'map_coordinate', 'parse_section', 'points_in_polygon', 'primary_index', 'refine_apsis', 'sphere'},
-}
+NOT_YET: dict[str, set[str]] = {}
 
 SECTION = re.compile(r"^[ \t]*([A-Z][A-Za-z ]+)[ \t]*\n[ \t]*-{3,}[ \t]*$", re.MULTILINE)
 #: Longest time one module's examples may take (the examples are meant to be quick).

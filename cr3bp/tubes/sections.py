@@ -60,15 +60,76 @@ BATCH_ATOL = 1e-12
 
 
 def batch_features() -> dict:
-    """Which optional features the installed ``propagate_batch`` offers (per-trajectory final
-    times with STMs, a larger event record, marking failed trajectories instead of raising)."""
+    """Which optional features the installed ``propagate_batch`` offers.
+
+    Per-trajectory final times with STMs, a larger event record, marking failed trajectories
+    instead of raising.
+
+    Returns
+    -------
+    dict
+        ``{"stm": bool, "max_events": bool, "on_failure": bool}``.
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] E. Hairer, S. P. Nørsett and G. Wanner, *Solving Ordinary Differential Equations I*,
+       2nd ed., Springer, 1993 (the integrator behind the batch propagator).
+
+    Examples
+    --------
+    >>> from cr3bp.tubes.sections import batch_features
+    >>> sorted(batch_features())
+    ['max_events', 'on_failure', 'stm']
+    """
     import inspect
     params = inspect.signature(propagate_batch).parameters
     return {k: k in params for k in ("stm", "max_events", "on_failure")}
 
 
 def batch(system, states, t_final, events=(), max_events=8):
-    """``propagate_batch`` with the tube settings, using the optional features when present."""
+    """``propagate_batch`` with the tube settings, using the optional features when present.
+
+    Parameters
+    ----------
+    system : System
+    states : array_like, shape (N, 6)
+    t_final : float
+        Signed time limit (TU).
+    events : sequence of events
+    max_events : int
+        Events recorded per trajectory.
+
+    Returns
+    -------
+    BatchResult
+        As :func:`cr3bp.integrate.propagate_batch`.
+
+    Raises
+    ------
+    InputError
+        Bad states or time.
+
+    References
+    ----------
+    .. [1] E. Hairer, S. P. Nørsett and G. Wanner, *Solving Ordinary Differential Equations I*,
+       2nd ed., Springer, 1993 (DOP853 with dense output and event location).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> from cr3bp.tubes import sections
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 0.01)
+    >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry)
+    >>> res = sections.batch(em, [orbit.state], orbit.period)
+    >>> bool(abs(res.states[0] - orbit.state).max() < 1e-9)
+    True
+    """
     kw = {}
     feats = batch_features()
     if feats["max_events"]:
@@ -80,8 +141,35 @@ def batch(system, states, t_final, events=(), max_events=8):
 
 
 def bounded_max_events(count: int) -> int:
-    """Events recorded per trajectory when a half-plane section's crossings are filtered
-    after the propagation (crossings outside the bound take room too)."""
+    """Events recorded per trajectory for a half-plane section's ``count``-th crossing.
+
+    Crossings outside the bound take room too, so more are kept than ``count``.
+
+    Parameters
+    ----------
+    count : int
+
+    Returns
+    -------
+    int
+
+    Raises
+    ------
+    ValueError
+        ``count`` not a whole number.
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §3.4 and §4.5 (Poincaré sections of tubes).
+    .. [2] H. Poincaré, *Les méthodes nouvelles de la mécanique céleste*, 1899 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.tubes.sections import bounded_max_events
+    >>> bounded_max_events(1)
+    64
+    """
     return 16 * int(count) + 48
 
 
@@ -90,7 +178,7 @@ class Section:
     """A Poincaré section. Build with :func:`parse_section`, :func:`hyperplane`, :func:`sphere`
     or :func:`apsis`.
 
-    Attributes
+    Parameters
     ----------
     kind : {"plane", "sphere", "apsis"}
     coordinate : int        state index (plane)
@@ -100,6 +188,21 @@ class Section:
     label : str             as the user wrote it, e.g. ``"x=1-mu"``
     bound : tuple           ``()`` or ``(coordinate, sign, value)``: a plane restricted to the
                             half-plane ``sign * (s[coordinate] - value) > 0``
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §3.4 and §4.5 (Poincaré sections of tubes).
+    .. [2] H. Poincaré, *Les méthodes nouvelles de la mécanique céleste*, 1899 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.tubes import sections
+    >>> em = system("earth-moon")
+    >>> s = sections.parse_section("y=0,x<0", em)
+    >>> s.kind, s.bounded
+    ('plane', True)
     """
 
     kind: str
@@ -160,8 +263,39 @@ def hyperplane(coordinate, value: float, direction: int = 0, label: str = "",
                bound=None) -> Section:
     """The plane ``s[coordinate] = value`` (coordinate a name such as ``"x"`` or an index).
 
-    ``bound = (coordinate, side, value)`` with side ``"<"`` or ``">"`` (or -1/+1) keeps only
-    the half-plane where that other coordinate is below / above the value."""
+    ``bound = (coordinate, side, value)`` with side ``"<"`` or ``">"`` (or -1/+1) keeps only the
+    half-plane where that other coordinate is below / above the value.
+
+    Parameters
+    ----------
+    coordinate : str or int
+    value : float
+    direction : int
+        +1, -1 or 0 (both), physical.
+    label : str
+    bound : tuple, optional
+
+    Returns
+    -------
+    Section
+
+    Raises
+    ------
+    InputError
+        Unknown coordinate, direction or bound.
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §3.4 and §4.5 (Poincaré sections of tubes).
+    .. [2] H. Poincaré, *Les méthodes nouvelles de la mécanique céleste*, 1899 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.tubes.sections import hyperplane
+    >>> hyperplane("x", 0.5, 1).label
+    'x=0.5'
+    """
     if isinstance(coordinate, str):
         if coordinate not in COORDS:
             raise InputError(f"unknown section coordinate '{coordinate}'; allowed: {', '.join(COORDS)}")
@@ -190,7 +324,41 @@ def hyperplane(coordinate, value: float, direction: int = 0, label: str = "",
 
 
 def sphere(system, primary, radius: float, direction: int = -1, label: str = "") -> Section:
-    """The sphere of ``radius`` (LU) about a primary (0/1 or its name); -1 = entering it."""
+    """The sphere of ``radius`` (LU) about a primary (0/1 or its name); direction -1 = entering it.
+
+    Parameters
+    ----------
+    system : System
+    primary : int or str
+    radius : float
+        LU.
+    direction : int
+        -1 entering, +1 leaving.
+    label : str
+
+    Returns
+    -------
+    Section
+
+    Raises
+    ------
+    InputError
+        Unknown primary, a radius that is not positive, or direction 0.
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §3.4 and §4.5 (Poincaré sections of tubes).
+    .. [2] H. Poincaré, *Les méthodes nouvelles de la mécanique céleste*, 1899 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.tubes import sections
+    >>> em = system("earth-moon")
+    >>> sections.sphere(em, "moon", 0.05).primary
+    1
+    """
     p = primary_index(system, primary)
     if not (math.isfinite(radius) and radius > 0):
         raise InputError(f"sphere radius {radius!r} must be positive")
@@ -202,7 +370,39 @@ def sphere(system, primary, radius: float, direction: int = -1, label: str = "")
 
 
 def apsis(system, primary, which: str = "periapsis", label: str = "") -> Section:
-    """Periapsis (``which="periapsis"``) or apoapsis passages about a primary."""
+    """Periapsis (``which="periapsis"``) or apoapsis passages about a primary.
+
+    Parameters
+    ----------
+    system : System
+    primary : int or str
+    which : str
+        ``"periapsis"``, ``"apoapsis"`` or ``"both"``.
+    label : str
+
+    Returns
+    -------
+    Section
+
+    Raises
+    ------
+    InputError
+        Unknown primary or ``which``.
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §3.4 and §4.5 (Poincaré sections of tubes).
+    .. [2] H. Poincaré, *Les méthodes nouvelles de la mécanique céleste*, 1899 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.tubes import sections
+    >>> em = system("earth-moon")
+    >>> sections.apsis(em, "earth").label
+    'periapsis earth'
+    """
     p = primary_index(system, primary)
     if which not in ("periapsis", "apoapsis", "both"):
         raise InputError(f"apsis '{which}' must be periapsis, apoapsis or both")
@@ -211,7 +411,36 @@ def apsis(system, primary, which: str = "periapsis", label: str = "") -> Section
 
 
 def primary_index(system, primary) -> int:
-    """0 (larger) or 1 (smaller) from an index or a body name (``"earth"``, ``"moon"``)."""
+    """0 (larger) or 1 (smaller) from an index or a body name (``"earth"``, ``"moon"``).
+
+    Parameters
+    ----------
+    system : System
+    primary : int or str
+
+    Returns
+    -------
+    int
+
+    Raises
+    ------
+    InputError
+        Not a primary of ``system``.
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §3.4 and §4.5 (Poincaré sections of tubes).
+    .. [2] H. Poincaré, *Les méthodes nouvelles de la mécanique céleste*, 1899 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.tubes import sections
+    >>> em = system("earth-moon")
+    >>> sections.primary_index(em, "Moon"), sections.primary_index(em, 0)
+    (1, 0)
+    """
     if isinstance(primary, (int, np.integer)) and primary in (0, 1):
         return int(primary)
     names = [n.lower() for n in system.names]
@@ -243,7 +472,36 @@ _OPS = {ast.Add: operator.add, ast.Sub: operator.sub, ast.Mult: operator.mul,
 
 
 def expression(text: str, system) -> float:
-    """A number or simple arithmetic in ``mu`` (``"1-mu"``, ``"-mu"``, ``"0.8"``)."""
+    """A number or simple arithmetic in ``mu`` (``"1-mu"``, ``"-mu"``, ``"0.8"``).
+
+    Parameters
+    ----------
+    text : str
+    system : System
+        Gives ``mu``.
+
+    Returns
+    -------
+    float
+
+    Raises
+    ------
+    InputError
+        Anything but numbers, ``mu``, + - * / and parentheses; too long; not finite.
+
+    References
+    ----------
+    .. [1] Python Software Foundation, *The Python Language Reference*, "ast" module (the
+       expression is read with Python's own parser and evaluated from its syntax tree).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.tubes import sections
+    >>> em = system("earth-moon")
+    >>> sections.expression("1-mu", em) == 1 - em.mu
+    True
+    """
     def ev(node):
         if isinstance(node, ast.Expression):
             return ev(node.body)
@@ -278,6 +536,38 @@ def parse_section(text: str, system) -> Section:
     and one strict inequality on another coordinate, whose right side may use mu),
     ``sphere:moon:20000km`` (entering), ``sphere:moon:20000km:+`` (leaving),
     ``periapsis:earth``, ``apoapsis:moon``.
+
+    Parameters
+    ----------
+    text : str
+    system : System
+
+    Returns
+    -------
+    Section
+
+    Raises
+    ------
+    InputError
+        Naming the part of the text that is not understood.
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §3.4 and §4.5 (Poincaré sections of tubes).
+    .. [2] H. Poincaré, *Les méthodes nouvelles de la mécanique céleste*, 1899 (from memory).
+    .. [3] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, "Heteroclinic connections between
+       periodic orbits and resonance transitions in celestial mechanics", *Chaos* 10, 2000, §3
+       (the half-plane sections; from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.tubes import sections
+    >>> em = system("earth-moon")
+    >>> s = sections.parse_section("x=1-mu:+", em)
+    >>> s.kind, s.direction, s.label
+    ('plane', 1, 'x=1-mu:+')
     """
     t = str(text).strip()
     if "," in t:
@@ -341,7 +631,7 @@ def _direction_text(s, text):
 class Crossings:
     """States where trajectories cross a section.
 
-    Attributes
+    Parameters
     ----------
     system : System
     section : Section
@@ -352,6 +642,24 @@ class Crossings:
     n_trajectories : int        trajectories examined (those that never crossed have no row)
     phase : ndarray (M,) or None  orbit phase in [0, 1) of the trajectory (for tube cuts)
     label : str                 e.g. the tube's description, for legends
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §3.4 and §4.5 (Poincaré sections of tubes).
+    .. [2] H. Poincaré, *Les méthodes nouvelles de la mécanique céleste*, 1899 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> from cr3bp.tubes import sections
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 0.01)
+    >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry)
+    >>> cut = sections.crossings(em, [orbit.state], sections.hyperplane("y", 0.0), orbit.period)
+    >>> len(cut), bool(abs(cut.t[0] - orbit.period / 2) < 1e-8)
+    (1, True)
     """
 
     system: object
@@ -441,6 +749,45 @@ class Crossings:
 
 
 def map_coordinate(system, section, states, t, name) -> np.ndarray:
+    """One coordinate of a Poincaré map for states on a section.
+
+    A state component (``x`` .. ``vz``), ``t`` (TU), ``tof_days``, ``jacobi``, ``r``/``radius``
+    (LU, from the section's primary, the smaller one for planes) or ``altitude_km``.
+
+    Parameters
+    ----------
+    system : System
+    section : Section
+    states : array_like, shape (M, 6)
+    t : array_like, shape (M,)
+        Times of the crossings (TU).
+    name : str
+        One of :data:`MAP_COORDS`.
+
+    Returns
+    -------
+    ndarray, shape (M,)
+
+    Raises
+    ------
+    InputError
+        Unknown name, or a dimensional coordinate with a nondimensional system.
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §3.4 and §4.5 (Poincaré sections of tubes).
+    .. [2] H. Poincaré, *Les méthodes nouvelles de la mécanique céleste*, 1899 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.tubes import sections
+    >>> em = system("earth-moon")
+    >>> s = sections.hyperplane("x", 1 - em.mu)
+    >>> sections.map_coordinate(em, s, [[1 - em.mu, 0.1, 0, 0, 0.2, 0]], [0.5], "r").tolist()
+    [0.1]
+    """
     states = np.atleast_2d(states)
     if name in COORDS:
         return states[:, COORDS[name]]
@@ -461,8 +808,35 @@ def map_coordinate(system, section, states, t, name) -> np.ndarray:
 
 
 def points_in_polygon(points, poly) -> np.ndarray:
-    """Even-odd rule point-in-polygon, vectorised over points (Shimrat, "Algorithm 112:
-    Position of point relative to polygon", Commun. ACM 5, 1962)."""
+    """Even-odd rule point-in-polygon, vectorised over points.
+
+    Parameters
+    ----------
+    points : ndarray, shape (M, 2)
+    poly : ndarray, shape (K, 2)
+        Vertices in order (closed implicitly).
+
+    Returns
+    -------
+    ndarray of bool, shape (M,)
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] M. Shimrat, "Algorithm 112: Position of point relative to polygon", *Commun. ACM* 5,
+       1962.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.tubes.sections import points_in_polygon
+    >>> square = np.array([[0, 0], [1, 0], [1, 1], [0, 1]], float)
+    >>> points_in_polygon(np.array([[0.5, 0.5], [2.0, 0.5]]), square).tolist()
+    [True, False]
+    """
     x, y = points[:, 0][:, None], points[:, 1][:, None]
     x1, y1 = poly[:, 0][None, :], poly[:, 1][None, :]
     x2, y2 = np.roll(poly[:, 0], -1)[None, :], np.roll(poly[:, 1], -1)[None, :]
@@ -474,7 +848,36 @@ def points_in_polygon(points, poly) -> np.ndarray:
 
 
 def guard_events(system, altitude_km=None):
-    """Impact with either primary's surface (radius + altitude where given) as events."""
+    """Impact with either primary's surface (radius + altitude where given) as events.
+
+    Parameters
+    ----------
+    system : System
+    altitude_km : float, optional
+        Added to each radius.
+
+    Returns
+    -------
+    list of events
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §3.4 and §4.5 (Poincaré sections of tubes).
+    .. [2] H. Poincaré, *Les méthodes nouvelles de la mécanique céleste*, 1899 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.tubes import sections
+    >>> em = system("earth-moon")
+    >>> len(sections.guard_events(em))
+    2
+    """
     evs = []
     radii = system.radii
     for p in (0, 1):
@@ -486,12 +889,53 @@ def guard_events(system, altitude_km=None):
 
 def crossings(system, states, section: Section, t_max: float, count: int = 1, *,
               phase=None, label="", rtol=1e-12, atol=1e-12, extra_events=()) -> Crossings:
-    """Crossings of ``section`` by trajectories from ``states`` (N, 6) within time ``t_max``
-    (negative: backward in time), up to the ``count``-th crossing of each.
+    """Crossings of ``section`` by trajectories from ``states`` within time ``t_max``.
 
-    Planes and spheres are located by the integrator's event finder in one batch; apsides by
+    ``t_max`` negative: backward in time; up to the ``count``-th crossing of each. Planes and
+    spheres are located by the integrator's event finder in one batch; apsides by
     :func:`apsides` (one propagation per trajectory, Newton refinement in time). Trajectories
     that hit a primary's surface stop there.
+
+    Parameters
+    ----------
+    system : System
+    states : array_like, shape (N, 6)
+    section : Section
+    t_max : float
+        Signed time limit (TU).
+    count : int
+    phase : array_like, optional
+        Orbit phase of each trajectory (tube cuts).
+    label : str
+    rtol, atol : float
+    extra_events : sequence of events
+
+    Returns
+    -------
+    Crossings
+
+    Raises
+    ------
+    InputError
+        ``count`` < 1 or bad states.
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §3.4 and §4.5 (Poincaré sections of tubes).
+    .. [2] H. Poincaré, *Les méthodes nouvelles de la mécanique céleste*, 1899 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> from cr3bp.tubes import sections
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 0.01)
+    >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry)
+    >>> cut = sections.crossings(em, [orbit.state], sections.hyperplane("y", 0.0), orbit.period, count=2)
+    >>> cut.count.tolist()
+    [1, 2]
     """
     states = np.ascontiguousarray(np.atleast_2d(np.asarray(states, dtype=float)))
     if count < 1:
@@ -542,9 +986,54 @@ def _apsis_g(system, section, s):
 
 
 def refine_apsis(system, section, t0, s0, t1, s1, rtol=1e-12, atol=1e-12, iters=12):
-    """Time and state of the apsis between two samples, by Newton's method on
-    g(t) = (r - r_p).v with g' = |v|^2 + (r - r_p).a, each iterate propagated from the left
-    sample (so the result lies on the trajectory to the integrator's accuracy)."""
+    """Time and state of the apsis between two samples.
+
+    Newton's method on ``g(t) = (r - r_p).v`` with ``g' = |v|^2 + (r - r_p).a``, each iterate
+    propagated from the left sample (so the result lies on the trajectory to the integrator's
+    accuracy).
+
+    Parameters
+    ----------
+    system : System
+    section : Section
+        An apsis section.
+    t0, t1 : float
+        Times of the samples (TU).
+    s0, s1 : ndarray, shape (6,)
+        States there (g changes sign between them).
+    rtol, atol : float
+    iters : int
+
+    Returns
+    -------
+    t : float
+    state : ndarray, shape (6,)
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §3.4 and §4.5 (Poincaré sections of tubes).
+    .. [2] H. Poincaré, *Les méthodes nouvelles de la mécanique céleste*, 1899 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> from cr3bp.tubes import sections
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 0.01)
+    >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry)
+    >>> from cr3bp.integrate import propagate
+    >>> sec = sections.apsis(em, "moon", "both")
+    >>> a, b = propagate(em, orbit.state, 0.1).final_state, propagate(em, orbit.state, -0.1).final_state
+    >>> t, s = sections.refine_apsis(em, sec, -0.1, b, 0.1, a)
+    >>> abs(t) < 1e-9          # the perpendicular crossing of the x axis is an apsis
+    True
+    """
     g0, _ = _apsis_g(system, section, s0)
     g1, _ = _apsis_g(system, section, s1)
     dt = (t1 - t0) * g0 / (g0 - g1) if g0 != g1 else 0.5 * (t1 - t0)
@@ -569,12 +1058,55 @@ def refine_apsis(system, section, t0, s0, t1, s1, rtol=1e-12, atol=1e-12, iters=
 def apsides(system, states, section: Section, t_max: float, count: int = 1, *, phase=None,
             label="", rtol=1e-12, atol=1e-12, guard=True, progress=None,
             within=None) -> Crossings:
-    """Periapsis/apoapsis passages about ``section.primary`` within ``t_max`` (signed), the
-    first ``count`` of each trajectory. One propagation per trajectory (every accepted step is
-    a sample; a sign change of g brackets an apsis), refined by :func:`refine_apsis`.
+    """Periapsis/apoapsis passages about ``section.primary`` within ``t_max`` (signed).
+
+    The first ``count`` of each trajectory. One propagation per trajectory (every accepted step
+    is a sample; a sign change of g brackets an apsis), refined by :func:`refine_apsis`.
     ``guard=False`` lets trajectories pass through the primaries' surfaces (point masses), so
     that a periapsis below the surface is still found (altitude maps stay continuous).
-    ``within`` (LU) keeps only apsides closer than that to the primary."""
+    ``within`` (LU) keeps only apsides closer than that to the primary.
+
+    Parameters
+    ----------
+    system : System
+    states : array_like, shape (N, 6)
+    section : Section
+    t_max : float
+    count : int
+    phase : array_like, optional
+    label : str
+    rtol, atol : float
+    guard : bool
+    progress : callable, optional
+    within : float, optional
+
+    Returns
+    -------
+    Crossings
+
+    Raises
+    ------
+    InputError
+        Bad states.
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §3.4 and §4.5 (Poincaré sections of tubes).
+    .. [2] H. Poincaré, *Les méthodes nouvelles de la mécanique céleste*, 1899 (from memory).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> from cr3bp.tubes import sections
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 0.01)
+    >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry)
+    >>> cut = sections.apsides(em, [orbit.state], sections.apsis(em, "moon"), orbit.period)
+    >>> len(cut)
+    1
+    """
     states = np.atleast_2d(np.asarray(states, dtype=float))
     rows, ts, traj, cnt = [], [], [], []
     sign = 1.0 if t_max >= 0 else -1.0
