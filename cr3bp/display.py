@@ -112,50 +112,65 @@ def _caption(ax, model="cr3bp"):
         caption(ax.figure, "", model=model)
 
 
-def _draw_frame(ax, system, view):
-    from .plotting.base import axis_labels, draw_primaries
-    draw_primaries(ax, system, view=view, labels=True)
-    axis_labels(ax, system, view=view)
-    ax.set_aspect("equal", adjustable="datalim")
-
-
 _VIEWS = {"xy": (0, 1), "xz": (0, 2), "yz": (1, 2)}
 
 
+def _check_view(view):
+    if view not in _VIEWS:
+        from .errors import InputError
+        raise InputError(f"view {view!r} is not allowed; allowed: xy, xz, yz")
+    return _VIEWS[view]
+
+
+def _short_title(ax, text):
+    ax.set_title(text, fontsize=8, wrap=True)
+
+
 def _plot_orbit(o, ax=None, view="xy", n=600):
-    from .plotting.orbits import trajectory
+    """The orbit in one view of the rotating frame, framed about it (the project's framing:
+    primaries to scale, Lagrange points inside the frame)."""
+    from .plotting.orbits import _frame, trajectory
+    i, j = _check_view(view)
     ax = _new_axes(ax)
-    i, j = _VIEWS[view]
     s = trajectory(o, n)
-    ax.plot(s[:, i], s[:, j], lw=1.4, label=_orbit_rows(o)[0].split(":")[0])
-    _draw_frame(ax, o.system, view)
-    ax.set_title(_orbit_rows(o)[0], fontsize=9)
+    ax.plot(s[:, i], s[:, j], lw=1.4, color="tab:orange", label="orbit")
+    ax.plot(s[0, i], s[0, j], "o", color="k", ms=3, label="initial state")
+    _frame(ax, o.system, view, [s])
+    name = " ".join(w for w in (o.family, o.point, o.branch) if w) or "periodic"
+    _short_title(ax, f"{o.system.name} {name} orbit, C = {o.jacobi:.6f} (CR3BP, rotating frame)")
     return ax
 
 
 def _plot_family(f, ax=None, view="xy", max_curves=30, n=400):
+    """Up to ``max_curves`` members in one view, coloured by Jacobi constant."""
     import numpy as np
     from matplotlib import cm, colors
 
-    from .plotting.orbits import trajectory
+    from .plotting.orbits import _frame, trajectory
+    i, j = _check_view(view)
     ax = _new_axes(ax)
-    i, j = _VIEWS[view]
     m = f.members
-    pick = np.unique(np.linspace(0, len(m) - 1, min(len(m), max_curves)).round().astype(int)) if m else []
+    if not m:
+        return ax
+    pick = np.unique(np.linspace(0, len(m) - 1, min(len(m), max_curves)).round().astype(int))
     jac = [m[k].jacobi for k in pick]
-    norm = colors.Normalize(min(jac), max(jac)) if jac else None
+    norm = colors.Normalize(min(jac), max(jac) if max(jac) > min(jac) else min(jac) + 1e-9)
+    curves = []
     for k in pick:
         s = trajectory(m[k], n)
+        curves.append(s)
         ax.plot(s[:, i], s[:, j], lw=0.8, color=cm.viridis(norm(m[k].jacobi)))
-    if jac:
-        ax.figure.colorbar(cm.ScalarMappable(norm=norm, cmap="viridis"), ax=ax, label="Jacobi constant")
-    _draw_frame(ax, f.system, view)
-    ax.set_title(_family_rows(f)[0], fontsize=9)
+    _frame(ax, f.system, view, curves)
+    from .plotting.base import colorbar_beside
+    colorbar_beside(ax, cm.ScalarMappable(norm=norm, cmap="viridis"), "Jacobi constant")
+    name = " ".join(w for w in (f.family, f.point, f.branch) if w)
+    _short_title(ax, f"{f.system.name} {name} family, {len(pick)} of {len(m)} members (CR3BP, rotating frame)")
     return ax
 
 
 def _plot_tube(t, ax=None, view="xy"):
     from .plotting.manifolds import plot_tubes
+    _check_view(view)
     ax = _new_axes(ax)
     plot_tubes([t], views=(view,), axes=[ax])
     return ax
@@ -174,7 +189,7 @@ def _plot_route(r, ax=None):
             ax.annotate(str(node), (t[k], dv[k]), textcoords="offset points", xytext=(4, 4), fontsize=8)
     ax.set_xlabel("time of flight [d] (CR3BP, to each leg's step-off point)")
     ax.set_ylabel("cumulative dv [m/s] (CR3BP)")
-    ax.set_title(_route_rows(r)[0], fontsize=9)
+    _short_title(ax, _route_rows(r)[0])
     ax.grid(alpha=0.3)
     return ax
 
