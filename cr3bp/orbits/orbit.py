@@ -41,7 +41,7 @@ class PeriodicOrbit(Shown):
     monodromy : ndarray (6, 6)  STM over one period from ``state``
     family, point, branch : str  e.g. "halo", "L2", "south" ("" where not meaningful)
     jacobi : float
-    periodicity_error : float  |s(T) - s(0)| of the converged orbit, nondimensional, from a
+    periodicity_error : float  ``|s(T) - s(0)|`` of the converged orbit, nondimensional, from a
         propagation over the full period
     iterations : int          corrector iterations used
     amplitude_lu : (Ax, Ay, Az) in LU (see module notes)
