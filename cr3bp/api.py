@@ -494,7 +494,7 @@ def _parking(text, sysm):
     return p, float(alt)
 
 
-def connect(origin, target, *, system=None, where="x=1-mu", points=None, crossing=1, time=None,
+def connect(origin, target, *, system=None, section="x=1-mu", points=None, crossing=1, time=None,
             step_off=None, candidates=5, from_branch=None, to_branch=None):
     """Legs between two periodic orbits, or a parking orbit and a periodic orbit (``librate connect``).
 
@@ -505,8 +505,9 @@ def connect(origin, target, *, system=None, where="x=1-mu", points=None, crossin
         (``"parking moon 100km"``) at one end.
     system : System or str, optional
         Needed when neither end is a PeriodicOrbit.
-    where : str
-        Section where two tubes are matched (default ``"x=1-mu"``).
+    section : str
+        The section on which the two tubes are matched (default ``"x=1-mu"``), as ``librate
+        connect --section``.
     points : int, optional
         Trajectories per tube (default 200; 100 for a parking-orbit leg).
     crossing : int
@@ -585,7 +586,7 @@ def connect(origin, target, *, system=None, where="x=1-mu", points=None, crossin
         return parking_legs(orb, primary, alt, stability=stability, branch=branch, n_points=n, t_max=t_max,
                             step_km=step_off, max_legs=candidates, pmap=pm)
     oa, ob = _orbit(origin), _orbit(target)
-    legs, _, _ = _connect(oa, ob, str(where), points or 200, step_km=step_off, t_max=t_max, count=crossing,
+    legs, _, _ = _connect(oa, ob, str(section), points or 200, step_km=step_off, t_max=t_max, count=crossing,
                           branch_a=from_branch or "interior", branch_b=to_branch or "interior",
                           max_candidates=candidates)
     return legs
