@@ -307,3 +307,22 @@ def test_nan_free_repr_of_a_custom_system():
     assert " d," not in repr(o) and "nan" not in repr(o)
     assert math.isfinite(o.period)
     assert os.sep not in repr(o)
+
+
+def test_to_dataframe_hands_the_table_to_pandas(em, l1, monkeypatch):
+    """pandas is optional (not installed by the extras): the rows handed to pandas.DataFrame are
+    checked with a stand-in module recording them; without pandas the call raises ImportError."""
+    import sys
+    import types
+    seen = []
+    fake = types.ModuleType("pandas")
+    fake.DataFrame = lambda rows: seen.append(rows) or rows
+    monkeypatch.setitem(sys.modules, "pandas", fake)
+    fam = cr3bp.family(em, "lyapunov", point="L1", members=3)
+    tube = cr3bp.manifold(l1, "unstable", points=4, until="time:0.5TU")
+    assert [r["jacobi"] for r in fam.to_dataframe()] == [m.jacobi for m in fam.members]
+    assert [r["end_state"] for r in tube.to_dataframe()] == tube.end_states.tolist()
+    assert l1.to_dataframe()[0]["period"] == l1.period
+    monkeypatch.setitem(sys.modules, "pandas", None)
+    with pytest.raises(ImportError):
+        fam.to_dataframe()
