@@ -1,10 +1,11 @@
-# librate: `make demo` runs the main job, `make test` runs the tests, `make bench` the benchmarks.
+# librate: `make demo` runs the main job, `make test` runs the tests, `make bench` the benchmarks,
+# `make docs` builds the documentation site (docs/_build/html; offline, warnings are errors).
 PYTHON ?= python3
 VENV   := .venv
 BIN    := $(VENV)/bin
 STAMP  := $(VENV)/.installed
 
-.PHONY: demo test bench venv kernels clean system-deps leap-seconds
+.PHONY: demo test bench docs venv kernels clean system-deps leap-seconds
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -14,6 +15,12 @@ $(STAMP): pyproject.toml
 	touch $(STAMP)
 
 venv: $(STAMP)
+
+# The documentation site's builder and extensions (the [docs] extra): make docs and make test.
+DOCS_STAMP := $(VENV)/.docs-installed
+$(DOCS_STAMP): $(STAMP) pyproject.toml
+	$(BIN)/pip install -qq -e '.[test,docs]'
+	touch $(DOCS_STAMP)
 
 # The integrator built ahead of time (cr3bp/integrate/prebuilt.py): single requests then start
 # without numba. Rebuilt only when its source changed; without it everything still runs
@@ -37,11 +44,15 @@ system-deps:
 	    apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq chromium >/dev/null; \
 	  else echo "warning: no chromium and no apt-get; the report rendering test will fail"; fi; }
 
-test: kernels system-deps
+test: kernels system-deps $(DOCS_STAMP)
 	$(BIN)/python -m pytest -q
 
 bench: kernels
 	$(BIN)/python -m benchmarks
 
+docs: kernels $(DOCS_STAMP)
+	$(BIN)/python -m sphinx -W --keep-going -q -b html docs docs/_build/html
+	@echo "wrote docs/_build/html/index.html"
+
 clean:
-	rm -rf $(VENV) out .pytest_cache cr3bp/integrate/_prebuilt
+	rm -rf $(VENV) out .pytest_cache cr3bp/integrate/_prebuilt docs/_build docs/generated docs/gallery

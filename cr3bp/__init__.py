@@ -1,5 +1,15 @@
 """librate's library: preliminary mission design in the circular restricted three-body problem.
 
+One call per stage of a design (:mod:`cr3bp.api`)::
+
+    import cr3bp
+    em = cr3bp.system("earth-moon")
+    nrho = cr3bp.orbit(em, "halo L2 south resonance=9:2")
+    tube = cr3bp.manifold(nrho, "unstable", points=100, until="time:20d")
+
+``system``, ``points``, ``orbit``, ``family``, ``manifold``, ``section``, ``connect``,
+``route``, ``export``, ``run`` (a scenario file), ``torus``, ``shadow``, ``keep``.
+
 Conventions (units, frame, Omega, Jacobi constant) are stated once in :mod:`cr3bp.systems`.
 
 The names below are loaded on first use (PEP 562 module ``__getattr__``): ``import cr3bp`` or
@@ -21,12 +31,16 @@ __version__ = "0.1.0"
 _LAZY = {
     "propagate": "integrate", "propagate_batch": "integrate", "Arc": "integrate",
     "plane": "integrate", "impact": "integrate", "escape": "integrate",
-    "System": "systems", "system": "systems", "system_names": "systems",
+    "System": "systems", "system_names": "systems",
     "LagrangePoint": "equilibria", "lagrange_point": "equilibria", "lagrange_points": "equilibria",
     "HillRegion": "energy", "hill_region": "energy", "jacobi_above": "energy",
 }
+#: the public face: one call per stage (cr3bp/api.py)
+STAGES = ("system", "points", "orbit", "family", "manifold", "section", "connect", "route", "export",
+          "run", "torus", "shadow", "keep")
+_LAZY.update({name: "api" for name in STAGES})
 
-__all__ = ["CAUTION", "System", "system", "system_names", "propagate", "propagate_batch", "Arc",
+__all__ = list(STAGES) + ["CAUTION", "System", "system_names", "propagate", "propagate_batch", "Arc",
            "plane", "impact", "escape", "InputError", "NoSolutionError", "ConvergenceError",
            "LibrateError", "__version__", "LagrangePoint", "lagrange_point", "lagrange_points",
            "HillRegion", "hill_region", "jacobi_above"]

@@ -1,6 +1,6 @@
 """Typed exceptions raised by the library.
 
-The CLI maps them to exit statuses (documented in the README):
+The CLI maps them to exit statuses (documented in the user guide, docs/manual/usage.md):
 
 ========================  ======  =============================================
 exception                 status  meaning

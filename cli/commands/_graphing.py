@@ -5,7 +5,7 @@ from .. import common
 
 
 def add_build_options(p):
-    p.add_argument("--nodes", metavar="FILE.toml", required=True, help="node list (see README, 'Node lists')")
+    p.add_argument("--nodes", metavar="FILE.toml", required=True, help="node list (TOML; its format: docs/manual/node-lists.md, or the docs site)")
     g = p.add_argument_group("computing the legs")
     g.add_argument("--workers", metavar="N", help="worker processes (default: all cores; 1: no pool)")
     g.add_argument("--scheduler", metavar="ADDRESS",

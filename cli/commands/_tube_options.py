@@ -44,7 +44,7 @@ def add_manifold_options(p, points_default=200):
                    help="points equally spaced in time or in arc length (default time)")
     g.add_argument("--step-off", metavar="LENGTH",
                    help="step-off distance from the orbit, e.g. 40km (default: 40 km Earth-Moon, "
-                        "200 km Sun-Earth; see DEVELOPERS.md)")
+                        "200 km Sun-Earth; why: docs/history.md)")
 
 
 def orbit_options_given(args) -> list[str]:

@@ -27,7 +27,7 @@ def stability_text(point, mu, mu_r):
 
 
 def point_record(point, system, mu_r):
-    """The JSON object of one point (keys documented in README)."""
+    """The JSON object of one point (keys documented in the user guide, docs/manual/points.md)."""
     d = point.to_dict()
     dim = system.dimensional
     dist = point.distances()

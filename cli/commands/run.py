@@ -9,7 +9,7 @@ EXAMPLE = "librate run examples/farlight.toml --out out"
 
 
 def add_arguments(p):
-    p.add_argument("scenario", help="scenario file (TOML; format in the README)")
+    p.add_argument("scenario", help="scenario file (TOML; its format: docs/scenario-format.rst, or the docs site)")
     p.add_argument("--out", required=True, metavar="DIR", help="folder for the results")
     p.add_argument("--catalog", metavar="PATH", help="orbit catalogue (default: the per-user one)")
     p.add_argument("--workers", type=int, metavar="N", help="worker processes for transfer legs")

@@ -24,6 +24,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from ..display import Shown
 from ..errors import ConvergenceError, InputError, NoSolutionError
 from . import shooting, stability
 from .orbit import PeriodicOrbit
@@ -153,8 +154,8 @@ class Bifurcation:
                 "note": self.note}
 
 
-@dataclass(frozen=True)
-class Family:
+@dataclass(frozen=True, repr=False)
+class Family(Shown):
     """A computed family: members in order, located bifurcations, why it stopped.
 
     Parameters

@@ -23,13 +23,14 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from ..display import Shown
 from . import stability as _stab
 
 _NAN3 = (float("nan"),) * 3
 
 
-@dataclass(frozen=True)
-class PeriodicOrbit:
+@dataclass(frozen=True, repr=False)
+class PeriodicOrbit(Shown):
     """A converged periodic orbit.
 
     Parameters

@@ -113,7 +113,7 @@ UNUSED_SETTINGS = {
     "family_members": "librate run grows each family whole (its own continuation stops) and has no "
                       "member count to set; remove the key",
     "tube_points": "librate run chooses the points of each tube by the kind of leg (see the node "
-                   "list's hints in the README); remove the key",
+                   "list's hints in the user guide, docs/manual/node-lists.md); remove the key",
 }
 
 

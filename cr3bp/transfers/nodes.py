@@ -6,7 +6,7 @@ frame (a patch point, a rendezvous point), or a capture / escape condition about
 is a frozen dataclass with a stable string ``id`` (the same declaration always gives the same
 id, whatever it is called in the file) and ``to_dict()``.
 
-The node list is a TOML file with keys of our own (README, "Node lists")::
+The node list is a TOML file with keys of our own (user guide, docs/manual/node-lists.md)::
 
     system = "earth-moon"
     [settings]

@@ -24,13 +24,14 @@ from dataclasses import dataclass, field
 
 import networkx as nx
 
+from ..display import Shown
 from ..errors import InputError, NoSolutionError
 
 OBJECTIVES = ("dv", "tof")
 
 
-@dataclass(frozen=True)
-class Route:
+@dataclass(frozen=True, repr=False)
+class Route(Shown):
     """A chain of legs from a source node to a target node.
 
     Attributes

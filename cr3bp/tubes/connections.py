@@ -80,7 +80,7 @@ class Leg:
     system : System
     origin, target : str           what the leg joins (orbit descriptions, "parking earth 200km")
     maneuvers : tuple of Maneuver
-    dv_mps : float                 total |Δv| (sum over manoeuvres), m/s
+    dv_mps : float                 total ``|Δv|`` (sum over manoeuvres), m/s
     tof : float                    time of flight, TU (``tof_days`` the same in days)
     patch_state : ndarray (6,)     the state at the patch point / periapsis
     segments : tuple of (t0, state, duration)  ballistic arcs, forward in time, whose

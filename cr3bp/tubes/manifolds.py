@@ -38,6 +38,7 @@ import numpy as np
 
 from .. import units
 from ..dynamics import jacobi as _jacobi, jacobian
+from ..display import Shown
 from ..errors import InputError, NoSolutionError
 from ..integrate import escape, impact, propagate, propagate_batch
 from .sections import (Section, batch, batch_features, bounded_max_events, guard_events, parse_section,
@@ -514,8 +515,8 @@ def parse_until(texts, system, t_max=None) -> Stop:
 
 # ---- the tube ----------------------------------------------------------------------------
 
-@dataclass(frozen=True)
-class Tube:
+@dataclass(frozen=True, repr=False)
+class Tube(Shown):
     """A globalised half-manifold of a periodic orbit (or of a Lagrange point).
 
     Parameters

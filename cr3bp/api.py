@@ -1,0 +1,1062 @@
+"""The public face of the library: one call per stage of a mission design.
+
+``import cr3bp`` offers these functions (loaded on first use, so the import stays light)::
+
+    system -> points -> orbit -> family -> manifold -> section -> connect -> route -> export
+                                     \\-> torus        shadow, keep (an orbit at a date)   run (a scenario)
+
+Each is a thin, documented wrapper around the library call the ``librate`` command makes for
+the same stage, with the same words: an orbit request such as ``"halo L2 south
+resonance=9:2"``, a stop such as ``"section:x=1-mu"``, quantities as text with their unit
+(``"12000km"``, ``"6.5626d"``) or as nondimensional floats. Bad input raises
+:class:`cr3bp.errors.InputError` (one line naming the value and what is allowed), a target
+nothing meets :class:`cr3bp.errors.NoSolutionError`, an iteration that gives up
+:class:`cr3bp.errors.ConvergenceError`.
+
+All results are preliminary design in a simplified model (the circular restricted three-body
+problem unless a function says otherwise): see :data:`cr3bp.cautions.CAUTION`.
+
+Every library import of this module is inside the function that needs it: the one place the
+public calls meet the library's module paths (kept here so a module move is fixed in one file).
+"""
+
+from __future__ import annotations
+
+import math
+
+from .errors import InputError
+
+__all__ = ["system", "points", "orbit", "family", "manifold", "section", "connect", "route",
+           "export", "run", "torus", "shadow", "keep"]
+
+
+# ---- helpers ---------------------------------------------------------------------------
+
+def _system_of(obj):
+    s = getattr(obj, "system", None)
+    if s is None:
+        raise InputError(f"expected a System or a result that carries one, not {type(obj).__name__}")
+    return s
+
+
+def _as_system(value):
+    from .systems import System
+    if isinstance(value, System):
+        return value
+    if isinstance(value, str):
+        return system(value)
+    raise InputError(f"system {value!r}: give a System (cr3bp.system('earth-moon')) or a system name")
+
+
+def _whole(name, value, lo, hi):
+    from .validate import whole_number
+    return whole_number(name, value, lo, hi)
+
+
+def _text(value):
+    return None if value is None else str(value)
+
+
+def _one_of(name, value, allowed):
+    if value not in allowed:
+        raise InputError(f"{name} {value!r} is not allowed; allowed: {', '.join(map(str, allowed))}")
+    return value
+
+
+# ---- system and equilibria -------------------------------------------------------------
+
+def system(name=None, *, mu=None, length_km=None, time_s=None):
+    """A three-body system: a tabulated pair of primaries, or a custom mass ratio.
+
+    Parameters
+    ----------
+    name : str, optional
+        A tabulated system, e.g. ``"earth-moon"`` or ``"sun-earth"`` (the names of
+        ``librate systems``).
+    mu : float, optional
+        Custom system: mass ratio in (0, 0.5] (instead of ``name``).
+    length_km, time_s : float, optional
+        Custom system: length unit in km and time unit in seconds (both or neither).
+
+    Returns
+    -------
+    cr3bp.systems.System
+        Its mass ratio ``mu`` and units (conventions in :mod:`cr3bp.systems`).
+
+    Raises
+    ------
+    InputError
+        An unknown name, a mass ratio outside (0, 0.5], or both ``name`` and ``mu``.
+
+    Examples
+    --------
+    >>> import cr3bp
+    >>> em = cr3bp.system("earth-moon")
+    >>> round(em.mu, 6)
+    0.012151
+
+    References
+    ----------
+    Szebehely, *Theory of Orbits*, 1967 (the nondimensional units; conventions in
+    :mod:`cr3bp.systems`).
+    """
+    from .systems import system as _system
+    if name is not None and mu is not None:
+        raise InputError("give a system name or mu, not both")
+    if name is None and mu is None:
+        raise InputError("give a system name (e.g. 'earth-moon') or mu=VALUE")
+    if name is not None:
+        if length_km is not None or time_s is not None:
+            raise InputError("length_km and time_s go with mu (a custom system)")
+        return _system(name)
+    return _system(mu=mu, length_km=length_km, time_s=time_s)
+
+
+def points(system):
+    """The five Lagrange points: positions, Jacobi constants, linear modes, stability.
+
+    Parameters
+    ----------
+    system : System or str
+
+    Returns
+    -------
+    list of cr3bp.equilibria.LagrangePoint
+        L1..L5 in order; ``.position`` (LU), ``.jacobi``, ``.modes``, ``.to_dict()``.
+
+    Raises
+    ------
+    InputError
+        ``system`` is neither a System nor a system name.
+
+    Examples
+    --------
+    >>> import cr3bp
+    >>> [p.name for p in cr3bp.points("earth-moon")]
+    ['L1', 'L2', 'L3', 'L4', 'L5']
+
+    References
+    ----------
+    Szebehely, *Theory of Orbits*, 1967, §4.4-4.5 and §5.5; Routh, *Proc. London Math. Soc.*
+    6, 1875 (the triangular points' stability); Richardson, *Celestial Mechanics* 22, 1980,
+    §2 (the collinear points' linear modes). See :mod:`cr3bp.equilibria`.
+    """
+    from .equilibria import lagrange_points
+    return lagrange_points(_as_system(system))
+
+
+# ---- periodic orbits -------------------------------------------------------------------
+
+def _spec(request, family, point, branch, ratio, occurrence, target):
+    from .orbits.request import parse_request, spec_from_options
+    if request is not None:
+        if family is not None or point is not None or branch is not None or ratio is not None or target:
+            raise InputError("give the orbit as request text or as keywords (family=..., one target), not both")
+        spec = parse_request(request)
+        if occurrence is not None:
+            from .orbits.request import parse_occurrence
+            from dataclasses import replace
+            spec = replace(spec, occurrence=parse_occurrence(occurrence))
+        return spec
+    if family is None:
+        raise InputError("give the orbit: a request such as 'halo L2 south period=6.5626d', or family=... "
+                         "with one target (period=, jacobi=, ax=, ay=, az=, x=, perilune=, resonance=)")
+    return spec_from_options(family, point, branch, ratio, occurrence=occurrence,
+                             **{k: _text(v) for k, v in target.items()})
+
+
+def orbit(system, request=None, *, family=None, point=None, branch=None, ratio=None, occurrence=None,
+          state=None, period=None, catalog=None, progress=None, **target):
+    """One periodic orbit, picked out of its family by a target value (``librate orbit``).
+
+    Parameters
+    ----------
+    system : System or str
+    request : str, optional
+        The orbit in words, e.g. ``"halo L2 south resonance=9:2"`` or ``"lyapunov L1
+        jacobi=3.15"`` (grammar in :mod:`cr3bp.orbits.request`).
+    family, point, branch, ratio : str, optional
+        The same as keywords: ``family="halo", point="L2", branch="south"``; ``ratio="3:2"``
+        names a resonant family.
+    **target
+        Exactly one of ``period``, ``jacobi``, ``ax``, ``ay``, ``az``, ``x``, ``perilune``,
+        ``resonance``: text with its unit (``"12000km"``, ``"6.5626d"``) or a nondimensional
+        number.
+    occurrence : int, optional
+        Where the family meets the target at several places: the N-th from its start.
+    state : sequence of six floats, optional
+        Instead of a request: an already converged orbit's state (LU and LU/TU), with
+        ``period=`` its period (``"2.84TU"``, ``"12.4d"`` or TU as a float). Without
+        ``state``, ``period=`` is the target period of the request.
+    catalog : cr3bp.catalog.Catalog, optional
+        Read the family from this catalogue (or compute and store it).
+    progress : callable(count, max, orbit), optional
+
+    Returns
+    -------
+    cr3bp.orbits.orbit.PeriodicOrbit
+        State, period, monodromy matrix, stability indices; ``.to_dict()``, ``.plot(ax)``.
+
+    Raises
+    ------
+    InputError
+        A malformed request, an unknown family or target, a bad unit.
+    NoSolutionError
+        The family does not meet the target (the message gives its range).
+    ConvergenceError
+
+    Examples
+    --------
+    >>> import cr3bp
+    >>> em = cr3bp.system("earth-moon")
+    >>> o = cr3bp.orbit(em, "lyapunov L1 jacobi=3.15")
+    >>> round(o.period_days, 3)
+    12.354
+    >>> same = cr3bp.orbit(em, family="lyapunov", point="L1", jacobi=3.15)
+    >>> abs(same.period - o.period) < 1e-9
+    True
+    >>> given = cr3bp.orbit(em, state=o.state, period=o.period)
+    >>> given.family
+    'given'
+    >>> cr3bp.orbit(em, "halo L2 sideways period=6d")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: 'sideways' is not understood in the request 'halo L2 sideways period=6d'; expected a point (L1, L2, L3), a branch (north, south), p:q for resonant, or KEY=VALUE
+
+    References
+    ----------
+    Howell, *Celestial Mechanics* 32, 1984 (halo orbits by differential correction);
+    Doedel et al., *Int. J. Bifurcation and Chaos* 17, 2007 (continuation of families).
+    """
+    system = _as_system(system)
+    if state is None and period is not None:
+        target["period"] = period                     # the target period of a request
+    if state is not None:
+        if period is None:
+            raise InputError("a given orbit needs both state=[x, y, z, vx, vy, vz] and period=")
+        if request is not None or family is not None or target:
+            raise InputError("give a request or state= with period=, not both")
+        import numpy as np
+        from .tubes.manifolds import orbit_from_state
+        from .validate import quantity
+        try:
+            s = np.asarray(state, dtype=float).reshape(-1)
+        except (TypeError, ValueError):
+            raise InputError(f"state {state!r} is not six numbers x, y, z, vx, vy, vz") from None
+        if s.shape != (6,) or not np.all(np.isfinite(s)):
+            raise InputError(f"state {state!r} must be six finite numbers x, y, z, vx, vy, vz")
+        T = quantity("period", _text(period), "time", system, sign="positive", default_unit="TU")
+        return orbit_from_state(system, s, T)
+    from .orbits.request import solve_request
+    from .orbits.targets import make_target
+    spec = _spec(request, family, point, branch, ratio, occurrence, target)
+    if not spec.key:
+        raise InputError("the orbit has no target; give one of period=, jacobi=, ax=, ay=, az=, x=, "
+                         "perilune=, resonance=")
+    make_target(system, spec.key, spec.value)        # bad units fail here, before any work
+    return solve_request(system, spec, catalog=catalog, progress=progress)
+
+
+def family(system, name, *, point=None, branch=None, ratio=None, members=200, until=None, altitude=None,
+           method="arclength", parameter=None, step=None, max_step=None, route=None, progress=None):
+    """Grow a family of periodic orbits with its stability and bifurcations (``librate family``).
+
+    Parameters
+    ----------
+    system : System or str
+    name : str
+        ``lyapunov``, ``halo`` (alias ``nrho``), ``vertical``, ``axial``, ``dro`` or ``resonant``.
+    point, branch, ratio : str, optional
+        Collinear point (``"L1"``), halo branch (``"north"``/``"south"``), resonance (``"3:2"``).
+    members : int
+        Largest member count, 2..5000 (default 200).
+    until : str, optional
+        ``"KEY=VALUE"``: stop at the member where KEY (jacobi, period, az, ax, perilune)
+        reaches VALUE, e.g. ``"period=8d"``.
+    altitude : str, optional
+        Stop when a member passes below this altitude above a primary (``"100km"``).
+    method : {"arclength", "natural"}
+    parameter : {"x", "z", "vz", "jacobi", "period"}, optional
+        The stepped quantity of natural-parameter continuation.
+    step, max_step : float, optional
+        First and largest step (nondimensional, in (0, 1)).
+    route : {"seed", "branch"}, optional
+        How a three-dimensional family is reached (halo, vertical, axial).
+    progress : callable(count, max, orbit), optional
+
+    Returns
+    -------
+    cr3bp.orbits.continuation.Family
+        ``.members`` (PeriodicOrbit), ``.bifurcations``, ``.stop_reason``; ``.plot(ax)``.
+
+    Raises
+    ------
+    InputError
+        An unknown family, point or branch; ``members`` outside 2..5000; a bad ``until``.
+
+    Examples
+    --------
+    >>> import cr3bp
+    >>> fam = cr3bp.family("earth-moon", "lyapunov", point="L1", members=4)
+    >>> len(fam.members)
+    4
+    >>> cr3bp.family("earth-moon", "lyapunov", point="L1", members=1)
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: members 1 is outside the allowed range 2..5000
+
+    References
+    ----------
+    Doedel et al., *Int. J. Bifurcation and Chaos* 17, 2007 (pseudo-arclength continuation and
+    bifurcations of families in the restricted problem).
+    """
+    from .orbits import continuation, families, targets
+    from .orbits.request import spec_from_options
+    system = _as_system(system)
+    spec = spec_from_options(name, point, branch, ratio)
+    if isinstance(members, bool) or not isinstance(members, int) or not 2 <= members <= 5000:
+        raise InputError(f"members {members!r} is outside the allowed range 2..5000")
+    _one_of("method", method, ("arclength", "natural"))
+    if method == "natural" and not parameter:
+        raise InputError("method 'natural' needs parameter= (x, z, vz, jacobi or period)")
+    if route is not None:
+        _one_of("route", route, ("seed", "branch"))
+        if spec.family not in families.ROUTES:
+            raise InputError(f"route is offered for the halo, vertical and axial families, not {spec.family}")
+    target = None
+    if until is not None:
+        text = str(until)
+        if "=" not in text:
+            raise InputError(f"until {text!r} must be KEY=VALUE with KEY one of jacobi, period, az, ax, perilune")
+        k, v = (s.strip() for s in text.split("=", 1))
+        if k.lower() not in ("jacobi", "period", "az", "ax", "perilune"):
+            raise InputError(f"until key '{k}' is not allowed; use one of jacobi, period, az, ax, perilune")
+        t = targets.make_target(system, k.lower(), v)
+        target = (t.quantity, t.value)
+    alt = None
+    if altitude is not None:
+        system.require_dimensional("altitude")
+        from .validate import quantity
+        alt = quantity("altitude", _text(altitude), "length", system, sign="nonnegative") * system.length_km
+    for label, v in (("step", step), ("max_step", max_step)):
+        if v is not None and not (isinstance(v, (int, float)) and 0 < v < 1):
+            raise InputError(f"{label} {v!r} is outside the allowed range (0, 1)")
+    stops = continuation.Stops(max_members=members, altitude_km=alt, target=target)
+    if route is not None:
+        return families.grow_by_route(system, spec.family, spec.point, spec.branch, route, stops=stops,
+                                      max_step=max_step, progress=progress)
+    return families.grow_family(system, spec.family, spec.point, spec.branch, stops=stops, method=method,
+                                parameter=parameter, step=step, resonance=spec.resonance,
+                                max_step=max_step, progress=progress)
+
+
+# ---- tubes -----------------------------------------------------------------------------
+
+def manifold(orbit, stability, *, branch="interior", points=200, until=None, spacing="time",
+             step_off=None, progress=None):
+    """Grow the stable or unstable manifold (a tube) of a periodic orbit (``librate manifold``).
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+        Or, for the one-dimensional manifold of a collinear Lagrange point, a pair
+        ``(system, "L1")``.
+    stability : {"stable", "unstable"}
+        Unstable: departures, propagated forward; stable: arrivals, propagated backward.
+    branch : {"interior", "exterior"}
+        The half stepping toward the smaller primary, or away from it.
+    points : int
+        Departure points along the orbit, 2..100000 (default 200).
+    until : str or list of str, optional
+        Stop condition(s): ``"section:x=1-mu"``, ``"time:20d"``, ``"altitude:earth:200km"``,
+        ``"escape:3LU"`` (default ``time:2pi TU``).
+    spacing : {"time", "arc"}
+    step_off : str or float, optional
+        Step-off distance from the orbit, e.g. ``"40km"`` (default per system).
+    progress : callable(done, total, message), optional
+
+    Returns
+    -------
+    cr3bp.tubes.manifolds.Tube
+        Start and end states, times of flight, how each trajectory ended; ``.plot(ax)``.
+
+    Raises
+    ------
+    InputError
+        ``stability`` or ``branch`` not one of the allowed words, a bad stop, ``points`` out of range.
+
+    Examples
+    --------
+    >>> import cr3bp
+    >>> em = cr3bp.system("earth-moon")
+    >>> o = cr3bp.orbit(em, "lyapunov L1 jacobi=3.15")
+    >>> tube = cr3bp.manifold(o, "unstable", points=8, until="time:1TU")
+    >>> tube.n
+    8
+
+    References
+    ----------
+    Gómez et al., *Nonlinearity* 17, 2004, §3; Koon, Lo, Marsden and Ross, *Dynamical Systems,
+    the Three-Body Problem and Space Mission Design*, 2011, §4.5.
+    """
+    from .tubes.manifolds import grow_tube, parse_until, point_tube
+    stability = _one_of("stability", stability, ("stable", "unstable"))
+    branch = _one_of("branch", branch, ("interior", "exterior"))
+    _one_of("spacing", spacing, ("time", "arc"))
+    if isinstance(orbit, tuple) and len(orbit) == 2:
+        sysm, name = _as_system(orbit[0]), str(orbit[1]).upper()
+        if name not in ("L1", "L2", "L3"):
+            raise InputError(f"point {orbit[1]!r}: only the collinear points L1, L2, L3 have "
+                             "one-dimensional manifolds")
+        return point_tube(sysm, name, stability, branch, parse_until(until, sysm), step_km=step_off)
+    sysm = _system_of(orbit)
+    _whole("points", points, 2, 100_000)
+    stop = parse_until(until, sysm)
+    return grow_tube(orbit, stability, branch, int(points), stop, spacing=spacing, step_km=step_off,
+                     progress=progress)
+
+
+def section(tube, where, *, crossing=1, time=None):
+    """Cut a tube with a Poincaré section (``librate section``).
+
+    Parameters
+    ----------
+    tube : Tube
+        A tube from :func:`manifold`; it is grown again from its orbit to the section (same
+        departure points, stability, branch and step-off), unless it was grown to this very
+        section and crossing, in which case its own cut is returned.
+    where : str
+        ``"x=1-mu"``, ``"y=0:+"`` (one direction), ``"sphere:moon:20000km"``.
+    crossing : int
+        Take the N-th crossing, 1..1000 (default 1).
+    time : str or float, optional
+        Time limit per trajectory (default 2 pi TU).
+
+    Returns
+    -------
+    cr3bp.tubes.sections.Crossings
+        The crossing states; ``.coords(("y", "vy"))``, ``.to_dict()``.
+
+    Raises
+    ------
+    InputError
+        A malformed section, ``crossing`` out of range, or not a Tube.
+
+    Examples
+    --------
+    >>> import cr3bp
+    >>> em = cr3bp.system("earth-moon")
+    >>> o = cr3bp.orbit(em, "lyapunov L1 jacobi=3.15")
+    >>> tube = cr3bp.manifold(o, "unstable", points=8, until="time:1TU")
+    >>> cut = cr3bp.section(tube, "x=1-mu")
+    >>> cut.n_trajectories
+    8
+
+    References
+    ----------
+    Poincaré, *Les méthodes nouvelles de la mécanique céleste* (surfaces of section); see
+    :mod:`cr3bp.tubes.sections`.
+    """
+    from .tubes.manifolds import Stop, Tube, grow_tube
+    from .tubes.sections import parse_section
+    if not isinstance(tube, Tube):
+        raise InputError(f"section cuts a Tube (from cr3bp.manifold), not {type(tube).__name__}")
+    sysm = tube.system
+    sec = parse_section(str(where), sysm)
+    crossing = _whole("crossing", crossing, 1, 1000)
+    if sec.kind == "apsis":
+        raise InputError(f"section {where!r}: an apsis map is drawn by cr3bp.connect with a parking orbit")
+    t_max = 2 * math.pi
+    if time is not None:
+        from .validate import quantity
+        t_max = quantity("time", _text(time), "time", sysm, sign="positive", default_unit="TU")
+    if tube.stop.section == sec and tube.stop.count == crossing and time is None:
+        return tube.section_cut()
+    if tube.orbit is None:
+        raise InputError("this tube does not carry its orbit; grow it with cr3bp.manifold")
+    grown = grow_tube(tube.orbit, tube.stability, tube.branch, tube.n, Stop(sec, crossing, t_max),
+                      spacing=tube.spacing, step_km=tube.step_km if math.isfinite(tube.step_km) else None,
+                      origin=tube.origin)
+    return grown.section_cut()
+
+
+def _parking(text, sysm):
+    from .tubes.sections import primary_index
+    from .validate import quantity
+    words = str(text).split()
+    if not words or words[0].lower() != "parking":
+        return None
+    if len(words) != 3:
+        raise InputError(f"'{text}': write 'parking BODY ALTITUDE', e.g. 'parking earth 200km'")
+    p = primary_index(sysm, words[1])
+    sysm.require_dimensional("a parking altitude")
+    alt = sysm.km(quantity(f"parking altitude in '{text}'", words[2], "length", sysm, sign="nonnegative"))
+    return p, float(alt)
+
+
+def connect(origin, target, *, system=None, section="x=1-mu", points=None, crossing=1, time=None,
+            step_off=None, candidates=5, from_branch=None, to_branch=None):
+    """Legs between two periodic orbits, or a parking orbit and a periodic orbit (``librate connect``).
+
+    Parameters
+    ----------
+    origin, target : PeriodicOrbit or str
+        An orbit (from :func:`orbit`), an orbit request, or ``"parking BODY ALTITUDE"``
+        (``"parking moon 100km"``) at one end.
+    system : System or str, optional
+        Needed when neither end is a PeriodicOrbit.
+    section : str
+        The section on which the two tubes are matched (default ``"x=1-mu"``), as ``librate
+        connect --section``.
+    points : int, optional
+        Trajectories per tube (default 200; 100 for a parking-orbit leg).
+    crossing : int
+        Which crossing of the section (default 1).
+    time : str or float, optional
+        Time limit per trajectory (default 2 pi TU).
+    step_off : str or float, optional
+    candidates : int
+        Most legs returned, 1..1000 (default 5), best first.
+    from_branch, to_branch : {"interior", "exterior"}, optional
+
+    Returns
+    -------
+    list of cr3bp.tubes.connections.Leg
+        Best first: ``.dv_mps`` (CR3BP), ``.tof_days``, ``.segments``, ``.to_dict()``.
+
+    Raises
+    ------
+    InputError
+        Both ends parking orbits, a malformed request or section.
+    NoSolutionError
+        The tubes do not meet on the section.
+
+    Examples
+    --------
+    >>> import cr3bp
+    >>> cr3bp.connect("parking earth 200km", "parking moon 100km", system="earth-moon")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: one end must be a periodic orbit; both ends are parking orbits
+
+    References
+    ----------
+    Koon, Lo, Marsden and Ross, *Dynamical Systems, the Three-Body Problem and Space Mission
+    Design*, 2011, ch. 3 and §4.5; Gómez et al., *Nonlinearity* 17, 2004, §4 (tubes cut by a
+    common section); see :mod:`cr3bp.tubes.connections`.
+    """
+    from .orbits.orbit import PeriodicOrbit
+    from .tubes.connections import connect as _connect
+    from .tubes.connections import parking_legs, periapsis_map
+    sysm = None
+    for end in (origin, target):
+        if isinstance(end, PeriodicOrbit):
+            sysm = end.system
+    if sysm is None:
+        if system is None:
+            raise InputError("give system= when neither end is a PeriodicOrbit")
+        sysm = _as_system(system)
+    candidates = _whole("candidates", candidates, 1, 1000)
+    crossing = _whole("crossing", crossing, 1, 1000)
+    if points is not None:
+        points = _whole("points", points, 2, 100_000)
+    t_max = 2 * math.pi
+    if time is not None:
+        from .validate import quantity
+        t_max = quantity("time", _text(time), "time", sysm, sign="positive", default_unit="TU")
+    pa = _parking(origin, sysm) if isinstance(origin, str) else None
+    pb = _parking(target, sysm) if isinstance(target, str) else None
+    if pa and pb:
+        raise InputError("one end must be a periodic orbit; both ends are parking orbits")
+    for b in (from_branch, to_branch):
+        if b is not None:
+            _one_of("branch", b, ("interior", "exterior"))
+
+    def _orbit(end):
+        return end if isinstance(end, PeriodicOrbit) else orbit(sysm, end)
+
+    if pa or pb:
+        primary, alt = pa or pb
+        orb = _orbit(target if pa else origin)
+        stability = "stable" if pa else "unstable"
+        facing = "interior" if primary == 1 else "exterior"
+        branch = (to_branch if pa else from_branch) or facing
+        n = points or 100
+        pm = periapsis_map(orb, primary, stability, branch, n, t_max=t_max, step_km=step_off)
+        return parking_legs(orb, primary, alt, stability=stability, branch=branch, n_points=n, t_max=t_max,
+                            step_km=step_off, max_legs=candidates, pmap=pm)
+    oa, ob = _orbit(origin), _orbit(target)
+    legs, _, _ = _connect(oa, ob, str(section), points or 200, step_km=step_off, t_max=t_max, count=crossing,
+                          branch_a=from_branch or "interior", branch_b=to_branch or "interior",
+                          max_candidates=candidates)
+    return legs
+
+
+# ---- routes, export, scenarios ---------------------------------------------------------
+
+def route(system, nodes, start, goal, *, objective="dv", best=1, max_dv=None, max_tof=None,
+          min_altitude=None, max_legs=None, through=(), avoid=(), workers=1, catalog=None, tof=None,
+          progress=None):
+    """The best routes through a transfer graph (``librate route``, without stitching).
+
+    Parameters
+    ----------
+    system : System or str
+    nodes : str or path
+        A node list (TOML; format in the user guide, e.g. ``examples/cislunar_nodes.toml``).
+    start, goal : str
+        Node names, ids, orbit texts, or ``"parking BODY ALTITUDE"``.
+    objective : {"dv", "tof"}
+    best : int
+        How many routes, 1..1000 (default 1).
+    max_dv, max_tof, min_altitude : str, optional
+        Caps with their unit: ``"1500m/s"``, ``"60d"``, ``"100km"``.
+    max_legs : int, optional
+    through, avoid : sequence of str
+        Nodes a route must pass / must not pass.
+    workers : int or None
+        Worker processes for the legs (default 1: in this process; None: all cores).
+    catalog : str or path, optional
+        Leg cache (default: none, every leg is computed).
+    tof : str, optional
+        Time of flight of targeted legs without their own (``"6d"``).
+    progress : callable(done, total, leg), optional
+
+    Returns
+    -------
+    list of cr3bp.transfers.search.Route
+        Best first: ``.nodes``, ``.dv_total_mps`` and ``.tof_days`` (CR3BP); ``.plot(ax)``.
+
+    Raises
+    ------
+    InputError
+        A bad node list, unknown node, start equal to goal, a bad cap.
+    NoSolutionError
+        No route meets the caps (the message names the binding one).
+
+    Examples
+    --------
+    >>> import cr3bp
+    >>> cr3bp.route("earth-moon", "examples/cislunar_nodes.toml", "leo", "leo")  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: start and goal name the same node...
+
+    References
+    ----------
+    Dijkstra, "A note on two problems in connexion with graphs", *Numer. Math.* 1, 1959,
+    applied to paths (Martins, "On a multicriteria shortest path problem", *EJOR* 16, 1984):
+    see :mod:`cr3bp.transfers.search`.
+    """
+    from .catalog import Catalog
+    from .transfers.graph import build_graph
+    from .transfers.nodes import find_node, load_nodes
+    from .transfers.search import Constraints, best_routes
+    from .validate import quantity
+    sysm = _as_system(system)
+    nodelist = load_nodes(nodes, sysm)
+    src, dst = find_node(nodelist.nodes, str(start)), find_node(nodelist.nodes, str(goal))
+    if src.id == dst.id:
+        raise InputError(f"start and goal name the same node ({src.name})")
+    _one_of("objective", objective, ("dv", "tof"))
+    k = _whole("best", best, 1, 1000)
+    dv = None if max_dv is None else sysm.mps(quantity("max_dv", _text(max_dv), "velocity", sysm, sign="nonnegative"))
+    tmax = None if max_tof is None else sysm.days(quantity("max_tof", _text(max_tof), "time", sysm,
+                                                           sign="nonnegative"))
+    alt = None if min_altitude is None else sysm.km(quantity("min_altitude", _text(min_altitude), "length", sysm,
+                                                              sign="nonnegative"))
+    legs = None if max_legs is None else _whole("max_legs", max_legs, 1, 1000)
+    if isinstance(through, str) or isinstance(avoid, str):
+        raise InputError("through= and avoid= are lists of node names")
+    constraints = Constraints(dv, tmax, legs, alt, tuple(find_node(nodelist.nodes, str(t)).id for t in through),
+                              tuple(find_node(nodelist.nodes, str(t)).id for t in avoid))
+    if workers is not None:
+        workers = _whole("workers", workers, 1, 256)
+    tof_days = None if tof is None else sysm.days(quantity("tof", _text(tof), "time", sysm, sign="positive"))
+    cat = Catalog(catalog) if catalog is not None else None
+    try:
+        result = build_graph(sysm, nodelist, workers=workers, catalog=cat, progress=progress, tof_days=tof_days)
+    finally:
+        if cat is not None:
+            cat.close()
+    return best_routes(result.graph, src.id, dst.id, constraints, objective, k)
+
+
+def export(source, path, *, epoch, span, step, frame="j2000-equator", center=None, time_system="tdb",
+           anchor="ephemeris", fmt=None, object_name="LIBRATE DESIGN", object_id="NONE"):
+    """Write a periodic orbit as a dated hand-off file: CCSDS OEM, CSV or JSON (``librate export``).
+
+    Parameters
+    ----------
+    source : PeriodicOrbit
+    path : str or path
+        The file to write (atomically); the format follows its suffix unless ``fmt`` is given.
+    epoch : str
+        Date of rotating time 0, ISO 8601: ``"2031-03-01T00:00:00Z"`` (Z = UTC) or with a
+        trailing TDB, TT, TAI or UTC.
+    span : str
+        How long: ``"12d"``, ``"36h"``, ``"3periods"``.
+    step : str
+        Output step on the output clock: ``"10min"``, ``"1h"``.
+    frame : {"j2000-equator", "j2000-ecliptic", "rotating"}
+    center : str, optional
+        ``"earth"``, ``"moon"``, ``"barycenter"`` ... (default: the larger primary).
+    time_system : {"tdb", "tt", "tai", "utc"}
+    anchor : {"ephemeris", "circular"}
+    fmt : {"oem", "xml", "csv", "json"}, optional
+    object_name, object_id : str
+
+    Returns
+    -------
+    pathlib.Path
+        The file written; its header carries the model and the caution.
+
+    Raises
+    ------
+    InputError
+        A bad epoch, span, step, frame or centre; OEM in the rotating frame.
+
+    Examples
+    --------
+    >>> import cr3bp
+    >>> em = cr3bp.system("earth-moon")
+    >>> o = cr3bp.orbit(em, "lyapunov L1 jacobi=3.15")
+    >>> cr3bp.export(o, "o.oem", epoch="2031-03-01T00:00:00Z", span="1d", step="1h", frame="rotating")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: OEM needs inertial axes (frame j2000-equator or j2000-ecliptic); use a .csv or .json file for the rotating frame
+
+    References
+    ----------
+    CCSDS 502.0-B-3, *Orbit Data Messages*, 2023 (the OEM); time scales and frames as in
+    :mod:`cr3bp.time.scales` and :mod:`cr3bp.time.frames`.
+    """
+    from pathlib import Path
+
+    from .io import export as ex
+    from .time import frames
+    from .validate import plain_text, quantity
+    sysm = _system_of(source)
+    sysm.require_dimensional("an export in km")
+    _one_of("frame", frame, ("j2000-equator", "j2000-ecliptic", "rotating"))
+    _one_of("anchor", anchor, ("ephemeris", "circular"))
+    ts = _one_of("time_system", str(time_system).lower(), ("tdb", "tt", "tai", "utc")).upper()
+    plain_text("object_name", object_name, 100)
+    plain_text("object_id", object_id, 100)
+    kind = ex.format_of(str(path), fmt)
+    if kind in ("oem", "xml") and frame == "rotating":
+        raise InputError("OEM needs inertial axes (frame j2000-equator or j2000-ecliptic); use a .csv or .json "
+                         "file for the rotating frame")
+    from .validate import output_file
+    output_file("path", str(path))
+    period_tu = float(source.period)
+    model = {"orbit": f"{source.family} {source.point} {source.branch}".strip(),
+             "period": f"{source.period!r} TU = {source.period * sysm.time_days:.9f} d",
+             "jacobi": repr(float(source.jacobi))}
+    span_tu = ex.parse_span(str(span), sysm, period_tu)
+    spec = frames.frame(sysm, epoch, anchor=anchor, axes=frame, center=center or "primary", time_scale=ts)
+    step_s = quantity("step", _text(step), "time", sysm, sign="positive") * sysm.time_s
+    grid = ex.epoch_grid(spec, ts, span_tu, float(step_s))
+    seg = ex.sample(sysm, source, grid)
+    traj = ex.Trajectory(spec, (seg,), ts, (), object_name, object_id, model)
+    return Path(ex.write(str(path), traj, kind))
+
+
+def run(scenario, out, *, catalog=None, workers=None, progress=None):
+    """Run a scenario file: orbits, checks, transfers, exports, figures, report (``librate run``).
+
+    Parameters
+    ----------
+    scenario : str or path
+        A scenario (TOML; its format is in the user guide), e.g. ``examples/farlight.toml``.
+    out : str or path
+        The output folder (created; a folder holding another run's files is refused).
+    catalog : str or path, optional
+        The orbit catalogue (default: the per-user one, ``$LIBRATE_CATALOG``).
+    workers : int, optional
+        Worker processes for the transfer legs (default: the scenario's setting).
+    progress : callable(str), optional
+        One line per step.
+
+    Returns
+    -------
+    cr3bp.scenario.run.RunResult
+        ``.report``, ``.manifest``, ``.files``, ``.orbits``, ``.checks``; ``.to_dict()``.
+
+    Raises
+    ------
+    InputError
+        Every problem of the scenario, one line each (``.problems``), before anything is written.
+
+    Examples
+    --------
+    >>> import cr3bp
+    >>> cr3bp.run("no-such-file.toml", "out")  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: ...no-such-file.toml...
+
+    References
+    ----------
+    The scenario format: the user guide's scenario page (generated from
+    :mod:`cr3bp.scenario.schema`).
+    """
+    from .catalog import Catalog, default_path
+    from .scenario import run as mission
+    if workers is not None:
+        workers = _whole("workers", workers, 1, 256)
+    plan = mission.prepare(scenario)
+    mission.check_output_folder(out, plan.path, catalog or default_path(), mission.planned_files(plan.data))
+    return mission.run(plan, out, catalog=Catalog(catalog) if catalog else None, workers=workers,
+                       progress=progress)
+
+
+# ---- tori and operations at a date -----------------------------------------------------
+
+def torus(orbit=None, amplitude=None, *, hold="jacobi", lissajous=None, members=None, progress=None):
+    """A quasi-periodic invariant torus about a periodic orbit, or a Lissajous torus (``librate torus``).
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit, optional
+        The orbit the torus surrounds (with ``amplitude``).
+    amplitude : str or float, optional
+        The torus's size about the orbit: ``"2000km"`` or LU (at most 0.2 LU).
+    hold : {"jacobi", "rotation", "period"}
+        What is held fixed while the torus grows (default the Jacobi constant).
+    lissajous : tuple, optional
+        Instead of an orbit: ``(system, "L2", ay, az)`` with the amplitudes as lengths
+        (``"5000km"``).
+    members : int, optional
+        Continue a family of this many tori (1..500) from the first.
+    progress : callable, optional
+
+    Returns
+    -------
+    cr3bp.tori.torus.Torus or cr3bp.tori.family.TorusFamily
+        Its invariance circle, rotation number, stroboscopic time; ``.to_dict()``.
+
+    Raises
+    ------
+    InputError
+        Neither or both of an orbit and ``lissajous``; an amplitude that is not a positive
+        length or is over 0.2 LU.
+    ConvergenceError
+
+    Examples
+    --------
+    >>> import cr3bp
+    >>> cr3bp.torus()
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: give an orbit with amplitude=, or lissajous=(system, point, ay, az)
+
+    References
+    ----------
+    Gómez and Mondelo, *Physica D* 157, 2001, §3; Olikara and Scheeres, AAS 12-361, 2012,
+    eqs. 9-14 (the invariance circle); Baresi, Olikara and Scheeres (the continuation): see
+    :mod:`cr3bp.tori`.
+    """
+    from .units import length
+    if (orbit is None) == (lissajous is None):
+        raise InputError("give an orbit with amplitude=, or lissajous=(system, point, ay, az)")
+    _one_of("hold", hold, ("jacobi", "rotation", "period"))
+    if members is not None:
+        members = _whole("members", members, 1, 500)
+    if lissajous is not None:
+        from .tori.lissajous import lissajous as _lissajous
+        if not (isinstance(lissajous, tuple) and len(lissajous) == 4):
+            raise InputError("lissajous= is (system, point, ay, az), e.g. (em, 'L2', '5000km', '8000km')")
+        sysm, point, ay, az = lissajous
+        sysm = _as_system(sysm)
+        point = str(point).upper()
+        if point not in ("L1", "L2"):
+            raise InputError(f"Lissajous point {lissajous[1]!r}: allowed L1, L2")
+        ay_lu = length(_text(ay), sysm, default_unit="km")
+        az_lu = length(_text(az), sysm, default_unit="km")
+        if not (ay_lu > 0 and az_lu > 0):
+            raise InputError(f"Lissajous amplitudes ay {ay!r}, az {az!r} must be positive lengths")
+        t = _lissajous(sysm, point, ay_lu, az_lu, progress=progress)
+    else:
+        from .tori import torus_around
+        sysm = _system_of(orbit)
+        if amplitude is None:
+            raise InputError("a torus about an orbit needs amplitude= (e.g. '2000km')")
+        amp = length(_text(amplitude), sysm, default_unit="km")
+        if not amp > 0:
+            raise InputError(f"amplitude {amplitude!r} must be a positive length")
+        if amp > 0.2:
+            raise InputError(f"amplitude {amplitude!r} is larger than 0.2 of the distance between the primaries; "
+                             "tori that large are not attempted")
+        t = torus_around(orbit, amp, hold=hold, progress=progress)
+    if members is None:
+        return t
+    from .tori import continue_family
+    return continue_family(t, hold=hold, members=members, progress=progress)
+
+
+def shadow(orbit, epoch, *, span="365d", step="5min", phase=0.0, bodies=("earth", "moon")):
+    """Eclipse passes of a periodic orbit placed at a date (``librate shadow``, one phase).
+
+    The CR3BP orbit is placed at ``epoch`` by the ephemeris-anchored rotating frame (J2000
+    mean equator, Earth-centred); shadows are conical, from the project's ephemeris of the
+    Sun and Moon.
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+        An Earth-Moon orbit.
+    epoch : str
+        Date of rotating time 0, ISO 8601 (``"2031-03-01T00:00:00Z"``).
+    span : str
+        How long: a time (``"365d"``) or ``"Nperiods"``.
+    step : str
+        Search step, 10 s to 1 h (default ``"5min"``).
+    phase : str or float
+        Phase of the orbit at the epoch: ``"120deg"``, ``"0.25rev"`` or degrees.
+    bodies : sequence of {"earth", "moon"}
+
+    Returns
+    -------
+    cr3bp.operations.phasing.History
+        ``.passes`` (each with ``.to_dict()``: body, kind, start and end UTC, duration, depth),
+        ``.total_min()``, ``.longest_min()``.
+
+    Raises
+    ------
+    InputError
+        Not Earth-Moon, a step outside 10 s..1 h, unknown bodies, an epoch outside the
+        ephemeris tables.
+
+    Examples
+    --------
+    >>> import cr3bp
+    >>> o = cr3bp.orbit("earth-moon", "lyapunov L1 jacobi=3.15")
+    >>> cr3bp.shadow(o, "2031-03-01T00:00:00Z", step="1s")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: step '1s' is 1 s; allowed 10 s to 1 h
+
+    References
+    ----------
+    Montenbruck and Gill, *Satellite Orbits*, 2000, §3.4.2 (conical shadow model).
+    """
+    from . import units
+    from .io import export as ex
+    from .operations import eclipses, phasing, placement
+    from .time import frames
+    sysm = _system_of(orbit)
+    sysm.require_dimensional("eclipses at a date")
+    if sysm.name != "earth-moon":
+        raise InputError(f"system {sysm.name}: eclipses are computed for earth-moon only")
+    bodies = tuple(str(b).strip().lower() for b in bodies)
+    if not bodies or any(b not in eclipses.BODIES for b in bodies) or len(set(bodies)) != len(bodies):
+        raise InputError(f"bodies {bodies!r}: allowed earth, moon or both")
+    q = units.parse(str(step), "time")
+    step_s = q.nondim(sysm) * sysm.time_s if q.unit == "TU" else q.si()
+    if not 10.0 <= step_s <= 3600.0:
+        raise InputError(f"step '{step}' is {step_s:g} s; allowed 10 s to 1 h")
+    phase_deg = placement.parse_phase(phase) if isinstance(phase, str) else float(phase)
+    if not math.isfinite(phase_deg):
+        raise InputError(f"phase {phase!r} must be a finite angle")
+    t0 = frames.epoch_from_text(epoch)
+    span_s = ex.parse_span(str(span), sysm, float(orbit.period)) * sysm.time_s
+    if span_s > 20 * 365.25 * 86400.0:
+        raise InputError(f"span '{span}' is longer than 20 years")
+    placed = placement.place(sysm, orbit, t0)
+    sk = phasing.sky(placed, span_s, step_s)
+    return phasing.history(placed, sk, phase_deg, bodies)
+
+
+def keep(orbit, epoch, *, span="365d", trials=200, nav_error=(1.0, 0.01), burn_error=(0.01, 0.001),
+         min_burn_mps=0.0, bodies=("sun", "earth", "moon"), target_revs=4, interval=None, hold_phase=False,
+         seed=0, workers=None, progress=None):
+    """Station-keeping Δv budget of an orbit carried into the ephemeris model (``librate keep``).
+
+    A Monte Carlo of navigation and burn errors about a reference trajectory solved in the
+    ephemeris model (point masses of ``bodies``); all Δv in the ephemeris model.
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+    epoch : str
+        Date of the reference's start, ISO 8601.
+    span : str
+        Span maintained: ``"365d"`` or ``"Nperiods"``.
+    trials : int
+        Monte Carlo trials, 1..100000.
+    nav_error : (float, float)
+        Navigation error, 1-sigma per axis: position km, velocity m/s.
+    burn_error : (float, float)
+        Execution error, 1-sigma per axis: proportional (fraction, 0.01 = 1 %), fixed m/s.
+    min_burn_mps : float
+        Planned burns smaller than this are skipped.
+    bodies : sequence of str
+    target_revs : int
+        Revolutions from a maneuver to the crossing it targets, 1..10.
+    interval : str, optional
+        A maneuver every TIME (``"7d"``) instead of once a revolution.
+    hold_phase : bool
+    seed : int
+    workers : int, optional
+    progress : callable(str), optional
+
+    Returns
+    -------
+    cr3bp.operations.keeping.Budget
+        ``.summary()`` (Δv per year and per maneuver), ``.to_dict()``.
+
+    Raises
+    ------
+    InputError
+        Values outside the ranges above; a span shorter than a revolution without ``interval``.
+
+    Examples
+    --------
+    >>> import cr3bp
+    >>> o = cr3bp.orbit("earth-moon", "lyapunov L1 jacobi=3.15")
+    >>> cr3bp.keep(o, "2031-03-01T00:00:00Z", trials=0)
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: trials 0 is outside the allowed range 1..100000
+
+    References
+    ----------
+    x-axis crossing control after Davis, Guzzetti et al., AAS 17-269, 2017, and Guzzetti,
+    Zimovan, Howell and Davis, AAS 17-395, 2017; the crossing condition of Howell and
+    Pernicka, *J. Guidance* 16(1), 1993 (all from memory; see :mod:`cr3bp.operations.keeping`).
+    """
+    from .io import export as ex
+    from .operations import keeping
+    from .validate import finite_number, quantity
+    trials = _whole("trials", trials, 1, 100000)
+    target_revs = _whole("target_revs", target_revs, 1, 10)
+    seed = _whole("seed", seed, 0, 999999999999)
+    if workers is not None:
+        workers = _whole("workers", workers, 1, 256)
+    sysm = _system_of(orbit)
+    sysm.require_dimensional("an ephemeris model")
+    try:
+        pos_km, vel_mps = (finite_number("nav_error", v) for v in nav_error)
+        prop, fixed_mps = (finite_number("burn_error", v) for v in burn_error)
+    except (TypeError, ValueError):
+        raise InputError("nav_error is (km, m/s) and burn_error is (fraction, m/s)") from None
+    if not (0 <= pos_km <= 1e5 and 0 <= vel_mps <= 1000 and 0 <= prop <= 1 and 0 <= fixed_mps <= 1000):
+        raise InputError(f"nav_error {nav_error!r} or burn_error {burn_error!r} is outside the allowed ranges "
+                         "(0..100000 km, 0..1000 m/s, 0..1, 0..1000 m/s)")
+    errors = keeping.Errors(pos_km, vel_mps, prop, fixed_mps)
+    span_tu = ex.parse_span(str(span), sysm, float(orbit.period))
+    revs = span_tu / float(orbit.period)
+    if revs + target_revs + 2 > keeping.MAX_REVS:
+        raise InputError(f"span '{span}' is {revs:.1f} revolutions; with target_revs {target_revs} at most "
+                         f"{keeping.MAX_REVS - target_revs - 3}")
+    interval_tu = None
+    if interval is not None:
+        interval_tu = quantity("interval", _text(interval), "time", sysm, sign="positive")
+        if not 0.05 * orbit.period <= interval_tu <= span_tu:
+            raise InputError(f"interval '{interval}' must be between 5 % of the period and the span")
+    elif revs < 1.0:
+        raise InputError(f"span '{span}' is shorter than one revolution; lengthen it or give interval=")
+    return keeping.budget(orbit, epoch, span_tu, errors, trials, seed=seed, min_burn_mps=min_burn_mps,
+                          bodies=tuple(bodies), target_revs=target_revs, interval_tu=interval_tu,
+                          hold_phase=hold_phase, workers=workers, progress=progress)
