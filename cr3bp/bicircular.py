@@ -43,8 +43,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .dynamics import MODE_BICIRCULAR, MODE_BICIRCULAR_STM
 from .errors import InputError, shown
+from .integrate.modes import MODE_BICIRCULAR, MODE_BICIRCULAR_STM
 
 #: Status of a default-built model, shown by ``to_dict`` (where its numbers come from).
 SOURCE = ("equations: Boudad, Howell & Davis, Adv. Space Res. 66, 2020, section 2 (from memory); "

@@ -16,7 +16,7 @@ This module imports nothing compiled. The functions below call the ahead-of-time
 kernels when they are present and current (:mod:`cr3bp.integrate.prebuilt`: the same source,
 built once by ``make``), otherwise numba's just-in-time ones; a single request therefore
 does not pay numba's start-up. The kernels themselves (``omega``, ``grad_omega``,
-``hessian_omega``, ``eom``, ``eom_stm``, ``rhs``) are reached as ``cr3bp.dynamics.<name>``,
+``hessian_omega``, ``eom``, ``eom_stm``) are reached as ``cr3bp.dynamics.<name>``,
 for use inside other compiled code.
 """
 
@@ -24,17 +24,8 @@ from __future__ import annotations
 
 import numpy as np
 
-# Right-hand-side modes understood by ``rhs`` (also used by the integrator).
-MODE_STATE = 0
-MODE_STM = 1
-MODE_EPHEMERIS = 2       # point-mass ephemeris model (cr3bp.fidelity.forces), 6 states
-MODE_EPHEMERIS_STM = 3   # the same with its variational equations, 42 states
-MODE_BICIRCULAR = 4      # bicircular Earth-Moon-Sun model (cr3bp.bicircular_kernels), 6 states
-MODE_BICIRCULAR_STM = 5  # the same with its variational equations, 42 states
-
 #: Kernels of :mod:`cr3bp.dynamics_kernels` reachable as attributes of this module.
-KERNEL_NAMES = ("omega", "grad_omega", "hessian_omega", "eom", "eom_stm", "rhs", "_jacobi_many",
-                "_ephemeris_forces", "_bicircular")
+KERNEL_NAMES = ("omega", "grad_omega", "hessian_omega", "eom", "eom_stm", "_jacobi_many")
 
 
 def __getattr__(name):

@@ -13,6 +13,7 @@ import pytest
 
 from cr3bp import dynamics, dynamics_kernels, system
 from cr3bp.integrate import dop853, events, prebuilt
+from cr3bp.integrate.modes import MODE_STATE, MODE_STM
 from cr3bp.integrate.propagate import integrator, propagate
 
 EM = system("earth-moon")
@@ -47,17 +48,17 @@ def _cases():
     cross = events.table([events.plane("y", 0.0, terminal=True, count=2)])
     moon = events.table([events.impact(1, 0.002)])
     t_eval = np.linspace(0.0, PERIOD, 9)
-    yield "state, record", (0, mu, HALO.copy(), 0.0, PERIOD, 1e-12, 1e-12, -1.0, np.inf, 10**6,
+    yield "state, record", (MODE_STATE, mu, HALO.copy(), 0.0, PERIOD, 1e-12, 1e-12, -1.0, np.inf, 10**6,
                             none, -1, no_t, True)
-    yield "state+STM, backward", (1, mu, y42.copy(), 0.0, -PERIOD, 1e-12, 1e-12, -1.0, np.inf,
+    yield "state+STM, backward", (MODE_STM, mu, y42.copy(), 0.0, -PERIOD, 1e-12, 1e-12, -1.0, np.inf,
                                   10**6, none, -1, no_t, True)
-    yield "STM, second x-z crossing", (1, mu, y42.copy(), 0.0, 3.0, 1e-12, 1e-12, -1.0, np.inf,
+    yield "STM, second x-z crossing", (MODE_STM, mu, y42.copy(), 0.0, 3.0, 1e-12, 1e-12, -1.0, np.inf,
                                        10**6, cross, -1, no_t, False)
-    yield "t_eval, max_step, first_step", (0, mu, HALO.copy(), 0.0, PERIOD, 1e-10, 1e-11, 1e-3,
+    yield "t_eval, max_step, first_step", (MODE_STATE, mu, HALO.copy(), 0.0, PERIOD, 1e-10, 1e-11, 1e-3,
                                            0.05, 10**6, none, 4, t_eval, False)
-    yield "impact", (0, mu, np.array([1.05, 0.0, 0.0, 0.0, -0.05, 0.0]), 0.0, 5.0, 1e-12, 1e-12,
+    yield "impact", (MODE_STATE, mu, np.array([1.05, 0.0, 0.0, 0.0, -0.05, 0.0]), 0.0, 5.0, 1e-12, 1e-12,
                      -1.0, np.inf, 10**6, moon, -1, no_t, True)
-    yield "step limit", (0, mu, HALO.copy(), 0.0, PERIOD, 1e-12, 1e-12, -1.0, np.inf, 7, none,
+    yield "step limit", (MODE_STATE, mu, HALO.copy(), 0.0, PERIOD, 1e-12, 1e-12, -1.0, np.inf, 7, none,
                          -1, no_t, True)
 
 

@@ -22,6 +22,7 @@ from ..constants import AU_KM, GM_KM3_S2_DE430, SECONDS_PER_DAY, SOLAR_PRESSURE_
 from ..errors import ConvergenceError, InputError
 from ..time import ephemeris
 from ..integrate import dop853
+from ..integrate.modes import MODE_EPHEMERIS, MODE_EPHEMERIS_STM
 from . import chebyshev
 from .forces import HEADER
 
@@ -32,8 +33,6 @@ DEGREE = 16
 
 BODY_NAMES = ("sun", "earth", "moon", "mercury", "venus", "mars", "jupiter", "saturn",
               "uranus", "neptune")
-_MODE = 2
-_MODE_STM = 3
 
 
 def gm_km3_s2(name: str) -> float:
@@ -247,7 +246,7 @@ def propagate(model: Model, state, t0: float, t1: float, *, stm=False, t_eval=No
     te = np.empty(0) if t_eval is None else np.ascontiguousarray(t_eval, dtype=float)
     tab = np.ascontiguousarray(table(events), dtype=np.float64)
     (code, t_end, y_end, _ts, _ys, ev_t, ev_y, ev_k, _seen, eval_y, n_eval, _nfev, nsteps,
-     _nrej) = dop853.integrate(_MODE_STM if stm else _MODE, model.params, y0, float(t0), float(t1),
+     _nrej) = dop853.integrate(MODE_EPHEMERIS_STM if stm else MODE_EPHEMERIS, model.params, y0, float(t0), float(t1),
                                float(rtol), float(atol), -1.0, math.inf, int(max_steps), tab, -1,
                                te, False)
     if int(code) < 0:
@@ -283,7 +282,7 @@ def propagate_many(model: Model, states, t0s, t1s, *, stm=False, rtol=1e-12, ato
     out_y = np.empty_like(y0)
     out_status = np.zeros(m, dtype=np.int64)
     out_t = np.empty(m)
-    integrate_segments(_MODE_STM if stm else _MODE, model.params, y0, t0s, t1s, float(rtol),
+    integrate_segments(MODE_EPHEMERIS_STM if stm else MODE_EPHEMERIS, model.params, y0, t0s, t1s, float(rtol),
                        float(atol), math.inf, int(max_steps), table(()), out_y, out_status, out_t)
     bad = out_status < 0
     if bad.any():

@@ -34,7 +34,8 @@ from pathlib import Path
 #: Files (relative to the ``cr3bp`` package) whose code or constants the built kernels
 #: contain; ``tests/test_prebuilt.py`` checks that nothing the kernels read is missing.
 SOURCES = ("integrate/dop853.py", "integrate/coefficients.py", "integrate/status.py",
-           "dynamics.py", "dynamics_kernels.py", "fidelity/forces.py", "bicircular_kernels.py")
+           "integrate/modes.py", "integrate/dispatch.py", "dynamics_kernels.py",
+           "fidelity/forces.py", "bicircular_kernels.py")
 #: Where the module is written (inside the package; ignored by git).
 DIRECTORY = Path(__file__).resolve().parent / "_prebuilt"
 #: Environment variable: ``jit`` turns the prebuilt module off (``auto`` or unset: use it).
