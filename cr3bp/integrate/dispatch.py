@@ -1,7 +1,7 @@
 """The integrator's right-hand-side dispatcher: the one place that knows every force model.
 
 :func:`rhs` ``(mode, t, s, params, out)`` picks the kernel of the mode (numbers in
-:mod:`cr3bp.integrate.modes`): the CR3BP (:mod:`cr3bp.dynamics_kernels`), the point-mass
+:mod:`cr3bp.integrate.modes`): the CR3BP (:mod:`cr3bp.dynamics.kernels`), the point-mass
 ephemeris model (:mod:`cr3bp.fidelity.forces`) or the bicircular model
 (:mod:`cr3bp.bicircular_kernels`). Each model keeps its kernels in its own room; the
 integrator (:mod:`cr3bp.integrate.dop853`) calls only this function for a mode it has no
@@ -13,7 +13,7 @@ from __future__ import annotations
 from numba import njit
 
 from .. import bicircular_kernels as _bicircular
-from ..dynamics_kernels import eom, eom_stm
+from ..dynamics.kernels import eom, eom_stm
 from ..fidelity import forces as _ephemeris_forces
 from .modes import MODE_BICIRCULAR, MODE_EPHEMERIS, MODE_EPHEMERIS_STM, MODE_STATE, MODE_STM
 

@@ -37,7 +37,7 @@ from __future__ import annotations
 import numpy as np
 from numba import njit, prange
 
-from ..dynamics_kernels import eom, eom_stm
+from ..dynamics.kernels import eom, eom_stm
 from .coefficients import A, B, C, D, E3, E5, N_STAGES, N_STAGES_EXTENDED, ERROR_ORDER
 from .dispatch import rhs
 from .modes import MODE_STATE, MODE_STM

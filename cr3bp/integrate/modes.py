@@ -12,7 +12,7 @@ from __future__ import annotations
 __all__ = ["MODE_STATE", "MODE_STM", "MODE_EPHEMERIS", "MODE_EPHEMERIS_STM", "MODE_BICIRCULAR",
            "MODE_BICIRCULAR_STM", "MODEL_MODES"]
 
-#: The CR3BP (:mod:`cr3bp.dynamics_kernels`), 6 states; ``params[0]`` is mu.
+#: The CR3BP (:mod:`cr3bp.dynamics.kernels`), 6 states; ``params[0]`` is mu.
 MODE_STATE = 0
 #: The CR3BP with its variational equations, 42 states (state + row-major STM).
 MODE_STM = 1

@@ -34,7 +34,7 @@ from pathlib import Path
 #: Files (relative to the ``cr3bp`` package) whose code or constants the built kernels
 #: contain; ``tests/test_prebuilt.py`` checks that nothing the kernels read is missing.
 SOURCES = ("integrate/dop853.py", "integrate/coefficients.py", "integrate/status.py",
-           "integrate/modes.py", "integrate/dispatch.py", "dynamics_kernels.py",
+           "integrate/modes.py", "integrate/dispatch.py", "dynamics/kernels.py",
            "fidelity/forces.py", "bicircular_kernels.py")
 #: Where the module is written (inside the package; ignored by git).
 DIRECTORY = Path(__file__).resolve().parent / "_prebuilt"
@@ -165,7 +165,7 @@ def build(directory: Path | None = None, progress=None) -> Path:
         except ImportError:
             raise BuildError("this numba has no ahead-of-time compiler (numba.pycc); "
                              "the just-in-time kernels are used") from None
-    from .. import dynamics_kernels
+    from ..dynamics import kernels as dynamics_kernels
     from . import dop853
     funcs = {"integrate": dop853.integrate, "eom": dynamics_kernels.eom,
              "grad_omega": dynamics_kernels.grad_omega, "hessian_omega": dynamics_kernels.hessian_omega,
@@ -204,7 +204,7 @@ def build(directory: Path | None = None, progress=None) -> Path:
 def clear_jit_cache(package: Path | None = None) -> int:
     """Remove numba's on-disk cache (``__pycache__/<module>.*.nbi|nbc`` beside each file of
     :data:`SOURCES`); returns the number of files removed. numba stamps a cache entry with its
-    own module's source only, so after an edit to, say, ``dynamics_kernels.py`` it would still
+    own module's source only, so after an edit to, say, ``dynamics/kernels.py`` it would still
     load ``dop853.py``'s kernels with the old right-hand side inlined. ``build`` from the
     command line calls this whenever it replaces a module of another key."""
     root = _PACKAGE if package is None else Path(package)

@@ -3,7 +3,7 @@ gradient and Hessian, the equations of motion with and without the variational e
 and the Jacobi constant of many states. The integrator reaches them through its right-hand-side
 dispatcher (:func:`cr3bp.integrate.dispatch.rhs`, modes in :mod:`cr3bp.integrate.modes`).
 
-The equations and their sources are in :mod:`cr3bp.dynamics`, which holds the array-level
+The equations and their sources are in the package :mod:`cr3bp.dynamics`, which holds the array-level
 wrappers and imports nothing compiled: code that only needs the wrappers or the
 ahead-of-time built kernels (:mod:`cr3bp.integrate.prebuilt`) does not import numba.
 ``cr3bp.dynamics.<kernel>`` still reaches every kernel here (module ``__getattr__``).

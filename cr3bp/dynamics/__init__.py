@@ -1,6 +1,6 @@
 """CR3BP dynamics: the array-level functions (Jacobi constant, accelerations, gradient and
 Hessian of the pseudo-potential, the variational matrix, the mirror symmetry) over the
-compiled kernels of :mod:`cr3bp.dynamics_kernels`.
+compiled kernels of :mod:`cr3bp.dynamics.kernels`.
 
 Conventions are in :mod:`cr3bp.systems`. Equations of motion (Szebehely, *Theory of Orbits*,
 1967, §1.5)::
@@ -24,24 +24,24 @@ from __future__ import annotations
 
 import numpy as np
 
-#: Kernels of :mod:`cr3bp.dynamics_kernels` reachable as attributes of this module.
+#: Kernels of :mod:`cr3bp.dynamics.kernels` reachable as attributes of this module.
 KERNEL_NAMES = ("omega", "grad_omega", "hessian_omega", "eom", "eom_stm", "_jacobi_many")
 
 
 def __getattr__(name):
     if name in KERNEL_NAMES:
-        from . import dynamics_kernels
-        return getattr(dynamics_kernels, name)
+        from . import kernels
+        return getattr(kernels, name)
     raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
 def _kernels():
     """The prebuilt kernel module when present and current, else the just-in-time one (both
     export ``eom``, ``grad_omega``, ``hessian_omega`` and ``_jacobi_many``)."""
-    from .integrate import prebuilt
+    from ..integrate import prebuilt
     k = prebuilt.kernels()
     if k is None:
-        from . import dynamics_kernels as k
+        from . import kernels as k
     return k
 
 
