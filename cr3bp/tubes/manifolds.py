@@ -40,7 +40,8 @@ from .. import units
 from ..dynamics import jacobi as _jacobi, jacobian
 from ..errors import InputError, NoSolutionError
 from ..integrate import escape, impact, propagate, propagate_batch
-from .sections import (Section, batch, batch_features, bounded_max_events, guard_events, parse_section,
+from ..integrate.batch import batch, batch_features
+from .sections import (Section, bounded_max_events, guard_events, parse_section,
     primary_index)
 
 #: Step-off distances (km) by system name (common practice, see module docstring).

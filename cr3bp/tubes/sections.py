@@ -46,37 +46,13 @@ import numpy as np
 
 from ..dynamics import acceleration, jacobi
 from ..errors import InputError, StateError
-from ..integrate import escape, impact, plane, propagate, propagate_batch
+from ..integrate import escape, impact, plane, propagate
+from ..integrate.batch import batch
 from ..integrate.events import COORDS
 
 KINDS = ("plane", "sphere", "apsis")
 #: Names the map coordinates may take (besides the six state components).
 MAP_COORDS = tuple(COORDS) + ("t", "tof_days", "altitude_km", "radius", "r", "jacobi")
-
-
-#: Tolerances of the tube propagations (manifolds and section crossings in one batch).
-BATCH_RTOL = 1e-12
-BATCH_ATOL = 1e-12
-
-
-def batch_features() -> dict:
-    """Which optional features the installed ``propagate_batch`` offers (per-trajectory final
-    times with STMs, a larger event record, marking failed trajectories instead of raising)."""
-    import inspect
-    params = inspect.signature(propagate_batch).parameters
-    return {k: k in params for k in ("stm", "max_events", "on_failure")}
-
-
-def batch(system, states, t_final, events=(), max_events=8):
-    """``propagate_batch`` with the tube settings, using the optional features when present."""
-    kw = {}
-    feats = batch_features()
-    if feats["max_events"]:
-        kw["max_events"] = int(max_events)
-    if feats["on_failure"]:
-        kw["on_failure"] = "mark"
-    return propagate_batch(system, np.ascontiguousarray(states), t_final, rtol=BATCH_RTOL,
-                           atol=BATCH_ATOL, events=events, **kw)
 
 
 def bounded_max_events(count: int) -> int:
