@@ -37,7 +37,10 @@ def __getattr__(name):
 
 def _kernels():
     """The prebuilt kernel module when present and current, else the just-in-time one (both
-    export ``eom``, ``grad_omega``, ``hessian_omega`` and ``_jacobi_many``)."""
+    export ``eom``, ``grad_omega``, ``hessian_omega`` and ``_jacobi_many``).
+
+    Both imports stay here: the integrator's package sits above the dynamics (it builds these
+    kernels), and the just-in-time kernels load numba, which a prebuilt run never needs."""
     from ..integrate import prebuilt
     k = prebuilt.kernels()
     if k is None:

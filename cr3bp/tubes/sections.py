@@ -45,10 +45,11 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..dynamics import acceleration, jacobi
-from ..errors import InputError, StateError
+from ..errors import InputError, StateError, shown
 from ..integrate import escape, impact, plane, propagate
 from ..integrate.batch import batch
 from ..integrate.events import COORDS
+from ..validate import quantity
 
 KINDS = ("plane", "sphere", "apsis")
 #: Names the map coordinates may take (besides the six state components).
@@ -232,7 +233,6 @@ def expression(text: str, system) -> float:
         if isinstance(node, ast.UnaryOp) and type(node.op) in _OPS:
             return _OPS[type(node.op)](ev(node.operand))
         raise ValueError
-    from ..errors import shown
     if len(str(text)) > MAX_EXPRESSION_CHARS:
         raise InputError(f"section value '{shown(text)}' is longer than {MAX_EXPRESSION_CHARS} "
                          "characters; give a number or short arithmetic in mu (e.g. 1-mu)")
@@ -283,7 +283,6 @@ def parse_section(text: str, system) -> Section:
     if head == "sphere":
         if len(parts) not in (3, 4):
             raise InputError(f"section '{text}': write sphere:BODY:RADIUS[:+|-], e.g. sphere:moon:20000km")
-        from ..validate import quantity
         r = quantity(f"sphere radius in section '{text}'", parts[2], "length", system, sign="positive")
         d = _direction_text(parts[3], text) if len(parts) == 4 else -1
         return sphere(system, parts[1], r, d or -1, label=t)
