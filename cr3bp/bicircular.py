@@ -43,8 +43,16 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .dynamics import MODE_BICIRCULAR, MODE_BICIRCULAR_STM
+from . import systems
+from .constants import AU_KM, J2000_JD, SECONDS_PER_DAY
+from .dynamics import jacobi
 from .errors import InputError, shown
+from .integrate.modes import MODE_BICIRCULAR, MODE_BICIRCULAR_STM
+from .integrate.propagate import propagate as _propagate, propagate_batch as _batch
+from .integrate.status import DEFAULT_MAX_STEPS
+from .time import ephemeris
+from .time.frames import epoch_from_text
+from .time.scales import Epoch
 
 #: Status of a default-built model, shown by ``to_dict`` (where its numbers come from).
 SOURCE = ("equations: Boudad, Howell & Davis, Adv. Space Res. 66, 2020, section 2 (from memory); "
@@ -173,8 +181,6 @@ def sun_parameters(system) -> tuple[float, float, float]:
     """``(m_s, a_s, omega_s)`` of the Sun for an Earth-Moon ``system``: the Sun's GM over the
     primaries' GMs (``data/systems.toml``), 1 au (:data:`cr3bp.constants.AU_KM`) over the
     system's length unit, and ``sqrt((1 + m_s) / a_s^3) - 1``."""
-    from . import systems
-    from .constants import AU_KM
     if system.primary is None or system.secondary is None or not system.dimensional:
         raise InputError(f"system '{system.name}' has no named primaries with masses and units; "
                          "the Sun's mass ratio and distance cannot be formed")
@@ -204,7 +210,6 @@ def bicircular_system(system="earth-moon", *, sun_phase=0.0, epoch=None) -> Bici
     InputError
         Another system, a non-finite phase, both a phase and an epoch, a bad epoch.
     """
-    from . import systems
     sys_ = systems.system(system) if isinstance(system, str) else system
     names = (getattr(sys_.primary, "name", None), getattr(sys_.secondary, "name", None))
     if names != ("earth", "moon"):
@@ -225,7 +230,6 @@ def bicircular_system(system="earth-moon", *, sun_phase=0.0, epoch=None) -> Bici
 
 def _epoch_seconds(epoch) -> float:
     if isinstance(epoch, str):
-        from .time.frames import epoch_from_text
         return epoch_from_text(epoch)
     return _finite("epoch", epoch)
 
@@ -242,15 +246,12 @@ def sun_angles_at(epoch, system="earth-moon") -> tuple[float, float]:
 
     ``epoch``: ISO 8601 text (UTC unless it names its scale) or TDB seconds since J2000.
     """
-    from . import systems
-    from .time import ephemeris
-    from .time.scales import J2000_JD, Epoch
     sys_ = systems.system(system) if isinstance(system, str) else system
     if getattr(sys_.secondary, "name", None) != "moon":
         raise InputError(f"the Sun's phase is defined for the earth-moon system; got '{sys_.name}'")
     t = _epoch_seconds(epoch)
-    day = math.floor(t / 86400.0)
-    ep = Epoch.from_jd(J2000_JD + day, (t - day * 86400.0) / 86400.0, "tdb")
+    day = math.floor(t / SECONDS_PER_DAY)
+    ep = Epoch.from_jd(J2000_JD + day, (t - day * SECONDS_PER_DAY) / SECONDS_PER_DAY, "tdb")
     moon = np.asarray(ephemeris.state("moon", ep, "earth", "j2000-equator"), dtype=float).ravel()
     sun = np.asarray(ephemeris.position("sun", ep, "emb", "j2000-equator"), dtype=float).ravel()
     x = moon[:3] / np.linalg.norm(moon[:3])
@@ -279,7 +280,7 @@ def _model(bsys):
 
 def acceleration(bsys: BicircularSystem, t: float, state) -> np.ndarray:
     """Time derivative of one 6-state at time ``t`` (TU), from the compiled kernel."""
-    from .bicircular_kernels import eom
+    from .bicircular_kernels import eom      # compiled (numba): loaded on first use
     out = np.empty(6)
     eom(float(t), np.ascontiguousarray(state, dtype=float)[:6].copy(), _model(bsys)[2], out)
     return out
@@ -308,7 +309,6 @@ def hamiltonian(bsys: BicircularSystem, t, states):
     stays near the Jacobi constant and keeps its digits. It is NOT conserved: its rate is
     :func:`hamiltonian_rate`. With ``m_s = 0`` it is the Jacobi constant.
     """
-    from .dynamics import jacobi
     s = np.asarray(states, dtype=float)
     flat = np.atleast_2d(s)
     h = np.asarray(jacobi(bsys.system.mu, flat[:, :6]), dtype=float) + 2.0 * _sun_potential(bsys, t, flat)
@@ -346,8 +346,6 @@ def propagate(bsys: BicircularSystem, state, t_final, stm=False, rtol=1e-12, ato
     Arc
         Its ``system`` is ``bsys``; ``stm`` is Phi(t_end, t0) when asked for.
     """
-    from .integrate.propagate import propagate as _propagate
-    from .integrate.status import DEFAULT_MAX_STEPS
     model = _model(bsys)
     arc = _propagate(bsys.system, state, t_final, stm=stm, rtol=rtol, atol=atol, events=events,
                      t_eval=t_eval, t0=t0, max_step=max_step,
@@ -361,6 +359,5 @@ def propagate_batch(bsys: BicircularSystem, states, t_final, rtol=1e-12, atol=1e
     """Propagate many states in the bicircular model in parallel (compiled code, no Python
     loop): :func:`cr3bp.integrate.propagate_batch` with the bicircular right-hand side. All
     start at ``t0``. Returns its ``BatchResult``."""
-    from .integrate.propagate import propagate_batch as _batch
     return _batch(bsys.system, states, t_final, rtol, atol, events, stm=stm, t0=t0,
                   model=_model(bsys), **options)

@@ -29,7 +29,8 @@ Phi``, with the Sun's share of the Hessian ``m_s (3 d d^T / |d|^5 - I / |d|^3)``
 indirect term is linear in r). The model is time dependent: no Jacobi constant.
 
 Parameter vector ``p``: ``[mu, m_s, a_s, omega_s, theta_0]`` (``p[0] = mu`` as the event
-kernels expect). Modes 4 (6 states) and 5 (42 states) of :func:`cr3bp.dynamics_kernels.rhs`.
+kernels expect). Modes ``MODE_BICIRCULAR`` (6 states) and ``MODE_BICIRCULAR_STM`` (42 states) of
+:func:`cr3bp.integrate.dispatch.rhs` (numbers in :mod:`cr3bp.integrate.modes`).
 """
 
 from __future__ import annotations

@@ -1,7 +1,11 @@
 """Every physical constant of the library, once, each with its source on the line.
 
 Modules import them from here (``from ..constants import AU_KM``); a value that belongs to one
-method only (a tolerance, a series' coefficients) stays beside that method.
+method only (a tolerance, a series' coefficients) stays beside that method. The GMs of the
+bodies the systems use are data with their sources in ``data/systems.toml``
+(:func:`cr3bp.systems.body`); the integrator's right-hand-side mode numbers are in
+:mod:`cr3bp.integrate.modes`. ``tests/test_constants_once.py`` fails on a copy of any of these
+values elsewhere in ``cr3bp/``.
 """
 
 # ---- lengths ------------------------------------------------------------------------------
@@ -11,8 +15,9 @@ AU_KM = 149597870.7
 # ---- time ---------------------------------------------------------------------------------
 #: Seconds in a day of 86 400 SI seconds (the day of TT and TDB; the Julian day).
 SECONDS_PER_DAY = 86400.0
-#: Days in a Julian century and millennium (definition of the Julian year, 365.25 days).
+#: Days in a Julian century (definition of the Julian year, 365.25 days).
 DAYS_PER_JULIAN_CENTURY = 36525.0
+#: Days in a Julian millennium (definition of the Julian year, 365.25 days).
 DAYS_PER_JULIAN_MILLENNIUM = 365250.0
 #: Julian Date of MJD 0.0 (definition of the Modified Julian Date).
 MJD_ZERO_JD = 2400000.5
@@ -20,9 +25,10 @@ MJD_ZERO_JD = 2400000.5
 J2000_JD = 2451545.0
 #: TT - TAI, s (exact: IAU 1991 Resolution A4; IERS Conventions 2010, eq. 10.1).
 TT_MINUS_TAI_S = 32.184
-#: The Moon's sidereal month and the Earth's sidereal year, days (Astronomical Almanac, from
-#: memory; the synodic month they give is checked in tests/test_against_published_orbits.py).
+#: The Moon's sidereal month, days (Astronomical Almanac, from memory; the synodic month it
+#: gives with the sidereal year is checked in tests/test_against_published_orbits.py).
 SIDEREAL_MONTH_DAYS = 27.321662
+#: The Earth's sidereal year, days (Astronomical Almanac, from memory; checked as above).
 SIDEREAL_YEAR_DAYS = 365.256363
 
 # ---- orientation --------------------------------------------------------------------------

@@ -10,10 +10,12 @@ import math
 import numpy as np
 import pytest
 
-from cr3bp import bicircular, dynamics_kernels, propagate, system
+from cr3bp import bicircular, propagate, system
 from cr3bp.bicircular import BicircularSystem, bicircular_system
 from cr3bp.errors import InputError, StateError
 from cr3bp.integrate import dop853, events, prebuilt
+from cr3bp.integrate.dispatch import rhs
+from cr3bp.integrate.modes import MODE_BICIRCULAR, MODE_BICIRCULAR_STM
 
 EM = system("earth-moon")
 BC = bicircular_system(sun_phase=1.0)
@@ -181,7 +183,7 @@ def test_prebuilt_integrator_runs_the_bicircular_modes():
     k = prebuilt.kernels()
     assert k is not None, "no current prebuilt kernels: run 'make kernels'"
     y42 = np.concatenate([OUTER, np.eye(6).ravel()])
-    for mode, y0 in ((4, OUTER.copy()), (5, y42)):
+    for mode, y0 in ((MODE_BICIRCULAR, OUTER.copy()), (MODE_BICIRCULAR_STM, y42)):
         args = (mode, BC.params, y0, 0.3, 5.0, 1e-12, 1e-12, -1.0, np.inf, 10**6,
                 np.zeros((0, 6)), -1, np.empty(0), False)
         a, b = k.integrate(*args), dop853.integrate(*args)
@@ -197,7 +199,7 @@ def test_events_work_in_the_bicircular_model():
 
 def test_rhs_dispatch_reaches_the_bicircular_kernels():
     out = np.empty(6)
-    dynamics_kernels.rhs(4, 0.2, OUTER.copy(), BC.params, out)
+    rhs(MODE_BICIRCULAR, 0.2, OUTER.copy(), BC.params, out)
     assert np.array_equal(out, bicircular.acceleration(BC, 0.2, OUTER))
 
 

@@ -17,13 +17,7 @@ PACKAGE = "cr3bp"
 
 #: Circles known today, each to be broken by a named next step (an entry here is a debt, not a
 #: permission: remove it when the step lands; a new circle still fails the test).
-KNOWN_CYCLES = {
-    # the CR3BP kernel file also dispatches the ephemeris model's right-hand side, and the
-    # dynamics module reaches the prebuilt kernels: next step of the house issue (the
-    # right-hand-side modes and their dispatcher move into integrate/, the dynamics keep the
-    # CR3BP only)
-    frozenset({"cr3bp.dynamics", "cr3bp.integrate.prebuilt", "cr3bp.integrate.dop853"}),
-}
+KNOWN_CYCLES: set[frozenset[str]] = set()
 
 
 def module_name(path: Path, root: Path) -> str:

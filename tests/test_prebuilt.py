@@ -11,8 +11,10 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from cr3bp import dynamics, dynamics_kernels, system
+from cr3bp import dynamics, system
+from cr3bp.dynamics import kernels as jit_kernels
 from cr3bp.integrate import dop853, events, prebuilt
+from cr3bp.integrate.modes import MODE_STATE, MODE_STM
 from cr3bp.integrate.propagate import integrator, propagate
 
 EM = system("earth-moon")
@@ -47,17 +49,17 @@ def _cases():
     cross = events.table([events.plane("y", 0.0, terminal=True, count=2)])
     moon = events.table([events.impact(1, 0.002)])
     t_eval = np.linspace(0.0, PERIOD, 9)
-    yield "state, record", (0, mu, HALO.copy(), 0.0, PERIOD, 1e-12, 1e-12, -1.0, np.inf, 10**6,
+    yield "state, record", (MODE_STATE, mu, HALO.copy(), 0.0, PERIOD, 1e-12, 1e-12, -1.0, np.inf, 10**6,
                             none, -1, no_t, True)
-    yield "state+STM, backward", (1, mu, y42.copy(), 0.0, -PERIOD, 1e-12, 1e-12, -1.0, np.inf,
+    yield "state+STM, backward", (MODE_STM, mu, y42.copy(), 0.0, -PERIOD, 1e-12, 1e-12, -1.0, np.inf,
                                   10**6, none, -1, no_t, True)
-    yield "STM, second x-z crossing", (1, mu, y42.copy(), 0.0, 3.0, 1e-12, 1e-12, -1.0, np.inf,
+    yield "STM, second x-z crossing", (MODE_STM, mu, y42.copy(), 0.0, 3.0, 1e-12, 1e-12, -1.0, np.inf,
                                        10**6, cross, -1, no_t, False)
-    yield "t_eval, max_step, first_step", (0, mu, HALO.copy(), 0.0, PERIOD, 1e-10, 1e-11, 1e-3,
+    yield "t_eval, max_step, first_step", (MODE_STATE, mu, HALO.copy(), 0.0, PERIOD, 1e-10, 1e-11, 1e-3,
                                            0.05, 10**6, none, 4, t_eval, False)
-    yield "impact", (0, mu, np.array([1.05, 0.0, 0.0, 0.0, -0.05, 0.0]), 0.0, 5.0, 1e-12, 1e-12,
+    yield "impact", (MODE_STATE, mu, np.array([1.05, 0.0, 0.0, 0.0, -0.05, 0.0]), 0.0, 5.0, 1e-12, 1e-12,
                      -1.0, np.inf, 10**6, moon, -1, no_t, True)
-    yield "step limit", (0, mu, HALO.copy(), 0.0, PERIOD, 1e-12, 1e-12, -1.0, np.inf, 7, none,
+    yield "step limit", (MODE_STATE, mu, HALO.copy(), 0.0, PERIOD, 1e-12, 1e-12, -1.0, np.inf, 7, none,
                          -1, no_t, True)
 
 
@@ -94,7 +96,7 @@ def test_dynamics_functions_agree_between_builds(monkeypatch, fresh_lookup):
     assert dynamics._kernels() is k
     monkeypatch.setenv(prebuilt.ENV, "jit")
     prebuilt.reset()
-    assert dynamics._kernels() is dynamics_kernels
+    assert dynamics._kernels() is jit_kernels
     jit = (dynamics.jacobi(EM.mu, states), [dynamics.acceleration(EM.mu, s) for s in states],
            [dynamics.gradient(EM.mu, s[:3]) for s in states], [dynamics.hessian(EM.mu, s[:3]) for s in states])
     for u, v in zip(pre, jit):
@@ -102,7 +104,7 @@ def test_dynamics_functions_agree_between_builds(monkeypatch, fresh_lookup):
     # and the gradient is the derivative of Omega (central differences, 1e-7 relative)
     h = 1e-6
     p = states[0, :3]
-    fd = [(dynamics_kernels.omega(EM.mu, *(p + h * e)) - dynamics_kernels.omega(EM.mu, *(p - h * e))) / (2 * h)
+    fd = [(jit_kernels.omega(EM.mu, *(p + h * e)) - jit_kernels.omega(EM.mu, *(p - h * e))) / (2 * h)
           for e in np.eye(3)]
     assert np.allclose(dynamics.gradient(EM.mu, p), fd, rtol=1e-7, atol=1e-9)
 
@@ -156,8 +158,8 @@ def test_sources_cover_everything_the_built_kernels_read():
     cr3bp module it reads through an attribute, and the module that assigns each constant it
     reads, must be in prebuilt.SOURCES (else an edit there would not mark the build stale)."""
     from numba.core.dispatcher import Dispatcher
-    roots = [dop853.integrate, dynamics_kernels.eom, dynamics_kernels.grad_omega,
-             dynamics_kernels.hessian_omega, dynamics_kernels._jacobi_many]
+    roots = [dop853.integrate, jit_kernels.eom, jit_kernels.grad_omega,
+             jit_kernels.hessian_omega, jit_kernels._jacobi_many]
     package = Path(prebuilt.__file__).resolve().parent.parent
     mods = [m for n, m in sys.modules.items() if n.startswith("cr3bp") and getattr(m, "__file__", None)]
     needed, seen, todo = set(), set(), list(roots)
@@ -209,7 +211,7 @@ def test_build_writes_a_loadable_module_and_removes_stale_ones(tmp_path, monkeyp
 def test_clearing_the_jit_cache_removes_only_the_sources_entries(tmp_path):
     for rel in ("integrate/__pycache__/dop853.integrate-401.py311.nbi",
                 "integrate/__pycache__/dop853.integrate-401.py311.1.nbc",
-                "__pycache__/dynamics_kernels.eom-62.py311.nbi",
+                "dynamics/__pycache__/kernels.eom-62.py311.nbi",
                 "__pycache__/energy._field-10.py311.nbi",             # not a kernel source
                 "integrate/__pycache__/dop853.cpython-311.pyc"):      # byte code stays
         (tmp_path / rel).parent.mkdir(parents=True, exist_ok=True)

@@ -220,13 +220,14 @@ def test_batch_bad_input():
 
 def test_cr3bp_step_kernels_equal_the_generic_step():
     """The CR3BP step kernels (stage loop specialised, the STM one written out stage by stage)
-    compute the same Dormand-Prince step as the generic kernel through ``dynamics.rhs``: all
+    compute the same Dormand-Prince step as the generic kernel through ``integrate.dispatch.rhs``: all
     twelve stages and the new state, to round-off."""
     from cr3bp.integrate import dop853
+    from cr3bp.integrate.modes import MODE_STATE, MODE_STM
     s0 = np.array(halo()[0], dtype=float)
     params = np.array([em().mu])
-    for mode, y, kernel in ((0, s0.copy(), dop853.step_state),
-                            (1, np.concatenate([s0, np.eye(6).ravel()]), dop853.step_stm)):
+    for mode, y, kernel in ((MODE_STATE, s0.copy(), dop853.step_state),
+                            (MODE_STM, np.concatenate([s0, np.eye(6).ravel()]), dop853.step_stm)):
         n = y.shape[0]
         k_gen, k_fast = np.zeros((16, n)), np.zeros((16, n))
         dop853.rhs(mode, 0.0, y, params, k_gen[0])

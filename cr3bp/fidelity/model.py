@@ -18,12 +18,17 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .. import systems
 from ..constants import AU_KM, GM_KM3_S2_DE430, SECONDS_PER_DAY, SOLAR_PRESSURE_1AU
 from ..errors import ConvergenceError, InputError
 from ..time import ephemeris
+from ..time.frames import _epoch
 from ..integrate import dop853
+from ..integrate.events import table
+from ..integrate.modes import MODE_EPHEMERIS, MODE_EPHEMERIS_STM
 from . import chebyshev
-from .forces import HEADER
+from .forces import HEADER, body_position, eom, eom_stm
+from .segments import integrate_segments
 
 #: Series layout: segment length (days) and degree. Checked against DE421 in
 #: tests/test_fidelity.py (below 5 cm for every body over a year; measured 1 cm, rounding).
@@ -32,13 +37,10 @@ DEGREE = 16
 
 BODY_NAMES = ("sun", "earth", "moon", "mercury", "venus", "mars", "jupiter", "saturn",
               "uranus", "neptune")
-_MODE = 2
-_MODE_STM = 3
 
 
 def gm_km3_s2(name: str) -> float:
     """GM of a body: the project's table (:mod:`cr3bp.systems`), else DE430 (from memory)."""
-    from .. import systems
     try:
         return float(systems.body(name).gm_km3_s2)
     except Exception:
@@ -98,7 +100,6 @@ class Model:
         """Series position (km) of a fitted body at model times (for checks)."""
         j = self.fitted.index(name)
         t = np.atleast_1d(np.asarray(t_tu, dtype=float))
-        from .forces import body_position
         out = np.empty((t.size, 3))
         for i in range(t.size):
             body_position(self.params, j, t[i], out[i])
@@ -106,20 +107,17 @@ class Model:
 
     def acceleration(self, t, state) -> np.ndarray:
         """Time derivative of one nondimensional 6-state (numpy convenience)."""
-        from .forces import eom
         out = np.empty(6)
         eom(float(t), np.ascontiguousarray(state, dtype=float), self.params, out)
         return out
 
     def rhs_stm(self, t, y) -> np.ndarray:
-        from .forces import eom_stm
         out = np.empty(42)
         eom_stm(float(t), np.ascontiguousarray(y, dtype=float), self.params, out)
         return out
 
 
 def _epochs(epoch_tdb_s, seconds):
-    from ..time.frames import _epoch
     return _epoch(epoch_tdb_s + np.asarray(seconds, dtype=float))
 
 
@@ -238,7 +236,6 @@ def propagate(model: Model, state, t0: float, t1: float, *, stm=False, t_eval=No
     state component, and ``impact(0, radius)`` / ``escape(radius, 0)`` about the central body
     (the model sits it at the origin).
     """
-    from ..integrate.events import table
     _check_span(model, t0, t1)
     s0 = np.asarray(state, dtype=float).ravel()
     if s0.shape != (6,) or not np.all(np.isfinite(s0)):
@@ -247,7 +244,7 @@ def propagate(model: Model, state, t0: float, t1: float, *, stm=False, t_eval=No
     te = np.empty(0) if t_eval is None else np.ascontiguousarray(t_eval, dtype=float)
     tab = np.ascontiguousarray(table(events), dtype=np.float64)
     (code, t_end, y_end, _ts, _ys, ev_t, ev_y, ev_k, _seen, eval_y, n_eval, _nfev, nsteps,
-     _nrej) = dop853.integrate(_MODE_STM if stm else _MODE, model.params, y0, float(t0), float(t1),
+     _nrej) = dop853.integrate(MODE_EPHEMERIS_STM if stm else MODE_EPHEMERIS, model.params, y0, float(t0), float(t1),
                                float(rtol), float(atol), -1.0, math.inf, int(max_steps), tab, -1,
                                te, False)
     if int(code) < 0:
@@ -269,8 +266,6 @@ def propagate_many(model: Model, states, t0s, t1s, *, stm=False, rtol=1e-12, ato
     -------
     ends : ndarray (M, 6); stms : ndarray (M, 6, 6) or None
     """
-    from ..integrate.events import table
-    from .segments import integrate_segments
     s = np.ascontiguousarray(np.atleast_2d(states), dtype=float)
     m = s.shape[0]
     t0s = np.ascontiguousarray(t0s, dtype=float).ravel()
@@ -283,7 +278,7 @@ def propagate_many(model: Model, states, t0s, t1s, *, stm=False, rtol=1e-12, ato
     out_y = np.empty_like(y0)
     out_status = np.zeros(m, dtype=np.int64)
     out_t = np.empty(m)
-    integrate_segments(_MODE_STM if stm else _MODE, model.params, y0, t0s, t1s, float(rtol),
+    integrate_segments(MODE_EPHEMERIS_STM if stm else MODE_EPHEMERIS, model.params, y0, t0s, t1s, float(rtol),
                        float(atol), math.inf, int(max_steps), table(()), out_y, out_status, out_t)
     bad = out_status < 0
     if bad.any():

@@ -8,9 +8,11 @@ located on the dense interpolant with Brent's method (R. P. Brent, *Algorithms f
 Minimization without Derivatives*, 1973, ch. 4, procedure ``zero``).
 
 Every function is ``numba.njit(cache=True)``. The right-hand side is
-:func:`cr3bp.dynamics_kernels.rhs` ``(mode, t, s, params, out)``; a new force model is a new
-``mode`` there and nothing changes here (modes 0/1: the CR3BP; 2/3: the ephemeris model of
-:mod:`cr3bp.fidelity.forces`; 4/5: the bicircular model of :mod:`cr3bp.bicircular_kernels` -- this line also renews numba's cache stamp of this module, which
+:func:`cr3bp.integrate.dispatch.rhs` ``(mode, t, s, params, out)``; a new force model is a new
+``mode`` there (numbers in :mod:`cr3bp.integrate.modes`) and nothing changes here (the CR3BP
+modes ``MODE_STATE``/``MODE_STM`` have specialised steps below; the ephemeris model of
+:mod:`cr3bp.fidelity.forces` and the bicircular model of :mod:`cr3bp.bicircular_kernels` run
+through the dispatcher -- this line also renews numba's cache stamp of this module, which
 does not notice a change of ``rhs`` in another file). Arguments are always passed with the same types
 (int64 / float64 scalars, C-contiguous float64 arrays, one bool) so that each kernel has
 exactly one compiled specialisation.
@@ -35,9 +37,10 @@ from __future__ import annotations
 import numpy as np
 from numba import njit, prange
 
-from ..dynamics import MODE_STATE, MODE_STM
-from ..dynamics_kernels import eom, eom_stm, rhs
+from ..dynamics.kernels import eom, eom_stm
 from .coefficients import A, B, C, D, E3, E5, N_STAGES, N_STAGES_EXTENDED, ERROR_ORDER
+from .dispatch import rhs
+from .modes import MODE_STATE, MODE_STM
 from .status import (DEFAULT_MAX_STEPS, STATUS_ESCAPE, STATUS_EVENT, STATUS_IMPACT,  # noqa: F401
                      STATUS_MAX_STEPS, STATUS_NAMES, STATUS_NONFINITE, STATUS_STALLED,
                      STATUS_TIME)
@@ -162,7 +165,7 @@ def step_stm(params, t, y, h, K, ytmp, ynew):
 
 @njit(cache=True)
 def rk_step(mode, params, t, y, h, K, ytmp, ynew):
-    """:func:`step_state` for any right-hand side ``mode`` of :func:`cr3bp.dynamics_kernels.rhs` (a new
+    """:func:`step_state` for any right-hand side ``mode`` of :func:`cr3bp.integrate.dispatch.rhs` (a new
     force model runs here unchanged; the CR3BP modes have the kernels above)."""
     for s in range(1, _NS):
         _combine(A[s], s, y, h, K, ytmp)
@@ -407,7 +410,8 @@ def integrate(mode, params, y0, t0, t_final, rtol, atol, first_step, max_step, m
 
     Parameters
     ----------
-    mode : int             right-hand side of :func:`cr3bp.dynamics_kernels.rhs` (0: 6, 1: 42 states)
+    mode : int             right-hand side of :func:`cr3bp.integrate.dispatch.rhs` (``MODE_STATE``: 6,
+                           ``MODE_STM``: 42 states; :mod:`cr3bp.integrate.modes`)
     params : (p,) float    model parameters, params[0] = mu
     y0 : (n,) float        initial state (n = 6 or 42)
     t0, t_final : float

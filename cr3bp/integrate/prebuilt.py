@@ -26,15 +26,22 @@ build says so and everything runs on the just-in-time kernels.
 from __future__ import annotations
 
 import hashlib
+import importlib.util
 import os
 import platform
+import shutil
 import sys
+import tempfile
+import warnings
 from pathlib import Path
+
+import numpy
 
 #: Files (relative to the ``cr3bp`` package) whose code or constants the built kernels
 #: contain; ``tests/test_prebuilt.py`` checks that nothing the kernels read is missing.
 SOURCES = ("integrate/dop853.py", "integrate/coefficients.py", "integrate/status.py",
-           "dynamics.py", "dynamics_kernels.py", "fidelity/forces.py", "bicircular_kernels.py")
+           "integrate/modes.py", "integrate/dispatch.py", "dynamics/kernels.py",
+           "fidelity/forces.py", "bicircular_kernels.py")
 #: Where the module is written (inside the package; ignored by git).
 DIRECTORY = Path(__file__).resolve().parent / "_prebuilt"
 #: Environment variable: ``jit`` turns the prebuilt module off (``auto`` or unset: use it).
@@ -77,7 +84,6 @@ def _processor() -> str:
 
 def key(package: Path | None = None) -> str:
     """The key of the sources, Python, numpy and processor (16 hex digits)."""
-    import numpy
     root = _PACKAGE if package is None else Path(package)
     h = hashlib.sha256()
     for rel in SOURCES:
@@ -114,13 +120,11 @@ def kernels():
     if choice == "jit":
         return None
     if choice not in ("", "auto"):
-        import warnings
         warnings.warn(f"{ENV}={os.environ[ENV]!r} is not understood (allowed: jit, auto or unset); "
                       "using the prebuilt kernels when current", RuntimeWarning, stacklevel=2)
     path = find()
     if path is None:
         return None
-    import importlib.util
     try:
         spec = importlib.util.spec_from_file_location(path.name.split(".")[0], path)
         mod = importlib.util.module_from_spec(spec)
@@ -129,7 +133,6 @@ def kernels():
         if missing:
             raise ImportError(f"it lacks {', '.join(missing)}")
     except Exception as e:  # a damaged file: the just-in-time kernels give the same numbers
-        import warnings
         warnings.warn(f"the prebuilt kernels {path} could not be loaded ({e}); using numba's "
                       "just-in-time kernels (rebuild: python -m cr3bp.integrate build)",
                       RuntimeWarning, stacklevel=2)
@@ -147,9 +150,6 @@ def build(directory: Path | None = None, progress=None) -> Path:
     """Compile the kernels of :data:`SIGNATURES` into ``directory`` (default
     :data:`DIRECTORY`) and remove the modules of other keys there. Returns the file.
     Raises BuildError."""
-    import shutil
-    import tempfile
-    import warnings
     d = DIRECTORY if directory is None else Path(directory)
     try:
         d.mkdir(parents=True, exist_ok=True)
@@ -164,7 +164,8 @@ def build(directory: Path | None = None, progress=None) -> Path:
         except ImportError:
             raise BuildError("this numba has no ahead-of-time compiler (numba.pycc); "
                              "the just-in-time kernels are used") from None
-    from .. import dynamics_kernels
+    # only the build compiles: the kernels' modules load numba, which a lookup must not
+    from ..dynamics import kernels as dynamics_kernels
     from . import dop853
     funcs = {"integrate": dop853.integrate, "eom": dynamics_kernels.eom,
              "grad_omega": dynamics_kernels.grad_omega, "hessian_omega": dynamics_kernels.hessian_omega,
@@ -203,7 +204,7 @@ def build(directory: Path | None = None, progress=None) -> Path:
 def clear_jit_cache(package: Path | None = None) -> int:
     """Remove numba's on-disk cache (``__pycache__/<module>.*.nbi|nbc`` beside each file of
     :data:`SOURCES`); returns the number of files removed. numba stamps a cache entry with its
-    own module's source only, so after an edit to, say, ``dynamics_kernels.py`` it would still
+    own module's source only, so after an edit to, say, ``dynamics/kernels.py`` it would still
     load ``dop853.py``'s kernels with the old right-hand side inlined. ``build`` from the
     command line calls this whenever it replaces a module of another key."""
     root = _PACKAGE if package is None else Path(package)

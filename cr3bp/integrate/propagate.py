@@ -22,19 +22,17 @@ from dataclasses import dataclass
 import numpy as np
 
 from .. import validate
-from ..dynamics import MODE_BICIRCULAR, MODE_BICIRCULAR_STM, MODE_STATE, MODE_STM
 from ..errors import ConvergenceError, InputError
 from . import prebuilt
 from .arc import Arc, EventHit
 from .events import ESCAPE, IMPACT, table
+from .modes import MODE_STATE, MODE_STM, MODEL_MODES
 from .status import DEFAULT_MAX_STEPS, STATUS_NAMES
 
 #: Status names of a finished trajectory (``STATUS_NAMES``); these three are failures.
 FAILED = ("max-steps", "stalled", "non-finite")
 _IDENTITY_FLAT = np.eye(6).ravel()
 _NO_TIMES = np.empty(0)
-#: (state mode, STM mode) pairs ``model=`` may name (models whose params[0] is mu).
-_MODEL_MODES = ((MODE_STATE, MODE_STM), (MODE_BICIRCULAR, MODE_BICIRCULAR_STM))
 
 
 @dataclass(frozen=True)
@@ -101,9 +99,9 @@ def _model(system, model, stm):
     if model is None:
         return (MODE_STM if stm else MODE_STATE), _params(system)
     mode_state, mode_stm, params = model
-    if (mode_state, mode_stm) not in _MODEL_MODES:
+    if (mode_state, mode_stm) not in MODEL_MODES:
         raise InputError(f"model modes {mode_state}, {mode_stm}; allowed: "
-                         f"{', '.join(f'{a}, {b}' for a, b in _MODEL_MODES)}")
+                         f"{', '.join(f'{a}, {b}' for a, b in MODEL_MODES)}")
     params = np.ascontiguousarray(params, dtype=np.float64)
     if params.ndim != 1 or params.size == 0 or params[0] != system.mu:
         raise InputError("model parameters must be a vector starting with the system's mu")
@@ -198,7 +196,7 @@ def propagate(system, state, t_final, stm=False, rtol=1e-12, atol=1e-12, events=
         Initial step size in TU (default: Hairer's automatic choice).
     model : (mode, stm_mode, params), optional
         Another right-hand side of the integrator (modes of
-        :func:`cr3bp.dynamics_kernels.rhs`, ``params[0]`` = mu of ``system``) with its
+        :func:`cr3bp.integrate.dispatch.rhs`, ``params[0]`` = mu of ``system``) with its
         parameter vector; :func:`cr3bp.bicircular.propagate` passes the bicircular model's.
         Default: the CR3BP of ``system``. ``system`` still checks the state and places the
         primaries for the events.

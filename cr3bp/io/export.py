@@ -43,6 +43,7 @@ import numpy as np
 from ..time import frames as _frames
 from .atomic import writing
 from ..cautions import CAUTION, caution_lines
+from ..constants import OBLIQUITY_J2000_ARCSEC
 from ..errors import InputError, shown
 
 FORMATS = ("oem", "xml", "csv", "json")   # xml = OEM in XML
@@ -468,7 +469,7 @@ def _model_lines(traj: Trajectory) -> list[str]:
     lines.append(f"Epoch of rotating time 0: {spec.to_dict()['epoch_tdb']} TDB; centre {spec.center_name}")
     if spec.axes == "j2000-ecliptic":
         lines.append("REF_FRAME J2000_ECLIPTIC: mean ecliptic and equinox of J2000, EME2000 rotated "
-                     "about x by the IAU 2006 obliquity 84381.406 arcsec (not a registry value)")
+                     f"about x by the IAU 2006 obliquity {OBLIQUITY_J2000_ARCSEC} arcsec (not a registry value)")
     if _frames.time_system(traj.time_system) == "UTC":
         from ..time.scales import leap_second_table, mjd_to_iso_date
         table = leap_second_table()

@@ -48,6 +48,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import InputError, NoSolutionError
+from ..integrate.modes import MODE_EPHEMERIS
 
 #: Continuity tolerance of the reference (nondimensional): tighter than the transition's
 #: default 1e-9 so that the reference's own seams (Earth-Moon: 4 mm, 10 um/s) stay far below
@@ -338,7 +339,7 @@ def _propagate(model, X, t0, t1, alive):
     out_y = np.empty_like(y0)
     status = np.zeros(rows.size, dtype=np.int64)
     out_t = np.empty(rows.size)
-    integrate_segments(fm._MODE, model.params, y0, np.full(rows.size, float(t0)), np.full(rows.size, float(t1)),
+    integrate_segments(MODE_EPHEMERIS, model.params, y0, np.full(rows.size, float(t0)), np.full(rows.size, float(t1)),
                        TRIAL_RTOL, TRIAL_RTOL, math.inf, int(fm.dop853.DEFAULT_MAX_STEPS), table(()),
                        out_y, status, out_t)
     X = X.copy()

@@ -23,6 +23,7 @@ from pathlib import Path
 
 import numpy as np
 
+from ..constants import DAYS_PER_JULIAN_CENTURY, J2000_JD, SECONDS_PER_DAY
 from ..errors import InputError
 
 WGS84_A_KM = 6378.137                 # NIMA TR8350.2 (2000), Table 3.1 (from memory)
@@ -87,7 +88,7 @@ def read_stations(path) -> list:
 def earth_rotation_angle(jd1, jd2=0.0):
     """ERA (rad, in [0, 2 pi)) at UT1 Julian date ``jd1 + jd2``: IERS Conventions 2010 eq. 5.15."""
     jd1, jd2 = np.asarray(jd1, dtype=float), np.asarray(jd2, dtype=float)
-    tu = (jd1 - 2451545.0) + jd2
+    tu = (jd1 - J2000_JD) + jd2
     frac = np.mod(jd1, 1.0) + np.mod(jd2, 1.0)
     return np.mod(2.0 * math.pi * (frac + 0.7790572732640 + 0.00273781191135448 * tu), 2.0 * math.pi)
 
@@ -137,7 +138,7 @@ def terrestrial_matrices(tdb_s):
     from ..time.frames import _epoch
     ep = _epoch(np.atleast_1d(np.asarray(tdb_s, dtype=float)))
     u1, u2 = ep.two_part_jd("utc")                # UT1 ~ UTC (module docstring)
-    tt = np.atleast_1d(ep.seconds_since_j2000("tt")) / (86400.0 * 36525.0)
+    tt = np.atleast_1d(ep.seconds_since_j2000("tt")) / (SECONDS_PER_DAY * DAYS_PER_JULIAN_CENTURY)
     g = gmst(u1, u2, tt)
     c, s = np.cos(g), np.sin(g)
     rot = np.zeros(g.shape + (3, 3))

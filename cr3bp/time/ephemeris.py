@@ -29,7 +29,7 @@ the planet system's barycentre, which is what DE421 tabulates); centres: any bod
 Axes: ``"j2000-equator"`` is the DE421 kernel's own frame, the ICRF as realised by DE421
 (the mean equator and equinox of J2000 differ from it by the 23 mas frame bias, which is
 not applied: the two are taken as one, as before); ``"j2000-ecliptic"`` is reached from it
-by a rotation about x by the **IAU 2006 obliquity at J2000, 84381.406 arcsec** (Hilton et
+by a rotation about x by the **IAU 2006 obliquity at J2000** (:data:`cr3bp.constants.OBLIQUITY_J2000_ARCSEC`; Hilton et
 al. 2006, Celest. Mech. Dyn. Astr. 94, 351).
 
 Time argument: TDB (the tables' argument), from the Epoch's two-part Julian date (TDB - TT
@@ -204,7 +204,8 @@ def describe(model: str = DEFAULT_MODEL) -> dict:
 def ecliptic_to_equator_matrix() -> np.ndarray:
     """Rotation taking J2000 ecliptic components to J2000 equator components.
 
-    ``r_eq = M @ r_ecl`` with M a rotation about x by -eps, eps = 84381.406 arcsec (IAU 2006)."""
+    ``r_eq = M @ r_ecl`` with M a rotation about x by -eps, eps the IAU 2006 obliquity
+    (:data:`cr3bp.constants.OBLIQUITY_J2000_ARCSEC`)."""
     return _series.ecliptic_to_equator_matrix()
 
 

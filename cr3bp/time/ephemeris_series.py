@@ -33,9 +33,10 @@ Models
   eight planet systems and Pluto (GMs in ``data/planet_elements.csv``).
 * **Axes**: ``"j2000-ecliptic"`` is the mean ecliptic and equinox of J2000;
   ``"j2000-equator"`` is the mean equator and equinox of J2000, reached by a rotation about
-  x by the **IAU 2006 obliquity at J2000, 84381.406 arcsec** (Hilton et al. 2006, Celest.
-  Mech. Dyn. Astr. 94, 351), the value the current IAU precession model uses; the IAU 1976
-  value 84381.448 arcsec would move positions by 0.04 arcsec, far below these models' errors.
+  x by the **IAU 2006 obliquity at J2000** (:data:`cr3bp.constants.OBLIQUITY_J2000_ARCSEC`; Hilton et al. 2006,
+  Celest. Mech. Dyn. Astr. 94, 351), the value the current IAU precession model uses; the IAU
+  1976 value, 0.042 arcsec larger, would move positions by 0.04 arcsec, far below these
+  models' errors.
   The J2000 mean equator differs from the ICRS/GCRS axes by 23 mas (frame bias), neglected.
 * **Time argument**: TT (taken for TDB; the difference, under 1.7 ms, moves the Moon by
   under 2 m and the planets by less).
@@ -242,7 +243,8 @@ def valid_interval(body: str, center: str = "earth") -> tuple[Epoch, Epoch]:
 def ecliptic_to_equator_matrix() -> np.ndarray:
     """Rotation taking J2000 ecliptic components to J2000 mean-equator components.
 
-    ``r_eq = M @ r_ecl`` with M a rotation about x by -eps, eps = 84381.406 arcsec (IAU 2006)."""
+    ``r_eq = M @ r_ecl`` with M a rotation about x by -eps, eps the IAU 2006 obliquity
+    (:data:`cr3bp.constants.OBLIQUITY_J2000_ARCSEC`)."""
     e = OBLIQUITY_J2000_ARCSEC * ARCSEC
     c, s = math.cos(e), math.sin(e)
     return np.array([[1.0, 0.0, 0.0], [0.0, c, -s], [0.0, s, c]])

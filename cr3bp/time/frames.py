@@ -32,7 +32,7 @@ Anchorings
 
 Inertial axes: ``j2000-equator`` (EME2000: mean equator and equinox of J2000) and
 ``j2000-ecliptic`` (mean ecliptic and equinox of J2000, obtained from EME2000 by a rotation
-of the IAU 2006 obliquity 84381.406 arcsec about x; Hilton et al., Celest. Mech. Dyn. Astr. 94,
+of the IAU 2006 obliquity (:data:`cr3bp.constants.OBLIQUITY_J2000_ARCSEC`) about x; Hilton et al., Celest. Mech. Dyn. Astr. 94,
 2006, from memory -- the value the project's ephemeris module uses for its J2000 ecliptic).
 ``rotating`` keeps the CR3BP axes, dimensional (km, km/s, length unit fixed), re-centred.
 

@@ -36,12 +36,16 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .. import units
+from .. import units, validate
 from ..dynamics import jacobi as _jacobi, jacobian
 from ..display import Shown
+from ..equilibria import lagrange_point
 from ..errors import InputError, NoSolutionError
 from ..integrate import escape, impact, propagate, propagate_batch
-from .sections import (Section, batch, batch_features, bounded_max_events, guard_events, parse_section,
+from ..integrate.batch import batch, batch_features
+from ..orbits import PeriodicOrbit
+from ..validate import quantity, whole_number
+from .sections import (Crossings, Section, bounded_max_events, guard_events, parse_section,
     primary_index)
 
 #: Step-off distances (km) by system name (common practice, see module docstring).
@@ -133,7 +137,6 @@ def step_lu(system, step_km=None) -> tuple[float, float]:
             return 1e-6, float("nan")
         step_km = default_step_km(system)
     if isinstance(step_km, str):
-        from ..validate import quantity
         v = quantity("step-off distance", step_km, "length", system, sign="positive")
         return v, (v * system.length_km if system.dimensional else float("nan"))
     if not (math.isfinite(step_km) and step_km > 0):
@@ -488,7 +491,6 @@ def parse_until(texts, system, t_max=None) -> Stop:
             body, _, n = rest.partition("#")
             section = parse_section(body, system)
             if n:
-                from ..validate import whole_number
                 count = whole_number(f"crossing number in '{text}'", n, 1, 1000)
         elif kind == "time":
             tmax = units.time(rest, system, default_unit="TU")
@@ -496,13 +498,11 @@ def parse_until(texts, system, t_max=None) -> Stop:
                 raise InputError(f"time limit in '{text}' must be positive")
         elif kind == "altitude":
             body, _, h = rest.partition(":")
-            from ..validate import quantity
             p = primary_index(system, body)
             system.require_dimensional("an altitude")
             alt_km = system.km(quantity(f"altitude in '{text}'", h, "length", system, sign="nonnegative"))
             alts.append((p, float(alt_km)))
         elif kind == "escape":
-            from ..validate import quantity
             esc = quantity(f"escape radius in '{text}'", rest, "length", system, sign="positive",
                            default_unit="LU")
         else:
@@ -598,7 +598,6 @@ class Tube(Shown):
 
     def section_cut(self):
         """The tube's cut on its stop section as :class:`~cr3bp.tubes.sections.Crossings`."""
-        from .sections import Crossings
         if self.stop.section is None:
             raise InputError("this tube was not grown to a section")
         m = self.reached("section")
@@ -963,7 +962,6 @@ def _globalise(system, starts, stop, sign, progress=None):
 
 def _lagrange_jacobi(system, point) -> float:
     """Jacobi constant of a collinear Lagrange point (:func:`cr3bp.equilibria.lagrange_point`)."""
-    from ..equilibria import lagrange_point
     return float(lagrange_point(system, point).jacobi)
 
 
@@ -1014,8 +1012,6 @@ def orbit_from_state(system, state, period, family="given", point="", branch="",
     >>> again.periodicity_error < 1e-9
     True
     """
-    from .. import validate
-    from ..orbits import PeriodicOrbit
     s0 = validate.state(system, state)
     T = validate.finite_time("period", period)
     if not T > 0:
@@ -1071,7 +1067,6 @@ def point_tube(system, point, stability: str, branch: str, until=None, *, step_k
     1
     """
     if position is None:
-        from ..equilibria import lagrange_point  # lands with the equilibria module
         position = lagrange_point(system, point).position
     pos = np.asarray(position, dtype=float)
     xl = np.concatenate([pos, np.zeros(3)])

@@ -45,99 +45,15 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..dynamics import acceleration, jacobi
-from ..errors import InputError, StateError
-from ..integrate import escape, impact, plane, propagate, propagate_batch
+from ..errors import InputError, StateError, shown
+from ..integrate import escape, impact, plane, propagate
+from ..integrate.batch import batch
 from ..integrate.events import COORDS
+from ..validate import quantity
 
 KINDS = ("plane", "sphere", "apsis")
 #: Names the map coordinates may take (besides the six state components).
 MAP_COORDS = tuple(COORDS) + ("t", "tof_days", "altitude_km", "radius", "r", "jacobi")
-
-
-#: Tolerances of the tube propagations (manifolds and section crossings in one batch).
-BATCH_RTOL = 1e-12
-BATCH_ATOL = 1e-12
-
-
-def batch_features() -> dict:
-    """Which optional features the installed ``propagate_batch`` offers.
-
-    Per-trajectory final times with STMs, a larger event record, marking failed trajectories
-    instead of raising.
-
-    Returns
-    -------
-    dict
-        ``{"stm": bool, "max_events": bool, "on_failure": bool}``.
-
-    Raises
-    ------
-    None
-
-    References
-    ----------
-    .. [1] E. Hairer, S. P. Nørsett and G. Wanner, *Solving Ordinary Differential Equations I*,
-       2nd ed., Springer, 1993 (the integrator behind the batch propagator).
-
-    Examples
-    --------
-    >>> from cr3bp.tubes.sections import batch_features
-    >>> sorted(batch_features())
-    ['max_events', 'on_failure', 'stm']
-    """
-    import inspect
-    params = inspect.signature(propagate_batch).parameters
-    return {k: k in params for k in ("stm", "max_events", "on_failure")}
-
-
-def batch(system, states, t_final, events=(), max_events=8):
-    """``propagate_batch`` with the tube settings, using the optional features when present.
-
-    Parameters
-    ----------
-    system : System
-    states : array_like, shape (N, 6)
-    t_final : float
-        Signed time limit (TU).
-    events : sequence of events
-    max_events : int
-        Events recorded per trajectory.
-
-    Returns
-    -------
-    BatchResult
-        As :func:`cr3bp.integrate.propagate_batch`.
-
-    Raises
-    ------
-    InputError
-        Bad states or time.
-
-    References
-    ----------
-    .. [1] E. Hairer, S. P. Nørsett and G. Wanner, *Solving Ordinary Differential Equations I*,
-       2nd ed., Springer, 1993 (DOP853 with dense output and event location).
-
-    Examples
-    --------
-    >>> from cr3bp.systems import system
-    >>> from cr3bp.orbits import seeds, shooting
-    >>> from cr3bp.tubes import sections
-    >>> em = system("earth-moon")
-    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 0.01)
-    >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry)
-    >>> res = sections.batch(em, [orbit.state], orbit.period)
-    >>> bool(abs(res.states[0] - orbit.state).max() < 1e-9)
-    True
-    """
-    kw = {}
-    feats = batch_features()
-    if feats["max_events"]:
-        kw["max_events"] = int(max_events)
-    if feats["on_failure"]:
-        kw["on_failure"] = "mark"
-    return propagate_batch(system, np.ascontiguousarray(states), t_final, rtol=BATCH_RTOL,
-                           atol=BATCH_ATOL, events=events, **kw)
 
 
 def bounded_max_events(count: int) -> int:
@@ -514,7 +430,6 @@ def expression(text: str, system) -> float:
         if isinstance(node, ast.UnaryOp) and type(node.op) in _OPS:
             return _OPS[type(node.op)](ev(node.operand))
         raise ValueError
-    from ..errors import shown
     if len(str(text)) > MAX_EXPRESSION_CHARS:
         raise InputError(f"section value '{shown(text)}' is longer than {MAX_EXPRESSION_CHARS} "
                          "characters; give a number or short arithmetic in mu (e.g. 1-mu)")
@@ -597,7 +512,6 @@ def parse_section(text: str, system) -> Section:
     if head == "sphere":
         if len(parts) not in (3, 4):
             raise InputError(f"section '{text}': write sphere:BODY:RADIUS[:+|-], e.g. sphere:moon:20000km")
-        from ..validate import quantity
         r = quantity(f"sphere radius in section '{text}'", parts[2], "length", system, sign="positive")
         d = _direction_text(parts[3], text) if len(parts) == 4 else -1
         return sphere(system, parts[1], r, d or -1, label=t)

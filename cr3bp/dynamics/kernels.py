@@ -1,8 +1,9 @@
 """CR3BP dynamics as compiled kernels (numba ``njit(cache=True)``): the pseudo-potential, its
 gradient and Hessian, the equations of motion with and without the variational equations,
-the right-hand-side dispatcher of the integrator, and the Jacobi constant of many states.
+and the Jacobi constant of many states. The integrator reaches them through its right-hand-side
+dispatcher (:func:`cr3bp.integrate.dispatch.rhs`, modes in :mod:`cr3bp.integrate.modes`).
 
-The equations and their sources are in :mod:`cr3bp.dynamics`, which holds the array-level
+The equations and their sources are in the package :mod:`cr3bp.dynamics`, which holds the array-level
 wrappers and imports nothing compiled: code that only needs the wrappers or the
 ahead-of-time built kernels (:mod:`cr3bp.integrate.prebuilt`) does not import numba.
 ``cr3bp.dynamics.<kernel>`` still reaches every kernel here (module ``__getattr__``).
@@ -12,9 +13,6 @@ from __future__ import annotations
 
 import numpy as np
 from numba import njit
-
-from . import bicircular_kernels as _bicircular
-from .fidelity import forces as _ephemeris_forces
 
 
 @njit(cache=True, fastmath=False)
@@ -123,26 +121,6 @@ def eom_stm(t, s, mu, out):
         out[24 + j] = hxx * p0 + hxy * p1 + hxz * p2 + 2.0 * p4
         out[30 + j] = hxy * p0 + hyy * p1 + hyz * p2 - 2.0 * p3
         out[36 + j] = hxz * p0 + hyz * p1 + hzz * p2
-
-
-@njit(cache=True)
-def rhs(mode, t, s, params, out):
-    """Dispatch on ``mode``: ``MODE_STATE`` (6) or ``MODE_STM`` (42), ``params[0]`` is mu;
-    ``MODE_EPHEMERIS`` (6) or ``MODE_EPHEMERIS_STM`` (42), ``params`` packed as described in
-    :mod:`cr3bp.fidelity.forces`; ``MODE_BICIRCULAR`` (6) or ``MODE_BICIRCULAR_STM`` (42),
-    ``params`` packed as described in :mod:`cr3bp.bicircular_kernels`."""
-    if mode == 1:
-        eom_stm(t, s, params[0], out)
-    elif mode == 0:
-        eom(t, s, params[0], out)
-    elif mode == 2:
-        _ephemeris_forces.eom(t, s, params, out)
-    elif mode == 3:
-        _ephemeris_forces.eom_stm(t, s, params, out)
-    elif mode == 4:
-        _bicircular.eom(t, s, params, out)
-    else:
-        _bicircular.eom_stm(t, s, params, out)
 
 
 @njit(cache=True)

@@ -1,6 +1,6 @@
 """CR3BP dynamics: the array-level functions (Jacobi constant, accelerations, gradient and
 Hessian of the pseudo-potential, the variational matrix, the mirror symmetry) over the
-compiled kernels of :mod:`cr3bp.dynamics_kernels`.
+compiled kernels of :mod:`cr3bp.dynamics.kernels`.
 
 Conventions are in :mod:`cr3bp.systems`. Equations of motion (Szebehely, *Theory of Orbits*,
 1967, §1.5)::
@@ -16,7 +16,7 @@ This module imports nothing compiled. The functions below call the ahead-of-time
 kernels when they are present and current (:mod:`cr3bp.integrate.prebuilt`: the same source,
 built once by ``make``), otherwise numba's just-in-time ones; a single request therefore
 does not pay numba's start-up. The kernels themselves (``omega``, ``grad_omega``,
-``hessian_omega``, ``eom``, ``eom_stm``, ``rhs``) are reached as ``cr3bp.dynamics.<name>``,
+``hessian_omega``, ``eom``, ``eom_stm``) are reached as ``cr3bp.dynamics.<name>``,
 for use inside other compiled code.
 """
 
@@ -24,33 +24,27 @@ from __future__ import annotations
 
 import numpy as np
 
-# Right-hand-side modes understood by ``rhs`` (also used by the integrator).
-MODE_STATE = 0
-MODE_STM = 1
-MODE_EPHEMERIS = 2       # point-mass ephemeris model (cr3bp.fidelity.forces), 6 states
-MODE_EPHEMERIS_STM = 3   # the same with its variational equations, 42 states
-MODE_BICIRCULAR = 4      # bicircular Earth-Moon-Sun model (cr3bp.bicircular_kernels), 6 states
-MODE_BICIRCULAR_STM = 5  # the same with its variational equations, 42 states
-
-#: Kernels of :mod:`cr3bp.dynamics_kernels` reachable as attributes of this module.
-KERNEL_NAMES = ("omega", "grad_omega", "hessian_omega", "eom", "eom_stm", "rhs", "_jacobi_many",
-                "_ephemeris_forces", "_bicircular")
+#: Kernels of :mod:`cr3bp.dynamics.kernels` reachable as attributes of this module.
+KERNEL_NAMES = ("omega", "grad_omega", "hessian_omega", "eom", "eom_stm", "_jacobi_many")
 
 
 def __getattr__(name):
     if name in KERNEL_NAMES:
-        from . import dynamics_kernels
-        return getattr(dynamics_kernels, name)
+        from . import kernels
+        return getattr(kernels, name)
     raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
 def _kernels():
     """The prebuilt kernel module when present and current, else the just-in-time one (both
-    export ``eom``, ``grad_omega``, ``hessian_omega`` and ``_jacobi_many``)."""
-    from .integrate import prebuilt
+    export ``eom``, ``grad_omega``, ``hessian_omega`` and ``_jacobi_many``).
+
+    Both imports stay here: the integrator's package sits above the dynamics (it builds these
+    kernels), and the just-in-time kernels load numba, which a prebuilt run never needs."""
+    from ..integrate import prebuilt
     k = prebuilt.kernels()
     if k is None:
-        from . import dynamics_kernels as k
+        from . import kernels as k
     return k
 
 
