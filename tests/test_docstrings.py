@@ -19,7 +19,6 @@ import doctest
 import importlib
 import inspect
 import re
-import time
 
 import pytest
 
@@ -49,8 +48,6 @@ MODULES = [
 NOT_YET: dict[str, set[str]] = {}
 
 SECTION = re.compile(r"^[ \t]*([A-Z][A-Za-z ]+)[ \t]*\n[ \t]*-{3,}[ \t]*$", re.MULTILINE)
-#: Longest time one module's examples may take (the examples are meant to be quick).
-DOCTEST_SECONDS = 20.0
 
 
 def sections(doc: str | None) -> set[str]:
@@ -117,12 +114,9 @@ def test_examples_run(modname):
     finder = doctest.DocTestFinder()
     runner = doctest.DocTestRunner(optionflags=doctest.ELLIPSIS | doctest.NORMALIZE_WHITESPACE)
     tests = [t for t in finder.find(module) if t.examples]
-    start = time.perf_counter()
     for t in tests:
         runner.run(t)
-    took = time.perf_counter() - start
     result = runner.summarize(verbose=False)
     documented = [n for n, _ in public_names(module) if n not in NOT_YET.get(modname, set())]
     assert result.attempted > 0 or not documented, f"{modname}: no examples found"
     assert result.failed == 0, f"{modname}: {result.failed} of {result.attempted} examples failed"
-    assert took < DOCTEST_SECONDS, f"{modname}: examples took {took:.1f} s"
