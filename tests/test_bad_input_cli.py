@@ -272,6 +272,14 @@ def value_cases():
     add("shadow-stations-binary", SH + ["--stations={in}/binary.toml"])
     add("shadow-no-ephemeris", ["shadow", "--system=jupiter-europa", "--orbit=lyapunov L1 jacobi=3.0", EPOCH])
     add("shadow-plot-suffix", SH + ["--plot={out}/t.bmp"])
+    add("shadow-until-epoch-before", SH + ["--until-epoch=2031-02-01T00:00:00Z"])
+    add("shadow-until-epoch-equal", SH + ["--until-epoch=2031-03-01T00:00:00Z"])
+    add("shadow-until-epoch-bad", SH + ["--until-epoch=2031-02-30T00:00:00Z"])
+    add("shadow-until-epoch-text", SH + ["--until-epoch=tomorrow"])
+    add("shadow-until-epoch-beyond-tables", SH + ["--until-epoch=2200-01-01T00:00:00Z"])
+    for v in ("1", "201", "x", "2.5"):
+        add(f"shadow-epochs-{v}", SH + ["--until-epoch=2031-04-01T00:00:00Z", f"--epochs={v}"])
+    add("shadow-system-unsupported", ["shadow", "--system=sun-jupiter", "--orbit=lyapunov L1 jacobi=3.0", EPOCH])
     # keep
     K = BASE["keep"]
     for v in ("1km", "1km,1cm/s,2", "-1km,1cm/s", "1km,-1cm/s", "1kg,1cm/s", "1km,1cm", "nankm,1cm/s"):
