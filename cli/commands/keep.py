@@ -200,7 +200,10 @@ def _run(args):
                       + [f"{k.ljust(width)}  {v}" for k, v in rows]) + "\n"
     if s["lost_trials"]:
         table += (f"\nnote: {s['lost_trials']} trials left the orbit (farther than {keeping.LOST_KM:g} km from the "
-                  "reference): their Δv counts only up to that point\n")
+                  "reference): their Δv counts only up to that point"
+                  + ("" if interval else "; maneuvers more often than once a revolution (e.g. --interval 30d "
+                     "--target-revs 1 for Sun-Earth orbits) hold orbits that diverge within a revolution")
+                  + "\n")
     if args.plot:
         from cr3bp.plotting.keeping import histogram
         histogram(b, args.plot, title=f"{args.orbit} from {args.epoch[:10]}, {b.span_days:.0f} d, {b.trials} trials",
