@@ -303,6 +303,9 @@ def value_cases():
     add("keep-epoch-bad", K[:3] + ["--epoch=2031-13-01T00:00:00Z"])
     add("keep-plot-suffix", K + ["--plot={out}/t.bmp"])
     add("keep-format", K + ["--format=csv"])
+    add("keep-scheduler-scheme", K + ["--scheduler=ftp://10.0.0.5:8786"])
+    add("keep-scheduler-empty", K + ["--scheduler="])
+    add("keep-scheduler-and-workers", K + ["--scheduler=tcp://127.0.0.1:8786", "--workers=2"])
     # disperse
     D = BASE["disperse"]
     for v in ("0d", "-1d", "nand", "5", "5km", "2000d"):

@@ -84,3 +84,44 @@ def test_cli_sun_earth_end_to_end(tmp_path):
     want = _budget(NOMINAL).summary()
     assert got["summary"]["dv_per_year_mps"]["mean"] == pytest.approx(want["dv_per_year_mps"]["mean"], rel=1e-6)
     assert "CAUTION" in got["caution"]
+
+
+# ---- the trials on a dask cluster (same numbers as in this process) ----------------------------
+
+def test_trials_on_a_dask_cluster_equal_the_trials_here():
+    distributed = pytest.importorskip("distributed")
+    r = ref("L1")
+    here = kp.run_trials(r, NOMINAL, 6, 5, workers=1)
+    with distributed.LocalCluster(processes=False, n_workers=2, threads_per_worker=1,
+                                  dashboard_address=None) as cluster, distributed.Client(cluster) as client:
+        there = kp.run_trials(r, NOMINAL, 6, 5, scheduler=client)
+    for key in ("dv_mps", "states", "lost"):
+        assert np.array_equal(here[key], there[key]), key
+
+
+def test_cli_scheduler_address(tmp_path):
+    distributed = pytest.importorskip("distributed")
+    out = tmp_path / "k.json"
+    with distributed.LocalCluster(processes=False, n_workers=1, threads_per_worker=1,
+                                  dashboard_address=None) as cluster:
+        rc = main(["keep", "--system", "sun-earth", "--orbit", "halo L1 north az=200000km", "--epoch", EPOCH,
+                   "--span", "180d", "--interval", "30d", "--target-revs", "1", "--bodies", "sun,earth,moon",
+                   "--trials", "12", "--seed", "5", "--format", "json", "--out", str(out), "-q",
+                   "--scheduler", cluster.scheduler_address])
+    assert rc == 0
+    got = json.loads(out.read_text())
+    want = _budget(NOMINAL).summary()
+    assert got["summary"]["dv_per_year_mps"] == want["dv_per_year_mps"]
+
+
+def test_cli_unreachable_scheduler_is_refused_before_any_work(tmp_path, capsys):
+    pytest.importorskip("distributed")
+    import time
+    t = time.perf_counter()
+    rc = main(["keep", "--system", "sun-earth", "--orbit", "halo L1 north az=200000km", "--epoch", EPOCH,
+               "--span", "180d", "--trials", "2", "--scheduler", "tcp://127.0.0.1:1", "--out",
+               str(tmp_path / "k.json")])
+    err = capsys.readouterr().err
+    assert rc == 2 and "cannot reach the dask scheduler at 'tcp://127.0.0.1:1'" in err
+    assert "solving orbit" not in err and list(tmp_path.iterdir()) == []
+    assert time.perf_counter() - t < kp.CONNECT_TIMEOUT_S + 20
