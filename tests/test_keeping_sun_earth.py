@@ -97,6 +97,10 @@ def test_trials_on_a_dask_cluster_equal_the_trials_here():
         there = kp.run_trials(r, NOMINAL, 6, 5, scheduler=client)
     for key in ("dv_mps", "states", "lost"):
         assert np.array_equal(here[key], there[key]), key
+    # a local cluster of worker processes started and stopped for the run
+    local = kp.run_trials(r, NOMINAL, 6, 5, scheduler="local", workers=1)
+    for key in ("dv_mps", "states", "lost"):
+        assert np.array_equal(here[key], local[key]), key
 
 
 def test_cli_scheduler_address(tmp_path):

@@ -499,7 +499,10 @@ def dask_client(scheduler, workers: int | None = None):
         if n < 1:
             raise InputError(f"workers {n} must be at least 1")
         # processes with one thread each, as the pool's workers (each chunk sets numba to one thread)
-        cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True, dashboard_address=None)
+        import logging
+        # its workers' shutdown notices stay out of the terminal (errors still show)
+        cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True, dashboard_address=None,
+                               silence_logs=logging.ERROR)
         return Client(cluster), cluster
     try:
         return Client(str(scheduler), timeout=f"{CONNECT_TIMEOUT_S}s"), None
