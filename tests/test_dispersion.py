@@ -135,3 +135,31 @@ def test_cli_end_to_end(capsys, tmp_path):
     text = capsys.readouterr().out
     assert rc == 0
     assert "CR3BP" in text and "CAUTION" in text and "linear covariance" in text
+
+
+def test_after_the_last_maneuver_of_a_leg():
+    """Seam (leg -> dispersion): the nominal starts at the leg's last maneuver and ends at its
+    arrival; the heteroclinic L1 -> L2 Lyapunov leg at C = 3.15 (Koon, Lo, Marsden & Ross 2000,
+    the case of tests/test_against_koon_heteroclinic.py)."""
+    from cr3bp import system
+    from cr3bp.integrate import propagate
+    from cr3bp.tubes.connections import connect
+    from _orbit_fixtures import lyapunov
+    em = system("earth-moon")
+    legs, _, _ = connect(lyapunov(em, "L1", 3.15), lyapunov(em, "L2", 3.15), "x=1-mu", 60)
+    leg = min(legs, key=lambda lg: lg.dv_mps)
+    nom = dp.after_last_maneuver(leg)
+    last = leg.maneuvers[-1]
+    assert nom.burn_mps == last.dv_mps
+    assert nom.tf_tu == pytest.approx(leg.tof_arrival - last.t, rel=1e-12)
+    t, states = leg.trajectory(2000)
+    k = np.nonzero(np.abs(t - last.t) <= 1e-12)[0][-1]      # the first sample after the maneuver
+    assert np.allclose(nom.x0, states[k], atol=1e-9)
+    end = propagate(em, nom.x0, nom.tf_tu, rtol=1e-12, atol=1e-12).states[-1]
+    want = propagate(em, states[k], leg.tof_arrival - t[k], rtol=1e-12, atol=1e-12).states[-1]
+    assert np.allclose(end, want, atol=1e-8)
+    s = dp.dispersion(nom, [0.3 * nom.tf_tu], GAUSSIAN, trials=1500, seed=2).summary()
+    c = s["corrections"][0]
+    assert c["monte_carlo_rms_mps"] == pytest.approx(c["linear_rms_mps"], rel=TOL_SIGMA)
+    p = s["insertion_position_km"]
+    assert p["monte_carlo_rss_1sigma"] == pytest.approx(p["linear_rss_1sigma"], rel=TOL_SIGMA)
