@@ -175,6 +175,7 @@ BASE = {
     "torus": ["torus", EM, "--around=lyapunov L1 jacobi=3.17", "--amplitude=100km"],
     "shadow": ["shadow", EM, "--orbit=lyapunov L1 jacobi=3.17", EPOCH, "--span=2d"],
     "keep": ["keep", EM, "--orbit=halo L2 south period=6.5626d", EPOCH, "--trials=2", "--span=10d"],
+    "disperse": ["disperse", EM, "--orbit=halo L2 south period=6.5626d", "--coast=5d", "--trials=2"],
 }
 #: the option each command writes its main output with (convert: the positional OUT)
 OUT_OPTION = {"route": "--out", "family": "--plot", "convert": ""}
@@ -271,6 +272,14 @@ def value_cases():
     add("shadow-stations-binary", SH + ["--stations={in}/binary.toml"])
     add("shadow-no-ephemeris", ["shadow", "--system=jupiter-europa", "--orbit=lyapunov L1 jacobi=3.0", EPOCH])
     add("shadow-plot-suffix", SH + ["--plot={out}/t.bmp"])
+    add("shadow-until-epoch-before", SH + ["--until-epoch=2031-02-01T00:00:00Z"])
+    add("shadow-until-epoch-equal", SH + ["--until-epoch=2031-03-01T00:00:00Z"])
+    add("shadow-until-epoch-bad", SH + ["--until-epoch=2031-02-30T00:00:00Z"])
+    add("shadow-until-epoch-text", SH + ["--until-epoch=tomorrow"])
+    add("shadow-until-epoch-beyond-tables", SH + ["--until-epoch=2200-01-01T00:00:00Z"])
+    for v in ("1", "201", "x", "2.5"):
+        add(f"shadow-epochs-{v}", SH + ["--until-epoch=2031-04-01T00:00:00Z", f"--epochs={v}"])
+    add("shadow-system-unsupported", ["shadow", "--system=sun-jupiter", "--orbit=lyapunov L1 jacobi=3.0", EPOCH])
     # keep
     K = BASE["keep"]
     for v in ("1km", "1km,1cm/s,2", "-1km,1cm/s", "1km,-1cm/s", "1kg,1cm/s", "1km,1cm", "nankm,1cm/s"):
@@ -294,6 +303,27 @@ def value_cases():
     add("keep-epoch-bad", K[:3] + ["--epoch=2031-13-01T00:00:00Z"])
     add("keep-plot-suffix", K + ["--plot={out}/t.bmp"])
     add("keep-format", K + ["--format=csv"])
+    add("keep-scheduler-scheme", K + ["--scheduler=ftp://10.0.0.5:8786"])
+    add("keep-scheduler-empty", K + ["--scheduler="])
+    add("keep-scheduler-and-workers", K + ["--scheduler=tcp://127.0.0.1:8786", "--workers=2"])
+    # disperse
+    D = BASE["disperse"]
+    for v in ("0d", "-1d", "nand", "5", "5km", "2000d"):
+        add(f"disperse-coast-{v}", D[:3] + [f"--coast={v}", "--trials=2"])
+    for v in ("6d", "5d", "2d,1d", "1d,,2d", "-1d", "1km", "1d,1d"):
+        add(f"disperse-corrections-{v}", D + [f"--corrections={v}"])
+    add("disperse-corrections-too-many", D + ["--corrections=" + ",".join(f"{0.1 * (k + 1):.1f}d" for k in range(21))])
+    for v in ("-1m/s", "1", "nanm/s", "200km/s"):
+        add(f"disperse-burn-{v}", D + [f"--burn={v}"])
+    for v in ("abc", "nandeg"):
+        add(f"disperse-arrive-phase-{v}", D + [f"--arrive-phase={v}"])
+    add("disperse-branch", D + ["--branch=middle"])
+    add("disperse-nav-error", D + ["--nav-error=1km"])
+    add("disperse-burn-error", D + ["--burn-error=1,1mm/s"])
+    add("disperse-trials-zero", D[:-1] + ["--trials=0"])
+    add("disperse-seed-negative", D + ["--seed=-1"])
+    add("disperse-no-units", ["disperse", "--mu=0.01", "--orbit=lyapunov L1 jacobi=3.0", "--coast=1TU"])
+    add("disperse-format", D + ["--format=csv"])
     # systems, points
     add("systems-format", ["systems", "--format=xml"])
     add("points-mu-nan", ["points", "--mu=nan"])

@@ -41,6 +41,10 @@ def add_arguments(p):
     m.add_argument("--workers", metavar="N", help="process-pool size (default 1: in this process, whose "
                                                   "compiled propagation already uses every core); results "
                                                   "do not depend on it")
+    m.add_argument("--scheduler", metavar="ADDRESS", help="run the trials on a dask.distributed scheduler "
+                                                          "(e.g. tcp://10.0.0.5:8786), or 'local' for a local "
+                                                          "cluster of --workers processes (default 2); needs "
+                                                          "librate[cluster]; results do not depend on it")
     o = p.add_argument_group("output")
     o.add_argument("--plot", metavar="FILE", help="histogram of the Δv per year and per maneuver "
                                                   "(.png, .svg or .pdf)")
@@ -102,6 +106,7 @@ def parse_errors(nav_text, burn_text):
 
 def _inputs(args):
     """Every check of the user's values, before anything is computed or written."""
+    import re
     from cr3bp.io import export
     from cr3bp.errors import InputError
     from cr3bp.fidelity import model as fm
@@ -114,6 +119,13 @@ def _inputs(args):
     target = common.whole_number("--target-revs", args.target_revs, 1, 10)
     seed = common.whole_number("--seed", args.seed, 0, 999999999999)
     workers = None if args.workers is None else common.whole_number("--workers", args.workers, 1, 256)
+    if args.scheduler is not None:
+        sch = str(args.scheduler).strip()
+        if sch != "local" and not re.fullmatch(r"(tcp|tls|inproc|ws|wss)://\S+", sch):
+            raise InputError(f"--scheduler '{args.scheduler}' must be 'local' or an address such as "
+                             "tcp://10.0.0.5:8786")
+        if sch != "local" and workers is not None:
+            raise InputError("--workers goes with --scheduler local (a remote cluster has its own workers)")
     bodies = fm.parse_bodies(args.bodies)
     srp = parse_srp(args.srp)
     if export.span_periods(args.span) is None:   # a span in periods is read after the orbit's solve
@@ -138,12 +150,28 @@ def run(args):
 
 
 def _run(args):
+    from cr3bp.operations import keeping
+
+    sysm, errors, min_burn, trials, target, seed, workers, bodies, srp, interval = _inputs(args)
+    if args.scheduler is None:
+        return _budget_run(args, sysm, errors, min_burn, trials, target, seed, workers, bodies, srp, interval, None)
+    # reach the cluster before the reference's minutes of work (an unreachable address is refused now)
+    common.progress(args, f"connecting to the dask scheduler '{args.scheduler}'...")
+    client, cluster = keeping.dask_client(args.scheduler.strip(), workers)
+    try:
+        return _budget_run(args, sysm, errors, min_burn, trials, target, seed, workers, bodies, srp, interval,
+                           client)
+    finally:
+        client.close()
+        if cluster is not None:
+            cluster.close()
+
+
+def _budget_run(args, sysm, errors, min_burn, trials, target, seed, workers, bodies, srp, interval, client):
     from cr3bp.io import export
     from cr3bp.errors import InputError
     from cr3bp.operations import keeping
     from cr3bp.orbits.request import solve_request
-
-    sysm, errors, min_burn, trials, target, seed, workers, bodies, srp, interval = _inputs(args)
     common.progress(args, f"solving orbit request '{args.orbit}'...")
     orbit = solve_request(sysm, args.orbit)
     span_tu = export.parse_span(args.span, sysm, float(orbit.period))
@@ -159,7 +187,8 @@ def _run(args):
                          f"({0.05 * orbit.period_days:.4g} d) and the span ({span_tu * sysm.time_days:.6g} d)")
     b = keeping.budget(orbit, args.epoch, span_tu, errors, trials, seed=seed, min_burn_mps=min_burn, bodies=bodies,
                        srp=srp, target_revs=target, interval_tu=interval, hold_phase=args.hold_phase,
-                       workers=workers, progress=lambda m: common.progress(args, m))
+                       workers=None if client is not None else workers, scheduler=client,
+                       progress=lambda m: common.progress(args, m))
     s = b.summary()
     ref = b.reference
     model_line = (f"{keeping.MODEL_TEXT}: {ref.info['central']} + {', '.join(ref.info['bodies'])}"
@@ -200,7 +229,10 @@ def _run(args):
                       + [f"{k.ljust(width)}  {v}" for k, v in rows]) + "\n"
     if s["lost_trials"]:
         table += (f"\nnote: {s['lost_trials']} trials left the orbit (farther than {keeping.LOST_KM:g} km from the "
-                  "reference): their Δv counts only up to that point\n")
+                  "reference): their Δv counts only up to that point"
+                  + ("" if interval else "; maneuvers more often than once a revolution (e.g. --interval 30d "
+                     "--target-revs 1 for Sun-Earth orbits) hold orbits that diverge within a revolution")
+                  + "\n")
     if args.plot:
         from cr3bp.plotting.keeping import histogram
         histogram(b, args.plot, title=f"{args.orbit} from {args.epoch[:10]}, {b.span_days:.0f} d, {b.trials} trials",

@@ -10,9 +10,11 @@ EXAMPLE = ('librate shadow --system earth-moon --orbit "halo L2 south resonance=
            "--epoch 2031-03-01T00:00:00Z --span 365d --avoid-eclipses --plot timeline.png")
 
 MODEL = ("CR3BP periodic orbit placed at the epoch by the ephemeris-anchored rotating frame "
-         "(J2000 mean equator, Earth-centred); eclipse geometry from the project's ephemeris, "
+         "(J2000 mean equator, Earth-centred; in Sun-Earth the Earth placed in the Earth-Moon barycentre by DE421); eclipse geometry from the project's ephemeris, "
          "conical shadow model (Montenbruck & Gill 2000, sec. 3.4.2), geometric positions, spherical bodies")
 PLOT_SUFFIXES = (".png", ".svg", ".pdf")
+#: Systems whose orbits can be placed about the Earth (the Earth in the system, or inside its secondary).
+SYSTEMS = ("earth-moon", "sun-earth")
 
 
 def add_arguments(p):
@@ -30,8 +32,15 @@ def add_arguments(p):
                          "(meeting --max-eclipse first when given)")
     g.add_argument("--phases", metavar="N", default="36", help="phases scanned by --avoid-eclipses, 1..720 "
                                                                "(default 36)")
-    g.add_argument("--max-eclipse", metavar="TIME", help="with --avoid-eclipses: prefer phases whose longest "
-                                                         "shadow pass is at most this (e.g. 90min)")
+    g.add_argument("--max-eclipse", metavar="TIME", help="with --avoid-eclipses or --until-epoch: prefer phases "
+                                                         "(epochs) whose longest shadow pass is at most this "
+                                                         "(e.g. 90min)")
+    g.add_argument("--until-epoch", metavar="ISO",
+                   help="scan --epochs start epochs evenly from --epoch to this one (ISO 8601) and keep the one "
+                        "with the least shadow time (meeting --max-eclipse first when given); with "
+                        "--avoid-eclipses the phases are scanned at every epoch")
+    g.add_argument("--epochs", metavar="N", default="8",
+                   help="start epochs scanned by --until-epoch, 2..200 (default 8)")
     g.add_argument("--bodies", metavar="LIST", default="earth,moon",
                    help="occulting bodies counted: earth, moon or earth,moon (default earth,moon)")
     g.add_argument("--stations", metavar="FILE",
@@ -49,9 +58,9 @@ def _inputs(args):
     from cr3bp.operations import eclipses, placement, visibility
     sysm = common.resolve_system(args)
     sysm.require_dimensional("eclipses at a date")
-    if sysm.name != "earth-moon":
-        raise InputError(f"--system {sysm.name}: eclipses and stations are computed for earth-moon only "
-                         "(the Earth and the Moon as occulting bodies)")
+    if sysm.name not in SYSTEMS:
+        raise InputError(f"--system {sysm.name}: eclipses and stations are computed for {' and '.join(SYSTEMS)} "
+                         "only (the Earth and the Moon as occulting bodies)")
     bodies = tuple(b.strip().lower() for b in args.bodies.split(",") if b.strip())
     if not bodies or any(b not in eclipses.BODIES for b in bodies) or len(set(bodies)) != len(bodies):
         raise InputError(f"--bodies '{args.bodies}': allowed earth, moon or earth,moon")
@@ -63,8 +72,8 @@ def _inputs(args):
     n_phases = common.whole_number("--phases", args.phases, 1, 720)
     max_min = None
     if args.max_eclipse is not None:
-        if not args.avoid_eclipses:
-            raise InputError("--max-eclipse goes with --avoid-eclipses")
+        if not (args.avoid_eclipses or args.until_epoch):
+            raise InputError("--max-eclipse goes with --avoid-eclipses or --until-epoch")
         q = units.parse(args.max_eclipse, "time")
         max_s = q.nondim(sysm) * sysm.time_s if q.unit == "TU" else q.si()
         if not max_s >= 0:
@@ -79,7 +88,15 @@ def _inputs(args):
         common.folder_exists("--out", args.out)
     from cr3bp.time import frames
     epoch = frames.epoch_from_text(args.epoch)
-    return sysm, bodies, step_s, phase, n_phases, max_min, stations, epoch
+    epochs = [epoch]
+    if args.until_epoch is not None:
+        from cr3bp.validate import iso8601
+        last = frames.epoch_from_text(iso8601("--until-epoch", args.until_epoch))
+        if not last > epoch:
+            raise InputError(f"--until-epoch '{args.until_epoch}' must be after --epoch '{args.epoch}'")
+        n = common.whole_number("--epochs", args.epochs, 2, 200)
+        epochs = [epoch + (last - epoch) * k / (n - 1) for k in range(n)]
+    return sysm, bodies, step_s, phase, n_phases, max_min, stations, epochs
 
 
 def run(args):
@@ -94,13 +111,14 @@ def _run(args):
     from cr3bp.operations import eclipses, phasing, placement, visibility
     from cr3bp.orbits.request import solve_request
 
-    sysm, bodies, step_s, phase, n_phases, max_min, stations, epoch = _inputs(args)
+    sysm, bodies, step_s, phase, n_phases, max_min, stations, epochs = _inputs(args)
+    epoch = epochs[0]
     # the ephemeris must cover the epoch (and its end, for a span given as a time) before the
     # orbit is solved: an EphemerisSpanError here names the epoch and the tables' span
     from cr3bp.time import ephemeris
-    ends = [epoch]
+    ends = [epoch, epochs[-1]]
     if export.span_periods(args.span) is None:
-        ends.append(epoch + export.parse_span(args.span, sysm) * sysm.time_s)
+        ends.append(epochs[-1] + export.parse_span(args.span, sysm) * sysm.time_s)
     for body in ("sun", "moon"):
         ephemeris.position(body, frames._epoch(np.array(ends)), "earth")
     common.progress(args, f"solving orbit request '{args.orbit}'...")
@@ -111,9 +129,21 @@ def _run(args):
         from cr3bp.errors import InputError
         raise InputError(f"--span '{args.span}' is longer than 20 years")
     placed = placement.place(sysm, orbit, epoch)
+    epoch_scan = []
+    if len(epochs) > 1:
+        common.progress(args, f"scanning {len(epochs)} start epochs"
+                        + (f", {n_phases} phases at each..." if args.avoid_eclipses else "..."))
+        epoch_scan = phasing.scan_epochs(placed, epochs, span_s, step_s, phase_deg=phase,
+                                         n_phases=n_phases if args.avoid_eclipses else None,
+                                         max_pass_min=max_min, bodies=bodies)
+        epoch = epoch_scan[0].epoch_tdb_s
+        placed = placement.place(sysm, orbit, epoch)
     sk = phasing.sky(placed, span_s, step_s)
     scan = []
-    if args.avoid_eclipses:
+    if epoch_scan:
+        scan = list(epoch_scan[0].phases)
+        best = epoch_scan[0].best
+    elif args.avoid_eclipses:
         common.progress(args, f"scanning {n_phases} phases over one period...")
         scan = phasing.scan(placed, sk, n_phases, max_min, bodies)
         best = scan[0]
@@ -136,7 +166,8 @@ def _run(args):
              "orbit": f"{orbit.family} {orbit.point} {orbit.branch}".strip(),
              "period_days": float(orbit.period * sysm.time_days), "epoch_utc": t0 + "Z", "end_utc": t1 + "Z",
              "span_days": span_s / 86400.0, "step_s": step_s, "bodies": list(bodies),
-             "phase_deg": phase, "phase_chosen_by": "scan" if scan else "given"}
+             "phase_deg": phase, "phase_chosen_by": "scan" if scan else "given",
+             "epoch_chosen_by": f"scan of {len(epochs)} epochs" if epoch_scan else "given"}
     angles = {"sun_earth_spacecraft_deg": {"min": float(sun_angle.min()), "max": float(sun_angle.max())},
               "moon_earth_spacecraft_deg": {"min": float(moon_angle.min()), "max": float(moon_angle.max())},
               "range_to_earth_km": {"min": float(rn.min()), "max": float(rn.max())}}
@@ -153,7 +184,8 @@ def _run(args):
                "windows": [w.to_dict() for w in wins],
                "phase_scan": [{"phase_deg": h.phase_deg, "shadow_total_min": h.total_min(),
                                "longest_shadow_min": h.longest_min(),
-                               "umbra_total_min": h.total_min("umbra")} for h in scan]}
+                               "umbra_total_min": h.total_min("umbra")} for h in scan],
+               "epoch_scan": [c.to_dict() for c in epoch_scan]}
     headers = ["body", "kind", "start_utc", "end_utc", "duration_min", "depth"]
     rows = [[d["body"], d["kind"], d["start_utc"], d["end_utc"], round(d["duration_min"], 2),
              round(d["depth"], 4)] for d in payload["passes"]]
@@ -161,7 +193,8 @@ def _run(args):
     parts = ["librate shadow", "", f"model: {MODEL}", ""]
     parts.append(common.format_table(["item", "value"], [
         ["orbit", f"{model['orbit']} ({args.orbit})"], ["period (CR3BP)", f"{model['period_days']:.4f} d"],
-        ["from", model["epoch_utc"]], ["to", model["end_utc"]], ["search step", f"{step_s:g} s"],
+        ["from", model["epoch_utc"] + (f" (best of {len(epochs)} epochs scanned)" if epoch_scan else "")],
+        ["to", model["end_utc"]], ["search step", f"{step_s:g} s"],
         ["phase at the epoch", f"{phase:g} deg ({'best of ' + str(n_phases) + ' scanned' if scan else 'given'})"],
         ["Sun-Earth-spacecraft angle", f"{sun_angle.min():.1f} .. {sun_angle.max():.1f} deg"],
         ["Moon-Earth-spacecraft angle", f"{moon_angle.min():.1f} .. {moon_angle.max():.1f} deg"],
@@ -182,6 +215,15 @@ def _run(args):
                   sum(1 for p in h.passes if p.kind == "penumbra")] for h in scan[:5]]
         parts.append(common.format_table(["phase [deg]", "shadow total [min]", "longest [min]", "umbra total [min]",
                                           "passes"], srows, title="best phases of the scan"
+                                         + (f" (longest pass at most {max_min:g} min first)" if max_min is not None
+                                            else "")))
+    if epoch_scan:
+        parts.append("")
+        erows = [[d["epoch_utc"], d["phase_deg"], round(d["shadow_total_min"], 1), round(d["longest_shadow_min"], 1),
+                  round(d["umbra_total_min"], 1)] for d in (c.to_dict() for c in epoch_scan)]
+        parts.append(common.format_table(["start epoch (UTC)", "phase [deg]", "shadow total [min]", "longest [min]",
+                                          "umbra total [min]"], erows,
+                                         title="start epochs scanned, best first"
                                          + (f" (longest pass at most {max_min:g} min first)" if max_min is not None
                                             else "")))
     if vis:

@@ -4,4 +4,6 @@
 - :mod:`.placement`    a periodic orbit placed at an epoch (geocentric J2000 positions)
 - :mod:`.visibility`   Earth rotation angle, station elevation, visibility intervals
 - :mod:`.phasing`      eclipse history at a phase, and the scan of phases
+- :mod:`.keeping`      station-keeping Monte Carlo in the ephemeris model
+- :mod:`.dispersion`   insertion dispersion: Monte Carlo and linear covariance of the corrections
 """

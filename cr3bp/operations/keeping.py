@@ -426,16 +426,22 @@ def _merge(parts, n):
 
 
 def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, min_burn_mps: float = 0.0,
-               workers: int | None = None, progress=None) -> dict:
+               workers: int | None = None, scheduler=None, progress=None) -> dict:
     """:func:`simulate` over ``trials`` trials, in this process (``workers`` None or 1; the
     compiled propagation runs the trials on parallel threads) or over a process pool of
     ``workers`` processes, with the pool helpers of :mod:`cr3bp.transfers.graph` (workers die with
     the parent, Ctrl-C goes to the parent). The result does not depend on ``workers``.
     Measured (200 trials, a year of the 9:2 NRHO, 2 shared cores): 17 s in this process, 27 s
-    on a pool of 2 (the workers' start-up), so this process is the default."""
+    on a pool of 2 (the workers' start-up), so this process is the default.
+
+    ``scheduler``: a ``distributed.Client``, the address of a dask.distributed scheduler, or
+    ``"local"`` (a local cluster of ``workers`` processes, default 2, started and stopped
+    here); the trials go there in chunks (:func:`on_dask`) instead."""
     n = int(trials)
     if n < 1:
         raise InputError(f"trials {n} must be at least 1")
+    if scheduler is not None:
+        return on_dask(ref, errors, n, seed, min_burn_mps, scheduler, workers, progress)
     workers = 1 if workers is None else int(workers)
     if workers < 1:
         raise InputError(f"workers {workers} must be at least 1")
@@ -469,6 +475,71 @@ def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, mi
         raise
     ex.shutdown(wait=True)
     return _merge(parts, n)
+
+
+#: Seconds to reach a dask scheduler before giving up.
+CONNECT_TIMEOUT_S = 10
+
+
+def dask_client(scheduler, workers: int | None = None):
+    """``(client, cluster)`` for ``scheduler`` (see :func:`run_trials`); ``cluster`` is the local
+    cluster started here (None otherwise). The caller closes both.
+
+    Raises
+    ------
+    InputError   dask.distributed missing, or the scheduler cannot be reached
+    """
+    try:
+        from distributed import Client, LocalCluster
+    except ImportError:
+        raise InputError("--scheduler needs dask.distributed: pip install 'librate[cluster]'") from None
+    if isinstance(scheduler, Client):
+        return scheduler, None
+    if scheduler == "local":
+        n = 2 if workers is None else int(workers)
+        if n < 1:
+            raise InputError(f"workers {n} must be at least 1")
+        # processes with one thread each, as the pool's workers (each chunk sets numba to one thread)
+        import logging
+        # its workers' shutdown notices stay out of the terminal (errors still show)
+        cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True, dashboard_address=None,
+                               silence_logs=logging.ERROR)
+        return Client(cluster), cluster
+    try:
+        return Client(str(scheduler), timeout=f"{CONNECT_TIMEOUT_S}s"), None
+    except (OSError, TimeoutError) as e:
+        raise InputError(f"cannot reach the dask scheduler at '{scheduler}' ({type(e).__name__})") from None
+
+
+def on_dask(ref: Reference, errors: Errors, n: int, seed: int, min_burn_mps: float, scheduler,
+            workers: int | None = None, progress=None) -> dict:
+    """:func:`simulate` over ``n`` trials in chunks on a dask.distributed cluster (the reference
+    sent once to every worker); the same result as in this process (per-trial generators)."""
+    from distributed import as_completed
+    client, cluster = dask_client(scheduler, workers)
+    try:
+        k = max(1, len(client.scheduler_info().get("workers", {})) or 1)
+        size = max(1, math.ceil(n / (CHUNKS_PER_WORKER * k)))
+        chunks = [list(range(a, min(a + size, n))) for a in range(0, n, size)]
+        ref_f = client.scatter(ref, broadcast=True)
+        futs = [client.submit(_dask_chunk, ref_f, errors, c, seed, min_burn_mps, pure=False) for c in chunks]
+        parts, done = [], 0
+        for f in as_completed(futs):
+            part = f.result()
+            parts.append(part)
+            done += part["trials"].size
+            if progress:
+                progress(done, n)
+    finally:
+        if client is not scheduler:
+            client.close()
+        if cluster is not None:
+            cluster.close()
+    return _merge(parts, n)
+
+
+def _dask_chunk(ref, errors, trials, seed, min_burn_mps):
+    return _chunk({"reference": ref, "errors": errors, "trials": trials, "seed": seed, "min_burn_mps": min_burn_mps})
 
 
 # ---- the budget ----------------------------------------------------------------------------
@@ -557,7 +628,7 @@ class Budget:
 def budget(orbit, epoch, span_tu: float, errors: Errors, trials: int, *, seed: int = 0,
            min_burn_mps: float = 0.0, bodies=("sun", "earth", "moon"), srp=None,
            target_revs: int = TARGET_REVS, interval_tu: float | None = None, hold_phase: bool = False,
-           workers: int | None = None, progress=None) -> Budget:
+           workers: int | None = None, scheduler=None, progress=None) -> Budget:
     """Station-keeping budget of ``orbit`` from ``epoch`` over ``span_tu`` (module docstring).
 
     Examples
@@ -576,6 +647,6 @@ def budget(orbit, epoch, span_tu: float, errors: Errors, trials: int, *, seed: i
     ref = reference(orbit, epoch, span_tu, bodies=bodies, srp=srp, target_revs=target_revs,
                     interval_tu=interval_tu, hold_phase=hold_phase, progress=(
                         (lambda m: progress(m)) if progress else None))
-    res = run_trials(ref, errors, trials, seed, min_burn_mps=min_burn_mps, workers=workers,
+    res = run_trials(ref, errors, trials, seed, min_burn_mps=min_burn_mps, workers=workers, scheduler=scheduler,
                      progress=(lambda d, n: progress(f"trials: {d} of {n} done")) if progress else None)
     return Budget(ref, errors, int(seed), float(min_burn_mps), res)

@@ -102,11 +102,62 @@ def scan(placed, sk: Sky, n_phases: int = 36, max_pass_min: float | None = None,
     if max_pass_min is not None and not (math.isfinite(max_pass_min) and max_pass_min >= 0):
         raise InputError(f"maximum eclipse duration {max_pass_min!r} min must be zero or positive")
     hs = [history(placed, sk, 360.0 * k / n_phases, bodies) for k in range(n_phases)]
+    return sorted(hs, key=lambda h: rank(h, max_pass_min))
 
-    def key(h):
-        over = max_pass_min is not None and h.longest_min() > max_pass_min
-        return (over, round(h.total_min(), 6), round(h.longest_min(), 6), h.phase_deg)
-    return sorted(hs, key=key)
+
+def rank(h: History, max_pass_min: float | None = None) -> tuple:
+    """Sort key of a history, best first: meets ``max_pass_min`` (when given), then the least
+    total shadow time, then the shortest longest pass, then the smallest phase."""
+    over = max_pass_min is not None and h.longest_min() > max_pass_min
+    return (over, round(h.total_min(), 6), round(h.longest_min(), 6), h.phase_deg)
+
+
+#: Largest number of epochs of an epoch scan.
+MAX_EPOCHS = 200
+
+
+@dataclass(frozen=True)
+class EpochChoice:
+    """One epoch of :func:`scan_epochs`: the epoch (TDB s), the best history there (at the given
+    phase, or the best of the phase scan), and the phase scan itself (best first; empty without)."""
+
+    epoch_tdb_s: float
+    best: History
+    phases: tuple
+
+    def to_dict(self) -> dict:
+        from ..time.frames import epoch_to_text
+        return {"epoch_utc": str(epoch_to_text(np.array([self.epoch_tdb_s]), "UTC", 3)[0]) + "Z",
+                "phase_deg": self.best.phase_deg, "shadow_total_min": self.best.total_min(),
+                "longest_shadow_min": self.best.longest_min(), "umbra_total_min": self.best.total_min("umbra")}
+
+
+def scan_epochs(placed, epochs_tdb_s, span_s: float, step_s: float = STEP_S, *, phase_deg: float = 0.0,
+                n_phases: int | None = None, max_pass_min: float | None = None,
+                bodies=eclipses.BODIES) -> list:
+    """The orbit placed at each of ``epochs_tdb_s`` (the same one-period sample, the frame of each
+    epoch), its eclipse history over ``span_s`` at ``phase_deg`` or, with ``n_phases``, the best
+    of a phase scan there; the epochs best first (ranking of :func:`rank`).
+
+    Raises
+    ------
+    InputError   no epochs, too many, or bad span/step/phases
+    """
+    from dataclasses import replace
+    from ..time import frames
+    t = np.atleast_1d(np.asarray(epochs_tdb_s, dtype=float))
+    if not 1 <= t.size <= MAX_EPOCHS or not np.all(np.isfinite(t)):
+        raise InputError(f"{t.size} epochs; an epoch scan takes 1..{MAX_EPOCHS} finite epochs")
+    out = []
+    for ep in t:
+        pl = replace(placed, spec=frames.with_(placed.spec, epoch_tdb_s=float(ep)))
+        sk = sky(pl, span_s, step_s)
+        if n_phases is None:
+            hs = [history(pl, sk, phase_deg, bodies)]
+        else:
+            hs = scan(pl, sk, n_phases, max_pass_min, bodies)
+        out.append(EpochChoice(float(ep), hs[0], tuple(hs) if n_phases is not None else ()))
+    return sorted(out, key=lambda c: (rank(c.best, max_pass_min), c.epoch_tdb_s))
 
 
 def earth_angles(placed, sk: Sky, phase_deg: float) -> dict:

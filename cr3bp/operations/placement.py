@@ -5,9 +5,11 @@ The orbit is sampled once over one period with the export sampler
 rotating time by cubic Hermite interpolation of position with velocity. Starting it at a
 ``phase`` (degrees of the period) means the state at rotating time 0 (the epoch) is the
 orbit's state ``phase / 360`` of a period after its own initial state. Rotating states go
-to the primary-centred J2000 mean-equator axes by the ephemeris-anchored frame of
+to Earth-centred J2000 mean-equator axes by the ephemeris-anchored frame of
 :mod:`cr3bp.time.frames` (``R = l C (rho - rho_c)``), the same mapping as ``librate export
---anchor ephemeris --center primary --frame j2000-equator``.
+--anchor ephemeris --center primary --frame j2000-equator`` in Earth-Moon; in Sun-Earth the
+frame is centred on the Earth-Moon barycentre and the Earth's place about it (DE421) is
+subtracted, as ``--center earth`` does there.
 """
 
 from __future__ import annotations
@@ -69,18 +71,26 @@ class PlacedOrbit:
         return np.concatenate([pos, self._spline.derivative()(tau)], axis=-1)
 
     def frame_basis(self, tdb_s):
-        """``(C, l)`` of the anchored frame at epochs (reused across phases)."""
-        from ..time.frames import basis
+        """``(C, l, offset)`` of the anchored frame at epochs (reused across phases); ``offset``
+        (N, 3) km is the frame centre's place relative to the secondary barycentre (the Earth
+        about the Earth-Moon barycentre in Sun-Earth, :func:`cr3bp.time.frames.body_offset`),
+        None when the centre lies on the CR3BP x axis."""
+        from ..time.frames import basis, body_offset
         c, _w, l, _ld = basis(self.spec, tdb_s)
-        return c, l
+        off = None
+        if self.spec.center in ("earth", "moon") and self.spec.center not in (
+                n.lower() for n in self.system.names):
+            off = body_offset(self.spec, tdb_s)[:, :3]
+        return c, l, off
 
     def geocentric(self, tdb_s, phase_deg: float = 0.0, basis=None) -> np.ndarray:
         """Positions (N, 3) km about the primary, J2000 mean-equator axes."""
         t = np.atleast_1d(np.asarray(tdb_s, dtype=float))
-        c, l = basis if basis is not None else self.frame_basis(t)
+        c, l, off = basis if basis is not None else self.frame_basis(t)
         rho = self.rotating((t - self.epoch_tdb_s) / self.system.time_s, phase_deg)
         rho[:, 0] -= self.spec.center_x
-        return np.einsum("nij,nj->ni", c, l[:, None] * rho)
+        r = np.einsum("nij,nj->ni", c, l[:, None] * rho)
+        return r if off is None else r - off
 
 
 def place(system, orbit, epoch, samples_per_period: int = SAMPLES_PER_PERIOD) -> PlacedOrbit:
@@ -91,7 +101,9 @@ def place(system, orbit, epoch, samples_per_period: int = SAMPLES_PER_PERIOD) ->
     period = float(orbit.period)
     if not (math.isfinite(period) and period > 0):
         raise InputError(f"orbit period {period!r} TU must be positive")
-    spec = frames.frame(system, epoch, anchor="ephemeris", axes="j2000-equator", center="primary")
+    # Earth-centred: the primary in Earth-Moon, the Earth inside the secondary barycentre in Sun-Earth
+    center = "earth" if "earth" in frames.BODY_CENTERS.get(system.secondary.name.lower(), ()) else "primary"
+    spec = frames.frame(system, epoch, anchor="ephemeris", axes="j2000-equator", center=center)
     grid = np.linspace(0.0, period, int(samples_per_period) + 1)
     seg = export.sample(system, orbit, grid)
     states = np.array(seg.states)

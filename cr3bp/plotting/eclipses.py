@@ -12,6 +12,11 @@ COLOURS = {"umbra": "0.1", "penumbra": "tab:orange"}
 
 def timeline(history, epoch_tdb_s: float, path, title: str = "", text: str = ""):
     """Draw the passes of ``history`` (days from the epoch, one row per body and kind); save to ``path``."""
+    return save(timeline_figure(history, epoch_tdb_s, title), path, text)
+
+
+def timeline_figure(history, epoch_tdb_s: float, title: str = ""):
+    """The figure of :func:`timeline`, not saved (the caller captions and saves it)."""
     rows = list(ROWS)
     fig, ax = new_figure(size=(9.0, 4.6))
     labels = []
@@ -31,4 +36,4 @@ def timeline(history, epoch_tdb_s: float, path, title: str = "", text: str = "")
     ax.grid(axis="x", color="0.85")
     ax.set_title(title, fontsize=9)
     fig.tight_layout()
-    return save(fig, path, text)
+    return fig

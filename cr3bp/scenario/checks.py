@@ -152,6 +152,10 @@ def plan_problems(system, checks: dict, epoch) -> list[tuple[str, str]]:
     for key in checks:
         if key in RENAMED_CHECKS:
             out.append((key, RENAMED_CHECKS[key]))
+        elif key in ECLIPSE_CHECKS:
+            why = eclipse_check_problem(system, checks[key])
+            if why:
+                out.append((key, why))
         elif key in ANGLE_CHECKS:
             why = angle_check_problem(system, ANGLE_CHECKS[key])
             try:
@@ -191,13 +195,15 @@ def _result(name, description, required, actual, unit, at_least: bool) -> CheckR
                        bool(margin >= 0.0))
 
 
-def run_checks(orbit, checks: dict, states=None, epoch=None) -> list[CheckResult]:
+def run_checks(orbit, checks: dict, states=None, epoch=None, phase_deg: float = 0.0) -> list[CheckResult]:
     """Evaluate the scenario's ``checks`` table on ``orbit``.
 
     Keys: ``min_altitude_smaller``, ``min_altitude_larger`` (lengths), ``max_stability_index``,
     ``min_angle_at_earth_from_sun_deg``, ``min_angle_at_earth_from_moon_deg`` (need ``epoch``,
     the date of rotating time 0: ISO 8601 text or TDB seconds since J2000),
-    ``line_of_sight_to_larger`` (bool), ``max_period``. ``states`` are samples evenly in time
+    ``line_of_sight_to_larger`` (bool), ``max_period``, ``max_eclipse_duration`` and
+    ``max_eclipse_per_year`` (times; the orbit started at ``phase_deg`` at ``epoch``, a year of
+    Earth and Moon shadows, :func:`eclipse_history`). ``states`` are samples evenly in time
     over one period from t = 0 (as :func:`sample` gives).
     """
     system = orbit.system
@@ -232,6 +238,83 @@ def run_checks(orbit, checks: dict, states=None, epoch=None) -> list[CheckResult
         elif key == "max_period":
             req = units.parse(value, "time").si() / SECONDS_PER_DAY
             out.append(_result(key, "period", req, float(orbit.period_days), "d", False))
+        elif key in ECLIPSE_CHECKS:
+            out.append(eclipse_check(orbit, key, value, epoch, phase_deg))
         else:
             raise InputError(f"unknown check '{key}'")
     return out
+
+
+# ---- eclipse checks (a year of shadows of the orbit placed at the epoch and phase) ----------
+
+#: Eclipse check keys: what each measures (minutes).
+ECLIPSE_CHECKS = {"max_eclipse_duration": "longest shadow pass (Earth or Moon, penumbra included)",
+                  "max_eclipse_per_year": "shadow time per year (Earth and Moon, penumbra included)"}
+#: Systems whose orbits are placed about the Earth for the shadows (cr3bp.operations.placement).
+ECLIPSE_SYSTEMS = ("earth-moon", "sun-earth")
+#: The span and search step of the eclipse checks.
+ECLIPSE_SPAN_DAYS = 365.25
+ECLIPSE_STEP_S = 300.0
+_HISTORIES: dict = {}
+
+
+def eclipse_check_problem(system, value) -> str:
+    """Why an eclipse check cannot be made ("" when it can): the system, or the value."""
+    if system.name not in ECLIPSE_SYSTEMS:
+        return (f"eclipse checks are computed for {' and '.join(ECLIPSE_SYSTEMS)} only (the Earth and the "
+                f"Moon as occulting bodies), not '{system.name}'")
+    try:
+        q = units.parse(value, "time")
+    except InputError as e:
+        return str(e)
+    if not q.value >= 0:
+        return f"'{value}' is not allowed; a time that is zero or more is needed, e.g. '90min'"
+    return ""
+
+
+def eclipse_history(orbit, epoch, phase_deg: float = 0.0):
+    """Shadow passes (:class:`cr3bp.operations.phasing.History`) of ``orbit`` placed at ``epoch``
+    (ISO text or TDB s) and started at ``phase_deg``, over :data:`ECLIPSE_SPAN_DAYS`; computed
+    once per orbit, epoch and phase in a run (the checks and the report's timeline share it)."""
+    from ..operations import phasing, placement
+    key = (orbit.system.name, tuple(np.asarray(orbit.state, dtype=float)), float(orbit.period), str(epoch),
+           float(phase_deg) % 360.0)
+    if key not in _HISTORIES:
+        pl = placement.place(orbit.system, orbit, epoch)
+        sk = phasing.sky(pl, ECLIPSE_SPAN_DAYS * SECONDS_PER_DAY, ECLIPSE_STEP_S)
+        if len(_HISTORIES) > 32:
+            _HISTORIES.clear()
+        _HISTORIES[key] = (pl.epoch_tdb_s, phasing.history(pl, sk, float(phase_deg) % 360.0))
+    return _HISTORIES[key]
+
+
+def eclipse_check(orbit, key: str, value, epoch, phase_deg: float = 0.0) -> CheckResult:
+    """One eclipse check: the longest pass or the total per year (minutes) against ``value``."""
+    if epoch is None:
+        raise InputError(f"check '{key}' needs the epoch of rotating time 0")
+    why = eclipse_check_problem(orbit.system, value)
+    if why:
+        raise InputError(f"check '{key}': {why}")
+    req = units.parse(value, "time").si() / 60.0
+    _, h = eclipse_history(orbit, epoch, phase_deg)
+    act = h.longest_min() if key == "max_eclipse_duration" else h.total_min() * (365.25 * 86400.0 / h.span_s)
+    return _result(key, f"{ECLIPSE_CHECKS[key]}, over a year from the epoch at phase {float(phase_deg) % 360:g} deg",
+                   req, act, "min", False)
+
+
+def eclipse_figures(plan, orbits, out, formats) -> dict:
+    """The eclipse timeline of every orbit with an eclipse check (report figures ``eclipses-NAME``)."""
+    from ..plotting.eclipses import timeline_figure
+    from .outputs import save_figures
+    figs = {}
+    for name, entry in plan.data["orbits"].items():
+        if not any(k in ECLIPSE_CHECKS for k in (entry.get("checks") or {})):
+            continue
+        phase = float(entry.get("phase_deg", 0.0))
+        t0, h = eclipse_history(orbits[name], plan.epoch, phase)
+        fig = timeline_figure(h, t0, title=f"'{name}' from the epoch, phase {phase % 360:g} deg")
+        figs[f"eclipses-{name}"] = save_figures(
+            fig, out, f"eclipses-{name}", formats,
+            f"{plan.name}: Earth and Moon shadow passes of '{name}' over a year from the epoch (CR3BP orbit placed "
+            "at the epoch; conical shadows from DE421 positions, Montenbruck & Gill 2000, sec. 3.4.2).")
+    return figs

@@ -53,7 +53,7 @@ def _orbit_section(name, orbit, checks, figures) -> str:
             [R.check_row({"name": f"{c.description} [{c.unit}]" if c.unit else c.description,
                           "required": c.required, "actual": c.actual, "margin": c.margin,
                           "passed": c.passed}) for c in checks])
-    for key in (f"orbit-{name}", f"hill-{name}", f"family-{name}"):
+    for key in (f"orbit-{name}", f"hill-{name}", f"family-{name}", f"eclipses-{name}"):
         if key in figures:
             html += R.figure(figures[key]["path"], figures[key]["caption"])
     return html

@@ -639,7 +639,8 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
     for name, entry in plan.data["orbits"].items():
         if entry.get("checks"):
             say(progress, f"checks on '{name}'")
-            checks[name] = run_checks(orbits[name], entry["checks"], samples[name], epoch=plan.epoch)
+            checks[name] = run_checks(orbits[name], entry["checks"], samples[name], epoch=plan.epoch,
+                                      phase_deg=float(entry.get("phase_deg", 0.0)))
     rows = [[name, c.name, c.required, c.actual, c.margin, c.unit, "pass" if c.passed else "FAIL"]
             for name, cs in checks.items() for c in cs]
     write_text(out.path("checks.csv"), csv_text(["orbit", "check", "required", "actual", "margin", "unit", "result"],
@@ -674,6 +675,8 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
 
     # ---- figures ----------------------------------------------------------------------
     figures = _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progress)
+    from .checks import eclipse_figures
+    figures.update(eclipse_figures(plan, orbits, out, formats))
     if plan.data.get("transfers"):
         figures.update(transfer_figures)
 

@@ -44,6 +44,8 @@ ORBIT_KEYS = {
     "resonance": (S, False, "synodic resonance p:q, e.g. '9:2'"),
     "resonant": (S, False, "p:q of a resonant family"),
     "occurrence": (I, False, "which place along the family meeting the target, from its start (default 1)"),
+    "phase_deg": (F, False, "phase of the orbit at the epoch, degrees of its period from its initial state "
+                            "(default 0; the eclipse checks read it)"),
     "checks": ("table", False, "constraints to check on the orbit"),
 }
 CHECK_KEYS = {
@@ -56,6 +58,8 @@ CHECK_KEYS = {
         "least Moon-Earth-spacecraft angle (vertex at the Earth), degrees"),
     "line_of_sight_to_larger": (B, False, "continuous line of sight to the larger primary past the smaller"),
     "max_period": (Q, False, "longest allowed period"),
+    "max_eclipse_duration": (Q, False, "longest allowed shadow pass over a year from the epoch, e.g. '90min'"),
+    "max_eclipse_per_year": (Q, False, "most shadow time per year from the epoch, e.g. '10h'"),
 }
 #: Withdrawn check keys and what replaces them (the same text as cr3bp.scenario.checks.RENAMED_CHECKS).
 RENAMED_CHECKS = {
