@@ -4,7 +4,7 @@ periodic orbit (direct, or past the Moon), designed by optimisation in the CR3BP
 
 from .. import common
 
-PATH_CHOICES = ("direct", "lunar-flyby")
+PATH_CHOICES = ("direct",)
 
 
 def add_arguments(p):
@@ -12,11 +12,8 @@ def add_arguments(p):
     g.add_argument("--path", choices=PATH_CHOICES, default=None,
                    help="design a departure from 'parking earth ALTITUDE' (--from) to an Earth-Moon periodic "
                         "orbit (--to) by optimisation in the CR3BP instead of following manifolds: 'direct' "
-                        "(departure burn, coast, insertion burn) or 'lunar-flyby' (departure, a close lunar "
-                        "flyby, powered when that lowers the total, insertion); least total delta-v over the "
-                        "departure phase, time of flight and insertion point")
-    g.add_argument("--min-flyby-altitude", default=None, metavar="LENGTH",
-                   help="least altitude of the lunar flyby with its unit (default 100km; --path lunar-flyby)")
+                        "(departure burn, coast, insertion burn); least total delta-v over the departure "
+                        "phase, time of flight and insertion point (a lunar-flyby path is not available yet)")
     g.add_argument("--max-tof", default=None, metavar="TIME",
                    help="longest time of flight, departure to insertion, with its unit (default 150d; "
                         "at most 400d)")
@@ -55,13 +52,6 @@ def check(args, system, parking):
                          f"{args.origin!r} in {system.name}")
     if not 100.0 <= alt <= 50_000.0:
         raise InputError(f"parking altitude {alt:g} km in {args.origin!r}; allowed with --path: 100km to 50000km")
-    fb = 100.0
-    if args.min_flyby_altitude is not None:
-        if args.path != "lunar-flyby":
-            raise InputError("--min-flyby-altitude applies to --path lunar-flyby only")
-        fb = system.km(quantity("--min-flyby-altitude", args.min_flyby_altitude, "length", system, sign="positive"))
-        if not 0.0 < fb <= 20_000.0:
-            raise InputError(f"--min-flyby-altitude {args.min_flyby_altitude!r}; allowed: above 0km to 20000km")
     tof = 150.0
     if args.max_tof is not None:
         tof = system.days(quantity("--max-tof", args.max_tof, "time", system, sign="positive"))
@@ -72,7 +62,7 @@ def check(args, system, parking):
                    ("--arrival-within", args.arrival_within), ("--step-off", args.step_off)):
         if v:
             raise InputError(f"{opt} follows manifolds; it does not apply with --path {args.path}")
-    return alt, float(fb), float(tof), inc
+    return alt, float(tof), inc
 
 
 HEADERS = ["maneuver", "t_days", "dv_mps", "x_km", "y_km", "z_km"]
@@ -81,12 +71,11 @@ HEADERS = ["maneuver", "t_days", "dv_mps", "x_km", "y_km", "z_km"]
 def run(args, system, parking):
     from cr3bp.transfers.departure import design_departure
     from . import _tube_options as to
-    alt, fb, tof, inc = check(args, system, parking)
+    alt, tof, inc = check(args, system, parking)
     orbit = to.orbit_from_request(system, args.target, args)
     common.progress(args, f"librate connect: designing a {args.path} departure from {args.origin} "
                     f"(two-body first guesses, then optimisation in the CR3BP)...")
-    dep = design_departure(orbit, alt, path=args.path, inclination_deg=inc, min_flyby_altitude_km=fb,
-                           max_tof_days=tof)
+    dep = design_departure(orbit, alt, path=args.path, inclination_deg=inc, max_tof_days=tof)
     d = dep.to_dict()
     rows = [[m["name"], m["t_days"], m["dv_mps"], *m["position_km"]] for m in d["maneuvers"]]
     head = [f"{args.origin} -> {args.target}: {args.path} departure ({'optimised' if dep.optimised else 'first guess: the optimiser stopped short of its tolerance'})",
