@@ -841,3 +841,35 @@ def closure_km(dep: Departure, propagator=None) -> float:
             end = propagator(s, st, dt)
         worst = max(worst, float(s.km(np.linalg.norm(np.asarray(end)[:3] - nxt["position"]))))
     return worst
+
+
+def as_plain_leg(dep: Departure, patches: int = 4) -> dict:
+    """``dep`` as the plain leg dict of the transfer graph (the keys of
+    :func:`cr3bp.transfers.stitch.leg_from_connection`): each coast cut into ``patches``
+    shooting segments, the burns as maneuvers (``where``: departure, patch, arrival), the
+    departure state on the parking orbit before the burn and the orbit's state after
+    insertion."""
+    s = dep.system
+    times, states, end = [], [], None
+    for t0, st, dt in dep.segments():
+        te = np.linspace(0.0, dt, patches + 1)
+        arc = propagate(s, st, dt, rtol=RTOL, atol=ATOL, t_eval=te)
+        times += list(float(t0) + te[:-1])
+        states += [x.tolist() for x in arc.states[:-1]]
+        end = np.array(arc.states[-1])
+    mans = []
+    for k, m in enumerate(dep.maneuvers):
+        where = "departure" if k == 0 else ("arrival" if k == len(dep.maneuvers) - 1 else "patch")
+        mans.append({"t": float(m["t"]), "position": [float(v) for v in m["position"]],
+                     "dv_vector": [float(v) for v in m["dv_vector"]],
+                     "dv_mps": float(s.mps(np.linalg.norm(m["dv_vector"]))), "where": where,
+                     "name": m["name"]})
+    finish = end.copy()
+    finish[3:] += dep.maneuvers[-1]["dv_vector"]
+    return {"format": 1, "method": "parking", "how": f"{dep.path} departure (optimised in the CR3BP)",
+            "kind": "departure", "dv_mps": dep.dv_mps, "tof_days": dep.tof_days, "tof_tu": float(dep.tof),
+            "maneuvers": mans, "departure_state": [float(v) for v in dep.maneuvers[0]["state_before"]],
+            "arrival_state": finish.tolist(), "patch_times": times, "patch_states": states,
+            "final_state": end.tolist(), "min_altitude_km": float(s.km(dep.perigee["radius"]) - s.primary.radius_km),
+            "tof_arrival_days": dep.tof_days, "arrival_distance_km": None,
+            "details": _plain({"departure": {k: v for k, v in dep.to_dict().items() if k != "details"}})}
