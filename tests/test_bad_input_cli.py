@@ -456,6 +456,26 @@ def value_cases():
         add(f"connect-{opt}-{v}", BASE["connect"][:-1] + [f"--{opt}={v}"])
     add("connect-map-without-parking", BASE["connect"] + ["--map={out}/m.png"])
     add("connect-section-long", BASE["connect"] + ["--section=x=" + "1-" * 20000 + "mu"])
+    # connect --path (departures from a parking orbit): refused before any orbit is solved
+    dep = C + ["--from=parking earth 200km", "--to=halo L2 south resonance=9:2"]
+    add("connect-path-bogus", dep + ["--path=slow"])
+    add("connect-path-from-an-orbit", C + ["--from=lyapunov L1 jacobi=3.17", "--to=halo L2 south resonance=9:2",
+                                           "--path=direct"])
+    add("connect-path-from-the-moon", C + ["--from=parking moon 100km", "--to=halo L2 south resonance=9:2",
+                                           "--path=direct"])
+    add("connect-path-sun-earth", ["connect", "--system=sun-earth", "--from=parking earth 200km",
+                                   "--to=halo L1 north az=200000km", "--path=direct"])
+    for v in ("50km", "60000km"):
+        add(f"connect-path-altitude-{v}", C + [f"--from=parking earth {v}", "--to=halo L2 south resonance=9:2",
+                                                "--path=direct"])
+    add("connect-path-lunar-flyby-unfinished", dep + ["--path=lunar-flyby"])
+    for v in ("0d", "-3d", "0.5d", "500d", "5", "5km", "nand"):
+        add(f"connect-path-max-tof-{v}", dep + ["--path=direct", f"--max-tof={v}"])
+    for v in ("28.5", "-1deg", "181deg", "xdeg", "nandeg", "28.5km"):
+        add(f"connect-path-inclination-{v}", dep + ["--path=direct", f"--inclination={v}"])
+    for extra in ("--section=y=0", "--map={out}/m.png", "--arrival-within=5000km", "--step-off=50km"):
+        add(f"connect-path-with-{extra.split('=')[0][2:]}", dep + ["--path=direct", extra])
+    add("connect-path-plot-suffix", dep + ["--path=direct", "--plot={out}/d.jpg"])
     # graph and route
     for name in ("binary", "deep", "folder", "missing"):
         add(f"graph-nodes-{name}", ["graph", "build", EM, f"--nodes={{in}}/{name}.toml", "--workers=1", "--no-catalog"])

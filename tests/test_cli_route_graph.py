@@ -121,14 +121,16 @@ def test_bad_route_options_are_exit_2(capsys, nodes_file, args, message):
     assert rc == 2 and message in err and err.count("\n") == 1, err
 
 
-def test_no_chain_names_the_nodes_and_why_their_legs_were_not_made(capsys, tmp_path):
+def test_leo_to_dock_in_one_leg_is_refused_with_the_cost_of_the_limit(capsys, tmp_path):
     from pathlib import Path
     example = Path(__file__).resolve().parent.parent / "examples" / "cislunar_nodes.toml"
     rc, out, err = run(capsys, "route", "--system", "earth-moon", "--nodes", example, "--no-catalog",
                        "--from", "parking earth 200km", "--to", "dock", "--max-legs", "1", "-q")
     assert rc == 3 and out == ""
-    assert "no chain of legs joins 'leo' to 'dock'" in err and "parking node 'leo' joins periodic orbits only" in err
-    assert "relay" not in err and err.count("\n") == 1
+    # leo -> relay is a direct departure (cr3bp.transfers.departure), so a chain of two legs
+    # joins leo to dock; one leg is too few, and the refusal says what the limit costs
+    assert "no route meets the constraints; max_legs binds" in err and "without it the best route costs" in err
+    assert err.count("\n") == 1
 
 
 def test_graph_build_on_a_dask_scheduler(capsys, nodes_file):

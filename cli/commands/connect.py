@@ -3,12 +3,14 @@
 import math
 
 from .. import common
+from . import _departure
 from . import _tube_options as to
 
 NAME = "connect"
 KERNELS = (("cr3bp.integrate.dop853", "integrate"), ("cr3bp.integrate.dop853", "integrate_batch"))
 ORDER = 70
-HELP = "connect two orbits (or a parking orbit and an orbit) through their manifolds: delta-v, time of flight"
+HELP = ("connect two orbits (or a parking orbit and an orbit) through their manifolds, or design a departure "
+        "from an Earth parking orbit (--path): delta-v, time of flight")
 EXAMPLE = ("librate connect --system earth-moon --from 'lyapunov L1 jacobi=3.15' "
            "--to 'lyapunov L2 jacobi=3.15' --section x=1-mu")
 
@@ -41,6 +43,7 @@ def add_arguments(p):
     p.add_argument("--plot", metavar="FILE", help="draw the best leg over the tubes (PNG/PDF/SVG)")
     p.add_argument("--map", metavar="FILE", help="parking-orbit legs: draw the periapsis map (altitude against "
                    "time of flight, the target altitude marked)")
+    _departure.add_arguments(p)
     common.add_output_options(p)
 
 
@@ -103,6 +106,8 @@ def run(args):
     t_max = quantity("--time", args.time, "time", system, sign="positive", default_unit="TU") \
         if args.time is not None else 2 * math.pi
     pa, pb = parse_parking(args.origin, system), parse_parking(args.target, system)
+    if args.path is not None:
+        return _departure.run(args, system, pa)
     within_km = None
     if args.arrival_within is not None:
         within_km = units.length(args.arrival_within, system)

@@ -296,8 +296,16 @@ def _parking_leg(system, task) -> dict:
     st = task["settings"]
     arrive = st["arrive"]                     # parking -> orbit
     orbit = _orbit_from_plain(system, task["to" if arrive else "from"]["orbit_data"])
-    found = _periapsis_legs(orbit, st["body"], st["altitude_km"], "stable" if arrive else "unstable",
-                            st["tube_points"])
+    try:
+        found = _periapsis_legs(orbit, st["body"], st["altitude_km"], "stable" if arrive else "unstable",
+                                st["tube_points"])
+    except LibrateError:
+        # no manifold reaches the parking orbit (Earth-Moon orbits from low Earth orbit): a
+        # direct departure optimised in the CR3BP (cr3bp.transfers.departure)
+        if not (arrive and system.name == "earth-moon" and str(st["body"]).lower() == "earth"):
+            raise
+        from .departure import as_plain_leg, design_departure
+        return as_plain_leg(design_departure(orbit, st["altitude_km"], path="direct"), st["patches"])
     best = min(found, key=lambda lg: (lg.dv_mps, lg.tof))
     return _with_arrival(leg_from_connection(system, best, st["patches"]), best)
 

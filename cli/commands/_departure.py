@@ -1,0 +1,105 @@
+"""librate connect --path: departures from a parking orbit about the Earth to an Earth–Moon
+periodic orbit (direct, or past the Moon), designed by optimisation in the CR3BP
+(:mod:`cr3bp.transfers.departure`)."""
+
+from .. import common
+
+PATH_CHOICES = ("direct",)
+
+
+def add_arguments(p):
+    g = p.add_argument_group("departures from a parking orbit (--path)")
+    g.add_argument("--path", choices=PATH_CHOICES, default=None,
+                   help="design a departure from 'parking earth ALTITUDE' (--from) to an Earth-Moon periodic "
+                        "orbit (--to) by optimisation in the CR3BP instead of following manifolds: 'direct' "
+                        "(departure burn, coast, insertion burn); least total delta-v over the departure "
+                        "phase, time of flight and insertion point (a lunar-flyby path is not available yet)")
+    g.add_argument("--max-tof", default=None, metavar="TIME",
+                   help="longest time of flight, departure to insertion, with its unit (default 150d; "
+                        "at most 400d)")
+    g.add_argument("--inclination", default=None, metavar="ANGLE",
+                   help="inclination of the parking orbit to the Moon's orbit plane (the model's x-y plane), "
+                        "e.g. 28.5deg (default: free). The CR3BP has no Earth equator: the equator is "
+                        "inclined 18.3-28.6 deg to the Moon's orbit plane, depending on the date")
+
+
+def _angle_deg(text):
+    from cr3bp.errors import InputError
+    t = text.strip().lower()
+    for unit, f in (("deg", 1.0), ("°", 1.0), ("rad", 57.29577951308232)):
+        if t.endswith(unit):
+            try:
+                v = float(t[: -len(unit)]) * f
+            except ValueError:
+                break
+            if 0.0 <= v <= 180.0:
+                return v
+            break
+    raise InputError(f"--inclination {text!r}: give an angle with its unit from 0deg to 180deg (e.g. 28.5deg)")
+
+
+def check(args, system, parking):
+    """Everything --path refuses, before any work: (primary, altitude_km) of the parking orbit
+    and the option values in the library's units."""
+    from cr3bp.errors import InputError
+    from cr3bp.validate import quantity
+    if parking is None:
+        raise InputError(f"--path {args.path} designs a departure from a parking orbit: --from must be "
+                         f"'parking earth ALTITUDE' (e.g. 'parking earth 200km'), not {args.origin!r}")
+    primary, alt = parking
+    if primary != 0 or system.name != "earth-moon":
+        raise InputError(f"--path {args.path} departs from the Earth in the earth-moon system; got "
+                         f"{args.origin!r} in {system.name}")
+    if not 100.0 <= alt <= 50_000.0:
+        raise InputError(f"parking altitude {alt:g} km in {args.origin!r}; allowed with --path: 100km to 50000km")
+    tof = 150.0
+    if args.max_tof is not None:
+        tof = system.days(quantity("--max-tof", args.max_tof, "time", system, sign="positive"))
+        if not 1.0 <= tof <= 400.0:
+            raise InputError(f"--max-tof {args.max_tof!r}; allowed: 1d to 400d")
+    inc = None if args.inclination is None else _angle_deg(args.inclination)
+    for opt, v in (("--section", args.section != "x=1-mu"), ("--map", args.map),
+                   ("--arrival-within", args.arrival_within), ("--step-off", args.step_off)):
+        if v:
+            raise InputError(f"{opt} follows manifolds; it does not apply with --path {args.path}")
+    return alt, float(tof), inc
+
+
+HEADERS = ["maneuver", "t_days", "dv_mps", "x_km", "y_km", "z_km"]
+
+
+def run(args, system, parking):
+    from cr3bp.transfers.departure import design_departure
+    from . import _tube_options as to
+    alt, tof, inc = check(args, system, parking)
+    orbit = to.orbit_from_request(system, args.target, args)
+    common.progress(args, f"librate connect: designing a {args.path} departure from {args.origin} "
+                    f"(two-body first guesses, then optimisation in the CR3BP)...")
+    dep = design_departure(orbit, alt, path=args.path, inclination_deg=inc, max_tof_days=tof)
+    d = dep.to_dict()
+    rows = [[m["name"], m["t_days"], m["dv_mps"], *m["position_km"]] for m in d["maneuvers"]]
+    head = [f"{args.origin} -> {args.target}: {args.path} departure ({'optimised' if dep.optimised else 'first guess: the optimiser stopped short of its tolerance'})",
+            f"CR3BP total dv {dep.dv_mps:.1f} m/s: departure {dep.departure_dv_mps:.1f} m/s"
+            + "".join(f", {m['name']} {m['dv_mps']:.1f} m/s" for m in d["maneuvers"][1:]),
+            f"CR3BP time of flight {dep.tof_days:.3f} d (departure burn to insertion burn)",
+            f"departure: C3 {dep.c3_km2_s2:.4f} km^2/s^2 (two-body, Earth), Earth-relative speed "
+            f"{dep.departure_speed_kms:.4f} km/s after the burn, parking-orbit inclination "
+            f"{dep.inclination_deg:.2f} deg to the Moon's orbit plane",
+            "positions: Earth-Moon rotating frame, origin at the barycentre; t from the departure burn"]
+    if dep.flyby_altitude_km is not None:
+        head.insert(3, f"lunar flyby altitude {dep.flyby_altitude_km:.1f} km (CR3BP)")
+    head.append(f"check: forward re-propagation of the transfer closes on each burn within "
+                f"{dep.details['closure_km']:.2e} km")
+    if args.plot:
+        from cr3bp.plotting import save
+        from cr3bp.plotting.departures import plot_departure
+        common.progress(args, "drawing the departure...")
+        fig = plot_departure(dep)
+        save(fig, args.plot, f"{args.origin} -> {args.target}, {args.path}: CR3BP total dv {dep.dv_mps:.0f} m/s "
+             f"(departure {dep.departure_dv_mps:.0f} m/s), time of flight {dep.tof_days:.2f} d; rotating "
+             "Earth-Moon frame, positions in km from the barycentre")
+        common.progress(args, f"wrote {args.plot}")
+    table = "\n".join(head) + "\n\n" + common.format_table(HEADERS, rows)
+    payload = {"from": args.origin, "to": args.target, "model": "cr3bp", "legs": [d]}
+    common.emit(args, payload=payload, headers=HEADERS, rows=rows, table=table, comments=head)
+    return 0
