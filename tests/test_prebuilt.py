@@ -208,17 +208,20 @@ def test_build_writes_a_loadable_module_and_removes_stale_ones(tmp_path, monkeyp
     assert np.array_equal(k.integrate(*args)[2], dop853.integrate(*args)[2])
 
 
-def test_clearing_the_jit_cache_removes_only_the_sources_entries(tmp_path):
+def test_clearing_the_jit_cache_removes_every_numba_entry_and_nothing_else(tmp_path):
+    # every cached numba function may inline a kernel (fidelity/segments.py inlines the
+    # dynamics kernels), so a rebuild must drop all of them; a cached entry that refers to a
+    # module since moved ended a station-keeping run with ModuleNotFoundError (found at a merge)
     for rel in ("integrate/__pycache__/dop853.integrate-401.py311.nbi",
                 "integrate/__pycache__/dop853.integrate-401.py311.1.nbc",
                 "dynamics/__pycache__/kernels.eom-62.py311.nbi",
-                "__pycache__/energy._field-10.py311.nbi",             # not a kernel source
+                "fidelity/__pycache__/segments.integrate_segments-14.py311.1.nbc",  # inlines kernels
                 "integrate/__pycache__/dop853.cpython-311.pyc"):      # byte code stays
         (tmp_path / rel).parent.mkdir(parents=True, exist_ok=True)
         (tmp_path / rel).write_bytes(b"x")
-    assert prebuilt.clear_jit_cache(tmp_path) == 3
+    assert prebuilt.clear_jit_cache(tmp_path) == 4
     left = sorted(str(p.relative_to(tmp_path)) for p in tmp_path.rglob("*") if p.is_file())
-    assert left == ["__pycache__/energy._field-10.py311.nbi", "integrate/__pycache__/dop853.cpython-311.pyc"]
+    assert left == ["integrate/__pycache__/dop853.cpython-311.pyc"]
 
 
 def test_an_unknown_switch_value_is_named_and_ignored(monkeypatch, fresh_lookup):

@@ -202,18 +202,17 @@ def build(directory: Path | None = None, progress=None) -> Path:
 
 
 def clear_jit_cache(package: Path | None = None) -> int:
-    """Remove numba's on-disk cache (``__pycache__/<module>.*.nbi|nbc`` beside each file of
-    :data:`SOURCES`); returns the number of files removed. numba stamps a cache entry with its
-    own module's source only, so after an edit to, say, ``dynamics/kernels.py`` it would still
-    load ``dop853.py``'s kernels with the old right-hand side inlined. ``build`` from the
+    """Remove numba's on-disk cache (every ``__pycache__/*.nbi|nbc`` under the package); returns
+    the number of files removed. numba stamps a cache entry with its own module's source only,
+    so after an edit to, say, ``dynamics/kernels.py`` it would still load ``dop853.py``'s kernels
+    (or ``fidelity/segments.py``'s, which are not among :data:`SOURCES`) with the old right-hand
+    side inlined, or with a reference to a module that has since moved. ``build`` from the
     command line calls this whenever it replaces a module of another key."""
     root = _PACKAGE if package is None else Path(package)
     n = 0
-    for rel in SOURCES:
-        src = root / rel
-        for f in (src.parent / "__pycache__").glob(f"{src.stem}.*.nb[ic]"):
-            f.unlink(missing_ok=True)
-            n += 1
+    for f in root.rglob("__pycache__/*.nb[ic]"):
+        f.unlink(missing_ok=True)
+        n += 1
     return n
 
 
@@ -238,7 +237,7 @@ def main(argv=None) -> int:
             return 1
         print(f"prebuilt kernels: {p}", file=sys.stderr)
         if replaced and (n := clear_jit_cache()):
-            print(f"removed {n} files of numba's cache of the same sources (they may hold the old "
+            print(f"removed {n} files of numba's on-disk cache (they may hold the old "
                   "code; numba compiles them again on first use)", file=sys.stderr)
         return 0
     print(f"usage: python -m cr3bp.integrate [build [--if-stale] | status]; got {' '.join([cmd] + args)!r}",
