@@ -263,17 +263,17 @@ def _manifold_leg(system, task) -> dict:
 
 def _with_arrival(plain: dict, leg) -> dict:
     """The plain leg dict with the time of flight to arrival of the
-    :class:`cr3bp.tubes.connections.Leg` it came from (see :data:`cr3bp.tubes.connections.TOF_DEFINITIONS`)."""
+    :class:`cr3bp.transfers.leg.Leg` it came from (see :data:`cr3bp.transfers.leg.TOF_DEFINITIONS`)."""
     plain["tof_arrival_days"] = float(leg.tof_arrival_days)
     plain["arrival_distance_km"] = None if math.isnan(leg.arrival_distance_km) else float(leg.arrival_distance_km)
     return plain
 
 
 def _periapsis_legs(orbit, body, altitude_km, stability, n_points) -> list:
-    """Legs of :func:`cr3bp.tubes.connections.parking_legs` through the orbit's manifold and its first
+    """Legs of :func:`cr3bp.tubes.parking.parking_legs` through the orbit's manifold and its first
     periapsis at ``altitude_km`` over ``body``: the interior branch, then the exterior one if
     the interior gives none. Raises NoSolutionError with both branches' reasons."""
-    from ..tubes.connections import parking_legs
+    from ..tubes.parking import parking_legs
     from ..errors import NoSolutionError
     found, reasons = [], []
     for branch in ("interior", "exterior"):
@@ -289,7 +289,7 @@ def _periapsis_legs(orbit, body, altitude_km, stability, n_points) -> list:
 
 def _parking_leg(system, task) -> dict:
     """The cheapest leg between a parking orbit and an orbit node through the orbit's manifold
-    and its first periapsis at the parking altitude (:func:`cr3bp.tubes.connections.parking_legs`:
+    and its first periapsis at the parking altitude (:func:`cr3bp.tubes.parking.parking_legs`:
     stable manifold to arrive at the orbit, unstable to leave it; interior branch, then
     exterior), as a plain leg dict."""
     from .stitch import leg_from_connection
@@ -305,7 +305,7 @@ def _parking_leg(system, task) -> dict:
 def _boundary_leg(system, task) -> dict:
     """The fastest ballistic way from an orbit node to a capture or escape condition along the
     orbit's unstable manifold (interior branch, then exterior): for a capture, the first
-    periapsis at the capture altitude about the body (:func:`cr3bp.tubes.connections.parking_legs`,
+    periapsis at the capture altitude about the body (:func:`cr3bp.tubes.parking.parking_legs`,
     its insertion impulse left out: a capture node asks for the arrival condition, not an
     orbit); for an escape, the first crossing of the escape distance from the body. Zero Δv."""
     from ..tubes.manifolds import Stop, grow_tube
@@ -405,7 +405,7 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
                            f"manifolds), not from the {a.kind} node '{a.name}'")
             elif isinstance(n, ParkingNode):
                 # a leg from or to a parking orbit has a free phase: the primary-to-orbit legs of
-                # cr3bp.tubes.connections, between a parking orbit and a periodic orbit only
+                # cr3bp.tubes.parking, between a parking orbit and a periodic orbit only
                 other = b if n is a else a
                 if not isinstance(other, OrbitNode):
                     why = (f"parking node '{n.name}' joins periodic orbits only (manifold legs through "

@@ -45,7 +45,7 @@ class Route:
     ``tof_arrival_days`` is the time from departure until the route first comes within
     ``arrival_distance_km`` of its final orbit: the step-off times of every leg but the last,
     plus the last leg's time of flight to arrival (edge ``tof_arrival_days``; see
-    :data:`cr3bp.tubes.connections.TOF_DEFINITIONS`). Caps and ranking by time use ``tof_days``, the
+    :data:`cr3bp.transfers.leg.TOF_DEFINITIONS`). Caps and ranking by time use ``tof_days``, the
     longer of the two.
     """
 

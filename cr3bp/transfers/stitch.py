@@ -559,7 +559,7 @@ def to_export(result: StitchedRoute, frame_spec, object_name="LIBRATE ROUTE"):
 
 
 def leg_from_connection(system, leg, patches=4) -> dict:
-    """A :class:`cr3bp.tubes.connections.Leg` as the plain leg dict the graph and the stitcher use:
+    """A :class:`cr3bp.transfers.leg.Leg` as the plain leg dict the graph and the stitcher use:
     each of its ballistic segments cut into ``patches`` shooting segments (so every maneuver
     falls on a patch point), the departure and arrival states where its arcs begin and end."""
     from ..integrate import propagate

@@ -1,3 +1,5 @@
 """Tubes: the invariant manifolds of a periodic orbit (:mod:`.manifolds`), Poincaré sections
-and their crossings (:mod:`.sections`, with the batch propagation both use), and the
-connections found where tubes meet on a section (:mod:`.connections`)."""
+and their crossings (:mod:`.sections`, with the batch propagation both use), the
+connections found where tubes meet on a section (:mod:`.connections`), legs between a parking
+orbit and a periodic orbit through its first periapsis (:mod:`.parking`), the time of flight to
+arrival at an orbit (:mod:`.arrival`), and transit classification (:mod:`.transit`)."""
