@@ -150,42 +150,6 @@ def compute_leg(task: dict) -> dict:
 
 # ---- planning --------------------------------------------------------------------------
 
-def realm(system, position) -> str:
-    """Which realm a position lies in: "larger" (inside the L1 neck's side of the larger
-    primary), "smaller" (between L1 and L2), or "exterior" (beyond L2, or farther from the
-    barycentre than L3). A coarse split by the collinear points' x (common practice)."""
-    from ..equilibria import lagrange_point
-    x = float(position[0])
-    r = float(np.linalg.norm(position[:2]))
-    x1, x2 = lagrange_point(system, "L1").position[0], lagrange_point(system, "L2").position[0]
-    x3 = abs(lagrange_point(system, "L3").position[0])
-    if r > x3 and x < x1:
-        return "exterior"
-    if x < x1:
-        return "larger"
-    return "smaller" if x <= x2 else "exterior"
-
-
-def _necks_between(a: str, b: str) -> tuple:
-    pair = {a, b}
-    if pair == {"larger", "smaller"}:
-        return ("L1",)
-    if pair == {"smaller", "exterior"}:
-        return ("L2",)
-    if pair == {"larger", "exterior"}:
-        return ("L3",)
-    return ()
-
-
-#: Realms an orbit about a collinear point touches (it sits in that point's neck).
-NECK_REALMS = {"L1": {"larger", "smaller"}, "L2": {"smaller", "exterior"}, "L3": {"larger", "exterior"}}
-
-
-def realms_of(system, position, point: str = "") -> set:
-    """The realm(s) a node is in: an orbit about L1..L3 touches the two realms its neck joins."""
-    return set(NECK_REALMS[point]) if point in NECK_REALMS else {realm(system, position)}
-
-
 def energy_prune(system, c_from, c_to, r_from, r_to, maneuvers: str, point_from="", point_to="") -> str | None:
     """Why no leg is attempted (None: attempt it). Only ballistic pairs are pruned: different
     energies, or every way between their realms through a closed neck."""
@@ -193,7 +157,7 @@ def energy_prune(system, c_from, c_to, r_from, r_to, maneuvers: str, point_from=
         return None
     if abs(c_from - c_to) > SAME_ENERGY:
         return f"no maneuver allowed and the Jacobi constants differ ({c_from:.9f} vs {c_to:.9f})"
-    from ..energy import necks
+    from ..energy import necks, necks_between, realms_of
     opened = necks(system, c_from)
     ra, rb = realms_of(system, r_from, point_from), realms_of(system, r_to, point_to)
     if ra & rb:
@@ -201,7 +165,7 @@ def energy_prune(system, c_from, c_to, r_from, r_to, maneuvers: str, point_from=
     closed = set()
     for a in ra:
         for b in rb:
-            need = _necks_between(a, b)
+            need = necks_between(a, b)
             if all(opened[p] for p in need):
                 return None
             closed.update(p for p in need if not opened[p])
