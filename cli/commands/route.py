@@ -122,7 +122,7 @@ def run(args):
         traj = None
         if frame_spec is not None:
             from cr3bp.io.export import dv_warning, maneuver_table
-            from cr3bp.transfers.stitch import to_export
+            from cr3bp.io.route import to_export
             traj = to_export(stitched, frame_spec)
             table = maneuver_table(traj)          # Δv measured on the exported trajectory
             warn = dv_warning(table)
@@ -218,7 +218,7 @@ def _export(args, system, routes, front, stitched, name, table=()):
     from pathlib import Path
 
     from cr3bp.io.atomic import write_text
-    from cr3bp.transfers.stitch import trajectory_rows
+    from cr3bp.io.route import trajectory_rows
     out = Path(args.out)
     title = f"stitched route {' -> '.join(stitched.nodes)} in {system.name} (mu = {system.mu!r}), rotating frame"
     headers, rows = trajectory_rows(stitched)

@@ -64,7 +64,8 @@ def design_transfers(plan, orbits, out, *, catalog=None, workers=None, scheduler
     from ..transfers.graph import build_graph
     from ..transfers.search import Constraints, best_routes, pareto_routes
     from ..transfers.nodes import find_node, parse_nodes
-    from ..transfers.stitch import stitch_route, trajectory_rows
+    from ..io.route import trajectory_rows
+    from ..transfers.stitch import stitch_route
     system = plan.system
     routes, stitched = {}, {}
     figures = {}
@@ -198,7 +199,7 @@ def route_orbits(transfer: dict, orbits: dict) -> list:
 def transfer_trajectory(plan, st, spec, ts, step_s, ex, model):
     """The stitched transfer sampled on the export's clock, with its maneuvers."""
     from ..io import export
-    from ..transfers.stitch import to_export
+    from ..io.route import to_export
     base = to_export(st, spec, ex["object"].upper())
     span = float(st.times_tu[-1] - st.times_tu[0])
     grid = export.epoch_grid(spec, ts, span, step_s)
