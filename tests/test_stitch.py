@@ -163,7 +163,7 @@ def test_one_leg_sun_earth_route_stitches_with_physical_tolerances():
     from cr3bp.tubes.parking import parking_legs
     se = system("sun-earth")
     orbit = halo_az(se, "L1", 2.4e-3)
-    leg = stitch.leg_from_connection(se, parking_legs(orbit, "earth", 200.0, n_points=48, t_max=6.0)[0])
+    leg = parking_legs(orbit, "earth", 200.0, n_points=48, t_max=6.0)[0].record()
     leg["from_name"], leg["to_name"] = "leo", "halo"
     res = stitch.stitch_route(se, [leg])
     assert res.continuity_lu * se.length_km * 1e3 < 10.0          # metres (stitch.CONTINUITY_LIMIT_M)

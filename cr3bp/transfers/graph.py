@@ -34,7 +34,7 @@ from . import search
 from . import tasks as tasks_mod
 from ..errors import InputError, LibrateError
 from .nodes import BoundaryNode, OrbitNode, ParkingNode, node_state
-from .targeting import LEG_FORMAT
+from .leg import LEG_FORMAT
 
 #: Two Jacobi constants closer than this count as one energy (ballistic legs).
 SAME_ENERGY = 1e-9
@@ -204,9 +204,8 @@ def _orbit_from_plain(system, d: dict):
 
 def _manifold_leg(system, task) -> dict:
     """The cheapest connection between two orbit nodes over the hinted sections
-    (:func:`cr3bp.tubes.connections.connect`), as a plain leg dict."""
+    (:func:`cr3bp.tubes.connections.connect`), as a leg record (:data:`cr3bp.transfers.leg.RECORD_KEYS`)."""
     from ..tubes.connections import connect
-    from .stitch import leg_from_connection
     st = task["settings"]
     a = _orbit_from_plain(system, task["from"]["orbit_data"])
     b = _orbit_from_plain(system, task["to"]["orbit_data"])
@@ -221,7 +220,7 @@ def _manifold_leg(system, task) -> dict:
         from ..errors import NoSolutionError
         raise NoSolutionError("no manifold connection: " + ("; ".join(reasons) or "the cuts do not meet"))
     best = min(found, key=lambda lg: (lg.dv_mps, lg.tof))
-    return _with_arrival(leg_from_connection(system, best, st["patches"]), best)
+    return _with_arrival(best.record(st["patches"]), best)
 
 
 def _with_arrival(plain: dict, leg) -> dict:
@@ -254,15 +253,14 @@ def _parking_leg(system, task) -> dict:
     """The cheapest leg between a parking orbit and an orbit node through the orbit's manifold
     and its first periapsis at the parking altitude (:func:`cr3bp.tubes.parking.parking_legs`:
     stable manifold to arrive at the orbit, unstable to leave it; interior branch, then
-    exterior), as a plain leg dict."""
-    from .stitch import leg_from_connection
+    exterior), as a leg record (:data:`cr3bp.transfers.leg.RECORD_KEYS`)."""
     st = task["settings"]
     arrive = st["arrive"]                     # parking -> orbit
     orbit = _orbit_from_plain(system, task["to" if arrive else "from"]["orbit_data"])
     found = _periapsis_legs(orbit, st["body"], st["altitude_km"], "stable" if arrive else "unstable",
                             st["tube_points"])
     best = min(found, key=lambda lg: (lg.dv_mps, lg.tof))
-    return _with_arrival(leg_from_connection(system, best, st["patches"]), best)
+    return _with_arrival(best.record(st["patches"]), best)
 
 
 def _boundary_leg(system, task) -> dict:
@@ -278,10 +276,9 @@ def _boundary_leg(system, task) -> dict:
     orbit = _orbit_from_plain(system, task["from"]["orbit_data"])
     reasons = []
     if task["method"] == "capture":
-        from .stitch import leg_from_connection
         found = _periapsis_legs(orbit, st["body"], st["distance_km"], "unstable", st["tube_points"])
         best = min(found, key=lambda lg: lg.tof)
-        leg = leg_from_connection(system, best, st["patches"])
+        leg = best.record(st["patches"])
         # the arrival condition itself: the state at periapsis before any insertion impulse
         leg["arrival_state"] = leg["final_state"]
         leg["maneuvers"] = [m for m in leg["maneuvers"] if m["where"] != "arrival"]

@@ -3,10 +3,15 @@ targeted legs, the transfer graph, route search, stitching, the scenario run).
 
 A :class:`Leg` says where it goes from and to, its impulsive manoeuvres (:class:`Maneuver`), its
 total Δv and times of flight, and the ballistic arcs whose concatenation is its trajectory.
+Connections and parking-orbit legs (:mod:`cr3bp.tubes`) return it. The transfer graph, the
+catalogue and the stitcher still pass the leg as its JSON-ready *leg record*
+(:meth:`Leg.record`, keys documented in :data:`RECORD_KEYS`), which targeted legs and phasing
+coasts produce directly.
 """
 
 from __future__ import annotations
 
+import json
 import math
 from dataclasses import dataclass, field
 
@@ -23,6 +28,35 @@ TOF_DEFINITIONS = {
     "tof_arrival_days": "time of flight to arrival: from the leg's start until the trajectory first "
                         "comes within arrival_distance_km of the target orbit's path (nearest point "
                         "of the orbit); equal to tof_days when the leg ends on a parking orbit",
+}
+
+
+#: Version of the leg records (part of their catalogue key). 2: legs carry the time of flight
+#: to arrival (``tof_arrival_days``, ``arrival_distance_km``).
+LEG_FORMAT = 2
+
+#: The leg record: the JSON-ready dict the transfer graph computes (in a pool or on a dask
+#: worker), caches in the catalogue, puts on its edges and hands to the stitcher. Made by
+#: :func:`cr3bp.transfers.targeting.targeted_leg`, :meth:`Leg.record` (connections and
+#: parking-orbit legs), :func:`cr3bp.transfers.graph.compute_leg` (which adds the graph keys)
+#: and :func:`cr3bp.transfers.stitch.phasing_coast`. Units: TU, LU, LU/TU (rotating frame)
+#: unless the key names another.
+RECORD_KEYS = {
+    "format": "record version (1: from a Leg or a coast; LEG_FORMAT: targeted)",
+    "method": "targeted | manifold | parking | capture | escape | stay",
+    "how": "how it was computed, in words", "kind": "what sort of leg (transfer, arrival, phasing...)",
+    "dv_mps": "total |Δv| over its maneuvers, m/s", "tof_tu": "time of flight, TU",
+    "tof_days": "step-off time of flight, days (TOF_DEFINITIONS)",
+    "tof_arrival_days": "time of flight to arrival, days (TOF_DEFINITIONS)",
+    "arrival_distance_km": "distance that counts as arrived, km (None: not an orbit)",
+    "maneuvers": "list of {t, position, dv_vector, dv_mps, where: departure | patch | arrival}",
+    "departure_state": "the start node's state (before a departure burn)",
+    "arrival_state": "the end node's state (after an arrival burn)",
+    "patch_times": "start time of each shooting segment", "patch_states": "start state of each shooting segment",
+    "final_state": "the trajectory's last state (before an arrival burn)",
+    "min_altitude_km": "lowest altitude over either primary, km", "details": "method-specific values",
+    "from": "start node id", "to": "end node id", "from_name": "start node's name", "to_name": "end node's name",
+    "key": "catalogue key", "status": "ok | failed", "reason": "why it failed ('' if ok)",
 }
 
 
@@ -128,6 +162,39 @@ class Leg:
             "details": _plain(self.details),
         }
 
+    def record(self, patches: int = 4) -> dict:
+        """This leg as a leg record (:data:`RECORD_KEYS`), the form the transfer graph, the
+        catalogue and the stitcher use: each ballistic segment cut into ``patches`` shooting
+        segments (so every maneuver falls on a patch point), the departure and arrival states
+        where its arcs begin and end (before a first burn, after a last one)."""
+        system = self.system
+        times, states = [], []
+        end = None
+        for t0, s0, dur in self.segments:
+            if dur <= 0:
+                continue
+            te = np.linspace(0.0, float(dur), patches + 1)
+            arc = propagate(system, np.asarray(s0, dtype=float), float(dur), rtol=RTOL, atol=ATOL, t_eval=te)
+            times += list(float(t0) + te[:-1])
+            states += [st.tolist() for st in arc.states[:-1]]
+            end = arc.states[-1]
+        mans = [{"t": float(m.t), "position": list(map(float, m.position)), "dv_vector": list(map(float, m.dv)),
+                 "dv_mps": float(m.dv_mps), "where": "patch" if 0.0 < m.t < self.tof else
+                 ("departure" if m.t == 0.0 else "arrival")} for m in self.maneuvers]
+        start = np.array(states[0])
+        finish = np.array(end)
+        for m in self.maneuvers:          # the nodes' states: before a first burn, after a last one
+            if m.t == 0.0:
+                start[3:] -= np.asarray(m.dv)
+            elif m.t >= self.tof:
+                finish[3:] += np.asarray(m.dv)
+        return {"format": 1, "method": "parking" if self.kind in ("arrival", "departure") else "manifold",
+                "how": self.method, "kind": self.kind,
+                "dv_mps": float(self.dv_mps), "tof_days": float(system.days(self.tof)), "tof_tu": float(self.tof),
+                "maneuvers": mans, "departure_state": start.tolist(), "arrival_state": finish.tolist(),
+                "patch_times": times, "patch_states": states, "final_state": end.tolist(),
+                "min_altitude_km": float(self.min_altitude_km), "details": _json_details(self.details)}
+
 
 def _plain(d):
     if isinstance(d, dict):
@@ -143,3 +210,7 @@ def _plain(d):
 
 def _mps(system, dv):
     return float(system.mps(dv)) if system.dimensional else float(dv)
+
+
+def _json_details(d):
+    return json.loads(json.dumps(d, default=lambda o: o.tolist() if hasattr(o, "tolist") else str(o)))
