@@ -127,3 +127,42 @@ def test_same_request_gives_the_same_routes_dv_tof_and_maneuver_columns(both):
     assert a[1:] == b[1:] and len(a) > 1
     # and the trajectory tables
     assert _rows(d / "scenario" / "route-gate-to-relay-trajectory.csv") == _rows(d / "cli" / "trajectory.csv")
+
+
+def test_no_route_reason_names_the_nodes_by_their_names():
+    """The route search's reason carries the names the node list gave (the graph's ``name``
+    attribute), not the node ids: nothing is relabelled afterwards by string replacement."""
+    import networkx as nx
+
+    from cr3bp.errors import NoSolutionError
+    from cr3bp.transfers.search import add_leg, best_routes
+    g = nx.MultiDiGraph()
+    g.add_node("orbit/earth-moon/halo l2 south period=6.5626d", name="relay")
+    g.add_node("parking/earth-moon/earth/200km/0deg", name="leo")
+    g.add_node("state/earth-moon/abc", name="gate")
+    add_leg(g, "state/earth-moon/abc", "parking/earth-moon/earth/200km/0deg", 10.0, 1.0)
+    with pytest.raises(NoSolutionError) as e:
+        best_routes(g, "parking/earth-moon/earth/200km/0deg", "orbit/earth-moon/halo l2 south period=6.5626d")
+    assert str(e.value) == "no chain of legs joins 'leo' to 'relay' in the graph"
+
+
+def test_scenario_nodes_are_built_directly_with_the_node_list_ids(tmp_path):
+    """A scenario transfer's node list is built from the scenario's entries without a TOML text
+    round trip; its nodes are the ones a node-list file with the same entries gives (same ids,
+    same names, same kinds), and a parking text keeps its scenario name."""
+    from cr3bp.scenario import run as mission
+    from cr3bp.scenario.transfers import transfer_nodes
+    from cr3bp.transfers.nodes import parse_nodes
+    text = SCENARIO.replace('from = "gate"', 'from = "parking moon 100km"')
+    (tmp_path / "s.toml").write_text(text)
+    plan = mission.prepare(tmp_path / "s.toml")
+    built = transfer_nodes(plan, 0, plan.data["transfers"][0])
+    parsed = parse_nodes(NODES.replace('name = "gate"\nkind = "orbit"\norbit = "lyapunov L1 jacobi=3.17"',
+                                       'name = "parking moon 100km"\nkind = "parking"\nbody = "moon"\n'
+                                       'altitude = "100km"'), plan.system)
+    order = ["parking moon 100km", "staging", "relay"]
+    assert [n.name for n in built.nodes] == order
+    by_name = {n.name: n for n in parsed.nodes}
+    assert [n.id for n in built.nodes] == [by_name[k].id for k in order]
+    assert [n.kind for n in built.nodes] == ["parking", "orbit", "orbit"]
+    assert (built.tof_days, built.patches, built.all_pairs, built.hints) == (6.0, 4, True, ())

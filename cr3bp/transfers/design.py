@@ -35,7 +35,7 @@ class TransferDesign:
     pareto : tuple of Route                      the Pareto set (empty when not asked)
     stitched : StitchedRoute or None             the best route stitched (None: not asked, or
                                                  not possible, see ``not_stitched``)
-    not_stitched : str                           why the best route was not stitched ("" if it was)
+    not_stitched : str or None                   why the best route was not stitched (None if it was)
     """
 
     built: object
@@ -44,7 +44,7 @@ class TransferDesign:
     routes: tuple
     pareto: tuple
     stitched: object
-    not_stitched: str = ""
+    not_stitched: str | None = None
 
     @property
     def graph(self):
@@ -119,7 +119,7 @@ def design_transfer(system, nodelist, source, target, constraints: Constraints =
     except NoSolutionError as e:
         raise NoSolutionError(no_route_reason(built, e, source, target, constraints)) from None
     front = pareto_routes(g, source.id, target.id, constraints) if pareto else []
-    stitched, not_stitched = None, ""
+    stitched, not_stitched = None, None
     if stitch:
         if on_stage is not None:
             on_stage("stitching", routes[0])
