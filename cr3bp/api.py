@@ -521,7 +521,7 @@ def connect(origin, target, *, system=None, section="x=1-mu", points=None, cross
 
     Returns
     -------
-    list of cr3bp.tubes.connections.Leg
+    list of cr3bp.transfers.leg.Leg
         Best first: ``.dv_mps`` (CR3BP), ``.tof_days``, ``.segments``, ``.to_dict()``.
 
     Raises
@@ -547,7 +547,7 @@ def connect(origin, target, *, system=None, section="x=1-mu", points=None, cross
     """
     from .orbits.orbit import PeriodicOrbit
     from .tubes.connections import connect as _connect
-    from .tubes.connections import parking_legs, periapsis_map
+    from .tubes.parking import parking_legs, periapsis_map
     sysm = None
     for end in (origin, target):
         if isinstance(end, PeriodicOrbit):

@@ -20,7 +20,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import dynamics
-from .equilibria import COLLINEAR, NAMES, jacobi_constants, point_name
+from .equilibria import COLLINEAR, NAMES, jacobi_constants, lagrange_point, point_name
 from .errors import InputError
 
 PLANES = ("xy", "xz")
@@ -679,5 +679,46 @@ def energy_table(system, jacobi_value) -> list[dict]:
     return rows
 
 
+# ---- realms: where a position lies relative to the necks --------------------------------
+
+def realm(system, position) -> str:
+    """Which realm a position lies in: "larger" (inside the L1 neck's side of the larger
+    primary), "smaller" (between L1 and L2), or "exterior" (beyond L2, or farther from the
+    barycentre than L3). A coarse split by the collinear points' x (common practice)."""
+    x = float(position[0])
+    r = float(np.linalg.norm(position[:2]))
+    x1, x2 = lagrange_point(system, "L1").position[0], lagrange_point(system, "L2").position[0]
+    x3 = abs(lagrange_point(system, "L3").position[0])
+    if r > x3 and x < x1:
+        return "exterior"
+    if x < x1:
+        return "larger"
+    return "smaller" if x <= x2 else "exterior"
+
+
+def necks_between(a: str, b: str) -> tuple:
+    """The neck(s) a trajectory passes between two realms (:func:`realm`): L1 between the
+    larger primary's realm and the smaller's, L2 between the smaller's and the exterior, L3
+    between the larger's and the exterior."""
+    pair = {a, b}
+    if pair == {"larger", "smaller"}:
+        return ("L1",)
+    if pair == {"smaller", "exterior"}:
+        return ("L2",)
+    if pair == {"larger", "exterior"}:
+        return ("L3",)
+    return ()
+
+
+#: Realms an orbit about a collinear point touches (it sits in that point's neck).
+NECK_REALMS = {"L1": {"larger", "smaller"}, "L2": {"smaller", "exterior"}, "L3": {"larger", "exterior"}}
+
+
+def realms_of(system, position, point: str = "") -> set:
+    """The realm(s) a node is in: an orbit about L1..L3 touches the two realms its neck joins."""
+    return set(NECK_REALMS[point]) if point in NECK_REALMS else {realm(system, position)}
+
+
 __all__ = ["jacobi", "check_jacobi", "jacobi_above", "speed_at_point", "necks", "realms",
-           "two_omega", "hill_region", "HillRegion", "energy_table", "default_extent", "NAMES"]
+           "two_omega", "hill_region", "HillRegion", "energy_table", "default_extent", "NAMES",
+           "realm", "realms_of", "necks_between", "NECK_REALMS"]

@@ -18,7 +18,7 @@ import numpy as np
 import pytest
 
 from cr3bp import system
-from cr3bp.tubes.connections import parking_legs, periapsis_summary
+from cr3bp.tubes.parking import parking_legs, periapsis_summary
 from cr3bp.errors import NoSolutionError
 
 from _orbit_fixtures import halo_az

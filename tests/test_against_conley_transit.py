@@ -7,7 +7,7 @@ orbits that pass through the neck about L1 between the Earth's and the Moon's re
 exactly those inside the tube formed by the stable manifold of the L1 Lyapunov orbit; those
 just outside it bounce back. The test cuts the tube on a plane across the neck on the Earth
 side, puts states just inside and just outside the cut at the same energy, and checks with
-the integrator which ones pass into the Moon's realm — and that ``connections.transit``
+the integrator which ones pass into the Moon's realm — and that ``transit.transit``
 classifies each one the same way.
 """
 
@@ -15,7 +15,7 @@ import numpy as np
 import pytest
 
 from cr3bp import plane, propagate, system
-from cr3bp.tubes.connections import necks_open, transit
+from cr3bp.tubes.transit import necks_open, transit
 from cr3bp.dynamics import omega
 from cr3bp.errors import NoSolutionError
 from cr3bp.tubes.manifolds import grow_tube

@@ -6,7 +6,7 @@ Reference: scipy's ``solve_ivp`` with its DOP853 method (Hairer, Norsett & Wanne
 Ordinary Differential Equations I*, 2nd ed., 1993) on the equations of motion written out in
 tests/_independent_cr3bp.py re-propagates each leg to its arrival time and samples the target
 orbit; the distance to the orbit is computed here by brute force over every segment of that
-sampled path (nothing shared with cr3bp.tubes.connections.distance_to_path).
+sampled path (nothing shared with cr3bp.tubes.arrival.distance_to_path).
 """
 
 import json
@@ -19,7 +19,8 @@ from scipy.integrate import solve_ivp
 from _independent_cr3bp import rhs
 
 from cr3bp import system
-from cr3bp.tubes.connections import connect, parking_legs
+from cr3bp.tubes.connections import connect
+from cr3bp.tubes.parking import parking_legs
 from cr3bp.orbits.request import solve_request
 from librate_cli.main import main
 

@@ -300,7 +300,7 @@ def test_no_periapsis_map_file_when_nothing_is_found(tmp_path):
 
 
 def test_periapsis_plot_refuses_an_empty_map():
-    from cr3bp.tubes.connections import periapsis_map
+    from cr3bp.tubes.parking import periapsis_map
     from cr3bp.errors import NoSolutionError
     from cr3bp.plotting.manifolds import plot_periapsis_map
     pm = periapsis_map(lyapunov(EM, "L1", 3.15), "moon", "unstable", "interior", 4, t_max=0.05)

@@ -5,7 +5,8 @@ import pytest
 
 from cr3bp import system
 from cr3bp.cautions import CAUTION_SHORT
-from cr3bp.tubes.connections import connect, periapsis_map
+from cr3bp.tubes.connections import connect
+from cr3bp.tubes.parking import periapsis_map
 from cr3bp.tubes.manifolds import grow_tube
 from cr3bp.plotting import caption, save
 from cr3bp.plotting.manifolds import (plot_connection, plot_periapsis_map, plot_section_map,

@@ -160,10 +160,10 @@ def test_one_leg_sun_earth_route_stitches_with_physical_tolerances():
     from _orbit_fixtures import halo_az
 
     from cr3bp import system
-    from cr3bp.tubes.connections import parking_legs
+    from cr3bp.tubes.parking import parking_legs
     se = system("sun-earth")
     orbit = halo_az(se, "L1", 2.4e-3)
-    leg = stitch.leg_from_connection(se, parking_legs(orbit, "earth", 200.0, n_points=48, t_max=6.0)[0])
+    leg = parking_legs(orbit, "earth", 200.0, n_points=48, t_max=6.0)[0].record()
     leg["from_name"], leg["to_name"] = "leo", "halo"
     res = stitch.stitch_route(se, [leg])
     assert res.continuity_lu * se.length_km * 1e3 < 10.0          # metres (stitch.CONTINUITY_LIMIT_M)

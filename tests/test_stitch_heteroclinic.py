@@ -93,7 +93,7 @@ both_ways = false
 
 def test_parking_legs_through_periapsis_and_their_stitching():
     """Low lunar orbit (100 km) to and from the L2 Lyapunov orbit through the orbit's manifolds
-    and their first periapsis at that altitude (cr3bp.tubes.connections.parking_legs): one tangential
+    and their first periapsis at that altitude (cr3bp.tubes.parking.parking_legs): one tangential
     burn at periapsis. Stitched, the one-leg routes keep their Δv (nothing to merge) and their
     periapsis is 100 km above the Moon."""
     em = system("earth-moon")

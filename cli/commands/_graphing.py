@@ -20,13 +20,17 @@ def _workers(text):
     return None if text is None else common.whole_number("--workers", text, 1, 256)
 
 
-def build(args, system):
-    """(node list, BuildResult) from the options; progress to stderr."""
+def prepare(args, system, check=None):
+    """The node list and the build settings from the options, checked before any work:
+    ``(nodelist, settings, checked)`` with ``checked`` what ``check(nodelist)`` returns (the
+    caller's own checks of the list, run first) and ``settings`` the keyword arguments of
+    :func:`cr3bp.transfers.graph.build_graph` (``workers``, ``scheduler``, ``catalog`` (open, or
+    None: close it after use), ``tof_days``, ``progress``: leg progress on stderr)."""
     from cr3bp.catalog import Catalog
-    from cr3bp.transfers.graph import build_graph
     from cr3bp.transfers.nodes import load_nodes
     from cr3bp.errors import InputError
     nodelist = load_nodes(args.nodes, system)
+    checked = check(nodelist) if check is not None else None
     workers = _workers(args.workers)
     if args.scheduler and workers:
         raise InputError("give --workers or --scheduler, not both")
@@ -45,14 +49,26 @@ def build(args, system):
             common.progress(args, f"librate: leg {done}/{total} ({leg['from_name']} -> {leg['to_name']}: {what})")
 
     common.progress(args, f"librate: building the graph of {len(nodelist.nodes)} node(s) from {args.nodes}...")
-    try:
-        result = build_graph(system, nodelist, workers=workers, scheduler=args.scheduler, catalog=catalog,
-                             progress=tick, tof_days=tof_days)
-    finally:
-        if catalog is not None:
-            catalog.close()
+    return nodelist, {"workers": workers, "scheduler": args.scheduler, "catalog": catalog,
+                      "tof_days": tof_days, "progress": tick}, checked
+
+
+def built(args, result):
+    """Say on stderr what a build computed, read and pruned."""
     common.progress(args, f"librate: {result.computed} leg(s) computed, {result.cached} read from the "
                           f"catalogue, {len(result.pruned)} pair(s) pruned")
+
+
+def build(args, system):
+    """(node list, BuildResult) from the options; progress to stderr."""
+    from cr3bp.transfers.graph import build_graph
+    nodelist, settings, _ = prepare(args, system)
+    try:
+        result = build_graph(system, nodelist, **settings)
+    finally:
+        if settings["catalog"] is not None:
+            settings["catalog"].close()
+    built(args, result)
     return nodelist, result
 
 

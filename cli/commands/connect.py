@@ -93,7 +93,9 @@ def run(args):
     import math
 
     from cr3bp import units
-    from cr3bp.tubes.connections import connect, necks_open, parking_legs, periapsis_map
+    from cr3bp.tubes.connections import connect
+    from cr3bp.tubes.parking import parking_legs, periapsis_map
+    from cr3bp.tubes.transit import necks_open
     from cr3bp.errors import InputError
     system = common.resolve_system(args)
     to.check_plot_path(args.plot)
@@ -166,7 +168,7 @@ def run(args):
     if within_km is not None and arrival_orbit is not None:
         import dataclasses
 
-        from cr3bp.tubes.connections import arrival_time, orbit_path
+        from cr3bp.tubes.arrival import arrival_time, orbit_path
         path = orbit_path(arrival_orbit)
         legs = [dataclasses.replace(g, tof_arrival=t, arrival_distance_km=d)
                 for g in legs for t, d in [arrival_time(system, g.segments, arrival_orbit, within_km, path)]]

@@ -74,8 +74,8 @@ def _side(path, tag):
 def run(args):
     from pathlib import Path
 
-    from cr3bp.errors import InputError, NoSolutionError
-    from cr3bp.transfers.search import best_routes, pareto_routes
+    from cr3bp.errors import InputError
+    from cr3bp.transfers.design import design_transfer
     from cr3bp.transfers.nodes import find_node
 
     system = common.resolve_system(args)
@@ -90,39 +90,39 @@ def run(args):
         from cr3bp.time.frames import frame
         frame_spec = frame(system, args.epoch, axes=args.frame)       # checked before any work
     k = common.whole_number("--best", args.best, 1, 1000)
-    from cr3bp.transfers.nodes import load_nodes
-    nodes = load_nodes(args.nodes, system).nodes       # checked before any leg is computed
-    src, dst = find_node(nodes, args.source), find_node(nodes, args.target)
-    if src.id == dst.id:
-        raise InputError("--from and --to name the same node")
-    constraints = _constraints(args, system, nodes)
-    nodelist, result = _graphing.build(args, system)
-    g = result.graph
+
+    def ends(nodelist):                                 # checked before any leg is computed
+        nodes = nodelist.nodes
+        src, dst = find_node(nodes, args.source), find_node(nodes, args.target)
+        if src.id == dst.id:
+            raise InputError("--from and --to name the same node")
+        return src, dst, _constraints(args, system, nodes)
+    nodelist, settings, (src, dst, constraints) = _graphing.prepare(args, system, ends)
+    nodes = nodelist.nodes
+
+    def stage(what, value):
+        if what == "built":
+            _graphing.built(args, value)
+        else:
+            common.progress(args, f"librate: stitching the best route ({value.n_legs} leg(s)) by multiple shooting...")
     try:
-        routes = best_routes(g, src.id, dst.id, constraints, args.objective, k)
-    except NoSolutionError as e:                                                # exit status 3
-        raise NoSolutionError(_explain(str(e), nodes, result, src, dst)) from None
-    front = pareto_routes(g, src.id, dst.id, constraints) if args.pareto else []
+        design = design_transfer(system, nodelist, src, dst, constraints, objective=args.objective, best=k,
+                                 pareto=args.pareto, stitch=not args.no_stitch, on_stage=stage, **settings)
+    finally:
+        if settings["catalog"] is not None:
+            settings["catalog"].close()
+    result, g = design.built, design.graph
+    routes, front, stitched, not_stitched = list(design.routes), list(design.pareto), design.stitched, design.not_stitched
+    if not_stitched:
+        common.progress(args, f"librate: the best route is not stitched: {not_stitched}")
     name = {n.id: n.name for n in nodes}
-    stitched = None
-    not_stitched = None
-    if not args.no_stitch:
-        from cr3bp.transfers.stitch import PhasingError, stitch_route
-        common.progress(args, f"librate: stitching the best route ({routes[0].n_legs} leg(s)) by multiple shooting...")
-        # where two legs meet an orbit at different phases, a coast along it joins them
-        periods = {n: d["period_days"] / system.time_days for n, d in g.nodes(data=True) if d.get("period_days")}
-        try:
-            stitched = stitch_route(system, routes[0], constraints, periods=periods)
-        except PhasingError as e:
-            not_stitched = str(e)
-            common.progress(args, f"librate: the best route is not stitched: {e}")
     files = []
     table, warn = [], ""
     if args.out and stitched is not None:
         traj = None
         if frame_spec is not None:
             from cr3bp.io.export import dv_warning, maneuver_table
-            from cr3bp.transfers.stitch import to_export
+            from cr3bp.io.route import to_export
             traj = to_export(stitched, frame_spec)
             table = maneuver_table(traj)          # Δv measured on the exported trajectory
             warn = dv_warning(table)
@@ -197,15 +197,6 @@ def tof_note(route) -> str:
             "tof_stepoff_days.")
 
 
-def _explain(message, nodes, result, src, dst):
-    """The search's reason with node names for ids, plus why legs at either end were not made."""
-    for n in nodes:
-        message = message.replace(f"'{n.id}'", f"'{n.name}'")
-    why = sorted({p["reason"] for p in result.pruned if f"'{src.name}'" in p["reason"]
-                  or f"'{dst.name}'" in p["reason"]})
-    return message + (f" (not attempted: {'; '.join(why)})" if why else "")
-
-
 def _route_dict(r, name):
     d = r.to_dict()
     d["node_names"] = [name[n] for n in r.nodes]
@@ -218,29 +209,21 @@ def _export(args, system, routes, front, stitched, name, table=()):
     from pathlib import Path
 
     from cr3bp.io.atomic import write_text
-    from cr3bp.transfers.stitch import trajectory_rows
+    from cr3bp.io.route import trajectory_rows
     out = Path(args.out)
     title = f"stitched route {' -> '.join(stitched.nodes)} in {system.name} (mu = {system.mu!r}), rotating frame"
     headers, rows = trajectory_rows(stitched)
-    key = "dv_exported_mps[route.oem]"
-    mrows = [[m["t_days"], m["node"], *m["position_km"], *m["dv_vector_mps"], m["dv_mps"]]
-             + ([table[i]["dv_exported_mps"]] if table else []) for i, m in enumerate(stitched.maneuvers)]
-    models = {"dv_design_mps": "the CR3BP design, rotating frame, fixed units (also the stitched route's dv_mps)"}
-    if table:
-        models[key] = "the velocity jump of the exported trajectory in route.oem (its frame and anchoring)"
-    from cr3bp.io.export import dv_warning
-    warn = dv_warning(table) if table else ""
+    from cr3bp.transfers.design import maneuver_columns
+    exported = [{"file": "route.oem", "description": "its frame and anchoring", "maneuvers": list(table)}] if table else []
+    mheaders, mrows, mans, models, warnings = maneuver_columns(stitched, exported)
+    warnings = [f"WARNING: {w}" for w in warnings]
     files = [str(out / "trajectory.csv"), str(out / "maneuvers.csv"), str(out / "route.json")]
     write_text(files[0], common.csv_text(headers, rows, [title]))
-    write_text(files[1], common.csv_text(["t_days", "node", "x_km", "y_km", "z_km", "dv_x_mps", "dv_y_mps",
-                                          "dv_z_mps", "dv_design_mps"] + ([key] if table else []), mrows,
-                                         [title, "Δv vectors in the rotating frame"]
-                                         + [f"{k}: {v}" for k, v in models.items()] + ([warn] if warn else [])))
+    write_text(files[1], common.csv_text(mheaders, mrows, [title, "Δv vectors in the rotating frame"]
+                                         + [f"{k}: {v}" for k, v in models.items()] + warnings))
     payload = {"system": system.to_dict(), "stitched": stitched.to_dict(),
                "routes": [_route_dict(r, name) for r in routes], "dv_models": models,
-               "maneuvers": [dict(m, dv_design_mps=m["dv_mps"], **({key: table[i]["dv_exported_mps"]} if table else {}))
-                             for i, m in enumerate(stitched.maneuvers)],
-               "dv_warnings": [warn] if warn else []}
+               "maneuvers": mans, "dv_warnings": warnings}
     write_text(files[2], common.json_text(payload))
     return files
 

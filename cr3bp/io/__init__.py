@@ -1,3 +1,3 @@
 """Files in and out: trajectory sampling and the OEM, CSV and JSON writers and readers
-(:mod:`.export`), plain JSON values (:mod:`.plain`), and every file written to a temporary name
+(:mod:`.export`), a stitched route's trajectory table and export (:mod:`.route`), plain JSON values (:mod:`.plain`), and every file written to a temporary name
 and renamed into place (:mod:`.atomic`)."""

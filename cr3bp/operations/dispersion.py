@@ -112,7 +112,7 @@ def manifold_insertion(orbit, phase_deg: float, coast_tu: float, burn_mps: float
 
 
 def after_last_maneuver(leg) -> Nominal:
-    """The arc of a computed leg (:class:`cr3bp.tubes.connections.Leg`) from its last maneuver
+    """The arc of a computed leg (:class:`cr3bp.transfers.leg.Leg`) from its last maneuver
     to its arrival (``tof_arrival``, else ``tof``): the segment that starts at that maneuver."""
     s = leg.system
     s.require_dimensional("an insertion dispersion in km and m/s")

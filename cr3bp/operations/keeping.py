@@ -429,7 +429,7 @@ def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, mi
                workers: int | None = None, scheduler=None, progress=None) -> dict:
     """:func:`simulate` over ``trials`` trials, in this process (``workers`` None or 1; the
     compiled propagation runs the trials on parallel threads) or over a process pool of
-    ``workers`` processes, with the pool helpers of :mod:`cr3bp.transfers.graph` (workers die with
+    ``workers`` processes, with the pool helpers of :mod:`cr3bp.transfers.tasks` (workers die with
     the parent, Ctrl-C goes to the parent). The result does not depend on ``workers``.
     Measured (200 trials, a year of the 9:2 NRHO, 2 shared cores): 17 s in this process, 27 s
     on a pool of 2 (the workers' start-up), so this process is the default.
@@ -452,16 +452,16 @@ def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, mi
         return res
     import multiprocessing
     from concurrent.futures import ProcessPoolExecutor, as_completed
-    from ..transfers import graph
+    from ..transfers import tasks
     size = max(1, math.ceil(n / (CHUNKS_PER_WORKER * workers)))
     chunks = [list(range(a, min(a + size, n))) for a in range(0, n, size)]
-    ctx = multiprocessing.get_context("spawn")     # as graph_build: no fork under compiled threads
+    ctx = multiprocessing.get_context("spawn")     # as transfers.tasks: no fork under compiled threads
     ex = ProcessPoolExecutor(max_workers=min(workers, len(chunks)), mp_context=ctx,
-                             initializer=graph.worker_init, initargs=(os.getpid(),))
+                             initializer=tasks.worker_init, initargs=(os.getpid(),))
     parts = []
     done = 0
     try:
-        with graph._sigint_ignored():
+        with tasks.sigint_ignored():
             futs = [ex.submit(_chunk, {"reference": ref, "errors": errors, "trials": c, "seed": seed,
                                        "min_burn_mps": min_burn_mps}) for c in chunks]
         for f in as_completed(futs):
@@ -471,7 +471,7 @@ def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, mi
             if progress:
                 progress(done, n)
     except BaseException:
-        graph.stop_pool(ex)
+        tasks.stop_pool(ex)
         raise
     ex.shutdown(wait=True)
     return _merge(parts, n)

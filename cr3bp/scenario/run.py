@@ -671,7 +671,8 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
     if routes:     # the route tables again, now with the exported Δv beside the design's
         from .transfers import write_route_tables
         for name in routes:
-            write_route_tables(plan, name, routes[name], out, [e for e in exports if e["object"] == name])
+            write_route_tables(plan, name, routes[name], out, stitched[name],
+                               [e for e in exports if e["object"] == name])
 
     # ---- figures ----------------------------------------------------------------------
     figures = _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progress)

@@ -1,6 +1,6 @@
-"""Transfers of a mission run: the scenario's transfers become node lists for the transfer
-graph (:mod:`cr3bp.transfers.graph`), whose best route is stitched (:mod:`cr3bp.transfers.stitch`) and
-drawn, and whose stitched trajectory the exports sample."""
+"""Transfers of a mission run: each scenario transfer becomes a node list whose design
+(:func:`cr3bp.transfers.design.design_transfer`: graph, ranked routes, Pareto set, the best route
+stitched) is written as tables and drawn, and whose stitched trajectory the exports sample."""
 
 from __future__ import annotations
 
@@ -25,59 +25,53 @@ def orbit_text(entry: dict) -> str:
     return " ".join(words)
 
 
-def _toml_str(v: str) -> str:
-    return '"' + str(v).replace("\\", "\\\\").replace('"', '\\"') + '"'
-
-
-def node_list_text(plan, transfer: dict) -> str:
-    """A node list (TOML, the format of :mod:`cr3bp.transfers.nodes`) for one scenario transfer."""
-    names = [transfer["from"], *transfer.get("via", []), transfer["to"]]
-    lines = ["[settings]", "all_pairs = true", ""]
-    seen = set()
-    for n in names:
-        if n in seen:
-            continue
-        seen.add(n)
-        lines.append("[[node]]")
-        if n.startswith("parking "):
-            parts = n.split()
-            if len(parts) != 3:
-                raise InputError(f"'{n}' must read 'parking BODY ALTITUDE', e.g. 'parking earth 200km'")
-            lines += [f"name = {_toml_str(n)}", 'kind = "parking"', f"body = {_toml_str(parts[1])}",
-                      f"altitude = {_toml_str(parts[2])}"]
-        else:
-            lines += [f"name = {_toml_str(n)}", 'kind = "orbit"',
-                      f"orbit = {_toml_str(orbit_text(plan.data['orbits'][n]))}"]
-        lines.append("")
-    return "\n".join(lines)
+def transfer_nodes(plan, index: int, transfer: dict):
+    """The node list of one scenario transfer (every node to every other, the node-list
+    defaults), built directly: the orbits by their request text, ``"parking BODY ALTITUDE"``
+    as a parking orbit. The nodes carry the scenario's names."""
+    from ..transfers.nodes import NodeList, orbit_node, parking_node
+    system = plan.system
+    nodes = []
+    for n in dict.fromkeys([transfer["from"], *transfer.get("via", []), transfer["to"]]):
+        try:
+            if n.startswith("parking "):
+                parts = n.split()
+                if len(parts) != 3:
+                    raise InputError(f"'{n}' must read 'parking BODY ALTITUDE', e.g. 'parking earth 200km'")
+                nodes.append(parking_node(n, system, parts[1], parts[2]))
+            else:
+                nodes.append(orbit_node(n, system, orbit_text(plan.data["orbits"][n])))
+        except InputError as e:
+            raise InputError(f"transfer '{transfer['name']}': node '{n}': {e}") from None
+    return NodeList(None, tuple(nodes), file=f"{plan.path} [transfers {index}]")
 
 
 def design_transfers(plan, orbits, out, *, catalog=None, workers=None, scheduler=None, progress=None,
                      reduced=False):
-    """Build, search and stitch every scenario transfer; write its tables and figures.
+    """Design every scenario transfer (:func:`cr3bp.transfers.design.design_transfer`, the
+    pipeline ``librate route`` runs too); write its tables and figures.
 
     Returns ``(routes, stitched, figures)``: per transfer name, a summary dict for the report and
     the :class:`cr3bp.transfers.stitch.StitchedRoute`; the figures written (name -> path and caption).
     """
     from .. import units
     from ..io.atomic import write_text
-    from ..transfers.graph import build_graph
-    from ..transfers.search import Constraints, best_routes, pareto_routes
-    from ..transfers.nodes import find_node, parse_nodes
-    from ..transfers.stitch import stitch_route, trajectory_rows
+    from ..io.route import trajectory_rows
+    from ..transfers.design import design_transfer
+    from ..transfers.nodes import find_node
+    from ..transfers.search import Constraints
     system = plan.system
     routes, stitched = {}, {}
     figures = {}
     for i, t in enumerate(plan.data.get("transfers", [])):
         name = t["name"]
         say(progress, f"transfer '{name}': building the transfer graph")
-        nodelist = parse_nodes(node_list_text(plan, t), system, file=f"{plan.path} [transfers {i}]")
+        nodelist = transfer_nodes(plan, i, t)
         nodes = nodelist.nodes
 
         def tick(done, total, leg, _n=name):
             if done == total or done % 5 == 0:
                 say(progress, f"transfer '{_n}': leg {done} of {total}")
-        built = build_graph(system, nodelist, workers=workers, scheduler=scheduler, catalog=catalog, progress=tick)
         src, dst = find_node(nodes, t["from"]), find_node(nodes, t["to"])
         through = tuple(find_node(nodes, v).id for v in t.get("via", []))
         dv = system.mps(units.velocity(t["max_dv"], system)) if "max_dv" in t else None
@@ -85,18 +79,15 @@ def design_transfers(plan, orbits, out, *, catalog=None, workers=None, scheduler
         c = Constraints(max_dv_mps=dv, max_tof_days=tof, through=through)
         label = {n.id: n.name for n in nodes}
         try:
-            ranked = best_routes(built.graph, src.id, dst.id, c, "dv", int(t.get("best", 3)))
+            design = design_transfer(system, nodelist, src, dst, c, objective="dv", best=int(t.get("best", 3)),
+                                     workers=workers, scheduler=scheduler, catalog=catalog, progress=tick,
+                                     on_stage=lambda stage, _, _n=name: stage == "stitching" and say(
+                                         progress, f"transfer '{_n}': stitching the best route by multiple shooting"))
         except NoSolutionError as e:
-            msg = str(e)
-            for nid, nm in label.items():
-                msg = msg.replace(f"'{nid}'", f"'{nm}'")
-            why = sorted({p["reason"] for p in built.pruned})
-            raise NoSolutionError(f"transfer '{name}': {msg}" + (f" (not attempted: {'; '.join(why)})" if why else "")) from None
-        front = pareto_routes(built.graph, src.id, dst.id, c)
-        say(progress, f"transfer '{name}': stitching the best route by multiple shooting")
-        periods = {u: d["leg"]["period_tu"] for u, v, k, d in built.graph.edges(keys=True, data=True)
-                   if u == v and k == "stay" and "period_tu" in d.get("leg", {})}
-        st = stitch_route(system, ranked[0], c, periods=periods)
+            raise NoSolutionError(f"transfer '{name}': {e}") from None
+        if design.stitched is None:
+            raise NoSolutionError(f"transfer '{name}': the best route is not stitched: {design.not_stitched}")
+        ranked, front, st = design.routes, design.pareto, design.stitched
         stitched[name] = st
 
         def rd(r):
@@ -113,54 +104,33 @@ def design_transfers(plan, orbits, out, *, catalog=None, workers=None, scheduler
                                  "(coasts included), largest position jump "
                                  f"{st.continuity_lu * system.length_km * 1e3:.2e} m; {st.note}")}
         routes[name]["labels"] = {str(k): v for k, v in label.items()}
-        write_route_tables(plan, name, routes[name], out)
+        write_route_tables(plan, name, routes[name], out, st)
         headers, rows = trajectory_rows(st)
         write_text(out.path(f"route-{name}-trajectory.csv"), csv_text(headers, rows, [f"stitched transfer {name}"]))
         figures.update(_figures(plan, t, orbits, ranked, front, st, out))
     return routes, stitched, figures
 
 
-DV_DESIGN_NOTE = "the CR3BP design, rotating frame, fixed units (the route's dv_mps and dv_vector_mps too)"
-
-
-def write_route_tables(plan, name, summary, out, exported=()):
+def write_route_tables(plan, name, summary, out, stitched, exported=()):
     """``route-NAME.json`` and ``route-NAME-maneuvers.csv``: the stitched route's maneuvers with
-    their design (CR3BP) Δv and, per export of this transfer (``exported``: dicts with ``file``
-    and ``maneuvers``, the rows of :func:`cr3bp.io.export.maneuver_table`), the Δv measured on the
-    exported trajectory, side by side and labelled, with a warning line where they differ by
-    more than 1 %. Written after the design and again once the exports exist."""
+    their design (CR3BP) Δv and, per export of this transfer (``exported``: dicts with ``file``,
+    ``anchor``, ``frame``, ``center`` and ``maneuvers``, the rows of
+    :func:`cr3bp.io.export.maneuver_table`), the Δv measured on the exported trajectory
+    (:func:`cr3bp.transfers.design.maneuver_columns`, the columns ``librate route`` writes too).
+    Written after the design and again once the exports exist."""
     from ..io.atomic import write_text
-    from ..io.export import dv_differs
-    label = summary.get("labels", {})
-    mans = [dict(m, dv_design_mps=m["dv_mps"]) for m in summary["maneuvers"]]
-    models = {"dv_design_mps": DV_DESIGN_NOTE}
-    warnings = []
-    for e in exported:
-        rows = e["maneuvers"]
-        if len(rows) != len(mans):
-            continue
-        key = f"dv_exported_mps[{e['file']}]"
-        models[key] = (f"the velocity jump of the exported trajectory in {e['file']} ({e['anchor']} anchoring, "
-                       f"{e['frame']}, centre {e['center']})")
-        for m, r in zip(mans, rows):
-            m[key] = r["dv_exported_mps"]
-            if dv_differs(r):
-                warnings.append(f"WARNING: transfer '{name}', maneuver at {m['t_days']:.4f} d "
-                                f"({label.get(m['node'], m['node'])}): design (CR3BP) {m['dv_design_mps']:.1f} m/s, "
-                                f"exported in {e['file']} {r['dv_exported_mps']:.1f} m/s "
-                                f"({r['dv_change_percent']:+.1f}%): budget with the model you will fly")
+    from ..transfers.design import maneuver_columns
+    headers, rows, mans, models, warnings = maneuver_columns(stitched, [
+        dict(e, description=f"{e['anchor']} anchoring, {e['frame']}, centre {e['center']}") for e in exported])
+    warnings = [f"WARNING: transfer '{name}', {w}" for w in warnings]
     summary["maneuvers_labelled"] = mans
     summary["dv_models"] = models
     summary["dv_warnings"] = warnings
     body = {k: v for k, v in summary.items() if k not in ("labels", "maneuvers_labelled")}
     body["maneuvers"] = mans
     write_text(out.path(f"route-{name}.json"), json_text({"caution": plan_caution(), "transfer": name, **body}))
-    keys = [k for k in models if k != "dv_design_mps"]
     write_text(out.path(f"route-{name}-maneuvers.csv"), csv_text(
-        ["t_days", "node", "x_km", "y_km", "z_km", "dv_x_mps", "dv_y_mps", "dv_z_mps", "dv_design_mps"] + keys,
-        [[m["t_days"], label.get(m["node"], m["node"]), *m["position_km"], *m["dv_vector_mps"], m["dv_design_mps"],
-          *(m[k] for k in keys)] for m in mans],
-        [f"maneuvers of transfer {name}; Δv vectors in the rotating frame"]
+        headers, rows, [f"maneuvers of transfer {name}; Δv vectors in the rotating frame"]
         + [f"{k}: {v}" for k, v in models.items()] + warnings))
 
 
@@ -198,7 +168,7 @@ def route_orbits(transfer: dict, orbits: dict) -> list:
 def transfer_trajectory(plan, st, spec, ts, step_s, ex, model):
     """The stitched transfer sampled on the export's clock, with its maneuvers."""
     from ..io import export
-    from ..transfers.stitch import to_export
+    from ..io.route import to_export
     base = to_export(st, spec, ex["object"].upper())
     span = float(st.times_tu[-1] - st.times_tu[0])
     grid = export.epoch_grid(spec, ts, span, step_s)

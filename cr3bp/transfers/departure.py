@@ -845,7 +845,7 @@ def closure_km(dep: Departure, propagator=None) -> float:
 
 def as_plain_leg(dep: Departure, patches: int = 4) -> dict:
     """``dep`` as the plain leg dict of the transfer graph (the keys of
-    :func:`cr3bp.transfers.stitch.leg_from_connection`): each coast cut into ``patches``
+    :meth:`cr3bp.transfers.leg.Leg.record`): each coast cut into ``patches``
     shooting segments, the burns as maneuvers (``where``: departure, patch, arrival), the
     departure state on the parking orbit before the burn and the orbit's state after
     insertion."""

@@ -10,8 +10,9 @@ pruned, with the reason.
 
 Compute. A task is a plain dict (system, both nodes with their states, settings); the worker
 function :func:`compute_leg` is a module-level function of that dict alone, so it pickles to a
-``concurrent.futures.ProcessPoolExecutor`` or to a dask worker, and the same task gives the
-same leg byte for byte wherever it runs.
+``concurrent.futures.ProcessPoolExecutor`` or to a dask worker (run by
+:mod:`cr3bp.transfers.tasks`), and the same task gives the same leg byte for byte wherever it
+runs.
 
 Cache. Each leg is stored in the catalogue under a key made of both nodes' ids, the settings
 and the leg format; a rebuild reads every known leg and computes none of them. Legs that
@@ -24,23 +25,21 @@ from __future__ import annotations
 import hashlib
 import json
 import math
-import os
 from dataclasses import dataclass, field
 
 import networkx as nx
 import numpy as np
 
 from . import search
+from . import tasks as tasks_mod
 from ..errors import InputError, LibrateError
 from .nodes import BoundaryNode, OrbitNode, ParkingNode, node_state
-from .targeting import LEG_FORMAT
+from .leg import LEG_FORMAT
 
 #: Two Jacobi constants closer than this count as one energy (ballistic legs).
 SAME_ENERGY = 1e-9
 #: A leg declared ballistic ("maneuvers = none") is kept only under this total Δv, m/s.
 BALLISTIC_DV_MPS = 0.01
-#: Chunks of legs per pool worker (progress is reported as each chunk completes).
-CHUNKS_PER_WORKER = 4
 #: Trajectories per manifold tube of a connection leg.
 TUBE_POINTS = 80
 #: Manifold trajectories searched for a periapsis at the parking altitude.
@@ -151,42 +150,6 @@ def compute_leg(task: dict) -> dict:
 
 # ---- planning --------------------------------------------------------------------------
 
-def realm(system, position) -> str:
-    """Which realm a position lies in: "larger" (inside the L1 neck's side of the larger
-    primary), "smaller" (between L1 and L2), or "exterior" (beyond L2, or farther from the
-    barycentre than L3). A coarse split by the collinear points' x (common practice)."""
-    from ..equilibria import lagrange_point
-    x = float(position[0])
-    r = float(np.linalg.norm(position[:2]))
-    x1, x2 = lagrange_point(system, "L1").position[0], lagrange_point(system, "L2").position[0]
-    x3 = abs(lagrange_point(system, "L3").position[0])
-    if r > x3 and x < x1:
-        return "exterior"
-    if x < x1:
-        return "larger"
-    return "smaller" if x <= x2 else "exterior"
-
-
-def _necks_between(a: str, b: str) -> tuple:
-    pair = {a, b}
-    if pair == {"larger", "smaller"}:
-        return ("L1",)
-    if pair == {"smaller", "exterior"}:
-        return ("L2",)
-    if pair == {"larger", "exterior"}:
-        return ("L3",)
-    return ()
-
-
-#: Realms an orbit about a collinear point touches (it sits in that point's neck).
-NECK_REALMS = {"L1": {"larger", "smaller"}, "L2": {"smaller", "exterior"}, "L3": {"larger", "exterior"}}
-
-
-def realms_of(system, position, point: str = "") -> set:
-    """The realm(s) a node is in: an orbit about L1..L3 touches the two realms its neck joins."""
-    return set(NECK_REALMS[point]) if point in NECK_REALMS else {realm(system, position)}
-
-
 def energy_prune(system, c_from, c_to, r_from, r_to, maneuvers: str, point_from="", point_to="") -> str | None:
     """Why no leg is attempted (None: attempt it). Only ballistic pairs are pruned: different
     energies, or every way between their realms through a closed neck."""
@@ -194,7 +157,7 @@ def energy_prune(system, c_from, c_to, r_from, r_to, maneuvers: str, point_from=
         return None
     if abs(c_from - c_to) > SAME_ENERGY:
         return f"no maneuver allowed and the Jacobi constants differ ({c_from:.9f} vs {c_to:.9f})"
-    from ..energy import necks
+    from ..energy import necks, necks_between, realms_of
     opened = necks(system, c_from)
     ra, rb = realms_of(system, r_from, point_from), realms_of(system, r_to, point_to)
     if ra & rb:
@@ -202,7 +165,7 @@ def energy_prune(system, c_from, c_to, r_from, r_to, maneuvers: str, point_from=
     closed = set()
     for a in ra:
         for b in rb:
-            need = _necks_between(a, b)
+            need = necks_between(a, b)
             if all(opened[p] for p in need):
                 return None
             closed.update(p for p in need if not opened[p])
@@ -241,9 +204,8 @@ def _orbit_from_plain(system, d: dict):
 
 def _manifold_leg(system, task) -> dict:
     """The cheapest connection between two orbit nodes over the hinted sections
-    (:func:`cr3bp.tubes.connections.connect`), as a plain leg dict."""
+    (:func:`cr3bp.tubes.connections.connect`), as a leg record (:data:`cr3bp.transfers.leg.RECORD_KEYS`)."""
     from ..tubes.connections import connect
-    from .stitch import leg_from_connection
     st = task["settings"]
     a = _orbit_from_plain(system, task["from"]["orbit_data"])
     b = _orbit_from_plain(system, task["to"]["orbit_data"])
@@ -258,22 +220,22 @@ def _manifold_leg(system, task) -> dict:
         from ..errors import NoSolutionError
         raise NoSolutionError("no manifold connection: " + ("; ".join(reasons) or "the cuts do not meet"))
     best = min(found, key=lambda lg: (lg.dv_mps, lg.tof))
-    return _with_arrival(leg_from_connection(system, best, st["patches"]), best)
+    return _with_arrival(best.record(st["patches"]), best)
 
 
 def _with_arrival(plain: dict, leg) -> dict:
     """The plain leg dict with the time of flight to arrival of the
-    :class:`cr3bp.tubes.connections.Leg` it came from (see :data:`cr3bp.tubes.connections.TOF_DEFINITIONS`)."""
+    :class:`cr3bp.transfers.leg.Leg` it came from (see :data:`cr3bp.transfers.leg.TOF_DEFINITIONS`)."""
     plain["tof_arrival_days"] = float(leg.tof_arrival_days)
     plain["arrival_distance_km"] = None if math.isnan(leg.arrival_distance_km) else float(leg.arrival_distance_km)
     return plain
 
 
 def _periapsis_legs(orbit, body, altitude_km, stability, n_points) -> list:
-    """Legs of :func:`cr3bp.tubes.connections.parking_legs` through the orbit's manifold and its first
+    """Legs of :func:`cr3bp.tubes.parking.parking_legs` through the orbit's manifold and its first
     periapsis at ``altitude_km`` over ``body``: the interior branch, then the exterior one if
     the interior gives none. Raises NoSolutionError with both branches' reasons."""
-    from ..tubes.connections import parking_legs
+    from ..tubes.parking import parking_legs
     from ..errors import NoSolutionError
     found, reasons = [], []
     for branch in ("interior", "exterior"):
@@ -289,10 +251,9 @@ def _periapsis_legs(orbit, body, altitude_km, stability, n_points) -> list:
 
 def _parking_leg(system, task) -> dict:
     """The cheapest leg between a parking orbit and an orbit node through the orbit's manifold
-    and its first periapsis at the parking altitude (:func:`cr3bp.tubes.connections.parking_legs`:
+    and its first periapsis at the parking altitude (:func:`cr3bp.tubes.parking.parking_legs`:
     stable manifold to arrive at the orbit, unstable to leave it; interior branch, then
-    exterior), as a plain leg dict."""
-    from .stitch import leg_from_connection
+    exterior), as a leg record (:data:`cr3bp.transfers.leg.RECORD_KEYS`)."""
     st = task["settings"]
     arrive = st["arrive"]                     # parking -> orbit
     orbit = _orbit_from_plain(system, task["to" if arrive else "from"]["orbit_data"])
@@ -307,13 +268,13 @@ def _parking_leg(system, task) -> dict:
         from .departure import as_plain_leg, design_departure
         return as_plain_leg(design_departure(orbit, st["altitude_km"], path="direct"), st["patches"])
     best = min(found, key=lambda lg: (lg.dv_mps, lg.tof))
-    return _with_arrival(leg_from_connection(system, best, st["patches"]), best)
+    return _with_arrival(best.record(st["patches"]), best)
 
 
 def _boundary_leg(system, task) -> dict:
     """The fastest ballistic way from an orbit node to a capture or escape condition along the
     orbit's unstable manifold (interior branch, then exterior): for a capture, the first
-    periapsis at the capture altitude about the body (:func:`cr3bp.tubes.connections.parking_legs`,
+    periapsis at the capture altitude about the body (:func:`cr3bp.tubes.parking.parking_legs`,
     its insertion impulse left out: a capture node asks for the arrival condition, not an
     orbit); for an escape, the first crossing of the escape distance from the body. Zero Δv."""
     from ..tubes.manifolds import Stop, grow_tube
@@ -323,10 +284,9 @@ def _boundary_leg(system, task) -> dict:
     orbit = _orbit_from_plain(system, task["from"]["orbit_data"])
     reasons = []
     if task["method"] == "capture":
-        from .stitch import leg_from_connection
         found = _periapsis_legs(orbit, st["body"], st["distance_km"], "unstable", st["tube_points"])
         best = min(found, key=lambda lg: lg.tof)
-        leg = leg_from_connection(system, best, st["patches"])
+        leg = best.record(st["patches"])
         # the arrival condition itself: the state at periapsis before any insertion impulse
         leg["arrival_state"] = leg["final_state"]
         leg["maneuvers"] = [m for m in leg["maneuvers"] if m["where"] != "arrival"]
@@ -413,7 +373,7 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
                            f"manifolds), not from the {a.kind} node '{a.name}'")
             elif isinstance(n, ParkingNode):
                 # a leg from or to a parking orbit has a free phase: the primary-to-orbit legs of
-                # cr3bp.tubes.connections, between a parking orbit and a periodic orbit only
+                # cr3bp.tubes.parking, between a parking orbit and a periodic orbit only
                 other = b if n is a else a
                 if not isinstance(other, OrbitNode):
                     why = (f"parking node '{n.name}' joins periodic orbits only (manifold legs through "
@@ -460,135 +420,11 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
 # ---- running the tasks --------------------------------------------------------------------
 
 def run_tasks(tasks, workers=None, scheduler=None, progress=None) -> list:
-    """Results of :func:`compute_leg` over ``tasks``, in task order.
-
-    ``scheduler``: address of a dask.distributed scheduler (or a ``distributed.Client``);
-    otherwise a process pool of ``workers`` processes (default: the machine's cores; 1 runs
-    in this process)."""
-    n = len(tasks)
-    out = [None] * n
-    done = 0
-
-    def tick(i, leg):
-        nonlocal done
-        out[i] = leg
-        done += 1
-        if progress is not None:
-            progress(done, n, leg)
-
-    if n == 0:
-        return []
-    if scheduler is not None:
-        try:
-            from distributed import Client, as_completed
-        except ImportError:
-            raise InputError("--scheduler needs dask.distributed: pip install 'librate[cluster]'") from None
-        client = scheduler if isinstance(scheduler, Client) else Client(scheduler, timeout="20s")
-        try:
-            futures = client.map(compute_leg, tasks, pure=False)
-            index = {f.key: i for i, f in enumerate(futures)}
-            for f in as_completed(futures):
-                tick(index[f.key], f.result())
-        finally:
-            if client is not scheduler:
-                client.close()
-        return out
-    workers = (os.cpu_count() or 1) if workers is None else int(workers)
-    if workers < 1:
-        raise InputError(f"--workers {workers} must be at least 1")
-    if workers == 1 or n == 1:
-        for i, t in enumerate(tasks):
-            tick(i, compute_leg(t))
-        return out
-    import multiprocessing
-    from concurrent.futures import ProcessPoolExecutor, as_completed as done_first
-    # spawn, not fork: a forked child of a process whose compiled kernels have started their
-    # thread pool (propagate_batch runs prange) may crash; a script that builds a graph with a
-    # pool therefore needs the usual `if __name__ == "__main__":` guard
-    ctx = multiprocessing.get_context("spawn")
-    # legs take milliseconds with the compiled integrator: send them in chunks (a few per
-    # worker) so that process start-up and pickling do not outweigh the work
-    size = max(1, math.ceil(n / (CHUNKS_PER_WORKER * workers)))
-    chunks = [list(range(a, min(a + size, n))) for a in range(0, n, size)]
-    ex = ProcessPoolExecutor(max_workers=min(workers, len(chunks)), mp_context=ctx,
-                             initializer=worker_init, initargs=(os.getpid(),))
-    try:
-        # the workers are started by the submissions, with SIGINT blocked until worker_init
-        # ignores it
-        with _sigint_ignored():
-            futs = {ex.submit(compute_legs, [tasks[i] for i in c]): c for c in chunks}
-        for f in done_first(futs):
-            for i, leg in zip(futs[f], f.result()):
-                tick(i, leg)
-    except BaseException:
-        # Ctrl-C or an error: stop the workers now instead of waiting for their chunks
-        stop_pool(ex)
-        raise
-    ex.shutdown(wait=True)
-    return out
-
-
-def stop_pool(ex) -> None:
-    """Stop a process pool at once (Ctrl-C or an error): cancel what has not started and
-    terminate the workers instead of waiting for their chunks."""
-    procs = list((getattr(ex, "_processes", None) or {}).values())
-    ex.shutdown(wait=False, cancel_futures=True)
-    for p in procs:
-        if p.is_alive():
-            p.terminate()
-    for p in procs:
-        p.join(timeout=5)
-
-
-class _sigint_ignored:
-    """SIGINT blocked inside the block (POSIX; elsewhere a no-op). Processes started inside it
-    inherit the blocked signal across exec, so a Ctrl-C while they import cannot make them print
-    a traceback; one that arrived meanwhile is delivered to this process when the block ends."""
-
-    def __enter__(self):
-        import signal
-        self.old = None
-        if hasattr(signal, "pthread_sigmask"):
-            self.old = signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGINT})
-        return self
-
-    def __exit__(self, *exc):
-        import signal
-        if self.old is not None:
-            signal.pthread_sigmask(signal.SIG_SETMASK, self.old)
-        return False
-
-
-#: Linux prctl option: the signal a process gets when its parent dies (linux/prctl.h).
-PR_SET_PDEATHSIG = 1
-
-
-def worker_init(parent_pid=None):
-    """Initializer of every pool worker: die with the parent, and leave Ctrl-C to it.
-
-    A worker ignores SIGINT (the terminal sends it to the whole process group; the parent
-    reports the interruption once and stops the pool) and, on Linux, asks the kernel for
-    SIGKILL when its parent dies (prctl PR_SET_PDEATHSIG, prctl(2)), so that a killed
-    ``librate`` leaves no worker holding the terminal's pipes. If the parent is already gone
-    when the worker starts, it exits at once.
-    """
-    import signal
-    import sys
-    signal.signal(signal.SIGINT, signal.SIG_IGN)
-    if sys.platform.startswith("linux"):
-        try:
-            import ctypes
-            libc = ctypes.CDLL(None, use_errno=True)
-            libc.prctl(PR_SET_PDEATHSIG, signal.SIGKILL, 0, 0, 0)
-        except (OSError, AttributeError):    # no prctl: workers end when the pool's pipes close
-            pass
-    if parent_pid is not None and os.getppid() != parent_pid:
-        os._exit(1)
-
-
-def compute_legs(tasks: list) -> list:
-    """:func:`compute_leg` over a chunk of tasks (one pool submission)."""
-    return [compute_leg(t) for t in tasks]
+    """Results of :func:`compute_leg` over ``tasks``, in task order, run by
+    :func:`cr3bp.transfers.tasks.run_tasks` (``scheduler``: a dask.distributed scheduler's
+    address or a ``distributed.Client``; otherwise a process pool of ``workers`` processes,
+    default the machine's cores; 1 runs in this process)."""
+    return tasks_mod.run_tasks(compute_leg, tasks, workers, scheduler, progress)
 
 
 def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None, progress=None,

@@ -329,30 +329,43 @@ def parse_nodes(text: str, system, file: str = "<nodes>") -> NodeList:
 
 
 def _node(t: dict, system):
-    kind, name, sname = t["kind"], t["name"], system.name
+    kind, name = t["kind"], t["name"]
     if kind == "orbit":
-        from ..orbits.request import parse_request
-        spec = parse_request(t["orbit"])          # InputError names the bad word
-        if not spec.key:
-            raise InputError(f"orbit '{shown(t['orbit'])}' has no target; add e.g. period=, jacobi=, az=")
-        return OrbitNode(name, sname, t["orbit"])
+        return orbit_node(name, system, t["orbit"])
     if kind == "state":
         from .. import validate
         s = validate.state(system, t["state"], "state")
-        return StateNode(name, sname, tuple(float(v) for v in s))
-    body = _body(system, t["body"])
+        return StateNode(name, system.name, tuple(float(v) for v in s))
     if kind == "parking":
-        alt = units.parse(t["altitude"], "length").si()
-        if not alt > 0:
-            raise InputError(f"altitude {shown(t['altitude'])} must be positive")
-        inc = float(t.get("inclination", 0.0))
-        if not (math.isfinite(inc) and 0.0 <= inc <= 180.0):
-            raise InputError(f"inclination {inc!r} is outside 0..180 degrees")
-        return ParkingNode(name, sname, body, alt, inc)
+        return parking_node(name, system, t["body"], t["altitude"], t.get("inclination", 0.0))
+    body = _body(system, t["body"])
     dist = units.parse(t["altitude" if kind == "capture" else "radius"], "length").si()
     if not dist > 0:
         raise InputError(f"the distance of the {kind} condition must be positive")
-    return BoundaryNode(name, sname, kind, body, dist)
+    return BoundaryNode(name, system.name, kind, body, dist)
+
+
+def orbit_node(name: str, system, orbit: str) -> OrbitNode:
+    """The node of the periodic orbit that the request text ``orbit`` names (checked:
+    InputError names a bad word or a missing target)."""
+    from ..orbits.request import parse_request
+    spec = parse_request(orbit)          # InputError names the bad word
+    if not spec.key:
+        raise InputError(f"orbit '{shown(orbit)}' has no target; add e.g. period=, jacobi=, az=")
+    return OrbitNode(name, system.name, orbit)
+
+
+def parking_node(name: str, system, body: str, altitude, inclination=0.0) -> ParkingNode:
+    """The node of a circular parking orbit about ``body`` (a primary's name) at ``altitude``
+    (text with a length unit, e.g. ``"200km"``), ``inclination`` degrees (checked: InputError)."""
+    body = _body(system, body)
+    alt = units.parse(altitude, "length").si()
+    if not alt > 0:
+        raise InputError(f"altitude {shown(altitude)} must be positive")
+    inc = float(inclination)
+    if not (math.isfinite(inc) and 0.0 <= inc <= 180.0):
+        raise InputError(f"inclination {inc!r} is outside 0..180 degrees")
+    return ParkingNode(name, system.name, body, alt, inc)
 
 
 def _body(system, text) -> str:

@@ -46,7 +46,7 @@ class Route(Shown):
     ``tof_arrival_days`` is the time from departure until the route first comes within
     ``arrival_distance_km`` of its final orbit: the step-off times of every leg but the last,
     plus the last leg's time of flight to arrival (edge ``tof_arrival_days``; see
-    :data:`cr3bp.tubes.connections.TOF_DEFINITIONS`). Caps and ranking by time use ``tof_days``, the
+    :data:`cr3bp.transfers.leg.TOF_DEFINITIONS`). Caps and ranking by time use ``tof_days``, the
     longer of the two.
     """
 
@@ -247,10 +247,18 @@ def pareto_routes(graph, source, target, constraints: Constraints = Constraints(
     return front
 
 
+def node_label(graph, node) -> str:
+    """What a person calls ``node``: its ``name`` attribute in the graph (the name a node list or
+    scenario gave it), else the node id itself."""
+    return str(graph.nodes[node].get("name", node)) if node in graph else str(node)
+
+
 def explain_no_route(graph, source, target, constraints: Constraints, objective="dv") -> str:
-    """A one-line reason: which constraint binds and what the best route without it costs."""
+    """A one-line reason: which constraint binds and what the best route without it costs.
+    Nodes are named by :func:`node_label`."""
     if not nx.has_path(graph, source, target):
-        return f"no chain of legs joins '{source}' to '{target}' in the graph"
+        return (f"no chain of legs joins '{node_label(graph, source)}' to '{node_label(graph, target)}' "
+                "in the graph")
     parts = []
     for name in constraints.active():
         relaxed = constraints.without(name)

@@ -8,7 +8,7 @@ Systems, the Three-Body Problem and Space Mission Design*, 2011, §4.6 "differen
 from memory). The leg costs the impulse at departure plus the one at arrival that matches the
 arrival node's velocity. Manifold legs come from :mod:`cr3bp.tubes.connections`.
 
-Everything returned is plain data (floats and lists) so that a leg can cross a process
+Everything returned is a leg record (:data:`cr3bp.transfers.leg.RECORD_KEYS`: floats and lists) so that a leg can cross a process
 boundary, go into the catalogue as JSON and come back byte for byte.
 """
 
@@ -19,10 +19,8 @@ import math
 import numpy as np
 
 from ..errors import ConvergenceError
+from .leg import LEG_FORMAT
 
-#: Version of the plain leg dicts (part of their catalogue key). 2: legs carry the time of
-#: flight to arrival (``tof_arrival_days``, ``arrival_distance_km``).
-LEG_FORMAT = 2
 #: Newton iterations on the departure velocity before giving up.
 MAX_ITERATIONS = 30
 #: Arrival position residual accepted, LU (~4e-6 m in Earth-Moon).

@@ -1,0 +1,165 @@
+"""The transfer design pipeline: one function from a node list and a request (from, to,
+constraints) to the ranked routes, the Pareto set and the best route stitched into one
+trajectory with its maneuver table. ``librate route`` and a scenario's ``[[transfers]]`` both
+call :func:`design_transfer`, so the same request gives the same numbers through either.
+
+Stages: the transfer graph (:func:`cr3bp.transfers.graph.build_graph`), the best routes by
+total Δv or time of flight and the Pareto set of the two
+(:mod:`cr3bp.transfers.search`), the best route stitched by multiple shooting with phasing
+coasts along the orbits it meets at different phases (:mod:`cr3bp.transfers.stitch`), and the
+maneuver columns (:func:`maneuver_columns`) both the CLI's and the scenario's tables use.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from ..errors import NoSolutionError
+from .search import Constraints, best_routes, node_label, pareto_routes
+
+#: What the design Δv columns are (the CR3BP, before any export).
+DV_DESIGN_NOTE = "the CR3BP design, rotating frame, fixed units (the route's dv_mps and dv_vector_mps too)"
+#: The columns of a maneuver table before the exported Δv columns.
+MANEUVER_HEADERS = ["t_days", "node", "x_km", "y_km", "z_km", "dv_x_mps", "dv_y_mps", "dv_z_mps", "dv_design_mps"]
+
+
+@dataclass(frozen=True)
+class TransferDesign:
+    """The result of :func:`design_transfer`.
+
+    Attributes
+    ----------
+    built : cr3bp.transfers.graph.BuildResult   the graph and how it was made
+    source, target : nodes                       the request's ends
+    routes : tuple of Route                      ranked by the objective, best first
+    pareto : tuple of Route                      the Pareto set (empty when not asked)
+    stitched : StitchedRoute or None             the best route stitched (None: not asked, or
+                                                 not possible, see ``not_stitched``)
+    not_stitched : str or None                   why the best route was not stitched (None if it was)
+    """
+
+    built: object
+    source: object
+    target: object
+    routes: tuple
+    pareto: tuple
+    stitched: object
+    not_stitched: str | None = None
+
+    @property
+    def graph(self):
+        return self.built.graph
+
+    @property
+    def names(self) -> dict:
+        """Node id -> the name the node list or scenario gave it."""
+        return {n.id: n.name for n in self.built.nodes}
+
+
+def orbit_periods(graph) -> dict:
+    """Orbit node id -> period (TU), from the graph's "stay" self-loops (the phasing coasts of
+    :func:`cr3bp.transfers.stitch.stitch_route` need them)."""
+    return {u: d["leg"]["period_tu"] for u, v, k, d in graph.edges(keys=True, data=True)
+            if u == v and k == "stay" and "period_tu" in d.get("leg", {})}
+
+
+def no_route_reason(built, error, source, target, constraints: Constraints) -> str:
+    """The search's reason why no route exists, plus why the legs at the route's ends (and at
+    the nodes it must pass through) were not attempted."""
+    ends = {source.name, target.name} | {node_label(built.graph, n) for n in constraints.through}
+    why = sorted({p["reason"] for p in built.pruned if any(f"'{e}'" in p["reason"] for e in ends)})
+    return str(error) + (f" (not attempted: {'; '.join(why)})" if why else "")
+
+
+def design_transfer(system, nodelist, source, target, constraints: Constraints = Constraints(), *,
+                    objective: str = "dv", best: int = 3, pareto: bool = True, stitch: bool = True,
+                    workers=None, scheduler=None, catalog=None, tof_days=None, progress=None,
+                    on_stage=None) -> TransferDesign:
+    """Build the transfer graph of ``nodelist``, rank the routes from ``source`` to ``target``,
+    find the Pareto set, and stitch the best route.
+
+    Parameters
+    ----------
+    system : System (dimensional)
+    nodelist : cr3bp.transfers.nodes.NodeList
+    source, target : nodes of ``nodelist`` (see :func:`cr3bp.transfers.nodes.find_node`)
+    constraints : Constraints        caps; ``through`` and ``avoid`` hold node ids
+    objective : {"dv", "tof"}        ranking of the routes
+    best : int                       how many ranked routes
+    pareto, stitch : bool            also find the Pareto set / stitch the best route
+    workers, scheduler, catalog, tof_days, progress : as :func:`cr3bp.transfers.graph.build_graph`
+    on_stage : callable(stage, value), optional  told ``("built", BuildResult)`` once the graph is
+                                     built and ``("stitching", Route)`` before the stitching
+
+    Returns
+    -------
+    TransferDesign
+
+    Raises
+    ------
+    NoSolutionError
+        No route meets the constraints (the message names the binding constraint and the
+        nodes by their names, and why the legs at the ends were not attempted).
+
+    References
+    ----------
+    Route search: Martins, "On a multicriteria shortest path problem", Eur. J. Oper. Res. 16,
+    1984. Stitching: Pavlak & Howell, AAS 11-515, 2011 (from memory), see
+    :mod:`cr3bp.transfers.stitch`.
+    """
+    from .graph import build_graph
+    from .stitch import PhasingError, stitch_route
+    built = build_graph(system, nodelist, workers=workers, scheduler=scheduler, catalog=catalog,
+                        progress=progress, tof_days=tof_days)
+    g = built.graph
+    if on_stage is not None:
+        on_stage("built", built)
+    try:
+        routes = best_routes(g, source.id, target.id, constraints, objective, int(best))
+    except NoSolutionError as e:
+        raise NoSolutionError(no_route_reason(built, e, source, target, constraints)) from None
+    front = pareto_routes(g, source.id, target.id, constraints) if pareto else []
+    stitched, not_stitched = None, None
+    if stitch:
+        if on_stage is not None:
+            on_stage("stitching", routes[0])
+        try:
+            # where two legs meet an orbit at different phases, a coast along it joins them
+            stitched = stitch_route(system, routes[0], constraints, periods=orbit_periods(g))
+        except PhasingError as e:
+            not_stitched = str(e)
+    return TransferDesign(built, source, target, tuple(routes), tuple(front), stitched, not_stitched)
+
+
+def maneuver_columns(stitched, exported=()):
+    """The maneuver table of a stitched route: its design (CR3BP) Δv and, per export
+    (``exported``: dicts with ``file``, ``description`` and ``maneuvers``, the rows of
+    :func:`cr3bp.io.export.maneuver_table`), the Δv measured on the exported trajectory, side by
+    side and labelled, with a warning where they differ by more than 1 %.
+
+    Returns
+    -------
+    (headers, rows, maneuvers, models, warnings) : the CSV header and rows; the maneuvers as
+    dicts with ``dv_design_mps`` and one ``dv_exported_mps[FILE]`` per export; the meaning of
+    each Δv column; the warning lines.
+    """
+    from ..io.export import dv_differs
+    mans = [dict(m, dv_design_mps=m["dv_mps"]) for m in stitched.maneuvers]
+    models = {"dv_design_mps": DV_DESIGN_NOTE}
+    warnings = []
+    for e in exported:
+        rows = e["maneuvers"]
+        if len(rows) != len(mans):
+            continue
+        key = f"dv_exported_mps[{e['file']}]"
+        models[key] = f"the velocity jump of the exported trajectory in {e['file']} ({e['description']})"
+        for m, r in zip(mans, rows):
+            m[key] = r["dv_exported_mps"]
+            if dv_differs(r):
+                warnings.append(f"maneuver at {m['t_days']:.4f} d ({m['node']}): design (CR3BP) "
+                                f"{m['dv_design_mps']:.1f} m/s, exported in {e['file']} {r['dv_exported_mps']:.1f} m/s "
+                                f"({r['dv_change_percent']:+.1f}%): budget with the model you will fly")
+    keys = [k for k in models if k != "dv_design_mps"]
+    rows = [[m["t_days"], m["node"], *m["position_km"], *m["dv_vector_mps"], m["dv_design_mps"], *(m[k] for k in keys)]
+            for m in mans]
+    return MANEUVER_HEADERS + keys, rows, mans, models, warnings
