@@ -682,9 +682,40 @@ def energy_table(system, jacobi_value) -> list[dict]:
 # ---- realms: where a position lies relative to the necks --------------------------------
 
 def realm(system, position) -> str:
-    """Which realm a position lies in: "larger" (inside the L1 neck's side of the larger
-    primary), "smaller" (between L1 and L2), or "exterior" (beyond L2, or farther from the
-    barycentre than L3). A coarse split by the collinear points' x (common practice)."""
+    """Which realm a position lies in.
+
+    ``"larger"`` (the larger primary's side of the L1 neck), ``"smaller"`` (between L1 and
+    L2), or ``"exterior"`` (beyond L2, or farther from the barycentre than L3). A coarse split
+    by the collinear points' x (common practice).
+
+    Parameters
+    ----------
+    system : System
+    position : array_like, shape (3,) or (6,)
+        Rotating-frame position (nondimensional); only x and y are read.
+
+    Returns
+    -------
+    str
+        ``"larger"``, ``"smaller"`` or ``"exterior"``.
+
+    Raises
+    ------
+    IndexError
+        ``position`` has fewer than two components.
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §3.2 (realms and necks of the Hill region).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> em = system("earth-moon")
+    >>> realm(em, [0.0, 0.0, 0.0]), realm(em, [1 - em.mu, 0.0, 0.0]), realm(em, [1.3, 0.0, 0.0])
+    ('larger', 'smaller', 'exterior')
+    """
     x = float(position[0])
     r = float(np.linalg.norm(position[:2]))
     x1, x2 = lagrange_point(system, "L1").position[0], lagrange_point(system, "L2").position[0]
@@ -697,9 +728,35 @@ def realm(system, position) -> str:
 
 
 def necks_between(a: str, b: str) -> tuple:
-    """The neck(s) a trajectory passes between two realms (:func:`realm`): L1 between the
-    larger primary's realm and the smaller's, L2 between the smaller's and the exterior, L3
-    between the larger's and the exterior."""
+    """The neck(s) a trajectory passes between two realms (:func:`realm`).
+
+    L1 between the larger primary's realm and the smaller's, L2 between the smaller's and the
+    exterior, L3 between the larger's and the exterior.
+
+    Parameters
+    ----------
+    a, b : str
+        Realm names as :func:`realm` returns them.
+
+    Returns
+    -------
+    tuple of str
+        The neck's point name, or ``()`` for the same realm.
+
+    Raises
+    ------
+    None
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §3.2 (realms and necks of the Hill region).
+
+    Examples
+    --------
+    >>> necks_between("larger", "smaller"), necks_between("exterior", "smaller"), necks_between("larger", "larger")
+    (('L1',), ('L2',), ())
+    """
     pair = {a, b}
     if pair == {"larger", "smaller"}:
         return ("L1",)
@@ -715,7 +772,36 @@ NECK_REALMS = {"L1": {"larger", "smaller"}, "L2": {"smaller", "exterior"}, "L3":
 
 
 def realms_of(system, position, point: str = "") -> set:
-    """The realm(s) a node is in: an orbit about L1..L3 touches the two realms its neck joins."""
+    """The realm(s) a node is in: an orbit about L1..L3 touches the two realms its neck joins.
+
+    Parameters
+    ----------
+    system : System
+    position : array_like
+        Rotating-frame position (nondimensional), used when ``point`` names no neck.
+    point : str, optional
+        The collinear point the node's orbit is about (``"L1"``, ``"L2"``, ``"L3"``), if any.
+
+    Returns
+    -------
+    set of str
+
+    Raises
+    ------
+    IndexError
+        ``position`` has fewer than two components.
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, §3.2 (realms and necks of the Hill region).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> sorted(realms_of(system("earth-moon"), [0.0, 0.0, 0.0], "L2"))
+    ['exterior', 'smaller']
+    """
     return set(NECK_REALMS[point]) if point in NECK_REALMS else {realm(system, position)}
 
 

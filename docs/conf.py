@@ -41,6 +41,10 @@ root_doc = "index"
 
 # --- the API reference ---------------------------------------------------------------------
 autosummary_generate = True
+# autosummary writes a stub per documented name but never removes one: a name that moved would
+# leave a stale stub behind, outside every toctree (a -W failure); start from an empty folder
+import shutil  # noqa: E402
+shutil.rmtree(DOCS / "generated", ignore_errors=True)
 autosummary_imported_members = False
 autodoc_default_options = {"members": True, "show-inheritance": False}
 autodoc_typehints = "none"
