@@ -44,7 +44,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .dynamics import MODE_BICIRCULAR, MODE_BICIRCULAR_STM
-from .errors import InputError, shown
+from .errors import InputError
 
 #: Status of a default-built model, shown by ``to_dict`` (where its numbers come from).
 SOURCE = ("equations: Boudad, Howell & Davis, Adv. Space Res. 66, 2020, section 2 (from memory); "
@@ -54,13 +54,8 @@ _TWO_PI = 2.0 * math.pi
 
 
 def _finite(name, value) -> float:
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise InputError(f"{name} = {shown(repr(value))} is not a number") from None
-    if not math.isfinite(v):
-        raise InputError(f"{name} = {value!r} must be finite")
-    return v
+    from .validate import finite_number
+    return finite_number(name, value)
 
 
 @dataclass(frozen=True)

@@ -46,14 +46,9 @@ def jacobi(system, states):
 
 
 def check_jacobi(value, name: str = "Jacobi constant") -> float:
-    """A finite Jacobi constant, as float; InputError otherwise."""
-    try:
-        c = float(value)
-    except (TypeError, ValueError):
-        raise InputError(f"{name} {value!r} is not a number") from None
-    if not math.isfinite(c):
-        raise InputError(f"{name} {value!r} is not finite; give a finite number such as 3.15")
-    return c
+    """A finite Jacobi constant, as float; InputError otherwise (:func:`cr3bp.validate.finite_number`)."""
+    from .validate import finite_number
+    return finite_number(name, value)
 
 
 def _velocity(system, dv) -> float:
@@ -62,12 +57,8 @@ def _velocity(system, dv) -> float:
     if isinstance(dv, str):
         v = units.velocity(dv, system)
     else:
-        try:
-            v = float(dv)
-        except (TypeError, ValueError):
-            raise InputError(f"dv {dv!r} is not a velocity; give e.g. '20m/s' or a number in LU/TU") from None
-    if not math.isfinite(v):
-        raise InputError(f"dv {dv!r} is not finite")
+        from .validate import finite_number
+        v = finite_number("dv (LU/TU, or text with a unit such as '20m/s')", dv)
     if v < 0:
         raise InputError(f"dv {dv!r} is negative; a speed must be >= 0")
     return v

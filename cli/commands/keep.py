@@ -9,7 +9,6 @@ HELP = "station-keeping Δv budget of an orbit in the ephemeris model: Monte Car
 EXAMPLE = ('librate keep --system earth-moon --orbit "halo L2 south resonance=9:2" --epoch 2031-03-01T00:00:00Z '
            "--span 365d --trials 200 --nav-error 1km,1cm/s --burn-error 1%,1mm/s --min-burn 1cm/s --plot hist.png")
 
-PLOT_SUFFIXES = (".png", ".svg", ".pdf")
 #: Velocity units of this command beyond the project's m/s and km/s: factor to m/s.
 _SMALL_VELOCITY = {"mm/s": 1e-3, "cm/s": 1e-2}
 
@@ -42,8 +41,7 @@ def add_arguments(p):
                                                   "compiled propagation already uses every core); results "
                                                   "do not depend on it")
     o = p.add_argument_group("output")
-    o.add_argument("--plot", metavar="FILE", help="histogram of the Δv per year and per maneuver "
-                                                  "(.png, .svg or .pdf)")
+    common.add_plot_option(o, "draw the histogram of the Δv per year and per maneuver")
     p.add_argument("--format", choices=("table", "json"), default="table", help="output format (default table)")
     p.add_argument("--out", metavar="FILE", help="write the output to FILE instead of the screen")
     common.add_verbosity(p)
@@ -123,8 +121,6 @@ def _inputs(args):
         from cr3bp.validate import quantity
         interval = quantity("--interval", args.interval, "time", sysm, sign="positive")
     if args.plot:
-        if not args.plot.lower().endswith(PLOT_SUFFIXES):
-            raise InputError(f"--plot {args.plot!r} must end in {', '.join(PLOT_SUFFIXES)}")
         common.folder_exists("--plot", args.plot)
     if args.out:
         common.folder_exists("--out", args.out)

@@ -28,7 +28,7 @@ def add_arguments(p):
     p.add_argument("--points", type=int, default=200, metavar="N", help="trajectories per tube (default 200)")
     p.add_argument("--time", default=None, metavar="TIME", help="time limit per trajectory (default 2pi TU)")
     p.add_argument("--step-off", metavar="LENGTH", help="step-off distance (default per system)")
-    p.add_argument("--plot", metavar="FILE", help="draw the map (PNG/PDF/SVG)")
+    common.add_plot_option(p, "draw the map")
     common.add_output_options(p)
 
 
@@ -87,7 +87,6 @@ def run(args):
     from cr3bp.tubes.manifolds import Stop, grow_tube, manifold_starts
     from cr3bp.tubes.sections import crossings, parse_section
     system = common.resolve_system(args)
-    to.check_plot_path(args.plot)
     section = parse_section(args.section, system)
     pairs = parse_pairs(args.coords) if args.coords else None
     names = pairs[0] if pairs else default_coords(section)

@@ -41,10 +41,10 @@ import math
 import numpy as np
 
 from ..errors import ConvergenceError, InputError, NoSolutionError
+from ..vocabulary import FAMILIES, HALO_BRANCHES, POINT_FAMILIES
 from . import continuation, seeds, shooting
 from ._collinear import collinear_point, point_name
 
-FAMILIES = ("lyapunov", "halo", "vertical", "axial", "dro", "resonant")
 #: Largest relative departure of a resonant member's rotating-frame period from ``2 pi q`` (the
 #: time in which the p:q resonance closes): members beyond it are not on the resonance and end
 #: the family. Measured along Jupiter-Europa 3:4 (tests/test_against_kepler_resonances.py): the
@@ -52,14 +52,14 @@ FAMILIES = ("lyapunov", "halo", "vertical", "axial", "dro", "resonant")
 #: departs by 2 to 3 % at the closest approaches above Europa's surface, where the flyby itself
 #: takes part of the period.
 RESONANCE_TOL = 0.03
-BRANCHES = {"halo": ("north", "south")}
+BRANCHES = {"halo": HALO_BRANCHES}
 
 
 def check_family(family: str, point: str | None, branch: str | None):
     f = str(family).strip().lower()
     if f not in FAMILIES:
         raise InputError(f"unknown family '{family}'; allowed: {', '.join(FAMILIES)}")
-    if f in ("lyapunov", "halo", "vertical", "axial"):
+    if f in POINT_FAMILIES:
         if point is None:
             raise InputError(f"the {f} family needs a collinear point: L1, L2 or L3")
         point = point_name(point)

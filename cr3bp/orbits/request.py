@@ -24,10 +24,11 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from ..errors import InputError, NoSolutionError
+from ..vocabulary import COLLINEAR_POINTS, FAMILY_ALIASES, HALO_BRANCHES, LAGRANGE_POINTS, ORBIT_TARGETS
 from . import continuation, families, seeds, targets
 from .orbit import PeriodicOrbit
 
-ALIASES = {"nrho": "halo", "lyap": "lyapunov", "planar": "lyapunov"}
+ALIASES = FAMILY_ALIASES
 
 
 @dataclass(frozen=True)
@@ -78,21 +79,21 @@ def parse_request(text: str) -> OrbitSpec:
                 raise InputError(f"only one target per request; got '{key}={value}' and '{w}'")
             key, value = (p.strip() for p in w.split("=", 1))
             key = key.lower()
-            if key not in targets.KINDS or key == "approach1":
-                raise InputError(f"unknown target '{key}'; allowed: period, jacobi, ax, ay, az, x, "
-                                 "perilune, resonance")
+            if key not in ORBIT_TARGETS:
+                raise InputError(f"unknown target '{key}'; allowed: {', '.join(ORBIT_TARGETS)}")
             if not value:
                 raise InputError(f"target '{key}=' has no value")
-        elif lw in ("l1", "l2", "l3", "l4", "l5"):
+        elif w.upper() in LAGRANGE_POINTS:
             point = w.upper()
-        elif lw in ("north", "south", "northern", "southern"):
-            branch = "north" if lw.startswith("north") else "south"
+        elif lw in HALO_BRANCHES or lw in tuple(b + "ern" for b in HALO_BRANCHES):
+            branch = lw.removesuffix("ern")
         elif ":" in w and fam == "resonant":
             resonance = targets.parse_resonance(w)
             seeds.check_resonance(*resonance)
         else:
             raise InputError(f"'{w}' is not understood in the request '{text}'; expected a point "
-                             "(L1, L2, L3), a branch (north, south), p:q for resonant, or KEY=VALUE")
+                             f"({', '.join(COLLINEAR_POINTS)}), a branch ({', '.join(HALO_BRANCHES)}), p:q for "
+                             "resonant, or KEY=VALUE")
     if fam == "resonant" and resonance is None:
         raise InputError("a resonant family needs p:q, e.g. 'resonant 3:2 jacobi=2.9'")
     if fam == "resonant" and (point or branch):
@@ -159,8 +160,8 @@ def solve_request(system, spec, catalog=None, progress=None) -> PeriodicOrbit:
     if isinstance(spec, str):
         spec = parse_request(spec)
     if not spec.key:
-        raise InputError("the request has no target; add one of period=, jacobi=, ax=, ay=, az=, x=, "
-                         "perilune=, resonance=")
+        raise InputError("the request has no target; add one of "
+                         + ", ".join(k + "=" for k in ORBIT_TARGETS))
     tg = targets.make_target(system, spec.key, spec.value)
     fam, point, branch = family_key(spec)
     kind = families.kind_of(spec.family)

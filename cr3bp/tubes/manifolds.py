@@ -71,10 +71,10 @@ def step_lu(system, step_km=None) -> tuple[float, float]:
         from ..validate import quantity
         v = quantity("step-off distance", step_km, "length", system, sign="positive")
         return v, (v * system.length_km if system.dimensional else float("nan"))
-    if not (math.isfinite(step_km) and step_km > 0):
-        raise InputError(f"step-off distance {step_km!r} km must be positive")
+    from ..validate import positive_number
+    step_km = positive_number("step-off distance (km)", step_km)
     system.require_dimensional("a step-off distance in km")
-    return float(step_km) / system.length_km, float(step_km)
+    return step_km / system.length_km, step_km
 
 
 # ---- eigen-directions -------------------------------------------------------------------
