@@ -10,12 +10,12 @@ lists). Only plain data here: no imports of the library, so any module may impor
 from __future__ import annotations
 
 __all__ = [
-    "ORBIT_TARGETS", "TARGET_HELP", "TARGET_DIMENSIONS", "LENGTH_TARGETS",
+    "ORBIT_TARGETS", "TARGET_HELP", "TARGET_DIMENSIONS", "LENGTH_TARGETS", "FAMILY_STOPS",
     "FAMILIES", "FAMILY_ALIASES", "POINT_FAMILIES", "COLLINEAR_POINTS", "LAGRANGE_POINTS",
     "HALO_BRANCHES",
     "FRAMES", "INERTIAL_FRAMES", "ANCHORS", "CENTER_ROLES", "CENTER_BODIES", "CENTERS",
-    "TIME_SYSTEMS", "EXPORT_FORMATS", "SCENARIO_EXPORT_FORMATS", "OUTPUT_FORMATS",
-    "IMAGE_FORMATS", "SCENARIO_IMAGE_FORMATS", "TUBE_BRANCHES", "one_of",
+    "TIME_SYSTEMS", "EXPORT_FORMATS", "OEM_FORMATS", "SCENARIO_EXPORT_FORMATS", "OUTPUT_FORMATS",
+    "IMAGE_FORMATS", "SCENARIO_IMAGE_FORMATS", "TUBE_BRANCHES", "STABILITIES", "one_of",
 ]
 
 # ---- periodic orbits ------------------------------------------------------------------------
@@ -42,6 +42,9 @@ TARGET_DIMENSIONS = {"period": "time", "jacobi": "number", "ax": "length", "ay":
 
 #: Targets that are lengths which must be positive (``x`` is a coordinate: any sign).
 LENGTH_TARGETS = ("ax", "ay", "az", "perilune")
+
+#: The targets a family may be grown until (``librate family --until KEY=VALUE``).
+FAMILY_STOPS = ("jacobi", "period", "az", "ax", "perilune")
 
 #: Periodic-orbit families (:mod:`cr3bp.orbits.families`).
 FAMILIES = ("lyapunov", "halo", "vertical", "axial", "dro", "resonant")
@@ -76,6 +79,8 @@ TIME_SYSTEMS = ("tdb", "tt", "tai", "utc")
 
 #: Trajectory files (``xml`` = OEM in XML).
 EXPORT_FORMATS = ("oem", "xml", "csv", "json")
+#: The CCSDS OEM forms among them (keyword-value text and XML): inertial frames only.
+OEM_FORMATS = ("oem", "xml")
 #: The trajectory formats a scenario's ``[[exports]]`` may ask for.
 SCENARIO_EXPORT_FORMATS = ("oem", "csv", "json")
 #: What a command prints or writes with ``--format``.
@@ -89,6 +94,8 @@ SCENARIO_IMAGE_FORMATS = ("png", "svg")
 
 #: Half-manifolds: stepping toward the smaller primary (interior) or away from it.
 TUBE_BRANCHES = ("interior", "exterior")
+#: Stable (arrivals, propagated backward) or unstable (departures) manifolds.
+STABILITIES = ("stable", "unstable")
 
 
 def one_of(words, *, optional: bool = False) -> str:

@@ -1,6 +1,6 @@
 """librate convert: between OEM, CSV and JSON trajectory files, frames, centres and time systems."""
 
-from cr3bp.vocabulary import EXPORT_FORMATS
+from cr3bp.vocabulary import EXPORT_FORMATS, OEM_FORMATS
 
 from .. import common
 from .export import add_frame_options, leap_second_notes, parse_orientation, summary
@@ -46,7 +46,7 @@ def _run(args):
         spec = frames.frame(spec.system, spec.epoch_tdb_s, anchor=anchor, axes=spec.axes,
                             center=spec.center, orientation=parse_orientation(args))
     spec = frames.with_(spec, **changes)
-    if fmt in ("oem", "xml") and spec.axes == "rotating":
+    if fmt in OEM_FORMATS and spec.axes == "rotating":
         raise InputError("OEM needs inertial axes (--frame j2000-equator or j2000-ecliptic); "
                          "use csv or json for the rotating frame")
     ts = args.time_system.upper() if args.time_system else traj.time_system

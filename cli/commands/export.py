@@ -9,7 +9,7 @@ HELP = "write a trajectory as CCSDS OEM, CSV or JSON at an epoch, in an inertial
 EXAMPLE = ("librate export --system earth-moon --state 1.1805031,0,-0.02,0,-0.1581343,0 --period 14.8177d "
            "--epoch 2031-03-01T00:00:00Z --span 3periods --step 10min --center moon --out relay.oem")
 
-from cr3bp.vocabulary import ANCHORS, EXPORT_FORMATS, FRAMES, INERTIAL_FRAMES, TIME_SYSTEMS
+from cr3bp.vocabulary import ANCHORS, EXPORT_FORMATS, FRAMES, INERTIAL_FRAMES, OEM_FORMATS, TIME_SYSTEMS
 
 
 def add_frame_options(p, defaults=True):
@@ -148,7 +148,7 @@ def _run(args):
     if args.km and args.state is None:
         raise InputError("--km says how --state is given; it goes with --state only")
     fmt = export.format_of(args.out, args.format)
-    if fmt in ("oem", "xml") and args.frame == "rotating":
+    if fmt in OEM_FORMATS and args.frame == "rotating":
         raise InputError("OEM needs inertial axes (--frame j2000-equator or j2000-ecliptic); "
                          "use --format csv or json for the rotating frame")
     ts = args.time_system.upper()

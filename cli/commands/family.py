@@ -1,5 +1,7 @@
 """librate family: grow a family of periodic orbits, with its stability and bifurcations."""
 
+from cr3bp.vocabulary import FAMILY_STOPS
+
 from .. import common
 from . import _orbit_options as oo
 
@@ -9,7 +11,7 @@ ORDER = 50
 HELP = "grow a family of periodic orbits: table of members, stability indices, bifurcations, plots"
 EXAMPLE = "librate family --system earth-moon --family lyapunov --point L1 --members 300 --format csv"
 
-UNTIL = ("jacobi", "period", "az", "ax", "perilune")
+UNTIL = FAMILY_STOPS
 
 
 def add_arguments(p):

@@ -37,9 +37,8 @@ def add_arguments(p):
     m.add_argument("--hold-phase", action="store_true",
                    help="hold the target crossing's epoch too (keeps the reference's timing; costs more)")
     m.add_argument("--seed", metavar="N", default="0", help="random seed, 0..999999999999 (default 0)")
-    m.add_argument("--workers", metavar="N", help="process-pool size (default 1: in this process, whose "
-                                                  "compiled propagation already uses every core); results "
-                                                  "do not depend on it")
+    common.add_workers_option(m, "worker processes (default 1: in this process, whose compiled "
+                                 "propagation already uses every core); results do not depend on it")
     o = p.add_argument_group("output")
     common.add_plot_option(o, "draw the histogram of the Δv per year and per maneuver")
     p.add_argument("--format", choices=("table", "json"), default="table", help="output format (default table)")
@@ -111,7 +110,7 @@ def _inputs(args):
     trials = common.whole_number("--trials", args.trials, 1, 100000)
     target = common.whole_number("--target-revs", args.target_revs, 1, 10)
     seed = common.whole_number("--seed", args.seed, 0, 999999999999)
-    workers = None if args.workers is None else common.whole_number("--workers", args.workers, 1, 256)
+    workers = common.workers(args)
     bodies = fm.parse_bodies(args.bodies)
     srp = parse_srp(args.srp)
     if export.span_periods(args.span) is None:   # a span in periods is read after the orbit's solve

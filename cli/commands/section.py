@@ -1,5 +1,7 @@
 """librate section: cut one or more tubes with a Poincaré section and draw or export the map."""
 
+from cr3bp.vocabulary import STABILITIES, TUBE_BRANCHES
+
 from .. import common
 from . import _tube_options as to
 
@@ -35,13 +37,13 @@ def add_arguments(p):
 def parse_tube_spec(text):
     from cr3bp.errors import InputError
     words = text.split()
-    stab = [w for w in words if w.lower() in ("stable", "unstable")]
-    br = [w for w in words if w.lower() in ("interior", "exterior")]
+    stab = [w for w in words if w.lower() in STABILITIES]
+    br = [w for w in words if w.lower() in TUBE_BRANCHES]
     if len(stab) != 1:
         raise InputError(f"tube '{text}' must say 'stable' or 'unstable' once")
     if len(br) > 1:
         raise InputError(f"tube '{text}' names more than one branch")
-    rest = " ".join(w for w in words if w.lower() not in ("stable", "unstable", "interior", "exterior"))
+    rest = " ".join(w for w in words if w.lower() not in STABILITIES + TUBE_BRANCHES)
     if not rest:
         raise InputError(f"tube '{text}' has no orbit request")
     return rest, stab[0].lower(), (br[0].lower() if br else "interior")

@@ -39,6 +39,8 @@ import numpy as np
 from .. import units
 from ..dynamics import jacobi as _jacobi, jacobian
 from ..errors import InputError, NoSolutionError
+from ..vocabulary import STABILITIES as _STABILITIES
+from ..vocabulary import TUBE_BRANCHES
 from ..integrate import escape, impact, propagate, propagate_batch
 from .sections import (Section, batch, batch_features, bounded_max_events, guard_events, parse_section,
     primary_index)
@@ -46,8 +48,8 @@ from .sections import (Section, batch, batch_features, bounded_max_events, guard
 #: Step-off distances (km) by system name (common practice, see module docstring).
 STEP_OFF_KM = {"earth-moon": 40.0, "sun-earth": 200.0}
 HILL_FRACTION = 3e-4
-STABILITIES = ("stable", "unstable")
-BRANCHES = ("interior", "exterior")
+STABILITIES = _STABILITIES
+BRANCHES = TUBE_BRANCHES
 SPACINGS = ("time", "arc")
 RTOL = 1e-12
 ATOL = 1e-12
@@ -599,8 +601,8 @@ def corridor_tubes(orbits, n_points=TUBE_POINTS, until=f"time:{TUBE_DAYS}"):
     the corridors the route rides)."""
     tubes = []
     for orbit in orbits:
-        for stability in ("stable", "unstable"):
-            for branch in ("interior", "exterior"):
+        for stability in STABILITIES:
+            for branch in TUBE_BRANCHES:
                 tube = grow_tube(orbit, stability, branch, n_points, until=until)
                 tubes.append([states for _, states in tube.trajectories(200)])
     return tubes
