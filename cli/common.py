@@ -83,14 +83,14 @@ DEFAULT_CATALOG = _DefaultCatalog()
 
 
 def add_catalog_options(p, *, used_by_default: bool, opt_out: bool = True,
-                        what: str = "the orbit catalogue"):
+                        what: str = "the orbit catalogue", note: str = ""):
     """``--catalog [PATH]``, and ``--no-catalog`` where the catalogue is used by default
     (``opt_out=False``: a command that always uses one, e.g. ``librate catalog``)."""
     from_default = (("used unless --no-catalog" if opt_out else "always used") if used_by_default
                     else "not used without this option")
     p.add_argument("--catalog", nargs="?", const=DEFAULT_CATALOG, default=None, metavar="PATH",
-                   help=f"use {what} at PATH (bare: $LIBRATE_CATALOG or "
-                        f"~/.local/share/librate/catalog.sqlite); {from_default}")
+                   help=f"use {what} in the file PATH (bare --catalog: $LIBRATE_CATALOG or "
+                        f"~/.local/share/librate/catalog.sqlite); {from_default}{note}")
     if used_by_default and opt_out:
         p.add_argument("--no-catalog", action="store_true", help="use no catalogue: compute everything, keep nothing")
     p.set_defaults(_catalog_by_default=used_by_default)

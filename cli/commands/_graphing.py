@@ -10,7 +10,7 @@ def add_build_options(p):
     common.add_workers_option(g)
     g.add_argument("--scheduler", metavar="ADDRESS",
                    help="run the legs on a dask.distributed scheduler instead (needs librate[cluster])")
-    common.add_catalog_options(g, used_by_default=True, what="the catalogue as the leg cache")
+    common.add_catalog_options(g, used_by_default=True, note=" (as the leg cache)")
     g.add_argument("--tof", metavar="TIME", help="time of flight of targeted legs without their own (e.g. 6d)")
 
 

@@ -29,10 +29,10 @@ def targets_given(args):
     return {name: getattr(args, name) for name, _, _ in TARGETS if getattr(args, name, None) is not None}
 
 
-def add_catalog_option(p, what="the orbit catalogue"):
+def add_catalog_option(p, note=""):
     """``--catalog [PATH]`` (cli.common.add_catalog_options): not used unless given."""
     from .. import common
-    common.add_catalog_options(p, used_by_default=False, what=what)
+    common.add_catalog_options(p, used_by_default=False, note=note)
 
 
 def open_catalog(args):

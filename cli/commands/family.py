@@ -35,7 +35,7 @@ def add_arguments(p):
                    "from the vertical family's branch point) or branch (axial: default, at the Lyapunov "
                    "family's second out-of-plane branch point; halo: at its first; vertical: where the "
                    "axial family meets it)")
-    oo.add_catalog_option(p, "the orbit catalogue (the family is also stored there)")
+    oo.add_catalog_option(p, "; the family is stored in it")
     common.add_plots_prefix_option(p, "write PREFIX-family.png (members coloured by Jacobi constant) and "
                                       "PREFIX-stability.png (stability indices vs Jacobi constant and period); "
                                       "--plot PREFIX is the older spelling")
