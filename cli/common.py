@@ -9,7 +9,9 @@ import os
 import sys
 from pathlib import Path
 
-FORMATS = ("table", "json", "csv")
+from cr3bp.vocabulary import IMAGE_FORMATS, OUTPUT_FORMATS
+
+FORMATS = OUTPUT_FORMATS
 
 
 # ---- options -------------------------------------------------------------------------
@@ -34,15 +36,108 @@ def add_verbosity(p):
     p.add_argument("--verbose", "-v", action="store_true", help="more detail in progress messages")
 
 
+# ---- options with one meaning in every command ----------------------------------------
+#
+# --plot FILE      one figure; its suffix (.png, .svg, .pdf) chooses the format. (librate family
+#                  draws two figures: its option is --plots PREFIX, --plot kept as its old spelling.)
+# --catalog [PATH] use the orbit catalogue, at PATH or, bare, at the default path
+#                  ($LIBRATE_CATALOG or ~/.local/share/librate/catalog.sqlite); --no-catalog: none.
+#                  Commands differ only in whether they use it when neither is given.
+# --workers N      worker processes, a whole number 1..MAX_WORKERS (cr3bp.validate.workers).
+
+#: Suffixes of a figure file (``--plot FILE``); the suffix chooses the format.
+PLOT_SUFFIXES = tuple("." + f for f in IMAGE_FORMATS)
+
+
+def add_plot_option(p, what: str, metavar: str = "FILE"):
+    """``--plot FILE``: ``what`` drawn to FILE, format by its suffix (checked by check_outputs)."""
+    p.add_argument("--plot", metavar=metavar,
+                   help=f"{what} to FILE ({', '.join(PLOT_SUFFIXES[:-1])} or {PLOT_SUFFIXES[-1]}, by its suffix)")
+    p.set_defaults(_plot_prefix=False)
+
+
+def add_plots_prefix_option(p, what: str):
+    """``--plots PREFIX`` (old spelling ``--plot``): several figures named PREFIX-<what>.png."""
+    p.add_argument("--plots", "--plot", dest="plot", metavar="PREFIX", help=what)
+    p.set_defaults(_plot_prefix=True)
+
+
+def plot_file(name: str, path) -> str:
+    """A figure file name (of ``--plot``, ``--map``) whose suffix is one of PLOT_SUFFIXES (any
+    case); InputError naming the option otherwise."""
+    from cr3bp.errors import InputError, shown
+    if not str(path).lower().endswith(PLOT_SUFFIXES):
+        raise InputError(f"{name} '{shown(path)}': the file name must end in "
+                         f"{', '.join(PLOT_SUFFIXES[:-1])} or {PLOT_SUFFIXES[-1]}")
+    return str(path)
+
+
+class _DefaultCatalog:
+    """The value of a bare ``--catalog``: the default path (an empty ``--catalog=`` is refused)."""
+
+    def __repr__(self):
+        return "the default catalogue"
+
+
+DEFAULT_CATALOG = _DefaultCatalog()
+
+
+def add_catalog_options(p, *, used_by_default: bool, opt_out: bool = True,
+                        what: str = "the orbit catalogue", note: str = ""):
+    """``--catalog [PATH]``, and ``--no-catalog`` where the catalogue is used by default
+    (``opt_out=False``: a command that always uses one, e.g. ``librate catalog``)."""
+    from_default = (("used unless --no-catalog" if opt_out else "always used") if used_by_default
+                    else "not used without this option")
+    p.add_argument("--catalog", nargs="?", const=DEFAULT_CATALOG, default=None, metavar="PATH",
+                   help=f"use {what} in the file PATH (bare --catalog: $LIBRATE_CATALOG or "
+                        f"~/.local/share/librate/catalog.sqlite); {from_default}{note}")
+    if used_by_default and opt_out:
+        p.add_argument("--no-catalog", action="store_true", help="use no catalogue: compute everything, keep nothing")
+    p.set_defaults(_catalog_by_default=used_by_default)
+
+
+def catalog_file(args):
+    """The catalogue file the options name (a str), or None when the command uses none."""
+    from cr3bp.errors import InputError
+    c = getattr(args, "catalog", None)
+    if getattr(args, "no_catalog", False):
+        if c is not None:
+            raise InputError("give --catalog or --no-catalog, not both")
+        return None
+    if c is None and not getattr(args, "_catalog_by_default", False):
+        return None
+    if c is not None and c is not DEFAULT_CATALOG:
+        return str(c)
+    from cr3bp.catalog import default_path
+    return str(default_path())
+
+
+def open_catalog(args):
+    """The Catalog the options name, or None."""
+    path = catalog_file(args)
+    if path is None:
+        return None
+    from cr3bp.catalog import Catalog
+    return Catalog(path)
+
+
+def add_workers_option(p, help_text: str = "worker processes (default: all cores; 1: no pool)"):
+    p.add_argument("--workers", metavar="N", help=help_text)
+
+
+def workers(args):
+    """--workers as an int (cr3bp.validate.workers), or None when not given."""
+    text = getattr(args, "workers", None)
+    if text is None:
+        return None
+    from cr3bp.validate import workers as _workers
+    return _workers("--workers", text)
+
+
 def whole_number(name, text, lo, hi):
     """An option's whole number in lo..hi, or a one-line InputError naming it."""
     from cr3bp.validate import whole_number as _whole
     return _whole(name, text, lo, hi)
-
-
-def _float_arg(name, text):
-    from cr3bp.validate import finite_number
-    return finite_number(name, text)
 
 
 def output_file(args, name="--out", path=None, inputs=()):
@@ -80,7 +175,7 @@ def check_outputs(args):
     inputs = [getattr(args, k, None) for k in _INPUT_OPTIONS]
     inputs = [str(x) for x in inputs if x is not None]
     if hasattr(args, "catalog"):
-        c = catalog_path(args)
+        c = catalog_file(args)
         if c is not None:
             inputs.append(c)
     outs = []
@@ -94,29 +189,17 @@ def check_outputs(args):
         if args.command == "route" and attr == "out":
             output_folder(args, name, path, inputs)
             continue
-        if args.command == "family" and attr == "plot":
+        if attr == "plot" and getattr(args, "_plot_prefix", False):
             for tag in ("family", "stability"):
-                output_file(args, name, f"{path}-{tag}.png", inputs)
+                output_file(args, "--plots", f"{path}-{tag}.png", inputs)
             continue
+        if attr == "plot":
+            plot_file(name, path)
         output_file(args, name, path, inputs)
         for other_name, other in outs:
             if _same_path(path, other):
                 raise InputError(f"{name} and {other_name} name the same file '{path}'")
         outs.append((name, path))
-
-
-def catalog_path(args):
-    """The catalogue file a command uses (its --catalog, else the default when the command uses
-    one without it), for the same-file check; None when it uses none."""
-    c = getattr(args, "catalog", None)
-    if getattr(args, "no_catalog", False):
-        return None
-    if c:
-        return str(c)
-    if c is None and args.command not in ("catalog", "graph", "route"):
-        return None          # orbit/family: no --catalog, no catalogue
-    from cr3bp.catalog import default_path
-    return str(default_path())
 
 
 def resolve_system(args):
@@ -126,13 +209,10 @@ def resolve_system(args):
     if args.system and args.mu:
         raise InputError("give --system or --mu, not both")
     if args.mu is not None:
-        lk = None if args.length_km is None else _float_arg("--length-km", args.length_km)
-        ts = None if args.time_s is None else _float_arg("--time-s", args.time_s)
-        try:
-            mu = float(args.mu)
-        except ValueError:
-            raise InputError(f"--mu {args.mu!r} is not a number; allowed range (0, 0.5]") from None
-        return system(mu=mu, length_km=lk, time_s=ts)
+        from cr3bp.validate import finite_number
+        lk = None if args.length_km is None else finite_number("--length-km", args.length_km)
+        ts = None if args.time_s is None else finite_number("--time-s", args.time_s)
+        return system(mu=finite_number("--mu", args.mu), length_km=lk, time_s=ts)
     if args.length_km is not None or args.time_s is not None:
         raise InputError("--length-km and --time-s go with --mu")
     if not args.system:
@@ -193,31 +273,52 @@ def _prebuilt_current() -> bool:
     return prebuilt.kernels() is not None
 
 
-def kernels_cached(kernels=COMPILED_KERNELS) -> bool:
-    """True when numba's on-disk cache holds a fresh entry for every kernel in ``kernels``.
+def _numba_cache_folders(source: Path) -> list:
+    """Where numba keeps the cache of the kernels of ``source`` (numba's documented places:
+    below ``NUMBA_CACHE_DIR`` when set, else the ``__pycache__`` folder beside the module or,
+    when that is not writable, the per-user cache folder)."""
+    env = os.environ.get("NUMBA_CACHE_DIR")
+    if env:
+        return [Path(env)]
+    beside = source.parent / "__pycache__"
+    if os.access(beside if beside.is_dir() else source.parent, os.W_OK):
+        return [beside]
+    return [Path(os.environ.get("XDG_CACHE_HOME") or Path.home() / ".cache") / "numba"]
 
-    numba (``cache=True``) writes ``<module>.<function>-<line>.py<ver>.nbi`` index files
-    (plus ``.nbc`` data) into the ``__pycache__`` folder beside the module, or below
-    ``NUMBA_CACHE_DIR`` when that is set or the package folder is read-only. An index is
-    used only while the SHA-256 stamp of the module's source stored in it matches the
-    file, otherwise numba compiles again. The check asks each dispatcher's own cache, so it
-    looks exactly where numba will look. The kernels of :data:`PREBUILT_KERNELS` count as
-    cached when their current ahead-of-time build is present (then numba's are not used).
+
+def kernels_cached(kernels=COMPILED_KERNELS) -> bool:
+    """True when numba's on-disk cache holds an entry for every kernel in ``kernels`` that is
+    not older than the kernel's source file.
+
+    numba (``cache=True``) writes an index file ``<module>.<function>-<line>.py<ver>.nbi`` (plus
+    ``.nbc`` data) for each kernel into the folders :func:`_numba_cache_folders` lists, and
+    recompiles when the module's source changed after the index was written. This looks for
+    those files by name and compares modification times; it reads nothing of numba's own
+    (no import of the kernel modules, no private attribute), so it is a judgement for a
+    notice, not a promise: a wrong guess costs one progress line. The kernels of
+    :data:`PREBUILT_KERNELS` count as cached when their current ahead-of-time build is present
+    (then numba's are not used).
     """
-    import importlib
+    import importlib.util
     for module, func in kernels:
         if (module, func) in PREBUILT_KERNELS and _prebuilt_current():
             continue        # the ahead-of-time build replaces it: nothing to compile
-        try:
-            disp = getattr(importlib.import_module(module), func)
-            cache_file = disp._cache._cache_file
-            if not cache_file._load_index():
-                return False
-        except Exception:  # a numba without this layout: look for index files instead
-            mod = importlib.import_module(module)
-            src = Path(mod.__file__)
-            if not list((src.parent / "__pycache__").glob(f"{src.stem}.{func}-*.nbi")):
-                return False
+        spec = importlib.util.find_spec(module)
+        if spec is None or not spec.origin:
+            return False
+        src = Path(spec.origin)
+        made = src.stat().st_mtime
+        pattern = f"{src.stem}.{func}-*.nbi"
+        found = False
+        for folder in _numba_cache_folders(src):
+            if not folder.is_dir():
+                continue
+            hits = folder.glob(pattern) if folder.name == "__pycache__" else folder.rglob(pattern)
+            if any(h.stat().st_mtime >= made for h in hits):
+                found = True
+                break
+        if not found:
+            return False
     return True
 
 

@@ -25,6 +25,7 @@ from __future__ import annotations
 import math
 
 from .errors import InputError
+from .vocabulary import TUBE_BRANCHES
 
 __all__ = ["system", "points", "orbit", "family", "manifold", "section", "connect", "route",
            "export", "run", "torus", "shadow", "keep"]
@@ -401,7 +402,7 @@ def manifold(orbit, stability, *, branch="interior", points=200, until=None, spa
     """
     from .tubes.manifolds import grow_tube, parse_until, point_tube
     stability = _one_of("stability", stability, ("stable", "unstable"))
-    branch = _one_of("branch", branch, ("interior", "exterior"))
+    branch = _one_of("branch", branch, TUBE_BRANCHES)
     _one_of("spacing", spacing, ("time", "arc"))
     if isinstance(orbit, tuple) and len(orbit) == 2:
         sysm, name = _as_system(orbit[0]), str(orbit[1]).upper()
@@ -570,7 +571,7 @@ def connect(origin, target, *, system=None, section="x=1-mu", points=None, cross
         raise InputError("one end must be a periodic orbit; both ends are parking orbits")
     for b in (from_branch, to_branch):
         if b is not None:
-            _one_of("branch", b, ("interior", "exterior"))
+            _one_of("branch", b, TUBE_BRANCHES)
 
     def _orbit(end):
         return end if isinstance(end, PeriodicOrbit) else orbit(sysm, end)

@@ -46,7 +46,7 @@ import numpy as np
 from . import systems
 from .constants import AU_KM, J2000_JD, SECONDS_PER_DAY
 from .dynamics import jacobi
-from .errors import InputError, shown
+from .errors import InputError
 from .integrate.modes import MODE_BICIRCULAR, MODE_BICIRCULAR_STM
 from .integrate.propagate import propagate as _propagate, propagate_batch as _batch
 from .integrate.status import DEFAULT_MAX_STEPS
@@ -62,13 +62,8 @@ _TWO_PI = 2.0 * math.pi
 
 
 def _finite(name, value) -> float:
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise InputError(f"{name} = {shown(repr(value))} is not a number") from None
-    if not math.isfinite(v):
-        raise InputError(f"{name} = {value!r} must be finite")
-    return v
+    from .validate import finite_number
+    return finite_number(name, value)
 
 
 @dataclass(frozen=True)

@@ -102,13 +102,8 @@ def check_jacobi(value, name: str = "Jacobi constant") -> float:
     >>> check_jacobi("3.15")
     3.15
     """
-    try:
-        c = float(value)
-    except (TypeError, ValueError):
-        raise InputError(f"{name} {value!r} is not a number") from None
-    if not math.isfinite(c):
-        raise InputError(f"{name} {value!r} is not finite; give a finite number such as 3.15")
-    return c
+    from .validate import finite_number
+    return finite_number(name, value)
 
 
 def _velocity(system, dv) -> float:
@@ -117,12 +112,8 @@ def _velocity(system, dv) -> float:
     if isinstance(dv, str):
         v = units.velocity(dv, system)
     else:
-        try:
-            v = float(dv)
-        except (TypeError, ValueError):
-            raise InputError(f"dv {dv!r} is not a velocity; give e.g. '20m/s' or a number in LU/TU") from None
-    if not math.isfinite(v):
-        raise InputError(f"dv {dv!r} is not finite")
+        from .validate import finite_number
+        v = finite_number("dv (LU/TU, or text with a unit such as '20m/s')", dv)
     if v < 0:
         raise InputError(f"dv {dv!r} is negative; a speed must be >= 0")
     return v

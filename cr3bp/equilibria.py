@@ -34,9 +34,10 @@ import numpy as np
 
 from . import dynamics
 from .errors import ConvergenceError, InputError
+from .vocabulary import COLLINEAR_POINTS, LAGRANGE_POINTS
 
-NAMES = ("L1", "L2", "L3", "L4", "L5")
-COLLINEAR = ("L1", "L2", "L3")
+NAMES = LAGRANGE_POINTS
+COLLINEAR = COLLINEAR_POINTS
 
 #: Newton's method on the quintic: stop when the step is below this (relative to gamma).
 GAMMA_RTOL = 1e-15

@@ -1,4 +1,11 @@
-"""Input validation shared by the whole library (one validator, not one per module)."""
+"""Input validation shared by the whole library (one validator, not one per module).
+
+Each function takes the value as the user gave it (a number, or text from a command line or a
+file), returns the cleaned value (a float, an int, an array, a path as text) and raises a typed
+error (:mod:`cr3bp.errors`) naming the value and what is allowed; callers use what it returns.
+The shape follows the small ``validate_*`` helpers of scipy's ``integrate/_ivp/common.py``
+(Virtanen et al., Nature Methods 17, 2020: SciPy 1.0), shared by every solver there.
+"""
 
 from __future__ import annotations
 
@@ -124,6 +131,21 @@ def number_in(name: str, text, lo: float | None = None, hi: float | None = None,
     return v
 
 
+def numbers(name: str, value, count: int, what: str) -> tuple:
+    """``count`` finite floats, from comma-separated text (``"1,2,3"``) or a sequence; ``what``
+    names them in a refusal (e.g. ``"INC,NODE,ARGLAT (degrees)"``)."""
+    parts = str(value).split(",") if isinstance(value, str) else value
+    try:
+        v = tuple(float(str(x).strip()) for x in parts)
+    except (TypeError, ValueError):
+        raise InputError(f"{name} '{_show(value)}' is not {count} numbers {what}") from None
+    if len(v) != count:
+        raise InputError(f"{name} '{_show(value)}' has {len(v)} numbers; expected {count}: {what}")
+    if not all(math.isfinite(x) for x in v):
+        raise InputError(f"{name} '{_show(value)}' must be {count} finite numbers {what}")
+    return v
+
+
 def positive_number(name: str, text) -> float:
     """A finite float > 0."""
     v = finite_number(name, text)
@@ -146,6 +168,15 @@ def whole_number(name: str, text, lo: int, hi: int) -> int:
     if not lo <= v <= hi:
         raise InputError(f"{name} {v} is outside the allowed range {lo}..{hi}")
     return v
+
+
+#: Most worker processes a leg computation may be given (``--workers``, ``settings.workers``).
+MAX_WORKERS = 256
+
+
+def workers(name: str, text) -> int:
+    """A count of worker processes, 1..MAX_WORKERS (one parser for every ``--workers``)."""
+    return whole_number(name, text, 1, MAX_WORKERS)
 
 
 def quantity(name: str, text, dimension: str, system=None, *, sign: str = "any",
@@ -229,10 +260,7 @@ def output_file(name: str, path, inputs=()) -> str:
     if "\x00" in t:
         raise InputError(f"{name} '{_show(t)}' contains a NUL character")
     p = Path(t)
-    for part in p.parts:
-        if len(part.encode("utf-8", "surrogateescape")) > NAME_MAX:
-            raise InputError(f"{name} '{_show(t)}': the name '{_show(part)}' is longer than "
-                             f"{NAME_MAX} bytes")
+    _short_names(name, t, p)
     if p.is_dir():
         raise InputError(f"{name} '{_show(t)}' is a folder; give a file name")
     for src in inputs:
@@ -250,10 +278,7 @@ def output_folder(name: str, path, inputs=()) -> str:
     if not t.strip():
         raise InputError(f"{name} is empty; give a folder")
     p = Path(t)
-    for part in p.parts:
-        if len(part.encode("utf-8", "surrogateescape")) > NAME_MAX:
-            raise InputError(f"{name} '{_show(t)}': the name '{_show(part)}' is longer than "
-                             f"{NAME_MAX} bytes")
+    _short_names(name, t, p)
     if p.exists() and not p.is_dir():
         raise InputError(f"{name} '{_show(t)}' exists and is not a folder")
     for src in inputs:
@@ -261,6 +286,14 @@ def output_folder(name: str, path, inputs=()) -> str:
             raise InputError(f"{name} '{_show(t)}' is also an input of this command")
     _writable_folder(name, t, p)
     return t
+
+
+def _short_names(name, shown_path, p):
+    """Each part of the path ``p`` at most NAME_MAX bytes."""
+    for part in p.parts:
+        if len(part.encode("utf-8", "surrogateescape")) > NAME_MAX:
+            raise InputError(f"{name} '{_show(shown_path)}': the name '{_show(part)}' is longer than "
+                             f"{NAME_MAX} bytes")
 
 
 def _writable_folder(name, shown_path, folder):

@@ -399,6 +399,7 @@ def value_cases():
     add("family-route-for-lyapunov", F + L1 + ["--route=branch"])
     add("family-route-with-step", F + ["--family=halo", "--point=L1", "--branch=north", "--route=seed", "--step=0.01"])
     add("family-plot-missing-folder", F + L1 + ["--plot={out}/nowhere/x"])
+    add("family-plots-missing-folder", F + L1 + ["--plots={out}/nowhere/x"])
     # catalog
     add("catalog-show-missing", ["catalog", "show", "999", "--catalog={in}/cat.sqlite"])
     add("catalog-remove-missing", ["catalog", "remove", "999", "--catalog={in}/cat.sqlite"])
@@ -413,10 +414,18 @@ def value_cases():
     add("catalog-show-nonjson-member", ["catalog", "show", "1", "--catalog={in}/nonjson.sqlite"])
     add("catalog-find-nonjson-member", ["catalog", "find", EM, "--family=lyapunov", "--point=L1",
                                         "--jacobi=3.1", "--catalog={in}/nonjson.sqlite"])
+    # --catalog [PATH] means the same in every command; an empty PATH is refused
     add("catalog-empty-path", ["catalog", "list", "--catalog="])
+    add("orbit-catalog-empty-path", O + L1 + ["--jacobi=3.17", "--catalog="])
+    add("graph-catalog-empty-path", G[:-1] + ["--catalog="])
     # manifold
     for v in ("0", "1", "-5", "x", "1e9"):
         add(f"manifold-points-{v}", M[:-1] + [f"--points={v}"])
+    for v in ("9:0", "x:2", "9/2"):
+        add(f"manifold-resonance-{v}", ["manifold", EM, "--family=halo", "--point=L2", "--halo-branch=south",
+                                        f"--resonance={v}", "--unstable", "--points=4"])
+    add("manifold-resonance-and-jacobi", M + ["--resonance=9:2"])
+    add("manifold-plot-suffix", M + ["--plot={out}/m.gif"])
     add("manifold-lagrange-with-orbit", ["manifold", EM, "--lagrange=L1", "--orbit=lyapunov L1 jacobi=3.17", "--unstable"])
     add("manifold-lagrange-with-family", M + ["--lagrange=L1"])
     add("manifold-lagrange-L4", ["manifold", EM, "--lagrange=L4", "--unstable"])
@@ -485,7 +494,7 @@ def value_cases():
     for v in ("-1d", "0d", "5", "nand"):
         add(f"graph-tof-{v}", G + [f"--tof={v}"])
     add("graph-catalog-and-no-catalog", G + ["--catalog={out}/c.sqlite"])
-    add("graph-plot-suffix", G + ["--plot={out}/g.pdf"])
+    add("graph-plot-suffix", G + ["--plot={out}/g.gif"])      # one rule for every --plot: png, svg, pdf
     add("graph-workers-and-scheduler", ["graph", "build", EM, "--nodes={in}/nodes.toml", "--workers=2",
                                         "--scheduler=tcp://127.0.0.1:1", "--no-catalog"])
     for opt, v in (("min-altitude", "-5km"), ("min-altitude", "5"), ("min-altitude", "nankm"), ("max-dv", "-1m/s"),
@@ -542,7 +551,7 @@ def value_cases():
                    ("max-iter", "0"), ("max-iter", "-1"), ("bodies", "sun,pluto"), ("bodies", ""),
                    ("epoch", "yesterday"), ("epoch", "2031-13-01T00:00:00Z"), ("central", "pluto")):
         add(f"refine-{opt}-{v}", [a for a in RF if not a.startswith(f"--{opt}=")] + [f"--{opt}={v}"])
-    add("refine-plot-svg", RF + ["--plot={out}/x.svg"])
+    add("refine-plot-suffix", RF + ["--plot={out}/x.jpg"])
     add("refine-out-suffix", RF + ["--out={out}/x.txt"])
     add("refine-revs-with-route", ["refine", EM, "--route={in}", EPOCH, "--revs=3"])
     add("refine-custom-system", ["refine", "--mu=0.01", "--orbit=lyapunov L1 jacobi=3.1", EPOCH])

@@ -520,3 +520,18 @@ def test_stray_part_files_of_a_killed_run_are_removed(tmp_path, catalog):
     names = sorted(p.name for p in out.iterdir())
     assert not [n for n in names if n.endswith(".part")], names
     assert "manifest.json" in names and "gate.csv" in names
+
+
+@pytest.mark.parametrize("extra", [["--workers=0"], ["--workers=257"], ["--workers=two"], ["--workers=1.5"],
+                                   ["--catalog="]])
+def test_run_options_read_like_every_command(tmp_path, capsys, extra):
+    """--workers (cr3bp.validate.workers, 1..256) and --catalog [PATH] (an empty PATH refused) mean
+    what they mean in every command: one line, exit 2, nothing written."""
+    s = tmp_path / "s.toml"
+    s.write_text(SMALL)
+    before = _tree(tmp_path)
+    rc = main(["run", str(s), "--out", str(tmp_path / "out"), "--quiet", *extra])
+    err = [ln for ln in capsys.readouterr().err.splitlines() if not ln.startswith("librate: note:")]
+    assert rc == 2 and len(err) == 1 and err[0].startswith("librate: error: "), err
+    assert ("--workers" in err[0]) if "workers" in extra[0] else ("catalogue path is empty" in err[0]), err
+    assert _tree(tmp_path) == before

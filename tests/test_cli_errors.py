@@ -129,7 +129,8 @@ def test_bad_curves_suffix_writes_nothing(capsys, tmp_path):
 
 
 def test_bad_plot_suffix_writes_nothing(capsys, tmp_path):
-    rc = main(["zvc", "--system=earth-moon", "--jacobi=3.1", f"--plot={tmp_path / 'x.pdf'}"])
+    # one rule for every --plot (cli.common.PLOT_SUFFIXES): .png, .svg, .pdf; a .gif is refused
+    rc = main(["zvc", "--system=earth-moon", "--jacobi=3.1", f"--plot={tmp_path / 'x.gif'}"])
     err = capsys.readouterr().err.replace(COMPILING, "")
     assert rc == 2 and err.count("\n") == 1 and list(tmp_path.iterdir()) == []
 

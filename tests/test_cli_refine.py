@@ -77,7 +77,7 @@ def test_offsets_are_named_for_what_they_are(capsys):
     (["--srp", "0.01m2/kg"], "--srp"),
     (["--revs", "0"], "--revs"),
     (["--epoch", "2031-13-01T00:00:00Z"], "2031-13-01"),
-    (["--plot", "x.pdf"], ".png"),
+    (["--plot", "x.gif"], ".png"),          # one rule for every --plot: .png, .svg or .pdf
     (["--system", "jupiter-europa"], "no ephemeris"),
 ])
 def test_bad_input_exit_2(capsys, tmp_path, extra, needle):

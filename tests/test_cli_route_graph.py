@@ -112,7 +112,7 @@ def test_bad_node_list_is_exit_2_with_file_line_key(capsys, nodes_file, tmp_path
     (["--from", "nowhere", "--to", "p3"], "no node matches 'nowhere'"),
     (["--from", "p0", "--to", "p3", "--max-dv", "5km"], "velocity"),
     (["--from", "p0", "--to", "p3", "--best", "0"], "--best 0"),
-    (["--from", "p0", "--to", "p3", "--plot", "x.jpg"], "must end in .png or .svg"),
+    (["--from", "p0", "--to", "p3", "--plot", "x.jpg"], "must end in .png, .svg or .pdf"),
     (["--from", "p0", "--to", "p3", "--workers", "two"], "--workers"),
 ])
 def test_bad_route_options_are_exit_2(capsys, nodes_file, args, message):

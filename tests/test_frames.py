@@ -174,7 +174,7 @@ def test_delta_v_round_trip_and_magnitude():
     ({"axes": "galactic"}, "unknown frame"),
     ({"center": "mars"}, "unknown centre"),
     ({"anchor": "wobbly"}, "unknown anchoring"),
-    ({"anchor": "circular", "orientation": (1.0, 2.0)}, "three angles"),
+    ({"anchor": "circular", "orientation": (1.0, 2.0)}, "expected 3: in degrees: inclination"),
     ({"anchor": "circular", "orientation": (200.0, 2.0, 3.0)}, "inclination"),
 ])
 def test_bad_frame_inputs(kwargs, words):

@@ -75,3 +75,13 @@ def test_adding_a_family_is_adding_a_row(monkeypatch):
                                stops=families.continuation.Stops(max_members=3))
     assert fam.family == "planar-test" and len(fam.members) == 3
     assert [m.state.tolist() for m in fam.members] == [m.state.tolist() for m in ref.members]
+
+
+def test_the_recipe_rows_are_the_vocabulary_s_families():
+    # one list of family words (cr3bp/vocabulary.py): the recipe table has a row for each word
+    # and no other, and each row's targets are words of the one target list
+    from cr3bp import vocabulary
+    from cr3bp.orbits import recipes
+    assert tuple(recipes.RECIPES) == vocabulary.FAMILIES
+    for name, row in recipes.RECIPES.items():
+        assert set(row.targets) <= set(vocabulary.ORBIT_TARGETS), name

@@ -7,17 +7,11 @@ from .. import common
 def add_build_options(p):
     p.add_argument("--nodes", metavar="FILE.toml", required=True, help="node list (TOML; its format: docs/manual/node-lists.md, or the docs site)")
     g = p.add_argument_group("computing the legs")
-    g.add_argument("--workers", metavar="N", help="worker processes (default: all cores; 1: no pool)")
+    common.add_workers_option(g)
     g.add_argument("--scheduler", metavar="ADDRESS",
                    help="run the legs on a dask.distributed scheduler instead (needs librate[cluster])")
-    g.add_argument("--catalog", metavar="PATH", help="leg cache (default $LIBRATE_CATALOG or "
-                   "~/.local/share/librate/catalog.sqlite)")
-    g.add_argument("--no-catalog", action="store_true", help="compute every leg, keep nothing")
+    common.add_catalog_options(g, used_by_default=True, note=" (as the leg cache)")
     g.add_argument("--tof", metavar="TIME", help="time of flight of targeted legs without their own (e.g. 6d)")
-
-
-def _workers(text):
-    return None if text is None else common.whole_number("--workers", text, 1, 256)
 
 
 def prepare(args, system, check=None):
@@ -26,12 +20,11 @@ def prepare(args, system, check=None):
     caller's own checks of the list, run first) and ``settings`` the keyword arguments of
     :func:`cr3bp.transfers.graph.build_graph` (``workers``, ``scheduler``, ``catalog`` (open, or
     None: close it after use), ``tof_days``, ``progress``: leg progress on stderr)."""
-    from cr3bp.catalog import Catalog
     from cr3bp.transfers.nodes import load_nodes
     from cr3bp.errors import InputError
     nodelist = load_nodes(args.nodes, system)
     checked = check(nodelist) if check is not None else None
-    workers = _workers(args.workers)
+    workers = common.workers(args)
     if args.scheduler and workers:
         raise InputError("give --workers or --scheduler, not both")
     tof_days = None
@@ -39,9 +32,7 @@ def prepare(args, system, check=None):
         from cr3bp.validate import quantity
         t = quantity("--tof", args.tof, "time", system, sign="positive")
         tof_days = system.days(t)
-    if args.no_catalog and args.catalog:
-        raise InputError("give --catalog or --no-catalog, not both")
-    catalog = None if args.no_catalog else Catalog(args.catalog)
+    catalog = common.open_catalog(args)
 
     def tick(done, total, leg):
         if done == 1 or done == total or done % max(1, total // 20) == 0:

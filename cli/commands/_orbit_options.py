@@ -2,22 +2,16 @@
 
 from __future__ import annotations
 
-TARGETS = (
-    ("period", "TIME", "orbit period, e.g. 6.5626d or 3.41TU"),
-    ("jacobi", "C", "Jacobi constant (nondimensional)"),
-    ("ax", "LENGTH", "x amplitude (half the x extent), e.g. 20000km"),
-    ("ay", "LENGTH", "y amplitude (half the y extent)"),
-    ("az", "LENGTH", "out-of-plane amplitude (largest |z|), e.g. 12000km"),
-    ("x", "LENGTH", "x of the initial (far) crossing, LU unless a unit is given"),
-    ("perilune", "LENGTH", "closest approach to the smaller primary's centre, e.g. 3500km"),
-    ("resonance", "P:Q", "synodic resonance (earth-moon): P periods in Q synodic months, e.g. 9:2"),
-)
+from cr3bp.vocabulary import FAMILIES, ORBIT_TARGETS, TARGET_HELP
+
+#: (option name, metavar, help) of each orbit target (cr3bp.vocabulary.ORBIT_TARGETS).
+TARGETS = tuple((name, *TARGET_HELP[name]) for name in ORBIT_TARGETS)
 
 
 def add_family_options(p, need_branch_help=True):
     g = p.add_argument_group("family")
     g.add_argument("--family", required=True, metavar="NAME",
-                   help="lyapunov, halo (alias nrho), vertical, axial, dro or resonant")
+                   help=f"{', '.join(FAMILIES)} (halo also as nrho)")
     g.add_argument("--point", metavar="L1|L2|L3", help="collinear Lagrange point (lyapunov, halo, vertical, axial)")
     g.add_argument("--branch", metavar="north|south", help="halo branch (z > 0 or < 0 at the crossing "
                    "farther from the smaller primary)")
@@ -35,16 +29,15 @@ def targets_given(args):
     return {name: getattr(args, name) for name, _, _ in TARGETS if getattr(args, name, None) is not None}
 
 
-def add_catalog_option(p, help_text="use the orbit catalogue at PATH (default path when PATH is "
-                       "omitted: $LIBRATE_CATALOG or ~/.local/share/librate/catalog.sqlite)"):
-    p.add_argument("--catalog", nargs="?", const="", default=None, metavar="PATH", help=help_text)
+def add_catalog_option(p, note=""):
+    """``--catalog [PATH]`` (cli.common.add_catalog_options): not used unless given."""
+    from .. import common
+    common.add_catalog_options(p, used_by_default=False, note=note)
 
 
 def open_catalog(args):
-    if getattr(args, "catalog", None) is None:
-        return None
-    from cr3bp.catalog import Catalog
-    return Catalog(args.catalog or None)
+    from .. import common
+    return common.open_catalog(args)
 
 
 def progress_printer(args, what):

@@ -5,24 +5,23 @@ from __future__ import annotations
 
 from .. import common
 
-try:  # the orbit command's own target list when the orbit library's CLI helpers are present
-    from ._orbit_options import TARGETS as _ORBIT_TARGETS
-    TARGETS = tuple(t[0] for t in _ORBIT_TARGETS if t[0] != "resonance")
-except ImportError:
-    TARGETS = ("jacobi", "period", "ax", "ay", "az", "perilune")
+from cr3bp.vocabulary import FAMILIES, ORBIT_TARGETS, TARGET_HELP, TUBE_BRANCHES
+
+#: The orbit targets (cr3bp.vocabulary.ORBIT_TARGETS), one option each.
+TARGETS = ORBIT_TARGETS
 
 
 def add_orbit_options(p):
     g = p.add_argument_group("periodic orbit (a request, the family options, or a state)")
     g.add_argument("--orbit", metavar="REQUEST",
                    help="the orbit in words, e.g. 'lyapunov L1 jacobi=3.17' or 'halo L1 north az=12000km'")
-    g.add_argument("--family", metavar="NAME", help="lyapunov, halo, vertical, axial, ...")
+    g.add_argument("--family", metavar="NAME", help=", ".join(FAMILIES))
     g.add_argument("--point", metavar="L1|L2|L3", help="collinear Lagrange point of the family")
     g.add_argument("--halo-branch", metavar="north|south", help="halo branch")
     for name in TARGETS:
-        g.add_argument(f"--{name}", metavar="VALUE", help=f"target {name} of the orbit "
-                       "(with --state: --period is the state's period)" if name == "period" else
-                       f"target {name} of the orbit")
+        meta, text = TARGET_HELP[name]
+        g.add_argument(f"--{name}", metavar=meta, help=f"target: {text}" + (
+            " (with --state: the state's period)" if name == "period" else ""))
     g.add_argument("--state", metavar="X,Y,Z,VX,VY,VZ",
                    help="an already converged periodic orbit's state (LU, LU/TU) instead of a request; "
                         "needs --period")
@@ -35,7 +34,7 @@ def add_manifold_options(p, points_default=200):
                    help="stable manifold (arrivals; propagated backward in time)")
     s.add_argument("--unstable", dest="stability", action="store_const", const="unstable",
                    help="unstable manifold (departures; propagated forward in time)")
-    g.add_argument("--branch", choices=("interior", "exterior"), default="interior",
+    g.add_argument("--branch", choices=TUBE_BRANCHES, default="interior",
                    help="interior: the half stepping toward the smaller primary; exterior: away from it "
                         "(default interior)")
     g.add_argument("--points", type=int, default=points_default, metavar="N",
@@ -88,15 +87,9 @@ def orbit_from_request(system, text, args=None):
 
 
 def _given(system, state_text, period_text, family="given", point=""):
-    from cr3bp.errors import InputError
     from cr3bp.tubes.manifolds import orbit_from_state
-    try:
-        s = [float(v) for v in state_text.split(",")]
-    except ValueError:
-        raise InputError(f"state '{state_text}' is not six comma-separated numbers") from None
-    if len(s) != 6:
-        raise InputError(f"state '{state_text}' has {len(s)} numbers; expected six (x,y,z,vx,vy,vz)")
-    from cr3bp.validate import quantity
+    from cr3bp.validate import numbers, quantity
+    s = list(numbers("state", state_text, 6, "x,y,z,vx,vy,vz"))
     T = quantity("period", period_text, "time", system, sign="positive", default_unit="TU")
     return orbit_from_state(system, s, T, family=family, point=point)
 
@@ -126,8 +119,3 @@ def progress_printer(args):
         common.progress(args, f"  {message}: {done}/{total}")
     return report
 
-
-def check_plot_path(path):
-    from cr3bp.errors import InputError
-    if path and not path.lower().endswith((".png", ".pdf", ".svg")):
-        raise InputError(f"plot file '{path}' must end in .png, .pdf or .svg")

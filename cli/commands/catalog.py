@@ -29,14 +29,12 @@ def add_arguments(p):
 
 
 def _common(a):
-    a.add_argument("--catalog", metavar="PATH", default=None,
-                   help="catalogue file (default $LIBRATE_CATALOG or ~/.local/share/librate/catalog.sqlite)")
+    common.add_catalog_options(a, used_by_default=True, opt_out=False)
     common.add_output_options(a)
 
 
 def run(args):
-    from cr3bp.catalog import Catalog
-    cat = Catalog(args.catalog)
+    cat = common.open_catalog(args)
     try:
         return {"list": _list, "show": _show, "find": _find, "remove": _remove}[args.action](args, cat)
     finally:

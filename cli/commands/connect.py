@@ -2,6 +2,8 @@
 
 import math
 
+from cr3bp.vocabulary import COLLINEAR_POINTS, TUBE_BRANCHES
+
 from .. import common
 from . import _departure
 from . import _tube_options as to
@@ -28,10 +30,10 @@ def add_arguments(p):
     p.add_argument("--crossing", type=int, default=1, metavar="N", help="use the N-th crossing of the section")
     p.add_argument("--points", type=int, default=None, metavar="N",
                    help="trajectories per tube (default 200; 100 for parking-orbit legs)")
-    p.add_argument("--from-branch", choices=("interior", "exterior"), default=None,
+    p.add_argument("--from-branch", choices=TUBE_BRANCHES, default=None,
                    help="half-manifold of the departure orbit (default interior: toward the smaller primary; "
                         "for a leg to a parking orbit, the half facing that primary)")
-    p.add_argument("--to-branch", choices=("interior", "exterior"), default=None,
+    p.add_argument("--to-branch", choices=TUBE_BRANCHES, default=None,
                    help="half-manifold of the arrival orbit (default as for --from-branch)")
     p.add_argument("--time", default=None, metavar="TIME", help="time limit per trajectory (default 2pi TU)")
     p.add_argument("--step-off", metavar="LENGTH", help="step-off distance (default per system)")
@@ -40,7 +42,7 @@ def add_arguments(p):
                    help="distance from the arrival orbit's path that counts as arrived, with its unit (e.g. "
                         "5000km), for the time of flight to arrival (default 1000km in earth-moon, 10000km in sun-earth, else 1%% of "
                         "the smaller primary's Hill radius)")
-    p.add_argument("--plot", metavar="FILE", help="draw the best leg over the tubes (PNG/PDF/SVG)")
+    common.add_plot_option(p, "draw the best leg over the tubes")
     p.add_argument("--map", metavar="FILE", help="parking-orbit legs: draw the periapsis map (altitude against "
                    "time of flight, the target altitude marked)")
     _departure.add_arguments(p)
@@ -82,7 +84,7 @@ def _jacobi_word(text):
 
 
 def _points(text):
-    return [w.upper() for w in text.split() if w.upper() in ("L1", "L2", "L3")]
+    return [w.upper() for w in text.split() if w.upper() in COLLINEAR_POINTS]
 
 
 HEADERS = ["rank", "kind", "dv_mps", "tof_arrival_days", "tof_stepoff_days", "arrival_within_km", "patch_x", "patch_y", "patch_z", "patch_vx", "patch_vy",
@@ -98,8 +100,8 @@ def run(args):
     from cr3bp.tubes.transit import necks_open
     from cr3bp.errors import InputError
     system = common.resolve_system(args)
-    to.check_plot_path(args.plot)
-    to.check_plot_path(args.map)
+    if args.map:
+        common.plot_file("--map", args.map)
     common.whole_number("--candidates", args.candidates, 1, 1000)
     common.whole_number("--crossing", args.crossing, 1, 1000)
     if args.points is not None:

@@ -1,5 +1,7 @@
 """librate convert: between OEM, CSV and JSON trajectory files, frames, centres and time systems."""
 
+from cr3bp.vocabulary import EXPORT_FORMATS, OEM_FORMATS
+
 from .. import common
 from .export import add_frame_options, leap_second_notes, parse_orientation, summary
 
@@ -13,7 +15,7 @@ EXAMPLE = "librate convert relay.oem relay.csv --frame j2000-ecliptic --center e
 def add_arguments(p):
     p.add_argument("input", metavar="IN", help="a file written by 'librate export' or 'librate convert'")
     p.add_argument("output", metavar="OUT", help="file to write (atomically)")
-    p.add_argument("--format", choices=("oem", "xml", "csv", "json"), help="format of OUT (default from its suffix)")
+    p.add_argument("--format", choices=EXPORT_FORMATS, help="format of OUT (default from its suffix)")
     add_frame_options(p, defaults=False)
     common.add_verbosity(p)
 
@@ -44,7 +46,7 @@ def _run(args):
         spec = frames.frame(spec.system, spec.epoch_tdb_s, anchor=anchor, axes=spec.axes,
                             center=spec.center, orientation=parse_orientation(args))
     spec = frames.with_(spec, **changes)
-    if fmt in ("oem", "xml") and spec.axes == "rotating":
+    if fmt in OEM_FORMATS and spec.axes == "rotating":
         raise InputError("OEM needs inertial axes (--frame j2000-equator or j2000-ecliptic); "
                          "use csv or json for the rotating frame")
     ts = args.time_system.upper() if args.time_system else traj.time_system

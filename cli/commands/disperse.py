@@ -1,5 +1,7 @@
 """librate disperse: insertion dispersion of a manifold insertion (Monte Carlo and linear covariance)."""
 
+from cr3bp.vocabulary import TUBE_BRANCHES
+
 from .. import common
 
 NAME = "disperse"
@@ -24,7 +26,7 @@ def add_arguments(p):
     g.add_argument("--arrive-phase", metavar="ANGLE", default="0deg",
                    help="where the manifold reaches the orbit: 120deg or 0.25rev of the period from its "
                         "initial state (default 0deg)")
-    g.add_argument("--branch", choices=("interior", "exterior"), default="interior",
+    g.add_argument("--branch", choices=TUBE_BRANCHES, default="interior",
                    help="manifold branch (default interior)")
     g.add_argument("--burn", metavar="VEL", default="0m/s",
                    help="size of the last maneuver, which scales its proportional execution error "

@@ -9,9 +9,7 @@ HELP = "write a trajectory as CCSDS OEM, CSV or JSON at an epoch, in an inertial
 EXAMPLE = ("librate export --system earth-moon --state 1.1805031,0,-0.02,0,-0.1581343,0 --period 14.8177d "
            "--epoch 2031-03-01T00:00:00Z --span 3periods --step 10min --center moon --out relay.oem")
 
-FRAMES = ("j2000-equator", "j2000-ecliptic", "rotating")
-TIME_SYSTEMS = ("tdb", "tt", "tai", "utc")
-ANCHORS = ("ephemeris", "circular")
+from cr3bp.vocabulary import ANCHORS, EXPORT_FORMATS, FRAMES, INERTIAL_FRAMES, OEM_FORMATS, TIME_SYSTEMS
 
 
 def add_frame_options(p, defaults=True):
@@ -34,7 +32,7 @@ def add_frame_options(p, defaults=True):
                    help="circular anchoring: inclination, node and argument of latitude (degrees) of the "
                         "secondary's orbit at the epoch, relative to --orientation-plane; default: the "
                         "osculating values of the ephemeris at the epoch")
-    g.add_argument("--orientation-plane", choices=("j2000-ecliptic", "j2000-equator"),
+    g.add_argument("--orientation-plane", choices=INERTIAL_FRAMES,
                    default="j2000-ecliptic", help="reference plane of --orientation (default j2000-ecliptic)")
 
 
@@ -58,7 +56,7 @@ def add_arguments(p):
     t.add_argument("--step", metavar="TIME", help="output step on the output clock (10min, 1h, 60s)")
     add_frame_options(p)
     o = p.add_argument_group("output")
-    o.add_argument("--format", choices=("oem", "xml", "csv", "json"), help="file format: oem (KVN), xml (OEM in XML), csv, json (default from the --out suffix)")
+    o.add_argument("--format", choices=EXPORT_FORMATS, help="file format: oem (KVN), xml (OEM in XML), csv, json (default from the --out suffix)")
     o.add_argument("--object-name", metavar="NAME", default="LIBRATE DESIGN", help="OBJECT_NAME (default 'LIBRATE DESIGN')")
     o.add_argument("--object-id", metavar="ID", default="NONE", help="OBJECT_ID (default NONE)")
     o.add_argument("--out", metavar="FILE", required=True, help="file to write (atomically)")
@@ -73,16 +71,11 @@ def parse_orientation(args):
         return None
     if args.anchor != "circular":
         raise InputError("--orientation goes with --anchor circular")
-    try:
-        vals = [float(x) for x in args.orientation.split(",")]
-    except ValueError:
-        raise InputError(f"--orientation '{args.orientation}' is not three numbers INC,NODE,ARGLAT (degrees)") from None
-    if len(vals) != 3:
-        raise InputError(f"--orientation '{args.orientation}' needs three numbers INC,NODE,ARGLAT (degrees)")
+    from cr3bp.validate import numbers
+    vals = numbers("--orientation", args.orientation, 3, "INC,NODE,ARGLAT (degrees)")
     from cr3bp.time.frames import Orientation
-    import math
-    if not all(math.isfinite(v) for v in vals) or not 0.0 <= vals[0] <= 180.0:
-        raise InputError(f"--orientation '{args.orientation}': finite angles, inclination in [0, 180]")
+    if not 0.0 <= vals[0] <= 180.0:
+        raise InputError(f"--orientation '{args.orientation}': the inclination must be in [0, 180] degrees")
     return Orientation(vals[0], vals[1] % 360.0, vals[2] % 360.0, args.orientation_plane)
 
 
@@ -155,7 +148,7 @@ def _run(args):
     if args.km and args.state is None:
         raise InputError("--km says how --state is given; it goes with --state only")
     fmt = export.format_of(args.out, args.format)
-    if fmt in ("oem", "xml") and args.frame == "rotating":
+    if fmt in OEM_FORMATS and args.frame == "rotating":
         raise InputError("OEM needs inertial axes (--frame j2000-equator or j2000-ecliptic); "
                          "use --format csv or json for the rotating frame")
     ts = args.time_system.upper()
@@ -200,13 +193,8 @@ def _run(args):
         model["period"] = f"{orbit.period!r} TU = {orbit.period * sysm.time_days:.9f} d"
         model["jacobi"] = repr(float(orbit.jacobi))
     elif args.state is not None:
-        parts = args.state.split(",")
-        try:
-            s = np.array([float(x) for x in parts])
-        except ValueError:
-            raise InputError(f"--state '{args.state}' is not six numbers x,y,z,vx,vy,vz") from None
-        if s.shape != (6,) or not np.all(np.isfinite(s)):
-            raise InputError(f"--state '{args.state}' must be six finite numbers x,y,z,vx,vy,vz")
+        from cr3bp.validate import numbers
+        s = np.array(numbers("--state", args.state, 6, "x,y,z,vx,vy,vz"))
         if args.km:
             s[:3] /= sysm.length_km
             s[3:] /= sysm.velocity_kms

@@ -1,5 +1,7 @@
 """librate family: grow a family of periodic orbits, with its stability and bifurcations."""
 
+from cr3bp.vocabulary import FAMILY_STOPS
+
 from .. import common
 from . import _orbit_options as oo
 
@@ -9,7 +11,7 @@ ORDER = 50
 HELP = "grow a family of periodic orbits: table of members, stability indices, bifurcations, plots"
 EXAMPLE = "librate family --system earth-moon --family lyapunov --point L1 --members 300 --format csv"
 
-UNTIL = ("jacobi", "period", "az", "ax", "perilune")
+UNTIL = FAMILY_STOPS
 
 
 def add_arguments(p):
@@ -33,10 +35,10 @@ def add_arguments(p):
                    "from the vertical family's branch point) or branch (axial: default, at the Lyapunov "
                    "family's second out-of-plane branch point; halo: at its first; vertical: where the "
                    "axial family meets it)")
-    oo.add_catalog_option(p, "also store the family in the orbit catalogue at PATH (default path "
-                          "when PATH is omitted)")
-    p.add_argument("--plot", metavar="PREFIX", help="write PREFIX-family.png (members coloured by Jacobi "
-                   "constant) and PREFIX-stability.png (stability indices vs Jacobi constant and period)")
+    oo.add_catalog_option(p, "; the family is stored in it")
+    common.add_plots_prefix_option(p, "write PREFIX-family.png (members coloured by Jacobi constant) and "
+                                      "PREFIX-stability.png (stability indices vs Jacobi constant and period); "
+                                      "--plot PREFIX is the older spelling")
     common.add_output_options(p)
 
 
@@ -74,20 +76,18 @@ def run(args):
         alt = quantity("--altitude", args.altitude, "length", system, sign="nonnegative") * system.length_km
     step = None
     if args.step is not None:
-        step = common._float_arg("--step", args.step)
-        if not 0 < step < 1:
-            raise InputError(f"--step {args.step} is outside the allowed range (0, 1)")
+        from cr3bp.validate import number_in
+        step = number_in("--step", args.step, 0, 1, open_lo=True, open_hi=True)
     max_step = None
     if args.max_step is not None:
-        max_step = common._float_arg("--max-step", args.max_step)
-        if not 0 < max_step < 1:
-            raise InputError(f"--max-step {args.max_step} is outside the allowed range (0, 1)")
+        from cr3bp.validate import number_in
+        max_step = number_in("--max-step", args.max_step, 0, 1, open_lo=True, open_hi=True)
     stops = continuation.Stops(max_members=args.members, altitude_km=alt, target=target)
     if args.plot:
         import os
         d = os.path.dirname(args.plot) or "."
         if not os.path.isdir(d):
-            raise InputError(f"--plot {args.plot}: folder {d} does not exist")
+            raise InputError(f"--plots {args.plot}: folder {d} does not exist")
     cat = oo.open_catalog(args)
     name = " ".join(w for w in (spec.family, spec.point, spec.branch_label) if w)
     common.progress(args, f"librate family: growing the {system.name} {name} family (up to {args.members} members)")

@@ -8,7 +8,6 @@ ORDER = 74
 HELP = "transfer graph from a node list: compute and cache the legs, list them, draw the schematic"
 EXAMPLE = "librate graph build --system earth-moon --nodes nodes.toml --workers 2"
 
-PLOT_SUFFIXES = (".png", ".svg")
 #: compiled kernels this command uses (checked for the first-run compile notice)
 KERNELS = (("cr3bp.integrate.dop853", "integrate"), ("cr3bp.integrate.dop853", "integrate_batch"))
 
@@ -18,17 +17,12 @@ def add_arguments(p):
                    help="build: compute the legs and list them; show: list the nodes and draw the graph")
     common.add_system_options(p)
     _graphing.add_build_options(p)
-    p.add_argument("--plot", metavar="FILE", help="draw the graph schematic to FILE (.png or .svg)")
+    common.add_plot_option(p, "draw the graph schematic")
     common.add_output_options(p)
 
 
 def run(args):
-    from pathlib import Path
-
-    from cr3bp.errors import InputError
     system = common.resolve_system(args)
-    if args.plot is not None and Path(args.plot).suffix.lower() not in PLOT_SUFFIXES:
-        raise InputError(f"--plot {args.plot!r} must end in .png or .svg")
     nodelist, result = _graphing.build(args, system)
     g = result.graph
     payload = dict(result.to_dict(), system=system.name, node_list=args.nodes, plot=args.plot)

@@ -9,7 +9,6 @@ HELP = "station-keeping Δv budget of an orbit in the ephemeris model: Monte Car
 EXAMPLE = ('librate keep --system earth-moon --orbit "halo L2 south resonance=9:2" --epoch 2031-03-01T00:00:00Z '
            "--span 365d --trials 200 --nav-error 1km,1cm/s --burn-error 1%,1mm/s --min-burn 1cm/s --plot hist.png")
 
-PLOT_SUFFIXES = (".png", ".svg", ".pdf")
 #: Velocity units of this command beyond the project's m/s and km/s: factor to m/s.
 _SMALL_VELOCITY = {"mm/s": 1e-3, "cm/s": 1e-2}
 
@@ -38,16 +37,14 @@ def add_arguments(p):
     m.add_argument("--hold-phase", action="store_true",
                    help="hold the target crossing's epoch too (keeps the reference's timing; costs more)")
     m.add_argument("--seed", metavar="N", default="0", help="random seed, 0..999999999999 (default 0)")
-    m.add_argument("--workers", metavar="N", help="process-pool size (default 1: in this process, whose "
-                                                  "compiled propagation already uses every core); results "
-                                                  "do not depend on it")
+    common.add_workers_option(m, "worker processes (default 1: in this process, whose compiled "
+                                 "propagation already uses every core); results do not depend on it")
     m.add_argument("--scheduler", metavar="ADDRESS", help="run the trials on a dask.distributed scheduler "
                                                           "(e.g. tcp://10.0.0.5:8786), or 'local' for a local "
                                                           "cluster of --workers processes (default 2); needs "
                                                           "librate[cluster]; results do not depend on it")
     o = p.add_argument_group("output")
-    o.add_argument("--plot", metavar="FILE", help="histogram of the Δv per year and per maneuver "
-                                                  "(.png, .svg or .pdf)")
+    common.add_plot_option(o, "draw the histogram of the Δv per year and per maneuver")
     p.add_argument("--format", choices=("table", "json"), default="table", help="output format (default table)")
     p.add_argument("--out", metavar="FILE", help="write the output to FILE instead of the screen")
     common.add_verbosity(p)
@@ -118,7 +115,7 @@ def _inputs(args):
     trials = common.whole_number("--trials", args.trials, 1, 100000)
     target = common.whole_number("--target-revs", args.target_revs, 1, 10)
     seed = common.whole_number("--seed", args.seed, 0, 999999999999)
-    workers = None if args.workers is None else common.whole_number("--workers", args.workers, 1, 256)
+    workers = common.workers(args)
     if args.scheduler is not None:
         sch = str(args.scheduler).strip()
         if sch != "local" and not re.fullmatch(r"(tcp|tls|inproc|ws|wss)://\S+", sch):
@@ -135,8 +132,6 @@ def _inputs(args):
         from cr3bp.validate import quantity
         interval = quantity("--interval", args.interval, "time", sysm, sign="positive")
     if args.plot:
-        if not args.plot.lower().endswith(PLOT_SUFFIXES):
-            raise InputError(f"--plot {args.plot!r} must end in {', '.join(PLOT_SUFFIXES)}")
         common.folder_exists("--plot", args.plot)
     if args.out:
         common.folder_exists("--out", args.out)

@@ -1,5 +1,7 @@
 """librate manifold: grow the stable or unstable manifold (tube) of a periodic orbit."""
 
+from cr3bp.vocabulary import COLLINEAR_POINTS
+
 from .. import common
 from . import _tube_options as to
 
@@ -20,7 +22,7 @@ def add_arguments(p):
     p.add_argument("--until", action="append", metavar="STOP",
                    help="stop condition, repeatable: section:x=1-mu (section:y=0:+, #2 for the 2nd "
                         "crossing), time:20d, altitude:earth:200km, escape:3LU (default time:2pi TU)")
-    p.add_argument("--plot", metavar="FILE", help="draw the tube (xy and xz projections) to PNG/PDF/SVG")
+    common.add_plot_option(p, "draw the tube (xy and xz projections)")
     common.add_output_options(p)
 
 
@@ -33,7 +35,6 @@ def run(args):
     system = common.resolve_system(args)
     if args.stability is None:
         raise InputError("give --stable or --unstable")
-    to.check_plot_path(args.plot)
     common.whole_number("--points", args.points, 2, 100_000)
     stop = parse_until(args.until, system)
     if args.lagrange:
@@ -73,7 +74,7 @@ def _point(args, system, stop):
     from cr3bp.errors import InputError
     from cr3bp.tubes.manifolds import point_tube
     name = args.lagrange.upper()
-    if name not in ("L1", "L2", "L3"):
+    if name not in COLLINEAR_POINTS:
         raise InputError(f"--lagrange {args.lagrange!r}: only the collinear points L1, L2, L3 have "
                          "one-dimensional manifolds")
     tube = point_tube(system, name, args.stability, args.branch, stop, step_km=args.step_off)

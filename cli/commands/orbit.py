@@ -19,7 +19,7 @@ def add_arguments(p):
     oo.add_catalog_option(p)
     p.add_argument("--occurrence", metavar="N", help="where the family meets the target more than once: "
                    "the N-th place from the family's start (default 1; every place is listed)")
-    p.add_argument("--plot", metavar="FILE", help="draw the orbit in three views (PNG, PDF or SVG by suffix)")
+    common.add_plot_option(p, "draw the orbit in three views")
     common.add_output_options(p)
 
 
@@ -29,11 +29,9 @@ def run(args):
     system = common.resolve_system(args)
     given = oo.targets_given(args)
     if not given:
-        raise InputError("give a target: --period, --jacobi, --ax, --ay, --az, --x, --perilune or --resonance")
+        raise InputError("give a target: " + ", ".join("--" + t for t, _, _ in oo.TARGETS))
     spec = spec_from_options(args.family, args.point, args.branch, args.ratio,
                              occurrence=args.occurrence, **given)
-    if args.plot:
-        _check_plot_path(args.plot)
     from cr3bp.orbits.targets import make_target
     make_target(system, spec.key, spec.value)   # bad units fail here, before any work
     cat = oo.open_catalog(args)
@@ -121,11 +119,3 @@ def _places_note(spec, d):
     return (f"{spec.key} = {spec.value} is met at {len(places)} places along the family; this is "
             f"place {this} from its start; the others ({others}) are chosen with --occurrence N")
 
-
-def _check_plot_path(path):
-    from pathlib import Path
-
-    from cr3bp.errors import InputError
-    suffix = Path(path).suffix.lower()
-    if suffix not in (".png", ".pdf", ".svg"):
-        raise InputError(f"--plot {path}: the file name must end in .png, .pdf or .svg")

@@ -11,7 +11,6 @@ EXAMPLE = ("librate propagate --system earth-moon --state 0.8234,0,0.0224,0,0.13
 
 #: compiled kernels this command uses (checked for the first-run compile notice)
 KERNELS = (("cr3bp.integrate.dop853", "integrate"),)
-PLOT_SUFFIXES = (".png", ".pdf", ".svg")
 MAX_OUTPUT_POINTS = 1_000_000
 PLOT_POINTS = 2000
 STATE_NAMES = ("x", "y", "z", "vx", "vy", "vz")
@@ -36,7 +35,7 @@ def add_arguments(p):
     g.add_argument("--step", metavar="DURATION",
                    help="output spacing, e.g. 1h (from the dense output); default: every "
                         "integration step")
-    g.add_argument("--plot", metavar="FILE", help="save a figure of the trajectory (.png, .pdf, .svg)")
+    common.add_plot_option(g, "draw the trajectory")
     m = p.add_argument_group("model")
     m.add_argument("--model", default="cr3bp", metavar="NAME",
                    help="cr3bp (default) or bicircular: the Earth-Moon CR3BP with the Sun on a "
@@ -133,8 +132,6 @@ def _output_times(args, system, t_final):
 
 
 def run(args):
-    from pathlib import Path
-
     import numpy as np
 
     from cr3bp import bicircular, propagate, validate
@@ -150,9 +147,6 @@ def run(args):
     rtol = validate.tolerance("--rtol", args.rtol)
     atol = validate.tolerance("--atol", args.atol)
     t_eval = _output_times(args, system, t_final)
-    if args.plot and Path(args.plot).suffix.lower() not in PLOT_SUFFIXES:
-        raise InputError(f"--plot {args.plot!r}: the file name must end in "
-                         f"{', '.join(PLOT_SUFFIXES)}")
     events = [impact(k, r, label=f"impact {name}")
               for k, (r, name) in enumerate(zip(system.radii, system.names)) if r > 0]
     model = _model(args, system)

@@ -42,7 +42,7 @@ def add_arguments(p):
     g.add_argument("--max-iter", metavar="N", default="25", help="Newton iterations at most (default 25)")
     p.add_argument("--format", choices=common.FORMATS, default="table", help="output format (default table)")
     p.add_argument("--out", metavar="FILE", help="write the trajectory: .oem, .xml, .csv or .json")
-    p.add_argument("--plot", metavar="FILE.png", help="plot the CR3BP and ephemeris trajectories")
+    common.add_plot_option(p, "draw the CR3BP and ephemeris trajectories")
     common.add_verbosity(p)
 
 
@@ -83,16 +83,9 @@ def _check_epoch(args, sysm):
 
 
 def _float(name, text, lo, hi):
-    import math
-
-    from cr3bp.errors import InputError
-    try:
-        v = float(str(text).lower().removesuffix("d"))
-    except (TypeError, ValueError):
-        raise InputError(f"{name} '{text}' is not a number") from None
-    if not (math.isfinite(v) and lo <= v <= hi):
-        raise InputError(f"{name} = {text} must be in {lo:g}..{hi:g}")
-    return v
+    """A number in lo..hi (a trailing 'd' for days allowed), cr3bp.validate.number_in."""
+    from cr3bp.validate import number_in
+    return number_in(name, str(text).lower().removesuffix("d"), lo, hi)
 
 
 def _model_options(args, sysm):
@@ -104,8 +97,6 @@ def _model_options(args, sysm):
     srp = parse_srp(args.srp)
     bodies = fm.parse_bodies(args.bodies)
     fmt_out = export.format_of(args.out) if args.out else None
-    if args.plot and not args.plot.lower().endswith(".png"):
-        raise InputError(f"--plot '{args.plot}' must name a .png file")
     _check_epoch(args, sysm)
     return max_iter, srp, bodies, fmt_out
 

@@ -1,6 +1,8 @@
 """librate route: ranked routes between two nodes of a transfer graph, the Pareto set, and the
 best route stitched into one continuous trajectory with its maneuver table."""
 
+from cr3bp.vocabulary import FRAMES
+
 from .. import common
 from . import _graphing
 
@@ -10,7 +12,6 @@ HELP = "rank the routes between two nodes, stitch the best into one trajectory, 
 EXAMPLE = ('librate route --system earth-moon --nodes nodes.toml --from gate --to relay '
            '--max-dv 800m/s --best 5 --pareto --plot corridor.png --out run1')
 
-PLOT_SUFFIXES = (".png", ".svg")
 #: compiled kernels this command uses (checked for the first-run compile notice)
 KERNELS = (("cr3bp.integrate.dop853", "integrate"), ("cr3bp.integrate.dop853", "integrate_batch"))
 
@@ -33,13 +34,13 @@ def add_arguments(p):
     g.add_argument("--pareto", action="store_true", help="also give the Pareto set of Δv against time of flight")
     g.add_argument("--no-stitch", action="store_true", help="rank only; do not stitch the best route")
     q = p.add_argument_group("output")
-    q.add_argument("--plot", metavar="FILE", help="transfer-corridor figure to FILE (.png/.svg); the Pareto "
-                   "front and the graph go beside it as FILE-pareto and FILE-graph")
+    common.add_plot_option(q, "draw the transfer corridor (the Pareto front and the graph go beside "
+                              "it as FILE-pareto and FILE-graph)")
     q.add_argument("--out", metavar="DIR", help="folder for the stitched route: route.json, trajectory.csv, "
                    "maneuvers.csv")
     q.add_argument("--epoch", metavar="ISO", help="with --out: also write route.oem (CCSDS OEM), the rotating "
                    "frame's time 0 at this epoch, e.g. 2031-03-01T00:00:00Z")
-    q.add_argument("--frame", choices=("j2000-equator", "j2000-ecliptic", "rotating"), default="j2000-equator",
+    q.add_argument("--frame", choices=FRAMES, default="j2000-equator",
                    help="axes of route.oem (default j2000-equator, centred on the larger primary)")
     q.add_argument("--format", choices=("table", "json"), default="table", help="screen output (default table)")
     common.add_verbosity(q)
@@ -72,15 +73,11 @@ def _side(path, tag):
 
 
 def run(args):
-    from pathlib import Path
-
     from cr3bp.errors import InputError
     from cr3bp.transfers.design import design_transfer
     from cr3bp.transfers.nodes import find_node
 
     system = common.resolve_system(args)
-    if args.plot is not None and Path(args.plot).suffix.lower() not in PLOT_SUFFIXES:
-        raise InputError(f"--plot {args.plot!r} must end in .png or .svg")
     if args.no_stitch and (args.out or args.plot):
         raise InputError("--out and --plot show the stitched route; leave out --no-stitch")
     if args.epoch is not None and not args.out:
@@ -235,8 +232,7 @@ def _plots(args, system, g, routes, front, stitched):
     from cr3bp.orbits.request import solve_request
     legs = [d["leg"] for d in routes[0].legs]
     # the tubes of the periodic orbits on the route: the corridors it rides
-    from cr3bp.catalog import Catalog
-    catalog = None if args.no_catalog else Catalog(args.catalog)
+    catalog = common.open_catalog(args)
     orbits = [solve_request(system, g.nodes[n]["node"]["orbit"], catalog=catalog)
               for n in dict.fromkeys(routes[0].nodes) if g.nodes[n].get("kind") == "orbit"]
     common.progress(args, f"librate: growing the tubes of {len(orbits)} orbit(s) for the corridor figure...")

@@ -11,8 +11,9 @@ EXAMPLE = "librate run examples/farlight.toml --out out"
 def add_arguments(p):
     p.add_argument("scenario", help="scenario file (TOML; its format: docs/scenario-format.rst, or the docs site)")
     p.add_argument("--out", required=True, metavar="DIR", help="folder for the results")
-    p.add_argument("--catalog", metavar="PATH", help="orbit catalogue (default: the per-user one)")
-    p.add_argument("--workers", type=int, metavar="N", help="worker processes for transfer legs")
+    common.add_catalog_options(p, used_by_default=True, opt_out=False)
+    common.add_workers_option(p, "worker processes for transfer legs (default: the scenario's "
+                                 "settings.workers, else all cores)")
     p.add_argument("--scheduler", metavar="ADDRESS", help="dask.distributed scheduler for transfer legs")
     p.add_argument("--check-only", action="store_true", help="check the scenario and stop")
     common.add_verbosity(p)
@@ -23,12 +24,9 @@ def run(args):
     problem, FILE:LINE: key: message (cli.common.run_command), and exits 2 with nothing written."""
     import time
     from cr3bp.scenario import run as mission
-    from cr3bp.catalog import default_path
-    from cr3bp.errors import InputError
-    if args.workers is not None and args.workers < 1:
-        raise InputError(f"--workers {args.workers} must be at least 1")
+    workers = common.workers(args)
     plan = mission.prepare(args.scenario)
-    mission.check_output_folder(args.out, plan.path, args.catalog or default_path(),
+    mission.check_output_folder(args.out, plan.path, common.catalog_file(args),
                                 mission.planned_files(plan.data))
     common.progress(args, f"scenario {args.scenario}: '{plan.name}', {len(plan.orbit_specs)} orbit(s), "
                           f"{len(plan.data.get('transfers', []))} transfer(s), "
@@ -43,9 +41,8 @@ def run(args):
         stage["n"] += 1
         common.progress(args, f"[{time.time() - t0:6.1f} s] {text}")
 
-    from cr3bp.catalog import Catalog
-    result = mission.run(plan, args.out, catalog=Catalog(args.catalog) if args.catalog else None,
-                         workers=args.workers, scheduler=args.scheduler, progress=say)
+    result = mission.run(plan, args.out, catalog=common.open_catalog(args),
+                         workers=workers, scheduler=args.scheduler, progress=say)
     failed = [f"{o}: {c.name}" for o, cs in result.checks.items() for c in cs if not c.passed]
     lines = [f"done in {result.seconds:.1f} s; results in {result.folder}/",
              f"  report:   {result.report}", f"  manifest: {result.manifest}",

@@ -1,5 +1,7 @@
 """librate section: cut one or more tubes with a Poincaré section and draw or export the map."""
 
+from cr3bp.vocabulary import STABILITIES, TUBE_BRANCHES
+
 from .. import common
 from . import _tube_options as to
 
@@ -28,20 +30,20 @@ def add_arguments(p):
     p.add_argument("--points", type=int, default=200, metavar="N", help="trajectories per tube (default 200)")
     p.add_argument("--time", default=None, metavar="TIME", help="time limit per trajectory (default 2pi TU)")
     p.add_argument("--step-off", metavar="LENGTH", help="step-off distance (default per system)")
-    p.add_argument("--plot", metavar="FILE", help="draw the map (PNG/PDF/SVG)")
+    common.add_plot_option(p, "draw the map")
     common.add_output_options(p)
 
 
 def parse_tube_spec(text):
     from cr3bp.errors import InputError
     words = text.split()
-    stab = [w for w in words if w.lower() in ("stable", "unstable")]
-    br = [w for w in words if w.lower() in ("interior", "exterior")]
+    stab = [w for w in words if w.lower() in STABILITIES]
+    br = [w for w in words if w.lower() in TUBE_BRANCHES]
     if len(stab) != 1:
         raise InputError(f"tube '{text}' must say 'stable' or 'unstable' once")
     if len(br) > 1:
         raise InputError(f"tube '{text}' names more than one branch")
-    rest = " ".join(w for w in words if w.lower() not in ("stable", "unstable", "interior", "exterior"))
+    rest = " ".join(w for w in words if w.lower() not in STABILITIES + TUBE_BRANCHES)
     if not rest:
         raise InputError(f"tube '{text}' has no orbit request")
     return rest, stab[0].lower(), (br[0].lower() if br else "interior")
@@ -87,7 +89,6 @@ def run(args):
     from cr3bp.tubes.manifolds import Stop, grow_tube, manifold_starts
     from cr3bp.tubes.sections import crossings, parse_section
     system = common.resolve_system(args)
-    to.check_plot_path(args.plot)
     section = parse_section(args.section, system)
     pairs = parse_pairs(args.coords) if args.coords else None
     names = pairs[0] if pairs else default_coords(section)

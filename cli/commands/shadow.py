@@ -12,7 +12,6 @@ EXAMPLE = ('librate shadow --system earth-moon --orbit "halo L2 south resonance=
 MODEL = ("CR3BP periodic orbit placed at the epoch by the ephemeris-anchored rotating frame "
          "(J2000 mean equator, Earth-centred; in Sun-Earth the Earth placed in the Earth-Moon barycentre by DE421); eclipse geometry from the project's ephemeris, "
          "conical shadow model (Montenbruck & Gill 2000, sec. 3.4.2), geometric positions, spherical bodies")
-PLOT_SUFFIXES = (".png", ".svg", ".pdf")
 #: Systems whose orbits can be placed about the Earth (the Earth in the system, or inside its secondary).
 SYSTEMS = ("earth-moon", "sun-earth")
 
@@ -47,7 +46,7 @@ def add_arguments(p):
                    help="ground stations, TOML: [stations.NAME] latitude_deg, longitude_deg (east), "
                         "min_elevation_deg (default 0), altitude_km (default 0)")
     o = p.add_argument_group("output")
-    o.add_argument("--plot", metavar="FILE", help="timeline figure of the passes (.png, .svg or .pdf)")
+    common.add_plot_option(o, "draw the timeline of the passes")
     common.add_output_options(p)
 
 
@@ -81,8 +80,6 @@ def _inputs(args):
         max_min = max_s / 60.0
     stations = visibility.read_stations(args.stations) if args.stations else []
     if args.plot:
-        if not args.plot.lower().endswith(PLOT_SUFFIXES):
-            raise InputError(f"--plot {args.plot!r} must end in {', '.join(PLOT_SUFFIXES)}")
         common.folder_exists("--plot", args.plot)
     if args.out:
         common.folder_exists("--out", args.out)

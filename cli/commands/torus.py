@@ -41,8 +41,7 @@ def add_arguments(p):
                    "constant (default), its period as the stroboscopic time, or the rotation of "
                    "its centre eigenpair")
     oo.add_catalog_option(p)
-    p.add_argument("--plot", metavar="FILE", help="draw the torus in three views and its "
-                   "invariance circle (PNG, PDF or SVG by suffix)")
+    common.add_plot_option(p, "draw the torus in three views and its invariance circle")
     common.add_output_options(p)
 
 
@@ -116,7 +115,7 @@ def run(args):
             raise InputError(f"--amplitude {args.amplitude} is larger than 0.2 of the distance "
                              "between the primaries; tori that large are not attempted")
     if args.plot:
-        _check_output("--plot", args.plot, (".png", ".pdf", ".svg"))
+        _check_output("--plot", args.plot)      # its suffix: cli.common.check_outputs
     if args.out:
         _check_output("--out", args.out)
     cat = oo.open_catalog(args)

@@ -8,7 +8,6 @@ ORDER = 30
 HELP = "zero-velocity curves and Hill region at a Jacobi constant: which necks are open, plot"
 EXAMPLE = "librate zvc --system earth-moon --above L1 --dv 20m/s --plot hill.png"
 
-PLOT_SUFFIXES = (".png", ".svg")
 HEADERS = ["point", "jacobi_at_point", "jacobi_minus_point", "neck_open", "speed_at_point_vu",
            "speed_at_point_mps"]
 
@@ -21,7 +20,7 @@ def add_arguments(p):
                    help="Lagrange point L1..L5: C of a spacecraft at that point moving at speed --dv")
     g.add_argument("--dv", metavar="SPEED", help="speed at the point, with a unit: 20m/s, 0.05km/s, 0.01VU")
     q = p.add_argument_group("plot")
-    q.add_argument("--plot", metavar="FILE", help="write the Hill-region plot to FILE (.png or .svg)")
+    common.add_plot_option(q, "draw the Hill region")
     q.add_argument("--plane", metavar="xy|xz", default="xy", help="plane of the plot: z = 0 or y = 0 (default xy)")
     q.add_argument("--view", metavar="system|secondary", default=None,
                    help="default extent: whole system, or around the smaller primary with L1 and L2 "
@@ -73,14 +72,7 @@ def _extent(args, system):
 
 
 def _resolution(text):
-    from cr3bp.errors import InputError
-    try:
-        n = int(str(text).strip())
-    except ValueError:
-        raise InputError(f"--resolution {text!r} is not an integer; allowed 21..4001") from None
-    if not 21 <= n <= 4001:
-        raise InputError(f"--resolution {n} is outside the allowed range 21..4001")
-    return n
+    return common.whole_number("--resolution", text, 21, 4001)
 
 
 def run(args):
@@ -98,8 +90,6 @@ def run(args):
         args.view = default_view(system)
     if args.view not in VIEWS:
         raise InputError(f"--view {args.view!r} is not allowed; allowed: {', '.join(VIEWS)}")
-    if args.plot is not None and Path(args.plot).suffix.lower() not in PLOT_SUFFIXES:
-        raise InputError(f"--plot {args.plot!r} must end in .png or .svg")
     if args.plot is None and args.curves is None and (args.extent or args.km):
         raise InputError("--extent and --km shape the plot; give --plot FILE or --curves FILE too")
     if args.curves is not None and Path(args.curves).suffix.lower() != ".csv":

@@ -410,7 +410,6 @@ def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", 
         except ConvergenceError as e:
             note = f"SLSQP answer could not be polished ({e}); continuity solution kept"
     X = z[:6 * p.P].reshape(-1, 6)
-    pt_cr3bp = pt
     pt = p.times(z)
     F, _ = p.constraints(z)
     # continuity (position everywhere, velocity at patch points without a maneuver)

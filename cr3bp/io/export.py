@@ -45,11 +45,13 @@ from .atomic import writing
 from ..cautions import CAUTION, caution_lines
 from ..constants import OBLIQUITY_J2000_ARCSEC
 from ..errors import InputError, shown
+from ..vocabulary import EXPORT_FORMATS, INERTIAL_FRAMES
 
-FORMATS = ("oem", "xml", "csv", "json")   # xml = OEM in XML
+FORMATS = EXPORT_FORMATS                 # xml = OEM in XML
 OEM_VERSION = "3.0"
 ORIGINATOR = "LIBRATE"
-REF_FRAMES = {"j2000-equator": "EME2000", "j2000-ecliptic": "J2000_ECLIPTIC"}
+#: CCSDS REF_FRAME of each inertial frame (cr3bp.vocabulary.INERTIAL_FRAMES, in order).
+REF_FRAMES = dict(zip(INERTIAL_FRAMES, ("EME2000", "J2000_ECLIPTIC")))
 AXES_OF_REF_FRAME = {v: k for k, v in REF_FRAMES.items()}
 POS_FMT, VEL_FMT = "%.7f", "%.10f"      # 0.1 mm, 0.1 um/s
 MAX_SAMPLES = 5_000_000

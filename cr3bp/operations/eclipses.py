@@ -177,7 +177,6 @@ def find_passes(tdb_s, geometry, bodies=BODIES, radii=None) -> list:
             raise InputError(f"unknown occulting body '{b}'; allowed: {', '.join(BODIES)}")
     pos = geometry(t)
     found = []                       # (body, kind, start_i, end_i, open_start, open_end, depth_i)
-    edges = []                       # (i, entering, body, kind)
     nus = {}
     for body in bodies:
         a, b, c = disc_angles(pos["spacecraft"], pos["sun"], pos[body], radii[body], radii["sun"])

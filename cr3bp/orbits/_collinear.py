@@ -14,8 +14,9 @@ from functools import lru_cache
 import numpy as np
 
 from ..errors import InputError
+from ..vocabulary import COLLINEAR_POINTS
 
-COLLINEAR = ("L1", "L2", "L3")
+COLLINEAR = COLLINEAR_POINTS
 
 
 @dataclass(frozen=True)

@@ -48,7 +48,8 @@ from ..errors import ConvergenceError, InputError, NoSolutionError
 from . import continuation, recipes, seeds, shooting
 from ._collinear import collinear_point, point_name
 
-#: The family words (the rows of :data:`cr3bp.orbits.recipes.RECIPES`).
+#: The family words (the rows of :data:`cr3bp.orbits.recipes.RECIPES`, one per word of
+#: :data:`cr3bp.vocabulary.FAMILIES`; tests/test_orbit_recipes.py checks they agree).
 FAMILIES = recipes.FAMILIES
 #: Largest relative departure of a resonant member's rotating-frame period from ``2 pi q`` (the
 #: time in which the p:q resonance closes): members beyond it are not on the resonance and end

@@ -35,13 +35,12 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field, replace
 
+from ..vocabulary import ORBIT_TARGETS  # noqa: F401  (the targets a request may pick a member by)
 from . import seeds
 
 __all__ = ["FAMILIES", "ORBIT_TARGETS", "Branching", "Recipe", "RECIPES", "recipe",
            "measures_winding", "has_ratio", "routes_offered"]
 
-#: The targets an orbit request may pick a member by (see :mod:`cr3bp.orbits.targets`).
-ORBIT_TARGETS = ("period", "jacobi", "ax", "ay", "az", "x", "perilune", "resonance")
 
 
 # ---- orientation of a family: which way along the tangent is "forward" ---------------------

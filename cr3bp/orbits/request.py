@@ -24,10 +24,11 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from ..errors import InputError, NoSolutionError
+from ..vocabulary import COLLINEAR_POINTS, FAMILY_ALIASES, HALO_BRANCHES, LAGRANGE_POINTS, ORBIT_TARGETS
 from . import continuation, families, recipes, seeds, targets
 from .orbit import PeriodicOrbit
 
-ALIASES = {"nrho": "halo", "lyap": "lyapunov", "planar": "lyapunov"}
+ALIASES = FAMILY_ALIASES
 
 
 @dataclass(frozen=True)
@@ -145,16 +146,17 @@ def parse_request(text: str) -> OrbitSpec:
                 raise InputError(f"unknown target '{key}'; allowed: {', '.join(recipes.RECIPES[fam].targets)}")
             if not value:
                 raise InputError(f"target '{key}=' has no value")
-        elif lw in ("l1", "l2", "l3", "l4", "l5"):
+        elif w.upper() in LAGRANGE_POINTS:
             point = w.upper()
-        elif lw in ("north", "south", "northern", "southern"):
-            branch = "north" if lw.startswith("north") else "south"
+        elif lw in HALO_BRANCHES or lw in tuple(b + "ern" for b in HALO_BRANCHES):
+            branch = lw.removesuffix("ern")
         elif ":" in w and recipes.has_ratio(fam):
             resonance = targets.parse_resonance(w)
             seeds.check_resonance(*resonance)
         else:
             raise InputError(f"'{w}' is not understood in the request '{text}'; expected a point "
-                             "(L1, L2, L3), a branch (north, south), p:q for resonant, or KEY=VALUE")
+                             f"({', '.join(COLLINEAR_POINTS)}), a branch ({', '.join(HALO_BRANCHES)}), p:q for "
+                             "resonant, or KEY=VALUE")
     if recipes.has_ratio(fam):
         if resonance is None:
             raise InputError(f"a {fam} family needs p:q, e.g. 'resonant 3:2 jacobi=2.9'")
@@ -364,8 +366,8 @@ def solve_request(system, spec, catalog=None, progress=None) -> PeriodicOrbit:
     if isinstance(spec, str):
         spec = parse_request(spec)
     if not spec.key:
-        raise InputError("the request has no target; add one of period=, jacobi=, ax=, ay=, az=, x=, "
-                         "perilune=, resonance=")
+        raise InputError("the request has no target; add one of "
+                         + ", ".join(k + "=" for k in ORBIT_TARGETS))
     tg = targets.make_target(system, spec.key, spec.value)
     fam, point, branch = family_key(spec)
     kind = families.kind_of(spec.family)

@@ -30,6 +30,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
+from ..vocabulary import HALO_BRANCHES
 from ._collinear import cn, collinear_point
 
 XZ = "xz"          # symmetric about the x-z plane: perpendicular crossings of y = 0
@@ -329,7 +330,7 @@ def richardson_halo(mu: float, point: str, az_lu: float, branch: str = "north",
     if ax2 <= 0:
         raise InputError(f"Az = {az_lu:g} LU gives no real Ax in Richardson's amplitude constraint at {p.name}")
     branch = str(branch).lower()
-    if branch not in ("north", "south"):
+    if branch not in HALO_BRANCHES:
         raise InputError(f"halo branch '{branch}' is not allowed; use north or south")
     # tau1 = 0 is the crossing at x_R ~ -Ax: farther from the smaller primary for L1, nearer for L2;
     # for L3 it is farther from the larger primary. The seed starts at the far crossing (tau1 = pi

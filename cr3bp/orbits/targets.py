@@ -16,10 +16,15 @@ from dataclasses import dataclass
 from .. import units
 from ..constants import SECONDS_PER_DAY, SIDEREAL_MONTH_DAYS, SIDEREAL_YEAR_DAYS
 from ..errors import InputError
+from ..vocabulary import LENGTH_TARGETS, ORBIT_TARGETS
 
 SYNODIC_MONTH_DAYS = 1.0 / (1.0 / SIDEREAL_MONTH_DAYS - 1.0 / SIDEREAL_YEAR_DAYS)
 
-KINDS = ("period", "jacobi", "ax", "ay", "az", "x", "perilune", "approach1", "resonance")
+#: The user targets (:data:`cr3bp.vocabulary.ORBIT_TARGETS`) and the library's own
+#: ``approach1`` (closest approach to the larger primary; not offered to users yet).
+KINDS = ORBIT_TARGETS + ("approach1",)
+#: Targets whose value must be positive.
+POSITIVE = ("period",) + LENGTH_TARGETS + ("approach1",)
 
 
 @dataclass(frozen=True)
@@ -180,7 +185,7 @@ def make_target(system, kind: str, text) -> Target:
         t = _make(system, str(kind).strip().lower(), str(text).strip())
     except UnitError as e:
         raise UnitError(f"{str(kind).strip().lower()}: {e}") from None
-    if t.kind in ("period", "ax", "ay", "az", "perilune", "approach1") and not t.value > 0:
+    if t.kind in POSITIVE and not t.value > 0:
         raise InputError(f"{t.kind} = {t.text} must be positive")
     return t
 
@@ -206,7 +211,7 @@ def _make(system, kind, text):
             raise InputError(f"synodic resonance is defined for earth-moon only (system '{system.name}')")
         T = synodic_period_days(p, q) * SECONDS_PER_DAY / system.time_s
         return Target(kind, "period", T, text)
-    raise InputError(f"unknown target '{kind}'; allowed: {', '.join(KINDS)}")
+    raise InputError(f"unknown target '{kind}'; allowed: {', '.join(ORBIT_TARGETS)}")
 
 
 def describe_value(system, quantity: str, value: float) -> str:

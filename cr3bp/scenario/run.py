@@ -30,10 +30,12 @@ from . import schema
 from ..io.atomic import write_text
 from ..cautions import CAUTION
 from ..errors import InputError
+from ..validate import MAX_WORKERS
+from ..vocabulary import SCENARIO_IMAGE_FORMATS, INERTIAL_FRAMES, LENGTH_TARGETS, ORBIT_TARGETS
 from .outputs import csv_text, json_text, save_figures, say
 from .schema import Problem, ScenarioError
 
-TARGET_KEYS = ("period", "jacobi", "ax", "ay", "az", "perilune", "perigee", "resonance")
+TARGET_KEYS = ORBIT_TARGETS
 
 
 @dataclass(frozen=True)
@@ -66,8 +68,6 @@ class Outputs:
 def _spec_for(entry: dict):
     from ..orbits.request import spec_from_options
     target = {k: entry[k] for k in TARGET_KEYS if k in entry}
-    if "perigee" in target:
-        raise InputError("target 'perigee' is not offered yet; use perilune, period, jacobi or an amplitude")
     target = {k: (str(v) if not isinstance(v, str) else v) for k, v in target.items()}
     res = entry.get("resonant")
     return spec_from_options(entry["family"], entry.get("point"), entry.get("branch") or None,
@@ -145,11 +145,11 @@ def prepare(path) -> Plan:
         if ex["object"] in known and "span" not in ex:
             add(f"exports[{i}]", InputError("an orbit export needs 'span' (e.g. '3periods')"))
         if ex["format"] == "oem" and ex.get("frame") == "rotating":
-            add(f"exports[{i}].frame", InputError("OEM needs inertial axes (j2000-equator or j2000-ecliptic)"))
+            add(f"exports[{i}].frame", InputError(f"OEM needs inertial axes ({' or '.join(INERTIAL_FRAMES)})"))
     fmts = data.get("plots", {}).get("formats", ["png"])
     for f in fmts:
-        if f not in ("png", "svg"):
-            add("plots.formats", InputError(f"image format '{f}' is not one of png, svg"))
+        if f not in SCENARIO_IMAGE_FORMATS:
+            add("plots.formats", InputError(f"image format '{f}' is not one of {', '.join(SCENARIO_IMAGE_FORMATS)}"))
     if system is not None and not system.dimensional and (data.get("exports") or transfers):
         add("system", InputError("exports and transfers need a system with dimensional units"))
     _check_values(data, system, add)
@@ -168,11 +168,11 @@ def prepare(path) -> Plan:
 #: Files every run writes, whatever the scenario.
 FIXED_FILES = ("orbits.json", "orbits.csv", "checks.csv", "checks.json", "report.html", "manifest.json")
 #: Whole-number settings and their allowed ranges.
-INT_RANGES = {"best": (1, 100), "workers": (1, 1024)}
+INT_RANGES = {"best": (1, 100), "workers": (1, MAX_WORKERS)}
 #: Quantity keys of orbits, checks, transfers and exports: (dimension, least allowed, rule).
 QUANTITY_RULES = {
-    "period": ("time", "positive"), "ax": ("length", "positive"), "ay": ("length", "positive"),
-    "az": ("length", "positive"), "perilune": ("length", "positive"), "perigee": ("length", "positive"),
+    "period": ("time", "positive"), **{k: ("length", "positive") for k in LENGTH_TARGETS},
+    "x": ("length", "any sign"),
     "min_altitude_smaller": ("length", "zero or more"), "min_altitude_larger": ("length", "zero or more"),
     "max_period": ("time", "positive"), "max_dv": ("velocity", "positive"), "max_tof": ("time", "positive"),
     "step": ("time", "positive"),
@@ -189,7 +189,7 @@ def _quantity(key, text, dimension, rule, system, add):
     except InputError as e:
         add(key, e)
         return None
-    ok = q.value > 0 if rule == "positive" else q.value >= 0
+    ok = q.value > 0 if rule == "positive" else True if rule == "any sign" else q.value >= 0
     if not ok:
         add(key, InputError(f"'{text}' is not allowed; a {dimension} that is {rule} is needed, "
                             f"e.g. {EXAMPLES[dimension]}"))
@@ -323,7 +323,7 @@ def _check_parking(key, text, system, add):
 
 def planned_files(data) -> dict:
     """Every file name a run of ``data`` writes -> the scenario key that makes it."""
-    fmts = [f for f in data.get("plots", {}).get("formats", ["png"]) if f in ("png", "svg")]
+    fmts = [f for f in data.get("plots", {}).get("formats", ["png"]) if f in SCENARIO_IMAGE_FORMATS]
     plots = data.get("plots", {})
     planned = {}
 

@@ -1,24 +1,23 @@
 """The scenario file format: a TOML document, keys of our own, checked before any computation.
 
 The schema is data: each table lists its keys with (type, required, description). The checker
-reports unknown keys, missing required keys and values of the wrong type with the file, line
-and dotted key, all at once, before anything is computed.
+(:func:`cr3bp.io.toml_schema.check_document`, shared with the node lists) reports unknown keys,
+missing required keys and values of the wrong type with the file, line and dotted key, all at
+once, before anything is computed; :func:`check` adds the scenario's cross-key rules.
 """
 
 from __future__ import annotations
 
-import math
 import re
-import tomllib
-from dataclasses import dataclass
 from pathlib import Path
 
-from ..errors import InputError, shown
-
-#: Largest scenario file read (a scenario is a few kilobytes; this keeps a hostile file cheap).
-MAX_SCENARIO_BYTES = 1 << 20
-#: Longest text value (mission names, descriptions, requests); names of files are shorter.
-MAX_TEXT_CHARS = 2000
+from ..errors import shown
+from .. import vocabulary as words
+# the file reading and key checking shared by every TOML input (names kept here for callers)
+from ..io.toml_schema import (B, F, I, MAX_TEXT_CHARS, Q, S, Problem, ScenarioError,  # noqa: F401
+                              check_document, key_parts, line_index, line_of, parse_toml, path_text,
+                              read_text)
+from ..io.toml_schema import MAX_FILE_BYTES as MAX_SCENARIO_BYTES  # noqa: F401
 #: Names that become parts of file names (orbits, transfers): one plain character set, no
 #: separators, no leading dot or dash, so no name can point outside the output folder.
 NAME_PATTERN = re.compile(r"[A-Za-z0-9][A-Za-z0-9_-]{0,63}")
@@ -27,21 +26,15 @@ NAME_RULE = "1 to 64 letters, digits, '-' or '_', starting with a letter or digi
 FILE_PATTERN = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.-]{0,99}")
 FILE_RULE = "1 to 100 letters, digits, '-', '_' or '.', starting with a letter or digit"
 
-# type names: "str", "float" (int accepted), "int", "bool", "quantity" (str with a unit, e.g. "200km"),
-# "table", "list[str]"; "one-of:a|b|c" for enumerations
-S, F, I, B, Q = "str", "float", "int", "bool", "quantity"
-
+#: The schema type of each kind of target value (cr3bp.vocabulary.TARGET_DIMENSIONS).
+_TARGET_TYPES = {"time": Q, "length": Q, "number": F, "ratio": S}
 ORBIT_KEYS = {
-    "family": ("one-of:lyapunov|halo|vertical|axial|dro|resonant", True, "orbit family"),
-    "point": ("one-of:L1|L2|L3", False, "Lagrange point (not for dro/resonant)"),
-    "branch": ("one-of:north|south|", False, "halo branch"),
-    "period": (Q, False, "target period, e.g. '6.5626d'"),
-    "jacobi": (F, False, "target Jacobi constant"),
-    "ax": (Q, False, "target x amplitude"), "ay": (Q, False, "target y amplitude"),
-    "az": (Q, False, "target z amplitude"),
-    "perilune": (Q, False, "target closest approach to the smaller primary (radius)"),
-    "perigee": (Q, False, "target closest approach to the larger primary (radius)"),
-    "resonance": (S, False, "synodic resonance p:q, e.g. '9:2'"),
+    "family": (words.one_of(words.FAMILIES), True, "orbit family"),
+    "point": (words.one_of(words.COLLINEAR_POINTS), False, "Lagrange point (not for dro/resonant)"),
+    "branch": (words.one_of(words.HALO_BRANCHES, optional=True), False, "halo branch"),
+    # the orbit targets, one key each (give exactly one)
+    **{k: (_TARGET_TYPES[words.TARGET_DIMENSIONS[k]], False, "target " + words.TARGET_HELP[k][1])
+       for k in words.ORBIT_TARGETS},
     "resonant": (S, False, "p:q of a resonant family"),
     "occurrence": (I, False, "which place along the family meeting the target, from its start (default 1)"),
     "phase_deg": (F, False, "phase of the orbit at the epoch, degrees of its period from its initial state "
@@ -79,11 +72,12 @@ TRANSFER_KEYS = {
 }
 EXPORT_KEYS = {
     "object": (S, True, "name of an orbit or transfer"),
-    "format": ("one-of:oem|csv|json", True, "file format"),
-    "frame": ("one-of:j2000-equator|j2000-ecliptic|rotating", False, "axes"),
-    "center": ("one-of:earth|moon|barycenter|sun|primary|secondary", False, "origin"),
-    "time_system": ("one-of:utc|tai|tt|tdb", False, "time scale of the epochs"),
-    "anchor": ("one-of:ephemeris|circular", False, "how the rotating frame is tied to the date"),
+    "format": (words.one_of(words.SCENARIO_EXPORT_FORMATS), True, "file format"),
+    "frame": (words.one_of(words.FRAMES), False, "axes"),
+    # checked against the system by the run's own resolver (cr3bp.time.frames.resolve_center)
+    "center": (S, False, "origin: primary, secondary, barycenter or a body's name"),
+    "time_system": (words.one_of(words.TIME_SYSTEMS), False, "time scale of the epochs"),
+    "anchor": (words.one_of(words.ANCHORS), False, "how the rotating frame is tied to the date"),
     "span": (S, False, "how long: '3periods' or a time such as '20d'"),
     "step": (Q, False, "output step, e.g. '10min'"),
     "file": (S, False, "output file name (inside the run folder)"),
@@ -119,74 +113,6 @@ UNUSED_SETTINGS = {
     "tube_points": "librate run chooses the points of each tube by the kind of leg (see the node "
                    "list's hints in the user guide, docs/manual/node-lists.md); remove the key",
 }
-
-
-@dataclass(frozen=True)
-class Problem:
-    file: str
-    line: int
-    key: str
-    message: str
-    #: "type" (a key, type or format problem: the value cannot be read) or "meaning" (a
-    #: readable value that is not allowed here)
-    kind: str = "type"
-
-    def __str__(self):
-        return f"{self.file}:{self.line}: {self.key}: {self.message}"
-
-
-class ScenarioError(InputError):
-    """One or more problems in a scenario file; ``problems`` lists them all."""
-
-    def __init__(self, problems):
-        self.problems = list(problems)
-        # every problem, one line each (FILE:LINE: key: message), not the first alone
-        super().__init__("\n".join(str(p) for p in self.problems))
-
-
-_HEADER = re.compile(r"^\s*(\[\[?)\s*([^\]]+?)\s*\]\]?\s*(#.*)?$")
-_KEY = re.compile(r"^\s*([A-Za-z0-9_\-\"'.]+)\s*=")
-
-
-def line_index(text: str) -> dict:
-    """Map dotted keys (with list positions as ``name[i]``) to their line numbers (1-based)."""
-    where: dict[str, int] = {}
-    prefix = ""
-    counts: dict[str, int] = {}
-    for n, raw in enumerate(text.splitlines(), 1):
-        m = _HEADER.match(raw)
-        if m:
-            name = m.group(2).replace('"', "").replace("'", "")
-            if m.group(1) == "[[":
-                i = counts.get(name, 0)
-                counts[name] = i + 1
-                prefix = f"{name}[{i}]"
-            else:
-                prefix = _with_list_index(name, counts)
-            where.setdefault(prefix, n)
-            continue
-        k = _KEY.match(raw)
-        if k:
-            key = k.group(1).replace('"', "").replace("'", "")
-            full = f"{prefix}.{key}" if prefix else key
-            where.setdefault(full, n)
-    return where
-
-
-def _with_list_index(name, counts):
-    # "exports.x" inside the latest [[exports]] entry
-    head = name.split(".")[0]
-    if head in counts:
-        return f"{head}[{counts[head] - 1}]" + name[len(head):]
-    return name
-
-
-_PART = re.compile(r"([^.\[\]]+)|\[(\d+)\]")
-
-
-def key_parts(key: str) -> list:
-    """``"exports[1].step"`` -> ``["exports", 1, "step"]``."""
-    return [int(i) if i else k for k, i in _PART.findall(key)]
 
 
 def _schema_entry(parts):
@@ -249,180 +175,25 @@ def load(path) -> dict:
     return data
 
 
-def path_text(path) -> str:
-    """A file path as it goes into a FILE:LINE message: whole, with any control character
-    escaped (so a message stays one line)."""
-    t = str(path)
-    return t if t.isprintable() else t.encode("unicode_escape").decode("ascii")
-
-
-def read_text(path, what: str = "scenario") -> str:
-    """The text of a scenario-like file: at most MAX_SCENARIO_BYTES, UTF-8, no NUL bytes;
-    otherwise one InputError line naming the file."""
-    path = Path(path)
-    where = path_text(path)
-    try:
-        if path.is_dir():
-            raise InputError(f"{what} {where} is a folder, not a file")
-        with open(path, "rb") as f:
-            raw = f.read(MAX_SCENARIO_BYTES + 1)
-    except OSError as e:
-        raise InputError(f"cannot read {what} {where}: {e.strerror or e}") from None
-    if len(raw) > MAX_SCENARIO_BYTES:
-        raise InputError(f"{where}:1: the {what} is larger than {MAX_SCENARIO_BYTES // 1024} KiB; "
-                         "a scenario is a short TOML text file")
-    if b"\0" in raw:
-        line = raw[:raw.index(b"\0")].count(b"\n") + 1
-        raise InputError(f"{where}:{line}: the {what} is not a text file (it holds NUL bytes); "
-                         "expected TOML text")
-    try:
-        return raw.decode("utf-8")
-    except UnicodeDecodeError as e:
-        line = raw[:e.start].count(b"\n") + 1
-        raise InputError(f"{where}:{line}: byte 0x{raw[e.start]:02x} is not UTF-8 text; "
-                         f"save the {what} as UTF-8 TOML") from None
-
-
-def parse_toml(text: str, file: str) -> dict:
-    """TOML text -> dict; a syntax error or an absurdly nested value is one ScenarioError."""
-    try:
-        return tomllib.loads(text)
-    except tomllib.TOMLDecodeError as e:
-        m = re.search(r"line (\d+)", str(e))
-        raise ScenarioError([Problem(file, int(m.group(1)) if m else 0, "(syntax)", str(e))]) from None
-    except RecursionError:
-        raise ScenarioError([Problem(file, 1, "(syntax)", "values nested too deeply to be a scenario "
-                                     "(arrays or tables inside each other hundreds of levels deep)")]) from None
-
-
 def check(data: dict, lines: dict, file: str, schema: dict | None = None,
           text: str | None = None) -> list[Problem]:
     """Every problem of ``data`` against ``schema`` (default: the scenario schema, with its
-    cross-key rules). Other file formats (e.g. the node lists of :mod:`cr3bp.transfers.nodes`) pass
-    their own schema and get the key, type and line checks only."""
-    problems: list[Problem] = []
-    text_lines = text.splitlines() if text is not None else None
+    cross-key rules). Other file formats pass their own schema and get the key, type and line
+    checks only (:func:`cr3bp.io.toml_schema.check_document`, which they may call directly)."""
+    if schema is not None:
+        return check_document(data, lines, file, schema, text)
+    problems = check_document(data, lines, file, SCHEMA, text, subtables={"checks": CHECK_KEYS},
+                              unknown_reason=_unknown_reason)
 
     def line(key):
-        while key:
-            if key in lines:
-                return lines[key]
-            key = key.rpartition(".")[0] if "." in key else ""
-        return 1
+        return line_of(lines, key)
 
-    def check_table(table, keys, prefix):
-        for k in table:
-            if k not in keys:
-                allowed = ", ".join(sorted(keys))
-                why = (RENAMED_CHECKS.get(k) if keys is CHECK_KEYS
-                       else UNUSED_SETTINGS.get(k) if prefix == "settings" else None)
-                problems.append(Problem(file, line(f"{prefix}.{k}"), f"{prefix}.{k}",
-                                        why or f"unknown key; allowed here: {allowed}"))
-        for k, (typ, required, sub) in keys.items():
-            full = f"{prefix}.{k}" if prefix else k
-            if k not in table:
-                if required:
-                    problems.append(Problem(file, line(prefix) if prefix else 1, full, "missing required key"))
-                continue
-            check_value(table[k], typ, sub, full)
-
-    def check_value(v, typ, sub, full):
-        if typ == "table":
-            if not isinstance(v, dict):
-                return bad(full, v, "a table")
-            if isinstance(sub, dict):
-                check_table(v, sub, full)
-            elif full.endswith(".checks"):
-                check_table(v, CHECK_KEYS, full)
-        elif typ == "table-of-tables":
-            if not isinstance(v, dict) or not v:
-                return bad(full, v, "a table of named tables, e.g. [orbits.relay]")
-            for name, t in v.items():
-                if not isinstance(t, dict):
-                    bad(f"{full}.{name}", t, "a table")
-                else:
-                    check_table(t, sub, f"{full}.{name}")
-        elif typ == "list-of-tables":
-            if not isinstance(v, list) or not all(isinstance(t, dict) for t in v):
-                return bad(full, v, f"a list of tables, written [[{full}]]")
-            for i, t in enumerate(v):
-                check_table(t, sub, f"{full}[{i}]")
-        elif typ == S:
-            if not isinstance(v, str):
-                bad(full, v, "text")
-            else:
-                plain_text(v, full)
-        elif typ == F:
-            if isinstance(v, bool) or not isinstance(v, (int, float)):
-                bad(full, v, "a number")
-            elif not math.isfinite(v):
-                problems.append(Problem(file, line(full), full,
-                                        f"{written(full, v)} is not a finite number"))
-        elif typ == I:
-            if isinstance(v, bool) or not isinstance(v, int):
-                bad(full, v, "a whole number")
-        elif typ == B:
-            if not isinstance(v, bool):
-                bad(full, v, "true or false")
-        elif typ == Q:
-            from .. import units
-            if not isinstance(v, str):
-                return bad(full, v, "text with a unit, e.g. '200km'")
-            if not plain_text(v, full):
-                return
-            try:
-                units.parse(v)
-            except InputError as e:
-                problems.append(Problem(file, line(full), full, str(e)))
-        elif typ == "list[str]":
-            if not isinstance(v, list) or not all(isinstance(x, str) for x in v):
-                bad(full, v, "a list of text values")
-            else:
-                for x in v:
-                    if not plain_text(x, full):
-                        break
-        elif typ == "list[float]":
-            if not isinstance(v, list) or not all(isinstance(x, (int, float)) and not isinstance(x, bool)
-                                                  for x in v):
-                bad(full, v, "a list of numbers")
-        elif typ.startswith("one-of:"):
-            options = typ[len("one-of:"):].split("|")
-            if not isinstance(v, str) or v not in options:
-                bad(full, v, "one of " + ", ".join(repr(o) for o in options if o))
-
-    def bad(full, v, expected):
-        problems.append(Problem(file, line(full), full, f"{shown(repr(v))} is not {expected}"))
-
-    def written(full, v):
-        # the value as the user wrote it on its line (TOML reads 1e309 as inf)
-        n = lines.get(full)
-        if n and text_lines and n <= len(text_lines):
-            raw = text_lines[n - 1].partition("=")[2].split("#")[0].strip()
-            if raw:
-                return shown(raw)
-        return shown(repr(v))
-
-    def plain_text(v, full):
-        if len(v) > MAX_TEXT_CHARS:
-            problems.append(Problem(file, line(full), full, f"text of {len(v)} characters "
-                                    f"({shown(v)}); at most {MAX_TEXT_CHARS} are allowed"))
-            return False
-        if not v.isprintable():
-            problems.append(Problem(file, line(full), full, f"'{shown(v)}' holds a control character "
-                                    "(line break, tab, ...); plain one-line text is allowed"))
-            return False
-        return True
-
-    if schema is not None:
-        check_table(data, schema, "")
-        return sorted(problems, key=lambda p: (p.line, p.key))
-    check_table(data, SCHEMA, "")
     sysd = data.get("system", {})
     if isinstance(sysd, dict) and ("name" in sysd) == ("mu" in sysd):
         problems.append(Problem(file, line("system"), "system", "give exactly one of 'name' or 'mu'", "meaning"))
     orbits = data.get("orbits", {})
     if isinstance(orbits, dict):
-        targets = ("period", "jacobi", "ax", "ay", "az", "perilune", "perigee", "resonance")
+        targets = words.ORBIT_TARGETS
         for name, t in orbits.items():
             if isinstance(t, dict):
                 given = [k for k in targets if k in t]
@@ -450,3 +221,10 @@ def check(data: dict, lines: dict, file: str, schema: dict | None = None,
                                     f"{names_seen[name]}; orbits and transfers need distinct names", "meaning"))
         names_seen.setdefault(name, key.removesuffix(".name"))
     return sorted(problems, key=lambda p: (p.line, p.key))
+
+
+def _unknown_reason(keys, prefix, key):
+    """Why a withdrawn key is refused, and what replaces it (None: a plain unknown key)."""
+    if keys is CHECK_KEYS:
+        return RENAMED_CHECKS.get(key)
+    return UNUSED_SETTINGS.get(key) if prefix == "settings" else None

@@ -9,8 +9,9 @@ import dataclasses
 
 from ..errors import InputError, NoSolutionError
 from .outputs import csv_text, json_text, save_figures, say
+from ..vocabulary import ORBIT_TARGETS
 
-TARGET_KEYS = ("period", "jacobi", "ax", "ay", "az", "perilune", "resonance")
+TARGET_KEYS = ORBIT_TARGETS
 
 
 def orbit_text(entry: dict) -> str:

@@ -92,6 +92,7 @@ import numpy as np
 from ..constants import (AU_KM, DAYS_PER_JULIAN_CENTURY, OBLIQUITY_J2000_ARCSEC,
                          SECONDS_PER_DAY)
 from ..errors import ConvergenceError, InputError
+from ..vocabulary import INERTIAL_FRAMES
 from .scales import Epoch, parse_iso
 
 __all__ = ["BODIES", "CENTERS", "FRAMES", "ACCURACY", "position", "state", "valid_interval",
@@ -113,7 +114,7 @@ CHUNK = 4096                              # epochs per block in the lunar series
 PLANETS = ("mercury", "venus", "emb", "mars", "jupiter", "saturn", "uranus", "neptune", "pluto")
 BODIES = ("sun", "moon", "earth") + PLANETS[:-1]
 CENTERS = BODIES + ("ssb",)           # any body, or the solar-system barycentre
-FRAMES = ("j2000-equator", "j2000-ecliptic")
+FRAMES = INERTIAL_FRAMES
 
 # Validity (TT). Planets: Standish Table 1 within 1800-2050, Table 2 outside it, accepted
 # 1000-3000 AD (the span over which Table 2 is checked against pyerfa's plan94; Standish

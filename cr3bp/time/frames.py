@@ -53,15 +53,17 @@ import numpy as np
 
 from ..constants import MJD_ZERO_JD, OBLIQUITY_J2000_ARCSEC, SECONDS_PER_DAY
 from ..errors import InputError
+from ..vocabulary import ANCHORS, CENTER_ROLES, FRAMES, INERTIAL_FRAMES
+from ..vocabulary import TIME_SYSTEMS as _TIME_SYSTEMS
 
-AXES = ("j2000-equator", "j2000-ecliptic", "rotating")
-ANCHORS = ("ephemeris", "circular")
-CENTERS = ("primary", "secondary", "barycenter", "earth", "moon")
+AXES = FRAMES
+CENTERS = CENTER_ROLES + ("earth", "moon")
 #: Centres that are bodies of a secondary barycentre (Sun-Earth: the secondary is the
 #: Earth-Moon barycentre): secondary name -> (body, ...). Their offset from the barycentre
 #: comes from the ephemeris (:func:`body_offset`).
 BODY_CENTERS = {"earth-moon": ("earth", "moon")}
-TIME_SYSTEMS = ("TDB", "TT", "TAI", "UTC")
+#: The time systems as CCSDS writes them (upper case).
+TIME_SYSTEMS = tuple(s.upper() for s in _TIME_SYSTEMS)
 
 #: The obliquity of :mod:`cr3bp.constants` in radians.
 OBLIQUITY_J2000_RAD = OBLIQUITY_J2000_ARCSEC * math.pi / (180.0 * 3600.0)
@@ -182,7 +184,7 @@ def clock_grid(epoch_tdb_s: float, n: int, step_s: float, scale: str) -> np.ndar
 def time_system(name: str) -> str:
     key = str(name).strip().upper()
     if key not in TIME_SYSTEMS:
-        raise InputError(f"unknown time system '{name}'; allowed: {', '.join(s.lower() for s in TIME_SYSTEMS)}")
+        raise InputError(f"unknown time system '{name}'; allowed: {', '.join(_TIME_SYSTEMS)}")
     return key
 
 
@@ -391,8 +393,7 @@ def resolve_center(system, center: str) -> str:
     """``"moon"``/``"earth"``/``"barycenter"``/``"primary"``... -> primary|secondary|barycenter."""
     key = str(center).strip().lower()
     p, s = (n.lower() for n in system.names)
-    table = {"primary": "primary", "secondary": "secondary", "barycenter": "barycenter",
-             "barycentre": "barycenter", p: "primary", s: "secondary"}
+    table = {**{r: r for r in CENTER_ROLES}, "barycentre": "barycenter", p: "primary", s: "secondary"}
     bodies = BODY_CENTERS.get(s, ())
     for b in bodies:
         table.setdefault(b, b)
@@ -406,7 +407,7 @@ def check_center_axes(system, center: str, axes: str) -> None:
     placed through the ephemeris: it needs inertial axes."""
     if center in ("earth", "moon") and center not in (n.lower() for n in system.names) and axes == "rotating":
         raise InputError(f"centre '{center}' in {system.name} is placed by the ephemeris and needs inertial "
-                         "axes (j2000-equator or j2000-ecliptic), not rotating")
+                         f"axes ({' or '.join(INERTIAL_FRAMES)}), not rotating")
 
 
 def body_offset(spec: "FrameSpec", tdb_s):
@@ -466,14 +467,12 @@ def frame(system, epoch, *, anchor="ephemeris", axes="j2000-equator", center="pr
         elif isinstance(orientation, Orientation):
             ori = orientation
         else:
-            try:
-                i, n, u = (float(x) for x in orientation)
-            except (TypeError, ValueError):
-                raise InputError(f"orientation {orientation!r} must be three angles in degrees: "
-                                 "inclination, node, argument of latitude") from None
-            if not all(math.isfinite(x) for x in (i, n, u)) or not 0.0 <= i <= 180.0:
-                raise InputError(f"orientation {orientation!r}: angles must be finite and the "
-                                 "inclination within [0, 180] degrees")
+            from ..validate import numbers
+            i, n, u = numbers("orientation", orientation, 3,
+                              "in degrees: inclination, node, argument of latitude")
+            if not 0.0 <= i <= 180.0:
+                raise InputError(f"orientation {orientation!r}: the inclination must be within "
+                                 "[0, 180] degrees")
             ori = Orientation(i, n, u)
     elif orientation is not None:
         raise InputError("an orientation goes with the circular anchoring only")

@@ -42,6 +42,7 @@ import numpy as np
 from ..constants import (DAYS_PER_JULIAN_MILLENNIUM, J2000_JD, MJD_ZERO_JD, SECONDS_PER_DAY,
                          TT_MINUS_TAI_S)
 from ..errors import InputError
+from ..vocabulary import TIME_SYSTEMS
 
 __all__ = [
     "SCALES", "Epoch", "LeapSecondsExpiredWarning", "leap_second_table", "tai_minus_utc",
@@ -49,7 +50,7 @@ __all__ = [
     "TT_MINUS_TAI_S", "FIRST_UTC_MJD",
 ]
 
-SCALES = ("utc", "tai", "tt", "tdb")
+SCALES = TIME_SYSTEMS
 FIRST_UTC_MJD = 41317            # 1972-01-01, start of UTC with whole-second TAI-UTC
 MAX_DECIMALS = 9
 

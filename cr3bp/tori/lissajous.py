@@ -58,9 +58,8 @@ def measured_amplitudes(torus) -> tuple[float, float]:
 
 
 def _check(name, v):
-    if not (isinstance(v, (int, float)) and math.isfinite(v) and v > 0):
-        raise InputError(f"{name} {v!r} must be a positive length")
-    return float(v)
+    from ..validate import positive_number
+    return positive_number(f"{name} (LU)", v)
 
 
 def lissajous(system, point: str, ay_lu: float, az_lu: float, progress=None,

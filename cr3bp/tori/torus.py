@@ -15,6 +15,8 @@ import numpy as np
 
 from ..errors import ConvergenceError, InputError, NoSolutionError, StateError
 from ..integrate import propagate_batch
+from ..validate import positive_number
+from ..vocabulary import COLLINEAR_POINTS
 from . import circle, seeds, solver
 
 #: Smallest and largest number of points on the circle (odd).
@@ -179,7 +181,7 @@ def _kind(orbit) -> tuple[str, float | None]:
     from ..equilibria import lagrange_point
     if orbit.family == "halo":
         return "quasi-halo", None
-    if orbit.family in ("lyapunov", "vertical") and orbit.point in ("L1", "L2", "L3"):
+    if orbit.family in ("lyapunov", "vertical") and orbit.point in COLLINEAR_POINTS:
         m = lagrange_point(orbit.system, orbit.point).modes
         wp, wv = m.omega_inplane, m.omega_vertical
         ratio = wv / wp if orbit.family == "lyapunov" else wp / wv
@@ -208,9 +210,7 @@ def torus_around(orbit, amplitude_lu: float, hold: str = "jacobi", progress=None
     ----------
     Olikara & Scheeres, AAS 12-361, 2012 (method); Gómez & Mondelo, Physica D 157, 2001.
     """
-    if not (isinstance(amplitude_lu, (int, float)) and math.isfinite(amplitude_lu)
-            and amplitude_lu > 0):
-        raise InputError(f"amplitude {amplitude_lu!r} must be a positive length")
+    amplitude_lu = positive_number("amplitude (LU)", amplitude_lu)
     if hold not in ("jacobi", "period", "rotation"):
         raise InputError(f"hold '{hold}' is not allowed; allowed: jacobi, period, rotation")
     system = orbit.system
@@ -341,11 +341,9 @@ def lissajous_near_point(system, point: str, ax_lu: float, az_lu: float) -> Toru
     planar Lyapunov orbit (:func:`torus_around`) or by continuation.
     """
     from ..equilibria import lagrange_point
-    if point not in ("L1", "L2", "L3"):
+    if point not in COLLINEAR_POINTS:
         raise InputError(f"point '{point}': Lissajous tori are about a collinear point (L1, L2, L3)")
-    for name, v in (("ax", ax_lu), ("az", az_lu)):
-        if not (isinstance(v, (int, float)) and math.isfinite(v) and v > 0):
-            raise InputError(f"{name} {v!r} must be a positive length")
+    ax_lu, az_lu = positive_number("ax (LU)", ax_lu), positive_number("az (LU)", az_lu)
     lp = lagrange_point(system, point)
     centre = np.concatenate([np.asarray(lp.position, dtype=float), np.zeros(3)])
     # the saddle of the point amplifies the seed's error by e^(lambda T) per map: start small

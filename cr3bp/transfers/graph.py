@@ -35,6 +35,7 @@ from . import tasks as tasks_mod
 from ..errors import InputError, LibrateError
 from .nodes import BoundaryNode, OrbitNode, ParkingNode, node_state
 from .leg import LEG_FORMAT
+from ..vocabulary import TUBE_BRANCHES
 
 #: Two Jacobi constants closer than this count as one energy (ballistic legs).
 SAME_ENERGY = 1e-9
@@ -238,7 +239,7 @@ def _periapsis_legs(orbit, body, altitude_km, stability, n_points) -> list:
     from ..tubes.parking import parking_legs
     from ..errors import NoSolutionError
     found, reasons = [], []
-    for branch in ("interior", "exterior"):
+    for branch in TUBE_BRANCHES:
         try:
             found += parking_legs(orbit, body, altitude_km, stability=stability, branch=branch,
                                   n_points=n_points)
@@ -296,7 +297,7 @@ def _boundary_leg(system, task) -> dict:
     p = primary_index(system, st["body"])
     radius = st["distance_km"] / system.length_km
     from ..errors import NoSolutionError
-    for branch in ("interior", "exterior"):
+    for branch in TUBE_BRANCHES:
         tube = grow_tube(orbit, "unstable", branch, st["tube_points"],
                          until=Stop(t_max=4.0 * math.pi, escape_radius=radius, escape_center=p))
         hit = [i for i, s_ in enumerate(tube.status) if s_ == "escape"]

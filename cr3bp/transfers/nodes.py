@@ -22,7 +22,7 @@ The node list is a TOML file with keys of our own (user guide, docs/manual/node-
     tof = "4d"
     max_patch_dv = "300m/s"
 
-It is checked with the scenario checker (:func:`cr3bp.scenario.schema.check`): every unknown,
+It is checked with the TOML schema checker (:func:`cr3bp.io.toml_schema.check_document`): every unknown,
 missing or mistyped key is reported with file, line and dotted key before anything is computed.
 """
 
@@ -37,9 +37,10 @@ from pathlib import Path
 
 import numpy as np
 
-from ..scenario import schema as schema_mod
+from ..io import toml_schema as schema_mod
 from .. import units
 from ..errors import InputError, shown
+from ..vocabulary import HALO_BRANCHES
 
 #: Largest node list read (characters): far above any real one, it keeps a hostile file cheap.
 MAX_NODE_LIST_CHARS = 2_000_000
@@ -111,7 +112,7 @@ class OrbitNode:
 
     @property
     def branch(self) -> str:
-        return next((w for w in self.words if w in ("north", "south")), "")
+        return next((w for w in self.words if w in HALO_BRANCHES), "")
 
     @property
     def selector(self) -> str:
@@ -262,7 +263,7 @@ def parse_nodes(text: str, system, file: str = "<nodes>") -> NodeList:
         m = re.search(r"line (\d+)", str(e))
         raise schema_mod.ScenarioError([P(file, int(m.group(1)) if m else 0, "(syntax)", str(e))]) from None
     lines = schema_mod.line_index(text)
-    problems = schema_mod.check(data, lines, file, schema=SCHEMA)
+    problems = schema_mod.check_document(data, lines, file, SCHEMA)
     if problems:
         raise schema_mod.ScenarioError(problems)
 

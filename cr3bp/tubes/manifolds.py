@@ -41,6 +41,8 @@ from ..dynamics import jacobi as _jacobi, jacobian
 from ..display import Shown
 from ..equilibria import lagrange_point
 from ..errors import InputError, NoSolutionError
+from ..vocabulary import STABILITIES as _STABILITIES
+from ..vocabulary import TUBE_BRANCHES
 from ..integrate import escape, impact, propagate, propagate_batch
 from ..integrate.batch import batch, batch_features
 from ..orbits import PeriodicOrbit
@@ -51,8 +53,8 @@ from .sections import (Crossings, Section, bounded_max_events, guard_events, par
 #: Step-off distances (km) by system name (common practice, see module docstring).
 STEP_OFF_KM = {"earth-moon": 40.0, "sun-earth": 200.0}
 HILL_FRACTION = 3e-4
-STABILITIES = ("stable", "unstable")
-BRANCHES = ("interior", "exterior")
+STABILITIES = _STABILITIES
+BRANCHES = TUBE_BRANCHES
 SPACINGS = ("time", "arc")
 RTOL = 1e-12
 ATOL = 1e-12
@@ -139,10 +141,10 @@ def step_lu(system, step_km=None) -> tuple[float, float]:
     if isinstance(step_km, str):
         v = quantity("step-off distance", step_km, "length", system, sign="positive")
         return v, (v * system.length_km if system.dimensional else float("nan"))
-    if not (math.isfinite(step_km) and step_km > 0):
-        raise InputError(f"step-off distance {step_km!r} km must be positive")
+    from ..validate import positive_number
+    step_km = positive_number("step-off distance (km)", step_km)
     system.require_dimensional("a step-off distance in km")
-    return float(step_km) / system.length_km, float(step_km)
+    return step_km / system.length_km, step_km
 
 
 # ---- eigen-directions -------------------------------------------------------------------
@@ -1139,8 +1141,8 @@ def corridor_tubes(orbits, n_points=TUBE_POINTS, until=f"time:{TUBE_DAYS}"):
     """
     tubes = []
     for orbit in orbits:
-        for stability in ("stable", "unstable"):
-            for branch in ("interior", "exterior"):
+        for stability in STABILITIES:
+            for branch in TUBE_BRANCHES:
                 tube = grow_tube(orbit, stability, branch, n_points, until=until)
                 tubes.append([states for _, states in tube.trajectories(200)])
     return tubes

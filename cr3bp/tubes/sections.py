@@ -230,9 +230,8 @@ def hyperplane(coordinate, value: float, direction: int = 0, label: str = "",
         sign = {"<": -1, ">": 1, -1: -1, 1: 1}.get(side)
         if sign is None:
             raise InputError(f"bound side {side!r} must be '<' or '>'")
-        if not math.isfinite(float(bv)):
-            raise InputError(f"bound value {bv!r} is not finite")
-        b = (int(bc), int(sign), float(bv))
+        from ..validate import finite_number
+        b = (int(bc), int(sign), finite_number("bound value", bv))
     text = f"{list(COORDS)[coordinate]}={value:g}"
     if b:
         text += f",{list(COORDS)[b[0]]}{'<' if b[1] < 0 else '>'}{b[2]:g}"
@@ -276,8 +275,8 @@ def sphere(system, primary, radius: float, direction: int = -1, label: str = "")
     1
     """
     p = primary_index(system, primary)
-    if not (math.isfinite(radius) and radius > 0):
-        raise InputError(f"sphere radius {radius!r} must be positive")
+    from ..validate import positive_number
+    radius = positive_number("sphere radius (LU)", radius)
     if direction == 0:
         raise InputError("a sphere section needs a direction: entering (-1) or leaving (+1)")
     _check_direction(direction)
