@@ -27,8 +27,9 @@ Method (a two-parameter target needs both parameters of the 2-D family of Lissaj
    differences; each step is a torus solve warm-started from the previous torus, the step
    halved when a solve fails. Stops when both amplitudes are within ``AMPLITUDE_RTOL``;
 4. targets larger than ``RAY_START`` times the point's distance from the smaller primary:
-   steps 1-3 for the target scaled down to that size, then continuation along the family in
-   amplitude, the intermediate targets ``f (Ay, Az)`` met one after the other (``_ray``).
+   steps 1-2 for the target scaled down to that size, then continuation along the family in
+   amplitude from the amplitudes reached there to the target, intermediate targets on the
+   line between them met one after the other (``_ray``).
    (A secant from the edge orbit straight to a large target stalls: the estimate of the
    Jacobi constant from the edge orbits is poor there.)
 
@@ -114,8 +115,8 @@ def lissajous(system, point: str, ay_lu: float, az_lu: float, progress=None,
     target = np.array([ay_lu, az_lu])
     big = RAY_START * _gamma(system, point)
     f0 = min(1.0, big / target.max())
-    t, p, m, J, its = _direct(system, point, f0 * target, rtol if f0 == 1.0 else RAY_RTOL,
-                              say, km, seen, reached)
+    t, p, m, J, its = _direct(system, point, f0 * target, rtol, say, km, seen, reached,
+                              correct=f0 == 1.0)
     steps = 0
     if f0 < 1.0:
         t, p, m, J, its, steps = _ray(system, point, t, p, m, J, target, f0, rtol, say, km,
@@ -160,7 +161,7 @@ def _fd_jacobian(system, point, t, p, m, measure, ref):
     return J
 
 
-def _direct(system, point, target, rtol, say, km, seen, reached):
+def _direct(system, point, target, rtol, say, km, seen, reached, correct=True):
     """Steps 1-3 of the module notes: (torus, (C, a), measured (ay, az), Jacobian, iterations)."""
     from ..orbits.request import parse_request, solve_request
     ay_lu, az_lu = target
@@ -229,6 +230,8 @@ def _direct(system, point, target, rtol, say, km, seen, reached):
     except (ConvergenceError, SurfaceError) as e:
         raise NoSolutionError(f"the Lissajous family at {point} could not be followed from "
                               f"Ay {km(m[0])}, Az {km(m[1])} ({e}); {reached()}") from None
+    if not correct:        # the start of step 4: its line begins at the amplitudes reached
+        return t, p, m, J, 0
     for it in range(1, MAX_ITER + 1):
         r = m - target
         if np.all(np.abs(r) <= rtol * target):
@@ -264,12 +267,14 @@ def _direct(system, point, target, rtol, say, km, seen, reached):
 
 
 def _ray(system, point, t, p, m, J, target, f0, rtol, say, km, seen, reached):
-    """Step 4: the family followed in amplitude along ``f (Ay, Az)`` from ``f0`` to 1.
+    """Step 4: the family followed in amplitude along the line from the amplitudes ``m0``
+    reached by steps 1-2 for the scaled-down target ``f0 (Ay, Az)`` to the target,
+    ``m0 + f ((Ay, Az) - m0)``, ``0 < f <= 1``.
 
     Natural-parameter continuation in the amplitudes (Allgower & Georg, "Introduction to
     Numerical Continuation Methods", SIAM 2003, §1-2; the parameters of the two-parameter
     family of tori as in Baresi, Olikara & Scheeres 2018): each intermediate target
-    ``f (Ay, Az)`` is met by Newton in (C, a) with Broyden's update of ``d(ay, az)/d(C, a)``,
+    on the line is met by Newton in (C, a) with Broyden's update of ``d(ay, az)/d(C, a)``,
     starting from the previous torus (the Newton step from it is the predictor); a step that
     does not converge in ``RAY_INNER`` iterations is retried once with a fresh
     finite-difference Jacobian, then halved. Intermediate targets are met to ``RAY_RTOL``,
@@ -280,12 +285,13 @@ def _ray(system, point, t, p, m, J, target, f0, rtol, say, km, seen, reached):
         seen.append(mm)
         return mm
 
-    f, df, steps, its = f0, RAY_FIRST_STEP, 0, 0
+    m0 = m.copy()
+    f, df, steps, its = 0.0, RAY_FIRST_STEP, 0, 0
     fresh = False
     ref = _ref(t)
     while f < 1.0:
         f1 = min(1.0, f + df)
-        goal = f1 * target
+        goal = m0 + f1 * (target - m0)
         tol = rtol if f1 == 1.0 else RAY_RTOL
         pt, mt, tt, Jt = p.copy(), m.copy(), t, J.copy()
         ok, k = False, 0

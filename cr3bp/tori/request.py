@@ -26,6 +26,7 @@ import numpy as np
 
 from ..errors import ConvergenceError, InputError, NoSolutionError, shown
 from . import circle, seeds
+from .family import continue_family
 from .torus import SurfaceError, build, solve_adaptive, torus_around
 
 FAMILIES = ("lissajous", "quasi-halo")
@@ -39,6 +40,8 @@ FIRST_STEP, MIN_STEP, MAX_STEP = 0.25, 1e-3, 1.0
 #: Size of the torus the continuation starts from (LU; smaller about unstable orbits, as in
 #: :func:`cr3bp.tori.torus_around`).
 START_AMPLITUDE = 3e-4
+#: Most family members followed at the Jacobi constant towards a rotation or period target.
+FAMILY_MEMBERS = 200
 
 
 @dataclass(frozen=True)
@@ -226,6 +229,29 @@ def reach(start, want: dict, progress=None):
         raise InputError(f"two of jacobi, period, rotation are held; got {', '.join(want)}")
     keys = list(want)
     have = {"jacobi": start.jacobi, "period": start.stroboscopic_time, "rotation": start.rotation}
+    other = [k for k in keys if k != "jacobi"]
+    if "jacobi" in want and abs(start.jacobi - want["jacobi"]) < 1e-12 and other:
+        # at the start's Jacobi constant: along the family (pseudo-arclength, Jacobi constant
+        # held) until the other quantity passes its target, then both held from that member.
+        # Near the orbit the rotation and stroboscopic time change only at second order in the
+        # amplitude: they are poor continuation parameters there, the arclength is not.
+        key = other[0]
+        goal = want[key]
+        val = (lambda m: m.rotation) if key == "rotation" else (lambda m: m.stroboscopic_time)
+        sign = 1.0 if goal >= val(start) else -1.0
+        say(f"torus: along the family at the Jacobi constant until the {key} passes its target")
+        fam = continue_family(start, "jacobi", members=FAMILY_MEMBERS,
+                              until=lambda m: sign * (val(m) - goal) >= 0,
+                              progress=lambda i, m: say(f"torus: member {i}, {key} "
+                                                        f"{val(m):.10f}"))
+        if fam.stop != "until":
+            raise NoSolutionError(f"the torus with {_said(want)} was not reached: the family at "
+                                  f"the Jacobi constant did not pass it ({fam.stop}); "
+                                  f"{key} {val(fam.members[0]):.10f} to "
+                                  f"{val(fam.members[-1]):.10f}")
+        start = fam.members[-1]
+        have = {"jacobi": start.jacobi, "period": start.stroboscopic_time,
+                "rotation": start.rotation}
     q0 = np.array([have[k] for k in keys])
     q1 = np.array([want[k] for k in keys])
     s, ds = 0.0, FIRST_STEP
