@@ -25,7 +25,7 @@ from scipy.integrate import solve_ivp
 
 from cr3bp import system
 from cr3bp.tori import surface
-from cr3bp.tori.circle import evaluate
+from cr3bp.tori.circle import evaluate, resample
 from cr3bp.tori.lissajous import lissajous, measured_amplitudes
 
 from test_against_richardson_1980_lissajous import linear_frequencies
@@ -51,8 +51,9 @@ def test_amplitudes_are_met_and_measured_on_the_surface():
     assert s.km(ay) == pytest.approx(AY_KM, rel=2e-5)
     assert s.km(az) == pytest.approx(AZ_KM, rel=2e-5)
     assert t.extra["ay_lu"] == ay and t.extra["az_lu"] == az
-    # the documented sampling error of the maxima (256 steps per T): a 4x finer surface agrees
-    fine = surface(s, t.circle, t.stroboscopic_time, 1024).reshape(-1, 6)
+    # the documented sampling error of the maxima: a finer surface agrees
+    # (4x finer in time and in the circle's angle than the measurement's 96 x 45 lattice)
+    fine = surface(s, resample(t.circle, 181), t.stroboscopic_time, 384).reshape(-1, 6)
     assert np.abs(fine[:, 1]).max() == pytest.approx(ay, rel=1e-4)
     assert np.abs(fine[:, 2]).max() == pytest.approx(az, rel=1e-4)
     assert t.invariance_error < t.invariance_tolerance
@@ -95,3 +96,61 @@ def test_scipy_dop853_keeps_torus_points_on_the_torus():
             want = evaluate(t.circle, [th + (k + 1) * rho])[0]
             # the saddle of L2 amplifies errors by ~1600 per map: the bound grows with it
             assert np.linalg.norm(sol.y[:, k] - want) < 1e-7 * 2000.0 ** k
+
+
+# ---- the issue's example: Ay 800000 km, Az 500000 km, from the shell command's JSON -----------
+
+@functools.lru_cache(maxsize=None)
+def big_json():
+    import json
+    import subprocess
+    import sys
+    done = subprocess.run([sys.executable, "-m", "librate_cli.main", "orbit", "--system",
+                           "sun-earth", "--family", "lissajous", "--point", "L2", "--ay",
+                           "800000km", "--az", "500000km", "--format", "json", "-q"],
+                          capture_output=True, text=True)
+    assert done.returncode == 0, done.stderr
+    return json.loads(done.stdout)
+
+
+NOT_YET = pytest.mark.skip(reason="the 800000 x 500000 km target was not reached in the session "
+                           "that added these checks (continuation in amplitude unverified)")
+
+
+@NOT_YET
+def test_issue_example_800000_by_500000_km_is_reached_from_the_shell():
+    d = big_json()
+    assert d["ay_km"] == pytest.approx(800000.0, rel=2e-5)
+    assert d["az_km"] == pytest.approx(500000.0, rel=2e-5)
+    for k in ("frequencies_rad_tu", "rotation_deg", "stroboscopic_period_days",
+              "invariance_error", "n_circle_points", "stability", "caution"):
+        assert k in d
+    assert d["invariance_error"] < d["invariance_tolerance"]
+    assert d["stability"]["kind"] == "hyperbolic"
+    p_in, p_out = d["frequency_periods_days"]
+    # from memory: large Sun-Earth L2 Lissajous orbits of observatories keep an in-plane period
+    # near 180 d (a few days above the linear 178 d at these sizes) and a longer out-of-plane
+    # one; the x extent is about Ay / 3.2 (the linear ratio of in-plane amplitudes, Richardson
+    # 1980, kappa about 3.2 at Sun-Earth L2), somewhat more at this size (from memory)
+    assert 178.0 < p_in < 190.0 and p_in < p_out < p_in + 20.0
+    ax = (d["extent_km"]["x"][1] - d["extent_km"]["x"][0]) / 2
+    assert 800000.0 / 3.6 < ax < 800000.0 / 2.6
+
+
+@NOT_YET
+def test_issue_example_torus_is_invariant_under_scipy():
+    d, s = big_json(), se()
+    mu = s.mu
+    u = np.array(d["circle"])
+    T, rho = d["stroboscopic_time"], d["rotation_rad"]
+
+    def f(_, y):
+        x, yy, z, vx, vy, vz = y
+        r1 = math.sqrt((x + mu) ** 2 + yy * yy + z * z)
+        r2 = math.sqrt((x - 1 + mu) ** 2 + yy * yy + z * z)
+        k1, k2 = (1 - mu) / r1 ** 3, mu / r2 ** 3
+        return [vx, vy, vz, x - k1 * (x + mu) - k2 * (x - 1 + mu) + 2 * vy,
+                yy - k1 * yy - k2 * yy - 2 * vx, -k1 * z - k2 * z]
+    for th in (0.3, 2.1, 4.4):
+        sol = solve_ivp(f, (0, T), evaluate(u, [th])[0], method="DOP853", rtol=1e-12, atol=1e-12)
+        assert np.linalg.norm(sol.y[:, -1] - evaluate(u, [th + rho])[0]) < 1e-6

@@ -253,6 +253,41 @@ def value_cases():
     add("torus-around-control-char", T[:2] + ["--around=lyapunov L1\njacobi=3.17"] + T[3:])
     add("torus-plot-suffix", T + ["--plot={out}/t.bmp"])
     add("torus-format", T + ["--format=xml"])
+    TQ = ["torus", EM]
+    for cid, text in (("no-around", "quasi-halo halo L2 south resonance=9:2 amplitude=2000km"),
+                      ("orbit-no-target", "quasi-halo around halo L2 south"),
+                      ("unknown-key", "lissajous L2 ay=1000km az=1000km spin=3"),
+                      ("unknown-family", "bagel L2 ay=1000km az=1000km"),
+                      ("one-amplitude", "lissajous L2 ay=1000km"),
+                      ("point", "lissajous L4 ay=1000km az=1000km"),
+                      ("ratio", "lissajous L2 jacobi=3.1 frequency-ratio=1.5"),
+                      ("ay-negative", "lissajous L2 ay=-5km az=1000km"),
+                      ("period-unit", "quasi-halo around halo L2 south resonance=9:2 jacobi=3.04 period=5km"),
+                      ("not-halo", "quasi-halo around lyapunov L1 jacobi=3.17 amplitude=100km"),
+                      ("control-char", "lissajous L2\nay=1000km az=1000km"),
+                      ("empty", "")):
+        add(f"torus-request-{cid}", TQ + [f"--request={text}"])
+    add("torus-request-and-around", T + ["--request=lissajous L2 ay=1000km az=1000km"])
+    TE = T + ["--export={out}/t.oem", EPOCH, "--span=2periods", "--step=6h"]
+    add("torus-export-no-step", TE[:-1])
+    add("torus-export-no-epoch", T + ["--export={out}/t.oem", "--span=2periods", "--step=6h"])
+    add("torus-export-span", TE[:-2] + ["--span=3km", "--step=6h"])
+    add("torus-export-step", TE[:-1] + ["--step=-6h"])
+    add("torus-export-phase", TE + ["--phase=30"])
+    add("torus-export-phase-nan", TE + ["--phase=nan,0"])
+    add("torus-export-oem-rotating", TE + ["--frame=rotating"])
+    add("torus-export-suffix", T + ["--export={out}/t.bmp", EPOCH, "--span=2periods", "--step=6h"])
+    add("torus-epoch-without-export", T + [EPOCH])
+    add("torus-phase-without-export", T + ["--phase=10,20"])
+    add("torus-export-with-members", TE + ["--members=3"])
+    # orbit --family lissajous (a torus)
+    OL = ["orbit", EM, "--family=lissajous", "--point=L2", "--ay=3000km", "--az=2000km"]
+    add("orbit-lissajous-period", OL + ["--period=3d"])
+    add("orbit-lissajous-branch", OL + ["--branch=south"])
+    add("orbit-lissajous-point", ["orbit", EM, "--family=lissajous", "--point=L3", "--ay=3000km",
+                                  "--az=2000km"])
+    add("orbit-lissajous-no-az", OL[:-1])
+    add("orbit-lissajous-ay-unit", OL[:-2] + ["--ay=3000", "--az=2000km"])
     # shadow
     SH = BASE["shadow"]
     for v in ("-1d", "0d", "nand", "1e999d", "3km", "3"):

@@ -15,6 +15,9 @@ EXAMPLE = "librate orbit --system earth-moon --family halo --point L2 --branch s
 def add_arguments(p):
     common.add_system_options(p)
     oo.add_family_options(p)
+    for a in p._actions:        # lissajous: a torus (librate torus --family lissajous)
+        if "--family" in a.option_strings:
+            a.help += "; or lissajous: a Lissajous torus at --point L1|L2 sized by --ay and --az"
     oo.add_target_options(p)
     oo.add_catalog_option(p)
     p.add_argument("--occurrence", metavar="N", help="where the family meets the target more than once: "
@@ -26,6 +29,9 @@ def add_arguments(p):
 def run(args):
     from cr3bp.errors import InputError
     from cr3bp.orbits.request import solve_request, spec_from_options
+    if (args.family or "").strip().lower() == "lissajous":
+        from .torus import run_from_orbit
+        return run_from_orbit(args)
     system = common.resolve_system(args)
     given = oo.targets_given(args)
     if not given:

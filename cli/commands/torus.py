@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from cr3bp.vocabulary import EXPORT_FORMATS
+
 from .. import common
 from . import _orbit_options as oo
 
@@ -19,6 +21,13 @@ HOLDS = ("jacobi", "period", "rotation")
 
 def add_arguments(p):
     common.add_system_options(p)
+    p.add_argument("--request", metavar="TEXT",
+                   help="the torus in words, instead of --around/--family: e.g. \"quasi-halo "
+                   "around halo L2 south resonance=9:2 amplitude=2000km\", \"lissajous L2 "
+                   "ay=800000km az=500000km\"; targets by Jacobi constant and stroboscopic time "
+                   "(jacobi=C period=TIME) or by frequency ratio (frequency-ratio=R, the "
+                   "circle's turn per stroboscopic time in revolutions, with jacobi=C; a "
+                   "quasi-halo's Jacobi constant defaults to its orbit's)")
     p.add_argument("--around", metavar="REQUEST",
                    help="the periodic orbit, as an orbit request, e.g. \"halo L2 south "
                    "resonance=9:2\" (quasi-halo) or \"lyapunov L1 ax=5000km\" (Lissajous)")
@@ -41,8 +50,43 @@ def add_arguments(p):
                    "constant (default), its period as the stroboscopic time, or the rotation of "
                    "its centre eigenpair")
     oo.add_catalog_option(p)
+    g = p.add_argument_group("export a trajectory on the torus (CCSDS OEM, CSV or JSON; as "
+                             "librate export)")
+    g.add_argument("--export", metavar="FILE", help="write the trajectory on the torus from "
+                   "--phase over --span at --step to FILE (format from --export-format or the "
+                   "suffix: .oem, .xml, .csv, .json); re-started from the invariance circle "
+                   "every stroboscopic time, so it stays on the torus")
+    g.add_argument("--phase", metavar="THETA0,THETA1", default="0,0",
+                   help="torus phase of the first state, degrees: theta0 along the stroboscopic "
+                   "time, theta1 around the invariance circle (default 0,0)")
+    g.add_argument("--epoch", metavar="ISO", help="date of the first state (ISO 8601, e.g. "
+                   "2031-03-01T00:00:00Z)")
+    g.add_argument("--span", metavar="SPAN", help="how long: a time (400d) or Nperiods "
+                   "(stroboscopic times)")
+    g.add_argument("--step", metavar="TIME", help="output step (e.g. 1d, 6h)")
+    g.add_argument("--export-format", choices=EXPORT_FORMATS,
+                   help="file format of --export (default from its suffix)")
+    from .export import add_frame_options
+    add_frame_options(p)
     common.add_plot_option(p, "draw the torus in three views and its invariance circle")
     common.add_output_options(p)
+
+
+def run_from_orbit(args):
+    """``librate orbit --family lissajous --point L1|L2 --ay LENGTH --az LENGTH``: the same
+    torus, output and refusals as ``librate torus --family lissajous``."""
+    from cr3bp.errors import InputError
+    for name in ("period", "jacobi", "ax", "x", "perilune", "resonance", "branch", "ratio",
+                 "occurrence"):
+        if getattr(args, name, None) is not None:
+            raise InputError(f"--{name} does not go with --family lissajous; a Lissajous torus "
+                             "is sized by --ay and --az at --point L1|L2")
+    args.family = "lissajous"
+    for name, default in (("around", None), ("amplitude", None), ("members", None),
+                          ("hold", "jacobi")):
+        if not hasattr(args, name):
+            setattr(args, name, default)
+    return run(args)
 
 
 def _check_output(option, path, suffixes=None):
@@ -92,7 +136,22 @@ def run(args):
     system = common.resolve_system(args)
     members = (validate.whole_number("--members", args.members, 1, 500)
                if args.members is not None else None)
-    if args.family == "lissajous":
+    tspec = None
+    if getattr(args, "request", None) is not None:
+        from cr3bp.tori import request as treq
+        for name in ("around", "amplitude", "family", "point", "ay", "az"):
+            if getattr(args, name) is not None:
+                raise InputError(f"--request names the whole torus; --{name} does not go with it")
+        tspec = treq.parse(args.request)
+        treq.values(system, tspec)          # bad units and ranges fail here, before any work
+        if tspec.around:
+            from cr3bp.orbits.targets import make_target
+            ospec = parse_request(tspec.around)
+            if ospec.family != "halo":
+                raise InputError(f"a quasi-halo torus is about a halo orbit (or NRHO); "
+                                 f"'{tspec.around}' is a {ospec.family} orbit")
+            make_target(system, ospec.key, ospec.value)
+    elif args.family == "lissajous":
         point, ay, az = _check_lissajous(args, system)
     else:
         for name in ("ay", "az", "point"):
@@ -118,8 +177,15 @@ def run(args):
         _check_output("--plot", args.plot)      # its suffix: cli.common.check_outputs
     if args.out:
         _check_output("--out", args.out)
+    plan = _export_plan(args, system, members)
     cat = oo.open_catalog(args)
-    if args.family == "lissajous":
+    if tspec is not None:
+        from cr3bp.tori import request as treq
+        common.progress(args, f"librate torus: the {tspec.family} torus '{args.request}'")
+        torus = treq.solve(system, tspec, catalog=cat,
+                           progress=lambda m: common.progress(args, m, verbose_only=True))
+        what = f"{tspec.family} torus '{args.request}'"
+    elif args.family == "lissajous":
         from cr3bp.tori.lissajous import lissajous
         common.progress(args, f"librate torus: the Lissajous torus at {point} with Ay {args.ay}, "
                         f"Az {args.az}")
@@ -143,11 +209,14 @@ def run(args):
         return _run_family(args, system, torus, members, what)
     from cr3bp.tori import surface
     d = _with_amplitudes(system, torus.to_dict(), torus)
+    if plan is not None:
+        d["export"] = _write_export(args, system, torus, plan, what)
     if args.plot:
         from cr3bp.plotting import save
         from cr3bp.plotting.tori import plot_torus
         fig = plot_torus(torus, grid=surface(system, torus.circle, torus.stroboscopic_time, 256))
-        size = f"amplitude {args.amplitude}" if args.amplitude else f"Ay {args.ay}, Az {args.az}"
+        size = (f"amplitude {args.amplitude}" if args.amplitude else
+                f"Ay {args.ay}, Az {args.az}" if args.ay else args.request)
         save(fig, args.plot, f"{what}, rotating frame of the circular restricted three-body "
              f"model, primaries to scale; {size}")
         common.progress(args, f"wrote {args.plot}")
@@ -155,6 +224,71 @@ def run(args):
                 comments=[f"invariance circle of the {what}: "
                           "theta (rad) and the state (nondimensional, rotating frame)"])
     return 0
+
+
+def _export_plan(args, system, members):
+    """Every --export option checked before any work: (spec, time system, step_s, fmt, phase)."""
+    import math
+
+    from cr3bp.errors import InputError
+    from cr3bp.io import export
+    from cr3bp.time import frames
+
+    from .export import parse_orientation, step_seconds
+    if args.export is None:
+        for name in ("epoch", "span", "step", "export_format"):
+            if getattr(args, name) is not None:
+                raise InputError(f"--{name.replace('_', '-')} goes with --export FILE")
+        if args.phase != "0,0":
+            raise InputError("--phase goes with --export FILE")
+        return None
+    if members is not None:
+        raise InputError("--export writes one torus; it does not go with --members")
+    system.require_dimensional("an export in km")
+    _check_output("--export", args.export)
+    fmt = export.format_of(args.export, args.export_format)
+    if fmt in ("oem", "xml") and args.frame == "rotating":
+        raise InputError("OEM needs inertial axes (--frame j2000-equator or j2000-ecliptic); "
+                         "use --export-format csv or json for the rotating frame")
+    for name in ("epoch", "span", "step"):
+        if getattr(args, name) is None:
+            raise InputError(f"--export needs --{name}")
+    parts = args.phase.split(",")
+    try:
+        phase = [math.radians(float(x)) for x in parts]
+    except ValueError:
+        raise InputError(f"--phase '{args.phase}' is not two angles THETA0,THETA1 (degrees)") from None
+    if len(phase) != 2 or not all(math.isfinite(x) for x in phase):
+        raise InputError(f"--phase '{args.phase}' must be two finite angles THETA0,THETA1 (degrees)")
+    export.parse_span(args.span, system, 1.0)       # its form; Nperiods counted after solving
+    step_s = step_seconds(args.step, system)
+    ts = args.time_system.upper()
+    spec = frames.frame(system, args.epoch, anchor=args.anchor, axes=args.frame,
+                        center=args.center or "primary", orientation=parse_orientation(args),
+                        time_scale=ts)
+    return spec, ts, step_s, fmt, phase
+
+
+def _write_export(args, system, torus, plan, what):
+    """The trajectory on the torus through the export writers (atomic; caution in the header)."""
+    from cr3bp.io import export
+    from cr3bp.tori.trajectory import sample
+    spec, ts, step_s, fmt, phase = plan
+    T = torus.stroboscopic_time
+    span_tu = export.parse_span(args.span, system, T)
+    grid = export.epoch_grid(spec, ts, span_tu, step_s)
+    common.progress(args, f"sampling {grid.size} states on the torus...")
+    seg = sample(torus, grid, phase)
+    model = {"torus": what, "stroboscopic time": f"{T!r} TU = {system.days(T):.9f} d",
+             "rotation": f"{torus.rotation!r} rad per stroboscopic time",
+             "jacobi": repr(float(torus.jacobi)),
+             "torus phase (deg)": args.phase,
+             "sampling": "re-started from the invariance circle every stroboscopic time "
+                         f"(joins within the invariance error {torus.invariance_error:.1e})"}
+    traj = export.Trajectory(spec, (seg,), ts, (), "LIBRATE DESIGN", "NONE", model)
+    path = export.write(args.export, traj, fmt)
+    common.progress(args, f"wrote {path}")
+    return {"file": str(path), "format": fmt, "states": int(grid.size)}
 
 
 def _with_amplitudes(system, d, torus):
@@ -263,6 +397,11 @@ def _table(system, d, what):
     lines.append(f"invariance error     {d['invariance_error']:.2e} (nondimensional, between the "
                  f"circle's nodes; tolerance {d['invariance_tolerance']:.1e})")
     lines.append(f"circle points        {d['n_circle_points']}")
+    st = d.get("stability") or {}
+    if st:
+        lines.append(f"stability            {st['kind']}: largest multiplier modulus "
+                     f"{st['largest_modulus']:.6g}, smallest {st['smallest_modulus']:.6g} "
+                     "(eigenvalues of the discretised stroboscopic map)")
     if d["ay_km"] is not None:
         lines.append(f"Ay, Az               {d['ay_km']:,.3f} km, {d['az_km']:,.3f} km (largest "
                      "|y| and |z| over the torus)")

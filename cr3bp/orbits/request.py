@@ -129,6 +129,9 @@ def parse_request(text: str) -> OrbitSpec:
     words = text.replace(",", " ").split()
     fam = ALIASES.get(words[0].lower(), words[0].lower())
     if fam not in families.FAMILIES:
+        if fam in ("lissajous", "quasi-halo", "quasihalo"):   # tori: cr3bp.tori.request
+            raise InputError(f"'{words[0]}' is a torus, not a periodic orbit: ask for it with "
+                             "'librate torus --request' (Python: cr3bp.tori.request.solve)")
         raise InputError(f"unknown family '{words[0]}'; allowed: {', '.join(families.FAMILIES)}")
     point = branch = key = value = ""
     resonance = None

@@ -138,7 +138,7 @@ def continue_family(start: Torus, hold: str = "jacobi", members: int = 10, step:
             continue
         try:
             new = build(system, u1, T1, rho1, info["invariance_error"], info["invariance_tolerance"],
-                        samples=64, family=start.family, point=start.point, branch=start.branch,
+                        family=start.family, point=start.point, branch=start.branch,
                         around=start.around, holds={hold: value}, iterations=info["iterations"])
         except SurfaceError as e:
             stop = str(e)

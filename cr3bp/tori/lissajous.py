@@ -4,10 +4,12 @@ The measured amplitudes of a torus (:func:`measured_amplitudes`) are
 
 * ``ay`` = the largest ``|y|`` and ``az`` = the largest ``|z|`` over the torus surface, i.e.
   the distances from the x-z and x-y planes through the collinear point (both contain the
-  point, y = z = 0), taken over the states ``phi_{m T / M}(u_j)`` of the N circle points at
-  M = 256 time steps over one stroboscopic time T (:func:`torus.surface`): every point of the
-  torus lies on one of these N trajectory arcs, and 256 samples per in-plane period bound the
-  sampling error of a maximum by about ``(pi / 256)^2 / 2 < 1e-4`` (relative).
+  point, y = z = 0), taken over the trajectories of at least 45 points of the invariance
+  circle (Fourier-interpolated) sampled 96 times per stroboscopic time, each maximum refined
+  by the quadratic through the 3 x 3 samples around it (:func:`torus.build`,
+  :func:`torus.refined_max`). Sampling only the N circle points' trajectories (as before)
+  made the maxima jump by up to a few per cent between neighbouring tori and stalled the
+  secant iteration below.
 
 Method (a two-parameter target needs both parameters of the 2-D family of Lissajous tori):
 
@@ -19,10 +21,17 @@ Method (a two-parameter target needs both parameters of the 2-D family of Lissaj
 2. a small torus about it at the orbit's Jacobi constant (:func:`torus.torus_around`),
    continued by pseudo-arclength at that Jacobi constant (:func:`family.continue_family`)
    until the other measured amplitude passes its target;
-3. the two held quantities of the torus (Jacobi constant C and RMS circle size a) corrected
+3. the two held quantities of the torus (Jacobi constant C and RMS circle size a, on the
+   section the phase conditions against one fixed reference torus pick) corrected
    by a secant (Broyden) iteration on ``(ay - Ay, az - Az)``, the first Jacobian by finite
    differences; each step is a torus solve warm-started from the previous torus, the step
-   halved when a solve fails. Stops when both amplitudes are within ``AMPLITUDE_RTOL``.
+   halved when a solve fails. Stops when both amplitudes are within ``AMPLITUDE_RTOL``;
+4. targets larger than ``RAY_START`` times the point's distance from the smaller primary:
+   steps 1-2 for the target scaled down to that size, then continuation along the family in
+   amplitude from the amplitudes reached there to the target, intermediate targets on the
+   line between them met one after the other (``_ray``).
+   (A secant from the edge orbit straight to a large target stalls: the estimate of the
+   Jacobi constant from the edge orbits is poor there.)
 
 The target is refused (``NoSolutionError``, CLI exit 3) when the Lyapunov orbit does not exist,
 or the iteration cannot reach it; the message gives the range of (ay, az) reached.
@@ -37,6 +46,7 @@ import numpy as np
 from ..errors import ConvergenceError, InputError, NoSolutionError
 from . import seeds, solver
 from .family import continue_family
+from .stability import stability
 from .torus import SurfaceError, build, solve_adaptive, torus_around
 
 #: Relative tolerance on each measured amplitude.
@@ -48,6 +58,15 @@ SEED_FRACTION = 0.04
 #: Continuation at the orbit's Jacobi constant until the measured Az passes the target.
 MAX_MEMBERS = 200
 FAMILY_STEP, FAMILY_MAX_STEP = 0.005, 0.2
+#: Targets larger than this fraction of the point's distance from the smaller primary (either
+#: amplitude) are reached by continuation along the family in amplitude (step 4), from the
+#: target scaled down to this size.
+RAY_START = 0.2
+#: Continuation in amplitude: first, largest and smallest step in the fraction f of the
+#: target, Newton iterations per step, tolerance of the intermediate targets (relative).
+RAY_FIRST_STEP, RAY_MAX_STEP, RAY_MIN_STEP = 0.1, 0.4, 1e-3
+RAY_INNER = 5
+RAY_RTOL = 1e-3
 
 
 def measured_amplitudes(torus) -> tuple[float, float]:
@@ -66,13 +85,19 @@ def lissajous(system, point: str, ay_lu: float, az_lu: float, progress=None,
               rtol: float = AMPLITUDE_RTOL):
     """The Lissajous torus at ``point`` (L1 or L2) with measured amplitudes ``ay_lu, az_lu``.
 
-    Returns a :class:`Torus` with ``extra["ay_lu"], extra["az_lu"]`` (measured) and
-    ``extra["target_iterations"]``. ``progress(message)`` receives one line per step.
+    Targets up to ``RAY_START`` (times the point's distance from the smaller primary) in both
+    amplitudes are solved directly (module notes, steps 1-3); larger ones by continuation along
+    the two-parameter family in amplitude (step 4): the direct solve at a scaled-down copy of
+    the target ``f0 (Ay, Az)``, then the family followed along the ray ``f (Ay, Az)``,
+    ``f0 < f <= 1``, each step corrected to its intermediate target.
+
+    Returns a :class:`Torus` with ``extra["ay_lu"], extra["az_lu"]`` (measured),
+    ``extra["target_iterations"]`` and ``extra["ray_steps"]``. ``progress(message)`` receives
+    one line per step.
 
     Raises InputError (bad point or amplitude), NoSolutionError (not reachable; the message
     gives the range of amplitudes reached).
     """
-    from ..orbits.request import parse_request, solve_request
     if point not in POINTS:
         raise InputError(f"point '{point}': Lissajous tori by amplitudes are built at L1 or L2")
     ay_lu, az_lu = _check("ay", ay_lu), _check("az", az_lu)
@@ -87,6 +112,58 @@ def lissajous(system, point: str, ay_lu: float, az_lu: float, progress=None,
         return (f"reached Ay {km(min(ys))} to {km(max(ys))}, Az {km(min(zs))} to "
                 f"{km(max(zs))}")
     target = np.array([ay_lu, az_lu])
+    big = RAY_START * _gamma(system, point)
+    f0 = min(1.0, big / target.max())
+    t, p, m, J, its = _direct(system, point, f0 * target, rtol, say, km, seen, reached,
+                              correct=f0 == 1.0)
+    steps = 0
+    if f0 < 1.0:
+        t, p, m, J, its, steps = _ray(system, point, t, p, m, J, target, f0, rtol, say, km,
+                                      seen, reached)
+    extra = dict(t.extra)
+    extra.update({"ay_lu": float(m[0]), "az_lu": float(m[1]), "target_iterations": its,
+                  "ray_steps": steps, "target_ay_lu": ay_lu, "target_az_lu": az_lu})
+    stab = stability(system, t.circle, t.stroboscopic_time, t.rotation)
+    return t.__class__(**{**{f: getattr(t, f) for f in t.__dataclass_fields__}, "extra": extra,
+                          "stability": stab})
+
+
+def _solve_at(system, point, t, C, a, ref):
+    """The torus holding Jacobi constant C and circle size a, warm-started from ``t`` (its
+    circle scaled about its centre to the size a), its phase conditions against the fixed
+    reference torus ``ref`` (``(U, T, rho)``). The circle's size depends on the section
+    theta_0 = 0 the phase condition picks: with one reference for all the solves of a
+    correction, the amplitudes are a smooth function of (C, a); a reference that moved with
+    every solve made them noisy."""
+    c = t.circle.mean(axis=0)
+    u = c + (t.circle - c) * (a / t.amplitude_lu)
+    u1, T1, rho1, info = solve_adaptive(system, u, t.stroboscopic_time, t.rotation,
+                                        {"jacobi": C, "amplitude": a}, reference=ref)
+    return build(system, u1, T1, rho1, info["invariance_error"], info["invariance_tolerance"],
+                 family="lissajous", point=point, around=t.around,
+                 holds={"jacobi": C, "amplitude": a},
+                 iterations=t.iterations + info["iterations"], with_stability=False)
+
+
+def _ref(t):
+    return (t.circle, t.stroboscopic_time, t.rotation)
+
+
+def _fd_jacobian(system, point, t, p, m, measure, ref):
+    """d(ay, az)/d(C, a) by forward differences (two torus solves)."""
+    J = np.empty((2, 2))
+    h = np.array([1e-3 * abs(_c_point(system, point) - p[0]) + 1e-12, 1e-3 * p[1]])
+    for k in range(2):
+        q = p.copy()
+        q[k] += h[k]
+        J[:, k] = (measure(_solve_at(system, point, t, *q, ref)) - m) / h[k]
+    return J
+
+
+def _direct(system, point, target, rtol, say, km, seen, reached, correct=True):
+    """Steps 1-3 of the module notes: (torus, (C, a), measured (ay, az), Jacobian, iterations)."""
+    from ..orbits.request import parse_request, solve_request
+    ay_lu, az_lu = target
 
     def edge(fam_name, key, value):
         text = (f"{system.km(value)}km" if system.dimensional and key != "jacobi"
@@ -141,29 +218,19 @@ def lissajous(system, point: str, ay_lu: float, az_lu: float, progress=None,
         seen.append(m)
         return m
 
-    def solve_at(t, C, a):
-        u1, T1, rho1, info = solve_adaptive(system, t.circle, t.stroboscopic_time, t.rotation,
-                                            {"jacobi": C, "amplitude": a})
-        return build(system, u1, T1, rho1, info["invariance_error"], info["invariance_tolerance"],
-                     family="lissajous", point=point, around=t.around,
-                     holds={"jacobi": C, "amplitude": a},
-                     iterations=t.iterations + info["iterations"])
-
     p = np.array([t.jacobi, t.amplitude_lu])
-    t = solve_at(t, *p)        # the member again, its amplitudes measured on 256 samples
+    ref = _ref(t)
+    t = _solve_at(system, point, t, *p, ref)   # the member again, its amplitudes measured
+    ref = _ref(t)
     m = measure(t)
     say(f"lissajous: start Ay {km(m[0])}, Az {km(m[1])}")
-    # first Jacobian by finite differences along the two held quantities
-    J = np.empty((2, 2))
-    h = np.array([1e-3 * abs(_c_point(system, point) - p[0]) + 1e-12, 1e-3 * p[1]])
-    for k in range(2):
-        q = p.copy()
-        q[k] += h[k]
-        try:
-            J[:, k] = (measure(solve_at(t, *q)) - m) / h[k]
-        except (ConvergenceError, SurfaceError) as e:
-            raise NoSolutionError(f"the Lissajous family at {point} could not be followed from "
-                                  f"Ay {km(m[0])}, Az {km(m[1])} ({e}); {reached()}") from None
+    try:
+        J = _fd_jacobian(system, point, t, p, m, measure, ref)
+    except (ConvergenceError, SurfaceError) as e:
+        raise NoSolutionError(f"the Lissajous family at {point} could not be followed from "
+                              f"Ay {km(m[0])}, Az {km(m[1])} ({e}); {reached()}") from None
+    if not correct:        # the start of step 4: its line begins at the amplitudes reached
+        return t, p, m, J, 0
     for it in range(1, MAX_ITER + 1):
         r = m - target
         if np.all(np.abs(r) <= rtol * target):
@@ -179,7 +246,7 @@ def lissajous(system, point: str, ay_lu: float, az_lu: float, progress=None,
             try:
                 if not q[1] > 0:
                     raise ConvergenceError("the torus would shrink to its orbit")
-                t1 = solve_at(t, *q)
+                t1 = _solve_at(system, point, t, *q, ref)
                 break
             except (ConvergenceError, SurfaceError) as e:
                 lam /= 2
@@ -195,10 +262,90 @@ def lissajous(system, point: str, ay_lu: float, az_lu: float, progress=None,
     else:
         raise NoSolutionError(f"the Lissajous torus with Ay {km(ay_lu)}, Az {km(az_lu)} at "
                               f"{point} was not reached in {MAX_ITER} iterations; {reached()}")
-    extra = dict(t.extra)
-    extra.update({"ay_lu": float(m[0]), "az_lu": float(m[1]), "target_iterations": it,
-                  "target_ay_lu": ay_lu, "target_az_lu": az_lu})
-    return t.__class__(**{**{f: getattr(t, f) for f in t.__dataclass_fields__}, "extra": extra})
+    return t, p, m, J, it
+
+
+def _ray(system, point, t, p, m, J, target, f0, rtol, say, km, seen, reached):
+    """Step 4: the family followed in amplitude along the line from the amplitudes ``m0``
+    reached by steps 1-2 for the scaled-down target ``f0 (Ay, Az)`` to the target,
+    ``m0 + f ((Ay, Az) - m0)``, ``0 < f <= 1``.
+
+    Natural-parameter continuation in the amplitudes (Allgower & Georg, "Introduction to
+    Numerical Continuation Methods", SIAM 2003, §1-2; the parameters of the two-parameter
+    family of tori as in Baresi, Olikara & Scheeres 2018): each intermediate target
+    on the line is met by Newton in (C, a) with Broyden's update of ``d(ay, az)/d(C, a)``,
+    starting from the previous torus (the Newton step from it is the predictor); a step that
+    does not converge in ``RAY_INNER`` iterations is retried once with a fresh
+    finite-difference Jacobian, then halved. Intermediate targets are met to ``RAY_RTOL``,
+    the last to ``rtol``.
+    """
+    def measure(t):
+        mm = np.array(measured_amplitudes(t))
+        seen.append(mm)
+        return mm
+
+    m0 = m.copy()
+    f, df, steps, its = 0.0, RAY_FIRST_STEP, 0, 0
+    fresh = False
+    ref = _ref(t)
+    while f < 1.0:
+        f1 = min(1.0, f + df)
+        goal = m0 + f1 * (target - m0)
+        tol = rtol if f1 == 1.0 else RAY_RTOL
+        pt, mt, tt, Jt = p.copy(), m.copy(), t, J.copy()
+        ok, k = False, 0
+        for k in range(1, RAY_INNER + 1):
+            try:
+                dp = np.linalg.solve(Jt, goal - mt)
+                q = pt + dp
+                if not q[1] > 0:
+                    break
+                t1 = _solve_at(system, point, tt, *q, ref)
+            except (ConvergenceError, SurfaceError, np.linalg.LinAlgError):
+                break
+            m1 = measure(t1)
+            s = q - pt
+            Jt += np.outer((m1 - mt) - Jt @ s, s) / (s @ s)
+            if np.abs(m1 - goal).max() > np.abs(mt - goal).max() and k > 1:
+                break
+            pt, mt, tt = q, m1, t1
+            if np.all(np.abs(mt - goal) <= tol * goal):
+                ok = True
+                break
+        its += k
+        if ok:
+            p, m, t, J, f = pt, mt, tt, Jt, f1
+            # the next step's reference: this torus, its circle size on the new section
+            ref = _ref(t)
+            p = np.array([t.jacobi, t.amplitude_lu])
+            steps += 1
+            fresh = False
+            say(f"lissajous: along the family, {100 * f:.1f}% of the target: Ay {km(m[0])}, "
+                f"Az {km(m[1])}")
+            if k <= 2:
+                df = min(2 * df, RAY_MAX_STEP)
+            continue
+        if not fresh:
+            try:
+                J = _fd_jacobian(system, point, t, p, m, measure, ref)
+                fresh = True
+                continue
+            except (ConvergenceError, SurfaceError):
+                pass
+        df /= 2
+        fresh = False
+        if df < RAY_MIN_STEP:
+            raise NoSolutionError(f"the Lissajous torus with Ay {km(target[0])}, Az "
+                                  f"{km(target[1])} at {point} was not reached: the family "
+                                  f"could not be followed past {100 * f:.1f}% of the target "
+                                  f"(Ay {km(m[0])}, Az {km(m[1])}); {reached()}")
+    return t, p, m, J, its, steps
+
+
+def _gamma(system, point):
+    """Distance of the collinear point from the smaller primary (LU)."""
+    from ..equilibria import lagrange_point
+    return abs(float(lagrange_point(system, point).position[0]) - (1 - system.mu))
 
 
 def _c_point(system, point):

@@ -61,6 +61,8 @@ class Torus:
     closest_approach_lu : (d1, d2)   least distance from each primary's centre over the torus
     extent_lu : dict           {"x": (min, max), "y": ..., "z": ...} over the torus
     iterations : int
+    stability : dict           eigenvalues of the discretised stroboscopic map
+                               (:func:`cr3bp.tori.stability.stability`: moduli, verdict)
     extra : dict
     """
 
@@ -81,6 +83,7 @@ class Torus:
     closest_approach_lu: tuple = (float("nan"), float("nan"))
     extent_lu: dict = field(default_factory=dict, compare=False)
     iterations: int = 0
+    stability: dict = field(default_factory=dict, compare=False)
     extra: dict = field(default_factory=dict, compare=False, repr=False)
 
     @property
@@ -145,6 +148,7 @@ class Torus:
             "extent_lu": {k: list(v) for k, v in self.extent_lu.items()},
             "extent_km": {k: [km(a) for a in v] for k, v in self.extent_lu.items()},
             "iterations": self.iterations,
+            "stability": dict(self.stability),
             "circle": self.circle.tolist(),
         }
 
@@ -274,18 +278,72 @@ def _orbit_summary(orbit) -> dict:
             "jacobi": float(orbit.jacobi)}
 
 
-def build(system, u, T, rho, err, tol=INVARIANCE_TOL, samples=256, **kw) -> Torus:
-    """Torus with its geometry (closest approaches, extents) measured on the surface."""
+#: The geometry (extents, closest approaches) is sampled on at least this many trajectories
+#: of the torus (the circle resampled; odd) at ``samples`` times per stroboscopic time, and
+#: each extreme refined by a quadratic through its 3 x 3 neighbourhood of samples.
+GEOMETRY_POINTS = 45
+GEOMETRY_SAMPLES = 96
+
+
+def build(system, u, T, rho, err, tol=INVARIANCE_TOL, samples=GEOMETRY_SAMPLES,
+          with_stability=True, **kw) -> Torus:
+    """Torus with its geometry (closest approaches, extents) measured on the surface and its
+    stability (eigenvalues of the discretised map; skipped with ``with_stability=False``).
+
+    The surface is sampled on the trajectories of ``max(GEOMETRY_POINTS, N)`` points of the
+    circle (Fourier-interpolated) at ``samples`` times over ``T`` plus one before and one
+    after; every sample lies on the smooth torus function ``W(t, theta)`` on a regular
+    (sheared) lattice, so each extreme is refined by the maximum of the quadratic through
+    the 3 x 3 samples around the best one (periodic in the circle's angle)."""
+    from .stability import stability
     C = solver.jacobi_many(system.mu, u)
-    grid = surface(system, u, T, samples)
-    flat = grid.reshape(-1, 6)
-    ext = {name: (float(flat[:, i].min()), float(flat[:, i].max()))
+    if with_stability:
+        kw["stability"] = stability(system, u, T, rho)
+    n_geo = max(GEOMETRY_POINTS, u.shape[0])
+    ug = circle.resample(u, n_geo) if n_geo != u.shape[0] else u
+    grid = _padded_surface(system, ug, T, samples)
+    ext = {name: (-refined_max(-grid[:, :, i]), refined_max(grid[:, :, i]))
            for i, name in enumerate("xyz")}
     ca = tuple(closest_approach(system, grid, c, T / samples) for c in (-system.mu, 1 - system.mu))
     return Torus(system=system, circle=u, stroboscopic_time=T, rotation=rho, jacobi=float(C.mean()),
                  jacobi_spread=float(C.max() - C.min()), invariance_error=err,
                  invariance_tolerance=tol,
                  amplitude_lu=solver.amplitude(u), closest_approach_lu=ca, extent_lu=ext, **kw)
+
+
+def _padded_surface(system, u, T, samples):
+    """``surface`` with one more time step before 0 and after T: (samples + 3, N, 6)."""
+    try:
+        before = propagate_batch(system, np.asarray(u, dtype=float), -T / samples,
+                                 rtol=solver.RTOL, atol=solver.ATOL).states
+    except StateError as e:
+        raise SurfaceError(f"the torus passes inside a primary ({e}); choose a smaller "
+                           "amplitude") from None
+    grid = surface(system, before, T * (samples + 2) / samples, samples + 2)
+    return grid
+
+
+def refined_max(f: np.ndarray) -> float:
+    """Largest value of a smooth function sampled on a lattice ``f[m, j]`` (m: time, clipped;
+    j: periodic): the best sample, refined by the quadratic through its 3 x 3 neighbourhood
+    when that quadratic has its maximum within one step (else the sample itself)."""
+    m_count = f.shape[0]
+    inner = f[1:m_count - 1]
+    m, j = np.unravel_index(np.argmax(inner), inner.shape)
+    m += 1
+    n = f.shape[1]
+    jm, jp = (j - 1) % n, (j + 1) % n
+    c = f[m, j]
+    g = np.array([(f[m + 1, j] - f[m - 1, j]) / 2, (f[m, jp] - f[m, jm]) / 2])
+    h = np.array([[f[m + 1, j] - 2 * c + f[m - 1, j],
+                   (f[m + 1, jp] - f[m + 1, jm] - f[m - 1, jp] + f[m - 1, jm]) / 4],
+                  [0.0, f[m, jp] - 2 * c + f[m, jm]]])
+    h[1, 0] = h[0, 1]
+    if np.all(np.linalg.eigvalsh(h) < 0):
+        d = -np.linalg.solve(h, g)
+        if np.all(np.abs(d) <= 1.0):
+            return float(c + 0.5 * g @ d)
+    return float(c)
 
 
 def surface(system, u, T, samples=256) -> np.ndarray:
