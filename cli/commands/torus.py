@@ -145,7 +145,6 @@ def run(args):
         tspec = treq.parse(args.request)
         treq.values(system, tspec)          # bad units and ranges fail here, before any work
         if tspec.around:
-            from cr3bp.orbits.targets import make_target
             ospec = parse_request(tspec.around)
             if ospec.family != "halo":
                 raise InputError(f"a quasi-halo torus is about a halo orbit (or NRHO); "
