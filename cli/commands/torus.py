@@ -83,7 +83,9 @@ def run_from_orbit(args):
                              "is sized by --ay and --az at --point L1|L2")
     args.family = "lissajous"
     for name, default in (("around", None), ("amplitude", None), ("members", None),
-                          ("hold", "jacobi")):
+                          ("hold", "jacobi"), ("export", None), ("epoch", None),
+                          ("span", None), ("step", None), ("export_format", None),
+                          ("phase", "0,0")):
         if not hasattr(args, name):
             setattr(args, name, default)
     return run(args)

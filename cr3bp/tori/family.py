@@ -83,6 +83,27 @@ def tangent(system, t: Torus, hold: str, previous=None) -> np.ndarray:
     return v
 
 
+def hold_tangents(system, t: Torus, holds: dict, reference) -> np.ndarray:
+    """Derivatives ``dx/dh`` of the unknowns ``x = [U, T, rho]`` with respect to the held values
+    ``h`` (in the order of ``holds``) at the solved torus ``t``, its phase conditions against
+    ``reference``: the family's tangents in the held quantities, from the linearised equations
+    ``J dx = e_k`` (J the Newton Jacobian, e_k the unit vector of the k-th held row; numpy's
+    lstsq, the one redundant row being the Jacobi integral). Used as the predictor of a
+    continuation step in the held values (Euler predictor: Allgower & Georg, "Introduction to
+    Numerical Continuation Methods", SIAM 2003, §2.2; Keller 1977): the whole unknown vector,
+    circle, T and rho, moves along the family, not the circle alone. Shape (6N + 2, len(holds)).
+    """
+    n = t.n_circle_points
+    ref = reference
+    if ref[0].shape[0] != n:
+        ref = (circle.resample(ref[0], n), ref[1], ref[2])
+    _, jac, _ = solver._residual_and_jacobian(system, _x(t), n, ref, holds, None)
+    rhs = np.zeros((jac.shape[0], len(holds)))
+    for k in range(len(holds)):
+        rhs[6 * n + 2 + k, k] = 1.0      # residual = value - held: d(residual)/d(held) = -1
+    return np.linalg.lstsq(jac, rhs, rcond=None)[0]
+
+
 def continue_family(start: Torus, hold: str = "jacobi", members: int = 10, step: float = 0.02,
                     min_step: float = 1e-4, max_step: float = 0.2, direction: int = 1,
                     progress=None, until=None) -> TorusFamily:

@@ -45,7 +45,7 @@ import numpy as np
 
 from ..errors import ConvergenceError, InputError, NoSolutionError
 from . import seeds, solver
-from .family import continue_family
+from .family import continue_family, hold_tangents
 from .stability import stability
 from .torus import SurfaceError, build, solve_adaptive, torus_around
 
@@ -129,20 +129,34 @@ def lissajous(system, point: str, ay_lu: float, az_lu: float, progress=None,
 
 
 def _solve_at(system, point, t, C, a, ref):
-    """The torus holding Jacobi constant C and circle size a, warm-started from ``t`` (its
-    circle scaled about its centre to the size a), its phase conditions against the fixed
-    reference torus ``ref`` (``(U, T, rho)``). The circle's size depends on the section
-    theta_0 = 0 the phase condition picks: with one reference for all the solves of a
+    """The torus holding Jacobi constant C and circle size a, warm-started from ``t`` by the
+    family's tangent predictor (:func:`family.hold_tangents`): the whole unknown vector
+    ``[U, T, rho]`` of ``t`` moved by ``dx/d(C, a) . (C - C_t, a - a_t)``, so that the
+    stroboscopic time and rotation move with the circle (scaling the circle alone left T and
+    rho behind and put large steps outside Newton's range). Its phase conditions are against
+    the fixed reference torus ``ref`` (``(U, T, rho)``). The circle's size depends on the
+    section theta_0 = 0 the phase condition picks: with one reference for all the solves of a
     correction, the amplitudes are a smooth function of (C, a); a reference that moved with
     every solve made them noisy."""
-    c = t.circle.mean(axis=0)
-    u = c + (t.circle - c) * (a / t.amplitude_lu)
-    u1, T1, rho1, info = solve_adaptive(system, u, t.stroboscopic_time, t.rotation,
-                                        {"jacobi": C, "amplitude": a}, reference=ref)
+    holds = {"jacobi": C, "amplitude": a}
+    n = t.n_circle_points
+    key = (id(t), id(ref))
+    if _TANGENTS.get("key") != key:
+        _TANGENTS.clear()
+        _TANGENTS.update(key=key, d=hold_tangents(system, t, holds, ref), t=t, ref=ref)
+    dx = _TANGENTS["d"] @ np.array([C - t.jacobi, a - t.amplitude_lu])
+    x = np.concatenate([t.circle.ravel(), [t.stroboscopic_time, t.rotation]]) + dx
+    u, T0, rho0 = x[:6 * n].reshape(n, 6), x[-2], x[-1]
+    u1, T1, rho1, info = solve_adaptive(system, u, T0, rho0, holds, reference=ref)
     return build(system, u1, T1, rho1, info["invariance_error"], info["invariance_tolerance"],
                  family="lissajous", point=point, around=t.around,
-                 holds={"jacobi": C, "amplitude": a},
-                 iterations=t.iterations + info["iterations"], with_stability=False)
+                 holds=holds, iterations=t.iterations + info["iterations"],
+                 with_stability=False)
+
+
+#: The last tangent computed (one torus and reference at a time; the objects are kept alive
+#: with it so that their ids are not reused).
+_TANGENTS: dict = {}
 
 
 def _ref(t):
