@@ -1,54 +1,11 @@
 """The interactive 3-D figures (plotly, inline) draw in headless Chromium: no console error, no
 network request, each plotly figure with its WebGL canvas and its axes."""
 
-import json
-
 import pytest
 
-from _chromium import render
+from _chromium import probe3d
 
 from cr3bp.cautions import caution_short
-
-#: Collects console errors, uncaught errors and blocked requests before any of the page's scripts.
-#: The Content-Security-Policy lets nothing load from anywhere but the page itself (inline
-#: scripts and styles, data: and blob: images), so a script or font fetched from a network would be
-#: refused and counted, and the figure would not draw.
-HEAD = """<meta http-equiv="Content-Security-Policy" content="default-src 'none'; script-src 'unsafe-inline' 'unsafe-eval'; style-src 'unsafe-inline'; img-src data: blob:; font-src data:; connect-src 'none'">
-<script>
-window.__errors = []; window.__blocked = [];
-const _err = console.error.bind(console);
-console.error = (...a) => { window.__errors.push(a.map(String).join(' ')); _err(...a); };
-window.addEventListener('error', e => window.__errors.push(String(e.message || e.type)));
-document.addEventListener('securitypolicyviolation', e => window.__blocked.push(e.blockedURI || e.violatedDirective));
-</script>
-"""
-
-PROBE = """
-<script>
-window.addEventListener('load', () => setTimeout(() => {
-  const plots = [...document.querySelectorAll('.js-plotly-plot')];
-  const drawn = plots.filter(p => {
-    const c = p.querySelector('.gl-container canvas');
-    return c && c.width > 0 && c.height > 0 && p.querySelector('svg.main-svg') && p._fullLayout
-           && p._fullLayout.scene && p._fullLayout.scene._scene && p._fullLayout.scene._scene.glplot;
-  }).length;
-  const net = performance.getEntriesByType('resource').map(r => r.name).filter(n => !n.startsWith('data:') && !n.startsWith('blob:'));
-  const titles = plots.map(p => p._fullLayout ? p._fullLayout.title.text : '');
-  const axes = plots.map(p => p._fullLayout && p._fullLayout.scene ? p._fullLayout.scene.xaxis.title.text : '');
-  document.body.setAttribute('data-probe', 'json=' + btoa(unescape(encodeURIComponent(JSON.stringify(
-    {plots: plots.length, drawn, errors: window.__errors, blocked: window.__blocked, network: net, titles, axes})))));
-}, 1500));
-</script>
-"""
-
-#: WebGL in headless Chromium without a GPU: the software rasteriser.
-FLAGS = ("--use-angle=swiftshader", "--enable-unsafe-swiftshader")
-
-
-def probe3d(path, tmp_path):
-    import base64
-    raw = render(path, tmp_path, probe=PROBE, head=HEAD, flags=FLAGS)["json"]
-    return json.loads(base64.b64decode(raw + "=" * (-len(raw) % 4)).decode())
 
 
 @pytest.fixture(scope="module")
@@ -84,3 +41,44 @@ def test_probe_sees_a_figure_whose_library_comes_from_the_network(tmp_path, halo
     frag = halo.to_plotly().to_html(full_html=False, include_plotlyjs="cdn")
     p = probe3d(page_with(tmp_path, [frag]), tmp_path)
     assert p["blocked"] and p["drawn"] == 0 and p["errors"]
+
+
+
+def test_family_and_tube_figures_in_km_with_the_primaries_and_caution():
+    import cr3bp
+    em = cr3bp.system("earth-moon")
+    fam = cr3bp.family(em, "lyapunov", point="L1", members=12)
+    fig = fam.to_plotly(max_curves=5)
+    curves = [t for t in fig.data if t.type == "scatter3d" and t.mode == "lines"]
+    assert len(curves) == 5
+    assert {t.name for t in fig.data if t.type == "surface"} == set(em.names)      # to scale
+    assert "[km]" in fig.layout.scene.xaxis.title.text and caution_short() in fig.layout.title.text
+    # the curve is the orbit in km: its x span is the member's x span times the length unit
+    from cr3bp.plotting.orbits import trajectory
+    m = fam.members[0]
+    s = trajectory(m, 300)
+    assert max(curves[0].x) == pytest.approx(s[:, 0].max() * em.length_km, rel=1e-9)
+    tube = cr3bp.manifold(fam.members[-1], "unstable", points=8, until="time:5")
+    fig = tube.to_plotly()
+    assert sum(t.type == "scatter3d" and t.mode == "lines" for t in fig.data) == 8
+
+
+def test_a_route_asks_to_be_stitched_first(halo):
+    from cr3bp.display import Shown
+    from cr3bp.errors import InputError
+    from cr3bp.transfers.search import Route
+    r = Route(nodes=("a", "b"), edges=(("a", "b", 0),), dv_total_mps=1.0, tof_days=1.0)
+    assert isinstance(r, Shown)
+    with pytest.raises(InputError, match="stitch_route"):
+        r.to_plotly()
+
+
+def test_interactive_false_leaves_the_report_without_plotly(tmp_path):
+    from librate_cli.main import main
+    from test_mission import SCENARIO
+    assert "hill_regions = true\n" in SCENARIO
+    (tmp_path / "s.toml").write_text(SCENARIO.replace("hill_regions = true\n", "hill_regions = true\ninteractive = false\n"))
+    assert main(["run", str(tmp_path / "s.toml"), "--out", str(tmp_path / "out"), "--catalog",
+                 str(tmp_path / "c.sqlite"), "--quiet"]) == 0
+    text = (tmp_path / "out" / "report.html").read_text()
+    assert "plotly" not in text.lower() and "<img" in text and len(text) < 3e6
