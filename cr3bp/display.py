@@ -8,6 +8,8 @@
 - ``obj._repr_html_()``: a small table (Jupyter shows it) ending with the caution;
 - ``obj.plot(ax=None)``: a drawing on the matplotlib Axes ``ax`` (a new figure when None),
   returning the Axes (Axes in, Axes out);
+- ``obj.to_plotly()``: a rotatable 3-D plotly figure (orbits, families, tubes; see
+  :mod:`cr3bp.plotting.interactive`), plotly imported then only;
 - ``obj.to_dataframe()`` where the result is a table (a family's members, a tube's
   trajectories, a route's legs): a pandas DataFrame, when pandas is installed (it is optional).
 
@@ -233,6 +235,21 @@ class Shown:
         ax = _PLOTS[_kind(self)](self, ax, **options)
         _caption(ax)
         return ax
+
+    def to_plotly(self, **options):
+        """A rotatable 3-D plotly figure in the rotating frame (km when the system has units),
+        the primaries drawn, the caution in its title; needs plotly. Orbits, families and tubes
+        only: a route's continuous trajectory comes from
+        :func:`cr3bp.transfers.stitch.stitch_route`, whose result has its own ``to_plotly()``.
+        """
+        from .plotting import interactive as ia
+        kind = _kind(self)
+        if kind == "Route":
+            from .errors import InputError
+            raise InputError("a Route holds its legs' patch points, not a continuous trajectory: stitch it "
+                            "(cr3bp.transfers.stitch.stitch_route) and call the result's to_plotly()")
+        return {"PeriodicOrbit": ia.orbit_figure, "Family": ia.family_figure,
+                "Tube": ia.tube_figure}[kind](self, **options)
 
     def to_dataframe(self):
         """The result's table as a pandas DataFrame (pandas is optional: ImportError without it).

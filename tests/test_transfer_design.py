@@ -166,3 +166,16 @@ def test_scenario_nodes_are_built_directly_with_the_node_list_ids(tmp_path):
     assert [n.id for n in built.nodes] == [by_name[k].id for k in order]
     assert [n.kind for n in built.nodes] == ["parking", "orbit", "orbit"]
     assert (built.tof_days, built.patches, built.all_pairs, built.hints) == (6.0, 4, True, ())
+
+
+def test_scenario_report_draws_each_orbit_and_the_route_in_3d(both, tmp_path):
+    # the scenario -> report seam: three orbits and the stitched route as interactive figures,
+    # drawn in headless Chromium from the one inline plotly.js, with nothing fetched
+    from _chromium import probe3d
+    d, _ = both
+    text = (d / "scenario" / "report.html").read_text()
+    assert "<script src=" not in text and text.count("plotly.js v") == 1
+    p = probe3d(d / "scenario" / "report.html", tmp_path)
+    assert p["errors"] == [] and p["blocked"] == [] and p["network"] == []
+    assert p["plots"] == 4 and p["drawn"] == 4
+    assert sum("transfer 'gate-to-relay'" in t for t in p["titles"]) == 1

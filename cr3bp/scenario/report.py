@@ -32,7 +32,7 @@ def places_note(d) -> str:
             "key 'occurrence' chooses another.")
 
 
-def _orbit_section(name, orbit, checks, figures) -> str:
+def _orbit_section(name, orbit, checks, figures, views=None) -> str:
     d = orbit.to_dict()
     nu = [float(np.real(v)) for v in orbit.stability_indices]
     amp = d.get("amplitude_km") or {}
@@ -56,10 +56,15 @@ def _orbit_section(name, orbit, checks, figures) -> str:
     for key in (f"orbit-{name}", f"hill-{name}", f"family-{name}", f"eclipses-{name}"):
         if key in figures:
             html += R.figure(figures[key]["path"], figures[key]["caption"])
+    if views is not None:
+        from ..plotting.interactive import orbit_figure
+        html += views.html(orbit_figure(orbit, name=name),
+                           f"Orbit '{name}' in 3-D over one period (drag to rotate, scroll to zoom): rotating "
+                           "frame of the CR3BP, primaries to scale.")
     return html
 
 
-def _routes_section(routes, figures) -> str:
+def _routes_section(routes, figures, views=None, stitched=None, orbits=None) -> str:
     html = ""
     for name, r in routes.items():
         html += f"<h3>{R.esc(name)}</h3>"
@@ -92,6 +97,14 @@ def _routes_section(routes, figures) -> str:
         for key in (f"corridor-{name}", f"pareto-{name}"):
             if key in figures:
                 html += R.figure(figures[key]["path"], figures[key]["caption"])
+        if views is not None and (stitched or {}).get(name) is not None:
+            from ..plotting.interactive import route_figure
+            st = stitched[name]
+            joined = [orbits[n] for n in st.nodes if n in (orbits or {})]
+            html += views.html(route_figure(st, joined, title=f"transfer '{name}': the best route stitched "
+                                                                f"(Δv {st.dv_total_mps:.6g} m/s, {st.tof_days:.4f} d, CR3BP)"),
+                               f"Transfer '{name}' in 3-D: the stitched trajectory (orange), its maneuvers "
+                               "(diamonds) and the orbits it joins (grey); rotating frame of the CR3BP.")
     return html
 
 
@@ -113,16 +126,23 @@ def _exports_section(exports) -> str:
                      e["time_system"], e["anchor"]) for e in exports])
 
 
-def write_report(plan, orbits, checks, routes, exports, figures, out):
+def write_report(plan, orbits, checks, routes, exports, figures, out, stitched=None):
+    """The report. Each orbit, and each route of ``stitched`` (route name -> StitchedRoute),
+    also gets an interactive 3-D figure (plotly.js once, inline; no network) unless the
+    scenario's ``[plots]`` sets ``interactive = false``."""
+    views = None
+    if plan.data.get("plots", {}).get("interactive", True):
+        from ..plotting.interactive import ReportFigures
+        views = ReportFigures()
     sections = [("System and units", _system_section(plan))]
     desc = plan.data["mission"].get("description")
     if desc:
         sections.insert(0, ("Mission", f"<p>{R.esc(desc)}</p><p>Scenario file: {R.esc(plan.path.name)} "
                                        f"(sha256 {plan.sha256[:16]}…)</p>"))
     for name, orbit in orbits.items():
-        sections.append((f"Orbit '{name}'", _orbit_section(name, orbit, checks.get(name), figures)))
+        sections.append((f"Orbit '{name}'", _orbit_section(name, orbit, checks.get(name), figures, views)))
     if routes:
-        sections.append(("Transfers: Δv and time-of-flight budget", _routes_section(routes, figures)))
+        sections.append(("Transfers: Δv and time-of-flight budget", _routes_section(routes, figures, views, stitched, orbits)))
     if exports:
         sections.append(("Exports written", _exports_section(exports)))
     path = out.path("report.html")

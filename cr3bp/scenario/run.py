@@ -683,7 +683,7 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
 
     # ---- report and manifest ----------------------------------------------------------
     from .report import write_report
-    report = write_report(plan, orbits, checks, routes, exports, figures, out)
+    report = write_report(plan, orbits, checks, routes, exports, figures, out, stitched)
     seconds = time.time() - started
     manifest = _manifest(plan, out, seconds)
     return report, manifest, checks, routes, seconds

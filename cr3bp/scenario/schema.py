@@ -100,6 +100,8 @@ SCHEMA = {
         "orbits": (B, False, "draw each orbit"), "families": (B, False, "draw each orbit's family"),
         "hill_regions": (B, False, "draw the Hill region at each orbit's energy"),
         "corridors": (B, False, "draw the transfer corridors"),
+        "interactive": (B, False, "interactive 3-D figures (plotly, inline) of each orbit and stitched route "
+                                  "in report.html (default true; adds about 4.7 MB of plotly.js once)"),
         "formats": ("list[str]", False, "image formats, from png and svg"),
     }),
     "settings": ("table", False, {

@@ -89,6 +89,12 @@ class StitchedRoute:
     def times_days(self):
         return self.times_tu * self.system.time_days
 
+    def to_plotly(self, orbits=()):
+        """A rotatable 3-D plotly figure of the trajectory, its maneuvers and the ``orbits`` it
+        joins (rotating frame, CR3BP, caution in the title); needs plotly."""
+        from ..plotting.interactive import route_figure
+        return route_figure(self, orbits)
+
     def to_dict(self) -> dict:
         return {"nodes": list(self.nodes), "dv_total_mps": self.dv_total_mps, "tof_days": self.tof_days,
                 "legs_dv_total_mps": self.legs_dv_total_mps, "legs_tof_days": self.legs_tof_days,
