@@ -102,6 +102,8 @@ def test_pruning_names_the_reason(em):
     reasons = {(p["from"], p["to"]): p["reason"] for p in pruned}
     assert "Jacobi constants differ" in reasons[("gate", "relay")]        # ballistic, other energy
     assert "joins periodic orbits only" in reasons[("leo", "gate")] and len(pruned) == 4
+    # the reason names both kinds of parking leg: manifold through periapsis and direct departure
+    assert "direct departure" in reasons[("leo", "gate")] and "manifold" in reasons[("leo", "gate")]
     assert sorted((t["from"]["name"], t["to"]["name"], t["method"]) for t in tasks) == [
         ("leo", "relay", "parking"), ("relay", "leo", "parking")]
 

@@ -161,8 +161,8 @@ def run(args):
     if stitched is not None:
         ex_head = ["dv_exported_mps[route.oem]"] if table else []
         text += "\n" + common.format_table(
-            ["t_days", "node", "dv_x_mps", "dv_y_mps", "dv_z_mps", "dv_design_mps"] + ex_head,
-            [[m["t_days"], m["node"], *m["dv_vector_mps"], m["dv_mps"]] + ([r["dv_exported_mps"]] if table else [])
+            ["t_days", "node", "maneuver", "dv_x_mps", "dv_y_mps", "dv_z_mps", "dv_design_mps"] + ex_head,
+            [[m["t_days"], m["node"], m.get("name", ""), *m["dv_vector_mps"], m["dv_mps"]] + ([r["dv_exported_mps"]] if table else [])
              for m, r in zip(stitched.maneuvers, table or [None] * len(stitched.maneuvers))],
             title=(f"stitched best route (CR3BP): Δv {stitched.dv_total_mps:.3f} m/s (legs alone "
                    f"{stitched.legs_dv_total_mps:.3f} m/s), time of flight {stitched.tof_days:.4f} d, "

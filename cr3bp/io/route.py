@@ -43,7 +43,8 @@ def to_export(result, frame_spec, object_name="LIBRATE ROUTE"):
         cur_s.append(st)
     segs.append(export.Segment(np.concatenate(cur_t), np.concatenate(cur_s)))
     vu = s.velocity_kms * 1e3
-    mans = tuple(export.Maneuver(float(tm), np.asarray(m["dv_vector_mps"]) / vu, m["node"], float(m["dv_mps"]))
+    mans = tuple(export.Maneuver(float(tm), np.asarray(m["dv_vector_mps"]) / vu,
+                                  f"{m['name']} at {m['node']}" if m.get("name") else m["node"], float(m["dv_mps"]))
                  for tm, m in zip(man_t, result.maneuvers))
     model = {"route": " -> ".join(result.nodes), "dv_total_design_mps (CR3BP)": result.dv_total_mps,
              "tof_days": result.tof_days, "method": "multiple shooting (librate stitch)"}

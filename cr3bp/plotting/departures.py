@@ -1,6 +1,7 @@
 """Figure of a departure from a parking orbit (:mod:`cr3bp.transfers.departure`): the transfer
 and the target orbit in the rotating Earth–Moon frame, in two views (x-y and x-z), the burns
-marked and named."""
+marked and named; below them the same two views zoomed on the target orbit, so the insertion
+(and the last part of the transfer coming in) can be seen at the orbit's own scale."""
 
 from __future__ import annotations
 
@@ -9,30 +10,52 @@ import numpy as np
 from .base import axis_labels, draw_lagrange_points, draw_primaries, legend_beside, new_figure, title
 
 MARKERS = {"departure": ("o", "tab:green"), "flyby": ("D", "tab:orange"), "insertion": ("s", "tab:red")}
+#: Margin around the target orbit in the zoomed panels, as a fraction of its largest extent.
+ZOOM_MARGIN = 0.25
+
+
+def zoom_box(orbit_states, view, margin=ZOOM_MARGIN):
+    """(umin, umax, vmin, vmax) of the target orbit in ``view`` ("xy" or "xz"), widened by
+    ``margin`` of the orbit's largest extent (both axes get the same span: equal aspect)."""
+    i, j = {"xy": (0, 1), "xz": (0, 2)}[view]
+    u, v = orbit_states[:, i], orbit_states[:, j]
+    span = max(float(np.ptp(u)), float(np.ptp(v)), 1e-6) * (1.0 + 2.0 * margin)
+    cu, cv = 0.5 * (u.min() + u.max()), 0.5 * (v.min() + v.max())
+    return cu - span / 2, cu + span / 2, cv - span / 2, cv + span / 2
 
 
 def plot_departure(dep, n_per_segment=800):
-    """Two panels (x-y, x-z) of ``dep``; returns the figure."""
+    """Four panels of ``dep``: x-y and x-z of the whole transfer (top), and the same views
+    zoomed on the target orbit (bottom); returns the figure."""
     system = dep.system
     _, states = dep.trajectory(n_per_segment)
     from ..integrate import propagate
     T = float(dep.orbit.period)
     orb = propagate(system, dep.orbit.state, T, t_eval=np.linspace(0.0, T, 600)).states
-    fig, axes = new_figure(2, 1, size=(12.0, 5.6))
-    for ax, view in zip(axes.ravel(), ("xy", "xz")):
-        i, j = {"xy": (0, 1), "xz": (0, 2)}[view]
-        ax.plot(orb[:, i], orb[:, j], color="0.35", lw=1.0, label="target orbit")
-        ax.plot(states[:, i], states[:, j], color="tab:blue", lw=1.2, label=f"{dep.path} transfer")
-        for m in dep.maneuvers:
-            mk, col = MARKERS.get(m["name"], ("x", "k"))
-            dv = system.mps(np.linalg.norm(m["dv_vector"]))
-            ax.plot(m["position"][i], m["position"][j], mk, color=col, ms=6, zorder=8,
-                    label=f"{m['name']} {dv:.0f} m/s (CR3BP)")
-        draw_primaries(ax, system, view=view)
-        if view == "xy":
-            draw_lagrange_points(ax, system, view=view)
-        ax.set_aspect("equal", adjustable="datalim")
-        axis_labels(ax, system, view=view)
-        title(ax, f"{view[0]}-{view[1]} view")
-    legend_beside(axes.ravel()[1])
+    fig, axes = new_figure(2, 2, size=(12.0, 11.0))
+    fig.subplots_adjust(hspace=0.38, wspace=0.25)
+    for row, zoom in ((0, False), (1, True)):
+        for col, view in enumerate(("xy", "xz")):
+            ax = axes[row, col]
+            i, j = {"xy": (0, 1), "xz": (0, 2)}[view]
+            box = zoom_box(orb, view) if zoom else None
+            ax.plot(orb[:, i], orb[:, j], color="0.35", lw=1.0, label="target orbit")
+            ax.plot(states[:, i], states[:, j], color="tab:blue", lw=1.2, label=f"{dep.path} transfer")
+            for m in dep.maneuvers:
+                mk, col_ = MARKERS.get(m["name"], ("x", "k"))
+                dv = system.mps(np.linalg.norm(m["dv_vector"]))
+                ax.plot(m["position"][i], m["position"][j], mk, color=col_, ms=7 if zoom else 6, zorder=8,
+                        label=f"{m['name']} {dv:.0f} m/s (CR3BP)")
+            draw_primaries(ax, system, view=view, box=box, min_radius=0.004 if not zoom else 0.0)
+            if view == "xy" and not zoom:
+                draw_lagrange_points(ax, system, view=view)
+            if zoom:
+                ax.set_xlim(box[0], box[1])
+                ax.set_ylim(box[2], box[3])
+                ax.set_aspect("equal", adjustable="box")
+            else:
+                ax.set_aspect("equal", adjustable="datalim")
+            axis_labels(ax, system, view=view)
+            title(ax, f"{view[0]}-{view[1]} view" + (", zoomed on the target orbit" if zoom else ""))
+    legend_beside(axes[0, 1])
     return fig

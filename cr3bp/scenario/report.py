@@ -85,10 +85,10 @@ def _routes_section(routes, figures, views=None, stitched=None, orbits=None) -> 
             html += ("<p>Maneuvers of the stitched trajectory. Design: the CR3BP, fixed units. Exported: the "
                      "velocity jump measured on the exported trajectory in the file named (its anchoring "
                      "rescales speeds, so it can differ from the design).</p>") + R.table(
-                ["time since start [d]", "Δv, design (CR3BP) [m/s]"]
+                ["time since start [d]", "node", "maneuver", "Δv, design (CR3BP) [m/s]"]
                 + [f"Δv, exported ({R.esc(k[len('dv_exported_mps['):-1])}) [m/s]" for k in keys]
                 + ["Δv vector (rotating, CR3BP) [m/s]"],
-                [(R.fmt(m["t_days"]), R.fmt(m["dv_design_mps"]), *(R.fmt(m[k]) for k in keys),
+                [(R.fmt(m["t_days"]), R.esc(m.get("node", "")), R.esc(m.get("name", "")), R.fmt(m["dv_design_mps"]), *(R.fmt(m[k]) for k in keys),
                   R.fmt(m["dv_vector_mps"])) for m in mans], left=0)
             for w in r.get("dv_warnings") or []:
                 html += f"<p><strong>{R.esc(w)}</strong></p>"

@@ -20,7 +20,7 @@ from .search import Constraints, best_routes, node_label, pareto_routes
 #: What the design Δv columns are (the CR3BP, before any export).
 DV_DESIGN_NOTE = "the CR3BP design, rotating frame, fixed units (the route's dv_mps and dv_vector_mps too)"
 #: The columns of a maneuver table before the exported Δv columns.
-MANEUVER_HEADERS = ["t_days", "node", "x_km", "y_km", "z_km", "dv_x_mps", "dv_y_mps", "dv_z_mps", "dv_design_mps"]
+MANEUVER_HEADERS = ["t_days", "node", "maneuver", "x_km", "y_km", "z_km", "dv_x_mps", "dv_y_mps", "dv_z_mps", "dv_design_mps"]
 
 
 @dataclass(frozen=True)
@@ -160,6 +160,6 @@ def maneuver_columns(stitched, exported=()):
                                 f"{m['dv_design_mps']:.1f} m/s, exported in {e['file']} {r['dv_exported_mps']:.1f} m/s "
                                 f"({r['dv_change_percent']:+.1f}%): budget with the model you will fly")
     keys = [k for k in models if k != "dv_design_mps"]
-    rows = [[m["t_days"], m["node"], *m["position_km"], *m["dv_vector_mps"], m["dv_design_mps"], *(m[k] for k in keys)]
+    rows = [[m["t_days"], m["node"], m["name"], *m["position_km"], *m["dv_vector_mps"], m["dv_design_mps"], *(m[k] for k in keys)]
             for m in mans]
     return MANEUVER_HEADERS + keys, rows, mans, models, warnings

@@ -373,12 +373,14 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
                     why = (f"{n.kind} node '{n.name}' is reached from periodic orbits (their unstable "
                            f"manifolds), not from the {a.kind} node '{a.name}'")
             elif isinstance(n, ParkingNode):
-                # a leg from or to a parking orbit has a free phase: the primary-to-orbit legs of
-                # cr3bp.tubes.parking, between a parking orbit and a periodic orbit only
+                # a leg from or to a parking orbit has a free phase: a manifold leg through
+                # periapsis (cr3bp.tubes.parking) or a direct departure (cr3bp.transfers.departure),
+                # between a parking orbit and a periodic orbit only
                 other = b if n is a else a
                 if not isinstance(other, OrbitNode):
-                    why = (f"parking node '{n.name}' joins periodic orbits only (manifold legs through "
-                           f"periapsis), not the {other.kind} node '{other.name}'")
+                    why = (f"parking node '{n.name}' joins periodic orbits only (a manifold leg through "
+                           f"periapsis, or a direct departure from an Earth parking orbit in Earth-Moon), "
+                           f"not the {other.kind} node '{other.name}'")
         sa, sb = states[a.id], states[b.id]
         maneuvers = h.maneuvers if h else "ends"
         if why is None and not isinstance(b, BoundaryNode):   # a boundary has no state: the manifold decides

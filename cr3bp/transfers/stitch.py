@@ -496,7 +496,8 @@ def _result(system, p, z, legs, constraints, optimised, note, iterations):
         before = p.s_start if k == -1 else E[k]
         after = np.concatenate([before[:3], before[3:] + dv])
         trim = (k == -1 and p.trim_start) or (k == p.K - 1 and p.trim_end)
-        man.append({"t_days": t * system.time_days, "node": boundary_node.get(k, "patch point"), "trim": bool(trim),
+        man.append({"t_days": t * system.time_days, "node": boundary_node.get(k, "patch point"),
+                    "name": maneuver_name(k, p.K, k in p.junction), "trim": bool(trim),
                     "position_lu": pos.tolist(), "position_km": (pos * system.length_km).tolist(),
                     "dv_vector_mps": [float(system.mps(v)) for v in dv], "dv_mps": float(system.mps(float(np.linalg.norm(dv)))),
                     "jacobi_before": float(jacobi(system.mu, before)),
@@ -519,3 +520,14 @@ def _result(system, p, z, legs, constraints, optimised, note, iterations):
     return StitchedRoute(system, tuple(names), times, states, seg, tuple(man), dv_total, tof_days,
                          float(sum(leg["dv_mps"] for leg in legs)), float(sum(leg["tof_days"] for leg in legs)),
                          cont, float(alt), checks, optimised, note, iterations)
+
+
+def maneuver_name(k: int, n_segments: int, junction: bool) -> str:
+    """What a burn of a stitched route is, by where it sits: ``departure`` (the route's start),
+    ``insertion`` (its end), ``junction`` (where two legs meet at a node), ``correction`` (a
+    patch point inside a leg)."""
+    if k == -1:
+        return "departure"
+    if k == n_segments - 1:
+        return "insertion"
+    return "junction" if junction else "correction"

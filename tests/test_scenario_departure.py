@@ -1,0 +1,126 @@
+"""A scenario transfer from a low Earth parking orbit to the 9:2 L2 southern NRHO
+(examples/leo-to-nrho.toml) run end to end, against ``librate connect --path direct`` for the
+same ends (the scenario -> design seam) and against scipy's DOP853 on independently written
+equations (tests/_independent_cr3bp.py) re-propagating the exported trajectory (the design ->
+export seam).
+
+Sources: scipy.integrate.solve_ivp, DOP853 (Hairer, Nørsett & Wanner, "Solving Ordinary
+Differential Equations I", 2nd ed., 1993, §II.10); the equations of motion of the CR3BP in the
+rotating frame (Szebehely, "Theory of Orbits", 1967, ch. 1, from memory), written out in
+tests/_independent_cr3bp.py.
+"""
+
+import csv
+import io
+import json
+from datetime import datetime
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+import _independent_cr3bp as ind
+from _orbit_cache import em
+from librate_cli.main import main
+
+pytestmark = pytest.mark.slow
+
+EXAMPLE = Path(__file__).resolve().parents[1] / "examples" / "leo-to-nrho.toml"
+NAME = "leo-to-science"
+#: The scenario's numbers and librate connect's come from the same optimised departure; the
+#: scenario's route is then re-solved by multiple shooting, so they agree to the stitching's
+#: convergence, well inside these bounds (m/s, days: 1e-5 d is about 1 s).
+DV_TOL_MPS = 0.01
+TOF_TOL_DAYS = 1e-5
+#: The exported trajectory re-propagated must reach the orbit within this (km).
+REACH_TOL_KM = 1.0
+
+
+def _rows(path):
+    text = "".join(line for line in path.read_text(encoding="utf-8").splitlines(True) if not line.startswith("#"))
+    return list(csv.DictReader(io.StringIO(text)))
+
+
+@pytest.fixture(scope="module")
+def runs(tmp_path_factory):
+    out = tmp_path_factory.mktemp("leo-nrho")
+    assert main(["run", str(EXAMPLE), f"--out={out}/run", "--workers=1", "--quiet"]) == 0
+    argv = ["connect", "--system=earth-moon", "--from=parking earth 200km", "--to=halo L2 south resonance=9:2",
+            "--path=direct", "--format=json", f"--out={out}/connect.json", "--quiet"]
+    assert main(argv) == 0
+    return out / "run", json.loads((out / "connect.json").read_text())["legs"][0]
+
+
+def test_maneuver_table_names_departure_and_insertion_and_the_model(runs):
+    run, _ = runs
+    route = json.loads((run / f"route-{NAME}.json").read_text())
+    assert "CAUTION" in route["caution"]
+    assert [m["name"] for m in route["maneuvers"]] == ["departure", "insertion"]
+    assert [m["node"] for m in route["maneuvers"]] == ["parking earth 200km", "science"]
+    path = run / f"route-{NAME}-maneuvers.csv"
+    text = path.read_text(encoding="utf-8")
+    rows = _rows(path)
+    assert [r["maneuver"] for r in rows] == ["departure", "insertion"]
+    # every Δv column names its model in the file's header
+    for col in rows[0]:
+        if col.startswith("dv_") and col.endswith(("_mps", "]")) and not col.startswith(("dv_x", "dv_y", "dv_z")):
+            assert f"# {col}: " in text, col
+    assert "CR3BP" in text.split("# dv_design_mps: ", 1)[1].splitlines()[0]
+    exported = _rows(run / f"{NAME}.maneuvers.csv")
+    assert [r["label"] for r in exported] == ["departure at parking earth 200km", "insertion at science"]
+
+
+def test_scenario_equals_connect_direct(runs):
+    run, leg = runs
+    route = json.loads((run / f"route-{NAME}.json").read_text())
+    dep, ins = route["maneuvers"]
+    cdep, cins = leg["maneuvers"]
+    assert (cdep["name"], cins["name"]) == ("departure", "insertion")
+    assert dep["dv_mps"] == pytest.approx(cdep["dv_mps"], abs=DV_TOL_MPS)
+    assert ins["dv_mps"] == pytest.approx(cins["dv_mps"], abs=DV_TOL_MPS)
+    assert route["stitched"]["tof_days"] == pytest.approx(leg["tof_days"], abs=TOF_TOL_DAYS)
+    assert ins["t_days"] == pytest.approx(leg["tof_days"], abs=TOF_TOL_DAYS)
+    assert route["stitched"]["dv_total_mps"] == pytest.approx(leg["dv_mps"], abs=2 * DV_TOL_MPS)
+
+
+def test_exported_trajectory_reaches_the_orbit_scipy(runs):
+    """From the exported first sample (Earth-centred rotating axes, fixed units, as its header
+    says) scipy's DOP853 carries the state to the last sample's epoch; there the exported
+    insertion Δv puts it on the target orbit: it stays on it for a whole period."""
+    from cr3bp.orbits.request import solve_request
+    run, _ = runs
+    s = em()
+    path = run / f"{NAME}.csv"
+    head = path.read_text(encoding="utf-8")
+    assert "CR3BP rotating axes" in head and "centre earth" in head and "fixed length unit" in head
+    rows = _rows(path)
+    vu = s.length_km / s.time_s
+
+    def state(r):
+        x = np.array([float(r[k]) for k in ("x_km", "y_km", "z_km")]) / s.length_km + [-s.mu, 0.0, 0.0]
+        v = np.array([float(r[k]) for k in ("vx_kms", "vy_kms", "vz_kms")]) / vu
+        return np.concatenate([x, v])
+
+    def epoch(r):
+        return datetime.fromisoformat(r[[k for k in r if k.startswith("epoch")][0]])
+
+    t = (epoch(rows[-1]) - epoch(rows[0])).total_seconds() / s.time_s
+    end = ind.propagate(s.mu, state(rows[0]), t)
+    assert np.linalg.norm(end[:3] - state(rows[-1])[:3]) * s.length_km < REACH_TOL_KM
+    ins = _rows(run / f"{NAME}.maneuvers.csv")[-1]
+    after = end.copy()
+    after[3:] += np.array([float(ins[k]) for k in ("dvx_kms", "dvy_kms", "dvz_kms")]) / vu
+    orbit = solve_request(s, "halo L2 south resonance=9:2")
+    # on the orbit: a whole period later it is back where it was inserted
+    back = ind.propagate(s.mu, after, float(orbit.period))
+    assert np.linalg.norm(back[:3] - after[:3]) * s.length_km < REACH_TOL_KM
+    # and it is the orbit asked for (same Jacobi constant)
+    assert _jacobi(s.mu, after) == pytest.approx(float(orbit.jacobi), abs=1e-8)
+
+
+def _jacobi(mu, y):
+    """Jacobi constant C = x^2 + y^2 + 2(1-mu)/r1 + 2 mu/r2 - v^2 (Szebehely 1967, ch. 1, from
+    memory), written here, not taken from cr3bp."""
+    r1 = np.linalg.norm(y[:3] - [-mu, 0.0, 0.0])
+    r2 = np.linalg.norm(y[:3] - [1.0 - mu, 0.0, 0.0])
+    return y[0] ** 2 + y[1] ** 2 + 2 * (1 - mu) / r1 + 2 * mu / r2 - float(np.dot(y[3:], y[3:]))
