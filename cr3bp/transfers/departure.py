@@ -56,6 +56,7 @@ from scipy.optimize import brentq, minimize
 
 from ..errors import ConvergenceError, InputError, NoSolutionError, StateError
 from ..integrate import impact, propagate
+from ..io.plain import plain as _plain
 from .lambert import lambert
 
 PATHS = ("direct",)
@@ -208,18 +209,6 @@ class Departure:
             "position_frame": "Earth-Moon rotating frame, origin at the barycentre",
             "details": _plain(self.details),
         }
-
-
-def _plain(d):
-    if isinstance(d, dict):
-        return {k: _plain(v) for k, v in d.items()}
-    if isinstance(d, (list, tuple)):
-        return [_plain(v) for v in d]
-    if isinstance(d, np.ndarray):
-        return d.tolist()
-    if isinstance(d, np.generic):
-        return d.item()
-    return d
 
 
 def _describe(orbit):

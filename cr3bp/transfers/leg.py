@@ -18,6 +18,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..integrate import propagate
+from ..io.plain import plain as _plain
 from ..tubes.manifolds import ATOL, RTOL
 
 
@@ -194,18 +195,6 @@ class Leg:
                 "maneuvers": mans, "departure_state": start.tolist(), "arrival_state": finish.tolist(),
                 "patch_times": times, "patch_states": states, "final_state": end.tolist(),
                 "min_altitude_km": float(self.min_altitude_km), "details": _json_details(self.details)}
-
-
-def _plain(d):
-    if isinstance(d, dict):
-        return {k: _plain(v) for k, v in d.items()}
-    if isinstance(d, (list, tuple)):
-        return [_plain(v) for v in d]
-    if isinstance(d, np.ndarray):
-        return d.tolist()
-    if isinstance(d, np.generic):
-        return d.item()
-    return d
 
 
 def _mps(system, dv):
