@@ -269,8 +269,8 @@ DYNAMICS_KERNELS = (("cr3bp.dynamics.kernels", "_jacobi_many"), ("cr3bp.dynamics
 
 
 def _prebuilt_current() -> bool:
-    from cr3bp.integrate import prebuilt
-    return prebuilt.kernels() is not None
+    from cr3bp import compiled
+    return compiled.kernels() is not None
 
 
 def _numba_cache_folders(source: Path) -> list:

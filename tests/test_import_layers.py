@@ -31,7 +31,10 @@ def import_graph(root: Path = ROOT, package: str = PACKAGE) -> nx.DiGraph:
     """Module -> imported module, for every ``import`` statement anywhere in each file.
 
     ``from .x import y`` counts as an import of ``x.y`` when ``y`` is itself a module, else of
-    ``x``; ``from . import y`` likewise. Only edges inside ``package`` are kept.
+    ``x``; ``from . import y`` likewise. Importing ``a.b.c`` also runs the ``__init__`` of the
+    packages ``a.b`` and ``a``, so each enclosing package of an imported module is an edge too
+    (except the importer's own enclosing packages, which are already loaded). Only edges inside
+    ``package`` are kept.
     """
     files = sorted((root / package).rglob("*.py"))
     modules = {module_name(p, root) for p in files}
@@ -59,6 +62,11 @@ def import_graph(root: Path = ROOT, package: str = PACKAGE) -> nx.DiGraph:
                 # no edge)
                 if (t == package or t.startswith(package + ".")) and t != here:
                     graph.add_edge(here, t)
+                    parts = t.split(".")
+                    for i in range(2, len(parts)):
+                        parent = ".".join(parts[:i])
+                        if parent != here and not here.startswith(parent + "."):
+                            graph.add_edge(here, parent)
     return graph
 
 
@@ -80,6 +88,22 @@ def test_the_parser_sees_relative_absolute_and_function_level_imports(tmp_path):
     assert g.has_edge("pkg.sub.b", "pkg.c")
     assert g.has_edge("pkg.c", "pkg.a")
     assert cycles(g) == [["pkg.a", "pkg.c", "pkg.sub.b"]]
+
+
+def test_the_parser_sees_the_packages_an_import_loads(tmp_path):
+    # importing pkg.low.k runs pkg/low/__init__.py: if that package's __init__ needs pkg.high,
+    # which needs pkg.low.k, the two rooms need each other although no module names the other
+    pkg = tmp_path / "pkg"
+    for sub in ("low", "high"):
+        (pkg / sub).mkdir(parents=True)
+    (pkg / "__init__.py").write_text("")
+    (pkg / "low" / "__init__.py").write_text("def f():\n    from ..high import h\n")
+    (pkg / "low" / "k.py").write_text("")
+    (pkg / "high" / "__init__.py").write_text("")
+    (pkg / "high" / "h.py").write_text("from ..low import k\n")
+    g = import_graph(tmp_path, "pkg")
+    assert g.has_edge("pkg.high.h", "pkg.low")            # the package pkg.low/__init__ runs too
+    assert ["pkg.high.h", "pkg.low"] in cycles(g)
 
 
 def test_no_import_cycles_in_the_library():

@@ -11,7 +11,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from cr3bp import dynamics, system
+from cr3bp import compiled, dynamics, system
 from cr3bp.dynamics import kernels as jit_kernels
 from cr3bp.integrate import dop853, events, prebuilt
 from cr3bp.integrate.modes import MODE_STATE, MODE_STM
@@ -24,13 +24,13 @@ PERIOD = 1.511256281147235
 
 @pytest.fixture
 def fresh_lookup():
-    prebuilt.reset()
+    compiled.reset()
     yield
-    prebuilt.reset()
+    compiled.reset()
 
 
 def _current():
-    k = prebuilt.kernels()
+    k = compiled.kernels()
     assert k is not None, ("no current prebuilt kernels: run 'make kernels' (and unset "
                            "LIBRATE_KERNELS=jit, which switches them off)")
     return k
@@ -38,7 +38,7 @@ def _current():
 
 def test_the_current_module_is_found_and_used_by_propagate():
     k = _current()
-    assert prebuilt.find().name.startswith(prebuilt.module_name() + ".")
+    assert compiled.find().name.startswith(compiled.module_name() + ".")
     assert integrator() is k.integrate
 
 
@@ -94,8 +94,8 @@ def test_dynamics_functions_agree_between_builds(monkeypatch, fresh_lookup):
     pre = (dynamics.jacobi(EM.mu, states), [dynamics.acceleration(EM.mu, s) for s in states],
            [dynamics.gradient(EM.mu, s[:3]) for s in states], [dynamics.hessian(EM.mu, s[:3]) for s in states])
     assert dynamics._kernels() is k
-    monkeypatch.setenv(prebuilt.ENV, "jit")
-    prebuilt.reset()
+    monkeypatch.setenv(compiled.ENV, "jit")
+    compiled.reset()
     assert dynamics._kernels() is jit_kernels
     jit = (dynamics.jacobi(EM.mu, states), [dynamics.acceleration(EM.mu, s) for s in states],
            [dynamics.gradient(EM.mu, s[:3]) for s in states], [dynamics.hessian(EM.mu, s[:3]) for s in states])
@@ -110,16 +110,16 @@ def test_dynamics_functions_agree_between_builds(monkeypatch, fresh_lookup):
 
 
 def test_switched_off_absent_or_damaged_module_falls_back(monkeypatch, tmp_path, fresh_lookup):
-    monkeypatch.setenv(prebuilt.ENV, "jit")
-    assert prebuilt.kernels() is None and integrator() is dop853.integrate
-    monkeypatch.delenv(prebuilt.ENV)
-    prebuilt.reset()
-    monkeypatch.setattr(prebuilt, "DIRECTORY", tmp_path)
-    assert prebuilt.kernels() is None                       # absent (or stale: another key)
-    prebuilt.reset()
-    (tmp_path / (prebuilt.module_name() + ".cpython-311-x86_64-linux-gnu.so")).write_bytes(b"not a module")
+    monkeypatch.setenv(compiled.ENV, "jit")
+    assert compiled.kernels() is None and integrator() is dop853.integrate
+    monkeypatch.delenv(compiled.ENV)
+    compiled.reset()
+    monkeypatch.setattr(compiled, "DIRECTORY", tmp_path)
+    assert compiled.kernels() is None                       # absent (or stale: another key)
+    compiled.reset()
+    (tmp_path / (compiled.module_name() + ".cpython-311-x86_64-linux-gnu.so")).write_bytes(b"not a module")
     with pytest.warns(RuntimeWarning, match="could not be loaded"):
-        assert prebuilt.kernels() is None
+        assert compiled.kernels() is None
     arc = propagate(EM, HALO, PERIOD)     # still propagates, on numba's kernels
     assert np.abs(arc.state_end - HALO).max() < 1e-9
 
@@ -198,11 +198,11 @@ def test_build_writes_a_loadable_module_and_removes_stale_ones(tmp_path, monkeyp
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         path = prebuilt.build(tmp_path)
-    assert path.parent == tmp_path and path.name.startswith(prebuilt.module_name() + ".")
+    assert path.parent == tmp_path and path.name.startswith(compiled.module_name() + ".")
     assert not stale.exists() and not list(tmp_path.glob(".build-*"))
-    monkeypatch.setattr(prebuilt, "DIRECTORY", tmp_path)
-    prebuilt.reset()
-    k = prebuilt.kernels()
+    monkeypatch.setattr(compiled, "DIRECTORY", tmp_path)
+    compiled.reset()
+    k = compiled.kernels()
     assert k is not None and k.__file__ == str(path)
     args = next(_cases())[1]
     assert np.array_equal(k.integrate(*args)[2], dop853.integrate(*args)[2])
@@ -225,7 +225,7 @@ def test_clearing_the_jit_cache_removes_every_numba_entry_and_nothing_else(tmp_p
 
 
 def test_an_unknown_switch_value_is_named_and_ignored(monkeypatch, fresh_lookup):
-    monkeypatch.setenv(prebuilt.ENV, "fast")
+    monkeypatch.setenv(compiled.ENV, "fast")
     with pytest.warns(RuntimeWarning, match="LIBRATE_KERNELS='fast' is not understood"):
-        k = prebuilt.kernels()
+        k = compiled.kernels()
     assert k is not None and integrator() is k.integrate      # treated as unset

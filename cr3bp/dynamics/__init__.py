@@ -13,8 +13,8 @@ Omega and W = [[0, 1, 0], [-1, 0, 0], [0, 0, 0]] (Koon, Lo, Marsden & Ross, *Dyn
 the Three-Body Problem and Space Mission Design*, 2011, §4.4).
 
 This module imports nothing compiled. The functions below call the ahead-of-time built
-kernels when they are present and current (:mod:`cr3bp.integrate.prebuilt`: the same source,
-built once by ``make``), otherwise numba's just-in-time ones; a single request therefore
+kernels when they are present and current (looked up by :mod:`cr3bp.compiled`; the same
+source, built once by ``make``), otherwise numba's just-in-time ones; a single request therefore
 does not pay numba's start-up. The kernels themselves (``omega``, ``grad_omega``,
 ``hessian_omega``, ``eom``, ``eom_stm``) are reached as ``cr3bp.dynamics.<name>``,
 for use inside other compiled code.
@@ -23,6 +23,8 @@ for use inside other compiled code.
 from __future__ import annotations
 
 import numpy as np
+
+from .. import compiled
 
 #: Kernels of :mod:`cr3bp.dynamics.kernels` reachable as attributes of this module.
 KERNEL_NAMES = ("omega", "grad_omega", "hessian_omega", "eom", "eom_stm", "_jacobi_many")
@@ -39,12 +41,10 @@ def _kernels():
     """The prebuilt kernel module when present and current, else the just-in-time one (both
     export ``eom``, ``grad_omega``, ``hessian_omega`` and ``_jacobi_many``).
 
-    Both imports stay here: the integrator's package sits above the dynamics (it builds these
-    kernels), and the just-in-time kernels load numba, which a prebuilt run never needs."""
-    from ..integrate import prebuilt
-    k = prebuilt.kernels()
+    The just-in-time kernels load numba, which a prebuilt run never needs."""
+    k = compiled.kernels()
     if k is None:
-        from . import kernels as k
+        from . import kernels as k  # lazy: heavy library (numba)
     return k
 
 

@@ -11,7 +11,8 @@ without numba in about a millisecond. :func:`cr3bp.integrate.propagate` and the 
 :mod:`cr3bp.dynamics` use it when it is present and current; :func:`propagate_batch` (which
 runs threads) and the ephemeris model keep the just-in-time kernels.
 
-Current means built from exactly the source files in :data:`SOURCES`, for this Python, this
+Finding the current module is :mod:`cr3bp.compiled`'s job (its names are re-exported
+here). Current means built from exactly the source files in :data:`SOURCES`, for this Python, this
 numpy and this processor (the module is compiled for the host processor, so a copy on a
 machine with another processor is not used). The module's file name carries a key of all of
 these; when the key differs -- an edited kernel, a new numpy -- the module is simply not
@@ -25,125 +26,21 @@ build says so and everything runs on the just-in-time kernels.
 
 from __future__ import annotations
 
-import hashlib
-import importlib.util
 import os
-import platform
 import shutil
 import sys
 import tempfile
 import warnings
 from pathlib import Path
 
-import numpy
-
-#: Files (relative to the ``cr3bp`` package) whose code or constants the built kernels
-#: contain; ``tests/test_prebuilt.py`` checks that nothing the kernels read is missing.
-SOURCES = ("integrate/dop853.py", "integrate/coefficients.py", "integrate/status.py",
-           "integrate/modes.py", "integrate/dispatch.py", "dynamics/kernels.py",
-           "fidelity/forces.py", "bicircular_kernels.py")
-#: Where the module is written (inside the package; ignored by git).
-DIRECTORY = Path(__file__).resolve().parent / "_prebuilt"
-#: Environment variable: ``jit`` turns the prebuilt module off (``auto`` or unset: use it).
-ENV = "LIBRATE_KERNELS"
-
-_F1 = "float64[::1]"
-_F2 = "float64[:, ::1]"
-#: Exported kernels and their only signatures (the types every caller passes).
-SIGNATURES = {
-    "integrate": (
-        f"Tuple((int64, float64, {_F1}, {_F1}, {_F2}, {_F1}, {_F2}, int64[::1], int64, {_F2}, "
-        f"int64, int64, int64, int64))"
-        f"(int64, {_F1}, {_F1}, float64, float64, float64, float64, float64, float64, int64, "
-        f"{_F2}, int64, {_F1}, boolean)"),
-    "eom": f"void(float64, {_F1}, float64, {_F1})",
-    "grad_omega": f"void(float64, float64, float64, float64, {_F1})",
-    "hessian_omega": f"void(float64, float64, float64, float64, {_F2})",
-    "_jacobi_many": f"void(float64, {_F2}, {_F1})",
-}
+from ..compiled import (DIRECTORY, ENV, SIGNATURES, SOURCES, find, kernels, key,  # noqa: F401
+                        module_name, reset)
 
 _PACKAGE = Path(__file__).resolve().parent.parent
-_state = {"done": False, "module": None}
 
 
 class BuildError(RuntimeError):
     """The prebuilt module could not be built (no numba.pycc, no C compiler, ...)."""
-
-
-def _processor() -> str:
-    try:
-        with open("/proc/cpuinfo", encoding="ascii", errors="replace") as f:
-            keep = [ln for ln in f.read(65536).splitlines()
-                    if ln.startswith(("model name", "flags", "vendor_id", "cpu family", "model\t"))]
-        if keep:
-            return "\n".join(sorted(set(keep)))
-    except OSError:
-        pass
-    return f"{platform.machine()} {platform.processor()}"
-
-
-def key(package: Path | None = None) -> str:
-    """The key of the sources, Python, numpy and processor (16 hex digits)."""
-    root = _PACKAGE if package is None else Path(package)
-    h = hashlib.sha256()
-    for rel in SOURCES:
-        h.update(rel.encode())
-        h.update((root / rel).read_bytes())
-    h.update(f"{sys.version}|{numpy.__version__}|{_processor()}|{sorted(SIGNATURES.items())}".encode())
-    return h.hexdigest()[:16]
-
-
-def module_name(package: Path | None = None) -> str:
-    return f"_kernels_{key(package)}"
-
-
-def find(directory: Path | None = None) -> Path | None:
-    """The current prebuilt module's file, or None."""
-    d = DIRECTORY if directory is None else Path(directory)
-    if not d.is_dir():
-        return None
-    name = module_name()
-    for p in d.glob(name + ".*"):
-        if p.suffix in (".so", ".pyd"):
-            return p
-    return None
-
-
-def kernels():
-    """The current prebuilt module (attributes named as in :data:`SIGNATURES`), or None
-    when it is absent, stale, switched off by ``LIBRATE_KERNELS=jit`` or fails to load (a
-    warning then says why). Looked up once per process."""
-    if _state["done"]:
-        return _state["module"]
-    _state["done"] = True
-    choice = os.environ.get(ENV, "").strip().lower()
-    if choice == "jit":
-        return None
-    if choice not in ("", "auto"):
-        warnings.warn(f"{ENV}={os.environ[ENV]!r} is not understood (allowed: jit, auto or unset); "
-                      "using the prebuilt kernels when current", RuntimeWarning, stacklevel=2)
-    path = find()
-    if path is None:
-        return None
-    try:
-        spec = importlib.util.spec_from_file_location(path.name.split(".")[0], path)
-        mod = importlib.util.module_from_spec(spec)
-        spec.loader.exec_module(mod)
-        missing = [n for n in SIGNATURES if not hasattr(mod, n)]
-        if missing:
-            raise ImportError(f"it lacks {', '.join(missing)}")
-    except Exception as e:  # a damaged file: the just-in-time kernels give the same numbers
-        warnings.warn(f"the prebuilt kernels {path} could not be loaded ({e}); using numba's "
-                      "just-in-time kernels (rebuild: python -m cr3bp.integrate build)",
-                      RuntimeWarning, stacklevel=2)
-        return None
-    _state["module"] = mod
-    return mod
-
-
-def reset():
-    """Forget the lookup (tests, and after a build in the same process)."""
-    _state.update(done=False, module=None)
 
 
 def build(directory: Path | None = None, progress=None) -> Path:

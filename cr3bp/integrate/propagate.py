@@ -5,7 +5,7 @@ returns an :class:`~cr3bp.integrate.arc.Arc`; :func:`propagate_batch` integrates
 in parallel inside compiled code and returns a :class:`BatchResult`. Both validate their
 input with :mod:`cr3bp.validate` and raise only the typed errors of :mod:`cr3bp.errors`.
 The kernels are in :mod:`.dop853`; :func:`propagate` runs the ahead-of-time build of them
-when it is current (:mod:`.prebuilt`: no numba start-up), else numba's just-in-time one.
+when it is current (:mod:`cr3bp.compiled` finds the module :mod:`.prebuilt` builds: no numba start-up), else numba's just-in-time one.
 :func:`~cr3bp.integrate.reference.propagate_scipy` is the same interface on scipy for
 cross-checks.
 
@@ -23,7 +23,7 @@ import numpy as np
 
 from .. import validate
 from ..errors import ConvergenceError, InputError
-from . import prebuilt
+from .. import compiled
 from .arc import Arc, EventHit
 from .events import ESCAPE, IMPACT, table
 from .modes import MODE_STATE, MODE_STM, MODEL_MODES
@@ -83,7 +83,7 @@ class BatchResult:
 def integrator():
     """The integration kernel :func:`propagate` calls: the prebuilt one when it is current,
     else :func:`cr3bp.integrate.dop853.integrate` (same source, same arguments and results)."""
-    k = prebuilt.kernels()
+    k = compiled.kernels()
     if k is not None:
         return k.integrate
     from . import dop853
