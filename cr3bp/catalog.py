@@ -57,6 +57,19 @@ CREATE TABLE IF NOT EXISTS legs (
 );
 """
 
+#: The files of drawn figures by content key (:func:`cr3bp.plotting.fingerprint.fingerprint`)
+#: and format; made when first written, so catalogues of the same schema version made before
+#: it stay readable. Only the :data:`FIGURES_KEPT` most recently used are kept.
+_FIGURES = """
+CREATE TABLE IF NOT EXISTS figures (
+    key TEXT NOT NULL,
+    format TEXT NOT NULL,
+    data BLOB NOT NULL,
+    used REAL NOT NULL,
+    PRIMARY KEY (key, format)
+)"""
+FIGURES_KEPT = 400
+
 
 def default_path() -> Path:
     """The default catalogue file.
@@ -417,6 +430,34 @@ class Catalog:
     @_guarded
     def count_legs(self) -> int:
         return int(self._db.execute("SELECT COUNT(*) FROM legs").fetchone()[0])
+
+    # ---- figures (the files of a figure, reused by a rerun that would draw it again) ------
+    @_guarded
+    def get_figure(self, key: str, fmt: str) -> bytes | None:
+        """The stored file of figure ``key`` in format ``fmt`` (``png``, ``svg``, ``pdf``), or
+        None. A catalogue that never stored a figure has no table yet: None."""
+        names = {r[0] for r in self._db.execute("SELECT name FROM sqlite_master WHERE type='table'")}
+        if "figures" not in names:
+            return None
+        row = self._db.execute("SELECT data FROM figures WHERE key=? AND format=?", (key, fmt)).fetchone()
+        if row is None:
+            return None
+        if not self.read_only:
+            with self._tx():
+                self._db.execute("UPDATE figures SET used=? WHERE key=? AND format=?",
+                                 (time.time(), key, fmt))
+        return bytes(row[0])
+
+    @_guarded
+    def put_figure(self, key: str, fmt: str, data: bytes) -> None:
+        """Store the file of figure ``key`` in format ``fmt``; keeps the
+        :data:`FIGURES_KEPT` most recently used files."""
+        with self._tx():
+            self._db.execute(_FIGURES)
+            self._db.execute("INSERT OR REPLACE INTO figures (key, format, data, used) VALUES (?,?,?,?)",
+                             (key, fmt, sqlite3.Binary(data), time.time()))
+            self._db.execute("DELETE FROM figures WHERE rowid NOT IN (SELECT rowid FROM figures "
+                             "ORDER BY used DESC LIMIT ?)", (FIGURES_KEPT,))
 
     # ---- internals ---------------------------------------------------------------------
     def _tx(self):

@@ -8,6 +8,8 @@ import json
 
 import numpy as np
 
+from ..errors import LibrateError
+
 
 def json_text(obj) -> str:
     """``obj`` as indented, key-sorted JSON text (numpy values made plain)."""
@@ -38,15 +40,41 @@ def say(progress, text):
 
 
 def save_figures(fig, out, stem, formats, caption):
-    """Save ``fig`` in every format (SVG without a date, for reproducible files); the PNG path."""
-    import matplotlib.pyplot as plt
-    from ..io.atomic import save_figure
+    """Save ``fig`` in every format (SVG without a date, for reproducible files); the PNG path.
+
+    When ``out.figures`` is a catalogue, a figure whose content key
+    (:func:`cr3bp.plotting.fingerprint.fingerprint`: its artists, the caption, the formats,
+    the code and matplotlib's settings) is stored there is not drawn: its stored files, the
+    bytes an earlier drawing gave, are written instead. A figure drawn is stored."""
+    import matplotlib.pyplot as plt  # lazy: heavy library
+    from ..io.atomic import save_figure, write_bytes
     from ..plotting.base import caption as add_caption
+    from ..plotting.fingerprint import fingerprint
+    store = getattr(out, "figures", None)
+    key = fingerprint(fig, caption, tuple(formats), FIGURE_DPI) if store is not None else None
+    if key is not None:
+        stored = [store.get_figure(key, f) for f in formats]
+        if all(b is not None for b in stored):
+            plt.close(fig)
+            paths = [out.path(f"{stem}.{f}") for f in formats]
+            for p, data in zip(paths, stored):
+                write_bytes(p, data)
+            return {"path": paths[0] if paths else None, "caption": caption, "reused": True}
     add_caption(fig, caption)
-    first = None
+    paths = []
     for f in formats:
         p = out.path(f"{stem}.{f}")
-        save_figure(fig, p, dpi=130, metadata={"Date": None} if f == "svg" else None)
-        first = first or p
+        save_figure(fig, p, dpi=FIGURE_DPI, metadata={"Date": None} if f == "svg" else None)
+        paths.append(p)
     plt.close(fig)
-    return {"path": first, "caption": caption}
+    if key is not None:
+        try:
+            for f, p in zip(formats, paths):
+                store.put_figure(key, f, p.read_bytes())
+        except LibrateError:
+            pass            # a read-only or full catalogue: the figure is drawn next time too
+    return {"path": paths[0] if paths else None, "caption": caption, "reused": False}
+
+
+#: Resolution of the scenario's raster figures (dots per inch).
+FIGURE_DPI = 130

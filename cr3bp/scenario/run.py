@@ -56,8 +56,11 @@ class Plan:
 
 @dataclass
 class Outputs:
+    """The files a run writes (in order), in its staging folder; ``figures``: the catalogue
+    that keeps drawn figures for reuse (None: draw every figure)."""
     folder: Path
     files: list = field(default_factory=list)
+    figures: object = None
 
     def path(self, name: str) -> Path:
         p = self.folder / name
@@ -479,7 +482,7 @@ def run(plan: Plan, folder, *, catalog=None, workers=None, scheduler=None, progr
         _remove_created(missing)
         raise _output_error(e, folder) from None
     try:
-        out = Outputs(stage)
+        out = Outputs(stage, figures=None if catalog.read_only else catalog)
         result = _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduced, started)
         for name in sorted(os.listdir(stage)):
             os.replace(stage / name, folder / name)
