@@ -7,20 +7,21 @@ from __future__ import annotations
 import json
 
 import numpy as np
+import csv
+import io
+from ..cautions import caution_lines
+from ..io.atomic import save_figure
+from ..io.plain import json_default
 
 
 def json_text(obj) -> str:
     """``obj`` as indented, key-sorted JSON text (numpy values made plain)."""
-    from ..io.plain import json_default
     return json.dumps(obj, indent=2, sort_keys=True, default=json_default) + "\n"
 
 
 def csv_text(headers, rows, comments=()) -> str:
     """CSV text: ``comments`` and the caution as ``#`` lines, the header row, then ``rows``
     (floats written with ``repr``, so they read back exactly)."""
-    import csv
-    import io
-    from ..cautions import caution_lines
     buf = io.StringIO()
     for c in list(comments) + caution_lines():
         buf.write(f"# {c}\n")
@@ -39,9 +40,8 @@ def say(progress, text):
 
 def save_figures(fig, out, stem, formats, caption):
     """Save ``fig`` in every format (SVG without a date, for reproducible files); the PNG path."""
-    import matplotlib.pyplot as plt
-    from ..io.atomic import save_figure
-    from ..plotting.base import caption as add_caption
+    import matplotlib.pyplot as plt  # lazy: heavy library (matplotlib)
+    from ..plotting.base import caption as add_caption  # lazy: heavy library (matplotlib, via cr3bp.plotting.base)
     add_caption(fig, caption)
     first = None
     for f in formats:
