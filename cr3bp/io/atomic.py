@@ -70,7 +70,7 @@ def save_figure(fig, path, **kwargs) -> None:
     """Save a matplotlib figure atomically (format from the suffix of ``path``), byte-identical
     from run to run: no date in the metadata, and SVG element ids (clip paths) derived from a
     fixed salt (matplotlib's ``svg.hashsalt``) instead of random ones."""
-    import matplotlib
+    import matplotlib  # lazy: heavy library (matplotlib)
     path = Path(path)
     fmt = path.suffix.lstrip(".").lower() or "png"
     meta = dict(_VOLATILE_METADATA.get(fmt, {}))

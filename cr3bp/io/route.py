@@ -5,11 +5,12 @@ OEM, CSV and JSON writers take."""
 from __future__ import annotations
 
 import numpy as np
+from . import export
+from ..dynamics import jacobi
 
 
 def trajectory_rows(result):
     """CSV rows of the stitched trajectory: time (TU and d), segment, state (LU, LU/TU), km, Jacobi."""
-    from ..dynamics import jacobi
     s = result.system
     C = jacobi(s.mu, result.states)
     rows = []
@@ -25,7 +26,6 @@ def to_export(result, frame_spec, object_name="LIBRATE ROUTE"):
     """The stitched route as a :class:`cr3bp.io.export.Trajectory` (maneuver-free segments
     joined at the maneuvers, impulses in the rotating frame nondimensional), ready for
     ``export.write_oem`` / ``write_csv`` / ``write_json``."""
-    from . import export
     s = result.system
     man_t = [m["t_days"] / s.time_days for m in result.maneuvers]
     inner = man_t[1:-1] if len(man_t) >= 2 else []

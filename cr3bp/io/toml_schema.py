@@ -18,6 +18,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from ..errors import InputError, shown
+from .. import units
 
 __all__ = ["Problem", "ScenarioError", "check_document", "line_index", "line_of", "key_parts", "path_text",
            "read_text", "parse_toml", "MAX_FILE_BYTES", "MAX_TEXT_CHARS",
@@ -238,7 +239,6 @@ def check_document(data: dict, lines: dict, file: str, schema: dict, text: str |
             if not isinstance(v, bool):
                 bad(full, v, "true or false")
         elif typ == Q:
-            from .. import units
             if not isinstance(v, str):
                 return bad(full, v, "text with a unit, e.g. '200km'")
             if not plain_text(v, full):
