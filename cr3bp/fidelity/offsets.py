@@ -81,7 +81,7 @@ def path_and_timing_offsets(t_s, pos_km, ref_t_s, ref_pos_km, ref_vel_kms, windo
     (path_km (N,), timing_s (N,))   distance to the nearest point of the reference path, and
                                     the sample's epoch minus that point's epoch
     """
-    from scipy.spatial import cKDTree
+    from scipy.spatial import cKDTree  # lazy: heavy library (scipy)
     t = np.asarray(t_s, dtype=float)
     q = np.asarray(pos_km, dtype=float)
     rt = np.asarray(ref_t_s, dtype=float)

@@ -40,6 +40,13 @@ from ..errors import ConvergenceError, InputError
 from . import model as _model
 from .newton import solve as _solve
 from .transition import TOLERANCE, _central_default, _cr3bp_to_inertial
+import csv
+import json
+from pathlib import Path
+from scipy.optimize import minimize
+from ..cautions import CAUTION
+from ..time import frames
+from .offsets import path_and_timing_offsets
 
 #: One more patch segment per this many days of flight on an arc.
 PATCH_DAYS = 1.0
@@ -100,7 +107,6 @@ class RouteTransition:
     options: dict = field(default_factory=dict)
 
     def to_dict(self) -> dict:
-        from ..cautions import CAUTION
         return {
             "model": self.model.to_dict(), "epoch_tdb_s": self.epoch_tdb_s,
             "arcs": [dict(a) for a in self.arcs], "maneuvers": [dict(m) for m in self.maneuvers],
@@ -304,7 +310,6 @@ def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", 
     InputError        bad route, maneuvers not on the route, bad model options.
     ConvergenceError  step 1 or the final polish does not reach ``tol``.
     """
-    from ..time import frames
     system.require_dimensional("an ephemeris model")
     t, s, man = _check_route(system, times_tu, states, maneuvers)
     if not (math.isfinite(float(patch_days)) and float(patch_days) > 0):
@@ -390,7 +395,6 @@ def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", 
     z, optimised, note, iters = z1, False, "", {"newton": it1}
     hist = list(hist1)
     if optimise and (start_pre is not None or end_post is not None or p.jump.size):
-        from scipy.optimize import minimize
         cost1 = p.cost(z1)
         cons = {"type": "eq", "fun": lambda v: p.constraints(v)[0], "jac": lambda v: p.constraints(v)[1]}
         bounds = [(None, None)] * (6 * p.P)
@@ -439,7 +443,6 @@ def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", 
             samp[sel] = arc.states
     samp_km = samp * scale
     ref_km = _cr3bp_to_inertial(system, spec, st_cr3bp, s[samp_idx], central)
-    from .offsets import path_and_timing_offsets
     for row in arc_rows:
         m = samp_arc == row["arc"] - 1
         path, timing = path_and_timing_offsets(st[m] * system.time_s, samp_km[m, :3], st_cr3bp[m] * system.time_s,
@@ -481,9 +484,6 @@ def read_route(path, system=None):
     ``route.json`` (key ``stitched``); with ``system``, the route's system (key ``system``:
     ``name``, ``mu``) must be the same.
     """
-    import csv
-    import json
-    from pathlib import Path
     p = Path(path)
     d = p if p.is_dir() else p.parent
     tj, rj = d / "trajectory.csv", d / "route.json"

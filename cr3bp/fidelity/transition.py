@@ -25,6 +25,11 @@ import numpy as np
 from ..errors import InputError
 from . import model as _model
 from . import newton as _newton
+from ..cautions import CAUTION
+from ..integrate.propagate import propagate as cr3bp_propagate
+from ..time import ephemeris, frames
+from ..time.frames import _BODY
+from .offsets import path_and_timing_offsets
 
 #: Continuity tolerance (nondimensional, max component): 1e-9 LU and 1e-9 VU (Earth-Moon:
 #: 0.4 m and 1 mm/s).
@@ -74,7 +79,6 @@ class Transition:
     options: dict = field(default_factory=dict)
 
     def to_dict(self) -> dict:
-        from ..cautions import CAUTION
         return {
             "model": self.model.to_dict(), "epoch_tdb_s": self.epoch_tdb_s, "revs": self.revs,
             "per_revolution": [dict(r) for r in self.per_rev],
@@ -88,7 +92,6 @@ class Transition:
 
 def _central_default(system) -> str:
     """The secondary's body (its system's main body; the Earth for the Earth-Moon barycentre)."""
-    from ..time.frames import _BODY
     name = system.secondary.name if system.secondary is not None else ""
     body = _BODY.get(name, name)
     return "earth" if body == "emb" else body
@@ -96,7 +99,6 @@ def _central_default(system) -> str:
 
 def _cr3bp_to_inertial(system, spec, t_tu, states, central):
     """Rotating nondimensional states -> km, km/s about ``central`` (EME2000)."""
-    from ..time import ephemeris, frames
     tdb, km = frames.to_frame(spec, t_tu, states)
     sec = frames._BODY.get(system.secondary.name, system.secondary.name)
     if sec != central:
@@ -176,8 +178,6 @@ def transition(orbit, epoch, revs: int, bodies=("sun", "earth", "moon"), *, cent
     fix_first : bool              hold the first patch state
     free_times : bool             let the interior patch times move
     """
-    from ..time import frames
-    from ..integrate.propagate import propagate as cr3bp_propagate
     system = orbit.system
     try:
         revs = int(revs)
@@ -233,7 +233,6 @@ def transition(orbit, epoch, revs: int, bodies=("sun", "earth", "moon"), *, cent
     ends, _ = _model.propagate_many(mdl, X[:-1], tt[:-1], tt[1:])
     gap = ends - X[1:]
     rows = []
-    from .offsets import path_and_timing_offsets
     # the design's path: distance to its nearest point, and how far ahead or behind (timing)
     t_s = samp_t * system.time_s
     path, timing = path_and_timing_offsets(t_s, samp_km[:, :3], t_s, ref_km[:, :3], ref_km[:, 3:],
