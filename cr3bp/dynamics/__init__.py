@@ -23,6 +23,7 @@ for use inside other compiled code.
 from __future__ import annotations
 
 import numpy as np
+from ..integrate import prebuilt
 
 #: Kernels of :mod:`cr3bp.dynamics.kernels` reachable as attributes of this module.
 KERNEL_NAMES = ("omega", "grad_omega", "hessian_omega", "eom", "eom_stm", "_jacobi_many")
@@ -30,7 +31,7 @@ KERNEL_NAMES = ("omega", "grad_omega", "hessian_omega", "eom", "eom_stm", "_jaco
 
 def __getattr__(name):
     if name in KERNEL_NAMES:
-        from . import kernels
+        from . import kernels  # lazy: heavy library (numba, via cr3bp.dynamics.kernels)
         return getattr(kernels, name)
     raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
@@ -41,10 +42,9 @@ def _kernels():
 
     Both imports stay here: the integrator's package sits above the dynamics (it builds these
     kernels), and the just-in-time kernels load numba, which a prebuilt run never needs."""
-    from ..integrate import prebuilt
     k = prebuilt.kernels()
     if k is None:
-        from . import kernels as k
+        from . import kernels as k  # lazy: heavy library (numba, via cr3bp.dynamics.kernels)
     return k
 
 
