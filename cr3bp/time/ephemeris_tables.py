@@ -330,8 +330,36 @@ def read_kernel(path: str) -> Kernel:
 
 
 def seconds_parts(jd1, jd2):
-    """TDB Julian date in two parts -> (whole, fraction) seconds past J2000 (``whole`` exact
-    when jd1 is a whole or half day, as :class:`cr3bp.time.scales.Epoch` gives it)."""
+    """TDB Julian date in two parts -> (whole, fraction) seconds past J2000.
+
+    ``whole`` is exact when jd1 is a whole or half day, as :class:`cr3bp.time.scales.Epoch`
+    gives it.
+
+    Parameters
+    ----------
+    jd1, jd2 : float or array_like
+        The two parts of the TDB Julian date.
+
+    Returns
+    -------
+    whole, frac : numpy.ndarray
+        Seconds past J2000 (the epoch argument of the tables).
+
+    Raises
+    ------
+    ValueError
+        Inputs that cannot be converted to floats.
+
+    Examples
+    --------
+    >>> [float(x) for x in seconds_parts(2451545.5, 0.25)]
+    [43200.0, 21600.0]
+
+    References
+    ----------
+    Folkner, W. M., Williams, J. G. & Boggs, D. H., "The Planetary and Lunar Ephemeris DE 421",
+    JPL IPN Progress Report 42-178 (2009) (TDB seconds past J2000, the tables' argument).
+    """
     return (np.asarray(jd1, float) - J2000_JD) * SECONDS_PER_DAY, np.asarray(jd2, float) * SECONDS_PER_DAY
 
 
