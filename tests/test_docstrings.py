@@ -96,13 +96,6 @@ NOT_YET: dict[str, set[str]] = {
     "cr3bp.io.toml_schema": {
         "Problem", "ScenarioError", "check_document", "key_parts", "line_index", "line_of",
         "parse_toml", "path_text", "read_text"},
-    "cr3bp.fidelity.chebyshev": {"ChebyshevFit", "fit"},
-    "cr3bp.fidelity.model": {
-        "EphemerisArc", "Model", "build", "gm_km3_s2", "parse_bodies", "propagate", "propagate_many"},
-    "cr3bp.fidelity.newton": {"history_text", "solve"},
-    "cr3bp.fidelity.offsets": {"path_and_timing_offsets"},
-    "cr3bp.fidelity.route": {"RouteTransition", "read_route", "transition_route"},
-    "cr3bp.fidelity.transition": {"Transition", "correct", "transition"},
 }
 
 SECTION = re.compile(r"^[ \t]*([A-Z][A-Za-z ]+)[ \t]*\n[ \t]*-{3,}[ \t]*$", re.MULTILINE)

@@ -59,7 +59,7 @@ _TIME_EPS = 1e-9
 class RouteTransition:
     """A stitched route carried into the ephemeris model.
 
-    Attributes
+    Parameters
     ----------
     t_tu : ndarray (P,)            patch times, TU from the epoch (a maneuver time twice)
     patches : ndarray (P, 6)       converged patch states, nondimensional inertial
@@ -81,6 +81,16 @@ class RouteTransition:
     sample_t_tu, sample_km, reference_km, sample_arc : dense samples of the ephemeris
                                    trajectory and of the CR3BP route at the same epochs
     iterations : dict; residuals : tuple; optimised : bool; note : str
+
+    Examples
+    --------
+    >>> rt = transition_route(em, t, x, maneuvers, "2031-03-01T00:00:00 TDB")   # doctest: +SKIP
+
+    References
+    ----------
+    Pavlak, T. A. & Howell, K. C., "Evolution of the out-of-plane amplitude for quasi-periodic
+    trajectories in the Earth-Moon system", Acta Astronautica 81, 456 (2012) (multiple shooting
+    into an ephemeris model, from memory).
     """
 
     model: object
@@ -309,6 +319,22 @@ def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", 
     ------
     InputError        bad route, maneuvers not on the route, bad model options.
     ConvergenceError  step 1 or the final polish does not reach ``tol``.
+
+    Returns
+    -------
+    RouteTransition
+        The converged route and its gap to the CR3BP design.
+
+    Examples
+    --------
+    >>> t, x, man = read_route("out/route")                                       # doctest: +SKIP
+    >>> rt = transition_route(em, t, x, man, "2031-03-01T00:00:00 TDB")          # doctest: +SKIP
+
+    References
+    ----------
+    Pavlak, T. A. & Howell, K. C., Acta Astronautica 81, 456 (2012) (multiple shooting into an
+    ephemeris model, from memory); Kraft, D., "A software package for sequential quadratic
+    programming", DFVLR-FB 88-28 (1988) (SLSQP).
     """
     system.require_dimensional("an ephemeris model")
     t, s, man = _check_route(system, times_tu, states, maneuvers)
@@ -483,6 +509,40 @@ def read_route(path, system=None):
     Reads ``trajectory.csv`` (columns ``t_tu``, ``x_lu`` ... ``vz_vu``) and the maneuvers of
     ``route.json`` (key ``stitched``); with ``system``, the route's system (key ``system``:
     ``name``, ``mu``) must be the same.
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The folder, or a file in it.
+    system : System, optional
+        The system the route must belong to.
+
+    Returns
+    -------
+    times_tu : numpy.ndarray
+        Rotating times, TU.
+    states : numpy.ndarray, shape (N, 6)
+        Rotating states.
+    maneuvers : list of dict
+        The stitched route's maneuvers.
+
+    Raises
+    ------
+    InputError
+        Missing or malformed files, or a route of another system.
+
+    Examples
+    --------
+    >>> t, x, man = read_route("out/route")          # doctest: +SKIP
+    >>> read_route("no-such-folder")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: --route 'no-such-folder': no trajectory.csv in . (write one with librate route --out DIR)
+
+    References
+    ----------
+    RFC 4180, "Common Format and MIME Type for Comma-Separated Values (CSV) Files" (2005);
+    RFC 8259, "The JavaScript Object Notation (JSON) Data Interchange Format" (2017).
     """
     p = Path(path)
     d = p if p.is_dir() else p.parent

@@ -40,7 +40,7 @@ TOLERANCE = 1e-9
 class Transition:
     """A converged ephemeris trajectory and its gap to the CR3BP design.
 
-    Attributes
+    Parameters
     ----------
     t_tu : ndarray (M+1,)          patch times, TU from the epoch
     patches : ndarray (M+1, 6)     converged patch states, nondimensional inertial (LU, VU)
@@ -58,6 +58,16 @@ class Transition:
     dv_total_mps : float           maneuvers needed (0: continuous)
     iterations : int; residuals : tuple (max-norm of the mismatch, nondimensional)
     continuity_km, continuity_mps : final largest mismatch at a patch point
+
+    Examples
+    --------
+    >>> tr = transition(nrho, "2031-03-01T00:00:00 TDB", revs=3)       # doctest: +SKIP
+
+    References
+    ----------
+    Pavlak, T. A. & Howell, K. C., Acta Astronautica 81, 456 (2012) (from memory); Gómez, G.,
+    Llibre, J., Martínez, R. & Simó, C., "Dynamics and Mission Design Near Libration Points",
+    World Scientific (2001).
     """
 
     model: object
@@ -122,6 +132,35 @@ def correct(model, X0, t, *, fix_first=False, free_times=False, tol=TOLERANCE, m
     Raises
     ------
     ConvergenceError  no convergence within ``max_iter`` or the step halving fails.
+
+    Parameters
+    ----------
+    model : Model
+        The ephemeris model.
+    X0 : numpy.ndarray, shape (M+1, 6)
+        First-guess patch states, nondimensional inertial.
+    t : numpy.ndarray, shape (M+1,)
+        Patch times, TU from the epoch.
+    fix_first : bool, optional
+        Hold the first patch state.
+    free_times : bool, optional
+        Let the interior patch times move.
+    tol : float, optional
+        Largest accepted mismatch (nondimensional).
+    max_iter : int, optional
+        Newton iterations.
+    progress : callable(iteration, mismatch), optional
+        Called each iteration.
+
+    Examples
+    --------
+    >>> X, t, it, hist = correct(model, X0, t0)      # doctest: +SKIP
+
+    References
+    ----------
+    Pavlak, T. A. & Howell, K. C., Acta Astronautica 81, 456 (2012) (multiple shooting, from
+    memory); Dennis & Schnabel, "Numerical Methods for Unconstrained Optimization and Nonlinear
+    Equations", SIAM (1996), ch. 6.
     """
     X0 = np.array(X0, dtype=float)
     t0 = np.array(t, dtype=float)
@@ -177,6 +216,39 @@ def transition(orbit, epoch, revs: int, bodies=("sun", "earth", "moon"), *, cent
     per_rev : int                 patch points per revolution (>= 2)
     fix_first : bool              hold the first patch state
     free_times : bool             let the interior patch times move
+    tol, max_iter : float, int
+        Newton tolerance (nondimensional mismatch) and iterations.
+    samples_per_rev : int
+        Dense samples per revolution of the result.
+    progress : callable(iteration, mismatch), optional
+        Called each iteration.
+
+    Returns
+    -------
+    Transition
+        The converged trajectory and its gap to the CR3BP design.
+
+    Raises
+    ------
+    InputError
+        Bad options, a system without an ephemeris pair, epochs outside the ephemeris.
+    ConvergenceError
+        The multiple shooting does not converge.
+
+    Examples
+    --------
+    >>> from cr3bp import orbit, system
+    >>> nrho = orbit(system("earth-moon"), "halo L2 south resonance=9:2")   # doctest: +SKIP
+    >>> tr = transition(nrho, "2031-03-01T00:00:00 TDB", revs=3)            # doctest: +SKIP
+    >>> tr.dv_total_mps                                                     # doctest: +SKIP
+    0.0
+
+    References
+    ----------
+    Pavlak, T. A. & Howell, K. C., "Evolution of the out-of-plane amplitude for quasi-periodic
+    trajectories in the Earth-Moon system", Acta Astronautica 81, 456 (2012) (multiple shooting
+    into an ephemeris model, from memory); Gómez, G., Llibre, J., Martínez, R. & Simó, C.,
+    "Dynamics and Mission Design Near Libration Points", World Scientific (2001).
     """
     system = orbit.system
     try:
