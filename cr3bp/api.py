@@ -26,6 +26,11 @@ import math
 
 from .errors import InputError
 from .vocabulary import TUBE_BRANCHES
+from dataclasses import replace
+from pathlib import Path
+from . import units
+from .systems import System, system as _system
+from .units import length
 
 __all__ = ["system", "points", "orbit", "family", "manifold", "section", "connect", "route",
            "export", "run", "torus", "shadow", "keep"]
@@ -41,7 +46,6 @@ def _system_of(obj):
 
 
 def _as_system(value):
-    from .systems import System
     if isinstance(value, System):
         return value
     if isinstance(value, str):
@@ -50,7 +54,7 @@ def _as_system(value):
 
 
 def _whole(name, value, lo, hi):
-    from .validate import whole_number
+    from .validate import whole_number  # lazy: start-up: keeps cr3bp.api free of numpy
     return whole_number(name, value, lo, hi)
 
 
@@ -101,7 +105,6 @@ def system(name=None, *, mu=None, length_km=None, time_s=None):
     Szebehely, *Theory of Orbits*, 1967 (the nondimensional units; conventions in
     :mod:`cr3bp.systems`).
     """
-    from .systems import system as _system
     if name is not None and mu is not None:
         raise InputError("give a system name or mu, not both")
     if name is None and mu is None:
@@ -142,21 +145,20 @@ def points(system):
     6, 1875 (the triangular points' stability); Richardson, *Celestial Mechanics* 22, 1980,
     §2 (the collinear points' linear modes). See :mod:`cr3bp.equilibria`.
     """
-    from .equilibria import lagrange_points
+    from .equilibria import lagrange_points  # lazy: start-up: keeps cr3bp.api free of numpy
     return lagrange_points(_as_system(system))
 
 
 # ---- periodic orbits -------------------------------------------------------------------
 
 def _spec(request, family, point, branch, ratio, occurrence, target):
-    from .orbits.request import parse_request, spec_from_options
+    from .orbits.request import parse_request, spec_from_options  # lazy: start-up: keeps cr3bp.api free of numpy
     if request is not None:
         if family is not None or point is not None or branch is not None or ratio is not None or target:
             raise InputError("give the orbit as request text or as keywords (family=..., one target), not both")
         spec = parse_request(request)
         if occurrence is not None:
-            from .orbits.request import parse_occurrence
-            from dataclasses import replace
+            from .orbits.request import parse_occurrence  # lazy: start-up: keeps cr3bp.api free of numpy
             spec = replace(spec, occurrence=parse_occurrence(occurrence))
         return spec
     if family is None:
@@ -237,9 +239,9 @@ def orbit(system, request=None, *, family=None, point=None, branch=None, ratio=N
             raise InputError("a given orbit needs both state=[x, y, z, vx, vy, vz] and period=")
         if request is not None or family is not None or target:
             raise InputError("give a request or state= with period=, not both")
-        import numpy as np
-        from .tubes.manifolds import orbit_from_state
-        from .validate import quantity
+        import numpy as np  # lazy: start-up: keeps cr3bp.api free of numpy
+        from .tubes.manifolds import orbit_from_state  # lazy: start-up: keeps cr3bp.api free of numpy
+        from .validate import quantity  # lazy: start-up: keeps cr3bp.api free of numpy
         try:
             s = np.asarray(state, dtype=float).reshape(-1)
         except (TypeError, ValueError):
@@ -248,8 +250,8 @@ def orbit(system, request=None, *, family=None, point=None, branch=None, ratio=N
             raise InputError(f"state {state!r} must be six finite numbers x, y, z, vx, vy, vz")
         T = quantity("period", _text(period), "time", system, sign="positive", default_unit="TU")
         return orbit_from_state(system, s, T)
-    from .orbits.request import solve_request
-    from .orbits.targets import make_target
+    from .orbits.request import solve_request  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .orbits.targets import make_target  # lazy: start-up: keeps cr3bp.api free of numpy
     spec = _spec(request, family, point, branch, ratio, occurrence, target)
     if not spec.key:
         raise InputError("the orbit has no target; give one of period=, jacobi=, ax=, ay=, az=, x=, "
@@ -311,8 +313,8 @@ def family(system, name, *, point=None, branch=None, ratio=None, members=200, un
     Doedel et al., *Int. J. Bifurcation and Chaos* 17, 2007 (pseudo-arclength continuation and
     bifurcations of families in the restricted problem).
     """
-    from .orbits import continuation, families, targets
-    from .orbits.request import spec_from_options
+    from .orbits import continuation, families, targets  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .orbits.request import spec_from_options  # lazy: start-up: keeps cr3bp.api free of numpy
     system = _as_system(system)
     spec = spec_from_options(name, point, branch, ratio)
     if isinstance(members, bool) or not isinstance(members, int) or not 2 <= members <= 5000:
@@ -337,7 +339,7 @@ def family(system, name, *, point=None, branch=None, ratio=None, members=200, un
     alt = None
     if altitude is not None:
         system.require_dimensional("altitude")
-        from .validate import quantity
+        from .validate import quantity  # lazy: start-up: keeps cr3bp.api free of numpy
         alt = quantity("altitude", _text(altitude), "length", system, sign="nonnegative") * system.length_km
     for label, v in (("step", step), ("max_step", max_step)):
         if v is not None and not (isinstance(v, (int, float)) and 0 < v < 1):
@@ -400,7 +402,7 @@ def manifold(orbit, stability, *, branch="interior", points=200, until=None, spa
     Gómez et al., *Nonlinearity* 17, 2004, §3; Koon, Lo, Marsden and Ross, *Dynamical Systems,
     the Three-Body Problem and Space Mission Design*, 2011, §4.5.
     """
-    from .tubes.manifolds import grow_tube, parse_until, point_tube
+    from .tubes.manifolds import grow_tube, parse_until, point_tube  # lazy: start-up: keeps cr3bp.api free of numpy
     stability = _one_of("stability", stability, ("stable", "unstable"))
     branch = _one_of("branch", branch, TUBE_BRANCHES)
     _one_of("spacing", spacing, ("time", "arc"))
@@ -458,8 +460,8 @@ def section(tube, where, *, crossing=1, time=None):
     Poincaré, *Les méthodes nouvelles de la mécanique céleste* (surfaces of section); see
     :mod:`cr3bp.tubes.sections`.
     """
-    from .tubes.manifolds import Stop, Tube, grow_tube
-    from .tubes.sections import parse_section
+    from .tubes.manifolds import Stop, Tube, grow_tube  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .tubes.sections import parse_section  # lazy: start-up: keeps cr3bp.api free of numpy
     if not isinstance(tube, Tube):
         raise InputError(f"section cuts a Tube (from cr3bp.manifold), not {type(tube).__name__}")
     sysm = tube.system
@@ -469,7 +471,7 @@ def section(tube, where, *, crossing=1, time=None):
         raise InputError(f"section {where!r}: an apsis map is drawn by cr3bp.connect with a parking orbit")
     t_max = 2 * math.pi
     if time is not None:
-        from .validate import quantity
+        from .validate import quantity  # lazy: start-up: keeps cr3bp.api free of numpy
         t_max = quantity("time", _text(time), "time", sysm, sign="positive", default_unit="TU")
     if tube.stop.section == sec and tube.stop.count == crossing and time is None:
         return tube.section_cut()
@@ -482,8 +484,8 @@ def section(tube, where, *, crossing=1, time=None):
 
 
 def _parking(text, sysm):
-    from .tubes.sections import primary_index
-    from .validate import quantity
+    from .tubes.sections import primary_index  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .validate import quantity  # lazy: start-up: keeps cr3bp.api free of numpy
     words = str(text).split()
     if not words or words[0].lower() != "parking":
         return None
@@ -546,9 +548,9 @@ def connect(origin, target, *, system=None, section="x=1-mu", points=None, cross
     Design*, 2011, ch. 3 and §4.5; Gómez et al., *Nonlinearity* 17, 2004, §4 (tubes cut by a
     common section); see :mod:`cr3bp.tubes.connections`.
     """
-    from .orbits.orbit import PeriodicOrbit
-    from .tubes.connections import connect as _connect
-    from .tubes.parking import parking_legs, periapsis_map
+    from .orbits.orbit import PeriodicOrbit  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .tubes.connections import connect as _connect  # lazy: heavy library (scipy, via cr3bp.tubes.connections)
+    from .tubes.parking import parking_legs, periapsis_map  # lazy: heavy library (scipy, via cr3bp.tubes.parking)
     sysm = None
     for end in (origin, target):
         if isinstance(end, PeriodicOrbit):
@@ -563,7 +565,7 @@ def connect(origin, target, *, system=None, section="x=1-mu", points=None, cross
         points = _whole("points", points, 2, 100_000)
     t_max = 2 * math.pi
     if time is not None:
-        from .validate import quantity
+        from .validate import quantity  # lazy: start-up: keeps cr3bp.api free of numpy
         t_max = quantity("time", _text(time), "time", sysm, sign="positive", default_unit="TU")
     pa = _parking(origin, sysm) if isinstance(origin, str) else None
     pb = _parking(target, sysm) if isinstance(target, str) else None
@@ -649,11 +651,11 @@ def route(system, nodes, start, goal, *, objective="dv", best=1, max_dv=None, ma
     applied to paths (Martins, "On a multicriteria shortest path problem", *EJOR* 16, 1984):
     see :mod:`cr3bp.transfers.search`.
     """
-    from .catalog import Catalog
-    from .transfers.graph import build_graph
-    from .transfers.nodes import find_node, load_nodes
-    from .transfers.search import Constraints, best_routes
-    from .validate import quantity
+    from .catalog import Catalog  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .transfers.graph import build_graph  # lazy: heavy library (networkx, via cr3bp.transfers.graph)
+    from .transfers.nodes import find_node, load_nodes  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .transfers.search import Constraints, best_routes  # lazy: heavy library (networkx, via cr3bp.transfers.search)
+    from .validate import quantity  # lazy: start-up: keeps cr3bp.api free of numpy
     sysm = _as_system(system)
     nodelist = load_nodes(nodes, sysm)
     src, dst = find_node(nodelist.nodes, str(start)), find_node(nodelist.nodes, str(goal))
@@ -732,11 +734,10 @@ def export(source, path, *, epoch, span, step, frame="j2000-equator", center=Non
     CCSDS 502.0-B-3, *Orbit Data Messages*, 2023 (the OEM); time scales and frames as in
     :mod:`cr3bp.time.scales` and :mod:`cr3bp.time.frames`.
     """
-    from pathlib import Path
 
-    from .io import export as ex
-    from .time import frames
-    from .validate import plain_text, quantity
+    from .io import export as ex  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .time import frames  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .validate import plain_text, quantity  # lazy: start-up: keeps cr3bp.api free of numpy
     sysm = _system_of(source)
     sysm.require_dimensional("an export in km")
     _one_of("frame", frame, ("j2000-equator", "j2000-ecliptic", "rotating"))
@@ -748,7 +749,7 @@ def export(source, path, *, epoch, span, step, frame="j2000-equator", center=Non
     if kind in ("oem", "xml") and frame == "rotating":
         raise InputError("OEM needs inertial axes (frame j2000-equator or j2000-ecliptic); use a .csv or .json "
                          "file for the rotating frame")
-    from .validate import output_file
+    from .validate import output_file  # lazy: start-up: keeps cr3bp.api free of numpy
     output_file("path", str(path))
     period_tu = float(source.period)
     model = {"orbit": f"{source.family} {source.point} {source.branch}".strip(),
@@ -802,8 +803,8 @@ def run(scenario, out, *, catalog=None, workers=None, progress=None):
     The scenario format: the user guide's scenario page (generated from
     :mod:`cr3bp.scenario.schema`).
     """
-    from .catalog import Catalog, default_path
-    from .scenario import run as mission
+    from .catalog import Catalog, default_path  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .scenario import run as mission  # lazy: start-up: keeps cr3bp.api free of numpy
     if workers is not None:
         workers = _whole("workers", workers, 1, 256)
     plan = mission.prepare(scenario)
@@ -858,14 +859,13 @@ def torus(orbit=None, amplitude=None, *, hold="jacobi", lissajous=None, members=
     eqs. 9-14 (the invariance circle); Baresi, Olikara and Scheeres (the continuation): see
     :mod:`cr3bp.tori`.
     """
-    from .units import length
     if (orbit is None) == (lissajous is None):
         raise InputError("give an orbit with amplitude=, or lissajous=(system, point, ay, az)")
     _one_of("hold", hold, ("jacobi", "rotation", "period"))
     if members is not None:
         members = _whole("members", members, 1, 500)
     if lissajous is not None:
-        from .tori.lissajous import lissajous as _lissajous
+        from .tori.lissajous import lissajous as _lissajous  # lazy: start-up: keeps cr3bp.api free of numpy
         if not (isinstance(lissajous, tuple) and len(lissajous) == 4):
             raise InputError("lissajous= is (system, point, ay, az), e.g. (em, 'L2', '5000km', '8000km')")
         sysm, point, ay, az = lissajous
@@ -879,7 +879,7 @@ def torus(orbit=None, amplitude=None, *, hold="jacobi", lissajous=None, members=
             raise InputError(f"Lissajous amplitudes ay {ay!r}, az {az!r} must be positive lengths")
         t = _lissajous(sysm, point, ay_lu, az_lu, progress=progress)
     else:
-        from .tori import torus_around
+        from .tori import torus_around  # lazy: start-up: keeps cr3bp.api free of numpy
         sysm = _system_of(orbit)
         if amplitude is None:
             raise InputError("a torus about an orbit needs amplitude= (e.g. '2000km')")
@@ -892,7 +892,7 @@ def torus(orbit=None, amplitude=None, *, hold="jacobi", lissajous=None, members=
         t = torus_around(orbit, amp, hold=hold, progress=progress)
     if members is None:
         return t
-    from .tori import continue_family
+    from .tori import continue_family  # lazy: start-up: keeps cr3bp.api free of numpy
     return continue_family(t, hold=hold, members=members, progress=progress)
 
 
@@ -942,10 +942,9 @@ def shadow(orbit, epoch, *, span="365d", step="5min", phase=0.0, bodies=("earth"
     ----------
     Montenbruck and Gill, *Satellite Orbits*, 2000, §3.4.2 (conical shadow model).
     """
-    from . import units
-    from .io import export as ex
-    from .operations import eclipses, phasing, placement
-    from .time import frames
+    from .io import export as ex  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .operations import eclipses, phasing, placement  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .time import frames  # lazy: start-up: keeps cr3bp.api free of numpy
     sysm = _system_of(orbit)
     sysm.require_dimensional("eclipses at a date")
     if sysm.name != "earth-moon":
@@ -1027,9 +1026,9 @@ def keep(orbit, epoch, *, span="365d", trials=200, nav_error=(1.0, 0.01), burn_e
     Zimovan, Howell and Davis, AAS 17-395, 2017; the crossing condition of Howell and
     Pernicka, *J. Guidance* 16(1), 1993 (all from memory; see :mod:`cr3bp.operations.keeping`).
     """
-    from .io import export as ex
-    from .operations import keeping
-    from .validate import finite_number, quantity
+    from .io import export as ex  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .operations import keeping  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .validate import finite_number, quantity  # lazy: start-up: keeps cr3bp.api free of numpy
     trials = _whole("trials", trials, 1, 100000)
     target_revs = _whole("target_revs", target_revs, 1, 10)
     seed = _whole("seed", seed, 0, 999999999999)

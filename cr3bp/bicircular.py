@@ -53,6 +53,7 @@ from .integrate.status import DEFAULT_MAX_STEPS
 from .time import ephemeris
 from .time.frames import epoch_from_text
 from .time.scales import Epoch
+from .validate import finite_number
 
 #: Status of a default-built model, shown by ``to_dict`` (where its numbers come from).
 SOURCE = ("equations: Boudad, Howell & Davis, Adv. Space Res. 66, 2020, section 2 (from memory); "
@@ -62,7 +63,6 @@ _TWO_PI = 2.0 * math.pi
 
 
 def _finite(name, value) -> float:
-    from .validate import finite_number
     return finite_number(name, value)
 
 
@@ -275,7 +275,7 @@ def _model(bsys):
 
 def acceleration(bsys: BicircularSystem, t: float, state) -> np.ndarray:
     """Time derivative of one 6-state at time ``t`` (TU), from the compiled kernel."""
-    from .bicircular_kernels import eom      # compiled (numba): loaded on first use
+    from .bicircular_kernels import eom  # lazy: heavy library (numba, via cr3bp.bicircular_kernels); compiled (numba): loaded on first use
     out = np.empty(6)
     eom(float(t), np.ascontiguousarray(state, dtype=float)[:6].copy(), _model(bsys)[2], out)
     return out

@@ -3,6 +3,9 @@
 The caution names the model the numbers belong to: the circular restricted three-body model
 unless an output comes from another one (``model="bicircular"``)."""
 
+import textwrap
+
+
 #: model key -> (the model in the long caution, the model in the short caption)
 MODELS = {
     "cr3bp": ("the circular restricted three-body model", "CR3BP"),
@@ -31,6 +34,5 @@ CAUTION_SHORT = caution_short()
 
 def caution_lines(prefix="", width=88, model: str = "cr3bp"):
     """The caution wrapped to ``width`` columns, each line starting with ``prefix``."""
-    import textwrap
 
     return [prefix + line for line in textwrap.wrap(caution(model), width - len(prefix))]

@@ -24,6 +24,7 @@ import html
 import math
 
 from .cautions import caution_short
+from .errors import InputError
 
 
 def _fmt(v, digits=6):
@@ -102,14 +103,14 @@ _ROWS = {"PeriodicOrbit": _orbit_rows, "Family": _family_rows, "Tube": _tube_row
 def _new_axes(ax, projection=None):
     if ax is not None:
         return ax
-    import matplotlib.pyplot as plt
+    import matplotlib.pyplot as plt  # lazy: heavy library (matplotlib)
     fig = plt.figure(figsize=(6.4, 5.2))
     return fig.add_subplot(1, 1, 1)
 
 
 def _caption(ax, model="cr3bp"):
     """The caution under the figure, once per figure (several plots may share one)."""
-    from .plotting.base import caption
+    from .plotting.base import caption  # lazy: heavy library (matplotlib, via cr3bp.plotting.base)
     if not any(t.get_gid() == "caption" for t in ax.figure.texts):
         caption(ax.figure, "", model=model)
 
@@ -119,7 +120,6 @@ _VIEWS = {"xy": (0, 1), "xz": (0, 2), "yz": (1, 2)}
 
 def _check_view(view):
     if view not in _VIEWS:
-        from .errors import InputError
         raise InputError(f"view {view!r} is not allowed; allowed: xy, xz, yz")
     return _VIEWS[view]
 
@@ -131,7 +131,7 @@ def _short_title(ax, text):
 def _plot_orbit(o, ax=None, view="xy", n=600):
     """The orbit in one view of the rotating frame, framed about it (the project's framing:
     primaries to scale, Lagrange points inside the frame)."""
-    from .plotting.orbits import _frame, trajectory
+    from .plotting.orbits import _frame, trajectory  # lazy: heavy library (matplotlib, via cr3bp.plotting.orbits)
     i, j = _check_view(view)
     ax = _new_axes(ax)
     s = trajectory(o, n)
@@ -145,10 +145,10 @@ def _plot_orbit(o, ax=None, view="xy", n=600):
 
 def _plot_family(f, ax=None, view="xy", max_curves=30, n=400):
     """Up to ``max_curves`` members in one view, coloured by Jacobi constant."""
-    import numpy as np
-    from matplotlib import cm, colors
+    import numpy as np  # lazy: start-up: keeps cr3bp.display free of numpy
+    from matplotlib import cm, colors  # lazy: heavy library (matplotlib)
 
-    from .plotting.orbits import _frame, trajectory
+    from .plotting.orbits import _frame, trajectory  # lazy: heavy library (matplotlib, via cr3bp.plotting.orbits)
     i, j = _check_view(view)
     ax = _new_axes(ax)
     m = f.members
@@ -163,7 +163,7 @@ def _plot_family(f, ax=None, view="xy", max_curves=30, n=400):
         curves.append(s)
         ax.plot(s[:, i], s[:, j], lw=0.8, color=cm.viridis(norm(m[k].jacobi)))
     _frame(ax, f.system, view, curves)
-    from .plotting.base import colorbar_beside
+    from .plotting.base import colorbar_beside  # lazy: heavy library (matplotlib, via cr3bp.plotting.base)
     colorbar_beside(ax, cm.ScalarMappable(norm=norm, cmap="viridis"), "Jacobi constant")
     name = " ".join(w for w in (f.family, f.point, f.branch) if w)
     _short_title(ax, f"{f.system.name} {name} family, {len(pick)} of {len(m)} members (CR3BP, rotating frame)")
@@ -171,7 +171,7 @@ def _plot_family(f, ax=None, view="xy", max_curves=30, n=400):
 
 
 def _plot_tube(t, ax=None, view="xy"):
-    from .plotting.manifolds import plot_tubes
+    from .plotting.manifolds import plot_tubes  # lazy: heavy library (matplotlib, via cr3bp.plotting.manifolds)
     _check_view(view)
     ax = _new_axes(ax)
     plot_tubes([t], views=(view,), axes=[ax])
@@ -242,10 +242,9 @@ class Shown:
         only: a route's continuous trajectory comes from
         :func:`cr3bp.transfers.stitch.stitch_route`, whose result has its own ``to_plotly()``.
         """
-        from .plotting import interactive as ia
+        from .plotting import interactive as ia  # lazy: heavy library (matplotlib, via cr3bp.plotting.interactive)
         kind = _kind(self)
         if kind == "Route":
-            from .errors import InputError
             raise InputError("a Route holds its legs' patch points, not a continuous trajectory: stitch it "
                             "(cr3bp.transfers.stitch.stitch_route) and call the result's to_plotly()")
         return {"PeriodicOrbit": ia.orbit_figure, "Family": ia.family_figure,
@@ -257,7 +256,7 @@ class Shown:
         A family: one row per member; a tube: one per trajectory; a route: one per leg; an
         orbit: one row.
         """
-        import pandas as pd
+        import pandas as pd  # lazy: heavy library (pandas)
         kind = _kind(self)
         d = self.to_dict()
         if kind == "Family":

@@ -19,9 +19,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from . import dynamics
+from . import dynamics, units
 from .equilibria import COLLINEAR, NAMES, jacobi_constants, lagrange_point, point_name
 from .errors import InputError
+from .equilibria import collinear_gamma
+from .validate import finite_number
 
 PLANES = ("xy", "xz")
 VIEWS = ("system", "secondary")
@@ -102,17 +104,14 @@ def check_jacobi(value, name: str = "Jacobi constant") -> float:
     >>> check_jacobi("3.15")
     3.15
     """
-    from .validate import finite_number
     return finite_number(name, value)
 
 
 def _velocity(system, dv) -> float:
     """``dv`` as LU/TU: a float is taken as nondimensional, text is parsed by cr3bp.units."""
-    from . import units
     if isinstance(dv, str):
         v = units.velocity(dv, system)
     else:
-        from .validate import finite_number
         v = finite_number("dv (LU/TU, or text with a unit such as '20m/s')", dv)
     if v < 0:
         raise InputError(f"dv {dv!r} is negative; a speed must be >= 0")
@@ -394,7 +393,6 @@ def default_extent(system, view: str = "system") -> tuple[float, float, float, f
         h = SYSTEM_HALF_WIDTH
         return (-h, h, -h, h)
     if view == "secondary":
-        from .equilibria import collinear_gamma
         g = max(collinear_gamma("L1", system.mu)[0], collinear_gamma("L2", system.mu)[0])
         h = SECONDARY_HALF_WIDTH * g
         x0 = 1.0 - system.mu
@@ -597,7 +595,7 @@ def hill_region(system, jacobi_value, plane: str = "xy", extent=None, view: str 
     >>> region.forbidden_region_vanishes, region.necks
     (False, {'L1': True, 'L2': True, 'L3': True})
     """
-    import contourpy
+    import contourpy  # lazy: heavy library (contourpy)
 
     c = check_jacobi(jacobi_value)
     _check_plane(plane)

@@ -15,7 +15,10 @@ import re
 
 import numpy as np
 
-from .errors import InputError, StateError
+from .errors import InputError, StateError, shown, UnitError
+from datetime import datetime
+from pathlib import Path
+from . import units
 
 RTOL_RANGE = (1e-14, 1e-3)
 
@@ -102,7 +105,6 @@ def _outside(system, s, name):
 # (escaped by errors.shown, so the message stays one line), and what is allowed.
 
 def _show(text) -> str:
-    from .errors import shown
     return shown(text)
 
 
@@ -187,8 +189,6 @@ def quantity(name: str, text, dimension: str, system=None, *, sign: str = "any",
     ``sign``: "any", "positive" (> 0) or "nonnegative" (>= 0); a refusal names the text the user
     gave, in the user's unit.
     """
-    from . import units
-    from .errors import UnitError
     try:
         q = units.parse(text, dimension, default_unit)
         v = q.nondim(system) if system is not None else q.si()
@@ -220,7 +220,6 @@ _ISO_8601 = re.compile(r"^\d{4}-\d{2}-\d{2}(T\d{2}:\d{2}(:\d{2}(\.\d+)?)?)?(Z|[+
 def iso8601(name: str, text) -> str:
     """An ISO 8601 date or date-time (``2031-03-01``, ``2031-03-01T00:00:00Z``), checked as a
     real calendar date; returned as given."""
-    from datetime import datetime
     t = str(text)
     if not _ISO_8601.match(t):
         raise InputError(f"{name} '{_show(t)}' is not an ISO 8601 date or date-time "
@@ -239,7 +238,6 @@ NAME_MAX = 255
 
 
 def _same_path(a, b) -> bool:
-    from pathlib import Path
     pa, pb = Path(a), Path(b)
     try:
         if pa.exists() and pb.exists():
@@ -253,7 +251,6 @@ def output_file(name: str, path, inputs=()) -> str:
     """Check, before any work, that ``path`` can be written as a file: not empty, not a folder,
     not one of ``inputs`` (files the command reads), each name at most NAME_MAX bytes, and the
     nearest existing folder above it writable. Returns ``path`` as text."""
-    from pathlib import Path
     t = str(path)
     if not t.strip():
         raise InputError(f"{name} is empty; give a file name")
@@ -273,7 +270,6 @@ def output_file(name: str, path, inputs=()) -> str:
 
 def output_folder(name: str, path, inputs=()) -> str:
     """As :func:`output_file`, for a folder that will hold the outputs (it may exist)."""
-    from pathlib import Path
     t = str(path)
     if not t.strip():
         raise InputError(f"{name} is empty; give a folder")
@@ -297,7 +293,6 @@ def _short_names(name, shown_path, p):
 
 
 def _writable_folder(name, shown_path, folder):
-    from pathlib import Path
     d = Path(folder) if str(folder) else Path(".")
     while not d.exists():
         if d.is_symlink():       # a dangling link

@@ -12,7 +12,7 @@ import numpy as np  # noqa: E402
 import pytest  # noqa: E402
 from matplotlib.artist import Artist  # noqa: E402
 
-from cr3bp.io import atomic  # noqa: E402
+from cr3bp.scenario import outputs  # noqa: E402
 from cr3bp.plotting.fingerprint import fingerprint  # noqa: E402
 from cr3bp.plotting.orbits import plot_family  # noqa: E402
 from cr3bp.systems import system  # noqa: E402
@@ -105,8 +105,8 @@ formats = ["png", "svg"]
 
 def _run(tmp_path, name, jacobi, catalog, monkeypatch):
     drawn = []
-    real = atomic.save_figure
-    monkeypatch.setattr(atomic, "save_figure", lambda fig, path, **kw: (drawn.append(path.name),
+    real = outputs.save_figure
+    monkeypatch.setattr(outputs, "save_figure", lambda fig, path, **kw: (drawn.append(path.name),
                                                                          real(fig, path, **kw)))
     s = tmp_path / f"{name}.toml"
     s.write_text(SCENARIO.format(jacobi=jacobi))

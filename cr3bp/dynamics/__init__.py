@@ -32,7 +32,7 @@ KERNEL_NAMES = ("omega", "grad_omega", "hessian_omega", "eom", "eom_stm", "_jaco
 
 def __getattr__(name):
     if name in KERNEL_NAMES:
-        from . import kernels
+        from . import kernels  # lazy: heavy library (numba, via cr3bp.dynamics.kernels)
         return getattr(kernels, name)
     raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 

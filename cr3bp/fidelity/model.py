@@ -40,7 +40,34 @@ BODY_NAMES = ("sun", "earth", "moon", "mercury", "venus", "mars", "jupiter", "sa
 
 
 def gm_km3_s2(name: str) -> float:
-    """GM of a body: the project's table (:mod:`cr3bp.systems`), else DE430 (from memory)."""
+    """GM of a body: the project's table (:mod:`cr3bp.systems`), else DE430 (from memory).
+
+    Parameters
+    ----------
+    name : str
+        A body (``sun``, ``earth``, ``moon``, ``jupiter``, ...).
+
+    Returns
+    -------
+    float
+        km^3/s^2.
+
+    Raises
+    ------
+    InputError
+        A body with no GM on record.
+
+    Examples
+    --------
+    >>> round(gm_km3_s2("earth"))
+    398600
+
+    References
+    ----------
+    Folkner, W. M., Williams, J. G., Boggs, D. H., Park, R. S. & Kuchynka, P., "The Planetary and
+    Lunar Ephemerides DE430 and DE431", JPL IPN Progress Report 42-196 (2014), Table 8 (from
+    memory).
+    """
     try:
         return float(systems.body(name).gm_km3_s2)
     except Exception:
@@ -50,7 +77,33 @@ def gm_km3_s2(name: str) -> float:
 
 
 def parse_bodies(text) -> tuple:
-    """``"sun,earth,moon"`` -> ("sun", "earth", "moon"), checked."""
+    """``"sun,earth,moon"`` -> ("sun", "earth", "moon"), checked.
+
+    Parameters
+    ----------
+    text : str or sequence of str
+        Body names, comma-separated or as a sequence.
+
+    Returns
+    -------
+    tuple of str
+        The names, lower case.
+
+    Raises
+    ------
+    InputError
+        An unknown or repeated body, or none.
+
+    Examples
+    --------
+    >>> parse_bodies("Sun, earth,moon")
+    ('sun', 'earth', 'moon')
+
+    References
+    ----------
+    Folkner, W. M., Williams, J. G. & Boggs, D. H., "The Planetary and Lunar Ephemeris DE 421",
+    JPL IPN Progress Report 42-178 (2009) (the bodies the ephemeris holds).
+    """
     names = [w.strip().lower() for w in (text.split(",") if isinstance(text, str) else text)]
     names = [w for w in names if w]
     if not names:
@@ -67,7 +120,7 @@ def parse_bodies(text) -> tuple:
 class Model:
     """A packed ephemeris model.
 
-    Attributes
+    Parameters
     ----------
     system : System           gives LU (km) and TU (s)
     epoch_tdb_s : float       model time 0, TDB seconds since J2000
@@ -78,6 +131,16 @@ class Model:
     t0, t1 : float            span of the series, TU from the epoch
     params : ndarray          parameter vector for the compiled kernels
     ephemeris : str           where the body positions come from (:func:`cr3bp.time.ephemeris.describe`)
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> m = build(system("earth-moon"), 0.0, 0.0, 10.0, "moon", ("sun", "earth"))   # doctest: +SKIP
+
+    References
+    ----------
+    Montenbruck, O. & Gill, E., "Satellite Orbits: Models, Methods and Applications",
+    Springer (2000), sec. 3.2-3.4 (point masses and solar radiation pressure, from memory).
     """
 
     system: object
@@ -143,6 +206,22 @@ def build(system, epoch_tdb_s: float, t0_tu: float, t1_tu: float, central: str, 
     ------
     InputError  unknown bodies, bad SRP figures, a span outside the ephemeris validity
                 (:class:`~cr3bp.errors.EphemerisSpanError` outside DE421, 1899-07-29 .. 2053-10-09).
+
+    Returns
+    -------
+    Model
+        The packed model.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> m = build(system("earth-moon"), 0.0, 0.0, 10.0, "moon", ("sun", "earth"))   # doctest: +SKIP
+
+    References
+    ----------
+    Press, W. H. et al., "Numerical Recipes", 3rd ed. (2007), sec. 5.8; Folkner, W. M.,
+    Williams, J. G. & Boggs, D. H., "The Planetary and Lunar Ephemeris DE 421", JPL IPN Progress
+    Report 42-178 (2009).
     """
     system.require_dimensional("an ephemeris model")
     central = central.lower()
@@ -211,6 +290,32 @@ class EphemerisArc:
     ``t``/``states``: dense output at the requested ``t_eval`` (empty without it);
     ``events``: (t, state, event index) of each recorded event; ``status`` as the CR3BP
     propagator's ("time", "event", "impact", "escape").
+
+    Parameters
+    ----------
+    t_end : float
+        Where the propagation stopped, TU from the epoch.
+    state_end : numpy.ndarray, shape (6,)
+        The state there.
+    stm : numpy.ndarray or None
+        The state transition matrix (with ``stm=True``).
+    t, states : numpy.ndarray
+        Dense output.
+    events : tuple
+        ``(t, state, event index)`` of each recorded event.
+    status : str
+        ``"time"``, ``"event"``, ``"impact"`` or ``"escape"``.
+
+    Examples
+    --------
+    >>> arc = propagate(model, x0, 0.0, 1.0)          # doctest: +SKIP
+    >>> arc.status                                    # doctest: +SKIP
+    'time'
+
+    References
+    ----------
+    Hairer, E., Nørsett, S. P. & Wanner, G., "Solving Ordinary Differential Equations I",
+    2nd ed., Springer (1993), sec. II.5 and II.6 (dense output).
     """
 
     t_end: float
@@ -235,6 +340,45 @@ def propagate(model: Model, state, t0: float, t1: float, *, stm=False, t_eval=No
     project's compiled integrator with its events: :func:`cr3bp.integrate.events.plane` on any
     state component, and ``impact(0, radius)`` / ``escape(radius, 0)`` about the central body
     (the model sits it at the origin).
+
+    Parameters
+    ----------
+    model : Model
+        From :func:`build`.
+    state : array_like, shape (6,)
+        Nondimensional inertial state about the central body.
+    t0, t1 : float
+        TU from the epoch, inside the model's span.
+    stm : bool, optional
+        Also the state transition matrix.
+    t_eval : array_like, optional
+        Dense output times.
+    events : sequence of Event, optional
+        Events to record or stop at.
+    rtol, atol : float, optional
+        Tolerances.
+    max_steps : int, optional
+        Step limit.
+
+    Returns
+    -------
+    EphemerisArc
+        The propagation.
+
+    Raises
+    ------
+    InputError
+        Times outside the model's span, a bad state or event.
+
+    Examples
+    --------
+    >>> arc = propagate(model, x0, 0.0, 1.0, stm=True)   # doctest: +SKIP
+
+    References
+    ----------
+    Hairer, E., Nørsett, S. P. & Wanner, G., "Solving Ordinary Differential Equations I",
+    2nd ed., Springer (1993), sec. II.5; Montenbruck, O. & Gill, E., "Satellite Orbits",
+    Springer (2000), eq. 3.37 (from memory).
     """
     _check_span(model, t0, t1)
     s0 = np.asarray(state, dtype=float).ravel()
@@ -259,12 +403,47 @@ def propagate(model: Model, state, t0: float, t1: float, *, stm=False, t_eval=No
 
 def propagate_many(model: Model, states, t0s, t1s, *, stm=False, rtol=1e-12, atol=1e-12,
                    max_steps=dop853.DEFAULT_MAX_STEPS):
-    """Propagate segments (row k from ``t0s[k]`` to ``t1s[k]``) in parallel inside compiled
-    code (:func:`cr3bp.fidelity.segments.integrate_segments`).
+    """Propagate segments (row k from ``t0s[k]`` to ``t1s[k]``) in parallel inside compiled code.
+
+    (:func:`cr3bp.fidelity.segments.integrate_segments`.)
+
+    Parameters
+    ----------
+    model : Model
+        From :func:`build`.
+    states : array_like, shape (M, 6)
+        Nondimensional inertial states.
+    t0s, t1s : array_like, shape (M,)
+        Start and end of each segment, TU from the epoch.
+    stm : bool, optional
+        Also the state transition matrices.
+    rtol, atol : float, optional
+        Tolerances.
+    max_steps : int, optional
+        Step limit per segment.
 
     Returns
     -------
-    ends : ndarray (M, 6); stms : ndarray (M, 6, 6) or None
+    ends : numpy.ndarray, shape (M, 6)
+        End states.
+    stms : numpy.ndarray, shape (M, 6, 6) or None
+        State transition matrices (with ``stm``).
+
+    Raises
+    ------
+    InputError
+        Times outside the model's span.
+    ConvergenceError
+        A segment that stops early (impact, escape, step limit).
+
+    Examples
+    --------
+    >>> ends, stms = propagate_many(model, x, t[:-1], t[1:], stm=True)   # doctest: +SKIP
+
+    References
+    ----------
+    Hairer, E., Nørsett, S. P. & Wanner, G., "Solving Ordinary Differential Equations I",
+    2nd ed., Springer (1993), sec. II.5.
     """
     s = np.ascontiguousarray(np.atleast_2d(states), dtype=float)
     m = s.shape[0]

@@ -18,7 +18,32 @@ HALVINGS = 8
 
 
 def history_text(hist) -> str:
-    """The mismatch by iteration, for an error message."""
+    """The mismatch by iteration, for an error message.
+
+    Parameters
+    ----------
+    hist : sequence of float
+        Mismatch per iteration.
+
+    Returns
+    -------
+    str
+        The values in ``%.2e`` form, space-separated.
+
+    Raises
+    ------
+    TypeError
+        Values that are not numbers.
+
+    Examples
+    --------
+    >>> history_text([1e-3, 2.5e-9])
+    '1.00e-03 2.50e-09'
+
+    References
+    ----------
+    Common practice (the convergence history shown with the error).
+    """
     return " ".join(f"{h:.2e}" for h in hist)
 
 
@@ -43,6 +68,17 @@ def solve(constraints, z, tol, max_iter, *, what="multiple shooting", residual=N
     ------
     ConvergenceError  non-finite mismatch, singular system, failed step halving or no
                       convergence in ``max_iter`` iterations; the message names ``what``.
+
+    Examples
+    --------
+    >>> z, it, hist = solve(lambda z: (z**2 - 2.0, np.diag(2.0 * z)), np.array([1.0]), 1e-12, 20)
+    >>> round(float(z[0]), 12)
+    1.414213562373
+
+    References
+    ----------
+    Dennis, J. E. & Schnabel, R. B., "Numerical Methods for Unconstrained Optimization and
+    Nonlinear Equations", SIAM (1996), ch. 6 (Newton's method with step halving).
     """
     residual = residual or (lambda zz: constraints(zz)[0])
     shown = shown or (lambda zz: zz)

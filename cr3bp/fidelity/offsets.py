@@ -80,8 +80,27 @@ def path_and_timing_offsets(t_s, pos_km, ref_t_s, ref_pos_km, ref_vel_kms, windo
     -------
     (path_km (N,), timing_s (N,))   distance to the nearest point of the reference path, and
                                     the sample's epoch minus that point's epoch
+
+    Raises
+    ------
+    ValueError
+        Arrays of mismatched shapes.
+
+    Examples
+    --------
+    >>> t = np.linspace(0.0, 10.0, 11)
+    >>> ref = np.column_stack([t, 0 * t, 0 * t])
+    >>> vel = np.tile([1.0, 0.0, 0.0], (11, 1))
+    >>> path, timing = path_and_timing_offsets([5.0], [[4.0, 3.0, 0.0]], t, ref, vel)
+    >>> round(float(path[0]), 9), round(float(timing[0]), 9)
+    (3.0, 1.0)
+
+    References
+    ----------
+    Fritsch, F. N. & Carlson, R. E., "Monotone piecewise cubic interpolation", SIAM Journal on
+    Numerical Analysis 17, 238 (1980) (cubic Hermite pieces of the reference path).
     """
-    from scipy.spatial import cKDTree
+    from scipy.spatial import cKDTree  # lazy: heavy library (scipy)
     t = np.asarray(t_s, dtype=float)
     q = np.asarray(pos_km, dtype=float)
     rt = np.asarray(ref_t_s, dtype=float)

@@ -40,6 +40,13 @@ from ..errors import ConvergenceError, InputError
 from . import model as _model
 from .newton import solve as _solve
 from .transition import TOLERANCE, _central_default, _cr3bp_to_inertial
+import csv
+import json
+from pathlib import Path
+from scipy.optimize import minimize
+from ..cautions import CAUTION
+from ..time import frames
+from .offsets import path_and_timing_offsets
 
 #: One more patch segment per this many days of flight on an arc.
 PATCH_DAYS = 1.0
@@ -52,7 +59,7 @@ _TIME_EPS = 1e-9
 class RouteTransition:
     """A stitched route carried into the ephemeris model.
 
-    Attributes
+    Parameters
     ----------
     t_tu : ndarray (P,)            patch times, TU from the epoch (a maneuver time twice)
     patches : ndarray (P, 6)       converged patch states, nondimensional inertial
@@ -74,6 +81,16 @@ class RouteTransition:
     sample_t_tu, sample_km, reference_km, sample_arc : dense samples of the ephemeris
                                    trajectory and of the CR3BP route at the same epochs
     iterations : dict; residuals : tuple; optimised : bool; note : str
+
+    Examples
+    --------
+    >>> rt = transition_route(em, t, x, maneuvers, "2031-03-01T00:00:00 TDB")   # doctest: +SKIP
+
+    References
+    ----------
+    Pavlak, T. A. & Howell, K. C., "Evolution of the out-of-plane amplitude for quasi-periodic
+    trajectories in the Earth-Moon system", Acta Astronautica 81, 456 (2012) (multiple shooting
+    into an ephemeris model, from memory).
     """
 
     model: object
@@ -100,7 +117,6 @@ class RouteTransition:
     options: dict = field(default_factory=dict)
 
     def to_dict(self) -> dict:
-        from ..cautions import CAUTION
         return {
             "model": self.model.to_dict(), "epoch_tdb_s": self.epoch_tdb_s,
             "arcs": [dict(a) for a in self.arcs], "maneuvers": [dict(m) for m in self.maneuvers],
@@ -303,8 +319,23 @@ def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", 
     ------
     InputError        bad route, maneuvers not on the route, bad model options.
     ConvergenceError  step 1 or the final polish does not reach ``tol``.
+
+    Returns
+    -------
+    RouteTransition
+        The converged route and its gap to the CR3BP design.
+
+    Examples
+    --------
+    >>> t, x, man = read_route("out/route")                                       # doctest: +SKIP
+    >>> rt = transition_route(em, t, x, man, "2031-03-01T00:00:00 TDB")          # doctest: +SKIP
+
+    References
+    ----------
+    Pavlak, T. A. & Howell, K. C., Acta Astronautica 81, 456 (2012) (multiple shooting into an
+    ephemeris model, from memory); Kraft, D., "A software package for sequential quadratic
+    programming", DFVLR-FB 88-28 (1988) (SLSQP).
     """
-    from ..time import frames
     system.require_dimensional("an ephemeris model")
     t, s, man = _check_route(system, times_tu, states, maneuvers)
     if not (math.isfinite(float(patch_days)) and float(patch_days) > 0):
@@ -390,7 +421,6 @@ def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", 
     z, optimised, note, iters = z1, False, "", {"newton": it1}
     hist = list(hist1)
     if optimise and (start_pre is not None or end_post is not None or p.jump.size):
-        from scipy.optimize import minimize
         cost1 = p.cost(z1)
         cons = {"type": "eq", "fun": lambda v: p.constraints(v)[0], "jac": lambda v: p.constraints(v)[1]}
         bounds = [(None, None)] * (6 * p.P)
@@ -439,7 +469,6 @@ def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", 
             samp[sel] = arc.states
     samp_km = samp * scale
     ref_km = _cr3bp_to_inertial(system, spec, st_cr3bp, s[samp_idx], central)
-    from .offsets import path_and_timing_offsets
     for row in arc_rows:
         m = samp_arc == row["arc"] - 1
         path, timing = path_and_timing_offsets(st[m] * system.time_s, samp_km[m, :3], st_cr3bp[m] * system.time_s,
@@ -480,10 +509,41 @@ def read_route(path, system=None):
     Reads ``trajectory.csv`` (columns ``t_tu``, ``x_lu`` ... ``vz_vu``) and the maneuvers of
     ``route.json`` (key ``stitched``); with ``system``, the route's system (key ``system``:
     ``name``, ``mu``) must be the same.
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The folder, or a file in it.
+    system : System, optional
+        The system the route must belong to.
+
+    Returns
+    -------
+    times_tu : numpy.ndarray
+        Rotating times, TU.
+    states : numpy.ndarray, shape (N, 6)
+        Rotating states.
+    maneuvers : list of dict
+        The stitched route's maneuvers.
+
+    Raises
+    ------
+    InputError
+        Missing or malformed files, or a route of another system.
+
+    Examples
+    --------
+    >>> t, x, man = read_route("out/route")          # doctest: +SKIP
+    >>> read_route("no-such-folder")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: --route 'no-such-folder': no trajectory.csv in . (write one with librate route --out DIR)
+
+    References
+    ----------
+    RFC 4180, "Common Format and MIME Type for Comma-Separated Values (CSV) Files" (2005);
+    RFC 8259, "The JavaScript Object Notation (JSON) Data Interchange Format" (2017).
     """
-    import csv
-    import json
-    from pathlib import Path
     p = Path(path)
     d = p if p.is_dir() else p.parent
     tj, rj = d / "trajectory.csv", d / "route.json"

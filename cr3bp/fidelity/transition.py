@@ -25,6 +25,11 @@ import numpy as np
 from ..errors import InputError
 from . import model as _model
 from . import newton as _newton
+from ..cautions import CAUTION
+from ..integrate.propagate import propagate as cr3bp_propagate
+from ..time import ephemeris, frames
+from ..time.frames import _BODY
+from .offsets import path_and_timing_offsets
 
 #: Continuity tolerance (nondimensional, max component): 1e-9 LU and 1e-9 VU (Earth-Moon:
 #: 0.4 m and 1 mm/s).
@@ -35,7 +40,7 @@ TOLERANCE = 1e-9
 class Transition:
     """A converged ephemeris trajectory and its gap to the CR3BP design.
 
-    Attributes
+    Parameters
     ----------
     t_tu : ndarray (M+1,)          patch times, TU from the epoch
     patches : ndarray (M+1, 6)     converged patch states, nondimensional inertial (LU, VU)
@@ -53,6 +58,16 @@ class Transition:
     dv_total_mps : float           maneuvers needed (0: continuous)
     iterations : int; residuals : tuple (max-norm of the mismatch, nondimensional)
     continuity_km, continuity_mps : final largest mismatch at a patch point
+
+    Examples
+    --------
+    >>> tr = transition(nrho, "2031-03-01T00:00:00 TDB", revs=3)       # doctest: +SKIP
+
+    References
+    ----------
+    Pavlak, T. A. & Howell, K. C., Acta Astronautica 81, 456 (2012) (from memory); Gómez, G.,
+    Llibre, J., Martínez, R. & Simó, C., "Dynamics and Mission Design Near Libration Points",
+    World Scientific (2001).
     """
 
     model: object
@@ -74,7 +89,6 @@ class Transition:
     options: dict = field(default_factory=dict)
 
     def to_dict(self) -> dict:
-        from ..cautions import CAUTION
         return {
             "model": self.model.to_dict(), "epoch_tdb_s": self.epoch_tdb_s, "revs": self.revs,
             "per_revolution": [dict(r) for r in self.per_rev],
@@ -88,7 +102,6 @@ class Transition:
 
 def _central_default(system) -> str:
     """The secondary's body (its system's main body; the Earth for the Earth-Moon barycentre)."""
-    from ..time.frames import _BODY
     name = system.secondary.name if system.secondary is not None else ""
     body = _BODY.get(name, name)
     return "earth" if body == "emb" else body
@@ -96,7 +109,6 @@ def _central_default(system) -> str:
 
 def _cr3bp_to_inertial(system, spec, t_tu, states, central):
     """Rotating nondimensional states -> km, km/s about ``central`` (EME2000)."""
-    from ..time import ephemeris, frames
     tdb, km = frames.to_frame(spec, t_tu, states)
     sec = frames._BODY.get(system.secondary.name, system.secondary.name)
     if sec != central:
@@ -120,6 +132,35 @@ def correct(model, X0, t, *, fix_first=False, free_times=False, tol=TOLERANCE, m
     Raises
     ------
     ConvergenceError  no convergence within ``max_iter`` or the step halving fails.
+
+    Parameters
+    ----------
+    model : Model
+        The ephemeris model.
+    X0 : numpy.ndarray, shape (M+1, 6)
+        First-guess patch states, nondimensional inertial.
+    t : numpy.ndarray, shape (M+1,)
+        Patch times, TU from the epoch.
+    fix_first : bool, optional
+        Hold the first patch state.
+    free_times : bool, optional
+        Let the interior patch times move.
+    tol : float, optional
+        Largest accepted mismatch (nondimensional).
+    max_iter : int, optional
+        Newton iterations.
+    progress : callable(iteration, mismatch), optional
+        Called each iteration.
+
+    Examples
+    --------
+    >>> X, t, it, hist = correct(model, X0, t0)      # doctest: +SKIP
+
+    References
+    ----------
+    Pavlak, T. A. & Howell, K. C., Acta Astronautica 81, 456 (2012) (multiple shooting, from
+    memory); Dennis & Schnabel, "Numerical Methods for Unconstrained Optimization and Nonlinear
+    Equations", SIAM (1996), ch. 6.
     """
     X0 = np.array(X0, dtype=float)
     t0 = np.array(t, dtype=float)
@@ -175,9 +216,40 @@ def transition(orbit, epoch, revs: int, bodies=("sun", "earth", "moon"), *, cent
     per_rev : int                 patch points per revolution (>= 2)
     fix_first : bool              hold the first patch state
     free_times : bool             let the interior patch times move
+    tol, max_iter : float, int
+        Newton tolerance (nondimensional mismatch) and iterations.
+    samples_per_rev : int
+        Dense samples per revolution of the result.
+    progress : callable(iteration, mismatch), optional
+        Called each iteration.
+
+    Returns
+    -------
+    Transition
+        The converged trajectory and its gap to the CR3BP design.
+
+    Raises
+    ------
+    InputError
+        Bad options, a system without an ephemeris pair, epochs outside the ephemeris.
+    ConvergenceError
+        The multiple shooting does not converge.
+
+    Examples
+    --------
+    >>> from cr3bp import orbit, system
+    >>> nrho = orbit(system("earth-moon"), "halo L2 south resonance=9:2")   # doctest: +SKIP
+    >>> tr = transition(nrho, "2031-03-01T00:00:00 TDB", revs=3)            # doctest: +SKIP
+    >>> tr.dv_total_mps                                                     # doctest: +SKIP
+    0.0
+
+    References
+    ----------
+    Pavlak, T. A. & Howell, K. C., "Evolution of the out-of-plane amplitude for quasi-periodic
+    trajectories in the Earth-Moon system", Acta Astronautica 81, 456 (2012) (multiple shooting
+    into an ephemeris model, from memory); Gómez, G., Llibre, J., Martínez, R. & Simó, C.,
+    "Dynamics and Mission Design Near Libration Points", World Scientific (2001).
     """
-    from ..time import frames
-    from ..integrate.propagate import propagate as cr3bp_propagate
     system = orbit.system
     try:
         revs = int(revs)
@@ -233,7 +305,6 @@ def transition(orbit, epoch, revs: int, bodies=("sun", "earth", "moon"), *, cent
     ends, _ = _model.propagate_many(mdl, X[:-1], tt[:-1], tt[1:])
     gap = ends - X[1:]
     rows = []
-    from .offsets import path_and_timing_offsets
     # the design's path: distance to its nearest point, and how far ahead or behind (timing)
     t_s = samp_t * system.time_s
     path, timing = path_and_timing_offsets(t_s, samp_km[:, :3], t_s, ref_km[:, :3], ref_km[:, 3:],

@@ -57,13 +57,13 @@ def build(directory: Path | None = None, progress=None) -> Path:
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         try:
-            from numba.pycc import CC
+            from numba.pycc import CC  # lazy: heavy library (numba), its failure handled here
         except ImportError:
             raise BuildError("this numba has no ahead-of-time compiler (numba.pycc); "
                              "the just-in-time kernels are used") from None
     # only the build compiles: the kernels' modules load numba, which a lookup must not
-    from ..dynamics import kernels as dynamics_kernels
-    from . import dop853
+    from ..dynamics import kernels as dynamics_kernels  # lazy: heavy library (numba, via cr3bp.dynamics.kernels)
+    from . import dop853  # lazy: heavy library (numba, via cr3bp.integrate.dop853)
     funcs = {"integrate": dop853.integrate, "eom": dynamics_kernels.eom,
              "grad_omega": dynamics_kernels.grad_omega, "hessian_omega": dynamics_kernels.hessian_omega,
              "_jacobi_many": dynamics_kernels._jacobi_many}

@@ -86,7 +86,7 @@ def integrator():
     k = compiled.kernels()
     if k is not None:
         return k.integrate
-    from . import dop853
+    from . import dop853  # lazy: heavy library (numba, via cr3bp.integrate.dop853)
     return dop853.integrate
 
 
@@ -350,7 +350,7 @@ def propagate_batch(system, states, t_final, rtol=1e-12, atol=1e-12, events=(), 
     ev_k = np.empty((n, max(m, 1)), dtype=np.int64)
     out_nfev = np.zeros(n, dtype=np.int64)
     out_nsteps = np.zeros(n, dtype=np.int64)
-    from . import dop853
+    from . import dop853  # lazy: heavy library (numba, via cr3bp.integrate.dop853)
     dop853.integrate_batch(int(mode), params, y0s, float(t0), tf, float(rtol), float(atol),
                            float(mstep), int(nmax), tab, int(m), False, out_y, out_t, out_status,
                            out_nev, out_seen, ev_t, ev_y, ev_k, out_nfev, out_nsteps)

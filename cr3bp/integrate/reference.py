@@ -64,7 +64,7 @@ def _event_functions(system, tab):
 def propagate_scipy(system, state, t_final, stm=False, rtol=1e-12, atol=1e-12, events=(),
                     t_eval=None, method="DOP853"):
     """Propagate with ``scipy.integrate.solve_ivp``; same arguments and result as ``propagate``."""
-    from scipy.integrate import solve_ivp  # imported here: scipy is only the baseline
+    from scipy.integrate import solve_ivp  # lazy: heavy library (scipy); imported here: scipy is only the baseline
     s0 = validate.state(system, state)
     rtol = validate.tolerance("rtol", rtol)
     atol = validate.tolerance("atol", atol)

@@ -26,10 +26,40 @@ NEW_FILE_MODE = 0o666 & ~_umask()
 def writing(path, mode: str = "w", encoding: str | None = "utf-8"):
     """Context manager yielding a file object; the target appears only if the block succeeds.
 
+    The file is written under a temporary name in the target's folder and renamed into place
+    (an atomic rename on POSIX file systems); on an exception the temporary file is removed.
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The target file.
+    mode : str, optional
+        ``"w"`` (text) or ``"wb"`` (bytes).
+    encoding : str, optional
+        Text encoding.
+
+    Returns
+    -------
+    contextlib.AbstractContextManager
+        Yields the open temporary file.
+
+    Raises
+    ------
+    OutputError
+        The folder cannot be written (full, read-only, missing); nothing is left behind.
+
     Examples
     --------
-    >>> with writing("out.txt") as f:      # doctest: +SKIP
-    ...     f.write("hello")
+    >>> import tempfile, pathlib
+    >>> target = pathlib.Path(tempfile.mkdtemp()) / "out.txt"
+    >>> with writing(target) as f:
+    ...     _ = f.write("hello")
+    >>> target.read_text()
+    'hello'
+
+    References
+    ----------
+    IEEE Std 1003.1-2017 (POSIX), ``rename()``: the replacement of the target is atomic.
     """
     path = Path(path)
     if path.parent and not path.parent.exists():
@@ -52,11 +82,71 @@ def writing(path, mode: str = "w", encoding: str | None = "utf-8"):
 
 
 def write_text(path, text: str) -> None:
+    """Write text to ``path`` atomically (:func:`writing`).
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The target file.
+    text : str
+        The content (UTF-8).
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    OutputError
+        The folder cannot be written; nothing is left behind.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> target = pathlib.Path(tempfile.mkdtemp()) / "a.txt"
+    >>> write_text(target, "x = 1\\n")
+    >>> target.read_text()
+    'x = 1\\n'
+
+    References
+    ----------
+    IEEE Std 1003.1-2017 (POSIX), ``rename()``.
+    """
     with writing(path, "w") as f:
         f.write(text)
 
 
 def write_bytes(path, data: bytes) -> None:
+    """Write bytes to ``path`` atomically (:func:`writing`).
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The target file.
+    data : bytes
+        The content.
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    OutputError
+        The folder cannot be written; nothing is left behind.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> target = pathlib.Path(tempfile.mkdtemp()) / "a.bin"
+    >>> write_bytes(target, b"\\x00\\x01")
+    >>> target.read_bytes()
+    b'\\x00\\x01'
+
+    References
+    ----------
+    IEEE Std 1003.1-2017 (POSIX), ``rename()``.
+    """
     with writing(path, "wb") as f:
         f.write(data)
 
@@ -67,10 +157,43 @@ _VOLATILE_METADATA = {"svg": {"Date": None}, "pdf": {"CreationDate": None}}
 
 
 def save_figure(fig, path, **kwargs) -> None:
-    """Save a matplotlib figure atomically (format from the suffix of ``path``), byte-identical
-    from run to run: no date in the metadata, and SVG element ids (clip paths) derived from a
-    fixed salt (matplotlib's ``svg.hashsalt``) instead of random ones."""
-    import matplotlib
+    """Save a matplotlib figure atomically, byte-identical from run to run.
+
+    The format comes from the suffix of ``path``; no date goes in the metadata, and SVG element
+    ids (clip paths) are derived from a fixed salt (matplotlib's ``svg.hashsalt``) instead of
+    random ones.
+
+    Parameters
+    ----------
+    fig : matplotlib.figure.Figure
+        The figure.
+    path : str or pathlib.Path
+        The target file (``.png``, ``.svg``, ``.pdf``).
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    OutputError
+        The folder cannot be written; nothing is left behind.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> from matplotlib.figure import Figure
+    >>> target = pathlib.Path(tempfile.mkdtemp()) / "f.svg"
+    >>> save_figure(Figure(), target)
+    >>> target.exists()
+    True
+
+    References
+    ----------
+    Hunter, J. D., "Matplotlib: A 2D graphics environment", Computing in Science & Engineering
+    9(3), 90 (2007); IEEE Std 1003.1-2017 (POSIX), ``rename()``.
+    """
+    import matplotlib  # lazy: heavy library (matplotlib)
     path = Path(path)
     fmt = path.suffix.lstrip(".").lower() or "png"
     meta = dict(_VOLATILE_METADATA.get(fmt, {}))

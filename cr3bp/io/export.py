@@ -44,8 +44,14 @@ from ..time import frames as _frames
 from .atomic import writing
 from ..cautions import CAUTION, caution_lines
 from ..constants import OBLIQUITY_J2000_ARCSEC
-from ..errors import InputError, shown
+from ..errors import InputError, shown, NoSolutionError
 from ..vocabulary import EXPORT_FORMATS, INERTIAL_FRAMES
+import xml.etree.ElementTree as ET
+from xml.sax.saxutils import escape
+from .. import validate
+from ..integrate import propagate
+from ..time.scales import leap_second_table, mjd_to_iso_date
+from ..validate import iso8601, plain_text, quantity
 
 FORMATS = EXPORT_FORMATS                 # xml = OEM in XML
 OEM_VERSION = "3.0"
@@ -150,7 +156,6 @@ def parse_span(text, system, period_tu: float | None = None) -> float:
                              "give a time such as '12d', or the orbit's period (--period)")
         value = k * period_tu
     else:
-        from ..validate import quantity
         value = quantity("span", s, "time", system)
     if not (math.isfinite(value) and value > 0):
         raise InputError(f"span '{text}' must be positive")
@@ -215,7 +220,6 @@ def sample(system, source, t_eval, rtol=1e-12, atol=1e-12) -> Segment:
     Uses ``cr3bp.propagate(..., t_eval=...)``: samples come from the integrator's dense output
     (Hairer, Norsett & Wanner, *Solving ODEs I*, 2nd ed., 1993, sec. II.6).
     """
-    from .. import propagate
     t0 = 0.0
     if hasattr(source, "t") and hasattr(source, "states"):
         t0 = float(np.asarray(source.t, dtype=float)[0])
@@ -231,11 +235,9 @@ def sample(system, source, t_eval, rtol=1e-12, atol=1e-12) -> Segment:
     if grid.ndim != 1 or grid.size == 0 or np.any(np.diff(grid) <= 0) or grid[0] < 0:
         raise InputError("sample times must be increasing from 0")
     if grid[-1] == 0.0:
-        from .. import validate
         return Segment(grid + t0, validate.state(system, state)[None, :].copy())
     arc = propagate(system, state, float(grid[-1]), rtol=rtol, atol=atol, t_eval=grid)
     if arc.states.shape[0] != grid.size:
-        from ..errors import NoSolutionError
         raise NoSolutionError(f"propagation stopped ({arc.status}) at t = {arc.t_final:.6g} TU before "
                               f"the end of the span ({grid[-1]:.6g} TU)")
     return Segment(np.asarray(arc.t, dtype=float) + t0, np.ascontiguousarray(arc.states))
@@ -260,7 +262,6 @@ def sample_legs(system, legs, t_eval, labels=None, join_tol=1e-9, rtol=1e-12, at
     -------
     (tuple of Segment, tuple of Maneuver)
     """
-    from .. import propagate
     legs = list(legs)
     if not legs:
         raise InputError("no legs to sample")
@@ -285,7 +286,6 @@ def sample_legs(system, legs, t_eval, labels=None, join_tol=1e-9, rtol=1e-12, at
             continue
         arc = propagate(system, s[0], float(te[-1] - t0), rtol=rtol, atol=atol, t_eval=te - t0)
         if arc.states.shape[0] != te.size:
-            from ..errors import NoSolutionError
             raise NoSolutionError(f"leg {k + 1} stopped ({arc.status}) before its end")
         segs.append(Segment(te, np.ascontiguousarray(arc.states)))
     return tuple(segs), tuple(mans)
@@ -333,7 +333,6 @@ def check_header(traj: Trajectory, creation_date: str | None = None) -> None:
     """Text that goes into a file header: OBJECT_NAME, OBJECT_ID, the model lines and the
     creation date hold no control characters (a line break would add header lines), and the
     creation date is ISO 8601."""
-    from ..validate import iso8601, plain_text
     plain_text("object name", traj.object_name, 100)
     plain_text("object id", traj.object_id, 100)
     for k, v in traj.model.items():
@@ -473,7 +472,6 @@ def _model_lines(traj: Trajectory) -> list[str]:
         lines.append("REF_FRAME J2000_ECLIPTIC: mean ecliptic and equinox of J2000, EME2000 rotated "
                      f"about x by the IAU 2006 obliquity {OBLIQUITY_J2000_ARCSEC} arcsec (not a registry value)")
     if _frames.time_system(traj.time_system) == "UTC":
-        from ..time.scales import leap_second_table, mjd_to_iso_date
         table = leap_second_table()
         lines.append(f"UTC epochs: leap-second table valid until {mjd_to_iso_date(table.valid_until_mjd)}, "
                      f"TAI-UTC = {table.tai_minus_utc_s[-1]:g} s assumed after it; a leap second announced "
@@ -592,7 +590,6 @@ def oem_xml_text(traj: Trajectory, *, creation_date: str | None = None, interpol
                  degree: int = 5) -> str:
     """The OEM in XML (CCSDS 505.0-B, XML Specification for Navigation Data Messages; element
     names as the KVN keywords, one ``stateVector`` per line of data -- from memory)."""
-    from xml.sax.saxutils import escape
     (hcom, hkv), segments = _oem_parts(traj, creation_date, interpolation, degree)
     out = io.StringIO()
     w = out.write
@@ -915,7 +912,6 @@ def _comment_keys(comments, keys, man_texts):
 def read_oem_xml(path) -> ReadResult:
     """Read an OEM in XML (``<oem><header/><body><segment><metadata/><data>`` with
     ``stateVector`` elements), ours or another writer's; covariance ignored."""
-    import xml.etree.ElementTree as ET
     try:
         root = ET.parse(path).getroot()
     except OSError as e:

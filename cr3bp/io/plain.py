@@ -7,7 +7,35 @@ import numpy as np
 
 
 def json_default(o):
-    """numpy arrays and scalars as lists and numbers; result objects through ``to_dict()``."""
+    """The ``default`` hook of :func:`json.dumps` for the library's values.
+
+    numpy arrays and scalars become lists and numbers; result objects go through ``to_dict()``.
+
+    Parameters
+    ----------
+    o : object
+        A value :mod:`json` cannot write by itself.
+
+    Returns
+    -------
+    object
+        A plain value.
+
+    Raises
+    ------
+    TypeError
+        A value with no plain form (as :func:`json.dumps` expects).
+
+    Examples
+    --------
+    >>> import json, numpy as np
+    >>> json.dumps({"x": np.arange(2)}, default=json_default)
+    '{"x": [0, 1]}'
+
+    References
+    ----------
+    RFC 8259, "The JavaScript Object Notation (JSON) Data Interchange Format" (2017).
+    """
     if isinstance(o, np.ndarray):
         return o.tolist()
     if isinstance(o, np.generic):
@@ -18,8 +46,36 @@ def json_default(o):
 
 
 def plain(d):
-    """``d`` with every numpy array and scalar inside dicts, lists and tuples made plain (lists,
-    Python numbers); tuples become lists. Other values are returned as they are."""
+    """``d`` with every numpy array and scalar inside dicts, lists and tuples made plain.
+
+    Arrays become lists, numpy scalars Python numbers, tuples lists; other values are returned as
+    they are.
+
+    Parameters
+    ----------
+    d : object
+        A nested value.
+
+    Returns
+    -------
+    object
+        The same structure with plain values.
+
+    Raises
+    ------
+    RecursionError
+        A structure nested deeper than Python's recursion limit.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> plain({"a": (np.float64(1.5), np.arange(2))})
+    {'a': [1.5, [0, 1]]}
+
+    References
+    ----------
+    RFC 8259, "The JavaScript Object Notation (JSON) Data Interchange Format" (2017).
+    """
     if isinstance(d, dict):
         return {k: plain(v) for k, v in d.items()}
     if isinstance(d, (list, tuple)):

@@ -5,11 +5,46 @@ OEM, CSV and JSON writers take."""
 from __future__ import annotations
 
 import numpy as np
+from . import export
+from ..dynamics import jacobi
 
 
 def trajectory_rows(result):
-    """CSV rows of the stitched trajectory: time (TU and d), segment, state (LU, LU/TU), km, Jacobi."""
-    from ..dynamics import jacobi
+    """CSV rows of the stitched trajectory: time (TU and d), segment, state (LU, LU/TU), km, Jacobi.
+
+    Parameters
+    ----------
+    result : StitchResult
+        A stitched route (:mod:`cr3bp.transfers.stitch`): ``system``, ``times_tu``,
+        ``times_days``, ``segment`` and ``states``.
+
+    Returns
+    -------
+    header : list of str
+        The column names.
+    rows : list of list
+        One row per sample.
+
+    Raises
+    ------
+    AttributeError
+        A result without the stitched trajectory.
+
+    Examples
+    --------
+    >>> from types import SimpleNamespace
+    >>> from cr3bp.systems import system
+    >>> r = SimpleNamespace(system=system("earth-moon"), times_tu=[0.0], times_days=[0.0],
+    ...                     segment=[0], states=np.array([[0.8, 0.0, 0.0, 0.0, 0.1, 0.0]]))
+    >>> header, rows = trajectory_rows(r)
+    >>> header[-1], round(rows[0][9])
+    ('jacobi', 307520)
+
+    References
+    ----------
+    RFC 4180, "Common Format and MIME Type for Comma-Separated Values (CSV) Files" (2005);
+    Szebehely, V., "Theory of Orbits", Academic Press (1967) (the Jacobi constant).
+    """
     s = result.system
     C = jacobi(s.mu, result.states)
     rows = []
@@ -22,10 +57,39 @@ def trajectory_rows(result):
 
 
 def to_export(result, frame_spec, object_name="LIBRATE ROUTE"):
-    """The stitched route as a :class:`cr3bp.io.export.Trajectory` (maneuver-free segments
-    joined at the maneuvers, impulses in the rotating frame nondimensional), ready for
-    ``export.write_oem`` / ``write_csv`` / ``write_json``."""
-    from . import export
+    """The stitched route as a :class:`cr3bp.io.export.Trajectory`.
+
+    Maneuver-free segments joined at the maneuvers, impulses in the rotating frame
+    nondimensional, ready for ``export.write_oem`` / ``write_csv`` / ``write_json``.
+
+    Parameters
+    ----------
+    result : StitchResult
+        A stitched route (:mod:`cr3bp.transfers.stitch`).
+    frame_spec : FrameSpec
+        Where the trajectory is put (:func:`cr3bp.time.frames.frame`).
+    object_name : str, optional
+        The object's name in the files.
+
+    Returns
+    -------
+    Trajectory
+        The segments and maneuvers.
+
+    Raises
+    ------
+    ValueError
+        A result without samples (nothing to join).
+
+    Examples
+    --------
+    >>> traj = to_export(stitched, spec)          # doctest: +SKIP
+
+    References
+    ----------
+    CCSDS 502.0-B-3, "Orbit Data Messages", Blue Book (2023) (the OEM the trajectory is written
+    to).
+    """
     s = result.system
     man_t = [m["t_days"] / s.time_days for m in result.maneuvers]
     inner = man_t[1:-1] if len(man_t) >= 2 else []

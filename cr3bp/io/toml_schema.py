@@ -18,6 +18,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from ..errors import InputError, shown
+from .. import units
 
 __all__ = ["Problem", "ScenarioError", "check_document", "line_index", "line_of", "key_parts", "path_text",
            "read_text", "parse_toml", "MAX_FILE_BYTES", "MAX_TEXT_CHARS",
@@ -35,6 +36,30 @@ S, F, I, B, Q = "str", "float", "int", "bool", "quantity"
 
 @dataclass(frozen=True)
 class Problem:
+    """One problem of a file: where it is (file, line, key) and what is wrong.
+
+    Parameters
+    ----------
+    file : str
+        The file as named in messages.
+    line : int
+        1-based line.
+    key : str
+        Dotted key (``exports[1].step``).
+    message : str
+        What is wrong and what is allowed.
+    kind : {"type", "meaning"}, optional
+        A value that cannot be read, or a readable value that is not allowed here.
+
+    Examples
+    --------
+    >>> str(Problem("farlight.toml", 3, "system.name", "unknown system 'x'"))
+    "farlight.toml:3: system.name: unknown system 'x'"
+
+    References
+    ----------
+    TOML v1.0.0 (2021), https://toml.io/en/v1.0.0.
+    """
     file: str
     line: int
     key: str
@@ -48,7 +73,23 @@ class Problem:
 
 
 class ScenarioError(InputError):
-    """One or more problems in a scenario file or a node list; ``problems`` lists them all."""
+    """One or more problems in a scenario file or a node list; ``problems`` lists them all.
+
+    Parameters
+    ----------
+    problems : iterable of Problem
+        Every problem found; the message has one line per problem.
+
+    Examples
+    --------
+    >>> e = ScenarioError([Problem("a.toml", 1, "x", "bad"), Problem("a.toml", 2, "y", "worse")])
+    >>> str(e).splitlines()
+    ['a.toml:1: x: bad', 'a.toml:2: y: worse']
+
+    References
+    ----------
+    TOML v1.0.0 (2021), https://toml.io/en/v1.0.0.
+    """
 
     def __init__(self, problems):
         self.problems = list(problems)
@@ -61,7 +102,32 @@ _KEY = re.compile(r"^\s*([A-Za-z0-9_\-\"'.]+)\s*=")
 
 
 def line_index(text: str) -> dict:
-    """Map dotted keys (with list positions as ``name[i]``) to their line numbers (1-based)."""
+    """Map dotted keys (with list positions as ``name[i]``) to their line numbers (1-based).
+
+    Parameters
+    ----------
+    text : str
+        TOML text.
+
+    Returns
+    -------
+    dict
+        Dotted key -> line.
+
+    Raises
+    ------
+    TypeError
+        ``text`` is not text.
+
+    Examples
+    --------
+    >>> line_index("[system]\\nname = 'earth-moon'\\n")["system.name"]
+    2
+
+    References
+    ----------
+    TOML v1.0.0 (2021), https://toml.io/en/v1.0.0 (tables, arrays of tables).
+    """
     where: dict[str, int] = {}
     prefix = ""
     counts: dict[str, int] = {}
@@ -97,20 +163,102 @@ _PART = re.compile(r"([^.\[\]]+)|\[(\d+)\]")
 
 
 def key_parts(key: str) -> list:
-    """``"exports[1].step"`` -> ``["exports", 1, "step"]``."""
+    """``"exports[1].step"`` -> ``["exports", 1, "step"]``.
+
+    Parameters
+    ----------
+    key : str
+        A dotted key with list positions.
+
+    Returns
+    -------
+    list
+        Names and list indices.
+
+    Raises
+    ------
+    ValueError
+        A malformed list position.
+
+    Examples
+    --------
+    >>> key_parts("exports[1].step")
+    ['exports', 1, 'step']
+
+    References
+    ----------
+    TOML v1.0.0 (2021), https://toml.io/en/v1.0.0 (dotted keys).
+    """
     return [int(i) if i else k for k, i in _PART.findall(key)]
 
 
 def path_text(path) -> str:
-    """A file path as it goes into a FILE:LINE message: whole, with any control character
-    escaped (so a message stays one line)."""
+    """A file path as it goes into a FILE:LINE message.
+
+    Whole, with any control character escaped (so a message stays one line).
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The path.
+
+    Returns
+    -------
+    str
+        The printable path.
+
+    Raises
+    ------
+    TypeError
+        Not a path.
+
+    Examples
+    --------
+    >>> path_text("a\\nb.toml")
+    'a\\\\nb.toml'
+
+    References
+    ----------
+    Common practice (the FILE:LINE: form of compiler messages).
+    """
     t = str(path)
     return t if t.isprintable() else t.encode("unicode_escape").decode("ascii")
 
 
 def read_text(path, what: str = "scenario") -> str:
-    """The text of a scenario-like file: at most MAX_FILE_BYTES, UTF-8, no NUL bytes;
-    otherwise one InputError line naming the file."""
+    """The text of a scenario-like file, checked.
+
+    At most :data:`MAX_FILE_BYTES`, UTF-8, no NUL bytes; otherwise one InputError line naming
+    the file.
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The file.
+    what : str, optional
+        What the file is, for messages.
+
+    Returns
+    -------
+    str
+        The text.
+
+    Raises
+    ------
+    InputError
+        A missing, unreadable, too large, non-UTF-8 or binary file.
+
+    Examples
+    --------
+    >>> read_text("no-such-file.toml")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: ...
+
+    References
+    ----------
+    RFC 3629, "UTF-8, a transformation format of ISO 10646" (2003).
+    """
     path = Path(path)
     where = path_text(path)
     try:
@@ -136,7 +284,34 @@ def read_text(path, what: str = "scenario") -> str:
 
 
 def parse_toml(text: str, file: str) -> dict:
-    """TOML text -> dict; a syntax error or an absurdly nested value is one ScenarioError."""
+    """TOML text -> dict; a syntax error or an absurdly nested value is one ScenarioError.
+
+    Parameters
+    ----------
+    text : str
+        TOML text.
+    file : str
+        The file as named in messages.
+
+    Returns
+    -------
+    dict
+        The document.
+
+    Raises
+    ------
+    ScenarioError
+        A syntax error (with its line) or nesting too deep.
+
+    Examples
+    --------
+    >>> parse_toml("a = 1", "x.toml")
+    {'a': 1}
+
+    References
+    ----------
+    TOML v1.0.0 (2021), https://toml.io/en/v1.0.0.
+    """
     try:
         return tomllib.loads(text)
     except tomllib.TOMLDecodeError as e:
@@ -148,7 +323,34 @@ def parse_toml(text: str, file: str) -> dict:
 
 
 def line_of(lines: dict, key: str) -> int:
-    """The line of ``key`` or of the nearest table holding it (1 when none is known)."""
+    """The line of ``key`` or of the nearest table holding it (1 when none is known).
+
+    Parameters
+    ----------
+    lines : dict
+        :func:`line_index` of the file.
+    key : str
+        A dotted key.
+
+    Returns
+    -------
+    int
+        1-based line.
+
+    Raises
+    ------
+    ValueError
+        A malformed key.
+
+    Examples
+    --------
+    >>> line_of({"system": 1, "system.name": 2}, "system.mu")
+    1
+
+    References
+    ----------
+    TOML v1.0.0 (2021), https://toml.io/en/v1.0.0.
+    """
     while key:
         if key in lines:
             return lines[key]
@@ -177,6 +379,25 @@ def check_document(data: dict, lines: dict, file: str, schema: dict, text: str |
         keys (the scenario's ``checks`` tables).
     unknown_reason : callable(keys, prefix, key) -> str or None, optional
         A better message for an unknown key (a withdrawn key and what replaces it).
+
+    Returns
+    -------
+    list of Problem
+        Sorted by line; empty when the document fits the schema.
+
+    Raises
+    ------
+    KeyError
+        A schema entry of an unknown type (a programming error).
+
+    Examples
+    --------
+    >>> check_document({"a": "x"}, {"a": 1}, "f.toml", {"a": ("int", True, "a count")})[0].key
+    'a'
+
+    References
+    ----------
+    TOML v1.0.0 (2021), https://toml.io/en/v1.0.0.
     """
     problems: list[Problem] = []
     text_lines = text.splitlines() if text is not None else None
@@ -238,7 +459,6 @@ def check_document(data: dict, lines: dict, file: str, schema: dict, text: str |
             if not isinstance(v, bool):
                 bad(full, v, "true or false")
         elif typ == Q:
-            from .. import units
             if not isinstance(v, str):
                 return bad(full, v, "text with a unit, e.g. '200km'")
             if not plain_text(v, full):

@@ -47,6 +47,9 @@ import numpy as np
 
 from ..errors import InputError, NoSolutionError
 from .keeping import Errors
+from ..cautions import caution
+from ..integrate import propagate, propagate_batch
+from ..tubes.manifolds import manifold_starts
 
 #: Integration tolerance of the nominal and the trials (relative and absolute).
 RTOL = 1e-12
@@ -64,13 +67,30 @@ MODEL_TEXT = ("circular restricted three-body model (rotating frame); fixed-time
 class Nominal:
     """The ballistic arc from just after the last maneuver (t = 0) to the insertion (t = tf_tu).
 
-    Attributes
+    Parameters
     ----------
     system : System
-    x0 : ndarray (6,)      state just after the last maneuver (nondimensional, rotating)
-    tf_tu : float          coast to the insertion, TU
-    burn_mps : float       the last maneuver's magnitude (scales its proportional error), m/s
-    label : str            what the arc is, for outputs
+        The system (dimensional).
+    x0 : numpy.ndarray, shape (6,)
+        State just after the last maneuver (nondimensional, rotating).
+    tf_tu : float
+        Coast to the insertion, TU.
+    burn_mps : float
+        The last maneuver's magnitude (scales its proportional error), m/s.
+    label : str
+        What the arc is, for outputs.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> em = system("earth-moon")
+    >>> Nominal(em, np.zeros(6), 1.0, 20.0, "demo").to_dict()["last_maneuver_mps"]
+    20.0
+
+    References
+    ----------
+    Geller, D. K., "Linear covariance techniques for orbital rendezvous analysis and autonomous
+    onboard mission planning", Journal of Guidance, Control, and Dynamics 29(6), 1404 (2006).
     """
 
     system: object
@@ -87,12 +107,51 @@ class Nominal:
 
 def manifold_insertion(orbit, phase_deg: float, coast_tu: float, burn_mps: float, *,
                        branch: str = "interior", step_km=None) -> Nominal:
-    """The coast along ``orbit``'s stable manifold that reaches the orbit at ``phase_deg``
-    (the manifold's step-off point there, :func:`cr3bp.tubes.manifolds.manifold_starts`),
-    starting ``coast_tu`` before: the last maneuver (of size ``burn_mps``) puts the spacecraft
-    on the manifold at its start."""
-    from ..integrate import propagate
-    from ..tubes.manifolds import manifold_starts
+    """The coast along ``orbit``'s stable manifold that reaches the orbit at ``phase_deg``.
+
+    The manifold's step-off point there (:func:`cr3bp.tubes.manifolds.manifold_starts`), traced
+    back ``coast_tu``: the last maneuver (of size ``burn_mps``) puts the spacecraft on the
+    manifold at its start.
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+        Of a dimensional system.
+    phase_deg : float
+        Where on the orbit the manifold arrives, degrees of the period.
+    coast_tu : float
+        Coast from the last maneuver to the insertion, TU (positive).
+    burn_mps : float
+        The last maneuver's magnitude, m/s (0..100000).
+    branch : {"interior", "exterior"}, optional
+        The manifold's branch.
+    step_km : float, optional
+        The step-off distance (default of :mod:`cr3bp.tubes.manifolds`).
+
+    Returns
+    -------
+    Nominal
+        The arc.
+
+    Raises
+    ------
+    InputError
+        A non-positive coast, a burn out of range, a system without units.
+    NoSolutionError
+        The manifold traced back stops early (impact, escape).
+
+    Examples
+    --------
+    >>> from cr3bp import orbit, system
+    >>> nrho = orbit(system("earth-moon"), "halo L2 south resonance=9:2")   # doctest: +SKIP
+    >>> nom = manifold_insertion(nrho, 0.0, 10 / nrho.system.time_days, 20.0)  # doctest: +SKIP
+
+    References
+    ----------
+    Gómez, G., Koon, W. S., Lo, M. W., Marsden, J. E., Masdemont, J. & Ross, S. D., "Connecting
+    orbits and invariant manifolds in the spatial restricted three-body problem", Nonlinearity 17,
+    1571 (2004) (stable manifolds as insertion paths).
+    """
     s = orbit.system
     s.require_dimensional("an insertion dispersion in km and m/s")
     if not (isinstance(coast_tu, (int, float)) and math.isfinite(coast_tu) and coast_tu > 0):
@@ -112,8 +171,37 @@ def manifold_insertion(orbit, phase_deg: float, coast_tu: float, burn_mps: float
 
 
 def after_last_maneuver(leg) -> Nominal:
-    """The arc of a computed leg (:class:`cr3bp.transfers.leg.Leg`) from its last maneuver
-    to its arrival (``tof_arrival``, else ``tof``): the segment that starts at that maneuver."""
+    """The arc of a computed leg from its last maneuver to its arrival.
+
+    The segment of the leg (:class:`cr3bp.transfers.leg.Leg`) that starts at that maneuver, up to
+    ``tof_arrival`` (else ``tof``).
+
+    Parameters
+    ----------
+    leg : Leg
+        A computed leg with at least one maneuver, of a dimensional system.
+
+    Returns
+    -------
+    Nominal
+        The arc.
+
+    Raises
+    ------
+    InputError
+        A system without units.
+    NoSolutionError
+        The leg has no maneuver or no ballistic arc after its last one.
+
+    Examples
+    --------
+    >>> nom = after_last_maneuver(leg)          # doctest: +SKIP
+
+    References
+    ----------
+    Geller, D. K., "Linear covariance techniques for orbital rendezvous analysis and autonomous
+    onboard mission planning", Journal of Guidance, Control, and Dynamics 29(6), 1404 (2006).
+    """
     s = leg.system
     s.require_dimensional("an insertion dispersion in km and m/s")
     if not leg.maneuvers:
@@ -131,8 +219,34 @@ def after_last_maneuver(leg) -> Nominal:
 # ---- linear covariance ------------------------------------------------------------------------
 
 def mean_norm(cov: np.ndarray) -> float:
-    """E|v| of a zero-mean Gaussian vector of covariance ``cov`` (module docstring)."""
-    from scipy.integrate import quad
+    """E|v| of a zero-mean Gaussian vector of covariance ``cov`` (module notes).
+
+    Parameters
+    ----------
+    cov : numpy.ndarray, shape (n, n)
+        Symmetric positive semi-definite covariance.
+
+    Returns
+    -------
+    float
+        The mean of the vector's length.
+
+    Raises
+    ------
+    numpy.linalg.LinAlgError
+        A covariance whose eigenvalues cannot be computed.
+
+    Examples
+    --------
+    >>> round(mean_norm(np.eye(3)), 9)                 # Maxwell: 2 sqrt(2 / pi)
+    1.595769122
+
+    References
+    ----------
+    Papoulis, A. & Pillai, S. U., "Probability, Random Variables and Stochastic Processes",
+    4th ed., McGraw-Hill (2002), sec. 6-3 (the Maxwell distribution; common practice).
+    """
+    from scipy.integrate import quad  # lazy: heavy library (scipy)
     lam = np.clip(np.linalg.eigvalsh(0.5 * (cov + cov.T)), 0.0, None)
     scale = lam.max()
     if scale <= 0.0:
@@ -151,7 +265,6 @@ def mean_norm(cov: np.ndarray) -> float:
 def _nominal(nom: Nominal, times: np.ndarray):
     """Nominal states at ``times`` (from the same batch integrator as the trials) and the STMs
     Phi(times[k+1], times[k])."""
-    from ..integrate import propagate, propagate_batch
     X = np.empty((times.size, 6))
     X[0] = nom.x0
     phis = []
@@ -170,11 +283,39 @@ def _sigmas(nom: Nominal, errors: Errors):
 
 
 def linear_covariance(nom: Nominal, corrections_tu, errors: Errors) -> dict:
-    """The linear covariance estimate (module docstring), nondimensional.
+    """The linear covariance estimate (module notes), nondimensional.
 
-    Returns ``{"gains": (k, 3, 6), "dv_cov": (k, 3, 3) executed corrections, "P": (k + 2, 6, 6)
-    dispersion covariance at time 0 (after the last maneuver), before each correction and at the
-    insertion, "P_uncorrected": (6, 6) at the insertion without corrections, "times", "states"}``.
+    Parameters
+    ----------
+    nom : Nominal
+        The arc.
+    corrections_tu : array_like, shape (k,)
+        Correction times after the last maneuver, TU.
+    errors : Errors
+        The error model.
+
+    Returns
+    -------
+    dict
+        ``{"gains": (k, 3, 6), "dv_cov": (k, 3, 3)`` executed corrections, ``"P": (k + 2, 6, 6)``
+        dispersion covariance at time 0 (after the last maneuver), before each correction and at
+        the insertion, ``"P_uncorrected": (6, 6)`` at the insertion without corrections,
+        ``"times", "states"}``.
+
+    Raises
+    ------
+    NoSolutionError
+        The nominal cannot be propagated to the insertion.
+
+    Examples
+    --------
+    >>> lin = linear_covariance(nom, [0.5], Errors(1.0, 0.01, 0.01, 0.001))   # doctest: +SKIP
+
+    References
+    ----------
+    Geller, D. K., "Linear covariance techniques for orbital rendezvous analysis and autonomous
+    onboard mission planning", Journal of Guidance, Control, and Dynamics 29(6), 1404 (2006)
+    (from memory).
     """
     times = np.concatenate([[0.0], np.asarray(corrections_tu, dtype=float), [nom.tf_tu]])
     X, phis = _nominal(nom, times)
@@ -210,10 +351,44 @@ def linear_covariance(nom: Nominal, corrections_tu, errors: Errors) -> dict:
 # ---- Monte Carlo ------------------------------------------------------------------------------
 
 def monte_carlo(nom: Nominal, corrections_tu, errors: Errors, trials: int, seed: int, lin: dict) -> dict:
-    """The trials (module docstring): ``dv`` (n, k, 3) executed corrections, ``final`` (n, 6)
-    true deviation from the nominal at the insertion, ``lost`` (n,) bool (the integrator
-    stopped: impact or step limit), nondimensional."""
-    from ..integrate import propagate_batch
+    """The Monte Carlo trials (module notes), nondimensional.
+
+    Parameters
+    ----------
+    nom : Nominal
+        The arc.
+    corrections_tu : array_like, shape (k,)
+        Correction times after the last maneuver, TU.
+    errors : Errors
+        The error model.
+    trials : int
+        Number of trials.
+    seed : int
+        The run's seed.
+    lin : dict
+        :func:`linear_covariance` of the same arc (its gains and nominal states are reused).
+
+    Returns
+    -------
+    dict
+        ``dv`` (n, k, 3) executed corrections, ``final`` (n, 6) true deviation from the nominal
+        at the insertion, ``lost`` (n,) bool (the integrator stopped: impact or step limit).
+
+    Raises
+    ------
+    ValueError
+        A ``lin`` not made for these correction times.
+
+    Examples
+    --------
+    >>> mc = monte_carlo(nom, [0.5], errors, 200, 1, lin)      # doctest: +SKIP
+
+    References
+    ----------
+    Geller, D. K., "Linear covariance techniques for orbital rendezvous analysis and autonomous
+    onboard mission planning", Journal of Guidance, Control, and Dynamics 29(6), 1404 (2006)
+    (the Monte Carlo it is compared with).
+    """
     times, X_nom, gains = lin["times"], lin["states"], lin["gains"]
     k = times.size - 2
     nav, s_p, s_f, burn = _sigmas(nom, errors)
@@ -247,14 +422,30 @@ def monte_carlo(nom: Nominal, corrections_tu, errors: Errors, trials: int, seed:
 class Dispersion:
     """Insertion dispersion: the Monte Carlo and the linear covariance estimate (CR3BP).
 
-    Attributes
+    Parameters
     ----------
     nominal : Nominal
-    corrections_tu : ndarray (k,)   correction times from the last maneuver, TU
+        The arc.
+    corrections_tu : numpy.ndarray, shape (k,)
+        Correction times from the last maneuver, TU.
     errors : Errors
+        The error model.
     trials, seed : int
-    linear : dict                   :func:`linear_covariance`
-    mc : dict                       :func:`monte_carlo`
+        The Monte Carlo's size and seed.
+    linear : dict
+        :func:`linear_covariance`.
+    mc : dict
+        :func:`monte_carlo`.
+
+    Examples
+    --------
+    >>> d = dispersion(nom, [0.5], Errors(1.0, 0.01, 0.01, 0.001), 500)   # doctest: +SKIP
+    >>> d.summary()                                                        # doctest: +SKIP
+
+    References
+    ----------
+    Geller, D. K., "Linear covariance techniques for orbital rendezvous analysis and autonomous
+    onboard mission planning", Journal of Guidance, Control, and Dynamics 29(6), 1404 (2006).
     """
 
     nominal: Nominal
@@ -317,7 +508,6 @@ class Dispersion:
         }
 
     def to_dict(self) -> dict:
-        from ..cautions import caution
         return {"model": MODEL_TEXT, "nominal": self.nominal.to_dict(),
                 "correction_days": (self.corrections_tu * self.system.time_days).tolist(),
                 "errors": dict(self.errors.to_dict(), sigma="1-sigma per axis (rotating frame), Gaussian"),
@@ -325,17 +515,46 @@ class Dispersion:
 
 
 def dispersion(nom: Nominal, corrections_tu, errors: Errors, trials: int, seed: int = 0) -> Dispersion:
-    """Insertion dispersion of ``nom`` with corrections at ``corrections_tu`` (TU after the last
-    maneuver; strictly inside the coast, increasing) under ``errors`` (module docstring).
+    """Insertion dispersion of ``nom`` with corrections under ``errors`` (module notes).
+
+    Parameters
+    ----------
+    nom : Nominal
+        The arc.
+    corrections_tu : array_like
+        Correction times, TU after the last maneuver; strictly inside the coast, increasing; at
+        most :data:`MAX_CORRECTIONS`.
+    errors : Errors
+        The error model.
+    trials : int
+        Monte Carlo trials, 1..1000000.
+    seed : int, optional
+        The run's seed.
+
+    Returns
+    -------
+    Dispersion
+        Both estimates, side by side.
+
+    Raises
+    ------
+    InputError
+        Errors not an :class:`Errors`, trials out of range, bad correction times.
+    NoSolutionError
+        The nominal cannot be propagated.
 
     Examples
     --------
-    >>> from cr3bp import system                                             # doctest: +SKIP
-    >>> from cr3bp.orbits.request import solve_request                       # doctest: +SKIP
-    >>> o = solve_request(system("earth-moon"), "halo L2 south resonance=9:2")  # doctest: +SKIP
-    >>> nom = manifold_insertion(o, 0.0, 10 / o.system.time_days, 20.0)      # doctest: +SKIP
-    >>> d = dispersion(nom, [1 / o.system.time_days], Errors(1.0, 0.01, 0.01, 0.001), 500)  # doctest: +SKIP
-    >>> d.summary()["total_correction_mps"]                                  # doctest: +SKIP
+    >>> from cr3bp import orbit, system
+    >>> nrho = orbit(system("earth-moon"), "halo L2 south resonance=9:2")     # doctest: +SKIP
+    >>> nom = manifold_insertion(nrho, 0.0, 10 / nrho.system.time_days, 20.0)  # doctest: +SKIP
+    >>> d = dispersion(nom, [1 / nrho.system.time_days], Errors(1.0, 0.01, 0.01, 0.001), 500)  # doctest: +SKIP
+
+    References
+    ----------
+    Geller, D. K., "Linear covariance techniques for orbital rendezvous analysis and autonomous
+    onboard mission planning", Journal of Guidance, Control, and Dynamics 29(6), 1404 (2006)
+    (from memory).
     """
     if not isinstance(errors, Errors):
         raise InputError("errors must be an Errors")

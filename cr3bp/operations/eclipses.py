@@ -27,6 +27,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
+from ..systems import body
+from ..time.frames import epoch_to_text
 
 #: Bisection halvings of each pass edge: a 300 s sample step gives edges to 0.3 ms.
 EDGE_BISECTIONS = 20
@@ -36,17 +38,67 @@ KINDS = ("umbra", "penumbra")
 
 
 def _radius_km(name: str) -> float:
-    from ..systems import body
     return float(body(name).radius_km)
 
 
 def radii_km() -> dict:
-    """Mean radii (km) of the Sun, the Earth and the Moon from ``data/systems.toml``."""
+    """Mean radii (km) of the Sun, the Earth and the Moon from ``data/systems.toml``.
+
+    Returns
+    -------
+    dict
+        ``{"sun": km, "earth": km, "moon": km}``.
+
+    Raises
+    ------
+    InputError
+        A body missing from the data file (a damaged installation).
+
+    Examples
+    --------
+    >>> round(radii_km()["moon"])
+    1737
+
+    References
+    ----------
+    Archinal, B. A. et al., "Report of the IAU Working Group on Cartographic Coordinates and
+    Rotational Elements: 2015", Celestial Mechanics and Dynamical Astronomy 130, 22 (2018)
+    (mean radii, as tabulated in ``data/systems.toml`` with their sources).
+    """
     return {n: _radius_km(n) for n in ("sun", "earth", "moon")}
 
 
 def disc_angles(r, r_sun, r_body, radius_body_km, radius_sun_km):
-    """Apparent radii ``a`` (Sun), ``b`` (body) and separation ``c`` (rad), each (N,)."""
+    """Apparent radii ``a`` (Sun), ``b`` (body) and their separation ``c`` seen from ``r``.
+
+    Parameters
+    ----------
+    r, r_sun, r_body : array_like, shape (N, 3) or (3,)
+        Spacecraft, Sun and occulting body, km, about one common origin, on common axes.
+    radius_body_km, radius_sun_km : float
+        Radii of the occulting body and the Sun, km.
+
+    Returns
+    -------
+    a, b, c : numpy.ndarray, shape (N,)
+        Radians.
+
+    Raises
+    ------
+    ValueError
+        Positions that do not broadcast to (N, 3).
+
+    Examples
+    --------
+    >>> a, b, c = disc_angles([0, 0, 0], [1.496e8, 0, 0], [384400.0, 0, 0], 1737.4, 695700.0)
+    >>> round(float(np.degrees(a[0])), 3), round(float(np.degrees(b[0])), 3), round(float(c[0]), 6)
+    (0.266, 0.259, 0.0)
+
+    References
+    ----------
+    Montenbruck, O. & Gill, E., "Satellite Orbits: Models, Methods and Applications",
+    Springer (2000), sec. 3.4.2.
+    """
     r = np.atleast_2d(np.asarray(r, dtype=float))
     d_sun = np.atleast_2d(np.asarray(r_sun, dtype=float)) - r
     s = r - np.atleast_2d(np.asarray(r_body, dtype=float))
@@ -60,7 +112,34 @@ def disc_angles(r, r_sun, r_body, radius_body_km, radius_sun_km):
 
 
 def fraction_from_angles(a, b, c):
-    """Visible fraction of the Sun's disc from the apparent radii and separation (rad)."""
+    """Visible fraction of the Sun's disc from the apparent radii and separation (rad).
+
+    Parameters
+    ----------
+    a, b, c : float or array_like
+        Apparent radius of the Sun, of the occulting body, and their separation, radians
+        (broadcast together).
+
+    Returns
+    -------
+    numpy.ndarray
+        The visible fraction in [0, 1]: 1 in sunlight, 0 in umbra.
+
+    Raises
+    ------
+    ValueError
+        Inputs that cannot be converted to floats.
+
+    Examples
+    --------
+    >>> fraction_from_angles(0.01, 0.02, 0.0).tolist(), fraction_from_angles(0.01, 0.005, 0.0).tolist()
+    (0.0, 0.75)
+
+    References
+    ----------
+    Montenbruck, O. & Gill, E., "Satellite Orbits: Models, Methods and Applications",
+    Springer (2000), sec. 3.4.2 (conical shadow model).
+    """
     a, b, c = np.broadcast_arrays(*(np.asarray(x, dtype=float) for x in (a, b, c)))
     nu = np.ones(a.shape)
     total = c <= b - a
@@ -83,13 +162,32 @@ def visible_fraction(r, r_sun, r_body, radius_body_km, radius_sun_km=None):
 
     Parameters
     ----------
-    r, r_sun, r_body : array (N, 3) or (3,)
+    r, r_sun, r_body : array_like, shape (N, 3) or (3,)
         Spacecraft, Sun and occulting body, km, about one common origin, on common axes.
     radius_body_km : float
+        Radius of the occulting body, km.
     radius_sun_km : float, optional
         Default: the Sun's radius of ``data/systems.toml``.
 
-    Montenbruck & Gill (2000), sec. 3.4.2 (see the module docstring).
+    Returns
+    -------
+    numpy.ndarray, shape (N,)
+        1 in sunlight, 0 in umbra, between in penumbra or antumbra.
+
+    Raises
+    ------
+    ValueError
+        Positions that do not broadcast to (N, 3).
+
+    Examples
+    --------
+    >>> visible_fraction([[-7000.0, 0, 0]], [1.496e8, 0, 0], [0, 0, 0], 6371.0).tolist()
+    [0.0]
+
+    References
+    ----------
+    Montenbruck, O. & Gill, E., "Satellite Orbits: Models, Methods and Applications",
+    Springer (2000), sec. 3.4.2 (conical shadow model).
     """
     if radius_sun_km is None:
         radius_sun_km = _radius_km("sun")
@@ -98,8 +196,36 @@ def visible_fraction(r, r_sun, r_body, radius_body_km, radius_sun_km=None):
 
 @dataclass(frozen=True)
 class Pass:
-    """One eclipse pass: ``kind`` umbra (Sun fully hidden) or penumbra (any part hidden;
-    a penumbra pass contains the umbra pass of the same crossing, if any)."""
+    """One eclipse pass.
+
+    ``kind`` is umbra (Sun fully hidden) or penumbra (any part hidden; a penumbra pass contains
+    the umbra pass of the same crossing, if any).
+
+    Parameters
+    ----------
+    body : str
+        The occulting body.
+    kind : {"umbra", "penumbra"}
+        The shadow.
+    start_tdb_s, end_tdb_s : float
+        Edges, TDB seconds since J2000.
+    depth : float
+        Least visible fraction of the Sun's disc during the pass.
+    deepest_tdb_s : float
+        Sample time of the least visible fraction.
+    open_start, open_end : bool
+        The pass was already on at the first sample, or still on at the last.
+
+    Examples
+    --------
+    >>> Pass("earth", "umbra", 0.0, 600.0, 0.0, 300.0).duration_s
+    600.0
+
+    References
+    ----------
+    Montenbruck, O. & Gill, E., "Satellite Orbits: Models, Methods and Applications",
+    Springer (2000), sec. 3.4.2.
+    """
 
     body: str
     kind: str
@@ -115,7 +241,6 @@ class Pass:
         return self.end_tdb_s - self.start_tdb_s
 
     def to_dict(self) -> dict:
-        from ..time.frames import epoch_to_text
         s, e, d = epoch_to_text(np.array([self.start_tdb_s, self.end_tdb_s, self.deepest_tdb_s]), "UTC", 3)
         return {"body": self.body, "kind": self.kind, "start_utc": s + "Z", "end_utc": e + "Z",
                 "duration_min": self.duration_s / 60.0, "depth": self.depth, "deepest_utc": d + "Z",
@@ -151,21 +276,44 @@ def find_passes(tdb_s, geometry, bodies=BODIES, radii=None) -> list:
 
     Parameters
     ----------
-    tdb_s : array (N,)
+    tdb_s : array_like, shape (N,)
         Increasing epochs, TDB seconds since J2000; a pass shorter than the sample step
         may be missed (the caller chooses the step).
-    geometry : callable(tdb_s) -> dict
-        ``{"spacecraft": (N,3), "sun": (N,3), "earth": (N,3), "moon": (N,3)}`` km about one
-        common origin on common axes, at any epochs (called again at refined edge times).
-    bodies : iterable of "earth", "moon"
+    geometry : callable
+        ``geometry(tdb_s) -> {"spacecraft": (N,3), "sun": (N,3), "earth": (N,3), "moon": (N,3)}``
+        km about one common origin on common axes, at any epochs (called again at refined edge
+        times).
+    bodies : iterable of {"earth", "moon"}, optional
+        The occulting bodies.
     radii : dict, optional
         km for "sun", "earth", "moon"; default :func:`radii_km`.
 
     Returns
     -------
-    list of Pass, sorted by start. Edges: sign changes of ``c - (a+b)`` (penumbra) and
-    ``c - (b-a)`` (umbra) between samples, bisected :data:`EDGE_BISECTIONS` times on the
-    geometry re-evaluated (all edges together).
+    list of Pass
+        Sorted by start. Edges: sign changes of ``c - (a+b)`` (penumbra) and ``c - (b-a)``
+        (umbra) between samples, bisected :data:`EDGE_BISECTIONS` times on the geometry
+        re-evaluated (all edges together).
+
+    Raises
+    ------
+    InputError
+        Fewer than two or non-increasing epochs, or an unknown body.
+
+    Examples
+    --------
+    >>> def geometry(t):           # a spacecraft crossing behind the Earth along y
+    ...     n = len(t)
+    ...     sc = np.column_stack([np.full(n, -10000.0), np.asarray(t) - 50.0, np.zeros(n)])
+    ...     return {"spacecraft": sc, "sun": np.tile([1.496e8, 0, 0], (n, 1)),
+    ...             "earth": np.zeros((n, 3)), "moon": np.tile([0, 4e5, 0], (n, 1))}
+    >>> [(p.kind, round(p.duration_s)) for p in find_passes(np.linspace(-20000, 20000, 401), geometry)]
+    [('penumbra', 12836), ('umbra', 12650)]
+
+    References
+    ----------
+    Montenbruck, O. & Gill, E., "Satellite Orbits: Models, Methods and Applications",
+    Springer (2000), sec. 3.4.2.
     """
     t = np.asarray(tdb_s, dtype=float)
     if t.ndim != 1 or t.size < 2 or np.any(np.diff(t) <= 0):
@@ -217,7 +365,35 @@ def find_passes(tdb_s, geometry, bodies=BODIES, radii=None) -> list:
 
 
 def totals(passes, span_s: float) -> dict:
-    """Shadow time per body and kind: total minutes, per year (365.25 d), longest, count."""
+    """Shadow time per body and kind: total minutes, per year (365.25 d), longest, count.
+
+    Parameters
+    ----------
+    passes : list of Pass
+        From :func:`find_passes`.
+    span_s : float
+        The span the passes were searched over, s.
+
+    Returns
+    -------
+    dict
+        ``"earth umbra"`` etc. -> ``{"passes", "total_min", "per_year_min", "longest_min"}``.
+
+    Raises
+    ------
+    ZeroDivisionError
+        A zero span.
+
+    Examples
+    --------
+    >>> totals([Pass("earth", "umbra", 0.0, 600.0, 0.0, 300.0)], 86400.0)["earth umbra"]["total_min"]
+    10.0
+
+    References
+    ----------
+    Montenbruck, O. & Gill, E., "Satellite Orbits: Models, Methods and Applications",
+    Springer (2000), sec. 3.4.2 (the shadow model the passes come from).
+    """
     res = {}
     for body in BODIES:
         for kind in KINDS:

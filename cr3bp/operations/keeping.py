@@ -49,6 +49,13 @@ import numpy as np
 
 from ..errors import InputError, NoSolutionError
 from ..integrate.modes import MODE_EPHEMERIS
+import logging
+import multiprocessing
+from concurrent.futures import ProcessPoolExecutor, as_completed
+from ..cautions import caution
+from ..integrate.events import table
+from ..time import frames, ephemeris
+from ..transfers import tasks
 
 #: Continuity tolerance of the reference (nondimensional): tighter than the transition's
 #: default 1e-9 so that the reference's own seams (Earth-Moon: 4 mm, 10 um/s) stay far below
@@ -78,7 +85,33 @@ MODEL_TEXT = ("ephemeris point-mass model (DE421 positions; cr3bp.fidelity), x-a
 
 @dataclass(frozen=True)
 class Errors:
-    """Error model, 1-σ per axis: navigation (km, m/s) and execution (fraction, m/s)."""
+    """Error model, 1-σ per axis: navigation (km, m/s) and execution (fraction, m/s).
+
+    Parameters
+    ----------
+    nav_position_km, nav_velocity_mps : float
+        Navigation errors, 1-σ per axis of the J2000 equator axes.
+    burn_proportional : float
+        Execution error proportional to the burn (fraction, at most 1).
+    burn_fixed_mps : float
+        Execution error independent of the burn, m/s.
+
+    Raises
+    ------
+    InputError
+        A negative or non-finite value, or a proportional error over 100 %.
+
+    Examples
+    --------
+    >>> Errors(1.0, 0.01, 0.01, 0.001).scaled(2).nav_position_km
+    2.0
+
+    References
+    ----------
+    Gómez, G., Llibre, J., Martínez, R. & Simó, C., "Dynamics and Mission Design Near Libration
+    Points", vol. I, World Scientific (2001) (error models of libration-point station keeping,
+    common practice).
+    """
 
     nav_position_km: float = 0.0
     nav_velocity_mps: float = 0.0
@@ -107,19 +140,45 @@ class Errors:
 class Reference:
     """What every trial shares: the model, the maneuver slots and their first-order rows.
 
-    Attributes
+    Parameters
     ----------
-    model : Model                ephemeris model (cr3bp.fidelity.model)
-    epoch_tdb_s : float          model time 0
-    span_tu : float              the span maintained, TU
-    t_man : ndarray (K,)         maneuver epochs, TU from the epoch
-    x_man : ndarray (K, 6)       reference states there (nondimensional, inertial)
-    t_cross : ndarray (K,)       each maneuver's target crossing, TU
-    rows : ndarray (K, m, 6)     d(condition)/d(state at t_man); m = 1 (x velocity) or 2 (+ epoch)
-    x0 : ndarray (6,)            reference state at t = 0
-    period_tu : float            the CR3BP orbit's period
-    revs : int                   reference revolutions
-    info : dict                  the transition's figures (iterations, continuity, ...)
+    model : Model
+        Ephemeris model (:mod:`cr3bp.fidelity.model`).
+    epoch_tdb_s : float
+        Model time 0, TDB seconds since J2000.
+    span_tu : float
+        The span maintained, TU.
+    t_man : numpy.ndarray, shape (K,)
+        Maneuver epochs, TU from the epoch.
+    x_man : numpy.ndarray, shape (K, 6)
+        Reference states there (nondimensional, inertial).
+    t_cross : numpy.ndarray, shape (K,)
+        Each maneuver's target crossing, TU.
+    rows : numpy.ndarray, shape (K, m, 6)
+        d(condition)/d(state at t_man); m = 1 (x velocity) or 2 (and the epoch).
+    x0 : numpy.ndarray, shape (6,)
+        Reference state at t = 0.
+    period_tu : float
+        The CR3BP orbit's period.
+    revs : int
+        Reference revolutions.
+    hold_phase : bool
+        Whether the crossing epoch is held too.
+    target_revs : int
+        Revolutions from a maneuver to its target crossing.
+    interval_tu : float or None
+        Maneuver interval, or None for once a revolution.
+    info : dict
+        The transition's figures (iterations, continuity, ...).
+
+    Examples
+    --------
+    >>> ref = reference(orbit, "2031-03-01T00:00:00 TDB", 30.0 / orbit.system.time_days)  # doctest: +SKIP
+
+    References
+    ----------
+    Howell, K. C. & Pernicka, H. J., "Station-keeping method for libration point trajectories",
+    Journal of Guidance, Control, and Dynamics 16(1), 151 (1993) (from memory).
     """
 
     model: object
@@ -155,7 +214,6 @@ class Reference:
 # ---- the rotating frame of the reference ----------------------------------------------------
 
 def _frame(model, epoch_tdb_s):
-    from ..time import frames
     s = model.system
     spec = frames.frame(s, float(epoch_tdb_s), anchor="ephemeris", axes="j2000-equator", center="secondary")
     sec = frames._BODY.get(s.secondary.name, s.secondary.name)
@@ -165,7 +223,6 @@ def _frame(model, epoch_tdb_s):
 def _rotating(model, frame, t_tu, X):
     """Nondimensional inertial states about the central body -> rotating states (the project's
     ephemeris-anchored, pulsating frame, :func:`cr3bp.time.frames.from_frame`)."""
-    from ..time import ephemeris, frames
     spec, sec = frame
     s = model.system
     t = np.atleast_1d(np.asarray(t_tu, dtype=float))
@@ -183,7 +240,7 @@ def _scale(s):
 
 def _state_at(model, patches, t_patch, t):
     """Reference states at times ``t`` (TU), each propagated from the patch point before it."""
-    from ..fidelity import model as fm
+    from ..fidelity import model as fm  # lazy: heavy library (numba, via cr3bp.fidelity.model)
     t = np.atleast_1d(np.asarray(t, dtype=float))
     k = np.clip(np.searchsorted(t_patch, t, side="right") - 1, 0, len(t_patch) - 2)
     out = np.empty((t.size, 6))
@@ -214,7 +271,7 @@ def _crossings(model, frame, tr):
 def _condition_rows(model, frame, t_c, x_c, hold_phase):
     """d(condition at the crossing)/d(state at the crossing), (m, 6): the rotating x velocity
     with the crossing-time term, and (hold_phase) the crossing epoch."""
-    from ..fidelity import model as fm
+    from ..fidelity import model as fm  # lazy: heavy library (numba, via cr3bp.fidelity.model)
     n = 6
     h = 1e-6
     grads = np.empty((2, n))           # d y / dx, d q / dx at fixed epoch (affine map)
@@ -245,22 +302,54 @@ def reference(orbit, epoch, span_tu: float, *, bodies=("sun", "earth", "moon"), 
 
     Parameters
     ----------
-    orbit : PeriodicOrbit        of a dimensional system with an ephemeris pair
-    epoch : str or float         ISO text (Z = UTC) or TDB seconds since J2000
-    span_tu : float              span maintained (TU)
-    bodies, srp                  the force model (:func:`cr3bp.fidelity.model.build`)
-    target_revs : int            revolutions from a maneuver to its target crossing (1..10)
-    interval_tu : float, optional  maneuvers every interval instead of once a revolution
-    hold_phase : bool            hold the crossing epoch too
+    orbit : PeriodicOrbit
+        Of a dimensional system with an ephemeris pair.
+    epoch : str or float
+        ISO text (Z = UTC) or TDB seconds since J2000.
+    span_tu : float
+        Span maintained (TU).
+    bodies, srp
+        The force model (:func:`cr3bp.fidelity.model.build`).
+    target_revs : int, optional
+        Revolutions from a maneuver to its target crossing (1..10).
+    interval_tu : float, optional
+        Maneuvers every interval instead of once a revolution.
+    hold_phase : bool, optional
+        Hold the crossing epoch too.
+    progress : callable(str), optional
+        One line per step.
+
+    Returns
+    -------
+    Reference
+        The reference trajectory, maneuver slots and rows.
 
     Raises
     ------
-    InputError        a span beyond the transition's 200 revolutions, bad options
-    NoSolutionError   the reference does not cross the rotating x-z plane twice a revolution
-    ConvergenceError  the transition does not converge
+    InputError
+        A span beyond the transition's 200 revolutions, bad options.
+    NoSolutionError
+        The reference does not cross the rotating x-z plane twice a revolution.
+    ConvergenceError
+        The transition does not converge.
+
+    Examples
+    --------
+    >>> from cr3bp import orbit, system
+    >>> nrho = orbit(system("earth-moon"), "halo L2 south resonance=9:2")    # doctest: +SKIP
+    >>> ref = reference(nrho, "2031-03-01T00:00:00 TDB", 30 / nrho.system.time_days)  # doctest: +SKIP
+    >>> ref.t_man.size                                                       # doctest: +SKIP
+    4
+
+    References
+    ----------
+    Howell, K. C. & Pernicka, H. J., "Station-keeping method for libration point trajectories",
+    Journal of Guidance, Control, and Dynamics 16(1), 151 (1993); Davis, D. C. et al., "Orbit
+    maintenance and navigation of human spacecraft at cislunar near rectilinear halo orbits",
+    AAS 17-269 (2017) (both from memory).
     """
-    from ..fidelity import model as fm
-    from ..fidelity.transition import transition
+    from ..fidelity import model as fm  # lazy: heavy library (numba, via cr3bp.fidelity.model)
+    from ..fidelity.transition import transition  # lazy: heavy library (numba, via cr3bp.fidelity.transition)
     T = float(orbit.period)
     if not (math.isfinite(span_tu) and span_tu > 0):
         raise InputError(f"span {span_tu!r} TU must be positive")
@@ -316,7 +405,36 @@ def reference(orbit, epoch, span_tu: float, *, bodies=("sun", "earth", "moon"), 
 # ---- the trials ----------------------------------------------------------------------------
 
 def trial_rng(seed: int, trial: int):
-    """The trial's own generator (the same wherever the trial runs)."""
+    """The trial's own random generator (the same wherever the trial runs).
+
+    Parameters
+    ----------
+    seed : int
+        The run's seed.
+    trial : int
+        The trial's index.
+
+    Returns
+    -------
+    numpy.random.Generator
+        Seeded from ``SeedSequence(seed, spawn_key=(trial,))``.
+
+    Raises
+    ------
+    TypeError
+        Non-integer seed or trial.
+
+    Examples
+    --------
+    >>> float(trial_rng(1, 5).standard_normal()) == float(trial_rng(1, 5).standard_normal())
+    True
+
+    References
+    ----------
+    NumPy documentation, "Parallel random number generation" (SeedSequence spawning); O'Neill,
+    M. E., "PCG: A family of simple fast space-efficient statistically good algorithms for random
+    number generation", Harvey Mudd College HMC-CS-2014-0905 (2014).
+    """
     return np.random.default_rng(np.random.SeedSequence(int(seed), spawn_key=(int(trial),)))
 
 
@@ -329,9 +447,8 @@ def _draws(seed, trials, k):
 def _propagate(model, X, t0, t1, alive):
     """True states of the live trials from t0 to t1 (compiled, in parallel); a failed
     propagation (impact, step limit) marks its trial lost."""
-    from ..fidelity import model as fm
-    from ..fidelity.segments import integrate_segments
-    from ..integrate.events import table
+    from ..fidelity import model as fm  # lazy: heavy library (numba, via cr3bp.fidelity.model)
+    from ..fidelity.segments import integrate_segments  # lazy: heavy library (numba, via cr3bp.fidelity.segments)
     rows = np.nonzero(alive)[0]
     if rows.size == 0 or t1 <= t0:
         return X
@@ -351,11 +468,42 @@ def _propagate(model, X, t0, t1, alive):
 def simulate(ref: Reference, errors: Errors, trials, seed: int, min_burn_mps: float = 0.0) -> dict:
     """Run the trials ``trials`` (indices) together; arrays per trial (see :class:`Budget`).
 
-    Returns a dict of plain arrays: ``dv_mps`` (n, K, 3) executed burns (zeros where skipped,
-    inertial J2000 axes), ``planned_mps`` (n, K) planned magnitudes before the minimum-burn
-    rule, ``states`` (n, K + 1, 6) true states just before each maneuver and at the span's end
-    (nondimensional), ``deviation_km`` (n, K) true distance to the reference at each maneuver,
-    ``lost`` (n,) index of the maneuver at which a trial left the orbit (-1: kept).
+    Parameters
+    ----------
+    ref : Reference
+        From :func:`reference`.
+    errors : Errors
+        The error model.
+    trials : iterable of int
+        Trial indices (each draws from :func:`trial_rng`).
+    seed : int
+        The run's seed.
+    min_burn_mps : float, optional
+        Planned burns under this are skipped.
+
+    Returns
+    -------
+    dict
+        Plain arrays: ``dv_mps`` (n, K, 3) executed burns (zeros where skipped, inertial J2000
+        axes), ``planned_mps`` (n, K) planned magnitudes before the minimum-burn rule, ``states``
+        (n, K + 1, 6) true states just before each maneuver and at the span's end
+        (nondimensional), ``deviation_km`` (n, K) true distance to the reference at each
+        maneuver, ``lost`` (n,) index of the maneuver at which a trial left the orbit (-1: kept).
+
+    Raises
+    ------
+    ValueError
+        Arrays of the wrong shape (a reference not made by :func:`reference`); a trial that
+        leaves the orbit is marked ``lost``, not raised.
+
+    Examples
+    --------
+    >>> res = simulate(ref, Errors(1.0, 0.01), range(10), seed=1)    # doctest: +SKIP
+
+    References
+    ----------
+    Howell, K. C. & Pernicka, H. J., "Station-keeping method for libration point trajectories",
+    Journal of Guidance, Control, and Dynamics 16(1), 151 (1993) (from memory).
     """
     trials = np.asarray(list(trials), dtype=int)
     n, K = trials.size, ref.t_man.size
@@ -410,7 +558,7 @@ def _chunk(task):
     """One pool submission: a chunk of trials in a worker (compiled code on one thread there,
     the pool provides the parallelism)."""
     try:
-        import numba
+        import numba  # lazy: heavy library (numba), its failure handled here
         numba.set_num_threads(1)
     except Exception:          # pragma: no cover - a numba without threading control
         pass
@@ -427,16 +575,55 @@ def _merge(parts, n):
 
 def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, min_burn_mps: float = 0.0,
                workers: int | None = None, scheduler=None, progress=None) -> dict:
-    """:func:`simulate` over ``trials`` trials, in this process (``workers`` None or 1; the
-    compiled propagation runs the trials on parallel threads) or over a process pool of
-    ``workers`` processes, with the pool helpers of :mod:`cr3bp.transfers.tasks` (workers die with
-    the parent, Ctrl-C goes to the parent). The result does not depend on ``workers``.
-    Measured (200 trials, a year of the 9:2 NRHO, 2 shared cores): 17 s in this process, 27 s
-    on a pool of 2 (the workers' start-up), so this process is the default.
+    """:func:`simulate` over ``trials`` trials, here or over a pool of processes or a dask cluster.
 
-    ``scheduler``: a ``distributed.Client``, the address of a dask.distributed scheduler, or
-    ``"local"`` (a local cluster of ``workers`` processes, default 2, started and stopped
-    here); the trials go there in chunks (:func:`on_dask`) instead."""
+    In this process (``workers`` None or 1; the compiled propagation runs the trials on parallel
+    threads) or over a process pool of ``workers`` processes, with the pool helpers of
+    :mod:`cr3bp.transfers.tasks` (workers die with the parent, Ctrl-C goes to the parent). The
+    result does not depend on ``workers``. Measured (200 trials, a year of the 9:2 NRHO, 2 shared
+    cores): 17 s in this process, 27 s on a pool of 2 (the workers' start-up), so this process is
+    the default.
+
+    Parameters
+    ----------
+    ref : Reference
+        From :func:`reference`.
+    errors : Errors
+        The error model.
+    trials : int
+        Number of trials (at least 1).
+    seed : int, optional
+        The run's seed.
+    min_burn_mps : float, optional
+        Planned burns under this are skipped.
+    workers : int, optional
+        Processes (default: this one).
+    scheduler : distributed.Client or str, optional
+        A client, the address of a dask.distributed scheduler, or ``"local"`` (a local cluster of
+        ``workers`` processes, default 2, started and stopped here); the trials go there in
+        chunks (:func:`on_dask`) instead.
+    progress : callable(done, total), optional
+        Called as chunks finish.
+
+    Returns
+    -------
+    dict
+        As :func:`simulate`, over all trials in trial order.
+
+    Raises
+    ------
+    InputError
+        Fewer than one trial or worker, or an unreachable scheduler.
+
+    Examples
+    --------
+    >>> res = run_trials(ref, Errors(1.0, 0.01), 50, seed=1, workers=2)    # doctest: +SKIP
+
+    References
+    ----------
+    Howell, K. C. & Pernicka, H. J., "Station-keeping method for libration point trajectories",
+    Journal of Guidance, Control, and Dynamics 16(1), 151 (1993) (from memory).
+    """
     n = int(trials)
     if n < 1:
         raise InputError(f"trials {n} must be at least 1")
@@ -450,9 +637,6 @@ def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, mi
         if progress:
             progress(n, n)
         return res
-    import multiprocessing
-    from concurrent.futures import ProcessPoolExecutor, as_completed
-    from ..transfers import tasks
     size = max(1, math.ceil(n / (CHUNKS_PER_WORKER * workers)))
     chunks = [list(range(a, min(a + size, n))) for a in range(0, n, size)]
     ctx = multiprocessing.get_context("spawn")     # as transfers.tasks: no fork under compiled threads
@@ -482,15 +666,38 @@ CONNECT_TIMEOUT_S = 10
 
 
 def dask_client(scheduler, workers: int | None = None):
-    """``(client, cluster)`` for ``scheduler`` (see :func:`run_trials`); ``cluster`` is the local
-    cluster started here (None otherwise). The caller closes both.
+    """``(client, cluster)`` for ``scheduler`` (see :func:`run_trials`).
+
+    Parameters
+    ----------
+    scheduler : distributed.Client or str
+        A client, a scheduler's address, or ``"local"``.
+    workers : int, optional
+        Processes of a local cluster (default 2).
+
+    Returns
+    -------
+    client : distributed.Client
+        The client.
+    cluster : distributed.LocalCluster or None
+        The local cluster started here (None otherwise). The caller closes both.
 
     Raises
     ------
-    InputError   dask.distributed missing, or the scheduler cannot be reached
+    InputError
+        dask.distributed missing, or the scheduler cannot be reached.
+
+    Examples
+    --------
+    >>> client, cluster = dask_client("local", 2)          # doctest: +SKIP
+
+    References
+    ----------
+    Rocklin, M., "Dask: Parallel computation with blocked algorithms and task scheduling",
+    Proceedings of the 14th Python in Science Conference (2015).
     """
     try:
-        from distributed import Client, LocalCluster
+        from distributed import Client, LocalCluster  # lazy: optional dependency (distributed), its absence handled here
     except ImportError:
         raise InputError("--scheduler needs dask.distributed: pip install 'librate[cluster]'") from None
     if isinstance(scheduler, Client):
@@ -500,7 +707,6 @@ def dask_client(scheduler, workers: int | None = None):
         if n < 1:
             raise InputError(f"workers {n} must be at least 1")
         # processes with one thread each, as the pool's workers (each chunk sets numba to one thread)
-        import logging
         # its workers' shutdown notices stay out of the terminal (errors still show)
         cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True, dashboard_address=None,
                                silence_logs=logging.ERROR)
@@ -513,9 +719,42 @@ def dask_client(scheduler, workers: int | None = None):
 
 def on_dask(ref: Reference, errors: Errors, n: int, seed: int, min_burn_mps: float, scheduler,
             workers: int | None = None, progress=None) -> dict:
-    """:func:`simulate` over ``n`` trials in chunks on a dask.distributed cluster (the reference
-    sent once to every worker); the same result as in this process (per-trial generators)."""
-    from distributed import as_completed
+    """:func:`simulate` over ``n`` trials in chunks on a dask.distributed cluster.
+
+    The reference is sent once to every worker; the result equals the one computed in this
+    process (per-trial generators).
+
+    Parameters
+    ----------
+    ref, errors, n, seed, min_burn_mps
+        As for :func:`run_trials`.
+    scheduler : distributed.Client or str
+        As for :func:`dask_client`.
+    workers : int, optional
+        Processes of a local cluster.
+    progress : callable(done, total), optional
+        Called as chunks finish.
+
+    Returns
+    -------
+    dict
+        As :func:`simulate`.
+
+    Raises
+    ------
+    InputError
+        dask.distributed missing, or the scheduler cannot be reached.
+
+    Examples
+    --------
+    >>> res = on_dask(ref, Errors(1.0, 0.01), 50, 1, 0.0, "local")   # doctest: +SKIP
+
+    References
+    ----------
+    Rocklin, M., "Dask: Parallel computation with blocked algorithms and task scheduling",
+    Proceedings of the 14th Python in Science Conference (2015).
+    """
+    from distributed import as_completed  # lazy: heavy library (distributed)
     client, cluster = dask_client(scheduler, workers)
     try:
         k = max(1, len(client.scheduler_info().get("workers", {})) or 1)
@@ -548,12 +787,28 @@ def _dask_chunk(ref, errors, trials, seed, min_burn_mps):
 class Budget:
     """Station-keeping Monte Carlo result (ephemeris model).
 
-    Attributes
+    Parameters
     ----------
     reference : Reference
+        The shared reference.
     errors : Errors
-    seed, min_burn_mps
-    result : dict           :func:`simulate`'s arrays over all trials (trial order)
+        The error model.
+    seed : int
+        The run's seed.
+    min_burn_mps : float
+        The minimum-burn rule.
+    result : dict
+        :func:`simulate`'s arrays over all trials (trial order).
+
+    Examples
+    --------
+    >>> b = budget(nrho, "2031-03-01T00:00:00 TDB", 30 / nrho.system.time_days,
+    ...            Errors(1.0, 0.01, 0.01, 0.001), trials=20, seed=1)      # doctest: +SKIP
+
+    References
+    ----------
+    Howell, K. C. & Pernicka, H. J., "Station-keeping method for libration point trajectories",
+    Journal of Guidance, Control, and Dynamics 16(1), 151 (1993) (from memory).
     """
 
     reference: Reference
@@ -618,7 +873,6 @@ class Budget:
         }
 
     def to_dict(self) -> dict:
-        from ..cautions import caution
         return {"model": MODEL_TEXT, "reference": self.reference.to_dict(), "errors": self.errors.to_dict(),
                 "seed": self.seed, "min_burn_mps": self.min_burn_mps, "summary": self.summary(),
                 "dv_per_year_mps": self.per_year_mps.tolist(), "maneuvers": self.maneuvers.tolist(),
@@ -629,16 +883,56 @@ def budget(orbit, epoch, span_tu: float, errors: Errors, trials: int, *, seed: i
            min_burn_mps: float = 0.0, bodies=("sun", "earth", "moon"), srp=None,
            target_revs: int = TARGET_REVS, interval_tu: float | None = None, hold_phase: bool = False,
            workers: int | None = None, scheduler=None, progress=None) -> Budget:
-    """Station-keeping budget of ``orbit`` from ``epoch`` over ``span_tu`` (module docstring).
+    """Station-keeping budget of ``orbit`` from ``epoch`` over ``span_tu`` (module notes).
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+        Of a dimensional system with an ephemeris pair.
+    epoch : str or float
+        ISO text (Z = UTC) or TDB seconds since J2000.
+    span_tu : float
+        Span maintained (TU).
+    errors : Errors
+        The error model.
+    trials : int
+        Monte Carlo trials.
+    seed, min_burn_mps
+        As for :func:`run_trials`.
+    bodies, srp, target_revs, interval_tu, hold_phase
+        As for :func:`reference`.
+    workers, scheduler, progress
+        As for :func:`run_trials`.
+
+    Returns
+    -------
+    Budget
+        The reference, the error model and the trials' arrays.
+
+    Raises
+    ------
+    InputError
+        Bad options (a negative minimum burn, errors not an :class:`Errors`, ...).
+    NoSolutionError
+        The reference does not cross the rotating x-z plane twice a revolution.
+    ConvergenceError
+        The transition to the ephemeris model does not converge.
 
     Examples
     --------
-    >>> from cr3bp import system                                           # doctest: +SKIP
-    >>> from cr3bp.orbits.request import solve_request                     # doctest: +SKIP
-    >>> o = solve_request(system("earth-moon"), "halo L2 south resonance=9:2")  # doctest: +SKIP
-    >>> b = budget(o, "2031-03-01T00:00:00Z", 30 / o.system.time_days,     # doctest: +SKIP
-    ...            Errors(1.0, 0.01, 0.01, 0.001), trials=20, seed=1)
-    >>> b.summary()["dv_per_year_mps"]["mean"]                             # doctest: +SKIP
+    >>> from cr3bp import orbit, system
+    >>> nrho = orbit(system("earth-moon"), "halo L2 south resonance=9:2")    # doctest: +SKIP
+    >>> b = budget(nrho, "2031-03-01T00:00:00 TDB", 30 / nrho.system.time_days,
+    ...            Errors(1.0, 0.01, 0.01, 0.001), trials=20, seed=1)      # doctest: +SKIP
+    >>> b.trials                                                            # doctest: +SKIP
+    20
+
+    References
+    ----------
+    Howell, K. C. & Pernicka, H. J., "Station-keeping method for libration point trajectories",
+    Journal of Guidance, Control, and Dynamics 16(1), 151 (1993); Guzzetti, D., Zimovan, E. M.,
+    Howell, K. C. & Davis, D. C., "Stationkeeping analysis for spacecraft in lunar near
+    rectilinear halo orbits", AAS 17-395 (2017) (both from memory).
     """
     if not (isinstance(min_burn_mps, (int, float)) and math.isfinite(min_burn_mps) and min_burn_mps >= 0):
         raise InputError(f"minimum burn {min_burn_mps!r} m/s must be >= 0")

@@ -20,13 +20,42 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
+from ..io import export
+from ..time import frames
+from ..time.frames import basis, body_offset
 
 #: Samples of one period for the interpolant (about 140 s for the 9:2 NRHO).
 SAMPLES_PER_PERIOD = 4000
 
 
 def parse_phase(text) -> float:
-    """``"120deg"``, ``"120"`` (degrees), ``"0.25rev"`` -> degrees in [0, 360)."""
+    """An orbit phase as text -> degrees in [0, 360).
+
+    Parameters
+    ----------
+    text : str or float
+        ``"120deg"``, ``"120"`` (degrees), ``"0.25rev"`` or ``"2.1rad"``.
+
+    Returns
+    -------
+    float
+        Degrees in [0, 360).
+
+    Raises
+    ------
+    InputError
+        Text that is not an angle, or not finite.
+
+    Examples
+    --------
+    >>> parse_phase("0.25rev"), parse_phase("-90deg")
+    (90.0, 270.0)
+
+    References
+    ----------
+    Common practice (angles with their unit written beside them, as ISO 80000-3:2019 writes
+    quantities).
+    """
     s = str(text).strip().lower()
     scale = 1.0
     for suffix, k in (("deg", 1.0), ("rev", 360.0), ("rad", 180.0 / math.pi)):
@@ -44,7 +73,36 @@ def parse_phase(text) -> float:
 
 @dataclass(frozen=True)
 class PlacedOrbit:
-    """A periodic orbit, its frame at the epoch and its one-period sample."""
+    """A periodic orbit, its frame at the epoch and its one-period sample.
+
+    Parameters
+    ----------
+    system : System
+        The system (dimensional).
+    spec : FrameSpec
+        Ephemeris anchoring, primary (or Earth) centre.
+    period_tu : float
+        The orbit's period.
+    t_tu : numpy.ndarray
+        One-period sample times, 0..period.
+    states : numpy.ndarray
+        Rotating states there, nondimensional.
+
+    Examples
+    --------
+    >>> from cr3bp import orbit, system
+    >>> em = system("earth-moon")
+    >>> nrho = orbit(em, "halo L2 south resonance=9:2")                        # doctest: +SKIP
+    >>> placed = place(em, nrho, "2031-03-01T00:00:00 TDB")                    # doctest: +SKIP
+    >>> placed.geocentric([placed.epoch_tdb_s]).shape                          # doctest: +SKIP
+    (1, 3)
+
+    References
+    ----------
+    Fritsch, F. N. & Carlson, R. E., "Monotone piecewise cubic interpolation", SIAM Journal on
+    Numerical Analysis 17, 238 (1980) (cubic Hermite interpolation); the frame of
+    :mod:`cr3bp.time.frames`.
+    """
 
     system: object
     spec: object              # cr3bp.time.frames.FrameSpec (ephemeris anchoring, primary centre)
@@ -57,7 +115,7 @@ class PlacedOrbit:
         return self.spec.epoch_tdb_s
 
     def __post_init__(self):
-        from scipy.interpolate import CubicHermiteSpline
+        from scipy.interpolate import CubicHermiteSpline  # lazy: heavy library (scipy)
         spl = CubicHermiteSpline(self.t_tu, self.states[:, :3], self.states[:, 3:], axis=0)
         object.__setattr__(self, "_spline", spl)
 
@@ -75,7 +133,6 @@ class PlacedOrbit:
         (N, 3) km is the frame centre's place relative to the secondary barycentre (the Earth
         about the Earth-Moon barycentre in Sun-Earth, :func:`cr3bp.time.frames.body_offset`),
         None when the centre lies on the CR3BP x axis."""
-        from ..time.frames import basis, body_offset
         c, _w, l, _ld = basis(self.spec, tdb_s)
         off = None
         if self.spec.center in ("earth", "moon") and self.spec.center not in (
@@ -94,9 +151,41 @@ class PlacedOrbit:
 
 
 def place(system, orbit, epoch, samples_per_period: int = SAMPLES_PER_PERIOD) -> PlacedOrbit:
-    """Place a periodic orbit (``state``, ``period``) at an epoch (ISO text or TDB s)."""
-    from ..io import export
-    from ..time import frames
+    """Place a periodic orbit (``state``, ``period``) at an epoch.
+
+    Parameters
+    ----------
+    system : System
+        Dimensional, with an ephemeris pair.
+    orbit : PeriodicOrbit
+        The orbit.
+    epoch : str or float
+        ISO text or TDB seconds since J2000.
+    samples_per_period : int, optional
+        Samples of one period for the interpolant.
+
+    Returns
+    -------
+    PlacedOrbit
+        The orbit, its frame and its sample.
+
+    Raises
+    ------
+    InputError
+        A system without units, a non-positive period, an epoch outside the ephemeris.
+
+    Examples
+    --------
+    >>> from cr3bp import orbit, system
+    >>> em = system("earth-moon")
+    >>> nrho = orbit(em, "halo L2 south resonance=9:2")                        # doctest: +SKIP
+    >>> placed = place(em, nrho, "2031-03-01T00:00:00 TDB")                    # doctest: +SKIP
+
+    References
+    ----------
+    Gómez, G., Llibre, J., Martínez, R. & Simó, C., "Dynamics and Mission Design Near Libration
+    Points", vol. I, World Scientific (2001), ch. 1 (the instantaneous frame, from memory).
+    """
     system.require_dimensional("an orbit placed at a date")
     period = float(orbit.period)
     if not (math.isfinite(period) and period > 0):

@@ -15,6 +15,8 @@ import numpy as np
 
 from ..errors import InputError
 from ..vocabulary import COLLINEAR_POINTS
+from ..equilibria import lagrange_point
+from ..systems import from_mu
 
 COLLINEAR = COLLINEAR_POINTS
 
@@ -176,8 +178,6 @@ def collinear_point(mu: float, point: str) -> CollinearPoint:
 
 @lru_cache(maxsize=64)
 def _cached(mu: float, p: str) -> CollinearPoint:
-    from ..equilibria import lagrange_point
-    from ..systems import from_mu
     lp = lagrange_point(from_mu(mu), p)
     m = lp.modes
     c2 = float(m.c2)

@@ -28,6 +28,7 @@ from ..display import Shown
 from ..errors import ConvergenceError, InputError, NoSolutionError
 from . import shooting, stability
 from .orbit import PeriodicOrbit
+from .. import dynamics
 
 GROW = 1.5
 SHRINK = 0.6
@@ -305,7 +306,6 @@ def _solve_natural(system, sym, X_ref, t, ds, param, meta):
         Xp = X_ref + ds * t / (2 * t[-1])
         c = shooting.hold_period(2 * X_ref[-1] + ds)
     elif param == "jacobi":
-        from .. import dynamics
         s0, _ = shooting.unpack(sym, X_ref)
         _, row = shooting._extra_row(system, sym, shooting.hold_jacobi(0.0), X_ref)
         dcdt = float(np.dot(row, t))

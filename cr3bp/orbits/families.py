@@ -47,6 +47,8 @@ import numpy as np
 from ..errors import ConvergenceError, InputError, NoSolutionError
 from . import continuation, recipes, seeds, shooting
 from ._collinear import collinear_point, point_name
+from dataclasses import replace
+from ..integrate import propagate
 
 #: The family words (the rows of :data:`cr3bp.orbits.recipes.RECIPES`, one per word of
 #: :data:`cr3bp.vocabulary.FAMILIES`; tests/test_orbit_recipes.py checks they agree).
@@ -417,7 +419,6 @@ def _far_crossing_is_start(system, orbit, point):
     ref = -mu if point == "L3" else 1 - mu
     x0 = orbit.state[0]
     # the other crossing of a symmetric orbit: x at half period
-    from ..integrate import propagate
     xh = propagate(system, orbit.state, orbit.period / 2).final_state[0]
     return abs(x0 - ref) > abs(xh - ref)
 
@@ -593,7 +594,6 @@ def grow_resonant(system, resonance, *, stops=None, method="arclength", paramete
     >>> all(lo <= m.period <= hi for m in fam.members)
     True
     """
-    from dataclasses import replace
     if resonance is None:
         raise InputError("the resonant family needs p:q, e.g. 3:2")
     pp, qq = resonance
@@ -735,7 +735,6 @@ def _x_half_gap(system, orbit):
     shift is the reflection z -> -z (so both axis crossings are at the same point); odd about the
     vertical orbit along the axial family, whose two arms there are mirror images (Doedel et al.
     2007, from memory)."""
-    from ..integrate import propagate
     end = propagate(system, orbit.state, orbit.period / 2, rtol=shooting.RTOL, atol=shooting.ATOL)
     return float(end.final_state[0] - orbit.state[0])
 

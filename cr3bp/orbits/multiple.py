@@ -23,6 +23,7 @@ from ..errors import ConvergenceError, InputError
 from ..integrate import propagate
 from . import geometry
 from .orbit import PeriodicOrbit
+from .shooting import COMPONENTS
 
 TOL = 1e-11
 #: a residual this small that no damped Newton step reduces further is the floor set by the
@@ -178,7 +179,6 @@ def correct_multiple(system, patches, dts, phase=("y", 0.0), hold=None, family="
     >>> abs(m.period - o.period) < 1e-8, m.symmetry
     (True, 'none')
     """
-    from .shooting import COMPONENTS
     S = np.array(patches, dtype=float)
     n = S.shape[0]
     if S.ndim != 2 or S.shape[1] != 6 or n < 2:

@@ -23,7 +23,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from ..errors import InputError, NoSolutionError
+from ..errors import InputError, NoSolutionError, shown
 from ..vocabulary import COLLINEAR_POINTS, FAMILY_ALIASES, HALO_BRANCHES, LAGRANGE_POINTS, ORBIT_TARGETS
 from . import continuation, families, recipes, seeds, targets
 from .orbit import PeriodicOrbit
@@ -123,7 +123,6 @@ def parse_request(text: str) -> OrbitSpec:
     if not isinstance(text, str) or not text.strip():
         raise InputError("empty orbit request; expected e.g. 'halo L2 south period=6.5626d'")
     if not text.isprintable():
-        from ..errors import shown
         raise InputError(f"orbit request '{shown(text)}' contains a control character; expected e.g. "
                          "'halo L2 south period=6.5626d'")
     words = text.replace(",", " ").split()

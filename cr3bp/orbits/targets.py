@@ -15,8 +15,9 @@ from dataclasses import dataclass
 
 from .. import units
 from ..constants import SECONDS_PER_DAY, SIDEREAL_MONTH_DAYS, SIDEREAL_YEAR_DAYS
-from ..errors import InputError
+from ..errors import InputError, UnitError
 from ..vocabulary import LENGTH_TARGETS, ORBIT_TARGETS
+from ..validate import finite_number
 
 SYNODIC_MONTH_DAYS = 1.0 / (1.0 / SIDEREAL_MONTH_DAYS - 1.0 / SIDEREAL_YEAR_DAYS)
 
@@ -180,7 +181,6 @@ def make_target(system, kind: str, text) -> Target:
     >>> round(make_target(system("earth-moon"), "resonance", "9:2").value, 4)
     1.5112
     """
-    from ..errors import UnitError
     try:
         t = _make(system, str(kind).strip().lower(), str(text).strip())
     except UnitError as e:
@@ -194,7 +194,6 @@ def _make(system, kind, text):
     if kind == "period":
         return Target(kind, "period", units.time(text, system), text)
     if kind == "jacobi":
-        from ..validate import finite_number
         v = finite_number("Jacobi constant", text)
         return Target(kind, "jacobi", v, text)
     if kind in ("ax", "ay", "az", "x"):

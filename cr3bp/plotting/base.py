@@ -14,6 +14,9 @@ from matplotlib.ticker import FuncFormatter, MaxNLocator  # noqa: E402
 
 from ..io.atomic import save_figure  # noqa: E402
 from ..cautions import CAUTION_SHORT  # noqa: E402
+from mpl_toolkits.axes_grid1 import make_axes_locatable
+from ..cautions import caution_short
+from ..equilibria import lagrange_points
 
 PRIMARY_COLOURS = ("tab:blue", "0.45")
 VIEWS = {"xy": (0, 1), "xz": (0, 2), "yz": (1, 2)}
@@ -85,7 +88,6 @@ def draw_lagrange_points(ax, system, view="xy", points=None, labels=True, includ
     box : (umin, umax, vmin, vmax), optional
         Only the points inside this frame. Points that project onto one spot share a label.
     """
-    from ..equilibria import lagrange_points
     pts = points if points is not None else lagrange_points(system)
     i, j = VIEWS[view]
     if include_out_of_plane is None:
@@ -195,7 +197,6 @@ def legend_beside(ax, handles=None, where="right", **kw):
 def colorbar_beside(ax, mappable, label, size="4%", pad=0.12):
     """A colour bar in its own axes to the right of ``ax`` (it follows the axes when the
     layout changes, so it never covers data)."""
-    from mpl_toolkits.axes_grid1 import make_axes_locatable
     cax = make_axes_locatable(ax).append_axes("right", size=size, pad=pad)
     cax.set_gid(OUTSIDE_GID)
     cb = ax.figure.colorbar(mappable, cax=cax, label=label)
@@ -227,7 +228,6 @@ def _fit_margins(fig):
 
 def caption(fig, text="", model="cr3bp"):
     """Bottom caption: the given text, then the caution for ``model`` (always, once per figure)."""
-    from ..cautions import caution_short
     body = (text + "\n" if text else "") + caution_short(model)
     fig.text(0.5, 0.005, body, ha="center", va="bottom", fontsize=6.5, wrap=True, color="0.25",
              gid="caption")

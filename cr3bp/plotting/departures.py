@@ -8,6 +8,7 @@ from __future__ import annotations
 import numpy as np
 
 from .base import axis_labels, draw_lagrange_points, draw_primaries, legend_beside, new_figure, title
+from ..integrate import propagate
 
 MARKERS = {"departure": ("o", "tab:green"), "flyby": ("D", "tab:orange"), "insertion": ("s", "tab:red")}
 #: Margin around the target orbit in the zoomed panels, as a fraction of its largest extent.
@@ -29,7 +30,6 @@ def plot_departure(dep, n_per_segment=800):
     zoomed on the target orbit (bottom); returns the figure."""
     system = dep.system
     _, states = dep.trajectory(n_per_segment)
-    from ..integrate import propagate
     T = float(dep.orbit.period)
     orb = propagate(system, dep.orbit.state, T, t_eval=np.linspace(0.0, T, 600)).states
     fig, axes = new_figure(2, 2, size=(12.0, 11.0))

@@ -7,11 +7,11 @@ from __future__ import annotations
 import numpy as np
 
 from .base import legend_beside, new_figure
+from ..time import ephemeris, frames
 
 
 def rotating_states(transition, states_km, t_tu):
     """km, km/s about the central body -> nondimensional rotating states (ephemeris anchoring)."""
-    from ..time import ephemeris, frames
     mdl = transition.model
     s = mdl.system
     spec = frames.frame(s, transition.epoch_tdb_s, anchor="ephemeris", axes="j2000-equator",

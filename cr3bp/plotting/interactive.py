@@ -16,6 +16,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..cautions import caution_short
+from .orbits import trajectory
 
 #: colours of the curves, in order (plotly's own default cycle is not relied on)
 _COLOURS = ("#d95f02", "#1b9e77", "#7570b3", "#e7298a", "#66a61e", "#e6ab02", "#a6761d", "#666666")
@@ -24,7 +25,7 @@ _COLOURS = ("#d95f02", "#1b9e77", "#7570b3", "#e7298a", "#66a61e", "#e6ab02", "#
 def require_plotly():
     """The plotly.graph_objects module, or a one-line ImportError naming the extra to install."""
     try:
-        import plotly.graph_objects as go
+        import plotly.graph_objects as go  # lazy: heavy library (plotly); a missing install is reported here
     except ImportError:
         raise ImportError("interactive 3-D figures need plotly: pip install 'librate[interactive]'") from None
     return go
@@ -97,7 +98,6 @@ def _orbit_name(o):
 
 def orbit_figure(orbit, name=None, n=600, fig=None, colour=None):
     """One periodic orbit over one period (``fig``: add to an existing figure)."""
-    from .orbits import trajectory
     label = name or _orbit_name(orbit)
     fig = fig or new_figure(orbit.system, f"{orbit.system.name}: {label} orbit, C = {orbit.jacobi:.6f} (CR3BP)")
     return framed(add_curve(fig, orbit.system, trajectory(orbit, n), f"{label} (C = {orbit.jacobi:.6f})", colour))
@@ -105,7 +105,6 @@ def orbit_figure(orbit, name=None, n=600, fig=None, colour=None):
 
 def family_figure(family, max_curves=20, n=300):
     """Up to ``max_curves`` members, evenly picked along the family."""
-    from .orbits import trajectory
     m = family.members
     name = " ".join(w for w in (family.family, family.point, family.branch) if w)
     pick = np.unique(np.linspace(0, len(m) - 1, min(len(m), max_curves)).round().astype(int)) if m else []

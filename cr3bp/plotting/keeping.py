@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 
 from .base import new_figure, save
+from matplotlib.ticker import MaxNLocator
 
 
 def histogram(budget, path, title: str = "", text: str = ""):
@@ -33,7 +34,6 @@ def histogram(budget, path, title: str = "", text: str = ""):
                   fontsize=9)
     if title:
         fig.suptitle(title, fontsize=10)
-    from matplotlib.ticker import MaxNLocator
     for ax in (ax1, ax2):
         ax.yaxis.set_major_locator(MaxNLocator(integer=True))
     fig.tight_layout(rect=(0.0, 0.1, 1.0, 1.0))     # room for the caption below the axes

@@ -12,6 +12,10 @@ from matplotlib.patches import Patch
 
 from .base import (VIEWS, axis_labels, colorbar_beside, draw_lagrange_points, draw_primaries, km_scale,
                    legend_beside, new_figure, scaled_axis)
+import matplotlib.pyplot as plt
+from ..energy import hill_region
+from ..errors import NoSolutionError
+from ..integrate import propagate
 
 TUBE_COLOURS = {("unstable", "interior"): "tab:red", ("unstable", "exterior"): "tab:orange",
                 ("stable", "interior"): "tab:green", ("stable", "exterior"): "tab:cyan"}
@@ -28,7 +32,6 @@ def draw_forbidden(ax, system, jacobi_value, view="xy"):
     with the zero-velocity curves, from :func:`cr3bp.energy.hill_region`."""
     if view not in ("xy", "xz"):
         return ax
-    from ..energy import hill_region
     x0, x1 = ax.get_xlim()
     y0, y1 = ax.get_ylim()
     region = hill_region(system, jacobi_value, plane=view, extent=(x0, x1, y0, y1), resolution=301)
@@ -68,7 +71,6 @@ def plot_tubes(tubes, views=("xy", "xz"), n_samples=200, max_trajectories=80, ax
             handles.append(Line2D([], [], color=col, label=f"{tube.label} ({tube.n} trajectories)"))
             if tube.orbit is not None:
                 te = np.linspace(0, tube.period, 400)
-                from ..integrate import propagate
                 arc = propagate(tube.system, tube.orbit.state, tube.period, t_eval=te)
                 ax.plot(arc.states[:, i], arc.states[:, j], color=orbit_colour, lw=1.2, zorder=4)
         if any(t.orbit is not None for t in tubes):
@@ -107,7 +109,6 @@ def _fit(ax, pts, margin=0.12):
 
 def plot_tubes_3d(tubes, n_samples=200, max_trajectories=60):
     """Tubes in 3-D (rotating frame, LU)."""
-    import matplotlib.pyplot as plt
     fig = plt.figure(figsize=(7.5, 6.5))
     ax = fig.add_subplot(111, projection="3d")
     handles = []
@@ -180,7 +181,6 @@ def _map_axis(axis, system, name):
     if not _dimensional(system) or kind is None:
         axis.set_label_text(_unit_label(name))
         return
-    from .base import km_scale
     if kind == "length":
         per, unit = km_scale(system)
         scaled_axis(axis, system.length_km / per, f"{name} [{unit}]", f"{name} [LU]")
@@ -234,7 +234,6 @@ def plot_periapsis_map(pmap, target_km=None, ax=None):
     s = pmap.system
     ok = np.isfinite(pmap.altitude_km)
     if not ok.any():
-        from ..errors import NoSolutionError
         raise NoSolutionError(f"no trajectory of the {pmap.stability} {pmap.branch} manifold of {pmap.origin} "
                               f"reached a periapsis about {s.names[pmap.primary]}: the periapsis map is empty")
     if ax is None:

@@ -8,18 +8,22 @@ from matplotlib.ticker import FuncFormatter
 
 from .base import (VIEWS, axis_labels, colorbar_beside, draw_lagrange_points, draw_primaries,
                    legend_beside, new_figure, title as set_title)
+import matplotlib.pyplot as plt
+from matplotlib.colors import Normalize
+from matplotlib.lines import Line2D
+from matplotlib.patches import Patch
+from ..equilibria import lagrange_points
+from ..integrate import propagate
 
 _VIEW_ORDER = ("xy", "xz", "yz")
 
 
 def _lagrange_points(system):
-    from ..equilibria import lagrange_points
     return {p.name: np.asarray(p.position) for p in lagrange_points(system)}
 
 
 def trajectory(orbit, n=1500):
     """States (n, 6) sampled evenly over one period of ``orbit``."""
-    from ..integrate import propagate
     t = np.linspace(0.0, orbit.period, n)
     return propagate(orbit.system, orbit.state, orbit.period, t_eval=t).states
 
@@ -83,8 +87,6 @@ def _orbit_title(o):
 def plot_family(system, trajectories, jacobi, title="", max_curves=60):
     """Members coloured by Jacobi constant in the x-y and x-z views (only x-y for a planar
     family); the colour bar stands beside the last view."""
-    import matplotlib.pyplot as plt
-    from matplotlib.colors import Normalize
     n = len(trajectories)
     pick = np.unique(np.linspace(0, n - 1, min(n, max_curves)).round().astype(int))
     views = ("xy",) if planar([trajectories[k] for k in pick]) else ("xy", "xz")
@@ -148,8 +150,6 @@ def plot_stability(jacobi, period, nu, period_unit="d", title="", bifurcations=(
         ax.set_xlabel(label)
         ax.set_ylabel("stability index nu (real part, nondimensional)")
         ax.grid(alpha=0.3, which="both")
-    from matplotlib.lines import Line2D
-    from matplotlib.patches import Patch
     handles = [Line2D([], [], color="tab:blue", marker=".", label="nu1 (larger |nu|)"),
                Line2D([], [], color="tab:orange", marker=".", label="nu2"),
                Line2D([], [], color="k", ls="--", lw=0.8, label="nu = +1 and nu = -1"),

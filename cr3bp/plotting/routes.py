@@ -10,6 +10,11 @@ import numpy as np
 from .base import (VIEWS, axis_labels, draw_lagrange_points, draw_primaries, km_scale, legend_beside,
                    new_figure, scaled_axis)
 from .base import title as set_title
+from ..dynamics import jacobi
+from ..energy import hill_region
+from ..equilibria import lagrange_point
+from ..errors import LibrateError
+from ..systems import system as _system
 
 LEG_COLOURS = ("tab:red", "tab:green", "tab:purple", "tab:orange", "tab:brown", "tab:pink", "tab:cyan")
 ZVC_STYLE = dict(lw=0.8, ls="--", zorder=2)
@@ -28,8 +33,6 @@ def plot_corridor(stitched, legs=(), tubes=(), ax=None, view="xy", margin=0.25, 
     legs : sequence of leg dicts (optional; their patch points are drawn as dots)
     tubes : sequence of arrays (optional)
     """
-    from ..dynamics import jacobi
-    from ..energy import hill_region
     system = stitched.system
     if ax is None:
         _, ax = new_figure(size=(10.5, 6.8))
@@ -41,7 +44,6 @@ def plot_corridor(stitched, legs=(), tubes=(), ax=None, view="xy", margin=0.25, 
     extent = [lo[0] - pad, hi[0] + pad, lo[1] - pad, hi[1] + pad]
     if view == "xy" and neck_context:
         # widen to the L1 and L2 necks when the route passes near the smaller primary
-        from ..equilibria import lagrange_point
         x1, x2 = lagrange_point(system, "L1").position[0], lagrange_point(system, "L2").position[0]
         if hi[0] > x1 - (x2 - x1):
             h = 0.6 * (x2 - x1)
@@ -135,8 +137,6 @@ def plot_pareto(routes, front=(), chosen=None, ax=None):
 def _graph_x_axis(ax, graph):
     """x of the nodes' states in km (ticks at round 10³ or 10⁶ km, LU on top) when the graph's
     system is a tabulated dimensional one; in LU otherwise."""
-    from ..errors import LibrateError
-    from ..systems import system as _system
     try:
         sysm = _system(graph.graph.get("system", ""))
     except (LibrateError, KeyError, TypeError):

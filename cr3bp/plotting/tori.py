@@ -8,14 +8,14 @@ import numpy as np
 
 from .base import VIEWS, new_figure
 from .orbits import _frame, _lagrange_points
+from ..tori import surface
+from ..tori.circle import evaluate
 
 _VIEW_ORDER = ("xy", "xz", "yz")
 
 
 def plot_torus(torus, grid=None, title=None, curves=24):
     """Figure: three views of the torus surface and the invariance circle (LU / km offsets)."""
-    from ..tori import surface
-    from ..tori.circle import evaluate
     if grid is None:
         grid = surface(torus.system, torus.circle, torus.stroboscopic_time, 256)
     u = torus.circle

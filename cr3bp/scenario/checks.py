@@ -30,6 +30,11 @@ from .. import units
 from ..constants import SECONDS_PER_DAY
 from ..errors import InputError
 from .schema import RENAMED_CHECKS   # withdrawn check keys and their message
+from ..integrate import propagate
+from ..operations import phasing, placement
+from ..time import frames, ephemeris
+from ..time.frames import epoch_from_text
+from .outputs import save_figures
 
 SAMPLES_PER_PERIOD = 4000
 
@@ -51,7 +56,6 @@ class CheckResult:
 
 def sample(orbit, n: int = SAMPLES_PER_PERIOD) -> np.ndarray:
     """States (n, 6) evenly in time over one period."""
-    from ..integrate import propagate
     t = np.linspace(0.0, orbit.period, n)
     return propagate(orbit.system, orbit.state, orbit.period, t_eval=t).states
 
@@ -84,7 +88,6 @@ def _names(system):
 
 
 def _frame(system, epoch):
-    from ..time import frames
     return frames.frame(system, epoch, anchor="ephemeris", axes="j2000-equator", center="primary")
 
 
@@ -101,7 +104,6 @@ def angle_at_earth_deg(system, t_tu, states, epoch, body: str) -> np.ndarray:
         The system has no ephemeris for its pair (only Earth-Moon, Sun-Earth, Sun-Mars and
         Sun-Jupiter have), or the epochs fall outside the ephemeris.
     """
-    from ..time import ephemeris, frames
     if body not in ("sun", "moon"):
         raise InputError(f"angle at the Earth from '{body}': allowed sun, moon")
     problem = angle_check_problem(system, body)
@@ -159,7 +161,6 @@ def plan_problems(system, checks: dict, epoch) -> list[tuple[str, str]]:
         elif key in ANGLE_CHECKS:
             why = angle_check_problem(system, ANGLE_CHECKS[key])
             try:
-                from ..time.frames import epoch_from_text
                 epoch_from_text(epoch) if isinstance(epoch, str) else float(epoch)
             except (InputError, TypeError, ValueError):
                 continue            # the epoch itself is reported where it is read
@@ -276,7 +277,6 @@ def eclipse_history(orbit, epoch, phase_deg: float = 0.0):
     """Shadow passes (:class:`cr3bp.operations.phasing.History`) of ``orbit`` placed at ``epoch``
     (ISO text or TDB s) and started at ``phase_deg``, over :data:`ECLIPSE_SPAN_DAYS`; computed
     once per orbit, epoch and phase in a run (the checks and the report's timeline share it)."""
-    from ..operations import phasing, placement
     key = (orbit.system.name, tuple(np.asarray(orbit.state, dtype=float)), float(orbit.period), str(epoch),
            float(phase_deg) % 360.0)
     if key not in _HISTORIES:
@@ -304,8 +304,7 @@ def eclipse_check(orbit, key: str, value, epoch, phase_deg: float = 0.0) -> Chec
 
 def eclipse_figures(plan, orbits, out, formats) -> dict:
     """The eclipse timeline of every orbit with an eclipse check (report figures ``eclipses-NAME``)."""
-    from ..plotting.eclipses import timeline_figure
-    from .outputs import save_figures
+    from ..plotting.eclipses import timeline_figure  # lazy: heavy library (matplotlib, via cr3bp.plotting.eclipses)
     figs = {}
     for name, entry in plan.data["orbits"].items():
         if not any(k in ECLIPSE_CHECKS for k in (entry.get("checks") or {})):

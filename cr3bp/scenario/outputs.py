@@ -4,25 +4,27 @@ transfer stage alike (so neither imports the other back)."""
 
 from __future__ import annotations
 
+import csv
+import io
 import json
 
 import numpy as np
 
+from ..cautions import caution_lines
 from ..errors import LibrateError
+from ..io.atomic import save_figure, write_bytes
+from ..io.plain import json_default
+from ..plotting.fingerprint import fingerprint
 
 
 def json_text(obj) -> str:
     """``obj`` as indented, key-sorted JSON text (numpy values made plain)."""
-    from ..io.plain import json_default
     return json.dumps(obj, indent=2, sort_keys=True, default=json_default) + "\n"
 
 
 def csv_text(headers, rows, comments=()) -> str:
     """CSV text: ``comments`` and the caution as ``#`` lines, the header row, then ``rows``
     (floats written with ``repr``, so they read back exactly)."""
-    import csv
-    import io
-    from ..cautions import caution_lines
     buf = io.StringIO()
     for c in list(comments) + caution_lines():
         buf.write(f"# {c}\n")
@@ -46,10 +48,8 @@ def save_figures(fig, out, stem, formats, caption):
     (:func:`cr3bp.plotting.fingerprint.fingerprint`: its artists, the caption, the formats,
     the code and matplotlib's settings) is stored there is not drawn: its stored files, the
     bytes an earlier drawing gave, are written instead. A figure drawn is stored."""
-    import matplotlib.pyplot as plt  # lazy: heavy library
-    from ..io.atomic import save_figure, write_bytes
-    from ..plotting.base import caption as add_caption
-    from ..plotting.fingerprint import fingerprint
+    import matplotlib.pyplot as plt  # lazy: heavy library (matplotlib)
+    from ..plotting.base import caption as add_caption  # lazy: heavy library (matplotlib, via cr3bp.plotting.base)
     store = getattr(out, "figures", None)
     key = fingerprint(fig, caption, tuple(formats), FIGURE_DPI) if store is not None else None
     if key is not None:

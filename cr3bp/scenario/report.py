@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 
 from . import page as R
+from ..orbits.request import describe_places
 
 
 def _system_section(plan) -> str:
@@ -21,7 +22,6 @@ def _system_section(plan) -> str:
 def places_note(d) -> str:
     """A sentence when the orbit's target is met at more than one place along its family
     (``target_matches`` of :meth:`PeriodicOrbit.to_dict`), else ""."""
-    from ..orbits.request import describe_places
     places = describe_places(d)
     if not places:
         return ""
@@ -57,7 +57,7 @@ def _orbit_section(name, orbit, checks, figures, views=None) -> str:
         if key in figures:
             html += R.figure(figures[key]["path"], figures[key]["caption"])
     if views is not None:
-        from ..plotting.interactive import orbit_figure
+        from ..plotting.interactive import orbit_figure  # lazy: heavy library (matplotlib, via cr3bp.plotting.interactive)
         html += views.html(orbit_figure(orbit, name=name),
                            f"Orbit '{name}' in 3-D over one period (drag to rotate, scroll to zoom): rotating "
                            "frame of the CR3BP, primaries to scale.")
@@ -98,7 +98,7 @@ def _routes_section(routes, figures, views=None, stitched=None, orbits=None) -> 
             if key in figures:
                 html += R.figure(figures[key]["path"], figures[key]["caption"])
         if views is not None and (stitched or {}).get(name) is not None:
-            from ..plotting.interactive import route_figure
+            from ..plotting.interactive import route_figure  # lazy: heavy library (matplotlib, via cr3bp.plotting.interactive)
             st = stitched[name]
             joined = [orbits[n] for n in st.nodes if n in (orbits or {})]
             html += views.html(route_figure(st, joined, title=f"transfer '{name}': the best route stitched "
@@ -132,7 +132,7 @@ def write_report(plan, orbits, checks, routes, exports, figures, out, stitched=N
     scenario's ``[plots]`` sets ``interactive = false``."""
     views = None
     if plan.data.get("plots", {}).get("interactive", True):
-        from ..plotting.interactive import ReportFigures
+        from ..plotting.interactive import ReportFigures  # lazy: heavy library (matplotlib, via cr3bp.plotting.interactive)
         views = ReportFigures()
     sections = [("System and units", _system_section(plan))]
     desc = plan.data["mission"].get("description")

@@ -25,15 +25,27 @@ from pathlib import Path
 
 import numpy as np
 
-from .. import __version__
+from .. import __version__, units
+from ..systems import system as make_system
 from . import schema
 from ..io.atomic import write_text
 from ..cautions import CAUTION
-from ..errors import InputError
+from ..errors import InputError, shown, OutputError, NoSolutionError
 from ..validate import MAX_WORKERS
 from ..vocabulary import SCENARIO_IMAGE_FORMATS, INERTIAL_FRAMES, LENGTH_TARGETS, ORBIT_TARGETS
 from .outputs import csv_text, json_text, save_figures, say
-from .schema import Problem, ScenarioError
+from .schema import Problem, ScenarioError, FILE_PATTERN, FILE_RULE
+from ..catalog import Catalog
+from ..energy import hill_region
+from ..integrate import propagate
+from ..io import export
+from ..io.export import span_periods, MAX_SAMPLES, dv_warning
+from ..orbits.request import spec_from_options, solve_request
+from ..time import frames
+from ..time.scales import parse_iso
+from .checks import run_checks, sample, eclipse_figures, plan_problems
+from .report import write_report, places_note
+from .transfers import design_transfers, write_route_tables, transfer_trajectory
 
 TARGET_KEYS = ORBIT_TARGETS
 
@@ -69,7 +81,6 @@ class Outputs:
 
 
 def _spec_for(entry: dict):
-    from ..orbits.request import spec_from_options
     target = {k: entry[k] for k in TARGET_KEYS if k in entry}
     target = {k: (str(v) if not isinstance(v, str) else v) for k, v in target.items()}
     res = entry.get("resonant")
@@ -81,8 +92,6 @@ def prepare(path) -> Plan:
     """Read and check a scenario: the schema (file, line, key), then the meaning of each value
     (system, epoch, orbit requests, references between sections). Raises ScenarioError listing
     every problem; nothing is computed or written."""
-    from .. import system as make_system
-    from ..time.scales import parse_iso
     path = Path(path)
     file = schema.path_text(path)
     text = schema.read_text(path)
@@ -125,7 +134,6 @@ def prepare(path) -> Plan:
         except InputError as e:
             add(f"orbits.{name}", e)
         if system is not None and isinstance(entry.get("checks"), dict):
-            from .checks import plan_problems
             for key, why in plan_problems(system, entry["checks"], sysd["epoch"]):
                 add(f"orbits.{name}.checks.{key}", InputError(why))
     known = set(data["orbits"])
@@ -185,7 +193,6 @@ EXAMPLES = {"length": "'12000km'", "time": "'6.5d'", "velocity": "'1500m/s'"}
 
 def _quantity(key, text, dimension, rule, system, add):
     """The value of a quantity key in the system's units (TU, LU, ...) or None (problem added)."""
-    from .. import units
     try:
         q = units.parse(text, dimension)
         value = q.nondim(system) if system is not None and system.dimensional else q.value
@@ -203,8 +210,6 @@ def _quantity(key, text, dimension, rule, system, add):
 def _check_values(data, system, add):
     """The meaning of each value: signs, ranges, units of each key; parking orbits, caps and
     export options as the run will read them. Every problem goes to ``add``."""
-    from ..time import frames
-    from ..errors import shown
     for name, entry in data["orbits"].items():
         for k, v in entry.items():
             if k in QUANTITY_RULES and isinstance(v, str):
@@ -277,7 +282,6 @@ def _check_values(data, system, add):
 
 def _span(key, text, system, add):
     """A span in TU, ``True`` for a count of periods (checked once the period is known), or None."""
-    from ..io.export import span_periods
     try:
         if span_periods(text) is not None:
             return True
@@ -288,8 +292,6 @@ def _span(key, text, system, add):
 
 
 def _samples(key, span_tu, step_tu, ex, add):
-    from ..io.export import MAX_SAMPLES
-    from ..errors import shown
     if step_tu > span_tu * (1 + 1e-12):
         add(f"{key}.step", InputError(f"'{shown(ex.get('step', '10min'))}' is longer than the span "
                                       f"'{shown(ex['span'])}'; give a shorter step"))
@@ -311,7 +313,6 @@ def _int_range(key, v, add):
 
 def _check_parking(key, text, system, add):
     """'parking BODY ALTITUDE': three words, a primary of the system, a positive length."""
-    from ..errors import shown
     parts = text.split()
     if len(parts) != 3:
         add(key, InputError(f"'{shown(text)}' must read 'parking BODY ALTITUDE', e.g. 'parking earth 200km'"))
@@ -365,8 +366,6 @@ def export_file_name(ex) -> str:
 
 def _check_files(data, add):
     """Export file names: plain, and no two outputs of one run under one name (case-blind)."""
-    from ..errors import shown
-    from .schema import FILE_PATTERN, FILE_RULE
     for i, ex in enumerate(data.get("exports", [])):
         if "file" in ex:
             f = ex["file"]
@@ -458,7 +457,6 @@ def run(plan: Plan, folder, *, catalog=None, workers=None, scheduler=None, progr
     progress : callable(str), optional: one line per step
     reduced : smaller samples (tests)
     """
-    from ..catalog import Catalog
     started = time.time()
     if workers is None:
         workers = (plan.data.get("settings") or {}).get("workers")
@@ -548,7 +546,6 @@ _USER_ERRNOS = {errno.EACCES, errno.EPERM, errno.EROFS, errno.ENAMETOOLONG, errn
 
 
 def _output_error(e: OSError, folder):
-    from ..errors import OutputError, shown
     what = f"{e.strerror or e}" + (f" ({shown(Path(e.filename).name)})" if e.filename else "")
     text = f"cannot write the results in {shown(folder)}: {what}; nothing was kept"
     return InputError(text) if e.errno in _USER_ERRNOS else OutputError(text)
@@ -558,7 +555,6 @@ def check_output_folder(folder, scenario=None, catalog=None, names=()) -> Path:
     """Refuse an output folder a run cannot use, before anything is computed or written:
     empty, equal to the scenario or the catalogue, an existing file, a name longer than the
     file system allows, under a file, or not writable. ``names``: the files the run writes."""
-    from ..errors import shown
     text = os.fspath(folder) if not isinstance(folder, str) else folder
     if not text.strip():
         raise InputError("--out is empty; give the folder for the results, e.g. --out results")
@@ -610,8 +606,6 @@ def check_spans(plan, orbits) -> None:
     system = plan.system
     for i, ex in enumerate(plan.data.get("exports", [])):
         if ex["object"] in orbits and str(ex.get("span", "")).strip().lower().endswith(("period", "periods")):
-            from ..io import export
-            from .. import units
             try:
                 span = export.parse_span(ex["span"], system, float(orbits[ex["object"]].period))
                 step = units.time(ex.get("step", "10min"), system)
@@ -636,7 +630,6 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
                                              "lengths km, times days, states nondimensional (rotating, barycentric)"]))
 
     # ---- checks -----------------------------------------------------------------------
-    from .checks import run_checks, sample
     samples = {name: sample(o, 1000 if reduced else 4000) for name, o in orbits.items()}
     checks = {}
     for name, entry in plan.data["orbits"].items():
@@ -654,7 +647,6 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
     # ---- transfers --------------------------------------------------------------------
     routes, stitched = {}, {}
     if plan.data.get("transfers"):
-        from .transfers import design_transfers
         routes, stitched, transfer_figures = design_transfers(
             plan, orbits, out, catalog=catalog, workers=workers, scheduler=scheduler,
             progress=progress, reduced=reduced)
@@ -668,24 +660,20 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
                         "time_system": ex.get("time_system", "tdb").upper(),
                         "anchor": ex.get("anchor", "ephemeris"), "maneuvers": man})
         say(progress, f"export {path.name}")
-        from ..io.export import dv_warning
         if dv_warning(man):
             say(progress, f"{path.name}: {dv_warning(man)}")
     if routes:     # the route tables again, now with the exported Δv beside the design's
-        from .transfers import write_route_tables
         for name in routes:
             write_route_tables(plan, name, routes[name], out, stitched[name],
                                [e for e in exports if e["object"] == name])
 
     # ---- figures ----------------------------------------------------------------------
     figures = _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progress)
-    from .checks import eclipse_figures
     figures.update(eclipse_figures(plan, orbits, out, formats))
     if plan.data.get("transfers"):
         figures.update(transfer_figures)
 
     # ---- report and manifest ----------------------------------------------------------
-    from .report import write_report
     report = write_report(plan, orbits, checks, routes, exports, figures, out, stitched)
     seconds = time.time() - started
     manifest = _manifest(plan, out, seconds)
@@ -695,9 +683,6 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
 def solve_orbits(plan, catalog, progress=None) -> dict:
     """Every orbit of the plan; a target outside its family becomes a ScenarioError naming the
     file, line and key, with the range the family covers."""
-    from ..errors import NoSolutionError
-    from .report import places_note
-    from ..orbits.request import solve_request
     lines = schema.line_index(schema.read_text(plan.path))
     orbits = {}
     for name, spec in plan.orbit_specs.items():
@@ -715,9 +700,6 @@ def solve_orbits(plan, catalog, progress=None) -> dict:
 
 
 def _export(plan, ex, orbits, stitched, out, created):
-    from ..io import export
-    from .. import units
-    from ..time import frames
     system = plan.system
     fmt = ex["format"]
     suffix = {"oem": "oem", "csv": "csv", "json": "json"}[fmt]
@@ -741,7 +723,6 @@ def _export(plan, ex, orbits, stitched, out, created):
                       "jacobi": repr(float(orbit.jacobi))})
         traj = export.Trajectory(spec, (seg,), ts, (), ex["object"].upper(), "NONE", model)
     else:
-        from .transfers import transfer_trajectory
         traj = transfer_trajectory(plan, stitched[ex["object"]], spec, ts, step_s, ex, model)
     path = out.path(name)
     export.write(path, traj, fmt, creation_date=created)
@@ -751,7 +732,7 @@ def _export(plan, ex, orbits, stitched, out, created):
 
 
 def _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progress) -> dict:
-    from ..plotting.orbits import plot_orbit
+    from ..plotting.orbits import plot_orbit  # lazy: heavy library (matplotlib, via cr3bp.plotting.orbits)
     figs = {}
     for name, orbit in orbits.items():
         if plots.get("orbits", True):
@@ -760,8 +741,7 @@ def _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progr
             figs[f"orbit-{name}"] = save_figures(fig, out, f"orbit-{name}", formats,
                                               f"{plan.name}: orbit '{name}' over one period.")
         if plots.get("hill_regions", False):
-            from ..energy import hill_region
-            from ..plotting.energy import default_view, plot_hill_region
+            from ..plotting.energy import default_view, plot_hill_region  # lazy: heavy library (matplotlib, via cr3bp.plotting.energy)
             region = hill_region(orbit.system, float(orbit.jacobi), resolution=201 if reduced else 601,
                                  view=default_view(orbit.system, orbit.point))
             ax = plot_hill_region(region)
@@ -770,8 +750,7 @@ def _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progr
         if plots.get("families", False):
             fam = catalog.load_family(orbit.system, orbit.family, orbit.point, orbit.branch)
             if fam and fam.get("members"):
-                from ..integrate import propagate
-                from ..plotting.orbits import plot_family
+                from ..plotting.orbits import plot_family  # lazy: heavy library (matplotlib, via cr3bp.plotting.orbits)
                 members = fam["members"]
                 pick = np.unique(np.linspace(0, len(members) - 1, min(len(members), 12 if reduced else 40))
                                  .round().astype(int))
@@ -787,13 +766,12 @@ def _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progr
 
 
 def _manifest(plan, out, seconds) -> Path:
-    from .. import __version__ as version
     outputs = []
     for p in sorted(set(out.files)):
         if p.exists():
             outputs.append({"file": p.name, "sha256": _sha256(p), "bytes": p.stat().st_size})
     manifest = {
-        "tool": "librate", "version": version,
+        "tool": "librate", "version": __version__,
         "scenario": {"file": str(plan.path), "sha256": plan.sha256},
         "inputs": [{"file": str(plan.path), "sha256": plan.sha256}],
         "outputs": outputs,

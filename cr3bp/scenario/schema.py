@@ -18,6 +18,7 @@ from ..io.toml_schema import (B, F, I, MAX_TEXT_CHARS, Q, S, Problem, ScenarioEr
                               check_document, key_parts, line_index, line_of, parse_toml, path_text,
                               read_text)
 from ..io.toml_schema import MAX_FILE_BYTES as MAX_SCENARIO_BYTES  # noqa: F401
+import copy
 #: Names that become parts of file names (orbits, transfers): one plain character set, no
 #: separators, no leading dot or dash, so no name can point outside the output folder.
 NAME_PATTERN = re.compile(r"[A-Za-z0-9][A-Za-z0-9_-]{0,63}")
@@ -142,7 +143,6 @@ def well_typed(data: dict, problems: list):
     """A copy of ``data`` without the optional values the schema refused (so the meaning of
     everything else can still be checked and reported at once), or None when a refused value
     is one that cannot be done without (a required key, a whole section)."""
-    import copy
     d = copy.deepcopy(data)
     for p in problems:
         if p.kind == "meaning":

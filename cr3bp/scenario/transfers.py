@@ -10,6 +10,14 @@ import dataclasses
 from ..errors import InputError, NoSolutionError
 from .outputs import csv_text, json_text, save_figures, say
 from ..vocabulary import ORBIT_TARGETS
+from types import SimpleNamespace
+from .. import units
+from ..cautions import CAUTION
+from ..io import export
+from ..io.atomic import write_text
+from ..io.route import trajectory_rows, to_export
+from ..transfers.nodes import NodeList, orbit_node, parking_node, find_node
+from ..tubes.manifolds import corridor_tubes
 
 TARGET_KEYS = ORBIT_TARGETS
 
@@ -30,7 +38,6 @@ def transfer_nodes(plan, index: int, transfer: dict):
     """The node list of one scenario transfer (every node to every other, the node-list
     defaults), built directly: the orbits by their request text, ``"parking BODY ALTITUDE"``
     as a parking orbit. The nodes carry the scenario's names."""
-    from ..transfers.nodes import NodeList, orbit_node, parking_node
     system = plan.system
     nodes = []
     for n in dict.fromkeys([transfer["from"], *transfer.get("via", []), transfer["to"]]):
@@ -55,12 +62,8 @@ def design_transfers(plan, orbits, out, *, catalog=None, workers=None, scheduler
     Returns ``(routes, stitched, figures)``: per transfer name, a summary dict for the report and
     the :class:`cr3bp.transfers.stitch.StitchedRoute`; the figures written (name -> path and caption).
     """
-    from .. import units
-    from ..io.atomic import write_text
-    from ..io.route import trajectory_rows
-    from ..transfers.design import design_transfer
-    from ..transfers.nodes import find_node
-    from ..transfers.search import Constraints
+    from ..transfers.design import design_transfer  # lazy: heavy library (networkx, via cr3bp.transfers.design)
+    from ..transfers.search import Constraints  # lazy: heavy library (networkx, via cr3bp.transfers.search)
     system = plan.system
     routes, stitched = {}, {}
     figures = {}
@@ -119,8 +122,7 @@ def write_route_tables(plan, name, summary, out, stitched, exported=()):
     :func:`cr3bp.io.export.maneuver_table`), the Δv measured on the exported trajectory
     (:func:`cr3bp.transfers.design.maneuver_columns`, the columns ``librate route`` writes too).
     Written after the design and again once the exports exist."""
-    from ..io.atomic import write_text
-    from ..transfers.design import maneuver_columns
+    from ..transfers.design import maneuver_columns  # lazy: heavy library (networkx, via cr3bp.transfers.design)
     headers, rows, mans, models, warnings = maneuver_columns(stitched, [
         dict(e, description=f"{e['anchor']} anchoring, {e['frame']}, centre {e['center']}") for e in exported])
     warnings = [f"WARNING: transfer '{name}', {w}" for w in warnings]
@@ -136,19 +138,17 @@ def write_route_tables(plan, name, summary, out, stitched, exported=()):
 
 
 def plan_caution():
-    from ..cautions import CAUTION
     return CAUTION
 
 
 def _figures(plan, transfer, orbits, ranked, front, st, out):
-    from ..plotting.routes import plot_corridor, plot_pareto
+    from ..plotting.routes import plot_corridor, plot_pareto  # lazy: heavy library (matplotlib, via cr3bp.plotting.routes)
     name = transfer["name"]
     formats = plan.data.get("plots", {}).get("formats", ["png"])
     if not plan.data.get("plots", {}).get("corridors", True):
         return {}
     figures = {}
     legs = [d["leg"] for d in ranked[0].legs]
-    from ..tubes.manifolds import corridor_tubes
     ax = plot_corridor(st, legs, tubes=corridor_tubes(route_orbits(transfer, orbits)))
     figures[f"corridor-{name}"] = save_figures(
         ax.figure, out, f"corridor-{name}", formats,
@@ -168,12 +168,9 @@ def route_orbits(transfer: dict, orbits: dict) -> list:
 
 def transfer_trajectory(plan, st, spec, ts, step_s, ex, model):
     """The stitched transfer sampled on the export's clock, with its maneuvers."""
-    from ..io import export
-    from ..io.route import to_export
     base = to_export(st, spec, ex["object"].upper())
     span = float(st.times_tu[-1] - st.times_tu[0])
     grid = export.epoch_grid(spec, ts, span, step_s)
-    from types import SimpleNamespace
     pieces = [SimpleNamespace(t=seg.t_tu, states=seg.states) for seg in base.segments]
     segs, _ = export.sample_legs(plan.system, pieces, grid, join_tol=1e-8)
     m = dict(model)

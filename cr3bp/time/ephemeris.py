@@ -47,9 +47,10 @@ import math
 
 import numpy as np
 
-from . import ephemeris_series as _series
+from . import ephemeris_series as _series, ephemeris_tables as tables
 from ..constants import AU_KM, J2000_JD, OBLIQUITY_J2000_ARCSEC, SECONDS_PER_DAY
 from ..errors import EphemerisSpanError, InputError
+from . import scales                  # scales.tdb_minus_tt looked up at call time (a test counts its calls)
 from .scales import Epoch, parse_iso
 
 __all__ = ["BODIES", "CENTERS", "FRAMES", "MODELS", "ACCURACY", "position", "state", "valid_interval",
@@ -166,6 +167,17 @@ def position(body: str, epochs, center: str = "earth", frame: str = "j2000-equat
         Unknown body, center, frame or model.
     EphemerisSpanError
         Epochs outside the model's span (see :func:`valid_interval`); an ``InputError``.
+
+    Examples
+    --------
+    >>> r = position("moon", "2031-03-01T00:00:00 TDB")
+    >>> 356000 < float(np.linalg.norm(r)) < 407000
+    True
+
+    References
+    ----------
+    Folkner, W. M., Williams, J. G. & Boggs, D. H., "The Planetary and Lunar Ephemeris DE 421",
+    JPL IPN Progress Report 42-178 (2009).
     """
     return _evaluate(body, epochs, center, frame, model, False)
 
@@ -176,25 +188,109 @@ def state(body: str, epochs, center: str = "earth", frame: str = "j2000-equator"
 
     Same arguments as :func:`position`. Velocities are exact time derivatives of the
     positions (of the tables' Chebyshev polynomials for DE421).
+
+    Parameters
+    ----------
+    body, epochs, center, frame, model
+        As for :func:`position`.
+
+    Returns
+    -------
+    numpy.ndarray
+        (N, 6) km and km/s for N epochs, (6,) for a single epoch.
+
+    Raises
+    ------
+    InputError
+        Unknown body, center, frame or model.
+    EphemerisSpanError
+        Epochs outside the model's span (an ``InputError``).
+
+    Examples
+    --------
+    >>> v = state("earth", "2031-03-01T00:00:00 TDB", center="sun")[3:]
+    >>> 29.0 < float(np.linalg.norm(v)) < 31.0
+    True
+
+    References
+    ----------
+    Folkner, W. M., Williams, J. G. & Boggs, D. H., "The Planetary and Lunar Ephemeris DE 421",
+    JPL IPN Progress Report 42-178 (2009).
     """
     return _evaluate(body, epochs, center, frame, model, True)
 
 
 def valid_interval(body: str, center: str = "earth", *, model: str = DEFAULT_MODEL) -> tuple[Epoch, Epoch]:
-    """(first, last) epochs at which :func:`position` accepts ``body`` about ``center``."""
+    """(first, last) epochs at which :func:`position` accepts ``body`` about ``center``.
+
+    Parameters
+    ----------
+    body : str
+        One of :data:`BODIES`.
+    center : str, optional
+        One of :data:`CENTERS`.
+    model : {"de421", "series"}, optional
+        The ephemeris model.
+
+    Returns
+    -------
+    first, last : Epoch
+        The span (TDB for DE421: the kernel's coverage).
+
+    Raises
+    ------
+    InputError
+        Unknown body, centre or model.
+
+    Examples
+    --------
+    >>> lo, hi = valid_interval("moon")
+    >>> lo.to_iso("tdb", 0)[:10], hi.to_iso("tdb", 0)[:10]
+    ('1899-07-29', '2053-10-09')
+
+    References
+    ----------
+    Folkner, W. M., Williams, J. G. & Boggs, D. H., "The Planetary and Lunar Ephemeris DE 421",
+    JPL IPN Progress Report 42-178 (2009).
+    """
     model = _choice("model", model, MODELS)
     if model == "series":
         return _series.valid_interval(body, center)
     _choice("body", body, BODIES)
     _choice("center", center, CENTERS)
-    from . import ephemeris_tables as tables
     k = tables.kernel()
     return _tdb_epoch(k.start_s), _tdb_epoch(k.end_s)
 
 
 def describe(model: str = DEFAULT_MODEL) -> dict:
-    """What an output should say about the ephemeris behind it: ``{"model", "label",
-    "span_tdb"}`` (the span as ISO 8601 TDB text; the kernel is opened for DE421)."""
+    """What an output should say about the ephemeris behind it.
+
+    Parameters
+    ----------
+    model : {"de421", "series"}, optional
+        The ephemeris model.
+
+    Returns
+    -------
+    dict
+        ``{"model", "label", "span_tdb"}`` (the span as ISO 8601 TDB text; the kernel is
+        opened for DE421).
+
+    Raises
+    ------
+    InputError
+        An unknown model.
+
+    Examples
+    --------
+    >>> describe()["span_tdb"][0][:10]
+    '1899-07-29'
+
+    References
+    ----------
+    Folkner, W. M., Williams, J. G. & Boggs, D. H., "The Planetary and Lunar Ephemeris DE 421",
+    JPL IPN Progress Report 42-178 (2009).
+    """
     model = _choice("model", model, MODELS)
     lo, hi = valid_interval("moon", "earth", model=model)
     return {"model": model, "label": LABELS[model],
@@ -205,7 +301,30 @@ def ecliptic_to_equator_matrix() -> np.ndarray:
     """Rotation taking J2000 ecliptic components to J2000 equator components.
 
     ``r_eq = M @ r_ecl`` with M a rotation about x by -eps, eps the IAU 2006 obliquity
-    (:data:`cr3bp.constants.OBLIQUITY_J2000_ARCSEC`)."""
+    (:data:`cr3bp.constants.OBLIQUITY_J2000_ARCSEC`).
+
+    Returns
+    -------
+    numpy.ndarray, shape (3, 3)
+        The rotation matrix.
+
+    Raises
+    ------
+    None
+        Nothing is checked.
+
+    Examples
+    --------
+    >>> m = ecliptic_to_equator_matrix()
+    >>> bool(np.allclose(m @ m.T, np.eye(3)))
+    True
+
+    References
+    ----------
+    Hilton, J. L. et al., "Report of the International Astronomical Union Division I Working
+    Group on Precession and the Ecliptic", Celestial Mechanics and Dynamical Astronomy 94, 351
+    (2006).
+    """
     return _series.ecliptic_to_equator_matrix()
 
 
@@ -225,7 +344,6 @@ def _evaluate(body, epochs, center, frame, model, velocity: bool) -> np.ndarray:
     if body == center:
         out = np.zeros((jd1.size, 6))
     else:
-        from . import ephemeris_tables as tables
         _check_span(tables.kernel(), jd1, jd2, body, center)
         out = tables.relative(body, center, jd1, jd2, velocity)
     if frame == "j2000-ecliptic":   # rotation about x by +eps (the transpose of the matrix)
@@ -251,7 +369,6 @@ def _tdb_jd(ep: Epoch):
     1974, sec. 2.6), f^(4) dominated by the series' monthly term (1.55 us at 77 714 rad per
     millennium): under 3 ns, against the series' own 0.6 us (tests/test_ephemeris.py: 5 ns).
     """
-    from .scales import tdb_minus_tt
     jd1, jd2 = (np.atleast_1d(np.asarray(x, dtype=float)).ravel() for x in ep.two_part_jd("tt"))
     n = jd1.size
     if n > TDB_DIRECT_MAX:
@@ -259,7 +376,7 @@ def _tdb_jd(ep: Epoch):
         lo = math.floor(float(days.min()) / TDB_NODE_DAYS) - 1
         n_nodes = math.floor(float(days.max()) / TDB_NODE_DAYS) - lo + 3
         if 4 * n_nodes <= n:
-            f = tdb_minus_tt(J2000_JD, (lo + np.arange(n_nodes)) * TDB_NODE_DAYS)
+            f = scales.tdb_minus_tt(J2000_JD, (lo + np.arange(n_nodes)) * TDB_NODE_DAYS)
             u = days / TDB_NODE_DAYS - lo
             i = np.floor(u).astype(np.int64)
             p = u - i
@@ -267,7 +384,7 @@ def _tdb_jd(ep: Epoch):
             dt = (p * r * w * (-1.0 / 6.0) * f[i - 1] + q * r * w * 0.5 * f[i]
                   - q * p * w * 0.5 * f[i + 1] + q * p * r * (1.0 / 6.0) * f[i + 2])
             return jd1, jd2 + dt / SECONDS_PER_DAY
-    return jd1, jd2 + tdb_minus_tt(jd1, jd2) / SECONDS_PER_DAY
+    return jd1, jd2 + scales.tdb_minus_tt(jd1, jd2) / SECONDS_PER_DAY
 
 
 def _check_span(kernel, jd1, jd2, body, center):

@@ -94,6 +94,7 @@ from ..constants import (AU_KM, DAYS_PER_JULIAN_CENTURY, OBLIQUITY_J2000_ARCSEC,
 from ..errors import ConvergenceError, InputError
 from ..vocabulary import INERTIAL_FRAMES
 from .scales import Epoch, parse_iso
+from ..systems import body
 
 __all__ = ["BODIES", "CENTERS", "FRAMES", "ACCURACY", "position", "state", "valid_interval",
            "ecliptic_to_equator_matrix", "OBLIQUITY_J2000_ARCSEC", "AU_KM", "LABEL"]
@@ -191,6 +192,18 @@ def position(body: str, epochs, center: str = "earth", frame: str = "j2000-equat
     InputError
         Unknown body, center or frame; epochs outside the validity interval (see
         :func:`valid_interval`).
+
+    Examples
+    --------
+    >>> r = position("moon", "2031-03-01T00:00:00 TDB")
+    >>> 356000 < float(np.linalg.norm(r)) < 407000
+    True
+
+    References
+    ----------
+    Standish, E. M., "Keplerian Elements for Approximate Positions of the Major Planets", JPL
+    Solar System Dynamics (Tables 1 and 2a/2b); Meeus, J., "Astronomical Algorithms", 2nd ed.,
+    Willmann-Bell (1998), ch. 47.
     """
     return _evaluate(body, epochs, center, frame, False)
 
@@ -202,6 +215,32 @@ def state(body: str, epochs, center: str = "earth", frame: str = "j2000-equator"
     positions: analytic differentiation of the lunar series (plus the turning of the
     ecliptic of date, by a central difference of the precession matrix), and for the
     planets the derivative of the Keplerian position including the rates of every element.
+
+    Parameters
+    ----------
+    body, epochs, center, frame
+        As for :func:`position`.
+
+    Returns
+    -------
+    numpy.ndarray
+        (N, 6) km and km/s for N epochs, (6,) for a single epoch.
+
+    Raises
+    ------
+    InputError
+        Unknown body, center or frame; epochs outside the validity interval.
+
+    Examples
+    --------
+    >>> v = state("earth", "2031-03-01T00:00:00 TDB", center="sun")[3:]
+    >>> 29.0 < float(np.linalg.norm(v)) < 31.0
+    True
+
+    References
+    ----------
+    Standish, E. M., "Keplerian Elements for Approximate Positions of the Major Planets", JPL
+    Solar System Dynamics; Meeus, J., "Astronomical Algorithms", 2nd ed. (1998), ch. 47.
     """
     return _evaluate(body, epochs, center, frame, True)
 
@@ -227,7 +266,37 @@ def _evaluate(body, epochs, center, frame, _velocity: bool) -> np.ndarray:
 
 
 def valid_interval(body: str, center: str = "earth") -> tuple[Epoch, Epoch]:
-    """(first, last) epochs at which :func:`position` accepts ``body`` about ``center``."""
+    """(first, last) epochs at which :func:`position` accepts ``body`` about ``center``.
+
+    Parameters
+    ----------
+    body : str
+        One of :data:`BODIES`.
+    center : str, optional
+        One of :data:`CENTERS`.
+
+    Returns
+    -------
+    first, last : Epoch
+        The span (TT): 1900-2100 when the Moon or the Earth is involved, else 1000-3000 AD.
+
+    Raises
+    ------
+    InputError
+        Unknown body or centre.
+
+    Examples
+    --------
+    >>> lo, hi = valid_interval("mars", "sun")
+    >>> lo.to_iso("tt", 0)[:4], hi.to_iso("tt", 0)[:4]
+    ('1000', '3000')
+
+    References
+    ----------
+    Standish, E. M., "Keplerian Elements for Approximate Positions of the Major Planets", JPL
+    Solar System Dynamics (validity of Tables 1 and 2); Meeus, J., "Astronomical Algorithms",
+    2nd ed. (1998), ch. 47.
+    """
     body = _choice("body", body, BODIES)
     center = _choice("center", center, CENTERS)
     pair = {body, center}
@@ -245,7 +314,29 @@ def ecliptic_to_equator_matrix() -> np.ndarray:
     """Rotation taking J2000 ecliptic components to J2000 mean-equator components.
 
     ``r_eq = M @ r_ecl`` with M a rotation about x by -eps, eps the IAU 2006 obliquity
-    (:data:`cr3bp.constants.OBLIQUITY_J2000_ARCSEC`)."""
+    (:data:`cr3bp.constants.OBLIQUITY_J2000_ARCSEC`).
+
+    Returns
+    -------
+    numpy.ndarray, shape (3, 3)
+        The rotation matrix.
+
+    Raises
+    ------
+    None
+        Nothing is checked.
+
+    Examples
+    --------
+    >>> round(float(ecliptic_to_equator_matrix()[2, 1]), 6)
+    0.397777
+
+    References
+    ----------
+    Hilton, J. L. et al., "Report of the International Astronomical Union Division I Working
+    Group on Precession and the Ecliptic", Celestial Mechanics and Dynamical Astronomy 94, 351
+    (2006).
+    """
     e = OBLIQUITY_J2000_ARCSEC * ARCSEC
     c, s = math.cos(e), math.sin(e)
     return np.array([[1.0, 0.0, 0.0], [0.0, c, -s], [0.0, s, c]])
@@ -289,7 +380,6 @@ def _relative(body: str, center: str, t: np.ndarray, vel: bool) -> np.ndarray:
 @lru_cache(maxsize=1)
 def _moon_fraction() -> float:
     """GM_moon / (GM_earth + GM_moon) from data/systems.toml (DE430 GMs, from memory)."""
-    from ..systems import body
     gm_e, gm_m = body("earth").gm_km3_s2, body("moon").gm_km3_s2
     return gm_m / (gm_e + gm_m)
 
@@ -308,7 +398,6 @@ def _ssb_heliocentric(t, vel):
 
 @lru_cache(maxsize=1)
 def _gm_sun() -> float:
-    from ..systems import body
     return body("sun").gm_km3_s2
 
 
@@ -364,13 +453,35 @@ def _element_arrays(name: str, t: np.ndarray) -> dict:
 def kepler_eccentric_anomaly(mean_anomaly, e):
     """Eccentric anomaly E with E - e sin E = M (radians), vectorised Newton iteration.
 
-    Method: Newton's method from E0 = M + e sin M (e.g. Danby, *Fundamentals of Celestial
-    Mechanics*, 2nd ed., 1988, sec. 6.6); stops when every |dE| < 1e-13 rad.
+    Newton's method from E0 = M + e sin M; stops when every |dE| < 1e-13 rad.
+
+    Parameters
+    ----------
+    mean_anomaly : float or array_like
+        Mean anomaly M, radians.
+    e : float or array_like
+        Eccentricity (broadcast with ``mean_anomaly``).
+
+    Returns
+    -------
+    numpy.ndarray
+        Eccentric anomaly E, radians.
 
     Raises
     ------
     ConvergenceError
         If 30 iterations do not reach the tolerance (not expected for e < 0.9).
+
+    Examples
+    --------
+    >>> E = kepler_eccentric_anomaly(1.0, 0.5)
+    >>> round(float(E - 0.5 * np.sin(E)), 12)
+    1.0
+
+    References
+    ----------
+    Danby, J. M. A., "Fundamentals of Celestial Mechanics", 2nd ed., Willmann-Bell (1988),
+    sec. 6.6.
     """
     m = np.asarray(mean_anomaly, dtype=float)
     e = np.asarray(e, dtype=float)

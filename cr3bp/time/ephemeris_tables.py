@@ -73,12 +73,52 @@ CENTER_OF = {1: 0, 2: 0, 3: 0, 4: 0, 5: 0, 6: 0, 7: 0, 8: 0, 10: 0, 199: 1, 299:
 
 
 class KernelError(LibrateError):
-    """The DE421 kernel file is missing, unreadable or not the layout this module reads."""
+    """The DE421 kernel file is missing, unreadable or not the layout this module reads.
+
+    Parameters
+    ----------
+    *args : str
+        The message (a one-line statement of what is wrong and what to do).
+
+    Examples
+    --------
+    >>> issubclass(KernelError, LibrateError)
+    True
+
+    References
+    ----------
+    Folkner, W. M., Williams, J. G. & Boggs, D. H., "The Planetary and Lunar Ephemeris DE 421",
+    JPL IPN Progress Report 42-178 (2009).
+    """
 
 
 @dataclass(frozen=True)
 class Segment:
-    """One type 2 segment: records (n, 2 + 3 m) of (mid, radius, x coefs, y coefs, z coefs)."""
+    """One type 2 segment: records (n, 2 + 3 m) of (mid, radius, x coefs, y coefs, z coefs).
+
+    Parameters
+    ----------
+    target, center : int
+        The body numbers of the segment (:data:`CENTER_OF`).
+    start_s, end_s : float
+        Coverage, TDB seconds past J2000.
+    init_s : float
+        Start of the first record.
+    length_s : float
+        Record length, s.
+    records : numpy.ndarray
+        (n_records, words per record), a read-only view of the file.
+
+    Examples
+    --------
+    >>> kernel().segments[301].n_coef
+    13
+
+    References
+    ----------
+    Folkner, W. M., Williams, J. G. & Boggs, D. H., "The Planetary and Lunar Ephemeris DE 421",
+    JPL IPN Progress Report 42-178 (2009); the file layout as described in the module notes.
+    """
 
     target: int
     center: int
@@ -95,6 +135,27 @@ class Segment:
 
 @dataclass(frozen=True)
 class Kernel:
+    """The opened kernel: its path, its segments by target and their common coverage.
+
+    Parameters
+    ----------
+    path : str
+        The file.
+    segments : dict
+        Target number -> :class:`Segment`.
+    start_s, end_s : float
+        Common coverage of every segment, TDB seconds past J2000.
+
+    Examples
+    --------
+    >>> sorted(kernel().segments)[:3]
+    [1, 2, 3]
+
+    References
+    ----------
+    Folkner, W. M., Williams, J. G. & Boggs, D. H., "The Planetary and Lunar Ephemeris DE 421",
+    JPL IPN Progress Report 42-178 (2009).
+    """
     path: str
     segments: dict          # target -> Segment
     start_s: float          # common coverage of every segment
@@ -104,10 +165,26 @@ class Kernel:
 def kernel_path() -> str:
     """Path of ``de421.bsp`` inside the installed ``skyfield-data`` package.
 
+    Returns
+    -------
+    str
+        The file's path.
+
     Raises
     ------
     KernelError
-        The package is not installed (it is a runtime dependency of librate).
+        The package is not installed (it is a runtime dependency of librate), or the file is
+        missing from it.
+
+    Examples
+    --------
+    >>> kernel_path().endswith("de421.bsp")
+    True
+
+    References
+    ----------
+    Folkner, W. M., Williams, J. G. & Boggs, D. H., "The Planetary and Lunar Ephemeris DE 421",
+    JPL IPN Progress Report 42-178 (2009).
     """
     spec = importlib.util.find_spec("skyfield_data")
     if spec is None or not spec.submodule_search_locations:
@@ -120,6 +197,32 @@ def kernel_path() -> str:
 
 
 def sha256(path: str) -> str:
+    """SHA-256 of a file, as hexadecimal text (read in 1 MiB blocks).
+
+    Parameters
+    ----------
+    path : str
+        The file.
+
+    Returns
+    -------
+    str
+        64 hexadecimal digits.
+
+    Raises
+    ------
+    OSError
+        The file cannot be read.
+
+    Examples
+    --------
+    >>> len(sha256(kernel_path()))
+    64
+
+    References
+    ----------
+    NIST FIPS 180-4, "Secure Hash Standard (SHS)" (2015).
+    """
     h = hashlib.sha256()
     with open(path, "rb") as f:
         for block in iter(lambda: f.read(1 << 20), b""):
@@ -129,18 +232,59 @@ def sha256(path: str) -> str:
 
 @lru_cache(maxsize=1)
 def kernel() -> Kernel:
-    """The DE421 kernel, opened once (memory-mapped: only the records used are read)."""
+    """The DE421 kernel, opened once (memory-mapped: only the records used are read).
+
+    Returns
+    -------
+    Kernel
+        The opened kernel (cached).
+
+    Raises
+    ------
+    KernelError
+        The file is missing or not the layout this module reads.
+
+    Examples
+    --------
+    >>> kernel() is kernel()
+    True
+
+    References
+    ----------
+    Folkner, W. M., Williams, J. G. & Boggs, D. H., "The Planetary and Lunar Ephemeris DE 421",
+    JPL IPN Progress Report 42-178 (2009).
+    """
     return read_kernel(kernel_path())
 
 
 def read_kernel(path: str) -> Kernel:
-    """Read the segment summaries of a type 2 SPK file (module docstring for the layout).
+    """Read the segment summaries of a type 2 ephemeris kernel (module notes for the layout).
+
+    Parameters
+    ----------
+    path : str
+        The kernel file.
+
+    Returns
+    -------
+    Kernel
+        Its segments, memory-mapped.
 
     Raises
     ------
     KernelError
         Not a little-endian DAF/SPK file, a segment of another type or frame, or a body of
         :data:`CHAINS` missing.
+
+    Examples
+    --------
+    >>> read_kernel(kernel_path()).segments[399].center
+    3
+
+    References
+    ----------
+    Folkner, W. M., Williams, J. G. & Boggs, D. H., "The Planetary and Lunar Ephemeris DE 421",
+    JPL IPN Progress Report 42-178 (2009); the file layout as described in the module notes.
     """
     try:
         words = np.memmap(path, dtype=WORD, mode="r")
@@ -186,14 +330,73 @@ def read_kernel(path: str) -> Kernel:
 
 
 def seconds_parts(jd1, jd2):
-    """TDB Julian date in two parts -> (whole, fraction) seconds past J2000 (``whole`` exact
-    when jd1 is a whole or half day, as :class:`cr3bp.time.scales.Epoch` gives it)."""
+    """TDB Julian date in two parts -> (whole, fraction) seconds past J2000.
+
+    ``whole`` is exact when jd1 is a whole or half day, as :class:`cr3bp.time.scales.Epoch`
+    gives it.
+
+    Parameters
+    ----------
+    jd1, jd2 : float or array_like
+        The two parts of the TDB Julian date.
+
+    Returns
+    -------
+    whole, frac : numpy.ndarray
+        Seconds past J2000 (the epoch argument of the tables).
+
+    Raises
+    ------
+    ValueError
+        Inputs that cannot be converted to floats.
+
+    Examples
+    --------
+    >>> [float(x) for x in seconds_parts(2451545.5, 0.25)]
+    [43200.0, 21600.0]
+
+    References
+    ----------
+    Folkner, W. M., Williams, J. G. & Boggs, D. H., "The Planetary and Lunar Ephemeris DE 421",
+    JPL IPN Progress Report 42-178 (2009) (TDB seconds past J2000, the tables' argument).
+    """
     return (np.asarray(jd1, float) - J2000_JD) * SECONDS_PER_DAY, np.asarray(jd2, float) * SECONDS_PER_DAY
 
 
 def evaluate(target: int, whole_s, frac_s, velocity: bool) -> np.ndarray:
-    """State (n, 6) km, km/s (velocity columns 0 without ``velocity``) of one segment's
-    target about its centre at TDB seconds ``whole_s + frac_s`` past J2000 (1-D arrays)."""
+    """State of one segment's target about its centre from the Chebyshev tables.
+
+    Parameters
+    ----------
+    target : int
+        The segment's target number (e.g. 301, the Moon about the Earth-Moon barycentre).
+    whole_s, frac_s : numpy.ndarray
+        TDB seconds past J2000 in two parts (1-D arrays, summed).
+    velocity : bool
+        Also the velocity (else its columns are 0).
+
+    Returns
+    -------
+    numpy.ndarray, shape (n, 6)
+        km and km/s, ICRF axes.
+
+    Raises
+    ------
+    KeyError
+        A target the kernel does not hold.
+
+    Examples
+    --------
+    >>> s = evaluate(399, np.array([0.0]), np.array([0.0]), True)
+    >>> 4000 < float(np.linalg.norm(s[0, :3])) < 5000        # the Earth about the barycentre
+    True
+
+    References
+    ----------
+    Folkner, W. M., Williams, J. G. & Boggs, D. H., "The Planetary and Lunar Ephemeris DE 421",
+    JPL IPN Progress Report 42-178 (2009); Press, W. H. et al., "Numerical Recipes", 3rd ed.
+    (2007), sec. 5.8 (Chebyshev recurrences).
+    """
     return _evaluate(kernel().segments[target], whole_s, frac_s, velocity)
 
 
@@ -265,9 +468,41 @@ def _grid(target: int) -> tuple:
 
 
 def relative(body: str, center: str, jd1, jd2, velocity: bool) -> np.ndarray:
-    """State (n, 6) of ``body`` about ``center`` (names of :data:`CHAINS`), ICRF axes, km and
-    km/s, at TDB Julian dates ``jd1 + jd2``. Segments common to both chains cancel and are
-    skipped; the rest are grouped by record grid, each group summed into one table."""
+    """State of ``body`` about ``center`` (names of :data:`CHAINS`) at TDB Julian dates.
+
+    Segments common to both chains cancel and are skipped; the rest are grouped by record grid,
+    each group summed into one table.
+
+    Parameters
+    ----------
+    body, center : str
+        Names of :data:`CHAINS`.
+    jd1, jd2 : array_like
+        TDB Julian date in two parts.
+    velocity : bool
+        Also the velocity (else its columns are 0).
+
+    Returns
+    -------
+    numpy.ndarray, shape (n, 6)
+        km and km/s, ICRF axes.
+
+    Raises
+    ------
+    KeyError
+        A name not in :data:`CHAINS`.
+
+    Examples
+    --------
+    >>> s = relative("moon", "earth", [2451545.0], [0.0], False)
+    >>> 356000 < float(np.linalg.norm(s[0, :3])) < 407000
+    True
+
+    References
+    ----------
+    Folkner, W. M., Williams, J. G. & Boggs, D. H., "The Planetary and Lunar Ephemeris DE 421",
+    JPL IPN Progress Report 42-178 (2009).
+    """
     a, b = CHAINS[body], CHAINS[center]
     common = 0
     while common < min(len(a), len(b)) and a[common] == b[common]:

@@ -55,6 +55,11 @@ from ..constants import MJD_ZERO_JD, OBLIQUITY_J2000_ARCSEC, SECONDS_PER_DAY
 from ..errors import InputError
 from ..vocabulary import ANCHORS, CENTER_ROLES, FRAMES, INERTIAL_FRAMES
 from ..vocabulary import TIME_SYSTEMS as _TIME_SYSTEMS
+import warnings
+from . import ephemeris
+from ..systems import system
+from ..validate import numbers
+from .scales import J2000_JD, Epoch, parse_iso, tai_minus_utc
 
 AXES = FRAMES
 CENTERS = CENTER_ROLES + ("earth", "moon")
@@ -86,17 +91,44 @@ _BODY = {"earth-moon": "emb", "mars-system": "mars", "jupiter-system": "jupiter"
 
 def _epoch(tdb_s):
     """TDB seconds since J2000 -> :class:`cr3bp.time.scales.Epoch` (two-part JD, exact split)."""
-    from .scales import J2000_JD, Epoch
     t = np.asarray(tdb_s, dtype=float)
     days = np.floor(t / SECONDS_PER_DAY)
     return Epoch.from_jd(J2000_JD + days, (t - days * SECONDS_PER_DAY) / SECONDS_PER_DAY, "tdb")
 
 
 def epoch_from_text(text: str, default_scale: str = "UTC") -> float:
-    """ISO 8601 text -> TDB seconds since J2000. 'Z' (or a trailing scale name) sets the scale."""
+    """ISO 8601 text -> TDB seconds since J2000.
+
+    Parameters
+    ----------
+    text : str
+        The epoch, e.g. ``"2031-03-01T00:00:00Z"``; ``Z`` or a trailing scale name
+        (``UTC``, ``TAI``, ``TT``, ``TDB``) sets the scale.
+    default_scale : str, optional
+        Scale of text without a designator (default UTC).
+
+    Returns
+    -------
+    float
+        TDB seconds since J2000 (2000-01-01T12:00:00 TDB).
+
+    Raises
+    ------
+    InputError
+        Text that is not an ISO 8601 date, an unknown scale, or pre-1972 UTC.
+
+    Examples
+    --------
+    >>> epoch_from_text("2000-01-01T12:00:00 TDB")
+    0.0
+
+    References
+    ----------
+    ISO 8601-1:2019; Petit, G. & Luzum, B. (eds.), "IERS Conventions (2010)", IERS Technical
+    Note 36 (2010), ch. 10.
+    """
     if not isinstance(text, str):
         raise InputError(f"epoch {text!r} is not text; expected ISO 8601 like 2031-03-01T00:00:00Z")
-    from .scales import parse_iso
     named = _DESIGNATOR.search(text)
     ep = parse_iso(text) if named else parse_iso(text, time_system(default_scale).lower())
     return float(ep.seconds_since_j2000("tdb"))
@@ -111,9 +143,36 @@ def epoch_to_text(tdb_s, scale: str = "TDB", digits: int = 6):
     Microsecond text (``digits=6``, the files' form) is built by numpy's datetime64 from the
     scale's two-part Julian date; the rare instants inside a UTC leap second, and other digit
     counts, go through :meth:`cr3bp.time.scales.Epoch.to_iso`.
+
+    Parameters
+    ----------
+    tdb_s : float or array_like
+        Epochs, TDB seconds since J2000.
+    scale : {"UTC", "TAI", "TT", "TDB"}, optional
+        The clock the text is written on.
+    digits : int, optional
+        Digits of the seconds' fraction.
+
+    Returns
+    -------
+    numpy.ndarray of str
+        The texts, the shape of ``tdb_s``.
+
+    Raises
+    ------
+    InputError
+        An unknown time system.
+
+    Examples
+    --------
+    >>> str(epoch_to_text(0.0, "TDB"))
+    '2000-01-01T12:00:00.000000'
+
+    References
+    ----------
+    ISO 8601-1:2019; CCSDS 502.0-B-3, "Orbit Data Messages" (2023), sec. 7.5.10 (epoch text);
+    Petit & Luzum (eds.), "IERS Conventions (2010)", ch. 10.
     """
-    import warnings
-    from .scales import tai_minus_utc
     t = np.asarray(tdb_s, dtype=float)
     flat = t.ravel()
     sc = time_system(scale).lower()
@@ -146,9 +205,33 @@ def epochs_from_texts(texts, scale: str) -> np.ndarray:
     Plain ``YYYY-MM-DDThh:mm:ss[.f]`` text is read by numpy's datetime64 (vectorised) and
     passed to :meth:`cr3bp.time.scales.Epoch.from_jd`; anything else (a leap second, other
     forms) goes through :func:`cr3bp.time.scales.parse_iso`, which also names bad values.
+
+    Parameters
+    ----------
+    texts : sequence of str
+        The epochs as ISO 8601 text without a designator.
+    scale : {"UTC", "TAI", "TT", "TDB"}
+        The clock of the texts.
+
+    Returns
+    -------
+    numpy.ndarray
+        TDB seconds since J2000, one per text.
+
+    Raises
+    ------
+    InputError
+        Malformed text, an unknown scale or pre-1972 UTC (the message names the value).
+
+    Examples
+    --------
+    >>> epochs_from_texts(["2000-01-01T12:00:00"], "TDB").tolist()
+    [0.0]
+
+    References
+    ----------
+    ISO 8601-1:2019; Petit, G. & Luzum, B. (eds.), "IERS Conventions (2010)", ch. 10.
     """
-    import warnings
-    from .scales import Epoch, parse_iso, tai_minus_utc
     texts = [str(x).strip() for x in texts]
     sc = time_system(scale).lower()
     try:
@@ -173,8 +256,41 @@ def epochs_from_texts(texts, scale: str) -> np.ndarray:
 
 
 def clock_grid(epoch_tdb_s: float, n: int, step_s: float, scale: str) -> np.ndarray:
-    """Epochs (TDB s) ``k * step_s`` apart on the clock ``scale``, from ``epoch_tdb_s``: TDB
-    seconds for TDB, SI seconds (equal steps of TT, TAI and UTC away from leap seconds) else."""
+    """Epochs ``k * step_s`` apart on the clock ``scale``, from ``epoch_tdb_s``.
+
+    Steps are TDB seconds for TDB and SI seconds (equal steps of TT, TAI and UTC away from leap
+    seconds) otherwise.
+
+    Parameters
+    ----------
+    epoch_tdb_s : float
+        First epoch, TDB seconds since J2000.
+    n : int
+        Number of epochs.
+    step_s : float
+        Step on the chosen clock, s.
+    scale : {"UTC", "TAI", "TT", "TDB"}
+        The clock the steps are equal on.
+
+    Returns
+    -------
+    numpy.ndarray
+        ``n`` epochs, TDB seconds since J2000.
+
+    Raises
+    ------
+    InputError
+        An unknown time system.
+
+    Examples
+    --------
+    >>> clock_grid(0.0, 3, 60.0, "TDB").tolist()
+    [0.0, 60.0, 120.0]
+
+    References
+    ----------
+    Petit, G. & Luzum, B. (eds.), "IERS Conventions (2010)", IERS Technical Note 36, ch. 10.
+    """
     k = np.arange(n) * float(step_s)
     if time_system(scale) == "TDB":
         return epoch_tdb_s + k
@@ -182,6 +298,32 @@ def clock_grid(epoch_tdb_s: float, n: int, step_s: float, scale: str) -> np.ndar
 
 
 def time_system(name: str) -> str:
+    """The time system's name as CCSDS writes it (upper case), checked.
+
+    Parameters
+    ----------
+    name : str
+        ``utc``, ``tai``, ``tt`` or ``tdb`` in any case.
+
+    Returns
+    -------
+    str
+        The upper-case name.
+
+    Raises
+    ------
+    InputError
+        An unknown name (the message lists the allowed ones).
+
+    Examples
+    --------
+    >>> time_system("tdb")
+    'TDB'
+
+    References
+    ----------
+    CCSDS 502.0-B-3, "Orbit Data Messages" (2023), annex A (TIME_SYSTEM values).
+    """
     key = str(name).strip().upper()
     if key not in TIME_SYSTEMS:
         raise InputError(f"unknown time system '{name}'; allowed: {', '.join(_TIME_SYSTEMS)}")
@@ -189,12 +331,41 @@ def time_system(name: str) -> str:
 
 
 def secondary_state(system, tdb_s) -> np.ndarray:
-    """Ephemeris state of the secondary relative to the primary, (N, 6) km, km/s, EME2000
-    (:func:`cr3bp.time.ephemeris.state`)."""
+    """Ephemeris state of the secondary relative to the primary (:func:`cr3bp.time.ephemeris.state`).
+
+    Parameters
+    ----------
+    system : System
+        A system with named primaries (e.g. Earth-Moon).
+    tdb_s : float or array_like
+        Epochs, TDB seconds since J2000.
+
+    Returns
+    -------
+    numpy.ndarray, shape (N, 6)
+        Position (km) and velocity (km/s) on EME2000 axes.
+
+    Raises
+    ------
+    InputError
+        A system without named primaries or without an ephemeris for its pair, or epochs
+        outside the ephemeris' validity.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> r = secondary_state(system("earth-moon"), 0.0)
+    >>> 356000 < float(np.linalg.norm(r[0, :3])) < 407000
+    True
+
+    References
+    ----------
+    Folkner, W. M., Williams, J. G. & Boggs, D. H., "The Planetary and Lunar Ephemeris DE 421",
+    JPL IPN Progress Report 42-178 (2009).
+    """
     if system.primary is None or system.secondary is None:
         raise InputError(f"system '{system.name}' has no named primaries, so it has no ephemeris; "
                          "use --anchor circular with an explicit orientation")
-    from . import ephemeris
     body = _BODY.get(system.secondary.name, system.secondary.name)
     center = _BODY.get(system.primary.name, system.primary.name)
     if body not in ephemeris.BODIES or center not in ephemeris.CENTERS:
@@ -205,13 +376,41 @@ def secondary_state(system, tdb_s) -> np.ndarray:
 
 
 def secondary_series(system, tdb_s):
-    """Position, velocity and acceleration of the secondary relative to the primary (km, km/s,
-    km/s^2, EME2000) from Chebyshev series fitted to its ephemeris positions.
+    """Position, velocity and acceleration of the secondary relative to the primary.
 
-    Chebyshev interpolation at the points of the first kind on each segment
-    ``[k, k + 1] * SERIES_SEGMENT_S`` (TDB seconds since J2000) and the derivative recurrences
-    ``T'_{j+1} = 2 T_j + 2u T'_j - T'_{j-1}``, ``T''_{j+1} = 4 T'_j + 2u T''_j - T''_{j-1}``
-    (Press et al., *Numerical Recipes*, 3rd ed., 2007, sec. 5.8-5.9).
+    Chebyshev series fitted to the ephemeris positions: interpolation at the points of the first
+    kind on each segment ``[k, k + 1] * SERIES_SEGMENT_S`` (TDB seconds since J2000) and the
+    derivative recurrences ``T'_{j+1} = 2 T_j + 2u T'_j - T'_{j-1}``,
+    ``T''_{j+1} = 4 T'_j + 2u T''_j - T''_{j-1}``.
+
+    Parameters
+    ----------
+    system : System
+        A system with named primaries.
+    tdb_s : float or array_like
+        Epochs, TDB seconds since J2000.
+
+    Returns
+    -------
+    r, v, a : numpy.ndarray, shape (N, 3)
+        km, km/s and km/s^2 on EME2000 axes.
+
+    Raises
+    ------
+    InputError
+        As :func:`secondary_state`.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> r, v, a = secondary_series(system("earth-moon"), [0.0])
+    >>> 0.9 < float(np.linalg.norm(v[0])) < 1.1
+    True
+
+    References
+    ----------
+    Press, W. H., Teukolsky, S. A., Vetterling, W. T. & Flannery, B. P., "Numerical Recipes",
+    3rd ed., Cambridge University Press (2007), sec. 5.8-5.9.
     """
     t = np.atleast_1d(np.asarray(tdb_s, dtype=float))
     h = SERIES_SEGMENT_S
@@ -272,7 +471,7 @@ def _axes_from_eq(axes: str) -> np.ndarray:
 class Orientation:
     """Orientation of the secondary's orbit plane at the epoch (circular anchoring).
 
-    Attributes
+    Parameters
     ----------
     inclination_deg, node_deg : float
         Inclination and longitude of the ascending node relative to ``plane``.
@@ -282,6 +481,16 @@ class Orientation:
         ``"j2000-ecliptic"`` or ``"j2000-equator"``.
     source : str
         ``"explicit"`` or ``"osculating ephemeris at epoch"``.
+
+    Examples
+    --------
+    >>> Orientation(5.0, 0.0, 0.0).matrix().shape
+    (3, 3)
+
+    References
+    ----------
+    Vallado, D. A., "Fundamentals of Astrodynamics and Applications", 4th ed., Microcosm Press
+    (2013), sec. 2.5 (orbital elements) and sec. 3.3 (elementary rotations).
     """
 
     inclination_deg: float
@@ -304,9 +513,38 @@ class Orientation:
 def orientation_from_ephemeris(system, epoch_tdb_s: float, plane: str = "j2000-ecliptic") -> Orientation:
     """Osculating orbit plane, node and argument of latitude of the secondary at an epoch.
 
-    From the relative state (r, v): the plane normal is r x v; angles relative to ``plane``
-    (common practice, e.g. Vallado, *Fundamentals of Astrodynamics and Applications*, 4th ed.,
-    2013, sec. 2.5, from memory).
+    From the relative state (r, v): the plane normal is r x v; angles relative to ``plane``.
+
+    Parameters
+    ----------
+    system : System
+        A system with named primaries.
+    epoch_tdb_s : float
+        The epoch, TDB seconds since J2000.
+    plane : {"j2000-ecliptic", "j2000-equator"}, optional
+        The reference plane of the angles.
+
+    Returns
+    -------
+    Orientation
+        Inclination, node and argument of latitude in degrees.
+
+    Raises
+    ------
+    InputError
+        As :func:`secondary_state`.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> o = orientation_from_ephemeris(system("earth-moon"), 0.0)
+    >>> 4.0 < o.inclination_deg < 6.0             # the Moon's orbit on the ecliptic
+    True
+
+    References
+    ----------
+    Vallado, D. A., "Fundamentals of Astrodynamics and Applications", 4th ed., Microcosm Press
+    (2013), sec. 2.5 (common practice, from memory).
     """
     rr, vv, _ = secondary_series(system, np.array([epoch_tdb_s]))
     a = _axes_from_eq(plane)
@@ -328,6 +566,35 @@ class FrameSpec:
 
     Build with :func:`frame`. ``epoch_tdb_s`` is the epoch of rotating time 0 in TDB
     seconds since J2000 (2000-01-01T12:00:00 TDB).
+
+    Parameters
+    ----------
+    system : System
+        The system (with dimensional units).
+    epoch_tdb_s : float
+        Epoch of rotating time 0, TDB seconds since J2000.
+    anchor : {"ephemeris", "circular"}
+        How the rotating axes are tied to the inertial ones.
+    axes : {"j2000-equator", "j2000-ecliptic", "rotating"}
+        The output axes.
+    center : str
+        ``"primary"``, ``"secondary"``, ``"barycenter"`` or a body name.
+    orientation : Orientation or None
+        Circular anchoring only.
+    extra : dict
+        Free annotations (not compared).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> spec = frame(system("earth-moon"), "2031-03-01T00:00:00 TDB", anchor="circular")
+    >>> spec.center_name
+    'earth'
+
+    References
+    ----------
+    Gómez, G., Llibre, J., Martínez, R. & Simó, C., "Dynamics and Mission Design Near Libration
+    Points", vol. I, World Scientific (2001), ch. 1 (the instantaneous frame, from memory).
     """
 
     system: object
@@ -369,7 +636,6 @@ class FrameSpec:
     @classmethod
     def from_dict(cls, d: dict) -> "FrameSpec":
         """Rebuild a spec written by :meth:`to_dict` (system by name, or by mu and units)."""
-        from ..systems import system
         try:
             sysm = system(d["system"])
             if abs(sysm.mu - float(d["mu"])) > 1e-15 * max(1.0, sysm.mu):
@@ -390,7 +656,36 @@ def _choice(name, value, allowed):
 
 
 def resolve_center(system, center: str) -> str:
-    """``"moon"``/``"earth"``/``"barycenter"``/``"primary"``... -> primary|secondary|barycenter."""
+    """A centre's name -> its role ``primary``, ``secondary``, ``barycenter`` (or a body).
+
+    Parameters
+    ----------
+    system : System
+        The system whose primaries name the centres.
+    center : str
+        ``"moon"``, ``"earth"``, ``"barycenter"``, ``"primary"``, ...
+
+    Returns
+    -------
+    str
+        ``"primary"``, ``"secondary"``, ``"barycenter"``, or ``"earth"``/``"moon"`` for a body
+        inside a secondary barycentre.
+
+    Raises
+    ------
+    InputError
+        An unknown centre (the message lists the allowed ones).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> resolve_center(system("earth-moon"), "Moon")
+    'secondary'
+
+    References
+    ----------
+    CCSDS 502.0-B-3, "Orbit Data Messages" (2023), sec. 3.2.3 (CENTER_NAME).
+    """
     key = str(center).strip().lower()
     p, s = (n.lower() for n in system.names)
     table = {**{r: r for r in CENTER_ROLES}, "barycentre": "barycenter", p: "primary", s: "secondary"}
@@ -403,25 +698,83 @@ def resolve_center(system, center: str) -> str:
 
 
 def check_center_axes(system, center: str, axes: str) -> None:
-    """A body centre inside the secondary barycentre (the Earth or the Moon in Sun-Earth) is
-    placed through the ephemeris: it needs inertial axes."""
+    """Refuse a body centre inside the secondary barycentre on rotating axes.
+
+    The Earth or the Moon in Sun-Earth is placed through the ephemeris, so it needs inertial axes.
+
+    Parameters
+    ----------
+    system : System
+        The system.
+    center : str
+        The resolved centre (:func:`resolve_center`).
+    axes : str
+        The output axes.
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    InputError
+        ``center`` is such a body and ``axes`` is ``"rotating"``.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> check_center_axes(system("sun-earth"), "moon", "j2000-equator") is None
+    True
+
+    References
+    ----------
+    CCSDS 502.0-B-3, "Orbit Data Messages" (2023), sec. 3.2.3 (CENTER_NAME, REF_FRAME).
+    """
     if center in ("earth", "moon") and center not in (n.lower() for n in system.names) and axes == "rotating":
         raise InputError(f"centre '{center}' in {system.name} is placed by the ephemeris and needs inertial "
                          f"axes ({' or '.join(INERTIAL_FRAMES)}), not rotating")
 
 
 def body_offset(spec: "FrameSpec", tdb_s):
-    """State (N, 6) km, km/s of a body centre relative to the secondary barycentre, on the
-    spec's axes (zeros for the centres on the CR3BP x axis).
+    """State of a body centre relative to the secondary barycentre, on the spec's axes.
 
     Sun-Earth: the Earth (or the Moon) about the Earth-Moon barycentre from
     :func:`cr3bp.time.ephemeris.state` (``center="emb"``), whatever the anchoring: the CR3BP
-    places the barycentre, the ephemeris the body inside it.
+    places the barycentre, the ephemeris the body inside it. Zeros for the centres on the CR3BP
+    x axis.
+
+    Parameters
+    ----------
+    spec : FrameSpec
+        The frame.
+    tdb_s : float or array_like
+        Epochs, TDB seconds since J2000.
+
+    Returns
+    -------
+    numpy.ndarray, shape (N, 6)
+        km and km/s.
+
+    Raises
+    ------
+    InputError
+        Epochs outside the ephemeris' validity.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> spec = frame(system("earth-moon"), 0.0)
+    >>> body_offset(spec, [0.0]).tolist()
+    [[0.0, 0.0, 0.0, 0.0, 0.0, 0.0]]
+
+    References
+    ----------
+    Folkner, W. M., Williams, J. G. & Boggs, D. H., "The Planetary and Lunar Ephemeris DE 421",
+    JPL IPN Progress Report 42-178 (2009).
     """
     t = np.atleast_1d(np.asarray(tdb_s, dtype=float))
     if spec.center not in ("earth", "moon") or spec.center in (n.lower() for n in spec.system.names):
         return np.zeros((t.size, 6))
-    from . import ephemeris
     off = np.asarray(ephemeris.state(spec.center, _epoch(t), _BODY.get(spec.system.secondary.name, "emb"),
                                      "j2000-equator")).reshape(t.size, 6)
     a = _axes_from_eq(spec.axes)
@@ -440,17 +793,38 @@ def frame(system, epoch, *, anchor="ephemeris", axes="j2000-equator", center="pr
         ISO 8601 text (``Z`` = UTC, or a trailing ``TDB``/``TT``/``TAI``/``UTC``; bare text is
         read on ``time_scale``), or TDB seconds since J2000.
     anchor : {"ephemeris", "circular"}
+        Instantaneous frame of the secondary's ephemeris, or uniform rotation.
     axes : {"j2000-equator", "j2000-ecliptic", "rotating"}
+        The output axes.
     center : str
         ``"primary"``, ``"secondary"``, ``"barycenter"`` or a primary's name; in Sun-Earth also
         ``"earth"`` or ``"moon"`` (through the ephemeris, inertial axes only).
     orientation : Orientation or (inclination_deg, node_deg, latitude_arg_deg), optional
         Circular anchoring only; default from the secondary's ephemeris at the epoch.
+    time_scale : {"UTC", "TAI", "TT", "TDB"}, optional
+        Scale of epoch text without a designator.
+
+    Returns
+    -------
+    FrameSpec
+        The checked specification.
 
     Raises
     ------
     InputError
         Unknown names, a system without units, an epoch outside the ephemeris validity.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> spec = frame(system("earth-moon"), "2031-03-01T00:00:00 TDB", center="moon")
+    >>> spec.center, spec.anchor
+    ('secondary', 'ephemeris')
+
+    References
+    ----------
+    Gómez, G., Llibre, J., Martínez, R. & Simó, C., "Dynamics and Mission Design Near Libration
+    Points", vol. I, World Scientific (2001), ch. 1 (from memory).
     """
     system.require_dimensional("an epoch-anchored frame")
     anchor = _choice("anchoring", anchor, ANCHORS)
@@ -467,7 +841,6 @@ def frame(system, epoch, *, anchor="ephemeris", axes="j2000-equator", center="pr
         elif isinstance(orientation, Orientation):
             ori = orientation
         else:
-            from ..validate import numbers
             i, n, u = numbers("orientation", orientation, 3,
                               "in degrees: inclination, node, argument of latitude")
             if not 0.0 <= i <= 180.0:
@@ -486,12 +859,40 @@ def frame(system, epoch, *, anchor="ephemeris", axes="j2000-equator", center="pr
 def basis(spec: FrameSpec, tdb_s):
     """Rotating axes at epochs: ``(C, w, l, ldot)``.
 
+    Parameters
+    ----------
+    spec : FrameSpec
+        The frame.
+    tdb_s : float or array_like
+        Epochs, TDB seconds since J2000.
+
     Returns
     -------
-    C : ndarray (N, 3, 3)   columns = rotating axes in the output axes
-    w : ndarray (N, 3)      angular velocity of the rotating axes, on those axes, rad/s
-    l : ndarray (N,)        length scale, km
-    ldot : ndarray (N,)     its rate, km/s
+    C : numpy.ndarray, shape (N, 3, 3)
+        Columns = rotating axes in the output axes.
+    w : numpy.ndarray, shape (N, 3)
+        Angular velocity of the rotating axes, on those axes, rad/s.
+    l : numpy.ndarray, shape (N,)
+        Length scale, km.
+    ldot : numpy.ndarray, shape (N,)
+        Its rate, km/s.
+
+    Raises
+    ------
+    InputError
+        Epochs outside the ephemeris' validity (ephemeris anchoring).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> c, w, l, ldot = basis(frame(system("earth-moon"), 0.0, anchor="circular"), [0.0])
+    >>> bool(np.allclose(c[0] @ c[0].T, np.eye(3)))
+    True
+
+    References
+    ----------
+    Gómez, G., Llibre, J., Martínez, R. & Simó, C., "Dynamics and Mission Design Near Libration
+    Points", vol. I, World Scientific (2001), ch. 1 (from memory).
     """
     t = np.atleast_1d(np.asarray(tdb_s, dtype=float))
     n = t.size
@@ -526,19 +927,45 @@ def _epochs(spec, t_tu):
 
 
 def to_frame(spec: FrameSpec, t_tu, states) -> tuple[np.ndarray, np.ndarray]:
-    """Nondimensional rotating states at rotating times -> (epochs TDB s, states km & km/s).
+    """Nondimensional rotating states at rotating times -> (epochs, km and km/s states).
+
+    ``R = l C (rho - rho_c)`` and
+    ``V = l' C (rho - rho_c) + l C [w x (rho - rho_c)] + (l / T) C rho'`` (module notes).
 
     Parameters
     ----------
     spec : FrameSpec
-    t_tu : array (N,)          rotating times, TU from the epoch
-    states : array (N, 6)      nondimensional barycentric rotating states
+        The frame.
+    t_tu : array_like, shape (N,)
+        Rotating times, TU from the epoch.
+    states : array_like, shape (N, 6)
+        Nondimensional barycentric rotating states.
 
     Returns
     -------
-    tdb_s : ndarray (N,)       epochs, TDB seconds since J2000
-    out : ndarray (N, 6)       position (km) and velocity (km/s) relative to the centre, on the
-                               spec's axes
+    tdb_s : numpy.ndarray, shape (N,)
+        Epochs, TDB seconds since J2000.
+    out : numpy.ndarray, shape (N, 6)
+        Position (km) and velocity (km/s) relative to the centre, on the spec's axes.
+
+    Raises
+    ------
+    InputError
+        States whose shape does not match the times.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> em = system("earth-moon")
+    >>> spec = frame(em, 0.0, anchor="circular", axes="rotating")
+    >>> _, out = to_frame(spec, [0.0], [[1 - em.mu, 0, 0, 0, 0, 0]])
+    >>> round(float(out[0, 0]))                          # the Moon, one length unit from the Earth
+    384400
+
+    References
+    ----------
+    Gómez, G., Llibre, J., Martínez, R. & Simó, C., "Dynamics and Mission Design Near Libration
+    Points", vol. I, World Scientific (2001), ch. 1 (from memory).
     """
     t_tu = np.atleast_1d(np.asarray(t_tu, dtype=float))
     s = np.atleast_2d(np.asarray(states, dtype=float))
@@ -558,7 +985,43 @@ def to_frame(spec: FrameSpec, t_tu, states) -> tuple[np.ndarray, np.ndarray]:
 
 
 def from_frame(spec: FrameSpec, tdb_s, states_km) -> tuple[np.ndarray, np.ndarray]:
-    """Inverse of :func:`to_frame`: (epochs TDB s, km & km/s states) -> (t TU, rotating states)."""
+    """Inverse of :func:`to_frame`: (epochs, km and km/s states) -> (rotating times, states).
+
+    Parameters
+    ----------
+    spec : FrameSpec
+        The frame.
+    tdb_s : array_like, shape (N,)
+        Epochs, TDB seconds since J2000.
+    states_km : array_like, shape (N, 6)
+        Position (km) and velocity (km/s) relative to the centre, on the spec's axes.
+
+    Returns
+    -------
+    t_tu : numpy.ndarray, shape (N,)
+        Rotating times, TU from the epoch.
+    states : numpy.ndarray, shape (N, 6)
+        Nondimensional barycentric rotating states.
+
+    Raises
+    ------
+    InputError
+        States whose shape does not match the epochs.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> em = system("earth-moon")
+    >>> spec = frame(em, 0.0, anchor="circular", axes="rotating")
+    >>> t, s = from_frame(spec, [0.0], [[em.length_km, 0, 0, 0, 0, 0]])
+    >>> round(float(s[0, 0] + em.mu), 12)
+    1.0
+
+    References
+    ----------
+    Gómez, G., Llibre, J., Martínez, R. & Simó, C., "Dynamics and Mission Design Near Libration
+    Points", vol. I, World Scientific (2001), ch. 1 (from memory).
+    """
     tdb = np.atleast_1d(np.asarray(tdb_s, dtype=float))
     s = np.atleast_2d(np.asarray(states_km, dtype=float))
     if s.shape != (tdb.size, 6):
@@ -582,6 +1045,39 @@ def delta_v_to_frame(spec: FrameSpec, t_tu, dv) -> np.ndarray:
 
     Position is continuous across an impulse, so only the ``(l / T) C rho'`` term changes:
     ``dV = (l / T) C dv``.
+
+    Parameters
+    ----------
+    spec : FrameSpec
+        The frame.
+    t_tu : array_like, shape (N,)
+        Rotating times of the impulses, TU from the epoch.
+    dv : array_like, shape (N, 3)
+        Nondimensional velocity changes on the rotating axes.
+
+    Returns
+    -------
+    numpy.ndarray, shape (N, 3)
+        km/s on the spec's axes.
+
+    Raises
+    ------
+    InputError
+        Epochs outside the ephemeris' validity (ephemeris anchoring).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> em = system("earth-moon")
+    >>> spec = frame(em, 0.0, anchor="circular", axes="rotating")
+    >>> dv = delta_v_to_frame(spec, [0.0], [[1.0, 0.0, 0.0]])
+    >>> bool(abs(dv[0, 0] - em.length_km / em.time_s) < 1e-12)
+    True
+
+    References
+    ----------
+    Vallado, D. A., "Fundamentals of Astrodynamics and Applications", 4th ed. (2013), sec. 3.7
+    (transport of a vector between rotating frames, common practice).
     """
     t_tu = np.atleast_1d(np.asarray(t_tu, dtype=float))
     dv = np.atleast_2d(np.asarray(dv, dtype=float))
@@ -590,13 +1086,75 @@ def delta_v_to_frame(spec: FrameSpec, t_tu, dv) -> np.ndarray:
 
 
 def delta_v_from_frame(spec: FrameSpec, tdb_s, dv_kms) -> np.ndarray:
-    """Inverse of :func:`delta_v_to_frame`."""
+    """Inverse of :func:`delta_v_to_frame`.
+
+    Parameters
+    ----------
+    spec : FrameSpec
+        The frame.
+    tdb_s : array_like, shape (N,)
+        Epochs of the impulses, TDB seconds since J2000.
+    dv_kms : array_like, shape (N, 3)
+        Velocity changes, km/s on the spec's axes.
+
+    Returns
+    -------
+    numpy.ndarray, shape (N, 3)
+        Nondimensional velocity changes on the rotating axes.
+
+    Raises
+    ------
+    InputError
+        Epochs outside the ephemeris' validity (ephemeris anchoring).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> em = system("earth-moon")
+    >>> spec = frame(em, 0.0, anchor="circular", axes="rotating")
+    >>> delta_v_from_frame(spec, [0.0], [[em.length_km / em.time_s, 0, 0]]).round(12).tolist()
+    [[1.0, 0.0, 0.0]]
+
+    References
+    ----------
+    Vallado, D. A., "Fundamentals of Astrodynamics and Applications", 4th ed. (2013), sec. 3.7
+    (common practice).
+    """
     c, _, l, _ = basis(spec, tdb_s)
     return np.einsum("nji,nj->ni", c, np.atleast_2d(dv_kms)) * (spec.system.time_s / l)[:, None]
 
 
 def with_(spec: FrameSpec, **changes) -> FrameSpec:
-    """A copy of ``spec`` with other axes/centre (validated)."""
+    """A copy of ``spec`` with other axes or centre (validated).
+
+    Parameters
+    ----------
+    spec : FrameSpec
+        The frame to copy.
+    **changes
+        Fields of :class:`FrameSpec` to replace (``axes``, ``center``, ...).
+
+    Returns
+    -------
+    FrameSpec
+        The new specification.
+
+    Raises
+    ------
+    InputError
+        Unknown axes or centre, or a body centre on rotating axes.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> spec = frame(system("earth-moon"), 0.0)
+    >>> with_(spec, center="moon").center
+    'secondary'
+
+    References
+    ----------
+    CCSDS 502.0-B-3, "Orbit Data Messages" (2023), sec. 3.2.3 (CENTER_NAME, REF_FRAME).
+    """
     if "axes" in changes:
         changes["axes"] = _choice("frame", changes["axes"], AXES)
     if "center" in changes:

@@ -60,6 +60,25 @@ class LeapSecondsExpiredWarning(UserWarning):
 
     The conversion used the last TAI-UTC value in the table; a leap second announced later
     (IERS Bulletin C) would shift the result by one second per missing step.
+
+    Parameters
+    ----------
+    *args : str
+        The message, as for any :class:`UserWarning`.
+
+    Examples
+    --------
+    >>> import warnings
+    >>> with warnings.catch_warnings(record=True) as caught:
+    ...     warnings.simplefilter("always")
+    ...     _ = tai_minus_utc(leap_second_table().valid_until_mjd + 10)
+    >>> caught[0].category.__name__
+    'LeapSecondsExpiredWarning'
+
+    References
+    ----------
+    IERS Bulletin C (International Earth Rotation and Reference Systems Service), the
+    announcements of leap seconds, published twice a year.
     """
 
 
@@ -71,8 +90,27 @@ class LeapSecondsExpiredWarning(UserWarning):
 class LeapSecondTable:
     """TAI-UTC steps: ``mjd[i]`` (UTC day the value starts) and ``tai_minus_utc_s[i]``.
 
-    ``valid_until_mjd`` is the first UTC day the table does not vouch for; ``source`` is the
-    provenance line(s) from the file header.
+    Parameters
+    ----------
+    mjd : numpy.ndarray of int
+        UTC day (Modified Julian Date) from which each TAI-UTC value is in force.
+    tai_minus_utc_s : numpy.ndarray of float
+        TAI-UTC (s) from that day on.
+    valid_until_mjd : int
+        The first UTC day the table does not vouch for.
+    source : str
+        The provenance line(s) from the file header.
+
+    Examples
+    --------
+    >>> table = leap_second_table()
+    >>> table.to_dict()["steps"][0]
+    ['1972-01-01', 10.0]
+
+    References
+    ----------
+    IERS Bulletin C; Petit, G. & Luzum, B. (eds.), "IERS Conventions (2010)", IERS Technical
+    Note 36 (2010), ch. 10.
     """
 
     mjd: np.ndarray
@@ -90,8 +128,31 @@ class LeapSecondTable:
 
 @lru_cache(maxsize=1)
 def leap_second_table() -> LeapSecondTable:
-    """The TAI-UTC table read from ``data/leap_seconds.txt`` (the IERS Bulletin C leap-second
-    file as shipped by astropy-iers-data, copied by ``data/refresh_leap_seconds.py``)."""
+    """The TAI-UTC table read from ``data/leap_seconds.txt``.
+
+    The file is the IERS Bulletin C leap-second file as shipped by astropy-iers-data, copied by
+    ``data/refresh_leap_seconds.py``; it is read once and cached.
+
+    Returns
+    -------
+    LeapSecondTable
+        The steps of TAI-UTC, their validity date and the file's provenance.
+
+    Raises
+    ------
+    RuntimeError
+        The data file has no ``valid-until:`` line (a damaged installation).
+
+    Examples
+    --------
+    >>> float(leap_second_table().tai_minus_utc_s[-1])
+    37.0
+
+    References
+    ----------
+    IERS Bulletin C (leap-second announcements); Petit, G. & Luzum, B. (eds.), "IERS
+    Conventions (2010)", IERS Technical Note 36 (2010), ch. 10.
+    """
     text = resources.files("cr3bp.data").joinpath("leap_seconds.txt").read_text()
     mjd, dat, source, valid = [], [], [], None
     for line in text.splitlines():
@@ -119,10 +180,38 @@ def _date_mjd(text: str) -> int:
 
 
 def tai_minus_utc(mjd_utc_day, *, stacklevel: int = 2) -> np.ndarray:
-    """TAI-UTC (s) in force during the given UTC day(s) (integer MJD), from the table.
+    """TAI-UTC (s) in force during the given UTC day(s), from the leap-second table.
 
-    Raises InputError before 1972-01-01 (pre-1972 UTC is not supported); warns with
-    :class:`LeapSecondsExpiredWarning` for days on or after the table's validity date.
+    Parameters
+    ----------
+    mjd_utc_day : int or array_like of int
+        UTC day(s) as whole Modified Julian Dates.
+    stacklevel : int, optional
+        Stack level of the :class:`LeapSecondsExpiredWarning` (for callers that wrap this).
+
+    Returns
+    -------
+    numpy.ndarray
+        TAI-UTC in seconds, the shape of ``mjd_utc_day``.
+
+    Raises
+    ------
+    InputError
+        A day before 1972-01-01 (pre-1972 UTC, with fractional drifting offsets, is not
+        supported). Days on or after the table's validity date warn with
+        :class:`LeapSecondsExpiredWarning` instead.
+
+    Examples
+    --------
+    >>> float(tai_minus_utc(calendar_to_mjd(2017, 1, 1)))
+    37.0
+    >>> float(tai_minus_utc(calendar_to_mjd(2016, 12, 31)))
+    36.0
+
+    References
+    ----------
+    IERS Bulletin C; Petit, G. & Luzum, B. (eds.), "IERS Conventions (2010)", IERS Technical
+    Note 36 (2010), ch. 10.
     """
     table = leap_second_table()
     d = np.asarray(mjd_utc_day, dtype=np.int64)
@@ -156,8 +245,30 @@ def _utc_day_length(mjd_utc_day) -> np.ndarray:
 def calendar_to_mjd(year, month, day):
     """Integer MJD of a Gregorian calendar date (vectorised).
 
-    Method: Fliegel & Van Flandern, "A machine algorithm for processing calendar dates",
-    Comm. ACM 11, 657 (1968), giving the Julian Day Number; MJD = JDN - 2400001.
+    Parameters
+    ----------
+    year, month, day : int or array_like of int
+        Proleptic Gregorian calendar fields (broadcast together; not range-checked).
+
+    Returns
+    -------
+    numpy.ndarray of int
+        The Modified Julian Date of each date's start, ``MJD = JDN - 2400001``.
+
+    Raises
+    ------
+    ValueError
+        Fields that cannot be converted to integers.
+
+    Examples
+    --------
+    >>> int(calendar_to_mjd(2000, 1, 1))
+    51544
+
+    References
+    ----------
+    Fliegel, H. F. & Van Flandern, T. C., "A machine algorithm for processing calendar dates",
+    Communications of the ACM 11, 657 (1968).
     """
     y = np.asarray(year, dtype=np.int64)
     m = np.asarray(month, dtype=np.int64)
@@ -169,9 +280,32 @@ def calendar_to_mjd(year, month, day):
 
 
 def mjd_to_calendar(mjd_day):
-    """(year, month, day) arrays of integer MJD(s); inverse of :func:`calendar_to_mjd`.
+    """(year, month, day) of integer MJD(s); the inverse of :func:`calendar_to_mjd`.
 
-    Method: Fliegel & Van Flandern, Comm. ACM 11, 657 (1968).
+    Parameters
+    ----------
+    mjd_day : int or array_like of int
+        Whole Modified Julian Dates.
+
+    Returns
+    -------
+    year, month, day : numpy.ndarray of int
+        Proleptic Gregorian calendar fields, the shape of ``mjd_day``.
+
+    Raises
+    ------
+    ValueError
+        Values that cannot be converted to integers.
+
+    Examples
+    --------
+    >>> [int(v) for v in mjd_to_calendar(51544)]
+    [2000, 1, 1]
+
+    References
+    ----------
+    Fliegel, H. F. & Van Flandern, T. C., "A machine algorithm for processing calendar dates",
+    Communications of the ACM 11, 657 (1968).
     """
     l_ = np.asarray(mjd_day, dtype=np.int64) + 2400001 + 68569
     n = 4 * l_ // 146097
@@ -187,6 +321,33 @@ def mjd_to_calendar(mjd_day):
 
 
 def mjd_to_iso_date(mjd_day: int) -> str:
+    """ISO 8601 calendar date (``YYYY-MM-DD``) of one whole MJD.
+
+    Parameters
+    ----------
+    mjd_day : int
+        A Modified Julian Date (whole day).
+
+    Returns
+    -------
+    str
+        The date as ``YYYY-MM-DD``.
+
+    Raises
+    ------
+    TypeError
+        ``mjd_day`` is not one number.
+
+    Examples
+    --------
+    >>> mjd_to_iso_date(51544)
+    '2000-01-01'
+
+    References
+    ----------
+    ISO 8601-1:2019, "Date and time -- Representations for information interchange"; the
+    calendar arithmetic of Fliegel & Van Flandern, Comm. ACM 11, 657 (1968).
+    """
     y, m, d = mjd_to_calendar(mjd_day)
     return f"{int(y):04d}-{int(m):02d}-{int(d):02d}"
 
@@ -268,11 +429,36 @@ FAIRHEAD_BRETAGNON_TERMS = {
 def tdb_minus_tt(jd1, jd2=0.0) -> np.ndarray:
     """TDB - TT (s) at the given TT (or TDB) Julian date(s), geocentric; vectorised.
 
-    Method: Fairhead & Bretagnon (1990, A&A 229, 240) series truncated to
-    :data:`FAIRHEAD_BRETAGNON_TERMS` (leading terms as in USNO Circular 179, eq. 2.6).
-    Agreement with the full series: 0.15 us rms, 0.6 us worst over 1900-2100 (measured in the
-    tests against pyerfa). TT or TDB may be given: the 1.7 ms difference changes the result
-    by less than a picosecond.
+    The series is truncated to :data:`FAIRHEAD_BRETAGNON_TERMS`. Agreement with the full
+    series: 0.15 us rms, 0.6 us worst over 1900-2100 (measured in the tests against pyerfa).
+    TT or TDB may be given: the 1.7 ms difference changes the result by less than a picosecond.
+
+    Parameters
+    ----------
+    jd1, jd2 : float or array_like
+        The two parts of the Julian date (summed; broadcast together).
+
+    Returns
+    -------
+    numpy.ndarray
+        TDB - TT in seconds (amplitude about 1.66 ms).
+
+    Raises
+    ------
+    ValueError
+        Inputs that cannot be converted to floats.
+
+    Examples
+    --------
+    >>> abs(float(tdb_minus_tt(2451545.0))) < 1.7e-3
+    True
+
+    References
+    ----------
+    Fairhead, L. & Bretagnon, P., "An analytical formula for the time transformation TB-TT",
+    Astronomy & Astrophysics 229, 240 (1990); Kaplan, G. H., "The IAU Resolutions on
+    Astronomical Reference Systems, Time Scales, and Earth Rotation Models", USNO Circular 179
+    (2005), eq. 2.6; Petit & Luzum (eds.), "IERS Conventions (2010)", ch. 10.
     """
     t = ((np.asarray(jd1, dtype=float) - J2000_JD) + np.asarray(jd2, dtype=float)) / DAYS_PER_JULIAN_MILLENNIUM
     total = np.zeros_like(t)
@@ -339,11 +525,33 @@ def parse_iso(text, scale: str | None = None) -> "Epoch":
     (e.g. ``2031-03-01T00:00:00 TDB``). Without one the scale is ``scale`` (default UTC).
     ``23:59:60`` is accepted in UTC on days that end in a leap second.
 
+    Parameters
+    ----------
+    text : str or sequence of str
+        The epoch(s) as ISO 8601 text.
+    scale : {"utc", "tai", "tt", "tdb"}, optional
+        Scale of text without a designator (default UTC).
+
+    Returns
+    -------
+    Epoch
+        A scalar epoch for one string, an array epoch for a sequence.
+
     Raises
     ------
     InputError
         Malformed text, impossible dates or times (2031-02-30, 25:00), pre-1972 UTC, or a
         designator that contradicts ``scale``; the message names the value.
+
+    Examples
+    --------
+    >>> parse_iso("2016-12-31T23:59:60Z").to_iso("utc")
+    '2016-12-31T23:59:60.000Z'
+
+    References
+    ----------
+    ISO 8601-1:2019, "Date and time -- Representations for information interchange";
+    Petit, G. & Luzum, B. (eds.), "IERS Conventions (2010)", IERS Technical Note 36, ch. 10.
     """
     if scale is not None:
         scale = _check_scale(scale)
@@ -389,6 +597,18 @@ class Epoch:
     Build with :meth:`from_iso` / :func:`parse_iso`, :meth:`from_jd` or
     :meth:`from_calendar`; never construct directly unless ``jd1, jd2`` already follow the
     rule. Arrays of any shape are supported; ``epoch[i]`` indexes, ``len(epoch)`` counts.
+
+    Parameters
+    ----------
+    jd1 : numpy.ndarray
+        ``2400000.5 + MJD`` of the TT day (a whole MJD).
+    jd2 : numpy.ndarray
+        Fraction of the TT day, ``0 <= jd2 < 1``.
+
+    References
+    ----------
+    Petit, G. & Luzum, B. (eds.), "IERS Conventions (2010)", IERS Technical Note 36 (2010),
+    ch. 10 (the scales and the two-part Julian date).
 
     Examples
     --------

@@ -4,11 +4,11 @@ rotation and stroboscopic time against the amplitude."""
 from __future__ import annotations
 
 import numpy as np
+from .circle import evaluate
 
 
 def plot_family(fam, title=None):
-    from ..plotting.base import VIEWS, new_figure
-    from .circle import evaluate
+    from ..plotting.base import VIEWS, new_figure  # lazy: heavy library (matplotlib, via cr3bp.plotting.base)
     members = fam.members
     system = members[0].system
     dim = system.dimensional

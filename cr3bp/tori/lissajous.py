@@ -48,6 +48,9 @@ from . import seeds, solver
 from .family import continue_family, hold_tangents
 from .stability import stability
 from .torus import SurfaceError, build, solve_adaptive, torus_around
+from ..equilibria import lagrange_point
+from ..orbits.request import parse_request, solve_request
+from ..validate import positive_number
 
 #: Relative tolerance on each measured amplitude.
 AMPLITUDE_RTOL = 1e-5
@@ -77,7 +80,6 @@ def measured_amplitudes(torus) -> tuple[float, float]:
 
 
 def _check(name, v):
-    from ..validate import positive_number
     return positive_number(f"{name} (LU)", v)
 
 
@@ -176,7 +178,6 @@ def _fd_jacobian(system, point, t, p, m, measure, ref):
 
 def _direct(system, point, target, rtol, say, km, seen, reached, correct=True):
     """Steps 1-3 of the module notes: (torus, (C, a), measured (ay, az), Jacobian, iterations)."""
-    from ..orbits.request import parse_request, solve_request
     ay_lu, az_lu = target
 
     def edge(fam_name, key, value):
@@ -358,13 +359,11 @@ def _ray(system, point, t, p, m, J, target, f0, rtol, say, km, seen, reached):
 
 def _gamma(system, point):
     """Distance of the collinear point from the smaller primary (LU)."""
-    from ..equilibria import lagrange_point
     return abs(float(lagrange_point(system, point).position[0]) - (1 - system.mu))
 
 
 def _c_point(system, point):
     """Jacobi constant of the collinear point (the family's scale for C steps)."""
-    from ..equilibria import lagrange_point
     lp = lagrange_point(system, point)
     s = np.concatenate([np.asarray(lp.position, dtype=float), np.zeros(3)])[None, :]
     return float(solver.jacobi_many(system.mu, s)[0])

@@ -28,6 +28,11 @@ from ..errors import ConvergenceError, InputError, NoSolutionError, shown
 from . import circle, seeds
 from .family import continue_family
 from .torus import SurfaceError, build, solve_adaptive, torus_around
+from .. import validate
+from ..orbits.request import parse_request, solve_request
+from ..orbits.targets import make_target
+from .lissajous import lissajous
+from .solver import amplitude
 
 FAMILIES = ("lissajous", "quasi-halo")
 ALIASES = {"quasihalo": "quasi-halo", "qh": "quasi-halo", "liss": "lissajous"}
@@ -127,7 +132,6 @@ def _check_pairs(fam, targets):
 
 def values(system, spec: TorusSpec) -> dict:
     """The targets as numbers (LU, TU, nondimensional; frequency-ratio as rotation in rad)."""
-    from .. import validate
     out = {}
     for key, text in spec.targets.items():
         if key in ("ay", "az", "amplitude"):
@@ -163,13 +167,10 @@ def _number(key, text):
 def solve(system, request, progress=None, catalog=None):
     """The torus a request names (text or :class:`TorusSpec`). Everything the request would
     refuse is found before any work. Raises InputError, NoSolutionError."""
-    from ..orbits.request import parse_request, solve_request
-    from ..orbits.targets import make_target
     spec = parse(request) if isinstance(request, str) else request
     want = values(system, spec)
     say = progress or (lambda m: None)
     if spec.family == "lissajous" and "ay" in want:
-        from .lissajous import lissajous
         return lissajous(system, spec.point, want["ay"], want["az"], progress=say)
     if spec.family == "quasi-halo":
         ospec = parse_request(spec.around)
@@ -195,7 +196,6 @@ def _gain(orbit):
 def _lissajous_start(system, point, jacobi, say):
     """A small torus about the planar Lyapunov orbit at the Jacobi constant (the vertical orbit
     past the halo bifurcation), the edge of the Lissajous family."""
-    from ..orbits.request import parse_request, solve_request
     for fam in ("lyapunov", "vertical"):
         say(f"torus request: the {fam} {point} orbit with Jacobi constant {jacobi:.10f}")
         try:
@@ -291,7 +291,6 @@ def reach(start, want: dict, progress=None):
 
 
 def solver_amplitude(u):
-    from .solver import amplitude
     return amplitude(u)
 
 

@@ -18,6 +18,8 @@ from ..integrate import propagate_batch
 from ..validate import positive_number
 from ..vocabulary import COLLINEAR_POINTS
 from . import circle, seeds, solver
+from ..equilibria import lagrange_point
+from .stability import stability
 
 #: Smallest and largest number of points on the circle (odd).
 N_MIN, N_MAX = 15, 151
@@ -182,7 +184,6 @@ def solve_adaptive(system, u, T, rho, holds, reference=None, arclength_fn=None):
 
 def _kind(orbit) -> tuple[str, float | None]:
     """Torus family around this orbit and the linear rotation that picks the branch."""
-    from ..equilibria import lagrange_point
     if orbit.family == "halo":
         return "quasi-halo", None
     if orbit.family in ("lyapunov", "vertical") and orbit.point in COLLINEAR_POINTS:
@@ -295,7 +296,6 @@ def build(system, u, T, rho, err, tol=INVARIANCE_TOL, samples=GEOMETRY_SAMPLES,
     after; every sample lies on the smooth torus function ``W(t, theta)`` on a regular
     (sheared) lattice, so each extreme is refined by the maximum of the quadratic through
     the 3 x 3 samples around the best one (periodic in the circle's angle)."""
-    from .stability import stability
     C = solver.jacobi_many(system.mu, u)
     if with_stability:
         kw["stability"] = stability(system, u, T, rho)
@@ -398,7 +398,6 @@ def lissajous_near_point(system, point: str, ax_lu: float, az_lu: float) -> Toru
     (a few thousand km in the Earth–Moon system); larger Lissajous tori are reached from a
     planar Lyapunov orbit (:func:`torus_around`) or by continuation.
     """
-    from ..equilibria import lagrange_point
     if point not in COLLINEAR_POINTS:
         raise InputError(f"point '{point}': Lissajous tori are about a collinear point (L1, L2, L3)")
     ax_lu, az_lu = positive_number("ax (LU)", ax_lu), positive_number("az (LU)", az_lu)

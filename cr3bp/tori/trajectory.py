@@ -20,6 +20,8 @@ import numpy as np
 
 from ..errors import InputError, NoSolutionError
 from . import circle, solver
+from ..integrate import propagate
+from ..io.export import Segment
 
 
 def state_at(torus, theta0: float, theta1: float) -> np.ndarray:
@@ -31,15 +33,12 @@ def state_at(torus, theta0: float, theta1: float) -> np.ndarray:
     u = circle.evaluate(torus.circle, [float(theta1) - w1 * tau])[0]
     if tau == 0.0:
         return u
-    from .. import propagate
     return np.asarray(propagate(torus.system, u, tau, rtol=solver.RTOL, atol=solver.ATOL).states[-1])
 
 
 def sample(torus, t_eval, phase=(0.0, 0.0)):
     """States on the torus at times ``t_eval`` (TU, increasing from 0) from the torus phase
     ``phase = (theta0, theta1)`` (rad). Returns a :class:`cr3bp.io.export.Segment`."""
-    from .. import propagate
-    from ..io.export import Segment
     t = np.asarray(t_eval, dtype=float)
     if t.ndim != 1 or t.size == 0 or np.any(np.diff(t) <= 0) or t[0] < 0:
         raise InputError("sample times must be increasing from 0")

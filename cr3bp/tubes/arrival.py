@@ -17,6 +17,7 @@ from scipy.optimize import brentq
 from ..errors import InputError
 from ..integrate import propagate
 from .manifolds import ATOL, RTOL
+from scipy.spatial import cKDTree
 
 
 #: Distance from the target orbit's path at which a leg counts as arrived, km (a design choice
@@ -58,7 +59,6 @@ def orbit_path(orbit, n: int = ORBIT_PATH_SAMPLES) -> np.ndarray:
 def distance_to_path(path, points) -> np.ndarray:
     """Distance (LU) from each point (K, 3) to the closed polyline through ``path`` (n, 3): the
     nearest vertex (k-d tree), then the nearest point of the two segments meeting there."""
-    from scipy.spatial import cKDTree
     pts = np.atleast_2d(np.asarray(points, dtype=float))
     n = len(path)
     _, i = cKDTree(path).query(pts)

@@ -32,7 +32,8 @@ from ..integrate.events import COORDS
 from ..transfers.leg import Leg, Maneuver, _mps
 from .arrival import arrival_time
 from .manifolds import RTOL, ATOL, Stop, _globalise, grow_tube, manifold_starts
-from .sections import Crossings, Section
+from .sections import Crossings, Section, hyperplane, parse_section
+import dataclasses
 
 #: Patch tolerance of the refinement (nondimensional, on the matched coordinates).
 PATCH_TOL = 1e-10
@@ -220,8 +221,6 @@ def _minimise_over_plane(ba, bb, ta, tb, names, tol, section, stop, width=0.02):
     +/- ``width`` LU, re-centred up to three times) to minimise |dv| (Brent's bounded method;
     each value re-solved by Newton from the last solution). Returns the best solution, the plane value and the dv on the
     plane first given."""
-    import dataclasses
-    from .sections import hyperplane
     c0 = section.value
     first = {}
     state = {"ta": ta, "tb": tb, "best": None}
@@ -500,7 +499,6 @@ def connect(orbit_a, orbit_b, section, n_points=200, *, step_km=None, t_max=2 * 
         The energies are below that of the necks that must be open (``necks`` gives it), or
         the cuts do not meet.
     """
-    from .sections import parse_section
     sec = section if isinstance(section, Section) else parse_section(section, orbit_a.system)
     stop = Stop(sec, count, float(t_max))
     tu = grow_tube(orbit_a, "unstable", branch_a, n_points, stop, step_km=step_km, progress=progress)

@@ -46,7 +46,7 @@ from ..vocabulary import TUBE_BRANCHES
 from ..integrate import escape, impact, propagate, propagate_batch
 from ..integrate.batch import batch, batch_features
 from ..orbits import PeriodicOrbit
-from ..validate import quantity, whole_number
+from ..validate import quantity, whole_number, positive_number
 from .sections import (Crossings, Section, bounded_max_events, guard_events, parse_section,
     primary_index)
 
@@ -141,7 +141,6 @@ def step_lu(system, step_km=None) -> tuple[float, float]:
     if isinstance(step_km, str):
         v = quantity("step-off distance", step_km, "length", system, sign="positive")
         return v, (v * system.length_km if system.dimensional else float("nan"))
-    from ..validate import positive_number
     step_km = positive_number("step-off distance (km)", step_km)
     system.require_dimensional("a step-off distance in km")
     return step_km / system.length_km, step_km

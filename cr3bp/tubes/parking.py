@@ -23,7 +23,7 @@ from scipy.optimize import brentq
 from ..errors import ConvergenceError, InputError, NoSolutionError
 from ..transfers.leg import Leg, Maneuver, _mps
 from .arrival import arrival_time
-from .manifolds import manifold_starts
+from .manifolds import manifold_starts, describe
 from .sections import apsides, apsis, primary_index
 
 
@@ -123,7 +123,6 @@ def periapsis_map(orbit, primary, stability="stable", branch="interior", n_point
 
 
 def _describe(orbit):
-    from .manifolds import describe
     return describe(orbit)
 
 

@@ -49,7 +49,7 @@ from ..errors import InputError, StateError, shown
 from ..integrate import escape, impact, plane, propagate
 from ..integrate.batch import batch
 from ..integrate.events import COORDS
-from ..validate import quantity
+from ..validate import quantity, positive_number, finite_number
 
 KINDS = ("plane", "sphere", "apsis")
 #: Names the map coordinates may take (besides the six state components).
@@ -230,7 +230,6 @@ def hyperplane(coordinate, value: float, direction: int = 0, label: str = "",
         sign = {"<": -1, ">": 1, -1: -1, 1: 1}.get(side)
         if sign is None:
             raise InputError(f"bound side {side!r} must be '<' or '>'")
-        from ..validate import finite_number
         b = (int(bc), int(sign), finite_number("bound value", bv))
     text = f"{list(COORDS)[coordinate]}={value:g}"
     if b:
@@ -275,7 +274,6 @@ def sphere(system, primary, radius: float, direction: int = -1, label: str = "")
     1
     """
     p = primary_index(system, primary)
-    from ..validate import positive_number
     radius = positive_number("sphere radius (LU)", radius)
     if direction == 0:
         raise InputError("a sphere section needs a direction: entering (-1) or leaving (+1)")

@@ -10,7 +10,8 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError, NoSolutionError
-from .sections import Crossings
+from .sections import Crossings, map_coordinate
+from .manifolds import _lagrange_jacobi
 
 
 def transit(cut: Crossings, states, names=("y", "vy")) -> np.ndarray:
@@ -26,7 +27,6 @@ def transit(cut: Crossings, states, names=("y", "vy")) -> np.ndarray:
         raise InputError("the tube's cut is not a closed curve (not every trajectory reached the "
                          "section); grow it to a section nearer the orbit")
     s = np.atleast_2d(np.asarray(states, dtype=float))
-    from .sections import map_coordinate
     pts = np.column_stack([map_coordinate(cut.system, cut.section, s, np.zeros(len(s)), n)
                            for n in names])
     return cut.contains(pts, names)
@@ -35,7 +35,6 @@ def transit(cut: Crossings, states, names=("y", "vy")) -> np.ndarray:
 def necks_open(system, jacobi_value, points=("L1", "L2")):
     """Raise NoSolutionError unless the energy is above that of each named Lagrange point
     (C below C(Li)), so the necks at those points are open (Koon et al. 2011, §2.4)."""
-    from .manifolds import _lagrange_jacobi
     for pt in points:
         c = _lagrange_jacobi(system, pt)
         if not jacobi_value < c:
