@@ -512,7 +512,9 @@ def value_cases():
     for v in ("50km", "60000km"):
         add(f"connect-path-altitude-{v}", C + [f"--from=parking earth {v}", "--to=halo L2 south resonance=9:2",
                                                 "--path=direct"])
-    add("connect-path-lunar-flyby-unfinished", dep + ["--path=lunar-flyby"])
+    for v in ("0km", "-5km", "30000km", "100", "nankm"):
+        add(f"connect-path-min-flyby-altitude-{v}", dep + ["--path=lunar-flyby", f"--min-flyby-altitude={v}"])
+    add("connect-path-min-flyby-altitude-direct", dep + ["--path=direct", "--min-flyby-altitude=100km"])
     for v in ("0d", "-3d", "0.5d", "500d", "5", "5km", "nand"):
         add(f"connect-path-max-tof-{v}", dep + ["--path=direct", f"--max-tof={v}"])
     for v in ("28.5", "-1deg", "181deg", "xdeg", "nandeg", "28.5km"):

@@ -4,7 +4,7 @@ periodic orbit (direct, or past the Moon), designed by optimisation in the CR3BP
 
 from .. import common
 
-PATH_CHOICES = ("direct",)
+PATH_CHOICES = ("direct", "lunar-flyby")
 
 
 def add_arguments(p):
@@ -12,11 +12,15 @@ def add_arguments(p):
     g.add_argument("--path", choices=PATH_CHOICES, default=None,
                    help="design a departure from 'parking earth ALTITUDE' (--from) to an Earth-Moon periodic "
                         "orbit (--to) by optimisation in the CR3BP instead of following manifolds: 'direct' "
-                        "(departure burn, coast, insertion burn); least total delta-v over the departure "
-                        "phase, time of flight and insertion point (a lunar-flyby path is not available yet)")
+                        "(departure burn, coast, insertion burn) or 'lunar-flyby' (departure burn, coast to a "
+                        "close lunar periapsis where a powered flyby burn is made, coast, insertion burn); "
+                        "least total delta-v over the departure phase, times of flight and insertion point")
     g.add_argument("--max-tof", default=None, metavar="TIME",
                    help="longest time of flight, departure to insertion, with its unit (default 150d; "
                         "at most 400d)")
+    g.add_argument("--min-flyby-altitude", default=None, metavar="LENGTH",
+                   help="--path lunar-flyby: least altitude of the lunar flyby over the Moon's mean radius, "
+                        "with its unit (default 100km; above 0 to 20000km)")
     g.add_argument("--inclination", default=None, metavar="ANGLE",
                    help="inclination of the parking orbit to the Moon's orbit plane (the model's x-y plane), "
                         "e.g. 28.5deg (default: free). The CR3BP has no Earth equator: the equator is "
@@ -58,11 +62,18 @@ def check(args, system, parking):
         if not 1.0 <= tof <= 400.0:
             raise InputError(f"--max-tof {args.max_tof!r}; allowed: 1d to 400d")
     inc = None if args.inclination is None else _angle_deg(args.inclination)
+    fb = 100.0
+    if args.min_flyby_altitude is not None:
+        if args.path != "lunar-flyby":
+            raise InputError(f"--min-flyby-altitude applies to --path lunar-flyby, not --path {args.path}")
+        fb = system.km(quantity("--min-flyby-altitude", args.min_flyby_altitude, "length", system, sign="positive"))
+        if not 0.0 < fb <= 20_000.0:
+            raise InputError(f"--min-flyby-altitude {args.min_flyby_altitude!r}; allowed: above 0km to 20000km")
     for opt, v in (("--section", args.section != "x=1-mu"), ("--map", args.map),
                    ("--arrival-within", args.arrival_within), ("--step-off", args.step_off)):
         if v:
             raise InputError(f"{opt} follows manifolds; it does not apply with --path {args.path}")
-    return alt, float(tof), inc
+    return alt, float(tof), inc, float(fb)
 
 
 HEADERS = ["maneuver", "t_days", "dv_mps", "x_km", "y_km", "z_km"]
@@ -71,11 +82,14 @@ HEADERS = ["maneuver", "t_days", "dv_mps", "x_km", "y_km", "z_km"]
 def run(args, system, parking):
     from cr3bp.transfers.departure import design_departure
     from . import _tube_options as to
-    alt, tof, inc = check(args, system, parking)
+    alt, tof, inc, fb = check(args, system, parking)
     orbit = to.orbit_from_request(system, args.target, args)
+    how = ("two-body first guesses" if args.path == "direct" else
+           "first guesses from a scan of lunar periapsis states (a minute or more)")
     common.progress(args, f"librate connect: designing a {args.path} departure from {args.origin} "
-                    f"(two-body first guesses, then optimisation in the CR3BP)...")
-    dep = design_departure(orbit, alt, path=args.path, inclination_deg=inc, max_tof_days=tof)
+                    f"({how}, then optimisation in the CR3BP)...")
+    dep = design_departure(orbit, alt, path=args.path, inclination_deg=inc, max_tof_days=tof,
+                           min_flyby_altitude_km=fb)
     d = dep.to_dict()
     rows = [[m["name"], m["t_days"], m["dv_mps"], *m["position_km"]] for m in d["maneuvers"]]
     head = [f"{args.origin} -> {args.target}: {args.path} departure ({'optimised' if dep.optimised else 'first guess: the optimiser stopped short of its tolerance'})",
@@ -87,7 +101,8 @@ def run(args, system, parking):
             f"{dep.inclination_deg:.2f} deg to the Moon's orbit plane",
             "positions: Earth-Moon rotating frame, origin at the barycentre; t from the departure burn"]
     if dep.flyby_altitude_km is not None:
-        head.insert(3, f"lunar flyby altitude {dep.flyby_altitude_km:.1f} km (CR3BP)")
+        head.insert(3, f"lunar flyby altitude {dep.flyby_altitude_km:.1f} km over the Moon's mean radius "
+                       f"(CR3BP; at least {fb:g} km asked)")
     head.append(f"check: forward re-propagation of the transfer closes on each burn within "
                 f"{dep.details['closure_km']:.2e} km")
     if args.plot:

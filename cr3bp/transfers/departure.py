@@ -1,13 +1,12 @@
 """Departures from a circular parking orbit about the Earth to an Earth–Moon periodic orbit.
 
-Paths (impulsive, all in the circular restricted three-body model, CR3BP); only ``direct`` is
-finished, ``lunar-flyby`` is refused until its first guesses are (see :func:`design_departure`):
+Paths (impulsive, all in the circular restricted three-body model, CR3BP):
 
 ``direct``
     departure burn on the parking orbit, one coast, insertion burn onto the target orbit.
 ``lunar-flyby``
     departure burn, a coast to a close lunar periapsis (the flyby, at or above a minimum
-    altitude, powered when a burn there lowers the total), a second coast, insertion burn.
+    altitude, with a burn there), a second coast, insertion burn.
 
 Method
 ------
@@ -30,13 +29,23 @@ the unknowns. The total Δv is minimised by sequential least squares (scipy's SL
 "A software package for sequential quadratic programming", DLR-FB 88-28, 1988), the
 constraints being satisfied to ``CONSTRAINT_TOL``.
 
-First guesses come from two-body arcs about the Earth (Lambert's problem,
+The flyby path is solved as two coasts joined at the lunar periapsis (multiple shooting,
+:class:`_FlybyShooting`): the periapsis position, the velocities there before and after the
+flyby burn, the insertion phase and the post-flyby coast time are the unknowns; the backward
+coast must reach the parking radius at its perigee, the forward one the insertion point, both
+velocities are perpendicular to the radius at the periapsis, and its altitude is at least the
+minimum. Its first guesses come from a scan of periapsis states at the minimum altitude
+(:func:`_flyby_guesses`): those that came from near the Earth, given a tangential burn and
+followed forward, pass close to the target orbit; each is made feasible by least-norm Newton
+steps, then optimised by SLSQP, which may stop at its iteration limit with a feasible transfer
+(``optimised`` False: feasible, not proven least).
+
+First guesses of the direct path come from two-body arcs about the Earth (Lambert's problem,
 :mod:`cr3bp.transfers.lambert`, Izzo 2015): for each insertion phase on a grid and each time
 of flight on a grid, the arc from a perigee opposite the insertion point (170 degrees of
 transfer angle) gives the arrival velocity; the insertion Δv of the guess is the target
 orbit's velocity minus that arrival velocity (rotating frame). The best few guesses by
-their two-body cost are optimised, and the cheapest result is kept. The flyby path's guesses
-are built in the CR3BP itself (see :func:`_flyby_guesses`).
+their two-body cost are optimised, and the cheapest result is kept.
 
 Inclination: the CR3BP has no Earth equator; the inclination reported and constrained is
 that of the parking orbit to the Moon's orbit plane (the model's x-y plane). The Earth's
@@ -59,11 +68,9 @@ from ..integrate import impact, propagate
 from ..io.plain import plain as _plain
 from .lambert import lambert
 
-PATHS = ("direct",)
-#: Paths whose design is unfinished: the code is here (first guesses, two-coast shooting) but
-#: its first guesses do not reach the powered-flyby basin yet, so it is refused (see
-#: :func:`design_departure`).
-UNFINISHED_PATHS = ("lunar-flyby",)
+PATHS = ("direct", "lunar-flyby")
+#: Paths whose design is unfinished (refused by :func:`design_departure`).
+UNFINISHED_PATHS = ()
 RTOL = ATOL = 1e-12
 #: Constraint tolerance accepted after optimisation: perigee radius (LU; 1e-9 LU ~ 0.4 m in
 #: Earth–Moon) and inclination (rad).
@@ -82,10 +89,27 @@ GUESS_PHASES = 36
 GUESS_TOF_DAYS = (3.0, 3.5, 4.0, 4.5, 5.0, 6.0)
 #: First guesses optimised (the cheapest by their two-body cost, distinct phases).
 GUESSES_OPTIMISED = 4
-#: Insertion phases tried by the flyby path's first guess.
-FLYBY_GUESS_PHASES = 12
-#: Flyby guesses made feasible before ranking.
-FLYBY_GUESSES_REPAIRED = 24
+#: The flyby path's first guesses (see :func:`_flyby_guesses`): periapsis latitudes and the
+#: step of longitudes and velocity directions (degrees), hyperbolic excess speeds (km/s), how
+#: far back the arrival from the Earth is followed (days) and how close to the Earth it must
+#: pass (LU, ~23 000 km), the tangential speed factors of the flyby burn, the window of the
+#: post-flyby coast (days), the target orbit's samples, the weight of Δv against miss distance
+#: (km per m/s), and the integration tolerance of the scan.
+FLYBY_LATITUDES_DEG = (-75.0, -60.0, -45.0, -30.0, -15.0, 0.0, 15.0, 30.0, 45.0, 60.0, 75.0)
+FLYBY_GRID_DEG = 20.0
+FLYBY_VINF_KMS = (0.8, 0.95)
+FLYBY_BACK_DAYS = 6.0
+FLYBY_SCAN_PERIGEE = 0.06
+FLYBY_SPEED_FACTORS = (0.875, 0.9, 0.925, 0.95, 0.975, 1.0)
+FLYBY_FORWARD_DAYS = (1.5, 9.0)
+FLYBY_ORBIT_SAMPLES = 200
+FLYBY_MISS_KM_PER_MPS = 5.0
+SCAN_TOL = 1e-10
+#: Flyby guesses optimised (the best by their score).
+FLYBY_GUESSES_OPTIMISED = 3
+#: SLSQP iterations on the flyby path (from a feasible start, every iterate it stops at is
+#: checked for feasibility; the cheaper of it and the start is kept).
+FLYBY_MAX_ITER = 120
 #: Transfer angle of the first-guess Lambert arcs (degrees; 180 leaves the plane undefined).
 GUESS_ANGLE_DEG = 170.0
 #: Tolerance of the re-propagation check on every returned transfer (km, position at insertion).
@@ -344,13 +368,6 @@ class _Problem:
         self.cache[key] = out
         return out
 
-    def evaluate_partial(self, z):
-        """(t, state) at the lunar periapsis of the post-flyby coast (backward from the
-        insertion point), or None."""
-        s = self.points.at(z[0])
-        s[3:] -= z[1:4]
-        return self.moon.find(s, self.max_tof)
-
     def _evaluate(self, z):
         s_ins = self.points.at(z[0])
         dv_ins = z[1:4]
@@ -459,66 +476,95 @@ def _direct_guesses(pb: _Problem):
     return rows
 
 
-def _flyby_guesses(pb: _Problem):
-    """Guesses for the flyby path, built backward from the orbit in two steps.
-
-    1. From each insertion phase on a grid, the insertion Δv (least norm, Newton's method)
-       that brings the backward coast's lunar periapsis down to the minimum flyby altitude
-       (near the orbit's own perilune passage a small Δv does it).
-    2. At that periapsis, trial arrival velocities from the Earth (the post-flyby direction
-       turned about the radius by a grid of angles, at speeds of a hyperbola with 0.7-1.1
-       km/s of excess speed over the Moon, common practice for Earth-Moon transfers) are
-       propagated backward to the Earth; the flyby Δv is their difference with the
-       post-flyby velocity. Each guess is scored by its cost plus its perigee miss."""
+def _perilune_state(pb, lat, lon, psi, vinf_kms):
+    """Rotating-frame state at a lunar periapsis at the least flyby radius: the point at
+    latitude ``lat`` and longitude ``lon`` (rad, Moon-centred, rotating axes), the Moon-relative
+    inertial velocity perpendicular to the radius, at angle ``psi`` from the local east, with
+    the speed of a hyperbola of excess speed ``vinf_kms`` there."""
     s = pb.system
-    vk = s.velocity_kms
-    moon = np.array([s.positions[1], 0.0, 0.0])
-    rows = []
-    phases = FLYBY_GUESS_PHASES
-    for k in range(phases):
-        ph = k / phases
-        z = _newton(pb, np.array([ph, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0]), _moon_residual, (1, 2, 3))
-        if z is None:
-            continue
-        e = pb.evaluate_partial(z)
-        t_f, s_f = e
-        rel = s_f[:3] - moon
-        r = float(np.linalg.norm(rel))
-        v_post = s_f[3:].copy()
-        u = rel / r
-        a = v_post - (v_post @ u) * u
-        a /= np.linalg.norm(a)
-        b = np.cross(u, a)
-        for vinf in (0.7, 0.9, 1.1):
-            speed = math.sqrt((vinf / vk) ** 2 + 2.0 * s.mu / r)
-            for ang in np.radians(np.arange(0.0, 360.0, 30.0)):
-                v_pre = speed * (math.cos(ang) * a + math.sin(ang) * b)
-                zz = z.copy()
-                zz[4:7] = v_post - v_pre
-                full = pb.evaluate(zz)
-                if full is None:
-                    continue
-                miss = abs(full["perigee"]["radius"] - pb.r_park)
-                rows.append((full["cost"] + 10.0 * miss, ph, zz))
-    rows.sort(key=lambda r: r[0])
-    # 3. the most promising made feasible by the flyby Δv alone (Newton's method, least norm;
-    #    the post-flyby coast is left as it is), ranked by their true cost
-    out = []
-    for _, ph, zz in rows[:FLYBY_GUESSES_REPAIRED]:
-        z1 = _newton(pb, zz, lambda p, q: None if p.evaluate(q) is None else p.eq(q), (4, 5, 6),
-                     tol=CONSTRAINT_TOL, max_step=0.05, iterations=40)
-        if z1 is not None:
-            out.append((pb.evaluate(z1)["cost"], ph, z1[1:]))
-    out.sort(key=lambda r: r[0])
+    u = np.array([math.cos(lat) * math.cos(lon), math.cos(lat) * math.sin(lon), math.sin(lat)])
+    east = np.cross([0.0, 0.0, 1.0], u)
+    east /= np.linalg.norm(east)
+    north = np.cross(u, east)
+    speed = math.sqrt((vinf_kms / s.velocity_kms) ** 2 + 2.0 * s.mu / pb.r_fb)
+    rel = pb.r_fb * u
+    v_in = speed * (math.cos(psi) * east + math.sin(psi) * north)
+    return np.concatenate([np.array([s.positions[1], 0.0, 0.0]) + rel,
+                           v_in - np.array([-rel[1], rel[0], 0.0])])
+
+
+def _with_speed_factor(pb, state, factor):
+    """``state`` with its Moon-relative inertial velocity scaled by ``factor`` (a tangential
+    burn at the periapsis)."""
+    rel = state[:3] - np.array([pb.system.positions[1], 0.0, 0.0])
+    w = np.array([-rel[1], rel[0], 0.0])
+    out = np.array(state, dtype=float)
+    out[3:] = (state[3:] + w) * factor - w
     return out
 
 
-def _moon_residual(pb, z):
-    hit = pb.evaluate_partial(z)
-    if hit is None:
-        return None
-    r = np.linalg.norm(hit[1][:3] - np.array([pb.system.positions[1], 0.0, 0.0]))
-    return np.array([(r - pb.r_fb) * 10.0])
+def _flyby_guesses(pb: _Problem):
+    """First guesses of the flyby path, built outward from the flyby in the CR3BP itself.
+
+    1. Periapsis states at the least flyby radius on a grid of points on the Moon (latitude,
+       longitude), directions of the velocity perpendicular to the radius, and hyperbolic
+       excess speeds (FLYBY_VINF_KMS, common practice for Earth-Moon transfers) are
+       propagated backward; those whose closest approach to the Earth within
+       FLYBY_BACK_DAYS is below FLYBY_SCAN_PERIGEE came from near a low Earth orbit.
+    2. Each of those is propagated forward after a tangential burn at the periapsis (a grid of
+       speed factors FLYBY_SPEED_FACTORS, slowing down being what an insertion far from the
+       Moon needs); its closest approach to the target orbit (sampled) between
+       FLYBY_FORWARD_DAYS gives the insertion point, the post-flyby coast time and the
+       insertion Δv of the guess.
+    3. Guesses are ranked by their miss distance plus FLYBY_MISS_KM_PER_MPS km per m/s of
+       their flyby and insertion Δv.
+
+    Returns rows ``(score, x0)``, ``x0`` the start of :class:`_FlybyShooting`."""
+    s = pb.system
+    vk = s.velocity_kms
+    moon = np.array([s.positions[1], 0.0, 0.0])
+    earth = np.array([s.positions[0], 0.0, 0.0])
+    day = 1.0 / s.days(1.0)
+    tb = np.linspace(0.0, -FLYBY_BACK_DAYS * day, 600)
+    keep = []
+    for lat in np.radians(FLYBY_LATITUDES_DEG):
+        for lon in np.radians(np.arange(0.0, 360.0, FLYBY_GRID_DEG)):
+            for psi in np.radians(np.arange(0.0, 360.0, FLYBY_GRID_DEG)):
+                for vinf in FLYBY_VINF_KMS:
+                    st = _perilune_state(pb, lat, lon, psi, vinf)
+                    try:
+                        arc = propagate(s, st, tb[-1], rtol=SCAN_TOL, atol=SCAN_TOL, t_eval=tb)
+                    except (StateError, ConvergenceError):
+                        continue
+                    if arc.status != "time":
+                        continue
+                    d = np.linalg.norm(arc.states[:, :3] - earth, axis=1)
+                    if d.min() < FLYBY_SCAN_PERIGEE:
+                        keep.append(st)
+    t_lo, t_hi = FLYBY_FORWARD_DAYS
+    tf = np.linspace(0.0, t_hi * day, int(60 * t_hi) + 1)
+    first = int(np.searchsorted(tf, t_lo * day))
+    ph = np.linspace(0.0, 1.0, FLYBY_ORBIT_SAMPLES, endpoint=False)
+    orb = np.array([pb.points.at(q) for q in ph])
+    rows = []
+    for st in keep:
+        for f in FLYBY_SPEED_FACTORS:
+            post = _with_speed_factor(pb, st, f)
+            try:
+                arc = propagate(s, post, tf[-1], rtol=SCAN_TOL, atol=SCAN_TOL, t_eval=tf)
+            except (StateError, ConvergenceError):
+                continue
+            if arc.status != "time":
+                continue
+            S = arc.states[first:]
+            dd = np.linalg.norm(S[:, None, :3] - orb[None, :, :3], axis=2)
+            i, j = np.unravel_index(int(np.argmin(dd)), dd.shape)
+            dv = float(np.linalg.norm(post[3:] - st[3:]) + np.linalg.norm(S[i, 3:] - orb[j, 3:]))
+            score = float(s.km(dd[i, j])) + FLYBY_MISS_KM_PER_MPS * float(s.mps(dv))
+            x0 = np.concatenate([st[:3] - moon, st[3:], post[3:], [ph[j], float(tf[first + i])]])
+            rows.append((score, x0))
+    rows.sort(key=lambda r: r[0])
+    return rows
 
 
 def _newton(pb, z, resid, idx, tol=1e-8, max_step=0.05, iterations=30):
@@ -624,34 +670,43 @@ class _FlybyShooting:
         p = x[0:3]
         return np.array([(np.linalg.norm(p) - self.pb.r_fb) * 10.0])
 
-    def start(self, z):
-        e = self.pb.evaluate(z)
-        if e is None or e["flyby"] is None:
-            return None
-        t_f, s_f, dv_fb = e["flyby"]
-        return np.concatenate([s_f[:3] - self.moon, s_f[3:] - dv_fb, s_f[3:], [z[0] % 1.0, -t_f]])
 
 
-def _optimise_flyby(pb: _Problem, z0):
-    """SLSQP on the two-coast form from the one-coast guess ``z0``: (result, evaluation)."""
+def _optimise_flyby(pb: _Problem, x0):
+    """From the guess ``x0`` of :func:`_flyby_guesses`: least-norm Newton steps on every
+    constraint (a feasible transfer near the guess), then SLSQP on the total Δv from there.
+    Returns (SLSQP result or None, evaluation of the cheaper feasible point or None, that
+    point, whether it is SLSQP's converged result)."""
     ms = _FlybyShooting(pb)
-    x0 = ms.start(z0)
-    if x0 is None:
-        return None, None
-    res = minimize(ms.fun, x0, method="SLSQP",
+
+    def resid(_, x):
+        if ms.evaluate(x) is None:
+            return None
+        return np.concatenate([ms.eq(x), [min(0.0, float(ms.ineq(x)[0]))]])
+
+    def feasible(x):
+        return ms.evaluate(x) is not None and bool(np.all(np.abs(ms.eq(x)) < CONSTRAINT_TOL * 100.0)) \
+            and ms.ineq(x)[0] > -CONSTRAINT_TOL * 100.0
+
+    x1 = _newton(pb, x0, resid, range(11), tol=CONSTRAINT_TOL * 10.0, max_step=0.02, iterations=60)
+    if x1 is None:
+        return None, None, None, False
+    res = minimize(ms.fun, x1, method="SLSQP",
                    constraints=[{"type": "eq", "fun": ms.eq}, {"type": "ineq", "fun": ms.ineq}],
-                   options={"maxiter": MAX_ITER, "ftol": 1e-12})
-    e = ms.evaluate(res.x)
-    ok = e is not None and np.all(np.abs(ms.eq(res.x)) < CONSTRAINT_TOL * 100.0) and \
-        ms.ineq(res.x)[0] > -CONSTRAINT_TOL * 100.0
-    return res, (e if ok else None)
+                   options={"maxiter": FLYBY_MAX_ITER, "ftol": 1e-12})
+    x2 = res.x
+    if not feasible(x2):
+        x2 = _newton(pb, res.x, resid, range(11), tol=CONSTRAINT_TOL * 10.0, max_step=0.02, iterations=30)
+    if x2 is not None and feasible(x2) and ms.evaluate(x2)["cost"] < ms.evaluate(x1)["cost"]:
+        return res, ms.evaluate(x2), x2, bool(res.success)
+    return res, ms.evaluate(x1), x1, False
 
 
 # ---- design --------------------------------------------------------------------------------
 
 def design_departure(orbit, altitude_km: float = 200.0, *, path: str = "direct",
                      inclination_deg: float | None = None, min_flyby_altitude_km: float = 100.0,
-                     max_tof_days: float = 150.0, guesses: int = GUESSES_OPTIMISED,
+                     max_tof_days: float = 150.0, guesses: int | None = None,
                      _allow_unfinished: bool = False) -> Departure:
     """The least-Δv departure found from a circular parking orbit about the Earth to ``orbit``.
 
@@ -661,19 +716,15 @@ def design_departure(orbit, altitude_km: float = 200.0, *, path: str = "direct",
         Target orbit of the Earth–Moon system.
     altitude_km : float
         Parking-orbit altitude.
-    path : "direct"
-        ("lunar-flyby" is refused: its design is unfinished. The code below -- guesses built
-        backward from the orbit through a low lunar periapsis, then two-coast multiple
-        shooting -- converges only to flybys that the optimiser raises out of the flyby
-        region; better first guesses are the missing piece.)
+    path : "direct" or "lunar-flyby"
     inclination_deg : float, optional
         Inclination of the parking orbit to the Moon's orbit plane (free when None).
     min_flyby_altitude_km : float
         Least altitude of the lunar periapsis (flyby path).
     max_tof_days : float
         Longest time of flight, departure to insertion.
-    guesses : int
-        First guesses optimised.
+    guesses : int, optional
+        First guesses optimised (default GUESSES_OPTIMISED, or FLYBY_GUESSES_OPTIMISED).
 
     Returns
     -------
@@ -710,7 +761,10 @@ def design_departure(orbit, altitude_km: float = 200.0, *, path: str = "direct",
     t_start = time.perf_counter()
     pb = _Problem(orbit, altitude_km, inclination_deg, path,
                   min_flyby_altitude_km if path == "lunar-flyby" else None, max_tof_days / system.days(1.0))
-    rows = _direct_guesses(pb) if path == "direct" else _flyby_guesses(pb)
+    if path == "lunar-flyby":
+        return _design_flyby(pb, FLYBY_GUESSES_OPTIMISED if guesses is None else guesses, t_start)
+    guesses = GUESSES_OPTIMISED if guesses is None else guesses
+    rows = _direct_guesses(pb)
     if not rows:
         raise NoSolutionError("no two-body first guess: no Lambert arc reaches the orbit within "
                               f"{max_tof_days:g} days")
@@ -722,21 +776,9 @@ def design_departure(orbit, altitude_km: float = 200.0, *, path: str = "direct",
         if len(chosen) >= guesses:
             break
     cons = [{"type": "eq", "fun": pb.eq}]
-    if path == "lunar-flyby":
-        cons.append({"type": "ineq", "fun": pb.ineq})
     best, tried = None, []
     for cost0, ph, dv in chosen:
         z0 = np.concatenate([[ph], dv])
-        if path == "lunar-flyby":
-            res, e = _optimise_flyby(pb, z0)
-            tried.append({"phase": ph, "guess_cost_mps": float(system.mps(cost0)),
-                          "result_mps": None if e is None else float(system.mps(e["cost"])),
-                          "feasible": e is not None, "iterations": None if res is None else int(res.nit),
-                          "message": "no start" if res is None else str(res.message)})
-            if e is not None and (best is None or e["cost"] < best[1]["cost"]):
-                res.x = np.concatenate([[res.x[9]], e["dv_ins"]])
-                best = (res, e, ph)
-            continue
         z0 = _repair(pb, z0)
         if z0 is None:
             tried.append({"phase": ph, "guess_cost_mps": system.mps(cost0), "result": "no perigee"})
@@ -770,6 +812,37 @@ def design_departure(orbit, altitude_km: float = 200.0, *, path: str = "direct",
         "constraint_residuals": resid, "guesses": tried,
         "method": "backward shooting from the insertion point, SLSQP over insertion phase and "
                   "impulses; first guess from two-body Lambert arcs"})
+
+
+def _design_flyby(pb: _Problem, guesses: int, t_start: float) -> Departure:
+    """The lunar-flyby path: guesses of :func:`_flyby_guesses`, each made feasible and
+    optimised (:func:`_optimise_flyby`); the cheapest feasible one is built."""
+    system = pb.system
+    ms = _FlybyShooting(pb)
+    rows = _flyby_guesses(pb)
+    best, tried = None, []
+    for score, x0 in rows[:max(1, guesses)]:
+        res, e, x, converged = _optimise_flyby(pb, x0)
+        tried.append({"score": score, "feasible": e is not None,
+                      "result_mps": None if e is None else float(system.mps(e["cost"])),
+                      "iterations": None if res is None else int(res.nit),
+                      "converged": converged, "message": "no feasible start" if res is None else str(res.message)})
+        if e is not None and (best is None or e["cost"] < best[1]["cost"]):
+            best = (x, e, converged)
+    if best is None:
+        raise NoSolutionError(f"no lunar-flyby departure met the constraints (parking altitude "
+                              f"{system.km(pb.r_park) - system.primary.radius_km:g} km, flyby at least "
+                              f"{system.km(pb.r_fb) - system.secondary.radius_km:g} km) from "
+                              f"{min(len(rows), max(1, guesses))} first guess(es) of {len(rows)}")
+    x, e, converged = best
+    z = np.concatenate([[x[9] % 1.0], e["dv_ins"]])
+    return _build(pb, z, e, converged, {
+        "evaluations": len(ms.cache), "seconds": time.perf_counter() - t_start,
+        "constraint_residuals": np.abs(ms.eq(x)).tolist(), "guesses": tried,
+        "method": "two coasts joined at the lunar periapsis (multiple shooting): least-norm Newton "
+                  "to a feasible transfer, then SLSQP on the total delta-v; first guesses from a "
+                  "scan of periapsis states at the least flyby altitude, propagated back to the "
+                  "Earth and forward to the orbit"})
 
 
 def _repair(pb: _Problem, z):

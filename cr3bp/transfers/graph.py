@@ -258,18 +258,74 @@ def _parking_leg(system, task) -> dict:
     st = task["settings"]
     arrive = st["arrive"]                     # parking -> orbit
     orbit = _orbit_from_plain(system, task["to" if arrive else "from"]["orbit_data"])
+    departs = arrive and system.name == "earth-moon" and str(st["body"]).lower() == "earth"
+    if not manifold_may_reach(orbit, st["body"], st["altitude_km"]):
+        # no manifold of this orbit comes down to the parking orbit: no periapsis search (it
+        # cannot succeed); a departure goes straight to the direct design, a return has none
+        if departs:
+            return _direct_departure_leg(orbit, st)
+        from ..errors import NoSolutionError
+        raise NoSolutionError(
+            f"no unstable manifold of an Earth-Moon orbit about {orbit.point} comes below about "
+            f"{MANIFOLD_EARTH_FLOOR_KM:.0f} km over the Earth (parking orbit at {st['altitude_km']:g} km), "
+            "and a direct return to a parking orbit is not designed")
     try:
         found = _periapsis_legs(orbit, st["body"], st["altitude_km"], "stable" if arrive else "unstable",
                                 st["tube_points"])
     except LibrateError:
-        # no manifold reaches the parking orbit (Earth-Moon orbits from low Earth orbit): a
-        # direct departure optimised in the CR3BP (cr3bp.transfers.departure)
-        if not (arrive and system.name == "earth-moon" and str(st["body"]).lower() == "earth"):
+        # no manifold reaches the parking orbit: a direct departure optimised in the CR3BP
+        # (cr3bp.transfers.departure)
+        if not departs:
             raise
-        from .departure import as_plain_leg, design_departure
-        return as_plain_leg(design_departure(orbit, st["altitude_km"], path="direct"), st["patches"])
+        return _direct_departure_leg(orbit, st)
     best = min(found, key=lambda lg: (lg.dv_mps, lg.tof))
     return _with_arrival(best.record(st["patches"]), best)
+
+
+def _direct_departure_leg(orbit, st) -> dict:
+    """The direct departure (:func:`cr3bp.transfers.departure.design_departure`) from the
+    parking orbit of the task settings ``st`` (its altitude and, when given, its inclination
+    to the Moon's orbit plane) to ``orbit``, as a plain leg."""
+    from .departure import as_plain_leg, design_departure   # lazy: heavy library (scipy.optimize)
+    dep = design_departure(orbit, st["altitude_km"], path="direct", inclination_deg=st.get("inclination_deg"))
+    return as_plain_leg(dep, st["patches"])
+
+
+#: A floor under the first periapsis altitude over the Earth (km) of the stable manifolds of
+#: Earth-Moon halo orbits about L1 and L2 (the near-rectilinear ones included), both branches,
+#: 40 trajectories each, within 27.3 days (the search's own limits). Measured in this project
+#: (December 2026): the lowest over L1 halos of Az 3000-50000 km and periods 8-10 d and L2
+#: halos of Az 3000-50000 km, the 9:2 and 4:1 NRHOs and periods 7.5-8.5 d was 82 510 km (L1,
+#: Az 50000 km, exterior branch); most L2 NRHOs pass no periapsis at all. Re-measured for two
+#: orbits by tests/test_graph_departures.py. Lyapunov orbits are not covered: at C = 3.1 an L1
+#: Lyapunov orbit's stable manifold comes down to 62 000 km, and lower at lower C.
+MANIFOLD_EARTH_FLOOR_KM = 80_000.0
+#: A parking orbit below this fraction of the floor is taken as out of the manifolds' reach.
+FLOOR_MARGIN = 0.5
+#: Families the floor was measured for.
+FLOOR_FAMILIES = ("halo",)
+
+
+def manifold_may_reach(orbit, body, altitude_km) -> bool:
+    """Whether a manifold of ``orbit`` may come down to a parking orbit at ``altitude_km`` over
+    ``body`` (False: the periapsis search of :func:`cr3bp.tubes.parking.parking_legs` cannot
+    succeed, so it is not run).
+
+    The Jacobi constant does not decide it: the tangential burn at periapsis changes the
+    energy, and at any radius a trajectory of the orbit's Jacobi constant exists (the speed
+    there follows from C = 2 Omega - v^2). What decides it is where the manifold's trajectories
+    pass: those of the Earth-Moon orbits about L1 and L2 leave or reach the orbit through the
+    neck about L1 or L2 with a small rotating-frame velocity, so nearly the frame's own motion
+    inertially, and keep an angular momentum about the Earth that holds their first perigee far
+    out (MANIFOLD_EARTH_FLOOR_KM, measured). A parking orbit about the Earth far below that
+    floor is out of their reach. Every other case (the Moon, other families, other systems, a
+    high parking orbit) keeps the search."""
+    s = orbit.system
+    if s.name != "earth-moon" or str(body).lower() != "earth":
+        return True
+    if str(orbit.family).lower() not in FLOOR_FAMILIES or str(orbit.point).upper() not in ("L1", "L2"):
+        return True
+    return not altitude_km < FLOOR_MARGIN * MANIFOLD_EARTH_FLOOR_KM
 
 
 def _boundary_leg(system, task) -> dict:
@@ -403,6 +459,7 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
             park, orb = (a, b) if isinstance(a, ParkingNode) else (b, a)
             settings = {"patches": int(patches), "maneuvers": maneuvers, "body": park.body,
                         "altitude_km": park.altitude_km, "arrive": park is a,
+                        "inclination_deg": park.inclination_deg,
                         "max_patch_dv_mps": h.max_patch_dv_mps if h else None, "tube_points": PARKING_POINTS}
         elif h and h.sections and isinstance(a, OrbitNode) and isinstance(b, OrbitNode):
             # manifold connection on the hinted section(s): unstable tube of a, stable of b

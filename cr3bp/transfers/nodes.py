@@ -53,7 +53,8 @@ NODE_KEYS = {
     "orbit": ("str", False, "orbit request text, e.g. 'halo L2 south period=6.5626d' (kind orbit)"),
     "body": ("str", False, "primary, e.g. 'earth' (kinds parking, capture, escape)"),
     "altitude": ("quantity", False, "altitude of the circular parking orbit or the capture periapsis"),
-    "inclination": ("float", False, "inclination of the parking orbit to the primaries' plane, degrees"),
+    "inclination": ("float", False, "inclination of the parking orbit to the primaries' plane, degrees "
+                                   "(default: free, the design chooses it)"),
     "radius": ("quantity", False, "distance from the body at which the escape condition holds"),
     "state": ("list[float]", False, "x, y, z, vx, vy, vz in LU and LU/TU (kind state)"),
 }
@@ -132,13 +133,13 @@ class ParkingNode:
     system: str
     body: str
     altitude_km: float
-    inclination_deg: float = 0.0
+    inclination_deg: float | None = None    # None: free (the design chooses the plane)
     kind: str = "parking"
 
     @property
     def id(self) -> str:
-        return (f"parking/{self.system}/{self.body}/{self.altitude_km:g}km"
-                f"/{self.inclination_deg:g}deg")
+        base = f"parking/{self.system}/{self.body}/{self.altitude_km:g}km"
+        return base if self.inclination_deg is None else f"{base}/{self.inclination_deg:g}deg"
 
     def to_dict(self) -> dict:
         return {"id": self.id, "name": self.name, "kind": self.kind, "system": self.system,
@@ -338,7 +339,7 @@ def _node(t: dict, system):
         s = validate.state(system, t["state"], "state")
         return StateNode(name, system.name, tuple(float(v) for v in s))
     if kind == "parking":
-        return parking_node(name, system, t["body"], t["altitude"], t.get("inclination", 0.0))
+        return parking_node(name, system, t["body"], t["altitude"], t.get("inclination"))
     body = _body(system, t["body"])
     dist = units.parse(t["altitude" if kind == "capture" else "radius"], "length").si()
     if not dist > 0:
@@ -356,13 +357,16 @@ def orbit_node(name: str, system, orbit: str) -> OrbitNode:
     return OrbitNode(name, system.name, orbit)
 
 
-def parking_node(name: str, system, body: str, altitude, inclination=0.0) -> ParkingNode:
+def parking_node(name: str, system, body: str, altitude, inclination=None) -> ParkingNode:
     """The node of a circular parking orbit about ``body`` (a primary's name) at ``altitude``
-    (text with a length unit, e.g. ``"200km"``), ``inclination`` degrees (checked: InputError)."""
+    (text with a length unit, e.g. ``"200km"``), ``inclination`` degrees to the primaries'
+    plane (None: free; checked: InputError)."""
     body = _body(system, body)
     alt = units.parse(altitude, "length").si()
     if not alt > 0:
         raise InputError(f"altitude {shown(altitude)} must be positive")
+    if inclination is None:
+        return ParkingNode(name, system.name, body, alt, None)
     inc = float(inclination)
     if not (math.isfinite(inc) and 0.0 <= inc <= 180.0):
         raise InputError(f"inclination {inc!r} is outside 0..180 degrees")
@@ -422,7 +426,7 @@ def node_state(system, node) -> np.ndarray | None:
         xc = system.positions[k]
         side = -1.0 if k == 0 else 1.0
         v_in = math.sqrt(gm / r)
-        inc = math.radians(node.inclination_deg)
+        inc = math.radians(node.inclination_deg or 0.0)
         # inertial circular velocity, minus the frame's rotation (omega x r, omega = z)
         pos = np.array([xc + side * r, 0.0, 0.0])
         v = np.array([0.0, side * v_in * math.cos(inc), side * v_in * math.sin(inc)])
