@@ -396,23 +396,31 @@ class Catalog:
 
     # ---- legs (transfer graph) ---------------------------------------------------------
     @_guarded
-    def put_leg(self, key: str, system, data: dict) -> None:
+    def put_leg(self, key: str, system, leg) -> None:
+        """Store one :class:`cr3bp.transfers.leg.Leg` under ``key`` (as its leg record, JSON)."""
         with self._tx():
             self._db.execute("INSERT OR REPLACE INTO legs (key, system, data, created) VALUES (?,?,?,?)",
-                             (key, system.name, _dumps(data), time.time()))
+                             (key, system.name, _dumps(_leg_record(leg)), time.time()))
 
     @_guarded
     def put_legs(self, items) -> None:
-        """Store many ``(key, system, data)`` legs in one transaction (one disk sync)."""
+        """Store many ``(key, system, leg)`` legs in one transaction (one disk sync); each
+        :class:`cr3bp.transfers.leg.Leg` is stored as its leg record (JSON)."""
         now = time.time()
         with self._tx():
             self._db.executemany("INSERT OR REPLACE INTO legs (key, system, data, created) VALUES (?,?,?,?)",
-                                 [(k, sys_.name, _dumps(d), now) for k, sys_, d in items])
+                                 [(k, sys_.name, _dumps(_leg_record(d)), now) for k, sys_, d in items])
 
     @_guarded
-    def get_leg(self, key: str):
+    def get_leg(self, key: str, system=None):
+        """The :class:`cr3bp.transfers.leg.Leg` stored under ``key`` (None: none), read from its
+        leg record (:meth:`cr3bp.transfers.leg.Leg.from_record`; a damaged record raises
+        RecordError naming the key); ``system`` is the system it belongs to."""
         row = self._db.execute("SELECT data FROM legs WHERE key=?", (key,)).fetchone()
-        return None if row is None else json.loads(row[0])
+        if row is None:
+            return None
+        from .transfers.leg import Leg   # lazy: start-up weight (the leg module loads the integrator)
+        return Leg.from_record(json.loads(row[0]), system)
 
     @_guarded
     def count_legs(self) -> int:
@@ -471,3 +479,8 @@ def finite_or_none(v):
     (None, 2.5)
     """
     return None if (isinstance(v, float) and not math.isfinite(v)) else v
+
+
+def _leg_record(leg) -> dict:
+    """The stored form of a leg: its leg record (a plain dict is stored as it is)."""
+    return leg.record() if hasattr(leg, "record") else leg

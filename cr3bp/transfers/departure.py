@@ -58,6 +58,7 @@ from ..errors import ConvergenceError, InputError, NoSolutionError, StateError
 from ..integrate import impact, propagate
 from ..io.plain import plain as _plain
 from .lambert import lambert
+from .leg import Leg, Maneuver
 
 PATHS = ("direct",)
 #: Paths whose design is unfinished: the code is here (first guesses, two-coast shooting) but
@@ -832,12 +833,25 @@ def closure_km(dep: Departure, propagator=None) -> float:
     return worst
 
 
-def as_plain_leg(dep: Departure, patches: int = 4) -> dict:
-    """``dep`` as the plain leg dict of the transfer graph (the keys of
-    :meth:`cr3bp.transfers.leg.Leg.record`): each coast cut into ``patches``
-    shooting segments, the burns as maneuvers (``where``: departure, patch, arrival), the
-    departure state on the parking orbit before the burn and the orbit's state after
-    insertion."""
+def as_leg(dep: Departure, patches: int = 4) -> Leg:
+    """``dep`` as a :class:`cr3bp.transfers.leg.Leg` in shooting form, the transfer graph's
+    parking leg: each coast cut into ``patches`` shooting segments, the burns as maneuvers
+    (``where``: departure, patch, arrival; ``name``: the burn's name), the departure state on
+    the parking orbit before the burn and the orbit's state after insertion.
+
+    Parameters
+    ----------
+    dep : Departure
+        A designed departure (:func:`design_departure`).
+    patches : int
+        Shooting segments per coast.
+
+    Returns
+    -------
+    Leg
+        Solver "parking", kind "departure"; arrives when it ends (``tof_arrival_days`` equals
+        ``tof_days``, no arrival distance).
+    """
     s = dep.system
     times, states, end = [], [], None
     for t0, st, dt in dep.segments():
@@ -849,16 +863,16 @@ def as_plain_leg(dep: Departure, patches: int = 4) -> dict:
     mans = []
     for k, m in enumerate(dep.maneuvers):
         where = "departure" if k == 0 else ("arrival" if k == len(dep.maneuvers) - 1 else "patch")
-        mans.append({"t": float(m["t"]), "position": [float(v) for v in m["position"]],
-                     "dv_vector": [float(v) for v in m["dv_vector"]],
-                     "dv_mps": float(s.mps(np.linalg.norm(m["dv_vector"]))), "where": where,
-                     "name": m["name"]})
+        mans.append(Maneuver(float(m["t"]), np.array([float(v) for v in m["position"]]),
+                             np.array([float(v) for v in m["dv_vector"]]),
+                             float(s.mps(np.linalg.norm(m["dv_vector"]))), where, m["name"]))
     finish = end.copy()
     finish[3:] += dep.maneuvers[-1]["dv_vector"]
-    return {"format": 1, "method": "parking", "how": f"{dep.path} departure (optimised in the CR3BP)",
-            "kind": "departure", "dv_mps": dep.dv_mps, "tof_days": dep.tof_days, "tof_tu": float(dep.tof),
-            "maneuvers": mans, "departure_state": [float(v) for v in dep.maneuvers[0]["state_before"]],
-            "arrival_state": finish.tolist(), "patch_times": times, "patch_states": states,
-            "final_state": end.tolist(), "min_altitude_km": float(s.km(dep.perigee["radius"]) - s.primary.radius_km),
-            "tof_arrival_days": dep.tof_days, "arrival_distance_km": None,
-            "details": _plain({"departure": {k: v for k, v in dep.to_dict().items() if k != "details"}})}
+    return Leg(s, "", "", tuple(mans), float(dep.dv_mps), float(dep.tof), None, tuple(dep.segments()),
+               f"{dep.path} departure (optimised in the CR3BP)", kind="departure",
+               min_altitude_km=float(s.km(dep.perigee["radius"]) - s.primary.radius_km),
+               details=_plain({"departure": {k: v for k, v in dep.to_dict().items() if k != "details"}}),
+               solver="parking", patch_times=np.array(times, dtype=float), patch_states=np.array(states, dtype=float),
+               departure_state=np.array([float(v) for v in dep.maneuvers[0]["state_before"]]),
+               arrival_state=finish, final_state=end, tof_days=float(dep.tof_days),
+               tof_arrival_days=float(dep.tof_days))

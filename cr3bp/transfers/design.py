@@ -59,8 +59,8 @@ class TransferDesign:
 def orbit_periods(graph) -> dict:
     """Orbit node id -> period (TU), from the graph's "stay" self-loops (the phasing coasts of
     :func:`cr3bp.transfers.stitch.stitch_route` need them)."""
-    return {u: d["leg"]["period_tu"] for u, v, k, d in graph.edges(keys=True, data=True)
-            if u == v and k == "stay" and "period_tu" in d.get("leg", {})}
+    return {u: d["leg"].details["period_tu"] for u, v, k, d in graph.edges(keys=True, data=True)
+            if u == v and k == "stay" and "period_tu" in d["leg"].details}
 
 
 def no_route_reason(built, error, source, target, constraints: Constraints) -> str:

@@ -12,7 +12,11 @@ Compute. A task is a plain dict (system, both nodes with their states, settings)
 function :func:`compute_leg` is a module-level function of that dict alone, so it pickles to a
 ``concurrent.futures.ProcessPoolExecutor`` or to a dask worker (run by
 :mod:`cr3bp.transfers.tasks`), and the same task gives the same leg byte for byte wherever it
-runs.
+runs. A task returns its leg as the plain leg record (:meth:`cr3bp.transfers.leg.Leg.record`),
+the form the catalogue stores: every leg of a build, computed here, in a pool, on a cluster or
+read from the catalogue, becomes a :class:`cr3bp.transfers.leg.Leg` through the one
+:meth:`cr3bp.transfers.leg.Leg.from_record`, so none can differ by the way it travelled (and
+no worker pickles a System).
 
 Cache. Each leg is stored in the catalogue under a key made of both nodes' ids, the settings
 and the leg format; a rebuild reads every known leg and computes none of them. Legs that
@@ -25,7 +29,7 @@ from __future__ import annotations
 import hashlib
 import json
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import networkx as nx
 import numpy as np
@@ -34,7 +38,7 @@ from . import search
 from . import tasks as tasks_mod
 from ..errors import InputError, LibrateError
 from .nodes import BoundaryNode, OrbitNode, ParkingNode, node_state
-from .leg import LEG_FORMAT
+from .leg import LEG_FORMAT, Leg
 from ..vocabulary import TUBE_BRANCHES
 
 #: Two Jacobi constants closer than this count as one energy (ballistic legs).
@@ -57,7 +61,7 @@ class BuildResult:
     ----------
     graph : networkx.MultiDiGraph   node ids as nodes; edges from :func:`cr3bp.transfers.search.add_leg`
     nodes : tuple of nodes
-    legs : tuple of leg dicts (every attempted leg, ``status`` "ok" or "failed")
+    legs : tuple of Leg (every attempted leg, ``status`` "ok" or "failed")
     computed, cached : int          legs computed in this run / read from the catalogue
     pruned : tuple of dicts         pairs not attempted, with the reason
     """
@@ -82,10 +86,9 @@ def _node_energy(graph, nid):
     return {"jacobi": d.get("jacobi"), "x": d.get("x")}
 
 
-def leg_summary(leg: dict) -> dict:
-    keys = ("from", "to", "from_name", "to_name", "method", "status", "reason", "dv_mps", "tof_days",
-            "tof_arrival_days", "arrival_distance_km", "min_altitude_km", "key")
-    return {k: leg.get(k) for k in keys if k in leg}
+def leg_summary(leg: Leg) -> dict:
+    """The leg's row of a graph's leg list (:meth:`cr3bp.transfers.leg.Leg.summary`)."""
+    return leg.summary()
 
 
 def system_spec(system) -> dict:
@@ -115,12 +118,17 @@ def leg_key(task: dict) -> str:
 
 def compute_leg(task: dict) -> dict:
     """Compute one leg from a plain task dict; never raises for a leg that cannot be made
-    (it comes back with ``status = "failed"`` and the reason)."""
+    (it comes back with ``status = "failed"`` and the reason). Returns the leg record
+    (:meth:`cr3bp.transfers.leg.Leg.record`): a task's result crosses a process boundary and
+    goes into the catalogue as it is."""
     from .targeting import targeted_leg
     system = system_from_spec(task["system"])
     st = task["settings"]
-    base = {"from": task["from"]["id"], "to": task["to"]["id"], "from_name": task["from"]["name"],
-            "to_name": task["to"]["name"], "key": task["key"], "method": task["method"]}
+    ends = (task["from"]["id"], task["to"]["id"], task["from"]["name"], task["to"]["name"], task["key"])
+
+    def failed(reason, dv_mps=None, tof_days=None):
+        return Leg(system, "", "", (), dv_mps, math.nan, None, (), "", solver=task["method"], status="failed",
+                   reason=reason, tof_days=tof_days).on_graph(*ends).record()
     try:
         if task["method"] == "manifold":
             leg = _manifold_leg(system, task)
@@ -132,21 +140,14 @@ def compute_leg(task: dict) -> dict:
             leg = targeted_leg(system, task["from"]["state_used"], task["to"]["state_used"], st["tof_tu"],
                                st["patches"])
     except LibrateError as e:
-        return dict(base, status="failed", reason=str(e), dv_mps=None, tof_days=None)
-    leg.update(base)
-    # legs that do not end on a periodic orbit arrive when they end
-    leg.setdefault("tof_arrival_days", leg["tof_days"])
-    leg.setdefault("arrival_distance_km", None)
+        return failed(str(e))
+    leg = replace(leg, solver=task["method"]).on_graph(*ends)
     cap = st.get("max_patch_dv_mps")
-    if st.get("maneuvers") == "none" and leg["dv_mps"] > BALLISTIC_DV_MPS:
-        return dict(base, status="failed", dv_mps=leg["dv_mps"], tof_days=leg["tof_days"],
-                    reason=f"declared ballistic but needs {leg['dv_mps']:.3f} m/s")
-    if cap is not None and leg["dv_mps"] > cap:
-        return dict(base, status="failed", dv_mps=leg["dv_mps"], tof_days=leg["tof_days"],
-                    reason=f"needs {leg['dv_mps']:.1f} m/s, over the cap of {cap:.1f} m/s")
-    leg["status"] = "ok"
-    leg["reason"] = ""
-    return leg
+    if st.get("maneuvers") == "none" and leg.dv_mps > BALLISTIC_DV_MPS:
+        return failed(f"declared ballistic but needs {leg.dv_mps:.3f} m/s", leg.dv_mps, leg.tof_days)
+    if cap is not None and leg.dv_mps > cap:
+        return failed(f"needs {leg.dv_mps:.1f} m/s, over the cap of {cap:.1f} m/s", leg.dv_mps, leg.tof_days)
+    return leg.record()
 
 
 # ---- planning --------------------------------------------------------------------------
@@ -203,9 +204,9 @@ def _orbit_from_plain(system, d: dict):
                          d.get("family", ""), d.get("point", ""), d.get("branch", ""), float(d["jacobi"]))
 
 
-def _manifold_leg(system, task) -> dict:
+def _manifold_leg(system, task) -> Leg:
     """The cheapest connection between two orbit nodes over the hinted sections
-    (:func:`cr3bp.tubes.connections.connect`), as a leg record (:data:`cr3bp.transfers.leg.RECORD_KEYS`)."""
+    (:func:`cr3bp.tubes.connections.connect`), in shooting form."""
     from ..tubes.connections import connect
     st = task["settings"]
     a = _orbit_from_plain(system, task["from"]["orbit_data"])
@@ -221,15 +222,7 @@ def _manifold_leg(system, task) -> dict:
         from ..errors import NoSolutionError
         raise NoSolutionError("no manifold connection: " + ("; ".join(reasons) or "the cuts do not meet"))
     best = min(found, key=lambda lg: (lg.dv_mps, lg.tof))
-    return _with_arrival(best.record(st["patches"]), best)
-
-
-def _with_arrival(plain: dict, leg) -> dict:
-    """The plain leg dict with the time of flight to arrival of the
-    :class:`cr3bp.transfers.leg.Leg` it came from (see :data:`cr3bp.transfers.leg.TOF_DEFINITIONS`)."""
-    plain["tof_arrival_days"] = float(leg.tof_arrival_days)
-    plain["arrival_distance_km"] = None if math.isnan(leg.arrival_distance_km) else float(leg.arrival_distance_km)
-    return plain
+    return best.with_patches(st["patches"])
 
 
 def _periapsis_legs(orbit, body, altitude_km, stability, n_points) -> list:
@@ -250,11 +243,11 @@ def _periapsis_legs(orbit, body, altitude_km, stability, n_points) -> list:
     raise NoSolutionError("; ".join(reasons))
 
 
-def _parking_leg(system, task) -> dict:
+def _parking_leg(system, task) -> Leg:
     """The cheapest leg between a parking orbit and an orbit node through the orbit's manifold
     and its first periapsis at the parking altitude (:func:`cr3bp.tubes.parking.parking_legs`:
     stable manifold to arrive at the orbit, unstable to leave it; interior branch, then
-    exterior), as a leg record (:data:`cr3bp.transfers.leg.RECORD_KEYS`)."""
+    exterior), in shooting form."""
     st = task["settings"]
     arrive = st["arrive"]                     # parking -> orbit
     orbit = _orbit_from_plain(system, task["to" if arrive else "from"]["orbit_data"])
@@ -266,13 +259,13 @@ def _parking_leg(system, task) -> dict:
         # direct departure optimised in the CR3BP (cr3bp.transfers.departure)
         if not (arrive and system.name == "earth-moon" and str(st["body"]).lower() == "earth"):
             raise
-        from .departure import as_plain_leg, design_departure
-        return as_plain_leg(design_departure(orbit, st["altitude_km"], path="direct"), st["patches"])
+        from .departure import as_leg, design_departure
+        return as_leg(design_departure(orbit, st["altitude_km"], path="direct"), st["patches"])
     best = min(found, key=lambda lg: (lg.dv_mps, lg.tof))
-    return _with_arrival(best.record(st["patches"]), best)
+    return best.with_patches(st["patches"])
 
 
-def _boundary_leg(system, task) -> dict:
+def _boundary_leg(system, task) -> Leg:
     """The fastest ballistic way from an orbit node to a capture or escape condition along the
     orbit's unstable manifold (interior branch, then exterior): for a capture, the first
     periapsis at the capture altitude about the body (:func:`cr3bp.tubes.parking.parking_legs`,
@@ -287,13 +280,12 @@ def _boundary_leg(system, task) -> dict:
     if task["method"] == "capture":
         found = _periapsis_legs(orbit, st["body"], st["distance_km"], "unstable", st["tube_points"])
         best = min(found, key=lambda lg: lg.tof)
-        leg = best.record(st["patches"])
+        leg = best.with_patches(st["patches"])
         # the arrival condition itself: the state at periapsis before any insertion impulse
-        leg["arrival_state"] = leg["final_state"]
-        leg["maneuvers"] = [m for m in leg["maneuvers"] if m["where"] != "arrival"]
-        leg["dv_mps"] = float(sum(m["dv_mps"] for m in leg["maneuvers"]))
-        leg["method"], leg["kind"] = "capture", "capture"
-        return leg
+        mans = tuple(m for m in leg.maneuvers if m.where != "arrival")
+        return replace(leg, arrival_state=leg.final_state.copy(), maneuvers=mans,
+                       dv_mps=float(sum(float(m.dv_mps) for m in mans)), solver="capture", kind="capture",
+                       tof_arrival_days=leg.tof_days, arrival_distance_km=math.nan)
     p = primary_index(system, st["body"])
     radius = st["distance_km"] / system.length_km
     from ..errors import NoSolutionError
@@ -308,13 +300,14 @@ def _boundary_leg(system, task) -> dict:
             from ..integrate import propagate
             arc = propagate(system, tube.start_states[i], tof, rtol=RTOL, atol=ATOL, t_eval=te)
             r = np.linalg.norm(arc.states[:, :3] - np.array([system.positions[p], 0, 0]), axis=1)
-            return {"format": 1, "method": "escape", "how": f"unstable {branch} manifold to escape",
-                    "kind": "escape", "dv_mps": 0.0, "tof_days": float(system.days(tof)), "tof_tu": tof,
-                    "maneuvers": [], "departure_state": tube.start_states[i].tolist(),
-                    "arrival_state": arc.states[-1].tolist(), "patch_times": te[:-1].tolist(),
-                    "patch_states": arc.states[:-1].tolist(), "final_state": arc.states[-1].tolist(),
-                    "min_altitude_km": float(r.min() * system.length_km - (system.primary, system.secondary)[p].radius_km),
-                    "details": {"branch": branch, "escaped": len(hit), "of": int(tube.n)}}
+            start = np.array(tube.start_states[i], dtype=float)
+            return Leg(system, "", "", (), 0.0, tof, None, ((0.0, start, tof),),
+                       f"unstable {branch} manifold to escape", kind="escape",
+                       min_altitude_km=float(r.min() * system.length_km
+                                             - (system.primary, system.secondary)[p].radius_km),
+                       details={"branch": branch, "escaped": len(hit), "of": int(tube.n)}, solver="escape",
+                       patch_times=te[:-1].copy(), patch_states=arc.states[:-1].copy(), departure_state=start,
+                       arrival_state=arc.states[-1].copy(), final_state=arc.states[-1].copy())
         reasons.append(f"no trajectory of the unstable {branch} manifold of {describe_orbit(orbit)} gets "
                        f"{st['distance_km']:g} km from {system.names[p]} within {system.days(4 * math.pi):.0f} days")
     raise NoSolutionError("; ".join(reasons))
@@ -454,11 +447,10 @@ def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None,
     legs: list = [None] * len(tasks)
     todo = []
     for i, t in enumerate(tasks):
-        known = catalog.get_leg(t["key"]) if catalog is not None else None
+        known = catalog.get_leg(t["key"], system) if catalog is not None else None
         if known is not None:
             # the cache is keyed by what the nodes are, not by what a node list calls them
-            known["from_name"], known["to_name"] = t["from"]["name"], t["to"]["name"]
-            legs[i] = known
+            legs[i] = replace(known, origin=t["from"]["name"], target=t["to"]["name"])
         else:
             todo.append(i)
     cached = len(tasks) - len(todo)
@@ -466,12 +458,13 @@ def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None,
 
     def flush():
         if catalog is not None and pending:
-            catalog.put_legs([(leg["key"], system, leg) for leg in pending])
+            catalog.put_legs([(leg.key, system, leg) for leg in pending])
         pending.clear()
 
-    def tick(done, total, leg):
+    def tick(done, total, record):
         # legs reach the catalogue in batches as they complete, so an interrupted build
         # keeps what it computed
+        leg = Leg.from_record(record, system)
         pending.append(leg)
         if len(pending) >= CATALOG_BATCH:
             flush()
@@ -482,8 +475,8 @@ def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None,
         results = run_tasks([tasks[i] for i in todo], workers, scheduler, tick)
     finally:
         flush()
-    for i, leg in zip(todo, results):
-        legs[i] = leg
+    for i, record in zip(todo, results):
+        legs[i] = Leg.from_record(record, system)
     graph = nx.MultiDiGraph(system=system.name)
     for n in nodelist.nodes:
         s = _state_of(system, n, orbits)
@@ -495,23 +488,25 @@ def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None,
         if "period" in orbits.get(n.id, {}):
             # phasing along the orbit: a self-loop of one period, no Δv (the simple-path search
             # never takes it; it records how long one waits per revolution)
-            search.add_leg(graph, n.id, n.id, 0.0, orbits[n.id]["period"] * system.time_days, key="stay",
-                            kind="stay", leg={"from": n.id, "to": n.id, "method": "stay", "status": "ok",
-                                              "dv_mps": 0.0, "period_tu": orbits[n.id]["period"]})
+            period = orbits[n.id]["period"]
+            stay = Leg(system, n.name, n.name, (), 0.0, period, None, (), "one revolution along the orbit",
+                       kind="stay", solver="stay", from_id=n.id, to_id=n.id, details={"period_tu": period},
+                       tof_days=period * system.time_days)
+            search.add_leg(graph, n.id, n.id, 0.0, stay.tof_days, key="stay", kind="stay", leg=stay)
     for leg in legs:
-        if leg["status"] == "ok":
-            search.add_leg(graph, leg["from"], leg["to"], leg["dv_mps"], leg["tof_days"], key=leg["method"],
-                            kind=leg["method"], min_altitude_km=leg["min_altitude_km"], leg=leg,
-                            tof_arrival_days=leg.get("tof_arrival_days", leg["tof_days"]),
-                            arrival_distance_km=leg.get("arrival_distance_km"))
+        if leg.ok:
+            search.add_leg(graph, leg.from_id, leg.to_id, leg.dv_mps, leg.tof_days, key=leg.solver,
+                           kind=leg.solver, min_altitude_km=leg.min_altitude_km, leg=leg,
+                           tof_arrival_days=leg.tof_arrival_days,
+                           arrival_distance_km=None if math.isnan(leg.arrival_distance_km) else leg.arrival_distance_km)
     settings = {"tof_days": nodelist.tof_days if tof_days is None else tof_days,
                 "patches": nodelist.patches if patches is None else patches}
     return BuildResult(graph, tuple(nodelist.nodes), tuple(legs), len(todo), cached, tuple(pruned), settings)
 
 
-def leg_json(leg: dict) -> str:
-    """Canonical JSON of a leg (sorted keys): two equal legs give equal text."""
-    return json.dumps(leg, sort_keys=True, allow_nan=True)
+def leg_json(leg: Leg) -> str:
+    """Canonical JSON of a leg's record (sorted keys): two equal legs give equal text."""
+    return json.dumps(leg.record() if isinstance(leg, Leg) else leg, sort_keys=True, allow_nan=True)
 
 
 def finite(v):

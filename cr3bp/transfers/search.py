@@ -26,6 +26,7 @@ import networkx as nx
 
 from ..display import Shown
 from ..errors import InputError, NoSolutionError
+from .leg import Leg
 
 OBJECTIVES = ("dv", "tof")
 
@@ -41,7 +42,8 @@ class Route(Shown):
     dv_total_mps, tof_days : totals over the legs (``tof_days``: step-off times of flight, to
                              the manifold's step-off point on each leg's target orbit)
     min_altitude_km : lowest altitude over any primary along the route (inf when unknown)
-    legs : tuple of the edge data dicts, in order
+    edge_data : tuple of the edge attribute dicts, in order (weights and the ``leg``)
+    legs : tuple of :class:`cr3bp.transfers.leg.Leg`, in order (the edges' legs)
 
     ``tof_arrival_days`` is the time from departure until the route first comes within
     ``arrival_distance_km`` of its final orbit: the step-off times of every leg but the last,
@@ -55,7 +57,12 @@ class Route(Shown):
     dv_total_mps: float
     tof_days: float
     min_altitude_km: float = math.inf
-    legs: tuple = field(default=(), compare=False, repr=False)
+    edge_data: tuple = field(default=(), compare=False, repr=False)
+
+    @property
+    def legs(self) -> tuple:
+        """The route's legs (:class:`cr3bp.transfers.leg.Leg`), in order."""
+        return tuple(d["leg"] for d in self.edge_data)
 
     @property
     def n_legs(self) -> int:
@@ -63,21 +70,21 @@ class Route(Shown):
 
     @property
     def tof_arrival_days(self) -> float:
-        if not self.legs:
+        if not self.edge_data:
             return self.tof_days
-        last = self.legs[-1]
+        last = self.edge_data[-1]
         return float(self.tof_days - last["tof_days"] + last.get("tof_arrival_days", last["tof_days"]))
 
     @property
     def arrival_distance_km(self):
         """The distance that counts as arrived on the final orbit, km (None: the route ends on a
         parking orbit or another end that is reached when its last leg ends)."""
-        return self.legs[-1].get("arrival_distance_km") if self.legs else None
+        return self.edge_data[-1].get("arrival_distance_km") if self.edge_data else None
 
     def to_dict(self) -> dict:
         return {
             "nodes": [str(n) for n in self.nodes],
-            "legs": [_leg_summary(u, v, k, d) for (u, v, k), d in zip(self.edges, self.legs)],
+            "legs": [_leg_summary(u, v, k, d) for (u, v, k), d in zip(self.edges, self.edge_data)],
             "dv_total_mps": self.dv_total_mps,
             "tof_days": self.tof_days,
             "tof_arrival_days": self.tof_arrival_days,
@@ -117,12 +124,21 @@ class Constraints:
         return [k for k, v in self.__dict__.items() if v not in (None, ())]
 
 
-def add_leg(graph: nx.MultiDiGraph, u, v, dv_mps: float, tof_days: float, key=None, **data):
-    """Add one leg as an edge, validating its weights (non-negative and finite)."""
+def add_leg(graph: nx.MultiDiGraph, u, v, dv_mps: float, tof_days: float, key=None, leg: Leg | None = None,
+            **data):
+    """Add one leg as an edge, validating its weights (non-negative and finite). The edge carries
+    the weights the search reads (``dv_mps``, ``tof_days``, and ``data`` such as
+    ``min_altitude_km``) and the :class:`cr3bp.transfers.leg.Leg` itself (``leg``; given weights
+    alone, a weights-only leg, :meth:`cr3bp.transfers.leg.Leg.weights_only`)."""
     for name, val in (("dv_mps", dv_mps), ("tof_days", tof_days)):
         if not (math.isfinite(val) and val >= 0):
             raise InputError(f"leg {u} -> {v}: {name} = {val!r} must be finite and non-negative")
-    return graph.add_edge(u, v, key=key, dv_mps=float(dv_mps), tof_days=float(tof_days), **data)
+    if leg is None:
+        leg = Leg.weights_only(u, v, dv_mps, tof_days, kind=data.get("kind", ""),
+                               min_altitude_km=data.get("min_altitude_km", math.inf),
+                               tof_arrival_days=data.get("tof_arrival_days"),
+                               arrival_distance_km=data.get("arrival_distance_km"))
+    return graph.add_edge(u, v, key=key, dv_mps=float(dv_mps), tof_days=float(tof_days), leg=leg, **data)
 
 
 def _check(graph, source, target, c: Constraints, objective: str):

@@ -32,6 +32,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import ConvergenceError, InputError, NoSolutionError
+from .leg import Leg, Maneuver
 
 NEWTON_ITERATIONS = 25
 # Tolerances in physical units, the same in every system (in LU they were 4 mm in Earth-Moon
@@ -119,36 +120,36 @@ class _Problem:
         self.junction = {}            # boundary index k (between segment k and k+1) -> node position
         self.inner_burn = set()       # boundaries inside a leg where it declares a maneuver
         self.start_burn = _has_burn(legs[0], 0.0)
-        self.end_burn = _has_burn(legs[-1], legs[-1]["tof_tu"])
+        self.end_burn = _has_burn(legs[-1], legs[-1].tof)
         for i, leg in enumerate(legs):
-            times = list(leg["patch_times"]) + [leg["tof_tu"]]
-            for j, st in enumerate(leg["patch_states"]):
+            times = [float(t) for t in leg.patch_times] + [float(leg.tof)]
+            for j, st in enumerate(leg.patch_states):
                 self.tau0.append(times[j + 1] - times[j])
                 self.leg_of.append(i)
                 x0.append(st)
-            inner = [m["t"] for m in leg.get("maneuvers", []) if 0.0 < m["t"] < leg["tof_tu"]]
+            inner = [m.t for m in leg.maneuvers if 0.0 < m.t < leg.tof]
             for tm in inner:
                 hit = [j for j in range(1, len(times) - 1) if abs(times[j] - tm) <= 1e-9 * max(1.0, tm)]
                 if not hit:
-                    raise InputError(f"leg {leg.get('from_name', i)}: a maneuver at t = {tm:.6g} TU is not "
+                    raise InputError(f"leg {leg.origin or i}: a maneuver at t = {tm:.6g} TU is not "
                                      "at a patch point")
-                self.inner_burn.add(len(self.tau0) - len(leg["patch_states"]) + hit[0] - 1)
+                self.inner_burn.add(len(self.tau0) - len(leg.patch_states) + hit[0] - 1)
             if i + 1 < len(legs):
-                gap = float(np.linalg.norm(np.array(leg["arrival_state"][:3]) -
-                                           np.array(legs[i + 1]["departure_state"][:3])))
+                gap = float(np.linalg.norm(np.array(leg.arrival_state[:3]) -
+                                           np.array(legs[i + 1].departure_state[:3])))
                 if gap > JUNCTION_GAP:
                     raise PhasingError(f"legs {i + 1} and {i + 2} meet {gap:.3g} LU apart at "
-                                     f"'{leg.get('to_name', '')}' (different phases of the orbit); "
+                                     f"'{leg.target}' (different phases of the orbit); "
                                      "stitching with phasing along an orbit is not available yet")
                 self.junction[len(self.tau0) - 1] = (
-                    np.array(leg["arrival_state"][:3]),
-                    _has_burn(leg, leg["tof_tu"]) or _has_burn(legs[i + 1], 0.0))
+                    np.array(leg.arrival_state[:3]),
+                    _has_burn(leg, leg.tof) or _has_burn(legs[i + 1], 0.0))
         self.K, self.L = len(self.tau0), len(legs)
         self.tau0 = np.array(self.tau0)
         self.leg_of = np.array(self.leg_of)
         self.z0 = np.concatenate([np.ravel(x0), np.ones(self.L)])
-        self.s_start = np.array(legs[0]["departure_state"])
-        self.s_end = np.array(legs[-1]["arrival_state"])
+        self.s_start = np.array(legs[0].departure_state)
+        self.s_end = np.array(legs[-1].arrival_state)
         self._cache_key = None
         self.evaluations = 0
         # Without a burn at the route's end (a manifold arrival) the end state is held whole:
@@ -289,7 +290,7 @@ class _Problem:
 
 
 def _has_burn(leg, t) -> bool:
-    return any(abs(m["t"] - t) <= 1e-12 * max(1.0, abs(t)) for m in leg.get("maneuvers", []))
+    return any(abs(m.t - t) <= 1e-12 * max(1.0, abs(t)) for m in leg.maneuvers)
 
 
 def _newton(problem, z):
@@ -327,7 +328,7 @@ PHASING_SAMPLES = 4000    # samples of one period when looking for the departure
 PHASING_PATCHES = 6       # shooting segments of a phasing coast
 
 
-def phasing_coast(system, arriving: dict, leaving: dict, period_tu: float, patches: int = PHASING_PATCHES) -> dict:
+def phasing_coast(system, arriving: Leg, leaving: Leg, period_tu: float, patches: int = PHASING_PATCHES) -> Leg:
     """A coast along an orbit from where ``arriving`` ends to where ``leaving`` starts.
 
     Two legs may meet an orbit at different phases (e.g. a manifold arrival and a departure
@@ -340,10 +341,10 @@ def phasing_coast(system, arriving: dict, leaving: dict, period_tu: float, patch
     from scipy.optimize import minimize_scalar
 
     from ..integrate import propagate
-    a = np.asarray(arriving["arrival_state"], dtype=float)
-    d = np.asarray(leaving["departure_state"], dtype=float)
+    a = np.asarray(arriving.arrival_state, dtype=float)
+    d = np.asarray(leaving.departure_state, dtype=float)
     if not (period_tu and period_tu > 0):
-        raise PhasingError(f"legs meet '{arriving.get('to_name', '')}' at different phases and its period "
+        raise PhasingError(f"legs meet '{arriving.target}' at different phases and its period "
                            "is unknown, so no phasing coast can be laid")
     horizon = 1.2 * float(period_tu)
     t = np.linspace(0.0, horizon, PHASING_SAMPLES)
@@ -361,20 +362,17 @@ def phasing_coast(system, arriving: dict, leaving: dict, period_tu: float, patch
     path = propagate(system, a, tau, rtol=RTOL, atol=ATOL, t_eval=te)
     end = path.states[-1]
     dv = d[3:] - end[3:]
-    name = arriving.get("to_name", arriving.get("to", ""))
-    return {"format": 1, "method": "stay", "how": "phasing coast along the orbit", "kind": "phasing",
-            "from": arriving.get("to"), "to": leaving.get("from"), "from_name": name,
-            "to_name": leaving.get("from_name", name),
-            "dv_mps": float(system.mps(np.linalg.norm(dv))), "tof_tu": tau, "tof_days": float(system.days(tau)),
-            # impulses allowed at both ends (zero at the start as laid): with the junction
-            # positions held at the node, a coast without them would be over-determined
-            "maneuvers": [{"t": 0.0, "position": a[:3].tolist(), "dv_vector": [0.0, 0.0, 0.0], "dv_mps": 0.0,
-                           "where": "departure"},
-                          {"t": tau, "position": end[:3].tolist(), "dv_vector": dv.tolist(),
-                           "dv_mps": float(system.mps(np.linalg.norm(dv))), "where": "arrival"}],
-            "departure_state": a.tolist(), "arrival_state": d.tolist(),
-            "patch_times": te[:-1].tolist(), "patch_states": path.states[:-1].tolist(),
-            "final_state": end.tolist(), "min_altitude_km": float("inf"), "details": {"gap_lu": gap(tau)}}
+    name = arriving.target or (arriving.to_id or "")
+    dv_mps = float(system.mps(np.linalg.norm(dv)))
+    # impulses allowed at both ends (zero at the start as laid): with the junction
+    # positions held at the node, a coast without them would be over-determined
+    mans = (Maneuver(0.0, a[:3].copy(), np.zeros(3), 0.0, "departure"),
+            Maneuver(tau, end[:3].copy(), dv, dv_mps, "arrival"))
+    return Leg(system, name, leaving.origin or name, mans, dv_mps, tau, None, ((0.0, a, tau),),
+               "phasing coast along the orbit", kind="phasing", min_altitude_km=float("inf"),
+               details={"gap_lu": gap(tau)}, solver="stay", patch_times=te[:-1].copy(),
+               patch_states=path.states[:-1].copy(), departure_state=a, arrival_state=d, final_state=end.copy(),
+               from_id=arriving.to_id, to_id=leaving.from_id)
 
 
 def with_phasing(system, legs: list, periods: dict | None) -> list:
@@ -383,22 +381,24 @@ def with_phasing(system, legs: list, periods: dict | None) -> list:
     out = [legs[0]]
     for nxt in legs[1:]:
         prev = out[-1]
-        gap = float(np.linalg.norm(np.asarray(prev["arrival_state"][:3]) - np.asarray(nxt["departure_state"][:3])))
-        if gap > JUNCTION_GAP and periods and prev.get("to") in periods:
-            out.append(phasing_coast(system, prev, nxt, periods[prev["to"]]))
+        gap = float(np.linalg.norm(np.asarray(prev.arrival_state[:3]) - np.asarray(nxt.departure_state[:3])))
+        if gap > JUNCTION_GAP and periods and prev.to_id in periods:
+            out.append(phasing_coast(system, prev, nxt, periods[prev.to_id]))
         out.append(nxt)
     return out
 
 
 def stitch_route(system, route, constraints=None, optimise=True, max_iterations=60,
                  periods: dict | None = None) -> StitchedRoute:
-    """Stitch ``route`` (a :class:`cr3bp.transfers.search.Route` whose edges carry ``leg`` dicts, or a
-    list of leg dicts) into one continuous trajectory with re-minimised total Δv.
+    """Stitch ``route`` (a :class:`cr3bp.transfers.search.Route`, or a list of
+    :class:`cr3bp.transfers.leg.Leg` in shooting form; leg records are read with
+    :meth:`cr3bp.transfers.leg.Leg.from_record`) into one continuous trajectory with re-minimised
+    total Δv.
 
     Parameters
     ----------
     system : System
-    route : Route or list of dict
+    route : Route, or list of Leg (or of leg records)
     constraints : cr3bp.transfers.search.Constraints, optional   reported as held or not
     optimise : bool                step 2 (SLSQP) on or off
     max_iterations : int           SLSQP iterations
@@ -415,12 +415,13 @@ def stitch_route(system, route, constraints=None, optimise=True, max_iterations=
     ConvergenceError
         Continuity cannot be reached (carries iterations and residuals).
     """
-    legs = [d["leg"] if "leg" in d else d for d in getattr(route, "legs", route)]
+    legs = [leg if isinstance(leg, Leg) else Leg.from_record(leg, system) for leg in getattr(route, "legs", route)]
     if not legs:
         raise InputError("a route to stitch needs at least one leg")
     for leg in legs:
-        if "patch_states" not in leg:
-            raise InputError(f"leg {leg.get('from')} -> {leg.get('to')} carries no patch points to stitch")
+        if not leg.in_shooting_form:
+            raise InputError(f"leg {leg.origin or leg.from_id} -> {leg.target or leg.to_id} carries no patch "
+                             "points to stitch")
     legs = with_phasing(system, legs, periods)
     p = _Problem(system, legs)
     T0 = p.total_time(p.z0)
@@ -485,7 +486,7 @@ def _result(system, p, z, legs, constraints, optimised, note, iterations):
         raise ConvergenceError(f"stitched trajectory has a position jump of {cont * system.length_km * 1e3:.3g} m "
                                f"(limit {CONTINUITY_LIMIT_M:g} m)", 0, [cont], z)
     times, states, seg = np.concatenate(times), np.concatenate(states), np.concatenate(seg)
-    names = [legs[0]["from_name"]] + [leg["to_name"] for leg in legs]
+    names = [legs[0].origin] + [leg.target for leg in legs]
     boundary_node = {-1: names[0], p.K - 1: names[-1]}
     for k, i in zip(sorted(p.junction), range(1, len(names) - 1)):
         boundary_node[k] = names[i]
@@ -518,7 +519,7 @@ def _result(system, p, z, legs, constraints, optimised, note, iterations):
                 holds = value >= limit if name == "min_altitude_km" else value <= limit
                 checks[name] = {"value": value, "limit": limit, "holds": bool(holds)}
     return StitchedRoute(system, tuple(names), times, states, seg, tuple(man), dv_total, tof_days,
-                         float(sum(leg["dv_mps"] for leg in legs)), float(sum(leg["tof_days"] for leg in legs)),
+                         float(sum(leg.dv_mps for leg in legs)), float(sum(leg.tof_days for leg in legs)),
                          cont, float(alt), checks, optimised, note, iterations)
 
 
