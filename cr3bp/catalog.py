@@ -12,6 +12,7 @@ The default path is ``$LIBRATE_CATALOG`` if set, else ``~/.local/share/librate/c
 
 from __future__ import annotations
 
+import functools
 import hashlib
 import json
 import math
@@ -19,9 +20,11 @@ import os
 import sqlite3
 import time
 from pathlib import Path
+from urllib.parse import quote
 
 from .errors import InputError, LibrateError
 from .io.plain import json_default
+from .transfers.leg import Leg
 
 SCHEMA_VERSION = 1
 BUSY_TIMEOUT_S = 30.0
@@ -153,7 +156,6 @@ def _guarded(fn):
     file or member (InputError, status 2), a read-only catalogue asked to write (InputError),
     a full disk (CatalogWriteError, status 1; the transaction is rolled back, so the catalogue
     keeps what it held)."""
-    import functools
 
     @functools.wraps(fn)
     def call(self, *a, **kw):
@@ -271,7 +273,6 @@ class Catalog:
 
     def _open_read_only(self):
         """A catalogue in a read-only file or folder: read it (writes give a one-line refusal)."""
-        from urllib.parse import quote
         uri = "file:" + quote(str(Path(self.path).resolve()))
         last = None
         for query in ("?mode=ro", "?mode=ro&immutable=1"):
@@ -419,7 +420,6 @@ class Catalog:
         row = self._db.execute("SELECT data FROM legs WHERE key=?", (key,)).fetchone()
         if row is None:
             return None
-        from .transfers.leg import Leg   # lazy: start-up weight (the leg module loads the integrator)
         return Leg.from_record(json.loads(row[0]), system)
 
     @_guarded

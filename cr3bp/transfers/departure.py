@@ -57,6 +57,7 @@ from scipy.optimize import brentq, minimize
 from ..errors import ConvergenceError, InputError, NoSolutionError, StateError
 from ..integrate import impact, propagate
 from ..io.plain import plain as _plain
+from ..tubes.manifolds import describe
 from .lambert import lambert
 from .leg import Leg, Maneuver
 
@@ -96,22 +97,49 @@ MAX_ITER = 200
 
 @dataclass(frozen=True)
 class Departure:
-    """A designed departure (all values CR3BP; time from the departure burn).
+    """A designed departure from an Earth parking orbit to an Earth-Moon periodic orbit (all values
+    CR3BP; time from the departure burn). Made by :func:`design_departure`.
 
-    Attributes
+    Parameters
     ----------
-    system, orbit : the Earth–Moon system and the target PeriodicOrbit
-    path : "direct" or "lunar-flyby"
-    altitude_km : parking-orbit altitude
-    maneuvers : tuple of dicts, in time order: ``name`` (departure, flyby, insertion),
-        ``t`` (TU), ``position`` (LU, rotating, barycentric), ``dv_vector`` (LU/TU,
-        rotating-frame components), ``state_before`` (6,)
-    tof : TU from departure to insertion
-    insertion_phase : fraction of the target orbit's period from its initial state
-    perigee : dict (departure perigee: radius, speed_inertial, speed_circular, inclination_deg)
+    system, orbit : System, PeriodicOrbit
+        The Earth-Moon system and the target orbit.
+    path : {"direct", "lunar-flyby"}
+    altitude_km : float
+        Parking-orbit altitude.
+    maneuvers : tuple of dict
+        In time order: ``name`` (departure, flyby, insertion), ``t`` (TU), ``position`` (LU,
+        rotating, barycentric), ``dv_vector`` (LU/TU, rotating-frame components),
+        ``state_before`` (6,).
+    tof : float
+        TU from departure to insertion.
+    insertion_phase : float
+        Fraction of the target orbit's period from its initial state.
+    perigee : dict
+        Departure perigee: radius, speed_inertial, speed_circular, inclination_deg.
     flyby_altitude_km : float or None
-    optimised : bool (False: the optimiser stopped without meeting its tolerance)
-    details : dict (iterations, constraint residuals, first-guess cost, timing)
+    optimised : bool
+        False: the optimiser stopped without meeting its tolerance.
+    details : dict
+        Iterations, constraint residuals, first-guess cost, timing.
+
+    Examples
+    --------
+    Skipped under doctest (the optimisation takes tens of seconds):
+
+    >>> from cr3bp import orbit
+    >>> from cr3bp.transfers.departure import design_departure
+    >>> nrho = orbit("earth-moon", "halo L2 south period=6.5626d")  # doctest: +SKIP
+    >>> dep = design_departure(nrho, 200.0)                          # doctest: +SKIP
+    >>> dep.maneuvers[0]["name"], dep.optimised                      # doctest: +SKIP
+    ('departure', True)
+
+    References
+    ----------
+    Izzo, "Revisiting Lambert's problem", *Celestial Mechanics and Dynamical Astronomy* 121,
+    2015 (first guess); Kraft, "A software package for sequential quadratic programming",
+    DFVLR-FB 88-28, 1988 (SLSQP); Vallado, *Fundamentals of Astrodynamics and Applications*,
+    4th ed., 2013, §6.3 (tangential departure burn).
     """
 
     system: object
@@ -214,8 +242,7 @@ class Departure:
 
 def _describe(orbit):
     try:
-        from ..tubes.manifolds import describe
-        return describe(orbit)
+            return describe(orbit)
     except Exception:  # noqa: BLE001 - a description is cosmetic
         return f"{orbit.family} {orbit.point} {orbit.branch}".strip()
 
@@ -684,6 +711,17 @@ def design_departure(orbit, altitude_km: float = 200.0, *, path: str = "direct",
     ------
     InputError, NoSolutionError
 
+    Examples
+    --------
+    Skipped under doctest (the optimisation takes tens of seconds):
+
+    >>> from cr3bp import orbit
+    >>> from cr3bp.transfers.departure import design_departure
+    >>> nrho = orbit("earth-moon", "halo L2 south period=6.5626d")  # doctest: +SKIP
+    >>> dep = design_departure(nrho, 200.0)                          # doctest: +SKIP
+    >>> dep.path, dep.dv_mps > 3000.0                                # doctest: +SKIP
+    ('direct', True)
+
     References
     ----------
     Izzo, "Revisiting Lambert's problem", 2015 (first guess); Kraft, DLR-FB 88-28, 1988
@@ -818,9 +856,42 @@ def _build(pb: _Problem, z, e, success, details):
 
 
 def closure_km(dep: Departure, propagator=None) -> float:
-    """Largest position miss (km) at the end of each coast of ``dep`` when propagated forward
-    from its start (with ``propagator(system, state, dt) -> final state``; default: librate's
-    integrator at 1e-12)."""
+    """Largest position miss (km) at the end of each coast of ``dep`` when propagated forward from
+    its start.
+
+    Parameters
+    ----------
+    dep : Departure
+    propagator : callable(system, state, dt) -> final state, optional
+        Default: librate's integrator at 1e-12 (a test passes an independent one).
+
+    Returns
+    -------
+    float
+        km.
+
+    Raises
+    ------
+    ConvergenceError
+        The integrator fails on a coast.
+
+    Examples
+    --------
+    Skipped under doctest (the departure's optimisation takes tens of seconds):
+
+    >>> from cr3bp import orbit
+    >>> from cr3bp.transfers.departure import design_departure
+    >>> nrho = orbit("earth-moon", "halo L2 south period=6.5626d")  # doctest: +SKIP
+    >>> dep = design_departure(nrho, 200.0)                          # doctest: +SKIP
+    >>> from cr3bp.transfers.departure import closure_km
+    >>> closure_km(dep) < 1.0                                        # doctest: +SKIP
+    True
+
+    References
+    ----------
+    Hairer, Nørsett & Wanner, *Solving Ordinary Differential Equations I*, 2nd ed., 1993,
+    section II.5 (the DOP853 integrator; from memory).
+    """
     s = dep.system
     worst = 0.0
     segs = dep.segments()
@@ -851,6 +922,31 @@ def as_leg(dep: Departure, patches: int = 4) -> Leg:
     Leg
         Solver "parking", kind "departure"; arrives when it ends (``tof_arrival_days`` equals
         ``tof_days``, no arrival distance).
+
+    Raises
+    ------
+    None
+        A designed departure always has its coasts and burns.
+
+    Examples
+    --------
+    Skipped under doctest (the departure's optimisation takes tens of seconds):
+
+    >>> from cr3bp import orbit
+    >>> from cr3bp.transfers.departure import design_departure
+    >>> nrho = orbit("earth-moon", "halo L2 south period=6.5626d")  # doctest: +SKIP
+    >>> dep = design_departure(nrho, 200.0)                          # doctest: +SKIP
+    >>> from cr3bp.transfers.departure import as_leg
+    >>> leg = as_leg(dep, patches=4)                                 # doctest: +SKIP
+    >>> leg.solver, leg.kind, [m.where for m in leg.maneuvers]       # doctest: +SKIP
+    ('parking', 'departure', ['departure', 'arrival'])
+
+    References
+    ----------
+    Tangential departure from a circular parking orbit: Vallado, *Fundamentals of Astrodynamics
+    and Applications*, 4th ed., 2013, §6.3; the shooting form: Betts, *Practical Methods for
+    Optimal Control and Estimation Using Nonlinear Programming*, 2nd ed., 2010, ch. 4 (both from
+    memory).
     """
     s = dep.system
     times, states, end = [], [], None

@@ -31,7 +31,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from ..dynamics import acceleration, jacobi
 from ..errors import ConvergenceError, InputError, NoSolutionError
+from ..integrate import propagate, propagate_batch
 from .leg import Leg, Maneuver
 
 NEWTON_ITERATIONS = 25
@@ -51,22 +53,74 @@ RTOL = ATOL = 1e-12
 
 @dataclass(frozen=True)
 class StitchedRoute:
-    """One continuous trajectory along a route, with its maneuver table.
+    """One continuous trajectory along a route, with its maneuver table (what :func:`stitch_route`
+    returns; CR3BP, rotating frame).
 
-    Attributes
+    Parameters
     ----------
-    times_tu : ndarray (n,)      time since the route's start (a maneuver time appears twice:
-                                 before and after the impulse)
-    states : ndarray (n, 6)      rotating frame, LU and LU/TU
-    segment : ndarray (n,)       shooting segment of each sample
-    maneuvers : tuple of dict    ``t_days``, ``node``, ``position_lu``, ``position_km``,
-                                 ``dv_vector_mps`` (rotating frame), ``dv_mps``
-    dv_total_mps, tof_days       of the stitched trajectory
-    legs_dv_total_mps, legs_tof_days   the route's legs as computed separately
-    continuity_lu : float        largest position jump at any segment boundary
-    constraints : dict           name -> {"value", "limit", "holds"}
-    optimised : bool             step 2 ran to its end (see ``note``: whether it lowered the
-                                 total, or why it did not run: no free direction, or stopped)
+    system : System
+    nodes : tuple of str
+        The names of the nodes it passes, in order (a node met twice, around a phasing coast,
+        appears twice).
+    times_tu : ndarray (n,)
+        Time since the route's start (a maneuver time appears twice: before and after the impulse).
+    states : ndarray (n, 6)
+        Rotating frame, LU and LU/TU.
+    segment : ndarray (n,)
+        Shooting segment of each sample.
+    maneuvers : tuple of dict
+        ``t_days``, ``node``, ``name``, ``trim``, ``position_lu``, ``position_km``,
+        ``dv_vector_mps`` (rotating frame), ``dv_mps``, ``jacobi_before``, ``jacobi_after``.
+    dv_total_mps, tof_days : float
+        Of the stitched trajectory.
+    legs_dv_total_mps, legs_tof_days : float
+        The route's legs as computed separately.
+    continuity_lu : float
+        Largest position jump at any segment boundary.
+    min_altitude_km : float
+        Lowest altitude over either primary.
+    constraints : dict
+        Name -> ``{"value", "limit", "holds"}``.
+    optimised : bool
+        Step 2 ran to its end (see ``note``: whether it lowered the total, or why it did not run).
+    note : str
+    iterations : dict
+        Newton and optimiser iterations, function evaluations.
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> from cr3bp.transfers.graph import build_graph
+    >>> from cr3bp.transfers.search import best_routes
+    >>> em = system("earth-moon")
+    >>> nodes = parse_nodes('''
+    ... system = "earth-moon"
+    ... [settings]
+    ... tof = "3d"
+    ... patches = 2
+    ... [[node]]
+    ... name = "a"
+    ... kind = "state"
+    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
+    ... [[node]]
+    ... name = "b"
+    ... kind = "state"
+    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
+    ... ''', em)
+    >>> built = build_graph(em, nodes, workers=1)
+    >>> a, b = (n.id for n in nodes.nodes)
+    >>> route = best_routes(built.graph, a, b)[0]
+    >>> from cr3bp.transfers.stitch import stitch_route
+    >>> st = stitch_route(em, route, optimise=False)
+    >>> st.nodes, st.continuity_lu < 1e-9
+    (('a', 'b'), True)
+
+    References
+    ----------
+    Betts, *Practical Methods for Optimal Control and Estimation Using Nonlinear Programming*,
+    2nd ed., SIAM, 2010, ch. 4 (multiple shooting); Pavlak & Howell, "Strategy for optimal,
+    long-duration trajectories in the Earth-Moon system", AAS 11-515, 2011 (both from memory).
     """
 
     system: object
@@ -93,7 +147,7 @@ class StitchedRoute:
     def to_plotly(self, orbits=()):
         """A rotatable 3-D plotly figure of the trajectory, its maneuvers and the ``orbits`` it
         joins (rotating frame, CR3BP, caution in the title); needs plotly."""
-        from ..plotting.interactive import route_figure
+        from ..plotting.interactive import route_figure   # lazy: heavy library (plotly)
         return route_figure(self, orbits)
 
     def to_dict(self) -> dict:
@@ -107,7 +161,26 @@ class StitchedRoute:
 
 
 class PhasingError(NoSolutionError):
-    """Two legs of a route meet a node at different places (different phases of an orbit)."""
+    """Two legs of a route meet a node at different places (different phases of an orbit) and no
+    phasing coast can be laid (the orbit's period is unknown).
+
+    Parameters
+    ----------
+    *args
+        The message, as for any exception.
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.stitch import PhasingError
+    >>> from cr3bp.errors import NoSolutionError
+    >>> issubclass(PhasingError, NoSolutionError)
+    True
+
+    References
+    ----------
+    Phasing along a periodic orbit between arrival and departure: Koon, Lo, Marsden & Ross,
+    *Dynamical Systems, the Three-Body Problem and Space Mission Design*, 2011, ch. 7 (from memory).
+    """
 
 
 class _Problem:
@@ -179,8 +252,6 @@ class _Problem:
         key = z.tobytes()
         if key == self._cache_key:
             return self._cache
-        from ..dynamics import acceleration
-        from ..integrate import propagate_batch
         X = z[:6 * self.K].reshape(self.K, 6)
         tau = self.tau0 * z[6 * self.K:][self.leg_of]
         # every segment with its STM in one compiled batch (no Python loop over segments)
@@ -335,12 +406,67 @@ def phasing_coast(system, arriving: Leg, leaving: Leg, period_tu: float, patches
     toward the next orbit). The coast propagates from the arrival state for the time ``tau`` in
     (0, 1.2 T] that brings it closest to the departure position (found on a dense sampling of
     the coast and refined by bounded scalar minimisation, scipy's ``minimize_scalar``), and
-    declares impulses at both ends (zero as laid) so that the multiple shooting, which holds
-    junctions at the node's position, can close the remaining gap and then minimise their sum. This is the "stay" edge of the transfer graph, made concrete.
-    """
-    from scipy.optimize import minimize_scalar
+    declares impulses at both ends (zero at the start as laid) so that the multiple shooting,
+    which holds junctions at the node's position, can close the remaining gap and then minimise
+    their sum. This is the "stay" edge of the transfer graph, made concrete.
 
-    from ..integrate import propagate
+    Parameters
+    ----------
+    system : System
+    arriving, leaving : cr3bp.transfers.leg.Leg
+        In shooting form; the coast joins ``arriving.arrival_state`` to ``leaving.departure_state``.
+    period_tu : float
+        The orbit's period, TU.
+    patches : int
+        Shooting segments of the coast.
+
+    Returns
+    -------
+    cr3bp.transfers.leg.Leg
+        Solver "stay", kind "phasing", in shooting form.
+
+    Raises
+    ------
+    PhasingError
+        The period is unknown (zero or None).
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> from cr3bp.transfers.graph import build_graph
+    >>> from cr3bp.transfers.search import best_routes
+    >>> em = system("earth-moon")
+    >>> nodes = parse_nodes('''
+    ... system = "earth-moon"
+    ... [settings]
+    ... tof = "3d"
+    ... patches = 2
+    ... [[node]]
+    ... name = "a"
+    ... kind = "state"
+    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
+    ... [[node]]
+    ... name = "b"
+    ... kind = "state"
+    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
+    ... ''', em)
+    >>> built = build_graph(em, nodes, workers=1)
+    >>> a, b = (n.id for n in nodes.nodes)
+    >>> route = best_routes(built.graph, a, b)[0]
+    >>> from cr3bp.transfers.stitch import phasing_coast
+    >>> there, back = built.legs
+    >>> coast = phasing_coast(em, there, back, 2.0)
+    >>> coast.kind, coast.solver, len(coast.patch_states)
+    ('phasing', 'stay', 6)
+
+    References
+    ----------
+    Brent, *Algorithms for Minimization without Derivatives*, 1973, ch. 5 (the bounded scalar
+    minimiser); Koon, Lo, Marsden & Ross, 2011, ch. 7 (coasting along an orbit between legs)
+    (both from memory).
+    """
+    from scipy.optimize import minimize_scalar   # lazy: heavy library
     a = np.asarray(arriving.arrival_state, dtype=float)
     d = np.asarray(leaving.departure_state, dtype=float)
     if not (period_tu and period_tu > 0):
@@ -377,7 +503,58 @@ def phasing_coast(system, arriving: Leg, leaving: Leg, period_tu: float, patches
 
 def with_phasing(system, legs: list, periods: dict | None) -> list:
     """``legs`` with a :func:`phasing_coast` wherever two consecutive legs meet an orbit node at
-    different phases (``periods``: node id -> period in TU)."""
+    different phases.
+
+    Parameters
+    ----------
+    system : System
+    legs : list of cr3bp.transfers.leg.Leg
+        In shooting form, in route order.
+    periods : dict or None
+        Orbit node id -> period (TU); legs meeting elsewhere than at such a node are left as
+        they are.
+
+    Returns
+    -------
+    list of cr3bp.transfers.leg.Leg
+
+    Raises
+    ------
+    PhasingError
+        A period is zero.
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> from cr3bp.transfers.graph import build_graph
+    >>> from cr3bp.transfers.search import best_routes
+    >>> em = system("earth-moon")
+    >>> nodes = parse_nodes('''
+    ... system = "earth-moon"
+    ... [settings]
+    ... tof = "3d"
+    ... patches = 2
+    ... [[node]]
+    ... name = "a"
+    ... kind = "state"
+    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
+    ... [[node]]
+    ... name = "b"
+    ... kind = "state"
+    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
+    ... ''', em)
+    >>> built = build_graph(em, nodes, workers=1)
+    >>> a, b = (n.id for n in nodes.nodes)
+    >>> route = best_routes(built.graph, a, b)[0]
+    >>> from cr3bp.transfers.stitch import with_phasing
+    >>> len(with_phasing(em, list(route.legs), None))
+    1
+
+    References
+    ----------
+    See :func:`phasing_coast`.
+    """
     out = [legs[0]]
     for nxt in legs[1:]:
         prev = out[-1]
@@ -390,21 +567,23 @@ def with_phasing(system, legs: list, periods: dict | None) -> list:
 
 def stitch_route(system, route, constraints=None, optimise=True, max_iterations=60,
                  periods: dict | None = None) -> StitchedRoute:
-    """Stitch ``route`` (a :class:`cr3bp.transfers.search.Route`, or a list of
-    :class:`cr3bp.transfers.leg.Leg` in shooting form; leg records are read with
-    :meth:`cr3bp.transfers.leg.Leg.from_record`) into one continuous trajectory with re-minimised
-    total Δv.
+    """Stitch ``route`` into one continuous trajectory with re-minimised total Δv.
 
     Parameters
     ----------
     system : System
-    route : Route, or list of Leg (or of leg records)
-    constraints : cr3bp.transfers.search.Constraints, optional   reported as held or not
-    optimise : bool                step 2 (SLSQP) on or off
-    max_iterations : int           SLSQP iterations
-    periods : dict, optional       orbit node id -> period (TU): where two legs meet an orbit at
-                                   different phases, a coast along it is laid between them
-                                   (:func:`phasing_coast`) instead of refusing the route
+    route : Route, or list of cr3bp.transfers.leg.Leg (or of leg records)
+        A :class:`cr3bp.transfers.search.Route`, or legs in shooting form; leg records are read
+        with :meth:`cr3bp.transfers.leg.Leg.from_record`.
+    constraints : cr3bp.transfers.search.Constraints, optional
+        Reported as held or not.
+    optimise : bool
+        Step 2 (SLSQP) on or off.
+    max_iterations : int
+        SLSQP iterations.
+    periods : dict, optional
+        Orbit node id -> period (TU): where two legs meet an orbit at different phases, a coast
+        along it is laid between them (:func:`phasing_coast`) instead of refusing the route.
 
     Returns
     -------
@@ -412,8 +591,50 @@ def stitch_route(system, route, constraints=None, optimise=True, max_iterations=
 
     Raises
     ------
+    InputError
+        No legs, a leg without patch points, or a maneuver off the patch points.
+    RecordError
+        A leg record lacks a key or holds a bad value.
+    PhasingError
+        Legs meet an orbit at different phases and no period is known.
     ConvergenceError
         Continuity cannot be reached (carries iterations and residuals).
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> from cr3bp.transfers.graph import build_graph
+    >>> from cr3bp.transfers.search import best_routes
+    >>> em = system("earth-moon")
+    >>> nodes = parse_nodes('''
+    ... system = "earth-moon"
+    ... [settings]
+    ... tof = "3d"
+    ... patches = 2
+    ... [[node]]
+    ... name = "a"
+    ... kind = "state"
+    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
+    ... [[node]]
+    ... name = "b"
+    ... kind = "state"
+    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
+    ... ''', em)
+    >>> built = build_graph(em, nodes, workers=1)
+    >>> a, b = (n.id for n in nodes.nodes)
+    >>> route = best_routes(built.graph, a, b)[0]
+    >>> from cr3bp.transfers.stitch import stitch_route
+    >>> st = stitch_route(em, route)
+    >>> st.dv_total_mps <= st.legs_dv_total_mps + 1e-6, st.continuity_lu < 1e-9
+    (True, True)
+
+    References
+    ----------
+    Betts, *Practical Methods for Optimal Control and Estimation Using Nonlinear Programming*,
+    2nd ed., SIAM, 2010, ch. 4 (multiple shooting); Pavlak & Howell, "Strategy for optimal,
+    long-duration trajectories in the Earth-Moon system", AAS 11-515, 2011 (both from memory). Kraft, "A software package for sequential quadratic programming",
+    DFVLR-FB 88-28, 1988 (SLSQP).
     """
     legs = [leg if isinstance(leg, Leg) else Leg.from_record(leg, system) for leg in getattr(route, "legs", route)]
     if not legs:
@@ -435,7 +656,7 @@ def stitch_route(system, route, constraints=None, optimise=True, max_iterations=
         note = (f"not optimised: the constraints ({p.rows()} equations on {p.unknowns()} unknowns) leave no "
                 "free direction, so the total Δv is the continuity solution's")
     if optimise and free > 0:
-        from scipy.optimize import minimize
+        from scipy.optimize import minimize   # lazy: heavy library
         lo, hi = TIME_SCALE_BOUNDS
         bounds = [(None, None)] * (6 * p.K) + [(lo, hi)] * p.L
         cons = [{"type": "eq", "fun": lambda q: p.constraints(q)[0], "jac": lambda q: p.constraints(q)[1]},
@@ -465,8 +686,6 @@ def stitch_route(system, route, constraints=None, optimise=True, max_iterations=
 
 
 def _result(system, p, z, legs, constraints, optimised, note, iterations):
-    from ..dynamics import jacobi
-    from ..integrate import propagate
     F, _ = p.constraints(z)
     X, tau, E, _, _ = p.segments(z)
     starts = np.concatenate([[0.0], np.cumsum(tau)])
@@ -526,7 +745,35 @@ def _result(system, p, z, legs, constraints, optimised, note, iterations):
 def maneuver_name(k: int, n_segments: int, junction: bool) -> str:
     """What a burn of a stitched route is, by where it sits: ``departure`` (the route's start),
     ``insertion`` (its end), ``junction`` (where two legs meet at a node), ``correction`` (a
-    patch point inside a leg)."""
+    patch point inside a leg).
+
+    Parameters
+    ----------
+    k : int
+        Boundary index (-1: the route's start; ``k``: after shooting segment ``k``).
+    n_segments : int
+        Shooting segments of the route.
+    junction : bool
+        The boundary is a node between two legs.
+
+    Returns
+    -------
+    str
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.stitch import maneuver_name
+    >>> [maneuver_name(k, 4, k == 1) for k in (-1, 0, 1, 3)]
+    ['departure', 'correction', 'junction', 'insertion']
+
+    References
+    ----------
+    Common practice (naming impulses by their place on a transfer).
+    """
     if k == -1:
         return "departure"
     if k == n_segments - 1:

@@ -20,6 +20,7 @@ import math
 import numpy as np
 
 from ..errors import ConvergenceError
+from ..integrate import impact, propagate
 from .leg import LEG_FORMAT, Leg, Maneuver
 
 #: Newton iterations on the departure velocity before giving up.
@@ -34,24 +35,57 @@ TARGETED_HOW = "two-impulse targeting: departure velocity by Newton's method on 
 
 
 def _impacts(system):
-    from ..integrate import impact
     r1, r2 = system.radii
     return [impact(k, r) for k, r in ((0, r1), (1, r2)) if r > 0]
 
 
 def solve_departure(system, r0, v_guess, r1, tof):
-    """Departure velocity that reaches ``r1`` from ``r0`` in ``tof`` (TU).
+    """Departure velocity that reaches ``r1`` from ``r0`` in ``tof`` (single shooting: Newton's
+    method on the arrival position, the position-velocity block of the state transition matrix
+    as its Jacobian, steps capped at ``MAX_STEP``).
+
+    Parameters
+    ----------
+    system : System
+    r0, r1 : ndarray (3,)
+        Departure and arrival positions, LU (rotating frame).
+    v_guess : ndarray (3,)
+        First guess of the departure velocity, LU/TU.
+    tof : float
+        Time of flight, TU.
 
     Returns
     -------
-    v0 : ndarray (3,), iterations : int, residual : float (LU)
+    v0 : ndarray (3,)
+        The departure velocity, LU/TU.
+    iterations : int
+    residual : float
+        Arrival miss, LU (under ``POSITION_TOL``).
 
     Raises
     ------
     ConvergenceError
         No convergence in ``MAX_ITERATIONS``, or the arc strikes a primary.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> em = system("earth-moon")
+    >>> a = np.array([0.80, 0.0, 0.0, 0.0, 0.35, 0.0])
+    >>> b = np.array([0.85, 0.05, 0.0, 0.05, 0.30, 0.0])
+    >>> from cr3bp.transfers.targeting import solve_departure
+    >>> v0, iterations, residual = solve_departure(em, a[:3], a[3:], b[:3], 3.0 / em.time_days)
+    >>> residual < 1e-11
+    True
+
+    References
+    ----------
+    Koon, Lo, Marsden & Ross, *Dynamical Systems, the Three-Body Problem and Space Mission
+    Design*, 2011, §4.6 (differential correction with the state transition matrix; from memory);
+    Bryson & Ho, *Applied Optimal Control*, 1975, ch. 7 (shooting on boundary conditions; from
+    memory).
     """
-    from ..integrate import propagate
     v = np.array(v_guess, dtype=float)
     res = []
     events = _impacts(system)
@@ -78,14 +112,49 @@ def solve_departure(system, r0, v_guess, r1, tof):
 def targeted_leg(system, s_from, s_to, tof, patches=4) -> Leg:
     """The two-impulse leg from state ``s_from`` to state ``s_to`` in ``tof`` TU.
 
-    Returns a :class:`cr3bp.transfers.leg.Leg` in shooting form: ``dv_mps`` (both impulses),
-    ``maneuvers`` (at departure and arrival, rotating-frame Δv vectors in LU/TU),
-    ``patch_times`` / ``patch_states`` (the arc at ``patches`` evenly spaced times, the start of
-    each shooting segment), ``departure_state`` / ``arrival_state`` (the nodes' states),
-    ``min_altitude_km`` (least altitude over each primary along the arc), and under ``details``
-    the altitude over each body, the Newton iterations and the arrival miss (LU).
+    Parameters
+    ----------
+    system : System
+    s_from, s_to : array_like (6,)
+        The end nodes' states, LU and LU/TU.
+    tof : float
+        Time of flight, TU.
+    patches : int
+        Shooting segments the arc is cut into.
+
+    Returns
+    -------
+    cr3bp.transfers.leg.Leg
+        In shooting form: ``dv_mps`` (both impulses), ``maneuvers`` (at departure and arrival,
+        rotating-frame Δv vectors in LU/TU), ``patch_times`` / ``patch_states`` (the arc at
+        ``patches`` evenly spaced times), ``departure_state`` / ``arrival_state`` (the nodes'
+        states), ``min_altitude_km`` (least altitude over each primary along the arc), and under
+        ``details`` the altitude over each body, the Newton iterations and the arrival miss (LU).
+
+    Raises
+    ------
+    ConvergenceError
+        The targeting does not converge or the arc strikes a primary.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> em = system("earth-moon")
+    >>> a = np.array([0.80, 0.0, 0.0, 0.0, 0.35, 0.0])
+    >>> b = np.array([0.85, 0.05, 0.0, 0.05, 0.30, 0.0])
+    >>> from cr3bp.transfers.targeting import targeted_leg
+    >>> leg = targeted_leg(em, a, b, 3.0 / em.time_days, patches=3)
+    >>> leg.solver, [m.where for m in leg.maneuvers], leg.patch_states.shape
+    ('targeted', ['departure', 'arrival'], (3, 6))
+
+    References
+    ----------
+    Koon, Lo, Marsden & Ross, *Dynamical Systems, the Three-Body Problem and Space Mission
+    Design*, 2011, §4.6 (differential correction with the state transition matrix; from memory);
+    Bryson & Ho, *Applied Optimal Control*, 1975, ch. 7 (shooting on boundary conditions; from
+    memory).
     """
-    from ..integrate import propagate
     s_from = np.asarray(s_from, dtype=float)
     s_to = np.asarray(s_to, dtype=float)
     v0, iterations, residual = solve_departure(system, s_from[:3], s_from[3:], s_to[:3], tof)
