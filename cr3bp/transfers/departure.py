@@ -54,6 +54,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.optimize import brentq, minimize
 
+from .. import validate
 from ..errors import ConvergenceError, InputError, NoSolutionError, StateError
 from ..integrate import impact, propagate
 from ..io.plain import plain as _plain
@@ -737,15 +738,13 @@ def design_departure(orbit, altitude_km: float = 200.0, *, path: str = "direct",
                          f"{', '.join(PATHS)}")
     if path not in PATHS + UNFINISHED_PATHS:
         raise InputError(f"path '{path}'; allowed: {', '.join(PATHS)}")
-    if not (math.isfinite(altitude_km) and 100.0 <= altitude_km <= 50_000.0):
-        raise InputError(f"parking altitude {altitude_km:g} km; allowed: 100 km to 50000 km")
-    if inclination_deg is not None and not (0.0 <= inclination_deg <= 180.0):
-        raise InputError(f"inclination {inclination_deg:g} deg; allowed: 0 to 180 deg")
-    if not (math.isfinite(max_tof_days) and 1.0 <= max_tof_days <= 400.0):
-        raise InputError(f"maximum time of flight {max_tof_days:g} d; allowed: 1 d to 400 d")
-    if path == "lunar-flyby" and not (math.isfinite(min_flyby_altitude_km)
-                                      and 0.0 < min_flyby_altitude_km <= 20_000.0):
-        raise InputError(f"minimum flyby altitude {min_flyby_altitude_km:g} km; allowed: above 0 to 20000 km")
+    altitude_km = validate.number_in("parking altitude (km)", altitude_km, 100.0, 50_000.0)
+    if inclination_deg is not None:
+        inclination_deg = validate.number_in("inclination (deg)", inclination_deg, 0.0, 180.0)
+    max_tof_days = validate.number_in("maximum time of flight (d)", max_tof_days, 1.0, 400.0)
+    if path == "lunar-flyby":
+        min_flyby_altitude_km = validate.number_in("minimum flyby altitude (km)", min_flyby_altitude_km,
+                                                   0.0, 20_000.0, open_lo=True)
     t_start = time.perf_counter()
     pb = _Problem(orbit, altitude_km, inclination_deg, path,
                   min_flyby_altitude_km if path == "lunar-flyby" else None, max_tof_days / system.days(1.0))

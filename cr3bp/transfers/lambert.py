@@ -20,6 +20,7 @@ import math
 import numpy as np
 from scipy.optimize import brentq
 
+from .. import validate
 from ..errors import InputError, NoSolutionError
 
 #: Width around x = 1 where Battin's series (eq. 20) replaces the closed form (eq. 18).
@@ -129,10 +130,8 @@ def lambert(r1, r2, tof: float, gm: float, prograde: bool = True):
     """
     r1 = np.asarray(r1, dtype=float)
     r2 = np.asarray(r2, dtype=float)
-    if not (tof > 0 and math.isfinite(tof)):
-        raise InputError(f"Lambert time of flight {tof!r} must be positive and finite")
-    if not (gm > 0 and math.isfinite(gm)):
-        raise InputError(f"Lambert gravitational parameter {gm!r} must be positive")
+    tof = validate.positive_number("Lambert time of flight", tof)
+    gm = validate.positive_number("Lambert gravitational parameter", gm)
     c = r2 - r1
     cn, n1, n2 = (float(np.linalg.norm(v)) for v in (c, r1, r2))
     if min(n1, n2) == 0.0 or cn == 0.0:

@@ -575,9 +575,8 @@ def _node(t: dict, system):
     if kind == "parking":
         return parking_node(name, system, t["body"], t["altitude"], t.get("inclination", 0.0))
     body = _body(system, t["body"])
-    dist = units.parse(t["altitude" if kind == "capture" else "radius"], "length").si()
-    if not dist > 0:
-        raise InputError(f"the distance of the {kind} condition must be positive")
+    dist = validate.positive_number(f"the distance (km) of the {kind} condition",
+                                    units.parse(t["altitude" if kind == "capture" else "radius"], "length").si())
     return BoundaryNode(name, system.name, kind, body, dist)
 
 
@@ -658,9 +657,7 @@ def parking_node(name: str, system, body: str, altitude, inclination=0.0) -> Par
     alt = units.parse(altitude, "length").si()
     if not alt > 0:
         raise InputError(f"altitude {shown(altitude)} must be positive")
-    inc = float(inclination)
-    if not (math.isfinite(inc) and 0.0 <= inc <= 180.0):
-        raise InputError(f"inclination {inc!r} is outside 0..180 degrees")
+    inc = validate.number_in("inclination (degrees)", inclination, 0.0, 180.0)
     return ParkingNode(name, system.name, body, alt, inc)
 
 

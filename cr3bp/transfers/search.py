@@ -24,6 +24,7 @@ from dataclasses import dataclass, field
 
 import networkx as nx
 
+from .. import validate
 from ..display import Shown
 from ..errors import InputError, NoSolutionError
 from .leg import Leg
@@ -229,9 +230,8 @@ def add_leg(graph: nx.MultiDiGraph, u, v, dv_mps: float, tof_days: float, key=No
     Graphs of transfer legs searched for routes: Dijkstra, "A note on two problems in connexion
     with graphs", *Numerische Mathematik* 1, 269-271, 1959 (non-negative weights).
     """
-    for name, val in (("dv_mps", dv_mps), ("tof_days", tof_days)):
-        if not (math.isfinite(val) and val >= 0):
-            raise InputError(f"leg {u} -> {v}: {name} = {val!r} must be finite and non-negative")
+    dv_mps = validate.number_in(f"leg {u} -> {v}: dv_mps", dv_mps, 0.0)
+    tof_days = validate.number_in(f"leg {u} -> {v}: tof_days", tof_days, 0.0)
     if leg is None:
         leg = Leg.weights_only(u, v, dv_mps, tof_days, kind=data.get("kind", ""),
                                min_altitude_km=data.get("min_altitude_km", math.inf),
@@ -252,11 +252,10 @@ def _check(graph, source, target, c: Constraints, objective: str):
     if source in c.avoid or target in c.avoid:
         raise InputError("the source or target node is also in the avoid list")
     for name in ("max_dv_mps", "max_tof_days", "min_altitude_km"):
-        v = getattr(c, name)
-        if v is not None and not math.isfinite(v):
-            raise InputError(f"{name} = {v!r} must be finite")
-    if c.max_legs is not None and c.max_legs < 1:
-        raise InputError(f"max_legs = {c.max_legs} must be at least 1")
+        if getattr(c, name) is not None:
+            validate.finite_number(name, getattr(c, name))
+    if c.max_legs is not None:
+        validate.whole_number("max_legs", c.max_legs, 1)
 
 
 def iter_routes(graph: nx.MultiDiGraph, source, target, constraints: Constraints = Constraints(),
@@ -393,8 +392,7 @@ def best_routes(graph, source, target, constraints: Constraints = Constraints(),
     269-271, 1959; Martins, "On a multicriteria shortest path problem", *European Journal of
     Operational Research* 16, 236-245, 1984.
     """
-    if k < 1:
-        raise InputError(f"k = {k} must be at least 1")
+    k = validate.whole_number("k (routes asked for)", k, 1)
     routes = list(itertools.islice(iter_routes(graph, source, target, constraints, objective), k))
     if not routes:
         raise NoSolutionError(explain_no_route(graph, source, target, constraints, objective))

@@ -17,6 +17,7 @@ import signal
 import sys
 from concurrent.futures import ProcessPoolExecutor, as_completed as done_first
 
+from .. import validate
 from ..errors import InputError
 
 #: Chunks of tasks per pool worker (progress is reported as each chunk completes).
@@ -97,9 +98,7 @@ def run_tasks(function, tasks, workers=None, scheduler=None, progress=None, *,
             if client is not scheduler:
                 client.close()
         return out
-    workers = (os.cpu_count() or 1) if workers is None else int(workers)
-    if workers < 1:
-        raise InputError(f"--workers {workers} must be at least 1")
+    workers = (os.cpu_count() or 1) if workers is None else validate.whole_number("--workers", workers, 1)
     if workers == 1 or n == 1:
         for i, t in enumerate(tasks):
             tick(i, function(t))
