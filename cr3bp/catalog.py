@@ -12,6 +12,7 @@ The default path is ``$LIBRATE_CATALOG`` if set, else ``~/.local/share/librate/c
 
 from __future__ import annotations
 
+import functools
 import hashlib
 import json
 import math
@@ -19,9 +20,11 @@ import os
 import sqlite3
 import time
 from pathlib import Path
+from urllib.parse import quote
 
 from .errors import InputError, LibrateError
 from .io.plain import json_default
+from .transfers.leg import Leg
 
 SCHEMA_VERSION = 1
 BUSY_TIMEOUT_S = 30.0
@@ -166,7 +169,6 @@ def _guarded(fn):
     file or member (InputError, status 2), a read-only catalogue asked to write (InputError),
     a full disk (CatalogWriteError, status 1; the transaction is rolled back, so the catalogue
     keeps what it held)."""
-    import functools
 
     @functools.wraps(fn)
     def call(self, *a, **kw):
@@ -284,7 +286,6 @@ class Catalog:
 
     def _open_read_only(self):
         """A catalogue in a read-only file or folder: read it (writes give a one-line refusal)."""
-        from urllib.parse import quote
         uri = "file:" + quote(str(Path(self.path).resolve()))
         last = None
         for query in ("?mode=ro", "?mode=ro&immutable=1"):
@@ -409,23 +410,30 @@ class Catalog:
 
     # ---- legs (transfer graph) ---------------------------------------------------------
     @_guarded
-    def put_leg(self, key: str, system, data: dict) -> None:
+    def put_leg(self, key: str, system, leg) -> None:
+        """Store one :class:`cr3bp.transfers.leg.Leg` under ``key`` (as its leg record, JSON)."""
         with self._tx():
             self._db.execute("INSERT OR REPLACE INTO legs (key, system, data, created) VALUES (?,?,?,?)",
-                             (key, system.name, _dumps(data), time.time()))
+                             (key, system.name, _dumps(_leg_record(leg)), time.time()))
 
     @_guarded
     def put_legs(self, items) -> None:
-        """Store many ``(key, system, data)`` legs in one transaction (one disk sync)."""
+        """Store many ``(key, system, leg)`` legs in one transaction (one disk sync); each
+        :class:`cr3bp.transfers.leg.Leg` is stored as its leg record (JSON)."""
         now = time.time()
         with self._tx():
             self._db.executemany("INSERT OR REPLACE INTO legs (key, system, data, created) VALUES (?,?,?,?)",
-                                 [(k, sys_.name, _dumps(d), now) for k, sys_, d in items])
+                                 [(k, sys_.name, _dumps(_leg_record(d)), now) for k, sys_, d in items])
 
     @_guarded
-    def get_leg(self, key: str):
+    def get_leg(self, key: str, system=None):
+        """The :class:`cr3bp.transfers.leg.Leg` stored under ``key`` (None: none), read from its
+        leg record (:meth:`cr3bp.transfers.leg.Leg.from_record`; a damaged record raises
+        RecordError naming the key); ``system`` is the system it belongs to."""
         row = self._db.execute("SELECT data FROM legs WHERE key=?", (key,)).fetchone()
-        return None if row is None else json.loads(row[0])
+        if row is None:
+            return None
+        return Leg.from_record(json.loads(row[0]), system)
 
     @_guarded
     def count_legs(self) -> int:
@@ -512,3 +520,8 @@ def finite_or_none(v):
     (None, 2.5)
     """
     return None if (isinstance(v, float) and not math.isfinite(v)) else v
+
+
+def _leg_record(leg) -> dict:
+    """The stored form of a leg: its leg record (a plain dict is stored as it is)."""
+    return leg.record() if hasattr(leg, "record") else leg

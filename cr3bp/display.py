@@ -182,9 +182,9 @@ def _plot_route(r, ax=None):
     """The route's profile: cumulative Δv against cumulative time of flight, one step per leg."""
     ax = _new_axes(ax)
     t, dv = [0.0], [0.0]
-    for leg in r.legs:
-        t.append(t[-1] + float(leg.get("tof_days", 0.0)))
-        dv.append(dv[-1] + float(leg.get("dv_mps", 0.0)))
+    for d in r.edge_data:
+        t.append(t[-1] + float(d.get("tof_days", 0.0)))
+        dv.append(dv[-1] + float(d.get("dv_mps", 0.0)))
     ax.step(t, dv, where="post", marker="o")
     for k, node in enumerate(r.nodes):
         if k < len(t):

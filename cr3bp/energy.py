@@ -21,6 +21,7 @@ import numpy as np
 
 from . import dynamics, units
 from .equilibria import COLLINEAR, NAMES, jacobi_constants, lagrange_point, point_name
+from . import validate
 from .errors import InputError
 from .equilibria import collinear_gamma
 from .validate import finite_number
@@ -600,8 +601,7 @@ def hill_region(system, jacobi_value, plane: str = "xy", extent=None, view: str 
     c = check_jacobi(jacobi_value)
     _check_plane(plane)
     e = check_extent(extent) if extent is not None else default_extent(system, view)
-    if not (isinstance(resolution, (int, np.integer)) and 21 <= resolution <= 4001):
-        raise InputError(f"resolution {resolution!r} must be an integer in [21, 4001]")
+    resolution = validate.whole_number("resolution", resolution, 21, 4001)
     levels = jacobi_constants(system)
     u = np.linspace(e[0], e[1], int(resolution))
     v = np.linspace(e[2], e[3], int(resolution))

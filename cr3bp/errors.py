@@ -40,6 +40,11 @@ class InputError(LibrateError, ValueError):
     exit_status = 2
 
 
+class RecordError(InputError):
+    """A stored record (a leg record of the transfer graph, :data:`cr3bp.transfers.leg.RECORD_KEYS`)
+    that lacks a key or holds a value of the wrong kind; the message names the key."""
+
+
 class UnknownSystemError(InputError, KeyError):
     """A system name that is not in ``data/systems.toml``."""
 

@@ -156,19 +156,23 @@ def positive_number(name: str, text) -> float:
     return v
 
 
-def whole_number(name: str, text, lo: int, hi: int) -> int:
-    """A whole number in lo..hi (``3.0``, ``1e3``, ``nan`` refused: no rounding)."""
+def whole_number(name: str, text, lo: int, hi: int | None = None) -> int:
+    """A whole number in lo..hi (``hi`` None: no upper end; ``3.0``, ``1e3``, ``nan`` refused:
+    no rounding). Python and numpy integers are taken as they are."""
+    allowed = f"{lo}..{hi}" if hi is not None else f"{lo} or more"
     if isinstance(text, bool):
-        raise InputError(f"{name} {text!r} is not a whole number")
-    if isinstance(text, int):
-        v = text
+        raise InputError(f"{name} {text!r} is not a whole number; allowed {allowed}")
+    if isinstance(text, (int, np.integer)):
+        v = int(text)
     else:
         t = str(text).strip()
         if not t.lstrip("+-").isdigit() or len(t) > 12:
-            raise InputError(f"{name} '{_show(text)}' is not a whole number; allowed {lo}..{hi}")
+            raise InputError(f"{name} '{_show(text)}' is not a whole number; allowed {allowed}")
         v = int(t)
-    if not lo <= v <= hi:
-        raise InputError(f"{name} {v} is outside the allowed range {lo}..{hi}")
+    if hi is None and v < lo:
+        raise InputError(f"{name} {v} is too small; allowed {allowed}")
+    if v < lo or (hi is not None and v > hi):
+        raise InputError(f"{name} {v} is outside the allowed range {allowed}")
     return v
 
 

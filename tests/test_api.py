@@ -264,7 +264,7 @@ def test_results_show_themselves(em, l1):
     tube = cr3bp.manifold(l1, "unstable", points=6, until="time:1TU")
     from cr3bp.transfers.search import Route
     route = Route(("a", "b", "c"), (("a", "b", 0), ("b", "c", 0)), 150.0, 12.0,
-                  legs=({"dv_mps": 100.0, "tof_days": 5.0}, {"dv_mps": 50.0, "tof_days": 7.0}))
+                  edge_data=({"dv_mps": 100.0, "tof_days": 5.0}, {"dv_mps": 50.0, "tof_days": 7.0}))
     for obj, words in ((l1, ["lyapunov L1", "C = 3.150000", "CR3BP"]), (fam, ["5 members", "CR3BP"]),
                        (tube, ["6 trajectories", "CR3BP"]), (route, ["a -> b -> c", "150", "CR3BP"])):
         r = repr(obj)

@@ -46,6 +46,16 @@ MODULES = [
     "cr3bp.catalog",
     "cr3bp.tubes.manifolds",
     "cr3bp.tubes.sections",
+    "cr3bp.transfers.leg",
+    "cr3bp.transfers.nodes",
+    "cr3bp.transfers.targeting",
+    "cr3bp.transfers.lambert",
+    "cr3bp.transfers.departure",
+    "cr3bp.transfers.graph",
+    "cr3bp.transfers.tasks",
+    "cr3bp.transfers.search",
+    "cr3bp.transfers.stitch",
+    "cr3bp.transfers.design",
 ]
 
 #: Packages whose every module is checked, found by walking the package (so a module added

@@ -41,29 +41,29 @@ def built():
 
 
 def _leg(built, to_name):
-    return next(leg for leg in built.legs if leg.get("to_name") == to_name and leg["status"] == "ok")
+    return next(leg for leg in built.legs if leg.target == to_name and leg.ok)
 
 
 def test_capture_leg_reaches_the_periapsis_altitude_ballistically(built):
     leg = _leg(built, "entry")
-    s = np.array(leg["arrival_state"])
+    s = np.array(leg.arrival_state)
     r = s[:3] - [1 - EM.mu, 0, 0]
     assert np.linalg.norm(r) * EM.length_km - 1737.4 == pytest.approx(100.0, abs=1e-3)   # one metre
     assert abs(np.dot(r, s[3:])) / (np.linalg.norm(r) * np.linalg.norm(s[3:])) < 1e-6     # a periapsis
-    assert leg["dv_mps"] == 0.0 and leg["maneuvers"] == []
-    c0 = jacobi(EM.mu, np.array(leg["departure_state"]))
+    assert leg.dv_mps == 0.0 and leg.maneuvers == ()
+    c0 = jacobi(EM.mu, np.array(leg.departure_state))
     assert jacobi(EM.mu, s) == pytest.approx(c0, abs=1e-9)
 
 
 def test_escape_leg_reaches_the_escape_distance(built):
     leg = _leg(built, "away")
-    s = np.array(leg["arrival_state"])
+    s = np.array(leg.arrival_state)
     d = np.linalg.norm(s[:3] - [-EM.mu, 0, 0]) * EM.length_km
     assert d == pytest.approx(600000.0, abs=1e-3)
-    inner = np.array(leg["patch_states"])
+    inner = np.array(leg.patch_states)
     assert np.all(np.linalg.norm(inner[:, :3] - [-EM.mu, 0, 0], axis=1) * EM.length_km < 600000.0)
-    assert leg["dv_mps"] == 0.0
-    assert jacobi(EM.mu, s) == pytest.approx(jacobi(EM.mu, np.array(leg["departure_state"])), abs=1e-9)
+    assert leg.dv_mps == 0.0
+    assert jacobi(EM.mu, s) == pytest.approx(jacobi(EM.mu, np.array(leg.departure_state)), abs=1e-9)
 
 
 def test_boundaries_are_end_points(built):

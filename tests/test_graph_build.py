@@ -177,7 +177,7 @@ def test_process_pool_and_dask_give_identical_legs():
     assert seen == list(range(1, 7))
     a = [leg_json(x) for x in serial.legs]
     assert a == [leg_json(x) for x in pool.legs] == [leg_json(x) for x in dask.legs]
-    assert all(x["status"] == "ok" for x in serial.legs)
+    assert all(x.status == "ok" for x in serial.legs)
 
 
 def test_missing_cluster_extra_is_an_input_error(monkeypatch):
@@ -199,7 +199,7 @@ def test_leg_over_its_cap_is_kept_out_of_the_graph(em):
         'both_ways = false', 'both_ways = false\nmax_patch_dv = "1m/s"')
     r = build_graph(s, parse_nodes(text, s), workers=1)
     assert r.graph.number_of_edges() == 0
-    assert all(leg["status"] == "failed" and "over the cap" in leg["reason"] for leg in r.legs)
+    assert all(leg.status == "failed" and "over the cap" in leg.reason for leg in r.legs)
 
 
 def test_interrupted_build_keeps_the_legs_it_computed(tmp_path, monkeypatch):
@@ -258,9 +258,9 @@ def test_orbit_nodes_are_solved_with_stay_edges_and_targeted_legs(em):
     assert all(d["dv_mps"] == 0.0 and d["tof_days"] == pytest.approx(g.nodes[u]["period_days"]) for u, d in stays)
     assert not r.pruned and len(r.legs) == 2
     leg = r.legs[0]
-    assert leg["from"] == west
-    if leg["status"] == "ok":
-        assert leg["departure_state"][0] == pytest.approx(g.nodes[west]["x"])
+    assert leg.from_id == west
+    if leg.ok:
+        assert leg.departure_state[0] == pytest.approx(g.nodes[west]["x"])
     tasks, pruned = plan(em, parse_nodes(ORBITS, em))
     assert not pruned and [t["settings"]["maneuvers"] for t in tasks] == ["none", "none"]
 

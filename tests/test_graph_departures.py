@@ -1,6 +1,6 @@
 """A graph leg from an Earth parking orbit to an Earth-Moon orbit: where no manifold reaches the
 parking orbit, the graph's parking leg is a direct departure optimised in the CR3BP
-(:func:`cr3bp.transfers.departure.as_plain_leg`). The plain leg's patch points, re-propagated
+(:func:`cr3bp.transfers.departure.as_leg`). The leg's patch points, re-propagated
 with scipy's DOP853 on independently written equations, join one another and the orbit (the
 design -> graph seam)."""
 

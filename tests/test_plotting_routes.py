@@ -29,8 +29,8 @@ def _labels(ax):
 
 def test_corridor_legend_axes_and_tubes(routed, tmp_path):
     s, g, routes, front, st = routed
-    legs = [d["leg"] for d in routes[0].legs]
-    tube = [np.asarray(legs[0]["patch_states"]) + 0.001 * k for k in range(3)]
+    legs = list(routes[0].legs)
+    tube = [np.asarray(legs[0].patch_states) + 0.001 * k for k in range(3)]
     ax = plot_corridor(st, legs, tubes=[tube])
     labels = _labels(ax)
     assert "leg 1 (stitched)" in labels and "maneuver" in labels and "manifold tube" in labels

@@ -98,7 +98,7 @@ def test_one_ballistic_arc_cut_into_legs_costs_nothing():
 def test_non_convergence_is_a_convergence_error(monkeypatch):
     s, st = perturbed_states(3)
     s, g, route = _route(st)
-    legs = [dict(d["leg"]) for d in route.legs]
+    legs = [leg.record() for leg in route.legs]
     legs[0]["patch_states"] = (np.array(legs[0]["patch_states"]) + 0.05).tolist()
     monkeypatch.setattr(stitch, "NEWTON_ITERATIONS", 1)
     with pytest.raises(ConvergenceError) as e:

@@ -46,14 +46,14 @@ def test_one_heteroclinic_leg_stitches_to_zero_dv():
     r = build_graph(em, nl, workers=1)
     assert not r.pruned and len(r.legs) == 1
     leg = r.legs[0]
-    assert leg["status"] == "ok" and leg["method"] == "manifold" and leg["kind"] == "heteroclinic"
-    assert leg["dv_mps"] < ONE_MM_PER_S and 10.0 < leg["tof_days"] < 60.0
+    assert leg.status == "ok" and leg.solver == "manifold" and leg.kind == "heteroclinic"
+    assert leg.dv_mps < ONE_MM_PER_S and 10.0 < leg.tof_days < 60.0
     west, east = (n.id for n in nl.nodes)
     route = best_routes(r.graph, west, east)[0]
     res = stitch_route(em, route)
     assert res.dv_total_mps < ONE_MM_PER_S
     assert res.continuity_lu < 1e-9
-    assert res.tof_days == pytest.approx(leg["tof_days"], rel=1e-6)
+    assert res.tof_days == pytest.approx(leg.tof_days, rel=1e-6)
     C = jacobi(em.mu, res.states)
     assert np.ptp(C) < 1e-9 and C[0] == pytest.approx(3.15, abs=1e-6)
     # the declared burn, and the end's trim impulse (the end state is not held whole: see
@@ -99,13 +99,13 @@ def test_parking_legs_through_periapsis_and_their_stitching():
     em = system("earth-moon")
     nl = parse_nodes(PARKED, em)
     r = build_graph(em, nl, workers=1)
-    ok = {(leg["from_name"], leg["to_name"]): leg for leg in r.legs if leg["status"] == "ok"}
+    ok = {(leg.origin, leg.target): leg for leg in r.legs if leg.ok}
     assert ("llo", "east") in ok and ("east", "llo") in ok and ("east", "west") in ok
     for key in (("llo", "east"), ("east", "llo")):
         leg = ok[key]
-        assert leg["method"] == "parking" and len(leg["maneuvers"]) == 1
-        assert 300.0 < leg["dv_mps"] < 1500.0
-        assert leg["min_altitude_km"] == pytest.approx(100.0, abs=0.01)   # periapsis altitude to 10 m
+        assert leg.solver == "parking" and len(leg.maneuvers) == 1
+        assert 300.0 < leg.dv_mps < 1500.0
+        assert leg.min_altitude_km == pytest.approx(100.0, abs=0.01)   # periapsis altitude to 10 m
     ids = {n.name: n.id for n in nl.nodes}
     route = best_routes(r.graph, ids["llo"], ids["east"])[0]
     res = stitch_route(em, route)

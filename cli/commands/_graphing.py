@@ -36,8 +36,8 @@ def prepare(args, system, check=None):
 
     def tick(done, total, leg):
         if done == 1 or done == total or done % max(1, total // 20) == 0:
-            what = "ok" if leg["status"] == "ok" else "failed"
-            common.progress(args, f"librate: leg {done}/{total} ({leg['from_name']} -> {leg['to_name']}: {what})")
+            what = "ok" if leg.ok else "failed"
+            common.progress(args, f"librate: leg {done}/{total} ({leg.origin} -> {leg.target}: {what})")
 
     common.progress(args, f"librate: building the graph of {len(nodelist.nodes)} node(s) from {args.nodes}...")
     return nodelist, {"workers": workers, "scheduler": args.scheduler, "catalog": catalog,
@@ -70,8 +70,8 @@ LEG_HEADERS = ["from", "to", "status", "dv_mps", "tof_arrival_days", "tof_stepof
 
 
 def leg_rows(result):
-    rows = [[leg["from_name"], leg["to_name"], leg["status"], leg.get("dv_mps"),
-             leg.get("tof_arrival_days", leg.get("tof_days")), leg.get("tof_days"), leg.get("arrival_distance_km"),
-             leg.get("min_altitude_km"), leg.get("reason", "")] for leg in result.legs]
+    rows = [[s["from_name"], s["to_name"], s["status"], s.get("dv_mps"),
+             s.get("tof_arrival_days", s.get("tof_days")), s.get("tof_days"), s.get("arrival_distance_km"),
+             s.get("min_altitude_km"), s.get("reason", "")] for s in (leg.summary() for leg in result.legs)]
     rows += [[p["from"], p["to"], "pruned", None, None, None, None, None, p["reason"]] for p in result.pruned]
     return rows

@@ -230,7 +230,7 @@ def _plots(args, system, g, routes, front, stitched):
     from cr3bp.plotting.routes import plot_corridor, plot_graph, plot_pareto
     from cr3bp.tubes.manifolds import corridor_tubes
     from cr3bp.orbits.request import solve_request
-    legs = [d["leg"] for d in routes[0].legs]
+    legs = list(routes[0].legs)
     # the tubes of the periodic orbits on the route: the corridors it rides
     catalog = common.open_catalog(args)
     orbits = [solve_request(system, g.nodes[n]["node"]["orbit"], catalog=catalog)

@@ -36,6 +36,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from .. import validate
 from ..errors import ConvergenceError, InputError
 from . import model as _model
 from .newton import solve as _solve
@@ -338,10 +339,8 @@ def transition_route(system, times_tu, states, maneuvers, epoch, bodies=("sun", 
     """
     system.require_dimensional("an ephemeris model")
     t, s, man = _check_route(system, times_tu, states, maneuvers)
-    if not (math.isfinite(float(patch_days)) and float(patch_days) > 0):
-        raise InputError(f"patch spacing {patch_days!r} d must be positive")
-    if not 1 <= int(min_patches) <= 64:
-        raise InputError(f"least patch segments per arc = {min_patches} must be in 1..64")
+    patch_days = validate.positive_number("patch spacing (d)", patch_days)
+    min_patches = validate.whole_number("least patch segments per arc", min_patches, 1, 64)
     t0, t1 = float(t[0]), float(t[-1])
     eps = _TIME_EPS * max(1.0, abs(t1))
     start_burn = end_burn = None

@@ -22,6 +22,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from .. import validate
 from ..errors import InputError
 from . import model as _model
 from . import newton as _newton
@@ -251,15 +252,8 @@ def transition(orbit, epoch, revs: int, bodies=("sun", "earth", "moon"), *, cent
     "Dynamics and Mission Design Near Libration Points", World Scientific (2001).
     """
     system = orbit.system
-    try:
-        revs = int(revs)
-        per_rev = int(per_rev)
-    except (TypeError, ValueError):
-        raise InputError(f"revs = {revs!r} and per_rev = {per_rev!r} must be integers") from None
-    if not 1 <= revs <= 200:
-        raise InputError(f"revs = {revs} must be in 1..200")
-    if not 2 <= per_rev <= 64:
-        raise InputError(f"patch points per revolution = {per_rev} must be in 2..64")
+    revs = validate.whole_number("revs", revs, 1, 200)
+    per_rev = validate.whole_number("patch points per revolution (per_rev)", per_rev, 2, 64)
     spec = frames.frame(system, epoch, anchor="ephemeris", axes="j2000-equator", center="secondary")
     central = (central or _central_default(system)).lower()
     T = float(orbit.period)

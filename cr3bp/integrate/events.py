@@ -25,6 +25,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .. import validate
 from ..errors import InputError
 
 PLANE, IMPACT, ESCAPE = 0, 1, 2
@@ -64,8 +65,7 @@ def plane(coordinate, value: float = 0.0, direction: int = 0, terminal: bool = F
         raise InputError(f"coordinate index {coordinate} is outside 0..5")
     if direction not in (-1, 0, 1):
         raise InputError(f"direction {direction} must be -1, 0 or +1")
-    if count < 1:
-        raise InputError(f"count {count} must be at least 1")
+    count = validate.whole_number("count", count, 1)
     return Event(PLANE, int(coordinate), float(value), int(direction), bool(terminal), int(count),
                  label or f"{list(COORDS)[coordinate]}={value:g}")
 
@@ -74,8 +74,7 @@ def impact(primary: int, radius: float, label: str = "") -> Event:
     """Distance to primary ``primary`` (0 = larger, 1 = smaller) falls below ``radius`` (LU)."""
     if primary not in (0, 1):
         raise InputError(f"primary {primary} must be 0 (larger) or 1 (smaller)")
-    if not radius > 0:
-        raise InputError(f"impact radius {radius} must be positive")
+    radius = validate.positive_number("impact radius (LU)", radius)
     return Event(IMPACT, primary, float(radius), -1, True, 1, label or f"impact-{primary}")
 
 
@@ -83,8 +82,7 @@ def escape(radius: float, center: int = -1, label: str = "") -> Event:
     """Distance from ``center`` (-1 barycentre, 0/1 a primary) rises above ``radius`` (LU)."""
     if center not in (-1, 0, 1):
         raise InputError(f"escape centre {center} must be -1 (barycentre), 0 or 1")
-    if not radius > 0:
-        raise InputError(f"escape radius {radius} must be positive")
+    radius = validate.positive_number("escape radius (LU)", radius)
     return Event(ESCAPE, center, float(radius), 1, True, 1, label or "escape")
 
 

@@ -109,22 +109,14 @@ def _model(system, model, stm):
 
 
 def _max_step(value) -> float:
-    if value is None:
+    """The largest step, TU: a positive time, or None / inf for no limit."""
+    if value is None or (isinstance(value, float) and math.isinf(value) and value > 0):
         return math.inf
-    v = validate.finite_time("max_step", value) if not (isinstance(value, float) and math.isinf(value)) else value
-    if not v > 0:
-        raise InputError(f"max_step = {value!r} must be positive")
-    return float(abs(v))
+    return validate.positive_number("max_step (TU)", validate.finite_time("max_step", value))
 
 
 def _max_steps(value) -> int:
-    try:
-        v = int(value)
-    except (TypeError, ValueError):
-        raise InputError(f"max_steps = {value!r} is not an integer") from None
-    if v < 1:
-        raise InputError(f"max_steps = {value!r} must be at least 1")
-    return v
+    return validate.whole_number("max_steps", value, 1)
 
 
 def _check_events_start(system, tab, s0, name="state"):
@@ -321,12 +313,7 @@ def propagate_batch(system, states, t_final, rtol=1e-12, atol=1e-12, events=(), 
         raise InputError("t_final has a non-finite entry")
     if on_failure not in ("raise", "mark"):
         raise InputError(f"on_failure = {on_failure!r}; allowed: raise, mark")
-    try:
-        max_events = int(max_events)
-    except (TypeError, ValueError):
-        raise InputError(f"max_events = {max_events!r} is not an integer") from None
-    if max_events < 0:
-        raise InputError(f"max_events = {max_events} must be at least 0")
+    max_events = validate.whole_number("max_events", max_events, 0)
     events = tuple(events or ())
     tab = np.ascontiguousarray(table(events), dtype=np.float64)
     _check_events_start(system, tab, s, "states")

@@ -44,11 +44,11 @@ from ..time import frames as _frames
 from .atomic import writing
 from ..cautions import CAUTION, caution_lines
 from ..constants import OBLIQUITY_J2000_ARCSEC
-from ..errors import InputError, shown, NoSolutionError
+from .. import validate
+from ..errors import InputError, NoSolutionError, shown
 from ..vocabulary import EXPORT_FORMATS, INERTIAL_FRAMES
 import xml.etree.ElementTree as ET
 from xml.sax.saxutils import escape
-from .. import validate
 from ..integrate import propagate
 from ..time.scales import leap_second_table, mjd_to_iso_date
 from ..validate import iso8601, plain_text, quantity
@@ -164,10 +164,8 @@ def parse_span(text, system, period_tu: float | None = None) -> float:
 
 def sample_grid(span_tu: float, step_tu: float) -> np.ndarray:
     """Times ``0, step, 2 step, ...`` up to ``span`` (inclusive when it falls on the grid)."""
-    if not (math.isfinite(step_tu) and step_tu > 0):
-        raise InputError(f"step {step_tu!r} TU must be positive")
-    if not (math.isfinite(span_tu) and span_tu > 0):
-        raise InputError(f"span {span_tu!r} TU must be positive")
+    step_tu = validate.positive_number("step (TU)", step_tu)
+    span_tu = validate.positive_number("span (TU)", span_tu)
     if step_tu > span_tu:
         raise InputError(f"step ({step_tu:.6g} TU) is larger than the span ({span_tu:.6g} TU)")
     n = int(math.floor(span_tu / step_tu * (1 + 1e-12))) + 1
@@ -185,11 +183,9 @@ def epoch_grid(spec, time_system: str, span_tu: float, step_s: float) -> np.ndar
     across a leap second is uneven by that second.)
     """
     ts = _frames.time_system(time_system)
-    if not (math.isfinite(step_s) and step_s > 0):
-        raise InputError(f"step {step_s!r} s must be positive")
+    step_s = validate.positive_number("step (s)", step_s)
+    validate.positive_number("span (TU)", span_tu)
     span_s = span_tu * spec.system.time_s
-    if not (math.isfinite(span_s) and span_s > 0):
-        raise InputError(f"span {span_tu!r} TU must be positive")
     if step_s > span_s * (1 + 1e-12):
         raise InputError(f"step ({step_s:.6g} s) is larger than the span ({span_s:.6g} s)")
     n = int(math.floor(span_s / step_s * (1 + 1e-12))) + 1

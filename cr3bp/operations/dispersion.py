@@ -45,6 +45,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .. import validate
 from ..errors import InputError, NoSolutionError
 from .keeping import Errors
 from ..cautions import caution
@@ -154,10 +155,8 @@ def manifold_insertion(orbit, phase_deg: float, coast_tu: float, burn_mps: float
     """
     s = orbit.system
     s.require_dimensional("an insertion dispersion in km and m/s")
-    if not (isinstance(coast_tu, (int, float)) and math.isfinite(coast_tu) and coast_tu > 0):
-        raise InputError(f"coast {coast_tu!r} TU must be positive")
-    if not (isinstance(burn_mps, (int, float)) and math.isfinite(burn_mps) and 0 <= burn_mps <= 1e5):
-        raise InputError(f"last maneuver {burn_mps!r} m/s must be in 0..100000 m/s")
+    coast_tu = validate.positive_number("coast (TU)", coast_tu)
+    burn_mps = validate.number_in("last maneuver (m/s)", burn_mps, 0.0, 1e5)
     t_phase = (float(phase_deg) % 360.0) / 360.0 * float(orbit.period)
     _, _, _, starts, _, _, d_km = manifold_starts(orbit, "stable", branch, times=np.array([t_phase]),
                                                   step_km=step_km)

@@ -47,6 +47,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from .. import validate
 from ..errors import InputError, NoSolutionError
 from ..integrate.modes import MODE_EPHEMERIS
 import logging
@@ -351,11 +352,8 @@ def reference(orbit, epoch, span_tu: float, *, bodies=("sun", "earth", "moon"), 
     from ..fidelity import model as fm  # lazy: heavy library (numba, via cr3bp.fidelity.model)
     from ..fidelity.transition import transition  # lazy: heavy library (numba, via cr3bp.fidelity.transition)
     T = float(orbit.period)
-    if not (math.isfinite(span_tu) and span_tu > 0):
-        raise InputError(f"span {span_tu!r} TU must be positive")
-    target_revs = int(target_revs)
-    if not 1 <= target_revs <= 10:
-        raise InputError(f"target revolutions {target_revs} must be in 1..10")
+    span_tu = validate.positive_number("span (TU)", span_tu)
+    target_revs = validate.whole_number("target revolutions", target_revs, 1, 10)
     if interval_tu is not None and not (math.isfinite(interval_tu) and 0.05 * T <= interval_tu <= span_tu):
         s = orbit.system
         raise InputError(f"maneuver interval {interval_tu * s.time_days:.6g} d must be between 5 % of the "
@@ -624,14 +622,10 @@ def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, mi
     Howell, K. C. & Pernicka, H. J., "Station-keeping method for libration point trajectories",
     Journal of Guidance, Control, and Dynamics 16(1), 151 (1993) (from memory).
     """
-    n = int(trials)
-    if n < 1:
-        raise InputError(f"trials {n} must be at least 1")
+    n = validate.whole_number("trials", trials, 1)
     if scheduler is not None:
         return on_dask(ref, errors, n, seed, min_burn_mps, scheduler, workers, progress)
-    workers = 1 if workers is None else int(workers)
-    if workers < 1:
-        raise InputError(f"workers {workers} must be at least 1")
+    workers = 1 if workers is None else validate.whole_number("workers", workers, 1)
     if workers == 1 or n == 1:
         res = simulate(ref, errors, range(n), seed, min_burn_mps)
         if progress:
@@ -703,9 +697,7 @@ def dask_client(scheduler, workers: int | None = None):
     if isinstance(scheduler, Client):
         return scheduler, None
     if scheduler == "local":
-        n = 2 if workers is None else int(workers)
-        if n < 1:
-            raise InputError(f"workers {n} must be at least 1")
+        n = 2 if workers is None else validate.whole_number("workers", workers, 1)
         # processes with one thread each, as the pool's workers (each chunk sets numba to one thread)
         # its workers' shutdown notices stay out of the terminal (errors still show)
         cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True, dashboard_address=None,

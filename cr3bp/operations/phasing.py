@@ -12,6 +12,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
+from .. import validate
 from ..errors import InputError
 from . import eclipses
 from ..io.export import MAX_SAMPLES
@@ -88,10 +89,8 @@ def sky(placed, span_s: float, step_s: float = STEP_S) -> Sky:
     Folkner, W. M., Williams, J. G. & Boggs, D. H., "The Planetary and Lunar Ephemeris DE 421",
     JPL IPN Progress Report 42-178 (2009).
     """
-    if not (math.isfinite(span_s) and span_s > 0):
-        raise InputError(f"span {span_s!r} s must be positive")
-    if not (math.isfinite(step_s) and 0 < step_s <= span_s):
-        raise InputError(f"step {step_s!r} s must be positive and at most the span ({span_s:g} s)")
+    span_s = validate.positive_number("span (s)", span_s)
+    step_s = validate.number_in("step (s)", step_s, 0.0, span_s, open_lo=True)
     n = int(math.floor(span_s / step_s * (1 + 1e-12))) + 1
     if n > MAX_SAMPLES:
         raise InputError(f"{n} samples exceed the limit of {MAX_SAMPLES}; use a larger step")
@@ -258,8 +257,7 @@ def scan(placed, sk: Sky, n_phases: int = 36, max_pass_min: float | None = None,
     Montenbruck, O. & Gill, E., "Satellite Orbits: Models, Methods and Applications",
     Springer (2000), sec. 3.4.2.
     """
-    if not (isinstance(n_phases, int) and 1 <= n_phases <= 3600):
-        raise InputError(f"number of phases {n_phases!r} must be a whole number in 1..3600")
+    n_phases = validate.whole_number("number of phases", n_phases, 1, 3600)
     if max_pass_min is not None and not (math.isfinite(max_pass_min) and max_pass_min >= 0):
         raise InputError(f"maximum eclipse duration {max_pass_min!r} min must be zero or positive")
     hs = [history(placed, sk, 360.0 * k / n_phases, bodies) for k in range(n_phases)]

@@ -19,6 +19,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .. import validate
 from ..errors import InputError
 from ..io import export
 from ..time import frames
@@ -187,9 +188,7 @@ def place(system, orbit, epoch, samples_per_period: int = SAMPLES_PER_PERIOD) ->
     Points", vol. I, World Scientific (2001), ch. 1 (the instantaneous frame, from memory).
     """
     system.require_dimensional("an orbit placed at a date")
-    period = float(orbit.period)
-    if not (math.isfinite(period) and period > 0):
-        raise InputError(f"orbit period {period!r} TU must be positive")
+    period = validate.positive_number("orbit period (TU)", orbit.period)
     # Earth-centred: the primary in Earth-Moon, the Earth inside the secondary barycentre in Sun-Earth
     center = "earth" if "earth" in frames.BODY_CENTERS.get(system.secondary.name.lower(), ()) else "primary"
     spec = frames.frame(system, epoch, anchor="ephemeris", axes="j2000-equator", center=center)

@@ -25,6 +25,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..display import Shown
+from .. import validate
 from ..errors import ConvergenceError, InputError, NoSolutionError
 from . import shooting, stability
 from .orbit import PeriodicOrbit
@@ -922,8 +923,7 @@ def solve_on_members(system, kind, members, qname, value, family="", point="", b
         lo, hi = min(vals), max(vals)
         raise NoSolutionError(f"no member with {qname} = {value:.10g}; this family spans "
                               f"{lo:.10g} to {hi:.10g}")
-    if not (isinstance(occurrence, int) and 1 <= occurrence):
-        raise InputError(f"occurrence = {occurrence!r} must be a whole number >= 1")
+    occurrence = validate.whole_number("occurrence", occurrence, 1)
     if occurrence > len(places):
         raise NoSolutionError(f"this family meets {qname} = {value:.10g} at {len(places)} "
                               f"place{'s' if len(places) > 1 else ''}; occurrence {occurrence} "

@@ -19,6 +19,7 @@ from __future__ import annotations
 import numpy as np
 
 from .. import dynamics
+from .. import validate
 from ..errors import ConvergenceError, InputError
 from ..integrate import propagate
 from . import geometry
@@ -76,8 +77,7 @@ def patches_from_trajectory(system, state, period, n: int):
     >>> S.shape, dts.shape
     ((4, 6), (4,))
     """
-    if not isinstance(n, int) or n < 2:
-        raise InputError(f"patch count {n!r} must be an integer of at least 2")
+    n = validate.whole_number("patch count", n, 2)
     t = np.linspace(0.0, period, n + 1)[:-1]
     arc = propagate(system, state, period, t_eval=np.append(t, period), rtol=RTOL, atol=ATOL)
     return np.array(arc.states[:n]), np.full(n, period / n)

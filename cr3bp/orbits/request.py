@@ -23,6 +23,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from .. import validate
 from ..errors import InputError, NoSolutionError, shown
 from ..vocabulary import COLLINEAR_POINTS, FAMILY_ALIASES, HALO_BRANCHES, LAGRANGE_POINTS, ORBIT_TARGETS
 from . import continuation, families, recipes, seeds, targets
@@ -200,11 +201,11 @@ def parse_occurrence(value) -> int:
     >>> parse_occurrence(" 2 ")
     2
     """
-    text = str(value).strip()
-    if not text.isdigit() or int(text) < 1:
+    try:
+        return validate.whole_number("occurrence", str(value).strip(), 1)
+    except InputError:
         raise InputError(f"occurrence {value!r} must be a whole number >= 1 (1: the first place "
-                         "along the family, from its start, that meets the target)")
-    return int(text)
+                         "along the family, from its start, that meets the target)") from None
 
 
 def spec_from_options(family, point=None, branch=None, resonance_family=None, occurrence=None,

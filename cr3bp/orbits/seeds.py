@@ -29,6 +29,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .. import validate
 from ..errors import InputError
 from ..vocabulary import HALO_BRANCHES
 from ._collinear import cn, collinear_point
@@ -448,11 +449,9 @@ def dro(mu: float, distance_lu: float) -> Seed:
     >>> dro(0.0121505843, -1.0)
     Traceback (most recent call last):
     ...
-    cr3bp.errors.InputError: DRO distance -1.0 must be positive
+    cr3bp.errors.InputError: DRO distance (LU) '-1.0' must be positive
     """
-    d = float(distance_lu)
-    if not d > 0:
-        raise InputError(f"DRO distance {distance_lu!r} must be positive")
+    d = validate.positive_number("DRO distance (LU)", distance_lu)
     s = np.array([1 - mu + d, 0.0, 0.0, 0.0, -(math.sqrt(mu / d) + d), 0.0])
     n_rel = math.sqrt(mu / d**3) + 1.0   # retrograde angular rate relative to the rotating frame
     return Seed(s, math.pi / n_rel, XZ_PLANAR, f"retrograde circle, d = {d:.4g} LU")

@@ -27,6 +27,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .. import dynamics
+from .. import validate
 from ..errors import ConvergenceError, InputError
 from ..integrate import plane, propagate
 from . import geometry, recipes, stability
@@ -354,9 +355,7 @@ def hold_period(value: float) -> Constraint:
     >>> hold_period(3.0).value
     3.0
     """
-    if not value > 0:
-        raise InputError(f"period {value!r} must be positive")
-    return Constraint("period", float(value))
+    return Constraint("period", validate.positive_number("period (TU)", value))
 
 
 def arclength(ref, tangent, ds) -> Constraint:

@@ -30,7 +30,7 @@ def plot_corridor(stitched, legs=(), tubes=(), ax=None, view="xy", margin=0.25, 
     Parameters
     ----------
     stitched : cr3bp.transfers.stitch.StitchedRoute
-    legs : sequence of leg dicts (optional; their patch points are drawn as dots)
+    legs : sequence of cr3bp.transfers.leg.Leg (optional; their patch points are drawn as dots)
     tubes : sequence of arrays (optional)
     """
     system = stitched.system
@@ -71,7 +71,7 @@ def plot_corridor(stitched, legs=(), tubes=(), ax=None, view="xy", margin=0.25, 
                     ax.plot(curve[:, 0], curve[:, 1], color=col, label=f"zero-velocity curve, C = {c:.5f}"
                             if m == 0 else None, **ZVC_STYLE)
     for k, leg in enumerate(legs):
-        ps = np.asarray(leg.get("patch_states", []))
+        ps = np.asarray(leg.patch_states if leg.patch_states is not None else [])
         if ps.size:
             ax.plot(ps[:, i], ps[:, j], "o", ms=3, color="0.4", zorder=4,
                     label="patch points of the legs as computed" if k == 0 else None)
@@ -105,7 +105,7 @@ def _segment_legs(stitched, legs):
         return {int(q): 0 for q in np.unique(stitched.segment)}
     out, q = {}, 0
     for k, leg in enumerate(legs):
-        for _ in leg.get("patch_states", [None]):
+        for _ in (leg.patch_states if leg.patch_states is not None else [None]):
             out[q] = k
             q += 1
     return out

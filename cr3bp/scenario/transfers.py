@@ -148,7 +148,7 @@ def _figures(plan, transfer, orbits, ranked, front, st, out):
     if not plan.data.get("plots", {}).get("corridors", True):
         return {}
     figures = {}
-    legs = [d["leg"] for d in ranked[0].legs]
+    legs = list(ranked[0].legs)
     ax = plot_corridor(st, legs, tubes=corridor_tubes(route_orbits(transfer, orbits)))
     figures[f"corridor-{name}"] = save_figures(
         ax.figure, out, f"corridor-{name}", formats,

@@ -17,6 +17,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .. import validate
 from ..errors import ConvergenceError, InputError
 from . import circle, solver
 from .torus import SurfaceError, Torus, build, solve_adaptive
@@ -127,8 +128,7 @@ def continue_family(start: Torus, hold: str = "jacobi", members: int = 10, step:
     """
     if hold not in HOLDS:
         raise InputError(f"hold '{hold}' is not allowed; allowed: {', '.join(HOLDS)}")
-    if not (isinstance(members, int) and members >= 1):
-        raise InputError(f"members {members!r} must be a whole number >= 1")
+    members = validate.whole_number("members", members, 1)
     if direction not in (1, -1):
         raise InputError(f"direction {direction!r} must be +1 or -1")
     system = start.system

@@ -24,6 +24,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from .. import validate
 from ..errors import ConvergenceError, InputError, NoSolutionError, shown
 from . import circle, seeds
 from .family import continue_family
@@ -155,13 +156,7 @@ def values(system, spec: TorusSpec) -> dict:
 
 
 def _number(key, text):
-    try:
-        v = float(text)
-    except ValueError:
-        raise InputError(f"{key} '{shown(text)}' is not a number") from None
-    if not math.isfinite(v):
-        raise InputError(f"{key} '{shown(text)}' must be finite")
-    return v
+    return validate.finite_number(key, text)
 
 
 def solve(system, request, progress=None, catalog=None):

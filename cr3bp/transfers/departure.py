@@ -63,10 +63,13 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.optimize import brentq, minimize
 
+from .. import validate
 from ..errors import ConvergenceError, InputError, NoSolutionError, StateError
 from ..integrate import impact, propagate
 from ..io.plain import plain as _plain
+from ..tubes.manifolds import describe
 from .lambert import lambert
+from .leg import Leg, Maneuver
 
 PATHS = ("direct", "lunar-flyby")
 #: Paths whose design is unfinished (refused by :func:`design_departure`).
@@ -119,22 +122,49 @@ MAX_ITER = 200
 
 @dataclass(frozen=True)
 class Departure:
-    """A designed departure (all values CR3BP; time from the departure burn).
+    """A designed departure from an Earth parking orbit to an Earth-Moon periodic orbit (all values
+    CR3BP; time from the departure burn). Made by :func:`design_departure`.
 
-    Attributes
+    Parameters
     ----------
-    system, orbit : the Earth–Moon system and the target PeriodicOrbit
-    path : "direct" or "lunar-flyby"
-    altitude_km : parking-orbit altitude
-    maneuvers : tuple of dicts, in time order: ``name`` (departure, flyby, insertion),
-        ``t`` (TU), ``position`` (LU, rotating, barycentric), ``dv_vector`` (LU/TU,
-        rotating-frame components), ``state_before`` (6,)
-    tof : TU from departure to insertion
-    insertion_phase : fraction of the target orbit's period from its initial state
-    perigee : dict (departure perigee: radius, speed_inertial, speed_circular, inclination_deg)
+    system, orbit : System, PeriodicOrbit
+        The Earth-Moon system and the target orbit.
+    path : {"direct", "lunar-flyby"}
+    altitude_km : float
+        Parking-orbit altitude.
+    maneuvers : tuple of dict
+        In time order: ``name`` (departure, flyby, insertion), ``t`` (TU), ``position`` (LU,
+        rotating, barycentric), ``dv_vector`` (LU/TU, rotating-frame components),
+        ``state_before`` (6,).
+    tof : float
+        TU from departure to insertion.
+    insertion_phase : float
+        Fraction of the target orbit's period from its initial state.
+    perigee : dict
+        Departure perigee: radius, speed_inertial, speed_circular, inclination_deg.
     flyby_altitude_km : float or None
-    optimised : bool (False: the optimiser stopped without meeting its tolerance)
-    details : dict (iterations, constraint residuals, first-guess cost, timing)
+    optimised : bool
+        False: the optimiser stopped without meeting its tolerance.
+    details : dict
+        Iterations, constraint residuals, first-guess cost, timing.
+
+    Examples
+    --------
+    Skipped under doctest (the optimisation takes tens of seconds):
+
+    >>> from cr3bp import orbit
+    >>> from cr3bp.transfers.departure import design_departure
+    >>> nrho = orbit("earth-moon", "halo L2 south period=6.5626d")  # doctest: +SKIP
+    >>> dep = design_departure(nrho, 200.0)                          # doctest: +SKIP
+    >>> dep.maneuvers[0]["name"], dep.optimised                      # doctest: +SKIP
+    ('departure', True)
+
+    References
+    ----------
+    Izzo, "Revisiting Lambert's problem", *Celestial Mechanics and Dynamical Astronomy* 121,
+    2015 (first guess); Kraft, "A software package for sequential quadratic programming",
+    DFVLR-FB 88-28, 1988 (SLSQP); Vallado, *Fundamentals of Astrodynamics and Applications*,
+    4th ed., 2013, §6.3 (tangential departure burn).
     """
 
     system: object
@@ -237,8 +267,7 @@ class Departure:
 
 def _describe(orbit):
     try:
-        from ..tubes.manifolds import describe
-        return describe(orbit)
+            return describe(orbit)
     except Exception:  # noqa: BLE001 - a description is cosmetic
         return f"{orbit.family} {orbit.point} {orbit.branch}".strip()
 
@@ -734,6 +763,17 @@ def design_departure(orbit, altitude_km: float = 200.0, *, path: str = "direct",
     ------
     InputError, NoSolutionError
 
+    Examples
+    --------
+    Skipped under doctest (the optimisation takes tens of seconds):
+
+    >>> from cr3bp import orbit
+    >>> from cr3bp.transfers.departure import design_departure
+    >>> nrho = orbit("earth-moon", "halo L2 south period=6.5626d")  # doctest: +SKIP
+    >>> dep = design_departure(nrho, 200.0)                          # doctest: +SKIP
+    >>> dep.path, dep.dv_mps > 3000.0                                # doctest: +SKIP
+    ('direct', True)
+
     References
     ----------
     Izzo, "Revisiting Lambert's problem", 2015 (first guess); Kraft, DLR-FB 88-28, 1988
@@ -749,15 +789,13 @@ def design_departure(orbit, altitude_km: float = 200.0, *, path: str = "direct",
                          f"{', '.join(PATHS)}")
     if path not in PATHS + UNFINISHED_PATHS:
         raise InputError(f"path '{path}'; allowed: {', '.join(PATHS)}")
-    if not (math.isfinite(altitude_km) and 100.0 <= altitude_km <= 50_000.0):
-        raise InputError(f"parking altitude {altitude_km:g} km; allowed: 100 km to 50000 km")
-    if inclination_deg is not None and not (0.0 <= inclination_deg <= 180.0):
-        raise InputError(f"inclination {inclination_deg:g} deg; allowed: 0 to 180 deg")
-    if not (math.isfinite(max_tof_days) and 1.0 <= max_tof_days <= 400.0):
-        raise InputError(f"maximum time of flight {max_tof_days:g} d; allowed: 1 d to 400 d")
-    if path == "lunar-flyby" and not (math.isfinite(min_flyby_altitude_km)
-                                      and 0.0 < min_flyby_altitude_km <= 20_000.0):
-        raise InputError(f"minimum flyby altitude {min_flyby_altitude_km:g} km; allowed: above 0 to 20000 km")
+    altitude_km = validate.number_in("parking altitude (km)", altitude_km, 100.0, 50_000.0)
+    if inclination_deg is not None:
+        inclination_deg = validate.number_in("inclination (deg)", inclination_deg, 0.0, 180.0)
+    max_tof_days = validate.number_in("maximum time of flight (d)", max_tof_days, 1.0, 400.0)
+    if path == "lunar-flyby":
+        min_flyby_altitude_km = validate.number_in("minimum flyby altitude (km)", min_flyby_altitude_km,
+                                                   0.0, 20_000.0, open_lo=True)
     t_start = time.perf_counter()
     pb = _Problem(orbit, altitude_km, inclination_deg, path,
                   min_flyby_altitude_km if path == "lunar-flyby" else None, max_tof_days / system.days(1.0))
@@ -890,9 +928,42 @@ def _build(pb: _Problem, z, e, success, details):
 
 
 def closure_km(dep: Departure, propagator=None) -> float:
-    """Largest position miss (km) at the end of each coast of ``dep`` when propagated forward
-    from its start (with ``propagator(system, state, dt) -> final state``; default: librate's
-    integrator at 1e-12)."""
+    """Largest position miss (km) at the end of each coast of ``dep`` when propagated forward from
+    its start.
+
+    Parameters
+    ----------
+    dep : Departure
+    propagator : callable(system, state, dt) -> final state, optional
+        Default: librate's integrator at 1e-12 (a test passes an independent one).
+
+    Returns
+    -------
+    float
+        km.
+
+    Raises
+    ------
+    ConvergenceError
+        The integrator fails on a coast.
+
+    Examples
+    --------
+    Skipped under doctest (the departure's optimisation takes tens of seconds):
+
+    >>> from cr3bp import orbit
+    >>> from cr3bp.transfers.departure import design_departure
+    >>> nrho = orbit("earth-moon", "halo L2 south period=6.5626d")  # doctest: +SKIP
+    >>> dep = design_departure(nrho, 200.0)                          # doctest: +SKIP
+    >>> from cr3bp.transfers.departure import closure_km
+    >>> closure_km(dep) < 1.0                                        # doctest: +SKIP
+    True
+
+    References
+    ----------
+    Hairer, Nørsett & Wanner, *Solving Ordinary Differential Equations I*, 2nd ed., 1993,
+    section II.5 (the DOP853 integrator; from memory).
+    """
     s = dep.system
     worst = 0.0
     segs = dep.segments()
@@ -905,12 +976,50 @@ def closure_km(dep: Departure, propagator=None) -> float:
     return worst
 
 
-def as_plain_leg(dep: Departure, patches: int = 4) -> dict:
-    """``dep`` as the plain leg dict of the transfer graph (the keys of
-    :meth:`cr3bp.transfers.leg.Leg.record`): each coast cut into ``patches``
-    shooting segments, the burns as maneuvers (``where``: departure, patch, arrival), the
-    departure state on the parking orbit before the burn and the orbit's state after
-    insertion."""
+def as_leg(dep: Departure, patches: int = 4) -> Leg:
+    """``dep`` as a :class:`cr3bp.transfers.leg.Leg` in shooting form, the transfer graph's
+    parking leg: each coast cut into ``patches`` shooting segments, the burns as maneuvers
+    (``where``: departure, patch, arrival; ``name``: the burn's name), the departure state on
+    the parking orbit before the burn and the orbit's state after insertion.
+
+    Parameters
+    ----------
+    dep : Departure
+        A designed departure (:func:`design_departure`).
+    patches : int
+        Shooting segments per coast.
+
+    Returns
+    -------
+    Leg
+        Solver "parking", kind "departure"; arrives when it ends (``tof_arrival_days`` equals
+        ``tof_days``, no arrival distance).
+
+    Raises
+    ------
+    None
+        A designed departure always has its coasts and burns.
+
+    Examples
+    --------
+    Skipped under doctest (the departure's optimisation takes tens of seconds):
+
+    >>> from cr3bp import orbit
+    >>> from cr3bp.transfers.departure import design_departure
+    >>> nrho = orbit("earth-moon", "halo L2 south period=6.5626d")  # doctest: +SKIP
+    >>> dep = design_departure(nrho, 200.0)                          # doctest: +SKIP
+    >>> from cr3bp.transfers.departure import as_leg
+    >>> leg = as_leg(dep, patches=4)                                 # doctest: +SKIP
+    >>> leg.solver, leg.kind, [m.where for m in leg.maneuvers]       # doctest: +SKIP
+    ('parking', 'departure', ['departure', 'arrival'])
+
+    References
+    ----------
+    Tangential departure from a circular parking orbit: Vallado, *Fundamentals of Astrodynamics
+    and Applications*, 4th ed., 2013, §6.3; the shooting form: Betts, *Practical Methods for
+    Optimal Control and Estimation Using Nonlinear Programming*, 2nd ed., 2010, ch. 4 (both from
+    memory).
+    """
     s = dep.system
     times, states, end = [], [], None
     for t0, st, dt in dep.segments():
@@ -922,16 +1031,16 @@ def as_plain_leg(dep: Departure, patches: int = 4) -> dict:
     mans = []
     for k, m in enumerate(dep.maneuvers):
         where = "departure" if k == 0 else ("arrival" if k == len(dep.maneuvers) - 1 else "patch")
-        mans.append({"t": float(m["t"]), "position": [float(v) for v in m["position"]],
-                     "dv_vector": [float(v) for v in m["dv_vector"]],
-                     "dv_mps": float(s.mps(np.linalg.norm(m["dv_vector"]))), "where": where,
-                     "name": m["name"]})
+        mans.append(Maneuver(float(m["t"]), np.array([float(v) for v in m["position"]]),
+                             np.array([float(v) for v in m["dv_vector"]]),
+                             float(s.mps(np.linalg.norm(m["dv_vector"]))), where, m["name"]))
     finish = end.copy()
     finish[3:] += dep.maneuvers[-1]["dv_vector"]
-    return {"format": 1, "method": "parking", "how": f"{dep.path} departure (optimised in the CR3BP)",
-            "kind": "departure", "dv_mps": dep.dv_mps, "tof_days": dep.tof_days, "tof_tu": float(dep.tof),
-            "maneuvers": mans, "departure_state": [float(v) for v in dep.maneuvers[0]["state_before"]],
-            "arrival_state": finish.tolist(), "patch_times": times, "patch_states": states,
-            "final_state": end.tolist(), "min_altitude_km": float(s.km(dep.perigee["radius"]) - s.primary.radius_km),
-            "tof_arrival_days": dep.tof_days, "arrival_distance_km": None,
-            "details": _plain({"departure": {k: v for k, v in dep.to_dict().items() if k != "details"}})}
+    return Leg(s, "", "", tuple(mans), float(dep.dv_mps), float(dep.tof), None, tuple(dep.segments()),
+               f"{dep.path} departure (optimised in the CR3BP)", kind="departure",
+               min_altitude_km=float(s.km(dep.perigee["radius"]) - s.primary.radius_km),
+               details=_plain({"departure": {k: v for k, v in dep.to_dict().items() if k != "details"}}),
+               solver="parking", patch_times=np.array(times, dtype=float), patch_states=np.array(states, dtype=float),
+               departure_state=np.array([float(v) for v in dep.maneuvers[0]["state_before"]]),
+               arrival_state=finish, final_state=end, tof_days=float(dep.tof_days),
+               tof_arrival_days=float(dep.tof_days))

@@ -15,7 +15,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from ..errors import NoSolutionError
+from ..io.export import dv_differs
+from .graph import build_graph
 from .search import Constraints, best_routes, node_label, pareto_routes
+from .stitch import PhasingError, stitch_route
 
 #: What the design Δv columns are (the CR3BP, before any export).
 DV_DESIGN_NOTE = "the CR3BP design, rotating frame, fixed units (the route's dv_mps and dv_vector_mps too)"
@@ -27,15 +30,53 @@ MANEUVER_HEADERS = ["t_days", "node", "maneuver", "x_km", "y_km", "z_km", "dv_x_
 class TransferDesign:
     """The result of :func:`design_transfer`.
 
-    Attributes
+    Parameters
     ----------
-    built : cr3bp.transfers.graph.BuildResult   the graph and how it was made
-    source, target : nodes                       the request's ends
-    routes : tuple of Route                      ranked by the objective, best first
-    pareto : tuple of Route                      the Pareto set (empty when not asked)
-    stitched : StitchedRoute or None             the best route stitched (None: not asked, or
-                                                 not possible, see ``not_stitched``)
-    not_stitched : str or None                   why the best route was not stitched (None if it was)
+    built : cr3bp.transfers.graph.BuildResult
+        The graph and how it was made.
+    source, target : nodes
+        The request's ends.
+    routes : tuple of cr3bp.transfers.search.Route
+        Ranked by the objective, best first.
+    pareto : tuple of cr3bp.transfers.search.Route
+        The Pareto set (empty when not asked).
+    stitched : cr3bp.transfers.stitch.StitchedRoute or None
+        The best route stitched (None: not asked, or not possible, see ``not_stitched``).
+    not_stitched : str or None
+        Why the best route was not stitched (None if it was).
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> em = system("earth-moon")
+    >>> nodes = parse_nodes('''
+    ... system = "earth-moon"
+    ... [settings]
+    ... tof = "3d"
+    ... patches = 2
+    ... [[node]]
+    ... name = "a"
+    ... kind = "state"
+    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
+    ... [[node]]
+    ... name = "b"
+    ... kind = "state"
+    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
+    ... ''', em)
+    >>> a, b = nodes.nodes
+    >>> from cr3bp.transfers.design import design_transfer
+    >>> d = design_transfer(em, nodes, a, b, workers=1, stitch=False)
+    >>> d.names[a.id], d.routes[0].n_legs, d.stitched is None
+    ('a', 1, True)
+
+    References
+    ----------
+    Dijkstra, "A note on two problems in connexion with graphs", *Numerische Mathematik* 1,
+    269-271, 1959, and Martins, "On a multicriteria shortest path problem", *European Journal of
+    Operational Research* 16, 1984 (route search); Betts, *Practical Methods for Optimal Control
+    and Estimation Using Nonlinear Programming*, 2nd ed., 2010, ch. 4 (stitching by multiple
+    shooting, from memory).
     """
 
     built: object
@@ -58,14 +99,75 @@ class TransferDesign:
 
 def orbit_periods(graph) -> dict:
     """Orbit node id -> period (TU), from the graph's "stay" self-loops (the phasing coasts of
-    :func:`cr3bp.transfers.stitch.stitch_route` need them)."""
-    return {u: d["leg"]["period_tu"] for u, v, k, d in graph.edges(keys=True, data=True)
-            if u == v and k == "stay" and "period_tu" in d.get("leg", {})}
+    :func:`cr3bp.transfers.stitch.stitch_route` need them).
+
+    Parameters
+    ----------
+    graph : networkx.MultiDiGraph
+        A transfer graph (:func:`cr3bp.transfers.graph.build_graph`).
+
+    Returns
+    -------
+    dict
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> import networkx as nx
+    >>> from cr3bp.transfers.design import orbit_periods
+    >>> orbit_periods(nx.MultiDiGraph())
+    {}
+
+    References
+    ----------
+    Phasing along periodic orbits: Koon, Lo, Marsden & Ross, *Dynamical Systems, the Three-Body
+    Problem and Space Mission Design*, 2011, ch. 7 (from memory).
+    """
+    return {u: d["leg"].details["period_tu"] for u, v, k, d in graph.edges(keys=True, data=True)
+            if u == v and k == "stay" and "period_tu" in d["leg"].details}
 
 
 def no_route_reason(built, error, source, target, constraints: Constraints) -> str:
-    """The search's reason why no route exists, plus why the legs at the route's ends (and at
-    the nodes it must pass through) were not attempted."""
+    """The search's reason why no route exists, plus why the legs at the route's ends (and at the
+    nodes it must pass through) were not attempted.
+
+    Parameters
+    ----------
+    built : cr3bp.transfers.graph.BuildResult
+    error : NoSolutionError
+        The route search's refusal.
+    source, target : nodes
+    constraints : cr3bp.transfers.search.Constraints
+
+    Returns
+    -------
+    str
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> import networkx as nx
+    >>> from types import SimpleNamespace
+    >>> from cr3bp.transfers.design import no_route_reason
+    >>> from cr3bp.transfers.search import Constraints
+    >>> built = SimpleNamespace(graph=nx.MultiDiGraph(), pruned=[{"reason": "parking node 'leo' joins periodic orbits only"}])
+    >>> no_route_reason(built, "no route", SimpleNamespace(name="leo"), SimpleNamespace(name="gate"), Constraints())
+    "no route (not attempted: parking node 'leo' joins periodic orbits only)"
+
+    References
+    ----------
+    Dijkstra, "A note on two problems in connexion with graphs", *Numerische Mathematik* 1,
+    269-271, 1959, and Martins, "On a multicriteria shortest path problem", *European Journal of
+    Operational Research* 16, 1984 (route search); Betts, *Practical Methods for Optimal Control
+    and Estimation Using Nonlinear Programming*, 2nd ed., 2010, ch. 4 (stitching by multiple
+    shooting, from memory).
+    """
     ends = {source.name, target.name} | {node_label(built.graph, n) for n in constraints.through}
     why = sorted({p["reason"] for p in built.pruned if any(f"'{e}'" in p["reason"] for e in ends)})
     return str(error) + (f" (not attempted: {'; '.join(why)})" if why else "")
@@ -76,20 +178,28 @@ def design_transfer(system, nodelist, source, target, constraints: Constraints =
                     workers=None, scheduler=None, catalog=None, tof_days=None, progress=None,
                     on_stage=None) -> TransferDesign:
     """Build the transfer graph of ``nodelist``, rank the routes from ``source`` to ``target``,
-    find the Pareto set, and stitch the best route.
+    find the Pareto set, and stitch the best route (the one pipeline ``librate route`` and a
+    scenario's ``[[transfers]]`` both call).
 
     Parameters
     ----------
     system : System (dimensional)
     nodelist : cr3bp.transfers.nodes.NodeList
-    source, target : nodes of ``nodelist`` (see :func:`cr3bp.transfers.nodes.find_node`)
-    constraints : Constraints        caps; ``through`` and ``avoid`` hold node ids
-    objective : {"dv", "tof"}        ranking of the routes
-    best : int                       how many ranked routes
-    pareto, stitch : bool            also find the Pareto set / stitch the best route
-    workers, scheduler, catalog, tof_days, progress : as :func:`cr3bp.transfers.graph.build_graph`
-    on_stage : callable(stage, value), optional  told ``("built", BuildResult)`` once the graph is
-                                     built and ``("stitching", Route)`` before the stitching
+    source, target : nodes
+        Nodes of ``nodelist`` (see :func:`cr3bp.transfers.nodes.find_node`).
+    constraints : cr3bp.transfers.search.Constraints
+        Caps; ``through`` and ``avoid`` hold node ids.
+    objective : {"dv", "tof"}
+        Ranking of the routes.
+    best : int
+        How many ranked routes.
+    pareto, stitch : bool
+        Also find the Pareto set / stitch the best route.
+    workers, scheduler, catalog, tof_days, progress
+        As :func:`cr3bp.transfers.graph.build_graph`.
+    on_stage : callable(stage, value), optional
+        Told ``("built", BuildResult)`` once the graph is built and ``("stitching", Route)``
+        before the stitching.
 
     Returns
     -------
@@ -100,15 +210,44 @@ def design_transfer(system, nodelist, source, target, constraints: Constraints =
     NoSolutionError
         No route meets the constraints (the message names the binding constraint and the
         nodes by their names, and why the legs at the ends were not attempted).
+    InputError
+        A bad objective, ``best``, node or cap.
+    ConvergenceError
+        The stitching cannot reach continuity.
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> em = system("earth-moon")
+    >>> nodes = parse_nodes('''
+    ... system = "earth-moon"
+    ... [settings]
+    ... tof = "3d"
+    ... patches = 2
+    ... [[node]]
+    ... name = "a"
+    ... kind = "state"
+    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
+    ... [[node]]
+    ... name = "b"
+    ... kind = "state"
+    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
+    ... ''', em)
+    >>> a, b = nodes.nodes
+    >>> from cr3bp.transfers.design import design_transfer
+    >>> d = design_transfer(em, nodes, a, b, workers=1)
+    >>> d.stitched.nodes, d.not_stitched
+    (('a', 'b'), None)
 
     References
     ----------
-    Route search: Martins, "On a multicriteria shortest path problem", Eur. J. Oper. Res. 16,
-    1984. Stitching: Pavlak & Howell, AAS 11-515, 2011 (from memory), see
-    :mod:`cr3bp.transfers.stitch`.
+    Dijkstra, "A note on two problems in connexion with graphs", *Numerische Mathematik* 1,
+    269-271, 1959, and Martins, "On a multicriteria shortest path problem", *European Journal of
+    Operational Research* 16, 1984 (route search); Betts, *Practical Methods for Optimal Control
+    and Estimation Using Nonlinear Programming*, 2nd ed., 2010, ch. 4 (stitching by multiple
+    shooting, from memory).
     """
-    from .graph import build_graph
-    from .stitch import PhasingError, stitch_route
     built = build_graph(system, nodelist, workers=workers, scheduler=scheduler, catalog=catalog,
                         progress=progress, tof_days=tof_days)
     g = built.graph
@@ -132,18 +271,63 @@ def design_transfer(system, nodelist, source, target, constraints: Constraints =
 
 
 def maneuver_columns(stitched, exported=()):
-    """The maneuver table of a stitched route: its design (CR3BP) Δv and, per export
-    (``exported``: dicts with ``file``, ``description`` and ``maneuvers``, the rows of
-    :func:`cr3bp.io.export.maneuver_table`), the Δv measured on the exported trajectory, side by
-    side and labelled, with a warning where they differ by more than 1 %.
+    """The maneuver table of a stitched route: its design (CR3BP) Δv and, per export, the Δv
+    measured on the exported trajectory, side by side and labelled, with a warning where they
+    differ by more than 1 %.
+
+    Parameters
+    ----------
+    stitched : cr3bp.transfers.stitch.StitchedRoute
+    exported : sequence of dict
+        Per export: ``file``, ``description`` and ``maneuvers`` (the rows of
+        :func:`cr3bp.io.export.maneuver_table`); an export whose row count differs is left out.
 
     Returns
     -------
-    (headers, rows, maneuvers, models, warnings) : the CSV header and rows; the maneuvers as
-    dicts with ``dv_design_mps`` and one ``dv_exported_mps[FILE]`` per export; the meaning of
-    each Δv column; the warning lines.
+    headers : list of str
+        The CSV header (:data:`MANEUVER_HEADERS` and one ``dv_exported_mps[FILE]`` per export).
+    rows : list of list
+    maneuvers : list of dict
+        With ``dv_design_mps`` and one ``dv_exported_mps[FILE]`` per export.
+    models : dict
+        The meaning of each Δv column.
+    warnings : list of str
+
+    Raises
+    ------
+    KeyError
+        A maneuver or export row lacks a column (those of the stitcher and the exporter have them).
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> em = system("earth-moon")
+    >>> nodes = parse_nodes('''
+    ... system = "earth-moon"
+    ... [settings]
+    ... tof = "3d"
+    ... patches = 2
+    ... [[node]]
+    ... name = "a"
+    ... kind = "state"
+    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
+    ... [[node]]
+    ... name = "b"
+    ... kind = "state"
+    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
+    ... ''', em)
+    >>> a, b = nodes.nodes
+    >>> from cr3bp.transfers.design import design_transfer, maneuver_columns
+    >>> st = design_transfer(em, nodes, a, b, workers=1).stitched
+    >>> headers, rows, mans, models, warnings = maneuver_columns(st)
+    >>> headers[:3], len(rows) == len(st.maneuvers), warnings
+    (['t_days', 'node', 'maneuver'], True, [])
+
+    References
+    ----------
+    Comparing the design and flown Δv of each burn: common practice.
     """
-    from ..io.export import dv_differs
     mans = [dict(m, dv_design_mps=m["dv_mps"]) for m in stitched.maneuvers]
     models = {"dv_design_mps": DV_DESIGN_NOTE}
     warnings = []

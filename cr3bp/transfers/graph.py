@@ -12,7 +12,11 @@ Compute. A task is a plain dict (system, both nodes with their states, settings)
 function :func:`compute_leg` is a module-level function of that dict alone, so it pickles to a
 ``concurrent.futures.ProcessPoolExecutor`` or to a dask worker (run by
 :mod:`cr3bp.transfers.tasks`), and the same task gives the same leg byte for byte wherever it
-runs.
+runs. A task returns its leg as the plain leg record (:meth:`cr3bp.transfers.leg.Leg.record`),
+the form the catalogue stores: every leg of a build, computed here, in a pool, on a cluster or
+read from the catalogue, becomes a :class:`cr3bp.transfers.leg.Leg` through the one
+:meth:`cr3bp.transfers.leg.Leg.from_record`, so none can differ by the way it travelled (and
+no worker pickles a System).
 
 Cache. Each leg is stored in the catalogue under a key made of both nodes' ids, the settings
 and the leg format; a rebuild reads every known leg and computes none of them. Legs that
@@ -25,17 +29,30 @@ from __future__ import annotations
 import hashlib
 import json
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import networkx as nx
 import numpy as np
 
 from . import search
 from . import tasks as tasks_mod
-from ..errors import InputError, LibrateError
-from .nodes import BoundaryNode, OrbitNode, ParkingNode, node_state
-from .leg import LEG_FORMAT
+from ..dynamics import jacobi
+from ..energy import necks, necks_between, realms_of
+from ..errors import InputError, LibrateError, NoSolutionError
+from ..integrate import propagate
+from ..orbits import PeriodicOrbit
+from ..orbits.request import solve_request
+from ..systems import from_mu, system as named_system
+from ..tubes.connections import connect
+from ..tubes.manifolds import Stop, describe, grow_tube
+from ..tubes.parking import parking_legs
+from ..tubes.sections import primary_index
 from ..vocabulary import TUBE_BRANCHES
+from .departure import as_leg, design_departure
+from .leg import LEG_FORMAT, Leg
+from .nodes import BoundaryNode, OrbitNode, ParkingNode, node_state
+from .stitch import ATOL, RTOL
+from .targeting import targeted_leg
 
 #: Two Jacobi constants closer than this count as one energy (ballistic legs).
 SAME_ENERGY = 1e-9
@@ -51,15 +68,35 @@ CATALOG_BATCH = 64
 
 @dataclass(frozen=True)
 class BuildResult:
-    """The graph and how it was made.
+    """The transfer graph and how it was made (what :func:`build_graph` returns).
 
-    Attributes
+    Parameters
     ----------
-    graph : networkx.MultiDiGraph   node ids as nodes; edges from :func:`cr3bp.transfers.search.add_leg`
-    nodes : tuple of nodes
-    legs : tuple of leg dicts (every attempted leg, ``status`` "ok" or "failed")
-    computed, cached : int          legs computed in this run / read from the catalogue
-    pruned : tuple of dicts         pairs not attempted, with the reason
+    graph : networkx.MultiDiGraph
+        Node ids as nodes; edges from :func:`cr3bp.transfers.search.add_leg`, each carrying its
+        :class:`cr3bp.transfers.leg.Leg`.
+    nodes : tuple
+        The node list's nodes.
+    legs : tuple of cr3bp.transfers.leg.Leg
+        Every attempted leg, ``status`` "ok" or "failed".
+    computed, cached : int
+        Legs computed in this run / read from the catalogue.
+    pruned : tuple of dict
+        Pairs not attempted, with the reason.
+    settings : dict
+        The time of flight and patch count used.
+
+    Examples
+    --------
+    >>> import networkx as nx
+    >>> from cr3bp.transfers.graph import BuildResult
+    >>> BuildResult(nx.MultiDiGraph(), (), (), 0, 0).to_dict()["edges"]
+    0
+
+    References
+    ----------
+    Dijkstra, "A note on two problems in connexion with graphs", *Numerische Mathematik* 1,
+    269-271, 1959 (the graph the route search runs on).
     """
 
     graph: object
@@ -82,21 +119,103 @@ def _node_energy(graph, nid):
     return {"jacobi": d.get("jacobi"), "x": d.get("x")}
 
 
-def leg_summary(leg: dict) -> dict:
-    keys = ("from", "to", "from_name", "to_name", "method", "status", "reason", "dv_mps", "tof_days",
-            "tof_arrival_days", "arrival_distance_km", "min_altitude_km", "key")
-    return {k: leg.get(k) for k in keys if k in leg}
+def leg_summary(leg: Leg) -> dict:
+    """The leg's row of a graph's leg list (:meth:`cr3bp.transfers.leg.Leg.summary`).
+
+    Parameters
+    ----------
+    leg : cr3bp.transfers.leg.Leg
+
+    Returns
+    -------
+    dict
+        Ids, names, method, status, reason, Δv (m/s), times of flight (days), arrival distance
+        and lowest altitude (km), catalogue key; a failed attempt has fewer keys.
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.graph import leg_summary
+    >>> from cr3bp.transfers.leg import Leg
+    >>> leg = Leg.from_record({"from": "a", "to": "b", "from_name": "A", "to_name": "B", "key": "k",
+    ...                        "method": "targeted", "status": "failed", "reason": "no convergence",
+    ...                        "dv_mps": None, "tof_days": None})
+    >>> leg_summary(leg)["status"]
+    'failed'
+
+    References
+    ----------
+    Common practice (a tabular summary of graph edges).
+    """
+    return leg.summary()
 
 
 def system_spec(system) -> dict:
+    """The plain description of a system a graph task carries (name, mu, length and time units).
+
+    Parameters
+    ----------
+    system : System
+
+    Returns
+    -------
+    dict
+        ``name``, ``mu``, ``length_km``, ``time_s``.
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.graph import system_spec
+    >>> sorted(system_spec(system("earth-moon")))
+    ['length_km', 'mu', 'name', 'time_s']
+
+    References
+    ----------
+    Tasks as plain data so they pickle to worker processes: Python documentation,
+    ``concurrent.futures.ProcessPoolExecutor`` (common practice).
+    """
     return {"name": system.name, "mu": float(system.mu), "length_km": float(system.length_km),
             "time_s": float(system.time_s)}
 
 
 def system_from_spec(spec):
-    from ..systems import from_mu, system
+    """The system of a task's :func:`system_spec`: the tabulated system of that name when its mu
+    matches, else one built from the numbers.
+
+    Parameters
+    ----------
+    spec : dict
+        As :func:`system_spec` writes it.
+
+    Returns
+    -------
+    System
+
+    Raises
+    ------
+    InputError
+        The numbers do not make a system (mu outside (0, 0.5]).
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.graph import system_from_spec, system_spec
+    >>> system_from_spec(system_spec(system("earth-moon"))).name
+    'earth-moon'
+
+    References
+    ----------
+    Common practice (see :func:`system_spec`).
+    """
     try:
-        s = system(spec["name"])
+        s = named_system(spec["name"])
         if s.mu == spec["mu"]:
             return s
     except LibrateError:
@@ -105,7 +224,35 @@ def system_from_spec(spec):
 
 
 def leg_key(task: dict) -> str:
-    """Catalogue key of a leg: both node ids, the settings, the system and the leg format."""
+    """Catalogue key of a leg: both node ids, the settings, the system and the leg format.
+
+    Parameters
+    ----------
+    task : dict
+        A task of :func:`plan` (its ``from``, ``to``, ``settings``, ``system``, ``method``).
+
+    Returns
+    -------
+    str
+        ``leg/FROM->TO/HASH`` (SHA-256 of the canonical JSON of what makes the leg, 16 hex digits).
+
+    Raises
+    ------
+    KeyError
+        The task lacks one of those keys (a task of :func:`plan` has them all).
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.graph import leg_key
+    >>> task = {"from": {"id": "a"}, "to": {"id": "b"}, "settings": {}, "system": {}, "method": "targeted"}
+    >>> leg_key(task).startswith("leg/a->b/"), leg_key(task) == leg_key(dict(task))
+    (True, True)
+
+    References
+    ----------
+    Content-addressed caching (a key hashed from everything the result depends on): common
+    practice.
+    """
     body = {"from": task["from"]["id"], "to": task["to"]["id"], "settings": task["settings"],
             "system": task["system"], "format": LEG_FORMAT, "method": task["method"],
             "states": [task["from"].get("state_used"), task["to"].get("state_used")]}
@@ -114,13 +261,66 @@ def leg_key(task: dict) -> str:
 
 
 def compute_leg(task: dict) -> dict:
-    """Compute one leg from a plain task dict; never raises for a leg that cannot be made
-    (it comes back with ``status = "failed"`` and the reason)."""
-    from .targeting import targeted_leg
+    """Compute one leg from a plain task dict (the worker function of the graph's tasks).
+
+    Never raises for a leg that cannot be made: it comes back with ``status = "failed"`` and the
+    reason. Returns the leg record (:meth:`cr3bp.transfers.leg.Leg.record`): a task's result
+    crosses a process boundary and goes into the catalogue as it is, and every path (this
+    process, a pool, a dask worker, the catalogue) turns it into a
+    :class:`cr3bp.transfers.leg.Leg` through the one :meth:`cr3bp.transfers.leg.Leg.from_record`.
+
+    Parameters
+    ----------
+    task : dict
+        A task of :func:`plan`.
+
+    Returns
+    -------
+    dict
+        The leg record, stamped with both node ids and names and the catalogue key.
+
+    Raises
+    ------
+    KeyError
+        A malformed task (tasks of :func:`plan` are well formed).
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> em = system("earth-moon")
+    >>> nodes = parse_nodes('''
+    ... system = "earth-moon"
+    ... [settings]
+    ... tof = "3d"
+    ... patches = 2
+    ... [[node]]
+    ... name = "a"
+    ... kind = "state"
+    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
+    ... [[node]]
+    ... name = "b"
+    ... kind = "state"
+    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
+    ... ''', em)
+    >>> from cr3bp.transfers.graph import compute_leg, plan
+    >>> tasks, pruned = plan(em, nodes)
+    >>> record = compute_leg(tasks[0])
+    >>> record["status"], record["method"], len(record["patch_states"])
+    ('ok', 'targeted', 2)
+
+    References
+    ----------
+    Targeted legs: :mod:`cr3bp.transfers.targeting`; manifold legs: Koon, Lo, Marsden & Ross, *Dynamical Systems, the Three-Body Problem and Space Mission
+    Design*, 2011, ch. 3 (realms, necks) and ch. 7 (legs patched from manifolds) (from memory).
+    """
     system = system_from_spec(task["system"])
     st = task["settings"]
-    base = {"from": task["from"]["id"], "to": task["to"]["id"], "from_name": task["from"]["name"],
-            "to_name": task["to"]["name"], "key": task["key"], "method": task["method"]}
+    ends = (task["from"]["id"], task["to"]["id"], task["from"]["name"], task["to"]["name"], task["key"])
+
+    def failed(reason, dv_mps=None, tof_days=None):
+        return Leg(system, "", "", (), dv_mps, math.nan, None, (), "", solver=task["method"], status="failed",
+                   reason=reason, tof_days=tof_days).on_graph(*ends).record()
     try:
         if task["method"] == "manifold":
             leg = _manifold_leg(system, task)
@@ -132,33 +332,62 @@ def compute_leg(task: dict) -> dict:
             leg = targeted_leg(system, task["from"]["state_used"], task["to"]["state_used"], st["tof_tu"],
                                st["patches"])
     except LibrateError as e:
-        return dict(base, status="failed", reason=str(e), dv_mps=None, tof_days=None)
-    leg.update(base)
-    # legs that do not end on a periodic orbit arrive when they end
-    leg.setdefault("tof_arrival_days", leg["tof_days"])
-    leg.setdefault("arrival_distance_km", None)
+        return failed(str(e))
+    leg = replace(leg, solver=task["method"]).on_graph(*ends)
     cap = st.get("max_patch_dv_mps")
-    if st.get("maneuvers") == "none" and leg["dv_mps"] > BALLISTIC_DV_MPS:
-        return dict(base, status="failed", dv_mps=leg["dv_mps"], tof_days=leg["tof_days"],
-                    reason=f"declared ballistic but needs {leg['dv_mps']:.3f} m/s")
-    if cap is not None and leg["dv_mps"] > cap:
-        return dict(base, status="failed", dv_mps=leg["dv_mps"], tof_days=leg["tof_days"],
-                    reason=f"needs {leg['dv_mps']:.1f} m/s, over the cap of {cap:.1f} m/s")
-    leg["status"] = "ok"
-    leg["reason"] = ""
-    return leg
+    if st.get("maneuvers") == "none" and leg.dv_mps > BALLISTIC_DV_MPS:
+        return failed(f"declared ballistic but needs {leg.dv_mps:.3f} m/s", leg.dv_mps, leg.tof_days)
+    if cap is not None and leg.dv_mps > cap:
+        return failed(f"needs {leg.dv_mps:.1f} m/s, over the cap of {cap:.1f} m/s", leg.dv_mps, leg.tof_days)
+    return leg.record()
 
 
 # ---- planning --------------------------------------------------------------------------
 
 def energy_prune(system, c_from, c_to, r_from, r_to, maneuvers: str, point_from="", point_to="") -> str | None:
-    """Why no leg is attempted (None: attempt it). Only ballistic pairs are pruned: different
-    energies, or every way between their realms through a closed neck."""
+    """Why no leg is attempted between two states (None: attempt it). Only ballistic pairs are
+    pruned: different energies, or every way between their realms through a closed neck.
+
+    Parameters
+    ----------
+    system : System
+    c_from, c_to : float
+        Jacobi constants of the two ends.
+    r_from, r_to : array_like (3,)
+        Their positions (the realm each lies in).
+    maneuvers : {"ends", "none"}
+        "none": a ballistic leg is asked for.
+    point_from, point_to : str
+        The Lagrange point an orbit node circles ("" otherwise; an orbit about a point touches
+        the realms on both sides of its neck).
+
+    Returns
+    -------
+    str or None
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.graph import energy_prune
+    >>> em = system("earth-moon")
+    >>> energy_prune(em, 3.10, 3.10, [0.8, 0, 0], [0.9, 0, 0], "ends") is None
+    True
+    >>> energy_prune(em, 3.10, 3.12, [0.8, 0, 0], [0.9, 0, 0], "none")
+    'no maneuver allowed and the Jacobi constants differ (3.100000000 vs 3.120000000)'
+
+    References
+    ----------
+    Koon, Lo, Marsden & Ross, *Dynamical Systems, the Three-Body Problem and Space Mission
+    Design*, 2011, ch. 3 (realms, necks) and ch. 7 (legs patched from manifolds) (from memory).
+    """
     if maneuvers != "none":
         return None
     if abs(c_from - c_to) > SAME_ENERGY:
         return f"no maneuver allowed and the Jacobi constants differ ({c_from:.9f} vs {c_to:.9f})"
-    from ..energy import necks, necks_between, realms_of
     opened = necks(system, c_from)
     ra, rb = realms_of(system, r_from, point_from), realms_of(system, r_to, point_to)
     if ra & rb:
@@ -174,10 +403,54 @@ def energy_prune(system, c_from, c_to, r_from, r_to, maneuvers: str, point_from=
 
 
 def resolve_orbits(system, nodelist, catalog=None, progress=None) -> dict:
-    """Orbit node id -> {"state", "period", "jacobi"} or {"error"}: each orbit request solved
-    once by :func:`cr3bp.orbits.request.solve_request` (read from ``catalog`` when known)."""
-    from ..errors import LibrateError
-    from ..orbits.request import solve_request
+    """Orbit node id -> its solved orbit: each orbit request of ``nodelist`` solved once by
+    :func:`cr3bp.orbits.request.solve_request` (read from ``catalog`` when known).
+
+    Parameters
+    ----------
+    system : System
+    nodelist : cr3bp.transfers.nodes.NodeList
+    catalog : cr3bp.catalog.Catalog, optional
+    progress : callable(node, result), optional
+
+    Returns
+    -------
+    dict
+        Node id -> ``{"state", "period", "jacobi", "monodromy", "family", "point", "branch"}``,
+        or ``{"error"}`` (the reason the orbit could not be solved).
+
+    Raises
+    ------
+    None
+        An orbit that cannot be solved is reported in the result.
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> em = system("earth-moon")
+    >>> nodes = parse_nodes('''
+    ... system = "earth-moon"
+    ... [settings]
+    ... tof = "3d"
+    ... patches = 2
+    ... [[node]]
+    ... name = "a"
+    ... kind = "state"
+    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
+    ... [[node]]
+    ... name = "b"
+    ... kind = "state"
+    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
+    ... ''', em)
+    >>> from cr3bp.transfers.graph import resolve_orbits
+    >>> resolve_orbits(em, nodes)           # no orbit nodes: nothing to solve
+    {}
+
+    References
+    ----------
+    Periodic orbits by differential correction and continuation: see :mod:`cr3bp.orbits`.
+    """
     out = {}
     for n in nodelist.nodes:
         if isinstance(n, OrbitNode) and n.id not in out:
@@ -198,15 +471,13 @@ def _orbit_plain(o: dict) -> dict:
 
 
 def _orbit_from_plain(system, d: dict):
-    from ..orbits import PeriodicOrbit
     return PeriodicOrbit(system, np.array(d["state"]), float(d["period"]), np.array(d["monodromy"]),
                          d.get("family", ""), d.get("point", ""), d.get("branch", ""), float(d["jacobi"]))
 
 
-def _manifold_leg(system, task) -> dict:
+def _manifold_leg(system, task) -> Leg:
     """The cheapest connection between two orbit nodes over the hinted sections
-    (:func:`cr3bp.tubes.connections.connect`), as a leg record (:data:`cr3bp.transfers.leg.RECORD_KEYS`)."""
-    from ..tubes.connections import connect
+    (:func:`cr3bp.tubes.connections.connect`), in shooting form."""
     st = task["settings"]
     a = _orbit_from_plain(system, task["from"]["orbit_data"])
     b = _orbit_from_plain(system, task["to"]["orbit_data"])
@@ -218,26 +489,15 @@ def _manifold_leg(system, task) -> dict:
         except LibrateError as e:
             reasons.append(f"{sec}: {e}")
     if not found:
-        from ..errors import NoSolutionError
         raise NoSolutionError("no manifold connection: " + ("; ".join(reasons) or "the cuts do not meet"))
     best = min(found, key=lambda lg: (lg.dv_mps, lg.tof))
-    return _with_arrival(best.record(st["patches"]), best)
-
-
-def _with_arrival(plain: dict, leg) -> dict:
-    """The plain leg dict with the time of flight to arrival of the
-    :class:`cr3bp.transfers.leg.Leg` it came from (see :data:`cr3bp.transfers.leg.TOF_DEFINITIONS`)."""
-    plain["tof_arrival_days"] = float(leg.tof_arrival_days)
-    plain["arrival_distance_km"] = None if math.isnan(leg.arrival_distance_km) else float(leg.arrival_distance_km)
-    return plain
+    return best.with_patches(st["patches"])
 
 
 def _periapsis_legs(orbit, body, altitude_km, stability, n_points) -> list:
     """Legs of :func:`cr3bp.tubes.parking.parking_legs` through the orbit's manifold and its first
     periapsis at ``altitude_km`` over ``body``: the interior branch, then the exterior one if
     the interior gives none. Raises NoSolutionError with both branches' reasons."""
-    from ..tubes.parking import parking_legs
-    from ..errors import NoSolutionError
     found, reasons = [], []
     for branch in TUBE_BRANCHES:
         try:
@@ -250,11 +510,11 @@ def _periapsis_legs(orbit, body, altitude_km, stability, n_points) -> list:
     raise NoSolutionError("; ".join(reasons))
 
 
-def _parking_leg(system, task) -> dict:
+def _parking_leg(system, task) -> Leg:
     """The cheapest leg between a parking orbit and an orbit node through the orbit's manifold
     and its first periapsis at the parking altitude (:func:`cr3bp.tubes.parking.parking_legs`:
     stable manifold to arrive at the orbit, unstable to leave it; interior branch, then
-    exterior), as a leg record (:data:`cr3bp.transfers.leg.RECORD_KEYS`)."""
+    exterior), in shooting form."""
     st = task["settings"]
     arrive = st["arrive"]                     # parking -> orbit
     orbit = _orbit_from_plain(system, task["to" if arrive else "from"]["orbit_data"])
@@ -279,16 +539,15 @@ def _parking_leg(system, task) -> dict:
             raise
         return _direct_departure_leg(orbit, st)
     best = min(found, key=lambda lg: (lg.dv_mps, lg.tof))
-    return _with_arrival(best.record(st["patches"]), best)
+    return best.with_patches(st["patches"])
 
 
-def _direct_departure_leg(orbit, st) -> dict:
+def _direct_departure_leg(orbit, st) -> Leg:
     """The direct departure (:func:`cr3bp.transfers.departure.design_departure`) from the
     parking orbit of the task settings ``st`` (its altitude and, when given, its inclination
-    to the Moon's orbit plane) to ``orbit``, as a plain leg."""
-    from .departure import as_plain_leg, design_departure   # lazy: heavy library (scipy.optimize)
+    to the Moon's orbit plane) to ``orbit``, as a leg."""
     dep = design_departure(orbit, st["altitude_km"], path="direct", inclination_deg=st.get("inclination_deg"))
-    return as_plain_leg(dep, st["patches"])
+    return as_leg(dep, st["patches"])
 
 
 #: A floor under the first periapsis altitude over the Earth (km) of the stable manifolds of
@@ -328,31 +587,26 @@ def manifold_may_reach(orbit, body, altitude_km) -> bool:
     return not altitude_km < FLOOR_MARGIN * MANIFOLD_EARTH_FLOOR_KM
 
 
-def _boundary_leg(system, task) -> dict:
+def _boundary_leg(system, task) -> Leg:
     """The fastest ballistic way from an orbit node to a capture or escape condition along the
     orbit's unstable manifold (interior branch, then exterior): for a capture, the first
     periapsis at the capture altitude about the body (:func:`cr3bp.tubes.parking.parking_legs`,
     its insertion impulse left out: a capture node asks for the arrival condition, not an
     orbit); for an escape, the first crossing of the escape distance from the body. Zero Δv."""
-    from ..tubes.manifolds import Stop, grow_tube
-    from ..tubes.sections import primary_index
-    from .stitch import RTOL, ATOL
     st = task["settings"]
     orbit = _orbit_from_plain(system, task["from"]["orbit_data"])
     reasons = []
     if task["method"] == "capture":
         found = _periapsis_legs(orbit, st["body"], st["distance_km"], "unstable", st["tube_points"])
         best = min(found, key=lambda lg: lg.tof)
-        leg = best.record(st["patches"])
+        leg = best.with_patches(st["patches"])
         # the arrival condition itself: the state at periapsis before any insertion impulse
-        leg["arrival_state"] = leg["final_state"]
-        leg["maneuvers"] = [m for m in leg["maneuvers"] if m["where"] != "arrival"]
-        leg["dv_mps"] = float(sum(m["dv_mps"] for m in leg["maneuvers"]))
-        leg["method"], leg["kind"] = "capture", "capture"
-        return leg
+        mans = tuple(m for m in leg.maneuvers if m.where != "arrival")
+        return replace(leg, arrival_state=leg.final_state.copy(), maneuvers=mans,
+                       dv_mps=float(sum(float(m.dv_mps) for m in mans)), solver="capture", kind="capture",
+                       tof_arrival_days=leg.tof_days, arrival_distance_km=math.nan)
     p = primary_index(system, st["body"])
     radius = st["distance_km"] / system.length_km
-    from ..errors import NoSolutionError
     for branch in TUBE_BRANCHES:
         tube = grow_tube(orbit, "unstable", branch, st["tube_points"],
                          until=Stop(t_max=4.0 * math.pi, escape_radius=radius, escape_center=p))
@@ -361,23 +615,47 @@ def _boundary_leg(system, task) -> dict:
             i = min(hit, key=lambda k: tube.tof[k])
             tof = float(tube.tof[i])
             te = np.linspace(0.0, tof, st["patches"] + 1)
-            from ..integrate import propagate
             arc = propagate(system, tube.start_states[i], tof, rtol=RTOL, atol=ATOL, t_eval=te)
             r = np.linalg.norm(arc.states[:, :3] - np.array([system.positions[p], 0, 0]), axis=1)
-            return {"format": 1, "method": "escape", "how": f"unstable {branch} manifold to escape",
-                    "kind": "escape", "dv_mps": 0.0, "tof_days": float(system.days(tof)), "tof_tu": tof,
-                    "maneuvers": [], "departure_state": tube.start_states[i].tolist(),
-                    "arrival_state": arc.states[-1].tolist(), "patch_times": te[:-1].tolist(),
-                    "patch_states": arc.states[:-1].tolist(), "final_state": arc.states[-1].tolist(),
-                    "min_altitude_km": float(r.min() * system.length_km - (system.primary, system.secondary)[p].radius_km),
-                    "details": {"branch": branch, "escaped": len(hit), "of": int(tube.n)}}
+            start = np.array(tube.start_states[i], dtype=float)
+            return Leg(system, "", "", (), 0.0, tof, None, ((0.0, start, tof),),
+                       f"unstable {branch} manifold to escape", kind="escape",
+                       min_altitude_km=float(r.min() * system.length_km
+                                             - (system.primary, system.secondary)[p].radius_km),
+                       details={"branch": branch, "escaped": len(hit), "of": int(tube.n)}, solver="escape",
+                       patch_times=te[:-1].copy(), patch_states=arc.states[:-1].copy(), departure_state=start,
+                       arrival_state=arc.states[-1].copy(), final_state=arc.states[-1].copy())
         reasons.append(f"no trajectory of the unstable {branch} manifold of {describe_orbit(orbit)} gets "
                        f"{st['distance_km']:g} km from {system.names[p]} within {system.days(4 * math.pi):.0f} days")
     raise NoSolutionError("; ".join(reasons))
 
 
 def describe_orbit(orbit) -> str:
-    from ..tubes.manifolds import describe
+    """The short description of a periodic orbit used in reasons and labels.
+
+    Parameters
+    ----------
+    orbit : cr3bp.orbits.orbit.PeriodicOrbit
+
+    Returns
+    -------
+    str
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp import orbit
+    >>> from cr3bp.transfers.graph import describe_orbit
+    >>> describe_orbit(orbit("earth-moon", "lyapunov L1 jacobi=3.15"))  # doctest: +SKIP
+    'lyapunov L1 ...'
+
+    References
+    ----------
+    Orbit family names from the trade: Koon, Lo, Marsden & Ross, 2011, ch. 2 and 4 (from memory).
+    """
     return describe(orbit)
 
 
@@ -390,9 +668,62 @@ def _state_of(system, node, orbits):
 def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
     """Tasks (plain dicts, in a fixed order) and the pruned pairs of a node list.
 
-    ``orbits`` is :func:`resolve_orbits`'s result (computed here when not given). A leg to or
-    from an orbit node departs or arrives at the orbit's reference state (its initial state)."""
-    from ..dynamics import jacobi
+    A leg to or from an orbit node departs or arrives at the orbit's reference state (its
+    initial state). Every ordered pair (or the hinted pairs, ``all_pairs = false``) is a
+    candidate; :func:`energy_prune` and the node kinds decide which are attempted.
+
+    Parameters
+    ----------
+    system : System (dimensional)
+    nodelist : cr3bp.transfers.nodes.NodeList
+    tof_days : float, optional
+        Time of flight of targeted legs (default: the node list's).
+    patches : int, optional
+        Shooting segments per leg (default: the node list's).
+    orbits : dict, optional
+        :func:`resolve_orbits`'s result (computed here when not given).
+
+    Returns
+    -------
+    tasks : list of dict
+        Each with ``system``, ``method``, ``settings``, ``from``, ``to`` and ``key``.
+    pruned : list of dict
+        ``from``, ``to`` (names) and ``reason``.
+
+    Raises
+    ------
+    InputError
+        The system has no dimensional units.
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> em = system("earth-moon")
+    >>> nodes = parse_nodes('''
+    ... system = "earth-moon"
+    ... [settings]
+    ... tof = "3d"
+    ... patches = 2
+    ... [[node]]
+    ... name = "a"
+    ... kind = "state"
+    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
+    ... [[node]]
+    ... name = "b"
+    ... kind = "state"
+    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
+    ... ''', em)
+    >>> from cr3bp.transfers.graph import plan
+    >>> tasks, pruned = plan(em, nodes)
+    >>> [(t["from"]["name"], t["to"]["name"], t["method"]) for t in tasks], pruned
+    ([('a', 'b', 'targeted'), ('b', 'a', 'targeted')], [])
+
+    References
+    ----------
+    Koon, Lo, Marsden & Ross, *Dynamical Systems, the Three-Body Problem and Space Mission
+    Design*, 2011, ch. 3 (realms, necks) and ch. 7 (legs patched from manifolds) (from memory).
+    """
     if not system.dimensional:
         raise InputError(f"system '{system.name}' has no dimensional units; the graph reports m/s and days")
     tof_days = nodelist.tof_days if tof_days is None else tof_days
@@ -481,9 +812,40 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
 
 def run_tasks(tasks, workers=None, scheduler=None, progress=None) -> list:
     """Results of :func:`compute_leg` over ``tasks``, in task order, run by
-    :func:`cr3bp.transfers.tasks.run_tasks` (``scheduler``: a dask.distributed scheduler's
-    address or a ``distributed.Client``; otherwise a process pool of ``workers`` processes,
-    default the machine's cores; 1 runs in this process)."""
+    :func:`cr3bp.transfers.tasks.run_tasks`.
+
+    Parameters
+    ----------
+    tasks : list of dict
+        Tasks of :func:`plan`.
+    workers : int, optional
+        Process-pool size (default: the machine's cores; 1 runs in this process).
+    scheduler : str or distributed.Client, optional
+        A dask.distributed scheduler's address or client (instead of the pool).
+    progress : callable(done, total, record), optional
+
+    Returns
+    -------
+    list of dict
+        The leg records.
+
+    Raises
+    ------
+    InputError
+        ``workers`` below 1, or ``scheduler`` given without dask.distributed installed.
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.graph import run_tasks
+    >>> run_tasks([], workers=1)
+    []
+
+    References
+    ----------
+    Independent tasks farmed to worker processes: Python documentation,
+    ``concurrent.futures``; Rocklin, "Dask: parallel computation with blocked algorithms and task
+    scheduling", Proc. SciPy 2015.
+    """
     return tasks_mod.run_tasks(compute_leg, tasks, workers, scheduler, progress)
 
 
@@ -495,27 +857,68 @@ def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None,
     ----------
     system : System (dimensional)
     nodelist : cr3bp.transfers.nodes.NodeList
-    workers : int, optional       process-pool size (default: all cores; 1: in this process)
-    scheduler : str or distributed.Client, optional   run the legs on a dask cluster instead
-    catalog : cr3bp.catalog.Catalog, optional          leg cache
+    workers : int, optional
+        Process-pool size (default: all cores; 1: in this process).
+    scheduler : str or distributed.Client, optional
+        Run the legs on a dask cluster instead.
+    catalog : cr3bp.catalog.Catalog, optional
+        Leg cache: known legs are read, new ones written as they complete.
     progress : callable(done, total, leg), optional
-    tof_days, patches : override the node list's settings
+        Told of each leg (a :class:`cr3bp.transfers.leg.Leg`) as it completes.
+    tof_days, patches : optional
+        Override the node list's settings.
 
     Returns
     -------
     BuildResult
+        Every leg a :class:`cr3bp.transfers.leg.Leg`; every edge carries one.
+
+    Raises
+    ------
+    InputError
+        The system has no dimensional units, or bad ``workers`` / ``scheduler``.
+    RecordError
+        A leg stored in the catalogue is damaged (the message names the key).
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> em = system("earth-moon")
+    >>> nodes = parse_nodes('''
+    ... system = "earth-moon"
+    ... [settings]
+    ... tof = "3d"
+    ... patches = 2
+    ... [[node]]
+    ... name = "a"
+    ... kind = "state"
+    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
+    ... [[node]]
+    ... name = "b"
+    ... kind = "state"
+    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
+    ... ''', em)
+    >>> from cr3bp.transfers.graph import build_graph
+    >>> built = build_graph(em, nodes, workers=1)
+    >>> built.computed, built.graph.number_of_edges(), [leg.status for leg in built.legs]
+    (2, 2, ['ok', 'ok'])
+
+    References
+    ----------
+    Koon, Lo, Marsden & Ross, *Dynamical Systems, the Three-Body Problem and Space Mission
+    Design*, 2011, ch. 3 (realms, necks) and ch. 7 (legs patched from manifolds) (from memory). Dijkstra, "A note on two problems in connexion with graphs", *Numerische Mathematik* 1,
+    269-271, 1959 (the graph the route search runs on).
     """
-    from ..dynamics import jacobi
     orbits = resolve_orbits(system, nodelist, catalog)
     tasks, pruned = plan(system, nodelist, tof_days, patches, orbits)
     legs: list = [None] * len(tasks)
     todo = []
     for i, t in enumerate(tasks):
-        known = catalog.get_leg(t["key"]) if catalog is not None else None
+        known = catalog.get_leg(t["key"], system) if catalog is not None else None
         if known is not None:
             # the cache is keyed by what the nodes are, not by what a node list calls them
-            known["from_name"], known["to_name"] = t["from"]["name"], t["to"]["name"]
-            legs[i] = known
+            legs[i] = replace(known, origin=t["from"]["name"], target=t["to"]["name"])
         else:
             todo.append(i)
     cached = len(tasks) - len(todo)
@@ -523,12 +926,13 @@ def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None,
 
     def flush():
         if catalog is not None and pending:
-            catalog.put_legs([(leg["key"], system, leg) for leg in pending])
+            catalog.put_legs([(leg.key, system, leg) for leg in pending])
         pending.clear()
 
-    def tick(done, total, leg):
+    def tick(done, total, record):
         # legs reach the catalogue in batches as they complete, so an interrupted build
         # keeps what it computed
+        leg = Leg.from_record(record, system)
         pending.append(leg)
         if len(pending) >= CATALOG_BATCH:
             flush()
@@ -539,8 +943,8 @@ def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None,
         results = run_tasks([tasks[i] for i in todo], workers, scheduler, tick)
     finally:
         flush()
-    for i, leg in zip(todo, results):
-        legs[i] = leg
+    for i, record in zip(todo, results):
+        legs[i] = Leg.from_record(record, system)
     graph = nx.MultiDiGraph(system=system.name)
     for n in nodelist.nodes:
         s = _state_of(system, n, orbits)
@@ -552,24 +956,77 @@ def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None,
         if "period" in orbits.get(n.id, {}):
             # phasing along the orbit: a self-loop of one period, no Δv (the simple-path search
             # never takes it; it records how long one waits per revolution)
-            search.add_leg(graph, n.id, n.id, 0.0, orbits[n.id]["period"] * system.time_days, key="stay",
-                            kind="stay", leg={"from": n.id, "to": n.id, "method": "stay", "status": "ok",
-                                              "dv_mps": 0.0, "period_tu": orbits[n.id]["period"]})
+            period = orbits[n.id]["period"]
+            stay = Leg(system, n.name, n.name, (), 0.0, period, None, (), "one revolution along the orbit",
+                       kind="stay", solver="stay", from_id=n.id, to_id=n.id, details={"period_tu": period},
+                       tof_days=period * system.time_days)
+            search.add_leg(graph, n.id, n.id, 0.0, stay.tof_days, key="stay", kind="stay", leg=stay)
     for leg in legs:
-        if leg["status"] == "ok":
-            search.add_leg(graph, leg["from"], leg["to"], leg["dv_mps"], leg["tof_days"], key=leg["method"],
-                            kind=leg["method"], min_altitude_km=leg["min_altitude_km"], leg=leg,
-                            tof_arrival_days=leg.get("tof_arrival_days", leg["tof_days"]),
-                            arrival_distance_km=leg.get("arrival_distance_km"))
+        if leg.ok:
+            search.add_leg(graph, leg.from_id, leg.to_id, leg.dv_mps, leg.tof_days, key=leg.solver,
+                           kind=leg.solver, min_altitude_km=leg.min_altitude_km, leg=leg,
+                           tof_arrival_days=leg.tof_arrival_days,
+                           arrival_distance_km=None if math.isnan(leg.arrival_distance_km) else leg.arrival_distance_km)
     settings = {"tof_days": nodelist.tof_days if tof_days is None else tof_days,
                 "patches": nodelist.patches if patches is None else patches}
     return BuildResult(graph, tuple(nodelist.nodes), tuple(legs), len(todo), cached, tuple(pruned), settings)
 
 
-def leg_json(leg: dict) -> str:
-    """Canonical JSON of a leg (sorted keys): two equal legs give equal text."""
-    return json.dumps(leg, sort_keys=True, allow_nan=True)
+def leg_json(leg: Leg) -> str:
+    """Canonical JSON of a leg's record (sorted keys): two equal legs give equal text.
+
+    Parameters
+    ----------
+    leg : cr3bp.transfers.leg.Leg or dict
+        A leg (or a leg record).
+
+    Returns
+    -------
+    str
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.graph import leg_json
+    >>> from cr3bp.transfers.leg import Leg
+    >>> rec = {"from": "a", "to": "b", "from_name": "A", "to_name": "B", "key": "k", "method": "targeted",
+    ...        "status": "failed", "reason": "no convergence", "dv_mps": None, "tof_days": None}
+    >>> leg_json(Leg.from_record(rec)) == leg_json(rec)
+    True
+
+    References
+    ----------
+    JSON: ECMA-404 / RFC 8259 (open standard).
+    """
+    return json.dumps(leg.record() if isinstance(leg, Leg) else leg, sort_keys=True, allow_nan=True)
 
 
 def finite(v):
+    """``v`` when it is a finite float, else None (for JSON output).
+
+    Parameters
+    ----------
+    v : object
+
+    Returns
+    -------
+    float or None
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.graph import finite
+    >>> finite(2.5), finite(float("inf")), finite("x")
+    (2.5, None, None)
+
+    References
+    ----------
+    JSON has no infinities or NaN: RFC 8259, section 6 (open standard).
+    """
     return v if (isinstance(v, float) and math.isfinite(v)) else None

@@ -20,6 +20,7 @@ import math
 import numpy as np
 from scipy.optimize import brentq
 
+from .. import validate
 from ..errors import InputError, NoSolutionError
 
 #: Width around x = 1 where Battin's series (eq. 20) replaces the closed form (eq. 18).
@@ -40,7 +41,37 @@ def _hyp_3_1_52(z: float) -> float:
 
 
 def tof_equation(x: float, lam: float) -> float:
-    """Non-dimensional time of flight T(x) for M = 0 (Izzo 2015, eq. 18 and eq. 20)."""
+    """Non-dimensional time of flight T(x) for zero complete revolutions (Izzo 2015, eq. 18; Battin's
+    hypergeometric form, eq. 20, within ``SERIES_WIDTH`` of x = 1).
+
+    Parameters
+    ----------
+    x : float
+        Izzo's variable, x > -1 (x < 1 elliptic, x = 1 parabolic, x > 1 hyperbolic).
+    lam : float
+        The geometry parameter lambda in [-1, 1] (eq. 5-9).
+
+    Returns
+    -------
+    float
+        T, decreasing in x (eq. 21).
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.lambert import tof_equation
+    >>> tof_equation(0.0, 0.5) > tof_equation(0.5, 0.5) > tof_equation(2.0, 0.5)
+    True
+
+    References
+    ----------
+    Izzo, "Revisiting Lambert's problem", *Celestial Mechanics and Dynamical Astronomy* 121, 1-15,
+    2015; Battin, *An Introduction to the Mathematics and Methods of Astrodynamics*, AIAA, 1987,
+    ch. 7 (from memory).
+    """
     y = math.sqrt(max(0.0, 1.0 - lam * lam * (1.0 - x * x)))
     if abs(x - 1.0) < SERIES_WIDTH:
         eta = y - lam * x
@@ -82,16 +113,25 @@ def lambert(r1, r2, tof: float, gm: float, prograde: bool = True):
     NoSolutionError
         No root of the time-of-flight equation was bracketed.
 
+    Examples
+    --------
+    A quarter of a circular orbit (unit radius and ``gm``: a quarter period is pi/2):
+
+    >>> import math
+    >>> import numpy as np
+    >>> from cr3bp.transfers.lambert import lambert
+    >>> v1, v2 = lambert([1.0, 0.0, 0.0], [0.0, 1.0, 0.0], math.pi / 2, 1.0)
+    >>> np.round(v1, 9) + 0.0, np.round(v2, 9) + 0.0
+    (array([0., 1., 0.]), array([-1.,  0.,  0.]))
+
     References
     ----------
     Izzo, D., "Revisiting Lambert's problem", Celest. Mech. Dyn. Astr. 121, 2015.
     """
     r1 = np.asarray(r1, dtype=float)
     r2 = np.asarray(r2, dtype=float)
-    if not (tof > 0 and math.isfinite(tof)):
-        raise InputError(f"Lambert time of flight {tof!r} must be positive and finite")
-    if not (gm > 0 and math.isfinite(gm)):
-        raise InputError(f"Lambert gravitational parameter {gm!r} must be positive")
+    tof = validate.positive_number("Lambert time of flight", tof)
+    gm = validate.positive_number("Lambert gravitational parameter", gm)
     c = r2 - r1
     cn, n1, n2 = (float(np.linalg.norm(v)) for v in (c, r1, r2))
     if min(n1, n2) == 0.0 or cn == 0.0:

@@ -38,8 +38,9 @@ from pathlib import Path
 import numpy as np
 
 from ..io import toml_schema as schema_mod
-from .. import units
+from .. import units, validate
 from ..errors import InputError, shown
+from ..orbits.request import parse_request
 from ..vocabulary import HALO_BRANCHES
 
 #: Largest node list read (characters): far above any real one, it keeps a hostile file cheap.
@@ -88,7 +89,31 @@ def _fmt(v: float) -> str:
 
 @dataclass(frozen=True)
 class OrbitNode:
-    """A periodic orbit named by its request text ("halo L2 south period=6.5626d")."""
+    """A periodic orbit named by its request text ("halo L2 south period=6.5626d").
+
+    Parameters
+    ----------
+    name : str
+        The name the node list gives it.
+    system : str
+        The system's name.
+    orbit : str
+        Orbit request text (:mod:`cr3bp.orbits.request`).
+    kind : str
+        "orbit".
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.nodes import OrbitNode
+    >>> n = OrbitNode("relay", "earth-moon", "Halo L2 South  period = 6.5626d")
+    >>> n.id, n.point, n.branch
+    ('orbit/earth-moon/halo l2 south period=6.5626d', 'L2', 'south')
+
+    References
+    ----------
+    Orbit families (halo, Lyapunov...): Koon, Lo, Marsden & Ross, *Dynamical Systems, the
+    Three-Body Problem and Space Mission Design*, 2011, ch. 2 and 4 (from memory).
+    """
 
     name: str
     system: str
@@ -127,7 +152,32 @@ class OrbitNode:
 
 @dataclass(frozen=True)
 class ParkingNode:
-    """A circular orbit about a primary (altitude in km, inclination in degrees)."""
+    """A circular orbit about a primary.
+
+    Parameters
+    ----------
+    name : str
+    system : str
+        The system's name.
+    body : str
+        The primary's name, lower case.
+    altitude_km : float
+    inclination_deg : float
+        To the primaries' plane.
+    kind : str
+        "parking".
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.nodes import ParkingNode
+    >>> ParkingNode("leo", "earth-moon", "earth", 200.0).id
+    'parking/earth-moon/earth/200km/0deg'
+
+    References
+    ----------
+    Circular parking orbits as departure points: Vallado, *Fundamentals of Astrodynamics and
+    Applications*, 4th ed., 2013, ch. 6 (from memory).
+    """
 
     name: str
     system: str
@@ -149,7 +199,29 @@ class ParkingNode:
 
 @dataclass(frozen=True)
 class StateNode:
-    """A fixed state in the rotating frame (LU, LU/TU)."""
+    """A fixed state in the rotating frame (LU, LU/TU): a patch point, a rendezvous point.
+
+    Parameters
+    ----------
+    name : str
+    system : str
+        The system's name.
+    state : tuple of 6 float
+    kind : str
+        "state".
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.nodes import StateNode
+    >>> StateNode("gate", "earth-moon", (0.8, 0.0, 0.0, 0.0, 0.35, 0.0)).id.startswith("state/earth-moon/")
+    True
+
+    References
+    ----------
+    Nodes and edges of a transfer graph: Dijkstra, "A note on two problems in connexion with
+    graphs", *Numerische Mathematik* 1, 269-271, 1959; node lists are TOML (TOML v1.0.0, open
+    standard).
+    """
 
     name: str
     system: str
@@ -168,7 +240,29 @@ class StateNode:
 
 @dataclass(frozen=True)
 class BoundaryNode:
-    """A capture (periapsis altitude about a body) or escape (distance from a body) condition."""
+    """A capture (periapsis altitude about a body) or escape (distance from a body) condition.
+
+    Parameters
+    ----------
+    name : str
+    system : str
+        The system's name.
+    kind : {"capture", "escape"}
+    body : str
+        The primary's name, lower case.
+    distance_km : float
+        Capture: periapsis altitude; escape: distance from the body's centre.
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.nodes import BoundaryNode
+    >>> BoundaryNode("away", "earth-moon", "escape", "earth", 600000.0).id
+    'escape/earth-moon/earth/600000km'
+
+    References
+    ----------
+    Capture and escape along manifolds: Koon, Lo, Marsden & Ross, 2011, ch. 3 and 7 (from memory).
+    """
 
     name: str
     system: str
@@ -187,7 +281,35 @@ class BoundaryNode:
 
 @dataclass(frozen=True)
 class EdgeHint:
-    """What a node list says about the leg(s) between two named nodes."""
+    """What a node list says about the leg(s) between two named nodes.
+
+    Parameters
+    ----------
+    source, target : str
+        Node names.
+    maneuvers : {"ends", "none"}
+        Impulses allowed at both ends, or a ballistic leg only.
+    max_patch_dv_mps : float, optional
+        Largest Δv accepted for the leg, m/s.
+    sections : tuple of str
+        Poincaré sections to patch on (manifold connections).
+    tof_days : float, optional
+        Time of flight of a targeted leg.
+    both_ways : bool
+        Also the leg in the other direction.
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.nodes import EdgeHint
+    >>> EdgeHint("gate", "relay", maneuvers="none").to_dict()["maneuvers"]
+    'none'
+
+    References
+    ----------
+    Nodes and edges of a transfer graph: Dijkstra, "A note on two problems in connexion with
+    graphs", *Numerische Mathematik* 1, 269-271, 1959; node lists are TOML (TOML v1.0.0, open
+    standard).
+    """
 
     source: str
     target: str
@@ -205,7 +327,35 @@ class EdgeHint:
 
 @dataclass(frozen=True)
 class NodeList:
-    """A checked node list: the nodes (in file order), edge hints and settings."""
+    """A checked node list: the nodes (in file order), edge hints and settings.
+
+    Parameters
+    ----------
+    system : str or None
+        The system the file names.
+    nodes : tuple
+    hints : tuple of EdgeHint
+    tof_days : float
+        Default time of flight of a targeted leg.
+    patches : int
+        Shooting segments per leg.
+    all_pairs : bool
+        Attempt a leg between every ordered pair (False: the hinted ones).
+    file : str
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.nodes import NodeList, StateNode
+    >>> nl = NodeList("earth-moon", (StateNode("gate", "earth-moon", (0.8, 0, 0, 0, 0.35, 0)),))
+    >>> list(nl.by_name())
+    ['gate']
+
+    References
+    ----------
+    Nodes and edges of a transfer graph: Dijkstra, "A note on two problems in connexion with
+    graphs", *Numerische Mathematik* 1, 269-271, 1959; node lists are TOML (TOML v1.0.0, open
+    standard).
+    """
 
     system: str | None
     nodes: tuple
@@ -225,7 +375,30 @@ class NodeList:
 
 
 def normalise(text: str) -> str:
-    """Lower-case words separated by single spaces, ``key = value`` written ``key=value``."""
+    """Lower-case words separated by single spaces, ``key = value`` written ``key=value``.
+
+    Parameters
+    ----------
+    text : str
+
+    Returns
+    -------
+    str
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.nodes import normalise
+    >>> normalise("  Halo L2   South period = 6.5626d")
+    'halo l2 south period=6.5626d'
+
+    References
+    ----------
+    Common practice (a canonical form so equal requests give equal ids).
+    """
     t = re.sub(r"\s*=\s*", "=", str(text).strip())
     return " ".join(w if "=" in w else w.lower() for w in t.split())
 
@@ -233,10 +406,36 @@ def normalise(text: str) -> str:
 def load_nodes(path, system) -> NodeList:
     """Read and check a node list for ``system``.
 
+    Parameters
+    ----------
+    path : str or Path
+    system : System
+
+    Returns
+    -------
+    NodeList
+
     Raises
     ------
+    InputError
+        The file cannot be read or is not UTF-8.
     ScenarioError (an InputError)
         Every problem at once, each as ``file:line: key: message``.
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.nodes import load_nodes
+    >>> load_nodes("no-such-file.toml", system("earth-moon"))  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: cannot read node list no-such-file.toml: No such file or directory
+
+    References
+    ----------
+    TOML v1.0.0 (open standard); Nodes and edges of a transfer graph: Dijkstra, "A note on two problems in connexion with
+    graphs", *Numerische Mathematik* 1, 269-271, 1959; node lists are TOML (TOML v1.0.0, open
+    standard).
     """
     path = Path(path)
     try:
@@ -250,7 +449,44 @@ def load_nodes(path, system) -> NodeList:
 
 
 def parse_nodes(text: str, system, file: str = "<nodes>") -> NodeList:
-    """Check the TOML ``text`` of a node list and build its nodes (see :func:`load_nodes`)."""
+    """Check the TOML ``text`` of a node list and build its nodes (see :func:`load_nodes`).
+
+    Parameters
+    ----------
+    text : str
+    system : System
+    file : str
+        Named in the problems.
+
+    Returns
+    -------
+    NodeList
+
+    Raises
+    ------
+    ScenarioError (an InputError)
+        Every problem at once, each as ``file:line: key: message``.
+    InputError
+        The text is too long or nested too deeply to read.
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> em = system("earth-moon")
+    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> nl = parse_nodes('''
+    ... [[node]]
+    ... name = "gate"
+    ... kind = "state"
+    ... state = [0.8, 0.0, 0.0, 0.0, 0.35, 0.0]
+    ... ''', em)
+    >>> [n.name for n in nl.nodes], nl.tof_days, nl.patches
+    (['gate'], 6.0, 4)
+
+    References
+    ----------
+    TOML v1.0.0 (open standard).
+    """
     P = schema_mod.Problem
     if len(text) > MAX_NODE_LIST_CHARS:
         raise InputError(f"node list {shown(file)} has {len(text)} characters; at most "
@@ -335,22 +571,47 @@ def _node(t: dict, system):
     if kind == "orbit":
         return orbit_node(name, system, t["orbit"])
     if kind == "state":
-        from .. import validate
         s = validate.state(system, t["state"], "state")
         return StateNode(name, system.name, tuple(float(v) for v in s))
     if kind == "parking":
         return parking_node(name, system, t["body"], t["altitude"], t.get("inclination"))
     body = _body(system, t["body"])
-    dist = units.parse(t["altitude" if kind == "capture" else "radius"], "length").si()
-    if not dist > 0:
-        raise InputError(f"the distance of the {kind} condition must be positive")
+    dist = validate.positive_number(f"the distance (km) of the {kind} condition",
+                                    units.parse(t["altitude" if kind == "capture" else "radius"], "length").si())
     return BoundaryNode(name, system.name, kind, body, dist)
 
 
 def orbit_node(name: str, system, orbit: str) -> OrbitNode:
-    """The node of the periodic orbit that the request text ``orbit`` names (checked:
-    InputError names a bad word or a missing target)."""
-    from ..orbits.request import parse_request
+    """The node of the periodic orbit that the request text ``orbit`` names.
+
+    Parameters
+    ----------
+    name : str
+    system : System
+    orbit : str
+        Orbit request text (:mod:`cr3bp.orbits.request`).
+
+    Returns
+    -------
+    OrbitNode
+
+    Raises
+    ------
+    InputError
+        A bad word of the request, or no target (period=, jacobi=, az=...).
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> em = system("earth-moon")
+    >>> from cr3bp.transfers.nodes import orbit_node
+    >>> orbit_node("relay", em, "halo L2 south period=6.5626d").family
+    'halo'
+
+    References
+    ----------
+    Orbit families: Koon, Lo, Marsden & Ross, 2011, ch. 2 and 4 (from memory).
+    """
     spec = parse_request(orbit)          # InputError names the bad word
     if not spec.key:
         raise InputError(f"orbit '{shown(orbit)}' has no target; add e.g. period=, jacobi=, az=")
@@ -358,18 +619,48 @@ def orbit_node(name: str, system, orbit: str) -> OrbitNode:
 
 
 def parking_node(name: str, system, body: str, altitude, inclination=None) -> ParkingNode:
-    """The node of a circular parking orbit about ``body`` (a primary's name) at ``altitude``
-    (text with a length unit, e.g. ``"200km"``), ``inclination`` degrees to the primaries'
-    plane (None: free; checked: InputError)."""
+    """The node of a circular parking orbit about ``body``.
+
+    Parameters
+    ----------
+    name : str
+    system : System
+    body : str
+        A primary's name.
+    altitude : str
+        Text with a length unit, e.g. ``"200km"``.
+    inclination : float or None
+        Degrees to the primaries' plane, 0..180; None: free (the departure chooses it).
+
+    Returns
+    -------
+    ParkingNode
+
+    Raises
+    ------
+    InputError
+        Not a primary, an altitude that is not a positive length, or an inclination outside
+        0..180 degrees.
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> em = system("earth-moon")
+    >>> from cr3bp.transfers.nodes import parking_node
+    >>> parking_node("leo", em, "Earth", "200km").altitude_km
+    200.0
+
+    References
+    ----------
+    Vallado, *Fundamentals of Astrodynamics and Applications*, 4th ed., 2013, ch. 6 (from memory).
+    """
     body = _body(system, body)
     alt = units.parse(altitude, "length").si()
     if not alt > 0:
         raise InputError(f"altitude {shown(altitude)} must be positive")
     if inclination is None:
         return ParkingNode(name, system.name, body, alt, None)
-    inc = float(inclination)
-    if not (math.isfinite(inc) and 0.0 <= inc <= 180.0):
-        raise InputError(f"inclination {inc!r} is outside 0..180 degrees")
+    inc = validate.number_in("inclination (degrees)", inclination, 0.0, 180.0)
     return ParkingNode(name, system.name, body, alt, inc)
 
 
@@ -382,13 +673,33 @@ def _body(system, text) -> str:
 
 
 def find_node(nodes, text: str):
-    """The node that ``text`` names: its name, its id, its orbit text, or
-    ``"parking BODY ALTITUDE"`` (e.g. ``"parking earth 200km"``).
+    """The node that ``text`` names: its name, its id, its orbit text, or ``"parking BODY ALTITUDE"``
+    (e.g. ``"parking earth 200km"``).
+
+    Parameters
+    ----------
+    nodes : sequence of nodes
+    text : str
+
+    Returns
+    -------
+    node
 
     Raises
     ------
     InputError
         Nothing matches, or several do (the message lists the names).
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.nodes import ParkingNode, find_node
+    >>> leo = ParkingNode("leo", "earth-moon", "earth", 200.0)
+    >>> find_node([leo], "parking earth 200km").name
+    'leo'
+
+    References
+    ----------
+    Common practice (look-up by name, then by id or description).
     """
     t = normalise(text)
     hits = [n for n in nodes if n.name == text or n.id == text]
@@ -412,10 +723,39 @@ def find_node(nodes, text: str):
 
 
 def node_state(system, node) -> np.ndarray | None:
-    """The rotating-frame state at which legs leave or reach ``node``, when known without
-    computing an orbit: a state node's state, or the point of a parking orbit on the
-    primaries' line on the side away from the other primary (phase 0), moving prograde.
-    Orbit nodes are solved by :func:`cr3bp.transfers.graph.resolve_orbits` (None here)."""
+    """The rotating-frame state at which legs leave or reach ``node``, when known without computing
+    an orbit: a state node's state, or the point of a parking orbit on the primaries' line on the
+    side away from the other primary (phase 0), moving prograde (circular speed in the inertial
+    frame, minus the frame's rotation). Orbit nodes are solved by
+    :func:`cr3bp.transfers.graph.resolve_orbits` (None here).
+
+    Parameters
+    ----------
+    system : System
+    node : node
+
+    Returns
+    -------
+    ndarray (6,) or None
+
+    Raises
+    ------
+    ValueError
+        A parking node whose body is not a primary of ``system``.
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> em = system("earth-moon")
+    >>> from cr3bp.transfers.nodes import StateNode, node_state
+    >>> node_state(em, StateNode("gate", "earth-moon", (0.8, 0, 0, 0, 0.35, 0))).tolist()
+    [0.8, 0.0, 0.0, 0.0, 0.35, 0.0]
+
+    References
+    ----------
+    The rotating frame's velocity transformation (v_rot = v_in - omega x r): Szebehely, *Theory of
+    Orbits*, 1967, ch. 1 (from memory).
+    """
     if isinstance(node, StateNode):
         return np.array(node.state, dtype=float)
     if isinstance(node, ParkingNode):

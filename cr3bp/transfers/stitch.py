@@ -31,7 +31,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from ..dynamics import acceleration, jacobi
 from ..errors import ConvergenceError, InputError, NoSolutionError
+from ..integrate import propagate, propagate_batch
+from .leg import Leg, Maneuver
 
 NEWTON_ITERATIONS = 25
 # Tolerances in physical units, the same in every system (in LU they were 4 mm in Earth-Moon
@@ -50,22 +53,74 @@ RTOL = ATOL = 1e-12
 
 @dataclass(frozen=True)
 class StitchedRoute:
-    """One continuous trajectory along a route, with its maneuver table.
+    """One continuous trajectory along a route, with its maneuver table (what :func:`stitch_route`
+    returns; CR3BP, rotating frame).
 
-    Attributes
+    Parameters
     ----------
-    times_tu : ndarray (n,)      time since the route's start (a maneuver time appears twice:
-                                 before and after the impulse)
-    states : ndarray (n, 6)      rotating frame, LU and LU/TU
-    segment : ndarray (n,)       shooting segment of each sample
-    maneuvers : tuple of dict    ``t_days``, ``node``, ``position_lu``, ``position_km``,
-                                 ``dv_vector_mps`` (rotating frame), ``dv_mps``
-    dv_total_mps, tof_days       of the stitched trajectory
-    legs_dv_total_mps, legs_tof_days   the route's legs as computed separately
-    continuity_lu : float        largest position jump at any segment boundary
-    constraints : dict           name -> {"value", "limit", "holds"}
-    optimised : bool             step 2 ran to its end (see ``note``: whether it lowered the
-                                 total, or why it did not run: no free direction, or stopped)
+    system : System
+    nodes : tuple of str
+        The names of the nodes it passes, in order (a node met twice, around a phasing coast,
+        appears twice).
+    times_tu : ndarray (n,)
+        Time since the route's start (a maneuver time appears twice: before and after the impulse).
+    states : ndarray (n, 6)
+        Rotating frame, LU and LU/TU.
+    segment : ndarray (n,)
+        Shooting segment of each sample.
+    maneuvers : tuple of dict
+        ``t_days``, ``node``, ``name``, ``trim``, ``position_lu``, ``position_km``,
+        ``dv_vector_mps`` (rotating frame), ``dv_mps``, ``jacobi_before``, ``jacobi_after``.
+    dv_total_mps, tof_days : float
+        Of the stitched trajectory.
+    legs_dv_total_mps, legs_tof_days : float
+        The route's legs as computed separately.
+    continuity_lu : float
+        Largest position jump at any segment boundary.
+    min_altitude_km : float
+        Lowest altitude over either primary.
+    constraints : dict
+        Name -> ``{"value", "limit", "holds"}``.
+    optimised : bool
+        Step 2 ran to its end (see ``note``: whether it lowered the total, or why it did not run).
+    note : str
+    iterations : dict
+        Newton and optimiser iterations, function evaluations.
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> from cr3bp.transfers.graph import build_graph
+    >>> from cr3bp.transfers.search import best_routes
+    >>> em = system("earth-moon")
+    >>> nodes = parse_nodes('''
+    ... system = "earth-moon"
+    ... [settings]
+    ... tof = "3d"
+    ... patches = 2
+    ... [[node]]
+    ... name = "a"
+    ... kind = "state"
+    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
+    ... [[node]]
+    ... name = "b"
+    ... kind = "state"
+    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
+    ... ''', em)
+    >>> built = build_graph(em, nodes, workers=1)
+    >>> a, b = (n.id for n in nodes.nodes)
+    >>> route = best_routes(built.graph, a, b)[0]
+    >>> from cr3bp.transfers.stitch import stitch_route
+    >>> st = stitch_route(em, route, optimise=False)
+    >>> st.nodes, st.continuity_lu < 1e-9
+    (('a', 'b'), True)
+
+    References
+    ----------
+    Betts, *Practical Methods for Optimal Control and Estimation Using Nonlinear Programming*,
+    2nd ed., SIAM, 2010, ch. 4 (multiple shooting); Pavlak & Howell, "Strategy for optimal,
+    long-duration trajectories in the Earth-Moon system", AAS 11-515, 2011 (both from memory).
     """
 
     system: object
@@ -92,7 +147,7 @@ class StitchedRoute:
     def to_plotly(self, orbits=()):
         """A rotatable 3-D plotly figure of the trajectory, its maneuvers and the ``orbits`` it
         joins (rotating frame, CR3BP, caution in the title); needs plotly."""
-        from ..plotting.interactive import route_figure
+        from ..plotting.interactive import route_figure   # lazy: heavy library (plotly)
         return route_figure(self, orbits)
 
     def to_dict(self) -> dict:
@@ -106,7 +161,26 @@ class StitchedRoute:
 
 
 class PhasingError(NoSolutionError):
-    """Two legs of a route meet a node at different places (different phases of an orbit)."""
+    """Two legs of a route meet a node at different places (different phases of an orbit) and no
+    phasing coast can be laid (the orbit's period is unknown).
+
+    Parameters
+    ----------
+    *args
+        The message, as for any exception.
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.stitch import PhasingError
+    >>> from cr3bp.errors import NoSolutionError
+    >>> issubclass(PhasingError, NoSolutionError)
+    True
+
+    References
+    ----------
+    Phasing along a periodic orbit between arrival and departure: Koon, Lo, Marsden & Ross,
+    *Dynamical Systems, the Three-Body Problem and Space Mission Design*, 2011, ch. 7 (from memory).
+    """
 
 
 class _Problem:
@@ -119,36 +193,36 @@ class _Problem:
         self.junction = {}            # boundary index k (between segment k and k+1) -> node position
         self.inner_burn = set()       # boundaries inside a leg where it declares a maneuver
         self.start_burn = _has_burn(legs[0], 0.0)
-        self.end_burn = _has_burn(legs[-1], legs[-1]["tof_tu"])
+        self.end_burn = _has_burn(legs[-1], legs[-1].tof)
         for i, leg in enumerate(legs):
-            times = list(leg["patch_times"]) + [leg["tof_tu"]]
-            for j, st in enumerate(leg["patch_states"]):
+            times = [float(t) for t in leg.patch_times] + [float(leg.tof)]
+            for j, st in enumerate(leg.patch_states):
                 self.tau0.append(times[j + 1] - times[j])
                 self.leg_of.append(i)
                 x0.append(st)
-            inner = [m["t"] for m in leg.get("maneuvers", []) if 0.0 < m["t"] < leg["tof_tu"]]
+            inner = [m.t for m in leg.maneuvers if 0.0 < m.t < leg.tof]
             for tm in inner:
                 hit = [j for j in range(1, len(times) - 1) if abs(times[j] - tm) <= 1e-9 * max(1.0, tm)]
                 if not hit:
-                    raise InputError(f"leg {leg.get('from_name', i)}: a maneuver at t = {tm:.6g} TU is not "
+                    raise InputError(f"leg {leg.origin or i}: a maneuver at t = {tm:.6g} TU is not "
                                      "at a patch point")
-                self.inner_burn.add(len(self.tau0) - len(leg["patch_states"]) + hit[0] - 1)
+                self.inner_burn.add(len(self.tau0) - len(leg.patch_states) + hit[0] - 1)
             if i + 1 < len(legs):
-                gap = float(np.linalg.norm(np.array(leg["arrival_state"][:3]) -
-                                           np.array(legs[i + 1]["departure_state"][:3])))
+                gap = float(np.linalg.norm(np.array(leg.arrival_state[:3]) -
+                                           np.array(legs[i + 1].departure_state[:3])))
                 if gap > JUNCTION_GAP:
                     raise PhasingError(f"legs {i + 1} and {i + 2} meet {gap:.3g} LU apart at "
-                                     f"'{leg.get('to_name', '')}' (different phases of the orbit); "
+                                     f"'{leg.target}' (different phases of the orbit); "
                                      "stitching with phasing along an orbit is not available yet")
                 self.junction[len(self.tau0) - 1] = (
-                    np.array(leg["arrival_state"][:3]),
-                    _has_burn(leg, leg["tof_tu"]) or _has_burn(legs[i + 1], 0.0))
+                    np.array(leg.arrival_state[:3]),
+                    _has_burn(leg, leg.tof) or _has_burn(legs[i + 1], 0.0))
         self.K, self.L = len(self.tau0), len(legs)
         self.tau0 = np.array(self.tau0)
         self.leg_of = np.array(self.leg_of)
         self.z0 = np.concatenate([np.ravel(x0), np.ones(self.L)])
-        self.s_start = np.array(legs[0]["departure_state"])
-        self.s_end = np.array(legs[-1]["arrival_state"])
+        self.s_start = np.array(legs[0].departure_state)
+        self.s_end = np.array(legs[-1].arrival_state)
         self._cache_key = None
         self.evaluations = 0
         # Without a burn at the route's end (a manifold arrival) the end state is held whole:
@@ -178,8 +252,6 @@ class _Problem:
         key = z.tobytes()
         if key == self._cache_key:
             return self._cache
-        from ..dynamics import acceleration
-        from ..integrate import propagate_batch
         X = z[:6 * self.K].reshape(self.K, 6)
         tau = self.tau0 * z[6 * self.K:][self.leg_of]
         # every segment with its STM in one compiled batch (no Python loop over segments)
@@ -289,7 +361,7 @@ class _Problem:
 
 
 def _has_burn(leg, t) -> bool:
-    return any(abs(m["t"] - t) <= 1e-12 * max(1.0, abs(t)) for m in leg.get("maneuvers", []))
+    return any(abs(m.t - t) <= 1e-12 * max(1.0, abs(t)) for m in leg.maneuvers)
 
 
 def _newton(problem, z):
@@ -327,23 +399,78 @@ PHASING_SAMPLES = 4000    # samples of one period when looking for the departure
 PHASING_PATCHES = 6       # shooting segments of a phasing coast
 
 
-def phasing_coast(system, arriving: dict, leaving: dict, period_tu: float, patches: int = PHASING_PATCHES) -> dict:
+def phasing_coast(system, arriving: Leg, leaving: Leg, period_tu: float, patches: int = PHASING_PATCHES) -> Leg:
     """A coast along an orbit from where ``arriving`` ends to where ``leaving`` starts.
 
     Two legs may meet an orbit at different phases (e.g. a manifold arrival and a departure
     toward the next orbit). The coast propagates from the arrival state for the time ``tau`` in
     (0, 1.2 T] that brings it closest to the departure position (found on a dense sampling of
     the coast and refined by bounded scalar minimisation, scipy's ``minimize_scalar``), and
-    declares impulses at both ends (zero as laid) so that the multiple shooting, which holds
-    junctions at the node's position, can close the remaining gap and then minimise their sum. This is the "stay" edge of the transfer graph, made concrete.
-    """
-    from scipy.optimize import minimize_scalar
+    declares impulses at both ends (zero at the start as laid) so that the multiple shooting,
+    which holds junctions at the node's position, can close the remaining gap and then minimise
+    their sum. This is the "stay" edge of the transfer graph, made concrete.
 
-    from ..integrate import propagate
-    a = np.asarray(arriving["arrival_state"], dtype=float)
-    d = np.asarray(leaving["departure_state"], dtype=float)
+    Parameters
+    ----------
+    system : System
+    arriving, leaving : cr3bp.transfers.leg.Leg
+        In shooting form; the coast joins ``arriving.arrival_state`` to ``leaving.departure_state``.
+    period_tu : float
+        The orbit's period, TU.
+    patches : int
+        Shooting segments of the coast.
+
+    Returns
+    -------
+    cr3bp.transfers.leg.Leg
+        Solver "stay", kind "phasing", in shooting form.
+
+    Raises
+    ------
+    PhasingError
+        The period is unknown (zero or None).
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> from cr3bp.transfers.graph import build_graph
+    >>> from cr3bp.transfers.search import best_routes
+    >>> em = system("earth-moon")
+    >>> nodes = parse_nodes('''
+    ... system = "earth-moon"
+    ... [settings]
+    ... tof = "3d"
+    ... patches = 2
+    ... [[node]]
+    ... name = "a"
+    ... kind = "state"
+    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
+    ... [[node]]
+    ... name = "b"
+    ... kind = "state"
+    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
+    ... ''', em)
+    >>> built = build_graph(em, nodes, workers=1)
+    >>> a, b = (n.id for n in nodes.nodes)
+    >>> route = best_routes(built.graph, a, b)[0]
+    >>> from cr3bp.transfers.stitch import phasing_coast
+    >>> there, back = built.legs
+    >>> coast = phasing_coast(em, there, back, 2.0)
+    >>> coast.kind, coast.solver, len(coast.patch_states)
+    ('phasing', 'stay', 6)
+
+    References
+    ----------
+    Brent, *Algorithms for Minimization without Derivatives*, 1973, ch. 5 (the bounded scalar
+    minimiser); Koon, Lo, Marsden & Ross, 2011, ch. 7 (coasting along an orbit between legs)
+    (both from memory).
+    """
+    from scipy.optimize import minimize_scalar   # lazy: heavy library
+    a = np.asarray(arriving.arrival_state, dtype=float)
+    d = np.asarray(leaving.departure_state, dtype=float)
     if not (period_tu and period_tu > 0):
-        raise PhasingError(f"legs meet '{arriving.get('to_name', '')}' at different phases and its period "
+        raise PhasingError(f"legs meet '{arriving.target}' at different phases and its period "
                            "is unknown, so no phasing coast can be laid")
     horizon = 1.2 * float(period_tu)
     t = np.linspace(0.0, horizon, PHASING_SAMPLES)
@@ -361,50 +488,102 @@ def phasing_coast(system, arriving: dict, leaving: dict, period_tu: float, patch
     path = propagate(system, a, tau, rtol=RTOL, atol=ATOL, t_eval=te)
     end = path.states[-1]
     dv = d[3:] - end[3:]
-    name = arriving.get("to_name", arriving.get("to", ""))
-    return {"format": 1, "method": "stay", "how": "phasing coast along the orbit", "kind": "phasing",
-            "from": arriving.get("to"), "to": leaving.get("from"), "from_name": name,
-            "to_name": leaving.get("from_name", name),
-            "dv_mps": float(system.mps(np.linalg.norm(dv))), "tof_tu": tau, "tof_days": float(system.days(tau)),
-            # impulses allowed at both ends (zero at the start as laid): with the junction
-            # positions held at the node, a coast without them would be over-determined
-            "maneuvers": [{"t": 0.0, "position": a[:3].tolist(), "dv_vector": [0.0, 0.0, 0.0], "dv_mps": 0.0,
-                           "where": "departure"},
-                          {"t": tau, "position": end[:3].tolist(), "dv_vector": dv.tolist(),
-                           "dv_mps": float(system.mps(np.linalg.norm(dv))), "where": "arrival"}],
-            "departure_state": a.tolist(), "arrival_state": d.tolist(),
-            "patch_times": te[:-1].tolist(), "patch_states": path.states[:-1].tolist(),
-            "final_state": end.tolist(), "min_altitude_km": float("inf"), "details": {"gap_lu": gap(tau)}}
+    name = arriving.target or (arriving.to_id or "")
+    dv_mps = float(system.mps(np.linalg.norm(dv)))
+    # impulses allowed at both ends (zero at the start as laid): with the junction
+    # positions held at the node, a coast without them would be over-determined
+    mans = (Maneuver(0.0, a[:3].copy(), np.zeros(3), 0.0, "departure"),
+            Maneuver(tau, end[:3].copy(), dv, dv_mps, "arrival"))
+    return Leg(system, name, leaving.origin or name, mans, dv_mps, tau, None, ((0.0, a, tau),),
+               "phasing coast along the orbit", kind="phasing", min_altitude_km=float("inf"),
+               details={"gap_lu": gap(tau)}, solver="stay", patch_times=te[:-1].copy(),
+               patch_states=path.states[:-1].copy(), departure_state=a, arrival_state=d, final_state=end.copy(),
+               from_id=arriving.to_id, to_id=leaving.from_id)
 
 
 def with_phasing(system, legs: list, periods: dict | None) -> list:
     """``legs`` with a :func:`phasing_coast` wherever two consecutive legs meet an orbit node at
-    different phases (``periods``: node id -> period in TU)."""
+    different phases.
+
+    Parameters
+    ----------
+    system : System
+    legs : list of cr3bp.transfers.leg.Leg
+        In shooting form, in route order.
+    periods : dict or None
+        Orbit node id -> period (TU); legs meeting elsewhere than at such a node are left as
+        they are.
+
+    Returns
+    -------
+    list of cr3bp.transfers.leg.Leg
+
+    Raises
+    ------
+    PhasingError
+        A period is zero.
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> from cr3bp.transfers.graph import build_graph
+    >>> from cr3bp.transfers.search import best_routes
+    >>> em = system("earth-moon")
+    >>> nodes = parse_nodes('''
+    ... system = "earth-moon"
+    ... [settings]
+    ... tof = "3d"
+    ... patches = 2
+    ... [[node]]
+    ... name = "a"
+    ... kind = "state"
+    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
+    ... [[node]]
+    ... name = "b"
+    ... kind = "state"
+    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
+    ... ''', em)
+    >>> built = build_graph(em, nodes, workers=1)
+    >>> a, b = (n.id for n in nodes.nodes)
+    >>> route = best_routes(built.graph, a, b)[0]
+    >>> from cr3bp.transfers.stitch import with_phasing
+    >>> len(with_phasing(em, list(route.legs), None))
+    1
+
+    References
+    ----------
+    See :func:`phasing_coast`.
+    """
     out = [legs[0]]
     for nxt in legs[1:]:
         prev = out[-1]
-        gap = float(np.linalg.norm(np.asarray(prev["arrival_state"][:3]) - np.asarray(nxt["departure_state"][:3])))
-        if gap > JUNCTION_GAP and periods and prev.get("to") in periods:
-            out.append(phasing_coast(system, prev, nxt, periods[prev["to"]]))
+        gap = float(np.linalg.norm(np.asarray(prev.arrival_state[:3]) - np.asarray(nxt.departure_state[:3])))
+        if gap > JUNCTION_GAP and periods and prev.to_id in periods:
+            out.append(phasing_coast(system, prev, nxt, periods[prev.to_id]))
         out.append(nxt)
     return out
 
 
 def stitch_route(system, route, constraints=None, optimise=True, max_iterations=60,
                  periods: dict | None = None) -> StitchedRoute:
-    """Stitch ``route`` (a :class:`cr3bp.transfers.search.Route` whose edges carry ``leg`` dicts, or a
-    list of leg dicts) into one continuous trajectory with re-minimised total Δv.
+    """Stitch ``route`` into one continuous trajectory with re-minimised total Δv.
 
     Parameters
     ----------
     system : System
-    route : Route or list of dict
-    constraints : cr3bp.transfers.search.Constraints, optional   reported as held or not
-    optimise : bool                step 2 (SLSQP) on or off
-    max_iterations : int           SLSQP iterations
-    periods : dict, optional       orbit node id -> period (TU): where two legs meet an orbit at
-                                   different phases, a coast along it is laid between them
-                                   (:func:`phasing_coast`) instead of refusing the route
+    route : Route, or list of cr3bp.transfers.leg.Leg (or of leg records)
+        A :class:`cr3bp.transfers.search.Route`, or legs in shooting form; leg records are read
+        with :meth:`cr3bp.transfers.leg.Leg.from_record`.
+    constraints : cr3bp.transfers.search.Constraints, optional
+        Reported as held or not.
+    optimise : bool
+        Step 2 (SLSQP) on or off.
+    max_iterations : int
+        SLSQP iterations.
+    periods : dict, optional
+        Orbit node id -> period (TU): where two legs meet an orbit at different phases, a coast
+        along it is laid between them (:func:`phasing_coast`) instead of refusing the route.
 
     Returns
     -------
@@ -412,15 +591,58 @@ def stitch_route(system, route, constraints=None, optimise=True, max_iterations=
 
     Raises
     ------
+    InputError
+        No legs, a leg without patch points, or a maneuver off the patch points.
+    RecordError
+        A leg record lacks a key or holds a bad value.
+    PhasingError
+        Legs meet an orbit at different phases and no period is known.
     ConvergenceError
         Continuity cannot be reached (carries iterations and residuals).
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> from cr3bp.transfers.graph import build_graph
+    >>> from cr3bp.transfers.search import best_routes
+    >>> em = system("earth-moon")
+    >>> nodes = parse_nodes('''
+    ... system = "earth-moon"
+    ... [settings]
+    ... tof = "3d"
+    ... patches = 2
+    ... [[node]]
+    ... name = "a"
+    ... kind = "state"
+    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
+    ... [[node]]
+    ... name = "b"
+    ... kind = "state"
+    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
+    ... ''', em)
+    >>> built = build_graph(em, nodes, workers=1)
+    >>> a, b = (n.id for n in nodes.nodes)
+    >>> route = best_routes(built.graph, a, b)[0]
+    >>> from cr3bp.transfers.stitch import stitch_route
+    >>> st = stitch_route(em, route)
+    >>> st.dv_total_mps <= st.legs_dv_total_mps + 1e-6, st.continuity_lu < 1e-9
+    (True, True)
+
+    References
+    ----------
+    Betts, *Practical Methods for Optimal Control and Estimation Using Nonlinear Programming*,
+    2nd ed., SIAM, 2010, ch. 4 (multiple shooting); Pavlak & Howell, "Strategy for optimal,
+    long-duration trajectories in the Earth-Moon system", AAS 11-515, 2011 (both from memory). Kraft, "A software package for sequential quadratic programming",
+    DFVLR-FB 88-28, 1988 (SLSQP).
     """
-    legs = [d["leg"] if "leg" in d else d for d in getattr(route, "legs", route)]
+    legs = [leg if isinstance(leg, Leg) else Leg.from_record(leg, system) for leg in getattr(route, "legs", route)]
     if not legs:
         raise InputError("a route to stitch needs at least one leg")
     for leg in legs:
-        if "patch_states" not in leg:
-            raise InputError(f"leg {leg.get('from')} -> {leg.get('to')} carries no patch points to stitch")
+        if not leg.in_shooting_form:
+            raise InputError(f"leg {leg.origin or leg.from_id} -> {leg.target or leg.to_id} carries no patch "
+                             "points to stitch")
     legs = with_phasing(system, legs, periods)
     p = _Problem(system, legs)
     T0 = p.total_time(p.z0)
@@ -434,7 +656,7 @@ def stitch_route(system, route, constraints=None, optimise=True, max_iterations=
         note = (f"not optimised: the constraints ({p.rows()} equations on {p.unknowns()} unknowns) leave no "
                 "free direction, so the total Δv is the continuity solution's")
     if optimise and free > 0:
-        from scipy.optimize import minimize
+        from scipy.optimize import minimize   # lazy: heavy library
         lo, hi = TIME_SCALE_BOUNDS
         bounds = [(None, None)] * (6 * p.K) + [(lo, hi)] * p.L
         cons = [{"type": "eq", "fun": lambda q: p.constraints(q)[0], "jac": lambda q: p.constraints(q)[1]},
@@ -464,8 +686,6 @@ def stitch_route(system, route, constraints=None, optimise=True, max_iterations=
 
 
 def _result(system, p, z, legs, constraints, optimised, note, iterations):
-    from ..dynamics import jacobi
-    from ..integrate import propagate
     F, _ = p.constraints(z)
     X, tau, E, _, _ = p.segments(z)
     starts = np.concatenate([[0.0], np.cumsum(tau)])
@@ -485,7 +705,7 @@ def _result(system, p, z, legs, constraints, optimised, note, iterations):
         raise ConvergenceError(f"stitched trajectory has a position jump of {cont * system.length_km * 1e3:.3g} m "
                                f"(limit {CONTINUITY_LIMIT_M:g} m)", 0, [cont], z)
     times, states, seg = np.concatenate(times), np.concatenate(states), np.concatenate(seg)
-    names = [legs[0]["from_name"]] + [leg["to_name"] for leg in legs]
+    names = [legs[0].origin] + [leg.target for leg in legs]
     boundary_node = {-1: names[0], p.K - 1: names[-1]}
     for k, i in zip(sorted(p.junction), range(1, len(names) - 1)):
         boundary_node[k] = names[i]
@@ -518,14 +738,42 @@ def _result(system, p, z, legs, constraints, optimised, note, iterations):
                 holds = value >= limit if name == "min_altitude_km" else value <= limit
                 checks[name] = {"value": value, "limit": limit, "holds": bool(holds)}
     return StitchedRoute(system, tuple(names), times, states, seg, tuple(man), dv_total, tof_days,
-                         float(sum(leg["dv_mps"] for leg in legs)), float(sum(leg["tof_days"] for leg in legs)),
+                         float(sum(leg.dv_mps for leg in legs)), float(sum(leg.tof_days for leg in legs)),
                          cont, float(alt), checks, optimised, note, iterations)
 
 
 def maneuver_name(k: int, n_segments: int, junction: bool) -> str:
     """What a burn of a stitched route is, by where it sits: ``departure`` (the route's start),
     ``insertion`` (its end), ``junction`` (where two legs meet at a node), ``correction`` (a
-    patch point inside a leg)."""
+    patch point inside a leg).
+
+    Parameters
+    ----------
+    k : int
+        Boundary index (-1: the route's start; ``k``: after shooting segment ``k``).
+    n_segments : int
+        Shooting segments of the route.
+    junction : bool
+        The boundary is a node between two legs.
+
+    Returns
+    -------
+    str
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.stitch import maneuver_name
+    >>> [maneuver_name(k, 4, k == 1) for k in (-1, 0, 1, 3)]
+    ['departure', 'correction', 'junction', 'insertion']
+
+    References
+    ----------
+    Common practice (naming impulses by their place on a transfer).
+    """
     if k == -1:
         return "departure"
     if k == n_segments - 1:

@@ -8,8 +8,9 @@ Systems, the Three-Body Problem and Space Mission Design*, 2011, §4.6 "differen
 from memory). The leg costs the impulse at departure plus the one at arrival that matches the
 arrival node's velocity. Manifold legs come from :mod:`cr3bp.tubes.connections`.
 
-Everything returned is a leg record (:data:`cr3bp.transfers.leg.RECORD_KEYS`: floats and lists) so that a leg can cross a process
-boundary, go into the catalogue as JSON and come back byte for byte.
+A targeted leg is a :class:`cr3bp.transfers.leg.Leg` in shooting form; its record
+(:meth:`cr3bp.transfers.leg.Leg.record`: floats and lists) crosses a process boundary, goes
+into the catalogue as JSON and comes back byte for byte.
 """
 
 from __future__ import annotations
@@ -19,7 +20,8 @@ import math
 import numpy as np
 
 from ..errors import ConvergenceError
-from .leg import LEG_FORMAT
+from ..integrate import impact, propagate
+from .leg import LEG_FORMAT, Leg, Maneuver
 
 #: Newton iterations on the departure velocity before giving up.
 MAX_ITERATIONS = 30
@@ -28,27 +30,62 @@ POSITION_TOL = 1e-11
 #: Largest Newton step in velocity, LU/TU (damping far from the solution).
 MAX_STEP = 0.5
 RTOL = ATOL = 1e-12
+#: What a targeted leg's ``method`` (the record's ``how``) says.
+TARGETED_HOW = "two-impulse targeting: departure velocity by Newton's method on the arrival position"
 
 
 def _impacts(system):
-    from ..integrate import impact
     r1, r2 = system.radii
     return [impact(k, r) for k, r in ((0, r1), (1, r2)) if r > 0]
 
 
 def solve_departure(system, r0, v_guess, r1, tof):
-    """Departure velocity that reaches ``r1`` from ``r0`` in ``tof`` (TU).
+    """Departure velocity that reaches ``r1`` from ``r0`` in ``tof`` (single shooting: Newton's
+    method on the arrival position, the position-velocity block of the state transition matrix
+    as its Jacobian, steps capped at ``MAX_STEP``).
+
+    Parameters
+    ----------
+    system : System
+    r0, r1 : ndarray (3,)
+        Departure and arrival positions, LU (rotating frame).
+    v_guess : ndarray (3,)
+        First guess of the departure velocity, LU/TU.
+    tof : float
+        Time of flight, TU.
 
     Returns
     -------
-    v0 : ndarray (3,), iterations : int, residual : float (LU)
+    v0 : ndarray (3,)
+        The departure velocity, LU/TU.
+    iterations : int
+    residual : float
+        Arrival miss, LU (under ``POSITION_TOL``).
 
     Raises
     ------
     ConvergenceError
         No convergence in ``MAX_ITERATIONS``, or the arc strikes a primary.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> em = system("earth-moon")
+    >>> a = np.array([0.80, 0.0, 0.0, 0.0, 0.35, 0.0])
+    >>> b = np.array([0.85, 0.05, 0.0, 0.05, 0.30, 0.0])
+    >>> from cr3bp.transfers.targeting import solve_departure
+    >>> v0, iterations, residual = solve_departure(em, a[:3], a[3:], b[:3], 3.0 / em.time_days)
+    >>> residual < 1e-11
+    True
+
+    References
+    ----------
+    Koon, Lo, Marsden & Ross, *Dynamical Systems, the Three-Body Problem and Space Mission
+    Design*, 2011, §4.6 (differential correction with the state transition matrix; from memory);
+    Bryson & Ho, *Applied Optimal Control*, 1975, ch. 7 (shooting on boundary conditions; from
+    memory).
     """
-    from ..integrate import propagate
     v = np.array(v_guess, dtype=float)
     res = []
     events = _impacts(system)
@@ -72,16 +109,52 @@ def solve_departure(system, r0, v_guess, r1, tof):
                            f"(arrival miss {res[-1] if res else math.nan:.3e} LU)", MAX_ITERATIONS, res, v)
 
 
-def targeted_leg(system, s_from, s_to, tof, patches=4) -> dict:
+def targeted_leg(system, s_from, s_to, tof, patches=4) -> Leg:
     """The two-impulse leg from state ``s_from`` to state ``s_to`` in ``tof`` TU.
 
-    Returns a plain dict: ``dv_mps`` (both impulses), ``tof_days``, ``maneuvers`` (each with
-    ``t`` TU since the leg's start, ``position`` LU, ``dv_vector`` LU/TU in the rotating frame,
-    ``dv_mps``), ``patch_times`` / ``patch_states`` (the arc at ``patches`` evenly spaced
-    times, the start of each shooting segment), ``departure_state`` / ``arrival_state`` (the
-    nodes' states), ``min_altitude_km`` (least altitude over each primary along the arc).
+    Parameters
+    ----------
+    system : System
+    s_from, s_to : array_like (6,)
+        The end nodes' states, LU and LU/TU.
+    tof : float
+        Time of flight, TU.
+    patches : int
+        Shooting segments the arc is cut into.
+
+    Returns
+    -------
+    cr3bp.transfers.leg.Leg
+        In shooting form: ``dv_mps`` (both impulses), ``maneuvers`` (at departure and arrival,
+        rotating-frame Δv vectors in LU/TU), ``patch_times`` / ``patch_states`` (the arc at
+        ``patches`` evenly spaced times), ``departure_state`` / ``arrival_state`` (the nodes'
+        states), ``min_altitude_km`` (least altitude over each primary along the arc), and under
+        ``details`` the altitude over each body, the Newton iterations and the arrival miss (LU).
+
+    Raises
+    ------
+    ConvergenceError
+        The targeting does not converge or the arc strikes a primary.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> em = system("earth-moon")
+    >>> a = np.array([0.80, 0.0, 0.0, 0.0, 0.35, 0.0])
+    >>> b = np.array([0.85, 0.05, 0.0, 0.05, 0.30, 0.0])
+    >>> from cr3bp.transfers.targeting import targeted_leg
+    >>> leg = targeted_leg(em, a, b, 3.0 / em.time_days, patches=3)
+    >>> leg.solver, [m.where for m in leg.maneuvers], leg.patch_states.shape
+    ('targeted', ['departure', 'arrival'], (3, 6))
+
+    References
+    ----------
+    Koon, Lo, Marsden & Ross, *Dynamical Systems, the Three-Body Problem and Space Mission
+    Design*, 2011, §4.6 (differential correction with the state transition matrix; from memory);
+    Bryson & Ho, *Applied Optimal Control*, 1975, ch. 7 (shooting on boundary conditions; from
+    memory).
     """
-    from ..integrate import propagate
     s_from = np.asarray(s_from, dtype=float)
     s_to = np.asarray(s_to, dtype=float)
     v0, iterations, residual = solve_departure(system, s_from[:3], s_from[3:], s_to[:3], tof)
@@ -96,25 +169,13 @@ def targeted_leg(system, s_from, s_to, tof, patches=4) -> dict:
     for k, name in enumerate(system.names):
         d = np.linalg.norm(arc.states[:, :3] - np.array([system.positions[k], 0.0, 0.0]), axis=1).min()
         alts[name.lower()] = float(system.km(d) - system.km(system.radii[k]))
-    return {
-        "format": LEG_FORMAT,
-        "method": "targeted",
-        "dv_mps": float(system.mps(np.linalg.norm(dv1)) + system.mps(np.linalg.norm(dv2))),
-        "tof_days": float(system.days(tof)),
-        "tof_tu": float(tof),
-        "maneuvers": [
-            {"t": 0.0, "position": s_from[:3].tolist(), "dv_vector": dv1.tolist(),
-             "dv_mps": float(system.mps(np.linalg.norm(dv1))), "where": "departure"},
-            {"t": float(tof), "position": end[:3].tolist(), "dv_vector": dv2.tolist(),
-             "dv_mps": float(system.mps(np.linalg.norm(dv2))), "where": "arrival"},
-        ],
-        "departure_state": s_from.tolist(),
-        "arrival_state": s_to.tolist(),
-        "patch_times": times[:-1].tolist(),
-        "patch_states": sampled.states[:-1].tolist(),
-        "final_state": end.tolist(),
-        "min_altitude_km": min(alts.values()) if alts else math.inf,
-        "altitude_km_by_body": alts,
-        "iterations": int(iterations),
-        "arrival_miss_lu": float(residual),
-    }
+    mans = (Maneuver(0.0, s_from[:3].copy(), dv1, float(system.mps(np.linalg.norm(dv1))), "departure"),
+            Maneuver(float(tof), end[:3].copy(), dv2, float(system.mps(np.linalg.norm(dv2))), "arrival"))
+    return Leg(system, "", "", mans, float(system.mps(np.linalg.norm(dv1)) + system.mps(np.linalg.norm(dv2))),
+               float(tof), None, ((0.0, start, float(tof)),), TARGETED_HOW,
+               min_altitude_km=min(alts.values()) if alts else math.inf,
+               details={"altitude_km_by_body": alts, "iterations": int(iterations),
+                        "arrival_miss_lu": float(residual)},
+               solver="targeted", format=LEG_FORMAT, patch_times=times[:-1].copy(),
+               patch_states=sampled.states[:-1].copy(), departure_state=s_from.copy(),
+               arrival_state=s_to.copy(), final_state=end.copy())

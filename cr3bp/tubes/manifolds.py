@@ -288,13 +288,7 @@ def orbit_times(orbit, n_points: int, spacing: str = "time") -> np.ndarray:
 
 
 def _count(n):
-    try:
-        n = int(n)
-    except (TypeError, ValueError):
-        raise InputError(f"number of points {n!r} is not an integer") from None
-    if not 3 <= n <= 100000:
-        raise InputError(f"number of points {n} is outside the allowed range 3..100000")
-    return n
+    return validate.whole_number("number of points", n, 3, 100000)
 
 
 
@@ -1014,9 +1008,7 @@ def orbit_from_state(system, state, period, family="given", point="", branch="",
     True
     """
     s0 = validate.state(system, state)
-    T = validate.finite_time("period", period)
-    if not T > 0:
-        raise InputError(f"period {period!r} must be positive")
+    T = validate.positive_number("period (TU)", validate.finite_time("period", period))
     arc = propagate(system, s0, T, stm=True, rtol=RTOL, atol=ATOL)
     err = float(np.linalg.norm(arc.final_state - s0))
     if err > tolerance:

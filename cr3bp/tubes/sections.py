@@ -49,6 +49,7 @@ from ..errors import InputError, StateError, shown
 from ..integrate import escape, impact, plane, propagate
 from ..integrate.batch import batch
 from ..integrate.events import COORDS
+from .. import validate
 from ..validate import quantity, positive_number, finite_number
 
 KINDS = ("plane", "sphere", "apsis")
@@ -849,8 +850,7 @@ def crossings(system, states, section: Section, t_max: float, count: int = 1, *,
     [1, 2]
     """
     states = np.ascontiguousarray(np.atleast_2d(np.asarray(states, dtype=float)))
-    if count < 1:
-        raise InputError(f"crossing count {count} must be at least 1")
+    count = validate.whole_number("crossing count", count, 1)
     if section.kind == "apsis":
         return apsides(system, states, section, t_max, count, phase=phase, label=label, rtol=rtol,
                        atol=atol)
