@@ -578,7 +578,40 @@ def manifold_may_reach(orbit, body, altitude_km) -> bool:
     inertially, and keep an angular momentum about the Earth that holds their first perigee far
     out (MANIFOLD_EARTH_FLOOR_KM, measured). A parking orbit about the Earth far below that
     floor is out of their reach. Every other case (the Moon, other families, other systems, a
-    high parking orbit) keeps the search."""
+    high parking orbit) keeps the search.
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+        The orbit whose stable or unstable manifold would carry the leg.
+    body : str
+        The primary the parking orbit circles.
+    altitude_km : float
+        The parking orbit's altitude, km.
+
+    Returns
+    -------
+    bool
+        False only for an Earth-Moon halo about L1 or L2 and an Earth parking orbit below
+        ``FLOOR_MARGIN * MANIFOLD_EARTH_FLOOR_KM``.
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from types import SimpleNamespace
+    >>> halo = SimpleNamespace(system=SimpleNamespace(name="earth-moon"), family="halo", point="L2")
+    >>> manifold_may_reach(halo, "earth", 200.0), manifold_may_reach(halo, "moon", 100.0)
+    (False, True)
+
+    References
+    ----------
+    Koon, W. S., Lo, M. W., Marsden, J. E. & Ross, S. D., *Dynamical Systems, the Three-Body
+    Problem and Space Mission Design*, 2011, ch. 4 and 9 (manifold tubes through the necks about
+    L1 and L2; from memory). The floor is this project's measurement (above).
+    """
     s = orbit.system
     if s.name != "earth-moon" or str(body).lower() != "earth":
         return True

@@ -171,7 +171,7 @@ class ParkingNode:
     --------
     >>> from cr3bp.transfers.nodes import ParkingNode
     >>> ParkingNode("leo", "earth-moon", "earth", 200.0).id
-    'parking/earth-moon/earth/200km/0deg'
+    'parking/earth-moon/earth/200km'
 
     References
     ----------
