@@ -46,6 +46,7 @@ MODULES = [
     "cr3bp.catalog",
     "cr3bp.tubes.manifolds",
     "cr3bp.tubes.sections",
+    "cr3bp.tori.circle",
 ]
 
 #: Packages whose every module is checked, found by walking the package (so a module added
