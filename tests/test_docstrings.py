@@ -47,6 +47,7 @@ MODULES = [
     "cr3bp.tubes.manifolds",
     "cr3bp.tubes.sections",
     "cr3bp.tori.circle",
+    "cr3bp.tori.trajectory",
 ]
 
 #: Packages whose every module is checked, found by walking the package (so a module added
