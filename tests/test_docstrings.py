@@ -48,6 +48,7 @@ MODULES = [
     "cr3bp.tubes.sections",
     "cr3bp.tori.circle",
     "cr3bp.tori.trajectory",
+    "cr3bp.validate",
 ]
 
 #: Packages whose every module is checked, found by walking the package (so a module added
