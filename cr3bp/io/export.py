@@ -37,6 +37,8 @@ import math
 from dataclasses import dataclass, field
 from datetime import datetime, timezone
 from pathlib import Path
+from xml.sax.saxutils import escape
+import xml.etree.ElementTree as ET
 
 import numpy as np
 
@@ -46,8 +48,6 @@ from ..cautions import CAUTION, caution_lines
 from ..constants import OBLIQUITY_J2000_ARCSEC
 from ..errors import InputError, shown, NoSolutionError
 from ..vocabulary import EXPORT_FORMATS, INERTIAL_FRAMES
-import xml.etree.ElementTree as ET
-from xml.sax.saxutils import escape
 from .. import validate
 from ..integrate import propagate
 from ..time.scales import leap_second_table, mjd_to_iso_date

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import re
 from pathlib import Path
+import copy
 
 from ..errors import shown
 from .. import vocabulary as words
@@ -18,7 +19,6 @@ from ..io.toml_schema import (B, F, I, MAX_TEXT_CHARS, Q, S, Problem, ScenarioEr
                               check_document, key_parts, line_index, line_of, parse_toml, path_text,
                               read_text)
 from ..io.toml_schema import MAX_FILE_BYTES as MAX_SCENARIO_BYTES  # noqa: F401
-import copy
 #: Names that become parts of file names (orbits, transfers): one plain character set, no
 #: separators, no leading dot or dash, so no name can point outside the output folder.
 NAME_PATTERN = re.compile(r"[A-Za-z0-9][A-Za-z0-9_-]{0,63}")

@@ -5,12 +5,12 @@ stitched) is written as tables and drawn, and whose stitched trajectory the expo
 from __future__ import annotations
 
 import dataclasses
+from types import SimpleNamespace
 
 
 from ..errors import InputError, NoSolutionError
 from .outputs import csv_text, json_text, save_figures, say
 from ..vocabulary import ORBIT_TARGETS
-from types import SimpleNamespace
 from .. import units
 from ..cautions import CAUTION
 from ..io import export

@@ -13,11 +13,11 @@ import math
 
 import numpy as np
 from scipy.optimize import brentq
+from scipy.spatial import cKDTree
 
 from ..errors import InputError
 from ..integrate import propagate
 from .manifolds import ATOL, RTOL
-from scipy.spatial import cKDTree
 
 
 #: Distance from the target orbit's path at which a leg counts as arrived, km (a design choice

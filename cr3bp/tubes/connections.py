@@ -22,6 +22,7 @@ Methods
 from __future__ import annotations
 
 import math
+import dataclasses
 
 import numpy as np
 from scipy.optimize import minimize_scalar
@@ -33,7 +34,6 @@ from ..transfers.leg import Leg, Maneuver, _mps
 from .arrival import arrival_time
 from .manifolds import RTOL, ATOL, Stop, _globalise, grow_tube, manifold_starts
 from .sections import Crossings, Section, hyperplane, parse_section
-import dataclasses
 
 #: Patch tolerance of the refinement (nondimensional, on the matched coordinates).
 PATCH_TOL = 1e-10
