@@ -49,6 +49,8 @@ MODULES = [
     "cr3bp.tori.circle",
     "cr3bp.tori.trajectory",
     "cr3bp.validate",
+    "cr3bp.errors",
+    "cr3bp.cautions",
 ]
 
 #: Packages whose every module is checked, found by walking the package (so a module added
