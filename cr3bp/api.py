@@ -23,11 +23,11 @@ public calls meet the library's module paths (kept here so a module move is fixe
 from __future__ import annotations
 
 import math
+from dataclasses import replace
+from pathlib import Path
 
 from .errors import InputError
 from .vocabulary import TUBE_BRANCHES
-from dataclasses import replace
-from pathlib import Path
 from . import units
 from .systems import System, system as _system
 from .units import length

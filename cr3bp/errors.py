@@ -20,8 +20,35 @@ SHOWN_MAX = 60
 
 
 def shown(text) -> str:
-    """A user's value as it goes into a one-line message: control and other non-printable
-    characters escaped (so no line break sneaks in), long text cut to ``SHOWN_MAX``."""
+    """A user's value as it goes into a one-line message.
+
+    Control and other non-printable characters are escaped (so no line break sneaks in), long
+    text is cut to ``SHOWN_MAX``.
+
+    Parameters
+    ----------
+    text : object
+        The value.
+
+    Returns
+    -------
+    str
+        Printable text.
+
+    Raises
+    ------
+    Exception
+        Whatever ``str(text)`` raises.
+
+    Examples
+    --------
+    >>> print(shown("line one\\nline two"))
+    line one\\nline two
+
+    References
+    ----------
+    Common practice (quoting user input in one-line diagnostics).
+    """
     t = str(text)
     if not t.isprintable():
         t = t.encode("unicode_escape").decode("ascii")
@@ -29,13 +56,47 @@ def shown(text) -> str:
 
 
 class LibrateError(Exception):
-    """Base class of every error librate raises on purpose."""
+    """Base class of every error librate raises on purpose.
+
+    Parameters
+    ----------
+    message : str
+        One line naming the offending value and what is allowed.
+
+    Examples
+    --------
+    >>> issubclass(InputError, LibrateError), LibrateError.exit_status
+    (True, 1)
+
+    References
+    ----------
+    The Python Standard Library documentation, "Built-in Exceptions" (typed exception
+    hierarchies; common practice).
+    """
 
     exit_status = 1
 
 
 class InputError(LibrateError, ValueError):
-    """A value given by the user is malformed or out of the allowed range."""
+    """A value given by the user is malformed or out of the allowed range.
+
+    Parameters
+    ----------
+    message : str
+        One line naming the offending value and what is allowed.
+
+    Examples
+    --------
+    >>> raise InputError("mu 0.7 is not in (0, 0.5]")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: mu 0.7 is not in (0, 0.5]
+
+    References
+    ----------
+    The Python Standard Library documentation, "Built-in Exceptions" (typed exception
+    hierarchies; common practice).
+    """
 
     exit_status = 2
 
@@ -46,33 +107,125 @@ class RecordError(InputError):
 
 
 class UnknownSystemError(InputError, KeyError):
-    """A system name that is not in ``data/systems.toml``."""
+    """A system name that is not in ``data/systems.toml``.
+
+    Parameters
+    ----------
+    message : str
+        One line naming the offending value and what is allowed.
+
+    Examples
+    --------
+    >>> str(UnknownSystemError("unknown system 'earth-mars'"))
+    "unknown system 'earth-mars'"
+
+    References
+    ----------
+    The Python Standard Library documentation, "Built-in Exceptions" (typed exception
+    hierarchies; common practice).
+    """
 
     def __str__(self):  # KeyError would otherwise quote the message
         return self.args[0] if self.args else ""
 
 
 class UnitError(InputError):
-    """A quantity whose unit the parser does not know or that has the wrong dimension."""
+    """A quantity whose unit the parser does not know or that has the wrong dimension.
+
+    Parameters
+    ----------
+    message : str
+        One line naming the offending value and what is allowed.
+
+    Examples
+    --------
+    >>> issubclass(UnitError, InputError)
+    True
+
+    References
+    ----------
+    The Python Standard Library documentation, "Built-in Exceptions" (typed exception
+    hierarchies; common practice).
+    """
 
 
 class StateError(InputError):
-    """A state vector that is malformed, non-finite or inside a primary."""
+    """A state vector that is malformed, non-finite or inside a primary.
+
+    Parameters
+    ----------
+    message : str
+        One line naming the offending value and what is allowed.
+
+    Examples
+    --------
+    >>> issubclass(StateError, InputError)
+    True
+
+    References
+    ----------
+    The Python Standard Library documentation, "Built-in Exceptions" (typed exception
+    hierarchies; common practice).
+    """
 
 
 class EphemerisSpanError(InputError):
-    """An epoch outside the span of the ephemeris asked for (JPL DE421: 1899-07-29 to
-    2053-10-09 TDB); the message names the epoch, the body and the span."""
+    """An epoch outside the span of the ephemeris asked for.
+
+    JPL DE421: 1899-07-29 to 2053-10-09 TDB; the message names the epoch, the body and the span.
+
+    Parameters
+    ----------
+    message : str
+        One line naming the offending value and what is allowed.
+
+    Examples
+    --------
+    >>> issubclass(EphemerisSpanError, InputError), EphemerisSpanError.exit_status
+    (True, 2)
+
+    References
+    ----------
+    The Python Standard Library documentation, "Built-in Exceptions" (typed exception
+    hierarchies; common practice).
+    """
 
 
 class NoSolutionError(LibrateError):
-    """The request is well formed but nothing satisfies it (e.g. a target beyond a family's end)."""
+    """The request is well formed but nothing satisfies it (e.g. a target beyond a family's end).
+
+    Parameters
+    ----------
+    message : str
+        One line naming the offending value and what is allowed.
+
+    Examples
+    --------
+    >>> NoSolutionError.exit_status
+    3
+
+    References
+    ----------
+    The Python Standard Library documentation, "Built-in Exceptions" (typed exception
+    hierarchies; common practice).
+    """
 
     exit_status = 3
 
 
 class ConvergenceError(LibrateError):
     """An iterative correction did not converge. Carries its diagnostics.
+
+    Parameters
+    ----------
+    message : str
+        One line saying what did not converge.
+    iterations : int, optional
+        Iterations performed.
+    residuals : sequence of float, optional
+        Residual norm after each iteration.
+    last : object, optional
+        The last iterate (e.g. a state vector), for inspection.
 
     Attributes
     ----------
@@ -81,7 +234,18 @@ class ConvergenceError(LibrateError):
     residuals : list of float
         Residual norm after each iteration.
     last : object
-        The last iterate (e.g. a state vector), for inspection.
+        The last iterate, for inspection.
+
+    Examples
+    --------
+    >>> e = ConvergenceError("no convergence", 3, [1e-3, 1e-5, 1e-6])
+    >>> e.iterations, e.residuals[-1], e.exit_status
+    (3, 1e-06, 4)
+
+    References
+    ----------
+    The Python Standard Library documentation, "Built-in Exceptions" (typed exception
+    hierarchies; common practice).
     """
 
     exit_status = 4
@@ -94,7 +258,24 @@ class ConvergenceError(LibrateError):
 
 
 class OutputError(LibrateError):
-    """A result could not be written part-way through (disk full, an I/O error); what was
-    being written is removed, so no partial output is left."""
+    """A result could not be written part-way through (disk full, an I/O error).
+
+    What was being written is removed, so no partial output is left.
+
+    Parameters
+    ----------
+    message : str
+        One line naming the offending value and what is allowed.
+
+    Examples
+    --------
+    >>> OutputError.exit_status
+    1
+
+    References
+    ----------
+    The Python Standard Library documentation, "Built-in Exceptions" (typed exception
+    hierarchies; common practice).
+    """
 
     exit_status = 1

@@ -12,19 +12,47 @@ from __future__ import annotations
 import math
 import os
 import re
+from datetime import datetime
+from pathlib import Path
 
 import numpy as np
 
-from .errors import InputError, StateError, shown, UnitError
-from datetime import datetime
-from pathlib import Path
 from . import units
+from .errors import InputError, StateError, shown, UnitError
 
 RTOL_RANGE = (1e-14, 1e-3)
 
 
 def tolerance(name: str, value) -> float:
-    """An integration tolerance in [1e-14, 1e-3]."""
+    """An integration tolerance in [1e-14, 1e-3].
+
+    Parameters
+    ----------
+    name : str
+        What the value is, for the refusal.
+    value : float or str
+        The tolerance.
+
+    Returns
+    -------
+    float
+        The tolerance.
+
+    Raises
+    ------
+    InputError
+        Not a number in the range.
+
+    Examples
+    --------
+    >>> tolerance("--rtol", "1e-10")
+    1e-10
+
+    References
+    ----------
+    Hairer, E., Nørsett, S. P. & Wanner, G., "Solving Ordinary Differential Equations I",
+    2nd ed., Springer (1993), sec. II.4 (tolerances of embedded methods).
+    """
     lo, hi = RTOL_RANGE
     try:
         v = float(value)
@@ -36,6 +64,34 @@ def tolerance(name: str, value) -> float:
 
 
 def finite_time(name: str, value) -> float:
+    """A finite number (a time, TU; negative values run backward).
+
+    Parameters
+    ----------
+    name : str
+        What the value is, for the refusal.
+    value : float or str
+        The time.
+
+    Returns
+    -------
+    float
+        The time.
+
+    Raises
+    ------
+    InputError
+        Not a finite number.
+
+    Examples
+    --------
+    >>> finite_time("--time", "-2.5")
+    -2.5
+
+    References
+    ----------
+    IEEE Std 754-2019, "Standard for Floating-Point Arithmetic" (finite values).
+    """
     try:
         v = float(value)
     except (TypeError, ValueError):
@@ -46,7 +102,39 @@ def finite_time(name: str, value) -> float:
 
 
 def state(system, value, name: str = "state", allow_inside: bool = False) -> np.ndarray:
-    """A finite 6-vector (nondimensional) not inside either primary's mean radius."""
+    """A finite 6-vector (nondimensional) not inside either primary's mean radius.
+
+    Parameters
+    ----------
+    system : System
+        The system (its primaries' radii).
+    value : array_like
+        Six numbers x, y, z, vx, vy, vz.
+    name : str, optional
+        What the value is, for the refusal.
+    allow_inside : bool, optional
+        Skip the check against the primaries' radii.
+
+    Returns
+    -------
+    numpy.ndarray, shape (6,)
+        The state.
+
+    Raises
+    ------
+    StateError
+        Not six finite numbers, or inside a primary.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> state(system("earth-moon"), [0.8, 0, 0, 0, 0.1, 0]).tolist()
+    [0.8, 0.0, 0.0, 0.0, 0.1, 0.0]
+
+    References
+    ----------
+    Szebehely, V., "Theory of Orbits", Academic Press (1967) (the rotating frame and its units).
+    """
     try:
         s = np.asarray(value, dtype=float)
     except (TypeError, ValueError):
@@ -61,7 +149,37 @@ def state(system, value, name: str = "state", allow_inside: bool = False) -> np.
 
 
 def states(system, value, name: str = "states") -> np.ndarray:
-    """A finite (N, 6) array of states outside both primaries."""
+    """A finite (N, 6) array of states outside both primaries.
+
+    Parameters
+    ----------
+    system : System
+        The system.
+    value : array_like
+        The states.
+    name : str, optional
+        What the value is, for the refusal.
+
+    Returns
+    -------
+    numpy.ndarray, shape (N, 6)
+        The states.
+
+    Raises
+    ------
+    StateError
+        Not (N, 6) finite numbers, or a state inside a primary.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> states(system("earth-moon"), [[0.8, 0, 0, 0, 0.1, 0]]).shape
+    (1, 6)
+
+    References
+    ----------
+    Szebehely, V., "Theory of Orbits", Academic Press (1967).
+    """
     try:
         s = np.asarray(value, dtype=float)
     except (TypeError, ValueError):
@@ -109,7 +227,34 @@ def _show(text) -> str:
 
 
 def finite_number(name: str, text) -> float:
-    """A finite float (``nan``, ``inf``, ``1e999`` refused)."""
+    """A finite float (``nan``, ``inf``, ``1e999`` refused).
+
+    Parameters
+    ----------
+    name : str
+        What the value is, for the refusal.
+    text : str or float
+        The value.
+
+    Returns
+    -------
+    float
+        The number.
+
+    Raises
+    ------
+    InputError
+        Not a finite number.
+
+    Examples
+    --------
+    >>> finite_number("--mu", "0.0121")
+    0.0121
+
+    References
+    ----------
+    IEEE Std 754-2019, "Standard for Floating-Point Arithmetic" (finite values).
+    """
     try:
         v = float(str(text).strip())
     except (TypeError, ValueError):
@@ -121,7 +266,38 @@ def finite_number(name: str, text) -> float:
 
 def number_in(name: str, text, lo: float | None = None, hi: float | None = None, *,
               open_lo: bool = False, open_hi: bool = False) -> float:
-    """A finite float in the interval [lo, hi] (open at an end when asked)."""
+    """A finite float in the interval [lo, hi] (open at an end when asked).
+
+    Parameters
+    ----------
+    name : str
+        What the value is, for the refusal.
+    text : str or float
+        The value.
+    lo, hi : float, optional
+        The bounds (None: unbounded).
+    open_lo, open_hi : bool, optional
+        Exclude that end.
+
+    Returns
+    -------
+    float
+        The number.
+
+    Raises
+    ------
+    InputError
+        Not a finite number in the interval.
+
+    Examples
+    --------
+    >>> number_in("--mu", "0.3", 0.0, 0.5)
+    0.3
+
+    References
+    ----------
+    IEEE Std 754-2019, "Standard for Floating-Point Arithmetic" (finite values).
+    """
     v = finite_number(name, text)
     bad = (lo is not None and (v <= lo if open_lo else v < lo)) or \
           (hi is not None and (v >= hi if open_hi else v > hi))
@@ -134,8 +310,38 @@ def number_in(name: str, text, lo: float | None = None, hi: float | None = None,
 
 
 def numbers(name: str, value, count: int, what: str) -> tuple:
-    """``count`` finite floats, from comma-separated text (``"1,2,3"``) or a sequence; ``what``
-    names them in a refusal (e.g. ``"INC,NODE,ARGLAT (degrees)"``)."""
+    """``count`` finite floats, from comma-separated text (``"1,2,3"``) or a sequence.
+
+    Parameters
+    ----------
+    name : str
+        What the value is, for the refusal.
+    value : str or sequence
+        The numbers.
+    count : int
+        How many.
+    what : str
+        Names them in a refusal (e.g. ``"INC,NODE,ARGLAT (degrees)"``).
+
+    Returns
+    -------
+    tuple of float
+        The numbers.
+
+    Raises
+    ------
+    InputError
+        Another count, or a value that is not a finite number.
+
+    Examples
+    --------
+    >>> numbers("--orientation", "5,10,20", 3, "degrees")
+    (5.0, 10.0, 20.0)
+
+    References
+    ----------
+    IEEE Std 754-2019, "Standard for Floating-Point Arithmetic" (finite values).
+    """
     parts = str(value).split(",") if isinstance(value, str) else value
     try:
         v = tuple(float(str(x).strip()) for x in parts)
@@ -149,7 +355,34 @@ def numbers(name: str, value, count: int, what: str) -> tuple:
 
 
 def positive_number(name: str, text) -> float:
-    """A finite float > 0."""
+    """A finite float > 0.
+
+    Parameters
+    ----------
+    name : str
+        What the value is, for the refusal.
+    text : str or float
+        The value.
+
+    Returns
+    -------
+    float
+        The number.
+
+    Raises
+    ------
+    InputError
+        Not a positive finite number.
+
+    Examples
+    --------
+    >>> positive_number("--step", "0.5")
+    0.5
+
+    References
+    ----------
+    IEEE Std 754-2019, "Standard for Floating-Point Arithmetic" (finite values).
+    """
     v = finite_number(name, text)
     if not v > 0:
         raise InputError(f"{name} '{_show(text)}' must be positive")
@@ -158,7 +391,38 @@ def positive_number(name: str, text) -> float:
 
 def whole_number(name: str, text, lo: int, hi: int | None = None) -> int:
     """A whole number in lo..hi (``hi`` None: no upper end; ``3.0``, ``1e3``, ``nan`` refused:
-    no rounding). Python and numpy integers are taken as they are."""
+    no rounding). Python and numpy integers are taken as they are.
+
+    Parameters
+    ----------
+    name : str
+        What the value is, for the refusal.
+    text : str or int
+        The value.
+    lo : int
+        The least allowed (inclusive).
+    hi : int or None
+        The greatest allowed (inclusive); None: no upper end.
+
+    Returns
+    -------
+    int
+        The number.
+
+    Raises
+    ------
+    InputError
+        Not a whole number in the range.
+
+    Examples
+    --------
+    >>> whole_number("--points", "12", 1, 100)
+    12
+
+    References
+    ----------
+    Common practice (counts are whole numbers; no silent rounding).
+    """
     allowed = f"{lo}..{hi}" if hi is not None else f"{lo} or more"
     if isinstance(text, bool):
         raise InputError(f"{name} {text!r} is not a whole number; allowed {allowed}")
@@ -181,7 +445,34 @@ MAX_WORKERS = 256
 
 
 def workers(name: str, text) -> int:
-    """A count of worker processes, 1..MAX_WORKERS (one parser for every ``--workers``)."""
+    """A count of worker processes, 1..MAX_WORKERS (one parser for every ``--workers``).
+
+    Parameters
+    ----------
+    name : str
+        What the value is, for the refusal.
+    text : str or int
+        The value.
+
+    Returns
+    -------
+    int
+        The count.
+
+    Raises
+    ------
+    InputError
+        Not a whole number in 1..MAX_WORKERS.
+
+    Examples
+    --------
+    >>> workers("--workers", "2")
+    2
+
+    References
+    ----------
+    Common practice (a bounded pool of processes).
+    """
     return whole_number(name, text, 1, MAX_WORKERS)
 
 
@@ -192,6 +483,40 @@ def quantity(name: str, text, dimension: str, system=None, *, sign: str = "any",
     Returns the value in LU, TU or LU/TU of ``system`` (or in km, s, km/s when ``system`` is None).
     ``sign``: "any", "positive" (> 0) or "nonnegative" (>= 0); a refusal names the text the user
     gave, in the user's unit.
+
+    Parameters
+    ----------
+    name : str
+        What the value is, for the refusal.
+    text : str or float
+        The quantity with its unit (``"12000km"``, ``"6.5d"``, ``"1500m/s"``).
+    dimension : {"length", "time", "velocity"}
+        What it must be.
+    system : System, optional
+        Converts to its units.
+    sign : {"any", "positive", "nonnegative"}, optional
+        The sign allowed.
+    default_unit : str, optional
+        The unit of a bare number.
+
+    Returns
+    -------
+    float
+        LU, TU or LU/TU (km, s, km/s without a system).
+
+    Raises
+    ------
+    InputError
+        No unit, a unit of another dimension, a value of the wrong sign.
+
+    Examples
+    --------
+    >>> quantity("--altitude", "200km", "length")
+    200.0
+
+    References
+    ----------
+    BIPM, "The International System of Units (SI)", 9th ed. (2019); ISO 80000-3:2019.
     """
     try:
         q = units.parse(text, dimension, default_unit)
@@ -206,8 +531,39 @@ def quantity(name: str, text, dimension: str, system=None, *, sign: str = "any",
 
 
 def plain_text(name: str, text, max_len: int = 200) -> str:
-    """Free text written into a file header (an OEM's OBJECT_NAME, a comment): no control
-    characters (a line break would add header lines), at most ``max_len`` characters."""
+    """Free text written into a file header (an OEM's OBJECT_NAME, a comment), checked.
+
+    No control characters (a line break would add header lines), at most ``max_len``
+    characters.
+
+    Parameters
+    ----------
+    name : str
+        What the value is, for the refusal.
+    text : str
+        The text.
+    max_len : int, optional
+        Longest allowed.
+
+    Returns
+    -------
+    str
+        The text.
+
+    Raises
+    ------
+    InputError
+        A control character, or too long.
+
+    Examples
+    --------
+    >>> plain_text("--object-name", "RELAY 1")
+    'RELAY 1'
+
+    References
+    ----------
+    CCSDS 502.0-B-3, "Orbit Data Messages" (2023) (header values on one line).
+    """
     t = str(text)
     bad = [c for c in t if not c.isprintable()]
     if bad:
@@ -222,8 +578,34 @@ _ISO_8601 = re.compile(r"^\d{4}-\d{2}-\d{2}(T\d{2}:\d{2}(:\d{2}(\.\d+)?)?)?(Z|[+
 
 
 def iso8601(name: str, text) -> str:
-    """An ISO 8601 date or date-time (``2031-03-01``, ``2031-03-01T00:00:00Z``), checked as a
-    real calendar date; returned as given."""
+    """An ISO 8601 date or date-time, checked as a real calendar date; returned as given.
+
+    Parameters
+    ----------
+    name : str
+        What the value is, for the refusal.
+    text : str
+        ``2031-03-01`` or ``2031-03-01T00:00:00Z``.
+
+    Returns
+    -------
+    str
+        The text as given.
+
+    Raises
+    ------
+    InputError
+        Not ISO 8601, or not a real date.
+
+    Examples
+    --------
+    >>> iso8601("--creation-date", "2031-03-01T00:00:00Z")
+    '2031-03-01T00:00:00Z'
+
+    References
+    ----------
+    ISO 8601-1:2019, "Date and time -- Representations for information interchange".
+    """
     t = str(text)
     if not _ISO_8601.match(t):
         raise InputError(f"{name} '{_show(t)}' is not an ISO 8601 date or date-time "
@@ -254,7 +636,38 @@ def _same_path(a, b) -> bool:
 def output_file(name: str, path, inputs=()) -> str:
     """Check, before any work, that ``path`` can be written as a file: not empty, not a folder,
     not one of ``inputs`` (files the command reads), each name at most NAME_MAX bytes, and the
-    nearest existing folder above it writable. Returns ``path`` as text."""
+    nearest existing folder above it writable. Returns ``path`` as text.
+
+    Parameters
+    ----------
+    name : str
+        The option, for the refusal.
+    path : str or pathlib.Path
+        The file.
+    inputs : iterable of path, optional
+        Files the command reads.
+
+    Returns
+    -------
+    str
+        ``path`` as text.
+
+    Raises
+    ------
+    InputError
+        The path cannot be written as a file (the message names it and why).
+
+    Examples
+    --------
+    >>> import tempfile, os
+    >>> folder = tempfile.mkdtemp()
+    >>> output_file("--out", os.path.join(folder, "a.oem")).endswith("a.oem")
+    True
+
+    References
+    ----------
+    IEEE Std 1003.1-2017 (POSIX), ``access()`` and NAME_MAX.
+    """
     t = str(path)
     if not t.strip():
         raise InputError(f"{name} is empty; give a file name")
@@ -273,7 +686,38 @@ def output_file(name: str, path, inputs=()) -> str:
 
 
 def output_folder(name: str, path, inputs=()) -> str:
-    """As :func:`output_file`, for a folder that will hold the outputs (it may exist)."""
+    """As :func:`output_file`, for a folder that will hold the outputs (it may exist).
+
+    Parameters
+    ----------
+    name : str
+        The option, for the refusal.
+    path : str or pathlib.Path
+        The folder.
+    inputs : iterable of path, optional
+        Files the command reads.
+
+    Returns
+    -------
+    str
+        ``path`` as text.
+
+    Raises
+    ------
+    InputError
+        The path cannot hold the outputs (the message names it and why).
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> folder = tempfile.mkdtemp()
+    >>> output_folder("--out", folder) == folder
+    True
+
+    References
+    ----------
+    IEEE Std 1003.1-2017 (POSIX), ``access()`` and NAME_MAX.
+    """
     t = str(path)
     if not t.strip():
         raise InputError(f"{name} is empty; give a folder")

@@ -33,18 +33,18 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from pathlib import Path
+import csv
+import json
 
 import numpy as np
+from scipy.optimize import minimize
 
 from .. import validate
 from ..errors import ConvergenceError, InputError
 from . import model as _model
 from .newton import solve as _solve
 from .transition import TOLERANCE, _central_default, _cr3bp_to_inertial
-import csv
-import json
-from pathlib import Path
-from scipy.optimize import minimize
 from ..cautions import CAUTION
 from ..time import frames
 from .offsets import path_and_timing_offsets

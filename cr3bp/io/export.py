@@ -37,6 +37,8 @@ import math
 from dataclasses import dataclass, field
 from datetime import datetime, timezone
 from pathlib import Path
+from xml.sax.saxutils import escape
+import xml.etree.ElementTree as ET
 
 import numpy as np
 
@@ -47,8 +49,6 @@ from ..constants import OBLIQUITY_J2000_ARCSEC
 from .. import validate
 from ..errors import InputError, NoSolutionError, shown
 from ..vocabulary import EXPORT_FORMATS, INERTIAL_FRAMES
-import xml.etree.ElementTree as ET
-from xml.sax.saxutils import escape
 from ..integrate import propagate
 from ..time.scales import leap_second_table, mjd_to_iso_date
 from ..validate import iso8601, plain_text, quantity
@@ -69,7 +69,24 @@ COLUMNS = ["x_km", "y_km", "z_km", "vx_kms", "vy_kms", "vz_kms"]
 
 @dataclass(frozen=True)
 class Segment:
-    """A maneuver-free piece of trajectory: rotating times (TU from the epoch), states (N, 6)."""
+    """A maneuver-free piece of trajectory: rotating times (TU from the epoch), states (N, 6).
+
+    Parameters
+    ----------
+    t_tu : numpy.ndarray, shape (N,)
+        Rotating times, TU from the frame epoch.
+    states : numpy.ndarray, shape (N, 6)
+        Nondimensional rotating states.
+
+    Examples
+    --------
+    >>> Segment(np.array([0.0, 0.1]), np.zeros((2, 6))).to_dict()["t_tu"]
+    [0.0, 0.1]
+
+    References
+    ----------
+    Szebehely, V., "Theory of Orbits", Academic Press (1967) (the rotating frame and its units).
+    """
 
     t_tu: np.ndarray
     states: np.ndarray
@@ -86,6 +103,27 @@ class Maneuver:
     ``|dv|`` in the system's fixed velocity unit. The Δv written to a file is measured on the
     exported trajectory instead (:func:`maneuver_table`): with the ephemeris anchoring it
     differs, and both are written side by side.
+
+    Parameters
+    ----------
+    t_tu : float
+        Rotating time of the impulse, TU from the frame epoch.
+    dv : array_like, shape (3,)
+        Nondimensional velocity change on the rotating axes.
+    label : str
+        Its name in outputs.
+    dv_design_mps : float, optional
+        The design model's Δv, m/s.
+
+    Examples
+    --------
+    >>> Maneuver(0.5, np.array([0.0, 0.001, 0.0]), "insertion").to_dict()["label"]
+    'insertion'
+
+    References
+    ----------
+    CCSDS 502.0-B-3, "Orbit Data Messages", Blue Book, Consultative Committee for Space Data
+    Systems (2023). (maneuvers as COMMENT lines between segments).
     """
 
     t_tu: float
@@ -108,6 +146,35 @@ class Trajectory:
     """Segments, the frame that anchors them, the output time system and maneuvers.
 
     ``model`` holds extra description for the COMMENT lines (e.g. the orbit request, period).
+
+    Parameters
+    ----------
+    frame : FrameSpec
+        The frame that anchors the segments.
+    segments : tuple of Segment
+        Maneuver-free arcs in time order.
+    time_system : {"UTC", "TAI", "TT", "TDB"}, optional
+        The output's time system.
+    maneuvers : tuple of Maneuver, optional
+        Impulses between segments.
+    object_name, object_id : str, optional
+        OEM ``OBJECT_NAME`` and ``OBJECT_ID``.
+    model : dict, optional
+        Extra description for the COMMENT lines.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.time.frames import frame
+    >>> spec = frame(system("earth-moon"), 0.0, anchor="circular", center="earth")
+    >>> traj = Trajectory(spec, (Segment(np.array([0.0, 0.01]), np.tile([0.8, 0, 0, 0, 0.5, 0], (2, 1))),))
+    >>> traj.to_dict()["time_system"]
+    'TDB'
+
+    References
+    ----------
+    CCSDS 502.0-B-3, "Orbit Data Messages", Blue Book, Consultative Committee for Space Data
+    Systems (2023).
     """
 
     frame: _frames.FrameSpec
@@ -128,8 +195,32 @@ class Trajectory:
 # ---- sampling --------------------------------------------------------------------------------
 
 def span_periods(text) -> float | None:
-    """The count of periods in a span such as ``"3periods"`` or ``"period"`` (one); None when
-    the span is a time instead. A count that is not a positive finite number is an InputError."""
+    """The count of periods in a span such as ``"3periods"`` or ``"period"`` (one).
+
+    Parameters
+    ----------
+    text : str
+        A span.
+
+    Returns
+    -------
+    float or None
+        The count, or None when the span is a time instead.
+
+    Raises
+    ------
+    InputError
+        A count that is not a positive finite number.
+
+    Examples
+    --------
+    >>> span_periods("3periods"), span_periods("12d")
+    (3.0, None)
+
+    References
+    ----------
+    Common practice (spans written with their unit, as ISO 80000-3:2019 writes quantities).
+    """
     s = str(text).strip()
     low = s.lower()
     for suffix in ("periods", "period"):
@@ -147,7 +238,37 @@ def span_periods(text) -> float | None:
 
 
 def parse_span(text, system, period_tu: float | None = None) -> float:
-    """``"3periods"``, ``"12d"``, ``"2.5TU"`` -> TU. ``periods`` needs ``period_tu``."""
+    """A span as text -> TU: ``"3periods"``, ``"12d"``, ``"2.5TU"``.
+
+    Parameters
+    ----------
+    text : str
+        The span.
+    system : System
+        Gives the time unit.
+    period_tu : float, optional
+        Needed for spans in periods.
+
+    Returns
+    -------
+    float
+        TU.
+
+    Raises
+    ------
+    InputError
+        An unreadable span, periods without ``period_tu``, a non-positive span.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> round(parse_span("3periods", system("earth-moon"), period_tu=1.5), 6)
+    4.5
+
+    References
+    ----------
+    Szebehely, V., "Theory of Orbits", Academic Press (1967) (the time unit).
+    """
     s = str(text).strip()
     k = span_periods(s)
     if k is not None:
@@ -163,7 +284,32 @@ def parse_span(text, system, period_tu: float | None = None) -> float:
 
 
 def sample_grid(span_tu: float, step_tu: float) -> np.ndarray:
-    """Times ``0, step, 2 step, ...`` up to ``span`` (inclusive when it falls on the grid)."""
+    """Times ``0, step, 2 step, ...`` up to ``span`` (inclusive when it falls on the grid).
+
+    Parameters
+    ----------
+    span_tu, step_tu : float
+        Span and step, TU (positive).
+
+    Returns
+    -------
+    numpy.ndarray
+        The times.
+
+    Raises
+    ------
+    InputError
+        A non-positive span or step, or more than :data:`MAX_SAMPLES` samples.
+
+    Examples
+    --------
+    >>> sample_grid(1.0, 0.25).tolist()
+    [0.0, 0.25, 0.5, 0.75, 1.0]
+
+    References
+    ----------
+    Common practice (a uniform output grid).
+    """
     step_tu = validate.positive_number("step (TU)", step_tu)
     span_tu = validate.positive_number("span (TU)", span_tu)
     if step_tu > span_tu:
@@ -181,6 +327,41 @@ def epoch_grid(spec, time_system: str, span_tu: float, step_s: float) -> np.ndar
     ``time_system`` (L0 = the frame epoch on that scale), converted to TDB and then to TU.
     So a 10-minute step gives epochs ending in :00, :10, ... in UTC as in TDB. (A UTC grid
     across a leap second is uneven by that second.)
+
+    Parameters
+    ----------
+    spec : FrameSpec
+        The frame (its epoch and system).
+    time_system : {"UTC", "TAI", "TT", "TDB"}
+        The clock the step is equal on.
+    span_tu : float
+        The span, TU.
+    step_s : float
+        The step, s.
+
+    Returns
+    -------
+    numpy.ndarray
+        Rotating times, TU from the frame epoch.
+
+    Raises
+    ------
+    InputError
+        A non-positive step, an unknown time system, too many samples.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.time.frames import frame
+    >>> em = system("earth-moon")
+    >>> t = epoch_grid(frame(em, 0.0, anchor="circular"), "TDB", 3600.0 / em.time_s, 600.0)
+    >>> len(t)
+    7
+
+    References
+    ----------
+    Petit, G. & Luzum, B. (eds.), "IERS Conventions (2010)", IERS Technical Note 36 (2010),
+    ch. 10 (time scales).
     """
     ts = _frames.time_system(time_system)
     step_s = validate.positive_number("step (s)", step_s)
@@ -202,11 +383,15 @@ def sample(system, source, t_eval, rtol=1e-12, atol=1e-12) -> Segment:
 
     Parameters
     ----------
+    system : System
+        The system.
     source : Arc-like (``t``, ``states``), a :class:`Segment`, PeriodicOrbit-like (``state``)
         or a 6-vector. The
         propagation starts from its (first) state; ``t_eval`` counts from that state's time.
     t_eval : array
         Increasing times from 0, TU (e.g. from :func:`sample_grid` or :func:`epoch_grid`).
+    rtol, atol : float, optional
+        Integrator tolerances.
 
     Returns
     -------
@@ -215,6 +400,25 @@ def sample(system, source, t_eval, rtol=1e-12, atol=1e-12) -> Segment:
 
     Uses ``cr3bp.propagate(..., t_eval=...)``: samples come from the integrator's dense output
     (Hairer, Norsett & Wanner, *Solving ODEs I*, 2nd ed., 1993, sec. II.6).
+
+    Raises
+    ------
+    InputError
+        A bad source or grid.
+    NoSolutionError
+        The propagation stops early (impact, escape).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> seg = sample(system("earth-moon"), np.array([0.8, 0, 0, 0, 0.5, 0]), np.linspace(0.0, 0.1, 3))
+    >>> seg.states.shape
+    (3, 6)
+
+    References
+    ----------
+    Hairer, E., Nørsett, S. P. & Wanner, G., "Solving Ordinary Differential Equations I",
+    2nd ed., Springer (1993), sec. II.6 (dense output).
     """
     t0 = 0.0
     if hasattr(source, "t") and hasattr(source, "states"):
@@ -244,6 +448,8 @@ def sample_legs(system, legs, t_eval, labels=None, join_tol=1e-9, rtol=1e-12, at
 
     Parameters
     ----------
+    system : System
+        The system.
     legs : sequence of Arc-like (``t`` in TU from the frame epoch, ``states``), in time order.
         Each leg starts where the previous one ends (same time, same position within
         ``join_tol`` LU); the velocity difference there is an impulsive maneuver.
@@ -253,10 +459,31 @@ def sample_legs(system, legs, t_eval, labels=None, join_tol=1e-9, rtol=1e-12, at
         epoch is a sample of both segments it separates.
     labels : sequence of str, optional
         Names of the maneuvers (one per junction).
+    join_tol : float, optional
+        Largest position gap at a junction, LU.
+    rtol, atol : float, optional
+        Integrator tolerances.
 
     Returns
     -------
-    (tuple of Segment, tuple of Maneuver)
+    segments : tuple of Segment
+        The maneuver-free pieces.
+    maneuvers : tuple of Maneuver
+        The velocity jumps at the junctions.
+
+    Raises
+    ------
+    InputError
+        Legs that do not join (time or position), or a bad grid.
+
+    Examples
+    --------
+    >>> segs, mans = sample_legs(em, [leg1, leg2], t_grid)      # doctest: +SKIP
+
+    References
+    ----------
+    Hairer, E., Nørsett, S. P. & Wanner, G., "Solving Ordinary Differential Equations I",
+    2nd ed., Springer (1993), sec. II.6 (dense output).
     """
     legs = list(legs)
     if not legs:
@@ -326,9 +553,41 @@ def _evaluate(traj: Trajectory):
 
 
 def check_header(traj: Trajectory, creation_date: str | None = None) -> None:
-    """Text that goes into a file header: OBJECT_NAME, OBJECT_ID, the model lines and the
-    creation date hold no control characters (a line break would add header lines), and the
-    creation date is ISO 8601."""
+    """Refuse header text that would break a file.
+
+    OBJECT_NAME, OBJECT_ID, the model lines and the creation date hold no control characters (a
+    line break would add header lines), and the creation date is ISO 8601.
+
+    Parameters
+    ----------
+    traj : Trajectory
+        The trajectory.
+    creation_date : str, optional
+        ISO 8601 text.
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    InputError
+        A control character, or a creation date that is not ISO 8601.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.time.frames import frame
+    >>> spec = frame(system("earth-moon"), 0.0, anchor="circular", center="earth")
+    >>> traj = Trajectory(spec, (Segment(np.array([0.0, 0.01]), np.tile([0.8, 0, 0, 0, 0.5, 0], (2, 1))),))
+    >>> check_header(traj, "2031-01-01T00:00:00") is None
+    True
+
+    References
+    ----------
+    CCSDS 502.0-B-3, "Orbit Data Messages", Blue Book, Consultative Committee for Space Data
+    Systems (2023). (header keywords); ISO 8601-1:2019.
+    """
     plain_text("object name", traj.object_name, 100)
     plain_text("object id", traj.object_id, 100)
     for k, v in traj.model.items():
@@ -380,6 +639,35 @@ def maneuver_table(traj: Trajectory) -> list[dict]:
     The exported jump is measured on the trajectory, not converted from the design's Δv: with
     the ephemeris anchoring velocities scale with the instantaneous distance of the
     primaries, so the two differ (by a few per cent in Earth-Moon); both are reported.
+
+    Parameters
+    ----------
+    traj : Trajectory
+        The trajectory.
+
+    Returns
+    -------
+    list of dict
+        One row per maneuver, as above.
+
+    Raises
+    ------
+    InputError
+        Epochs outside the ephemeris (ephemeris anchoring).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.time.frames import frame
+    >>> spec = frame(system("earth-moon"), 0.0, anchor="circular", center="earth")
+    >>> traj = Trajectory(spec, (Segment(np.array([0.0, 0.01]), np.tile([0.8, 0, 0, 0, 0.5, 0], (2, 1))),))
+    >>> maneuver_table(traj)
+    []
+
+    References
+    ----------
+    CCSDS 502.0-B-3, "Orbit Data Messages", Blue Book, Consultative Committee for Space Data
+    Systems (2023).
     """
     rows = []
     system = traj.frame.system
@@ -398,7 +686,37 @@ def maneuver_table(traj: Trajectory) -> list[dict]:
 
 
 def dv_model_lines(traj: Trajectory) -> list[str]:
-    """Header lines saying which model each Δv of the maneuver table belongs to."""
+    """Header lines saying which model each Δv of the maneuver table belongs to.
+
+    Parameters
+    ----------
+    traj : Trajectory
+        The trajectory (its frame names the models).
+
+    Returns
+    -------
+    list of str
+        The lines.
+
+    Raises
+    ------
+    AttributeError
+        Not a trajectory.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.time.frames import frame
+    >>> spec = frame(system("earth-moon"), 0.0, anchor="circular", center="earth")
+    >>> traj = Trajectory(spec, (Segment(np.array([0.0, 0.01]), np.tile([0.8, 0, 0, 0, 0.5, 0], (2, 1))),))
+    >>> any("design" in line for line in dv_model_lines(traj))
+    True
+
+    References
+    ----------
+    CCSDS 502.0-B-3, "Orbit Data Messages", Blue Book, Consultative Committee for Space Data
+    Systems (2023). (COMMENT lines).
+    """
     sysm = traj.frame.system
     spec = traj.frame
     if spec.axes == "rotating":
@@ -416,15 +734,65 @@ def dv_model_lines(traj: Trajectory) -> list[str]:
 
 
 def dv_differs(row) -> bool:
-    """An exported Δv differs from its design Δv by more than :data:`DV_WARN_FRACTION` (and
-    by more than :data:`DV_WARN_FLOOR_MPS`)."""
+    """Whether an exported Δv differs from its design Δv beyond the warning thresholds.
+
+    More than :data:`DV_WARN_FRACTION` and more than :data:`DV_WARN_FLOOR_MPS`.
+
+    Parameters
+    ----------
+    row : dict
+        A row of :func:`maneuver_table`.
+
+    Returns
+    -------
+    bool
+        True when it differs.
+
+    Raises
+    ------
+    KeyError
+        A row without ``dv_change_percent``, ``dv_exported_mps`` or ``dv_design_mps``.
+
+    Examples
+    --------
+    >>> dv_differs({"dv_exported_mps": 110.0, "dv_design_mps": 100.0, "dv_change_percent": 10.0})
+    True
+
+    References
+    ----------
+    Common practice (a review threshold on a converted quantity).
+    """
     return (abs(row["dv_change_percent"]) > DV_WARN_FRACTION * 100.0
             and abs(row["dv_exported_mps"] - row["dv_design_mps"]) > DV_WARN_FLOOR_MPS)
 
 
 def dv_warning(rows) -> str:
-    """One warning line when an exported Δv differs from its design Δv by more than
-    :data:`DV_WARN_FRACTION`, else ""."""
+    """One warning line when an exported Δv differs from its design Δv too much, else "".
+
+    Parameters
+    ----------
+    rows : list of dict
+        :func:`maneuver_table`.
+
+    Returns
+    -------
+    str
+        The warning, or "".
+
+    Raises
+    ------
+    KeyError
+        Rows without the Δv columns.
+
+    Examples
+    --------
+    >>> dv_warning([])
+    ''
+
+    References
+    ----------
+    Common practice (a review threshold on a converted quantity).
+    """
     bad = [r for r in rows if dv_differs(r)]
     if not bad:
         return ""
@@ -560,7 +928,43 @@ def _oem_parts(traj: Trajectory, creation_date, interpolation, degree):
 
 def oem_text(traj: Trajectory, *, creation_date: str | None = None, interpolation: str = "HERMITE",
              degree: int = 5) -> str:
-    """The OEM (KVN) text of a trajectory (see the module docstring for the layout)."""
+    """The OEM (KVN) text of a trajectory (see the module notes for the layout).
+
+    Parameters
+    ----------
+    traj : Trajectory
+        The trajectory (inertial axes).
+    creation_date : str, optional
+        ISO 8601 ``CREATION_DATE`` (default: now), for reproducible output.
+    interpolation : str, optional
+        ``INTERPOLATION`` keyword value.
+    degree : int, optional
+        ``INTERPOLATION_DEGREE``.
+
+    Returns
+    -------
+    str
+        The file's text.
+
+    Raises
+    ------
+    InputError
+        Rotating axes (no OEM frame), bad header text.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.time.frames import frame
+    >>> spec = frame(system("earth-moon"), 0.0, anchor="circular", center="earth")
+    >>> traj = Trajectory(spec, (Segment(np.array([0.0, 0.01]), np.tile([0.8, 0, 0, 0, 0.5, 0], (2, 1))),))
+    >>> oem_text(traj, creation_date="2031-01-01T00:00:00").splitlines()[0]
+    'CCSDS_OEM_VERS = 3.0'
+
+    References
+    ----------
+    CCSDS 502.0-B-3, "Orbit Data Messages", Blue Book, Consultative Committee for Space Data
+    Systems (2023).
+    """
     (hcom, hkv), segments = _oem_parts(traj, creation_date, interpolation, degree)
     out = io.StringIO()
     w = out.write
@@ -585,7 +989,43 @@ def oem_text(traj: Trajectory, *, creation_date: str | None = None, interpolatio
 def oem_xml_text(traj: Trajectory, *, creation_date: str | None = None, interpolation: str = "HERMITE",
                  degree: int = 5) -> str:
     """The OEM in XML (CCSDS 505.0-B, XML Specification for Navigation Data Messages; element
-    names as the KVN keywords, one ``stateVector`` per line of data -- from memory)."""
+    names as the KVN keywords, one ``stateVector`` per line of data -- from memory).
+
+    Parameters
+    ----------
+    traj : Trajectory
+        The trajectory (inertial axes).
+    creation_date : str, optional
+        ISO 8601 ``CREATION_DATE`` (default: now).
+    interpolation : str, optional
+        ``INTERPOLATION`` value.
+    degree : int, optional
+        ``INTERPOLATION_DEGREE``.
+
+    Returns
+    -------
+    str
+        The XML text.
+
+    Raises
+    ------
+    InputError
+        Rotating axes (no OEM frame), bad header text.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.time.frames import frame
+    >>> spec = frame(system("earth-moon"), 0.0, anchor="circular", center="earth")
+    >>> traj = Trajectory(spec, (Segment(np.array([0.0, 0.01]), np.tile([0.8, 0, 0, 0, 0.5, 0], (2, 1))),))
+    >>> "<oem" in oem_xml_text(traj, creation_date="2031-01-01T00:00:00")
+    True
+
+    References
+    ----------
+    CCSDS 505.0-B, "XML Specification for Navigation Data Messages", Blue Book, Consultative
+    Committee for Space Data Systems (from memory); CCSDS 502.0-B-3, "Orbit Data Messages" (2023).
+    """
     (hcom, hkv), segments = _oem_parts(traj, creation_date, interpolation, degree)
     out = io.StringIO()
     w = out.write
@@ -621,7 +1061,45 @@ def _segment_of(starts, t_tu) -> int:
 
 
 def write_oem(path, traj: Trajectory, **kwargs) -> Path:
-    """Write an OEM (KVN) file atomically. Keyword arguments go to :func:`oem_text`."""
+    """Write an OEM (KVN) file atomically. Keyword arguments go to :func:`oem_text`.
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The file.
+    traj : Trajectory
+        The trajectory.
+    **kw
+        ``creation_date``, ``interpolation``, ``degree``.
+
+    Returns
+    -------
+    pathlib.Path
+        The file written.
+
+    Raises
+    ------
+    InputError
+        As the text function.
+    OutputError
+        The folder cannot be written; nothing is left behind.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.time.frames import frame
+    >>> spec = frame(system("earth-moon"), 0.0, anchor="circular", center="earth")
+    >>> traj = Trajectory(spec, (Segment(np.array([0.0, 0.01]), np.tile([0.8, 0, 0, 0, 0.5, 0], (2, 1))),))
+    >>> import tempfile, pathlib
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> read_oem(write_oem(folder / "a.oem", traj, creation_date="2031-01-01T00:00:00")).time_system
+    'TDB'
+
+    References
+    ----------
+    CCSDS 502.0-B-3, "Orbit Data Messages", Blue Book, Consultative Committee for Space Data
+    Systems (2023).
+    """
     text = oem_text(traj, **kwargs)
     with writing(path) as f:
         f.write(text)
@@ -629,7 +1107,45 @@ def write_oem(path, traj: Trajectory, **kwargs) -> Path:
 
 
 def write_oem_xml(path, traj: Trajectory, **kwargs) -> Path:
-    """Write an OEM in XML atomically. Keyword arguments go to :func:`oem_xml_text`."""
+    """Write an OEM in XML file atomically. Keyword arguments go to :func:`oem_xml_text`.
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The file.
+    traj : Trajectory
+        The trajectory.
+    **kw
+        ``creation_date``, ``interpolation``, ``degree``.
+
+    Returns
+    -------
+    pathlib.Path
+        The file written.
+
+    Raises
+    ------
+    InputError
+        As the text function.
+    OutputError
+        The folder cannot be written; nothing is left behind.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.time.frames import frame
+    >>> spec = frame(system("earth-moon"), 0.0, anchor="circular", center="earth")
+    >>> traj = Trajectory(spec, (Segment(np.array([0.0, 0.01]), np.tile([0.8, 0, 0, 0, 0.5, 0], (2, 1))),))
+    >>> import tempfile, pathlib
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> read_oem_xml(write_oem_xml(folder / "a.xml", traj, creation_date="2031-01-01T00:00:00")).time_system
+    'TDB'
+
+    References
+    ----------
+    CCSDS 505.0-B, "XML Specification for Navigation Data Messages", Blue Book, Consultative
+    Committee for Space Data Systems (from memory); CCSDS 502.0-B-3, "Orbit Data Messages" (2023).
+    """
     text = oem_xml_text(traj, **kwargs)
     with writing(path) as f:
         f.write(text)
@@ -647,7 +1163,39 @@ def _meta_pairs(traj: Trajectory) -> list[str]:
 
 
 def csv_text(traj: Trajectory) -> tuple[str, str | None]:
-    """(CSV text of the states, CSV text of the maneuver table or None)."""
+    """The CSV texts of a trajectory: the states, and the maneuver table or None.
+
+    Parameters
+    ----------
+    traj : Trajectory
+        The trajectory.
+
+    Returns
+    -------
+    states : str
+        CSV text, ``#`` header lines carrying the caution and the frame.
+    maneuvers : str or None
+        CSV text of the maneuver table, None without maneuvers.
+
+    Raises
+    ------
+    InputError
+        Bad header text.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.time.frames import frame
+    >>> spec = frame(system("earth-moon"), 0.0, anchor="circular", center="earth")
+    >>> traj = Trajectory(spec, (Segment(np.array([0.0, 0.01]), np.tile([0.8, 0, 0, 0, 0.5, 0], (2, 1))),))
+    >>> text, table = csv_text(traj)
+    >>> table is None, text.startswith("# librate trajectory (CSV)")
+    (True, True)
+
+    References
+    ----------
+    RFC 4180, "Common Format and MIME Type for Comma-Separated Values (CSV) Files" (2005).
+    """
     ts = _frames.time_system(traj.time_system)
     head = io.StringIO()
     head.write("# librate trajectory (CSV): one row per sample; 'segment' counts maneuver-free arcs\n")
@@ -682,19 +1230,106 @@ def csv_text(traj: Trajectory) -> tuple[str, str | None]:
 
 
 def maneuver_columns(ts: str) -> list[str]:
-    """Columns of the maneuver table ``NAME.maneuvers.csv``."""
+    """Columns of the maneuver table ``NAME.maneuvers.csv``.
+
+    Parameters
+    ----------
+    ts : str
+        The time system (names the epoch column).
+
+    Returns
+    -------
+    list of str
+        The column names.
+
+    Raises
+    ------
+    InputError
+        An unknown time system.
+
+    Examples
+    --------
+    >>> maneuver_columns("UTC")[:2]
+    ['epoch_utc', 'dvx_kms']
+
+    References
+    ----------
+    RFC 4180, "Common Format and MIME Type for Comma-Separated Values (CSV) Files" (2005).
+    """
     return [f"epoch_{ts.lower()}", "dvx_kms", "dvy_kms", "dvz_kms", "dv_exported_mps", "dv_design_mps",
             "dv_change_percent", "label"]
 
 
 def maneuvers_path(path) -> Path:
-    """Where the maneuver table of a CSV file goes: ``NAME.maneuvers.csv`` beside it."""
+    """Where the maneuver table of a CSV file goes: ``NAME.maneuvers.csv`` beside it.
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The CSV file.
+
+    Returns
+    -------
+    pathlib.Path
+        The table's path.
+
+    Raises
+    ------
+    TypeError
+        Not a path.
+
+    Examples
+    --------
+    >>> maneuvers_path("out/leg.csv").as_posix()
+    'out/leg.maneuvers.csv'
+
+    References
+    ----------
+    RFC 4180, "Common Format and MIME Type for Comma-Separated Values (CSV) Files" (2005).
+    """
     p = Path(path)
     return p.with_name(p.stem + ".maneuvers.csv")
 
 
 def write_csv(path, traj: Trajectory) -> Path:
-    """Write the CSV (and ``NAME.maneuvers.csv`` when there are maneuvers), atomically."""
+    """Write the CSV (and ``NAME.maneuvers.csv`` when there are maneuvers), atomically.
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The file.
+    traj : Trajectory
+        The trajectory.
+    **kw
+        ``creation_date``.
+
+    Returns
+    -------
+    pathlib.Path
+        The file written.
+
+    Raises
+    ------
+    InputError
+        Bad header text.
+    OutputError
+        The folder cannot be written; nothing is left behind.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.time.frames import frame
+    >>> spec = frame(system("earth-moon"), 0.0, anchor="circular", center="earth")
+    >>> traj = Trajectory(spec, (Segment(np.array([0.0, 0.01]), np.tile([0.8, 0, 0, 0, 0.5, 0], (2, 1))),))
+    >>> import tempfile, pathlib
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> read_csv(write_csv(folder / "a.csv", traj)).segments[0].states.shape
+    (2, 6)
+
+    References
+    ----------
+    RFC 4180, "Common Format and MIME Type for Comma-Separated Values (CSV) Files" (2005).
+    """
     text, mtext = csv_text(traj)
     if mtext is None:
         with writing(path) as f:
@@ -711,6 +1346,39 @@ def write_csv(path, traj: Trajectory) -> Path:
 # ---- JSON ------------------------------------------------------------------------------------
 
 def json_payload(traj: Trajectory, creation_date: str | None = None) -> dict:
+    """The JSON document of a trajectory (a dict ready for :func:`json.dumps`).
+
+    Parameters
+    ----------
+    traj : Trajectory
+        The trajectory.
+    creation_date : str, optional
+        ISO 8601 creation date (default: now).
+
+    Returns
+    -------
+    dict
+        Format, caution, frame, time system, segments (epochs and states, km and km/s),
+        maneuvers and warnings.
+
+    Raises
+    ------
+    InputError
+        Bad header text.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.time.frames import frame
+    >>> spec = frame(system("earth-moon"), 0.0, anchor="circular", center="earth")
+    >>> traj = Trajectory(spec, (Segment(np.array([0.0, 0.01]), np.tile([0.8, 0, 0, 0, 0.5, 0], (2, 1))),))
+    >>> json_payload(traj, "2031-01-01T00:00:00")["units"]["position"]
+    'km'
+
+    References
+    ----------
+    RFC 8259, "The JavaScript Object Notation (JSON) Data Interchange Format" (2017).
+    """
     check_header(traj, creation_date)
     spec = traj.frame
     ts = _frames.time_system(traj.time_system)
@@ -739,6 +1407,44 @@ def json_payload(traj: Trajectory, creation_date: str | None = None) -> dict:
 
 
 def write_json(path, traj: Trajectory, creation_date: str | None = None) -> Path:
+    """Write the JSON document of a trajectory atomically.
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The file.
+    traj : Trajectory
+        The trajectory.
+    creation_date : str, optional
+        ISO 8601 creation date (default: now).
+
+    Returns
+    -------
+    pathlib.Path
+        The file written.
+
+    Raises
+    ------
+    InputError
+        Bad header text.
+    OutputError
+        The folder cannot be written; nothing is left behind.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.time.frames import frame
+    >>> spec = frame(system("earth-moon"), 0.0, anchor="circular", center="earth")
+    >>> traj = Trajectory(spec, (Segment(np.array([0.0, 0.01]), np.tile([0.8, 0, 0, 0, 0.5, 0], (2, 1))),))
+    >>> import tempfile, pathlib
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> read_json(write_json(folder / "a.json", traj)).format
+    'json'
+
+    References
+    ----------
+    RFC 8259, "The JavaScript Object Notation (JSON) Data Interchange Format" (2017).
+    """
     text = json.dumps(json_payload(traj, creation_date), indent=1) + "\n"
     with writing(path) as f:
         f.write(text)
@@ -746,7 +1452,35 @@ def write_json(path, traj: Trajectory, creation_date: str | None = None) -> Path
 
 
 def format_of(path, fmt: str | None = None) -> str:
-    """The format named by ``fmt`` or by the suffix of ``path`` (.oem/.csv/.json)."""
+    """The format named by ``fmt`` or by the suffix of ``path`` (.oem/.csv/.json).
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The file.
+    fmt : str, optional
+        A format name (wins over the suffix).
+
+    Returns
+    -------
+    str
+        One of :data:`FORMATS`.
+
+    Raises
+    ------
+    InputError
+        An unknown format or suffix.
+
+    Examples
+    --------
+    >>> format_of("a.oem"), format_of("a.txt", "csv")
+    ('oem', 'csv')
+
+    References
+    ----------
+    CCSDS 502.0-B-3, "Orbit Data Messages", Blue Book, Consultative Committee for Space Data
+    Systems (2023).
+    """
     if fmt:
         f = str(fmt).lower()
         if f not in FORMATS:
@@ -761,7 +1495,47 @@ def format_of(path, fmt: str | None = None) -> str:
 
 def write(path, traj: Trajectory, fmt: str | None = None, creation_date: str | None = None) -> Path:
     """Write ``traj`` to ``path`` in ``fmt`` (default from the suffix). ``creation_date`` (ISO
-    text) fixes the file's creation date for reproducible output; default: now."""
+    text) fixes the file's creation date for reproducible output; default: now.
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The file.
+    traj : Trajectory
+        The trajectory.
+    fmt : str, optional
+        The format (default from the suffix).
+    creation_date : str, optional
+        ISO 8601 creation date.
+
+    Returns
+    -------
+    pathlib.Path
+        The file written.
+
+    Raises
+    ------
+    InputError
+        An unknown format, rotating axes for an OEM, bad header text.
+    OutputError
+        The folder cannot be written; nothing is left behind.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.time.frames import frame
+    >>> spec = frame(system("earth-moon"), 0.0, anchor="circular", center="earth")
+    >>> traj = Trajectory(spec, (Segment(np.array([0.0, 0.01]), np.tile([0.8, 0, 0, 0, 0.5, 0], (2, 1))),))
+    >>> import tempfile, pathlib
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> write(folder / "a.oem", traj, creation_date="2031-01-01T00:00:00").name
+    'a.oem'
+
+    References
+    ----------
+    CCSDS 502.0-B-3, "Orbit Data Messages", Blue Book, Consultative Committee for Space Data
+    Systems (2023).; RFC 4180, "Common Format and MIME Type for Comma-Separated Values (CSV) Files" (2005).; RFC 8259, "The JavaScript Object Notation (JSON) Data Interchange Format" (2017).
+    """
     f = format_of(path, fmt)
     if f == "csv":
         return write_csv(path, traj)
@@ -773,7 +1547,35 @@ def write(path, traj: Trajectory, fmt: str | None = None, creation_date: str | N
 
 @dataclass(frozen=True)
 class FileSegment:
-    """A segment read from a file: metadata, epoch strings, TDB seconds, states km & km/s."""
+    """A segment read from a file: metadata, epoch strings, TDB seconds, states km & km/s.
+
+    Parameters
+    ----------
+    metadata : dict
+        The segment's metadata (OEM keywords or ours).
+    epochs : list of str
+        Epoch text as written.
+    tdb_s : numpy.ndarray
+        Epochs, TDB seconds since J2000.
+    states : numpy.ndarray, shape (N, 6)
+        km and km/s.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.time.frames import frame
+    >>> spec = frame(system("earth-moon"), 0.0, anchor="circular", center="earth")
+    >>> traj = Trajectory(spec, (Segment(np.array([0.0, 0.01]), np.tile([0.8, 0, 0, 0, 0.5, 0], (2, 1))),))
+    >>> import tempfile, pathlib
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> str(read(write(folder / "a.oem", traj)).segments[0].epochs[0])
+    '2000-01-01T12:00:00.000000'
+
+    References
+    ----------
+    CCSDS 502.0-B-3, "Orbit Data Messages", Blue Book, Consultative Committee for Space Data
+    Systems (2023).
+    """
 
     metadata: dict
     epochs: np.ndarray
@@ -783,7 +1585,41 @@ class FileSegment:
 
 @dataclass(frozen=True)
 class ReadResult:
-    """What a reader returns. ``frame`` is None when the file does not say which CR3BP frame."""
+    """What a reader returns. ``frame`` is None when the file does not say which CR3BP frame.
+
+    Parameters
+    ----------
+    format : str
+        The format read.
+    header : dict
+        Header keywords.
+    segments : list of FileSegment
+        The data.
+    time_system : str
+        The file's time system.
+    frame : FrameSpec or None
+        The CR3BP frame the file describes.
+    maneuvers : list
+        Maneuvers found in the file.
+    object_name, object_id : str
+        The object.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.time.frames import frame
+    >>> spec = frame(system("earth-moon"), 0.0, anchor="circular", center="earth")
+    >>> traj = Trajectory(spec, (Segment(np.array([0.0, 0.01]), np.tile([0.8, 0, 0, 0, 0.5, 0], (2, 1))),))
+    >>> import tempfile, pathlib
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> read(write(folder / "a.csv", traj)).format
+    'csv'
+
+    References
+    ----------
+    CCSDS 502.0-B-3, "Orbit Data Messages", Blue Book, Consultative Committee for Space Data
+    Systems (2023).
+    """
 
     format: str
     header: dict
@@ -841,6 +1677,37 @@ def read_oem(path) -> ReadResult:
 
     Returns the states in km and km/s with epochs on the file's TIME_SYSTEM (converted to TDB
     seconds in ``tdb_s``); ``frame`` is rebuilt from our ``COMMENT frame.*`` lines if present.
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The file.
+
+    Returns
+    -------
+    ReadResult
+        Header, segments, time system and frame.
+
+    Raises
+    ------
+    InputError
+        A missing or malformed file, an unknown time system or frame.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.time.frames import frame
+    >>> spec = frame(system("earth-moon"), 0.0, anchor="circular", center="earth")
+    >>> traj = Trajectory(spec, (Segment(np.array([0.0, 0.01]), np.tile([0.8, 0, 0, 0, 0.5, 0], (2, 1))),))
+    >>> import tempfile, pathlib
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> read_oem(write_oem(folder / "a.oem", traj)).segments[0].states.shape
+    (2, 6)
+
+    References
+    ----------
+    CCSDS 502.0-B-3, "Orbit Data Messages", Blue Book, Consultative Committee for Space Data
+    Systems (2023).
     """
     try:
         lines = Path(path).read_text(encoding="utf-8").splitlines()
@@ -907,7 +1774,39 @@ def _comment_keys(comments, keys, man_texts):
 
 def read_oem_xml(path) -> ReadResult:
     """Read an OEM in XML (``<oem><header/><body><segment><metadata/><data>`` with
-    ``stateVector`` elements), ours or another writer's; covariance ignored."""
+    ``stateVector`` elements), ours or another writer's; covariance ignored.
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The file.
+
+    Returns
+    -------
+    ReadResult
+        Header, segments, time system and frame.
+
+    Raises
+    ------
+    InputError
+        A missing or malformed file.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.time.frames import frame
+    >>> spec = frame(system("earth-moon"), 0.0, anchor="circular", center="earth")
+    >>> traj = Trajectory(spec, (Segment(np.array([0.0, 0.01]), np.tile([0.8, 0, 0, 0, 0.5, 0], (2, 1))),))
+    >>> import tempfile, pathlib
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> read_oem_xml(write_oem_xml(folder / "a.xml", traj)).segments[0].states.shape
+    (2, 6)
+
+    References
+    ----------
+    CCSDS 505.0-B, "XML Specification for Navigation Data Messages", Blue Book, Consultative
+    Committee for Space Data Systems (from memory); CCSDS 502.0-B-3, "Orbit Data Messages" (2023).
+    """
     try:
         root = ET.parse(path).getroot()
     except OSError as e:
@@ -1076,7 +1975,38 @@ def _read_rotating_table(path, headers, rows):
 
 
 def read_csv(path) -> ReadResult:
-    """Read a CSV written by :func:`write_csv` (its ``# key = value`` lines carry the frame)."""
+    """Read a CSV written by :func:`write_csv` (its ``# key = value`` lines carry the frame).
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The file.
+
+    Returns
+    -------
+    ReadResult
+        Header, segments, time system and frame.
+
+    Raises
+    ------
+    InputError
+        A missing or malformed file.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.time.frames import frame
+    >>> spec = frame(system("earth-moon"), 0.0, anchor="circular", center="earth")
+    >>> traj = Trajectory(spec, (Segment(np.array([0.0, 0.01]), np.tile([0.8, 0, 0, 0, 0.5, 0], (2, 1))),))
+    >>> import tempfile, pathlib
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> read_csv(write_csv(folder / "a.csv", traj)).time_system
+    'TDB'
+
+    References
+    ----------
+    RFC 4180, "Common Format and MIME Type for Comma-Separated Values (CSV) Files" (2005).
+    """
     try:
         text = Path(path).read_text(encoding="utf-8")
     except OSError as e:
@@ -1153,7 +2083,38 @@ def _rotating_result(fmt, keys, t, st, seg=None, path="<input>"):
 
 def read_json(path) -> ReadResult:
     """Read a JSON written by :func:`write_json`, or a JSON of rotating states
-    (``{"t": [...], "states": [[...]]}`` or the same under ``"arc"``/``"points"``)."""
+    (``{"t": [...], "states": [[...]]}`` or the same under ``"arc"``/``"points"``).
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The file.
+
+    Returns
+    -------
+    ReadResult
+        Header, segments, time system and frame.
+
+    Raises
+    ------
+    InputError
+        A missing or malformed file.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.time.frames import frame
+    >>> spec = frame(system("earth-moon"), 0.0, anchor="circular", center="earth")
+    >>> traj = Trajectory(spec, (Segment(np.array([0.0, 0.01]), np.tile([0.8, 0, 0, 0, 0.5, 0], (2, 1))),))
+    >>> import tempfile, pathlib
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> read_json(write_json(folder / "a.json", traj)).segments[0].states.shape
+    (2, 6)
+
+    References
+    ----------
+    RFC 8259, "The JavaScript Object Notation (JSON) Data Interchange Format" (2017).
+    """
     try:
         d = json.loads(Path(path).read_text(encoding="utf-8"))
     except OSError as e:
@@ -1222,7 +2183,41 @@ def read_json(path) -> ReadResult:
 
 
 def read(path, fmt: str | None = None) -> ReadResult:
-    """Read any of our formats (by ``fmt``, the suffix, or a look at the first line)."""
+    """Read any of our formats (by ``fmt``, the suffix, or a look at the first line).
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The file.
+    fmt : str, optional
+        The format.
+
+    Returns
+    -------
+    ReadResult
+        Header, segments, time system and frame.
+
+    Raises
+    ------
+    InputError
+        A missing file, an unknown format, a malformed file.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.time.frames import frame
+    >>> spec = frame(system("earth-moon"), 0.0, anchor="circular", center="earth")
+    >>> traj = Trajectory(spec, (Segment(np.array([0.0, 0.01]), np.tile([0.8, 0, 0, 0, 0.5, 0], (2, 1))),))
+    >>> import tempfile, pathlib
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> read(write(folder / "a.json", traj)).format
+    'json'
+
+    References
+    ----------
+    CCSDS 502.0-B-3, "Orbit Data Messages", Blue Book, Consultative Committee for Space Data
+    Systems (2023).; RFC 4180, "Common Format and MIME Type for Comma-Separated Values (CSV) Files" (2005).; RFC 8259, "The JavaScript Object Notation (JSON) Data Interchange Format" (2017).
+    """
     p = Path(path)
     if not p.exists():
         raise InputError(f"input file '{path}' does not exist")
@@ -1244,7 +2239,42 @@ def read(path, fmt: str | None = None) -> ReadResult:
 
 def to_rotating(data: ReadResult, frame: _frames.FrameSpec | None = None) -> tuple:
     """States read from a file -> nondimensional rotating :class:`Segment` s (t in TU from the
-    frame's epoch). ``frame`` defaults to the one the file describes."""
+    frame's epoch). ``frame`` defaults to the one the file describes.
+
+    Parameters
+    ----------
+    data : ReadResult
+        A file read.
+    frame : FrameSpec, optional
+        The frame (default: the file's).
+
+    Returns
+    -------
+    list of Segment
+        Nondimensional rotating segments.
+
+    Raises
+    ------
+    InputError
+        A file that does not describe its frame and no ``frame`` given.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.time.frames import frame
+    >>> spec = frame(system("earth-moon"), 0.0, anchor="circular", center="earth")
+    >>> traj = Trajectory(spec, (Segment(np.array([0.0, 0.01]), np.tile([0.8, 0, 0, 0, 0.5, 0], (2, 1))),))
+    >>> import tempfile, pathlib
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> segs = to_rotating(read(write(folder / "a.oem", traj)))
+    >>> bool(np.allclose(segs[0].states, traj.segments[0].states, atol=1e-9))
+    True
+
+    References
+    ----------
+    Gómez, G., Llibre, J., Martínez, R. & Simó, C., "Dynamics and Mission Design Near Libration
+    Points", vol. I, World Scientific (2001), ch. 1 (from memory).
+    """
     spec = frame or data.frame
     segs = []
     for s in data.segments:
@@ -1260,7 +2290,41 @@ def to_rotating(data: ReadResult, frame: _frames.FrameSpec | None = None) -> tup
 
 
 def trajectory_from(data: ReadResult, frame: _frames.FrameSpec | None = None) -> Trajectory:
-    """A :class:`Trajectory` again from a file read (for conversion between formats/frames)."""
+    """A :class:`Trajectory` again from a file read (for conversion between formats/frames).
+
+    Parameters
+    ----------
+    data : ReadResult
+        A file read.
+    frame : FrameSpec, optional
+        The frame (default: the file's).
+
+    Returns
+    -------
+    Trajectory
+        Ready to be written again.
+
+    Raises
+    ------
+    InputError
+        A file that does not describe its frame and no ``frame`` given.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.time.frames import frame
+    >>> spec = frame(system("earth-moon"), 0.0, anchor="circular", center="earth")
+    >>> traj = Trajectory(spec, (Segment(np.array([0.0, 0.01]), np.tile([0.8, 0, 0, 0, 0.5, 0], (2, 1))),))
+    >>> import tempfile, pathlib
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> trajectory_from(read(write(folder / "a.oem", traj))).time_system
+    'TDB'
+
+    References
+    ----------
+    CCSDS 502.0-B-3, "Orbit Data Messages", Blue Book, Consultative Committee for Space Data
+    Systems (2023).
+    """
     spec = frame or data.frame
     segs = to_rotating(data, spec)
     mans = tuple(Maneuver((tdb - spec.epoch_tdb_s) / spec.system.time_s,

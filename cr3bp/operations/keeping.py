@@ -44,15 +44,15 @@ from __future__ import annotations
 import math
 import os
 from dataclasses import dataclass, field
+from concurrent.futures import ProcessPoolExecutor, as_completed
+import logging
+import multiprocessing
 
 import numpy as np
 
 from .. import validate
 from ..errors import InputError, NoSolutionError
 from ..integrate.modes import MODE_EPHEMERIS
-import logging
-import multiprocessing
-from concurrent.futures import ProcessPoolExecutor, as_completed
 from ..cautions import caution
 from ..integrate.events import table
 from ..time import frames, ephemeris

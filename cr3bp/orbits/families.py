@@ -41,13 +41,13 @@ small amount and corrected with that component held (Howell 1984 for the halo br
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 
 import numpy as np
 
 from ..errors import ConvergenceError, InputError, NoSolutionError
 from . import continuation, recipes, seeds, shooting
 from ._collinear import collinear_point, point_name
-from dataclasses import replace
 from ..integrate import propagate
 
 #: The family words (the rows of :data:`cr3bp.orbits.recipes.RECIPES`, one per word of

@@ -11,10 +11,10 @@ import matplotlib.pyplot as plt  # noqa: E402
 import numpy as np  # noqa: E402
 from matplotlib.patches import Circle  # noqa: E402
 from matplotlib.ticker import FuncFormatter, MaxNLocator  # noqa: E402
+from mpl_toolkits.axes_grid1 import make_axes_locatable
 
 from ..io.atomic import save_figure  # noqa: E402
 from ..cautions import CAUTION_SHORT  # noqa: E402
-from mpl_toolkits.axes_grid1 import make_axes_locatable
 from ..cautions import caution_short
 from ..equilibria import lagrange_points
 

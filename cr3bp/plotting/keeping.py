@@ -3,9 +3,9 @@
 from __future__ import annotations
 
 import numpy as np
+from matplotlib.ticker import MaxNLocator
 
 from .base import new_figure, save
-from matplotlib.ticker import MaxNLocator
 
 
 def histogram(budget, path, title: str = "", text: str = ""):

@@ -9,10 +9,10 @@ from __future__ import annotations
 import numpy as np
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
+import matplotlib.pyplot as plt
 
 from .base import (VIEWS, axis_labels, colorbar_beside, draw_lagrange_points, draw_primaries, km_scale,
                    legend_beside, new_figure, scaled_axis)
-import matplotlib.pyplot as plt
 from ..energy import hill_region
 from ..errors import NoSolutionError
 from ..integrate import propagate

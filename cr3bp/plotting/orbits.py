@@ -5,13 +5,13 @@ from __future__ import annotations
 
 import numpy as np
 from matplotlib.ticker import FuncFormatter
-
-from .base import (VIEWS, axis_labels, colorbar_beside, draw_lagrange_points, draw_primaries,
-                   legend_beside, new_figure, title as set_title)
-import matplotlib.pyplot as plt
 from matplotlib.colors import Normalize
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
+import matplotlib.pyplot as plt
+
+from .base import (VIEWS, axis_labels, colorbar_beside, draw_lagrange_points, draw_primaries,
+                   legend_beside, new_figure, title as set_title)
 from ..equilibria import lagrange_points
 from ..integrate import propagate
 

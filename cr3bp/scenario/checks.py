@@ -41,6 +41,31 @@ SAMPLES_PER_PERIOD = 4000
 
 @dataclass(frozen=True)
 class CheckResult:
+    """One constraint check of a scenario orbit.
+
+    Parameters
+    ----------
+    name : str
+        The check's key.
+    description : str
+        What it checks.
+    required, actual, margin : float
+        The limit, the value, and how far inside the limit it is (negative: outside).
+    unit : str
+        Their unit.
+    passed : bool
+        Whether it holds.
+
+    Examples
+    --------
+    >>> CheckResult("max_period", "period", 7.0, 6.5, 0.5, "d", True).to_dict()["margin"]
+    0.5
+
+    References
+    ----------
+    Common practice (preliminary mission design outputs carry their model and a caution;
+    :mod:`cr3bp.cautions`).
+    """
     name: str
     description: str
     required: float
@@ -55,13 +80,71 @@ class CheckResult:
 
 
 def sample(orbit, n: int = SAMPLES_PER_PERIOD) -> np.ndarray:
-    """States (n, 6) evenly in time over one period."""
+    """States (n, 6) evenly in time over one period.
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+        The orbit.
+    n : int, optional
+        Samples.
+
+    Returns
+    -------
+    numpy.ndarray, shape (n, 6)
+        Rotating states.
+
+    Raises
+    ------
+    NoSolutionError
+        The propagation stops early.
+
+    Examples
+    --------
+    >>> states = sample(nrho, 100)                  # doctest: +SKIP
+
+    References
+    ----------
+    Hairer, E., Nørsett, S. P. & Wanner, G., "Solving Ordinary Differential Equations I",
+    2nd ed., Springer (1993), sec. II.6.
+    """
     t = np.linspace(0.0, orbit.period, n)
     return propagate(orbit.system, orbit.state, orbit.period, t_eval=t).states
 
 
 def altitude_km(system, states, which: int) -> np.ndarray:
-    """Altitude over primary ``which`` (0 larger, 1 smaller), km."""
+    """Altitude over primary ``which`` (0 larger, 1 smaller), km.
+
+    Parameters
+    ----------
+    system : System
+        Dimensional, with named primaries (their radii).
+    states : array_like, shape (N, 6)
+        Rotating states.
+    which : {0, 1}
+        The primary.
+
+    Returns
+    -------
+    numpy.ndarray, shape (N,)
+        km above the mean radius.
+
+    Raises
+    ------
+    InputError
+        A system without units or radii.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> em = system("earth-moon")
+    >>> float(altitude_km(em, np.array([[1 - em.mu + 2000.0 / em.length_km, 0, 0, 0, 0, 0]]), 1)[0]).__round__(1)
+    262.6
+
+    References
+    ----------
+    Szebehely, V., "Theory of Orbits", Academic Press (1967) (the CR3BP and its units).
+    """
     system.require_dimensional("an altitude")
     x = system.positions[which]
     body = (system.primary, system.secondary)[which]
@@ -103,6 +186,37 @@ def angle_at_earth_deg(system, t_tu, states, epoch, body: str) -> np.ndarray:
     InputError
         The system has no ephemeris for its pair (only Earth-Moon, Sun-Earth, Sun-Mars and
         Sun-Jupiter have), or the epochs fall outside the ephemeris.
+
+    Parameters
+    ----------
+    system : System
+        A system with an ephemeris pair.
+    t_tu : array_like, shape (N,)
+        Rotating times, TU from ``epoch``.
+    states : array_like, shape (N, 6)
+        Rotating states.
+    epoch : str or float
+        The date of rotating time 0.
+    body : {"sun", "moon"}
+        The other direction.
+
+    Returns
+    -------
+    numpy.ndarray, shape (N,)
+        Degrees.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> em = system("earth-moon")
+    >>> a = angle_at_earth_deg(em, np.zeros(1), np.array([[0.5, 0.1, 0, 0, 0, 0]]), 0.0, "moon")
+    >>> bool(0.0 <= a[0] <= 180.0)
+    True
+
+    References
+    ----------
+    Folkner, W. M., Williams, J. G. & Boggs, D. H., "The Planetary and Lunar Ephemeris DE 421",
+    JPL IPN Progress Report 42-178 (2009).
     """
     if body not in ("sun", "moon"):
         raise InputError(f"angle at the Earth from '{body}': allowed sun, moon")
@@ -137,7 +251,36 @@ def angle_at_earth_deg(system, t_tu, states, epoch, body: str) -> np.ndarray:
 
 
 def angle_check_problem(system, body: str = "sun") -> str:
-    """Why an angle at the Earth cannot be measured in ``system`` ("" when it can)."""
+    """Why an angle at the Earth cannot be measured in ``system`` ("" when it can).
+
+    Parameters
+    ----------
+    system : System
+        The system.
+    body : {"sun", "moon"}
+        The other direction.
+
+    Returns
+    -------
+    str
+        The reason, or "".
+
+    Raises
+    ------
+    AttributeError
+        Not a system.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> angle_check_problem(system("earth-moon"), "sun")
+    ''
+
+    References
+    ----------
+    Common practice (preliminary mission design outputs carry their model and a caution;
+    :mod:`cr3bp.cautions`).
+    """
     p, q = _names(system)
     if (p, q) in (("earth", "moon"), ("sun", "earth-moon"), ("sun", "mars-system"), ("sun", "jupiter-system")):
         return ""
@@ -147,9 +290,41 @@ def angle_check_problem(system, body: str = "sun") -> str:
 
 
 def plan_problems(system, checks: dict, epoch) -> list[tuple[str, str]]:
-    """Problems of a scenario's ``checks`` table found before anything is computed:
-    ``[(key, message)]`` for withdrawn keys, angle checks in systems without the geometry, and
-    an epoch outside the ephemeris."""
+    """Problems of a scenario's ``checks`` table found before anything is computed.
+
+    Withdrawn keys, angle checks in systems without the geometry, and an epoch outside the
+    ephemeris.
+
+    Parameters
+    ----------
+    system : System
+        The scenario's system.
+    checks : dict
+        The ``checks`` table.
+    epoch : str or float
+        The scenario's epoch.
+
+    Returns
+    -------
+    list of (str, str)
+        ``(key, message)`` pairs.
+
+    Raises
+    ------
+    TypeError
+        A ``checks`` that is not a table.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> plan_problems(system("earth-moon"), {"max_period": "7d"}, 0.0)
+    []
+
+    References
+    ----------
+    Common practice (preliminary mission design outputs carry their model and a caution;
+    :mod:`cr3bp.cautions`).
+    """
     out = []
     for key in checks:
         if key in RENAMED_CHECKS:
@@ -176,8 +351,37 @@ def plan_problems(system, checks: dict, epoch) -> list[tuple[str, str]]:
 
 
 def occultation_clearance_km(system, states) -> np.ndarray:
-    """Distance (km) by which the spacecraft-to-larger-primary segment clears the smaller
-    primary's surface (negative: the line of sight is blocked)."""
+    """Distance by which the spacecraft-to-larger-primary line clears the smaller primary.
+
+    Parameters
+    ----------
+    system : System
+        Dimensional, with named primaries.
+    states : array_like, shape (N, 6)
+        Rotating states.
+
+    Returns
+    -------
+    numpy.ndarray, shape (N,)
+        km (negative: the line of sight is blocked).
+
+    Raises
+    ------
+    InputError
+        A system without units or radii.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> em = system("earth-moon")
+    >>> float(occultation_clearance_km(em, np.array([[1.2, 0, 0, 0, 0, 0]]))[0]) < 0   # behind the Moon
+    True
+
+    References
+    ----------
+    Vallado, D. A., "Fundamentals of Astrodynamics and Applications", 4th ed. (2013), sec. 5.3
+    (line of sight between two points past a sphere).
+    """
     system.require_dimensional("a line-of-sight clearance")
     p1 = np.array([system.positions[0], 0.0, 0.0])
     p2 = np.array([system.positions[1], 0.0, 0.0])
@@ -206,6 +410,38 @@ def run_checks(orbit, checks: dict, states=None, epoch=None, phase_deg: float = 
     ``max_eclipse_per_year`` (times; the orbit started at ``phase_deg`` at ``epoch``, a year of
     Earth and Moon shadows, :func:`eclipse_history`). ``states`` are samples evenly in time
     over one period from t = 0 (as :func:`sample` gives).
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+        The orbit.
+    checks : dict
+        The scenario's ``checks`` table.
+    states : numpy.ndarray, optional
+        :func:`sample` of the orbit.
+    epoch : str or float, optional
+        The date of rotating time 0.
+    phase_deg : float, optional
+        The orbit's phase at the epoch.
+
+    Returns
+    -------
+    list of CheckResult
+        One per key.
+
+    Raises
+    ------
+    InputError
+        A value that cannot be read, or a check the system cannot make.
+
+    Examples
+    --------
+    >>> results = run_checks(nrho, {"max_period": "7d"})      # doctest: +SKIP
+
+    References
+    ----------
+    Montenbruck, O. & Gill, E., "Satellite Orbits: Models, Methods and Applications",
+    Springer (2000), sec. 3.4.2 (conical shadow model).
     """
     system = orbit.system
     if states is None and checks:
@@ -260,7 +496,36 @@ _HISTORIES: dict = {}
 
 
 def eclipse_check_problem(system, value) -> str:
-    """Why an eclipse check cannot be made ("" when it can): the system, or the value."""
+    """Why an eclipse check cannot be made ("" when it can): the system, or the value.
+
+    Parameters
+    ----------
+    system : System
+        The system.
+    value : str
+        The check's limit (a time).
+
+    Returns
+    -------
+    str
+        The reason, or "".
+
+    Raises
+    ------
+    AttributeError
+        Not a system.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> eclipse_check_problem(system("earth-moon"), "30min")
+    ''
+
+    References
+    ----------
+    Montenbruck, O. & Gill, E., "Satellite Orbits: Models, Methods and Applications",
+    Springer (2000), sec. 3.4.2 (conical shadow model).
+    """
     if system.name not in ECLIPSE_SYSTEMS:
         return (f"eclipse checks are computed for {' and '.join(ECLIPSE_SYSTEMS)} only (the Earth and the "
                 f"Moon as occulting bodies), not '{system.name}'")
@@ -276,7 +541,36 @@ def eclipse_check_problem(system, value) -> str:
 def eclipse_history(orbit, epoch, phase_deg: float = 0.0):
     """Shadow passes (:class:`cr3bp.operations.phasing.History`) of ``orbit`` placed at ``epoch``
     (ISO text or TDB s) and started at ``phase_deg``, over :data:`ECLIPSE_SPAN_DAYS`; computed
-    once per orbit, epoch and phase in a run (the checks and the report's timeline share it)."""
+    once per orbit, epoch and phase in a run (the checks and the report's timeline share it).
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+        The orbit.
+    epoch : str or float
+        The date of rotating time 0.
+    phase_deg : float
+        The orbit's phase at the epoch.
+
+    Returns
+    -------
+    History
+        The passes.
+
+    Raises
+    ------
+    InputError
+        A system without an ephemeris pair, epochs outside the ephemeris.
+
+    Examples
+    --------
+    >>> h = eclipse_history(nrho, "2031-03-01T00:00:00 TDB", 0.0)    # doctest: +SKIP
+
+    References
+    ----------
+    Montenbruck, O. & Gill, E., "Satellite Orbits: Models, Methods and Applications",
+    Springer (2000), sec. 3.4.2 (conical shadow model).
+    """
     key = (orbit.system.name, tuple(np.asarray(orbit.state, dtype=float)), float(orbit.period), str(epoch),
            float(phase_deg) % 360.0)
     if key not in _HISTORIES:
@@ -289,7 +583,40 @@ def eclipse_history(orbit, epoch, phase_deg: float = 0.0):
 
 
 def eclipse_check(orbit, key: str, value, epoch, phase_deg: float = 0.0) -> CheckResult:
-    """One eclipse check: the longest pass or the total per year (minutes) against ``value``."""
+    """One eclipse check: the longest pass or the total per year (minutes) against ``value``.
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+        The orbit.
+    key : {"max_eclipse_duration", "max_eclipse_per_year"}
+        The check.
+    value : str
+        The limit (a time).
+    epoch : str or float
+        The date of rotating time 0.
+    phase_deg : float
+        The orbit's phase at the epoch.
+
+    Returns
+    -------
+    CheckResult
+        The check.
+
+    Raises
+    ------
+    InputError
+        An unreadable limit.
+
+    Examples
+    --------
+    >>> c = eclipse_check(nrho, "max_eclipse_duration", "90min", "2031-03-01T00:00:00 TDB", 0.0)  # doctest: +SKIP
+
+    References
+    ----------
+    Montenbruck, O. & Gill, E., "Satellite Orbits: Models, Methods and Applications",
+    Springer (2000), sec. 3.4.2 (conical shadow model).
+    """
     if epoch is None:
         raise InputError(f"check '{key}' needs the epoch of rotating time 0")
     why = eclipse_check_problem(orbit.system, value)
@@ -303,7 +630,38 @@ def eclipse_check(orbit, key: str, value, epoch, phase_deg: float = 0.0) -> Chec
 
 
 def eclipse_figures(plan, orbits, out, formats) -> dict:
-    """The eclipse timeline of every orbit with an eclipse check (report figures ``eclipses-NAME``)."""
+    """The eclipse timeline of every orbit with an eclipse check (report figures ``eclipses-NAME``).
+
+    Parameters
+    ----------
+    plan : Plan
+        The checked scenario.
+    orbits : dict
+        Name -> PeriodicOrbit.
+    out : Outputs
+        Where the figures go.
+    formats : sequence of str
+        Image formats.
+
+    Returns
+    -------
+    dict
+        Figure name -> (path, caption).
+
+    Raises
+    ------
+    OutputError
+        A figure cannot be written.
+
+    Examples
+    --------
+    >>> figs = eclipse_figures(plan, orbits, out, ("png",))     # doctest: +SKIP
+
+    References
+    ----------
+    Montenbruck, O. & Gill, E., "Satellite Orbits: Models, Methods and Applications",
+    Springer (2000), sec. 3.4.2 (conical shadow model).
+    """
     from ..plotting.eclipses import timeline_figure  # lazy: heavy library (matplotlib, via cr3bp.plotting.eclipses)
     figs = {}
     for name, entry in plan.data["orbits"].items():

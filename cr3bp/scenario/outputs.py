@@ -18,13 +18,71 @@ from ..plotting.fingerprint import fingerprint
 
 
 def json_text(obj) -> str:
-    """``obj`` as indented, key-sorted JSON text (numpy values made plain)."""
+    """``obj`` as indented, key-sorted JSON text (numpy values made plain).
+
+    Parameters
+    ----------
+    obj : object
+        A nested value.
+
+    Returns
+    -------
+    str
+        JSON text ending in a newline.
+
+    Raises
+    ------
+    TypeError
+        A value with no plain form.
+
+    Examples
+    --------
+    >>> print(json_text({"b": 1, "a": np.float64(0.5)}), end="")
+    {
+      "a": 0.5,
+      "b": 1
+    }
+
+    References
+    ----------
+    RFC 8259, "The JavaScript Object Notation (JSON) Data Interchange Format" (2017).
+    """
     return json.dumps(obj, indent=2, sort_keys=True, default=json_default) + "\n"
 
 
 def csv_text(headers, rows, comments=()) -> str:
-    """CSV text: ``comments`` and the caution as ``#`` lines, the header row, then ``rows``
-    (floats written with ``repr``, so they read back exactly)."""
+    """CSV text: ``comments`` and the caution as ``#`` lines, the header row, then ``rows``.
+
+    Floats are written with ``repr``, so they read back exactly.
+
+    Parameters
+    ----------
+    headers : sequence of str
+        The column names.
+    rows : iterable of sequence
+        The rows.
+    comments : sequence of str, optional
+        Lines before the caution.
+
+    Returns
+    -------
+    str
+        The text.
+
+    Raises
+    ------
+    csv.Error
+        A value the writer cannot quote.
+
+    Examples
+    --------
+    >>> csv_text(["a"], [[0.1]], ["demo"]).splitlines()[-2:]
+    ['a', '0.1']
+
+    References
+    ----------
+    RFC 4180, "Common Format and MIME Type for Comma-Separated Values (CSV) Files" (2005).
+    """
     buf = io.StringIO()
     for c in list(comments) + caution_lines():
         buf.write(f"# {c}\n")
@@ -36,18 +94,83 @@ def csv_text(headers, rows, comments=()) -> str:
 
 
 def say(progress, text):
-    """One progress line, when the caller asked for them."""
+    """One progress line, when the caller asked for them.
+
+    Parameters
+    ----------
+    progress : callable(str) or None
+        Where the line goes.
+    text : str
+        The line.
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    Exception
+        Whatever ``progress`` raises.
+
+    Examples
+    --------
+    >>> say(print, "orbits: 2 of 2")
+    orbits: 2 of 2
+
+    References
+    ----------
+    Common practice (numerics never print; the caller chooses what a person sees).
+    """
     if progress is not None:
         progress(text)
 
 
 def save_figures(fig, out, stem, formats, caption):
-    """Save ``fig`` in every format (SVG without a date, for reproducible files); the PNG path.
+    """Save ``fig`` in every format (SVG without a date, for reproducible files).
 
     When ``out.figures`` is a catalogue, a figure whose content key
     (:func:`cr3bp.plotting.fingerprint.fingerprint`: its artists, the caption, the formats,
     the code and matplotlib's settings) is stored there is not drawn: its stored files, the
-    bytes an earlier drawing gave, are written instead. A figure drawn is stored."""
+    bytes an earlier drawing gave, are written instead. A figure drawn is stored.
+
+    Parameters
+    ----------
+    fig : matplotlib.figure.Figure
+        The figure (closed afterwards).
+    out : Outputs
+        Where the files go.
+    stem : str
+        The file name without suffix.
+    formats : sequence of str
+        ``"png"``, ``"svg"``, ...
+    caption : str
+        The caption drawn in the figure.
+
+    Returns
+    -------
+    dict
+        ``{"path": first file, "caption": caption, "reused": bool}``.
+
+    Raises
+    ------
+    OutputError
+        A file cannot be written.
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> from pathlib import Path
+    >>> from matplotlib.figure import Figure
+    >>> from cr3bp.scenario.run import Outputs
+    >>> out = Outputs(Path(tempfile.mkdtemp()))
+    >>> save_figures(Figure(), out, "demo", ["svg"], "a caption")["path"].name
+    'demo.svg'
+
+    References
+    ----------
+    Hunter, J. D., "Matplotlib: A 2D graphics environment", Computing in Science & Engineering
+    9(3), 90 (2007).
+    """
     import matplotlib.pyplot as plt  # lazy: heavy library (matplotlib)
     from ..plotting.base import caption as add_caption  # lazy: heavy library (matplotlib, via cr3bp.plotting.base)
     store = getattr(out, "figures", None)

@@ -40,10 +40,62 @@ figcaption { font-size: 0.8rem; color: #444; }
 
 
 def esc(v) -> str:
+    """HTML-escape a value's text.
+
+    Parameters
+    ----------
+    v : object
+        The value.
+
+    Returns
+    -------
+    str
+        Escaped text.
+
+    Raises
+    ------
+    Exception
+        Whatever ``str(v)`` raises.
+
+    Examples
+    --------
+    >>> esc("<a & b>")
+    '&lt;a &amp; b&gt;'
+
+    References
+    ----------
+    WHATWG, "HTML Living Standard", https://html.spec.whatwg.org/ (tables, ``img`` with data URLs).
+    """
     return html.escape(str(v))
 
 
 def fmt(v) -> str:
+    """A value as report text: 6 significant digits, "–" for none or non-finite, yes/no.
+
+    Parameters
+    ----------
+    v : object
+        The value.
+
+    Returns
+    -------
+    str
+        HTML-safe text.
+
+    Raises
+    ------
+    Exception
+        Whatever ``str(v)`` raises.
+
+    Examples
+    --------
+    >>> fmt(1.23456789), fmt(None), fmt(True), fmt([1.0, 2.5])
+    ('1.23457', '–', 'yes', '1, 2.5')
+
+    References
+    ----------
+    WHATWG, "HTML Living Standard", https://html.spec.whatwg.org/ (tables, ``img`` with data URLs).
+    """
     if v is None:
         return "–"
     if isinstance(v, bool):
@@ -58,6 +110,36 @@ def fmt(v) -> str:
 
 
 def table(headers, rows, left=1) -> str:
+    """An HTML table; the first ``left`` columns are left-aligned.
+
+    Parameters
+    ----------
+    headers : sequence of str
+        Column names (escaped).
+    rows : iterable of sequence
+        Cells (HTML, written as given).
+    left : int, optional
+        Left-aligned columns.
+
+    Returns
+    -------
+    str
+        HTML.
+
+    Raises
+    ------
+    TypeError
+        Rows that are not sequences.
+
+    Examples
+    --------
+    >>> table(["x"], [["1"]])
+    '<table><thead><tr><th class="l">x</th></tr></thead><tbody><tr><td class="l">1</td></tr></tbody></table>'
+
+    References
+    ----------
+    WHATWG, "HTML Living Standard", https://html.spec.whatwg.org/ (tables, ``img`` with data URLs).
+    """
     head = "".join(f'<th class="{"l" if i < left else ""}">{esc(h)}</th>' for i, h in enumerate(headers))
     body = "".join(
         "<tr>" + "".join(f'<td class="{"l" if i < left else ""}">{c}</td>' for i, c in enumerate(r)) + "</tr>"
@@ -66,13 +148,65 @@ def table(headers, rows, left=1) -> str:
 
 
 def kv_table(pairs) -> str:
+    """A two-column quantity/value table.
+
+    Parameters
+    ----------
+    pairs : iterable of (str, object)
+        Names and values (formatted with :func:`fmt`).
+
+    Returns
+    -------
+    str
+        HTML.
+
+    Raises
+    ------
+    ValueError
+        Items that are not pairs.
+
+    Examples
+    --------
+    >>> '<td class="l">period</td>' in kv_table([("period", 6.5)])
+    True
+
+    References
+    ----------
+    WHATWG, "HTML Living Standard", https://html.spec.whatwg.org/ (tables, ``img`` with data URLs).
+    """
     return table(["quantity", "value"], [(esc(k), fmt(v)) for k, v in pairs])
 
 
 def figure(path, caption: str) -> str:
     """An <img> with the file's bytes embedded (PNG or SVG) and its caption. The caution stands
     once at the top of the report (and once inside each figure, in the image's own caption),
-    not again under every figure."""
+    not again under every figure.
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        A PNG or SVG file.
+    caption : str
+        The caption.
+
+    Returns
+    -------
+    str
+        HTML.
+
+    Raises
+    ------
+    OSError
+        The file cannot be read.
+
+    Examples
+    --------
+    >>> html_text = figure("orbits.png", "The orbits")        # doctest: +SKIP
+
+    References
+    ----------
+    WHATWG, "HTML Living Standard", https://html.spec.whatwg.org/ (tables, ``img`` with data URLs).; RFC 2397, "The 'data' URL scheme" (1998).
+    """
     path = Path(path)
     data = path.read_bytes()
     mime = "image/svg+xml" if path.suffix.lower() == ".svg" else "image/png"
@@ -82,7 +216,33 @@ def figure(path, caption: str) -> str:
 
 
 def check_row(check: dict) -> tuple:
-    """A constraint row: name, required, actual, margin, pass/fail."""
+    """A constraint row: name, required, actual, margin, pass/fail.
+
+    Parameters
+    ----------
+    check : dict
+        :meth:`CheckResult.to_dict` of the check.
+
+    Returns
+    -------
+    tuple of str
+        Cells (HTML).
+
+    Raises
+    ------
+    AttributeError
+        Not a dict.
+
+    Examples
+    --------
+    >>> from cr3bp.scenario.checks import CheckResult
+    >>> check_row(CheckResult("max_period", "period", 7.0, 6.5, 0.5, "d", True).to_dict())[-1]
+    '<span class="pass">PASS</span>'
+
+    References
+    ----------
+    WHATWG, "HTML Living Standard", https://html.spec.whatwg.org/ (tables, ``img`` with data URLs).
+    """
     ok = bool(check.get("passed"))
     return (esc(check.get("name", "")), fmt(check.get("required")), fmt(check.get("actual")),
             fmt(check.get("margin")), f'<span class="{"pass" if ok else "fail"}">{"PASS" if ok else "FAIL"}</span>')
@@ -90,7 +250,35 @@ def check_row(check: dict) -> tuple:
 
 def document(title: str, sections: list[tuple[str, str]]) -> str:
     """The whole HTML page: the caution (once, at the top), assumptions, then the given
-    (heading, html) sections."""
+    (heading, html) sections.
+
+    Parameters
+    ----------
+    title : str
+        The page title.
+    sections : iterable of (str, str)
+        Heading and HTML of each section.
+
+    Returns
+    -------
+    str
+        The page.
+
+    Raises
+    ------
+    ValueError
+        Sections that are not pairs.
+
+    Examples
+    --------
+    >>> "preliminary" in document("Demo", [("Orbits", "<p>none</p>")])
+    True
+
+    References
+    ----------
+    WHATWG, "HTML Living Standard", https://html.spec.whatwg.org/ (tables, ``img`` with data URLs).; Common practice (preliminary mission design outputs carry their model and a caution;
+    :mod:`cr3bp.cautions`).
+    """
     parts = [
         "<!DOCTYPE html>", '<html lang="en"><head><meta charset="utf-8">',
         f"<title>{esc(title)}</title><style>{_STYLE}</style></head><body>",
@@ -106,5 +294,37 @@ def document(title: str, sections: list[tuple[str, str]]) -> str:
 
 
 def write(path, title: str, sections) -> Path:
+    """Write the HTML page atomically.
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The file.
+    title : str
+        The page title.
+    sections : iterable of (str, str)
+        Heading and HTML of each section.
+
+    Returns
+    -------
+    pathlib.Path
+        The file written.
+
+    Raises
+    ------
+    OutputError
+        The file cannot be written.
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> p = write(Path(tempfile.mkdtemp()) / "r.html", "Demo", [])
+    >>> p.read_text().startswith("<!DOCTYPE html>")
+    True
+
+    References
+    ----------
+    WHATWG, "HTML Living Standard", https://html.spec.whatwg.org/ (tables, ``img`` with data URLs).
+    """
     write_text(path, document(title, sections))
     return Path(path)

@@ -21,7 +21,33 @@ def _system_section(plan) -> str:
 
 def places_note(d) -> str:
     """A sentence when the orbit's target is met at more than one place along its family
-    (``target_matches`` of :meth:`PeriodicOrbit.to_dict`), else ""."""
+    (``target_matches`` of :meth:`PeriodicOrbit.to_dict`), else "".
+
+    Parameters
+    ----------
+    d : dict
+        :meth:`PeriodicOrbit.to_dict` of the orbit.
+
+    Returns
+    -------
+    str
+        The sentence, or "".
+
+    Raises
+    ------
+    KeyError
+        ``target_matches`` without its keys.
+
+    Examples
+    --------
+    >>> places_note({})
+    ''
+
+    References
+    ----------
+    Common practice (preliminary mission design outputs carry their model and a caution;
+    :mod:`cr3bp.cautions`).
+    """
     places = describe_places(d)
     if not places:
         return ""
@@ -109,7 +135,33 @@ def _routes_section(routes, figures, views=None, stitched=None, orbits=None) -> 
 
 
 def tof_definition_note(legs) -> str:
-    """The footnotes of the route table: what each time of flight measures (CR3BP times)."""
+    """The footnotes of the route table: what each time of flight measures (CR3BP times).
+
+    Parameters
+    ----------
+    legs : list of dict
+        The route table's legs (``arrival_distance_km``).
+
+    Returns
+    -------
+    str
+        The footnotes.
+
+    Raises
+    ------
+    TypeError
+        Legs that are not tables.
+
+    Examples
+    --------
+    >>> "CR3BP" in tof_definition_note([{"arrival_distance_km": 100.0}])
+    True
+
+    References
+    ----------
+    Common practice (preliminary mission design outputs carry their model and a caution;
+    :mod:`cr3bp.cautions`).
+    """
     dists = sorted({l["arrival_distance_km"] for l in legs if l.get("arrival_distance_km") is not None})
     within = " or ".join(f"{d:g} km" for d in dists) or "the stated distance"
     return ("Times of flight in the CR3BP model. ¹ Time of flight to arrival: from the leg's start until its "
@@ -129,7 +181,38 @@ def _exports_section(exports) -> str:
 def write_report(plan, orbits, checks, routes, exports, figures, out, stitched=None):
     """The report. Each orbit, and each route of ``stitched`` (route name -> StitchedRoute),
     also gets an interactive 3-D figure (plotly.js once, inline; no network) unless the
-    scenario's ``[plots]`` sets ``interactive = false``."""
+    scenario's ``[plots]`` sets ``interactive = false``.
+
+    Parameters
+    ----------
+    plan : Plan
+        The checked scenario.
+    orbits, checks, routes, exports, figures : dict
+        What the run computed and wrote.
+    out : Outputs
+        Where the report goes.
+    stitched : dict, optional
+        Route name -> StitchedRoute.
+
+    Returns
+    -------
+    pathlib.Path
+        The report.
+
+    Raises
+    ------
+    OutputError
+        The report cannot be written.
+
+    Examples
+    --------
+    >>> report = write_report(plan, orbits, checks, routes, exports, figures, out)   # doctest: +SKIP
+
+    References
+    ----------
+    WHATWG, "HTML Living Standard", https://html.spec.whatwg.org/ (tables, ``img`` with data URLs).; Common practice (preliminary mission design outputs carry their model and a caution;
+    :mod:`cr3bp.cautions`).
+    """
     views = None
     if plan.data.get("plots", {}).get("interactive", True):
         from ..plotting.interactive import ReportFigures  # lazy: heavy library (matplotlib, via cr3bp.plotting.interactive)

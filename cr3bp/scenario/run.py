@@ -52,7 +52,35 @@ TARGET_KEYS = ORBIT_TARGETS
 
 @dataclass(frozen=True)
 class Plan:
-    """A checked scenario: what to compute, nothing computed yet."""
+    """A checked scenario: what to compute, nothing computed yet.
+
+    Parameters
+    ----------
+    path : pathlib.Path
+        The scenario file.
+    data : dict
+        The checked document.
+    system : System
+        The scenario's system.
+    epoch : str or float
+        The scenario's epoch.
+    orbit_specs : dict
+        Orbit name -> its request.
+    sha256 : str
+        Hash of the file (the manifest records it).
+
+    Examples
+    --------
+    >>> from pathlib import Path
+    >>> import cr3bp
+    >>> plan = prepare(Path(cr3bp.__file__).parents[1] / "examples" / "farlight.toml")
+    >>> plan.system.name
+    'earth-moon'
+
+    References
+    ----------
+    TOML v1.0.0 (2021), https://toml.io/en/v1.0.0.
+    """
 
     path: Path
     data: dict
@@ -68,8 +96,28 @@ class Plan:
 
 @dataclass
 class Outputs:
-    """The files a run writes (in order), in its staging folder; ``figures``: the catalogue
-    that keeps drawn figures for reuse (None: draw every figure)."""
+    """The files a run writes into its folder, in the order they are named.
+
+    Parameters
+    ----------
+    folder : pathlib.Path
+        The (staging) folder.
+    files : list of pathlib.Path
+        Paths handed out so far.
+    figures : Catalog or None
+        The catalogue that keeps drawn figures for reuse (None: draw every figure).
+
+    Examples
+    --------
+    >>> o = Outputs(Path("out"))
+    >>> o.path("report.html").as_posix(), len(o.files)
+    ('out/report.html', 1)
+
+    References
+    ----------
+    Common practice (preliminary mission design outputs carry their model and a caution;
+    :mod:`cr3bp.cautions`).
+    """
     folder: Path
     files: list = field(default_factory=list)
     figures: object = None
@@ -89,9 +137,38 @@ def _spec_for(entry: dict):
 
 
 def prepare(path) -> Plan:
-    """Read and check a scenario: the schema (file, line, key), then the meaning of each value
-    (system, epoch, orbit requests, references between sections). Raises ScenarioError listing
-    every problem; nothing is computed or written."""
+    """Read and check a scenario; nothing is computed or written.
+
+    First the schema (file, line, key), then the meaning of each value (system, epoch, orbit
+    requests, references between sections).
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The scenario file (TOML).
+
+    Returns
+    -------
+    Plan
+        The checked scenario.
+
+    Raises
+    ------
+    ScenarioError
+        Every problem, each as ``FILE:LINE: key: message``.
+
+    Examples
+    --------
+    >>> from pathlib import Path
+    >>> import cr3bp
+    >>> plan = prepare(Path(cr3bp.__file__).parents[1] / "examples" / "farlight.toml")
+    >>> sorted(plan.orbit_specs)
+    ['relay', 'staging']
+
+    References
+    ----------
+    TOML v1.0.0 (2021), https://toml.io/en/v1.0.0.
+    """
     path = Path(path)
     file = schema.path_text(path)
     text = schema.read_text(path)
@@ -326,7 +403,36 @@ def _check_parking(key, text, system, add):
 
 
 def planned_files(data) -> dict:
-    """Every file name a run of ``data`` writes -> the scenario key that makes it."""
+    """Every file name a run of ``data`` writes -> the scenario key that makes it.
+
+    Parameters
+    ----------
+    data : dict
+        A checked scenario document (:attr:`Plan.data`).
+
+    Returns
+    -------
+    dict
+        File name -> key.
+
+    Raises
+    ------
+    KeyError
+        A document that was not checked.
+
+    Examples
+    --------
+    >>> from pathlib import Path
+    >>> import cr3bp
+    >>> plan = prepare(Path(cr3bp.__file__).parents[1] / "examples" / "farlight.toml")
+    >>> "checks.csv" in planned_files(plan.data)
+    True
+
+    References
+    ----------
+    Common practice (preliminary mission design outputs carry their model and a caution;
+    :mod:`cr3bp.cautions`).
+    """
     fmts = [f for f in data.get("plots", {}).get("formats", ["png"]) if f in SCENARIO_IMAGE_FORMATS]
     plots = data.get("plots", {})
     planned = {}
@@ -361,6 +467,32 @@ def planned_files(data) -> dict:
 
 
 def export_file_name(ex) -> str:
+    """The file name of one ``[[exports]]`` entry: its ``file`` or ``OBJECT.FORMAT``.
+
+    Parameters
+    ----------
+    ex : dict
+        The entry.
+
+    Returns
+    -------
+    str
+        The file name.
+
+    Raises
+    ------
+    KeyError
+        An entry without ``file`` and without ``object`` or ``format``.
+
+    Examples
+    --------
+    >>> export_file_name({"object": "relay", "format": "oem"})
+    'relay.oem'
+
+    References
+    ----------
+    CCSDS 502.0-B-3, "Orbit Data Messages" (2023).
+    """
     return ex.get("file") or f"{ex['object']}.{ex['format']}"
 
 
@@ -397,6 +529,35 @@ def _sha256(path: Path) -> str:
 
 
 def creation_date(plan: Plan) -> str:
+    """The creation date written into the run's files: the scenario's, else now (UTC).
+
+    Parameters
+    ----------
+    plan : Plan
+        The checked scenario.
+
+    Returns
+    -------
+    str
+        ISO 8601 text.
+
+    Raises
+    ------
+    KeyError
+        A plan without its document.
+
+    Examples
+    --------
+    >>> from pathlib import Path
+    >>> import cr3bp
+    >>> plan = prepare(Path(cr3bp.__file__).parents[1] / "examples" / "farlight.toml")
+    >>> creation_date(plan)
+    '2026-12-01T00:00:00'
+
+    References
+    ----------
+    ISO 8601-1:2019; CCSDS 502.0-B-3, "Orbit Data Messages" (2023) (CREATION_DATE).
+    """
     issued = plan.data["mission"].get("issued")
     if issued:
         return issued
@@ -413,6 +574,33 @@ ORBIT_COLUMNS = ["name", "family", "point", "branch", "period_days", "jacobi", "
 
 
 def orbit_row(name, orbit) -> list:
+    """One row of the run's orbit table: name, request, period, Jacobi constant, stability.
+
+    Parameters
+    ----------
+    name : str
+        The scenario's orbit name.
+    orbit : PeriodicOrbit
+        The solved orbit.
+
+    Returns
+    -------
+    list
+        The row.
+
+    Raises
+    ------
+    AttributeError
+        Not a periodic orbit.
+
+    Examples
+    --------
+    >>> row = orbit_row("relay", nrho)        # doctest: +SKIP
+
+    References
+    ----------
+    Szebehely, V., "Theory of Orbits", Academic Press (1967) (the CR3BP and its units).
+    """
     d = orbit.to_dict()
     nu = [float(np.real(v)) for v in orbit.stability_indices]
     amp = d.get("amplitude_km") or {}
@@ -425,6 +613,34 @@ def orbit_row(name, orbit) -> list:
 
 @dataclass(frozen=True)
 class RunResult:
+    """What a run wrote: the folder, the report, the manifest and the results.
+
+    Parameters
+    ----------
+    folder, report, manifest : pathlib.Path
+        The output folder, its HTML report and its manifest.
+    orbits : dict
+        Name -> PeriodicOrbit.
+    checks : dict
+        Orbit name -> list of CheckResult.
+    routes : dict
+        Transfer name -> summary.
+    files : tuple of pathlib.Path
+        Every file written.
+    seconds : float
+        Wall time.
+
+    Examples
+    --------
+    >>> result = cr3bp.run("examples/farlight.toml", out="out")     # doctest: +SKIP
+    >>> result.report.name                                           # doctest: +SKIP
+    'report.html'
+
+    References
+    ----------
+    Common practice (preliminary mission design outputs carry their model and a caution;
+    :mod:`cr3bp.cautions`).
+    """
     folder: Path
     report: Path
     manifest: Path
@@ -456,6 +672,32 @@ def run(plan: Plan, folder, *, catalog=None, workers=None, scheduler=None, progr
         scenario's ``settings.workers`` when not given)
     progress : callable(str), optional: one line per step
     reduced : smaller samples (tests)
+
+    Returns
+    -------
+    RunResult
+        What was written.
+
+    Raises
+    ------
+    InputError
+        An unusable output folder (:func:`check_output_folder`).
+    ScenarioError
+        Spans too long once the periods are known, targets outside their family.
+    OutputError
+        A file cannot be written; the folder is left as it was.
+
+    Examples
+    --------
+    >>> from pathlib import Path
+    >>> import cr3bp
+    >>> plan = prepare(Path(cr3bp.__file__).parents[1] / "examples" / "farlight.toml")
+    >>> result = run(plan, "out")                 # doctest: +SKIP
+
+    References
+    ----------
+    Common practice (preliminary mission design outputs carry their model and a caution;
+    :mod:`cr3bp.cautions`).
     """
     started = time.time()
     if workers is None:
@@ -511,9 +753,36 @@ def _pid_alive(pid: int) -> bool:
 
 
 def remove_stale_parts(folder: Path) -> list:
-    """Remove what an interrupted (killed) run left in ``folder``: staging folders of runs
-    whose process is gone and temporary ``.NAME.XXXX.part`` files of atomic writes. Returns
-    the names removed."""
+    """Remove what an interrupted (killed) run left in ``folder``.
+
+    Staging folders of runs whose process is gone and temporary ``.NAME.XXXX.part`` files of
+    atomic writes.
+
+    Parameters
+    ----------
+    folder : str or pathlib.Path
+        The output folder.
+
+    Returns
+    -------
+    list of str
+        The names removed.
+
+    Raises
+    ------
+    OSError
+        A leftover that cannot be removed.
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> remove_stale_parts(tempfile.mkdtemp())
+    []
+
+    References
+    ----------
+    IEEE Std 1003.1-2017 (POSIX), ``rename()`` and ``access()``.
+    """
     removed = []
     for p in Path(folder).iterdir():
         name = p.name
@@ -552,9 +821,42 @@ def _output_error(e: OSError, folder):
 
 
 def check_output_folder(folder, scenario=None, catalog=None, names=()) -> Path:
-    """Refuse an output folder a run cannot use, before anything is computed or written:
-    empty, equal to the scenario or the catalogue, an existing file, a name longer than the
-    file system allows, under a file, or not writable. ``names``: the files the run writes."""
+    """Refuse an output folder a run cannot use, before anything is computed or written.
+
+    Empty, equal to the scenario or the catalogue, an existing file, a name longer than the file
+    system allows, under a file, or not writable.
+
+    Parameters
+    ----------
+    folder : str or pathlib.Path
+        The output folder.
+    scenario : pathlib.Path
+        The scenario file.
+    catalog : pathlib.Path, optional
+        The catalogue file.
+    names : iterable of str, optional
+        The files the run writes.
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    InputError
+        The folder cannot be used (the message names it and why).
+
+    Examples
+    --------
+    >>> check_output_folder("", Path("a.toml"))
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: ...
+
+    References
+    ----------
+    IEEE Std 1003.1-2017 (POSIX), ``rename()`` and ``access()``.
+    """
     text = os.fspath(folder) if not isinstance(folder, str) else folder
     if not text.strip():
         raise InputError("--out is empty; give the folder for the results, e.g. --out results")
@@ -592,8 +894,33 @@ def check_output_folder(folder, scenario=None, catalog=None, names=()) -> Path:
 
 
 def check_spans(plan, orbits) -> None:
-    """Spans counted in periods, now that the periods are known: refused (ScenarioError with
-    FILE:LINE) before anything is written when they hold too many samples."""
+    """Refuse spans counted in periods that hold too many samples, now the periods are known.
+
+    Parameters
+    ----------
+    plan : Plan
+        The checked scenario.
+    orbits : dict
+        Name -> solved PeriodicOrbit.
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    ScenarioError
+        With FILE:LINE, before anything is written.
+
+    Examples
+    --------
+    >>> check_spans(plan, orbits)                  # doctest: +SKIP
+
+    References
+    ----------
+    Common practice (preliminary mission design outputs carry their model and a caution;
+    :mod:`cr3bp.cautions`).
+    """
     problems = []
     lines = schema.line_index(schema.read_text(plan.path))
 
@@ -681,8 +1008,37 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
 
 
 def solve_orbits(plan, catalog, progress=None) -> dict:
-    """Every orbit of the plan; a target outside its family becomes a ScenarioError naming the
-    file, line and key, with the range the family covers."""
+    """Every orbit of the plan (from the catalogue when there).
+
+    Parameters
+    ----------
+    plan : Plan
+        The checked scenario.
+    catalog : Catalog
+        The catalogue.
+    progress : callable(str), optional
+        One line per step.
+
+    Returns
+    -------
+    dict
+        Name -> PeriodicOrbit.
+
+    Raises
+    ------
+    ScenarioError
+        A target outside its family, naming the file, line and key, with the range the family
+        covers.
+
+    Examples
+    --------
+    >>> orbits = solve_orbits(plan, catalog)       # doctest: +SKIP
+
+    References
+    ----------
+    Howell, K. C., "Three-dimensional, periodic, 'halo' orbits", Celestial Mechanics 32, 53
+    (1984) (continuation of families, from memory).
+    """
     lines = schema.line_index(schema.read_text(plan.path))
     orbits = {}
     for name, spec in plan.orbit_specs.items():

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import re
 from pathlib import Path
+import copy
 
 from ..errors import shown
 from .. import vocabulary as words
@@ -18,7 +19,6 @@ from ..io.toml_schema import (B, F, I, MAX_TEXT_CHARS, Q, S, Problem, ScenarioEr
                               check_document, key_parts, line_index, line_of, parse_toml, path_text,
                               read_text)
 from ..io.toml_schema import MAX_FILE_BYTES as MAX_SCENARIO_BYTES  # noqa: F401
-import copy
 #: Names that become parts of file names (orbits, transfers): one plain character set, no
 #: separators, no leading dot or dash, so no name can point outside the output folder.
 NAME_PATTERN = re.compile(r"[A-Za-z0-9][A-Za-z0-9_-]{0,63}")
@@ -142,7 +142,34 @@ def _schema_entry(parts):
 def well_typed(data: dict, problems: list):
     """A copy of ``data`` without the optional values the schema refused (so the meaning of
     everything else can still be checked and reported at once), or None when a refused value
-    is one that cannot be done without (a required key, a whole section)."""
+    is one that cannot be done without (a required key, a whole section).
+
+    Parameters
+    ----------
+    data : dict
+        The parsed scenario.
+    problems : list of Problem
+        The schema's problems.
+
+    Returns
+    -------
+    dict or None
+        The copy, or None.
+
+    Raises
+    ------
+    KeyError
+        A problem naming a key the document does not hold.
+
+    Examples
+    --------
+    >>> well_typed({"a": 1}, [])
+    {'a': 1}
+
+    References
+    ----------
+    TOML v1.0.0 (2021), https://toml.io/en/v1.0.0.
+    """
     d = copy.deepcopy(data)
     for p in problems:
         if p.kind == "meaning":
@@ -167,7 +194,36 @@ def well_typed(data: dict, problems: list):
 
 
 def load(path) -> dict:
-    """Read and check a scenario file; raises ScenarioError listing every problem."""
+    """Read and check a scenario file; raises ScenarioError listing every problem.
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The scenario file.
+
+    Returns
+    -------
+    dict
+        The checked document.
+
+    Raises
+    ------
+    ScenarioError
+        Every problem, each as ``FILE:LINE: key: message``.
+    InputError
+        A missing, unreadable or binary file.
+
+    Examples
+    --------
+    >>> from pathlib import Path
+    >>> import cr3bp
+    >>> sorted(load(Path(cr3bp.__file__).parents[1] / "examples" / "farlight.toml"))[:2]
+    ['exports', 'mission']
+
+    References
+    ----------
+    TOML v1.0.0 (2021), https://toml.io/en/v1.0.0.
+    """
     path = Path(path)
     text = read_text(path)
     data = parse_toml(text, path_text(path))
@@ -181,7 +237,40 @@ def check(data: dict, lines: dict, file: str, schema: dict | None = None,
           text: str | None = None) -> list[Problem]:
     """Every problem of ``data`` against ``schema`` (default: the scenario schema, with its
     cross-key rules). Other file formats pass their own schema and get the key, type and line
-    checks only (:func:`cr3bp.io.toml_schema.check_document`, which they may call directly)."""
+    checks only (:func:`cr3bp.io.toml_schema.check_document`, which they may call directly).
+
+    Parameters
+    ----------
+    data : dict
+        The parsed document.
+    lines : dict
+        Dotted key -> line (:func:`cr3bp.io.toml_schema.line_index`).
+    file : str
+        The file as named in messages.
+    schema : dict, optional
+        Default: the scenario schema.
+    text : str, optional
+        The file's text (to quote values as written).
+
+    Returns
+    -------
+    list of Problem
+        Sorted by line.
+
+    Raises
+    ------
+    KeyError
+        A schema entry of an unknown type (a programming error).
+
+    Examples
+    --------
+    >>> [p.key for p in check({"system": {"name": 3}}, {}, "x.toml")][:1]
+    ['mission']
+
+    References
+    ----------
+    TOML v1.0.0 (2021), https://toml.io/en/v1.0.0.
+    """
     if schema is not None:
         return check_document(data, lines, file, schema, text)
     problems = check_document(data, lines, file, SCHEMA, text, subtables={"checks": CHECK_KEYS},

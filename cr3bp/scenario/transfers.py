@@ -5,12 +5,12 @@ stitched) is written as tables and drawn, and whose stitched trajectory the expo
 from __future__ import annotations
 
 import dataclasses
+from types import SimpleNamespace
 
 
 from ..errors import InputError, NoSolutionError
 from .outputs import csv_text, json_text, save_figures, say
 from ..vocabulary import ORBIT_TARGETS
-from types import SimpleNamespace
 from .. import units
 from ..cautions import CAUTION
 from ..io import export
@@ -23,7 +23,32 @@ TARGET_KEYS = ORBIT_TARGETS
 
 
 def orbit_text(entry: dict) -> str:
-    """The orbit request text of a scenario orbit (the grammar of :mod:`cr3bp.orbits.request`)."""
+    """The orbit request text of a scenario orbit (the grammar of :mod:`cr3bp.orbits.request`).
+
+    Parameters
+    ----------
+    entry : dict
+        The scenario's ``[orbits.NAME]`` table.
+
+    Returns
+    -------
+    str
+        The request text.
+
+    Raises
+    ------
+    KeyError
+        An entry without ``family``.
+
+    Examples
+    --------
+    >>> orbit_text({"family": "halo", "point": "L2", "branch": "south", "resonant": "9:2"})
+    'halo 9:2 L2 south'
+
+    References
+    ----------
+    Szebehely, V., "Theory of Orbits", Academic Press (1967) (the CR3BP and its units).
+    """
     words = [entry["family"]]
     if entry.get("resonant"):
         words.append(entry["resonant"])
@@ -37,7 +62,36 @@ def orbit_text(entry: dict) -> str:
 def transfer_nodes(plan, index: int, transfer: dict):
     """The node list of one scenario transfer (every node to every other, the node-list
     defaults), built directly: the orbits by their request text, ``"parking BODY ALTITUDE"``
-    as a parking orbit. The nodes carry the scenario's names."""
+    as a parking orbit. The nodes carry the scenario's names.
+
+    Parameters
+    ----------
+    plan : Plan
+        The checked scenario.
+    index : int
+        The transfer's position in ``[[transfers]]``.
+    transfer : dict
+        Its table.
+
+    Returns
+    -------
+    list
+        The nodes (:mod:`cr3bp.transfers.nodes`).
+
+    Raises
+    ------
+    ScenarioError
+        A node the transfer layer refuses, with the scenario's file and line.
+
+    Examples
+    --------
+    >>> nodes = transfer_nodes(plan, 0, plan.data["transfers"][0])     # doctest: +SKIP
+
+    References
+    ----------
+    Koon, W. S., Lo, M. W., Marsden, J. E. & Ross, S. D., "Dynamical Systems, the Three-Body
+    Problem and Space Mission Design", Marsden Books (2011), ch. 7 (transfers between orbits).
+    """
     system = plan.system
     nodes = []
     for n in dict.fromkeys([transfer["from"], *transfer.get("via", []), transfer["to"]]):
@@ -61,6 +115,46 @@ def design_transfers(plan, orbits, out, *, catalog=None, workers=None, scheduler
 
     Returns ``(routes, stitched, figures)``: per transfer name, a summary dict for the report and
     the :class:`cr3bp.transfers.stitch.StitchedRoute`; the figures written (name -> path and caption).
+
+    Parameters
+    ----------
+    plan : Plan
+        The checked scenario.
+    orbits : dict
+        Name -> PeriodicOrbit.
+    out : Outputs
+        Where the tables and figures go.
+    catalog : Catalog, optional
+        The catalogue.
+    workers, scheduler
+        Leg computation in a process pool or on a dask cluster.
+    progress : callable(str), optional
+        One line per step.
+    reduced : bool, optional
+        Smaller samples (tests).
+
+    Returns
+    -------
+    routes : dict
+        Transfer name -> summary for the report.
+    stitched : dict
+        Transfer name -> StitchedRoute.
+    figures : dict
+        Figure name -> (path, caption).
+
+    Raises
+    ------
+    ScenarioError
+        A transfer that cannot be designed, with the scenario's file and line.
+
+    Examples
+    --------
+    >>> routes, stitched, figs = design_transfers(plan, orbits, out)      # doctest: +SKIP
+
+    References
+    ----------
+    Koon, W. S., Lo, M. W., Marsden, J. E. & Ross, S. D., "Dynamical Systems, the Three-Body
+    Problem and Space Mission Design", Marsden Books (2011), ch. 7.
     """
     from ..transfers.design import design_transfer  # lazy: heavy library (networkx, via cr3bp.transfers.design)
     from ..transfers.search import Constraints  # lazy: heavy library (networkx, via cr3bp.transfers.search)
@@ -121,7 +215,40 @@ def write_route_tables(plan, name, summary, out, stitched, exported=()):
     ``anchor``, ``frame``, ``center`` and ``maneuvers``, the rows of
     :func:`cr3bp.io.export.maneuver_table`), the Δv measured on the exported trajectory
     (:func:`cr3bp.transfers.design.maneuver_columns`, the columns ``librate route`` writes too).
-    Written after the design and again once the exports exist."""
+    Written after the design and again once the exports exist.
+
+    Parameters
+    ----------
+    plan : Plan
+        The checked scenario.
+    name : str
+        The transfer's name.
+    summary : dict
+        Its summary.
+    out : Outputs
+        Where the tables go.
+    stitched : StitchedRoute
+        The stitched route.
+    exported : list of dict, optional
+        The exports of this transfer.
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    OutputError
+        A table cannot be written.
+
+    Examples
+    --------
+    >>> write_route_tables(plan, "corridor", summary, out, stitched)     # doctest: +SKIP
+
+    References
+    ----------
+    RFC 4180, "Common Format and MIME Type for Comma-Separated Values (CSV) Files" (2005).; RFC 8259, "The JavaScript Object Notation (JSON) Data Interchange Format" (2017).
+    """
     from ..transfers.design import maneuver_columns  # lazy: heavy library (networkx, via cr3bp.transfers.design)
     headers, rows, mans, models, warnings = maneuver_columns(stitched, [
         dict(e, description=f"{e['anchor']} anchoring, {e['frame']}, centre {e['center']}") for e in exported])
@@ -138,6 +265,28 @@ def write_route_tables(plan, name, summary, out, stitched, exported=()):
 
 
 def plan_caution():
+    """The caution every scenario output carries (:data:`cr3bp.cautions.CAUTION`).
+
+    Returns
+    -------
+    str
+        The caution.
+
+    Raises
+    ------
+    None
+        Nothing is checked.
+
+    Examples
+    --------
+    >>> "preliminary" in plan_caution()
+    True
+
+    References
+    ----------
+    Common practice (preliminary mission design outputs carry their model and a caution;
+    :mod:`cr3bp.cautions`).
+    """
     return CAUTION
 
 
@@ -162,12 +311,77 @@ def _figures(plan, transfer, orbits, ranked, front, st, out):
 
 
 def route_orbits(transfer: dict, orbits: dict) -> list:
-    """The solved orbits a scenario transfer starts from, passes through or ends on."""
+    """The solved orbits a scenario transfer starts from, passes through or ends on.
+
+    Parameters
+    ----------
+    transfer : dict
+        The ``[[transfers]]`` table (``from``, ``via``, ``to``).
+    orbits : dict
+        Name -> PeriodicOrbit.
+
+    Returns
+    -------
+    list
+        The orbits in route order (parking orbits left out).
+
+    Raises
+    ------
+    KeyError
+        A transfer without ``from`` or ``to``.
+
+    Examples
+    --------
+    >>> route_orbits({"from": "a", "to": "b"}, {"b": "orbit b"})
+    ['orbit b']
+
+    References
+    ----------
+    Common practice (preliminary mission design outputs carry their model and a caution;
+    :mod:`cr3bp.cautions`).
+    """
     return [orbits[n] for n in (transfer["from"], *transfer.get("via", []), transfer["to"]) if n in orbits]
 
 
 def transfer_trajectory(plan, st, spec, ts, step_s, ex, model):
-    """The stitched transfer sampled on the export's clock, with its maneuvers."""
+    """The stitched transfer sampled on the export's clock, with its maneuvers.
+
+    Parameters
+    ----------
+    plan : Plan
+        The checked scenario.
+    st : StitchedRoute
+        The stitched route.
+    spec : FrameSpec
+        The export's frame.
+    ts : str
+        The export's time system.
+    step_s : float
+        The sample step on that clock, s.
+    ex : dict
+        The ``[[exports]]`` entry.
+    model : dict
+        Model lines for the file's header.
+
+    Returns
+    -------
+    Trajectory
+        Ready for :func:`cr3bp.io.export.write`.
+
+    Raises
+    ------
+    InputError
+        Too many samples.
+
+    Examples
+    --------
+    >>> traj = transfer_trajectory(plan, st, spec, "UTC", 600.0, ex, {})   # doctest: +SKIP
+
+    References
+    ----------
+    Hairer, E., Nørsett, S. P. & Wanner, G., "Solving Ordinary Differential Equations I",
+    2nd ed., Springer (1993), sec. II.6.
+    """
     base = to_export(st, spec, ex["object"].upper())
     span = float(st.times_tu[-1] - st.times_tu[0])
     grid = export.epoch_grid(spec, ts, span, step_s)

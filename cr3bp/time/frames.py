@@ -48,6 +48,7 @@ from __future__ import annotations
 import math
 import re
 from dataclasses import dataclass, field, replace
+import warnings
 
 import numpy as np
 
@@ -55,7 +56,6 @@ from ..constants import MJD_ZERO_JD, OBLIQUITY_J2000_ARCSEC, SECONDS_PER_DAY
 from ..errors import InputError
 from ..vocabulary import ANCHORS, CENTER_ROLES, FRAMES, INERTIAL_FRAMES
 from ..vocabulary import TIME_SYSTEMS as _TIME_SYSTEMS
-import warnings
 from . import ephemeris
 from ..systems import system
 from ..validate import numbers

@@ -29,8 +29,41 @@ RESOLVED_SHARE = 0.9
 
 
 def map_matrix(system, u, T, rho) -> np.ndarray:
-    """``DG`` (6N x 6N) of the invariance circle ``u`` over ``T`` turned by ``rho`` (one batch
-    propagation with STMs)."""
+    """``DG`` (6N x 6N) of the invariance circle ``u`` over ``T`` turned by ``rho``.
+
+    One batch propagation with state transition matrices.
+
+    Parameters
+    ----------
+    system : System
+        The system.
+    u : numpy.ndarray, shape (N, 6)
+        The invariance circle.
+    T : float
+        Stroboscopic time, TU.
+    rho : float
+        Rotation number, radians.
+
+    Returns
+    -------
+    numpy.ndarray, shape (6N, 6N)
+        The linearised stroboscopic map.
+
+    Raises
+    ------
+    NoSolutionError
+        A propagation stops early.
+
+    Examples
+    --------
+    >>> dg = map_matrix(em, torus.circle, torus.stroboscopic_time, torus.rotation)   # doctest: +SKIP
+
+    References
+    ----------
+    Olikara, Z. P. & Scheeres, D. J., AAS 12-361 (2012), sec. III (stability of the torus);
+    Jorba, À., "Numerical computation of the normal behaviour of invariant curves of
+    n-dimensional maps", Nonlinearity 14, 943 (2001).
+    """
     n = u.shape[0]
     stm = propagate_batch(system, np.ascontiguousarray(u, dtype=float), T, rtol=solver.RTOL,
                           atol=solver.ATOL, stm=True).stm
@@ -51,10 +84,42 @@ def _resolved(vecs: np.ndarray, n: int) -> np.ndarray:
 def stability(system, u, T, rho) -> dict:
     """The torus's normal multipliers, their moduli and the verdict.
 
-    Returns ``{"largest_modulus", "smallest_modulus", "moduli", "kind", "n_eigenvalues",
-    "n_resolved"}``: ``moduli`` are the distinct moduli of the well-resolved eigenvalues
-    (largest first, merged when within ``UNIT_RTOL``), ``kind`` "hyperbolic" (a modulus above
-    1) or "neutrally stable (elliptic)".
+    ``moduli`` are the distinct moduli of the well-resolved eigenvalues (largest first, merged
+    when within ``UNIT_RTOL``); ``kind`` is "hyperbolic" (a modulus above 1) or "neutrally stable
+    (elliptic)".
+
+    Parameters
+    ----------
+    system : System
+        The system.
+    u : numpy.ndarray, shape (N, 6)
+        The invariance circle.
+    T : float
+        Stroboscopic time, TU.
+    rho : float
+        Rotation number, radians.
+
+    Returns
+    -------
+    dict
+        ``{"largest_modulus", "smallest_modulus", "moduli", "kind", "n_eigenvalues",
+        "n_resolved"}``.
+
+    Raises
+    ------
+    NoSolutionError
+        A propagation stops early.
+
+    Examples
+    --------
+    >>> stability(em, torus.circle, torus.stroboscopic_time, torus.rotation)["kind"]  # doctest: +SKIP
+    'hyperbolic'
+
+    References
+    ----------
+    Jorba, À., "Numerical computation of the normal behaviour of invariant curves of
+    n-dimensional maps", Nonlinearity 14, 943 (2001); Olikara, Z. P. & Scheeres, D. J.,
+    AAS 12-361 (2012), sec. III.
     """
     n = u.shape[0]
     w, vecs = np.linalg.eig(map_matrix(system, u, T, rho))

@@ -25,7 +25,35 @@ from ..io.export import Segment
 
 
 def state_at(torus, theta0: float, theta1: float) -> np.ndarray:
-    """The state ``W(theta0, theta1)`` on the torus (angles in rad)."""
+    """The state ``W(theta0, theta1)`` on the torus (angles in rad).
+
+    Parameters
+    ----------
+    torus : Torus
+        The torus (:mod:`cr3bp.tori.torus`).
+    theta0, theta1 : float
+        The torus angles: along the flow (``2 pi`` is one stroboscopic time) and along the
+        invariance circle.
+
+    Returns
+    -------
+    numpy.ndarray, shape (6,)
+        Rotating state.
+
+    Raises
+    ------
+    NoSolutionError
+        The propagation from the circle stops early.
+
+    Examples
+    --------
+    >>> x = state_at(torus, 0.0, 0.0)              # doctest: +SKIP
+
+    References
+    ----------
+    Olikara, Z. P. & Scheeres, D. J., "Numerical method for computing quasi-periodic orbits and
+    their stability in the restricted three-body problem", AAS 12-361 (2012), sec. II.
+    """
     T = torus.stroboscopic_time
     w1 = torus.rotation / T
     a = float(theta0) % (2 * math.pi)
@@ -37,8 +65,40 @@ def state_at(torus, theta0: float, theta1: float) -> np.ndarray:
 
 
 def sample(torus, t_eval, phase=(0.0, 0.0)):
-    """States on the torus at times ``t_eval`` (TU, increasing from 0) from the torus phase
-    ``phase = (theta0, theta1)`` (rad). Returns a :class:`cr3bp.io.export.Segment`."""
+    """States on the torus at times ``t_eval`` from the torus phase ``phase``.
+
+    Parameters
+    ----------
+    torus : Torus
+        The torus.
+    t_eval : array_like
+        Times, TU, increasing from 0.
+    phase : (float, float), optional
+        ``(theta0, theta1)``, radians.
+
+    Returns
+    -------
+    Segment
+        :class:`cr3bp.io.export.Segment` of the samples.
+
+    Raises
+    ------
+    InputError
+        Times not increasing from 0, or a phase that is not two finite angles.
+
+    Examples
+    --------
+    >>> seg = sample(torus, np.linspace(0.0, 10.0, 200))          # doctest: +SKIP
+    >>> sample(None, [1.0, 0.5])
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: sample times must be increasing from 0
+
+    References
+    ----------
+    Olikara, Z. P. & Scheeres, D. J., "Numerical method for computing quasi-periodic orbits and
+    their stability in the restricted three-body problem", AAS 12-361 (2012), sec. II.
+    """
     t = np.asarray(t_eval, dtype=float)
     if t.ndim != 1 or t.size == 0 or np.any(np.diff(t) <= 0) or t[0] < 0:
         raise InputError("sample times must be increasing from 0")

@@ -524,7 +524,6 @@ def _parking_leg(system, task) -> Leg:
         # cannot succeed); a departure goes straight to the direct design, a return has none
         if departs:
             return _direct_departure_leg(orbit, st)
-        from ..errors import NoSolutionError
         raise NoSolutionError(
             f"no unstable manifold of an Earth-Moon orbit about {orbit.point} comes below about "
             f"{MANIFOLD_EARTH_FLOOR_KM:.0f} km over the Earth (parking orbit at {st['altitude_km']:g} km), "

@@ -13,11 +13,11 @@ import math
 
 import numpy as np
 from scipy.optimize import brentq
+from scipy.spatial import cKDTree
 
 from ..errors import InputError
 from ..integrate import propagate
 from .manifolds import ATOL, RTOL
-from scipy.spatial import cKDTree
 
 
 #: Distance from the target orbit's path at which a leg counts as arrived, km (a design choice
@@ -31,8 +31,36 @@ ARRIVAL_SCAN_SAMPLES = 4000
 
 
 def arrival_distance_km(system) -> float:
-    """The default arrival distance of ``system`` (:data:`ARRIVAL_DISTANCE_KM`), km; in a system
-    without units, the same 1 % of the Hill radius in LU."""
+    """The default arrival distance of ``system`` (:data:`ARRIVAL_DISTANCE_KM`), km.
+
+    In a system without units, the same 1 % of the Hill radius in LU.
+
+    Parameters
+    ----------
+    system : System
+        The system.
+
+    Returns
+    -------
+    float
+        km (LU without units).
+
+    Raises
+    ------
+    AttributeError
+        Not a system.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> em = system("earth-moon")
+    >>> arrival_distance_km(em)
+    1000.0
+
+    References
+    ----------
+    Common practice (an arrival sphere about the target orbit's path).
+    """
     if system.name in ARRIVAL_DISTANCE_KM:
         return ARRIVAL_DISTANCE_KM[system.name]
     hill = (system.mu / 3.0) ** (1.0 / 3.0)
@@ -44,7 +72,34 @@ _PATHS: dict = {}
 
 def orbit_path(orbit, n: int = ORBIT_PATH_SAMPLES) -> np.ndarray:
     """Positions (n, 3), LU, evenly in time over one period of ``orbit`` (the closed path).
-    The last few paths are kept (every candidate leg to one orbit reuses its path)."""
+    The last few paths are kept (every candidate leg to one orbit reuses its path).
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+        The orbit.
+    n : int, optional
+        Samples.
+
+    Returns
+    -------
+    numpy.ndarray, shape (n, 3)
+        Positions, LU.
+
+    Raises
+    ------
+    NoSolutionError
+        The propagation stops early.
+
+    Examples
+    --------
+    >>> path = orbit_path(nrho, 500)             # doctest: +SKIP
+
+    References
+    ----------
+    Hairer, E., Nørsett, S. P. & Wanner, G., "Solving Ordinary Differential Equations I",
+    2nd ed., Springer (1993), sec. II.6.
+    """
     key = (float(orbit.system.mu), float(orbit.period), np.asarray(orbit.state, dtype=float).tobytes(), int(n))
     if key not in _PATHS:
         te = np.linspace(0.0, orbit.period, int(n) + 1)
@@ -58,7 +113,36 @@ def orbit_path(orbit, n: int = ORBIT_PATH_SAMPLES) -> np.ndarray:
 
 def distance_to_path(path, points) -> np.ndarray:
     """Distance (LU) from each point (K, 3) to the closed polyline through ``path`` (n, 3): the
-    nearest vertex (k-d tree), then the nearest point of the two segments meeting there."""
+    nearest vertex (k-d tree), then the nearest point of the two segments meeting there.
+
+    Parameters
+    ----------
+    path : numpy.ndarray, shape (n, 3)
+        Vertices of the closed polyline.
+    points : numpy.ndarray, shape (K, 3)
+        The points.
+
+    Returns
+    -------
+    numpy.ndarray, shape (K,)
+        LU.
+
+    Raises
+    ------
+    ValueError
+        Arrays of the wrong shape.
+
+    Examples
+    --------
+    >>> square = np.array([[0, 0, 0], [1, 0, 0], [1, 1, 0], [0, 1, 0]], dtype=float)
+    >>> distance_to_path(square, np.array([[0.5, -0.2, 0.0]])).round(12).tolist()
+    [0.2]
+
+    References
+    ----------
+    Bentley, J. L., "Multidimensional binary search trees used for associative searching",
+    Communications of the ACM 18, 509 (1975).
+    """
     pts = np.atleast_2d(np.asarray(points, dtype=float))
     n = len(path)
     _, i = cKDTree(path).query(pts)
@@ -86,6 +170,33 @@ def arrival_time(system, segments, orbit, distance_km=None, path=None):
     -------
     (t, distance_km) : TU from the leg's start; the leg's full duration when it never comes that
     close (it then ends on the orbit at its step-off point).
+
+    Parameters
+    ----------
+    system : System
+        The system.
+    segments : sequence of (float, array_like, float)
+        The leg's ballistic arcs.
+    orbit : PeriodicOrbit
+        The target orbit.
+    distance_km : float, optional
+        The arrival distance.
+    path : numpy.ndarray, optional
+        :func:`orbit_path` of the orbit.
+
+    Raises
+    ------
+    NoSolutionError
+        A segment cannot be propagated.
+
+    Examples
+    --------
+    >>> t, d = arrival_time(em, leg.segments, nrho)       # doctest: +SKIP
+
+    References
+    ----------
+    Brent, R. P., "Algorithms for Minimization without Derivatives", Prentice-Hall (1973),
+    ch. 4.
     """
     d_km = arrival_distance_km(system) if distance_km is None else float(distance_km)
     if not (math.isfinite(d_km) and d_km > 0):

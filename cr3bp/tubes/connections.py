@@ -22,6 +22,7 @@ Methods
 from __future__ import annotations
 
 import math
+import dataclasses
 
 import numpy as np
 from scipy.optimize import minimize_scalar
@@ -33,7 +34,6 @@ from ..transfers.leg import Leg, Maneuver, _mps
 from .arrival import arrival_time
 from .manifolds import RTOL, ATOL, Stop, _globalise, grow_tube, manifold_starts
 from .sections import Crossings, Section, hyperplane, parse_section
-import dataclasses
 
 #: Patch tolerance of the refinement (nondimensional, on the matched coordinates).
 PATCH_TOL = 1e-10
@@ -78,7 +78,40 @@ def _step_arg(tube):
 
 def match_names(section: Section, planar: bool, same_energy: bool):
     """Coordinates matched at the patch: the in-section position coordinates, plus (planar, one
-    energy) the in-section velocity coordinate."""
+    energy) the in-section velocity coordinate.
+
+    Parameters
+    ----------
+    section : Section
+        A position hyperplane (:func:`cr3bp.tubes.sections.parse_section`).
+    planar : bool
+        Planar tubes.
+    same_energy : bool
+        Both tubes at one energy.
+
+    Returns
+    -------
+    tuple of str
+        The coordinates matched.
+
+    Raises
+    ------
+    InputError
+        A section that is not a position hyperplane.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> em = system("earth-moon")
+    >>> from cr3bp.tubes.sections import parse_section
+    >>> match_names(parse_section("x=1-mu", em), True, True)
+    ('y', 'vy')
+
+    References
+    ----------
+    Koon, W. S., Lo, M. W., Marsden, J. E. & Ross, S. D., "Dynamical Systems, the Three-Body
+    Problem and Space Mission Design", Marsden Books (2011), ch. 4 (matching on a Poincaré section).
+    """
     if section.kind != "plane" or section.coordinate > 2:
         raise InputError("connections need a position hyperplane section such as x=1-mu or y=0")
     k = section.coordinate
@@ -131,7 +164,34 @@ def _seg_intersect(p1, p2, q1, q2):
 
 def cut_intersections(cut_a: Crossings, cut_b: Crossings, names=("y", "vy")):
     """Crossings of two cut polylines in the 2-D map ``names``: list of (phase_a, phase_b,
-    point). Phases are interpolated along the crossing segments."""
+    point). Phases are interpolated along the crossing segments.
+
+    Parameters
+    ----------
+    cut_a, cut_b : Crossings
+        Closed tube cuts.
+    names : sequence of str
+        The 2-D map's coordinates.
+
+    Returns
+    -------
+    list of (float, float, numpy.ndarray)
+        ``(phase_a, phase_b, point)`` of each crossing.
+
+    Raises
+    ------
+    InputError
+        A map that is not two-dimensional.
+
+    Examples
+    --------
+    >>> hits = cut_intersections(cut_u, cut_s, ("y", "vy"))     # doctest: +SKIP
+
+    References
+    ----------
+    Koon, W. S., Lo, M. W., Marsden, J. E. & Ross, S. D., "Dynamical Systems, the Three-Body
+    Problem and Space Mission Design", Marsden Books (2011), ch. 4.
+    """
     sa, sb = _polylines(cut_a, names), _polylines(cut_b, names)
     out = []
     for p1, p2, pa1, pa2 in sa:
@@ -270,6 +330,30 @@ def connect_tubes(tube_u, tube_s, names=None, max_candidates=5, tol=PATCH_TOL, m
     ------
     NoSolutionError
         The cuts do not cross (the message gives the nearest approach on the map).
+
+    Parameters
+    ----------
+    tube_u, tube_s : Tube
+        Unstable and stable tubes cut by the same section.
+    names : sequence of str, optional
+        The coordinates matched (:func:`match_names`).
+    max_candidates : int, optional
+        Crossings refined.
+    tol : float, optional
+        Mismatch tolerance.
+    minimise : bool, optional
+        Minimise the spatial patch Δv by moving the patch plane.
+
+    Examples
+    --------
+    >>> legs = connect_tubes(tube_u, tube_s)                    # doctest: +SKIP
+
+    References
+    ----------
+    Koon, W. S., Lo, M. W., Marsden, J. E. & Ross, S. D., "Dynamical Systems, the Three-Body
+    Problem and Space Mission Design", Marsden Books (2011), ch. 4; Gómez, G., Koon, W. S., Lo, M. W., Marsden, J. E., Masdemont, J. & Ross,
+    S. D., "Connecting orbits and invariant manifolds in the spatial restricted three-body
+    problem", Nonlinearity 17, 1571 (2004).
     """
     if tube_u.stability != "unstable" or tube_s.stability != "stable":
         raise InputError("connect an unstable tube (departure) to a stable tube (arrival)")
@@ -352,7 +436,35 @@ def _nearest_gap(ca, cb, names):
 def transfer_tubes(tube_u, tube_s, max_candidates=5):
     """Transfers between tubes at different energies through one manoeuvre on their common
     section (planar tubes): positions matched, phases chosen to minimise |Δv| (Brent's method
-    along the one-parameter family of position matches)."""
+    along the one-parameter family of position matches).
+
+    Parameters
+    ----------
+    tube_u, tube_s : Tube
+        Planar unstable and stable tubes on one section.
+    max_candidates : int, optional
+        Candidates refined.
+
+    Returns
+    -------
+    list of Leg
+        Ascending in Δv.
+
+    Raises
+    ------
+    NoSolutionError
+        No position match on the section.
+
+    Examples
+    --------
+    >>> legs = transfer_tubes(tube_u, tube_s)                   # doctest: +SKIP
+
+    References
+    ----------
+    Brent, R. P., "Algorithms for Minimization without Derivatives", Prentice-Hall (1973),
+    ch. 4; Koon, W. S., Lo, M. W., Marsden, J. E. & Ross, S. D., "Dynamical Systems, the Three-Body
+    Problem and Space Mission Design", Marsden Books (2011), ch. 4.
+    """
     system = tube_u.system
     section = tube_u.stop.section
     planar = _is_planar(tube_u) and _is_planar(tube_s)
@@ -498,6 +610,39 @@ def connect(orbit_a, orbit_b, section, n_points=200, *, step_km=None, t_max=2 * 
     NoSolutionError
         The energies are below that of the necks that must be open (``necks`` gives it), or
         the cuts do not meet.
+
+    Parameters
+    ----------
+    orbit_a, orbit_b : PeriodicOrbit
+        Departure and arrival orbits.
+    section : Section or str
+        The patch section.
+    n_points, step_km, t_max, count
+        Tube sampling, step-off, propagation limit, crossings kept.
+    branch_a, branch_b : str, optional
+        The tubes' branches.
+    max_candidates : int, optional
+        Crossings refined.
+    progress : callable(str), optional
+        Progress lines.
+
+    Returns
+    -------
+    legs : list of Leg
+        Ascending in Δv.
+    tube_u, tube_s : Tube
+        The tubes.
+
+    Examples
+    --------
+    >>> legs, tu, ts = connect(lyap1, lyap2, "x=1-mu")          # doctest: +SKIP
+
+    References
+    ----------
+    Koon, W. S., Lo, M. W., Marsden, J. E. & Ross, S. D., "Dynamical Systems, the Three-Body
+    Problem and Space Mission Design", Marsden Books (2011), ch. 4; Koon, W. S., Lo, M. W., Marsden, J. E. & Ross, S. D., "Heteroclinic
+    connections between periodic orbits and resonance transitions in celestial mechanics",
+    Chaos 10, 427 (2000).
     """
     sec = section if isinstance(section, Section) else parse_section(section, orbit_a.system)
     stop = Stop(sec, count, float(t_max))

@@ -29,7 +29,42 @@ from .sections import apsides, apsis, primary_index
 
 def inertial_velocity(system, state, primary):
     """Velocity relative to a primary in the inertial frame whose axes coincide with the
-    rotating ones at that instant: v + omega x (r - r_p), omega = z-hat (nondimensional)."""
+    rotating ones at that instant: v + omega x (r - r_p), omega = z-hat (nondimensional).
+
+    Parameters
+    ----------
+    system : System
+        The system.
+    state : array_like, shape (6,)
+        Rotating state.
+    primary : {0, 1}
+        The primary (0 larger, 1 smaller).
+
+    Returns
+    -------
+    rel : numpy.ndarray, shape (3,)
+        Position relative to the primary.
+    v : numpy.ndarray, shape (3,)
+        Inertial velocity relative to it.
+
+    Raises
+    ------
+    IndexError
+        A primary other than 0 or 1.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> em = system("earth-moon")
+    >>> rel, v = inertial_velocity(em, np.array([1 - em.mu + 0.01, 0, 0, 0, 1.0, 0]), 1)
+    >>> v.round(12).tolist()
+    [0.0, 1.01, 0.0]
+
+    References
+    ----------
+    Szebehely, V., "Theory of Orbits", Academic Press (1967), sec. 4.2 (rotating and inertial
+    velocities).
+    """
     c = system.positions[primary]
     rel = np.asarray(state[:3], dtype=float) - np.array([c, 0.0, 0.0])
     v = np.asarray(state[3:6], dtype=float)
@@ -38,7 +73,41 @@ def inertial_velocity(system, state, primary):
 
 def periapsis_summary(system, state, primary) -> dict:
     """Radius, altitude, inertial and circular speeds, tangential Δv and inclination of a
-    periapsis state about ``primary`` (formulas in the module docstring)."""
+    periapsis state about ``primary`` (formulas in the module docstring).
+
+    Parameters
+    ----------
+    system : System
+        The system (dimensional for the km and m/s entries).
+    state : array_like, shape (6,)
+        A periapsis state, rotating.
+    primary : {0, 1}
+        The primary.
+
+    Returns
+    -------
+    dict
+        ``radius``, ``altitude_km``, ``speed_inertial(_kms)``, ``speed_circular(_kms)``,
+        ``dv(_mps)``, ``inclination_deg``, ``flight_path_cos``.
+
+    Raises
+    ------
+    IndexError
+        A primary other than 0 or 1.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> em = system("earth-moon")
+    >>> x = np.array([1 - em.mu + 2000 / em.length_km, 0, 0, 0, 1.0, 0])
+    >>> round(periapsis_summary(em, x, 1)["altitude_km"], 1)
+    262.6
+
+    References
+    ----------
+    Vallado, D. A., "Fundamentals of Astrodynamics and Applications", 4th ed. (2013), sec. 6.3
+    (tangential burns from circular orbits).
+    """
     rel, vin = inertial_velocity(system, state, primary)
     gm = 1.0 - system.mu if primary == 0 else system.mu
     r = float(np.linalg.norm(rel))
@@ -59,7 +128,38 @@ def periapsis_summary(system, state, primary) -> dict:
 
 @dataclass(frozen=True)
 class PeriapsisMap:
-    """First periapsis about a primary of each trajectory of a half-manifold."""
+    """First periapsis about a primary of each trajectory of a half-manifold.
+
+    Parameters
+    ----------
+    system : System
+        The system.
+    primary : int
+        The primary.
+    stability, branch : str
+        The half-manifold.
+    t_orbit, phase : numpy.ndarray
+        Step-off times and phases on the orbit.
+    altitude_km, tof : numpy.ndarray
+        Periapsis altitude and time to it.
+    states : numpy.ndarray
+        Periapsis states.
+    origin : numpy.ndarray
+        Step-off states.
+    within : float
+        The distance a periapsis must be inside, LU.
+    passage : int
+        Which periapsis.
+
+    Examples
+    --------
+    >>> pmap = periapsis_map(nrho, 0, "stable", "interior")     # doctest: +SKIP
+
+    References
+    ----------
+    Koon, W. S., Lo, M. W., Marsden, J. E. & Ross, S. D., "Dynamical Systems, the Three-Body
+    Problem and Space Mission Design", Marsden Books (2011), ch. 7 (from memory).
+    """
 
     system: object
     primary: int
@@ -94,6 +194,38 @@ def periapsis_map(orbit, primary, stability="stable", branch="interior", n_point
     only those closer to the primary than ``within`` (LU; default half the orbit's least
     distance from the primary) count. ``passage`` = n maps the n-th such periapsis (a
     trajectory may pass the primary more than once between the parking orbit and the orbit).
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+        The orbit.
+    primary : int or str
+        The primary.
+    stability : {"stable", "unstable"}
+        The manifold.
+    branch : str
+        The branch.
+    n_points, t_max, step_km, times, within, passage, progress
+        Sampling of the orbit, propagation limit, step-off, which periapsis, progress lines.
+
+    Returns
+    -------
+    PeriapsisMap
+        The map.
+
+    Raises
+    ------
+    InputError
+        Bad options.
+
+    Examples
+    --------
+    >>> pmap = periapsis_map(nrho, 0, "stable", "interior")     # doctest: +SKIP
+
+    References
+    ----------
+    Koon, W. S., Lo, M. W., Marsden, J. E. & Ross, S. D., "Dynamical Systems, the Three-Body
+    Problem and Space Mission Design", Marsden Books (2011), ch. 7 (from memory).
     """
     system = orbit.system
     system.require_dimensional("a periapsis altitude")
@@ -140,6 +272,34 @@ def parking_legs(orbit, primary, altitude_km, *, stability="stable", branch="int
     ------
     NoSolutionError
         No trajectory's periapsis reaches the altitude (the message gives the lowest found).
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+        The orbit.
+    primary : int or str
+        The primary the parking orbit circles.
+    altitude_km : float
+        The parking orbit's altitude.
+    stability, branch : str
+        Arrival (``"stable"``) or departure (``"unstable"``), and the branch.
+    n_points, t_max, step_km, max_legs, pmap, progress
+        Sampling, limits, a precomputed :class:`PeriapsisMap`, progress lines.
+
+    Returns
+    -------
+    list of Leg
+        Ascending in Δv.
+
+    Examples
+    --------
+    >>> legs = parking_legs(nrho, "earth", 200.0)               # doctest: +SKIP
+
+    References
+    ----------
+    Koon, W. S., Lo, M. W., Marsden, J. E. & Ross, S. D., "Dynamical Systems, the Three-Body
+    Problem and Space Mission Design", Marsden Books (2011), ch. 7 (from memory); Brent, R. P., "Algorithms for Minimization without
+    Derivatives", Prentice-Hall (1973), ch. 4.
     """
     system = orbit.system
     p = primary_index(system, primary)

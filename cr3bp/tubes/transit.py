@@ -22,6 +22,30 @@ def transit(cut: Crossings, states, names=("y", "vy")) -> np.ndarray:
     ------
     InputError
         The cut is not closed (some tube trajectories did not reach the section).
+
+    Parameters
+    ----------
+    cut : Crossings
+        A closed tube cut (:mod:`cr3bp.tubes.sections`).
+    states : array_like, shape (K, 6)
+        States on the cut's section, at the tube's energy.
+    names : sequence of str
+        The map's coordinates.
+
+    Returns
+    -------
+    numpy.ndarray of bool, shape (K,)
+        True inside the cut (transit), False outside.
+
+    Examples
+    --------
+    >>> inside = transit(cut, states, ("y", "vy"))           # doctest: +SKIP
+
+    References
+    ----------
+    Conley, C. C., "Low energy transit orbits in the restricted three-body problem", SIAM
+    Journal on Applied Mathematics 16, 732 (1968); Koon, W. S., Lo, M. W., Marsden, J. E. & Ross, S. D., "Dynamical Systems, the Three-Body
+    Problem and Space Mission Design", Marsden Books (2011), ch. 3.
     """
     if not cut.closed:
         raise InputError("the tube's cut is not a closed curve (not every trajectory reached the "
@@ -34,7 +58,38 @@ def transit(cut: Crossings, states, names=("y", "vy")) -> np.ndarray:
 
 def necks_open(system, jacobi_value, points=("L1", "L2")):
     """Raise NoSolutionError unless the energy is above that of each named Lagrange point
-    (C below C(Li)), so the necks at those points are open (Koon et al. 2011, §2.4)."""
+    (C below C(Li)), so the necks at those points are open (Koon et al. 2011, §2.4).
+
+    Parameters
+    ----------
+    system : System
+        The system.
+    jacobi_value : float
+        The Jacobi constant.
+    points : sequence of str
+        Lagrange points whose necks must be open (``"L1"``, ``"L2"``).
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    NoSolutionError
+        A neck is closed (the message gives the nearest feasible value).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> em = system("earth-moon")
+    >>> necks_open(em, 3.1, ("L1", "L2")) is None
+    True
+
+    References
+    ----------
+    Koon, W. S., Lo, M. W., Marsden, J. E. & Ross, S. D., "Dynamical Systems, the Three-Body
+    Problem and Space Mission Design", Marsden Books (2011), sec. 2.4.
+    """
     for pt in points:
         c = _lagrange_jacobi(system, pt)
         if not jacobi_value < c:
