@@ -36,6 +36,9 @@ class TransferDesign:
     stitched : StitchedRoute or None             the best route stitched (None: not asked, or
                                                  not possible, see ``not_stitched``)
     not_stitched : str or None                   why the best route was not stitched (None if it was)
+    optimised : tuple of (leg index, OrbitTransfer or str)  with ``optimise=True``: each leg of the
+                                                 best route between two orbit nodes, optimised
+                                                 (:func:`optimise_route`), or why not
     """
 
     built: object
@@ -45,6 +48,7 @@ class TransferDesign:
     pareto: tuple
     stitched: object
     not_stitched: str | None = None
+    optimised: tuple = ()
 
     @property
     def graph(self):
@@ -74,7 +78,7 @@ def no_route_reason(built, error, source, target, constraints: Constraints) -> s
 def design_transfer(system, nodelist, source, target, constraints: Constraints = Constraints(), *,
                     objective: str = "dv", best: int = 3, pareto: bool = True, stitch: bool = True,
                     workers=None, scheduler=None, catalog=None, tof_days=None, progress=None,
-                    on_stage=None) -> TransferDesign:
+                    on_stage=None, optimise: bool = False, impulses: int = 3) -> TransferDesign:
     """Build the transfer graph of ``nodelist``, rank the routes from ``source`` to ``target``,
     find the Pareto set, and stitch the best route.
 
@@ -90,6 +94,11 @@ def design_transfer(system, nodelist, source, target, constraints: Constraints =
     workers, scheduler, catalog, tof_days, progress : as :func:`cr3bp.transfers.graph.build_graph`
     on_stage : callable(stage, value), optional  told ``("built", BuildResult)`` once the graph is
                                      built and ``("stitching", Route)`` before the stitching
+                                     (and ``("optimising", Route)`` before :func:`optimise_route`)
+    optimise : bool                  also optimise the best route's orbit-to-orbit legs
+                                     (reported beside the route; the stitched route keeps the
+                                     graph's legs)
+    impulses : {2, 3}                impulses per optimised leg
 
     Returns
     -------
@@ -128,7 +137,45 @@ def design_transfer(system, nodelist, source, target, constraints: Constraints =
             stitched = stitch_route(system, routes[0], constraints, periods=orbit_periods(g))
         except PhasingError as e:
             not_stitched = str(e)
-    return TransferDesign(built, source, target, tuple(routes), tuple(front), stitched, not_stitched)
+    optimised = ()
+    if optimise:
+        if on_stage is not None:
+            on_stage("optimising", routes[0])
+        optimised = optimise_route(system, nodelist, routes[0], impulses=impulses, catalog=catalog)
+    return TransferDesign(built, source, target, tuple(routes), tuple(front), stitched, not_stitched, optimised)
+
+
+def optimise_route(system, nodelist, route, *, impulses: int = 3, catalog=None) -> tuple:
+    """Optimise every leg of ``route`` that joins two orbit nodes (a two-impulse targeted leg of
+    the graph, or a manifold leg with its phases) by :func:`cr3bp.transfers.optimise.optimise_transfer`,
+    started from that leg.
+
+    Returns
+    -------
+    tuple of (leg index, OrbitTransfer or str): the optimised transfer, or why the leg was not
+    optimised (not between two orbits, no start, the optimiser's error).
+    """
+    from ..errors import LibrateError
+    from .graph import _orbit_from_plain, resolve_orbits
+    from .nodes import OrbitNode
+    from .optimise import optimise_transfer, start_from_record
+    byid = {n.id: n for n in nodelist.nodes}
+    orbits = None
+    out = []
+    for k, leg in enumerate(route.legs):
+        u, v = route.nodes[k], route.nodes[k + 1]
+        if not (isinstance(byid.get(u), OrbitNode) and isinstance(byid.get(v), OrbitNode)) or u == v:
+            continue
+        rec = leg.get("leg", leg)
+        try:
+            if orbits is None:
+                orbits = resolve_orbits(system, nodelist, catalog=catalog)
+            oa, ob = (_orbit_from_plain(system, orbits[n]) for n in (u, v))
+            start = start_from_record(system, rec) if rec.get("method") == "targeted" else None
+            out.append((k, optimise_transfer(oa, ob, start, impulses=impulses)))
+        except (LibrateError, KeyError) as e:
+            out.append((k, f"leg {k + 1} not optimised: {e}"))
+    return tuple(out)
 
 
 def maneuver_columns(stitched, exported=()):

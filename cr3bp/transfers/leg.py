@@ -103,6 +103,13 @@ class Leg:
                                    target orbit's path (:func:`arrival_time`); equal to ``tof``
                                    for a leg that ends on a parking orbit
     arrival_distance_km : float    the distance that counts as arrived (NaN: not an orbit)
+    solution : str                 how its Δv was found: "patch" (the construction's own
+                                   impulses: a manifold patch, a periapsis burn), "first guess"
+                                   (a targeted leg, not optimised) or "optimised"
+                                   (:mod:`cr3bp.transfers.optimise`)
+    optimised : bool               ``solution == "optimised"``
+    start : dict                   for an optimised leg, what the optimiser started from
+                                   (``solution``, ``dv_mps``, ``tof_days``, ``method``)
 
     ``tof`` runs to the manifold's step-off point on the target orbit, which includes the
     asymptotic approach (months in Sun-Earth); ``tof_arrival`` stops at the stated distance.
@@ -122,6 +129,9 @@ class Leg:
     details: dict = field(default_factory=dict, compare=False)
     tof_arrival: float = math.nan
     arrival_distance_km: float = math.nan
+    optimised: bool = False
+    solution: str = "patch"
+    start: dict = field(default_factory=dict, compare=False)
 
     @property
     def tof_days(self) -> float:
@@ -161,6 +171,8 @@ class Leg:
             "segments": [{"t0": float(t0), "state": list(map(float, s0)), "duration": float(d)}
                          for t0, s0, d in self.segments],
             "details": _plain(self.details),
+            "solution": self.solution, "optimised": self.optimised,
+            "start": _plain(self.start) if self.start else None,
         }
 
     def record(self, patches: int = 4) -> dict:
