@@ -644,7 +644,7 @@ def optimise(origin, target, *, system=None, impulses=3, max_tof=None, start="pa
     2010; Pavlak, PhD thesis, Purdue, 2013 (multiple shooting in the CR3BP); Lawden, *Optimal
     Trajectories for Space Navigation*, 1963 (primer vector); see :mod:`cr3bp.transfers.optimise`.
     """
-    from .errors import NoSolutionError
+    from .errors import ConvergenceError, NoSolutionError
     from .orbits.orbit import PeriodicOrbit
     from .transfers.optimise import IMPULSES, optimise_transfer, start_from_leg
     from .tubes.connections import connect as _connect
@@ -678,8 +678,8 @@ def optimise(origin, target, *, system=None, impulses=3, max_tof=None, start="pa
             legs, _, _ = _connect(oa, ob, str(section), points or 200, step_km=step_off, t_max=t_max,
                                   count=crossing)
             first = start_from_leg(legs[0])
-        except NoSolutionError:
-            first = None
+        except (NoSolutionError, ConvergenceError):
+            first = None              # the tubes gave no patch: the phase sweep starts instead
     return optimise_transfer(oa, ob, first, impulses=impulses, max_tof=cap, progress=progress)
 
 

@@ -535,6 +535,8 @@ def value_cases():
     add("connect-optimise-plot-suffix", opt + ["--plot={out}/d.jpg"])
     add("connect-impulses-without-optimise", BASE["connect"] + ["--impulses=2"])
     add("connect-start-without-optimise", BASE["connect"] + ["--start=sweep"])
+    add("connect-optimise-no-units", ["connect", "--mu=0.01", "--from=lyapunov L1 jacobi=3.0",
+                                      "--to=lyapunov L2 jacobi=3.0", "--optimise"])
     # graph and route
     for name in ("binary", "deep", "folder", "missing"):
         add(f"graph-nodes-{name}", ["graph", "build", EM, f"--nodes={{in}}/{name}.toml", "--workers=1", "--no-catalog"])

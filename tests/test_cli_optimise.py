@@ -84,3 +84,35 @@ def test_table_says_cr3bp_and_caution(capsys):
     assert "CR3BP total dv" in text and "CR3BP time of flight" in text
     assert "primer vector" in text and "active bounds" in text
     assert "CAUTION" in text.upper()
+
+
+ROUTE_NODES = '''system = "earth-moon"
+[settings]
+tof = "6d"
+patches = 4
+[[node]]
+name = "staging"
+kind = "orbit"
+orbit = "halo L1 north az=12000km"
+[[node]]
+name = "relay"
+kind = "orbit"
+orbit = "halo L2 south resonance=9:2"
+'''
+
+
+def test_route_optimise_reports_each_orbit_leg_beside_the_route(tmp_path, capsys):
+    """librate route --optimise: the graph's two-impulse leg staging -> relay (the seam graph ->
+    optimiser) is optimised from that leg and never costs more than it."""
+    nodes = tmp_path / "nodes.toml"
+    nodes.write_text(ROUTE_NODES)
+    argv = ["route", "--system=earth-moon", f"--nodes={nodes}", "--from=staging", "--to=relay", "--optimise",
+            "--no-stitch", "--no-catalog", "--workers=1", "--format=json", "--quiet"]
+    assert main(argv) == 0
+    doc = json.loads(capsys.readouterr().out)
+    graph_dv = doc["routes"][0]["dv_total_mps"]
+    (opt,) = doc["optimised_legs"]
+    assert opt["leg"] == 1 and opt["start"]["solution"] == "first guess"
+    assert opt["start_dv_mps"] == pytest.approx(graph_dv, rel=1e-9)
+    assert opt["dv_mps"] <= graph_dv
+    assert opt["phase_from"] is not None

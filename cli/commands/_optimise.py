@@ -42,6 +42,9 @@ def check(args, system, pa, pb):
                    ("--inclination", args.inclination)):
         if v:
             raise InputError(f"{opt} does not apply with --optimise")
+    if not system.dimensional:
+        raise InputError(f"--optimise reports m/s and days: system '{system.name}' has no dimensional units; "
+                         "give --length-km and --time-s")
     cap = None
     if args.max_tof is not None:
         cap = quantity("--max-tof", args.max_tof, "time", system, sign="positive")
@@ -66,7 +69,7 @@ HEADERS = ["maneuver", "t_days", "dv_mps", "x_km", "y_km", "z_km"]
 def run(args, system, pa, pb, t_max):
     import math
 
-    from cr3bp.errors import NoSolutionError
+    from cr3bp.errors import ConvergenceError, NoSolutionError
     from cr3bp.transfers.optimise import optimise_transfer, start_from_leg
     from cr3bp.tubes.connections import connect
     from . import _tube_options as to
@@ -85,7 +88,7 @@ def run(args, system, pa, pb, t_max):
                                  branch_a=args.from_branch or "interior", branch_b=args.to_branch or "interior",
                                  max_candidates=args.candidates, progress=to.progress_printer(args))
             start = start_from_leg(legs[0])
-        except NoSolutionError as e:
+        except (NoSolutionError, ConvergenceError) as e:
             why_sweep = f"the tubes gave no patch ({e})"
             common.progress(args, f"{why_sweep}; starting from a phase sweep of two-impulse legs")
     tr = optimise_transfer(oa, ob, start, impulses=args.impulses, max_tof=cap,
