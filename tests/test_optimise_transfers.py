@@ -173,3 +173,16 @@ def test_bad_impulses(em):
         cr3bp.optimise("lyapunov L1 jacobi=3.15", "lyapunov L2 jacobi=3.15", system=em, impulses=4)
     with pytest.raises(InputError, match="parking orbit"):
         cr3bp.optimise("parking earth 200km", "lyapunov L2 jacobi=3.15", system=em)
+
+
+def test_time_cap_binds_and_is_reported(em, nrho_transfer):
+    """With a cap below the unconstrained optimum's time of flight (5.9 d), the cap binds, is
+    reported among the active bounds, and costs more than the free optimum."""
+    cap_days = 4.0
+    assert nrho_transfer.tof_days > cap_days
+    tr = cr3bp.optimise("halo L1 north az=12000km", "halo L2 south resonance=9:2", system=em, start="sweep",
+                        max_tof=f"{cap_days}d")
+    assert tr.tof_days <= cap_days * (1 + 1e-9)
+    assert tr.optimised and "max_tof" in tr.active_bounds      # measured: 598.4 m/s in 4.0 d
+    assert tr.dv_mps >= nrho_transfer.dv_mps - 1e-6
+    assert "max_tof" not in nrho_transfer.active_bounds
