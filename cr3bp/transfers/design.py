@@ -156,9 +156,9 @@ def optimise_route(system, nodelist, route, *, impulses: int = 3, catalog=None) 
     optimised (not between two orbits, no start, the optimiser's error).
     """
     from ..errors import LibrateError
-    from .graph import _orbit_from_plain, resolve_orbits
+    from .graph import _orbit_from_plain, resolve_orbits          # lazy: as design_transfer's own
     from .nodes import OrbitNode
-    from .optimise import optimise_transfer, start_from_record
+    from .optimise import optimise_transfer, start_from_record    # lazy: scipy's optimiser, only when asked
     byid = {n.id: n for n in nodelist.nodes}
     orbits = None
     out = []
@@ -166,12 +166,14 @@ def optimise_route(system, nodelist, route, *, impulses: int = 3, catalog=None) 
         u, v = route.nodes[k], route.nodes[k + 1]
         if not (isinstance(byid.get(u), OrbitNode) and isinstance(byid.get(v), OrbitNode)) or u == v:
             continue
-        rec = leg.get("leg", leg)
+        rec = leg.get("leg", leg) if isinstance(leg, dict) else leg
         try:
             if orbits is None:
                 orbits = resolve_orbits(system, nodelist, catalog=catalog)
             oa, ob = (_orbit_from_plain(system, orbits[n]) for n in (u, v))
-            start = start_from_record(system, rec) if rec.get("method") == "targeted" else None
+            # a targeted leg record starts the optimiser; anything else: the phase sweep
+            start = (start_from_record(system, rec)
+                     if isinstance(rec, dict) and rec.get("method") == "targeted" else None)
             out.append((k, optimise_transfer(oa, ob, start, impulses=impulses)))
         except (LibrateError, KeyError) as e:
             out.append((k, f"leg {k + 1} not optimised: {e}"))

@@ -110,7 +110,7 @@ def _one_blas_thread():
     only (the loaded libraries are read from /proc/self/maps); elsewhere a no-op."""
     restore = []
     try:
-        import ctypes   # lazy: only here
+        import ctypes   # lazy: only this Linux-only speed-up needs it
         with open("/proc/self/maps") as f:
             paths = {ln.split()[-1] for ln in f if "openblas" in ln.lower() and ".so" in ln}
         for path in sorted(paths):
@@ -223,7 +223,7 @@ def start_from_record(system, record: dict) -> Start:
 def two_impulse(system, pa: _OrbitPoints, pb: _OrbitPoints, phase_from, phase_to, tof):
     """The two-impulse targeted leg between the orbits at the given phases (a :class:`Start`),
     or None where targeting fails."""
-    from .targeting import solve_departure
+    from .targeting import solve_departure   # lazy: only the sweep needs it
     sa, _ = pa.at(phase_from)
     sb, _ = pb.at(phase_to)
     try:
