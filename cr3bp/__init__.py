@@ -7,7 +7,7 @@ One call per stage of a design (:mod:`cr3bp.api`)::
     nrho = cr3bp.orbit(em, "halo L2 south resonance=9:2")
     tube = cr3bp.manifold(nrho, "unstable", points=100, until="time:20d")
 
-``system``, ``points``, ``orbit``, ``family``, ``manifold``, ``section``, ``connect``,
+``system``, ``points``, ``orbit``, ``family``, ``manifold``, ``section``, ``connect``, ``optimise``,
 ``route``, ``export``, ``run`` (a scenario file), ``torus``, ``shadow``, ``keep``.
 
 Conventions (units, frame, Omega, Jacobi constant) are stated once in :mod:`cr3bp.systems`.
@@ -36,7 +36,7 @@ _LAZY = {
     "HillRegion": "energy", "hill_region": "energy", "jacobi_above": "energy",
 }
 #: the public face: one call per stage (cr3bp/api.py)
-STAGES = ("system", "points", "orbit", "family", "manifold", "section", "connect", "route", "export",
+STAGES = ("system", "points", "orbit", "family", "manifold", "section", "connect", "optimise", "route", "export",
           "run", "torus", "shadow", "keep")
 _LAZY.update({name: "api" for name in STAGES})
 

@@ -32,7 +32,7 @@ from . import units
 from .systems import System, system as _system
 from .units import length
 
-__all__ = ["system", "points", "orbit", "family", "manifold", "section", "connect", "route",
+__all__ = ["system", "points", "orbit", "family", "manifold", "section", "connect", "optimise", "route",
            "export", "run", "torus", "shadow", "keep"]
 
 
@@ -593,6 +593,96 @@ def connect(origin, target, *, system=None, section="x=1-mu", points=None, cross
                           branch_a=from_branch or "interior", branch_b=to_branch or "interior",
                           max_candidates=candidates)
     return legs
+
+
+def optimise(origin, target, *, system=None, impulses=3, max_tof=None, start="patch", section="x=1-mu",
+             points=None, crossing=1, time=None, step_off=None, progress=None):
+    """The least-Δv transfer between two periodic orbits with two or three impulses
+    (``librate connect --optimise``).
+
+    Parameters
+    ----------
+    origin, target : PeriodicOrbit or str
+        The departure and arrival orbits (orbit requests as for :func:`orbit`).
+    system : System or str, optional
+        Needed when neither end is a PeriodicOrbit.
+    impulses : {2, 3}
+        Departure and insertion, plus one mid-course impulse with 3 (default).
+    max_tof : str or float, optional
+        Cap on the time of flight (``"30d"``, or TU as a float); default 1.5 times the start's
+        and at least two periods of the longer orbit.
+    start : {"patch", "sweep"}
+        Start from the manifold patch of the two tubes (as :func:`connect`; a phase sweep of
+        two-impulse legs where the tubes do not meet), or from the sweep only.
+    section, points, crossing, time, step_off : as :func:`connect` (the patch start).
+    progress : callable(str), optional
+
+    Returns
+    -------
+    cr3bp.transfers.optimise.OrbitTransfer
+        ``.solution`` ("optimised", "patch" or "first guess"), ``.dv_mps`` and ``.tof_days``
+        (CR3BP), ``.start`` (what it started from), ``.iterations``, ``.active_bounds``,
+        ``.primer`` (Lawden's check), ``.to_dict()``, ``.leg()``.
+
+    Raises
+    ------
+    InputError
+        A parking orbit at either end, an impulse count other than 2 or 3, a bad cap.
+    NoSolutionError
+        No start: the tubes do not meet and no two-impulse leg of the sweep converged.
+
+    Examples
+    --------
+    >>> import cr3bp
+    >>> cr3bp.optimise("lyapunov L1 jacobi=3.15", "lyapunov L2 jacobi=3.15", system="earth-moon",
+    ...                impulses=4)
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: impulses = 4; allowed: 2 or 3
+
+    References
+    ----------
+    Betts, *Practical Methods for Optimal Control and Estimation Using Nonlinear Programming*,
+    2010; Pavlak, PhD thesis, Purdue, 2013 (multiple shooting in the CR3BP); Lawden, *Optimal
+    Trajectories for Space Navigation*, 1963 (primer vector); see :mod:`cr3bp.transfers.optimise`.
+    """
+    from .errors import ConvergenceError, NoSolutionError  # lazy: start-up (keeps cr3bp.api free of numpy)
+    from .orbits.orbit import PeriodicOrbit  # lazy: start-up (keeps cr3bp.api free of numpy)
+    from .transfers.optimise import IMPULSES, optimise_transfer, start_from_leg  # lazy: start-up (keeps cr3bp.api free of numpy)
+    from .tubes.connections import connect as _connect  # lazy: start-up (keeps cr3bp.api free of numpy)
+    from .validate import quantity  # lazy: start-up (keeps cr3bp.api free of numpy)
+    sysm = None
+    for end in (origin, target):
+        if isinstance(end, PeriodicOrbit):
+            sysm = end.system
+    if sysm is None:
+        if system is None:
+            raise InputError("give system= when neither end is a PeriodicOrbit")
+        sysm = _as_system(system)
+    if impulses not in IMPULSES:
+        raise InputError(f"impulses = {impulses!r}; allowed: 2 or 3")
+    _one_of("start", start, ("patch", "sweep"))
+    for end in (origin, target):
+        if isinstance(end, str) and _parking(end, sysm):
+            raise InputError(f"'{end}' is a parking orbit; optimise joins two periodic orbits")
+    cap = None if max_tof is None else quantity("max_tof", _text(max_tof), "time", sysm, sign="positive",
+                                                default_unit="TU")
+    t_max = 2 * math.pi if time is None else quantity("time", _text(time), "time", sysm, sign="positive",
+                                                      default_unit="TU")
+    crossing = _whole("crossing", crossing, 1, 1000)
+    if points is not None:
+        points = _whole("points", points, 2, 100_000)
+    oa = origin if isinstance(origin, PeriodicOrbit) else orbit(sysm, origin)
+    ob = target if isinstance(target, PeriodicOrbit) else orbit(sysm, target)
+    first = None
+    if start == "patch":
+        try:
+            legs, _, _ = _connect(oa, ob, str(section), points or 200, step_km=step_off, t_max=t_max,
+                                  count=crossing)
+            first = start_from_leg(legs[0])
+        except (NoSolutionError, ConvergenceError):
+            first = None              # the tubes gave no patch: the phase sweep starts instead
+    return optimise_transfer(oa, ob, first, impulses=impulses, max_tof=cap, progress=progress)
 
 
 # ---- routes, export, scenarios ---------------------------------------------------------

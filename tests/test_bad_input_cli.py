@@ -522,6 +522,23 @@ def value_cases():
     for extra in ("--section=y=0", "--map={out}/m.png", "--arrival-within=5000km", "--step-off=50km"):
         add(f"connect-path-with-{extra.split('=')[0][2:]}", dep + ["--path=direct", extra])
     add("connect-path-plot-suffix", dep + ["--path=direct", "--plot={out}/d.jpg"])
+    # connect --optimise (orbit-to-orbit transfers): refused before any orbit is solved
+    opt = BASE["connect"][:-1] + ["--optimise"]
+    for v in ("1", "4", "x", "-3"):
+        add(f"connect-optimise-impulses-{v}", opt + [f"--impulses={v}"])
+    add("connect-optimise-start-bogus", opt + ["--start=guess"])
+    for v in ("0d", "-3d", "5", "5km", "nand", "3000d"):
+        add(f"connect-optimise-max-tof-{v}", opt + [f"--max-tof={v}"])
+    add("connect-optimise-with-path", opt + ["--path=direct"])
+    add("connect-optimise-from-parking", C + ["--from=parking earth 200km", "--to=halo L2 south resonance=9:2",
+                                              "--optimise"])
+    for extra in ("--map={out}/m.png", "--arrival-within=5000km", "--inclination=28deg"):
+        add(f"connect-optimise-with-{extra.split('=')[0][2:]}", opt + [extra])
+    add("connect-optimise-plot-suffix", opt + ["--plot={out}/d.jpg"])
+    add("connect-impulses-without-optimise", BASE["connect"] + ["--impulses=2"])
+    add("connect-start-without-optimise", BASE["connect"] + ["--start=sweep"])
+    add("connect-optimise-no-units", ["connect", "--mu=0.01", "--from=lyapunov L1 jacobi=3.0",
+                                      "--to=lyapunov L2 jacobi=3.0", "--optimise"])
     # graph and route
     for name in ("binary", "deep", "folder", "missing"):
         add(f"graph-nodes-{name}", ["graph", "build", EM, f"--nodes={{in}}/{name}.toml", "--workers=1", "--no-catalog"])

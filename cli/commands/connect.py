@@ -6,6 +6,7 @@ from cr3bp.vocabulary import COLLINEAR_POINTS, TUBE_BRANCHES
 
 from .. import common
 from . import _departure
+from . import _optimise
 from . import _tube_options as to
 
 NAME = "connect"
@@ -46,6 +47,7 @@ def add_arguments(p):
     p.add_argument("--map", metavar="FILE", help="parking-orbit legs: draw the periapsis map (altitude against "
                    "time of flight, the target altitude marked)")
     _departure.add_arguments(p)
+    _optimise.add_arguments(p)
     common.add_output_options(p)
 
 
@@ -110,6 +112,9 @@ def run(args):
     t_max = quantity("--time", args.time, "time", system, sign="positive", default_unit="TU") \
         if args.time is not None else 2 * math.pi
     pa, pb = parse_parking(args.origin, system), parse_parking(args.target, system)
+    if args.optimise:
+        return _optimise.run(args, system, pa, pb, t_max)
+    _optimise.check_unused(args)
     if args.path is not None:
         return _departure.run(args, system, pa)
     within_km = None

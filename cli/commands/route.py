@@ -33,6 +33,11 @@ def add_arguments(p):
     g.add_argument("--objective", choices=("dv", "tof"), default="dv", help="rank by total Δv or time of flight")
     g.add_argument("--pareto", action="store_true", help="also give the Pareto set of Δv against time of flight")
     g.add_argument("--no-stitch", action="store_true", help="rank only; do not stitch the best route")
+    g.add_argument("--optimise", action="store_true",
+                   help="also optimise each leg of the best route that joins two periodic orbits (up to three "
+                        "impulses, free phases and times of flight, multiple shooting in the CR3BP), started "
+                        "from the graph's leg; reported beside the route, whose stitched trajectory keeps the "
+                        "graph's legs")
     q = p.add_argument_group("output")
     common.add_plot_option(q, "draw the transfer corridor (the Pareto front and the graph go beside "
                               "it as FILE-pareto and FILE-graph)")
@@ -100,11 +105,14 @@ def run(args):
     def stage(what, value):
         if what == "built":
             _graphing.built(args, value)
+        elif what == "optimising":
+            common.progress(args, "librate: optimising the best route's orbit-to-orbit legs...")
         else:
             common.progress(args, f"librate: stitching the best route ({value.n_legs} leg(s)) by multiple shooting...")
     try:
         design = design_transfer(system, nodelist, src, dst, constraints, objective=args.objective, best=k,
-                                 pareto=args.pareto, stitch=not args.no_stitch, on_stage=stage, **settings)
+                                 pareto=args.pareto, stitch=not args.no_stitch, on_stage=stage,
+                                 optimise=args.optimise, **settings)
     finally:
         if settings["catalog"] is not None:
             settings["catalog"].close()
@@ -142,6 +150,9 @@ def run(args):
                "graph": {"nodes": g.number_of_nodes(), "edges": g.number_of_edges(), "computed": result.computed,
                          "cached": result.cached, "pruned": len(result.pruned)},
                "files": files}
+    if args.optimise:
+        payload["optimised_legs"] = [dict(tr.to_dict(), leg=k + 1) if not isinstance(tr, str) else
+                                     {"leg": k + 1, "not_optimised": tr} for k, tr in design.optimised]
     if args.format == "json":
         import sys
         sys.stdout.write(common.json_text(payload))
@@ -175,6 +186,15 @@ def run(args):
             "rescales speeds)." if table else "") + "\n")
         if warn:
             text += warn + "\n"
+    if args.optimise:
+        text += "\noptimised orbit-to-orbit legs of the best route (CR3BP; beside the route, not stitched):\n"
+        for k, tr in design.optimised:
+            text += (f"  leg {k + 1}: {tr}\n" if isinstance(tr, str) else
+                     f"  leg {k + 1}: {tr.solution} {tr.dv_mps:.3f} m/s in {tr.tof_days:.4f} d, from the graph's "
+                     f"{tr.start.dv_mps:.3f} m/s ({len(tr.maneuvers)} impulses, {tr.iterations} iterations, "
+                     f"active bounds: {', '.join(tr.active_bounds) or 'none'})\n")
+        if not design.optimised:
+            text += "  none: no leg of the best route joins two periodic orbits\n"
     if not_stitched:
         text += f"\nnot stitched: {not_stitched}\n"
     for f in files:

@@ -14,9 +14,10 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from ..errors import NoSolutionError
+from ..errors import LibrateError, NoSolutionError
 from ..io.export import dv_differs
-from .graph import build_graph
+from .graph import _orbit_from_plain, build_graph, resolve_orbits
+from .nodes import OrbitNode
 from .search import Constraints, best_routes, node_label, pareto_routes
 from .stitch import PhasingError, stitch_route
 
@@ -44,6 +45,9 @@ class TransferDesign:
         The best route stitched (None: not asked, or not possible, see ``not_stitched``).
     not_stitched : str or None
         Why the best route was not stitched (None if it was).
+    optimised : tuple of (int, OrbitTransfer or str)
+        With ``optimise=True``: each leg of the best route between two orbit nodes (by its
+        index), optimised (:func:`optimise_route`), or why not.
 
     Examples
     --------
@@ -86,6 +90,7 @@ class TransferDesign:
     pareto: tuple
     stitched: object
     not_stitched: str | None = None
+    optimised: tuple = ()
 
     @property
     def graph(self):
@@ -176,7 +181,7 @@ def no_route_reason(built, error, source, target, constraints: Constraints) -> s
 def design_transfer(system, nodelist, source, target, constraints: Constraints = Constraints(), *,
                     objective: str = "dv", best: int = 3, pareto: bool = True, stitch: bool = True,
                     workers=None, scheduler=None, catalog=None, tof_days=None, progress=None,
-                    on_stage=None) -> TransferDesign:
+                    on_stage=None, optimise: bool = False, impulses: int = 3) -> TransferDesign:
     """Build the transfer graph of ``nodelist``, rank the routes from ``source`` to ``target``,
     find the Pareto set, and stitch the best route (the one pipeline ``librate route`` and a
     scenario's ``[[transfers]]`` both call).
@@ -198,8 +203,13 @@ def design_transfer(system, nodelist, source, target, constraints: Constraints =
     workers, scheduler, catalog, tof_days, progress
         As :func:`cr3bp.transfers.graph.build_graph`.
     on_stage : callable(stage, value), optional
-        Told ``("built", BuildResult)`` once the graph is built and ``("stitching", Route)``
-        before the stitching.
+        Told ``("built", BuildResult)`` once the graph is built, ``("stitching", Route)``
+        before the stitching (and ``("optimising", Route)`` before :func:`optimise_route`).
+    optimise : bool
+        Also optimise the best route's orbit-to-orbit legs (reported beside the route; the
+        stitched route keeps the graph's legs).
+    impulses : {2, 3}
+        Impulses per optimised leg.
 
     Returns
     -------
@@ -267,7 +277,44 @@ def design_transfer(system, nodelist, source, target, constraints: Constraints =
             stitched = stitch_route(system, routes[0], constraints, periods=orbit_periods(g))
         except PhasingError as e:
             not_stitched = str(e)
-    return TransferDesign(built, source, target, tuple(routes), tuple(front), stitched, not_stitched)
+    optimised = ()
+    if optimise:
+        if on_stage is not None:
+            on_stage("optimising", routes[0])
+        optimised = optimise_route(system, nodelist, routes[0], impulses=impulses, catalog=catalog)
+    return TransferDesign(built, source, target, tuple(routes), tuple(front), stitched, not_stitched, optimised)
+
+
+def optimise_route(system, nodelist, route, *, impulses: int = 3, catalog=None) -> tuple:
+    """Optimise every leg of ``route`` that joins two orbit nodes (a two-impulse targeted leg of
+    the graph, or a manifold leg with its phases) by :func:`cr3bp.transfers.optimise.optimise_transfer`,
+    started from that leg.
+
+    Returns
+    -------
+    tuple of (leg index, OrbitTransfer or str): the optimised transfer, or why the leg was not
+    optimised (not between two orbits, no start, the optimiser's error).
+    """
+    from .optimise import optimise_transfer, start_from_record    # lazy: scipy's optimiser, only when asked
+    byid = {n.id: n for n in nodelist.nodes}
+    orbits = None
+    out = []
+    for k, leg in enumerate(route.legs):
+        u, v = route.nodes[k], route.nodes[k + 1]
+        if not (isinstance(byid.get(u), OrbitNode) and isinstance(byid.get(v), OrbitNode)) or u == v:
+            continue
+        rec = leg.record() if hasattr(leg, "record") else leg.get("leg", leg)
+        try:
+            if orbits is None:
+                orbits = resolve_orbits(system, nodelist, catalog=catalog)
+            oa, ob = (_orbit_from_plain(system, orbits[n]) for n in (u, v))
+            # a targeted leg record starts the optimiser; anything else: the phase sweep
+            start = (start_from_record(system, rec)
+                     if isinstance(rec, dict) and rec.get("method") == "targeted" else None)
+            out.append((k, optimise_transfer(oa, ob, start, impulses=impulses)))
+        except (LibrateError, KeyError) as e:
+            out.append((k, f"leg {k + 1} not optimised: {e}"))
+    return tuple(out)
 
 
 def maneuver_columns(stitched, exported=()):

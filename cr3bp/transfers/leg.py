@@ -201,6 +201,15 @@ class Leg:
     tof_days, tof_arrival_days : float or None
         ``tof`` and ``tof_arrival`` in days (None: computed from the system; NaN without
         dimensional units).
+    solution : str
+        How its Δv was found: "patch" (the construction's own impulses: a manifold patch, a
+        periapsis burn), "first guess" (a targeted leg, not optimised) or "optimised"
+        (:mod:`cr3bp.transfers.optimise`).
+    optimised : bool
+        ``solution == "optimised"``.
+    start : dict
+        For an optimised leg, what the optimiser started from (``solution``, ``dv_mps``,
+        ``tof_days``, ``method``).
 
     Examples
     --------
@@ -248,6 +257,9 @@ class Leg:
     reason: str = ""
     tof_days: float | None = None
     tof_arrival_days: float | None = None
+    optimised: bool = False
+    solution: str = "patch"
+    start: dict = field(default_factory=dict, compare=False)
 
     def __post_init__(self):
         if self.status == "ok":
@@ -306,6 +318,8 @@ class Leg:
             "segments": [{"t0": float(t0), "state": list(map(float, s0)), "duration": float(d)}
                          for t0, s0, d in self.segments],
             "details": _plain(self.details),
+            "solution": self.solution, "optimised": self.optimised,
+            "start": _plain(self.start) if self.start else None,
         }
 
     @property
