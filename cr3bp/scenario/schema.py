@@ -29,7 +29,16 @@ FILE_RULE = "1 to 100 letters, digits, '-', '_' or '.', starting with a letter o
 #: The schema type of each kind of target value (cr3bp.vocabulary.TARGET_DIMENSIONS).
 _TARGET_TYPES = {"time": Q, "length": Q, "number": F, "ratio": S}
 ORBIT_KEYS = {
-    "family": (words.one_of(words.FAMILIES), True, "orbit family"),
+    "family": (words.one_of(words.FAMILIES), False, "periodic-orbit family (or give 'torus')"),
+    "torus": (S, False, "a quasi-periodic torus instead of a periodic orbit: a torus request, e.g. "
+                        "'quasi-halo around halo L2 south resonance=9:2 amplitude=2000km' or "
+                        "'lissajous L2 ay=800000km az=500000km' (families: "
+                        + ", ".join(words.TORUS_FAMILIES) + "; targets: "
+                        + ", ".join(words.TORUS_TARGETS) + ")"),
+    "torus_phase_deg": ("list[float]", False, "with 'torus': the torus phase [THETA0, THETA1] in "
+                        "degrees (along the stroboscopic time, around the invariance circle) of "
+                        "the exported trajectory's first state and of the angle checks' trajectory "
+                        "at the epoch (default [0, 0])"),
     "point": (words.one_of(words.COLLINEAR_POINTS), False, "Lagrange point (not for dro/resonant)"),
     "branch": (words.one_of(words.HALO_BRANCHES, optional=True), False, "halo branch"),
     # the orbit targets, one key each (give exactly one)
@@ -197,6 +206,22 @@ def check(data: dict, lines: dict, file: str, schema: dict | None = None,
     if isinstance(orbits, dict):
         targets = words.ORBIT_TARGETS
         for name, t in orbits.items():
+            if isinstance(t, dict) and "torus" in t:
+                from .tori import entry_problems
+                for key, why in entry_problems(t):
+                    problems.append(Problem(file, line(f"orbits.{name}.{key}"),
+                                            f"orbits.{name}.{key}", why, "meaning"))
+                continue
+            if isinstance(t, dict) and "family" not in t:
+                problems.append(Problem(file, line(f"orbits.{name}"), f"orbits.{name}",
+                                        "give 'family' (a periodic orbit) or 'torus' (a torus "
+                                        "request)", "meaning"))
+                continue
+            if isinstance(t, dict) and "torus_phase_deg" in t:
+                problems.append(Problem(file, line(f"orbits.{name}.torus_phase_deg"),
+                                        f"orbits.{name}.torus_phase_deg",
+                                        "'torus_phase_deg' goes with 'torus'; a periodic orbit's "
+                                        "phase is 'phase_deg'", "meaning"))
             if isinstance(t, dict):
                 given = [k for k in targets if k in t]
                 if len(given) != 1:

@@ -25,13 +25,14 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import ConvergenceError, InputError, NoSolutionError, shown
+from ..vocabulary import TORUS_FAMILIES, TORUS_TARGETS
 from . import circle, seeds
 from .family import continue_family
 from .torus import SurfaceError, build, solve_adaptive, torus_around
 
-FAMILIES = ("lissajous", "quasi-halo")
+FAMILIES = TORUS_FAMILIES
 ALIASES = {"quasihalo": "quasi-halo", "qh": "quasi-halo", "liss": "lissajous"}
-KEYS = ("ay", "az", "amplitude", "jacobi", "period", "frequency-ratio")
+KEYS = TORUS_TARGETS
 KEY_ALIASES = {"rotation-number": "frequency-ratio", "ratio": "frequency-ratio"}
 EXAMPLE = "quasi-halo around halo L2 south resonance=9:2 amplitude=2000km"
 #: Continuation of the held pair from the start torus to the target: first, smallest step
