@@ -591,6 +591,30 @@ def value_cases():
     add("refine-revs-with-route", ["refine", EM, "--route={in}", EPOCH, "--revs=3"])
     add("refine-custom-system", ["refine", "--mu=0.01", "--orbit=lyapunov L1 jacobi=3.1", EPOCH])
     add("refine-route-missing", ["refine", EM, "--route={in}/nowhere", EPOCH])
+    # refine --torus (an arc on a torus)
+    RT = ["refine", EM, "--torus=quasi-halo around halo L1 north az=10000km amplitude=300km", EPOCH,
+          "--span=1periods"]
+    add("refine-torus-no-span", RT[:-1])
+    add("refine-torus-span-length", RT[:-1] + ["--span=3km"])
+    add("refine-torus-span-negative", RT[:-1] + ["--span=-2d"])
+    add("refine-torus-phase-one-angle", RT + ["--phase=30"])
+    add("refine-torus-phase-nan", RT + ["--phase=nan,0"])
+    add("refine-torus-phase-words", RT + ["--phase=east,west"])
+    add("refine-torus-revs", RT + ["--revs=3"])
+    add("refine-torus-patch-days", RT + ["--patch-days=2"])
+    add("refine-torus-patches-0", RT + ["--patches=0"])
+    add("refine-torus-unknown-family", ["refine", EM, "--torus=quasi-bagel around halo L1 north az=10000km "
+                                        "amplitude=300km", EPOCH, "--span=1periods"])
+    add("refine-torus-around-lyapunov", ["refine", EM, "--torus=quasi-halo around lyapunov L1 ax=5000km "
+                                         "amplitude=300km", EPOCH, "--span=1periods"])
+    add("refine-torus-amplitude-negative", ["refine", EM, "--torus=quasi-halo around halo L1 north az=10000km "
+                                            "amplitude=-300km", EPOCH, "--span=1periods"])
+    add("refine-torus-and-orbit", RT + ["--orbit=halo L2 south period=6.5626d"])
+    add("refine-torus-custom-system", ["refine", "--mu=0.01", "--torus=lissajous L1 ay=1000km az=1000km", EPOCH,
+                                       "--span=1periods"])
+    add("refine-span-with-orbit", RF + ["--span=2d"])
+    add("refine-phase-with-orbit", RF + ["--phase=10,20"])
+    add("refine-span-with-route", ["refine", EM, "--route={in}", EPOCH, "--span=2d"])
     return c
 
 
