@@ -119,3 +119,31 @@ def test_section_of_a_torus_tube(capsys):
     assert cut["n_trajectories"] == 25
     # every crossing lies on x = 1 - mu
     assert all(abs(s[0] - (1 - EM.mu)) < 1e-9 for s in cut["states"])
+
+
+def test_torus_in_3d_surface_circle_and_caution(torus):
+    """The interactive figure (item: tori in 3-D): the surface's first row is the invariance
+    circle (resampled), its last row the circle turned by the rotation (invariance), and the
+    short caution and the model are in the title."""
+    pytest.importorskip("plotly")
+    from cr3bp.cautions import caution_short
+    from cr3bp.tori.circle import evaluate, resample
+    fig = torus.to_plotly(n_circle=31, n_time=40)
+    surf = [t for t in fig.data if t.type == "surface" and "torus surface" in (t.name or "")][0]
+    x, y, z = (np.asarray(getattr(surf, c)) for c in "xyz")
+    assert x.shape == (41, 32)
+    u = resample(torus.circle, 31)[:, :3] * EM.length_km
+    assert np.allclose(np.c_[x[0, :31], y[0, :31], z[0, :31]], u, atol=1e-6)
+    turned = evaluate(torus.circle, np.arange(31) * 2 * np.pi / 31 + torus.rotation)[:, :3] * EM.length_km
+    assert np.abs(np.c_[x[-1, :31], y[-1, :31], z[-1, :31]] - turned).max() < 1e-3    # km
+    title = fig.layout.title.text
+    assert "CR3BP" in title and caution_short()[:30] in title.replace("&amp;", "&")
+
+
+def test_scenario_report_section_of_a_torus_has_the_3d_figure(torus):
+    pytest.importorskip("plotly")
+    from cr3bp.plotting.interactive import ReportFigures
+    from cr3bp.scenario.tori import section
+    html = section("ring", torus, None, {}, ReportFigures())
+    assert "plot3d-0" in html
+    assert "Torus &#x27;ring&#x27; in 3-D" in html or "Torus 'ring' in 3-D" in html
