@@ -180,7 +180,18 @@ def resolve_orbits(system, nodelist, catalog=None, progress=None) -> dict:
     from ..orbits.request import solve_request
     out = {}
     for n in nodelist.nodes:
-        if isinstance(n, OrbitNode) and n.id not in out:
+        if isinstance(n, OrbitNode) and n.id not in out and n.is_torus:
+            from ..tori import request as treq
+            try:
+                t = treq.solve(system, n.orbit, catalog=catalog)
+                out[n.id] = {"state": np.asarray(t.circle[0], dtype=float), "period": float(t.stroboscopic_time),
+                             "jacobi": float(t.jacobi), "family": t.family, "point": t.point,
+                             "branch": t.branch, "torus": True}
+            except LibrateError as e:
+                out[n.id] = {"error": str(e)}
+            if progress is not None:
+                progress(n, out[n.id])
+        elif isinstance(n, OrbitNode) and n.id not in out:
             try:
                 o = solve_request(system, n.orbit, catalog=catalog)
                 out[n.id] = {"state": np.asarray(o.state, dtype=float), "period": float(o.period),
@@ -381,6 +392,13 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
                     why = (f"parking node '{n.name}' joins periodic orbits only (a manifold leg through "
                            f"periapsis, or a direct departure from an Earth parking orbit in Earth-Moon), "
                            f"not the {other.kind} node '{other.name}'")
+        for n in (a, b):
+            if why is None and isinstance(n, OrbitNode) and n.is_torus and (
+                    isinstance(a, (ParkingNode, BoundaryNode)) or isinstance(b, (ParkingNode, BoundaryNode))
+                    or (h and h.sections)):
+                why = (f"torus node '{n.name}': legs through manifolds (parking, capture, escape and "
+                       "section-hinted connections) are not built for tori yet; a targeted leg departs or "
+                       "arrives at the torus's reference state (phase 0, 0)")
         sa, sb = states[a.id], states[b.id]
         maneuvers = h.maneuvers if h else "ends"
         if why is None and not isinstance(b, BoundaryNode):   # a boundary has no state: the manifold decides
