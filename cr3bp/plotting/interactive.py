@@ -130,7 +130,7 @@ def torus_figure(torus, name=None, n_circle=48, n_time=160, fig=None, colour="#1
     trajectories of ``n_circle`` points of its invariance circle over one stroboscopic period
     (``n_time`` steps; the surface closes on itself around the circle), and the invariance
     circle as a curve. ``fig``: add to an existing figure."""
-    from ..tori import surface
+    from ..integrate import propagate_batch
     from ..tori.circle import evaluate, resample
     go = require_plotly()
     system = torus.system
@@ -139,7 +139,10 @@ def torus_figure(torus, name=None, n_circle=48, n_time=160, fig=None, colour="#1
                                     f"period {torus.stroboscopic_time:.6f} TU (CR3BP)")
     f, unit = _scale(system)
     n = n_circle + (1 - n_circle % 2)                       # odd, as the circle's nodes are
-    grid = surface(system, resample(torus.circle, n), torus.stroboscopic_time, n_time)[:, :, :3] * f
+    rows = [resample(torus.circle, n)]
+    for _ in range(n_time):               # one batch propagation of the whole circle per step
+        rows.append(propagate_batch(system, rows[-1], torus.stroboscopic_time / n_time).states)
+    grid = np.array(rows)[:, :, :3] * f
     grid = np.concatenate([grid, grid[:, :1]], axis=1)      # closed around the circle
     fig.add_trace(go.Surface(x=grid[:, :, 0], y=grid[:, :, 1], z=grid[:, :, 2], showscale=False, opacity=0.55,
                              colorscale=[[0, colour], [1, colour]], name=f"{label} torus surface",

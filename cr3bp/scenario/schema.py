@@ -8,6 +8,7 @@ once, before anything is computed; :func:`check` adds the scenario's cross-key r
 
 from __future__ import annotations
 
+import math
 import re
 from pathlib import Path
 
@@ -126,6 +127,44 @@ UNUSED_SETTINGS = {
 }
 
 
+#: Keys of a periodic orbit's table that a torus table refuses, and why.
+NOT_FOR_TORI = {
+    "family": "the torus request names its family",
+    "point": "the torus request names its point",
+    "branch": "the torus request names its orbit",
+    "resonant": "the torus request names its orbit",
+    "occurrence": "the torus request names its orbit",
+    "phase_deg": "a torus's phase is two angles: use torus_phase_deg = [THETA0, THETA1]",
+}
+#: Checks a torus cannot be given, and why.
+CHECKS_NOT_FOR_TORI = {
+    "max_period": "a torus has two frequencies and no period; its stroboscopic period is in the "
+                  "orbit table",
+    "max_eclipse_duration": "eclipse checks are computed for periodic orbits only, not tori",
+    "max_eclipse_per_year": "eclipse checks are computed for periodic orbits only, not tori",
+}
+
+
+def torus_entry_problems(entry: dict) -> list[tuple[str, str]]:
+    """``[(key, message)]`` of a torus table's keys that do not go with a torus (key relative
+    to the table)."""
+    out = [(k, f"'{k}' does not go with 'torus': {why}") for k, why in NOT_FOR_TORI.items()
+           if k in entry]
+    for k in words.ORBIT_TARGETS:
+        if k in entry:
+            out.append((k, f"'{k}' does not go with 'torus': the torus request holds its targets"))
+    ph = entry.get("torus_phase_deg")
+    if ph is not None and (not isinstance(ph, list) or len(ph) != 2
+                           or not all(isinstance(v, (int, float)) and not isinstance(v, bool)
+                                      and math.isfinite(v) for v in ph)):
+        out.append(("torus_phase_deg", f"{ph!r} must be two finite angles [THETA0, THETA1] in "
+                                       "degrees"))
+    for k in (entry.get("checks") or {}):
+        if k in CHECKS_NOT_FOR_TORI:
+            out.append((f"checks.{k}", CHECKS_NOT_FOR_TORI[k]))
+    return out
+
+
 def _schema_entry(parts):
     """(type, required) of the key at ``parts`` in the scenario schema, or None if unknown."""
     if not parts or parts[0] not in SCHEMA:
@@ -207,8 +246,7 @@ def check(data: dict, lines: dict, file: str, schema: dict | None = None,
         targets = words.ORBIT_TARGETS
         for name, t in orbits.items():
             if isinstance(t, dict) and "torus" in t:
-                from .tori import entry_problems
-                for key, why in entry_problems(t):
+                for key, why in torus_entry_problems(t):
                     problems.append(Problem(file, line(f"orbits.{name}.{key}"),
                                             f"orbits.{name}.{key}", why, "meaning"))
                 continue

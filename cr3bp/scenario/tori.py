@@ -26,23 +26,8 @@ import math
 import numpy as np
 
 from ..errors import InputError
+from .schema import CHECKS_NOT_FOR_TORI, NOT_FOR_TORI, torus_entry_problems as entry_problems  # noqa: F401
 
-#: Keys of a periodic orbit's table that a torus table refuses, and why.
-NOT_FOR_TORI = {
-    "family": "the torus request names its family",
-    "point": "the torus request names its point",
-    "branch": "the torus request names its orbit",
-    "resonant": "the torus request names its orbit",
-    "occurrence": "the torus request names its orbit",
-    "phase_deg": "a torus's phase is two angles: use torus_phase_deg = [THETA0, THETA1]",
-}
-#: Checks a torus cannot be given, and why.
-CHECKS_NOT_FOR_TORI = {
-    "max_period": "a torus has two frequencies and no period; its stroboscopic period is in the "
-                  "orbit table",
-    "max_eclipse_duration": "eclipse checks are computed for periodic orbits only, not tori",
-    "max_eclipse_per_year": "eclipse checks are computed for periodic orbits only, not tori",
-}
 #: Span of the trajectory on the torus that the angle checks sample (from the epoch).
 ANGLE_SPAN_DAYS = 365.25
 #: Surface samples (trajectories of circle points x times over one stroboscopic time).
@@ -52,27 +37,6 @@ SURFACE_SAMPLES = 200
 def is_torus(obj) -> bool:
     """True for a :class:`cr3bp.tori.Torus` (the scenario's orbits map holds both kinds)."""
     return getattr(obj, "circle", None) is not None and hasattr(obj, "stroboscopic_time")
-
-
-def entry_problems(entry: dict) -> list[tuple[str, str]]:
-    """``[(key, message)]`` of a torus table's keys that do not go with a torus (key relative
-    to the table)."""
-    out = [(k, f"'{k}' does not go with 'torus': {why}") for k, why in NOT_FOR_TORI.items()
-           if k in entry]
-    from ..vocabulary import ORBIT_TARGETS
-    for k in ORBIT_TARGETS:
-        if k in entry:
-            out.append((k, f"'{k}' does not go with 'torus': the torus request holds its targets"))
-    ph = entry.get("torus_phase_deg")
-    if ph is not None and (not isinstance(ph, list) or len(ph) != 2
-                           or not all(isinstance(v, (int, float)) and not isinstance(v, bool)
-                                      and math.isfinite(v) for v in ph)):
-        out.append(("torus_phase_deg", f"{ph!r} must be two finite angles [THETA0, THETA1] in "
-                                       "degrees"))
-    for k in (entry.get("checks") or {}):
-        if k in CHECKS_NOT_FOR_TORI:
-            out.append((f"checks.{k}", CHECKS_NOT_FOR_TORI[k]))
-    return out
 
 
 def spec_for(system, entry: dict):
