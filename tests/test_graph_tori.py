@@ -77,7 +77,7 @@ def test_torus_node_reference_state_and_ballistic_leg(nodes_text):
     legs = [l for l in res.legs if l and l["from_name"] == "ring"]
     assert len(legs) == 1 and legs[0]["dv_mps"] < 1e-3, legs
     reasons = {(p["from"], p["to"]): p["reason"] for p in res.pruned}
-    assert "torus node 'ring'" in reasons[("leo", "ring")] and "not built for tori" in reasons[("leo", "ring")]
+    assert "torus node 'ring'" in reasons[("leo", "ring")] and "parking" in reasons[("leo", "ring")]
 
 
 def test_bad_torus_node_names_file_line_and_key():
@@ -91,3 +91,47 @@ orbit = "quasi-halo around lyapunov L1 ax=5000km amplitude=300km"
     with pytest.raises(ScenarioError) as e:
         parse_nodes(text, EM)
     assert "node[0].orbit" in str(e.value) and "about a halo orbit" in str(e.value)
+
+
+def test_torus_to_orbit_manifold_leg_reprop_with_scipy():
+    """A section-hinted leg from a torus node to a periodic orbit node: the torus's unstable
+    manifold meets the orbit's stable manifold on x = 1 - mu (one patch Δv,
+    cr3bp.tori.connections). Checked with scipy's DOP853: the departure state, 40 km off the
+    torus point of the leg's torus phases, reaches the patch point, and the patch state after
+    the Δv reaches the leg's final state; the reverse leg is pruned with the reason."""
+    from cr3bp.tori.trajectory import state_at
+    torus = treq.solve(EM, REQUEST)
+    text = f'''system = "earth-moon"
+[settings]
+all_pairs = false
+[[node]]
+name = "ring"
+kind = "orbit"
+orbit = "{REQUEST}"
+[[node]]
+name = "lyap"
+kind = "orbit"
+orbit = "lyapunov L2 jacobi={torus.jacobi!r}"
+[[edge]]
+from = "ring"
+to = "lyap"
+sections = ["x=1-mu"]
+'''
+    res = build_graph(EM, parse_nodes(text, EM), workers=1)
+    leg = [l for l in res.legs if l["from_name"] == "ring"][0]
+    assert leg["status"] == "ok" and leg["how"] == "torus-manifold", leg.get("reason")
+    assert leg["details"]["position_mismatch"] < 1e-9 and len(leg["maneuvers"]) == 1
+    man = leg["maneuvers"][0]
+    T = torus.stroboscopic_time
+    tau, phi = leg["details"]["torus_tau"], leg["details"]["torus_circle_angle"]
+    base = state_at(torus, 2 * np.pi * tau / T, phi + torus.rotation * tau / T)
+    dep = np.array(leg["departure_state"])
+    assert np.linalg.norm(dep[:3] - base[:3]) * EM.length_km == pytest.approx(40.0, rel=1e-6)
+    a = solve_ivp(_f, (0, man["t"]), dep, method="DOP853", rtol=1e-12, atol=1e-13).y[:, -1]
+    assert np.linalg.norm(a[:3] - np.array(man["position"])) * EM.length_km < 1e-3          # 1 m
+    after = np.concatenate([man["position"], a[3:] + np.array(man["dv_vector"])])
+    b = solve_ivp(_f, (man["t"], leg["tof_tu"]), after, method="DOP853", rtol=1e-12, atol=1e-13).y[:, -1]
+    assert np.linalg.norm(b[:3] - np.array(leg["final_state"][:3])) * EM.length_km < 1.0     # km
+    assert leg["dv_mps"] == pytest.approx(np.linalg.norm(man["dv_vector"]) * EM.velocity_kms * 1000, rel=1e-9)
+    reasons = {(p["from"], p["to"]): p["reason"] for p in res.pruned}
+    assert "arrivals at a torus are not yet" in reasons[("lyap", "ring")]

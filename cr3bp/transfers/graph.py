@@ -186,7 +186,8 @@ def resolve_orbits(system, nodelist, catalog=None, progress=None) -> dict:
                 t = treq.solve(system, n.orbit, catalog=catalog)
                 out[n.id] = {"state": np.asarray(t.circle[0], dtype=float), "period": float(t.stroboscopic_time),
                              "jacobi": float(t.jacobi), "family": t.family, "point": t.point,
-                             "branch": t.branch, "torus": True}
+                             "branch": t.branch, "torus": True, "circle": np.asarray(t.circle, dtype=float),
+                             "rotation": float(t.rotation)}
             except LibrateError as e:
                 out[n.id] = {"error": str(e)}
             if progress is not None:
@@ -214,16 +215,32 @@ def _orbit_from_plain(system, d: dict):
                          d.get("family", ""), d.get("point", ""), d.get("branch", ""), float(d["jacobi"]))
 
 
+def _torus_from_plain(system, d: dict):
+    """The torus of a torus node's plain data (its invariance circle, stroboscopic time and
+    rotation; the geometry is not needed by its manifolds)."""
+    from ..tori import Torus
+    return Torus(system=system, circle=np.array(d["circle"], dtype=float), stroboscopic_time=float(d["period"]),
+                 rotation=float(d["rotation"]), jacobi=float(d["jacobi"]), jacobi_spread=0.0,
+                 invariance_error=0.0, family=d.get("family", ""), point=d.get("point", ""),
+                 branch=d.get("branch", ""))
+
+
 def _manifold_leg(system, task) -> dict:
     """The cheapest connection between two orbit nodes over the hinted sections
     (:func:`cr3bp.tubes.connections.connect`), as a leg record (:data:`cr3bp.transfers.leg.RECORD_KEYS`)."""
     from ..tubes.connections import connect
     st = task["settings"]
-    a = _orbit_from_plain(system, task["from"]["orbit_data"])
     b = _orbit_from_plain(system, task["to"]["orbit_data"])
+    torus = task["from"]["orbit_data"].get("torus")
+    a = _torus_from_plain(system, task["from"]["orbit_data"]) if torus else \
+        _orbit_from_plain(system, task["from"]["orbit_data"])
     found, reasons = [], []
     for sec in st["sections"]:
         try:
+            if torus:
+                from ..tori.connections import connect_torus_to_orbit
+                found += connect_torus_to_orbit(a, b, sec, n_points=st["tube_points"])
+                continue
             legs, _, _ = connect(a, b, sec, n_points=st["tube_points"])
             found += legs
         except LibrateError as e:
@@ -393,11 +410,13 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
                            f"periapsis, or a direct departure from an Earth parking orbit in Earth-Moon), "
                            f"not the {other.kind} node '{other.name}'")
         for n in (a, b):
+            hinted = bool(h and h.sections)
             if why is None and isinstance(n, OrbitNode) and n.is_torus and (
                     isinstance(a, (ParkingNode, BoundaryNode)) or isinstance(b, (ParkingNode, BoundaryNode))
-                    or (h and h.sections)):
-                why = (f"torus node '{n.name}': legs through manifolds (parking, capture, escape and "
-                       "section-hinted connections) are not built for tori yet; a targeted leg departs or "
+                    or (hinted and (n is b or getattr(b, "is_torus", False)))):
+                why = (f"torus node '{n.name}': of the legs through manifolds only a section-hinted connection "
+                       "from a torus (its unstable manifold) to a periodic orbit (its stable manifold) is built; "
+                       "parking, capture, escape and arrivals at a torus are not yet; a targeted leg departs or "
                        "arrives at the torus's reference state (phase 0, 0)")
         sa, sb = states[a.id], states[b.id]
         maneuvers = h.maneuvers if h else "ends"
