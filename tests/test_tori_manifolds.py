@@ -117,6 +117,7 @@ def test_section_of_a_torus_tube(capsys):
     cut = d["cuts"][0]
     assert cut["label"].endswith("unstable interior") and cut["crossings"] >= 10
     assert cut["n_trajectories"] == 25
+    assert cut["closed"] is False and cut["area"] is None and cut["kind"].startswith("torus manifold")
     # every crossing lies on x = 1 - mu
     assert all(abs(s[0] - (1 - EM.mu)) < 1e-9 for s in cut["states"])
 

@@ -146,10 +146,13 @@ def run(args):
         cuts.append(cut)
     pairs = pairs or spatial_pairs(section, cuts)
     columns = tuple(dict.fromkeys(n for p in pairs for n in p))
-    for cut in cuts:
+    grid = [req in tori for req, _, _ in specs]      # a torus tube's cut is a grid, not a curve
+    for cut, on_grid in zip(cuts, grid):
         d = cut.to_dict(names)
-        d["closed"] = cut.closed
-        d["area"] = cut.area(names) if cut.closed else None
+        d["closed"] = cut.closed and not on_grid
+        d["area"] = cut.area(names) if d["closed"] else None
+        if on_grid:
+            d["kind"] = "torus manifold (a grid of its trajectories on the torus, not a closed curve)"
         if len(pairs) > 1:
             d["maps"] = [{"coordinates": list(p), "map": cut.coords(p).tolist()} for p in pairs]
         out.append(d)
@@ -163,7 +166,9 @@ def run(args):
     maps = ", ".join(f"({a}, {b})" for a, b in pairs)
     head = [f"section {section.label}, map{'s' if len(pairs) > 1 else ''} {maps}, crossing {args.crossing}"]
     head += [f"tube {k + 1}: {c.label}: {len(c)} of {c.n_trajectories} trajectories crossed"
-             + (f", closed cut, area {c.area(names):.6g}" if c.closed else "") for k, c in enumerate(cuts)]
+             + (", a torus manifold (its cut is a grid of points, not a closed curve)" if on_grid else
+                f", closed cut, area {c.area(names):.6g}" if c.closed else "")
+             for k, (c, on_grid) in enumerate(zip(cuts, grid))]
     if args.plot:
         from cr3bp.plotting import save
         from cr3bp.plotting.manifolds import plot_section_map
