@@ -214,3 +214,26 @@ def test_orbit_table_without_family_or_torus_is_refused(tmp_path, capsys):
     text = text.replace("torus_phase_deg = [0.0, 0.0]\n", "")
     err = _refusal(tmp_path, capsys, text)
     assert "give 'family' (a periodic orbit) or 'torus'" in err, err
+
+
+def test_torus_angle_check_reads_the_trajectory_from_the_phase():
+    """The Sun-Earth-spacecraft angle of a torus: the least angle on the trajectory on the torus
+    from torus_phase_deg over 365.25 d from the epoch, equal to the angle measured on the same
+    trajectory sampled by cr3bp.tori.trajectory (the seam scenario check -> torus trajectory),
+    and different for another phase."""
+    from cr3bp.scenario import tori
+    from cr3bp.scenario.checks import angle_at_earth_deg
+    from cr3bp.tori import request as treq
+    from cr3bp.tori.trajectory import sample
+    em = system("earth-moon")
+    t = treq.solve(em, REQUEST)
+    epoch = "2031-03-01T00:00:00Z"
+    phase = (math.radians(30.0), math.radians(60.0))
+    r = tori.run_checks(t, {"min_angle_at_earth_from_sun_deg": 5.0}, None, epoch, phase, reduced=True)[0]
+    assert "365.25 d" in r.description and "(30, 60)" in r.description and r.unit == "deg"
+    times = np.linspace(0.0, 365.25 / em.time_days, 1000)
+    want = angle_at_earth_deg(em, times, sample(t, times, phase).states, epoch, "sun").min()
+    assert r.actual == pytest.approx(want, abs=1e-9)
+    assert 0.0 <= r.actual < 180.0
+    other = tori.run_checks(t, {"min_angle_at_earth_from_sun_deg": 5.0}, None, epoch, (0.0, 0.0), reduced=True)[0]
+    assert other.actual != r.actual
