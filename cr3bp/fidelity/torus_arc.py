@@ -20,7 +20,10 @@ import math
 import numpy as np
 
 from ..errors import InputError
+from ..time import frames
+from ..tori.trajectory import sample
 from . import model as _model
+from .offsets import path_and_timing_offsets
 from .transition import TOLERANCE, Transition, _central_default, _cr3bp_to_inertial, _min_radius, correct
 
 #: Dense samples of the arc between two patch points (the reference and the converged arc).
@@ -61,8 +64,6 @@ def transition_torus_arc(torus, epoch, span_tu: float, phase=(0.0, 0.0),
     Olikara & Scheeres, AAS 12-361, 2012 (the torus function); Golub & Van Loan, *Matrix
     Computations*, 4th ed., 2013, §5.6 (the minimum-norm Newton update of ``correct``).
     """
-    from ..time import frames
-    from ..tori.trajectory import sample
     system = torus.system
     T = float(torus.stroboscopic_time)
     try:
@@ -107,7 +108,6 @@ def transition_torus_arc(torus, epoch, span_tu: float, phase=(0.0, 0.0),
         ref_km = _cr3bp_to_inertial(system, spec, samp_t, sample(torus, samp_t, th).states, central)
     ends, _ = _model.propagate_many(mdl, X[:-1], tt[:-1], tt[1:])
     gap = ends - X[1:]
-    from .offsets import path_and_timing_offsets
     t_s = samp_t * system.time_s
     path, timing = path_and_timing_offsets(t_s, samp_km[:, :3], t_s, ref_km[:, :3], ref_km[:, 3:],
                                            window_s=0.5 * T * system.time_s)

@@ -130,8 +130,8 @@ def torus_figure(torus, name=None, n_circle=48, n_time=160, fig=None, colour="#1
     trajectories of ``n_circle`` points of its invariance circle over one stroboscopic period
     (``n_time`` steps; the surface closes on itself around the circle), and the invariance
     circle as a curve. ``fig``: add to an existing figure."""
-    from ..integrate import propagate_batch
-    from ..tori.circle import evaluate, resample
+    from ..integrate import propagate_batch          # lazy: numba kernels, only when a torus is drawn
+    from ..tori.circle import evaluate, resample     # lazy: kept with the line above
     go = require_plotly()
     system = torus.system
     label = name or " ".join(w for w in (torus.family, torus.point, torus.branch) if w) or "torus"

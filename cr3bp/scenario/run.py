@@ -120,7 +120,7 @@ def prepare(path) -> Plan:
     for name, entry in data["orbits"].items():
         try:
             if name in tori:
-                from .tori import spec_for
+                from .tori import spec_for  # lazy: only for tori
                 specs[name] = spec_for(system, entry)
             elif "family" not in entry:
                 continue                  # said by the schema check: 'family' or 'torus'
@@ -634,12 +634,12 @@ def check_spans(plan, orbits) -> None:
 
 def _period(obj) -> float:
     """A periodic orbit's period, or a torus's stroboscopic time (TU): what 'Nperiods' counts."""
-    from .tori import is_torus
+    from .tori import is_torus  # lazy: only for tori
     return float(obj.stroboscopic_time if is_torus(obj) else obj.period)
 
 
 def _row(name, obj) -> list:
-    from .tori import is_torus, orbit_row as torus_row
+    from .tori import is_torus, orbit_row as torus_row  # lazy: only for tori
     return torus_row(name, obj) if is_torus(obj) else orbit_row(name, obj)
 
 
@@ -654,7 +654,7 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
     notes = [f"librate {__version__}: orbits of scenario {plan.name}",
              "lengths km, times days, states nondimensional (rotating, barycentric); circular "
              "restricted three-body model"]
-    from .tori import is_torus
+    from .tori import is_torus  # lazy: only for tori
     if any(is_torus(o) for o in orbits.values()):
         notes.append("a torus's row: period_days is its stroboscopic period, stability_index_1 the "
                      "stability index of its discretised stroboscopic map, periodicity_error its "
@@ -664,7 +664,7 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
 
     # ---- checks -----------------------------------------------------------------------
     from .checks import run_checks, sample
-    from . import tori as _tori
+    from . import tori as _tori  # lazy: only for tori
     samples = {name: (_tori.surface_states(o, reduced) if is_torus(o) else
                       sample(o, 1000 if reduced else 4000)) for name, o in orbits.items()}
     checks = {}
@@ -735,7 +735,7 @@ def solve_orbits(plan, catalog, progress=None) -> dict:
     orbits = {}
     for name, spec in plan.orbit_specs.items():
         if "torus" in plan.data["orbits"][name]:
-            from .tori import solve
+            from .tori import solve  # lazy: only for tori
             text = plan.data["orbits"][name]["torus"]
             say(progress, f"torus '{name}': {text}")
             try:
@@ -775,7 +775,7 @@ def _export(plan, ex, orbits, stitched, out, created):
     q = units.parse(ex.get("step", "10min"), "time")
     step_s = q.nondim(system) * system.time_s if q.unit == "TU" else q.si()
     model = {"scenario": plan.name, "scenario sha256": plan.sha256}
-    from .tori import export_trajectory, is_torus
+    from .tori import export_trajectory, is_torus  # lazy: only for tori
     if ex["object"] in orbits and is_torus(orbits[ex["object"]]):
         traj = export_trajectory(plan, orbits[ex["object"]], plan.data["orbits"][ex["object"]], ex,
                                  spec, ts, step_s, model, ex["object"])
@@ -800,7 +800,7 @@ def _export(plan, ex, orbits, stitched, out, created):
 
 def _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progress) -> dict:
     from ..plotting.orbits import plot_orbit
-    from .tori import figure as torus_figure, is_torus
+    from .tori import figure as torus_figure, is_torus  # lazy: only for tori
     figs = {}
     for name, orbit in orbits.items():
         if is_torus(orbit) and plots.get("orbits", True):

@@ -25,7 +25,16 @@ import math
 
 import numpy as np
 
+from .. import units
 from ..errors import InputError
+from ..io import export
+from ..orbits.request import parse_request
+from ..orbits.targets import make_target
+from ..tori import request as treq
+from ..tori import surface
+from ..tori.trajectory import sample
+from . import page as R
+from .checks import ANGLE_CHECKS, _result, angle_at_earth_deg, occultation_clearance_km
 from .schema import CHECKS_NOT_FOR_TORI, NOT_FOR_TORI, torus_entry_problems as entry_problems  # noqa: F401
 
 #: Span of the trajectory on the torus that the angle checks sample (from the epoch).
@@ -41,13 +50,10 @@ def is_torus(obj) -> bool:
 
 def spec_for(system, entry: dict):
     """The parsed torus request, every value checked before any work (InputError otherwise)."""
-    from ..tori import request as treq
     spec = treq.parse(entry["torus"])
     if system is not None:
         treq.values(system, spec)
         if spec.around:
-            from ..orbits.request import parse_request
-            from ..orbits.targets import make_target
             ospec = parse_request(spec.around)
             if ospec.family != "halo":
                 raise InputError(f"a quasi-halo torus is about a halo orbit (or NRHO); "
@@ -57,7 +63,7 @@ def spec_for(system, entry: dict):
 
 
 def solve(system, spec, catalog=None):
-    from ..tori import request as treq
+    """The torus of a checked request (:func:`cr3bp.tori.request.solve`)."""
     return treq.solve(system, spec, catalog=catalog)
 
 
@@ -68,7 +74,6 @@ def phase_rad(entry: dict) -> tuple[float, float]:
 
 def surface_states(torus, reduced=False) -> np.ndarray:
     """Samples of the whole torus surface, (M + 1, N, 6)."""
-    from ..tori import surface
     return surface(torus.system, torus.circle, torus.stroboscopic_time,
                    SURFACE_SAMPLES // 2 if reduced else SURFACE_SAMPLES)
 
@@ -94,8 +99,6 @@ def orbit_row(name, torus) -> list:
 
 def run_checks(torus, checks: dict, surface, epoch, phase, reduced=False):
     """The scenario's checks on a torus (module notes); ``surface`` from :func:`surface_states`."""
-    from .. import units
-    from .checks import (ANGLE_CHECKS, _result, angle_at_earth_deg, occultation_clearance_km)
     system = torus.system
     names = system.names
     out = []
@@ -117,7 +120,6 @@ def run_checks(torus, checks: dict, surface, epoch, phase, reduced=False):
             body = ANGLE_CHECKS[key]
             span = ANGLE_SPAN_DAYS / system.time_days
             t = np.linspace(0.0, span, 1000 if reduced else 4000)
-            from ..tori.trajectory import sample
             states = sample(torus, t, phase).states
             act = float(angle_at_earth_deg(system, t, states, epoch, body).min())
             out.append(_result(key, f"least {body.capitalize()}-Earth-spacecraft angle (vertex at the "
@@ -137,8 +139,6 @@ def run_checks(torus, checks: dict, surface, epoch, phase, reduced=False):
 
 def export_trajectory(plan, torus, entry, ex, spec, ts, step_s, model, name):
     """The scenario export of a torus: the trajectory on it from ``torus_phase_deg``."""
-    from ..io import export
-    from ..tori.trajectory import sample
     system = plan.system
     T = torus.stroboscopic_time
     span_tu = export.parse_span(ex["span"], system, T)
@@ -156,13 +156,12 @@ def export_trajectory(plan, torus, entry, ex, spec, ts, step_s, model, name):
 
 
 def figure(plan, name, torus, surface):
-    from ..plotting.tori import plot_torus
+    from ..plotting.tori import plot_torus      # lazy: matplotlib
     return plot_torus(torus, grid=surface)
 
 
 def section(name, torus, checks, figures, views=None) -> str:
     """The report section of a torus."""
-    from . import page as R
     d = torus.to_dict()
     st = torus.stability or {}
     amp = half_extents_lu(torus)
@@ -200,8 +199,8 @@ def section(name, torus, checks, figures, views=None) -> str:
             html += R.figure(figures[key]["path"], figures[key]["caption"])
     if views is not None:
         try:
-            from ..plotting.interactive import torus_figure
-        except ImportError:          # lazy: the 3-D view of tori is optional
+            from ..plotting.interactive import torus_figure   # lazy: plotly is optional
+        except ImportError:
             torus_figure = None
         if torus_figure is not None:
             html += views.html(torus_figure(torus, name=name),

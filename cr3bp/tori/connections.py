@@ -20,7 +20,10 @@ import numpy as np
 
 from ..errors import ConvergenceError, InputError, NoSolutionError
 from ..integrate import propagate_batch
-from ..tubes.manifolds import Stop, _globalise, branch_sign, on_energy, parse_until
+from ..tubes.connections import _Branch, _coords, _leg_from_patch
+from ..tubes.manifolds import Stop, _globalise, branch_sign, on_energy
+from ..tubes.manifolds import grow_tube as grow_orbit_tube
+from ..tubes.sections import parse_section
 from . import circle, solver
 from .manifolds import grow_tube, modes
 
@@ -74,9 +77,6 @@ def connect_torus_to_orbit(torus, orbit, section, n_points=100, *, branch_a="int
     InputError: a section that is not a position plane. NoSolutionError: the cuts do not come
     near each other, or no candidate converges.
     """
-    from ..tubes.connections import _Branch, _coords, _leg_from_patch
-    from ..tubes.manifolds import grow_tube as grow_orbit_tube
-    from ..tubes.sections import parse_section
     system = torus.system
     sec = parse_section(section, system) if isinstance(section, str) else section
     if sec.kind != "plane" or sec.coordinate > 2:
@@ -118,7 +118,6 @@ def connect_torus_to_orbit(torus, orbit, section, n_points=100, *, branch_a="int
 
 def _refine(ea_fn, bb, x, names, T, Tb, tol=PATCH_TOL):
     """Newton (minimum-norm) on (tau, phi, t_b) matching the in-section positions."""
-    from ..tubes.connections import _coords
     h = np.array([1e-7 * T, 1e-7, 1e-7 * Tb])
     res = []
     for it in range(MAX_ITER):

@@ -35,7 +35,7 @@ import numpy as np
 
 from ..errors import InputError, NoSolutionError
 from ..integrate import propagate_batch
-from ..tubes.manifolds import Stop, Tube, branch_sign, on_energy, parse_until, step_lu
+from ..tubes.manifolds import Stop, Tube, _globalise, branch_sign, on_energy, parse_until, step_lu
 from ..vocabulary import STABILITIES, TUBE_BRANCHES
 from . import circle, solver
 from .stability import UNIT_RTOL, map_matrix
@@ -188,7 +188,6 @@ def grow_tube(torus, stability: str, branch: str, n_points: int = 200, until=Non
     InputError: bad stability, branch, stop or step. NoSolutionError: the torus is not
     hyperbolic.
     """
-    from ..tubes.manifolds import _globalise
     system = torus.system
     stop = until if isinstance(until, Stop) else parse_until(until, system)
     th0, th1, tau, states, w, starts, m, d, d_km = manifold_starts(torus, stability, branch, n_points,

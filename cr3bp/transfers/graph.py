@@ -181,7 +181,7 @@ def resolve_orbits(system, nodelist, catalog=None, progress=None) -> dict:
     out = {}
     for n in nodelist.nodes:
         if isinstance(n, OrbitNode) and n.id not in out and n.is_torus:
-            from ..tori import request as treq
+            from ..tori import request as treq  # lazy: only for tori
             try:
                 t = treq.solve(system, n.orbit, catalog=catalog)
                 out[n.id] = {"state": np.asarray(t.circle[0], dtype=float), "period": float(t.stroboscopic_time),
@@ -218,7 +218,7 @@ def _orbit_from_plain(system, d: dict):
 def _torus_from_plain(system, d: dict):
     """The torus of a torus node's plain data (its invariance circle, stroboscopic time and
     rotation; the geometry is not needed by its manifolds)."""
-    from ..tori import Torus
+    from ..tori import Torus  # lazy: only for tori
     return Torus(system=system, circle=np.array(d["circle"], dtype=float), stroboscopic_time=float(d["period"]),
                  rotation=float(d["rotation"]), jacobi=float(d["jacobi"]), jacobi_spread=0.0,
                  invariance_error=0.0, family=d.get("family", ""), point=d.get("point", ""),
@@ -238,7 +238,7 @@ def _manifold_leg(system, task) -> dict:
     for sec in st["sections"]:
         try:
             if torus:
-                from ..tori.connections import connect_torus_to_orbit
+                from ..tori.connections import connect_torus_to_orbit  # lazy: only for tori
                 found += connect_torus_to_orbit(a, b, sec, n_points=st["tube_points"])
                 continue
             legs, _, _ = connect(a, b, sec, n_points=st["tube_points"])

@@ -358,9 +358,9 @@ def orbit_node(name: str, system, orbit: str) -> OrbitNode:
     amplitude=300km") names a torus node: its reference state is the torus at phase (0, 0),
     the first point of its invariance circle."""
     from ..orbits.request import parse_request
-    from ..tori.request import is_torus_request
+    from ..tori.request import is_torus_request  # lazy: only for tori
     if is_torus_request(orbit):
-        from ..tori import request as treq
+        from ..tori import request as treq  # lazy: only for tori
         tspec = treq.parse(orbit)        # InputError names the bad word
         treq.values(system, tspec)
         if tspec.around:
