@@ -70,74 +70,97 @@ def connect_torus_to_orbit(torus, orbit, section, n_points=100, *, branch_a="int
 
     Returns
     -------
-    list of Leg, cheapest first (method ``"torus-manifold"``)
+    list of Leg, cheapest first (method ``"torus-manifold"``, kind ``"torus-to-orbit"``)
 
     Raises
     ------
     InputError: a section that is not a position plane. NoSolutionError: the cuts do not come
     near each other, or no candidate converges.
     """
+    return _connect(torus, orbit, section, n_points, branch_a, branch_b, step_km, t_max, True)
+
+
+def connect_orbit_to_torus(orbit, torus, section, n_points=100, *, branch_a="interior",
+                           branch_b="interior", step_km=None, t_max=2 * math.pi):
+    """The cheapest patch connections from ``orbit``'s unstable manifold to ``torus``'s stable
+    manifold on ``section`` (arrival at a torus; otherwise as :func:`connect_torus_to_orbit`,
+    kind ``"orbit-to-torus"``)."""
+    return _connect(torus, orbit, section, n_points, branch_a, branch_b, step_km, t_max, False)
+
+
+def _connect(torus, orbit, section, n_points, branch_a, branch_b, step_km, t_max, torus_first):
     system = torus.system
     sec = parse_section(section, system) if isinstance(section, str) else section
     if sec.kind != "plane" or sec.coordinate > 2:
         raise InputError("torus connections need a position plane such as x=1-mu or y=0")
     stop = Stop(sec, 1, float(t_max))
     names = tuple("xyz"[c] for c in (0, 1, 2) if c != sec.coordinate)
-    ta = grow_tube(torus, "unstable", branch_a, n_points, stop, step_km=step_km)
-    tb = grow_orbit_tube(orbit, "stable", branch_b, n_points, stop, step_km=step_km)
-    ia = np.nonzero(ta.reached("section"))[0]
-    ib = np.nonzero(tb.reached("section"))[0]
-    if ia.size == 0 or ib.size == 0:
-        raise NoSolutionError(f"the {'torus' if ia.size == 0 else 'orbit'} manifold does not reach "
+    if torus_first:
+        tt = grow_tube(torus, "unstable", branch_a, n_points, stop, step_km=step_km)
+        to = grow_orbit_tube(orbit, "stable", branch_b, n_points, stop, step_km=step_km)
+        ta, tb = tt, to
+    else:
+        to = grow_orbit_tube(orbit, "unstable", branch_a, n_points, stop, step_km=step_km)
+        tt = grow_tube(torus, "stable", branch_b, n_points, stop, step_km=step_km)
+        ta, tb = to, tt
+    it_ = np.nonzero(tt.reached("section"))[0]
+    io_ = np.nonzero(to.reached("section"))[0]
+    if it_.size == 0 or io_.size == 0:
+        raise NoSolutionError(f"the {'torus' if it_.size == 0 else 'orbit'} manifold does not reach "
                               f"{sec.label} within {t_max:.4g} TU")
-    pa = np.array([_coords(ta.end_states[i], names) for i in ia])
-    pb = np.array([_coords(tb.end_states[j], names) for j in ib])
-    d = np.linalg.norm(pa[:, None, :] - pb[None, :, :], axis=2)
+    pt = np.array([_coords(tt.end_states[i], names) for i in it_])
+    po = np.array([_coords(to.end_states[j], names) for j in io_])
+    d = np.linalg.norm(pt[:, None, :] - po[None, :, :], axis=2)
     order = np.dstack(np.unravel_index(np.argsort(d, axis=None), d.shape))[0][:CANDIDATES]
-    ea_fn = _TorusEnd(ta, stop)
-    bb = _Branch(tb, stop)
-    T, Tb = torus.stroboscopic_time, orbit.period
+    t_end = _TorusEnd(tt, stop)
+    o_end = _Branch(to, stop)
+    T, To = torus.stroboscopic_time, orbit.period
+    kind = "torus-to-orbit" if torus_first else "orbit-to-torus"
     legs, reasons = [], []
-    for ka, kb in order:
-        i, j = ia[ka], ib[kb]
-        x = np.array([ta.t_orbit[i], ta.circle_phase[i] - torus.rotation * ta.t_orbit[i] / T,
-                      tb.t_orbit[j]], dtype=float)
+    for kt, ko in order:
+        i, j = it_[kt], io_[ko]
+        x = np.array([tt.t_orbit[i], tt.circle_phase[i] - torus.rotation * tt.t_orbit[i] / T,
+                      to.t_orbit[j]], dtype=float)
         try:
-            x, ea, eb = _refine(ea_fn, bb, x, names, T, Tb)
+            x, et, eo = _refine(t_end, o_end, x, names, T, To, torus_first)
         except ConvergenceError as e:
             reasons.append(str(e))
             continue
-        leg = _leg_from_patch(system, ea, eb, float(x[0]), float(x[2]), ta, tb, "torus-to-orbit",
-                              "torus-manifold", {"section": sec.label, "torus_tau": float(x[0]),
-                                                 "torus_circle_angle": float(x[1])})
-        legs.append(leg)
+        ea, eb = (et, eo) if torus_first else (eo, et)
+        t_a, t_b = (x[0], x[2]) if torus_first else (x[2], x[0])
+        legs.append(_leg_from_patch(system, ea, eb, float(t_a), float(t_b), ta, tb, kind, "torus-manifold",
+                                    {"section": sec.label, "torus_tau": float(x[0]),
+                                     "torus_circle_angle": float(x[1])}))
     if not legs:
-        raise NoSolutionError("no torus-to-orbit patch converged: " + "; ".join(reasons[:3]))
+        raise NoSolutionError(f"no {kind} patch converged: " + "; ".join(reasons[:3]))
     return sorted(legs, key=lambda lg: lg.dv_mps)
 
 
-def _refine(ea_fn, bb, x, names, T, Tb, tol=PATCH_TOL):
-    """Newton (minimum-norm) on (tau, phi, t_b) matching the in-section positions."""
-    h = np.array([1e-7 * T, 1e-7, 1e-7 * Tb])
+def _refine(t_end, o_end, x, names, T, To, torus_first, tol=PATCH_TOL):
+    """Newton (minimum-norm) on (tau, phi, t_orbit) matching the in-section positions of the
+    torus trajectory and the orbit's."""
+    h = np.array([1e-7 * T, 1e-7, 1e-7 * To])
+    sign = 1.0 if torus_first else -1.0          # residual: departing side minus arriving side
     res = []
     for it in range(MAX_ITER):
-        ea, eb = ea_fn.end(x[0], x[1]), bb.end(x[2])
-        if ea[3] != "section" or eb[3] != "section":
+        et, eo = t_end.end(x[0], x[1]), o_end.end(x[2])
+        if et[3] != "section" or eo[3] != "section":
             raise ConvergenceError("a refined trajectory no longer reaches the section", it, res, x)
-        f = _coords(ea[2], names) - _coords(eb[2], names)
+        f = sign * (_coords(et[2], names) - _coords(eo[2], names))
         res.append(float(np.linalg.norm(f)))
         if res[-1] < tol:
-            return x, ea, eb
+            return x, et, eo
         cols = []
         for k in range(3):
             xk = x.copy()
             xk[k] += h[k]
-            e = ea_fn.end(xk[0], xk[1])[2] if k < 2 else None
-            fk = (_coords(e, names) - _coords(eb[2], names)) if k < 2 else \
-                (_coords(ea[2], names) - _coords(bb.end(xk[2])[2], names))
+            if k < 2:
+                fk = sign * (_coords(t_end.end(xk[0], xk[1])[2], names) - _coords(eo[2], names))
+            else:
+                fk = sign * (_coords(et[2], names) - _coords(o_end.end(xk[2])[2], names))
             cols.append((fk - f) / h[k])
         step = np.linalg.lstsq(np.column_stack(cols), -f, rcond=None)[0]
-        lim = np.array([0.1 * T, 0.3, 0.1 * Tb])
+        lim = np.array([0.1 * T, 0.3, 0.1 * To])
         scale = np.max(np.abs(step) / lim)
         if scale > 1:
             step /= scale
@@ -146,4 +169,4 @@ def _refine(ea_fn, bb, x, names, T, Tb, tol=PATCH_TOL):
                            f"(residual {res[-1]:.3e})", MAX_ITER, res, x)
 
 
-__all__ = ["connect_torus_to_orbit"]
+__all__ = ["connect_torus_to_orbit", "connect_orbit_to_torus"]

@@ -230,16 +230,19 @@ def _manifold_leg(system, task) -> dict:
     (:func:`cr3bp.tubes.connections.connect`), as a leg record (:data:`cr3bp.transfers.leg.RECORD_KEYS`)."""
     from ..tubes.connections import connect
     st = task["settings"]
-    b = _orbit_from_plain(system, task["to"]["orbit_data"])
-    torus = task["from"]["orbit_data"].get("torus")
-    a = _torus_from_plain(system, task["from"]["orbit_data"]) if torus else \
-        _orbit_from_plain(system, task["from"]["orbit_data"])
+    ends = []
+    for end in ("from", "to"):
+        d = task[end]["orbit_data"]
+        ends.append(_torus_from_plain(system, d) if d.get("torus") else _orbit_from_plain(system, d))
+    a, b = ends
+    torus_from, torus_to = (bool(task[e]["orbit_data"].get("torus")) for e in ("from", "to"))
     found, reasons = [], []
     for sec in st["sections"]:
         try:
-            if torus:
-                from ..tori.connections import connect_torus_to_orbit  # lazy: only for tori
-                found += connect_torus_to_orbit(a, b, sec, n_points=st["tube_points"])
+            if torus_from or torus_to:
+                from ..tori import connections as tc  # lazy: only for tori
+                found += (tc.connect_torus_to_orbit(a, b, sec, n_points=st["tube_points"]) if torus_from else
+                          tc.connect_orbit_to_torus(a, b, sec, n_points=st["tube_points"]))
                 continue
             legs, _, _ = connect(a, b, sec, n_points=st["tube_points"])
             found += legs
@@ -413,11 +416,11 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
             hinted = bool(h and h.sections)
             if why is None and isinstance(n, OrbitNode) and n.is_torus and (
                     isinstance(a, (ParkingNode, BoundaryNode)) or isinstance(b, (ParkingNode, BoundaryNode))
-                    or (hinted and (n is b or getattr(b, "is_torus", False)))):
-                why = (f"torus node '{n.name}': of the legs through manifolds only a section-hinted connection "
-                       "from a torus (its unstable manifold) to a periodic orbit (its stable manifold) is built; "
-                       "parking, capture, escape and arrivals at a torus are not yet; a targeted leg departs or "
-                       "arrives at the torus's reference state (phase 0, 0)")
+                    or (hinted and getattr(a, "is_torus", False) and getattr(b, "is_torus", False))):
+                why = (f"torus node '{n.name}': of the legs through manifolds only section-hinted connections "
+                       "between a torus and a periodic orbit are built; parking, capture and escape legs of tori "
+                       "and torus-to-torus connections are not yet; a targeted leg departs or arrives at the "
+                       "torus's reference state (phase 0, 0)")
         sa, sb = states[a.id], states[b.id]
         maneuvers = h.maneuvers if h else "ends"
         if why is None and not isinstance(b, BoundaryNode):   # a boundary has no state: the manifold decides
