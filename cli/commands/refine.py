@@ -128,7 +128,7 @@ def _run_route(args, sysm):
                         ("--fix-first", args.fix_first), ("--fixed-times", args.fixed_times),
                         ("--span", args.span is not None), ("--phase", args.phase != "0,0")):
         if given:
-            raise InputError(f"{flag} applies to --orbit or --torus only; with --route use --patch-days and "
+            raise InputError(f"{flag} applies to --orbit only (and --torus); with --route use --patch-days and "
                              "--hold-end")
     patch_days = _float("--patch-days", args.patch_days, 0.01, 1000.0)
     max_iter, srp, bodies, fmt_out = _model_options(args, sysm)
