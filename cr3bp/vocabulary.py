@@ -12,7 +12,7 @@ from __future__ import annotations
 __all__ = [
     "ORBIT_TARGETS", "TARGET_HELP", "TARGET_DIMENSIONS", "LENGTH_TARGETS", "FAMILY_STOPS",
     "FAMILIES", "FAMILY_ALIASES", "POINT_FAMILIES", "COLLINEAR_POINTS", "LAGRANGE_POINTS",
-    "HALO_BRANCHES",
+    "HALO_BRANCHES", "TORUS_FAMILIES", "TORUS_TARGETS",
     "FRAMES", "INERTIAL_FRAMES", "ANCHORS", "CENTER_ROLES", "CENTER_BODIES", "CENTERS",
     "TIME_SYSTEMS", "EXPORT_FORMATS", "OEM_FORMATS", "SCENARIO_EXPORT_FORMATS", "OUTPUT_FORMATS",
     "IMAGE_FORMATS", "SCENARIO_IMAGE_FORMATS", "TUBE_BRANCHES", "STABILITIES", "one_of",
@@ -56,6 +56,13 @@ COLLINEAR_POINTS = ("L1", "L2", "L3")
 LAGRANGE_POINTS = ("L1", "L2", "L3", "L4", "L5")
 #: Halo branches: z > 0 (north) or z < 0 (south) at the crossing farther from the smaller primary.
 HALO_BRANCHES = ("north", "south")
+
+# ---- quasi-periodic tori ------------------------------------------------------------------
+
+#: Torus families of a torus request (:mod:`cr3bp.tori.request`; the scenario's ``torus`` key).
+TORUS_FAMILIES = ("lissajous", "quasi-halo")
+#: The targets of a torus request (``KEY=VALUE`` after the family or the orbit).
+TORUS_TARGETS = ("ay", "az", "amplitude", "jacobi", "period", "frequency-ratio")
 
 # ---- frames, centres, time -----------------------------------------------------------------
 

@@ -465,6 +465,27 @@ def value_cases():
     add("manifold-lagrange-with-family", M + ["--lagrange=L1"])
     add("manifold-lagrange-L4", ["manifold", EM, "--lagrange=L4", "--unstable"])
     add("manifold-no-direction", ["manifold", EM, "--orbit=lyapunov L1 jacobi=3.17"])
+    # manifold --torus, section --tube TORUS (manifolds of a hyperbolic torus)
+    TQH = "quasi-halo around halo L1 north az=10000km amplitude=300km"
+    MT = ["manifold", EM, f"--torus={TQH}", "--unstable", "--points=4"]
+    add("manifold-torus-with-orbit", MT + ["--orbit=lyapunov L1 jacobi=3.17"])
+    add("manifold-torus-with-family", MT + ["--family=halo"])
+    add("manifold-torus-with-lagrange", MT + ["--lagrange=L1"])
+    add("manifold-torus-spacing", MT + ["--spacing=arc"])
+    add("manifold-torus-unknown-family", ["manifold", EM, "--torus=quasi-bagel around halo L1 north az=10000km "
+                                          "amplitude=300km", "--unstable"])
+    add("manifold-torus-around-lyapunov", ["manifold", EM, "--torus=quasi-halo around lyapunov L1 ax=5000km "
+                                           "amplitude=300km", "--unstable"])
+    add("manifold-torus-amplitude-unit", ["manifold", EM, "--torus=quasi-halo around halo L1 north az=10000km "
+                                          "amplitude=300parsec", "--unstable"])
+    add("manifold-torus-no-direction", ["manifold", EM, f"--torus={TQH}"])
+    add("manifold-torus-points-0", MT[:-1] + ["--points=0"])
+    add("manifold-torus-until", MT + ["--until=time:-1d"])
+    add("section-torus-tube-no-stability", ["section", EM, f"--tube={TQH}", "--section=x=1-mu", "--points=4"])
+    add("section-torus-tube-bad-request", ["section", EM, "--tube=lissajous L4 ay=1000km az=1000km unstable",
+                                           "--section=x=1-mu", "--points=4"])
+    add("section-torus-tube-bad-amplitude", ["section", EM, "--tube=quasi-halo around halo L1 north az=10000km "
+                                             "amplitude=-3km unstable", "--section=x=1-mu", "--points=4"])
     add("manifold-orbit-and-family", ["manifold", EM, "--orbit=lyapunov L1 jacobi=3.17", "--family=halo", "--unstable"])
     add("manifold-state-without-period", ["manifold", EM, "--state=0.8,0,0,0,0.1,0", "--unstable"])
     add("manifold-state-and-orbit", ["manifold", EM, "--state=0.8,0,0,0,0.1,0", "--period=2.7TU",
@@ -610,6 +631,30 @@ def value_cases():
     add("refine-revs-with-route", ["refine", EM, "--route={in}", EPOCH, "--revs=3"])
     add("refine-custom-system", ["refine", "--mu=0.01", "--orbit=lyapunov L1 jacobi=3.1", EPOCH])
     add("refine-route-missing", ["refine", EM, "--route={in}/nowhere", EPOCH])
+    # refine --torus (an arc on a torus)
+    RT = ["refine", EM, "--torus=quasi-halo around halo L1 north az=10000km amplitude=300km", EPOCH,
+          "--span=1periods"]
+    add("refine-torus-no-span", RT[:-1])
+    add("refine-torus-span-length", RT[:-1] + ["--span=3km"])
+    add("refine-torus-span-negative", RT[:-1] + ["--span=-2d"])
+    add("refine-torus-phase-one-angle", RT + ["--phase=30"])
+    add("refine-torus-phase-nan", RT + ["--phase=nan,0"])
+    add("refine-torus-phase-words", RT + ["--phase=east,west"])
+    add("refine-torus-revs", RT + ["--revs=3"])
+    add("refine-torus-patch-days", RT + ["--patch-days=2"])
+    add("refine-torus-patches-0", RT + ["--patches=0"])
+    add("refine-torus-unknown-family", ["refine", EM, "--torus=quasi-bagel around halo L1 north az=10000km "
+                                        "amplitude=300km", EPOCH, "--span=1periods"])
+    add("refine-torus-around-lyapunov", ["refine", EM, "--torus=quasi-halo around lyapunov L1 ax=5000km "
+                                         "amplitude=300km", EPOCH, "--span=1periods"])
+    add("refine-torus-amplitude-negative", ["refine", EM, "--torus=quasi-halo around halo L1 north az=10000km "
+                                            "amplitude=-300km", EPOCH, "--span=1periods"])
+    add("refine-torus-and-orbit", RT + ["--orbit=halo L2 south period=6.5626d"])
+    add("refine-torus-custom-system", ["refine", "--mu=0.01", "--torus=lissajous L1 ay=1000km az=1000km", EPOCH,
+                                       "--span=1periods"])
+    add("refine-span-with-orbit", RF + ["--span=2d"])
+    add("refine-phase-with-orbit", RF + ["--phase=10,20"])
+    add("refine-span-with-route", ["refine", EM, "--route={in}", EPOCH, "--span=2d"])
     return c
 
 

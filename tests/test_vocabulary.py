@@ -36,7 +36,8 @@ VALUES = {"period": "12d", "jacobi": "3.05", "ax": "10000km", "ay": "20000km", "
 #: Words of earlier versions, tried at every door.
 OLD_WORDS = ("perigee", "approach1", "approach2")
 
-_NON_TARGET_ORBIT_KEYS = {"family", "point", "branch", "resonant", "occurrence", "checks"}
+_NON_TARGET_ORBIT_KEYS = {"family", "point", "branch", "resonant", "occurrence", "checks", "torus",
+                          "torus_phase_deg"}
 _NON_TARGET_TUBE_DESTS = {"orbit", "family", "point", "halo_branch", "state", "help"}
 
 

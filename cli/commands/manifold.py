@@ -8,15 +8,23 @@ from . import _tube_options as to
 NAME = "manifold"
 KERNELS = (("cr3bp.integrate.dop853", "integrate"), ("cr3bp.integrate.dop853", "integrate_batch"))
 ORDER = 65
-HELP = "grow a stable or unstable manifold (tube) of a periodic orbit to a section, time, altitude or escape"
+HELP = ("grow a stable or unstable manifold (tube) of a periodic orbit or a hyperbolic torus to a section, "
+        "time, altitude or escape")
 EXAMPLE = ("librate manifold --system earth-moon --family lyapunov --point L1 --jacobi 3.17 --unstable "
-           "--branch interior --points 200 --until section:x=1-mu --plot tube.png")
+           "--branch interior --points 200 --until section:x=1-mu --plot tube.png\n"
+           "librate manifold --system earth-moon --torus 'quasi-halo around halo L1 north az=10000km "
+           "amplitude=300km' --unstable --points 100 --until section:x=1-mu")
 
 
 def add_arguments(p):
     common.add_system_options(p)
     to.add_orbit_options(p)
     to.add_manifold_options(p)
+    p.add_argument("--torus", metavar="REQUEST",
+                   help="grow the manifold of a hyperbolic quasi-periodic torus instead of an orbit's: a torus "
+                        "request, e.g. 'quasi-halo around halo L1 north az=10000km amplitude=300km'; --points "
+                        "departure points form a grid on the torus (about sqrt(N) stroboscopic phases times "
+                        "sqrt(N) points of its invariance circle)")
     p.add_argument("--lagrange", metavar="L1|L2|L3",
                    help="grow the one-dimensional manifold of this collinear Lagrange point instead of an orbit's")
     p.add_argument("--until", action="append", metavar="STOP",
@@ -37,6 +45,13 @@ def run(args):
         raise InputError("give --stable or --unstable")
     common.whole_number("--points", args.points, 2, 100_000)
     stop = parse_until(args.until, system)
+    if args.torus is not None:
+        given = to.orbit_options_given(args) + (["--lagrange"] if args.lagrange else [])
+        if given:
+            raise InputError(f"--torus grows a torus's manifold; it does not go with {', '.join(given)}")
+        if args.spacing != "time":
+            raise InputError("--spacing does not go with --torus (its points are a grid on the torus)")
+        return _torus(args, system, stop)
     if args.lagrange:
         given = to.orbit_options_given(args)
         if given:
@@ -67,6 +82,58 @@ def run(args):
         common.progress(args, f"wrote {args.plot}")
     common.emit(args, payload={"tube": d}, headers=HEADERS, rows=rows, table=table,
                 comments=head)
+    return 0
+
+
+def torus_request(system, text, args):
+    """A torus from its request, every value checked before any work."""
+    from cr3bp.errors import InputError, shown
+    from cr3bp.tori import request as treq
+    spec = treq.parse(text)
+    treq.values(system, spec)
+    if spec.around:
+        from cr3bp.orbits.request import parse_request
+        from cr3bp.orbits.targets import make_target
+        ospec = parse_request(spec.around)
+        if ospec.family != "halo":
+            raise InputError(f"a quasi-halo torus is about a halo orbit (or NRHO); '{shown(spec.around)}' is a "
+                             f"{ospec.family} orbit")
+        make_target(system, ospec.key, ospec.value)
+    return spec
+
+
+def _torus(args, system, stop):
+    from cr3bp.tori import request as treq
+    from cr3bp.tori.manifolds import grid_shape, grow_tube
+    spec = torus_request(system, args.torus, args)
+    common.progress(args, f"librate manifold: solving the torus '{args.torus}'...")
+    torus = treq.solve(system, spec, progress=lambda m: common.progress(args, m, verbose_only=True))
+    n0, n1 = grid_shape(args.points)
+    common.progress(args, f"librate manifold: growing {n0 * n1} {args.stability} {args.branch} trajectories "
+                          f"({n0} stroboscopic phases x {n1} circle points) of the torus (C = {torus.jacobi:.6f})...")
+    tube = grow_tube(torus, args.stability, args.branch, args.points, stop, step_km=args.step_off,
+                     progress=to.progress_printer(args), origin=f"torus '{args.torus}'")
+    d = tube.to_dict()
+    rows = [[t["phase"], t["t_orbit"], t["tof"], t["tof_days"], t["status"], *t["end_state"]]
+            for t in d["trajectories"]]
+    step = f"{tube.step_km:.3f} km" if tube.step_km == tube.step_km else f"{tube.step:.3e} LU"
+    st = torus.stability or {}
+    head = [f"{tube.label}: {tube.n} trajectories ({n0} x {n1} grid on the torus), step-off {step} from it",
+            f"stroboscopic period {tube.period:.6f} TU, multiplier of the step-off direction "
+            f"{abs(tube.multiplier):.6g} (torus stability: largest modulus {st.get('largest_modulus', float('nan')):.6g})",
+            "phase: theta0 / 360 deg of each departure point; t_orbit: its time along the stroboscopic period; "
+            "times and distances of the circular restricted three-body model",
+            "stop: " + ", ".join(args.until or ["time:2pi TU"]) +
+            "; ended by: " + ", ".join(f"{k} {v}" for k, v in d["status_counts"].items())]
+    table = "\n".join(head) + "\n\n" + common.format_table(HEADERS, rows)
+    if args.plot:
+        from cr3bp.plotting import save
+        from cr3bp.plotting.manifolds import plot_tubes
+        common.progress(args, "drawing the tube...")
+        save(plot_tubes([tube], views=("xy", "xz", "yz")), args.plot,
+             f"{tube.label}; step-off {step}; rotating frame (CR3BP); primaries to scale")
+        common.progress(args, f"wrote {args.plot}")
+    common.emit(args, payload={"tube": d}, headers=HEADERS, rows=rows, table=table, comments=head)
     return 0
 
 

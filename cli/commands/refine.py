@@ -9,7 +9,9 @@ HELP = "carry a CR3BP orbit into an ephemeris model at an epoch and correct it t
 EXAMPLE = ('librate refine --system earth-moon --route out/route --epoch 2031-03-01T00:00:00Z '
            "--bodies sun,earth,moon --out route.oem\n"
            'librate refine --system earth-moon --orbit "halo L2 south resonance=9:2" '
-           "--epoch 2031-03-01T00:00:00Z --revs 12 --bodies sun,earth,moon --out nrho.oem")
+           "--epoch 2031-03-01T00:00:00Z --revs 12 --bodies sun,earth,moon --out nrho.oem\n"
+           'librate refine --system earth-moon --torus "quasi-halo around halo L1 north az=10000km '
+           'amplitude=300km" --span 2periods --phase 30,60 --epoch 2031-03-01T00:00:00Z --out arc.oem')
 
 
 def add_arguments(p):
@@ -18,12 +20,21 @@ def add_arguments(p):
     src = g.add_mutually_exclusive_group(required=True)
     src.add_argument("--orbit", metavar="SPEC",
                      help='periodic-orbit request, e.g. "halo L2 south period=6.5626d"')
+    src.add_argument("--torus", metavar="REQUEST",
+                     help='an arc on a quasi-periodic torus: a torus request, e.g. "quasi-halo around halo '
+                          'L2 south resonance=9:2 amplitude=2000km" or "lissajous L2 ay=800000km '
+                          'az=500000km"; the arc runs from --phase over --span')
     src.add_argument("--route", metavar="DIR_OR_FILE",
                      help="a stitched route: the folder written by 'librate route --out DIR' (or a file "
                           "in it); its maneuvers are re-optimised in the ephemeris model")
     g.add_argument("--epoch", metavar="ISO", required=True,
                    help="date of the first patch point, ISO 8601 (Z = UTC, or a trailing TDB/TT/TAI/UTC)")
-    g.add_argument("--revs", metavar="N", default="12", help="revolutions (default 12)")
+    g.add_argument("--revs", metavar="N", default="12", help="with --orbit: revolutions (default 12)")
+    g.add_argument("--span", metavar="SPAN", help="with --torus (required): the arc's length, a time (20d) "
+                                                  "or Nperiods (stroboscopic periods of the torus)")
+    g.add_argument("--phase", metavar="THETA0,THETA1", default="0,0",
+                   help="with --torus: torus phase of the arc's first state, degrees: theta0 along the "
+                        "stroboscopic period, theta1 around the invariance circle (default 0,0)")
     g.add_argument("--bodies", metavar="LIST", default="sun,earth,moon",
                    help="point masses, comma-separated: sun, earth, moon, mercury ... neptune (default "
                         "sun,earth,moon; the central body is its own term)")
@@ -31,7 +42,8 @@ def add_arguments(p):
                                                      "Earth for Sun-Earth)")
     g.add_argument("--srp", metavar="A/M,CR", help="cannonball radiation pressure: area-to-mass and "
                                                    "reflectivity, e.g. 0.01m2/kg,1.3")
-    g.add_argument("--patches", metavar="N", default="7", help="patch points per revolution (default 7)")
+    g.add_argument("--patches", metavar="N", default="7", help="patch points per revolution (with --torus: "
+                                                                  "per stroboscopic period; default 7)")
     g.add_argument("--fix-first", action="store_true", help="hold the first patch state")
     g.add_argument("--fixed-times", action="store_true", help="hold the patch times (default: interior "
                                                               "times free)")
@@ -113,9 +125,11 @@ def _run_route(args, sysm):
     from cr3bp.fidelity.route import read_route, transition_route
     from cr3bp.plotting.fidelity import rotating_states
     for flag, given in (("--revs", args.revs != "12"), ("--patches", args.patches != "7"),
-                        ("--fix-first", args.fix_first), ("--fixed-times", args.fixed_times)):
+                        ("--fix-first", args.fix_first), ("--fixed-times", args.fixed_times),
+                        ("--span", args.span is not None), ("--phase", args.phase != "0,0")):
         if given:
-            raise InputError(f"{flag} applies to --orbit only; with --route use --patch-days and --hold-end")
+            raise InputError(f"{flag} applies to --orbit only (and --torus); with --route use --patch-days and "
+                             "--hold-end")
     patch_days = _float("--patch-days", args.patch_days, 0.01, 1000.0)
     max_iter, srp, bodies, fmt_out = _model_options(args, sysm)
     t_tu, states, maneuvers = read_route(args.route, sysm)
@@ -175,6 +189,112 @@ def _run_route(args, sysm):
     return 0
 
 
+def _torus_options(args, sysm):
+    """--torus's options, all checked before any work: (torus spec, phase in rad, span text)."""
+    import math
+
+    from cr3bp.errors import InputError, shown
+    from cr3bp.io import export
+    from cr3bp.tori import request as treq
+    for flag, given in (("--revs", args.revs != "12"), ("--patch-days", args.patch_days != "1"),
+                        ("--hold-end", args.hold_end != "yes")):
+        if given:
+            raise InputError(f"{flag} does not go with --torus; the arc is --span long from --phase, with "
+                             "--patches per stroboscopic period")
+    if args.span is None:
+        raise InputError("--torus needs --span (the arc's length: a time such as 20d, or Nperiods)")
+    spec = treq.parse(args.torus)
+    treq.values(sysm, spec)                     # bad units and ranges fail here, before any work
+    if spec.around:
+        from cr3bp.orbits.request import parse_request
+        from cr3bp.orbits.targets import make_target
+        ospec = parse_request(spec.around)
+        if ospec.family != "halo":
+            raise InputError(f"a quasi-halo torus is about a halo orbit (or NRHO); '{shown(spec.around)}' is a "
+                             f"{ospec.family} orbit")
+        make_target(sysm, ospec.key, ospec.value)
+    parts = args.phase.split(",")
+    try:
+        phase = [math.radians(float(x)) for x in parts]
+    except ValueError:
+        raise InputError(f"--phase '{shown(args.phase)}' is not two angles THETA0,THETA1 (degrees)") from None
+    if len(phase) != 2 or not all(math.isfinite(x) for x in phase):
+        raise InputError(f"--phase '{shown(args.phase)}' must be two finite angles THETA0,THETA1 (degrees)")
+    export.parse_span(args.span, sysm, 1.0)     # its form; Nperiods counted once the torus is known
+    return spec, phase
+
+
+def _run_torus(args, sysm):
+    """--torus: an arc on a torus carried into the ephemeris model (cr3bp.fidelity.torus_arc)."""
+    import warnings
+
+    import numpy as np
+
+    from cr3bp.errors import InputError
+    from cr3bp.fidelity.torus_arc import MAX_PERIODS, transition_torus_arc
+    from cr3bp.io import export
+    from cr3bp.time import frames
+    from cr3bp.tori import request as treq
+    spec, phase = _torus_options(args, sysm)
+    per = common.whole_number("--patches", args.patches, 2, 64)
+    max_iter, srp, bodies, fmt_out = _model_options(args, sysm)
+    common.progress(args, f"solving the torus '{args.torus}'...")
+    torus = treq.solve(sysm, spec, progress=lambda m: common.progress(args, m, verbose_only=True))
+    T = torus.stroboscopic_time
+    span = export.parse_span(args.span, sysm, T)
+    if span > MAX_PERIODS * T * (1 + 1e-12):
+        raise InputError(f"--span {args.span} is {span / T:.4g} stroboscopic periods; at most {MAX_PERIODS}")
+    common.progress(args, f"torus: stroboscopic period {torus.stroboscopic_period_days:.6f} d; arc of "
+                          f"{sysm.days(span):.6g} d from phase {args.phase} deg with {per} patch points per "
+                          "stroboscopic period")
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        tr = transition_torus_arc(torus, args.epoch, span, phase, bodies, central=args.central, srp=srp,
+                                  per_period=per, fix_first=args.fix_first, free_times=not args.fixed_times,
+                                  max_iter=max_iter,
+                                  progress=lambda i, err: common.progress(
+                                      args, f"  iteration {i}: largest mismatch {err:.3e} (nondimensional)"))
+    central = tr.model.central
+    headers = ["stroboscopic_period", "max_path_offset_km", "max_timing_offset_min",
+               "max_same_epoch_separation_km", f"min_r_{central}_km", "min_r_cr3bp_km"]
+    rows = [[r["rev"], r["max_path_offset_km"], r["max_timing_offset_min"], r["max_same_epoch_separation_km"],
+             r["min_radius_km"], r["min_radius_cr3bp_km"]] for r in tr.per_rev]
+    start_km = float(np.linalg.norm(tr.patches_km[0, :3] - tr.initial_km[0, :3]))
+    start_mps = float(np.linalg.norm(tr.patches_km[0, 3:] - tr.initial_km[0, 3:]) * 1000.0)
+    title = (f"{sysm.name}: arc on the torus '{args.torus}' from phase {args.phase} deg over "
+             f"{sysm.days(span):.6g} d, in the ephemeris model ({central} + {', '.join(tr.model.bodies)}"
+             f"{', SRP' if srp else ''}) from {args.epoch}; converged in {tr.iterations} iterations, continuity "
+             f"{tr.continuity_km * 1000:.3g} m / {tr.continuity_mps:.3g} m/s; first state moved "
+             f"{start_km:.6g} km, {start_mps:.6g} m/s from the CR3BP torus (ephemeris model against the CR3BP "
+             "design). Per stroboscopic period of the CR3BP torus: distance to the nearest point of the design's "
+             "path, how far ahead or behind it runs, and the separation at equal epochs (not a Δv)")
+    table = common.format_table(headers, rows, title=title)
+    if args.out:
+        from cr3bp.plotting.fidelity import rotating_states
+        fspec = frames.frame(sysm, tr.epoch_tdb_s, anchor="ephemeris", axes="j2000-equator", center="secondary")
+        rot = rotating_states(tr, tr.sample_km, tr.sample_t_tu)
+        model = {"trajectory": "integrated in the ephemeris point-mass model below, NOT the CR3BP; "
+                               "the CR3BP lines above describe only the frame that carries the states",
+                 "torus request": args.torus, "torus phase (deg)": args.phase,
+                 "stroboscopic period": f"{T!r} TU = {torus.stroboscopic_period_days:.9f} d (CR3BP)",
+                 "force model": f"point masses {central} (central), "
+                 f"{', '.join(tr.model.bodies)}" + (f"; cannonball SRP A/m {srp[0]} m2/kg, Cr {srp[1]}" if srp else ""),
+                 "ephemeris": tr.model.ephemeris,
+                 "iterations": str(tr.iterations), "continuity": f"{tr.continuity_km * 1000:.3g} m, "
+                 f"{tr.continuity_mps:.3g} m/s"}
+        traj = export.Trajectory(fspec, (export.Segment(np.asarray(tr.sample_t_tu), rot),), "TDB", (),
+                                 "LIBRATE REFINED TORUS ARC", "NONE", model)
+        export.write(args.out, traj, fmt_out)
+        common.progress(args, f"wrote {args.out}")
+    _finish(args, tr, f"arc on {args.torus} from {args.epoch}, phase {args.phase} deg",
+            f"CR3BP torus arc (blue) and ephemeris trajectory (red); {central}-centred",
+            {"torus_request": args.torus, "phase_deg": args.phase, "span_days": sysm.days(span),
+             "first_state_offset_km": start_km, "first_state_offset_mps": start_mps,
+             "first_state_cr3bp_km": tr.initial_km[0].tolist(),
+             "torus": {k: v for k, v in torus.to_dict().items() if k != "circle"}}, headers, rows, table)
+    return 0
+
+
 def _finish(args, tr, title, caption, extra, headers, rows, table):
     """The plot (--plot) and the screen output shared by --orbit and --route."""
     if args.plot:
@@ -205,6 +325,13 @@ def run(args):
     sysm.require_dimensional("an ephemeris model")
     if args.route is not None:
         return _run_route(args, sysm)
+    if args.torus is not None:
+        return _run_torus(args, sysm)
+    from cr3bp.errors import InputError
+    for flag, given in (("--span", args.span is not None), ("--phase", args.phase != "0,0")):
+        if given:
+            raise InputError(f"{flag} goes with --torus (an arc on a torus); --orbit refines whole revolutions "
+                             "(--revs)")
     revs = common.whole_number("--revs", args.revs, 1, 200)
     per_rev = common.whole_number("--patches", args.patches, 2, 64)
     max_iter, srp, bodies, fmt_out = _model_options(args, sysm)

@@ -18,7 +18,9 @@ def add_arguments(p):
     p.add_argument("--tube", action="append", required=True, metavar="SPEC",
                    help="an orbit request plus 'stable' or 'unstable' and optionally 'interior' (default) "
                         "or 'exterior', e.g. 'lyapunov L1 jacobi=3.15 unstable'; or "
-                        "'state=X,Y,Z,VX,VY,VZ period=T stable exterior'. Repeatable")
+                        "'state=X,Y,Z,VX,VY,VZ period=T stable exterior'; or a torus request plus the same "
+                        "words, e.g. 'quasi-halo around halo L1 north az=10000km amplitude=300km unstable' (the "
+                        "manifold of a hyperbolic torus, from a grid of --points on it). Repeatable")
     p.add_argument("--section", required=True, metavar="SECTION",
                    help="x=1-mu, y=0:+ (one direction), sphere:moon:20000km, periapsis:earth, apoapsis:moon")
     p.add_argument("--coords", "--coordinates", default=None, action="append", metavar="A,B",
@@ -80,6 +82,27 @@ def spatial_pairs(section, cuts, tol=1e-9):
     return (first,)
 
 
+def _torus_cut(args, system, req, spec, stab, br, section, t_max):
+    """The cut of a torus's half-manifold (cr3bp.tori.manifolds) with the section."""
+    from cr3bp.tori import request as treq
+    from cr3bp.tori.manifolds import grow_tube, manifold_starts
+    from cr3bp.tubes.manifolds import Stop
+    from cr3bp.tubes.sections import crossings
+    label = f"{req} {stab} {br}"
+    common.progress(args, f"librate section: solving the torus '{req}'...")
+    torus = treq.solve(system, spec, progress=lambda m: common.progress(args, m, verbose_only=True))
+    common.progress(args, f"librate section: {label}: {args.points} trajectories to {section.label}...")
+    sign = 1.0 if stab == "unstable" else -1.0
+    if section.kind == "apsis":
+        th0, _, _, _, _, starts, *_ = manifold_starts(torus, stab, br, args.points, step_km=args.step_off)
+        return crossings(system, starts, section, sign * t_max, args.crossing, phase=th0 / (2 * 3.141592653589793),
+                         label=label).nth(args.crossing)
+    tube = grow_tube(torus, stab, br, args.points, Stop(section, args.crossing, t_max), step_km=args.step_off,
+                     progress=to.progress_printer(args), origin=req)
+    cut = tube.section_cut()
+    return type(cut)(**{**cut.__dict__, "label": label})
+
+
 HEADERS = ["tube", "trajectory", "phase", "crossing", "t", "map_a", "map_b", "x", "y", "z", "vx", "vy", "vz"]
 
 
@@ -98,8 +121,14 @@ def run(args):
     t_max = quantity("--time", args.time, "time", system, sign="positive", default_unit="TU") \
         if args.time is not None else 2 * math.pi
     specs = [parse_tube_spec(t) for t in args.tube]
+    from cr3bp.tori.request import is_torus_request
+    from .manifold import torus_request
+    tori = {req: torus_request(system, req, args) for req, _, _ in specs if is_torus_request(req)}
     cuts, out = [], []
     for req, stab, br in specs:
+        if req in tori:
+            cuts.append(_torus_cut(args, system, req, tori[req], stab, br, section, t_max))
+            continue
         orbit = to.orbit_from_request(system, req, args)
         from cr3bp.tubes.manifolds import describe
         label = f"{describe(orbit) if 'state=' in req else req} {stab} {br}"
@@ -117,10 +146,13 @@ def run(args):
         cuts.append(cut)
     pairs = pairs or spatial_pairs(section, cuts)
     columns = tuple(dict.fromkeys(n for p in pairs for n in p))
-    for cut in cuts:
+    grid = [req in tori for req, _, _ in specs]      # a torus tube's cut is a grid, not a curve
+    for cut, on_grid in zip(cuts, grid):
         d = cut.to_dict(names)
-        d["closed"] = cut.closed
-        d["area"] = cut.area(names) if cut.closed else None
+        d["closed"] = cut.closed and not on_grid
+        d["area"] = cut.area(names) if d["closed"] else None
+        if on_grid:
+            d["kind"] = "torus manifold (a grid of its trajectories on the torus, not a closed curve)"
         if len(pairs) > 1:
             d["maps"] = [{"coordinates": list(p), "map": cut.coords(p).tolist()} for p in pairs]
         out.append(d)
@@ -134,7 +166,9 @@ def run(args):
     maps = ", ".join(f"({a}, {b})" for a, b in pairs)
     head = [f"section {section.label}, map{'s' if len(pairs) > 1 else ''} {maps}, crossing {args.crossing}"]
     head += [f"tube {k + 1}: {c.label}: {len(c)} of {c.n_trajectories} trajectories crossed"
-             + (f", closed cut, area {c.area(names):.6g}" if c.closed else "") for k, c in enumerate(cuts)]
+             + (", a torus manifold (its cut is a grid of points, not a closed curve)" if on_grid else
+                f", closed cut, area {c.area(names):.6g}" if c.closed else "")
+             for k, (c, on_grid) in enumerate(zip(cuts, grid))]
     if args.plot:
         from cr3bp.plotting import save
         from cr3bp.plotting.manifolds import plot_section_map

@@ -222,7 +222,11 @@ def write_report(plan, orbits, checks, routes, exports, figures, out, stitched=N
     if desc:
         sections.insert(0, ("Mission", f"<p>{R.esc(desc)}</p><p>Scenario file: {R.esc(plan.path.name)} "
                                        f"(sha256 {plan.sha256[:16]}…)</p>"))
+    from .tori import is_torus, section as torus_section  # lazy: only for tori
     for name, orbit in orbits.items():
+        if is_torus(orbit):
+            sections.append((f"Torus '{name}'", torus_section(name, orbit, checks.get(name), figures, views)))
+            continue
         sections.append((f"Orbit '{name}'", _orbit_section(name, orbit, checks.get(name), figures, views)))
     if routes:
         sections.append(("Transfers: Δv and time-of-flight budget", _routes_section(routes, figures, views, stitched, orbits)))

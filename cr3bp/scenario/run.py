@@ -205,11 +205,18 @@ def prepare(path) -> Plan:
         except InputError as e:
             add("mission.issued", e)
     specs = {}
+    tori = {name for name, entry in data["orbits"].items() if "torus" in entry}
     for name, entry in data["orbits"].items():
         try:
-            specs[name] = _spec_for(entry)
+            if name in tori:
+                from .tori import spec_for  # lazy: only for tori
+                specs[name] = spec_for(system, entry)
+            elif "family" not in entry:
+                continue                  # said by the schema check: 'family' or 'torus'
+            else:
+                specs[name] = _spec_for(entry)
         except InputError as e:
-            add(f"orbits.{name}", e)
+            add(f"orbits.{name}.torus" if name in tori else f"orbits.{name}", e)
         if system is not None and isinstance(entry.get("checks"), dict):
             for key, why in plan_problems(system, entry["checks"], sysd["epoch"]):
                 add(f"orbits.{name}.checks.{key}", InputError(why))
@@ -225,6 +232,11 @@ def prepare(path) -> Plan:
         for v in t.get("via", []):
             if v not in known:
                 add(f"transfers[{i}].via", InputError(f"'{v}' is not an orbit of this scenario"))
+        for key, v in [("from", t["from"]), ("to", t["to"])] + [("via", v) for v in t.get("via", [])]:
+            if v in tori:
+                add(f"transfers[{i}].{key}", InputError(
+                    f"'{v}' is a torus; transfers join periodic orbits and parking orbits (tori "
+                    "are not yet transfer ends)"))
     objects = known | {t["name"] for t in transfers}
     for i, ex in enumerate(data.get("exports", [])):
         if ex["object"] not in objects:
@@ -934,7 +946,7 @@ def check_spans(plan, orbits) -> None:
     for i, ex in enumerate(plan.data.get("exports", [])):
         if ex["object"] in orbits and str(ex.get("span", "")).strip().lower().endswith(("period", "periods")):
             try:
-                span = export.parse_span(ex["span"], system, float(orbits[ex["object"]].period))
+                span = export.parse_span(ex["span"], system, _period(orbits[ex["object"]]))
                 step = units.time(ex.get("step", "10min"), system)
             except InputError as e:
                 add(f"exports[{i}].span", e)
@@ -942,6 +954,17 @@ def check_spans(plan, orbits) -> None:
             _samples(f"exports[{i}]", span, step, ex, add)
     if problems:
         raise ScenarioError(problems)
+
+
+def _period(obj) -> float:
+    """A periodic orbit's period, or a torus's stroboscopic time (TU): what 'Nperiods' counts."""
+    from .tori import is_torus  # lazy: only for tori
+    return float(obj.stroboscopic_time if is_torus(obj) else obj.period)
+
+
+def _row(name, obj) -> list:
+    from .tori import is_torus, orbit_row as torus_row  # lazy: only for tori
+    return torus_row(name, obj) if is_torus(obj) else orbit_row(name, obj)
 
 
 def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduced, started):
@@ -952,16 +975,29 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
     plots = plan.data.get("plots", {})
     write_text(out.path("orbits.json"), json_text({"system": system.to_dict(), "caution": CAUTION,
                                                "orbits": {k: v.to_dict() for k, v in orbits.items()}}))
-    write_text(out.path("orbits.csv"), csv_text(ORBIT_COLUMNS, [orbit_row(k, v) for k, v in orbits.items()],
-                                            [f"librate {__version__}: orbits of scenario {plan.name}",
-                                             "lengths km, times days, states nondimensional (rotating, barycentric)"]))
+    notes = [f"librate {__version__}: orbits of scenario {plan.name}",
+             "lengths km, times days, states nondimensional (rotating, barycentric); circular "
+             "restricted three-body model"]
+    from .tori import is_torus  # lazy: only for tori
+    if any(is_torus(o) for o in orbits.values()):
+        notes.append("a torus's row: period_days is its stroboscopic period, stability_index_1 the "
+                     "stability index of its discretised stroboscopic map, periodicity_error its "
+                     "invariance error, the state the first point of its invariance circle")
+    write_text(out.path("orbits.csv"), csv_text(ORBIT_COLUMNS, [_row(k, v) for k, v in orbits.items()],
+                                            notes))
 
     # ---- checks -----------------------------------------------------------------------
-    samples = {name: sample(o, 1000 if reduced else 4000) for name, o in orbits.items()}
+    from . import tori as _tori  # lazy: only for tori
+    samples = {name: (_tori.surface_states(o, reduced) if is_torus(o) else
+                      sample(o, 1000 if reduced else 4000)) for name, o in orbits.items()}
     checks = {}
     for name, entry in plan.data["orbits"].items():
         if entry.get("checks"):
             say(progress, f"checks on '{name}'")
+            if is_torus(orbits[name]):
+                checks[name] = _tori.run_checks(orbits[name], entry["checks"], samples[name],
+                                                plan.epoch, _tori.phase_rad(entry), reduced)
+                continue
             checks[name] = run_checks(orbits[name], entry["checks"], samples[name], epoch=plan.epoch,
                                       phase_deg=float(entry.get("phase_deg", 0.0)))
     rows = [[name, c.name, c.required, c.actual, c.margin, c.unit, "pass" if c.passed else "FAIL"]
@@ -1042,6 +1078,17 @@ def solve_orbits(plan, catalog, progress=None) -> dict:
     lines = schema.line_index(schema.read_text(plan.path))
     orbits = {}
     for name, spec in plan.orbit_specs.items():
+        if "torus" in plan.data["orbits"][name]:
+            from .tori import solve  # lazy: only for tori
+            text = plan.data["orbits"][name]["torus"]
+            say(progress, f"torus '{name}': {text}")
+            try:
+                orbits[name] = solve(plan.system, spec, catalog=catalog)
+            except NoSolutionError as e:
+                key = f"orbits.{name}.torus"
+                raise ScenarioError([Problem(str(plan.path), lines.get(key, lines.get(f"orbits.{name}", 1)),
+                                             key, f"impossible torus: {e}")]) from None
+            continue
         say(progress, f"orbit '{name}': {spec.family} {spec.point} {spec.branch} {spec.key}={spec.value}")
         try:
             orbits[name] = solve_request(plan.system, spec, catalog=catalog, progress=None)
@@ -1069,7 +1116,11 @@ def _export(plan, ex, orbits, stitched, out, created):
     q = units.parse(ex.get("step", "10min"), "time")
     step_s = q.nondim(system) * system.time_s if q.unit == "TU" else q.si()
     model = {"scenario": plan.name, "scenario sha256": plan.sha256}
-    if ex["object"] in orbits:
+    from .tori import export_trajectory, is_torus  # lazy: only for tori
+    if ex["object"] in orbits and is_torus(orbits[ex["object"]]):
+        traj = export_trajectory(plan, orbits[ex["object"]], plan.data["orbits"][ex["object"]], ex,
+                                 spec, ts, step_s, model, ex["object"])
+    elif ex["object"] in orbits:
         orbit = orbits[ex["object"]]
         span_tu = export.parse_span(ex["span"], system, float(orbit.period))
         grid = export.epoch_grid(spec, ts, span_tu, step_s)
@@ -1089,9 +1140,17 @@ def _export(plan, ex, orbits, stitched, out, created):
 
 def _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progress) -> dict:
     from ..plotting.orbits import plot_orbit  # lazy: heavy library (matplotlib, via cr3bp.plotting.orbits)
+    from .tori import figure as torus_figure, is_torus  # lazy: only for tori
     figs = {}
     for name, orbit in orbits.items():
-        if plots.get("orbits", True):
+        if is_torus(orbit) and plots.get("orbits", True):
+            say(progress, f"figure: torus '{name}'")
+            fig = torus_figure(plan, name, orbit, samples[name])
+            figs[f"orbit-{name}"] = save_figures(
+                fig, out, f"orbit-{name}", formats,
+                f"{plan.name}: torus '{name}' (trajectories of its invariance circle's points over one "
+                "stroboscopic period), rotating frame of the circular restricted three-body model.")
+        elif plots.get("orbits", True):
             say(progress, f"figure: orbit '{name}'")
             fig = plot_orbit(orbit, samples[name])
             figs[f"orbit-{name}"] = save_figures(fig, out, f"orbit-{name}", formats,
@@ -1103,7 +1162,7 @@ def _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progr
             ax = plot_hill_region(region)
             figs[f"hill-{name}"] = save_figures(ax.figure, out, f"hill-region-{name}", formats,
                                              f"{plan.name}: Hill region at the Jacobi constant of '{name}'.")
-        if plots.get("families", False):
+        if plots.get("families", False) and not is_torus(orbit):
             fam = catalog.load_family(orbit.system, orbit.family, orbit.point, orbit.branch)
             if fam and fam.get("members"):
                 from ..plotting.orbits import plot_family  # lazy: heavy library (matplotlib, via cr3bp.plotting.orbits)

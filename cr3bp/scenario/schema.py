@@ -8,6 +8,7 @@ once, before anything is computed; :func:`check` adds the scenario's cross-key r
 
 from __future__ import annotations
 
+import math
 import re
 from pathlib import Path
 import copy
@@ -30,7 +31,16 @@ FILE_RULE = "1 to 100 letters, digits, '-', '_' or '.', starting with a letter o
 #: The schema type of each kind of target value (cr3bp.vocabulary.TARGET_DIMENSIONS).
 _TARGET_TYPES = {"time": Q, "length": Q, "number": F, "ratio": S}
 ORBIT_KEYS = {
-    "family": (words.one_of(words.FAMILIES), True, "orbit family"),
+    "family": (words.one_of(words.FAMILIES), False, "periodic-orbit family (or give 'torus')"),
+    "torus": (S, False, "a quasi-periodic torus instead of a periodic orbit: a torus request, e.g. "
+                        "'quasi-halo around halo L2 south resonance=9:2 amplitude=2000km' or "
+                        "'lissajous L2 ay=800000km az=500000km' (families: "
+                        + ", ".join(words.TORUS_FAMILIES) + "; targets: "
+                        + ", ".join(words.TORUS_TARGETS) + ")"),
+    "torus_phase_deg": ("list[float]", False, "with 'torus': the torus phase [THETA0, THETA1] in "
+                        "degrees (along the stroboscopic time, around the invariance circle) of "
+                        "the exported trajectory's first state and of the angle checks' trajectory "
+                        "at the epoch (default [0, 0])"),
     "point": (words.one_of(words.COLLINEAR_POINTS), False, "Lagrange point (not for dro/resonant)"),
     "branch": (words.one_of(words.HALO_BRANCHES, optional=True), False, "halo branch"),
     # the orbit targets, one key each (give exactly one)
@@ -116,6 +126,44 @@ UNUSED_SETTINGS = {
     "tube_points": "librate run chooses the points of each tube by the kind of leg (see the node "
                    "list's hints in the user guide, docs/manual/node-lists.md); remove the key",
 }
+
+
+#: Keys of a periodic orbit's table that a torus table refuses, and why.
+NOT_FOR_TORI = {
+    "family": "the torus request names its family",
+    "point": "the torus request names its point",
+    "branch": "the torus request names its orbit",
+    "resonant": "the torus request names its orbit",
+    "occurrence": "the torus request names its orbit",
+    "phase_deg": "a torus's phase is two angles: use torus_phase_deg = [THETA0, THETA1]",
+}
+#: Checks a torus cannot be given, and why.
+CHECKS_NOT_FOR_TORI = {
+    "max_period": "a torus has two frequencies and no period; its stroboscopic period is in the "
+                  "orbit table",
+    "max_eclipse_duration": "eclipse checks are computed for periodic orbits only, not tori",
+    "max_eclipse_per_year": "eclipse checks are computed for periodic orbits only, not tori",
+}
+
+
+def torus_entry_problems(entry: dict) -> list[tuple[str, str]]:
+    """``[(key, message)]`` of a torus table's keys that do not go with a torus (key relative
+    to the table)."""
+    out = [(k, f"'{k}' does not go with 'torus': {why}") for k, why in NOT_FOR_TORI.items()
+           if k in entry]
+    for k in words.ORBIT_TARGETS:
+        if k in entry:
+            out.append((k, f"'{k}' does not go with 'torus': the torus request holds its targets"))
+    ph = entry.get("torus_phase_deg")
+    if ph is not None and (not isinstance(ph, list) or len(ph) != 2
+                           or not all(isinstance(v, (int, float)) and not isinstance(v, bool)
+                                      and math.isfinite(v) for v in ph)):
+        out.append(("torus_phase_deg", f"{ph!r} must be two finite angles [THETA0, THETA1] in "
+                                       "degrees"))
+    for k in (entry.get("checks") or {}):
+        if k in CHECKS_NOT_FOR_TORI:
+            out.append((f"checks.{k}", CHECKS_NOT_FOR_TORI[k]))
+    return out
 
 
 def _schema_entry(parts):
@@ -286,6 +334,21 @@ def check(data: dict, lines: dict, file: str, schema: dict | None = None,
     if isinstance(orbits, dict):
         targets = words.ORBIT_TARGETS
         for name, t in orbits.items():
+            if isinstance(t, dict) and "torus" in t:
+                for key, why in torus_entry_problems(t):
+                    problems.append(Problem(file, line(f"orbits.{name}.{key}"),
+                                            f"orbits.{name}.{key}", why, "meaning"))
+                continue
+            if isinstance(t, dict) and "family" not in t:
+                problems.append(Problem(file, line(f"orbits.{name}"), f"orbits.{name}",
+                                        "give 'family' (a periodic orbit) or 'torus' (a torus "
+                                        "request)", "meaning"))
+                continue
+            if isinstance(t, dict) and "torus_phase_deg" in t:
+                problems.append(Problem(file, line(f"orbits.{name}.torus_phase_deg"),
+                                        f"orbits.{name}.torus_phase_deg",
+                                        "'torus_phase_deg' goes with 'torus'; a periodic orbit's "
+                                        "phase is 'phase_deg'", "meaning"))
             if isinstance(t, dict):
                 given = [k for k in targets if k in t]
                 if len(given) != 1:

@@ -26,6 +26,7 @@ import numpy as np
 
 from .. import validate
 from ..errors import ConvergenceError, InputError, NoSolutionError, shown
+from ..vocabulary import TORUS_FAMILIES, TORUS_TARGETS
 from . import circle, seeds
 from .family import continue_family
 from .torus import SurfaceError, build, solve_adaptive, torus_around
@@ -35,9 +36,9 @@ from ..orbits.targets import make_target
 from .lissajous import lissajous
 from .solver import amplitude
 
-FAMILIES = ("lissajous", "quasi-halo")
+FAMILIES = TORUS_FAMILIES
 ALIASES = {"quasihalo": "quasi-halo", "qh": "quasi-halo", "liss": "lissajous"}
-KEYS = ("ay", "az", "amplitude", "jacobi", "period", "frequency-ratio")
+KEYS = TORUS_TARGETS
 KEY_ALIASES = {"rotation-number": "frequency-ratio", "ratio": "frequency-ratio"}
 EXAMPLE = "quasi-halo around halo L2 south resonance=9:2 amplitude=2000km"
 #: Continuation of the held pair from the start torus to the target: first, smallest step

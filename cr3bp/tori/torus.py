@@ -117,6 +117,12 @@ class Torus:
         return tuple(None if w == 0 else self._days(2 * math.pi / abs(w))
                      for w in self.frequencies_rad_tu)
 
+    def to_plotly(self, **options):
+        """A rotatable 3-D plotly figure of the torus surface and its invariance circle
+        (:func:`cr3bp.plotting.interactive.torus_figure`; rotating frame, CR3BP); needs plotly."""
+        from ..plotting.interactive import torus_figure   # lazy: plotly is optional
+        return torus_figure(self, **options)
+
     def to_dict(self) -> dict:
         km = self.system.km if self.system.dimensional else (lambda v: None)
         return {

@@ -453,7 +453,19 @@ def resolve_orbits(system, nodelist, catalog=None, progress=None) -> dict:
     """
     out = {}
     for n in nodelist.nodes:
-        if isinstance(n, OrbitNode) and n.id not in out:
+        if isinstance(n, OrbitNode) and n.id not in out and n.is_torus:
+            from ..tori import request as treq  # lazy: only for tori
+            try:
+                t = treq.solve(system, n.orbit, catalog=catalog)
+                out[n.id] = {"state": np.asarray(t.circle[0], dtype=float), "period": float(t.stroboscopic_time),
+                             "jacobi": float(t.jacobi), "family": t.family, "point": t.point,
+                             "branch": t.branch, "torus": True, "circle": np.asarray(t.circle, dtype=float),
+                             "rotation": float(t.rotation)}
+            except LibrateError as e:
+                out[n.id] = {"error": str(e)}
+            if progress is not None:
+                progress(n, out[n.id])
+        elif isinstance(n, OrbitNode) and n.id not in out:
             try:
                 o = solve_request(system, n.orbit, catalog=catalog)
                 out[n.id] = {"state": np.asarray(o.state, dtype=float), "period": float(o.period),
@@ -475,15 +487,34 @@ def _orbit_from_plain(system, d: dict):
                          d.get("family", ""), d.get("point", ""), d.get("branch", ""), float(d["jacobi"]))
 
 
+def _torus_from_plain(system, d: dict):
+    """The torus of a torus node's plain data (its invariance circle, stroboscopic time and
+    rotation; the geometry is not needed by its manifolds)."""
+    from ..tori import Torus  # lazy: only for tori
+    return Torus(system=system, circle=np.array(d["circle"], dtype=float), stroboscopic_time=float(d["period"]),
+                 rotation=float(d["rotation"]), jacobi=float(d["jacobi"]), jacobi_spread=0.0,
+                 invariance_error=0.0, family=d.get("family", ""), point=d.get("point", ""),
+                 branch=d.get("branch", ""))
+
+
 def _manifold_leg(system, task) -> Leg:
     """The cheapest connection between two orbit nodes over the hinted sections
     (:func:`cr3bp.tubes.connections.connect`), in shooting form."""
     st = task["settings"]
-    a = _orbit_from_plain(system, task["from"]["orbit_data"])
-    b = _orbit_from_plain(system, task["to"]["orbit_data"])
+    ends = []
+    for end in ("from", "to"):
+        d = task[end]["orbit_data"]
+        ends.append(_torus_from_plain(system, d) if d.get("torus") else _orbit_from_plain(system, d))
+    a, b = ends
+    torus_from, torus_to = (bool(task[e]["orbit_data"].get("torus")) for e in ("from", "to"))
     found, reasons = [], []
     for sec in st["sections"]:
         try:
+            if torus_from or torus_to:
+                from ..tori import connections as tc  # lazy: only for tori
+                found += (tc.connect_torus_to_orbit(a, b, sec, n_points=st["tube_points"]) if torus_from else
+                          tc.connect_orbit_to_torus(a, b, sec, n_points=st["tube_points"]))
+                continue
             legs, _, _ = connect(a, b, sec, n_points=st["tube_points"])
             found += legs
         except LibrateError as e:
@@ -800,6 +831,15 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
                     why = (f"parking node '{n.name}' joins periodic orbits only (a manifold leg through "
                            f"periapsis, or a direct departure from an Earth parking orbit in Earth-Moon), "
                            f"not the {other.kind} node '{other.name}'")
+        for n in (a, b):
+            hinted = bool(h and h.sections)
+            if why is None and isinstance(n, OrbitNode) and n.is_torus and (
+                    isinstance(a, (ParkingNode, BoundaryNode)) or isinstance(b, (ParkingNode, BoundaryNode))
+                    or (hinted and getattr(a, "is_torus", False) and getattr(b, "is_torus", False))):
+                why = (f"torus node '{n.name}': of the legs through manifolds only section-hinted connections "
+                       "between a torus and a periodic orbit are built; parking, capture and escape legs of tori "
+                       "and torus-to-torus connections are not yet; a targeted leg departs or arrives at the "
+                       "torus's reference state (phase 0, 0)")
         sa, sb = states[a.id], states[b.id]
         maneuvers = h.maneuvers if h else "ends"
         if why is None and not isinstance(b, BoundaryNode):   # a boundary has no state: the manifold decides

@@ -141,6 +141,11 @@ class OrbitNode:
         return next((w for w in self.words if w in HALO_BRANCHES), "")
 
     @property
+    def is_torus(self) -> bool:
+        """A torus request (cr3bp.tori.request) rather than a periodic orbit's."""
+        return bool(self.words) and self.words[0] in ("lissajous", "quasi-halo", "quasihalo", "qh", "liss")
+
+    @property
     def selector(self) -> str:
         return " ".join(w for w in self.words if "=" in w)
 
@@ -584,6 +589,10 @@ def _node(t: dict, system):
 def orbit_node(name: str, system, orbit: str) -> OrbitNode:
     """The node of the periodic orbit that the request text ``orbit`` names.
 
+    A torus request (:mod:`cr3bp.tori.request`, e.g. "quasi-halo around halo L1 north
+    az=10000km amplitude=300km") names a torus node: its reference state is the torus at phase
+    (0, 0), the first point of its invariance circle.
+
     Parameters
     ----------
     name : str
@@ -612,6 +621,18 @@ def orbit_node(name: str, system, orbit: str) -> OrbitNode:
     ----------
     Orbit families: Koon, Lo, Marsden & Ross, 2011, ch. 2 and 4 (from memory).
     """
+    from ..orbits.request import parse_request
+    from ..tori.request import is_torus_request  # lazy: only for tori
+    if is_torus_request(orbit):
+        from ..tori import request as treq  # lazy: only for tori
+        tspec = treq.parse(orbit)        # InputError names the bad word
+        treq.values(system, tspec)
+        if tspec.around:
+            aspec = parse_request(tspec.around)
+            if aspec.family != "halo":
+                raise InputError(f"a quasi-halo torus is about a halo orbit (or NRHO); "
+                                 f"'{shown(tspec.around)}' is a {aspec.family} orbit")
+        return OrbitNode(name, system.name, orbit)
     spec = parse_request(orbit)          # InputError names the bad word
     if not spec.key:
         raise InputError(f"orbit '{shown(orbit)}' has no target; add e.g. period=, jacobi=, az=")

@@ -1,0 +1,172 @@
+"""Connections from a hyperbolic torus's unstable manifold to a periodic orbit's stable manifold
+on a Poincaré section (a patch with one Δv), as a :class:`cr3bp.transfers.leg.Leg`.
+
+Method: both half-manifolds are grown to the section (:func:`cr3bp.tori.manifolds.grow_tube`,
+:func:`cr3bp.tubes.manifolds.grow_tube`); the pairs of crossings nearest in the matched
+position coordinates are refined by Newton's method on the torus departure phases
+``(tau, phi)`` (time along the stroboscopic period, circle angle at departure) and the orbit's
+departure time ``t_b``: three unknowns, the two in-section position coordinates matched, the
+minimum-norm update (Golub & Van Loan, *Matrix Computations*, 4th ed., 2013, §5.6) with
+forward-difference partials. The velocity jump at the matched point is the leg's Δv (the
+patch-point connection of Gómez, Koon, Lo, Marsden, Masdemont & Ross, Nonlinearity 17, 2004,
+§4, with a torus at the departure end as in Gómez & Mondelo, Physica D 157, 2001, §5).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ..errors import ConvergenceError, InputError, NoSolutionError
+from ..integrate import propagate_batch
+from ..tubes.connections import _Branch, _coords, _leg_from_patch
+from ..tubes.manifolds import Stop, _globalise, branch_sign, on_energy
+from ..tubes.manifolds import grow_tube as grow_orbit_tube
+from ..tubes.sections import parse_section
+from . import circle, solver
+from .manifolds import grow_tube, modes
+
+#: Newton on the patch: tolerance on the matched coordinates (LU) and iterations.
+PATCH_TOL = 1e-10
+MAX_ITER = 25
+#: Candidate pairs refined (nearest first).
+CANDIDATES = 5
+
+
+class _TorusEnd:
+    """The torus tube's trajectory departing at ``(tau, phi)`` (see the module notes)."""
+
+    def __init__(self, tube, stop):
+        self.tube, self.stop = tube, stop
+        t = tube.torus
+        self.torus = t
+        self.m = modes(t)
+        v = self.m.unstable if tube.stability == "unstable" else self.m.stable
+        self.v = v
+        u0, v0 = t.circle[0], v[0]
+        self.sign = branch_sign(t.system, u0, v0 / np.linalg.norm(v0[:3]), tube.branch)
+
+    def start(self, tau, phi):
+        t = self.torus
+        u = circle.evaluate(t.circle, [phi])
+        dv = circle.evaluate(self.v, [phi])
+        if tau != 0.0:
+            r = propagate_batch(t.system, u, float(tau), rtol=solver.RTOL, atol=solver.ATOL, stm=True)
+            u, dv = r.states, np.einsum("kij,kj->ki", r.stm, dv)
+        w = self.sign * dv / np.linalg.norm(dv[:, :3], axis=1)[:, None]
+        return on_energy(t.system, u + self.tube.step * w, t.jacobi)[0]
+
+    def end(self, tau, phi):
+        s = self.start(tau, phi)
+        tof, ends, status = _globalise(self.torus.system, s[None, :], self.stop, self.tube.time_sign)
+        return s, float(tof[0]), ends[0], status[0]
+
+
+def connect_torus_to_orbit(torus, orbit, section, n_points=100, *, branch_a="interior",
+                           branch_b="interior", step_km=None, t_max=2 * math.pi):
+    """The cheapest patch connections from ``torus``'s unstable manifold to ``orbit``'s stable
+    manifold on ``section`` (a plane ``x = c``, ``y = c`` or ``z = c``).
+
+    Returns
+    -------
+    list of Leg, cheapest first (method ``"torus-manifold"``, kind ``"torus-to-orbit"``)
+
+    Raises
+    ------
+    InputError: a section that is not a position plane. NoSolutionError: the cuts do not come
+    near each other, or no candidate converges.
+    """
+    return _connect(torus, orbit, section, n_points, branch_a, branch_b, step_km, t_max, True)
+
+
+def connect_orbit_to_torus(orbit, torus, section, n_points=100, *, branch_a="interior",
+                           branch_b="interior", step_km=None, t_max=2 * math.pi):
+    """The cheapest patch connections from ``orbit``'s unstable manifold to ``torus``'s stable
+    manifold on ``section`` (arrival at a torus; otherwise as :func:`connect_torus_to_orbit`,
+    kind ``"orbit-to-torus"``)."""
+    return _connect(torus, orbit, section, n_points, branch_a, branch_b, step_km, t_max, False)
+
+
+def _connect(torus, orbit, section, n_points, branch_a, branch_b, step_km, t_max, torus_first):
+    system = torus.system
+    sec = parse_section(section, system) if isinstance(section, str) else section
+    if sec.kind != "plane" or sec.coordinate > 2:
+        raise InputError("torus connections need a position plane such as x=1-mu or y=0")
+    stop = Stop(sec, 1, float(t_max))
+    names = tuple("xyz"[c] for c in (0, 1, 2) if c != sec.coordinate)
+    if torus_first:
+        tt = grow_tube(torus, "unstable", branch_a, n_points, stop, step_km=step_km)
+        to = grow_orbit_tube(orbit, "stable", branch_b, n_points, stop, step_km=step_km)
+        ta, tb = tt, to
+    else:
+        to = grow_orbit_tube(orbit, "unstable", branch_a, n_points, stop, step_km=step_km)
+        tt = grow_tube(torus, "stable", branch_b, n_points, stop, step_km=step_km)
+        ta, tb = to, tt
+    it_ = np.nonzero(tt.reached("section"))[0]
+    io_ = np.nonzero(to.reached("section"))[0]
+    if it_.size == 0 or io_.size == 0:
+        raise NoSolutionError(f"the {'torus' if it_.size == 0 else 'orbit'} manifold does not reach "
+                              f"{sec.label} within {t_max:.4g} TU")
+    pt = np.array([_coords(tt.end_states[i], names) for i in it_])
+    po = np.array([_coords(to.end_states[j], names) for j in io_])
+    d = np.linalg.norm(pt[:, None, :] - po[None, :, :], axis=2)
+    order = np.dstack(np.unravel_index(np.argsort(d, axis=None), d.shape))[0][:CANDIDATES]
+    t_end = _TorusEnd(tt, stop)
+    o_end = _Branch(to, stop)
+    T, To = torus.stroboscopic_time, orbit.period
+    kind = "torus-to-orbit" if torus_first else "orbit-to-torus"
+    legs, reasons = [], []
+    for kt, ko in order:
+        i, j = it_[kt], io_[ko]
+        x = np.array([tt.t_orbit[i], tt.circle_phase[i] - torus.rotation * tt.t_orbit[i] / T,
+                      to.t_orbit[j]], dtype=float)
+        try:
+            x, et, eo = _refine(t_end, o_end, x, names, T, To, torus_first)
+        except ConvergenceError as e:
+            reasons.append(str(e))
+            continue
+        ea, eb = (et, eo) if torus_first else (eo, et)
+        t_a, t_b = (x[0], x[2]) if torus_first else (x[2], x[0])
+        legs.append(_leg_from_patch(system, ea, eb, float(t_a), float(t_b), ta, tb, kind, "torus-manifold",
+                                    {"section": sec.label, "torus_tau": float(x[0]),
+                                     "torus_circle_angle": float(x[1])}))
+    if not legs:
+        raise NoSolutionError(f"no {kind} patch converged: " + "; ".join(reasons[:3]))
+    return sorted(legs, key=lambda lg: lg.dv_mps)
+
+
+def _refine(t_end, o_end, x, names, T, To, torus_first, tol=PATCH_TOL):
+    """Newton (minimum-norm) on (tau, phi, t_orbit) matching the in-section positions of the
+    torus trajectory and the orbit's."""
+    h = np.array([1e-7 * T, 1e-7, 1e-7 * To])
+    sign = 1.0 if torus_first else -1.0          # residual: departing side minus arriving side
+    res = []
+    for it in range(MAX_ITER):
+        et, eo = t_end.end(x[0], x[1]), o_end.end(x[2])
+        if et[3] != "section" or eo[3] != "section":
+            raise ConvergenceError("a refined trajectory no longer reaches the section", it, res, x)
+        f = sign * (_coords(et[2], names) - _coords(eo[2], names))
+        res.append(float(np.linalg.norm(f)))
+        if res[-1] < tol:
+            return x, et, eo
+        cols = []
+        for k in range(3):
+            xk = x.copy()
+            xk[k] += h[k]
+            if k < 2:
+                fk = sign * (_coords(t_end.end(xk[0], xk[1])[2], names) - _coords(eo[2], names))
+            else:
+                fk = sign * (_coords(et[2], names) - _coords(o_end.end(xk[2])[2], names))
+            cols.append((fk - f) / h[k])
+        step = np.linalg.lstsq(np.column_stack(cols), -f, rcond=None)[0]
+        lim = np.array([0.1 * T, 0.3, 0.1 * To])
+        scale = np.max(np.abs(step) / lim)
+        if scale > 1:
+            step /= scale
+        x = x + step
+    raise ConvergenceError(f"torus patch refinement did not converge in {MAX_ITER} iterations "
+                           f"(residual {res[-1]:.3e})", MAX_ITER, res, x)
+
+
+__all__ = ["connect_torus_to_orbit", "connect_orbit_to_torus"]
