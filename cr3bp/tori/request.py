@@ -30,7 +30,6 @@ from ..vocabulary import TORUS_FAMILIES, TORUS_TARGETS
 from . import circle, seeds
 from .family import continue_family
 from .torus import SurfaceError, build, solve_adaptive, torus_around
-from .. import validate
 from ..orbits.request import parse_request, solve_request
 from ..orbits.targets import make_target
 from .lissajous import lissajous

@@ -621,7 +621,6 @@ def orbit_node(name: str, system, orbit: str) -> OrbitNode:
     ----------
     Orbit families: Koon, Lo, Marsden & Ross, 2011, ch. 2 and 4 (from memory).
     """
-    from ..orbits.request import parse_request
     from ..tori.request import is_torus_request  # lazy: only for tori
     if is_torus_request(orbit):
         from ..tori import request as treq  # lazy: only for tori
