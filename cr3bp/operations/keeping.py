@@ -407,17 +407,39 @@ def simulate(ref: Reference, errors: Errors, trials, seed: int, min_burn_mps: fl
 
 
 def _chunk(task):
-    """One pool submission: a chunk of trials in a worker (compiled code on one thread there,
-    the pool provides the parallelism)."""
+    """One task of the pool or of dask: a chunk of trials in a worker (compiled code on one
+    thread there; the workers provide the parallelism)."""
     try:
-        import numba
+        import numba   # lazy: heavy library
         numba.set_num_threads(1)
     except Exception:          # pragma: no cover - a numba without threading control
         pass
     return simulate(task["reference"], task["errors"], task["trials"], task["seed"], task["min_burn_mps"])
 
 
-def _merge(parts, n):
+def chunks(n: int, workers: int) -> list:
+    """The trials ``0..n-1`` split into :data:`CHUNKS_PER_WORKER` contiguous chunks per worker
+    (sizes differ by at most one): a few tasks per worker, so the round trips are few and a
+    slow worker is still helped by the others at the end."""
+    k = max(1, min(n, CHUNKS_PER_WORKER * max(1, int(workers))))
+    bounds = [n * j // k for j in range(k + 1)]
+    return [list(range(a, b)) for a, b in zip(bounds, bounds[1:]) if b > a]
+
+
+def _collect(futures, completed, n, progress=None) -> dict:
+    """The chunks' results as they complete (``completed``: the ``as_completed`` of the pool or
+    of dask), merged in trial order."""
+    parts, done = [], 0
+    for f in completed(futures):
+        part = f.result()
+        parts.append(part)
+        done += part["trials"].size
+        if progress:
+            progress(done, n)
+    return _merge(parts)
+
+
+def _merge(parts):
     out = {}
     for key in parts[0]:
         out[key] = np.concatenate([p[key] for p in parts])
@@ -430,13 +452,13 @@ def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, mi
     """:func:`simulate` over ``trials`` trials, in this process (``workers`` None or 1; the
     compiled propagation runs the trials on parallel threads) or over a process pool of
     ``workers`` processes, with the pool helpers of :mod:`cr3bp.transfers.tasks` (workers die with
-    the parent, Ctrl-C goes to the parent). The result does not depend on ``workers``.
-    Measured (200 trials, a year of the 9:2 NRHO, 2 shared cores): 17 s in this process, 27 s
-    on a pool of 2 (the workers' start-up), so this process is the default.
+    the parent, Ctrl-C goes to the parent). The trials go in :func:`chunks` (a few tasks per
+    worker, each on one thread). The result does not depend on ``workers`` or ``scheduler``
+    (byte for byte: every trial draws from its own generator and is computed row by row).
 
     ``scheduler``: a ``distributed.Client``, the address of a dask.distributed scheduler, or
-    ``"local"`` (a local cluster of ``workers`` processes, default 2, started and stopped
-    here); the trials go there in chunks (:func:`on_dask`) instead."""
+    ``"local"`` / ``"local:N"`` (a local cluster of N worker processes, default ``workers`` or 2,
+    started and stopped here); the trials go there in the same chunks (:func:`on_dask`)."""
     n = int(trials)
     if n < 1:
         raise InputError(f"trials {n} must be at least 1")
@@ -453,32 +475,40 @@ def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, mi
     import multiprocessing
     from concurrent.futures import ProcessPoolExecutor, as_completed
     from ..transfers import tasks
-    size = max(1, math.ceil(n / (CHUNKS_PER_WORKER * workers)))
-    chunks = [list(range(a, min(a + size, n))) for a in range(0, n, size)]
+    parts = chunks(n, workers)
     ctx = multiprocessing.get_context("spawn")     # as transfers.tasks: no fork under compiled threads
-    ex = ProcessPoolExecutor(max_workers=min(workers, len(chunks)), mp_context=ctx,
+    ex = ProcessPoolExecutor(max_workers=min(workers, len(parts)), mp_context=ctx,
                              initializer=tasks.worker_init, initargs=(os.getpid(),))
-    parts = []
-    done = 0
     try:
         with tasks.sigint_ignored():
             futs = [ex.submit(_chunk, {"reference": ref, "errors": errors, "trials": c, "seed": seed,
-                                       "min_burn_mps": min_burn_mps}) for c in chunks]
-        for f in as_completed(futs):
-            part = f.result()
-            parts.append(part)
-            done += part["trials"].size
-            if progress:
-                progress(done, n)
+                                       "min_burn_mps": min_burn_mps}) for c in parts]
+        out = _collect(futs, as_completed, n, progress)
     except BaseException:
         tasks.stop_pool(ex)
         raise
     ex.shutdown(wait=True)
-    return _merge(parts, n)
+    return out
 
 
 #: Seconds to reach a dask scheduler before giving up.
 CONNECT_TIMEOUT_S = 10
+#: Most worker processes of a local cluster (``local:N``).
+MAX_LOCAL_WORKERS = 64
+
+
+def local_workers(scheduler) -> int | None:
+    """N of ``"local:N"`` (None for ``"local"``); InputError for a bad N. Not a local cluster:
+    ValueError."""
+    text = str(scheduler).strip()
+    if text == "local":
+        return None
+    if not text.startswith("local:"):
+        raise ValueError(text)
+    n = text[len("local:"):].strip()
+    if not n.isdigit() or not 1 <= int(n) <= MAX_LOCAL_WORKERS:
+        raise InputError(f"scheduler '{text}': local:N takes a whole number of workers N in 1..{MAX_LOCAL_WORKERS}")
+    return int(n)
 
 
 def dask_client(scheduler, workers: int | None = None):
@@ -490,13 +520,18 @@ def dask_client(scheduler, workers: int | None = None):
     InputError   dask.distributed missing, or the scheduler cannot be reached
     """
     try:
-        from distributed import Client, LocalCluster
+        from distributed import Client, LocalCluster   # lazy: heavy library
     except ImportError:
         raise InputError("--scheduler needs dask.distributed: pip install 'librate[cluster]'") from None
     if isinstance(scheduler, Client):
         return scheduler, None
-    if scheduler == "local":
-        n = 2 if workers is None else int(workers)
+    try:
+        n_local = local_workers(scheduler)
+        local = True
+    except ValueError:
+        local = False
+    if local:
+        n = n_local or (2 if workers is None else int(workers))
         if n < 1:
             raise InputError(f"workers {n} must be at least 1")
         # processes with one thread each, as the pool's workers (each chunk sets numba to one thread)
@@ -513,29 +548,21 @@ def dask_client(scheduler, workers: int | None = None):
 
 def on_dask(ref: Reference, errors: Errors, n: int, seed: int, min_burn_mps: float, scheduler,
             workers: int | None = None, progress=None) -> dict:
-    """:func:`simulate` over ``n`` trials in chunks on a dask.distributed cluster (the reference
-    sent once to every worker); the same result as in this process (per-trial generators)."""
-    from distributed import as_completed
+    """:func:`simulate` over ``n`` trials in :func:`chunks` on a dask.distributed cluster (the
+    reference sent once to every worker); the same result as in this process (per-trial
+    generators)."""
+    from distributed import as_completed   # lazy: heavy library
     client, cluster = dask_client(scheduler, workers)
     try:
         k = max(1, len(client.scheduler_info().get("workers", {})) or 1)
-        size = max(1, math.ceil(n / (CHUNKS_PER_WORKER * k)))
-        chunks = [list(range(a, min(a + size, n))) for a in range(0, n, size)]
         ref_f = client.scatter(ref, broadcast=True)
-        futs = [client.submit(_dask_chunk, ref_f, errors, c, seed, min_burn_mps, pure=False) for c in chunks]
-        parts, done = [], 0
-        for f in as_completed(futs):
-            part = f.result()
-            parts.append(part)
-            done += part["trials"].size
-            if progress:
-                progress(done, n)
+        futs = [client.submit(_dask_chunk, ref_f, errors, c, seed, min_burn_mps, pure=False) for c in chunks(n, k)]
+        return _collect(futs, as_completed, n, progress)
     finally:
         if client is not scheduler:
             client.close()
         if cluster is not None:
             cluster.close()
-    return _merge(parts, n)
 
 
 def _dask_chunk(ref, errors, trials, seed, min_burn_mps):

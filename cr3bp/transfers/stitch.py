@@ -59,7 +59,8 @@ class StitchedRoute:
     states : ndarray (n, 6)      rotating frame, LU and LU/TU
     segment : ndarray (n,)       shooting segment of each sample
     maneuvers : tuple of dict    ``t_days``, ``node``, ``position_lu``, ``position_km``,
-                                 ``dv_vector_mps`` (rotating frame), ``dv_mps``
+                                 ``dv_vector_mps`` (rotating frame), ``dv_mps``,
+                                 ``state_after_lu`` (the state just after the impulse)
     dv_total_mps, tof_days       of the stitched trajectory
     legs_dv_total_mps, legs_tof_days   the route's legs as computed separately
     continuity_lu : float        largest position jump at any segment boundary
@@ -500,6 +501,7 @@ def _result(system, p, z, legs, constraints, optimised, note, iterations):
                     "name": maneuver_name(k, p.K, k in p.junction), "trim": bool(trim),
                     "position_lu": pos.tolist(), "position_km": (pos * system.length_km).tolist(),
                     "dv_vector_mps": [float(system.mps(v)) for v in dv], "dv_mps": float(system.mps(float(np.linalg.norm(dv)))),
+                    "state_after_lu": after.tolist(),
                     "jacobi_before": float(jacobi(system.mu, before)),
                     "jacobi_after": float(jacobi(system.mu, after))})
     dv_total = float(sum(m["dv_mps"] for m in man))
