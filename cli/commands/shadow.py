@@ -14,8 +14,9 @@ EXAMPLE = ('librate shadow --system earth-moon --orbit "halo L2 south resonance=
 MODEL = ("CR3BP periodic orbit placed at the epoch by the ephemeris-anchored rotating frame "
          "(J2000 mean equator, Earth-centred; in Sun-Earth the Earth placed in the Earth-Moon barycentre by DE421); eclipse geometry from the project's ephemeris, "
          "conical shadow model (Montenbruck & Gill 2000, sec. 3.4.2), geometric positions, spherical bodies")
-TRACK_MODEL = ("trajectory file's CR3BP states put on Earth-centred J2000 mean-equator axes by the file's own "
-               "frame (anchoring and epoch); eclipse geometry from the project's ephemeris, conical shadow model "
+TRACK_MODEL = ("the trajectory file's states as written (CR3BP design, or ephemeris model for a refined arc), "
+               "put on Earth-centred J2000 mean-equator axes through the file's own frame (anchoring and epoch); "
+               "eclipse geometry from the project's ephemeris, conical shadow model "
                "(Montenbruck & Gill 2000, sec. 3.4.2), geometric positions, spherical bodies")
 #: Options that belong to an orbit placed at a date (refused with --trajectory).
 ORBIT_ONLY = (("phase", "--phase"), ("avoid_eclipses", "--avoid-eclipses"), ("until_epoch", "--until-epoch"),

@@ -212,30 +212,31 @@ def _crossings(model, frame, tr):
 
 
 def _condition_rows(model, frame, t_c, x_c, hold_phase):
-    """d(condition at the crossing)/d(state at the crossing), (m, 6): the rotating x velocity
-    with the crossing-time term, and (hold_phase) the crossing epoch."""
+    """d(condition at the crossing)/d(state at the crossing), (K, m, 6) for K crossings at once:
+    the rotating x velocity with the crossing-time term, and (hold_phase) the crossing epoch.
+    Central differences of the (affine, fixed-epoch) map to the rotating frame, and of the
+    reference's rotating x velocity along it over :data:`RATE_STEP_TU`; every crossing's states
+    go through the frame and the propagator together (one call each, not one per crossing)."""
     from ..fidelity import model as fm
-    n = 6
+    t_c = np.atleast_1d(np.asarray(t_c, dtype=float))
+    x_c = np.atleast_2d(np.asarray(x_c, dtype=float))
+    k, n = t_c.size, 6
     h = 1e-6
-    grads = np.empty((2, n))           # d y / dx, d q / dx at fixed epoch (affine map)
-    for j in range(n):
-        e = np.zeros(n)
-        e[j] = h
-        rp = _rotating(model, frame, [t_c], x_c + e)[0]
-        rm = _rotating(model, frame, [t_c], x_c - e)[0]
-        grads[0, j] = (rp[1] - rm[1]) / (2 * h)
-        grads[1, j] = (rp[3] - rm[3]) / (2 * h)
-    here = _rotating(model, frame, [t_c], x_c)[0]
-    ydot = here[4]
+    e = np.eye(n) * h
+    states = np.concatenate([x_c[:, None, :] + e[None], x_c[:, None, :] - e[None], x_c[:, None, :]], axis=1)
+    r = _rotating(model, frame, np.repeat(t_c, 2 * n + 1), states.reshape(-1, n)).reshape(k, 2 * n + 1, n)
+    grad_y = (r[:, :n, 1] - r[:, n:2 * n, 1]) / (2 * h)       # d y / dx at fixed epoch, (K, 6)
+    grad_q = (r[:, :n, 3] - r[:, n:2 * n, 3]) / (2 * h)       # d q / dx
+    ydot = r[:, 2 * n, 4]
     dt = RATE_STEP_TU
-    ends, _ = fm.propagate_many(model, np.array([x_c, x_c]), np.array([t_c, t_c]),
-                                np.array([t_c + dt, t_c - dt]), rtol=1e-13, atol=1e-13)
-    rr = _rotating(model, frame, [t_c + dt, t_c - dt], ends)
-    qdot = (rr[0, 3] - rr[1, 3]) / (2 * dt)
-    rows = [grads[1] - (qdot / ydot) * grads[0]]
+    ends, _ = fm.propagate_many(model, np.concatenate([x_c, x_c]), np.concatenate([t_c, t_c]),
+                                np.concatenate([t_c + dt, t_c - dt]), rtol=1e-13, atol=1e-13)
+    rr = _rotating(model, frame, np.concatenate([t_c + dt, t_c - dt]), ends)
+    qdot = (rr[:k, 3] - rr[k:, 3]) / (2 * dt)
+    rows = [grad_q - (qdot / ydot)[:, None] * grad_y]
     if hold_phase:
-        rows.append(-grads[0] / ydot)
-    return np.array(rows)
+        rows.append(-grad_y / ydot[:, None])
+    return np.stack(rows, axis=1)
 
 
 def reference(orbit, epoch, span_tu: float, *, bodies=("sun", "earth", "moon"), srp=None,
@@ -303,8 +304,7 @@ def reference(orbit, epoch, span_tu: float, *, bodies=("sun", "earth", "moon"), 
         progress(f"reference: {t_man.size} maneuver points, sensitivities to their target crossings...")
     x_man = _state_at(model, tr.patches, tr.t_tu, t_man)
     x_c, phis = fm.propagate_many(model, x_man, t_man, t_c, stm=True, rtol=1e-13, atol=1e-13)
-    rows = np.array([_condition_rows(model, frame, t_c[k], x_c[k], hold_phase) @ phis[k]
-                     for k in range(t_man.size)])
+    rows = np.einsum("kmi,kij->kmj", _condition_rows(model, frame, t_c, x_c, hold_phase), phis)
     info = {"iterations": tr.iterations, "continuity_km": tr.continuity_km,
             "continuity_mps": tr.continuity_mps, "patch_points": int(tr.t_tu.size),
             "max_path_offset_km": max(r["max_path_offset_km"] for r in tr.per_rev),
