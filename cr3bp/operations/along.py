@@ -240,12 +240,17 @@ def route_section(stitched, epoch, step_s: float = STEP_S, bodies=eclipses.BODIE
     """The eclipse section of a stitched route at ``epoch`` (its time 0), for a report: every
     pass with the leg it starts in (legs split at the route's junction maneuvers), the totals,
     and the Earth angles and range along it. None when the system has no Earth to place about."""
+    from ..errors import EphemerisSpanError
     from ..time.frames import epoch_to_text
     if stitched is None or epoch is None or stitched.system.name not in SYSTEMS:
         return None
-    track = from_route(stitched, epoch)
-    span = track.end_tdb_s - track.start_tdb_s
-    sh = shadows(track, min(step_s, span / 2.0), bodies)
+    try:
+        track = from_route(stitched, epoch)
+        span = track.end_tdb_s - track.start_tdb_s
+        sh = shadows(track, min(step_s, span / 2.0), bodies)
+    except EphemerisSpanError as e:       # the route runs past the tables: say so in the report
+        return {"model": "not computed", "epoch_utc": str(epoch), "span_days": float(stitched.tof_days),
+                "step_s": float(step_s), "legs": 0, "passes": [], "not_computed": str(e)}
     t0 = track.spec.epoch_tdb_s
     joins = sorted(float(m["t_days"]) for m in stitched.maneuvers if m.get("name") == "junction")
     passes = []

@@ -112,6 +112,8 @@ def _routes_section(routes, figures, views=None, stitched=None, orbits=None) -> 
 
 def _route_eclipses(e) -> str:
     """The eclipse section of a route (:func:`cr3bp.operations.along.route_section`)."""
+    if e.get("not_computed"):
+        return f"<h4>Eclipses along the route</h4><p>Not computed: {R.esc(e['not_computed'])}</p>"
     html = (f"<h4>Eclipses and Earth angles along the route</h4><p>{R.esc(e['model'])}; from "
             f"{R.esc(e['epoch_utc'])} (the scenario's epoch) over {R.fmt(e['span_days'])} d, searched every "
             f"{R.fmt(e['step_s'])} s. A penumbra pass includes its umbra.</p>")
