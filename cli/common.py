@@ -222,14 +222,16 @@ def resolve_system(args):
 
 # ---- messages ------------------------------------------------------------------------
 
-def add_orbit_at_date(group, epoch_help: str, span_help: str) -> None:
+def add_orbit_at_date(group, epoch_help: str, span_help: str, required: bool = True) -> None:
     """``--orbit REQUEST``, ``--epoch ISO`` and ``--span SPAN`` (default 365d): the options of the
-    commands that follow a periodic orbit placed at a date (shadow, keep)."""
-    group.add_argument("--orbit", metavar="SPEC", required=True,
+    commands that follow a periodic orbit placed at a date (shadow, keep). ``required=False``:
+    the command has another source (shadow's ``--trajectory``) and checks the pair itself; the
+    span's default is then None (the caller's, 365d for an orbit)."""
+    group.add_argument("--orbit", metavar="SPEC", required=required,
                        help='periodic-orbit request, e.g. "halo L2 south resonance=9:2"')
-    group.add_argument("--epoch", metavar="ISO", required=True,
+    group.add_argument("--epoch", metavar="ISO", required=required,
                        help=f"{epoch_help}, ISO 8601 (Z = UTC, or a trailing TDB/TT/TAI/UTC)")
-    group.add_argument("--span", metavar="SPAN", default="365d",
+    group.add_argument("--span", metavar="SPAN", default="365d" if required else None,
                        help=f"{span_help}: a time (365d) or Nperiods (default 365d)")
 
 

@@ -114,6 +114,17 @@ def inputs(tmp_path_factory):
     (d / "arc.csv").write_text(rows)
     (d / "arc-nan.csv").write_text(rows.replace("0.2,1.1805031", "0.2,nan"))
     (d / "arc-back.csv").write_text(rows.replace("0.30000000000000004,", "0.05,"))
+    # a route.json as librate route --out writes it (the keys disperse --route reads; the whole
+    # command is run by tests/test_dispersion.py), and files that are not one
+    from cr3bp import system
+    (d / "route.json").write_text(json.dumps({"system": system("earth-moon").to_dict(), "stitched": {
+        "nodes": ["p0", "p1"], "tof_days": 1.0, "maneuvers": [
+            {"t_days": 0.0, "node": "p0", "name": "departure", "dv_mps": 297.1,
+             "state_after_lu": [1.087849416, 0.0, 0.0, 0.0, -0.4, 0.0]},
+            {"t_days": 1.0, "node": "p1", "name": "insertion", "dv_mps": 458.6,
+             "state_after_lu": [1.070077685, -0.022077171, 0.001640139, 0.010708666, -0.423167028, 0.008927491]}]}}))
+    (d / "list.json").write_text("[1, 2]")
+    (d / "unstitched.json").write_text('{"system": {"name": "earth-moon"}, "stitched": null}')
     # catalogues
     _catalogue(d / "cat.sqlite")
     _catalogue(d / "future.sqlite", version="99")
@@ -315,6 +326,24 @@ def value_cases():
     for v in ("1", "201", "x", "2.5"):
         add(f"shadow-epochs-{v}", SH + ["--until-epoch=2031-04-01T00:00:00Z", f"--epochs={v}"])
     add("shadow-system-unsupported", ["shadow", "--system=sun-jupiter", "--orbit=lyapunov L1 jacobi=3.0", EPOCH])
+    # shadow along a trajectory file
+    ST = ["shadow", "--trajectory={in}/good.oem"]
+    add("shadow-trajectory-missing", ["shadow", "--trajectory={in}/none.oem"])
+    add("shadow-trajectory-folder", ["shadow", "--trajectory={in}/folder.toml"])
+    add("shadow-trajectory-binary", ["shadow", "--trajectory={in}/binary.oem"])
+    add("shadow-trajectory-truncated", ["shadow", "--trajectory={in}/truncated.oem"])
+    add("shadow-trajectory-nan", ["shadow", "--trajectory={in}/nan.oem"])
+    add("shadow-trajectory-and-orbit", ST + ["--orbit=lyapunov L1 jacobi=3.17"])
+    add("shadow-trajectory-phase", ST + ["--phase=10deg"])
+    add("shadow-trajectory-avoid", ST + ["--avoid-eclipses"])
+    add("shadow-trajectory-span", ST + ["--span=2d"])
+    add("shadow-trajectory-until-epoch", ST + ["--until-epoch=2031-04-01T00:00:00Z"])
+    add("shadow-trajectory-epoch-given", ST + [EPOCH])
+    add("shadow-trajectory-step-tu", ST + ["--step=0.01TU"])
+    add("shadow-trajectory-other-system", ST + ["--system=sun-earth"])
+    add("shadow-trajectory-rotating-no-epoch", ["shadow", "--trajectory={in}/arc.csv"])
+    add("shadow-neither-orbit-nor-trajectory", ["shadow", EM, EPOCH])
+    add("shadow-orbit-without-epoch", ["shadow", EM, "--orbit=lyapunov L1 jacobi=3.17"])
     # keep
     K = BASE["keep"]
     for v in ("1km", "1km,1cm/s,2", "-1km,1cm/s", "1km,-1cm/s", "1kg,1cm/s", "1km,1cm", "nankm,1cm/s"):
@@ -341,6 +370,9 @@ def value_cases():
     add("keep-scheduler-scheme", K + ["--scheduler=ftp://10.0.0.5:8786"])
     add("keep-scheduler-empty", K + ["--scheduler="])
     add("keep-scheduler-and-workers", K + ["--scheduler=tcp://127.0.0.1:8786", "--workers=2"])
+    for v in ("local:0", "local:x", "local:65", "local:", "local:-1"):
+        add(f"keep-scheduler-{v}", K + [f"--scheduler={v}"])
+    add("keep-scheduler-local-n-and-workers", K + ["--scheduler=local:2", "--workers=2"])
     # disperse
     D = BASE["disperse"]
     for v in ("0d", "-1d", "nand", "5", "5km", "2000d"):
@@ -359,6 +391,22 @@ def value_cases():
     add("disperse-seed-negative", D + ["--seed=-1"])
     add("disperse-no-units", ["disperse", "--mu=0.01", "--orbit=lyapunov L1 jacobi=3.0", "--coast=1TU"])
     add("disperse-format", D + ["--format=csv"])
+    # disperse on the last maneuver of a route (route.json of librate route --out)
+    DR = ["disperse", "--route={in}/route.json", "--trials=2"]
+    add("disperse-route-missing", ["disperse", "--route={in}/none.json", "--trials=2"])
+    add("disperse-route-not-json", ["disperse", "--route={in}/nodes.toml", "--trials=2"])
+    add("disperse-route-not-a-route", ["disperse", "--route={in}/list.json", "--trials=2"])
+    add("disperse-route-not-stitched", ["disperse", "--route={in}/unstitched.json", "--trials=2"])
+    add("disperse-route-folder", ["disperse", "--route={in}/folder.toml", "--trials=2"])
+    add("disperse-route-and-orbit", DR + ["--orbit=halo L2 south period=6.5626d"])
+    add("disperse-route-coast", DR + ["--coast=1d"])
+    add("disperse-route-burn", DR + ["--burn=1m/s"])
+    add("disperse-route-branch", DR + ["--branch=exterior"])
+    add("disperse-route-arrive-phase", DR + ["--arrive-phase=10deg"])
+    add("disperse-route-correction-after-end", DR + ["--corrections=0.5d,1d"])
+    add("disperse-route-other-system", DR + ["--system=sun-earth"])
+    add("disperse-neither-orbit-nor-route", ["disperse", EM, "--trials=2"])
+    add("disperse-orbit-without-coast", ["disperse", EM, "--orbit=halo L2 south period=6.5626d", "--trials=2"])
     # systems, points
     add("systems-format", ["systems", "--format=xml"])
     add("points-mu-nan", ["points", "--mu=nan"])

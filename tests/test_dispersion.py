@@ -163,3 +163,86 @@ def test_after_the_last_maneuver_of_a_leg():
     assert c["monte_carlo_rms_mps"] == pytest.approx(c["linear_rms_mps"], rel=TOL_SIGMA)
     p = s["insertion_position_km"]
     assert p["monte_carlo_rss_1sigma"] == pytest.approx(p["linear_rss_1sigma"], rel=TOL_SIGMA)
+
+
+ROUTE_NODES = """system = "earth-moon"
+[settings]
+tof = "2d"
+patches = 2
+[[node]]
+name = "p0"
+kind = "state"
+state = [1.087849416, 0.0, 0.0, 0.0, -0.4, 0.0]
+[[node]]
+name = "p1"
+kind = "state"
+state = [1.070077685, -0.022077171, 0.001640139, 0.010708666, -0.423167028, 0.008927491]
+[[edge]]
+from = "p0"
+to = "p1"
+"""
+
+
+@pytest.fixture(scope="module")
+def route_json(tmp_path_factory):
+    d = tmp_path_factory.mktemp("route")
+    (d / "nodes.toml").write_text(ROUTE_NODES)
+    rc = main(["route", "--system", "earth-moon", "--nodes", str(d / "nodes.toml"), "--from", "p0", "--to", "p1",
+               "--workers", "1", "--no-catalog", "--out", str(d / "out"), "-q"])
+    assert rc == 0
+    return d / "out" / "route.json"
+
+
+def test_route_end_dispersion_end_to_end(route_json, tmp_path):
+    """Seam (librate route -> librate disperse --route): the nominal is the stitched route's
+    coast from its last maneuver before the end, the state just after that maneuver, and it
+    reaches the route's last sample (trajectory.csv beside route.json); the Monte Carlo agrees
+    with the linear covariance (Geller 2006) for small errors."""
+    from cr3bp import system
+    from cr3bp.integrate import propagate
+    em = system("earth-moon")
+    route = json.loads(route_json.read_text())
+    st = route["stitched"]
+    before = [m for m in st["maneuvers"] if m["t_days"] < st["tof_days"] - 1e-9]
+    nom = dp.after_route_maneuver(route_json)
+    assert nom.burn_mps == before[-1]["dv_mps"]
+    assert nom.tf_tu * em.time_days == pytest.approx(st["tof_days"] - before[-1]["t_days"], rel=1e-12)
+    data = np.loadtxt(route_json.parent / "trajectory.csv", delimiter=",", comments="#", skiprows=5)
+    end = propagate(em, nom.x0, nom.tf_tu, rtol=1e-12, atol=1e-12).states[-1]
+    assert np.allclose(end[:3], data[-1, 3:6], atol=1e-8)       # LU (0.004 km): the stitched route's own seams
+    out = tmp_path / "d.json"
+    rc = main(["disperse", "--route", str(route_json), "--corrections", "0.25d,0.6d", "--nav-error", "100m,1mm/s",
+               "--burn-error", "0%,0.1mm/s", "--trials", "2000", "--seed", "3", "--format", "json",
+               "--out", str(out), "-q"])
+    assert rc == 0
+    got = json.loads(out.read_text())
+    assert got["route_file"] == str(route_json)
+    s = got["summary"]
+    assert s["lost_trials"] == 0
+    for c in s["corrections"]:
+        assert c["monte_carlo_rms_mps"] == pytest.approx(c["linear_rms_mps"], rel=TOL_SIGMA)
+    p = s["insertion_position_km"]
+    assert p["monte_carlo_rss_1sigma"] == pytest.approx(p["linear_rss_1sigma"], rel=TOL_SIGMA)
+    # the CLI gives the library's numbers (seam CLI -> library)
+    ref = dp.dispersion(nom, [0.25 / em.time_days, 0.6 / em.time_days], Errors(0.1, 0.001, 0.0, 0.0001),
+                        2000, 3).summary()
+    assert s["total_correction_mps"]["monte_carlo_mean"] == pytest.approx(
+        ref["total_correction_mps"]["monte_carlo_mean"], rel=1e-9)
+    assert "CAUTION" in got["caution"]
+
+
+def test_route_end_dispersion_refusals(route_json, tmp_path, capsys):
+    bad = tmp_path / "bad.json"
+    bad.write_text('{"system": {"name": "earth-moon"}, "stitched": null}')
+    with pytest.raises(InputError, match="not stitched"):
+        dp.after_route_maneuver(bad)
+    old = json.loads(route_json.read_text())
+    for m in old["stitched"]["maneuvers"]:
+        m.pop("state_after_lu")
+    with pytest.raises(InputError, match="older"):
+        dp.after_route_maneuver(old)
+    for extra, words in ((["--coast", "1d"], "--coast goes with --orbit"),
+                         (["--orbit", "halo L2 south resonance=9:2"], "not both"),
+                         (["--corrections", "2d"], "before the insertion")):
+        assert main(["disperse", "--route", str(route_json), "--trials", "2"] + extra) == 2
+        assert words in capsys.readouterr().err

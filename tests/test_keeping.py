@@ -131,12 +131,39 @@ def test_trials_are_reproducible_and_independent_of_grouping():
     assert not np.array_equal(a["dv_mps"], c["dv_mps"])
 
 
-def test_pool_and_serial_give_identical_results():
+def test_pool_dask_and_serial_give_byte_identical_results():
+    """One process (threads), the process pool, and a local dask cluster started by
+    ``local:2``: the same bytes for every array (chunks of several trials per task)."""
     r = ref()
     serial = kp.run_trials(r, NOMINAL, 5, 7, workers=1)
-    pooled = kp.run_trials(r, NOMINAL, 5, 7, workers=2)
-    for key in serial:
-        assert np.array_equal(serial[key], pooled[key]), key
+    runs = {"pool": kp.run_trials(r, NOMINAL, 5, 7, workers=2)}
+    pytest.importorskip("distributed")
+    runs["dask local:2"] = kp.run_trials(r, NOMINAL, 5, 7, scheduler="local:2")
+    for name, got in runs.items():
+        assert set(got) == set(serial), name
+        for key in serial:
+            assert got[key].dtype == serial[key].dtype and got[key].tobytes() == serial[key].tobytes(), (name, key)
+
+
+@pytest.mark.parametrize("n, workers", [(200, 2), (5, 2), (1, 4), (7, 3), (1000, 16)])
+def test_chunks_cover_every_trial_once_in_few_tasks(n, workers):
+    parts = kp.chunks(n, workers)
+    assert sum(parts, []) == list(range(n))
+    assert len(parts) == min(n, kp.CHUNKS_PER_WORKER * workers)
+    sizes = [len(c) for c in parts]
+    assert max(sizes) - min(sizes) <= 1
+
+
+@pytest.mark.parametrize("text, n", [("local", None), ("local:3", 3), (" local:1 ", 1)])
+def test_local_scheduler_words(text, n):
+    assert kp.local_workers(text) == n
+
+
+@pytest.mark.parametrize("text", ["local:0", "local:x", "local:65", "local:"])
+def test_local_scheduler_bad_counts(text):
+    from cr3bp.errors import InputError
+    with pytest.raises(InputError, match="local:N"):
+        kp.local_workers(text)
 
 
 def test_bad_arguments_raise_input_errors():

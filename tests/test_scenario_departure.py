@@ -124,3 +124,25 @@ def _jacobi(mu, y):
     r1 = np.linalg.norm(y[:3] - [-mu, 0.0, 0.0])
     r2 = np.linalg.norm(y[:3] - [1.0 - mu, 0.0, 0.0])
     return y[0] ** 2 + y[1] ** 2 + 2 * (1 - mu) / r1 + 2 * mu / r2 - float(np.dot(y[3:], y[3:]))
+
+
+def test_route_eclipse_section_equals_shadow_of_the_exported_file(runs, capsys):
+    """Seam (scenario route -> report eclipse section; scenario export -> librate shadow
+    --trajectory): the route's eclipse section (route-NAME.json and the report) holds the
+    passes and Earth angles that ``librate shadow`` finds along the exported file of the
+    same route at the scenario's epoch."""
+    run, _ = runs
+    route = json.loads((run / f"route-{NAME}.json").read_text())
+    sec = route["eclipses"]
+    assert sec["epoch_utc"].startswith("2032-06-01T00:00:00")
+    assert "Eclipses and Earth angles along the route" in (run / "report.html").read_text(encoding="utf-8")
+    assert main(["shadow", f"--trajectory={run / f'{NAME}.csv'}", "--format=json", "--quiet"]) == 0
+    got = json.loads(capsys.readouterr().out)
+    assert [(p["body"], p["kind"]) for p in got["passes"]] == [(p["body"], p["kind"]) for p in sec["passes"]]
+    # the angles' extremes: the exported file is sampled every hour, and near the parking
+    # orbit an hour's Hermite interpolation moves the extreme by up to ~0.1 deg (measured 0.06)
+    for key in ("sun_earth_spacecraft_deg", "moon_earth_spacecraft_deg"):
+        for end in ("min", "max"):
+            assert got["angles"][key][end] == pytest.approx(sec["angles"][key][end], abs=0.2)
+    assert got["angles"]["range_to_earth_km"]["max"] == pytest.approx(sec["angles"]["range_to_earth_km"]["max"],
+                                                                       rel=1e-5)

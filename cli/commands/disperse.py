@@ -1,4 +1,5 @@
-"""librate disperse: insertion dispersion of a manifold insertion (Monte Carlo and linear covariance)."""
+"""librate disperse: insertion dispersion of a manifold insertion or of the last maneuver of a
+stitched route (Monte Carlo and linear covariance)."""
 
 from cr3bp.vocabulary import TUBE_BRANCHES
 
@@ -7,28 +8,36 @@ from .. import common
 NAME = "disperse"
 ORDER = 93
 KERNELS = (("cr3bp.integrate.dop853", "integrate"),)
-HELP = ("insertion dispersion: errors of the last maneuver before a manifold insertion, correction "
-        "maneuvers, Monte Carlo beside the linear covariance estimate (CR3BP)")
+HELP = ("insertion dispersion: errors of the last maneuver before a manifold insertion or before a route's "
+        "end, correction maneuvers, Monte Carlo beside the linear covariance estimate (CR3BP)")
 EXAMPLE = ('librate disperse --system earth-moon --orbit "halo L2 south resonance=9:2" --coast 10d '
            "--burn 20m/s --corrections 1d,4d --nav-error 1km,1cm/s --burn-error 1%,1mm/s --trials 2000")
 
 MAX_COAST_DAYS = 1000.0
 
 
+#: Options of the manifold insertion (refused with --route: the route sets them).
+MANIFOLD_ONLY = (("coast", "--coast"), ("branch", "--branch"), ("burn", "--burn"), ("arrive_phase", "--arrive-phase"))
+
+
 def add_arguments(p):
-    common.add_system_options(p)
-    g = p.add_argument_group("the insertion")
-    g.add_argument("--orbit", metavar="SPEC", required=True,
+    common.add_system_options(p, required=False)
+    g = p.add_argument_group("the insertion (--orbit with --coast, or --route)")
+    g.add_argument("--orbit", metavar="SPEC",
                    help='periodic orbit inserted into, e.g. "halo L2 south resonance=9:2"')
-    g.add_argument("--coast", metavar="TIME", required=True,
+    g.add_argument("--route", metavar="FILE",
+                   help="instead of --orbit: the route.json of 'librate route --out DIR'; the last maneuver before "
+                        "the route's end is dispersed over the coast to the end (an insertion burn at the very end "
+                        "is the arrival); the system, the burn and the coast come from the file")
+    g.add_argument("--coast", metavar="TIME",
                    help="coast along the orbit's stable manifold from the last maneuver to the insertion, "
                         "e.g. 10d (the manifold is traced back this long from the insertion point)")
-    g.add_argument("--arrive-phase", metavar="ANGLE", default="0deg",
+    g.add_argument("--arrive-phase", metavar="ANGLE",
                    help="where the manifold reaches the orbit: 120deg or 0.25rev of the period from its "
                         "initial state (default 0deg)")
-    g.add_argument("--branch", choices=TUBE_BRANCHES, default="interior",
+    g.add_argument("--branch", choices=TUBE_BRANCHES,
                    help="manifold branch (default interior)")
-    g.add_argument("--burn", metavar="VEL", default="0m/s",
+    g.add_argument("--burn", metavar="VEL",
                    help="size of the last maneuver, which scales its proportional execution error "
                         "(default 0m/s; units mm/s, cm/s, m/s, km/s)")
     m = p.add_argument_group("errors (1-sigma per axis, rotating frame) and corrections")
@@ -49,20 +58,43 @@ def add_arguments(p):
 def _inputs(args):
     """Every check of the user's values, before anything is computed or written."""
     from cr3bp.errors import InputError
+    from cr3bp.operations import dispersion as dp
     from cr3bp.operations.dispersion import MAX_CORRECTIONS
     from cr3bp.operations.placement import parse_phase
     from cr3bp.validate import quantity
-    from .keep import _velocity_mps, parse_errors
-    sysm = common.resolve_system(args)
-    sysm.require_dimensional("an insertion dispersion in km and m/s")
+    from .keep import parse_errors
+    from ._units import velocity_mps
+    nominal = None
+    if args.route is not None:
+        if args.orbit is not None:
+            raise InputError("give --orbit or --route, not both")
+        for attr, opt in MANIFOLD_ONLY:
+            if getattr(args, attr) is not None:
+                raise InputError(f"{opt} goes with --orbit; with --route the route sets the last maneuver and "
+                                 "the coast")
+        nominal = dp.after_route_maneuver(dp.read_route(args.route))
+        if (args.system or args.mu) and common.resolve_system(args).name != nominal.system.name:
+            raise InputError(f"--system {args.system or args.mu}: the route '{args.route}' is in "
+                             f"{nominal.system.name}")
+        sysm = nominal.system
+        burn, coast, phase = nominal.burn_mps, nominal.tf_tu, 0.0
+        coast_text = f"{coast * sysm.time_days:.6g}d (the route's coast)"
+    else:
+        if args.orbit is None:
+            raise InputError("give --orbit SPEC (with --coast) or --route FILE")
+        if args.coast is None:
+            raise InputError("--orbit needs --coast TIME (the coast along the stable manifold)")
+        sysm = common.resolve_system(args)
+        sysm.require_dimensional("an insertion dispersion in km and m/s")
+        burn = velocity_mps("--burn", args.burn or "0m/s")
+        if burn > 1e5:
+            raise InputError(f"--burn '{args.burn}' is over 100 km/s")
+        coast = quantity("--coast", args.coast, "time", sysm, sign="positive")
+        if coast * sysm.time_days > MAX_COAST_DAYS:
+            raise InputError(f"--coast '{args.coast}' is over {MAX_COAST_DAYS:g} d")
+        phase = parse_phase(args.arrive_phase or "0deg")
+        coast_text = f"--coast '{args.coast}'"
     errors = parse_errors(args.nav_error, args.burn_error)
-    burn = _velocity_mps("--burn", args.burn)
-    if burn > 1e5:
-        raise InputError(f"--burn '{args.burn}' is over 100 km/s")
-    coast = quantity("--coast", args.coast, "time", sysm, sign="positive")
-    if coast * sysm.time_days > MAX_COAST_DAYS:
-        raise InputError(f"--coast '{args.coast}' is over {MAX_COAST_DAYS:g} d")
-    phase = parse_phase(args.arrive_phase)
     corr = []
     if args.corrections is not None:
         parts = [w.strip() for w in str(args.corrections).split(",")]
@@ -76,29 +108,35 @@ def _inputs(args):
                 raise InputError(f"--corrections '{args.corrections}': {w} is not after the time before it")
         if corr[-1] >= coast:
             raise InputError(f"--corrections '{args.corrections}': every correction must come before the "
-                             f"insertion at --coast '{args.coast}'")
+                             f"insertion at {coast_text}")
     trials = common.whole_number("--trials", args.trials, 1, 100000)
     seed = common.whole_number("--seed", args.seed, 0, 999999999999)
     if args.out:
         common.folder_exists("--out", args.out)
-    return sysm, errors, burn, coast, phase, corr, trials, seed
+    return sysm, errors, burn, coast, phase, corr, trials, seed, nominal
 
 
 def run(args):
     from cr3bp.operations import dispersion as dp
     from cr3bp.orbits.request import solve_request
 
-    sysm, errors, burn, coast, phase, corr, trials, seed = _inputs(args)
-    common.progress(args, f"solving orbit request '{args.orbit}'...")
-    orbit = solve_request(sysm, args.orbit)
-    nom = dp.manifold_insertion(orbit, phase, coast, burn, branch=args.branch)
+    sysm, errors, burn, coast, phase, corr, trials, seed, nom = _inputs(args)
+    if nom is None:
+        common.progress(args, f"solving orbit request '{args.orbit}'...")
+        orbit = solve_request(sysm, args.orbit)
+        nom = dp.manifold_insertion(orbit, phase, coast, burn, branch=args.branch or "interior")
+        first = ["orbit", f"{args.orbit} (CR3BP period {orbit.period_days:.4f} d)"]
+        payload_extra = {"orbit_request": args.orbit}
+    else:
+        first = ["route", str(args.route)]
+        payload_extra = {"route_file": str(args.route)}
     common.progress(args, f"{trials} trials and the linear covariance...")
     d = dp.dispersion(nom, corr, errors, trials, seed)
     s = d.summary()
-    payload = dict(d.to_dict(), orbit_request=args.orbit)
-    rows = [["orbit", f"{args.orbit} (CR3BP period {orbit.period_days:.4f} d)"],
+    payload = dict(d.to_dict(), **payload_extra)
+    rows = [first,
             ["nominal", nom.label],
-            ["last maneuver", f"{burn:g} m/s"],
+            ["last maneuver (CR3BP)", f"{burn:g} m/s"],
             ["errors (1-sigma per axis, rotating frame)",
              f"navigation {errors.nav_position_km:g} km, {errors.nav_velocity_mps * 100:g} cm/s; execution "
              f"{errors.burn_proportional * 100:g} %, {errors.burn_fixed_mps * 1000:g} mm/s"],

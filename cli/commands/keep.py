@@ -1,6 +1,7 @@
 """librate keep: station-keeping budget of an orbit carried into the ephemeris model (Monte Carlo)."""
 
 from .. import common
+from ._units import velocity_mps
 
 NAME = "keep"
 ORDER = 92
@@ -8,9 +9,6 @@ KERNELS = (("cr3bp.integrate.dop853", "integrate"), ("cr3bp.fidelity.segments", 
 HELP = "station-keeping Δv budget of an orbit in the ephemeris model: Monte Carlo with navigation and burn errors"
 EXAMPLE = ('librate keep --system earth-moon --orbit "halo L2 south resonance=9:2" --epoch 2031-03-01T00:00:00Z '
            "--span 365d --trials 200 --nav-error 1km,1cm/s --burn-error 1%,1mm/s --min-burn 1cm/s --plot hist.png")
-
-#: Velocity units of this command beyond the project's m/s and km/s: factor to m/s.
-_SMALL_VELOCITY = {"mm/s": 1e-3, "cm/s": 1e-2}
 
 
 def add_arguments(p):
@@ -40,34 +38,15 @@ def add_arguments(p):
     common.add_workers_option(m, "worker processes (default 1: in this process, whose compiled "
                                  "propagation already uses every core); results do not depend on it")
     m.add_argument("--scheduler", metavar="ADDRESS", help="run the trials on a dask.distributed scheduler "
-                                                          "(e.g. tcp://10.0.0.5:8786), or 'local' for a local "
-                                                          "cluster of --workers processes (default 2); needs "
-                                                          "librate[cluster]; results do not depend on it")
+                                                          "(e.g. tcp://10.0.0.5:8786), or 'local:N' for a local "
+                                                          "cluster of N worker processes started here ('local': "
+                                                          "--workers processes, default 2); needs librate[cluster]; "
+                                                          "results do not depend on it")
     o = p.add_argument_group("output")
     common.add_plot_option(o, "draw the histogram of the Δv per year and per maneuver")
     p.add_argument("--format", choices=("table", "json"), default="table", help="output format (default table)")
     p.add_argument("--out", metavar="FILE", help="write the output to FILE instead of the screen")
     common.add_verbosity(p)
-
-
-def _velocity_mps(option, text):
-    """A velocity with its unit (m/s, km/s, and here also cm/s, mm/s) -> m/s, not negative."""
-    from cr3bp.errors import InputError, shown
-    from cr3bp.validate import finite_number, quantity
-    t = str(text).strip()
-    for unit, k in _SMALL_VELOCITY.items():
-        if t.endswith(unit):
-            v = finite_number(option, t[:-len(unit)]) * k
-            break
-    else:
-        try:
-            v = quantity(option, t, "velocity") * 1000.0
-        except InputError:
-            raise InputError(f"{option} '{shown(text)}' must be a velocity with its unit: mm/s, cm/s, m/s or "
-                             "km/s, e.g. 1cm/s") from None
-    if not v >= 0:
-        raise InputError(f"{option} '{shown(text)}' must not be negative")
-    return v
 
 
 def _pair(option, text, example):
@@ -87,14 +66,14 @@ def parse_errors(nav_text, burn_text):
     pos_km = quantity("--nav-error position", pos, "length", sign="nonnegative")
     if pos_km > 1e5:
         raise InputError(f"--nav-error position '{shown(pos)}' is over 100000 km")
-    vel_mps = _velocity_mps("--nav-error velocity", vel)
+    vel_mps = velocity_mps("--nav-error velocity", vel)
     prop, fixed = _pair("--burn-error", burn_text, "1%,1mm/s")
     if not prop.endswith("%"):
         raise InputError(f"--burn-error '{shown(burn_text)}': the proportional error needs its unit %, e.g. 1%,1mm/s")
     p = finite_number("--burn-error proportional", prop[:-1])
     if not 0.0 <= p <= 100.0:
         raise InputError(f"--burn-error proportional '{shown(prop)}' must be in 0%..100%")
-    fixed_mps = _velocity_mps("--burn-error fixed", fixed)
+    fixed_mps = velocity_mps("--burn-error fixed", fixed)
     for name, v in (("--nav-error velocity", vel_mps), ("--burn-error fixed", fixed_mps)):
         if v > 1000.0:
             raise InputError(f"{name} {v:g} m/s is over 1 km/s")
@@ -111,18 +90,25 @@ def _inputs(args):
     sysm = common.resolve_system(args)
     sysm.require_dimensional("an ephemeris model")
     errors = parse_errors(args.nav_error, args.burn_error)
-    min_burn = _velocity_mps("--min-burn", args.min_burn)
+    min_burn = velocity_mps("--min-burn", args.min_burn)
     trials = common.whole_number("--trials", args.trials, 1, 100000)
     target = common.whole_number("--target-revs", args.target_revs, 1, 10)
     seed = common.whole_number("--seed", args.seed, 0, 999999999999)
     workers = common.workers(args)
     if args.scheduler is not None:
+        from cr3bp.operations.keeping import local_workers
         sch = str(args.scheduler).strip()
-        if sch != "local" and not re.fullmatch(r"(tcp|tls|inproc|ws|wss)://\S+", sch):
-            raise InputError(f"--scheduler '{args.scheduler}' must be 'local' or an address such as "
+        try:
+            n_local, local = local_workers(sch), True
+        except ValueError:
+            n_local, local = None, False
+        if not local and not re.fullmatch(r"(tcp|tls|inproc|ws|wss)://\S+", sch):
+            raise InputError(f"--scheduler '{args.scheduler}' must be 'local', 'local:N' or an address such as "
                              "tcp://10.0.0.5:8786")
-        if sch != "local" and workers is not None:
+        if not local and workers is not None:
             raise InputError("--workers goes with --scheduler local (a remote cluster has its own workers)")
+        if n_local is not None and workers is not None:
+            raise InputError(f"--scheduler '{sch}' sets the workers; leave out --workers")
     bodies = fm.parse_bodies(args.bodies)
     srp = parse_srp(args.srp)
     if export.span_periods(args.span) is None:   # a span in periods is read after the orbit's solve

@@ -215,6 +215,76 @@ def after_last_maneuver(leg) -> Nominal:
                    f"{(t_end - last.t) * s.time_days:.4g} d to arrival")
 
 
+#: A route's maneuver this close to its end (days) is at the end: the insertion itself, not
+#: the last maneuver before it.
+END_SLACK_DAYS = 1e-9
+
+
+def after_route_maneuver(route) -> Nominal:
+    """The coast of a stitched route from its last maneuver before the end to the route's end
+    (the insertion): ``route`` a :class:`cr3bp.transfers.stitch.StitchedRoute`, or the
+    ``route.json`` payload of ``librate route --out`` (a dict with ``system`` and ``stitched``),
+    or the path of that file. A maneuver at the route's very end (its insertion burn) is the
+    arrival, not the dispersed maneuver: the one before it is.
+
+    Raises
+    ------
+    InputError        a file that is not a stitched route, or one written before the routes
+                      carried the state after each maneuver
+    NoSolutionError   no maneuver with a coast after it
+    """
+    if isinstance(route, (str, bytes)) or hasattr(route, "__fspath__"):
+        route = read_route(route)
+    if isinstance(route, dict):
+        from ..transfers.graph import system_from_spec
+        if route.get("stitched") is None:
+            raise InputError("the route was not stitched; rerun librate route without --no-stitch")
+        try:
+            s = system_from_spec(route["system"])
+            st = route["stitched"]
+            mans, tof_days, nodes = list(st["maneuvers"]), float(st["tof_days"]), list(st["nodes"])
+        except (KeyError, TypeError, ValueError) as e:
+            raise InputError(f"the route has no stitched trajectory ({type(e).__name__}: {e})") from None
+    else:
+        s, mans, tof_days, nodes = route.system, list(route.maneuvers), float(route.tof_days), list(route.nodes)
+    s.require_dimensional("an insertion dispersion in km and m/s")
+    before = [m for m in mans if float(m["t_days"]) < tof_days - END_SLACK_DAYS]
+    if not before:
+        raise NoSolutionError("the route has no maneuver before its end")
+    last = before[-1]
+    if "state_after_lu" not in last:
+        raise InputError("the route file does not hold the state after each maneuver (written by an older "
+                         "librate); rerun librate route --out")
+    x0 = np.asarray(last["state_after_lu"], dtype=float)
+    if x0.shape != (6,) or not np.all(np.isfinite(x0)):
+        raise InputError("the route's state after its last maneuver is not six finite numbers")
+    coast_days = tof_days - float(last["t_days"])
+    name = last.get("name") or "maneuver"
+    ends = [m for m in mans if float(m["t_days"]) >= tof_days - END_SLACK_DAYS]
+    tail = (f"; the insertion burn there ({float(ends[-1]['dv_mps']):.4g} m/s) is not dispersed" if ends else "")
+    return Nominal(s, x0, coast_days / s.time_days, float(last["dv_mps"]),
+                   f"{name} at {last.get('node', '?')} (day {float(last['t_days']):.4g}) of the route "
+                   f"{' -> '.join(map(str, nodes))}, coast {coast_days:.4g} d to its end{tail}")
+
+
+def read_route(path) -> dict:
+    """The ``route.json`` of ``librate route --out`` (InputError naming the file otherwise)."""
+    import json
+    from pathlib import Path
+    p = Path(path)
+    if not p.is_file():
+        raise InputError(f"route file '{path}' does not exist")
+    try:
+        d = json.loads(p.read_text(encoding="utf-8"))
+    except (OSError, UnicodeDecodeError, ValueError, RecursionError) as e:
+        raise InputError(f"route file '{path}' is not readable JSON ({type(e).__name__})") from None
+    if not isinstance(d, dict) or "stitched" not in d or "system" not in d:
+        raise InputError(f"route file '{path}' is not a route.json of librate route --out (no 'stitched' route)")
+    if d["stitched"] is None:
+        raise InputError(f"route file '{path}': the route was not stitched")
+    return d
+
+
 # ---- linear covariance ------------------------------------------------------------------------
 
 def mean_norm(cov: np.ndarray) -> float:

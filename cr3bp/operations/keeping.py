@@ -270,30 +270,31 @@ def _crossings(model, frame, tr):
 
 
 def _condition_rows(model, frame, t_c, x_c, hold_phase):
-    """d(condition at the crossing)/d(state at the crossing), (m, 6): the rotating x velocity
-    with the crossing-time term, and (hold_phase) the crossing epoch."""
+    """d(condition at the crossing)/d(state at the crossing), (K, m, 6) for K crossings at once:
+    the rotating x velocity with the crossing-time term, and (hold_phase) the crossing epoch.
+    Central differences of the (affine, fixed-epoch) map to the rotating frame, and of the
+    reference's rotating x velocity along it over :data:`RATE_STEP_TU`; every crossing's states
+    go through the frame and the propagator together (one call each, not one per crossing)."""
     from ..fidelity import model as fm  # lazy: heavy library (numba, via cr3bp.fidelity.model)
-    n = 6
+    t_c = np.atleast_1d(np.asarray(t_c, dtype=float))
+    x_c = np.atleast_2d(np.asarray(x_c, dtype=float))
+    k, n = t_c.size, 6
     h = 1e-6
-    grads = np.empty((2, n))           # d y / dx, d q / dx at fixed epoch (affine map)
-    for j in range(n):
-        e = np.zeros(n)
-        e[j] = h
-        rp = _rotating(model, frame, [t_c], x_c + e)[0]
-        rm = _rotating(model, frame, [t_c], x_c - e)[0]
-        grads[0, j] = (rp[1] - rm[1]) / (2 * h)
-        grads[1, j] = (rp[3] - rm[3]) / (2 * h)
-    here = _rotating(model, frame, [t_c], x_c)[0]
-    ydot = here[4]
+    e = np.eye(n) * h
+    states = np.concatenate([x_c[:, None, :] + e[None], x_c[:, None, :] - e[None], x_c[:, None, :]], axis=1)
+    r = _rotating(model, frame, np.repeat(t_c, 2 * n + 1), states.reshape(-1, n)).reshape(k, 2 * n + 1, n)
+    grad_y = (r[:, :n, 1] - r[:, n:2 * n, 1]) / (2 * h)       # d y / dx at fixed epoch, (K, 6)
+    grad_q = (r[:, :n, 3] - r[:, n:2 * n, 3]) / (2 * h)       # d q / dx
+    ydot = r[:, 2 * n, 4]
     dt = RATE_STEP_TU
-    ends, _ = fm.propagate_many(model, np.array([x_c, x_c]), np.array([t_c, t_c]),
-                                np.array([t_c + dt, t_c - dt]), rtol=1e-13, atol=1e-13)
-    rr = _rotating(model, frame, [t_c + dt, t_c - dt], ends)
-    qdot = (rr[0, 3] - rr[1, 3]) / (2 * dt)
-    rows = [grads[1] - (qdot / ydot) * grads[0]]
+    ends, _ = fm.propagate_many(model, np.concatenate([x_c, x_c]), np.concatenate([t_c, t_c]),
+                                np.concatenate([t_c + dt, t_c - dt]), rtol=1e-13, atol=1e-13)
+    rr = _rotating(model, frame, np.concatenate([t_c + dt, t_c - dt]), ends)
+    qdot = (rr[:k, 3] - rr[k:, 3]) / (2 * dt)
+    rows = [grad_q - (qdot / ydot)[:, None] * grad_y]
     if hold_phase:
-        rows.append(-grads[0] / ydot)
-    return np.array(rows)
+        rows.append(-grad_y / ydot[:, None])
+    return np.stack(rows, axis=1)
 
 
 def reference(orbit, epoch, span_tu: float, *, bodies=("sun", "earth", "moon"), srp=None,
@@ -390,8 +391,7 @@ def reference(orbit, epoch, span_tu: float, *, bodies=("sun", "earth", "moon"), 
         progress(f"reference: {t_man.size} maneuver points, sensitivities to their target crossings...")
     x_man = _state_at(model, tr.patches, tr.t_tu, t_man)
     x_c, phis = fm.propagate_many(model, x_man, t_man, t_c, stm=True, rtol=1e-13, atol=1e-13)
-    rows = np.array([_condition_rows(model, frame, t_c[k], x_c[k], hold_phase) @ phis[k]
-                     for k in range(t_man.size)])
+    rows = np.einsum("kmi,kij->kmj", _condition_rows(model, frame, t_c, x_c, hold_phase), phis)
     info = {"iterations": tr.iterations, "continuity_km": tr.continuity_km,
             "continuity_mps": tr.continuity_mps, "patch_points": int(tr.t_tu.size),
             "max_path_offset_km": max(r["max_path_offset_km"] for r in tr.per_rev),
@@ -553,8 +553,8 @@ def simulate(ref: Reference, errors: Errors, trials, seed: int, min_burn_mps: fl
 
 
 def _chunk(task):
-    """One pool submission: a chunk of trials in a worker (compiled code on one thread there,
-    the pool provides the parallelism)."""
+    """One task of the pool or of dask: a chunk of trials in a worker (compiled code on one
+    thread there; the workers provide the parallelism)."""
     try:
         import numba  # lazy: heavy library (numba), its failure handled here
         numba.set_num_threads(1)
@@ -563,7 +563,29 @@ def _chunk(task):
     return simulate(task["reference"], task["errors"], task["trials"], task["seed"], task["min_burn_mps"])
 
 
-def _merge(parts, n):
+def chunks(n: int, workers: int) -> list:
+    """The trials ``0..n-1`` split into :data:`CHUNKS_PER_WORKER` contiguous chunks per worker
+    (sizes differ by at most one): a few tasks per worker, so the round trips are few and a
+    slow worker is still helped by the others at the end."""
+    k = max(1, min(n, CHUNKS_PER_WORKER * max(1, int(workers))))
+    bounds = [n * j // k for j in range(k + 1)]
+    return [list(range(a, b)) for a, b in zip(bounds, bounds[1:]) if b > a]
+
+
+def _collect(futures, completed, n, progress=None) -> dict:
+    """The chunks' results as they complete (``completed``: the ``as_completed`` of the pool or
+    of dask), merged in trial order."""
+    parts, done = [], 0
+    for f in completed(futures):
+        part = f.result()
+        parts.append(part)
+        done += part["trials"].size
+        if progress:
+            progress(done, n)
+    return _merge(parts)
+
+
+def _merge(parts):
     out = {}
     for key in parts[0]:
         out[key] = np.concatenate([p[key] for p in parts])
@@ -578,9 +600,9 @@ def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, mi
     In this process (``workers`` None or 1; the compiled propagation runs the trials on parallel
     threads) or over a process pool of ``workers`` processes, with the pool helpers of
     :mod:`cr3bp.transfers.tasks` (workers die with the parent, Ctrl-C goes to the parent). The
-    result does not depend on ``workers``. Measured (200 trials, a year of the 9:2 NRHO, 2 shared
-    cores): 17 s in this process, 27 s on a pool of 2 (the workers' start-up), so this process is
-    the default.
+    trials go in :func:`chunks` (a few tasks per worker, each on one thread). The result does
+    not depend on ``workers`` or ``scheduler`` (byte for byte: every trial draws from its own
+    generator and is computed row by row).
 
     Parameters
     ----------
@@ -597,9 +619,9 @@ def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, mi
     workers : int, optional
         Processes (default: this one).
     scheduler : distributed.Client or str, optional
-        A client, the address of a dask.distributed scheduler, or ``"local"`` (a local cluster of
-        ``workers`` processes, default 2, started and stopped here); the trials go there in
-        chunks (:func:`on_dask`) instead.
+        A client, the address of a dask.distributed scheduler, or ``"local"`` / ``"local:N"`` (a
+        local cluster of N worker processes, default ``workers`` or 2, started and stopped
+        here); the trials go there in the same chunks (:func:`on_dask`).
     progress : callable(done, total), optional
         Called as chunks finish.
 
@@ -631,32 +653,40 @@ def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, mi
         if progress:
             progress(n, n)
         return res
-    size = max(1, math.ceil(n / (CHUNKS_PER_WORKER * workers)))
-    chunks = [list(range(a, min(a + size, n))) for a in range(0, n, size)]
+    parts = chunks(n, workers)
     ctx = multiprocessing.get_context("spawn")     # as transfers.tasks: no fork under compiled threads
-    ex = ProcessPoolExecutor(max_workers=min(workers, len(chunks)), mp_context=ctx,
+    ex = ProcessPoolExecutor(max_workers=min(workers, len(parts)), mp_context=ctx,
                              initializer=tasks.worker_init, initargs=(os.getpid(),))
-    parts = []
-    done = 0
     try:
         with tasks.sigint_ignored():
             futs = [ex.submit(_chunk, {"reference": ref, "errors": errors, "trials": c, "seed": seed,
-                                       "min_burn_mps": min_burn_mps}) for c in chunks]
-        for f in as_completed(futs):
-            part = f.result()
-            parts.append(part)
-            done += part["trials"].size
-            if progress:
-                progress(done, n)
+                                       "min_burn_mps": min_burn_mps}) for c in parts]
+        out = _collect(futs, as_completed, n, progress)
     except BaseException:
         tasks.stop_pool(ex)
         raise
     ex.shutdown(wait=True)
-    return _merge(parts, n)
+    return out
 
 
 #: Seconds to reach a dask scheduler before giving up.
 CONNECT_TIMEOUT_S = 10
+#: Most worker processes of a local cluster (``local:N``).
+MAX_LOCAL_WORKERS = 64
+
+
+def local_workers(scheduler) -> int | None:
+    """N of ``"local:N"`` (None for ``"local"``); InputError for a bad N. Not a local cluster:
+    ValueError."""
+    text = str(scheduler).strip()
+    if text == "local":
+        return None
+    if not text.startswith("local:"):
+        raise ValueError(text)
+    n = text[len("local:"):].strip()
+    if not n.isdigit() or not 1 <= int(n) <= MAX_LOCAL_WORKERS:
+        raise InputError(f"scheduler '{text}': local:N takes a whole number of workers N in 1..{MAX_LOCAL_WORKERS}")
+    return int(n)
 
 
 def dask_client(scheduler, workers: int | None = None):
@@ -696,8 +726,13 @@ def dask_client(scheduler, workers: int | None = None):
         raise InputError("--scheduler needs dask.distributed: pip install 'librate[cluster]'") from None
     if isinstance(scheduler, Client):
         return scheduler, None
-    if scheduler == "local":
-        n = 2 if workers is None else validate.whole_number("workers", workers, 1)
+    try:
+        n_local = local_workers(scheduler)
+        local = True
+    except ValueError:
+        local = False
+    if local:
+        n = n_local or (2 if workers is None else validate.whole_number("workers", workers, 1))
         # processes with one thread each, as the pool's workers (each chunk sets numba to one thread)
         # its workers' shutdown notices stay out of the terminal (errors still show)
         cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True, dashboard_address=None,
@@ -711,7 +746,7 @@ def dask_client(scheduler, workers: int | None = None):
 
 def on_dask(ref: Reference, errors: Errors, n: int, seed: int, min_burn_mps: float, scheduler,
             workers: int | None = None, progress=None) -> dict:
-    """:func:`simulate` over ``n`` trials in chunks on a dask.distributed cluster.
+    """:func:`simulate` over ``n`` trials in :func:`chunks` on a dask.distributed cluster.
 
     The reference is sent once to every worker; the result equals the one computed in this
     process (per-trial generators).
@@ -750,23 +785,14 @@ def on_dask(ref: Reference, errors: Errors, n: int, seed: int, min_burn_mps: flo
     client, cluster = dask_client(scheduler, workers)
     try:
         k = max(1, len(client.scheduler_info().get("workers", {})) or 1)
-        size = max(1, math.ceil(n / (CHUNKS_PER_WORKER * k)))
-        chunks = [list(range(a, min(a + size, n))) for a in range(0, n, size)]
         ref_f = client.scatter(ref, broadcast=True)
-        futs = [client.submit(_dask_chunk, ref_f, errors, c, seed, min_burn_mps, pure=False) for c in chunks]
-        parts, done = [], 0
-        for f in as_completed(futs):
-            part = f.result()
-            parts.append(part)
-            done += part["trials"].size
-            if progress:
-                progress(done, n)
+        futs = [client.submit(_dask_chunk, ref_f, errors, c, seed, min_burn_mps, pure=False) for c in chunks(n, k)]
+        return _collect(futs, as_completed, n, progress)
     finally:
         if client is not scheduler:
             client.close()
         if cluster is not None:
             cluster.close()
-    return _merge(parts, n)
 
 
 def _dask_chunk(ref, errors, trials, seed, min_burn_mps):

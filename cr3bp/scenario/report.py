@@ -120,6 +120,8 @@ def _routes_section(routes, figures, views=None, stitched=None, orbits=None) -> 
                 html += f"<p><strong>{R.esc(w)}</strong></p>"
         if r.get("note"):
             html += f"<p>{R.esc(r['note'])}</p>"
+        if r.get("eclipses"):
+            html += _route_eclipses(r["eclipses"])
         for key in (f"corridor-{name}", f"pareto-{name}"):
             if key in figures:
                 html += R.figure(figures[key]["path"], figures[key]["caption"])
@@ -131,6 +133,29 @@ def _routes_section(routes, figures, views=None, stitched=None, orbits=None) -> 
                                                                 f"(Δv {st.dv_total_mps:.6g} m/s, {st.tof_days:.4f} d, CR3BP)"),
                                f"Transfer '{name}' in 3-D: the stitched trajectory (orange), its maneuvers "
                                "(diamonds) and the orbits it joins (grey); rotating frame of the CR3BP.")
+    return html
+
+
+def _route_eclipses(e) -> str:
+    """The eclipse section of a route (:func:`cr3bp.operations.along.route_section`)."""
+    if e.get("not_computed"):
+        return f"<h4>Eclipses along the route</h4><p>Not computed: {R.esc(e['not_computed'])}</p>"
+    html = (f"<h4>Eclipses and Earth angles along the route</h4><p>{R.esc(e['model'])}; from "
+            f"{R.esc(e['epoch_utc'])} (the scenario's epoch) over {R.fmt(e['span_days'])} d, searched every "
+            f"{R.fmt(e['step_s'])} s. A penumbra pass includes its umbra.</p>")
+    if e["passes"]:
+        html += R.table(["leg", "body", "kind", "start (UTC)", "end (UTC)", "duration [min]", "depth"],
+                        [(str(p["leg"]), p["body"], p["kind"], p["start_utc"], p["end_utc"], R.fmt(p["duration_min"]),
+                          R.fmt(p["depth"])) for p in e["passes"]], left=4)
+    else:
+        html += "<p>No shadow pass of the Earth or the Moon along the route.</p>"
+    a = e["angles"]
+    html += R.kv_table([
+        ("Sun-Earth-spacecraft angle [deg]", f"{a['sun_earth_spacecraft_deg']['min']:.1f} .. "
+                                             f"{a['sun_earth_spacecraft_deg']['max']:.1f}"),
+        ("Moon-Earth-spacecraft angle [deg]", f"{a['moon_earth_spacecraft_deg']['min']:.1f} .. "
+                                              f"{a['moon_earth_spacecraft_deg']['max']:.1f}"),
+        ("range to the Earth [km]", f"{a['range_to_earth_km']['min']:,.0f} .. {a['range_to_earth_km']['max']:,.0f}")])
     return html
 
 

@@ -1014,6 +1014,13 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
             plan, orbits, out, catalog=catalog, workers=workers, scheduler=scheduler,
             progress=progress, reduced=reduced)
 
+    if routes and plan.epoch is not None:      # eclipses along each stitched route at the epoch
+        from ..operations.along import route_section
+        for name in routes:
+            sec = route_section(stitched.get(name), plan.epoch)
+            if sec is not None:
+                routes[name]["eclipses"] = sec
+
     # ---- exports ----------------------------------------------------------------------
     exports = []
     for i, ex in enumerate(plan.data.get("exports", [])):

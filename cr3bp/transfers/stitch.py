@@ -70,7 +70,8 @@ class StitchedRoute:
         Shooting segment of each sample.
     maneuvers : tuple of dict
         ``t_days``, ``node``, ``name``, ``trim``, ``position_lu``, ``position_km``,
-        ``dv_vector_mps`` (rotating frame), ``dv_mps``, ``jacobi_before``, ``jacobi_after``.
+        ``dv_vector_mps`` (rotating frame), ``dv_mps``, ``jacobi_before``, ``jacobi_after``,
+        ``state_after_lu`` (the state just after the impulse).
     dv_total_mps, tof_days : float
         Of the stitched trajectory.
     legs_dv_total_mps, legs_tof_days : float
@@ -720,6 +721,7 @@ def _result(system, p, z, legs, constraints, optimised, note, iterations):
                     "name": maneuver_name(k, p.K, k in p.junction), "trim": bool(trim),
                     "position_lu": pos.tolist(), "position_km": (pos * system.length_km).tolist(),
                     "dv_vector_mps": [float(system.mps(v)) for v in dv], "dv_mps": float(system.mps(float(np.linalg.norm(dv)))),
+                    "state_after_lu": after.tolist(),
                     "jacobi_before": float(jacobi(system.mu, before)),
                     "jacobi_after": float(jacobi(system.mu, after))})
     dv_total = float(sum(m["dv_mps"] for m in man))
