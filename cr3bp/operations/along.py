@@ -22,6 +22,13 @@ import numpy as np
 from ..errors import InputError
 from . import eclipses, visibility
 from .phasing import STEP_S, History
+from ..time import frames
+from ..io import export
+from ..io.route import to_export
+from ..io.export import MAX_SAMPLES
+from .phasing import _bodies
+from ..errors import EphemerisSpanError
+from ..time.frames import epoch_to_text
 
 #: Systems whose trajectories can be put about the Earth (the Earth is a primary, or inside the secondary).
 SYSTEMS = ("earth-moon", "sun-earth")
@@ -88,7 +95,6 @@ class Track:
 
     def geocentric(self, tdb_s) -> np.ndarray:
         """Positions (N, 3) km about the Earth, J2000 mean-equator axes."""
-        from ..time import frames
         t = np.atleast_1d(np.asarray(tdb_s, dtype=float))
         t_tu = (t - self.spec.epoch_tdb_s) / self.system.time_s
         return frames.to_frame(self.spec, t_tu, self.rotating(t))[1][:, :3]
@@ -96,7 +102,6 @@ class Track:
 
 def _earth_spec(spec):
     """The frame ``spec`` (its anchoring and epoch) with Earth-centred J2000 mean-equator axes."""
-    from ..time import frames
     name = spec.system.name
     if name not in SYSTEMS:
         raise InputError(f"the trajectory is in {name}; eclipses and stations are computed for "
@@ -116,8 +121,6 @@ def from_file(path, epoch=None, system=None) -> Track:
     ------
     InputError   unreadable file, a system other than Earth-Moon or Sun-Earth, no frame
     """
-    from ..io import export
-    from ..time import frames
     data = export.read(path)
     spec = data.frame
     if spec is None:
@@ -141,8 +144,6 @@ def from_file(path, epoch=None, system=None) -> Track:
 def from_route(stitched, epoch, label: str = "") -> Track:
     """A stitched route (:class:`cr3bp.transfers.stitch.StitchedRoute`) with its time 0 at
     ``epoch``, anchored to the ephemeris (the frame of ``librate route --epoch``)."""
-    from ..io.route import to_export
-    from ..time import frames
     spec = frames.frame(stitched.system, epoch, anchor="ephemeris", axes="j2000-equator", center="primary")
     traj = to_export(stitched, spec)
     segs = tuple((np.asarray(s.t_tu, float), np.asarray(s.states, float)) for s in traj.segments)
@@ -159,7 +160,6 @@ def samples(track: Track, step_s: float = STEP_S, start_tdb_s=None, end_tdb_s=No
     if not (math.isfinite(step_s) and step_s > 0):
         raise InputError(f"step {step_s!r} s must be positive")
     n = int(math.floor((t1 - t0) / step_s * (1 + 1e-12))) + 1
-    from ..io.export import MAX_SAMPLES
     if n > MAX_SAMPLES:
         raise InputError(f"{n} samples exceed the limit of {MAX_SAMPLES}; use a larger step")
     t = t0 + np.arange(n) * step_s
@@ -170,7 +170,6 @@ def samples(track: Track, step_s: float = STEP_S, start_tdb_s=None, end_tdb_s=No
 
 def geometry(track: Track):
     """The callable :func:`.eclipses.find_passes` needs: positions about the Earth at any epochs."""
-    from .phasing import _bodies
 
     def at(t):
         t = np.asarray(t, dtype=float)
@@ -220,7 +219,6 @@ def shadows(track: Track, step_s: float = STEP_S, bodies=eclipses.BODIES, statio
     Moon-Earth-spacecraft angles and the station windows along ``track``, sampled every
     ``step_s`` (edges of the passes bisected on the geometry; a pass shorter than the step may
     be missed)."""
-    from .phasing import _bodies
     t = samples(track, step_s)
     if t.size < 2:
         raise InputError("the trajectory is shorter than two samples; use a smaller step")
@@ -240,8 +238,6 @@ def route_section(stitched, epoch, step_s: float = STEP_S, bodies=eclipses.BODIE
     """The eclipse section of a stitched route at ``epoch`` (its time 0), for a report: every
     pass with the leg it starts in (legs split at the route's junction maneuvers), the totals,
     and the Earth angles and range along it. None when the system has no Earth to place about."""
-    from ..errors import EphemerisSpanError
-    from ..time.frames import epoch_to_text
     if stitched is None or epoch is None or stitched.system.name not in SYSTEMS:
         return None
     try:

@@ -51,6 +51,8 @@ from .keeping import Errors
 from ..cautions import caution
 from ..integrate import propagate, propagate_batch
 from ..tubes.manifolds import manifold_starts
+import json
+from pathlib import Path
 
 #: Integration tolerance of the nominal and the trials (relative and absolute).
 RTOL = 1e-12
@@ -236,7 +238,7 @@ def after_route_maneuver(route) -> Nominal:
     if isinstance(route, (str, bytes)) or hasattr(route, "__fspath__"):
         route = read_route(route)
     if isinstance(route, dict):
-        from ..transfers.graph import system_from_spec
+        from ..transfers.graph import system_from_spec  # lazy: heavy library (networkx, via cr3bp.transfers.graph)
         if route.get("stitched") is None:
             raise InputError("the route was not stitched; rerun librate route without --no-stitch")
         try:
@@ -269,8 +271,6 @@ def after_route_maneuver(route) -> Nominal:
 
 def read_route(path) -> dict:
     """The ``route.json`` of ``librate route --out`` (InputError naming the file otherwise)."""
-    import json
-    from pathlib import Path
     p = Path(path)
     if not p.is_file():
         raise InputError(f"route file '{path}' does not exist")

@@ -124,33 +124,6 @@ def tube_figure(tube, max_trajectories=40, n=200):
     return framed(fig)
 
 
-def torus_figure(torus, name=None, n_circle=48, n_time=160, fig=None, colour="#1b9e77"):
-    """A quasi-periodic torus (:class:`cr3bp.tori.Torus`): its surface, swept by the
-    trajectories of ``n_circle`` points of its invariance circle over one stroboscopic period
-    (``n_time`` steps; the surface closes on itself around the circle), and the invariance
-    circle as a curve. ``fig``: add to an existing figure."""
-    from ..integrate import propagate_batch          # lazy: numba kernels, only when a torus is drawn
-    from ..tori.circle import evaluate, resample     # lazy: kept with the line above
-    go = require_plotly()
-    system = torus.system
-    label = name or " ".join(w for w in (torus.family, torus.point, torus.branch) if w) or "torus"
-    fig = fig or new_figure(system, f"{system.name}: {label} torus, C = {torus.jacobi:.6f}, stroboscopic "
-                                    f"period {torus.stroboscopic_time:.6f} TU (CR3BP)")
-    f, unit = _scale(system)
-    n = n_circle + (1 - n_circle % 2)                       # odd, as the circle's nodes are
-    rows = [resample(torus.circle, n)]
-    for _ in range(n_time):               # one batch propagation of the whole circle per step
-        rows.append(propagate_batch(system, rows[-1], torus.stroboscopic_time / n_time).states)
-    grid = np.array(rows)[:, :, :3] * f
-    grid = np.concatenate([grid, grid[:, :1]], axis=1)      # closed around the circle
-    fig.add_trace(go.Surface(x=grid[:, :, 0], y=grid[:, :, 1], z=grid[:, :, 2], showscale=False, opacity=0.55,
-                             colorscale=[[0, colour], [1, colour]], name=f"{label} torus surface",
-                             showlegend=True, hoverinfo="name"))
-    ring = evaluate(torus.circle, np.linspace(0.0, 2 * np.pi, 200))
-    add_curve(fig, system, ring, f"{label}: invariance circle", colour="#202020", width=5)
-    return framed(fig)
-
-
 def route_figure(stitched, orbits=(), title=None):
     """A stitched route (:class:`cr3bp.transfers.stitch.StitchedRoute`): its continuous
     trajectory, one colour per shooting segment group, its maneuvers as markers, and the

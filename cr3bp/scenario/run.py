@@ -46,6 +46,7 @@ from ..time.scales import parse_iso
 from .checks import run_checks, sample, eclipse_figures, plan_problems
 from .report import write_report, places_note
 from .transfers import design_transfers, write_route_tables, transfer_trajectory
+from ..operations.along import route_section
 
 TARGET_KEYS = ORBIT_TARGETS
 
@@ -1015,7 +1016,6 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
             progress=progress, reduced=reduced)
 
     if routes and plan.epoch is not None:      # eclipses along each stitched route at the epoch
-        from ..operations.along import route_section
         for name in routes:
             sec = route_section(stitched.get(name), plan.epoch)
             if sec is not None:

@@ -199,11 +199,11 @@ def section(name, torus, checks, figures, views=None) -> str:
             html += R.figure(figures[key]["path"], figures[key]["caption"])
     if views is not None:
         try:
-            from ..plotting.interactive import torus_figure   # lazy: plotly is optional
+            from ..tori.figures import interactive_figure   # lazy: heavy library (matplotlib, plotly)
         except ImportError:
-            torus_figure = None
-        if torus_figure is not None:
-            html += views.html(torus_figure(torus, name=name),
+            interactive_figure = None
+        if interactive_figure is not None:
+            html += views.html(interactive_figure(torus, name=name),
                                f"Torus '{name}' in 3-D (drag to rotate, scroll to zoom): trajectories of "
                                "its invariance circle's points over one stroboscopic period; rotating "
                                "frame of the CR3BP, primaries to scale.")

@@ -119,9 +119,9 @@ class Torus:
 
     def to_plotly(self, **options):
         """A rotatable 3-D plotly figure of the torus surface and its invariance circle
-        (:func:`cr3bp.plotting.interactive.torus_figure`; rotating frame, CR3BP); needs plotly."""
-        from ..plotting.interactive import torus_figure   # lazy: plotly is optional
-        return torus_figure(self, **options)
+        (:func:`cr3bp.tori.figures.interactive_figure`; rotating frame, CR3BP); needs plotly."""
+        from .figures import interactive_figure   # lazy: heavy library (matplotlib, plotly)
+        return interactive_figure(self, **options)
 
     def to_dict(self) -> dict:
         km = self.system.km if self.system.dimensional else (lambda v: None)
