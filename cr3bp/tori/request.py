@@ -28,6 +28,7 @@ from ..errors import ConvergenceError, InputError, NoSolutionError, shown
 from . import circle, seeds
 from .family import continue_family
 from .torus import SurfaceError, build, solve_adaptive, torus_around
+from .threads import serial_call
 
 FAMILIES = ("lissajous", "quasi-halo")
 ALIASES = {"quasihalo": "quasi-halo", "qh": "quasi-halo", "liss": "lissajous"}
@@ -160,17 +161,34 @@ def _number(key, text):
     return v
 
 
+@serial_call
 def solve(system, request, progress=None, catalog=None):
     """The torus a request names (text or :class:`TorusSpec`). Everything the request would
-    refuse is found before any work. Raises InputError, NoSolutionError."""
-    from ..orbits.request import parse_request, solve_request
-    from ..orbits.targets import make_target
+    refuse is found before any work. Raises InputError, NoSolutionError.
+
+    With a ``catalog`` the torus is read from it when the same request was solved before
+    (:mod:`cr3bp.tori.store`), else solved and stored."""
     spec = parse(request) if isinstance(request, str) else request
     want = values(system, spec)
     say = progress or (lambda m: None)
     if spec.family == "lissajous" and "ay" in want:
         from .lissajous import lissajous
-        return lissajous(system, spec.point, want["ay"], want["az"], progress=say)
+        return lissajous(system, spec.point, want["ay"], want["az"], progress=say,
+                         catalog=catalog)
+    from .store import cached_torus
+    key = {"kind": "request", "family": spec.family, "around": spec.around,
+           "values": {k: float(v) for k, v in want.items()}}
+    return cached_torus(catalog, system, spec.point, key,
+                        lambda: _solve(system, spec, dict(want), say, catalog))
+
+
+def _solve(system, spec, want, say, catalog):
+    from ..orbits.request import parse_request, solve_request
+    from ..orbits.targets import make_target
+    if spec.family == "lissajous" and "ay" in want:
+        from .lissajous import lissajous
+        return lissajous(system, spec.point, want["ay"], want["az"], progress=say,
+                         catalog=catalog)
     if spec.family == "quasi-halo":
         ospec = parse_request(spec.around)
         if ospec.family != "halo":
