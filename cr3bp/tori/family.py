@@ -19,8 +19,9 @@ import numpy as np
 
 from ..errors import ConvergenceError, InputError
 from . import circle, solver
+from .store import FamilyStore
+from .threads import serial
 from .torus import SurfaceError, Torus, build, solve_adaptive
-from .threads import serial_call
 
 HOLDS = ("jacobi", "period", "rotation")
 #: A member smaller than this (LU) is the periodic orbit the family started from.
@@ -134,7 +135,6 @@ def hold_tangents(system, t: Torus, holds: dict, reference) -> np.ndarray:
     return np.linalg.lstsq(jac, rhs, rcond=None)[0]
 
 
-@serial_call
 def continue_family(start: Torus, hold: str = "jacobi", members: int = 10, step: float = 0.02,
                     min_step: float = 1e-4, max_step: float = 0.2, direction: int = 1,
                     progress=None, until=None, catalog=None) -> TorusFamily:
@@ -172,9 +172,8 @@ def continue_family(start: Torus, hold: str = "jacobi", members: int = 10, step:
     value = {"jacobi": start.jacobi, "period": start.stroboscopic_time, "rotation": start.rotation}[hold]
     out = [start]
     t = start
-    store = None
+    store = tan = ds = None
     if catalog is not None:
-        from .store import FamilyStore   # lazy: import cycle (store imports torus)
         store = FamilyStore(catalog, start, {"hold": hold, "step": step, "min_step": min_step,
                                              "max_step": max_step, "direction": direction})
         kept, states, kept_stop = store.load()
@@ -190,6 +189,13 @@ def continue_family(start: Torus, hold: str = "jacobi", members: int = 10, step:
         if kept:
             t = kept[-1]
             tan, ds = states[-1]
+    with serial():       # computing: one thread (cr3bp.tori.threads); read-backs skip numba
+        return _continue(system, start, out, t, tan, ds, hold, value, members, step, min_step,
+                         max_step, direction, progress, until, store)
+
+
+def _continue(system, start, out, t, tan, ds, hold, value, members, step, min_step, max_step,
+              direction, progress, until, store):
     if len(out) == 1:
         tan = direction * tangent(system, t, hold)
         ds = step

@@ -47,8 +47,8 @@ from ..errors import ConvergenceError, InputError, NoSolutionError
 from . import seeds, solver
 from .family import continue_family, hold_tangents
 from .stability import stability
+from .store import cached_torus
 from .torus import SurfaceError, build, solve_adaptive, torus_around
-from .threads import serial_call
 
 #: Relative tolerance on each measured amplitude.
 AMPLITUDE_RTOL = 1e-5
@@ -82,7 +82,6 @@ def _check(name, v):
     return positive_number(f"{name} (LU)", v)
 
 
-@serial_call
 def lissajous(system, point: str, ay_lu: float, az_lu: float, progress=None,
               rtol: float = AMPLITUDE_RTOL, catalog=None):
     """The Lissajous torus at ``point`` (L1 or L2) with measured amplitudes ``ay_lu, az_lu``.
@@ -109,7 +108,6 @@ def lissajous(system, point: str, ay_lu: float, az_lu: float, progress=None,
     if point not in POINTS:
         raise InputError(f"point '{point}': Lissajous tori by amplitudes are built at L1 or L2")
     ay_lu, az_lu = _check("ay", ay_lu), _check("az", az_lu)
-    from .store import cached_torus
     request = {"kind": "lissajous by amplitudes", "ay_lu": ay_lu, "az_lu": az_lu, "rtol": rtol}
     return cached_torus(catalog, system, point, request,
                         lambda: _lissajous(system, point, ay_lu, az_lu, progress, rtol, catalog))

@@ -27,8 +27,8 @@ import numpy as np
 from ..errors import ConvergenceError, InputError, NoSolutionError, shown
 from . import circle, seeds
 from .family import continue_family
+from .store import cached_torus
 from .torus import SurfaceError, build, solve_adaptive, torus_around
-from .threads import serial_call
 
 FAMILIES = ("lissajous", "quasi-halo")
 ALIASES = {"quasihalo": "quasi-halo", "qh": "quasi-halo", "liss": "lissajous"}
@@ -161,7 +161,6 @@ def _number(key, text):
     return v
 
 
-@serial_call
 def solve(system, request, progress=None, catalog=None):
     """The torus a request names (text or :class:`TorusSpec`). Everything the request would
     refuse is found before any work. Raises InputError, NoSolutionError.
@@ -175,7 +174,6 @@ def solve(system, request, progress=None, catalog=None):
         from .lissajous import lissajous
         return lissajous(system, spec.point, want["ay"], want["az"], progress=say,
                          catalog=catalog)
-    from .store import cached_torus
     key = {"kind": "request", "family": spec.family, "around": spec.around,
            "values": {k: float(v) for k, v in want.items()}}
     return cached_torus(catalog, system, spec.point, key,

@@ -83,7 +83,9 @@ def cached_torus(catalog, system, point: str, request: dict, compute):
     """The catalogued torus for ``request``, else ``compute()`` stored and returned."""
     t = load_torus(catalog, system, point, request)
     if t is None:
-        t = compute()
+        from .threads import serial
+        with serial():      # computing: one thread (cr3bp.tori.threads); read-backs skip numba
+            t = compute()
         save_torus(catalog, system, point, request, t)
     return t
 
