@@ -26,6 +26,11 @@ from .torus import SurfaceError, Torus, build, solve_adaptive
 HOLDS = ("jacobi", "period", "rotation")
 #: A member smaller than this (LU) is the periodic orbit the family started from.
 SHRUNK_LU = 1e-6
+#: Step control on Newton's effort (Allgower & Georg 2003, §6.1): after a member that took at
+#: most ``EASY_ITERATIONS`` iterations the step grows by ``GROWTH`` (up to ``max_step``); a
+#: failed step is halved.
+EASY_ITERATIONS = 4
+GROWTH = 1.5
 
 
 #: Why a family stops when it has passed through the periodic orbit at its far end.
@@ -238,8 +243,8 @@ def _continue(system, start, out, t, tan, ds, hold, value, members, step, min_st
         tan = tangent(system, new, hold, previous=(tan, n))
         out.append(new)
         t = new
-        if info["iterations"] <= 4:
-            ds = min(ds * 1.5, max_step)
+        if info["iterations"] <= EASY_ITERATIONS:
+            ds = min(ds * GROWTH, max_step)
         if store is not None:
             store.add(len(out) - 1, new, tan, ds)
         if progress:
