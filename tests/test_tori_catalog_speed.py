@@ -137,3 +137,15 @@ def test_cli_family_with_catalog_resumes_and_reads_back(capsys, tmp_path, monkey
         raise AssertionError("solved again instead of read from the catalogue")
     monkeypatch.setattr(solver, "solve", refuse)
     assert run("--members", "3", "--catalog", cat)["members"] == whole["members"]
+
+
+def test_api_torus_with_catalog_reads_back(monkeypatch):
+    import cr3bp
+    em = system("earth-moon")
+    o = solve_request(em, "lyapunov L1 ax=2000km")
+    cat = Catalog(":memory:")
+    a = cr3bp.torus(o, "300km", members=1, catalog=cat)
+    calls = _count_solves(monkeypatch)
+    b = cr3bp.torus(o, "300km", members=1, catalog=cat)
+    assert calls["n"] == 0
+    assert all(_same(x, y) for x, y in zip(a.members, b.members)) and len(b.members) == 2
