@@ -905,7 +905,8 @@ def run(scenario, out, *, catalog=None, workers=None, progress=None):
 
 # ---- tori and operations at a date -----------------------------------------------------
 
-def torus(orbit=None, amplitude=None, *, hold="jacobi", lissajous=None, members=None, progress=None):
+def torus(orbit=None, amplitude=None, *, hold="jacobi", lissajous=None, members=None, progress=None,
+          catalog=None):
     """A quasi-periodic invariant torus about a periodic orbit, or a Lissajous torus (``librate torus``).
 
     Parameters
@@ -922,6 +923,9 @@ def torus(orbit=None, amplitude=None, *, hold="jacobi", lissajous=None, members=
     members : int, optional
         Continue a family of this many tori (1..500) from the first.
     progress : callable, optional
+    catalog : cr3bp.catalog.Catalog, optional
+        Read the torus and the family members from it when computed before, else keep them
+        there as they converge (an interrupted family resumes: :mod:`cr3bp.tori.store`).
 
     Returns
     -------
@@ -967,7 +971,7 @@ def torus(orbit=None, amplitude=None, *, hold="jacobi", lissajous=None, members=
         az_lu = length(_text(az), sysm, default_unit="km")
         if not (ay_lu > 0 and az_lu > 0):
             raise InputError(f"Lissajous amplitudes ay {ay!r}, az {az!r} must be positive lengths")
-        t = _lissajous(sysm, point, ay_lu, az_lu, progress=progress)
+        t = _lissajous(sysm, point, ay_lu, az_lu, progress=progress, catalog=catalog)
     else:
         from .tori import torus_around  # lazy: start-up: keeps cr3bp.api free of numpy
         sysm = _system_of(orbit)
@@ -979,11 +983,16 @@ def torus(orbit=None, amplitude=None, *, hold="jacobi", lissajous=None, members=
         if amp > 0.2:
             raise InputError(f"amplitude {amplitude!r} is larger than 0.2 of the distance between the primaries; "
                              "tori that large are not attempted")
-        t = torus_around(orbit, amp, hold=hold, progress=progress)
+        from .tori.store import cached_torus
+        key = {"kind": "around orbit", "state": [float(v) for v in orbit.state],
+               "period": float(orbit.period), "family": orbit.family, "amplitude_lu": amp,
+               "hold": hold}
+        t = cached_torus(catalog, sysm, orbit.point, key,
+                         lambda: torus_around(orbit, amp, hold=hold, progress=progress))
     if members is None:
         return t
     from .tori import continue_family  # lazy: start-up: keeps cr3bp.api free of numpy
-    return continue_family(t, hold=hold, members=members, progress=progress)
+    return continue_family(t, hold=hold, members=members, progress=progress, catalog=catalog)
 
 
 def shadow(orbit, epoch, *, span="365d", step="5min", phase=0.0, bodies=("earth", "moon")):

@@ -32,8 +32,8 @@ from cr3bp.tori.lissajous import lissajous, measured_amplitudes
 from test_against_richardson_1980_lissajous import linear_frequencies
 
 AY_KM, AZ_KM = 300000.0, 150000.0     # observatory size (several hundred thousand km)
-pytestmark = pytest.mark.slow   # 2-5 min; with the example below about 8 min of CPU
-# (18 min wall on a loaded 2-core machine): continuation along the family in amplitude
+pytestmark = pytest.mark.slow   # ~5 s of CPU (30-90 s wall on the loaded 2-core machine); the
+# issue's example below about 26 s of CPU (3-4 min wall there): continuation in amplitude
 
 
 @functools.lru_cache(maxsize=None)
@@ -115,12 +115,12 @@ def big_json():
     return json.loads(done.stdout)
 
 
-#: The issue's example takes about 8 min of CPU (18 min of wall time on a loaded 2-core host),
-#: too long for every `make test`: it runs when LIBRATE_LONG_CHECKS=1 is set. Both checks below
-#: passed on the command's JSON on 2026-12-03 (Ay 799999.98 km, Az 500000.02 km, periods 180.38 d
-#: and 183.73 d, invariance error 8.7e-10).
+#: The issue's example takes about 26 s of CPU (3-4 min of wall time on the loaded 2-core host;
+#: 8 min of CPU before the tori speed work), too long for every `make test`: it runs when
+#: LIBRATE_LONG_CHECKS=1 is set. Both checks below passed on the command's JSON on 2026-12-03
+#: (Ay 799999.99 km, Az 500000.01 km, periods 180.38 d and 183.73 d, invariance error 8.7e-10).
 LONG = pytest.mark.skipif(os.environ.get("LIBRATE_LONG_CHECKS") != "1",
-                          reason="the 800000 x 500000 km torus takes ~8 min of CPU; set LIBRATE_LONG_CHECKS=1")
+                          reason="the 800000 x 500000 km torus takes ~26 s of CPU; set LIBRATE_LONG_CHECKS=1")
 
 
 @LONG

@@ -49,7 +49,9 @@ def add_arguments(p):
                    help="kept at the orbit's value while the torus grows from it: its Jacobi "
                    "constant (default), its period as the stroboscopic time, or the rotation of "
                    "its centre eigenpair")
-    oo.add_catalog_option(p)
+    oo.add_catalog_option(p, note=". The torus and each family member are kept there as they "
+                          "converge: the same request again is read back, and --members N "
+                          "on an interrupted family goes on from its last stored member")
     g = p.add_argument_group("export a trajectory on the torus (CCSDS OEM, CSV or JSON; as "
                              "librate export)")
     g.add_argument("--export", metavar="FILE", help="write the trajectory on the torus from "
@@ -190,7 +192,7 @@ def run(args):
         from cr3bp.tori.lissajous import lissajous
         common.progress(args, f"librate torus: the Lissajous torus at {point} with Ay {args.ay}, "
                         f"Az {args.az}")
-        torus = lissajous(system, point, ay, az,
+        torus = lissajous(system, point, ay, az, catalog=cat,
                           progress=lambda m: common.progress(args, m, verbose_only=True))
         what = f"Lissajous torus at {point} (Ay {args.ay}, Az {args.az})"
     else:
@@ -204,10 +206,14 @@ def run(args):
             common.progress(args, f"torus: step {k}, amplitude {size}", verbose_only=True)
 
         from cr3bp.tori import torus_around
-        torus = torus_around(orbit, amp, hold=args.hold, progress=step)
+        from cr3bp.tori.store import cached_torus
+        torus = cached_torus(cat, system, orbit.point,
+                             {"kind": "around", "around": args.around, "amplitude_lu": amp,
+                              "hold": args.hold},
+                             lambda: torus_around(orbit, amp, hold=args.hold, progress=step))
         what = f"{torus.family} torus about the {args.around} orbit"
     if members is not None:
-        return _run_family(args, system, torus, members, what)
+        return _run_family(args, system, torus, members, what, cat)
     from cr3bp.tori import surface
     d = _with_amplitudes(system, torus.to_dict(), torus)
     if plan is not None:
@@ -302,7 +308,7 @@ def _with_amplitudes(system, d, torus):
     return d
 
 
-def _run_family(args, system, start, members, what):
+def _run_family(args, system, start, members, what, cat=None):
     from cr3bp.tori import continue_family
 
     def member(i, t):
@@ -311,7 +317,7 @@ def _run_family(args, system, start, members, what):
                         f"Jacobi constant {t.jacobi:.10f}, rotation {t.rotation_deg:.4f} deg")
     common.progress(args, f"librate torus: continuing the family from the {what} "
                     f"({members} members, holding the {args.hold})")
-    fam = continue_family(start, hold=args.hold, members=members, progress=member)
+    fam = continue_family(start, hold=args.hold, members=members, progress=member, catalog=cat)
     d = fam.to_dict()
     d["members"] = [_with_amplitudes(system, m, t) for m, t in zip(d["members"], fam.members)]
     d["model"] = start.to_dict()["model"]

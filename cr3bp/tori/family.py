@@ -20,11 +20,47 @@ import numpy as np
 from .. import validate
 from ..errors import ConvergenceError, InputError
 from . import circle, solver
+from .store import FamilyStore
+from .threads import serial
 from .torus import SurfaceError, Torus, build, solve_adaptive
 
 HOLDS = ("jacobi", "period", "rotation")
 #: A member smaller than this (LU) is the periodic orbit the family started from.
 SHRUNK_LU = 1e-6
+#: Step control on Newton's effort (Allgower & Georg 2003, §6.1): after a member that took at
+#: most ``EASY_ITERATIONS`` iterations the step grows by ``GROWTH`` (up to ``max_step``); a
+#: failed step is halved.
+EASY_ITERATIONS = 4
+GROWTH = 1.5
+
+
+#: Why a family stops when it has passed through the periodic orbit at its far end.
+FAR_END = ("the family reached the periodic orbit at its far end (for Lissajous tori: the "
+           "vertical or the planar Lyapunov orbit) and would turn back along the tori already "
+           "computed")
+#: Changes of T and rho smaller than this (TU, rad) are not counted as a turn.
+TURN_TOL = 1e-12
+
+
+_QUANTITIES = {"jacobi": lambda t: t.jacobi, "period": lambda t: t.stroboscopic_time,
+               "rotation": lambda t: t.rotation}
+
+
+def _turned_back(out, new, hold) -> bool:
+    """True when the two quantities not held (of the Jacobi constant, the stroboscopic time and
+    the rotation) both reverse their direction of change at the last member: the continuation
+    has passed through a degenerate torus (a periodic orbit whose own closed curve is an
+    invariance circle) and is retracing the family with the circle's angle shifted. A fold of
+    the family turns one of the two, generically not both."""
+    if len(out) < 2:
+        return False
+    a, b = out[-2], out[-1]
+    turns = 0
+    for f in (g for k, g in _QUANTITIES.items() if k != hold):
+        d0, d1 = f(b) - f(a), f(new) - f(b)
+        if abs(d0) > TURN_TOL and abs(d1) > TURN_TOL and d0 * d1 < 0:
+            turns += 1
+    return turns == 2
 
 
 @dataclass(frozen=True)
@@ -107,7 +143,7 @@ def hold_tangents(system, t: Torus, holds: dict, reference) -> np.ndarray:
 
 def continue_family(start: Torus, hold: str = "jacobi", members: int = 10, step: float = 0.02,
                     min_step: float = 1e-4, max_step: float = 0.2, direction: int = 1,
-                    progress=None, until=None) -> TorusFamily:
+                    progress=None, until=None, catalog=None) -> TorusFamily:
     """Pseudo-arclength continuation of tori from ``start`` with ``hold`` fixed.
 
     Parameters
@@ -120,6 +156,12 @@ def continue_family(start: Torus, hold: str = "jacobi", members: int = 10, step:
     progress : callable(i, torus) or None
     until : callable(torus) -> bool or None   stop after the first member for which it is true
         (``stop`` = "until")
+    catalog : cr3bp.catalog.Catalog or None
+        Members are read from and written to it as they converge (:mod:`cr3bp.tori.store`,
+        keyed by the start torus, ``hold``, the step settings and ``direction``): a second call
+        reads them back, and a call asking for more members than are stored goes on from the
+        last one with the stored tangent and step, giving the same members as one
+        uninterrupted run.
 
     Returns
     -------
@@ -135,8 +177,33 @@ def continue_family(start: Torus, hold: str = "jacobi", members: int = 10, step:
     value = {"jacobi": start.jacobi, "period": start.stroboscopic_time, "rotation": start.rotation}[hold]
     out = [start]
     t = start
-    tan = direction * tangent(system, t, hold)
-    ds = step
+    store = tan = ds = None
+    if catalog is not None:
+        store = FamilyStore(catalog, start, {"hold": hold, "step": step, "min_step": min_step,
+                                             "max_step": max_step, "direction": direction})
+        kept, states, kept_stop = store.load()
+        for i, m in enumerate(kept[:members]):
+            out.append(m)
+            if progress:
+                progress(i + 1, m)
+            if until is not None and until(m):
+                return TorusFamily(members=tuple(out), hold=hold, stop="until")
+        if len(kept) >= members or kept_stop is not None:
+            stop = kept_stop if (kept_stop is not None and len(kept) <= members) else "members"
+            return TorusFamily(members=tuple(out), hold=hold, stop=stop)
+        if kept:
+            t = kept[-1]
+            tan, ds = states[-1]
+    with serial():       # computing: one thread (cr3bp.tori.threads); read-backs skip numba
+        return _continue(system, start, out, t, tan, ds, hold, value, members, step, min_step,
+                         max_step, direction, progress, until, store)
+
+
+def _continue(system, start, out, t, tan, ds, hold, value, members, step, min_step, max_step,
+              direction, progress, until, store):
+    if len(out) == 1:
+        tan = direction * tangent(system, t, hold)
+        ds = step
     stop = "members"
     while len(out) <= members:
         n = t.n_circle_points
@@ -166,16 +233,25 @@ def continue_family(start: Torus, hold: str = "jacobi", members: int = 10, step:
             break
         if new.amplitude_lu < SHRUNK_LU:
             out.append(new)
+            if store is not None:
+                store.add(len(out) - 1, new, tan, ds)
             stop = "the torus shrank to its periodic orbit"
+            break
+        if _turned_back(out, new, hold):
+            stop = FAR_END
             break
         tan = tangent(system, new, hold, previous=(tan, n))
         out.append(new)
         t = new
+        if info["iterations"] <= EASY_ITERATIONS:
+            ds = min(ds * GROWTH, max_step)
+        if store is not None:
+            store.add(len(out) - 1, new, tan, ds)
         if progress:
             progress(len(out) - 1, new)
         if until is not None and until(new):
             stop = "until"
             break
-        if info["iterations"] <= 4:
-            ds = min(ds * 1.5, max_step)
+    if store is not None and stop not in ("members", "until"):
+        store.finish(stop)
     return TorusFamily(members=tuple(out), hold=hold, stop=stop)

@@ -47,6 +47,7 @@ from ..errors import ConvergenceError, InputError, NoSolutionError
 from . import seeds, solver
 from .family import continue_family, hold_tangents
 from .stability import stability
+from .store import cached_torus
 from .torus import SurfaceError, build, solve_adaptive, torus_around
 from ..equilibria import lagrange_point
 from ..orbits.request import parse_request, solve_request
@@ -84,7 +85,7 @@ def _check(name, v):
 
 
 def lissajous(system, point: str, ay_lu: float, az_lu: float, progress=None,
-              rtol: float = AMPLITUDE_RTOL):
+              rtol: float = AMPLITUDE_RTOL, catalog=None):
     """The Lissajous torus at ``point`` (L1 or L2) with measured amplitudes ``ay_lu, az_lu``.
 
     Targets up to ``RAY_START`` (times the point's distance from the smaller primary) in both
@@ -97,12 +98,27 @@ def lissajous(system, point: str, ay_lu: float, az_lu: float, progress=None,
     ``extra["target_iterations"]`` and ``extra["ray_steps"]``. ``progress(message)`` receives
     one line per step.
 
+    With a ``catalog`` (:class:`cr3bp.catalog.Catalog`) the torus is read from it when this
+    target was solved before (:mod:`cr3bp.tori.store`), else solved and stored; the periodic
+    orbits it starts from are read from and kept in the same catalogue. Without one, the
+    Lyapunov family is grown once in a scratch in-memory catalogue and shared by the two
+    requests that need it.
+
     Raises InputError (bad point or amplitude), NoSolutionError (not reachable; the message
     gives the range of amplitudes reached).
     """
     if point not in POINTS:
         raise InputError(f"point '{point}': Lissajous tori by amplitudes are built at L1 or L2")
     ay_lu, az_lu = _check("ay", ay_lu), _check("az", az_lu)
+    request = {"kind": "lissajous by amplitudes", "ay_lu": ay_lu, "az_lu": az_lu, "rtol": rtol}
+    return cached_torus(catalog, system, point, request,
+                        lambda: _lissajous(system, point, ay_lu, az_lu, progress, rtol, catalog))
+
+
+def _lissajous(system, point, ay_lu, az_lu, progress, rtol, catalog):
+    if catalog is None:
+        from ..catalog import Catalog
+        catalog = Catalog(":memory:")    # the edge orbits' families, grown once
     say = progress or (lambda m: None)
     km = (lambda v: f"{system.km(v):,.0f} km") if system.dimensional else (lambda v: f"{v:.4g} LU")
     seen = []
@@ -117,7 +133,7 @@ def lissajous(system, point: str, ay_lu: float, az_lu: float, progress=None,
     big = RAY_START * _gamma(system, point)
     f0 = min(1.0, big / target.max())
     t, p, m, J, its = _direct(system, point, f0 * target, rtol, say, km, seen, reached,
-                              correct=f0 == 1.0)
+                              correct=f0 == 1.0, catalog=catalog)
     steps = 0
     if f0 < 1.0:
         t, p, m, J, its, steps = _ray(system, point, t, p, m, J, target, f0, rtol, say, km,
@@ -176,7 +192,7 @@ def _fd_jacobian(system, point, t, p, m, measure, ref):
     return J
 
 
-def _direct(system, point, target, rtol, say, km, seen, reached, correct=True):
+def _direct(system, point, target, rtol, say, km, seen, reached, correct=True, catalog=None):
     """Steps 1-3 of the module notes: (torus, (C, a), measured (ay, az), Jacobian, iterations)."""
     ay_lu, az_lu = target
 
@@ -184,7 +200,8 @@ def _direct(system, point, target, rtol, say, km, seen, reached, correct=True):
         text = (f"{system.km(value)}km" if system.dimensional and key != "jacobi"
                 else repr(float(value)))
         try:
-            return solve_request(system, parse_request(f"{fam_name} {point} {key}={text}"))
+            return solve_request(system, parse_request(f"{fam_name} {point} {key}={text}"),
+                                 catalog=catalog)
         except (NoSolutionError, ConvergenceError) as e:
             raise NoSolutionError(f"no {fam_name} orbit at {point} with {key} {text} to start "
                                   f"the Lissajous torus from ({e})") from None

@@ -29,6 +29,7 @@ from ..errors import ConvergenceError, InputError, NoSolutionError, shown
 from ..vocabulary import TORUS_FAMILIES, TORUS_TARGETS
 from . import circle, seeds
 from .family import continue_family
+from .store import cached_torus
 from .torus import SurfaceError, build, solve_adaptive, torus_around
 from ..orbits.request import parse_request, solve_request
 from ..orbits.targets import make_target
@@ -161,12 +162,26 @@ def _number(key, text):
 
 def solve(system, request, progress=None, catalog=None):
     """The torus a request names (text or :class:`TorusSpec`). Everything the request would
-    refuse is found before any work. Raises InputError, NoSolutionError."""
+    refuse is found before any work. Raises InputError, NoSolutionError.
+
+    With a ``catalog`` the torus is read from it when the same request was solved before
+    (:mod:`cr3bp.tori.store`), else solved and stored."""
     spec = parse(request) if isinstance(request, str) else request
     want = values(system, spec)
     say = progress or (lambda m: None)
     if spec.family == "lissajous" and "ay" in want:
-        return lissajous(system, spec.point, want["ay"], want["az"], progress=say)
+        return lissajous(system, spec.point, want["ay"], want["az"], progress=say,
+                         catalog=catalog)
+    key = {"kind": "request", "family": spec.family, "around": spec.around,
+           "values": {k: float(v) for k, v in want.items()}}
+    return cached_torus(catalog, system, spec.point, key,
+                        lambda: _solve(system, spec, dict(want), say, catalog))
+
+
+def _solve(system, spec, want, say, catalog):
+    if spec.family == "lissajous" and "ay" in want:
+        return lissajous(system, spec.point, want["ay"], want["az"], progress=say,
+                         catalog=catalog)
     if spec.family == "quasi-halo":
         ospec = parse_request(spec.around)
         if ospec.family != "halo":

@@ -38,7 +38,13 @@ RESIDUAL_TOL = 1e-10
 #: cannot close better than that.
 STALL_TOL = 1e-8
 FLOOR_PER_GAIN = 1e-11
+#: ... or as soon as it is this fraction of that floor: a further iteration cannot make the
+#: torus measurably better than the integrator's error (it used to be spent confirming the stall).
+FLOOR_FRACTION = 0.05
 MAX_ITER = 15
+#: From this iteration on, a residual that has not halved over the last three iterations ends
+#: the solve (ConvergenceError) instead of running to ``MAX_ITER``.
+STAGNATION_ITER = 6
 #: Integrator tolerances for the circle's propagation.
 RTOL = ATOL = 1e-12
 HOLD_KINDS = ("jacobi", "period", "rotation", "amplitude")
@@ -93,22 +99,19 @@ def check_holds(holds: dict, n_needed: int) -> dict:
     return {k: float(v) for k, v in holds.items()}
 
 
-def _residual_and_jacobian(system, x, n, ref, holds, arclength):
+def _residual_and_jacobian(system, x, n, ref, holds, arclength, with_jacobian=True):
     mu = system.mu
     u = x[:6 * n].reshape(n, 6)
     T, rho = x[-2], x[-1]
     if not (T > 0 and math.isfinite(T)):
         raise ConvergenceError(f"stroboscopic time left the positive reals (T = {T:.6g} TU)")
     try:
-        res = propagate_batch(system, u, T, rtol=RTOL, atol=ATOL, stm=True)
+        res = propagate_batch(system, u, T, rtol=RTOL, atol=ATOL, stm=with_jacobian)
     except StateError as e:   # an iterate put a point inside a primary
         raise ConvergenceError(f"invariance-circle Newton put a point inside a primary ({e})") from None
-    phi, stm = res.states, res.stm
+    phi = res.states
     q, dq = circle.rotation(n, rho)
     inv = q @ phi - u
-    j_u = np.einsum("jl,lcd->jcld", q, stm).reshape(6 * n, 6 * n) - np.eye(6 * n)
-    j_t = (q @ eom_many(mu, phi)).ravel()
-    j_r = (dq @ phi).ravel()
     rows, vals = [], []
     u_ref, t_ref, rho_ref = ref
     d1 = circle.derivative(u_ref)
@@ -139,8 +142,14 @@ def _residual_and_jacobian(system, x, n, ref, holds, arclength):
         x0, tangent, ds = arclength
         rows.append(tangent)
         vals.append(float(tangent @ (x - x0) - ds))
-    jac = np.vstack([np.hstack([j_u, j_t[:, None], j_r[:, None]]), np.array(rows)])
     f = np.concatenate([inv.ravel(), vals])
+    if not with_jacobian:
+        return f, None, None
+    stm = res.stm
+    j_u = np.einsum("jl,lcd->jcld", q, stm).reshape(6 * n, 6 * n) - np.eye(6 * n)
+    j_t = (q @ eom_many(mu, phi)).ravel()
+    j_r = (dq @ phi).ravel()
+    jac = np.vstack([np.hstack([j_u, j_t[:, None], j_r[:, None]]), np.array(rows)])
     return f, jac, float(np.abs(stm).max())
 
 
@@ -175,32 +184,50 @@ def solve(system, u0, T0, rho0, holds, reference=None, arclength=None, max_iter=
     f, jac, gain = _residual_and_jacobian(system, x, n, ref, holds, arclength)
     norm = float(np.abs(f).max())
     floor = max(STALL_TOL, FLOOR_PER_GAIN * gain)
+    done = max(RESIDUAL_TOL, FLOOR_FRACTION * floor)
     history.append(norm)
     for it in range(1, max_iter + 1):
-        if norm < RESIDUAL_TOL:
+        if norm < done:
             break
         step = np.linalg.lstsq(jac, -f, rcond=None)[0]
+        # damping: trial points are judged by their residual alone (no STMs: about a seventh
+        # of the cost); the Jacobian is computed once, at the accepted point
         lam = 1.0
         while True:
             xt = x + lam * step
             try:
-                ft, jt, _ = _residual_and_jacobian(system, xt, n, ref, holds, arclength)
+                ft = _residual_and_jacobian(system, xt, n, ref, holds, arclength,
+                                            with_jacobian=False)[0]
                 nt = float(np.abs(ft).max())
             except ConvergenceError:
                 nt = math.inf
-            if nt < norm or lam < 1.0 / 64:
+            if nt < norm or lam < 1.0 / 64 or (norm < floor and nt < floor):
                 break
             lam *= 0.5
         if not math.isfinite(nt):
             raise ConvergenceError("invariance-circle Newton left the region the integrator "
                                    "can follow", iterations=it, residuals=history)
         stalled = nt >= 0.5 * norm and nt < floor
-        x, f, jac, norm = xt, ft, jt, nt
-        history.append(norm)
-        if stalled:
+        if stalled and nt >= norm:      # at the integrator's floor: keep the better point
+            history.append(nt)
             break
+        if nt >= norm:                  # no descent even with a 1/64 step: give up early
+            history.append(nt)
+            raise ConvergenceError(f"invariance-circle Newton found no descent (residual "
+                                   f"{norm:.2e})", iterations=it, residuals=history)
+        x, norm = xt, nt
+        history.append(norm)
+        if stalled or norm < done:
+            break
+        if it >= STAGNATION_ITER and norm > 0.5 * history[-4]:
+            # less than halved over three iterations, far from the floor: Newton is not in its
+            # quadratic range; the caller retries with a smaller continuation step
+            raise ConvergenceError(f"invariance circle is converging too slowly (residual "
+                                   f"{norm:.2e} after {it} iterations)", iterations=it,
+                                   residuals=history)
+        f, jac, _ = _residual_and_jacobian(system, x, n, ref, holds, arclength)
     else:
-        if norm >= RESIDUAL_TOL:
+        if norm >= done:
             raise ConvergenceError(f"invariance circle did not converge in {max_iter} iterations "
                                    f"(residual {norm:.2e})", iterations=max_iter,
                                    residuals=history)
