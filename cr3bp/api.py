@@ -983,7 +983,7 @@ def torus(orbit=None, amplitude=None, *, hold="jacobi", lissajous=None, members=
         if amp > 0.2:
             raise InputError(f"amplitude {amplitude!r} is larger than 0.2 of the distance between the primaries; "
                              "tori that large are not attempted")
-        from .tori.store import cached_torus
+        from .tori.store import cached_torus  # lazy: start-up: keeps cr3bp.api free of numpy
         key = {"kind": "around orbit", "state": [float(v) for v in orbit.state],
                "period": float(orbit.period), "family": orbit.family, "amplitude_lu": amp,
                "hold": hold}

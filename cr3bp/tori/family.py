@@ -21,7 +21,7 @@ from .. import validate
 from ..errors import ConvergenceError, InputError
 from . import circle, solver
 from .store import FamilyStore
-from .threads import serial
+from ..threads import serial
 from .torus import SurfaceError, Torus, build, solve_adaptive
 
 HOLDS = ("jacobi", "period", "rotation")
@@ -194,7 +194,7 @@ def continue_family(start: Torus, hold: str = "jacobi", members: int = 10, step:
         if kept:
             t = kept[-1]
             tan, ds = states[-1]
-    with serial():       # computing: one thread (cr3bp.tori.threads); read-backs skip numba
+    with serial():       # computing: one thread (cr3bp.threads); read-backs skip numba
         return _continue(system, start, out, t, tan, ds, hold, value, members, step, min_step,
                          max_step, direction, progress, until, store)
 

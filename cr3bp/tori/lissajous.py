@@ -52,6 +52,7 @@ from .torus import SurfaceError, build, solve_adaptive, torus_around
 from ..equilibria import lagrange_point
 from ..orbits.request import parse_request, solve_request
 from ..validate import positive_number
+from ..catalog import Catalog
 
 #: Relative tolerance on each measured amplitude.
 AMPLITUDE_RTOL = 1e-5
@@ -117,7 +118,6 @@ def lissajous(system, point: str, ay_lu: float, az_lu: float, progress=None,
 
 def _lissajous(system, point, ay_lu, az_lu, progress, rtol, catalog):
     if catalog is None:
-        from ..catalog import Catalog
         catalog = Catalog(":memory:")    # the edge orbits' families, grown once
     say = progress or (lambda m: None)
     km = (lambda v: f"{system.km(v):,.0f} km") if system.dimensional else (lambda v: f"{v:.4g} LU")

@@ -18,6 +18,8 @@ import hashlib
 import numpy as np
 
 from .torus import Torus
+from ..io.plain import plain
+from ..threads import serial
 
 #: Version of the torus numerics the records were computed with; a record of another version
 #: is recomputed (it is keyed by this number).
@@ -31,7 +33,6 @@ _FIELDS = ("stroboscopic_time", "rotation", "jacobi", "jacobi_spread", "invarian
 
 
 def _plain(v):
-    from ..io.plain import plain
     return plain(v)
 
 
@@ -83,8 +84,7 @@ def cached_torus(catalog, system, point: str, request: dict, compute):
     """The catalogued torus for ``request``, else ``compute()`` stored and returned."""
     t = load_torus(catalog, system, point, request)
     if t is None:
-        from .threads import serial
-        with serial():      # computing: one thread (cr3bp.tori.threads); read-backs skip numba
+        with serial():      # computing: one thread (cr3bp.threads); read-backs skip numba
             t = compute()
         save_torus(catalog, system, point, request, t)
     return t

@@ -20,7 +20,11 @@ from ..vocabulary import COLLINEAR_POINTS
 from . import circle, seeds, solver
 from ..equilibria import lagrange_point
 from .stability import stability
-from .threads import serial_call
+from ..threads import serial_call
+from .. import validate
+from ..integrate.events import table
+from ..integrate.modes import MODE_STATE
+from ..integrate.status import DEFAULT_MAX_STEPS
 
 #: Smallest and largest number of points on the circle (odd).
 N_MIN, N_MAX = 15, 151
@@ -364,11 +368,7 @@ def surface(system, u, T, samples=256) -> np.ndarray:
     (measured ~1.3 ms of ~2.3 ms per 45-point step). Every state of the grid is checked
     against the primaries at the end, and a step any trajectory of which fails is repeated
     through :func:`propagate_batch` for its error."""
-    from .. import validate
     from ..integrate import dop853   # lazy: numba kernel module
-    from ..integrate.events import table
-    from ..integrate.modes import MODE_STATE
-    from ..integrate.status import DEFAULT_MAX_STEPS
     s = np.ascontiguousarray(u, dtype=float)
     n = s.shape[0]
     dt = T / samples

@@ -49,7 +49,6 @@ from __future__ import annotations
 
 import math
 import time
-from contextlib import contextmanager
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -59,6 +58,7 @@ from ..dynamics import acceleration, jacobi
 from ..errors import ConvergenceError, InputError, NoSolutionError
 from ..integrate import propagate
 from ..io.plain import plain as _plain
+from ..threads import serial
 from .leg import Leg, Maneuver
 
 RTOL = ATOL = 1e-12
@@ -99,36 +99,6 @@ DEFAULT_TOF_FACTOR = 1.5
 DEFAULT_TOF_PERIODS = 2.0
 SOLUTIONS = ("optimised", "patch", "first guess")
 IMPULSES = (2, 3)
-
-
-@contextmanager
-def _one_blas_thread():
-    """Run SLSQP's dense linear algebra (a few hundred unknowns at most) on one BLAS thread.
-
-    On a loaded machine the OpenBLAS worker threads only wait for each other on matrices this
-    small (measured: 3.3 s against 0.56 s for the same 40 iterations on two busy cores). Linux
-    only (the loaded libraries are read from /proc/self/maps); elsewhere a no-op."""
-    restore = []
-    try:
-        import ctypes   # lazy: only this Linux-only speed-up needs it
-        with open("/proc/self/maps") as f:
-            paths = {ln.split()[-1] for ln in f if "openblas" in ln.lower() and ".so" in ln}
-        for path in sorted(paths):
-            lib = ctypes.CDLL(path)
-            for prefix in ("scipy_openblas", "openblas"):
-                get = getattr(lib, prefix + "_get_num_threads", None)
-                put = getattr(lib, prefix + "_set_num_threads", None)
-                if get is not None and put is not None:
-                    restore.append((put, int(get())))
-                    put(1)
-                    break
-    except (OSError, AttributeError, ValueError):
-        pass
-    try:
-        yield
-    finally:
-        for put, n in restore:
-            put(n)
 
 
 # ---- the two orbits as functions of phase ----------------------------------------------------
@@ -691,7 +661,7 @@ def _solve(pbm: _Problem, z0):
     message, converged = "", False
     cons = [{"type": "eq", "fun": pbm.eq, "jac": pbm.eq_jac},
             {"type": "ineq", "fun": pbm.ineq, "jac": pbm.ineq_jac}]
-    with _one_blas_thread():
+    with serial(numba_threads=False):     # SLSQP's small dense algebra on one BLAS thread
         while total < MAX_ITERATIONS:
             res = minimize(pbm.fun, z, jac=pbm.jac, method="SLSQP", bounds=pbm.bounds(), constraints=cons,
                            options={"maxiter": min(ROUND, MAX_ITERATIONS - total), "ftol": FTOL})
