@@ -74,7 +74,7 @@ def test_torus_node_reference_state_and_ballistic_leg(nodes_text):
     assert d["torus"] and np.allclose(d["state"], torus.circle[0], atol=0)
     assert d["period"] == pytest.approx(torus.stroboscopic_time, rel=1e-12)
     res = build_graph(EM, nl, workers=1)
-    legs = [l for l in res.legs if l and l["from_name"] == "ring"]
+    legs = [r for r in (l.record() for l in res.legs) if r["from_name"] == "ring"]
     assert len(legs) == 1 and legs[0]["dv_mps"] < 1e-3, legs
     reasons = {(p["from"], p["to"]): p["reason"] for p in res.pruned}
     assert "torus node 'ring'" in reasons[("leo", "ring")] and "parking" in reasons[("leo", "ring")]
@@ -133,7 +133,7 @@ to = "lyap"
 sections = ["x=1-mu"]
 '''
     res = build_graph(EM, parse_nodes(text, EM), workers=1)
-    legs = {l["from_name"]: l for l in res.legs}
+    legs = {r["from_name"]: r for r in (l.record() for l in res.legs)}     # the legs' plain records
     T = torus.stroboscopic_time
     for start, end_key in (("ring", "departure_state"), ("lyap", "final_state")):
         leg = legs[start]
