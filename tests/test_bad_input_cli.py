@@ -520,6 +520,19 @@ def value_cases():
     for extra in ("--section=y=0", "--map={out}/m.png", "--arrival-within=5000km", "--step-off=50km"):
         add(f"connect-path-with-{extra.split('=')[0][2:]}", dep + ["--path=direct", extra])
     add("connect-path-plot-suffix", dep + ["--path=direct", "--plot={out}/d.jpg"])
+    # connect --path low-energy (bicircular model): refused before any orbit is solved
+    for v in ("60d", "70d", "300d", "-5d", "nand"):
+        add(f"connect-low-energy-max-tof-{v}", dep + ["--path=low-energy", f"--max-tof={v}"])
+    for v in ("yesterday", "2027-13-01T00:00:00Z", "1500-01-01T00:00:00Z"):
+        add(f"connect-low-energy-epoch-{v}", dep + ["--path=low-energy", f"--epoch={v}"])
+    add("connect-low-energy-from-the-moon", C + ["--from=parking moon 100km", "--to=halo L2 south resonance=9:2",
+                                                 "--path=low-energy"])
+    add("connect-low-energy-altitude-60000km", C + ["--from=parking earth 60000km",
+                                                     "--to=halo L2 south resonance=9:2", "--path=low-energy"])
+    add("connect-low-energy-inclination-200deg", dep + ["--path=low-energy", "--inclination=200deg"])
+    add("connect-low-energy-plot-suffix", dep + ["--path=low-energy", "--plot={out}/d.jpg"])
+    add("connect-epoch-with-direct", dep + ["--path=direct", "--epoch=2027-03-01T00:00:00Z"])
+    add("connect-epoch-without-path", dep + ["--epoch=2027-03-01T00:00:00Z"])
     # graph and route
     for name in ("binary", "deep", "folder", "missing"):
         add(f"graph-nodes-{name}", ["graph", "build", EM, f"--nodes={{in}}/{name}.toml", "--workers=1", "--no-catalog"])

@@ -57,7 +57,7 @@ def run(args, system, parking):
     when = (f", departure {tr.departure_epoch}, insertion {tr.insertion_epoch} (UTC)"
             if tr.departure_epoch else " (no date given: the phase is the design's)")
     head = [f"{args.origin} -> {args.target}: low-energy transfer "
-            f"({'optimised' if tr.optimised else 'first guess: the corrector stopped short of its tolerance'}), "
+            f"({'optimised' if tr.optimised else 'corrected onto the parking orbit, but the least-insertion search stopped short of its tolerance'}), "
             "model: bicircular (Sun-Earth-Moon)",
             f"{m_} total dv {tr.dv_mps:.1f} m/s: departure {tr.departure_dv_mps:.1f} m/s, insertion "
             f"{tr.insertion_dv_mps:.2f} m/s",
@@ -77,9 +77,9 @@ def run(args, system, parking):
         common.progress(args, "drawing the transfer...")
         fig = plot_low_energy(tr)
         save(fig, args.plot, f"{args.origin} -> {args.target}, low-energy: bicircular-model total dv "
-             f"{tr.dv_mps:.0f} m/s (departure {tr.departure_dv_mps:.0f} m/s, insertion {tr.insertion_dv_mps:.1f} m/s), "
-             f"time of flight {tr.tof_days:.1f} d, Sun phase at departure {tr.sun_phase_deg:.0f} deg; left: "
-             "Earth-Moon rotating frame, right: Sun-Earth rotating frame (Earth at the origin, Sun to the left)",
+             f"{tr.dv_mps:.0f} m/s (departure {tr.departure_dv_mps:.0f}, insertion {tr.insertion_dv_mps:.1f} m/s), "
+             f"time of flight {tr.tof_days:.1f} d, Sun phase at departure {tr.sun_phase_deg:.0f} deg"
+             + (f" ({tr.departure_epoch})" if tr.departure_epoch else ""),
              model="bicircular")
         common.progress(args, f"wrote {args.plot}")
     table = "\n".join(head) + "\n\n" + common.format_table(HEADERS, rows)

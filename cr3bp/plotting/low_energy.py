@@ -34,8 +34,8 @@ def plot_low_energy(tr, n_per_segment=500):
     t, states = tr.trajectory(n_per_segment)
     T = float(tr.orbit.period)
     orb = propagate(system, tr.orbit.state, T, t_eval=np.linspace(0.0, T, 400)).states
-    fig, axes = new_figure(2, 1, size=(14.0, 6.6))
-    fig.subplots_adjust(wspace=0.32)
+    fig, axes = new_figure(2, 1, size=(14.0, 7.4))
+    fig.subplots_adjust(wspace=0.32, bottom=0.24)
     # left: Earth-Moon rotating frame
     ax = axes[0, 0] if axes.ndim == 2 else axes[0]
     ax.plot(states[:, 0], states[:, 1], color="tab:blue", lw=1.0, label="low-energy transfer")
@@ -44,13 +44,29 @@ def plot_low_energy(tr, n_per_segment=500):
         mk, col = MARKERS.get(m["name"], ("x", "k"))
         dv = system.mps(np.linalg.norm(m["dv_vector"]))
         ax.plot(m["position"][0], m["position"][1], mk, color=col, ms=6, zorder=8,
-                label=f"{m['name']} {dv:.1f} m/s (bicircular)")
+                label=f"{m['name']} {dv:.2f} m/s (bicircular)")
     draw_primaries(ax, system, view="xy", min_radius=0.02)
     draw_lagrange_points(ax, system, view="xy")
     ax.set_aspect("equal", adjustable="datalim")
     axis_labels(ax, system, view="xy")
-    title(ax, "Earth-Moon rotating frame (x-y view)")
-    legend_beside(ax, where="above")
+    title(ax, "Earth-Moon rotating frame (x-y view; inset: x-z view near the Moon)")
+    leg = ax.legend(loc="upper left", bbox_to_anchor=(0.0, -0.11), ncol=3, fontsize=7, framealpha=0.9)
+    leg.set_gid("outside-data")
+    # inset: the arrival and the target orbit, x-z view, at the orbit's own scale
+    ins = ax.inset_axes([0.66, 0.02, 0.33, 0.33])
+    span = 1.3 * max(float(np.ptp(orb[:, 0])), float(np.ptp(orb[:, 2])))
+    cx, cz = 0.5 * (orb[:, 0].min() + orb[:, 0].max()), 0.5 * (orb[:, 2].min() + orb[:, 2].max())
+    ins.plot(states[:, 0], states[:, 2], color="tab:blue", lw=0.8)
+    ins.plot(orb[:, 0], orb[:, 2], color="0.3", lw=1.0)
+    m = tr.maneuvers[-1]
+    ins.plot(m["position"][0], m["position"][2], "s", color="tab:red", ms=5, zorder=8)
+    ins.add_patch(Circle((1.0 - system.mu, 0.0), system.radii[1], color="0.45", zorder=5))
+    ins.set_xlim(cx - span / 2, cx + span / 2)
+    ins.set_ylim(cz - span / 2, cz + span / 2)
+    ins.set_aspect("equal", adjustable="box")
+    ins.set_xticks([])
+    ins.set_yticks([])
+    ins.set_title(f"x-z, {system.km(span):,.0f} km across", fontsize=6.5)
     # right: Sun-Earth rotating frame, Earth at the origin, Sun to the left
     bx = axes[0, 1] if axes.ndim == 2 else axes[1]
     se = sun_earth_rotating(model, t, states)
@@ -69,7 +85,7 @@ def plot_low_energy(tr, n_per_segment=500):
     lim = 1.1 * max(float(np.max(np.abs(se[:, :2]))) * f, 0.5)
     bx.axhline(0.0, color="0.85", lw=0.6, zorder=0)
     bx.axvline(0.0, color="0.85", lw=0.6, zorder=0)
-    bx.annotate("to the Sun", xy=(-lim * 0.98, 0.0), xytext=(-lim * 0.6, lim * 0.06), fontsize=8,
+    bx.annotate("to the Sun", xy=(-lim * 0.98, 0.0), xytext=(-lim * 0.75, -lim * 0.9), fontsize=8,
                 arrowprops=dict(arrowstyle="->", color="orange"), color="darkorange")
     bx.set_xlim(-lim, lim)
     bx.set_ylim(-lim, lim)

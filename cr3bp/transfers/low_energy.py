@@ -76,14 +76,20 @@ MAX_TOF_DAYS = 130.0
 CONSTRAINT_TOL = 1e-9
 #: Tolerance of the forward re-propagation check (km, position at insertion).
 CLOSURE_TOL_KM = 1.0
-MAX_ITER = 80
+MAX_ITER = 40
+#: A full Newton step is accepted while its residual stays below this (scaled units), even when
+#: it exceeds the last one.
+NONMONOTONE = 1e-2
+#: Steps of the insertion-burn continuation (:func:`_shrink`).
+SHRINK_STEPS = 80
 #: SLSQP's stopping tolerance on the objective 100 |dv_insertion|^2 (LU/TU; 1e-10 ~ a 1e-5 LU/TU
 #: ~ 1 cm/s change in the burn).
 FTOL = 1e-10
 #: The correction stops trying further candidates once one needs an insertion burn below this.
 GOOD_ENOUGH_MPS = 1.0
-#: An insertion burn this small counts as the optimum (its lower bound is 0; m/s).
-BALLISTIC_MPS = 0.01
+#: An insertion burn this small counts as the optimum (its lower bound is 0; m/s): 5 cm/s is
+#: below what a thruster delivers reliably and what navigation knows (common practice).
+BALLISTIC_MPS = 0.05
 #: Patch points: the transfer is stored as this many coasts joined without a burn (multiple
 #: shooting). A single forward propagation over three to four months through a lunar
 #: encounter magnifies the integrator's round-off a millionfold; each coast alone does not.
@@ -472,14 +478,15 @@ class _Problem:
             and np.all(self.ineq(z) >= -1e-9)
 
 
-def _newton(pb, z, iterations=25, tol=CONSTRAINT_TOL):
+def _newton(pb, z, iterations=25, tol=CONSTRAINT_TOL, eqfun=None):
     """Differential correction of the equality constraints (perigee radius; inclination and the
     launch date's Sun phase when given) by least-norm Newton steps with a finite-difference
     Jacobian, halved while they do not reduce the residual. Returns z or None."""
+    eqfun = pb.eq if eqfun is None else eqfun
     z = np.asarray(z, dtype=float).copy()
-    f = pb.eq(z)
     if pb.evaluate(z) is None:
         return None
+    f = eqfun(z)
     scale = np.array([1e-3, 1e-4, 1e-4, 1e-4, 1e-3])   # step per variable of the finite differences
     for _ in range(iterations):
         if np.max(np.abs(f)) <= tol:
@@ -491,7 +498,7 @@ def _newton(pb, z, iterations=25, tol=CONSTRAINT_TOL):
             zz[j] += h
             if pb.evaluate(zz) is None:
                 return None
-            J[:, j] = (pb.eq(zz) - f) / h
+            J[:, j] = (eqfun(zz) - f) / h
         # weight: the insertion burn's components cost, the phase and the Sun's phase less
         w = np.array([1.0, 10.0, 10.0, 10.0, 1.0])
         step = -(np.linalg.pinv(J / w) @ f) / w
@@ -499,8 +506,10 @@ def _newton(pb, z, iterations=25, tol=CONSTRAINT_TOL):
         for _ in range(12):
             zn = z + lam * step
             if pb.evaluate(zn) is not None:
-                fn = pb.eq(zn)
-                if np.linalg.norm(fn) < np.linalg.norm(f):
+                fn = eqfun(zn)
+                # a full step is taken even if it raises the residual a little (the perigee's
+                # curvature in the unknowns is large; the next full step usually repairs it)
+                if np.linalg.norm(fn) < np.linalg.norm(f) or (lam == 1.0 and np.linalg.norm(fn) < NONMONOTONE):
                     z, f = zn, fn
                     break
             lam *= 0.5
@@ -509,12 +518,43 @@ def _newton(pb, z, iterations=25, tol=CONSTRAINT_TOL):
     return z if np.max(np.abs(f)) <= tol else None
 
 
+def _shrink(pb, z):
+    """Continuation of the insertion burn towards zero: its magnitude is asked to fall by a
+    fraction (10 % to start; the fraction grows by half after a success up to 50 %, and halves
+    after a failure down to 1/128) as one more equation of the differential corrector, which
+    moves the insertion point, the Sun's phase and the burn's direction to hold the perigee.
+    It stops at a burn below ``BALLISTIC_MPS``, or when even the smallest fall cannot be held.
+    Returns (z, reached)."""
+    dv = float(np.linalg.norm(z[1:4]))
+    frac = 0.1
+    for _ in range(SHRINK_STEPS):
+        if pb.system.mps(dv) <= BALLISTIC_MPS:
+            return z, True
+        target = (1.0 - frac) * dv
+
+        def eqs(q, target=target):
+            return np.r_[pb.eq(q), (np.linalg.norm(q[1:4]) - target) * 10.0]
+
+        zn = _newton(pb, z, iterations=6, eqfun=eqs)
+        if zn is not None and pb.feasible(zn):
+            z, dv, frac = zn, float(np.linalg.norm(zn[1:4])), min(0.5, frac * 1.5)
+        elif frac <= 1.0 / 128.0:
+            break
+        else:
+            frac /= 2.0
+    return z, pb.system.mps(dv) <= BALLISTIC_MPS
+
+
 def _correct(pb, z0):
-    """The differential corrector, then SLSQP for the least insertion burn from its feasible
-    start. Returns (z, optimised, iterations) or None."""
+    """The differential corrector onto the parking orbit, then the least insertion burn: the
+    continuation :func:`_shrink`, and where it stalls above zero, SLSQP from there. Returns
+    (z, optimised, iterations) or None."""
     z1 = _newton(pb, z0)
     if z1 is None or not pb.feasible(z1):
         return None
+    z1, reached = _shrink(pb, z1)
+    if reached:
+        return z1, True, 0
     cons = [{"type": "eq", "fun": pb.eq}, {"type": "ineq", "fun": pb.ineq}]
     res = minimize(pb.fun, z1, jac=pb.jac_fun, method="SLSQP", constraints=cons,
                    options={"maxiter": MAX_ITER, "ftol": FTOL})
@@ -524,8 +564,6 @@ def _correct(pb, z0):
         z2 = z3 if z3 is not None and pb.feasible(z3) and pb.fun(z3) <= pb.fun(z1) else None
     if z2 is None or pb.fun(z2) > pb.fun(z1):
         return z1, False, int(res.nit)
-    # the least insertion burn is 0: one within BALLISTIC_MPS of it is the optimum, whatever
-    # SLSQP's own stopping test says
     ballistic = pb.system.mps(float(np.linalg.norm(z2[1:4]))) <= BALLISTIC_MPS
     return z2, bool(res.success) or ballistic, int(res.nit)
 
