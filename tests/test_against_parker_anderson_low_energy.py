@@ -67,8 +67,8 @@ def test_published_order_of_a_low_energy_transfer(transfer):
     assert -0.9 <= tr.c3_km2_s2 <= -0.4                # just short of escape
     d = tr.to_dict()
     assert [m["name"] for m in d["maneuvers"]] == ["departure", "insertion"]
-    assert all(m["model"] == "bicircular (Sun-Earth-Moon)" for m in d["maneuvers"])
-    assert d["model"] == "bicircular (Sun-Earth-Moon)"
+    assert all(m["model"] == "bicircular (Sun–Earth–Moon)" for m in d["maneuvers"])
+    assert d["model"] == "bicircular (Sun–Earth–Moon)"
     assert d["dv_mps"] == pytest.approx(sum(m["dv_mps"] for m in d["maneuvers"]))
 
 

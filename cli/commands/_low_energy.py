@@ -58,7 +58,7 @@ def run(args, system, parking):
             if tr.departure_epoch else " (no date given: the phase is the design's)")
     head = [f"{args.origin} -> {args.target}: low-energy transfer "
             f"({'optimised' if tr.optimised else 'corrected onto the parking orbit, but the least-insertion search stopped short of its tolerance'}), "
-            "model: bicircular (Sun-Earth-Moon)",
+            "model: bicircular (Sun–Earth–Moon)",
             f"{m_} total dv {tr.dv_mps:.1f} m/s: departure {tr.departure_dv_mps:.1f} m/s, insertion "
             f"{tr.insertion_dv_mps:.2f} m/s",
             f"{m_} time of flight {tr.tof_days:.2f} d (departure burn to insertion burn)",

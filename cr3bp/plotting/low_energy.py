@@ -10,6 +10,7 @@ import math
 import numpy as np
 from matplotlib.patches import Circle
 
+from ..integrate import propagate
 from .base import axis_labels, draw_lagrange_points, draw_primaries, legend_beside, new_figure, title
 
 MARKERS = {"departure": ("o", "tab:green"), "insertion": ("s", "tab:red")}
@@ -28,7 +29,6 @@ def sun_earth_rotating(model, t, states):
 
 def plot_low_energy(tr, n_per_segment=500):
     """Two panels of the transfer ``tr`` (a LowEnergyTransfer); returns the figure."""
-    from ..integrate import propagate
     model = tr.model
     system = model.system
     t, states = tr.trajectory(n_per_segment)

@@ -49,12 +49,15 @@ import numpy as np
 from scipy.optimize import brentq, minimize
 
 from .. import bicircular as bc
+from ..constants import J2000_JD, SECONDS_PER_DAY
 from ..errors import InputError, NoSolutionError, StateError
 from ..integrate import impact, propagate as _cr3bp_propagate
 from ..integrate.events import escape
 from ..io.plain import plain as _plain
+from ..time.scales import Epoch
+from ..validate import finite_number
 
-MODEL = "bicircular (Sun-Earth-Moon)"
+MODEL = "bicircular (Sun–Earth–Moon)"
 RTOL = ATOL = 1e-12
 #: Tolerances of the sweep (a screen; every reported transfer is recomputed at RTOL).
 SWEEP_RTOL = SWEEP_ATOL = 1e-9
@@ -217,7 +220,6 @@ class LowEnergyTransfer:
                         "position_km": [float(sysm.km(v)) for v in m["position"]],
                         "dv_vector_mps": [float(sysm.mps(v)) for v in m["dv_vector"]],
                         "model": MODEL})
-        from .departure import _describe   # the one orbit description of departures
         return {
             "path": self.path,
             "model": MODEL,
@@ -248,10 +250,17 @@ class LowEnergyTransfer:
         }
 
 
+def _describe(orbit):
+    """The target orbit in words (the orbit library's description when it has one)."""
+    try:
+        from ..tubes.manifolds import describe   # lazy: heavy (the manifold room), needed only for a label
+        return describe(orbit)
+    except Exception:  # noqa: BLE001 - a description is cosmetic
+        return f"{orbit.family} {orbit.point} {orbit.branch}".strip()
+
+
 def iso_utc(tdb_s: float) -> str:
     """ISO 8601 UTC text of TDB seconds since J2000 (to the second)."""
-    from ..constants import J2000_JD, SECONDS_PER_DAY
-    from ..time.scales import Epoch
     day = math.floor(tdb_s / SECONDS_PER_DAY)
     ep = Epoch.from_jd(J2000_JD + day, (tdb_s - day * SECONDS_PER_DAY) / SECONDS_PER_DAY, "tdb")
     return ep.to_iso("utc", decimals=0)
@@ -629,7 +638,6 @@ def design_low_energy(orbit, altitude_km, *, epoch=None, inclination_deg=None, m
     Belbruno & Miller 1993; Koon, Lo, Marsden & Ross 2001; Parker & Anderson 2013, ch. 3;
     Boudad, Howell & Davis 2020 (the model).
     """
-    from ..validate import finite_number
     system = orbit.system
     if getattr(system, "name", "") != "earth-moon":
         raise InputError(f"low-energy transfers are designed in the earth-moon system; got '{system.name}'")
