@@ -487,7 +487,7 @@ class _Problem:
             and np.all(self.ineq(z) >= -1e-9)
 
 
-def _newton(pb, z, iterations=25, tol=CONSTRAINT_TOL, eqfun=None):
+def _newton(pb, z, iterations=25, tol=CONSTRAINT_TOL, eqfun=None, weights=(1.0, 10.0, 10.0, 10.0, 1.0)):
     """Differential correction of the equality constraints (perigee radius; inclination and the
     launch date's Sun phase when given) by least-norm Newton steps with a finite-difference
     Jacobian, halved while they do not reduce the residual. Returns z or None."""
@@ -508,8 +508,9 @@ def _newton(pb, z, iterations=25, tol=CONSTRAINT_TOL, eqfun=None):
             if pb.evaluate(zz) is None:
                 return None
             J[:, j] = (eqfun(zz) - f) / h
-        # weight: the insertion burn's components cost, the phase and the Sun's phase less
-        w = np.array([1.0, 10.0, 10.0, 10.0, 1.0])
+        # weights of the least-norm step: onto the parking orbit, moving the burn costs more than
+        # moving the insertion point and the Sun's phase; in the continuation the reverse
+        w = np.asarray(weights, dtype=float)
         step = -(np.linalg.pinv(J / w) @ f) / w
         lam = 1.0
         for _ in range(12):
@@ -544,7 +545,7 @@ def _shrink(pb, z):
         def eqs(q, target=target):
             return np.r_[pb.eq(q), (np.linalg.norm(q[1:4]) - target) * 10.0]
 
-        zn = _newton(pb, z, iterations=6, eqfun=eqs)
+        zn = _newton(pb, z, iterations=10, eqfun=eqs, weights=(10.0, 1.0, 1.0, 1.0, 10.0))
         if zn is not None and pb.feasible(zn):
             z, dv, frac = zn, float(np.linalg.norm(zn[1:4])), min(0.5, frac * 1.5)
         elif frac <= 1.0 / 128.0:
