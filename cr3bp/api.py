@@ -642,6 +642,8 @@ def low_energy_transfer(target, parking="parking earth 200km", *, system="earth-
     pk = _parking(parking, sysm) if isinstance(parking, str) else None
     if pk is None or pk[0] != 0:
         raise InputError(f"parking = {parking!r}: give 'parking earth ALTITUDE', e.g. 'parking earth 200km'")
+    if not 100.0 <= pk[1] <= 50_000.0:
+        raise InputError(f"parking altitude {pk[1]:g} km in {parking!r}; allowed: 100 km to 50000 km")
     tof = float(max_tof) if isinstance(max_tof, (int, float)) else \
         sysm.days(quantity("max_tof", _text(max_tof), "time", sysm, sign="positive", default_unit="d"))
     if not MIN_TOF_DAYS < tof <= 200.0:

@@ -76,3 +76,18 @@ def test_the_json_numbers_re_propagated_by_scipy_reach_the_insertion_point(low_e
         sol = solve_ivp(simo_rhs, (t0, t1), p["state"], method="DOP853", rtol=1e-12, atol=1e-12, args=args)
         worst = max(worst, float(np.linalg.norm(sol.y[:3, -1] * EM.length_km - goal)))
     assert worst <= le.CLOSURE_TOL_KM, worst
+
+
+@pytest.mark.parametrize("kw, word", [
+    (dict(parking="parking moon 100km"), "parking"),
+    (dict(max_tof="60d"), "max_tof"),
+    (dict(max_tof=250.0), "max_tof"),
+    (dict(parking="parking earth 60000km"), "altitude"),
+])
+def test_the_api_refuses_bad_input_before_any_work(kw, word):
+    from cr3bp.api import low_energy_transfer
+    from cr3bp.errors import InputError
+    args = dict(target="halo L2 south resonance=9:2")
+    args.update(kw)
+    with pytest.raises(InputError, match=word):
+        low_energy_transfer(**args)

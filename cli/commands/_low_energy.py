@@ -69,8 +69,8 @@ def run(args, system, parking):
             f"Sun phase at departure {tr.sun_phase_deg:.2f} deg from the Earth-Moon line (0 new moon, 180 full "
             f"moon){when}",
             "positions: Earth-Moon rotating frame, origin at the barycentre; t from the departure burn",
-            f"check: forward re-propagation closes on the insertion point within "
-            f"{tr.details['closure_km']:.2e} km"]
+            f"check: each of the {len(tr.patches)} coasts, re-propagated forward, closes on the next patch point "
+            f"(the last on the insertion point) within {tr.details['closure_km']:.2e} km"]
     if args.plot:
         from cr3bp.plotting import save
         from cr3bp.plotting.low_energy import plot_low_energy
