@@ -687,6 +687,69 @@ def optimise(origin, target, *, system=None, impulses=3, max_tof=None, start="pa
 
 # ---- routes, export, scenarios ---------------------------------------------------------
 
+def low_energy_transfer(target, parking="parking earth 200km", *, system="earth-moon", epoch=None,
+                        inclination=None, max_tof="130d", progress=None):
+    """A low-energy (ballistic) transfer with the Sun's pull from an Earth parking orbit to an
+    Earth-Moon periodic orbit, designed in the bicircular model (``librate connect --path
+    low-energy``).
+
+    Parameters
+    ----------
+    target : PeriodicOrbit or str
+        The target orbit, or a request (``"halo L2 south resonance=9:2"``).
+    parking : str
+        ``"parking earth ALTITUDE"`` (100 km to 50 000 km).
+    system : System or str
+        The Earth-Moon system (when ``target`` is a request).
+    epoch : str, optional
+        The launch date (ISO 8601): the Sun's phase at the departure burn is the date's.
+        Without it the Sun's phase is searched over a full synodic month.
+    inclination : float, optional
+        Parking-orbit inclination to the Moon's orbit plane, degrees (default: free).
+    max_tof : str or float
+        Longest time of flight (default ``"130d"``; a number is in days), more than 70 d and at most 200 d.
+
+    Returns
+    -------
+    cr3bp.transfers.low_energy.LowEnergyTransfer
+        Immutable: ``.maneuvers`` (departure, insertion), ``.dv_mps``, ``.departure_dv_mps``,
+        ``.insertion_dv_mps``, ``.c3_km2_s2``, ``.tof_days``, ``.max_distance_km``,
+        ``.sun_phase_deg``, ``.departure_epoch``, ``.optimised``, ``.to_dict()`` -- all in the
+        bicircular model.
+
+    Raises
+    ------
+    InputError
+        Not a parking orbit about the Earth, a value out of range, a bad date.
+    NoSolutionError
+        The search finds no transfer in the time-of-flight window.
+
+    References
+    ----------
+    Parker & Anderson, *Low-Energy Lunar Trajectory Design*, 2013, ch. 3; Boudad, Howell &
+    Davis, Adv. Space Res. 66, 2020 (the model); see :mod:`cr3bp.transfers.low_energy`.
+    """
+    from .orbits.orbit import PeriodicOrbit  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .transfers.low_energy import MIN_TOF_DAYS, design_low_energy  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .validate import quantity  # lazy: start-up: keeps cr3bp.api free of numpy
+    sysm = target.system if isinstance(target, PeriodicOrbit) else _as_system(system)
+    pk = _parking(parking, sysm) if isinstance(parking, str) else None
+    if pk is None or pk[0] != 0:
+        raise InputError(f"parking = {parking!r}: give 'parking earth ALTITUDE', e.g. 'parking earth 200km'")
+    if not 100.0 <= pk[1] <= 50_000.0:
+        raise InputError(f"parking altitude {pk[1]:g} km in {parking!r}; allowed: 100 km to 50000 km")
+    tof = float(max_tof) if isinstance(max_tof, (int, float)) else \
+        sysm.days(quantity("max_tof", _text(max_tof), "time", sysm, sign="positive", default_unit="d"))
+    if not MIN_TOF_DAYS < tof <= 200.0:
+        raise InputError(f"max_tof = {max_tof!r}; allowed: more than {MIN_TOF_DAYS:g} d, at most 200 d")
+    orb = target if isinstance(target, PeriodicOrbit) else orbit(sysm, target)
+    return design_low_energy(orb, pk[1], epoch=epoch, inclination_deg=inclination, max_tof_days=tof,
+                             progress=progress)
+
+
+# ---- routes, export, scenarios ---------------------------------------------------------
+
+
 def route(system, nodes, start, goal, *, objective="dv", best=1, max_dv=None, max_tof=None,
           min_altitude=None, max_legs=None, through=(), avoid=(), workers=1, catalog=None, tof=None,
           progress=None):

@@ -608,6 +608,19 @@ def value_cases():
     add("connect-start-without-optimise", BASE["connect"] + ["--start=sweep"])
     add("connect-optimise-no-units", ["connect", "--mu=0.01", "--from=lyapunov L1 jacobi=3.0",
                                       "--to=lyapunov L2 jacobi=3.0", "--optimise"])
+    # connect --path low-energy (bicircular model): refused before any orbit is solved
+    for v in ("60d", "70d", "300d", "-5d", "nand"):
+        add(f"connect-low-energy-max-tof-{v}", dep + ["--path=low-energy", f"--max-tof={v}"])
+    for v in ("yesterday", "2027-13-01T00:00:00Z", "1500-01-01T00:00:00Z"):
+        add(f"connect-low-energy-epoch-{v}", dep + ["--path=low-energy", f"--epoch={v}"])
+    add("connect-low-energy-from-the-moon", C + ["--from=parking moon 100km", "--to=halo L2 south resonance=9:2",
+                                                 "--path=low-energy"])
+    add("connect-low-energy-altitude-60000km", C + ["--from=parking earth 60000km",
+                                                     "--to=halo L2 south resonance=9:2", "--path=low-energy"])
+    add("connect-low-energy-inclination-200deg", dep + ["--path=low-energy", "--inclination=200deg"])
+    add("connect-low-energy-plot-suffix", dep + ["--path=low-energy", "--plot={out}/d.jpg"])
+    add("connect-epoch-with-direct", dep + ["--path=direct", "--epoch=2027-03-01T00:00:00Z"])
+    add("connect-epoch-without-path", dep + ["--epoch=2027-03-01T00:00:00Z"])
     # graph and route
     for name in ("binary", "deep", "folder", "missing"):
         add(f"graph-nodes-{name}", ["graph", "build", EM, f"--nodes={{in}}/{name}.toml", "--workers=1", "--no-catalog"])

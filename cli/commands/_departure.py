@@ -4,7 +4,7 @@ periodic orbit (direct, or past the Moon), designed by optimisation in the CR3BP
 
 from .. import common
 
-PATH_CHOICES = ("direct", "lunar-flyby")
+PATH_CHOICES = ("direct", "lunar-flyby", "low-energy")
 
 
 def add_arguments(p):
@@ -14,10 +14,12 @@ def add_arguments(p):
                         "orbit (--to) by optimisation in the CR3BP instead of following manifolds: 'direct' "
                         "(departure burn, coast, insertion burn) or 'lunar-flyby' (departure burn, coast to a "
                         "close lunar periapsis where a powered flyby burn is made, coast, insertion burn); "
-                        "least total delta-v over the departure phase, times of flight and insertion point")
+                        "least total delta-v over the departure phase, times of flight and insertion point; "
+                        "or 'low-energy' (a ballistic transfer out to about 1.5 million km where the Sun's pull "
+                        "raises the perigee, 70-130 d, designed in the bicircular Sun-Earth-Moon model; see --epoch)")
     g.add_argument("--max-tof", default=None, metavar="TIME",
                    help="longest time of flight, departure to insertion, with its unit (default 150d; "
-                        "at most 400d)")
+                        "at most 400d; with --path low-energy default 130d, more than 70d, at most 200d)")
     g.add_argument("--min-flyby-altitude", default=None, metavar="LENGTH",
                    help="--path lunar-flyby: least altitude of the lunar flyby over the Moon's mean radius, "
                         "with its unit (default 100km; above 0 to 20000km)")
@@ -25,6 +27,8 @@ def add_arguments(p):
                    help="inclination of the parking orbit to the Moon's orbit plane (the model's x-y plane), "
                         "e.g. 28.5deg (default: free). The CR3BP has no Earth equator: the equator is "
                         "inclined 18.3-28.6 deg to the Moon's orbit plane, depending on the date")
+    from . import _low_energy
+    _low_energy.add_arguments(g)
 
 
 def _angle_deg(text):
@@ -80,6 +84,12 @@ HEADERS = ["maneuver", "t_days", "dv_mps", "x_km", "y_km", "z_km"]
 
 
 def run(args, system, parking):
+    if args.path == "low-energy":
+        from . import _low_energy
+        return _low_energy.run(args, system, parking)
+    if getattr(args, "epoch", None) is not None:
+        from cr3bp.errors import InputError
+        raise InputError(f"--epoch dates a low-energy transfer; it does not apply with --path {args.path}")
     from cr3bp.transfers.departure import design_departure
     from . import _tube_options as to
     alt, tof, inc, fb = check(args, system, parking)

@@ -117,6 +117,8 @@ def run(args):
     _optimise.check_unused(args)
     if args.path is not None:
         return _departure.run(args, system, pa)
+    if args.epoch is not None:
+        raise InputError("--epoch dates a low-energy transfer; give it with --path low-energy")
     within_km = None
     if args.arrival_within is not None:
         within_km = units.length(args.arrival_within, system)

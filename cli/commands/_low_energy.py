@@ -1,0 +1,88 @@
+"""librate connect --path low-energy: a ballistic lunar transfer with the Sun's pull from an
+Earth parking orbit to an Earth-Moon periodic orbit, designed in the bicircular model
+(:mod:`cr3bp.transfers.low_energy`)."""
+
+from .. import common
+
+MODEL = "bicircular"
+
+
+def add_arguments(g):
+    g.add_argument("--epoch", default=None, metavar="ISO",
+                   help="--path low-energy: the launch date (ISO 8601; Z = UTC, or a trailing TDB/TT/TAI/UTC): "
+                        "the Sun's phase at the departure burn is the date's. Without it the Sun's phase is "
+                        "searched over a full synodic month, which holds every Sun-Earth-Moon geometry a year "
+                        "of launch dates brings in the bicircular model")
+
+
+def check(args, system, parking):
+    """Everything --path low-energy refuses, before any work: (altitude_km, max_tof_days,
+    inclination_deg or None, epoch TDB seconds or None)."""
+    from cr3bp.errors import InputError
+    from cr3bp.time.frames import epoch_from_text
+    from cr3bp.transfers.low_energy import MAX_TOF_DAYS, MIN_TOF_DAYS
+    from . import _departure
+    given = args.max_tof is not None
+    alt, tof, inc = _departure.check(args, system, parking)
+    if not given:
+        tof = MAX_TOF_DAYS
+    elif not MIN_TOF_DAYS < tof <= 200.0:
+        raise InputError(f"--max-tof {args.max_tof!r} with --path low-energy; allowed: more than "
+                         f"{MIN_TOF_DAYS:g}d (the shortest low-energy flight searched) up to 200d")
+    epoch = None
+    if args.epoch is not None:
+        from cr3bp.bicircular import sun_phase_at
+        epoch = epoch_from_text(args.epoch)
+        sun_phase_at(epoch, system)   # a date outside the ephemeris is refused here, before any work
+    return alt, tof, inc, epoch
+
+
+HEADERS = ["maneuver", "t_days", "dv_mps", "x_km", "y_km", "z_km"]
+
+
+def run(args, system, parking):
+    from cr3bp.transfers.low_energy import design_low_energy
+    from . import _tube_options as to
+    alt, tof, inc, epoch = check(args, system, parking)
+    if args.plot:
+        common.plot_file("--plot", args.plot)
+    orbit = to.orbit_from_request(system, args.target, args)
+    common.progress(args, f"librate connect: designing a low-energy transfer from {args.origin} in the "
+                    "bicircular model (backward sweep from the target, then correction; about a minute)...")
+    tr = design_low_energy(orbit, alt, epoch=epoch, inclination_deg=inc, max_tof_days=tof,
+                           progress=lambda m: common.progress(args, m))
+    d = tr.to_dict()
+    m_ = "bicircular"
+    rows = [[m["name"], m["t_days"], m["dv_mps"], *m["position_km"]] for m in d["maneuvers"]]
+    when = (f", departure {tr.departure_epoch}, insertion {tr.insertion_epoch} (UTC)"
+            if tr.departure_epoch else " (no date given: the phase is the design's)")
+    head = [f"{args.origin} -> {args.target}: low-energy transfer "
+            f"({'optimised' if tr.optimised else 'corrected onto the parking orbit, but the least-insertion search stopped short of its tolerance'}), "
+            "model: bicircular (Sun–Earth–Moon)",
+            f"{m_} total dv {tr.dv_mps:.1f} m/s: departure {tr.departure_dv_mps:.1f} m/s, insertion "
+            f"{tr.insertion_dv_mps:.2f} m/s",
+            f"{m_} time of flight {tr.tof_days:.2f} d (departure burn to insertion burn)",
+            f"{m_} greatest distance from the Earth {tr.max_distance_km:,.0f} km",
+            f"departure: C3 {tr.c3_km2_s2:.4f} km^2/s^2 (two-body, Earth), Earth-relative speed "
+            f"{tr.departure_speed_kms:.4f} km/s after the burn, parking-orbit inclination "
+            f"{tr.inclination_deg:.2f} deg to the Moon's orbit plane",
+            f"Sun phase at departure {tr.sun_phase_deg:.2f} deg from the Earth-Moon line (0 new moon, 180 full "
+            f"moon){when}",
+            "positions: Earth-Moon rotating frame, origin at the barycentre; t from the departure burn",
+            f"check: each of the {len(tr.patches)} coasts, re-propagated forward, closes on the next patch point "
+            f"(the last on the insertion point) within {tr.details['closure_km']:.2e} km"]
+    if args.plot:
+        from cr3bp.plotting import save
+        from cr3bp.plotting.low_energy import plot_low_energy
+        common.progress(args, "drawing the transfer...")
+        fig = plot_low_energy(tr)
+        save(fig, args.plot, f"{args.origin} -> {args.target}, low-energy: bicircular-model total dv "
+             f"{tr.dv_mps:.0f} m/s (departure {tr.departure_dv_mps:.0f}, insertion {tr.insertion_dv_mps:.1f} m/s), "
+             f"time of flight {tr.tof_days:.1f} d, Sun phase at departure {tr.sun_phase_deg:.0f} deg"
+             + (f" ({tr.departure_epoch})" if tr.departure_epoch else ""),
+             model="bicircular")
+        common.progress(args, f"wrote {args.plot}")
+    table = "\n".join(head) + "\n\n" + common.format_table(HEADERS, rows)
+    payload = {"from": args.origin, "to": args.target, "model": d["model"], "legs": [d]}
+    common.emit(args, payload=payload, headers=HEADERS, rows=rows, table=table, comments=head, model=MODEL)
+    return 0

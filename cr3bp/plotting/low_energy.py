@@ -1,0 +1,97 @@
+"""Figure of a low-energy transfer (:mod:`cr3bp.transfers.low_energy`): left, the transfer and
+the target orbit in the rotating Earth-Moon frame (x-y view); right, the same transfer in the
+Sun-Earth rotating frame (Earth at the origin, the Sun fixed on the -x axis), where the
+apogee's quadrant shows why the Sun raised the perigee. Both in the bicircular model."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from matplotlib.patches import Circle
+
+from ..integrate import propagate
+from .base import axis_labels, draw_lagrange_points, draw_primaries, legend_beside, new_figure, title
+
+MARKERS = {"departure": ("o", "tab:green"), "insertion": ("s", "tab:red")}
+
+
+def sun_earth_rotating(model, t, states):
+    """Earth-centred positions in the Sun-Earth rotating frame, LU: rotated so that the Sun
+    (at the angle ``theta(t)`` of the bicircular model from the Earth-Moon line) lies on -x.
+    ``t`` in TU, ``states`` (N, >=3) in the Earth-Moon rotating frame."""
+    s = np.atleast_2d(states)
+    rel = s[:, :3] - np.array([-model.system.mu, 0.0, 0.0])
+    a = math.pi - np.asarray(model.sun_angle(t), dtype=float)
+    c, sn = np.cos(a), np.sin(a)
+    return np.stack([c * rel[:, 0] - sn * rel[:, 1], sn * rel[:, 0] + c * rel[:, 1], rel[:, 2]], axis=1)
+
+
+def plot_low_energy(tr, n_per_segment=500):
+    """Two panels of the transfer ``tr`` (a LowEnergyTransfer); returns the figure."""
+    model = tr.model
+    system = model.system
+    t, states = tr.trajectory(n_per_segment)
+    T = float(tr.orbit.period)
+    orb = propagate(system, tr.orbit.state, T, t_eval=np.linspace(0.0, T, 400)).states
+    fig, axes = new_figure(2, 1, size=(14.0, 7.4))
+    fig.subplots_adjust(wspace=0.32, bottom=0.24)
+    # left: Earth-Moon rotating frame
+    ax = axes[0, 0] if axes.ndim == 2 else axes[0]
+    ax.plot(states[:, 0], states[:, 1], color="tab:blue", lw=1.0, label="low-energy transfer")
+    ax.plot(orb[:, 0], orb[:, 1], color="0.3", lw=1.2, label="target orbit")
+    for m in tr.maneuvers:
+        mk, col = MARKERS.get(m["name"], ("x", "k"))
+        dv = system.mps(np.linalg.norm(m["dv_vector"]))
+        ax.plot(m["position"][0], m["position"][1], mk, color=col, ms=6, zorder=8,
+                label=f"{m['name']} {dv:.2f} m/s (bicircular)")
+    draw_primaries(ax, system, view="xy", min_radius=0.02)
+    draw_lagrange_points(ax, system, view="xy")
+    ax.set_aspect("equal", adjustable="datalim")
+    axis_labels(ax, system, view="xy")
+    title(ax, "Earth-Moon rotating frame (x-y view; inset: x-z view near the Moon)")
+    leg = ax.legend(loc="upper left", bbox_to_anchor=(0.0, -0.11), ncol=3, fontsize=7, framealpha=0.9)
+    leg.set_gid("outside-data")
+    # inset: the arrival and the target orbit, x-z view, at the orbit's own scale
+    ins = ax.inset_axes([0.66, 0.02, 0.33, 0.33])
+    span = 1.3 * max(float(np.ptp(orb[:, 0])), float(np.ptp(orb[:, 2])))
+    cx, cz = 0.5 * (orb[:, 0].min() + orb[:, 0].max()), 0.5 * (orb[:, 2].min() + orb[:, 2].max())
+    ins.plot(states[:, 0], states[:, 2], color="tab:blue", lw=0.8)
+    ins.plot(orb[:, 0], orb[:, 2], color="0.3", lw=1.0)
+    m = tr.maneuvers[-1]
+    ins.plot(m["position"][0], m["position"][2], "s", color="tab:red", ms=5, zorder=8)
+    ins.add_patch(Circle((1.0 - system.mu, 0.0), system.radii[1], color="0.45", zorder=5))
+    ins.set_xlim(cx - span / 2, cx + span / 2)
+    ins.set_ylim(cz - span / 2, cz + span / 2)
+    ins.set_aspect("equal", adjustable="box")
+    ins.set_xticks([])
+    ins.set_yticks([])
+    ins.set_title(f"x-z, {system.km(span):,.0f} km across", fontsize=6.5)
+    # right: Sun-Earth rotating frame, Earth at the origin, Sun to the left
+    bx = axes[0, 1] if axes.ndim == 2 else axes[1]
+    se = sun_earth_rotating(model, t, states)
+    f = system.length_km / 1e6
+    moon = sun_earth_rotating(model, t, np.tile([1.0 - system.mu, 0.0, 0.0], (len(t), 1)))
+    bx.plot(moon[:, 0] * f, moon[:, 1] * f, color="0.6", lw=0.8, label="the Moon")
+    bx.plot(se[:, 0] * f, se[:, 1] * f, color="tab:blue", lw=1.0, label="low-energy transfer")
+    k = int(np.argmax(np.linalg.norm(se[:, :2], axis=1)))
+    bx.plot(se[k, 0] * f, se[k, 1] * f, "^", color="tab:purple", ms=7, zorder=8,
+            label=f"apogee {tr.max_distance_km / 1e6:.2f} million km")
+    for m in tr.maneuvers:
+        mk, col = MARKERS.get(m["name"], ("x", "k"))
+        p = sun_earth_rotating(model, m["t"], np.asarray(m["position"])[None, :])[0]
+        bx.plot(p[0] * f, p[1] * f, mk, color=col, ms=6, zorder=8, label=m["name"])
+    bx.add_patch(Circle((0.0, 0.0), system.primary.radius_km * 4 / 1e6, color="tab:blue", zorder=6, label="Earth (x4)"))
+    lim = 1.1 * max(float(np.max(np.abs(se[:, :2]))) * f, 0.5)
+    bx.axhline(0.0, color="0.85", lw=0.6, zorder=0)
+    bx.axvline(0.0, color="0.85", lw=0.6, zorder=0)
+    bx.annotate("to the Sun", xy=(-lim * 0.98, 0.0), xytext=(-lim * 0.75, -lim * 0.9), fontsize=8,
+                arrowprops=dict(arrowstyle="->", color="orange"), color="darkorange")
+    bx.set_xlim(-lim, lim)
+    bx.set_ylim(-lim, lim)
+    bx.set_aspect("equal", adjustable="box")
+    bx.set_xlabel("x [million km] (Sun-Earth rotating frame, Earth at the origin, Sun on -x)")
+    bx.set_ylabel("y [million km]")
+    title(bx, "Sun-Earth rotating frame")
+    legend_beside(bx)
+    return fig
