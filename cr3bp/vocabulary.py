@@ -64,6 +64,14 @@ TORUS_FAMILIES = ("lissajous", "quasi-halo")
 #: The targets of a torus request (``KEY=VALUE`` after the family or the orbit).
 TORUS_TARGETS = ("ay", "az", "amplitude", "jacobi", "period", "frequency-ratio")
 
+# ---- departures from a parking orbit -------------------------------------------------------
+
+#: Paths of a departure from an Earth parking orbit (``librate connect --path``): the two
+#: designed in the CR3BP (:mod:`cr3bp.transfers.departure`) and the low-energy one designed in
+#: the bicircular model (:mod:`cr3bp.transfers.low_energy`).
+CR3BP_DEPARTURE_PATHS = ("direct", "lunar-flyby")
+DEPARTURE_PATHS = CR3BP_DEPARTURE_PATHS + ("low-energy",)
+
 # ---- frames, centres, time -----------------------------------------------------------------
 
 #: Axes of exported states: J2000 mean equator (EME2000), J2000 mean ecliptic, or the CR3BP

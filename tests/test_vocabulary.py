@@ -216,3 +216,13 @@ def test_every_scenario_centre_is_one_the_run_resolves():
         return True
     assert [w for w in vocabulary.CENTERS if not any(resolves(s, w) for s in systems)] == []
     assert all(resolves(s, w) for s in systems for w in vocabulary.CENTER_ROLES)
+
+
+def test_departure_paths_are_one_list():
+    """The --path choices of `librate connect`, the paths the CR3BP departure design accepts and
+    the low-energy path are the one list of cr3bp.vocabulary (found at merge: the command and
+    the library each kept their own)."""
+    from cr3bp.transfers import departure, low_energy
+    from librate_cli.commands import _departure
+    assert tuple(_departure.PATH_CHOICES) == vocabulary.DEPARTURE_PATHS
+    assert tuple(departure.PATHS) + (low_energy.LowEnergyTransfer.path,) == vocabulary.DEPARTURE_PATHS

@@ -2,9 +2,11 @@
 periodic orbit (direct, or past the Moon), designed by optimisation in the CR3BP
 (:mod:`cr3bp.transfers.departure`)."""
 
+from cr3bp.vocabulary import DEPARTURE_PATHS
+
 from .. import common
 
-PATH_CHOICES = ("direct", "lunar-flyby", "low-energy")
+PATH_CHOICES = DEPARTURE_PATHS
 
 
 def add_arguments(p):

@@ -64,6 +64,7 @@ import numpy as np
 from scipy.optimize import brentq, minimize
 
 from .. import validate
+from ..vocabulary import CR3BP_DEPARTURE_PATHS
 from ..errors import ConvergenceError, InputError, NoSolutionError, StateError
 from ..integrate import impact, propagate
 from ..io.plain import plain as _plain
@@ -71,7 +72,7 @@ from ..tubes.manifolds import describe
 from .lambert import lambert
 from .leg import Leg, Maneuver
 
-PATHS = ("direct", "lunar-flyby")
+PATHS = CR3BP_DEPARTURE_PATHS
 #: Paths whose design is unfinished (refused by :func:`design_departure`).
 UNFINISHED_PATHS = ()
 RTOL = ATOL = 1e-12
@@ -550,7 +551,6 @@ def _flyby_guesses(pb: _Problem):
 
     Returns rows ``(score, x0)``, ``x0`` the start of :class:`_FlybyShooting`."""
     s = pb.system
-    vk = s.velocity_kms
     moon = np.array([s.positions[1], 0.0, 0.0])
     earth = np.array([s.positions[0], 0.0, 0.0])
     day = 1.0 / s.days(1.0)
