@@ -29,8 +29,12 @@ from cr3bp.errors import InputError
 from cr3bp.transfers import optimise as O
 from cr3bp.transfers.leg import Leg
 
-#: Closure tolerance of a reported transfer re-propagated with scipy's DOP853 (km): 10 m.
-CLOSURE_TOL_KM = 0.01
+#: Closure tolerance of a reported transfer re-propagated with scipy's DOP853 (km): 50 m. The
+#: shooting boundaries join to about 1e-11 LU (4 mm), but one coast of ~19 days along the halos'
+#: unstable directions amplifies that some 4000 times: measured 15.9 m at the end of the L1 -> L2
+#: halo transfer's second coast (2026-12-03, after the merges), 0.1 m on its first coast. The
+#: design reports the same number as ``details["closure_km"]``.
+CLOSURE_TOL_KM = 0.05
 #: The two-impulse targeted leg L1 halo -> 9:2 NRHO of the transfer graph (the issue's numbers).
 GRAPH_NRHO_LEG_MPS = (599.0, 609.0)
 #: The manifold patch L1 halo -> L2 northern halo (the issue's number; measured here too).

@@ -23,7 +23,7 @@ def check(args, system, parking):
     from cr3bp.transfers.low_energy import MAX_TOF_DAYS, MIN_TOF_DAYS
     from . import _departure
     given = args.max_tof is not None
-    alt, tof, inc = _departure.check(args, system, parking)
+    alt, tof, inc, _ = _departure.check(args, system, parking)     # (the flyby altitude: not this path)
     if not given:
         tof = MAX_TOF_DAYS
     elif not MIN_TOF_DAYS < tof <= 200.0:
