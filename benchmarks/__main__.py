@@ -31,20 +31,20 @@ _ABS = re.compile(r"^\s*<\s*([0-9.]+)\s*s\b")
 
 
 def judge(seconds, baseline_seconds, target):
-    """(ratio, verdict) of one row; verdict is "yes", "NO", "-" (not judged) or "skipped"."""
+    """(ratio, verdict) of one row; verdict is "MET", "NOT MET", "-" (not judged) or "skipped"."""
     if seconds is None:
         return None, "skipped"
     ratio = baseline_seconds / seconds if baseline_seconds and seconds > 0 else None
     m = _RATIO.match(target or "")
     if m and ratio is not None:
-        return ratio, "yes" if ratio >= float(m.group(1)) else "NO"
+        return ratio, "MET" if ratio >= float(m.group(1)) else "NOT MET"
     if ratio is not None and _NO_SLOWER.match(target or ""):
-        return ratio, "yes" if ratio >= 1.0 else "NO"
+        return ratio, "MET" if ratio >= 1.0 else "NOT MET"
     if ratio is not None and _FASTER.match(target or ""):
-        return ratio, "yes" if ratio > 1.0 else "NO"
+        return ratio, "MET" if ratio > 1.0 else "NOT MET"
     m = _ABS.match(target or "")
     if m:
-        return ratio, "yes" if seconds < float(m.group(1)) else "NO"
+        return ratio, "MET" if seconds < float(m.group(1)) else "NOT MET"
     return ratio, "-"
 
 
