@@ -1030,10 +1030,11 @@ def torus(orbit=None, amplitude=None, *, hold="jacobi", lissajous=None, members=
         point = str(point).upper()
         if point not in ("L1", "L2"):
             raise InputError(f"Lissajous point {lissajous[1]!r}: allowed L1, L2")
-        ay_lu = length(_text(ay), sysm, default_unit="km")
-        az_lu = length(_text(az), sysm, default_unit="km")
-        if not (ay_lu > 0 and az_lu > 0):
-            raise InputError(f"Lissajous amplitudes ay {ay!r}, az {az!r} must be positive lengths")
+        from .validate import quantity  # lazy: start-up: keeps cr3bp.api free of numpy
+        ay_lu = quantity("Lissajous amplitude ay", _text(ay), "length", sysm, sign="positive",
+                         default_unit="km")
+        az_lu = quantity("Lissajous amplitude az", _text(az), "length", sysm, sign="positive",
+                         default_unit="km")
         t = _lissajous(sysm, point, ay_lu, az_lu, progress=progress, catalog=catalog)
     else:
         from .tori import torus_around  # lazy: start-up: keeps cr3bp.api free of numpy
@@ -1118,9 +1119,9 @@ def shadow(orbit, epoch, *, span="365d", step="5min", phase=0.0, bodies=("earth"
     step_s = q.nondim(sysm) * sysm.time_s if q.unit == "TU" else q.si()
     if not 10.0 <= step_s <= 3600.0:
         raise InputError(f"step '{step}' is {step_s:g} s; allowed 10 s to 1 h")
-    phase_deg = placement.parse_phase(phase) if isinstance(phase, str) else float(phase)
-    if not math.isfinite(phase_deg):
-        raise InputError(f"phase {phase!r} must be a finite angle")
+    from .validate import finite_number  # lazy: start-up: keeps cr3bp.api free of numpy
+    phase_deg = (placement.parse_phase(phase) if isinstance(phase, str)
+                 else finite_number("phase (degrees)", phase))
     t0 = frames.epoch_from_text(epoch)
     span_s = ex.parse_span(str(span), sysm, float(orbit.period)) * sysm.time_s
     if span_s > 20 * 365.25 * 86400.0:

@@ -53,17 +53,13 @@ from .integrate.status import DEFAULT_MAX_STEPS
 from .time import ephemeris
 from .time.frames import epoch_from_text
 from .time.scales import Epoch
-from .validate import finite_number
+from .validate import finite_number, number_in
 
 #: Status of a default-built model, shown by ``to_dict`` (where its numbers come from).
 SOURCE = ("equations: Boudad, Howell & Davis, Adv. Space Res. 66, 2020, section 2 (from memory); "
           "Sun GM and Earth+Moon GM: data/systems.toml; Sun-barycentre distance: 1 au, IAU 2012 "
           "Resolution B2; omega_s = sqrt((1 + m_s)/a_s^3) - 1")
 _TWO_PI = 2.0 * math.pi
-
-
-def _finite(name, value) -> float:
-    return finite_number(name, value)
 
 
 @dataclass(frozen=True)
@@ -99,15 +95,13 @@ class BicircularSystem:
         mu = getattr(self.system, "mu", None)
         if mu is None:
             raise InputError("a bicircular model needs the System of its two primaries")
-        ms = _finite("sun_mass_ratio", self.sun_mass_ratio)
-        a_s = _finite("sun_distance", self.sun_distance)
-        _finite("sun_rate", self.sun_rate)
-        _finite("sun_phase", self.sun_phase)
+        number_in("sun_mass_ratio", self.sun_mass_ratio, 0.0)
+        a_s = finite_number("sun_distance", self.sun_distance)
+        finite_number("sun_rate", self.sun_rate)
+        finite_number("sun_phase", self.sun_phase)
         if self.epoch_tdb_s is not None:
-            _finite("epoch_tdb_s", self.epoch_tdb_s)
-        if ms < 0.0:
-            raise InputError(f"sun_mass_ratio = {ms!r} must be at least 0")
-        if a_s <= 2.0:
+            finite_number("epoch_tdb_s", self.epoch_tdb_s)
+        if a_s <= 2.0:  # a physical rule (the Sun outside the primaries' orbit), kept here
             raise InputError(f"sun_distance = {a_s!r} LU must exceed 2 LU (the Sun is far "
                              "outside the primaries' orbit)")
 
@@ -210,7 +204,7 @@ def bicircular_system(system="earth-moon", *, sun_phase=0.0, epoch=None) -> Bici
     if names != ("earth", "moon"):
         raise InputError(f"the bicircular model is set up for the earth-moon system only; got "
                          f"'{sys_.name}'")
-    phase = _finite("sun_phase", sun_phase)
+    phase = finite_number("sun_phase", sun_phase)
     m_s, a_s, w_s = sun_parameters(sys_)
     epoch_s = None
     if epoch is not None:
@@ -226,7 +220,7 @@ def bicircular_system(system="earth-moon", *, sun_phase=0.0, epoch=None) -> Bici
 def _epoch_seconds(epoch) -> float:
     if isinstance(epoch, str):
         return epoch_from_text(epoch)
-    return _finite("epoch", epoch)
+    return finite_number("epoch", epoch)
 
 
 def sun_angles_at(epoch, system="earth-moon") -> tuple[float, float]:

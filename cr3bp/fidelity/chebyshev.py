@@ -19,6 +19,7 @@ import numpy as np
 from numba import njit
 
 from ..errors import InputError
+from ..validate import finite_number, whole_number
 
 
 @dataclass(frozen=True)
@@ -106,10 +107,11 @@ def fit(sample, t0: float, t1: float, n_segments: int, degree: int, n_bodies: in
     Press, W. H., Teukolsky, S. A., Vetterling, W. T. & Flannery, B. P., "Numerical Recipes",
     3rd ed., Cambridge University Press (2007), sec. 5.8.
     """
-    if not (np.isfinite(t0) and np.isfinite(t1) and t1 > t0):
-        raise InputError(f"Chebyshev span [{t0}, {t1}] must be finite and increasing")
-    if n_segments < 1 or not 2 <= degree <= 40:
-        raise InputError(f"n_segments = {n_segments} must be >= 1 and degree = {degree} in 2..40")
+    t0, t1 = finite_number("Chebyshev span start", t0), finite_number("Chebyshev span end", t1)
+    if not t1 > t0:
+        raise InputError(f"Chebyshev span [{t0}, {t1}] must be increasing")
+    n_segments = whole_number("n_segments", n_segments, 1)
+    degree = whole_number("degree", degree, 2, 40)
     h = (t1 - t0) / n_segments
     n = degree + 1
     k = np.arange(n)

@@ -21,6 +21,7 @@ import numpy as np
 from .. import systems
 from ..constants import AU_KM, GM_KM3_S2_DE430, SECONDS_PER_DAY, SOLAR_PRESSURE_1AU
 from ..errors import ConvergenceError, InputError
+from ..validate import number_in
 from ..time import ephemeris
 from ..time.frames import _epoch
 from ..integrate import dop853
@@ -229,10 +230,9 @@ def build(system, epoch_tdb_s: float, t0_tu: float, t1_tu: float, central: str, 
         raise InputError(f"unknown central body '{central}'; allowed: {', '.join(BODY_NAMES)}")
     bodies = tuple(b for b in parse_bodies(bodies) if b != central)
     if srp is not None:
-        am, cr = (float(v) for v in srp)
-        if not (math.isfinite(am) and am >= 0.0 and math.isfinite(cr) and 0.0 <= cr <= 2.0):
-            raise InputError(f"radiation pressure {srp!r}: area-to-mass must be >= 0 m2/kg and Cr in [0, 2]")
-        srp = (am, cr)
+        am, cr = srp
+        srp = (number_in("radiation pressure area-to-mass (m2/kg)", am, 0.0),
+               number_in("radiation pressure coefficient Cr", cr, 0.0, 2.0))
         if central == "sun":
             raise InputError("radiation pressure about the Sun is not modelled (the Sun-line is the origin)")
     fitted = bodies + (("sun",) if srp is not None and "sun" not in bodies else ())

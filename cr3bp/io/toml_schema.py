@@ -11,7 +11,6 @@ lists (:mod:`cr3bp.transfers.nodes`) are both read through it.
 
 from __future__ import annotations
 
-import math
 import re
 import tomllib
 from dataclasses import dataclass
@@ -19,6 +18,7 @@ from pathlib import Path
 
 from ..errors import InputError, shown
 from .. import units
+from ..validate import finite_number
 
 __all__ = ["Problem", "ScenarioError", "check_document", "line_index", "line_of", "key_parts", "path_text",
            "read_text", "parse_toml", "MAX_FILE_BYTES", "MAX_TEXT_CHARS",
@@ -449,9 +449,12 @@ def check_document(data: dict, lines: dict, file: str, schema: dict, text: str |
         elif typ == F:
             if isinstance(v, bool) or not isinstance(v, (int, float)):
                 bad(full, v, "a number")
-            elif not math.isfinite(v):
-                problems.append(Problem(file, line(full), full,
-                                        f"{written(full, v)} is not a finite number"))
+            else:
+                try:
+                    finite_number(full, v)
+                except InputError:  # named as the user wrote it (TOML reads 1e309 as inf)
+                    problems.append(Problem(file, line(full), full,
+                                            f"{written(full, v)} is not a finite number"))
         elif typ == I:
             if isinstance(v, bool) or not isinstance(v, int):
                 bad(full, v, "a whole number")

@@ -20,6 +20,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
+from ..validate import positive_number
 from . import eclipses, visibility
 from .phasing import STEP_S, History
 from ..time import frames
@@ -157,8 +158,7 @@ def samples(track: Track, step_s: float = STEP_S, start_tdb_s=None, end_tdb_s=No
     t1 = track.end_tdb_s if end_tdb_s is None else float(end_tdb_s)
     if not (t0 >= track.start_tdb_s - EDGE_SLACK_S and t1 <= track.end_tdb_s + EDGE_SLACK_S and t1 > t0):
         raise InputError("the requested span lies outside the trajectory")
-    if not (math.isfinite(step_s) and step_s > 0):
-        raise InputError(f"step {step_s!r} s must be positive")
+    step_s = positive_number("step (s)", step_s)
     n = int(math.floor((t1 - t0) / step_s * (1 + 1e-12))) + 1
     if n > MAX_SAMPLES:
         raise InputError(f"{n} samples exceed the limit of {MAX_SAMPLES}; use a larger step")

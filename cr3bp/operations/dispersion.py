@@ -627,15 +627,14 @@ def dispersion(nom: Nominal, corrections_tu, errors: Errors, trials: int, seed: 
     """
     if not isinstance(errors, Errors):
         raise InputError("errors must be an Errors")
-    n = int(trials)
-    if not 1 <= n <= 1_000_000:
-        raise InputError(f"trials {trials!r} must be in 1..1000000")
+    n = validate.whole_number("trials", trials, 1, 1_000_000)
     s = nom.system
     c = np.atleast_1d(np.asarray(corrections_tu, dtype=float))
     if c.size > MAX_CORRECTIONS:
         raise InputError(f"{c.size} corrections; at most {MAX_CORRECTIONS}")
-    if c.size and (not np.all(np.isfinite(c)) or np.any(np.diff(c) <= 0)):
-        raise InputError("correction times must be finite and increasing")
+    c = np.array([validate.finite_number("correction time (TU)", v) for v in c], dtype=float)
+    if np.any(np.diff(c) <= 0):
+        raise InputError("correction times must be increasing")
     lo, hi = 0.0, nom.tf_tu * (1.0 - MIN_LEAD)
     bad = c[(c <= lo) | (c > hi)]
     if bad.size:

@@ -258,8 +258,8 @@ def scan(placed, sk: Sky, n_phases: int = 36, max_pass_min: float | None = None,
     Springer (2000), sec. 3.4.2.
     """
     n_phases = validate.whole_number("number of phases", n_phases, 1, 3600)
-    if max_pass_min is not None and not (math.isfinite(max_pass_min) and max_pass_min >= 0):
-        raise InputError(f"maximum eclipse duration {max_pass_min!r} min must be zero or positive")
+    if max_pass_min is not None:
+        max_pass_min = validate.number_in("maximum eclipse duration (min)", max_pass_min, 0.0)
     hs = [history(placed, sk, 360.0 * k / n_phases, bodies) for k in range(n_phases)]
     return sorted(hs, key=lambda h: rank(h, max_pass_min))
 

@@ -17,7 +17,7 @@ from .. import units
 from ..constants import SECONDS_PER_DAY, SIDEREAL_MONTH_DAYS, SIDEREAL_YEAR_DAYS
 from ..errors import InputError, UnitError
 from ..vocabulary import LENGTH_TARGETS, ORBIT_TARGETS
-from ..validate import finite_number
+from ..validate import finite_number, whole_number
 
 SYNODIC_MONTH_DAYS = 1.0 / (1.0 / SIDEREAL_MONTH_DAYS - 1.0 / SIDEREAL_YEAR_DAYS)
 
@@ -131,13 +131,10 @@ def parse_resonance(text: str) -> tuple[int, int]:
     >>> parse_resonance("9:2")
     (9, 2)
     """
-    try:
-        a, b = str(text).split(":")
-        p, q = int(a), int(b)
-    except ValueError:
-        raise InputError(f"resonance '{text}' is not p:q with two positive integers, e.g. 9:2") from None
-    if p <= 0 or q <= 0:
-        raise InputError(f"resonance '{text}' needs two positive integers, e.g. 9:2")
+    parts = str(text).split(":")
+    if len(parts) != 2:
+        raise InputError(f"resonance '{text}' is not p:q with two positive integers, e.g. 9:2")
+    p, q = (whole_number(f"resonance '{text}' (p:q, e.g. 9:2): {w}", x, 1) for w, x in zip("pq", parts))
     return p, q
 
 

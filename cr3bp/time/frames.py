@@ -58,7 +58,7 @@ from ..vocabulary import ANCHORS, CENTER_ROLES, FRAMES, INERTIAL_FRAMES
 from ..vocabulary import TIME_SYSTEMS as _TIME_SYSTEMS
 from . import ephemeris
 from ..systems import system
-from ..validate import numbers
+from ..validate import finite_number, numbers
 from .scales import J2000_JD, Epoch, parse_iso, tai_minus_utc
 
 AXES = FRAMES
@@ -831,9 +831,8 @@ def frame(system, epoch, *, anchor="ephemeris", axes="j2000-equator", center="pr
     axes = _choice("frame", axes, AXES)
     center = resolve_center(system, center)
     check_center_axes(system, center, axes)
-    t0 = epoch_from_text(epoch, time_scale) if isinstance(epoch, str) else float(epoch)
-    if not math.isfinite(t0):
-        raise InputError(f"epoch {epoch!r} is not finite")
+    t0 = (epoch_from_text(epoch, time_scale) if isinstance(epoch, str)
+          else finite_number("epoch (TDB s since J2000)", epoch))
     ori = None
     if anchor == "circular":
         if orientation is None:

@@ -42,6 +42,7 @@ import numpy as np
 from ..constants import (DAYS_PER_JULIAN_MILLENNIUM, J2000_JD, MJD_ZERO_JD, SECONDS_PER_DAY,
                          TT_MINUS_TAI_S)
 from ..errors import InputError
+from ..validate import whole_number
 from ..vocabulary import TIME_SYSTEMS
 
 __all__ = [
@@ -805,8 +806,9 @@ class Epoch:
         the bare date-time is returned.
         """
         scale = _check_scale(scale)
-        if not (isinstance(decimals, (int, np.integer)) and 0 <= decimals <= MAX_DECIMALS):
+        if not isinstance(decimals, (int, np.integer)):  # text is not taken here, only integers
             raise InputError(f"decimals = {decimals!r}; allowed integers 0-{MAX_DECIMALS}")
+        decimals = whole_number("decimals", decimals, 0, MAX_DECIMALS)
         day, sec = self._day_seconds(scale)
         day = np.atleast_1d(day).ravel()
         sec = np.atleast_1d(sec).ravel()

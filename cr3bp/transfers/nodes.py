@@ -39,7 +39,7 @@ import numpy as np
 
 from ..io import toml_schema as schema_mod
 from .. import units, validate
-from ..errors import InputError, shown
+from ..errors import InputError, UnitError, shown
 from ..orbits.request import parse_request
 from ..vocabulary import HALO_BRANCHES
 
@@ -546,25 +546,31 @@ def parse_nodes(text: str, system, file: str = "<nodes>") -> NodeList:
             problems.append(P(file, line(f"{where}.to"), f"{where}.to", "a leg joins two different nodes"))
         try:
             dv = units.velocity(t["max_patch_dv"], system) if "max_patch_dv" in t else None
-            tof = units.time(t["tof"], system) if "tof" in t else None
-        except InputError as e:
+            tof = (validate.quantity("tof", t["tof"], "time", system, sign="positive")
+                   if "tof" in t else None)
+        except UnitError as e:
             problems.append(P(file, line(where), where, str(e)))
             continue
-        if tof is not None and not tof > 0:
-            problems.append(P(file, line(f"{where}.tof"), f"{where}.tof", "must be positive"))
+        except InputError as e:  # a tof that is not positive: reported on its own line
+            problems.append(P(file, line(f"{where}.tof"), f"{where}.tof", str(e)))
         hints.append(EdgeHint(t["from"], t["to"], t.get("maneuvers", "ends"),
                               None if dv is None else system.mps(dv), tuple(t.get("sections", ())),
                               None if tof is None else system.days(tof), t.get("both_ways", True)))
     settings = data.get("settings", {})
     tof_days = 6.0
     if "tof" in settings:
-        tof_tu = units.time(settings["tof"], system)
-        if not tof_tu > 0:
-            problems.append(P(file, line("settings.tof"), "settings.tof", "must be positive"))
-        tof_days = system.days(tof_tu)
+        try:
+            tof_days = system.days(validate.quantity("tof", settings["tof"], "time", system,
+                                                     sign="positive"))
+        except UnitError:
+            raise
+        except InputError as e:  # a tof that is not positive: one of the problems listed
+            problems.append(P(file, line("settings.tof"), "settings.tof", str(e)))
     patches = settings.get("patches", 4)
-    if not 2 <= patches <= 50:
-        problems.append(P(file, line("settings.patches"), "settings.patches", f"{patches} is outside 2..50"))
+    try:
+        validate.whole_number("patches", patches, 2, 50)
+    except InputError as e:
+        problems.append(P(file, line("settings.patches"), "settings.patches", str(e)))
     if problems:
         raise schema_mod.ScenarioError(sorted(problems, key=lambda p: (p.line, p.key)))
     return NodeList(data.get("system"), tuple(nodes), tuple(hints), tof_days, patches,

@@ -56,6 +56,7 @@ from scipy.optimize import minimize
 
 from ..dynamics import acceleration, jacobi
 from ..errors import ConvergenceError, InputError, NoSolutionError
+from ..validate import positive_number
 from ..integrate import propagate
 from ..io.plain import plain as _plain
 from ..threads import serial
@@ -578,8 +579,8 @@ def optimise_transfer(orbit_from, orbit_to, start: Start | None = None, *, impul
     t_clock = time.perf_counter()
     pa, pb = _OrbitPoints(orbit_from), _OrbitPoints(orbit_to)
     floor = DEFAULT_TOF_PERIODS * max(pa.period, pb.period)
-    if max_tof is not None and not (math.isfinite(max_tof) and max_tof > 0):
-        raise InputError(f"max_tof = {max_tof!r} TU must be a positive time")
+    if max_tof is not None:
+        max_tof = positive_number("max_tof (TU)", max_tof)
     if start is None:
         cap = max_tof if max_tof is not None else floor
         if progress:

@@ -9,13 +9,12 @@ the two polyline segments meeting there; the crossing time by Brent's method (Br
 
 from __future__ import annotations
 
-import math
 
 import numpy as np
 from scipy.optimize import brentq
 from scipy.spatial import cKDTree
 
-from ..errors import InputError
+from ..validate import positive_number
 from ..integrate import propagate
 from .manifolds import ATOL, RTOL
 
@@ -198,9 +197,8 @@ def arrival_time(system, segments, orbit, distance_km=None, path=None):
     Brent, R. P., "Algorithms for Minimization without Derivatives", Prentice-Hall (1973),
     ch. 4.
     """
-    d_km = arrival_distance_km(system) if distance_km is None else float(distance_km)
-    if not (math.isfinite(d_km) and d_km > 0):
-        raise InputError(f"arrival distance {distance_km!r} km must be a positive number")
+    d_km = (arrival_distance_km(system) if distance_km is None
+            else positive_number("arrival distance (km)", distance_km))
     lu = d_km / system.length_km if system.dimensional else d_km
     path = orbit_path(orbit) if path is None else path
     end = 0.0

@@ -488,9 +488,8 @@ def parse_until(texts, system, t_max=None) -> Stop:
             if n:
                 count = whole_number(f"crossing number in '{text}'", n, 1, 1000)
         elif kind == "time":
-            tmax = units.time(rest, system, default_unit="TU")
-            if not tmax > 0:
-                raise InputError(f"time limit in '{text}' must be positive")
+            tmax = quantity(f"time limit in '{text}'", rest, "time", system, sign="positive",
+                            default_unit="TU")
         elif kind == "altitude":
             body, _, h = rest.partition(":")
             p = primary_index(system, body)

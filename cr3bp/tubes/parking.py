@@ -21,6 +21,7 @@ import numpy as np
 from scipy.optimize import brentq
 
 from ..errors import ConvergenceError, InputError, NoSolutionError
+from ..validate import number_in
 from ..transfers.leg import Leg, Maneuver, _mps
 from .arrival import arrival_time
 from .manifolds import manifold_starts, describe
@@ -303,8 +304,7 @@ def parking_legs(orbit, primary, altitude_km, *, stability="stable", branch="int
     """
     system = orbit.system
     p = primary_index(system, primary)
-    if not (math.isfinite(altitude_km) and altitude_km >= 0):
-        raise InputError(f"parking altitude {altitude_km!r} km must be a non-negative number")
+    altitude_km = number_in("parking altitude (km)", altitude_km, 0.0)
     pm = pmap or periapsis_map(orbit, p, stability, branch, n_points, t_max=t_max,
                                step_km=step_km, progress=progress)
     alt = pm.altitude_km
