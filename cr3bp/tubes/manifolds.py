@@ -36,7 +36,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .. import units, validate
+from .. import validate
 from ..dynamics import jacobi as _jacobi, jacobian
 from ..display import Shown
 from ..equilibria import lagrange_point

@@ -20,7 +20,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.optimize import brentq
 
-from ..errors import ConvergenceError, InputError, NoSolutionError
+from ..errors import ConvergenceError, NoSolutionError
 from ..validate import number_in
 from ..transfers.leg import Leg, Maneuver, _mps
 from .arrival import arrival_time
