@@ -103,7 +103,24 @@ class InputError(LibrateError, ValueError):
 
 class RecordError(InputError):
     """A stored record (a leg record of the transfer graph, :data:`cr3bp.transfers.leg.RECORD_KEYS`)
-    that lacks a key or holds a value of the wrong kind; the message names the key."""
+    that lacks a key or holds a value of the wrong kind; the message names the key.
+
+    Parameters
+    ----------
+    message : str
+        One line naming the key, the value found and what is allowed.
+
+    Examples
+    --------
+    >>> err = RecordError("leg record: key 'tof' is missing")
+    >>> isinstance(err, InputError), err.exit_status
+    (True, 2)
+
+    References
+    ----------
+    The Python Standard Library documentation, "Built-in Exceptions" (typed exception
+    hierarchies; common practice).
+    """
 
 
 class UnknownSystemError(InputError, KeyError):

@@ -59,6 +59,18 @@ def transition_torus_arc(torus, epoch, span_tu: float, phase=(0.0, 0.0),
     ------
     InputError   a bad span, phase or count; ConvergenceError (multiple shooting).
 
+    Examples
+    --------
+    >>> tr = transition_torus_arc(torus, "2031-03-01T00:00:00Z", 4 * torus.stroboscopic_time)  # doctest: +SKIP
+
+    A span beyond the limit is refused before any work (a stand-in torus is enough to show it):
+
+    >>> from types import SimpleNamespace
+    >>> transition_torus_arc(SimpleNamespace(system=None, stroboscopic_time=3.0), 0.0, -1.0)
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: span -1.0 TU must be positive and at most 200 stroboscopic times (600 TU)
+
     References
     ----------
     Olikara & Scheeres, AAS 12-361, 2012 (the torus function); Golub & Van Loan, *Matrix

@@ -41,13 +41,41 @@ EDGE_SLACK_S = 1e-3
 class Track:
     """A trajectory at its epoch: rotating segments and the Earth-centred frame they map into.
 
-    Attributes
+    Parameters
     ----------
     system : System
-    spec : FrameSpec        the trajectory's frame (anchoring, epoch) with Earth-centred J2000
-                            mean-equator axes
-    segments : tuple        ``(t_tu (n,), states (n, 6))`` rotating, nondimensional, in time order
-    label : str             what the trajectory is (for outputs)
+        The system of the rotating frame.
+    spec : FrameSpec
+        The trajectory's frame (anchoring, epoch) with Earth-centred J2000 mean-equator axes.
+    segments : tuple
+        ``(t_tu (n,), states (n, 6))`` rotating, nondimensional, in time order; one cubic
+        Hermite interpolant per segment (a repeated time keeps its first sample, a segment of
+        fewer than two samples is dropped).
+    label : str, optional
+        What the trajectory is (for outputs).
+
+    Raises
+    ------
+    InputError
+        No segment of two or more samples.
+
+    Examples
+    --------
+    >>> tr = from_file("out/orbit.oem")                       # doctest: +SKIP
+    >>> tr.geocentric(tr.start_tdb_s)                         # doctest: +SKIP
+
+    A trajectory without two samples in any segment is refused when built:
+
+    >>> Track(None, None, ((np.array([0.0]), np.zeros((1, 6))),))
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: the trajectory has no segment of two or more samples
+
+    References
+    ----------
+    Fritsch, F. N. & Carlson, R. E., "Monotone Piecewise Cubic Interpolation", SIAM Journal on
+    Numerical Analysis 17(2) (1980) (cubic Hermite interpolation from values and derivatives;
+    common practice).
     """
 
     system: object
@@ -118,9 +146,35 @@ def from_file(path, epoch=None, system=None) -> Track:
     an epoch needs ``epoch`` (ISO text or TDB s) and ``system``: it is then anchored to the
     ephemeris at that epoch.
 
+    Parameters
+    ----------
+    path : str or path-like
+        The trajectory file.
+    epoch : str or float, optional
+        ISO text (Z = UTC) or TDB seconds since J2000 of the file's time 0; only for a
+        rotating-frame file without an epoch (refused for a file that sets its own).
+    system : str or System, optional
+        The system of such a file.
+
+    Returns
+    -------
+    Track
+        The file's segments in time order, labelled by the path.
+
     Raises
     ------
-    InputError   unreadable file, a system other than Earth-Moon or Sun-Earth, no frame
+    InputError   unreadable file, a system other than Earth-Moon or Sun-Earth, no frame, an
+                 epoch missing or given twice, a non-dimensional system
+
+    Examples
+    --------
+    >>> tr = from_file("out/orbit.oem")                       # doctest: +SKIP
+    >>> tr = from_file("out/orbit.csv", epoch="2031-03-01T00:00:00Z", system="earth-moon")  # doctest: +SKIP
+
+    References
+    ----------
+    CCSDS 502.0-B-3, "Orbit Data Messages", Blue Book, Consultative Committee for Space Data
+    Systems (2023) (the OEM files read).
     """
     data = export.read(path)
     spec = data.frame
@@ -144,7 +198,38 @@ def from_file(path, epoch=None, system=None) -> Track:
 
 def from_route(stitched, epoch, label: str = "") -> Track:
     """A stitched route (:class:`cr3bp.transfers.stitch.StitchedRoute`) with its time 0 at
-    ``epoch``, anchored to the ephemeris (the frame of ``librate route --epoch``)."""
+    ``epoch``, anchored to the ephemeris (the frame of ``librate route --epoch``).
+
+    Parameters
+    ----------
+    stitched : StitchedRoute
+        The route (its system must be Earth-Moon or Sun-Earth and dimensional).
+    epoch : str or float
+        ISO text (Z = UTC) or TDB seconds since J2000: the route's time 0.
+    label : str, optional
+        What the route is (default: its nodes joined by arrows).
+
+    Returns
+    -------
+    Track
+        The route's maneuver-free segments (one interpolant each).
+
+    Raises
+    ------
+    InputError
+        A bad epoch, or a system other than Earth-Moon or Sun-Earth.
+    EphemerisSpanError
+        An epoch outside the ephemeris tables.
+
+    Examples
+    --------
+    >>> tr = from_route(stitched, "2031-03-01T00:00:00Z")     # doctest: +SKIP
+
+    References
+    ----------
+    Folkner, W. M., Williams, J. G. & Boggs, D. H., "The Planetary and Lunar Ephemeris DE 421",
+    JPL IPN Progress Report 42-178 (2009) (the ephemeris that anchors the frame).
+    """
     spec = frames.frame(stitched.system, epoch, anchor="ephemeris", axes="j2000-equator", center="primary")
     traj = to_export(stitched, spec)
     segs = tuple((np.asarray(s.t_tu, float), np.asarray(s.states, float)) for s in traj.segments)
@@ -153,7 +238,39 @@ def from_route(stitched, epoch, label: str = "") -> Track:
 
 def samples(track: Track, step_s: float = STEP_S, start_tdb_s=None, end_tdb_s=None) -> np.ndarray:
     """Epochs (TDB s) every ``step_s`` over the track (or the part asked for), the last one at
-    its end."""
+    its end.
+
+    Parameters
+    ----------
+    track : Track
+        The trajectory (only its ``start_tdb_s`` and ``end_tdb_s`` are read).
+    step_s : float, optional
+        The sample step, s (default :data:`.phasing.STEP_S`).
+    start_tdb_s, end_tdb_s : float, optional
+        The part asked for, TDB s (default the whole track; :data:`EDGE_SLACK_S` of rounding
+        allowed at either end).
+
+    Returns
+    -------
+    numpy.ndarray
+        The epochs, TDB s, increasing.
+
+    Raises
+    ------
+    InputError
+        A span outside the track or empty, a step that is not positive, or more than
+        :data:`cr3bp.io.export.MAX_SAMPLES` samples.
+
+    Examples
+    --------
+    >>> from types import SimpleNamespace
+    >>> samples(SimpleNamespace(start_tdb_s=0.0, end_tdb_s=1000.0), 300.0)
+    array([   0.,  300.,  600.,  900., 1000.])
+
+    References
+    ----------
+    None: uniform sampling with the end kept (common practice).
+    """
     t0 = track.start_tdb_s if start_tdb_s is None else float(start_tdb_s)
     t1 = track.end_tdb_s if end_tdb_s is None else float(end_tdb_s)
     if not (t0 >= track.start_tdb_s - EDGE_SLACK_S and t1 <= track.end_tdb_s + EDGE_SLACK_S and t1 > t0):
@@ -169,7 +286,36 @@ def samples(track: Track, step_s: float = STEP_S, start_tdb_s=None, end_tdb_s=No
 
 
 def geometry(track: Track):
-    """The callable :func:`.eclipses.find_passes` needs: positions about the Earth at any epochs."""
+    """The callable :func:`.eclipses.find_passes` needs: positions about the Earth at any epochs.
+
+    Parameters
+    ----------
+    track : Track
+        The trajectory.
+
+    Returns
+    -------
+    callable
+        ``at(tdb_s)`` -> dict of ``spacecraft``, ``sun``, ``moon`` and ``earth`` positions
+        (N, 3), km, geocentric J2000 mean-equator axes.
+
+    Raises
+    ------
+    None
+        The callable raises :class:`~cr3bp.errors.EphemerisSpanError` for epochs outside the
+        ephemeris tables.
+
+    Examples
+    --------
+    >>> at = geometry(track)                                  # doctest: +SKIP
+    >>> at([track.start_tdb_s])["sun"].shape                  # doctest: +SKIP
+    (1, 3)
+
+    References
+    ----------
+    Montenbruck, O. & Gill, E., "Satellite Orbits: Models, Methods and Applications",
+    Springer (2000), sec. 3.4.2 (conical shadow geometry).
+    """
 
     def at(t):
         t = np.asarray(t, dtype=float)
@@ -183,7 +329,37 @@ def geometry(track: Track):
 class Shadows:
     """What :func:`shadows` finds along a track: the passes (as a :class:`.phasing.History` of
     phase 0), the sample epochs, the geocentric positions and the angles there, the station
-    windows."""
+    windows.
+
+    Parameters
+    ----------
+    history : History
+        The eclipse passes over the track's span.
+    tdb_s : numpy.ndarray, shape (N,)
+        Sample epochs, TDB s.
+    position_km : numpy.ndarray, shape (N, 3)
+        Spacecraft positions about the Earth, km, J2000 mean-equator axes.
+    sun_earth_spacecraft_deg, moon_earth_spacecraft_deg : numpy.ndarray, shape (N,)
+        Angles at the Earth (vertex) between the Sun or the Moon and the spacecraft, deg.
+    windows : tuple
+        The station windows (:func:`.visibility.windows`).
+
+    Examples
+    --------
+    >>> from cr3bp.operations.phasing import History
+    >>> sh = Shadows(History(0.0, (), 600.0), np.array([0.0, 600.0]),
+    ...              np.array([[7000.0, 0.0, 0.0], [0.0, 7000.0, 0.0]]),
+    ...              np.array([90.0, 80.0]), np.array([30.0, 40.0]), ())
+    >>> sh.range_km
+    array([7000., 7000.])
+    >>> sh.to_dict()["angles"]["sun_earth_spacecraft_deg"]
+    {'min': 80.0, 'max': 90.0}
+
+    References
+    ----------
+    Montenbruck, O. & Gill, E., "Satellite Orbits: Models, Methods and Applications",
+    Springer (2000), sec. 3.4.2 (conical shadow geometry).
+    """
 
     history: History
     tdb_s: np.ndarray
@@ -218,7 +394,43 @@ def shadows(track: Track, step_s: float = STEP_S, bodies=eclipses.BODIES, statio
     """Eclipse passes (Earth and Moon, umbra and penumbra), the Sun-Earth-spacecraft and
     Moon-Earth-spacecraft angles and the station windows along ``track``, sampled every
     ``step_s`` (edges of the passes bisected on the geometry; a pass shorter than the step may
-    be missed)."""
+    be missed).
+
+    Parameters
+    ----------
+    track : Track
+        The trajectory at its epoch.
+    step_s : float, optional
+        The sample step, s (default :data:`.phasing.STEP_S`).
+    bodies : tuple, optional
+        The occulting bodies (default :data:`.eclipses.BODIES`, the Earth and the Moon).
+    stations : sequence, optional
+        Ground stations whose visibility windows are found (none by default).
+
+    Returns
+    -------
+    Shadows
+        The passes, samples, positions, angles and windows.
+
+    Raises
+    ------
+    InputError
+        A bad step, or a track shorter than two samples.
+    EphemerisSpanError
+        A track outside the ephemeris tables.
+
+    Examples
+    --------
+    >>> sh = shadows(from_file("out/orbit.oem"), step_s=120.0)  # doctest: +SKIP
+    >>> sh.to_dict()["totals"]["earth umbra"]["passes"]         # doctest: +SKIP
+
+    References
+    ----------
+    Montenbruck, O. & Gill, E., "Satellite Orbits: Models, Methods and Applications",
+    Springer (2000), sec. 3.4.2 (conical shadow geometry); Vallado, D. A., "Fundamentals of Astrodynamics
+    and Applications", 4th ed., Microcosm Press (2013), sec. 4.4 (station visibility;
+    from memory).
+    """
     t = samples(track, step_s)
     if t.size < 2:
         raise InputError("the trajectory is shorter than two samples; use a smaller step")
@@ -237,7 +449,42 @@ def shadows(track: Track, step_s: float = STEP_S, bodies=eclipses.BODIES, statio
 def route_section(stitched, epoch, step_s: float = STEP_S, bodies=eclipses.BODIES) -> dict | None:
     """The eclipse section of a stitched route at ``epoch`` (its time 0), for a report: every
     pass with the leg it starts in (legs split at the route's junction maneuvers), the totals,
-    and the Earth angles and range along it. None when the system has no Earth to place about."""
+    and the Earth angles and range along it. None when the system has no Earth to place about.
+
+    Parameters
+    ----------
+    stitched : StitchedRoute or None
+        The route (None gives None).
+    epoch : str or float or None
+        The route's time 0: ISO text (Z = UTC) or TDB seconds since J2000 (None gives None).
+    step_s : float, optional
+        The sample step, s (at most half the route's span is used).
+    bodies : tuple, optional
+        The occulting bodies (default :data:`.eclipses.BODIES`).
+
+    Returns
+    -------
+    dict or None
+        :meth:`Shadows.to_dict` with each pass's ``leg`` and ``start_day``, and ``epoch_utc``,
+        ``span_days``, ``step_s``, ``legs`` and ``model``; a ``not_computed`` reason when the
+        route runs past the ephemeris tables; None without a route, an epoch or an Earth.
+
+    Raises
+    ------
+    InputError
+        A bad epoch or step.
+
+    Examples
+    --------
+    >>> route_section(None, "2031-03-01T00:00:00Z") is None
+    True
+    >>> sec = route_section(stitched, "2031-03-01T00:00:00Z")  # doctest: +SKIP
+
+    References
+    ----------
+    Montenbruck, O. & Gill, E., "Satellite Orbits: Models, Methods and Applications",
+    Springer (2000), sec. 3.4.2 (conical shadow geometry).
+    """
     if stitched is None or epoch is None or stitched.system.name not in SYSTEMS:
         return None
     try:

@@ -229,11 +229,35 @@ def after_route_maneuver(route) -> Nominal:
     or the path of that file. A maneuver at the route's very end (its insertion burn) is the
     arrival, not the dispersed maneuver: the one before it is.
 
+    Parameters
+    ----------
+    route : StitchedRoute, dict, str or path-like
+        The stitched route, the payload of its ``route.json``, or the path of that file
+        (read by :func:`read_route`).
+
+    Returns
+    -------
+    Nominal
+        The coast from just after the last maneuver before the end (its state after the
+        maneuver, rotating and nondimensional) to the route's end, with that maneuver's
+        magnitude (m/s) and a label naming the maneuver, its node, day and the route.
+
     Raises
     ------
     InputError        a file that is not a stitched route, or one written before the routes
-                      carried the state after each maneuver
+                      carried the state after each maneuver; a non-dimensional system
     NoSolutionError   no maneuver with a coast after it
+
+    Examples
+    --------
+    >>> nom = after_route_maneuver("out/route.json")          # doctest: +SKIP
+    >>> nom.tf_tu * nom.system.time_days                      # doctest: +SKIP
+
+    References
+    ----------
+    Geller, D. K., "Linear covariance techniques for orbital rendezvous analysis and autonomous
+    onboard mission planning", Journal of Guidance, Control, and Dynamics 29(6) (2006) (the
+    dispersion carried from the last maneuver to the end of the coast).
     """
     if isinstance(route, (str, bytes)) or hasattr(route, "__fspath__"):
         route = read_route(route)
@@ -270,7 +294,34 @@ def after_route_maneuver(route) -> Nominal:
 
 
 def read_route(path) -> dict:
-    """The ``route.json`` of ``librate route --out`` (InputError naming the file otherwise)."""
+    """The ``route.json`` of ``librate route --out`` (InputError naming the file otherwise).
+
+    Parameters
+    ----------
+    path : str or path-like
+        The file.
+
+    Returns
+    -------
+    dict
+        The file's JSON object; it holds ``system`` and a ``stitched`` route (not None).
+
+    Raises
+    ------
+    InputError
+        A missing file, a file that is not readable JSON, or JSON without a stitched route.
+
+    Examples
+    --------
+    >>> read_route("no-such-route.json")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: route file 'no-such-route.json' does not exist
+
+    References
+    ----------
+    ECMA-404, "The JSON Data Interchange Syntax", 2nd ed. (2017) (the file's format).
+    """
     p = Path(path)
     if not p.is_file():
         raise InputError(f"route file '{path}' does not exist")

@@ -566,7 +566,38 @@ def _chunk(task):
 def chunks(n: int, workers: int) -> list:
     """The trials ``0..n-1`` split into :data:`CHUNKS_PER_WORKER` contiguous chunks per worker
     (sizes differ by at most one): a few tasks per worker, so the round trips are few and a
-    slow worker is still helped by the others at the end."""
+    slow worker is still helped by the others at the end.
+
+    Parameters
+    ----------
+    n : int
+        Number of trials.
+    workers : int
+        Number of workers (a value below 1 counts as 1).
+
+    Returns
+    -------
+    list of list of int
+        At most ``CHUNKS_PER_WORKER * workers`` (and at most ``n``) non-empty chunks of
+        consecutive trial indices, in order, covering ``0..n-1`` once.
+
+    Raises
+    ------
+    TypeError, ValueError
+        A ``workers`` that is not a whole number.
+
+    Examples
+    --------
+    >>> chunks(10, 2)
+    [[0, 1], [2, 3, 4], [5, 6], [7, 8, 9]]
+    >>> chunks(3, 8)
+    [[0], [1], [2]]
+
+    References
+    ----------
+    Dask documentation, "Dask Best Practices" (a few tasks per worker, each large enough to
+    outweigh its scheduling cost; common practice).
+    """
     k = max(1, min(n, CHUNKS_PER_WORKER * max(1, int(workers))))
     bounds = [n * j // k for j in range(k + 1)]
     return [list(range(a, b)) for a, b in zip(bounds, bounds[1:]) if b > a]
@@ -677,7 +708,39 @@ MAX_LOCAL_WORKERS = 64
 
 def local_workers(scheduler) -> int | None:
     """N of ``"local:N"`` (None for ``"local"``); InputError for a bad N. Not a local cluster:
-    ValueError."""
+    ValueError.
+
+    Parameters
+    ----------
+    scheduler : str
+        The ``--scheduler`` text: ``"local"``, ``"local:N"`` or a scheduler's address.
+
+    Returns
+    -------
+    int or None
+        The number of local worker processes N (1..:data:`MAX_LOCAL_WORKERS`), or None for a
+        plain ``"local"`` (the default count).
+
+    Raises
+    ------
+    InputError
+        ``"local:N"`` with N not a whole number in 1..:data:`MAX_LOCAL_WORKERS`.
+    ValueError
+        Text that does not name a local cluster (the caller treats it as an address).
+
+    Examples
+    --------
+    >>> local_workers("local:3"), local_workers("local")
+    (3, None)
+    >>> local_workers("local:0")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: scheduler 'local:0': local:N takes a whole number of workers N in 1..64
+
+    References
+    ----------
+    None: a text convention of this project (common practice).
+    """
     text = str(scheduler).strip()
     if text == "local":
         return None

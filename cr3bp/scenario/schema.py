@@ -148,7 +148,39 @@ CHECKS_NOT_FOR_TORI = {
 
 def torus_entry_problems(entry: dict) -> list[tuple[str, str]]:
     """``[(key, message)]`` of a torus table's keys that do not go with a torus (key relative
-    to the table)."""
+    to the table).
+
+    Parameters
+    ----------
+    entry : dict
+        An ``[orbits.NAME]`` table that holds a ``torus`` request.
+
+    Returns
+    -------
+    list of (str, str)
+        One ``(key, message)`` per problem, in table order: a periodic orbit's key
+        (:data:`NOT_FOR_TORI`, the orbit targets), a ``torus_phase_deg`` that is not two finite
+        angles in degrees, a check that is refused for tori (:data:`CHECKS_NOT_FOR_TORI`, key
+        ``checks.NAME``). Empty when the table is fine.
+
+    Raises
+    ------
+    None
+        Problems are returned, not raised (the caller reports them all at once).
+
+    Examples
+    --------
+    >>> torus_entry_problems({"torus": "quasi-halo", "torus_phase_deg": [0.0, 90.0]})
+    []
+    >>> [k for k, _ in torus_entry_problems({"torus": "quasi-halo", "family": "halo",
+    ...                                      "checks": {"max_period": "14 d"}})]
+    ['family', 'checks.max_period']
+
+    References
+    ----------
+    Tom Preston-Werner et al., "TOML v1.0.0" (2021) (the scenario file's format); the keys
+    are this project's own (common practice).
+    """
     out = [(k, f"'{k}' does not go with 'torus': {why}") for k, why in NOT_FOR_TORI.items()
            if k in entry]
     for k in words.ORBIT_TARGETS:

@@ -290,10 +290,44 @@ def optimise_route(system, nodelist, route, *, impulses: int = 3, catalog=None) 
     the graph, or a manifold leg with its phases) by :func:`cr3bp.transfers.optimise.optimise_transfer`,
     started from that leg.
 
+    Parameters
+    ----------
+    system : System
+        The system of the route.
+    nodelist : NodeList
+        The nodes of the design (orbit nodes are resolved once, on the first leg that needs
+        them, by :func:`resolve_orbits`).
+    route : Route
+        The route found by the search (its ``nodes`` and ``legs``).
+    impulses : int, optional
+        Impulses of each optimised transfer (default 3), as
+        :func:`cr3bp.transfers.optimise.optimise_transfer`.
+    catalog : optional
+        The orbit catalogue used to resolve the orbit nodes.
+
     Returns
     -------
     tuple of (leg index, OrbitTransfer or str): the optimised transfer, or why the leg was not
-    optimised (not between two orbits, no start, the optimiser's error).
+    optimised (not between two orbits, no start, the optimiser's error). Legs that do not join
+    two different orbit nodes have no entry.
+
+    Raises
+    ------
+    None
+        A leg's :class:`~cr3bp.errors.LibrateError` or ``KeyError`` is caught and reported as
+        that leg's text entry; other errors propagate.
+
+    Examples
+    --------
+    >>> for k, res in optimise_route(system, nodelist, route):      # doctest: +SKIP
+    ...     print(k + 1, res if isinstance(res, str) else res.dv_mps)
+
+    References
+    ----------
+    Betts, J. T., "Practical Methods for Optimal Control and Estimation Using Nonlinear
+    Programming", 2nd ed., SIAM (2010) (direct optimisation of the impulses and times);
+    Lawden, D. F., "Optimal Trajectories for Space Navigation", Butterworths (1963) (the
+    primer-vector conditions of an optimal impulsive transfer).
     """
     from .optimise import optimise_transfer, start_from_record    # lazy: scipy's optimiser, only when asked
     byid = {n.id: n for n in nodelist.nodes}
