@@ -735,7 +735,7 @@ def run(plan: Plan, folder, *, catalog=None, workers=None, scheduler=None, progr
         _remove_created(missing)
         raise _output_error(e, folder) from None
     try:
-        out = Outputs(stage, figures=None if catalog.read_only else catalog)
+        out = Outputs(stage, figures=catalog if getattr(catalog, "read_only", True) is False else None)
         result = _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduced, started)
         for name in sorted(os.listdir(stage)):
             os.replace(stage / name, folder / name)
