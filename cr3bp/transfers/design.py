@@ -52,22 +52,9 @@ class TransferDesign:
     Examples
     --------
     >>> from cr3bp import system
-    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> from cr3bp.transfers.nodes import EXAMPLE_NODE_LIST, parse_nodes
     >>> em = system("earth-moon")
-    >>> nodes = parse_nodes('''
-    ... system = "earth-moon"
-    ... [settings]
-    ... tof = "3d"
-    ... patches = 2
-    ... [[node]]
-    ... name = "a"
-    ... kind = "state"
-    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
-    ... [[node]]
-    ... name = "b"
-    ... kind = "state"
-    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
-    ... ''', em)
+    >>> nodes = parse_nodes(EXAMPLE_NODE_LIST, em)      # two fixed states, a and b
     >>> a, b = nodes.nodes
     >>> from cr3bp.transfers.design import design_transfer
     >>> d = design_transfer(em, nodes, a, b, workers=1, stitch=False)
@@ -228,22 +215,9 @@ def design_transfer(system, nodelist, source, target, constraints: Constraints =
     Examples
     --------
     >>> from cr3bp import system
-    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> from cr3bp.transfers.nodes import EXAMPLE_NODE_LIST, parse_nodes
     >>> em = system("earth-moon")
-    >>> nodes = parse_nodes('''
-    ... system = "earth-moon"
-    ... [settings]
-    ... tof = "3d"
-    ... patches = 2
-    ... [[node]]
-    ... name = "a"
-    ... kind = "state"
-    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
-    ... [[node]]
-    ... name = "b"
-    ... kind = "state"
-    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
-    ... ''', em)
+    >>> nodes = parse_nodes(EXAMPLE_NODE_LIST, em)      # two fixed states, a and b
     >>> a, b = nodes.nodes
     >>> from cr3bp.transfers.design import design_transfer
     >>> d = design_transfer(em, nodes, a, b, workers=1)
@@ -382,22 +356,9 @@ def maneuver_columns(stitched, exported=()):
     Examples
     --------
     >>> from cr3bp import system
-    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> from cr3bp.transfers.nodes import EXAMPLE_NODE_LIST, parse_nodes
     >>> em = system("earth-moon")
-    >>> nodes = parse_nodes('''
-    ... system = "earth-moon"
-    ... [settings]
-    ... tof = "3d"
-    ... patches = 2
-    ... [[node]]
-    ... name = "a"
-    ... kind = "state"
-    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
-    ... [[node]]
-    ... name = "b"
-    ... kind = "state"
-    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
-    ... ''', em)
+    >>> nodes = parse_nodes(EXAMPLE_NODE_LIST, em)      # two fixed states, a and b
     >>> a, b = nodes.nodes
     >>> from cr3bp.transfers.design import design_transfer, maneuver_columns
     >>> st = design_transfer(em, nodes, a, b, workers=1).stitched

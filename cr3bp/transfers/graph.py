@@ -287,22 +287,9 @@ def compute_leg(task: dict) -> dict:
     Examples
     --------
     >>> from cr3bp import system
-    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> from cr3bp.transfers.nodes import EXAMPLE_NODE_LIST, parse_nodes
     >>> em = system("earth-moon")
-    >>> nodes = parse_nodes('''
-    ... system = "earth-moon"
-    ... [settings]
-    ... tof = "3d"
-    ... patches = 2
-    ... [[node]]
-    ... name = "a"
-    ... kind = "state"
-    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
-    ... [[node]]
-    ... name = "b"
-    ... kind = "state"
-    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
-    ... ''', em)
+    >>> nodes = parse_nodes(EXAMPLE_NODE_LIST, em)      # two fixed states, a and b
     >>> from cr3bp.transfers.graph import compute_leg, plan
     >>> tasks, pruned = plan(em, nodes)
     >>> record = compute_leg(tasks[0])
@@ -427,22 +414,9 @@ def resolve_orbits(system, nodelist, catalog=None, progress=None) -> dict:
     Examples
     --------
     >>> from cr3bp import system
-    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> from cr3bp.transfers.nodes import EXAMPLE_NODE_LIST, parse_nodes
     >>> em = system("earth-moon")
-    >>> nodes = parse_nodes('''
-    ... system = "earth-moon"
-    ... [settings]
-    ... tof = "3d"
-    ... patches = 2
-    ... [[node]]
-    ... name = "a"
-    ... kind = "state"
-    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
-    ... [[node]]
-    ... name = "b"
-    ... kind = "state"
-    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
-    ... ''', em)
+    >>> nodes = parse_nodes(EXAMPLE_NODE_LIST, em)      # two fixed states, a and b
     >>> from cr3bp.transfers.graph import resolve_orbits
     >>> resolve_orbits(em, nodes)           # no orbit nodes: nothing to solve
     {}
@@ -761,22 +735,9 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
     Examples
     --------
     >>> from cr3bp import system
-    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> from cr3bp.transfers.nodes import EXAMPLE_NODE_LIST, parse_nodes
     >>> em = system("earth-moon")
-    >>> nodes = parse_nodes('''
-    ... system = "earth-moon"
-    ... [settings]
-    ... tof = "3d"
-    ... patches = 2
-    ... [[node]]
-    ... name = "a"
-    ... kind = "state"
-    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
-    ... [[node]]
-    ... name = "b"
-    ... kind = "state"
-    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
-    ... ''', em)
+    >>> nodes = parse_nodes(EXAMPLE_NODE_LIST, em)      # two fixed states, a and b
     >>> from cr3bp.transfers.graph import plan
     >>> tasks, pruned = plan(em, nodes)
     >>> [(t["from"]["name"], t["to"]["name"], t["method"]) for t in tasks], pruned
@@ -955,22 +916,9 @@ def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None,
     Examples
     --------
     >>> from cr3bp import system
-    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> from cr3bp.transfers.nodes import EXAMPLE_NODE_LIST, parse_nodes
     >>> em = system("earth-moon")
-    >>> nodes = parse_nodes('''
-    ... system = "earth-moon"
-    ... [settings]
-    ... tof = "3d"
-    ... patches = 2
-    ... [[node]]
-    ... name = "a"
-    ... kind = "state"
-    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
-    ... [[node]]
-    ... name = "b"
-    ... kind = "state"
-    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
-    ... ''', em)
+    >>> nodes = parse_nodes(EXAMPLE_NODE_LIST, em)      # two fixed states, a and b
     >>> from cr3bp.transfers.graph import build_graph
     >>> built = build_graph(em, nodes, workers=1)
     >>> built.computed, built.graph.number_of_edges(), [leg.status for leg in built.legs]

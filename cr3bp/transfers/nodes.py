@@ -82,6 +82,23 @@ SCHEMA = {
 REQUIRED_BY_KIND = {"orbit": ("orbit",), "parking": ("body", "altitude"), "state": ("state",),
                     "capture": ("body", "altitude"), "escape": ("body", "radius")}
 
+#: A node list of two fixed states, ``a`` and ``b``, in Earth-Moon: the one example the
+#: docstrings of :mod:`cr3bp.transfers` build their graphs, routes and stitches from.
+EXAMPLE_NODE_LIST = """\
+system = "earth-moon"
+[settings]
+tof = "3d"
+patches = 2
+[[node]]
+name = "a"
+kind = "state"
+state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
+[[node]]
+name = "b"
+kind = "state"
+state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
+"""
+
 
 def _fmt(v: float) -> str:
     return repr(float(v))

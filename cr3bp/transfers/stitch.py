@@ -91,24 +91,11 @@ class StitchedRoute:
     Examples
     --------
     >>> from cr3bp import system
-    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> from cr3bp.transfers.nodes import EXAMPLE_NODE_LIST, parse_nodes
     >>> from cr3bp.transfers.graph import build_graph
     >>> from cr3bp.transfers.search import best_routes
     >>> em = system("earth-moon")
-    >>> nodes = parse_nodes('''
-    ... system = "earth-moon"
-    ... [settings]
-    ... tof = "3d"
-    ... patches = 2
-    ... [[node]]
-    ... name = "a"
-    ... kind = "state"
-    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
-    ... [[node]]
-    ... name = "b"
-    ... kind = "state"
-    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
-    ... ''', em)
+    >>> nodes = parse_nodes(EXAMPLE_NODE_LIST, em)      # two fixed states, a and b
     >>> built = build_graph(em, nodes, workers=1)
     >>> a, b = (n.id for n in nodes.nodes)
     >>> route = best_routes(built.graph, a, b)[0]
@@ -434,24 +421,11 @@ def phasing_coast(system, arriving: Leg, leaving: Leg, period_tu: float, patches
     Examples
     --------
     >>> from cr3bp import system
-    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> from cr3bp.transfers.nodes import EXAMPLE_NODE_LIST, parse_nodes
     >>> from cr3bp.transfers.graph import build_graph
     >>> from cr3bp.transfers.search import best_routes
     >>> em = system("earth-moon")
-    >>> nodes = parse_nodes('''
-    ... system = "earth-moon"
-    ... [settings]
-    ... tof = "3d"
-    ... patches = 2
-    ... [[node]]
-    ... name = "a"
-    ... kind = "state"
-    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
-    ... [[node]]
-    ... name = "b"
-    ... kind = "state"
-    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
-    ... ''', em)
+    >>> nodes = parse_nodes(EXAMPLE_NODE_LIST, em)      # two fixed states, a and b
     >>> built = build_graph(em, nodes, workers=1)
     >>> a, b = (n.id for n in nodes.nodes)
     >>> route = best_routes(built.graph, a, b)[0]
@@ -527,24 +501,11 @@ def with_phasing(system, legs: list, periods: dict | None) -> list:
     Examples
     --------
     >>> from cr3bp import system
-    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> from cr3bp.transfers.nodes import EXAMPLE_NODE_LIST, parse_nodes
     >>> from cr3bp.transfers.graph import build_graph
     >>> from cr3bp.transfers.search import best_routes
     >>> em = system("earth-moon")
-    >>> nodes = parse_nodes('''
-    ... system = "earth-moon"
-    ... [settings]
-    ... tof = "3d"
-    ... patches = 2
-    ... [[node]]
-    ... name = "a"
-    ... kind = "state"
-    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
-    ... [[node]]
-    ... name = "b"
-    ... kind = "state"
-    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
-    ... ''', em)
+    >>> nodes = parse_nodes(EXAMPLE_NODE_LIST, em)      # two fixed states, a and b
     >>> built = build_graph(em, nodes, workers=1)
     >>> a, b = (n.id for n in nodes.nodes)
     >>> route = best_routes(built.graph, a, b)[0]
@@ -604,24 +565,11 @@ def stitch_route(system, route, constraints=None, optimise=True, max_iterations=
     Examples
     --------
     >>> from cr3bp import system
-    >>> from cr3bp.transfers.nodes import parse_nodes
+    >>> from cr3bp.transfers.nodes import EXAMPLE_NODE_LIST, parse_nodes
     >>> from cr3bp.transfers.graph import build_graph
     >>> from cr3bp.transfers.search import best_routes
     >>> em = system("earth-moon")
-    >>> nodes = parse_nodes('''
-    ... system = "earth-moon"
-    ... [settings]
-    ... tof = "3d"
-    ... patches = 2
-    ... [[node]]
-    ... name = "a"
-    ... kind = "state"
-    ... state = [0.80, 0.0, 0.0, 0.0, 0.35, 0.0]
-    ... [[node]]
-    ... name = "b"
-    ... kind = "state"
-    ... state = [0.85, 0.05, 0.0, 0.05, 0.30, 0.0]
-    ... ''', em)
+    >>> nodes = parse_nodes(EXAMPLE_NODE_LIST, em)      # two fixed states, a and b
     >>> built = build_graph(em, nodes, workers=1)
     >>> a, b = (n.id for n in nodes.nodes)
     >>> route = best_routes(built.graph, a, b)[0]
