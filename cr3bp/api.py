@@ -917,7 +917,7 @@ def export(source, path, *, epoch, span, step, frame="j2000-equator", center=Non
     return Path(ex.write(str(path), traj, kind))
 
 
-def run(scenario, out, *, catalog=None, workers=None, progress=None):
+def run(scenario, out, *, catalog=None, workers=None, progress=None, reuse=True):
     """Run a scenario file: orbits, checks, transfers, exports, figures, report (``librate run``).
 
     Parameters
@@ -932,11 +932,16 @@ def run(scenario, out, *, catalog=None, workers=None, progress=None):
         Worker processes for the transfer legs (default: the scenario's setting).
     progress : callable(str), optional
         One line per step.
+    reuse : bool, optional
+        When ``out`` holds a finished run of the same scenario bytes, code and package versions
+        whose every file is unchanged (SHA-256 against its manifest), report that run instead
+        of computing it again (default True; :mod:`cr3bp.scenario.reuse`). False runs again.
 
     Returns
     -------
-    cr3bp.scenario.run.RunResult
-        ``.report``, ``.manifest``, ``.files``, ``.orbits``, ``.checks``; ``.to_dict()``.
+    cr3bp.scenario.run.RunResult or cr3bp.scenario.reuse.ReusedRun
+        ``.report``, ``.manifest``, ``.files``, ``.orbits``, ``.checks``, ``.reused``;
+        ``.to_dict()``. A reused run's orbits and checks are the stored records.
 
     Raises
     ------
@@ -960,6 +965,11 @@ def run(scenario, out, *, catalog=None, workers=None, progress=None):
     from .scenario import run as mission  # lazy: start-up: keeps cr3bp.api free of numpy
     if workers is not None:
         workers = _whole("workers", workers, 1, 256)
+    if reuse:
+        from .scenario.reuse import try_reuse  # lazy: start-up: keeps cr3bp.api light
+        earlier = try_reuse(scenario, out)
+        if earlier is not None:
+            return earlier
     plan = mission.prepare(scenario)
     mission.check_output_folder(out, plan.path, catalog or default_path(), mission.planned_files(plan.data))
     return mission.run(plan, out, catalog=Catalog(catalog) if catalog else None, workers=workers,

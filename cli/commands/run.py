@@ -16,6 +16,11 @@ def add_arguments(p):
                                  "settings.workers, else all cores)")
     p.add_argument("--scheduler", metavar="ADDRESS", help="dask.distributed scheduler for transfer legs")
     p.add_argument("--check-only", action="store_true", help="check the scenario and stop")
+    p.add_argument("--recompute", action="store_true",
+                   help="compute everything again even when --out holds a finished run of the same "
+                        "scenario, code and packages with every file unchanged (by default such a run "
+                        "is reported, not recomputed: its files are checked against the manifest's "
+                        "SHA-256)")
     common.add_verbosity(p)
 
 
@@ -23,8 +28,18 @@ def run(args):
     """Check (scenario and --out), then run; a scenario with problems prints one line per
     problem, FILE:LINE: key: message (cli.common.run_command), and exits 2 with nothing written."""
     import time
-    from cr3bp.scenario import run as mission
     workers = common.workers(args)
+    if not (args.check_only or args.recompute):
+        from cr3bp.scenario.reuse import try_reuse
+        earlier = try_reuse(args.scenario, args.out)
+        if earlier is not None:
+            common.progress(args, f"nothing to compute: {args.out} holds the run of "
+                                  f"{earlier.finished_utc} of this scenario with the same code and "
+                                  f"packages, every file unchanged (SHA-256 against its manifest); "
+                                  f"--recompute runs it again")
+            _summary(earlier)
+            return 0
+    from cr3bp.scenario import run as mission
     plan = mission.prepare(args.scenario)
     mission.check_output_folder(args.out, plan.path, common.catalog_file(args),
                                 mission.planned_files(plan.data))
@@ -43,6 +58,11 @@ def run(args):
 
     result = mission.run(plan, args.out, catalog=common.open_catalog(args),
                          workers=workers, scheduler=args.scheduler, progress=say)
+    _summary(result)
+    return 0
+
+
+def _summary(result):
     failed = [f"{o}: {c.name}" for o, cs in result.checks.items() for c in cs if not c.passed]
     lines = [f"done in {result.seconds:.1f} s; results in {result.folder}/",
              f"  report:   {result.report}", f"  manifest: {result.manifest}",
@@ -52,4 +72,3 @@ def run(args):
     else:
         lines.append("  every constraint checked is met")
     print("\n".join(lines) + common.caution_footer())
-    return 0

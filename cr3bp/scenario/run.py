@@ -34,6 +34,7 @@ from ..errors import InputError, shown, OutputError, NoSolutionError
 from ..validate import MAX_WORKERS
 from ..vocabulary import SCENARIO_IMAGE_FORMATS, INERTIAL_FRAMES, LENGTH_TARGETS, ORBIT_TARGETS
 from .outputs import csv_text, json_text, save_figures, say
+from .reuse import run_key
 from .schema import Problem, ScenarioError, FILE_PATTERN, FILE_RULE
 from ..catalog import Catalog
 from ..energy import hill_region
@@ -662,6 +663,7 @@ class RunResult:
     routes: dict
     files: tuple
     seconds: float
+    reused: bool = False
 
     def to_dict(self) -> dict:
         return {"folder": str(self.folder), "report": str(self.report), "manifest": str(self.manifest),
@@ -713,6 +715,7 @@ def run(plan: Plan, folder, *, catalog=None, workers=None, scheduler=None, progr
     :mod:`cr3bp.cautions`).
     """
     started = time.time()
+    key = run_key(plan.path, reduced=reduced)
     if workers is None:
         workers = (plan.data.get("settings") or {}).get("workers")
     folder = Path(folder)
@@ -736,7 +739,8 @@ def run(plan: Plan, folder, *, catalog=None, workers=None, scheduler=None, progr
         raise _output_error(e, folder) from None
     try:
         out = Outputs(stage, figures=catalog if getattr(catalog, "read_only", True) is False else None)
-        result = _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduced, started)
+        result = _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduced, started,
+                             key)
         for name in sorted(os.listdir(stage)):
             os.replace(stage / name, folder / name)
         stage.rmdir()
@@ -748,7 +752,8 @@ def run(plan: Plan, folder, *, catalog=None, workers=None, scheduler=None, progr
         raise
     report, manifest, checks, routes, seconds = result
     return RunResult(folder, folder / report.name, folder / manifest.name, orbits, checks, routes,
-                     tuple(folder / p.name for p in out.files), seconds)
+                     tuple(dict.fromkeys([*(folder / p.name for p in out.files), folder / manifest.name])),
+                     seconds)
 
 
 #: Name of the staging folder a run writes into (inside the output folder): prefix PID- ... suffix.
@@ -968,7 +973,7 @@ def _row(name, obj) -> list:
     return torus_row(name, obj) if is_torus(obj) else orbit_row(name, obj)
 
 
-def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduced, started):
+def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduced, started, key):
     """Write every output of the run into ``out`` (the staging folder)."""
     system = plan.system
     created = creation_date(plan)
@@ -1046,7 +1051,7 @@ def _run_stages(plan, orbits, out, catalog, workers, scheduler, progress, reduce
     # ---- report and manifest ----------------------------------------------------------
     report = write_report(plan, orbits, checks, routes, exports, figures, out, stitched)
     seconds = time.time() - started
-    manifest = _manifest(plan, out, seconds)
+    manifest = _manifest(plan, out, seconds, {"key": key, "routes": routes})
     return report, manifest, checks, routes, seconds
 
 
@@ -1187,7 +1192,7 @@ def _figures(plan, orbits, samples, out, formats, plots, catalog, reduced, progr
 
 
 
-def _manifest(plan, out, seconds) -> Path:
+def _manifest(plan, out, seconds, reuse) -> Path:
     outputs = []
     for p in sorted(set(out.files)):
         if p.exists():
@@ -1198,6 +1203,9 @@ def _manifest(plan, out, seconds) -> Path:
         "inputs": [{"file": str(plan.path), "sha256": plan.sha256}],
         "outputs": outputs,
         "run_seconds": round(seconds, 3),
+        # what a later run of the same scenario, code and packages reads back instead of
+        # recomputing (scenario/reuse.py)
+        "reuse": reuse,
         "finished_utc": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime()),
         "caution": CAUTION,
     }
