@@ -69,7 +69,36 @@ def _processor() -> str:
 
 
 def key(package: Path | None = None) -> str:
-    """The key of the sources, Python, numpy and processor (16 hex digits)."""
+    """The key of the kernel sources, Python, numpy and processor (16 hex digits): a prebuilt
+    module is current when its name carries the key of the sources in use.
+
+    Parameters
+    ----------
+    package : pathlib.Path, optional
+        The package folder whose sources are hashed (default: this ``cr3bp``).
+
+    Returns
+    -------
+    str
+        16 hexadecimal digits.
+
+    Raises
+    ------
+    OSError
+        A kernel source cannot be read.
+
+    Examples
+    --------
+    >>> k = key()
+    >>> len(k), k == key()
+    (16, True)
+
+    References
+    ----------
+    .. [1] S. K. Lam, A. Pitrou, S. Seibert, "Numba: a LLVM-based Python JIT compiler", LLVM-HPC
+       2015 (ahead-of-time compilation of the same kernels). Keying a build by the hash of its
+       sources is common practice.
+    """
     root = _PACKAGE if package is None else Path(package)
     h = hashlib.sha256()
     for rel in SOURCES:
@@ -80,11 +109,65 @@ def key(package: Path | None = None) -> str:
 
 
 def module_name(package: Path | None = None) -> str:
+    """Name of the prebuilt module for the sources in use: ``_kernels_<key>``.
+
+    Parameters
+    ----------
+    package : pathlib.Path, optional
+        The package folder (default: this ``cr3bp``).
+
+    Returns
+    -------
+    str
+
+    Raises
+    ------
+    OSError
+        A kernel source cannot be read.
+
+    Examples
+    --------
+    >>> module_name().startswith("_kernels_")
+    True
+
+    References
+    ----------
+    .. [1] S. K. Lam, A. Pitrou, S. Seibert, "Numba: a LLVM-based Python JIT compiler", LLVM-HPC
+       2015 (ahead-of-time compilation of the same kernels). Keying a build by the hash of its
+       sources is common practice.
+    """
     return f"_kernels_{key(package)}"
 
 
 def find(directory: Path | None = None) -> Path | None:
-    """The current prebuilt module's file, or None."""
+    """The current prebuilt module's file, or None.
+
+    Parameters
+    ----------
+    directory : pathlib.Path, optional
+        Where to look (default: :data:`DIRECTORY`).
+
+    Returns
+    -------
+    pathlib.Path or None
+
+    Raises
+    ------
+    OSError
+        A kernel source cannot be read.
+
+    Examples
+    --------
+    >>> from pathlib import Path
+    >>> find(Path("no-such-folder")) is None
+    True
+
+    References
+    ----------
+    .. [1] S. K. Lam, A. Pitrou, S. Seibert, "Numba: a LLVM-based Python JIT compiler", LLVM-HPC
+       2015 (ahead-of-time compilation of the same kernels). Keying a build by the hash of its
+       sources is common practice.
+    """
     d = DIRECTORY if directory is None else Path(directory)
     if not d.is_dir():
         return None
@@ -98,7 +181,29 @@ def find(directory: Path | None = None) -> Path | None:
 def kernels():
     """The current prebuilt module (attributes named as in :data:`SIGNATURES`), or None
     when it is absent, stale, switched off by ``LIBRATE_KERNELS=jit`` or fails to load (a
-    warning then says why). Looked up once per process."""
+    warning then says why). Looked up once per process.
+
+    Returns
+    -------
+    module or None
+
+    Raises
+    ------
+    None
+        A module that fails to load gives a ``RuntimeWarning`` and None.
+
+    Examples
+    --------
+    >>> k = kernels()
+    >>> k is None or all(hasattr(k, n) for n in SIGNATURES)
+    True
+
+    References
+    ----------
+    .. [1] S. K. Lam, A. Pitrou, S. Seibert, "Numba: a LLVM-based Python JIT compiler", LLVM-HPC
+       2015 (ahead-of-time compilation of the same kernels). Keying a build by the hash of its
+       sources is common practice.
+    """
     if _state["done"]:
         return _state["module"]
     _state["done"] = True
@@ -128,5 +233,24 @@ def kernels():
 
 
 def reset():
-    """Forget the lookup (tests, and after a build in the same process)."""
+    """Forget the lookup (tests, and after a build in the same process).
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> reset()
+    >>> _state["done"]
+    False
+
+    References
+    ----------
+    Common practice (a module-level cache with a reset for tests).
+    """
     _state.update(done=False, module=None)

@@ -207,7 +207,24 @@ def _kind(obj):
 
 
 class Shown:
-    """Notebook display for a result object (see the module notes)."""
+    """Notebook display for a result object (see the module notes): a one-line ``repr``, a
+    small HTML table with the caution (``_repr_html_``), ``plot(ax=None)`` returning the
+    matplotlib Axes, ``to_plotly()`` for orbits, families and tubes, ``to_dataframe()``
+    (pandas optional) and ``to_dict()``.
+
+    The periodic orbit, family, tube and route results inherit it.
+
+    Examples
+    --------
+    >>> from cr3bp.orbits.orbit import PeriodicOrbit
+    >>> issubclass(PeriodicOrbit, Shown)
+    True
+
+    References
+    ----------
+    .. [1] IPython documentation, "Rich display" (the ``_repr_html_`` protocol notebooks use);
+       matplotlib's "Axes in, Axes out" convention for plotting functions (common practice).
+    """
 
     __slots__ = ()
 

@@ -58,7 +58,36 @@ def _openblas():
 def serial(numba_threads: bool = True):
     """One BLAS thread (and, with ``numba_threads``, one numba thread) inside the block, both
     restored on exit. Linux only (the loaded libraries are read from ``/proc/self/maps``);
-    elsewhere the BLAS part does nothing."""
+    elsewhere the BLAS part does nothing.
+
+    Parameters
+    ----------
+    numba_threads : bool, optional
+        Also run numba's parallel kernels on one thread (default True).
+
+    Returns
+    -------
+    contextlib.AbstractContextManager
+
+    Raises
+    ------
+    None
+        A BLAS library it does not know is left as it is.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> with serial():
+    ...     float(np.ones((3, 3)).sum())
+    9.0
+
+    References
+    ----------
+    .. [1] OpenBLAS, ``openblas_set_num_threads`` / ``openblas_get_num_threads`` (its C
+       interface); numba's ``set_num_threads`` (Numba documentation, "Setting the Number of
+       Threads"). One thread per process when processes already use every core is common
+       practice.
+    """
     import numpy  # noqa: F401  # lazy: the BLAS library must be loaded to be found (kept beside its use)
     blas = _openblas()
     old_blas = old_numba = None
@@ -88,7 +117,36 @@ def serial(numba_threads: bool = True):
 
 
 def serial_call(fn):
-    """Decorator: ``fn`` runs inside :func:`serial`."""
+    """Decorator: ``fn`` runs inside :func:`serial`.
+
+    Parameters
+    ----------
+    fn : callable
+
+    Returns
+    -------
+    callable
+        ``fn`` wrapped, same name and docstring.
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> @serial_call
+    ... def total(n):
+    ...     return sum(range(n))
+    >>> total(4)
+    6
+
+    References
+    ----------
+    .. [1] OpenBLAS, ``openblas_set_num_threads`` / ``openblas_get_num_threads`` (its C
+       interface); numba's ``set_num_threads`` (Numba documentation, "Setting the Number of
+       Threads"). One thread per process when processes already use every core is common
+       practice.
+    """
 
     @functools.wraps(fn)
     def call(*a, **kw):

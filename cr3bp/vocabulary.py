@@ -115,5 +115,33 @@ STABILITIES = ("stable", "unstable")
 
 def one_of(words, *, optional: bool = False) -> str:
     """The scenario schema's enumeration type for ``words`` (``"one-of:a|b|c"``); ``optional``
-    adds the empty text."""
+    adds the empty text.
+
+    Parameters
+    ----------
+    words : iterable of str
+        The allowed words.
+    optional : bool, optional
+        Also allow the empty text.
+
+    Returns
+    -------
+    str
+
+    Raises
+    ------
+    TypeError
+        ``words`` is not iterable.
+
+    Examples
+    --------
+    >>> one_of(("north", "south"))
+    'one-of:north|south'
+    >>> one_of(("a",), optional=True)
+    'one-of:a|'
+
+    References
+    ----------
+    Common practice (one list of words, read by every door that takes them).
+    """
     return "one-of:" + "|".join(tuple(words) + (("",) if optional else ()))
