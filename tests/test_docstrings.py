@@ -61,6 +61,11 @@ MODULES = [
     "cr3bp.validate",
     "cr3bp.errors",
     "cr3bp.cautions",
+    "cr3bp.dynamics",
+    "cr3bp.compiled",
+    "cr3bp.threads",
+    "cr3bp.vocabulary",
+    "cr3bp.display",
 ]
 
 #: Packages whose every module is checked, found by walking the package (so a module added
