@@ -175,13 +175,13 @@ def run(args):
             ["t_days", "node", "maneuver", "dv_x_mps", "dv_y_mps", "dv_z_mps", "dv_design_mps"] + ex_head,
             [[m["t_days"], m["node"], m.get("name", ""), *m["dv_vector_mps"], m["dv_mps"]] + ([r["dv_exported_mps"]] if table else [])
              for m, r in zip(stitched.maneuvers, table or [None] * len(stitched.maneuvers))],
-            title=(f"stitched best route (CR3BP): Δv {stitched.dv_total_mps:.3f} m/s (legs alone "
+            title=(f"stitched best route ({stitched.model}): Δv {stitched.dv_total_mps:.3f} m/s (legs alone "
                    f"{stitched.legs_dv_total_mps:.3f} m/s), time of flight {stitched.tof_days:.4f} d, "
                    f"largest position jump {stitched.continuity_lu * system.length_km * 1e3:.2e} m; "
                    f"{stitched.note}"))
         for c, v in stitched.constraints.items():
             text += f"{c}: {v['value']:.6g} against {v['limit']:.6g}: {'holds' if v['holds'] else 'VIOLATED'}\n"
-        text += ("Δv vectors and dv_design_mps: the CR3BP design, rotating frame." + (
+        text += (f"Δv vectors and dv_design_mps: the {stitched.model} design, rotating frame." + (
             " dv_exported_mps[route.oem]: the velocity jump of the trajectory in route.oem (its anchoring "
             "rescales speeds)." if table else "") + "\n")
         if warn:
