@@ -86,6 +86,18 @@ def inputs(tmp_path_factory):
                                           'launch = "1500-01-01T00:00:00Z"\n')
     (d / "le-launch-alone.toml").write_text(le + 'from = "leo"\nto = "relay"\nlaunch = "2027-03-01T00:00:00Z"\n')
     (d / "le-path-bogus.toml").write_text(le + 'from = "leo"\nto = "relay"\npath = "fast"\n')
+    # a low-energy route folder (as librate route --out writes one) designed for launch on 2027-03-01
+    (d / "le-route").mkdir()
+    (d / "le-route" / "trajectory.csv").write_text("t_tu,x_lu,y_lu,z_lu,vx_vu,vy_vu,vz_vu\n"
+                                                   "0,-0.0,0.017,0,-10.4,0,0\n0.01,-0.1,0.1,0,-5,1,0\n")
+    (d / "le-route" / "route.json").write_text(json.dumps({
+        "system": {"name": "earth-moon"}, "stitched": {"model": "bicircular", "maneuvers": [],
+                                                       "model_record": {"sun_phase_rad": 1.0, "epoch_tdb_s": 857131269.184}}}))
+    (d / "le-route-undated").mkdir()
+    (d / "le-route-undated" / "trajectory.csv").write_text((d / "le-route" / "trajectory.csv").read_text())
+    (d / "le-route-undated" / "route.json").write_text(json.dumps({
+        "system": {"name": "earth-moon"}, "stitched": {"model": "bicircular", "maneuvers": [],
+                                                       "model_record": {"sun_phase_rad": 1.0, "epoch_tdb_s": None}}}))
     # a good OEM and damaged copies of it
     rc = main(["export", EM, "--state=1.1805031,0,-0.02,0,-0.1581343,0", "--period=14.8177d", EPOCH,
                "--span=1d", "--step=2h", "--quiet", f"--out={d / 'good.oem'}"])
@@ -710,6 +722,9 @@ def value_cases():
     add("refine-revs-with-route", ["refine", EM, "--route={in}", EPOCH, "--revs=3"])
     add("refine-custom-system", ["refine", "--mu=0.01", "--orbit=lyapunov L1 jacobi=3.1", EPOCH])
     add("refine-route-missing", ["refine", EM, "--route={in}/nowhere", EPOCH])
+    add("refine-low-energy-route-other-date", ["refine", EM, "--route={in}/le-route", "--epoch=2027-03-02T00:00:00Z"])
+    add("refine-low-energy-route-other-sun-phase", ["refine", EM, "--route={in}/le-route-undated",
+                                                    "--epoch=2027-03-02T00:00:00Z"])
     # refine --torus (an arc on a torus)
     RT = ["refine", EM, "--torus=quasi-halo around halo L1 north az=10000km amplitude=300km", EPOCH,
           "--span=1periods"]

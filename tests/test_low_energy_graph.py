@@ -166,3 +166,26 @@ def test_the_route_of_the_leg_is_reported_in_the_bicircular_model(built):
     assert st.tof_days == pytest.approx(leg.tof_days, rel=1e-12)
     assert EM.km(st.continuity_lu) <= le.CLOSURE_TOL_KM
     assert "bicircular" in st.note
+
+
+def test_refine_takes_a_low_energy_route_only_at_its_launch_date(tmp_path):
+    """A low-energy route belongs to its launch date (the Sun's phase at departure): refine
+    refuses another date, naming the design's; a CR3BP route has no such check."""
+    import json
+    from cr3bp.bicircular import sun_phase_at
+    from cr3bp.fidelity.route import route_launch
+    from cr3bp.time.frames import epoch_from_text
+    t = epoch_from_text("2027-03-01T00:00:00Z")
+    (tmp_path / "route.json").write_text(json.dumps({"stitched": {
+        "model": "bicircular", "model_record": {"sun_phase_rad": 1.0, "epoch_tdb_s": t}}}))
+    assert route_launch(tmp_path, "2027-03-01T00:00:00Z", EM)["epoch_tdb_s"] == t
+    with pytest.raises(InputError, match="designed for launch on 2027-03-01T00:00:00Z"):
+        route_launch(tmp_path, "2027-03-02T00:00:00Z", EM)
+    ph = sun_phase_at("2027-03-02T00:00:00Z", EM)
+    (tmp_path / "route.json").write_text(json.dumps({"stitched": {
+        "model": "bicircular", "model_record": {"sun_phase_rad": ph, "epoch_tdb_s": None}}}))
+    assert route_launch(tmp_path, "2027-03-02T00:00:00Z", EM) is not None
+    with pytest.raises(InputError, match="--window"):
+        route_launch(tmp_path, "2027-03-05T00:00:00Z", EM)
+    (tmp_path / "route.json").write_text(json.dumps({"stitched": {"maneuvers": []}}))
+    assert route_launch(tmp_path, "2027-03-05T00:00:00Z", EM) is None

@@ -85,10 +85,6 @@ MAX_ITER = 40
 NONMONOTONE = 1e-2
 #: Steps of the insertion-burn continuation (:func:`_shrink`).
 SHRINK_STEPS = 80
-#: Largest and smallest step of the continuation in the Sun's phase at departure
-#: (:func:`_continue_phase`), rad: 4 degrees is a third of a day of the synodic month.
-PHASE_STEP = math.radians(4.0)
-MIN_PHASE_STEP = math.radians(0.02)
 #: SLSQP's stopping tolerance on the objective 100 |dv_insertion|^2 (LU/TU; 1e-10 ~ a 1e-5 LU/TU
 #: ~ 1 cm/s change in the burn).
 FTOL = 1e-10
@@ -629,68 +625,6 @@ def _candidates(pb, sw, score, candidates, progress, label="candidate"):
     return best, tried
 
 
-def departure_phase(pb, z):
-    """The Sun's phase at the departure burn (rad, unwrapped) of the transfer ``z`` of the
-    problem ``pb``, or None where ``z`` does not reach the Earth."""
-    e = pb.evaluate(z)
-    return None if e is None else float(z[4] + pb.model.sun_rate * e["t_p"])
-
-
-def _continue_phase(pb, z, target):
-    """Natural-parameter continuation in the Sun's phase at departure (Allgower & Georg,
-    *Introduction to Numerical Continuation Methods*, 2003, ch. 1 (from memory)): the departure
-    phase asked of the transfer moves from that of ``z`` to ``target`` (rad) in steps of at most
-    ``PHASE_STEP``, each held by the differential corrector :func:`_newton` (perigee on the
-    parking orbit, inclination when given, the step's phase); a step that fails is halved, down
-    to ``MIN_PHASE_STEP``. The problem's own departure phase is ``target`` afterwards. Returns
-    the continued z, or None."""
-    start = departure_phase(pb, z)
-    if start is None:
-        return None
-    delta = float(np.angle(np.exp(1j * (target - start))))
-    done, step = 0.0, PHASE_STEP
-    while abs(delta - done) > 1e-13:
-        h = math.copysign(min(step, abs(delta - done)), delta)
-        pb.dep_phase = start + done + h
-        zn = _newton(pb, z, iterations=12)
-        if zn is not None and pb.feasible(zn):
-            z, done, step = zn, done + h, min(PHASE_STEP, step * 1.5)
-        else:
-            step *= 0.5
-            if step < MIN_PHASE_STEP:
-                pb.dep_phase = target
-                return None
-    pb.dep_phase = target
-    return z
-
-
-def _from_free_optimum(pb, sw, candidates, progress):
-    """The best transfer of the sweep with the Sun's phase free (ranked without the date's
-    phase miss), corrected, then carried by :func:`_continue_phase` to ``pb``'s departure phase
-    and corrected there (:func:`_correct`). Returns ((cost, z, evaluation, (optimised,
-    iterations)), what was tried) or None."""
-    target = pb.dep_phase
-    pb.dep_phase = None
-    score = np.linalg.norm(sw["dv"], axis=1) + np.abs(sw["rp"] - pb.r_park)
-    free, _ = _candidates(pb, sw, score, candidates, progress, "a free-phase candidate")
-    pb.dep_phase = target
-    if free is None:
-        return None
-    if progress:
-        progress(f"carrying the best free-phase transfer ({pb.system.mps(free[0]):.2f} m/s insertion) to the "
-                 "date's Sun phase by continuation...")
-    zc = _continue_phase(pb, free[1], target)
-    out = None if zc is None else _correct(pb, zc)
-    info = {"start": "free-phase optimum continued to the date's Sun phase",
-            "free_insertion_dv_mps": float(pb.system.mps(free[0])), "feasible": out is not None}
-    if out is None:
-        return None
-    z, opt, nit = out
-    cost = float(np.linalg.norm(z[1:4]))
-    info.update(insertion_dv_mps=float(pb.system.mps(cost)), optimised=opt, iterations=nit)
-    return (cost, z, pb.evaluate(z), (opt, nit)), info
-
-
 def design_low_energy(orbit, altitude_km, *, epoch=None, inclination_deg=None, max_tof_days=MAX_TOF_DAYS,
                       min_tof_days=MIN_TOF_DAYS, sun_phases=None, candidates=CANDIDATES, progress=None):
     """A low-energy transfer from a circular Earth parking orbit to ``orbit``, in the bicircular model.
@@ -763,14 +697,6 @@ def design_low_energy(orbit, altitude_km, *, epoch=None, inclination_deg=None, m
                               f"within {tmin_d:g}-{tmax_d:g} d; widen the time-of-flight window")
     pb = _Problem(model, orbit, r_park, inc, max_tof, min_tof, dep_phase)
     best, tried = _candidates(pb, sw, sw["score"], candidates, progress)
-    if dep_phase is not None and (best is None or system.mps(best[0]) >= GOOD_ENOUGH_MPS):
-        # the date's own candidates stalled above a ballistic insertion: the best transfer of any
-        # Sun phase, carried to the date's phase by continuation (_continue_phase)
-        got = _from_free_optimum(pb, sw, candidates, progress)
-        if got is not None:
-            tried.append(got[1])
-            if best is None or got[0][0] < best[0]:
-                best = got[0]
     if best is None:
         raise NoSolutionError(f"none of the {len(tried)} best sweep candidates could be corrected onto a "
                               f"{alt:g} km perigee within {tmin_d:g}-{tmax_d:g} d")
@@ -964,8 +890,8 @@ def launch_window(orbit, altitude_km, start, end, *, inclination_deg=None, max_t
     Sun-Earth-Moon geometry of the bicircular model); the dates of the window on which the
     ephemeris puts the Sun at that phase (:func:`cr3bp.bicircular.sun_phase_at`) are then each
     designed for their date, starting from that transfer. A window too short to hold such a
-    date is designed at its two edges, the transfer carried there by continuation in the Sun's
-    phase (:func:`_continue_phase`), and the better edge reported.
+    date is designed at its two edges, each for its own date (:func:`design_low_energy` with
+    ``epoch``), and the better edge reported.
 
     Parameters
     ----------
@@ -1032,19 +958,23 @@ def launch_window(orbit, altitude_km, start, end, *, inclination_deg=None, max_t
         if progress:
             progress(f"designing the launch of {row['departure_epoch_utc']} ({k + 1} of {len(dates)})...")
         t_start = time.perf_counter()
-        pb = _Problem(model, orbit, r_park, inc, max_tof, min_tof, None)
-        pb.dep_phase = departure_phase(pb, z_free)
-        zc = _continue_phase(pb, z_free, model.sun_phase)
-        res = None if zc is None else _correct(pb, zc)
-        if res is None:
-            rows.append(dict(row, ok=False, reason="the continuation to this date's Sun phase did not hold the "
-                                                     "perigee on the parking orbit"))
-            continue
-        z, opt, nit = res
         try:
-            tr = _assemble(model, orbit, float(altitude_km), pb, z, pb.evaluate(z), (opt, nit),
-                           {"count": 0, "score": np.empty(0)}, [{"start": "the free-phase optimum"}],
-                           0.0, time.perf_counter() - t_start)
+            if how == "window edge, nearest in Sun phase":
+                # no date of the window brings the best phase: the date's own design
+                tr = design_low_energy(orbit, altitude_km, epoch=t, inclination_deg=inclination_deg,
+                                       max_tof_days=max_tof_days, min_tof_days=min_tof_days, sun_phases=sun_phases,
+                                       candidates=candidates)
+            else:
+                # the date brings the undated optimum's phase (to the root's 1e-3 s): that transfer,
+                # corrected onto the date's phase exactly
+                pb = _Problem(model, orbit, r_park, inc, max_tof, min_tof, model.sun_phase)
+                res = _correct(pb, z_free)
+                if res is None:
+                    raise NoSolutionError("the undated optimum could not be corrected onto this date's Sun phase")
+                z, opt, nit = res
+                tr = _assemble(model, orbit, float(altitude_km), pb, z, pb.evaluate(z), (opt, nit),
+                               {"count": 0, "score": np.empty(0)}, [{"start": "the undated optimum"}],
+                               0.0, time.perf_counter() - t_start)
         except NoSolutionError as e:
             rows.append(dict(row, ok=False, reason=str(e)))
             continue
