@@ -100,7 +100,7 @@ def built(tmp_path_factory):
             again = build_graph(EM, nodes, workers=1, catalog=cat)
     finally:
         mp.undo()
-    return nodes, first, again, seen
+    return nodes, first, again, seen, path
 
 
 def _leg(build):
@@ -109,7 +109,7 @@ def _leg(build):
 
 
 def test_the_graph_leg_is_a_low_energy_transfer_of_the_published_order(built):
-    _, first, _, seen = built
+    _, first, _, seen, _ = built
     leg = _leg(first)
     assert leg.details["model"] == "bicircular" and leg.kind == "departure" and leg.solver == "parking"
     assert [m.where for m in leg.maneuvers] == ["departure", "arrival"]
@@ -123,7 +123,7 @@ def test_the_graph_leg_is_a_low_energy_transfer_of_the_published_order(built):
 
 
 def test_the_catalogue_gives_the_same_leg_back_without_computing(built):
-    _, first, again, _ = built
+    _, first, again, _, _ = built
     assert again.computed == 0 and again.cached == first.computed == 1
     a, b = _leg(first), _leg(again)
     assert a.record() == b.record()
@@ -131,7 +131,7 @@ def test_the_catalogue_gives_the_same_leg_back_without_computing(built):
 
 
 def test_each_coast_of_the_cached_leg_closes_under_scipy_dop853_in_the_bicircular_model(built):
-    _, _, again, _ = built
+    _, _, again, _, _ = built
     leg = _leg(again)
     model = leg.model_of()
     args = _simo_args(model)
@@ -153,7 +153,7 @@ def test_each_coast_of_the_cached_leg_closes_under_scipy_dop853_in_the_bicircula
 
 
 def test_the_route_of_the_leg_is_reported_in_the_bicircular_model(built):
-    nodes, first, _, _ = built
+    nodes, first, _, _, _ = built
     from cr3bp.transfers.search import best_routes
     from cr3bp.transfers.stitch import stitch_route
     leo, relay = nodes.nodes
@@ -189,3 +189,31 @@ def test_refine_takes_a_low_energy_route_only_at_its_launch_date(tmp_path):
         route_launch(tmp_path, "2027-03-05T00:00:00Z", EM)
     (tmp_path / "route.json").write_text(json.dumps({"stitched": {"maneuvers": []}}))
     assert route_launch(tmp_path, "2027-03-05T00:00:00Z", EM) is None
+
+
+def test_librate_route_writes_the_low_energy_route_for_refine(built, tmp_path):
+    """``librate route --out`` on the node list (the leg read from the catalogue) writes the route
+    in the bicircular model: route.json names the model and its Sun phase, the trajectory starts
+    at the departure and ends before insertion, and refine's reader takes it (the route -> refine
+    seam); refine accepts a date whose Sun phase is the design's."""
+    import json
+    from librate_cli.main import main
+    from cr3bp.fidelity.route import read_route, route_launch
+    from cr3bp.time.frames import epoch_from_text
+    _, first, _, _, path = built
+    (tmp_path / "le.toml").write_text(NODES)
+    out = tmp_path / "route"
+    assert main(["route", "--system=earth-moon", f"--nodes={tmp_path / 'le.toml'}", "--from=leo", "--to=relay",
+                 "--workers=1", f"--catalog={path}", f"--out={out}", "--quiet"]) == 0
+    doc = json.loads((out / "route.json").read_text())
+    st = doc["stitched"]
+    leg = _leg(first)
+    assert st["model"] == "bicircular" and st["model_record"] == leg.details["bicircular"]
+    assert st["dv_total_mps"] == pytest.approx(leg.dv_mps, rel=1e-12)
+    t, x, man = read_route(out, EM)
+    assert [m["name"] for m in man] == ["departure", "insertion"]
+    assert t[-1] == pytest.approx(leg.tof, rel=1e-12)
+    assert np.allclose(x[-1], leg.final_state, atol=1e-5)
+    t0 = epoch_from_text("2027-03-01T00:00:00Z")
+    dates, _, _ = le._phase_dates(t0, t0 + 30 * 86400.0, st["model_record"]["sun_phase_rad"], EM)
+    assert route_launch(out, dates[0], EM) is not None
