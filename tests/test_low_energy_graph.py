@@ -206,6 +206,8 @@ def test_librate_route_writes_the_low_energy_route_for_refine(built, tmp_path):
     assert main(["route", "--system=earth-moon", f"--nodes={tmp_path / 'le.toml'}", "--from=leo", "--to=relay",
                  "--workers=1", f"--catalog={path}", f"--out={out}", "--quiet"]) == 0
     doc = json.loads((out / "route.json").read_text())
+    assert "bicircular restricted four-body model" in doc["caution"]
+    assert "bicircular" in (out / "trajectory.csv").read_text().split("\n", 1)[0]
     st = doc["stitched"]
     leg = _leg(first)
     assert st["model"] == "bicircular" and st["model_record"] == leg.details["bicircular"]

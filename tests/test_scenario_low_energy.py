@@ -74,6 +74,7 @@ def test_the_route_is_the_low_energy_leg_launched_at_the_scenario_epoch(run):
     from cr3bp.time.frames import epoch_from_text
     route = json.loads((run / f"route-{NAME}.json").read_text())
     st = route["stitched"]
+    assert "bicircular restricted four-body model" in route["caution"]
     assert st["model"] == "bicircular"
     assert st["model_record"]["epoch_tdb_s"] == pytest.approx(epoch_from_text("2027-03-01T00:00:00Z"), abs=1e-6)
     dep, ins = route["maneuvers"]

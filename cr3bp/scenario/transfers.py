@@ -12,7 +12,7 @@ from ..errors import InputError, NoSolutionError
 from .outputs import csv_text, json_text, save_figures, say
 from ..vocabulary import ORBIT_TARGETS
 from .. import units
-from ..cautions import CAUTION
+from ..cautions import CAUTION, caution as model_caution
 from ..io import export
 from ..io.atomic import write_text
 from ..io.route import trajectory_rows, to_export
@@ -266,7 +266,10 @@ def write_route_tables(plan, name, summary, out, stitched, exported=()):
     summary["dv_warnings"] = warnings
     body = {k: v for k, v in summary.items() if k not in ("labels", "maneuvers_labelled")}
     body["maneuvers"] = mans
-    write_text(out.path(f"route-{name}.json"), json_text({"caution": plan_caution(), "transfer": name, **body}))
+    caution = plan_caution()
+    if getattr(stitched, "model", "CR3BP") != "CR3BP":     # a low-energy leg: its own model's caution
+        caution = model_caution("bicircular")
+    write_text(out.path(f"route-{name}.json"), json_text({"caution": caution, "transfer": name, **body}))
     write_text(out.path(f"route-{name}-maneuvers.csv"), csv_text(
         headers, rows, [f"maneuvers of transfer {name}; Δv vectors in the rotating frame"]
         + [f"{k}: {v}" for k, v in models.items()] + warnings))
