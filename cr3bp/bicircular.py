@@ -350,3 +350,71 @@ def propagate_batch(bsys: BicircularSystem, states, t_final, rtol=1e-12, atol=1e
     start at ``t0``. Returns its ``BatchResult``."""
     return _batch(bsys.system, states, t_final, rtol, atol, events, stm=stm, t0=t0,
                   model=_model(bsys), **options)
+
+
+def model_record(bsys: BicircularSystem) -> dict:
+    """What rebuilds ``bsys`` on an Earth-Moon system (:func:`model_from_record`): the Sun's phase
+    at t = 0 (rad) and the date of t = 0 (TDB seconds since J2000, or None).
+
+    Parameters
+    ----------
+    bsys : BicircularSystem
+
+    Returns
+    -------
+    dict
+        ``model`` ("bicircular"), ``sun_phase_rad``, ``epoch_tdb_s``.
+
+    Raises
+    ------
+    InputError
+        ``bsys`` is not a BicircularSystem.
+
+    Examples
+    --------
+    >>> from cr3bp.bicircular import bicircular_system, model_from_record, model_record
+    >>> m = bicircular_system("earth-moon", sun_phase=1.0)
+    >>> model_from_record(m.system, model_record(m)) == m
+    True
+
+    References
+    ----------
+    Boudad, Howell & Davis, Adv. Space Res. 66, 2020, section 2 (the model, from memory).
+    """
+    _model(bsys)
+    return {"model": "bicircular", "sun_phase_rad": float(bsys.sun_phase),
+            "epoch_tdb_s": None if bsys.epoch_tdb_s is None else float(bsys.epoch_tdb_s)}
+
+
+def model_from_record(system, record: dict) -> BicircularSystem:
+    """The bicircular model of :func:`model_record`'s ``record`` on the Earth-Moon ``system``.
+
+    Parameters
+    ----------
+    system : System or str
+        The Earth-Moon system.
+    record : dict
+        ``sun_phase_rad`` and ``epoch_tdb_s`` (None: no date).
+
+    Returns
+    -------
+    BicircularSystem
+        The Sun at ``sun_phase_rad`` at t = 0 (the recorded phase is kept as it is, not recomputed
+        from the date).
+
+    Raises
+    ------
+    InputError
+        Another system, or a record without a finite phase.
+
+    Examples
+    --------
+    >>> from cr3bp.bicircular import model_from_record
+    >>> round(model_from_record("earth-moon", {"sun_phase_rad": 0.5}).sun_phase, 3)
+    0.5
+    """
+    if not isinstance(record, dict) or "sun_phase_rad" not in record:
+        raise InputError("a bicircular model record needs 'sun_phase_rad'")
+    m = bicircular_system(system, sun_phase=finite_number("sun_phase_rad", record["sun_phase_rad"]))
+    epoch = record.get("epoch_tdb_s")
+    return m if epoch is None else dataclasses.replace(m, epoch_tdb_s=finite_number("epoch_tdb_s", epoch))

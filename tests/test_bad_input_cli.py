@@ -79,6 +79,25 @@ def inputs(tmp_path_factory):
     (d / "binary.toml").write_bytes(bytes(range(256)) * 8)
     (d / "deep.toml").write_text("a = " + "[" * 5000 + "]" * 5000 + "\n")
     (d / "folder.toml").mkdir()
+    le = ('system = "earth-moon"\n[[node]]\nname = "leo"\nkind = "parking"\nbody = "earth"\naltitude = "200km"\n'
+          '[[node]]\nname = "relay"\nkind = "orbit"\norbit = "halo L2 south resonance=9:2"\n[[edge]]\n')
+    (d / "le-reversed.toml").write_text(le + 'from = "relay"\nto = "leo"\npath = "low-energy"\n')
+    (d / "le-launch-bad.toml").write_text(le + 'from = "leo"\nto = "relay"\npath = "low-energy"\n'
+                                          'launch = "1500-01-01T00:00:00Z"\n')
+    (d / "le-launch-alone.toml").write_text(le + 'from = "leo"\nto = "relay"\nlaunch = "2027-03-01T00:00:00Z"\n')
+    (d / "le-path-bogus.toml").write_text(le + 'from = "leo"\nto = "relay"\npath = "fast"\n')
+    # a low-energy route folder (as librate route --out writes one) designed for launch on 2027-03-01
+    (d / "le-route").mkdir()
+    (d / "le-route" / "trajectory.csv").write_text("t_tu,x_lu,y_lu,z_lu,vx_vu,vy_vu,vz_vu\n"
+                                                   "0,-0.0,0.017,0,-10.4,0,0\n0.01,-0.1,0.1,0,-5,1,0\n")
+    (d / "le-route" / "route.json").write_text(json.dumps({
+        "system": {"name": "earth-moon"}, "stitched": {"model": "bicircular", "maneuvers": [],
+                                                       "model_record": {"sun_phase_rad": 1.0, "epoch_tdb_s": 857131269.184}}}))
+    (d / "le-route-undated").mkdir()
+    (d / "le-route-undated" / "trajectory.csv").write_text((d / "le-route" / "trajectory.csv").read_text())
+    (d / "le-route-undated" / "route.json").write_text(json.dumps({
+        "system": {"name": "earth-moon"}, "stitched": {"model": "bicircular", "maneuvers": [],
+                                                       "model_record": {"sun_phase_rad": 1.0, "epoch_tdb_s": None}}}))
     # a good OEM and damaged copies of it
     rc = main(["export", EM, "--state=1.1805031,0,-0.02,0,-0.1581343,0", "--period=14.8177d", EPOCH,
                "--span=1d", "--step=2h", "--quiet", f"--out={d / 'good.oem'}"])
@@ -619,6 +638,17 @@ def value_cases():
                                                      "--to=halo L2 south resonance=9:2", "--path=low-energy"])
     add("connect-low-energy-inclination-200deg", dep + ["--path=low-energy", "--inclination=200deg"])
     add("connect-low-energy-plot-suffix", dep + ["--path=low-energy", "--plot={out}/d.jpg"])
+    for v in ("2027-03-01T00:00:00Z", "2027-03-01T00:00:00Z/", "x/y", "2027-04-01T00:00:00Z/2027-03-01T00:00:00Z",
+              "2024-03-01T00:00:00Z/2027-03-01T00:00:00Z", "1500-01-01T00:00:00Z/1500-02-01T00:00:00Z",
+              "2027-03-01T00:00:00Z/2027-03-01T00:00:00Z", "a/b/c"):
+        add(f"connect-low-energy-window-{v}", dep + ["--path=low-energy", f"--window={v}"])
+    add("connect-low-energy-window-and-epoch", dep + ["--path=low-energy", "--epoch=2027-03-01T00:00:00Z",
+                                                      "--window=2027-03-01T00:00:00Z/2027-04-01T00:00:00Z"])
+    add("connect-window-with-direct", dep + ["--path=direct", "--window=2027-03-01T00:00:00Z/2027-04-01T00:00:00Z"])
+    add("connect-window-without-path", dep + ["--window=2027-03-01T00:00:00Z/2027-04-01T00:00:00Z"])
+    for name in ("reversed", "launch-bad", "launch-alone", "path-bogus"):
+        add(f"graph-nodes-le-{name}", ["graph", "build", EM, f"--nodes={{in}}/le-{name}.toml", "--workers=1",
+                                       "--no-catalog"])
     add("connect-epoch-with-direct", dep + ["--path=direct", "--epoch=2027-03-01T00:00:00Z"])
     add("connect-epoch-without-path", dep + ["--epoch=2027-03-01T00:00:00Z"])
     # graph and route
@@ -692,6 +722,9 @@ def value_cases():
     add("refine-revs-with-route", ["refine", EM, "--route={in}", EPOCH, "--revs=3"])
     add("refine-custom-system", ["refine", "--mu=0.01", "--orbit=lyapunov L1 jacobi=3.1", EPOCH])
     add("refine-route-missing", ["refine", EM, "--route={in}/nowhere", EPOCH])
+    add("refine-low-energy-route-other-date", ["refine", EM, "--route={in}/le-route", "--epoch=2027-03-02T00:00:00Z"])
+    add("refine-low-energy-route-other-sun-phase", ["refine", EM, "--route={in}/le-route-undated",
+                                                    "--epoch=2027-03-02T00:00:00Z"])
     # refine --torus (an arc on a torus)
     RT = ["refine", EM, "--torus=quasi-halo around halo L1 north az=10000km amplitude=300km", EPOCH,
           "--span=1periods"]

@@ -13,6 +13,12 @@ def add_arguments(g):
                         "the Sun's phase at the departure burn is the date's. Without it the Sun's phase is "
                         "searched over a full synodic month, which holds every Sun-Earth-Moon geometry a year "
                         "of launch dates brings in the bicircular model")
+    g.add_argument("--window", default=None, metavar="START/END",
+                   help="--path low-energy: a launch window, two ISO 8601 dates joined by '/' (at most two years "
+                        "apart): the Sun's phase is searched with no date, then each date of the window on which "
+                        "the ephemeris brings that phase is designed for its date (a window shorter than that: "
+                        "its two edges, by continuation in the Sun's phase); the launches are listed best first "
+                        "with their departure and insertion dv (bicircular model). Not with --epoch")
 
 
 def check(args, system, parking):
@@ -34,7 +40,18 @@ def check(args, system, parking):
         from cr3bp.bicircular import sun_phase_at
         epoch = epoch_from_text(args.epoch)
         sun_phase_at(epoch, system)   # a date outside the ephemeris is refused here, before any work
-    return alt, tof, inc, epoch
+    window = None
+    if getattr(args, "window", None) is not None:
+        from cr3bp.errors import shown
+        from cr3bp.transfers.low_energy import window_seconds
+        if epoch is not None:
+            raise InputError("give --epoch (one launch date) or --window (a launch window), not both")
+        parts = args.window.split("/")
+        if len(parts) != 2 or not all(p.strip() for p in parts):
+            raise InputError(f"--window '{shown(args.window)}' must be START/END, two ISO 8601 dates, e.g. "
+                             "2027-03-01T00:00:00Z/2027-05-01T00:00:00Z")
+        window = window_seconds(parts[0].strip(), parts[1].strip(), system)
+    return alt, tof, inc, epoch, window
 
 
 HEADERS = ["maneuver", "t_days", "dv_mps", "x_km", "y_km", "z_km"]
@@ -43,10 +60,12 @@ HEADERS = ["maneuver", "t_days", "dv_mps", "x_km", "y_km", "z_km"]
 def run(args, system, parking):
     from cr3bp.transfers.low_energy import design_low_energy
     from . import _tube_options as to
-    alt, tof, inc, epoch = check(args, system, parking)
+    alt, tof, inc, epoch, window = check(args, system, parking)
     if args.plot:
         common.plot_file("--plot", args.plot)
     orbit = to.orbit_from_request(system, args.target, args)
+    if window is not None:
+        return _run_window(args, orbit, alt, tof, inc, window)
     common.progress(args, f"librate connect: designing a low-energy transfer from {args.origin} in the "
                     "bicircular model (backward sweep from the target, then correction; about a minute)...")
     tr = design_low_energy(orbit, alt, epoch=epoch, inclination_deg=inc, max_tof_days=tof,
@@ -85,4 +104,48 @@ def run(args, system, parking):
     table = "\n".join(head) + "\n\n" + common.format_table(HEADERS, rows)
     payload = {"from": args.origin, "to": args.target, "model": d["model"], "legs": [d]}
     common.emit(args, payload=payload, headers=HEADERS, rows=rows, table=table, comments=head, model=MODEL)
+    return 0
+
+
+WINDOW_HEADERS = ["departure_utc", "how", "phase_miss_deg", "dv_mps", "departure_dv_mps", "insertion_dv_mps",
+                  "tof_days", "insertion_utc"]
+
+
+def _run_window(args, orbit, alt, tof, inc, window):
+    """--window: the best launch dates of the window (cr3bp.transfers.low_energy.launch_window)."""
+    from cr3bp.transfers.low_energy import launch_window
+    common.progress(args, f"librate connect: searching a launch window for a low-energy transfer from {args.origin} "
+                    "in the bicircular model (Sun phase searched with no date, then each date; a few minutes)...")
+    w = launch_window(orbit, alt, *window, inclination_deg=inc, max_tof_days=tof,
+                      progress=lambda m: common.progress(args, m))
+    by_date = {t.departure_epoch: t for t in w.transfers}
+    rows = []
+    for d in sorted(w.dates, key=lambda d: d["departure_epoch_utc"]):
+        t = by_date.get(d["departure_epoch_utc"])
+        rows.append([d["departure_epoch_utc"], d["how"], d["phase_miss_deg"],
+                     *( [t.dv_mps, t.departure_dv_mps, t.insertion_dv_mps, t.tof_days, t.insertion_epoch] if t
+                        else [None, None, None, None, f"not designed: {d['reason']}"])])
+    best = w.best
+    head = [f"{args.origin} -> {args.target}: low-energy launch window {w.to_dict()['window_utc'][0]} to "
+            f"{w.to_dict()['window_utc'][1]} (UTC), model: bicircular (Sun–Earth–Moon)",
+            f"best Sun phase with no date: {w.free.sun_phase_deg:.2f} deg from the Earth-Moon line at departure, "
+            f"bicircular total dv {w.free.dv_mps:.1f} m/s (insertion {w.free.insertion_dv_mps:.2f} m/s)",
+            f"best launch: {best.departure_epoch} (UTC), bicircular total dv {best.dv_mps:.1f} m/s: departure "
+            f"{best.departure_dv_mps:.1f} m/s, insertion {best.insertion_dv_mps:.2f} m/s, time of flight "
+            f"{best.tof_days:.2f} d, insertion {best.insertion_epoch} (UTC)",
+            "the bicircular model repeats every synodic month: dates bringing the same Sun phase give the same "
+            "transfer here; the ephemeris model (librate refine) tells them apart"]
+    if args.plot:
+        from cr3bp.plotting import save
+        from cr3bp.plotting.low_energy import plot_low_energy
+        common.progress(args, "drawing the best launch...")
+        save(plot_low_energy(best), args.plot,
+             f"{args.origin} -> {args.target}, low-energy, best launch of the window {best.departure_epoch}: "
+             f"bicircular-model total dv {best.dv_mps:.0f} m/s (departure {best.departure_dv_mps:.0f}, insertion "
+             f"{best.insertion_dv_mps:.1f} m/s), time of flight {best.tof_days:.1f} d", model="bicircular")
+        common.progress(args, f"wrote {args.plot}")
+    table = "\n".join(head) + "\n\n" + common.format_table(WINDOW_HEADERS, rows)
+    payload = {"from": args.origin, "to": args.target, "model": "bicircular (Sun–Earth–Moon)",
+               "window": w.to_dict(), "legs": [best.to_dict()]}
+    common.emit(args, payload=payload, headers=WINDOW_HEADERS, rows=rows, table=table, comments=head, model=MODEL)
     return 0

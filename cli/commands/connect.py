@@ -112,6 +112,8 @@ def run(args):
     t_max = quantity("--time", args.time, "time", system, sign="positive", default_unit="TU") \
         if args.time is not None else 2 * math.pi
     pa, pb = parse_parking(args.origin, system), parse_parking(args.target, system)
+    if getattr(args, "window", None) is not None and args.path != "low-energy":
+        raise InputError("--window searches the launch dates of a low-energy transfer; give it with --path low-energy")
     if args.optimise:
         return _optimise.run(args, system, pa, pb, t_max)
     _optimise.check_unused(args)

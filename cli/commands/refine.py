@@ -133,16 +133,20 @@ def _run_route(args, sysm):
     patch_days = _float("--patch-days", args.patch_days, 0.01, 1000.0)
     max_iter, srp, bodies, fmt_out = _model_options(args, sysm)
     t_tu, states, maneuvers = read_route(args.route, sysm)
+    from cr3bp.fidelity.route import route_launch
+    low_energy = route_launch(args.route, args.epoch, sysm)   # a low-energy route: its own launch date only
+    central_body = args.central or ("earth" if low_energy else None)   # it leaves from and flies far from the Earth
     common.progress(args, f"route: {len(t_tu)} samples over {(t_tu[-1] - t_tu[0]) * sysm.time_days:.4g} d, "
                           f"{len(maneuvers)} maneuvers; multiple shooting in the ephemeris model...")
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        tr = transition_route(sysm, t_tu, states, maneuvers, args.epoch, bodies, central=args.central, srp=srp,
+        tr = transition_route(sysm, t_tu, states, maneuvers, args.epoch, bodies, central=central_body, srp=srp,
                               patch_days=patch_days, hold_end=args.hold_end == "yes", max_iter=max_iter,
                               progress=lambda stage, i, err: common.progress(
                                   args, f"  {stage} iteration {i}: largest mismatch {err:.3e} (nondimensional)"))
     central = tr.model.central
-    headers = ["t_days", "t_cr3bp_days", "node", "kind", "dv_cr3bp_mps", "dv_ephemeris_mps"]
+    design = "bicircular" if low_energy else "CR3BP"     # the model the route was designed in
+    headers = ["t_days", f"t_{design.lower()}_days", "node", "kind", f"dv_{design.lower()}_mps", "dv_ephemeris_mps"]
     rows = [[m["t_days"], m["t_cr3bp_days"], m["node"], m["kind"], m["dv_cr3bp_mps"], m["dv_mps"]]
             for m in tr.maneuvers]
     rows.append(["total", "", "", "", tr.dv_total_cr3bp_mps, tr.dv_total_mps])
@@ -150,7 +154,7 @@ def _run_route(args, sysm):
                                 "max_timing_offset_min", "max_same_epoch_separation_km"],
                                [[a["arc"], a["t_start_days"], a["t_end_days"], a["patches"], a["max_path_offset_km"],
                                  a["max_timing_offset_min"], a["max_same_epoch_separation_km"]] for a in tr.arcs],
-                               title="each arc of the ephemeris trajectory against the CR3BP route (CR3BP times): "
+                               title=f"each arc of the ephemeris trajectory against the {design} route ({design} times): "
                                      "distance to the nearest point of the route's path, how far ahead or behind "
                                      "it runs, and the separation at equal epochs (path and timing mixed); none "
                                      "of these is a Δv")
@@ -178,14 +182,16 @@ def _run_route(args, sysm):
                  "route": str(args.route), "force model": f"point masses {central} (central), "
                  f"{', '.join(tr.model.bodies)}" + (f"; cannonball SRP A/m {srp[0]} m2/kg, Cr {srp[1]}" if srp else ""),
                  "ephemeris": tr.model.ephemeris,
-                 "dv_total_mps": f"{tr.dv_total_mps:.6g} (CR3BP route: {tr.dv_total_cr3bp_mps:.6g})",
+                 "dv_total_mps": f"{tr.dv_total_mps:.6g} ({design} route: {tr.dv_total_cr3bp_mps:.6g})",
                  "continuity": f"{tr.continuity_km * 1000:.3g} m, {tr.continuity_mps:.3g} m/s"}
         traj = export.Trajectory(spec, tuple(segs), "TDB", tuple(mans), "LIBRATE REFINED ROUTE", "NONE", model)
         export.write(args.out, traj, fmt_out)
         common.progress(args, f"wrote {args.out}")
     _finish(args, tr, f"route {args.route} from {args.epoch}",
-            f"CR3BP route (blue) and ephemeris trajectory (red); {central}-centred",
-            {"route": str(args.route)}, headers, rows, table)
+            f"{design} route (blue) and ephemeris trajectory (red); {central}-centred",
+            {"route": str(args.route), "design_model": design,
+             "design_model_note": None if design == "CR3BP" else "the *_cr3bp_* keys of this route hold the "
+             "values of its design model, the bicircular (Sun-Earth-Moon) one"}, headers, rows, table)
     return 0
 
 

@@ -108,7 +108,8 @@ def run(args):
         elif what == "optimising":
             common.progress(args, "librate: optimising the best route's orbit-to-orbit legs...")
         else:
-            common.progress(args, f"librate: stitching the best route ({value.n_legs} leg(s)) by multiple shooting...")
+            common.progress(args, f"librate: stitching the best route ({value.n_legs} leg(s)) by multiple shooting "
+                                  "(a route of one low-energy leg: as designed, in the bicircular model)...")
     try:
         design = design_transfer(system, nodelist, src, dst, constraints, objective=args.objective, best=k,
                                  pareto=args.pareto, stitch=not args.no_stitch, on_stage=stage,
@@ -153,9 +154,12 @@ def run(args):
     if args.optimise:
         payload["optimised_legs"] = [dict(tr.to_dict(), leg=k + 1) if not isinstance(tr, str) else
                                      {"leg": k + 1, "not_optimised": tr} for k, tr in design.optimised]
+    # a route through a low-energy leg: its numbers are the bicircular model's (that caution)
+    model = "bicircular" if any(getattr(leg, "model_of", lambda: None)() is not None for leg in routes[0].legs) \
+        else "cr3bp"
     if args.format == "json":
         import sys
-        sys.stdout.write(common.json_text(payload))
+        sys.stdout.write(common.json_text(payload, model=model))
         return 0
     rows = [[i + 1, " -> ".join(name[n] for n in r.nodes), r.n_legs, r.dv_total_mps, r.tof_arrival_days,
              r.tof_days] for i, r in enumerate(routes)]
@@ -175,13 +179,13 @@ def run(args):
             ["t_days", "node", "maneuver", "dv_x_mps", "dv_y_mps", "dv_z_mps", "dv_design_mps"] + ex_head,
             [[m["t_days"], m["node"], m.get("name", ""), *m["dv_vector_mps"], m["dv_mps"]] + ([r["dv_exported_mps"]] if table else [])
              for m, r in zip(stitched.maneuvers, table or [None] * len(stitched.maneuvers))],
-            title=(f"stitched best route (CR3BP): Δv {stitched.dv_total_mps:.3f} m/s (legs alone "
+            title=(f"stitched best route ({stitched.model}): Δv {stitched.dv_total_mps:.3f} m/s (legs alone "
                    f"{stitched.legs_dv_total_mps:.3f} m/s), time of flight {stitched.tof_days:.4f} d, "
                    f"largest position jump {stitched.continuity_lu * system.length_km * 1e3:.2e} m; "
                    f"{stitched.note}"))
         for c, v in stitched.constraints.items():
             text += f"{c}: {v['value']:.6g} against {v['limit']:.6g}: {'holds' if v['holds'] else 'VIOLATED'}\n"
-        text += ("Δv vectors and dv_design_mps: the CR3BP design, rotating frame." + (
+        text += (f"Δv vectors and dv_design_mps: the {stitched.model} design, rotating frame." + (
             " dv_exported_mps[route.oem]: the velocity jump of the trajectory in route.oem (its anchoring "
             "rescales speeds)." if table else "") + "\n")
         if warn:
@@ -200,7 +204,7 @@ def run(args):
     for f in files:
         text += f"wrote {f}\n"
     import sys
-    sys.stdout.write(text + common.caution_footer())
+    sys.stdout.write(text + common.caution_footer(model))
     return 0
 
 
@@ -235,13 +239,16 @@ def _export(args, system, routes, front, stitched, name, table=()):
     mheaders, mrows, mans, models, warnings = maneuver_columns(stitched, exported)
     warnings = [f"WARNING: {w}" for w in warnings]
     files = [str(out / "trajectory.csv"), str(out / "maneuvers.csv"), str(out / "route.json")]
-    write_text(files[0], common.csv_text(headers, rows, [title]))
+    model = "cr3bp" if stitched.model == "CR3BP" else "bicircular"     # (a low-energy leg's own model)
+    if model != "cr3bp":
+        title += f"; states, Δv and times of the {stitched.model} model (Sun-Earth-Moon), not the CR3BP"
+    write_text(files[0], common.csv_text(headers, rows, [title], model=model))
     write_text(files[1], common.csv_text(mheaders, mrows, [title, "Δv vectors in the rotating frame"]
-                                         + [f"{k}: {v}" for k, v in models.items()] + warnings))
+                                         + [f"{k}: {v}" for k, v in models.items()] + warnings, model=model))
     payload = {"system": system.to_dict(), "stitched": stitched.to_dict(),
                "routes": [_route_dict(r, name) for r in routes], "dv_models": models,
                "maneuvers": mans, "dv_warnings": warnings}
-    write_text(files[2], common.json_text(payload))
+    write_text(files[2], common.json_text(payload, model=model))
     return files
 
 
@@ -257,12 +264,16 @@ def _plots(args, system, g, routes, front, stitched):
               for n in dict.fromkeys(routes[0].nodes) if g.nodes[n].get("kind") == "orbit"]
     common.progress(args, f"librate: growing the tubes of {len(orbits)} orbit(s) for the corridor figure...")
     ax = plot_corridor(stitched, legs, tubes=corridor_tubes(orbits))
-    save(ax.figure, args.plot, f"{system.name}: best route stitched by multiple shooting; dashed: zero-velocity "
-         f"curves at each leg's Jacobi constant; triangles: maneuvers (Δv in m/s).")
+    model = "cr3bp" if stitched.model == "CR3BP" else "bicircular"     # (a low-energy leg's own model)
+    how = ("stitched by multiple shooting" if model == "cr3bp" else
+           "one low-energy leg as designed in the bicircular model (Sun-Earth-Moon)")
+    save(ax.figure, args.plot, f"{system.name}: best route {how}; dashed: zero-velocity "
+         f"curves at each leg's Jacobi constant; triangles: maneuvers (Δv in m/s).", model=model)
     pareto_file, graph_file = _side(args.plot, "pareto"), _side(args.plot, "graph")
     ax = plot_pareto(routes, front, routes[0])
-    save(ax.figure, pareto_file, "CR3BP totals over the legs as computed separately (stitched, the chosen "
-         f"route's is {stitched.dv_total_mps:.1f} m/s; {'optimised' if stitched.optimised else 'not optimised'}).")
+    save(ax.figure, pareto_file, f"{stitched.model} totals over the legs as computed separately (stitched, the chosen "
+         f"route's is {stitched.dv_total_mps:.1f} m/s; {'optimised' if stitched.optimised else 'not optimised'}).",
+         model=model)
     ax = plot_graph(g, route=routes[0])
     save(ax.figure, graph_file, f"{system.name}: transfer graph; the chosen route in red.")
     return [args.plot, pareto_file, graph_file]

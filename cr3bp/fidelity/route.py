@@ -570,3 +570,72 @@ def read_route(path, system=None):
     if data.ndim != 2 or data.shape[0] < 2:
         raise InputError(f"{tj} has fewer than two samples")
     return data[:, 0], data[:, 1:], maneuvers
+
+
+#: A low-energy route's Sun phase at departure and the ephemeris's at the refine date may differ
+#: by this much (degrees; a third of a day of the synodic month is 4 degrees).
+LAUNCH_PHASE_TOL_DEG = 0.5
+
+
+def route_launch(path, epoch, system) -> dict | None:
+    """For a route folder whose stitched route is a low-energy leg (``stitched.model`` is
+    "bicircular"): check that ``epoch`` is its launch date, and return the model record.
+
+    A dated design must be refined at its own date (to the second); an undated one at a date on
+    which the ephemeris puts the Sun at the design's phase (within ``LAUNCH_PHASE_TOL_DEG``).
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The folder ``librate route --out`` wrote, or a file in it.
+    epoch : str or float
+        The refine date (ISO 8601 text or TDB seconds since J2000).
+    system : System
+        The Earth-Moon system.
+
+    Returns
+    -------
+    dict or None
+        The model record (:func:`cr3bp.bicircular.model_record`), None for a CR3BP route.
+
+    Raises
+    ------
+    InputError
+        ``epoch`` is not the low-energy route's launch date (the message names both).
+
+    Examples
+    --------
+    >>> route_launch("no-such-folder", "2027-03-01T00:00:00Z", None) is None
+    True
+
+    References
+    ----------
+    Parker & Anderson, *Low-Energy Lunar Trajectory Design*, 2013, ch. 3 (a ballistic lunar
+    transfer belongs to its launch date, from memory).
+    """
+    p = Path(path)
+    rj = (p if p.is_dir() else p.parent) / "route.json"
+    try:
+        st = json.loads(rj.read_text()).get("stitched") or {}
+    except (OSError, ValueError, AttributeError):
+        return None
+    if not isinstance(st, dict) or st.get("model") != "bicircular":
+        return None
+    from ..bicircular import sun_phase_at   # lazy: the ephemeris's Sun phase, only for a low-energy route
+    from ..transfers.low_energy import iso_utc   # lazy: dates in words, only for a low-energy route
+    rec = st.get("model_record") or {}
+    t = frames.epoch_from_text(epoch) if isinstance(epoch, str) else float(epoch)
+    if rec.get("epoch_tdb_s") is not None:
+        if abs(float(rec["epoch_tdb_s"]) - t) > 1.0:
+            raise InputError(f"--epoch {epoch}: this low-energy route was designed for launch on "
+                             f"{iso_utc(float(rec['epoch_tdb_s']))} (UTC); give that date")
+        return rec
+    want = math.degrees(float(rec.get("sun_phase_rad", math.nan))) % 360.0
+    got = math.degrees(sun_phase_at(t, system)) % 360.0
+    miss = abs((got - want + 180.0) % 360.0 - 180.0)
+    if not miss <= LAUNCH_PHASE_TOL_DEG:
+        raise InputError(f"--epoch {epoch}: the ephemeris puts the Sun at {got:.2f} deg from the Earth-Moon line, "
+                         f"but this low-energy route was designed with it at {want:.2f} deg (at most "
+                         f"{LAUNCH_PHASE_TOL_DEG:g} deg apart); find launch dates with librate connect --path "
+                         "low-energy --window START/END")
+    return rec

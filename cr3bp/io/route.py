@@ -110,6 +110,8 @@ def to_export(result, frame_spec, object_name="LIBRATE ROUTE"):
     mans = tuple(export.Maneuver(float(tm), np.asarray(m["dv_vector_mps"]) / vu,
                                   f"{m['name']} at {m['node']}" if m.get("name") else m["node"], float(m["dv_mps"]))
                  for tm, m in zip(man_t, result.maneuvers))
-    model = {"route": " -> ".join(result.nodes), "dv_total_design_mps (CR3BP)": result.dv_total_mps,
-             "tof_days": result.tof_days, "method": "multiple shooting (librate stitch)"}
+    mname = getattr(result, "model", "CR3BP")
+    model = {"route": " -> ".join(result.nodes), f"dv_total_design_mps ({mname})": result.dv_total_mps,
+             "tof_days": result.tof_days, "method": "multiple shooting (librate stitch)" if mname == "CR3BP"
+             else "the low-energy leg as designed in the bicircular model (Sun-Earth-Moon)"}
     return export.Trajectory(frame_spec, tuple(segs), "TDB", mans, object_name, "NONE", model)

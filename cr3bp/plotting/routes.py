@@ -94,7 +94,8 @@ def plot_corridor(stitched, legs=(), tubes=(), ax=None, view="xy", margin=0.25, 
     ax.set_aspect("equal")
     axis_labels(ax, system, view)
     set_title(ax, f"Transfer corridor: {' → '.join(stitched.nodes)}\n"
-                  f"Δv {stitched.dv_total_mps:.1f} m/s, time of flight {stitched.tof_days:.2f} d (CR3BP)")
+                  f"Δv {stitched.dv_total_mps:.1f} m/s, time of flight {stitched.tof_days:.2f} d "
+                  f"({getattr(stitched, 'model', 'CR3BP')})")
     legend_beside(ax)
     return ax
 

@@ -80,6 +80,9 @@ TRANSFER_KEYS = {
     "max_dv": (Q, False, "cap on total delta-v"),
     "max_tof": (Q, False, "cap on time of flight"),
     "best": (I, False, "how many ranked routes to keep"),
+    "path": (words.one_of(("auto", "low-energy")), False,
+             "from 'parking earth ...': 'auto' (manifold or direct departure) or 'low-energy' (the Sun's pull, "
+             "bicircular model, launched at the system epoch)"),
 }
 EXPORT_KEYS = {
     "object": (S, True, "name of an orbit or transfer"),
@@ -406,6 +409,11 @@ def check(data: dict, lines: dict, file: str, schema: dict | None = None,
             problems.append(Problem(file, line(key), key, f"name '{name}' is already used by "
                                     f"{names_seen[name]}; orbits and transfers need distinct names", "meaning"))
         names_seen.setdefault(name, key.removesuffix(".name"))
+        if t.get("path") == "low-energy" and not (str(t.get("from", "")).startswith("parking earth ")
+                                                  and (data.get("system") or {}).get("name") == "earth-moon"):
+            problems.append(Problem(file, line(f"transfers[{i}].path"), f"transfers[{i}].path",
+                                    "path 'low-energy' leaves an Earth parking orbit ('from = \"parking earth "
+                                    "200km\"') in the earth-moon system", "meaning"))
     return sorted(problems, key=lambda p: (p.line, p.key))
 
 

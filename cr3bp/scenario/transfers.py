@@ -12,11 +12,11 @@ from ..errors import InputError, NoSolutionError
 from .outputs import csv_text, json_text, save_figures, say
 from ..vocabulary import ORBIT_TARGETS
 from .. import units
-from ..cautions import CAUTION
+from ..cautions import CAUTION, caution as model_caution
 from ..io import export
 from ..io.atomic import write_text
 from ..io.route import trajectory_rows, to_export
-from ..transfers.nodes import NodeList, orbit_node, parking_node, find_node
+from ..transfers.nodes import EdgeHint, NodeList, orbit_node, parking_node, find_node
 from ..tubes.manifolds import corridor_tubes
 
 TARGET_KEYS = ORBIT_TARGETS
@@ -105,7 +105,15 @@ def transfer_nodes(plan, index: int, transfer: dict):
                 nodes.append(orbit_node(n, system, orbit_text(plan.data["orbits"][n])))
         except InputError as e:
             raise InputError(f"transfer '{transfer['name']}': node '{n}': {e}") from None
-    return NodeList(None, tuple(nodes), file=f"{plan.path} [transfers {index}]")
+    hints = ()
+    if transfer.get("path") == "low-energy":
+        # the legs from the parking orbit to each orbit of the transfer are low-energy ones,
+        # launched at the scenario's epoch (route time 0)
+        from ..time.frames import epoch_from_text   # lazy: the ephemeris, only for a low-energy transfer
+        launch = epoch_from_text(plan.epoch) if isinstance(plan.epoch, str) else float(plan.epoch)
+        hints = tuple(EdgeHint(transfer["from"], n.name, path="low-energy", launch_tdb_s=launch, both_ways=False)
+                      for n in nodes if n.kind == "orbit" and transfer["from"].startswith("parking "))
+    return NodeList(None, tuple(nodes), hints, file=f"{plan.path} [transfers {index}]")
 
 
 def design_transfers(plan, orbits, out, *, catalog=None, workers=None, scheduler=None, progress=None,
@@ -197,7 +205,7 @@ def design_transfers(plan, orbits, out, *, catalog=None, workers=None, scheduler
         routes[name] = {"best": rd(ranked[0]), "ranked": [rd(r) for r in ranked],
                         "pareto": [rd(r) for r in front], "stitched": st.to_dict(),
                         "maneuvers": list(st.maneuvers),
-                        "note": (f"stitched (CR3BP): Δv {st.dv_total_mps:.2f} m/s (legs alone {st.legs_dv_total_mps:.2f} m/s), "
+                        "note": (f"stitched ({st.model}): Δv {st.dv_total_mps:.2f} m/s (legs alone {st.legs_dv_total_mps:.2f} m/s), "
                                  f"time of flight {st.tof_days:.3f} d to the step-off point on the final orbit "
                                  "(coasts included), largest position jump "
                                  f"{st.continuity_lu * system.length_km * 1e3:.2e} m; {st.note}")}
@@ -258,7 +266,10 @@ def write_route_tables(plan, name, summary, out, stitched, exported=()):
     summary["dv_warnings"] = warnings
     body = {k: v for k, v in summary.items() if k not in ("labels", "maneuvers_labelled")}
     body["maneuvers"] = mans
-    write_text(out.path(f"route-{name}.json"), json_text({"caution": plan_caution(), "transfer": name, **body}))
+    caution = plan_caution()
+    if getattr(stitched, "model", "CR3BP") != "CR3BP":     # a low-energy leg: its own model's caution
+        caution = model_caution("bicircular")
+    write_text(out.path(f"route-{name}.json"), json_text({"caution": caution, "transfer": name, **body}))
     write_text(out.path(f"route-{name}-maneuvers.csv"), csv_text(
         headers, rows, [f"maneuvers of transfer {name}; Δv vectors in the rotating frame"]
         + [f"{k}: {v}" for k, v in models.items()] + warnings))

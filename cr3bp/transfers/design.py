@@ -371,7 +371,9 @@ def maneuver_columns(stitched, exported=()):
     Comparing the design and flown Δv of each burn: common practice.
     """
     mans = [dict(m, dv_design_mps=m["dv_mps"]) for m in stitched.maneuvers]
-    models = {"dv_design_mps": DV_DESIGN_NOTE}
+    mname = getattr(stitched, "model", "CR3BP")
+    models = {"dv_design_mps": DV_DESIGN_NOTE if mname == "CR3BP" else DV_DESIGN_NOTE.replace(
+        "the CR3BP design", f"the {mname} (Sun-Earth-Moon) design of the low-energy leg")}
     warnings = []
     for e in exported:
         rows = e["maneuvers"]
@@ -382,7 +384,7 @@ def maneuver_columns(stitched, exported=()):
         for m, r in zip(mans, rows):
             m[key] = r["dv_exported_mps"]
             if dv_differs(r):
-                warnings.append(f"maneuver at {m['t_days']:.4f} d ({m['node']}): design (CR3BP) "
+                warnings.append(f"maneuver at {m['t_days']:.4f} d ({m['node']}): design ({mname}) "
                                 f"{m['dv_design_mps']:.1f} m/s, exported in {e['file']} {r['dv_exported_mps']:.1f} m/s "
                                 f"({r['dv_change_percent']:+.1f}%): budget with the model you will fly")
     keys = [k for k in models if k != "dv_design_mps"]

@@ -524,6 +524,8 @@ def _parking_leg(system, task) -> Leg:
     arrive = st["arrive"]                     # parking -> orbit
     orbit = _orbit_from_plain(system, task["to" if arrive else "from"]["orbit_data"])
     departs = arrive and system.name == "earth-moon" and str(st["body"]).lower() == "earth"
+    if st.get("path") == "low-energy":
+        return _low_energy_leg(orbit, st)
     if not manifold_may_reach(orbit, st["body"], st["altitude_km"]):
         # no manifold of this orbit comes down to the parking orbit: no periapsis search (it
         # cannot succeed); a departure goes straight to the direct design, a return has none
@@ -552,6 +554,17 @@ def _direct_departure_leg(orbit, st) -> Leg:
     to the Moon's orbit plane) to ``orbit``, as a leg."""
     dep = design_departure(orbit, st["altitude_km"], path="direct", inclination_deg=st.get("inclination_deg"))
     return as_leg(dep, st["patches"])
+
+
+def _low_energy_leg(orbit, st) -> Leg:
+    """The low-energy transfer (:func:`cr3bp.transfers.low_energy.design_low_energy`, the
+    bicircular model) from the parking orbit of the task settings ``st`` (its altitude, its
+    inclination when given, the launch date when given) to ``orbit``, as a leg whose details
+    name its model."""
+    from .low_energy import as_leg as low_energy_leg, design_low_energy   # lazy: the bicircular design, only for its legs
+    tr = design_low_energy(orbit, st["altitude_km"], epoch=st.get("launch_tdb_s"),
+                           inclination_deg=st.get("inclination_deg"))
+    return low_energy_leg(tr)
 
 
 #: A floor under the first periapsis altitude over the Earth (km) of the stable manifolds of
@@ -801,6 +814,11 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
                        "between a torus and a periodic orbit are built; parking, capture and escape legs of tori "
                        "and torus-to-torus connections are not yet; a targeted leg departs or arrives at the "
                        "torus's reference state (phase 0, 0)")
+        low_energy = bool(h and h.path == "low-energy")
+        if why is None and low_energy and not isinstance(a, ParkingNode):
+            # (the other direction of a both-ways hint: a low-energy leg only departs)
+            why = (f"a low-energy leg leaves an Earth parking orbit; the return {a.name} -> {b.name} "
+                   "is not designed")
         sa, sb = states[a.id], states[b.id]
         maneuvers = h.maneuvers if h else "ends"
         if why is None and not isinstance(b, BoundaryNode):   # a boundary has no state: the manifold decides
@@ -825,6 +843,8 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
                         "altitude_km": park.altitude_km, "arrive": park is a,
                         "inclination_deg": park.inclination_deg,
                         "max_patch_dv_mps": h.max_patch_dv_mps if h else None, "tube_points": PARKING_POINTS}
+            if low_energy:       # (only then: the keys of the other parking legs stay as they were)
+                settings.update(path="low-energy", launch_tdb_s=h.launch_tdb_s)
         elif h and h.sections and isinstance(a, OrbitNode) and isinstance(b, OrbitNode):
             # manifold connection on the hinted section(s): unstable tube of a, stable of b
             method = "manifold"

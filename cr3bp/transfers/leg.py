@@ -290,18 +290,35 @@ class Leg:
                    tof_arrival_days=float(tof_days if tof_arrival_days is None else tof_arrival_days))
 
     def trajectory(self, n_per_segment: int = 400):
-        """``(t, states)`` of the whole leg (segments re-propagated and joined)."""
+        """``(t, states)`` of the whole leg (segments re-propagated and joined; a low-energy
+        leg, ``details["model"] == "bicircular"``, in its bicircular model from each segment's
+        own start time)."""
         ts, ss = [], []
+        model = self.model_of()
         for t0, s0, dur in self.segments:
             if dur == 0:
                 continue
             te = np.linspace(0.0, dur, int(n_per_segment))
-            arc = propagate(self.system, s0, dur, t_eval=te, rtol=RTOL, atol=ATOL)
-            ts.append(t0 + arc.t)
+            if model is None:
+                arc = propagate(self.system, s0, dur, t_eval=te, rtol=RTOL, atol=ATOL)
+                ts.append(t0 + arc.t)
+            else:
+                from .. import bicircular   # lazy: the bicircular model, only for its legs
+                arc = bicircular.propagate(model, s0, t0 + dur, t_eval=t0 + te, rtol=RTOL, atol=ATOL, t0=t0)
+                ts.append(arc.t)
             ss.append(arc.states)
         if not ts:
             return np.zeros(0), np.zeros((0, 6))
         return np.concatenate(ts), np.vstack(ss)
+
+    def model_of(self):
+        """The dynamical model of the leg's arcs: None for the CR3BP of ``system``, or the
+        :class:`cr3bp.bicircular.BicircularSystem` of a low-energy leg (its ``details`` hold
+        ``model = "bicircular"`` and the Sun's phase at the leg's start)."""
+        if self.details.get("model") != "bicircular" or self.system is None:
+            return None
+        from .. import bicircular   # lazy: the bicircular model, only for its legs
+        return bicircular.model_from_record(self.system, self.details.get("bicircular", {}))
 
     def to_dict(self) -> dict:
         s = self.system

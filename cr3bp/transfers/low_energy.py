@@ -598,6 +598,33 @@ def _patches(model, s_dep, pre_ins, tof, n=SEGMENTS):
     return patches, float(model.system.km(dmax)), float(model.system.km(worst))
 
 
+def _candidates(pb, sw, score, candidates, progress, label="candidate"):
+    """Correct the best ``candidates`` of the sweep by ``score`` (:func:`_correct`); stop at a
+    burn under ``GOOD_ENOUGH_MPS``. Returns ((cost, z, evaluation, (optimised, iterations)) or
+    None, list of what each try gave)."""
+    system = pb.system
+    order = np.argsort(score)
+    best, tried = None, []
+    for k in order[: int(candidates)]:
+        z0 = np.concatenate([[sw["phase"][k]], sw["dv"][k], [sw["sun"][k]]])
+        if progress:
+            progress(f"correcting {label} {len(tried) + 1} of {min(int(candidates), order.size)}...")
+        out = _correct(pb, z0)
+        if out is None:
+            tried.append({"start_score": float(score[k]), "feasible": False})
+            continue
+        z, opt, nit = out
+        e = pb.evaluate(z)
+        cost = float(np.linalg.norm(z[1:4]))
+        tried.append({"start_score": float(score[k]), "feasible": True, "iterations": nit,
+                      "optimised": opt, "insertion_dv_mps": float(system.mps(cost))})
+        if best is None or cost < best[0]:
+            best = (cost, z, e, (opt, nit))
+        if system.mps(best[0]) < GOOD_ENOUGH_MPS:
+            break
+    return best, tried
+
+
 def design_low_energy(orbit, altitude_km, *, epoch=None, inclination_deg=None, max_tof_days=MAX_TOF_DAYS,
                       min_tof_days=MIN_TOF_DAYS, sun_phases=None, candidates=CANDIDATES, progress=None):
     """A low-energy transfer from a circular Earth parking orbit to ``orbit``, in the bicircular model.
@@ -668,27 +695,8 @@ def design_low_energy(orbit, altitude_km, *, epoch=None, inclination_deg=None, m
     if sw["score"].size == 0:
         raise NoSolutionError(f"no trajectory of the sweep ({sw['count']} propagated) comes back to the Earth "
                               f"within {tmin_d:g}-{tmax_d:g} d; widen the time-of-flight window")
-    order = np.argsort(sw["score"])
     pb = _Problem(model, orbit, r_park, inc, max_tof, min_tof, dep_phase)
-    best = None
-    tried = []
-    for k in order[: int(candidates)]:
-        z0 = np.concatenate([[sw["phase"][k]], sw["dv"][k], [sw["sun"][k]]])
-        if progress:
-            progress(f"correcting candidate {len(tried) + 1} of {min(int(candidates), order.size)}...")
-        out = _correct(pb, z0)
-        if out is None:
-            tried.append({"start_score": float(sw["score"][k]), "feasible": False})
-            continue
-        z, opt, nit = out
-        e = pb.evaluate(z)
-        cost = float(np.linalg.norm(z[1:4]))
-        tried.append({"start_score": float(sw["score"][k]), "feasible": True, "iterations": nit,
-                      "optimised": opt, "insertion_dv_mps": float(system.mps(cost))})
-        if best is None or cost < best[0]:
-            best = (cost, z, e, (opt, nit))
-        if best is not None and system.mps(best[0]) < GOOD_ENOUGH_MPS:
-            break
+    best, tried = _candidates(pb, sw, sw["score"], candidates, progress)
     if best is None:
         raise NoSolutionError(f"none of the {len(tried)} best sweep candidates could be corrected onto a "
                               f"{alt:g} km perigee within {tmin_d:g}-{tmax_d:g} d")
@@ -734,6 +742,7 @@ def _assemble(model, orbit, alt, pb, z, e, res, sw, tried, t_sweep, t_total):
         "closure_km": closure_km, "closure_tol_km": CLOSURE_TOL_KM,
         "sun_phase_at_insertion_deg": math.degrees(theta_dep + model.sun_rate * tof) % 360.0,
         "model_source": model.source,
+        "unknowns": [float(v) for v in z],
     }
     if closure_km > CLOSURE_TOL_KM:
         raise NoSolutionError(f"a coast of the transfer, re-propagated forward, misses its next patch point by "
@@ -741,3 +750,278 @@ def _assemble(model, orbit, alt, pb, z, e, res, sw, tried, t_sweep, t_total):
     return LowEnergyTransfer(model=dep_model, orbit=orbit, altitude_km=float(alt), maneuvers=maneuvers,
                              tof=tof, insertion_phase=float(z[0]) % 1.0, perigee=per,
                              max_distance_km=dmax, patches=patches, optimised=bool(res[0]), details=details)
+
+
+def as_leg(tr: LowEnergyTransfer):
+    """``tr`` as a :class:`cr3bp.transfers.leg.Leg` in shooting form, the transfer graph's
+    low-energy parking leg: its coasts are the shooting segments (``SEGMENTS``), the departure
+    and insertion burns its maneuvers, and ``details`` carry ``model = "bicircular"`` with the
+    Sun's phase at the departure burn (``bicircular``, :func:`cr3bp.bicircular.model_record`), so
+    that :meth:`cr3bp.transfers.leg.Leg.trajectory` and the stitcher propagate it in its own
+    model, and the design's JSON (``low_energy``).
+
+    Parameters
+    ----------
+    tr : LowEnergyTransfer
+        A designed transfer (:func:`design_low_energy`).
+
+    Returns
+    -------
+    Leg
+        Solver "parking", kind "departure"; arrives when it ends.
+
+    Raises
+    ------
+    None
+        A designed transfer always has its patches and burns.
+
+    Examples
+    --------
+    Skipped under doctest (the design takes about a minute):
+
+    >>> from cr3bp import orbit
+    >>> nrho = orbit("earth-moon", "halo L2 south resonance=9:2")   # doctest: +SKIP
+    >>> leg = as_leg(design_low_energy(nrho, 200.0))                 # doctest: +SKIP
+    >>> leg.details["model"], [m.where for m in leg.maneuvers]       # doctest: +SKIP
+    ('bicircular', ['departure', 'arrival'])
+
+    References
+    ----------
+    Parker & Anderson, *Low-Energy Lunar Trajectory Design*, 2013, ch. 3 (from memory); the
+    shooting form: Betts, *Practical Methods for Optimal Control and Estimation Using Nonlinear
+    Programming*, 2nd ed., 2010, ch. 4 (from memory).
+    """
+    from .leg import Leg, Maneuver   # lazy: the graph's leg type, only when a graph asks for one
+    s = tr.system
+    mans = []
+    for k, m in enumerate(tr.maneuvers):
+        mans.append(Maneuver(float(m["t"]), np.array(m["position"], dtype=float),
+                             np.array(m["dv_vector"], dtype=float),
+                             float(s.mps(np.linalg.norm(m["dv_vector"]))),
+                             "departure" if k == 0 else "arrival", m["name"]))
+    ins = tr.maneuvers[-1]
+    pre = np.array(ins["state_before"], dtype=float)
+    after = pre.copy()
+    after[3:] += np.asarray(ins["dv_vector"], dtype=float)
+    d = tr.to_dict()
+    summary = {k: v for k, v in d.items() if k not in ("details", "patches")}
+    summary["closure_km"] = tr.details.get("closure_km")
+    details = {"model": "bicircular", "bicircular": bc.model_record(tr.model), "low_energy": _plain(summary)}
+    _, states = tr.trajectory(200)
+    alt = min(float(s.km(np.min(np.linalg.norm(states[:, :3] - np.array([s.positions[k], 0.0, 0.0]), axis=1))))
+              - r for k, r in ((0, s.primary.radius_km), (1, s.secondary.radius_km)))
+    return Leg(s, "", "", tuple(mans), float(tr.dv_mps), float(tr.tof), None, tuple(tr.segments()),
+               "low-energy transfer (designed in the bicircular model: the Sun's pull raises the perigee)",
+               kind="departure", min_altitude_km=alt, details=details, solver="parking",
+               patch_times=np.array([p[0] for p in tr.patches], dtype=float),
+               patch_states=np.array([np.asarray(p[1], dtype=float) for p in tr.patches]),
+               departure_state=np.array(tr.maneuvers[0]["state_before"], dtype=float),
+               arrival_state=after, final_state=pre, tof_days=float(tr.tof_days),
+               tof_arrival_days=float(tr.tof_days))
+
+
+#: Longest launch window searched (days): two years of launch dates.
+MAX_WINDOW_DAYS = 731.0
+
+
+@dataclass(frozen=True)
+class LaunchWindow:
+    """The best launch dates of a low-energy transfer in a window (what :func:`launch_window`
+    returns; every value in the bicircular model).
+
+    Attributes
+    ----------
+    start_tdb_s, end_tdb_s : float   the window, TDB seconds since J2000
+    free : LowEnergyTransfer         the best transfer with the Sun's phase free (no date)
+    transfers : tuple of LowEnergyTransfer   one per launch date designed, best first (least
+        total Δv, then the earliest date)
+    dates : tuple of dict            every date designed: ``departure_epoch_utc``, ``how``
+        ("the free optimum's Sun phase recurs" or "window edge, nearest in Sun phase"),
+        ``phase_miss_deg`` (its Sun phase against the free optimum's), ``ok`` and ``reason``
+    """
+
+    start_tdb_s: float
+    end_tdb_s: float
+    free: object
+    transfers: tuple
+    dates: tuple
+
+    @property
+    def best(self):
+        """The best transfer of the window (None: no date could be designed)."""
+        return self.transfers[0] if self.transfers else None
+
+    def to_dict(self) -> dict:
+        return {"window_utc": [iso_utc(self.start_tdb_s), iso_utc(self.end_tdb_s)], "model": MODEL,
+                "free_sun_phase_deg": self.free.sun_phase_deg, "free_dv_mps": self.free.dv_mps,
+                "free_insertion_dv_mps": self.free.insertion_dv_mps, "dates": [dict(d) for d in self.dates],
+                "launches": [t.to_dict() for t in self.transfers],
+                "note": "in the bicircular model the Sun-Earth-Moon geometry repeats every synodic month, so the "
+                        "dates on which the best Sun phase recurs give the same transfer; the ephemeris model "
+                        "(librate refine) tells them apart"}
+
+
+def _phase_dates(start, end, theta, system):
+    """Dates in [start, end] (TDB s) at which the Sun's phase from the ephemeris equals ``theta``
+    (daily samples, then Brent's method on each sign change of the wrapped difference)."""
+    n = int(math.ceil((end - start) / SECONDS_PER_DAY)) + 1
+    ts = np.linspace(start, end, max(n, 2))
+
+    def g(t):
+        return float(np.angle(np.exp(1j * (bc.sun_phase_at(float(t), system) - theta))))
+    gs = np.array([g(t) for t in ts])
+    out = []
+    for k in range(len(ts) - 1):
+        a, b = gs[k], gs[k + 1]
+        if a == 0.0:
+            out.append(float(ts[k]))
+        elif a * b < 0.0 and abs(a - b) < math.pi:          # a crossing, not the wrap at +-pi
+            out.append(float(brentq(g, ts[k], ts[k + 1], xtol=1e-3, rtol=1e-15)))
+    if gs[-1] == 0.0:
+        out.append(float(ts[-1]))
+    return out, ts, gs
+
+
+def launch_window(orbit, altitude_km, start, end, *, inclination_deg=None, max_tof_days=MAX_TOF_DAYS,
+                  min_tof_days=MIN_TOF_DAYS, sun_phases=None, candidates=CANDIDATES, progress=None):
+    """The best launch dates in a window for a low-energy transfer to ``orbit``.
+
+    The Sun's phase is searched first with no date (:func:`design_low_energy`: every
+    Sun-Earth-Moon geometry of the bicircular model); the dates of the window on which the
+    ephemeris puts the Sun at that phase (:func:`cr3bp.bicircular.sun_phase_at`) are then each
+    designed for their date, starting from that transfer. A window too short to hold such a
+    date is designed at its two edges, each for its own date (:func:`design_low_energy` with
+    ``epoch``), and the better edge reported.
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+        The target orbit, in the earth-moon system.
+    altitude_km : float
+        Parking-orbit altitude (100 km to 50 000 km).
+    start, end : str or float
+        The window (ISO 8601 text, UTC unless it names its scale, or TDB seconds since J2000);
+        ``end`` after ``start``, at most ``MAX_WINDOW_DAYS`` later.
+    inclination_deg, max_tof_days, min_tof_days, sun_phases, candidates, progress
+        As :func:`design_low_energy`.
+
+    Returns
+    -------
+    LaunchWindow
+
+    Raises
+    ------
+    InputError
+        A bad window (order, length, outside the ephemeris) or any input
+        :func:`design_low_energy` refuses.
+    NoSolutionError
+        No transfer with a free Sun phase, or none for any date of the window.
+
+    Examples
+    --------
+    Skipped under doctest (about two minutes):
+
+    >>> from cr3bp import orbit
+    >>> nrho = orbit("earth-moon", "halo L2 south resonance=9:2")                    # doctest: +SKIP
+    >>> w = launch_window(nrho, 200.0, "2027-03-01T00:00:00Z", "2027-05-01T00:00:00Z")  # doctest: +SKIP
+    >>> w.best.departure_epoch, round(w.best.insertion_dv_mps, 2)                    # doctest: +SKIP
+
+    References
+    ----------
+    Parker & Anderson, *Low-Energy Lunar Trajectory Design*, 2013, ch. 3 (launch periods of
+    ballistic lunar transfers, from memory); Brent, *Algorithms for Minimization without
+    Derivatives*, 1973, ch. 4 (the root of the phase difference).
+    """
+    system = orbit.system
+    t0, t1 = window_seconds(start, end, system)
+    free = design_low_energy(orbit, altitude_km, inclination_deg=inclination_deg, max_tof_days=max_tof_days,
+                             min_tof_days=min_tof_days, sun_phases=sun_phases, candidates=candidates,
+                             progress=progress)
+    theta = float(free.model.sun_phase)
+    z_free = np.asarray(free.details["unknowns"], dtype=float)
+    if progress:
+        progress(f"best Sun phase at departure {free.sun_phase_deg:.2f} deg; finding the dates of the window "
+                 "that bring it (ephemeris)...")
+    dates, ts, gs = _phase_dates(t0, t1, theta, system)
+    how = "the free optimum's Sun phase recurs"
+    if not dates:
+        dates = [t0, t1]
+        how = "window edge, nearest in Sun phase"
+    inc = None if inclination_deg is None else math.radians(float(inclination_deg))
+    r_park = (system.primary.radius_km + float(altitude_km)) / system.length_km
+    max_tof, min_tof = max_tof_days / system.days(1.0), min_tof_days / system.days(1.0)
+    out, rows = [], []
+    for k, t in enumerate(dates):
+        model = bc.bicircular_system(system, epoch=t)
+        row = {"departure_epoch_utc": iso_utc(t), "how": how,
+               "phase_miss_deg": abs(math.degrees(float(np.angle(np.exp(1j * (model.sun_phase - theta))))))}
+        if progress:
+            progress(f"designing the launch of {row['departure_epoch_utc']} ({k + 1} of {len(dates)})...")
+        t_start = time.perf_counter()
+        try:
+            if how == "window edge, nearest in Sun phase":
+                # no date of the window brings the best phase: the date's own design
+                tr = design_low_energy(orbit, altitude_km, epoch=t, inclination_deg=inclination_deg,
+                                       max_tof_days=max_tof_days, min_tof_days=min_tof_days, sun_phases=sun_phases,
+                                       candidates=candidates)
+            else:
+                # the date brings the undated optimum's phase (to the root's 1e-3 s): that transfer,
+                # corrected onto the date's phase exactly
+                pb = _Problem(model, orbit, r_park, inc, max_tof, min_tof, model.sun_phase)
+                res = _correct(pb, z_free)
+                if res is None:
+                    raise NoSolutionError("the undated optimum could not be corrected onto this date's Sun phase")
+                z, opt, nit = res
+                tr = _assemble(model, orbit, float(altitude_km), pb, z, pb.evaluate(z), (opt, nit),
+                               {"count": 0, "score": np.empty(0)}, [{"start": "the undated optimum"}],
+                               0.0, time.perf_counter() - t_start)
+        except NoSolutionError as e:
+            rows.append(dict(row, ok=False, reason=str(e)))
+            continue
+        out.append(tr)
+        rows.append(dict(row, ok=True, reason="", dv_mps=tr.dv_mps, departure_dv_mps=tr.departure_dv_mps,
+                         insertion_dv_mps=tr.insertion_dv_mps, tof_days=tr.tof_days))
+    if not out:
+        raise NoSolutionError(f"no launch date of the window {iso_utc(t0)} to {iso_utc(t1)} could be designed: "
+                              + "; ".join(f"{r['departure_epoch_utc']}: {r['reason']}" for r in rows))
+    out.sort(key=lambda tr: (round(tr.dv_mps, 3), tr.model.epoch_tdb_s))
+    return LaunchWindow(t0, t1, free, tuple(out), tuple(rows))
+
+
+def window_seconds(start, end, system="earth-moon"):
+    """The window ``start``/``end`` (ISO 8601 text or TDB seconds since J2000) as TDB seconds,
+    checked: end after start, at most ``MAX_WINDOW_DAYS`` apart, both inside the ephemeris.
+
+    Parameters
+    ----------
+    start, end : str or float
+    system : System or str
+        The Earth-Moon system.
+
+    Returns
+    -------
+    (float, float)
+
+    Raises
+    ------
+    InputError
+        A bad date, an empty or reversed window, one too long, or dates outside the ephemeris.
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.low_energy import window_seconds
+    >>> a, b = window_seconds("2027-03-01T00:00:00Z", "2027-04-01T00:00:00Z")
+    >>> round((b - a) / 86400.0, 6)
+    31.0
+    """
+    from ..time.frames import epoch_from_text   # lazy: the ephemeris, only for a dated window
+    t0 = epoch_from_text(start) if isinstance(start, str) else finite_number("window start", start)
+    t1 = epoch_from_text(end) if isinstance(end, str) else finite_number("window end", end)
+    if not t1 > t0:
+        raise InputError(f"launch window {start} to {end}: the end must come after the start")
+    if (t1 - t0) / SECONDS_PER_DAY > MAX_WINDOW_DAYS:
+        raise InputError(f"launch window {start} to {end} is {(t1 - t0) / SECONDS_PER_DAY:.0f} days long; "
+                         f"allowed: at most {MAX_WINDOW_DAYS:g} days")
+    for t in (t0, t1):
+        bc.sun_phase_at(t, system)     # a date outside the ephemeris is refused here
+    return float(t0), float(t1)

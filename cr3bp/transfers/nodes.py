@@ -47,6 +47,9 @@ from ..vocabulary import HALO_BRANCHES
 MAX_NODE_LIST_CHARS = 2_000_000
 KINDS = ("orbit", "parking", "state", "capture", "escape")
 MANEUVERS = ("ends", "none")
+#: How a leg from a parking orbit is made: "auto" (a manifold leg through periapsis, else a
+#: direct departure) or "low-energy" (cr3bp.transfers.low_energy, the bicircular model).
+PARKING_PATHS = ("auto", "low-energy")
 
 NODE_KEYS = {
     "name": ("str", True, "name of the node, used by edges and --from/--to"),
@@ -68,6 +71,11 @@ EDGE_KEYS = {
     "sections": ("list[str]", False, "Poincaré sections to patch on, e.g. ['x=1-mu'] (connections)"),
     "tof": ("quantity", False, "time of flight of a targeted leg, e.g. '4d'"),
     "both_ways": ("bool", False, "also compute the leg in the other direction (default true)"),
+    "path": ("one-of:" + "|".join(PARKING_PATHS), False,
+             "from an Earth parking orbit to an Earth-Moon orbit: 'auto' (manifold or direct departure) or "
+             "'low-energy' (the Sun's pull, bicircular model)"),
+    "launch": ("str", False, "with path = 'low-energy': the launch date, ISO 8601 (default: the Sun's phase "
+                             "is searched)"),
 }
 SCHEMA = {
     "system": ("str", False, "tabulated system, e.g. 'earth-moon' (must match --system)"),
@@ -319,6 +327,10 @@ class EdgeHint:
         Time of flight of a targeted leg.
     both_ways : bool
         Also the leg in the other direction.
+    path : {"auto", "low-energy"}
+        How a leg from a parking orbit is made (:data:`PARKING_PATHS`).
+    launch_tdb_s : float, optional
+        With ``path = "low-energy"``: the launch date, TDB seconds since J2000.
 
     Examples
     --------
@@ -340,11 +352,14 @@ class EdgeHint:
     sections: tuple = ()
     tof_days: float | None = None
     both_ways: bool = True
+    path: str = "auto"
+    launch_tdb_s: float | None = None
 
     def to_dict(self) -> dict:
         return {"from": self.source, "to": self.target, "maneuvers": self.maneuvers,
                 "max_patch_dv_mps": self.max_patch_dv_mps, "sections": list(self.sections),
-                "tof_days": self.tof_days, "both_ways": self.both_ways}
+                "tof_days": self.tof_days, "both_ways": self.both_ways, "path": self.path,
+                "launch_tdb_s": self.launch_tdb_s}
 
 
 @dataclass(frozen=True)
@@ -570,9 +585,16 @@ def parse_nodes(text: str, system, file: str = "<nodes>") -> NodeList:
             continue
         except InputError as e:  # a tof that is not positive: reported on its own line
             problems.append(P(file, line(f"{where}.tof"), f"{where}.tof", str(e)))
+        path, launch = t.get("path", "auto"), None
+        try:
+            launch = low_energy_ends(system, nodes, names, t, path)
+        except InputError as e:
+            problems.append(P(file, line(f"{where}.{'launch' if 'launch' in t else 'path'}"),
+                              f"{where}.{'launch' if 'launch' in t else 'path'}", str(e)))
         hints.append(EdgeHint(t["from"], t["to"], t.get("maneuvers", "ends"),
                               None if dv is None else system.mps(dv), tuple(t.get("sections", ())),
-                              None if tof is None else system.days(tof), t.get("both_ways", True)))
+                              None if tof is None else system.days(tof), t.get("both_ways", True),
+                              path, launch))
     settings = data.get("settings", {})
     tof_days = 6.0
     if "tof" in settings:
@@ -592,6 +614,65 @@ def parse_nodes(text: str, system, file: str = "<nodes>") -> NodeList:
         raise schema_mod.ScenarioError(sorted(problems, key=lambda p: (p.line, p.key)))
     return NodeList(data.get("system"), tuple(nodes), tuple(hints), tof_days, patches,
                     settings.get("all_pairs", True), file)
+
+
+def low_energy_ends(system, nodes, names, edge: dict, path: str):
+    """Check an edge's ``path`` and ``launch``: a low-energy leg leaves an Earth parking orbit for
+    an Earth-Moon periodic orbit; a launch date only with it, inside the ephemeris.
+
+    Parameters
+    ----------
+    system : System
+    nodes : list
+        The nodes built so far (in file order).
+    names : dict
+        Node name -> index in the file.
+    edge : dict
+        The edge's table (``from``, ``to``, ``path``, ``launch``).
+    path : str
+        One of :data:`PARKING_PATHS`.
+
+    Returns
+    -------
+    float or None
+        The launch date, TDB seconds since J2000 (None: none given).
+
+    Raises
+    ------
+    InputError
+        The ends are not an Earth parking orbit and an Earth-Moon periodic orbit, or a launch
+        date without the low-energy path or outside the ephemeris.
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.nodes import low_energy_ends
+    >>> low_energy_ends(system("earth-moon"), [], {}, {"from": "a", "to": "b"}, "auto") is None
+    True
+
+    References
+    ----------
+    Parker & Anderson, *Low-Energy Lunar Trajectory Design*, 2013, ch. 3 (from memory).
+    """
+    if path != "low-energy":
+        if "launch" in edge:
+            raise InputError("'launch' goes with path = 'low-energy' only (a launch date sets the Sun's phase)")
+        return None
+    byname = {n.name: n for n in nodes}
+    a, b = byname.get(edge["from"]), byname.get(edge["to"])
+    if a is None or b is None:
+        return None                               # reported on its own line
+    if not (isinstance(a, ParkingNode) and a.body == "earth" and system.name == "earth-moon"
+            and isinstance(b, OrbitNode) and not b.is_torus):
+        raise InputError(f"path 'low-energy' leaves an Earth parking orbit for an Earth-Moon periodic orbit "
+                         f"(earth-moon system); not {a.kind} '{shown(a.name)}' -> {b.kind} '{shown(b.name)}'")
+    if "launch" not in edge:
+        return None
+    from ..bicircular import sun_phase_at     # lazy: the ephemeris, only for a dated low-energy leg
+    from ..time.frames import epoch_from_text  # lazy: the ephemeris, only for a dated low-energy leg
+    epoch = epoch_from_text(edge["launch"])
+    sun_phase_at(epoch, system)                # a date outside the ephemeris is refused here
+    return float(epoch)
 
 
 def _node(t: dict, system):

@@ -87,6 +87,12 @@ class StitchedRoute:
     note : str
     iterations : dict
         Newton and optimiser iterations, function evaluations.
+    model : str
+        The model of its states, Δv and times: "CR3BP", or "bicircular" for a route of one
+        low-energy leg (:func:`bicircular_route`).
+    model_record : dict
+        For the bicircular model, what rebuilds it (:func:`cr3bp.bicircular.model_record`: the
+        Sun's phase at the route's start and the launch date, if the design had one).
 
     Examples
     --------
@@ -127,6 +133,8 @@ class StitchedRoute:
     optimised: bool
     note: str = ""
     iterations: dict = field(default_factory=dict)
+    model: str = "CR3BP"
+    model_record: dict = field(default_factory=dict)
 
     @property
     def times_days(self):
@@ -144,8 +152,10 @@ class StitchedRoute:
                 "continuity_lu": self.continuity_lu, "continuity_m": self.continuity_lu * self.system.length_km * 1e3,
                 "min_altitude_km": self.min_altitude_km, "maneuvers": list(self.maneuvers),
                 "constraints": self.constraints, "optimised": self.optimised, "note": self.note,
-                "iterations": self.iterations, "samples": int(len(self.times_tu)),
-                "method": "multiple shooting, minimum-norm Newton then SLSQP on total delta-v"}
+                "iterations": self.iterations, "samples": int(len(self.times_tu)), "model": self.model,
+                "model_record": self.model_record or None,
+                "method": ("multiple shooting, minimum-norm Newton then SLSQP on total delta-v" if self.model == "CR3BP"
+                           else "the low-energy leg as designed (bicircular model), nothing re-solved")}
 
 
 class PhasingError(NoSolutionError):
@@ -592,6 +602,12 @@ def stitch_route(system, route, constraints=None, optimise=True, max_iterations=
         if not leg.in_shooting_form:
             raise InputError(f"leg {leg.origin or leg.from_id} -> {leg.target or leg.to_id} carries no patch "
                              "points to stitch")
+    if any(leg.model_of() is not None for leg in legs):
+        if len(legs) != 1:
+            raise PhasingError("a route that joins a low-energy leg (designed in the bicircular model) to further "
+                               "legs is not stitched: the stitcher's multiple shooting is in the CR3BP; each leg "
+                               "is reported on its own")
+        return bicircular_route(system, legs[0], constraints)
     legs = with_phasing(system, legs, periods)
     p = _Problem(system, legs)
     T0 = p.total_time(p.z0)
@@ -729,3 +745,88 @@ def maneuver_name(k: int, n_segments: int, junction: bool) -> str:
     if k == n_segments - 1:
         return "insertion"
     return "junction" if junction else "correction"
+
+
+def bicircular_route(system, leg: Leg, constraints=None) -> StitchedRoute:
+    """A route of one low-energy leg (its details name the bicircular model,
+    :meth:`cr3bp.transfers.leg.Leg.model_of`) as a :class:`StitchedRoute`: its shooting segments
+    propagated in that model from their own start times, its departure and insertion burns the
+    route's maneuvers. Nothing is re-solved: the leg is continuous in its model to its design's
+    closure, which ``continuity_lu`` reports.
+
+    Parameters
+    ----------
+    system : System
+        The Earth-Moon system of the leg.
+    leg : Leg
+        A low-energy leg in shooting form (:func:`cr3bp.transfers.low_energy.as_leg`).
+    constraints : cr3bp.transfers.search.Constraints, optional
+        Reported as held or not.
+
+    Returns
+    -------
+    StitchedRoute
+        Its ``note`` names the model; every maneuver carries ``model = "bicircular"``.
+
+    Raises
+    ------
+    InputError
+        The leg is not a low-energy leg in shooting form.
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.stitch import bicircular_route                # doctest: +SKIP
+    >>> st = bicircular_route(em, leg)                                      # doctest: +SKIP
+    >>> [m["name"] for m in st.maneuvers]                                   # doctest: +SKIP
+    ['departure', 'insertion']
+
+    References
+    ----------
+    Boudad, Howell & Davis, Adv. Space Res. 66, 2020, section 2 (the model); Parker & Anderson,
+    *Low-Energy Lunar Trajectory Design*, 2013, ch. 3 (both from memory).
+    """
+    from .. import bicircular   # lazy: the bicircular model, only for its legs
+    model = leg.model_of()
+    if model is None or not leg.in_shooting_form:
+        raise InputError("bicircular_route takes one low-energy leg in shooting form")
+    times, states, seg = [], [], []
+    cont = 0.0
+    segs = list(leg.segments)
+    for k, (t0, s0, dur) in enumerate(segs):
+        te = np.linspace(t0, t0 + dur, SAMPLES_PER_SEGMENT * 4)
+        arc = bicircular.propagate(model, np.asarray(s0, dtype=float), t0 + dur, rtol=RTOL, atol=ATOL,
+                                   t_eval=te, t0=t0)
+        times.append(arc.t)
+        states.append(arc.states)
+        seg.append(np.full(arc.t.size, k))
+        nxt = segs[k + 1][1] if k + 1 < len(segs) else leg.final_state
+        cont = max(cont, float(np.linalg.norm(arc.states[-1, :3] - np.asarray(nxt, dtype=float)[:3])))
+    times, states, seg = np.concatenate(times), np.concatenate(states), np.concatenate(seg)
+    man = []
+    for m in leg.maneuvers:
+        before = np.asarray(leg.departure_state if m.where == "departure" else leg.final_state, dtype=float)
+        after = np.concatenate([before[:3], before[3:] + m.dv])
+        man.append({"t_days": float(m.t * system.time_days),
+                    "node": leg.origin if m.where == "departure" else leg.target,
+                    "name": "departure" if m.where == "departure" else "insertion", "trim": False,
+                    "position_lu": before[:3].tolist(), "position_km": (before[:3] * system.length_km).tolist(),
+                    "dv_vector_mps": [float(system.mps(v)) for v in m.dv], "dv_mps": float(m.dv_mps),
+                    "state_after_lu": after.tolist(), "jacobi_before": float(jacobi(system.mu, before)),
+                    "jacobi_after": float(jacobi(system.mu, after)), "model": "bicircular"})
+    dv_total = float(sum(m["dv_mps"] for m in man))
+    tof_days = float(leg.tof * system.time_days)
+    alt = float(leg.min_altitude_km)
+    checks = {}
+    if constraints is not None:
+        for name, value in (("max_dv_mps", dv_total), ("max_tof_days", tof_days), ("min_altitude_km", alt),
+                            ("max_legs", 1)):
+            limit = getattr(constraints, name)
+            if limit is not None:
+                holds = value >= limit if name == "min_altitude_km" else value <= limit
+                checks[name] = {"value": value, "limit": limit, "holds": bool(holds)}
+    note = ("one low-energy leg, designed in the bicircular model (Sun-Earth-Moon), not the CR3BP: its "
+            "Δv and times are that model's; nothing re-solved (continuity: the design's closure)")
+    return StitchedRoute(system, (leg.origin, leg.target), times, states, seg, tuple(man), dv_total, tof_days,
+                         float(leg.dv_mps), float(leg.tof_days), cont, alt, checks, True, note,
+                         {"newton": 0, "optimiser": 0, "evaluations": 0}, "bicircular",
+                         dict(leg.details.get("bicircular", {})))
