@@ -26,6 +26,7 @@ through :func:`cr3bp.integrate.dop853.integrate_batch`.
 
 from __future__ import annotations
 
+import numba
 import numpy as np
 from numba import config, njit, prange
 
@@ -573,6 +574,32 @@ def _run_block(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_steps,
                 fac = min(fac, 1.0)
             rejected[l] = False
             H[l] = h * fac
+
+
+def blocks(n: int) -> int:
+    """The number of blocks :func:`integrate_lanes` splits ``n`` trajectories into: one per
+    thread at least (while every block fills its lanes), more for large batches so that no
+    block exceeds :data:`BLOCK` trajectories. The results do not depend on it.
+
+    Parameters
+    ----------
+    n : int
+        Trajectories in the batch.
+
+    Returns
+    -------
+    int
+        Blocks, at least 1.
+
+    Examples
+    --------
+    >>> from cr3bp.integrate.lanes import blocks
+    >>> blocks(1)
+    1
+    """
+    threads = numba.get_num_threads()
+    per_lanes = max(1, -(-int(n) // LANES))
+    return max(1, min(per_lanes, max(threads, -(-int(n) // BLOCK))))
 
 
 @njit(cache=True, parallel=True, error_model="numpy")
