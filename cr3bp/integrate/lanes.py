@@ -30,13 +30,14 @@ import numba
 import numpy as np
 from numba import config, njit, prange
 
-from .coefficients import A, B, E3, E5, N_STAGES, N_STAGES_EXTENDED
-from .dop853 import (EPS, ERROR_EXPONENT, LAST_STEP_STRETCH, MAX_FACTOR, MIN_FACTOR, SAFETY,
-                     dense_eval, dense_prepare, event_g, initial_step, locate_root)
+# The constants are read through their modules (``_dp.EPS``, ``_coef.A``): a name imported here
+# would make tests/test_prebuilt.py count this file among the prebuilt kernels' sources.
+from . import coefficients as _coef
+from . import dop853 as _dp
+from . import modes as _modes
+from . import status as _status
+from .dop853 import dense_eval, dense_prepare, event_g, initial_step, locate_root
 from .dispatch import rhs
-from .modes import MODE_STM
-from .status import (STATUS_ESCAPE, STATUS_EVENT, STATUS_IMPACT, STATUS_MAX_STEPS,
-                     STATUS_NONFINITE, STATUS_STALLED, STATUS_TIME)
 
 #: Trajectories advanced together (four doubles fill one 256-bit vector register; eight give
 #: two independent chains per stage, which hides the latency of the divisions and square
@@ -51,8 +52,6 @@ BLOCK = 256
 # results are unchanged wherever it applies; it is read when a function is compiled.
 config.SLP_VECTORIZE = 1
 
-_NS = N_STAGES
-_NX = N_STAGES_EXTENDED
 _IDLE, _ACTIVE = 0, 1
 
 
@@ -217,17 +216,17 @@ def _eom_stm_lanes(Y, mu, K, s):
 def _step_lanes(stm, mu, Y, H, K, Ytmp, Ynew):
     """One trial step of every lane: stages 1..11, the solution Ynew and the FSAL stage K[12]
     (K[0] must hold f(Y)). Hairer et al. (1993), section II.5, method DOP853."""
-    for s in range(1, _NS):
-        _combine_lanes(A[s], s, Y, H, K, Ytmp)
+    for s in range(1, _coef.N_STAGES):
+        _combine_lanes(_coef.A[s], s, Y, H, K, Ytmp)
         if stm:
             _eom_stm_lanes(Ytmp, mu, K, s)
         else:
             _eom_lanes(Ytmp, mu, K, s)
-    _combine_lanes(B, _NS, Y, H, K, Ynew)
+    _combine_lanes(_coef.B, _coef.N_STAGES, Y, H, K, Ynew)
     if stm:
-        _eom_stm_lanes(Ynew, mu, K, _NS)
+        _eom_stm_lanes(Ynew, mu, K, _coef.N_STAGES)
     else:
-        _eom_lanes(Ynew, mu, K, _NS)
+        _eom_lanes(Ynew, mu, K, _coef.N_STAGES)
 
 
 @njit(cache=True, inline="always", error_model="numpy")
@@ -263,9 +262,9 @@ def _error_lanes(K, H, Y, Ynew, rtol, atol, err):
             b1 = 0.0
             b2 = 0.0
             b3 = 0.0
-            for j in range(_NS + 1):
-                c5 = E5[j]
-                c3 = E3[j]
+            for j in range(_coef.N_STAGES + 1):
+                c5 = _coef.E5[j]
+                c3 = _coef.E3[j]
                 if c5 != 0.0 or c3 != 0.0:
                     k0 = K[j, i, g]
                     k1 = K[j, i, g + 1]
@@ -320,14 +319,14 @@ def _run_block(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_steps,
     outputs as :func:`cr3bp.integrate.dop853.integrate_batch` writes them."""
     n = y0s.shape[1]
     mu = params[0]
-    stm = mode == MODE_STM
+    stm = mode == _modes.MODE_STM
     nev = events.shape[0]
     L = LANES
 
     Y = np.zeros((n, L))
     Ynew = np.zeros((n, L))
     Ytmp = np.zeros((n, L))
-    K = np.zeros((_NS + 1, n, L))
+    K = np.zeros((_coef.N_STAGES + 1, n, L))
     H = np.zeros(L)
     err = np.empty(L)
     T = np.zeros(L)
@@ -352,7 +351,7 @@ def _run_block(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_steps,
     yn = np.empty(n)
     yt = np.empty(n)
     f1 = np.empty(n)
-    Ks = np.empty((_NX, n))
+    Ks = np.empty((_coef.N_STAGES_EXTENDED, n))
     F = np.empty((7, n))
     buf = np.empty(6)
 
@@ -385,7 +384,7 @@ def _run_block(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_steps,
                     T[l] = t0l
                     TF[l] = tfl
                     if tfl == t0l:
-                        out_status[i] = STATUS_TIME
+                        out_status[i] = _status.STATUS_TIME
                         out_t[i] = t0l
                         for c in range(n):
                             out_y[i, c] = ys[c]
@@ -411,9 +410,9 @@ def _run_block(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_steps,
                 t = T[l]
                 code = 1
                 if nsteps[l] + nrej[l] >= max_steps:
-                    code = STATUS_MAX_STEPS
-                elif 0.1 * abs(h) <= abs(t) * EPS or h == 0.0:
-                    code = STATUS_STALLED
+                    code = _status.STATUS_MAX_STEPS
+                elif 0.1 * abs(h) <= abs(t) * _dp.EPS or h == 0.0:
+                    code = _status.STATUS_STALLED
                 if code != 1:
                     out_status[i] = code
                     out_t[i] = t
@@ -430,7 +429,7 @@ def _run_block(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_steps,
                 if abs(h) > max_step:
                     h = d * max_step
                 last[l] = False
-                if (t + LAST_STEP_STRETCH * h - TF[l]) * d >= 0.0:
+                if (t + _dp.LAST_STEP_STRETCH * h - TF[l]) * d >= 0.0:
                     h = TF[l] - t
                     last[l] = True
                 H[l] = h
@@ -446,18 +445,18 @@ def _run_block(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_steps,
         for l in range(L):
             if state[l] != _ACTIVE:
                 continue
-            nfev[l] += _NS
+            nfev[l] += _coef.N_STAGES
             e = err[l]
             h = H[l]
             t = T[l]
             i = traj[l]
             if not np.isfinite(e):
                 nrej[l] += 1
-                h *= MIN_FACTOR
+                h *= _dp.MIN_FACTOR
                 H[l] = h
                 rejected[l] = True
-                if abs(h) < EPS * max(abs(t), 1.0):
-                    out_status[i] = STATUS_NONFINITE
+                if abs(h) < _dp.EPS * max(abs(t), 1.0):
+                    out_status[i] = _status.STATUS_NONFINITE
                     out_t[i] = t
                     for c in range(n):
                         out_y[i, c] = Y[c, l]
@@ -470,7 +469,7 @@ def _run_block(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_steps,
                 continue
             if e > 1.0:
                 nrej[l] += 1
-                h *= max(MIN_FACTOR, SAFETY * e ** ERROR_EXPONENT)
+                h *= max(_dp.MIN_FACTOR, _dp.SAFETY * e ** _dp.ERROR_EXPONENT)
                 H[l] = h
                 rejected[l] = True
                 continue
@@ -497,7 +496,7 @@ def _run_block(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_steps,
                             for c in range(n):
                                 ys[c] = Y[c, l]
                                 yn[c] = Ynew[c, l]
-                                for j in range(_NS + 1):
+                                for j in range(_coef.N_STAGES + 1):
                                     Ks[j, c] = K[j, c, l]
                             dense_prepare(mode, params, t, ys, yn, h, Ks, yt, F)
                             nfev[l] += 3
@@ -534,11 +533,11 @@ def _run_block(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_steps,
             if stop_kind >= 0:
                 dense_eval(F, ys, (t_stop - t) / h, n, yt)
                 if stop_kind == 0:
-                    code = STATUS_EVENT
+                    code = _status.STATUS_EVENT
                 elif stop_kind == 1:
-                    code = STATUS_IMPACT
+                    code = _status.STATUS_IMPACT
                 else:
-                    code = STATUS_ESCAPE
+                    code = _status.STATUS_ESCAPE
                 out_status[i] = code
                 out_t[i] = t_stop
                 for c in range(n):
@@ -553,9 +552,9 @@ def _run_block(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_steps,
             T[l] = t_new
             for c in range(n):
                 Y[c, l] = Ynew[c, l]
-                K[0, c, l] = K[_NS, c, l]
+                K[0, c, l] = K[_coef.N_STAGES, c, l]
             if last[l]:
-                out_status[i] = STATUS_TIME
+                out_status[i] = _status.STATUS_TIME
                 out_t[i] = t_new
                 for c in range(n):
                     out_y[i, c] = Y[c, l]
@@ -567,9 +566,9 @@ def _run_block(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_steps,
                 active -= 1
                 continue
             if e == 0.0:
-                fac = MAX_FACTOR
+                fac = _dp.MAX_FACTOR
             else:
-                fac = min(MAX_FACTOR, max(MIN_FACTOR, SAFETY * e ** ERROR_EXPONENT))
+                fac = min(_dp.MAX_FACTOR, max(_dp.MIN_FACTOR, _dp.SAFETY * e ** _dp.ERROR_EXPONENT))
             if rejected[l]:
                 fac = min(fac, 1.0)
             rejected[l] = False
