@@ -258,7 +258,7 @@ def progress(args, message: str, verbose_only=False):
 
 #: Compiled kernels whose cache decides the first-run notice: (module, function).
 COMPILED_KERNELS = (("cr3bp.integrate.dop853", "integrate"),
-                    ("cr3bp.integrate.dop853", "integrate_batch"))
+                    ("cr3bp.integrate.lanes", "integrate_lanes"))
 
 
 #: Kernels that :mod:`cr3bp.integrate.prebuilt` builds ahead of time (``propagate`` and the

@@ -120,7 +120,7 @@ def test_the_search_finds_a_planted_copy(tmp_path):
 # ---- right-hand-side modes ------------------------------------------------------------------
 
 #: Functions whose first argument is a right-hand-side mode.
-MODE_TAKERS = {"integrate", "integrate_batch", "integrate_segments", "rhs", "rk_step"}
+MODE_TAKERS = {"integrate", "integrate_batch", "integrate_lanes", "integrate_segments", "rhs", "rk_step"}
 
 
 def bare_modes(root: Path = PACKAGE, modes_file: Path = MODES) -> list[str]:

@@ -10,7 +10,7 @@ from . import _optimise
 from . import _tube_options as to
 
 NAME = "connect"
-KERNELS = (("cr3bp.integrate.dop853", "integrate"), ("cr3bp.integrate.dop853", "integrate_batch"))
+KERNELS = (("cr3bp.integrate.dop853", "integrate"), ("cr3bp.integrate.lanes", "integrate_lanes"))
 ORDER = 70
 HELP = ("connect two orbits (or a parking orbit and an orbit) through their manifolds, or design a departure "
         "from an Earth parking orbit (--path): delta-v, time of flight")

@@ -9,7 +9,7 @@ HELP = "transfer graph from a node list: compute and cache the legs, list them, 
 EXAMPLE = "librate graph build --system earth-moon --nodes nodes.toml --workers 2"
 
 #: compiled kernels this command uses (checked for the first-run compile notice)
-KERNELS = (("cr3bp.integrate.dop853", "integrate"), ("cr3bp.integrate.dop853", "integrate_batch"))
+KERNELS = (("cr3bp.integrate.dop853", "integrate"), ("cr3bp.integrate.lanes", "integrate_lanes"))
 
 
 def add_arguments(p):

@@ -6,7 +6,7 @@ from .. import common
 from . import _tube_options as to
 
 NAME = "manifold"
-KERNELS = (("cr3bp.integrate.dop853", "integrate"), ("cr3bp.integrate.dop853", "integrate_batch"))
+KERNELS = (("cr3bp.integrate.dop853", "integrate"), ("cr3bp.integrate.lanes", "integrate_lanes"))
 ORDER = 65
 HELP = ("grow a stable or unstable manifold (tube) of a periodic orbit or a hyperbolic torus to a section, "
         "time, altitude or escape")

@@ -13,7 +13,7 @@ EXAMPLE = ('librate route --system earth-moon --nodes nodes.toml --from gate --t
            '--max-dv 800m/s --best 5 --pareto --plot corridor.png --out run1')
 
 #: compiled kernels this command uses (checked for the first-run compile notice)
-KERNELS = (("cr3bp.integrate.dop853", "integrate"), ("cr3bp.integrate.dop853", "integrate_batch"))
+KERNELS = (("cr3bp.integrate.dop853", "integrate"), ("cr3bp.integrate.lanes", "integrate_lanes"))
 
 
 def add_arguments(p):

@@ -6,7 +6,7 @@ from .. import common
 from . import _tube_options as to
 
 NAME = "section"
-KERNELS = (("cr3bp.integrate.dop853", "integrate"), ("cr3bp.integrate.dop853", "integrate_batch"))
+KERNELS = (("cr3bp.integrate.dop853", "integrate"), ("cr3bp.integrate.lanes", "integrate_lanes"))
 ORDER = 66
 HELP = "cut tubes with a Poincaré section (plane, sphere, periapsis) and draw or export the map"
 EXAMPLE = ("librate section --system earth-moon --tube 'lyapunov L1 jacobi=3.15 unstable' "

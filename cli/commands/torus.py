@@ -8,7 +8,7 @@ from .. import common
 from . import _orbit_options as oo
 
 NAME = "torus"
-KERNELS = (("cr3bp.integrate.dop853", "integrate"), ("cr3bp.integrate.dop853", "integrate_batch"))
+KERNELS = (("cr3bp.integrate.dop853", "integrate"), ("cr3bp.integrate.lanes", "integrate_lanes"))
 ORDER = 45
 HELP = "compute a quasi-periodic torus (quasi-halo, Lissajous) of a given amplitude about a periodic orbit"
 EXAMPLE = ('librate torus --system earth-moon --around "halo L2 south resonance=9:2" '

@@ -274,7 +274,10 @@ def propagate_batch(system, states, t_final, rtol=1e-12, atol=1e-12, events=(), 
     """Propagate many states in parallel (``numba.prange`` inside compiled code).
 
     Same method as :func:`propagate` (Hairer et al. 1993, section II.5, code dop853), run on
-    every row of ``states`` with no Python loop over trajectories.
+    every row of ``states`` with no Python loop over trajectories. For the CR3BP (no
+    ``model``) the trajectories advance in lockstep vector lanes (:mod:`.lanes`: each keeps
+    its own step size, error control and events, and gets the scalar integrator's result);
+    other models run one trajectory per thread iteration.
 
     Parameters
     ----------
@@ -337,10 +340,18 @@ def propagate_batch(system, states, t_final, rtol=1e-12, atol=1e-12, events=(), 
     ev_k = np.empty((n, max(m, 1)), dtype=np.int64)
     out_nfev = np.zeros(n, dtype=np.int64)
     out_nsteps = np.zeros(n, dtype=np.int64)
-    from . import dop853  # lazy: heavy library (numba, via cr3bp.integrate.dop853)
-    dop853.integrate_batch(int(mode), params, y0s, float(t0), tf, float(rtol), float(atol),
-                           float(mstep), int(nmax), tab, int(m), False, out_y, out_t, out_status,
-                           out_nev, out_seen, ev_t, ev_y, ev_k, out_nfev, out_nsteps)
+    if mode in (MODE_STATE, MODE_STM):
+        from . import lanes  # lazy: heavy library (numba, via cr3bp.integrate.lanes)
+        lanes.integrate_lanes(int(mode), params, y0s, float(t0), tf, float(rtol), float(atol),
+                              float(mstep), int(nmax), tab, int(m), lanes.blocks(n), out_y, out_t,
+                              out_status, out_nev, out_seen, ev_t, ev_y, ev_k, out_nfev,
+                              out_nsteps)
+    else:
+        from . import dop853  # lazy: heavy library (numba, via cr3bp.integrate.dop853)
+        dop853.integrate_batch(int(mode), params, y0s, float(t0), tf, float(rtol), float(atol),
+                               float(mstep), int(nmax), tab, int(m), False, out_y, out_t,
+                               out_status, out_nev, out_seen, ev_t, ev_y, ev_k, out_nfev,
+                               out_nsteps)
     failed = out_status < 0
     if failed.any() and on_failure == "raise":
         i = int(np.argmax(failed))
