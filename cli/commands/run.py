@@ -20,14 +20,13 @@ def add_arguments(p):
 
 
 def run(args):
-    """Check (scenario and --out), then run; a scenario with problems prints one line per
+    """Check (scenario and --out), then run, both with cr3bp.api.run; a scenario with problems prints one line per
     problem, FILE:LINE: key: message (cli.common.run_command), and exits 2 with nothing written."""
     import time
-    from cr3bp.scenario import run as mission
+    from cr3bp import api
     workers = common.workers(args)
-    plan = mission.prepare(args.scenario)
-    mission.check_output_folder(args.out, plan.path, common.catalog_file(args),
-                                mission.planned_files(plan.data))
+    catalog = common.catalog_file(args)
+    plan = api.run(args.scenario, args.out, catalog=catalog, check_only=True)
     common.progress(args, f"scenario {args.scenario}: '{plan.name}', {len(plan.orbit_specs)} orbit(s), "
                           f"{len(plan.data.get('transfers', []))} transfer(s), "
                           f"{len(plan.data.get('exports', []))} export(s)")
@@ -41,8 +40,7 @@ def run(args):
         stage["n"] += 1
         common.progress(args, f"[{time.time() - t0:6.1f} s] {text}")
 
-    result = mission.run(plan, args.out, catalog=common.open_catalog(args),
-                         workers=workers, scheduler=args.scheduler, progress=say)
+    result = api.run(plan, args.out, catalog=catalog, workers=workers, scheduler=args.scheduler, progress=say)
     failed = [f"{o}: {c.name}" for o, cs in result.checks.items() for c in cs if not c.passed]
     lines = [f"done in {result.seconds:.1f} s; results in {result.folder}/",
              f"  report:   {result.report}", f"  manifest: {result.manifest}",
