@@ -66,18 +66,31 @@ CASES = [
       "6h", "--out", "{tmp}/x.oem"], "export", {}),
     (["run", "examples/farlight.toml", "--out", "{tmp}/out", "--check-only", "--catalog", "{tmp}/c.sqlite"],
      "run", {}),
+    (["convert", "{in}/good.oem", "{tmp}/good.csv", "--frame", "j2000-ecliptic"], "export", {}),
+    (["catalog", "find", *EM, "--family", "lyapunov", "--point", "L1", "--period", "12d", "--catalog",
+      "{in}/cat.sqlite"], "orbit_request", {}),
 ]
 
 
+@pytest.fixture(scope="module")
+def inputs(tmp_path_factory):
+    """A trajectory file for convert (written by librate export)."""
+    d = tmp_path_factory.mktemp("inputs")
+    assert main(["export", *EM, "--state", "1.1805031,0,-0.02,0,-0.1581343,0", "--epoch", EPOCH, "--span", "1d",
+                 "--step", "6h", "--out", str(d / "good.oem"), "--quiet"]) == 0
+    return d
+
+
 @pytest.mark.parametrize("argv,call,before", CASES, ids=[f"{c[0][0]}-{c[1]}-{i}" for i, c in enumerate(CASES)])
-def test_command_goes_through_its_api_call(argv, call, before, capsys, monkeypatch, tmp_path):
+def test_command_goes_through_its_api_call(argv, call, before, capsys, monkeypatch, tmp_path, inputs):
     from pathlib import Path
     monkeypatch.chdir(Path(__file__).resolve().parent.parent)
+    capsys.readouterr()
     calls = []
     for name, value in before.items():
         monkeypatch.setattr(api, name, _returning(value, name, calls))
     monkeypatch.setattr(api, call, _marked(call, calls))
-    rc = main([a.replace("{tmp}", str(tmp_path)) for a in argv] + ["--quiet"])
+    rc = main([a.replace("{tmp}", str(tmp_path)).replace("{in}", str(inputs)) for a in argv] + ["--quiet"])
     err = capsys.readouterr().err
     assert rc == 3, (argv, rc, err)
     assert err.strip() == f"librate: error: marked: cr3bp.api.{call} was called", err
