@@ -1043,7 +1043,7 @@ def trajectory(source, *, epoch=None, span=None, step=None, frame="j2000-equator
     >>> t = api.trajectory([1.1805031, 0, -0.02, 0, -0.1581343, 0], system=em, period="14.8177d",
     ...                    epoch="2031-03-01T00:00:00Z", span="1d", step="6h", center="moon")
     >>> len(t.segments[0].t_tu), t.frame.center_name
-    (5, 'MOON')
+    (5, 'moon')
 
     References
     ----------
