@@ -23,6 +23,7 @@ public calls meet the library's module paths (kept here so a module move is fixe
 from __future__ import annotations
 
 import math
+import sys
 from dataclasses import replace
 from pathlib import Path
 
@@ -498,9 +499,19 @@ def manifold(orbit, stability, *, branch="interior", points=200, until=None, spa
                      progress=progress, origin=origin)
 
 
+def _loaded_instance(obj, module, name):
+    """isinstance(obj, module.name), without importing ``module``: when it is not loaded yet,
+    ``obj`` cannot be one of its objects (so a command that has none does not load it)."""
+    mod = sys.modules.get(module)
+    return mod is not None and isinstance(obj, getattr(mod, name))
+
+
 def _is_torus(obj):
-    from .tori.torus import Torus  # lazy: start-up: keeps cr3bp.api free of numpy
-    return isinstance(obj, Torus)
+    return _loaded_instance(obj, "cr3bp.tori.torus", "Torus")
+
+
+def _is_orbit(obj):
+    return _loaded_instance(obj, "cr3bp.orbits.orbit", "PeriodicOrbit")
 
 
 def section(tube, where, *, crossing=1, time=None, stability=None, branch="interior", points=200,
@@ -564,10 +575,9 @@ def section(tube, where, *, crossing=1, time=None, stability=None, branch="inter
     Poincaré, *Les méthodes nouvelles de la mécanique céleste* (surfaces of section); see
     :mod:`cr3bp.tubes.sections`.
     """
-    from .orbits.orbit import PeriodicOrbit  # lazy: start-up: keeps cr3bp.api free of numpy
     from .tubes.manifolds import Stop, Tube, grow_tube  # lazy: start-up: keeps cr3bp.api free of numpy
     from .tubes.sections import parse_section  # lazy: start-up: keeps cr3bp.api free of numpy
-    grown_here = isinstance(tube, PeriodicOrbit) or _is_torus(tube)
+    grown_here = _is_orbit(tube) or _is_torus(tube)
     if not (isinstance(tube, Tube) or grown_here):
         raise InputError(f"section cuts a Tube (from cr3bp.manifold) or an orbit's tube, not {type(tube).__name__}")
     sysm = tube.system
@@ -1052,10 +1062,9 @@ def trajectory(source, *, epoch=None, span=None, step=None, frame="j2000-equator
     """
     import numpy as np  # lazy: start-up: keeps cr3bp.api free of numpy
     from .io import export as ex  # lazy: start-up: keeps cr3bp.api free of numpy
-    from .orbits.orbit import PeriodicOrbit  # lazy: start-up: keeps cr3bp.api free of numpy
     from .time import frames  # lazy: start-up: keeps cr3bp.api free of numpy
     from .validate import plain_text, quantity  # lazy: start-up: keeps cr3bp.api free of numpy
-    is_orbit = isinstance(source, PeriodicOrbit)
+    is_orbit = _is_orbit(source)
     is_segment = isinstance(source, ex.Segment)
     if is_orbit:
         if period is not None:
