@@ -1258,10 +1258,12 @@ def run(scenario, out, *, catalog=None, workers=None, scheduler=None, check_only
     if workers is not None:
         workers = _whole("workers", workers, 1, 256)
     plan = scenario if isinstance(scenario, mission.Plan) else mission.prepare(scenario)
-    mission.check_output_folder(out, plan.path, catalog or default_path(), mission.planned_files(plan.data))
+    mission.check_output_folder(out, plan.path, default_path() if catalog is None else catalog,
+                                mission.planned_files(plan.data))
     if check_only:
         return plan
-    return mission.run(plan, out, catalog=Catalog(catalog) if catalog else None, workers=workers,
+    # an empty path is given, not left out: the catalogue refuses it
+    return mission.run(plan, out, catalog=None if catalog is None else Catalog(catalog), workers=workers,
                        scheduler=scheduler, progress=progress)
 
 
