@@ -203,8 +203,9 @@ def check_outputs(args):
 
 
 def resolve_system(args):
-    """The System named by --system, or the custom one of --mu [--length-km --time-s]."""
-    from cr3bp import system
+    """The System named by --system, or the custom one of --mu [--length-km --time-s]
+    (cr3bp.api.system)."""
+    from cr3bp.api import system
     from cr3bp.errors import InputError
     if args.system and args.mu:
         raise InputError("give --system or --mu, not both")

@@ -23,6 +23,8 @@ public calls meet the library's module paths (kept here so a module move is fixe
 from __future__ import annotations
 
 import math
+import os
+import sys
 from dataclasses import replace
 from pathlib import Path
 
@@ -32,8 +34,8 @@ from . import units
 from .systems import System, system as _system
 from .units import length
 
-__all__ = ["system", "points", "orbit", "family", "manifold", "section", "connect", "optimise", "route",
-           "export", "run", "torus", "shadow", "keep"]
+__all__ = ["system", "points", "orbit", "orbit_request", "family", "manifold", "section", "connect", "optimise", "route",
+           "trajectory", "export", "run", "torus", "shadow", "keep"]
 
 
 # ---- helpers ---------------------------------------------------------------------------
@@ -152,11 +154,11 @@ def points(system):
 # ---- periodic orbits -------------------------------------------------------------------
 
 def _spec(request, family, point, branch, ratio, occurrence, target):
-    from .orbits.request import parse_request, spec_from_options  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .orbits.request import OrbitSpec, parse_request, spec_from_options  # lazy: start-up: keeps cr3bp.api free of numpy
     if request is not None:
         if family is not None or point is not None or branch is not None or ratio is not None or target:
             raise InputError("give the orbit as request text or as keywords (family=..., one target), not both")
-        spec = parse_request(request)
+        spec = request if isinstance(request, OrbitSpec) else parse_request(request)
         if occurrence is not None:
             from .orbits.request import parse_occurrence  # lazy: start-up: keeps cr3bp.api free of numpy
             spec = replace(spec, occurrence=parse_occurrence(occurrence))
@@ -168,6 +170,56 @@ def _spec(request, family, point, branch, ratio, occurrence, target):
                              **{k: _text(v) for k, v in target.items()})
 
 
+def orbit_request(system=None, request=None, *, family=None, point=None, branch=None, ratio=None,
+                  occurrence=None, **target):
+    """The parsed orbit request :func:`orbit` would solve, checked, with no computation.
+
+    What ``librate orbit`` and ``librate family`` show before they start (the family, point,
+    branch and target in the library's own spelling), and the object :func:`orbit` also accepts
+    as ``request``.
+
+    Parameters
+    ----------
+    system : System or str, optional
+        When given, the target's value and unit are checked against it (``"12 parsecs"`` fails
+        here, before any work).
+    request : str, optional
+        The orbit in words, as for :func:`orbit`.
+    family, point, branch, ratio, occurrence, **target
+        The same as keywords, as for :func:`orbit`; the target may be left out (a family).
+
+    Returns
+    -------
+    cr3bp.orbits.request.OrbitSpec
+        ``.family``, ``.point``, ``.branch``, ``.branch_label``, ``.key``, ``.value``,
+        ``.resonance``, ``.occurrence``.
+
+    Raises
+    ------
+    InputError
+        A malformed request, an unknown family or target, more than one target, a bad unit.
+
+    Examples
+    --------
+    >>> import cr3bp.api as api
+    >>> spec = api.orbit_request("earth-moon", family="nrho", point="L2", branch="south", period="6.5626d")
+    >>> spec.family, spec.point, spec.branch, spec.key, spec.value
+    ('halo', 'L2', 'south', 'period', '6.5626d')
+    >>> api.orbit_request(request="resonant 3:2 jacobi=3.07").branch_label
+    '3:2'
+
+    References
+    ----------
+    Howell, *Celestial Mechanics* 32, 1984 (picking a member of a family by a property); the
+    grammar is in :mod:`cr3bp.orbits.request`.
+    """
+    spec = _spec(request, family, point, branch, ratio, occurrence, target)
+    if system is not None and spec.key:
+        from .orbits.targets import make_target  # lazy: start-up: keeps cr3bp.api free of numpy
+        make_target(_as_system(system), spec.key, spec.value)      # bad units fail here, before any work
+    return spec
+
+
 def orbit(system, request=None, *, family=None, point=None, branch=None, ratio=None, occurrence=None,
           state=None, period=None, catalog=None, progress=None, **target):
     """One periodic orbit, picked out of its family by a target value (``librate orbit``).
@@ -175,12 +227,14 @@ def orbit(system, request=None, *, family=None, point=None, branch=None, ratio=N
     Parameters
     ----------
     system : System or str
-    request : str, optional
+    request : str or cr3bp.orbits.request.OrbitSpec, optional
         The orbit in words, e.g. ``"halo L2 south resonance=9:2"`` or ``"lyapunov L1
-        jacobi=3.15"`` (grammar in :mod:`cr3bp.orbits.request`).
+        jacobi=3.15"`` (grammar in :mod:`cr3bp.orbits.request`), or a request parsed by
+        :func:`orbit_request`.
     family, point, branch, ratio : str, optional
         The same as keywords: ``family="halo", point="L2", branch="south"``; ``ratio="3:2"``
-        names a resonant family.
+        names a resonant family. With ``state=``, ``family`` and ``point`` only label the
+        given orbit (default ``"given"``).
     **target
         Exactly one of ``period``, ``jacobi``, ``ax``, ``ay``, ``az``, ``x``, ``perilune``,
         ``resonance``: text with its unit (``"12000km"``, ``"6.5626d"``) or a nondimensional
@@ -237,7 +291,7 @@ def orbit(system, request=None, *, family=None, point=None, branch=None, ratio=N
     if state is not None:
         if period is None:
             raise InputError("a given orbit needs both state=[x, y, z, vx, vy, vz] and period=")
-        if request is not None or family is not None or target:
+        if request is not None or branch is not None or ratio is not None or occurrence is not None or target:
             raise InputError("give a request or state= with period=, not both")
         import numpy as np  # lazy: start-up: keeps cr3bp.api free of numpy
         from .tubes.manifolds import orbit_from_state  # lazy: start-up: keeps cr3bp.api free of numpy
@@ -249,19 +303,18 @@ def orbit(system, request=None, *, family=None, point=None, branch=None, ratio=N
         if s.shape != (6,) or not np.all(np.isfinite(s)):
             raise InputError(f"state {state!r} must be six finite numbers x, y, z, vx, vy, vz")
         T = quantity("period", _text(period), "time", system, sign="positive", default_unit="TU")
-        return orbit_from_state(system, s, T)
+        return orbit_from_state(system, s, T, family=family or "given", point=point or "")
     from .orbits.request import solve_request  # lazy: start-up: keeps cr3bp.api free of numpy
     from .orbits.targets import make_target  # lazy: start-up: keeps cr3bp.api free of numpy
     spec = _spec(request, family, point, branch, ratio, occurrence, target)
-    if not spec.key:
-        raise InputError("the orbit has no target; give one of period=, jacobi=, ax=, ay=, az=, x=, "
-                         "perilune=, resonance=")
-    make_target(system, spec.key, spec.value)        # bad units fail here, before any work
-    return solve_request(system, spec, catalog=catalog, progress=progress)
+    if spec.key:
+        make_target(system, spec.key, spec.value)    # bad units fail here, before any work
+    return solve_request(system, spec, catalog=catalog, progress=progress)   # no target: said there
 
 
 def family(system, name, *, point=None, branch=None, ratio=None, members=200, until=None, altitude=None,
-           method="arclength", parameter=None, step=None, max_step=None, route=None, progress=None):
+           method="arclength", parameter=None, step=None, max_step=None, route=None, progress=None,
+           catalog=None):
     """Grow a family of periodic orbits with its stability and bifurcations (``librate family``).
 
     Parameters
@@ -286,11 +339,15 @@ def family(system, name, *, point=None, branch=None, ratio=None, members=200, un
     route : {"seed", "branch"}, optional
         How a three-dimensional family is reached (halo, vertical, axial).
     progress : callable(count, max, orbit), optional
+    catalog : cr3bp.catalog.Catalog, optional
+        Keep the family in this catalogue (as ``librate family --catalog``): later
+        :func:`orbit` requests with the same catalogue read it instead of growing it again.
 
     Returns
     -------
     cr3bp.orbits.continuation.Family
         ``.members`` (PeriodicOrbit), ``.bifurcations``, ``.stop_reason``; ``.plot(ax)``.
+        Kept in a catalogue, ``.settings["catalog_id"]`` is its family id there.
 
     Raises
     ------
@@ -326,6 +383,8 @@ def family(system, name, *, point=None, branch=None, ratio=None, members=200, un
         _one_of("route", route, ("seed", "branch"))
         if spec.family not in families.ROUTES:
             raise InputError(f"route is offered for the halo, vertical and axial families, not {spec.family}")
+        if method != "arclength" or step is not None:
+            raise InputError("route works with the default arclength continuation and steps; drop method=/step=")
     target = None
     if until is not None:
         text = str(until)
@@ -346,24 +405,37 @@ def family(system, name, *, point=None, branch=None, ratio=None, members=200, un
             raise InputError(f"{label} {v!r} is outside the allowed range (0, 1)")
     stops = continuation.Stops(max_members=members, altitude_km=alt, target=target)
     if route is not None:
-        return families.grow_by_route(system, spec.family, spec.point, spec.branch, route, stops=stops,
-                                      max_step=max_step, progress=progress)
-    return families.grow_family(system, spec.family, spec.point, spec.branch, stops=stops, method=method,
-                                parameter=parameter, step=step, resonance=spec.resonance,
-                                max_step=max_step, progress=progress)
+        fam = families.grow_by_route(system, spec.family, spec.point, spec.branch, route, stops=stops,
+                                     max_step=max_step, progress=progress)
+    else:
+        fam = families.grow_family(system, spec.family, spec.point, spec.branch, stops=stops, method=method,
+                                   parameter=parameter, step=step, resonance=spec.resonance,
+                                   max_step=max_step, progress=progress)
+    if catalog is None:
+        return fam
+    from .orbits.request import catalog_member, catalog_settings  # lazy: start-up: keeps cr3bp.api free of numpy
+    settings = catalog_settings(spec, stops)
+    if route is not None:
+        settings["route"] = route
+    fid = catalog.begin_family(system, spec.family, spec.point, spec.branch_label, settings)
+    catalog.add_members(fid, [catalog_member(m, i) for i, m in enumerate(fam.members)])
+    catalog.finish_family(fid, [b.to_dict() for b in fam.bifurcations], complete=True)
+    return replace(fam, settings={**fam.settings, "catalog_id": fid})
 
 
 # ---- tubes -----------------------------------------------------------------------------
 
 def manifold(orbit, stability, *, branch="interior", points=200, until=None, spacing="time",
-             step_off=None, progress=None):
+             step_off=None, progress=None, origin=None):
     """Grow the stable or unstable manifold (a tube) of a periodic orbit (``librate manifold``).
 
     Parameters
     ----------
     orbit : PeriodicOrbit
-        Or, for the one-dimensional manifold of a collinear Lagrange point, a pair
-        ``(system, "L1")``.
+        Or a hyperbolic quasi-periodic torus (:class:`cr3bp.tori.torus.Torus`, e.g. from
+        :func:`torus`): its departure points are a grid of about ``sqrt(points)`` stroboscopic
+        phases times ``sqrt(points)`` points of its invariance circle. Or, for the
+        one-dimensional manifold of a collinear Lagrange point, a pair ``(system, "L1")``.
     stability : {"stable", "unstable"}
         Unstable: departures, propagated forward; stable: arrivals, propagated backward.
     branch : {"interior", "exterior"}
@@ -377,11 +449,14 @@ def manifold(orbit, stability, *, branch="interior", points=200, until=None, spa
     step_off : str or float, optional
         Step-off distance from the orbit, e.g. ``"40km"`` (default per system).
     progress : callable(done, total, message), optional
+    origin : str, optional
+        How the tube's label names its orbit or torus (default: described from it).
 
     Returns
     -------
     cr3bp.tubes.manifolds.Tube
-        Start and end states, times of flight, how each trajectory ended; ``.plot(ax)``.
+        Start and end states, times of flight, how each trajectory ended; ``.plot(ax)``
+        (a :class:`cr3bp.tori.manifolds.TorusTube` for a torus).
 
     Raises
     ------
@@ -415,25 +490,63 @@ def manifold(orbit, stability, *, branch="interior", points=200, until=None, spa
     sysm = _system_of(orbit)
     _whole("points", points, 2, 100_000)
     stop = parse_until(until, sysm)
+    if _is_torus(orbit):
+        if spacing != "time":
+            raise InputError("spacing does not go with a torus (its points are a grid on the torus)")
+        from .tori.manifolds import grow_tube as grow_torus_tube  # lazy: start-up: keeps cr3bp.api free of numpy
+        return grow_torus_tube(orbit, stability, branch, int(points), stop, step_km=step_off, progress=progress,
+                               origin=origin)
     return grow_tube(orbit, stability, branch, int(points), stop, spacing=spacing, step_km=step_off,
-                     progress=progress)
+                     progress=progress, origin=origin)
 
 
-def section(tube, where, *, crossing=1, time=None):
+def _loaded_instance(obj, module, name):
+    """isinstance(obj, module.name), without importing ``module``: when it is not loaded yet,
+    ``obj`` cannot be one of its objects (so a command that has none does not load it)."""
+    mod = sys.modules.get(module)
+    return mod is not None and isinstance(obj, getattr(mod, name))
+
+
+def _is_torus(obj):
+    return _loaded_instance(obj, "cr3bp.tori.torus", "Torus")
+
+
+def _is_orbit(obj):
+    return _loaded_instance(obj, "cr3bp.orbits.orbit", "PeriodicOrbit")
+
+
+def section(tube, where, *, crossing=1, time=None, stability=None, branch="interior", points=200,
+            step_off=None, label=None, origin=None, progress=None):
     """Cut a tube with a Poincaré section (``librate section``).
 
     Parameters
     ----------
-    tube : Tube
+    tube : Tube, PeriodicOrbit or Torus
         A tube from :func:`manifold`; it is grown again from its orbit to the section (same
         departure points, stability, branch and step-off), unless it was grown to this very
-        section and crossing, in which case its own cut is returned.
+        section and crossing, in which case its own cut is returned. Or the orbit (or
+        hyperbolic torus) whose tube is grown to the section here, with ``stability``,
+        ``branch``, ``points`` and ``step_off`` (what ``librate section --tube`` does).
     where : str
-        ``"x=1-mu"``, ``"y=0:+"`` (one direction), ``"sphere:moon:20000km"``.
+        ``"x=1-mu"``, ``"y=0:+"`` (one direction), ``"sphere:moon:20000km"``; for an orbit or a
+        torus also ``"periapsis:earth"``, ``"apoapsis:moon"``.
     crossing : int
         Take the N-th crossing, 1..1000 (default 1).
     time : str or float, optional
         Time limit per trajectory (default 2 pi TU).
+    stability : {"stable", "unstable"}, optional
+        With an orbit or torus: the half-manifold cut (required there).
+    branch : {"interior", "exterior"}
+        With an orbit or torus (default interior).
+    points : int
+        With an orbit or torus: trajectories of the tube, 2..100000 (default 200).
+    step_off : str or float, optional
+        With an orbit or torus: step-off distance (default per system).
+    label : str, optional
+        The cut's label (default: from the tube).
+    origin : str, optional
+        With an orbit or torus: how the tube's label names it.
+    progress : callable(done, total, message), optional
 
     Returns
     -------
@@ -443,7 +556,8 @@ def section(tube, where, *, crossing=1, time=None):
     Raises
     ------
     InputError
-        A malformed section, ``crossing`` out of range, or not a Tube.
+        A malformed section, ``crossing`` out of range, an orbit without ``stability``, or
+        neither a Tube nor an orbit or torus.
 
     Examples
     --------
@@ -454,6 +568,8 @@ def section(tube, where, *, crossing=1, time=None):
     >>> cut = cr3bp.section(tube, "x=1-mu")
     >>> cut.n_trajectories
     8
+    >>> cr3bp.section(o, "x=1-mu", stability="unstable", points=8).n_trajectories
+    8
 
     References
     ----------
@@ -462,25 +578,62 @@ def section(tube, where, *, crossing=1, time=None):
     """
     from .tubes.manifolds import Stop, Tube, grow_tube  # lazy: start-up: keeps cr3bp.api free of numpy
     from .tubes.sections import parse_section  # lazy: start-up: keeps cr3bp.api free of numpy
-    if not isinstance(tube, Tube):
-        raise InputError(f"section cuts a Tube (from cr3bp.manifold), not {type(tube).__name__}")
+    grown_here = _is_orbit(tube) or _is_torus(tube)
+    if not (isinstance(tube, Tube) or grown_here):
+        raise InputError(f"section cuts a Tube (from cr3bp.manifold) or an orbit's tube, not {type(tube).__name__}")
     sysm = tube.system
     sec = parse_section(str(where), sysm)
     crossing = _whole("crossing", crossing, 1, 1000)
-    if sec.kind == "apsis":
-        raise InputError(f"section {where!r}: an apsis map is drawn by cr3bp.connect with a parking orbit")
     t_max = 2 * math.pi
     if time is not None:
         from .validate import quantity  # lazy: start-up: keeps cr3bp.api free of numpy
         t_max = quantity("time", _text(time), "time", sysm, sign="positive", default_unit="TU")
+    if grown_here:
+        if stability is None:
+            raise InputError("cutting an orbit's tube needs stability= ('stable' or 'unstable')")
+        return _cut(tube, _one_of("stability", stability, ("stable", "unstable")),
+                    _one_of("branch", branch, TUBE_BRANCHES), _whole("points", points, 2, 100_000), sec,
+                    crossing, t_max, step_off, label, origin, progress)
+    if sec.kind == "apsis":
+        raise InputError(f"section {where!r}: an apsis map is drawn by cr3bp.connect with a parking orbit")
     if tube.stop.section == sec and tube.stop.count == crossing and time is None:
-        return tube.section_cut()
+        return _labelled(tube.section_cut(), label)
     if tube.orbit is None:
         raise InputError("this tube does not carry its orbit; grow it with cr3bp.manifold")
     grown = grow_tube(tube.orbit, tube.stability, tube.branch, tube.n, Stop(sec, crossing, t_max),
                       spacing=tube.spacing, step_km=tube.step_km if math.isfinite(tube.step_km) else None,
-                      origin=tube.origin)
-    return grown.section_cut()
+                      origin=tube.origin, progress=progress)
+    return _labelled(grown.section_cut(), label)
+
+
+def _labelled(cut, label):
+    return cut if label is None else type(cut)(**{**cut.__dict__, "label": label})
+
+
+def _cut(source, stability, branch, n, sec, crossing, t_max, step_off, label, origin, progress):
+    """The cut of ``source``'s (an orbit's or a torus's) half-manifold with ``sec``."""
+    from .tubes.manifolds import Stop  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .tubes.sections import crossings  # lazy: start-up: keeps cr3bp.api free of numpy
+    sign = 1.0 if stability == "unstable" else -1.0
+    torus = _is_torus(source)
+    if sec.kind == "apsis":          # apsides are found per trajectory from the departure states
+        if torus:
+            from .tori.manifolds import manifold_starts  # lazy: start-up: keeps cr3bp.api free of numpy
+            th0, _, _, _, _, starts, *_ = manifold_starts(source, stability, branch, n, step_km=step_off)
+            phase = th0 / (2 * 3.141592653589793)
+        else:
+            from .tubes.manifolds import manifold_starts  # lazy: start-up: keeps cr3bp.api free of numpy
+            ts, _, _, starts, *_ = manifold_starts(source, stability, branch, n, step_km=step_off)
+            phase = ts / source.period
+        return crossings(source.system, starts, sec, sign * t_max, crossing, phase=phase,
+                         label="" if label is None else label).nth(crossing)
+    if torus:
+        from .tori.manifolds import grow_tube  # lazy: start-up: keeps cr3bp.api free of numpy
+    else:
+        from .tubes.manifolds import grow_tube  # lazy: start-up: keeps cr3bp.api free of numpy
+    tube = grow_tube(source, stability, branch, n, Stop(sec, crossing, t_max), step_km=step_off,
+                     progress=progress, origin=origin)
+    return _labelled(tube.section_cut(), label)
 
 
 def _parking(text, sysm):
@@ -838,13 +991,159 @@ def route(system, nodes, start, goal, *, objective="dv", best=1, max_dv=None, ma
     return best_routes(result.graph, src.id, dst.id, constraints, objective, k)
 
 
-def export(source, path, *, epoch, span, step, frame="j2000-equator", center=None, time_system="tdb",
-           anchor="ephemeris", fmt=None, object_name="LIBRATE DESIGN", object_id="NONE"):
+def _oem_axes(kind, axes):
+    if kind in ("oem", "xml") and axes == "rotating":
+        raise InputError("OEM needs inertial axes (frame j2000-equator or j2000-ecliptic); use a .csv or .json "
+                         "file for the rotating frame")
+
+
+def trajectory(source, *, epoch=None, span=None, step=None, frame="j2000-equator", center=None, time_system="tdb",
+               anchor="ephemeris", orientation=None, object_name="LIBRATE DESIGN", object_id="NONE", system=None,
+               period=None, model=None, progress=None):
+    """A CR3BP trajectory dated and sampled in a frame: what :func:`export` writes (``librate export``).
+
+    Parameters
+    ----------
+    source : PeriodicOrbit, sequence of six floats, or cr3bp.io.export.Segment
+        A periodic orbit; or an initial rotating-frame state (nondimensional, with ``system=``);
+        or rotating states at times (a segment, e.g. read from a file with
+        :func:`cr3bp.io.export.read`, with ``system=``): propagated from its first state, or
+        without ``step`` its own samples as they are.
+    epoch : str or float
+        Date of rotating time 0, ISO 8601: ``"2031-03-01T00:00:00Z"`` (Z = UTC) or with a
+        trailing TDB, TT, TAI or UTC; or TDB seconds from J2000.
+    span : str, optional
+        How long: ``"12d"``, ``"36h"``, ``"3periods"`` (default for a segment: its own span).
+    step : str, optional
+        Output step on the output clock: ``"10min"``, ``"1h"`` (a segment may leave it out).
+    frame : {"j2000-equator", "j2000-ecliptic", "rotating"}
+    center : str, optional
+        ``"earth"``, ``"moon"``, ``"barycenter"`` ... (default: the larger primary).
+    time_system : {"tdb", "tt", "tai", "utc"}
+    anchor : {"ephemeris", "circular"}
+    orientation : cr3bp.time.frames.Orientation, optional
+        Circular anchoring: the secondary's orbit plane and phase at the epoch (default: the
+        osculating values of the ephemeris).
+    object_name, object_id : str
+    system : System or str, optional
+        The system of a state or a segment (an orbit carries its own).
+    period : str or float, optional
+        The period of a state or segment (``"14.8177d"`` or TU), so that ``span`` can count
+        periods.
+    model : dict, optional
+        The header lines describing the source (default: from the orbit, the state or the
+        period).
+    progress : callable(done, total, message), optional
+        Told the number of states before they are sampled.
+
+    Returns
+    -------
+    cr3bp.io.export.Trajectory
+        Its frame (``.frame``), segments of times and states, time system, model lines.
+
+    Raises
+    ------
+    InputError
+        A bad epoch, span, step, frame or centre; a state or segment without ``system``; a
+        custom system without units.
+
+    Examples
+    --------
+    >>> import cr3bp.api as api
+    >>> em = api.system("earth-moon")
+    >>> t = api.trajectory([1.1805031, 0, -0.02, 0, -0.1581343, 0], system=em, period="14.8177d",
+    ...                    epoch="2031-03-01T00:00:00Z", span="1d", step="6h", center="moon")
+    >>> len(t.segments[0].t_tu), t.frame.center_name
+    (5, 'moon')
+
+    References
+    ----------
+    CCSDS 502.0-B-3, *Orbit Data Messages*, 2023 (the frame and time words); time scales and
+    frames as in :mod:`cr3bp.time.scales` and :mod:`cr3bp.time.frames`.
+    """
+    import numpy as np  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .io import export as ex  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .time import frames  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .validate import plain_text, quantity  # lazy: start-up: keeps cr3bp.api free of numpy
+    is_orbit = _is_orbit(source)
+    is_segment = isinstance(source, ex.Segment)
+    if is_orbit:
+        if period is not None:
+            raise InputError("period= goes with a state or a segment (an orbit has its own period)")
+        sysm = source.system
+    else:
+        if system is None:
+            raise InputError("give system= with a state or a segment (an orbit carries its own)")
+        sysm = _as_system(system)
+    sysm.require_dimensional("an export in km")
+    _one_of("frame", frame, ("j2000-equator", "j2000-ecliptic", "rotating"))
+    _one_of("anchor", anchor, ("ephemeris", "circular"))
+    ts = _one_of("time_system", str(time_system).lower(), ("tdb", "tt", "tai", "utc")).upper()
+    plain_text("object_name", object_name, 100)
+    plain_text("object_id", object_id, 100)
+    if orientation is not None and anchor != "circular":
+        raise InputError("orientation= goes with anchor='circular'")
+    if is_orbit:
+        period_tu = float(source.period)
+        default_model = {"orbit": f"{source.family} {source.point} {source.branch}".strip(),
+                         "period": f"{source.period!r} TU = {source.period * sysm.time_days:.9f} d",
+                         "jacobi": repr(float(source.jacobi))}
+    else:
+        default_model = {}
+        if not is_segment:
+            from .validate import state as _state  # lazy: start-up: keeps cr3bp.api free of numpy
+            source = _state(sysm, np.asarray(source, dtype=float))
+            default_model["initial state (rotating, nondimensional)"] = ", ".join(repr(float(x)) for x in source)
+        period_tu = None
+        if isinstance(period, (int, float)) and not isinstance(period, bool):
+            period_tu = float(period)
+            if not (math.isfinite(period_tu) and period_tu > 0):
+                raise InputError(f"period {period!r} must be a positive time (TU)")
+        elif period is not None:
+            period_tu = quantity("period", _text(period), "time", sysm, sign="positive")
+        if period_tu is not None:
+            default_model["period"] = f"{period_tu!r} TU = {period_tu * sysm.time_days:.9f} d"
+    if span is not None:
+        ex.parse_span(str(span), sysm, period_tu)      # '3periods' without a period: said now
+    if epoch is None:
+        raise InputError("give epoch= (the date of rotating time 0), e.g. '2031-03-01T00:00:00Z'")
+    spec = frames.frame(sysm, epoch, anchor=anchor, axes=frame, center=center or "primary",
+                        orientation=orientation, time_scale=ts)
+    if step is None:
+        if not is_segment:
+            raise InputError("give step= (e.g. '10min')")
+        if span is not None:
+            raise InputError("span= needs step= (without a step the segment's own samples are taken)")
+        seg = source
+    else:
+        step_s = float(quantity("step", _text(step), "time", sysm, sign="positive") * sysm.time_s)
+        if not step_s > 0:
+            raise InputError(f"step {step!r} must be positive")
+        if span is None:
+            if not is_segment:
+                raise InputError("give span= (e.g. '12d' or '3periods')")
+            span_tu = float(source.t_tu[-1] - source.t_tu[0])
+        else:
+            span_tu = ex.parse_span(str(span), sysm, period_tu)
+        grid = ex.epoch_grid(spec, ts, span_tu, step_s)
+        start = ex.Segment(np.array([float(source.t_tu[0])]), source.states[:1]) if is_segment else source
+        if progress is not None:
+            progress(0, grid.size, "sampling states")
+        seg = ex.sample(sysm, start, grid)
+    return ex.Trajectory(spec, (seg,), ts, (), object_name, object_id,
+                         default_model if model is None else dict(model))
+
+
+def export(source, path, *, epoch=None, span=None, step=None, frame="j2000-equator", center=None,
+           time_system="tdb", anchor="ephemeris", orientation=None, fmt=None, object_name="LIBRATE DESIGN",
+           object_id="NONE", system=None, period=None, model=None, progress=None):
     """Write a periodic orbit as a dated hand-off file: CCSDS OEM, CSV or JSON (``librate export``).
 
     Parameters
     ----------
-    source : PeriodicOrbit
+    source : PeriodicOrbit, state, Segment or cr3bp.io.export.Trajectory
+        What to write: anything :func:`trajectory` takes (then it is dated and sampled with
+        the keywords below), or a trajectory it made (written as it is).
     path : str or path
         The file to write (atomically); the format follows its suffix unless ``fmt`` is given.
     epoch : str
@@ -859,6 +1158,8 @@ def export(source, path, *, epoch, span, step, frame="j2000-equator", center=Non
         ``"earth"``, ``"moon"``, ``"barycenter"`` ... (default: the larger primary).
     time_system : {"tdb", "tt", "tai", "utc"}
     anchor : {"ephemeris", "circular"}
+    orientation, system, period, model, progress
+        As for :func:`trajectory`.
     fmt : {"oem", "xml", "csv", "json"}, optional
     object_name, object_id : str
 
@@ -887,61 +1188,60 @@ def export(source, path, *, epoch, span, step, frame="j2000-equator", center=Non
     CCSDS 502.0-B-3, *Orbit Data Messages*, 2023 (the OEM); time scales and frames as in
     :mod:`cr3bp.time.scales` and :mod:`cr3bp.time.frames`.
     """
-
     from .io import export as ex  # lazy: start-up: keeps cr3bp.api free of numpy
-    from .time import frames  # lazy: start-up: keeps cr3bp.api free of numpy
-    from .validate import plain_text, quantity  # lazy: start-up: keeps cr3bp.api free of numpy
-    sysm = _system_of(source)
-    sysm.require_dimensional("an export in km")
-    _one_of("frame", frame, ("j2000-equator", "j2000-ecliptic", "rotating"))
-    _one_of("anchor", anchor, ("ephemeris", "circular"))
-    ts = _one_of("time_system", str(time_system).lower(), ("tdb", "tt", "tai", "utc")).upper()
-    plain_text("object_name", object_name, 100)
-    plain_text("object_id", object_id, 100)
-    kind = ex.format_of(str(path), fmt)
-    if kind in ("oem", "xml") and frame == "rotating":
-        raise InputError("OEM needs inertial axes (frame j2000-equator or j2000-ecliptic); use a .csv or .json "
-                         "file for the rotating frame")
     from .validate import output_file  # lazy: start-up: keeps cr3bp.api free of numpy
-    output_file("path", str(path))
-    period_tu = float(source.period)
-    model = {"orbit": f"{source.family} {source.point} {source.branch}".strip(),
-             "period": f"{source.period!r} TU = {source.period * sysm.time_days:.9f} d",
-             "jacobi": repr(float(source.jacobi))}
-    span_tu = ex.parse_span(str(span), sysm, period_tu)
-    spec = frames.frame(sysm, epoch, anchor=anchor, axes=frame, center=center or "primary", time_scale=ts)
-    step_s = quantity("step", _text(step), "time", sysm, sign="positive") * sysm.time_s
-    grid = ex.epoch_grid(spec, ts, span_tu, float(step_s))
-    seg = ex.sample(sysm, source, grid)
-    traj = ex.Trajectory(spec, (seg,), ts, (), object_name, object_id, model)
+    if isinstance(source, ex.Trajectory):
+        traj = source
+        kind = ex.format_of(str(path), fmt)
+        _oem_axes(kind, traj.frame.axes)
+        output_file("path", str(path))
+    else:
+        if hasattr(source, "period") and hasattr(source, "system"):
+            _system_of(source).require_dimensional("an export in km")
+        _one_of("frame", frame, ("j2000-equator", "j2000-ecliptic", "rotating"))
+        kind = ex.format_of(str(path), fmt)
+        _oem_axes(kind, frame)
+        output_file("path", str(path))
+        traj = trajectory(source, epoch=epoch, span=span, step=step, frame=frame, center=center,
+                          time_system=time_system, anchor=anchor, orientation=orientation, object_name=object_name,
+                          object_id=object_id, system=system, period=period, model=model, progress=progress)
     return Path(ex.write(str(path), traj, kind))
 
 
-def run(scenario, out, *, catalog=None, workers=None, progress=None, reuse=True):
+def run(scenario, out, *, catalog=None, workers=None, scheduler=None, check_only=False, progress=None,
+        reuse=True):
     """Run a scenario file: orbits, checks, transfers, exports, figures, report (``librate run``).
 
     Parameters
     ----------
-    scenario : str or path
-        A scenario (TOML; its format is in the user guide), e.g. ``examples/farlight.toml``.
+    scenario : str or path or cr3bp.scenario.run.Plan
+        A scenario (TOML; its format is in the user guide), e.g. ``examples/farlight.toml``, or
+        the plan a ``check_only`` call returned.
     out : str or path
         The output folder (created; a folder holding another run's files is refused).
     catalog : str or path, optional
         The orbit catalogue (default: the per-user one, ``$LIBRATE_CATALOG``).
     workers : int, optional
         Worker processes for the transfer legs (default: the scenario's setting).
+    scheduler : str, optional
+        Address of a dask.distributed scheduler for the transfer legs.
+    check_only : bool
+        Check the scenario and the output folder, write nothing, and return the checked plan
+        (``.name``, ``.orbit_specs``, ``.data``), which a later call may run.
     progress : callable(str), optional
         One line per step.
     reuse : bool, optional
         When ``out`` holds a finished run of the same scenario bytes, code and package versions
         whose every file is unchanged (SHA-256 against its manifest), report that run instead
         of computing it again (default True; :mod:`cr3bp.scenario.reuse`). False runs again.
+        Not with ``check_only`` or a checked plan.
 
     Returns
     -------
     cr3bp.scenario.run.RunResult or cr3bp.scenario.reuse.ReusedRun
         ``.report``, ``.manifest``, ``.files``, ``.orbits``, ``.checks``, ``.reused``;
-        ``.to_dict()``. A reused run's orbits and checks are the stored records.
+        ``.to_dict()``. A reused run's orbits and checks are the stored records. With
+        ``check_only``: the checked :class:`cr3bp.scenario.run.Plan`.
 
     Raises
     ------
@@ -961,19 +1261,26 @@ def run(scenario, out, *, catalog=None, workers=None, progress=None, reuse=True)
     The scenario format: the user guide's scenario page (generated from
     :mod:`cr3bp.scenario.schema`).
     """
-    from .catalog import Catalog, default_path  # lazy: start-up: keeps cr3bp.api free of numpy
-    from .scenario import run as mission  # lazy: start-up: keeps cr3bp.api free of numpy
     if workers is not None:
         workers = _whole("workers", workers, 1, 256)
-    if reuse:
+    if reuse and not check_only and isinstance(scenario, (str, os.PathLike)):
+        # before the run's heavy imports: an unchanged rerun costs hashing only
         from .scenario.reuse import try_reuse  # lazy: start-up: keeps cr3bp.api light
+        if catalog is not None and not str(catalog).strip():
+            raise InputError("the catalogue path is empty; give a file path")
         earlier = try_reuse(scenario, out)
         if earlier is not None:
             return earlier
-    plan = mission.prepare(scenario)
-    mission.check_output_folder(out, plan.path, catalog or default_path(), mission.planned_files(plan.data))
-    return mission.run(plan, out, catalog=Catalog(catalog) if catalog else None, workers=workers,
-                       progress=progress)
+    from .catalog import Catalog, default_path  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .scenario import run as mission  # lazy: start-up: keeps cr3bp.api free of numpy
+    plan = scenario if isinstance(scenario, mission.Plan) else mission.prepare(scenario)
+    mission.check_output_folder(out, plan.path, default_path() if catalog is None else catalog,
+                                mission.planned_files(plan.data))
+    if check_only:
+        return plan
+    # an empty path is given, not left out: the catalogue refuses it
+    return mission.run(plan, out, catalog=None if catalog is None else Catalog(catalog), workers=workers,
+                       scheduler=scheduler, progress=progress)
 
 
 # ---- tori and operations at a date -----------------------------------------------------

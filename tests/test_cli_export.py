@@ -157,24 +157,20 @@ def test_shell_command(tmp_path):
 
 
 def test_orbit_spec_wiring_with_a_stand_in_solver(tmp_path, monkeypatch):
-    """The --orbit path: the request goes to cr3bp.orbits.request.solve_request, the orbit's
-    period drives '--span 2periods', the orbit is named in the file. The solver is replaced
-    here by one that returns a fixed small L2 halo (corrected by single shooting when this
-    test was written: periodic to 2e-10 over one period); the real solver is tested by the
-    orbits work."""
-    import sys
-    import types
+    """The --orbit path: the request goes to cr3bp.api.orbit, the orbit's period drives
+    '--span 2periods', the orbit is named in the file. The call is replaced here by one that
+    returns a fixed small L2 halo (corrected by single shooting when this test was written:
+    periodic to 2e-10 over one period); the real solver is tested by the orbits work."""
+    from cr3bp import api
     from cr3bp.orbits import PeriodicOrbit
     halo = PeriodicOrbit(EM, np.array([1.1805030863028119, 0, -0.02, 0, -0.15813432716819675, 0]),
                          3.4122572917029457, np.eye(6), "halo", "L2", "south", jacobi=3.15)
     calls = []
 
-    def solve_request(system, spec, catalog=None, progress=None):
-        calls.append((system.name, spec))
+    def orbit(system, request=None, catalog=None, progress=None, **kw):
+        calls.append((system.name, request))
         return halo
-    mod = types.ModuleType("cr3bp.orbits.request")
-    mod.solve_request = solve_request
-    monkeypatch.setitem(sys.modules, "cr3bp.orbits.request", mod)
+    monkeypatch.setattr(api, "orbit", orbit)
     out = tmp_path / "halo.oem"
     assert main(["export", "--system", "earth-moon", "--orbit", "halo L2 south period=14.8d", "--epoch",
                  "2031-03-01T00:00:00Z", "--span", "2periods", "--step", "6h", "--out", str(out), "-q"]) == 0

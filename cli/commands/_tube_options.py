@@ -77,21 +77,22 @@ def orbit_from_request(system, text, args=None):
             raise InputError(f"'{text}': a state needs period=T (e.g. period=2.84TU)")
         return _given(system, kv["state"], kv["period"], kv.get("family", "given"), kv.get("point", ""))
     try:
-        from cr3bp.orbits.request import solve_request
+        import cr3bp.orbits.request  # noqa: F401  (the orbit library: cr3bp.api.orbit solves with it)
     except ImportError:
         raise InputError(f"orbit request '{text}' needs the orbit library (cr3bp.orbits.request), "
                          "which is not in this build; give 'state=X,Y,Z,VX,VY,VZ period=T' instead") from None
+    from cr3bp import api
     if args is not None:
         common.progress(args, f"solving the orbit '{text}'...")
-    return solve_request(system, text)
+    return api.orbit(system, text)
 
 
 def _given(system, state_text, period_text, family="given", point=""):
-    from cr3bp.tubes.manifolds import orbit_from_state
-    from cr3bp.validate import numbers, quantity
+    """A given orbit (cr3bp.api.orbit with state= and period=) from the option texts."""
+    from cr3bp import api
+    from cr3bp.validate import numbers
     s = list(numbers("state", state_text, 6, "x,y,z,vx,vy,vz"))
-    T = quantity("period", period_text, "time", system, sign="positive", default_unit="TU")
-    return orbit_from_state(system, s, T, family=family, point=point)
+    return api.orbit(system, state=s, period=period_text, family=family, point=point)
 
 
 def resolve_orbit(args, system):

@@ -74,14 +74,16 @@ def _show(args, cat):
 
 
 def _find(args, cat):
+    from cr3bp import api
     from cr3bp.errors import InputError, NoSolutionError
     from cr3bp.orbits import continuation, targets
-    from cr3bp.orbits.request import family_key, spec_from_options
+    from cr3bp.orbits.request import family_key
     system = common.resolve_system(args)
     given = oo.targets_given(args)
     if len(given) != 1:
         raise InputError("give exactly one target, e.g. --period 6.56d or --az 12000km")
-    spec = spec_from_options(args.family, args.point, args.branch, args.ratio, **given)
+    spec = api.orbit_request(system, family=args.family, point=args.point, branch=args.branch, ratio=args.ratio,
+                             **given)
     tg = targets.make_target(system, spec.key, spec.value)
     fam, point, branch = family_key(spec)
     rec = cat.load_family(system, fam, point, branch)

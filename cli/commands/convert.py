@@ -52,7 +52,8 @@ def _run(args):
     ts = args.time_system.upper() if args.time_system else traj.time_system
     out = export.Trajectory(spec, traj.segments, ts, traj.maneuvers, traj.object_name,
                             traj.object_id, {"converted from": str(args.input)})
-    path = export.write(args.output, out, fmt)
+    from cr3bp import api
+    path = api.export(out, args.output, fmt=args.format)
     common.progress(args, f"wrote {path}")
     summary(args, out, path, fmt)
     return 0

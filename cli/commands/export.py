@@ -134,9 +134,11 @@ def run(args):
 
 
 def _run(args):
+    """The trajectory of cr3bp.api.trajectory (an --orbit solved by cr3bp.api.orbit), written by
+    cr3bp.api.export; the options are checked here first, so a refusal names the option."""
     import numpy as np
+    from cr3bp import api
     from cr3bp.io import export
-    from cr3bp.time import frames
     from cr3bp.errors import InputError
 
     from cr3bp.validate import plain_text
@@ -151,7 +153,6 @@ def _run(args):
     if fmt in OEM_FORMATS and args.frame == "rotating":
         raise InputError("OEM needs inertial axes (--frame j2000-equator or j2000-ecliptic); "
                          "use --format csv or json for the rotating frame")
-    ts = args.time_system.upper()
     sysm = None
     source = None
     period_tu = None
@@ -165,8 +166,7 @@ def _run(args):
         elif file_frame is not None:
             sysm = file_frame.system
         elif data.header.get("system"):
-            from cr3bp import system as _system
-            sysm = _system(data.header["system"])
+            sysm = api.system(data.header["system"])
         else:
             raise InputError(f"'{args.from_file}' does not name its system; give --system")
         if file_frame is not None and file_frame.system.mu != sysm.mu:
@@ -183,9 +183,8 @@ def _run(args):
     sysm.require_dimensional("an export in km")
 
     if args.orbit is not None:
-        from cr3bp.orbits.request import solve_request
         common.progress(args, f"solving orbit request '{args.orbit}'...")
-        orbit = solve_request(sysm, args.orbit, progress=lambda count, most, _orbit: common.progress(
+        orbit = api.orbit(sysm, args.orbit, progress=lambda count, most, _orbit: common.progress(
             args, f"  family member {count} of at most {most}", verbose_only=True))
         source, period_tu = orbit, float(orbit.period)
         model["orbit"] = f"{orbit.family} {orbit.point} {orbit.branch}".strip()
@@ -209,40 +208,29 @@ def _run(args):
         model["period"] = f"{period_tu!r} TU = {period_tu * sysm.time_days:.9f} d"
     if args.span is not None:
         export.parse_span(args.span, sysm, period_tu)    # '3periods' without a period: said now
-
-    # the frame
-    if args.epoch is None:
-        if file_frame is None:
-            raise InputError("give --epoch (the date of rotating time 0), e.g. 2031-03-01T00:00:00Z")
-        epoch = file_frame.epoch_tdb_s
-    else:
-        epoch = args.epoch
-    center = args.center or "primary"
-    spec = frames.frame(sysm, epoch, anchor=args.anchor, axes=args.frame, center=center,
-                        orientation=parse_orientation(args), time_scale=ts)
-
-    # the samples
+    if args.epoch is None and file_frame is None:
+        raise InputError("give --epoch (the date of rotating time 0), e.g. 2031-03-01T00:00:00Z")
+    epoch = file_frame.epoch_tdb_s if args.epoch is None else args.epoch
+    orientation = parse_orientation(args)
     if args.step is None:
         if args.from_file is None:
             raise InputError("give --step (e.g. 10min)")
         if args.span is not None:
             raise InputError("--span needs --step (without --step the file's own samples are written)")
-        seg = source
     else:
-        step_s = step_seconds(args.step, sysm)
-        if args.span is None:
-            if args.from_file is None:
-                raise InputError("give --span (e.g. 12d or 3periods)")
-            span_tu = float(source.t_tu[-1] - source.t_tu[0])
-        else:
-            span_tu = export.parse_span(args.span, sysm, period_tu)
-        t0 = float(source.t_tu[0]) if args.from_file is not None else 0.0
-        grid = export.epoch_grid(spec, ts, span_tu, step_s)
-        start = export.Segment(np.array([t0]), source.states[:1]) if args.from_file is not None else source
-        common.progress(args, f"sampling {grid.size} states...", verbose_only=grid.size < 20000)
-        seg = export.sample(sysm, start, grid)
-    traj = export.Trajectory(spec, (seg,), ts, (), args.object_name, args.object_id, model)
-    path = export.write(args.out, traj, fmt)
+        step_seconds(args.step, sysm)
+        if args.span is None and args.from_file is None:
+            raise InputError("give --span (e.g. 12d or 3periods)")
+
+    def sampling(done, total, message):
+        common.progress(args, f"sampling {total} states...", verbose_only=total < 20000)
+
+    traj = api.trajectory(source, epoch=epoch, span=args.span, step=args.step, frame=args.frame,
+                          center=args.center, time_system=args.time_system, anchor=args.anchor,
+                          orientation=orientation, object_name=args.object_name, object_id=args.object_id,
+                          system=sysm, period=None if args.orbit is not None else period_tu, model=model,
+                          progress=sampling)
+    path = api.export(traj, args.out, fmt=args.format)
     common.progress(args, f"wrote {path}")
     summary(args, traj, path, fmt)
     return 0

@@ -55,11 +55,13 @@ def _parse_until(system, text):
 
 
 def run(args):
+    """The family of cr3bp.api.family; the options are checked here first, so a refusal names
+    the option (--members, --step, ...) before any work."""
+    from cr3bp import api
     from cr3bp.errors import InputError
     from cr3bp.orbits import continuation, families
-    from cr3bp.orbits.request import catalog_member, catalog_settings, spec_from_options
     system = common.resolve_system(args)
-    spec = spec_from_options(args.family, args.point, args.branch, args.ratio)
+    spec = api.orbit_request(family=args.family, point=args.point, branch=args.branch, ratio=args.ratio)
     if not 2 <= args.members <= 5000:
         raise InputError(f"--members {args.members} is outside the allowed range 2..5000")
     if args.method == "natural" and not args.parameter:
@@ -69,11 +71,10 @@ def run(args):
     if args.route is not None and (args.method != "arclength" or args.step is not None):
         raise InputError("--route works with the default arclength continuation and steps; drop --method/--step")
     target = _parse_until(system, args.until) if args.until else None
-    alt = None
     if args.altitude:
         system.require_dimensional("--altitude")
         from cr3bp.validate import quantity
-        alt = quantity("--altitude", args.altitude, "length", system, sign="nonnegative") * system.length_km
+        quantity("--altitude", args.altitude, "length", system, sign="nonnegative")
     step = None
     if args.step is not None:
         from cr3bp.validate import number_in
@@ -82,7 +83,6 @@ def run(args):
     if args.max_step is not None:
         from cr3bp.validate import number_in
         max_step = number_in("--max-step", args.max_step, 0, 1, open_lo=True, open_hi=True)
-    stops = continuation.Stops(max_members=args.members, altitude_km=alt, target=target)
     if args.plot:
         import os
         d = os.path.dirname(args.plot) or "."
@@ -91,13 +91,10 @@ def run(args):
     cat = oo.open_catalog(args)
     name = " ".join(w for w in (spec.family, spec.point, spec.branch_label) if w)
     common.progress(args, f"librate family: growing the {system.name} {name} family (up to {args.members} members)")
-    if args.route is not None:
-        fam = families.grow_by_route(system, spec.family, spec.point, spec.branch, args.route, stops=stops,
-                                     max_step=max_step, progress=oo.progress_printer(args, name))
-    else:
-        fam = families.grow_family(system, spec.family, spec.point, spec.branch, stops=stops, method=args.method,
-                                   parameter=args.parameter, step=step, resonance=spec.resonance,
-                                   max_step=max_step, progress=oo.progress_printer(args, name))
+    fam = api.family(system, args.family, point=args.point, branch=args.branch, ratio=args.ratio,
+                     members=args.members, until=args.until or None, altitude=args.altitude or None, method=args.method,
+                     parameter=args.parameter, step=step, max_step=max_step, route=args.route,
+                     progress=oo.progress_printer(args, name), catalog=cat)
     common.progress(args, f"done: {len(fam.members)} members; stopped because {fam.stop_reason}")
     missed = None
     if target is not None and fam.target is None:
@@ -107,13 +104,7 @@ def run(args):
                   f"{describe_value(system, target[0], lo)} to {describe_value(system, target[0], hi)}")
         common.progress(args, missed)
     if cat is not None:
-        settings = catalog_settings(spec, stops)
-        if args.route is not None:
-            settings["route"] = args.route
-        fid = cat.begin_family(system, spec.family, spec.point, spec.branch_label, settings)
-        cat.add_members(fid, [catalog_member(m, i) for i, m in enumerate(fam.members)])
-        cat.finish_family(fid, [b.to_dict() for b in fam.bifurcations], complete=True)
-        common.progress(args, f"stored as family {fid} in the catalogue {cat.path}")
+        common.progress(args, f"stored as family {fam.settings['catalog_id']} in the catalogue {cat.path}")
     rows = [_row(i, m.to_dict()) for i, m in enumerate(fam.members)]
     headers = HEADERS
     if spec.family == "resonant":   # the measured p:q of every member (label kept within a band)

@@ -38,8 +38,9 @@ HEADERS = ["phase", "t_orbit", "tof", "tof_days", "status", "x", "y", "z", "vx",
 
 
 def run(args):
+    from cr3bp import api
     from cr3bp.errors import InputError
-    from cr3bp.tubes.manifolds import grow_tube, parse_until
+    from cr3bp.tubes.manifolds import parse_until
     system = common.resolve_system(args)
     if args.stability is None:
         raise InputError("give --stable or --unstable")
@@ -61,8 +62,8 @@ def run(args):
     orbit = to.resolve_orbit(args, system)
     common.progress(args, f"librate manifold: growing {args.points} {args.stability} {args.branch} "
                     f"trajectories of {orbit.family} {orbit.point} (C = {orbit.jacobi:.6f})...")
-    tube = grow_tube(orbit, args.stability, args.branch, args.points, stop, spacing=args.spacing,
-                     step_km=args.step_off, progress=to.progress_printer(args))
+    tube = api.manifold(orbit, args.stability, branch=args.branch, points=args.points, until=args.until,
+                        spacing=args.spacing, step_off=args.step_off, progress=to.progress_printer(args))
     d = tube.to_dict()
     rows = [[t["phase"], t["t_orbit"], t["tof"], t["tof_days"], t["status"], *t["end_state"]]
             for t in d["trajectories"]]
@@ -103,16 +104,17 @@ def torus_request(system, text, args):
 
 
 def _torus(args, system, stop):
+    from cr3bp import api
     from cr3bp.tori import request as treq
-    from cr3bp.tori.manifolds import grid_shape, grow_tube
+    from cr3bp.tori.manifolds import grid_shape
     spec = torus_request(system, args.torus, args)
     common.progress(args, f"librate manifold: solving the torus '{args.torus}'...")
     torus = treq.solve(system, spec, progress=lambda m: common.progress(args, m, verbose_only=True))
     n0, n1 = grid_shape(args.points)
     common.progress(args, f"librate manifold: growing {n0 * n1} {args.stability} {args.branch} trajectories "
                           f"({n0} stroboscopic phases x {n1} circle points) of the torus (C = {torus.jacobi:.6f})...")
-    tube = grow_tube(torus, args.stability, args.branch, args.points, stop, step_km=args.step_off,
-                     progress=to.progress_printer(args), origin=f"torus '{args.torus}'")
+    tube = api.manifold(torus, args.stability, branch=args.branch, points=args.points, until=args.until,
+                        step_off=args.step_off, progress=to.progress_printer(args), origin=f"torus '{args.torus}'")
     d = tube.to_dict()
     rows = [[t["phase"], t["t_orbit"], t["tof"], t["tof_days"], t["status"], *t["end_state"]]
             for t in d["trajectories"]]
@@ -138,13 +140,14 @@ def _torus(args, system, stop):
 
 
 def _point(args, system, stop):
+    from cr3bp import api
     from cr3bp.errors import InputError
-    from cr3bp.tubes.manifolds import point_tube
     name = args.lagrange.upper()
     if name not in COLLINEAR_POINTS:
         raise InputError(f"--lagrange {args.lagrange!r}: only the collinear points L1, L2, L3 have "
                          "one-dimensional manifolds")
-    tube = point_tube(system, name, args.stability, args.branch, stop, step_km=args.step_off)
+    tube = api.manifold((system, name), args.stability, branch=args.branch, until=args.until,
+                        step_off=args.step_off)
     d = tube.to_dict()
     rows = [[t["phase"], t["t_orbit"], t["tof"], t["tof_days"], t["status"], *t["end_state"]]
             for t in d["trajectories"]]

@@ -27,8 +27,9 @@ def add_arguments(p):
 
 
 def run(args):
+    """The orbit of cr3bp.api.orbit (its request checked by cr3bp.api.orbit_request first)."""
+    from cr3bp import api
     from cr3bp.errors import InputError
-    from cr3bp.orbits.request import solve_request, spec_from_options
     if (args.family or "").strip().lower() == "lissajous":
         from .torus import run_from_orbit
         return run_from_orbit(args)
@@ -36,14 +37,12 @@ def run(args):
     given = oo.targets_given(args)
     if not given:
         raise InputError("give a target: " + ", ".join("--" + t for t, _, _ in oo.TARGETS))
-    spec = spec_from_options(args.family, args.point, args.branch, args.ratio,
-                             occurrence=args.occurrence, **given)
-    from cr3bp.orbits.targets import make_target
-    make_target(system, spec.key, spec.value)   # bad units fail here, before any work
+    spec = api.orbit_request(system, family=args.family, point=args.point, branch=args.branch, ratio=args.ratio,
+                             occurrence=args.occurrence, **given)   # bad units fail here, before any work
     cat = oo.open_catalog(args)
     common.progress(args, f"librate orbit: solving {spec.family} {spec.point} {spec.branch_label} "
                     f"{spec.key}={spec.value}".replace("  ", " "))
-    orbit = solve_request(system, spec, catalog=cat, progress=oo.progress_printer(args, "family"))
+    orbit = api.orbit(system, spec, catalog=cat, progress=oo.progress_printer(args, "family"))
     d = orbit.to_dict()
     note = _places_note(spec, d)
     if note:

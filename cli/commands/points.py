@@ -40,9 +40,10 @@ def point_record(point, system, mu_r):
 
 
 def run(args):
-    from cr3bp.equilibria import lagrange_points, routh_critical_mu
+    from cr3bp import api
+    from cr3bp.equilibria import routh_critical_mu
     system = common.resolve_system(args)
-    pts = lagrange_points(system)
+    pts = api.points(system)
     mu_r = routh_critical_mu()
     dim = system.dimensional
     rows = []

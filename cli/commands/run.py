@@ -25,12 +25,18 @@ def add_arguments(p):
 
 
 def run(args):
-    """Check (scenario and --out), then run; a scenario with problems prints one line per
+    """Check (scenario and --out), then run, both with cr3bp.api.run; a scenario with problems prints one line per
     problem, FILE:LINE: key: message (cli.common.run_command), and exits 2 with nothing written."""
     import time
+    from cr3bp import api
     workers = common.workers(args)
+    catalog = common.catalog_file(args)
     if not (args.check_only or args.recompute):
+        # before the run's heavy imports: an unchanged rerun costs hashing only
         from cr3bp.scenario.reuse import try_reuse
+        from cr3bp.errors import InputError
+        if catalog is not None and not catalog.strip():
+            raise InputError("the catalogue path is empty; give a file path")
         earlier = try_reuse(args.scenario, args.out)
         if earlier is not None:
             common.progress(args, f"nothing to compute: {args.out} holds the run of "
@@ -39,10 +45,7 @@ def run(args):
                                   f"--recompute runs it again")
             _summary(earlier)
             return 0
-    from cr3bp.scenario import run as mission
-    plan = mission.prepare(args.scenario)
-    mission.check_output_folder(args.out, plan.path, common.catalog_file(args),
-                                mission.planned_files(plan.data))
+    plan = api.run(args.scenario, args.out, catalog=catalog, check_only=True)
     common.progress(args, f"scenario {args.scenario}: '{plan.name}', {len(plan.orbit_specs)} orbit(s), "
                           f"{len(plan.data.get('transfers', []))} transfer(s), "
                           f"{len(plan.data.get('exports', []))} export(s)")
@@ -56,8 +59,8 @@ def run(args):
         stage["n"] += 1
         common.progress(args, f"[{time.time() - t0:6.1f} s] {text}")
 
-    result = mission.run(plan, args.out, catalog=common.open_catalog(args),
-                         workers=workers, scheduler=args.scheduler, progress=say)
+    result = api.run(plan, args.out, catalog=catalog, workers=workers, scheduler=args.scheduler,
+                     progress=say, reuse=False)
     _summary(result)
     return 0
 

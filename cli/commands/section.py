@@ -82,44 +82,36 @@ def spatial_pairs(section, cuts, tol=1e-9):
     return (first,)
 
 
-def _torus_cut(args, system, req, spec, stab, br, section, t_max):
-    """The cut of a torus's half-manifold (cr3bp.tori.manifolds) with the section."""
+def _torus_cut(args, system, req, spec, stab, br, section):
+    """The cut of a torus's half-manifold with the section (cr3bp.api.section of the torus)."""
+    from cr3bp import api
     from cr3bp.tori import request as treq
-    from cr3bp.tori.manifolds import grow_tube, manifold_starts
-    from cr3bp.tubes.manifolds import Stop
-    from cr3bp.tubes.sections import crossings
     label = f"{req} {stab} {br}"
     common.progress(args, f"librate section: solving the torus '{req}'...")
     torus = treq.solve(system, spec, progress=lambda m: common.progress(args, m, verbose_only=True))
     common.progress(args, f"librate section: {label}: {args.points} trajectories to {section.label}...")
-    sign = 1.0 if stab == "unstable" else -1.0
-    if section.kind == "apsis":
-        th0, _, _, _, _, starts, *_ = manifold_starts(torus, stab, br, args.points, step_km=args.step_off)
-        return crossings(system, starts, section, sign * t_max, args.crossing, phase=th0 / (2 * 3.141592653589793),
-                         label=label).nth(args.crossing)
-    tube = grow_tube(torus, stab, br, args.points, Stop(section, args.crossing, t_max), step_km=args.step_off,
-                     progress=to.progress_printer(args), origin=req)
-    cut = tube.section_cut()
-    return type(cut)(**{**cut.__dict__, "label": label})
+    return api.section(torus, args.section, stability=stab, branch=br, points=args.points, crossing=args.crossing,
+                       time=args.time, step_off=args.step_off, label=label, origin=req,
+                       progress=to.progress_printer(args))
 
 
 HEADERS = ["tube", "trajectory", "phase", "crossing", "t", "map_a", "map_b", "x", "y", "z", "vx", "vy", "vz"]
 
 
 def run(args):
-    import math
-
-    from cr3bp.tubes.manifolds import Stop, grow_tube, manifold_starts
-    from cr3bp.tubes.sections import crossings, parse_section
+    """Each tube's cut is cr3bp.api.section of its orbit (cr3bp.api.orbit) or torus; the options
+    are checked here first, so a refusal names the option before any work."""
+    from cr3bp import api
+    from cr3bp.tubes.sections import parse_section
     system = common.resolve_system(args)
     section = parse_section(args.section, system)
     pairs = parse_pairs(args.coords) if args.coords else None
     names = pairs[0] if pairs else default_coords(section)
     common.whole_number("--crossing", args.crossing, 1, 1000)
     common.whole_number("--points", args.points, 2, 100_000)
-    from cr3bp.validate import quantity
-    t_max = quantity("--time", args.time, "time", system, sign="positive", default_unit="TU") \
-        if args.time is not None else 2 * math.pi
+    if args.time is not None:
+        from cr3bp.validate import quantity
+        quantity("--time", args.time, "time", system, sign="positive", default_unit="TU")
     specs = [parse_tube_spec(t) for t in args.tube]
     from cr3bp.tori.request import is_torus_request
     from .manifold import torus_request
@@ -127,23 +119,15 @@ def run(args):
     cuts, out = [], []
     for req, stab, br in specs:
         if req in tori:
-            cuts.append(_torus_cut(args, system, req, tori[req], stab, br, section, t_max))
+            cuts.append(_torus_cut(args, system, req, tori[req], stab, br, section))
             continue
         orbit = to.orbit_from_request(system, req, args)
         from cr3bp.tubes.manifolds import describe
         label = f"{describe(orbit) if 'state=' in req else req} {stab} {br}"
         common.progress(args, f"librate section: {label}: {args.points} trajectories to {section.label}...")
-        sign = 1.0 if stab == "unstable" else -1.0
-        if section.kind == "apsis":
-            ts, _, _, starts, *_ = manifold_starts(orbit, stab, br, args.points, step_km=args.step_off)
-            cut = crossings(system, starts, section, sign * t_max, args.crossing, phase=ts / orbit.period,
-                            label=label).nth(args.crossing)
-        else:
-            tube = grow_tube(orbit, stab, br, args.points, Stop(section, args.crossing, t_max),
-                             step_km=args.step_off, progress=to.progress_printer(args), origin=req)
-            cut = tube.section_cut()
-            cut = type(cut)(**{**cut.__dict__, "label": label})
-        cuts.append(cut)
+        cuts.append(api.section(orbit, args.section, stability=stab, branch=br, points=args.points,
+                                crossing=args.crossing, time=args.time, step_off=args.step_off, label=label,
+                                origin=req, progress=to.progress_printer(args)))
     pairs = pairs or spatial_pairs(section, cuts)
     columns = tuple(dict.fromkeys(n for p in pairs for n in p))
     grid = [req in tori for req, _, _ in specs]      # a torus tube's cut is a grid, not a curve

@@ -13,8 +13,8 @@ def add_arguments(p):
 
 
 def run(args):
-    from cr3bp import system, system_names
-    systems = [system(n) for n in system_names()]
+    from cr3bp import api, system_names
+    systems = [api.system(n) for n in system_names()]
     headers = ["system", "mu", "length_km", "time_unit_days", "velocity_kms", "period_days"]
     rows = [[s.name, s.mu, s.length_km, s.time_days, s.velocity_kms, s.period_days] for s in systems]
     table = common.format_table(headers, rows, title="CR3BP systems (larger primary first)")
