@@ -66,6 +66,16 @@ MODULES = [
     "cr3bp.threads",
     "cr3bp.vocabulary",
     "cr3bp.display",
+    "cr3bp.plotting.base",
+    "cr3bp.plotting.departures",
+    "cr3bp.plotting.eclipses",
+    "cr3bp.plotting.energy",
+    "cr3bp.plotting.fidelity",
+    "cr3bp.plotting.keeping",
+    "cr3bp.plotting.low_energy",
+    "cr3bp.plotting.tori",
+    "cr3bp.plotting.trajectories",
+    "cr3bp.plotting.transfers",
 ]
 
 #: Packages whose every module is checked, found by walking the package (so a module added
