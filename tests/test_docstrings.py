@@ -76,6 +76,8 @@ MODULES = [
     "cr3bp.plotting.tori",
     "cr3bp.plotting.trajectories",
     "cr3bp.plotting.transfers",
+    "cr3bp.plotting.orbits",
+    "cr3bp.plotting.interactive",
 ]
 
 #: Packages whose every module is checked, found by walking the package (so a module added
