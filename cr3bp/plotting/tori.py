@@ -43,7 +43,7 @@ def plot_torus(torus, grid=None, title=None, curves=24):
     >>> from cr3bp import orbit
     >>> from cr3bp.tori import torus_around
     >>> from cr3bp.plotting.tori import plot_torus
-    >>> lyap = orbit("earth-moon", "lyapunov L1 period=12d")     # doctest: +SKIP
+    >>> lyap = orbit("earth-moon", "lyapunov L1 jacobi=3.15")     # doctest: +SKIP
     >>> fig = plot_torus(torus_around(lyap, 1e-3))              # doctest: +SKIP
     >>> len(fig.axes)                                           # doctest: +SKIP
     4

@@ -56,8 +56,8 @@ def plot_orbit_transfer(tr, n_per_coast=600):
     >>> from cr3bp import orbit
     >>> from cr3bp.transfers.optimise import optimise_transfer
     >>> from cr3bp.plotting.transfers import plot_orbit_transfer
-    >>> a = orbit("earth-moon", "lyapunov L1 period=12d")    # doctest: +SKIP
-    >>> b = orbit("earth-moon", "lyapunov L2 period=15d")    # doctest: +SKIP
+    >>> a = orbit("earth-moon", "lyapunov L1 jacobi=3.15")    # doctest: +SKIP
+    >>> b = orbit("earth-moon", "lyapunov L2 jacobi=3.15")    # doctest: +SKIP
     >>> fig = plot_orbit_transfer(optimise_transfer(a, b))   # doctest: +SKIP
     >>> [ax.get_title() for ax in fig.axes[:2]]              # doctest: +SKIP
     ['x-y view', 'x-z view']
