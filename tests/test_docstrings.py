@@ -66,6 +66,9 @@ MODULES = [
     "cr3bp.threads",
     "cr3bp.vocabulary",
     "cr3bp.display",
+    "cr3bp.integrate.arc",
+    "cr3bp.integrate.events",
+    "cr3bp.integrate.reference",
 ]
 
 #: Packages whose every module is checked, found by walking the package (so a module added
