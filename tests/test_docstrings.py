@@ -69,6 +69,9 @@ MODULES = [
     "cr3bp.integrate.arc",
     "cr3bp.integrate.events",
     "cr3bp.integrate.reference",
+    "cr3bp.integrate.batch",
+    "cr3bp.integrate.propagate",
+    "cr3bp.integrate.prebuilt",
 ]
 
 #: Packages whose every module is checked, found by walking the package (so a module added
