@@ -72,6 +72,7 @@ MODULES = [
     "cr3bp.integrate.batch",
     "cr3bp.integrate.propagate",
     "cr3bp.integrate.prebuilt",
+    "cr3bp.bicircular",
 ]
 
 #: Packages whose every module is checked, found by walking the package (so a module added
