@@ -73,6 +73,7 @@ MODULES = [
     "cr3bp.integrate.propagate",
     "cr3bp.integrate.prebuilt",
     "cr3bp.bicircular",
+    "cr3bp.api",
 ]
 
 #: Packages whose every module is checked, found by walking the package (so a module added
