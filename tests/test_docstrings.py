@@ -74,6 +74,7 @@ MODULES = [
     "cr3bp.integrate.prebuilt",
     "cr3bp.bicircular",
     "cr3bp.api",
+    "cr3bp.transfers.low_energy",
 ]
 
 #: Packages whose every module is checked, found by walking the package (so a module added
