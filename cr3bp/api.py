@@ -877,6 +877,19 @@ def low_energy_transfer(target, parking="parking earth 200km", *, system="earth-
     NoSolutionError
         The search finds no transfer in the time-of-flight window.
 
+    Examples
+    --------
+    The design takes minutes, so only the refusal of a bad window is run:
+
+    >>> from cr3bp.api import low_energy_transfer
+    >>> tr = low_energy_transfer("halo L2 south resonance=9:2", epoch="2031-03-01")  # doctest: +SKIP
+    >>> tr.dv_mps > 0, 70 < tr.tof_days <= 130                                      # doctest: +SKIP
+    (True, True)
+    >>> low_energy_transfer("halo L2 south resonance=9:2", max_tof="300d")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: max_tof = '300d'; allowed: more than 70 d, at most 200 d
+
     References
     ----------
     Parker & Anderson, *Low-Energy Lunar Trajectory Design*, 2013, ch. 3; Boudad, Howell &

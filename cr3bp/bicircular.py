@@ -81,6 +81,31 @@ class BicircularSystem:
     epoch_tdb_s : float or None  the date of t = 0 (TDB seconds since J2000), when the phase
                                came from the ephemeris (:func:`sun_phase_at`)
     source : str
+
+    Parameters
+    ----------
+    system, sun_mass_ratio, sun_distance, sun_rate, sun_phase, epoch_tdb_s, source
+        The attributes above.
+
+    Raises
+    ------
+    InputError
+        No System, or a non-finite or negative parameter, or the Sun within 2 LU.
+
+    Examples
+    --------
+    >>> from cr3bp.bicircular import bicircular_system
+    >>> m = bicircular_system("earth-moon")
+    >>> round(m.synodic_period_days, 3), m.name
+    (29.487, 'earth-moon bicircular')
+
+    References
+    ----------
+    .. [1] S.-S. Huang, "Very restricted four-body problem", NASA TN D-501, 1960; C. Simo,
+       G. Gomez, A. Jorba and J. Masdemont, "The bicircular model near the triangular libration
+       points of the RTBP", 1995; K. K. Boudad, K. C. Howell and D. C. Davis, "Dynamics of
+       synodic resonant near rectilinear halo orbits in the bicircular four-body problem",
+       *Advances in Space Research* 66, 2020, section 2 (all from memory).
     """
 
     system: object
@@ -169,7 +194,38 @@ class BicircularSystem:
 def sun_parameters(system) -> tuple[float, float, float]:
     """``(m_s, a_s, omega_s)`` of the Sun for an Earth-Moon ``system``: the Sun's GM over the
     primaries' GMs (``data/systems.toml``), 1 au (:data:`cr3bp.constants.AU_KM`) over the
-    system's length unit, and ``sqrt((1 + m_s) / a_s^3) - 1``."""
+    system's length unit, and ``sqrt((1 + m_s) / a_s^3) - 1``.
+
+    Parameters
+    ----------
+    system : System
+        A dimensional system with named primaries.
+
+    Returns
+    -------
+    (float, float, float)
+        m_s, a_s (LU), omega_s (rad/TU).
+
+    Raises
+    ------
+    InputError
+        A system without named primaries, masses and units.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.bicircular import sun_parameters
+    >>> [round(v, 3) for v in sun_parameters(system("earth-moon"))]
+    [328900.56, 389.172, -0.925]
+
+    References
+    ----------
+    .. [1] S.-S. Huang, "Very restricted four-body problem", NASA TN D-501, 1960; C. Simo,
+       G. Gomez, A. Jorba and J. Masdemont, "The bicircular model near the triangular libration
+       points of the RTBP", 1995; K. K. Boudad, K. C. Howell and D. C. Davis, "Dynamics of
+       synodic resonant near rectilinear halo orbits in the bicircular four-body problem",
+       *Advances in Space Research* 66, 2020, section 2 (all from memory).
+    """
     if system.primary is None or system.secondary is None or not system.dimensional:
         raise InputError(f"system '{system.name}' has no named primaries with masses and units; "
                          "the Sun's mass ratio and distance cannot be formed")
@@ -194,10 +250,32 @@ def bicircular_system(system="earth-moon", *, sun_phase=0.0, epoch=None) -> Bici
         J2000): the phase is then the Sun's angle at that date from the ephemeris
         (:func:`sun_phase_at`) and ``sun_phase`` must be left at 0.
 
+    Returns
+    -------
+    BicircularSystem
+
     Raises
     ------
     InputError
         Another system, a non-finite phase, both a phase and an epoch, a bad epoch.
+
+    Examples
+    --------
+    >>> from cr3bp.bicircular import bicircular_system
+    >>> round(bicircular_system("earth-moon", sun_phase=3.141592653589793).sun_phase_deg, 6)
+    180.0
+    >>> bicircular_system("sun-earth")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: the bicircular model is set up for the earth-moon system only; got 'sun-earth'
+
+    References
+    ----------
+    .. [1] S.-S. Huang, "Very restricted four-body problem", NASA TN D-501, 1960; C. Simo,
+       G. Gomez, A. Jorba and J. Masdemont, "The bicircular model near the triangular libration
+       points of the RTBP", 1995; K. K. Boudad, K. C. Howell and D. C. Davis, "Dynamics of
+       synodic resonant near rectilinear halo orbits in the bicircular four-body problem",
+       *Advances in Space Research* 66, 2020, section 2 (all from memory).
     """
     sys_ = systems.system(system) if isinstance(system, str) else system
     names = (getattr(sys_.primary, "name", None), getattr(sys_.secondary, "name", None))
@@ -234,6 +312,34 @@ def sun_angles_at(epoch, system="earth-moon") -> tuple[float, float]:
     Moon's orbit's inclination to the ecliptic; the bicircular model sets it to 0).
 
     ``epoch``: ISO 8601 text (UTC unless it names its scale) or TDB seconds since J2000.
+
+    Parameters
+    ----------
+    epoch : str or float
+    system : str or System
+        The Earth-Moon system.
+
+    Returns
+    -------
+    (float, float)
+        phase, elevation, rad.
+
+    Raises
+    ------
+    InputError
+        Another system, or a bad epoch.
+
+    Examples
+    --------
+    >>> from cr3bp.bicircular import sun_angles_at
+    >>> [round(v, 4) for v in sun_angles_at("2031-03-01T00:00:00 TDB")]
+    [4.7447, -0.0873]
+
+    References
+    ----------
+    .. [1] Common practice: the instantaneous Earth-Moon rotating frame (x along the Moon's
+       geocentric position, z along its angular momentum), with the ephemeris of
+       :mod:`cr3bp.time.ephemeris`.
     """
     sys_ = systems.system(system) if isinstance(system, str) else system
     if getattr(sys_.secondary, "name", None) != "moon":
@@ -255,7 +361,32 @@ def sun_angles_at(epoch, system="earth-moon") -> tuple[float, float]:
 
 def sun_phase_at(epoch, system="earth-moon") -> float:
     """The Sun's angle from +x in the Earth-Moon rotating frame at a date, rad in [0, 2 pi)
-    (:func:`sun_angles_at`)."""
+    (:func:`sun_angles_at`).
+
+    Parameters
+    ----------
+    epoch : str or float
+    system : str or System
+
+    Returns
+    -------
+    float
+
+    Raises
+    ------
+    InputError
+        Another system, or a bad epoch.
+
+    Examples
+    --------
+    >>> from cr3bp.bicircular import sun_phase_at
+    >>> round(sun_phase_at("2031-03-01T00:00:00 TDB"), 4)
+    4.7447
+
+    References
+    ----------
+    .. [1] Common practice (see :func:`sun_angles_at`).
+    """
     return sun_angles_at(epoch, system)[0]
 
 
@@ -268,7 +399,41 @@ def _model(bsys):
 
 
 def acceleration(bsys: BicircularSystem, t: float, state) -> np.ndarray:
-    """Time derivative of one 6-state at time ``t`` (TU), from the compiled kernel."""
+    """Time derivative of one 6-state at time ``t`` (TU), from the compiled kernel.
+
+    Parameters
+    ----------
+    bsys : BicircularSystem
+    t : float
+        TU.
+    state : array (6,)
+        LU and LU/TU.
+
+    Returns
+    -------
+    ndarray (6,)
+
+    Raises
+    ------
+    InputError
+        ``bsys`` is not a BicircularSystem.
+
+    Examples
+    --------
+    >>> from cr3bp.bicircular import bicircular_system
+    >>> m = bicircular_system("earth-moon")
+    >>> from cr3bp.bicircular import acceleration
+    >>> acceleration(m, 0.0, [0.8, 0, 0, 0, 0.3, 0]).round(6).tolist()
+    [0.0, 0.3, 0.0, 0.255613, 0.0, -0.0]
+
+    References
+    ----------
+    .. [1] S.-S. Huang, "Very restricted four-body problem", NASA TN D-501, 1960; C. Simo,
+       G. Gomez, A. Jorba and J. Masdemont, "The bicircular model near the triangular libration
+       points of the RTBP", 1995; K. K. Boudad, K. C. Howell and D. C. Davis, "Dynamics of
+       synodic resonant near rectilinear halo orbits in the bicircular four-body problem",
+       *Advances in Space Research* 66, 2020, section 2 (all from memory).
+    """
     from .bicircular_kernels import eom  # lazy: heavy library (numba, via cr3bp.bicircular_kernels); compiled (numba): loaded on first use
     out = np.empty(6)
     eom(float(t), np.ascontiguousarray(state, dtype=float)[:6].copy(), _model(bsys)[2], out)
@@ -297,6 +462,37 @@ def hamiltonian(bsys: BicircularSystem, t, states):
     2020, section 2, from memory), less the constant ``2 m_s / a_s`` (about 1690) so that it
     stays near the Jacobi constant and keeps its digits. It is NOT conserved: its rate is
     :func:`hamiltonian_rate`. With ``m_s = 0`` it is the Jacobi constant.
+
+    Parameters
+    ----------
+    bsys : BicircularSystem
+    t : float or array
+        TU.
+    states : array (6,) or (N, 6)
+
+    Returns
+    -------
+    float or ndarray (N,)
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.bicircular import bicircular_system
+    >>> m = bicircular_system("earth-moon")
+    >>> from cr3bp.bicircular import hamiltonian
+    >>> round(hamiltonian(m, 0.0, [0.8, 0, 0, 0, 0.3, 0]), 6)
+    3.119198
+
+    References
+    ----------
+    .. [1] S.-S. Huang, "Very restricted four-body problem", NASA TN D-501, 1960; C. Simo,
+       G. Gomez, A. Jorba and J. Masdemont, "The bicircular model near the triangular libration
+       points of the RTBP", 1995; K. K. Boudad, K. C. Howell and D. C. Davis, "Dynamics of
+       synodic resonant near rectilinear halo orbits in the bicircular four-body problem",
+       *Advances in Space Research* 66, 2020, section 2 (all from memory).
     """
     s = np.asarray(states, dtype=float)
     flat = np.atleast_2d(s)
@@ -307,7 +503,42 @@ def hamiltonian(bsys: BicircularSystem, t, states):
 def hamiltonian_rate(bsys: BicircularSystem, t, states):
     """dH/dt along a trajectory: ``2 dU/dt = 2 omega_s m_s (x sin theta - y cos theta)
     (1/a_s^2 - a_s/r_s^3)`` (the partial derivative of U in time; the Coriolis force does
-    no work)."""
+    no work).
+
+    Parameters
+    ----------
+    bsys : BicircularSystem
+    t : float or array
+        TU.
+    states : array (6,) or (N, 6)
+
+    Returns
+    -------
+    float or ndarray (N,)
+        Per TU.
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    On the Sun-Earth line (Sun phase 0, the state on the x axis) the rate is zero:
+
+    >>> from cr3bp.bicircular import bicircular_system
+    >>> m = bicircular_system("earth-moon")
+    >>> from cr3bp.bicircular import hamiltonian_rate
+    >>> hamiltonian_rate(m, 0.0, [0.8, 0, 0, 0, 0.3, 0]), round(hamiltonian_rate(m, 0.3, [0.8, 0, 0, 0, 0.3, 0]), 6)
+    (0.0, -0.005246)
+
+    References
+    ----------
+    .. [1] S.-S. Huang, "Very restricted four-body problem", NASA TN D-501, 1960; C. Simo,
+       G. Gomez, A. Jorba and J. Masdemont, "The bicircular model near the triangular libration
+       points of the RTBP", 1995; K. K. Boudad, K. C. Howell and D. C. Davis, "Dynamics of
+       synodic resonant near rectilinear halo orbits in the bicircular four-body problem",
+       *Advances in Space Research* 66, 2020, section 2 (all from memory).
+    """
     s = np.asarray(states, dtype=float)
     flat = np.atleast_2d(s)
     th = np.asarray(bsys.sun_angle(t), dtype=float)
@@ -330,10 +561,40 @@ def propagate(bsys: BicircularSystem, state, t_final, stm=False, rtol=1e-12, ato
     arguments, events and errors as :func:`cr3bp.integrate.propagate`. The model depends on
     time: ``t0`` is where the Sun stands at ``theta_0 + omega_s t0``.
 
+    Parameters
+    ----------
+    bsys : BicircularSystem
+    state, t_final, stm, rtol, atol, events, t_eval, t0, max_step, max_steps, first_step
+        As for :func:`cr3bp.integrate.propagate`.
+
     Returns
     -------
     Arc
         Its ``system`` is ``bsys``; ``stm`` is Phi(t_end, t0) when asked for.
+
+    Raises
+    ------
+    InputError
+        ``bsys`` is not a BicircularSystem, or a bad argument.
+    ConvergenceError
+        As for :func:`cr3bp.integrate.propagate`.
+
+    Examples
+    --------
+    >>> from cr3bp.bicircular import bicircular_system
+    >>> m = bicircular_system("earth-moon")
+    >>> from cr3bp.bicircular import propagate
+    >>> arc = propagate(m, [0.8, 0, 0, 0, 0.3, 0], 1.0)
+    >>> arc.status, arc.system.name
+    ('time', 'earth-moon bicircular')
+
+    References
+    ----------
+    .. [1] S.-S. Huang, "Very restricted four-body problem", NASA TN D-501, 1960; C. Simo,
+       G. Gomez, A. Jorba and J. Masdemont, "The bicircular model near the triangular libration
+       points of the RTBP", 1995; K. K. Boudad, K. C. Howell and D. C. Davis, "Dynamics of
+       synodic resonant near rectilinear halo orbits in the bicircular four-body problem",
+       *Advances in Space Research* 66, 2020, section 2 (all from memory).
     """
     model = _model(bsys)
     arc = _propagate(bsys.system, state, t_final, stm=stm, rtol=rtol, atol=atol, events=events,
@@ -347,7 +608,39 @@ def propagate_batch(bsys: BicircularSystem, states, t_final, rtol=1e-12, atol=1e
                     *, stm=False, t0=0.0, **options):
     """Propagate many states in the bicircular model in parallel (compiled code, no Python
     loop): :func:`cr3bp.integrate.propagate_batch` with the bicircular right-hand side. All
-    start at ``t0``. Returns its ``BatchResult``."""
+    start at ``t0``. Returns its ``BatchResult``.
+
+    Parameters
+    ----------
+    bsys : BicircularSystem
+    states, t_final, rtol, atol, events, stm, t0, **options
+        As for :func:`cr3bp.integrate.propagate_batch`.
+
+    Returns
+    -------
+    BatchResult
+
+    Raises
+    ------
+    InputError
+        ``bsys`` is not a BicircularSystem, or a bad argument.
+
+    Examples
+    --------
+    >>> from cr3bp.bicircular import bicircular_system
+    >>> m = bicircular_system("earth-moon")
+    >>> from cr3bp.bicircular import propagate_batch
+    >>> propagate_batch(m, [[0.8, 0, 0, 0, 0.3, 0]] * 2, [1.0, 2.0]).t_final.tolist()
+    [1.0, 2.0]
+
+    References
+    ----------
+    .. [1] S.-S. Huang, "Very restricted four-body problem", NASA TN D-501, 1960; C. Simo,
+       G. Gomez, A. Jorba and J. Masdemont, "The bicircular model near the triangular libration
+       points of the RTBP", 1995; K. K. Boudad, K. C. Howell and D. C. Davis, "Dynamics of
+       synodic resonant near rectilinear halo orbits in the bicircular four-body problem",
+       *Advances in Space Research* 66, 2020, section 2 (all from memory).
+    """
     return _batch(bsys.system, states, t_final, rtol, atol, events, stm=stm, t0=t0,
                   model=_model(bsys), **options)
 
@@ -412,6 +705,10 @@ def model_from_record(system, record: dict) -> BicircularSystem:
     >>> from cr3bp.bicircular import model_from_record
     >>> round(model_from_record("earth-moon", {"sun_phase_rad": 0.5}).sun_phase, 3)
     0.5
+
+    References
+    ----------
+    Common practice: a model rebuilt from its own record.
     """
     if not isinstance(record, dict) or "sun_phase_rad" not in record:
         raise InputError("a bicircular model record needs 'sun_phase_rad'")

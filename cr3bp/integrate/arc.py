@@ -9,7 +9,34 @@ import numpy as np
 
 @dataclass(frozen=True)
 class EventHit:
-    """One located event: which spec (index into the ``events`` given), its name, time and state."""
+    """One located event: which spec (index into the ``events`` given), its name, time and state.
+
+    Parameters
+    ----------
+    event : int
+        Index into the ``events`` given to the propagator.
+    name : str
+        The event's name (:attr:`cr3bp.integrate.events.Event.name`).
+    t : float
+        Time of the event, TU.
+    state : ndarray (6,)
+        State at the event, LU and LU/TU.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.integrate import plane, propagate
+    >>> arc = propagate(system("earth-moon"), [0.8, 0, 0, 0, 0.3, 0], 5.0, events=[plane("y", 0.0, -1, terminal=True)])
+    >>> hit = arc.events[0]
+    >>> hit.event, hit.name, abs(float(hit.state[1])) < 1e-12
+    (0, 'y=0', True)
+
+    References
+    ----------
+    .. [1] E. Hairer, S. P. Norsett and G. Wanner, *Solving Ordinary Differential Equations I*,
+       2nd ed., Springer, 1993, §II.6 (dense output and event location; from memory).
+    """
 
     event: int
     name: str
@@ -23,6 +50,24 @@ class EventHit:
 @dataclass(frozen=True)
 class Arc:
     """A propagated trajectory.
+
+    Parameters
+    ----------
+    system, t, states, stm, status, events, nfev, nsteps, t_end, state_end
+        The attributes below (built by the propagators, not by hand).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.integrate import propagate
+    >>> arc = propagate(system("earth-moon"), [0.8, 0, 0, 0, 0.3, 0], 1.0)
+    >>> arc.status, arc.t_final, arc.states.shape[1]
+    ('time', 1.0, 6)
+
+    References
+    ----------
+    .. [1] Common practice: a propagation result with times, states, the state transition
+       matrix, the events met and the integrator's counts.
 
     Attributes
     ----------

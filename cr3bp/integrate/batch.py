@@ -29,6 +29,10 @@ def batch_features() -> dict:
     dict
         ``{"stm": bool, "max_events": bool, "on_failure": bool}``.
 
+    Raises
+    ------
+    None
+
     References
     ----------
     .. [1] E. Hairer, S. P. Nørsett and G. Wanner, *Solving Ordinary Differential Equations I*,

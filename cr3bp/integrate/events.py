@@ -35,7 +35,36 @@ COORDS = {"x": 0, "y": 1, "z": 2, "vx": 3, "vy": 4, "vz": 5}
 
 @dataclass(frozen=True)
 class Event:
-    """One event specification. Build with :func:`plane`, :func:`impact` or :func:`escape`."""
+    """One event specification. Build with :func:`plane`, :func:`impact` or :func:`escape`.
+
+    Parameters
+    ----------
+    kind : int
+        :data:`PLANE`, :data:`IMPACT` or :data:`ESCAPE`.
+    index : int
+        Coordinate (PLANE) or body (IMPACT, ESCAPE; -1 the barycentre).
+    value : float
+        Plane value or radius, LU (LU/TU for a velocity coordinate).
+    direction : int
+        +1 increasing g only, -1 decreasing only, 0 both.
+    terminal : bool
+    count : int
+        Stop at this occurrence (terminal events).
+    label : str
+        Name of the event (default from its kind).
+
+    Examples
+    --------
+    >>> from cr3bp.integrate.events import plane
+    >>> e = plane("y", 0.0, direction=1, terminal=True)
+    >>> e.name, e.row()
+    ('y=0', [0.0, 1.0, 0.0, 1.0, 1.0, 1.0])
+
+    References
+    ----------
+    .. [1] E. Hairer, S. P. Norsett and G. Wanner, *Solving Ordinary Differential Equations I*,
+       2nd ed., Springer, 1993, §II.6 (dense output and event location; from memory).
+    """
 
     kind: int
     index: int
@@ -56,7 +85,45 @@ class Event:
 
 def plane(coordinate, value: float = 0.0, direction: int = 0, terminal: bool = False,
           count: int = 1, label: str = "") -> Event:
-    """Crossing of ``coordinate = value`` (coordinate 0..5 or a name such as ``"y"``, ``"vx"``)."""
+    """Crossing of ``coordinate = value`` (coordinate 0..5 or a name such as ``"y"``, ``"vx"``).
+
+    Parameters
+    ----------
+    coordinate : int or str
+        0..5, or "x", "y", "z", "vx", "vy", "vz".
+    value : float
+        LU (LU/TU for a velocity).
+    direction : {-1, 0, 1}
+    terminal : bool
+        Stop the propagation at the ``count``-th crossing.
+    count : int
+        At least 1.
+    label : str
+
+    Returns
+    -------
+    Event
+
+    Raises
+    ------
+    InputError
+        Unknown coordinate, direction not -1/0/+1, or a count below 1.
+
+    Examples
+    --------
+    >>> from cr3bp.integrate.events import plane
+    >>> plane("vx", 0.0, count=2, terminal=True).name
+    'vx=0'
+    >>> plane("w")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: unknown coordinate 'w'; allowed: x, y, z, vx, vy, vz
+
+    References
+    ----------
+    .. [1] E. Hairer, S. P. Norsett and G. Wanner, *Solving Ordinary Differential Equations I*,
+       2nd ed., Springer, 1993, §II.6 (dense output and event location; from memory).
+    """
     if isinstance(coordinate, str):
         if coordinate not in COORDS:
             raise InputError(f"unknown coordinate '{coordinate}'; allowed: {', '.join(COORDS)}")
@@ -71,7 +138,36 @@ def plane(coordinate, value: float = 0.0, direction: int = 0, terminal: bool = F
 
 
 def impact(primary: int, radius: float, label: str = "") -> Event:
-    """Distance to primary ``primary`` (0 = larger, 1 = smaller) falls below ``radius`` (LU)."""
+    """Distance to primary ``primary`` (0 = larger, 1 = smaller) falls below ``radius`` (LU).
+
+    Parameters
+    ----------
+    primary : {0, 1}
+    radius : float
+        Positive, LU.
+    label : str
+
+    Returns
+    -------
+    Event
+        Always terminal.
+
+    Raises
+    ------
+    InputError
+        A primary other than 0 or 1, or a radius that is not positive.
+
+    Examples
+    --------
+    >>> from cr3bp.integrate.events import impact
+    >>> e = impact(1, 0.0045)
+    >>> e.name, e.terminal, e.direction
+    ('impact-1', True, -1)
+
+    References
+    ----------
+    .. [1] Common practice: stop a propagation at the body's surface (radius in LU).
+    """
     if primary not in (0, 1):
         raise InputError(f"primary {primary} must be 0 (larger) or 1 (smaller)")
     radius = validate.positive_number("impact radius (LU)", radius)
@@ -79,7 +175,36 @@ def impact(primary: int, radius: float, label: str = "") -> Event:
 
 
 def escape(radius: float, center: int = -1, label: str = "") -> Event:
-    """Distance from ``center`` (-1 barycentre, 0/1 a primary) rises above ``radius`` (LU)."""
+    """Distance from ``center`` (-1 barycentre, 0/1 a primary) rises above ``radius`` (LU).
+
+    Parameters
+    ----------
+    radius : float
+        Positive, LU.
+    center : {-1, 0, 1}
+    label : str
+
+    Returns
+    -------
+    Event
+        Always terminal.
+
+    Raises
+    ------
+    InputError
+        An unknown centre, or a radius that is not positive.
+
+    Examples
+    --------
+    >>> from cr3bp.integrate.events import escape
+    >>> e = escape(5.0)
+    >>> e.name, e.index, e.value
+    ('escape', -1, 5.0)
+
+    References
+    ----------
+    .. [1] Common practice: stop a propagation that leaves the region of interest.
+    """
     if center not in (-1, 0, 1):
         raise InputError(f"escape centre {center} must be -1 (barycentre), 0 or 1")
     radius = validate.positive_number("escape radius (LU)", radius)
@@ -87,7 +212,34 @@ def escape(radius: float, center: int = -1, label: str = "") -> Event:
 
 
 def table(events) -> np.ndarray:
-    """The (K, 6) float table of a sequence of events (K may be 0)."""
+    """The (K, 6) float table of a sequence of events (K may be 0).
+
+    Parameters
+    ----------
+    events : sequence of Event, or None
+
+    Returns
+    -------
+    ndarray (K, 6)
+        Rows ``[kind, index, value, direction, terminal, max_count]``.
+
+    Raises
+    ------
+    InputError
+        An item that is not an :class:`Event`.
+
+    Examples
+    --------
+    >>> from cr3bp.integrate.events import escape, plane, table
+    >>> table([plane("y"), escape(5.0)]).tolist()
+    [[0.0, 1.0, 0.0, 0.0, 0.0, 1.0], [2.0, -1.0, 5.0, 1.0, 1.0, 1.0]]
+    >>> table(None).shape
+    (0, 6)
+
+    References
+    ----------
+    .. [1] Common practice: events passed to compiled code as a plain numeric table.
+    """
     events = tuple(events or ())
     for e in events:
         if not isinstance(e, Event):

@@ -40,13 +40,54 @@ _PACKAGE = Path(__file__).resolve().parent.parent
 
 
 class BuildError(RuntimeError):
-    """The prebuilt module could not be built (no numba.pycc, no C compiler, ...)."""
+    """The prebuilt module could not be built (no numba.pycc, no C compiler, ...).
+
+    Examples
+    --------
+    >>> from cr3bp.integrate.prebuilt import BuildError
+    >>> str(BuildError("/tmp/x is not writable"))
+    '/tmp/x is not writable'
+
+    References
+    ----------
+    .. [1] Python documentation, "Built-in Exceptions" (:class:`RuntimeError`).
+    """
 
 
 def build(directory: Path | None = None, progress=None) -> Path:
     """Compile the kernels of :data:`SIGNATURES` into ``directory`` (default
     :data:`DIRECTORY`) and remove the modules of other keys there. Returns the file.
-    Raises BuildError."""
+    Raises BuildError.
+
+    Parameters
+    ----------
+    directory : Path, optional
+        Where the module goes (default :data:`DIRECTORY`).
+    progress : callable(str), optional
+        Receives one line before the (minute-long) compilation.
+
+    Returns
+    -------
+    Path
+        The module written.
+
+    Raises
+    ------
+    BuildError
+        The directory cannot be written, numba has no ``numba.pycc``, or compiling failed.
+
+    Examples
+    --------
+    Compiling takes about a minute and writes the module, so the example is not run:
+
+    >>> from cr3bp.integrate.prebuilt import build
+    >>> build().name.startswith("_kernels_")   # doctest: +SKIP
+    True
+
+    References
+    ----------
+    .. [1] numba documentation, "Compiling code ahead of time" (``numba.pycc``).
+    """
     d = DIRECTORY if directory is None else Path(directory)
     try:
         d.mkdir(parents=True, exist_ok=True)
@@ -104,7 +145,38 @@ def clear_jit_cache(package: Path | None = None) -> int:
     so after an edit to, say, ``dynamics/kernels.py`` it would still load ``dop853.py``'s kernels
     (or ``fidelity/segments.py``'s, which are not among :data:`SOURCES`) with the old right-hand
     side inlined, or with a reference to a module that has since moved. ``build`` from the
-    command line calls this whenever it replaces a module of another key."""
+    command line calls this whenever it replaces a module of another key.
+
+    Parameters
+    ----------
+    package : Path, optional
+        The tree searched (default: the installed ``cr3bp`` package).
+
+    Returns
+    -------
+    int
+        Files removed.
+
+    Raises
+    ------
+    OSError
+        A cache file that exists but cannot be removed.
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> from pathlib import Path
+    >>> from cr3bp.integrate.prebuilt import clear_jit_cache
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     cache = Path(d, "__pycache__"); cache.mkdir()
+    ...     _ = Path(cache, "kernels.eom-1.py311.nbi").write_text("")
+    ...     clear_jit_cache(Path(d)), list(cache.iterdir())
+    (1, [])
+
+    References
+    ----------
+    .. [1] numba documentation, "Notes on caching" (the ``.nbi`` index and ``.nbc`` data files).
+    """
     root = _PACKAGE if package is None else Path(package)
     n = 0
     for f in root.rglob("__pycache__/*.nb[ic]"):
@@ -114,7 +186,36 @@ def clear_jit_cache(package: Path | None = None) -> int:
 
 
 def main(argv=None) -> int:
-    """``python -m cr3bp.integrate [build [--if-stale] | status]``."""
+    """``python -m cr3bp.integrate [build [--if-stale] | status]``.
+
+    Parameters
+    ----------
+    argv : list of str, optional
+        Default ``sys.argv[1:]``.
+
+    Returns
+    -------
+    int
+        Exit status: 0 done, 1 the build failed (the just-in-time kernels are used), 2 a bad
+        command line.
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.integrate.prebuilt import main
+    >>> main(["status"])
+    prebuilt kernels: ...
+    0
+    >>> main(["frobnicate"])
+    2
+
+    References
+    ----------
+    .. [1] Common practice: a ``python -m`` entry point returning its exit status.
+    """
     args = list(sys.argv[1:] if argv is None else argv)
     cmd = args.pop(0) if args else "status"
     if cmd == "status" and not args:

@@ -51,6 +51,23 @@ class BatchResult:
     stm : ndarray (N, 6, 6) or None   final state transition matrices when asked for
     events_seen : ndarray (N,)    events that occurred (may exceed ``max_events``)
     nfev, nsteps : ndarray (N,)   right-hand-side evaluations and accepted steps
+
+    Parameters
+    ----------
+    t_final, states, status, event_t, event_states, event_index, stm, events_seen, nfev, nsteps
+        The attributes above (built by :func:`propagate_batch`, not by hand).
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.integrate import propagate_batch
+    >>> res = propagate_batch(system("earth-moon"), [[0.8, 0, 0, 0, 0.3, 0], [0.82, 0, 0, 0, 0.3, 0]], 1.0)
+    >>> len(res), res.status.tolist(), res.states.shape
+    (2, ['time', 'time'], (2, 6))
+
+    References
+    ----------
+    .. [1] Common practice: the final states and events of many trajectories as arrays.
     """
 
     t_final: np.ndarray
@@ -82,7 +99,29 @@ class BatchResult:
 
 def integrator():
     """The integration kernel :func:`propagate` calls: the prebuilt one when it is current,
-    else :func:`cr3bp.integrate.dop853.integrate` (same source, same arguments and results)."""
+    else :func:`cr3bp.integrate.dop853.integrate` (same source, same arguments and results).
+
+    Returns
+    -------
+    callable
+        The kernel.
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.integrate.propagate import integrator
+    >>> integrator().__name__
+    'integrate'
+
+    References
+    ----------
+    .. [1] E. Hairer, S. P. Norsett and G. Wanner, *Solving Ordinary Differential Equations I*,
+       2nd ed., Springer, 1993, §II.5 (the Dormand-Prince 8(5,3) method, code dop853) and §II.6
+       (dense output; from memory).
+    """
     k = compiled.kernels()
     if k is not None:
         return k.integrate
@@ -206,6 +245,27 @@ def propagate(system, state, t_final, stm=False, rtol=1e-12, atol=1e-12, events=
     ConvergenceError
         The step limit was hit, the step size fell below round-off (e.g. a collision with a
         point-mass primary) or the solution became non-finite.
+
+    Examples
+    --------
+    Half a period of a planar Lyapunov orbit about L1 ends on the x axis again:
+
+    >>> import numpy as np
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> from cr3bp.integrate import propagate
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 1e-3)
+    >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry)
+    >>> arc = propagate(em, orbit.state, orbit.period / 2, stm=True)
+    >>> arc.status, bool(abs(arc.final_state[1]) < 1e-9), arc.stm.shape
+    ('time', True, (6, 6))
+
+    References
+    ----------
+    .. [1] E. Hairer, S. P. Norsett and G. Wanner, *Solving Ordinary Differential Equations I*,
+       2nd ed., Springer, 1993, §II.5 (the Dormand-Prince 8(5,3) method, code dop853) and §II.6
+       (dense output; from memory).
     """
     s0 = validate.state(system, state)
     rtol = validate.tolerance("rtol", rtol)
@@ -300,6 +360,29 @@ def propagate_batch(system, states, t_final, rtol=1e-12, atol=1e-12, events=(), 
     Returns
     -------
     BatchResult
+
+    Raises
+    ------
+    InputError
+        Bad states, tolerances, times, events or options.
+    ConvergenceError
+        A trajectory failed and ``on_failure`` is "raise".
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.integrate import plane, propagate_batch
+    >>> em = system("earth-moon")
+    >>> res = propagate_batch(em, [[0.8, 0, 0, 0, 0.3, 0]] * 3, [1.0, 2.0, 3.0])
+    >>> res.t_final.tolist()
+    [1.0, 2.0, 3.0]
+
+    References
+    ----------
+    .. [1] E. Hairer, S. P. Norsett and G. Wanner, *Solving Ordinary Differential Equations I*,
+       2nd ed., Springer, 1993, §II.5 (the Dormand-Prince 8(5,3) method, code dop853) and §II.6
+       (dense output; from memory).
+    .. [2] numba documentation, "Automatic parallelization with @jit" (``prange``).
     """
     s = validate.states(system, states)
     n = s.shape[0]

@@ -13,7 +13,44 @@ from .events import ESCAPE, IMPACT, PLANE, table
 
 
 def eom_numpy(t, s, mu):
-    """CR3BP equations of motion (optionally with the STM), plain numpy."""
+    """CR3BP equations of motion (optionally with the STM), plain numpy.
+
+    Parameters
+    ----------
+    t : float
+        Time, TU (the equations are autonomous).
+    s : ndarray (6,) or (42,)
+        State, or state followed by the row-major 6x6 state transition matrix.
+    mu : float
+        Mass ratio.
+
+    Returns
+    -------
+    ndarray
+        The derivative, same shape as ``s``.
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    At rest at the first Lagrange point of the Earth-Moon system nothing moves:
+
+    >>> import numpy as np
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.equilibria import lagrange_point
+    >>> from cr3bp.integrate.reference import eom_numpy
+    >>> em = system("earth-moon")
+    >>> s = np.r_[lagrange_point(em, "L1").position, 0.0, 0.0, 0.0]
+    >>> bool(np.abs(eom_numpy(0.0, s, em.mu)).max() < 1e-12)
+    True
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits*, Academic Press, 1967, §1.5 (the equations of motion
+       in the rotating frame; from memory).
+    """
     x, y, z, vx, vy, vz = s[:6]
     dx1, dx2 = x + mu, x - 1 + mu
     r1 = np.sqrt(dx1 * dx1 + y * y + z * z)
@@ -63,7 +100,51 @@ def _event_functions(system, tab):
 
 def propagate_scipy(system, state, t_final, stm=False, rtol=1e-12, atol=1e-12, events=(),
                     t_eval=None, method="DOP853"):
-    """Propagate with ``scipy.integrate.solve_ivp``; same arguments and result as ``propagate``."""
+    """Propagate with ``scipy.integrate.solve_ivp``; same arguments and result as ``propagate``.
+
+    Parameters
+    ----------
+    system : System
+    state : array (6,)
+        LU and LU/TU.
+    t_final : float
+        TU (negative for backward).
+    stm : bool
+        Also integrate the state transition matrix.
+    rtol, atol : float
+    events : sequence of Event
+    t_eval : array, optional
+        Output times.
+    method : str
+        A ``solve_ivp`` method (default DOP853).
+
+    Returns
+    -------
+    Arc
+
+    Raises
+    ------
+    InputError
+        A bad state or tolerance, or an item of ``events`` that is not an Event.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.integrate import propagate
+    >>> from cr3bp.integrate.reference import propagate_scipy
+    >>> em = system("earth-moon")
+    >>> a = propagate_scipy(em, [0.8, 0, 0, 0, 0.3, 0], 1.0)
+    >>> b = propagate(em, [0.8, 0, 0, 0, 0.3, 0], 1.0)
+    >>> a.status, bool(np.abs(a.final_state - b.final_state).max() < 1e-9)
+    ('time', True)
+
+    References
+    ----------
+    .. [1] scipy documentation, :func:`scipy.integrate.solve_ivp`.
+    .. [2] E. Hairer, S. P. Norsett and G. Wanner, *Solving Ordinary Differential Equations I*,
+       2nd ed., Springer, 1993, §II.5 (DOP853; from memory).
+    """
     from scipy.integrate import solve_ivp  # lazy: heavy library (scipy); imported here: scipy is only the baseline
     s0 = validate.state(system, state)
     rtol = validate.tolerance("rtol", rtol)

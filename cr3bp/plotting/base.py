@@ -30,7 +30,38 @@ OUTSIDE_GID = "outside-data"
 
 
 def new_figure(ncols=1, nrows=1, size=(7.0, 6.0), **kw):
-    """A figure and its axes, sized for a caption line at the bottom."""
+    """A figure and its axes, sized for a caption line at the bottom.
+
+    Parameters
+    ----------
+    ncols, nrows : int
+        Grid of axes (default one).
+    size : (float, float)
+        Figure size in inches.
+    **kw
+        Passed to :func:`matplotlib.pyplot.subplots`.
+
+    Returns
+    -------
+    fig : matplotlib Figure
+    axes : matplotlib Axes, or a 2-D array of them when the grid has more than one
+
+    Raises
+    ------
+    ValueError
+        From matplotlib, for a grid size below one.
+
+    Examples
+    --------
+    >>> from cr3bp.plotting.base import new_figure
+    >>> fig, axes = new_figure(2, 1)
+    >>> axes.shape, fig.get_size_inches().tolist()
+    ((1, 2), [7.0, 6.0])
+
+    References
+    ----------
+    .. [1] matplotlib documentation, :func:`matplotlib.pyplot.subplots`.
+    """
     fig, axes = plt.subplots(nrows, ncols, figsize=size, squeeze=False, **kw)
     return fig, (axes[0, 0] if axes.size == 1 else axes)
 
@@ -40,7 +71,45 @@ def draw_primaries(ax, system, view="xy", labels=True, min_radius=0.004, front=1
     In the y-z view (seen along x) both primaries project onto the origin: only the one in
     front is drawn (``front``: 1 the smaller primary, the default; 0 the larger;
     :func:`draw_smaller_primary`). With ``box`` (umin, umax, vmin, vmax) a primary wholly
-    outside it is left out (and out of the legend)."""
+    outside it is left out (and out of the legend).
+
+    Parameters
+    ----------
+    ax : matplotlib Axes
+    system : System
+        Its ``positions`` (LU), ``radii`` (LU) and ``names`` are drawn.
+    view : {"xy", "xz", "yz"}
+    labels : bool
+        Name each primary beside it.
+    min_radius : float
+        Smallest drawn radius, LU.
+    front : {0, 1}
+        The primary drawn in the y-z view.
+    box : (umin, umax, vmin, vmax), optional
+        Frame of the figure, LU.
+
+    Returns
+    -------
+    ax : matplotlib Axes
+
+    Raises
+    ------
+    KeyError
+        An unknown ``view``.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.plotting.base import new_figure, draw_primaries
+    >>> fig, ax = new_figure()
+    >>> ax = draw_primaries(ax, system("earth-moon"))
+    >>> sorted(p.get_gid() for p in ax.patches)
+    ['primary-1', 'primary-2']
+
+    References
+    ----------
+    .. [1] matplotlib documentation, :class:`matplotlib.patches.Circle`.
+    """
     if view == "yz":
         return draw_smaller_primary(ax, system, min_radius=min_radius, labels=labels, k=front)
     i, j = VIEWS[view]
@@ -63,7 +132,40 @@ def draw_primaries(ax, system, view="xy", labels=True, min_radius=0.004, front=1
 
 def draw_smaller_primary(ax, system, min_radius=0.0, labels=True, k=1):
     """The smaller primary (``k`` = 1; the larger with ``k`` = 0) in the y-z view, where it
-    sits at (0, 0) in front of the other (to scale when its radius exceeds ``min_radius`` LU)."""
+    sits at (0, 0) in front of the other (to scale when its radius exceeds ``min_radius`` LU).
+
+    Parameters
+    ----------
+    ax : matplotlib Axes
+    system : System
+    min_radius : float
+        Smallest drawn radius, LU.
+    labels : bool
+        Name it (and the primary behind it).
+    k : {0, 1}
+        Which primary is in front.
+
+    Returns
+    -------
+    ax : matplotlib Axes
+
+    Raises
+    ------
+    IndexError
+        ``k`` not 0 or 1.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.plotting.base import new_figure, draw_smaller_primary
+    >>> fig, ax = new_figure()
+    >>> [p.get_gid() for p in draw_smaller_primary(ax, system("earth-moon")).patches]
+    ['primary-2']
+
+    References
+    ----------
+    .. [1] matplotlib documentation, :class:`matplotlib.patches.Circle`.
+    """
     r = system.radii[k]
     name = system.names[k]
     ax.add_patch(Circle((0.0, 0.0), max(r, min_radius), color=PRIMARY_COLOURS[k], zorder=5,
@@ -87,6 +189,34 @@ def draw_lagrange_points(ax, system, view="xy", points=None, labels=True, includ
         Draw L4/L5 in views that do not contain them (projected); default only for "xy".
     box : (umin, umax, vmin, vmax), optional
         Only the points inside this frame. Points that project onto one spot share a label.
+    ax : matplotlib Axes
+    system : System
+    view : {"xy", "xz", "yz"}
+    labels : bool
+        Name the points.
+
+    Returns
+    -------
+    ax : matplotlib Axes
+
+    Raises
+    ------
+    KeyError
+        An unknown ``view``.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.plotting.base import new_figure, draw_lagrange_points
+    >>> fig, ax = new_figure()
+    >>> line = draw_lagrange_points(ax, system("earth-moon")).lines[0]
+    >>> line.get_gid(), len(line.get_xdata())
+    ('lagrange-points', 5)
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits: The Restricted Problem of Three Bodies*, Academic
+       Press, 1967, ch. 4 (the five equilibrium points).
     """
     pts = points if points is not None else lagrange_points(system)
     i, j = VIEWS[view]
@@ -124,7 +254,33 @@ class _ScaledLocator(MaxNLocator):
 
 
 def km_scale(system):
-    """(km per axis unit, unit text): 10³ km below 10⁷ km per LU, else 10⁶ km."""
+    """(km per axis unit, unit text): 10³ km below 10⁷ km per LU, else 10⁶ km.
+
+    Parameters
+    ----------
+    system : System
+        Its ``length_km`` (km per LU) picks the unit.
+
+    Returns
+    -------
+    (float, str)
+
+    Raises
+    ------
+    AttributeError
+        A system without a length unit.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.plotting.base import km_scale
+    >>> km_scale(system("earth-moon")), km_scale(system("sun-earth"))
+    ((1000.0, '10³ km'), (1000000.0, '10⁶ km'))
+
+    References
+    ----------
+    .. [1] Common practice: axis ticks at round multiples of a decimal unit.
+    """
     return (1.0e3, "10³ km") if system.length_km < 1.0e7 else (1.0e6, "10⁶ km")
 
 
@@ -136,7 +292,39 @@ def _tick_text(v):
 def axis_labels(ax, system, view="xy", unit=None, secondary=True):
     """Axis labels of a rotating-frame view. Dimensional systems read in km (ticks at round
     10³ or 10⁶ km; the data stay in LU) with LU on a secondary x axis on top; nondimensional
-    systems in LU."""
+    systems in LU.
+
+    Parameters
+    ----------
+    ax : matplotlib Axes
+    system : System
+    view : {"xy", "xz", "yz"}
+    unit : {None, "LU"}
+        ``"LU"`` forces nondimensional labels.
+    secondary : bool
+        Add the LU axis on top (dimensional systems).
+
+    Returns
+    -------
+    ax : matplotlib Axes
+
+    Raises
+    ------
+    KeyError
+        An unknown ``view``.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.plotting.base import new_figure, axis_labels
+    >>> fig, ax = new_figure()
+    >>> axis_labels(ax, system("earth-moon")).get_xlabel()
+    'x [10³ km] (rotating frame, barycentric)'
+
+    References
+    ----------
+    .. [1] matplotlib documentation, "Secondary Axis" example.
+    """
     i, j = VIEWS[view]
     names = "xyz"
     if unit == "LU" or not getattr(system, "dimensional", False):
@@ -155,7 +343,39 @@ def scaled_axis(axis, factor, label, secondary_label=None):
     """Show a nondimensional data axis in a physical unit: ticks at round multiples of the unit
     (``factor`` units per data unit) labelled ``label``; with ``secondary_label`` an x axis also
     gets the data unit on top (:meth:`~matplotlib.axes.Axes.secondary_xaxis`, identity
-    functions since the data are nondimensional)."""
+    functions since the data are nondimensional).
+
+    Parameters
+    ----------
+    axis : matplotlib XAxis or YAxis
+    factor : float
+        Physical units per data unit.
+    label : str
+    secondary_label : str, optional
+
+    Returns
+    -------
+    axis : the same axis
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.plotting.base import new_figure, scaled_axis
+    >>> fig, ax = new_figure()
+    >>> ax.set_xlim(0.0, 1.0)
+    (0.0, 1.0)
+    >>> axis = scaled_axis(ax.xaxis, 384.4, "x [10³ km]")
+    >>> axis.get_major_formatter()(0.5, 0), axis.get_label_text()
+    ('192.2', 'x [10³ km]')
+
+    References
+    ----------
+    .. [1] matplotlib documentation, :class:`matplotlib.ticker.MaxNLocator` and
+       :meth:`matplotlib.axes.Axes.secondary_xaxis`.
+    """
     ax = axis.axes
     axis.set_major_locator(_ScaledLocator(factor, nbins=6, steps=[1, 2, 2.5, 5, 10]))
     axis.set_major_formatter(FuncFormatter(lambda u, _, f=factor: _tick_text(u * f)))
@@ -170,7 +390,34 @@ def scaled_axis(axis, factor, label, secondary_label=None):
 
 
 def title(ax, text, **kw):
-    """Axes title clear of a secondary axis on top."""
+    """Axes title clear of a secondary axis on top.
+
+    Parameters
+    ----------
+    ax : matplotlib Axes
+    text : str
+    **kw
+        Passed to :meth:`matplotlib.axes.Axes.set_title` (font size 9 unless given).
+
+    Returns
+    -------
+    matplotlib Text
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.plotting.base import new_figure, title
+    >>> fig, ax = new_figure()
+    >>> title(ax, "x-y view").get_text()
+    'x-y view'
+
+    References
+    ----------
+    .. [1] matplotlib documentation, :meth:`matplotlib.axes.Axes.set_title`.
+    """
     pad = 30 if getattr(ax, "_librate_top_axis", False) else 6
     kw.setdefault("fontsize", 9)
     return ax.set_title(text, pad=pad, **kw)
@@ -180,7 +427,40 @@ def title(ax, text, **kw):
 
 def legend_beside(ax, handles=None, where="right", **kw):
     """A legend outside the data area: ``right`` of ``ax`` or ``above`` it. The figure's right
-    margin is fitted to it when the figure is captioned (:func:`caption`)."""
+    margin is fitted to it when the figure is captioned (:func:`caption`).
+
+    Parameters
+    ----------
+    ax : matplotlib Axes
+    handles : list of artists, optional
+        Default: the labelled artists of ``ax``.
+    where : {"right", "above"}
+    **kw
+        Passed to :meth:`matplotlib.axes.Axes.legend`.
+
+    Returns
+    -------
+    matplotlib Legend
+
+    Raises
+    ------
+    ValueError
+        ``where`` not "right" or "above".
+
+    Examples
+    --------
+    >>> from cr3bp.plotting.base import new_figure, legend_beside
+    >>> fig, ax = new_figure()
+    >>> _ = ax.plot([0, 1], [0, 1], label="orbit")
+    >>> leg = legend_beside(ax)
+    >>> leg.get_gid(), [t.get_text() for t in leg.get_texts()]
+    ('outside-data', ['orbit'])
+
+    References
+    ----------
+    .. [1] matplotlib documentation, "Legend guide" (placing a legend outside the axes with
+       ``bbox_to_anchor``).
+    """
     kw.setdefault("fontsize", 7)
     kw.setdefault("framealpha", 0.9)
     if where == "right":
@@ -196,7 +476,37 @@ def legend_beside(ax, handles=None, where="right", **kw):
 
 def colorbar_beside(ax, mappable, label, size="4%", pad=0.12):
     """A colour bar in its own axes to the right of ``ax`` (it follows the axes when the
-    layout changes, so it never covers data)."""
+    layout changes, so it never covers data).
+
+    Parameters
+    ----------
+    ax : matplotlib Axes
+    mappable : matplotlib ScalarMappable
+        What the bar describes (a scatter or image).
+    label : str
+    size, pad : str or float
+        Width of the bar and gap, as :meth:`~mpl_toolkits.axes_grid1.axes_divider.AxesDivider.append_axes` takes them.
+
+    Returns
+    -------
+    matplotlib Colorbar
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.plotting.base import new_figure, colorbar_beside
+    >>> fig, ax = new_figure()
+    >>> cb = colorbar_beside(ax, ax.scatter([0, 1], [0, 1], c=[0.0, 1.0]), "Jacobi constant")
+    >>> cb.ax.get_gid(), cb.ax.get_ylabel()
+    ('outside-data', 'Jacobi constant')
+
+    References
+    ----------
+    .. [1] matplotlib documentation, "Colorbar with AxesDivider" example.
+    """
     cax = make_axes_locatable(ax).append_axes("right", size=size, pad=pad)
     cax.set_gid(OUTSIDE_GID)
     cb = ax.figure.colorbar(mappable, cax=cax, label=label)
@@ -227,7 +537,37 @@ def _fit_margins(fig):
 
 
 def caption(fig, text="", model="cr3bp"):
-    """Bottom caption: the given text, then the caution for ``model`` (always, once per figure)."""
+    """Bottom caption: the given text, then the caution for ``model`` (always, once per figure).
+
+    Parameters
+    ----------
+    fig : matplotlib Figure
+    text : str
+        Lines before the caution.
+    model : str
+        The model whose caution is added (:func:`cr3bp.cautions.caution_short`).
+
+    Returns
+    -------
+    fig : matplotlib Figure
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.cautions import caution_short
+    >>> from cr3bp.plotting.base import new_figure, caption
+    >>> fig, ax = new_figure()
+    >>> text = caption(fig, "L1 Lyapunov orbit").texts[0].get_text()
+    >>> text.startswith("L1 Lyapunov orbit"), text.endswith(caution_short("cr3bp"))
+    (True, True)
+
+    References
+    ----------
+    .. [1] Common practice: a figure caption stating the model its numbers belong to.
+    """
     body = (text + "\n" if text else "") + caution_short(model)
     fig.text(0.5, 0.005, body, ha="center", va="bottom", fontsize=6.5, wrap=True, color="0.25",
              gid="caption")
@@ -238,7 +578,39 @@ def caption(fig, text="", model="cr3bp"):
 
 def save(fig, path, text="", dpi=150, model="cr3bp"):
     """Caption ``fig`` with ``text`` and the caution for ``model``, save it atomically to
-    ``path``, close it."""
+    ``path``, close it.
+
+    Parameters
+    ----------
+    fig : matplotlib Figure
+    path : str or path-like
+        File written (format from the suffix).
+    text : str
+        Caption lines before the caution.
+    dpi : int
+    model : str
+        The model whose caution is added.
+
+    Returns
+    -------
+    path : the given ``path``
+
+    Raises
+    ------
+    OSError
+        The file cannot be written (nothing is left under ``path``).
+
+    Examples
+    --------
+    >>> from cr3bp.plotting.base import new_figure, save
+    >>> fig, ax = new_figure()
+    >>> save(fig, "out/figure.png", text="demo")  # doctest: +SKIP
+    'out/figure.png'
+
+    References
+    ----------
+    .. [1] matplotlib documentation, :meth:`matplotlib.figure.Figure.savefig`.
+    """
     caption(fig, text, model)
     save_figure(fig, path, dpi=dpi)
     plt.close(fig)

@@ -17,7 +17,38 @@ ZOOM_MARGIN = 0.25
 
 def zoom_box(orbit_states, view, margin=ZOOM_MARGIN):
     """(umin, umax, vmin, vmax) of the target orbit in ``view`` ("xy" or "xz"), widened by
-    ``margin`` of the orbit's largest extent (both axes get the same span: equal aspect)."""
+    ``margin`` of the orbit's largest extent (both axes get the same span: equal aspect).
+
+    Parameters
+    ----------
+    orbit_states : (n, 6) array
+        States along the orbit, LU and LU/TU.
+    view : {"xy", "xz"}
+    margin : float
+        Fraction of the largest extent added on each side.
+
+    Returns
+    -------
+    (float, float, float, float)
+        (umin, umax, vmin, vmax), LU.
+
+    Raises
+    ------
+    KeyError
+        ``view`` not "xy" or "xz".
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.plotting.departures import zoom_box
+    >>> states = np.zeros((3, 6)); states[:, 0] = [1.0, 1.2, 1.1]
+    >>> [round(float(v), 3) for v in zoom_box(states, "xy", margin=0.5)]
+    [0.9, 1.3, -0.2, 0.2]
+
+    References
+    ----------
+    .. [1] Common practice: a zoomed panel framed on the object with a margin, at equal aspect.
+    """
     i, j = {"xy": (0, 1), "xz": (0, 2)}[view]
     u, v = orbit_states[:, i], orbit_states[:, j]
     span = max(float(np.ptp(u)), float(np.ptp(v)), 1e-6) * (1.0 + 2.0 * margin)
@@ -27,7 +58,40 @@ def zoom_box(orbit_states, view, margin=ZOOM_MARGIN):
 
 def plot_departure(dep, n_per_segment=800):
     """Four panels of ``dep``: x-y and x-z of the whole transfer (top), and the same views
-    zoomed on the target orbit (bottom); returns the figure."""
+    zoomed on the target orbit (bottom); returns the figure.
+
+    Parameters
+    ----------
+    dep : Departure
+        From :func:`cr3bp.transfers.departure.design_departure`.
+    n_per_segment : int
+        Samples per transfer segment.
+
+    Returns
+    -------
+    matplotlib Figure
+        Not captioned: the caller captions and saves it (:func:`cr3bp.plotting.base.save`).
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    A departure takes tens of seconds to design, so the example is not run:
+
+    >>> from cr3bp import orbit
+    >>> from cr3bp.transfers.departure import design_departure
+    >>> from cr3bp.plotting.departures import plot_departure
+    >>> dep = design_departure(orbit("earth-moon", "halo L2 south period=6.5626d"), 200.0)  # doctest: +SKIP
+    >>> len(plot_departure(dep).axes)  # doctest: +SKIP
+    4
+
+    References
+    ----------
+    .. [1] matplotlib documentation, :func:`matplotlib.pyplot.subplots` and
+       :meth:`matplotlib.axes.Axes.set_aspect`.
+    """
     system = dep.system
     _, states = dep.trajectory(n_per_segment)
     T = float(dep.orbit.period)

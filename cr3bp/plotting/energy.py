@@ -25,10 +25,31 @@ def plot_hill_region(region, ax=None, km=True, points=None, title=True):
         Axes in km with LU on a secondary axis (dimensional systems; the default), else LU.
     points : list of LagrangePoint, optional
         Precomputed points.
+    title : bool
+        Title the axes with :func:`hill_title`.
 
     Returns
     -------
     ax : matplotlib Axes
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.energy import hill_region
+    >>> from cr3bp.plotting.energy import plot_hill_region
+    >>> ax = plot_hill_region(hill_region(system("earth-moon"), 3.0, resolution=101))
+    >>> ax.get_title()
+    'earth-moon: Hill region, C = 3.000000 (z = 0); necks open: L1, L2, L3'
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits*, Academic Press, 1967, §4.3 (zero-velocity curves;
+       from memory).
+    .. [2] matplotlib documentation, :meth:`matplotlib.axes.Axes.contourf`.
     """
     if ax is None:
         _, ax = new_figure(size=(9.5, 6.5))
@@ -63,11 +84,64 @@ ZOOM_MU = 1.0e-4
 
 def default_view(system, point=None) -> str:
     """The extent of a Hill-region figure: ``"secondary"`` (the smaller primary with L1 and L2)
-    for a small mass ratio or an orbit about L1/L2 (``point``), else ``"system"``."""
+    for a small mass ratio or an orbit about L1/L2 (``point``), else ``"system"``.
+
+    Parameters
+    ----------
+    system : System
+    point : str, optional
+        The Lagrange point of the orbit drawn ("L1" .. "L5").
+
+    Returns
+    -------
+    str
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.plotting.energy import default_view
+    >>> default_view(system("earth-moon")), default_view(system("sun-earth")), default_view(system("earth-moon"), "L2")
+    ('system', 'secondary', 'secondary')
+
+    References
+    ----------
+    .. [1] Common practice: zoom on the smaller primary when the necks would be too small to see.
+    """
     return "secondary" if system.mu < ZOOM_MU or point in ("L1", "L2") else "system"
 
 
 def hill_title(region) -> str:
+    """Title of a Hill-region figure: system, C, plane and which necks are open.
+
+    Parameters
+    ----------
+    region : HillRegion
+
+    Returns
+    -------
+    str
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.energy import hill_region
+    >>> from cr3bp.plotting.energy import hill_title
+    >>> hill_title(hill_region(system("earth-moon"), 3.5, resolution=51))
+    'earth-moon: Hill region, C = 3.500000 (z = 0); all necks closed'
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, ch. 2 (necks of the Hill region).
+    """
     opened = [n for n, v in region.necks.items() if v]
     necks = ("necks open: " + ", ".join(opened)) if opened else "all necks closed"
     plane = "z = 0" if region.plane == "xy" else "y = 0"

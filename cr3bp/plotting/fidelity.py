@@ -11,7 +11,45 @@ from ..time import ephemeris, frames
 
 
 def rotating_states(transition, states_km, t_tu):
-    """km, km/s about the central body -> nondimensional rotating states (ephemeris anchoring)."""
+    """km, km/s about the central body -> nondimensional rotating states (ephemeris anchoring).
+
+    Parameters
+    ----------
+    transition : Transition
+        From :func:`cr3bp.fidelity.transition.transition` (its model and epoch are used).
+    states_km : (n, 6) array
+        Positions (km) and velocities (km/s) about the model's central body, J2000 equator axes.
+    t_tu : (n,) array
+        Times from the epoch, TU.
+
+    Returns
+    -------
+    (n, 6) array
+        Rotating, pulsating states, LU and LU/TU.
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    Building a transition takes tens of seconds, so the example is not run:
+
+    >>> from cr3bp import orbit, system
+    >>> from cr3bp.fidelity.transition import transition
+    >>> from cr3bp.plotting.fidelity import rotating_states
+    >>> nrho = orbit(system("earth-moon"), "halo L2 south resonance=9:2")      # doctest: +SKIP
+    >>> tr = transition(nrho, "2031-03-01T00:00:00 TDB", revs=3)               # doctest: +SKIP
+    >>> rotating_states(tr, tr.sample_km, tr.sample_t_tu).shape[1]              # doctest: +SKIP
+    6
+
+    References
+    ----------
+    .. [1] D. J. Scheeres, "The restricted Hill four-body problem with applications to the
+       Earth-Moon-Sun system", *Celestial Mechanics and Dynamical Astronomy* 70, 1998 (the
+       instantaneous rotating, pulsating frame; from memory). Common practice in ephemeris
+       transitions.
+    """
     mdl = transition.model
     s = mdl.system
     spec = frames.frame(s, transition.epoch_tdb_s, anchor="ephemeris", axes="j2000-equator",
@@ -25,7 +63,40 @@ def rotating_states(transition, states_km, t_tu):
 
 
 def transition_figure(transition, title=""):
-    """Figure with two panels: rotating x-z (LU) and inertial x-y (km). Returns the Figure."""
+    """Figure with two panels: rotating x-z (LU) and inertial x-y (km). Returns the Figure.
+
+    Parameters
+    ----------
+    transition : Transition
+        From :func:`cr3bp.fidelity.transition.transition`.
+    title : str
+        Figure title.
+
+    Returns
+    -------
+    matplotlib Figure
+        Not captioned: the caller captions it with the ephemeris model's caution.
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    Building a transition takes tens of seconds, so the example is not run:
+
+    >>> from cr3bp import orbit, system
+    >>> from cr3bp.fidelity.transition import transition
+    >>> from cr3bp.plotting.fidelity import transition_figure
+    >>> nrho = orbit(system("earth-moon"), "halo L2 south resonance=9:2")      # doctest: +SKIP
+    >>> tr = transition(nrho, "2031-03-01T00:00:00 TDB", revs=3)               # doctest: +SKIP
+    >>> [ax.get_title() for ax in transition_figure(tr).axes[:2]]              # doctest: +SKIP
+    ['rotating frame (ephemeris anchoring)', 'inertial axes']
+
+    References
+    ----------
+    .. [1] matplotlib documentation, :func:`matplotlib.pyplot.subplots`.
+    """
     fig, axes = new_figure(ncols=2, size=(12.0, 5.8))
     ax1, ax2 = np.ravel(axes)
     s = transition.model.system

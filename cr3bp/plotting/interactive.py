@@ -23,7 +23,28 @@ _COLOURS = ("#d95f02", "#1b9e77", "#7570b3", "#e7298a", "#66a61e", "#e6ab02", "#
 
 
 def require_plotly():
-    """The plotly.graph_objects module, or a one-line ImportError naming the extra to install."""
+    """The plotly.graph_objects module, or a one-line ImportError naming the extra to install.
+
+    Returns
+    -------
+    module
+        :mod:`plotly.graph_objects`.
+
+    Raises
+    ------
+    ImportError
+        plotly is not installed.
+
+    Examples
+    --------
+    >>> from cr3bp.plotting.interactive import require_plotly
+    >>> require_plotly().__name__
+    'plotly.graph_objects'
+
+    References
+    ----------
+    .. [1] plotly documentation, "Graph Objects in Python".
+    """
     try:
         import plotly.graph_objects as go  # lazy: heavy library (plotly); a missing install is reported here
     except ImportError:
@@ -38,7 +59,36 @@ def _scale(system):
 
 def new_figure(system, title: str):
     """An empty 3-D figure of ``system``: the primaries, axes labelled with their unit in the
-    rotating frame of the CR3BP, equal aspect, and the caution under the title."""
+    rotating frame of the CR3BP, equal aspect, and the caution under the title.
+
+    Parameters
+    ----------
+    system : System
+    title : str
+        Plain text (escaped for HTML here).
+
+    Returns
+    -------
+    plotly Figure
+
+    Raises
+    ------
+    ImportError
+        plotly is not installed.
+
+    Examples
+    --------
+    >>> from cr3bp.cautions import caution_short
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.plotting.interactive import new_figure
+    >>> fig = new_figure(system("earth-moon"), "demo")
+    >>> fig.layout.scene.xaxis.title.text, caution_short() in fig.layout.title.text
+    ('x [km] (rotating frame, CR3BP)', True)
+
+    References
+    ----------
+    .. [1] plotly documentation, "3D Surface Plots" and "3D Scatter Plots".
+    """
     go = require_plotly()
     f, unit = _scale(system)
     fig = go.Figure()
@@ -66,7 +116,46 @@ def _esc(text: str) -> str:
 
 
 def add_curve(fig, system, states, name, colour=None, width=4, showlegend=True, group=None):
-    """A trajectory (n, >=3) in LU, drawn in the figure's unit."""
+    """A trajectory (n, >=3) in LU, drawn in the figure's unit.
+
+    Parameters
+    ----------
+    fig : plotly Figure
+        From :func:`new_figure`.
+    system : System
+    states : (n, >=3) array
+        Positions in LU (velocities ignored).
+    name : str
+        Legend entry.
+    colour : str, optional
+        Line colour (default: the next of the project's cycle).
+    width : float
+    showlegend : bool
+    group : str, optional
+        Legend group (default ``name``).
+
+    Returns
+    -------
+    fig : the same figure
+
+    Raises
+    ------
+    ImportError
+        plotly is not installed.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.plotting.interactive import new_figure, add_curve
+    >>> em = system("earth-moon")
+    >>> fig = add_curve(new_figure(em, "demo"), em, [[0.8, 0, 0], [0.9, 0, 0]], "arc")
+    >>> fig.data[-1].name, round(float(fig.data[-1].x[1]))
+    ('arc', 345960)
+
+    References
+    ----------
+    .. [1] plotly documentation, "3D Line Plots".
+    """
     go = require_plotly()
     f, unit = _scale(system)
     s = np.asarray(states, dtype=float)[:, :3] * f
@@ -80,7 +169,35 @@ def add_curve(fig, system, states, name, colour=None, width=4, showlegend=True, 
 
 def framed(fig):
     """Equal scale on the three axes (the largest span shown as 1) and a camera from below-left
-    and above, far enough that the whole box is in view."""
+    and above, far enough that the whole box is in view.
+
+    Parameters
+    ----------
+    fig : plotly Figure
+
+    Returns
+    -------
+    fig : the same figure
+
+    Raises
+    ------
+    ValueError
+        A figure without data.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.plotting.interactive import new_figure, add_curve, framed
+    >>> em = system("earth-moon")
+    >>> fig = framed(add_curve(new_figure(em, "demo"), em, [[0.8, 0, 0], [0.9, 0, 0.01]], "arc"))
+    >>> fig.layout.scene.aspectmode, float(fig.layout.scene.aspectratio.x)
+    ('manual', 1.0)
+
+    References
+    ----------
+    .. [1] plotly documentation, "3D Axes" (``aspectmode``, ``aspectratio``) and "3D Camera
+       Controls".
+    """
     pts = [np.asarray(getattr(t, c), dtype=float).ravel() for t in fig.data for c in "xyz"]
     lo = [min(np.nanmin(pts[k]) for k in range(c, len(pts), 3)) for c in range(3)]
     hi = [max(np.nanmax(pts[k]) for k in range(c, len(pts), 3)) for c in range(3)]
@@ -97,14 +214,80 @@ def _orbit_name(o):
 
 
 def orbit_figure(orbit, name=None, n=600, fig=None, colour=None):
-    """One periodic orbit over one period (``fig``: add to an existing figure)."""
+    """One periodic orbit over one period (``fig``: add to an existing figure).
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+    name : str, optional
+        Legend name (default: family, point, branch).
+    n : int
+        Samples over the period.
+    fig : plotly Figure, optional
+    colour : str, optional
+
+    Returns
+    -------
+    plotly Figure
+
+    Raises
+    ------
+    ImportError
+        plotly is not installed.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 1e-3)
+    >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry, family="lyapunov", point="L1")
+    >>> from cr3bp.plotting.interactive import orbit_figure
+    >>> orbit_figure(orbit, n=50).data[-1].name
+    'lyapunov L1 (C = 3.188281)'
+
+    References
+    ----------
+    .. [1] plotly documentation, "3D Line Plots".
+    """
     label = name or _orbit_name(orbit)
     fig = fig or new_figure(orbit.system, f"{orbit.system.name}: {label} orbit, C = {orbit.jacobi:.6f} (CR3BP)")
     return framed(add_curve(fig, orbit.system, trajectory(orbit, n), f"{label} (C = {orbit.jacobi:.6f})", colour))
 
 
 def family_figure(family, max_curves=20, n=300):
-    """Up to ``max_curves`` members, evenly picked along the family."""
+    """Up to ``max_curves`` members, evenly picked along the family.
+
+    Parameters
+    ----------
+    family : Family
+    max_curves : int
+    n : int
+        Samples per member.
+
+    Returns
+    -------
+    plotly Figure
+
+    Raises
+    ------
+    ImportError
+        plotly is not installed.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import continuation, families
+    >>> fam = families.grow_family(system("earth-moon"), "lyapunov", "L1", stops=continuation.Stops(max_members=3))
+    >>> from cr3bp.plotting.interactive import family_figure
+    >>> fig = family_figure(fam, n=50)
+    >>> sum(1 for d in fig.data if d.name.startswith("C = "))
+    3
+
+    References
+    ----------
+    .. [1] plotly documentation, "3D Line Plots".
+    """
     m = family.members
     name = " ".join(w for w in (family.family, family.point, family.branch) if w)
     pick = np.unique(np.linspace(0, len(m) - 1, min(len(m), max_curves)).round().astype(int)) if m else []
@@ -115,7 +298,43 @@ def family_figure(family, max_curves=20, n=300):
 
 
 def tube_figure(tube, max_trajectories=40, n=200):
-    """Up to ``max_trajectories`` of the tube's trajectories (one legend entry)."""
+    """Up to ``max_trajectories`` of the tube's trajectories (one legend entry).
+
+    Parameters
+    ----------
+    tube : Tube
+        From :func:`cr3bp.tubes.manifolds.grow_tube`.
+    max_trajectories : int
+    n : int
+        Samples per trajectory.
+
+    Returns
+    -------
+    plotly Figure
+
+    Raises
+    ------
+    ImportError
+        plotly is not installed.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> from cr3bp.tubes import manifolds
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 0.01)
+    >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry, family="lyapunov", point="L1")
+    >>> tube = manifolds.grow_tube(orbit, "unstable", "interior", 4, until="time:2d")
+    >>> from cr3bp.plotting.interactive import tube_figure
+    >>> fig = tube_figure(tube, n=20)
+    >>> sum(1 for d in fig.data if d.name == tube.label)
+    4
+
+    References
+    ----------
+    .. [1] plotly documentation, "Legends" (``legendgroup``).
+    """
     fig = new_figure(tube.system, f"{tube.label}: {tube.n} trajectories (CR3BP)")
     step = max(1, tube.n // max_trajectories)
     for k, (_, s) in enumerate(tube.trajectories(n, indices=range(0, tube.n, step))):
@@ -127,7 +346,45 @@ def tube_figure(tube, max_trajectories=40, n=200):
 def route_figure(stitched, orbits=(), title=None):
     """A stitched route (:class:`cr3bp.transfers.stitch.StitchedRoute`): its continuous
     trajectory, one colour per shooting segment group, its maneuvers as markers, and the
-    ``orbits`` it joins (thin)."""
+    ``orbits`` it joins (thin).
+
+    Parameters
+    ----------
+    stitched : StitchedRoute
+    orbits : sequence of PeriodicOrbit
+        The orbits the route joins.
+    title : str, optional
+        Default: the route's nodes, dv and time of flight (CR3BP).
+
+    Returns
+    -------
+    plotly Figure
+
+    Raises
+    ------
+    ImportError
+        plotly is not installed.
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.nodes import EXAMPLE_NODE_LIST, parse_nodes
+    >>> from cr3bp.transfers.graph import build_graph
+    >>> from cr3bp.transfers.search import best_routes
+    >>> from cr3bp.transfers.stitch import stitch_route
+    >>> from cr3bp.plotting.interactive import route_figure
+    >>> em = system("earth-moon")
+    >>> nodes = parse_nodes(EXAMPLE_NODE_LIST, em)
+    >>> a, b = (n.id for n in nodes.nodes)
+    >>> route = best_routes(build_graph(em, nodes, workers=1).graph, a, b)[0]
+    >>> fig = route_figure(stitch_route(em, route, optimise=False))
+    >>> [d.name for d in fig.data if d.name.startswith("route")]
+    ['route a -> b']
+
+    References
+    ----------
+    .. [1] plotly documentation, "3D Scatter Plots".
+    """
     go = require_plotly()
     system = stitched.system
     path = " -> ".join(str(n) for n in stitched.nodes)
@@ -149,7 +406,23 @@ def route_figure(stitched, orbits=(), title=None):
 class ReportFigures:
     """The report's 3-D figures as HTML fragments, in page order: the first carries plotly.js
     inline (the page's one copy, about 4.7 MB for plotly 7), the later ones use it. Offline: no
-    CDN, no MathJax, nothing fetched."""
+    CDN, no MathJax, nothing fetched.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.plotting.interactive import ReportFigures, new_figure
+    >>> figs, em = ReportFigures(), system("earth-moon")
+    >>> first = figs.html(new_figure(em, "one"), "first figure")
+    >>> second = figs.html(new_figure(em, "two"), "second figure")
+    >>> len(first) > 1_000_000, len(second) < 100_000, figs.count
+    (True, True, 2)
+
+    References
+    ----------
+    .. [1] plotly documentation, :meth:`plotly.graph_objects.Figure.to_html`
+       (``include_plotlyjs``, ``full_html``).
+    """
 
     def __init__(self):
         self.count = 0

@@ -10,7 +10,42 @@ from .base import new_figure, save
 
 def histogram(budget, path, title: str = "", text: str = ""):
     """Two panels: Δv per year of each trial (mean and 95th percentile marked) and the size of
-    every executed burn; saved to ``path`` with the caution for the ephemeris model."""
+    every executed burn; saved to ``path`` with the caution for the ephemeris model.
+
+    Parameters
+    ----------
+    budget : Budget
+        From :func:`cr3bp.operations.keeping.budget`.
+    path : str or path-like
+        The file written.
+    title, text : str
+        Figure title; caption lines before the caution.
+
+    Returns
+    -------
+    path : the given ``path``
+
+    Raises
+    ------
+    OSError
+        The file cannot be written.
+
+    Examples
+    --------
+    A station-keeping budget takes minutes and the call writes a file, so it is not run:
+
+    >>> from cr3bp import orbit, system
+    >>> from cr3bp.operations.keeping import Errors, budget
+    >>> from cr3bp.plotting.keeping import histogram
+    >>> nrho = orbit(system("earth-moon"), "halo L2 south resonance=9:2")                 # doctest: +SKIP
+    >>> b = budget(nrho, "2031-03-01T00:00:00 TDB", 60.0, Errors(1.0, 0.01, 0.01, 0.001), 20)  # doctest: +SKIP
+    >>> histogram(b, "out/keeping.png")                                                   # doctest: +SKIP
+    'out/keeping.png'
+
+    References
+    ----------
+    .. [1] matplotlib documentation, :meth:`matplotlib.axes.Axes.hist`.
+    """
     fig, axes = new_figure(ncols=2, size=(11.0, 4.6))
     ax1, ax2 = np.ravel(axes)
     py = budget.per_year_mps

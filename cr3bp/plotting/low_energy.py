@@ -19,7 +19,43 @@ MARKERS = {"departure": ("o", "tab:green"), "insertion": ("s", "tab:red")}
 def sun_earth_rotating(model, t, states):
     """Earth-centred positions in the Sun-Earth rotating frame, LU: rotated so that the Sun
     (at the angle ``theta(t)`` of the bicircular model from the Earth-Moon line) lies on -x.
-    ``t`` in TU, ``states`` (N, >=3) in the Earth-Moon rotating frame."""
+    ``t`` in TU, ``states`` (N, >=3) in the Earth-Moon rotating frame.
+
+    Parameters
+    ----------
+    model : BicircularSystem
+        From :func:`cr3bp.bicircular.bicircular_system`.
+    t : float or (N,) array
+        Times, TU.
+    states : (N, >=3) array
+        Earth-Moon rotating states, LU.
+
+    Returns
+    -------
+    (N, 3) array
+        Earth-centred positions in the Sun-Earth rotating frame, LU (Sun on -x).
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    The Earth stays at the origin; at Sun phase 0 (new moon) the Moon lies towards the Sun, on -x:
+
+    >>> from cr3bp.bicircular import bicircular_system
+    >>> from cr3bp.plotting.low_energy import sun_earth_rotating
+    >>> m = bicircular_system("earth-moon", sun_phase=0.0)
+    >>> mu = m.system.mu
+    >>> (sun_earth_rotating(m, 0.0, [[-mu, 0, 0], [1 - mu, 0, 0]]).round(9) + 0.0).tolist()
+    [[0.0, 0.0, 0.0], [-1.0, 0.0, 0.0]]
+
+    References
+    ----------
+    .. [1] C. Simo, G. Gomez, A. Jorba and J. Masdemont, "The bicircular model near the
+       triangular libration points of the RTBP", 1995 (the Sun's angle in the Earth-Moon
+       rotating frame; from memory; see :mod:`cr3bp.bicircular`).
+    """
     s = np.atleast_2d(states)
     rel = s[:, :3] - np.array([-model.system.mu, 0.0, 0.0])
     a = math.pi - np.asarray(model.sun_angle(t), dtype=float)
@@ -28,7 +64,40 @@ def sun_earth_rotating(model, t, states):
 
 
 def plot_low_energy(tr, n_per_segment=500):
-    """Two panels of the transfer ``tr`` (a LowEnergyTransfer); returns the figure."""
+    """Two panels of the transfer ``tr`` (a LowEnergyTransfer); returns the figure.
+
+    Parameters
+    ----------
+    tr : LowEnergyTransfer
+        From :func:`cr3bp.transfers.low_energy.design_low_energy`.
+    n_per_segment : int
+        Samples per segment of the transfer.
+
+    Returns
+    -------
+    matplotlib Figure
+        Not captioned: the caller captions it with the bicircular model's caution.
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    Designing a low-energy transfer takes minutes, so the example is not run:
+
+    >>> from cr3bp import orbit
+    >>> from cr3bp.transfers.low_energy import design_low_energy
+    >>> from cr3bp.plotting.low_energy import plot_low_energy
+    >>> nrho = orbit("earth-moon", "halo L2 south period=6.5626d")   # doctest: +SKIP
+    >>> fig = plot_low_energy(design_low_energy(nrho, 200.0))        # doctest: +SKIP
+    >>> fig.axes[1].get_title()                                      # doctest: +SKIP
+    'Sun-Earth rotating frame'
+
+    References
+    ----------
+    .. [1] matplotlib documentation, :meth:`matplotlib.axes.Axes.inset_axes`.
+    """
     model = tr.model
     system = model.system
     t, states = tr.trajectory(n_per_segment)

@@ -24,12 +24,77 @@ FORBIDDEN = "0.85"
 
 
 def tube_colour(tube, k=0):
+    """The colour of a tube: fixed per (stability, branch), else the ``k``-th of the cycle.
+
+    Parameters
+    ----------
+    tube : Tube
+    k : int
+        Index of the tube in the figure (used when its kind has no fixed colour).
+
+    Returns
+    -------
+    str
+        A matplotlib colour name.
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from types import SimpleNamespace
+    >>> from cr3bp.plotting.manifolds import tube_colour
+    >>> tube_colour(SimpleNamespace(stability="stable", branch="interior"))
+    'tab:green'
+
+    References
+    ----------
+    .. [1] Common practice: unstable tubes in warm colours, stable tubes in cool ones.
+    """
     return TUBE_COLOURS.get((tube.stability, tube.branch), CYCLE[k % len(CYCLE)])
 
 
 def draw_forbidden(ax, system, jacobi_value, view="xy"):
     """Shade the forbidden region 2 Omega < C in the plane z = 0 (xy view) or y = 0 (xz view),
-    with the zero-velocity curves, from :func:`cr3bp.energy.hill_region`."""
+    with the zero-velocity curves, from :func:`cr3bp.energy.hill_region`.
+
+    Parameters
+    ----------
+    ax : matplotlib Axes
+        Its current limits (LU) frame the region.
+    system : System
+    jacobi_value : float
+        The Jacobi constant C.
+    view : str
+        Only "xy" and "xz" are shaded; other views are left as they are.
+
+    Returns
+    -------
+    ax : matplotlib Axes
+
+    Raises
+    ------
+    InputError
+        A Jacobi constant that is not finite.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.plotting.base import new_figure
+    >>> from cr3bp.plotting.manifolds import draw_forbidden
+    >>> fig, ax = new_figure()
+    >>> ax.set_xlim(0.7, 1.2); ax.set_ylim(-0.25, 0.25)
+    (0.7, 1.2)
+    (-0.25, 0.25)
+    >>> len(draw_forbidden(ax, system("earth-moon"), 3.18).collections) > 0
+    True
+
+    References
+    ----------
+    .. [1] V. Szebehely, *Theory of Orbits*, Academic Press, 1967, §4.3 (zero-velocity curves;
+       from memory).
+    """
     if view not in ("xy", "xz"):
         return ax
     x0, x1 = ax.get_xlim()
@@ -47,7 +112,50 @@ def draw_forbidden(ax, system, jacobi_value, view="xy"):
 def plot_tubes(tubes, views=("xy", "xz"), n_samples=200, max_trajectories=80, axes=None,
                forbidden=True, orbit_colour="k"):
     """Tubes in projections of the rotating frame, with the forbidden region at the first
-    tube's energy (xy: z = 0 slice; xz: y = 0 slice) and the primaries to scale."""
+    tube's energy (xy: z = 0 slice; xz: y = 0 slice) and the primaries to scale.
+
+    Parameters
+    ----------
+    tubes : sequence of Tube
+    views : sequence of {"xy", "xz", "yz"}
+    n_samples : int
+        Samples per trajectory.
+    max_trajectories : int
+        At most about this many trajectories per tube.
+    axes : matplotlib Axes or array of them, optional
+        Drawn into when given (one per view).
+    forbidden : bool
+        Shade the forbidden region.
+    orbit_colour : str
+
+    Returns
+    -------
+    matplotlib Figure
+
+    Raises
+    ------
+    KeyError
+        An unknown view.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> from cr3bp.tubes import manifolds
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 0.01)
+    >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry, family="lyapunov", point="L1")
+    >>> tube = manifolds.grow_tube(orbit, "unstable", "interior", 4, until="time:2d")
+    >>> from cr3bp.plotting.manifolds import plot_tubes
+    >>> fig = plot_tubes([tube], views=("xy",), n_samples=40)
+    >>> fig.axes[0].get_legend().get_texts()[0].get_text()
+    'lyapunov L1 C=3.181211 unstable interior (4 trajectories)'
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, ch. 4 (tubes, Poincaré cuts, connections).
+    """
     tubes = list(tubes)
     if axes is None:
         fig, axs = new_figure(ncols=len(views), size=(6.0 * len(views), 5.6))
@@ -108,7 +216,42 @@ def _fit(ax, pts, margin=0.12):
 
 
 def plot_tubes_3d(tubes, n_samples=200, max_trajectories=60):
-    """Tubes in 3-D (rotating frame, LU)."""
+    """Tubes in 3-D (rotating frame, LU).
+
+    Parameters
+    ----------
+    tubes : sequence of Tube
+    n_samples : int
+        Samples per trajectory.
+    max_trajectories : int
+
+    Returns
+    -------
+    matplotlib Figure
+
+    Raises
+    ------
+    IndexError
+        No tubes.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> from cr3bp.tubes import manifolds
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 0.01)
+    >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry, family="lyapunov", point="L1")
+    >>> tube = manifolds.grow_tube(orbit, "unstable", "interior", 4, until="time:2d")
+    >>> from cr3bp.plotting.manifolds import plot_tubes_3d
+    >>> ax = plot_tubes_3d([tube], n_samples=40).axes[0]
+    >>> ax.name, len(ax.lines)
+    ('3d', 4)
+
+    References
+    ----------
+    .. [1] matplotlib documentation, "The mplot3d Toolkit".
+    """
     fig = plt.figure(figsize=(7.5, 6.5))
     ax = fig.add_subplot(111, projection="3d")
     handles = []
@@ -138,7 +281,48 @@ def plot_section_map(cuts, names=("y", "vy"), ax=None, connect_points=True, labe
     """Cuts of several tubes on one section, each labelled; ``names`` the map coordinates: one
     pair (``("y", "vy")``) or several (``(("y", "vy"), ("z", "vz"))``: one panel each, e.g. both
     maps of a spatial tube). Dimensional systems read in 10³ km and m/s (LU, LU/TU on a
-    secondary axis). Returns the (first) Axes."""
+    secondary axis). Returns the (first) Axes.
+
+    Parameters
+    ----------
+    cuts : sequence of Crossings
+        Cuts on one section (:meth:`cr3bp.tubes.manifolds.Tube.section_cut`).
+    names : pair of str, or sequence of pairs
+        Map coordinates ("x", "y", "z", "vx", "vy", "vz", "t", ...).
+    ax : matplotlib Axes, optional
+        Drawn into when given (one pair only).
+    connect_points : bool
+        Join the points of a closed cut in phase order.
+    labels : sequence of str, optional
+        Legend labels (default: the cuts' own).
+
+    Returns
+    -------
+    matplotlib Axes
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> from cr3bp.tubes import manifolds
+    >>> from cr3bp.plotting.manifolds import plot_section_map
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 0.01)
+    >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry, family="lyapunov", point="L1")
+    >>> tube = manifolds.grow_tube(orbit, "unstable", "interior", 4, until="section:x=1-mu")
+    >>> ax = plot_section_map([tube.section_cut()])
+    >>> ax.get_xlabel(), ax.get_ylabel()
+    ('y [10³ km]', 'vy [m/s]')
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, ch. 4 (tubes, Poincaré cuts, connections).
+    """
     pairs = [tuple(names)] if isinstance(names[0], str) else [tuple(p) for p in names]
     if ax is None:
         fig, axs = new_figure(len(pairs), 1, size=(6.2 * len(pairs) + 2.0, 6.0))
@@ -197,7 +381,44 @@ def _unit_label(name):
 
 
 def plot_connection(legs, tubes=(), view="xy", ax=None, n_samples=150):
-    """Connection legs (black) over the tubes they were found in, with the patch points."""
+    """Connection legs (black) over the tubes they were found in, with the patch points.
+
+    Parameters
+    ----------
+    legs : sequence of Leg
+        From :func:`cr3bp.tubes.connections.connect` (the best first).
+    tubes : sequence of Tube
+    view : {"xy", "xz", "yz"}
+    ax : matplotlib Axes, optional
+    n_samples : int
+        Samples per tube trajectory.
+
+    Returns
+    -------
+    matplotlib Axes
+
+    Raises
+    ------
+    IndexError
+        Neither legs nor tubes.
+
+    Examples
+    --------
+    Finding a connection takes tens of seconds, so the example is not run:
+
+    >>> from cr3bp import orbit
+    >>> from cr3bp.tubes.connections import connect
+    >>> from cr3bp.plotting.manifolds import plot_connection
+    >>> lyap1 = orbit("earth-moon", "lyapunov L1 jacobi=3.15")         # doctest: +SKIP
+    >>> lyap2 = orbit("earth-moon", "lyapunov L2 jacobi=3.15")         # doctest: +SKIP
+    >>> legs, tu, ts = connect(lyap1, lyap2, "x=1-mu")            # doctest: +SKIP
+    >>> ax = plot_connection(legs, (tu, ts))                       # doctest: +SKIP
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, ch. 4 (tubes, Poincaré cuts, connections).
+    """
     if ax is None:
         fig, ax = new_figure(size=(8.0, 6.0))
     i, j = VIEWS[view]
@@ -230,7 +451,43 @@ def plot_connection(legs, tubes=(), view="xy", ax=None, n_samples=150):
 
 
 def plot_periapsis_map(pmap, target_km=None, ax=None):
-    """Periapsis altitude against time of flight (and against departure phase on the orbit)."""
+    """Periapsis altitude against time of flight (and against departure phase on the orbit).
+
+    Parameters
+    ----------
+    pmap : PeriapsisMap
+        From :func:`cr3bp.tubes.parking.periapsis_map`.
+    target_km : float, optional
+        A target altitude drawn as a line, km.
+    ax : matplotlib Axes, optional
+
+    Returns
+    -------
+    matplotlib Axes
+
+    Raises
+    ------
+    NoSolutionError
+        No trajectory of the map reached a periapsis.
+
+    Examples
+    --------
+    A periapsis map takes tens of seconds, so the example is not run:
+
+    >>> from cr3bp import orbit
+    >>> from cr3bp.tubes.parking import periapsis_map
+    >>> from cr3bp.plotting.manifolds import plot_periapsis_map
+    >>> nrho = orbit("earth-moon", "halo L2 south period=6.5626d")    # doctest: +SKIP
+    >>> ax = plot_periapsis_map(periapsis_map(nrho, 0, "stable", "interior"), target_km=200.0)  # doctest: +SKIP
+    >>> ax.get_yscale()                                               # doctest: +SKIP
+    'symlog'
+
+    References
+    ----------
+    .. [1] D. C. Davis and K. C. Howell, "Characterization of trajectories near the smaller
+       primary in the restricted problem for applications", *Journal of Guidance, Control, and
+       Dynamics* 35, 2012 (periapsis maps; from memory).
+    """
     s = pmap.system
     ok = np.isfinite(pmap.altitude_km)
     if not ok.any():

@@ -23,7 +23,38 @@ def _lagrange_points(system):
 
 
 def trajectory(orbit, n=1500):
-    """States (n, 6) sampled evenly over one period of ``orbit``."""
+    """States (n, 6) sampled evenly over one period of ``orbit``.
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+    n : int
+        Number of samples (the first and last are the same state).
+
+    Returns
+    -------
+    (n, 6) array
+        LU and LU/TU, rotating frame.
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 1e-3)
+    >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry, family="lyapunov", point="L1")
+    >>> s = trajectory(orbit, 100)
+    >>> s.shape, bool(abs(s[-1] - s[0]).max() < 1e-8)
+    ((100, 6), True)
+
+    References
+    ----------
+    .. [1] Common practice: sample a periodic orbit by integrating it over one period.
+    """
     t = np.linspace(0.0, orbit.period, n)
     return propagate(orbit.system, orbit.state, orbit.period, t_eval=t).states
 
@@ -49,12 +80,70 @@ def _frame(ax, system, view, arrays, pad=0.15, include=()):
 
 
 def planar(trajectories, tol=1e-9) -> bool:
-    """Whether every trajectory stays in the plane z = 0 (|z| and |vz| below ``tol`` LU, LU/TU)."""
+    """Whether every trajectory stays in the plane z = 0 (|z| and |vz| below ``tol`` LU, LU/TU).
+
+    Parameters
+    ----------
+    trajectories : sequence of (n, 6) arrays
+    tol : float
+
+    Returns
+    -------
+    bool
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.plotting.orbits import planar
+    >>> flat = np.zeros((3, 6)); tilted = flat.copy(); tilted[1, 2] = 0.01
+    >>> planar([flat]), planar([flat, tilted])
+    (True, False)
+
+    References
+    ----------
+    .. [1] Common practice: a planar family is drawn in the x-y view only.
+    """
     return all(float(np.max(np.abs(np.asarray(s)[:, [2, 5]]))) < tol for s in trajectories)
 
 
 def plot_orbit(orbit, states=None, title=None):
-    """Figure with the x-y, x-z and y-z views of one orbit (LU, rotating frame)."""
+    """Figure with the x-y, x-z and y-z views of one orbit (LU, rotating frame).
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+    states : (n, 6) array, optional
+        Samples of the orbit (default :func:`trajectory`).
+    title : str, optional
+        Figure title (default: system, name, period and Jacobi constant).
+
+    Returns
+    -------
+    matplotlib Figure
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import seeds, shooting
+    >>> em = system("earth-moon")
+    >>> sd = seeds.linear_lyapunov(em.mu, "L1", 1e-3)
+    >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry, family="lyapunov", point="L1")
+    >>> fig = plot_orbit(orbit)
+    >>> [ax.get_title() for ax in fig.axes[:3]]
+    ['x-y view', 'x-z view', 'y-z view (seen along x)']
+
+    References
+    ----------
+    .. [1] Common practice: three orthogonal projections in the rotating frame.
+    """
     states = trajectory(orbit) if states is None else states
     fig, axes = new_figure(3, 1, size=(15.0, 5.6))
     for ax, view in zip(axes[0], _VIEW_ORDER):
@@ -86,7 +175,41 @@ def _orbit_title(o):
 
 def plot_family(system, trajectories, jacobi, title="", max_curves=60):
     """Members coloured by Jacobi constant in the x-y and x-z views (only x-y for a planar
-    family); the colour bar stands beside the last view."""
+    family); the colour bar stands beside the last view.
+
+    Parameters
+    ----------
+    system : System
+    trajectories : sequence of (n, 6) arrays
+        One sampled period per member.
+    jacobi : sequence of float
+        Jacobi constants of the members.
+    title : str
+    max_curves : int
+        At most this many members are drawn, evenly picked.
+
+    Returns
+    -------
+    matplotlib Figure
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.orbits import continuation, families
+    >>> fam = families.grow_family(system("earth-moon"), "lyapunov", "L1", stops=continuation.Stops(max_members=3))
+    >>> fig = plot_family(fam.system, [trajectory(m, 100) for m in fam.members], [m.jacobi for m in fam.members])
+    >>> fig.axes[0].get_title(), fig.axes[-1].get_ylabel()
+    ('x-y view (planar family: z = 0)', 'Jacobi constant (nondimensional)')
+
+    References
+    ----------
+    .. [1] matplotlib documentation, :class:`matplotlib.colors.Normalize` and
+       :func:`matplotlib.pyplot.colorbar`.
+    """
     n = len(trajectories)
     pick = np.unique(np.linspace(0, n - 1, min(n, max_curves)).round().astype(int))
     views = ("xy",) if planar([trajectories[k] for k in pick]) else ("xy", "xz")
@@ -122,6 +245,36 @@ def plot_stability(jacobi, period, nu, period_unit="d", title="", bifurcations=(
     bifurcations : dicts with ``jacobi`` and ``_period_plot`` (and ``_perilune_plot``)
     marks : (panel, value, label) triples, panel "period" or "perilune": requested values (a
         resonance, a target) drawn as labelled dash-dot lines.
+    jacobi, period : (n,) arrays
+        Jacobi constants and periods of the members (period in ``period_unit``).
+    period_unit : str
+    title : str
+    perilune : (n,) array, optional
+        Perilune radii; the first panel uses them instead of the Jacobi constant.
+    perilune_label : str
+
+    Returns
+    -------
+    matplotlib Figure
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.plotting.orbits import plot_stability
+    >>> fig = plot_stability([3.18, 3.17, 3.16], [11.8, 11.9, 12.0], np.array([[800.0, 1.0], [700.0, 1.0], [600.0, 1.0]]))
+    >>> fig.axes[0].get_yscale(), fig.axes[1].get_xlabel()
+    ('symlog', 'period [d]')
+
+    References
+    ----------
+    .. [1] Common practice: the stability index nu = (lambda + 1/lambda) / 2 of each reciprocal
+       eigenvalue pair of the monodromy matrix; K. C. Howell and E. T. Campbell,
+       "Three-dimensional periodic solutions that bifurcate from halo families in the circular
+       restricted three-body problem", 1999 (stability indices and bifurcations; from memory).
     """
     fig, axes = new_figure(2, 1, size=(13.5, 5.4))
     nu = np.asarray(nu, dtype=float)

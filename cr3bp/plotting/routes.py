@@ -32,6 +32,47 @@ def plot_corridor(stitched, legs=(), tubes=(), ax=None, view="xy", margin=0.25, 
     stitched : cr3bp.transfers.stitch.StitchedRoute
     legs : sequence of cr3bp.transfers.leg.Leg (optional; their patch points are drawn as dots)
     tubes : sequence of arrays (optional)
+    ax : matplotlib Axes, optional
+    view : {"xy", "xz", "yz"}
+        Zero-velocity curves are drawn in the x-y view only.
+    margin : float
+        Fraction of the route's extent added around it.
+    resolution : int
+        Grid points per side of the Hill-region grid.
+    neck_context : bool
+        Widen the x-y view to the L1 and L2 necks when the route passes near the smaller primary.
+
+    Returns
+    -------
+    matplotlib Axes
+
+    Raises
+    ------
+    InputError
+        A bad ``resolution`` (from :func:`cr3bp.energy.hill_region`).
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.nodes import EXAMPLE_NODE_LIST, parse_nodes
+    >>> from cr3bp.transfers.graph import build_graph
+    >>> from cr3bp.transfers.search import best_routes
+    >>> em = system("earth-moon")
+    >>> nodes = parse_nodes(EXAMPLE_NODE_LIST, em)
+    >>> a, b = (n.id for n in nodes.nodes)
+    >>> built = build_graph(em, nodes, workers=1)
+    >>> routes = best_routes(built.graph, a, b)
+    >>> from cr3bp.transfers.stitch import stitch_route
+    >>> from cr3bp.plotting.routes import plot_corridor
+    >>> ax = plot_corridor(stitch_route(em, routes[0], optimise=False), resolution=101)
+    >>> ax.get_title().splitlines()[0]
+    'Transfer corridor: a → b'
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, ch. 2 and 4 (zero-velocity curves bounding a
+       transfer's corridor).
     """
     system = stitched.system
     if ax is None:
@@ -114,7 +155,45 @@ def _segment_legs(stitched, legs):
 
 def plot_pareto(routes, front=(), chosen=None, ax=None):
     """Δv against time of flight of ranked ``routes`` (grey), the Pareto ``front`` (line) and
-    the ``chosen`` route (highlighted)."""
+    the ``chosen`` route (highlighted).
+
+    Parameters
+    ----------
+    routes : sequence of Route
+    front : sequence of Route
+        The Pareto front (drawn as a line, sorted by time of flight).
+    chosen : Route, optional
+    ax : matplotlib Axes, optional
+
+    Returns
+    -------
+    matplotlib Axes
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.nodes import EXAMPLE_NODE_LIST, parse_nodes
+    >>> from cr3bp.transfers.graph import build_graph
+    >>> from cr3bp.transfers.search import best_routes
+    >>> em = system("earth-moon")
+    >>> nodes = parse_nodes(EXAMPLE_NODE_LIST, em)
+    >>> a, b = (n.id for n in nodes.nodes)
+    >>> built = build_graph(em, nodes, workers=1)
+    >>> routes = best_routes(built.graph, a, b)
+    >>> from cr3bp.plotting.routes import plot_pareto
+    >>> ax = plot_pareto(routes, front=routes[:1], chosen=routes[0])
+    >>> len(ax.lines)
+    3
+
+    References
+    ----------
+    .. [1] K. Deb, *Multi-Objective Optimization using Evolutionary Algorithms*, Wiley, 2001,
+       ch. 2 (Pareto optimality; from memory).
+    """
     if ax is None:
         _, ax = new_figure(size=(9.0, 5.2))
     if routes:
@@ -153,7 +232,46 @@ def _graph_x_axis(ax, graph):
 def plot_graph(graph, ax=None, route=None, max_labels=60):
     """The graph as a schematic: each node at (x of its state, its Jacobi constant); nodes
     without a known state in a row below; edges as arrows labelled "Δv m/s, TOF d"; the edges
-    of ``route`` (a :class:`cr3bp.transfers.search.Route`) drawn thick."""
+    of ``route`` (a :class:`cr3bp.transfers.search.Route`) drawn thick.
+
+    Parameters
+    ----------
+    graph : networkx.MultiDiGraph
+        The transfer graph (:func:`cr3bp.transfers.graph.build_graph`).
+    ax : matplotlib Axes, optional
+    route : Route, optional
+    max_labels : int
+        At most this many edges are labelled (the route's always).
+
+    Returns
+    -------
+    matplotlib Axes
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.nodes import EXAMPLE_NODE_LIST, parse_nodes
+    >>> from cr3bp.transfers.graph import build_graph
+    >>> from cr3bp.transfers.search import best_routes
+    >>> em = system("earth-moon")
+    >>> nodes = parse_nodes(EXAMPLE_NODE_LIST, em)
+    >>> a, b = (n.id for n in nodes.nodes)
+    >>> built = build_graph(em, nodes, workers=1)
+    >>> routes = best_routes(built.graph, a, b)
+    >>> from cr3bp.plotting.routes import plot_graph
+    >>> ax = plot_graph(built.graph, route=routes[0])
+    >>> ax.get_title(), ax.get_ylabel()
+    ('Transfer graph: 2 nodes, 2 legs', 'Jacobi constant C (nondimensional)')
+
+    References
+    ----------
+    .. [1] networkx documentation, :class:`networkx.MultiDiGraph`; matplotlib documentation,
+       "Annotations" (arrows with ``connectionstyle``).
+    """
     if ax is None:
         _, ax = new_figure(size=(9.5, 6.0))
     known = [n for n, d in graph.nodes(data=True) if d.get("jacobi") is not None]

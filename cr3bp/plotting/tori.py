@@ -15,7 +15,45 @@ _VIEW_ORDER = ("xy", "xz", "yz")
 
 
 def plot_torus(torus, grid=None, title=None, curves=24):
-    """Figure: three views of the torus surface and the invariance circle (LU / km offsets)."""
+    """Figure: three views of the torus surface and the invariance circle (LU / km offsets).
+
+    Parameters
+    ----------
+    torus : Torus
+        From :func:`cr3bp.tori.torus_around` (or a family member).
+    grid : (m, n, 6) array, optional
+        The surface (:func:`cr3bp.tori.surface`); computed when None.
+    title : str, optional
+        Figure title (default: system, name, stroboscopic time, rotation, Jacobi constant).
+    curves : int
+        About how many trajectories of circle points are drawn.
+
+    Returns
+    -------
+    matplotlib Figure
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    Computing a torus takes tens of seconds, so the example is not run:
+
+    >>> from cr3bp import orbit
+    >>> from cr3bp.tori import torus_around
+    >>> from cr3bp.plotting.tori import plot_torus
+    >>> lyap = orbit("earth-moon", "lyapunov L1 jacobi=3.15")     # doctest: +SKIP
+    >>> fig = plot_torus(torus_around(lyap, 1e-3))              # doctest: +SKIP
+    >>> len(fig.axes)                                           # doctest: +SKIP
+    4
+
+    References
+    ----------
+    .. [1] Z. P. Olikara and D. J. Scheeres, "Numerical methods for computing quasi-periodic
+       orbits and their stability in the restricted three-body problem", 2012 (the invariance
+       circle and the stroboscopic map; from memory).
+    """
     if grid is None:
         grid = surface(torus.system, torus.circle, torus.stroboscopic_time, 256)
     u = torus.circle

@@ -19,6 +19,41 @@ def plot_views(states, system, title="", label="trajectory", size=(13.0, 5.2)):
     nearest to it. In the y-z view (seen along x) only that nearest primary is drawn,
     since both sit at y = z = 0. Returns the Figure (save it with
     :func:`cr3bp.plotting.save`).
+
+    Parameters
+    ----------
+    states : (n, 6) array
+        Rotating-frame states, LU and LU/TU.
+    system : System
+    title : str
+        Figure title.
+    label : str
+        Legend entry of the trajectory.
+    size : (float, float)
+        Figure size, inches.
+
+    Returns
+    -------
+    matplotlib Figure
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.plotting.trajectories import plot_views
+    >>> states = np.zeros((50, 6)); states[:, 0] = np.linspace(0.8, 0.9, 50); states[:, 2] = 0.01
+    >>> fig = plot_views(states, system("earth-moon"), label="demo arc")
+    >>> [ax.get_title() for ax in fig.axes[:3]]
+    ['x-y view', 'x-z view', 'y-z view (seen along x)']
+
+    References
+    ----------
+    .. [1] Common practice: three orthogonal projections of a trajectory in the rotating frame.
+    .. [2] matplotlib documentation, :meth:`matplotlib.axes.Axes.set_aspect`.
     """
     s = np.asarray(states, dtype=float)
     fig, axes = new_figure(ncols=3, size=size)

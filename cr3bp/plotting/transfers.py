@@ -32,7 +32,40 @@ def _box(states, i, j, margin=MARGIN):
 
 
 def plot_orbit_transfer(tr, n_per_coast=600):
-    """Two panels (x-y, x-z) of the transfer ``tr`` and its start; returns the figure."""
+    """Two panels (x-y, x-z) of the transfer ``tr`` and its start; returns the figure.
+
+    Parameters
+    ----------
+    tr : OrbitTransfer
+        From :func:`cr3bp.transfers.optimise.optimise_transfer`.
+    n_per_coast : int
+        Samples per coast arc.
+
+    Returns
+    -------
+    matplotlib Figure
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    An optimised transfer takes tens of seconds, so the example is not run:
+
+    >>> from cr3bp import orbit
+    >>> from cr3bp.transfers.optimise import optimise_transfer
+    >>> from cr3bp.plotting.transfers import plot_orbit_transfer
+    >>> a = orbit("earth-moon", "lyapunov L1 jacobi=3.15")    # doctest: +SKIP
+    >>> b = orbit("earth-moon", "lyapunov L2 jacobi=3.15")    # doctest: +SKIP
+    >>> fig = plot_orbit_transfer(optimise_transfer(a, b))   # doctest: +SKIP
+    >>> [ax.get_title() for ax in fig.axes[:2]]              # doctest: +SKIP
+    ['x-y view', 'x-z view']
+
+    References
+    ----------
+    .. [1] matplotlib documentation, :meth:`matplotlib.axes.Axes.set_aspect`.
+    """
     from ..integrate import propagate   # lazy: keeps the plotting import light
     system = tr.system
     _, states = tr.trajectory(n_per_coast)

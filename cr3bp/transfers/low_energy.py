@@ -119,6 +119,28 @@ class LowEnergyTransfer:
         departure burn); the coasts join without a burn (see ``SEGMENTS``)
     optimised : bool (False: the corrector stopped short of its tolerance)
     details : dict (sweep and corrector diagnostics, timing, closure)
+
+    Parameters
+    ----------
+    model, orbit, altitude_km, maneuvers, tof, insertion_phase, perigee, max_distance_km, patches, optimised, details
+        The attributes above (built by :func:`design_low_energy`).
+
+    Examples
+    --------
+    Designing a transfer takes minutes, so the example is not run:
+
+    >>> from cr3bp import orbit
+    >>> from cr3bp.transfers.low_energy import design_low_energy
+    >>> nrho = orbit("earth-moon", "halo L2 south resonance=9:2")      # doctest: +SKIP
+    >>> tr = design_low_energy(nrho, 200.0)                            # doctest: +SKIP
+    >>> [m["name"] for m in tr.maneuvers], tr.path                    # doctest: +SKIP
+    (['departure', 'insertion'], 'low-energy')
+
+    References
+    ----------
+    .. [1] J. S. Parker and R. L. Anderson, *Low-Energy Lunar Trajectory Design*, Wiley, 2013,
+       ch. 3; K. K. Boudad, K. C. Howell and D. C. Davis, *Advances in Space Research* 66, 2020
+       (the bicircular model; both from memory).
     """
 
     model: object
@@ -260,7 +282,31 @@ def _describe(orbit):
 
 
 def iso_utc(tdb_s: float) -> str:
-    """ISO 8601 UTC text of TDB seconds since J2000 (to the second)."""
+    """ISO 8601 UTC text of TDB seconds since J2000 (to the second).
+
+    Parameters
+    ----------
+    tdb_s : float
+
+    Returns
+    -------
+    str
+
+    Raises
+    ------
+    InputError
+        A date the time scales cannot convert.
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.low_energy import iso_utc
+    >>> iso_utc(0.0)
+    '2000-01-01T11:58:56Z'
+
+    References
+    ----------
+    .. [1] ISO 8601; IERS Conventions (2010), ch. 10 (TDB, TT and UTC; from memory).
+    """
     day = math.floor(tdb_s / SECONDS_PER_DAY)
     ep = Epoch.from_jd(J2000_JD + day, (tdb_s - day * SECONDS_PER_DAY) / SECONDS_PER_DAY, "tdb")
     return ep.to_iso("utc", decimals=0)
@@ -277,7 +323,41 @@ def _earth_relative(system, states):
 
 
 def osculating_perigee(system, states):
-    """Radius (LU) and inclination (rad) of the two-body conic about the Earth through each state."""
+    """Radius (LU) and inclination (rad) of the two-body conic about the Earth through each state.
+
+    Parameters
+    ----------
+    system : System
+        The Earth-Moon system (the Earth is the larger primary).
+    states : array (N, 6)
+        Rotating-frame states, LU and LU/TU.
+
+    Returns
+    -------
+    (ndarray (N,), ndarray (N,))
+        Perigee radius (LU) and inclination (rad) to the Earth-Moon plane.
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    A circular orbit of 0.02 LU about the Earth has its perigee at 0.02 LU:
+
+    >>> import math
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.transfers.low_energy import osculating_perigee
+    >>> em = system("earth-moon"); r = 0.02; vc = math.sqrt((1 - em.mu) / r)
+    >>> rp, inc = osculating_perigee(em, [[-em.mu + r, 0, 0, 0, vc - r, 0]])
+    >>> rp.round(9).tolist(), inc.round(9).tolist()
+    ([0.02], [0.0])
+
+    References
+    ----------
+    .. [1] R. R. Bate, D. D. Mueller and J. E. White, *Fundamentals of Astrodynamics*, Dover,
+       1971, ch. 2 (orbital elements from a state; from memory).
+    """
     rel, vin = _earth_relative(system, states)
     gm = 1.0 - system.mu
     h = np.cross(rel, vin)
@@ -289,6 +369,40 @@ def osculating_perigee(system, states):
 
 
 def perigee_summary(system, state):
+    """The state at the departure burn seen from the Earth: radius, inertial and circular
+    speeds, inclination, and the speed above circular.
+
+    Parameters
+    ----------
+    system : System
+    state : array (6,)
+        Rotating-frame state, LU and LU/TU.
+
+    Returns
+    -------
+    dict
+        ``radius`` (LU), ``speed_inertial`` and ``speed_circular`` (LU/TU),
+        ``inclination_deg``, ``dv`` (LU/TU).
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> import math
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.transfers.low_energy import perigee_summary
+    >>> em = system("earth-moon"); r = 0.02; vc = math.sqrt((1 - em.mu) / r)
+    >>> d = perigee_summary(em, [-em.mu + r, 0, 0, 0, vc - r, 0])
+    >>> round(d["radius"], 9), round(d["dv"], 9), d["inclination_deg"]
+    (0.02, 0.0, 0.0)
+
+    References
+    ----------
+    .. [1] R. R. Bate, D. D. Mueller and J. E. White, *Fundamentals of Astrodynamics*, Dover,
+       1971, ch. 1 (circular speed; from memory).
+    """
     rel, vin = _earth_relative(system, state)
     rel, vin = rel[0], vin[0]
     r = float(np.linalg.norm(rel))
@@ -335,6 +449,48 @@ def sweep(model, orbit, r_park, *, max_tof, min_tof, sun_phases=None, phases=SWE
     time-of-flight window: ``phase`` (insertion phase), ``dv`` (3, LU/TU), ``sun`` (Sun phase
     at insertion, rad), ``t`` (time of the screen stop, TU, negative), ``rp`` (osculating
     perigee radius, LU), ``score``; and ``count`` (trajectories propagated).
+
+    Parameters
+    ----------
+    model : BicircularSystem
+    orbit : PeriodicOrbit
+        The target orbit.
+    r_park : float
+        Parking-orbit radius, LU.
+    max_tof, min_tof : float
+        The time-of-flight window, TU.
+    sun_phases : array, optional
+        Sun phases at insertion, rad (default: an even grid).
+    phases, dv_mps, directions : int, sequence of float, int
+        Insertion phases, Δv magnitudes (m/s) and directions of the backward kicks.
+    departure_phase : float, optional
+
+    Returns
+    -------
+    dict
+
+    Raises
+    ------
+    InputError
+        ``model`` is not a BicircularSystem (failed trajectories are marked and left out,
+        not raised).
+
+    Examples
+    --------
+    A full sweep takes minutes, so the example is not run:
+
+    >>> from cr3bp import orbit
+    >>> from cr3bp.bicircular import bicircular_system
+    >>> from cr3bp.transfers.low_energy import sweep
+    >>> nrho = orbit("earth-moon", "halo L2 south resonance=9:2")                    # doctest: +SKIP
+    >>> out = sweep(bicircular_system(), nrho, 0.0171, max_tof=30.0, min_tof=17.0)   # doctest: +SKIP
+    >>> out["count"] > 0                                                             # doctest: +SKIP
+    True
+
+    References
+    ----------
+    .. [1] J. S. Parker and R. L. Anderson, *Low-Energy Lunar Trajectory Design*, Wiley, 2013,
+       ch. 3 (backward propagation from the target orbit; from memory).
     """
     system = model.system
     pts = _OrbitPoints(orbit, max(phases, 16))
@@ -661,6 +817,17 @@ def design_low_energy(orbit, altitude_km, *, epoch=None, inclination_deg=None, m
     NoSolutionError
         No trajectory of the sweep comes back to the Earth in the window, or none corrects.
 
+    Examples
+    --------
+    Designing a transfer takes minutes, so the example is not run:
+
+    >>> from cr3bp import orbit
+    >>> from cr3bp.transfers.low_energy import design_low_energy
+    >>> nrho = orbit("earth-moon", "halo L2 south resonance=9:2")      # doctest: +SKIP
+    >>> tr = design_low_energy(nrho, 200.0)                            # doctest: +SKIP
+    >>> tr.optimised, 70 < tr.tof_days <= 130                          # doctest: +SKIP
+    (True, True)
+
     References
     ----------
     Belbruno & Miller 1993; Koon, Lo, Marsden & Ross 2001; Parker & Anderson 2013, ch. 3;
@@ -838,6 +1005,28 @@ class LaunchWindow:
     dates : tuple of dict            every date designed: ``departure_epoch_utc``, ``how``
         ("the free optimum's Sun phase recurs" or "window edge, nearest in Sun phase"),
         ``phase_miss_deg`` (its Sun phase against the free optimum's), ``ok`` and ``reason``
+
+    Parameters
+    ----------
+    start_tdb_s, end_tdb_s, free, transfers, dates
+        The attributes above (built by :func:`launch_window`).
+
+    Examples
+    --------
+    A window takes several transfer designs (minutes), so the example is not run:
+
+    >>> from cr3bp import orbit
+    >>> from cr3bp.transfers.low_energy import launch_window
+    >>> nrho = orbit("earth-moon", "halo L2 south resonance=9:2")                          # doctest: +SKIP
+    >>> w = launch_window(nrho, 200.0, "2031-03-01T00:00:00Z", "2031-04-01T00:00:00Z")    # doctest: +SKIP
+    >>> w.best is w.transfers[0]                                                          # doctest: +SKIP
+    True
+
+    References
+    ----------
+    .. [1] J. S. Parker and R. L. Anderson, *Low-Energy Lunar Trajectory Design*, Wiley, 2013,
+       ch. 3; K. K. Boudad, K. C. Howell and D. C. Davis, *Advances in Space Research* 66, 2020
+       (the bicircular model; both from memory).
     """
 
     start_tdb_s: float
@@ -1013,6 +1202,10 @@ def window_seconds(start, end, system="earth-moon"):
     >>> a, b = window_seconds("2027-03-01T00:00:00Z", "2027-04-01T00:00:00Z")
     >>> round((b - a) / 86400.0, 6)
     31.0
+
+    References
+    ----------
+    ISO 8601 (the dates); common practice: a launch window checked before any design starts.
     """
     from ..time.frames import epoch_from_text   # lazy: the ephemeris, only for a dated window
     t0 = epoch_from_text(start) if isinstance(start, str) else finite_number("window start", start)
