@@ -2,12 +2,14 @@
 (``librate connect --path direct``), from the shell: a fresh process, orbit solved, first
 guesses and optimisation, JSON written. Kernels built and warmed by one run before timing.
 
-Target: under 10 s from the shell (issue 15). The second row is the processor time of that
-process (on a machine shared with other work the wall clock exceeds it); the third the design
-alone, in this process. The fourth is the lunar-flyby path from the shell (information). The fifth is the transfer graph's leg from a 200 km parking node to the
-same orbit, which goes straight to the direct departure (no manifold of the orbit reaches low
-Earth orbit), against the former order (the periapsis search over the orbit's manifold first,
-the departure as its fallback) measured in the same run.
+Target: under 10 s from the shell (issue 15), for the direct path and for the lunar-flyby path
+(periapsis scan, then optimisation; 90-106 s before its batch scan and analytic gradients). The
+rows after each are the processor time of that process (on a machine shared with other work the
+wall clock exceeds it) and the design alone, in this process. The last row is the transfer
+graph's leg from a 200 km parking node to the same orbit, which goes straight to the direct
+departure (no manifold of the orbit reaches low Earth orbit), against the former order (the
+periapsis search over the orbit's manifold first, the departure as its fallback) measured in
+the same run.
 """
 
 from __future__ import annotations
@@ -52,14 +54,21 @@ def run():
         argv_fb = exe + ["connect", "--system", "earth-moon", "--from", "parking earth 200km", "--to",
                          "halo L2 south resonance=9:2", "--path", "lunar-flyby", "--format", "json", "--quiet",
                          "--out", os.path.join(d, "fb.json")]
+        c0 = _child_cpu()
         t0 = time.perf_counter()
         subprocess.run(argv_fb, check=True, capture_output=True)
         t_flyby = time.perf_counter() - t0
+        cpu_fb = _child_cpu() - c0
+    t0 = time.perf_counter()
+    fb = design_departure(orbit, 200.0, path="lunar-flyby")
+    t_fb_design = time.perf_counter() - t0
     return [(name, t_shell, "", None, "< 10 s"),
             ("the same: processor time of the process", cpu, "", None, "information"),
             ("the design alone (design_departure, in this process)", t_design, "", None, "information"),
-            ("lunar-flyby departure 200 km -> 9:2 NRHO from the shell (periapsis scan, then optimisation)",
-             t_flyby, "", None, "information (the < 10 s target is met by the direct path)"),
+            (f"lunar-flyby departure 200 km -> 9:2 NRHO from the shell (CR3BP total {fb.dv_mps:.0f} m/s, "
+             f"{fb.tof_days:.2f} d, optimised {fb.optimised})", t_flyby, "", None, "< 10 s"),
+            ("the same: processor time of the process", cpu_fb, "", None, "information"),
+            ("the design alone (batch periapsis scan, then optimisation)", t_fb_design, "", None, "information"),
             ("graph leg parking earth 200km -> 9:2 NRHO (no manifold search)", leg_now,
              "the search first, then the departure", leg_before, "faster than the search-first order")]
 

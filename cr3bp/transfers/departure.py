@@ -31,14 +31,16 @@ constraints being satisfied to ``CONSTRAINT_TOL``.
 
 The flyby path is solved as two coasts joined at the lunar periapsis (multiple shooting,
 :class:`_FlybyShooting`): the periapsis position, the velocities there before and after the
-flyby burn, the insertion phase and the post-flyby coast time are the unknowns; the backward
-coast must reach the parking radius at its perigee, the forward one the insertion point, both
-velocities are perpendicular to the radius at the periapsis, and its altitude is at least the
-minimum. Its first guesses come from a scan of periapsis states at the minimum altitude
-(:func:`_flyby_guesses`): those that came from near the Earth, given a tangential burn and
-followed forward, pass close to the target orbit; each is made feasible by least-norm Newton
-steps, then optimised by SLSQP, which may stop at its iteration limit with a feasible transfer
-(``optimised`` False: feasible, not proven least).
+flyby burn, the insertion phase and both coast times are the unknowns; the backward coast must
+end at a perigee at the parking radius, the forward one at the insertion point, both velocities
+are perpendicular to the radius at the periapsis, and its altitude is at least the minimum.
+Every derivative is analytic (the coasts' state transition matrices and the vector field).
+Its first guesses come from a scan of periapsis states at the minimum altitude
+(:func:`_flyby_guesses`, the backward half in one batch propagation): those that came from
+near the Earth, given a tangential burn and followed forward, pass close to the target orbit;
+each is made feasible by least-norm Newton steps, then optimised by rounds of SLSQP, each
+round's end made feasible again; the search ends when SLSQP converges (``optimised`` True) or
+a round gains less than ``FLYBY_STALL_MPS`` (``optimised`` False: feasible, not proven least).
 
 First guesses of the direct path come from two-body arcs about the Earth (Lambert's problem,
 :mod:`cr3bp.transfers.lambert`, Izzo 2015): for each insertion phase on a grid and each time
@@ -66,8 +68,10 @@ from scipy.optimize import brentq, minimize
 from .. import validate
 from ..vocabulary import CR3BP_DEPARTURE_PATHS
 from ..errors import ConvergenceError, InputError, NoSolutionError, StateError
-from ..integrate import impact, propagate
+from ..dynamics import acceleration
+from ..integrate import impact, propagate, propagate_batch
 from ..io.plain import plain as _plain
+from ..threads import serial
 from ..tubes.manifolds import describe
 from .lambert import lambert
 from .leg import Leg, Maneuver
@@ -100,20 +104,26 @@ GUESSES_OPTIMISED = 4
 #: post-flyby coast (days), the target orbit's samples, the weight of Δv against miss distance
 #: (km per m/s), and the integration tolerance of the scan.
 FLYBY_LATITUDES_DEG = (-75.0, -60.0, -45.0, -30.0, -15.0, 0.0, 15.0, 30.0, 45.0, 60.0, 75.0)
-FLYBY_GRID_DEG = 20.0
+FLYBY_GRID_DEG = 30.0
 FLYBY_VINF_KMS = (0.8, 0.95)
 FLYBY_BACK_DAYS = 6.0
 FLYBY_SCAN_PERIGEE = 0.06
 FLYBY_SPEED_FACTORS = (0.875, 0.9, 0.925, 0.95, 0.975, 1.0)
 FLYBY_FORWARD_DAYS = (1.5, 9.0)
-FLYBY_ORBIT_SAMPLES = 200
+FLYBY_ORBIT_SAMPLES = 400
+FLYBY_SAMPLES_PER_DAY = 24
 FLYBY_MISS_KM_PER_MPS = 5.0
 SCAN_TOL = 1e-10
 #: Flyby guesses optimised (the best by their score).
 FLYBY_GUESSES_OPTIMISED = 3
-#: SLSQP iterations on the flyby path (from a feasible start, every iterate it stops at is
-#: checked for feasibility; the cheaper of it and the start is kept).
-FLYBY_MAX_ITER = 120
+#: SLSQP iterations on the flyby path in all, per round (each round's end made feasible by
+#: Newton steps; the cheapest feasible point is kept), and the least gain of a round (m/s) that
+#: lets the search go on.
+FLYBY_MAX_ITER = 240
+FLYBY_ROUND = 30
+FLYBY_STALL_MPS = 1.0
+#: SLSQP's tolerance on the total Δv (LU/TU; 1e-9 is about 1 mm/s in Earth-Moon).
+FLYBY_FTOL = 1e-9
 #: Transfer angle of the first-guess Lambert arcs (degrees; 180 leaves the plane undefined).
 GUESS_ANGLE_DEG = 170.0
 #: Tolerance of the re-propagation check on every returned transfer (km, position at insertion).
@@ -523,6 +533,20 @@ def _perilune_state(pb, lat, lon, psi, vinf_kms):
                            v_in - np.array([-rel[1], rel[0], 0.0])])
 
 
+def _perilune_states(pb, lat, lon, psi, vinf_kms):
+    """:func:`_perilune_state` for arrays of latitudes, longitudes, angles and speeds (N, 6)."""
+    s = pb.system
+    u = np.stack([np.cos(lat) * np.cos(lon), np.cos(lat) * np.sin(lon), np.sin(lat)], axis=1)
+    east = np.stack([-u[:, 1], u[:, 0], np.zeros_like(lat)], axis=1)
+    east /= np.linalg.norm(east, axis=1)[:, None]
+    north = np.cross(u, east)
+    speed = np.sqrt((np.asarray(vinf_kms) / s.velocity_kms) ** 2 + 2.0 * s.mu / pb.r_fb)
+    rel = pb.r_fb * u
+    v_in = speed[:, None] * (np.cos(psi)[:, None] * east + np.sin(psi)[:, None] * north)
+    w = np.stack([-rel[:, 1], rel[:, 0], np.zeros_like(lat)], axis=1)
+    return np.hstack([np.array([s.positions[1], 0.0, 0.0]) + rel, v_in - w])
+
+
 def _with_speed_factor(pb, state, factor):
     """``state`` with its Moon-relative inertial velocity scaled by ``factor`` (a tangential
     burn at the periapsis)."""
@@ -539,59 +563,74 @@ def _flyby_guesses(pb: _Problem):
     1. Periapsis states at the least flyby radius on a grid of points on the Moon (latitude,
        longitude), directions of the velocity perpendicular to the radius, and hyperbolic
        excess speeds (FLYBY_VINF_KMS, common practice for Earth-Moon transfers) are
-       propagated backward; those whose closest approach to the Earth within
-       FLYBY_BACK_DAYS is below FLYBY_SCAN_PERIGEE came from near a low Earth orbit.
-    2. Each of those is propagated forward after a tangential burn at the periapsis (a grid of
-       speed factors FLYBY_SPEED_FACTORS, slowing down being what an insertion far from the
-       Moon needs); its closest approach to the target orbit (sampled) between
-       FLYBY_FORWARD_DAYS gives the insertion point, the post-flyby coast time and the
+       propagated backward, all at once (:func:`cr3bp.integrate.propagate_batch`); those that
+       come closer than FLYBY_SCAN_PERIGEE to the Earth within FLYBY_BACK_DAYS (a terminal
+       event) came from near a low Earth orbit.
+    2. Each of those is propagated forward after a tangential burn at the periapsis (a grid
+       of speed factors FLYBY_SPEED_FACTORS, slowing down being what an insertion far from the
+       Moon needs), sampled FLYBY_SAMPLES_PER_DAY times a day from the dense output; its
+       closest sample to the target orbit (FLYBY_ORBIT_SAMPLES samples, nearest by a k-d tree)
+       between FLYBY_FORWARD_DAYS gives the insertion point, the post-flyby coast time and the
        insertion Δv of the guess.
     3. Guesses are ranked by their miss distance plus FLYBY_MISS_KM_PER_MPS km per m/s of
        their flyby and insertion Δv.
 
-    Returns rows ``(score, x0)``, ``x0`` the start of :class:`_FlybyShooting`."""
+    Returns rows ``(score, x0)``, ``x0`` the start of :class:`_FlybyShooting` (its backward
+    coast time that of the arrival within FLYBY_SCAN_PERIGEE of the Earth)."""
+    from scipy.spatial import cKDTree   # lazy: heavy library, only the flyby scan needs it
     s = pb.system
     moon = np.array([s.positions[1], 0.0, 0.0])
-    earth = np.array([s.positions[0], 0.0, 0.0])
     day = 1.0 / s.days(1.0)
-    tb = np.linspace(0.0, -FLYBY_BACK_DAYS * day, 600)
-    keep = []
-    for lat in np.radians(FLYBY_LATITUDES_DEG):
-        for lon in np.radians(np.arange(0.0, 360.0, FLYBY_GRID_DEG)):
-            for psi in np.radians(np.arange(0.0, 360.0, FLYBY_GRID_DEG)):
-                for vinf in FLYBY_VINF_KMS:
-                    st = _perilune_state(pb, lat, lon, psi, vinf)
-                    try:
-                        arc = propagate(s, st, tb[-1], rtol=SCAN_TOL, atol=SCAN_TOL, t_eval=tb)
-                    except (StateError, ConvergenceError):
-                        continue
-                    if arc.status != "time":
-                        continue
-                    d = np.linalg.norm(arc.states[:, :3] - earth, axis=1)
-                    if d.min() < FLYBY_SCAN_PERIGEE:
-                        keep.append(st)
+    r_m = s.radii[1]
+    lat, lon, psi, vinf = (np.ravel(a) for a in np.meshgrid(
+        np.radians(FLYBY_LATITUDES_DEG), np.radians(np.arange(0.0, 360.0, FLYBY_GRID_DEG)),
+        np.radians(np.arange(0.0, 360.0, FLYBY_GRID_DEG)), np.asarray(FLYBY_VINF_KMS, dtype=float), indexing="ij"))
+    peri = _perilune_states(pb, lat, lon, psi, vinf)
+    back = propagate_batch(s, peri, -FLYBY_BACK_DAYS * day, rtol=SCAN_TOL, atol=SCAN_TOL,
+                           events=[impact(0, FLYBY_SCAN_PERIGEE), impact(1, 0.999 * r_m)],
+                           max_events=1, on_failure="mark")
+    near = [k for k in range(len(peri)) if back.status[k] == "impact" and back.event_index[k].size
+            and int(back.event_index[k][0]) == 0]
+    if not near:
+        return []
+    t_back = -back.t_final[near]
+    kept = peri[near]
+    posts = np.array([_with_speed_factor(pb, st, f) for st in kept for f in FLYBY_SPEED_FACTORS])
+    owner = np.repeat(np.arange(len(kept)), len(FLYBY_SPEED_FACTORS))
     t_lo, t_hi = FLYBY_FORWARD_DAYS
-    tf = np.linspace(0.0, t_hi * day, int(60 * t_hi) + 1)
+    tf = np.linspace(0.0, t_hi * day, int(FLYBY_SAMPLES_PER_DAY * t_hi) + 1)
     first = int(np.searchsorted(tf, t_lo * day))
+    n = len(posts)
+    # one call each with samples from the dense output (a batch has no dense output, and
+    # restarting it at every sample costs more than these calls)
+    samples = np.full((len(tf), n, 6), np.nan)
+    stops = [impact(0, s.radii[0]), impact(1, 0.999 * r_m)]
+    for q in range(n):
+        try:
+            arc = propagate(s, posts[q], tf[-1], rtol=SCAN_TOL, atol=SCAN_TOL, t_eval=tf, events=stops)
+        except (StateError, ConvergenceError):
+            continue
+        m = min(len(arc.t), len(tf))         # an impact ends the samples early
+        samples[:m, q] = arc.states[:m]
     ph = np.linspace(0.0, 1.0, FLYBY_ORBIT_SAMPLES, endpoint=False)
     orb = np.array([pb.points.at(q) for q in ph])
+    tree = cKDTree(orb[:, :3])
+    win = samples[first:]                                   # (m, n, 6)
+    pos = np.where(np.isfinite(win[..., 0]), 0.0, np.inf)   # a trajectory stopped: no samples
+    dist, j = tree.query(np.nan_to_num(win[..., :3], nan=1e3).reshape(-1, 3))
+    dist = dist.reshape(win.shape[:2]) + pos
+    j = j.reshape(win.shape[:2])
     rows = []
-    for st in keep:
-        for f in FLYBY_SPEED_FACTORS:
-            post = _with_speed_factor(pb, st, f)
-            try:
-                arc = propagate(s, post, tf[-1], rtol=SCAN_TOL, atol=SCAN_TOL, t_eval=tf)
-            except (StateError, ConvergenceError):
-                continue
-            if arc.status != "time":
-                continue
-            S = arc.states[first:]
-            dd = np.linalg.norm(S[:, None, :3] - orb[None, :, :3], axis=2)
-            i, j = np.unravel_index(int(np.argmin(dd)), dd.shape)
-            dv = float(np.linalg.norm(post[3:] - st[3:]) + np.linalg.norm(S[i, 3:] - orb[j, 3:]))
-            score = float(s.km(dd[i, j])) + FLYBY_MISS_KM_PER_MPS * float(s.mps(dv))
-            x0 = np.concatenate([st[:3] - moon, st[3:], post[3:], [ph[j], float(tf[first + i])]])
-            rows.append((score, x0))
+    for q in range(n):
+        i = int(np.argmin(dist[:, q]))
+        if not np.isfinite(dist[i, q]):
+            continue
+        st, post, o = kept[owner[q]], posts[q], orb[j[i, q]]
+        dv = float(np.linalg.norm(post[3:] - st[3:]) + np.linalg.norm(win[i, q, 3:] - o[3:]))
+        score = float(s.km(dist[i, q])) + FLYBY_MISS_KM_PER_MPS * float(s.mps(dv))
+        x0 = np.concatenate([st[:3] - moon, st[3:], post[3:], [ph[j[i, q]], float(tf[first + i]),
+                                                              float(t_back[owner[q]])]])
+        rows.append((score, x0))
     rows.sort(key=lambda r: r[0])
     return rows
 
@@ -624,111 +663,281 @@ def _newton(pb, z, resid, idx, tol=1e-8, max_step=0.05, iterations=30):
     return z if c is not None and np.all(np.abs(c) < tol) else None
 
 
+#: Smoothing of the flyby burn's norm in the objective, LU/TU (~1 mm/s): its gradient exists at
+#: an unpowered flyby.
+FLYBY_SMOOTH = 1e-6
+#: Variable scales of the flyby programme (SLSQP works on x / scale): periapsis position (LU),
+#: velocities (LU/TU), insertion phase, coast times (TU).
+FLYBY_SCALES = np.array([1e-3] * 3 + [1.0] * 6 + [0.1, 1.0, 1.0])
+
+
+def _w(rel):
+    """The rotating frame's velocity term omega x r (z axis, unit rate)."""
+    return np.array([-rel[1], rel[0], 0.0])
+
+
+def _incl(system, s_p):
+    rel, vin = _relative(system, s_p, 0)
+    h = np.cross(rel, vin)
+    return math.acos(max(-1.0, min(1.0, h[2] / np.linalg.norm(h))))
+
+
 class _FlybyShooting:
-    """The flyby path as two coasts joined at the lunar periapsis (multiple shooting): the
-    unknowns are the periapsis position (Moon-relative), the velocities there before and
-    after the flyby burn, the insertion phase and the post-flyby coast time. The backward
-    coast from the periapsis must reach the parking orbit, the forward one the insertion
-    point; both coasts have their periapsis at the flyby point. Splitting the transfer there
-    keeps the constraint sensitivities moderate (one coast each)."""
+    """The flyby path as two coasts joined at the lunar periapsis (multiple shooting), each
+    with its state transition matrix, so that every derivative is analytic.
+
+    Unknowns ``x = [p (3), v_pre (3), v_post (3), phase, t2, t1]``: the periapsis position
+    (Moon-relative), the velocities there before and after the flyby burn, the insertion phase
+    on the target orbit, the post-flyby coast time and the pre-flyby coast time. The backward
+    coast (``t1``) from the periapsis ends at the departure perigee: its radius is the parking
+    radius and its radial velocity zero (a perigee, where the tangential departure burn joins
+    the arc); the forward coast (``t2``) ends at the insertion point; both velocities at the
+    flyby are perpendicular to the radius; its altitude is at least the minimum; ``t1 + t2`` at
+    most the cap. Objective: departure + flyby + insertion Δv.
+
+    The derivatives (Betts 2010, §4.4; Pavlak 2013, ch. 3): the end states' by the STMs and
+    the vector field, the perigee functions' by the chain rule through them."""
 
     def __init__(self, pb: _Problem):
         self.pb = pb
         s = pb.system
         self.moon = np.array([s.positions[1], 0.0, 0.0])
+        self.earth = np.array([s.positions[0], 0.0, 0.0])
+        self.mu = s.mu
+        self.gm = 1.0 - s.mu
+        r_e, r_m = s.radii
+        # the Earth as a point mass below its surface while optimising (the constraint stays
+        # smooth); the Moon's surface is a real stop
+        self.stops = [impact(0, 0.2 * r_e), impact(1, 0.999 * r_m)]
         self.cache = {}
+        self.evaluations = 0
 
     def unpack(self, x):
-        return x[0:3], x[3:6], x[6:9], x[9], x[10]
+        return x[0:3], x[3:6], x[6:9], x[9], x[10], x[11]
 
     def evaluate(self, x):
-        key = tuple(np.round(np.asarray(x, dtype=float), 15))
+        x = np.asarray(x, dtype=float)
+        key = x.tobytes()
         if key in self.cache:
             return self.cache[key]
-        out = self._evaluate(np.asarray(x, dtype=float))
-        if len(self.cache) > 4096:
+        self.evaluations += 1
+        try:
+            out = self._evaluate(x)
+        except (StateError, ConvergenceError):
+            out = None
+        if len(self.cache) > 512:
             self.cache.clear()
         self.cache[key] = out
         return out
 
     def _evaluate(self, x):
-        pb = self.pb
-        p, v_pre, v_post, ph, t2 = self.unpack(x)
-        if not (0.0 < t2 < pb.max_tof):
+        pb, s = self.pb, self.pb.system
+        p, v_pre, v_post, ph, t2, t1 = self.unpack(x)
+        if not (t1 > 0.0 and t2 > 0.0):
             return None
+        r0 = self.moon + p
+        a = propagate(s, np.concatenate([r0, v_pre]), -t1, stm=True, rtol=RTOL, atol=ATOL, events=self.stops)
+        b = propagate(s, np.concatenate([r0, v_post]), t2, stm=True, rtol=RTOL, atol=ATOL, events=self.stops)
+        if a.status != "time" or b.status != "time":
+            return None
+        s_p, end = np.array(a.final_state), np.array(b.final_state)
         orb = pb.points.at(ph)
-        start = np.concatenate([self.moon + p, v_post])
-        try:
-            arc = propagate(pb.system, start, t2, rtol=RTOL, atol=ATOL, events=pb.moon.events)
-        except StateError:
-            return None
-        if arc.status != "time":
-            return None
-        end = np.array(arc.final_state)
-        hit = pb.earth.find(np.concatenate([self.moon + p, v_pre]), pb.max_tof - t2)
-        if hit is None:
-            return None
-        t_p, s_p = hit
-        per = _perigee_summary(pb.system, s_p)
+        d_orb = pb.points.T * acceleration(self.mu, orb)
+        per = _perigee_summary(s, s_p)
         dv_fb = v_post - v_pre
         dv_ins = orb[3:] - end[3:]
         cost = per["dv"] + float(np.linalg.norm(dv_fb)) + float(np.linalg.norm(dv_ins))
-        return {"cost": cost, "perigee": per, "s_p": s_p, "t_p": t_p - t2, "s_ins": orb,
-                "flyby": (-t2, start.copy(), dv_fb), "end": end, "dv_ins": dv_ins}
+        return {"cost": cost, "perigee": per, "s_p": s_p, "t_p": -t1 - t2, "s_ins": orb,
+                "flyby": (-t2, np.concatenate([r0, v_post]), dv_fb), "end": end, "dv_ins": dv_ins,
+                "phi1": np.array(a.stm), "phi2": np.array(b.stm), "f_p": acceleration(self.mu, s_p),
+                "f_end": acceleration(self.mu, end), "d_orb": d_orb}
+
+    # derivatives of the two end states with respect to x (6 x 12 each)
+    def _d_states(self, e):
+        dsp = np.zeros((6, 12))
+        dsp[:, 0:3] = e["phi1"][:, :3]
+        dsp[:, 3:6] = e["phi1"][:, 3:]
+        dsp[:, 11] = -e["f_p"]
+        dend = np.zeros((6, 12))
+        dend[:, 0:3] = e["phi2"][:, :3]
+        dend[:, 6:9] = e["phi2"][:, 3:]
+        dend[:, 10] = e["f_end"]
+        return dsp, dend
+
+    def _perigee_grads(self, s_p):
+        """Gradients with respect to the perigee state of its radius, rel . v, departure Δv."""
+        rel = s_p[:3] - self.earth
+        v = s_p[3:]
+        vin = v + _w(rel)
+        r = float(np.linalg.norm(rel))
+        sp = float(np.linalg.norm(vin))
+        u = vin / sp
+        g_r = np.concatenate([rel / r, np.zeros(3)])
+        g_rv = np.concatenate([v, rel])
+        g_dv = np.concatenate([np.array([u[1], -u[0], 0.0]) + 0.5 * math.sqrt(self.gm) * r ** -2.5 * rel, u])
+        return g_r, g_rv, g_dv
 
     def fun(self, x):
         e = self.evaluate(x)
-        return 10.0 if e is None else e["cost"]
+        if e is None:
+            return 10.0
+        dv_fb = e["flyby"][2]
+        return e["perigee"]["dv"] + math.sqrt(float(dv_fb @ dv_fb) + FLYBY_SMOOTH ** 2) + \
+            float(np.linalg.norm(e["dv_ins"]))
+
+    def jac(self, x):
+        e = self.evaluate(x)
+        if e is None:
+            return np.zeros(12)
+        dsp, dend = self._d_states(e)
+        _, _, g_dv = self._perigee_grads(e["s_p"])
+        g = g_dv @ dsp
+        dv_fb = e["flyby"][2]
+        u = dv_fb / math.sqrt(float(dv_fb @ dv_fb) + FLYBY_SMOOTH ** 2)
+        g[6:9] += u
+        g[3:6] -= u
+        w = e["dv_ins"] / np.linalg.norm(e["dv_ins"])
+        g += -(w @ dend[3:])
+        g[9] += float(w @ e["d_orb"][3:])
+        return g
+
+    def neq(self):
+        return 7 if self.pb.inc is None else 8
 
     def eq(self, x):
         pb = self.pb
         e = self.evaluate(x)
-        n = 6 if pb.inc is None else 7
         if e is None:
-            return np.ones(n)
-        p, v_pre, v_post, _, _ = self.unpack(x)
-        out = list((e["end"][:3] - e["s_ins"][:3]) * 10.0)
-        out.append((e["perigee"]["radius"] - pb.r_park) * 10.0)
-        out.append(float(p @ v_pre) * 10.0)
-        out.append(float(p @ v_post) * 10.0)
+            return np.ones(self.neq())
+        p, v_pre, v_post, _, _, _ = self.unpack(x)
+        rel = e["s_p"][:3] - self.earth
+        out = list(e["end"][:3] - e["s_ins"][:3])
+        out.append(e["perigee"]["radius"] - pb.r_park)
+        out.append(float(rel @ e["s_p"][3:]))
+        out.append(float(p @ v_pre))
+        out.append(float(p @ v_post))
         if pb.inc is not None:
-            out.append(math.radians(e["perigee"]["inclination_deg"]) - pb.inc)
+            out.append(_incl(pb.system, e["s_p"]) - pb.inc)
         return np.array(out)
 
+    def eq_jac(self, x):
+        e = self.evaluate(x)
+        J = np.zeros((self.neq(), 12))
+        if e is None:
+            return J
+        p, v_pre, v_post, _, _, _ = self.unpack(x)
+        dsp, dend = self._d_states(e)
+        J[0:3] = dend[:3]
+        J[0:3, 9] -= e["d_orb"][:3]
+        g_r, g_rv, _ = self._perigee_grads(e["s_p"])
+        J[3] = g_r @ dsp
+        J[4] = g_rv @ dsp
+        J[5, 0:3], J[5, 3:6] = v_pre, p
+        J[6, 0:3], J[6, 6:9] = v_post, p
+        if self.pb.inc is not None:
+            g = np.empty(6)
+            for k in range(6):          # the inclination of the perigee state: central differences
+                d = np.zeros(6)
+                d[k] = 1e-7
+                g[k] = (_incl(self.pb.system, e["s_p"] + d) - _incl(self.pb.system, e["s_p"] - d)) / 2e-7
+            J[7] = g @ dsp
+        return J
+
     def ineq(self, x):
+        p, _, _, _, t2, t1 = self.unpack(x)
+        return np.array([float(np.linalg.norm(p)) - self.pb.r_fb, self.pb.max_tof - t1 - t2])
+
+    def ineq_jac(self, x):
         p = x[0:3]
-        return np.array([(np.linalg.norm(p) - self.pb.r_fb) * 10.0])
+        J = np.zeros((2, 12))
+        J[0, 0:3] = p / np.linalg.norm(p)
+        J[1, 10] = J[1, 11] = -1.0
+        return J
+
+    def feasible(self, x, tol):
+        return self.evaluate(x) is not None and bool(np.all(np.abs(self.eq(x)) < tol)) and \
+            bool(np.all(self.ineq(x) > -tol))
+
+    def newton(self, x, tol=CONSTRAINT_TOL, iterations=40, max_step=0.05):
+        """Least-norm Newton steps on the equalities (and the flyby radius, held at least the
+        minimum), in the scaled variables: a feasible point near ``x``, or None."""
+        x = np.array(x, dtype=float)
+        for _ in range(iterations):
+            if self.evaluate(x) is None:
+                return None
+            c, J = self.eq(x), self.eq_jac(x)
+            g = self.ineq(x)
+            if g[0] < 0.0:             # the flyby below the least radius: raise it to it
+                c = np.concatenate([c, g[:1]])
+                J = np.vstack([J, self.ineq_jac(x)[:1]])
+            if np.all(np.abs(c) < tol) and g[1] >= 0.0:
+                return x
+            Js = J * FLYBY_SCALES
+            step = -np.linalg.lstsq(Js, c, rcond=None)[0]
+            n = float(np.linalg.norm(step))
+            if n > max_step:
+                step *= max_step / n
+            x = x + step * FLYBY_SCALES
+        return x if self.feasible(x, tol) else None
 
 
-
-def _optimise_flyby(pb: _Problem, x0):
-    """From the guess ``x0`` of :func:`_flyby_guesses`: least-norm Newton steps on every
-    constraint (a feasible transfer near the guess), then SLSQP on the total Δv from there.
-    Returns (SLSQP result or None, evaluation of the cheaper feasible point or None, that
-    point, whether it is SLSQP's converged result)."""
-    ms = _FlybyShooting(pb)
-
-    def resid(_, x):
-        if ms.evaluate(x) is None:
-            return None
-        return np.concatenate([ms.eq(x), [min(0.0, float(ms.ineq(x)[0]))]])
-
-    def feasible(x):
-        return ms.evaluate(x) is not None and bool(np.all(np.abs(ms.eq(x)) < CONSTRAINT_TOL * 100.0)) \
-            and ms.ineq(x)[0] > -CONSTRAINT_TOL * 100.0
-
-    x1 = _newton(pb, x0, resid, range(11), tol=CONSTRAINT_TOL * 10.0, max_step=0.02, iterations=60)
-    if x1 is None:
+def _optimise_flyby(pb: _Problem, x0, ms=None):
+    """From the guess ``x0`` of :func:`_flyby_guesses`: the backward coast time set to the
+    guess's perigee, least-norm Newton steps to a feasible transfer, then rounds of SLSQP on the
+    total Δv (analytic gradients; scaled variables, each constraint row divided by its gradient's
+    norm at the round's start), each round's end made feasible again by Newton, until SLSQP
+    converges, a round gains less than FLYBY_STALL_MPS, or FLYBY_MAX_ITER iterations are spent.
+    Returns (a summary dict or None, evaluation of the cheapest feasible point or None, that
+    point, whether SLSQP converged there)."""
+    ms = ms or _FlybyShooting(pb)
+    x0 = np.array(x0, dtype=float)
+    hit = pb.earth.find(np.concatenate([ms.moon + x0[0:3], x0[3:6]]), pb.max_tof - x0[10])
+    if hit is None:
         return None, None, None, False
-    res = minimize(ms.fun, x1, method="SLSQP",
-                   constraints=[{"type": "eq", "fun": ms.eq}, {"type": "ineq", "fun": ms.ineq}],
-                   options={"maxiter": FLYBY_MAX_ITER, "ftol": 1e-12})
-    x2 = res.x
-    if not feasible(x2):
-        x2 = _newton(pb, res.x, resid, range(11), tol=CONSTRAINT_TOL * 10.0, max_step=0.02, iterations=30)
-    if x2 is not None and feasible(x2) and ms.evaluate(x2)["cost"] < ms.evaluate(x1)["cost"]:
-        return res, ms.evaluate(x2), x2, bool(res.success)
-    return res, ms.evaluate(x1), x1, False
+    x0[11] = -hit[0]
+    x = ms.newton(x0)
+    if x is None or not _surface_clear(pb, ms, x):
+        return None, None, None, False
+    sc = FLYBY_SCALES
+    stall = FLYBY_STALL_MPS / pb.system.mps(1.0)
+    cost = ms.evaluate(x)["cost"]
+    used, converged, message = 0, False, "iteration limit"
+    with serial(numba_threads=False):     # SLSQP's small dense algebra on one BLAS thread
+        while used < FLYBY_MAX_ITER:
+            w = 1.0 / np.maximum(np.linalg.norm(ms.eq_jac(x) * sc, axis=1), 1e-12)
+            fs = 1.0 / max(float(np.linalg.norm(ms.jac(x) * sc)), 1e-12)
+            cons = [{"type": "eq", "fun": lambda y: w * ms.eq(y * sc),
+                     "jac": lambda y: w[:, None] * ms.eq_jac(y * sc) * sc},
+                    {"type": "ineq", "fun": lambda y: ms.ineq(y * sc), "jac": lambda y: ms.ineq_jac(y * sc) * sc}]
+            res = minimize(lambda y: fs * ms.fun(y * sc), x / sc, jac=lambda y: fs * ms.jac(y * sc) * sc,
+                           method="SLSQP", constraints=cons,
+                           options={"maxiter": min(FLYBY_ROUND, FLYBY_MAX_ITER - used), "ftol": FLYBY_FTOL})
+            used += int(res.nit)
+            x2 = ms.newton(res.x * sc) if np.all(np.isfinite(res.x)) else None
+            if x2 is None or not _surface_clear(pb, ms, x2):
+                message = "the last round ended where Newton steps found no feasible transfer"
+                break
+            c2 = ms.evaluate(x2)["cost"]
+            gain = cost - c2
+            if c2 < cost:
+                x, cost = x2, c2
+            if res.status == 0:
+                converged, message = True, "converged (SLSQP)"
+                break
+            if gain < stall:
+                message = (f"stalled: the last round of {FLYBY_ROUND} iterations gained less than "
+                           f"{FLYBY_STALL_MPS:g} m/s")
+                break
+    return {"iterations": used, "message": message}, ms.evaluate(x), x, converged
+
+
+def _surface_clear(pb, ms, x):
+    """The backward coast of ``x`` stays above the Earth's surface (the optimiser's Earth is a
+    point mass)."""
+    p, v_pre, _, _, _, t1 = ms.unpack(x)
+    arc = propagate(pb.system, np.concatenate([ms.moon + p, v_pre]), -t1, rtol=RTOL, atol=ATOL,
+                    events=[impact(0, pb.system.radii[0])])
+    return arc.status == "time"
 
 
 # ---- design --------------------------------------------------------------------------------
@@ -857,14 +1066,16 @@ def _design_flyby(pb: _Problem, guesses: int, t_start: float) -> Departure:
     optimised (:func:`_optimise_flyby`); the cheapest feasible one is built."""
     system = pb.system
     ms = _FlybyShooting(pb)
+    t_scan = time.perf_counter()
     rows = _flyby_guesses(pb)
+    t_scan = time.perf_counter() - t_scan
     best, tried = None, []
     for score, x0 in rows[:max(1, guesses)]:
-        res, e, x, converged = _optimise_flyby(pb, x0)
+        res, e, x, converged = _optimise_flyby(pb, x0, ms)
         tried.append({"score": score, "feasible": e is not None,
                       "result_mps": None if e is None else float(system.mps(e["cost"])),
-                      "iterations": None if res is None else int(res.nit),
-                      "converged": converged, "message": "no feasible start" if res is None else str(res.message)})
+                      "iterations": None if res is None else res["iterations"],
+                      "converged": converged, "message": "no feasible start" if res is None else res["message"]})
         if e is not None and (best is None or e["cost"] < best[1]["cost"]):
             best = (x, e, converged)
     if best is None:
@@ -875,12 +1086,12 @@ def _design_flyby(pb: _Problem, guesses: int, t_start: float) -> Departure:
     x, e, converged = best
     z = np.concatenate([[x[9] % 1.0], e["dv_ins"]])
     return _build(pb, z, e, converged, {
-        "evaluations": len(ms.cache), "seconds": time.perf_counter() - t_start,
+        "evaluations": ms.evaluations, "seconds": time.perf_counter() - t_start, "scan_seconds": t_scan,
         "constraint_residuals": np.abs(ms.eq(x)).tolist(), "guesses": tried,
-        "method": "two coasts joined at the lunar periapsis (multiple shooting): least-norm Newton "
-                  "to a feasible transfer, then SLSQP on the total delta-v; first guesses from a "
-                  "scan of periapsis states at the least flyby altitude, propagated back to the "
-                  "Earth and forward to the orbit"})
+        "method": "two coasts joined at the lunar periapsis (multiple shooting, gradients from the "
+                  "coasts' state transition matrices): least-norm Newton to a feasible transfer, then "
+                  "SLSQP on the total delta-v; first guesses from a batch scan of periapsis states at "
+                  "the least flyby altitude, propagated back to the Earth and forward to the orbit"})
 
 
 def _repair(pb: _Problem, z):
