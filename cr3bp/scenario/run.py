@@ -233,11 +233,10 @@ def prepare(path) -> Plan:
         for v in t.get("via", []):
             if v not in known:
                 add(f"transfers[{i}].via", InputError(f"'{v}' is not an orbit of this scenario"))
-        for key, v in [("from", t["from"]), ("to", t["to"])] + [("via", v) for v in t.get("via", [])]:
-            if v in tori:
-                add(f"transfers[{i}].{key}", InputError(
-                    f"'{v}' is a torus; transfers join periodic orbits and parking orbits (tori "
-                    "are not yet transfer ends)"))
+        if t["from"] in tori and str(t["to"]).startswith("parking "):
+            add(f"transfers[{i}].to", InputError(
+                f"'{t['to']}': a transfer from the torus '{t['from']}' to a parking orbit is not built yet "
+                "(from a parking orbit to a torus is: a direct departure)"))
     objects = known | {t["name"] for t in transfers}
     for i, ex in enumerate(data.get("exports", [])):
         if ex["object"] not in objects:
