@@ -140,7 +140,11 @@ sections = ["x=1-mu"]
     res = build_graph(EM, nl, workers=1)
     recs = [lg.record() for lg in res.legs]
     assert len(recs) == 1 and recs[0]["status"] == "ok", (recs, res.pruned)
-    assert recs[0]["dv_mps"] == pytest.approx(t2t[0].dv_mps, rel=1e-9)
+    from cr3bp.tori.connections import connect_torus_to_torus
+    from cr3bp.transfers.graph import TUBE_POINTS
+    lib = connect_torus_to_torus(*tori, "x=1-mu", TUBE_POINTS)          # the graph's tube size
+    assert recs[0]["dv_mps"] == pytest.approx(lib[0].dv_mps, rel=1e-9)
+    assert recs[0]["kind"] == "torus-to-torus"
 
 
 # ---- parking orbit to a torus -----------------------------------------------------------------
@@ -232,7 +236,7 @@ def test_scenario_transfer_to_a_torus_equals_connect(departure, tmp_path, capsys
     best = route["best"]
     assert best["dv_total_mps"] == pytest.approx(leg["dv_mps"], rel=1e-9)
     assert best["legs"][0]["dv_mps"] == pytest.approx(leg["dv_mps"], rel=1e-9)
-    assert best["legs"][0]["kind"] == "departure"
+    assert best["legs"][0]["kind"] == "parking"            # the graph's parking leg
 
 
 # ---- the torus's 3-D page -----------------------------------------------------------------------
