@@ -210,6 +210,13 @@ def test_a_transfer_from_a_torus_to_a_parking_orbit_is_refused(tmp_path, capsys)
     assert re.search(r"transfers\[0\]\.to: 'parking earth 200km': a transfer from the torus 'ring'", err), err
 
 
+def test_a_transfer_from_a_lunar_parking_orbit_to_a_torus_is_refused(tmp_path, capsys):
+    text = SCENARIO.format(request=REQUEST, p0=0.0, p1=0.0) + (
+        '\n[[transfers]]\nname = "down"\nfrom = "parking moon 100km"\nto = "ring"\n')
+    err = _refusal(tmp_path, capsys, text)
+    assert re.search(r"transfers\[0\]\.from: 'parking moon 100km': a leg from a parking orbit to the torus", err), err
+
+
 def test_orbit_table_without_family_or_torus_is_refused(tmp_path, capsys):
     text = SCENARIO.format(request=REQUEST, p0=0.0, p1=0.0).replace(f'torus = "{REQUEST}"\n', 'az = "3000km"\n')
     text = text.replace("torus_phase_deg = [0.0, 0.0]\n", "")
