@@ -161,7 +161,7 @@ def output_folder(args, name="--out", path=None, inputs=()):
 _INPUT_OPTIONS = ("nodes", "input", "from_file", "route", "scenario")
 #: Options naming files a command writes: (option, attribute).
 _OUTPUT_OPTIONS = (("--out", "out"), ("--plot", "plot"), ("--curves", "curves"), ("--map", "map"),
-                   ("OUT", "output"))
+                   ("--html", "html"), ("OUT", "output"))
 
 
 def check_outputs(args):

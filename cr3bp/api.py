@@ -652,13 +652,17 @@ def _parking(text, sysm):
 
 def connect(origin, target, *, system=None, section="x=1-mu", points=None, crossing=1, time=None,
             step_off=None, candidates=5, from_branch=None, to_branch=None):
-    """Legs between two periodic orbits, or a parking orbit and a periodic orbit (``librate connect``).
+    """Legs between two periodic orbits, or a parking orbit and a periodic orbit, or with a
+    quasi-periodic torus at one end or both (``librate connect``).
 
     Parameters
     ----------
-    origin, target : PeriodicOrbit or str
-        An orbit (from :func:`orbit`), an orbit request, or ``"parking BODY ALTITUDE"``
-        (``"parking moon 100km"``) at one end.
+    origin, target : PeriodicOrbit, Torus or str
+        An orbit (from :func:`orbit`), an orbit request, ``"parking BODY ALTITUDE"``
+        (``"parking moon 100km"``) at one end, or a torus (from :func:`torus`) or torus request
+        (``"quasi-halo around halo L1 north az=10000km amplitude=300km"``): the unstable manifold
+        of the first joined to the stable manifold of the second on ``section`` (a position
+        plane; :mod:`cr3bp.tori.connections`; 100 trajectories per manifold by default).
     system : System or str, optional
         Needed when neither end is a PeriodicOrbit.
     section : str
@@ -706,7 +710,7 @@ def connect(origin, target, *, system=None, section="x=1-mu", points=None, cross
     from .tubes.parking import parking_legs, periapsis_map  # lazy: heavy library (scipy, via cr3bp.tubes.parking)
     sysm = None
     for end in (origin, target):
-        if isinstance(end, PeriodicOrbit):
+        if isinstance(end, PeriodicOrbit) or type(end).__name__ == "Torus":
             sysm = end.system
     if sysm is None:
         if system is None:
@@ -731,6 +735,10 @@ def connect(origin, target, *, system=None, section="x=1-mu", points=None, cross
     def _orbit(end):
         return end if isinstance(end, PeriodicOrbit) else orbit(sysm, end)
 
+    ta, tb = _torus_end(origin), _torus_end(target)
+    if ta or tb:
+        return _connect_tori(origin, target, ta, tb, pa, pb, sysm, _orbit, section, points, step_off, t_max,
+                             candidates, from_branch, to_branch, crossing)
     if pa or pb:
         primary, alt = pa or pb
         orb = _orbit(target if pa else origin)
@@ -746,6 +754,41 @@ def connect(origin, target, *, system=None, section="x=1-mu", points=None, cross
                           branch_a=from_branch or "interior", branch_b=to_branch or "interior",
                           max_candidates=candidates)
     return legs
+
+
+def _torus_end(end) -> bool:
+    """A quasi-periodic torus (cr3bp.tori.Torus) or a torus request text."""
+    from .tori.request import is_torus_request  # lazy: start-up: keeps cr3bp.api free of numpy
+    return type(end).__name__ == "Torus" or is_torus_request(end)
+
+
+def _connect_tori(origin, target, ta, tb, pa, pb, sysm, as_orbit, section, points, step_off, t_max,
+                  candidates, from_branch, to_branch, crossing):
+    """:func:`connect` with a torus at one end or both (:mod:`cr3bp.tori.connections`)."""
+    from .tori import connections as tc  # lazy: heavy library (scipy, via cr3bp.tori)
+    from .tori import request as treq  # lazy: heavy library (scipy, via cr3bp.tori)
+    if pa or pb:
+        raise InputError("a parking orbit and a torus: the leg from an Earth parking orbit to a torus is the "
+                         "direct departure, cr3bp.tori.departure.design_torus_departure (librate connect "
+                         "--path direct); other parking legs of tori are not built yet")
+    if crossing != 1:
+        raise InputError(f"crossing {crossing}: connections with a torus use the first crossing of the section")
+
+    def end(e, is_torus):
+        if not is_torus:
+            return as_orbit(e)
+        return treq.solve(sysm, e) if isinstance(e, str) else e
+
+    a, b = end(origin, ta), end(target, tb)
+    kw = dict(n_points=points or 100, branch_a=from_branch or "interior", branch_b=to_branch or "interior",
+              step_km=step_off, t_max=t_max)
+    if ta and tb:
+        legs = tc.connect_torus_to_torus(a, b, str(section), **kw)
+    elif ta:
+        legs = tc.connect_torus_to_orbit(a, b, str(section), **kw)
+    else:
+        legs = tc.connect_orbit_to_torus(a, b, str(section), **kw)
+    return legs[:candidates]
 
 
 def optimise(origin, target, *, system=None, impulses=3, max_tof=None, start="patch", section="x=1-mu",

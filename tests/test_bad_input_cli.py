@@ -310,6 +310,11 @@ def value_cases():
     add("torus-epoch-without-export", T + [EPOCH])
     add("torus-phase-without-export", T + ["--phase=10,20"])
     add("torus-export-with-members", TE + ["--members=3"])
+    add("torus-html-suffix", T + ["--html={out}/t.png"])
+    add("torus-html-folder", T + ["--html={out}"])
+    add("torus-html-missing-folder", T + ["--html={out}/nowhere/t.html"])
+    add("torus-html-with-members", T + ["--members=3", "--html={out}/t.html"])
+    add("torus-html-is-plot", T + ["--html={out}/t.html", "--plot={out}/t.html"])
     # orbit --family lissajous (a torus)
     OL = ["orbit", EM, "--family=lissajous", "--point=L2", "--ay=3000km", "--az=2000km"]
     add("orbit-lissajous-period", OL + ["--period=3d"])
@@ -651,6 +656,36 @@ def value_cases():
                                        "--no-catalog"])
     add("connect-epoch-with-direct", dep + ["--path=direct", "--epoch=2027-03-01T00:00:00Z"])
     add("connect-epoch-without-path", dep + ["--epoch=2027-03-01T00:00:00Z"])
+    # connect with a torus at one end or both: refused before any torus is solved
+    TQ1 = "--to=quasi-halo around halo L1 north az=10000km amplitude=300km"
+    TQ2 = "--from=quasi-halo around halo L2 north az=10000km amplitude=300km"
+    ct = ["connect", EM, "--from=parking earth 200km", TQ1]
+    add("connect-torus-path-lunar-flyby", ct + ["--path=lunar-flyby"])
+    add("connect-torus-path-low-energy", ct + ["--path=low-energy"])
+    add("connect-torus-path-altitude-50km", ["connect", EM, "--from=parking earth 50km", TQ1, "--path=direct"])
+    add("connect-torus-path-max-tof-0d", ct + ["--path=direct", "--max-tof=0d"])
+    add("connect-torus-path-inclination-200deg", ct + ["--path=direct", "--inclination=200deg"])
+    add("connect-torus-path-section", ct + ["--path=direct", "--section=y=0"])
+    add("connect-torus-path-epoch", ct + ["--path=direct", "--epoch=2027-03-01T00:00:00Z"])
+    add("connect-torus-path-sun-earth", ["connect", "--system=sun-earth", "--from=parking earth 200km",
+                                         "--to=lissajous L2 ay=300000km az=150000km", "--path=direct"])
+    add("connect-torus-path-from-torus", ["connect", EM, TQ2.replace("--from", "--from"),
+                                          "--to=halo L2 south resonance=9:2", "--path=direct"])
+    add("connect-torus-parking-without-path", ct)
+    add("connect-torus-to-parking", ["connect", EM, TQ2, "--to=parking earth 200km"])
+    add("connect-torus-optimise", ["connect", EM, TQ2, TQ1, "--optimise"])
+    add("connect-torus-impulses-without-optimise", ["connect", EM, TQ2, TQ1, "--impulses=2"])
+    add("connect-torus-arrival-within", ["connect", EM, TQ2, TQ1, "--arrival-within=1000km"])
+    add("connect-torus-crossing-2", ["connect", EM, TQ2, TQ1, "--crossing=2"])
+    add("connect-torus-section-velocity", ["connect", EM, TQ2, TQ1, "--section=vx=0"])
+    add("connect-torus-section-sphere", ["connect", EM, TQ2, TQ1, "--section=sphere:moon:20000km"])
+    add("connect-torus-map", ["connect", EM, TQ2, TQ1, "--map={out}/m.png"])
+    add("connect-torus-max-tof-without-path", ["connect", EM, TQ2, TQ1, "--max-tof=10d"])
+    add("connect-torus-bad-request", ["connect", EM, "--from=lissajous L4 ay=1000km az=1000km", TQ1])
+    add("connect-torus-bad-amplitude", ["connect", EM, TQ2, "--to=quasi-halo around halo L1 north az=10000km "
+                                        "amplitude=-3km"])
+    add("connect-torus-around-lyapunov", ["connect", EM, TQ2, "--to=quasi-halo around lyapunov L1 ax=5000km "
+                                          "amplitude=300km"])
     # graph and route
     for name in ("binary", "deep", "folder", "missing"):
         add(f"graph-nodes-{name}", ["graph", "build", EM, f"--nodes={{in}}/{name}.toml", "--workers=1", "--no-catalog"])

@@ -5,7 +5,8 @@ circle, :mod:`cr3bp.tori.trajectory`), so a targeted leg from it to the state th
 trajectory reaches two days later is the natural flow: its Δv is zero up to the targeting
 tolerance (checked below 1 mm/s). The state two days on is computed independently with scipy's
 DOP853 (Hairer, Nørsett & Wanner, "Solving ODEs I", 1993, §II.10) from the circle's first point.
-Legs through manifolds (parking, capture, escape, section-hinted connections) are pruned for
+A leg from a parking orbit about the Moon to a torus (only a departure from an Earth parking
+orbit is built for a torus, tests/test_tori_transfers.py) is pruned for
 torus nodes with the reason (not built yet).
 """
 
@@ -49,16 +50,16 @@ name = "later"
 kind = "state"
 state = {[float(v) for v in later]}
 [[node]]
-name = "leo"
+name = "llo"
 kind = "parking"
-body = "earth"
-altitude = "200km"
+body = "moon"
+altitude = "100km"
 [[edge]]
 from = "ring"
 to = "later"
 both_ways = false
 [[edge]]
-from = "leo"
+from = "llo"
 to = "ring"
 both_ways = false
 '''
@@ -77,7 +78,7 @@ def test_torus_node_reference_state_and_ballistic_leg(nodes_text):
     legs = [r for r in (l.record() for l in res.legs) if r["from_name"] == "ring"]
     assert len(legs) == 1 and legs[0]["dv_mps"] < 1e-3, legs
     reasons = {(p["from"], p["to"]): p["reason"] for p in res.pruned}
-    assert "torus node 'ring'" in reasons[("leo", "ring")] and "parking" in reasons[("leo", "ring")]
+    assert "torus node 'ring'" in reasons[("llo", "ring")] and "Earth parking orbit" in reasons[("llo", "ring")]
 
 
 def test_bad_torus_node_names_file_line_and_key():

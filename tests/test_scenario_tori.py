@@ -202,11 +202,19 @@ def test_scenario_torus_refusals_before_writing(tmp_path, capsys, change, patter
     assert re.search(r"s\.toml:\d+: " + pattern, err), err
 
 
-def test_a_torus_is_not_a_transfer_end(tmp_path, capsys):
+def test_a_transfer_from_a_torus_to_a_parking_orbit_is_refused(tmp_path, capsys):
+    # a parking orbit to a torus is a transfer (tests/test_tori_transfers.py); the way back is not built
     text = SCENARIO.format(request=REQUEST, p0=0.0, p1=0.0) + (
-        '\n[[transfers]]\nname = "go"\nfrom = "parking earth 200km"\nto = "ring"\n')
+        '\n[[transfers]]\nname = "back"\nfrom = "ring"\nto = "parking earth 200km"\n')
     err = _refusal(tmp_path, capsys, text)
-    assert re.search(r"transfers\[0\]\.to: 'ring' is a torus", err), err
+    assert re.search(r"transfers\[0\]\.to: 'parking earth 200km': a transfer from the torus 'ring'", err), err
+
+
+def test_a_transfer_from_a_lunar_parking_orbit_to_a_torus_is_refused(tmp_path, capsys):
+    text = SCENARIO.format(request=REQUEST, p0=0.0, p1=0.0) + (
+        '\n[[transfers]]\nname = "down"\nfrom = "parking moon 100km"\nto = "ring"\n')
+    err = _refusal(tmp_path, capsys, text)
+    assert re.search(r"transfers\[0\]\.from: 'parking moon 100km': a leg from a parking orbit to the torus", err), err
 
 
 def test_orbit_table_without_family_or_torus_is_refused(tmp_path, capsys):

@@ -7,13 +7,14 @@ from cr3bp.vocabulary import COLLINEAR_POINTS, TUBE_BRANCHES
 from .. import common
 from . import _departure
 from . import _optimise
+from . import _torus_connect
 from . import _tube_options as to
 
 NAME = "connect"
 KERNELS = (("cr3bp.integrate.dop853", "integrate"), ("cr3bp.integrate.lanes", "integrate_lanes"))
 ORDER = 70
-HELP = ("connect two orbits (or a parking orbit and an orbit) through their manifolds, or design a departure "
-        "from an Earth parking orbit (--path): delta-v, time of flight")
+HELP = ("connect two orbits or tori (or a parking orbit and an orbit) through their manifolds, or design a "
+        "departure from an Earth parking orbit to an orbit or a torus (--path): delta-v, time of flight")
 EXAMPLE = ("librate connect --system earth-moon --from 'lyapunov L1 jacobi=3.15' "
            "--to 'lyapunov L2 jacobi=3.15' --section x=1-mu")
 
@@ -22,7 +23,13 @@ def add_arguments(p):
     common.add_system_options(p)
     p.add_argument("--from", dest="origin", required=True, metavar="WHAT",
                    help="departure: an orbit request ('lyapunov L1 jacobi=3.15', 'halo L1 north az=12000km', "
-                        "'state=X,Y,Z,VX,VY,VZ period=T') or a parking orbit ('parking earth 200km')")
+                        "'state=X,Y,Z,VX,VY,VZ period=T'), a parking orbit ('parking earth 200km') or a "
+                        "quasi-periodic torus request ('quasi-halo around halo L1 north az=10000km "
+                        "amplitude=300km', 'lissajous L2 ay=30000km az=20000km'). With a torus at one end or "
+                        "both, the leg joins the unstable manifold of the first to the stable manifold of "
+                        "the second on --section (a position plane; the torus phases are free); from "
+                        "'parking earth ALTITUDE' to a torus give --path direct (the insertion point free "
+                        "over both torus angles)")
     p.add_argument("--to", dest="target", required=True, metavar="WHAT", help="arrival, same forms as --from")
     p.add_argument("--section", default="x=1-mu", metavar="SECTION",
                    help="common section of the two tubes (orbit to orbit; default x=1-mu); a half-plane "
@@ -114,6 +121,8 @@ def run(args):
     pa, pb = parse_parking(args.origin, system), parse_parking(args.target, system)
     if getattr(args, "window", None) is not None and args.path != "low-energy":
         raise InputError("--window searches the launch dates of a low-energy transfer; give it with --path low-energy")
+    if any(_torus_connect.ends(args)):
+        return _torus_connect.run(args, system, pa, pb, t_max)
     if args.optimise:
         return _optimise.run(args, system, pa, pb, t_max)
     _optimise.check_unused(args)

@@ -71,6 +71,12 @@ def add_arguments(p):
     from .export import add_frame_options
     add_frame_options(p)
     common.add_plot_option(p, "draw the torus in three views and its invariance circle")
+    p.add_argument("--html", metavar="FILE",
+                   help="write a rotatable 3-D view of the torus (its surface swept by the trajectories "
+                   "of points of its invariance circle over one stroboscopic time, and the circle) to "
+                   "FILE, a standalone offline HTML page (.html or .htm; plotly.js written into it, "
+                   "about 4.7 MB; nothing fetched from a network); the caution is in the page. One "
+                   "torus: not with --members")
     common.add_output_options(p)
 
 
@@ -87,7 +93,7 @@ def run_from_orbit(args):
     for name, default in (("around", None), ("amplitude", None), ("members", None),
                           ("hold", "jacobi"), ("export", None), ("epoch", None),
                           ("span", None), ("step", None), ("export_format", None),
-                          ("phase", "0,0")):
+                          ("phase", "0,0"), ("html", None)):
         if not hasattr(args, name):
             setattr(args, name, default)
     return run(args)
@@ -180,6 +186,11 @@ def run(args):
         _check_output("--plot", args.plot)      # its suffix: cli.common.check_outputs
     if args.out:
         _check_output("--out", args.out)
+    if getattr(args, "html", None) is not None:
+        if members is not None:
+            raise InputError("--html draws one torus; it does not go with --members (use --plot "
+                             "for the family figure)")
+        _check_output("--html", args.html, (".html", ".htm"))
     plan = _export_plan(args, system, members)
     cat = oo.open_catalog(args)
     if tspec is not None:
@@ -227,6 +238,13 @@ def run(args):
         save(fig, args.plot, f"{what}, rotating frame of the circular restricted three-body "
              f"model, primaries to scale; {size}")
         common.progress(args, f"wrote {args.plot}")
+    if getattr(args, "html", None) is not None:
+        from cr3bp.io.atomic import write_text
+        from cr3bp.tori.figures import html_page
+        common.progress(args, "drawing the 3-D view of the torus...")
+        write_text(args.html, html_page(torus, description=what))
+        d["html"] = str(args.html)
+        common.progress(args, f"wrote {args.html}")
     common.emit(args, payload=d, headers=_HEADERS, rows=_rows(torus), table=_table(system, d, what),
                 comments=[f"invariance circle of the {what}: "
                           "theta (rad) and the state (nondimensional, rotating frame)"])

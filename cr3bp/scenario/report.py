@@ -128,9 +128,15 @@ def _routes_section(routes, figures, views=None, stitched=None, orbits=None) -> 
         if views is not None and (stitched or {}).get(name) is not None:
             from ..plotting.interactive import route_figure  # lazy: heavy library (matplotlib, via cr3bp.plotting.interactive)
             st = stitched[name]
+            from .tori import is_torus  # lazy: only for tori
             joined = [orbits[n] for n in st.nodes if n in (orbits or {})]
-            html += views.html(route_figure(st, joined, title=f"transfer '{name}': the best route stitched "
-                                                                f"(Δv {st.dv_total_mps:.6g} m/s, {st.tof_days:.4f} d, CR3BP)"),
+            fig3 = route_figure(st, [o for o in joined if not is_torus(o)],
+                                title=f"transfer '{name}': the best route stitched "
+                                      f"(Δv {st.dv_total_mps:.6g} m/s, {st.tof_days:.4f} d, CR3BP)")
+            for t in (o for o in joined if is_torus(o)):
+                from ..tori.figures import interactive_figure  # lazy: heavy library (plotly), only for tori
+                interactive_figure(t, fig=fig3, n_circle=24, n_time=80, colour="#999999")
+            html += views.html(fig3,
                                f"Transfer '{name}' in 3-D: the stitched trajectory (orange), its maneuvers "
                                "(diamonds) and the orbits it joins (grey); rotating frame of the CR3BP.")
     return html

@@ -74,8 +74,9 @@ RENAMED_CHECKS = {
 }
 TRANSFER_KEYS = {
     "name": (S, True, "name of the transfer"),
-    "from": (S, True, "start: 'parking earth 200km' or the name of an orbit"),
-    "to": (S, True, "end: the name of an orbit or a parking orbit"),
+    "from": (S, True, "start: 'parking earth 200km' or the name of an orbit (a periodic orbit or a torus)"),
+    "to": (S, True, "end: the name of an orbit (a periodic orbit or a torus) or a parking orbit (not after "
+                    "a torus)"),
     "via": ("list[str]", False, "names of orbits to pass through, in order"),
     "max_dv": (Q, False, "cap on total delta-v"),
     "max_tof": (Q, False, "cap on time of flight"),

@@ -101,6 +101,10 @@ def transfer_nodes(plan, index: int, transfer: dict):
                 if len(parts) != 3:
                     raise InputError(f"'{n}' must read 'parking BODY ALTITUDE', e.g. 'parking earth 200km'")
                 nodes.append(parking_node(n, system, parts[1], parts[2]))
+            elif "torus" in plan.data["orbits"][n]:
+                # a torus: its node's reference state is the torus at phase (0, 0); a leg from a
+                # parking orbit is a direct departure over both torus angles (cr3bp.tori.departure)
+                nodes.append(orbit_node(n, system, plan.data["orbits"][n]["torus"]))
             else:
                 nodes.append(orbit_node(n, system, orbit_text(plan.data["orbits"][n])))
         except InputError as e:
@@ -309,7 +313,9 @@ def _figures(plan, transfer, orbits, ranked, front, st, out):
         return {}
     figures = {}
     legs = list(ranked[0].legs)
-    ax = plot_corridor(st, legs, tubes=corridor_tubes(route_orbits(transfer, orbits)))
+    from .tori import is_torus  # lazy: only for tori
+    periodic = [o for o in route_orbits(transfer, orbits) if not is_torus(o)]   # tori have no orbit tubes
+    ax = plot_corridor(st, legs, tubes=corridor_tubes(periodic))
     figures[f"corridor-{name}"] = save_figures(
         ax.figure, out, f"corridor-{name}", formats,
         f"{plan.name}: transfer '{name}', the best route stitched by multiple shooting over the "

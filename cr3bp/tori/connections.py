@@ -1,5 +1,7 @@
 """Connections from a hyperbolic torus's unstable manifold to a periodic orbit's stable manifold
-on a Poincaré section (a patch with one Δv), as a :class:`cr3bp.transfers.leg.Leg`.
+on a Poincaré section (a patch with one Δv), as a :class:`cr3bp.transfers.leg.Leg`; and between
+two tori (:func:`connect_torus_to_torus`: the unstable manifold of one, the stable manifold of the
+other, four unknowns: both tori's departure phases).
 
 Method: both half-manifolds are grown to the section (:func:`cr3bp.tori.manifolds.grow_tube`,
 :func:`cr3bp.tubes.manifolds.grow_tube`); the pairs of crossings nearest in the matched
@@ -32,6 +34,10 @@ PATCH_TOL = 1e-10
 MAX_ITER = 25
 #: Candidate pairs refined (nearest first).
 CANDIDATES = 5
+#: Crossings nearer a primary's centre than this many of its radii are not refined.
+GRAZE = 1.5
+#: Step halvings tried when a Newton step of the torus-to-torus patch does not lower the residual.
+BACKTRACK = 12
 
 
 class _TorusEnd:
@@ -169,4 +175,177 @@ def _refine(t_end, o_end, x, names, T, To, torus_first, tol=PATCH_TOL):
                            f"(residual {res[-1]:.3e})", MAX_ITER, res, x)
 
 
-__all__ = ["connect_torus_to_orbit", "connect_orbit_to_torus"]
+def connect_torus_to_torus(torus_a, torus_b, section, n_points=100, *, branch_a="interior",
+                           branch_b="interior", step_km=None, t_max=2 * math.pi):
+    """The cheapest patch connections from ``torus_a``'s unstable manifold to ``torus_b``'s
+    stable manifold on ``section`` (a position plane ``x = c``, ``y = c`` or ``z = c``).
+
+    Both half-manifolds are grown to the section (:func:`cr3bp.tori.manifolds.grow_tube`); the
+    pairs of crossings nearest in the in-section position coordinates are refined by Newton's
+    method (minimum-norm update, forward-difference partials) on the four departure phases
+    ``(tau_a, phi_a, tau_b, phi_b)`` (time along each stroboscopic period, circle angle at
+    departure) until the positions match; the velocity jump there is the leg's Δv.
+
+    Parameters
+    ----------
+    torus_a, torus_b : cr3bp.tori.Torus
+        The departure and arrival tori (hyperbolic; one system).
+    section : str or Section
+        A position plane, e.g. ``"x=1-mu"``.
+    n_points : int, optional
+        Departure points of each manifold (a grid on its torus).
+    branch_a, branch_b : {"interior", "exterior"}, optional
+        Half-manifolds.
+    step_km : float or str, optional
+        Step-off distance (default as for orbit tubes).
+    t_max : float, optional
+        Time limit per trajectory, TU.
+
+    Returns
+    -------
+    list of Leg
+        Cheapest first; method ``"torus-manifold"``, kind ``"torus-to-torus"``; ``details``
+        holds both tori's departure phases (``torus_tau``, ``torus_circle_angle`` of the
+        departing torus, ``arrival_torus_tau``, ``arrival_torus_circle_angle``).
+
+    Raises
+    ------
+    InputError
+        A section that is not a position plane, or tori of two systems.
+    NoSolutionError
+        A manifold does not reach the section, a torus is not hyperbolic, or no candidate
+        converges.
+
+    Examples
+    --------
+    Skipped under doctest (two tori and their manifolds take minutes):
+
+    >>> from cr3bp import system
+    >>> from cr3bp.tori import request
+    >>> em = system("earth-moon")
+    >>> a = request.solve(em, "quasi-halo around halo L1 north az=10000km amplitude=300km")   # doctest: +SKIP
+    >>> legs = connect_torus_to_torus(a, a, "y=0")                                             # doctest: +SKIP
+
+    References
+    ----------
+    Gómez, Koon, Lo, Marsden, Masdemont & Ross, "Connecting orbits and invariant manifolds in the
+    spatial restricted three-body problem", Nonlinearity 17, 2004, §4 (patch connections);
+    Gómez & Mondelo, Physica D 157, 2001, §5 (manifolds of tori); Olikara, PhD thesis,
+    University of Colorado, 2016, ch. 5 (torus-to-torus connections).
+    """
+    system = torus_a.system
+    if torus_b.system.mu != system.mu:
+        raise InputError("the two tori belong to different systems")
+    sec = parse_section(section, system) if isinstance(section, str) else section
+    if sec.kind != "plane" or sec.coordinate > 2:
+        raise InputError("torus connections need a position plane such as x=1-mu or y=0")
+    stop = Stop(sec, 1, float(t_max))
+    names = tuple("xyz"[c] for c in (0, 1, 2) if c != sec.coordinate)
+    ta = grow_tube(torus_a, "unstable", branch_a, n_points, stop, step_km=step_km)
+    tb = grow_tube(torus_b, "stable", branch_b, n_points, stop, step_km=step_km)
+    ia = np.nonzero(ta.reached("section"))[0]
+    ib = np.nonzero(tb.reached("section"))[0]
+    if ia.size == 0 or ib.size == 0:
+        raise NoSolutionError(f"the {'departure' if ia.size == 0 else 'arrival'} torus's manifold does not reach "
+                              f"{sec.label} within {t_max:.4g} TU")
+    pa = np.array([_coords(ta.end_states[i], names) for i in ia])
+    pb = np.array([_coords(tb.end_states[j], names) for j in ib])
+    d = np.linalg.norm(pa[:, None, :] - pb[None, :, :], axis=2)
+    order = _spread_pairs(system, d, ta.end_states[ia], tb.end_states[ib], pa)
+    end_a, end_b = _TorusEnd(ta, stop), _TorusEnd(tb, stop)
+    Ta, Tb = torus_a.stroboscopic_time, torus_b.stroboscopic_time
+    legs, reasons = [], []
+    for ka, kb in order:
+        i, j = ia[ka], ib[kb]
+        x = np.array([ta.t_orbit[i], ta.circle_phase[i] - torus_a.rotation * ta.t_orbit[i] / Ta,
+                      tb.t_orbit[j], tb.circle_phase[j] - torus_b.rotation * tb.t_orbit[j] / Tb], dtype=float)
+        try:
+            x, ea, eb = _refine_two(end_a, end_b, x, names, Ta, Tb)
+        except ConvergenceError as e:
+            reasons.append(str(e))
+            continue
+        legs.append(_leg_from_patch(system, ea, eb, float(x[0]), float(x[2]), ta, tb, "torus-to-torus",
+                                    "torus-manifold",
+                                    {"section": sec.label, "torus_tau": float(x[0]),
+                                     "torus_circle_angle": float(x[1]), "arrival_torus_tau": float(x[2]),
+                                     "arrival_torus_circle_angle": float(x[3])}))
+    if not legs:
+        raise NoSolutionError("no torus-to-torus patch converged: " + "; ".join(reasons[:3]))
+    return sorted(legs, key=lambda lg: lg.dv_mps)
+
+
+def _spread_pairs(system, d, ends_a, ends_b, pa):
+    """Up to CANDIDATES pairs (rows of ``d``: departing crossings, columns: arriving), nearest
+    first, leaving out crossings that graze a primary (within GRAZE body radii of its centre:
+    Newton steps there fall into the body) and pairs whose departing crossing lies within twice
+    the pair's distance of an earlier candidate's (so the candidates are different places)."""
+    near = np.zeros(len(ends_a), bool), np.zeros(len(ends_b), bool)
+    r = system.radii if system.dimensional else (0.0, 0.0)
+    for k, (c, rb) in enumerate(zip(system.positions, r)):
+        for side, e in enumerate((ends_a, ends_b)):
+            near[side][np.linalg.norm(e[:, :3] - np.array([c, 0.0, 0.0]), axis=1) < GRAZE * rb] = True
+    dd = d.copy()
+    dd[near[0], :] = np.inf
+    dd[:, near[1]] = np.inf
+    out = []
+    for flat in np.argsort(dd, axis=None):
+        i, j = np.unravel_index(flat, dd.shape)
+        if not np.isfinite(dd[i, j]):
+            break
+        if all(np.linalg.norm(pa[i] - pa[k]) > 2 * dd[i, j] for k, _ in out):
+            out.append((i, j))
+        if len(out) >= CANDIDATES:
+            break
+    return out
+
+
+def _refine_two(end_a, end_b, x, names, Ta, Tb, tol=PATCH_TOL):
+    """Newton (minimum-norm) on (tau_a, phi_a, tau_b, phi_b) matching the in-section positions of
+    the departing torus's trajectory and the arriving one's."""
+    h = np.array([1e-7 * Ta, 1e-7, 1e-7 * Tb, 1e-7])
+    lim = np.array([0.1 * Ta, 0.3, 0.1 * Tb, 0.3])
+    res = []
+
+    def ends(x):
+        ea, eb = end_a.end(x[0], x[1]), end_b.end(x[2], x[3])
+        if ea[3] != "section" or eb[3] != "section":
+            return None
+        return ea, eb, _coords(ea[2], names) - _coords(eb[2], names)
+
+    got = ends(x)
+    if got is None:
+        raise ConvergenceError("a trajectory of the pair does not reach the section", 0, res, x)
+    for it in range(MAX_ITER):
+        ea, eb, f = got
+        ca, cb = _coords(ea[2], names), _coords(eb[2], names)
+        res.append(float(np.linalg.norm(f)))
+        if res[-1] < tol:
+            return x, ea, eb
+        cols = []
+        for k in range(4):
+            xk = x.copy()
+            xk[k] += h[k]
+            if k < 2:
+                fk = _coords(end_a.end(xk[0], xk[1])[2], names) - cb
+            else:
+                fk = ca - _coords(end_b.end(xk[2], xk[3])[2], names)
+            cols.append((fk - f) / h[k])
+        step = np.linalg.lstsq(np.column_stack(cols), -f, rcond=None)[0]
+        scale = np.max(np.abs(step) / lim)
+        if scale > 1:
+            step /= scale
+        # backtracking: halve the step while a trajectory misses the section or the residual grows
+        for _ in range(BACKTRACK):
+            trial = ends(x + step)
+            if trial is not None and np.linalg.norm(trial[2]) < res[-1]:
+                break
+            step = step / 2
+        else:
+            raise ConvergenceError("a refined trajectory no longer reaches the section (or the residual "
+                                   f"stopped falling at {res[-1]:.3e})", it, res, x)
+        x, got = x + step, trial
+    raise ConvergenceError(f"torus-to-torus patch refinement did not converge in {MAX_ITER} iterations "
+                           f"(residual {res[-1]:.3e})", MAX_ITER, res, x)
+
+
+__all__ = ["connect_torus_to_orbit", "connect_orbit_to_torus", "connect_torus_to_torus"]

@@ -74,3 +74,63 @@ def interactive_figure(torus, name=None, n_circle=48, n_time=160, fig=None, colo
     ring = evaluate(torus.circle, np.linspace(0.0, 2 * np.pi, 200))
     add_curve(fig, system, ring, f"{label}: invariance circle", colour="#202020", width=5)
     return framed(fig)
+
+
+def html_page(torus, name=None, description="") -> str:
+    """A standalone, offline HTML page of the torus's 3-D view (:func:`interactive_figure`), with
+    the full caution and the model the numbers belong to written in the page above the figure.
+
+    Parameters
+    ----------
+    torus : cr3bp.tori.Torus
+        The torus to draw.
+    name : str, optional
+        Its label in the figure (default: family, point and branch).
+    description : str, optional
+        One line said under the page's heading (e.g. the request text).
+
+    Returns
+    -------
+    str
+        The page: plotly.js written into it once (about 4.7 MB), nothing fetched from a network.
+
+    Raises
+    ------
+    ImportError
+        plotly is not installed.
+
+    Examples
+    --------
+    >>> from cr3bp.tori.figures import html_page
+    >>> page = html_page(torus)          # doctest: +SKIP
+    >>> "CAUTION" in page                # doctest: +SKIP
+    True
+
+    References
+    ----------
+    Offline interactive figures: plotly's ``Figure.to_html(include_plotlyjs=True)``
+    (plotly documentation, "Interactive HTML Export in Python").
+    """
+    from html import escape  # lazy: only when a page is written
+
+    from ..cautions import caution  # lazy: only when a page is written
+    fig = interactive_figure(torus, name=name)
+    body = fig.to_html(full_html=False, include_plotlyjs=True, include_mathjax=False,
+                       config={"displaylogo": False, "responsive": True}, div_id="torus-3d")
+    system = torus.system
+    label = name or " ".join(w for w in (torus.family, torus.point, torus.branch) if w) or "torus"
+    per = (f"{torus.stroboscopic_period_days:.6f} d" if system.dimensional
+           else f"{torus.stroboscopic_time:.9f} TU")
+    facts = (f"Jacobi constant {torus.jacobi:.12f}; stroboscopic period {per}; rotation "
+             f"{torus.rotation_deg:.6f} deg per stroboscopic time; invariance error "
+             f"{torus.invariance_error:.1e}. Distances, times and the surface belong to the circular "
+             "restricted three-body model (rotating frame).")
+    title = f"{system.name}: {label} torus (CR3BP)"
+    return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
+            f"<title>{escape(title)}</title></head><body style=\"font-family: sans-serif\">\n"
+            f"<h1 style=\"font-size: 1.2em\">{escape(title)}</h1>\n"
+            f"<p id=\"caution\" class=\"caution\" style=\"border: 2px solid #b00; padding: 0.5em\"><strong>"
+            f"{escape(caution())}</strong></p>\n"
+            + (f"<p>{escape(description)}</p>\n" if description else "")
+            + f"<p>{escape(facts)}</p>\n{body}\n"
+            f"<p class=\"caution\">{escape(caution())}</p>\n</body></html>\n")

@@ -484,6 +484,10 @@ def _manifold_leg(system, task) -> Leg:
     found, reasons = [], []
     for sec in st["sections"]:
         try:
+            if torus_from and torus_to:
+                from ..tori import connections as tc  # lazy: only for tori
+                found += tc.connect_torus_to_torus(a, b, sec, n_points=st["tube_points"])
+                continue
             if torus_from or torus_to:
                 from ..tori import connections as tc  # lazy: only for tori
                 found += (tc.connect_torus_to_orbit(a, b, sec, n_points=st["tube_points"]) if torus_from else
@@ -522,7 +526,15 @@ def _parking_leg(system, task) -> Leg:
     exterior), in shooting form."""
     st = task["settings"]
     arrive = st["arrive"]                     # parking -> orbit
-    orbit = _orbit_from_plain(system, task["to" if arrive else "from"]["orbit_data"])
+    data = task["to" if arrive else "from"]["orbit_data"]
+    if data.get("torus"):
+        # a torus: the direct departure with the insertion point free over both torus angles
+        # (cr3bp.tori.departure; plan() lets only Earth departures in Earth-Moon through)
+        from ..tori.departure import design_torus_departure  # lazy: only for tori
+        dep = design_torus_departure(_torus_from_plain(system, data), st["altitude_km"],
+                                     inclination_deg=st.get("inclination_deg"))
+        return as_leg(dep, st["patches"])
+    orbit = _orbit_from_plain(system, data)
     departs = arrive and system.name == "earth-moon" and str(st["body"]).lower() == "earth"
     if st.get("path") == "low-energy":
         return _low_energy_leg(orbit, st)
@@ -546,6 +558,12 @@ def _parking_leg(system, task) -> Leg:
         return _direct_departure_leg(orbit, st)
     best = min(found, key=lambda lg: (lg.dv_mps, lg.tof))
     return best.with_patches(st["patches"])
+
+
+def _earth_departure(system, node) -> bool:
+    """Whether the parking node ``node`` is about the Earth in the Earth-Moon system (a direct
+    departure from it can be designed)."""
+    return system.name == "earth-moon" and str(node.body).lower() == "earth"
 
 
 def _direct_departure_leg(orbit, st) -> Leg:
@@ -806,19 +824,22 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
                            f"periapsis, or a direct departure from an Earth parking orbit in Earth-Moon), "
                            f"not the {other.kind} node '{other.name}'")
         for n in (a, b):
-            hinted = bool(h and h.sections)
             if why is None and isinstance(n, OrbitNode) and n.is_torus and (
-                    isinstance(a, (ParkingNode, BoundaryNode)) or isinstance(b, (ParkingNode, BoundaryNode))
-                    or (hinted and getattr(a, "is_torus", False) and getattr(b, "is_torus", False))):
-                why = (f"torus node '{n.name}': of the legs through manifolds only section-hinted connections "
-                       "between a torus and a periodic orbit are built; parking, capture and escape legs of tori "
-                       "and torus-to-torus connections are not yet; a targeted leg departs or arrives at the "
-                       "torus's reference state (phase 0, 0)")
+                    isinstance(a, BoundaryNode) or isinstance(b, BoundaryNode)
+                    or (isinstance(a, ParkingNode) and not _earth_departure(system, a))
+                    or isinstance(b, ParkingNode)):
+                why = (f"torus node '{n.name}': of the parking, capture and escape legs only a direct departure "
+                       "from an Earth parking orbit in Earth-Moon to a torus is built (cr3bp.tori.departure); "
+                       "returns to a parking orbit, captures and escapes of tori are not yet; a targeted leg "
+                       "departs or arrives at the torus's reference state (phase 0, 0)")
         low_energy = bool(h and h.path == "low-energy")
         if why is None and low_energy and not isinstance(a, ParkingNode):
             # (the other direction of a both-ways hint: a low-energy leg only departs)
             why = (f"a low-energy leg leaves an Earth parking orbit; the return {a.name} -> {b.name} "
                    "is not designed")
+        if why is None and low_energy and getattr(b, "is_torus", False):
+            why = (f"torus node '{b.name}': low-energy legs to a torus are not designed (a direct "
+                   "departure to a torus is)")
         sa, sb = states[a.id], states[b.id]
         maneuvers = h.maneuvers if h else "ends"
         if why is None and not isinstance(b, BoundaryNode):   # a boundary has no state: the manifold decides

@@ -1,0 +1,190 @@
+"""librate connect with a quasi-periodic torus at one end or both: manifold connections between a
+torus and a periodic orbit or another torus on a section (:mod:`cr3bp.tori.connections`), and
+direct departures from an Earth parking orbit to a torus (``--path direct``,
+:mod:`cr3bp.tori.departure`)."""
+
+from .. import common
+
+
+def ends(args):
+    """(from is a torus request, to is a torus request)."""
+    from cr3bp.tori.request import is_torus_request
+    return is_torus_request(args.origin), is_torus_request(args.target)
+
+
+def run(args, system, pa, pb, t_max):
+    """Every refusal first, then the legs, through connect's own table."""
+    from cr3bp.errors import InputError
+    from .manifold import torus_request
+    ta, tb = ends(args)
+    if args.optimise:
+        raise InputError("--optimise designs transfers between periodic orbits; it does not take a torus "
+                         f"({args.origin if ta else args.target!r})")
+    if pb is not None:
+        raise InputError(f"a leg from a torus to a parking orbit is not built yet; --to {args.target!r} is a "
+                         "parking orbit")
+    from . import _optimise
+    _optimise.check_unused(args)
+    if args.path is not None:
+        if ta:
+            raise InputError(f"--path {args.path} designs a departure from a parking orbit: --from must be "
+                             f"'parking earth ALTITUDE', not the torus {args.origin!r}")
+        return _departure(args, system, pa, torus_request(system, args.target, args))
+    if pa is not None:
+        raise InputError(f"from a parking orbit to a torus, give --path direct (a direct departure, the "
+                         f"insertion point free over the torus); manifold legs through periapsis of tori "
+                         f"are not built yet ({args.origin!r} -> {args.target!r})")
+    if args.epoch is not None:
+        raise InputError("--epoch dates a low-energy transfer; give it with --path low-energy")
+    if args.map:
+        raise InputError("--map draws the periapsis map of a parking-orbit leg; one end must be 'parking ...'")
+    if args.arrival_within is not None:
+        raise InputError(f"--arrival-within {args.arrival_within!r} measures the approach to an arrival "
+                         "periodic orbit; it does not apply to a leg with a torus")
+    if args.crossing != 1:
+        raise InputError(f"--crossing {args.crossing}: connections with a torus use the first crossing "
+                         "of the section")
+    for name, d in (("--max-tof", args.max_tof), ("--inclination", args.inclination),
+                    ("--min-flyby-altitude", args.min_flyby_altitude)):
+        if d is not None:
+            raise InputError(f"{name} goes with --path (a departure from a parking orbit)")
+    from cr3bp.tubes.sections import parse_section
+    sec = parse_section(args.section, system)
+    if sec.kind != "plane" or sec.coordinate > 2:
+        raise InputError(f"--section {args.section!r}: connections with a torus need a position plane such as "
+                         "x=1-mu or y=0")
+    from . import _tube_options as to
+    spec_a = torus_request(system, args.origin, args) if ta else None
+    spec_b = torus_request(system, args.target, args) if tb else None
+    ob = None if tb else to.orbit_from_request(system, args.target, args)
+    oa = None if ta else to.orbit_from_request(system, args.origin, args)
+    from cr3bp.tori import connections as tc
+    from cr3bp.tori import request as treq
+    say = (lambda m: common.progress(args, m, verbose_only=True))
+    if ta:
+        common.progress(args, f"librate connect: solving the torus '{args.origin}'...")
+        oa = treq.solve(system, spec_a, progress=say)
+    if tb:
+        common.progress(args, f"librate connect: solving the torus '{args.target}'...")
+        ob = treq.solve(system, spec_b, progress=say)
+    n = args.points or 100
+    fb, tb_ = args.from_branch or "interior", args.to_branch or "interior"
+    common.progress(args, f"librate connect: growing two manifolds of {n} trajectories to {args.section} "
+                    "and refining the nearest pairs...")
+    kw = dict(n_points=n, branch_a=fb, branch_b=tb_, step_km=args.step_off, t_max=t_max)
+    if ta and tb:
+        legs = tc.connect_torus_to_torus(oa, ob, sec, **kw)
+    elif ta:
+        legs = tc.connect_torus_to_orbit(oa, ob, sec, **kw)
+    else:
+        legs = tc.connect_orbit_to_torus(oa, ob, sec, **kw)
+    legs = legs[:args.candidates]
+    return _emit_legs(args, system, legs, oa, ob, f"unstable ({fb}) and stable ({tb_}) manifolds cut by "
+                      f"{args.section}, positions matched by Newton's method on the departure phases")
+
+
+def _emit_legs(args, system, legs, a, b, how):
+    import math
+
+    from .connect import HEADERS, _tof_text
+    rows = [[k + 1, g.kind, g.dv_mps, g.tof_arrival_days, g.tof_days,
+             None if math.isnan(g.arrival_distance_km) else g.arrival_distance_km, *map(float, g.patch_state),
+             None if math.isinf(g.min_altitude_km) else g.min_altitude_km] for k, g in enumerate(legs)]
+    best = legs[0]
+    d = best.details
+    head = [f"{args.origin} -> {args.target}: {len(legs)} leg(s) via {how}",
+            f"best: {best.kind}, CR3BP dv {best.dv_mps:.6g} m/s at the patch, {_tof_text(best)}",
+            f"method: {best.method}; Jacobi constants {d['jacobi_from']:.10f} -> {d['jacobi_to']:.10f}",
+            "torus phases of the best leg (deg, stroboscopic phase and circle angle at departure from the "
+            "torus): " + _phases(best.kind, d, a, b),
+            "tof_stepoff_days: step-off point on the departure torus or orbit to the step-off point on the "
+            "arrival one; patch: the matched point on the section (rotating frame, nondimensional)"]
+    if args.plot:
+        from cr3bp.plotting import save
+        from cr3bp.plotting.manifolds import plot_connection
+        common.progress(args, "drawing the connection...")
+        ax = plot_connection(legs[:3], [])
+        save(ax.figure, args.plot, f"{args.origin} -> {args.target}; best dv {best.dv_mps:.4g} m/s, "
+             f"{_tof_text(best)}; rotating frame (CR3BP)")
+        common.progress(args, f"wrote {args.plot}")
+    table = "\n".join(head) + "\n\n" + common.format_table(HEADERS, rows)
+    common.emit(args, payload={"from": args.origin, "to": args.target, "model": "cr3bp",
+                               "legs": [g.to_dict() for g in legs]},
+                headers=HEADERS, rows=rows, table=table, comments=head)
+    return 0
+
+
+def _phases(kind, d, a, b):
+    import math
+    out = []
+    first = (b, "to") if kind == "orbit-to-torus" else (a, "from")
+    for key, (torus, side) in (("torus", first), ("arrival_torus", (b, "to"))):
+        tau = d.get(f"{key}_tau")
+        if tau is None:
+            continue
+        th0 = math.degrees(2 * math.pi * (tau / torus.stroboscopic_time) % (2 * math.pi)) % 360.0
+        th1 = math.degrees(d[f"{key}_circle_angle"] + torus.rotation * tau / torus.stroboscopic_time) % 360.0
+        out.append(f"{side} {th0:.3f}, {th1:.3f}")
+    return "; ".join(out) or "-"
+
+
+HEADERS = ["maneuver", "t_days", "dv_mps", "x_km", "y_km", "z_km"]
+
+
+def _departure(args, system, parking, spec):
+    """--path direct from 'parking earth ALT' to a torus (the insertion point free over both
+    torus angles)."""
+    from cr3bp.errors import InputError
+    from . import _departure as depcli
+    if args.path != "direct":
+        raise InputError(f"--path {args.path} to a torus is not built yet; to a torus, --path direct")
+    if getattr(args, "epoch", None) is not None:
+        raise InputError(f"--epoch dates a low-energy transfer; it does not apply with --path {args.path}")
+    alt, tof, inc, _ = depcli.check(args, system, parking)
+    from cr3bp.tori import request as treq
+    from cr3bp.tori.departure import design_torus_departure
+    common.progress(args, f"librate connect: solving the torus '{args.target}'...")
+    torus = treq.solve(system, spec, progress=lambda m: common.progress(args, m, verbose_only=True))
+    common.progress(args, f"librate connect: designing a direct departure from {args.origin} to the torus "
+                    "(two-body first guesses over both torus angles, then optimisation in the CR3BP)...")
+    dep = design_torus_departure(torus, alt, inclination_deg=inc, max_tof_days=tof)
+    d = dep.to_dict()
+    d["to"] = args.target
+    d["torus_phase_deg"] = dep.details["torus_phase_deg"]
+    rows = [[m["name"], m["t_days"], m["dv_mps"], *m["position_km"]] for m in d["maneuvers"]]
+    th0, th1 = dep.details["torus_phase_deg"]
+    head = [f"{args.origin} -> {args.target}: direct departure to the torus "
+            f"({'optimised' if dep.optimised else 'first guess: the optimiser stopped short of its tolerance'})",
+            f"CR3BP total dv {dep.dv_mps:.1f} m/s: departure {dep.departure_dv_mps:.1f} m/s, insertion "
+            f"{d['maneuvers'][-1]['dv_mps']:.1f} m/s",
+            f"CR3BP time of flight {dep.tof_days:.3f} d (departure burn to insertion burn)",
+            f"insertion on the torus at phase theta0 {th0:.3f} deg (along the stroboscopic time), theta1 "
+            f"{th1:.3f} deg (around the invariance circle); Jacobi constant of the torus {torus.jacobi:.10f}",
+            f"departure: C3 {dep.c3_km2_s2:.4f} km^2/s^2 (two-body, Earth), Earth-relative speed "
+            f"{dep.departure_speed_kms:.4f} km/s after the burn, parking-orbit inclination "
+            f"{dep.inclination_deg:.2f} deg to the Moon's orbit plane",
+            "positions: Earth-Moon rotating frame, origin at the barycentre; t from the departure burn",
+            f"check: forward re-propagation of the transfer closes on the insertion point within "
+            f"{dep.details['closure_km']:.2e} km"]
+    if args.plot:
+        from cr3bp.plotting import save
+        from cr3bp.plotting.departures import plot_departure
+        common.progress(args, "drawing the departure...")
+        # the target drawn: the torus trajectory from the insertion point over one stroboscopic time
+        import dataclasses
+        from types import SimpleNamespace
+
+        import numpy as np
+        ins = dep.maneuvers[-1]
+        arc = SimpleNamespace(system=system, period=torus.stroboscopic_time,
+                              state=np.asarray(ins["state_before"], dtype=float) + np.r_[0, 0, 0, ins["dv_vector"]],
+                              family=torus.family, point=torus.point, branch=torus.branch)
+        save(plot_departure(dataclasses.replace(dep, orbit=arc)), args.plot, f"{args.origin} -> {args.target}, direct: CR3BP total dv "
+             f"{dep.dv_mps:.0f} m/s, time of flight {dep.tof_days:.2f} d; grey: the torus trajectory from the "
+             "insertion point over one stroboscopic period; rotating Earth-Moon frame, positions in km from "
+             "the barycentre")
+        common.progress(args, f"wrote {args.plot}")
+    table = "\n".join(head) + "\n\n" + common.format_table(HEADERS, rows)
+    common.emit(args, payload={"from": args.origin, "to": args.target, "model": "cr3bp", "legs": [d]},
+                headers=HEADERS, rows=rows, table=table, comments=head)
+    return 0
