@@ -77,6 +77,11 @@ TRANSFER_KEYS = {
     "from": (S, True, "start: 'parking earth 200km' or the name of an orbit"),
     "to": (S, True, "end: the name of an orbit or a parking orbit"),
     "via": ("list[str]", False, "names of orbits to pass through, in order"),
+    "path": (words.one_of(words.CR3BP_DEPARTURE_PATHS), False,
+             "with 'from' an Earth parking orbit (earth-moon): how the spacecraft leaves it, 'direct' "
+             "(departure burn, coast, insertion burn) or 'lunar-flyby' (departure burn, powered lunar "
+             "flyby at 100 km or higher, insertion burn); default: a manifold leg where one reaches the "
+             "parking orbit, else 'direct'"),
     "max_dv": (Q, False, "cap on total delta-v"),
     "max_tof": (Q, False, "cap on time of flight"),
     "best": (I, False, "how many ranked routes to keep"),

@@ -524,6 +524,12 @@ def _parking_leg(system, task) -> Leg:
     arrive = st["arrive"]                     # parking -> orbit
     orbit = _orbit_from_plain(system, task["to" if arrive else "from"]["orbit_data"])
     departs = arrive and system.name == "earth-moon" and str(st["body"]).lower() == "earth"
+    if st.get("path") is not None:
+        # a departure path asked for: that design, no manifold search
+        if not departs:
+            raise NoSolutionError(f"departure path '{st['path']}' leaves an Earth parking orbit in the "
+                                  "Earth-Moon system for a periodic orbit; this leg is not such a departure")
+        return _direct_departure_leg(orbit, st)
     if not manifold_may_reach(orbit, st["body"], st["altitude_km"]):
         # no manifold of this orbit comes down to the parking orbit: no periapsis search (it
         # cannot succeed); a departure goes straight to the direct design, a return has none
@@ -547,10 +553,11 @@ def _parking_leg(system, task) -> Leg:
 
 
 def _direct_departure_leg(orbit, st) -> Leg:
-    """The direct departure (:func:`cr3bp.transfers.departure.design_departure`) from the
-    parking orbit of the task settings ``st`` (its altitude and, when given, its inclination
-    to the Moon's orbit plane) to ``orbit``, as a leg."""
-    dep = design_departure(orbit, st["altitude_km"], path="direct", inclination_deg=st.get("inclination_deg"))
+    """The departure (:func:`cr3bp.transfers.departure.design_departure`) from the parking orbit
+    of the task settings ``st`` (its altitude and, when given, its inclination to the Moon's
+    orbit plane) to ``orbit`` by the path ``st["path"]`` (direct when not given), as a leg."""
+    dep = design_departure(orbit, st["altitude_km"], path=st.get("path") or "direct",
+                           inclination_deg=st.get("inclination_deg"))
     return as_leg(dep, st["patches"])
 
 
@@ -825,6 +832,8 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
                         "altitude_km": park.altitude_km, "arrive": park is a,
                         "inclination_deg": park.inclination_deg,
                         "max_patch_dv_mps": h.max_patch_dv_mps if h else None, "tube_points": PARKING_POINTS}
+            if park.path is not None and park is a:    # a departure path asked for (a scenario's 'path')
+                settings["path"] = park.path
         elif h and h.sections and isinstance(a, OrbitNode) and isinstance(b, OrbitNode):
             # manifold connection on the hinted section(s): unstable tube of a, stable of b
             method = "manifold"
