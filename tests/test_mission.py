@@ -210,7 +210,7 @@ def test_demo_scenario_end_to_end(tmp_path):
     assert [m["name"] for m in route["maneuvers"]] == ["departure", "insertion"]
     assert 3100.0 < dep["departure_dv_mps"] < 3200.0       # published 3.1-3.2 km/s (from memory)
     html = (out / "report.html").read_text()
-    for label in ("departure burn Δv [m/s] (CR3BP)", "C3 [km²/s²] (two-body energy about the Earth",
+    for label in ("departure burn Δv [m/s] (CR3BP)", "C3 [km²/s²] (v² − 2μ/r about the Earth",
                   "Earth-relative speed after the burn [km/s] (CR3BP", "inclination of the parking orbit [deg]",
                   "insertion burn Δv [m/s] (CR3BP)"):
         assert label in html, label

@@ -189,7 +189,7 @@ def test_demo_departure_equals_connect_direct(runs, demo):
     assert d["inclination_deg"] == pytest.approx(leg["inclination_deg"], abs=INCLINATION_TOL_DEG)
     html = (demo / "report.html").read_text(encoding="utf-8")
     for label, value in (("departure burn Δv [m/s] (CR3BP)", d["departure_dv_mps"]),
-                         ("(two-body energy about the Earth after the burn, from the CR3BP state)", d["c3_km2_s2"]),
+                         ("C3 [km²/s²] (v² − 2μ/r about the Earth after the burn, from the CR3BP state)", d["c3_km2_s2"]),
                          ("Earth-relative speed after the burn [km/s] (CR3BP, inertial axes)", d["departure_speed_kms"]),
                          ("inclination of the parking orbit [deg]", d["inclination_deg"]),
                          ("insertion burn Δv [m/s] (CR3BP)", d["maneuvers"][-1]["dv_mps"])):

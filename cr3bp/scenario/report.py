@@ -175,7 +175,7 @@ def departure_rows(d) -> list:
     burns = {m["name"]: m for m in d["maneuvers"]}
     rows = [("path", d["path"]), ("from", f"{d['from']} (circular)"), ("to", d["to"]),
             ("departure burn Δv [m/s] (CR3BP)", d["departure_dv_mps"]),
-            ("C3 [km²/s²] (two-body energy about the Earth after the burn, from the CR3BP state)", d["c3_km2_s2"]),
+            ("C3 [km²/s²] (v² − 2μ/r about the Earth after the burn, from the CR3BP state)", d["c3_km2_s2"]),
             ("Earth-relative speed after the burn [km/s] (CR3BP, inertial axes)", d["departure_speed_kms"]),
             ("inclination of the parking orbit [deg] (to the Moon's orbit plane; the CR3BP has no Earth "
              "equator)", d["inclination_deg"])]
