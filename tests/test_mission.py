@@ -185,7 +185,8 @@ def test_killed_run_resumes_without_duplicate_or_lost_rows(tmp_path):
 
 def test_demo_scenario_end_to_end(tmp_path):
     """The demo mission (examples/farlight.toml) at reduced sample sizes: orbits, checks, a
-    multi-leg route stitched with a phasing coast, OEM and CSV exports, report, manifest."""
+    direct departure from a 200 km Earth parking orbit to the relay orbit stitched, its numbers
+    in the route JSON, the report and a figure, OEM and CSV exports, report, manifest."""
     from oem import OrbitEphemerisMessage
 
     from cr3bp.scenario import run as mission
@@ -193,16 +194,29 @@ def test_demo_scenario_end_to_end(tmp_path):
     plan = mission.prepare(Path(__file__).parent.parent / "examples" / "farlight.toml")
     res = mission.run(plan, tmp_path / "out", catalog=Catalog(tmp_path / "c.sqlite"), reduced=True)
     out = tmp_path / "out"
-    route = json.loads((out / "route-llo-to-relay.json").read_text())
-    assert route["best"]["nodes"] == ["parking moon 100km", "staging", "relay"]
+    route = json.loads((out / "route-leo-to-relay.json").read_text())
+    assert route["best"]["nodes"] == ["parking earth 200km", "relay"]
+    assert len(route["best"]["legs"]) == 1
     st = route["stitched"]
     assert st["dv_total_mps"] <= st["legs_dv_total_mps"] + 1e-6          # stitching never costs more
     assert st["continuity_lu"] < 1e-9
     assert all(c["holds"] for c in st["constraints"].values())
     assert all(c.passed for cs in res.checks.values() for c in cs)
     assert "min_angle_at_earth_from_moon_deg" in {c.name for c in res.checks["relay"]}
-    first = route["best"]["legs"][0]           # time of flight to within 1 000 km of the staging halo
-    assert first["arrival_distance_km"] == 1000.0 and first["tof_arrival_days"] < first["tof_days"]
+    # the departure's numbers: in the route JSON, the report (each with its model) and a figure
+    dep = route["departure"]
+    assert dep["path"] == "direct" and dep["from"] == "parking earth 200km"
+    assert [m["name"] for m in dep["maneuvers"]] == ["departure", "insertion"]
+    assert [m["name"] for m in route["maneuvers"]] == ["departure", "insertion"]
+    assert 3100.0 < dep["departure_dv_mps"] < 3200.0       # published 3.1-3.2 km/s (from memory)
+    html = (out / "report.html").read_text()
+    for label in ("departure burn Δv [m/s] (CR3BP)", "C3 [km²/s²] (v² − 2μ/r about the Earth",
+                  "Earth-relative speed after the burn [km/s] (CR3BP", "inclination of the parking orbit [deg]",
+                  "insertion burn Δv [m/s] (CR3BP)"):
+        assert label in html, label
+    assert (out / "departure-leo-to-relay.png").exists() and (out / "departure-leo-to-relay.svg").exists()
+    assert "departure burn" in (out / "departure-leo-to-relay.svg").read_text()
+    assert not list(out.glob("pareto-*"))                   # one route: no trade to draw
     assert "time of flight to arrival [d]" in (out / "report.html").read_text()
     msg = OrbitEphemerisMessage.open(str(out / "relay.oem"))
     assert sum(len(list(seg)) for seg in msg) > 100
@@ -213,17 +227,18 @@ def test_demo_scenario_end_to_end(tmp_path):
     # 661.2 m/s, unlabelled): every maneuver file, the route JSON and the report carry the
     # design (CR3BP) Δv and the Δv measured on the exported trajectory side by side, labelled
     from cr3bp.io import export
-    key = "dv_exported_mps[llo-to-relay.csv]"
+    key = "dv_exported_mps[leo-to-relay.csv]"
     design = [m["dv_mps"] for m in st["maneuvers"]]
     assert [m["dv_design_mps"] for m in route["maneuvers"]] == design
     exported = [m[key] for m in route["maneuvers"]]
-    assert "CR3BP" in route["dv_models"]["dv_design_mps"] and "llo-to-relay.csv" in route["dv_models"][key]
-    data = export.read(out / "llo-to-relay.csv")          # the exported trajectory, as written
+    assert "CR3BP" in route["dv_models"]["dv_design_mps"] and "leo-to-relay.csv" in route["dv_models"][key]
+    data = export.read(out / "leo-to-relay.csv")          # the exported trajectory, as written
     jumps = [np.linalg.norm(b.states[0, 3:] - a.states[-1, 3:]) * 1000.0
              for a, b in zip(data.segments[:-1], data.segments[1:])]
-    # interior maneuvers: the velocity jumps between the file's segments (1e-10 km/s printed)
+    # interior maneuvers: the velocity jumps between the file's segments (1e-10 km/s printed);
+    # a direct departure has none (departure and insertion are the ends)
     assert np.allclose(jumps, exported[1:-1], rtol=0, atol=1e-6)
-    mfile = (out / "llo-to-relay.maneuvers.csv").read_text()
+    mfile = (out / "leo-to-relay.maneuvers.csv").read_text()
     rows = [ln.split(",") for ln in mfile.splitlines() if ln and not ln.startswith("#")]
     head, rows = rows[0], rows[1:]
     col = {h: i for i, h in enumerate(head)}
@@ -232,10 +247,10 @@ def test_demo_scenario_end_to_end(tmp_path):
     big = [abs(e - d) > 0.01 * d and abs(e - d) > 1e-3 for e, d in zip(exported, design)]
     assert any(big)                      # the ephemeris anchoring moves them by a few per cent
     assert ("WARNING" in mfile) and len(route["dv_warnings"]) == sum(big)
-    routes_csv = (out / "route-llo-to-relay-maneuvers.csv").read_text()
+    routes_csv = (out / "route-leo-to-relay-maneuvers.csv").read_text()
     assert "dv_design_mps" in routes_csv and key in routes_csv
     html = (out / "report.html").read_text()
-    assert "Δv, design (CR3BP) [m/s]" in html and "Δv, exported (llo-to-relay.csv) [m/s]" in html
+    assert "Δv, design (CR3BP) [m/s]" in html and "Δv, exported (leo-to-relay.csv) [m/s]" in html
     assert html.count("WARNING: transfer") == sum(big)
     probe = render(out / "report.html", tmp_path)
     assert probe["broken"] == "0" and probe["caution"] == "true"

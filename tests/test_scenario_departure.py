@@ -146,3 +146,52 @@ def test_route_eclipse_section_equals_shadow_of_the_exported_file(runs, capsys):
             assert got["angles"][key][end] == pytest.approx(sec["angles"][key][end], abs=0.2)
     assert got["angles"]["range_to_earth_km"]["max"] == pytest.approx(sec["angles"]["range_to_earth_km"]["max"],
                                                                        rel=1e-5)
+
+
+# ---- the demo mission (examples/farlight.toml) leaves the same parking orbit for the same orbit
+
+DEMO = Path(__file__).resolve().parents[1] / "examples" / "farlight.toml"
+#: The departure's other numbers: the same optimisation through both doors, from the orbit
+#: solved (or read from the catalogue) by each, so they agree to well inside the optimiser's
+#: tolerance (measured: inclination 1.2e-6 deg apart; km²/s², km/s, degrees).
+C3_TOL = 1e-4
+SPEED_TOL_KMS = 1e-6
+INCLINATION_TOL_DEG = 1e-4
+
+
+@pytest.fixture(scope="module")
+def demo(tmp_path_factory):
+    out = tmp_path_factory.mktemp("farlight") / "run"
+    assert main(["run", str(DEMO), f"--out={out}", "--workers=1", "--quiet",
+                 f"--catalog={out.parent / 'c.sqlite'}"]) == 0
+    return out
+
+
+def test_demo_departure_equals_connect_direct(runs, demo):
+    """Seam (scenario -> design -> report): the demo's transfer 'leo-to-relay' (path = "direct",
+    parking earth 200km to the 9:2 L2 southern NRHO) gives librate connect --path direct's
+    departure and insertion Δv, time of flight, C3, Earth-relative speed and inclination, in its
+    route JSON and in its report, each labelled with its model there."""
+    from cr3bp.scenario.page import fmt
+    _, leg = runs
+    route = json.loads((demo / "route-leo-to-relay.json").read_text())
+    dep, ins = route["maneuvers"]
+    cdep, cins = leg["maneuvers"]
+    assert (dep["name"], ins["name"]) == ("departure", "insertion")
+    assert dep["dv_mps"] == pytest.approx(cdep["dv_mps"], abs=DV_TOL_MPS)
+    assert ins["dv_mps"] == pytest.approx(cins["dv_mps"], abs=DV_TOL_MPS)
+    assert route["stitched"]["tof_days"] == pytest.approx(leg["tof_days"], abs=TOF_TOL_DAYS)
+    d = route["departure"]
+    assert d["path"] == leg["path"] == "direct"
+    assert d["departure_dv_mps"] == pytest.approx(leg["departure_dv_mps"], abs=DV_TOL_MPS)
+    assert d["c3_km2_s2"] == pytest.approx(leg["c3_km2_s2"], abs=C3_TOL)
+    assert d["departure_speed_kms"] == pytest.approx(leg["departure_speed_kms"], abs=SPEED_TOL_KMS)
+    assert d["inclination_deg"] == pytest.approx(leg["inclination_deg"], abs=INCLINATION_TOL_DEG)
+    html = (demo / "report.html").read_text(encoding="utf-8")
+    for label, value in (("departure burn Δv [m/s] (CR3BP)", d["departure_dv_mps"]),
+                         ("C3 [km²/s²] (v² − 2μ/r about the Earth after the burn, from the CR3BP state)", d["c3_km2_s2"]),
+                         ("Earth-relative speed after the burn [km/s] (CR3BP, inertial axes)", d["departure_speed_kms"]),
+                         ("inclination of the parking orbit [deg]", d["inclination_deg"]),
+                         ("insertion burn Δv [m/s] (CR3BP)", d["maneuvers"][-1]["dv_mps"])):
+        at = html.index(label)
+        assert fmt(value) in html[at:at + 400], (label, fmt(value))

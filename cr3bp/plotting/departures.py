@@ -6,6 +6,7 @@ marked and named; below them the same two views zoomed on the target orbit, so t
 from __future__ import annotations
 
 import numpy as np
+from matplotlib.lines import Line2D
 
 from .base import axis_labels, draw_lagrange_points, draw_primaries, legend_beside, new_figure, title
 from ..integrate import propagate
@@ -56,9 +57,10 @@ def zoom_box(orbit_states, view, margin=ZOOM_MARGIN):
     return cu - span / 2, cu + span / 2, cv - span / 2, cv + span / 2
 
 
-def plot_departure(dep, n_per_segment=800):
+def plot_departure(dep, n_per_segment=800, summary=False):
     """Four panels of ``dep``: x-y and x-z of the whole transfer (top), and the same views
-    zoomed on the target orbit (bottom); returns the figure.
+    zoomed on the target orbit (bottom); with ``summary``, a box of the departure's numbers
+    (:func:`summary_lines`). Returns the figure.
 
     Parameters
     ----------
@@ -66,6 +68,8 @@ def plot_departure(dep, n_per_segment=800):
         From :func:`cr3bp.transfers.departure.design_departure`.
     n_per_segment : int
         Samples per transfer segment.
+    summary : bool, optional
+        Draw the box of the departure's numbers, each naming its model.
 
     Returns
     -------
@@ -92,10 +96,106 @@ def plot_departure(dep, n_per_segment=800):
     .. [1] matplotlib documentation, :func:`matplotlib.pyplot.subplots` and
        :meth:`matplotlib.axes.Axes.set_aspect`.
     """
-    system = dep.system
     _, states = dep.trajectory(n_per_segment)
-    T = float(dep.orbit.period)
-    orb = propagate(system, dep.orbit.state, T, t_eval=np.linspace(0.0, T, 600)).states
+    return _draw(dep.system, dep.orbit, states, dep.maneuvers, dep.path,
+                 summary_lines(dep.to_dict()) if summary else None)
+
+
+def plot_departure_leg(leg, orbit, n_per_segment=800):
+    """The figure of :func:`plot_departure` for a departure leg of a transfer graph or route
+    (:func:`cr3bp.transfers.departure.as_leg`: ``leg.kind == "departure"``) arriving on
+    ``orbit``, with the box of the departure's numbers.
+
+    Parameters
+    ----------
+    leg : cr3bp.transfers.leg.Leg
+        A departure leg (its ``details["departure"]`` holds the design's numbers).
+    orbit : PeriodicOrbit
+        The orbit it inserts into.
+    n_per_segment : int
+        Samples per coast.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+
+    Raises
+    ------
+    KeyError
+        A leg that is not a departure.
+
+    Examples
+    --------
+    Skipped under doctest (the departure's optimisation takes tens of seconds):
+
+    >>> from cr3bp import orbit
+    >>> from cr3bp.transfers.departure import as_leg, design_departure
+    >>> nrho = orbit("earth-moon", "halo L2 south resonance=9:2")     # doctest: +SKIP
+    >>> fig = plot_departure_leg(as_leg(design_departure(nrho)), nrho)  # doctest: +SKIP
+
+    References
+    ----------
+    Tangential departure from a circular parking orbit: Vallado, *Fundamentals of
+    Astrodynamics and Applications*, 4th ed., 2013, §6.3 (from memory).
+    """
+    d = leg.details["departure"]
+    system = leg.system
+    states = np.concatenate([propagate(system, s0, dt, t_eval=np.linspace(0.0, dt, n_per_segment)).states
+                             for _, s0, dt in leg.segments])
+    mans = [{"name": m.name, "dv_vector": m.dv, "position": m.position} for m in leg.maneuvers]
+    return _draw(system, orbit, states, mans, d["path"], summary_lines(d))
+
+
+def summary_lines(d):
+    """Lines of a departure's numbers, each naming its model: the departure burn, C3, the
+    Earth-relative speed after the burn, the parking orbit's inclination, the flyby (if any),
+    the insertion burn, the total and the time of flight.
+
+    Parameters
+    ----------
+    d : dict
+        A departure's :meth:`~cr3bp.transfers.departure.Departure.to_dict`.
+
+    Returns
+    -------
+    list of str
+
+    Raises
+    ------
+    KeyError
+        A dict without a departure's keys.
+
+    Examples
+    --------
+    >>> d = {"path": "direct", "from": "parking earth 200km", "departure_dv_mps": 3138.4,
+    ...      "c3_km2_s2": -1.92, "departure_speed_kms": 10.93, "inclination_deg": 5.0,
+    ...      "flyby_altitude_km": None, "dv_mps": 3971.8, "tof_days": 5.25,
+    ...      "maneuvers": [{"name": "departure", "dv_mps": 3138.4}, {"name": "insertion", "dv_mps": 833.4}]}
+    >>> summary_lines(d)[1]
+    'departure burn 3138.4 m/s (CR3BP)'
+
+    References
+    ----------
+    C3 = v^2 - 2 mu / r, twice the two-body energy: Vallado, *Fundamentals of Astrodynamics and
+    Applications*, 4th ed., 2013, §2.6 (from memory).
+    """
+    burns = {m["name"]: m["dv_mps"] for m in d["maneuvers"]}
+    lines = [f"{d['path']} departure from {d['from']}",
+             f"departure burn {d['departure_dv_mps']:.1f} m/s (CR3BP)",
+             f"C3 {d['c3_km2_s2']:.2f} km²/s² (CR3BP, two-body about the Earth)",
+             f"Earth-relative speed {d['departure_speed_kms']:.3f} km/s (CR3BP)",
+             f"inclination {d['inclination_deg']:.2f}° to the Moon's orbit plane (CR3BP)"]
+    if d.get("flyby_altitude_km") is not None:
+        lines.append(f"flyby burn {burns.get('flyby', 0.0):.1f} m/s at {d['flyby_altitude_km']:.0f} km "
+                     "over the Moon (CR3BP)")
+    lines += [f"insertion burn {burns['insertion']:.1f} m/s (CR3BP)",
+              f"total {d['dv_mps']:.1f} m/s in {d['tof_days']:.2f} d (CR3BP)"]
+    return lines
+
+
+def _draw(system, orbit, states, maneuvers, path, summary):
+    T = float(orbit.period)
+    orb = propagate(system, orbit.state, T, t_eval=np.linspace(0.0, T, 600)).states
     fig, axes = new_figure(2, 2, size=(12.0, 11.0))
     fig.subplots_adjust(hspace=0.38, wspace=0.25)
     for row, zoom in ((0, False), (1, True)):
@@ -104,8 +204,8 @@ def plot_departure(dep, n_per_segment=800):
             i, j = {"xy": (0, 1), "xz": (0, 2)}[view]
             box = zoom_box(orb, view) if zoom else None
             ax.plot(orb[:, i], orb[:, j], color="0.35", lw=1.0, label="target orbit")
-            ax.plot(states[:, i], states[:, j], color="tab:blue", lw=1.2, label=f"{dep.path} transfer")
-            for m in dep.maneuvers:
+            ax.plot(states[:, i], states[:, j], color="tab:blue", lw=1.2, label=f"{path} transfer")
+            for m in maneuvers:
                 mk, col_ = MARKERS.get(m["name"], ("x", "k"))
                 dv = system.mps(np.linalg.norm(m["dv_vector"]))
                 ax.plot(m["position"][i], m["position"][j], mk, color=col_, ms=7 if zoom else 6, zorder=8,
@@ -122,4 +222,10 @@ def plot_departure(dep, n_per_segment=800):
             axis_labels(ax, system, view=view)
             title(ax, f"{view[0]}-{view[1]} view" + (", zoomed on the target orbit" if zoom else ""))
     legend_beside(axes[0, 1])
+    if summary:
+        fig.subplots_adjust(right=0.7)
+        # beside the lower panels, as a legend of text-only entries (the caption fits the margin to it)
+        legend_beside(axes[1, 1], handles=[Line2D([], [], linestyle="none", label=s) for s in summary],
+                      handlelength=0, handletextpad=0, fontsize=7.5, title="the departure's numbers",
+                      title_fontsize=8)
     return fig

@@ -126,8 +126,10 @@ def plot_corridor(stitched, legs=(), tubes=(), ax=None, view="xy", margin=0.25, 
     for n, man in enumerate(stitched.maneuvers):
         p = man["position_lu"]
         ax.plot(p[i], p[j], "^", color="k", ms=7, zorder=6, label="maneuver" if n == 0 else None)
-        ax.annotate(f"{man['dv_mps']:.1f} m/s", (p[i], p[j]), textcoords="offset points", xytext=(5, 5),
-                    fontsize=7, zorder=7)
+        # below-right of the marker: a primary's name sits above-right of it (a departure or an
+        # insertion burn is often at a primary)
+        ax.annotate(f"{man['dv_mps']:.1f} m/s", (p[i], p[j]), textcoords="offset points", xytext=(5, -5),
+                    va="top", fontsize=7, zorder=7)
     draw_primaries(ax, system, view, box=extent)
     draw_lagrange_points(ax, system, view)
     ax.set_xlim(extent[0], extent[1])

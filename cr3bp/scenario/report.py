@@ -105,6 +105,11 @@ def _routes_section(routes, figures, views=None, stitched=None, orbits=None) -> 
                           R.fmt(best.get("tof_arrival_days", best.get("tof_days"))), R.fmt(best.get("tof_days")))],
                         left=3)
         html += f"<p>{R.esc(tof_definition_note(legs))}</p>"
+        dep = departure_rows(r.get("departure"))
+        if dep:
+            html += ("<h4>Departure from the parking orbit</h4><p>The route's first leg as designed in the "
+                     "CR3BP (before the route is stitched; the stitched maneuvers are in the table below).</p>"
+                     + R.kv_table(dep))
         if r.get("maneuvers"):
             mans = r.get("maneuvers_labelled") or [dict(m, dv_design_mps=m["dv_mps"]) for m in r["maneuvers"]]
             keys = [k for k in (r.get("dv_models") or {}) if k.startswith("dv_exported_mps[")]
@@ -122,7 +127,7 @@ def _routes_section(routes, figures, views=None, stitched=None, orbits=None) -> 
             html += f"<p>{R.esc(r['note'])}</p>"
         if r.get("eclipses"):
             html += _route_eclipses(r["eclipses"])
-        for key in (f"corridor-{name}", f"pareto-{name}"):
+        for key in (f"departure-{name}", f"corridor-{name}", f"pareto-{name}"):
             if key in figures:
                 html += R.figure(figures[key]["path"], figures[key]["caption"])
         if views is not None and (stitched or {}).get(name) is not None:
@@ -140,6 +145,55 @@ def _routes_section(routes, figures, views=None, stitched=None, orbits=None) -> 
                                f"Transfer '{name}' in 3-D: the stitched trajectory (orange), its maneuvers "
                                "(diamonds) and the orbits it joins (grey); rotating frame of the CR3BP.")
     return html
+
+
+def departure_rows(d) -> list:
+    """(label, value) rows of the departure that starts a route, each label naming its model
+    and unit; [] for None (the route does not start with a departure from a parking orbit).
+
+    Parameters
+    ----------
+    d : dict or None
+        The departure leg's ``details["departure"]``
+        (:meth:`cr3bp.transfers.departure.Departure.to_dict`; a scenario route's ``departure``).
+
+    Returns
+    -------
+    list of (str, object)
+
+    Raises
+    ------
+    KeyError
+        A departure without its keys.
+
+    Examples
+    --------
+    >>> departure_rows(None)
+    []
+
+    References
+    ----------
+    C3 = v^2 - 2 mu / r: Vallado, *Fundamentals of Astrodynamics and Applications*, 4th ed.,
+    2013, §2.6; tangential departure burn: ibid. §6.3 (both from memory).
+    """
+    if not d:
+        return []
+    burns = {m["name"]: m for m in d["maneuvers"]}
+    rows = [("path", d["path"]), ("from", f"{d['from']} (circular)"), ("to", d["to"]),
+            ("departure burn Δv [m/s] (CR3BP)", d["departure_dv_mps"]),
+            ("C3 [km²/s²] (v² − 2μ/r about the Earth after the burn, from the CR3BP state)", d["c3_km2_s2"]),
+            ("Earth-relative speed after the burn [km/s] (CR3BP, inertial axes)", d["departure_speed_kms"]),
+            ("inclination of the parking orbit [deg] (to the Moon's orbit plane; the CR3BP has no Earth "
+             "equator)", d["inclination_deg"])]
+    if "flyby" in burns:
+        rows += [("flyby burn Δv [m/s] (CR3BP)", burns["flyby"]["dv_mps"]),
+                 ("flyby altitude over the Moon's mean radius [km] (CR3BP)", d["flyby_altitude_km"]),
+                 ("flyby time after departure [d] (CR3BP)", burns["flyby"]["t_days"])]
+    rows += [("insertion burn Δv [m/s] (CR3BP)", burns["insertion"]["dv_mps"]),
+             ("total Δv [m/s] (CR3BP)", d["dv_mps"]),
+             ("time of flight, departure to insertion [d] (CR3BP)", d["tof_days"]),
+             ("optimised", "yes" if d["optimised"] else "no: feasible, the optimiser stopped before proving it least")]
+    return rows
 
 
 def _route_eclipses(e) -> str:

@@ -32,7 +32,7 @@ from ..io.atomic import write_text
 from ..cautions import CAUTION
 from ..errors import InputError, shown, OutputError, NoSolutionError
 from ..validate import MAX_WORKERS
-from ..vocabulary import SCENARIO_IMAGE_FORMATS, INERTIAL_FRAMES, LENGTH_TARGETS, ORBIT_TARGETS
+from ..vocabulary import CR3BP_DEPARTURE_PATHS, SCENARIO_IMAGE_FORMATS, INERTIAL_FRAMES, LENGTH_TARGETS, ORBIT_TARGETS
 from .outputs import csv_text, json_text, save_figures, say
 from .reuse import run_key
 from .schema import Problem, ScenarioError, FILE_PATTERN, FILE_RULE
@@ -165,7 +165,7 @@ def prepare(path) -> Plan:
     >>> import cr3bp
     >>> plan = prepare(Path(cr3bp.__file__).parents[1] / "examples" / "farlight.toml")
     >>> sorted(plan.orbit_specs)
-    ['relay', 'staging']
+    ['relay']
 
     References
     ----------
@@ -332,6 +332,8 @@ def _check_values(data, system, add):
         for k in ("from", "to"):
             if t[k].startswith("parking "):
                 _check_parking(f"transfers[{i}].{k}", t[k], system, add)
+        if t.get("path") in CR3BP_DEPARTURE_PATHS:    # 'low-energy': scenario.schema says it
+            _check_departure_path(f"transfers[{i}].path", t, system, add)
     exports = data.get("exports", [])
     if not exports or system is None or not system.dimensional:
         return
@@ -409,6 +411,21 @@ def _int_range(key, v, add):
         add(key, InputError(f"{v} is outside the allowed range {lo}..{hi}"))
 
 
+def _check_departure_path(key, transfer, system, add):
+    """A transfer's 'path' needs 'from' an Earth parking orbit in the earth-moon system."""
+    start = str(transfer.get("from", ""))
+    parts = start.split()
+    if len(parts) >= 2 and parts[0] == "parking" and system is not None \
+            and parts[1].lower() not in [n.lower() for n in system.names]:
+        return                      # not a primary: said by the parking check
+    earth = len(parts) == 3 and parts[0] == "parking" and parts[1].lower() == "earth"
+    if not earth or (system is not None and system.name != "earth-moon"):
+        where = "" if system is None or system.name == "earth-moon" else f" in {system.name}"
+        add(key, InputError(f"path '{shown(transfer['path'])}' is how a transfer leaves an Earth parking orbit "
+                            f"in the earth-moon system; this one starts from '{shown(start)}'{where} "
+                            "(remove 'path', or start from e.g. 'parking earth 200km')"))
+
+
 def _check_parking(key, text, system, add):
     """'parking BODY ALTITUDE': three words, a primary of the system, a positive length."""
     parts = text.split()
@@ -474,7 +491,9 @@ def planned_files(data) -> dict:
         for suffix in (".json", "-trajectory.csv", "-maneuvers.csv"):
             plan(f"route-{n}{suffix}", f"transfers[{i}].name")
         if plots.get("corridors", True):
-            for stem in ("corridor", "pareto"):
+            # departure-NAME: a route that starts with a departure from a parking orbit;
+            # pareto-NAME: more than one route found (the names are kept either way)
+            for stem in ("corridor", "pareto", "departure"):
                 for f in fmts:
                     plan(f"{stem}-{n}.{f}", f"transfers[{i}].name")
     transfers = {t.get("name") for t in data.get("transfers", [])}

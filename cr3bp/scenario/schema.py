@@ -78,12 +78,15 @@ TRANSFER_KEYS = {
     "to": (S, True, "end: the name of an orbit (a periodic orbit or a torus) or a parking orbit (not after "
                     "a torus)"),
     "via": ("list[str]", False, "names of orbits to pass through, in order"),
+    "path": (words.one_of(("auto",) + words.DEPARTURE_PATHS), False,
+             "with 'from' an Earth parking orbit (earth-moon): how the spacecraft leaves it, 'direct' "
+             "(departure burn, coast, insertion burn), 'lunar-flyby' (departure burn, powered lunar "
+             "flyby at 100 km or higher, insertion burn) or 'low-energy' (the Sun's pull, bicircular "
+             "model, launched at the system epoch); 'auto' (the default): a manifold leg where one "
+             "reaches the parking orbit, else 'direct'"),
     "max_dv": (Q, False, "cap on total delta-v"),
     "max_tof": (Q, False, "cap on time of flight"),
     "best": (I, False, "how many ranked routes to keep"),
-    "path": (words.one_of(("auto", "low-energy")), False,
-             "from 'parking earth ...': 'auto' (manifold or direct departure) or 'low-energy' (the Sun's pull, "
-             "bicircular model, launched at the system epoch)"),
 }
 EXPORT_KEYS = {
     "object": (S, True, "name of an orbit or transfer"),

@@ -10,7 +10,7 @@ from types import SimpleNamespace
 
 from ..errors import InputError, NoSolutionError
 from .outputs import csv_text, json_text, save_figures, say
-from ..vocabulary import ORBIT_TARGETS
+from ..vocabulary import CR3BP_DEPARTURE_PATHS, ORBIT_TARGETS
 from .. import units
 from ..cautions import CAUTION, caution as model_caution
 from ..io import export
@@ -100,7 +100,11 @@ def transfer_nodes(plan, index: int, transfer: dict):
                 parts = n.split()
                 if len(parts) != 3:
                     raise InputError(f"'{n}' must read 'parking BODY ALTITUDE', e.g. 'parking earth 200km'")
-                nodes.append(parking_node(n, system, parts[1], parts[2]))
+                # the transfer's 'path' is how legs leave its starting parking orbit ('auto' and
+                # 'low-energy' are not a node's path: the graph's default and a hint, below)
+                path = transfer.get("path") if n == transfer["from"] else None
+                nodes.append(parking_node(n, system, parts[1], parts[2],
+                                          path=path if path in CR3BP_DEPARTURE_PATHS else None))
             elif "torus" in plan.data["orbits"][n]:
                 # a torus: its node's reference state is the torus at phase (0, 0); a leg from a
                 # parking orbit is a direct departure over both torus angles (cr3bp.tori.departure)
@@ -213,6 +217,9 @@ def design_transfers(plan, orbits, out, *, catalog=None, workers=None, scheduler
                                  f"time of flight {st.tof_days:.3f} d to the step-off point on the final orbit "
                                  "(coasts included), largest position jump "
                                  f"{st.continuity_lu * system.length_km * 1e3:.2e} m; {st.note}")}
+        departure = departure_leg(ranked[0])
+        if departure is not None:   # the departure's numbers as designed (CR3BP), for the JSON and the report
+            routes[name]["departure"] = departure.details["departure"]
         routes[name]["labels"] = {str(k): v for k, v in label.items()}
         write_route_tables(plan, name, routes[name], out, st)
         headers, rows = trajectory_rows(st)
@@ -320,11 +327,87 @@ def _figures(plan, transfer, orbits, ranked, front, st, out):
         ax.figure, out, f"corridor-{name}", formats,
         f"{plan.name}: transfer '{name}', the best route stitched by multiple shooting over the "
         "zero-velocity curves of its legs; triangles: maneuvers.")
-    ax = plot_pareto(ranked, front, ranked[0])
-    figures[f"pareto-{name}"] = save_figures(
-        ax.figure, out, f"pareto-{name}", formats,
-        f"{plan.name}: transfer '{name}', total Δv against time of flight of the ranked routes and the Pareto set.")
+    if len(ranked) > 1:          # one route is one point: no trade to draw
+        ax = plot_pareto(ranked, front, ranked[0])
+        figures[f"pareto-{name}"] = save_figures(
+            ax.figure, out, f"pareto-{name}", formats,
+            f"{plan.name}: transfer '{name}', total Δv against time of flight of the ranked routes and the Pareto set.")
+    departure = departure_leg(ranked[0])
+    if departure is not None:
+        from ..plotting.departures import plot_departure_leg  # lazy: heavy library (matplotlib)
+        d = departure.details["departure"]
+        fig = plot_departure_leg(departure, orbits[departure_target(transfer)])
+        figures[f"departure-{name}"] = save_figures(
+            fig, out, f"departure-{name}", formats,
+            f"{plan.name}: transfer '{name}', its {d['path']} departure from {d['from']} as designed in the "
+            "CR3BP (before the route is stitched), rotating Earth-Moon frame; below, zoomed on the orbit it "
+            "inserts into; the box lists the departure's numbers, each with its model.")
     return figures
+
+
+def departure_leg(route):
+    """The first leg of ``route`` when it is a departure from a parking orbit
+    (:func:`cr3bp.transfers.departure.as_leg`), else None.
+
+    Parameters
+    ----------
+    route : cr3bp.transfers.search.Route
+        A ranked route.
+
+    Returns
+    -------
+    Leg or None
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from types import SimpleNamespace
+    >>> departure_leg(SimpleNamespace(legs=[SimpleNamespace(kind="targeted", details={})])) is None
+    True
+
+    References
+    ----------
+    Common practice (preliminary mission design outputs carry their model and a caution;
+    :mod:`cr3bp.cautions`).
+    """
+    legs = list(route.legs)
+    if legs and legs[0].kind == "departure" and "departure" in (legs[0].details or {}):
+        return legs[0]
+    return None
+
+
+def departure_target(transfer: dict) -> str:
+    """The scenario name of the orbit a transfer's departure leg inserts into: the first
+    ``via`` orbit, else ``to`` (a route passes its ``via`` orbits in order).
+
+    Parameters
+    ----------
+    transfer : dict
+        The ``[[transfers]]`` table.
+
+    Returns
+    -------
+    str
+
+    Raises
+    ------
+    KeyError
+        A transfer without ``to``.
+
+    Examples
+    --------
+    >>> departure_target({"from": "parking earth 200km", "to": "relay"})
+    'relay'
+
+    References
+    ----------
+    Common practice (preliminary mission design outputs carry their model and a caution;
+    :mod:`cr3bp.cautions`).
+    """
+    return (transfer.get("via") or [transfer["to"]])[0]
 
 
 def route_orbits(transfer: dict, orbits: dict) -> list:

@@ -538,6 +538,12 @@ def _parking_leg(system, task) -> Leg:
     departs = arrive and system.name == "earth-moon" and str(st["body"]).lower() == "earth"
     if st.get("path") == "low-energy":
         return _low_energy_leg(orbit, st)
+    if st.get("path") is not None:
+        # a departure path asked for: that design, no manifold search
+        if not departs:
+            raise NoSolutionError(f"departure path '{st['path']}' leaves an Earth parking orbit in the "
+                                  "Earth-Moon system for a periodic orbit; this leg is not such a departure")
+        return _direct_departure_leg(orbit, st)
     if not manifold_may_reach(orbit, st["body"], st["altitude_km"]):
         # no manifold of this orbit comes down to the parking orbit: no periapsis search (it
         # cannot succeed); a departure goes straight to the direct design, a return has none
@@ -567,10 +573,11 @@ def _earth_departure(system, node) -> bool:
 
 
 def _direct_departure_leg(orbit, st) -> Leg:
-    """The direct departure (:func:`cr3bp.transfers.departure.design_departure`) from the
-    parking orbit of the task settings ``st`` (its altitude and, when given, its inclination
-    to the Moon's orbit plane) to ``orbit``, as a leg."""
-    dep = design_departure(orbit, st["altitude_km"], path="direct", inclination_deg=st.get("inclination_deg"))
+    """The departure (:func:`cr3bp.transfers.departure.design_departure`) from the parking orbit
+    of the task settings ``st`` (its altitude and, when given, its inclination to the Moon's
+    orbit plane) to ``orbit`` by the path ``st["path"]`` (direct when not given), as a leg."""
+    dep = design_departure(orbit, st["altitude_km"], path=st.get("path") or "direct",
+                           inclination_deg=st.get("inclination_deg"))
     return as_leg(dep, st["patches"])
 
 
@@ -840,6 +847,10 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
         if why is None and low_energy and getattr(b, "is_torus", False):
             why = (f"torus node '{b.name}': low-energy legs to a torus are not designed (a direct "
                    "departure to a torus is)")
+        if why is None and isinstance(a, ParkingNode) and getattr(a, "path", None) not in (None, "direct") \
+                and getattr(b, "is_torus", False):
+            why = (f"torus node '{b.name}': a '{a.path}' departure to a torus is not designed (a direct "
+                   "departure to a torus is)")
         sa, sb = states[a.id], states[b.id]
         maneuvers = h.maneuvers if h else "ends"
         if why is None and not isinstance(b, BoundaryNode):   # a boundary has no state: the manifold decides
@@ -866,6 +877,8 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
                         "max_patch_dv_mps": h.max_patch_dv_mps if h else None, "tube_points": PARKING_POINTS}
             if low_energy:       # (only then: the keys of the other parking legs stay as they were)
                 settings.update(path="low-energy", launch_tdb_s=h.launch_tdb_s)
+            elif park.path is not None and park is a:    # a departure path asked for (a scenario's 'path')
+                settings["path"] = park.path
         elif h and h.sections and isinstance(a, OrbitNode) and isinstance(b, OrbitNode):
             # manifold connection on the hinted section(s): unstable tube of a, stable of b
             method = "manifold"

@@ -41,7 +41,7 @@ from ..io import toml_schema as schema_mod
 from .. import units, validate
 from ..errors import InputError, UnitError, shown
 from ..orbits.request import parse_request
-from ..vocabulary import HALO_BRANCHES
+from ..vocabulary import CR3BP_DEPARTURE_PATHS, HALO_BRANCHES
 
 #: Largest node list read (characters): far above any real one, it keeps a hostile file cheap.
 MAX_NODE_LIST_CHARS = 2_000_000
@@ -194,6 +194,11 @@ class ParkingNode:
     altitude_km : float
     inclination_deg : float
         To the primaries' plane.
+    path : str, optional
+        How legs leave it for an Earth-Moon periodic orbit (``"direct"``, ``"lunar-flyby"``:
+        :func:`cr3bp.transfers.departure.design_departure`); None: the graph's choice (a manifold
+        leg where one may reach the parking orbit, else the direct departure). Set by a scenario
+        transfer's ``path``.
     kind : str
         "parking".
 
@@ -215,6 +220,7 @@ class ParkingNode:
     altitude_km: float
     inclination_deg: float | None = None    # None: free (the design chooses the plane)
     kind: str = "parking"
+    path: str | None = None                 # None: the graph's choice (see the docstring)
 
     @property
     def id(self) -> str:
@@ -222,9 +228,12 @@ class ParkingNode:
         return base if self.inclination_deg is None else f"{base}/{self.inclination_deg:g}deg"
 
     def to_dict(self) -> dict:
-        return {"id": self.id, "name": self.name, "kind": self.kind, "system": self.system,
-                "body": self.body, "altitude_km": self.altitude_km,
-                "inclination_deg": self.inclination_deg}
+        d = {"id": self.id, "name": self.name, "kind": self.kind, "system": self.system,
+             "body": self.body, "altitude_km": self.altitude_km,
+             "inclination_deg": self.inclination_deg}
+        if self.path is not None:
+            d["path"] = self.path
+        return d
 
 
 @dataclass(frozen=True)
@@ -742,7 +751,7 @@ def orbit_node(name: str, system, orbit: str) -> OrbitNode:
     return OrbitNode(name, system.name, orbit)
 
 
-def parking_node(name: str, system, body: str, altitude, inclination=None) -> ParkingNode:
+def parking_node(name: str, system, body: str, altitude, inclination=None, path=None) -> ParkingNode:
     """The node of a circular parking orbit about ``body``.
 
     Parameters
@@ -755,6 +764,10 @@ def parking_node(name: str, system, body: str, altitude, inclination=None) -> Pa
         Text with a length unit, e.g. ``"200km"``.
     inclination : float or None
         Degrees to the primaries' plane, 0..180; None: free (the departure chooses it).
+    path : str or None
+        The departure path of legs from this orbit (one of
+        :data:`cr3bp.vocabulary.CR3BP_DEPARTURE_PATHS`; an Earth parking orbit in the Earth-Moon
+        system only); None: the graph's choice.
 
     Returns
     -------
@@ -763,8 +776,8 @@ def parking_node(name: str, system, body: str, altitude, inclination=None) -> Pa
     Raises
     ------
     InputError
-        Not a primary, an altitude that is not a positive length, or an inclination outside
-        0..180 degrees.
+        Not a primary, an altitude that is not a positive length, an inclination outside
+        0..180 degrees, or a path that is not a departure path or not from the Earth.
 
     Examples
     --------
@@ -773,6 +786,8 @@ def parking_node(name: str, system, body: str, altitude, inclination=None) -> Pa
     >>> from cr3bp.transfers.nodes import parking_node
     >>> parking_node("leo", em, "Earth", "200km").altitude_km
     200.0
+    >>> parking_node("leo", em, "earth", "200km", path="direct").path
+    'direct'
 
     References
     ----------
@@ -782,10 +797,16 @@ def parking_node(name: str, system, body: str, altitude, inclination=None) -> Pa
     alt = units.parse(altitude, "length").si()
     if not alt > 0:
         raise InputError(f"altitude {shown(altitude)} must be positive")
+    if path is not None:
+        if path not in CR3BP_DEPARTURE_PATHS:
+            raise InputError(f"departure path '{shown(path)}' is not one of {', '.join(CR3BP_DEPARTURE_PATHS)}")
+        if system.name != "earth-moon" or body != "earth":
+            raise InputError(f"departure path '{path}' leaves an Earth parking orbit in the earth-moon "
+                             f"system, not a parking orbit about the {body} in {system.name}")
     if inclination is None:
-        return ParkingNode(name, system.name, body, alt, None)
+        return ParkingNode(name, system.name, body, alt, None, path=path)
     inc = validate.number_in("inclination (degrees)", inclination, 0.0, 180.0)
-    return ParkingNode(name, system.name, body, alt, inc)
+    return ParkingNode(name, system.name, body, alt, inc, path=path)
 
 
 def _body(system, text) -> str:
