@@ -152,9 +152,7 @@ def _run(args):
         return _budget_run(args, sysm, errors, min_burn, trials, target, seed, workers, bodies, srp, interval,
                            client)
     finally:
-        client.close()
-        if cluster is not None:
-            cluster.close()
+        keeping.close_dask(client, cluster)
 
 
 def _budget_run(args, sysm, errors, min_burn, trials, target, seed, workers, bodies, srp, interval, client):

@@ -794,6 +794,8 @@ def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, mi
 CONNECT_TIMEOUT_S = 10
 #: Most worker processes of a local cluster (``local:N``).
 MAX_LOCAL_WORKERS = 64
+#: The local scheduler's HTTP address: this machine only, a free port.
+LOCAL_HTTP_ADDRESS = "127.0.0.1:0"
 
 
 def local_workers(scheduler) -> int | None:
@@ -886,10 +888,15 @@ def dask_client(scheduler, workers: int | None = None):
         local = False
     if local:
         n = n_local or (2 if workers is None else validate.whole_number("workers", workers, 1))
-        # processes with one thread each, as the pool's workers (each chunk sets numba to one thread)
-        # its workers' shutdown notices stay out of the terminal (errors still show)
-        cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True, dashboard_address=None,
-                               silence_logs=logging.ERROR)
+        # processes with one thread each, as the pool's workers (each chunk sets numba to one thread).
+        # Quiet: no dashboard, and the scheduler's HTTP routes on a free local port (the default
+        # 8787 may be taken by another cluster: a warning otherwise); the workers' and scheduler's
+        # logs only at CRITICAL, so the heartbeat a worker still sends while the scheduler stops
+        # (logged with its traceback at ERROR) stays out of the terminal. A task's own failure
+        # still reaches here as the exception of its future.
+        cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True,
+                               dashboard_address=LOCAL_HTTP_ADDRESS, scheduler_kwargs={"dashboard": False},
+                               silence_logs=logging.CRITICAL)
         return Client(cluster), cluster
     try:
         return Client(str(scheduler), timeout=f"{CONNECT_TIMEOUT_S}s"), None
@@ -943,7 +950,43 @@ def on_dask(ref: Reference, errors: Errors, n: int, seed: int, min_burn_mps: flo
         return _collect(futs, as_completed, n, progress)
     finally:
         if client is not scheduler:
-            client.close()
+            close_dask(client, cluster)
+
+
+def close_dask(client, cluster=None) -> None:
+    """Close what :func:`dask_client` opened, quietly: the client first (no reconnection
+    attempts to a scheduler that is going away), then the local cluster (its workers before
+    its scheduler).
+
+    Parameters
+    ----------
+    client : distributed.Client
+        The client.
+    cluster : distributed.LocalCluster, optional
+        The local cluster started by :func:`dask_client` (None: a remote one, left running).
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    Exception
+        What the client's or the cluster's close raises (rare; the cluster is closed even when
+        the client's close fails).
+
+    Examples
+    --------
+    >>> client, cluster = dask_client("local:2")     # doctest: +SKIP
+    >>> close_dask(client, cluster)                  # doctest: +SKIP
+
+    References
+    ----------
+    Dask.distributed documentation, "LocalCluster" and "Client.close" (common practice).
+    """
+    try:
+        client.close()
+    finally:
         if cluster is not None:
             cluster.close()
 
