@@ -118,3 +118,24 @@ def test_floquet_policy_refusals():
         kp.reference(o, EPOCH, 1.0, policy="other")
     with pytest.raises(InputError, match="hold_phase goes with the crossing policy"):
         kp.reference(o, EPOCH, 1.0, policy="floquet", hold_phase=True)
+
+
+def test_cli_policy_floquet_equals_the_python_call(capsys):
+    """``librate keep --policy floquet`` and ``cr3bp.keep(..., policy="floquet")``: the same
+    budget; the table names the control."""
+    import json
+
+    import cr3bp
+    from librate_cli.main import main
+    argv = ["keep", "--system", "earth-moon", "--orbit", "halo L2 south resonance=9:2", "--epoch",
+            "2031-03-01T00:00:00Z", "--span", "20d", "--trials", "2", "--bodies", "sun,earth", "--seed", "3",
+            "--policy", "floquet", "-q"]
+    assert main(argv + ["--format", "json"]) == 0
+    d = json.loads(capsys.readouterr().out)
+    b = cr3bp.keep(nrho(), "2031-03-01T00:00:00Z", span="20d", trials=2, bodies=("sun", "earth"), seed=3,
+                   policy="floquet")
+    assert b.to_dict()["dv_per_year_mps"] == d["dv_per_year_mps"]
+    assert d["reference"]["policy"] == "floquet" and "Floquet-mode control" in d["model"]
+    assert main(argv) == 0
+    out = capsys.readouterr().out
+    assert "unstable mode of the 4-revolution map cancelled" in out and "Floquet-mode control" in out
