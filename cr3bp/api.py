@@ -1432,38 +1432,53 @@ def torus(orbit=None, amplitude=None, *, hold="jacobi", lissajous=None, members=
     return continue_family(t, hold=hold, members=members, progress=progress, catalog=catalog)
 
 
-def shadow(orbit, epoch, *, span="365d", step="5min", phase=0.0, bodies=("earth", "moon")):
-    """Eclipse passes of a periodic orbit placed at a date (``librate shadow``, one phase).
+def shadow(orbit, epoch, *, span="365d", step="5min", phase=0.0, bodies=("earth", "moon"),
+           avoid_eclipses=False, phases=36, max_eclipse=None, torus_phase=(0.0, 0.0)):
+    """Eclipse passes of a periodic orbit or a torus trajectory placed at a date (``librate shadow``).
 
-    The CR3BP orbit is placed at ``epoch`` by the ephemeris-anchored rotating frame (J2000
-    mean equator, Earth-centred); shadows are conical, from the project's ephemeris of the
-    Sun and Moon.
+    The CR3BP orbit (or the trajectory on a torus from ``torus_phase``) is placed at ``epoch``
+    by the ephemeris-anchored rotating frame (J2000 mean equator, Earth-centred); shadows are
+    conical, from the project's ephemeris of the Sun and Moon. With ``avoid_eclipses`` the
+    start is scanned over ``phases`` phases of one period (``librate shadow --avoid-eclipses``:
+    the same scan, the same ranking).
 
     Parameters
     ----------
-    orbit : PeriodicOrbit
-        An Earth-Moon orbit.
+    orbit : PeriodicOrbit or Torus
+        An Earth-Moon or Sun-Earth orbit or torus (:func:`cr3bp.torus`).
     epoch : str
         Date of rotating time 0, ISO 8601 (``"2031-03-01T00:00:00Z"``).
     span : str
-        How long: a time (``"365d"``) or ``"Nperiods"``.
+        How long: a time (``"365d"``) or ``"Nperiods"`` (stroboscopic times for a torus).
     step : str
         Search step, 10 s to 1 h (default ``"5min"``).
     phase : str or float
-        Phase of the orbit at the epoch: ``"120deg"``, ``"0.25rev"`` or degrees.
+        Phase of the orbit at the epoch: ``"120deg"``, ``"0.25rev"`` or degrees (for a torus:
+        the start moved along the flow by that fraction of the stroboscopic time).
     bodies : sequence of {"earth", "moon"}
+        The occulting bodies.
+    avoid_eclipses : bool
+        Scan ``phases`` phases evenly over one period instead of ``phase``.
+    phases : int
+        Phases of the scan, 1..720.
+    max_eclipse : str, optional
+        With ``avoid_eclipses``: phases whose longest pass is at most this time (``"90min"``)
+        rank first.
+    torus_phase : (float, float)
+        For a torus: ``(theta0, theta1)`` at the epoch, degrees.
 
     Returns
     -------
-    cr3bp.operations.phasing.History
-        ``.passes`` (each with ``.to_dict()``: body, kind, start and end UTC, duration, depth),
-        ``.total_min()``, ``.longest_min()``.
+    cr3bp.operations.phasing.History or list of History
+        One history (``.passes``, each with ``.to_dict()``: body, kind, start and end UTC,
+        duration, depth; ``.total_min()``, ``.longest_min()``); with ``avoid_eclipses`` the
+        scan's histories, best first (``[0].phase_deg`` the phase chosen).
 
     Raises
     ------
     InputError
-        Not Earth-Moon, a step outside 10 s..1 h, unknown bodies, an epoch outside the
-        ephemeris tables.
+        Not Earth-Moon or Sun-Earth, a step outside 10 s..1 h, unknown bodies, an epoch outside
+        the ephemeris tables, ``max_eclipse`` without ``avoid_eclipses``.
 
     Examples
     --------
@@ -1481,10 +1496,11 @@ def shadow(orbit, epoch, *, span="365d", step="5min", phase=0.0, bodies=("earth"
     from .io import export as ex  # lazy: start-up: keeps cr3bp.api free of numpy
     from .operations import eclipses, phasing, placement  # lazy: start-up: keeps cr3bp.api free of numpy
     from .time import frames  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .validate import finite_number, numbers  # lazy: start-up: keeps cr3bp.api free of numpy
     sysm = _system_of(orbit)
     sysm.require_dimensional("eclipses at a date")
-    if sysm.name != "earth-moon":
-        raise InputError(f"system {sysm.name}: eclipses are computed for earth-moon only")
+    if sysm.name not in ("earth-moon", "sun-earth"):
+        raise InputError(f"system {sysm.name}: eclipses are computed for earth-moon and sun-earth only")
     bodies = tuple(str(b).strip().lower() for b in bodies)
     if not bodies or any(b not in eclipses.BODIES for b in bodies) or len(set(bodies)) != len(bodies):
         raise InputError(f"bodies {bodies!r}: allowed earth, moon or both")
@@ -1492,21 +1508,35 @@ def shadow(orbit, epoch, *, span="365d", step="5min", phase=0.0, bodies=("earth"
     step_s = q.nondim(sysm) * sysm.time_s if q.unit == "TU" else q.si()
     if not 10.0 <= step_s <= 3600.0:
         raise InputError(f"step '{step}' is {step_s:g} s; allowed 10 s to 1 h")
-    from .validate import finite_number  # lazy: start-up: keeps cr3bp.api free of numpy
     phase_deg = (placement.parse_phase(phase) if isinstance(phase, str)
                  else finite_number("phase (degrees)", phase))
+    n_phases = _whole("phases", phases, 1, 720)
+    max_min = None
+    if max_eclipse is not None:
+        if not avoid_eclipses:
+            raise InputError("max_eclipse goes with avoid_eclipses=True")
+        mq = units.parse(_text(max_eclipse), "time")
+        max_min = (mq.nondim(sysm) * sysm.time_s if mq.unit == "TU" else mq.si()) / 60.0
+        if not max_min >= 0:
+            raise InputError(f"max_eclipse '{max_eclipse}' must be zero or positive")
+    is_torus = hasattr(orbit, "stroboscopic_time") and getattr(orbit, "circle", None) is not None
+    tphase = numbers("torus_phase", torus_phase, 2, "THETA0,THETA1 (degrees)")
+    period = float(orbit.stroboscopic_time if is_torus else orbit.period)
     t0 = frames.epoch_from_text(epoch)
-    span_s = ex.parse_span(str(span), sysm, float(orbit.period)) * sysm.time_s
+    span_s = ex.parse_span(str(span), sysm, period) * sysm.time_s
     if span_s > 20 * 365.25 * 86400.0:
         raise InputError(f"span '{span}' is longer than 20 years")
-    placed = placement.place(sysm, orbit, t0)
+    placed = (placement.place_torus(sysm, orbit, t0, span_s / sysm.time_s, tphase) if is_torus
+              else placement.place(sysm, orbit, t0))
     sk = phasing.sky(placed, span_s, step_s)
+    if avoid_eclipses:
+        return phasing.scan(placed, sk, n_phases, max_min, bodies)
     return phasing.history(placed, sk, phase_deg, bodies)
 
 
 def keep(orbit, epoch, *, span="365d", trials=200, nav_error=(1.0, 0.01), burn_error=(0.01, 0.001),
          min_burn_mps=0.0, bodies=("sun", "earth", "moon"), target_revs=4, interval=None, hold_phase=False,
-         seed=0, workers=None, progress=None):
+         seed=0, workers=None, progress=None, policy="crossing"):
     """Station-keeping Δv budget of an orbit carried into the ephemeris model (``librate keep``).
 
     A Monte Carlo of navigation and burn errors about a reference trajectory solved in the
@@ -1536,6 +1566,9 @@ def keep(orbit, epoch, *, span="365d", trials=200, nav_error=(1.0, 0.01), burn_e
     seed : int
     workers : int, optional
     progress : callable(str), optional
+    policy : {"crossing", "floquet"}
+        The control: x-axis crossing control (default; ``target_revs`` and ``hold_phase`` are
+        its options) or Floquet-mode control (the unstable mode's component cancelled).
 
     Returns
     -------
@@ -1561,6 +1594,8 @@ def keep(orbit, epoch, *, span="365d", trials=200, nav_error=(1.0, 0.01), burn_e
     x-axis crossing control after Davis, Guzzetti et al., AAS 17-269, 2017, and Guzzetti,
     Zimovan, Howell and Davis, AAS 17-395, 2017; the crossing condition of Howell and
     Pernicka, *J. Guidance* 16(1), 1993 (all from memory; see :mod:`cr3bp.operations.keeping`).
+    Floquet-mode control after Simó, Gómez, Llibre and Martínez, ESA SP-255, 1986, and Howell
+    and Gordon, *J. Astronautical Sciences* 42(2), 1994 (from memory).
     """
     from .io import export as ex  # lazy: start-up: keeps cr3bp.api free of numpy
     from .operations import keeping  # lazy: start-up: keeps cr3bp.api free of numpy
@@ -1595,4 +1630,4 @@ def keep(orbit, epoch, *, span="365d", trials=200, nav_error=(1.0, 0.01), burn_e
         raise InputError(f"span '{span}' is shorter than one revolution; lengthen it or give interval=")
     return keeping.budget(orbit, epoch, span_tu, errors, trials, seed=seed, min_burn_mps=min_burn_mps,
                           bodies=tuple(bodies), target_revs=target_revs, interval_tu=interval_tu,
-                          hold_phase=hold_phase, workers=workers, progress=progress)
+                          hold_phase=hold_phase, policy=str(policy), workers=workers, progress=progress)

@@ -354,6 +354,104 @@ def numbers(name: str, value, count: int, what: str) -> tuple:
     return v
 
 
+def number_value(name: str, value, lo: float | None = None, hi: float | None = None) -> float:
+    """A finite number given as a number (a TOML value, a keyword argument), in [lo, hi].
+
+    Text (``"5"``) and booleans are refused: a file or a call that means a number writes one.
+
+    Parameters
+    ----------
+    name : str
+        What the value is, with its unit (``"stations.north.latitude_deg"``), for the refusal.
+    value : int or float
+        The value.
+    lo, hi : float, optional
+        The bounds, inclusive (None: unbounded).
+
+    Returns
+    -------
+    float
+        The number.
+
+    Raises
+    ------
+    InputError
+        Not a number, not finite, or outside [lo, hi].
+
+    Examples
+    --------
+    >>> number_value("min_elevation_deg", 10, -5, 90)
+    10.0
+    >>> number_value("min_elevation_deg", "10", -5, 90)
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: min_elevation_deg = '10'; allowed a number in [-5, 90]
+
+    References
+    ----------
+    IEEE Std 754-2019, "Standard for Floating-Point Arithmetic" (finite values).
+    """
+    a = "-inf" if lo is None else f"{lo:g}"
+    b = "inf" if hi is None else f"{hi:g}"
+    allowed = f"allowed a number in [{a}, {b}]"
+    if isinstance(value, bool) or not isinstance(value, (int, float, np.integer, np.floating)):
+        raise InputError(f"{name} = {_show(repr(value))}; {allowed}")
+    v = float(value)
+    if not math.isfinite(v) or (lo is not None and v < lo) or (hi is not None and v > hi):
+        raise InputError(f"{name} = {_show(repr(value))}; {allowed}")
+    return v
+
+
+#: Angle units of :func:`angle_deg` and their size in degrees.
+ANGLE_UNITS_DEG = {"deg": 1.0, "rev": 360.0, "rad": 180.0 / math.pi}
+
+
+def angle_deg(name: str, text) -> float:
+    """An angle as text with its unit (``120deg``, ``0.25rev``, ``2.1rad``; a bare number is
+    degrees) -> degrees, finite, not wrapped.
+
+    Parameters
+    ----------
+    name : str
+        What the value is, for the refusal.
+    text : str or float
+        The angle.
+
+    Returns
+    -------
+    float
+        Degrees.
+
+    Raises
+    ------
+    InputError
+        Text that is not an angle, or not finite.
+
+    Examples
+    --------
+    >>> angle_deg("--phase", "0.25rev"), angle_deg("--phase", "-90")
+    (90.0, -90.0)
+
+    References
+    ----------
+    ISO 80000-3:2019, "Quantities and units, Part 3: Space and time" (plane angle: radian,
+    degree, revolution).
+    """
+    s = str(text).strip().lower()
+    scale = 1.0
+    for suffix, k in ANGLE_UNITS_DEG.items():
+        if s.endswith(suffix):
+            s, scale = s[: -len(suffix)].strip(), k
+            break
+    try:
+        v = float(s) * scale
+    except ValueError:
+        raise InputError(f"{name} '{_show(text)}' is not an angle such as 120deg, 0.25rev or 2.1rad") from None
+    if not math.isfinite(v):
+        raise InputError(f"{name} '{_show(text)}' is not finite")
+    return v
+
+
 def positive_number(name: str, text) -> float:
     """A finite float > 0.
 

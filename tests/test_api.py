@@ -203,6 +203,20 @@ def test_shadow_matches_the_cli(capsys, l1):
     assert [p.to_dict() for p in h.passes] == d["passes"]
 
 
+def test_shadow_phase_scan_matches_the_cli(capsys, l1):
+    """``avoid_eclipses`` gives the CLI's ``--avoid-eclipses`` scan: the same phases in the same
+    order (best first) with the same shadow totals, and the best phase's passes."""
+    d = cli_json(capsys, "shadow", "--system", "earth-moon", "--orbit", L1, "--epoch", EPOCH, "--span", "180d",
+                 "--step", "30min", "--avoid-eclipses", "--phases", "4", "--max-eclipse", "100min", "-q")
+    scan = cr3bp.shadow(l1, EPOCH, span="180d", step="30min", avoid_eclipses=True, phases=4, max_eclipse="100min")
+    assert [h.phase_deg for h in scan] == [r["phase_deg"] for r in d["phase_scan"]]
+    assert [h.total_min() for h in scan] == [r["shadow_total_min"] for r in d["phase_scan"]]
+    assert [h.longest_min() for h in scan] == [r["longest_shadow_min"] for r in d["phase_scan"]]
+    assert scan[0].phase_deg == d["model"]["phase_deg"]
+    assert [p.to_dict() for p in scan[0].passes] == d["passes"]
+    assert len(scan) == 4 and all(h.passes for h in scan)       # a scan with shadows to rank
+
+
 def test_keep_matches_the_cli(capsys, em):
     nrho = "halo L2 south resonance=9:2"
     d = cli_json(capsys, "keep", "--system", "earth-moon", "--orbit", nrho, "--epoch", EPOCH, "--span", "20d",
@@ -239,7 +253,11 @@ BAD = [
     (lambda em, o: cr3bp.torus(), "give an orbit"),
     (lambda em, o: cr3bp.shadow(o, EPOCH, step="1s"), "1s"),
     (lambda em, o: cr3bp.shadow(o, "1850-01-01T00:00:00Z", span="1d"), "1850"),
+    (lambda em, o: cr3bp.shadow(o, EPOCH, span="1d", max_eclipse="30min"), "max_eclipse"),
+    (lambda em, o: cr3bp.shadow(o, EPOCH, span="1d", avoid_eclipses=True, phases=0), "phases 0"),
+    (lambda em, o: cr3bp.shadow(o, EPOCH, span="1d", avoid_eclipses=True, max_eclipse="-3min"), "-3min"),
     (lambda em, o: cr3bp.keep(o, EPOCH, trials=0), "trials 0"),
+    (lambda em, o: cr3bp.keep(o, EPOCH, policy="sideways"), "sideways"),
     (lambda em, o: cr3bp.keep(o, EPOCH, nav_error=(1.0, -2.0)), "nav_error"),
 ]
 

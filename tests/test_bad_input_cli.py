@@ -368,6 +368,23 @@ def value_cases():
     add("shadow-trajectory-rotating-no-epoch", ["shadow", "--trajectory={in}/arc.csv"])
     add("shadow-neither-orbit-nor-trajectory", ["shadow", EM, EPOCH])
     add("shadow-orbit-without-epoch", ["shadow", EM, "--orbit=lyapunov L1 jacobi=3.17"])
+    # shadow on a torus
+    TQ = "--torus=quasi-halo around halo L1 north az=10000km amplitude=300km"
+    SHT = ["shadow", EM, TQ, EPOCH, "--span=2d"]
+    add("shadow-torus-and-orbit", SHT + ["--orbit=lyapunov L1 jacobi=3.17"])
+    add("shadow-torus-and-trajectory", SHT + ["--trajectory={in}/good.oem"])
+    add("shadow-torus-without-epoch", ["shadow", EM, TQ])
+    add("shadow-torus-family-unknown", ["shadow", EM, "--torus=quasi-bagel around halo L1 north az=10000km "
+                                        "amplitude=300km", EPOCH])
+    add("shadow-torus-amplitude-negative", ["shadow", EM, "--torus=quasi-halo around halo L1 north az=10000km "
+                                            "amplitude=-300km", EPOCH])
+    add("shadow-torus-sun-jupiter", ["shadow", "--system=sun-jupiter", "--torus=lissajous L2 ay=800000km "
+                                     "az=500000km", EPOCH])
+    for v in ("10", "nan,0", "10,20,30", "a,b", "inf,0"):
+        add(f"shadow-torus-phase-{v}", SHT + [f"--torus-phase={v}"])
+    add("shadow-torus-phase-without-torus", SH + ["--torus-phase=10,20"])
+    add("shadow-torus-phase-with-trajectory", ST + ["--torus-phase=10,20"])
+    add("shadow-torus-phase-bad-step", SHT + ["--step=1s"])
     # keep
     K = BASE["keep"]
     for v in ("1km", "1km,1cm/s,2", "-1km,1cm/s", "1km,-1cm/s", "1kg,1cm/s", "1km,1cm", "nankm,1cm/s"):
@@ -383,6 +400,9 @@ def value_cases():
     for v in ("-1d", "0d", "3km", "2d"):
         add(f"keep-span-{v}", K[:-1] + [f"--span={v}"])
     add("keep-interval-too-long", K + ["--interval=30d"])
+    add("keep-policy-unknown", K + ["--policy=sideways"])
+    add("keep-floquet-target-revs-zero", K + ["--policy=floquet", "--target-revs=0"])
+    add("keep-floquet-hold-phase", K + ["--policy=floquet", "--hold-phase"])
     add("keep-seed-negative", K + ["--seed=-1"])
     add("keep-workers-zero", K + ["--workers=0"])
     add("keep-bodies-unknown", K + ["--bodies=sun,pluto"])

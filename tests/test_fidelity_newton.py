@@ -40,3 +40,27 @@ def test_failures_name_what_failed(case, text):
     with pytest.raises(ConvergenceError) as err:
         newton.solve(constraints, np.array([100.0]), 1e-12, 2, what="toy shooting", admissible=admissible)
     assert text in str(err.value)
+
+
+def test_sparse_least_norm_step_equals_the_dense_minimum_norm_solution():
+    """A block-banded multiple-shooting-like Jacobian (blocks Phi_k and -I): the sparse step
+    (SuperLU on J J^T) equals numpy's minimum-norm least-squares solution (LAPACK gelsd) to
+    rounding, for the matrix given dense and given sparse."""
+    from scipy import sparse
+    from cr3bp.fidelity.newton import least_norm_step
+    rng = np.random.default_rng(4)
+    m = 60
+    J = np.zeros((6 * m, 6 * (m + 1) + m - 1))
+    for k in range(m):
+        J[6 * k:6 * k + 6, 6 * k:6 * k + 6] = np.eye(6) + 0.3 * rng.standard_normal((6, 6))
+        J[6 * k:6 * k + 6, 6 * k + 6:6 * k + 12] = -np.eye(6)
+        if k >= 1:
+            J[6 * k:6 * k + 6, 6 * (m + 1) + k - 1] = rng.standard_normal(6)
+    F = rng.standard_normal(6 * m)
+    want = -np.linalg.lstsq(J, F, rcond=None)[0]
+    assert J.size >= 40000                                      # the sparse path is taken
+    for given in (J, sparse.csr_matrix(J)):
+        got = least_norm_step(given, F)
+        assert np.allclose(got, want, rtol=0, atol=1e-10 * np.abs(want).max()), np.abs(got - want).max()
+    with pytest.raises(np.linalg.LinAlgError):
+        least_norm_step(sparse.csr_matrix(np.zeros((6 * m, J.shape[1]))), F)

@@ -145,6 +145,33 @@ def test_pool_dask_and_serial_give_byte_identical_results():
             assert got[key].dtype == serial[key].dtype and got[key].tobytes() == serial[key].tobytes(), (name, key)
 
 
+def test_a_local_cluster_run_leaves_a_quiet_stderr():
+    """``librate keep --scheduler local:2``: stderr holds the run's own notes and nothing of the
+    cluster (no traceback, no error line, no port warning), even with the usual dashboard port
+    8787 taken by another program (held here for the run)."""
+    import socket
+    import subprocess
+    import sys
+    pytest.importorskip("distributed")
+    held = socket.socket()
+    try:
+        held.bind(("0.0.0.0", 8787))
+        held.listen(1)
+    except OSError:
+        pass                                  # already taken by another program: as wanted
+    try:
+        p = subprocess.run([sys.executable, "-m", "librate_cli.main", "keep", "--system", "earth-moon",
+                            "--orbit", "halo L2 south period=6.5626d", "--epoch", "2031-03-01T00:00:00Z",
+                            "--span", "10d", "--trials", "4", "--bodies", "sun,earth", "--scheduler", "local:2",
+                            "-q"], capture_output=True, text=True, timeout=600)
+    finally:
+        held.close()
+    assert p.returncode == 0, p.stderr
+    lines = [ln for ln in p.stderr.splitlines() if ln.strip()]
+    assert all(ln.startswith("librate: note: UTC") for ln in lines), lines
+    assert "Δv per year" in p.stdout
+
+
 @pytest.mark.parametrize("n, workers", [(200, 2), (5, 2), (1, 4), (7, 3), (1000, 16)])
 def test_chunks_cover_every_trial_once_in_few_tasks(n, workers):
     parts = kp.chunks(n, workers)

@@ -46,6 +46,8 @@ torus_phase_deg = [{p0}, {p1}]
 min_altitude_smaller = "1000km"
 max_stability_index = 10.0
 line_of_sight_to_larger = true
+max_eclipse_duration = "300min"
+max_eclipse_per_year = "40h"
 
 [[exports]]
 object = "ring"
@@ -123,6 +125,29 @@ def test_scenario_torus_checks(ran, capsys):
     assert "whole torus" in checks["min_altitude_smaller"]["description"]
 
 
+def test_scenario_torus_eclipse_checks_equal_librate_shadow_torus(ran, capsys):
+    """Seam (scenario check -> command): the torus's eclipse checks are the numbers ``librate
+    shadow --torus REQUEST --torus-phase 30,60`` gives over the same year at the same step; the
+    shadow geometry itself is checked against pyerfa in tests/test_against_pyerfa_shadow.py and
+    the eclipse canon in tests/test_against_espenak_meeus_canon.py."""
+    out, _ = ran
+    checks = {c["name"]: c for c in json.loads((out / "checks.json").read_text())["checks"]["ring"]}
+    rc = main(["shadow", "--system", "earth-moon", "--torus", REQUEST, "--torus-phase", "30,60",
+               "--epoch", "2031-03-01T00:00:00Z", "--span", "365.25d", "--step", "5min", "--format", "json", "-q"])
+    o = capsys.readouterr()
+    assert rc == 0, o.err
+    d = json.loads(o.out)
+    assert d["model"]["torus_phase_deg"] == [30.0, 60.0] and "torus" in d["model"]["model"]
+    longest = max((p["duration_min"] for p in d["passes"] if p["kind"] == "penumbra"), default=0.0)
+    total = sum(p["duration_min"] for p in d["passes"] if p["kind"] == "penumbra")
+    assert longest > 0, d["passes"]                               # a year with shadows to compare
+    assert checks["max_eclipse_duration"]["actual"] == pytest.approx(longest, abs=1e-6)
+    assert checks["max_eclipse_per_year"]["actual"] == pytest.approx(total, abs=1e-6)
+    assert checks["max_eclipse_duration"]["passed"] == (longest <= 300.0)
+    assert "on the torus from phase (30, 60) deg" in checks["max_eclipse_duration"]["description"]
+    assert (out / "eclipses-ring.png").exists()
+
+
 def test_scenario_torus_export_starts_at_the_phase_and_stays_on_the_torus(ran, capsys):
     from cr3bp.dynamics import jacobi
     from cr3bp.tori import Torus
@@ -191,8 +216,8 @@ def _refusal(tmp_path, capsys, text):
     (("amplitude=300km", "amplitude=-300km"), r"orbits\.ring\.torus: .*amplitude"),
     (("quasi-halo around", "quasi-bagel around"), r"orbits\.ring\.torus: unknown torus family 'quasi-bagel'"),
     (("halo L1 north", "lyapunov L1"), r"orbits\.ring\.torus: a quasi-halo torus is about a halo"),
-    (("max_stability_index = 10.0", 'max_eclipse_duration = "60min"'),
-     r"orbits\.ring\.checks\.max_eclipse_duration: eclipse checks are computed for periodic orbits only"),
+    (('max_eclipse_duration = "300min"', 'max_eclipse_duration = "-60min"'),
+     r"orbits\.ring\.checks\.max_eclipse_duration: .*zero or more"),
     (("max_stability_index = 10.0", 'max_period = "20d"'), r"orbits\.ring\.checks\.max_period: a torus has two"),
 ])
 def test_scenario_torus_refusals_before_writing(tmp_path, capsys, change, pattern):

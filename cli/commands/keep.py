@@ -30,10 +30,17 @@ def add_arguments(p):
                    help="planned burns smaller than this are skipped (default 0m/s)")
     m.add_argument("--interval", metavar="TIME", help="a maneuver every TIME (e.g. 7d) instead of once a "
                                                       "revolution at the far x-z plane crossing")
-    m.add_argument("--target-revs", metavar="N", default="4",
-                   help="revolutions from a maneuver to the crossing it targets, 1..10 (default 4)")
+    m.add_argument("--policy", choices=("crossing", "floquet"), default="crossing",
+                   help="the control: 'crossing' (default) gives back the reference's x velocity at a rotating "
+                        "x-z plane crossing --target-revs downstream (Davis et al. 2017); 'floquet' cancels the "
+                        "deviation's component along the unstable mode of the reference's map over --target-revs "
+                        "revolutions (Simo et al. 1986; Howell & Gordon 1994)")
+    m.add_argument("--target-revs", metavar="N",
+                   help="revolutions from a maneuver to the crossing it targets (--policy crossing), or of the map "
+                        "whose unstable mode is cancelled (--policy floquet), 1..10 (default 4)")
     m.add_argument("--hold-phase", action="store_true",
-                   help="hold the target crossing's epoch too (keeps the reference's timing; costs more)")
+                   help="with --policy crossing: hold the target crossing's epoch too (keeps the reference's "
+                        "timing; costs more)")
     m.add_argument("--seed", metavar="N", default="0", help="random seed, 0..999999999999 (default 0)")
     common.add_workers_option(m, "worker processes (default 1: in this process, whose compiled "
                                  "propagation already uses every core); results do not depend on it")
@@ -92,7 +99,9 @@ def _inputs(args):
     errors = parse_errors(args.nav_error, args.burn_error)
     min_burn = velocity_mps("--min-burn", args.min_burn)
     trials = common.whole_number("--trials", args.trials, 1, 100000)
-    target = common.whole_number("--target-revs", args.target_revs, 1, 10)
+    if args.policy == "floquet" and args.hold_phase:
+        raise InputError("--hold-phase goes with --policy crossing; the Floquet-mode control holds no epoch")
+    target = common.whole_number("--target-revs", "4" if args.target_revs is None else args.target_revs, 1, 10)
     seed = common.whole_number("--seed", args.seed, 0, 999999999999)
     workers = common.workers(args)
     if args.scheduler is not None:
@@ -143,9 +152,7 @@ def _run(args):
         return _budget_run(args, sysm, errors, min_burn, trials, target, seed, workers, bodies, srp, interval,
                            client)
     finally:
-        client.close()
-        if cluster is not None:
-            cluster.close()
+        keeping.close_dask(client, cluster)
 
 
 def _budget_run(args, sysm, errors, min_burn, trials, target, seed, workers, bodies, srp, interval, client):
@@ -168,11 +175,12 @@ def _budget_run(args, sysm, errors, min_burn, trials, target, seed, workers, bod
                          f"({0.05 * orbit.period_days:.4g} d) and the span ({span_tu * sysm.time_days:.6g} d)")
     b = keeping.budget(orbit, args.epoch, span_tu, errors, trials, seed=seed, min_burn_mps=min_burn, bodies=bodies,
                        srp=srp, target_revs=target, interval_tu=interval, hold_phase=args.hold_phase,
+                       policy=args.policy,
                        workers=None if client is not None else workers, scheduler=client,
                        progress=lambda m: common.progress(args, m))
     s = b.summary()
     ref = b.reference
-    model_line = (f"{keeping.MODEL_TEXT}: {ref.info['central']} + {', '.join(ref.info['bodies'])}"
+    model_line = (f"{ref.model_text}: {ref.info['central']} + {', '.join(ref.info['bodies'])}"
                   + (f", cannonball SRP A/m {srp[0]:g} m2/kg, Cr {srp[1]:g}" if srp else ""))
     payload = dict(b.to_dict(), orbit_request=args.orbit, epoch=args.epoch, model_line=model_line)
     d = s["dv_per_year_mps"]
@@ -182,8 +190,10 @@ def _budget_run(args, sysm, errors, min_burn, trials, target, seed, workers, bod
                       f"{ref.info['continuity_km'] * 1e6:.3g} mm / {ref.info['continuity_mps'] * 1e3:.3g} mm/s"],
         ["span", f"{b.span_days:.2f} d"],
         ["control", (f"every {interval * sysm.time_days:g} d" if interval else "once a revolution at the far x-z "
-                     "crossing") + f", target crossing {target} revolution(s) downstream"
-                     + (", crossing epoch held" if args.hold_phase else "")],
+                     "crossing") + (f", target crossing {target} revolution(s) downstream"
+                                    + (", crossing epoch held" if args.hold_phase else "")
+                                    if args.policy == "crossing" else
+                                    f", unstable mode of the {target}-revolution map cancelled")],
         ["errors (1-sigma per axis)", f"navigation {errors.nav_position_km:g} km, {errors.nav_velocity_mps * 100:g} cm/s; "
                                       f"execution {errors.burn_proportional * 100:g} %, "
                                       f"{errors.burn_fixed_mps * 1000:g} mm/s"],
@@ -218,7 +228,7 @@ def _budget_run(args, sysm, errors, min_burn, trials, target, seed, workers, bod
         from cr3bp.plotting.keeping import histogram
         histogram(b, args.plot, title=f"{args.orbit} from {args.epoch[:10]}, {b.span_days:.0f} d, {b.trials} trials",
                   text=f"Station-keeping Monte Carlo, ephemeris model ({ref.info['central']} + "
-                       f"{', '.join(ref.info['bodies'])}{', SRP' if srp else ''}), x-axis crossing control; navigation {errors.nav_position_km:g} km, "
+                       f"{', '.join(ref.info['bodies'])}{', SRP' if srp else ''}), {'x-axis crossing' if args.policy == 'crossing' else 'Floquet-mode'} control; navigation {errors.nav_position_km:g} km, "
                        f"{errors.nav_velocity_mps * 100:g} cm/s, execution {errors.burn_proportional * 100:g} %, "
                        f"{errors.burn_fixed_mps * 1000:g} mm/s (1-sigma per axis).")
         common.progress(args, f"wrote {args.plot}")

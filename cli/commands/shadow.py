@@ -18,9 +18,14 @@ TRACK_MODEL = ("the trajectory file's states as written (CR3BP design, or epheme
                "put on Earth-centred J2000 mean-equator axes through the file's own frame (anchoring and epoch); "
                "eclipse geometry from the project's ephemeris, conical shadow model "
                "(Montenbruck & Gill 2000, sec. 3.4.2), geometric positions, spherical bodies")
-#: Options that belong to an orbit placed at a date (refused with --trajectory).
+TORUS_MODEL = ("CR3BP trajectory on a quasi-periodic torus from its torus phase (re-started from the invariance "
+               "circle every stroboscopic time), placed at the epoch by the ephemeris-anchored rotating frame "
+               "(J2000 mean equator, Earth-centred; in Sun-Earth the Earth placed in the Earth-Moon barycentre by "
+               "DE421); eclipse geometry from the project's ephemeris, conical shadow model (Montenbruck & Gill "
+               "2000, sec. 3.4.2), geometric positions, spherical bodies")
+#: Options that belong to an orbit or torus placed at a date (refused with --trajectory).
 ORBIT_ONLY = (("phase", "--phase"), ("avoid_eclipses", "--avoid-eclipses"), ("until_epoch", "--until-epoch"),
-              ("max_eclipse", "--max-eclipse"), ("span", "--span"))
+              ("max_eclipse", "--max-eclipse"), ("span", "--span"), ("torus_phase", "--torus-phase"))
 #: Systems whose orbits can be placed about the Earth (the Earth in the system, or inside its secondary).
 SYSTEMS = ("earth-moon", "sun-earth")
 
@@ -29,6 +34,15 @@ def add_arguments(p):
     common.add_system_options(p, required=False)
     g = p.add_argument_group("orbit and date (or --trajectory)")
     common.add_orbit_at_date(g, "date of rotating time 0", "how long", required=False)
+    g.add_argument("--torus", metavar="TEXT",
+                   help="instead of --orbit: a quasi-periodic torus in words, as librate torus --request takes it "
+                        "(e.g. \"quasi-halo around halo L2 south resonance=9:2 amplitude=2000km\"); the trajectory "
+                        "on it from --torus-phase at the epoch is followed over --span")
+    g.add_argument("--torus-phase", metavar="THETA0,THETA1",
+                   help="with --torus: the torus phase at the epoch, degrees: theta0 along the stroboscopic time, "
+                        "theta1 around the invariance circle (default 0,0; as librate torus --phase). --phase and "
+                        "--avoid-eclipses then move the start along the flow by a fraction of the stroboscopic "
+                        "time")
     g.add_argument("--trajectory", metavar="FILE",
                    help="instead of --orbit: a trajectory file (CCSDS OEM, OEM XML, CSV or JSON of librate export, "
                         "route, run or refine), followed from its first to its last epoch in its own frame and "
@@ -38,10 +52,12 @@ def add_arguments(p):
                         "than the step may be missed")
     ph = g.add_mutually_exclusive_group()
     ph.add_argument("--phase", metavar="ANGLE", help="phase of the orbit at the epoch: 120deg, 0.25rev "
-                                                     "(fraction of the period from its initial state; default 0)")
+                                                     "(fraction of the period from its initial state; with "
+                                                     "--torus of the stroboscopic time from --torus-phase; "
+                                                     "default 0)")
     ph.add_argument("--avoid-eclipses", action="store_true",
-                    help="scan --phases phases over one period and keep the one with the least shadow time "
-                         "(meeting --max-eclipse first when given)")
+                    help="scan --phases phases over one period (stroboscopic time for --torus) and keep the one "
+                         "with the least shadow time (meeting --max-eclipse first when given)")
     g.add_argument("--phases", metavar="N", default="36", help="phases scanned by --avoid-eclipses, 1..720 "
                                                                "(default 36)")
     g.add_argument("--max-eclipse", metavar="TIME", help="with --avoid-eclipses or --until-epoch: prefer phases "
@@ -66,6 +82,13 @@ def add_arguments(p):
 def _inputs(args):
     """Every check of the user's values, before anything is computed or written."""
     from cr3bp.errors import InputError
+    if args.torus_phase is not None and args.torus is None and args.trajectory is None:
+        raise InputError("--torus-phase goes with --torus")
+    if args.torus is not None:
+        if args.orbit is not None or args.trajectory is not None:
+            raise InputError("give one of --orbit, --torus or --trajectory")
+        from cr3bp.tori import request as treq
+        treq.parse(args.torus)
     if args.trajectory is not None:
         if args.orbit is not None:
             raise InputError("give --orbit or --trajectory, not both")
@@ -78,10 +101,11 @@ def _inputs(args):
             raise InputError(f"--trajectory '{args.trajectory}' is not a file")
         sysm = common.resolve_system(args) if (args.system or args.mu) else None
     else:
-        if args.orbit is None:
-            raise InputError("give --orbit REQUEST (with --epoch) or --trajectory FILE")
+        if args.orbit is None and args.torus is None:
+            raise InputError("give --orbit REQUEST (with --epoch), --torus TEXT (with --epoch) or --trajectory FILE")
         if args.epoch is None:
-            raise InputError("--orbit needs --epoch ISO (the date of rotating time 0)")
+            raise InputError(f"{'--orbit' if args.torus is None else '--torus'} needs --epoch ISO (the date of "
+                             "rotating time 0)")
         if args.span is None:
             args.span = "365d"
         sysm = common.resolve_system(args)
@@ -91,6 +115,9 @@ def _inputs(args):
     if sysm.name not in SYSTEMS:
         raise InputError(f"--system {sysm.name}: eclipses and stations are computed for {' and '.join(SYSTEMS)} "
                          "only (the Earth and the Moon as occulting bodies)")
+    if args.torus is not None:
+        from cr3bp.tori import request as treq
+        treq.values(sysm, treq.parse(args.torus))
     return (sysm,) + _checks(args, sysm)
 
 
@@ -110,6 +137,11 @@ def _checks(args, sysm):
     if not 10.0 <= step_s <= 3600.0:
         raise InputError(f"--step '{args.step}' is {step_s:g} s; allowed 10 s to 1 h")
     phase = placement.parse_phase(args.phase) if args.phase is not None else 0.0
+    if args.torus_phase is not None:
+        from cr3bp.validate import numbers
+        args.torus_phase_deg = numbers("--torus-phase", args.torus_phase, 2, "THETA0,THETA1 (degrees)")
+    else:
+        args.torus_phase_deg = (0.0, 0.0)
     n_phases = common.whole_number("--phases", args.phases, 1, 720)
     max_min = None
     if args.max_eclipse is not None:
@@ -164,14 +196,25 @@ def _run(args):
         ends.append(epochs[-1] + export.parse_span(args.span, sysm) * sysm.time_s)
     for body in ("sun", "moon"):
         ephemeris.position(body, frames._epoch(np.array(ends)), "earth")
-    common.progress(args, f"solving orbit request '{args.orbit}'...")
-    orbit = solve_request(sysm, args.orbit)
-    span_tu = export.parse_span(args.span, sysm, float(orbit.period))
+    if args.torus is not None:
+        from cr3bp.tori import request as treq
+        common.progress(args, f"solving torus request '{args.torus}'...")
+        orbit = treq.solve(sysm, args.torus, progress=lambda m: common.progress(args, m))
+        period, request, model_text = float(orbit.stroboscopic_time), args.torus, TORUS_MODEL
+    else:
+        common.progress(args, f"solving orbit request '{args.orbit}'...")
+        orbit = solve_request(sysm, args.orbit)
+        period, request, model_text = float(orbit.period), args.orbit, MODEL
+    span_tu = export.parse_span(args.span, sysm, period)
     span_s = span_tu * sysm.time_s
     if span_s > 20 * 365.25 * 86400.0:
         from cr3bp.errors import InputError
         raise InputError(f"--span '{args.span}' is longer than 20 years")
-    placed = placement.place(sysm, orbit, epoch)
+    if args.torus is not None:
+        common.progress(args, f"sampling the trajectory on the torus over {span_s / 86400.0:.4g} d...")
+        placed = placement.place_torus(sysm, orbit, epoch, span_tu, args.torus_phase_deg)
+    else:
+        placed = placement.place(sysm, orbit, epoch)
     epoch_scan = []
     if len(epochs) > 1:
         common.progress(args, f"scanning {len(epochs)} start epochs"
@@ -180,7 +223,8 @@ def _run(args):
                                          n_phases=n_phases if args.avoid_eclipses else None,
                                          max_pass_min=max_min, bodies=bodies)
         epoch = epoch_scan[0].epoch_tdb_s
-        placed = placement.place(sysm, orbit, epoch)
+        placed = (placement.with_epoch(placed, epoch) if args.torus is not None   # the same sample, moved
+                  else placement.place(sysm, orbit, epoch))
     sk = phasing.sky(placed, span_s, step_s)
     scan = []
     if epoch_scan:
@@ -204,18 +248,27 @@ def _run(args):
 
     wins = tuple(wins)
     t0, t1 = frames.epoch_to_text(np.array([sk.tdb_s[0], sk.tdb_s[-1]]), "UTC", 3)
-    model = {"model": MODEL, "system": sysm.name, "orbit request": args.orbit,
-             "orbit": f"{orbit.family} {orbit.point} {orbit.branch}".strip(),
-             "period_days": float(orbit.period * sysm.time_days), "epoch_utc": t0 + "Z", "end_utc": t1 + "Z",
+    model = {"model": model_text, "system": sysm.name,
+             ("torus request" if args.torus else "orbit request"): request,
+             ("torus" if args.torus else "orbit"): f"{orbit.family} {orbit.point} {orbit.branch}".strip(),
+             "period_days": float(period * sysm.time_days), "epoch_utc": t0 + "Z", "end_utc": t1 + "Z",
              "span_days": span_s / 86400.0, "step_s": step_s, "bodies": list(bodies),
              "phase_deg": phase, "phase_chosen_by": "scan" if scan else "given",
              "epoch_chosen_by": f"scan of {len(epochs)} epochs" if epoch_scan else "given"}
-    items = [
-        ["orbit", f"{model['orbit']} ({args.orbit})"], ["period (CR3BP)", f"{model['period_days']:.4f} d"],
+    if args.torus:
+        model["torus_phase_deg"] = list(args.torus_phase_deg)
+        model["rotation_deg"] = float(orbit.rotation_deg)
+        items = [["torus", f"{model['torus']} ({args.torus})"],
+                 ["stroboscopic period (CR3BP)", f"{model['period_days']:.4f} d"],
+                 ["torus phase at the epoch", "{:g}, {:g} deg (theta0, theta1)".format(*args.torus_phase_deg)]]
+    else:
+        items = [["orbit", f"{model['orbit']} ({args.orbit})"], ["period (CR3BP)", f"{model['period_days']:.4f} d"]]
+    items += [
         ["from", model["epoch_utc"] + (f" (best of {len(epochs)} epochs scanned)" if epoch_scan else "")],
         ["to", model["end_utc"]], ["search step", f"{step_s:g} s"],
         ["phase at the epoch", f"{phase:g} deg ({'best of ' + str(n_phases) + ' scanned' if scan else 'given'})"]]
-    payload, headers, rows, parts = _report(MODEL, "CR3BP orbit at the epoch, ephemeris eclipse geometry", model,
+    payload, headers, rows, parts = _report(model_text, ("CR3BP torus trajectory" if args.torus else "CR3BP orbit")
+                                            + " at the epoch, ephemeris eclipse geometry", model,
                                             items, best.passes, span_s, bodies, sun_angle, moon_angle, rn,
                                             stations, wins)
     payload.update({"phase_scan": [{"phase_deg": h.phase_deg, "shadow_total_min": h.total_min(),
@@ -241,11 +294,15 @@ def _run(args):
                                             else "")))
     parts += _visibility_table(payload["visibility"])
     table = "\n".join(parts)
-    comments = [f"librate shadow: {MODEL}", f"orbit {args.orbit}; phase {phase:g} deg; epoch {t0}Z"]
+    what = "torus" if args.torus else "orbit"
+    comments = [f"librate shadow: {model_text}", f"{what} {request}; phase {phase:g} deg; epoch {t0}Z"]
+    if args.torus:
+        comments.append("torus phase at the epoch {:g}, {:g} deg".format(*args.torus_phase_deg))
     if args.plot:
         from cr3bp.plotting.eclipses import timeline
-        timeline(best, epoch, args.plot, title=f"{args.orbit} from {t0[:10]}, phase {phase:g} deg",
-                 text="CR3BP orbit placed at the epoch by the ephemeris-anchored frame; conical shadows of the Earth "
+        timeline(best, epoch, args.plot, title=f"{request} from {t0[:10]}, phase {phase:g} deg",
+                 text=("CR3BP torus trajectory" if args.torus else "CR3BP orbit")
+                      + " placed at the epoch by the ephemeris-anchored frame; conical shadows of the Earth "
                       "and the Moon from the project's ephemeris (Montenbruck & Gill 2000, sec. 3.4.2).")
         common.progress(args, f"wrote {args.plot}")
     common.emit(args, payload=payload, headers=headers, rows=rows, table=table, comments=comments)

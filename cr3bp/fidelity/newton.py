@@ -15,6 +15,62 @@ import numpy as np
 from ..errors import ConvergenceError
 
 HALVINGS = 8
+#: Jacobians with at least this many entries, and at most :data:`SPARSE_FILL` of them nonzero,
+#: take the sparse least-norm step (a multiple-shooting Jacobian is block-banded: its normal
+#: matrix ``J J^T`` is banded and factors in linear time instead of cubic).
+SPARSE_MIN_ENTRIES = 40000
+SPARSE_FILL = 0.2
+
+
+def least_norm_step(J, F) -> np.ndarray:
+    """The least-norm solution ``d = -J^T (J J^T)^-1 F`` of ``J d = -F``.
+
+    Dense (``numpy.linalg.solve``) for small or full Jacobians; for large, mostly-zero ones
+    (multiple shooting over many revolutions) ``J J^T`` is formed and LU-factored sparse
+    (scipy's SuperLU): the same step to rounding, in time linear in the number of patch points.
+
+    Parameters
+    ----------
+    J : numpy.ndarray or scipy.sparse matrix, shape (k, n)
+        The Jacobian (k <= n, full row rank); a sparse one always takes the sparse path.
+    F : numpy.ndarray, shape (k,)
+        The residual.
+
+    Returns
+    -------
+    numpy.ndarray, shape (n,)
+        The step.
+
+    Raises
+    ------
+    numpy.linalg.LinAlgError
+        A singular ``J J^T``.
+
+    Examples
+    --------
+    >>> least_norm_step(np.array([[1.0, 1.0]]), np.array([2.0]))
+    array([-1., -1.])
+
+    References
+    ----------
+    Golub, G. H. & Van Loan, C. F., "Matrix Computations", 4th ed. (2013), sec. 5.6 (least-norm
+    solutions); Li, X. S., "An overview of SuperLU", ACM TOMS 31(3), 302 (2005).
+    """
+    F = np.asarray(F, dtype=float)
+    if hasattr(J, "tocsr") or np.size(J) >= SPARSE_MIN_ENTRIES:
+        from scipy import sparse  # lazy: heavy library (scipy)
+        from scipy.sparse.linalg import splu  # lazy: heavy library (scipy)
+        Js = sparse.csr_matrix(J)
+        if sparse.issparse(J) or Js.nnz <= SPARSE_FILL * np.size(J):
+            try:
+                y = splu((Js @ Js.T).tocsc()).solve(F)
+            except RuntimeError:               # SuperLU: "Factor is exactly singular"
+                raise np.linalg.LinAlgError("singular normal matrix") from None
+            if not np.all(np.isfinite(y)):
+                raise np.linalg.LinAlgError("singular normal matrix")
+            return -(Js.T @ y)
+    J = np.asarray(J, dtype=float)
+    return -(J.T @ np.linalg.solve(J @ J.T, F))
 
 
 def history_text(hist) -> str:
@@ -98,7 +154,7 @@ def solve(constraints, z, tol, max_iter, *, what="multiple shooting", residual=N
         if it == max_iter:
             break
         try:
-            d = -(J.T @ np.linalg.solve(J @ J.T, F))
+            d = least_norm_step(J, F)
         except np.linalg.LinAlgError:
             raise ConvergenceError(f"singular {what} system at iteration {it}",
                                    iterations=it, residuals=hist) from None

@@ -178,18 +178,36 @@ def correct(model, X0, t, *, fix_first=False, free_times=False, tol=TOLERANCE, m
             tt[1:-1] = full[ns:]
         return full[:ns].reshape(m + 1, 6), tt
 
+    n_cols = ns + ((m - 1) if free_times else 0)
+    # the Jacobian's pattern (block-banded): Phi_k and -I on each row block, then the times
+    kk = np.arange(m)[:, None, None]
+    ii = np.arange(6)[None, :, None]
+    jj = np.arange(6)[None, None, :]
+    stm_rows, stm_cols = np.broadcast_to(6 * kk + ii, (m, 6, 6)), np.broadcast_to(6 * kk + jj, (m, 6, 6))
+    eye_rows = (6 * np.arange(m)[:, None] + np.arange(6)[None, :])
+    eye_cols = eye_rows + 6
+
     def constraints(z):
+        from scipy import sparse  # lazy: heavy library (scipy)
         X, tt = unpack(z)
         ends, phis = _model.propagate_many(model, X[:-1], tt[:-1], tt[1:], stm=True)
-        J = np.zeros((6 * m, ns + ((m - 1) if free_times else 0)))
-        for k in range(m):
-            J[6 * k:6 * k + 6, 6 * k:6 * k + 6] = phis[k]
-            J[6 * k:6 * k + 6, 6 * k + 6:6 * k + 12] = -np.eye(6)
-            if free_times and k >= 1:   # t_k is interior: dF_k/dt_k = -Phi_k f(t_k, x_k)
-                J[6 * k:6 * k + 6, ns + k - 1] = -phis[k] @ model.acceleration(tt[k], X[k])
-            if free_times and k + 1 <= m - 1:  # dF_k/dt_{k+1} = f(t_{k+1}, end_k)
-                J[6 * k:6 * k + 6, ns + k] = model.acceleration(tt[k + 1], ends[k])
-        return (ends - X[1:]).ravel(), J[:, cols]
+        rows, cls, vals = [stm_rows.ravel(), eye_rows.ravel()], [stm_cols.ravel(), eye_cols.ravel()], \
+            [np.asarray(phis, dtype=float).ravel(), -np.ones(6 * m)]
+        if free_times:
+            for k in range(m):
+                if k >= 1:              # t_k is interior: dF_k/dt_k = -Phi_k f(t_k, x_k)
+                    rows.append(eye_rows[k])
+                    cls.append(np.full(6, ns + k - 1))
+                    vals.append(-phis[k] @ model.acceleration(tt[k], X[k]))
+                if k + 1 <= m - 1:      # dF_k/dt_{k+1} = f(t_{k+1}, end_k)
+                    rows.append(eye_rows[k])
+                    cls.append(np.full(6, ns + k))
+                    vals.append(np.asarray(model.acceleration(tt[k + 1], ends[k]), dtype=float))
+        # sparse: over a year of revolutions the dense Jacobian is tens of megabytes of zeros,
+        # and the Newton step factors its banded normal matrix (cr3bp.fidelity.newton)
+        J = sparse.csc_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cls))),
+                              shape=(6 * m, n_cols))
+        return (ends - X[1:]).ravel(), J[:, cols].tocsr()
 
     z0 = np.concatenate([X0.ravel(), t0[1:-1] if free_times else []])[cols]
     z, it, hist = _newton.solve(

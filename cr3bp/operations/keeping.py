@@ -28,6 +28,24 @@ the reference; each trial uses them with its NAVIGATED deviation ``dx_nav = x_tr
 x_ref(t_m)``, executes ``dv`` with execution errors, and propagates its TRUE state in the
 ephemeris model to the next maneuver. A planned Δv under ``min_burn_mps`` is skipped.
 
+Floquet-mode control (``policy="floquet"``; after Simó, Gómez, Llibre & Martínez, "Station
+keeping of a quasiperiodic halo orbit using invariant manifolds", Proc. 2nd International
+Symposium on Spacecraft Flight Dynamics, ESA SP-255, 1986, and Howell & Gordon, "Orbit
+determination error analysis and a station-keeping strategy for Sun-Earth L1 libration point
+orbits", J. Astronautical Sciences 42(2), 1994; both from memory). At the same maneuver slots,
+the state transition matrix of the reference from the maneuver over ``target_revs``
+revolutions, ``Phi(t_m + N T, t_m)``, gives the unstable mode (its eigenvalue of largest
+modulus) and its left eigenvector ``w`` (``w Phi = lambda w``, unit norm): ``w dx`` is the
+deviation's component along the unstable mode, the one that grows by ``lambda`` over those
+revolutions. The maneuver is the least Δv that cancels it (one row ``w``, the same least-norm
+solve as the crossing control): the stable and centre components are left to the dynamics. No
+crossing and no epoch are held. The published scheme takes the monodromy of a periodic
+(N = 1); the ephemeris reference is not periodic, and for the weakly unstable 9:2 NRHO
+(multiplier about 1.4 a revolution, close to the four of modulus 1) the one-revolution mode
+changes from revolution to revolution so much that cancelling it each revolution lets the
+deviation grow about threefold a revolution (measured); over N = 4 revolutions (the default)
+the mode is well separated and the control holds (measured, tests/test_keeping_floquet.py).
+
 Errors (1-σ, each axis of the J2000 equator frame, Gaussian): navigation position and
 velocity; execution ``dv_exec = dv + s_p |dv| n_1 + s_f n_2`` (proportional, magnitude and
 pointing together, and fixed; common practice). The true state starts on the reference plus
@@ -82,6 +100,10 @@ YEAR_DAYS = 365.25
 
 MODEL_TEXT = ("ephemeris point-mass model (DE421 positions; cr3bp.fidelity), x-axis crossing "
               "control about the refined reference (Davis et al. 2017, AAS 17-269)")
+#: Station-keeping policies: the control each one is, for the model line of a budget.
+POLICIES = {"crossing": "x-axis crossing control about the refined reference (Davis et al. 2017, AAS 17-269)",
+            "floquet": "Floquet-mode control about the refined reference: the unstable mode's component "
+                       "cancelled (Simo et al. 1986, ESA SP-255; Howell & Gordon 1994)"}
 
 
 @dataclass(frozen=True)
@@ -120,12 +142,9 @@ class Errors:
     burn_fixed_mps: float = 0.0
 
     def __post_init__(self):
-        for name in ("nav_position_km", "nav_velocity_mps", "burn_proportional", "burn_fixed_mps"):
-            v = getattr(self, name)
-            if not (isinstance(v, (int, float)) and math.isfinite(v) and v >= 0.0):
-                raise InputError(f"error {name} = {v!r} must be a finite number >= 0")
-        if self.burn_proportional > 1.0:
-            raise InputError(f"proportional execution error {self.burn_proportional:g} is over 100 %")
+        for name in ("nav_position_km", "nav_velocity_mps", "burn_fixed_mps"):
+            validate.number_value(f"error {name}", getattr(self, name), 0.0)
+        validate.number_value("error burn_proportional (fraction, 1 = 100 %)", self.burn_proportional, 0.0, 1.0)
 
     def scaled(self, k: float) -> "Errors":
         return Errors(*(k * v for v in (self.nav_position_km, self.nav_velocity_mps,
@@ -196,6 +215,12 @@ class Reference:
     target_revs: int
     interval_tu: float | None
     info: dict = field(default_factory=dict)
+    policy: str = "crossing"
+
+    @property
+    def model_text(self) -> str:
+        """The model and the control, in words."""
+        return ("ephemeris point-mass model (DE421 positions; cr3bp.fidelity), " + POLICIES[self.policy])
 
     @property
     def system(self):
@@ -206,7 +231,7 @@ class Reference:
         return {"model": self.model.to_dict(), "epoch_tdb_s": self.epoch_tdb_s,
                 "span_days": self.span_tu * s.time_days, "revolutions": self.revs,
                 "period_days": self.period_tu * s.time_days, "target_revs": self.target_revs,
-                "hold_phase": self.hold_phase,
+                "hold_phase": self.hold_phase, "policy": self.policy,
                 "interval_days": None if self.interval_tu is None else self.interval_tu * s.time_days,
                 "maneuver_days": (self.t_man * s.time_days).tolist(),
                 "target_crossing_days": (self.t_cross * s.time_days).tolist(), "transition": dict(self.info)}
@@ -299,7 +324,7 @@ def _condition_rows(model, frame, t_c, x_c, hold_phase):
 
 def reference(orbit, epoch, span_tu: float, *, bodies=("sun", "earth", "moon"), srp=None,
               target_revs: int = TARGET_REVS, interval_tu: float | None = None, hold_phase: bool = False,
-              progress=None) -> Reference:
+              policy: str = "crossing", progress=None) -> Reference:
     """The ephemeris-model reference over the span and the first-order rows of every maneuver.
 
     Parameters
@@ -317,7 +342,9 @@ def reference(orbit, epoch, span_tu: float, *, bodies=("sun", "earth", "moon"), 
     interval_tu : float, optional
         Maneuvers every interval instead of once a revolution.
     hold_phase : bool, optional
-        Hold the crossing epoch too.
+        Hold the crossing epoch too (crossing control only).
+    policy : {"crossing", "floquet"}, optional
+        The control (module notes): x-axis crossing control (default) or Floquet-mode control.
     progress : callable(str), optional
         One line per step.
 
@@ -353,12 +380,17 @@ def reference(orbit, epoch, span_tu: float, *, bodies=("sun", "earth", "moon"), 
     from ..fidelity import model as fm  # lazy: heavy library (numba, via cr3bp.fidelity.model)
     from ..fidelity.transition import transition  # lazy: heavy library (numba, via cr3bp.fidelity.transition)
     T = float(orbit.period)
+    if policy not in POLICIES:
+        raise InputError(f"station-keeping policy '{policy}': allowed {', '.join(POLICIES)}")
+    if policy == "floquet" and hold_phase:
+        raise InputError("hold_phase goes with the crossing policy; the Floquet-mode control holds no epoch")
     span_tu = validate.positive_number("span (TU)", span_tu)
     target_revs = validate.whole_number("target revolutions", target_revs, 1, 10)
-    if interval_tu is not None and not (math.isfinite(interval_tu) and 0.05 * T <= interval_tu <= span_tu):
-        s = orbit.system
-        raise InputError(f"maneuver interval {interval_tu * s.time_days:.6g} d must be between 5 % of the "
-                         f"period ({0.05 * T * s.time_days:.4g} d) and the span ({span_tu * s.time_days:.6g} d)")
+    if interval_tu is not None:
+        days = orbit.system.time_days
+        validate.number_value("maneuver interval (d, from 5 % of the period to the span)",
+                              validate.finite_number("maneuver interval (TU)", interval_tu) * days,
+                              0.05 * T * days, span_tu * days)
     revs = int(math.ceil(span_tu / T - 1e-9)) + target_revs + 2
     if revs > MAX_REVS:
         s = orbit.system
@@ -390,14 +422,72 @@ def reference(orbit, epoch, span_tu: float, *, bodies=("sun", "earth", "moon"), 
     if progress:
         progress(f"reference: {t_man.size} maneuver points, sensitivities to their target crossings...")
     x_man = _state_at(model, tr.patches, tr.t_tu, t_man)
-    x_c, phis = fm.propagate_many(model, x_man, t_man, t_c, stm=True, rtol=1e-13, atol=1e-13)
-    rows = np.einsum("kmi,kij->kmj", _condition_rows(model, frame, t_c, x_c, hold_phase), phis)
+    if policy == "floquet":
+        rows = floquet_rows(model, x_man, t_man, target_revs * T)
+    else:
+        x_c, phis = fm.propagate_many(model, x_man, t_man, t_c, stm=True, rtol=1e-13, atol=1e-13)
+        rows = np.einsum("kmi,kij->kmj", _condition_rows(model, frame, t_c, x_c, hold_phase), phis)
     info = {"iterations": tr.iterations, "continuity_km": tr.continuity_km,
             "continuity_mps": tr.continuity_mps, "patch_points": int(tr.t_tu.size),
             "max_path_offset_km": max(r["max_path_offset_km"] for r in tr.per_rev),
             "central": model.central, "bodies": list(model.bodies), "ephemeris": model.ephemeris}
     return Reference(model, tr.epoch_tdb_s, float(span_tu), t_man, x_man, t_c, rows, tr.patches[0].copy(),
-                     T, revs, bool(hold_phase), target_revs, interval_tu, info)
+                     T, revs, bool(hold_phase), target_revs, interval_tu, info, policy)
+
+
+def floquet_rows(model, x_man, t_man, span_tu: float) -> np.ndarray:
+    """The unstable mode's left eigenvector of the reference's map over ``span_tu`` from each
+    maneuver, (K, 1, 6).
+
+    Parameters
+    ----------
+    model : Model
+        The ephemeris model.
+    x_man : numpy.ndarray, shape (K, 6)
+        Reference states at the maneuvers (nondimensional, inertial).
+    t_man : numpy.ndarray, shape (K,)
+        Maneuver epochs, TU.
+    span_tu : float
+        The span of the transition matrix: whole revolutions of the CR3BP orbit.
+
+    Returns
+    -------
+    numpy.ndarray, shape (K, 1, 6)
+        Unit rows ``w`` with ``w Phi(t_m + span, t_m) = lambda w``, ``lambda`` the eigenvalue
+        of largest modulus (real and over 1).
+
+    Raises
+    ------
+    NoSolutionError
+        An orbit without a real unstable mode (``|lambda| <= 1`` or a complex pair): nothing
+        for Floquet-mode control to cancel.
+
+    Examples
+    --------
+    >>> rows = floquet_rows(ref.model, ref.x_man, ref.t_man, 4 * ref.period_tu)   # doctest: +SKIP
+
+    References
+    ----------
+    Howell, K. C. & Gordon, S. C., "Orbit determination error analysis and a station-keeping
+    strategy for Sun-Earth L1 libration point orbits", Journal of the Astronautical Sciences
+    42(2), 207 (1994); Simó, C., Gómez, G., Llibre, J. & Martínez, R., "Station keeping of a
+    quasiperiodic halo orbit using invariant manifolds", ESA SP-255 (1986) (both from memory).
+    """
+    from ..fidelity import model as fm  # lazy: heavy library (numba, via cr3bp.fidelity.model)
+    t_man = np.atleast_1d(np.asarray(t_man, dtype=float))
+    _, phis = fm.propagate_many(model, np.atleast_2d(x_man), t_man, t_man + float(span_tu), stm=True,
+                                rtol=1e-13, atol=1e-13)
+    rows = np.empty((t_man.size, 1, 6))
+    for k, phi in enumerate(phis):
+        lam, w = np.linalg.eig(phi.T)             # left eigenvectors of phi
+        j = int(np.argmax(np.abs(lam)))
+        if abs(lam[j]) <= 1.0 + 1e-6 or abs(lam[j].imag) > 1e-9 * abs(lam[j]):
+            raise NoSolutionError(f"the reference's map has no real unstable mode at maneuver "
+                                  f"{k + 1} (largest multiplier {complex(lam[j]):.4g}); use the crossing policy")
+        v = np.real(w[:, j])
+        v = v / np.linalg.norm(v)
+        rows[k, 0] = v if v[np.argmax(np.abs(v))] > 0 else -v     # a fixed sign: the same row each run
+    return rows
 
 
 # ---- the trials ----------------------------------------------------------------------------
@@ -704,6 +794,8 @@ def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, mi
 CONNECT_TIMEOUT_S = 10
 #: Most worker processes of a local cluster (``local:N``).
 MAX_LOCAL_WORKERS = 64
+#: The local scheduler's HTTP address: this machine only, a free port.
+LOCAL_HTTP_ADDRESS = "127.0.0.1:0"
 
 
 def local_workers(scheduler) -> int | None:
@@ -796,10 +888,15 @@ def dask_client(scheduler, workers: int | None = None):
         local = False
     if local:
         n = n_local or (2 if workers is None else validate.whole_number("workers", workers, 1))
-        # processes with one thread each, as the pool's workers (each chunk sets numba to one thread)
-        # its workers' shutdown notices stay out of the terminal (errors still show)
-        cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True, dashboard_address=None,
-                               silence_logs=logging.ERROR)
+        # processes with one thread each, as the pool's workers (each chunk sets numba to one thread).
+        # Quiet: no dashboard, and the scheduler's HTTP routes on a free local port (the default
+        # 8787 may be taken by another cluster: a warning otherwise); the workers' and scheduler's
+        # logs only at CRITICAL, so the heartbeat a worker still sends while the scheduler stops
+        # (logged with its traceback at ERROR) stays out of the terminal. A task's own failure
+        # still reaches here as the exception of its future.
+        cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True,
+                               dashboard_address=LOCAL_HTTP_ADDRESS, scheduler_kwargs={"dashboard": False},
+                               silence_logs=logging.CRITICAL)
         return Client(cluster), cluster
     try:
         return Client(str(scheduler), timeout=f"{CONNECT_TIMEOUT_S}s"), None
@@ -853,7 +950,43 @@ def on_dask(ref: Reference, errors: Errors, n: int, seed: int, min_burn_mps: flo
         return _collect(futs, as_completed, n, progress)
     finally:
         if client is not scheduler:
-            client.close()
+            close_dask(client, cluster)
+
+
+def close_dask(client, cluster=None) -> None:
+    """Close what :func:`dask_client` opened, quietly: the client first (no reconnection
+    attempts to a scheduler that is going away), then the local cluster (its workers before
+    its scheduler).
+
+    Parameters
+    ----------
+    client : distributed.Client
+        The client.
+    cluster : distributed.LocalCluster, optional
+        The local cluster started by :func:`dask_client` (None: a remote one, left running).
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    Exception
+        What the client's or the cluster's close raises (rare; the cluster is closed even when
+        the client's close fails).
+
+    Examples
+    --------
+    >>> client, cluster = dask_client("local:2")     # doctest: +SKIP
+    >>> close_dask(client, cluster)                  # doctest: +SKIP
+
+    References
+    ----------
+    Dask.distributed documentation, "LocalCluster" and "Client.close" (common practice).
+    """
+    try:
+        client.close()
+    finally:
         if cluster is not None:
             cluster.close()
 
@@ -954,7 +1087,7 @@ class Budget:
         }
 
     def to_dict(self) -> dict:
-        return {"model": MODEL_TEXT, "reference": self.reference.to_dict(), "errors": self.errors.to_dict(),
+        return {"model": self.reference.model_text, "reference": self.reference.to_dict(), "errors": self.errors.to_dict(),
                 "seed": self.seed, "min_burn_mps": self.min_burn_mps, "summary": self.summary(),
                 "dv_per_year_mps": self.per_year_mps.tolist(), "maneuvers": self.maneuvers.tolist(),
                 "lost_at_maneuver": self.result["lost"].tolist(), "caution": caution("ephemeris")}
@@ -963,7 +1096,7 @@ class Budget:
 def budget(orbit, epoch, span_tu: float, errors: Errors, trials: int, *, seed: int = 0,
            min_burn_mps: float = 0.0, bodies=("sun", "earth", "moon"), srp=None,
            target_revs: int = TARGET_REVS, interval_tu: float | None = None, hold_phase: bool = False,
-           workers: int | None = None, scheduler=None, progress=None) -> Budget:
+           policy: str = "crossing", workers: int | None = None, scheduler=None, progress=None) -> Budget:
     """Station-keeping budget of ``orbit`` from ``epoch`` over ``span_tu`` (module notes).
 
     Parameters
@@ -980,7 +1113,7 @@ def budget(orbit, epoch, span_tu: float, errors: Errors, trials: int, *, seed: i
         Monte Carlo trials.
     seed, min_burn_mps
         As for :func:`run_trials`.
-    bodies, srp, target_revs, interval_tu, hold_phase
+    bodies, srp, target_revs, interval_tu, hold_phase, policy
         As for :func:`reference`.
     workers, scheduler, progress
         As for :func:`run_trials`.
@@ -1015,12 +1148,11 @@ def budget(orbit, epoch, span_tu: float, errors: Errors, trials: int, *, seed: i
     Howell, K. C. & Davis, D. C., "Stationkeeping analysis for spacecraft in lunar near
     rectilinear halo orbits", AAS 17-395 (2017) (both from memory).
     """
-    if not (isinstance(min_burn_mps, (int, float)) and math.isfinite(min_burn_mps) and min_burn_mps >= 0):
-        raise InputError(f"minimum burn {min_burn_mps!r} m/s must be >= 0")
+    validate.number_value("minimum burn (m/s)", min_burn_mps, 0.0)
     if not isinstance(errors, Errors):
         raise InputError("errors must be an Errors")
     ref = reference(orbit, epoch, span_tu, bodies=bodies, srp=srp, target_revs=target_revs,
-                    interval_tu=interval_tu, hold_phase=hold_phase, progress=(
+                    interval_tu=interval_tu, hold_phase=hold_phase, policy=policy, progress=(
                         (lambda m: progress(m)) if progress else None))
     res = run_trials(ref, errors, trials, seed, min_burn_mps=min_burn_mps, workers=workers, scheduler=scheduler,
                      progress=(lambda d, n: progress(f"trials: {d} of {n} done")) if progress else None)

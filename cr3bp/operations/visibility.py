@@ -23,6 +23,7 @@ from pathlib import Path
 
 import numpy as np
 
+from .. import validate
 from ..constants import DAYS_PER_JULIAN_CENTURY, J2000_JD, SECONDS_PER_DAY
 from ..errors import InputError
 from ..time.frames import _epoch, epoch_to_text
@@ -130,11 +131,7 @@ def read_stations(path) -> list:
                 if need:
                     raise InputError(f"stations file '{path}': stations.{name} needs {key}")
                 continue
-            v = row[key]
-            if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v) or not lo <= v <= hi:
-                raise InputError(f"stations file '{path}': stations.{name}.{key} = {v!r}; "
-                                 f"allowed a number in [{lo}, {hi}]")
-            vals[key] = float(v)
+            vals[key] = validate.number_value(f"stations file '{path}': stations.{name}.{key}", row[key], lo, hi)
         out.append(Station(str(name), vals["latitude_deg"], vals["longitude_deg"],
                            vals.get("min_elevation_deg", 0.0), vals.get("altitude_km", 0.0)))
     return out

@@ -538,19 +538,23 @@ def eclipse_check_problem(system, value) -> str:
     return ""
 
 
-def eclipse_history(orbit, epoch, phase_deg: float = 0.0):
+def eclipse_history(orbit, epoch, phase_deg: float = 0.0, torus_phase_deg=(0.0, 0.0)):
     """Shadow passes (:class:`cr3bp.operations.phasing.History`) of ``orbit`` placed at ``epoch``
     (ISO text or TDB s) and started at ``phase_deg``, over :data:`ECLIPSE_SPAN_DAYS`; computed
     once per orbit, epoch and phase in a run (the checks and the report's timeline share it).
+    A torus is placed from ``torus_phase_deg`` (:func:`cr3bp.operations.placement.place_torus`,
+    the trajectory ``librate shadow --torus --torus-phase`` follows).
 
     Parameters
     ----------
-    orbit : PeriodicOrbit
-        The orbit.
+    orbit : PeriodicOrbit or Torus
+        The orbit or torus.
     epoch : str or float
         The date of rotating time 0.
     phase_deg : float
         The orbit's phase at the epoch.
+    torus_phase_deg : (float, float), optional
+        A torus's phase ``(theta0, theta1)`` at the epoch, degrees.
 
     Returns
     -------
@@ -571,10 +575,17 @@ def eclipse_history(orbit, epoch, phase_deg: float = 0.0):
     Montenbruck, O. & Gill, E., "Satellite Orbits: Models, Methods and Applications",
     Springer (2000), sec. 3.4.2 (conical shadow model).
     """
-    key = (orbit.system.name, tuple(np.asarray(orbit.state, dtype=float)), float(orbit.period), str(epoch),
-           float(phase_deg) % 360.0)
+    torus = getattr(orbit, "circle", None) is not None and hasattr(orbit, "stroboscopic_time")
+    if torus:
+        key = (orbit.system.name, "torus", np.asarray(orbit.circle, dtype=float).tobytes(),
+               float(orbit.stroboscopic_time), str(epoch), float(phase_deg) % 360.0,
+               tuple(float(p) for p in torus_phase_deg))
+    else:
+        key = (orbit.system.name, tuple(np.asarray(orbit.state, dtype=float)), float(orbit.period), str(epoch),
+               float(phase_deg) % 360.0)
     if key not in _HISTORIES:
-        pl = placement.place(orbit.system, orbit, epoch)
+        pl = (placement.place_torus(orbit.system, orbit, epoch, ECLIPSE_SPAN_DAYS / orbit.system.time_days,
+                                    torus_phase_deg) if torus else placement.place(orbit.system, orbit, epoch))
         sk = phasing.sky(pl, ECLIPSE_SPAN_DAYS * SECONDS_PER_DAY, ECLIPSE_STEP_S)
         if len(_HISTORIES) > 32:
             _HISTORIES.clear()
@@ -582,7 +593,7 @@ def eclipse_history(orbit, epoch, phase_deg: float = 0.0):
     return _HISTORIES[key]
 
 
-def eclipse_check(orbit, key: str, value, epoch, phase_deg: float = 0.0) -> CheckResult:
+def eclipse_check(orbit, key: str, value, epoch, phase_deg: float = 0.0, torus_phase_deg=(0.0, 0.0)) -> CheckResult:
     """One eclipse check: the longest pass or the total per year (minutes) against ``value``.
 
     Parameters
@@ -597,6 +608,8 @@ def eclipse_check(orbit, key: str, value, epoch, phase_deg: float = 0.0) -> Chec
         The date of rotating time 0.
     phase_deg : float
         The orbit's phase at the epoch.
+    torus_phase_deg : (float, float), optional
+        A torus's phase at the epoch, degrees (:func:`eclipse_history`).
 
     Returns
     -------
@@ -623,10 +636,11 @@ def eclipse_check(orbit, key: str, value, epoch, phase_deg: float = 0.0) -> Chec
     if why:
         raise InputError(f"check '{key}': {why}")
     req = units.parse(value, "time").si() / 60.0
-    _, h = eclipse_history(orbit, epoch, phase_deg)
+    _, h = eclipse_history(orbit, epoch, phase_deg, torus_phase_deg)
     act = h.longest_min() if key == "max_eclipse_duration" else h.total_min() * (365.25 * 86400.0 / h.span_s)
-    return _result(key, f"{ECLIPSE_CHECKS[key]}, over a year from the epoch at phase {float(phase_deg) % 360:g} deg",
-                   req, act, "min", False)
+    at = (f"at phase {float(phase_deg) % 360:g} deg" if getattr(orbit, "circle", None) is None else
+          "on the torus from phase ({:g}, {:g}) deg".format(*torus_phase_deg))
+    return _result(key, f"{ECLIPSE_CHECKS[key]}, over a year from the epoch {at}", req, act, "min", False)
 
 
 def eclipse_figures(plan, orbits, out, formats) -> dict:
@@ -668,10 +682,13 @@ def eclipse_figures(plan, orbits, out, formats) -> dict:
         if not any(k in ECLIPSE_CHECKS for k in (entry.get("checks") or {})):
             continue
         phase = float(entry.get("phase_deg", 0.0))
-        t0, h = eclipse_history(orbits[name], plan.epoch, phase)
-        fig = timeline_figure(h, t0, title=f"'{name}' from the epoch, phase {phase % 360:g} deg")
+        tphase = tuple(float(p) for p in (entry.get("torus_phase_deg") or (0.0, 0.0)))
+        t0, h = eclipse_history(orbits[name], plan.epoch, phase, tphase)
+        at = (f"phase {phase % 360:g} deg" if "torus" not in entry else
+              "torus phase ({:g}, {:g}) deg".format(*tphase))
+        fig = timeline_figure(h, t0, title=f"'{name}' from the epoch, {at}")
         figs[f"eclipses-{name}"] = save_figures(
             fig, out, f"eclipses-{name}", formats,
-            f"{plan.name}: Earth and Moon shadow passes of '{name}' over a year from the epoch (CR3BP orbit placed "
-            "at the epoch; conical shadows from DE421 positions, Montenbruck & Gill 2000, sec. 3.4.2).")
+            f"{plan.name}: Earth and Moon shadow passes of '{name}' over a year from the epoch (CR3BP "
+            f"{'torus trajectory' if 'torus' in entry else 'orbit'} placed at the epoch; conical shadows from DE421 positions, Montenbruck & Gill 2000, sec. 3.4.2).")
     return figs

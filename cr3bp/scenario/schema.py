@@ -148,8 +148,6 @@ NOT_FOR_TORI = {
 CHECKS_NOT_FOR_TORI = {
     "max_period": "a torus has two frequencies and no period; its stroboscopic period is in the "
                   "orbit table",
-    "max_eclipse_duration": "eclipse checks are computed for periodic orbits only, not tori",
-    "max_eclipse_per_year": "eclipse checks are computed for periodic orbits only, not tori",
 }
 
 

@@ -13,8 +13,9 @@ point of the invariance circle as the state. Checks, figures and exports read th
 * the line of sight on the sampled surface (every phase of the torus);
 * the angles at the Earth on the trajectory on the torus from ``torus_phase_deg`` at the
   epoch over :data:`ANGLE_SPAN_DAYS` (the torus never repeats, so a span is named);
-* eclipse checks and ``max_period`` are refused for tori (a torus has two frequencies and the
-  shadow placement is built for periodic orbits);
+* eclipse checks on the trajectory on the torus from ``torus_phase_deg`` at the epoch over
+  a year (:func:`.checks.eclipse_check`, the trajectory ``librate shadow --torus
+  --torus-phase`` follows); ``max_period`` is refused (a torus has two frequencies);
 * exports sample the trajectory on the torus from ``torus_phase_deg``
   (:func:`cr3bp.tori.trajectory.sample`).
 """
@@ -34,7 +35,7 @@ from ..tori import request as treq
 from ..tori import surface
 from ..tori.trajectory import sample
 from . import page as R
-from .checks import ANGLE_CHECKS, _result, angle_at_earth_deg, occultation_clearance_km
+from .checks import ANGLE_CHECKS, ECLIPSE_CHECKS, _result, angle_at_earth_deg, eclipse_check, occultation_clearance_km
 from .schema import CHECKS_NOT_FOR_TORI, NOT_FOR_TORI, torus_entry_problems as entry_problems  # noqa: F401
 
 #: Span of the trajectory on the torus that the angle checks sample (from the epoch).
@@ -373,6 +374,8 @@ def run_checks(torus, checks: dict, surface, epoch, phase, reduced=False):
                                     f"Earth) on the torus from phase ({math.degrees(phase[0]):g}, "
                                     f"{math.degrees(phase[1]):g}) deg over {ANGLE_SPAN_DAYS:g} d from "
                                     "the epoch", float(value), act, "deg", True))
+        elif key in ECLIPSE_CHECKS:
+            out.append(eclipse_check(torus, key, value, epoch, 0.0, tuple(math.degrees(p) for p in phase)))
         elif key == "line_of_sight_to_larger":
             if not value:
                 continue
