@@ -17,11 +17,20 @@ from __future__ import annotations
 
 import contextlib
 import ctypes
+import sys
 import threading
 import functools
 
 _LOCK = threading.Lock()
 _BLAS = {}
+#: How many :func:`serial` blocks are open (any thread).
+_DEPTH = [0]
+
+
+def one_thread() -> bool:
+    """True inside :func:`serial`: :func:`cr3bp.integrate.propagate_batch` then runs the
+    prebuilt one-thread batch kernel (no numba start-up), or numba's kernel on one thread."""
+    return _DEPTH[0] > 0
 
 
 def _openblas():
@@ -70,16 +79,19 @@ def serial(numba_threads: bool = True):
             except Exception:       # a foreign BLAS build: leave it as it is
                 old_blas = None
         try:
-            if numba_threads:
+            # numba not loaded yet: nothing to limit (propagate_batch limits it if it loads it)
+            if numba_threads and "numba" in sys.modules:
                 import numba   # lazy: heavy library, only when a torus is computed
                 old_numba = numba.get_num_threads()
                 numba.set_num_threads(1)
         except Exception:
             old_numba = None
+        _DEPTH[0] += 1
     try:
         yield
     finally:
         with _LOCK:
+            _DEPTH[0] -= 1
             if old_blas is not None:
                 blas[1](old_blas)
             if old_numba is not None:
