@@ -107,10 +107,11 @@ def lissajous(system, point: str, ay_lu: float, az_lu: float, progress=None,
     one line per step.
 
     With a ``catalog`` (:class:`cr3bp.catalog.Catalog`) the torus is read from it when this
-    target was solved before (:mod:`cr3bp.tori.store`), else solved and stored; the periodic
-    orbits it starts from are read from and kept in the same catalogue. Without one, the
-    Lyapunov family is grown once in a scratch in-memory catalogue and shared by the two
-    requests that need it.
+    target was solved before (:mod:`cr3bp.tori.store`), else solved and stored. The planar
+    Lyapunov orbit it starts from is grown from the point up to the target's Jacobi constant
+    each time (a few hundredths of a second); the vertical orbit, needed only past the halo
+    bifurcation, is read from and kept in the catalogue (without one, a scratch in-memory
+    catalogue).
 
     Raises InputError (bad point or amplitude), NoSolutionError (not reachable; the message
     gives the range of amplitudes reached).
