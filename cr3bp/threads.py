@@ -23,13 +23,14 @@ import functools
 
 _LOCK = threading.Lock()
 _BLAS = {}
-#: How many :func:`serial` blocks are open (any thread).
+#: How many :func:`serial` blocks limiting numba too (``numba_threads=True``) are open.
 _DEPTH = [0]
 
 
 def one_thread() -> bool:
-    """True inside :func:`serial`: :func:`cr3bp.integrate.propagate_batch` then runs the
-    prebuilt one-thread batch kernel (no numba start-up), or numba's kernel on one thread."""
+    """True inside :func:`serial` with ``numba_threads``: :func:`cr3bp.integrate.propagate_batch`
+    then runs the prebuilt one-thread batch kernel (no numba start-up), or numba's kernel on
+    one thread."""
     return _DEPTH[0] > 0
 
 
@@ -67,7 +68,9 @@ def _openblas():
 def serial(numba_threads: bool = True):
     """One BLAS thread (and, with ``numba_threads``, one numba thread) inside the block, both
     restored on exit. Linux only (the loaded libraries are read from ``/proc/self/maps``);
-    elsewhere the BLAS part does nothing."""
+    elsewhere the BLAS part does nothing. numba is not imported for this: with
+    ``numba_threads`` batch propagations inside the block run the prebuilt one-thread kernel
+    (:func:`one_thread`), and numba, if it is loaded later, is limited where it runs."""
     import numpy  # noqa: F401  # lazy: the BLAS library must be loaded to be found (kept beside its use)
     blas = _openblas()
     old_blas = old_numba = None
@@ -86,12 +89,14 @@ def serial(numba_threads: bool = True):
                 numba.set_num_threads(1)
         except Exception:
             old_numba = None
-        _DEPTH[0] += 1
+        if numba_threads:
+            _DEPTH[0] += 1
     try:
         yield
     finally:
         with _LOCK:
-            _DEPTH[0] -= 1
+            if numba_threads:
+                _DEPTH[0] -= 1
             if old_blas is not None:
                 blas[1](old_blas)
             if old_numba is not None:

@@ -242,6 +242,8 @@ def test_one_thread_batch_kernel_gives_the_parallel_results():
     states = HALO + 1e-4 * rng.standard_normal((9, 6))
     cross = [events.plane("y", 0.0, terminal=False, count=3)]
     k = _current()
+    with serial(numba_threads=False):   # BLAS only (the optimiser): numba keeps its threads
+        assert batch_kernel() is dop853.integrate_batch
     with serial():
         assert batch_kernel() is k.integrate_rows
         a = propagate_batch(EM, states, PERIOD, stm=True, events=cross, max_events=4)
