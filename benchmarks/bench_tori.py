@@ -14,6 +14,16 @@
 Measured before the tori speed work (2026-12-03, load ~6): 136.5 s for the first row, 18 min
 for the issue's example, 23 members in 264 s for the family (which then stopped). The machine
 is shared: each row also gives the CPU time the computation itself used.
+
+Then (same day, load 10-13 on the 2 cores): first row 37-39 s wall (5.3-6.7 s CPU), of which
+about half grew the whole planar and vertical orbit families for the target's Jacobi constant
+and ~1 s started numba. With the target's Jacobi constant from the linear solution
+(:func:`cr3bp.tori.seeds.linear_lissajous_jacobi`), the planar family grown only up to it, and
+the prebuilt one-thread batch kernel (no numba in a torus process): 12.5 s wall, 2.9 s CPU
+(NOT MET on the loaded machine: the wall time is ~4 times the CPU time there); catalogued 2.7 s
+(0.7 s CPU); the issue's example 100.5 s wall, 25.6 s CPU (NOT MET: 40 steps of the
+continuation in amplitude, its circle grows to 63 points); the family of 100 in 24.7 s wall
+(5.2 s CPU, met).
 """
 
 from __future__ import annotations

@@ -46,6 +46,10 @@ SIGNATURES = {
         f"int64, int64, int64, int64))"
         f"(int64, {_F1}, {_F1}, float64, float64, float64, float64, float64, float64, int64, "
         f"{_F2}, int64, {_F1}, boolean)"),
+    "integrate_rows": (
+        f"void(int64, {_F1}, {_F2}, float64, {_F1}, float64, float64, float64, int64, {_F2}, "
+        f"int64, boolean, {_F2}, {_F1}, int64[::1], int64[::1], int64[::1], {_F2}, "
+        f"float64[:, :, ::1], int64[:, ::1], int64[::1], int64[::1])"),
     "eom": f"void(float64, {_F1}, float64, {_F1})",
     "grad_omega": f"void(float64, float64, float64, float64, {_F1})",
     "hessian_omega": f"void(float64, float64, float64, float64, {_F2})",

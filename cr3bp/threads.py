@@ -17,11 +17,42 @@ from __future__ import annotations
 
 import contextlib
 import ctypes
+import sys
 import threading
 import functools
 
 _LOCK = threading.Lock()
 _BLAS = {}
+#: How many :func:`serial` blocks limiting numba too (``numba_threads=True``) are open.
+_DEPTH = [0]
+
+
+def one_thread() -> bool:
+    """True inside :func:`serial` with ``numba_threads``: :func:`cr3bp.integrate.propagate_batch`
+    then runs the prebuilt one-thread batch kernel (no numba start-up), or numba's kernel on
+    one thread.
+
+    Returns
+    -------
+    bool
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> one_thread()
+    False
+    >>> with serial():
+    ...     one_thread()
+    True
+
+    References
+    ----------
+    Common practice (one thread per process when processes already use every core).
+    """
+    return _DEPTH[0] > 0
 
 
 def _openblas():
@@ -58,7 +89,9 @@ def _openblas():
 def serial(numba_threads: bool = True):
     """One BLAS thread (and, with ``numba_threads``, one numba thread) inside the block, both
     restored on exit. Linux only (the loaded libraries are read from ``/proc/self/maps``);
-    elsewhere the BLAS part does nothing.
+    elsewhere the BLAS part does nothing. numba is not imported for this: with
+    ``numba_threads`` batch propagations inside the block run the prebuilt one-thread kernel
+    (:func:`one_thread`), and numba, if it is loaded later, is limited where it runs.
 
     Parameters
     ----------
@@ -99,16 +132,21 @@ def serial(numba_threads: bool = True):
             except Exception:       # a foreign BLAS build: leave it as it is
                 old_blas = None
         try:
-            if numba_threads:
+            # numba not loaded yet: nothing to limit (propagate_batch limits it if it loads it)
+            if numba_threads and "numba" in sys.modules:
                 import numba   # lazy: heavy library, only when a torus is computed
                 old_numba = numba.get_num_threads()
                 numba.set_num_threads(1)
         except Exception:
             old_numba = None
+        if numba_threads:
+            _DEPTH[0] += 1
     try:
         yield
     finally:
         with _LOCK:
+            if numba_threads:
+                _DEPTH[0] -= 1
             if old_blas is not None:
                 blas[1](old_blas)
             if old_numba is not None:

@@ -32,7 +32,7 @@ from cr3bp.tori.lissajous import lissajous, measured_amplitudes
 from test_against_richardson_1980_lissajous import linear_frequencies
 
 AY_KM, AZ_KM = 300000.0, 150000.0     # observatory size (several hundred thousand km)
-pytestmark = pytest.mark.slow   # ~5 s of CPU (30-90 s wall on the loaded 2-core machine); the
+pytestmark = pytest.mark.slow   # ~2.5 s of CPU (10-15 s wall on the loaded 2-core machine); the
 # issue's example below about 26 s of CPU (3-4 min wall there): continuation in amplitude
 
 

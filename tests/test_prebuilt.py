@@ -229,3 +229,50 @@ def test_an_unknown_switch_value_is_named_and_ignored(monkeypatch, fresh_lookup)
     with pytest.warns(RuntimeWarning, match="LIBRATE_KERNELS='fast' is not understood"):
         k = compiled.kernels()
     assert k is not None and integrator() is k.integrate      # treated as unset
+
+
+def test_one_thread_batch_kernel_gives_the_parallel_results():
+    """propagate_batch inside cr3bp.threads.serial runs the prebuilt loop integrate_rows (no
+    numba start-up); outside it numba's parallel integrate_batch: same states, STMs, events,
+    status and step counts (to round-off; dop853.integrate is the reference of both)."""
+    from cr3bp.integrate import propagate_batch
+    from cr3bp.integrate.propagate import batch_kernel
+    from cr3bp.threads import serial
+    rng = np.random.default_rng(3)
+    states = HALO + 1e-4 * rng.standard_normal((9, 6))
+    cross = [events.plane("y", 0.0, terminal=False, count=3)]
+    k = _current()
+    with serial(numba_threads=False):   # BLAS only (the optimiser): numba keeps its threads
+        assert batch_kernel() is dop853.integrate_batch
+    with serial():
+        assert batch_kernel() is k.integrate_rows
+        a = propagate_batch(EM, states, PERIOD, stm=True, events=cross, max_events=4)
+    assert batch_kernel() is dop853.integrate_batch
+    b = propagate_batch(EM, states, PERIOD, stm=True, events=cross, max_events=4)
+    assert np.allclose(a.states, b.states, rtol=1e-13, atol=1e-15)
+    assert np.allclose(a.stm, b.stm, rtol=1e-12, atol=1e-13)
+    assert list(a.status) == list(b.status) and np.array_equal(a.nsteps, b.nsteps)
+    for u, v in zip(a.event_t, b.event_t):
+        assert u.shape == v.shape and np.allclose(u, v, rtol=1e-13, atol=1e-15)
+
+
+def test_a_torus_computed_in_a_fresh_process_does_not_start_numba(tmp_path):
+    """The tori compute on one thread (cr3bp.threads.serial): with the prebuilt module current
+    the whole computation of a small Earth–Moon Lissajous torus runs without importing numba
+    (its import and the load of the parallel kernel from numba's cache cost ~1 s of CPU)."""
+    import subprocess
+    _current()
+    code = ("import sys\n"
+            "from cr3bp import system\n"
+            "from cr3bp.orbits.request import solve_request\n"
+            "from cr3bp.tori import torus_around\n"
+            "em = system('earth-moon')\n"
+            "t = torus_around(solve_request(em, 'lyapunov L1 ax=2000km'), 300.0 / em.length_km)\n"
+            "assert t.invariance_error < t.invariance_tolerance\n"
+            "print('numba' in sys.modules)\n")
+    import os
+    env = {**os.environ, "LIBRATE_CATALOG": str(tmp_path / "catalog.sqlite")}
+    env.pop("LIBRATE_KERNELS", None)
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env)
+    assert done.returncode == 0, done.stderr[-2000:]
+    assert done.stdout.strip() == "False"

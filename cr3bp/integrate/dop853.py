@@ -677,3 +677,34 @@ def integrate_batch(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_s
             ev_y[i, j, :] = ye[j]
         out_nfev[i] = res[11]
         out_nsteps[i] = res[12]
+
+
+@njit(cache=True)
+def integrate_rows(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_steps, events,
+                    max_events, record, out_y, out_t, out_status, out_nev, out_seen, ev_t, ev_y,
+                    ev_k, out_nfev, out_nsteps):
+    """:func:`integrate_batch` on one thread (a plain loop, no ``prange``): the same results.
+
+    Built ahead of time into the prebuilt module (:mod:`cr3bp.integrate.prebuilt`), so that a
+    computation running on one thread anyway (:func:`cr3bp.threads.serial`: the torus solver)
+    neither imports numba nor loads the parallel kernel from numba's cache (~1 s of CPU per
+    process on this project's machine)."""
+    no_eval = np.empty(0)
+    for i in range(y0s.shape[0]):
+        res = integrate(mode, params, y0s[i].copy(), t0, t_finals[i], rtol, atol, -1.0, max_step,
+                        max_steps, events, max_events, no_eval, record)
+        out_status[i] = res[0]
+        out_t[i] = res[1]
+        out_y[i, :] = res[2]
+        te = res[5]
+        ye = res[6]
+        ke = res[7]
+        ne = te.shape[0]
+        out_nev[i] = ne
+        out_seen[i] = res[8]
+        for j in range(ne):
+            ev_t[i, j] = te[j]
+            ev_k[i, j] = ke[j]
+            ev_y[i, j, :] = ye[j]
+        out_nfev[i] = res[11]
+        out_nsteps[i] = res[12]

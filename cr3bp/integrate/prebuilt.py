@@ -8,8 +8,9 @@ a whole catalogued orbit request needs for its numerics (~0.01 s). ``make`` ther
 compiles the same source -- :func:`cr3bp.integrate.dop853.integrate` and the kernels
 :mod:`cr3bp.dynamics` calls -- into an extension module with ``numba.pycc``, which loads
 without numba in about a millisecond. :func:`cr3bp.integrate.propagate` and the functions of
-:mod:`cr3bp.dynamics` use it when it is present and current; :func:`propagate_batch` (which
-runs threads) and the ephemeris model keep the just-in-time kernels.
+:mod:`cr3bp.dynamics` use it when it is present and current; :func:`propagate_batch` uses its
+one-thread batch kernel ``integrate_rows`` inside :func:`cr3bp.threads.serial` (the torus
+solver), else (it runs threads) the just-in-time kernels, as does the ephemeris model.
 
 Finding the current module is :mod:`cr3bp.compiled`'s job (its names are re-exported
 here). Current means built from exactly the source files in :data:`SOURCES`, for this Python, this
@@ -105,7 +106,7 @@ def build(directory: Path | None = None, progress=None) -> Path:
     # only the build compiles: the kernels' modules load numba, which a lookup must not
     from ..dynamics import kernels as dynamics_kernels  # lazy: heavy library (numba, via cr3bp.dynamics.kernels)
     from . import dop853  # lazy: heavy library (numba, via cr3bp.integrate.dop853)
-    funcs = {"integrate": dop853.integrate, "eom": dynamics_kernels.eom,
+    funcs = {"integrate": dop853.integrate, "integrate_rows": dop853.integrate_rows, "eom": dynamics_kernels.eom,
              "grad_omega": dynamics_kernels.grad_omega, "hessian_omega": dynamics_kernels.hessian_omega,
              "_jacobi_many": dynamics_kernels._jacobi_many}
     name = module_name()

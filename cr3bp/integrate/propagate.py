@@ -23,7 +23,7 @@ import numpy as np
 
 from .. import validate
 from ..errors import ConvergenceError, InputError
-from .. import compiled
+from .. import compiled, threads
 from .arc import Arc, EventHit
 from .events import ESCAPE, IMPACT, table
 from .modes import MODE_STATE, MODE_STM, MODEL_MODES
@@ -127,6 +127,26 @@ def integrator():
         return k.integrate
     from . import dop853  # lazy: heavy library (numba, via cr3bp.integrate.dop853)
     return dop853.integrate
+
+
+def batch_kernel():
+    """The kernel :func:`propagate_batch` runs (same arguments as
+    :func:`cr3bp.integrate.dop853.integrate_batch`, same results): inside
+    :func:`cr3bp.threads.serial` the prebuilt one-thread loop ``integrate_rows`` when the
+    prebuilt module is current (no numba start-up), else numba's parallel kernel (limited to
+    one thread inside :func:`cr3bp.threads.serial`)."""
+    if threads.one_thread():
+        k = compiled.kernels()
+        if k is not None:
+            return k.integrate_rows
+    from . import dop853  # lazy: heavy library (numba, via cr3bp.integrate.dop853)
+    if not threads.one_thread():
+        return dop853.integrate_batch
+
+    def one_thread(*args):
+        with threads.serial():      # numba may have been loaded just now: one thread
+            dop853.integrate_batch(*args)
+    return one_thread
 
 
 def _params(system) -> np.ndarray:
@@ -337,7 +357,9 @@ def propagate_batch(system, states, t_final, rtol=1e-12, atol=1e-12, events=(), 
     every row of ``states`` with no Python loop over trajectories. For the CR3BP (no
     ``model``) the trajectories advance in lockstep vector lanes (:mod:`.lanes`: each keeps
     its own step size, error control and events, and gets the scalar integrator's result);
-    other models run one trajectory per thread iteration.
+    other models run one trajectory per thread iteration. Inside :func:`cr3bp.threads.serial`
+    the rows run on one thread in the prebuilt module's compiled loop (``integrate_rows``, no
+    numba start-up, the same results) when it is current.
 
     Parameters
     ----------
@@ -423,18 +445,25 @@ def propagate_batch(system, states, t_final, rtol=1e-12, atol=1e-12, events=(), 
     ev_k = np.empty((n, max(m, 1)), dtype=np.int64)
     out_nfev = np.zeros(n, dtype=np.int64)
     out_nsteps = np.zeros(n, dtype=np.int64)
-    if mode in (MODE_STATE, MODE_STM):
+    rows = threads.one_thread() and compiled.kernels() is not None   # the prebuilt one-thread loop
+    if mode in (MODE_STATE, MODE_STM) and not rows:
         from . import lanes  # lazy: heavy library (numba, via cr3bp.integrate.lanes)
-        lanes.integrate_lanes(int(mode), params, y0s, float(t0), tf, float(rtol), float(atol),
-                              float(mstep), int(nmax), tab, int(m), lanes.blocks(n), out_y, out_t,
-                              out_status, out_nev, out_seen, ev_t, ev_y, ev_k, out_nfev,
-                              out_nsteps)
+
+        def run_lanes():
+            lanes.integrate_lanes(int(mode), params, y0s, float(t0), tf, float(rtol), float(atol),
+                                  float(mstep), int(nmax), tab, int(m), lanes.blocks(n), out_y, out_t,
+                                  out_status, out_nev, out_seen, ev_t, ev_y, ev_k, out_nfev,
+                                  out_nsteps)
+        if threads.one_thread():
+            with threads.serial():      # numba may have been loaded just now: one thread
+                run_lanes()
+        else:
+            run_lanes()
     else:
-        from . import dop853  # lazy: heavy library (numba, via cr3bp.integrate.dop853)
-        dop853.integrate_batch(int(mode), params, y0s, float(t0), tf, float(rtol), float(atol),
-                               float(mstep), int(nmax), tab, int(m), False, out_y, out_t,
-                               out_status, out_nev, out_seen, ev_t, ev_y, ev_k, out_nfev,
-                               out_nsteps)
+        args = (int(mode), params, y0s, float(t0), tf, float(rtol), float(atol), float(mstep),
+                int(nmax), tab, int(m), False, out_y, out_t, out_status, out_nev, out_seen, ev_t, ev_y,
+                ev_k, out_nfev, out_nsteps)
+        batch_kernel()(*args)
     failed = out_status < 0
     if failed.any() and on_failure == "raise":
         i = int(np.argmax(failed))

@@ -13,11 +13,16 @@ The measured amplitudes of a torus (:func:`measured_amplitudes`) are
 
 Method (a two-parameter target needs both parameters of the 2-D family of Lissajous tori):
 
-1. the target's Jacobi constant estimated as ``C_p + C_v - C_L`` (the planar Lyapunov orbit
-   with ``Ay``, the vertical orbit with ``Az``, the point: to first order the energies of the
-   two oscillations add), and the planar Lyapunov orbit with that Jacobi constant, the
-   family's edge ``Az = 0``; past the halo bifurcation it has no centre eigenpair (no
-   Lissajous tori about it), and the vertical orbit with it (the edge ``Ay = 0``) is used;
+1. the target's Jacobi constant estimated from the linear solution at the point (the energies
+   of the in-plane and out-of-plane oscillations of amplitudes Ay and Az add:
+   :func:`seeds.linear_lissajous_jacobi`, Richardson 1980 eq. 7 in the Jacobi integral; its
+   third-order error, under 10 % of the oscillations' energy at Sun–Earth observatory sizes, is
+   corrected by step 3), and the planar Lyapunov orbit with that Jacobi constant, the family
+   grown from the point only until it passes it (the family's edge ``Az = 0``); past the halo
+   bifurcation it has no centre eigenpair (no Lissajous tori about it), and the vertical orbit
+   with it (the edge ``Ay = 0``) is used. (The estimate used to be ``C_p + C_v - C_L`` from the
+   planar orbit with ``Ay`` and the vertical orbit with ``Az``, which grew both periodic
+   families whole: about half the CPU time of a torus);
 2. a small torus about it at the orbit's Jacobi constant (:func:`torus.torus_around`),
    continued by pseudo-arclength at that Jacobi constant (:func:`family.continue_family`)
    until the other measured amplitude passes its target;
@@ -50,6 +55,8 @@ from .stability import stability
 from .store import cached_torus
 from .torus import SurfaceError, build, solve_adaptive, torus_around
 from ..equilibria import lagrange_point
+from ..orbits.continuation import Stops
+from ..orbits.families import grow_family
 from ..orbits.request import parse_request, solve_request
 from ..validate import positive_number
 from ..catalog import Catalog
@@ -100,10 +107,11 @@ def lissajous(system, point: str, ay_lu: float, az_lu: float, progress=None,
     one line per step.
 
     With a ``catalog`` (:class:`cr3bp.catalog.Catalog`) the torus is read from it when this
-    target was solved before (:mod:`cr3bp.tori.store`), else solved and stored; the periodic
-    orbits it starts from are read from and kept in the same catalogue. Without one, the
-    Lyapunov family is grown once in a scratch in-memory catalogue and shared by the two
-    requests that need it.
+    target was solved before (:mod:`cr3bp.tori.store`), else solved and stored. The planar
+    Lyapunov orbit it starts from is grown from the point up to the target's Jacobi constant
+    each time (a few hundredths of a second); the vertical orbit, needed only past the halo
+    bifurcation, is read from and kept in the catalogue (without one, a scratch in-memory
+    catalogue).
 
     Raises InputError (bad point or amplitude), NoSolutionError (not reachable; the message
     gives the range of amplitudes reached).
@@ -205,15 +213,17 @@ def _direct(system, point, target, rtol, say, km, seen, reached, correct=True, c
         except (NoSolutionError, ConvergenceError) as e:
             raise NoSolutionError(f"no {fam_name} orbit at {point} with {key} {text} to start "
                                   f"the Lissajous torus from ({e})") from None
-    # the target's energy: the edge orbits' Jacobi offsets from the point add (to first order)
-    say(f"lissajous: the planar Lyapunov orbit with Ay {km(ay_lu)} and the vertical orbit with "
-        f"Az {km(az_lu)} at {point}")
-    c_target = (edge("lyapunov", "ay", ay_lu).jacobi + edge("vertical", "az", az_lu).jacobi
-                - _c_point(system, point))
+    # the target's energy from the linear solution (the two oscillations' energies add; the
+    # secant below corrects its third-order error), and the planar orbit with it grown only
+    # up to that energy (growing the whole planar and vertical families for the two edge orbits
+    # of Ay and Az was about half the CPU time of a torus)
+    c_target = seeds.linear_lissajous_jacobi(lagrange_point(system, point).modes,
+                                             _c_point(system, point), ay_lu, az_lu)
     orbit = None
     for fam_name, k in (("lyapunov", 0), ("vertical", 1)):
         say(f"lissajous: the {fam_name} orbit at {point} with Jacobi constant {c_target:.10f}")
-        o = edge(fam_name, "jacobi", c_target)
+        o = (_lyapunov_at(system, point, c_target) if fam_name == "lyapunov"
+             else edge(fam_name, "jacobi", c_target))
         if seeds.centre_pairs(o.monodromy):
             orbit = o
             break
@@ -372,6 +382,22 @@ def _ray(system, point, t, p, m, J, target, f0, rtol, say, km, seen, reached):
                                   f"could not be followed past {100 * f:.1f}% of the target "
                                   f"(Ay {km(m[0])}, Az {km(m[1])}); {reached()}")
     return t, p, m, J, its, steps
+
+
+def _lyapunov_at(system, point, jacobi):
+    """The planar Lyapunov orbit at ``point`` with this Jacobi constant: the family grown from
+    the point only until a member passes it (:class:`cr3bp.orbits.continuation.Stops` target),
+    no bifurcations located."""
+    try:
+        fam = grow_family(system, "lyapunov", point, stops=Stops(target=("jacobi", jacobi)),
+                          locate_bifurcations=False)
+    except (NoSolutionError, ConvergenceError) as e:
+        raise NoSolutionError(f"no lyapunov orbit at {point} with Jacobi constant {jacobi!r} to "
+                              f"start the Lissajous torus from ({e})") from None
+    if fam.target is None:
+        raise NoSolutionError(f"the lyapunov family at {point} does not reach the Jacobi "
+                              f"constant {jacobi!r} of the Lissajous target")
+    return fam.target
 
 
 def _gamma(system, point):

@@ -86,3 +86,58 @@ def linear_lissajous(modes, position, ax_lu: float, az_lu: float, n: int):
     u[:, 2] += az_lu * np.cos(th)
     u[:, 5] += -az_lu * wv * np.sin(th)
     return u, 2 * math.pi / wp, 2 * math.pi * wv / wp
+
+
+def linear_lissajous_jacobi(modes, jacobi_point: float, ay_lu: float, az_lu: float) -> float:
+    """Jacobi constant of the linearised Lissajous motion with in-plane amplitude ``ay_lu``
+    (the largest ``|y|``) and out-of-plane amplitude ``az_lu`` at a collinear point.
+
+    Parameters
+    ----------
+    modes : cr3bp.equilibria.LinearModes
+        The point's linear modes (collinear: ``planar_centre`` set).
+    jacobi_point : float
+        Jacobi constant of the point itself.
+    ay_lu, az_lu : float
+        Amplitudes (LU).
+
+    Returns
+    -------
+    float
+        ``C_L + (1 + 2 c2 - kappa^2 omega_p^2) Ax^2 - c2 Az^2`` with ``Ax = Ay / kappa``.
+
+    Raises
+    ------
+    TypeError
+        ``modes`` without the collinear eigenvectors.
+
+    Notes
+    -----
+    The linear solution ``x = Ax cos(omega_p t)``, ``y = -kappa Ax sin(omega_p t)``,
+    ``z = Az cos(omega_v t)`` with ``kappa = (omega_p^2 + 1 + 2 c2) / (2 omega_p)`` and
+    ``omega_v^2 = c2`` (Richardson 1980, eq. 7 and the linear frequencies; Szebehely 1967,
+    §5.6) put into the quadratic part of the Jacobi integral
+    ``C = 2 Omega - v^2``, ``2 Omega = C_L + (1 + 2 c2) x^2 + (1 - c2) y^2 - c2 z^2 + ...``
+    (Szebehely 1967, §4.4), which the linear flow keeps constant: evaluated at ``t = 0``.
+    The two oscillations' energies add; the error is of third order in the amplitudes.
+    It estimates the target's Jacobi constant without growing the planar and vertical
+    families to their members of amplitude Ay and Az.
+
+    Examples
+    --------
+    >>> from cr3bp.equilibria import lagrange_point
+    >>> from cr3bp.systems import system
+    >>> lp = lagrange_point(system("earth-moon"), "L1")
+    >>> linear_lissajous_jacobi(lp.modes, 3.19, 0.0, 0.0)
+    3.19
+
+    References
+    ----------
+    Richardson, D. L., "Analytic construction of periodic orbits about the collinear points",
+    Celestial Mechanics 22, 241 (1980), eq. 7. Szebehely, V., Theory of Orbits, Academic Press
+    (1967), §4.4 and §5.6.
+    """
+    wp, c2 = modes.omega_inplane, modes.omega_vertical ** 2
+    kappa = float(modes.planar_centre[1][1])
+    ax = ay_lu / kappa
+    return float(jacobi_point + (1 + 2 * c2 - kappa ** 2 * wp ** 2) * ax * ax - c2 * az_lu * az_lu)

@@ -15,6 +15,7 @@ import numpy as np
 
 from ..errors import ConvergenceError, InputError, NoSolutionError, StateError
 from ..integrate import propagate_batch
+from ..integrate.propagate import batch_kernel
 from ..validate import positive_number
 from ..vocabulary import COLLINEAR_POINTS
 from . import circle, seeds, solver
@@ -368,7 +369,7 @@ def surface(system, u, T, samples=256) -> np.ndarray:
     (measured ~1.3 ms of ~2.3 ms per 45-point step). Every state of the grid is checked
     against the primaries at the end, and a step any trajectory of which fails is repeated
     through :func:`propagate_batch` for its error."""
-    from ..integrate import dop853   # lazy: numba kernel module
+    kernel = batch_kernel()      # the one propagate_batch runs (prebuilt on one thread)
     s = np.ascontiguousarray(u, dtype=float)
     n = s.shape[0]
     dt = T / samples
@@ -393,9 +394,9 @@ def surface(system, u, T, samples=256) -> np.ndarray:
     o_nfev, o_nsteps = np.zeros(n, dtype=np.int64), np.zeros(n, dtype=np.int64)
     for m in range(2, samples + 1):
         y0 = np.ascontiguousarray(out[m - 1])
-        dop853.integrate_batch(MODE_STATE, params, y0, 0.0, tf, solver.RTOL, solver.ATOL,
-                               math.inf, DEFAULT_MAX_STEPS, tab, 0, False, o_y, o_t, o_st,
-                               o_nev, o_seen, ev_t, ev_y, ev_k, o_nfev, o_nsteps)
+        kernel(MODE_STATE, params, y0, 0.0, tf, solver.RTOL, solver.ATOL, math.inf,
+               DEFAULT_MAX_STEPS, tab, 0, False, o_y, o_t, o_st, o_nev, o_seen, ev_t, ev_y, ev_k,
+               o_nfev, o_nsteps)
         if (o_st < 0).any() or not np.isfinite(o_y).all():
             out[m] = step(m, y0)          # the wrapper's checks and its error
         else:
