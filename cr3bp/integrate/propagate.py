@@ -130,11 +130,37 @@ def integrator():
 
 
 def batch_kernel():
-    """The kernel :func:`propagate_batch` runs (same arguments as
-    :func:`cr3bp.integrate.dop853.integrate_batch`, same results): inside
+    """The one-trajectory-per-row kernel :func:`propagate_batch` runs inside
+    :func:`cr3bp.threads.serial` and for models other than the CR3BP (outside it the CR3BP
+    runs in :mod:`cr3bp.integrate.lanes`, with the same results). Same arguments as
+    :func:`cr3bp.integrate.dop853.integrate_batch`, same results: inside
     :func:`cr3bp.threads.serial` the prebuilt one-thread loop ``integrate_rows`` when the
     prebuilt module is current (no numba start-up), else numba's parallel kernel (limited to
-    one thread inside :func:`cr3bp.threads.serial`)."""
+    one thread inside :func:`cr3bp.threads.serial`).
+
+    Returns
+    -------
+    callable
+        ``kernel(mode, params, y0s, t0, tf, rtol, atol, max_step, max_steps, table, n_events,
+        dense, out_y, out_t, out_status, out_nev, out_seen, ev_t, ev_y, ev_k, out_nfev,
+        out_nsteps)``, writing into the ``out_*`` arrays.
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp import threads
+    >>> with threads.serial():
+    ...     callable(batch_kernel())
+    True
+
+    References
+    ----------
+    .. [1] E. Hairer, S. P. Nørsett, G. Wanner, *Solving Ordinary Differential Equations I*,
+       2nd ed., Springer, 1993, §II.5 (the DOP853 method every kernel runs).
+    """
     if threads.one_thread():
         k = compiled.kernels()
         if k is not None:
