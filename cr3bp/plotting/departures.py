@@ -52,8 +52,9 @@ def zoom_box(orbit_states, view, margin=ZOOM_MARGIN):
     """
     i, j = {"xy": (0, 1), "xz": (0, 2)}[view]
     u, v = orbit_states[:, i], orbit_states[:, j]
-    span = max(float(np.ptp(u)), float(np.ptp(v)), 1e-6) * (1.0 + 2.0 * margin)
-    cu, cv = 0.5 * (u.min() + u.max()), 0.5 * (v.min() + v.max())
+    # (NaN rows separate arcs of a torus)
+    span = max(float(np.nanmax(u) - np.nanmin(u)), float(np.nanmax(v) - np.nanmin(v)), 1e-6) * (1.0 + 2.0 * margin)
+    cu, cv = 0.5 * (np.nanmin(u) + np.nanmax(u)), 0.5 * (np.nanmin(v) + np.nanmax(v))
     return cu - span / 2, cu + span / 2, cv - span / 2, cv + span / 2
 
 
@@ -194,8 +195,19 @@ def summary_lines(d):
 
 
 def _draw(system, orbit, states, maneuvers, path, summary):
-    T = float(orbit.period)
-    orb = propagate(system, orbit.state, T, t_eval=np.linspace(0.0, T, 600)).states
+    if hasattr(orbit, "stroboscopic_time"):
+        # a torus: trajectories from eight points of its invariance circle over one
+        # stroboscopic time each (longer arcs of an unstable torus drift off it), NaN between
+        T = float(orbit.stroboscopic_time)
+        circle = orbit.circle[:: max(1, len(orbit.circle) // 8)]
+        gap = np.full((1, 6), np.nan)
+        orb = np.concatenate([np.vstack([propagate(system, s0, T, t_eval=np.linspace(0.0, T, 300)).states[:, :6],
+                                         gap]) for s0 in circle])
+        target = "target torus (arcs on it)"
+    else:
+        T = float(orbit.period)
+        orb = propagate(system, orbit.state, T, t_eval=np.linspace(0.0, T, 600)).states
+        target = "target orbit"
     fig, axes = new_figure(2, 2, size=(12.0, 11.0))
     fig.subplots_adjust(hspace=0.38, wspace=0.25)
     for row, zoom in ((0, False), (1, True)):
@@ -203,7 +215,7 @@ def _draw(system, orbit, states, maneuvers, path, summary):
             ax = axes[row, col]
             i, j = {"xy": (0, 1), "xz": (0, 2)}[view]
             box = zoom_box(orb, view) if zoom else None
-            ax.plot(orb[:, i], orb[:, j], color="0.35", lw=1.0, label="target orbit")
+            ax.plot(orb[:, i], orb[:, j], color="0.35", lw=1.0, label=target)
             ax.plot(states[:, i], states[:, j], color="tab:blue", lw=1.2, label=f"{path} transfer")
             for m in maneuvers:
                 mk, col_ = MARKERS.get(m["name"], ("x", "k"))
