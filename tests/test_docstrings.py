@@ -75,6 +75,12 @@ MODULES = [
     "cr3bp.bicircular",
     "cr3bp.api",
     "cr3bp.transfers.low_energy",
+    "cr3bp.transfers.optimise",
+    "cr3bp.tori.seeds",
+    "cr3bp.tori.solver",
+    "cr3bp.tori.lissajous",
+    "cr3bp.tori.family",
+    "cr3bp.tori.store",
 ]
 
 #: Packages whose every module is checked, found by walking the package (so a module added
