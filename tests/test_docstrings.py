@@ -81,6 +81,8 @@ MODULES = [
     "cr3bp.tori.lissajous",
     "cr3bp.tori.family",
     "cr3bp.tori.store",
+    "cr3bp.tori.manifolds",
+    "cr3bp.tori.figures",
 ]
 
 #: Packages whose every module is checked, found by walking the package (so a module added
