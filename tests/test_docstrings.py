@@ -83,6 +83,7 @@ MODULES = [
     "cr3bp.tori.store",
     "cr3bp.tori.manifolds",
     "cr3bp.tori.figures",
+    "cr3bp.tori.request",
 ]
 
 #: Packages whose every module is checked, found by walking the package (so a module added
