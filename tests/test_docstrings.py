@@ -84,6 +84,7 @@ MODULES = [
     "cr3bp.tori.manifolds",
     "cr3bp.tori.figures",
     "cr3bp.tori.request",
+    "cr3bp.tori.torus",
 ]
 
 #: Packages whose every module is checked, found by walking the package (so a module added
