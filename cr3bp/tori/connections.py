@@ -74,14 +74,54 @@ def connect_torus_to_orbit(torus, orbit, section, n_points=100, *, branch_a="int
     """The cheapest patch connections from ``torus``'s unstable manifold to ``orbit``'s stable
     manifold on ``section`` (a plane ``x = c``, ``y = c`` or ``z = c``).
 
+    Parameters
+    ----------
+    torus : cr3bp.tori.Torus
+        The departure torus (hyperbolic).
+    orbit : PeriodicOrbit
+        The arrival orbit (same system).
+    section : str or Section
+        A position plane, e.g. ``"x=1-mu"``.
+    n_points : int, optional
+        Departure points of each manifold.
+    branch_a, branch_b : {"interior", "exterior"}, optional
+        Half-manifolds of the departing and arriving object.
+    step_km : float or str, optional
+        Step-off distance (default as for orbit tubes).
+    t_max : float, optional
+        Time limit per trajectory, TU.
+
     Returns
     -------
     list of Leg, cheapest first (method ``"torus-manifold"``, kind ``"torus-to-orbit"``)
 
     Raises
     ------
-    InputError: a section that is not a position plane. NoSolutionError: the cuts do not come
-    near each other, or no candidate converges.
+    InputError
+        A section that is not a position plane.
+    NoSolutionError
+        The cuts do not come near each other, or no candidate converges.
+
+    Examples
+    --------
+    >>> legs = connect_torus_to_orbit(torus, orbit, "x=1-mu")          # doctest: +SKIP
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.torus import Torus
+    >>> em = system("earth-moon")
+    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
+    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
+    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.connections import connect_torus_to_orbit
+    >>> connect_torus_to_orbit(t, None, "vx=0")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: torus connections need a position plane such as x=1-mu or y=0
+
+    References
+    ----------
+    Gómez, Koon, Lo, Marsden, Masdemont & Ross, Nonlinearity 17, 2004, §4 (patch connections);
+    Gómez & Mondelo, Physica D 157, 2001, §5 (manifolds of tori); Golub & Van Loan 2013, §5.6.
     """
     return _connect(torus, orbit, section, n_points, branch_a, branch_b, step_km, t_max, True)
 
@@ -90,7 +130,58 @@ def connect_orbit_to_torus(orbit, torus, section, n_points=100, *, branch_a="int
                            branch_b="interior", step_km=None, t_max=2 * math.pi):
     """The cheapest patch connections from ``orbit``'s unstable manifold to ``torus``'s stable
     manifold on ``section`` (arrival at a torus; otherwise as :func:`connect_torus_to_orbit`,
-    kind ``"orbit-to-torus"``)."""
+    kind ``"orbit-to-torus"``).
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+        The departure orbit.
+    torus : cr3bp.tori.Torus
+        The arrival torus (hyperbolic; same system).
+    section : str or Section
+        A position plane, e.g. ``"x=1-mu"``.
+    n_points : int, optional
+        Departure points of each manifold.
+    branch_a, branch_b : {"interior", "exterior"}, optional
+        Half-manifolds of the departing and arriving object.
+    step_km : float or str, optional
+        Step-off distance (default as for orbit tubes).
+    t_max : float, optional
+        Time limit per trajectory, TU.
+
+    Returns
+    -------
+    list of Leg
+        Cheapest first (method ``"torus-manifold"``, kind ``"orbit-to-torus"``).
+
+    Raises
+    ------
+    InputError
+        A section that is not a position plane.
+    NoSolutionError
+        The cuts do not come near each other, or no candidate converges.
+
+    Examples
+    --------
+    >>> legs = connect_orbit_to_torus(orbit, torus, "x=1-mu")          # doctest: +SKIP
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.torus import Torus
+    >>> em = system("earth-moon")
+    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
+    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
+    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.connections import connect_orbit_to_torus
+    >>> connect_orbit_to_torus(None, t, "vx=0")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: torus connections need a position plane such as x=1-mu or y=0
+
+    References
+    ----------
+    Gómez, Koon, Lo, Marsden, Masdemont & Ross, Nonlinearity 17, 2004, §4 (patch connections);
+    Gómez & Mondelo, Physica D 157, 2001, §5 (manifolds of tori); Golub & Van Loan 2013, §5.6.
+    """
     return _connect(torus, orbit, section, n_points, branch_a, branch_b, step_km, t_max, False)
 
 
@@ -225,6 +316,21 @@ def connect_torus_to_torus(torus_a, torus_b, section, n_points=100, *, branch_a=
     >>> em = system("earth-moon")
     >>> a = request.solve(em, "quasi-halo around halo L1 north az=10000km amplitude=300km")   # doctest: +SKIP
     >>> legs = connect_torus_to_torus(a, a, "y=0")                                             # doctest: +SKIP
+
+    Refused at once (a hand-made circle stands in for a torus):
+
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.torus import Torus
+    >>> em = system("earth-moon")
+    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
+    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
+    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.connections import connect_torus_to_torus
+    >>> connect_torus_to_torus(t, t, "vx=0")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: torus connections need a position plane such as x=1-mu or y=0
 
     References
     ----------

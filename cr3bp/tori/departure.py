@@ -52,6 +52,24 @@ class TorusPoints:
     >>> pts = TorusPoints(torus)          # doctest: +SKIP
     >>> pts.at(0.25, 0.5).shape           # doctest: +SKIP
     (6,)
+
+    The same on a hand-made circle (not a solved torus), to show the call:
+
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.torus import Torus
+    >>> em = system("earth-moon")
+    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
+    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
+    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.departure import TorusPoints
+    >>> TorusPoints(t).at(0.25, 0.5).shape
+    (6,)
+
+    References
+    ----------
+    Olikara & Scheeres, AAS 12-361, 2012, §II (the torus function); Fourier interpolation of the
+    circle: common practice.
     """
 
     def __init__(self, torus, samples: int = PHASE_SAMPLES):
@@ -233,6 +251,21 @@ def design_torus_departure(torus, altitude_km: float = 200.0, *, inclination_deg
     >>> d = design_torus_departure(t, 200.0)                     # doctest: +SKIP
     >>> d.maneuvers[-1]["name"], len(d.details["torus_phase_deg"])   # doctest: +SKIP
     ('insertion', 2)
+
+    Refused before any work (a hand-made circle stands in for a torus):
+
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.torus import Torus
+    >>> em = system("earth-moon")
+    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
+    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
+    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.departure import design_torus_departure
+    >>> design_torus_departure(t, 5.0)
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: parking altitude (km) '5.0' is outside the allowed range [100, 50000]
 
     References
     ----------

@@ -65,7 +65,28 @@ def _turned_back(out, new, hold) -> bool:
 
 @dataclass(frozen=True)
 class TorusFamily:
-    """Members in continuation order, the held quantity and why the continuation stopped."""
+    """Members in continuation order, the held quantity and why the continuation stopped.
+
+    Parameters
+    ----------
+    members : tuple of Torus
+        In continuation order, the start first.
+    hold : str
+        The held quantity ("jacobi", "period" or "rotation").
+    stop : str
+        Why the continuation ended ("members", "until" or the reason in words).
+
+    Examples
+    --------
+    >>> from cr3bp.tori.family import TorusFamily
+    >>> TorusFamily(members=(), hold="jacobi", stop="members").to_dict()
+    {'kind': 'torus family', 'hold': 'jacobi', 'stop': 'members', 'members': []}
+
+    References
+    ----------
+    Baresi, Olikara & Scheeres, J. Astronaut. Sci. 65, 2018, §III (continuation of tori);
+    Keller 1977 (pseudo-arclength).
+    """
 
     members: tuple
     hold: str
@@ -100,7 +121,39 @@ def _resample_x(x, n_old, n_new):
 
 def tangent(system, t: Torus, hold: str, previous=None) -> np.ndarray:
     """Unit tangent (in the weighted norm) of the family through ``t`` holding ``hold``;
-    oriented along ``previous`` when given, else towards growing amplitude."""
+    oriented along ``previous`` when given, else towards growing amplitude.
+
+    Parameters
+    ----------
+    system : System
+    t : Torus
+        A solved torus.
+    hold : {"jacobi", "period", "rotation"}
+    previous : (ndarray, int), optional
+        The previous tangent and its circle's number of points.
+
+    Returns
+    -------
+    ndarray (6N + 2,)
+        The tangent in the unknowns ``x = [U, T, rho]``.
+
+    Raises
+    ------
+    KeyError
+        ``hold`` is not one of the three.
+
+    Examples
+    --------
+    >>> v = tangent(em, torus, "jacobi")                          # doctest: +SKIP
+    >>> from cr3bp.tori.family import HOLDS
+    >>> HOLDS
+    ('jacobi', 'period', 'rotation')
+
+    References
+    ----------
+    Baresi, Olikara & Scheeres, J. Astronaut. Sci. 65, 2018, §III (continuation of tori);
+    Keller 1977 (pseudo-arclength).
+    """
     n = t.n_circle_points
     x = _x(t)
     value = {"jacobi": t.jacobi, "period": t.stroboscopic_time, "rotation": t.rotation}[hold]
@@ -129,6 +182,40 @@ def hold_tangents(system, t: Torus, holds: dict, reference) -> np.ndarray:
     continuation step in the held values (Euler predictor: Allgower & Georg, "Introduction to
     Numerical Continuation Methods", SIAM 2003, §2.2; Keller 1977): the whole unknown vector,
     circle, T and rho, moves along the family, not the circle alone. Shape (6N + 2, len(holds)).
+
+    Parameters
+    ----------
+    system : System
+    t : Torus
+        A solved torus.
+    holds : dict
+        Held kind -> value (:data:`cr3bp.tori.solver.HOLD_KINDS`).
+    reference : (ndarray (M, 6), float, float)
+        Reference circle, stroboscopic time and rotation of the phase conditions (resampled to
+        the torus's N points when M differs).
+
+    Returns
+    -------
+    ndarray (6N + 2, len(holds))
+        One column ``dx/dh`` per held quantity.
+
+    Raises
+    ------
+    numpy.linalg.LinAlgError
+        The least-squares solve fails (non-finite Jacobian).
+
+    Examples
+    --------
+    >>> d = hold_tangents(em, torus, {"jacobi": torus.jacobi, "amplitude": torus.amplitude_lu},
+    ...                   (torus.circle, torus.stroboscopic_time, torus.rotation))  # doctest: +SKIP
+    >>> from cr3bp.tori.solver import HOLD_KINDS
+    >>> HOLD_KINDS
+    ('jacobi', 'period', 'rotation', 'amplitude')
+
+    References
+    ----------
+    Allgower & Georg, *Introduction to Numerical Continuation Methods*, SIAM 2003, §2.2; Keller
+    1977; Baresi, Olikara & Scheeres 2018.
     """
     n = t.n_circle_points
     ref = reference
@@ -167,6 +254,25 @@ def continue_family(start: Torus, hold: str = "jacobi", members: int = 10, step:
     -------
     TorusFamily (``start`` first). ``stop`` says why it ended: "members" or the reason the
     step fell below ``min_step``.
+
+    Raises
+    ------
+    InputError
+        A held quantity other than the three, a member count below 1, a direction not +-1.
+
+    Examples
+    --------
+    >>> fam = continue_family(torus, "jacobi", members=5)               # doctest: +SKIP
+    >>> from cr3bp.tori.family import continue_family
+    >>> continue_family(None, hold="colour")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: hold 'colour' is not allowed; allowed: jacobi, period, rotation
+
+    References
+    ----------
+    Baresi, Olikara & Scheeres, J. Astronaut. Sci. 65, 2018, §III (continuation of tori);
+    Keller 1977 (pseudo-arclength).
     """
     if hold not in HOLDS:
         raise InputError(f"hold '{hold}' is not allowed; allowed: {', '.join(HOLDS)}")

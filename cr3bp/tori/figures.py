@@ -8,6 +8,44 @@ from .circle import evaluate, resample
 
 
 def plot_family(fam, title=None):
+    """Figure of a torus family: the members' invariance circles in the x-y and x-z views
+    (colour: member order) and the rotation and stroboscopic time against the amplitude.
+
+    Parameters
+    ----------
+    fam : cr3bp.tori.family.TorusFamily
+        At least one member.
+    title : str, optional
+        The figure's title (default: system, family, point, held quantity, member count).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+
+    Raises
+    ------
+    IndexError
+        The family has no members.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.torus import Torus
+    >>> em = system("earth-moon")
+    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
+    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
+    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1", amplitude_lu=1e-3)
+    >>> from cr3bp.tori.family import TorusFamily
+    >>> from cr3bp.tori.figures import plot_family
+    >>> fig = plot_family(TorusFamily((t, t), "jacobi", "members"))
+    >>> len(fig.axes)                       # two views, the rotation and its twin axis
+    4
+
+    References
+    ----------
+    Common practice (family diagrams as in Baresi, Olikara & Scheeres 2018).
+    """
     from ..plotting.base import VIEWS, new_figure  # lazy: heavy library (matplotlib, via cr3bp.plotting.base)
     members = fam.members
     system = members[0].system
@@ -53,7 +91,49 @@ def interactive_figure(torus, name=None, n_circle=48, n_time=160, fig=None, colo
     circle as a curve. ``fig``: add to an existing figure (plotly, offline).
 
     It lives with the tori, not in :mod:`cr3bp.plotting.interactive` (whose helpers it uses),
-    so that the plotting package does not import the tori package back."""
+    so that the plotting package does not import the tori package back.
+
+    Parameters
+    ----------
+    torus : cr3bp.tori.Torus
+    name : str, optional
+        Its label (default: family, point and branch).
+    n_circle : int
+        Trajectories sweeping the surface (made odd).
+    n_time : int
+        Time steps over one stroboscopic period.
+    fig : plotly.graph_objects.Figure, optional
+        Add to this figure.
+    colour : str
+        The surface's colour.
+
+    Returns
+    -------
+    plotly.graph_objects.Figure
+
+    Raises
+    ------
+    ImportError
+        plotly is not installed.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.torus import Torus
+    >>> em = system("earth-moon")
+    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
+    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
+    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1", amplitude_lu=1e-3)
+    >>> from cr3bp.tori.figures import interactive_figure
+    >>> fig = interactive_figure(t, n_circle=5, n_time=4)
+    >>> "torus surface" in " ".join(tr.name for tr in fig.data)
+    True
+
+    References
+    ----------
+    Common practice (a torus drawn by the trajectories of its invariance circle).
+    """
     from ..integrate import propagate_batch          # lazy: heavy library (numba kernels, only when a torus is drawn)
     from ..plotting.interactive import _scale, add_curve, framed, new_figure, require_plotly  # lazy: heavy library (matplotlib, plotly)
     go = require_plotly()

@@ -83,7 +83,36 @@ RAY_RTOL = 1e-3
 
 def measured_amplitudes(torus) -> tuple[float, float]:
     """``(ay, az)`` in LU: largest ``|y|`` and ``|z|`` over the sampled torus surface (module
-    notes)."""
+    notes).
+
+    Parameters
+    ----------
+    torus : Torus
+        A torus with its sampled extent (``extent_lu``: axis -> (min, max), LU).
+
+    Returns
+    -------
+    (float, float)
+        ``ay`` and ``az``, LU.
+
+    Raises
+    ------
+    AttributeError
+        ``torus`` has no ``extent_lu``.
+
+    Examples
+    --------
+    >>> from types import SimpleNamespace
+    >>> from cr3bp.tori.lissajous import measured_amplitudes
+    >>> t = SimpleNamespace(extent_lu={"y": (-0.03, 0.028), "z": (-0.01, 0.012)})
+    >>> measured_amplitudes(t)
+    (0.03, 0.012)
+
+    References
+    ----------
+    Richardson, Celestial Mechanics 22, 1980 (Ay, Az as the Lissajous amplitudes); the sampling
+    is our own (module notes).
+    """
     e = torus.extent_lu
     return (max(abs(e["y"][0]), abs(e["y"][1])), max(abs(e["z"][0]), abs(e["z"][1])))
 
@@ -113,8 +142,46 @@ def lissajous(system, point: str, ay_lu: float, az_lu: float, progress=None,
     bifurcation, is read from and kept in the catalogue (without one, a scratch in-memory
     catalogue).
 
-    Raises InputError (bad point or amplitude), NoSolutionError (not reachable; the message
-    gives the range of amplitudes reached).
+    Parameters
+    ----------
+    system : System
+    point : {"L1", "L2"}
+    ay_lu, az_lu : float
+        Target in-plane and out-of-plane amplitudes, LU (positive).
+    progress : callable(str), optional
+        Receives one line per step.
+    rtol : float
+        Relative tolerance on each measured amplitude.
+    catalog : cr3bp.catalog.Catalog, optional
+        Where solved tori and the edge orbits are kept.
+
+    Returns
+    -------
+    Torus
+        With ``extra["ay_lu"]``, ``extra["az_lu"]`` (measured), ``extra["target_iterations"]``
+        and ``extra["ray_steps"]``.
+
+    Raises
+    ------
+    InputError
+        A point other than L1/L2, or a non-positive amplitude.
+    NoSolutionError
+        The target is not reachable (the message gives the range of amplitudes reached).
+
+    Examples
+    --------
+    >>> t = lissajous(em, "L2", 0.02, 0.015)                    # doctest: +SKIP
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.lissajous import lissajous
+    >>> lissajous(system("earth-moon"), "L4", 0.01, 0.01)
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: point 'L4': Lissajous tori by amplitudes are built at L1 or L2
+
+    References
+    ----------
+    Richardson, Celestial Mechanics 22, 1980 (Lissajous amplitudes); Olikara & Scheeres, AAS
+    12-361, 2012 (the torus solve); Baresi, Olikara & Scheeres 2018 (two-parameter families).
     """
     if point not in POINTS:
         raise InputError(f"point '{point}': Lissajous tori by amplitudes are built at L1 or L2")

@@ -47,7 +47,36 @@ class TorusModes:
 
     ``unstable``/``stable``: (N, 6) real directions at the circle's nodes; ``lambda_unstable``,
     ``lambda_stable``: the multipliers (real parts of the chosen copies; their moduli are
-    ``modulus_unstable``/``modulus_stable``)."""
+    ``modulus_unstable``/``modulus_stable``).
+
+    Parameters
+    ----------
+    lambda_unstable, lambda_stable : complex
+        The chosen copies of the unstable and stable multipliers.
+    modulus_unstable, modulus_stable : float
+        Their moduli.
+    unstable, stable : ndarray (N, 6)
+        Real direction fields at the circle's nodes.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.torus import Torus
+    >>> em = system("earth-moon")
+    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
+    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
+    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.manifolds import modes
+    >>> m = modes(t)                                      # a TorusModes
+    >>> m.modulus_unstable > 1 > m.modulus_stable, m.unstable.shape
+    (True, (5, 6))
+
+    References
+    ----------
+    Gómez & Mondelo, Physica D 157, 2001, §5; Jorba & Masdemont, Physica D 132, 1999; Olikara,
+    PhD thesis, University of Colorado, 2016, ch. 5.
+    """
 
     lambda_unstable: complex
     lambda_stable: complex
@@ -75,7 +104,37 @@ def _real_field(vec: np.ndarray, n: int) -> np.ndarray:
 def modes(torus) -> TorusModes:
     """Unstable and stable multipliers and direction fields of a hyperbolic torus (step 1).
 
-    Raises NoSolutionError when the torus is not hyperbolic (no modulus above 1)."""
+    Parameters
+    ----------
+    torus : Torus
+
+    Returns
+    -------
+    TorusModes
+
+    Raises
+    ------
+    NoSolutionError
+        The torus is not hyperbolic (no modulus above 1).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.torus import Torus
+    >>> em = system("earth-moon")
+    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
+    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
+    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.manifolds import modes
+    >>> round(modes(t).modulus_unstable * modes(t).modulus_stable, 3)   # reciprocal pair
+    1.0
+
+    References
+    ----------
+    Gómez & Mondelo, Physica D 157, 2001, §5; Jorba & Masdemont, Physica D 132, 1999; Olikara,
+    PhD thesis, University of Colorado, 2016, ch. 5.
+    """
     u = torus.circle
     n = u.shape[0]
     w, vecs = np.linalg.eig(map_matrix(torus.system, u, torus.stroboscopic_time, torus.rotation))
@@ -100,7 +159,38 @@ class TorusTube(Tube):
     """A half-manifold of a torus: a :class:`~cr3bp.tubes.manifolds.Tube` whose departure
     points are a grid on the torus. ``phase`` is ``theta_0 / 2 pi`` and ``t_orbit`` the time
     ``tau`` along the stroboscopic period (``period`` = T); ``circle_phase`` holds ``theta_1``
-    (rad) of each departure point; ``multiplier`` the map's eigenvalue (complex)."""
+    (rad) of each departure point; ``multiplier`` the map's eigenvalue (complex).
+
+    Parameters
+    ----------
+    *args
+        The fields of :class:`cr3bp.tubes.manifolds.Tube`, in its order.
+    circle_phase : ndarray
+        ``theta_1`` (rad) of each departure point.
+    multiplier : complex
+        The map's eigenvalue.
+    torus : Torus
+        The torus the tube departs from.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.torus import Torus
+    >>> em = system("earth-moon")
+    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
+    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
+    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.manifolds import grow_tube
+    >>> tube = grow_tube(t, "unstable", "interior", 4, until="time:1d")
+    >>> tube.to_dict()["kind"], len(tube.circle_phase)
+    ('torus manifold', 4)
+
+    References
+    ----------
+    Gómez & Mondelo, Physica D 157, 2001, §5; Jorba & Masdemont, Physica D 132, 1999; Olikara,
+    PhD thesis, University of Colorado, 2016, ch. 5.
+    """
 
     circle_phase: np.ndarray = field(default=None, compare=False)
     multiplier: complex = 0j
@@ -119,7 +209,37 @@ class TorusTube(Tube):
 
 
 def grid_shape(n_points: int) -> tuple[int, int]:
-    """(n_0 stroboscopic phases, n_1 circle points) with n_0 n_1 <= n_points, near square."""
+    """(n_0 stroboscopic phases, n_1 circle points) with n_0 n_1 <= n_points, near square.
+
+    Parameters
+    ----------
+    n_points : int
+        Departure points wanted (at least 1).
+
+    Returns
+    -------
+    (int, int)
+        ``n_0`` and ``n_1``.
+
+    Raises
+    ------
+    InputError
+        ``n_points`` below 1.
+
+    Examples
+    --------
+    >>> from cr3bp.tori.manifolds import grid_shape
+    >>> grid_shape(200), grid_shape(1)
+    ((14, 14), (1, 1))
+    >>> grid_shape(0)
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: points = 0 must be at least 1
+
+    References
+    ----------
+    Common practice.
+    """
     n = int(n_points)
     if n < 1:
         raise InputError(f"points = {n_points!r} must be at least 1")
@@ -131,7 +251,56 @@ def manifold_starts(torus, stability: str, branch: str, n_points: int = 200, ste
                     torus_modes: TorusModes | None = None):
     """Departure data (steps 1-3): ``(theta0, theta1, tau, torus states, unit directions, start
     states, TorusModes, step LU, step km)``, each array over the ``n_0 x n_1`` grid (theta0
-    slowest)."""
+    slowest).
+
+    Parameters
+    ----------
+    torus : Torus
+    stability : {"stable", "unstable"}
+    branch : {"interior", "exterior"}
+    n_points : int
+        Departure points, as a grid of ``grid_shape(n_points)``.
+    step_km : float or str, optional
+        Step-off distance (default as for orbit tubes).
+    torus_modes : TorusModes, optional
+        Reuse computed modes.
+
+    Returns
+    -------
+    tuple
+        ``(theta0, theta1, tau, torus states, unit directions, start states, TorusModes, step
+        LU, step km)``.
+
+    Raises
+    ------
+    InputError
+        Bad stability, branch or step.
+    NoSolutionError
+        The torus is not hyperbolic.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.torus import Torus
+    >>> em = system("earth-moon")
+    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
+    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
+    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.manifolds import manifold_starts
+    >>> out = manifold_starts(t, "unstable", "interior", 20)
+    >>> out[5].shape                                   # start states on the 4 x 5 grid
+    (20, 6)
+    >>> manifold_starts(t, "sideways", "interior")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: stability 'sideways' must be stable or unstable
+
+    References
+    ----------
+    Gómez & Mondelo, Physica D 157, 2001, §5; Jorba & Masdemont, Physica D 132, 1999; Olikara,
+    PhD thesis, University of Colorado, 2016, ch. 5.
+    """
     if stability not in STABILITIES:
         raise InputError(f"stability '{stability}' must be stable or unstable")
     if branch not in TUBE_BRANCHES:
@@ -165,7 +334,38 @@ def manifold_starts(torus, stability: str, branch: str, n_points: int = 200, ste
 
 
 def describe(torus) -> str:
-    """A short description for a tube's ``origin``: family, point, branch, torus, C."""
+    """A short description for a tube's ``origin``: family, point, branch, torus, C.
+
+    Parameters
+    ----------
+    torus : Torus
+
+    Returns
+    -------
+    str
+
+    Raises
+    ------
+    AttributeError
+        ``torus`` is not a :class:`Torus`.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.torus import Torus
+    >>> em = system("earth-moon")
+    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
+    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
+    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.manifolds import describe
+    >>> describe(t)
+    'L1 torus C=3.180000'
+
+    References
+    ----------
+    Common practice.
+    """
     parts = [p for p in (torus.family, torus.point, torus.branch) if p]
     return " ".join(parts + ["torus", f"C={torus.jacobi:.6f}"])
 
@@ -183,10 +383,38 @@ def grow_tube(torus, stability: str, branch: str, n_points: int = 200, until=Non
     until : Stop, str or list of str     (:func:`cr3bp.tubes.manifolds.parse_until`)
     step_km : float or str, optional     step-off distance (default as for orbit tubes)
 
+    progress : callable, optional
+    origin : str, optional               the tube's origin in words (default :func:`describe`)
+
+    Returns
+    -------
+    TorusTube
+
     Raises
     ------
-    InputError: bad stability, branch, stop or step. NoSolutionError: the torus is not
-    hyperbolic.
+    InputError
+        Bad stability, branch, stop or step.
+    NoSolutionError
+        The torus is not hyperbolic.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.torus import Torus
+    >>> em = system("earth-moon")
+    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
+    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
+    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.manifolds import grow_tube
+    >>> tube = grow_tube(t, "stable", "exterior", 4, until="time:1d")
+    >>> tube.stability, tube.branch
+    ('stable', 'exterior')
+
+    References
+    ----------
+    Gómez & Mondelo, Physica D 157, 2001, §5; Jorba & Masdemont, Physica D 132, 1999; Olikara,
+    PhD thesis, University of Colorado, 2016, ch. 5.
     """
     system = torus.system
     stop = until if isinstance(until, Stop) else parse_until(until, system)

@@ -53,6 +53,31 @@ FAMILY_MEMBERS = 200
 
 @dataclass(frozen=True)
 class TorusSpec:
+    """A parsed torus request: the family, the point (Lissajous) or the orbit (quasi-halo) and
+    the targets as written.
+
+    Parameters
+    ----------
+    family : str
+        "lissajous" or "quasi-halo".
+    point : str
+        "L1" or "L2" for a Lissajous torus, else "".
+    around : str
+        The orbit request after ``around`` (quasi-halo), else "".
+    targets : dict
+        Target key -> value text (e.g. ``{"ay": "800000km"}``).
+
+    Examples
+    --------
+    >>> from cr3bp.tori.request import TorusSpec
+    >>> TorusSpec("lissajous", "L2", targets={"ay": "8000km", "az": "6000km"}).to_dict()
+    {'family': 'lissajous', 'point': 'L2', 'around': '', 'targets': {'ay': '8000km', 'az': '6000km'}}
+
+    References
+    ----------
+    Common practice (a plain-words request grammar of our own; module notes).
+    """
+
     family: str
     point: str = ""
     around: str = ""
@@ -64,6 +89,34 @@ class TorusSpec:
 
 
 def is_torus_request(text) -> bool:
+    """True when ``text`` starts with a torus family's name (or an alias).
+
+    Parameters
+    ----------
+    text : object
+        A request; anything not a non-empty string is not a torus request.
+
+    Returns
+    -------
+    bool
+
+    Raises
+    ------
+    Nothing
+        Every input gives True or False.
+
+    Examples
+    --------
+    >>> from cr3bp.tori.request import is_torus_request
+    >>> is_torus_request("qh around halo L2 south az=8000km amplitude=500km"), is_torus_request("halo L2")
+    (True, False)
+    >>> is_torus_request(None)
+    False
+
+    References
+    ----------
+    Common practice (a plain-words request grammar of our own; module notes).
+    """
     if not isinstance(text, str) or not text.split():
         return False
     w = text.split()[0].lower()
@@ -71,7 +124,37 @@ def is_torus_request(text) -> bool:
 
 
 def parse(text: str) -> TorusSpec:
-    """Parse a torus request (module notes). Raises InputError naming the bad word."""
+    """Parse a torus request (module notes).
+
+    Parameters
+    ----------
+    text : str
+        The request, e.g. ``"lissajous L2 ay=800000km az=500000km"``.
+
+    Returns
+    -------
+    TorusSpec
+
+    Raises
+    ------
+    InputError
+        Naming the bad word: unknown family or key, missing point or orbit, a target pair not
+        allowed for the family.
+
+    Examples
+    --------
+    >>> from cr3bp.tori.request import parse
+    >>> parse("quasi-halo around halo L2 south resonance=9:2 amplitude=2000km").around
+    'halo L2 south resonance=9:2'
+    >>> parse("lissajous L2 ay=8000km").targets
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: a lissajous torus is targeted by one of: ay + az; jacobi + period; frequency-ratio + jacobi; got ay
+
+    References
+    ----------
+    Common practice (a plain-words request grammar of our own; module notes).
+    """
     if not isinstance(text, str) or not text.strip():
         raise InputError(f"empty torus request; expected e.g. '{EXAMPLE}'")
     if not text.isprintable():
@@ -133,7 +216,36 @@ def _check_pairs(fam, targets):
 
 
 def values(system, spec: TorusSpec) -> dict:
-    """The targets as numbers (LU, TU, nondimensional; frequency-ratio as rotation in rad)."""
+    """The targets as numbers (LU, TU, nondimensional; frequency-ratio as rotation in rad).
+
+    Parameters
+    ----------
+    system : System
+    spec : TorusSpec
+
+    Returns
+    -------
+    dict
+        Key -> value; ``frequency-ratio`` comes back as ``rotation`` (rad).
+
+    Raises
+    ------
+    InputError
+        A value that is not a number of the right kind, an amplitude above 0.2 LU, a
+        frequency ratio outside (0, 1).
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.request import parse, values
+    >>> v = values(system("earth-moon"), parse("lissajous L2 jacobi=3.0008 frequency-ratio=0.25"))
+    >>> v["jacobi"], round(v["rotation"], 6)
+    (3.0008, 1.570796)
+
+    References
+    ----------
+    Common practice (a plain-words request grammar of our own; module notes).
+    """
     out = {}
     for key, text in spec.targets.items():
         if key in ("ay", "az", "amplitude"):
@@ -165,7 +277,42 @@ def solve(system, request, progress=None, catalog=None):
     refuse is found before any work. Raises InputError, NoSolutionError.
 
     With a ``catalog`` the torus is read from it when the same request was solved before
-    (:mod:`cr3bp.tori.store`), else solved and stored."""
+    (:mod:`cr3bp.tori.store`), else solved and stored.
+
+    Parameters
+    ----------
+    system : System
+    request : str or TorusSpec
+    progress : callable(str), optional
+        Receives one line per step.
+    catalog : cr3bp.catalog.Catalog, optional
+
+    Returns
+    -------
+    Torus
+
+    Raises
+    ------
+    InputError
+        A request it refuses (found before any work).
+    NoSolutionError
+        The torus cannot be reached.
+
+    Examples
+    --------
+    >>> t = solve(em, "quasi-halo around halo L2 south resonance=9:2 amplitude=2000km")  # doctest: +SKIP
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.request import solve
+    >>> solve(system("earth-moon"), "lissajous L2 ay=900000km az=1000km")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: ay 900000km is larger than 0.2 of the distance between the primaries; tori that large are not attempted
+
+    References
+    ----------
+    Olikara & Scheeres, AAS 12-361 (Adv. Astronaut. Sci. 145), 2012; Gómez & Mondelo, Physica D
+    157, 2001.
+    """
     spec = parse(request) if isinstance(request, str) else request
     want = values(system, spec)
     say = progress or (lambda m: None)
@@ -230,8 +377,40 @@ def reach(start, want: dict, progress=None):
     from the previous torus (the secant of the last two as predictor when the circles match),
     the step halved when Newton fails and grown after an easy step.
 
-    Raises NoSolutionError naming how far it got (the torus family may not reach the target:
-    the held pair has a fold, or the torus shrinks onto its orbit).
+    Parameters
+    ----------
+    start : Torus
+        A solved torus to start from.
+    want : dict
+        Two of ``jacobi``, ``period`` (TU), ``rotation`` (rad) -> target value.
+    progress : callable(str), optional
+
+    Returns
+    -------
+    Torus
+        Holding ``want``.
+
+    Raises
+    ------
+    InputError
+        ``want`` is not two of the three quantities.
+    NoSolutionError
+        Naming how far it got (the torus family may not reach the target: the held pair has a
+        fold, or the torus shrinks onto its orbit).
+
+    Examples
+    --------
+    >>> t = reach(start, {"jacobi": 3.0466, "period": 6.56 / 4.34})     # doctest: +SKIP
+    >>> from types import SimpleNamespace
+    >>> from cr3bp.tori.request import reach
+    >>> reach(SimpleNamespace(system=None), {"jacobi": 3.0})
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: two of jacobi, period, rotation are held; got jacobi
+
+    References
+    ----------
+    Allgower & Georg, SIAM 2003, §1-2; Olikara & Scheeres 2012; Baresi, Olikara & Scheeres 2018.
     """
     say = progress or (lambda m: None)
     system = start.system
@@ -301,6 +480,33 @@ def reach(start, want: dict, progress=None):
 
 
 def solver_amplitude(u):
+    """RMS distance of the circle's positions from their centre, LU
+    (:func:`cr3bp.tori.solver.amplitude`).
+
+    Parameters
+    ----------
+    u : ndarray (N, 6)
+
+    Returns
+    -------
+    float
+
+    Raises
+    ------
+    IndexError
+        ``u`` is not two-dimensional.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.tori.request import solver_amplitude
+    >>> solver_amplitude(np.zeros((3, 6)))
+    0.0
+
+    References
+    ----------
+    Olikara & Scheeres, AAS 12-361, 2012 (the amplitude as a held quantity).
+    """
     return amplitude(u)
 
 

@@ -29,7 +29,37 @@ TRIVIAL_ANGLE = 1e-4
 
 def centre_pairs(monodromy) -> list:
     """The centre eigenpairs ``(alpha, v)`` of a monodromy (numpy eigen-decomposition):
-    multipliers ``e^{i alpha}`` with ``0 < alpha < pi`` on the unit circle, largest angle first."""
+    multipliers ``e^{i alpha}`` with ``0 < alpha < pi`` on the unit circle, largest angle first.
+
+    Parameters
+    ----------
+    monodromy : array_like (6, 6)
+        The monodromy matrix of a periodic orbit.
+
+    Returns
+    -------
+    list of (float, ndarray (6,) complex)
+        ``(alpha, v)`` per centre pair, ``alpha`` in rad; empty when there is none.
+
+    Raises
+    ------
+    numpy.linalg.LinAlgError
+        The eigen-decomposition fails (a matrix of non-finite values).
+
+    Examples
+    --------
+    >>> from cr3bp.tori.seeds import centre_pairs
+    >>> import math, numpy as np
+    >>> from scipy.linalg import block_diag
+    >>> c, s = math.cos(0.5), math.sin(0.5)
+    >>> M = block_diag([[c, -s], [s, c]], 2.0, 0.5, 1.0, 1.0)     # one centre pair at 0.5 rad
+    >>> [round(a, 6) for a, _ in centre_pairs(M)]
+    [0.5]
+
+    References
+    ----------
+    Jorba, Nonlinearity 14, 2001; Olikara & Scheeres, AAS 12-361, 2012, §III.A.
+    """
     w, vecs = np.linalg.eig(np.asarray(monodromy, dtype=float))
     out = []
     for k in range(w.size):
@@ -41,13 +71,75 @@ def centre_pairs(monodromy) -> list:
 
 
 def multipliers_text(monodromy) -> str:
+    """The monodromy's six multipliers as text (four significant digits each), for messages.
+
+    Parameters
+    ----------
+    monodromy : array_like (6, 6)
+
+    Returns
+    -------
+    str
+        ``"re+imi, ..."`` in numpy's eigenvalue order.
+
+    Raises
+    ------
+    numpy.linalg.LinAlgError
+        The eigenvalues cannot be computed.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.tori.seeds import multipliers_text
+    >>> multipliers_text(np.diag([2.0, 0.5, 1.0, 1.0, 1.0, 1.0]))
+    '2+0i, 0.5+0i, 1+0i, 1+0i, 1+0i, 1+0i'
+
+    References
+    ----------
+    Common practice.
+    """
     w = np.linalg.eigvals(np.asarray(monodromy, dtype=float))
     return ", ".join(f"{z.real:.4g}{z.imag:+.4g}i" for z in w)
 
 
 def circle_from_pair(state, v, eps: float, n: int) -> np.ndarray:
     """``x0 + eps Re(e^{i theta_j} v)`` with ``v`` scaled so that ``eps`` is the RMS distance of
-    the circle's positions from ``x0`` (LU)."""
+    the circle's positions from ``x0`` (LU).
+
+    Parameters
+    ----------
+    state : array_like (6,)
+        The orbit's state ``x0`` (nondimensional).
+    v : array_like (6,) complex
+        A centre eigenvector of the monodromy.
+    eps : float
+        RMS distance of the circle's positions from ``x0``, LU.
+    n : int
+        Points on the circle.
+
+    Returns
+    -------
+    ndarray (n, 6)
+        The circle's states at ``circle.angles(n)``.
+
+    Raises
+    ------
+    NoSolutionError
+        The eigenvector has no position part.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.tori.seeds import circle_from_pair
+    >>> v = np.array([1, 1j, 0, 0, 0, 0])
+    >>> u = circle_from_pair(np.zeros(6), v, 0.01, 8)
+    >>> u.shape, round(float(np.sqrt((u[:, :3] ** 2).sum(axis=1).mean())), 6)
+    ((8, 6), 0.01)
+
+    References
+    ----------
+    Olikara & Scheeres, AAS 12-361, 2012, §III.A (first-order circle from the centre pair).
+    """
     v = np.asarray(v, dtype=complex)
     scale = math.sqrt((np.sum(v.real[:3] ** 2) + np.sum(v.imag[:3] ** 2)) / 2.0)
     if scale == 0.0:
@@ -60,7 +152,40 @@ def circle_from_pair(state, v, eps: float, n: int) -> np.ndarray:
 def branch_rotation(alpha: float, rho_linear: float | None) -> tuple[float, int]:
     """The rotation to start from: ``alpha`` itself (``rho_linear`` None), or the member of
     ``{+-alpha + 2 pi k}`` nearest ``rho_linear``; with the sign (+1: eigenvector of
-    ``e^{i alpha}``, -1: of its conjugate)."""
+    ``e^{i alpha}``, -1: of its conjugate).
+
+    Parameters
+    ----------
+    alpha : float
+        Angle of the centre multiplier, rad (0 < alpha < pi).
+    rho_linear : float or None
+        The rotation number the linear theory expects, rad.
+
+    Returns
+    -------
+    (float, int)
+        The rotation, rad, and the sign of the eigenvector to use.
+
+    Raises
+    ------
+    TypeError
+        ``alpha`` or ``rho_linear`` is not a number.
+
+    Examples
+    --------
+    >>> import math
+    >>> from cr3bp.tori.seeds import branch_rotation
+    >>> branch_rotation(0.5, None)
+    (0.5, 1)
+    >>> rho, sign = branch_rotation(0.5, 2 * math.pi - 0.4)
+    >>> round(rho, 6), sign
+    (5.783185, -1)
+
+    References
+    ----------
+    Olikara & Scheeres, AAS 12-361, 2012, §III.A (the rotation number is the multiplier's angle
+    modulo 2 pi; from memory).
+    """
     if rho_linear is None:
         return alpha, 1
     best = None
@@ -77,7 +202,45 @@ def linear_lissajous(modes, position, ax_lu: float, az_lu: float, n: int):
     Celestial Mechanics 22, 1980, eqs. for the linear solution; Szebehely 1967, §5.6):
     in plane ``Ax (planar_centre[0])`` at phase 0 (the x-axis crossing), out of plane
     ``Az (cos theta e_z - omega_v sin theta e_vz)``. Returns ``(U, T, rho)`` with
-    ``T = 2 pi / omega_p`` and ``rho = 2 pi omega_v / omega_p``."""
+    ``T = 2 pi / omega_p`` and ``rho = 2 pi omega_v / omega_p``.
+
+    Parameters
+    ----------
+    modes : object
+        Linear modes at the point: ``omega_inplane``, ``omega_vertical`` and ``planar_centre``
+        (the in-plane centre state direction first).
+    position : array_like (3,)
+        The collinear point's position, LU.
+    ax_lu, az_lu : float
+        In-plane and out-of-plane amplitudes, LU.
+    n : int
+        Points on the circle.
+
+    Returns
+    -------
+    (ndarray (n, 6), float, float)
+        The circle ``U``, stroboscopic time ``T`` (TU) and rotation ``rho`` (rad).
+
+    Raises
+    ------
+    AttributeError
+        ``modes`` lacks the frequencies or the planar centre direction.
+
+    Examples
+    --------
+    >>> import math
+    >>> from types import SimpleNamespace
+    >>> from cr3bp.tori.seeds import linear_lissajous
+    >>> modes = SimpleNamespace(omega_inplane=2.0, omega_vertical=1.8,
+    ...                         planar_centre=[[1, 0, 0, 0, 0, 0]])
+    >>> u, T, rho = linear_lissajous(modes, [0.8, 0, 0], 0.0, 0.01, 8)
+    >>> u.shape, round(T, 6), round(rho, 6), round(float(u[:, 2].max()), 6)
+    ((8, 6), 3.141593, 5.654867, 0.01)
+
+    References
+    ----------
+    Richardson, Celestial Mechanics 22, 1980 (the linear solution); Szebehely 1967, §5.6.
+    """
     wp, wv = modes.omega_inplane, modes.omega_vertical
     th = circle.angles(n)
     base = np.concatenate([np.asarray(position, dtype=float), np.zeros(3)])

@@ -51,7 +51,37 @@ HOLD_KINDS = ("jacobi", "period", "rotation", "amplitude")
 
 
 def eom_many(mu: float, s: np.ndarray) -> np.ndarray:
-    """Right-hand side of the CR3BP for states (N, 6) (numpy; conventions in cr3bp.systems)."""
+    """Right-hand side of the CR3BP for states (N, 6) (numpy; conventions in cr3bp.systems).
+
+    Parameters
+    ----------
+    mu : float
+        Mass ratio of the system.
+    s : ndarray (N, 6)
+        Rotating-frame states, nondimensional.
+
+    Returns
+    -------
+    ndarray (N, 6)
+        ``ds/dt`` for each state.
+
+    Raises
+    ------
+    IndexError
+        ``s`` is not two-dimensional with six columns.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.tori.solver import eom_many
+    >>> mu = 0.0121505856
+    >>> eom_many(mu, np.array([[0.5, 0.0, 0.0, 0.0, 0.1, 0.0]]))[0, :3]
+    array([0. , 0.1, 0. ])
+
+    References
+    ----------
+    Szebehely, *Theory of Orbits*, 1967, ch. 1 (the equations of motion in the rotating frame).
+    """
     x, y, z = s[:, 0], s[:, 1], s[:, 2]
     r1 = np.sqrt((x + mu) ** 2 + y * y + z * z)
     r2 = np.sqrt((x - 1 + mu) ** 2 + y * y + z * z)
@@ -65,6 +95,36 @@ def eom_many(mu: float, s: np.ndarray) -> np.ndarray:
 
 
 def jacobi_many(mu: float, s: np.ndarray) -> np.ndarray:
+    """Jacobi constant ``C = 2 Omega - |v|^2`` of states (N, 6).
+
+    Parameters
+    ----------
+    mu : float
+        Mass ratio of the system.
+    s : ndarray (N, 6)
+        Rotating-frame states, nondimensional.
+
+    Returns
+    -------
+    ndarray (N,)
+        The Jacobi constant of each state.
+
+    Raises
+    ------
+    IndexError
+        ``s`` is not two-dimensional with six columns.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.tori.solver import jacobi_many
+    >>> round(float(jacobi_many(0.0, np.array([[0.5, 0, 0, 0, 0, 0]]))[0]), 12)   # mu = 0: x^2 + 2/r
+    4.25
+
+    References
+    ----------
+    Szebehely, *Theory of Orbits*, 1967, ch. 1 (the Jacobi integral).
+    """
     x, y, z = s[:, 0], s[:, 1], s[:, 2]
     r1 = np.sqrt((x + mu) ** 2 + y * y + z * z)
     r2 = np.sqrt((x - 1 + mu) ** 2 + y * y + z * z)
@@ -72,7 +132,38 @@ def jacobi_many(mu: float, s: np.ndarray) -> np.ndarray:
 
 
 def jacobi_gradient(mu: float, s: np.ndarray) -> np.ndarray:
-    """dC/ds for states (N, 6)."""
+    """dC/ds for states (N, 6).
+
+    Parameters
+    ----------
+    mu : float
+        Mass ratio of the system.
+    s : ndarray (N, 6)
+        Rotating-frame states, nondimensional.
+
+    Returns
+    -------
+    ndarray (N, 6)
+        The gradient of the Jacobi constant at each state.
+
+    Raises
+    ------
+    IndexError
+        ``s`` is not two-dimensional with six columns.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.tori.solver import jacobi_gradient, jacobi_many
+    >>> s = np.array([[0.8, 0.01, 0.02, 0.0, 0.1, 0.0]]); h = 1e-6; e = np.eye(6)[0] * h
+    >>> fd = (jacobi_many(0.012, s + e) - jacobi_many(0.012, s - e)) / (2 * h)
+    >>> bool(abs(fd[0] - jacobi_gradient(0.012, s)[0, 0]) < 1e-6)
+    True
+
+    References
+    ----------
+    Szebehely, *Theory of Orbits*, 1967, ch. 1 (the Jacobi integral); the gradient is common practice.
+    """
     f = eom_many(mu, s)
     g = np.empty_like(s)
     # 2 grad Omega = 2 (acceleration - Coriolis terms)
@@ -84,12 +175,73 @@ def jacobi_gradient(mu: float, s: np.ndarray) -> np.ndarray:
 
 
 def amplitude(u: np.ndarray) -> float:
-    """RMS distance of the circle's positions from their mean (LU)."""
+    """RMS distance of the circle's positions from their mean (LU).
+
+    Parameters
+    ----------
+    u : ndarray (N, 6)
+        The circle's states.
+
+    Returns
+    -------
+    float
+        RMS position distance from the centre, LU.
+
+    Raises
+    ------
+    IndexError
+        ``u`` is not two-dimensional.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.tori.solver import amplitude
+    >>> u = np.zeros((4, 6)); u[:, 0] = [1, -1, 0, 0]; u[:, 1] = [0, 0, 1, -1]
+    >>> amplitude(u)
+    1.0
+
+    References
+    ----------
+    Olikara & Scheeres, AAS 12-361 (Adv. Astronaut. Sci. 145), 2012, eqs. 9-14.
+    """
     d = u[:, :3] - u[:, :3].mean(axis=0)
     return float(math.sqrt(np.mean(np.sum(d * d, axis=1))))
 
 
 def check_holds(holds: dict, n_needed: int) -> dict:
+    """The held quantities checked: known kinds (``HOLD_KINDS``) and exactly ``n_needed`` of them.
+
+    Parameters
+    ----------
+    holds : dict
+        Kind -> target value (``jacobi``, ``period`` TU, ``rotation`` rad, ``amplitude`` LU).
+    n_needed : int
+        How many the solve needs (two for one torus, one for a family member).
+
+    Returns
+    -------
+    dict
+        The same holds with float values.
+
+    Raises
+    ------
+    InputError
+        An unknown kind, or not ``n_needed`` of them.
+
+    Examples
+    --------
+    >>> from cr3bp.tori.solver import check_holds
+    >>> check_holds({"jacobi": 3.05, "amplitude": 0.005}, 2)
+    {'jacobi': 3.05, 'amplitude': 0.005}
+    >>> check_holds({"colour": 1}, 1)
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: cannot hold 'colour'; allowed: jacobi, period, rotation, amplitude
+
+    References
+    ----------
+    Olikara & Scheeres, AAS 12-361 (Adv. Astronaut. Sci. 145), 2012, eqs. 9-14.
+    """
     bad = [k for k in holds if k not in HOLD_KINDS]
     if bad:
         raise InputError(f"cannot hold '{bad[0]}'; allowed: {', '.join(HOLD_KINDS)}")
@@ -172,7 +324,26 @@ def solve(system, u0, T0, rho0, holds, reference=None, arclength=None, max_iter=
 
     Raises
     ------
-    ConvergenceError when Newton does not converge in ``max_iter`` iterations.
+    InputError
+        The circle is not (N, 6) with N odd.
+    ConvergenceError
+        Newton does not converge in ``max_iter`` iterations.
+
+    Examples
+    --------
+    >>> u, T, rho, info = solve(em, u0, T0, rho0, {"jacobi": 3.05, "amplitude": 0.005})   # doctest: +SKIP
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.solver import solve
+    >>> solve(system("earth-moon"), np.zeros((4, 6)), 3.0, 1.0, {})
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: the circle must be (N, 6) with N odd, got (4, 6)
+
+    References
+    ----------
+    Olikara & Scheeres, AAS 12-361 (Adv. Astronaut. Sci. 145), 2012, eqs. 9-14; Gómez & Mondelo,
+    Physica D 157, 2001, §3.
     """
     u0 = np.ascontiguousarray(u0, dtype=float)
     n = u0.shape[0]
@@ -242,7 +413,43 @@ def solve(system, u0, T0, rho0, holds, reference=None, arclength=None, max_iter=
 def invariance_error(system, u, T, rho) -> float:
     """Largest ``|phi_T(u(theta)) - u(theta + rho)|`` (6-vector norm, nondimensional) at the
     angles halfway between the nodes: an honest measure of the whole circle, not only of the
-    nodes where the equations were solved."""
+    nodes where the equations were solved.
+
+    Parameters
+    ----------
+    system : System
+    u : ndarray (N, 6)
+        The invariance circle.
+    T : float
+        Stroboscopic time, TU.
+    rho : float
+        Rotation, rad.
+
+    Returns
+    -------
+    float
+        The largest miss, nondimensional.
+
+    Raises
+    ------
+    StateError
+        A point of the circle falls inside a primary.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> from cr3bp.equilibria import lagrange_point
+    >>> from cr3bp.tori.solver import invariance_error
+    >>> em = system("earth-moon")
+    >>> x = np.concatenate([lagrange_point(em, "L1").position, np.zeros(3)])
+    >>> invariance_error(em, np.tile(x, (5, 1)), 1.0, 0.3) < 1e-9   # an equilibrium: a point circle
+    True
+
+    References
+    ----------
+    Olikara & Scheeres, AAS 12-361 (Adv. Astronaut. Sci. 145), 2012, eqs. 9-14.
+    """
     n = u.shape[0]
     th = circle.angles(n) + math.pi / n
     mid = circle.evaluate(u, th)

@@ -58,6 +58,16 @@ def map_matrix(system, u, T, rho) -> np.ndarray:
     --------
     >>> dg = map_matrix(em, torus.circle, torus.stroboscopic_time, torus.rotation)   # doctest: +SKIP
 
+    On a hand-made circle near L1 (not a solved torus), to show the call:
+
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> em = system("earth-moon")
+    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
+    >>> from cr3bp.tori.stability import map_matrix
+    >>> map_matrix(em, u, 2.7, 0.3).shape
+    (30, 30)
+
     References
     ----------
     Olikara, Z. P. & Scheeres, D. J., AAS 12-361 (2012), sec. III (stability of the torus);
@@ -114,6 +124,16 @@ def stability(system, u, T, rho) -> dict:
     --------
     >>> stability(em, torus.circle, torus.stroboscopic_time, torus.rotation)["kind"]  # doctest: +SKIP
     'hyperbolic'
+
+    On a hand-made circle near L1 (not a solved torus), to show the call:
+
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> em = system("earth-moon")
+    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
+    >>> from cr3bp.tori.stability import stability
+    >>> stability(em, u, 2.7, 0.3)["largest_modulus"] > 1
+    True
 
     References
     ----------

@@ -37,7 +37,40 @@ def _plain(v):
 
 
 def record(t: Torus) -> dict:
-    """Everything needed to rebuild ``t`` (:func:`from_record`), JSON-ready."""
+    """Everything needed to rebuild ``t`` (:func:`from_record`), JSON-ready.
+
+    Parameters
+    ----------
+    t : Torus
+
+    Returns
+    -------
+    dict
+        Plain values only (lists, floats, strings), the circle as a nested list.
+
+    Raises
+    ------
+    AttributeError
+        ``t`` is not a :class:`Torus`.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.torus import Torus
+    >>> em = system("earth-moon")
+    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # a hand-made circle
+    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
+    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.store import record
+    >>> rec = record(t)
+    >>> rec["stroboscopic_time"], len(rec["circle"])
+    (2.7, 5)
+
+    References
+    ----------
+    Common practice (a content-keyed cache; floats through JSON by ``repr``, exact round trip).
+    """
     d = {k: _plain(getattr(t, k)) for k in _FIELDS}
     d["circle"] = np.asarray(t.circle).tolist()
     d["closest_approach_lu"] = [float(v) for v in t.closest_approach_lu]
@@ -46,7 +79,42 @@ def record(t: Torus) -> dict:
 
 
 def from_record(system, d: dict) -> Torus:
-    """The :class:`Torus` a :func:`record` describes, in ``system``."""
+    """The :class:`Torus` a :func:`record` describes, in ``system``.
+
+    Parameters
+    ----------
+    system : System
+    d : dict
+        A :func:`record`.
+
+    Returns
+    -------
+    Torus
+        Bit for bit the torus recorded.
+
+    Raises
+    ------
+    KeyError
+        A field of the record is missing.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.torus import Torus
+    >>> em = system("earth-moon")
+    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # a hand-made circle
+    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
+    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.store import from_record, record
+    >>> back = from_record(em, record(t))
+    >>> bool((back.circle == t.circle).all()), back.rotation == t.rotation
+    (True, True)
+
+    References
+    ----------
+    Common practice (a content-keyed cache; floats through JSON by ``repr``, exact round trip).
+    """
     kw = {k: d[k] for k in _FIELDS}
     return Torus(system=system, circle=np.array(d["circle"], dtype=float),
                  closest_approach_lu=tuple(d["closest_approach_lu"]),
@@ -54,7 +122,39 @@ def from_record(system, d: dict) -> Torus:
 
 
 def digest(t: Torus) -> str:
-    """A short digest of a torus's unknowns (circle, T, rho): the key of families from it."""
+    """A short digest of a torus's unknowns (circle, T, rho): the key of families from it.
+
+    Parameters
+    ----------
+    t : Torus
+
+    Returns
+    -------
+    str
+        24 hexadecimal digits of the SHA-256 of the circle, T and rho.
+
+    Raises
+    ------
+    AttributeError
+        ``t`` is not a :class:`Torus`.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.torus import Torus
+    >>> em = system("earth-moon")
+    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # a hand-made circle
+    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
+    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.store import digest
+    >>> len(digest(t)), digest(t) == digest(t)
+    (24, True)
+
+    References
+    ----------
+    SHA-256: FIPS PUB 180-4 (NIST, 2015).
+    """
     h = hashlib.sha256()
     h.update(np.ascontiguousarray(t.circle, dtype=float).tobytes())
     h.update(np.array([t.stroboscopic_time, t.rotation], dtype=float).tobytes())
@@ -62,7 +162,39 @@ def digest(t: Torus) -> str:
 
 
 def load_torus(catalog, system, point: str, request: dict):
-    """The catalogued torus for this request, or None."""
+    """The catalogued torus for this request, or None.
+
+    Parameters
+    ----------
+    catalog : cr3bp.catalog.Catalog or None
+    system : System
+    point : str
+        The point of the torus ("L1", ...).
+    request : dict
+        The request's words and values (nondimensional), the key.
+
+    Returns
+    -------
+    Torus or None
+        None without a catalogue or a complete record.
+
+    Raises
+    ------
+    sqlite3.Error
+        The catalogue cannot be read.
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.catalog import Catalog
+    >>> from cr3bp.tori.store import load_torus
+    >>> load_torus(Catalog(":memory:"), system("earth-moon"), "L1", {"kind": "test"}) is None
+    True
+
+    References
+    ----------
+    Common practice (a content-keyed cache; floats through JSON by ``repr``, exact round trip).
+    """
     if catalog is None:
         return None
     rec = catalog.load_family(system, TORUS, point, "", {"request": request, "recipe": RECIPE})
@@ -72,7 +204,47 @@ def load_torus(catalog, system, point: str, request: dict):
 
 
 def save_torus(catalog, system, point: str, request: dict, t: Torus) -> None:
-    """Keep ``t`` as the answer to this request (a read-only catalogue is left as it is)."""
+    """Keep ``t`` as the answer to this request (a read-only catalogue is left as it is).
+
+    Parameters
+    ----------
+    catalog : cr3bp.catalog.Catalog or None
+        Nothing is kept without one.
+    system : System
+    point : str
+    request : dict
+        The key (see :func:`load_torus`).
+    t : Torus
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    sqlite3.Error
+        The catalogue cannot be written.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.torus import Torus
+    >>> em = system("earth-moon")
+    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # a hand-made circle
+    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
+    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.catalog import Catalog
+    >>> from cr3bp.tori.store import load_torus, save_torus
+    >>> cat = Catalog(":memory:")
+    >>> save_torus(cat, em, "L1", {"kind": "test"}, t)
+    >>> load_torus(cat, em, "L1", {"kind": "test"}).rotation
+    0.3
+
+    References
+    ----------
+    Common practice (a content-keyed cache; floats through JSON by ``repr``, exact round trip).
+    """
     if catalog is None or getattr(catalog, "read_only", False):
         return
     fid = catalog.begin_family(system, TORUS, point, "", {"request": request, "recipe": RECIPE})
@@ -81,7 +253,48 @@ def save_torus(catalog, system, point: str, request: dict, t: Torus) -> None:
 
 
 def cached_torus(catalog, system, point: str, request: dict, compute):
-    """The catalogued torus for ``request``, else ``compute()`` stored and returned."""
+    """The catalogued torus for ``request``, else ``compute()`` stored and returned.
+
+    Parameters
+    ----------
+    catalog : cr3bp.catalog.Catalog or None
+    system : System
+    point : str
+    request : dict
+        The key (see :func:`load_torus`).
+    compute : callable() -> Torus
+        Called only when the catalogue has no answer.
+
+    Returns
+    -------
+    Torus
+
+    Raises
+    ------
+    NoSolutionError, ConvergenceError
+        From ``compute``.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.torus import Torus
+    >>> em = system("earth-moon")
+    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # a hand-made circle
+    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
+    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.catalog import Catalog
+    >>> from cr3bp.tori.store import cached_torus
+    >>> cat = Catalog(":memory:")
+    >>> cached_torus(cat, em, "L1", {"kind": "test"}, lambda: t) is t        # computed
+    True
+    >>> cached_torus(cat, em, "L1", {"kind": "test"}, None).rotation          # read back
+    0.3
+
+    References
+    ----------
+    Common practice (a content-keyed cache; floats through JSON by ``repr``, exact round trip).
+    """
     t = load_torus(catalog, system, point, request)
     if t is None:
         with serial():      # computing: one thread (cr3bp.threads); read-backs skip numba
@@ -91,7 +304,39 @@ def cached_torus(catalog, system, point: str, request: dict, compute):
 
 
 class FamilyStore:
-    """The catalogue record of one torus family (see the module notes)."""
+    """The catalogue record of one torus family (see the module notes).
+
+    Parameters
+    ----------
+    catalog : cr3bp.catalog.Catalog
+    start : Torus
+        The family's start torus (its digest is part of the key).
+    settings : dict
+        The continuation settings (held quantity, steps, direction), part of the key.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.torus import Torus
+    >>> em = system("earth-moon")
+    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # a hand-made circle
+    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
+    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.catalog import Catalog
+    >>> from cr3bp.tori.store import FamilyStore
+    >>> fs = FamilyStore(Catalog(":memory:"), t, {"hold": "jacobi"})
+    >>> fs.load()
+    ([], [], None)
+    >>> fs.add(1, t, np.zeros(32), 0.02)
+    >>> members, states, stop = fs.load()
+    >>> len(members), states[0][1], stop
+    (1, 0.02, None)
+
+    References
+    ----------
+    Common practice (a content-keyed cache; floats through JSON by ``repr``, exact round trip).
+    """
 
     def __init__(self, catalog, start: Torus, settings: dict):
         self.catalog = catalog

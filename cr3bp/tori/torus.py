@@ -44,7 +44,24 @@ MIN_RATIO = 1.05
 
 
 class SurfaceError(NoSolutionError):
-    """The torus passes inside a primary (no such torus in the model's domain)."""
+    """The torus passes inside a primary (no such torus in the model's domain).
+
+    Parameters
+    ----------
+    message : str
+        The reason, naming the primary.
+
+    Examples
+    --------
+    >>> from cr3bp.errors import NoSolutionError
+    >>> from cr3bp.tori.torus import SurfaceError
+    >>> issubclass(SurfaceError, NoSolutionError)
+    True
+
+    References
+    ----------
+    Common practice.
+    """
 
 
 @dataclass(frozen=True)
@@ -72,6 +89,28 @@ class Torus:
     stability : dict           eigenvalues of the discretised stroboscopic map
                                (:func:`cr3bp.tori.stability.stability`: moduli, verdict)
     extra : dict
+
+    Parameters
+    ----------
+    system, circle, stroboscopic_time, rotation, jacobi, jacobi_spread, invariance_error, invariance_tolerance, family, point, branch, around, amplitude_lu, holds, closest_approach_lu, extent_lu, iterations, stability, extra
+        As the attributes above; made by :func:`build`, not by hand.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> em = system("earth-moon")
+    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
+    >>> from cr3bp.tori.torus import Torus
+    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
+    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> t.n_circle_points, round(t.rotation_number, 6), round(t.stroboscopic_period_days, 1)
+    (5, 0.047746, 11.7)
+
+    References
+    ----------
+    Olikara & Scheeres, AAS 12-361 (Adv. Astronaut. Sci. 145), 2012; Gómez & Mondelo, Physica D
+    157, 2001.
     """
 
     system: object
@@ -171,7 +210,50 @@ class Torus:
 
 def solve_adaptive(system, u, T, rho, holds, reference=None, arclength_fn=None):
     """Solve, then double N (spectral resampling) while the Fourier tail or the invariance
-    error between the nodes is too large. Returns (U, T, rho, info)."""
+    error between the nodes is too large.
+
+    Parameters
+    ----------
+    system : System
+    u : ndarray (N, 6), N odd
+        First guess of the circle.
+    T, rho : float
+        First guesses of the stroboscopic time (TU) and rotation (rad).
+    holds : dict
+        Held quantities (:func:`cr3bp.tori.solver.solve`).
+    reference : (U, T, rho), optional
+        Reference of the phase conditions (resampled as N grows).
+    arclength_fn : callable(N) -> (x0, tangent, ds), optional
+        The pseudo-arclength condition for N points.
+
+    Returns
+    -------
+    (U, T, rho, info)
+        ``info``: iterations, Fourier tail, invariance error and its tolerance.
+
+    Raises
+    ------
+    InputError
+        The circle is not (N, 6) with N odd.
+    ConvergenceError
+        Newton fails, or more than ``N_MAX`` points would be needed.
+
+    Examples
+    --------
+    >>> U, T, rho, info = solve_adaptive(em, u0, T0, rho0, holds)       # doctest: +SKIP
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.torus import solve_adaptive
+    >>> solve_adaptive(system("earth-moon"), np.zeros((4, 6)), 3.0, 1.0, {})
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: the circle must be (N, 6) with N odd, got (4, 6)
+
+    References
+    ----------
+    Olikara & Scheeres, AAS 12-361 (Adv. Astronaut. Sci. 145), 2012; Gómez & Mondelo, Physica D
+    157, 2001.
+    """
     its = 0
     while True:
         n = u.shape[0]
@@ -219,10 +301,28 @@ def torus_around(orbit, amplitude_lu: float, hold: str = "jacobi", progress=None
         the rotation of the centre eigenpair while the amplitude grows.
     progress : callable(i, amplitude_lu) or None
 
+    Returns
+    -------
+    Torus
+        With ``extra["amplitude_steps"]`` and ``extra["centre_angle_rad"]``.
+
     Raises
     ------
-    InputError: bad amplitude or hold. NoSolutionError: the orbit has no centre eigenpair.
-    ConvergenceError: Newton failed even with small amplitude steps.
+    InputError
+        Bad amplitude or hold.
+    NoSolutionError
+        The orbit has no centre eigenpair.
+    ConvergenceError
+        Newton failed even with small amplitude steps.
+
+    Examples
+    --------
+    >>> t = torus_around(orbit, 0.005)                                  # doctest: +SKIP
+    >>> from cr3bp.tori.torus import torus_around
+    >>> torus_around(None, -1.0)
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: amplitude (LU) '-1.0' must be positive
 
     References
     ----------
@@ -308,7 +408,47 @@ def build(system, u, T, rho, err, tol=INVARIANCE_TOL, samples=GEOMETRY_SAMPLES,
     circle (Fourier-interpolated) at ``samples`` times over ``T`` plus one before and one
     after; every sample lies on the smooth torus function ``W(t, theta)`` on a regular
     (sheared) lattice, so each extreme is refined by the maximum of the quadratic through
-    the 3 x 3 samples around the best one (periodic in the circle's angle)."""
+    the 3 x 3 samples around the best one (periodic in the circle's angle).
+
+    Parameters
+    ----------
+    system : System
+    u : ndarray (N, 6)
+        The solved circle.
+    T, rho : float
+        Stroboscopic time (TU) and rotation (rad).
+    err : float
+        Its invariance error.
+    tol : float
+        The tolerance it was solved to.
+    samples : int
+        Time samples per stroboscopic time.
+    with_stability : bool
+        Compute the map's eigenvalues.
+    **kw
+        Further :class:`Torus` fields (family, point, holds, ...).
+
+    Returns
+    -------
+    Torus
+
+    Raises
+    ------
+    SurfaceError
+        The torus passes inside a primary.
+
+    Examples
+    --------
+    >>> t = build(em, u1, T1, rho1, info["invariance_error"])            # doctest: +SKIP
+    >>> from cr3bp.tori.torus import GEOMETRY_POINTS, GEOMETRY_SAMPLES
+    >>> GEOMETRY_POINTS, GEOMETRY_SAMPLES
+    (45, 96)
+
+    References
+    ----------
+    Olikara & Scheeres, AAS 12-361 (Adv. Astronaut. Sci. 145), 2012; Gómez & Mondelo, Physica D
+    157, 2001.
+    """
     C = solver.jacobi_many(system.mu, u)
     if with_stability:
         kw["stability"] = stability(system, u, T, rho)
@@ -339,7 +479,37 @@ def _padded_surface(system, u, T, samples):
 def refined_max(f: np.ndarray) -> float:
     """Largest value of a smooth function sampled on a lattice ``f[m, j]`` (m: time, clipped;
     j: periodic): the best sample, refined by the quadratic through its 3 x 3 neighbourhood
-    when that quadratic has its maximum within one step (else the sample itself)."""
+    when that quadratic has its maximum within one step (else the sample itself).
+
+    Parameters
+    ----------
+    f : ndarray (M, N)
+        Samples; the first axis clipped (its end rows are not candidates), the second periodic.
+
+    Returns
+    -------
+    float
+        The refined maximum.
+
+    Raises
+    ------
+    ValueError
+        Fewer than three rows.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.tori.torus import refined_max
+    >>> m, j = np.meshgrid(np.arange(7.0), np.arange(8.0), indexing="ij")
+    >>> f = 1.0 - (m - 3.3) ** 2 - (j - 4.2) ** 2          # a quadratic peak between the samples
+    >>> round(refined_max(f), 12), float(f.max()) < 1.0
+    (1.0, True)
+
+    References
+    ----------
+    Common practice (quadratic interpolation of a sampled extremum; Nocedal & Wright,
+    *Numerical Optimization*, 2nd ed., 2006, ch. 2, from memory).
+    """
     m_count = f.shape[0]
     inner = f[1:m_count - 1]
     m, j = np.unravel_index(np.argmax(inner), inner.shape)
@@ -368,7 +538,42 @@ def surface(system, u, T, samples=256) -> np.ndarray:
     per-call checks and result objects cost about as much as the short steps themselves
     (measured ~1.3 ms of ~2.3 ms per 45-point step). Every state of the grid is checked
     against the primaries at the end, and a step any trajectory of which fails is repeated
-    through :func:`propagate_batch` for its error."""
+    through :func:`propagate_batch` for its error.
+
+    Parameters
+    ----------
+    system : System
+    u : ndarray (N, 6)
+        The circle's states.
+    T : float
+        Stroboscopic time, TU.
+    samples : int
+        Time steps M over ``T``.
+
+    Returns
+    -------
+    ndarray (M + 1, N, 6)
+
+    Raises
+    ------
+    SurfaceError
+        A trajectory passes inside a primary.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> em = system("earth-moon")
+    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
+    >>> from cr3bp.tori.torus import surface
+    >>> surface(em, u, 2.7, samples=1).shape
+    (2, 5, 6)
+
+    References
+    ----------
+    Olikara & Scheeres, AAS 12-361 (Adv. Astronaut. Sci. 145), 2012; Gómez & Mondelo, Physica D
+    157, 2001.
+    """
     kernel = batch_kernel()      # the one propagate_batch runs (prebuilt on one thread)
     s = np.ascontiguousarray(u, dtype=float)
     n = s.shape[0]
@@ -411,7 +616,43 @@ def surface(system, u, T, samples=256) -> np.ndarray:
 
 def closest_approach(system, grid, xc, spacing) -> float:
     """Least distance to the primary at (xc, 0, 0): the best sample on each trajectory, then
-    Newton on ``(r - c) . v = 0`` (the distance is stationary) for all trajectories at once."""
+    Newton on ``(r - c) . v = 0`` (the distance is stationary) for all trajectories at once.
+
+    Parameters
+    ----------
+    system : System
+    grid : ndarray (M, N, 6)
+        States on the torus (:func:`surface`).
+    xc : float
+        The primary's x (LU).
+    spacing : float
+        Time between samples, TU (bounds each Newton step).
+
+    Returns
+    -------
+    float
+        Least distance, LU.
+
+    Raises
+    ------
+    StateError
+        A Newton step lands inside a primary.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> em = system("earth-moon")
+    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
+    >>> from cr3bp.tori.torus import closest_approach, surface
+    >>> d = closest_approach(em, surface(em, u, 2.7, samples=1), 1 - em.mu, 2.7)
+    >>> bool(0.0 < d < 0.2)
+    True
+
+    References
+    ----------
+    Common practice (Newton on the stationarity of the distance).
+    """
     N = grid.shape[1]
     c = np.array([xc, 0.0, 0.0])
     d = np.linalg.norm(grid[:, :, :3] - c, axis=2)
@@ -445,6 +686,39 @@ def lissajous_near_point(system, point: str, ax_lu: float, az_lu: float) -> Toru
     follows from the energy. For amplitudes where the linear solution is a good first guess
     (a few thousand km in the Earth–Moon system); larger Lissajous tori are reached from a
     planar Lyapunov orbit (:func:`torus_around`) or by continuation.
+
+    Parameters
+    ----------
+    system : System
+    point : {"L1", "L2", "L3"}
+    ax_lu, az_lu : float
+        In-plane and out-of-plane amplitudes of the linear seed, LU.
+
+    Returns
+    -------
+    Torus
+        ``family`` = "lissajous".
+
+    Raises
+    ------
+    InputError
+        A point not collinear, a non-positive amplitude.
+    ConvergenceError
+        Newton fails even with small amplitude steps.
+
+    Examples
+    --------
+    >>> t = lissajous_near_point(em, "L1", 0.002, 0.002)                # doctest: +SKIP
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.torus import lissajous_near_point
+    >>> lissajous_near_point(system("earth-moon"), "L4", 0.002, 0.002)
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: point 'L4': Lissajous tori are about a collinear point (L1, L2, L3)
+
+    References
+    ----------
+    Richardson, Celestial Mechanics 22, 1980 (linear solution); Olikara & Scheeres 2012.
     """
     if point not in COLLINEAR_POINTS:
         raise InputError(f"point '{point}': Lissajous tori are about a collinear point (L1, L2, L3)")

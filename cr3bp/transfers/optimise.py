@@ -149,6 +149,31 @@ class Start:
     arcs : tuple of (state (6,), duration TU)  ballistic arcs in time order, an impulse
                                   between consecutive arcs
     method : str                  how the start was made, in words
+
+    Parameters
+    ----------
+    solution : str
+        "patch" or "first guess".
+    dv_mps : float
+        The start's own total Δv, m/s (CR3BP).
+    phase_from, phase_to : float
+        Departure and arrival phases, fractions of each orbit's period.
+    arcs : tuple of (ndarray (6,), float)
+        Ballistic arcs (initial state, duration TU) in time order.
+    method : str
+        How the start was made, in words.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.transfers.optimise import Start
+    >>> s = Start("first guess", 812.5, 0.25, 0.5, ((np.zeros(6), 1.5), (np.ones(6), 0.5)), "by hand")
+    >>> s.tof
+    2.0
+
+    References
+    ----------
+    Common practice (the start of a direct transcription: Betts 2010, §4.4).
     """
 
     solution: str
@@ -170,7 +195,41 @@ class Start:
 def start_from_leg(leg: Leg) -> Start:
     """A manifold patch (:func:`cr3bp.tubes.connections.connect`) as a :class:`Start`: the
     unstable arc from the step-off point, the patch impulse, the stable arc to the arrival
-    orbit."""
+    orbit.
+
+    Parameters
+    ----------
+    leg : cr3bp.transfers.leg.Leg
+        An orbit-to-orbit manifold patch; its ``details`` carry ``phase_from`` and ``phase_to``.
+
+    Returns
+    -------
+    Start
+        ``solution`` = "patch", the leg's ballistic arcs in time order.
+
+    Raises
+    ------
+    InputError
+        The leg carries no departure/arrival phases (it is not an orbit-to-orbit patch).
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.tubes.connections import connect                      # doctest: +SKIP
+    >>> leg = connect(em, orbit_a, orbit_b)[0]                              # doctest: +SKIP
+    >>> start_from_leg(leg).solution                                        # doctest: +SKIP
+    'patch'
+    >>> from types import SimpleNamespace
+    >>> from cr3bp.transfers.optimise import start_from_leg
+    >>> start_from_leg(SimpleNamespace(details={}))
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: the start leg carries no departure/arrival phases (only orbit-to-orbit manifold patches do)
+
+    References
+    ----------
+    Common practice (a patched invariant-manifold transfer as an optimiser's start).
+    """
     d = leg.details
     if "phase_from" not in d or "phase_to" not in d:
         raise InputError("the start leg carries no departure/arrival phases (only orbit-to-orbit "
@@ -183,7 +242,45 @@ def start_from_leg(leg: Leg) -> Start:
 def start_from_record(system, record: dict) -> Start:
     """A leg record of the transfer graph between two orbit nodes (a two-impulse targeted leg
     from one orbit's reference state to the other's, :func:`cr3bp.transfers.targeting.targeted_leg`)
-    as a :class:`Start` at phases 0 and 0."""
+    as a :class:`Start` at phases 0 and 0.
+
+    Parameters
+    ----------
+    system : System
+        The system of the graph (unused beyond the signature; kept for symmetry).
+    record : dict
+        A leg record (``Leg.record()``) with ``method`` = "targeted", ``patch_states``,
+        ``dv_mps`` and ``tof_tu``.
+
+    Returns
+    -------
+    Start
+        ``solution`` = "first guess", one arc from the first patch state.
+
+    Raises
+    ------
+    InputError
+        The record is not a two-impulse targeted leg.
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.optimise import start_from_record
+    >>> em = system("earth-moon")
+    >>> rec = {"method": "targeted", "patch_states": [[0.8, 0, 0, 0, 0.1, 0]], "dv_mps": 640.0,
+    ...        "tof_tu": 2.5}
+    >>> s = start_from_record(em, rec)
+    >>> s.solution, s.dv_mps, s.tof
+    ('first guess', 640.0, 2.5)
+    >>> start_from_record(em, {"method": "manifold"})
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: a leg of method 'manifold' is not a two-impulse targeted leg
+
+    References
+    ----------
+    Common practice.
+    """
     if record.get("method") != "targeted" or not record.get("patch_states"):
         raise InputError(f"a leg of method {record.get('method')!r} is not a two-impulse targeted leg")
     s0 = np.array(record["patch_states"][0], dtype=float)
@@ -193,7 +290,40 @@ def start_from_record(system, record: dict) -> Start:
 
 def two_impulse(system, pa: _OrbitPoints, pb: _OrbitPoints, phase_from, phase_to, tof):
     """The two-impulse targeted leg between the orbits at the given phases (a :class:`Start`),
-    or None where targeting fails."""
+    or None where targeting fails.
+
+    Parameters
+    ----------
+    system : System
+    pa, pb : _OrbitPoints
+        The departure and arrival orbits as functions of phase.
+    phase_from, phase_to : float
+        Departure and arrival phases, fractions of each period.
+    tof : float
+        Time of flight, TU.
+
+    Returns
+    -------
+    Start or None
+        ``solution`` = "first guess", one arc; None where single shooting does not converge.
+
+    Raises
+    ------
+    InputError
+        From the targeting, for a non-positive time of flight.
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.optimise import two_impulse, _OrbitPoints     # doctest: +SKIP
+    >>> two_impulse(em, _OrbitPoints(a), _OrbitPoints(b), 0.0, 0.5, 3.0).dv_mps   # doctest: +SKIP
+    >>> from cr3bp.transfers.optimise import SWEEP_PHASES
+    >>> SWEEP_PHASES                              # phases per orbit in the sweep that calls it
+    8
+
+    References
+    ----------
+    Single shooting on the departure velocity (Lambert-type targeting): common practice.
+    """
     from .targeting import solve_departure   # lazy: only the sweep needs it
     sa, _ = pa.at(phase_from)
     sb, _ = pb.at(phase_to)
@@ -212,6 +342,33 @@ def sweep_starts(orbit_a, orbit_b, max_tof, phases=SWEEP_PHASES, tof_fractions=S
                  _points=None) -> list:
     """The cheapest two-impulse targeted leg for each time of flight (fractions of ``max_tof``,
     TU) over a grid of departure and arrival phases; cheapest first.
+
+    Parameters
+    ----------
+    orbit_a, orbit_b : PeriodicOrbit
+        Departure and arrival orbits (same system).
+    max_tof : float
+        Cap on the time of flight, TU.
+    phases : int
+        Phases per orbit (``phases`` x ``phases`` pairs).
+    tof_fractions : tuple of float
+        Times of flight as fractions of ``max_tof``.
+
+    Returns
+    -------
+    list of Start
+        One per time of flight that converged somewhere, cheapest first.
+
+    Examples
+    --------
+    >>> starts = sweep_starts(orbit_a, orbit_b, 6.0, phases=4)        # doctest: +SKIP
+    >>> from cr3bp.transfers.optimise import SWEEP_TOF_FRACTIONS
+    >>> SWEEP_TOF_FRACTIONS
+    (0.15, 0.3, 0.5, 0.8)
+
+    References
+    ----------
+    Common practice (a grid search for a first guess).
 
     Raises
     ------
@@ -233,7 +390,39 @@ def sweep_starts(orbit_a, orbit_b, max_tof, phases=SWEEP_PHASES, tof_fractions=S
 
 
 def sweep_start(orbit_a, orbit_b, max_tof, **kw) -> Start:
-    """The cheapest leg of :func:`sweep_starts`."""
+    """The cheapest leg of :func:`sweep_starts`.
+
+    Parameters
+    ----------
+    orbit_a, orbit_b : PeriodicOrbit
+        Departure and arrival orbits (same system).
+    max_tof : float
+        Cap on the time of flight, TU.
+    **kw
+        Passed to :func:`sweep_starts` (``phases``, ``tof_fractions``).
+
+    Returns
+    -------
+    Start
+        The cheapest two-impulse leg of the sweep.
+
+    Raises
+    ------
+    NoSolutionError
+        No targeted leg of the grid converged.
+
+    Examples
+    --------
+    >>> sweep_start(orbit_a, orbit_b, 6.0).solution                    # doctest: +SKIP
+    'first guess'
+    >>> from cr3bp.transfers.optimise import sweep_start
+    >>> callable(sweep_start)
+    True
+
+    References
+    ----------
+    Common practice (a grid search for a first guess).
+    """
     return sweep_starts(orbit_a, orbit_b, max_tof, **kw)[0]
 
 
@@ -409,6 +598,23 @@ class OrbitTransfer:
     active_bounds : tuple of str   bounds the optimum sits on ("max_tof", "min_segment")
     primer : dict                  the primer-vector check (:func:`primer_check`)
     details : dict                 defects, closure, timing, the optimiser's message
+
+    Parameters
+    ----------
+    system, orbit_from, orbit_to, origin, target, solution, maneuvers, tof, phase_from, phase_to, start, max_tof, impulses, iterations, active_bounds, primer, details
+        As the attributes above; made by :func:`optimise_transfer`, not by hand.
+
+    Examples
+    --------
+    >>> tr = optimise_transfer(orbit_a, orbit_b, impulses=3)           # doctest: +SKIP
+    >>> tr.solution, round(tr.dv_mps, 1), round(tr.tof_days, 2)        # doctest: +SKIP
+    >>> from cr3bp.transfers.optimise import SOLUTIONS
+    >>> SOLUTIONS
+    ('optimised', 'patch', 'first guess')
+
+    References
+    ----------
+    Betts 2010, §4.4-4.6 (multiple shooting); Lawden 1963, ch. 3 (primer vector).
     """
 
     system: object
@@ -534,6 +740,35 @@ def _from_start(system, oa, ob, origin, target, start: Start, pa, pb, max_tof, i
 
 
 def describe(orbit) -> str:
+    """The orbit in words, as the manifold tools write it (:func:`cr3bp.tubes.manifolds.describe`).
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit
+
+    Returns
+    -------
+    str
+        A one-line description (family, point, branch, period).
+
+    Raises
+    ------
+    AttributeError
+        ``orbit`` is not a periodic orbit.
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.optimise import describe
+    >>> describe(orbit)                                              # doctest: +SKIP
+    >>> describe(None)
+    Traceback (most recent call last):
+    ...
+    AttributeError: ...
+
+    References
+    ----------
+    Common practice.
+    """
     from ..tubes.manifolds import describe as _d   # lazy: import cycle (tubes imports transfers.leg)
     return _d(orbit)
 
@@ -566,6 +801,20 @@ def optimise_transfer(orbit_from, orbit_to, start: Start | None = None, *, impul
         Orbits of different systems, an impulse count other than 2 or 3, a bad cap.
     NoSolutionError
         No start given and the sweep found none.
+
+    Examples
+    --------
+    >>> tr = optimise_transfer(orbit_a, orbit_b, impulses=3, max_tof=8.0)   # doctest: +SKIP
+    >>> tr.primer["satisfied"]                                              # doctest: +SKIP
+    True
+    >>> from types import SimpleNamespace
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.optimise import optimise_transfer
+    >>> orbit = SimpleNamespace(system=system("earth-moon"))
+    >>> optimise_transfer(orbit, orbit, impulses=4)
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: impulses = 4; allowed: 2 or 3
 
     References
     ----------
@@ -727,7 +976,38 @@ def closure_km(tr: OrbitTransfer, propagator=None) -> float:
     """Largest position miss (km, or LU for a system without units) when each coast is
     propagated forward from the state after its burn to the next burn, and at the end against
     the arrival orbit at ``phase_to``. ``propagator(system, state, dt) -> final state``
-    (default: librate's integrator at 1e-12)."""
+    (default: librate's integrator at 1e-12).
+
+    Parameters
+    ----------
+    tr : OrbitTransfer
+    propagator : callable(system, state, dt) -> ndarray (6,), optional
+        An outside propagator for the check (default: librate's at 1e-12).
+
+    Returns
+    -------
+    float
+        The largest position miss, km (LU for a system without units), CR3BP.
+
+    Raises
+    ------
+    AttributeError
+        ``tr`` is not an :class:`OrbitTransfer`.
+
+    Examples
+    --------
+    >>> closure_km(optimise_transfer(orbit_a, orbit_b)) < 1e-3          # doctest: +SKIP
+    True
+    >>> from cr3bp.transfers.optimise import closure_km
+    >>> closure_km(None)
+    Traceback (most recent call last):
+    ...
+    AttributeError: ...
+
+    References
+    ----------
+    Common practice (re-propagating each coast to check the transcription).
+    """
     s = tr.system
     worst = 0.0
     coasts = tr.coasts()
@@ -749,11 +1029,34 @@ def primer_check(tr: OrbitTransfer, samples: int = 200) -> dict:
     ``p'(t_i) = B^-1 (u_j - A u_i)`` with ``A``, ``B`` the position blocks of ``Phi(t_j, t_i)``,
     then ``[p, p'](t) = Phi(t, t_i) [p, p'](t_i)``.
 
+    Parameters
+    ----------
+    tr : OrbitTransfer
+    samples : int
+        Samples of ``|p|`` per coast.
+
     Returns
     -------
     dict : ``max_norm_on_coasts``, ``norm_at_impulses`` (1 by construction where an impulse is
     kept), ``primer_rate_jump`` (|p'| jump at a mid-course impulse: zero for an optimal
     interior impulse time), ``satisfied`` (``|p| <= 1 + PRIMER_SLACK`` on every coast), ``note``.
+
+    Raises
+    ------
+    AttributeError
+        ``tr`` is not an :class:`OrbitTransfer`.
+
+    Examples
+    --------
+    >>> primer_check(tr)["satisfied"]                                    # doctest: +SKIP
+    True
+    >>> from cr3bp.transfers.optimise import PRIMER_SLACK
+    >>> PRIMER_SLACK
+    0.001
+
+    References
+    ----------
+    Lawden, *Optimal Trajectories for Space Navigation*, 1963, ch. 3.
     """
     s = tr.system
     mags = [float(s.mps(np.linalg.norm(m["dv_vector"]))) if s.dimensional else float(np.linalg.norm(m["dv_vector"]))
