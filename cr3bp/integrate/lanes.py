@@ -595,6 +595,15 @@ def blocks(n: int) -> int:
     >>> from cr3bp.integrate.lanes import blocks
     >>> blocks(1)
     1
+
+    Raises
+    ------
+    ValueError
+        ``n`` is not a whole number.
+
+    References
+    ----------
+    Common practice (static scheduling of equal work over threads).
     """
     threads = numba.get_num_threads()
     per_lanes = max(1, -(-int(n) // LANES))
