@@ -109,9 +109,8 @@ def connect_torus_to_orbit(torus, orbit, section, n_points=100, *, branch_a="int
     >>> from cr3bp import system
     >>> from cr3bp.tori.torus import Torus
     >>> em = system("earth-moon")
-    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
-    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
-    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.torus import example_torus
+    >>> t = example_torus()                 # hand-made, not solved
     >>> from cr3bp.tori.connections import connect_torus_to_orbit
     >>> connect_torus_to_orbit(t, None, "vx=0")
     Traceback (most recent call last):
@@ -168,9 +167,8 @@ def connect_orbit_to_torus(orbit, torus, section, n_points=100, *, branch_a="int
     >>> from cr3bp import system
     >>> from cr3bp.tori.torus import Torus
     >>> em = system("earth-moon")
-    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
-    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
-    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.torus import example_torus
+    >>> t = example_torus()                 # hand-made, not solved
     >>> from cr3bp.tori.connections import connect_orbit_to_torus
     >>> connect_orbit_to_torus(None, t, "vx=0")
     Traceback (most recent call last):
@@ -323,9 +321,8 @@ def connect_torus_to_torus(torus_a, torus_b, section, n_points=100, *, branch_a=
     >>> from cr3bp import system
     >>> from cr3bp.tori.torus import Torus
     >>> em = system("earth-moon")
-    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
-    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
-    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.torus import example_torus
+    >>> t = example_torus()                 # hand-made, not solved
     >>> from cr3bp.tori.connections import connect_torus_to_torus
     >>> connect_torus_to_torus(t, t, "vx=0")
     Traceback (most recent call last):

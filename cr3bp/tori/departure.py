@@ -59,9 +59,8 @@ class TorusPoints:
     >>> from cr3bp import system
     >>> from cr3bp.tori.torus import Torus
     >>> em = system("earth-moon")
-    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
-    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
-    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.torus import example_torus
+    >>> t = example_torus()                 # hand-made, not solved
     >>> from cr3bp.tori.departure import TorusPoints
     >>> TorusPoints(t).at(0.25, 0.5).shape
     (6,)
@@ -258,9 +257,8 @@ def design_torus_departure(torus, altitude_km: float = 200.0, *, inclination_deg
     >>> from cr3bp import system
     >>> from cr3bp.tori.torus import Torus
     >>> em = system("earth-moon")
-    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
-    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
-    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.torus import example_torus
+    >>> t = example_torus()                 # hand-made, not solved
     >>> from cr3bp.tori.departure import design_torus_departure
     >>> design_torus_departure(t, 5.0)
     Traceback (most recent call last):

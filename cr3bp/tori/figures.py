@@ -33,9 +33,8 @@ def plot_family(fam, title=None):
     >>> from cr3bp import system
     >>> from cr3bp.tori.torus import Torus
     >>> em = system("earth-moon")
-    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
-    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
-    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1", amplitude_lu=1e-3)
+    >>> from cr3bp.tori.torus import example_torus
+    >>> t = example_torus(amplitude_lu=1e-3)                 # hand-made, not solved
     >>> from cr3bp.tori.family import TorusFamily
     >>> from cr3bp.tori.figures import plot_family
     >>> fig = plot_family(TorusFamily((t, t), "jacobi", "members"))
@@ -122,9 +121,8 @@ def interactive_figure(torus, name=None, n_circle=48, n_time=160, fig=None, colo
     >>> from cr3bp import system
     >>> from cr3bp.tori.torus import Torus
     >>> em = system("earth-moon")
-    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
-    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
-    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1", amplitude_lu=1e-3)
+    >>> from cr3bp.tori.torus import example_torus
+    >>> t = example_torus(amplitude_lu=1e-3)                 # hand-made, not solved
     >>> from cr3bp.tori.figures import interactive_figure
     >>> fig = interactive_figure(t, n_circle=5, n_time=4)
     >>> "torus surface" in " ".join(tr.name for tr in fig.data)

@@ -64,9 +64,8 @@ class TorusModes:
     >>> from cr3bp import system
     >>> from cr3bp.tori.torus import Torus
     >>> em = system("earth-moon")
-    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
-    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
-    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.torus import example_torus
+    >>> t = example_torus()                 # hand-made, not solved
     >>> from cr3bp.tori.manifolds import modes
     >>> m = modes(t)                                      # a TorusModes
     >>> m.modulus_unstable > 1 > m.modulus_stable, m.unstable.shape
@@ -123,9 +122,8 @@ def modes(torus) -> TorusModes:
     >>> from cr3bp import system
     >>> from cr3bp.tori.torus import Torus
     >>> em = system("earth-moon")
-    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
-    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
-    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.torus import example_torus
+    >>> t = example_torus()                 # hand-made, not solved
     >>> from cr3bp.tori.manifolds import modes
     >>> round(modes(t).modulus_unstable * modes(t).modulus_stable, 3)   # reciprocal pair
     1.0
@@ -178,9 +176,8 @@ class TorusTube(Tube):
     >>> from cr3bp import system
     >>> from cr3bp.tori.torus import Torus
     >>> em = system("earth-moon")
-    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
-    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
-    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.torus import example_torus
+    >>> t = example_torus()                 # hand-made, not solved
     >>> from cr3bp.tori.manifolds import grow_tube
     >>> tube = grow_tube(t, "unstable", "interior", 4, until="time:1d")
     >>> tube.to_dict()["kind"], len(tube.circle_phase)
@@ -284,9 +281,8 @@ def manifold_starts(torus, stability: str, branch: str, n_points: int = 200, ste
     >>> from cr3bp import system
     >>> from cr3bp.tori.torus import Torus
     >>> em = system("earth-moon")
-    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
-    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
-    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.torus import example_torus
+    >>> t = example_torus()                 # hand-made, not solved
     >>> from cr3bp.tori.manifolds import manifold_starts
     >>> out = manifold_starts(t, "unstable", "interior", 20)
     >>> out[5].shape                                   # start states on the 4 x 5 grid
@@ -355,9 +351,8 @@ def describe(torus) -> str:
     >>> from cr3bp import system
     >>> from cr3bp.tori.torus import Torus
     >>> em = system("earth-moon")
-    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
-    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
-    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.torus import example_torus
+    >>> t = example_torus()                 # hand-made, not solved
     >>> from cr3bp.tori.manifolds import describe
     >>> describe(t)
     'L1 torus C=3.180000'
@@ -403,9 +398,8 @@ def grow_tube(torus, stability: str, branch: str, n_points: int = 200, until=Non
     >>> from cr3bp import system
     >>> from cr3bp.tori.torus import Torus
     >>> em = system("earth-moon")
-    >>> u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)  # hand-made, not solved
-    >>> t = Torus(system=em, circle=u, stroboscopic_time=2.7, rotation=0.3, jacobi=3.18,
-    ...           jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    >>> from cr3bp.tori.torus import example_torus
+    >>> t = example_torus()                 # hand-made, not solved
     >>> from cr3bp.tori.manifolds import grow_tube
     >>> tube = grow_tube(t, "stable", "exterior", 4, until="time:1d")
     >>> tube.stability, tube.branch

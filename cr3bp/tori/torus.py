@@ -9,13 +9,14 @@ N`` on the section ``theta_0 = 0``), the stroboscopic time ``T`` and the rotatio
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
 from ..errors import ConvergenceError, InputError, NoSolutionError, StateError
 from ..integrate import propagate_batch
 from ..integrate.propagate import batch_kernel
+from ..systems import system as _system
 from ..validate import positive_number
 from ..vocabulary import COLLINEAR_POINTS
 from . import circle, seeds, solver
@@ -397,6 +398,41 @@ def _orbit_summary(orbit) -> dict:
 #: each extreme refined by a quadratic through its 3 x 3 neighbourhood of samples.
 GEOMETRY_POINTS = 45
 GEOMETRY_SAMPLES = 96
+
+
+def example_torus(**changes) -> "Torus":
+    """A hand-made torus for examples: five points near the Earth-Moon L1 point as its circle,
+    stroboscopic time 2.7 TU, rotation 0.3 rad, Jacobi constant 3.18. It is NOT a solved
+    invariant torus: it only gives the documentation's examples something cheap to work on.
+
+    Parameters
+    ----------
+    **changes
+        Fields to set otherwise (:func:`dataclasses.replace`), e.g. ``amplitude_lu=1e-3``.
+
+    Returns
+    -------
+    Torus
+
+    Raises
+    ------
+    TypeError
+        A name that is not a field of :class:`Torus`.
+
+    Examples
+    --------
+    >>> t = example_torus()
+    >>> t.circle.shape, t.point
+    ((5, 6), 'L1')
+
+    References
+    ----------
+    Common practice (one shared example object instead of a copy in every docstring).
+    """
+    u = np.tile([0.8369, 0, 0, 0, 0, 0], (5, 1)) + 1e-3 * np.eye(5, 6)
+    t = Torus(system=_system("earth-moon"), circle=u, stroboscopic_time=2.7, rotation=0.3,
+              jacobi=3.18, jacobi_spread=0.0, invariance_error=0.0, point="L1")
+    return replace(t, **changes) if changes else t
 
 
 def build(system, u, T, rho, err, tol=INVARIANCE_TOL, samples=GEOMETRY_SAMPLES,
