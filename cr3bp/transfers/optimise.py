@@ -850,7 +850,6 @@ def optimise_transfer(orbit_from, orbit_to, start: Start | None = None, *, impul
     scale = max(start.dv_mps / system.mps(1.0), 1e-4) if system.dimensional else 1.0   # objective ~1 at the start
     tof0 = min(start.tof, max_tof)
     n = segments or int(np.clip(math.ceil(tof0 / SEGMENT_TU), MIN_SEGMENTS, MAX_SEGMENTS))
-    durations = [d for _, d in start.arcs]
     if impulses == 3 and len(start.arcs) == 1:        # mid-course impulse starts at zero, mid-way
         s0, d0 = start.arcs[0]
         half = propagate(system, s0, d0 / 2, rtol=RTOL, atol=ATOL).final_state
