@@ -776,7 +776,8 @@ def parking_node(name: str, system, body: str, altitude, inclination=None, path=
     Raises
     ------
     InputError
-        Not a primary, an altitude that is not a positive length, an inclination outside
+        Not a primary, an altitude that is not a positive length (or an Earth parking orbit
+        below 100 km, or above 50 000 km for a departure path), an inclination outside
         0..180 degrees, or a path that is not a departure path or not from the Earth.
 
     Examples
@@ -797,6 +798,7 @@ def parking_node(name: str, system, body: str, altitude, inclination=None, path=
     alt = units.parse(altitude, "length").si()
     if not alt > 0:
         raise InputError(f"altitude {shown(altitude)} must be positive")
+    validate.parking_altitude_km(body, alt, path)
     if path is not None:
         if path not in CR3BP_DEPARTURE_PATHS:
             raise InputError(f"departure path '{shown(path)}' is not one of {', '.join(CR3BP_DEPARTURE_PATHS)}")
