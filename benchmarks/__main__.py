@@ -13,11 +13,16 @@ text is one of:
 
 ``seconds`` may be None for a row that was skipped (its target text says why). The command
 always exits 0: the table is a report, not a gate.
+
+Each row also shows the machine's one-minute load average when its module started: on a
+shared machine a wall-time goal can be missed for want of a core, not of speed, and the reader
+needs to see that (the rows that matter also report processor time in their names or texts).
 """
 
 from __future__ import annotations
 
 import importlib
+import os
 import pkgutil
 import re
 import sys
@@ -65,23 +70,25 @@ def main(argv=None) -> int:
             continue
         t0 = time.perf_counter()
         mod = importlib.import_module(f"benchmarks.{name}")
-        print(f"running {name} ...", file=sys.stderr, flush=True)
+        load = os.getloadavg()[0]
+        print(f"running {name} (load {load:.1f}) ...", file=sys.stderr, flush=True)
         for row in mod.run():
-            rows.append((name, *row))
+            rows.append((name, load, *row))
         print(f"  {name} done in {time.perf_counter() - t0:.1f} s", file=sys.stderr, flush=True)
-    header = ("benchmark", "seconds", "baseline", "baseline s", "ratio", "target", "met")
+    header = ("benchmark", "seconds", "baseline", "baseline s", "ratio", "target", "met", "load")
     table = []
-    for module, name, sec, base, base_sec, target in rows:
+    for module, load, name, sec, base, base_sec, target in rows:
         ratio, verdict = judge(sec, base_sec, target)
         table.append((name, _fmt_s(sec), base or "-", _fmt_s(base_sec),
-                      "-" if ratio is None else f"{ratio:.1f}x", target or "-", verdict))
+                      "-" if ratio is None else f"{ratio:.1f}x", target or "-", verdict, f"{load:.1f}"))
     widths = [max(len(str(r[i])) for r in [header] + table) for i in range(len(header))]
     print("  ".join(h.ljust(w) for h, w in zip(header, widths)))
     print("  ".join("-" * w for w in widths))
     for r in table:
         print("  ".join(str(c).ljust(w) for c, w in zip(r, widths)))
-    print("\nTimes are medians of repeated runs on this machine, after the first compile; the "
-          "machine may be shared, so compare the ratios, which are measured in the same run.")
+    print(f"\nTimes are medians of repeated runs on this machine ({os.cpu_count()} cores), after the "
+          "first compile; the machine may be shared (the load column: its one-minute load average "
+          "when the row's module started), so compare the ratios, which are measured in the same run.")
     return 0
 
 

@@ -19,6 +19,7 @@ import numpy as np
 
 from . import units
 from .errors import InputError, StateError, shown, UnitError
+from .vocabulary import DEPARTURE_ALTITUDE_KM, DEPARTURE_PATHS
 
 RTOL_RANGE = (1e-14, 1e-3)
 
@@ -626,6 +627,63 @@ def quantity(name: str, text, dimension: str, system=None, *, sign: str = "any",
     if sign == "nonnegative" and not q.value >= 0:
         raise InputError(f"{name} '{_show(text)}' must not be negative")
     return float(v)
+
+
+def parking_altitude_km(body: str, altitude_km: float, path: str | None = None) -> float:
+    """The altitude of a parking orbit about ``body``, checked for what will be asked of it.
+
+    An Earth parking orbit must be at least 100 km up (lower, the atmosphere ends an orbit at
+    once: common practice); one a departure path leaves (``path`` one of
+    :data:`cr3bp.vocabulary.DEPARTURE_PATHS`) at most 50 000 km
+    (:data:`cr3bp.vocabulary.DEPARTURE_ALTITUDE_KM`). Other bodies: any positive altitude.
+
+    Parameters
+    ----------
+    body : str
+        The primary's name, lower case (``"earth"``, ``"moon"``, ...).
+    altitude_km : float
+        Altitude above the body's mean radius, km.
+    path : str or None
+        The departure path the orbit is left by; None or ``"auto"``: the graph's choice.
+
+    Returns
+    -------
+    float
+        ``altitude_km``.
+
+    Raises
+    ------
+    InputError
+        Not positive, an Earth parking orbit below 100 km, or above 50 000 km for a departure path.
+
+    Examples
+    --------
+    >>> from cr3bp.validate import parking_altitude_km
+    >>> parking_altitude_km("earth", 200.0, "direct")
+    200.0
+    >>> parking_altitude_km("moon", 20.0)
+    20.0
+    >>> parking_altitude_km("earth", 60.0)
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: Earth parking orbit at 60 km: below 100 km no orbit lasts; allowed: 100 km and up
+
+    References
+    ----------
+    Vallado, *Fundamentals of Astrodynamics and Applications*, 4th ed., 2013, ch. 8 (atmospheric
+    drag; from memory): below about 100-150 km a satellite re-enters within hours to days.
+    """
+    alt = float(altitude_km)
+    lo, hi = DEPARTURE_ALTITUDE_KM
+    if not (math.isfinite(alt) and alt > 0):
+        raise InputError(f"parking orbit altitude {alt:g} km must be a positive length")
+    if body == "earth" and alt < lo:
+        raise InputError(f"Earth parking orbit at {alt:g} km: below {lo:g} km no orbit lasts; "
+                         f"allowed: {lo:g} km and up")
+    if body == "earth" and path in DEPARTURE_PATHS and alt > hi:
+        raise InputError(f"Earth parking orbit at {alt:g} km for the '{path}' path; allowed: "
+                         f"{lo:g} km to {hi:g} km")
+    return alt
 
 
 def plain_text(name: str, text, max_len: int = 200) -> str:

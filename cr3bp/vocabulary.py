@@ -71,6 +71,11 @@ TORUS_TARGETS = ("ay", "az", "amplitude", "jacobi", "period", "frequency-ratio")
 #: the bicircular model (:mod:`cr3bp.transfers.low_energy`).
 CR3BP_DEPARTURE_PATHS = ("direct", "lunar-flyby")
 DEPARTURE_PATHS = CR3BP_DEPARTURE_PATHS + ("low-energy",)
+#: Altitudes (km) of an Earth parking orbit a departure path is designed from. Below about
+#: 100 km no orbit lasts (the atmosphere; common practice), so no Earth parking orbit is lower;
+#: above 50 000 km the departure's first guesses (a near-Hohmann arc from a low orbit) do not
+#: apply, so the departure paths refuse it (a manifold leg may still reach a higher orbit).
+DEPARTURE_ALTITUDE_KM = (100.0, 50_000.0)
 
 # ---- frames, centres, time -----------------------------------------------------------------
 

@@ -136,6 +136,12 @@ CASES = [
     ("parking-two-words", R("parking earth 200km", "parking earth"), "transfers[0].from"),
     ("parking-1e309", R("parking earth 200km", "parking earth 1e309km"), "transfers[0].from"),
     ("parking-speed", R("parking earth 200km", "parking earth 200m/s"), "transfers[0].from"),
+    # an Earth parking orbit below 100 km (common practice: the atmosphere), or one a departure
+    # path cannot leave (above 50 000 km): found by --check-only, not after minutes of design
+    ("parking-below-atmosphere", R("parking earth 200km", "parking earth 60km"),
+     "transfers[0].from: 'parking earth 60km': Earth parking orbit at 60 km: below 100 km"),
+    ("parking-too-high-for-direct", R("parking earth 200km", "parking earth 60000km"),
+     "Earth parking orbit at 60000 km for the 'direct' path; allowed: 100 km to 50000 km"),
     ("transfer-to-unknown", R('to = "relay"', 'to = "nowhere"'), "'nowhere'"),
     ("transfer-via-unknown", R('to = "relay"', 'to = "relay"\nvia = ["nowhere"]'), "'nowhere'"),
     ("transfer-to-itself", R('to = "relay"', 'to = "parking earth 200km"'), "transfers[0].to"),
@@ -358,6 +364,8 @@ def test_generated_quantities(x, which):
     rc, err = _check_only(BASE_S.replace(old, pattern.format(written)))
     zero_ok = key.endswith("min_altitude_smaller")
     valid = math.isfinite(x) and (x > 0 or (zero_ok and x == 0))
+    if key == "transfers[0].from":          # an Earth parking orbit left by the 'direct' path
+        valid = math.isfinite(x) and 100.0 <= x <= 50_000.0
     if valid:
         assert rc == 0, err
     else:

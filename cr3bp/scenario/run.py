@@ -25,7 +25,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .. import __version__, units
+from .. import __version__, units, validate
 from ..systems import system as make_system
 from . import schema
 from ..io.atomic import write_text
@@ -331,7 +331,7 @@ def _check_values(data, system, add):
             add(f"transfers[{i}].to", InputError(f"'{shown(t['to'])}' is also where the transfer starts"))
         for k in ("from", "to"):
             if t[k].startswith("parking "):
-                _check_parking(f"transfers[{i}].{k}", t[k], system, add)
+                _check_parking(f"transfers[{i}].{k}", t[k], system, add, t.get("path") if k == "from" else None)
         if t.get("path") in CR3BP_DEPARTURE_PATHS:    # 'low-energy': scenario.schema says it
             _check_departure_path(f"transfers[{i}].path", t, system, add)
     exports = data.get("exports", [])
@@ -426,8 +426,10 @@ def _check_departure_path(key, transfer, system, add):
                             "(remove 'path', or start from e.g. 'parking earth 200km')"))
 
 
-def _check_parking(key, text, system, add):
-    """'parking BODY ALTITUDE': three words, a primary of the system, a positive length."""
+def _check_parking(key, text, system, add, path=None):
+    """'parking BODY ALTITUDE': three words, a primary of the system, a positive length, an
+    altitude the orbit can have and its departure ``path`` can leave
+    (:func:`cr3bp.validate.parking_altitude_km`)."""
     parts = text.split()
     if len(parts) != 3:
         add(key, InputError(f"'{shown(text)}' must read 'parking BODY ALTITUDE', e.g. 'parking earth 200km'"))
@@ -437,7 +439,14 @@ def _check_parking(key, text, system, add):
         if parts[1].lower() not in names:
             add(key, InputError(f"body '{shown(parts[1])}' in '{shown(text)}' is not a primary of "
                                 f"{system.name}; allowed: {', '.join(names)}"))
-    _quantity(key, parts[2], "length", "positive", system, add)
+            return
+    if _quantity(key, parts[2], "length", "positive", system, add) is None or system is None \
+            or not system.dimensional:
+        return
+    try:
+        validate.parking_altitude_km(parts[1].lower(), units.parse(parts[2], "length").si(), path)
+    except InputError as e:
+        add(key, InputError(f"'{shown(text)}': {e}"))
 
 
 def planned_files(data) -> dict:

@@ -47,7 +47,7 @@ from ..tubes.connections import connect
 from ..tubes.manifolds import Stop, describe, grow_tube
 from ..tubes.parking import parking_legs
 from ..tubes.sections import primary_index
-from ..vocabulary import TUBE_BRANCHES
+from ..vocabulary import CR3BP_DEPARTURE_PATHS, TUBE_BRANCHES
 from .departure import as_leg, design_departure
 from .leg import LEG_FORMAT, Leg
 from .nodes import BoundaryNode, OrbitNode, ParkingNode, node_state
@@ -847,9 +847,12 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
         if why is None and low_energy and getattr(b, "is_torus", False):
             why = (f"torus node '{b.name}': low-energy legs to a torus are not designed (a direct "
                    "departure to a torus is)")
-        if why is None and isinstance(a, ParkingNode) and getattr(a, "path", None) not in (None, "direct") \
-                and getattr(b, "is_torus", False):
-            why = (f"torus node '{b.name}': a '{a.path}' departure to a torus is not designed (a direct "
+        # the departure path asked for: the edge's ('direct', 'lunar-flyby'), else the node's
+        # (a scenario's 'path'); None: the graph's choice
+        asked = (h.path if h and h.path in CR3BP_DEPARTURE_PATHS else getattr(a, "path", None)) \
+            if isinstance(a, ParkingNode) else None
+        if why is None and asked not in (None, "direct") and getattr(b, "is_torus", False):
+            why = (f"torus node '{b.name}': a '{asked}' departure to a torus is not designed (a direct "
                    "departure to a torus is)")
         sa, sb = states[a.id], states[b.id]
         maneuvers = h.maneuvers if h else "ends"
@@ -877,8 +880,8 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
                         "max_patch_dv_mps": h.max_patch_dv_mps if h else None, "tube_points": PARKING_POINTS}
             if low_energy:       # (only then: the keys of the other parking legs stay as they were)
                 settings.update(path="low-energy", launch_tdb_s=h.launch_tdb_s)
-            elif park.path is not None and park is a:    # a departure path asked for (a scenario's 'path')
-                settings["path"] = park.path
+            elif asked is not None and park is a:        # a departure path asked for (edge or scenario)
+                settings["path"] = asked
         elif h and h.sections and isinstance(a, OrbitNode) and isinstance(b, OrbitNode):
             # manifold connection on the hinted section(s): unstable tube of a, stable of b
             method = "manifold"

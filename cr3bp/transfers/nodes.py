@@ -41,15 +41,16 @@ from ..io import toml_schema as schema_mod
 from .. import units, validate
 from ..errors import InputError, UnitError, shown
 from ..orbits.request import parse_request
-from ..vocabulary import CR3BP_DEPARTURE_PATHS, HALO_BRANCHES
+from ..vocabulary import CR3BP_DEPARTURE_PATHS, DEPARTURE_PATHS, HALO_BRANCHES
 
 #: Largest node list read (characters): far above any real one, it keeps a hostile file cheap.
 MAX_NODE_LIST_CHARS = 2_000_000
 KINDS = ("orbit", "parking", "state", "capture", "escape")
 MANEUVERS = ("ends", "none")
 #: How a leg from a parking orbit is made: "auto" (a manifold leg through periapsis, else a
-#: direct departure) or "low-energy" (cr3bp.transfers.low_energy, the bicircular model).
-PARKING_PATHS = ("auto", "low-energy")
+#: direct departure), "direct" or "lunar-flyby" (cr3bp.transfers.departure, the CR3BP) or
+#: "low-energy" (cr3bp.transfers.low_energy, the bicircular model).
+PARKING_PATHS = ("auto",) + DEPARTURE_PATHS
 
 NODE_KEYS = {
     "name": ("str", True, "name of the node, used by edges and --from/--to"),
@@ -72,8 +73,9 @@ EDGE_KEYS = {
     "tof": ("quantity", False, "time of flight of a targeted leg, e.g. '4d'"),
     "both_ways": ("bool", False, "also compute the leg in the other direction (default true)"),
     "path": ("one-of:" + "|".join(PARKING_PATHS), False,
-             "from an Earth parking orbit to an Earth-Moon orbit: 'auto' (manifold or direct departure) or "
-             "'low-energy' (the Sun's pull, bicircular model)"),
+             "from an Earth parking orbit to an Earth-Moon orbit: 'auto' (manifold or direct departure), "
+             "'direct' or 'lunar-flyby' (departures designed in the CR3BP) or 'low-energy' (the Sun's pull, "
+             "bicircular model)"),
     "launch": ("str", False, "with path = 'low-energy': the launch date, ISO 8601 (default: the Sun's phase "
                              "is searched)"),
 }
@@ -649,8 +651,9 @@ def low_energy_ends(system, nodes, names, edge: dict, path: str):
     Raises
     ------
     InputError
-        The ends are not an Earth parking orbit and an Earth-Moon periodic orbit, or a launch
-        date without the low-energy path or outside the ephemeris.
+        The ends are not an Earth parking orbit and an Earth-Moon periodic orbit (low-energy;
+        'direct' and 'lunar-flyby': an Earth-Moon orbit, and a parking altitude the path can
+        leave), or a launch date without the low-energy path or outside the ephemeris.
 
     Examples
     --------
@@ -663,6 +666,8 @@ def low_energy_ends(system, nodes, names, edge: dict, path: str):
     ----------
     Parker & Anderson, *Low-Energy Lunar Trajectory Design*, 2013, ch. 3 (from memory).
     """
+    if path in CR3BP_DEPARTURE_PATHS:
+        _departure_ends(system, nodes, edge, path)
     if path != "low-energy":
         if "launch" in edge:
             raise InputError("'launch' goes with path = 'low-energy' only (a launch date sets the Sun's phase)")
@@ -682,6 +687,20 @@ def low_energy_ends(system, nodes, names, edge: dict, path: str):
     epoch = epoch_from_text(edge["launch"])
     sun_phase_at(epoch, system)                # a date outside the ephemeris is refused here
     return float(epoch)
+
+
+def _departure_ends(system, nodes, edge, path):
+    """An edge's 'direct' or 'lunar-flyby' path leaves an Earth parking orbit (Earth-Moon) that
+    the path can leave, for an Earth-Moon orbit (InputError otherwise)."""
+    byname = {n.name: n for n in nodes}
+    a, b = byname.get(edge["from"]), byname.get(edge["to"])
+    if a is None or b is None:
+        return                                    # reported on its own line
+    if not (isinstance(a, ParkingNode) and a.body == "earth" and system.name == "earth-moon"
+            and isinstance(b, OrbitNode)):
+        raise InputError(f"path '{path}' leaves an Earth parking orbit for an Earth-Moon orbit "
+                         f"(earth-moon system); not {a.kind} '{shown(a.name)}' -> {b.kind} '{shown(b.name)}'")
+    validate.parking_altitude_km(a.body, a.altitude_km, path)
 
 
 def _node(t: dict, system):
@@ -776,7 +795,8 @@ def parking_node(name: str, system, body: str, altitude, inclination=None, path=
     Raises
     ------
     InputError
-        Not a primary, an altitude that is not a positive length, an inclination outside
+        Not a primary, an altitude that is not a positive length (or an Earth parking orbit
+        below 100 km, or above 50 000 km for a departure path), an inclination outside
         0..180 degrees, or a path that is not a departure path or not from the Earth.
 
     Examples
@@ -797,6 +817,7 @@ def parking_node(name: str, system, body: str, altitude, inclination=None, path=
     alt = units.parse(altitude, "length").si()
     if not alt > 0:
         raise InputError(f"altitude {shown(altitude)} must be positive")
+    validate.parking_altitude_km(body, alt, path)
     if path is not None:
         if path not in CR3BP_DEPARTURE_PATHS:
             raise InputError(f"departure path '{shown(path)}' is not one of {', '.join(CR3BP_DEPARTURE_PATHS)}")
