@@ -173,3 +173,10 @@ def test_blocks_cover_the_batch():
         b = lanes.blocks(n)
         assert 1 <= b <= max(1, -(-n // lanes.LANES))
         assert b >= min(numba.get_num_threads(), -(-n // lanes.LANES))
+
+
+def test_the_written_out_stages_are_the_methods():
+    """The lane step writes its stages out one by one; they must be the method's stages
+    (Hairer, Norsett & Wanner 1993, section II.5: DOP853 has 12 stages, the last one FSAL)."""
+    from cr3bp.integrate import coefficients
+    assert lanes._STAGES_WRITTEN_OUT == coefficients.N_STAGES == 12
