@@ -182,7 +182,6 @@ def _run(args):
     from cr3bp.io import export
     from cr3bp.time import frames
     from cr3bp.operations import phasing, placement, visibility
-    from cr3bp.orbits.request import solve_request
 
     sysm, bodies, step_s, phase, n_phases, max_min, stations, epochs = _inputs(args)
     if args.trajectory is not None:
@@ -196,14 +195,14 @@ def _run(args):
         ends.append(epochs[-1] + export.parse_span(args.span, sysm) * sysm.time_s)
     for body in ("sun", "moon"):
         ephemeris.position(body, frames._epoch(np.array(ends)), "earth")
+    from cr3bp import api
     if args.torus is not None:
-        from cr3bp.tori import request as treq
         common.progress(args, f"solving torus request '{args.torus}'...")
-        orbit = treq.solve(sysm, args.torus, progress=lambda m: common.progress(args, m))
+        orbit = api.torus(sysm, args.torus, progress=lambda m: common.progress(args, m))
         period, request, model_text = float(orbit.stroboscopic_time), args.torus, TORUS_MODEL
     else:
         common.progress(args, f"solving orbit request '{args.orbit}'...")
-        orbit = solve_request(sysm, args.orbit)
+        orbit = api.orbit(sysm, args.orbit)
         period, request, model_text = float(orbit.period), args.orbit, MODEL
     span_tu = export.parse_span(args.span, sysm, period)
     span_s = span_tu * sysm.time_s
