@@ -36,7 +36,7 @@ from .units import length
 
 __all__ = ["system", "points", "orbit", "orbit_request", "family", "manifold", "section", "connect", "optimise", "route",
            "trajectory", "export", "run", "torus", "shadow", "keep", "disperse", "propagate_state", "zvc",
-           "catalog_list", "catalog_show", "catalog_remove"]
+           "catalog_list", "catalog_show", "catalog_remove", "read_trajectory"]
 
 
 # ---- helpers ---------------------------------------------------------------------------
@@ -2189,3 +2189,49 @@ def catalog_remove(family_id, catalog=None):
     fid = _family_id(family_id)
     _catalog_call(catalog, lambda cat: cat.remove_family(fid))
     return fid
+
+
+# ---- trajectory files ------------------------------------------------------------------
+
+def read_trajectory(path, *, fmt=None):
+    """A trajectory file read back: CCSDS OEM (KVN or XML), CSV or JSON as :func:`export`
+    writes them (``librate convert``, ``librate export --from``).
+
+    Parameters
+    ----------
+    path : str or path-like
+        The file.
+    fmt : {"oem", "xml", "csv", "json"}, optional
+        Its format (default from the suffix, or a look at the first line).
+
+    Returns
+    -------
+    cr3bp.io.export.ReadResult
+        ``.header``, ``.segments`` (epochs and states as written), ``.time_system``, ``.frame``
+        (the CR3BP frame the file describes, or None for a file that does not say),
+        ``.maneuvers``, ``.to_dict()``; :func:`cr3bp.io.export.trajectory_from` makes it a
+        trajectory :func:`export` writes again.
+
+    Raises
+    ------
+    InputError
+        A missing file, an unknown format, a malformed file (one line naming the file and the
+        line).
+
+    Examples
+    --------
+    >>> import cr3bp, tempfile, os
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     path = cr3bp.export([1.1805031, 0, -0.02, 0, -0.1581343, 0], os.path.join(d, "a.csv"), system="earth-moon",
+    ...                         epoch="2031-03-01T00:00:00Z", span="1d", step="6h")
+    ...     data = cr3bp.read_trajectory(path)
+    ...     data.format, len(data.segments[0].epochs), data.frame.system.name
+    ('csv', 5, 'earth-moon')
+
+    References
+    ----------
+    CCSDS 502.0-B-3, "Orbit Data Messages", Blue Book, Consultative Committee for Space Data
+    Systems, 2023 (the OEM); RFC 4180 (CSV); RFC 8259 (JSON).
+    """
+    from .io import export as ex  # lazy: start-up: keeps cr3bp.api free of numpy
+    return ex.read(path, fmt)

@@ -292,6 +292,21 @@ def test_catalog_calls_match_the_cli(capsys, tmp_path):
         cr3bp.catalog_show(1, path)
 
 
+def test_read_trajectory_reads_what_the_commands_write(capsys, tmp_path):
+    """The file ``librate export`` writes, read by the call, has the states ``librate convert``
+    writes from it (same frame: the numbers pass through unchanged to the file's precision)."""
+    oem, csv = tmp_path / "a.oem", tmp_path / "b.csv"
+    assert main(["export", "--system", "earth-moon", "--state", "1.1805031,0,-0.02,0,-0.1581343,0", "--epoch",
+                 EPOCH, "--span", "1d", "--step", "6h", "--out", str(oem), "-q"]) == 0
+    assert main(["convert", str(oem), str(csv), "-q"]) == 0
+    capsys.readouterr()
+    a, b = cr3bp.read_trajectory(oem), cr3bp.read_trajectory(csv)
+    assert a.format == "oem" and b.format == "csv" and len(a.segments[0].epochs) == 5
+    import numpy as np
+    np.testing.assert_allclose(a.segments[0].states, b.segments[0].states, rtol=1e-12, atol=1e-9)
+    assert a.frame.system.name == "earth-moon"
+
+
 # ---- bad input: the typed exception, one line naming the value --------------------------------
 
 BAD = [
@@ -344,6 +359,7 @@ BAD = [
     (lambda em, o: cr3bp.zvc(em, 3.1, region=True, resolution=3), "resolution 3"),
     (lambda em, o: cr3bp.zvc(em, 3.1, extent="1,2"), "extent"),
     (lambda em, o: cr3bp.catalog_show("x", "cat.sqlite"), "'x'"),
+    (lambda em, o: cr3bp.read_trajectory("no-such.oem"), "no-such.oem"),
 ]
 
 
