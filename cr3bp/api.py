@@ -25,7 +25,7 @@ from __future__ import annotations
 import math
 import os
 import sys
-from dataclasses import replace
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 from .errors import InputError
@@ -1503,7 +1503,8 @@ def _torus_amplitude(amplitude, sysm):
 
 
 def shadow(orbit, epoch, *, span="365d", step="5min", phase=0.0, bodies=("earth", "moon"),
-           avoid_eclipses=False, phases=36, max_eclipse=None, torus_phase=(0.0, 0.0)):
+           avoid_eclipses=False, phases=36, max_eclipse=None, torus_phase=(0.0, 0.0), until_epoch=None, epochs=8,
+           stations=(), report=False):
     """Eclipse passes of a periodic orbit or a torus trajectory placed at a date (``librate shadow``).
 
     The CR3BP orbit (or the trajectory on a torus from ``torus_phase``) is placed at ``epoch``
@@ -1532,23 +1533,38 @@ def shadow(orbit, epoch, *, span="365d", step="5min", phase=0.0, bodies=("earth"
     phases : int
         Phases of the scan, 1..720.
     max_eclipse : str, optional
-        With ``avoid_eclipses``: phases whose longest pass is at most this time (``"90min"``)
-        rank first.
+        With ``avoid_eclipses`` or ``until_epoch``: phases (start epochs) whose longest pass is
+        at most this time (``"90min"``) rank first.
     torus_phase : (float, float)
         For a torus: ``(theta0, theta1)`` at the epoch, degrees.
+    until_epoch : str, optional
+        Scan ``epochs`` start epochs evenly from ``epoch`` to this one (ISO 8601) and keep the
+        one with the least shadow time (``librate shadow --until-epoch``); with
+        ``avoid_eclipses`` the phases are scanned at every epoch.
+    epochs : int
+        Start epochs of that scan, 2..200.
+    stations : sequence of cr3bp.operations.visibility.Station
+        Ground stations whose windows of view the report gives
+        (:func:`cr3bp.operations.visibility.read_stations` reads them from TOML).
+    report : bool
+        Return the whole :class:`ShadowReport` (what ``librate shadow`` prints: the passes,
+        the scans, the Earth angles and the station windows) instead of the history.
 
     Returns
     -------
     cr3bp.operations.phasing.History or list of History
         One history (``.passes``, each with ``.to_dict()``: body, kind, start and end UTC,
         duration, depth; ``.total_min()``, ``.longest_min()``); with ``avoid_eclipses`` the
-        scan's histories, best first (``[0].phase_deg`` the phase chosen).
+        scan's histories, best first (``[0].phase_deg`` the phase chosen); with
+        ``until_epoch`` the history of the best start epoch (or its phase scan). With
+        ``report=True`` a :class:`ShadowReport`.
 
     Raises
     ------
     InputError
         Not Earth-Moon or Sun-Earth, a step outside 10 s..1 h, unknown bodies, an epoch outside
-        the ephemeris tables, ``max_eclipse`` without ``avoid_eclipses``.
+        the ephemeris tables, ``max_eclipse`` without ``avoid_eclipses`` or ``until_epoch``,
+        ``until_epoch`` not after ``epoch``.
 
     Examples
     --------
@@ -1566,7 +1582,7 @@ def shadow(orbit, epoch, *, span="365d", step="5min", phase=0.0, bodies=("earth"
     from .io import export as ex  # lazy: start-up: keeps cr3bp.api free of numpy
     from .operations import eclipses, phasing, placement  # lazy: start-up: keeps cr3bp.api free of numpy
     from .time import frames  # lazy: start-up: keeps cr3bp.api free of numpy
-    from .validate import finite_number, numbers  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .validate import finite_number, iso8601, numbers  # lazy: start-up: keeps cr3bp.api free of numpy
     sysm = _system_of(orbit)
     sysm.require_dimensional("eclipses at a date")
     if sysm.name not in ("earth-moon", "sun-earth"):
@@ -1583,8 +1599,8 @@ def shadow(orbit, epoch, *, span="365d", step="5min", phase=0.0, bodies=("earth"
     n_phases = _whole("phases", phases, 1, 720)
     max_min = None
     if max_eclipse is not None:
-        if not avoid_eclipses:
-            raise InputError("max_eclipse goes with avoid_eclipses=True")
+        if not (avoid_eclipses or until_epoch is not None):
+            raise InputError("max_eclipse goes with avoid_eclipses=True or until_epoch=")
         mq = units.parse(_text(max_eclipse), "time")
         max_min = (mq.nondim(sysm) * sysm.time_s if mq.unit == "TU" else mq.si()) / 60.0
         if not max_min >= 0:
@@ -1593,15 +1609,120 @@ def shadow(orbit, epoch, *, span="365d", step="5min", phase=0.0, bodies=("earth"
     tphase = numbers("torus_phase", torus_phase, 2, "THETA0,THETA1 (degrees)")
     period = float(orbit.stroboscopic_time if is_torus else orbit.period)
     t0 = frames.epoch_from_text(epoch)
-    span_s = ex.parse_span(str(span), sysm, period) * sysm.time_s
+    starts = [t0]
+    if until_epoch is not None:
+        last = frames.epoch_from_text(iso8601("until_epoch", until_epoch))
+        if not last > t0:
+            raise InputError(f"until_epoch '{until_epoch}' must be after epoch '{epoch}'")
+        n = _whole("epochs", epochs, 2, 200)
+        starts = [t0 + (last - t0) * k / (n - 1) for k in range(n)]
+    span_tu = ex.parse_span(str(span), sysm, period)
+    span_s = span_tu * sysm.time_s
     if span_s > 20 * 365.25 * 86400.0:
         raise InputError(f"span '{span}' is longer than 20 years")
-    placed = (placement.place_torus(sysm, orbit, t0, span_s / sysm.time_s, tphase) if is_torus
+    placed = (placement.place_torus(sysm, orbit, t0, span_tu, tphase) if is_torus
               else placement.place(sysm, orbit, t0))
+    epoch_scan = []
+    if len(starts) > 1:
+        epoch_scan = phasing.scan_epochs(placed, starts, span_s, step_s, phase_deg=phase_deg,
+                                         n_phases=n_phases if avoid_eclipses else None,
+                                         max_pass_min=max_min, bodies=bodies)
+        t0 = epoch_scan[0].epoch_tdb_s
+        placed = (placement.with_epoch(placed, t0) if is_torus      # the same sample, moved
+                  else placement.place(sysm, orbit, t0))
     sk = phasing.sky(placed, span_s, step_s)
-    if avoid_eclipses:
-        return phasing.scan(placed, sk, n_phases, max_min, bodies)
-    return phasing.history(placed, sk, phase_deg, bodies)
+    scan = []
+    if epoch_scan:
+        scan = list(epoch_scan[0].phases)
+        best = epoch_scan[0].best
+    elif avoid_eclipses:
+        scan = phasing.scan(placed, sk, n_phases, max_min, bodies)
+        best = scan[0]
+    else:
+        best = phasing.history(placed, sk, phase_deg, bodies)
+    if not report:
+        return scan if avoid_eclipses else best
+    angles = phasing.earth_angles(placed, sk, best.phase_deg)
+    wins = []
+    if stations:
+        from .operations import visibility  # lazy: start-up: keeps cr3bp.api free of numpy
+        m = visibility.terrestrial_matrices(sk.tdb_s)
+        for st in stations:
+            wins += visibility.windows(sk.tdb_s, angles["position_km"], st, m)
+    return ShadowReport(orbit=orbit, is_torus=is_torus, period=period, epoch_tdb_s=t0, span_s=span_s,
+                        step_s=step_s, bodies=bodies, placed=placed, sky=sk, best=best, phase_scan=tuple(scan),
+                        epoch_scan=tuple(epoch_scan), epochs_scanned=len(starts), angles=angles,
+                        windows=tuple(wins), stations=tuple(stations))
+
+
+@dataclass(frozen=True)
+class ShadowReport:
+    """Everything ``librate shadow`` reports of an orbit or torus at a date (made by
+    :func:`shadow` with ``report=True``).
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit or Torus
+    is_torus : bool
+    period : float
+        The orbit's period or the torus's stroboscopic time, TU (CR3BP).
+    epoch_tdb_s : float
+        The start (the best of the epoch scan when there was one), TDB seconds from J2000.
+    span_s, step_s : float
+        The span followed and the search step, seconds.
+    bodies : tuple of str
+        The occulting bodies counted.
+    placed : object
+        The placement at the epoch (:mod:`cr3bp.operations.placement`).
+    sky : cr3bp.operations.phasing.Sky
+        The sampled geometry.
+    best : cr3bp.operations.phasing.History
+        The passes of the phase given or chosen (``.phase_deg``, ``.passes``).
+    phase_scan : tuple of History
+        The phases scanned, best first (empty without a scan).
+    epoch_scan : tuple
+        The start epochs scanned, best first (empty without ``until_epoch``).
+    epochs_scanned : int
+    angles : dict
+        Sun-Earth-spacecraft and Moon-Earth-spacecraft angles (degrees), position and range
+        (km) over the span (:func:`cr3bp.operations.phasing.earth_angles`).
+    windows : tuple
+        Station windows of view.
+    stations : tuple
+        The stations.
+
+    Examples
+    --------
+    >>> from cr3bp.api import ShadowReport
+    >>> "phase_scan" in ShadowReport.__dataclass_fields__
+    True
+
+    References
+    ----------
+    Montenbruck and Gill, *Satellite Orbits*, 2000, §3.4.2 (conical shadow model).
+    """
+
+    orbit: object
+    is_torus: bool
+    period: float
+    epoch_tdb_s: float
+    span_s: float
+    step_s: float
+    bodies: tuple
+    placed: object
+    sky: object
+    best: object
+    phase_scan: tuple
+    epoch_scan: tuple
+    epochs_scanned: int
+    angles: dict
+    windows: tuple
+    stations: tuple
+
+    def __repr__(self):
+        h = self.best
+        return (f"<ShadowReport phase {h.phase_deg:g} deg: {len(h.passes)} eclipse passes, "
+                f"{h.total_min():.1f} min in shadow over {self.span_s / 86400.0:.4g} d (ephemeris geometry)>")
 
 
 def keep(orbit, epoch, *, span="365d", trials=200, nav_error=(1.0, 0.01), burn_error=(0.01, 0.001),

@@ -217,6 +217,19 @@ def test_shadow_phase_scan_matches_the_cli(capsys, l1):
     assert len(scan) == 4 and all(h.passes for h in scan)       # a scan with shadows to rank
 
 
+def test_shadow_report_matches_the_cli(capsys, l1):
+    """``report=True`` is what ``librate shadow`` prints: the epoch scan, the passes of the best
+    start, the Earth angles."""
+    d = cli_json(capsys, "shadow", "--system", "earth-moon", "--orbit", L1, "--epoch", EPOCH, "--span", "10d",
+                 "--until-epoch", "2031-04-01T00:00:00Z", "--epochs", "3", "-q")
+    rep = cr3bp.shadow(l1, EPOCH, span="10d", until_epoch="2031-04-01T00:00:00Z", epochs=3, report=True)
+    assert rep.epochs_scanned == 3 and len(rep.epoch_scan) == 3
+    assert _plain([c.to_dict() for c in rep.epoch_scan]) == d["epoch_scan"]
+    assert _plain([p.to_dict() for p in rep.best.passes]) == d["passes"]
+    assert rep.best.phase_deg == d["model"]["phase_deg"]
+    assert "eclipse passes" in repr(rep) and "\n" not in repr(rep)
+
+
 def test_keep_matches_the_cli(capsys, em):
     nrho = "halo L2 south resonance=9:2"
     d = cli_json(capsys, "keep", "--system", "earth-moon", "--orbit", nrho, "--epoch", EPOCH, "--span", "20d",
@@ -336,6 +349,8 @@ BAD = [
     (lambda em, o: cr3bp.shadow(o, EPOCH, step="1s"), "1s"),
     (lambda em, o: cr3bp.shadow(o, "1850-01-01T00:00:00Z", span="1d"), "1850"),
     (lambda em, o: cr3bp.shadow(o, EPOCH, span="1d", max_eclipse="30min"), "max_eclipse"),
+    (lambda em, o: cr3bp.shadow(o, EPOCH, span="1d", until_epoch="2030-01-01T00:00:00Z"), "2030-01-01"),
+    (lambda em, o: cr3bp.shadow(o, EPOCH, span="1d", until_epoch="2031-04-01T00:00:00Z", epochs=1), "epochs 1"),
     (lambda em, o: cr3bp.shadow(o, EPOCH, span="1d", avoid_eclipses=True, phases=0), "phases 0"),
     (lambda em, o: cr3bp.shadow(o, EPOCH, span="1d", avoid_eclipses=True, max_eclipse="-3min"), "-3min"),
     (lambda em, o: cr3bp.keep(o, EPOCH, trials=0), "trials 0"),
