@@ -25,7 +25,7 @@ from __future__ import annotations
 import math
 import os
 import sys
-from dataclasses import replace
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 from .errors import InputError
@@ -35,7 +35,8 @@ from .systems import System, system as _system
 from .units import length
 
 __all__ = ["system", "points", "orbit", "orbit_request", "family", "manifold", "section", "connect", "optimise", "route",
-           "trajectory", "export", "run", "torus", "shadow", "keep"]
+           "trajectory", "export", "run", "torus", "shadow", "keep", "disperse", "propagate_state", "zvc",
+           "catalog_list", "catalog_show", "catalog_remove", "read_trajectory"]
 
 
 # ---- helpers ---------------------------------------------------------------------------
@@ -1341,16 +1342,30 @@ def run(scenario, out, *, catalog=None, workers=None, scheduler=None, check_only
 
 # ---- tori and operations at a date -----------------------------------------------------
 
-def torus(orbit=None, amplitude=None, *, hold="jacobi", lissajous=None, members=None, progress=None,
+def torus(orbit=None, amplitude=None, *, around=None, hold="jacobi", lissajous=None, members=None, progress=None,
           catalog=None):
     """A quasi-periodic invariant torus about a periodic orbit, or a Lissajous torus (``librate torus``).
 
+    Four ways to name it: an orbit and an amplitude (``torus(o, "2000km")``); a system and a
+    torus request in words, as ``librate torus --request`` takes it (``torus(em, "lissajous L2
+    ay=300000km az=150000km")``, ``torus(em, "quasi-halo around halo L2 south resonance=9:2
+    amplitude=2000km")``: :mod:`cr3bp.tori.request`); a system, an orbit request and an
+    amplitude (``torus(em, "2000km", around="lyapunov L1 jacobi=3.15")``, as ``librate torus
+    --around``); or ``lissajous=(system, point, ay, az)``. With ``members`` a family of tori is
+    continued from the first; a torus given as ``orbit`` with ``members`` continues its family.
+
     Parameters
     ----------
-    orbit : PeriodicOrbit, optional
-        The orbit the torus surrounds (with ``amplitude``).
+    orbit : PeriodicOrbit, System, str or Torus, optional
+        The orbit the torus surrounds (with ``amplitude``); or the system (a System or its name)
+        of a torus named by request text (the second argument) or by ``around``; or a torus
+        whose family ``members`` continues.
     amplitude : str or float, optional
-        The torus's size about the orbit: ``"2000km"`` or LU (at most 0.2 LU).
+        The torus's size about the orbit: ``"2000km"`` or LU (at most 0.2 LU). After a system:
+        the torus request text, unless ``around`` is given.
+    around : str, optional
+        After a system: the orbit request (``"lyapunov L1 jacobi=3.15"``) the torus of size
+        ``amplitude`` grows about; the torus is kept in ``catalog`` under this text.
     hold : {"jacobi", "rotation", "period"}
         What is held fixed while the torus grows (default the Jacobi constant).
     lissajous : tuple, optional
@@ -1359,6 +1374,8 @@ def torus(orbit=None, amplitude=None, *, hold="jacobi", lissajous=None, members=
     members : int, optional
         Continue a family of this many tori (1..500) from the first.
     progress : callable, optional
+        Receives the steps: ``(step, amplitude_lu)`` while a torus grows about an orbit,
+        ``(member, torus)`` for a family, one line of text otherwise.
     catalog : cr3bp.catalog.Catalog, optional
         Read the torus and the family members from it when computed before, else keep them
         there as they converge (an interrupted family resumes: :mod:`cr3bp.tori.store`).
@@ -1371,8 +1388,10 @@ def torus(orbit=None, amplitude=None, *, hold="jacobi", lissajous=None, members=
     Raises
     ------
     InputError
-        Neither or both of an orbit and ``lissajous``; an amplitude that is not a positive
-        length or is over 0.2 LU.
+        Neither or several of an orbit, a system and ``lissajous``; request text it refuses; an
+        amplitude that is not a positive length or is over 0.2 LU.
+    NoSolutionError
+        A request whose torus cannot be reached.
     ConvergenceError
 
     Examples
@@ -1381,7 +1400,12 @@ def torus(orbit=None, amplitude=None, *, hold="jacobi", lissajous=None, members=
     >>> cr3bp.torus()
     Traceback (most recent call last):
     ...
-    cr3bp.errors.InputError: give an orbit with amplitude=, or lissajous=(system, point, ay, az)
+    cr3bp.errors.InputError: give an orbit with amplitude=, a system with a torus request, or lissajous=(system, point, ay, az)
+    >>> t = cr3bp.torus("sun-earth", "lissajous L2 ay=300000km az=150000km")  # doctest: +SKIP
+    >>> cr3bp.torus("earth-moon", "quasi-halo around lyapunov L1 jacobi=3.15 amplitude=2000km")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: a quasi-halo torus is about a halo orbit (or NRHO); 'lyapunov L1 jacobi=3.15' is a lyapunov orbit
 
     References
     ----------
@@ -1389,12 +1413,53 @@ def torus(orbit=None, amplitude=None, *, hold="jacobi", lissajous=None, members=
     eqs. 9-14 (the invariance circle); Baresi, Olikara and Scheeres (the continuation): see
     :mod:`cr3bp.tori`.
     """
-    if (orbit is None) == (lissajous is None):
-        raise InputError("give an orbit with amplitude=, or lissajous=(system, point, ay, az)")
     _one_of("hold", hold, ("jacobi", "rotation", "period"))
     if members is not None:
         members = _whole("members", members, 1, 500)
-    if lissajous is not None:
+    if orbit is not None and _is_torus(orbit):
+        if members is None or amplitude is not None or around is not None or lissajous is not None:
+            raise InputError("a torus given: members= (alone) continues its family")
+        from .tori import continue_family  # lazy: start-up: keeps cr3bp.api free of numpy
+        return continue_family(orbit, hold=hold, members=members, progress=progress, catalog=catalog)
+    by_system = isinstance(orbit, (System, str))
+    if (orbit is None) == (lissajous is None):
+        raise InputError("give an orbit with amplitude=, a system with a torus request, or lissajous=(system, point, "
+                         "ay, az)")
+    if around is not None and not by_system:
+        raise InputError("around= (an orbit request) goes with a system: torus(system, amplitude, around=...)")
+    if by_system and around is None:
+        from .tori import request as treq  # lazy: start-up: keeps cr3bp.api free of numpy
+        if amplitude is None:
+            raise InputError("after a system give the torus request, e.g. 'lissajous L2 ay=300000km az=150000km'")
+        sysm = _as_system(orbit)
+        spec = treq.parse(str(amplitude))
+        treq.values(sysm, spec)
+        if spec.around:
+            from .orbits.request import parse_request  # lazy: start-up: keeps cr3bp.api free of numpy
+            from .orbits.targets import make_target  # lazy: start-up: keeps cr3bp.api free of numpy
+            ospec = parse_request(spec.around)
+            if ospec.family != "halo":
+                raise InputError(f"a quasi-halo torus is about a halo orbit (or NRHO); "
+                                 f"'{spec.around}' is a {ospec.family} orbit")
+            make_target(sysm, ospec.key, ospec.value)
+        t = treq.solve(sysm, spec, catalog=catalog, progress=progress)
+    elif by_system:
+        from .orbits.request import parse_request  # lazy: start-up: keeps cr3bp.api free of numpy
+        from .orbits.targets import make_target  # lazy: start-up: keeps cr3bp.api free of numpy
+        from .tori import torus_around  # lazy: start-up: keeps cr3bp.api free of numpy
+        from .tori.store import cached_torus  # lazy: start-up: keeps cr3bp.api free of numpy
+        sysm = _as_system(orbit)
+        spec = parse_request(str(around))
+        if not spec.key:
+            raise InputError(f"around '{around}' has no target; e.g. \"halo L2 south resonance=9:2\" or "
+                             "\"lyapunov L1 ax=5000km\"")
+        make_target(sysm, spec.key, spec.value)
+        amp = _torus_amplitude(amplitude, sysm)
+        o = globals()["orbit"](sysm, spec, catalog=catalog)
+        t = cached_torus(catalog, sysm, o.point,
+                         {"kind": "around", "around": str(around), "amplitude_lu": amp, "hold": hold},
+                         lambda: torus_around(o, amp, hold=hold, progress=progress))
+    elif lissajous is not None:
         from .tori.lissajous import lissajous as _lissajous  # lazy: start-up: keeps cr3bp.api free of numpy
         if not (isinstance(lissajous, tuple) and len(lissajous) == 4):
             raise InputError("lissajous= is (system, point, ay, az), e.g. (em, 'L2', '5000km', '8000km')")
@@ -1414,12 +1479,7 @@ def torus(orbit=None, amplitude=None, *, hold="jacobi", lissajous=None, members=
         sysm = _system_of(orbit)
         if amplitude is None:
             raise InputError("a torus about an orbit needs amplitude= (e.g. '2000km')")
-        amp = length(_text(amplitude), sysm, default_unit="km")
-        if not amp > 0:
-            raise InputError(f"amplitude {amplitude!r} must be a positive length")
-        if amp > 0.2:
-            raise InputError(f"amplitude {amplitude!r} is larger than 0.2 of the distance between the primaries; "
-                             "tori that large are not attempted")
+        amp = _torus_amplitude(amplitude, sysm)
         from .tori.store import cached_torus  # lazy: start-up: keeps cr3bp.api free of numpy
         key = {"kind": "around orbit", "state": [float(v) for v in orbit.state],
                "period": float(orbit.period), "family": orbit.family, "amplitude_lu": amp,
@@ -1432,8 +1492,19 @@ def torus(orbit=None, amplitude=None, *, hold="jacobi", lissajous=None, members=
     return continue_family(t, hold=hold, members=members, progress=progress, catalog=catalog)
 
 
+def _torus_amplitude(amplitude, sysm):
+    amp = length(_text(amplitude), sysm, default_unit="km")
+    if not amp > 0:
+        raise InputError(f"amplitude {amplitude!r} must be a positive length")
+    if amp > 0.2:
+        raise InputError(f"amplitude {amplitude!r} is larger than 0.2 of the distance between the primaries; "
+                         "tori that large are not attempted")
+    return amp
+
+
 def shadow(orbit, epoch, *, span="365d", step="5min", phase=0.0, bodies=("earth", "moon"),
-           avoid_eclipses=False, phases=36, max_eclipse=None, torus_phase=(0.0, 0.0)):
+           avoid_eclipses=False, phases=36, max_eclipse=None, torus_phase=(0.0, 0.0), until_epoch=None, epochs=8,
+           stations=(), report=False):
     """Eclipse passes of a periodic orbit or a torus trajectory placed at a date (``librate shadow``).
 
     The CR3BP orbit (or the trajectory on a torus from ``torus_phase``) is placed at ``epoch``
@@ -1462,23 +1533,38 @@ def shadow(orbit, epoch, *, span="365d", step="5min", phase=0.0, bodies=("earth"
     phases : int
         Phases of the scan, 1..720.
     max_eclipse : str, optional
-        With ``avoid_eclipses``: phases whose longest pass is at most this time (``"90min"``)
-        rank first.
+        With ``avoid_eclipses`` or ``until_epoch``: phases (start epochs) whose longest pass is
+        at most this time (``"90min"``) rank first.
     torus_phase : (float, float)
         For a torus: ``(theta0, theta1)`` at the epoch, degrees.
+    until_epoch : str, optional
+        Scan ``epochs`` start epochs evenly from ``epoch`` to this one (ISO 8601) and keep the
+        one with the least shadow time (``librate shadow --until-epoch``); with
+        ``avoid_eclipses`` the phases are scanned at every epoch.
+    epochs : int
+        Start epochs of that scan, 2..200.
+    stations : sequence of cr3bp.operations.visibility.Station
+        Ground stations whose windows of view the report gives
+        (:func:`cr3bp.operations.visibility.read_stations` reads them from TOML).
+    report : bool
+        Return the whole :class:`ShadowReport` (what ``librate shadow`` prints: the passes,
+        the scans, the Earth angles and the station windows) instead of the history.
 
     Returns
     -------
     cr3bp.operations.phasing.History or list of History
         One history (``.passes``, each with ``.to_dict()``: body, kind, start and end UTC,
         duration, depth; ``.total_min()``, ``.longest_min()``); with ``avoid_eclipses`` the
-        scan's histories, best first (``[0].phase_deg`` the phase chosen).
+        scan's histories, best first (``[0].phase_deg`` the phase chosen); with
+        ``until_epoch`` the history of the best start epoch (or its phase scan). With
+        ``report=True`` a :class:`ShadowReport`.
 
     Raises
     ------
     InputError
         Not Earth-Moon or Sun-Earth, a step outside 10 s..1 h, unknown bodies, an epoch outside
-        the ephemeris tables, ``max_eclipse`` without ``avoid_eclipses``.
+        the ephemeris tables, ``max_eclipse`` without ``avoid_eclipses`` or ``until_epoch``,
+        ``until_epoch`` not after ``epoch``.
 
     Examples
     --------
@@ -1496,7 +1582,7 @@ def shadow(orbit, epoch, *, span="365d", step="5min", phase=0.0, bodies=("earth"
     from .io import export as ex  # lazy: start-up: keeps cr3bp.api free of numpy
     from .operations import eclipses, phasing, placement  # lazy: start-up: keeps cr3bp.api free of numpy
     from .time import frames  # lazy: start-up: keeps cr3bp.api free of numpy
-    from .validate import finite_number, numbers  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .validate import finite_number, iso8601, numbers  # lazy: start-up: keeps cr3bp.api free of numpy
     sysm = _system_of(orbit)
     sysm.require_dimensional("eclipses at a date")
     if sysm.name not in ("earth-moon", "sun-earth"):
@@ -1513,8 +1599,8 @@ def shadow(orbit, epoch, *, span="365d", step="5min", phase=0.0, bodies=("earth"
     n_phases = _whole("phases", phases, 1, 720)
     max_min = None
     if max_eclipse is not None:
-        if not avoid_eclipses:
-            raise InputError("max_eclipse goes with avoid_eclipses=True")
+        if not (avoid_eclipses or until_epoch is not None):
+            raise InputError("max_eclipse goes with avoid_eclipses=True or until_epoch=")
         mq = units.parse(_text(max_eclipse), "time")
         max_min = (mq.nondim(sysm) * sysm.time_s if mq.unit == "TU" else mq.si()) / 60.0
         if not max_min >= 0:
@@ -1523,20 +1609,125 @@ def shadow(orbit, epoch, *, span="365d", step="5min", phase=0.0, bodies=("earth"
     tphase = numbers("torus_phase", torus_phase, 2, "THETA0,THETA1 (degrees)")
     period = float(orbit.stroboscopic_time if is_torus else orbit.period)
     t0 = frames.epoch_from_text(epoch)
-    span_s = ex.parse_span(str(span), sysm, period) * sysm.time_s
+    starts = [t0]
+    if until_epoch is not None:
+        last = frames.epoch_from_text(iso8601("until_epoch", until_epoch))
+        if not last > t0:
+            raise InputError(f"until_epoch '{until_epoch}' must be after epoch '{epoch}'")
+        n = _whole("epochs", epochs, 2, 200)
+        starts = [t0 + (last - t0) * k / (n - 1) for k in range(n)]
+    span_tu = ex.parse_span(str(span), sysm, period)
+    span_s = span_tu * sysm.time_s
     if span_s > 20 * 365.25 * 86400.0:
         raise InputError(f"span '{span}' is longer than 20 years")
-    placed = (placement.place_torus(sysm, orbit, t0, span_s / sysm.time_s, tphase) if is_torus
+    placed = (placement.place_torus(sysm, orbit, t0, span_tu, tphase) if is_torus
               else placement.place(sysm, orbit, t0))
+    epoch_scan = []
+    if len(starts) > 1:
+        epoch_scan = phasing.scan_epochs(placed, starts, span_s, step_s, phase_deg=phase_deg,
+                                         n_phases=n_phases if avoid_eclipses else None,
+                                         max_pass_min=max_min, bodies=bodies)
+        t0 = epoch_scan[0].epoch_tdb_s
+        placed = (placement.with_epoch(placed, t0) if is_torus      # the same sample, moved
+                  else placement.place(sysm, orbit, t0))
     sk = phasing.sky(placed, span_s, step_s)
-    if avoid_eclipses:
-        return phasing.scan(placed, sk, n_phases, max_min, bodies)
-    return phasing.history(placed, sk, phase_deg, bodies)
+    scan = []
+    if epoch_scan:
+        scan = list(epoch_scan[0].phases)
+        best = epoch_scan[0].best
+    elif avoid_eclipses:
+        scan = phasing.scan(placed, sk, n_phases, max_min, bodies)
+        best = scan[0]
+    else:
+        best = phasing.history(placed, sk, phase_deg, bodies)
+    if not report:
+        return scan if avoid_eclipses else best
+    angles = phasing.earth_angles(placed, sk, best.phase_deg)
+    wins = []
+    if stations:
+        from .operations import visibility  # lazy: start-up: keeps cr3bp.api free of numpy
+        m = visibility.terrestrial_matrices(sk.tdb_s)
+        for st in stations:
+            wins += visibility.windows(sk.tdb_s, angles["position_km"], st, m)
+    return ShadowReport(orbit=orbit, is_torus=is_torus, period=period, epoch_tdb_s=t0, span_s=span_s,
+                        step_s=step_s, bodies=bodies, placed=placed, sky=sk, best=best, phase_scan=tuple(scan),
+                        epoch_scan=tuple(epoch_scan), epochs_scanned=len(starts), angles=angles,
+                        windows=tuple(wins), stations=tuple(stations))
+
+
+@dataclass(frozen=True)
+class ShadowReport:
+    """Everything ``librate shadow`` reports of an orbit or torus at a date (made by
+    :func:`shadow` with ``report=True``).
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit or Torus
+    is_torus : bool
+    period : float
+        The orbit's period or the torus's stroboscopic time, TU (CR3BP).
+    epoch_tdb_s : float
+        The start (the best of the epoch scan when there was one), TDB seconds from J2000.
+    span_s, step_s : float
+        The span followed and the search step, seconds.
+    bodies : tuple of str
+        The occulting bodies counted.
+    placed : object
+        The placement at the epoch (:mod:`cr3bp.operations.placement`).
+    sky : cr3bp.operations.phasing.Sky
+        The sampled geometry.
+    best : cr3bp.operations.phasing.History
+        The passes of the phase given or chosen (``.phase_deg``, ``.passes``).
+    phase_scan : tuple of History
+        The phases scanned, best first (empty without a scan).
+    epoch_scan : tuple
+        The start epochs scanned, best first (empty without ``until_epoch``).
+    epochs_scanned : int
+    angles : dict
+        Sun-Earth-spacecraft and Moon-Earth-spacecraft angles (degrees), position and range
+        (km) over the span (:func:`cr3bp.operations.phasing.earth_angles`).
+    windows : tuple
+        Station windows of view.
+    stations : tuple
+        The stations.
+
+    Examples
+    --------
+    >>> from cr3bp.api import ShadowReport
+    >>> "phase_scan" in ShadowReport.__dataclass_fields__
+    True
+
+    References
+    ----------
+    Montenbruck and Gill, *Satellite Orbits*, 2000, §3.4.2 (conical shadow model).
+    """
+
+    orbit: object
+    is_torus: bool
+    period: float
+    epoch_tdb_s: float
+    span_s: float
+    step_s: float
+    bodies: tuple
+    placed: object
+    sky: object
+    best: object
+    phase_scan: tuple
+    epoch_scan: tuple
+    epochs_scanned: int
+    angles: dict
+    windows: tuple
+    stations: tuple
+
+    def __repr__(self):
+        h = self.best
+        return (f"<ShadowReport phase {h.phase_deg:g} deg: {len(h.passes)} eclipse passes, "
+                f"{h.total_min():.1f} min in shadow over {self.span_s / 86400.0:.4g} d (ephemeris geometry)>")
 
 
 def keep(orbit, epoch, *, span="365d", trials=200, nav_error=(1.0, 0.01), burn_error=(0.01, 0.001),
          min_burn_mps=0.0, bodies=("sun", "earth", "moon"), target_revs=4, interval=None, hold_phase=False,
-         seed=0, workers=None, progress=None, policy="crossing"):
+         seed=0, workers=None, progress=None, policy="crossing", srp=None, scheduler=None):
     """Station-keeping Δv budget of an orbit carried into the ephemeris model (``librate keep``).
 
     A Monte Carlo of navigation and burn errors about a reference trajectory solved in the
@@ -1569,6 +1760,12 @@ def keep(orbit, epoch, *, span="365d", trials=200, nav_error=(1.0, 0.01), burn_e
     policy : {"crossing", "floquet"}
         The control: x-axis crossing control (default; ``target_revs`` and ``hold_phase`` are
         its options) or Floquet-mode control (the unstable mode's component cancelled).
+    srp : (float, float), optional
+        Cannonball radiation pressure in the reference and the trials: area-to-mass ratio m2/kg
+        and the reflectivity coefficient (``librate keep --srp``).
+    scheduler : dask.distributed.Client, optional
+        Run the trials on this cluster (:func:`cr3bp.operations.keeping.dask_client`); the
+        results do not depend on it.
 
     Returns
     -------
@@ -1628,6 +1825,534 @@ def keep(orbit, epoch, *, span="365d", trials=200, nav_error=(1.0, 0.01), burn_e
             raise InputError(f"interval '{interval}' must be between 5 % of the period and the span")
     elif revs < 1.0:
         raise InputError(f"span '{span}' is shorter than one revolution; lengthen it or give interval=")
+    if srp is not None:
+        try:
+            srp = tuple(finite_number("srp", v) for v in srp)
+        except (TypeError, ValueError):
+            raise InputError(f"srp {srp!r} is (area-to-mass m2/kg, reflectivity coefficient)") from None
+        if len(srp) != 2 or not (0 <= srp[0] <= 100 and 0 <= srp[1] <= 2):
+            raise InputError(f"srp {srp!r}: area-to-mass 0..100 m2/kg and reflectivity coefficient 0..2")
     return keeping.budget(orbit, epoch, span_tu, errors, trials, seed=seed, min_burn_mps=min_burn_mps,
-                          bodies=tuple(bodies), target_revs=target_revs, interval_tu=interval_tu,
-                          hold_phase=hold_phase, policy=str(policy), workers=workers, progress=progress)
+                          bodies=tuple(bodies), srp=srp, target_revs=target_revs, interval_tu=interval_tu,
+                          hold_phase=hold_phase, policy=str(policy), workers=workers, scheduler=scheduler,
+                          progress=progress)
+
+
+def disperse(orbit=None, *, route=None, coast=None, arrive_phase="0deg", branch="interior", burn="0m/s",
+             corrections=(), nav_error=(1.0, 0.01), burn_error=(0.01, 0.001), trials=1000, seed=0):
+    """Insertion dispersion: the last maneuver's errors carried to an insertion (``librate disperse``).
+
+    A Monte Carlo of navigation and execution errors beside the linear covariance estimate, with
+    correction maneuvers that target the nominal insertion point; all Δv, distances and times in
+    the circular restricted three-body model. The insertion is either the coast along ``orbit``'s
+    stable manifold (``coast`` long, arriving at ``arrive_phase``) or the last maneuver of a
+    route file (``route``, which sets the burn and the coast).
+
+    Parameters
+    ----------
+    orbit : PeriodicOrbit, optional
+        The orbit inserted into (of a system with units), with ``coast``.
+    route : str or path-like, optional
+        Instead of ``orbit``: the ``route.json`` of ``librate route --out DIR``.
+    coast : str or float
+        With ``orbit``: coast from the last maneuver to the insertion, a time (``"10d"``) or TU;
+        at most 1000 d.
+    arrive_phase : str or float
+        Where the manifold reaches the orbit: ``"120deg"``, ``"0.25rev"`` or degrees.
+    branch : {"interior", "exterior"}
+    burn : str or float
+        Size of the last maneuver (scales its proportional error): ``"20m/s"`` or m/s.
+    corrections : sequence of str or float
+        Correction times after the last maneuver, increasing, before the insertion (``"1d"`` or
+        TU); at most :data:`cr3bp.operations.dispersion.MAX_CORRECTIONS`.
+    nav_error : (float, float)
+        Navigation error, 1-sigma per axis: position km, velocity m/s.
+    burn_error : (float, float)
+        Execution error, 1-sigma per axis: proportional (fraction), fixed m/s.
+    trials : int
+        Monte Carlo trials, 1..100000.
+    seed : int
+
+    Returns
+    -------
+    cr3bp.operations.dispersion.Dispersion
+        ``.nominal`` (the arc), ``.summary()`` (per correction and at insertion, Monte Carlo and
+        linear), ``.to_dict()``.
+
+    Raises
+    ------
+    InputError
+        Neither or both of ``orbit`` and ``route``; values outside the ranges above; corrections
+        not increasing or not before the insertion.
+
+    Examples
+    --------
+    >>> import cr3bp
+    >>> o = cr3bp.orbit("earth-moon", "lyapunov L1 jacobi=3.15")
+    >>> d = cr3bp.disperse(o, coast="2d", corrections=["1d"], trials=20)
+    >>> d.summary()["trials"], len(d.summary()["corrections"])
+    (20, 1)
+
+    References
+    ----------
+    Geller, "Linear covariance techniques for orbital rendezvous analysis and autonomous onboard
+    mission planning", *J. Guidance, Control, and Dynamics* 29(6), 2006 (the linear covariance);
+    see :mod:`cr3bp.operations.dispersion`.
+    """
+    from .operations import dispersion as dp  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .operations.keeping import Errors  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .operations.placement import parse_phase  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .validate import finite_number, quantity  # lazy: start-up: keeps cr3bp.api free of numpy
+    if (orbit is None) == (route is None):
+        raise InputError("give an orbit (with coast=) or route=, not both or neither")
+    trials = _whole("trials", trials, 1, 100000)
+    seed = _whole("seed", seed, 0, 999999999999)
+    try:
+        pos_km, vel_mps = (finite_number("nav_error", v) for v in nav_error)
+        prop, fixed_mps = (finite_number("burn_error", v) for v in burn_error)
+    except (TypeError, ValueError):
+        raise InputError("nav_error is (km, m/s) and burn_error is (fraction, m/s)") from None
+    if not (0 <= pos_km <= 1e5 and 0 <= vel_mps <= 1000 and 0 <= prop <= 1 and 0 <= fixed_mps <= 1000):
+        raise InputError(f"nav_error {nav_error!r} or burn_error {burn_error!r} is outside the allowed ranges "
+                         "(0..100000 km, 0..1000 m/s, 0..1, 0..1000 m/s)")
+    errors = Errors(pos_km, vel_mps, prop, fixed_mps)
+    if route is not None:
+        nom = dp.after_route_maneuver(dp.read_route(route))
+        sysm, coast_tu = nom.system, nom.tf_tu
+    else:
+        sysm = _system_of(orbit)
+        sysm.require_dimensional("an insertion dispersion in km and m/s")
+        if coast is None:
+            raise InputError("an orbit needs coast= (the coast along the stable manifold, e.g. '10d')")
+        _one_of("branch", branch, TUBE_BRANCHES)
+        burn_mps = (quantity("burn", burn, "velocity", sign="nonnegative") * 1000.0 if isinstance(burn, str)
+                    else finite_number("burn (m/s)", burn))
+        if not 0 <= burn_mps <= 1e5:
+            raise InputError(f"burn {burn!r} must be 0 to 100 km/s")
+        coast_tu = quantity("coast", _text(coast), "time", sysm, sign="positive", default_unit="TU")
+        if coast_tu * sysm.time_days > 1000.0:
+            raise InputError(f"coast {coast!r} is over 1000 d")
+        phase = parse_phase(arrive_phase) if isinstance(arrive_phase, str) else finite_number(
+            "arrive_phase (degrees)", arrive_phase)
+        nom = dp.manifold_insertion(orbit, phase, coast_tu, burn_mps, branch=branch)
+    corr = [quantity("corrections", _text(c), "time", sysm, sign="positive", default_unit="TU")
+            for c in corrections]
+    if len(corr) > dp.MAX_CORRECTIONS:
+        raise InputError(f"corrections: {len(corr)} times; at most {dp.MAX_CORRECTIONS}")
+    if any(not b > a for a, b in zip(corr, corr[1:])) or (corr and corr[-1] >= coast_tu):
+        raise InputError(f"corrections {list(corrections)!r} must increase and come before the insertion")
+    return dp.dispersion(nom, corr, errors, trials, seed)
+
+
+def propagate_state(system, state, time, *, km=False, stm=False, rtol=1e-12, atol=1e-12, step=None,
+                    model="cr3bp", sun_phase=None, epoch=None):
+    """One state followed over a time, with the energy check (``librate propagate``).
+
+    The circular restricted three-body model, or with ``model="bicircular"`` the Earth-Moon
+    model with the Sun on a circle about the barycentre (Boudad, Howell and Davis 2020). The
+    integration stops at an impact on a primary (its radius). (``cr3bp.propagate`` is the
+    integrator underneath, in nondimensional units only.)
+
+    Parameters
+    ----------
+    system : System or str
+    state : sequence of 6 float
+        Start in the barycentric rotating frame: LU and LU/TU, or km and km/s with ``km=True``.
+    time : str or float
+        How long: a time with its unit (``"12d"``, ``"36h"``, ``"2.5TU"``) or TU; negative:
+        backward.
+    km : bool
+        ``state`` is in km and km/s (systems with units).
+    stm : bool
+        Also integrate the state transition matrix (``.arc.stm``).
+    rtol, atol : str or float
+        Tolerances in [1e-14, 1e-3].
+    step : str or float, optional
+        Output spacing (``"1h"`` or TU) from the dense output; default every integration step;
+        at most 1,000,000 output points.
+    model : {"cr3bp", "bicircular"}
+    sun_phase : str, optional
+        Bicircular: the Sun's angle from the Earth-Moon line at the start, ``"45deg"`` or
+        ``"0.785rad"`` (default 0).
+    epoch : str, optional
+        Bicircular: the date of the start (ISO 8601); the Sun's phase from the ephemeris.
+
+    Returns
+    -------
+    cr3bp.propagation.Propagation
+        ``.arc`` (times, states, events, STM), ``.status``, ``.final_state``, ``.to_dict()``
+        (the command's JSON), ``.rows()``, ``.plot(ax=None)``.
+
+    Raises
+    ------
+    InputError
+        A state that is not six finite numbers or lies inside a primary, a time without a unit,
+        tolerances out of range, too many output points, ``sun_phase``/``epoch`` without the
+        bicircular model, both of them, the bicircular model outside earth-moon.
+
+    Examples
+    --------
+    >>> import cr3bp
+    >>> p = cr3bp.propagate_state("earth-moon", [0.8234, 0, 0.0224, 0, 0.1343, 0], "12d", stm=True)
+    >>> p.status, p.arc.stm.shape
+    ('time', (6, 6))
+    >>> cr3bp.propagate_state("earth-moon", [0.8, 0, 0, 0, 0.1, 0], "1d", sun_phase="10deg")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: sun_phase goes with model='bicircular'
+
+    References
+    ----------
+    Hairer, Nørsett and Wanner, *Solving Ordinary Differential Equations I*, 2nd ed., 1993,
+    §II.5 and §II.6 (the DOP853 pair and its dense output); Boudad, Howell and Davis, "Dynamics
+    of synodic resonant near rectilinear halo orbits in the bicircular four-body problem",
+    *Advances in Space Research* 66(9), 2020 (the bicircular model).
+    """
+    import numpy as np  # lazy: heavy library (numpy)
+
+    from . import bicircular, validate  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .integrate import impact, propagate  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .propagation import Propagation  # lazy: start-up: keeps cr3bp.api free of numpy
+    sysm = _as_system(system)
+    try:
+        values = [float(v) for v in state]
+    except (TypeError, ValueError):
+        raise InputError(f"state {state!r}: give six numbers x, y, z, vx, vy, vz") from None
+    if len(values) != 6:
+        raise InputError(f"state has {len(values)} values; give six numbers x, y, z, vx, vy, vz")
+    if km:
+        sysm.require_dimensional("km=True")
+        values = [v / sysm.length_km for v in values[:3]] + [v / sysm.velocity_kms for v in values[3:]]
+    x0 = validate.state(sysm, values)
+    t_final = validate.quantity("time", _text(time), "time", sysm, default_unit="TU")
+    rtol = validate.tolerance("rtol", rtol)
+    atol = validate.tolerance("atol", atol)
+    t_eval = None
+    if step is not None:
+        dt = validate.quantity("step", _text(step), "time", sysm, sign="positive", default_unit="TU")
+        n = int(np.floor(abs(t_final) / dt + 1e-9))
+        if n + 2 > 1_000_000:
+            raise InputError(f"step {step!r} gives {n + 2} output points; allowed at most 1000000")
+        t_eval = (1.0 if t_final >= 0 else -1.0) * dt * np.arange(n + 1)
+        if abs(t_eval[-1]) < abs(t_final) * (1 - 1e-12):
+            t_eval = np.append(t_eval, t_final)
+        else:
+            t_eval[-1] = t_final
+    name = str(model).strip().lower()
+    _one_of("model", name, ("cr3bp", "bicircular"))
+    events = [impact(k, r, label=f"impact {n}") for k, (r, n) in enumerate(zip(sysm.radii, sysm.names)) if r > 0]
+    if name == "cr3bp":
+        for opt, v in (("sun_phase", sun_phase), ("epoch", epoch)):
+            if v is not None:
+                raise InputError(f"{opt} goes with model='bicircular'")
+        arc = propagate(sysm, x0, t_final, stm=stm, rtol=rtol, atol=atol, events=events, t_eval=t_eval)
+        p = Propagation(sysm, None, x0, arc, rtol, atol, 0.0, 0.0)
+    else:
+        if sun_phase is not None and epoch is not None:
+            raise InputError("give sun_phase or epoch, not both")
+        phase = 0.0
+        if sun_phase is not None:
+            phase = _angle_rad(sun_phase)
+        bsys = bicircular.bicircular_system(sysm, sun_phase=phase, epoch=epoch)
+        arc = bicircular.propagate(bsys, x0, t_final, stm=stm, rtol=rtol, atol=atol, events=events, t_eval=t_eval)
+        p = Propagation(sysm, bsys, x0, arc, rtol, atol, 0.0, 0.0)
+    return replace(p, energy_initial=float(p.energy(0.0, x0)),
+                   energy_final=float(p.energy(arc.t_final, arc.final_state)))
+
+
+def _angle_rad(text, name="sun_phase"):
+    """``'45deg'`` or ``'0.785rad'`` -> radians; a bare number is refused (which unit was meant?)."""
+    t = str(text).strip().lower()
+    for unit, factor in (("deg", math.pi / 180.0), ("rad", 1.0)):
+        if t.endswith(unit):
+            try:
+                v = float(t[:-len(unit)])
+            except ValueError:
+                break
+            if not math.isfinite(v):
+                raise InputError(f"{name} {text!r} must be finite")
+            return v * factor
+    raise InputError(f"{name} {text!r} is not an angle with a unit; give e.g. 45deg or 0.785rad")
+
+
+def zvc(system, jacobi=None, *, above=None, dv=None, plane="xy", region=False, view=None, extent=None,
+        resolution=601):
+    """An energy level: open necks, speeds at the Lagrange points, the Hill region and its
+    zero-velocity curves (``librate zvc``).
+
+    Parameters
+    ----------
+    system : System or str
+    jacobi : str or float, optional
+        The Jacobi constant C = 2 Omega - v^2 (nondimensional).
+    above : {"L1", "L2", "L3", "L4", "L5"}, optional
+        Instead of ``jacobi``: C of a spacecraft at that point moving at speed ``dv``.
+    dv : str, optional
+        With ``above``: the speed there with a unit (``"20m/s"``, ``"0.01VU"``; default 0).
+    plane : {"xy", "xz"}
+        The plane of the curves: z = 0 or y = 0.
+    region : bool
+        Also trace the Hill region on a grid and its zero-velocity curves (``.region``).
+    view : {"system", "secondary"}, optional
+        With ``region``: the default extent (default: secondary when the mass ratio is below
+        1e-4, else system).
+    extent : sequence of 4 or str, optional
+        With ``region``: ``(umin, umax, vmin, vmax)``, LU or lengths with a unit, or the same as
+        text ``"0.7,1.2,-0.2,0.2"``.
+    resolution : int
+        With ``region``: grid points per side, 21..4001.
+
+    Returns
+    -------
+    cr3bp.energy.EnergyLevel
+        ``.necks_open``, ``.realms``, ``.points``, ``.region`` (a :class:`cr3bp.energy.HillRegion`
+        or None), ``.to_dict()``, ``.plot(ax=None)``.
+
+    Raises
+    ------
+    InputError
+        Neither or both of ``jacobi`` and ``above``; ``dv`` without ``above``; an unknown point,
+        plane or view; a bad extent or resolution.
+
+    Examples
+    --------
+    >>> import cr3bp
+    >>> lv = cr3bp.zvc("earth-moon", above="L1", dv="20m/s")
+    >>> round(lv.jacobi, 6), lv.necks_open["L1"]
+    (3.18796, True)
+    >>> cr3bp.zvc("earth-moon", 3.1, above="L1")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: give jacobi or above (with dv), not both
+
+    References
+    ----------
+    Szebehely, *Theory of Orbits*, 1967, §1.6 and §4.3 (the Jacobi integral and the zero-velocity
+    surfaces; from memory); Koon, Lo, Marsden and Ross, *Dynamical Systems, the Three-Body
+    Problem and Space Mission Design*, 2011, ch. 2 (Hill's region, realms and necks).
+    """
+    from . import energy  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .equilibria import jacobi_constants, point_name  # lazy: start-up: keeps cr3bp.api free of numpy
+    sysm = _as_system(system)
+    _one_of("plane", plane, energy.PLANES)
+    if jacobi is not None and above is not None:
+        raise InputError("give jacobi or above (with dv), not both")
+    if jacobi is not None:
+        if dv is not None:
+            raise InputError("dv goes with above=POINT, not with jacobi")
+        c, level = energy.check_jacobi(jacobi, "jacobi"), {"given": "jacobi"}
+    elif above is None:
+        raise InputError("give jacobi=C, or above=POINT with dv=SPEED")
+    else:
+        name = point_name(above)
+        speed = dv if dv is not None else "0VU"
+        c = energy.jacobi_above(sysm, name, speed)
+        level = {"given": "above", "point": name, "dv": speed,
+                 "dv_vu": units.parse(speed, "velocity").nondim(sysm)}
+        if sysm.dimensional:
+            level["dv_mps"] = sysm.mps(level["dv_vu"])
+    hill = None
+    if region:
+        if view is None:
+            from .plotting.energy import default_view  # lazy: heavy library (matplotlib)
+            view = default_view(sysm)
+        _one_of("view", view, energy.VIEWS)
+        if isinstance(extent, str):
+            extent = extent.split(",")
+            if len(extent) != 4:
+                raise InputError(f"extent {extent!r} must be four values UMIN,UMAX,VMIN,VMAX")
+        if extent is not None:
+            extent = energy.check_extent(tuple(units.length(_text(t), sysm, default_unit="LU") for t in extent))
+        resolution = _whole("resolution", resolution, 21, 4001)
+        hill = energy.hill_region(sysm, c, plane=plane, extent=extent, view=view, resolution=resolution)
+    elif view is not None or extent is not None:
+        raise InputError("view and extent shape the traced region; give region=True too")
+    levels = jacobi_constants(sysm)
+    opened = energy.necks(sysm, c, levels)
+    points = []
+    for r in energy.energy_table(sysm, c):
+        v = r["speed_vu"]
+        points.append(dict(name=r["name"], jacobi=r["jacobi"], jacobi_minus_point=r["jacobi_minus_level"],
+                           neck_open=opened.get(r["name"]) if r["name"] in opened else None,
+                           speed_at_point_vu=v,
+                           speed_at_point_mps=sysm.mps(v) if (sysm.dimensional and v is not None) else None))
+    return energy.EnergyLevel(system=sysm, jacobi=c, level=level, plane=plane, necks_open=opened,
+                              forbidden_region_vanishes=bool(plane == "xy" and c <= levels["L4"]),
+                              realms=energy.realms(sysm, c, levels, plane), points=points, region=hill)
+
+
+# ---- the orbit catalogue ---------------------------------------------------------------
+
+def _catalog_call(catalog, fn):
+    from .catalog import Catalog  # lazy: start-up: keeps cr3bp.api free of numpy
+    if isinstance(catalog, Catalog):
+        return fn(catalog)
+    with Catalog(catalog) as cat:
+        return fn(cat)
+
+
+def _family_id(value):
+    if isinstance(value, bool) or not isinstance(value, int):
+        raise InputError(f"family id {value!r} must be a whole number (see catalog_list)")
+    return value
+
+
+def catalog_list(catalog=None):
+    """The families kept in an orbit catalogue (``librate catalog list``).
+
+    Parameters
+    ----------
+    catalog : cr3bp.catalog.Catalog, str or path-like, optional
+        An open catalogue or its file (default: the user's catalogue,
+        :func:`cr3bp.catalog.default_path`).
+
+    Returns
+    -------
+    list of dict
+        One per family, by id: ``id``, ``system``, ``mu``, ``family``, ``point``, ``branch``,
+        ``complete``, ``updated`` and ``members`` (how many).
+
+    Raises
+    ------
+    cr3bp.catalog.CatalogWriteError
+        A file that is not a catalogue, or one that cannot be opened.
+
+    Examples
+    --------
+    >>> import cr3bp, tempfile, os
+    >>> from cr3bp.catalog import Catalog
+    >>> with tempfile.TemporaryDirectory() as d, Catalog(os.path.join(d, "cat.sqlite")) as cat:
+    ...     fam = cr3bp.family("earth-moon", "lyapunov", point="L1", members=3, catalog=cat)
+    ...     [(f["id"], f["family"], f["members"]) for f in cr3bp.catalog_list(cat)]
+    [(1, 'lyapunov', 3)]
+
+    References
+    ----------
+    The catalogue is one SQLite 3 file (sqlite.org, "Database File Format"); its tables:
+    :mod:`cr3bp.catalog`.
+    """
+    return _catalog_call(catalog, lambda cat: cat.list_families())
+
+
+def catalog_show(family_id, catalog=None):
+    """One catalogued family: its members and bifurcations (``librate catalog show``).
+
+    Parameters
+    ----------
+    family_id : int
+        The family's id (:func:`catalog_list`).
+    catalog : cr3bp.catalog.Catalog, str or path-like, optional
+        As for :func:`catalog_list`.
+
+    Returns
+    -------
+    dict
+        ``id``, ``system``, ``mu``, ``family``, ``point``, ``branch``, ``settings``,
+        ``complete``, ``bifurcations``, ``created``, ``updated`` and ``members`` (a dict per
+        member: ``state``, ``period``, ``jacobi``, stability and amplitudes; CR3BP).
+
+    Raises
+    ------
+    InputError
+        No family with that id.
+
+    Examples
+    --------
+    >>> import cr3bp, tempfile, os
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     cr3bp.catalog_show(7, os.path.join(d, "cat.sqlite"))  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: no family with id 7 in the catalogue ...
+
+    References
+    ----------
+    The catalogue is one SQLite 3 file (sqlite.org, "Database File Format"); its tables:
+    :mod:`cr3bp.catalog`.
+    """
+    fid = _family_id(family_id)
+    return _catalog_call(catalog, lambda cat: cat.family(fid))
+
+
+def catalog_remove(family_id, catalog=None):
+    """Delete one family (its members and bifurcations) from a catalogue (``librate catalog remove``).
+
+    Parameters
+    ----------
+    family_id : int
+    catalog : cr3bp.catalog.Catalog, str or path-like, optional
+        As for :func:`catalog_list`.
+
+    Returns
+    -------
+    int
+        The id removed.
+
+    Raises
+    ------
+    InputError
+        No family with that id (nothing is changed).
+
+    Examples
+    --------
+    >>> import cr3bp, tempfile, os
+    >>> from cr3bp.catalog import Catalog
+    >>> with tempfile.TemporaryDirectory() as d, Catalog(os.path.join(d, "cat.sqlite")) as cat:
+    ...     fam = cr3bp.family("earth-moon", "lyapunov", point="L1", members=3, catalog=cat)
+    ...     cr3bp.catalog_remove(1, cat), cr3bp.catalog_list(cat)
+    (1, [])
+
+    References
+    ----------
+    The catalogue is one SQLite 3 file (sqlite.org, "Database File Format"); its tables:
+    :mod:`cr3bp.catalog`.
+    """
+    fid = _family_id(family_id)
+    _catalog_call(catalog, lambda cat: cat.remove_family(fid))
+    return fid
+
+
+# ---- trajectory files ------------------------------------------------------------------
+
+def read_trajectory(path, *, fmt=None):
+    """A trajectory file read back: CCSDS OEM (KVN or XML), CSV or JSON as :func:`export`
+    writes them (``librate convert``, ``librate export --from``).
+
+    Parameters
+    ----------
+    path : str or path-like
+        The file.
+    fmt : {"oem", "xml", "csv", "json"}, optional
+        Its format (default from the suffix, or a look at the first line).
+
+    Returns
+    -------
+    cr3bp.io.export.ReadResult
+        ``.header``, ``.segments`` (epochs and states as written), ``.time_system``, ``.frame``
+        (the CR3BP frame the file describes, or None for a file that does not say),
+        ``.maneuvers``, ``.to_dict()``; :func:`cr3bp.io.export.trajectory_from` makes it a
+        trajectory :func:`export` writes again.
+
+    Raises
+    ------
+    InputError
+        A missing file, an unknown format, a malformed file (one line naming the file and the
+        line).
+
+    Examples
+    --------
+    >>> import cr3bp, tempfile, os
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     path = cr3bp.export([1.1805031, 0, -0.02, 0, -0.1581343, 0], os.path.join(d, "a.csv"), system="earth-moon",
+    ...                         epoch="2031-03-01T00:00:00Z", span="1d", step="6h")
+    ...     data = cr3bp.read_trajectory(path)
+    ...     data.format, len(data.segments[0].epochs), data.frame.system.name
+    ('csv', 5, 'earth-moon')
+
+    References
+    ----------
+    CCSDS 502.0-B-3, "Orbit Data Messages", Blue Book, Consultative Committee for Space Data
+    Systems, 2023 (the OEM); RFC 4180 (CSV); RFC 8259 (JSON).
+    """
+    from .io import export as ex  # lazy: start-up: keeps cr3bp.api free of numpy
+    return ex.read(path, fmt)

@@ -624,6 +624,108 @@ def hill_region(system, jacobi_value, plane: str = "xy", extent=None, view: str 
                       field=f, curves=tuple(curves), curve_residual=worst)
 
 
+@dataclass(frozen=True, eq=False)
+class EnergyLevel:
+    """An energy level of the CR3BP: which necks are open, the speed at each Lagrange point and,
+    when traced, the Hill region and its zero-velocity curves (``librate zvc``; made by
+    :func:`cr3bp.api.zvc`).
+
+    Parameters
+    ----------
+    system : System
+    jacobi : float
+        The Jacobi constant C.
+    level : dict
+        How C was given: ``{"given": "jacobi"}`` or ``{"given": "above", "point", "dv", "dv_vu"
+        (, "dv_mps")}``.
+    plane : {"xy", "xz"}
+    necks_open : dict
+        ``{"L1": bool, "L2": bool, "L3": bool}``.
+    forbidden_region_vanishes : bool
+        Plane "xy" and C <= C_L4: nothing forbidden in z = 0.
+    realms : str
+        What is connected, in words.
+    points : list of dict
+        Per Lagrange point: name, jacobi (C_L), jacobi_minus_point, neck_open (None for L4, L5),
+        speed_at_point_vu and speed_at_point_mps (None where forbidden or without units).
+    region : HillRegion or None
+        The grid and the curves, when traced.
+
+    Examples
+    --------
+    >>> import cr3bp
+    >>> lv = cr3bp.zvc("earth-moon", 3.17)
+    >>> lv.necks_open
+    {'L1': True, 'L2': True, 'L3': False}
+
+    References
+    ----------
+    .. [1] W. S. Koon, M. W. Lo, J. E. Marsden and S. D. Ross, *Dynamical Systems, the Three-Body
+       Problem and Space Mission Design*, 2011, ch. 2 (Hill's region, realms and necks).
+    """
+
+    system: object
+    jacobi: float
+    level: dict
+    plane: str
+    necks_open: dict
+    forbidden_region_vanishes: bool
+    realms: str
+    points: list
+    region: object = None
+
+    def to_dict(self) -> dict:
+        """The fields of ``librate zvc --format json`` (without the command's file names)."""
+        return {"system": self.system.name, "mu": self.system.mu, "jacobi": self.jacobi, "level": self.level,
+                "plane": self.plane, "necks_open": self.necks_open,
+                "forbidden_region_vanishes": self.forbidden_region_vanishes, "realms": self.realms,
+                "points": self.points, "region": self.region.to_dict() if self.region is not None else None}
+
+    def __repr__(self):
+        opened = ", ".join(n for n, v in self.necks_open.items() if v) or "none"
+        return f"<EnergyLevel {self.system.name} C = {self.jacobi:.10f}: necks open {opened} (CR3BP)>"
+
+    def _repr_html_(self):
+        import html  # lazy: only for notebooks
+        from .cautions import caution_short  # lazy: only for notebooks
+        rows = [("system", self.system.name), ("Jacobi constant C", f"{self.jacobi:.10f}"),
+                ("necks open", ", ".join(n for n, v in self.necks_open.items() if v) or "none"),
+                ("realms", self.realms)]
+        rows += [(f"speed at {p['name']} (CR3BP)", "-" if p["speed_at_point_vu"] is None else
+                  f"{p['speed_at_point_vu']:.6g} LU/TU" + ("" if p["speed_at_point_mps"] is None
+                                                           else f" = {p['speed_at_point_mps']:.6g} m/s"))
+                 for p in self.points]
+        body = "".join(f"<tr><th style='text-align:left'>{html.escape(k)}</th>"
+                       f"<td style='text-align:left'>{html.escape(str(v))}</td></tr>" for k, v in rows)
+        return (f"<table><caption style='text-align:left'><b>EnergyLevel</b></caption>{body}"
+                f"<tr><td colspan='2' style='text-align:left;font-size:smaller'>{html.escape(caution_short())}"
+                "</td></tr></table>")
+
+    def plot(self, ax=None, km=False):
+        """Draw the Hill region (traced now at 301 x 301 points when it was not) on ``ax`` and
+        return the Axes.
+
+        Parameters
+        ----------
+        ax : matplotlib.axes.Axes, optional
+            A new figure when None.
+        km : bool
+            Axes in km (systems with units).
+
+        Returns
+        -------
+        matplotlib.axes.Axes
+        """
+        from .plotting.energy import plot_hill_region  # lazy: heavy library (matplotlib)
+        from .plotting.base import caption  # lazy: heavy library (matplotlib)
+        region = self.region if self.region is not None else hill_region(self.system, self.jacobi, self.plane,
+                                                                          resolution=301)
+        ax = plot_hill_region(region, ax=ax, km=km and self.system.dimensional)
+        if not any(t.get_gid() == "caption" for t in ax.figure.texts):
+            caption(ax.figure, "")                  # the caution, once per figure
+        return ax
+
+
 def energy_table(system, jacobi_value) -> list[dict]:
     """For each Lagrange point: its C_L, C - C_L, whether C < C_L, and the speed there.
 

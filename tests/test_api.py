@@ -217,12 +217,107 @@ def test_shadow_phase_scan_matches_the_cli(capsys, l1):
     assert len(scan) == 4 and all(h.passes for h in scan)       # a scan with shadows to rank
 
 
+def test_shadow_report_matches_the_cli(capsys, l1):
+    """``report=True`` is what ``librate shadow`` prints: the epoch scan, the passes of the best
+    start, the Earth angles."""
+    d = cli_json(capsys, "shadow", "--system", "earth-moon", "--orbit", L1, "--epoch", EPOCH, "--span", "10d",
+                 "--until-epoch", "2031-04-01T00:00:00Z", "--epochs", "3", "-q")
+    rep = cr3bp.shadow(l1, EPOCH, span="10d", until_epoch="2031-04-01T00:00:00Z", epochs=3, report=True)
+    assert rep.epochs_scanned == 3 and len(rep.epoch_scan) == 3
+    assert _plain([c.to_dict() for c in rep.epoch_scan]) == d["epoch_scan"]
+    assert _plain([p.to_dict() for p in rep.best.passes]) == d["passes"]
+    assert rep.best.phase_deg == d["model"]["phase_deg"]
+    assert "eclipse passes" in repr(rep) and "\n" not in repr(rep)
+
+
 def test_keep_matches_the_cli(capsys, em):
     nrho = "halo L2 south resonance=9:2"
     d = cli_json(capsys, "keep", "--system", "earth-moon", "--orbit", nrho, "--epoch", EPOCH, "--span", "20d",
                  "--trials", "2", "--bodies", "sun,earth", "--workers", "1", "--seed", "3", "-q")
     b = cr3bp.keep(cr3bp.orbit(em, nrho), EPOCH, span="20d", trials=2, bodies=("sun", "earth"), seed=3, workers=1)
     assert b.to_dict()["dv_per_year_mps"] == d["dv_per_year_mps"]
+
+
+def _plain(d):
+    from cr3bp.io.plain import json_default
+    return json.loads(json.dumps(d, default=json_default))
+
+
+def test_torus_request_text_matches_the_cli(capsys):
+    """``cr3bp.torus(system, TEXT)`` is ``librate torus --request TEXT`` (and the Lissajous
+    options of the command give the same torus)."""
+    text = "lissajous L2 ay=300000km az=150000km"
+    d = cli_json(capsys, "torus", "--system", "sun-earth", "--request", text, "-q")
+    t = cr3bp.torus("sun-earth", text)
+    mine = _plain(t.to_dict())
+    assert mine["circle"] == d["circle"] and mine["rotation_deg"] == d["rotation_deg"]
+    assert mine["jacobi"] == d["jacobi"] and mine["stroboscopic_time"] == d["stroboscopic_time"]
+    t2 = cr3bp.torus(lissajous=("sun-earth", "L2", "300000km", "150000km"))
+    assert _plain(t2.to_dict())["circle"] == d["circle"]
+
+
+def test_disperse_matches_the_cli(capsys, l1):
+    d = cli_json(capsys, "disperse", "--system", "earth-moon", "--orbit", L1, "--coast", "3d", "--burn", "10m/s",
+                 "--corrections", "1d", "--trials", "40", "--seed", "5", "-q")
+    r = cr3bp.disperse(l1, coast="3d", burn="10m/s", corrections=["1d"], trials=40, seed=5)
+    assert _plain(r.summary()) == d["summary"]
+    assert _plain(r.nominal.to_dict()) == d["nominal"]
+
+
+def test_propagate_state_matches_the_cli(capsys, em):
+    state = [0.8234, 0, 0.0224, 0, 0.1343, 0]
+    d = cli_json(capsys, "propagate", "--system", "earth-moon", "--state", ",".join(map(str, state)), "--time",
+                 "12d", "--stm", "-q")
+    p = cr3bp.propagate_state(em, state, "12d", stm=True)
+    mine = _plain(p.to_dict())
+    for key in ("final_state", "t_final", "jacobi_initial", "jacobi_final", "stm", "status", "steps"):
+        assert mine[key] == d[key], key
+    d = cli_json(capsys, "propagate", "--system", "earth-moon", "--state", ",".join(map(str, state)), "--time",
+                 "3d", "--model", "bicircular", "--sun-phase", "45deg", "--step", "1d", "-q")
+    p = cr3bp.propagate_state(em, state, "3d", model="bicircular", sun_phase="45deg", step="1d")
+    mine = _plain(p.to_dict())
+    assert mine["final_state"] == d["final_state"] and mine["hamiltonian_final"] == d["hamiltonian_final"]
+    assert len(p.rows()) == 4                              # 0, 1, 2, 3 d
+
+
+def test_zvc_matches_the_cli(capsys, em):
+    d = cli_json(capsys, "zvc", "--system", "earth-moon", "--above", "L1", "--dv", "20m/s", "-q")
+    lv = cr3bp.zvc(em, above="L1", dv="20m/s")
+    mine = _plain(lv.to_dict())
+    for key in ("jacobi", "level", "necks_open", "realms", "points", "forbidden_region_vanishes"):
+        assert mine[key] == d[key], key
+    lv = cr3bp.zvc(em, 3.17, region=True, resolution=61)
+    assert lv.region.to_dict()["resolution"] == [61, 61] and lv.region.curves
+
+
+def test_catalog_calls_match_the_cli(capsys, tmp_path):
+    path = tmp_path / "cat.sqlite"
+    main(["family", "--system", "earth-moon", "--family", "lyapunov", "--point", "L1", "--members", "3",
+          "--catalog", str(path), "-q"])
+    capsys.readouterr()
+    d = cli_json(capsys, "catalog", "list", "--catalog", path, "-q")
+    assert cr3bp.catalog_list(path) == d["families"]
+    d = cli_json(capsys, "catalog", "show", "1", "--catalog", path, "-q")
+    d.pop("caution")                                       # the command's footer
+    assert _plain(cr3bp.catalog_show(1, path)) == d
+    assert cr3bp.catalog_remove(1, path) == 1 and cr3bp.catalog_list(path) == []
+    with pytest.raises(InputError, match="no family with id 1"):
+        cr3bp.catalog_show(1, path)
+
+
+def test_read_trajectory_reads_what_the_commands_write(capsys, tmp_path):
+    """The file ``librate export`` writes, read by the call, has the states ``librate convert``
+    writes from it (same frame: the numbers pass through unchanged to the file's precision)."""
+    oem, csv = tmp_path / "a.oem", tmp_path / "b.csv"
+    assert main(["export", "--system", "earth-moon", "--state", "1.1805031,0,-0.02,0,-0.1581343,0", "--epoch",
+                 EPOCH, "--span", "1d", "--step", "6h", "--out", str(oem), "-q"]) == 0
+    assert main(["convert", str(oem), str(csv), "-q"]) == 0
+    capsys.readouterr()
+    a, b = cr3bp.read_trajectory(oem), cr3bp.read_trajectory(csv)
+    assert a.format == "oem" and b.format == "csv" and len(a.segments[0].epochs) == 5
+    import numpy as np
+    np.testing.assert_allclose(a.segments[0].states, b.segments[0].states, rtol=1e-12, atol=1e-9)
+    assert a.frame.system.name == "earth-moon"
 
 
 # ---- bad input: the typed exception, one line naming the value --------------------------------
@@ -254,11 +349,32 @@ BAD = [
     (lambda em, o: cr3bp.shadow(o, EPOCH, step="1s"), "1s"),
     (lambda em, o: cr3bp.shadow(o, "1850-01-01T00:00:00Z", span="1d"), "1850"),
     (lambda em, o: cr3bp.shadow(o, EPOCH, span="1d", max_eclipse="30min"), "max_eclipse"),
+    (lambda em, o: cr3bp.shadow(o, EPOCH, span="1d", until_epoch="2030-01-01T00:00:00Z"), "2030-01-01"),
+    (lambda em, o: cr3bp.shadow(o, EPOCH, span="1d", until_epoch="2031-04-01T00:00:00Z", epochs=1), "epochs 1"),
     (lambda em, o: cr3bp.shadow(o, EPOCH, span="1d", avoid_eclipses=True, phases=0), "phases 0"),
     (lambda em, o: cr3bp.shadow(o, EPOCH, span="1d", avoid_eclipses=True, max_eclipse="-3min"), "-3min"),
     (lambda em, o: cr3bp.keep(o, EPOCH, trials=0), "trials 0"),
     (lambda em, o: cr3bp.keep(o, EPOCH, policy="sideways"), "sideways"),
     (lambda em, o: cr3bp.keep(o, EPOCH, nav_error=(1.0, -2.0)), "nav_error"),
+    (lambda em, o: cr3bp.keep(o, EPOCH, srp=(0.01, 7.0)), "srp"),
+    (lambda em, o: cr3bp.torus(em, "lissajous L3 ay=3000km az=2000km"), "L3"),
+    (lambda em, o: cr3bp.torus(em, "3000km", around="halo L2"), "branch"),
+    (lambda em, o: cr3bp.torus(em, "200000km", around="lyapunov L1 jacobi=3.15"), "200000km"),
+    (lambda em, o: cr3bp.disperse(o), "coast"),
+    (lambda em, o: cr3bp.disperse(o, coast="2d", corrections=["3d"]), "corrections"),
+    (lambda em, o: cr3bp.disperse(o, coast="2d", trials=0), "trials 0"),
+    (lambda em, o: cr3bp.propagate_state(em, [1, 2], "1d"), "2 values"),
+    (lambda em, o: cr3bp.propagate_state(em, [0.8, 0, 0, 0, 0.1, 0], "1d", rtol=1), "rtol"),
+    (lambda em, o: cr3bp.propagate_state(em, [0.8, 0, 0, 0, 0.1, 0], "1d", model="nbody"), "nbody"),
+    (lambda em, o: cr3bp.propagate_state(em, [0.8, 0, 0, 0, 0.1, 0], "1d", model="bicircular",
+                                         sun_phase="45"), "45"),
+    (lambda em, o: cr3bp.zvc(em), "give jacobi"),
+    (lambda em, o: cr3bp.zvc(em, "abc"), "abc"),
+    (lambda em, o: cr3bp.zvc(em, above="L9"), "L9"),
+    (lambda em, o: cr3bp.zvc(em, 3.1, region=True, resolution=3), "resolution 3"),
+    (lambda em, o: cr3bp.zvc(em, 3.1, extent="1,2"), "extent"),
+    (lambda em, o: cr3bp.catalog_show("x", "cat.sqlite"), "'x'"),
+    (lambda em, o: cr3bp.read_trajectory("no-such.oem"), "no-such.oem"),
 ]
 
 
@@ -301,6 +417,25 @@ def test_results_show_themselves(em, l1):
         plt.close(ax.figure)
     if _has_pandas():
         assert len(fam.to_dataframe()) == 5 and len(tube.to_dataframe()) == 6
+
+
+def test_new_results_show_themselves(em):
+    """The propagation and the energy level: one-line repr naming the model, a table with the
+    caution, plot(ax) returning that Axes with the caution under the figure."""
+    import matplotlib
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+    p = cr3bp.propagate_state(em, [0.8234, 0, 0.0224, 0, 0.1343, 0], "2d")
+    lv = cr3bp.zvc(em, 3.17)
+    for obj, words in ((p, ["earth-moon", "Jacobi drift", "CR3BP"]), (lv, ["C = 3.17", "L1, L2", "CR3BP"])):
+        r = repr(obj)
+        assert "\n" not in r and all(w in r for w in words), r
+        assert obj._repr_html_().startswith("<table>") and "Preliminary CR3BP design" in obj._repr_html_()
+        fig, ax = plt.subplots()
+        assert obj.plot(ax=ax) is ax
+        assert ax.lines or ax.collections
+        assert any("Preliminary" in t.get_text() for t in fig.texts)
+        plt.close("all")
 
 
 def _has_pandas():

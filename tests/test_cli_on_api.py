@@ -20,6 +20,8 @@ from cr3bp.errors import NoSolutionError
 from librate_cli.main import main
 
 EM = ["--system", "earth-moon"]
+SE = ["--system", "sun-earth"]
+LISSAJOUS = "lissajous L2 ay=300000km az=150000km"
 EPOCH = "2031-03-01T00:00:00Z"
 L1 = "lyapunov L1 jacobi=3.15"
 #: a planar orbit-like stand-in for the calls that come before the one replaced
@@ -69,6 +71,31 @@ CASES = [
     (["convert", "{in}/good.oem", "{tmp}/good.csv", "--frame", "j2000-ecliptic"], "export", {}),
     (["catalog", "find", *EM, "--family", "lyapunov", "--point", "L1", "--period", "12d", "--catalog",
       "{in}/cat.sqlite"], "orbit_request", {}),
+    # tori, operations at a date, propagation, energy, the catalogue
+    (["torus", *SE, "--request", LISSAJOUS], "torus", {}),
+    (["torus", *SE, "--family", "lissajous", "--point", "L2", "--ay", "300000km", "--az", "150000km"], "torus", {}),
+    (["torus", *EM, "--around", L1, "--amplitude", "2000km"], "torus", {}),
+    (["shadow", *EM, "--orbit", L1, "--epoch", EPOCH, "--span", "10d"], "orbit", {}),
+    (["shadow", *SE, "--torus", LISSAJOUS, "--epoch", EPOCH, "--span", "10d"], "torus", {}),
+    (["shadow", *EM, "--orbit", L1, "--epoch", EPOCH, "--span", "10d"], "shadow", {"orbit": ORBIT}),
+    (["shadow", *EM, "--orbit", L1, "--epoch", EPOCH, "--span", "10d", "--until-epoch", "2031-04-01T00:00:00Z",
+      "--epochs", "2", "--avoid-eclipses", "--phases", "2"], "shadow", {"orbit": ORBIT}),
+    (["keep", *EM, "--orbit", L1, "--epoch", EPOCH, "--span", "2periods", "--trials", "2"], "orbit", {}),
+    (["keep", *EM, "--orbit", L1, "--epoch", EPOCH, "--span", "2periods", "--trials", "2"], "keep", {"orbit": ORBIT}),
+    (["disperse", *EM, "--orbit", L1, "--coast", "2d", "--trials", "5"], "orbit", {}),
+    (["disperse", *EM, "--orbit", L1, "--coast", "2d", "--trials", "5"], "disperse", {"orbit": ORBIT}),
+    (["propagate", *EM, "--state", "0.8234,0,0.0224,0,0.1343,0", "--time", "1d"], "propagate_state", {}),
+    (["propagate", *EM, "--state", "0.8234,0,0.0224,0,0.1343,0", "--time", "1d", "--model", "bicircular"],
+     "propagate_state", {}),
+    (["zvc", *EM, "--jacobi", "3.1"], "zvc", {}),
+    (["zvc", *EM, "--above", "L1", "--dv", "20m/s", "--curves", "{tmp}/c.csv", "--resolution", "41"], "zvc", {}),
+    (["catalog", "list", "--catalog", "{in}/cat.sqlite"], "catalog_list", {}),
+    (["catalog", "show", "1", "--catalog", "{in}/cat.sqlite"], "catalog_show", {}),
+    (["catalog", "remove", "1", "--catalog", "{in}/cat.sqlite"], "catalog_remove", {}),
+    # trajectory files read back
+    (["convert", "{in}/good.oem", "{tmp}/good.csv", "--frame", "j2000-ecliptic"], "read_trajectory", {}),
+    (["export", "--from", "{in}/good.oem", "--span", "6h", "--step", "1h", "--out", "{tmp}/x.csv"],
+     "read_trajectory", {}),
 ]
 
 

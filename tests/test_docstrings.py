@@ -41,6 +41,7 @@ MODULES = [
     "cr3bp.orbits._collinear",
     "cr3bp.equilibria",
     "cr3bp.energy",
+    "cr3bp.propagation",
     "cr3bp.systems",
     "cr3bp.units",
     "cr3bp.catalog",

@@ -42,7 +42,8 @@ def run(args):
 
 
 def _list(args, cat):
-    fams = cat.list_families()
+    from cr3bp import api
+    fams = api.catalog_list(cat)
     headers = ["id", "system", "family", "point", "branch", "members", "complete"]
     rows = [[f["id"], f["system"], f["family"], f["point"], f["branch"], f["members"], f["complete"]] for f in fams]
     common.emit(args, payload={"catalog": cat.path, "families": fams}, headers=headers, rows=rows,
@@ -62,7 +63,8 @@ def _member_row(m):
 
 
 def _show(args, cat):
-    f = cat.family(args.id)
+    from cr3bp import api
+    f = api.catalog_show(args.id, cat)
     rows = [_member_row(m) for m in f["members"]]
     title = (f"family {f['id']}: {f['system']} {f['family']} {f['point']} {f['branch']}, "
              f"{len(rows)} members" + ("" if f["complete"] else " (incomplete)"))
@@ -109,7 +111,8 @@ def _find(args, cat):
 
 
 def _remove(args, cat):
-    cat.remove_family(args.id)
+    from cr3bp import api
+    api.catalog_remove(args.id, cat)
     common.progress(args, f"removed family {args.id} from {cat.path}")
     common.emit(args, payload={"removed": args.id, "catalog": cat.path}, headers=["removed"], rows=[[args.id]],
                 table=f"removed family {args.id} from {cat.path}\n")

@@ -29,7 +29,8 @@ def _run(args):
     from cr3bp.time import frames
     from cr3bp.errors import InputError
     fmt = export.format_of(args.output, args.format)
-    data = export.read(args.input)
+    from cr3bp import api
+    data = api.read_trajectory(args.input)
     if data.frame is None:
         raise InputError(f"'{args.input}' does not describe its CR3BP frame (no frame.* lines); "
                          "convert reads files written by librate")
@@ -52,7 +53,6 @@ def _run(args):
     ts = args.time_system.upper() if args.time_system else traj.time_system
     out = export.Trajectory(spec, traj.segments, ts, traj.maneuvers, traj.object_name,
                             traj.object_id, {"converted from": str(args.input)})
-    from cr3bp import api
     path = api.export(out, args.output, fmt=args.format)
     common.progress(args, f"wrote {path}")
     summary(args, out, path, fmt)

@@ -117,21 +117,24 @@ def _inputs(args):
 
 
 def run(args):
-    from cr3bp.operations import dispersion as dp
-    from cr3bp.orbits.request import solve_request
+    from cr3bp import api
 
     sysm, errors, burn, coast, phase, corr, trials, seed, nom = _inputs(args)
+    kw = dict(corrections=corr, nav_error=(errors.nav_position_km, errors.nav_velocity_mps),
+              burn_error=(errors.burn_proportional, errors.burn_fixed_mps), trials=trials, seed=seed)
     if nom is None:
         common.progress(args, f"solving orbit request '{args.orbit}'...")
-        orbit = solve_request(sysm, args.orbit)
-        nom = dp.manifold_insertion(orbit, phase, coast, burn, branch=args.branch or "interior")
+        orbit = api.orbit(sysm, args.orbit)
+        common.progress(args, f"{trials} trials and the linear covariance...")
+        d = api.disperse(orbit, coast=coast, arrive_phase=phase, burn=burn, branch=args.branch or "interior", **kw)
         first = ["orbit", f"{args.orbit} (CR3BP period {orbit.period_days:.4f} d)"]
         payload_extra = {"orbit_request": args.orbit}
     else:
+        common.progress(args, f"{trials} trials and the linear covariance...")
+        d = api.disperse(route=args.route, **kw)
         first = ["route", str(args.route)]
         payload_extra = {"route_file": str(args.route)}
-    common.progress(args, f"{trials} trials and the linear covariance...")
-    d = dp.dispersion(nom, corr, errors, trials, seed)
+    nom = d.nominal
     s = d.summary()
     payload = dict(d.to_dict(), **payload_extra)
     rows = [first,
@@ -162,6 +165,7 @@ def run(args):
               f"{p['linear_rss_1sigma_without_corrections']:.4g} km / "
               f"{v['linear_rss_1sigma_without_corrections'] * 100:.4g} cm/s"]]
     width = max(len(r[0]) for r in rows)
+    from cr3bp.operations import dispersion as dp
     table = "\n".join(["librate disperse", "", f"model: {dp.MODEL_TEXT}", "",
                        "insertion dispersion (all Δv, distances and times in the CR3BP)", ""]
                       + [f"{k.ljust(width)}  {val}" for k, val in rows]) + "\n"

@@ -159,7 +159,7 @@ def _run(args):
     model = {}
     file_frame = None
     if args.from_file is not None:
-        data = export.read(args.from_file)
+        data = api.read_trajectory(args.from_file)
         file_frame = data.frame
         if args.system or args.mu:
             sysm = common.resolve_system(args)

@@ -158,10 +158,10 @@ def _run(args):
 def _budget_run(args, sysm, errors, min_burn, trials, target, seed, workers, bodies, srp, interval, client):
     from cr3bp.io import export
     from cr3bp.errors import InputError
+    from cr3bp import api
     from cr3bp.operations import keeping
-    from cr3bp.orbits.request import solve_request
     common.progress(args, f"solving orbit request '{args.orbit}'...")
-    orbit = solve_request(sysm, args.orbit)
+    orbit = api.orbit(sysm, args.orbit)
     span_tu = export.parse_span(args.span, sysm, float(orbit.period))
     revs = span_tu / float(orbit.period)
     if revs + target + 2 > keeping.MAX_REVS:
@@ -173,11 +173,12 @@ def _budget_run(args, sysm, errors, min_burn, trials, target, seed, workers, bod
     if interval is not None and not 0.05 * orbit.period <= interval <= span_tu:
         raise InputError(f"--interval '{args.interval}' must be between 5 % of the period "
                          f"({0.05 * orbit.period_days:.4g} d) and the span ({span_tu * sysm.time_days:.6g} d)")
-    b = keeping.budget(orbit, args.epoch, span_tu, errors, trials, seed=seed, min_burn_mps=min_burn, bodies=bodies,
-                       srp=srp, target_revs=target, interval_tu=interval, hold_phase=args.hold_phase,
-                       policy=args.policy,
-                       workers=None if client is not None else workers, scheduler=client,
-                       progress=lambda m: common.progress(args, m))
+    b = api.keep(orbit, args.epoch, span=args.span, trials=trials,
+                 nav_error=(errors.nav_position_km, errors.nav_velocity_mps),
+                 burn_error=(errors.burn_proportional, errors.burn_fixed_mps), min_burn_mps=min_burn,
+                 bodies=bodies, srp=srp, target_revs=target, interval=args.interval, hold_phase=args.hold_phase,
+                 policy=args.policy, seed=seed, workers=None if client is not None else workers,
+                 scheduler=client, progress=lambda m: common.progress(args, m))
     s = b.summary()
     ref = b.reference
     model_line = (f"{ref.model_text}: {ref.info['central']} + {', '.join(ref.info['bodies'])}"

@@ -132,12 +132,7 @@ def _output_times(args, system, t_final):
 
 
 def run(args):
-    import numpy as np
-
-    from cr3bp import bicircular, propagate, validate
-    from cr3bp.dynamics import jacobi
-    from cr3bp.errors import InputError
-    from cr3bp.integrate import impact
+    from cr3bp import api, validate
 
     system = common.resolve_system(args)
     state = _parse_state(args.state, system, args.km)
@@ -146,70 +141,18 @@ def run(args):
     t_final = quantity("--time", args.time, "time", system)
     rtol = validate.tolerance("--rtol", args.rtol)
     atol = validate.tolerance("--atol", args.atol)
-    t_eval = _output_times(args, system, t_final)
-    events = [impact(k, r, label=f"impact {name}")
-              for k, (r, name) in enumerate(zip(system.radii, system.names)) if r > 0]
-    model = _model(args, system)
-    if model is None:
-        def run_model(*a, **k):
-            return propagate(system, *a, **k)
-
-        def energy(t, s):
-            return jacobi(system.mu, s)
-    else:
-        def run_model(*a, **k):
-            return bicircular.propagate(model, *a, **k)
-
-        def energy(t, s):
-            return bicircular.hamiltonian(model, t, s)
-
+    t_eval = _output_times(args, system, t_final)         # refuses too many points, as --step
+    _model(args, system)                                   # refuses the model's options, as options
     common.progress(args, f"propagating for {t_final:.6g} TU...", verbose_only=True)
-    arc = run_model(state, t_final, stm=args.stm, rtol=rtol, atol=atol, events=events,
-                    t_eval=t_eval)
-
+    p = api.propagate_state(system, state, t_final, stm=args.stm, rtol=rtol, atol=atol,
+                            step=None if t_eval is None else args.step, model=str(args.model).strip().lower(),
+                            sun_phase=args.sun_phase, epoch=args.epoch)
+    arc, model = p.arc, p.model
     dim = system.dimensional
-    c0 = energy(0.0, state)
-    c1 = energy(arc.t_final, arc.final_state)
+    c0, c1 = p.energy_initial, p.energy_final
     t_days = arc.t_final * system.time_days if dim else None
-    energy_key = "jacobi" if model is None else "hamiltonian"
-    payload = {
-        "system": system.name,
-        "model": "cr3bp" if model is None else "bicircular",
-        "status": arc.status,
-        "t_final": arc.t_final,
-        "t_final_days": t_days,
-        "initial_state": state.tolist(),
-        "final_state": arc.final_state.tolist(),
-        f"{energy_key}_initial": c0,
-        f"{energy_key}_final": c1,
-        f"{energy_key}_{'drift' if model is None else 'change'}": c1 - c0,
-        "events": [{"name": e.name, "t": e.t, "t_days": e.t * system.time_days if dim else None,
-                    "state": e.state.tolist()} for e in arc.events],
-        "steps": arc.nsteps,
-        "rhs_evaluations": arc.nfev,
-        "rtol": rtol,
-        "atol": atol,
-    }
-    if model is not None:
-        payload["bicircular"] = {k: v for k, v in model.to_dict().items() if k != "system"}
-    if dim:
-        payload["final_state_km"] = _to_km(system, arc.final_state)
-    if args.stm:
-        payload["stm"] = arc.stm.tolist()
-
-    # CSV: one row per output time
-    headers = ["t_tu", "t_days", "x_lu", "y_lu", "z_lu", "vx_vu", "vy_vu", "vz_vu", energy_key]
-    if dim:
-        headers += ["x_km", "y_km", "z_km", "vx_kms", "vy_kms", "vz_kms"]
-    cs = energy(arc.t, arc.states) if len(arc.t) else np.empty(0)
-    rows = []
-    for k in range(len(arc.t)):
-        s = arc.states[k]
-        row = [float(arc.t[k]), float(arc.t[k] * system.time_days) if dim else "",
-               *map(float, s), float(cs[k])]
-        if dim:
-            row += _to_km(system, s)
-        rows.append(row)
+    payload = p.to_dict()
+    headers, rows = p.headers(), p.rows()
 
     table = _table(system, arc, state, c0, c1, t_days, args.stm, model)
     comments = [f"librate propagate: system {system.name}, status {arc.status}, "
@@ -217,13 +160,13 @@ def run(args):
     if model is not None:
         comments.append(_model_line(model))
     if args.plot:
+        import numpy as np
         from cr3bp.plotting import save
         from cr3bp.plotting.trajectories import plot_views
         span = f"{t_days:.4g} days" if dim else f"{arc.t_final:.4g} TU"
         shown = arc.states
         if t_eval is None:  # draw the curve from the dense output, not the step points
-            t_plot = np.linspace(0.0, arc.t_final, PLOT_POINTS)
-            shown = run_model(state, arc.t_final, rtol=rtol, atol=atol, t_eval=t_plot).states
+            shown = p.sample(PLOT_POINTS)
         where = system.name if model is None else f"{system.name} with the Sun (bicircular)"
         fig = plot_views(shown, system, title=f"{where}: propagated {span} ({arc.status})")
         drift = (f"Jacobi drift {c1 - c0:.2e}" if model is None else

@@ -181,8 +181,6 @@ def _run(args):
     import numpy as np
     from cr3bp.io import export
     from cr3bp.time import frames
-    from cr3bp.operations import phasing, placement, visibility
-    from cr3bp.orbits.request import solve_request
 
     sysm, bodies, step_s, phase, n_phases, max_min, stations, epochs = _inputs(args)
     if args.trajectory is not None:
@@ -196,57 +194,37 @@ def _run(args):
         ends.append(epochs[-1] + export.parse_span(args.span, sysm) * sysm.time_s)
     for body in ("sun", "moon"):
         ephemeris.position(body, frames._epoch(np.array(ends)), "earth")
+    from cr3bp import api
     if args.torus is not None:
-        from cr3bp.tori import request as treq
         common.progress(args, f"solving torus request '{args.torus}'...")
-        orbit = treq.solve(sysm, args.torus, progress=lambda m: common.progress(args, m))
+        orbit = api.torus(sysm, args.torus, progress=lambda m: common.progress(args, m))
         period, request, model_text = float(orbit.stroboscopic_time), args.torus, TORUS_MODEL
     else:
         common.progress(args, f"solving orbit request '{args.orbit}'...")
-        orbit = solve_request(sysm, args.orbit)
+        orbit = api.orbit(sysm, args.orbit)
         period, request, model_text = float(orbit.period), args.orbit, MODEL
-    span_tu = export.parse_span(args.span, sysm, period)
-    span_s = span_tu * sysm.time_s
+    span_s = export.parse_span(args.span, sysm, period) * sysm.time_s
     if span_s > 20 * 365.25 * 86400.0:
         from cr3bp.errors import InputError
         raise InputError(f"--span '{args.span}' is longer than 20 years")
     if args.torus is not None:
         common.progress(args, f"sampling the trajectory on the torus over {span_s / 86400.0:.4g} d...")
-        placed = placement.place_torus(sysm, orbit, epoch, span_tu, args.torus_phase_deg)
-    else:
-        placed = placement.place(sysm, orbit, epoch)
-    epoch_scan = []
     if len(epochs) > 1:
         common.progress(args, f"scanning {len(epochs)} start epochs"
                         + (f", {n_phases} phases at each..." if args.avoid_eclipses else "..."))
-        epoch_scan = phasing.scan_epochs(placed, epochs, span_s, step_s, phase_deg=phase,
-                                         n_phases=n_phases if args.avoid_eclipses else None,
-                                         max_pass_min=max_min, bodies=bodies)
-        epoch = epoch_scan[0].epoch_tdb_s
-        placed = (placement.with_epoch(placed, epoch) if args.torus is not None   # the same sample, moved
-                  else placement.place(sysm, orbit, epoch))
-    sk = phasing.sky(placed, span_s, step_s)
-    scan = []
-    if epoch_scan:
-        scan = list(epoch_scan[0].phases)
-        best = epoch_scan[0].best
     elif args.avoid_eclipses:
         common.progress(args, f"scanning {n_phases} phases over one period...")
-        scan = phasing.scan(placed, sk, n_phases, max_min, bodies)
-        best = scan[0]
-    else:
-        best = phasing.history(placed, sk, phase, bodies)
+    rep = api.shadow(orbit, args.epoch, span=args.span, step=args.step, phase=phase, bodies=bodies,
+                     avoid_eclipses=args.avoid_eclipses, phases=n_phases, max_eclipse=args.max_eclipse,
+                     torus_phase=args.torus_phase_deg, until_epoch=args.until_epoch,
+                     epochs=args.epochs if args.until_epoch is not None else 8, stations=stations, report=True)
+    span_s, step_s, sk, best = rep.span_s, rep.step_s, rep.sky, rep.best
+    scan, epoch_scan, epoch = list(rep.phase_scan), list(rep.epoch_scan), rep.epoch_tdb_s
     phase = best.phase_deg
-    ang = phasing.earth_angles(placed, sk, phase)
-    r, rn = ang["position_km"], ang["range_km"]
+    ang = rep.angles
+    rn = ang["range_km"]
     sun_angle, moon_angle = ang["sun_earth_spacecraft_deg"], ang["moon_earth_spacecraft_deg"]
-    wins = []
-    if stations:
-        m = visibility.terrestrial_matrices(sk.tdb_s)
-        for st in stations:
-            wins += visibility.windows(sk.tdb_s, r, st, m)
-
-    wins = tuple(wins)
+    wins = rep.windows
     t0, t1 = frames.epoch_to_text(np.array([sk.tdb_s[0], sk.tdb_s[-1]]), "UTC", 3)
     model = {"model": model_text, "system": sysm.name,
              ("torus request" if args.torus else "orbit request"): request,

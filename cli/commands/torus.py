@@ -140,7 +140,7 @@ def _check_lissajous(args, system):
 def run(args):
     from cr3bp import validate
     from cr3bp.errors import InputError
-    from cr3bp.orbits.request import parse_request, solve_request
+    from cr3bp.orbits.request import parse_request
     from cr3bp.orbits.targets import make_target
     from cr3bp.units import length
     system = common.resolve_system(args)
@@ -193,22 +193,20 @@ def run(args):
         _check_output("--html", args.html, (".html", ".htm"))
     plan = _export_plan(args, system, members)
     cat = oo.open_catalog(args)
+    from cr3bp import api
     if tspec is not None:
-        from cr3bp.tori import request as treq
         common.progress(args, f"librate torus: the {tspec.family} torus '{args.request}'")
-        torus = treq.solve(system, tspec, catalog=cat,
-                           progress=lambda m: common.progress(args, m, verbose_only=True))
+        torus = api.torus(system, args.request, catalog=cat,
+                          progress=lambda m: common.progress(args, m, verbose_only=True))
         what = f"{tspec.family} torus '{args.request}'"
     elif args.family == "lissajous":
-        from cr3bp.tori.lissajous import lissajous
         common.progress(args, f"librate torus: the Lissajous torus at {point} with Ay {args.ay}, "
                         f"Az {args.az}")
-        torus = lissajous(system, point, ay, az, catalog=cat,
+        torus = api.torus(lissajous=(system, point, args.ay, args.az), catalog=cat,
                           progress=lambda m: common.progress(args, m, verbose_only=True))
         what = f"Lissajous torus at {point} (Ay {args.ay}, Az {args.az})"
     else:
         common.progress(args, f"librate torus: solving the periodic orbit {args.around}")
-        orbit = solve_request(system, spec, catalog=cat)
         common.progress(args, f"librate torus: growing the torus to {args.amplitude} "
                         f"(holding the {args.hold})")
 
@@ -216,12 +214,8 @@ def run(args):
             size = f"{system.km(a):,.1f} km" if system.dimensional else f"{a:.3g} LU"
             common.progress(args, f"torus: step {k}, amplitude {size}", verbose_only=True)
 
-        from cr3bp.tori import torus_around
-        from cr3bp.tori.store import cached_torus
-        torus = cached_torus(cat, system, orbit.point,
-                             {"kind": "around", "around": args.around, "amplitude_lu": amp,
-                              "hold": args.hold},
-                             lambda: torus_around(orbit, amp, hold=args.hold, progress=step))
+        torus = api.torus(system, args.amplitude, around=args.around, hold=args.hold, catalog=cat,
+                          progress=step)
         what = f"{torus.family} torus about the {args.around} orbit"
     if members is not None:
         return _run_family(args, system, torus, members, what, cat)
@@ -327,7 +321,7 @@ def _with_amplitudes(system, d, torus):
 
 
 def _run_family(args, system, start, members, what, cat=None):
-    from cr3bp.tori import continue_family
+    from cr3bp import api
 
     def member(i, t):
         size = f"{system.km(t.amplitude_lu):,.1f} km" if system.dimensional else f"{t.amplitude_lu:.4g} LU"
@@ -335,7 +329,7 @@ def _run_family(args, system, start, members, what, cat=None):
                         f"Jacobi constant {t.jacobi:.10f}, rotation {t.rotation_deg:.4f} deg")
     common.progress(args, f"librate torus: continuing the family from the {what} "
                     f"({members} members, holding the {args.hold})")
-    fam = continue_family(start, hold=args.hold, members=members, progress=member, catalog=cat)
+    fam = api.torus(start, members=members, hold=args.hold, progress=member, catalog=cat)
     d = fam.to_dict()
     d["members"] = [_with_amplitudes(system, m, t) for m, t in zip(d["members"], fam.members)]
     d["model"] = start.to_dict()["model"]

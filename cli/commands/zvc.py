@@ -78,8 +78,7 @@ def _resolution(text):
 def run(args):
     from pathlib import Path
 
-    from cr3bp.energy import PLANES, VIEWS, energy_table, hill_region, necks, realms
-    from cr3bp.equilibria import jacobi_constants
+    from cr3bp.energy import PLANES, VIEWS
     from cr3bp.errors import InputError
 
     system = common.resolve_system(args)
@@ -94,25 +93,20 @@ def run(args):
         raise InputError("--extent and --km shape the plot; give --plot FILE or --curves FILE too")
     if args.curves is not None and Path(args.curves).suffix.lower() != ".csv":
         raise InputError(f"--curves {args.curves!r} must end in .csv")
-    c, source = _level(args, system)
+    _level(args, system)                      # the options' refusals, named as options
     extent = _extent(args, system)
     resolution = _resolution(args.resolution)
-    levels = jacobi_constants(system)
-    opened = necks(system, c, levels)
-    text = realms(system, c, levels, args.plane)
-    dim = system.dimensional
-    table_rows = energy_table(system, c)
-    rows = []
-    for r in table_rows:
-        v = r["speed_vu"]
-        rows.append([r["name"], r["jacobi"], r["jacobi_minus_level"],
-                     opened.get(r["name"]) if r["name"] in opened else None, v,
-                     system.mps(v) if (dim and v is not None) else None])
-    region = None
     if args.plot or args.curves:
         common.progress(args, f"librate: tracing the zero-velocity curves on a {resolution} x {resolution} grid...")
-        region = hill_region(system, c, plane=args.plane, extent=extent, view=args.view,
-                             resolution=resolution)
+    from cr3bp import api
+    level = api.zvc(system, args.jacobi, above=args.above,
+                    dv=args.dv, plane=args.plane,
+                    region=bool(args.plot or args.curves),
+                    view=args.view if (args.plot or args.curves) else None, extent=extent,
+                    resolution=resolution)
+    c, source, text, region = level.jacobi, level.level, level.realms, level.region
+    rows = [[p["name"], p["jacobi"], p["jacobi_minus_point"], p["neck_open"], p["speed_at_point_vu"],
+             p["speed_at_point_mps"]] for p in level.points]
     if args.curves:
         from cr3bp.io.atomic import write_text
         write_text(args.curves, curves_csv(region))
@@ -125,21 +119,9 @@ def run(args):
                    f"on a {resolution}² grid, refined (max |2Ω − C| = {region.curve_residual:.1e}). {text[:1].upper() + text[1:]}.")
         save(ax.figure, args.plot, caption)
         common.progress(args, f"wrote {args.plot}")
-    payload = {
-        "system": system.name,
-        "mu": system.mu,
-        "jacobi": c,
-        "level": source,
-        "plane": args.plane,
-        "necks_open": opened,
-        "forbidden_region_vanishes": bool(args.plane == "xy" and c <= levels["L4"]),
-        "realms": text,
-        "points": [dict(name=r[0], jacobi=r[1], jacobi_minus_point=r[2], neck_open=r[3],
-                        speed_at_point_vu=r[4], speed_at_point_mps=r[5]) for r in rows],
-        "plot": args.plot,
-        "curves_file": args.curves,
-        "region": region.to_dict() if region is not None else None,
-    }
+    d = level.to_dict()
+    payload = {k: v for k, v in d.items() if k != "region"}
+    payload.update({"plot": args.plot, "curves_file": args.curves, "region": d["region"]})
     how = ("given" if source["given"] == "jacobi" else
            f"spacecraft at {source['point']} moving at {source['dv']}: C = C_{source['point']} - dv^2")
     title = f"{system.name} (mu = {system.mu:.10g}): Jacobi constant C = {c:.10f} ({how})"
