@@ -127,7 +127,7 @@ def run(args):
         return _optimise.run(args, system, pa, pb, t_max)
     _optimise.check_unused(args)
     if args.path is not None:
-        return _departure.run(args, system, pa)
+        return _departure.run(args, system, pa, pb)
     if args.epoch is not None:
         raise InputError("--epoch dates a low-energy transfer; give it with --path low-energy")
     within_km = None
