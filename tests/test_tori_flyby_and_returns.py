@@ -96,11 +96,29 @@ def test_flyby_to_a_torus_closes_under_scipy_and_inserts_on_the_torus(nrho_torus
     assert s.km(np.linalg.norm(rel)) - s.primary.radius_km == pytest.approx(200.0, abs=0.01)
 
 
-def test_flyby_to_a_torus_costs_what_the_flyby_to_its_nrho_costs(torus_flyby):
+@pytest.fixture(scope="module")
+def nrho_flyby():
     from cr3bp.transfers.departure import design_departure
-    ref = design_departure(nrho_9_2(), 200.0, path="lunar-flyby", min_flyby_altitude_km=100.0)
-    assert torus_flyby.dv_mps == pytest.approx(ref.dv_mps, abs=SEAM_MPS)
+    return design_departure(nrho_9_2(), 200.0, path="lunar-flyby", min_flyby_altitude_km=100.0)
+
+
+def test_flyby_to_a_torus_costs_what_the_flyby_to_its_nrho_costs(torus_flyby, nrho_flyby):
+    assert torus_flyby.dv_mps == pytest.approx(nrho_flyby.dv_mps, abs=SEAM_MPS)
     assert 3100.0 <= torus_flyby.departure_dv_mps <= 3200.0
+
+
+def test_flyby_return_from_the_nrho_is_the_flyby_departure_reversed(nrho_flyby):
+    """The 9:2 NRHO is symmetric about the x-z plane: the lunar-flyby return from it costs what the
+    flyby departure to it costs (time reversal), and closes under scipy on the parking orbit."""
+    from cr3bp.transfers.returns import design_return
+    s = em()
+    ret = design_return(nrho_9_2(), 200.0, path="lunar-flyby", min_flyby_altitude_km=100.0)
+    assert [m["name"] for m in ret.maneuvers] == ["departure", "flyby", "insertion"]
+    assert ret.dv_mps == pytest.approx(nrho_flyby.dv_mps, abs=1.0)
+    assert ret.tof_days == pytest.approx(nrho_flyby.tof_days, abs=0.01)
+    assert ret.flyby_altitude_km >= 100.0 - 1e-3
+    assert _coasts_close(ret.maneuvers, s) < CLOSURE_TOL_KM
+    assert ret.perigee_altitude_km == pytest.approx(200.0, abs=0.01)
 
 
 # ---- returns ---------------------------------------------------------------------------------
@@ -164,12 +182,16 @@ def test_return_perigee_burn_against_hohmann(halo_return):
     assert ret.insertion_dv_mps == pytest.approx(hohmann_mps, abs=150.0)
 
 
-def test_return_from_a_torus_starts_on_the_torus(capsys):
-    rc = main(["connect", "--system=earth-moon", f"--from={RING}", "--to=parking earth 200km", "--path=direct",
-               "--format=json", "-q"])
-    out = capsys.readouterr()
-    assert rc == 0, out.err
-    leg = json.loads(out.out)["legs"][0]
+@pytest.fixture(scope="module")
+def ring_return(tmp_path_factory):
+    out = tmp_path_factory.mktemp("ring")
+    assert main(["connect", "--system=earth-moon", f"--from={RING}", "--to=parking earth 200km", "--path=direct",
+                 "--format=json", f"--out={out}/r.json", "-q"]) == 0
+    return json.loads((out / "r.json").read_text())["legs"][0]
+
+
+def test_return_from_a_torus_starts_on_the_torus(ring_return):
+    leg = ring_return
     s = em()
     ring = treq.solve(s, RING)
     a, b = (v / 360.0 for v in leg["torus_phase_deg"])
@@ -180,3 +202,39 @@ def test_return_from_a_torus_starts_on_the_torus(capsys):
     assert leg["perigee_altitude_km"] == pytest.approx(200.0, abs=0.01)
     assert [m["name"] for m in leg["maneuvers"]] == ["departure", "insertion"]
     assert 3000.0 < leg["insertion_dv_mps"] < 3300.0
+
+
+SCENARIO = f"""
+[mission]
+name = "Ring return"
+issued = "2031-01-01T00:00:00"
+
+[system]
+name = "earth-moon"
+epoch = "2031-03-01T00:00:00Z"
+
+[orbits.ring]
+torus = "{RING}"
+
+[[transfers]]
+name = "home"
+from = "ring"
+to = "parking earth 200km"
+best = 1
+
+[plots]
+interactive = false
+"""
+
+
+def test_scenario_return_from_a_torus_equals_connect(ring_return, tmp_path):
+    """Seam: the scenario's transfer from a torus to 'parking earth 200km' (graph leg -> route) gives
+    ``librate connect``'s return number for number."""
+    from cr3bp.catalog import Catalog
+    from cr3bp.scenario import run as mission
+    p = tmp_path / "s.toml"
+    p.write_text(SCENARIO)
+    mission.run(mission.prepare(p), tmp_path / "out", catalog=Catalog(":memory:"), reduced=True)
+    best = json.loads((tmp_path / "out" / "route-home.json").read_text())["best"]
+    assert best["dv_total_mps"] == pytest.approx(ring_return["dv_mps"], rel=1e-9)
+    assert best["legs"][0]["kind"] == "parking"

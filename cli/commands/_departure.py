@@ -16,7 +16,9 @@ def add_arguments(p):
                         "orbit (--to) by optimisation in the CR3BP instead of following manifolds: 'direct' "
                         "(departure burn, coast, insertion burn) or 'lunar-flyby' (departure burn, coast to a "
                         "close lunar periapsis where a powered flyby burn is made, coast, insertion burn); "
-                        "least total delta-v over the departure phase, times of flight and insertion point; "
+                        "least total delta-v over the departure phase, times of flight and insertion point "
+                        "(with 'parking earth ALTITUDE' as --to and an orbit or torus as --from: the return, "
+                        "'direct' or 'lunar-flyby'); "
                         "or 'low-energy' (a ballistic transfer out to about 1.5 million km where the Sun's pull "
                         "raises the perigee, 70-130 d, designed in the bicircular Sun-Earth-Moon model; see --epoch)")
     g.add_argument("--max-tof", default=None, metavar="TIME",
