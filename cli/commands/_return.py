@@ -81,8 +81,10 @@ def run(args, system, parking):
                 system=system, period=target.stroboscopic_time, state=ret.maneuvers[0]["state_before"],
                 family=target.family, point=target.point, branch=target.branch))
         save(plot_departure(shown), args.plot, f"{args.origin} -> {args.target}, {args.path} return: CR3BP total "
-             f"dv {ret.dv_mps:.0f} m/s, time of flight {ret.tof_days:.2f} d; rotating Earth-Moon frame, "
-             "positions in km from the barycentre")
+             f"dv {ret.dv_mps:.0f} m/s, time of flight {ret.tof_days:.2f} d; grey: the "
+             + ("torus trajectory from the departure point over one stroboscopic period" if torus else
+                "orbit left") + " (labelled target orbit); rotating Earth-Moon frame, positions in km from the "
+             "barycentre")
         common.progress(args, f"wrote {args.plot}")
     table = "\n".join(head) + "\n\n" + common.format_table(HEADERS, rows)
     common.emit(args, payload={"from": args.origin, "to": args.target, "model": "cr3bp", "legs": [d]},
