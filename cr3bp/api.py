@@ -769,9 +769,10 @@ def _connect_tori(origin, target, ta, tb, pa, pb, sysm, as_orbit, section, point
     from .tori import connections as tc  # lazy: heavy library (scipy, via cr3bp.tori)
     from .tori import request as treq  # lazy: heavy library (scipy, via cr3bp.tori)
     if pa or pb:
-        raise InputError("a parking orbit and a torus: the leg from an Earth parking orbit to a torus is the "
-                         "direct departure, cr3bp.tori.departure.design_torus_departure (librate connect "
-                         "--path direct); other parking legs of tori are not built yet")
+        raise InputError("a parking orbit and a torus: the leg from an Earth parking orbit to a torus is a "
+                         "departure, cr3bp.tori.departure.design_torus_departure (librate connect --path direct "
+                         "or lunar-flyby), the way back a return, cr3bp.transfers.returns.design_return; other "
+                         "parking legs of tori are not built yet")
     if crossing != 1:
         raise InputError(f"crossing {crossing}: connections with a torus use the first crossing of the section")
 

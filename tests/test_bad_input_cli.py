@@ -635,6 +635,24 @@ def value_cases():
     for extra in ("--section=y=0", "--map={out}/m.png", "--arrival-within=5000km", "--step-off=50km"):
         add(f"connect-path-with-{extra.split('=')[0][2:]}", dep + ["--path=direct", extra])
     add("connect-path-plot-suffix", dep + ["--path=direct", "--plot={out}/d.jpg"])
+    # connect --path to 'parking earth ALTITUDE' (returns from an orbit or a torus): refused before any
+    # orbit or torus is solved
+    ret = C + ["--from=halo L2 south resonance=9:2", "--to=parking earth 200km"]
+    ring = "--from=quasi-halo around halo L1 north az=10000km amplitude=300km"
+    add("connect-return-low-energy", ret + ["--path=low-energy"])
+    add("connect-return-epoch", ret + ["--path=direct", "--epoch=2031-01-01T00:00:00Z"])
+    add("connect-return-to-the-moon", C + ["--from=halo L2 south resonance=9:2", "--to=parking moon 100km",
+                                           "--path=direct"])
+    for v in ("50km", "60000km"):
+        add(f"connect-return-altitude-{v}", C + ["--from=halo L2 south resonance=9:2", f"--to=parking earth {v}",
+                                                  "--path=direct"])
+    add("connect-return-min-flyby-altitude-direct", ret + ["--path=direct", "--min-flyby-altitude=100km"])
+    add("connect-return-min-flyby-altitude-0km", ret + ["--path=lunar-flyby", "--min-flyby-altitude=0km"])
+    add("connect-return-max-tof", ret + ["--path=direct", "--max-tof=500d"])
+    add("connect-return-with-map", ret + ["--path=direct", "--map={out}/m.png"])
+    add("connect-return-plot-suffix", ret + ["--path=direct", "--plot={out}/r.jpg"])
+    add("connect-return-torus-low-energy", C + [ring, "--to=parking earth 200km", "--path=low-energy"])
+    add("connect-return-torus-altitude", C + [ring, "--to=parking earth 50km", "--path=direct"])
     # connect --optimise (orbit-to-orbit transfers): refused before any orbit is solved
     opt = BASE["connect"][:-1] + ["--optimise"]
     for v in ("1", "4", "x", "-3"):
@@ -680,7 +698,8 @@ def value_cases():
     TQ1 = "--to=quasi-halo around halo L1 north az=10000km amplitude=300km"
     TQ2 = "--from=quasi-halo around halo L2 north az=10000km amplitude=300km"
     ct = ["connect", EM, "--from=parking earth 200km", TQ1]
-    add("connect-torus-path-lunar-flyby", ct + ["--path=lunar-flyby"])
+    add("connect-torus-path-lunar-flyby-min-altitude", ct + ["--path=lunar-flyby", "--min-flyby-altitude=-5km"])
+    add("connect-torus-path-lunar-flyby-direct-altitude", ct + ["--path=direct", "--min-flyby-altitude=100km"])
     add("connect-torus-path-low-energy", ct + ["--path=low-energy"])
     add("connect-torus-path-altitude-50km", ["connect", EM, "--from=parking earth 50km", TQ1, "--path=direct"])
     add("connect-torus-path-max-tof-0d", ct + ["--path=direct", "--max-tof=0d"])

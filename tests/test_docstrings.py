@@ -52,6 +52,8 @@ MODULES = [
     "cr3bp.transfers.targeting",
     "cr3bp.transfers.lambert",
     "cr3bp.transfers.departure",
+    "cr3bp.transfers.departure_common",
+    "cr3bp.transfers.returns",
     "cr3bp.transfers.graph",
     "cr3bp.transfers.tasks",
     "cr3bp.transfers.search",

@@ -227,12 +227,14 @@ def test_scenario_torus_refusals_before_writing(tmp_path, capsys, change, patter
     assert re.search(r"s\.toml:\d+: " + pattern, err), err
 
 
-def test_a_transfer_from_a_torus_to_a_parking_orbit_is_refused(tmp_path, capsys):
-    # a parking orbit to a torus is a transfer (tests/test_tori_transfers.py); the way back is not built
+def test_a_transfer_from_a_torus_to_a_lunar_parking_orbit_is_refused(tmp_path, capsys):
+    # a torus to an Earth parking orbit is a return (tests/test_tori_flyby_and_returns.py); to the
+    # Moon's is not built
     text = SCENARIO.format(request=REQUEST, p0=0.0, p1=0.0) + (
-        '\n[[transfers]]\nname = "back"\nfrom = "ring"\nto = "parking earth 200km"\n')
+        '\n[[transfers]]\nname = "back"\nfrom = "ring"\nto = "parking moon 100km"\n')
     err = _refusal(tmp_path, capsys, text)
-    assert re.search(r"transfers\[0\]\.to: 'parking earth 200km': a transfer from the torus 'ring'", err), err
+    assert re.search(r"transfers\[0\]\.to: 'parking moon 100km': a leg from the torus 'ring' to a parking orbit "
+                     r"is a direct return to an Earth parking orbit", err), err
 
 
 def test_a_transfer_from_a_lunar_parking_orbit_to_a_torus_is_refused(tmp_path, capsys):

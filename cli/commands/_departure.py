@@ -16,7 +16,9 @@ def add_arguments(p):
                         "orbit (--to) by optimisation in the CR3BP instead of following manifolds: 'direct' "
                         "(departure burn, coast, insertion burn) or 'lunar-flyby' (departure burn, coast to a "
                         "close lunar periapsis where a powered flyby burn is made, coast, insertion burn); "
-                        "least total delta-v over the departure phase, times of flight and insertion point; "
+                        "least total delta-v over the departure phase, times of flight and insertion point "
+                        "(with 'parking earth ALTITUDE' as --to and an orbit or torus as --from: the return, "
+                        "'direct' or 'lunar-flyby'); "
                         "or 'low-energy' (a ballistic transfer out to about 1.5 million km where the Sun's pull "
                         "raises the perigee, 70-130 d, designed in the bicircular Sun-Earth-Moon model; see --epoch)")
     g.add_argument("--max-tof", default=None, metavar="TIME",
@@ -48,20 +50,22 @@ def _angle_deg(text):
     raise InputError(f"--inclination {text!r}: give an angle with its unit from 0deg to 180deg (e.g. 28.5deg)")
 
 
-def check(args, system, parking):
+def check(args, system, parking, returning=False):
     """Everything --path refuses, before any work: (primary, altitude_km) of the parking orbit
-    and the option values in the library's units."""
+    and the option values in the library's units. ``returning``: the parking orbit is --to (a
+    return from an orbit or torus)."""
     from cr3bp.errors import InputError
     from cr3bp.validate import quantity
     if parking is None:
         raise InputError(f"--path {args.path} designs a departure from a parking orbit: --from must be "
                          f"'parking earth ALTITUDE' (e.g. 'parking earth 200km'), not {args.origin!r}")
     primary, alt = parking
+    text = args.target if returning else args.origin
     if primary != 0 or system.name != "earth-moon":
-        raise InputError(f"--path {args.path} departs from the Earth in the earth-moon system; got "
-                         f"{args.origin!r} in {system.name}")
+        raise InputError(f"--path {args.path} {'returns to' if returning else 'departs from'} the Earth in the "
+                         f"earth-moon system; got {text!r} in {system.name}")
     if not 100.0 <= alt <= 50_000.0:
-        raise InputError(f"parking altitude {alt:g} km in {args.origin!r}; allowed with --path: 100km to 50000km")
+        raise InputError(f"parking altitude {alt:g} km in {text!r}; allowed with --path: 100km to 50000km")
     tof = 150.0
     if args.max_tof is not None:
         tof = system.days(quantity("--max-tof", args.max_tof, "time", system, sign="positive"))
@@ -85,7 +89,10 @@ def check(args, system, parking):
 HEADERS = ["maneuver", "t_days", "dv_mps", "x_km", "y_km", "z_km"]
 
 
-def run(args, system, parking):
+def run(args, system, parking, to_parking=None):
+    if to_parking is not None and parking is None:
+        from . import _return
+        return _return.run(args, system, to_parking)
     if args.path == "low-energy":
         from . import _low_energy
         return _low_energy.run(args, system, parking)

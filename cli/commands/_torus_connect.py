@@ -21,8 +21,11 @@ def run(args, system, pa, pb, t_max):
         raise InputError("--optimise designs transfers between periodic orbits; it does not take a torus "
                          f"({args.origin if ta else args.target!r})")
     if pb is not None:
-        raise InputError(f"a leg from a torus to a parking orbit is not built yet; --to {args.target!r} is a "
-                         "parking orbit")
+        if args.path is None or not ta:
+            raise InputError(f"from a torus to a parking orbit, give --path direct or --path lunar-flyby (a "
+                             f"return designed as the time-reverse of a departure); --to {args.target!r}")
+        from . import _return
+        return _return.run(args, system, pb)
     from . import _optimise
     _optimise.check_unused(args)
     if args.path is not None:
@@ -136,27 +139,31 @@ def _departure(args, system, parking, spec):
     torus angles)."""
     from cr3bp.errors import InputError
     from . import _departure as depcli
-    if args.path != "direct":
-        raise InputError(f"--path {args.path} to a torus is not built yet; to a torus, --path direct")
+    if args.path not in ("direct", "lunar-flyby"):
+        raise InputError(f"--path {args.path} to a torus is not built yet; to a torus, --path direct or "
+                         "--path lunar-flyby")
     if getattr(args, "epoch", None) is not None:
         raise InputError(f"--epoch dates a low-energy transfer; it does not apply with --path {args.path}")
-    alt, tof, inc, _ = depcli.check(args, system, parking)
+    alt, tof, inc, fb = depcli.check(args, system, parking)
     from cr3bp.tori import request as treq
     from cr3bp.tori.departure import design_torus_departure
     common.progress(args, f"librate connect: solving the torus '{args.target}'...")
     torus = treq.solve(system, spec, progress=lambda m: common.progress(args, m, verbose_only=True))
-    common.progress(args, f"librate connect: designing a direct departure from {args.origin} to the torus "
-                    "(two-body first guesses over both torus angles, then optimisation in the CR3BP)...")
-    dep = design_torus_departure(torus, alt, inclination_deg=inc, max_tof_days=tof)
+    how = ("two-body first guesses over both torus angles" if args.path == "direct" else
+           "first guesses from a scan of lunar periapsis states matched over both torus angles")
+    common.progress(args, f"librate connect: designing a {args.path} departure from {args.origin} to the torus "
+                    f"({how}, then optimisation in the CR3BP)...")
+    dep = design_torus_departure(torus, alt, path=args.path, inclination_deg=inc, max_tof_days=tof,
+                                 min_flyby_altitude_km=fb)
     d = dep.to_dict()
     d["to"] = args.target
     d["torus_phase_deg"] = dep.details["torus_phase_deg"]
     rows = [[m["name"], m["t_days"], m["dv_mps"], *m["position_km"]] for m in d["maneuvers"]]
     th0, th1 = dep.details["torus_phase_deg"]
-    head = [f"{args.origin} -> {args.target}: direct departure to the torus "
-            f"({'optimised' if dep.optimised else 'first guess: the optimiser stopped short of its tolerance'})",
-            f"CR3BP total dv {dep.dv_mps:.1f} m/s: departure {dep.departure_dv_mps:.1f} m/s, insertion "
-            f"{d['maneuvers'][-1]['dv_mps']:.1f} m/s",
+    head = [f"{args.origin} -> {args.target}: {args.path} departure to the torus "
+            f"({'optimised' if dep.optimised else 'feasible; the optimiser stopped short of its tolerance'})",
+            f"CR3BP total dv {dep.dv_mps:.1f} m/s: departure {dep.departure_dv_mps:.1f} m/s"
+            + "".join(f", {m['name']} {m['dv_mps']:.1f} m/s" for m in d["maneuvers"][1:]),
             f"CR3BP time of flight {dep.tof_days:.3f} d (departure burn to insertion burn)",
             f"insertion on the torus at phase theta0 {th0:.3f} deg (along the stroboscopic time), theta1 "
             f"{th1:.3f} deg (around the invariance circle); Jacobi constant of the torus {torus.jacobi:.10f}",
@@ -164,8 +171,11 @@ def _departure(args, system, parking, spec):
             f"{dep.departure_speed_kms:.4f} km/s after the burn, parking-orbit inclination "
             f"{dep.inclination_deg:.2f} deg to the Moon's orbit plane",
             "positions: Earth-Moon rotating frame, origin at the barycentre; t from the departure burn",
-            f"check: forward re-propagation of the transfer closes on the insertion point within "
+            f"check: forward re-propagation of the transfer closes on each burn within "
             f"{dep.details['closure_km']:.2e} km"]
+    if dep.flyby_altitude_km is not None:
+        head.insert(3, f"lunar flyby altitude {dep.flyby_altitude_km:.1f} km over the Moon's mean radius "
+                       f"(CR3BP; at least {fb:g} km asked)")
     if args.plot:
         from cr3bp.plotting import save
         from cr3bp.plotting.departures import plot_departure
@@ -179,7 +189,7 @@ def _departure(args, system, parking, spec):
         arc = SimpleNamespace(system=system, period=torus.stroboscopic_time,
                               state=np.asarray(ins["state_before"], dtype=float) + np.r_[0, 0, 0, ins["dv_vector"]],
                               family=torus.family, point=torus.point, branch=torus.branch)
-        save(plot_departure(dataclasses.replace(dep, orbit=arc)), args.plot, f"{args.origin} -> {args.target}, direct: CR3BP total dv "
+        save(plot_departure(dataclasses.replace(dep, orbit=arc)), args.plot, f"{args.origin} -> {args.target}, {args.path}: CR3BP total dv "
              f"{dep.dv_mps:.0f} m/s, time of flight {dep.tof_days:.2f} d; grey: the torus trajectory from the "
              "insertion point over one stroboscopic period; rotating Earth-Moon frame, positions in km from "
              "the barycentre")

@@ -14,7 +14,8 @@ NAME = "connect"
 KERNELS = (("cr3bp.integrate.dop853", "integrate"), ("cr3bp.integrate.lanes", "integrate_lanes"))
 ORDER = 70
 HELP = ("connect two orbits or tori (or a parking orbit and an orbit) through their manifolds, or design a "
-        "departure from an Earth parking orbit to an orbit or a torus (--path): delta-v, time of flight")
+        "departure from an Earth parking orbit to an orbit or a torus, or a return from one to an Earth "
+        "parking orbit (--path): delta-v, time of flight")
 EXAMPLE = ("librate connect --system earth-moon --from 'lyapunov L1 jacobi=3.15' "
            "--to 'lyapunov L2 jacobi=3.15' --section x=1-mu")
 
@@ -28,9 +29,13 @@ def add_arguments(p):
                         "amplitude=300km', 'lissajous L2 ay=30000km az=20000km'). With a torus at one end or "
                         "both, the leg joins the unstable manifold of the first to the stable manifold of "
                         "the second on --section (a position plane; the torus phases are free); from "
-                        "'parking earth ALTITUDE' to a torus give --path direct (the insertion point free "
-                        "over both torus angles)")
-    p.add_argument("--to", dest="target", required=True, metavar="WHAT", help="arrival, same forms as --from")
+                        "'parking earth ALTITUDE' to a torus give --path direct or lunar-flyby (the insertion "
+                        "point free over both torus angles)")
+    p.add_argument("--to", dest="target", required=True, metavar="WHAT",
+                   help="arrival, same forms as --from; 'parking earth ALTITUDE' after an Earth-Moon orbit or "
+                        "torus with --path direct or lunar-flyby designs the return (the time-reverse of the "
+                        "departure to the orbit's mirror image y -> -y): departure from the orbit, [lunar "
+                        "flyby,] insertion into the parking orbit by a tangential perigee burn")
     p.add_argument("--section", default="x=1-mu", metavar="SECTION",
                    help="common section of the two tubes (orbit to orbit; default x=1-mu); a half-plane "
                         "such as 'y=0,x<0' or 'x=1-mu,y>0' counts only crossings inside it (homoclinic "
@@ -127,7 +132,7 @@ def run(args):
         return _optimise.run(args, system, pa, pb, t_max)
     _optimise.check_unused(args)
     if args.path is not None:
-        return _departure.run(args, system, pa)
+        return _departure.run(args, system, pa, pb)
     if args.epoch is not None:
         raise InputError("--epoch dates a low-energy transfer; give it with --path low-energy")
     within_km = None

@@ -75,8 +75,9 @@ RENAMED_CHECKS = {
 TRANSFER_KEYS = {
     "name": (S, True, "name of the transfer"),
     "from": (S, True, "start: 'parking earth 200km' or the name of an orbit (a periodic orbit or a torus)"),
-    "to": (S, True, "end: the name of an orbit (a periodic orbit or a torus) or a parking orbit (not after "
-                    "a torus)"),
+    "to": (S, True, "end: the name of an orbit (a periodic orbit or a torus) or a parking orbit (after a "
+                    "torus: an Earth parking orbit in earth-moon, the return designed as a departure's "
+                    "time-reverse)"),
     "via": ("list[str]", False, "names of orbits to pass through, in order"),
     "path": (words.one_of(("auto",) + words.DEPARTURE_PATHS), False,
              "with 'from' an Earth parking orbit (earth-moon): how the spacecraft leaves it, 'direct' "

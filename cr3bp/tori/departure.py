@@ -1,5 +1,12 @@
-"""Direct departures from a circular Earth parking orbit to a quasi-periodic torus (Earth–Moon),
-the insertion point free over both torus angles.
+"""Departures from a circular Earth parking orbit to a quasi-periodic torus (Earth–Moon), direct
+or past the Moon, the insertion point free over both torus angles.
+
+The lunar-flyby path is the periodic orbit's design (:mod:`cr3bp.transfers.departure`: a batch
+scan of lunar periapsis states matched to the target by a k-d tree, two coasts joined at the
+flyby, SLSQP in rounds with analytic gradients from the coasts' state transition matrices)
+with the torus as the insertion end: :class:`TorusPoints` gives the state at both torus angles
+and its derivatives with respect to them (:meth:`TorusPoints.partials`) and the scan's samples
+over the torus (:meth:`TorusPoints.grid`).
 
 The design is the one :func:`cr3bp.transfers.departure.design_departure` makes for a periodic
 orbit (backward shooting from the insertion point to the first close perigee, a tangential
@@ -27,14 +34,18 @@ from scipy.optimize import minimize
 
 from .. import validate
 from ..errors import ConvergenceError, InputError, NoSolutionError
+from ..dynamics import acceleration
 from ..integrate import propagate, propagate_batch
 from ..transfers import departure as dep
+from ..transfers import departure_common as common
 from . import circle, solver
 
 #: Copies of the invariance circle along the stroboscopic time (state look-up).
 PHASE_SAMPLES = 32
 #: First-guess grid over the torus: stroboscopic phases times circle angles.
 GUESS_A, GUESS_B = 16, 8
+#: Stroboscopic phases per stored circle copy in the flyby scan's samples (:meth:`TorusPoints.grid`).
+GRID_SUBSTEPS = 4
 
 
 class TorusPoints:
@@ -82,6 +93,104 @@ class TorusPoints:
         moved = propagate_batch(torus.system, np.ascontiguousarray(np.tile(u, (self.n - 1, 1))), taus,
                                 rtol=solver.RTOL, atol=solver.ATOL).states
         self.circles = np.concatenate([u[None], moved.reshape(self.n - 1, m, 6)])
+        self.slopes = np.array([circle.derivative(c) for c in self.circles])
+
+    #: Insertion phases (the two torus angles, in revolutions).
+    nphase = 2
+
+    def grid(self, n: int, sub: int = GRID_SUBSTEPS):
+        """About ``n`` phases on the torus and their states (the flyby scan's samples):
+        ``samples * sub`` stroboscopic phases (the stored circle copies and ``sub - 1`` phases
+        between each two, one batch propagation) times at least 8 evenly spaced circle angles.
+
+        Parameters
+        ----------
+        n : int
+            Samples wanted (at least ``8 * samples * sub`` are given).
+        sub : int, optional
+            Stroboscopic phases per stored circle copy.
+
+        Returns
+        -------
+        phases : numpy.ndarray, shape (m, 2)
+            ``(a, b)`` in revolutions, ``a`` varying slowest.
+        states : numpy.ndarray, shape (m, 6)
+
+        Raises
+        ------
+        StateError
+            The propagation fails.
+
+        Examples
+        --------
+        >>> from cr3bp.tori.torus import example_torus
+        >>> ph, st = TorusPoints(example_torus()).grid(256, sub=1)
+        >>> ph.shape, st.shape
+        ((256, 2), (256, 6))
+        """
+        sub = max(1, int(sub))
+        na = self.n * sub
+        nb = max(8, int(math.ceil(n / na)))
+        b = np.arange(nb) / nb
+        a = np.arange(na) / na
+        starts = np.concatenate([circle.evaluate(self.circles[j // sub], 2 * math.pi * b - self.torus.rotation * a[j])
+                                 for j in range(na)])
+        dts = np.repeat(a * self.T - self.tau[np.arange(na) // sub], nb)
+        states = starts.copy()
+        moving = dts > 0.0
+        if np.any(moving):
+            states[moving] = propagate_batch(self.torus.system, np.ascontiguousarray(starts[moving]), dts[moving],
+                                             rtol=dep.RTOL, atol=dep.ATOL).states
+        phases = np.column_stack([np.repeat(a, nb), np.tile(b, na)])
+        return phases, states
+
+    def partials(self, phases):
+        """The state at ``phases = (a, b)`` and its derivatives with respect to ``a`` and ``b``.
+
+        With ``W(a, b) = phi_dt(C_k(2 pi b - rho a))`` (``C_k`` the circle copy ``k``, ``dt = a T -
+        tau_k``): ``dW/db = 2 pi Phi C_k'`` and ``dW/da = T f(W) - (rho / 2 pi) dW/db``, ``Phi`` the
+        state transition matrix over ``dt`` and ``f`` the vector field.
+
+        Parameters
+        ----------
+        phases : array_like, shape (2,)
+            ``(a, b)`` in revolutions.
+
+        Returns
+        -------
+        state : numpy.ndarray, shape (6,)
+        d_state : numpy.ndarray, shape (6, 2)
+            Columns: d/da, d/db.
+
+        Raises
+        ------
+        StateError
+            The propagation fails.
+
+        Examples
+        --------
+        >>> from cr3bp.tori.torus import example_torus
+        >>> s, d = TorusPoints(example_torus()).partials([0.25, 0.5])
+        >>> s.shape, d.shape
+        ((6,), (6, 2))
+
+        References
+        ----------
+        Olikara & Scheeres, AAS 12-361, 2012, §II (the torus function and its invariance).
+        """
+        a = float(phases[0]) % 1.0
+        b = float(phases[1])
+        k = min(int(a * self.n), self.n - 1)
+        th = 2 * math.pi * b - self.torus.rotation * a
+        s = circle.evaluate(self.circles[k], [th])[0]
+        ds = circle.evaluate(self.slopes[k], [th])[0]
+        dt = a * self.T - self.tau[k]
+        if dt != 0.0:
+            arc = propagate(self.torus.system, s, dt, stm=True, rtol=dep.RTOL, atol=dep.ATOL)
+            s, ds = np.array(arc.final_state), np.asarray(arc.stm) @ ds
+        d_b = 2 * math.pi * ds
+        d_a = self.T * acceleration(self.torus.system.mu, s) - self.torus.rotation / (2 * math.pi) * d_b
+        return np.array(s), np.column_stack([d_a, d_b])
 
     def at(self, a: float, b: float) -> np.ndarray:
         """The rotating state at phase ``(a, b)`` (revolutions of the two torus angles).
@@ -119,16 +228,17 @@ class _TorusProblem:
     """The direct departure's transfer as a function of ``z = (a, b, dv_x, dv_y, dv_z)``; the
     same callbacks and cache as :class:`cr3bp.transfers.departure._Problem`."""
 
-    def __init__(self, torus, altitude_km, inclination_deg, max_tof):
+    def __init__(self, torus, altitude_km, inclination_deg, max_tof, path="direct", min_flyby_km=None):
         s = torus.system
-        self.system, self.orbit, self.path = s, torus, "direct"
+        self.system, self.orbit, self.path = s, torus, path
         self.points = TorusPoints(torus)
         self.r_park = (s.primary.radius_km + altitude_km) / s.length_km
         self.inc = None if inclination_deg is None else math.radians(inclination_deg)
-        self.r_fb = None
+        self.r_fb = None if min_flyby_km is None else (s.secondary.radius_km + min_flyby_km) / s.length_km
         self.max_tof = max_tof
         r_e, r_m = s.radii
-        self.earth = dep._Periapsis(s, 0, dep.EARTH_WITHIN, (0.2 * r_e, r_m))
+        self.earth = common.Periapsis(s, 0, dep.EARTH_WITHIN if path == "direct" else dep.FLYBY_EARTH_WITHIN,
+                                      (0.2 * r_e, r_m))
         self.cache = {}
         self.evaluations = 0
 
@@ -151,7 +261,7 @@ class _TorusProblem:
         if hit is None:
             return None
         t_p, s_p = hit
-        per = dep._perigee_summary(self.system, s_p)
+        per = common.perigee_summary(self.system, s_p)
         return {"cost": per["dv"] + float(np.linalg.norm(z[2:5])), "perigee": per, "s_p": s_p, "t_p": t_p,
                 "s_ins": s_ins, "flyby": None}
 
@@ -183,7 +293,7 @@ def _guesses(pb):
                 if tof > pb.max_tof:
                     continue
                 try:
-                    dv1, v2, rel = dep._lambert_arrival(s, pb.r_park, st[:3], tof, pb.inc)
+                    dv1, v2, rel = common.lambert_arrival(s, pb.r_park, st[:3], tof, pb.inc)
                 except (InputError, NoSolutionError):
                     continue
                 dv_ins = st[3:] - (v2 - np.array([-rel[1], rel[0], 0.0]))
@@ -203,14 +313,15 @@ def _apart(r, seen):
 
 def _repair(pb, z):
     """Newton steps on the constraints alone, the insertion phase held (as the orbit design's)."""
-    return dep._newton(pb, z, lambda p, zz: None if p.evaluate(zz) is None else p.eq(zz), range(2, 5),
+    return common.newton(pb, z, lambda p, zz: None if p.evaluate(zz) is None else p.eq(zz), range(2, 5),
                        tol=dep.CONSTRAINT_TOL, max_step=0.2)
 
 
-def design_torus_departure(torus, altitude_km: float = 200.0, *, inclination_deg: float | None = None,
+def design_torus_departure(torus, altitude_km: float = 200.0, *, path: str = "direct",
+                           inclination_deg: float | None = None, min_flyby_altitude_km: float = 100.0,
                            max_tof_days: float = 150.0, guesses: int | None = None):
-    """The least-Δv direct departure found from a circular Earth parking orbit to ``torus``, the
-    insertion point free over both torus angles (module notes).
+    """The least-Δv departure found from a circular Earth parking orbit to ``torus``, direct or past
+    the Moon, the insertion point free over both torus angles (module notes).
 
     Parameters
     ----------
@@ -218,8 +329,14 @@ def design_torus_departure(torus, altitude_km: float = 200.0, *, inclination_deg
         A torus of the Earth–Moon system.
     altitude_km : float
         Parking-orbit altitude (100 to 50 000 km).
+    path : {"direct", "lunar-flyby"}
+        ``"lunar-flyby"``: the periodic-orbit flyby design of :mod:`cr3bp.transfers.departure`
+        (a scan of lunar periapsis states, two coasts joined at the flyby, SLSQP with analytic
+        gradients) with the torus's two angles as the insertion unknowns.
     inclination_deg : float, optional
         Inclination of the parking orbit to the Moon's orbit plane (free when None).
+    min_flyby_altitude_km : float
+        Least altitude of the lunar periapsis (flyby path; above 0 to 20 000 km).
     max_tof_days : float
         Longest time of flight, departure to insertion (1 to 400 d).
     guesses : int, optional
@@ -228,7 +345,7 @@ def design_torus_departure(torus, altitude_km: float = 200.0, *, inclination_deg
     Returns
     -------
     cr3bp.transfers.departure.Departure
-        Path ``"direct"``; ``orbit`` is the torus, ``insertion_phase`` is ``theta0 / 2 pi``,
+        Path ``path``; ``orbit`` is the torus, ``insertion_phase`` is ``theta0 / 2 pi``,
         ``details["torus_phase_deg"]`` is ``[theta0, theta1]`` in degrees; all values CR3BP.
 
     Raises
@@ -280,8 +397,18 @@ def design_torus_departure(torus, altitude_km: float = 200.0, *, inclination_deg
     if inclination_deg is not None:
         inclination_deg = validate.number_in("inclination (deg)", inclination_deg, 0.0, 180.0)
     max_tof_days = validate.number_in("maximum time of flight (d)", max_tof_days, 1.0, 400.0)
+    if path not in dep.PATHS:
+        raise InputError(f"path '{path}' to a torus; allowed: {', '.join(dep.PATHS)}")
+    if path == "lunar-flyby":
+        min_flyby_altitude_km = validate.number_in("minimum flyby altitude (km)", min_flyby_altitude_km,
+                                                   0.0, 20_000.0, open_lo=True)
     t_start = time.perf_counter()
-    pb = _TorusProblem(torus, altitude_km, inclination_deg, max_tof_days / system.days(1.0))
+    pb = _TorusProblem(torus, altitude_km, inclination_deg, max_tof_days / system.days(1.0), path,
+                       min_flyby_altitude_km if path == "lunar-flyby" else None)
+    if path == "lunar-flyby":
+        d = dep._design_flyby(pb, dep.FLYBY_GUESSES_OPTIMISED if guesses is None else int(guesses), t_start)
+        d.details["torus_phase_deg"] = [math.degrees(2 * math.pi * p) for p in d.details["insertion_phases"]]
+        return d
     guesses = dep.GUESSES_OPTIMISED if guesses is None else int(guesses)
     rows = _guesses(pb)
     if not rows:
@@ -331,7 +458,7 @@ def _build(pb, z, e, success, details):
     s = pb.system
     tof = -e["t_p"]
     per, s_p = e["perigee"], e["s_p"]
-    rel, vin = dep._relative(s, s_p, 0)
+    rel, vin = common.relative(s, s_p, 0)
     s_before = s_p.copy()
     s_before[3:] = per["speed_circular"] * vin / np.linalg.norm(vin) - np.array([-rel[1], rel[0], 0.0])
     sb = e["s_ins"].copy()

@@ -63,7 +63,7 @@ import time
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy.optimize import brentq, minimize
+from scipy.optimize import minimize
 
 from .. import validate
 from ..vocabulary import CR3BP_DEPARTURE_PATHS
@@ -73,13 +73,18 @@ from ..integrate import impact, propagate, propagate_batch
 from ..io.plain import plain as _plain
 from ..threads import serial
 from ..tubes.manifolds import describe
-from .lambert import lambert
+from .departure_common import ATOL, GUESS_ANGLE_DEG, RTOL  # noqa: F401 - re-exported
+from .departure_common import Periapsis as _Periapsis
+from .departure_common import lambert_arrival as _lambert_arrival
+from .departure_common import newton as _newton
+from .departure_common import perigee_summary as _perigee_summary
+from .departure_common import plane_normal as _plane_normal  # noqa: F401 - old name
+from .departure_common import relative as _relative
 from .leg import Leg, Maneuver
 
 PATHS = CR3BP_DEPARTURE_PATHS
 #: Paths whose design is unfinished (refused by :func:`design_departure`).
 UNFINISHED_PATHS = ()
-RTOL = ATOL = 1e-12
 #: Constraint tolerance accepted after optimisation: perigee radius (LU; 1e-9 LU ~ 0.4 m in
 #: Earth–Moon) and inclination (rad).
 CONSTRAINT_TOL = 1e-9
@@ -124,8 +129,6 @@ FLYBY_ROUND = 30
 FLYBY_STALL_MPS = 1.0
 #: SLSQP's tolerance on the total Δv (LU/TU; 1e-9 is about 1 mm/s in Earth-Moon).
 FLYBY_FTOL = 1e-9
-#: Transfer angle of the first-guess Lambert arcs (degrees; 180 leaves the plane undefined).
-GUESS_ANGLE_DEG = 170.0
 #: Tolerance of the re-propagation check on every returned transfer (km, position at insertion).
 CLOSURE_TOL_KM = 1.0
 MAX_ITER = 200
@@ -283,77 +286,7 @@ def _describe(orbit):
         return f"{orbit.family} {orbit.point} {orbit.branch}".strip()
 
 
-# ---- geometry about a primary ------------------------------------------------------------
-
-def _relative(system, state, primary):
-    c = np.array([system.positions[primary], 0.0, 0.0])
-    rel = np.asarray(state[:3], dtype=float) - c
-    v = np.asarray(state[3:6], dtype=float)
-    return rel, v + np.array([-rel[1], rel[0], 0.0])
-
-
-def _perigee_summary(system, state):
-    rel, vin = _relative(system, state, 0)
-    r = float(np.linalg.norm(rel))
-    speed = float(np.linalg.norm(vin))
-    h = np.cross(rel, vin)
-    inc = math.degrees(math.acos(max(-1.0, min(1.0, h[2] / np.linalg.norm(h)))))
-    vc = math.sqrt((1.0 - system.mu) / r)
-    return {"radius": r, "speed_inertial": speed, "speed_circular": vc, "inclination_deg": inc,
-            "dv": speed - vc}
-
-
-class _Periapsis:
-    """Backward propagation to the first close periapsis about a primary."""
-
-    def __init__(self, system, primary, within, stop_radius):
-        self.system = system
-        self.p = primary
-        self.c = np.array([system.positions[primary], 0.0, 0.0])
-        self.within = within
-        r1, r2 = system.radii
-        self.events = [impact(0, stop_radius[0]), impact(1, stop_radius[1])]
-
-    def g(self, s):
-        rel = s[..., :3] - self.c
-        return np.sum(rel * s[..., 3:6], axis=-1)
-
-    def find(self, state, t_max):
-        """(t <= 0, state) at the first periapsis backward in time within ``t_max``, or None."""
-        try:
-            return self._find(state, t_max)
-        except StateError:   # a trial state inside a primary
-            return None
-
-    def _find(self, state, t_max):
-        arc = propagate(self.system, state, -t_max, rtol=RTOL, atol=ATOL, events=self.events)
-        if arc.status not in ("time", "impact"):
-            return None
-        g = self.g(arc.states)
-        d = np.linalg.norm(arc.states[:, :3] - self.c, axis=1)
-        # backward in time, a periapsis is g going from + (later) to - (earlier)
-        idx = np.nonzero((g[:-1] > 0.0) & (g[1:] <= 0.0) & (np.minimum(d[:-1], d[1:]) < self.within))[0]
-        if idx.size == 0:
-            return None
-        j = int(idx[0])
-        t_j, s_j = float(arc.t[j]), arc.states[j]
-        dt_lo = float(arc.t[j + 1]) - t_j
-
-        def gap(dt):
-            if dt == 0.0:
-                return float(self.g(s_j))
-            return float(self.g(propagate(self.system, s_j, dt, rtol=RTOL, atol=ATOL).final_state))
-
-        try:
-            dt = brentq(gap, dt_lo, 0.0, xtol=1e-15, rtol=1e-14, maxiter=100)
-            s = propagate(self.system, s_j, dt, rtol=RTOL, atol=ATOL).final_state if dt != 0.0 else s_j
-        except StateError:
-            # the periapsis lies below the surface (a trial point of the search): the nearer
-            # sample is enough to tell the optimiser it is far too low
-            jj = j if d[j] < d[j + 1] else j + 1
-            return float(arc.t[jj]), np.array(arc.states[jj])
-        return t_j + dt, np.array(s)
-
+# ---- the target orbit (geometry about a primary: cr3bp.transfers.departure_common) --------
 
 class _OrbitPoints:
     """States of the target orbit at any phase (propagated from the nearest stored sample)."""
@@ -372,6 +305,19 @@ class _OrbitPoints:
         if dt == 0.0:
             return self.s[k].copy()
         return np.array(propagate(self.orbit.system, self.s[k], dt, rtol=RTOL, atol=ATOL).final_state)
+
+    #: Insertion phases of the target (one: the fraction of the period; a torus has two).
+    nphase = 1
+
+    def grid(self, n):
+        """(phases (n, 1), states (n, 6)) at ``n`` evenly spaced phases (the flyby scan's samples)."""
+        ph = np.linspace(0.0, 1.0, n, endpoint=False)
+        return ph[:, None], np.array([self.at(q) for q in ph])
+
+    def partials(self, phases):
+        """(state, d state / d phase (6, 1)) at ``phases`` = [phase]: along the flow, T f(state)."""
+        st = self.at(phases[0])
+        return st, (self.T * acceleration(self.orbit.system.mu, st))[:, None]
 
 
 # ---- the transfer as a function of the unknowns -----------------------------------------
@@ -463,37 +409,6 @@ class _Problem:
 
 
 # ---- first guesses -------------------------------------------------------------------------
-
-def _plane_normal(u, inc):
-    """A unit normal perpendicular to ``u`` whose inclination to z is closest to ``inc`` (rad;
-    None: the normal closest to +z)."""
-    z = np.array([0.0, 0.0, 1.0])
-    a = z - (z @ u) * u
-    if np.linalg.norm(a) < 1e-9:
-        a = np.array([1.0, 0.0, 0.0]) - u[0] * u
-    a /= np.linalg.norm(a)
-    if inc is None:
-        return a
-    b = np.cross(u, a)
-    phis = np.linspace(0.0, math.pi, 721)
-    ns = np.cos(phis)[:, None] * a + np.sin(phis)[:, None] * b
-    k = int(np.argmin(np.abs(np.arccos(np.clip(ns[:, 2], -1, 1)) - inc)))
-    return ns[k]
-
-
-def _lambert_arrival(system, r_park, target_pos, tof, inc):
-    """Two-body (Earth) arc from a perigee 170 degrees before ``target_pos``: (dv at perigee
-    in the two-body sense, arrival velocity relative to the Earth, inertial components)."""
-    gm = 1.0 - system.mu
-    rel = np.asarray(target_pos, dtype=float) - np.array([system.positions[0], 0.0, 0.0])
-    u = rel / np.linalg.norm(rel)
-    n = _plane_normal(u, inc)
-    e2 = np.cross(n, u)
-    th = math.radians(GUESS_ANGLE_DEG)
-    r0 = r_park * (math.cos(th) * u - math.sin(th) * e2)
-    v1, v2 = lambert(r0, rel, tof, gm, prograde=n[2] >= 0.0)
-    return float(np.linalg.norm(v1) - math.sqrt(gm / r_park)), v2, rel
-
 
 def _direct_guesses(pb: _Problem):
     s = pb.system
@@ -612,8 +527,7 @@ def _flyby_guesses(pb: _Problem):
             continue
         m = min(len(arc.t), len(tf))         # an impact ends the samples early
         samples[:m, q] = arc.states[:m]
-    ph = np.linspace(0.0, 1.0, FLYBY_ORBIT_SAMPLES, endpoint=False)
-    orb = np.array([pb.points.at(q) for q in ph])
+    ph, orb = pb.points.grid(FLYBY_ORBIT_SAMPLES)
     tree = cKDTree(orb[:, :3])
     win = samples[first:]                                   # (m, n, 6)
     pos = np.where(np.isfinite(win[..., 0]), 0.0, np.inf)   # a trajectory stopped: no samples
@@ -628,39 +542,11 @@ def _flyby_guesses(pb: _Problem):
         st, post, o = kept[owner[q]], posts[q], orb[j[i, q]]
         dv = float(np.linalg.norm(post[3:] - st[3:]) + np.linalg.norm(win[i, q, 3:] - o[3:]))
         score = float(s.km(dist[i, q])) + FLYBY_MISS_KM_PER_MPS * float(s.mps(dv))
-        x0 = np.concatenate([st[:3] - moon, st[3:], post[3:], [ph[j[i, q]], float(tf[first + i]),
-                                                              float(t_back[owner[q]])]])
+        x0 = np.concatenate([st[:3] - moon, st[3:], post[3:], [ph[j[i, q], 0], float(tf[first + i]),
+                                                              float(t_back[owner[q]])], ph[j[i, q], 1:]])
         rows.append((score, x0))
     rows.sort(key=lambda r: r[0])
     return rows
-
-
-def _newton(pb, z, resid, idx, tol=1e-8, max_step=0.05, iterations=30):
-    """Least-norm Newton steps on ``resid(pb, z)`` over the unknowns ``idx`` (finite
-    differences): a point near ``z`` where the residual is below ``tol``, or None."""
-    z = np.array(z, dtype=float)
-    idx = list(idx)
-    for _ in range(iterations):
-        c = resid(pb, z)
-        if c is None:
-            return None
-        if np.all(np.abs(c) < tol):
-            return z
-        J = np.empty((c.size, len(idx)))
-        for j, i in enumerate(idx):
-            zp = z.copy()
-            zp[i] += 1e-7
-            cp = resid(pb, zp)
-            if cp is None:
-                return None
-            J[:, j] = (cp - c) / 1e-7
-        step = -np.linalg.pinv(J) @ c
-        n = np.linalg.norm(step)
-        if n > max_step:
-            step *= max_step / n
-        z[idx] += step
-    c = resid(pb, z)
-    return z if c is not None and np.all(np.abs(c) < tol) else None
 
 
 #: Smoothing of the flyby burn's norm in the objective, LU/TU (~1 mm/s): its gradient exists at
@@ -695,6 +581,10 @@ class _FlybyShooting:
     flyby are perpendicular to the radius; its altitude is at least the minimum; ``t1 + t2`` at
     most the cap. Objective: departure + flyby + insertion Δv.
 
+    A target with more than one insertion phase (a torus: ``pb.points.nphase`` 2) appends the
+    further phases to ``x`` (index 12 on); ``pb.points.partials`` gives the insertion state's
+    derivatives with respect to all of them.
+
     The derivatives (Betts 2010, §4.4; Pavlak 2013, ch. 3): the end states' by the STMs and
     the vector field, the perigee functions' by the chain rule through them."""
 
@@ -711,9 +601,17 @@ class _FlybyShooting:
         self.stops = [impact(0, 0.2 * r_e), impact(1, 0.999 * r_m)]
         self.cache = {}
         self.evaluations = 0
+        k = int(getattr(pb.points, "nphase", 1))
+        self.n = 11 + k
+        self.phase_index = [9] + list(range(12, self.n))
+        self.scales = np.concatenate([FLYBY_SCALES, np.full(k - 1, FLYBY_SCALES[9])])
 
     def unpack(self, x):
         return x[0:3], x[3:6], x[6:9], x[9], x[10], x[11]
+
+    def phases(self, x):
+        """The insertion phases of ``x`` (the orbit's one, or a torus's two)."""
+        return np.asarray(x, dtype=float)[self.phase_index]
 
     def evaluate(self, x):
         x = np.asarray(x, dtype=float)
@@ -741,8 +639,7 @@ class _FlybyShooting:
         if a.status != "time" or b.status != "time":
             return None
         s_p, end = np.array(a.final_state), np.array(b.final_state)
-        orb = pb.points.at(ph)
-        d_orb = pb.points.T * acceleration(self.mu, orb)
+        orb, d_orb = pb.points.partials(self.phases(x))
         per = _perigee_summary(s, s_p)
         dv_fb = v_post - v_pre
         dv_ins = orb[3:] - end[3:]
@@ -752,13 +649,13 @@ class _FlybyShooting:
                 "phi1": np.array(a.stm), "phi2": np.array(b.stm), "f_p": acceleration(self.mu, s_p),
                 "f_end": acceleration(self.mu, end), "d_orb": d_orb}
 
-    # derivatives of the two end states with respect to x (6 x 12 each)
+    # derivatives of the two end states with respect to x (6 x n each)
     def _d_states(self, e):
-        dsp = np.zeros((6, 12))
+        dsp = np.zeros((6, self.n))
         dsp[:, 0:3] = e["phi1"][:, :3]
         dsp[:, 3:6] = e["phi1"][:, 3:]
         dsp[:, 11] = -e["f_p"]
-        dend = np.zeros((6, 12))
+        dend = np.zeros((6, self.n))
         dend[:, 0:3] = e["phi2"][:, :3]
         dend[:, 6:9] = e["phi2"][:, 3:]
         dend[:, 10] = e["f_end"]
@@ -788,7 +685,7 @@ class _FlybyShooting:
     def jac(self, x):
         e = self.evaluate(x)
         if e is None:
-            return np.zeros(12)
+            return np.zeros(self.n)
         dsp, dend = self._d_states(e)
         _, _, g_dv = self._perigee_grads(e["s_p"])
         g = g_dv @ dsp
@@ -798,7 +695,7 @@ class _FlybyShooting:
         g[3:6] -= u
         w = e["dv_ins"] / np.linalg.norm(e["dv_ins"])
         g += -(w @ dend[3:])
-        g[9] += float(w @ e["d_orb"][3:])
+        g[self.phase_index] += w @ e["d_orb"][3:]
         return g
 
     def neq(self):
@@ -822,13 +719,13 @@ class _FlybyShooting:
 
     def eq_jac(self, x):
         e = self.evaluate(x)
-        J = np.zeros((self.neq(), 12))
+        J = np.zeros((self.neq(), self.n))
         if e is None:
             return J
         p, v_pre, v_post, _, _, _ = self.unpack(x)
         dsp, dend = self._d_states(e)
         J[0:3] = dend[:3]
-        J[0:3, 9] -= e["d_orb"][:3]
+        J[0:3, self.phase_index] -= e["d_orb"][:3]
         g_r, g_rv, _ = self._perigee_grads(e["s_p"])
         J[3] = g_r @ dsp
         J[4] = g_rv @ dsp
@@ -849,7 +746,7 @@ class _FlybyShooting:
 
     def ineq_jac(self, x):
         p = x[0:3]
-        J = np.zeros((2, 12))
+        J = np.zeros((2, self.n))
         J[0, 0:3] = p / np.linalg.norm(p)
         J[1, 10] = J[1, 11] = -1.0
         return J
@@ -872,12 +769,12 @@ class _FlybyShooting:
                 J = np.vstack([J, self.ineq_jac(x)[:1]])
             if np.all(np.abs(c) < tol) and g[1] >= 0.0:
                 return x
-            Js = J * FLYBY_SCALES
+            Js = J * self.scales
             step = -np.linalg.lstsq(Js, c, rcond=None)[0]
             n = float(np.linalg.norm(step))
             if n > max_step:
                 step *= max_step / n
-            x = x + step * FLYBY_SCALES
+            x = x + step * self.scales
         return x if self.feasible(x, tol) else None
 
 
@@ -898,7 +795,7 @@ def _optimise_flyby(pb: _Problem, x0, ms=None):
     x = ms.newton(x0)
     if x is None or not _surface_clear(pb, ms, x):
         return None, None, None, False
-    sc = FLYBY_SCALES
+    sc = ms.scales
     stall = FLYBY_STALL_MPS / pb.system.mps(1.0)
     cost = ms.evaluate(x)["cost"]
     used, converged, message = 0, False, "iteration limit"
@@ -1088,6 +985,7 @@ def _design_flyby(pb: _Problem, guesses: int, t_start: float) -> Departure:
     return _build(pb, z, e, converged, {
         "evaluations": ms.evaluations, "seconds": time.perf_counter() - t_start, "scan_seconds": t_scan,
         "constraint_residuals": np.abs(ms.eq(x)).tolist(), "guesses": tried,
+        "insertion_phases": [float(p % 1.0) for p in ms.phases(x)],
         "method": "two coasts joined at the lunar periapsis (multiple shooting, gradients from the "
                   "coasts' state transition matrices): least-norm Newton to a feasible transfer, then "
                   "SLSQP on the total delta-v; first guesses from a batch scan of periapsis states at "

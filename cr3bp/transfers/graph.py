@@ -527,15 +527,20 @@ def _parking_leg(system, task) -> Leg:
     st = task["settings"]
     arrive = st["arrive"]                     # parking -> orbit
     data = task["to" if arrive else "from"]["orbit_data"]
+    earth = system.name == "earth-moon" and str(st["body"]).lower() == "earth"
     if data.get("torus"):
-        # a torus: the direct departure with the insertion point free over both torus angles
-        # (cr3bp.tori.departure; plan() lets only Earth departures in Earth-Moon through)
+        # a torus: the departure (direct or lunar-flyby) with the insertion point free over both
+        # torus angles (cr3bp.tori.departure), or the return, its time-reverse
+        # (cr3bp.transfers.returns); plan() lets only Earth parking orbits in Earth-Moon through
+        torus = _torus_from_plain(system, data)
+        if not arrive:
+            return _return_leg(torus, st)
         from ..tori.departure import design_torus_departure  # lazy: only for tori
-        dep = design_torus_departure(_torus_from_plain(system, data), st["altitude_km"],
+        dep = design_torus_departure(torus, st["altitude_km"], path=st.get("path") or "direct",
                                      inclination_deg=st.get("inclination_deg"))
         return as_leg(dep, st["patches"])
     orbit = _orbit_from_plain(system, data)
-    departs = arrive and system.name == "earth-moon" and str(st["body"]).lower() == "earth"
+    departs = arrive and earth
     if st.get("path") == "low-energy":
         return _low_energy_leg(orbit, st)
     if st.get("path") is not None:
@@ -547,21 +552,25 @@ def _parking_leg(system, task) -> Leg:
     if not manifold_may_reach(orbit, st["body"], st["altitude_km"]):
         # no manifold of this orbit comes down to the parking orbit: no periapsis search (it
         # cannot succeed); a departure goes straight to the direct design, a return has none
+        # and a return to an Earth parking orbit is the direct departure's time-reverse
         if departs:
             return _direct_departure_leg(orbit, st)
+        if earth:
+            return _return_leg(orbit, st)
         raise NoSolutionError(
             f"no unstable manifold of an Earth-Moon orbit about {orbit.point} comes below about "
-            f"{MANIFOLD_EARTH_FLOOR_KM:.0f} km over the Earth (parking orbit at {st['altitude_km']:g} km), "
-            "and a direct return to a parking orbit is not designed")
+            f"{MANIFOLD_EARTH_FLOOR_KM:.0f} km over the Earth (parking orbit at {st['altitude_km']:g} km)")
     try:
         found = _periapsis_legs(orbit, st["body"], st["altitude_km"], "stable" if arrive else "unstable",
                                 st["tube_points"])
     except LibrateError:
         # no manifold reaches the parking orbit: a direct departure optimised in the CR3BP
-        # (cr3bp.transfers.departure)
-        if not departs:
-            raise
-        return _direct_departure_leg(orbit, st)
+        # (cr3bp.transfers.departure), or its time-reverse to return (cr3bp.transfers.returns)
+        if departs:
+            return _direct_departure_leg(orbit, st)
+        if earth and not arrive:
+            return _return_leg(orbit, st)
+        raise
     best = min(found, key=lambda lg: (lg.dv_mps, lg.tof))
     return best.with_patches(st["patches"])
 
@@ -579,6 +588,15 @@ def _direct_departure_leg(orbit, st) -> Leg:
     dep = design_departure(orbit, st["altitude_km"], path=st.get("path") or "direct",
                            inclination_deg=st.get("inclination_deg"))
     return as_leg(dep, st["patches"])
+
+
+def _return_leg(target, st) -> Leg:
+    """The direct return (:func:`cr3bp.transfers.returns.design_return`, the time-reverse of a
+    departure) from ``target`` (an orbit or a torus) to the Earth parking orbit of the task
+    settings ``st``, as a leg (kind "arrival")."""
+    from .returns import as_leg as return_leg, design_return   # lazy: only for returns to the Earth
+    return return_leg(design_return(target, st["altitude_km"], inclination_deg=st.get("inclination_deg")),
+                      st["patches"])
 
 
 def _low_energy_leg(orbit, st) -> Leg:
@@ -834,11 +852,11 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
             if why is None and isinstance(n, OrbitNode) and n.is_torus and (
                     isinstance(a, BoundaryNode) or isinstance(b, BoundaryNode)
                     or (isinstance(a, ParkingNode) and not _earth_departure(system, a))
-                    or isinstance(b, ParkingNode)):
-                why = (f"torus node '{n.name}': of the parking, capture and escape legs only a direct departure "
-                       "from an Earth parking orbit in Earth-Moon to a torus is built (cr3bp.tori.departure); "
-                       "returns to a parking orbit, captures and escapes of tori are not yet; a targeted leg "
-                       "departs or arrives at the torus's reference state (phase 0, 0)")
+                    or (isinstance(b, ParkingNode) and not _earth_departure(system, b))):
+                why = (f"torus node '{n.name}': of the parking, capture and escape legs only departures from "
+                       "an Earth parking orbit in Earth-Moon to a torus (cr3bp.tori.departure) and returns "
+                       "to one (cr3bp.transfers.returns) are built; captures and escapes of tori are not "
+                       "yet; a targeted leg departs or arrives at the torus's reference state (phase 0, 0)")
         low_energy = bool(h and h.path == "low-energy")
         if why is None and low_energy and not isinstance(a, ParkingNode):
             # (the other direction of a both-ways hint: a low-energy leg only departs)
@@ -851,7 +869,7 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
         # (a scenario's 'path'); None: the graph's choice
         asked = (h.path if h and h.path in CR3BP_DEPARTURE_PATHS else getattr(a, "path", None)) \
             if isinstance(a, ParkingNode) else None
-        if why is None and asked not in (None, "direct") and getattr(b, "is_torus", False):
+        if why is None and asked not in (None, "direct", "lunar-flyby") and getattr(b, "is_torus", False):
             why = (f"torus node '{b.name}': a '{asked}' departure to a torus is not designed (a direct "
                    "departure to a torus is)")
         sa, sb = states[a.id], states[b.id]

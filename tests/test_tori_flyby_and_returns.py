@@ -1,0 +1,279 @@
+"""Lunar-flyby departures to a torus, and returns from an orbit or a torus to an Earth parking orbit
+(:mod:`cr3bp.tori.departure`, :mod:`cr3bp.transfers.returns`, ``librate connect``).
+
+Checks against the outside world:
+
+* scipy.integrate.solve_ivp, DOP853 (Hairer, Nørsett & Wanner, "Solving Ordinary Differential
+  Equations I", 2nd ed., 1993, §II.10) on the equations of motion written out in
+  tests/_independent_cr3bp.py (Szebehely, "Theory of Orbits", 1967): every coast of each new
+  transfer, from its first burn, closes on the next burn (1 km, the design's closure tolerance);
+  the insertion state of the torus flyby and the departure state of the torus return are the torus
+  states of the reported phases, propagated by scipy from the invariance circle (the torus function
+  W(theta0, theta1) = phi_tau(u(theta1 - rho tau / T)); Olikara & Scheeres, AAS 12-361, 2012, §II);
+  a return ends at the perigee radius of the parking orbit with the circular speed there and no
+  radial velocity.
+* Time reversal (Szebehely, "Theory of Orbits", 1967, §2.9: the CR3BP is invariant under y -> -y,
+  t -> -t): a return from an orbit symmetric about the x-z plane (an L1 halo) costs what the
+  departure to it costs, burn by burn, and takes as long.
+* The perigee burn of a return from the Moon's distance against the two-body Hohmann value from a
+  200 km circular orbit (Vallado, "Fundamentals of Astrodynamics and Applications", 4th ed., 2013,
+  §6.3, eq. 6-3; GM of the Earth 398600.4418 km^3/s^2, IERS Conventions 2010, table 1.1; the Moon's
+  mean distance 384 400 km, common practice): about 3.1 km/s (common practice).
+* Seam: a flyby to a small quasi-halo about the 9:2 NRHO costs within tens of m/s of the flyby to
+  the NRHO itself (the torus is a small neighbour of the orbit); ``librate connect`` gives the
+  library's numbers.
+"""
+
+import json
+import math
+
+import numpy as np
+import pytest
+
+import _independent_cr3bp as ind
+from _orbit_cache import em, nrho_9_2
+from cr3bp.tori import circle
+from cr3bp.tori import request as treq
+from cr3bp.transfers.departure import CLOSURE_TOL_KM
+from librate_cli.main import main
+
+pytestmark = [pytest.mark.slow, pytest.mark.filterwarnings("ignore::cr3bp.time.scales.LeapSecondsExpiredWarning")]
+
+#: A small quasi-halo about the 9:2 L2 southern NRHO.
+NRHO_TORUS = "quasi-halo around halo L2 south resonance=9:2 amplitude=300km"
+#: A small quasi-halo about an L1 halo (as in tests/test_tori_transfers.py).
+RING = "quasi-halo around halo L1 north az=10000km amplitude=300km"
+HALO = "halo L1 north az=10000km"
+#: "Tens of m/s" between the flyby to the torus and to its NRHO (the seam).
+SEAM_MPS = 50.0
+GM_EARTH = 398600.4418            # km^3/s^2, IERS Conventions 2010, table 1.1
+MOON_DISTANCE_KM = 384400.0       # common practice
+
+
+def _torus_state(torus, a, b):
+    """The torus point of phases (a, b) in revolutions, propagated by scipy from the circle."""
+    tau = (a % 1.0) * torus.stroboscopic_time
+    u = circle.evaluate(torus.circle, [2 * math.pi * b - torus.rotation * (a % 1.0)])[0]
+    return u if tau == 0 else ind.propagate(em().mu, u, tau)
+
+
+def _coasts_close(maneuvers, s):
+    """Each coast, propagated by scipy from the state after its burn, reaches the next burn (km)."""
+    worst = 0.0
+    for a, b in zip(maneuvers[:-1], maneuvers[1:]):
+        st = np.array(a["state_before"], float)
+        st[3:] += a["dv_vector"]
+        end = ind.propagate(s.mu, st, b["t"] - a["t"])
+        worst = max(worst, s.km(np.linalg.norm(end[:3] - np.asarray(b["position"]))))
+    return worst
+
+
+@pytest.fixture(scope="module")
+def nrho_torus():
+    return treq.solve(em(), NRHO_TORUS)
+
+
+@pytest.fixture(scope="module")
+def torus_flyby(nrho_torus):
+    from cr3bp.tori.departure import design_torus_departure
+    return design_torus_departure(nrho_torus, 200.0, path="lunar-flyby", min_flyby_altitude_km=100.0)
+
+
+def test_flyby_to_a_torus_closes_under_scipy_and_inserts_on_the_torus(nrho_torus, torus_flyby):
+    d, s = torus_flyby, em()
+    assert d.path == "lunar-flyby" and [m["name"] for m in d.maneuvers] == ["departure", "flyby", "insertion"]
+    assert d.flyby_altitude_km >= 100.0 - 1e-3
+    assert _coasts_close(d.maneuvers, s) < CLOSURE_TOL_KM
+    ins = d.maneuvers[-1]
+    after = np.asarray(ins["state_before"], float) + np.r_[0.0, 0.0, 0.0, ins["dv_vector"]]
+    a, b = (v / 360.0 for v in d.details["torus_phase_deg"])
+    w = _torus_state(nrho_torus, a, b)
+    assert s.km(np.linalg.norm(after[:3] - w[:3])) < 0.01                 # 10 m
+    assert np.linalg.norm(after[3:] - w[3:]) * s.velocity_kms * 1e6 < 1.0  # 1 mm/s
+    # the departure perigee on the 200 km parking orbit
+    st0 = d.departure_state
+    rel = st0[:3] - np.array([-s.mu, 0.0, 0.0])
+    assert s.km(np.linalg.norm(rel)) - s.primary.radius_km == pytest.approx(200.0, abs=0.01)
+
+
+@pytest.fixture(scope="module")
+def nrho_flyby():
+    from cr3bp.transfers.departure import design_departure
+    return design_departure(nrho_9_2(), 200.0, path="lunar-flyby", min_flyby_altitude_km=100.0)
+
+
+def test_flyby_to_a_torus_costs_what_the_flyby_to_its_nrho_costs(torus_flyby, nrho_flyby):
+    assert torus_flyby.dv_mps == pytest.approx(nrho_flyby.dv_mps, abs=SEAM_MPS)
+    assert 3100.0 <= torus_flyby.departure_dv_mps <= 3200.0
+
+
+def test_flyby_return_from_the_nrho_is_the_flyby_departure_reversed(nrho_flyby):
+    """The 9:2 NRHO is symmetric about the x-z plane: the lunar-flyby return from it costs what the
+    flyby departure to it costs (time reversal), and closes under scipy on the parking orbit."""
+    from cr3bp.transfers.returns import design_return
+    s = em()
+    ret = design_return(nrho_9_2(), 200.0, path="lunar-flyby", min_flyby_altitude_km=100.0)
+    assert [m["name"] for m in ret.maneuvers] == ["departure", "flyby", "insertion"]
+    assert ret.dv_mps == pytest.approx(nrho_flyby.dv_mps, abs=1.0)
+    assert ret.tof_days == pytest.approx(nrho_flyby.tof_days, abs=0.01)
+    assert ret.flyby_altitude_km >= 100.0 - 1e-3
+    assert _coasts_close(ret.maneuvers, s) < CLOSURE_TOL_KM
+    assert ret.perigee_altitude_km == pytest.approx(200.0, abs=0.01)
+
+
+# ---- returns ---------------------------------------------------------------------------------
+
+@pytest.fixture(scope="module")
+def halo_return(tmp_path_factory):
+    """``librate connect`` from the halo to the parking orbit (JSON) and the library's return."""
+    out = tmp_path_factory.mktemp("ret")
+    argv = ["connect", "--system=earth-moon", f"--from={HALO}", "--to=parking earth 200km", "--path=direct",
+            "--format=json", f"--out={out}/r.json", f"--plot={out}/r.png", "--quiet"]
+    assert main(argv) == 0
+    from cr3bp.orbits.request import solve_request
+    from cr3bp.transfers.returns import design_return
+    halo = solve_request(em(), HALO)
+    return json.loads((out / "r.json").read_text())["legs"][0], design_return(halo, 200.0), halo, out
+
+
+def test_return_from_a_halo_closes_under_scipy_on_the_parking_orbit(halo_return):
+    leg, ret, halo, out = halo_return
+    s = em()
+    assert [m["name"] for m in leg["maneuvers"]] == ["departure", "insertion"]
+    assert leg["dv_mps"] == pytest.approx(ret.dv_mps, rel=1e-9)              # CLI = library
+    assert (out / "r.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    assert _coasts_close(ret.maneuvers, s) < CLOSURE_TOL_KM
+    # the start is on the halo: scipy carries the orbit's state to the reported phase
+    on = ind.propagate(s.mu, halo.state, ret.insertion_phase * halo.period) if ret.insertion_phase else halo.state
+    assert s.km(np.linalg.norm(np.asarray(ret.maneuvers[0]["state_before"])[:3] - on[:3])) < 0.01
+    # the end: perigee radius of the 200 km orbit, circular speed there, no radial velocity (scipy)
+    first = np.array(ret.maneuvers[0]["state_before"], float)
+    first[3:] += ret.maneuvers[0]["dv_vector"]
+    end = ind.propagate(s.mu, first, ret.tof)
+    end[3:] += ret.maneuvers[-1]["dv_vector"]
+    rel = end[:3] - np.array([-s.mu, 0.0, 0.0])
+    vin = end[3:] + np.array([-rel[1], rel[0], 0.0])
+    r_km = s.km(np.linalg.norm(rel))
+    assert r_km - s.primary.radius_km == pytest.approx(200.0, abs=0.01)
+    v_circ = math.sqrt((1 - s.mu) / np.linalg.norm(rel))
+    assert abs(np.linalg.norm(vin) - v_circ) * s.velocity_kms * 1e3 < 0.01          # 1 cm/s
+    assert abs(rel @ vin) / (np.linalg.norm(rel) * np.linalg.norm(vin)) < 1e-6
+    assert leg["perigee_altitude_km"] == pytest.approx(200.0, abs=0.01)
+
+
+def test_return_equals_the_departure_by_time_reversal(halo_return):
+    from cr3bp.transfers.departure import design_departure
+    _, ret, halo, _ = halo_return
+    dep = design_departure(halo, 200.0)
+    assert ret.dv_mps == pytest.approx(dep.dv_mps, abs=0.5)
+    assert ret.insertion_dv_mps == pytest.approx(dep.departure_dv_mps, abs=0.5)
+    ins_mps = em().mps(np.linalg.norm(dep.maneuvers[-1]["dv_vector"]))
+    assert ret.departure_dv_mps == pytest.approx(ins_mps, abs=0.5)
+    assert ret.tof_days == pytest.approx(dep.tof_days, abs=0.01)
+    assert ret.inclination_deg == pytest.approx(dep.inclination_deg, abs=0.1)
+
+
+def test_return_perigee_burn_against_hohmann(halo_return):
+    _, ret, _, _ = halo_return
+    r = 6378.137 + 200.0
+    a = 0.5 * (r + MOON_DISTANCE_KM)
+    hohmann_mps = (math.sqrt(GM_EARTH * (2 / r - 1 / a)) - math.sqrt(GM_EARTH / r)) * 1e3
+    assert 3000.0 < hohmann_mps < 3200.0
+    assert ret.insertion_dv_mps == pytest.approx(hohmann_mps, abs=150.0)
+
+
+@pytest.fixture(scope="module")
+def ring_return(tmp_path_factory):
+    out = tmp_path_factory.mktemp("ring")
+    assert main(["connect", "--system=earth-moon", f"--from={RING}", "--to=parking earth 200km", "--path=direct",
+                 "--format=json", f"--out={out}/r.json", "-q"]) == 0
+    return json.loads((out / "r.json").read_text())["legs"][0]
+
+
+def test_return_from_a_torus_starts_on_the_torus(ring_return):
+    leg = ring_return
+    s = em()
+    ring = treq.solve(s, RING)
+    a, b = (v / 360.0 for v in leg["torus_phase_deg"])
+    w = _torus_state(ring, a, b)
+    start = np.array(leg["start_state"], float)          # on the torus, before the departure burn
+    assert s.km(np.linalg.norm(start[:3] - w[:3])) < 0.01
+    assert np.linalg.norm(start[3:] - w[3:]) * s.velocity_kms * 1e6 < 1.0
+    assert leg["perigee_altitude_km"] == pytest.approx(200.0, abs=0.01)
+    assert [m["name"] for m in leg["maneuvers"]] == ["departure", "insertion"]
+    assert 3000.0 < leg["insertion_dv_mps"] < 3300.0
+
+
+SCENARIO = f"""
+[mission]
+name = "Ring return"
+issued = "2031-01-01T00:00:00"
+
+[system]
+name = "earth-moon"
+epoch = "2031-03-01T00:00:00Z"
+
+[orbits.ring]
+torus = "{RING}"
+
+[[transfers]]
+name = "home"
+from = "ring"
+to = "parking earth 200km"
+best = 1
+
+[plots]
+interactive = false
+"""
+
+
+def test_scenario_return_from_a_torus_equals_connect(ring_return, tmp_path):
+    """Seam: the scenario's transfer from a torus to 'parking earth 200km' (graph leg -> route) gives
+    ``librate connect``'s return number for number."""
+    from cr3bp.catalog import Catalog
+    from cr3bp.scenario import run as mission
+    p = tmp_path / "s.toml"
+    p.write_text(SCENARIO)
+    mission.run(mission.prepare(p), tmp_path / "out", catalog=Catalog(":memory:"), reduced=True)
+    best = json.loads((tmp_path / "out" / "route-home.json").read_text())["best"]
+    assert best["dv_total_mps"] == pytest.approx(ring_return["dv_mps"], rel=1e-9)
+    assert best["legs"][0]["kind"] == "parking"
+
+
+FLYBY_SCENARIO = f"""
+[mission]
+name = "Quasi-halo by the Moon"
+issued = "2031-01-01T00:00:00"
+
+[system]
+name = "earth-moon"
+epoch = "2031-03-01T00:00:00Z"
+
+[orbits.quasi]
+torus = "{NRHO_TORUS}"
+
+[[transfers]]
+name = "up"
+from = "parking earth 200km"
+to = "quasi"
+path = "lunar-flyby"
+best = 1
+
+[plots]
+interactive = false
+"""
+
+
+def test_scenario_flyby_to_a_torus_equals_the_library(torus_flyby, tmp_path):
+    """Seam: a scenario transfer with ``path = "lunar-flyby"`` to a torus (graph parking leg -> route)
+    gives the library's flyby departure (design_torus_departure) number for number."""
+    from cr3bp.catalog import Catalog
+    from cr3bp.scenario import run as mission
+    p = tmp_path / "s.toml"
+    p.write_text(FLYBY_SCENARIO)
+    mission.run(mission.prepare(p), tmp_path / "out", catalog=Catalog(":memory:"), reduced=True)
+    best = json.loads((tmp_path / "out" / "route-up.json").read_text())["best"]
+    # (the graph designs in a worker process, where the flyby optimiser's rounds end apart from the
+    # library's: measured 0.0005 and 0.24 m/s in two runs, so the flyby is not bit-reproducible there;
+    # the direct design agrees to 1e-9, tests/test_tori_transfers.py)
+    assert best["dv_total_mps"] == pytest.approx(torus_flyby.dv_mps, abs=1.0)
