@@ -46,6 +46,10 @@ def flyby(tmp_path_factory):
 def test_three_burns_the_flyby_at_or_above_the_minimum_and_the_model(flyby):
     leg, out = flyby
     assert leg["path"] == "lunar-flyby" and leg["model"] == "cr3bp"
+    # optimised on the default time-of-flight bound (10 d), first-order conditions checked
+    # (tests/test_departure_flyby_optimality.py)
+    assert leg["optimised"] is True and "max-tof" in leg["bounds_hit"]
+    assert leg["tof_days"] <= 10.0 + 1e-6
     assert [m["name"] for m in leg["maneuvers"]] == ["departure", "flyby", "insertion"]
     assert leg["flyby_altitude_km"] >= 100.0 - 1e-3
     s = em()

@@ -23,7 +23,9 @@ def add_arguments(p):
                         "raises the perigee, 70-130 d, designed in the bicircular Sun-Earth-Moon model; see --epoch)")
     g.add_argument("--max-tof", default=None, metavar="TIME",
                    help="longest time of flight, departure to insertion, with its unit (default 150d; "
-                        "at most 400d; with --path low-energy default 130d, more than 70d, at most 200d)")
+                        "with --path lunar-flyby default 10d, where the delta-v keeps falling slowly with "
+                        "longer flights so the optimum lies on this bound; at most 400d; with --path "
+                        "low-energy default 130d, more than 70d, at most 200d)")
     g.add_argument("--min-flyby-altitude", default=None, metavar="LENGTH",
                    help="--path lunar-flyby: least altitude of the lunar flyby over the Moon's mean radius, "
                         "with its unit (default 100km; above 0 to 20000km)")
@@ -66,7 +68,8 @@ def check(args, system, parking, returning=False):
                          f"earth-moon system; got {text!r} in {system.name}")
     if not 100.0 <= alt <= 50_000.0:
         raise InputError(f"parking altitude {alt:g} km in {text!r}; allowed with --path: 100km to 50000km")
-    tof = 150.0
+    from cr3bp.transfers.departure import FLYBY_MAX_TOF_DAYS, MAX_TOF_DAYS  # lazy: start-up of the CLI (scipy)
+    tof = FLYBY_MAX_TOF_DAYS if args.path == "lunar-flyby" else MAX_TOF_DAYS
     if args.max_tof is not None:
         tof = system.days(quantity("--max-tof", args.max_tof, "time", system, sign="positive"))
         if not 1.0 <= tof <= 400.0:
@@ -111,7 +114,18 @@ def run(args, system, parking, to_parking=None):
                            min_flyby_altitude_km=fb)
     d = dep.to_dict()
     rows = [[m["name"], m["t_days"], m["dv_mps"], *m["position_km"]] for m in d["maneuvers"]]
-    head = [f"{args.origin} -> {args.target}: {args.path} departure ({'optimised' if dep.optimised else 'first guess: the optimiser stopped short of its tolerance'})",
+    fo = dep.details.get("first_order")
+    if fo is not None:            # the flyby path: its first-order check and the bounds it hit
+        state = (f"optimised: first-order (KKT) conditions hold, relative remainder {fo['relative_residual']:.1e} "
+                 f"(tolerance {fo['tolerance']:g})" if dep.optimised else
+                 f"not proven optimal: first-order (KKT) remainder {fo['relative_residual']:.1e} above its "
+                 f"tolerance {fo['tolerance']:g}")
+        state += "; bounds hit: " + (", ".join(
+            f"max-tof ({tof:g} d)" if b == "max-tof" else f"min-flyby-altitude ({fb:g} km)"
+            for b in fo["bounds_hit"]) or "none")
+    else:
+        state = "optimised" if dep.optimised else "first guess: the optimiser stopped short of its tolerance"
+    head = [f"{args.origin} -> {args.target}: {args.path} departure ({state})",
             f"CR3BP total dv {dep.dv_mps:.1f} m/s: departure {dep.departure_dv_mps:.1f} m/s"
             + "".join(f", {m['name']} {m['dv_mps']:.1f} m/s" for m in d["maneuvers"][1:]),
             f"CR3BP time of flight {dep.tof_days:.3f} d (departure burn to insertion burn)",

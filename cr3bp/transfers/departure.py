@@ -39,8 +39,13 @@ Its first guesses come from a scan of periapsis states at the minimum altitude
 (:func:`_flyby_guesses`, the backward half in one batch propagation): those that came from
 near the Earth, given a tangential burn and followed forward, pass close to the target orbit;
 each is made feasible by least-norm Newton steps, then optimised by rounds of SLSQP, each
-round's end made feasible again; the search ends when SLSQP converges (``optimised`` True) or
-a round gains less than ``FLYBY_STALL_MPS`` (``optimised`` False: feasible, not proven least).
+round's end made feasible again, with the time of flight bounded (``max_tof_days``, by default
+``FLYBY_MAX_TOF_DAYS``: the cost keeps falling slowly with longer flights, so the optimum lies on
+that bound). The search ends when the first-order (Karush-Kuhn-Tucker) conditions hold at the
+cheapest feasible point to ``FLYBY_KKT_TOL`` (``optimised`` True; ``bounds_hit`` names the
+active bounds, ``max-tof`` and/or ``min-flyby-altitude``), or a round gains less than
+``FLYBY_STALL_MPS`` or the iterations run out (``optimised`` False: feasible, not proven a
+local minimum).
 
 First guesses of the direct path come from two-body arcs about the Earth (Lambert's problem,
 :mod:`cr3bp.transfers.lambert`, Izzo 2015): for each insertion phase on a grid and each time
@@ -273,6 +278,7 @@ class Departure:
             "inclination_reference": "the Moon's orbit plane (the model's x-y plane)",
             "insertion_phase": self.insertion_phase,
             "optimised": self.optimised,
+            "bounds_hit": list(self.details.get("bounds_hit") or []),
             "departure_state": self.departure_state.tolist(),
             "position_frame": "Earth-Moon rotating frame, origin at the barycentre",
             "details": _plain(self.details),
@@ -552,6 +558,18 @@ def _flyby_guesses(pb: _Problem):
 #: Smoothing of the flyby burn's norm in the objective, LU/TU (~1 mm/s): its gradient exists at
 #: an unpowered flyby.
 FLYBY_SMOOTH = 1e-6
+#: Default bound on the time of flight, departure to insertion (days): the direct path, and the
+#: flyby path, whose cost keeps falling slowly (a few m/s a day, measured to the 9:2 NRHO) with
+#: longer flights, so that its optimum lies on this bound.
+MAX_TOF_DAYS = 150.0
+FLYBY_MAX_TOF_DAYS = 10.0
+#: First-order optimality of the flyby programme (:func:`_flyby_first_order`): relative
+#: tolerance on the KKT remainder, how close to its bound an inequality counts as active (LU
+#: for the flyby radius, 1e-7 is 38 m; TU for the time of flight, 1e-5 is 3.8 s), and the
+#: names of the two inequalities in the result.
+FLYBY_KKT_TOL = 1e-3
+FLYBY_ACTIVE_TOL = (1e-7, 1e-5)
+FLYBY_BOUND_NAMES = ("min-flyby-altitude", "max-tof")
 #: Variable scales of the flyby programme (SLSQP works on x / scale): periapsis position (LU),
 #: velocities (LU/TU), insertion phase, coast times (TU).
 FLYBY_SCALES = np.array([1e-3] * 3 + [1.0] * 6 + [0.1, 1.0, 1.0])
@@ -782,25 +800,29 @@ def _optimise_flyby(pb: _Problem, x0, ms=None):
     """From the guess ``x0`` of :func:`_flyby_guesses`: the backward coast time set to the
     guess's perigee, least-norm Newton steps to a feasible transfer, then rounds of SLSQP on the
     total Δv (analytic gradients; scaled variables, each constraint row divided by its gradient's
-    norm at the round's start), each round's end made feasible again by Newton, until SLSQP
-    converges, a round gains less than FLYBY_STALL_MPS, or FLYBY_MAX_ITER iterations are spent.
+    norm at the round's start), each round's end made feasible again by Newton, until the
+    first-order conditions hold at the cheapest feasible point (:func:`_flyby_first_order`), a
+    round gains less than FLYBY_STALL_MPS, or FLYBY_MAX_ITER iterations are spent.
     Returns (a summary dict or None, evaluation of the cheapest feasible point or None, that
-    point, whether SLSQP converged there)."""
+    point, the first-order check there or None). The summary holds the iterations, the reason
+    it stopped and the feasible start's cost (``start_cost``, LU/TU): the point returned never
+    costs more than that start."""
     ms = ms or _FlybyShooting(pb)
     x0 = np.array(x0, dtype=float)
     hit = pb.earth.find(np.concatenate([ms.moon + x0[0:3], x0[3:6]]), pb.max_tof - x0[10])
     if hit is None:
-        return None, None, None, False
+        return None, None, None, None
     x0[11] = -hit[0]
     x = ms.newton(x0)
     if x is None or not _surface_clear(pb, ms, x):
-        return None, None, None, False
+        return None, None, None, None
     sc = ms.scales
     stall = FLYBY_STALL_MPS / pb.system.mps(1.0)
-    cost = ms.evaluate(x)["cost"]
-    used, converged, message = 0, False, "iteration limit"
+    cost = start_cost = ms.evaluate(x)["cost"]
+    used, message = 0, "iteration limit"
+    kkt = _flyby_first_order(ms, x)
     with serial(numba_threads=False):     # SLSQP's small dense algebra on one BLAS thread
-        while used < FLYBY_MAX_ITER:
+        while used < FLYBY_MAX_ITER and not kkt["holds"]:
             w = 1.0 / np.maximum(np.linalg.norm(ms.eq_jac(x) * sc, axis=1), 1e-12)
             fs = 1.0 / max(float(np.linalg.norm(ms.jac(x) * sc)), 1e-12)
             cons = [{"type": "eq", "fun": lambda y: w * ms.eq(y * sc),
@@ -818,14 +840,48 @@ def _optimise_flyby(pb: _Problem, x0, ms=None):
             gain = cost - c2
             if c2 < cost:
                 x, cost = x2, c2
+                kkt = _flyby_first_order(ms, x)
+            if kkt["holds"]:
+                break
             if res.status == 0:
-                converged, message = True, "converged (SLSQP)"
+                message = "SLSQP converged, but the first-order conditions do not hold to their tolerance"
                 break
             if gain < stall:
                 message = (f"stalled: the last round of {FLYBY_ROUND} iterations gained less than "
                            f"{FLYBY_STALL_MPS:g} m/s")
                 break
-    return {"iterations": used, "message": message}, ms.evaluate(x), x, converged
+    if kkt["holds"]:
+        message = (f"first-order (KKT) conditions hold (relative remainder {kkt['relative_residual']:.1e}, "
+                   f"tolerance {FLYBY_KKT_TOL:g})")
+    return {"iterations": used, "message": message, "start_cost": start_cost}, ms.evaluate(x), x, kkt
+
+
+def _flyby_first_order(ms, x) -> dict:
+    """The Karush-Kuhn-Tucker (first-order) conditions of the flyby programme at ``x``.
+
+    In SLSQP's scaled variables (``x / ms.scales``): the inequalities within
+    ``FLYBY_ACTIVE_TOL`` of their bound are active; the multipliers of the equalities and the
+    active inequalities are the least-squares solution of ``grad f = A^T lambda``; the
+    conditions hold when the remainder ``|grad f - A^T lambda|`` is at most ``FLYBY_KKT_TOL``
+    times ``|grad f|`` and every active inequality's multiplier is at least ``-FLYBY_KKT_TOL``
+    times ``|grad f|`` (``g(x) >= 0`` constraints pull with non-negative multipliers).
+    Nocedal & Wright, *Numerical Optimization*, 2nd ed., 2006, Theorem 12.1.
+
+    Returns a dict: ``holds``, ``relative_residual``, ``bounds_hit`` (names of the active
+    inequalities: ``min-flyby-altitude``, ``max-tof``), ``multipliers_active``."""
+    sc = ms.scales
+    g = ms.jac(x) * sc
+    g_ineq = ms.ineq(x)
+    active = [k for k in range(2) if g_ineq[k] <= FLYBY_ACTIVE_TOL[k]]
+    A = np.vstack([ms.eq_jac(x) * sc] + [ms.ineq_jac(x)[k:k + 1] * sc for k in active])
+    lam = np.linalg.lstsq(A.T, g, rcond=None)[0]
+    gn = max(float(np.linalg.norm(g)), 1e-300)
+    rel = float(np.linalg.norm(g - A.T @ lam)) / gn
+    mu_act = lam[A.shape[0] - len(active):] / gn
+    holds = rel <= FLYBY_KKT_TOL and bool(np.all(mu_act >= -FLYBY_KKT_TOL))
+    return {"holds": bool(holds), "relative_residual": rel, "tolerance": FLYBY_KKT_TOL,
+            "bounds_hit": [FLYBY_BOUND_NAMES[k] for k in active],
+            "multipliers_active": [float(v) for v in mu_act]}
 
 
 def _surface_clear(pb, ms, x):
@@ -841,7 +897,7 @@ def _surface_clear(pb, ms, x):
 
 def design_departure(orbit, altitude_km: float = 200.0, *, path: str = "direct",
                      inclination_deg: float | None = None, min_flyby_altitude_km: float = 100.0,
-                     max_tof_days: float = 150.0, guesses: int | None = None,
+                     max_tof_days: float | None = None, guesses: int | None = None,
                      _allow_unfinished: bool = False) -> Departure:
     """The least-Δv departure found from a circular parking orbit about the Earth to ``orbit``.
 
@@ -856,8 +912,10 @@ def design_departure(orbit, altitude_km: float = 200.0, *, path: str = "direct",
         Inclination of the parking orbit to the Moon's orbit plane (free when None).
     min_flyby_altitude_km : float
         Least altitude of the lunar periapsis (flyby path).
-    max_tof_days : float
-        Longest time of flight, departure to insertion.
+    max_tof_days : float, optional
+        Longest time of flight, departure to insertion (default ``MAX_TOF_DAYS``, or
+        ``FLYBY_MAX_TOF_DAYS`` on the flyby path, where the cost keeps falling slowly with
+        longer flights; the result's ``details["bounds_hit"]`` says whether the bound is active).
     guesses : int, optional
         First guesses optimised (default GUESSES_OPTIMISED, or FLYBY_GUESSES_OPTIMISED).
 
@@ -898,6 +956,8 @@ def design_departure(orbit, altitude_km: float = 200.0, *, path: str = "direct",
     altitude_km = validate.number_in("parking altitude (km)", altitude_km, 100.0, 50_000.0)
     if inclination_deg is not None:
         inclination_deg = validate.number_in("inclination (deg)", inclination_deg, 0.0, 180.0)
+    if max_tof_days is None:
+        max_tof_days = FLYBY_MAX_TOF_DAYS if path == "lunar-flyby" else MAX_TOF_DAYS
     max_tof_days = validate.number_in("maximum time of flight (d)", max_tof_days, 1.0, 400.0)
     if path == "lunar-flyby":
         min_flyby_altitude_km = validate.number_in("minimum flyby altitude (km)", min_flyby_altitude_km,
@@ -968,28 +1028,32 @@ def _design_flyby(pb: _Problem, guesses: int, t_start: float) -> Departure:
     t_scan = time.perf_counter() - t_scan
     best, tried = None, []
     for score, x0 in rows[:max(1, guesses)]:
-        res, e, x, converged = _optimise_flyby(pb, x0, ms)
+        res, e, x, kkt = _optimise_flyby(pb, x0, ms)
         tried.append({"score": score, "feasible": e is not None,
+                      "start_mps": None if res is None else float(system.mps(res["start_cost"])),
                       "result_mps": None if e is None else float(system.mps(e["cost"])),
                       "iterations": None if res is None else res["iterations"],
-                      "converged": converged, "message": "no feasible start" if res is None else res["message"]})
+                      "first_order": kkt, "message": "no feasible start" if res is None else res["message"]})
         if e is not None and (best is None or e["cost"] < best[1]["cost"]):
-            best = (x, e, converged)
+            best = (x, e, kkt)
     if best is None:
         raise NoSolutionError(f"no lunar-flyby departure met the constraints (parking altitude "
                               f"{system.km(pb.r_park) - system.primary.radius_km:g} km, flyby at least "
                               f"{system.km(pb.r_fb) - system.secondary.radius_km:g} km) from "
                               f"{min(len(rows), max(1, guesses))} first guess(es) of {len(rows)}")
-    x, e, converged = best
+    x, e, kkt = best
     z = np.concatenate([[x[9] % 1.0], e["dv_ins"]])
-    return _build(pb, z, e, converged, {
+    return _build(pb, z, e, kkt["holds"], {
         "evaluations": ms.evaluations, "seconds": time.perf_counter() - t_start, "scan_seconds": t_scan,
         "constraint_residuals": np.abs(ms.eq(x)).tolist(), "guesses": tried,
         "insertion_phases": [float(p % 1.0) for p in ms.phases(x)],
+        "max_tof_days": float(system.days(pb.max_tof)), "bounds_hit": list(kkt["bounds_hit"]),
+        "first_order": kkt,
         "method": "two coasts joined at the lunar periapsis (multiple shooting, gradients from the "
                   "coasts' state transition matrices): least-norm Newton to a feasible transfer, then "
-                  "SLSQP on the total delta-v; first guesses from a batch scan of periapsis states at "
-                  "the least flyby altitude, propagated back to the Earth and forward to the orbit"})
+                  "SLSQP on the total delta-v until the first-order (KKT) conditions hold; first guesses "
+                  "from a batch scan of periapsis states at the least flyby altitude, propagated back to "
+                  "the Earth and forward to the orbit"})
 
 
 def _repair(pb: _Problem, z):

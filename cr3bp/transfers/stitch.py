@@ -190,6 +190,7 @@ class _Problem:
         self.tau0, self.leg_of, x0 = [], [], []
         self.junction = {}            # boundary index k (between segment k and k+1) -> node position
         self.inner_burn = set()       # boundaries inside a leg where it declares a maneuver
+        self.inner_name = {}          # such a boundary -> the burn's own name in its leg (e.g. flyby)
         self.start_burn = _has_burn(legs[0], 0.0)
         self.end_burn = _has_burn(legs[-1], legs[-1].tof)
         for i, leg in enumerate(legs):
@@ -198,13 +199,16 @@ class _Problem:
                 self.tau0.append(times[j + 1] - times[j])
                 self.leg_of.append(i)
                 x0.append(st)
-            inner = [m.t for m in leg.maneuvers if 0.0 < m.t < leg.tof]
-            for tm in inner:
+            inner = [(m.t, getattr(m, "name", "")) for m in leg.maneuvers if 0.0 < m.t < leg.tof]
+            for tm, burn_name in inner:
                 hit = [j for j in range(1, len(times) - 1) if abs(times[j] - tm) <= 1e-9 * max(1.0, tm)]
                 if not hit:
                     raise InputError(f"leg {leg.origin or i}: a maneuver at t = {tm:.6g} TU is not "
                                      "at a patch point")
-                self.inner_burn.add(len(self.tau0) - len(leg.patch_states) + hit[0] - 1)
+                k_in = len(self.tau0) - len(leg.patch_states) + hit[0] - 1
+                self.inner_burn.add(k_in)
+                if burn_name:
+                    self.inner_name[k_in] = str(burn_name)
             if i + 1 < len(legs):
                 gap = float(np.linalg.norm(np.array(leg.arrival_state[:3]) -
                                            np.array(legs[i + 1].departure_state[:3])))
@@ -682,7 +686,7 @@ def _result(system, p, z, legs, constraints, optimised, note, iterations):
         after = np.concatenate([before[:3], before[3:] + dv])
         trim = (k == -1 and p.trim_start) or (k == p.K - 1 and p.trim_end)
         man.append({"t_days": t * system.time_days, "node": boundary_node.get(k, "patch point"),
-                    "name": maneuver_name(k, p.K, k in p.junction), "trim": bool(trim),
+                    "name": p.inner_name.get(k) or maneuver_name(k, p.K, k in p.junction), "trim": bool(trim),
                     "position_lu": pos.tolist(), "position_km": (pos * system.length_km).tolist(),
                     "dv_vector_mps": [float(system.mps(v)) for v in dv], "dv_mps": float(system.mps(float(np.linalg.norm(dv)))),
                     "state_after_lu": after.tolist(),
@@ -711,7 +715,8 @@ def _result(system, p, z, legs, constraints, optimised, note, iterations):
 def maneuver_name(k: int, n_segments: int, junction: bool) -> str:
     """What a burn of a stitched route is, by where it sits: ``departure`` (the route's start),
     ``insertion`` (its end), ``junction`` (where two legs meet at a node), ``correction`` (a
-    patch point inside a leg).
+    patch point inside a leg). A burn a leg declares with its own name (a lunar-flyby
+    departure's ``flyby``) keeps that name instead (the stitcher looks it up first).
 
     Parameters
     ----------
