@@ -78,7 +78,7 @@ RAY_START = 0.2
 #: way from the amplitudes reached to the target; a step is kept when its amplitudes land
 #: within ``RAY_BAD`` of its point (relative to the step), and may grow only when they land
 #: within ``RAY_GOOD``; at most ``RAY_MAX_SOLVES`` torus solves.
-RAY_FIRST_STEP, RAY_MAX_STEP, RAY_MIN_STEP = 0.25, 1.0, 1e-3
+RAY_FIRST_STEP, RAY_MAX_STEP, RAY_MIN_STEP = 0.04, 1.0, 1e-3
 RAY_GOOD, RAY_BAD = 0.2, 0.5
 #: ... the step grows by ``RAY_GROWTH`` after a torus solve of at most ``RAY_EASY`` Newton
 #: iterations and shrinks by ``RAY_SHRINK`` after one of more than ``RAY_HARD`` (the torus
