@@ -357,22 +357,25 @@ def _start(system, point, t, say, km, seen, reached):
 
 
 def _ray(system, point, t, p, m, J, target, rtol, say, km, seen, reached):
-    """Step 4 (and the correction of step 3): the family walked in amplitude along the line
-    from the amplitudes ``m0`` reached by steps 1-2 to the target, ``m0 + f ((Ay, Az) - m0)``,
+    """Step 3 of the module notes: the family walked in amplitude along the line from the
+    amplitudes ``m0`` of the small torus to the target, ``m0 + f ((Ay, Az) - m0)``,
     ``0 < f <= 1``, then the target met to ``rtol``.
 
     Natural-parameter continuation in the amplitudes with one corrector step per point
     (Allgower & Georg, "Introduction to Numerical Continuation Methods", SIAM 2003, §1-2; the
     parameters of the two-parameter family of tori as in Baresi, Olikara & Scheeres 2018):
     each step moves (C, a) by Broyden's estimate of ``d(ay, az)/d(C, a)`` towards the next
-    point of the line (the torus itself warm-started by the family's tangent predictor,
-    :func:`_solve_at`) and updates the estimate with the amplitudes measured (Broyden 1965).
+    point of the line (the torus itself solved by :func:`_solve_at`) and updates the estimate with the amplitudes measured (Broyden, "A class
+    of methods for solving nonlinear simultaneous equations", Math. Comp. 19, 1965).
     The point need not be met: the next step aims at the line again from wherever this one
-    landed. A step is kept when the amplitudes moved at least half way to its point
-    (``RAY_BAD``); the step doubles after a step that landed within ``RAY_GOOD`` of its point,
-    and halves after a torus solve that failed or a step not kept (the first of these in a row
-    also refreshes the estimate by finite differences). At ``f = 1`` the same steps repeat
-    until both amplitudes are within ``rtol``.
+    landed. Each torus is predicted by the quadratic through the last three tori of the walk
+    (:func:`_extrapolate`; the family's tangent before that). A step is kept when the
+    amplitudes moved at least half way to its point (``RAY_BAD``); the step grows by
+    ``RAY_GROWTH`` after a torus Newton of at most ``RAY_EASY`` iterations that landed within
+    ``RAY_GOOD`` of its point, shrinks after one of more than ``RAY_HARD``, and halves after a
+    solve that failed or a step not kept (the first of these in a row also refreshes the
+    estimate by finite differences). At ``f = 1`` the same steps repeat until both amplitudes
+    are within ``rtol``.
     """
     def measure(t):
         mm = np.array(measured_amplitudes(t))
