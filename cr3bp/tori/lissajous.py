@@ -56,7 +56,6 @@ import numpy as np
 from ..errors import ConvergenceError, InputError, NoSolutionError
 from . import circle, seeds, solver
 from .family import hold_tangents
-from .stability import stability
 from .store import cached_torus
 from .torus import SurfaceError, build, lissajous_near_point, solve_adaptive, torus_around
 from ..equilibria import lagrange_point
@@ -222,9 +221,11 @@ def _lissajous(system, point, ay_lu, az_lu, progress, rtol, catalog):
     extra = dict(t.extra)
     extra.update({"ay_lu": float(m[0]), "az_lu": float(m[1]), "target_iterations": its,
                   "ray_steps": steps, "target_ay_lu": ay_lu, "target_az_lu": az_lu})
-    stab = stability(system, t.circle, t.stroboscopic_time, t.rotation)
-    return t.__class__(**{**{f: getattr(t, f) for f in t.__dataclass_fields__}, "extra": extra,
-                          "stability": stab})
+    # the walk's tori were measured without their closest approaches: the last one in full
+    # (the same surface sampling, so the same extents) with its stability
+    return build(system, t.circle, t.stroboscopic_time, t.rotation, t.invariance_error,
+                 t.invariance_tolerance, family=t.family, point=t.point, around=t.around,
+                 holds=t.holds, iterations=t.iterations, extra=extra)
 
 
 def _solve_at(system, point, t, C, a, ref, guess=None):
@@ -254,7 +255,7 @@ def _solve_at(system, point, t, C, a, ref, guess=None):
     return build(system, u1, T1, rho1, info["invariance_error"], info["invariance_tolerance"],
                  family="lissajous", point=point, around=t.around,
                  holds=holds, iterations=t.iterations + info["iterations"],
-                 with_stability=False)
+                 with_stability=False, with_approaches=False)
 
 
 #: The last tangent computed (one torus and reference at a time; the objects are kept alive
