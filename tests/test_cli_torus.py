@@ -78,10 +78,10 @@ def test_lissajous_and_family_bad_input_exit_2(capsys, argv, words):
 
 
 def test_lissajous_unreachable_target_exit_3_with_range(capsys, monkeypatch):
-    # the family is allowed only 2 members, far too few to grow Az to 150000 km: refused with
+    # the walk is allowed only 2 torus solves, far too few to grow Az to 150000 km: refused with
     # status 3 and the range of amplitudes that was reached
     import cr3bp.tori.lissajous as liss
-    monkeypatch.setattr(liss, "MAX_MEMBERS", 2)
+    monkeypatch.setattr(liss, "RAY_MAX_SOLVES", 2)
     rc, out, err = run(capsys, "torus", "--system", "sun-earth", "--family", "lissajous",
                        "--point", "L2", "--ay", "300000km", "--az", "150000km", "-q")
     assert rc == 3 and out == "", err

@@ -225,7 +225,7 @@ def hold_tangents(system, t: Torus, holds: dict, reference) -> np.ndarray:
     rhs = np.zeros((jac.shape[0], len(holds)))
     for k in range(len(holds)):
         rhs[6 * n + 2 + k, k] = 1.0      # residual = value - held: d(residual)/d(held) = -1
-    return np.linalg.lstsq(jac, rhs, rcond=None)[0]
+    return solver._lstsq(jac, rhs)
 
 
 def continue_family(start: Torus, hold: str = "jacobi", members: int = 10, step: float = 0.02,

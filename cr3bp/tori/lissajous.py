@@ -23,20 +23,25 @@ Method (a two-parameter target needs both parameters of the 2-D family of Lissaj
    with it (the edge ``Ay = 0``) is used. (The estimate used to be ``C_p + C_v - C_L`` from the
    planar orbit with ``Ay`` and the vertical orbit with ``Az``, which grew both periodic
    families whole: about half the CPU time of a torus);
-2. a small torus about it at the orbit's Jacobi constant (:func:`torus.torus_around`),
-   continued by pseudo-arclength at that Jacobi constant (:func:`family.continue_family`)
-   until the other measured amplitude passes its target;
-3. the two held quantities of the torus (Jacobi constant C and RMS circle size a, on the
-   section the phase conditions against one fixed reference torus pick) corrected
-   by a secant (Broyden) iteration on ``(ay - Ay, az - Az)``, the first Jacobian by finite
-   differences; each step is a torus solve warm-started from the previous torus, the step
-   halved when a solve fails. Stops when both amplitudes are within ``AMPLITUDE_RTOL``;
-4. targets larger than ``RAY_START`` times the point's distance from the smaller primary:
-   steps 1-2 for the target scaled down to that size, then continuation along the family in
-   amplitude from the amplitudes reached there to the target, intermediate targets on the
-   line between them met one after the other (``_ray``).
-   (A secant from the edge orbit straight to a large target stalls: the estimate of the
-   Jacobi constant from the edge orbits is poor there.)
+2. a small torus about it at the orbit's Jacobi constant (:func:`torus.torus_around`), its
+   amplitudes measured, and ``d(ay, az)/d(C, a)`` by finite differences in the two held
+   quantities of the torus (Jacobi constant C and RMS circle size a);
+3. a walk along the two-parameter family in (C, a) from the amplitudes of that small torus
+   towards the target on the straight line between them (``_ray``): each step aims at the
+   next point of the line with Broyden's estimate of ``d(ay, az)/d(C, a)``, its torus
+   predicted by the quadratic through the last three tori of the walk (the family's tangent
+   for the first two), the step length adapted to the torus Newton's iterations; at the
+   target the same steps repeat until both amplitudes are within ``AMPLITUDE_RTOL``;
+4. targets larger than ``RAY_START`` times the point's distance from the smaller primary
+   take their Lyapunov orbit and small torus (steps 1-2) for the target scaled down to that
+   size (the linear estimate of the Jacobi constant is poor at the full size, and may put it
+   past the halo bifurcation), and walk (step 3) from there to the full target.
+
+Before 2026-12-03 step 2 continued the small torus at fixed Jacobi constant by
+pseudo-arclength until its other amplitude passed the target, and step 3 met intermediate
+targets one after another with several secant iterations each: 21.5 s of computation for the
+issue's 800000 x 500000 km Sun–Earth L2 example on a quiet machine; the walk takes about a
+tenth of that (``benchmarks/bench_tori.py``).
 
 The target is refused (``NoSolutionError``, CLI exit 3) when the Lyapunov orbit does not exist,
 or the iteration cannot reach it; the message gives the range of (ay, az) reached.
@@ -49,11 +54,10 @@ import math
 import numpy as np
 
 from ..errors import ConvergenceError, InputError, NoSolutionError
-from . import seeds, solver
-from .family import continue_family, hold_tangents
-from .stability import stability
+from . import circle, seeds, solver
+from .family import hold_tangents
 from .store import cached_torus
-from .torus import SurfaceError, build, solve_adaptive, torus_around
+from .torus import SurfaceError, build, lissajous_near_point, solve_adaptive, torus_around
 from ..equilibria import lagrange_point
 from ..orbits.continuation import Stops
 from ..orbits.families import grow_family
@@ -63,22 +67,26 @@ from ..catalog import Catalog
 
 #: Relative tolerance on each measured amplitude.
 AMPLITUDE_RTOL = 1e-5
-MAX_ITER = 14
 POINTS = ("L1", "L2")
 #: The first torus about the Lyapunov orbit: RMS circle size as a fraction of Ay (or Az/sqrt 2).
 SEED_FRACTION = 0.04
-#: Continuation at the orbit's Jacobi constant until the measured Az passes the target.
-MAX_MEMBERS = 200
-FAMILY_STEP, FAMILY_MAX_STEP = 0.005, 0.2
 #: Targets larger than this fraction of the point's distance from the smaller primary (either
-#: amplitude) are reached by continuation along the family in amplitude (step 4), from the
-#: target scaled down to this size.
+#: amplitude) start from the target scaled down to this size (step 4).
 RAY_START = 0.2
-#: Continuation in amplitude: first, largest and smallest step in the fraction f of the
-#: target, Newton iterations per step, tolerance of the intermediate targets (relative).
-RAY_FIRST_STEP, RAY_MAX_STEP, RAY_MIN_STEP = 0.1, 0.4, 1e-3
-RAY_INNER = 5
-RAY_RTOL = 1e-3
+#: Walk in amplitude (``_ray``): first, largest and smallest step in the fraction f of the
+#: way from the amplitudes reached to the target; a step is kept when its amplitudes land
+#: within ``RAY_BAD`` of its point (relative to the step), and may grow only when they land
+#: within ``RAY_GOOD``; at most ``RAY_MAX_SOLVES`` torus solves.
+RAY_FIRST_STEP, RAY_MAX_STEP, RAY_MIN_STEP = 0.04, 1.0, 1e-3
+RAY_GOOD, RAY_BAD = 0.2, 0.5
+#: ... the step grows by ``RAY_GROWTH`` after a torus solve of at most ``RAY_EASY`` Newton
+#: iterations and shrinks by ``RAY_SHRINK`` after one of more than ``RAY_HARD`` (the torus
+#: Newton's range, not the amplitudes' curvature, limits the step: a failed solve costs
+#: several times a good one).
+RAY_GROWTH, RAY_SHRINK, RAY_EASY, RAY_HARD = 1.5, 0.7, 3, 4
+RAY_MAX_SOLVES = 80
+#: Predict each torus of the walk by the quadratic through the last three (``_extrapolate``).
+RAY_QUADRATIC = True
 
 
 def measured_amplitudes(torus) -> tuple[float, float]:
@@ -125,11 +133,11 @@ def lissajous(system, point: str, ay_lu: float, az_lu: float, progress=None,
               rtol: float = AMPLITUDE_RTOL, catalog=None):
     """The Lissajous torus at ``point`` (L1 or L2) with measured amplitudes ``ay_lu, az_lu``.
 
-    Targets up to ``RAY_START`` (times the point's distance from the smaller primary) in both
-    amplitudes are solved directly (module notes, steps 1-3); larger ones by continuation along
-    the two-parameter family in amplitude (step 4): the direct solve at a scaled-down copy of
-    the target ``f0 (Ay, Az)``, then the family followed along the ray ``f (Ay, Az)``,
-    ``f0 < f <= 1``, each step corrected to its intermediate target.
+    A small torus about the planar Lyapunov (or vertical) orbit with the target's estimated
+    Jacobi constant, then a walk along the two-parameter family in amplitude from its
+    amplitudes to the target (module notes, steps 1-3); targets larger than ``RAY_START``
+    (times the point's distance from the smaller primary) take the orbit and small torus for
+    the target scaled down to that size (step 4).
 
     Returns a :class:`Torus` with ``extra["ay_lu"], extra["az_lu"]`` (measured),
     ``extra["target_iterations"]`` and ``extra["ray_steps"]``. ``progress(message)`` receives
@@ -207,21 +215,20 @@ def _lissajous(system, point, ay_lu, az_lu, progress, rtol, catalog):
     target = np.array([ay_lu, az_lu])
     big = RAY_START * _gamma(system, point)
     f0 = min(1.0, big / target.max())
-    t, p, m, J, its = _direct(system, point, f0 * target, rtol, say, km, seen, reached,
-                              correct=f0 == 1.0, catalog=catalog)
-    steps = 0
-    if f0 < 1.0:
-        t, p, m, J, its, steps = _ray(system, point, t, p, m, J, target, f0, rtol, say, km,
-                                      seen, reached)
+    t, p, m, J = _seed(system, point, f0 * target, say, km, seen, reached, catalog=catalog)
+    t, p, m, J, its, steps = _ray(system, point, t, p, m, J, target, rtol, say, km, seen,
+                                  reached)
     extra = dict(t.extra)
     extra.update({"ay_lu": float(m[0]), "az_lu": float(m[1]), "target_iterations": its,
                   "ray_steps": steps, "target_ay_lu": ay_lu, "target_az_lu": az_lu})
-    stab = stability(system, t.circle, t.stroboscopic_time, t.rotation)
-    return t.__class__(**{**{f: getattr(t, f) for f in t.__dataclass_fields__}, "extra": extra,
-                          "stability": stab})
+    # the walk's tori were measured without their closest approaches: the last one in full
+    # (the same surface sampling, so the same extents) with its stability
+    return build(system, t.circle, t.stroboscopic_time, t.rotation, t.invariance_error,
+                 t.invariance_tolerance, family=t.family, point=t.point, around=t.around,
+                 holds=t.holds, iterations=t.iterations, extra=extra)
 
 
-def _solve_at(system, point, t, C, a, ref):
+def _solve_at(system, point, t, C, a, ref, guess=None):
     """The torus holding Jacobi constant C and circle size a, warm-started from ``t`` by the
     family's tangent predictor (:func:`family.hold_tangents`): the whole unknown vector
     ``[U, T, rho]`` of ``t`` moved by ``dx/d(C, a) . (C - C_t, a - a_t)``, so that the
@@ -232,19 +239,23 @@ def _solve_at(system, point, t, C, a, ref):
     correction, the amplitudes are a smooth function of (C, a); a reference that moved with
     every solve made them noisy."""
     holds = {"jacobi": C, "amplitude": a}
-    n = t.n_circle_points
-    key = (id(t), id(ref))
-    if _TANGENTS.get("key") != key:
-        _TANGENTS.clear()
-        _TANGENTS.update(key=key, d=hold_tangents(system, t, holds, ref), t=t, ref=ref)
-    dx = _TANGENTS["d"] @ np.array([C - t.jacobi, a - t.amplitude_lu])
-    x = np.concatenate([t.circle.ravel(), [t.stroboscopic_time, t.rotation]]) + dx
+    if guess is not None:           # the walk's extrapolation along its line (``_ray``)
+        x = guess
+        n = (x.size - 2) // 6
+    else:
+        n = t.n_circle_points
+        key = (id(t), id(ref))
+        if _TANGENTS.get("key") != key:
+            _TANGENTS.clear()
+            _TANGENTS.update(key=key, d=hold_tangents(system, t, holds, ref), t=t, ref=ref)
+        dx = _TANGENTS["d"] @ np.array([C - t.jacobi, a - t.amplitude_lu])
+        x = np.concatenate([t.circle.ravel(), [t.stroboscopic_time, t.rotation]]) + dx
     u, T0, rho0 = x[:6 * n].reshape(n, 6), x[-2], x[-1]
     u1, T1, rho1, info = solve_adaptive(system, u, T0, rho0, holds, reference=ref)
     return build(system, u1, T1, rho1, info["invariance_error"], info["invariance_tolerance"],
                  family="lissajous", point=point, around=t.around,
                  holds=holds, iterations=t.iterations + info["iterations"],
-                 with_stability=False)
+                 with_stability=False, with_approaches=False)
 
 
 #: The last tangent computed (one torus and reference at a time; the objects are kept alive
@@ -267,8 +278,9 @@ def _fd_jacobian(system, point, t, p, m, measure, ref):
     return J
 
 
-def _direct(system, point, target, rtol, say, km, seen, reached, correct=True, catalog=None):
-    """Steps 1-3 of the module notes: (torus, (C, a), measured (ay, az), Jacobian, iterations)."""
+def _seed(system, point, target, say, km, seen, reached, catalog=None):
+    """Steps 1-2 of the module notes: the small torus about the edge orbit for ``target``:
+    (torus, (C, a), measured (ay, az), d(ay, az)/d(C, a) by finite differences)."""
     ay_lu, az_lu = target
 
     def edge(fam_name, key, value):
@@ -291,6 +303,20 @@ def _direct(system, point, target, rtol, say, km, seen, reached, correct=True, c
         say(f"lissajous: the {fam_name} orbit at {point} with Jacobi constant {c_target:.10f}")
         o = (_lyapunov_at(system, point, c_target) if fam_name == "lyapunov"
              else edge(fam_name, "jacobi", c_target))
+        if o is None:
+            # the target is smaller than the planar family's first orbit: the torus from the
+            # linear solution at the point (Richardson 1980), in-plane x amplitude Ay / kappa
+            modes = lagrange_point(system, point).modes
+            d = np.asarray(modes.planar_centre[0], dtype=float)
+            kappa = abs(d[4]) / modes.omega_inplane / abs(d[0])
+            say(f"lissajous: smaller than the planar Lyapunov family's first orbit: the torus "
+                f"from the linear solution at {point}")
+            try:
+                t = lissajous_near_point(system, point, ay_lu / kappa, az_lu)
+            except (ConvergenceError, SurfaceError) as e:
+                raise NoSolutionError(f"no Lissajous torus could be grown from the linear "
+                                      f"solution at {point} ({e})") from None
+            return _start(system, point, t, say, km, seen, reached)
         if seeds.centre_pairs(o.monodromy):
             orbit = o
             break
@@ -307,21 +333,12 @@ def _direct(system, point, target, rtol, say, km, seen, reached, correct=True, c
     except (ConvergenceError, SurfaceError, NoSolutionError) as e:
         raise NoSolutionError(f"no Lissajous torus could be grown from the {fam_name} orbit at "
                               f"{point} ({e})") from None
-    seen.append(np.array(measured_amplitudes(t)))
-    if seen[-1][other] < target[other]:
-        say("lissajous: continuing the family at the orbit's Jacobi constant")
+    return _start(system, point, t, say, km, seen, reached)
 
-        def member(i, m):
-            seen.append(np.array(measured_amplitudes(m)))
-            say(f"lissajous: member {i}, Ay {km(seen[-1][0])}, Az {km(seen[-1][1])}")
-        fam = continue_family(t, "jacobi", members=MAX_MEMBERS, step=FAMILY_STEP,
-                              max_step=FAMILY_MAX_STEP, progress=member,
-                              until=lambda m: measured_amplitudes(m)[other] >= target[other])
-        if fam.stop != "until":
-            raise NoSolutionError(f"the Lissajous family at {point} from the {fam_name} orbit "
-                                  f"did not reach the target ({fam.stop}); {reached()}")
-        t = fam.members[-1]
 
+def _start(system, point, t, say, km, seen, reached):
+    """The walk's start from the small torus ``t``: (torus, (C, a), measured (ay, az),
+    d(ay, az)/d(C, a) by finite differences)."""
     def measure(t):
         m = np.array(measured_amplitudes(t))
         seen.append(m)
@@ -329,64 +346,37 @@ def _direct(system, point, target, rtol, say, km, seen, reached, correct=True, c
 
     p = np.array([t.jacobi, t.amplitude_lu])
     ref = _ref(t)
-    t = _solve_at(system, point, t, *p, ref)   # the member again, its amplitudes measured
-    ref = _ref(t)
+    t = _solve_at(system, point, t, *p, ref)   # the seed again, its amplitudes measured
     m = measure(t)
     say(f"lissajous: start Ay {km(m[0])}, Az {km(m[1])}")
     try:
-        J = _fd_jacobian(system, point, t, p, m, measure, ref)
+        J = _fd_jacobian(system, point, t, p, m, measure, _ref(t))
     except (ConvergenceError, SurfaceError) as e:
         raise NoSolutionError(f"the Lissajous family at {point} could not be followed from "
                               f"Ay {km(m[0])}, Az {km(m[1])} ({e}); {reached()}") from None
-    if not correct:        # the start of step 4: its line begins at the amplitudes reached
-        return t, p, m, J, 0
-    for it in range(1, MAX_ITER + 1):
-        r = m - target
-        if np.all(np.abs(r) <= rtol * target):
-            break
-        try:
-            dp = np.linalg.solve(J, -r)
-        except np.linalg.LinAlgError:
-            raise NoSolutionError(f"the amplitudes stopped responding to the family's "
-                                  f"parameters; {reached()}") from None
-        lam = 1.0
-        while True:
-            q = p + lam * dp
-            try:
-                if not q[1] > 0:
-                    raise ConvergenceError("the torus would shrink to its orbit")
-                t1 = _solve_at(system, point, t, *q, ref)
-                break
-            except (ConvergenceError, SurfaceError) as e:
-                lam /= 2
-                if lam < 1.0 / 64:
-                    raise NoSolutionError(f"the Lissajous torus with Ay {km(ay_lu)}, Az "
-                                          f"{km(az_lu)} at {point} was not reached ({e}); "
-                                          f"{reached()}") from None
-        m1 = measure(t1)
-        s = q - p
-        J += np.outer((m1 - m) - J @ s, s) / (s @ s)      # Broyden's update
-        p, m, t = q, m1, t1
-        say(f"lissajous: iteration {it}, Ay {km(m[0])}, Az {km(m[1])}")
-    else:
-        raise NoSolutionError(f"the Lissajous torus with Ay {km(ay_lu)}, Az {km(az_lu)} at "
-                              f"{point} was not reached in {MAX_ITER} iterations; {reached()}")
-    return t, p, m, J, it
+    return t, np.array([t.jacobi, t.amplitude_lu]), m, J
 
 
-def _ray(system, point, t, p, m, J, target, f0, rtol, say, km, seen, reached):
-    """Step 4: the family followed in amplitude along the line from the amplitudes ``m0``
-    reached by steps 1-2 for the scaled-down target ``f0 (Ay, Az)`` to the target,
-    ``m0 + f ((Ay, Az) - m0)``, ``0 < f <= 1``.
+def _ray(system, point, t, p, m, J, target, rtol, say, km, seen, reached):
+    """Step 3 of the module notes: the family walked in amplitude along the line from the
+    amplitudes ``m0`` of the small torus to the target, ``m0 + f ((Ay, Az) - m0)``,
+    ``0 < f <= 1``, then the target met to ``rtol``.
 
-    Natural-parameter continuation in the amplitudes (Allgower & Georg, "Introduction to
-    Numerical Continuation Methods", SIAM 2003, §1-2; the parameters of the two-parameter
-    family of tori as in Baresi, Olikara & Scheeres 2018): each intermediate target
-    on the line is met by Newton in (C, a) with Broyden's update of ``d(ay, az)/d(C, a)``,
-    starting from the previous torus (the Newton step from it is the predictor); a step that
-    does not converge in ``RAY_INNER`` iterations is retried once with a fresh
-    finite-difference Jacobian, then halved. Intermediate targets are met to ``RAY_RTOL``,
-    the last to ``rtol``.
+    Natural-parameter continuation in the amplitudes with one corrector step per point
+    (Allgower & Georg, "Introduction to Numerical Continuation Methods", SIAM 2003, §1-2; the
+    parameters of the two-parameter family of tori as in Baresi, Olikara & Scheeres 2018):
+    each step moves (C, a) by Broyden's estimate of ``d(ay, az)/d(C, a)`` towards the next
+    point of the line (the torus itself solved by :func:`_solve_at`) and updates the estimate with the amplitudes measured (Broyden, "A class
+    of methods for solving nonlinear simultaneous equations", Math. Comp. 19, 1965).
+    The point need not be met: the next step aims at the line again from wherever this one
+    landed. Each torus is predicted by the quadratic through the last three tori of the walk
+    (:func:`_extrapolate`; the family's tangent before that). A step is kept when the
+    amplitudes moved at least half way to its point (``RAY_BAD``); the step grows by
+    ``RAY_GROWTH`` after a torus Newton of at most ``RAY_EASY`` iterations that landed within
+    ``RAY_GOOD`` of its point, shrinks after one of more than ``RAY_HARD``, and halves after a
+    solve that failed or a step not kept (the first of these in a row also refreshes the
+    estimate by finite differences). At ``f = 1`` the same steps repeat until both amplitudes
+    are within ``rtol``.
     """
     def measure(t):
         mm = np.array(measured_amplitudes(t))
@@ -397,74 +387,100 @@ def _ray(system, point, t, p, m, J, target, f0, rtol, say, km, seen, reached):
     f, df, steps, its = 0.0, RAY_FIRST_STEP, 0, 0
     fresh = False
     ref = _ref(t)
-    while f < 1.0:
+    line = [(0.0, t)]          # the tori reached along the line, by f
+    while True:
+        if f >= 1.0 and np.all(np.abs(m - target) <= rtol * target):
+            break
+        if its >= RAY_MAX_SOLVES:
+            raise NoSolutionError(f"the Lissajous torus with Ay {km(target[0])}, Az "
+                                  f"{km(target[1])} at {point} was not reached in "
+                                  f"{RAY_MAX_SOLVES} steps; {reached()}")
         f1 = min(1.0, f + df)
         goal = m0 + f1 * (target - m0)
-        tol = rtol if f1 == 1.0 else RAY_RTOL
-        pt, mt, tt, Jt = p.copy(), m.copy(), t, J.copy()
-        ok, k = False, 0
-        for k in range(1, RAY_INNER + 1):
-            try:
-                dp = np.linalg.solve(Jt, goal - mt)
-                q = pt + dp
-                if not q[1] > 0:
-                    break
-                t1 = _solve_at(system, point, tt, *q, ref)
-            except (ConvergenceError, SurfaceError, np.linalg.LinAlgError):
-                break
-            m1 = measure(t1)
-            s = q - pt
-            Jt += np.outer((m1 - mt) - Jt @ s, s) / (s @ s)
-            if np.abs(m1 - goal).max() > np.abs(mt - goal).max() and k > 1:
-                break
-            pt, mt, tt = q, m1, t1
-            if np.all(np.abs(mt - goal) <= tol * goal):
+        ok = False
+        try:
+            q = p + np.linalg.solve(J, goal - m)
+            if q[1] > 0:
+                t1 = _solve_at(system, point, t, *q, ref, guess=_extrapolate(line, f1))
                 ok = True
-                break
-        its += k
+        except (ConvergenceError, SurfaceError, np.linalg.LinAlgError):
+            pass
+        its += 1
+        miss = math.inf
         if ok:
-            p, m, t, J, f = pt, mt, tt, Jt, f1
+            m1 = measure(t1)
+            s = q - p
+            J = J + np.outer((m1 - m) - J @ s, s) / (s @ s)       # Broyden's update
+            miss = float(np.abs(m1 - goal).max() / max(np.abs(goal - m).max(), 1e-300))
+        if miss <= RAY_BAD:
+            t0_iterations = t.iterations
+            if f1 > f:
+                line.append((f1, t1))
+            t, m, f = t1, m1, f1
             # the next step's reference: this torus, its circle size on the new section
             ref = _ref(t)
             p = np.array([t.jacobi, t.amplitude_lu])
             steps += 1
             fresh = False
-            say(f"lissajous: along the family, {100 * f:.1f}% of the target: Ay {km(m[0])}, "
+            say(f"lissajous: along the family, {100 * f:.1f}% of the way: Ay {km(m[0])}, "
                 f"Az {km(m[1])}")
-            if k <= 2:
-                df = min(2 * df, RAY_MAX_STEP)
+            newton = t1.iterations - t0_iterations
+            if miss <= RAY_GOOD and newton <= RAY_EASY:
+                df = min(RAY_GROWTH * df, RAY_MAX_STEP)
+            elif newton > RAY_HARD:
+                df *= RAY_SHRINK
             continue
         if not fresh:
+            fresh = True
             try:
                 J = _fd_jacobian(system, point, t, p, m, measure, ref)
-                fresh = True
-                continue
+                its += 2
             except (ConvergenceError, SurfaceError):
                 pass
         df /= 2
-        fresh = False
         if df < RAY_MIN_STEP:
             raise NoSolutionError(f"the Lissajous torus with Ay {km(target[0])}, Az "
                                   f"{km(target[1])} at {point} was not reached: the family "
-                                  f"could not be followed past {100 * f:.1f}% of the target "
+                                  f"could not be followed past {100 * f:.1f}% of the way "
                                   f"(Ay {km(m[0])}, Az {km(m[1])}); {reached()}")
     return t, p, m, J, its, steps
+
+
+def _extrapolate(line, f1):
+    """The unknowns ``[U, T, rho]`` at ``f1`` extrapolated by the quadratic through the last
+    three tori of the walk (Lagrange's form; their circles on the largest N among them), or
+    None (fewer than three, or ``f1`` not beyond them). The tangent predictor is first order
+    (its miss grows as the square of the step); this one is second order, which lets the walk
+    take longer steps within the torus Newton's range (Allgower & Georg, SIAM 2003, §2.3:
+    polynomial predictors through previous points)."""
+    if not RAY_QUADRATIC or len(line) < 3 or f1 <= line[-1][0]:
+        return None
+    pts = line[-3:]
+    n = max(tt.n_circle_points for _, tt in pts)
+    fs = [fk for fk, _ in pts]
+    x = 0.0
+    for i, (fi, ti) in enumerate(pts):
+        w = 1.0
+        for j, fj in enumerate(fs):
+            if j != i:
+                w *= (f1 - fj) / (fi - fj)
+        u = ti.circle if ti.n_circle_points == n else circle.resample(ti.circle, n)
+        x = x + w * np.concatenate([u.ravel(), [ti.stroboscopic_time, ti.rotation]])
+    return x
 
 
 def _lyapunov_at(system, point, jacobi):
     """The planar Lyapunov orbit at ``point`` with this Jacobi constant: the family grown from
     the point only until a member passes it (:class:`cr3bp.orbits.continuation.Stops` target),
-    no bifurcations located."""
+    no bifurcations located; None when the family's first orbit is already larger (a Jacobi
+    constant that close to the point's)."""
     try:
         fam = grow_family(system, "lyapunov", point, stops=Stops(target=("jacobi", jacobi)),
                           locate_bifurcations=False)
     except (NoSolutionError, ConvergenceError) as e:
         raise NoSolutionError(f"no lyapunov orbit at {point} with Jacobi constant {jacobi!r} to "
                               f"start the Lissajous torus from ({e})") from None
-    if fam.target is None:
-        raise NoSolutionError(f"the lyapunov family at {point} does not reach the Jacobi "
-                              f"constant {jacobi!r} of the Lissajous target")
-    return fam.target
+    return fam.target           # None: the family's first orbit is already larger
 
 
 def _gamma(system, point):

@@ -16,8 +16,8 @@ Gómez & Mondelo, Physica D 157, 2001, §3):
 The invariance block has a 4-dimensional kernel at a solution (two phase shifts, and the
 two-parameter family of 2-D tori of the spatial problem), so a single torus needs two held
 quantities and a family member one held quantity plus the arclength condition. The system is
-solved by Gauss-Newton with numpy's ``lstsq`` (one redundant equation: the Jacobi constant is
-an integral of the flow) and halving damping. All N points are propagated with their STMs in
+solved by Gauss-Newton in the least-squares sense (reduced QR, ``_lstsq``; one redundant
+equation: the Jacobi constant is an integral of the flow) and halving damping. All N points are propagated with their STMs in
 one :func:`cr3bp.integrate.propagate_batch` call per iteration (no Python loop over points).
 """
 
@@ -251,6 +251,25 @@ def check_holds(holds: dict, n_needed: int) -> dict:
     return {k: float(v) for k, v in holds.items()}
 
 
+#: The QR solve of a Newton step falls back to numpy's SVD least squares when the smallest
+#: diagonal entry of R is below this fraction of the largest (a rank-deficient Jacobian).
+QR_RANK_TOL = 1e-12
+
+
+def _lstsq(jac, rhs):
+    """Least-squares solution of ``jac x = rhs`` (tall, full column rank) by a reduced QR
+    factorisation (Golub & Van Loan, *Matrix Computations*, 4th ed., 2013, §5.3.3): measured
+    about twice as fast as numpy's ``lstsq`` (an SVD) on the torus Jacobians (6 N + 4 rows);
+    the SVD when R is (numerically) singular."""
+    q, r = np.linalg.qr(jac)
+    d = np.abs(np.diag(r))
+    if d.size and d.min() > QR_RANK_TOL * d.max():
+        x = np.linalg.solve(r, q.T @ rhs)
+        if np.all(np.isfinite(x)):
+            return x
+    return np.linalg.lstsq(jac, rhs, rcond=None)[0]
+
+
 def _residual_and_jacobian(system, x, n, ref, holds, arclength, with_jacobian=True):
     mu = system.mu
     u = x[:6 * n].reshape(n, 6)
@@ -360,7 +379,7 @@ def solve(system, u0, T0, rho0, holds, reference=None, arclength=None, max_iter=
     for it in range(1, max_iter + 1):
         if norm < done:
             break
-        step = np.linalg.lstsq(jac, -f, rcond=None)[0]
+        step = _lstsq(jac, -f)
         # damping: trial points are judged by their residual alone (no STMs: about a seventh
         # of the cost); the Jacobian is computed once, at the accepted point
         lam = 1.0

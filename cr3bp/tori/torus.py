@@ -436,7 +436,7 @@ def example_torus(**changes) -> "Torus":
 
 
 def build(system, u, T, rho, err, tol=INVARIANCE_TOL, samples=GEOMETRY_SAMPLES,
-          with_stability=True, **kw) -> Torus:
+          with_stability=True, with_approaches=True, **kw) -> Torus:
     """Torus with its geometry (closest approaches, extents) measured on the surface and its
     stability (eigenvalues of the discretised map; skipped with ``with_stability=False``).
 
@@ -461,6 +461,9 @@ def build(system, u, T, rho, err, tol=INVARIANCE_TOL, samples=GEOMETRY_SAMPLES,
         Time samples per stroboscopic time.
     with_stability : bool
         Compute the map's eigenvalues.
+    with_approaches : bool
+        Compute the closest approaches to the primaries (else left NaN: for the intermediate
+        tori of a search that needs only the extents).
     **kw
         Further :class:`Torus` fields (family, point, holds, ...).
 
@@ -493,7 +496,8 @@ def build(system, u, T, rho, err, tol=INVARIANCE_TOL, samples=GEOMETRY_SAMPLES,
     grid = _padded_surface(system, ug, T, samples)
     ext = {name: (-refined_max(-grid[:, :, i]), refined_max(grid[:, :, i]))
            for i, name in enumerate("xyz")}
-    ca = tuple(closest_approach(system, grid, c, T / samples) for c in (-system.mu, 1 - system.mu))
+    ca = ((float("nan"), float("nan")) if not with_approaches else
+          tuple(closest_approach(system, grid, c, T / samples) for c in (-system.mu, 1 - system.mu)))
     return Torus(system=system, circle=u, stroboscopic_time=T, rotation=rho, jacobi=float(C.mean()),
                  jacobi_spread=float(C.max() - C.min()), invariance_error=err,
                  invariance_tolerance=tol,
