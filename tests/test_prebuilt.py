@@ -158,7 +158,8 @@ def test_sources_cover_everything_the_built_kernels_read():
     cr3bp module it reads through an attribute, and the module that assigns each constant it
     reads, must be in prebuilt.SOURCES (else an edit there would not mark the build stale)."""
     from numba.core.dispatcher import Dispatcher
-    roots = [dop853.integrate, jit_kernels.eom, jit_kernels.grad_omega,
+    from cr3bp.integrate import lanes
+    roots = [dop853.integrate, dop853.integrate_rows, lanes._run_block, jit_kernels.eom, jit_kernels.grad_omega,
              jit_kernels.hessian_omega, jit_kernels._jacobi_many]
     package = Path(prebuilt.__file__).resolve().parent.parent
     mods = [m for n, m in sys.modules.items() if n.startswith("cr3bp") and getattr(m, "__file__", None)]
@@ -190,6 +191,7 @@ def test_sources_cover_everything_the_built_kernels_read():
     assert not missing, f"add to prebuilt.SOURCES: {missing}"
     assert (package / "integrate/coefficients.py").resolve() in needed   # the walk sees constants
     assert (package / "fidelity/forces.py").resolve() in needed          # and modules read by attribute
+    assert (package / "integrate/lanes.py").resolve() in needed
 
 
 def test_build_writes_a_loadable_module_and_removes_stale_ones(tmp_path, monkeypatch, fresh_lookup):
@@ -276,3 +278,125 @@ def test_a_torus_computed_in_a_fresh_process_does_not_start_numba(tmp_path):
     done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env)
     assert done.returncode == 0, done.stderr[-2000:]
     assert done.stdout.strip() == "False"
+
+
+# ---- batch blocks on Python threads (no numba) -------------------------------------------
+
+def _batch_inputs(n, stm, seed=11):
+    """Arguments and empty outputs of a batch of ``n`` trajectories near the halo, final times
+    of both signs, with a counted plane event (a few crossings recorded)."""
+    from cr3bp.integrate.modes import MODE_STATE, MODE_STM
+    rng = np.random.default_rng(seed)
+    s = HALO + 1e-3 * rng.standard_normal((n, 6))
+    y0s = np.hstack([s, np.tile(np.eye(6).ravel(), (n, 1))]) if stm else s.copy()
+    tf = rng.uniform(0.5, 3.0, n) * np.where(np.arange(n) % 5 == 0, -1.0, 1.0)
+    tab = np.ascontiguousarray(events.table([events.plane("y", 0.0, count=3)]))
+    m = 2
+    args = (MODE_STM if stm else MODE_STATE, np.array([EM.mu]), np.ascontiguousarray(y0s), 0.0, tf,
+            1e-11, 1e-12, np.inf, 10**6, tab, m)
+    return args
+
+
+def _outputs(n, dim, m=2):
+    return (np.full((n, dim), np.nan), np.full(n, np.nan), np.zeros(n, dtype=np.int64),
+            np.zeros(n, dtype=np.int64), np.zeros(n, dtype=np.int64), np.zeros((n, m)),
+            np.zeros((n, m, 6)), np.zeros((n, m), dtype=np.int64), np.zeros(n, dtype=np.int64),
+            np.zeros(n, dtype=np.int64))
+
+
+@pytest.mark.parametrize("stm", [False, True])
+def test_prebuilt_blocks_on_threads_equal_numbas_lanes_bit_for_bit(stm):
+    """The prebuilt lane block (lanes._run_block built ahead of time, GIL released) run over
+    1, 2 and 3 Python threads gives exactly numba's parallel lane kernel's outputs (bytes
+    equal: same source, same compiler, same processor), whatever the split."""
+    from cr3bp.integrate import lanes
+    from cr3bp.integrate.propagate import _run_prebuilt
+    k = _current()
+    n = 37
+    args = _batch_inputs(n, stm)
+    dim = args[2].shape[1]
+    ref = _outputs(n, dim)
+    lanes.integrate_lanes(*args, 3, *ref)
+    assert np.isfinite(ref[0]).all() and (ref[3] > 0).any()      # events were recorded
+    for nthreads in (1, 2, 3):
+        got = _outputs(n, dim)
+        _run_prebuilt(k, args, got, nthreads=nthreads)
+        for u, v in zip(got, ref):
+            assert u.tobytes() == v.tobytes(), nthreads
+
+
+def test_other_models_run_the_prebuilt_rows_on_threads_with_numbas_results():
+    """A bicircular batch (not a lane model) runs integrate_rows over thread blocks: bytes
+    equal to numba's parallel integrate_batch, for 1 and 2 threads."""
+    from cr3bp.bicircular import _model, bicircular_system
+    from cr3bp.integrate.propagate import _run_prebuilt
+    k = _current()
+    mode_state, _, params = _model(bicircular_system("earth-moon", sun_phase=0.3))
+    n = 11
+    args = (int(mode_state), np.ascontiguousarray(params),) + _batch_inputs(n, False)[2:]
+    ref = _outputs(n, 6)
+    dop853.integrate_batch(*args, False, *ref)
+    for nthreads in (1, 2):
+        got = _outputs(n, 6)
+        _run_prebuilt(k, args, got, nthreads=nthreads)
+        for u, v in zip(got, ref):
+            assert u.tobytes() == v.tobytes(), nthreads
+
+
+def test_the_block_split_is_the_lane_kernels():
+    from cr3bp.integrate import lanes
+    from cr3bp.integrate.propagate import _BLOCK, _LANES, _blocks
+    assert (_LANES, _BLOCK) == (lanes.LANES, lanes.BLOCK)
+    for n in (1, 7, 8, 9, 100, 513, 5000):
+        for t in (1, 2, 8):
+            assert _blocks(n, t) == max(1, min(max(1, -(-n // lanes.LANES)),
+                                                    max(t, -(-n // lanes.BLOCK))))
+
+
+def test_prebuilt_blocks_release_the_gil():
+    """While one thread runs a long prebuilt block, the main thread keeps running Python code
+    (a kernel holding the GIL would let it run at most a tick or two before and after)."""
+    import threading
+    import time
+    k = _current()
+    n = 64
+    args = _batch_inputs(n, True)
+    args = args[:4] + (np.full(n, 30.0),) + args[5:]
+    outs = _outputs(n, 42)
+    done = threading.Event()
+
+    def run():
+        k.lanes_block(*args, 0, n, *outs)
+        done.set()
+
+    th = threading.Thread(target=run)
+    ticks = 0
+    th.start()
+    t_end = time.monotonic() + 60
+    while not done.is_set() and time.monotonic() < t_end:
+        ticks += 1             # pure Python: runs only while the kernel has let the GIL go
+        time.sleep(0)
+    th.join()
+    assert ticks > 100
+
+
+def test_batch_commands_start_without_numba(tmp_path):
+    """A manifold and a section computed in a fresh process (the library calls behind
+    ``librate manifold`` and ``librate section``) run on the prebuilt kernels: numba is
+    never imported."""
+    import os
+    import subprocess
+    _current()
+    argv = [["manifold", "--system", "earth-moon", "--family", "lyapunov", "--point", "L1",
+             "--jacobi", "3.17", "--unstable", "--points", "16", "-q", "--format", "json"],
+            ["section", "--system", "earth-moon", "--tube", "lyapunov L1 jacobi=3.17 unstable",
+             "--section", "x=1-mu", "--points", "16", "-q", "--format", "json"]]
+    env = {**os.environ, "LIBRATE_CATALOG": str(tmp_path / "catalog.sqlite")}
+    env.pop("LIBRATE_KERNELS", None)
+    for a in argv:
+        code = (f"import sys\nfrom librate_cli.main import main\nassert main({a!r}) == 0\n"
+                "print('NUMBA', 'numba' in sys.modules)\n")
+        done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env,
+                              cwd=tmp_path)
+        assert done.returncode == 0, done.stderr[-2000:]
+        assert done.stdout.strip().splitlines()[-1] == "NUMBA False", a[0]

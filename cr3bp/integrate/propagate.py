@@ -4,8 +4,10 @@
 returns an :class:`~cr3bp.integrate.arc.Arc`; :func:`propagate_batch` integrates many states
 in parallel inside compiled code and returns a :class:`BatchResult`. Both validate their
 input with :mod:`cr3bp.validate` and raise only the typed errors of :mod:`cr3bp.errors`.
-The kernels are in :mod:`.dop853`; :func:`propagate` runs the ahead-of-time build of them
-when it is current (:mod:`cr3bp.compiled` finds the module :mod:`.prebuilt` builds: no numba start-up), else numba's just-in-time one.
+The kernels are in :mod:`.dop853` and :mod:`.lanes`; both entry points run the ahead-of-time
+build of them when it is current (:mod:`cr3bp.compiled` finds the module :mod:`.prebuilt`
+builds: no numba start-up; :func:`propagate_batch` runs its blocks over Python threads), else
+numba's just-in-time ones.
 :func:`~cr3bp.integrate.reference.propagate_scipy` is the same interface on scipy for
 cross-checks.
 
@@ -17,6 +19,9 @@ integration proceeds, i.e. decreases in time.
 from __future__ import annotations
 
 import math
+import os
+import threading
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
 import numpy as np
@@ -130,9 +135,9 @@ def integrator():
 
 
 def batch_kernel():
-    """The one-trajectory-per-row kernel :func:`propagate_batch` runs inside
-    :func:`cr3bp.threads.serial` and for models other than the CR3BP (outside it the CR3BP
-    runs in :mod:`cr3bp.integrate.lanes`, with the same results). Same arguments as
+    """The one-trajectory-per-row kernel :func:`propagate_batch` runs for models other than the
+    CR3BP when the prebuilt module is not current (with it, :func:`propagate_batch` runs the
+    prebuilt kernels over threads itself). Same arguments as
     :func:`cr3bp.integrate.dop853.integrate_batch`, same results: inside
     :func:`cr3bp.threads.serial` the prebuilt one-thread loop ``integrate_rows`` when the
     prebuilt module is current (no numba start-up), else numba's parallel kernel (limited to
@@ -173,6 +178,79 @@ def batch_kernel():
         with threads.serial():      # numba may have been loaded just now: one thread
             dop853.integrate_batch(*args)
     return one_thread
+
+
+#: Width and greatest block of the lane kernel (``cr3bp.integrate.lanes.LANES`` and ``BLOCK``,
+#: written here because importing that module loads numba; tests/test_prebuilt.py checks that
+#: they agree). They only split the work: no result depends on them.
+_LANES = 8
+_BLOCK = 256
+_POOL_LOCK = threading.Lock()
+_POOL = {"pool": None, "workers": 0, "pid": 0}
+
+
+def _blocks(n: int, nthreads: int) -> int:
+    """Blocks of consecutive trajectories for ``n`` trajectories on ``nthreads`` threads (the
+    split of :func:`cr3bp.integrate.lanes.blocks`)."""
+    per_lanes = max(1, -(-n // _LANES))
+    return max(1, min(per_lanes, max(nthreads, -(-n // _BLOCK))))
+
+
+def _pool(workers: int) -> ThreadPoolExecutor:
+    """The process's worker threads for batch blocks (made again after a fork: a child process
+    inherits the pool object but not its threads)."""
+    with _POOL_LOCK:
+        p = _POOL
+        if p["pool"] is None or p["workers"] != workers or p["pid"] != os.getpid():
+            if p["pool"] is not None and p["pid"] == os.getpid():
+                p["pool"].shutdown(wait=False)
+            p.update(pool=ThreadPoolExecutor(workers, thread_name_prefix="librate-batch"),
+                     workers=workers, pid=os.getpid())
+        return p["pool"]
+
+
+def _run_prebuilt(k, args, outs, nthreads=None):
+    """The batch on the prebuilt module's kernels, whose GIL-free blocks run on Python threads
+    (up to :func:`cr3bp.threads.count`; the calling thread takes blocks too): the CR3BP in
+    lockstep lanes (``lanes_block``, :func:`cr3bp.integrate.lanes._run_block` built ahead of
+    time), other models one trajectory per row (``integrate_rows``). Every block writes its own
+    rows only, so the results do not depend on the split nor on the number of threads."""
+    mode, y0s = args[0], args[2]
+    n = y0s.shape[0]
+    nthreads = threads.count() if nthreads is None else nthreads
+    nblocks = _blocks(n, nthreads)
+    if mode in (MODE_STATE, MODE_STM):
+        def block(b):
+            k.lanes_block(*args, (n * b) // nblocks, (n * (b + 1)) // nblocks, *outs)
+    else:
+        head, rest = args[:4], args[5:]
+
+        def block(b):
+            r = slice((n * b) // nblocks, (n * (b + 1)) // nblocks)
+            k.integrate_rows(*head[:2], y0s[r], head[3], args[4][r], *rest, False,
+                             *(o[r] for o in outs))
+    workers = min(nthreads, nblocks)
+    if workers <= 1:
+        for b in range(nblocks):
+            block(b)
+        return
+    todo = iter(range(nblocks))
+    lock = threading.Lock()
+
+    def work():
+        while True:
+            with lock:
+                b = next(todo, None)
+            if b is None:
+                return
+            block(b)
+
+    futures = [_pool(workers - 1).submit(work) for _ in range(workers - 1)]
+    try:
+        work()
+    finally:
+        for f in futures:
+            f.result()
 
 
 def _params(system) -> np.ndarray:
@@ -377,15 +455,18 @@ def _t_eval(t_eval, t0, tf, direction) -> np.ndarray:
 def propagate_batch(system, states, t_final, rtol=1e-12, atol=1e-12, events=(), *, stm=False,
                     max_events=8, max_step=None, max_steps=DEFAULT_MAX_STEPS,
                     on_failure="raise", t0=0.0, model=None) -> BatchResult:
-    """Propagate many states in parallel (``numba.prange`` inside compiled code).
+    """Propagate many states in parallel, in compiled code.
 
     Same method as :func:`propagate` (Hairer et al. 1993, section II.5, code dop853), run on
     every row of ``states`` with no Python loop over trajectories. For the CR3BP (no
     ``model``) the trajectories advance in lockstep vector lanes (:mod:`.lanes`: each keeps
     its own step size, error control and events, and gets the scalar integrator's result);
-    other models run one trajectory per thread iteration. Inside :func:`cr3bp.threads.serial`
-    the rows run on one thread in the prebuilt module's compiled loop (``integrate_rows``, no
-    numba start-up, the same results) when it is current.
+    other models run one trajectory per row. When the prebuilt module is current (``make
+    kernels``) the batch runs on its kernels, which release the GIL, in blocks of consecutive
+    trajectories over Python threads (:func:`cr3bp.threads.count` of them: one inside
+    :func:`cr3bp.threads.serial`), without importing numba; otherwise on numba's parallel
+    kernels (``numba.prange``). The results are the same bytes either way, whatever the number
+    of threads.
 
     Parameters
     ----------
@@ -471,25 +552,21 @@ def propagate_batch(system, states, t_final, rtol=1e-12, atol=1e-12, events=(), 
     ev_k = np.empty((n, max(m, 1)), dtype=np.int64)
     out_nfev = np.zeros(n, dtype=np.int64)
     out_nsteps = np.zeros(n, dtype=np.int64)
-    rows = threads.one_thread() and compiled.kernels() is not None   # the prebuilt one-thread loop
-    if mode in (MODE_STATE, MODE_STM) and not rows:
+    args = (int(mode), params, y0s, float(t0), tf, float(rtol), float(atol), float(mstep),
+            int(nmax), tab, int(m))
+    outs = (out_y, out_t, out_status, out_nev, out_seen, ev_t, ev_y, ev_k, out_nfev, out_nsteps)
+    k = compiled.kernels()
+    if k is not None:
+        _run_prebuilt(k, args, outs)
+    elif mode in (MODE_STATE, MODE_STM):
         from . import lanes  # lazy: heavy library (numba, via cr3bp.integrate.lanes)
-
-        def run_lanes():
-            lanes.integrate_lanes(int(mode), params, y0s, float(t0), tf, float(rtol), float(atol),
-                                  float(mstep), int(nmax), tab, int(m), lanes.blocks(n), out_y, out_t,
-                                  out_status, out_nev, out_seen, ev_t, ev_y, ev_k, out_nfev,
-                                  out_nsteps)
         if threads.one_thread():
             with threads.serial():      # numba may have been loaded just now: one thread
-                run_lanes()
+                lanes.integrate_lanes(*args, lanes.blocks(n), *outs)
         else:
-            run_lanes()
+            lanes.integrate_lanes(*args, lanes.blocks(n), *outs)
     else:
-        args = (int(mode), params, y0s, float(t0), tf, float(rtol), float(atol), float(mstep),
-                int(nmax), tab, int(m), False, out_y, out_t, out_status, out_nev, out_seen, ev_t, ev_y,
-                ev_k, out_nfev, out_nsteps)
-        batch_kernel()(*args)
+        batch_kernel()(*args, False, *outs)
     failed = out_status < 0
     if failed.any() and on_failure == "raise":
         i = int(np.argmax(failed))
