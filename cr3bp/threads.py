@@ -58,8 +58,10 @@ def one_thread() -> bool:
 
 def count() -> int:
     """Threads a batch propagation may run on: 1 inside :func:`serial` (with ``numba_threads``),
-    else the ``NUMBA_NUM_THREADS`` environment variable when it is a positive whole number (the
-    same limit as numba's kernels), else the processors this process may run on.
+    else numba's setting when numba is loaded (``numba.set_num_threads``), else the
+    ``NUMBA_NUM_THREADS`` environment variable when it is a positive whole number (the same
+    limit as numba's kernels), else the processors this process may run on. numba is not
+    imported for this.
 
     Returns
     -------
@@ -86,6 +88,12 @@ def count() -> int:
     """
     if _DEPTH[0] > 0:
         return 1
+    numba = sys.modules.get("numba")
+    if numba is not None and hasattr(numba, "get_num_threads"):    # loaded anyway: its setting
+        try:
+            return max(1, int(numba.get_num_threads()))
+        except Exception:       # its threading layer cannot start: our own count
+            pass
     value = os.environ.get("NUMBA_NUM_THREADS", "").strip()
     if value.isdigit() and int(value) > 0:
         return int(value)

@@ -400,3 +400,106 @@ def test_batch_commands_start_without_numba(tmp_path):
                               cwd=tmp_path)
         assert done.returncode == 0, done.stderr[-2000:]
         assert done.stdout.strip().splitlines()[-1] == "NUMBA False", a[0]
+
+
+# ---- propagate(): one packed result array, same results ----------------------------------
+
+@pytest.mark.parametrize("name,args", list(_cases())[:5], ids=[c[0] for c in list(_cases())[:5]])
+def test_propagate_unpacks_exactly_the_integrators_results(name, args):
+    """propagate() calls integrate_packed (one returned array: the ahead-of-time build hands
+    each returned array to Python at ~1 us); the arc it builds holds exactly integrate()'s
+    outputs (bytes equal), for recorded steps, t_eval, events, STM and an impact."""
+    from cr3bp.integrate.arc import Arc
+    k = _current()
+    (mode, mu, y0, t0, tf, rtol, atol, h0, mstep, nmax, tab, _m, t_eval, record) = args
+    ref = k.integrate(mode, mu, y0.copy(), t0, tf, rtol, atol, h0, mstep, nmax, tab, -1, t_eval, record)
+    counts = np.empty(8, dtype=np.int64)
+    packed = k.integrate_packed(mode, mu, y0.copy(), t0, tf, rtol, atol, h0, mstep, nmax, tab, -1,
+                                t_eval, record, counts)
+    jit = dop853.integrate_packed(mode, mu, y0.copy(), t0, tf, rtol, atol, h0, mstep, nmax, tab, -1,
+                                  t_eval, record, counts)
+    assert packed.tobytes() == jit.tobytes()
+    ev = {"STM, second x-z crossing": [events.plane("y", 0.0, terminal=True, count=2)],
+          "impact": [events.impact(1, 0.002)]}.get(name, [])
+    arc = propagate(EM, y0[:6], tf, stm=(mode == MODE_STM), rtol=rtol, atol=atol, events=ev,
+                    t_eval=None if record else t_eval, t0=t0, max_step=None if np.isinf(mstep) else mstep,
+                    max_steps=nmax, first_step=None if h0 < 0 else h0)
+    assert isinstance(arc, Arc)
+    assert arc.t_end == ref[1] and arc.state_end.tobytes() == ref[2][:6].tobytes()
+    if record:
+        assert arc.t.tobytes() == ref[3].tobytes() and arc.states.tobytes() == ref[4].tobytes()
+    else:
+        assert arc.t.tobytes() == t_eval[:ref[10]].tobytes()
+        assert arc.states.tobytes() == ref[9][:ref[10]].tobytes()
+    assert (arc.stm is None) == (mode != MODE_STM)
+    if arc.stm is not None:
+        assert arc.stm.tobytes() == ref[2][6:].tobytes()
+    assert [(h.event, h.t, h.state.tobytes()) for h in arc.events] == [
+        (int(j), float(t), s.tobytes()) for t, s, j in zip(ref[5], ref[6], ref[7])]
+    assert (arc.nfev, arc.nsteps) == (int(ref[11]), int(ref[12]))
+    if name == "STM, second x-z crossing":
+        assert len(arc.events) == 2 and arc.status == "event"
+    if name == "impact":
+        assert arc.status == "impact"
+
+
+def test_the_state_check_refuses_as_before():
+    """validate.state's fast path (called before every propagation) refuses exactly what the
+    array check it replaced refused, with the same message."""
+    from cr3bp import validate
+    from cr3bp.errors import StateError
+
+    def old(s, name="state"):
+        s = np.asarray(s, dtype=float)
+        if not np.isfinite(s).all():
+            return f"{name} {s.tolist()} has a non-finite entry"
+        try:
+            validate._outside(EM, s[None, :], name)
+        except StateError as e:
+            return str(e)
+        return None
+
+    cases = [HALO]
+    for i in range(6):
+        for bad in (np.nan, np.inf, -np.inf):
+            s = HALO.copy()
+            s[i] = bad
+            cases.append(s)
+    cases += [np.array([-EM.mu, 0, 0, 0, 0, 0.0]), np.array([1 - EM.mu + 1e-4, 0, 0, 0, 1, 0.0]),
+              np.array([1 - EM.mu, 0, 0, 0, 0, 0.0]), np.array([1e300, 1e300, 0, 1e308, 1e308, 0.0]),
+              np.array([-EM.mu + 0.0166, 0, 0, 0, 0, 0.0])]
+    for s in cases:
+        want = old(s)
+        try:
+            validate.state(EM, s)
+            got = None
+        except StateError as e:
+            got = str(e)
+        assert got == want, s
+    assert sum(old(s) is not None for s in cases) >= 20
+
+
+def test_the_arc_built_without_its_constructor_is_the_constructors():
+    """propagate() fills the Arc's fields directly (faster than the frozen dataclass's
+    constructor); every field must be filled, with the constructor's values."""
+    import dataclasses
+    from cr3bp.integrate.arc import Arc
+    from cr3bp.integrate.propagate import _arc
+    t, s = np.array([0.0, 1.0]), np.vstack([HALO, HALO])
+    args = (EM, t, s, None, "time", (), 12, 1, 1.0, HALO)
+    fast = _arc(*args)
+    slow = Arc(*args[:8], t_end=args[8], state_end=args[9])
+    names = [f.name for f in dataclasses.fields(Arc)]
+    assert sorted(vars(fast)) == sorted(names)
+    assert all(getattr(fast, n) is getattr(slow, n) for n in names)
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        fast.status = "event"
+
+
+def test_batch_worker_threads_leave_signals_to_the_main_thread():
+    """The threads that run prebuilt blocks block Ctrl-C and termination signals, so that a
+    signal the main thread blocks for a while stays pending for it (graph build's pool start)."""
+    import signal
+    from cr3bp.integrate.propagate import _pool
+    mask = _pool(1).submit(lambda: signal.pthread_sigmask(signal.SIG_BLOCK, set())).result()
+    assert {signal.SIGINT, signal.SIGTERM} <= set(mask)

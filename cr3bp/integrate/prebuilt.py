@@ -110,7 +110,8 @@ def build(directory: Path | None = None, progress=None) -> Path:
     from ..dynamics import kernels as dynamics_kernels  # lazy: heavy library (numba, via cr3bp.dynamics.kernels)
     from . import dop853  # lazy: heavy library (numba, via cr3bp.integrate.dop853)
     from . import lanes  # lazy: heavy library (numba, via cr3bp.integrate.lanes)
-    funcs = {"integrate": dop853.integrate, "integrate_rows": dop853.integrate_rows,
+    funcs = {"integrate": dop853.integrate, "integrate_packed": dop853.integrate_packed,
+             "integrate_rows": dop853.integrate_rows,
              "lanes_block": lanes._run_block, "eom": dynamics_kernels.eom,
              "grad_omega": dynamics_kernels.grad_omega, "hessian_omega": dynamics_kernels.hessian_omega,
              "_jacobi_many": dynamics_kernels._jacobi_many}

@@ -20,6 +20,7 @@ from __future__ import annotations
 
 import math
 import os
+import signal
 import threading
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
@@ -38,6 +39,11 @@ from .status import DEFAULT_MAX_STEPS, STATUS_NAMES
 FAILED = ("max-steps", "stalled", "non-finite")
 _IDENTITY_FLAT = np.eye(6).ravel()
 _NO_TIMES = np.empty(0)
+_NO_EVENTS = np.zeros((0, 6))
+_PARAMS: dict = {}
+_TOL_LO, _TOL_HI = validate.RTOL_RANGE
+_HUGE = math.inf
+_new = object.__new__
 
 
 @dataclass(frozen=True)
@@ -134,6 +140,16 @@ def integrator():
     return dop853.integrate
 
 
+def _packed():
+    """:func:`cr3bp.integrate.dop853.integrate_packed` of the prebuilt module when current,
+    else numba's (what :func:`propagate` calls: one returned array instead of eight)."""
+    k = compiled.kernels()
+    if k is not None:
+        return k.integrate_packed
+    from . import dop853  # lazy: heavy library (numba, via cr3bp.integrate.dop853)
+    return dop853.integrate_packed
+
+
 def batch_kernel():
     """The one-trajectory-per-row kernel :func:`propagate_batch` runs for models other than the
     CR3BP when the prebuilt module is not current (with it, :func:`propagate_batch` runs the
@@ -204,9 +220,19 @@ def _pool(workers: int) -> ThreadPoolExecutor:
         if p["pool"] is None or p["workers"] != workers or p["pid"] != os.getpid():
             if p["pool"] is not None and p["pid"] == os.getpid():
                 p["pool"].shutdown(wait=False)
-            p.update(pool=ThreadPoolExecutor(workers, thread_name_prefix="librate-batch"),
+            p.update(pool=ThreadPoolExecutor(workers, thread_name_prefix="librate-batch",
+                                             initializer=_block_signals),
                      workers=workers, pid=os.getpid())
         return p["pool"]
+
+
+def _block_signals():
+    """Worker threads leave the process's signals (Ctrl-C, termination) to the main thread: a
+    signal the main thread blocks for a while (:class:`cr3bp.transfers.tasks.sigint_ignored`)
+    must stay pending until it unblocks it, not be taken by a worker thread meanwhile."""
+    if hasattr(signal, "pthread_sigmask"):
+        wanted = ("SIGINT", "SIGTERM", "SIGHUP", "SIGQUIT", "SIGALRM", "SIGCHLD", "SIGUSR1", "SIGUSR2")
+        signal.pthread_sigmask(signal.SIG_BLOCK, {getattr(signal, n) for n in wanted if hasattr(signal, n)})
 
 
 def _run_prebuilt(k, args, outs, nthreads=None):
@@ -254,7 +280,15 @@ def _run_prebuilt(k, args, outs, nthreads=None):
 
 
 def _params(system) -> np.ndarray:
-    return np.array([float(system.mu)], dtype=np.float64)
+    """The CR3BP kernels' parameter vector ``[mu]``, one array per mass ratio (the kernels only
+    read it)."""
+    mu = float(system.mu)
+    p = _PARAMS.get(mu)
+    if p is None:
+        if len(_PARAMS) > 64:       # many custom systems: keep the cache small
+            _PARAMS.clear()
+        p = _PARAMS[mu] = np.array([mu], dtype=np.float64)
+    return p
 
 
 def _model(system, model, stm):
@@ -392,14 +426,22 @@ def propagate(system, state, t_final, stm=False, rtol=1e-12, atol=1e-12, events=
        (dense output; from memory).
     """
     s0 = validate.state(system, state)
-    rtol = validate.tolerance("rtol", rtol)
-    atol = validate.tolerance("atol", atol)
-    t0 = validate.finite_time("t0", t0)
-    tf = validate.finite_time("t_final", t_final)
-    events = tuple(events or ())
-    tab = table(events)
+    # fast paths: a float in range needs no call (nan and inf fail the comparisons)
+    if not (type(rtol) is float and _TOL_LO <= rtol <= _TOL_HI):
+        rtol = validate.tolerance("rtol", rtol)
+    if not (type(atol) is float and _TOL_LO <= atol <= _TOL_HI):
+        atol = validate.tolerance("atol", atol)
+    if not (type(t0) is float and -_HUGE < t0 < _HUGE):
+        t0 = validate.finite_time("t0", t0)
+    tf = t_final
+    if not (type(tf) is float and -_HUGE < tf < _HUGE):
+        tf = validate.finite_time("t_final", t_final)
+    events = tuple(events) if events else ()
     if events:
+        tab = table(events)
         _check_events_start(system, tab, s0)
+    else:
+        tab = _NO_EVENTS
     direction = 1.0 if tf >= t0 else -1.0
     if t_eval is None:
         te = _NO_TIMES
@@ -408,33 +450,55 @@ def propagate(system, state, t_final, stm=False, rtol=1e-12, atol=1e-12, events=
         te = _t_eval(t_eval, t0, tf, direction)
         record = False
     mstep = _max_step(max_step)
-    nmax = _max_steps(max_steps)
+    # fast path: a whole number of at least 1 needs no check
+    nmax = max_steps if type(max_steps) is int and max_steps >= 1 else _max_steps(max_steps)
     h0 = -1.0 if first_step is None else abs(validate.finite_time("first_step", first_step))
-    mode, params = _model(system, model, stm)
+    if model is None:
+        mode, params = (MODE_STM if stm else MODE_STATE), _params(system)
+    else:
+        mode, params = _model(system, model, stm)
     if stm:
         y0 = np.empty(42)
         y0[:6] = s0
         y0[6:] = _IDENTITY_FLAT
     else:
-        y0 = s0.copy()
+        y0 = s0                 # the kernel copies it before its first step and never writes it
 
-    (code, t_end, y_end, ts, ys, ev_t, ev_y, ev_k, _seen, eval_y, n_eval, nfev, nsteps,
-     _nrej) = integrator()(int(mode), params, y0, float(t0), float(tf), float(rtol),
-                           float(atol), float(h0), float(mstep), int(nmax), tab, -1, te,
-                           bool(record))
-    code = int(code)
+    counts = np.empty(8, dtype=np.int64)
+    out = _packed()(mode, params, y0, t0, tf, rtol, atol, h0, mstep, nmax, tab, -1, te, record,
+                    counts)
+    code, k, e, _seen, n_eval, nfev, nsteps, _nrej = counts.tolist()
+    n = y0.shape[0]
+    t_end = out.item(0)
+    y_end = out[1:1 + n]
     if code < 0:
         raise ConvergenceError(_failure_message(code, t_end, t0, tf, nsteps, nmax),
-                               iterations=int(nsteps), last=np.array(y_end[:6]))
-    hits = tuple(EventHit(int(k), events[int(k)].name, float(t), np.array(s))
-                 for t, s, k in zip(ev_t, ev_y, ev_k))
-    if record:
-        t_out, s_out = ts, ys
+                               iterations=nsteps, last=np.array(y_end[:6]))
+    o = 1 + n + 7 * k
+    if e:
+        ev_y = out[o + e:o + 7 * e].reshape(e, 6)
+        hits = tuple(EventHit(int(j), events[int(j)].name, t, np.array(ev_y[i]))
+                     for i, (t, j) in enumerate(zip(out[o:o + e].tolist(), out[o + 7 * e:o + 8 * e].tolist())))
     else:
-        t_out, s_out = te[:n_eval].copy(), eval_y[:n_eval]
+        hits = ()
+    if record:
+        t_out, s_out = out[1 + n:1 + n + k], out[1 + n + k:o].reshape(k, 6)
+    else:
+        o += 8 * e
+        t_out, s_out = te[:n_eval].copy(), out[o:o + 6 * n_eval].reshape(n_eval, 6)
     phi = y_end[6:].reshape(6, 6) if stm else None
-    return Arc(system, t_out, s_out, phi, STATUS_NAMES[code], hits, int(nfev), int(nsteps),
-               t_end=float(t_end), state_end=y_end[:6])
+    return _arc(system, t_out, s_out, phi, STATUS_NAMES[code], hits, nfev, nsteps, t_end,
+                y_end[:6])
+
+
+def _arc(system, t, states, stm, status, events, nfev, nsteps, t_end, state_end) -> Arc:
+    """``Arc(system, t, states, stm, status, events, nfev, nsteps, t_end=, state_end=)`` without
+    the frozen dataclass's ten ``object.__setattr__`` calls (1.9 us of a 10 us call; the fields
+    are filled directly, tests/test_prebuilt.py checks the result equals the constructor's)."""
+    arc = _new(Arc)
+    arc.__dict__.update(system=system, t=t, states=states, stm=stm, status=status, events=events,
+                        nfev=nfev, nsteps=nsteps, t_end=t_end, state_end=state_end)
+    return arc
 
 
 def _t_eval(t_eval, t0, tf, direction) -> np.ndarray:
