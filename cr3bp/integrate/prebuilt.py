@@ -157,7 +157,10 @@ def _export_options(options):
     :data:`NOGIL`, the error model of its just-in-time twin (``lanes._run_block`` uses numpy's:
     no division checks, which would keep its lanes from being vectorised)."""
     from numba.pycc import compiler as pycc_compiler  # lazy: heavy library (numba), build only
-    plain = pycc_compiler.compile_extra
+    plain = getattr(pycc_compiler, "compile_extra", None)
+    if plain is None:
+        raise BuildError("this numba.pycc has no compile_extra to compile the blocks with the GIL "
+                         "released; the just-in-time kernels are used")
 
     def compile_extra(typingctx, targetctx, func, args, return_type, flags, *a, **kw):
         nogil, error_model = options.get(func, (False, None))
