@@ -503,3 +503,15 @@ def test_batch_worker_threads_leave_signals_to_the_main_thread():
     from cr3bp.integrate.propagate import _pool
     mask = _pool(1).submit(lambda: signal.pthread_sigmask(signal.SIG_BLOCK, set())).result()
     assert {signal.SIGINT, signal.SIGTERM} <= set(mask)
+
+
+@pytest.mark.parametrize("stm", [False, True])
+def test_a_strided_state_propagates_like_a_contiguous_one(stm):
+    """The prebuilt kernels take contiguous arrays only (their wrapper does not check the
+    strides): propagate() must hand them a contiguous copy of a column view."""
+    grid = np.zeros((6, 3))
+    grid[:, 1] = HALO
+    view = grid[:, 1]
+    assert not view.flags.c_contiguous
+    a, b = propagate(EM, view, 0.5, stm=stm), propagate(EM, HALO.copy(), 0.5, stm=stm)
+    assert a.state_end.tobytes() == b.state_end.tobytes()

@@ -462,7 +462,7 @@ def propagate(system, state, t_final, stm=False, rtol=1e-12, atol=1e-12, events=
         y0[:6] = s0
         y0[6:] = _IDENTITY_FLAT
     else:
-        y0 = s0                 # the kernel copies it before its first step and never writes it
+        y0 = s0.copy()          # contiguous: the prebuilt kernel reads a strided view wrongly
 
     counts = np.empty(8, dtype=np.int64)
     out = _packed()(mode, params, y0, t0, tf, rtol, atol, h0, mstep, nmax, tab, -1, te, record,
