@@ -262,18 +262,23 @@ def _run_prebuilt(k, args, outs, nthreads=None):
         return
     todo = iter(range(nblocks))
     lock = threading.Lock()
+    stop = []
 
     def work():
-        while True:
+        while not stop:
             with lock:
                 b = next(todo, None)
             if b is None:
                 return
             block(b)
 
-    futures = [_pool(workers - 1).submit(work) for _ in range(workers - 1)]
+    pool = _pool(workers - 1)
+    futures = [pool.submit(work) for _ in range(workers - 1)]
     try:
         work()
+    except BaseException:       # Ctrl-C in the calling thread: the workers end their blocks, no more
+        stop.append(True)
+        raise
     finally:
         for f in futures:
             f.result()
