@@ -287,4 +287,128 @@ def run():
     rows.extend(_batch_rows(em, s0))
     rows.append(_overhead_row(em, s0))
     rows.append(_help_row())
+    rows.extend(_call_cost_rows(em, s0))
+    rows.extend(_prebuilt_thread_rows(em, s0))
+    rows.extend(_startup_rows())
+    return rows
+
+
+# ---- prebuilt kernels: call overhead, batch blocks on Python threads, start-up without numba
+
+def _call_cost_rows(em, s0):
+    """Cost of one propagate() call over a trivial 1e-6 TU span (one step: validation, the
+    kernel call, the Arc): median wall time of single calls, and processor time per call over
+    runs of 200 calls (the processor time does not count waiting for the shared cores)."""
+    propagate(em, s0, 1e-6)
+    walls, cpus = [], []
+    for _ in range(25):
+        for _ in range(40):
+            t0 = time.perf_counter()
+            propagate(em, s0, 1e-6)
+            walls.append(time.perf_counter() - t0)
+        c0 = time.process_time()
+        for _ in range(200):
+            propagate(em, s0, 1e-6)
+        cpus.append((time.process_time() - c0) / 200)
+    wall, cpu = statistics.median(walls), statistics.median(cpus)
+    return [(f"propagate() per call, 1e-6 TU span, wall median ({wall * 1e6:.1f} us)", wall, "", None,
+             "< 0.00001 s"),
+            (f"propagate() per call, 1e-6 TU span, processor time ({cpu * 1e6:.1f} us)", cpu, "", None,
+             "< 0.00001 s")]
+
+
+def _prebuilt_thread_rows(em, s0):
+    """The batch on the prebuilt lane blocks over Python threads (what propagate_batch runs
+    when ``make kernels`` built the module) against numba's parallel lane kernel, same inputs,
+    same thread count, timed in alternation; wall and processor time."""
+    from cr3bp import compiled, threads  # lazy: beside the kernels this row compares
+    from cr3bp.integrate import lanes  # lazy: heavy library (numba kernels)
+    from cr3bp.integrate.modes import MODE_STATE  # lazy: beside the kernel it names
+    from cr3bp.integrate.propagate import _run_prebuilt  # lazy: the function measured
+    k = compiled.kernels()
+    if k is None:
+        return [("propagate_batch on prebuilt blocks over threads", None, "", None,
+                 "skipped: no current prebuilt module (make kernels)")]
+    n = BATCH_N
+    states = np.ascontiguousarray(_batch_states(s0, n))
+    args = (MODE_STATE, np.array([em.mu]), states, 0.0, np.full(n, BATCH_T), TOL, TOL, math.inf,
+            10**6, np.zeros((0, 6)), 0)
+
+    def outs():
+        return (np.zeros((n, 6)), np.zeros(n), np.zeros(n, np.int64), np.zeros(n, np.int64),
+                np.zeros(n, np.int64), np.zeros((n, 1)), np.zeros((n, 1, 6)),
+                np.zeros((n, 1), np.int64), np.zeros(n, np.int64), np.zeros(n, np.int64))
+    nthreads = threads.count()
+    a, b = outs(), outs()
+    _run_prebuilt(k, args, a, nthreads)
+    lanes.integrate_lanes(*args, lanes.blocks(n), *b)
+    same = all(u.tobytes() == v.tobytes() for u, v in zip(a, b))
+    cpu = {"pre": [], "jit": []}
+
+    def timed(key, fn):
+        def run():
+            c0 = time.process_time()
+            fn()
+            cpu[key].append(time.process_time() - c0)
+        return run
+    pre, jit = _interleaved_medians(timed("pre", lambda: _run_prebuilt(k, args, outs(), nthreads)),
+                                    timed("jit", lambda: lanes.integrate_lanes(*args, lanes.blocks(n), *outs())),
+                                    rounds=9, calls=1)
+    cpu_pre, cpu_jit = statistics.median(cpu["pre"]), statistics.median(cpu["jit"])
+    tag = "bytes equal" if same else "RESULTS DIFFER"
+    return [(f"propagate_batch {n} x {BATCH_T:g} TU state only, prebuilt blocks on {nthreads} Python "
+             f"threads, wall ({tag})", pre, f"numba's parallel lanes, {nthreads} threads", jit,
+             ">= 0.9x"),
+            (f"  same, processor time summed over threads (prebuilt {cpu_pre:.3f} s, numba "
+             f"{cpu_jit:.3f} s)", cpu_pre, "numba's parallel lanes", cpu_jit, ">= 0.9x")]
+
+
+_STARTUP_PROBE = """
+import os, resource, sys, time
+t0 = time.perf_counter()
+from librate_cli.main import main
+code = main(sys.argv[1:])
+wall = time.perf_counter() - t0
+cpu = time.process_time()
+rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
+print(f"PROBE {code} {wall:.4f} {cpu:.4f} {rss:.1f} {'numba' in sys.modules}")
+"""
+
+
+def _startup_rows():
+    """``librate manifold`` and ``librate section`` (16 points, a fresh catalogue) in fresh
+    processes: on the prebuilt module (numba never loaded) against the same command with
+    ``LIBRATE_KERNELS=jit`` (numba's kernels, as every batch command ran before), run in
+    alternation; wall time of the whole command in the process, processor time, peak memory."""
+    import os  # lazy: only this row starts processes with their own environment
+    import tempfile  # lazy: only this row needs a scratch catalogue
+    from cr3bp import compiled  # lazy: beside the check it makes
+    if compiled.kernels() is None:
+        return [("librate manifold / section start-up", None, "", None,
+                 "skipped: no current prebuilt module (make kernels)")]
+    commands = {
+        "manifold": ["manifold", "--system", "earth-moon", "--family", "lyapunov", "--point", "L1",
+                     "--jacobi", "3.17", "--unstable", "--points", "16", "-q", "--format", "json"],
+        "section": ["section", "--system", "earth-moon", "--tube", "lyapunov L1 jacobi=3.17 unstable",
+                    "--section", "x=1-mu", "--points", "16", "-q", "--format", "json"]}
+    rows = []
+    with tempfile.TemporaryDirectory() as d:
+        for name, argv in commands.items():
+            results = {"auto": [], "jit": []}
+            for r in range(5):
+                for kernels in (("auto", "jit") if r % 2 == 0 else ("jit", "auto")):
+                    env = {**os.environ, "LIBRATE_KERNELS": kernels,
+                           "LIBRATE_CATALOG": os.path.join(d, f"{name}-{r}-{kernels}.sqlite")}
+                    out = subprocess.run([sys.executable, "-c", _STARTUP_PROBE, *argv], env=env,
+                                         capture_output=True, text=True, cwd=d, check=True).stdout
+                    probe = [ln for ln in out.splitlines() if ln.startswith("PROBE ")][-1].split()
+                    results[kernels].append((float(probe[2]), float(probe[3]), float(probe[4]),
+                                             probe[5] == "True"))
+            med = {k: [statistics.median(v[i] for v in vals) for i in range(3)] + [vals[0][3]]
+                   for k, vals in results.items()}
+            a, j = med["auto"], med["jit"]
+            rows.append((f"librate {name} --points 16 in a fresh process, prebuilt (numba loaded: "
+                         f"{'yes' if a[3] else 'no'}; peak RSS {a[2]:.0f} MB, processor {a[1]:.2f} s)",
+                         a[0], f"numba's kernels (numba loaded: {'yes' if j[3] else 'no'}; peak RSS "
+                         f"{j[2]:.0f} MB, processor {j[1]:.2f} s)", j[0], "faster than numba's"))
     return rows

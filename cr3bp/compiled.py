@@ -30,8 +30,8 @@ import numpy
 #: Files (relative to the ``cr3bp`` package) whose code or constants the built kernels
 #: contain; ``tests/test_prebuilt.py`` checks that nothing the kernels read is missing.
 SOURCES = ("integrate/dop853.py", "integrate/coefficients.py", "integrate/status.py",
-           "integrate/modes.py", "integrate/dispatch.py", "dynamics/kernels.py",
-           "fidelity/forces.py", "bicircular_kernels.py")
+           "integrate/modes.py", "integrate/dispatch.py", "integrate/lanes.py",
+           "dynamics/kernels.py", "fidelity/forces.py", "bicircular_kernels.py")
 #: Where the module is written (inside the package; ignored by git).
 DIRECTORY = Path(__file__).resolve().parent / "integrate" / "_prebuilt"
 #: Environment variable: ``jit`` turns the prebuilt module off (``auto`` or unset: use it).
@@ -40,21 +40,35 @@ ENV = "LIBRATE_KERNELS"
 _F1 = "float64[::1]"
 _F2 = "float64[:, ::1]"
 #: Exported kernels and their only signatures (the types every caller passes).
+#: ``lanes_block`` is :func:`cr3bp.integrate.lanes._run_block` (one block of trajectories in
+#: lockstep lanes); it and ``integrate_rows`` run with the GIL released (:data:`NOGIL`), so
+#: :func:`cr3bp.integrate.propagate_batch` runs blocks on Python threads without numba.
 SIGNATURES = {
     "integrate": (
         f"Tuple((int64, float64, {_F1}, {_F1}, {_F2}, {_F1}, {_F2}, int64[::1], int64, {_F2}, "
         f"int64, int64, int64, int64))"
         f"(int64, {_F1}, {_F1}, float64, float64, float64, float64, float64, float64, int64, "
         f"{_F2}, int64, {_F1}, boolean)"),
+    "integrate_packed": (
+        f"{_F1}(int64, {_F1}, {_F1}, float64, float64, float64, float64, float64, float64, int64, "
+        f"{_F2}, int64, {_F1}, boolean, int64[::1])"),
     "integrate_rows": (
         f"void(int64, {_F1}, {_F2}, float64, {_F1}, float64, float64, float64, int64, {_F2}, "
         f"int64, boolean, {_F2}, {_F1}, int64[::1], int64[::1], int64[::1], {_F2}, "
+        f"float64[:, :, ::1], int64[:, ::1], int64[::1], int64[::1])"),
+    "lanes_block": (
+        f"void(int64, {_F1}, {_F2}, float64, {_F1}, float64, float64, float64, int64, {_F2}, "
+        f"int64, int64, int64, {_F2}, {_F1}, int64[::1], int64[::1], int64[::1], {_F2}, "
         f"float64[:, :, ::1], int64[:, ::1], int64[::1], int64[::1])"),
     "eom": f"void(float64, {_F1}, float64, {_F1})",
     "grad_omega": f"void(float64, float64, float64, float64, {_F1})",
     "hessian_omega": f"void(float64, float64, float64, float64, {_F2})",
     "_jacobi_many": f"void(float64, {_F2}, {_F1})",
 }
+
+#: Exports compiled with the GIL released: called from several Python threads at once, each on
+#: its own rows. (Every export is compiled with its just-in-time twin's error model.)
+NOGIL = ("lanes_block", "integrate_rows")
 
 _PACKAGE = Path(__file__).resolve().parent
 _state = {"done": False, "module": None}

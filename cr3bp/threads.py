@@ -17,9 +17,10 @@ from __future__ import annotations
 
 import contextlib
 import ctypes
+import functools
+import os
 import sys
 import threading
-import functools
 
 _LOCK = threading.Lock()
 _BLAS = {}
@@ -29,8 +30,8 @@ _DEPTH = [0]
 
 def one_thread() -> bool:
     """True inside :func:`serial` with ``numba_threads``: :func:`cr3bp.integrate.propagate_batch`
-    then runs the prebuilt one-thread batch kernel (no numba start-up), or numba's kernel on
-    one thread.
+    then runs on one thread (the prebuilt kernels, no numba start-up, or numba's kernels
+    limited to one thread).
 
     Returns
     -------
@@ -53,6 +54,53 @@ def one_thread() -> bool:
     Common practice (one thread per process when processes already use every core).
     """
     return _DEPTH[0] > 0
+
+
+def count() -> int:
+    """Threads a batch propagation may run on: 1 inside :func:`serial` (with ``numba_threads``),
+    else numba's setting when numba is loaded (``numba.set_num_threads``), else the
+    ``NUMBA_NUM_THREADS`` environment variable when it is a positive whole number (the same
+    limit as numba's kernels), else the processors this process may run on. numba is not
+    imported for this.
+
+    Returns
+    -------
+    int
+        At least 1.
+
+    Raises
+    ------
+    None
+        A ``NUMBA_NUM_THREADS`` that is not a positive whole number is ignored.
+
+    Examples
+    --------
+    >>> count() >= 1
+    True
+    >>> with serial():
+    ...     count()
+    1
+
+    References
+    ----------
+    numba documentation, "Setting the Number of Threads" (``NUMBA_NUM_THREADS``); Python
+    documentation, :func:`os.sched_getaffinity`. One thread per processor is common practice.
+    """
+    if _DEPTH[0] > 0:
+        return 1
+    numba = sys.modules.get("numba")
+    if numba is not None and hasattr(numba, "get_num_threads"):    # loaded anyway: its setting
+        try:
+            return max(1, int(numba.get_num_threads()))
+        except Exception:       # its threading layer cannot start: our own count
+            pass
+    value = os.environ.get("NUMBA_NUM_THREADS", "").strip()
+    if value.isdigit() and int(value) > 0:
+        return int(value)
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except (AttributeError, OSError):
+        return max(1, os.cpu_count() or 1)
 
 
 def _openblas():

@@ -142,10 +142,16 @@ def state(system, value, name: str = "state", allow_inside: bool = False) -> np.
         raise StateError(f"{name} {value!r} is not six numbers x,y,z,vx,vy,vz") from None
     if s.shape != (6,):
         raise StateError(f"{name} has shape {s.shape}; expected six numbers x,y,z,vx,vy,vz")
-    if not np.isfinite(s).all():
+    # fast path (called before every propagation): 0 * v is 0 for a finite v, nan otherwise
+    x, y, z, vx, vy, vz = s.tolist()
+    if 0.0 * x + 0.0 * y + 0.0 * z + 0.0 * vx + 0.0 * vy + 0.0 * vz != 0.0:
         raise StateError(f"{name} {s.tolist()} has a non-finite entry")
     if not allow_inside:
-        _outside(system, s[None, :], name)
+        mu = system.mu
+        r_1, r_2 = system.radii
+        a, b = x + mu, x - 1 + mu       # products, not ** 2: 1e300 squares to inf, no OverflowError
+        if not (math.sqrt(a * a + y * y + z * z) > r_1 and math.sqrt(b * b + y * y + z * z) > r_2):
+            _outside(system, s[None, :], name)      # the refusal (or the edge cases) there
     return s
 
 
@@ -199,8 +205,9 @@ def _outside(system, s, name):
     r_1, r_2 = system.radii
     if s.shape[0] == 1:  # fast path for one state (called before every propagation)
         x, y, z = float(s[0, 0]), float(s[0, 1]), float(s[0, 2])
-        d1 = math.sqrt((x + mu) ** 2 + y * y + z * z)
-        d2 = math.sqrt((x - 1 + mu) ** 2 + y * y + z * z)
+        a, b = x + mu, x - 1 + mu       # products, not ** 2 (which raises OverflowError at 1e300)
+        d1 = math.sqrt(a * a + y * y + z * z)
+        d2 = math.sqrt(b * b + y * y + z * z)
         if d1 > r_1 and d2 > r_2:
             return
     d1 = np.sqrt((s[:, 0] + mu) ** 2 + s[:, 1] ** 2 + s[:, 2] ** 2)

@@ -158,7 +158,8 @@ def test_sources_cover_everything_the_built_kernels_read():
     cr3bp module it reads through an attribute, and the module that assigns each constant it
     reads, must be in prebuilt.SOURCES (else an edit there would not mark the build stale)."""
     from numba.core.dispatcher import Dispatcher
-    roots = [dop853.integrate, jit_kernels.eom, jit_kernels.grad_omega,
+    from cr3bp.integrate import lanes
+    roots = [dop853.integrate, dop853.integrate_rows, lanes._run_block, jit_kernels.eom, jit_kernels.grad_omega,
              jit_kernels.hessian_omega, jit_kernels._jacobi_many]
     package = Path(prebuilt.__file__).resolve().parent.parent
     mods = [m for n, m in sys.modules.items() if n.startswith("cr3bp") and getattr(m, "__file__", None)]
@@ -190,6 +191,7 @@ def test_sources_cover_everything_the_built_kernels_read():
     assert not missing, f"add to prebuilt.SOURCES: {missing}"
     assert (package / "integrate/coefficients.py").resolve() in needed   # the walk sees constants
     assert (package / "fidelity/forces.py").resolve() in needed          # and modules read by attribute
+    assert (package / "integrate/lanes.py").resolve() in needed
 
 
 def test_build_writes_a_loadable_module_and_removes_stale_ones(tmp_path, monkeypatch, fresh_lookup):
@@ -276,3 +278,240 @@ def test_a_torus_computed_in_a_fresh_process_does_not_start_numba(tmp_path):
     done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env)
     assert done.returncode == 0, done.stderr[-2000:]
     assert done.stdout.strip() == "False"
+
+
+# ---- batch blocks on Python threads (no numba) -------------------------------------------
+
+def _batch_inputs(n, stm, seed=11):
+    """Arguments and empty outputs of a batch of ``n`` trajectories near the halo, final times
+    of both signs, with a counted plane event (a few crossings recorded)."""
+    from cr3bp.integrate.modes import MODE_STATE, MODE_STM
+    rng = np.random.default_rng(seed)
+    s = HALO + 1e-3 * rng.standard_normal((n, 6))
+    y0s = np.hstack([s, np.tile(np.eye(6).ravel(), (n, 1))]) if stm else s.copy()
+    tf = rng.uniform(0.5, 3.0, n) * np.where(np.arange(n) % 5 == 0, -1.0, 1.0)
+    tab = np.ascontiguousarray(events.table([events.plane("y", 0.0, count=3)]))
+    m = 2
+    args = (MODE_STM if stm else MODE_STATE, np.array([EM.mu]), np.ascontiguousarray(y0s), 0.0, tf,
+            1e-11, 1e-12, np.inf, 10**6, tab, m)
+    return args
+
+
+def _outputs(n, dim, m=2):
+    return (np.full((n, dim), np.nan), np.full(n, np.nan), np.zeros(n, dtype=np.int64),
+            np.zeros(n, dtype=np.int64), np.zeros(n, dtype=np.int64), np.zeros((n, m)),
+            np.zeros((n, m, 6)), np.zeros((n, m), dtype=np.int64), np.zeros(n, dtype=np.int64),
+            np.zeros(n, dtype=np.int64))
+
+
+@pytest.mark.parametrize("stm", [False, True])
+def test_prebuilt_blocks_on_threads_equal_numbas_lanes_bit_for_bit(stm):
+    """The prebuilt lane block (lanes._run_block built ahead of time, GIL released) run over
+    1, 2 and 3 Python threads gives exactly numba's parallel lane kernel's outputs (bytes
+    equal: same source, same compiler, same processor), whatever the split."""
+    from cr3bp.integrate import lanes
+    from cr3bp.integrate.propagate import _run_prebuilt
+    k = _current()
+    n = 37
+    args = _batch_inputs(n, stm)
+    dim = args[2].shape[1]
+    ref = _outputs(n, dim)
+    lanes.integrate_lanes(*args, 3, *ref)
+    assert np.isfinite(ref[0]).all() and (ref[3] > 0).any()      # events were recorded
+    for nthreads in (1, 2, 3):
+        got = _outputs(n, dim)
+        _run_prebuilt(k, args, got, nthreads=nthreads)
+        for u, v in zip(got, ref):
+            assert u.tobytes() == v.tobytes(), nthreads
+
+
+def test_other_models_run_the_prebuilt_rows_on_threads_with_numbas_results():
+    """A bicircular batch (not a lane model) runs integrate_rows over thread blocks: bytes
+    equal to numba's parallel integrate_batch, for 1 and 2 threads."""
+    from cr3bp.bicircular import _model, bicircular_system
+    from cr3bp.integrate.propagate import _run_prebuilt
+    k = _current()
+    mode_state, _, params = _model(bicircular_system("earth-moon", sun_phase=0.3))
+    n = 11
+    args = (int(mode_state), np.ascontiguousarray(params),) + _batch_inputs(n, False)[2:]
+    ref = _outputs(n, 6)
+    dop853.integrate_batch(*args, False, *ref)
+    for nthreads in (1, 2):
+        got = _outputs(n, 6)
+        _run_prebuilt(k, args, got, nthreads=nthreads)
+        for u, v in zip(got, ref):
+            assert u.tobytes() == v.tobytes(), nthreads
+
+
+def test_the_block_split_is_the_lane_kernels():
+    from cr3bp.integrate import lanes
+    from cr3bp.integrate.propagate import _BLOCK, _LANES, _blocks
+    assert (_LANES, _BLOCK) == (lanes.LANES, lanes.BLOCK)
+    for n in (1, 7, 8, 9, 100, 513, 5000):
+        for t in (1, 2, 8):
+            assert _blocks(n, t) == max(1, min(max(1, -(-n // lanes.LANES)),
+                                                    max(t, -(-n // lanes.BLOCK))))
+
+
+def test_prebuilt_blocks_release_the_gil():
+    """While one thread runs a long prebuilt block, the main thread keeps running Python code
+    (a kernel holding the GIL would let it run at most a tick or two before and after)."""
+    import threading
+    import time
+    k = _current()
+    n = 64
+    args = _batch_inputs(n, True)
+    args = args[:4] + (np.full(n, 30.0),) + args[5:]
+    outs = _outputs(n, 42)
+    done = threading.Event()
+
+    def run():
+        k.lanes_block(*args, 0, n, *outs)
+        done.set()
+
+    th = threading.Thread(target=run)
+    ticks = 0
+    th.start()
+    t_end = time.monotonic() + 60
+    while not done.is_set() and time.monotonic() < t_end:
+        ticks += 1             # pure Python: runs only while the kernel has let the GIL go
+        time.sleep(0)
+    th.join()
+    assert ticks > 100
+
+
+def test_batch_commands_start_without_numba(tmp_path):
+    """A manifold and a section computed in a fresh process (the library calls behind
+    ``librate manifold`` and ``librate section``) run on the prebuilt kernels: numba is
+    never imported."""
+    import os
+    import subprocess
+    _current()
+    argv = [["manifold", "--system", "earth-moon", "--family", "lyapunov", "--point", "L1",
+             "--jacobi", "3.17", "--unstable", "--points", "16", "-q", "--format", "json"],
+            ["section", "--system", "earth-moon", "--tube", "lyapunov L1 jacobi=3.17 unstable",
+             "--section", "x=1-mu", "--points", "16", "-q", "--format", "json"]]
+    env = {**os.environ, "LIBRATE_CATALOG": str(tmp_path / "catalog.sqlite")}
+    env.pop("LIBRATE_KERNELS", None)
+    for a in argv:
+        code = (f"import sys\nfrom librate_cli.main import main\nassert main({a!r}) == 0\n"
+                "print('NUMBA', 'numba' in sys.modules)\n")
+        done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env,
+                              cwd=tmp_path)
+        assert done.returncode == 0, done.stderr[-2000:]
+        assert done.stdout.strip().splitlines()[-1] == "NUMBA False", a[0]
+
+
+# ---- propagate(): one packed result array, same results ----------------------------------
+
+@pytest.mark.parametrize("name,args", list(_cases())[:5], ids=[c[0] for c in list(_cases())[:5]])
+def test_propagate_unpacks_exactly_the_integrators_results(name, args):
+    """propagate() calls integrate_packed (one returned array: the ahead-of-time build hands
+    each returned array to Python at ~1 us); the arc it builds holds exactly integrate()'s
+    outputs (bytes equal), for recorded steps, t_eval, events, STM and an impact."""
+    from cr3bp.integrate.arc import Arc
+    k = _current()
+    (mode, mu, y0, t0, tf, rtol, atol, h0, mstep, nmax, tab, _m, t_eval, record) = args
+    ref = k.integrate(mode, mu, y0.copy(), t0, tf, rtol, atol, h0, mstep, nmax, tab, -1, t_eval, record)
+    counts = np.empty(8, dtype=np.int64)
+    packed = k.integrate_packed(mode, mu, y0.copy(), t0, tf, rtol, atol, h0, mstep, nmax, tab, -1,
+                                t_eval, record, counts)
+    jit = dop853.integrate_packed(mode, mu, y0.copy(), t0, tf, rtol, atol, h0, mstep, nmax, tab, -1,
+                                  t_eval, record, counts)
+    assert packed.tobytes() == jit.tobytes()
+    ev = {"STM, second x-z crossing": [events.plane("y", 0.0, terminal=True, count=2)],
+          "impact": [events.impact(1, 0.002)]}.get(name, [])
+    arc = propagate(EM, y0[:6], tf, stm=(mode == MODE_STM), rtol=rtol, atol=atol, events=ev,
+                    t_eval=None if record else t_eval, t0=t0, max_step=None if np.isinf(mstep) else mstep,
+                    max_steps=nmax, first_step=None if h0 < 0 else h0)
+    assert isinstance(arc, Arc)
+    assert arc.t_end == ref[1] and arc.state_end.tobytes() == ref[2][:6].tobytes()
+    if record:
+        assert arc.t.tobytes() == ref[3].tobytes() and arc.states.tobytes() == ref[4].tobytes()
+    else:
+        assert arc.t.tobytes() == t_eval[:ref[10]].tobytes()
+        assert arc.states.tobytes() == ref[9][:ref[10]].tobytes()
+    assert (arc.stm is None) == (mode != MODE_STM)
+    if arc.stm is not None:
+        assert arc.stm.tobytes() == ref[2][6:].tobytes()
+    assert [(h.event, h.t, h.state.tobytes()) for h in arc.events] == [
+        (int(j), float(t), s.tobytes()) for t, s, j in zip(ref[5], ref[6], ref[7])]
+    assert (arc.nfev, arc.nsteps) == (int(ref[11]), int(ref[12]))
+    if name == "STM, second x-z crossing":
+        assert len(arc.events) == 2 and arc.status == "event"
+    if name == "impact":
+        assert arc.status == "impact"
+
+
+def test_the_state_check_refuses_as_before():
+    """validate.state's fast path (called before every propagation) refuses exactly what the
+    array check it replaced refused, with the same message."""
+    from cr3bp import validate
+    from cr3bp.errors import StateError
+
+    def old(s, name="state"):
+        s = np.asarray(s, dtype=float)
+        if not np.isfinite(s).all():
+            return f"{name} {s.tolist()} has a non-finite entry"
+        try:
+            validate._outside(EM, s[None, :], name)
+        except StateError as e:
+            return str(e)
+        return None
+
+    cases = [HALO]
+    for i in range(6):
+        for bad in (np.nan, np.inf, -np.inf):
+            s = HALO.copy()
+            s[i] = bad
+            cases.append(s)
+    cases += [np.array([-EM.mu, 0, 0, 0, 0, 0.0]), np.array([1 - EM.mu + 1e-4, 0, 0, 0, 1, 0.0]),
+              np.array([1 - EM.mu, 0, 0, 0, 0, 0.0]), np.array([1e300, 1e300, 0, 1e308, 1e308, 0.0]),
+              np.array([-EM.mu + 0.0166, 0, 0, 0, 0, 0.0])]
+    for s in cases:
+        want = old(s)
+        try:
+            validate.state(EM, s)
+            got = None
+        except StateError as e:
+            got = str(e)
+        assert got == want, s
+    assert sum(old(s) is not None for s in cases) >= 20
+
+
+def test_the_arc_built_without_its_constructor_is_the_constructors():
+    """propagate() fills the Arc's fields directly (faster than the frozen dataclass's
+    constructor); every field must be filled, with the constructor's values."""
+    import dataclasses
+    from cr3bp.integrate.arc import Arc
+    from cr3bp.integrate.propagate import _arc
+    t, s = np.array([0.0, 1.0]), np.vstack([HALO, HALO])
+    args = (EM, t, s, None, "time", (), 12, 1, 1.0, HALO)
+    fast = _arc(*args)
+    slow = Arc(*args[:8], t_end=args[8], state_end=args[9])
+    names = [f.name for f in dataclasses.fields(Arc)]
+    assert sorted(vars(fast)) == sorted(names)
+    assert all(getattr(fast, n) is getattr(slow, n) for n in names)
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        fast.status = "event"
+
+
+def test_batch_worker_threads_leave_signals_to_the_main_thread():
+    """The threads that run prebuilt blocks block Ctrl-C and termination signals, so that a
+    signal the main thread blocks for a while stays pending for it (graph build's pool start)."""
+    import signal
+    from cr3bp.integrate.propagate import _pool
+    mask = _pool(1).submit(lambda: signal.pthread_sigmask(signal.SIG_BLOCK, set())).result()
+    assert {signal.SIGINT, signal.SIGTERM} <= set(mask)
+
+
+@pytest.mark.parametrize("stm", [False, True])
+def test_a_strided_state_propagates_like_a_contiguous_one(stm):
+    """The prebuilt kernels take contiguous arrays only (their wrapper does not check the
+    strides): propagate() must hand them a contiguous copy of a column view."""
+    grid = np.zeros((6, 3))
+    grid[:, 1] = HALO
+    view = grid[:, 1]
+    assert not view.flags.c_contiguous
+    a, b = propagate(EM, view, 0.5, stm=stm), propagate(EM, HALO.copy(), 0.5, stm=stm)
+    assert a.state_end.tobytes() == b.state_end.tobytes()

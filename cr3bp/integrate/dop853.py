@@ -708,3 +708,55 @@ def integrate_rows(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_st
             ev_y[i, j, :] = ye[j]
         out_nfev[i] = res[11]
         out_nsteps[i] = res[12]
+
+
+@njit(cache=True)
+def integrate_packed(mode, params, y0, t0, t_final, rtol, atol, first_step, max_step, max_steps,
+                     events, max_events, t_eval, record, counts):
+    """:func:`integrate` with its results in one array: what :func:`cr3bp.integrate.propagate`
+    calls. The ahead-of-time build hands every returned array to Python at about 0.9 us each
+    (measured on this project's machine: 9 us for :func:`integrate`'s eight, 1.8 us for a call
+    returning none), so the arrays are copied into one.
+
+    ``counts`` (int64, 8) receives status, the recorded steps k, the events kept e, the events
+    seen, the ``t_eval`` outputs j, nfev, nsteps and rejected steps. Returns one float array:
+    ``[t_end, y_end (n), ts (k), ys (k x 6), ev_t (e), ev_y (e x 6), ev_k (e), eval_y (j x 6)]``
+    (the event indices as floats: exact, they are small whole numbers)."""
+    (status, t_end, y_end, ts, ys, ev_t, ev_y, ev_k, n_seen, eval_y, n_eval, nfev, nsteps,
+     nrej) = integrate(mode, params, y0, t0, t_final, rtol, atol, first_step, max_step,
+                       max_steps, events, max_events, t_eval, record)
+    n = y_end.shape[0]
+    k = ts.shape[0]
+    e = ev_t.shape[0]
+    out = np.empty(1 + n + 7 * k + 8 * e + 6 * n_eval)
+    out[0] = t_end
+    o = 1
+    out[o:o + n] = y_end
+    o += n
+    out[o:o + k] = ts
+    o += k
+    for i in range(k):
+        for c in range(6):
+            out[o + 6 * i + c] = ys[i, c]
+    o += 6 * k
+    out[o:o + e] = ev_t
+    o += e
+    for i in range(e):
+        for c in range(6):
+            out[o + 6 * i + c] = ev_y[i, c]
+    o += 6 * e
+    for i in range(e):
+        out[o + i] = ev_k[i]
+    o += e
+    for i in range(n_eval):
+        for c in range(6):
+            out[o + 6 * i + c] = eval_y[i, c]
+    counts[0] = status
+    counts[1] = k
+    counts[2] = e
+    counts[3] = n_seen
+    counts[4] = n_eval
+    counts[5] = nfev
+    counts[6] = nsteps
+    counts[7] = nrej
+    return out

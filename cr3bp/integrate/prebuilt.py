@@ -8,9 +8,11 @@ a whole catalogued orbit request needs for its numerics (~0.01 s). ``make`` ther
 compiles the same source -- :func:`cr3bp.integrate.dop853.integrate` and the kernels
 :mod:`cr3bp.dynamics` calls -- into an extension module with ``numba.pycc``, which loads
 without numba in about a millisecond. :func:`cr3bp.integrate.propagate` and the functions of
-:mod:`cr3bp.dynamics` use it when it is present and current; :func:`propagate_batch` uses its
-one-thread batch kernel ``integrate_rows`` inside :func:`cr3bp.threads.serial` (the torus
-solver), else (it runs threads) the just-in-time kernels, as does the ephemeris model.
+:mod:`cr3bp.dynamics` use it when it is present and current; so does :func:`propagate_batch`:
+the module holds the lane kernel's block (``lanes_block``, :func:`cr3bp.integrate.lanes._run_block`)
+and the one-trajectory-per-row loop (``integrate_rows``), both compiled with the GIL released,
+and :func:`propagate_batch` runs blocks of a batch on Python threads. The ephemeris model's
+segment kernels stay just-in-time.
 
 Finding the current module is :mod:`cr3bp.compiled`'s job (its names are re-exported
 here). Current means built from exactly the source files in :data:`SOURCES`, for this Python, this
@@ -27,6 +29,7 @@ build says so and everything runs on the just-in-time kernels.
 
 from __future__ import annotations
 
+import contextlib
 import os
 import shutil
 import sys
@@ -34,7 +37,7 @@ import tempfile
 import warnings
 from pathlib import Path
 
-from ..compiled import (DIRECTORY, ENV, SIGNATURES, SOURCES, find, kernels, key,  # noqa: F401
+from ..compiled import (DIRECTORY, ENV, NOGIL, SIGNATURES, SOURCES, find, kernels, key,  # noqa: F401
                         module_name, reset)
 
 _PACKAGE = Path(__file__).resolve().parent.parent
@@ -106,7 +109,10 @@ def build(directory: Path | None = None, progress=None) -> Path:
     # only the build compiles: the kernels' modules load numba, which a lookup must not
     from ..dynamics import kernels as dynamics_kernels  # lazy: heavy library (numba, via cr3bp.dynamics.kernels)
     from . import dop853  # lazy: heavy library (numba, via cr3bp.integrate.dop853)
-    funcs = {"integrate": dop853.integrate, "integrate_rows": dop853.integrate_rows, "eom": dynamics_kernels.eom,
+    from . import lanes  # lazy: heavy library (numba, via cr3bp.integrate.lanes)
+    funcs = {"integrate": dop853.integrate, "integrate_packed": dop853.integrate_packed,
+             "integrate_rows": dop853.integrate_rows,
+             "lanes_block": lanes._run_block, "eom": dynamics_kernels.eom,
              "grad_omega": dynamics_kernels.grad_omega, "hessian_omega": dynamics_kernels.hessian_omega,
              "_jacobi_many": dynamics_kernels._jacobi_many}
     name = module_name()
@@ -118,9 +124,12 @@ def build(directory: Path | None = None, progress=None) -> Path:
         cc.output_dir = str(tmp)
         cc.target_cpu = "host"
         cc.verbose = False
+        options = {}
         for export, sig in SIGNATURES.items():
-            cc.export(export, sig)(funcs[export].py_func)
-        with warnings.catch_warnings():
+            py = funcs[export].py_func
+            cc.export(export, sig)(py)
+            options[py] = (export in NOGIL, funcs[export].targetoptions.get("error_model"))
+        with warnings.catch_warnings(), _export_options(options):
             warnings.simplefilter("ignore")
             try:
                 cc.compile()
@@ -138,6 +147,35 @@ def build(directory: Path | None = None, progress=None) -> Path:
             old.unlink(missing_ok=True)
     reset()
     return target
+
+
+@contextlib.contextmanager
+def _export_options(options):
+    """``numba.pycc`` compiles every export with one set of flags (the GIL held, Python's error
+    model); inside this block an export listed in ``options`` (its Python function ->
+    ``(release the GIL, error model or None)``) is compiled with its own: the GIL released for
+    :data:`NOGIL`, the error model of its just-in-time twin (``lanes._run_block`` uses numpy's:
+    no division checks, which would keep its lanes from being vectorised)."""
+    from numba.pycc import compiler as pycc_compiler  # lazy: heavy library (numba), build only
+    plain = getattr(pycc_compiler, "compile_extra", None)
+    if plain is None:
+        raise BuildError("this numba.pycc has no compile_extra to compile the blocks with the GIL "
+                         "released; the just-in-time kernels are used")
+
+    def compile_extra(typingctx, targetctx, func, args, return_type, flags, *a, **kw):
+        nogil, error_model = options.get(func, (False, None))
+        if nogil or error_model:
+            flags = flags.copy()
+            flags.release_gil = bool(nogil)
+            if error_model:
+                flags.error_model = error_model
+        return plain(typingctx, targetctx, func, args, return_type, flags, *a, **kw)
+
+    pycc_compiler.compile_extra = compile_extra
+    try:
+        yield
+    finally:
+        pycc_compiler.compile_extra = plain
 
 
 def clear_jit_cache(package: Path | None = None) -> int:

@@ -4,8 +4,10 @@
 returns an :class:`~cr3bp.integrate.arc.Arc`; :func:`propagate_batch` integrates many states
 in parallel inside compiled code and returns a :class:`BatchResult`. Both validate their
 input with :mod:`cr3bp.validate` and raise only the typed errors of :mod:`cr3bp.errors`.
-The kernels are in :mod:`.dop853`; :func:`propagate` runs the ahead-of-time build of them
-when it is current (:mod:`cr3bp.compiled` finds the module :mod:`.prebuilt` builds: no numba start-up), else numba's just-in-time one.
+The kernels are in :mod:`.dop853` and :mod:`.lanes`; both entry points run the ahead-of-time
+build of them when it is current (:mod:`cr3bp.compiled` finds the module :mod:`.prebuilt`
+builds: no numba start-up; :func:`propagate_batch` runs its blocks over Python threads), else
+numba's just-in-time ones.
 :func:`~cr3bp.integrate.reference.propagate_scipy` is the same interface on scipy for
 cross-checks.
 
@@ -17,6 +19,10 @@ integration proceeds, i.e. decreases in time.
 from __future__ import annotations
 
 import math
+import os
+import signal
+import threading
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
 import numpy as np
@@ -33,6 +39,11 @@ from .status import DEFAULT_MAX_STEPS, STATUS_NAMES
 FAILED = ("max-steps", "stalled", "non-finite")
 _IDENTITY_FLAT = np.eye(6).ravel()
 _NO_TIMES = np.empty(0)
+_NO_EVENTS = np.zeros((0, 6))
+_PARAMS: dict = {}
+_TOL_LO, _TOL_HI = validate.RTOL_RANGE
+_HUGE = math.inf
+_new = object.__new__
 
 
 @dataclass(frozen=True)
@@ -129,10 +140,20 @@ def integrator():
     return dop853.integrate
 
 
+def _packed():
+    """:func:`cr3bp.integrate.dop853.integrate_packed` of the prebuilt module when current,
+    else numba's (what :func:`propagate` calls: one returned array instead of eight)."""
+    k = compiled.kernels()
+    if k is not None:
+        return k.integrate_packed
+    from . import dop853  # lazy: heavy library (numba, via cr3bp.integrate.dop853)
+    return dop853.integrate_packed
+
+
 def batch_kernel():
-    """The one-trajectory-per-row kernel :func:`propagate_batch` runs inside
-    :func:`cr3bp.threads.serial` and for models other than the CR3BP (outside it the CR3BP
-    runs in :mod:`cr3bp.integrate.lanes`, with the same results). Same arguments as
+    """The one-trajectory-per-row kernel :func:`propagate_batch` runs for models other than the
+    CR3BP when the prebuilt module is not current (with it, :func:`propagate_batch` runs the
+    prebuilt kernels over threads itself). Same arguments as
     :func:`cr3bp.integrate.dop853.integrate_batch`, same results: inside
     :func:`cr3bp.threads.serial` the prebuilt one-thread loop ``integrate_rows`` when the
     prebuilt module is current (no numba start-up), else numba's parallel kernel (limited to
@@ -175,8 +196,104 @@ def batch_kernel():
     return one_thread
 
 
+#: Width and greatest block of the lane kernel (``cr3bp.integrate.lanes.LANES`` and ``BLOCK``,
+#: written here because importing that module loads numba; tests/test_prebuilt.py checks that
+#: they agree). They only split the work: no result depends on them.
+_LANES = 8
+_BLOCK = 256
+_POOL_LOCK = threading.Lock()
+_POOL = {"pool": None, "workers": 0, "pid": 0}
+
+
+def _blocks(n: int, nthreads: int) -> int:
+    """Blocks of consecutive trajectories for ``n`` trajectories on ``nthreads`` threads (the
+    split of :func:`cr3bp.integrate.lanes.blocks`)."""
+    per_lanes = max(1, -(-n // _LANES))
+    return max(1, min(per_lanes, max(nthreads, -(-n // _BLOCK))))
+
+
+def _pool(workers: int) -> ThreadPoolExecutor:
+    """The process's worker threads for batch blocks (made again after a fork: a child process
+    inherits the pool object but not its threads)."""
+    with _POOL_LOCK:
+        p = _POOL
+        if p["pool"] is None or p["workers"] != workers or p["pid"] != os.getpid():
+            if p["pool"] is not None and p["pid"] == os.getpid():
+                p["pool"].shutdown(wait=False)
+            p.update(pool=ThreadPoolExecutor(workers, thread_name_prefix="librate-batch",
+                                             initializer=_block_signals),
+                     workers=workers, pid=os.getpid())
+        return p["pool"]
+
+
+def _block_signals():
+    """Worker threads leave the process's signals (Ctrl-C, termination) to the main thread: a
+    signal the main thread blocks for a while (:class:`cr3bp.transfers.tasks.sigint_ignored`)
+    must stay pending until it unblocks it, not be taken by a worker thread meanwhile."""
+    if hasattr(signal, "pthread_sigmask"):
+        wanted = ("SIGINT", "SIGTERM", "SIGHUP", "SIGQUIT", "SIGALRM", "SIGCHLD", "SIGUSR1", "SIGUSR2")
+        signal.pthread_sigmask(signal.SIG_BLOCK, {getattr(signal, n) for n in wanted if hasattr(signal, n)})
+
+
+def _run_prebuilt(k, args, outs, nthreads=None):
+    """The batch on the prebuilt module's kernels, whose GIL-free blocks run on Python threads
+    (up to :func:`cr3bp.threads.count`; the calling thread takes blocks too): the CR3BP in
+    lockstep lanes (``lanes_block``, :func:`cr3bp.integrate.lanes._run_block` built ahead of
+    time), other models one trajectory per row (``integrate_rows``). Every block writes its own
+    rows only, so the results do not depend on the split nor on the number of threads."""
+    mode, y0s = args[0], args[2]
+    n = y0s.shape[0]
+    nthreads = threads.count() if nthreads is None else nthreads
+    nblocks = _blocks(n, nthreads)
+    if mode in (MODE_STATE, MODE_STM):
+        def block(b):
+            k.lanes_block(*args, (n * b) // nblocks, (n * (b + 1)) // nblocks, *outs)
+    else:
+        head, rest = args[:4], args[5:]
+
+        def block(b):
+            r = slice((n * b) // nblocks, (n * (b + 1)) // nblocks)
+            k.integrate_rows(*head[:2], y0s[r], head[3], args[4][r], *rest, False,
+                             *(o[r] for o in outs))
+    workers = min(nthreads, nblocks)
+    if workers <= 1:
+        for b in range(nblocks):
+            block(b)
+        return
+    todo = iter(range(nblocks))
+    lock = threading.Lock()
+    stop = []
+
+    def work():
+        while not stop:
+            with lock:
+                b = next(todo, None)
+            if b is None:
+                return
+            block(b)
+
+    pool = _pool(workers - 1)
+    futures = [pool.submit(work) for _ in range(workers - 1)]
+    try:
+        work()
+    except BaseException:       # Ctrl-C in the calling thread: the workers end their blocks, no more
+        stop.append(True)
+        raise
+    finally:
+        for f in futures:
+            f.result()
+
+
 def _params(system) -> np.ndarray:
-    return np.array([float(system.mu)], dtype=np.float64)
+    """The CR3BP kernels' parameter vector ``[mu]``, one array per mass ratio (the kernels only
+    read it)."""
+    mu = float(system.mu)
+    p = _PARAMS.get(mu)
+    if p is None:
+        if len(_PARAMS) > 64:       # many custom systems: keep the cache small
+            _PARAMS.clear()
+        p = _PARAMS[mu] = np.array([mu], dtype=np.float64)
+    return p
 
 
 def _model(system, model, stm):
@@ -314,14 +431,22 @@ def propagate(system, state, t_final, stm=False, rtol=1e-12, atol=1e-12, events=
        (dense output; from memory).
     """
     s0 = validate.state(system, state)
-    rtol = validate.tolerance("rtol", rtol)
-    atol = validate.tolerance("atol", atol)
-    t0 = validate.finite_time("t0", t0)
-    tf = validate.finite_time("t_final", t_final)
-    events = tuple(events or ())
-    tab = table(events)
+    # fast paths: a float in range needs no call (nan and inf fail the comparisons)
+    if not (type(rtol) is float and _TOL_LO <= rtol <= _TOL_HI):
+        rtol = validate.tolerance("rtol", rtol)
+    if not (type(atol) is float and _TOL_LO <= atol <= _TOL_HI):
+        atol = validate.tolerance("atol", atol)
+    if not (type(t0) is float and -_HUGE < t0 < _HUGE):
+        t0 = validate.finite_time("t0", t0)
+    tf = t_final
+    if not (type(tf) is float and -_HUGE < tf < _HUGE):
+        tf = validate.finite_time("t_final", t_final)
+    events = tuple(events) if events else ()
     if events:
+        tab = table(events)
         _check_events_start(system, tab, s0)
+    else:
+        tab = _NO_EVENTS
     direction = 1.0 if tf >= t0 else -1.0
     if t_eval is None:
         te = _NO_TIMES
@@ -330,33 +455,55 @@ def propagate(system, state, t_final, stm=False, rtol=1e-12, atol=1e-12, events=
         te = _t_eval(t_eval, t0, tf, direction)
         record = False
     mstep = _max_step(max_step)
-    nmax = _max_steps(max_steps)
+    # fast path: a whole number of at least 1 needs no check
+    nmax = max_steps if type(max_steps) is int and max_steps >= 1 else _max_steps(max_steps)
     h0 = -1.0 if first_step is None else abs(validate.finite_time("first_step", first_step))
-    mode, params = _model(system, model, stm)
+    if model is None:
+        mode, params = (MODE_STM if stm else MODE_STATE), _params(system)
+    else:
+        mode, params = _model(system, model, stm)
     if stm:
         y0 = np.empty(42)
         y0[:6] = s0
         y0[6:] = _IDENTITY_FLAT
     else:
-        y0 = s0.copy()
+        y0 = s0.copy()          # contiguous: the prebuilt kernel reads a strided view wrongly
 
-    (code, t_end, y_end, ts, ys, ev_t, ev_y, ev_k, _seen, eval_y, n_eval, nfev, nsteps,
-     _nrej) = integrator()(int(mode), params, y0, float(t0), float(tf), float(rtol),
-                           float(atol), float(h0), float(mstep), int(nmax), tab, -1, te,
-                           bool(record))
-    code = int(code)
+    counts = np.empty(8, dtype=np.int64)
+    out = _packed()(mode, params, y0, t0, tf, rtol, atol, h0, mstep, nmax, tab, -1, te, record,
+                    counts)
+    code, k, e, _seen, n_eval, nfev, nsteps, _nrej = counts.tolist()
+    n = y0.shape[0]
+    t_end = out.item(0)
+    y_end = out[1:1 + n]
     if code < 0:
         raise ConvergenceError(_failure_message(code, t_end, t0, tf, nsteps, nmax),
-                               iterations=int(nsteps), last=np.array(y_end[:6]))
-    hits = tuple(EventHit(int(k), events[int(k)].name, float(t), np.array(s))
-                 for t, s, k in zip(ev_t, ev_y, ev_k))
-    if record:
-        t_out, s_out = ts, ys
+                               iterations=nsteps, last=np.array(y_end[:6]))
+    o = 1 + n + 7 * k
+    if e:
+        ev_y = out[o + e:o + 7 * e].reshape(e, 6)
+        hits = tuple(EventHit(int(j), events[int(j)].name, t, np.array(ev_y[i]))
+                     for i, (t, j) in enumerate(zip(out[o:o + e].tolist(), out[o + 7 * e:o + 8 * e].tolist())))
     else:
-        t_out, s_out = te[:n_eval].copy(), eval_y[:n_eval]
+        hits = ()
+    if record:
+        t_out, s_out = out[1 + n:1 + n + k], out[1 + n + k:o].reshape(k, 6)
+    else:
+        o += 8 * e
+        t_out, s_out = te[:n_eval].copy(), out[o:o + 6 * n_eval].reshape(n_eval, 6)
     phi = y_end[6:].reshape(6, 6) if stm else None
-    return Arc(system, t_out, s_out, phi, STATUS_NAMES[code], hits, int(nfev), int(nsteps),
-               t_end=float(t_end), state_end=y_end[:6])
+    return _arc(system, t_out, s_out, phi, STATUS_NAMES[code], hits, nfev, nsteps, t_end,
+                y_end[:6])
+
+
+def _arc(system, t, states, stm, status, events, nfev, nsteps, t_end, state_end) -> Arc:
+    """``Arc(system, t, states, stm, status, events, nfev, nsteps, t_end=, state_end=)`` without
+    the frozen dataclass's ten ``object.__setattr__`` calls (1.9 us of a 10 us call; the fields
+    are filled directly, tests/test_prebuilt.py checks the result equals the constructor's)."""
+    arc = _new(Arc)
+    arc.__dict__.update(system=system, t=t, states=states, stm=stm, status=status, events=events,
+                        nfev=nfev, nsteps=nsteps, t_end=t_end, state_end=state_end)
+    return arc
 
 
 def _t_eval(t_eval, t0, tf, direction) -> np.ndarray:
@@ -377,15 +524,18 @@ def _t_eval(t_eval, t0, tf, direction) -> np.ndarray:
 def propagate_batch(system, states, t_final, rtol=1e-12, atol=1e-12, events=(), *, stm=False,
                     max_events=8, max_step=None, max_steps=DEFAULT_MAX_STEPS,
                     on_failure="raise", t0=0.0, model=None) -> BatchResult:
-    """Propagate many states in parallel (``numba.prange`` inside compiled code).
+    """Propagate many states in parallel, in compiled code.
 
     Same method as :func:`propagate` (Hairer et al. 1993, section II.5, code dop853), run on
     every row of ``states`` with no Python loop over trajectories. For the CR3BP (no
     ``model``) the trajectories advance in lockstep vector lanes (:mod:`.lanes`: each keeps
     its own step size, error control and events, and gets the scalar integrator's result);
-    other models run one trajectory per thread iteration. Inside :func:`cr3bp.threads.serial`
-    the rows run on one thread in the prebuilt module's compiled loop (``integrate_rows``, no
-    numba start-up, the same results) when it is current.
+    other models run one trajectory per row. When the prebuilt module is current (``make
+    kernels``) the batch runs on its kernels, which release the GIL, in blocks of consecutive
+    trajectories over Python threads (:func:`cr3bp.threads.count` of them: one inside
+    :func:`cr3bp.threads.serial`), without importing numba; otherwise on numba's parallel
+    kernels (``numba.prange``). The results are the same bytes either way, whatever the number
+    of threads.
 
     Parameters
     ----------
@@ -471,25 +621,21 @@ def propagate_batch(system, states, t_final, rtol=1e-12, atol=1e-12, events=(), 
     ev_k = np.empty((n, max(m, 1)), dtype=np.int64)
     out_nfev = np.zeros(n, dtype=np.int64)
     out_nsteps = np.zeros(n, dtype=np.int64)
-    rows = threads.one_thread() and compiled.kernels() is not None   # the prebuilt one-thread loop
-    if mode in (MODE_STATE, MODE_STM) and not rows:
+    args = (int(mode), params, y0s, float(t0), tf, float(rtol), float(atol), float(mstep),
+            int(nmax), tab, int(m))
+    outs = (out_y, out_t, out_status, out_nev, out_seen, ev_t, ev_y, ev_k, out_nfev, out_nsteps)
+    k = compiled.kernels()
+    if k is not None:
+        _run_prebuilt(k, args, outs)
+    elif mode in (MODE_STATE, MODE_STM):
         from . import lanes  # lazy: heavy library (numba, via cr3bp.integrate.lanes)
-
-        def run_lanes():
-            lanes.integrate_lanes(int(mode), params, y0s, float(t0), tf, float(rtol), float(atol),
-                                  float(mstep), int(nmax), tab, int(m), lanes.blocks(n), out_y, out_t,
-                                  out_status, out_nev, out_seen, ev_t, ev_y, ev_k, out_nfev,
-                                  out_nsteps)
         if threads.one_thread():
             with threads.serial():      # numba may have been loaded just now: one thread
-                run_lanes()
+                lanes.integrate_lanes(*args, lanes.blocks(n), *outs)
         else:
-            run_lanes()
+            lanes.integrate_lanes(*args, lanes.blocks(n), *outs)
     else:
-        args = (int(mode), params, y0s, float(t0), tf, float(rtol), float(atol), float(mstep),
-                int(nmax), tab, int(m), False, out_y, out_t, out_status, out_nev, out_seen, ev_t, ev_y,
-                ev_k, out_nfev, out_nsteps)
-        batch_kernel()(*args)
+        batch_kernel()(*args, False, *outs)
     failed = out_status < 0
     if failed.any() and on_failure == "raise":
         i = int(np.argmax(failed))
