@@ -37,7 +37,7 @@ _LAZY = {
 }
 #: the public face: one call per stage (cr3bp/api.py)
 STAGES = ("system", "points", "orbit", "family", "manifold", "section", "connect", "optimise", "route", "export",
-          "run", "torus", "shadow", "keep")
+          "run", "torus", "shadow", "keep", "atlas")
 _LAZY.update({name: "api" for name in STAGES})
 
 __all__ = list(STAGES) + ["CAUTION", "System", "system_names", "propagate", "propagate_batch", "Arc",
