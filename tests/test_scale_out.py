@@ -90,7 +90,7 @@ def test_atlas_cli_same_json_here_in_a_pool_and_on_dask_and_catalogue_in_order(c
 
 def test_run_tasks_on_dask_in_chunks(cluster):
     assert tasks.run_tasks(abs, list(range(-20, 0)), scheduler=cluster) == list(range(20, 0, -1))
-    assert tasks.split(10, 2, 2) == [[0, 1, 2], [3, 4, 5], [6, 7, 8], [9]]
+    assert tasks.split(10, 2, 2) == [[0, 4, 8], [1, 5, 9], [2, 6], [3, 7]]
     assert sum(map(len, tasks.split(401, 16))) == 401 and len(tasks.split(401, 16)) <= 64
 
 
@@ -128,3 +128,14 @@ def test_manifold_and_section_cli_byte_identical_json(capsys, cluster):
     rc2, out2, err2 = run(capsys, *s, "--workers=2")
     assert rc1 == rc2 == 0, (err1, err2)
     assert out1 == out2
+
+
+def test_a_started_pool_is_used_and_left_running():
+    """start_pool: the workers start before the tasks come (warmed by a module-level function)
+    and run_tasks uses the pool without shutting it down."""
+    ex = tasks.start_pool(2, warm=tasks._nothing)
+    try:
+        assert tasks.run_tasks(abs, list(range(-9, 0)), workers=2, executor=ex) == list(range(9, 0, -1))
+        assert tasks.run_tasks(str, [1, 2, 3], workers=2, executor=ex) == ["1", "2", "3"]   # still running
+    finally:
+        ex.shutdown()

@@ -60,10 +60,8 @@ reports is in the ephemeris model (point masses, optional cannonball radiation p
 from __future__ import annotations
 
 import math
-import os
 from dataclasses import dataclass, field
-from concurrent.futures import ProcessPoolExecutor, as_completed
-import multiprocessing
+from concurrent.futures import as_completed
 
 import numpy as np
 
@@ -714,7 +712,7 @@ def _merge(parts):
 
 
 def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, min_burn_mps: float = 0.0,
-               workers: int | None = None, scheduler=None, progress=None) -> dict:
+               workers: int | None = None, scheduler=None, progress=None, executor=None) -> dict:
     """:func:`simulate` over ``trials`` trials, here or over a pool of processes or a dask cluster.
 
     In this process (``workers`` None or 1; the compiled propagation runs the trials on parallel
@@ -744,6 +742,9 @@ def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, mi
         here); the trials go there in the same chunks (:func:`on_dask`).
     progress : callable(done, total), optional
         Called as chunks finish.
+    executor : concurrent.futures.ProcessPoolExecutor, optional
+        A pool of ``workers`` already started (:func:`cr3bp.transfers.tasks.start_pool`; a
+        warm one saves the workers' start-up): used and left running for its owner.
 
     Returns
     -------
@@ -774,9 +775,8 @@ def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, mi
             progress(n, n)
         return res
     parts = chunks(n, workers)
-    ctx = multiprocessing.get_context("spawn")     # as transfers.tasks: no fork under compiled threads
-    ex = ProcessPoolExecutor(max_workers=min(workers, len(parts)), mp_context=ctx,
-                             initializer=tasks.worker_init, initargs=(os.getpid(),))
+    # spawned workers (as transfers.tasks: no fork under compiled threads), one kernel thread each
+    ex = executor if executor is not None else tasks.start_pool(min(workers, len(parts)))
     try:
         with tasks.sigint_ignored():
             futs = [ex.submit(_chunk, {"reference": ref, "errors": errors, "trials": c, "seed": seed,
@@ -785,7 +785,8 @@ def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, mi
     except BaseException:
         tasks.stop_pool(ex)
         raise
-    ex.shutdown(wait=True)
+    if executor is None:
+        ex.shutdown(wait=True)
     return out
 
 
@@ -1008,9 +1009,29 @@ def budget(orbit, epoch, span_tu: float, errors: Errors, trials: int, *, seed: i
     validate.number_value("minimum burn (m/s)", min_burn_mps, 0.0)
     if not isinstance(errors, Errors):
         raise InputError("errors must be an Errors")
-    ref = reference(orbit, epoch, span_tu, bodies=bodies, srp=srp, target_revs=target_revs,
-                    interval_tu=interval_tu, hold_phase=hold_phase, policy=policy, progress=(
-                        (lambda m: progress(m)) if progress else None))
-    res = run_trials(ref, errors, trials, seed, min_burn_mps=min_burn_mps, workers=workers, scheduler=scheduler,
-                     progress=(lambda d, n: progress(f"trials: {d} of {n} done")) if progress else None)
+    n_workers = 1 if workers is None else validate.whole_number("workers", workers, 1)
+    trials = validate.whole_number("trials", trials, 1)
+    # a pool is started (and its workers load the trial kernels) while the reference is computed
+    # here, so that the workers' start-up overlaps the reference instead of delaying the trials
+    pool = tasks.start_pool(min(n_workers, len(chunks(trials, n_workers))), warm=_warm_worker) \
+        if scheduler is None and n_workers > 1 and trials > 1 else None
+    try:
+        ref = reference(orbit, epoch, span_tu, bodies=bodies, srp=srp, target_revs=target_revs,
+                        interval_tu=interval_tu, hold_phase=hold_phase, policy=policy, progress=(
+                            (lambda m: progress(m)) if progress else None))
+        res = run_trials(ref, errors, trials, seed, min_burn_mps=min_burn_mps, workers=workers,
+                         scheduler=scheduler, executor=pool,
+                         progress=(lambda d, n: progress(f"trials: {d} of {n} done")) if progress else None)
+    except BaseException:
+        if pool is not None:
+            tasks.stop_pool(pool)
+        raise
+    if pool is not None:
+        pool.shutdown(wait=True)
     return Budget(ref, errors, int(seed), float(min_burn_mps), res)
+
+
+def _warm_worker():
+    """Run once in each pool worker before its first chunk: load the trial kernels (the
+    ephemeris-model integrator, from the compiled cache) so the chunks find them loaded."""
+    from ..fidelity import segments  # noqa: F401  # lazy: heavy library (numba), loaded in a worker only

@@ -27,7 +27,7 @@ CHUNKS_PER_WORKER = 4
 
 
 def run_tasks(function, tasks, workers=None, scheduler=None, progress=None, *,
-              chunks_per_worker=CHUNKS_PER_WORKER) -> list:
+              chunks_per_worker=CHUNKS_PER_WORKER, executor=None) -> list:
     """``[function(t) for t in tasks]``, in task order, computed in parallel.
 
     ``function`` must be a module-level function (it is pickled by reference) that never
@@ -52,6 +52,9 @@ def run_tasks(function, tasks, workers=None, scheduler=None, progress=None, *,
         Called as results arrive (in completion order).
     chunks_per_worker : int
         Chunks of tasks per pool worker.
+    executor : concurrent.futures.ProcessPoolExecutor, optional
+        A pool already started (:func:`start_pool`, ``workers`` its size): used, and left
+        running for its owner to shut down.
 
     Returns
     -------
@@ -99,12 +102,11 @@ def run_tasks(function, tasks, workers=None, scheduler=None, progress=None, *,
     # spawn, not fork: a forked child of a process whose compiled kernels have started their
     # thread pool (propagate_batch runs prange) may crash; a script that builds a graph with a
     # pool therefore needs the usual `if __name__ == "__main__":` guard
-    ctx = multiprocessing.get_context("spawn")
     # legs take milliseconds with the compiled integrator: send them in chunks (a few per
     # worker) so that process start-up and pickling do not outweigh the work
     chunks = split(n, workers, chunks_per_worker)
-    ex = ProcessPoolExecutor(max_workers=min(workers, len(chunks)), mp_context=ctx,
-                             initializer=worker_init, initargs=(os.getpid(),))
+    # each worker's compiled kernels get their share of the cores (no more threads than cores)
+    ex = executor if executor is not None else start_pool(min(workers, len(chunks)))
     try:
         # the workers are started by the submissions, with SIGINT blocked until worker_init
         # ignores it
@@ -117,14 +119,70 @@ def run_tasks(function, tasks, workers=None, scheduler=None, progress=None, *,
         # Ctrl-C or an error: stop the workers now instead of waiting for their chunks
         stop_pool(ex)
         raise
-    ex.shutdown(wait=True)
+    if executor is None:
+        ex.shutdown(wait=True)
     return out
 
 
+def start_pool(workers: int, warm=None):
+    """A process pool of ``workers`` spawned workers, started now (each worker dies with this
+    process and leaves Ctrl-C to it, :func:`worker_init`), optionally warmed by running ``warm()``
+    once per worker: a caller with serial work of its own to do first (a station-keeping
+    reference, a graph's orbits) starts the pool before it, so that the workers' start-up
+    (interpreter, imports, compiled kernels loaded from their cache) overlaps that work instead
+    of delaying the tasks. Pass it as ``executor`` to :func:`run_tasks` (or
+    :func:`cr3bp.operations.keeping.run_trials`); the caller shuts it down (``shutdown()``, or
+    :func:`stop_pool` on an error).
+
+    Parameters
+    ----------
+    workers : int
+        Worker processes (at least 2: one worker is better served by this process).
+    warm : callable, optional
+        A module-level function of no arguments run once in each worker (its result is dropped).
+
+    Returns
+    -------
+    concurrent.futures.ProcessPoolExecutor
+
+    Raises
+    ------
+    InputError
+        ``workers`` not a whole number of at least 1.
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.tasks import run_tasks, start_pool
+    >>> pool = start_pool(2)                                           # doctest: +SKIP
+    >>> run_tasks(abs, [-1, 2], workers=2, executor=pool)              # doctest: +SKIP
+    [1, 2]
+    >>> pool.shutdown()                                                # doctest: +SKIP
+
+    References
+    ----------
+    Python documentation, ``concurrent.futures.ProcessPoolExecutor`` and ``multiprocessing``
+    (spawn start method).
+    """
+    workers = validate.whole_number("workers", workers, 1)
+    ctx = multiprocessing.get_context("spawn")
+    ex = ProcessPoolExecutor(max_workers=workers, mp_context=ctx, initializer=worker_init,
+                             initargs=(os.getpid(), max(1, (os.cpu_count() or 1) // workers)))
+    with sigint_ignored():
+        for _ in range(workers):
+            ex.submit(warm if warm is not None else _nothing)
+    return ex
+
+
+def _nothing():
+    return None
+
+
 def split(n: int, workers: int, chunks_per_worker: int = CHUNKS_PER_WORKER) -> list:
-    """Task indices ``0..n-1`` in consecutive chunks of equal size (the last may be shorter):
-    about ``chunks_per_worker`` chunks per worker, so the round trips are few and a slow worker
-    is still helped by the others at the end.
+    """Task indices ``0..n-1`` dealt into about ``chunks_per_worker`` chunks per worker, round
+    robin (chunk ``c`` holds ``c, c + k, c + 2k, ...``): the round trips are few, and tasks of
+    very different cost that sit together in the list (a graph's parking legs take a thousand
+    times as long as its targeted arcs, and come first) are spread over every chunk instead of
+    landing in one. Results are put back in task order, so the split changes no result.
 
     Parameters
     ----------
@@ -138,6 +196,8 @@ def split(n: int, workers: int, chunks_per_worker: int = CHUNKS_PER_WORKER) -> l
     Returns
     -------
     list of list of int
+        At most ``chunks_per_worker * workers`` (and at most ``n``) non-empty chunks, covering
+        ``0..n-1`` once; sizes differ by at most one.
 
     Raises
     ------
@@ -147,15 +207,18 @@ def split(n: int, workers: int, chunks_per_worker: int = CHUNKS_PER_WORKER) -> l
     --------
     >>> from cr3bp.transfers.tasks import split
     >>> split(10, 2, 2)
-    [[0, 1, 2], [3, 4, 5], [6, 7, 8], [9]]
+    [[0, 4, 8], [1, 5, 9], [2, 6], [3, 7]]
+    >>> split(3, 8)
+    [[0], [1], [2]]
 
     References
     ----------
     Dask documentation, "Dask Best Practices" (a few tasks per worker, each large enough to
-    outweigh its scheduling cost; common practice).
+    outweigh its scheduling cost; common practice); round-robin (cyclic) distribution of loop
+    iterations, as OpenMP's ``schedule(static, 1)`` (OpenMP API specification 5.2, 2021, §11.5.3).
     """
-    size = max(1, math.ceil(n / (max(1, chunks_per_worker) * max(1, int(workers)))))
-    return [list(range(a, min(a + size, n))) for a in range(0, n, size)]
+    k = max(1, min(n, max(1, chunks_per_worker) * max(1, int(workers))))
+    return [list(range(c, n, k)) for c in range(k)]
 
 
 def _on_dask(function, tasks, scheduler, workers, tick, chunks_per_worker):
@@ -247,7 +310,7 @@ class sigint_ignored:
 PR_SET_PDEATHSIG = 1
 
 
-def worker_init(parent_pid=None):
+def worker_init(parent_pid=None, threads=None):
     """Initializer of every pool worker: die with the parent, and leave Ctrl-C to it.
 
     A worker ignores SIGINT (the terminal sends it to the whole process group; the parent
@@ -260,6 +323,9 @@ def worker_init(parent_pid=None):
     ----------
     parent_pid : int, optional
         The parent's process id.
+    threads : int, optional
+        Threads of the compiled kernels in this worker (``NUMBA_NUM_THREADS``, set before numba
+        loads): the pool's share of the cores, so that workers do not oversubscribe them.
 
     Returns
     -------
@@ -283,6 +349,8 @@ def worker_init(parent_pid=None):
     Linux ``prctl(2)`` (PR_SET_PDEATHSIG); Python documentation, ``signal``.
     """
     signal.signal(signal.SIGINT, signal.SIG_IGN)
+    if threads is not None and "numba" not in sys.modules:
+        os.environ["NUMBA_NUM_THREADS"] = str(int(threads))
     if sys.platform.startswith("linux"):
         try:
             import ctypes   # lazy: Linux only
