@@ -139,3 +139,23 @@ def test_a_started_pool_is_used_and_left_running():
         assert tasks.run_tasks(str, [1, 2, 3], workers=2, executor=ex) == ["1", "2", "3"]   # still running
     finally:
         ex.shutdown()
+
+
+def test_a_build_grows_each_family_once_and_solves_the_same_orbits(monkeypatch):
+    """resolve_orbits without a catalogue: three requests on the Lyapunov L1 family grow it once,
+    and each orbit equals the one solved alone (its family grown for it)."""
+    from cr3bp.orbits import families, request
+    from cr3bp.transfers.graph import resolve_orbits
+    from cr3bp.transfers.nodes import parse_nodes
+    em = cr3bp.system("earth-moon")
+    reqs = ["lyapunov L1 jacobi=3.10", "lyapunov L1 jacobi=3.12", "lyapunov L1 jacobi=3.15"]
+    text = 'system = "earth-moon"\n' + "".join(
+        f'[[node]]\nname = "o{i}"\nkind = "orbit"\norbit = "{r}"\n' for i, r in enumerate(reqs))
+    alone = [request.solve_request(em, r) for r in reqs]
+    grows = []
+    real = families.grow_family
+    monkeypatch.setattr(families, "grow_family", lambda *a, **k: grows.append(a[1]) or real(*a, **k))
+    got = resolve_orbits(em, parse_nodes(text, em))
+    assert grows == ["lyapunov"]
+    assert [np.asarray(o["state"]).tobytes() for o in got.values()] == [o.state.tobytes() for o in alone]
+    assert [o["period"] for o in got.values()] == [o.period for o in alone]
