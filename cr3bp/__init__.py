@@ -41,7 +41,7 @@ _LAZY = {
 #: the public face: one call per stage (cr3bp/api.py)
 STAGES = ("system", "points", "orbit", "family", "manifold", "section", "connect", "optimise", "route", "export",
           "run", "torus", "shadow", "keep", "disperse", "propagate_state", "zvc", "catalog_list", "catalog_show",
-          "catalog_remove", "read_trajectory")
+          "catalog_remove", "read_trajectory", "atlas")
 _LAZY.update({name: "api" for name in STAGES})
 
 __all__ = list(STAGES) + ["CAUTION", "System", "system_names", "propagate", "propagate_batch", "Arc",

@@ -36,7 +36,7 @@ from .units import length
 
 __all__ = ["system", "points", "orbit", "orbit_request", "family", "manifold", "section", "connect", "optimise", "route",
            "trajectory", "export", "run", "torus", "shadow", "keep", "disperse", "propagate_state", "zvc",
-           "catalog_list", "catalog_show", "catalog_remove", "read_trajectory"]
+           "catalog_list", "catalog_show", "catalog_remove", "read_trajectory", "atlas"]
 
 
 # ---- helpers ---------------------------------------------------------------------------
@@ -427,7 +427,7 @@ def family(system, name, *, point=None, branch=None, ratio=None, members=200, un
 # ---- tubes -----------------------------------------------------------------------------
 
 def manifold(orbit, stability, *, branch="interior", points=200, until=None, spacing="time",
-             step_off=None, progress=None, origin=None):
+             step_off=None, progress=None, origin=None, workers=None, scheduler=None):
     """Grow the stable or unstable manifold (a tube) of a periodic orbit (``librate manifold``).
 
     Parameters
@@ -452,6 +452,12 @@ def manifold(orbit, stability, *, branch="interior", points=200, until=None, spa
     progress : callable(done, total, message), optional
     origin : str, optional
         How the tube's label names its orbit or torus (default: described from it).
+    workers : int, optional
+        Propagate a periodic orbit's tube in pieces over this many worker processes (default:
+        here, on the compiled kernels' threads); the result is the same bit for bit.
+    scheduler : str or distributed.Client, optional
+        Or on a dask.distributed scheduler: an address, ``"local"`` / ``"local:N"`` (a local
+        cluster started and stopped here), or a client.
 
     Returns
     -------
@@ -482,6 +488,7 @@ def manifold(orbit, stability, *, branch="interior", points=200, until=None, spa
     stability = _one_of("stability", stability, ("stable", "unstable"))
     branch = _one_of("branch", branch, TUBE_BRANCHES)
     _one_of("spacing", spacing, ("time", "arc"))
+    runner = _piece_runner(workers, scheduler, orbit)
     if isinstance(orbit, tuple) and len(orbit) == 2:
         sysm, name = _as_system(orbit[0]), str(orbit[1]).upper()
         if name not in ("L1", "L2", "L3"):
@@ -498,7 +505,7 @@ def manifold(orbit, stability, *, branch="interior", points=200, until=None, spa
         return grow_torus_tube(orbit, stability, branch, int(points), stop, step_km=step_off, progress=progress,
                                origin=origin)
     return grow_tube(orbit, stability, branch, int(points), stop, spacing=spacing, step_km=step_off,
-                     progress=progress, origin=origin)
+                     progress=progress, origin=origin, runner=runner)
 
 
 def _loaded_instance(obj, module, name):
@@ -517,7 +524,7 @@ def _is_orbit(obj):
 
 
 def section(tube, where, *, crossing=1, time=None, stability=None, branch="interior", points=200,
-            step_off=None, label=None, origin=None, progress=None):
+            step_off=None, label=None, origin=None, progress=None, workers=None, scheduler=None):
     """Cut a tube with a Poincaré section (``librate section``).
 
     Parameters
@@ -548,6 +555,12 @@ def section(tube, where, *, crossing=1, time=None, stability=None, branch="inter
     origin : str, optional
         With an orbit or torus: how the tube's label names it.
     progress : callable(done, total, message), optional
+    workers : int, optional
+        Propagate a periodic orbit's tube in pieces over this many worker processes (default:
+        here, on the compiled kernels' threads); the result is the same bit for bit.
+    scheduler : str or distributed.Client, optional
+        Or on a dask.distributed scheduler: an address, ``"local"`` / ``"local:N"`` (a local
+        cluster started and stopped here), or a client.
 
     Returns
     -------
@@ -585,6 +598,8 @@ def section(tube, where, *, crossing=1, time=None, stability=None, branch="inter
     sysm = tube.system
     sec = parse_section(str(where), sysm)
     crossing = _whole("crossing", crossing, 1, 1000)
+    runner = _piece_runner(workers, scheduler, tube.orbit if isinstance(tube, Tube) else tube,
+                           apsis=sec.kind == "apsis")
     t_max = 2 * math.pi
     if time is not None:
         from .validate import quantity  # lazy: start-up: keeps cr3bp.api free of numpy
@@ -594,7 +609,7 @@ def section(tube, where, *, crossing=1, time=None, stability=None, branch="inter
             raise InputError("cutting an orbit's tube needs stability= ('stable' or 'unstable')")
         return _cut(tube, _one_of("stability", stability, ("stable", "unstable")),
                     _one_of("branch", branch, TUBE_BRANCHES), _whole("points", points, 2, 100_000), sec,
-                    crossing, t_max, step_off, label, origin, progress)
+                    crossing, t_max, step_off, label, origin, progress, runner)
     if sec.kind == "apsis":
         raise InputError(f"section {where!r}: an apsis map is drawn by cr3bp.connect with a parking orbit")
     if tube.stop.section == sec and tube.stop.count == crossing and time is None:
@@ -603,7 +618,7 @@ def section(tube, where, *, crossing=1, time=None, stability=None, branch="inter
         raise InputError("this tube does not carry its orbit; grow it with cr3bp.manifold")
     grown = grow_tube(tube.orbit, tube.stability, tube.branch, tube.n, Stop(sec, crossing, t_max),
                       spacing=tube.spacing, step_km=tube.step_km if math.isfinite(tube.step_km) else None,
-                      origin=tube.origin, progress=progress)
+                      origin=tube.origin, progress=progress, runner=runner)
     return _labelled(grown.section_cut(), label)
 
 
@@ -611,7 +626,7 @@ def _labelled(cut, label):
     return cut if label is None else type(cut)(**{**cut.__dict__, "label": label})
 
 
-def _cut(source, stability, branch, n, sec, crossing, t_max, step_off, label, origin, progress):
+def _cut(source, stability, branch, n, sec, crossing, t_max, step_off, label, origin, progress, runner=None):
     """The cut of ``source``'s (an orbit's or a torus's) half-manifold with ``sec``."""
     from .tubes.manifolds import Stop  # lazy: start-up: keeps cr3bp.api free of numpy
     from .tubes.sections import crossings  # lazy: start-up: keeps cr3bp.api free of numpy
@@ -633,7 +648,7 @@ def _cut(source, stability, branch, n, sec, crossing, t_max, step_off, label, or
     else:
         from .tubes.manifolds import grow_tube  # lazy: start-up: keeps cr3bp.api free of numpy
     tube = grow_tube(source, stability, branch, n, Stop(sec, crossing, t_max), step_km=step_off,
-                     progress=progress, origin=origin)
+                     progress=progress, origin=origin, **({"runner": runner} if runner is not None else {}))
     return _labelled(tube.section_cut(), label)
 
 
@@ -2357,3 +2372,180 @@ def read_trajectory(path, *, fmt=None):
     """
     from .io import export as ex  # lazy: start-up: keeps cr3bp.api free of numpy
     return ex.read(path, fmt)
+
+
+# ---- family atlas: many families in one call, one task each ------------------------------
+
+#: Most families in one atlas.
+MAX_ATLAS_FAMILIES = 64
+
+
+def _atlas_entries(families):
+    """The atlas's family requests (a list, or one text separated by commas), each checked."""
+    from .orbits.request import parse_request  # lazy: start-up: keeps cr3bp.api free of numpy
+    if isinstance(families, str):
+        items = [s.strip() for s in families.split(",")]
+    else:
+        try:
+            items = [str(s).strip() for s in families]
+        except TypeError:
+            raise InputError(f"families {families!r} must be a list of family requests such as "
+                             "'halo L1 north'") from None
+    if not items or any(not s for s in items):
+        raise InputError(f"families {families!r}: give one or more family requests separated by commas, "
+                         "e.g. 'halo L1 north, lyapunov L2'")
+    if len(items) > MAX_ATLAS_FAMILIES:
+        raise InputError(f"families: {len(items)} requests; an atlas takes at most {MAX_ATLAS_FAMILIES}")
+    specs, seen = [], {}
+    for text in items:
+        spec = parse_request(text)
+        if spec.key:
+            raise InputError(f"family request '{text}' names a member ({spec.key}={spec.value}); an atlas "
+                             "grows whole families: leave the target out")
+        ident = (spec.family, spec.point, spec.branch_label)
+        if ident in seen:
+            raise InputError(f"family request '{text}' repeats '{seen[ident]}'")
+        seen[ident] = text
+        specs.append(spec)
+    return items, specs
+
+
+def _atlas_grow(task):
+    """One family of an atlas (a task of the pool or of dask): :func:`family` without a catalogue."""
+    return family(task["system"], task["family"], point=task["point"], branch=task["branch"],
+                  ratio=task["ratio"], members=task["members"], until=task["until"],
+                  altitude=task["altitude"], max_step=task["max_step"])
+
+
+def atlas(system, families, *, members=200, until=None, altitude=None, max_step=None, workers=None,
+          scheduler=None, progress=None, catalog=None):
+    """Grow many families of periodic orbits at once, one task per family (``librate family --atlas``).
+
+    Every request is checked before any family is grown. The families are grown here
+    (``workers`` None or 1), over a process pool of ``workers`` processes, or on a
+    dask.distributed cluster (``scheduler``), one task per family; each family is the one
+    :func:`family` grows with the same settings, wherever it is computed (member by member,
+    bit for bit). The catalogue is written by this process only, after every family is
+    grown, in the order of the requests (each family in its own transactions, as
+    :func:`family` stores it).
+
+    Parameters
+    ----------
+    system : System or str
+    families : str or list of str
+        Family requests without a target: ``"halo L1 north, lyapunov L2"`` or
+        ``["halo L1 north", "lyapunov L2", "resonant 3:2"]`` (at most
+        :data:`MAX_ATLAS_FAMILIES`, none repeated).
+    members : int
+        Largest member count of each family, 2..5000 (default 200).
+    until : str, optional
+        ``"KEY=VALUE"`` stop applied to every family (as for :func:`family`).
+    altitude : str, optional
+        Stop a family when a member passes below this altitude above a primary.
+    max_step : float, optional
+        Largest continuation step (nondimensional, in (0, 1)).
+    workers : int, optional
+        Processes (default: this one); with ``scheduler="local"`` the local cluster's size.
+    scheduler : str or distributed.Client, optional
+        A dask.distributed scheduler's address, ``"local"`` / ``"local:N"`` (a local cluster
+        started and stopped here), or a client.
+    progress : callable(done, total, family), optional
+        Called in this process as each family is grown (in completion order).
+    catalog : cr3bp.catalog.Catalog, optional
+        Keep every family in this catalogue (ids in request order).
+
+    Returns
+    -------
+    list of cr3bp.orbits.continuation.Family
+        In the order of the requests; kept in a catalogue, ``.settings["catalog_id"]``.
+
+    Raises
+    ------
+    InputError
+        A malformed, repeated or targeted request; ``members``, ``until``, ``altitude``,
+        ``max_step`` or ``workers`` out of range; an unreachable scheduler.
+
+    Examples
+    --------
+    >>> import cr3bp
+    >>> fams = cr3bp.atlas("earth-moon", "lyapunov L1, lyapunov L2", members=3)
+    >>> [(f.point, len(f.members)) for f in fams]
+    [('L1', 3), ('L2', 3)]
+    >>> cr3bp.atlas("earth-moon", "lyapunov L1, lyapunov L1")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: family request 'lyapunov L1' repeats 'lyapunov L1'
+
+    References
+    ----------
+    Doedel et al., *Int. J. Bifurcation and Chaos* 17, 2007 (families of the restricted
+    problem, as :func:`family`); Rocklin, "Dask: parallel computation with blocked algorithms
+    and task scheduling", Proc. 14th Python in Science Conference (SciPy 2015).
+    """
+    from .orbits import continuation, targets  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .transfers import tasks as tasks_mod  # lazy: start-up: keeps cr3bp.api free of numpy
+    system = _as_system(system)
+    items, specs = _atlas_entries(families)
+    if isinstance(members, bool) or not isinstance(members, int) or not 2 <= members <= 5000:
+        raise InputError(f"members {members!r} is outside the allowed range 2..5000")
+    target = None
+    if until is not None:
+        text = str(until)
+        if "=" not in text:
+            raise InputError(f"until {text!r} must be KEY=VALUE with KEY one of jacobi, period, az, ax, perilune")
+        k, v = (s.strip() for s in text.split("=", 1))
+        if k.lower() not in ("jacobi", "period", "az", "ax", "perilune"):
+            raise InputError(f"until key '{k}' is not allowed; use one of jacobi, period, az, ax, perilune")
+        t = targets.make_target(system, k.lower(), v)
+        target = (t.quantity, t.value)
+    alt = None
+    if altitude is not None:
+        system.require_dimensional("altitude")
+        from .validate import quantity  # lazy: start-up: keeps cr3bp.api free of numpy
+        alt = quantity("altitude", _text(altitude), "length", system, sign="nonnegative") * system.length_km
+    if max_step is not None and not (isinstance(max_step, (int, float)) and not isinstance(max_step, bool)
+                                     and 0 < max_step < 1):
+        raise InputError(f"max_step {max_step!r} is outside the allowed range (0, 1)")
+    if workers is not None:
+        workers = _whole("workers", workers, 1, 256)
+    if scheduler is not None and isinstance(scheduler, str):
+        tasks_mod.check_scheduler(scheduler, workers)
+    jobs = [{"system": system, "family": s.family, "point": s.point or None, "branch": s.branch or None,
+             "ratio": (f"{s.resonance[0]}:{s.resonance[1]}" if s.resonance else None), "members": members,
+             "until": until, "altitude": altitude, "max_step": max_step} for s in specs]
+    fams = tasks_mod.run_tasks(_atlas_grow, jobs, 1 if workers is None and scheduler is None else workers,
+                               scheduler, (lambda done, total, fam: progress(done, total, fam)) if progress else None,
+                               chunks_per_worker=len(jobs))
+    if catalog is None:
+        return fams
+    from .orbits.request import catalog_member, catalog_settings  # lazy: start-up: keeps cr3bp.api free of numpy
+    stops = continuation.Stops(max_members=members, altitude_km=alt, target=target)
+    out = []
+    for spec, fam in zip(specs, fams):
+        fid = catalog.begin_family(system, spec.family, spec.point, spec.branch_label, catalog_settings(spec, stops))
+        catalog.add_members(fid, [catalog_member(m, i) for i, m in enumerate(fam.members)])
+        catalog.finish_family(fid, [b.to_dict() for b in fam.bifurcations], complete=True)
+        out.append(replace(fam, settings={**fam.settings, "catalog_id": fid}))
+    return out
+
+
+
+def _piece_runner(workers, scheduler, source, apsis=False):
+    """``runner(function, tasks)`` that propagates a tube in pieces over a pool (``workers``
+    above 1) or a dask cluster (``scheduler``), or None (here); checked before any work."""
+    if workers is not None:
+        workers = _whole("workers", workers, 1, 256)
+    if scheduler is None and workers in (None, 1):
+        return None
+    if not _is_orbit(source) or apsis:
+        raise InputError("workers/scheduler split the tube of a periodic orbit cut by a plane or a sphere; "
+                         "a torus, a Lagrange point or an apsis map is computed in this process")
+    from .transfers import tasks as tasks_mod  # lazy: start-up: keeps cr3bp.api free of numpy
+    if isinstance(scheduler, str):
+        tasks_mod.check_scheduler(scheduler, workers)
+        scheduler = scheduler.strip()
+
+    def runner(function, items):
+        return tasks_mod.run_tasks(function, items, workers, scheduler)
+    return runner
+

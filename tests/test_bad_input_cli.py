@@ -385,6 +385,35 @@ def value_cases():
     add("shadow-torus-phase-without-torus", SH + ["--torus-phase=10,20"])
     add("shadow-torus-phase-with-trajectory", ST + ["--torus-phase=10,20"])
     add("shadow-torus-phase-bad-step", SHT + ["--step=1s"])
+    # family --atlas, and the tube commands' --workers/--scheduler (scale-out)
+    FA = ["family", EM, "--members=3"]
+    add("family-atlas-empty", FA + ["--atlas="])
+    add("family-atlas-empty-entry", FA + ["--atlas=lyapunov L1,,lyapunov L2"])
+    add("family-atlas-repeated", FA + ["--atlas=lyapunov L1, lyapunov L1"])
+    add("family-atlas-unknown-family", FA + ["--atlas=lyapunov L1, bagel L2"])
+    add("family-atlas-with-target", FA + ["--atlas=lyapunov L1 jacobi=3.17"])
+    add("family-atlas-and-family", FA + ["--atlas=lyapunov L1", "--family=halo"])
+    add("family-atlas-and-step", FA + ["--atlas=lyapunov L1", "--step=0.01"])
+    add("family-atlas-and-plots", FA + ["--atlas=lyapunov L1", "--plots={out}/f"])
+    add("family-atlas-natural", FA + ["--atlas=lyapunov L1", "--method=natural", "--parameter=x"])
+    add("family-atlas-members", ["family", EM, "--members=1", "--atlas=lyapunov L1"])
+    add("family-atlas-workers-zero", FA + ["--atlas=lyapunov L1", "--workers=0"])
+    add("family-atlas-scheduler-junk", FA + ["--atlas=lyapunov L1", "--scheduler=my-cluster"])
+    add("family-atlas-scheduler-local-0", FA + ["--atlas=lyapunov L1", "--scheduler=local:0"])
+    add("family-atlas-scheduler-and-workers", FA + ["--atlas=lyapunov L1", "--scheduler=local:2", "--workers=2"])
+    add("family-atlas-remote-and-workers", FA + ["--atlas=lyapunov L1", "--scheduler=tcp://127.0.0.1:1",
+                                                 "--workers=2"])
+    add("family-atlas-unreachable", FA + ["--atlas=lyapunov L1", "--scheduler=tcp://127.0.0.1:1"])
+    add("family-neither-family-nor-atlas", FA)
+    add("family-workers-without-atlas", BASE["family"] + ["--workers=2"])
+    add("manifold-workers-zero", M + ["--workers=0"])
+    add("manifold-scheduler-junk", M + ["--scheduler=nowhere"])
+    add("manifold-scheduler-local-and-workers", M + ["--scheduler=local:2", "--workers=2"])
+    add("manifold-workers-lagrange", ["manifold", EM, "--lagrange=L1", "--unstable", "--workers=2"])
+    add("section-workers-zero", S + ["--workers=0"])
+    add("section-scheduler-junk", S + ["--scheduler=nowhere"])
+    add("section-workers-apsis", ["section", EM, "--tube=lyapunov L1 jacobi=3.17 unstable",
+                                  "--section=periapsis:moon", "--points=4", "--workers=2"])
     # keep
     K = BASE["keep"]
     for v in ("1km", "1km,1cm/s,2", "-1km,1cm/s", "1km,-1cm/s", "1kg,1cm/s", "1km,1cm", "nankm,1cm/s"):

@@ -35,6 +35,20 @@ def add_arguments(p):
                    "from the vertical family's branch point) or branch (axial: default, at the Lyapunov "
                    "family's second out-of-plane branch point; halo: at its first; vertical: where the "
                    "axial family meets it)")
+    for a in p._actions:        # --family is required unless --atlas names the families
+        if a.dest == "family":
+            a.required = False
+            a.help = (a.help or "") + " (required unless --atlas is given)"
+    a = p.add_argument_group("atlas: many families in one run, one task per family")
+    a.add_argument("--atlas", metavar="LIST", help="grow these families instead of one --family: requests "
+                   "separated by commas, e.g. 'halo L1 north, halo L2 south, lyapunov L1, lyapunov L2' (each "
+                   "with --members, --until, --altitude, --max-step; not with --family, --point, --branch, "
+                   "--ratio, --route, --method, --parameter, --step, --plots)")
+    common.add_workers_option(a, "atlas: worker processes, one family per task (default: this process)")
+    a.add_argument("--scheduler", metavar="ADDRESS", help="atlas: grow the families on a dask.distributed "
+                   "scheduler (e.g. tcp://10.0.0.5:8786), or 'local:N' for a local cluster of N worker "
+                   "processes started and stopped here ('local': --workers processes, default 2); needs "
+                   "librate[cluster]")
     oo.add_catalog_option(p, "; the family is stored in it")
     common.add_plots_prefix_option(p, "write PREFIX-family.png (members coloured by Jacobi constant) and "
                                       "PREFIX-stability.png (stability indices vs Jacobi constant and period); "
@@ -60,6 +74,12 @@ def run(args):
     from cr3bp import api
     from cr3bp.errors import InputError
     from cr3bp.orbits import continuation, families
+    if args.atlas is not None:
+        return _atlas_run(args)
+    if args.family is None:
+        raise InputError("give --family NAME (one family) or --atlas LIST (many)")
+    if args.workers is not None or args.scheduler is not None:
+        raise InputError("--workers and --scheduler go with --atlas (one family is grown in this process)")
     system = common.resolve_system(args)
     spec = api.orbit_request(family=args.family, point=args.point, branch=args.branch, ratio=args.ratio)
     if not 2 <= args.members <= 5000:
@@ -105,22 +125,7 @@ def run(args):
         common.progress(args, missed)
     if cat is not None:
         common.progress(args, f"stored as family {fam.settings['catalog_id']} in the catalogue {cat.path}")
-    rows = [_row(i, m.to_dict()) for i, m in enumerate(fam.members)]
-    headers = HEADERS
-    if spec.family == "resonant":   # the measured p:q of every member (label kept within a band)
-        headers = HEADERS + ["spacecraft_revolutions", "primaries_revolutions"]
-        rows = [r + list(m.period_ratio) for r, m in zip(rows, fam.members)]
-    bifs = [b.to_dict() for b in fam.bifurcations]
-    payload = {"system": system.name, "family": spec.family, "point": spec.point, "branch": spec.branch_label,
-               "route": args.route or families.ROUTES.get(spec.family, ("seed",))[0],
-               "stop_reason": fam.stop_reason, "columns": headers,
-               "members": [dict(m.to_dict(), index=i) for i, m in enumerate(fam.members)],
-               "bifurcations": [{"type": b["type"], "member_index": b["member_index"],
-                                 "stability_index": b["stability_index"], "jacobi": b["jacobi"],
-                                 "period": b["period"], "period_days": b["period_days"], "note": b["note"],
-                                 "state": b["state"]} for b in bifs],
-               "target": fam.target.to_dict() if fam.target is not None else None,
-               "until_reached": None if target is None else fam.target is not None}
+    headers, rows, bifs, payload = _result(system, spec, fam, args.route, target)
     if args.plot:
         _plots(system, fam, args.plot, name, spec, target)
         common.progress(args, f"wrote {args.plot}-family.png and {args.plot}-stability.png")
@@ -132,6 +137,95 @@ def run(args):
     if missed:
         table += missed + "\n"
     common.emit(args, payload=payload, headers=headers, rows=rows, table=table, comments=comments)
+    return 0
+
+
+def _result(system, spec, fam, route, target):
+    """``(headers, rows, bifurcation dicts, JSON payload)`` of one grown family."""
+    from cr3bp.orbits import families
+    rows = [_row(i, m.to_dict()) for i, m in enumerate(fam.members)]
+    headers = HEADERS
+    if spec.family == "resonant":   # the measured p:q of every member (label kept within a band)
+        headers = HEADERS + ["spacecraft_revolutions", "primaries_revolutions"]
+        rows = [r + list(m.period_ratio) for r, m in zip(rows, fam.members)]
+    bifs = [b.to_dict() for b in fam.bifurcations]
+    payload = {"system": system.name, "family": spec.family, "point": spec.point, "branch": spec.branch_label,
+               "route": route or families.ROUTES.get(spec.family, ("seed",))[0],
+               "stop_reason": fam.stop_reason, "columns": headers,
+               "members": [dict(m.to_dict(), index=i) for i, m in enumerate(fam.members)],
+               "bifurcations": [{"type": b["type"], "member_index": b["member_index"],
+                                 "stability_index": b["stability_index"], "jacobi": b["jacobi"],
+                                 "period": b["period"], "period_days": b["period_days"], "note": b["note"],
+                                 "state": b["state"]} for b in bifs],
+               "target": fam.target.to_dict() if fam.target is not None else None,
+               "until_reached": None if target is None else fam.target is not None}
+    return headers, rows, bifs, payload
+
+
+#: Options of one family that an atlas does not take (each family is named in --atlas).
+ATLAS_EXCLUDES = (("family", "--family"), ("point", "--point"), ("branch", "--branch"), ("ratio", "--ratio"),
+                  ("route", "--route"), ("parameter", "--parameter"), ("step", "--step"), ("plot", "--plots"))
+
+
+def _atlas_run(args):
+    """``librate family --atlas``: cr3bp.api.atlas, every option checked before any family is grown."""
+    from cr3bp import api
+    from cr3bp.errors import InputError
+    for dest, flag in ATLAS_EXCLUDES:
+        if getattr(args, dest, None) is not None:
+            raise InputError(f"{flag} does not go with --atlas (name each family in the list, "
+                             "e.g. --atlas 'halo L1 north, lyapunov L2')")
+    if args.method != "arclength":
+        raise InputError("--method does not go with --atlas (the families grow by arclength continuation)")
+    system = common.resolve_system(args)
+    items, specs = api._atlas_entries(args.atlas)
+    if not 2 <= args.members <= 5000:
+        raise InputError(f"--members {args.members} is outside the allowed range 2..5000")
+    target = _parse_until(system, args.until) if args.until else None
+    if args.altitude:
+        system.require_dimensional("--altitude")
+        from cr3bp.validate import quantity
+        quantity("--altitude", args.altitude, "length", system, sign="nonnegative")
+    max_step = None
+    if args.max_step is not None:
+        from cr3bp.validate import number_in
+        max_step = number_in("--max-step", args.max_step, 0, 1, open_lo=True, open_hi=True)
+    workers = common.workers(args)
+    scheduler = None
+    if args.scheduler is not None:
+        from cr3bp.transfers.tasks import check_scheduler
+        check_scheduler(args.scheduler, workers)
+        scheduler = args.scheduler.strip()
+    cat = oo.open_catalog(args)
+    where = (f"on the dask scheduler '{scheduler}'" if scheduler else
+             f"in {workers} worker processes" if workers and workers > 1 else "in this process")
+    common.progress(args, f"librate family: growing {len(specs)} {system.name} families {where} "
+                          f"(up to {args.members} members each)")
+
+    def tick(done, total, fam):
+        label = " ".join(w for w in (fam.family, fam.point, fam.branch) if w)
+        common.progress(args, f"family {done}/{total} done: {label}, {len(fam.members)} members; "
+                              f"stopped because {fam.stop_reason}")
+
+    fams = api.atlas(system, items, members=args.members, until=args.until or None,
+                     altitude=args.altitude or None, max_step=max_step, workers=workers, scheduler=scheduler,
+                     progress=tick, catalog=cat)
+    tables, csv_rows, payloads, comments = [], [], [], []
+    for text, spec, fam in zip(items, specs, fams):
+        name = " ".join(w for w in (spec.family, spec.point, spec.branch_label) if w)
+        headers, rows, bifs, payload = _result(system, spec, fam, None, target)
+        if cat is not None:
+            payload["catalog_id"] = fam.settings["catalog_id"]
+        payloads.append(payload)
+        line = f"{system.name} {name} family: {len(fam.members)} members; stopped because {fam.stop_reason}"
+        comments.append(line)
+        tables.append(common.format_table(headers, rows, title=line) + _bif_text(bifs, system))
+        csv_rows += [[name] + r[:len(HEADERS)] for r in rows]
+    if cat is not None:
+        common.progress(args, f"stored {len(fams)} families in the catalogue {cat.path}")
+    payload = {"system": system.name, "atlas": items, "families": payloads}
+    common.emit(args, payload=payload, headers=["family"] + HEADERS, rows=csv_rows, table="\n".join(tables),
+                comments=comments)
     return 0
 
 

@@ -20,6 +20,7 @@ def add_arguments(p):
     common.add_system_options(p)
     to.add_orbit_options(p)
     to.add_manifold_options(p)
+    to.add_parallel_options(p)
     p.add_argument("--torus", metavar="REQUEST",
                    help="grow the manifold of a hyperbolic quasi-periodic torus instead of an orbit's: a torus "
                         "request, e.g. 'quasi-halo around halo L1 north az=10000km amplitude=300km'; --points "
@@ -52,18 +53,22 @@ def run(args):
             raise InputError(f"--torus grows a torus's manifold; it does not go with {', '.join(given)}")
         if args.spacing != "time":
             raise InputError("--spacing does not go with --torus (its points are a grid on the torus)")
+        to.parallel(args, "a torus's tube")
         return _torus(args, system, stop)
     if args.lagrange:
         given = to.orbit_options_given(args)
         if given:
             raise InputError(f"--lagrange grows a Lagrange point's manifold; it does not go with "
                              f"{', '.join(given)} (an orbit's)")
+        to.parallel(args, "a Lagrange point's manifold")
         return _point(args, system, stop)
+    workers, scheduler = to.parallel(args)
     orbit = to.resolve_orbit(args, system)
     common.progress(args, f"librate manifold: growing {args.points} {args.stability} {args.branch} "
                     f"trajectories of {orbit.family} {orbit.point} (C = {orbit.jacobi:.6f})...")
     tube = api.manifold(orbit, args.stability, branch=args.branch, points=args.points, until=args.until,
-                        spacing=args.spacing, step_off=args.step_off, progress=to.progress_printer(args))
+                        spacing=args.spacing, step_off=args.step_off, progress=to.progress_printer(args),
+                        workers=workers, scheduler=scheduler)
     d = tube.to_dict()
     rows = [[t["phase"], t["t_orbit"], t["tof"], t["tof_days"], t["status"], *t["end_state"]]
             for t in d["trajectories"]]

@@ -32,6 +32,7 @@ def add_arguments(p):
     p.add_argument("--points", type=int, default=200, metavar="N", help="trajectories per tube (default 200)")
     p.add_argument("--time", default=None, metavar="TIME", help="time limit per trajectory (default 2pi TU)")
     p.add_argument("--step-off", metavar="LENGTH", help="step-off distance (default per system)")
+    to.add_parallel_options(p)
     common.add_plot_option(p, "draw the map")
     common.add_output_options(p)
 
@@ -116,6 +117,8 @@ def run(args):
     from cr3bp.tori.request import is_torus_request
     from .manifold import torus_request
     tori = {req: torus_request(system, req, args) for req, _, _ in specs if is_torus_request(req)}
+    workers, scheduler = to.parallel(args, "a torus's tube" if tori else "an apsis map" if section.kind == "apsis"
+                                     else None)
     cuts, out = [], []
     for req, stab, br in specs:
         if req in tori:
@@ -127,7 +130,8 @@ def run(args):
         common.progress(args, f"librate section: {label}: {args.points} trajectories to {section.label}...")
         cuts.append(api.section(orbit, args.section, stability=stab, branch=br, points=args.points,
                                 crossing=args.crossing, time=args.time, step_off=args.step_off, label=label,
-                                origin=req, progress=to.progress_printer(args)))
+                                origin=req, progress=to.progress_printer(args), workers=workers,
+                                scheduler=scheduler))
     pairs = pairs or spatial_pairs(section, cuts)
     columns = tuple(dict.fromkeys(n for p in pairs for n in p))
     grid = [req in tori for req, _, _ in specs]      # a torus tube's cut is a grid, not a curve

@@ -60,11 +60,8 @@ reports is in the ephemeris model (point masses, optional cannonball radiation p
 from __future__ import annotations
 
 import math
-import os
 from dataclasses import dataclass, field
-from concurrent.futures import ProcessPoolExecutor, as_completed
-import logging
-import multiprocessing
+from concurrent.futures import as_completed
 
 import numpy as np
 
@@ -715,7 +712,7 @@ def _merge(parts):
 
 
 def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, min_burn_mps: float = 0.0,
-               workers: int | None = None, scheduler=None, progress=None) -> dict:
+               workers: int | None = None, scheduler=None, progress=None, executor=None) -> dict:
     """:func:`simulate` over ``trials`` trials, here or over a pool of processes or a dask cluster.
 
     In this process (``workers`` None or 1; the compiled propagation runs the trials on parallel
@@ -745,6 +742,9 @@ def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, mi
         here); the trials go there in the same chunks (:func:`on_dask`).
     progress : callable(done, total), optional
         Called as chunks finish.
+    executor : concurrent.futures.ProcessPoolExecutor, optional
+        A pool of ``workers`` already started (:func:`cr3bp.transfers.tasks.start_pool`; a
+        warm one saves the workers' start-up): used and left running for its owner.
 
     Returns
     -------
@@ -775,9 +775,8 @@ def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, mi
             progress(n, n)
         return res
     parts = chunks(n, workers)
-    ctx = multiprocessing.get_context("spawn")     # as transfers.tasks: no fork under compiled threads
-    ex = ProcessPoolExecutor(max_workers=min(workers, len(parts)), mp_context=ctx,
-                             initializer=tasks.worker_init, initargs=(os.getpid(),))
+    # spawned workers (as transfers.tasks: no fork under compiled threads), one kernel thread each
+    ex = executor if executor is not None else tasks.start_pool(min(workers, len(parts)))
     try:
         with tasks.sigint_ignored():
             futs = [ex.submit(_chunk, {"reference": ref, "errors": errors, "trials": c, "seed": seed,
@@ -786,122 +785,19 @@ def run_trials(ref: Reference, errors: Errors, trials: int, seed: int = 0, *, mi
     except BaseException:
         tasks.stop_pool(ex)
         raise
-    ex.shutdown(wait=True)
+    if executor is None:
+        ex.shutdown(wait=True)
     return out
 
 
-#: Seconds to reach a dask scheduler before giving up.
-CONNECT_TIMEOUT_S = 10
-#: Most worker processes of a local cluster (``local:N``).
-MAX_LOCAL_WORKERS = 64
-#: The local scheduler's HTTP address: this machine only, a free port.
-LOCAL_HTTP_ADDRESS = "127.0.0.1:0"
-
-
-def local_workers(scheduler) -> int | None:
-    """N of ``"local:N"`` (None for ``"local"``); InputError for a bad N. Not a local cluster:
-    ValueError.
-
-    Parameters
-    ----------
-    scheduler : str
-        The ``--scheduler`` text: ``"local"``, ``"local:N"`` or a scheduler's address.
-
-    Returns
-    -------
-    int or None
-        The number of local worker processes N (1..:data:`MAX_LOCAL_WORKERS`), or None for a
-        plain ``"local"`` (the default count).
-
-    Raises
-    ------
-    InputError
-        ``"local:N"`` with N not a whole number in 1..:data:`MAX_LOCAL_WORKERS`.
-    ValueError
-        Text that does not name a local cluster (the caller treats it as an address).
-
-    Examples
-    --------
-    >>> local_workers("local:3"), local_workers("local")
-    (3, None)
-    >>> local_workers("local:0")
-    Traceback (most recent call last):
-    ...
-    cr3bp.errors.InputError: scheduler 'local:0': local:N takes a whole number of workers N in 1..64
-
-    References
-    ----------
-    None: a text convention of this project (common practice).
-    """
-    text = str(scheduler).strip()
-    if text == "local":
-        return None
-    if not text.startswith("local:"):
-        raise ValueError(text)
-    n = text[len("local:"):].strip()
-    if not n.isdigit() or not 1 <= int(n) <= MAX_LOCAL_WORKERS:
-        raise InputError(f"scheduler '{text}': local:N takes a whole number of workers N in 1..{MAX_LOCAL_WORKERS}")
-    return int(n)
-
-
-def dask_client(scheduler, workers: int | None = None):
-    """``(client, cluster)`` for ``scheduler`` (see :func:`run_trials`).
-
-    Parameters
-    ----------
-    scheduler : distributed.Client or str
-        A client, a scheduler's address, or ``"local"``.
-    workers : int, optional
-        Processes of a local cluster (default 2).
-
-    Returns
-    -------
-    client : distributed.Client
-        The client.
-    cluster : distributed.LocalCluster or None
-        The local cluster started here (None otherwise). The caller closes both.
-
-    Raises
-    ------
-    InputError
-        dask.distributed missing, or the scheduler cannot be reached.
-
-    Examples
-    --------
-    >>> client, cluster = dask_client("local", 2)          # doctest: +SKIP
-
-    References
-    ----------
-    Rocklin, M., "Dask: Parallel computation with blocked algorithms and task scheduling",
-    Proceedings of the 14th Python in Science Conference (2015).
-    """
-    try:
-        from distributed import Client, LocalCluster  # lazy: optional dependency (distributed), its absence handled here
-    except ImportError:
-        raise InputError("--scheduler needs dask.distributed: pip install 'librate[cluster]'") from None
-    if isinstance(scheduler, Client):
-        return scheduler, None
-    try:
-        n_local = local_workers(scheduler)
-        local = True
-    except ValueError:
-        local = False
-    if local:
-        n = n_local or (2 if workers is None else validate.whole_number("workers", workers, 1))
-        # processes with one thread each, as the pool's workers (each chunk sets numba to one thread).
-        # Quiet: no dashboard, and the scheduler's HTTP routes on a free local port (the default
-        # 8787 may be taken by another cluster: a warning otherwise); the workers' and scheduler's
-        # logs only at CRITICAL, so the heartbeat a worker still sends while the scheduler stops
-        # (logged with its traceback at ERROR) stays out of the terminal. A task's own failure
-        # still reaches here as the exception of its future.
-        cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True,
-                               dashboard_address=LOCAL_HTTP_ADDRESS, scheduler_kwargs={"dashboard": False},
-                               silence_logs=logging.CRITICAL)
-        return Client(cluster), cluster
-    try:
-        return Client(str(scheduler), timeout=f"{CONNECT_TIMEOUT_S}s"), None
-    except (OSError, TimeoutError) as e:
-        raise InputError(f"cannot reach the dask scheduler at '{scheduler}' ({type(e).__name__})") from None
+# the dask helpers live in cr3bp.transfers.tasks (shared with the transfer graph and the family
+# atlas); the names stay here for the callers of this module
+CONNECT_TIMEOUT_S = tasks.CONNECT_TIMEOUT_S
+MAX_LOCAL_WORKERS = tasks.MAX_LOCAL_WORKERS
+LOCAL_HTTP_ADDRESS = tasks.LOCAL_HTTP_ADDRESS
+local_workers = tasks.local_workers
+dask_client = tasks.dask_client
+close_dask = tasks.close_dask
 
 
 def on_dask(ref: Reference, errors: Errors, n: int, seed: int, min_burn_mps: float, scheduler,
@@ -951,44 +847,6 @@ def on_dask(ref: Reference, errors: Errors, n: int, seed: int, min_burn_mps: flo
     finally:
         if client is not scheduler:
             close_dask(client, cluster)
-
-
-def close_dask(client, cluster=None) -> None:
-    """Close what :func:`dask_client` opened, quietly: the client first (no reconnection
-    attempts to a scheduler that is going away), then the local cluster (its workers before
-    its scheduler).
-
-    Parameters
-    ----------
-    client : distributed.Client
-        The client.
-    cluster : distributed.LocalCluster, optional
-        The local cluster started by :func:`dask_client` (None: a remote one, left running).
-
-    Returns
-    -------
-    None
-
-    Raises
-    ------
-    Exception
-        What the client's or the cluster's close raises (rare; the cluster is closed even when
-        the client's close fails).
-
-    Examples
-    --------
-    >>> client, cluster = dask_client("local:2")     # doctest: +SKIP
-    >>> close_dask(client, cluster)                  # doctest: +SKIP
-
-    References
-    ----------
-    Dask.distributed documentation, "LocalCluster" and "Client.close" (common practice).
-    """
-    try:
-        client.close()
-    finally:
-        if cluster is not None:
-            cluster.close()
 
 
 def _dask_chunk(ref, errors, trials, seed, min_burn_mps):
@@ -1151,9 +1009,29 @@ def budget(orbit, epoch, span_tu: float, errors: Errors, trials: int, *, seed: i
     validate.number_value("minimum burn (m/s)", min_burn_mps, 0.0)
     if not isinstance(errors, Errors):
         raise InputError("errors must be an Errors")
-    ref = reference(orbit, epoch, span_tu, bodies=bodies, srp=srp, target_revs=target_revs,
-                    interval_tu=interval_tu, hold_phase=hold_phase, policy=policy, progress=(
-                        (lambda m: progress(m)) if progress else None))
-    res = run_trials(ref, errors, trials, seed, min_burn_mps=min_burn_mps, workers=workers, scheduler=scheduler,
-                     progress=(lambda d, n: progress(f"trials: {d} of {n} done")) if progress else None)
+    n_workers = 1 if workers is None else validate.whole_number("workers", workers, 1)
+    trials = validate.whole_number("trials", trials, 1)
+    # a pool is started (and its workers load the trial kernels) while the reference is computed
+    # here, so that the workers' start-up overlaps the reference instead of delaying the trials
+    pool = tasks.start_pool(min(n_workers, len(chunks(trials, n_workers))), warm=_warm_worker) \
+        if scheduler is None and n_workers > 1 and trials > 1 else None
+    try:
+        ref = reference(orbit, epoch, span_tu, bodies=bodies, srp=srp, target_revs=target_revs,
+                        interval_tu=interval_tu, hold_phase=hold_phase, policy=policy, progress=(
+                            (lambda m: progress(m)) if progress else None))
+        res = run_trials(ref, errors, trials, seed, min_burn_mps=min_burn_mps, workers=workers,
+                         scheduler=scheduler, executor=pool,
+                         progress=(lambda d, n: progress(f"trials: {d} of {n} done")) if progress else None)
+    except BaseException:
+        if pool is not None:
+            tasks.stop_pool(pool)
+        raise
+    if pool is not None:
+        pool.shutdown(wait=True)
     return Budget(ref, errors, int(seed), float(min_burn_mps), res)
+
+
+def _warm_worker():
+    """Run once in each pool worker before its first chunk: load the trial kernels (the
+    ephemeris-model integrator, from the compiled cache) so the chunks find them loaded."""
+    from ..fidelity import segments  # noqa: F401  # lazy: heavy library (numba), loaded in a worker only

@@ -322,7 +322,7 @@ def family_key(spec: OrbitSpec):
     return (spec.family, spec.point, spec.branch_label)
 
 
-def solve_request(system, spec, catalog=None, progress=None) -> PeriodicOrbit:
+def solve_request(system, spec, catalog=None, progress=None, grown=None) -> PeriodicOrbit:
     """The orbit a request asks for.
 
     Parameters
@@ -337,6 +337,10 @@ def solve_request(system, spec, catalog=None, progress=None) -> PeriodicOrbit:
         and not kept. Either way every place where the family meets the target is known, the
         ``spec.occurrence``-th is solved, and ``orbit.extra["target_matches"]`` lists them all.
     progress : callable(count, max, orbit), optional
+    grown : dict, optional
+        Without a catalogue: families already grown by earlier requests of the same caller
+        (filled here), so that many requests on one family grow it once (a graph's orbit
+        nodes); the family grown is the same either way, so the orbit is too.
 
     Returns
     -------
@@ -385,11 +389,15 @@ def solve_request(system, spec, catalog=None, progress=None) -> PeriodicOrbit:
             members = [catalog_member(m, i) for i, m in enumerate(family.members)]
             stopped = family.stop_reason
     else:
-        family = families.grow_family(system, spec.family, spec.point, spec.branch,
-                                      stops=default_stops(system, spec), progress=progress,
-                                      resonance=spec.resonance, locate_bifurcations=False)
-        members = family.members
-        stopped = family.stop_reason
+        known = None if grown is None else grown.get((fam, point, branch, spec.resonance))
+        if known is None:
+            family = families.grow_family(system, spec.family, spec.point, spec.branch,
+                                          stops=default_stops(system, spec), progress=progress,
+                                          resonance=spec.resonance, locate_bifurcations=False)
+            known = (family.members, family.stop_reason)
+            if grown is not None:
+                grown[(fam, point, branch, spec.resonance)] = known
+        members, stopped = known
     vals = [continuation.member_value(m, tg.quantity) for m in members]
     places = continuation.target_brackets(vals, tg.value)
     if not places:

@@ -426,6 +426,7 @@ def resolve_orbits(system, nodelist, catalog=None, progress=None) -> dict:
     Periodic orbits by differential correction and continuation: see :mod:`cr3bp.orbits`.
     """
     out = {}
+    grown = {} if catalog is None else None     # each family grown once in a build without a catalogue
     for n in nodelist.nodes:
         if isinstance(n, OrbitNode) and n.id not in out and n.is_torus:
             from ..tori import request as treq  # lazy: only for tori
@@ -441,7 +442,7 @@ def resolve_orbits(system, nodelist, catalog=None, progress=None) -> dict:
                 progress(n, out[n.id])
         elif isinstance(n, OrbitNode) and n.id not in out:
             try:
-                o = solve_request(system, n.orbit, catalog=catalog)
+                o = solve_request(system, n.orbit, catalog=catalog, grown=grown)
                 out[n.id] = {"state": np.asarray(o.state, dtype=float), "period": float(o.period),
                              "jacobi": float(o.jacobi), "monodromy": np.asarray(o.monodromy).tolist(),
                              "family": o.family, "point": o.point, "branch": o.branch}

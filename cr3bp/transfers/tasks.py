@@ -10,9 +10,11 @@ same result wherever it runs.
 
 from __future__ import annotations
 
+import logging
 import math
 import multiprocessing
 import os
+import re
 import signal
 import sys
 from concurrent.futures import ProcessPoolExecutor, as_completed as done_first
@@ -25,7 +27,7 @@ CHUNKS_PER_WORKER = 4
 
 
 def run_tasks(function, tasks, workers=None, scheduler=None, progress=None, *,
-              chunks_per_worker=CHUNKS_PER_WORKER) -> list:
+              chunks_per_worker=CHUNKS_PER_WORKER, executor=None) -> list:
     """``[function(t) for t in tasks]``, in task order, computed in parallel.
 
     ``function`` must be a module-level function (it is pickled by reference) that never
@@ -40,13 +42,19 @@ def run_tasks(function, tasks, workers=None, scheduler=None, progress=None, *,
     tasks : list
         Plain, picklable tasks.
     workers : int, optional
-        Pool size (default: the machine's cores; 1 runs in this process).
+        Pool size (default: the machine's cores; 1 runs in this process); with
+        ``scheduler="local"`` the local cluster's size.
     scheduler : str or distributed.Client, optional
-        Address of a dask.distributed scheduler, or a client (instead of the pool).
+        Address of a dask.distributed scheduler, ``"local"`` / ``"local:N"`` (a local cluster
+        started and stopped here, :func:`dask_client`), or a client (instead of the pool). The
+        tasks go there in chunks too (a few per worker of the cluster).
     progress : callable(done, total, result), optional
         Called as results arrive (in completion order).
     chunks_per_worker : int
         Chunks of tasks per pool worker.
+    executor : concurrent.futures.ProcessPoolExecutor, optional
+        A pool already started (:func:`start_pool`, ``workers`` its size): used, and left
+        running for its owner to shut down.
 
     Returns
     -------
@@ -84,19 +92,7 @@ def run_tasks(function, tasks, workers=None, scheduler=None, progress=None, *,
     if n == 0:
         return []
     if scheduler is not None:
-        try:
-            from distributed import Client, as_completed   # lazy: heavy library (dask, an optional extra)
-        except ImportError:
-            raise InputError("--scheduler needs dask.distributed: pip install 'librate[cluster]'") from None
-        client = scheduler if isinstance(scheduler, Client) else Client(scheduler, timeout="20s")
-        try:
-            futures = client.map(function, tasks, pure=False)
-            index = {f.key: i for i, f in enumerate(futures)}
-            for f in as_completed(futures):
-                tick(index[f.key], f.result())
-        finally:
-            if client is not scheduler:
-                client.close()
+        _on_dask(function, tasks, scheduler, workers, tick, chunks_per_worker)
         return out
     workers = (os.cpu_count() or 1) if workers is None else validate.whole_number("--workers", workers, 1)
     if workers == 1 or n == 1:
@@ -106,13 +102,11 @@ def run_tasks(function, tasks, workers=None, scheduler=None, progress=None, *,
     # spawn, not fork: a forked child of a process whose compiled kernels have started their
     # thread pool (propagate_batch runs prange) may crash; a script that builds a graph with a
     # pool therefore needs the usual `if __name__ == "__main__":` guard
-    ctx = multiprocessing.get_context("spawn")
     # legs take milliseconds with the compiled integrator: send them in chunks (a few per
     # worker) so that process start-up and pickling do not outweigh the work
-    size = max(1, math.ceil(n / (chunks_per_worker * workers)))
-    chunks = [list(range(a, min(a + size, n))) for a in range(0, n, size)]
-    ex = ProcessPoolExecutor(max_workers=min(workers, len(chunks)), mp_context=ctx,
-                             initializer=worker_init, initargs=(os.getpid(),))
+    chunks = split(n, workers, chunks_per_worker)
+    # each worker's compiled kernels get their share of the cores (no more threads than cores)
+    ex = executor if executor is not None else start_pool(min(workers, len(chunks)))
     try:
         # the workers are started by the submissions, with SIGINT blocked until worker_init
         # ignores it
@@ -125,8 +119,123 @@ def run_tasks(function, tasks, workers=None, scheduler=None, progress=None, *,
         # Ctrl-C or an error: stop the workers now instead of waiting for their chunks
         stop_pool(ex)
         raise
-    ex.shutdown(wait=True)
+    if executor is None:
+        ex.shutdown(wait=True)
     return out
+
+
+def start_pool(workers: int, warm=None):
+    """A process pool of ``workers`` spawned workers, started now (each worker dies with this
+    process and leaves Ctrl-C to it, :func:`worker_init`), optionally warmed by running ``warm()``
+    once per worker: a caller with serial work of its own to do first (a station-keeping
+    reference, a graph's orbits) starts the pool before it, so that the workers' start-up
+    (interpreter, imports, compiled kernels loaded from their cache) overlaps that work instead
+    of delaying the tasks. Pass it as ``executor`` to :func:`run_tasks` (or
+    :func:`cr3bp.operations.keeping.run_trials`); the caller shuts it down (``shutdown()``, or
+    :func:`stop_pool` on an error).
+
+    Parameters
+    ----------
+    workers : int
+        Worker processes (at least 2: one worker is better served by this process).
+    warm : callable, optional
+        A module-level function of no arguments run once in each worker (its result is dropped).
+
+    Returns
+    -------
+    concurrent.futures.ProcessPoolExecutor
+
+    Raises
+    ------
+    InputError
+        ``workers`` not a whole number of at least 1.
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.tasks import run_tasks, start_pool
+    >>> pool = start_pool(2)                                           # doctest: +SKIP
+    >>> run_tasks(abs, [-1, 2], workers=2, executor=pool)              # doctest: +SKIP
+    [1, 2]
+    >>> pool.shutdown()                                                # doctest: +SKIP
+
+    References
+    ----------
+    Python documentation, ``concurrent.futures.ProcessPoolExecutor`` and ``multiprocessing``
+    (spawn start method).
+    """
+    workers = validate.whole_number("workers", workers, 1)
+    ctx = multiprocessing.get_context("spawn")
+    ex = ProcessPoolExecutor(max_workers=workers, mp_context=ctx, initializer=worker_init,
+                             initargs=(os.getpid(), max(1, (os.cpu_count() or 1) // workers)))
+    with sigint_ignored():
+        for _ in range(workers):
+            ex.submit(warm if warm is not None else _nothing)
+    return ex
+
+
+def _nothing():
+    return None
+
+
+def split(n: int, workers: int, chunks_per_worker: int = CHUNKS_PER_WORKER) -> list:
+    """Task indices ``0..n-1`` dealt into about ``chunks_per_worker`` chunks per worker, round
+    robin (chunk ``c`` holds ``c, c + k, c + 2k, ...``): the round trips are few, and tasks of
+    very different cost that sit together in the list (a graph's parking legs take a thousand
+    times as long as its targeted arcs, and come first) are spread over every chunk instead of
+    landing in one. Results are put back in task order, so the split changes no result.
+
+    Parameters
+    ----------
+    n : int
+        Number of tasks.
+    workers : int
+        Number of workers (a value below 1 counts as 1).
+    chunks_per_worker : int
+        Chunks per worker.
+
+    Returns
+    -------
+    list of list of int
+        At most ``chunks_per_worker * workers`` (and at most ``n``) non-empty chunks, covering
+        ``0..n-1`` once; sizes differ by at most one.
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.tasks import split
+    >>> split(10, 2, 2)
+    [[0, 4, 8], [1, 5, 9], [2, 6], [3, 7]]
+    >>> split(3, 8)
+    [[0], [1], [2]]
+
+    References
+    ----------
+    Dask documentation, "Dask Best Practices" (a few tasks per worker, each large enough to
+    outweigh its scheduling cost; common practice); round-robin (cyclic) distribution of loop
+    iterations, as OpenMP's ``schedule(static, 1)`` (OpenMP API specification 5.2, 2021, §11.5.3).
+    """
+    k = max(1, min(n, max(1, chunks_per_worker) * max(1, int(workers))))
+    return [list(range(c, n, k)) for c in range(k)]
+
+
+def _on_dask(function, tasks, scheduler, workers, tick, chunks_per_worker):
+    """run_tasks on a dask cluster: the tasks in chunks (as the pool's), one future a chunk."""
+    client, cluster = dask_client(scheduler, workers)     # an InputError without dask.distributed
+    from distributed import as_completed   # lazy: heavy library (dask, an optional extra)
+    try:
+        k = max(1, len(client.scheduler_info().get("workers", {})) or 1)
+        chunks = split(len(tasks), k, chunks_per_worker)
+        futures = [client.submit(apply_chunk, function, [tasks[i] for i in c], pure=False) for c in chunks]
+        index = {f.key: c for f, c in zip(futures, chunks)}
+        for f in as_completed(futures):
+            for i, r in zip(index[f.key], f.result()):
+                tick(i, r)
+    finally:
+        if client is not scheduler:
+            close_dask(client, cluster)
 
 
 def stop_pool(ex) -> None:
@@ -201,7 +310,7 @@ class sigint_ignored:
 PR_SET_PDEATHSIG = 1
 
 
-def worker_init(parent_pid=None):
+def worker_init(parent_pid=None, threads=None):
     """Initializer of every pool worker: die with the parent, and leave Ctrl-C to it.
 
     A worker ignores SIGINT (the terminal sends it to the whole process group; the parent
@@ -214,6 +323,9 @@ def worker_init(parent_pid=None):
     ----------
     parent_pid : int, optional
         The parent's process id.
+    threads : int, optional
+        Threads of the compiled kernels in this worker (``NUMBA_NUM_THREADS``, set before numba
+        loads): the pool's share of the cores, so that workers do not oversubscribe them.
 
     Returns
     -------
@@ -237,6 +349,8 @@ def worker_init(parent_pid=None):
     Linux ``prctl(2)`` (PR_SET_PDEATHSIG); Python documentation, ``signal``.
     """
     signal.signal(signal.SIGINT, signal.SIG_IGN)
+    if threads is not None and "numba" not in sys.modules:
+        os.environ["NUMBA_NUM_THREADS"] = str(int(threads))
     if sys.platform.startswith("linux"):
         try:
             import ctypes   # lazy: Linux only
@@ -278,3 +392,204 @@ def apply_chunk(function, tasks: list) -> list:
     scheduling", Proc. 14th Python in Science Conference (SciPy 2015).
     """
     return [function(t) for t in tasks]
+
+
+#: Seconds to reach a dask scheduler before giving up.
+CONNECT_TIMEOUT_S = 10
+#: Most worker processes of a local cluster (``local:N``).
+MAX_LOCAL_WORKERS = 64
+#: The local scheduler's HTTP address: this machine only, a free port.
+LOCAL_HTTP_ADDRESS = "127.0.0.1:0"
+
+
+def local_workers(scheduler) -> int | None:
+    """N of ``"local:N"`` (None for ``"local"``); InputError for a bad N. Not a local cluster:
+    ValueError.
+
+    Parameters
+    ----------
+    scheduler : str
+        The ``--scheduler`` text: ``"local"``, ``"local:N"`` or a scheduler's address.
+
+    Returns
+    -------
+    int or None
+        The number of local worker processes N (1..:data:`MAX_LOCAL_WORKERS`), or None for a
+        plain ``"local"`` (the default count).
+
+    Raises
+    ------
+    InputError
+        ``"local:N"`` with N not a whole number in 1..:data:`MAX_LOCAL_WORKERS`.
+    ValueError
+        Text that does not name a local cluster (the caller treats it as an address).
+
+    Examples
+    --------
+    >>> local_workers("local:3"), local_workers("local")
+    (3, None)
+    >>> local_workers("local:0")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: scheduler 'local:0': local:N takes a whole number of workers N in 1..64
+
+    References
+    ----------
+    None: a text convention of this project (common practice).
+    """
+    text = str(scheduler).strip()
+    if text == "local":
+        return None
+    if not text.startswith("local:"):
+        raise ValueError(text)
+    n = text[len("local:"):].strip()
+    if not n.isdigit() or not 1 <= int(n) <= MAX_LOCAL_WORKERS:
+        raise InputError(f"scheduler '{text}': local:N takes a whole number of workers N in 1..{MAX_LOCAL_WORKERS}")
+    return int(n)
+
+
+def dask_client(scheduler, workers: int | None = None):
+    """``(client, cluster)`` for ``scheduler`` (see :func:`run_trials`).
+
+    Parameters
+    ----------
+    scheduler : distributed.Client or str
+        A client, a scheduler's address, or ``"local"``.
+    workers : int, optional
+        Processes of a local cluster (default 2).
+
+    Returns
+    -------
+    client : distributed.Client
+        The client.
+    cluster : distributed.LocalCluster or None
+        The local cluster started here (None otherwise). The caller closes both.
+
+    Raises
+    ------
+    InputError
+        dask.distributed missing, or the scheduler cannot be reached.
+
+    Examples
+    --------
+    >>> client, cluster = dask_client("local", 2)          # doctest: +SKIP
+
+    References
+    ----------
+    Rocklin, M., "Dask: Parallel computation with blocked algorithms and task scheduling",
+    Proceedings of the 14th Python in Science Conference (2015).
+    """
+    try:
+        from distributed import Client, LocalCluster  # lazy: optional dependency (distributed), its absence handled here
+    except ImportError:
+        raise InputError("--scheduler needs dask.distributed: pip install 'librate[cluster]'") from None
+    if isinstance(scheduler, Client):
+        return scheduler, None
+    try:
+        n_local = local_workers(scheduler)
+        local = True
+    except ValueError:
+        local = False
+    if local:
+        n = n_local or (2 if workers is None else validate.whole_number("workers", workers, 1))
+        # processes with one thread each, as the pool's workers (each chunk sets numba to one thread).
+        # Quiet: no dashboard, and the scheduler's HTTP routes on a free local port (the default
+        # 8787 may be taken by another cluster: a warning otherwise); the workers' and scheduler's
+        # logs only at CRITICAL, so the heartbeat a worker still sends while the scheduler stops
+        # (logged with its traceback at ERROR) stays out of the terminal. A task's own failure
+        # still reaches here as the exception of its future.
+        cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True,
+                               dashboard_address=LOCAL_HTTP_ADDRESS, scheduler_kwargs={"dashboard": False},
+                               silence_logs=logging.CRITICAL)
+        return Client(cluster), cluster
+    try:
+        return Client(str(scheduler), timeout=f"{CONNECT_TIMEOUT_S}s"), None
+    except (OSError, TimeoutError) as e:
+        raise InputError(f"cannot reach the dask scheduler at '{scheduler}' ({type(e).__name__})") from None
+
+
+def close_dask(client, cluster=None) -> None:
+    """Close what :func:`dask_client` opened, quietly: the client first (no reconnection
+    attempts to a scheduler that is going away), then the local cluster (its workers before
+    its scheduler).
+
+    Parameters
+    ----------
+    client : distributed.Client
+        The client.
+    cluster : distributed.LocalCluster, optional
+        The local cluster started by :func:`dask_client` (None: a remote one, left running).
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    Exception
+        What the client's or the cluster's close raises (rare; the cluster is closed even when
+        the client's close fails).
+
+    Examples
+    --------
+    >>> client, cluster = dask_client("local:2")     # doctest: +SKIP
+    >>> close_dask(client, cluster)                  # doctest: +SKIP
+
+    References
+    ----------
+    Dask.distributed documentation, "LocalCluster" and "Client.close" (common practice).
+    """
+    try:
+        client.close()
+    finally:
+        if cluster is not None:
+            cluster.close()
+
+
+def check_scheduler(scheduler, workers=None) -> None:
+    """Refuse a ``--scheduler`` text before any work: ``"local"``, ``"local:N"`` or an address
+    ``tcp://host:port`` (also tls, inproc, ws, wss); ``workers`` only with ``"local"`` (a
+    remote cluster has its own workers, ``local:N`` names its own).
+
+    Parameters
+    ----------
+    scheduler : str
+        The ``--scheduler`` text.
+    workers : int, optional
+        The ``--workers`` value given with it.
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    InputError
+        Text that is neither a local cluster nor an address; ``workers`` with an address or
+        with ``local:N``.
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.tasks import check_scheduler
+    >>> check_scheduler("local:2")
+    >>> check_scheduler("my-cluster")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: --scheduler 'my-cluster' must be 'local', 'local:N' or an address such as tcp://10.0.0.5:8786
+
+    References
+    ----------
+    Dask.distributed documentation, "Client" (scheduler addresses; common practice).
+    """
+    text = str(scheduler).strip()
+    try:
+        n_local, local = local_workers(text), True
+    except ValueError:
+        n_local, local = None, False
+    if not local and not re.fullmatch(r"(tcp|tls|inproc|ws|wss)://\S+", text):
+        raise InputError(f"--scheduler '{scheduler}' must be 'local', 'local:N' or an address such as "
+                         "tcp://10.0.0.5:8786")
+    if not local and workers is not None:
+        raise InputError("--workers goes with --scheduler local (a remote cluster has its own workers)")
+    if n_local is not None and workers is not None:
+        raise InputError(f"--scheduler '{text}' sets the workers; leave out --workers")

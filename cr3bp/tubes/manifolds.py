@@ -851,7 +851,8 @@ def on_energy(system, states, c):
 
 
 def grow_tube(orbit, stability: str, branch: str, n_points: int = 200, until=None, *,
-              spacing: str = "time", step_km=None, times=None, progress=None, origin=None) -> Tube:
+              spacing: str = "time", step_km=None, times=None, progress=None, origin=None,
+              runner=None) -> Tube:
     """Grow a half-manifold of ``orbit`` in one batch propagation.
 
     Parameters
@@ -871,6 +872,11 @@ def grow_tube(orbit, stability: str, branch: str, n_points: int = 200, until=Non
     progress : callable(done, total, message), optional
     origin : str, optional
         Description of the orbit (default :func:`describe`).
+    runner : callable(function, tasks) -> list, optional
+        Runs the propagation in pieces elsewhere (``cr3bp.transfers.tasks.run_tasks`` with a
+        pool or a dask cluster bound to it): the departure states go in consecutive pieces
+        (:func:`propagate_piece`), and the result is the same, bit for bit, as in one batch
+        here (every trajectory is integrated on its own).
 
     Returns
     -------
@@ -908,7 +914,10 @@ def grow_tube(orbit, stability: str, branch: str, n_points: int = 200, until=Non
     ts, ostates, w, starts, modes, d, d_km = manifold_starts(
         orbit, stability, branch, n_points, spacing, step_km, progress, times)
     sign = 1.0 if stability == "unstable" else -1.0
-    tof, ends, status = _globalise(system, starts, stop, sign, progress)
+    if runner is None:
+        tof, ends, status = _globalise(system, starts, stop, sign, progress)
+    else:
+        tof, ends, status = _globalise_pieces(system, starts, stop, sign, runner, progress)
     return Tube(system, origin or describe(orbit), stability, branch, float(orbit.jacobi),
                 float(orbit.period), modes.lambda_unstable, d, d_km, ts / orbit.period, ts, ostates,
                 w, starts, tof, ends, status, stop, spacing, orbit)
@@ -952,6 +961,71 @@ def _globalise(system, starts, stop, sign, progress=None):
     if progress is not None:
         progress(len(starts), len(starts), "propagated")
     return tof, ends, tuple(status)
+
+
+#: Departure states per piece of a tube propagated elsewhere (the runner groups pieces in chunks).
+PIECE_POINTS = 16
+
+
+def propagate_piece(task) -> tuple:
+    """One piece of a tube's propagation, run in a pool or dask worker: ``(tof, ends, status)``
+    of the departure states ``task["starts"]`` (compiled code on one thread: the workers are the
+    parallelism).
+
+    Parameters
+    ----------
+    task : dict
+        ``system``, ``starts`` (n, 6), ``stop`` (:class:`Stop`), ``sign`` (+1 forward, -1
+        backward).
+
+    Returns
+    -------
+    tuple
+        Times of flight, end states and how each trajectory ended, as in :func:`grow_tube`.
+
+    Raises
+    ------
+    InputError
+        A stop the system cannot evaluate (as in :func:`grow_tube`).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.tubes.manifolds import Stop, propagate_piece
+    >>> em = system("earth-moon")
+    >>> tof, ends, status = propagate_piece({"system": em, "starts": np.array([[0.8, 0, 0, 0, 0.1, 0]]),
+    ...                                      "stop": Stop(None, 1, 0.5), "sign": 1.0})
+    >>> float(tof[0]), status
+    (0.5, ('time',))
+
+    References
+    ----------
+    Gómez et al., *Nonlinearity* 17, 2004, §3 (the globalisation of a manifold from its
+    linear approximation).
+    """
+    try:
+        import numba  # lazy: heavy library (numba), its failure handled here
+        numba.set_num_threads(1)
+    except Exception:          # pragma: no cover - a numba without threading control
+        pass
+    return _globalise(task["system"], task["starts"], task["stop"], task["sign"])
+
+
+def _globalise_pieces(system, starts, stop, sign, runner, progress=None):
+    """:func:`_globalise` in pieces of :data:`PIECE_POINTS` consecutive states, run by ``runner``."""
+    n = len(starts)
+    if progress is not None:
+        progress(0, n, f"propagating {n} trajectories in pieces")
+    pieces = [{"system": system, "starts": np.ascontiguousarray(starts[a:a + PIECE_POINTS]), "stop": stop,
+               "sign": sign} for a in range(0, n, PIECE_POINTS)]
+    parts = runner(propagate_piece, pieces)
+    tof = np.concatenate([p[0] for p in parts])
+    ends = np.concatenate([p[1] for p in parts])
+    status = tuple(s for p in parts for s in p[2])
+    if progress is not None:
+        progress(n, n, "propagated")
+    return tof, ends, status
 
 
 def _lagrange_jacobi(system, point) -> float:

@@ -1,0 +1,161 @@
+"""Scale-out: a family atlas (many families, one task each) and a tube propagated in pieces,
+here, over the process pool and on a dask.distributed cluster, give the same bytes.
+
+Outside check: none beyond the serial result itself (the serial paths are checked against
+published tables and scipy elsewhere: tests/test_against_*). What is checked here is that the
+parallel result equals the serial one bit for bit, and that the catalogue is written by the
+client alone, in request order.
+"""
+
+import json
+
+import numpy as np
+import pytest
+
+import cr3bp
+from cr3bp.transfers import tasks
+from librate_cli.main import main
+
+EM = "--system=earth-moon"
+ATLAS = "lyapunov L1, lyapunov L2, halo L1 north"
+
+
+def run(capsys, *argv):
+    rc = main([str(a) for a in argv])
+    out, err = capsys.readouterr()
+    return rc, out, err
+
+
+@pytest.fixture(scope="module")
+def cluster():
+    """A local dask cluster of 2 worker processes for the module (one thread each)."""
+    distributed = pytest.importorskip("distributed")
+    import logging
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None,
+                                  silence_logs=logging.CRITICAL) as c:
+        yield c.scheduler_address
+
+
+def _family_bytes(fam):
+    return json.dumps([m.to_dict() for m in fam.members] + [b.to_dict() for b in fam.bifurcations],
+                      sort_keys=True)
+
+
+def test_atlas_pool_and_dask_equal_serial_family_by_family(cluster):
+    serial = cr3bp.atlas("earth-moon", ATLAS, members=4)
+    one = [cr3bp.family("earth-moon", "lyapunov", point="L2", members=4)]
+    assert [(f.family, f.point) for f in serial] == [("lyapunov", "L1"), ("lyapunov", "L2"), ("halo", "L1")]
+    assert _family_bytes(serial[1]) == _family_bytes(one[0])          # an atlas entry is cr3bp.family's
+    seen = []
+    pool = cr3bp.atlas("earth-moon", ATLAS, members=4, workers=2, progress=lambda d, n, f: seen.append((d, n)))
+    dask = cr3bp.atlas("earth-moon", ATLAS.split(", "), members=4, scheduler=cluster)
+    for a, b, c in zip(serial, pool, dask):
+        assert _family_bytes(a) == _family_bytes(b) == _family_bytes(c)
+    assert sorted(seen) == [(1, 3), (2, 3), (3, 3)]
+
+
+def test_atlas_refuses_before_any_work(monkeypatch):
+    calls = []
+    monkeypatch.setattr(tasks, "run_tasks", lambda *a, **k: calls.append(a))
+    for families, kw, words in (("lyapunov L1, lyapunov L1", {}, "repeats"),
+                                ("lyapunov L1, halo L2 south period=6.5d", {}, "names a member"),
+                                ("lyapunov L1", {"members": 1}, "members 1"),
+                                ("lyapunov L1", {"max_step": 2.0}, "max_step"),
+                                ("lyapunov L1", {"scheduler": "somewhere"}, "--scheduler 'somewhere'"),
+                                ("lyapunov L1", {"workers": 0}, "workers"),
+                                ("", {}, "one or more")):
+        with pytest.raises(cr3bp.InputError, match=words):
+            cr3bp.atlas("earth-moon", families, **kw)
+    assert calls == []
+
+
+def test_atlas_cli_same_json_here_in_a_pool_and_on_dask_and_catalogue_in_order(capsys, tmp_path, cluster):
+    base = ["family", EM, "--atlas", ATLAS, "--members", "3", "--format", "json"]
+    rc1, out1, err1 = run(capsys, *base)
+    rc2, out2, err2 = run(capsys, *base, "--workers", "2")
+    rc3, out3, err3 = run(capsys, *base, "--scheduler", cluster)
+    assert rc1 == rc2 == rc3 == 0, (err1, err2, err3)
+    assert out1 == out2 == out3
+    assert "family 3/3 done" in err2
+    d = json.loads(out1)
+    assert [f["family"] + " " + f["point"] for f in d["families"]] == ["lyapunov L1", "lyapunov L2", "halo L1"]
+    cat = tmp_path / "cat.sqlite"
+    rc, out, err = run(capsys, *base, "--workers", "2", "--catalog", cat)
+    assert rc == 0, err
+    ids = [f["catalog_id"] for f in json.loads(out)["families"]]
+    assert ids == sorted(ids) and len(set(ids)) == 3
+    rc, out, err = run(capsys, *base[:-2], "--format", "csv")
+    assert rc == 0 and out.count("lyapunov L2,") == 3
+
+
+def test_run_tasks_on_dask_in_chunks(cluster):
+    assert tasks.run_tasks(abs, list(range(-20, 0)), scheduler=cluster) == list(range(20, 0, -1))
+    assert tasks.split(10, 2, 2) == [[0, 4, 8], [1, 5, 9], [2, 6], [3, 7]]
+    assert sum(map(len, tasks.split(401, 16))) == 401 and len(tasks.split(401, 16)) <= 64
+
+
+def _tube_bytes(tube):
+    return b"".join(np.asarray(a).tobytes() for a in (tube.tof, tube.end_states, tube.start_states)) + repr(tube.status).encode()
+
+
+def test_tube_in_pieces_equals_one_batch(cluster):
+    em = cr3bp.system("earth-moon")
+    o = cr3bp.orbit(em, "lyapunov L1 jacobi=3.15")
+    kw = dict(points=40, until="section:x=1-mu")
+    serial = cr3bp.manifold(o, "unstable", **kw)
+    pool = cr3bp.manifold(o, "unstable", workers=2, **kw)
+    dask = cr3bp.manifold(o, "unstable", scheduler=cluster, **kw)
+    assert _tube_bytes(serial) == _tube_bytes(pool) == _tube_bytes(dask)
+    assert "section" in serial.status
+    cut = cr3bp.section(o, "x=1-mu", stability="stable", points=40)
+    cut2 = cr3bp.section(o, "x=1-mu", stability="stable", points=40, workers=2)
+    assert json.dumps(cut.to_dict()) == json.dumps(cut2.to_dict())
+    with pytest.raises(cr3bp.InputError, match="periodic orbit"):
+        cr3bp.manifold((em, "L1"), "unstable", workers=2)
+
+
+def test_manifold_and_section_cli_byte_identical_json(capsys, cluster):
+    m = ["manifold", EM, "--family=lyapunov", "--point=L1", "--jacobi=3.15", "--unstable", "--points=36",
+         "--until=section:x=1-mu", "--format=json"]
+    rc1, out1, err1 = run(capsys, *m)
+    rc2, out2, err2 = run(capsys, *m, "--workers=2")
+    rc3, out3, err3 = run(capsys, *m, "--scheduler", cluster)
+    assert rc1 == rc2 == rc3 == 0, (err1, err2, err3)
+    assert out1 == out2 == out3
+    s = ["section", EM, "--tube=lyapunov L1 jacobi=3.15 unstable", "--section=x=1-mu", "--points=36",
+         "--format=json"]
+    rc1, out1, err1 = run(capsys, *s)
+    rc2, out2, err2 = run(capsys, *s, "--workers=2")
+    assert rc1 == rc2 == 0, (err1, err2)
+    assert out1 == out2
+
+
+def test_a_started_pool_is_used_and_left_running():
+    """start_pool: the workers start before the tasks come (warmed by a module-level function)
+    and run_tasks uses the pool without shutting it down."""
+    ex = tasks.start_pool(2, warm=tasks._nothing)
+    try:
+        assert tasks.run_tasks(abs, list(range(-9, 0)), workers=2, executor=ex) == list(range(9, 0, -1))
+        assert tasks.run_tasks(str, [1, 2, 3], workers=2, executor=ex) == ["1", "2", "3"]   # still running
+    finally:
+        ex.shutdown()
+
+
+def test_a_build_grows_each_family_once_and_solves_the_same_orbits(monkeypatch):
+    """resolve_orbits without a catalogue: three requests on the Lyapunov L1 family grow it once,
+    and each orbit equals the one solved alone (its family grown for it)."""
+    from cr3bp.orbits import families, request
+    from cr3bp.transfers.graph import resolve_orbits
+    from cr3bp.transfers.nodes import parse_nodes
+    em = cr3bp.system("earth-moon")
+    reqs = ["lyapunov L1 jacobi=3.10", "lyapunov L1 jacobi=3.12", "lyapunov L1 jacobi=3.15"]
+    text = 'system = "earth-moon"\n' + "".join(
+        f'[[node]]\nname = "o{i}"\nkind = "orbit"\norbit = "{r}"\n' for i, r in enumerate(reqs))
+    alone = [request.solve_request(em, r) for r in reqs]
+    grows = []
+    real = families.grow_family
+    monkeypatch.setattr(families, "grow_family", lambda *a, **k: grows.append(a[1]) or real(*a, **k))
+    got = resolve_orbits(em, parse_nodes(text, em))
+    assert grows == ["lyapunov"]
+    assert [np.asarray(o["state"]).tobytes() for o in got.values()] == [o.state.tobytes() for o in alone]
+    assert [o["period"] for o in got.values()] == [o.period for o in alone]
