@@ -319,7 +319,7 @@ def _repair(pb, z):
 
 def design_torus_departure(torus, altitude_km: float = 200.0, *, path: str = "direct",
                            inclination_deg: float | None = None, min_flyby_altitude_km: float = 100.0,
-                           max_tof_days: float = 150.0, guesses: int | None = None):
+                           max_tof_days: float | None = None, guesses: int | None = None):
     """The least-Δv departure found from a circular Earth parking orbit to ``torus``, direct or past
     the Moon, the insertion point free over both torus angles (module notes).
 
@@ -337,8 +337,10 @@ def design_torus_departure(torus, altitude_km: float = 200.0, *, path: str = "di
         Inclination of the parking orbit to the Moon's orbit plane (free when None).
     min_flyby_altitude_km : float
         Least altitude of the lunar periapsis (flyby path; above 0 to 20 000 km).
-    max_tof_days : float
-        Longest time of flight, departure to insertion (1 to 400 d).
+    max_tof_days : float, optional
+        Longest time of flight, departure to insertion (1 to 400 d; default as for
+        :func:`cr3bp.transfers.departure.design_departure`: ``MAX_TOF_DAYS``, or
+        ``FLYBY_MAX_TOF_DAYS`` on the flyby path).
     guesses : int, optional
         First guesses optimised (default :data:`cr3bp.transfers.departure.GUESSES_OPTIMISED`).
 
@@ -396,6 +398,8 @@ def design_torus_departure(torus, altitude_km: float = 200.0, *, path: str = "di
     altitude_km = validate.number_in("parking altitude (km)", altitude_km, 100.0, 50_000.0)
     if inclination_deg is not None:
         inclination_deg = validate.number_in("inclination (deg)", inclination_deg, 0.0, 180.0)
+    if max_tof_days is None:
+        max_tof_days = dep.FLYBY_MAX_TOF_DAYS if path == "lunar-flyby" else dep.MAX_TOF_DAYS
     max_tof_days = validate.number_in("maximum time of flight (d)", max_tof_days, 1.0, 400.0)
     if path not in dep.PATHS:
         raise InputError(f"path '{path}' to a torus; allowed: {', '.join(dep.PATHS)}")

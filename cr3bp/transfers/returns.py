@@ -167,7 +167,7 @@ class Return(dep.Departure):
 
 def design_return(target, altitude_km: float = 200.0, *, path: str = "direct",
                   inclination_deg: float | None = None, min_flyby_altitude_km: float = 100.0,
-                  max_tof_days: float = 150.0, guesses: int | None = None) -> Return:
+                  max_tof_days: float | None = None, guesses: int | None = None) -> Return:
     """The least-Δv return found from ``target`` (an Earth–Moon periodic orbit or torus) to a circular
     Earth parking orbit: the time-reverse of the departure to its mirror image (module notes).
 
@@ -182,8 +182,9 @@ def design_return(target, altitude_km: float = 200.0, *, path: str = "direct",
         Inclination of the parking orbit to the Moon's orbit plane (free when None).
     min_flyby_altitude_km : float
         Least lunar flyby altitude (flyby path).
-    max_tof_days : float
-        Longest time of flight (1 to 400 d).
+    max_tof_days : float, optional
+        Longest time of flight (1 to 400 d; default as for the departure: ``MAX_TOF_DAYS``, or
+        ``FLYBY_MAX_TOF_DAYS`` on the flyby path).
     guesses : int, optional
         First guesses optimised (the departure design's default).
 
