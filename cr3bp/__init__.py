@@ -8,7 +8,8 @@ One call per stage of a design (:mod:`cr3bp.api`)::
     tube = cr3bp.manifold(nrho, "unstable", points=100, until="time:20d")
 
 ``system``, ``points``, ``orbit``, ``family``, ``manifold``, ``section``, ``connect``, ``optimise``,
-``route``, ``export``, ``run`` (a scenario file), ``torus``, ``shadow``, ``keep``.
+``route``, ``export``, ``run`` (a scenario file), ``torus``, ``shadow``, ``keep``, ``refine`` (into the
+ephemeris model).
 
 Conventions (units, frame, Omega, Jacobi constant) are stated once in :mod:`cr3bp.systems`.
 
@@ -37,7 +38,7 @@ _LAZY = {
 }
 #: the public face: one call per stage (cr3bp/api.py)
 STAGES = ("system", "points", "orbit", "family", "manifold", "section", "connect", "optimise", "route", "export",
-          "run", "torus", "shadow", "keep")
+          "run", "torus", "shadow", "keep", "refine")
 _LAZY.update({name: "api" for name in STAGES})
 
 __all__ = list(STAGES) + ["CAUTION", "System", "system_names", "propagate", "propagate_batch", "Arc",
