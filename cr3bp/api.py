@@ -685,7 +685,7 @@ def connect(origin, target, *, system=None, section="x=1-mu", points=None, cross
         in LU), for ``.tof_arrival_days`` (default per system: 1000 km in earth-moon); not for
         a leg that ends on a parking orbit, nor with a torus.
     progress : callable(done, total, message), optional
-        Progress of the tubes grown (orbit to orbit).
+        Progress of the tubes grown (orbit to orbit) or of the periapsis search (parking orbit).
     full : bool
         Also return what the legs came from (for figures): ``(legs, tubes, periapsis_map)``,
         the two tubes cut by the section (orbit to orbit; else ``[]``) and the periapsis map
@@ -774,7 +774,7 @@ def connect(origin, target, *, system=None, section="x=1-mu", points=None, cross
         facing = "interior" if primary == 1 else "exterior"
         branch = (to_branch if pa else from_branch) or facing
         n = points or 100
-        pm = periapsis_map(orb, primary, stability, branch, n, t_max=t_max, step_km=step_off)
+        pm = periapsis_map(orb, primary, stability, branch, n, t_max=t_max, step_km=step_off, progress=progress)
         legs = parking_legs(orb, primary, alt, stability=stability, branch=branch, n_points=n, t_max=t_max,
                             step_km=step_off, max_legs=candidates, pmap=pm)
         arrival = orb if pa else None

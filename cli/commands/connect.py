@@ -155,7 +155,8 @@ def run(args):
         n = args.points or 100
         common.progress(args, f"librate connect: periapsis map of {n} {stability} {branch} trajectories "
                         f"about {system.names[primary]}...")
-        legs, tubes, pm = api.connect(args.origin if pa else orbit, orbit if pa else args.target, points=n, **kw)
+        legs, tubes, pm = api.connect(args.origin if pa else orbit, orbit if pa else args.target, points=n,
+                                      progress=to.progress_printer(args), **kw)
         if args.map and not any(math.isfinite(a) for a in pm.altitude_km):
             common.progress(args, f"no trajectory reached a periapsis about {system.names[primary]}: "
                             f"{args.map} not written")
