@@ -653,7 +653,7 @@ def _parking(text, sysm):
 
 def connect(origin, target, *, system=None, section="x=1-mu", points=None, crossing=1, time=None,
             step_off=None, candidates=5, from_branch=None, to_branch=None, arrival_within=None,
-            progress=None, full=False):
+            progress=None, full=False, on_map=None):
     """Legs between two periodic orbits, or a parking orbit and a periodic orbit, or with a
     quasi-periodic torus at one end or both (``librate connect``).
 
@@ -690,6 +690,9 @@ def connect(origin, target, *, system=None, section="x=1-mu", points=None, cross
         Also return what the legs came from (for figures): ``(legs, tubes, periapsis_map)``,
         the two tubes cut by the section (orbit to orbit; else ``[]``) and the periapsis map
         of a parking-orbit leg (else None).
+    on_map : callable(PeriapsisMap), optional
+        Parking-orbit leg: called with the periapsis map before the legs are searched, so a
+        figure of it can show why none is found (``librate connect --map``).
 
     Returns
     -------
@@ -775,6 +778,8 @@ def connect(origin, target, *, system=None, section="x=1-mu", points=None, cross
         branch = (to_branch if pa else from_branch) or facing
         n = points or 100
         pm = periapsis_map(orb, primary, stability, branch, n, t_max=t_max, step_km=step_off, progress=progress)
+        if on_map is not None:
+            on_map(pm)
         legs = parking_legs(orb, primary, alt, stability=stability, branch=branch, n_points=n, t_max=t_max,
                             step_km=step_off, max_legs=candidates, pmap=pm)
         arrival = orb if pa else None

@@ -155,18 +155,20 @@ def run(args):
         n = args.points or 100
         common.progress(args, f"librate connect: periapsis map of {n} {stability} {branch} trajectories "
                         f"about {system.names[primary]}...")
+
+        def draw(pm):
+            if args.map and not any(math.isfinite(a) for a in pm.altitude_km):
+                common.progress(args, f"no trajectory reached a periapsis about {system.names[primary]}: "
+                                f"{args.map} not written")
+            elif args.map:
+                from cr3bp.plotting import save
+                from cr3bp.plotting.manifolds import plot_periapsis_map
+                ax = plot_periapsis_map(pm, target_km=alt)
+                save(ax.figure, args.map, f"first close periapsis about {system.names[primary]} of each "
+                     f"{stability} {branch} trajectory of {pm.origin}; colour: departure phase on the orbit")
+                common.progress(args, f"wrote {args.map}")
         legs, tubes, pm = api.connect(args.origin if pa else orbit, orbit if pa else args.target, points=n,
-                                      progress=to.progress_printer(args), **kw)
-        if args.map and not any(math.isfinite(a) for a in pm.altitude_km):
-            common.progress(args, f"no trajectory reached a periapsis about {system.names[primary]}: "
-                            f"{args.map} not written")
-        elif args.map:
-            from cr3bp.plotting import save
-            from cr3bp.plotting.manifolds import plot_periapsis_map
-            ax = plot_periapsis_map(pm, target_km=alt)
-            save(ax.figure, args.map, f"first close periapsis about {system.names[primary]} of each {stability} "
-                 f"{branch} trajectory of {pm.origin}; colour: departure phase on the orbit")
-            common.progress(args, f"wrote {args.map}")
+                                      progress=to.progress_printer(args), on_map=draw, **kw)
         how = f"{stability} manifold ({branch}) periapsis at {alt:g} km above {system.names[primary]}"
     else:
         ca, cb = _jacobi_word(args.origin), _jacobi_word(args.target)
