@@ -36,7 +36,9 @@ from .units import length
 
 __all__ = ["system", "points", "orbit", "orbit_request", "family", "manifold", "section", "connect", "optimise", "route",
            "trajectory", "export", "run", "torus", "shadow", "keep", "disperse", "propagate_state", "zvc",
-           "catalog_list", "catalog_show", "catalog_remove", "read_trajectory", "atlas"]
+           "catalog_list", "catalog_show", "catalog_remove", "read_trajectory", "atlas",
+           "departure", "return_transfer", "low_energy_transfer", "launch_window", "graph", "design_route",
+           "refine"]
 
 
 # ---- helpers ---------------------------------------------------------------------------
@@ -667,7 +669,8 @@ def _parking(text, sysm):
 
 
 def connect(origin, target, *, system=None, section="x=1-mu", points=None, crossing=1, time=None,
-            step_off=None, candidates=5, from_branch=None, to_branch=None):
+            step_off=None, candidates=5, from_branch=None, to_branch=None, arrival_within=None,
+            progress=None, full=False, on_map=None):
     """Legs between two periodic orbits, or a parking orbit and a periodic orbit, or with a
     quasi-periodic torus at one end or both (``librate connect``).
 
@@ -694,11 +697,25 @@ def connect(origin, target, *, system=None, section="x=1-mu", points=None, cross
     candidates : int
         Most legs returned, 1..1000 (default 5), best first.
     from_branch, to_branch : {"interior", "exterior"}, optional
+    arrival_within : str or float, optional
+        Distance from the arrival orbit's path that counts as arrived (``"5000km"``; a float is
+        in LU), for ``.tof_arrival_days`` (default per system: 1000 km in earth-moon); not for
+        a leg that ends on a parking orbit, nor with a torus.
+    progress : callable(done, total, message), optional
+        Progress of the tubes grown (orbit to orbit) or of the periapsis search (parking orbit).
+    full : bool
+        Also return what the legs came from (for figures): ``(legs, tubes, periapsis_map)``,
+        the two tubes cut by the section (orbit to orbit; else ``[]``) and the periapsis map
+        of a parking-orbit leg (else None).
+    on_map : callable(PeriapsisMap), optional
+        Parking-orbit leg: called with the periapsis map before the legs are searched, so a
+        figure of it can show why none is found (``librate connect --map``).
 
     Returns
     -------
     list of cr3bp.transfers.leg.Leg
-        Best first: ``.dv_mps`` (CR3BP), ``.tof_days``, ``.segments``, ``.to_dict()``.
+        Best first: ``.dv_mps`` (CR3BP), ``.tof_days``, ``.segments``, ``.to_dict()``
+        (with ``full=True``: the tuple above).
 
     Raises
     ------
@@ -748,13 +765,28 @@ def connect(origin, target, *, system=None, section="x=1-mu", points=None, cross
         if b is not None:
             _one_of("branch", b, TUBE_BRANCHES)
 
+    within_km = None
+    if arrival_within is not None:
+        within_km = units.length(_text(arrival_within), sysm)
+        within_km = within_km * sysm.length_km if sysm.dimensional else within_km
+        if not (math.isfinite(within_km) and within_km > 0):
+            raise InputError(f"arrival_within {arrival_within!r} must be a positive length")
+        if pb:
+            raise InputError(f"arrival_within {arrival_within!r} measures the approach to an arrival orbit; "
+                             "this leg ends on a parking orbit, which it reaches when it ends")
+
     def _orbit(end):
         return end if isinstance(end, PeriodicOrbit) else orbit(sysm, end)
 
     ta, tb = _torus_end(origin), _torus_end(target)
     if ta or tb:
-        return _connect_tori(origin, target, ta, tb, pa, pb, sysm, _orbit, section, points, step_off, t_max,
+        if within_km is not None:
+            raise InputError(f"arrival_within {arrival_within!r} measures the approach to an arrival periodic "
+                             "orbit; it does not apply to a leg with a torus")
+        legs = _connect_tori(origin, target, ta, tb, pa, pb, sysm, _orbit, section, points, step_off, t_max,
                              candidates, from_branch, to_branch, crossing)
+        return (legs, [], None) if full else legs
+    tubes, pm = [], None
     if pa or pb:
         primary, alt = pa or pb
         orb = _orbit(target if pa else origin)
@@ -762,14 +794,24 @@ def connect(origin, target, *, system=None, section="x=1-mu", points=None, cross
         facing = "interior" if primary == 1 else "exterior"
         branch = (to_branch if pa else from_branch) or facing
         n = points or 100
-        pm = periapsis_map(orb, primary, stability, branch, n, t_max=t_max, step_km=step_off)
-        return parking_legs(orb, primary, alt, stability=stability, branch=branch, n_points=n, t_max=t_max,
+        pm = periapsis_map(orb, primary, stability, branch, n, t_max=t_max, step_km=step_off, progress=progress)
+        if on_map is not None:
+            on_map(pm)
+        legs = parking_legs(orb, primary, alt, stability=stability, branch=branch, n_points=n, t_max=t_max,
                             step_km=step_off, max_legs=candidates, pmap=pm)
-    oa, ob = _orbit(origin), _orbit(target)
-    legs, _, _ = _connect(oa, ob, str(section), points or 200, step_km=step_off, t_max=t_max, count=crossing,
-                          branch_a=from_branch or "interior", branch_b=to_branch or "interior",
-                          max_candidates=candidates)
-    return legs
+        arrival = orb if pa else None
+    else:
+        oa, arrival = _orbit(origin), _orbit(target)
+        legs, tu, ts = _connect(oa, arrival, str(section), points or 200, step_km=step_off, t_max=t_max,
+                                count=crossing, branch_a=from_branch or "interior",
+                                branch_b=to_branch or "interior", max_candidates=candidates, progress=progress)
+        tubes = [tu, ts]
+    if within_km is not None and arrival is not None:
+        from .tubes.arrival import arrival_time, orbit_path  # lazy: start-up: keeps cr3bp.api free of numpy
+        path = orbit_path(arrival)
+        legs = [replace(g, tof_arrival=t, arrival_distance_km=d)
+                for g in legs for t, d in [arrival_time(sysm, g.segments, arrival, within_km, path)]]
+    return (legs, tubes, pm) if full else legs
 
 
 def _torus_end(end) -> bool:
@@ -824,9 +866,11 @@ def optimise(origin, target, *, system=None, impulses=3, max_tof=None, start="pa
     max_tof : str or float, optional
         Cap on the time of flight (``"30d"``, or TU as a float); default 1.5 times the start's
         and at least two periods of the longer orbit.
-    start : {"patch", "sweep"}
+    start : {"patch", "sweep"} or Leg
         Start from the manifold patch of the two tubes (as :func:`connect`; a phase sweep of
-        two-impulse legs where the tubes do not meet), or from the sweep only.
+        two-impulse legs where the tubes do not meet), from the sweep only, or from a given
+        connection leg (one of :func:`connect`'s legs between the same two orbits, as
+        ``librate connect --optimise`` does with its ``--section`` and branch options).
     section, points, crossing, time, step_off : as :func:`connect` (the patch start).
     progress : callable(str), optional
 
@@ -874,7 +918,11 @@ def optimise(origin, target, *, system=None, impulses=3, max_tof=None, start="pa
         sysm = _as_system(system)
     if impulses not in IMPULSES:
         raise InputError(f"impulses = {impulses!r}; allowed: 2 or 3")
-    _one_of("start", start, ("patch", "sweep"))
+    given = None if isinstance(start, str) else start
+    if given is not None and type(given).__name__ != "Leg":
+        raise InputError(f"start = {type(start).__name__}: give 'patch', 'sweep' or a Leg from cr3bp.connect")
+    if given is None:
+        _one_of("start", start, ("patch", "sweep"))
     for end in (origin, target):
         if isinstance(end, str) and _parking(end, sysm):
             raise InputError(f"'{end}' is a parking orbit; optimise joins two periodic orbits")
@@ -887,8 +935,8 @@ def optimise(origin, target, *, system=None, impulses=3, max_tof=None, start="pa
         points = _whole("points", points, 2, 100_000)
     oa = origin if isinstance(origin, PeriodicOrbit) else orbit(sysm, origin)
     ob = target if isinstance(target, PeriodicOrbit) else orbit(sysm, target)
-    first = None
-    if start == "patch":
+    first = None if given is None else start_from_leg(given)
+    if given is None and start == "patch":
         try:
             legs, _, _ = _connect(oa, ob, str(section), points or 200, step_km=step_off, t_max=t_max,
                                   count=crossing)
@@ -973,7 +1021,275 @@ def low_energy_transfer(target, parking="parking earth 200km", *, system="earth-
                              progress=progress)
 
 
-# ---- routes, export, scenarios ---------------------------------------------------------
+def launch_window(target, window, parking="parking earth 200km", *, system="earth-moon", inclination=None,
+                  max_tof="130d", progress=None):
+    """The best launch dates of a window for a low-energy transfer (``librate connect --path
+    low-energy --window``), in the bicircular model.
+
+    Parameters
+    ----------
+    target : PeriodicOrbit or str
+        The target orbit, or a request.
+    window : str or (str, str)
+        ``"START/END"`` or two ISO 8601 dates (at most two years apart).
+    parking, system, inclination, max_tof, progress
+        As :func:`low_energy_transfer`.
+
+    Returns
+    -------
+    cr3bp.transfers.low_energy.LaunchWindow
+        ``.free`` (the best Sun phase with no date), ``.dates`` (each date of the window that
+        brings that phase, or the window's edges), ``.transfers`` (designed, each a
+        LowEnergyTransfer), ``.best``, ``.to_dict()`` -- all in the bicircular model.
+
+    Raises
+    ------
+    InputError
+        A malformed window, a window too long or outside the ephemeris, and the refusals of
+        :func:`low_energy_transfer`.
+    NoSolutionError
+        No date of the window gives a transfer.
+
+    Examples
+    --------
+    The search takes minutes, so only the refusal of a malformed window is run:
+
+    >>> from cr3bp.api import launch_window
+    >>> w = launch_window("halo L2 south resonance=9:2",
+    ...                   "2027-03-01T00:00:00Z/2027-05-01T00:00:00Z")            # doctest: +SKIP
+    >>> w.best.dv_mps > 0                                                          # doctest: +SKIP
+    True
+    >>> launch_window("halo L2 south resonance=9:2", "2027-03-01")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: window '2027-03-01' must be START/END, two ISO 8601 dates, e.g. 2027-03-01T00:00:00Z/2027-05-01T00:00:00Z
+
+    References
+    ----------
+    Parker & Anderson, *Low-Energy Lunar Trajectory Design*, 2013, ch. 3 (launch periods);
+    see :func:`cr3bp.transfers.low_energy.launch_window`.
+    """
+    from .errors import shown  # lazy: start-up: keeps cr3bp.api light
+    from .orbits.orbit import PeriodicOrbit  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .transfers import low_energy as le  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .validate import quantity  # lazy: start-up: keeps cr3bp.api free of numpy
+    sysm = target.system if isinstance(target, PeriodicOrbit) else _as_system(system)
+    parts = str(window).split("/") if isinstance(window, str) else list(window)
+    if len(parts) != 2 or not all(str(x).strip() for x in parts):
+        raise InputError(f"window '{shown(str(window))}' must be START/END, two ISO 8601 dates, e.g. "
+                         "2027-03-01T00:00:00Z/2027-05-01T00:00:00Z")
+    pk = _parking(parking, sysm) if isinstance(parking, str) else None
+    if pk is None or pk[0] != 0:
+        raise InputError(f"parking = {parking!r}: give 'parking earth ALTITUDE', e.g. 'parking earth 200km'")
+    if not 100.0 <= pk[1] <= 50_000.0:
+        raise InputError(f"parking altitude {pk[1]:g} km in {parking!r}; allowed: 100 km to 50000 km")
+    tof = float(max_tof) if isinstance(max_tof, (int, float)) else \
+        sysm.days(quantity("max_tof", _text(max_tof), "time", sysm, sign="positive", default_unit="d"))
+    if not le.MIN_TOF_DAYS < tof <= 200.0:
+        raise InputError(f"max_tof = {max_tof!r}; allowed: more than {le.MIN_TOF_DAYS:g} d, at most 200 d")
+    t0, t1 = le.window_seconds(str(parts[0]).strip(), str(parts[1]).strip(), sysm)
+    orb = target if isinstance(target, PeriodicOrbit) else orbit(sysm, target)
+    return le.launch_window(orb, pk[1], t0, t1, inclination_deg=inclination, max_tof_days=tof, progress=progress)
+
+
+def _angle_deg(name, value):
+    """An angle 0..180 deg from degrees (a number) or text with its unit (``28.5deg``, ``0.5rad``)."""
+    if isinstance(value, (int, float)) and not isinstance(value, bool):
+        v = float(value)
+    else:
+        t = str(value).strip().lower()
+        v = math.nan
+        for unit, f in (("deg", 1.0), ("°", 1.0), ("rad", 57.29577951308232)):
+            if t.endswith(unit):
+                try:
+                    v = float(t[: -len(unit)]) * f
+                except ValueError:
+                    pass
+                break
+    if not 0.0 <= v <= 180.0:
+        raise InputError(f"{name} {value!r}: give an angle from 0deg to 180deg (a number: degrees; text with its "
+                         "unit, e.g. 28.5deg)")
+    return v
+
+
+def departure(target, parking="parking earth 200km", *, system="earth-moon", path="direct", inclination=None,
+              max_tof=None, min_flyby_altitude="100km", progress=None):
+    """The least-Δv departure found from a circular Earth parking orbit to an Earth-Moon periodic
+    orbit or quasi-periodic torus, designed by optimisation in the CR3BP (``librate connect
+    --path direct`` or ``--path lunar-flyby``).
+
+    Parameters
+    ----------
+    target : PeriodicOrbit, Torus or str
+        The target orbit (or an orbit request), or a torus (from :func:`torus`, or a torus
+        request such as ``"quasi-halo around halo L1 north az=10000km amplitude=300km"``; the
+        insertion point free over both torus angles).
+    parking : str
+        ``"parking earth ALTITUDE"`` (100 km to 50 000 km).
+    system : System or str
+        The Earth-Moon system (when ``target`` is a request).
+    path : {"direct", "lunar-flyby"}
+        Departure burn, coast, insertion burn; or with a powered lunar flyby between them.
+    inclination : str or float, optional
+        Parking-orbit inclination to the Moon's orbit plane (``"28.5deg"``; a float is in
+        degrees), 0 to 180 deg (default: free).
+    max_tof : str or float, optional
+        Longest time of flight, departure to insertion (a float is in days), 1 d to 400 d;
+        default 150 d, or 10 d on the flyby path (where the cost keeps falling slowly with
+        longer flights: :data:`cr3bp.transfers.departure.FLYBY_MAX_TOF_DAYS`).
+    min_flyby_altitude : str or float
+        ``path="lunar-flyby"``: least flyby altitude over the Moon's mean radius (default
+        ``"100km"``; a float is in km), above 0 to 20 000 km.
+    progress : callable(str), optional
+        Messages of the torus solve (a torus request only).
+
+    Returns
+    -------
+    cr3bp.transfers.departure.Departure
+        Immutable: ``.maneuvers``, ``.dv_mps``, ``.departure_dv_mps``, ``.tof_days``,
+        ``.c3_km2_s2``, ``.inclination_deg``, ``.flyby_altitude_km``, ``.optimised``,
+        ``.to_dict()`` -- all in the CR3BP.
+
+    Raises
+    ------
+    InputError
+        Not a parking orbit about the Earth in the earth-moon system, a value out of range.
+    NoSolutionError
+        No first guess of the search converges.
+
+    Examples
+    --------
+    >>> import cr3bp.api as api
+    >>> dep = api.departure("halo L1 north az=10000km", "parking earth 200km")      # doctest: +SKIP
+    >>> round(dep.dv_mps), round(dep.tof_days, 1)                                   # doctest: +SKIP
+    (3695, 11.3)
+    >>> api.departure("halo L1 north az=10000km", "parking earth 60000km")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: parking altitude 60000 km in 'parking earth 60000km'; allowed: 100 km to 50000 km
+
+    References
+    ----------
+    Betts, *Practical Methods for Optimal Control and Estimation Using Nonlinear Programming*,
+    2010 (direct transcription); Parker & Anderson, *Low-Energy Lunar Trajectory Design*,
+    2013, ch. 2 (direct and flyby transfers); see :mod:`cr3bp.transfers.departure` and
+    :mod:`cr3bp.tori.departure`.
+    """
+    from .orbits.orbit import PeriodicOrbit  # lazy: start-up: keeps cr3bp.api free of numpy
+    sysm, alt, inc, tof, fb = _parking_transfer_inputs(target, parking, system, path, inclination, max_tof,
+                                                       min_flyby_altitude, "parking")
+    if _torus_end(target):
+        from .tori import request as treq  # lazy: heavy library (scipy, via cr3bp.tori)
+        from .tori.departure import design_torus_departure  # lazy: heavy library (scipy, via cr3bp.tori)
+        torus_ = treq.solve(sysm, target, progress=progress) if isinstance(target, str) else target
+        return design_torus_departure(torus_, alt, path=path, inclination_deg=inc, max_tof_days=tof,
+                                      min_flyby_altitude_km=fb)
+    from .transfers.departure import design_departure  # lazy: heavy library (scipy, via cr3bp.transfers)
+    orb = target if isinstance(target, PeriodicOrbit) else orbit(sysm, target)
+    return design_departure(orb, alt, path=path, inclination_deg=inc, max_tof_days=tof,
+                            min_flyby_altitude_km=fb)
+
+
+def _parking_transfer_inputs(target, parking, system, path, inclination, max_tof, min_flyby_altitude, what):
+    """The checked inputs of a departure from, or a return to, an Earth parking orbit:
+    (system, altitude km, inclination deg or None, max time of flight d, least flyby altitude km)."""
+    from .orbits.orbit import PeriodicOrbit  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .validate import quantity  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .vocabulary import CR3BP_DEPARTURE_PATHS  # lazy: start-up of cr3bp.api (one name, here only)
+    _one_of("path", path, CR3BP_DEPARTURE_PATHS)
+    sysm = target.system if isinstance(target, PeriodicOrbit) or type(target).__name__ == "Torus" \
+        else _as_system(system)
+    pk = _parking(parking, sysm) if isinstance(parking, str) else None
+    if pk is None or pk[0] != 0 or sysm.name != "earth-moon":
+        raise InputError(f"{what} = {parking!r}: give 'parking earth ALTITUDE' in the earth-moon system, e.g. "
+                         "'parking earth 200km'")
+    if not 100.0 <= pk[1] <= 50_000.0:
+        raise InputError(f"parking altitude {pk[1]:g} km in {parking!r}; allowed: 100 km to 50000 km")
+    if max_tof is None:
+        tof = 10.0 if path == "lunar-flyby" else 150.0      # the design's defaults (FLYBY_MAX_TOF_DAYS, MAX_TOF_DAYS)
+    else:
+        tof = float(max_tof) if isinstance(max_tof, (int, float)) else \
+            sysm.days(quantity("max_tof", _text(max_tof), "time", sysm, sign="positive", default_unit="d"))
+    if not 1.0 <= tof <= 400.0:
+        raise InputError(f"max_tof = {max_tof!r}; allowed: 1 d to 400 d")
+    inc = None
+    if inclination is not None:
+        inc = _angle_deg("inclination", inclination)
+    fb = float(min_flyby_altitude) if isinstance(min_flyby_altitude, (int, float)) else \
+        sysm.km(quantity("min_flyby_altitude", _text(min_flyby_altitude), "length", sysm, sign="positive"))
+    if not 0.0 < fb <= 20_000.0:
+        raise InputError(f"min_flyby_altitude = {min_flyby_altitude!r}; allowed: above 0 km to 20000 km")
+    return sysm, pk[1], inc, tof, fb
+
+
+def return_transfer(source, parking="parking earth 200km", *, system="earth-moon", path="direct",
+                    inclination=None, max_tof=None, min_flyby_altitude="100km", progress=None):
+    """The least-Δv return found from an Earth-Moon periodic orbit or torus to a circular Earth
+    parking orbit (``librate connect --from ORBIT --to "parking earth ALTITUDE" --path ...``).
+
+    The time-reverse (y -> -y, t -> -t) of the least-Δv departure to the mirror image of
+    ``source``, designed by optimisation in the CR3BP; the perigee burn puts the spacecraft on
+    the parking circle.
+
+    Parameters
+    ----------
+    source : PeriodicOrbit, Torus or str
+        The orbit left (or an orbit request), or a torus (from :func:`torus`, or a torus request;
+        the departure point free over both torus angles).
+    parking : str
+        ``"parking earth ALTITUDE"``, 100 km to 50 000 km.
+    system : System or str
+        The Earth-Moon system (when ``source`` is a request).
+    path : {"direct", "lunar-flyby"}
+    inclination : str or float, optional
+        Parking-orbit inclination to the Moon's orbit plane, 0 to 180 deg (default: free).
+    max_tof : str or float, optional
+        Longest time of flight (a float is in days), 1 d to 400 d; default as for
+        :func:`departure`.
+    min_flyby_altitude : str or float
+        ``path="lunar-flyby"``: least flyby altitude (default ``"100km"``).
+    progress : callable(str), optional
+        Messages of the torus solve (a torus request only).
+
+    Returns
+    -------
+    cr3bp.transfers.returns.Return
+        Immutable: ``.maneuvers`` (departure, [flyby], insertion), ``.dv_mps``, ``.tof_days``,
+        ``.perigee_altitude_km``, ``.inclination_deg``, ``.to_dict()`` -- all in the CR3BP.
+
+    Raises
+    ------
+    InputError
+        Not a parking orbit about the Earth in the earth-moon system, a value out of range.
+    NoSolutionError
+        No first guess of the search converges.
+
+    Examples
+    --------
+    >>> import cr3bp.api as api
+    >>> ret = api.return_transfer("halo L2 south resonance=9:2", "parking earth 200km")   # doctest: +SKIP
+    >>> round(ret.dv_mps), round(ret.tof_days, 2)                                         # doctest: +SKIP
+    (3972, 5.25)
+    >>> api.return_transfer("halo L1 north az=10000km", "parking moon 100km")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: parking = 'parking moon 100km': give 'parking earth ALTITUDE' in the earth-moon system, e.g. 'parking earth 200km'
+
+    References
+    ----------
+    Szebehely, *Theory of Orbits*, 1967, section 2.9 (time reversal); see
+    :func:`cr3bp.transfers.returns.design_return`.
+    """
+    from .orbits.orbit import PeriodicOrbit  # lazy: start-up: keeps cr3bp.api free of numpy
+    sysm, alt, inc, tof, fb = _parking_transfer_inputs(source, parking, system, path, inclination, max_tof,
+                                                       min_flyby_altitude, "parking")
+    from .transfers.returns import design_return  # lazy: heavy library (scipy, via cr3bp.transfers)
+    if _torus_end(source):
+        from .tori import request as treq  # lazy: heavy library (scipy, via cr3bp.tori)
+        src = treq.solve(sysm, source, progress=progress) if isinstance(source, str) else source
+    else:
+        src = source if isinstance(source, PeriodicOrbit) else orbit(sysm, source)
+    return design_return(src, alt, path=path, inclination_deg=inc, max_tof_days=tof, min_flyby_altitude_km=fb)
 
 
 def route(system, nodes, start, goal, *, objective="dv", best=1, max_dv=None, max_tof=None,
@@ -1062,6 +1378,336 @@ def route(system, nodes, start, goal, *, objective="dv", best=1, max_dv=None, ma
         if cat is not None:
             cat.close()
     return best_routes(result.graph, src.id, dst.id, constraints, objective, k)
+
+
+def _node_list(nodes, sysm):
+    """A loaded node list (cr3bp.transfers.nodes.NodeList) or a node-list file read for ``sysm``."""
+    from .transfers.nodes import NodeList, load_nodes  # lazy: start-up: keeps cr3bp.api free of numpy
+    return nodes if isinstance(nodes, NodeList) else load_nodes(nodes, sysm)
+
+
+def _build_settings(sysm, workers, scheduler, tof):
+    """The checked ``workers``, ``scheduler`` and ``tof`` (days) of a graph build."""
+    from .validate import quantity  # lazy: start-up: keeps cr3bp.api free of numpy
+    if workers is not None:
+        from .validate import workers as _workers  # lazy: start-up: keeps cr3bp.api free of numpy
+        workers = _workers("workers", workers)
+    if scheduler and workers:
+        raise InputError("give workers= or scheduler=, not both")
+    tof_days = None if tof is None else sysm.days(quantity("tof", _text(tof), "time", sysm, sign="positive"))
+    return workers, scheduler, tof_days
+
+
+def _with_catalog(catalog, work):
+    """``work(open Catalog or None)``: a Catalog is used as given; a path is opened and closed."""
+    from .catalog import Catalog  # lazy: start-up: keeps cr3bp.api free of numpy
+    if catalog is None or isinstance(catalog, Catalog):
+        return work(catalog)
+    cat = Catalog(catalog)
+    try:
+        return work(cat)
+    finally:
+        cat.close()
+
+
+def graph(system, nodes, *, workers=None, scheduler=None, catalog=None, tof=None, progress=None):
+    """The transfer graph of a node list: every leg computed (or read from a catalogue), the
+    pairs pruned with their reason (``librate graph build`` and ``show``).
+
+    Parameters
+    ----------
+    system : System or str
+    nodes : str, path or cr3bp.transfers.nodes.NodeList
+        A node list (TOML; format in the user guide, e.g. ``examples/cislunar_nodes.toml``).
+    workers : int, optional
+        Worker processes (default: all cores; 1: in this process).
+    scheduler : str, optional
+        A dask.distributed scheduler address instead (needs ``librate[cluster]``).
+    catalog : str, path or cr3bp.catalog.Catalog, optional
+        Leg cache (default: none, every leg is computed); a path is opened and closed here.
+    tof : str, optional
+        Time of flight of targeted legs without their own (``"6d"``).
+    progress : callable(done, total, leg), optional
+
+    Returns
+    -------
+    cr3bp.transfers.graph.BuildResult
+        ``.graph`` (networkx MultiDiGraph of node ids, each edge carrying its Leg), ``.nodes``,
+        ``.legs`` (every attempted leg, CR3BP Δv and times), ``.computed``, ``.cached``,
+        ``.pruned``, ``.to_dict()``.
+
+    Raises
+    ------
+    InputError
+        A bad node list, workers and scheduler both given, a bad time of flight.
+
+    Examples
+    --------
+    >>> import cr3bp.api as api
+    >>> g = api.graph("earth-moon", "examples/cislunar_nodes.toml", workers=1)       # doctest: +SKIP
+    >>> g.graph.number_of_edges() > 0                                              # doctest: +SKIP
+    True
+    >>> api.graph("earth-moon", "examples/cislunar_nodes.toml", workers=2, scheduler="tcp://h:8786")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: give workers= or scheduler=, not both
+
+    References
+    ----------
+    Hagberg, Schult and Swart, "Exploring network structure, dynamics, and function using
+    NetworkX", *Proc. SciPy* 2008 (the graph); legs by two-impulse targeting (Betts, *Practical
+    Methods for Optimal Control and Estimation Using Nonlinear Programming*, 2010): see
+    :mod:`cr3bp.transfers.graph`.
+    """
+    from .transfers.graph import build_graph  # lazy: heavy library (networkx, via cr3bp.transfers.graph)
+    sysm = _as_system(system)
+    workers, scheduler, tof_days = _build_settings(sysm, workers, scheduler, tof)
+    nodelist = _node_list(nodes, sysm)
+    return _with_catalog(catalog, lambda cat: build_graph(sysm, nodelist, workers=workers, scheduler=scheduler,
+                                                          catalog=cat, progress=progress, tof_days=tof_days))
+
+
+def design_route(system, nodes, start, goal, *, objective="dv", best=5, max_dv=None, max_tof=None,
+                 min_altitude=None, max_legs=None, through=(), avoid=(), pareto=False, stitch=True,
+                 optimise=False, workers=None, scheduler=None, catalog=None, tof=None, progress=None,
+                 on_stage=None):
+    """The whole route design (``librate route``): the transfer graph built, the routes ranked,
+    the Pareto set, the best route stitched into one trajectory, its orbit-to-orbit legs
+    optimised.
+
+    Parameters
+    ----------
+    system : System or str
+    nodes : str, path or cr3bp.transfers.nodes.NodeList
+    start, goal : str
+        Node names, ids, orbit texts, or ``"parking BODY ALTITUDE"``.
+    objective : {"dv", "tof"}
+    best : int
+        How many ranked routes, 1..1000 (default 5).
+    max_dv, max_tof, min_altitude : str, optional
+        Caps with their unit: ``"800m/s"``, ``"120d"``, ``"100km"``.
+    max_legs : int, optional
+    through, avoid : sequence of str
+    pareto : bool
+        Also the Pareto set of Δv against time of flight.
+    stitch : bool
+        Stitch the best route by multiple shooting (default True).
+    optimise : bool
+        Also optimise each orbit-to-orbit leg of the best route (beside it, not stitched).
+    workers, scheduler, catalog, tof, progress
+        As :func:`graph`.
+    on_stage : callable(stage, value), optional
+        Called with ``("built", BuildResult)``, ``("optimising", None)`` and ``("stitching",
+        Route)`` as the design goes.
+
+    Returns
+    -------
+    cr3bp.transfers.design.TransferDesign
+        ``.built`` (the graph build), ``.graph``, ``.routes`` (best first: ``.dv_total_mps``,
+        ``.tof_days``, CR3BP), ``.pareto``, ``.stitched`` (or None; ``.not_stitched`` says why),
+        ``.optimised``.
+
+    Raises
+    ------
+    InputError
+        A bad node list, unknown node, start equal to goal, a bad cap.
+    NoSolutionError
+        No route meets the caps (the message names the binding one).
+
+    Examples
+    --------
+    >>> import cr3bp.api as api
+    >>> d = api.design_route("earth-moon", "examples/cislunar_nodes.toml", "leo", "relay")  # doctest: +SKIP
+    >>> d.stitched.dv_total_mps > 0                                                    # doctest: +SKIP
+    True
+    >>> api.design_route("earth-moon", "examples/cislunar_nodes.toml", "leo", "leo")  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: start and goal name the same node...
+
+    References
+    ----------
+    Dijkstra, "A note on two problems in connexion with graphs", *Numer. Math.* 1, 1959;
+    Martins, "On a multicriteria shortest path problem", *EJOR* 16, 1984 (Pareto set); Betts,
+    *Practical Methods for Optimal Control and Estimation Using Nonlinear Programming*, 2010
+    (stitching by multiple shooting): see :mod:`cr3bp.transfers.design`.
+    """
+    from .transfers.design import design_transfer  # lazy: heavy library (networkx, via cr3bp.transfers.design)
+    from .transfers.nodes import find_node  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .transfers.search import Constraints  # lazy: heavy library (networkx, via cr3bp.transfers.search)
+    from .validate import quantity  # lazy: start-up: keeps cr3bp.api free of numpy
+    sysm = _as_system(system)
+    nodelist = _node_list(nodes, sysm)
+    src, dst = find_node(nodelist.nodes, str(start)), find_node(nodelist.nodes, str(goal))
+    if src.id == dst.id:
+        raise InputError(f"start and goal name the same node ({src.name})")
+    _one_of("objective", objective, ("dv", "tof"))
+    k = _whole("best", best, 1, 1000)
+    dv = None if max_dv is None else sysm.mps(quantity("max_dv", _text(max_dv), "velocity", sysm, sign="nonnegative"))
+    tmax = None if max_tof is None else sysm.days(quantity("max_tof", _text(max_tof), "time", sysm,
+                                                           sign="nonnegative"))
+    alt = None if min_altitude is None else sysm.km(quantity("min_altitude", _text(min_altitude), "length", sysm,
+                                                              sign="nonnegative"))
+    legs = None if max_legs is None else _whole("max_legs", max_legs, 1, 1000)
+    if isinstance(through, str) or isinstance(avoid, str):
+        raise InputError("through= and avoid= are lists of node names")
+    constraints = Constraints(dv, tmax, legs, alt, tuple(find_node(nodelist.nodes, str(t)).id for t in through),
+                              tuple(find_node(nodelist.nodes, str(t)).id for t in avoid))
+    workers, scheduler, tof_days = _build_settings(sysm, workers, scheduler, tof)
+    return _with_catalog(catalog, lambda cat: design_transfer(
+        sysm, nodelist, src, dst, constraints, objective=objective, best=k, pareto=bool(pareto), stitch=bool(stitch),
+        on_stage=on_stage, optimise=bool(optimise), workers=workers, scheduler=scheduler, catalog=cat,
+        tof_days=tof_days, progress=progress))
+
+
+def _srp(value):
+    """(area-to-mass m2/kg, Cr) from a pair or ``"0.01m2/kg,1.3"``."""
+    from .errors import shown  # lazy: start-up: keeps cr3bp.api light
+    from .validate import number_in  # lazy: start-up: keeps cr3bp.api free of numpy
+    if value is None:
+        return None
+    if isinstance(value, str):
+        parts = [w.strip() for w in value.split(",")]
+        if len(parts) != 2 or not parts[0].endswith("m2/kg"):
+            raise InputError(f"srp '{shown(value)}' must be AREA_TO_MASS,CR with the unit m2/kg, e.g. 0.01m2/kg,1.3")
+        parts[0] = parts[0].removesuffix("m2/kg").strip()
+    else:
+        parts = list(value)
+        if len(parts) != 2:
+            raise InputError(f"srp {value!r} must be (area-to-mass m2/kg, reflectivity coefficient)")
+    return (number_in("srp area-to-mass", parts[0], 0.0, 100.0),
+            number_in("srp reflectivity coefficient", parts[1], 0.0, 2.0))
+
+
+def _is_route(source):
+    return isinstance(source, os.PathLike) or (isinstance(source, str) and os.path.exists(source))
+
+
+def refine(source, epoch, *, system=None, revs=12, span=None, phase=(0.0, 0.0), bodies="sun,earth,moon",
+           central=None, srp=None, patches=7, fix_first=False, fixed_times=False, patch_days=1.0, hold_end=True,
+           max_iter=25, progress=None):
+    """Carry a CR3BP design into the ephemeris model at an epoch and correct it to a continuous
+    trajectory (``librate refine``): a periodic orbit (whole revolutions), an arc on a
+    quasi-periodic torus, or a stitched route (its maneuvers re-optimised).
+
+    Parameters
+    ----------
+    source : PeriodicOrbit, Torus, str or path
+        An orbit or an orbit request (``"halo L2 south period=6.5626d"``); a torus or a torus
+        request; or a route: the folder written by ``librate route --out`` (or a file in it),
+        given as a :class:`pathlib.Path` or as text naming an existing path.
+    epoch : str or float
+        Date of the first patch point (ISO 8601; Z = UTC, or a trailing TDB/TT/TAI/UTC).
+    system : System or str, optional
+        Needed for a request or a route (dimensional, with an ephemeris for its primaries).
+    revs : int
+        Orbit: revolutions, 1..200 (default 12).
+    span : str or float
+        Torus (required): the arc's length, a time (``"20d"``) or ``"Nperiods"`` (stroboscopic
+        periods), at most 200 periods; a float is in TU.
+    phase : (float, float)
+        Torus: phase of the arc's first state, degrees (theta0 along the stroboscopic period,
+        theta1 around the invariance circle).
+    bodies : str or sequence of str
+        Point masses (default ``"sun,earth,moon"``).
+    central : str, optional
+        Central body (default: the smaller primary; the Earth for a low-energy route).
+    srp : str or (float, float), optional
+        Cannonball radiation pressure: ``"0.01m2/kg,1.3"`` or (area-to-mass m2/kg, Cr).
+    patches : int
+        Orbit and torus: patch points per revolution (per stroboscopic period), 2..64 (default 7).
+    fix_first, fixed_times : bool
+        Orbit and torus: hold the first patch state; hold the patch times.
+    patch_days : float
+        Route: one patch segment per this many days of each arc, 0.01..1000 (default 1).
+    hold_end : bool
+        Route: hold the route's end position (default True).
+    max_iter : int
+        Newton iterations at most, 1..200 (default 25).
+    progress : callable, optional
+        Orbit and torus: ``progress(iteration, mismatch)``; route: ``progress(stage, iteration,
+        mismatch)``.
+
+    Returns
+    -------
+    cr3bp.fidelity.transition.Transition or cr3bp.fidelity.route.RouteTransition
+        In the ephemeris model: ``.continuity_km``, ``.continuity_mps``, ``.iterations``,
+        ``.dv_total_mps``, ``.per_rev`` (orbit, torus) or ``.arcs`` and ``.maneuvers`` (route),
+        ``.sample_km``, ``.to_dict()``.
+
+    Raises
+    ------
+    InputError
+        A system without an ephemeris model, a date outside the ephemeris, a bad body list,
+        a value out of range, an option of another source.
+    ConvergenceError
+        Newton's method does not reach continuity.
+
+    Examples
+    --------
+    >>> import cr3bp.api as api
+    >>> tr = api.refine("halo L2 south period=6.5626d", "2031-03-01T00:00:00Z", system="earth-moon",
+    ...                 revs=1)                                                        # doctest: +SKIP
+    >>> tr.continuity_km < 1e-3                                                        # doctest: +SKIP
+    True
+    >>> api.refine("halo L2 south period=6.5626d", "2031-03-01T00:00:00Z", system="earth-moon", revs=0)
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: revs 0 is outside the allowed range 1..200
+
+    References
+    ----------
+    Pavlak, PhD thesis, Purdue, 2013, ch. 4 (multiple shooting from the CR3BP into an ephemeris
+    model); Folta, Bosanac, Guzzetti and Howell, *Acta Astronautica* 110, 2015 (the transition):
+    see :mod:`cr3bp.fidelity.transition`, :mod:`cr3bp.fidelity.torus_arc`, :mod:`cr3bp.fidelity.route`.
+    """
+    from .fidelity import model as fm  # lazy: heavy library (the ephemeris, via cr3bp.fidelity)
+    from .time import frames  # lazy: heavy library (the ephemeris, via cr3bp.time.frames)
+    from .validate import number_in  # lazy: start-up: keeps cr3bp.api free of numpy
+    torus_ = type(source).__name__ == "Torus" or (isinstance(source, str) and not _is_route(source)
+                                                   and _torus_end(source))
+    route_ = not torus_ and _is_route(source)
+    sysm = _as_system(system) if (route_ or isinstance(source, str)) else source.system
+    sysm.require_dimensional("an ephemeris model")
+    max_iter = _whole("max_iter", max_iter, 1, 200)
+    srp = _srp(srp)
+    bodies = fm.parse_bodies(bodies if isinstance(bodies, str) else ",".join(bodies))
+    frames.frame(sysm, epoch, anchor="ephemeris", center="secondary")        # the date checked before any work
+    if route_:
+        from .fidelity.route import read_route, route_launch, transition_route  # lazy: heavy library (scipy)
+        days = number_in("patch_days", str(patch_days).lower().removesuffix("d"), 0.01, 1000.0)
+        t_tu, states, maneuvers = read_route(source, sysm)
+        low_energy = route_launch(source, epoch, sysm)
+        return transition_route(sysm, t_tu, states, maneuvers, epoch, bodies,
+                                central=central or ("earth" if low_energy else None), srp=srp, patch_days=days,
+                                hold_end=bool(hold_end), max_iter=max_iter, progress=progress)
+    per = _whole("patches", patches, 2, 64)
+    if torus_:
+        from .fidelity.torus_arc import MAX_PERIODS, transition_torus_arc  # lazy: heavy library (scipy)
+        from .io.export import parse_span  # lazy: start-up: keeps cr3bp.api free of numpy
+        from .tori import request as treq  # lazy: heavy library (scipy, via cr3bp.tori)
+        if span is None:
+            raise InputError("a torus arc needs span= (a time such as '20d', or 'Nperiods')")
+        th = [math.radians(float(x)) for x in phase]
+        if len(th) != 2 or not all(math.isfinite(x) for x in th):
+            raise InputError(f"phase {phase!r} must be two finite angles (theta0, theta1) in degrees")
+        if isinstance(span, str):
+            parse_span(span, sysm, 1.0)                                      # its form, before the solve
+        tor = treq.solve(sysm, source) if isinstance(source, str) else source
+        T = tor.stroboscopic_time
+        sp = parse_span(span, sysm, T) if isinstance(span, str) else float(span)
+        if not (math.isfinite(sp) and sp > 0):
+            raise InputError(f"span {span!r} must be a positive time")
+        if sp > MAX_PERIODS * T * (1 + 1e-12):
+            raise InputError(f"span {span} is {sp / T:.4g} stroboscopic periods; at most {MAX_PERIODS}")
+        return transition_torus_arc(tor, epoch, sp, th, bodies, central=central, srp=srp, per_period=per,
+                                    fix_first=bool(fix_first), free_times=not fixed_times, max_iter=max_iter,
+                                    progress=progress)
+    from .fidelity.transition import transition  # lazy: heavy library (scipy, via cr3bp.fidelity)
+    n = _whole("revs", revs, 1, 200)
+    orb = orbit(sysm, source) if isinstance(source, str) else source
+    return transition(orb, epoch, n, bodies, central=central, srp=srp, per_rev=per, fix_first=bool(fix_first),
+                      free_times=not fixed_times, max_iter=max_iter, progress=progress)
 
 
 def _oem_axes(kind, axes):

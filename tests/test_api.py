@@ -135,6 +135,61 @@ def _rows(path):
     return [ln for ln in Path(path).read_text().splitlines() if ln and not ln.startswith("#")]
 
 
+def test_connect_arrival_within_matches_the_cli(capsys, em, l1):
+    """arrival_within= gives the command's times to arrival (--arrival-within)."""
+    d = cli_json(capsys, "connect", "--system", "earth-moon", "--from", L1, "--to", L2, "--points", "60",
+                 "--candidates", "2", "--arrival-within", "5000km", "-q")
+    legs = cr3bp.connect(l1, L2, points=60, candidates=2, arrival_within="5000km")
+    assert [g.tof_arrival_days for g in legs] == [g["tof_arrival_days"] for g in d["legs"]]
+    assert [g.arrival_distance_km for g in legs] == [g["arrival_distance_km"] for g in d["legs"]] == [5000.0] * 2
+    legs, tubes, pmap = cr3bp.connect(l1, L2, points=60, candidates=2, full=True)
+    assert [g.dv_mps for g in legs] == [g["dv_mps"] for g in d["legs"]] and len(tubes) == 2 and pmap is None
+
+
+def test_departure_matches_the_cli(capsys, em):
+    """api.departure is librate connect --path direct, number for number."""
+    d = cli_json(capsys, "connect", "--system", "earth-moon", "--from", "parking earth 200km", "--to",
+                 "halo L1 north az=10000km", "--path", "direct", "--inclination", "28.5deg", "-q")
+    dep = cr3bp.api.departure("halo L1 north az=10000km", "parking earth 200km", inclination="28.5deg")
+    leg = d["legs"][0]
+    assert dep.dv_mps == leg["dv_mps"] and dep.tof_days == leg["tof_days"]
+    assert [m["dv_mps"] for m in dep.to_dict()["maneuvers"]] == [m["dv_mps"] for m in leg["maneuvers"]]
+    assert dep.inclination_deg == pytest.approx(28.5, abs=1e-9)
+
+
+def test_graph_and_design_route_match_the_cli(capsys, tmp_path, em):
+    """api.graph is librate graph build; api.design_route is librate route (ranked, Pareto,
+    stitched), number for number."""
+    from graph_fixtures import node_list_text, perturbed_states
+    _, st = perturbed_states(3)
+    nodes = tmp_path / "nodes.toml"
+    nodes.write_text(node_list_text(st, chain=False, all_pairs=True, tof="2d", patches=2))
+    g = cli_json(capsys, "graph", "build", "--system", "earth-moon", "--nodes", nodes, "--no-catalog", "--workers",
+                 "1", "-q")
+    built = cr3bp.api.graph(em, nodes, workers=1)
+    assert [leg.summary().get("dv_mps") for leg in built.legs] == [leg.get("dv_mps") for leg in g["legs"]]
+    assert built.computed == g["computed"] == 6
+    d = cli_json(capsys, "route", "--system", "earth-moon", "--nodes", nodes, "--no-catalog", "--workers", "1",
+                 "--from", "p0", "--to", "p2", "--best", "2", "--pareto", "-q")
+    design = cr3bp.api.design_route(em, nodes, "p0", "p2", best=2, pareto=True, workers=1)
+    assert [r.dv_total_mps for r in design.routes] == [r["dv_total_mps"] for r in d["routes"]]
+    assert [r.dv_total_mps for r in design.pareto] == [r["dv_total_mps"] for r in d["pareto"]]
+    assert design.stitched.dv_total_mps == d["stitched"]["dv_total_mps"]
+    assert design.stitched.to_dict()["maneuvers"] == d["stitched"]["maneuvers"]
+
+
+def test_refine_matches_the_cli(capsys, em):
+    """api.refine is librate refine --orbit, number for number."""
+    import warnings
+    d = cli_json(capsys, "refine", "--system", "earth-moon", "--orbit", "halo L2 south period=6.5626d", "--epoch",
+                 EPOCH, "--revs", "1", "--bodies", "sun,earth,moon", "-q")
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        tr = cr3bp.api.refine("halo L2 south period=6.5626d", EPOCH, system=em, revs=1)
+    assert tr.continuity_km == d["continuity_km"] and tr.iterations == d["iterations"]
+    assert [r["max_path_offset_km"] for r in tr.per_rev] == [r["max_path_offset_km"] for r in d["per_revolution"]]
+
+
 def test_export_matches_the_cli(capsys, tmp_path, l1):
     a, b = tmp_path / "api.csv", tmp_path / "cli.csv"
     rc = main(["export", "--system", "earth-moon", "--orbit", L1, "--epoch", EPOCH, "--span", "1d",

@@ -102,7 +102,7 @@ def run(args, system, parking, to_parking=None):
     if getattr(args, "epoch", None) is not None:
         from cr3bp.errors import InputError
         raise InputError(f"--epoch dates a low-energy transfer; it does not apply with --path {args.path}")
-    from cr3bp.transfers.departure import design_departure
+    from cr3bp import api
     from . import _tube_options as to
     alt, tof, inc, fb = check(args, system, parking)
     orbit = to.orbit_from_request(system, args.target, args)
@@ -110,8 +110,7 @@ def run(args, system, parking, to_parking=None):
            "first guesses from a scan of lunar periapsis states (a minute or more)")
     common.progress(args, f"librate connect: designing a {args.path} departure from {args.origin} "
                     f"({how}, then optimisation in the CR3BP)...")
-    dep = design_departure(orbit, alt, path=args.path, inclination_deg=inc, max_tof_days=tof,
-                           min_flyby_altitude_km=fb)
+    dep = api.departure(orbit, args.origin, path=args.path, inclination=inc, max_tof=tof, min_flyby_altitude=fb)
     d = dep.to_dict()
     rows = [[m["name"], m["t_days"], m["dv_mps"], *m["position_km"]] for m in d["maneuvers"]]
     fo = dep.details.get("first_order")

@@ -18,8 +18,9 @@ def prepare(args, system, check=None):
     """The node list and the build settings from the options, checked before any work:
     ``(nodelist, settings, checked)`` with ``checked`` what ``check(nodelist)`` returns (the
     caller's own checks of the list, run first) and ``settings`` the keyword arguments of
-    :func:`cr3bp.transfers.graph.build_graph` (``workers``, ``scheduler``, ``catalog`` (open, or
-    None: close it after use), ``tof_days``, ``progress``: leg progress on stderr)."""
+    :func:`cr3bp.api.graph` and :func:`cr3bp.api.design_route` (``workers``, ``scheduler``,
+    ``catalog`` (open, or None: close it after use), ``tof``, ``progress``: leg progress on
+    stderr)."""
     from cr3bp.transfers.nodes import load_nodes
     from cr3bp.errors import InputError
     nodelist = load_nodes(args.nodes, system)
@@ -27,11 +28,9 @@ def prepare(args, system, check=None):
     workers = common.workers(args)
     if args.scheduler and workers:
         raise InputError("give --workers or --scheduler, not both")
-    tof_days = None
     if args.tof is not None:
         from cr3bp.validate import quantity
-        t = quantity("--tof", args.tof, "time", system, sign="positive")
-        tof_days = system.days(t)
+        quantity("--tof", args.tof, "time", system, sign="positive")        # refused here, before any work
     catalog = common.open_catalog(args)
 
     def tick(done, total, leg):
@@ -41,7 +40,7 @@ def prepare(args, system, check=None):
 
     common.progress(args, f"librate: building the graph of {len(nodelist.nodes)} node(s) from {args.nodes}...")
     return nodelist, {"workers": workers, "scheduler": args.scheduler, "catalog": catalog,
-                      "tof_days": tof_days, "progress": tick}, checked
+                      "tof": args.tof, "progress": tick}, checked
 
 
 def built(args, result):
@@ -52,10 +51,10 @@ def built(args, result):
 
 def build(args, system):
     """(node list, BuildResult) from the options; progress to stderr."""
-    from cr3bp.transfers.graph import build_graph
+    from cr3bp import api
     nodelist, settings, _ = prepare(args, system)
     try:
-        result = build_graph(system, nodelist, **settings)
+        result = api.graph(system, nodelist, **settings)
     finally:
         if settings["catalog"] is not None:
             settings["catalog"].close()

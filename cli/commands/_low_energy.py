@@ -58,7 +58,7 @@ HEADERS = ["maneuver", "t_days", "dv_mps", "x_km", "y_km", "z_km"]
 
 
 def run(args, system, parking):
-    from cr3bp.transfers.low_energy import design_low_energy
+    from cr3bp import api
     from . import _tube_options as to
     alt, tof, inc, epoch, window = check(args, system, parking)
     if args.plot:
@@ -68,8 +68,8 @@ def run(args, system, parking):
         return _run_window(args, orbit, alt, tof, inc, window)
     common.progress(args, f"librate connect: designing a low-energy transfer from {args.origin} in the "
                     "bicircular model (backward sweep from the target, then correction; about a minute)...")
-    tr = design_low_energy(orbit, alt, epoch=epoch, inclination_deg=inc, max_tof_days=tof,
-                           progress=lambda m: common.progress(args, m))
+    tr = api.low_energy_transfer(orbit, args.origin, epoch=epoch, inclination=inc, max_tof=tof,
+                                 progress=lambda m: common.progress(args, m))
     d = tr.to_dict()
     m_ = "bicircular"
     rows = [[m["name"], m["t_days"], m["dv_mps"], *m["position_km"]] for m in d["maneuvers"]]
@@ -113,11 +113,11 @@ WINDOW_HEADERS = ["departure_utc", "how", "phase_miss_deg", "dv_mps", "departure
 
 def _run_window(args, orbit, alt, tof, inc, window):
     """--window: the best launch dates of the window (cr3bp.transfers.low_energy.launch_window)."""
-    from cr3bp.transfers.low_energy import launch_window
+    from cr3bp import api
     common.progress(args, f"librate connect: searching a launch window for a low-energy transfer from {args.origin} "
                     "in the bicircular model (Sun phase searched with no date, then each date; a few minutes)...")
-    w = launch_window(orbit, alt, *window, inclination_deg=inc, max_tof_days=tof,
-                      progress=lambda m: common.progress(args, m))
+    w = api.launch_window(orbit, args.window, args.origin, inclination=inc, max_tof=tof,
+                          progress=lambda m: common.progress(args, m))
     by_date = {t.departure_epoch: t for t in w.transfers}
     rows = []
     for d in sorted(w.dates, key=lambda d: d["departure_epoch_utc"]):

@@ -69,9 +69,8 @@ HEADERS = ["maneuver", "t_days", "dv_mps", "x_km", "y_km", "z_km"]
 def run(args, system, pa, pb, t_max):
     import math
 
+    from cr3bp import api
     from cr3bp.errors import ConvergenceError, NoSolutionError
-    from cr3bp.transfers.optimise import optimise_transfer, start_from_leg
-    from cr3bp.tubes.connections import connect
     from . import _tube_options as to
     cap = check(args, system, pa, pb)
     if args.plot:
@@ -84,15 +83,15 @@ def run(args, system, pa, pb, t_max):
         common.progress(args, f"librate connect --optimise: growing two tubes of {n} trajectories to "
                         f"{args.section} for the starting patch...")
         try:
-            legs, _, _ = connect(oa, ob, args.section, n, step_km=args.step_off, t_max=t_max, count=args.crossing,
-                                 branch_a=args.from_branch or "interior", branch_b=args.to_branch or "interior",
-                                 max_candidates=args.candidates, progress=to.progress_printer(args))
-            start = start_from_leg(legs[0])
+            legs = api.connect(oa, ob, section=args.section, points=n, crossing=args.crossing, time=t_max,
+                               step_off=args.step_off, candidates=args.candidates, from_branch=args.from_branch,
+                               to_branch=args.to_branch, progress=to.progress_printer(args))
+            start = legs[0]
         except (NoSolutionError, ConvergenceError) as e:
             why_sweep = f"the tubes gave no patch ({e})"
             common.progress(args, f"{why_sweep}; starting from a phase sweep of two-impulse legs")
-    tr = optimise_transfer(oa, ob, start, impulses=args.impulses, max_tof=cap,
-                           progress=lambda m: common.progress(args, "librate connect --optimise: " + m))
+    tr = api.optimise(oa, ob, impulses=args.impulses, max_tof=cap, start="sweep" if start is None else start,
+                      progress=lambda m: common.progress(args, "librate connect --optimise: " + m))
     d = tr.to_dict()
     unit_d = "d" if system.dimensional else "TU"
     rows = [[m["name"], m["t_days"], m["dv_mps"], *m["position_km"]] for m in d["maneuvers"]]

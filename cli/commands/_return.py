@@ -33,13 +33,13 @@ def run(args, system, parking):
     else:
         from . import _tube_options as to
         target = to.orbit_from_request(system, args.origin, args)
-    from cr3bp.transfers.returns import design_return
+    from cr3bp import api
     how = ("two-body first guesses" if args.path == "direct" else
            "first guesses from a scan of lunar periapsis states (a minute or more)")
     common.progress(args, f"librate connect: designing a {args.path} return from {args.origin} to "
                     f"{args.target} (the time-reverse of a departure: {how}, then optimisation in the CR3BP)...")
-    ret = design_return(target, alt, path=args.path, inclination_deg=inc, max_tof_days=tof,
-                        min_flyby_altitude_km=fb)
+    ret = api.return_transfer(target, args.target, path=args.path, inclination=inc, max_tof=tof,
+                              min_flyby_altitude=fb)
     d = ret.to_dict()
     d["from"] = args.origin
     if torus:

@@ -61,7 +61,7 @@ def run(args, system, pa, pb, t_max):
     spec_b = torus_request(system, args.target, args) if tb else None
     ob = None if tb else to.orbit_from_request(system, args.target, args)
     oa = None if ta else to.orbit_from_request(system, args.origin, args)
-    from cr3bp.tori import connections as tc
+    from cr3bp import api
     from cr3bp.tori import request as treq
     say = (lambda m: common.progress(args, m, verbose_only=True))
     if ta:
@@ -74,14 +74,8 @@ def run(args, system, pa, pb, t_max):
     fb, tb_ = args.from_branch or "interior", args.to_branch or "interior"
     common.progress(args, f"librate connect: growing two manifolds of {n} trajectories to {args.section} "
                     "and refining the nearest pairs...")
-    kw = dict(n_points=n, branch_a=fb, branch_b=tb_, step_km=args.step_off, t_max=t_max)
-    if ta and tb:
-        legs = tc.connect_torus_to_torus(oa, ob, sec, **kw)
-    elif ta:
-        legs = tc.connect_torus_to_orbit(oa, ob, sec, **kw)
-    else:
-        legs = tc.connect_orbit_to_torus(oa, ob, sec, **kw)
-    legs = legs[:args.candidates]
+    legs = api.connect(oa, ob, section=args.section, points=n, time=t_max, step_off=args.step_off,
+                       candidates=args.candidates, from_branch=fb, to_branch=tb_)
     return _emit_legs(args, system, legs, oa, ob, f"unstable ({fb}) and stable ({tb_}) manifolds cut by "
                       f"{args.section}, positions matched by Newton's method on the departure phases")
 
@@ -145,16 +139,15 @@ def _departure(args, system, parking, spec):
     if getattr(args, "epoch", None) is not None:
         raise InputError(f"--epoch dates a low-energy transfer; it does not apply with --path {args.path}")
     alt, tof, inc, fb = depcli.check(args, system, parking)
+    from cr3bp import api
     from cr3bp.tori import request as treq
-    from cr3bp.tori.departure import design_torus_departure
     common.progress(args, f"librate connect: solving the torus '{args.target}'...")
     torus = treq.solve(system, spec, progress=lambda m: common.progress(args, m, verbose_only=True))
     how = ("two-body first guesses over both torus angles" if args.path == "direct" else
            "first guesses from a scan of lunar periapsis states matched over both torus angles")
     common.progress(args, f"librate connect: designing a {args.path} departure from {args.origin} to the torus "
                     f"({how}, then optimisation in the CR3BP)...")
-    dep = design_torus_departure(torus, alt, path=args.path, inclination_deg=inc, max_tof_days=tof,
-                                 min_flyby_altitude_km=fb)
+    dep = api.departure(torus, args.origin, path=args.path, inclination=inc, max_tof=tof, min_flyby_altitude=fb)
     d = dep.to_dict()
     d["to"] = args.target
     d["torus_phase_deg"] = dep.details["torus_phase_deg"]

@@ -109,8 +109,6 @@ def run(args):
     import math
 
     from cr3bp import units
-    from cr3bp.tubes.connections import connect
-    from cr3bp.tubes.parking import parking_legs, periapsis_map
     from cr3bp.tubes.transit import necks_open
     from cr3bp.errors import InputError
     system = common.resolve_system(args)
@@ -148,7 +146,10 @@ def run(args):
         raise InputError("--map draws the periapsis map of a parking-orbit leg; one end must be 'parking ...'")
     if pa and pb:
         raise InputError("one end must be a periodic orbit; both --from and --to are parking orbits")
-    tubes = []
+    from cr3bp import api
+    kw = dict(section=args.section, crossing=args.crossing, time=args.time, step_off=args.step_off,
+              candidates=args.candidates, from_branch=args.from_branch, to_branch=args.to_branch,
+              arrival_within=args.arrival_within, full=True)
     if pa or pb:
         primary, alt = pa or pb
         req = args.target if pa else args.origin
@@ -159,20 +160,20 @@ def run(args):
         n = args.points or 100
         common.progress(args, f"librate connect: periapsis map of {n} {stability} {branch} trajectories "
                         f"about {system.names[primary]}...")
-        pm = periapsis_map(orbit, primary, stability, branch, n, t_max=t_max, step_km=args.step_off,
-                           progress=to.progress_printer(args))
-        if args.map and not any(math.isfinite(a) for a in pm.altitude_km):
-            common.progress(args, f"no trajectory reached a periapsis about {system.names[primary]}: "
-                            f"{args.map} not written")
-        elif args.map:
-            from cr3bp.plotting import save
-            from cr3bp.plotting.manifolds import plot_periapsis_map
-            ax = plot_periapsis_map(pm, target_km=alt)
-            save(ax.figure, args.map, f"first close periapsis about {system.names[primary]} of each {stability} "
-                 f"{branch} trajectory of {pm.origin}; colour: departure phase on the orbit")
-            common.progress(args, f"wrote {args.map}")
-        legs = parking_legs(orbit, primary, alt, stability=stability, branch=branch, n_points=n,
-                            t_max=t_max, step_km=args.step_off, max_legs=args.candidates, pmap=pm)
+
+        def draw(pm):
+            if args.map and not any(math.isfinite(a) for a in pm.altitude_km):
+                common.progress(args, f"no trajectory reached a periapsis about {system.names[primary]}: "
+                                f"{args.map} not written")
+            elif args.map:
+                from cr3bp.plotting import save
+                from cr3bp.plotting.manifolds import plot_periapsis_map
+                ax = plot_periapsis_map(pm, target_km=alt)
+                save(ax.figure, args.map, f"first close periapsis about {system.names[primary]} of each "
+                     f"{stability} {branch} trajectory of {pm.origin}; colour: departure phase on the orbit")
+                common.progress(args, f"wrote {args.map}")
+        legs, tubes, pm = api.connect(args.origin if pa else orbit, orbit if pa else args.target, points=n,
+                                      progress=to.progress_printer(args), on_map=draw, **kw)
         how = f"{stability} manifold ({branch}) periapsis at {alt:g} km above {system.names[primary]}"
     else:
         ca, cb = _jacobi_word(args.origin), _jacobi_word(args.target)
@@ -184,19 +185,8 @@ def run(args):
         common.progress(args, f"librate connect: growing two tubes of {n} trajectories to {args.section}...")
         args.from_branch = args.from_branch or "interior"
         args.to_branch = args.to_branch or "interior"
-        legs, tu, ts = connect(oa, ob, args.section, n, step_km=args.step_off, t_max=t_max,
-                               count=args.crossing, branch_a=args.from_branch, branch_b=args.to_branch,
-                               max_candidates=args.candidates, progress=to.progress_printer(args))
-        tubes = [tu, ts]
+        legs, tubes, _ = api.connect(oa, ob, points=n, progress=to.progress_printer(args), **kw)
         how = f"unstable ({args.from_branch}) and stable ({args.to_branch}) tubes cut by {args.section}"
-    arrival_orbit = (orbit if pa else None) if (pa or pb) else ob
-    if within_km is not None and arrival_orbit is not None:
-        import dataclasses
-
-        from cr3bp.tubes.arrival import arrival_time, orbit_path
-        path = orbit_path(arrival_orbit)
-        legs = [dataclasses.replace(g, tof_arrival=t, arrival_distance_km=d)
-                for g in legs for t, d in [arrival_time(system, g.segments, arrival_orbit, within_km, path)]]
     rows = [[k + 1, g.kind, g.dv_mps, g.tof_arrival_days, g.tof_days,
              None if math.isnan(g.arrival_distance_km) else g.arrival_distance_km, *map(float, g.patch_state),
              None if math.isinf(g.min_altitude_km) else g.min_altitude_km] for k, g in enumerate(legs)]

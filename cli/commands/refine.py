@@ -122,7 +122,10 @@ def _run_route(args, sysm):
     from cr3bp.io import export
     from cr3bp.time import frames
     from cr3bp.errors import InputError
-    from cr3bp.fidelity.route import read_route, transition_route
+    from pathlib import Path
+
+    from cr3bp import api
+    from cr3bp.fidelity.route import read_route
     from cr3bp.plotting.fidelity import rotating_states
     for flag, given in (("--revs", args.revs != "12"), ("--patches", args.patches != "7"),
                         ("--fix-first", args.fix_first), ("--fixed-times", args.fixed_times),
@@ -135,15 +138,14 @@ def _run_route(args, sysm):
     t_tu, states, maneuvers = read_route(args.route, sysm)
     from cr3bp.fidelity.route import route_launch
     low_energy = route_launch(args.route, args.epoch, sysm)   # a low-energy route: its own launch date only
-    central_body = args.central or ("earth" if low_energy else None)   # it leaves from and flies far from the Earth
     common.progress(args, f"route: {len(t_tu)} samples over {(t_tu[-1] - t_tu[0]) * sysm.time_days:.4g} d, "
                           f"{len(maneuvers)} maneuvers; multiple shooting in the ephemeris model...")
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        tr = transition_route(sysm, t_tu, states, maneuvers, args.epoch, bodies, central=central_body, srp=srp,
-                              patch_days=patch_days, hold_end=args.hold_end == "yes", max_iter=max_iter,
-                              progress=lambda stage, i, err: common.progress(
-                                  args, f"  {stage} iteration {i}: largest mismatch {err:.3e} (nondimensional)"))
+        tr = api.refine(Path(args.route), args.epoch, system=sysm, bodies=bodies, central=args.central, srp=srp,
+                        patch_days=patch_days, hold_end=args.hold_end == "yes", max_iter=max_iter,
+                        progress=lambda stage, i, err: common.progress(
+                            args, f"  {stage} iteration {i}: largest mismatch {err:.3e} (nondimensional)"))
     central = tr.model.central
     design = "bicircular" if low_energy else "CR3BP"     # the model the route was designed in
     headers = ["t_days", f"t_{design.lower()}_days", "node", "kind", f"dv_{design.lower()}_mps", "dv_ephemeris_mps"]
@@ -236,8 +238,9 @@ def _run_torus(args, sysm):
 
     import numpy as np
 
+    from cr3bp import api
     from cr3bp.errors import InputError
-    from cr3bp.fidelity.torus_arc import MAX_PERIODS, transition_torus_arc
+    from cr3bp.fidelity.torus_arc import MAX_PERIODS
     from cr3bp.io import export
     from cr3bp.time import frames
     from cr3bp.tori import request as treq
@@ -255,11 +258,11 @@ def _run_torus(args, sysm):
                           "stroboscopic period")
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        tr = transition_torus_arc(torus, args.epoch, span, phase, bodies, central=args.central, srp=srp,
-                                  per_period=per, fix_first=args.fix_first, free_times=not args.fixed_times,
-                                  max_iter=max_iter,
-                                  progress=lambda i, err: common.progress(
-                                      args, f"  iteration {i}: largest mismatch {err:.3e} (nondimensional)"))
+        tr = api.refine(torus, args.epoch, span=args.span, phase=[float(x) for x in args.phase.split(",")],
+                        bodies=bodies, central=args.central, srp=srp, patches=per, fix_first=args.fix_first,
+                        fixed_times=args.fixed_times, max_iter=max_iter,
+                        progress=lambda i, err: common.progress(
+                            args, f"  iteration {i}: largest mismatch {err:.3e} (nondimensional)"))
     central = tr.model.central
     headers = ["stroboscopic_period", "max_path_offset_km", "max_timing_offset_min",
                "max_same_epoch_separation_km", f"min_r_{central}_km", "min_r_cr3bp_km"]
@@ -322,10 +325,9 @@ def run(args):
 
     import numpy as np
 
+    from cr3bp import api
     from cr3bp.io import export
     from cr3bp.time import frames
-    from cr3bp.fidelity.transition import transition
-    from cr3bp.orbits.request import solve_request
 
     sysm = common.resolve_system(args)
     sysm.require_dimensional("an ephemeris model")
@@ -342,13 +344,13 @@ def run(args):
     per_rev = common.whole_number("--patches", args.patches, 2, 64)
     max_iter, srp, bodies, fmt_out = _model_options(args, sysm)
     common.progress(args, f"solving orbit request '{args.orbit}'...")
-    orbit = solve_request(sysm, args.orbit)
+    orbit = api.orbit(sysm, args.orbit)
     common.progress(args, f"orbit: period {orbit.period_days:.6f} d; transition over {revs} revolutions "
                           f"with {per_rev} patch points each")
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        tr = transition(orbit, args.epoch, revs, bodies, central=args.central, srp=srp, per_rev=per_rev,
-                        fix_first=args.fix_first, free_times=not args.fixed_times, max_iter=max_iter,
+        tr = api.refine(orbit, args.epoch, revs=revs, bodies=bodies, central=args.central, srp=srp, patches=per_rev,
+                        fix_first=args.fix_first, fixed_times=args.fixed_times, max_iter=max_iter,
                         progress=lambda i, err: common.progress(
                             args, f"  iteration {i}: largest mismatch {err:.3e} (nondimensional)"))
     central = tr.model.central

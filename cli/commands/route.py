@@ -78,8 +78,8 @@ def _side(path, tag):
 
 
 def run(args):
+    from cr3bp import api
     from cr3bp.errors import InputError
-    from cr3bp.transfers.design import design_transfer
     from cr3bp.transfers.nodes import find_node
 
     system = common.resolve_system(args)
@@ -111,9 +111,11 @@ def run(args):
             common.progress(args, f"librate: stitching the best route ({value.n_legs} leg(s)) by multiple shooting "
                                   "(a route of one low-energy leg: as designed, in the bicircular model)...")
     try:
-        design = design_transfer(system, nodelist, src, dst, constraints, objective=args.objective, best=k,
-                                 pareto=args.pareto, stitch=not args.no_stitch, on_stage=stage,
-                                 optimise=args.optimise, **settings)
+        design = api.design_route(system, nodelist, args.source, args.target, objective=args.objective, best=k,
+                                  max_dv=args.max_dv, max_tof=args.max_tof, min_altitude=args.min_altitude,
+                                  max_legs=constraints.max_legs, through=args.through, avoid=args.avoid,
+                                  pareto=args.pareto, stitch=not args.no_stitch, optimise=args.optimise,
+                                  on_stage=stage, **settings)
     finally:
         if settings["catalog"] is not None:
             settings["catalog"].close()
