@@ -38,7 +38,8 @@ def run(args, system, parking):
            "first guesses from a scan of lunar periapsis states (a minute or more)")
     common.progress(args, f"librate connect: designing a {args.path} return from {args.origin} to "
                     f"{args.target} (the time-reverse of a departure: {how}, then optimisation in the CR3BP)...")
-    ret = api.return_transfer(target, args.target, path=args.path, inclination=inc, max_tof=tof,
+    ret = api.return_transfer(target, args.target, path=args.path, inclination=inc,
+                              max_tof=None if args.max_tof is None else tof,
                               min_flyby_altitude=fb)
     d = ret.to_dict()
     d["from"] = args.origin

@@ -147,7 +147,8 @@ def _departure(args, system, parking, spec):
            "first guesses from a scan of lunar periapsis states matched over both torus angles")
     common.progress(args, f"librate connect: designing a {args.path} departure from {args.origin} to the torus "
                     f"({how}, then optimisation in the CR3BP)...")
-    dep = api.departure(torus, args.origin, path=args.path, inclination=inc, max_tof=tof, min_flyby_altitude=fb)
+    dep = api.departure(torus, args.origin, path=args.path, inclination=inc,
+                        max_tof=None if args.max_tof is None else tof, min_flyby_altitude=fb)
     d = dep.to_dict()
     d["to"] = args.target
     d["torus_phase_deg"] = dep.details["torus_phase_deg"]

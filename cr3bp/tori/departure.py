@@ -338,9 +338,9 @@ def design_torus_departure(torus, altitude_km: float = 200.0, *, path: str = "di
     min_flyby_altitude_km : float
         Least altitude of the lunar periapsis (flyby path; above 0 to 20 000 km).
     max_tof_days : float, optional
-        Longest time of flight, departure to insertion (1 to 400 d; default as for
-        :func:`cr3bp.transfers.departure.design_departure`: ``MAX_TOF_DAYS``, or
-        ``FLYBY_MAX_TOF_DAYS`` on the flyby path).
+        Longest time of flight, departure to insertion (1 to 400 d; default
+        :data:`cr3bp.transfers.departure.MAX_TOF_DAYS` on both paths: under the periodic
+        orbit's 10-day flyby bound the optimiser stalls on a torus).
     guesses : int, optional
         First guesses optimised (default :data:`cr3bp.transfers.departure.GUESSES_OPTIMISED`).
 
@@ -399,7 +399,9 @@ def design_torus_departure(torus, altitude_km: float = 200.0, *, path: str = "di
     if inclination_deg is not None:
         inclination_deg = validate.number_in("inclination (deg)", inclination_deg, 0.0, 180.0)
     if max_tof_days is None:
-        max_tof_days = dep.FLYBY_MAX_TOF_DAYS if path == "lunar-flyby" else dep.MAX_TOF_DAYS
+        # (not the periodic orbit's 10-day flyby bound: to a quasi-halo about the 9:2 NRHO the
+        # optimiser stalls under it, 3633.6 m/s and not optimised, measured 2026-12-03)
+        max_tof_days = dep.MAX_TOF_DAYS
     max_tof_days = validate.number_in("maximum time of flight (d)", max_tof_days, 1.0, 400.0)
     if path not in dep.PATHS:
         raise InputError(f"path '{path}' to a torus; allowed: {', '.join(dep.PATHS)}")
