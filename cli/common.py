@@ -262,9 +262,10 @@ COMPILED_KERNELS = (("cr3bp.integrate.dop853", "integrate"),
                     ("cr3bp.integrate.lanes", "integrate_lanes"))
 
 
-#: Kernels that :mod:`cr3bp.integrate.prebuilt` builds ahead of time (``propagate`` and the
-#: functions of :mod:`cr3bp.dynamics` use the prebuilt ones when current).
-PREBUILT_KERNELS = frozenset([("cr3bp.integrate.dop853", "integrate")] + [
+#: Kernels that :mod:`cr3bp.integrate.prebuilt` builds ahead of time (``propagate``, the
+#: functions of :mod:`cr3bp.dynamics` and ``propagate_batch``'s lane blocks use the prebuilt
+#: ones when current: numba's lane kernel is then never compiled, so it gives no notice).
+PREBUILT_KERNELS = frozenset([("cr3bp.integrate.dop853", "integrate"), ("cr3bp.integrate.lanes", "integrate_lanes")] + [
     ("cr3bp.dynamics.kernels", name) for name in ("eom", "grad_omega", "hessian_omega", "_jacobi_many")])
 #: What the dynamics functions compile (the Lagrange points, Jacobi constants, ...).
 DYNAMICS_KERNELS = (("cr3bp.dynamics.kernels", "_jacobi_many"), ("cr3bp.dynamics.kernels", "grad_omega"),
