@@ -36,7 +36,7 @@ from .units import length
 
 __all__ = ["system", "points", "orbit", "orbit_request", "family", "manifold", "section", "connect", "optimise", "route",
            "trajectory", "export", "run", "torus", "shadow", "keep", "disperse", "propagate_state", "zvc",
-           "catalog_list", "catalog_show", "catalog_remove", "read_trajectory", "atlas",
+           "catalog_list", "catalog_show", "catalog_remove", "read_trajectory", "atlas", "shadow_along",
            "departure", "return_transfer", "low_energy_transfer", "launch_window", "graph", "design_route",
            "refine"]
 
@@ -3195,3 +3195,83 @@ def _piece_runner(workers, scheduler, source, apsis=False):
         return tasks_mod.run_tasks(function, items, workers, scheduler)
     return runner
 
+
+
+def shadow_along(trajectory, *, epoch=None, system=None, step="5min", bodies=("earth", "moon"), stations=()):
+    """Eclipse passes, sky angles and station windows along a trajectory file at its own epoch
+    (``librate shadow --trajectory``).
+
+    The file (an export, route, scenario or refined arc) is followed as written: CR3BP design
+    states, or ephemeris-model states for a refined arc; the eclipse geometry comes from the
+    DE421 ephemeris at the file's dates.
+
+    Parameters
+    ----------
+    trajectory : str or path-like
+        A trajectory file of ``librate export``, ``route``, ``run`` or ``refine`` (CCSDS OEM,
+        OEM XML, CSV, JSON).
+    epoch : str, optional
+        ISO 8601 date of the file's time 0, only for a rotating-frame file without an epoch
+        (then with ``system``).
+    system : System or str, optional
+        The file's system (earth-moon or sun-earth), for such a file; when given it must be
+        the file's.
+    step : str or float
+        Sample step: a time with its unit (``"5min"``) or seconds, 10 s to 1 h (at most half
+        the file's span).
+    bodies : sequence of {"earth", "moon"}
+        The eclipsing bodies.
+    stations : sequence of cr3bp.operations.visibility.Station
+        Ground stations whose windows of view are found
+        (:func:`cr3bp.operations.visibility.read_stations` reads them from TOML).
+
+    Returns
+    -------
+    (cr3bp.operations.along.Track, cr3bp.operations.along.Shadows)
+        The trajectory at its epoch (``.start_tdb_s``, ``.end_tdb_s``, ``.spec``) and what was
+        found along it (``.history`` of passes, angles, station windows).
+
+    Raises
+    ------
+    InputError
+        An unreadable file, a system other than the file's, a span over 20 years or under
+        20 s, a step outside 10 s to 1 h, an unknown body.
+
+    Examples
+    --------
+    >>> import cr3bp.api as api
+    >>> api.shadow_along("no-such-file.oem")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: trajectory 'no-such-file.oem' is not a file
+
+    References
+    ----------
+    Montenbruck and Gill, *Satellite Orbits*, 2000, §3.4.2 (conical shadow model); see
+    :mod:`cr3bp.operations.along`.
+    """
+    from .operations import along, eclipses  # lazy: start-up: keeps cr3bp.api free of numpy
+    if not Path(str(trajectory)).is_file():
+        raise InputError(f"trajectory '{trajectory}' is not a file")
+    bodies = tuple(str(b).strip().lower() for b in bodies)
+    if not bodies or any(b not in eclipses.BODIES for b in bodies) or len(set(bodies)) != len(bodies):
+        raise InputError(f"bodies {bodies!r}: allowed earth, moon or both")
+    if isinstance(step, (int, float)) and not isinstance(step, bool):
+        step_s = float(step)
+    else:
+        q = units.parse(str(step), "time")
+        if q.unit == "TU":
+            raise InputError(f"step '{step}': give the step in s, min or h (a file's TU is its own)")
+        step_s = q.si()
+    if not (math.isfinite(step_s) and 10.0 <= step_s <= 3600.0):
+        raise InputError(f"step '{step}' is {step_s:g} s; allowed 10 s to 1 h")
+    sysm = None if system is None else _as_system(system)
+    track = along.from_file(trajectory, epoch=epoch, system=sysm)
+    if sysm is not None and sysm.name != track.system.name:
+        raise InputError(f"system {sysm.name}: the file '{trajectory}' is in {track.system.name}")
+    span_s = track.end_tdb_s - track.start_tdb_s
+    if span_s > 20 * 365.25 * 86400.0:
+        raise InputError(f"'{trajectory}' spans more than 20 years")
+    if span_s < 2 * step_s and span_s < 20.0:
+        raise InputError(f"'{trajectory}' spans {span_s:g} s; at least 20 s are needed")
+    return track, along.shadows(track, min(step_s, span_s / 2.0), bodies, tuple(stations))

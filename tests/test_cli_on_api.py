@@ -112,6 +112,7 @@ CASES = [
     (["catalog", "show", "1", "--catalog", "{in}/cat.sqlite"], "catalog_show", {}),
     (["catalog", "remove", "1", "--catalog", "{in}/cat.sqlite"], "catalog_remove", {}),
     # trajectory files read back
+    (["shadow", "--trajectory", "{in}/good.oem"], "shadow_along", {}),
     (["convert", "{in}/good.oem", "{tmp}/good.csv", "--frame", "j2000-ecliptic"], "read_trajectory", {}),
     (["export", "--from", "{in}/good.oem", "--span", "6h", "--step", "1h", "--out", "{tmp}/x.csv"],
      "read_trajectory", {}),

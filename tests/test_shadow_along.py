@@ -124,3 +124,20 @@ def test_rotating_file_without_epoch_is_refused(tmp_path):
     p.write_text("{}")
     with pytest.raises(InputError):
         along.from_file(p)
+
+
+def test_the_call_gives_the_command_s_passes(exported, capsys):
+    """Seam: ``cr3bp.api.shadow_along`` (what ``librate shadow --trajectory`` calls) finds the
+    passes the command reports, to the second."""
+    from cr3bp import api
+    from cr3bp.time import frames
+    got = _shadow_json(capsys, ["shadow", "--trajectory", str(exported)])
+    track, sh = api.shadow_along(exported)
+    passes = sh.history.passes
+    assert len(passes) == len(got["passes"]) >= 2
+    for p, q in zip(passes, got["passes"]):
+        assert (p.body, p.kind) == (q["body"], q["kind"])
+        t = frames.epochs_from_texts([q["start_utc"][:-1]], "UTC")[0]
+        assert abs(p.start_tdb_s - t) < ONE_SECOND
+    with pytest.raises(InputError, match="step '1s' is 1 s"):
+        api.shadow_along(exported, step="1s")

@@ -341,22 +341,13 @@ def _visibility_table(vis):
 def _run_track(args, sysm, bodies, step_s, stations, epochs):
     """Eclipses and visibility along a trajectory file at its own epoch and frame."""
     import numpy as np
-    from cr3bp.operations import along
     from cr3bp.time import frames
-    track = along.from_file(args.trajectory, epoch=epochs[0] if epochs else None, system=sysm)
-    if sysm is not None and sysm.name != track.system.name:
-        from cr3bp.errors import InputError
-        raise InputError(f"--system {sysm.name}: the file '{args.trajectory}' is in {track.system.name}")
+    from cr3bp import api
+    common.progress(args, f"eclipses along {args.trajectory}...")
+    track, sh = api.shadow_along(args.trajectory, epoch=epochs[0] if epochs else None, system=sysm,
+                                 step=step_s, bodies=bodies, stations=stations)
     span_s = track.end_tdb_s - track.start_tdb_s
-    if span_s > 20 * 365.25 * 86400.0:
-        from cr3bp.errors import InputError
-        raise InputError(f"'{args.trajectory}' spans more than 20 years")
-    if span_s < 2 * step_s and span_s < 20.0:
-        from cr3bp.errors import InputError
-        raise InputError(f"'{args.trajectory}' spans {span_s:g} s; at least 20 s are needed")
     step = min(step_s, span_s / 2.0)
-    common.progress(args, f"eclipses along {args.trajectory} ({span_s / 86400.0:.4g} d)...")
-    sh = along.shadows(track, step, bodies, stations)
     t0, t1 = frames.epoch_to_text(np.array([track.start_tdb_s, track.end_tdb_s]), "UTC", 3)
     spec = track.spec
     model = {"model": TRACK_MODEL, "system": track.system.name, "trajectory": str(args.trajectory),
