@@ -1292,6 +1292,31 @@ def return_transfer(source, parking="parking earth 200km", *, system="earth-moon
     return design_return(src, alt, path=path, inclination_deg=inc, max_tof_days=tof, min_flyby_altitude_km=fb)
 
 
+def _route_inputs(sysm, nodelist, start, goal, objective, best, max_dv, max_tof, min_altitude, max_legs,
+                  through, avoid):
+    """The checked ends, route count and constraints of a route search (:func:`route`,
+    :func:`design_route`): (start node, goal node, best, Constraints)."""
+    from .transfers.nodes import find_node  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .transfers.search import Constraints  # lazy: heavy library (networkx, via cr3bp.transfers.search)
+    from .validate import quantity  # lazy: start-up: keeps cr3bp.api free of numpy
+    src, dst = find_node(nodelist.nodes, str(start)), find_node(nodelist.nodes, str(goal))
+    if src.id == dst.id:
+        raise InputError(f"start and goal name the same node ({src.name})")
+    _one_of("objective", objective, ("dv", "tof"))
+    k = _whole("best", best, 1, 1000)
+    dv = None if max_dv is None else sysm.mps(quantity("max_dv", _text(max_dv), "velocity", sysm, sign="nonnegative"))
+    tmax = None if max_tof is None else sysm.days(quantity("max_tof", _text(max_tof), "time", sysm,
+                                                           sign="nonnegative"))
+    alt = None if min_altitude is None else sysm.km(quantity("min_altitude", _text(min_altitude), "length", sysm,
+                                                              sign="nonnegative"))
+    legs = None if max_legs is None else _whole("max_legs", max_legs, 1, 1000)
+    if isinstance(through, str) or isinstance(avoid, str):
+        raise InputError("through= and avoid= are lists of node names")
+    constraints = Constraints(dv, tmax, legs, alt, tuple(find_node(nodelist.nodes, str(t)).id for t in through),
+                              tuple(find_node(nodelist.nodes, str(t)).id for t in avoid))
+    return src, dst, k, constraints
+
+
 def route(system, nodes, start, goal, *, objective="dv", best=1, max_dv=None, max_tof=None,
           min_altitude=None, max_legs=None, through=(), avoid=(), workers=1, catalog=None, tof=None,
           progress=None):
@@ -1348,26 +1373,13 @@ def route(system, nodes, start, goal, *, objective="dv", best=1, max_dv=None, ma
     """
     from .catalog import Catalog  # lazy: start-up: keeps cr3bp.api free of numpy
     from .transfers.graph import build_graph  # lazy: heavy library (networkx, via cr3bp.transfers.graph)
-    from .transfers.nodes import find_node, load_nodes  # lazy: start-up: keeps cr3bp.api free of numpy
-    from .transfers.search import Constraints, best_routes  # lazy: heavy library (networkx, via cr3bp.transfers.search)
+    from .transfers.nodes import load_nodes  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .transfers.search import best_routes  # lazy: heavy library (networkx, via cr3bp.transfers.search)
     from .validate import quantity  # lazy: start-up: keeps cr3bp.api free of numpy
     sysm = _as_system(system)
     nodelist = load_nodes(nodes, sysm)
-    src, dst = find_node(nodelist.nodes, str(start)), find_node(nodelist.nodes, str(goal))
-    if src.id == dst.id:
-        raise InputError(f"start and goal name the same node ({src.name})")
-    _one_of("objective", objective, ("dv", "tof"))
-    k = _whole("best", best, 1, 1000)
-    dv = None if max_dv is None else sysm.mps(quantity("max_dv", _text(max_dv), "velocity", sysm, sign="nonnegative"))
-    tmax = None if max_tof is None else sysm.days(quantity("max_tof", _text(max_tof), "time", sysm,
-                                                           sign="nonnegative"))
-    alt = None if min_altitude is None else sysm.km(quantity("min_altitude", _text(min_altitude), "length", sysm,
-                                                              sign="nonnegative"))
-    legs = None if max_legs is None else _whole("max_legs", max_legs, 1, 1000)
-    if isinstance(through, str) or isinstance(avoid, str):
-        raise InputError("through= and avoid= are lists of node names")
-    constraints = Constraints(dv, tmax, legs, alt, tuple(find_node(nodelist.nodes, str(t)).id for t in through),
-                              tuple(find_node(nodelist.nodes, str(t)).id for t in avoid))
+    src, dst, k, constraints = _route_inputs(sysm, nodelist, start, goal, objective, best, max_dv, max_tof,
+                                             min_altitude, max_legs, through, avoid)
     if workers is not None:
         workers = _whole("workers", workers, 1, 256)
     tof_days = None if tof is None else sysm.days(quantity("tof", _text(tof), "time", sysm, sign="positive"))
@@ -1533,26 +1545,10 @@ def design_route(system, nodes, start, goal, *, objective="dv", best=5, max_dv=N
     (stitching by multiple shooting): see :mod:`cr3bp.transfers.design`.
     """
     from .transfers.design import design_transfer  # lazy: heavy library (networkx, via cr3bp.transfers.design)
-    from .transfers.nodes import find_node  # lazy: start-up: keeps cr3bp.api free of numpy
-    from .transfers.search import Constraints  # lazy: heavy library (networkx, via cr3bp.transfers.search)
-    from .validate import quantity  # lazy: start-up: keeps cr3bp.api free of numpy
     sysm = _as_system(system)
     nodelist = _node_list(nodes, sysm)
-    src, dst = find_node(nodelist.nodes, str(start)), find_node(nodelist.nodes, str(goal))
-    if src.id == dst.id:
-        raise InputError(f"start and goal name the same node ({src.name})")
-    _one_of("objective", objective, ("dv", "tof"))
-    k = _whole("best", best, 1, 1000)
-    dv = None if max_dv is None else sysm.mps(quantity("max_dv", _text(max_dv), "velocity", sysm, sign="nonnegative"))
-    tmax = None if max_tof is None else sysm.days(quantity("max_tof", _text(max_tof), "time", sysm,
-                                                           sign="nonnegative"))
-    alt = None if min_altitude is None else sysm.km(quantity("min_altitude", _text(min_altitude), "length", sysm,
-                                                              sign="nonnegative"))
-    legs = None if max_legs is None else _whole("max_legs", max_legs, 1, 1000)
-    if isinstance(through, str) or isinstance(avoid, str):
-        raise InputError("through= and avoid= are lists of node names")
-    constraints = Constraints(dv, tmax, legs, alt, tuple(find_node(nodelist.nodes, str(t)).id for t in through),
-                              tuple(find_node(nodelist.nodes, str(t)).id for t in avoid))
+    src, dst, k, constraints = _route_inputs(sysm, nodelist, start, goal, objective, best, max_dv, max_tof,
+                                             min_altitude, max_legs, through, avoid)
     workers, scheduler, tof_days = _build_settings(sysm, workers, scheduler, tof)
     return _with_catalog(catalog, lambda cat: design_transfer(
         sysm, nodelist, src, dst, constraints, objective=objective, best=k, pareto=bool(pareto), stitch=bool(stitch),
