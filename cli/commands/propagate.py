@@ -75,21 +75,9 @@ MODELS = ("cr3bp", "bicircular")
 
 
 def _angle_rad(text, name):
-    """'45deg' or '0.785rad' -> radians; a bare number is refused (which unit was meant?)."""
-    import math
-
-    from cr3bp.errors import InputError
-    t = str(text).strip().lower()
-    for unit, factor in (("deg", math.pi / 180.0), ("rad", 1.0)):
-        if t.endswith(unit):
-            try:
-                v = float(t[:-len(unit)])
-            except ValueError:
-                break
-            if not math.isfinite(v):
-                raise InputError(f"{name} {text!r} must be finite")
-            return v * factor
-    raise InputError(f"{name} {text!r} is not an angle with a unit; give e.g. 45deg or 0.785rad")
+    """'45deg' or '0.785rad' -> radians, checked as cr3bp.propagate_state checks its sun_phase."""
+    from cr3bp.api import _angle_rad as angle_rad
+    return angle_rad(text, name)
 
 
 def _model(args, system):
