@@ -89,7 +89,6 @@ def parse_errors(nav_text, burn_text):
 
 def _inputs(args):
     """Every check of the user's values, before anything is computed or written."""
-    import re
     from cr3bp.io import export
     from cr3bp.errors import InputError
     from cr3bp.fidelity import model as fm
@@ -105,19 +104,8 @@ def _inputs(args):
     seed = common.whole_number("--seed", args.seed, 0, 999999999999)
     workers = common.workers(args)
     if args.scheduler is not None:
-        from cr3bp.operations.keeping import local_workers
-        sch = str(args.scheduler).strip()
-        try:
-            n_local, local = local_workers(sch), True
-        except ValueError:
-            n_local, local = None, False
-        if not local and not re.fullmatch(r"(tcp|tls|inproc|ws|wss)://\S+", sch):
-            raise InputError(f"--scheduler '{args.scheduler}' must be 'local', 'local:N' or an address such as "
-                             "tcp://10.0.0.5:8786")
-        if not local and workers is not None:
-            raise InputError("--workers goes with --scheduler local (a remote cluster has its own workers)")
-        if n_local is not None and workers is not None:
-            raise InputError(f"--scheduler '{sch}' sets the workers; leave out --workers")
+        from cr3bp.transfers.tasks import check_scheduler
+        check_scheduler(args.scheduler, workers)
     bodies = fm.parse_bodies(args.bodies)
     srp = parse_srp(args.srp)
     if export.span_periods(args.span) is None:   # a span in periods is read after the orbit's solve
