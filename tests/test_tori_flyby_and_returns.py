@@ -235,9 +235,18 @@ def test_scenario_return_from_a_torus_equals_connect(ring_return, tmp_path):
     p = tmp_path / "s.toml"
     p.write_text(SCENARIO)
     mission.run(mission.prepare(p), tmp_path / "out", catalog=Catalog(":memory:"), reduced=True)
-    best = json.loads((tmp_path / "out" / "route-home.json").read_text())["best"]
+    route = json.loads((tmp_path / "out" / "route-home.json").read_text())
+    best = route["best"]
     assert best["dv_total_mps"] == pytest.approx(ring_return["dv_mps"], rel=1e-9)
     assert best["legs"][0]["kind"] == "parking"
+    # the return's own numbers cross into the route JSON, the report and its figure
+    back = route["return"]
+    for key in ("dv_mps", "departure_dv_mps", "insertion_dv_mps", "tof_days", "perigee_altitude_km"):
+        assert back[key] == pytest.approx(ring_return[key], rel=1e-9), key
+    report = (tmp_path / "out" / "report.html").read_text()
+    assert "Return to the parking orbit" in report
+    assert f"{back['insertion_dv_mps']:.6g}"[:5] in report
+    assert (tmp_path / "out" / "return-home.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
 
 
 FLYBY_SCENARIO = f"""

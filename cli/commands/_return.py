@@ -80,11 +80,12 @@ def run(args, system, parking):
             # the torus drawn: its trajectory from the departure point over one stroboscopic time
             shown = dataclasses.replace(ret, orbit=SimpleNamespace(
                 system=system, period=target.stroboscopic_time, state=ret.maneuvers[0]["state_before"],
-                family=target.family, point=target.point, branch=target.branch))
+                family=target.family, point=target.point, branch=target.branch,
+                label="torus left (one stroboscopic time on it)"))
         save(plot_departure(shown), args.plot, f"{args.origin} -> {args.target}, {args.path} return: CR3BP total "
              f"dv {ret.dv_mps:.0f} m/s, time of flight {ret.tof_days:.2f} d; grey: the "
              + ("torus trajectory from the departure point over one stroboscopic period" if torus else
-                "orbit left") + " (labelled target orbit); rotating Earth-Moon frame, positions in km from the "
+                "orbit left") + "; rotating Earth-Moon frame, positions in km from the "
              "barycentre")
         common.progress(args, f"wrote {args.plot}")
     table = "\n".join(head) + "\n\n" + common.format_table(HEADERS, rows)

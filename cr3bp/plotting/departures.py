@@ -98,8 +98,10 @@ def plot_departure(dep, n_per_segment=800, summary=False):
        :meth:`matplotlib.axes.Axes.set_aspect`.
     """
     _, states = dep.trajectory(n_per_segment)
+    back = hasattr(dep, "perigee_altitude_km")     # a return (cr3bp.transfers.returns.Return)
+    d = dep.to_dict() if summary else {}
     return _draw(dep.system, dep.orbit, states, dep.maneuvers, dep.path,
-                 summary_lines(dep.to_dict()) if summary else None)
+                 (return_lines(d) if back else summary_lines(d)) if summary else None, back=back)
 
 
 def plot_departure_leg(leg, orbit, n_per_segment=800):
@@ -139,12 +141,13 @@ def plot_departure_leg(leg, orbit, n_per_segment=800):
     Tangential departure from a circular parking orbit: Vallado, *Fundamentals of
     Astrodynamics and Applications*, 4th ed., 2013, §6.3 (from memory).
     """
-    d = leg.details["departure"]
+    back = "return" in leg.details
+    d = leg.details["return" if back else "departure"]
     system = leg.system
     states = np.concatenate([propagate(system, s0, dt, t_eval=np.linspace(0.0, dt, n_per_segment)).states
                              for _, s0, dt in leg.segments])
     mans = [{"name": m.name, "dv_vector": m.dv, "position": m.position} for m in leg.maneuvers]
-    return _draw(system, orbit, states, mans, d["path"], summary_lines(d))
+    return _draw(system, orbit, states, mans, d["path"], return_lines(d) if back else summary_lines(d), back=back)
 
 
 def summary_lines(d):
@@ -194,7 +197,55 @@ def summary_lines(d):
     return lines
 
 
-def _draw(system, orbit, states, maneuvers, path, summary):
+def return_lines(d):
+    """Lines of a return's numbers, each naming its model: the burn that leaves the orbit, the
+    flyby (if any), the perigee burn onto the parking orbit, the speed and C3 on arrival, the
+    parking orbit's inclination, the total and the time of flight.
+
+    Parameters
+    ----------
+    d : dict
+        A return's :meth:`~cr3bp.transfers.returns.Return.to_dict` (``kind == "return"``).
+
+    Returns
+    -------
+    list of str
+
+    Raises
+    ------
+    KeyError
+        A dict without a return's keys.
+
+    Examples
+    --------
+    >>> d = {"path": "direct", "from": "halo L2 south C=3.046494", "to": "parking earth 200km",
+    ...      "departure_dv_mps": 833.4, "insertion_dv_mps": 3138.4, "arrival_speed_kms": 10.93,
+    ...      "c3_km2_s2": -1.92, "inclination_deg": 10.7, "flyby_altitude_km": None,
+    ...      "dv_mps": 3971.8, "tof_days": 5.25,
+    ...      "maneuvers": [{"name": "departure", "dv_mps": 833.4}, {"name": "insertion", "dv_mps": 3138.4}]}
+    >>> return_lines(d)[2]
+    'perigee burn onto parking earth 200km 3138.4 m/s (CR3BP)'
+
+    References
+    ----------
+    C3 = v^2 - 2 mu / r: Vallado, *Fundamentals of Astrodynamics and Applications*, 4th ed.,
+    2013, §2.6; tangential burn at perigee: ibid. §6.3 (both from memory).
+    """
+    burns = {m["name"]: m["dv_mps"] for m in d["maneuvers"]}
+    lines = [f"{d['path']} return from {d['from']}",
+             f"burn leaving the orbit {d['departure_dv_mps']:.1f} m/s (CR3BP)"]
+    if d.get("flyby_altitude_km") is not None:
+        lines.append(f"flyby burn {burns.get('flyby', 0.0):.1f} m/s at {d['flyby_altitude_km']:.0f} km "
+                     "over the Moon (CR3BP)")
+    lines += [f"perigee burn onto {d['to']} {d['insertion_dv_mps']:.1f} m/s (CR3BP)",
+              f"Earth-relative speed at perigee {d['arrival_speed_kms']:.3f} km/s (CR3BP)",
+              f"C3 on arrival {d['c3_km2_s2']:.2f} km²/s² (CR3BP, two-body about the Earth)",
+              f"inclination {d['inclination_deg']:.2f}° to the Moon's orbit plane (CR3BP)",
+              f"total {d['dv_mps']:.1f} m/s in {d['tof_days']:.2f} d (CR3BP)"]
+    return lines
+
+
+def _draw(system, orbit, states, maneuvers, path, summary, back=False):
     if hasattr(orbit, "stroboscopic_time"):
         # a torus: trajectories from eight points of its invariance circle over one
         # stroboscopic time each (longer arcs of an unstable torus drift off it), NaN between
@@ -203,11 +254,11 @@ def _draw(system, orbit, states, maneuvers, path, summary):
         gap = np.full((1, 6), np.nan)
         orb = np.concatenate([np.vstack([propagate(system, s0, T, t_eval=np.linspace(0.0, T, 300)).states[:, :6],
                                          gap]) for s0 in circle])
-        target = "target torus (arcs on it)"
+        target = "torus left (arcs on it)" if back else "target torus (arcs on it)"
     else:
         T = float(orbit.period)
         orb = propagate(system, orbit.state, T, t_eval=np.linspace(0.0, T, 600)).states
-        target = "target orbit"
+        target = getattr(orbit, "label", None) or ("orbit left" if back else "target orbit")
     fig, axes = new_figure(2, 2, size=(12.0, 11.0))
     fig.subplots_adjust(hspace=0.38, wspace=0.25)
     for row, zoom in ((0, False), (1, True)):
@@ -216,7 +267,8 @@ def _draw(system, orbit, states, maneuvers, path, summary):
             i, j = {"xy": (0, 1), "xz": (0, 2)}[view]
             box = zoom_box(orb, view) if zoom else None
             ax.plot(orb[:, i], orb[:, j], color="0.35", lw=1.0, label=target)
-            ax.plot(states[:, i], states[:, j], color="tab:blue", lw=1.2, label=f"{path} transfer")
+            ax.plot(states[:, i], states[:, j], color="tab:blue", lw=1.2,
+                    label=f"{path} {'return' if back else 'transfer'}")
             for m in maneuvers:
                 mk, col_ = MARKERS.get(m["name"], ("x", "k"))
                 dv = system.mps(np.linalg.norm(m["dv_vector"]))
@@ -232,12 +284,13 @@ def _draw(system, orbit, states, maneuvers, path, summary):
             else:
                 ax.set_aspect("equal", adjustable="datalim")
             axis_labels(ax, system, view=view)
-            title(ax, f"{view[0]}-{view[1]} view" + (", zoomed on the target orbit" if zoom else ""))
+            title(ax, f"{view[0]}-{view[1]} view" + (f", zoomed on the {target.split(' (')[0]}" if zoom else ""))
     legend_beside(axes[0, 1])
     if summary:
         fig.subplots_adjust(right=0.7)
         # beside the lower panels, as a legend of text-only entries (the caption fits the margin to it)
         legend_beside(axes[1, 1], handles=[Line2D([], [], linestyle="none", label=s) for s in summary],
-                      handlelength=0, handletextpad=0, fontsize=7.5, title="the departure's numbers",
+                      handlelength=0, handletextpad=0, fontsize=7.5,
+                      title="the return's numbers" if back else "the departure's numbers",
                       title_fontsize=8)
     return fig

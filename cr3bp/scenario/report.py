@@ -110,6 +110,11 @@ def _routes_section(routes, figures, views=None, stitched=None, orbits=None) -> 
             html += ("<h4>Departure from the parking orbit</h4><p>The route's first leg as designed in the "
                      "CR3BP (before the route is stitched; the stitched maneuvers are in the table below).</p>"
                      + R.kv_table(dep))
+        back = return_rows(r.get("return"))
+        if back:
+            html += ("<h4>Return to the parking orbit</h4><p>The route's last leg as designed in the "
+                     "CR3BP (before the route is stitched; the stitched maneuvers are in the table below).</p>"
+                     + R.kv_table(back))
         if r.get("maneuvers"):
             mans = r.get("maneuvers_labelled") or [dict(m, dv_design_mps=m["dv_mps"]) for m in r["maneuvers"]]
             keys = [k for k in (r.get("dv_models") or {}) if k.startswith("dv_exported_mps[")]
@@ -127,7 +132,7 @@ def _routes_section(routes, figures, views=None, stitched=None, orbits=None) -> 
             html += f"<p>{R.esc(r['note'])}</p>"
         if r.get("eclipses"):
             html += _route_eclipses(r["eclipses"])
-        for key in (f"departure-{name}", f"corridor-{name}", f"pareto-{name}"):
+        for key in (f"departure-{name}", f"return-{name}", f"corridor-{name}", f"pareto-{name}"):
             if key in figures:
                 html += R.figure(figures[key]["path"], figures[key]["caption"])
         if views is not None and (stitched or {}).get(name) is not None:
@@ -192,6 +197,57 @@ def departure_rows(d) -> list:
     rows += [("insertion burn Δv [m/s] (CR3BP)", burns["insertion"]["dv_mps"]),
              ("total Δv [m/s] (CR3BP)", d["dv_mps"]),
              ("time of flight, departure to insertion [d] (CR3BP)", d["tof_days"]),
+             ("optimised", "yes" if d["optimised"] else "no: feasible, the optimiser stopped before proving it least")]
+    return rows
+
+
+def return_rows(d) -> list:
+    """(label, value) rows of the return that ends a route, each label naming its model and
+    unit; [] for None (the route does not end with a return to a parking orbit).
+
+    Parameters
+    ----------
+    d : dict or None
+        The return leg's ``details["return"]``
+        (:meth:`cr3bp.transfers.returns.Return.to_dict`; a scenario route's ``return``).
+
+    Returns
+    -------
+    list of (str, object)
+
+    Raises
+    ------
+    KeyError
+        A return without its keys.
+
+    Examples
+    --------
+    >>> return_rows(None)
+    []
+
+    References
+    ----------
+    C3 = v^2 - 2 mu / r: Vallado, *Fundamentals of Astrodynamics and Applications*, 4th ed.,
+    2013, §2.6; tangential burn at perigee: ibid. §6.3 (both from memory).
+    """
+    if not d:
+        return []
+    burns = {m["name"]: m for m in d["maneuvers"]}
+    rows = [("path", d["path"]), ("from", d["from"]), ("to", f"{d['to']} (circular)"),
+            ("burn leaving the orbit Δv [m/s] (CR3BP)", d["departure_dv_mps"])]
+    if "flyby" in burns:
+        rows += [("flyby burn Δv [m/s] (CR3BP)", burns["flyby"]["dv_mps"]),
+                 ("flyby altitude over the Moon's mean radius [km] (CR3BP)", d["flyby_altitude_km"]),
+                 ("flyby time after leaving the orbit [d] (CR3BP)", burns["flyby"]["t_days"])]
+    rows += [("perigee burn onto the parking orbit Δv [m/s] (CR3BP)", d["insertion_dv_mps"]),
+             ("Earth-relative speed at perigee before the burn [km/s] (CR3BP, inertial axes)",
+              d["arrival_speed_kms"]),
+             ("C3 on arrival [km²/s²] (v² − 2μ/r about the Earth at perigee, CR3BP)", d["c3_km2_s2"]),
+             ("perigee altitude [km] (CR3BP, over the Earth's mean radius)", d["perigee_altitude_km"]),
+             ("inclination of the parking orbit [deg] (to the Moon's orbit plane; the CR3BP has no Earth "
+              "equator)", d["inclination_deg"]),
+             ("total Δv [m/s] (CR3BP)", d["dv_mps"]),
+             ("time of flight, leaving the orbit to the perigee burn [d] (CR3BP)", d["tof_days"]),
              ("optimised", "yes" if d["optimised"] else "no: feasible, the optimiser stopped before proving it least")]
     return rows
 

@@ -220,6 +220,9 @@ def design_transfers(plan, orbits, out, *, catalog=None, workers=None, scheduler
         departure = departure_leg(ranked[0])
         if departure is not None:   # the departure's numbers as designed (CR3BP), for the JSON and the report
             routes[name]["departure"] = departure.details["departure"]
+        back = return_leg(ranked[0])
+        if back is not None:        # the return's numbers as designed (CR3BP), for the JSON and the report
+            routes[name]["return"] = back.details["return"]
         routes[name]["labels"] = {str(k): v for k, v in label.items()}
         write_route_tables(plan, name, routes[name], out, st)
         headers, rows = trajectory_rows(st)
@@ -342,6 +345,16 @@ def _figures(plan, transfer, orbits, ranked, front, st, out):
             f"{plan.name}: transfer '{name}', its {d['path']} departure from {d['from']} as designed in the "
             "CR3BP (before the route is stitched), rotating Earth-Moon frame; below, zoomed on the orbit it "
             "inserts into; the box lists the departure's numbers, each with its model.")
+    back = return_leg(ranked[0])
+    if back is not None:
+        from ..plotting.departures import plot_departure_leg  # lazy: heavy library (matplotlib)
+        d = back.details["return"]
+        fig = plot_departure_leg(back, orbits[return_origin(transfer)])
+        figures[f"return-{name}"] = save_figures(
+            fig, out, f"return-{name}", formats,
+            f"{plan.name}: transfer '{name}', its {d['path']} return to {d['to']} as designed in the "
+            "CR3BP (before the route is stitched), rotating Earth-Moon frame; below, zoomed on the orbit it "
+            "leaves; the box lists the return's numbers, each with its model.")
     return figures
 
 
@@ -377,6 +390,71 @@ def departure_leg(route):
     if legs and legs[0].kind == "departure" and "departure" in (legs[0].details or {}):
         return legs[0]
     return None
+
+
+def return_leg(route):
+    """The last leg of ``route`` when it is a return to an Earth parking orbit
+    (:func:`cr3bp.transfers.returns.as_leg`), else None.
+
+    Parameters
+    ----------
+    route : cr3bp.transfers.search.Route
+        A ranked route.
+
+    Returns
+    -------
+    Leg or None
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from types import SimpleNamespace
+    >>> return_leg(SimpleNamespace(legs=[SimpleNamespace(kind="arrival", details={"return": {}})])).kind
+    'arrival'
+
+    References
+    ----------
+    Common practice (preliminary mission design outputs carry their model and a caution;
+    :mod:`cr3bp.cautions`).
+    """
+    legs = list(route.legs)
+    if legs and legs[-1].kind == "arrival" and "return" in (legs[-1].details or {}):
+        return legs[-1]
+    return None
+
+
+def return_origin(transfer: dict) -> str:
+    """The scenario name of the orbit a transfer's return leg leaves: the last ``via`` orbit,
+    else ``from``.
+
+    Parameters
+    ----------
+    transfer : dict
+        The ``[[transfers]]`` table.
+
+    Returns
+    -------
+    str
+
+    Raises
+    ------
+    KeyError
+        A transfer without ``from``.
+
+    Examples
+    --------
+    >>> return_origin({"from": "relay", "to": "parking earth 200km"})
+    'relay'
+
+    References
+    ----------
+    Common practice (preliminary mission design outputs carry their model and a caution;
+    :mod:`cr3bp.cautions`).
+    """
+    return (transfer.get("via") or [transfer["from"]])[-1]
 
 
 def departure_target(transfer: dict) -> str:
