@@ -1092,8 +1092,9 @@ def launch_window(target, window, parking="parking earth 200km", *, system="eart
     return le.launch_window(orb, pk[1], t0, t1, inclination_deg=inclination, max_tof_days=tof, progress=progress)
 
 
-def _angle_deg(name, value):
-    """An angle 0..180 deg from degrees (a number) or text with its unit (``28.5deg``, ``0.5rad``)."""
+def _angle_deg(name, value, lo=0.0, hi=180.0):
+    """An angle ``lo``..``hi`` deg (default 0..180) from degrees (a number) or text with its unit
+    (``28.5deg``, ``0.5rad``)."""
     if isinstance(value, (int, float)) and not isinstance(value, bool):
         v = float(value)
     else:
@@ -1106,14 +1107,15 @@ def _angle_deg(name, value):
                 except ValueError:
                     pass
                 break
-    if not 0.0 <= v <= 180.0:
-        raise InputError(f"{name} {value!r}: give an angle from 0deg to 180deg (a number: degrees; text with its "
-                         "unit, e.g. 28.5deg)")
+    if not lo <= v <= hi:
+        raise InputError(f"{name} {value!r}: give an angle from {lo:g}deg to {hi:g}deg (a number: degrees; text "
+                         "with its unit, e.g. 28.5deg)")
     return v
 
 
 def departure(target, parking="parking earth 200km", *, system="earth-moon", path="direct", inclination=None,
-              max_tof=None, min_flyby_altitude="100km", progress=None):
+              max_tof=None, min_flyby_altitude="100km", progress=None, epoch=None, equator_inclination=None,
+              launch_latitude=None):
     """The least-Δv departure found from a circular Earth parking orbit to an Earth-Moon periodic
     orbit or quasi-periodic torus, designed by optimisation in the CR3BP (``librate connect
     --path direct`` or ``--path lunar-flyby``).
@@ -1142,6 +1144,18 @@ def departure(target, parking="parking earth 200km", *, system="earth-moon", pat
         ``"100km"``; a float is in km), above 0 to 20 000 km.
     progress : callable(str), optional
         Messages of the torus solve (a torus request only).
+    epoch : str or float, optional
+        The departure date (ISO 8601, ``Z`` = UTC; or TDB seconds since J2000), to a periodic
+        orbit: it places the Earth's equator in the rotating frame (the Moon's DE421 ephemeris
+        at that instant), and ``.to_dict()`` adds ``departure_epoch`` (UTC) and
+        ``inclination_equator_deg`` (to the mean equator of J2000).
+    equator_inclination : str or float, optional
+        With ``epoch``: hold the parking orbit's inclination to the equator (0 to 180 deg).
+    launch_latitude : str or float, optional
+        With ``epoch``: a launch site's latitude (-90 to 90 deg); the inclination to the equator
+        is held at least its absolute value (``bounds_hit`` names ``launch-latitude`` when the
+        bound is active). At most one of ``inclination``, ``equator_inclination`` and
+        ``launch_latitude``.
 
     Returns
     -------
@@ -1178,16 +1192,25 @@ def departure(target, parking="parking earth 200km", *, system="earth-moon", pat
     from .orbits.orbit import PeriodicOrbit  # lazy: start-up: keeps cr3bp.api free of numpy
     sysm, alt, inc, tof, fb = _parking_transfer_inputs(target, parking, system, path, inclination, max_tof,
                                                        min_flyby_altitude, "parking")
+    eq = None if equator_inclination is None else _angle_deg("equator_inclination", equator_inclination)
+    lat = None if launch_latitude is None else _angle_deg("launch_latitude", launch_latitude, -90.0, 90.0)
     if _torus_end(target):
+        if epoch is not None or eq is not None or lat is not None:
+            raise InputError("epoch, equator_inclination and launch_latitude date a departure to a periodic "
+                             "orbit; a departure to a torus is not dated yet")
         from .tori import request as treq  # lazy: heavy library (scipy, via cr3bp.tori)
         from .tori.departure import design_torus_departure  # lazy: heavy library (scipy, via cr3bp.tori)
         torus_ = treq.solve(sysm, target, progress=progress) if isinstance(target, str) else target
         return design_torus_departure(torus_, alt, path=path, inclination_deg=inc, max_tof_days=tof,
                                       min_flyby_altitude_km=fb)
     from .transfers.departure import design_departure  # lazy: heavy library (scipy, via cr3bp.transfers)
+    if epoch is not None or eq is not None or lat is not None:
+        from .transfers.departure import dating  # lazy: the ephemeris, only for a dated departure
+        dating(sysm, epoch, inc, eq, lat)       # every refusal of the dated options, before the orbit is solved
     orb = target if isinstance(target, PeriodicOrbit) else orbit(sysm, target)
     return design_departure(orb, alt, path=path, inclination_deg=inc, max_tof_days=tof,
-                            min_flyby_altitude_km=fb)
+                            min_flyby_altitude_km=fb, epoch=epoch, equator_inclination_deg=eq,
+                            launch_latitude_deg=lat)
 
 
 def _parking_transfer_inputs(target, parking, system, path, inclination, max_tof, min_flyby_altitude, what):

@@ -721,7 +721,13 @@ def value_cases():
     for name in ("reversed", "launch-bad", "launch-alone", "path-bogus"):
         add(f"graph-nodes-le-{name}", ["graph", "build", EM, f"--nodes={{in}}/le-{name}.toml", "--workers=1",
                                        "--no-catalog"])
-    add("connect-epoch-with-direct", dep + ["--path=direct", "--epoch=2027-03-01T00:00:00Z"])
+    add("connect-launch-latitude-without-epoch", dep + ["--path=direct", "--launch-latitude=28.5deg"])
+    add("connect-equator-inclination-and-inclination", dep + ["--path=direct", "--epoch=2027-03-01T00:00:00Z",
+                                                              "--equator-inclination=51.6deg", "--inclination=5deg"])
+    add("connect-launch-latitude-out-of-range", dep + ["--path=lunar-flyby", "--epoch=2027-03-01T00:00:00Z",
+                                                       "--launch-latitude=91deg"])
+    add("connect-epoch-on-return", ["connect", EM, "--from=halo L2 south resonance=9:2", "--to=parking earth 200km",
+                                    "--path=direct", "--epoch=2027-03-01T00:00:00Z"])
     add("connect-epoch-without-path", dep + ["--epoch=2027-03-01T00:00:00Z"])
     # connect with a torus at one end or both: refused before any torus is solved
     TQ1 = "--to=quasi-halo around halo L1 north az=10000km amplitude=300km"

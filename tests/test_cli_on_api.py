@@ -241,7 +241,14 @@ def test_connect_and_route_get_the_options(capsys, monkeypatch, inputs):
     _, args, kw = calls[-1]
     assert args == (ORBIT, "parking earth 300km")
     assert kw.pop("path") == "lunar-flyby"
+    assert {k: kw.pop(k) for k in ("epoch", "equator_inclination", "launch_latitude")} == {
+        "epoch": None, "equator_inclination": None, "launch_latitude": None}
     assert kw == pytest.approx({"inclination": 28.5, "max_tof": 20.0, "min_flyby_altitude": 200.0}, rel=1e-12)
+    main(["connect", *EM, "--from", "parking earth 300km", "--to", HALO, "--path", "direct",
+          "--epoch", "2031-03-01T00:00:00Z", "--launch-latitude", "-28.5deg", "--quiet"])
+    kw = calls[-1][2]
+    assert (kw["epoch"], kw["launch_latitude"], kw["equator_inclination"], kw["inclination"]) == (
+        "2031-03-01T00:00:00Z", -28.5, None, None)
     monkeypatch.setattr(api, "design_route", _marked("design_route", calls))
     main(["route", *EM, "--nodes", str(inputs / "nodes.toml"), "--from", "p0", "--to", "p1", "--workers", "1",
           "--no-catalog", "--max-dv", "900m/s", "--max-tof", "9d", "--best", "2", "--pareto", "--objective", "tof",

@@ -32,12 +32,50 @@ def add_arguments(p):
     g.add_argument("--inclination", default=None, metavar="ANGLE",
                    help="inclination of the parking orbit to the Moon's orbit plane (the model's x-y plane), "
                         "e.g. 28.5deg (default: free). The CR3BP has no Earth equator: the equator is "
-                        "inclined 18.3-28.6 deg to the Moon's orbit plane, depending on the date")
+                        "inclined 18.3-28.6 deg to the Moon's orbit plane, depending on the date; with --epoch, "
+                        "see --equator-inclination and --launch-latitude")
+    g.add_argument("--launch-latitude", default=None, metavar="ANGLE",
+                   help="--path direct or lunar-flyby to a periodic orbit, with --epoch: a launch site's "
+                        "latitude, e.g. 28.5deg: the parking orbit's inclination to the Earth's equator is held "
+                        "at least its absolute value (free when the free design is already above it)")
+    g.add_argument("--equator-inclination", default=None, metavar="ANGLE",
+                   help="--path direct or lunar-flyby to a periodic orbit, with --epoch: hold the parking "
+                        "orbit's inclination to the Earth's mean equator of J2000, e.g. 51.6deg")
     from . import _low_energy
     _low_energy.add_arguments(g)
 
 
-def _angle_deg(text):
+def refuse_dated(args, why):
+    """--launch-latitude and --equator-inclination apply to a dated direct or flyby departure to a
+    periodic orbit only: refused elsewhere, ``why`` naming the case."""
+    from cr3bp.errors import InputError
+    for opt in ("launch_latitude", "equator_inclination"):
+        if getattr(args, opt, None) is not None:
+            raise InputError(f"--{opt.replace('_', '-')} holds a direct or lunar-flyby departure's plane to the "
+                             f"Earth's equator (with --epoch); it does not apply {why}")
+
+
+def dated(args):
+    """(epoch text or None, equator inclination deg or None, launch latitude deg or None) of a
+    direct or flyby departure, every refusal first."""
+    from cr3bp.errors import InputError
+    eq = None if args.equator_inclination is None else _angle_deg(args.equator_inclination, "--equator-inclination")
+    lat = None if args.launch_latitude is None else _angle_deg(args.launch_latitude, "--launch-latitude", -90.0, 90.0)
+    given = [o for o, v in (("--inclination", args.inclination), ("--equator-inclination", eq),
+                            ("--launch-latitude", lat)) if v is not None]
+    if (eq is not None or lat is not None) and args.epoch is None:
+        raise InputError(f"{given[-1]} needs --epoch (the departure date): the Earth's equator turns in the "
+                         "Earth-Moon rotating frame once a month")
+    if len(given) > 1:
+        raise InputError(f"{' and '.join(given)} each hold the parking orbit's plane; give at most one")
+    if args.epoch is not None:
+        from cr3bp.time.frames import epoch_from_text, secondary_state  # lazy: the ephemeris, dated departures only
+        from cr3bp.systems import system as _system
+        secondary_state(_system("earth-moon"), epoch_from_text(args.epoch))  # outside the ephemeris: refused now
+    return args.epoch, eq, lat
+
+
+def _angle_deg(text, option="--inclination", lo=0.0, hi=180.0):
     from cr3bp.errors import InputError
     t = text.strip().lower()
     for unit, f in (("deg", 1.0), ("°", 1.0), ("rad", 57.29577951308232)):
@@ -46,10 +84,10 @@ def _angle_deg(text):
                 v = float(t[: -len(unit)]) * f
             except ValueError:
                 break
-            if 0.0 <= v <= 180.0:
+            if lo <= v <= hi:
                 return v
             break
-    raise InputError(f"--inclination {text!r}: give an angle with its unit from 0deg to 180deg (e.g. 28.5deg)")
+    raise InputError(f"{option} {text!r}: give an angle with its unit from {lo:g}deg to {hi:g}deg (e.g. 28.5deg)")
 
 
 def check(args, system, parking, returning=False):
@@ -99,18 +137,17 @@ def run(args, system, parking, to_parking=None):
     if args.path == "low-energy":
         from . import _low_energy
         return _low_energy.run(args, system, parking)
-    if getattr(args, "epoch", None) is not None:
-        from cr3bp.errors import InputError
-        raise InputError(f"--epoch dates a low-energy transfer; it does not apply with --path {args.path}")
     from cr3bp import api
     from . import _tube_options as to
     alt, tof, inc, fb = check(args, system, parking)
+    epoch, eq, lat = dated(args)
     orbit = to.orbit_from_request(system, args.target, args)
     how = ("two-body first guesses" if args.path == "direct" else
            "first guesses from a scan of lunar periapsis states (a minute or more)")
     common.progress(args, f"librate connect: designing a {args.path} departure from {args.origin} "
                     f"({how}, then optimisation in the CR3BP)...")
-    dep = api.departure(orbit, args.origin, path=args.path, inclination=inc, max_tof=tof, min_flyby_altitude=fb)
+    dep = api.departure(orbit, args.origin, path=args.path, inclination=inc, max_tof=tof, min_flyby_altitude=fb,
+                        epoch=epoch, equator_inclination=eq, launch_latitude=lat)
     d = dep.to_dict()
     rows = [[m["name"], m["t_days"], m["dv_mps"], *m["position_km"]] for m in d["maneuvers"]]
     fo = dep.details.get("first_order")
@@ -135,6 +172,13 @@ def run(args, system, parking, to_parking=None):
     if dep.flyby_altitude_km is not None:
         head.insert(3, f"lunar flyby altitude {dep.flyby_altitude_km:.1f} km over the Moon's mean radius "
                        f"(CR3BP; at least {fb:g} km asked)")
+    if "inclination_equator_deg" in d:
+        bound = ("" if lat is None else
+                 f"; launch-site latitude {lat:g} deg: " + ("the bound holds it there" if "launch-latitude" in
+                                                            d["bounds_hit"] else "above it, free"))
+        head.insert(-1, f"departure {d['departure_epoch']}: parking-orbit inclination "
+                        f"{d['inclination_equator_deg']:.2f} deg to the Earth's mean equator of J2000 (the CR3BP "
+                        f"design placed by the Moon's DE421 ephemeris at that date){bound}")
     head.append(f"check: forward re-propagation of the transfer closes on each burn within "
                 f"{dep.details['closure_km']:.2e} km")
     if args.plot:

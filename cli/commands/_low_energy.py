@@ -12,7 +12,10 @@ def add_arguments(g):
                    help="--path low-energy: the launch date (ISO 8601; Z = UTC, or a trailing TDB/TT/TAI/UTC): "
                         "the Sun's phase at the departure burn is the date's. Without it the Sun's phase is "
                         "searched over a full synodic month, which holds every Sun-Earth-Moon geometry a year "
-                        "of launch dates brings in the bicircular model")
+                        "of launch dates brings in the bicircular model. --path direct or lunar-flyby to a "
+                        "periodic orbit: the departure date, which places the Earth's equator in the rotating "
+                        "frame (the inclination to it is reported; --launch-latitude and --equator-inclination "
+                        "need it)")
     g.add_argument("--window", default=None, metavar="START/END",
                    help="--path low-energy: a launch window, two ISO 8601 dates joined by '/' (at most two years "
                         "apart): the Sun's phase is searched with no date, then each date of the window on which "
@@ -28,6 +31,7 @@ def check(args, system, parking):
     from cr3bp.time.frames import epoch_from_text
     from cr3bp.transfers.low_energy import MAX_TOF_DAYS, MIN_TOF_DAYS
     from . import _departure
+    _departure.refuse_dated(args, "with --path low-energy")
     given = args.max_tof is not None
     alt, tof, inc, _ = _departure.check(args, system, parking)     # (the flyby altitude: not this path)
     if not given:

@@ -15,7 +15,9 @@ def run(args, system, parking):
         raise InputError(f"--path low-energy designs a departure from a parking orbit; a return to "
                          f"{args.target!r} takes --path direct or --path lunar-flyby")
     if getattr(args, "epoch", None) is not None:
-        raise InputError(f"--epoch dates a low-energy transfer; it does not apply with --path {args.path}")
+        raise InputError(f"--epoch dates a departure from a parking orbit; it does not apply to a return "
+                         f"(--path {args.path} to {args.target!r})")
+    depcli.refuse_dated(args, f"to a return (to {args.target!r})")
     if args.optimise:
         raise InputError("--optimise designs transfers between periodic orbits; a return to a parking orbit "
                          "takes --path alone")

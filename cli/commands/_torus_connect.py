@@ -38,7 +38,9 @@ def run(args, system, pa, pb, t_max):
                          f"insertion point free over the torus); manifold legs through periapsis of tori "
                          f"are not built yet ({args.origin!r} -> {args.target!r})")
     if args.epoch is not None:
-        raise InputError("--epoch dates a low-energy transfer; give it with --path low-energy")
+        raise InputError("--epoch dates a departure from a parking orbit; give it with --path")
+    from . import _departure as depcli
+    depcli.refuse_dated(args, "to a connection between a torus and an orbit")
     if args.map:
         raise InputError("--map draws the periapsis map of a parking-orbit leg; one end must be 'parking ...'")
     if args.arrival_within is not None:
@@ -137,7 +139,9 @@ def _departure(args, system, parking, spec):
         raise InputError(f"--path {args.path} to a torus is not built yet; to a torus, --path direct or "
                          "--path lunar-flyby")
     if getattr(args, "epoch", None) is not None:
-        raise InputError(f"--epoch dates a low-energy transfer; it does not apply with --path {args.path}")
+        raise InputError(f"--epoch: a departure to a torus is not dated yet (--path {args.path}); dated "
+                         "departures go to periodic orbits")
+    depcli.refuse_dated(args, "to a torus (a dated departure goes to a periodic orbit)")
     alt, tof, inc, fb = depcli.check(args, system, parking)
     from cr3bp import api
     from cr3bp.tori import request as treq

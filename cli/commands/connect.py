@@ -127,12 +127,14 @@ def run(args):
     if any(_torus_connect.ends(args)):
         return _torus_connect.run(args, system, pa, pb, t_max)
     if args.optimise:
+        _departure.refuse_dated(args, "to --optimise (transfers between periodic orbits)")
         return _optimise.run(args, system, pa, pb, t_max)
     _optimise.check_unused(args)
     if args.path is not None:
         return _departure.run(args, system, pa, pb)
     if args.epoch is not None:
-        raise InputError("--epoch dates a low-energy transfer; give it with --path low-energy")
+        raise InputError("--epoch dates a departure from a parking orbit; give it with --path")
+    _departure.refuse_dated(args, "without --path")
     within_km = None
     if args.arrival_within is not None:
         within_km = units.length(args.arrival_within, system)

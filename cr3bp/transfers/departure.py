@@ -57,8 +57,14 @@ their two-body cost are optimised, and the cheapest result is kept.
 Inclination: the CR3BP has no Earth equator; the inclination reported and constrained is
 that of the parking orbit to the Moon's orbit plane (the model's x-y plane). The Earth's
 equator is inclined 18.3-28.6 degrees to that plane over the 18.6-year nodal cycle (common
-practice), so the inclination to the equator depends on the date, which this model does not
-carry.
+practice), and it turns in the rotating frame once a month, so the inclination to the equator
+depends on the date. Given the departure date (``epoch``), the equator's pole is placed on the
+rotating axes by the Moon's DE421 ephemeris at that instant
+(:func:`cr3bp.transfers.departure_common.equator_pole`): the inclination to the mean equator of
+J2000 is reported, and may be held (``equator_inclination_deg``) or bounded below by a launch
+site's latitude (``launch_latitude_deg``: designed free, and again with the inclination at the
+bound only if the free design lies below it). The design itself stays the CR3BP's: the date
+only orients it.
 """
 
 from __future__ import annotations
@@ -81,6 +87,7 @@ from ..tubes.manifolds import describe
 from .departure_common import ATOL, GUESS_ANGLE_DEG, RTOL  # noqa: F401 - re-exported
 from .departure_common import Periapsis as _Periapsis
 from .departure_common import lambert_arrival as _lambert_arrival
+from .departure_common import equator_pole, inclination_to
 from .departure_common import newton as _newton
 from .departure_common import perigee_summary as _perigee_summary
 from .departure_common import plane_normal as _plane_normal  # noqa: F401 - old name
@@ -282,7 +289,19 @@ class Departure:
             "departure_state": self.departure_state.tolist(),
             "position_frame": "Earth-Moon rotating frame, origin at the barycentre",
             "details": _plain(self.details),
+            **self._dated_dict(),
         }
+
+    def _dated_dict(self) -> dict:
+        """The dated departure's keys (its epoch and the inclination to the Earth's equator), or {}."""
+        d = self.details.get("dated")
+        if not d:
+            return {}
+        from .low_energy import iso_utc  # lazy: the time scales, only for a dated departure
+        return {"departure_epoch": iso_utc(d["epoch_tdb_s"]),
+                "inclination_equator_deg": d["inclination_equator_deg"],
+                "inclination_equator_reference": d["equator_reference"],
+                "launch_latitude_deg": d["launch_latitude_deg"]}
 
 
 def _describe(orbit):
@@ -329,12 +348,15 @@ class _OrbitPoints:
 # ---- the transfer as a function of the unknowns -----------------------------------------
 
 class _Problem:
-    def __init__(self, orbit, altitude_km, inclination_deg, path, min_flyby_km, max_tof):
+    def __init__(self, orbit, altitude_km, inclination_deg, path, min_flyby_km, max_tof, pole=None):
         s = orbit.system
         self.system, self.orbit, self.path = s, orbit, path
         self.points = _OrbitPoints(orbit)
         self.r_park = (s.primary.radius_km + altitude_km) / s.length_km
         self.inc = None if inclination_deg is None else math.radians(inclination_deg)
+        # the pole the inclination is held to: None, the model's z (the Moon's orbit plane);
+        # else a unit vector on the rotating axes (the Earth's equator pole of a dated departure)
+        self.pole = None if pole is None else np.asarray(pole, dtype=float)
         self.r_fb = None if min_flyby_km is None else (s.secondary.radius_km + min_flyby_km) / s.length_km
         self.max_tof = max_tof
         r_e, r_m = s.radii
@@ -403,7 +425,7 @@ class _Problem:
             return np.full(n, 1.0)
         out = [(e["perigee"]["radius"] - self.r_park) * 10.0]
         if self.inc is not None:
-            out.append(math.radians(e["perigee"]["inclination_deg"]) - self.inc)
+            out.append(_incl(self.system, e["s_p"], self.pole) - self.inc)
         return np.array(out)
 
     def ineq(self, z):
@@ -427,7 +449,7 @@ def _direct_guesses(pb: _Problem):
             if tof > pb.max_tof:
                 continue
             try:
-                dv1, v2, rel = _lambert_arrival(s, pb.r_park, st[:3], tof, pb.inc)
+                dv1, v2, rel = _lambert_arrival(s, pb.r_park, st[:3], tof, pb.inc, pb.pole)
             except (InputError, NoSolutionError):
                 continue
             v_rot = v2 - np.array([-rel[1], rel[0], 0.0])
@@ -580,10 +602,11 @@ def _w(rel):
     return np.array([-rel[1], rel[0], 0.0])
 
 
-def _incl(system, s_p):
-    rel, vin = _relative(system, s_p, 0)
-    h = np.cross(rel, vin)
-    return math.acos(max(-1.0, min(1.0, h[2] / np.linalg.norm(h))))
+def _incl(system, s_p, pole=None):
+    return inclination_to(system, s_p, _Z if pole is None else pole)
+
+
+_Z = np.array([0.0, 0.0, 1.0])
 
 
 class _FlybyShooting:
@@ -732,7 +755,7 @@ class _FlybyShooting:
         out.append(float(p @ v_pre))
         out.append(float(p @ v_post))
         if pb.inc is not None:
-            out.append(_incl(pb.system, e["s_p"]) - pb.inc)
+            out.append(_incl(pb.system, e["s_p"], pb.pole) - pb.inc)
         return np.array(out)
 
     def eq_jac(self, x):
@@ -754,7 +777,8 @@ class _FlybyShooting:
             for k in range(6):          # the inclination of the perigee state: central differences
                 d = np.zeros(6)
                 d[k] = 1e-7
-                g[k] = (_incl(self.pb.system, e["s_p"] + d) - _incl(self.pb.system, e["s_p"] - d)) / 2e-7
+                g[k] = (_incl(self.pb.system, e["s_p"] + d, self.pb.pole)
+                        - _incl(self.pb.system, e["s_p"] - d, self.pb.pole)) / 2e-7
             J[7] = g @ dsp
         return J
 
@@ -898,6 +922,8 @@ def _surface_clear(pb, ms, x):
 def design_departure(orbit, altitude_km: float = 200.0, *, path: str = "direct",
                      inclination_deg: float | None = None, min_flyby_altitude_km: float = 100.0,
                      max_tof_days: float | None = None, guesses: int | None = None,
+                     epoch=None, equator_inclination_deg: float | None = None,
+                     launch_latitude_deg: float | None = None,
                      _allow_unfinished: bool = False) -> Departure:
     """The least-Δv departure found from a circular parking orbit about the Earth to ``orbit``.
 
@@ -918,6 +944,20 @@ def design_departure(orbit, altitude_km: float = 200.0, *, path: str = "direct",
         longer flights; the result's ``details["bounds_hit"]`` says whether the bound is active).
     guesses : int, optional
         First guesses optimised (default GUESSES_OPTIMISED, or FLYBY_GUESSES_OPTIMISED).
+    epoch : str or float, optional
+        The departure date (ISO 8601 text, ``Z`` = UTC, or TDB seconds since J2000). It places
+        the Earth's equator in the rotating frame (the Moon's DE421 ephemeris at that instant,
+        :func:`cr3bp.transfers.departure_common.equator_pole`): the result then reports the
+        parking orbit's inclination to the equator (``inclination_equator_deg``).
+    equator_inclination_deg : float, optional
+        Hold the parking orbit's inclination to the Earth's mean equator of J2000 (needs
+        ``epoch``; not with ``inclination_deg``).
+    launch_latitude_deg : float, optional
+        A launch site's latitude: the parking orbit's inclination to the equator is held at least
+        its absolute value (a site reaches no lower inclination without a plane change, common
+        practice). Designed free first; if the free design's inclination is lower, designed
+        again with the inclination at the bound (``bounds_hit`` then names ``launch-latitude``).
+        Needs ``epoch``; not with the other inclinations.
 
     Returns
     -------
@@ -956,15 +996,108 @@ def design_departure(orbit, altitude_km: float = 200.0, *, path: str = "direct",
     altitude_km = validate.number_in("parking altitude (km)", altitude_km, 100.0, 50_000.0)
     if inclination_deg is not None:
         inclination_deg = validate.number_in("inclination (deg)", inclination_deg, 0.0, 180.0)
+    epoch_tdb_s, pole = dating(system, epoch, inclination_deg, equator_inclination_deg, launch_latitude_deg)
+    if equator_inclination_deg is not None:
+        equator_inclination_deg = validate.number_in("inclination to the equator (deg)", equator_inclination_deg,
+                                                     0.0, 180.0)
+    if launch_latitude_deg is not None:
+        launch_latitude_deg = validate.number_in("launch-site latitude (deg)", launch_latitude_deg, -90.0, 90.0)
     if max_tof_days is None:
         max_tof_days = FLYBY_MAX_TOF_DAYS if path == "lunar-flyby" else MAX_TOF_DAYS
     max_tof_days = validate.number_in("maximum time of flight (d)", max_tof_days, 1.0, 400.0)
     if path == "lunar-flyby":
         min_flyby_altitude_km = validate.number_in("minimum flyby altitude (km)", min_flyby_altitude_km,
                                                    0.0, 20_000.0, open_lo=True)
+    kw = dict(path=path, min_flyby_altitude_km=min_flyby_altitude_km,
+              max_tof_days=max_tof_days, guesses=guesses, _allow_unfinished=_allow_unfinished)
+    if pole is not None:
+        # a dated departure: designed as asked (free, or the equator inclination held), then
+        # against a launch site's latitude the bound applied only where the free design is below it
+        if equator_inclination_deg is not None:
+            dep = _design(orbit, altitude_km, equator_inclination_deg, pole, **kw)
+        else:               # free, or held to the Moon's orbit plane
+            dep = _design(orbit, altitude_km, inclination_deg, None, **kw)
+        lat = None if launch_latitude_deg is None else abs(float(launch_latitude_deg))
+        if lat is not None and math.degrees(inclination_to(system, dep.departure_state, pole)) < lat - 1e-6:
+            dep = _design(orbit, altitude_km, lat, pole, **kw)
+            dep.details["bounds_hit"] = list(dep.details.get("bounds_hit") or []) + ["launch-latitude"]
+        inc_eq = math.degrees(inclination_to(system, dep.departure_state, pole))
+        dep.details["dated"] = {"epoch_tdb_s": float(epoch_tdb_s),
+                                "inclination_equator_deg": inc_eq,
+                                "launch_latitude_deg": launch_latitude_deg,
+                                "equator_reference": "the Earth's mean equator of J2000 (EME2000), placed in the "
+                                                     "rotating frame by the Moon's DE421 ephemeris at the epoch"}
+        return dep
+    return _design(orbit, altitude_km, inclination_deg, None, **kw)
+
+
+def dating(system, epoch, inclination_deg, equator_inclination_deg, launch_latitude_deg):
+    """The departure date and the Earth's equator pole on its rotating axes, every refusal of
+    the dated options of :func:`design_departure` first.
+
+    Parameters
+    ----------
+    system : System
+        Earth–Moon, dimensional.
+    epoch : str, float or None
+        ISO 8601 text (``Z`` = UTC) or TDB seconds since J2000.
+    inclination_deg, equator_inclination_deg, launch_latitude_deg : float or None
+        At most one given; the last two need ``epoch``.
+
+    Returns
+    -------
+    (float, numpy.ndarray) or (None, None)
+        TDB seconds since J2000 and the unit pole (:func:`equator_pole`); (None, None) undated.
+
+    Raises
+    ------
+    InputError
+        An option that needs ``epoch`` without it, two plane conditions, a date the ephemeris
+        does not cover or text that is not a date.
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> dating(system("earth-moon"), None, None, None, None)
+    (None, None)
+    >>> dating(system("earth-moon"), None, None, None, 28.5)
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: launch_latitude_deg 28.5: needs the departure epoch (epoch=...): the Earth's equator turns in the Earth-Moon rotating frame once a month
+
+    References
+    ----------
+    Common practice (a launch site reaches no inclination below its latitude without a plane
+    change).
+    """
+    if epoch is None:
+        for name, v in (("equator_inclination_deg", equator_inclination_deg),
+                        ("launch_latitude_deg", launch_latitude_deg)):
+            if v is not None:
+                raise InputError(f"{name} {v}: needs the departure epoch (epoch=...): the Earth's equator "
+                                 "turns in the Earth-Moon rotating frame once a month")
+        return None, None
+    given = [n for n, v in (("inclination_deg", inclination_deg), ("equator_inclination_deg", equator_inclination_deg),
+                            ("launch_latitude_deg", launch_latitude_deg)) if v is not None]
+    if len(given) > 1:
+        raise InputError(f"{' and '.join(given)}: each holds the parking orbit's plane; give at most one")
+    if isinstance(epoch, str):
+        from ..time.frames import epoch_from_text  # lazy: the time scales, only for a dated departure
+        epoch_tdb_s = epoch_from_text(epoch)
+    else:
+        epoch_tdb_s = validate.number_in("epoch (TDB s since J2000)", epoch, -1e10, 1e10)
+    return epoch_tdb_s, equator_pole(system, epoch_tdb_s)
+
+
+def _design(orbit, altitude_km, inclination_deg, pole, *, path, min_flyby_altitude_km, max_tof_days,
+            guesses, _allow_unfinished):
+    """The design of :func:`design_departure` on checked inputs, the inclination held to
+    ``pole`` (None: the model's z axis)."""
+    system = orbit.system
     t_start = time.perf_counter()
     pb = _Problem(orbit, altitude_km, inclination_deg, path,
-                  min_flyby_altitude_km if path == "lunar-flyby" else None, max_tof_days / system.days(1.0))
+                  min_flyby_altitude_km if path == "lunar-flyby" else None, max_tof_days / system.days(1.0),
+                  pole=pole)
     if path == "lunar-flyby":
         return _design_flyby(pb, FLYBY_GUESSES_OPTIMISED if guesses is None else guesses, t_start)
     guesses = GUESSES_OPTIMISED if guesses is None else guesses

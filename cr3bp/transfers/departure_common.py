@@ -239,8 +239,9 @@ class Periapsis:
         return t_j + dt, np.array(s)
 
 
-def plane_normal(u, inc):
-    """A unit normal perpendicular to ``u`` whose inclination to z is closest to ``inc``.
+def plane_normal(u, inc, pole=None):
+    """A unit normal perpendicular to ``u`` whose inclination to ``pole`` (default z) is closest
+    to ``inc``.
 
     Parameters
     ----------
@@ -248,6 +249,9 @@ def plane_normal(u, inc):
         Unit vector in the plane.
     inc : float or None
         Inclination (rad); None: the normal closest to +z.
+    pole : numpy.ndarray, shape (3,), optional
+        Unit pole the inclination is measured from (rotating axes; default the model's z axis,
+        the normal of the Moon's orbit plane).
 
     Returns
     -------
@@ -278,11 +282,12 @@ def plane_normal(u, inc):
     b = np.cross(u, a)
     phis = np.linspace(0.0, math.pi, 721)
     ns = np.cos(phis)[:, None] * a + np.sin(phis)[:, None] * b
-    k = int(np.argmin(np.abs(np.arccos(np.clip(ns[:, 2], -1, 1)) - inc)))
+    axis = ns[:, 2] if pole is None else ns @ np.asarray(pole, dtype=float)
+    k = int(np.argmin(np.abs(np.arccos(np.clip(axis, -1, 1)) - inc)))
     return ns[k]
 
 
-def lambert_arrival(system, r_park, target_pos, tof, inc):
+def lambert_arrival(system, r_park, target_pos, tof, inc, pole=None):
     """Two-body (Earth) arc from a perigee ``GUESS_ANGLE_DEG`` before ``target_pos``.
 
     Parameters
@@ -296,6 +301,8 @@ def lambert_arrival(system, r_park, target_pos, tof, inc):
         Time of flight (TU).
     inc : float or None
         Inclination of the arc's plane (rad), or None (closest to the x-y plane, prograde).
+    pole : numpy.ndarray, shape (3,), optional
+        Pole ``inc`` is measured from (default z; :func:`plane_normal`).
 
     Returns
     -------
@@ -327,12 +334,94 @@ def lambert_arrival(system, r_park, target_pos, tof, inc):
     gm = 1.0 - system.mu
     rel = np.asarray(target_pos, dtype=float) - np.array([system.positions[0], 0.0, 0.0])
     u = rel / np.linalg.norm(rel)
-    n = plane_normal(u, inc)
+    n = plane_normal(u, inc, pole)
     e2 = np.cross(n, u)
     th = math.radians(GUESS_ANGLE_DEG)
     r0 = r_park * (math.cos(th) * u - math.sin(th) * e2)
     v1, v2 = lambert(r0, rel, tof, gm, prograde=n[2] >= 0.0)
     return float(np.linalg.norm(v1) - math.sqrt(gm / r_park)), v2, rel
+
+
+def equator_pole(system, epoch_tdb_s: float) -> np.ndarray:
+    """The Earth's equator pole (the z axis of the mean equator and equinox of J2000, EME2000) on
+    the Earth–Moon rotating axes of ``epoch_tdb_s``, the rotating frame anchored to the Moon's
+    ephemeris (DE421) at that instant (:func:`cr3bp.time.frames.basis`).
+
+    Parameters
+    ----------
+    system : System
+        Earth–Moon, with dimensional units.
+    epoch_tdb_s : float
+        TDB seconds since J2000.
+
+    Returns
+    -------
+    numpy.ndarray, shape (3,)
+        Unit vector; its z component is the cosine of the Moon's orbit plane's inclination to
+        the equator (18.3 to 28.6 degrees over the 18.6-year nodal cycle, common practice).
+
+    Raises
+    ------
+    InputError
+        An epoch outside the ephemeris' span.
+
+    Examples
+    --------
+    >>> import math
+    >>> from cr3bp import system
+    >>> p = equator_pole(system("earth-moon"), 0.0)          # 2000-01-01 12:00 TDB
+    >>> 18.0 < math.degrees(math.acos(p[2])) < 29.0
+    True
+
+    References
+    ----------
+    The instantaneous rotating frame of the secondary's ephemeris: Gómez, Llibre, Martínez &
+    Simó, *Dynamics and Mission Design Near Libration Points*, vol. I, 2001, ch. 1 (from memory).
+    """
+    from ..time import frames  # lazy: the ephemeris, only for a dated departure
+    c, _, _, _ = frames.basis(frames.frame(system, float(epoch_tdb_s), anchor="ephemeris",
+                                           axes="j2000-equator"), [float(epoch_tdb_s)])
+    pole = c[0][2, :]           # the rows of C are the output axes on the rotating axes
+    return pole / np.linalg.norm(pole)
+
+
+def inclination_to(system, s_p, pole) -> float:
+    """Inclination (rad) of the Earth-relative orbit through the rotating state ``s_p`` to the
+    plane whose unit normal is ``pole`` (rotating axes).
+
+    Parameters
+    ----------
+    system : System
+    s_p : numpy.ndarray, shape (6,)
+        Rotating-frame state (barycentric, nondimensional).
+    pole : numpy.ndarray, shape (3,)
+
+    Returns
+    -------
+    float
+
+    Raises
+    ------
+    ValueError
+        Never for a state off the Earth's centre.
+
+    Examples
+    --------
+    >>> import math
+    >>> from cr3bp import system
+    >>> em = system("earth-moon")
+    >>> s = np.array([-em.mu + 0.02, 0.0, 0.0, 0.0, 7.0, 0.0])
+    >>> round(math.degrees(inclination_to(em, s, np.array([0.0, 0.0, 1.0]))), 6)
+    0.0
+
+    References
+    ----------
+    Vallado, *Fundamentals of Astrodynamics and Applications*, 4th ed., 2013, §2.5 (inclination
+    from the angular momentum).
+    """
+    rel, vin = relative(system, s_p, 0)
+    h = np.cross(rel, vin)
+    return math.acos(max(-1.0, min(1.0, float(h @ pole) / float(np.linalg.norm(h)))))
 
 
 def newton(pb, z, resid, idx, tol=1e-8, max_step=0.05, iterations=30):
@@ -399,5 +488,5 @@ def newton(pb, z, resid, idx, tol=1e-8, max_step=0.05, iterations=30):
     return z if c is not None and np.all(np.abs(c) < tol) else None
 
 
-__all__ = ["ATOL", "GUESS_ANGLE_DEG", "Periapsis", "RTOL", "lambert_arrival", "newton", "perigee_summary",
-           "plane_normal", "relative"]
+__all__ = ["ATOL", "GUESS_ANGLE_DEG", "Periapsis", "RTOL", "equator_pole", "inclination_to", "lambert_arrival",
+           "newton", "perigee_summary", "plane_normal", "relative"]
