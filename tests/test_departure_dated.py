@@ -155,3 +155,48 @@ def test_cli_refusals(argv, words, capsys, tmp_path):
     err = capsys.readouterr().err.strip().splitlines()
     assert rc == 2 and len(err) == 1 and words in err[0]
     assert not (tmp_path / "x.json").exists()
+
+
+SCENARIO = f"""
+[mission]
+name = "Site-bound relay"
+issued = "2031-01-01T00:00:00"
+
+[system]
+name = "earth-moon"
+epoch = "{DATE}"
+
+[orbits.relay]
+family = "halo"
+point = "L2"
+branch = "south"
+resonance = "9:2"
+
+[[transfers]]
+name = "up"
+from = "parking earth 200km"
+to = "relay"
+path = "direct"
+launch_latitude = 28.5
+best = 1
+
+[plots]
+interactive = false
+"""
+
+
+def test_scenario_launch_latitude_equals_the_api(designs, tmp_path):
+    """Seam: a scenario transfer's launch_latitude (departure dated at the system epoch) gives the
+    API's bounded departure number for number, and keys the leg apart from the undated one."""
+    from cr3bp.catalog import Catalog
+    from cr3bp.scenario import run as mission
+    bound = designs[1]
+    p = tmp_path / "s.toml"
+    p.write_text(SCENARIO)
+    mission.run(mission.prepare(p), tmp_path / "out", catalog=Catalog(":memory:"), reduced=True)
+    dep = json.loads((tmp_path / "out" / "route-up.json").read_text())["departure"]
+    assert dep["dv_mps"] == pytest.approx(bound.dv_mps, rel=1e-9)
+    assert dep["inclination_equator_deg"] == pytest.approx(28.5, abs=1e-5)
+    assert "launch-latitude" in dep["bounds_hit"]
+    report = (tmp_path / "out" / "report.html").read_text()
+    assert "mean equator of J2000" in report and "launch-site latitude" in report

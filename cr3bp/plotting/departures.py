@@ -189,6 +189,9 @@ def summary_lines(d):
              f"C3 {d['c3_km2_s2']:.2f} km²/s² (CR3BP, two-body about the Earth)",
              f"Earth-relative speed {d['departure_speed_kms']:.3f} km/s (CR3BP)",
              f"inclination {d['inclination_deg']:.2f}° to the Moon's orbit plane (CR3BP)"]
+    if d.get("inclination_equator_deg") is not None:
+        lines.append(f"{d['inclination_equator_deg']:.2f}° to the Earth's equator on {d['departure_epoch'][:10]} "
+                     "(DE421 Moon)")
     if d.get("flyby_altitude_km") is not None:
         lines.append(f"flyby burn {burns.get('flyby', 0.0):.1f} m/s at {d['flyby_altitude_km']:.0f} km "
                      "over the Moon (CR3BP)")

@@ -190,6 +190,13 @@ def departure_rows(d) -> list:
             ("Earth-relative speed after the burn [km/s] (CR3BP, inertial axes)", d["departure_speed_kms"]),
             ("inclination of the parking orbit [deg] (to the Moon's orbit plane; the CR3BP has no Earth "
              "equator)", d["inclination_deg"])]
+    if d.get("inclination_equator_deg") is not None:
+        rows += [("departure date (UTC)", d["departure_epoch"]),
+                 ("inclination of the parking orbit to the Earth's mean equator of J2000 [deg] (the CR3BP "
+                  "design placed by the Moon's DE421 ephemeris at that date)", d["inclination_equator_deg"])]
+        if d.get("launch_latitude_deg") is not None:
+            rows.append(("launch-site latitude [deg] (the inclination to the equator held at least this)",
+                         d["launch_latitude_deg"]))
     if "flyby" in burns:
         rows += [("flyby burn Δv [m/s] (CR3BP)", burns["flyby"]["dv_mps"]),
                  ("flyby altitude over the Moon's mean radius [km] (CR3BP)", d["flyby_altitude_km"]),

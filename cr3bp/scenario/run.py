@@ -336,6 +336,9 @@ def _check_values(data, system, add):
                 _check_parking(f"transfers[{i}].{k}", t[k], system, add, t.get("path") if k == "from" else None)
         if t.get("path") in CR3BP_DEPARTURE_PATHS:    # 'low-energy': scenario.schema says it
             _check_departure_path(f"transfers[{i}].path", t, system, add)
+        if "launch_latitude" in t:
+            _check_launch_latitude(f"transfers[{i}].launch_latitude", t,
+                                   {n for n, e in data["orbits"].items() if "torus" in e}, add)
     exports = data.get("exports", [])
     if not exports or system is None or not system.dimensional:
         return
@@ -411,6 +414,24 @@ def _int_range(key, v, add):
     lo, hi = INT_RANGES[name]
     if not lo <= v <= hi:
         add(key, InputError(f"{v} is outside the allowed range {lo}..{hi}"))
+
+
+def _check_launch_latitude(key, transfer, tori, add):
+    """'launch_latitude': -90..90 degrees, with a 'path' of 'direct' or 'lunar-flyby' (whose checks
+    say the rest of the start) whose first leg reaches a periodic orbit."""
+    v = transfer["launch_latitude"]
+    if isinstance(v, bool) or not isinstance(v, (int, float)) or not -90.0 <= float(v) <= 90.0:
+        add(key, InputError(f"{shown(v)} is not a latitude in degrees from -90 to 90"))
+        return
+    if transfer.get("path") not in CR3BP_DEPARTURE_PATHS:
+        add(key, InputError(f"a launch site's latitude bounds a 'direct' or 'lunar-flyby' departure; give "
+                            f"path = \"direct\" or \"lunar-flyby\" (this transfer's path: "
+                            f"'{shown(transfer.get('path', 'auto'))}')"))
+        return
+    first = [*transfer.get("via", []), transfer["to"]][0]
+    if first in tori:
+        add(key, InputError(f"the first leg reaches the torus '{first}': a dated departure to a torus is not "
+                            "designed yet (to a periodic orbit it is)"))
 
 
 def _check_departure_path(key, transfer, system, add):

@@ -85,6 +85,10 @@ TRANSFER_KEYS = {
              "flyby at 100 km or higher, insertion burn) or 'low-energy' (the Sun's pull, bicircular "
              "model, launched at the system epoch); 'auto' (the default): a manifold leg where one "
              "reaches the parking orbit, else 'direct'"),
+    "launch_latitude": (F, False,
+                        "with path 'direct' or 'lunar-flyby' to a periodic orbit: a launch site's latitude in "
+                        "degrees (-90..90); the departure leaves at the system epoch with its parking orbit's "
+                        "inclination to the Earth's equator at least that (cr3bp.transfers.departure)"),
     "max_dv": (Q, False, "cap on total delta-v"),
     "max_tof": (Q, False, "cap on time of flight"),
     "best": (I, False, "how many ranked routes to keep"),

@@ -103,8 +103,15 @@ def transfer_nodes(plan, index: int, transfer: dict):
                 # the transfer's 'path' is how legs leave its starting parking orbit ('auto' and
                 # 'low-energy' are not a node's path: the graph's default and a hint, below)
                 path = transfer.get("path") if n == transfer["from"] else None
-                nodes.append(parking_node(n, system, parts[1], parts[2],
-                                          path=path if path in CR3BP_DEPARTURE_PATHS else None))
+                path = path if path in CR3BP_DEPARTURE_PATHS else None
+                site = {}
+                if path is not None and transfer.get("launch_latitude") is not None:
+                    # a launch site's latitude: the departure dated at the scenario's epoch (route time 0)
+                    from ..time.frames import epoch_from_text   # lazy: the ephemeris, dated departures only
+                    site = {"launch_latitude": transfer["launch_latitude"],
+                            "launch_tdb_s": epoch_from_text(plan.epoch) if isinstance(plan.epoch, str)
+                            else float(plan.epoch)}
+                nodes.append(parking_node(n, system, parts[1], parts[2], path=path, **site))
             elif "torus" in plan.data["orbits"][n]:
                 # a torus: its node's reference state is the torus at phase (0, 0); a leg from a
                 # parking orbit is a direct departure over both torus angles (cr3bp.tori.departure)

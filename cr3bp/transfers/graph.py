@@ -586,8 +586,10 @@ def _direct_departure_leg(orbit, st) -> Leg:
     """The departure (:func:`cr3bp.transfers.departure.design_departure`) from the parking orbit
     of the task settings ``st`` (its altitude and, when given, its inclination to the Moon's
     orbit plane) to ``orbit`` by the path ``st["path"]`` (direct when not given), as a leg."""
+    site = st.get("launch_latitude_deg")
     dep = design_departure(orbit, st["altitude_km"], path=st.get("path") or "direct",
-                           inclination_deg=st.get("inclination_deg"))
+                           inclination_deg=st.get("inclination_deg"),
+                           epoch=None if site is None else st["launch_tdb_s"], launch_latitude_deg=site)
     return as_leg(dep, st["patches"])
 
 
@@ -901,6 +903,8 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
                 settings.update(path="low-energy", launch_tdb_s=h.launch_tdb_s)
             elif asked is not None and park is a:        # a departure path asked for (edge or scenario)
                 settings["path"] = asked
+                if getattr(park, "launch_latitude_deg", None) is not None:    # dated, from a launch site
+                    settings.update(launch_latitude_deg=park.launch_latitude_deg, launch_tdb_s=park.launch_tdb_s)
         elif h and h.sections and isinstance(a, OrbitNode) and isinstance(b, OrbitNode):
             # manifold connection on the hinted section(s): unstable tube of a, stable of b
             method = "manifold"

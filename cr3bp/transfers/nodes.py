@@ -203,6 +203,12 @@ class ParkingNode:
         transfer's ``path``.
     kind : str
         "parking".
+    launch_latitude_deg : float, optional
+        With ``path``: a launch site's latitude bounding the departure's inclination to the
+        Earth's equator below (:func:`cr3bp.transfers.departure.design_departure`), the
+        departure dated ``launch_tdb_s``. Set by a scenario transfer's ``launch_latitude``.
+    launch_tdb_s : float, optional
+        The departure date, TDB seconds since J2000 (with ``launch_latitude_deg``).
 
     Examples
     --------
@@ -223,10 +229,14 @@ class ParkingNode:
     inclination_deg: float | None = None    # None: free (the design chooses the plane)
     kind: str = "parking"
     path: str | None = None                 # None: the graph's choice (see the docstring)
+    launch_latitude_deg: float | None = None
+    launch_tdb_s: float | None = None
 
     @property
     def id(self) -> str:
         base = f"parking/{self.system}/{self.body}/{self.altitude_km:g}km"
+        if self.launch_latitude_deg is not None:
+            base += f"/site{self.launch_latitude_deg:g}deg@{self.launch_tdb_s:.3f}"
         return base if self.inclination_deg is None else f"{base}/{self.inclination_deg:g}deg"
 
     def to_dict(self) -> dict:
@@ -235,6 +245,8 @@ class ParkingNode:
              "inclination_deg": self.inclination_deg}
         if self.path is not None:
             d["path"] = self.path
+        if self.launch_latitude_deg is not None:
+            d.update(launch_latitude_deg=self.launch_latitude_deg, launch_tdb_s=self.launch_tdb_s)
         return d
 
 
@@ -770,7 +782,8 @@ def orbit_node(name: str, system, orbit: str) -> OrbitNode:
     return OrbitNode(name, system.name, orbit)
 
 
-def parking_node(name: str, system, body: str, altitude, inclination=None, path=None) -> ParkingNode:
+def parking_node(name: str, system, body: str, altitude, inclination=None, path=None, launch_latitude=None,
+                 launch_tdb_s=None) -> ParkingNode:
     """The node of a circular parking orbit about ``body``.
 
     Parameters
@@ -787,6 +800,11 @@ def parking_node(name: str, system, body: str, altitude, inclination=None, path=
         The departure path of legs from this orbit (one of
         :data:`cr3bp.vocabulary.CR3BP_DEPARTURE_PATHS`; an Earth parking orbit in the Earth-Moon
         system only); None: the graph's choice.
+    launch_latitude : float or None
+        With ``path`` and ``launch_tdb_s``: a launch site's latitude, degrees -90..90 (not with
+        ``inclination``).
+    launch_tdb_s : float or None
+        The departure date, TDB seconds since J2000.
 
     Returns
     -------
@@ -824,8 +842,15 @@ def parking_node(name: str, system, body: str, altitude, inclination=None, path=
         if system.name != "earth-moon" or body != "earth":
             raise InputError(f"departure path '{path}' leaves an Earth parking orbit in the earth-moon "
                              f"system, not a parking orbit about the {body} in {system.name}")
+    site = {}
+    if launch_latitude is not None:
+        if path is None or launch_tdb_s is None or inclination is not None:
+            raise InputError(f"launch latitude {shown(launch_latitude)}: needs a departure path and a date, and "
+                             "no inclination")
+        site = {"launch_latitude_deg": validate.number_in("launch latitude (degrees)", launch_latitude, -90.0, 90.0),
+                "launch_tdb_s": float(launch_tdb_s)}
     if inclination is None:
-        return ParkingNode(name, system.name, body, alt, None, path=path)
+        return ParkingNode(name, system.name, body, alt, None, path=path, **site)
     inc = validate.number_in("inclination (degrees)", inclination, 0.0, 180.0)
     return ParkingNode(name, system.name, body, alt, inc, path=path)
 
