@@ -556,7 +556,7 @@ def solve_orbit_group(task: dict) -> dict:
     >>> from cr3bp.transfers.graph import solve_orbit_group, system_spec
     >>> solve_orbit_group({"system": system_spec(system("earth-moon")),
     ...                    "requests": [("o", "lyapunov L1 colour=red", False)]})
-    {'o': {'error': "unknown target 'colour' (allowed: ...)"}}
+    {'o': {'error': "unknown target 'colour'; allowed: period, jacobi, ax, ay, az, x, perilune, resonance"}}
 
     References
     ----------
@@ -1169,6 +1169,13 @@ def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None,
         return _build(system, nodelist, workers, shared, catalog, progress, tof_days, patches)
 
 
+#: Families (orbit groups) from which a graph's orbits go to a pool that is still starting
+#: rather than being solved in the client while it starts: a family takes about 0.15 s on one
+#: thread and a pool worker about 1.1 s to start (the 42-node graph, 2026-12-03/04, see
+#: docs/guide/scale-out.rst), so with 2 workers the pool wins from about 16 families.
+POOL_ORBIT_GROUPS = 16
+
+
 class _shared_runner:
     """One pool (``workers`` above 1, started when a stage first has two tasks or more) or one
     dask client (a scheduler's text) for the whole build, its orbits and then its legs, so that
@@ -1203,9 +1210,18 @@ class _shared_runner:
 
 def _build(system, nodelist, workers, shared, catalog, progress, tof_days, patches):
     scheduler = shared.scheduler
-    n_orbits = len({n.id for n in nodelist.nodes if isinstance(n, OrbitNode)}) if catalog is None else 0
-    orbits = resolve_orbits(system, nodelist, catalog, workers=workers, scheduler=scheduler,
-                            executor=shared.executor(n_orbits))
+    orbit_nodes = list({n.id: n for n in nodelist.nodes if isinstance(n, OrbitNode)}.values())
+    if catalog is not None or not orbit_nodes:
+        orbits = resolve_orbits(system, nodelist, catalog)
+    elif scheduler is not None:          # a cluster's workers: one task per family
+        orbits = resolve_orbits(system, nodelist, workers=workers, scheduler=scheduler)
+    else:
+        # a pool: started now (every leg will be computed: no catalogue), so its workers start
+        # while the client solves the orbits; on the pool only when there are enough families
+        # to outweigh the start-up (:data:`POOL_ORBIT_GROUPS`)
+        ex = shared.executor(len(nodelist.nodes))
+        many = len(orbit_groups(orbit_nodes)) >= POOL_ORBIT_GROUPS
+        orbits = resolve_orbits(system, nodelist, workers=workers if many else 1, executor=ex if many else None)
     tasks, pruned = plan(system, nodelist, tof_days, patches, orbits)
     legs: list = [None] * len(tasks)
     todo = []
