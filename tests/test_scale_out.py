@@ -238,6 +238,27 @@ def test_graph_build_cli_same_json_here_on_a_pool_and_local_dask(capsys, tmp_pat
     assert out1 == out2 == out3
 
 
+def test_a_build_with_many_families_solves_them_on_its_pool(monkeypatch):
+    """build_graph on a pool: from POOL_ORBIT_GROUPS families the orbits go to the build's pool
+    (one task per family) before the legs; the legs are the ones built in one process."""
+    from cr3bp.transfers import graph
+    from cr3bp.transfers.nodes import parse_nodes
+    em = cr3bp.system("earth-moon")
+    nl = parse_nodes(_graph_text(["lyapunov L1 jacobi=3.15", "lyapunov L2 jacobi=3.15"]), em)
+    here = graph.build_graph(em, nl, workers=1)
+    calls = []
+    real = tasks.run_tasks
+    monkeypatch.setattr(tasks, "run_tasks", lambda f, *a, **k: calls.append(f.__name__) or real(f, *a, **k))
+    monkeypatch.setattr(graph, "POOL_ORBIT_GROUPS", 2)
+    pooled = graph.build_graph(em, nl, workers=2)
+    assert calls == ["solve_orbit_group", "compute_leg"]
+    assert [graph.leg_json(x) for x in here.legs] == [graph.leg_json(x) for x in pooled.legs]
+    monkeypatch.setattr(graph, "POOL_ORBIT_GROUPS", 3)
+    calls.clear()
+    graph.build_graph(em, nl, workers=2)
+    assert calls == ["compute_leg"]
+
+
 def test_disperse_trials_in_pieces_equal_one_batch(monkeypatch):
     """The Monte Carlo of librate disperse in pieces (16 trials each, so 100 trials make 7
     pieces, the last one short): here, a pool of 2 and local:2 give the same bytes."""

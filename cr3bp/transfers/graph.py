@@ -1169,9 +1169,9 @@ def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None,
         return _build(system, nodelist, workers, shared, catalog, progress, tof_days, patches)
 
 
-#: Families (orbit groups) from which a graph's orbits go to a pool that is still starting
-#: rather than being solved in the client while it starts: a family takes about 0.15 s on one
-#: thread and a pool worker about 1.1 s to start (the 42-node graph, 2026-12-03/04, see
+#: Families (orbit groups) from which a graph's orbits go to a pool (started for them, kept for
+#: the legs) rather than being solved in the client: a family takes about 0.15 s on one thread
+#: and a pool worker about 1.1 s to start (the 42-node graph, 2026-12-03/04, see
 #: docs/guide/scale-out.rst), so with 2 workers the pool wins from about 16 families.
 POOL_ORBIT_GROUPS = 16
 
@@ -1215,13 +1215,12 @@ def _build(system, nodelist, workers, shared, catalog, progress, tof_days, patch
         orbits = resolve_orbits(system, nodelist, catalog)
     elif scheduler is not None:          # a cluster's workers: one task per family
         orbits = resolve_orbits(system, nodelist, workers=workers, scheduler=scheduler)
+    elif len(orbit_groups(orbit_nodes)) >= POOL_ORBIT_GROUPS:
+        # a pool, started for the orbits (enough families to outweigh its start-up) and kept for the legs
+        orbits = resolve_orbits(system, nodelist, workers=workers, executor=shared.executor(len(orbit_nodes)))
     else:
-        # a pool: started now (every leg will be computed: no catalogue), so its workers start
-        # while the client solves the orbits; on the pool only when there are enough families
-        # to outweigh the start-up (:data:`POOL_ORBIT_GROUPS`)
-        ex = shared.executor(len(nodelist.nodes))
-        many = len(orbit_groups(orbit_nodes)) >= POOL_ORBIT_GROUPS
-        orbits = resolve_orbits(system, nodelist, workers=workers if many else 1, executor=ex if many else None)
+        # a pool: started for the legs (only when there are two or more), the orbits solved here
+        orbits = resolve_orbits(system, nodelist)
     tasks, pruned = plan(system, nodelist, tof_days, patches, orbits)
     legs: list = [None] * len(tasks)
     todo = []
