@@ -15,8 +15,10 @@ process pool of 2 against one process (goal at least 1.6x, identical legs), with
 average at each measurement and the processor seconds (getrusage) beside the wall clock: on a
 shared machine a wall-clock ratio says little, so the last row projects the idle 2-core time
 from the processor seconds (labelled as a projection). Most of this graph's work is in its 80
-parking-to-orbit legs (about 1.6 s each against 1.5 ms for a targeted arc): the chunks deal
-the legs round robin (cr3bp.transfers.tasks.split) so those land on every worker.
+parking-to-orbit legs (about 1.6 s each against 1.5 ms for a targeted arc): the legs are dealt
+longest first by their method's estimated cost (cr3bp.transfers.tasks.deal, since 2026-12-04;
+round robin before) so those land on every worker and start first. orbit_rows (issue 19): the
+graph's 40 orbits, one task per family, on a pool of 2 against this process.
 """
 
 import os
