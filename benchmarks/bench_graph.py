@@ -15,8 +15,10 @@ process pool of 2 against one process (goal at least 1.6x, identical legs), with
 average at each measurement and the processor seconds (getrusage) beside the wall clock: on a
 shared machine a wall-clock ratio says little, so the last row projects the idle 2-core time
 from the processor seconds (labelled as a projection). Most of this graph's work is in its 80
-parking-to-orbit legs (about 1.6 s each against 1.5 ms for a targeted arc): the chunks deal
-the legs round robin (cr3bp.transfers.tasks.split) so those land on every worker.
+parking-to-orbit legs (about 1.6 s each against 1.5 ms for a targeted arc): the legs are dealt
+longest first by their method's estimated cost (cr3bp.transfers.tasks.deal, since 2026-12-04;
+round robin before) so those land on every worker and start first. orbit_rows (issue 19): the
+graph's 40 orbits, one task per family, on a pool of 2 against this process.
 """
 
 import os
@@ -96,6 +98,7 @@ def run():
     t_nx = time.perf_counter() - t
     ok = sum(1 for leg in built.legs if leg["status"] == "ok")
     return [
+        *orbit_rows(em),
         *_forty(em),
         (f"build 22 nodes (20 orbits solved), {len(tasks)} legs ({ok} usable), 2 workers", t_build,
          "the same legs in 1 process", t_serial, "< 300 s (on 2 cores)"),
@@ -107,6 +110,53 @@ def run():
 def _cpu(who) -> float:
     r = resource.getrusage(who)
     return r.ru_utime + r.ru_stime
+
+
+def _forty_nodes(em):
+    from cr3bp.transfers.nodes import parse_nodes
+    global ENERGIES
+    keep, ENERGIES = ENERGIES, tuple(round(3.04 + 0.01 * k, 2) for k in range(10))
+    try:
+        return parse_nodes(_nodes_text(em), em)
+    finally:
+        ENERGIES = keep
+
+
+def orbit_rows(em):
+    """Issue 19: the 42-node graph's 40 orbits (four families, each grown once) on a pool of 2
+    (start-up included; one task per family) against this process, and each family's processor
+    seconds (the inputs of benchmarks/scale_model.py)."""
+    from cr3bp.transfers import tasks as tasks_mod
+    from cr3bp.transfers.graph import orbit_groups, resolve_orbits, solve_orbit_group, system_spec
+    from cr3bp.transfers.nodes import OrbitNode
+    nl = _forty_nodes(em)
+    resolve_orbits(em, nl)                                   # warm the kernels
+    groups = orbit_groups([n for n in nl.nodes if isinstance(n, OrbitNode)])
+    per_family = []
+    for g in groups:
+        c0 = time.process_time()
+        solve_orbit_group({"system": system_spec(em), "requests": [(n.id, n.orbit, n.is_torus) for n in g]})
+        per_family.append(time.process_time() - c0)
+    load_one, c0, t = os.getloadavg()[0], _cpu(resource.RUSAGE_SELF), time.perf_counter()
+    here = resolve_orbits(em, nl)
+    t_one, cpu_one = time.perf_counter() - t, _cpu(resource.RUSAGE_SELF) - c0
+    load_pool = os.getloadavg()[0]
+    c0, k0, t = _cpu(resource.RUSAGE_SELF), _cpu(resource.RUSAGE_CHILDREN), time.perf_counter()
+    pool = tasks_mod.start_pool(2)
+    try:
+        on_pool = resolve_orbits(em, nl, workers=2, executor=pool)
+    finally:
+        pool.shutdown()
+    t_pool = time.perf_counter() - t
+    cpu_parent, cpu_workers = _cpu(resource.RUSAGE_SELF) - c0, _cpu(resource.RUSAGE_CHILDREN) - k0
+    same = [repr(sorted(here[k].items(), key=str)) for k in here] == \
+        [repr(sorted(on_pool[k].items(), key=str)) for k in on_pool]
+    fams = ", ".join(f"{t:.2f}" for t in per_family)
+    return [(f"graph, 42 nodes: 40 orbits, {len(groups)} families on a pool of 2, start-up included (load "
+             f"{load_pool:.1f}; workers {cpu_workers:.1f} CPU s, parent "
+             f"{cpu_parent:.1f} s; {'identical' if same else 'RESULTS DIFFER'}; families {fams} CPU s)",
+             t_pool, f"this process (load {load_one:.1f}; {cpu_one:.2f} CPU s)", t_one,
+             "information (in a build the pool is started once, for the orbits and the legs)")]
 
 
 def _forty(em):

@@ -38,6 +38,7 @@ quiet machine); the family of 100 13.4 s, 3.4 s -> 13.7 s, 3.3 s (unchanged: met
 from __future__ import annotations
 
 import os
+import resource
 import subprocess
 import sys
 import tempfile
@@ -45,6 +46,10 @@ import time
 
 FAMILY_MEMBERS = 100
 FAMILY_STEP = 0.0005
+#: The torus tube swept in pieces (issue 19): departure points and its stop.
+SWEEP_TORUS = "quasi-halo around halo L1 north az=10000km amplitude=300km"
+SWEEP_POINTS = 40000
+SWEEP_UNTIL = ["section:x=1-mu", "time:9TU"]
 
 
 def _shell(args, env=None):
@@ -100,4 +105,47 @@ def run():
     rows.append((f"family of {n} tori, Earth-Moon L1 Lissajous, Jacobi held (CPU {c_fam:.1f} s; "
                  f"stop: {fam.stop[:40]})", t_fam, "", None,
                  "< 60 s" if n >= FAMILY_MEMBERS else f"only {n} members"))
+    rows.extend(sweep_rows())
     return rows
+
+
+def _cpu(who) -> float:
+    r = resource.getrusage(who)
+    return r.ru_utime + r.ru_stime
+
+
+def sweep_rows():
+    """Issue 19: a torus's unstable tube (SWEEP_POINTS departure points on the torus to x = 1 -
+    mu) on a process pool of 2 (start-up included) against one process on one kernel thread.
+    A torus family's continuation is serial (each member is predicted from the last), so what
+    the workers share is the tube's trajectories. Load average and processor seconds beside
+    the wall clock; no goal in the issue for tori: information."""
+    import numba
+
+    import cr3bp
+    from cr3bp.tori import request as treq
+    em = cr3bp.system("earth-moon")
+    torus = treq.solve(em, SWEEP_TORUS)
+    cr3bp.manifold(torus, "unstable", points=16, until=SWEEP_UNTIL)           # warm the kernels
+    threads = numba.get_num_threads()
+    numba.set_num_threads(1)
+    try:
+        load_one = os.getloadavg()[0]
+        c0, t0 = _cpu(resource.RUSAGE_SELF), time.perf_counter()
+        one = cr3bp.manifold(torus, "unstable", points=SWEEP_POINTS, until=SWEEP_UNTIL)
+        t_one, cpu_one = time.perf_counter() - t0, _cpu(resource.RUSAGE_SELF) - c0
+    finally:
+        numba.set_num_threads(threads)
+    load_pool = os.getloadavg()[0]
+    c0, k0, t0 = _cpu(resource.RUSAGE_SELF), _cpu(resource.RUSAGE_CHILDREN), time.perf_counter()
+    pool = cr3bp.manifold(torus, "unstable", points=SWEEP_POINTS, until=SWEEP_UNTIL, workers=2)
+    t_pool = time.perf_counter() - t0
+    cpu_parent, cpu_workers = _cpu(resource.RUSAGE_SELF) - c0, _cpu(resource.RUSAGE_CHILDREN) - k0
+    same = all(getattr(one, k).tobytes() == getattr(pool, k).tobytes() for k in ("tof", "end_states")) \
+        and one.status == pool.status
+    return [
+        (f"torus tube, {one.n} trajectories to x=1-mu, pool of 2, start-up included (load {load_pool:.1f}; "
+         f"workers {cpu_workers:.1f} CPU s, parent {cpu_parent:.1f} s; {'identical' if same else 'RESULTS DIFFER'})",
+         t_pool, f"one process, one kernel thread (load {load_one:.1f}; {cpu_one:.1f} CPU s)", t_one,
+         "information (no goal for tori in the issue)"),
+    ]

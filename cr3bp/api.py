@@ -455,8 +455,8 @@ def manifold(orbit, stability, *, branch="interior", points=200, until=None, spa
     origin : str, optional
         How the tube's label names its orbit or torus (default: described from it).
     workers : int, optional
-        Propagate a periodic orbit's tube in pieces over this many worker processes (default:
-        here, on the compiled kernels' threads); the result is the same bit for bit.
+        Propagate a periodic orbit's or a torus's tube in pieces over this many worker processes
+        (default: here, on the compiled kernels' threads); the result is the same bit for bit.
     scheduler : str or distributed.Client, optional
         Or on a dask.distributed scheduler: an address, ``"local"`` / ``"local:N"`` (a local
         cluster started and stopped here), or a client.
@@ -505,7 +505,7 @@ def manifold(orbit, stability, *, branch="interior", points=200, until=None, spa
             raise InputError("spacing does not go with a torus (its points are a grid on the torus)")
         from .tori.manifolds import grow_tube as grow_torus_tube  # lazy: start-up: keeps cr3bp.api free of numpy
         return grow_torus_tube(orbit, stability, branch, int(points), stop, step_km=step_off, progress=progress,
-                               origin=origin)
+                               origin=origin, runner=runner)
     return grow_tube(orbit, stability, branch, int(points), stop, spacing=spacing, step_km=step_off,
                      progress=progress, origin=origin, runner=runner)
 
@@ -558,8 +558,8 @@ def section(tube, where, *, crossing=1, time=None, stability=None, branch="inter
         With an orbit or torus: how the tube's label names it.
     progress : callable(done, total, message), optional
     workers : int, optional
-        Propagate a periodic orbit's tube in pieces over this many worker processes (default:
-        here, on the compiled kernels' threads); the result is the same bit for bit.
+        Propagate a periodic orbit's or a torus's tube in pieces over this many worker processes
+        (default: here, on the compiled kernels' threads); the result is the same bit for bit.
     scheduler : str or distributed.Client, optional
         Or on a dask.distributed scheduler: an address, ``"local"`` / ``"local:N"`` (a local
         cluster started and stopped here), or a client.
@@ -1429,6 +1429,9 @@ def _build_settings(sysm, workers, scheduler, tof):
         workers = _workers("workers", workers)
     if scheduler and workers:
         raise InputError("give workers= or scheduler=, not both")
+    if isinstance(scheduler, str):
+        from .transfers.tasks import check_scheduler  # lazy: start-up: keeps cr3bp.api free of numpy
+        check_scheduler(scheduler)
     tof_days = None if tof is None else sysm.days(quantity("tof", _text(tof), "time", sysm, sign="positive"))
     return workers, scheduler, tof_days
 
@@ -2520,7 +2523,8 @@ def keep(orbit, epoch, *, span="365d", trials=200, nav_error=(1.0, 0.01), burn_e
 
 
 def disperse(orbit=None, *, route=None, coast=None, arrive_phase="0deg", branch="interior", burn="0m/s",
-             corrections=(), nav_error=(1.0, 0.01), burn_error=(0.01, 0.001), trials=1000, seed=0):
+             corrections=(), nav_error=(1.0, 0.01), burn_error=(0.01, 0.001), trials=1000, seed=0,
+             workers=None, scheduler=None):
     """Insertion dispersion: the last maneuver's errors carried to an insertion (``librate disperse``).
 
     A Monte Carlo of navigation and execution errors beside the linear covariance estimate, with
@@ -2553,6 +2557,11 @@ def disperse(orbit=None, *, route=None, coast=None, arrive_phase="0deg", branch=
     trials : int
         Monte Carlo trials, 1..100000.
     seed : int
+    workers : int, optional
+        Run the trials in pieces over this many worker processes (default: here); the result is
+        the same bit for bit (every draw made here from the one seed).
+    scheduler : str or distributed.Client, optional
+        Or on a dask.distributed scheduler: an address, ``"local"`` / ``"local:N"``, or a client.
 
     Returns
     -------
@@ -2588,6 +2597,7 @@ def disperse(orbit=None, *, route=None, coast=None, arrive_phase="0deg", branch=
         raise InputError("give an orbit (with coast=) or route=, not both or neither")
     trials = _whole("trials", trials, 1, 100000)
     seed = _whole("seed", seed, 0, 999999999999)
+    runner = _task_runner(workers, scheduler)
     try:
         pos_km, vel_mps = (finite_number("nav_error", v) for v in nav_error)
         prop, fixed_mps = (finite_number("burn_error", v) for v in burn_error)
@@ -2622,7 +2632,7 @@ def disperse(orbit=None, *, route=None, coast=None, arrive_phase="0deg", branch=
         raise InputError(f"corrections: {len(corr)} times; at most {dp.MAX_CORRECTIONS}")
     if any(not b > a for a, b in zip(corr, corr[1:])) or (corr and corr[-1] >= coast_tu):
         raise InputError(f"corrections {list(corrections)!r} must increase and come before the insertion")
-    return dp.dispersion(nom, corr, errors, trials, seed)
+    return dp.dispersion(nom, corr, errors, trials, seed, runner)
 
 
 def propagate_state(system, state, time, *, km=False, stm=False, rtol=1e-12, atol=1e-12, step=None,
@@ -3202,9 +3212,19 @@ def _piece_runner(workers, scheduler, source, apsis=False):
         workers = _whole("workers", workers, 1, 256)
     if scheduler is None and workers in (None, 1):
         return None
-    if not _is_orbit(source) or apsis:
-        raise InputError("workers/scheduler split the tube of a periodic orbit cut by a plane or a sphere; "
-                         "a torus, a Lagrange point or an apsis map is computed in this process")
+    if not (_is_orbit(source) or _is_torus(source)) or apsis:
+        raise InputError("workers/scheduler split the tube of a periodic orbit or a torus cut by a plane or a "
+                         "sphere; a Lagrange point's manifold or an apsis map is computed in this process")
+    return _task_runner(workers, scheduler)
+
+
+def _task_runner(workers, scheduler):
+    """``runner(function, tasks)`` over a pool (``workers`` above 1) or a dask cluster
+    (``scheduler``, checked here), or None (here)."""
+    if workers is not None:
+        workers = _whole("workers", workers, 1, 256)
+    if scheduler is None and workers in (None, 1):
+        return None
     from .transfers import tasks as tasks_mod  # lazy: start-up: keeps cr3bp.api free of numpy
     if isinstance(scheduler, str):
         tasks_mod.check_scheduler(scheduler, workers)

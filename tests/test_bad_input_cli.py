@@ -410,6 +410,10 @@ def value_cases():
     add("manifold-scheduler-junk", M + ["--scheduler=nowhere"])
     add("manifold-scheduler-local-and-workers", M + ["--scheduler=local:2", "--workers=2"])
     add("manifold-workers-lagrange", ["manifold", EM, "--lagrange=L1", "--unstable", "--workers=2"])
+    MT = ["manifold", EM, "--torus=quasi-halo around halo L1 north az=10000km amplitude=300km", "--unstable"]
+    add("manifold-torus-workers-zero", MT + ["--workers=0"])
+    add("manifold-torus-scheduler-junk", MT + ["--scheduler=nowhere"])
+    add("manifold-torus-scheduler-local-and-workers", MT + ["--scheduler=local:2", "--workers=2"])
     add("section-workers-zero", S + ["--workers=0"])
     add("section-scheduler-junk", S + ["--scheduler=nowhere"])
     add("section-workers-apsis", ["section", EM, "--tube=lyapunov L1 jacobi=3.17 unstable",
@@ -458,6 +462,10 @@ def value_cases():
     for v in ("abc", "nandeg"):
         add(f"disperse-arrive-phase-{v}", D + [f"--arrive-phase={v}"])
     add("disperse-branch", D + ["--branch=middle"])
+    add("disperse-workers-zero", D + ["--workers=0"])
+    add("disperse-scheduler-junk", D + ["--scheduler=my-cluster"])
+    add("disperse-scheduler-local-0", D + ["--scheduler=local:0"])
+    add("disperse-scheduler-local-and-workers", D + ["--scheduler=local:2", "--workers=2"])
     add("disperse-nav-error", D + ["--nav-error=1km"])
     add("disperse-burn-error", D + ["--burn-error=1,1mm/s"])
     add("disperse-trials-zero", D[:-1] + ["--trials=0"])
@@ -770,6 +778,10 @@ def value_cases():
         add(f"graph-tof-{v}", G + [f"--tof={v}"])
     add("graph-catalog-and-no-catalog", G + ["--catalog={out}/c.sqlite"])
     add("graph-plot-suffix", G + ["--plot={out}/g.gif"])      # one rule for every --plot: png, svg, pdf
+    add("graph-scheduler-junk", ["graph", "build", EM, "--nodes={in}/nodes.toml", "--scheduler=my-cluster",
+                                 "--no-catalog"])
+    add("graph-scheduler-local-0", ["graph", "build", EM, "--nodes={in}/nodes.toml", "--scheduler=local:0",
+                                    "--no-catalog"])
     add("graph-workers-and-scheduler", ["graph", "build", EM, "--nodes={in}/nodes.toml", "--workers=2",
                                         "--scheduler=tcp://127.0.0.1:1", "--no-catalog"])
     for opt, v in (("min-altitude", "-5km"), ("min-altitude", "5"), ("min-altitude", "nankm"), ("max-dv", "-1m/s"),

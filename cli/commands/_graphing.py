@@ -9,7 +9,9 @@ def add_build_options(p):
     g = p.add_argument_group("computing the legs")
     common.add_workers_option(g)
     g.add_argument("--scheduler", metavar="ADDRESS",
-                   help="run the legs on a dask.distributed scheduler instead (needs librate[cluster])")
+                   help="run the orbits (one task per family) and the legs on a dask.distributed "
+                   "scheduler instead (an address, or 'local:N' for a local cluster of N worker processes "
+                   "started and stopped here; needs librate[cluster])")
     common.add_catalog_options(g, used_by_default=True, note=" (as the leg cache)")
     g.add_argument("--tof", metavar="TIME", help="time of flight of targeted legs without their own (e.g. 6d)")
 
@@ -28,6 +30,9 @@ def prepare(args, system, check=None):
     workers = common.workers(args)
     if args.scheduler and workers:
         raise InputError("give --workers or --scheduler, not both")
+    if args.scheduler is not None:
+        from cr3bp.transfers.tasks import check_scheduler
+        check_scheduler(args.scheduler)
     if args.tof is not None:
         from cr3bp.validate import quantity
         quantity("--tof", args.tof, "time", system, sign="positive")        # refused here, before any work

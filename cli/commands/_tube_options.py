@@ -123,7 +123,7 @@ def progress_printer(args):
 
 
 def add_parallel_options(p):
-    """``--workers`` / ``--scheduler``: a periodic orbit's tube propagated in pieces elsewhere."""
+    """``--workers`` / ``--scheduler``: a periodic orbit's or a torus's tube propagated in pieces elsewhere."""
     from .. import common
     g = p.add_argument_group("propagating in pieces (same result, bit for bit)")
     common.add_workers_option(g, "propagate the trajectories in pieces over N worker processes "
@@ -131,12 +131,12 @@ def add_parallel_options(p):
     g.add_argument("--scheduler", metavar="ADDRESS", help="or on a dask.distributed scheduler (e.g. "
                    "tcp://10.0.0.5:8786), or 'local:N' for a local cluster of N worker processes started "
                    "and stopped here ('local': --workers processes, default 2); needs librate[cluster]; "
-                   "a periodic orbit's tube cut by a plane or a sphere only")
+                   "a periodic orbit's or a torus's tube cut by a plane or a sphere only")
 
 
 def parallel(args, what=None):
     """``(workers, scheduler)`` from the options, checked before any work; ``what`` names a source
-    that cannot be split (a torus, a Lagrange point, an apsis map): refused when either is given."""
+    that cannot be split (a Lagrange point, an apsis map): refused when either is given."""
     from .. import common
     from cr3bp.errors import InputError
     workers = common.workers(args)
@@ -145,5 +145,5 @@ def parallel(args, what=None):
         from cr3bp.transfers.tasks import check_scheduler
         check_scheduler(scheduler, workers)
     if what and (scheduler is not None or (workers or 1) > 1):
-        raise InputError(f"--workers/--scheduler split a periodic orbit's tube; {what} is computed in this process")
+        raise InputError(f"--workers/--scheduler split a periodic orbit's or a torus's tube; {what} is computed in this process")
     return workers, scheduler

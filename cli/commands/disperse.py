@@ -50,6 +50,13 @@ def add_arguments(p):
                    help="execution error of every maneuver, proportional (%%) and fixed (default 1%%,1mm/s)")
     m.add_argument("--trials", metavar="N", default="1000", help="Monte Carlo trials, 1..100000 (default 1000)")
     m.add_argument("--seed", metavar="N", default="0", help="random seed, 0..999999999999 (default 0)")
+    common.add_workers_option(m, "run the trials in pieces over N worker processes (default: in this process, "
+                                 "whose compiled propagation already uses every core); results do not depend on it")
+    m.add_argument("--scheduler", metavar="ADDRESS", help="run the trials on a dask.distributed scheduler "
+                                                          "(e.g. tcp://10.0.0.5:8786), or 'local:N' for a local "
+                                                          "cluster of N worker processes started here ('local': "
+                                                          "--workers processes, default 2); needs librate[cluster]; "
+                                                          "results do not depend on it")
     p.add_argument("--format", choices=("table", "json"), default="table", help="output format (default table)")
     p.add_argument("--out", metavar="FILE", help="write the output to FILE instead of the screen")
     common.add_verbosity(p)
@@ -111,17 +118,22 @@ def _inputs(args):
                              f"insertion at {coast_text}")
     trials = common.whole_number("--trials", args.trials, 1, 100000)
     seed = common.whole_number("--seed", args.seed, 0, 999999999999)
+    workers = common.workers(args)
+    if args.scheduler is not None:
+        from cr3bp.transfers.tasks import check_scheduler
+        check_scheduler(args.scheduler, workers)
     if args.out:
         common.folder_exists("--out", args.out)
-    return sysm, errors, burn, coast, phase, corr, trials, seed, nominal
+    return sysm, errors, burn, coast, phase, corr, trials, seed, nominal, workers
 
 
 def run(args):
     from cr3bp import api
 
-    sysm, errors, burn, coast, phase, corr, trials, seed, nom = _inputs(args)
+    sysm, errors, burn, coast, phase, corr, trials, seed, nom, workers = _inputs(args)
     kw = dict(corrections=corr, nav_error=(errors.nav_position_km, errors.nav_velocity_mps),
-              burn_error=(errors.burn_proportional, errors.burn_fixed_mps), trials=trials, seed=seed)
+              burn_error=(errors.burn_proportional, errors.burn_fixed_mps), trials=trials, seed=seed,
+              workers=workers, scheduler=None if args.scheduler is None else args.scheduler.strip())
     if nom is None:
         common.progress(args, f"solving orbit request '{args.orbit}'...")
         orbit = api.orbit(sysm, args.orbit)

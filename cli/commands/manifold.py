@@ -53,8 +53,7 @@ def run(args):
             raise InputError(f"--torus grows a torus's manifold; it does not go with {', '.join(given)}")
         if args.spacing != "time":
             raise InputError("--spacing does not go with --torus (its points are a grid on the torus)")
-        to.parallel(args, "a torus's tube")
-        return _torus(args, system, stop)
+        return _torus(args, system, stop, *to.parallel(args))
     if args.lagrange:
         given = to.orbit_options_given(args)
         if given:
@@ -108,7 +107,7 @@ def torus_request(system, text, args):
     return spec
 
 
-def _torus(args, system, stop):
+def _torus(args, system, stop, workers=None, scheduler=None):
     from cr3bp import api
     from cr3bp.tori import request as treq
     from cr3bp.tori.manifolds import grid_shape
@@ -119,7 +118,8 @@ def _torus(args, system, stop):
     common.progress(args, f"librate manifold: growing {n0 * n1} {args.stability} {args.branch} trajectories "
                           f"({n0} stroboscopic phases x {n1} circle points) of the torus (C = {torus.jacobi:.6f})...")
     tube = api.manifold(torus, args.stability, branch=args.branch, points=args.points, until=args.until,
-                        step_off=args.step_off, progress=to.progress_printer(args), origin=f"torus '{args.torus}'")
+                        step_off=args.step_off, progress=to.progress_printer(args), origin=f"torus '{args.torus}'",
+                        workers=workers, scheduler=scheduler)
     d = tube.to_dict()
     rows = [[t["phase"], t["t_orbit"], t["tof"], t["tof_days"], t["status"], *t["end_state"]]
             for t in d["trajectories"]]

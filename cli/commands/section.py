@@ -83,7 +83,7 @@ def spatial_pairs(section, cuts, tol=1e-9):
     return (first,)
 
 
-def _torus_cut(args, system, req, spec, stab, br, section):
+def _torus_cut(args, system, req, spec, stab, br, section, workers=None, scheduler=None):
     """The cut of a torus's half-manifold with the section (cr3bp.api.section of the torus)."""
     from cr3bp import api
     from cr3bp.tori import request as treq
@@ -93,7 +93,7 @@ def _torus_cut(args, system, req, spec, stab, br, section):
     common.progress(args, f"librate section: {label}: {args.points} trajectories to {section.label}...")
     return api.section(torus, args.section, stability=stab, branch=br, points=args.points, crossing=args.crossing,
                        time=args.time, step_off=args.step_off, label=label, origin=req,
-                       progress=to.progress_printer(args))
+                       progress=to.progress_printer(args), workers=workers, scheduler=scheduler)
 
 
 HEADERS = ["tube", "trajectory", "phase", "crossing", "t", "map_a", "map_b", "x", "y", "z", "vx", "vy", "vz"]
@@ -117,12 +117,11 @@ def run(args):
     from cr3bp.tori.request import is_torus_request
     from .manifold import torus_request
     tori = {req: torus_request(system, req, args) for req, _, _ in specs if is_torus_request(req)}
-    workers, scheduler = to.parallel(args, "a torus's tube" if tori else "an apsis map" if section.kind == "apsis"
-                                     else None)
+    workers, scheduler = to.parallel(args, "an apsis map" if section.kind == "apsis" else None)
     cuts, out = [], []
     for req, stab, br in specs:
         if req in tori:
-            cuts.append(_torus_cut(args, system, req, tori[req], stab, br, section))
+            cuts.append(_torus_cut(args, system, req, tori[req], stab, br, section, workers, scheduler))
             continue
         orbit = to.orbit_from_request(system, req, args)
         from cr3bp.tubes.manifolds import describe

@@ -470,7 +470,8 @@ def linear_covariance(nom: Nominal, corrections_tu, errors: Errors) -> dict:
 
 # ---- Monte Carlo ------------------------------------------------------------------------------
 
-def monte_carlo(nom: Nominal, corrections_tu, errors: Errors, trials: int, seed: int, lin: dict) -> dict:
+def monte_carlo(nom: Nominal, corrections_tu, errors: Errors, trials: int, seed: int, lin: dict,
+                runner=None) -> dict:
     """The Monte Carlo trials (module notes), nondimensional.
 
     Parameters
@@ -487,6 +488,11 @@ def monte_carlo(nom: Nominal, corrections_tu, errors: Errors, trials: int, seed:
         The run's seed.
     lin : dict
         :func:`linear_covariance` of the same arc (its gains and nominal states are reused).
+    runner : callable(function, tasks) -> list, optional
+        Runs the trials in pieces of :data:`PIECE_TRIALS` consecutive trials elsewhere
+        (``cr3bp.transfers.tasks.run_tasks`` bound to a pool or a dask cluster,
+        :func:`trials_piece`). Every draw is made here first, from the one seed, and every
+        trial is integrated on its own, so the result is the same bit for bit.
 
     Returns
     -------
@@ -516,11 +522,70 @@ def monte_carlo(nom: Nominal, corrections_tu, errors: Errors, trials: int, seed:
     z = rng.standard_normal((trials, 12 + 12 * k))
     X = np.repeat(nom.x0[None, :], trials, axis=0) + z[:, :6] * nav
     X[:, 3:] += s_p * burn * z[:, 6:9] + s_f * z[:, 9:12]
+    task = {"system": nom.system, "times": times, "X_nom": X_nom, "gains": gains, "nav": nav, "s_p": s_p,
+            "s_f": s_f}
+    if runner is None:
+        return trials_piece(dict(task, X=X, z=z))
+    parts = runner(trials_piece, [dict(task, X=np.ascontiguousarray(X[a:a + PIECE_TRIALS]),
+                                       z=np.ascontiguousarray(z[a:a + PIECE_TRIALS]))
+                                  for a in range(0, trials, PIECE_TRIALS)])
+    return {key: np.concatenate([p[key] for p in parts]) for key in ("dv", "final", "lost")}
+
+
+#: Trials per piece of a Monte Carlo run elsewhere (the runner groups pieces in chunks).
+PIECE_TRIALS = 64
+
+
+def trials_piece(task: dict) -> dict:
+    """Trials of :func:`monte_carlo` from their drawn starts (the worker function of a Monte
+    Carlo in pieces): each trial propagated to each correction, corrected with the linear
+    gains from its navigated state, and on to the insertion.
+
+    Parameters
+    ----------
+    task : dict
+        ``system``; ``X`` (n, 6) dispersed states after the last maneuver; ``z`` (n, 12 + 12k)
+        their standard normal draws; ``times``, ``X_nom``, ``gains`` of
+        :func:`linear_covariance`; ``nav`` (6,), ``s_p``, ``s_f`` the error sigmas
+        (nondimensional).
+
+    Returns
+    -------
+    dict
+        ``dv``, ``final``, ``lost`` of these trials, as :func:`monte_carlo`.
+
+    Raises
+    ------
+    ValueError
+        Arrays of mismatched shapes.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from cr3bp import system
+    >>> from cr3bp.operations.dispersion import trials_piece
+    >>> x = np.array([[0.8369, 0.0, 0.0, 0.0, 0.0, 0.0]])
+    >>> out = trials_piece({"system": system("earth-moon"), "X": x, "z": np.zeros((1, 12)),
+    ...                     "times": np.array([0.0, 0.1]), "X_nom": np.vstack([x, x]),
+    ...                     "gains": np.zeros((0, 3, 6)), "nav": np.zeros(6), "s_p": 0.0, "s_f": 0.0})
+    >>> out["dv"].shape, out["final"].shape, bool(out["lost"][0])
+    ((1, 0, 3), (1, 6), False)
+
+    References
+    ----------
+    Geller, D. K., "Linear covariance techniques for orbital rendezvous analysis and autonomous
+    onboard mission planning", Journal of Guidance, Control, and Dynamics 29(6), 1404 (2006)
+    (the Monte Carlo it is compared with).
+    """
+    system, times, X_nom, gains = task["system"], task["times"], task["X_nom"], task["gains"]
+    nav, s_p, s_f, X, z = task["nav"], task["s_p"], task["s_f"], task["X"], task["z"]
+    k = times.size - 2
+    trials = X.shape[0]
     lost = np.zeros(trials, dtype=bool)
     dv_out = np.zeros((trials, k, 3))
     for j in range(k + 1):
         dt = times[j + 1] - times[j]
-        res = propagate_batch(nom.system, X, dt, rtol=RTOL, atol=RTOL, on_failure="mark")
+        res = propagate_batch(system, X, dt, rtol=RTOL, atol=RTOL, on_failure="mark")
         X = res.states.copy()
         lost |= np.asarray(res.status) != "time"
         if j == k:
@@ -634,7 +699,8 @@ class Dispersion:
                 "seed": self.seed, "summary": self.summary(), "caution": caution("cr3bp")}
 
 
-def dispersion(nom: Nominal, corrections_tu, errors: Errors, trials: int, seed: int = 0) -> Dispersion:
+def dispersion(nom: Nominal, corrections_tu, errors: Errors, trials: int, seed: int = 0,
+               runner=None) -> Dispersion:
     """Insertion dispersion of ``nom`` with corrections under ``errors`` (module notes).
 
     Parameters
@@ -650,6 +716,9 @@ def dispersion(nom: Nominal, corrections_tu, errors: Errors, trials: int, seed: 
         Monte Carlo trials, 1..1000000.
     seed : int, optional
         The run's seed.
+    runner : callable(function, tasks) -> list, optional
+        Runs the Monte Carlo's trials in pieces elsewhere (:func:`monte_carlo`); the same result
+        bit for bit.
 
     Returns
     -------
@@ -692,5 +761,5 @@ def dispersion(nom: Nominal, corrections_tu, errors: Errors, trials: int, seed: 
         raise InputError(f"correction at {bad[0] * s.time_days:.6g} d must be after the last maneuver and at most "
                          f"{hi * s.time_days:.6g} d (before the insertion at {nom.tf_tu * s.time_days:.6g} d)")
     lin = linear_covariance(nom, c, errors)
-    mc = monte_carlo(nom, c, errors, n, seed, lin)
+    mc = monte_carlo(nom, c, errors, n, seed, lin, runner)
     return Dispersion(nom, c, errors, n, int(seed), lin, mc)

@@ -35,7 +35,7 @@ import numpy as np
 
 from ..errors import InputError, NoSolutionError
 from ..integrate import propagate_batch
-from ..tubes.manifolds import Stop, Tube, _globalise, branch_sign, on_energy, parse_until, step_lu
+from ..tubes.manifolds import Stop, Tube, _globalise, _globalise_pieces, branch_sign, on_energy, parse_until, step_lu
 from ..vocabulary import STABILITIES, TUBE_BRANCHES
 from . import circle, solver
 from .stability import UNIT_RTOL, map_matrix
@@ -366,7 +366,7 @@ def describe(torus) -> str:
 
 
 def grow_tube(torus, stability: str, branch: str, n_points: int = 200, until=None, *, step_km=None,
-              progress=None, origin=None) -> TorusTube:
+              progress=None, origin=None, runner=None) -> TorusTube:
     """Grow a half-manifold of a hyperbolic torus in one batch propagation (module notes).
 
     Parameters
@@ -380,6 +380,11 @@ def grow_tube(torus, stability: str, branch: str, n_points: int = 200, until=Non
 
     progress : callable, optional
     origin : str, optional               the tube's origin in words (default :func:`describe`)
+    runner : callable(function, tasks) -> list, optional
+        Runs the propagation in pieces elsewhere, as for an orbit's tube
+        (:func:`cr3bp.tubes.manifolds.grow_tube`: a pool or a dask cluster); the departure
+        grid is computed here, and the result is the same bit for bit (every trajectory is
+        integrated on its own).
 
     Returns
     -------
@@ -415,7 +420,10 @@ def grow_tube(torus, stability: str, branch: str, n_points: int = 200, until=Non
     th0, th1, tau, states, w, starts, m, d, d_km = manifold_starts(torus, stability, branch, n_points,
                                                                    step_km)
     sign = 1.0 if stability == "unstable" else -1.0
-    tof, ends, status = _globalise(system, starts, stop, sign, progress)
+    if runner is None:
+        tof, ends, status = _globalise(system, starts, stop, sign, progress)
+    else:
+        tof, ends, status = _globalise_pieces(system, starts, stop, sign, runner, progress)
     lam = m.lambda_unstable if stability == "unstable" else m.lambda_stable
     return TorusTube(system, origin or describe(torus), stability, branch, float(torus.jacobi),
                      float(torus.stroboscopic_time), m.modulus_unstable, d, d_km, th0 / (2 * math.pi),

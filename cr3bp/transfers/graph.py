@@ -41,7 +41,7 @@ from ..energy import necks, necks_between, realms_of
 from ..errors import InputError, LibrateError, NoSolutionError
 from ..integrate import propagate
 from ..orbits import PeriodicOrbit
-from ..orbits.request import solve_request
+from ..orbits.request import family_key, parse_request, solve_request
 from ..systems import from_mu, system as named_system
 from ..tubes.connections import connect
 from ..tubes.manifolds import Stop, describe, grow_tube
@@ -389,9 +389,16 @@ def energy_prune(system, c_from, c_to, r_from, r_to, maneuvers: str, point_from=
     return f"no maneuver allowed and the {'/'.join(sorted(closed))} neck is closed at C = {c_from:.9f}"
 
 
-def resolve_orbits(system, nodelist, catalog=None, progress=None) -> dict:
+def resolve_orbits(system, nodelist, catalog=None, progress=None, *, workers=None, scheduler=None,
+                   executor=None) -> dict:
     """Orbit node id -> its solved orbit: each orbit request of ``nodelist`` solved once by
     :func:`cr3bp.orbits.request.solve_request` (read from ``catalog`` when known).
+
+    Without a catalogue, each family is grown once for all the requests on it; with ``workers``
+    above 1 or a ``scheduler`` the families (and the tori) are independent tasks spread over a
+    process pool or a dask cluster (one task per family, :func:`solve_orbit_group`), each grown
+    exactly as here, so the orbits are the same bit for bit. With a catalogue the orbits are
+    solved here (the catalogue is written by this process alone).
 
     Parameters
     ----------
@@ -399,6 +406,12 @@ def resolve_orbits(system, nodelist, catalog=None, progress=None) -> dict:
     nodelist : cr3bp.transfers.nodes.NodeList
     catalog : cr3bp.catalog.Catalog, optional
     progress : callable(node, result), optional
+    workers : int, optional
+        Process-pool size for the families (default: here).
+    scheduler : str or distributed.Client, optional
+        A dask.distributed scheduler's address, ``"local:N"`` or a client instead.
+    executor : concurrent.futures.ProcessPoolExecutor, optional
+        A pool already started (:func:`cr3bp.transfers.tasks.start_pool`), left running.
 
     Returns
     -------
@@ -425,32 +438,133 @@ def resolve_orbits(system, nodelist, catalog=None, progress=None) -> dict:
     ----------
     Periodic orbits by differential correction and continuation: see :mod:`cr3bp.orbits`.
     """
+    wanted, seen = [], set()
+    for n in nodelist.nodes:
+        if isinstance(n, OrbitNode) and n.id not in seen:
+            seen.add(n.id)
+            wanted.append(n)
+    parallel = scheduler is not None or (workers is not None and workers > 1)
+    if catalog is None and parallel and wanted:
+        groups = orbit_groups(wanted)
+        spec = system_spec(system)
+        tasks = [{"system": spec, "requests": [(n.id, n.orbit, bool(n.is_torus)) for n in g]} for g in groups]
+        solved = {}
+        for part in tasks_mod.run_tasks(solve_orbit_group, tasks, workers, scheduler, executor=executor):
+            solved.update(part)
+        out = {}
+        for n in wanted:
+            out[n.id] = solved[n.id]
+            if progress is not None:
+                progress(n, out[n.id])
+        return out
     out = {}
     grown = {} if catalog is None else None     # each family grown once in a build without a catalogue
-    for n in nodelist.nodes:
-        if isinstance(n, OrbitNode) and n.id not in out and n.is_torus:
-            from ..tori import request as treq  # lazy: only for tori
-            try:
-                t = treq.solve(system, n.orbit, catalog=catalog)
-                out[n.id] = {"state": np.asarray(t.circle[0], dtype=float), "period": float(t.stroboscopic_time),
-                             "jacobi": float(t.jacobi), "family": t.family, "point": t.point,
-                             "branch": t.branch, "torus": True, "circle": np.asarray(t.circle, dtype=float),
-                             "rotation": float(t.rotation)}
-            except LibrateError as e:
-                out[n.id] = {"error": str(e)}
-            if progress is not None:
-                progress(n, out[n.id])
-        elif isinstance(n, OrbitNode) and n.id not in out:
-            try:
-                o = solve_request(system, n.orbit, catalog=catalog, grown=grown)
-                out[n.id] = {"state": np.asarray(o.state, dtype=float), "period": float(o.period),
-                             "jacobi": float(o.jacobi), "monodromy": np.asarray(o.monodromy).tolist(),
-                             "family": o.family, "point": o.point, "branch": o.branch}
-            except LibrateError as e:
-                out[n.id] = {"error": str(e)}
-            if progress is not None:
-                progress(n, out[n.id])
+    for n in wanted:
+        out[n.id] = _solve_node(system, n.id, n.orbit, n.is_torus, catalog, grown)
+        if progress is not None:
+            progress(n, out[n.id])
     return out
+
+
+def _solve_node(system, nid, text, is_torus, catalog=None, grown=None) -> dict:
+    """One orbit node's plain result (or ``{"error"}``)."""
+    if is_torus:
+        from ..tori import request as treq  # lazy: only for tori
+        try:
+            t = treq.solve(system, text, catalog=catalog)
+        except LibrateError as e:
+            return {"error": str(e)}
+        return {"state": np.asarray(t.circle[0], dtype=float), "period": float(t.stroboscopic_time),
+                "jacobi": float(t.jacobi), "family": t.family, "point": t.point,
+                "branch": t.branch, "torus": True, "circle": np.asarray(t.circle, dtype=float),
+                "rotation": float(t.rotation)}
+    try:
+        o = solve_request(system, text, catalog=catalog, grown=grown)
+    except LibrateError as e:
+        return {"error": str(e)}
+    return {"state": np.asarray(o.state, dtype=float), "period": float(o.period),
+            "jacobi": float(o.jacobi), "monodromy": np.asarray(o.monodromy).tolist(),
+            "family": o.family, "point": o.point, "branch": o.branch}
+
+
+def orbit_groups(nodes) -> list:
+    """Orbit nodes grouped so that each group is one independent task: the requests on one
+    family together (it is grown once for them), each torus alone; groups in the order of their
+    first node.
+
+    Parameters
+    ----------
+    nodes : sequence of cr3bp.transfers.nodes.OrbitNode
+
+    Returns
+    -------
+    list of list of OrbitNode
+
+    Raises
+    ------
+    None
+        A request that does not parse is a group of its own (its task reports the error).
+
+    Examples
+    --------
+    >>> from types import SimpleNamespace as N
+    >>> from cr3bp.transfers.graph import orbit_groups
+    >>> nodes = [N(id=i, orbit=o, is_torus=False) for i, o in
+    ...          enumerate(["lyapunov L1 jacobi=3.1", "halo L2 south jacobi=3.05", "lyapunov L1 jacobi=3.15"])]
+    >>> [[n.id for n in g] for g in orbit_groups(nodes)]
+    [[0, 2], [1]]
+
+    References
+    ----------
+    None: how this project groups its work (common practice).
+    """
+    keyed = {}
+    for n in nodes:
+        key = ("node", n.id)
+        if not n.is_torus:
+            try:
+                spec = parse_request(n.orbit)
+                key = (*family_key(spec), spec.resonance)
+            except LibrateError:
+                pass
+        keyed.setdefault(key, []).append(n)
+    return list(keyed.values())
+
+
+def solve_orbit_group(task: dict) -> dict:
+    """The orbits of one group of :func:`orbit_groups` (the worker function of a graph's orbits):
+    node id -> the plain result of :func:`resolve_orbits`, its family grown once for the group.
+
+    Parameters
+    ----------
+    task : dict
+        ``system`` (:func:`system_spec`) and ``requests``: ``(node id, request text, is torus)``.
+
+    Returns
+    -------
+    dict
+        Node id -> ``{"state", "period", ...}`` or ``{"error"}``.
+
+    Raises
+    ------
+    None
+        An orbit that cannot be solved is reported in the result.
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.transfers.graph import solve_orbit_group, system_spec
+    >>> solve_orbit_group({"system": system_spec(system("earth-moon")),
+    ...                    "requests": [("o", "lyapunov L1 colour=red", False)]})
+    {'o': {'error': "unknown target 'colour'; allowed: period, jacobi, ax, ay, az, x, perilune, resonance"}}
+
+    References
+    ----------
+    Periodic orbits by differential correction and continuation: see :mod:`cr3bp.orbits`.
+    """
+    system = system_from_spec(task["system"])
+    grown = {}
+    return {nid: _solve_node(system, nid, text, is_torus, None, grown) for nid, text, is_torus in task["requests"]}
 
 
 def _orbit_plain(o: dict) -> dict:
@@ -923,7 +1037,7 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
 
 # ---- running the tasks --------------------------------------------------------------------
 
-def run_tasks(tasks, workers=None, scheduler=None, progress=None) -> list:
+def run_tasks(tasks, workers=None, scheduler=None, progress=None, executor=None) -> list:
     """Results of :func:`compute_leg` over ``tasks``, in task order, run by
     :func:`cr3bp.transfers.tasks.run_tasks`.
 
@@ -936,11 +1050,13 @@ def run_tasks(tasks, workers=None, scheduler=None, progress=None) -> list:
     scheduler : str or distributed.Client, optional
         A dask.distributed scheduler's address or client (instead of the pool).
     progress : callable(done, total, record), optional
+    executor : concurrent.futures.ProcessPoolExecutor, optional
+        A pool already started (:func:`cr3bp.transfers.tasks.start_pool`), left running.
 
     Returns
     -------
     list of dict
-        The leg records.
+        The leg records, in task order (computed longest first: :func:`leg_cost`).
 
     Raises
     ------
@@ -959,7 +1075,48 @@ def run_tasks(tasks, workers=None, scheduler=None, progress=None) -> list:
     ``concurrent.futures``; Rocklin, "Dask: parallel computation with blocked algorithms and task
     scheduling", Proc. SciPy 2015.
     """
-    return tasks_mod.run_tasks(compute_leg, tasks, workers, scheduler, progress)
+    return tasks_mod.run_tasks(compute_leg, tasks, workers, scheduler, progress, executor=executor,
+                               cost=[leg_cost(t) for t in tasks])
+
+
+#: Estimated processor seconds of a leg by its method, on one thread (the 42-node graph of
+#: ``benchmarks/bench_graph.py``, 2026-12-03: parking legs 2.2 s on average, up to 21 s;
+#: a targeted arc 1.5 ms; manifold, capture and escape legs grow a tube of each end). Only the
+#: order matters: the legs are dealt longest first (:func:`cr3bp.transfers.tasks.deal`).
+LEG_COST_S = {"parking": 2.2, "manifold": 0.5, "capture": 0.5, "escape": 0.5, "targeted": 0.0015}
+
+
+def leg_cost(task: dict) -> float:
+    """A leg task's estimated processor seconds (:data:`LEG_COST_S` by its method), by which
+    :func:`run_tasks` deals the legs longest first; it changes where a leg runs, not its result.
+
+    Parameters
+    ----------
+    task : dict
+        A task of :func:`plan`.
+
+    Returns
+    -------
+    float
+        Estimated seconds (an unknown method counts as a targeted arc).
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.graph import leg_cost
+    >>> leg_cost({"method": "parking"}) > leg_cost({"method": "targeted"})
+    True
+
+    References
+    ----------
+    Graham, R. L., "Bounds on multiprocessing timing anomalies", SIAM Journal on Applied
+    Mathematics 17(2), 416-429 (1969) (longest-processing-time-first list scheduling; from
+    memory).
+    """
+    return LEG_COST_S.get(task.get("method"), LEG_COST_S["targeted"])
 
 
 def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None, progress=None,
@@ -1010,7 +1167,64 @@ def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None,
     Design*, 2011, ch. 3 (realms, necks) and ch. 7 (legs patched from manifolds) (from memory). Dijkstra, "A note on two problems in connexion with graphs", *Numerische Mathematik* 1,
     269-271, 1959 (the graph the route search runs on).
     """
-    orbits = resolve_orbits(system, nodelist, catalog)
+    if scheduler is None:
+        workers = tasks_mod.pool_size(workers)
+    with _shared_runner(workers, scheduler) as shared:
+        return _build(system, nodelist, workers, shared, catalog, progress, tof_days, patches)
+
+
+#: Families (orbit groups) from which a graph's orbits go to a pool (started for them, kept for
+#: the legs) rather than being solved in the client: a family takes about 0.15 s on one thread
+#: and a pool worker about 1.1 s to start (the 42-node graph, 2026-12-03/04, see
+#: docs/guide/scale-out.rst), so with 2 workers the pool wins from about 16 families.
+POOL_ORBIT_GROUPS = 16
+
+
+class _shared_runner:
+    """One pool (``workers`` above 1, started when a stage first has two tasks or more) or one
+    dask client (a scheduler's text) for the whole build, its orbits and then its legs, so that
+    the workers start once; closed at the end (a pool stopped at once on an error or Ctrl-C)."""
+
+    def __init__(self, workers, scheduler):
+        self.workers, self.scheduler = workers, scheduler
+        self.ex = self.client = self.cluster = None
+
+    def __enter__(self):
+        if isinstance(self.scheduler, str):
+            self.client, self.cluster = tasks_mod.dask_client(self.scheduler.strip(), self.workers)
+            self.scheduler = self.client
+        return self
+
+    def executor(self, n):
+        """The pool for ``n`` tasks (None: none needed, or a scheduler)."""
+        if self.ex is None and self.scheduler is None and self.workers > 1 and n > 1:
+            self.ex = tasks_mod.start_pool(self.workers)
+        return self.ex
+
+    def __exit__(self, kind, value, tb):
+        if self.ex is not None:
+            if kind is None:
+                self.ex.shutdown(wait=True)
+            else:
+                tasks_mod.stop_pool(self.ex)
+        if self.client is not None:
+            tasks_mod.close_dask(self.client, self.cluster)
+        return False
+
+
+def _build(system, nodelist, workers, shared, catalog, progress, tof_days, patches):
+    scheduler = shared.scheduler
+    orbit_nodes = list({n.id: n for n in nodelist.nodes if isinstance(n, OrbitNode)}.values())
+    if catalog is not None or not orbit_nodes:
+        orbits = resolve_orbits(system, nodelist, catalog)
+    elif scheduler is not None:          # a cluster's workers: one task per family
+        orbits = resolve_orbits(system, nodelist, workers=workers, scheduler=scheduler)
+    elif len(orbit_groups(orbit_nodes)) >= POOL_ORBIT_GROUPS:
+        # a pool, started for the orbits (enough families to outweigh its start-up) and kept for the legs
+        orbits = resolve_orbits(system, nodelist, workers=workers, executor=shared.executor(len(orbit_nodes)))
+    else:
+        # a pool: started for the legs (only when there are two or more), the orbits solved here
+        orbits = resolve_orbits(system, nodelist)
     tasks, pruned = plan(system, nodelist, tof_days, patches, orbits)
     legs: list = [None] * len(tasks)
     todo = []
@@ -1040,7 +1254,7 @@ def build_graph(system, nodelist, *, workers=None, scheduler=None, catalog=None,
             progress(done, total, leg)
 
     try:
-        results = run_tasks([tasks[i] for i in todo], workers, scheduler, tick)
+        results = run_tasks([tasks[i] for i in todo], workers, scheduler, tick, executor=shared.executor(len(todo)))
     finally:
         flush()
     for i, record in zip(todo, results):

@@ -10,8 +10,8 @@ same result wherever it runs.
 
 from __future__ import annotations
 
+import heapq
 import logging
-import math
 import multiprocessing
 import os
 import re
@@ -27,7 +27,7 @@ CHUNKS_PER_WORKER = 4
 
 
 def run_tasks(function, tasks, workers=None, scheduler=None, progress=None, *,
-              chunks_per_worker=CHUNKS_PER_WORKER, executor=None) -> list:
+              chunks_per_worker=CHUNKS_PER_WORKER, executor=None, cost=None) -> list:
     """``[function(t) for t in tasks]``, in task order, computed in parallel.
 
     ``function`` must be a module-level function (it is pickled by reference) that never
@@ -55,6 +55,10 @@ def run_tasks(function, tasks, workers=None, scheduler=None, progress=None, *,
     executor : concurrent.futures.ProcessPoolExecutor, optional
         A pool already started (:func:`start_pool`, ``workers`` its size): used, and left
         running for its owner to shut down.
+    cost : list of float, optional
+        Each task's estimated cost (any unit): the tasks are then dealt longest first
+        (:func:`deal`) and the heaviest chunks submitted first, instead of round robin
+        (:func:`split`). Changes only where and when a task runs, never its result.
 
     Returns
     -------
@@ -91,10 +95,12 @@ def run_tasks(function, tasks, workers=None, scheduler=None, progress=None, *,
 
     if n == 0:
         return []
+    if cost is not None and len(cost) != n:
+        raise InputError(f"cost has {len(cost)} values for {n} tasks")
     if scheduler is not None:
-        _on_dask(function, tasks, scheduler, workers, tick, chunks_per_worker)
+        _on_dask(function, tasks, scheduler, workers, tick, chunks_per_worker, cost)
         return out
-    workers = (os.cpu_count() or 1) if workers is None else validate.whole_number("--workers", workers, 1)
+    workers = pool_size(workers)
     if workers == 1 or n == 1:
         for i, t in enumerate(tasks):
             tick(i, function(t))
@@ -104,7 +110,7 @@ def run_tasks(function, tasks, workers=None, scheduler=None, progress=None, *,
     # pool therefore needs the usual `if __name__ == "__main__":` guard
     # legs take milliseconds with the compiled integrator: send them in chunks (a few per
     # worker) so that process start-up and pickling do not outweigh the work
-    chunks = split(n, workers, chunks_per_worker)
+    chunks = split(n, workers, chunks_per_worker) if cost is None else deal(cost, workers, chunks_per_worker)
     # each worker's compiled kernels get their share of the cores (no more threads than cores)
     ex = executor if executor is not None else start_pool(min(workers, len(chunks)))
     try:
@@ -122,6 +128,36 @@ def run_tasks(function, tasks, workers=None, scheduler=None, progress=None, *,
     if executor is None:
         ex.shutdown(wait=True)
     return out
+
+
+def pool_size(workers=None) -> int:
+    """The pool size ``workers`` means: the machine's cores when None, else the whole number
+    given (at least 1).
+
+    Parameters
+    ----------
+    workers : int, optional
+
+    Returns
+    -------
+    int
+
+    Raises
+    ------
+    InputError
+        ``workers`` not a whole number of at least 1.
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.tasks import pool_size
+    >>> pool_size(3), pool_size(None) >= 1
+    (3, True)
+
+    References
+    ----------
+    Python documentation, ``os.cpu_count`` (common practice).
+    """
+    return (os.cpu_count() or 1) if workers is None else validate.whole_number("--workers", workers, 1)
 
 
 def start_pool(workers: int, warm=None):
@@ -221,14 +257,75 @@ def split(n: int, workers: int, chunks_per_worker: int = CHUNKS_PER_WORKER) -> l
     return [list(range(c, n, k)) for c in range(k)]
 
 
-def _on_dask(function, tasks, scheduler, workers, tick, chunks_per_worker):
+def deal(cost, workers: int, chunks_per_worker: int = CHUNKS_PER_WORKER) -> list:
+    """Task indices dealt longest first: tasks taken in order of falling estimated ``cost`` (ties
+    in task order), each into the chunk whose estimated total is least so far (ties: the first
+    such chunk), and the chunks returned heaviest first, so that a pool, which starts chunks in
+    the order they are submitted, starts the longest work first and fills in with the short
+    (longest-processing-time-first list scheduling). Same chunk count as :func:`split`; results
+    are put back in task order, so the dealing changes no result.
+
+    Parameters
+    ----------
+    cost : sequence of float
+        Each task's estimated cost (any unit; only the order and sums matter).
+    workers : int
+        Number of workers (a value below 1 counts as 1).
+    chunks_per_worker : int
+        Chunks per worker.
+
+    Returns
+    -------
+    list of list of int
+        At most ``chunks_per_worker * workers`` (and at most ``len(cost)``) non-empty chunks,
+        covering every index once, each chunk's indices in increasing order; chunks in order of
+        falling estimated total.
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.transfers.tasks import deal
+    >>> deal([1, 1, 1, 1, 9, 1], 1, 2)
+    [[4], [0, 1, 2, 3, 5]]
+    >>> deal([5, 4, 3, 3, 2, 1], 1, 2)
+    [[0, 3, 5], [1, 2, 4]]
+
+    References
+    ----------
+    Graham, R. L., "Bounds on multiprocessing timing anomalies", SIAM Journal on Applied
+    Mathematics 17(2), 416-429 (1969) (longest-processing-time-first; from memory).
+    """
+    n = len(cost)
+    k = max(1, min(n, chunks_per_worker * max(1, int(workers))))
+    if n == 0:
+        return []
+    order = sorted(range(n), key=lambda i: (-float(cost[i]), i))
+    totals = [(0.0, c) for c in range(k)]
+    heapq.heapify(totals)
+    chunks = [[] for _ in range(k)]
+    for i in order:
+        total, c = heapq.heappop(totals)
+        chunks[c].append(i)
+        heapq.heappush(totals, (total + float(cost[i]), c))
+    weight = {c: t for t, c in totals}
+    ranked = sorted(range(k), key=lambda c: (-weight[c], c))
+    return [sorted(chunks[c]) for c in ranked if chunks[c]]
+
+
+def _on_dask(function, tasks, scheduler, workers, tick, chunks_per_worker, cost=None):
     """run_tasks on a dask cluster: the tasks in chunks (as the pool's), one future a chunk."""
     client, cluster = dask_client(scheduler, workers)     # an InputError without dask.distributed
     from distributed import as_completed   # lazy: heavy library (dask, an optional extra)
     try:
         k = max(1, len(client.scheduler_info().get("workers", {})) or 1)
-        chunks = split(len(tasks), k, chunks_per_worker)
-        futures = [client.submit(apply_chunk, function, [tasks[i] for i in c], pure=False) for c in chunks]
+        chunks = split(len(tasks), k, chunks_per_worker) if cost is None else deal(cost, k, chunks_per_worker)
+        # heaviest chunks first: submission order and a falling priority (dask runs higher first)
+        futures = [client.submit(apply_chunk, function, [tasks[i] for i in c], pure=False,
+                                 priority=len(chunks) - j if cost is not None else 0)
+                   for j, c in enumerate(chunks)]
         index = {f.key: c for f, c in zip(futures, chunks)}
         for f in as_completed(futures):
             for i, r in zip(index[f.key], f.result()):
