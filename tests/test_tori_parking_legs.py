@@ -265,3 +265,40 @@ def test_seam_scenario_transfer_from_a_torus_to_a_lunar_orbit_equals_connect(tor
     lib = cr3bp.connect(torus, "parking moon 100km", points=POINTS)[0]
     assert best["dv_total_mps"] == pytest.approx(lib.dv_mps, rel=1e-9)
     assert best["legs"][0]["kind"] == "parking"
+
+
+@pytest.mark.parametrize("ends", [("--from=parking moon 100km", f"--to={REQUEST}"),
+                                  (f"--from={REQUEST}", "--to=parking moon 100km")])
+def test_connect_refuses_a_torus_that_is_not_hyperbolic_in_one_line(torus, capsys, tmp_path, monkeypatch, ends):
+    """The refusal of tests/test_bad_input_cli.py's table (one line, exit 2, nothing written), for a
+    torus whose stability says it is not hyperbolic (the solved torus with its stability replaced:
+    no Earth-Moon quasi-halo the requests reach is elliptic, the halo family's stable stretch
+    ends below the Moon's surface)."""
+    import dataclasses
+
+    from cr3bp.tori import request as treq_mod
+    from test_bad_input_cli import refused
+    elliptic = dataclasses.replace(torus, stability=dict(torus.stability, kind="neutrally stable (elliptic)",
+                                                         largest_modulus=1.0))
+    monkeypatch.setattr(treq_mod, "solve", lambda *a, **k: elliptic)
+    monkeypatch.chdir(tmp_path)
+    line, _ = refused(capsys, ["connect", "--system=earth-moon", *ends, "--format=json", f"--out={tmp_path}/c.json",
+                               "--map=m.png", "-q"])
+    assert "the torus is not hyperbolic (largest multiplier modulus 1): it has no stable or unstable manifold " \
+           "to a parking orbit through a periapsis" in line, line
+    assert REQUEST in line
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_a_rebuild_reads_the_torus_legs_from_the_catalogue(built, tmp_path):
+    """The four legs are cached like an orbit's: a second build computes none and gives the same
+    records (the catalogue's JSON round trip, Leg.from_record)."""
+    from cr3bp.catalog import Catalog
+    with Catalog(str(tmp_path / "c.sqlite")) as cat:
+        first = build_graph(EM, parse_nodes(NODES, EM), workers=1, catalog=cat)
+        again = build_graph(EM, parse_nodes(NODES, EM), workers=1, catalog=cat)
+    assert (first.computed, again.computed, again.cached) == (4, 0, 4)
+    rec = {(g.origin, g.target): g.record() for g in again.legs}
+    for g in built.legs:
+        assert rec[(g.origin, g.target)]["dv_mps"] == g.dv_mps
+        assert rec[(g.origin, g.target)]["details"]["torus_phase_deg"] == g.record()["details"]["torus_phase_deg"]

@@ -320,7 +320,7 @@ def torus_parking_legs(torus, primary, altitude_km, *, stability="stable", branc
     >>> torus_parking_legs(example_torus(), "moon", -5.0)
     Traceback (most recent call last):
     ...
-    cr3bp.errors.InputError: parking altitude (km) = -5.0 is out of range; allowed: at least 0.0
+    cr3bp.errors.InputError: parking altitude (km) '-5.0' is outside the allowed range [0, inf)
 
     References
     ----------
