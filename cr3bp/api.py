@@ -681,7 +681,10 @@ def connect(origin, target, *, system=None, section="x=1-mu", points=None, cross
         (``"parking moon 100km"``) at one end, or a torus (from :func:`torus`) or torus request
         (``"quasi-halo around halo L1 north az=10000km amplitude=300km"``): the unstable manifold
         of the first joined to the stable manifold of the second on ``section`` (a position
-        plane; :mod:`cr3bp.tori.connections`; 100 trajectories per manifold by default).
+        plane; :mod:`cr3bp.tori.connections`; 100 trajectories per manifold by default). A
+        parking orbit and a hyperbolic torus: the torus's stable (arrival) or unstable
+        (departure) manifold through its first periapsis at the parking altitude
+        (:mod:`cr3bp.tori.parking`), as for an orbit.
     system : System or str, optional
         Needed when neither end is a PeriodicOrbit.
     section : str
@@ -706,7 +709,8 @@ def connect(origin, target, *, system=None, section="x=1-mu", points=None, cross
     full : bool
         Also return what the legs came from (for figures): ``(legs, tubes, periapsis_map)``,
         the two tubes cut by the section (orbit to orbit; else ``[]``) and the periapsis map
-        of a parking-orbit leg (else None).
+        of a parking-orbit leg (a :class:`cr3bp.tori.parking.TorusPeriapsisMap` for a torus;
+        else None).
     on_map : callable(PeriapsisMap), optional
         Parking-orbit leg: called with the periapsis map before the legs are searched, so a
         figure of it can show why none is found (``librate connect --map``).
@@ -720,9 +724,10 @@ def connect(origin, target, *, system=None, section="x=1-mu", points=None, cross
     Raises
     ------
     InputError
-        Both ends parking orbits, a malformed request or section.
+        Both ends parking orbits, a malformed request or section, a parking orbit and a torus
+        that is not hyperbolic.
     NoSolutionError
-        The tubes do not meet on the section.
+        The tubes do not meet on the section; no periapsis reaches the parking altitude.
 
     Examples
     --------
@@ -783,6 +788,10 @@ def connect(origin, target, *, system=None, section="x=1-mu", points=None, cross
         if within_km is not None:
             raise InputError(f"arrival_within {arrival_within!r} measures the approach to an arrival periodic "
                              "orbit; it does not apply to a leg with a torus")
+        if pa or pb:
+            legs, pm = _torus_parking(target if tb else origin, pa or pb, bool(pa), sysm, points, step_off,
+                                      t_max, candidates, to_branch if pa else from_branch, progress, on_map)
+            return (legs, [], pm) if full else legs
         legs = _connect_tori(origin, target, ta, tb, pa, pb, sysm, _orbit, section, points, step_off, t_max,
                              candidates, from_branch, to_branch, crossing)
         return (legs, [], None) if full else legs
@@ -820,16 +829,33 @@ def _torus_end(end) -> bool:
     return type(end).__name__ == "Torus" or is_torus_request(end)
 
 
+def _torus_parking(end, parking, arrive, sysm, points, step_off, t_max, candidates, branch, progress, on_map):
+    """:func:`connect` between a parking orbit and a torus (:mod:`cr3bp.tori.parking`): the
+    torus's stable manifold to arrive (``arrive``), its unstable one to leave; ``(legs, map)``."""
+    from .tori import request as treq  # lazy: heavy library (scipy, via cr3bp.tori)
+    from .tori.manifolds import describe  # lazy: heavy library (scipy, via cr3bp.tori)
+    from .tori.parking import not_hyperbolic, torus_parking_legs, torus_periapsis_map  # lazy: heavy library (scipy, via cr3bp.tori)
+    primary, alt = parking
+    torus_ = treq.solve(sysm, end) if isinstance(end, str) else end
+    why = not_hyperbolic(torus_.stability, "parking orbit through a periapsis")
+    if why:
+        raise InputError(f"the torus '{end if isinstance(end, str) else describe(torus_)}' is {why}")
+    stability = "stable" if arrive else "unstable"
+    branch = branch or ("interior" if primary == 1 else "exterior")
+    n = points or 100
+    pm = torus_periapsis_map(torus_, primary, stability, branch, n, t_max=t_max, step_km=step_off,
+                             progress=progress)
+    if on_map is not None:
+        on_map(pm)
+    return torus_parking_legs(torus_, primary, alt, stability=stability, branch=branch, n_points=n, t_max=t_max,
+                              step_km=step_off, max_legs=candidates, pmap=pm), pm
+
+
 def _connect_tori(origin, target, ta, tb, pa, pb, sysm, as_orbit, section, points, step_off, t_max,
                   candidates, from_branch, to_branch, crossing):
     """:func:`connect` with a torus at one end or both (:mod:`cr3bp.tori.connections`)."""
     from .tori import connections as tc  # lazy: heavy library (scipy, via cr3bp.tori)
     from .tori import request as treq  # lazy: heavy library (scipy, via cr3bp.tori)
-    if pa or pb:
-        raise InputError("a parking orbit and a torus: the leg from an Earth parking orbit to a torus is a "
-                         "departure, cr3bp.tori.departure.design_torus_departure (librate connect --path direct "
-                         "or lunar-flyby), the way back a return, cr3bp.transfers.returns.design_return; other "
-                         "parking legs of tori are not built yet")
     if crossing != 1:
         raise InputError(f"crossing {crossing}: connections with a torus use the first crossing of the section")
 

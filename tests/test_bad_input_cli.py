@@ -753,8 +753,15 @@ def value_cases():
                                          "--to=lissajous L2 ay=300000km az=150000km", "--path=direct"])
     add("connect-torus-path-from-torus", ["connect", EM, TQ2.replace("--from", "--from"),
                                           "--to=halo L2 south resonance=9:2", "--path=direct"])
-    add("connect-torus-parking-without-path", ct)
-    add("connect-torus-to-parking", ["connect", EM, TQ2, "--to=parking earth 200km"])
+    # (a parking orbit and a torus without --path: the torus's manifold through a periapsis,
+    # tests/test_tori_parking_legs.py; refused before the torus is solved:)
+    lq = ["connect", EM, "--from=parking moon 100km", TQ1]
+    add("connect-torus-parking-map-suffix", lq + ["--map={out}/m.bmp"])
+    add("connect-torus-parking-epoch", lq + ["--epoch=2027-03-01T00:00:00Z"])
+    add("connect-torus-parking-inclination", lq + ["--inclination=10deg"])
+    add("connect-torus-parking-arrival-within", ["connect", EM, TQ2, "--to=parking moon 100km",
+                                                 "--arrival-within=1000km"])
+    add("connect-torus-parking-altitude", ["connect", EM, TQ2, "--to=parking moon -100km"])
     add("connect-torus-optimise", ["connect", EM, TQ2, TQ1, "--optimise"])
     add("connect-torus-impulses-without-optimise", ["connect", EM, TQ2, TQ1, "--impulses=2"])
     add("connect-torus-arrival-within", ["connect", EM, TQ2, TQ1, "--arrival-within=1000km"])

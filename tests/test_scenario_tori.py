@@ -227,21 +227,8 @@ def test_scenario_torus_refusals_before_writing(tmp_path, capsys, change, patter
     assert re.search(r"s\.toml:\d+: " + pattern, err), err
 
 
-def test_a_transfer_from_a_torus_to_a_lunar_parking_orbit_is_refused(tmp_path, capsys):
-    # a torus to an Earth parking orbit is a return (tests/test_tori_flyby_and_returns.py); to the
-    # Moon's is not built
-    text = SCENARIO.format(request=REQUEST, p0=0.0, p1=0.0) + (
-        '\n[[transfers]]\nname = "back"\nfrom = "ring"\nto = "parking moon 100km"\n')
-    err = _refusal(tmp_path, capsys, text)
-    assert re.search(r"transfers\[0\]\.to: 'parking moon 100km': a leg from the torus 'ring' to a parking orbit "
-                     r"is a direct return to an Earth parking orbit", err), err
-
-
-def test_a_transfer_from_a_lunar_parking_orbit_to_a_torus_is_refused(tmp_path, capsys):
-    text = SCENARIO.format(request=REQUEST, p0=0.0, p1=0.0) + (
-        '\n[[transfers]]\nname = "down"\nfrom = "parking moon 100km"\nto = "ring"\n')
-    err = _refusal(tmp_path, capsys, text)
-    assert re.search(r"transfers\[0\]\.from: 'parking moon 100km': a leg from a parking orbit to the torus", err), err
+# (transfers between a torus and a lunar parking orbit run through the torus's manifolds:
+# tests/test_tori_parking_legs.py)
 
 
 def test_orbit_table_without_family_or_torus_is_refused(tmp_path, capsys):

@@ -1,6 +1,7 @@
 """librate connect with a quasi-periodic torus at one end or both: manifold connections between a
-torus and a periodic orbit or another torus on a section (:mod:`cr3bp.tori.connections`), and
-direct departures from an Earth parking orbit to a torus (``--path direct``,
+torus and a periodic orbit or another torus on a section (:mod:`cr3bp.tori.connections`), legs
+between a parking orbit and a torus through its manifold's periapsis (:mod:`cr3bp.tori.parking`),
+and direct departures from an Earth parking orbit to a torus (``--path direct``,
 :mod:`cr3bp.tori.departure`)."""
 
 from .. import common
@@ -20,10 +21,7 @@ def run(args, system, pa, pb, t_max):
     if args.optimise:
         raise InputError("--optimise designs transfers between periodic orbits; it does not take a torus "
                          f"({args.origin if ta else args.target!r})")
-    if pb is not None:
-        if args.path is None or not ta:
-            raise InputError(f"from a torus to a parking orbit, give --path direct or --path lunar-flyby (a "
-                             f"return designed as the time-reverse of a departure); --to {args.target!r}")
+    if pb is not None and args.path is not None:
         from . import _return
         return _return.run(args, system, pb)
     from . import _optimise
@@ -33,26 +31,24 @@ def run(args, system, pa, pb, t_max):
             raise InputError(f"--path {args.path} designs a departure from a parking orbit: --from must be "
                              f"'parking earth ALTITUDE', not the torus {args.origin!r}")
         return _departure(args, system, pa, torus_request(system, args.target, args))
-    if pa is not None:
-        raise InputError(f"from a parking orbit to a torus, give --path direct (a direct departure, the "
-                         f"insertion point free over the torus); manifold legs through periapsis of tori "
-                         f"are not built yet ({args.origin!r} -> {args.target!r})")
     if args.epoch is not None:
         raise InputError("--epoch dates a departure from a parking orbit; give it with --path")
     from . import _departure as depcli
     depcli.refuse_dated(args, "to a connection between a torus and an orbit")
-    if args.map:
+    if args.map and pa is None and pb is None:
         raise InputError("--map draws the periapsis map of a parking-orbit leg; one end must be 'parking ...'")
     if args.arrival_within is not None:
         raise InputError(f"--arrival-within {args.arrival_within!r} measures the approach to an arrival "
                          "periodic orbit; it does not apply to a leg with a torus")
-    if args.crossing != 1:
-        raise InputError(f"--crossing {args.crossing}: connections with a torus use the first crossing "
-                         "of the section")
     for name, d in (("--max-tof", args.max_tof), ("--inclination", args.inclination),
                     ("--min-flyby-altitude", args.min_flyby_altitude)):
         if d is not None:
             raise InputError(f"{name} goes with --path (a departure from a parking orbit)")
+    if pa is not None or pb is not None:
+        return _parking(args, system, pa, pb, t_max)
+    if args.crossing != 1:
+        raise InputError(f"--crossing {args.crossing}: connections with a torus use the first crossing "
+                         "of the section")
     from cr3bp.tubes.sections import parse_section
     sec = parse_section(args.section, system)
     if sec.kind != "plane" or sec.coordinate > 2:
@@ -80,6 +76,79 @@ def run(args, system, pa, pb, t_max):
                        candidates=args.candidates, from_branch=fb, to_branch=tb_)
     return _emit_legs(args, system, legs, oa, ob, f"unstable ({fb}) and stable ({tb_}) manifolds cut by "
                       f"{args.section}, positions matched by Newton's method on the departure phases")
+
+
+def _parking(args, system, pa, pb, t_max):
+    """A parking orbit and a torus: the torus's stable (arrival) or unstable (departure)
+    manifold through its first periapsis at the parking altitude (cr3bp.tori.parking), as
+    connect's parking-orbit legs of a periodic orbit."""
+    import math
+
+    from cr3bp import api
+    from cr3bp.errors import InputError
+    from cr3bp.tori import request as treq
+    from cr3bp.tori.parking import not_hyperbolic
+    from . import _tube_options as to
+    from .connect import HEADERS, _tof_text
+    from .manifold import torus_request
+    primary, alt = pa or pb
+    opt, req = ("--to", args.target) if pa else ("--from", args.origin)
+    spec = torus_request(system, req, args)
+    stability = "stable" if pa else "unstable"
+    branch = (args.to_branch if pa else args.from_branch) or ("interior" if primary == 1 else "exterior")
+    common.progress(args, f"librate connect: solving the torus '{req}'...")
+    torus = treq.solve(system, spec, progress=lambda m: common.progress(args, m, verbose_only=True))
+    why = not_hyperbolic(torus.stability, "parking orbit through a periapsis")
+    if why:
+        raise InputError(f"{opt} {req!r}: the torus is {why}")
+    n = args.points or 100
+    common.progress(args, f"librate connect: periapsis map of {n} {stability} {branch} trajectories of the torus "
+                    f"about {system.names[primary]}...")
+
+    def draw(pm):
+        if args.map and not any(math.isfinite(a) for a in pm.altitude_km):
+            common.progress(args, f"no trajectory reached a periapsis about {system.names[primary]}: "
+                            f"{args.map} not written")
+        elif args.map:
+            from cr3bp.plotting import save
+            from cr3bp.plotting.manifolds import plot_periapsis_map
+            ax = plot_periapsis_map(pm, target_km=alt)
+            save(ax.figure, args.map, f"first close periapsis about {system.names[primary]} of each {stability} "
+                 f"{branch} trajectory of {pm.origin}; colour: departure phase along the stroboscopic period")
+            common.progress(args, f"wrote {args.map}")
+    legs, _, _ = api.connect(args.origin if pa else torus, torus if pa else args.target, system=system, points=n,
+                             time=t_max, step_off=args.step_off, candidates=args.candidates,
+                             from_branch=None if pa else branch, to_branch=branch if pa else None,
+                             progress=to.progress_printer(args), on_map=draw, full=True)
+    rows = [[k + 1, g.kind, g.dv_mps, g.tof_arrival_days, g.tof_days, None, *map(float, g.patch_state),
+             None if math.isinf(g.min_altitude_km) else g.min_altitude_km] for k, g in enumerate(legs)]
+    best = legs[0]
+    d, per = best.details, best.details["periapsis"]
+    head = [f"{args.origin} -> {args.target}: {len(legs)} leg(s) via the torus's {stability} manifold ({branch}), "
+            f"periapsis at {alt:g} km above {system.names[primary]}",
+            f"best: {best.kind}, CR3BP dv {best.dv_mps:.6g} m/s, {_tof_text(best)}",
+            f"method: {best.method}",
+            f"periapsis: altitude {per['altitude_km']:.3f} km, inertial speed {per['speed_inertial_kms']:.4f} km/s, "
+            f"circular {per['speed_circular_kms']:.4f} km/s, inclination {per['inclination_deg']:.3f} deg (to the "
+            "primaries' orbit plane)",
+            "dv = |v + omega x r| - sqrt(GM/r) at periapsis (tangential burn)",
+            f"torus phase of the best leg's step-off point (deg, along the stroboscopic period and around the "
+            f"invariance circle): {d['torus_phase_deg'][0]:.3f}, {d['torus_phase_deg'][1]:.3f}; step-off "
+            f"{d['step_off_km']:g} km; Jacobi constant of the torus {torus.jacobi:.10f}",
+            "tof_stepoff_days: from periapsis to the manifold's step-off point on the torus (CR3BP)"]
+    if args.plot:
+        from cr3bp.plotting import save
+        from cr3bp.plotting.manifolds import plot_connection
+        common.progress(args, "drawing the legs...")
+        ax = plot_connection(legs[:3], [])
+        save(ax.figure, args.plot, f"{args.origin} -> {args.target}; best dv {best.dv_mps:.4g} m/s, "
+             f"{_tof_text(best)}; rotating frame (CR3BP)")
+        common.progress(args, f"wrote {args.plot}")
+    table = "\n".join(head) + "\n\n" + common.format_table(HEADERS, rows)
+    common.emit(args, payload={"from": args.origin, "to": args.target, "model": "cr3bp",
+                               "legs": [g.to_dict() for g in legs]},
+                headers=HEADERS, rows=rows, table=table, comments=head)
+    return 0
 
 
 def _emit_legs(args, system, legs, a, b, how):

@@ -28,8 +28,10 @@ def add_arguments(p):
                         "quasi-periodic torus request ('quasi-halo around halo L1 north az=10000km "
                         "amplitude=300km', 'lissajous L2 ay=30000km az=20000km'). With a torus at one end or "
                         "both, the leg joins the unstable manifold of the first to the stable manifold of "
-                        "the second on --section (a position plane; the torus phases are free); from "
-                        "'parking earth ALTITUDE' to a torus give --path direct or lunar-flyby (the insertion "
+                        "the second on --section (a position plane; the torus phases are free); between a "
+                        "parking orbit and a hyperbolic torus, its stable or unstable manifold through a "
+                        "periapsis at the parking altitude, as for an orbit; from 'parking earth ALTITUDE' "
+                        "to a torus --path direct or lunar-flyby designs a departure instead (the insertion "
                         "point free over both torus angles)")
     p.add_argument("--to", dest="target", required=True, metavar="WHAT",
                    help="arrival, same forms as --from; 'parking earth ALTITUDE' after an Earth-Moon orbit or "

@@ -234,20 +234,6 @@ def prepare(path) -> Plan:
         for v in t.get("via", []):
             if v not in known:
                 add(f"transfers[{i}].via", InputError(f"'{v}' is not an orbit of this scenario"))
-        first = [*t.get("via", []), t["to"]][0]            # the node the first leg reaches
-        words = str(t["from"]).split()
-        if first in tori and words[:1] == ["parking"] and not (
-                system is not None and system.name == "earth-moon" and words[1:2] == ["earth"]):
-            add(f"transfers[{i}].from", InputError(
-                f"'{t['from']}': a leg from a parking orbit to the torus '{first}' is a direct departure from an "
-                "Earth parking orbit in the earth-moon system ('parking earth ALTITUDE'); others are not built yet"))
-        last = [t["from"], *t.get("via", [])][-1]          # the node the last leg leaves
-        words = str(t["to"]).split()
-        if last in tori and words[:1] == ["parking"] and not (
-                system is not None and system.name == "earth-moon" and words[1:2] == ["earth"]):
-            add(f"transfers[{i}].to", InputError(
-                f"'{t['to']}': a leg from the torus '{last}' to a parking orbit is a direct return to an Earth "
-                "parking orbit in the earth-moon system ('parking earth ALTITUDE'); others are not built yet"))
     objects = known | {t["name"] for t in transfers}
     for i, ex in enumerate(data.get("exports", [])):
         if ex["object"] not in objects:

@@ -113,8 +113,10 @@ def transfer_nodes(plan, index: int, transfer: dict):
                             else float(plan.epoch)}
                 nodes.append(parking_node(n, system, parts[1], parts[2], path=path, **site))
             elif "torus" in plan.data["orbits"][n]:
-                # a torus: its node's reference state is the torus at phase (0, 0); a leg from a
-                # parking orbit is a direct departure over both torus angles (cr3bp.tori.departure)
+                # a torus: its node's reference state is the torus at phase (0, 0); a leg from an
+                # Earth parking orbit is a direct departure over both torus angles
+                # (cr3bp.tori.departure), one from another parking orbit runs through the torus's
+                # manifold's periapsis (cr3bp.tori.parking)
                 nodes.append(orbit_node(n, system, plan.data["orbits"][n]["torus"]))
             else:
                 nodes.append(orbit_node(n, system, orbit_text(plan.data["orbits"][n])))

@@ -477,7 +477,7 @@ def _solve_node(system, nid, text, is_torus, catalog=None, grown=None) -> dict:
         return {"state": np.asarray(t.circle[0], dtype=float), "period": float(t.stroboscopic_time),
                 "jacobi": float(t.jacobi), "family": t.family, "point": t.point,
                 "branch": t.branch, "torus": True, "circle": np.asarray(t.circle, dtype=float),
-                "rotation": float(t.rotation)}
+                "rotation": float(t.rotation), "stability": dict(t.stability)}
     try:
         o = solve_request(system, text, catalog=catalog, grown=grown)
     except LibrateError as e:
@@ -618,15 +618,24 @@ def _manifold_leg(system, task) -> Leg:
     return best.with_patches(st["patches"])
 
 
+def _is_torus(obj) -> bool:
+    """A quasi-periodic torus (cr3bp.tori.Torus) rather than a periodic orbit."""
+    return type(obj).__name__ == "Torus"
+
+
 def _periapsis_legs(orbit, body, altitude_km, stability, n_points) -> list:
-    """Legs of :func:`cr3bp.tubes.parking.parking_legs` through the orbit's manifold and its first
+    """Legs of :func:`cr3bp.tubes.parking.parking_legs` (a torus:
+    :func:`cr3bp.tori.parking.torus_parking_legs`) through the orbit's manifold and its first
     periapsis at ``altitude_km`` over ``body``: the interior branch, then the exterior one if
     the interior gives none. Raises NoSolutionError with both branches' reasons."""
     found, reasons = [], []
+    legs_of = parking_legs
+    if _is_torus(orbit):
+        from ..tori.parking import torus_parking_legs as legs_of  # lazy: only for tori
     for branch in TUBE_BRANCHES:
         try:
-            found += parking_legs(orbit, body, altitude_km, stability=stability, branch=branch,
-                                  n_points=n_points)
+            found += legs_of(orbit, body, altitude_km, stability=stability, branch=branch,
+                             n_points=n_points)
         except LibrateError as e:
             reasons.append(str(e))
         if found:
@@ -643,10 +652,15 @@ def _parking_leg(system, task) -> Leg:
     arrive = st["arrive"]                     # parking -> orbit
     data = task["to" if arrive else "from"]["orbit_data"]
     earth = system.name == "earth-moon" and str(st["body"]).lower() == "earth"
+    if data.get("torus") and not earth:
+        # a torus and any other parking orbit: through its manifold's periapsis (cr3bp.tori.parking)
+        found = _periapsis_legs(_torus_from_plain(system, data), st["body"], st["altitude_km"],
+                                "stable" if arrive else "unstable", st["tube_points"])
+        return min(found, key=lambda lg: (lg.dv_mps, lg.tof)).with_patches(st["patches"])
     if data.get("torus"):
-        # a torus: the departure (direct or lunar-flyby) with the insertion point free over both
-        # torus angles (cr3bp.tori.departure), or the return, its time-reverse
-        # (cr3bp.transfers.returns); plan() lets only Earth parking orbits in Earth-Moon through
+        # a torus and an Earth parking orbit in Earth-Moon: the departure (direct or lunar-flyby)
+        # with the insertion point free over both torus angles (cr3bp.tori.departure), or the
+        # return, its time-reverse (cr3bp.transfers.returns)
         torus = _torus_from_plain(system, data)
         if not arrive:
             return _return_leg(torus, st)
@@ -694,6 +708,21 @@ def _earth_departure(system, node) -> bool:
     """Whether the parking node ``node`` is about the Earth in the Earth-Moon system (a direct
     departure from it can be designed)."""
     return system.name == "earth-moon" and str(node.body).lower() == "earth"
+
+
+def _torus_manifold_refusal(system, node, a, b, orbits) -> str | None:
+    """Why the leg ``a -> b`` with the torus node ``node`` at one end is not attempted (None:
+    attempt it). Captures, escapes and parking legs (other than the departures from and returns
+    to an Earth parking orbit in Earth-Moon) run along the torus's stable or unstable manifold
+    (:mod:`cr3bp.tori.parking`, :func:`_boundary_leg`): a torus that is not hyperbolic has none."""
+    boundary = isinstance(a, BoundaryNode) or isinstance(b, BoundaryNode)
+    park = next((n for n in (a, b) if isinstance(n, ParkingNode)), None)
+    if not boundary and (park is None or _earth_departure(system, park)):
+        return None
+    from ..tori.parking import not_hyperbolic  # lazy: only for tori
+    why = not_hyperbolic(orbits.get(node.id, {}).get("stability"),
+                         "capture or escape" if boundary else "parking orbit through a periapsis")
+    return None if why is None else f"torus node '{node.name}' is {why}"
 
 
 def _direct_departure_leg(orbit, st) -> Leg:
@@ -802,9 +831,12 @@ def _boundary_leg(system, task) -> Leg:
     orbit's unstable manifold (interior branch, then exterior): for a capture, the first
     periapsis at the capture altitude about the body (:func:`cr3bp.tubes.parking.parking_legs`,
     its insertion impulse left out: a capture node asks for the arrival condition, not an
-    orbit); for an escape, the first crossing of the escape distance from the body. Zero Δv."""
+    orbit); for an escape, the first crossing of the escape distance from the body. Zero Δv.
+    A torus node's legs run along the torus's unstable manifold the same way
+    (:func:`cr3bp.tori.parking.torus_parking_legs`, :func:`cr3bp.tori.manifolds.grow_tube`)."""
     st = task["settings"]
-    orbit = _orbit_from_plain(system, task["from"]["orbit_data"])
+    data = task["from"]["orbit_data"]
+    orbit = _torus_from_plain(system, data) if data.get("torus") else _orbit_from_plain(system, data)
     reasons = []
     if task["method"] == "capture":
         found = _periapsis_legs(orbit, st["body"], st["distance_km"], "unstable", st["tube_points"])
@@ -817,9 +849,12 @@ def _boundary_leg(system, task) -> Leg:
                        tof_arrival_days=leg.tof_days, arrival_distance_km=math.nan)
     p = primary_index(system, st["body"])
     radius = st["distance_km"] / system.length_km
+    grow = grow_tube
+    if _is_torus(orbit):
+        from ..tori.manifolds import grow_tube as grow  # lazy: only for tori
     for branch in TUBE_BRANCHES:
-        tube = grow_tube(orbit, "unstable", branch, st["tube_points"],
-                         until=Stop(t_max=4.0 * math.pi, escape_radius=radius, escape_center=p))
+        tube = grow(orbit, "unstable", branch, st["tube_points"],
+                    until=Stop(t_max=4.0 * math.pi, escape_radius=radius, escape_center=p))
         hit = [i for i, s_ in enumerate(tube.status) if s_ == "escape"]
         if hit:
             i = min(hit, key=lambda k: tube.tof[k])
@@ -828,16 +863,31 @@ def _boundary_leg(system, task) -> Leg:
             arc = propagate(system, tube.start_states[i], tof, rtol=RTOL, atol=ATOL, t_eval=te)
             r = np.linalg.norm(arc.states[:, :3] - np.array([system.positions[p], 0, 0]), axis=1)
             start = np.array(tube.start_states[i], dtype=float)
+            details = {"branch": branch, "escaped": len(hit), "of": int(tube.n)}
+            if _is_torus(orbit):
+                details.update(_torus_phases(orbit, tube, i))
             return Leg(system, "", "", (), 0.0, tof, None, ((0.0, start, tof),),
                        f"unstable {branch} manifold to escape", kind="escape",
                        min_altitude_km=float(r.min() * system.length_km
                                              - (system.primary, system.secondary)[p].radius_km),
-                       details={"branch": branch, "escaped": len(hit), "of": int(tube.n)}, solver="escape",
+                       details=details, solver="escape",
                        patch_times=te[:-1].copy(), patch_states=arc.states[:-1].copy(), departure_state=start,
                        arrival_state=arc.states[-1].copy(), final_state=arc.states[-1].copy())
-        reasons.append(f"no trajectory of the unstable {branch} manifold of {describe_orbit(orbit)} gets "
+        reasons.append(f"no trajectory of the unstable {branch} manifold of {tube.origin} gets "
                        f"{st['distance_km']:g} km from {system.names[p]} within {system.days(4 * math.pi):.0f} days")
     raise NoSolutionError("; ".join(reasons))
+
+
+def _torus_phases(torus, tube, i) -> dict:
+    """The departure phases of the torus tube's trajectory ``i``, as the torus parking legs give
+    theirs (:func:`cr3bp.tori.parking.torus_parking_legs`)."""
+    T = torus.stroboscopic_time
+    tau = float(tube.t_orbit[i])
+    phi = float(tube.circle_phase[i]) - torus.rotation * tau / T
+    return {"torus_tau": tau, "torus_circle_angle": phi,
+            "torus_phase_deg": [math.degrees(2 * math.pi * tau / T) % 360.0,
+                                math.degrees(float(tube.circle_phase[i])) % 360.0],
+            "torus_state": [float(v) for v in tube.orbit_states[i]], "step_off_km": float(tube.step_km)}
 
 
 def describe_orbit(orbit) -> str:
@@ -966,14 +1016,8 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
                            f"periapsis, or a direct departure from an Earth parking orbit in Earth-Moon), "
                            f"not the {other.kind} node '{other.name}'")
         for n in (a, b):
-            if why is None and isinstance(n, OrbitNode) and n.is_torus and (
-                    isinstance(a, BoundaryNode) or isinstance(b, BoundaryNode)
-                    or (isinstance(a, ParkingNode) and not _earth_departure(system, a))
-                    or (isinstance(b, ParkingNode) and not _earth_departure(system, b))):
-                why = (f"torus node '{n.name}': of the parking, capture and escape legs only departures from "
-                       "an Earth parking orbit in Earth-Moon to a torus (cr3bp.tori.departure) and returns "
-                       "to one (cr3bp.transfers.returns) are built; captures and escapes of tori are not "
-                       "yet; a targeted leg departs or arrives at the torus's reference state (phase 0, 0)")
+            if why is None and isinstance(n, OrbitNode) and n.is_torus:
+                why = _torus_manifold_refusal(system, n, a, b, orbits)
         low_energy = bool(h and h.path == "low-energy")
         if why is None and low_energy and not isinstance(a, ParkingNode):
             # (the other direction of a both-ways hint: a low-energy leg only departs)
