@@ -1629,7 +1629,9 @@ def refine(source, epoch, *, system=None, revs=12, span=None, phase=(0.0, 0.0), 
     cr3bp.fidelity.transition.Transition or cr3bp.fidelity.route.RouteTransition
         In the ephemeris model: ``.continuity_km``, ``.continuity_mps``, ``.iterations``,
         ``.dv_total_mps``, ``.per_rev`` (orbit, torus) or ``.arcs`` and ``.maneuvers`` (route),
-        ``.sample_km``, ``.to_dict()``.
+        ``.sample_km``, ``.to_dict() A low-energy route (designed in the bicircular
+        model) ends on its target orbit at its first arrival, with the maneuvers ``departure``,
+        ``correction`` and ``insertion`` (:mod:`cr3bp.fidelity.low_energy`).
 
     Raises
     ------

@@ -154,3 +154,16 @@ def test_cli_json_equals_the_api_result(refined, capsys, tmp_path):
     assert d["options"]["arrival"]["t_days"] == pytest.approx(tr.options["arrival"]["t_days"], rel=1e-12)
     text = oem.read_text()
     assert "LIBRATE REFINED ROUTE" in text and text.count("MANEUVER") >= 3
+
+
+def test_another_central_body_is_refused_before_any_work(refined, capsys, tmp_path):
+    from cr3bp import api
+    from cr3bp.errors import InputError
+    out, date, _ = refined
+    with pytest.raises(InputError, match="central 'earth'"):
+        api.refine(out, date, system=EM, central="moon")
+    rc = main(["refine", "--system", "earth-moon", "--route", str(out), "--epoch", date, "--central", "moon",
+               "--out", str(tmp_path / "x.oem")])
+    err = capsys.readouterr().err
+    assert rc == 2 and "central 'earth'" in err and "Traceback" not in err
+    assert not (tmp_path / "x.oem").exists()

@@ -166,6 +166,11 @@ def transition_low_energy(system, times_tu, states, maneuvers, epoch, sun_phase_
     >>> rt = transition_low_energy(em, t, x, man, "2027-03-08T19:07:07Z", 6.1986)   # doctest: +SKIP
     >>> [m["kind"] for m in rt.maneuvers]                                          # doctest: +SKIP
     ['departure', 'correction', 'insertion']
+    >>> from cr3bp import system
+    >>> transition_low_energy(system("earth-moon"), [0.0, 1.0], [[0.5, 0, 0, 0, 0, 0]] * 2, [], 0.0, 0.0)
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: a low-energy route has a departure and an insertion (got [])
 
     References
     ----------
