@@ -167,3 +167,14 @@ def test_another_central_body_is_refused_before_any_work(refined, capsys, tmp_pa
     err = capsys.readouterr().err
     assert rc == 2 and "central 'earth'" in err and "Traceback" not in err
     assert not (tmp_path / "x.oem").exists()
+
+
+def test_the_figure_names_the_design_model(refined):
+    import matplotlib
+    matplotlib.use("Agg")
+    from cr3bp.plotting.fidelity import transition_figure
+    _, _, tr = refined
+    fig = transition_figure(tr)
+    labels = [t.get_text() for ax in fig.axes if ax.get_legend() for t in ax.get_legend().get_texts()]
+    labels += [ln.get_label() for ax in fig.axes for ln in ax.get_lines()]
+    assert "bicircular design" in labels and "CR3BP design" not in labels
