@@ -1681,7 +1681,9 @@ def refine(source, epoch, *, system=None, revs=12, span=None, phase=(0.0, 0.0), 
     cr3bp.fidelity.transition.Transition or cr3bp.fidelity.route.RouteTransition
         In the ephemeris model: ``.continuity_km``, ``.continuity_mps``, ``.iterations``,
         ``.dv_total_mps``, ``.per_rev`` (orbit, torus) or ``.arcs`` and ``.maneuvers`` (route),
-        ``.sample_km``, ``.to_dict()``.
+        ``.sample_km``, ``.to_dict() A low-energy route (designed in the bicircular
+        model) ends on its target orbit at its first arrival, with the maneuvers ``departure``,
+        ``correction`` and ``insertion`` (:mod:`cr3bp.fidelity.low_energy`).
 
     Raises
     ------
@@ -1726,6 +1728,11 @@ def refine(source, epoch, *, system=None, revs=12, span=None, phase=(0.0, 0.0), 
         days = number_in("patch_days", str(patch_days).lower().removesuffix("d"), 0.01, 1000.0)
         t_tu, states, maneuvers = read_route(source, sysm)
         low_energy = route_launch(source, epoch, sysm)
+        if low_energy:
+            from .fidelity.low_energy import transition_low_energy  # lazy: heavy library (scipy)
+            return transition_low_energy(sysm, t_tu, states, maneuvers, epoch, float(low_energy["sun_phase_rad"]), bodies,
+                                         central=(central or "earth").lower(), srp=srp, patch_days=days,
+                                         max_iter=max_iter, progress=progress)
         return transition_route(sysm, t_tu, states, maneuvers, epoch, bodies,
                                 central=central or ("earth" if low_energy else None), srp=srp, patch_days=days,
                                 hold_end=bool(hold_end), max_iter=max_iter, progress=progress)

@@ -65,6 +65,9 @@ def rotating_states(transition, states_km, t_tu):
 def transition_figure(transition, title=""):
     """Figure with two panels: rotating x-z (LU) and inertial x-y (km). Returns the Figure.
 
+    The design is labelled by its model: "bicircular design" for a low-energy route
+    (:mod:`cr3bp.fidelity.low_energy`), "CR3BP design" otherwise.
+
     Parameters
     ----------
     transition : Transition
@@ -99,10 +102,11 @@ def transition_figure(transition, title=""):
     """
     fig, axes = new_figure(ncols=2, size=(12.0, 5.8))
     ax1, ax2 = np.ravel(axes)
+    design = "bicircular design" if dict(getattr(transition, "options", {}) or {}).get("low_energy") else "CR3BP design"
     s = transition.model.system
     ref_rot = rotating_states(transition, transition.reference_km, transition.sample_t_tu)
     eph_rot = rotating_states(transition, transition.sample_km, transition.sample_t_tu)
-    ax1.plot(ref_rot[:, 0], ref_rot[:, 2], color="tab:blue", lw=1.0, ls="--", zorder=3, label="CR3BP design")
+    ax1.plot(ref_rot[:, 0], ref_rot[:, 2], color="tab:blue", lw=1.0, ls="--", zorder=3, label=design)
     ax1.plot(eph_rot[:, 0], eph_rot[:, 2], color="tab:red", lw=0.6, label="ephemeris model")
     ax1.plot([1.0 - s.mu], [0.0], "o", color="0.4", ms=4, label=s.names[1])
     ax1.set_xlabel("x (LU, rotating, pulsating)")
@@ -110,7 +114,7 @@ def transition_figure(transition, title=""):
     ax1.set_title("rotating frame (ephemeris anchoring)")
     ax1.set_aspect("equal", adjustable="datalim")
     ref, eph = transition.reference_km, transition.sample_km
-    ax2.plot(ref[:, 0], ref[:, 1], color="tab:blue", lw=1.0, label="CR3BP design")
+    ax2.plot(ref[:, 0], ref[:, 1], color="tab:blue", lw=1.0, label=design)
     ax2.plot(eph[:, 0], eph[:, 1], color="tab:red", lw=0.6, label="ephemeris model")
     ax2.plot([0.0], [0.0], "o", color="0.4", ms=4, label=transition.model.central.title())
     ax2.set_xlabel(f"x (km, J2000 equator, about the {transition.model.central.title()})")
