@@ -997,6 +997,9 @@ def low_energy_transfer(target, parking="parking earth 200km", *, system="earth-
     >>> tr = low_energy_transfer("halo L2 south resonance=9:2", epoch="2031-03-01")  # doctest: +SKIP
     >>> tr.dv_mps > 0, 70 < tr.tof_days <= 130                                      # doctest: +SKIP
     (True, True)
+    >>> tq = low_energy_transfer("quasi-halo around halo L2 south resonance=9:2 amplitude=300km")  # doctest: +SKIP
+    >>> len(tq.details["torus_phase_deg"])                                           # doctest: +SKIP
+    2
     >>> low_energy_transfer("halo L2 south resonance=9:2", max_tof="300d")
     Traceback (most recent call last):
     ...
