@@ -977,13 +977,16 @@ def optimise(origin, target, *, system=None, impulses=3, max_tof=None, start="pa
 def low_energy_transfer(target, parking="parking earth 200km", *, system="earth-moon", epoch=None,
                         inclination=None, max_tof="130d", progress=None):
     """A low-energy (ballistic) transfer with the Sun's pull from an Earth parking orbit to an
-    Earth-Moon periodic orbit, designed in the bicircular model (``librate connect --path
-    low-energy``).
+    Earth-Moon periodic orbit or quasi-periodic torus, designed in the bicircular model
+    (``librate connect --path low-energy``).
 
     Parameters
     ----------
-    target : PeriodicOrbit or str
-        The target orbit, or a request (``"halo L2 south resonance=9:2"``).
+    target : PeriodicOrbit, Torus or str
+        The target orbit, or a request (``"halo L2 south resonance=9:2"``); or a torus (from
+        :func:`torus`, or a torus request such as ``"quasi-halo around halo L2 south
+        resonance=9:2 amplitude=300km"``: the insertion point free over both torus angles,
+        :mod:`cr3bp.tori.low_energy`).
     parking : str
         ``"parking earth ALTITUDE"`` (100 km to 50 000 km).
     system : System or str
@@ -1002,7 +1005,8 @@ def low_energy_transfer(target, parking="parking earth 200km", *, system="earth-
         Immutable: ``.maneuvers`` (departure, insertion), ``.dv_mps``, ``.departure_dv_mps``,
         ``.insertion_dv_mps``, ``.c3_km2_s2``, ``.tof_days``, ``.max_distance_km``,
         ``.sun_phase_deg``, ``.departure_epoch``, ``.optimised``, ``.to_dict()`` -- all in the
-        bicircular model.
+        bicircular model. To a torus, ``.orbit`` is the torus and ``.details["torus_phase_deg"]``
+        the insertion's two torus angles.
 
     Raises
     ------
@@ -1019,6 +1023,9 @@ def low_energy_transfer(target, parking="parking earth 200km", *, system="earth-
     >>> tr = low_energy_transfer("halo L2 south resonance=9:2", epoch="2031-03-01")  # doctest: +SKIP
     >>> tr.dv_mps > 0, 70 < tr.tof_days <= 130                                      # doctest: +SKIP
     (True, True)
+    >>> tq = low_energy_transfer("quasi-halo around halo L2 south resonance=9:2 amplitude=300km")  # doctest: +SKIP
+    >>> len(tq.details["torus_phase_deg"])                                           # doctest: +SKIP
+    2
     >>> low_energy_transfer("halo L2 south resonance=9:2", max_tof="300d")
     Traceback (most recent call last):
     ...
@@ -1032,7 +1039,9 @@ def low_energy_transfer(target, parking="parking earth 200km", *, system="earth-
     from .orbits.orbit import PeriodicOrbit  # lazy: start-up: keeps cr3bp.api free of numpy
     from .transfers.low_energy import MIN_TOF_DAYS, design_low_energy  # lazy: start-up: keeps cr3bp.api free of numpy
     from .validate import quantity  # lazy: start-up: keeps cr3bp.api free of numpy
-    sysm = target.system if isinstance(target, PeriodicOrbit) else _as_system(system)
+    torus_end = _torus_end(target)
+    sysm = target.system if isinstance(target, PeriodicOrbit) or type(target).__name__ == "Torus" \
+        else _as_system(system)
     pk = _parking(parking, sysm) if isinstance(parking, str) else None
     if pk is None or pk[0] != 0:
         raise InputError(f"parking = {parking!r}: give 'parking earth ALTITUDE', e.g. 'parking earth 200km'")
@@ -1042,6 +1051,14 @@ def low_energy_transfer(target, parking="parking earth 200km", *, system="earth-
         sysm.days(quantity("max_tof", _text(max_tof), "time", sysm, sign="positive", default_unit="d"))
     if not MIN_TOF_DAYS < tof <= 200.0:
         raise InputError(f"max_tof = {max_tof!r}; allowed: more than {MIN_TOF_DAYS:g} d, at most 200 d")
+    if torus_end:
+        from .tori import request as treq  # lazy: heavy library (scipy, via cr3bp.tori)
+        from .tori.low_energy import design_torus_low_energy  # lazy: heavy library (scipy, via cr3bp.tori)
+        from .transfers.low_energy import check_inputs  # lazy: start-up: keeps cr3bp.api free of numpy
+        check_inputs(sysm, pk[1], epoch=epoch, inclination_deg=inclination, max_tof_days=tof)  # before the solve
+        torus_ = treq.solve(sysm, target, progress=progress) if isinstance(target, str) else target
+        return design_torus_low_energy(torus_, pk[1], epoch=epoch, inclination_deg=inclination, max_tof_days=tof,
+                                       progress=progress)
     orb = target if isinstance(target, PeriodicOrbit) else orbit(sysm, target)
     return design_low_energy(orb, pk[1], epoch=epoch, inclination_deg=inclination, max_tof_days=tof,
                              progress=progress)

@@ -743,7 +743,11 @@ def value_cases():
     ct = ["connect", EM, "--from=parking earth 200km", TQ1]
     add("connect-torus-path-lunar-flyby-min-altitude", ct + ["--path=lunar-flyby", "--min-flyby-altitude=-5km"])
     add("connect-torus-path-lunar-flyby-direct-altitude", ct + ["--path=direct", "--min-flyby-altitude=100km"])
-    add("connect-torus-path-low-energy", ct + ["--path=low-energy"])
+    add("connect-torus-low-energy-window", ct + ["--path=low-energy",
+                                                 "--window=2027-03-01T00:00:00Z/2027-04-01T00:00:00Z"])
+    add("connect-torus-low-energy-max-tof", ct + ["--path=low-energy", "--max-tof=300d"])
+    add("connect-torus-low-energy-inclination", ct + ["--path=low-energy", "--inclination=200deg"])
+    add("connect-torus-low-energy-epoch", ct + ["--path=low-energy", "--epoch=1500-01-01T00:00:00Z"])
     add("connect-torus-path-altitude-50km", ["connect", EM, "--from=parking earth 50km", TQ1, "--path=direct"])
     add("connect-torus-path-max-tof-0d", ct + ["--path=direct", "--max-tof=0d"])
     add("connect-torus-path-inclination-200deg", ct + ["--path=direct", "--inclination=200deg"])

@@ -74,7 +74,37 @@ def run(args, system, parking):
                     "bicircular model (backward sweep from the target, then correction; about a minute)...")
     tr = api.low_energy_transfer(orbit, args.origin, epoch=epoch, inclination=inc, max_tof=tof,
                                  progress=lambda m: common.progress(args, m))
+    return _emit(args, tr)
+
+
+def run_torus(args, system, parking, spec):
+    """--path low-energy from 'parking earth ALT' to a torus (the insertion point free over both
+    torus angles, cr3bp.tori.low_energy): every refusal first, then the torus, then the design."""
+    from cr3bp import api
+    from cr3bp.errors import InputError
+    from cr3bp.tori import request as treq
+    if getattr(args, "window", None) is not None:
+        raise InputError(f"--window searches the launch dates of a low-energy transfer to a periodic orbit; to "
+                         f"the torus {args.target!r} give one launch date with --epoch, or none")
+    alt, tof, inc, epoch, _ = check(args, system, parking)
+    if args.plot:
+        common.plot_file("--plot", args.plot)
+    common.progress(args, f"librate connect: solving the torus '{args.target}'...")
+    torus = treq.solve(system, spec, progress=lambda m: common.progress(args, m, verbose_only=True))
+    common.progress(args, f"librate connect: designing a low-energy transfer from {args.origin} to the torus in "
+                    "the bicircular model (backward sweep from a grid over both torus angles, then correction; "
+                    "a few minutes)...")
+    tr = api.low_energy_transfer(torus, args.origin, epoch=epoch, inclination=inc, max_tof=tof,
+                                 progress=lambda m: common.progress(args, m))
+    return _emit(args, tr, torus)
+
+
+def _emit(args, tr, torus=None):
+    """The table, JSON and figure of the transfer ``tr`` (to a torus when ``torus`` is given)."""
     d = tr.to_dict()
+    if torus is not None:
+        d["to"] = args.target
+        d["torus_phase_deg"] = tr.details["torus_phase_deg"]
     m_ = "bicircular"
     rows = [[m["name"], m["t_days"], m["dv_mps"], *m["position_km"]] for m in d["maneuvers"]]
     when = (f", departure {tr.departure_epoch}, insertion {tr.insertion_epoch} (UTC)"
@@ -94,6 +124,11 @@ def run(args, system, parking):
             "positions: Earth-Moon rotating frame, origin at the barycentre; t from the departure burn",
             f"check: each of the {len(tr.patches)} coasts, re-propagated forward, closes on the next patch point "
             f"(the last on the insertion point) within {tr.details['closure_km']:.2e} km"]
+    if torus is not None:
+        th0, th1 = tr.details["torus_phase_deg"]
+        head.insert(4, f"insertion on the torus at phase theta0 {th0:.3f} deg (along the stroboscopic time), theta1 "
+                       f"{th1:.3f} deg (around the invariance circle); the torus is the CR3BP's, Jacobi constant "
+                       f"{torus.jacobi:.10f}")
     if args.plot:
         from cr3bp.plotting import save
         from cr3bp.plotting.low_energy import plot_low_energy

@@ -1,8 +1,9 @@
 """librate connect with a quasi-periodic torus at one end or both: manifold connections between a
 torus and a periodic orbit or another torus on a section (:mod:`cr3bp.tori.connections`), legs
 between a parking orbit and a torus through its manifold's periapsis (:mod:`cr3bp.tori.parking`),
-and direct departures from an Earth parking orbit to a torus (``--path direct``,
-:mod:`cr3bp.tori.departure`)."""
+and departures from an Earth parking orbit to a torus (``--path direct`` or ``lunar-flyby``,
+:mod:`cr3bp.tori.departure`; ``--path low-energy``, :mod:`cr3bp.tori.low_energy`, through
+``_low_energy.run_torus``)."""
 
 from .. import common
 
@@ -30,6 +31,9 @@ def run(args, system, pa, pb, t_max):
         if ta:
             raise InputError(f"--path {args.path} designs a departure from a parking orbit: --from must be "
                              f"'parking earth ALTITUDE', not the torus {args.origin!r}")
+        if args.path == "low-energy":
+            from . import _low_energy
+            return _low_energy.run_torus(args, system, pa, torus_request(system, args.target, args))
         return _departure(args, system, pa, torus_request(system, args.target, args))
     if args.epoch is not None:
         raise InputError("--epoch dates a departure from a parking orbit; give it with --path")
@@ -205,8 +209,8 @@ def _departure(args, system, parking, spec):
     from cr3bp.errors import InputError
     from . import _departure as depcli
     if args.path not in ("direct", "lunar-flyby"):
-        raise InputError(f"--path {args.path} to a torus is not built yet; to a torus, --path direct or "
-                         "--path lunar-flyby")
+        raise InputError(f"--path {args.path} to a torus is not built yet; to a torus, --path direct, "
+                         "lunar-flyby or low-energy")
     if getattr(args, "epoch", None) is not None:
         raise InputError(f"--epoch: a departure to a torus is not dated yet (--path {args.path}); dated "
                          "departures go to periodic orbits")

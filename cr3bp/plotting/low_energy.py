@@ -63,13 +63,19 @@ def sun_earth_rotating(model, t, states):
     return np.stack([c * rel[:, 0] - sn * rel[:, 1], sn * rel[:, 0] + c * rel[:, 1], rel[:, 2]], axis=1)
 
 
+#: Stroboscopic periods of a target torus drawn from the insertion point.
+TORUS_PERIODS = 4
+
+
 def plot_low_energy(tr, n_per_segment=500):
     """Two panels of the transfer ``tr`` (a LowEnergyTransfer); returns the figure.
 
     Parameters
     ----------
     tr : LowEnergyTransfer
-        From :func:`cr3bp.transfers.low_energy.design_low_energy`.
+        From :func:`cr3bp.transfers.low_energy.design_low_energy` (or, to a torus,
+        :func:`cr3bp.tori.low_energy.design_torus_low_energy`: the torus is drawn as its
+        trajectory from the insertion point over ``TORUS_PERIODS`` stroboscopic periods).
     n_per_segment : int
         Samples per segment of the transfer.
 
@@ -101,14 +107,22 @@ def plot_low_energy(tr, n_per_segment=500):
     model = tr.model
     system = model.system
     t, states = tr.trajectory(n_per_segment)
-    T = float(tr.orbit.period)
-    orb = propagate(system, tr.orbit.state, T, t_eval=np.linspace(0.0, T, 400)).states
+    target, label = tr.orbit, "target orbit"
+    if hasattr(target, "circle"):
+        # a torus: its trajectory from the insertion point over TORUS_PERIODS stroboscopic times (CR3BP)
+        ins = tr.maneuvers[-1]
+        s0 = np.asarray(ins["state_before"], dtype=float) + np.r_[0.0, 0.0, 0.0, ins["dv_vector"]]
+        T, n = TORUS_PERIODS * float(target.stroboscopic_time), 400 * TORUS_PERIODS
+        label = f"target torus ({TORUS_PERIODS} stroboscopic periods from the insertion, CR3BP)"
+    else:
+        s0, T, n = tr.orbit.state, float(tr.orbit.period), 400
+    orb = propagate(system, s0, T, t_eval=np.linspace(0.0, T, n)).states
     fig, axes = new_figure(2, 1, size=(14.0, 7.4))
     fig.subplots_adjust(wspace=0.32, bottom=0.24)
     # left: Earth-Moon rotating frame
     ax = axes[0, 0] if axes.ndim == 2 else axes[0]
     ax.plot(states[:, 0], states[:, 1], color="tab:blue", lw=1.0, label="low-energy transfer")
-    ax.plot(orb[:, 0], orb[:, 1], color="0.3", lw=1.2, label="target orbit")
+    ax.plot(orb[:, 0], orb[:, 1], color="0.3", lw=1.2 if n == 400 else 0.6, label=label)
     for m in tr.maneuvers:
         mk, col = MARKERS.get(m["name"], ("x", "k"))
         dv = system.mps(np.linalg.norm(m["dv_vector"]))

@@ -664,6 +664,8 @@ def _parking_leg(system, task) -> Leg:
         torus = _torus_from_plain(system, data)
         if not arrive:
             return _return_leg(torus, st)
+        if st.get("path") == "low-energy":
+            return _low_energy_leg(torus, st)
         from ..tori.departure import design_torus_departure  # lazy: only for tori
         dep = design_torus_departure(torus, st["altitude_km"], path=st.get("path") or "direct",
                                      inclination_deg=st.get("inclination_deg"))
@@ -749,10 +751,13 @@ def _low_energy_leg(orbit, st) -> Leg:
     """The low-energy transfer (:func:`cr3bp.transfers.low_energy.design_low_energy`, the
     bicircular model) from the parking orbit of the task settings ``st`` (its altitude, its
     inclination when given, the launch date when given) to ``orbit``, as a leg whose details
-    name its model."""
+    name its model. A torus (``orbit.circle``): :func:`cr3bp.tori.low_energy.design_torus_low_energy`,
+    the insertion point free over both torus angles."""
     from .low_energy import as_leg as low_energy_leg, design_low_energy   # lazy: the bicircular design, only for its legs
-    tr = design_low_energy(orbit, st["altitude_km"], epoch=st.get("launch_tdb_s"),
-                           inclination_deg=st.get("inclination_deg"))
+    design = design_low_energy
+    if hasattr(orbit, "circle"):
+        from ..tori.low_energy import design_torus_low_energy as design  # lazy: only for tori
+    tr = design(orbit, st["altitude_km"], epoch=st.get("launch_tdb_s"), inclination_deg=st.get("inclination_deg"))
     return low_energy_leg(tr)
 
 
@@ -1023,9 +1028,6 @@ def plan(system, nodelist, tof_days=None, patches=None, orbits=None):
             # (the other direction of a both-ways hint: a low-energy leg only departs)
             why = (f"a low-energy leg leaves an Earth parking orbit; the return {a.name} -> {b.name} "
                    "is not designed")
-        if why is None and low_energy and getattr(b, "is_torus", False):
-            why = (f"torus node '{b.name}': low-energy legs to a torus are not designed (a direct "
-                   "departure to a torus is)")
         # the departure path asked for: the edge's ('direct', 'lunar-flyby'), else the node's
         # (a scenario's 'path'); None: the graph's choice
         asked = (h.path if h and h.path in CR3BP_DEPARTURE_PATHS else getattr(a, "path", None)) \

@@ -438,11 +438,20 @@ class _OrbitPoints:
             return self.s[k].copy()
         return np.array(_cr3bp_propagate(self.orbit.system, self.s[k], dt, rtol=RTOL, atol=ATOL).final_state)
 
+    def insertion(self, z):
+        """The insertion state of the unknowns ``z`` (its phase ``z[0]``)."""
+        return self.at(z[0])
+
+    def sweep_grid(self, phases):
+        """The sweep's insertion points: ``phases`` even phases and their states."""
+        ph = np.arange(phases) / phases
+        return ph, np.array([self.at(p) for p in ph])
+
 
 # ---- the sweep (step 1) ----------------------------------------------------------------------
 
 def sweep(model, orbit, r_park, *, max_tof, min_tof, sun_phases=None, phases=SWEEP_PHASES,
-          dv_mps=SWEEP_DV_MPS, directions=SWEEP_DIRECTIONS, departure_phase=None):
+          dv_mps=SWEEP_DV_MPS, directions=SWEEP_DIRECTIONS, departure_phase=None, points=None):
     """Backward batch propagations from the target orbit, one batch per Sun phase.
 
     Returns a dict of arrays, one entry per trajectory that came back to the Earth inside the
@@ -464,6 +473,10 @@ def sweep(model, orbit, r_park, *, max_tof, min_tof, sun_phases=None, phases=SWE
     phases, dv_mps, directions : int, sequence of float, int
         Insertion phases, Δv magnitudes (m/s) and directions of the backward kicks.
     departure_phase : float, optional
+    points : object, optional
+        The target's insertion points (default: the orbit's); its ``sweep_grid(phases)`` gives
+        the labels (one phase per point, or a row of phases: a torus's two angles) and states
+        swept (:mod:`cr3bp.tori.low_energy`).
 
     Returns
     -------
@@ -493,17 +506,18 @@ def sweep(model, orbit, r_park, *, max_tof, min_tof, sun_phases=None, phases=SWE
        ch. 3 (backward propagation from the target orbit; from memory).
     """
     system = model.system
-    pts = _OrbitPoints(orbit, max(phases, 16))
-    ph = np.arange(phases) / phases
-    base = np.array([pts.at(p) for p in ph])
+    pts = _OrbitPoints(orbit, max(phases, 16)) if points is None else points
+    ph, base = pts.sweep_grid(phases)
+    ph = np.asarray(ph, dtype=float)
     dirs = _directions(directions)
     mags = np.asarray(dv_mps, dtype=float) / (system.velocity_kms * 1e3)
     dvs = (mags[:, None, None] * dirs[None, :, :]).reshape(-1, 3)
     n_dv = len(dvs)
+    n_base = len(base)
     states = np.repeat(base, n_dv, axis=0)
-    states[:, 3:] -= np.tile(dvs, (phases, 1))
-    ph_all = np.repeat(ph, n_dv)
-    dv_all = np.tile(dvs, (phases, 1))
+    states[:, 3:] -= np.tile(dvs, (n_base, 1))
+    ph_all = np.repeat(ph, n_dv, axis=0)
+    dv_all = np.tile(dvs, (n_base, 1))
     if sun_phases is None:
         sun_phases = np.arange(SWEEP_SUN_PHASES) * _TWO_PI / SWEEP_SUN_PHASES
     r_e, r_m = system.radii
@@ -542,12 +556,13 @@ def sweep(model, orbit, r_park, *, max_tof, min_tof, sun_phases=None, phases=SWE
 # ---- the correction (step 2) -----------------------------------------------------------------
 
 class _Problem:
-    """The transfer as a function of z = [insertion phase, insertion dv (3), Sun phase at insertion]."""
+    """The transfer as a function of z = [insertion phase, insertion dv (3), Sun phase at insertion]
+    (a torus: one more unknown, its second angle, z[5]; ``points.insertion(z)`` reads them)."""
 
-    def __init__(self, model, orbit, r_park, inclination, max_tof, min_tof, departure_phase):
+    def __init__(self, model, orbit, r_park, inclination, max_tof, min_tof, departure_phase, points=None):
         self.model, self.orbit = model, orbit
         self.system = model.system
-        self.points = _OrbitPoints(orbit)
+        self.points = _OrbitPoints(orbit) if points is None else points
         self.r_park = r_park
         self.inc = inclination
         self.max_tof, self.min_tof = max_tof, min_tof
@@ -571,7 +586,7 @@ class _Problem:
 
     def _evaluate(self, z):
         m = self.model.with_phase(float(z[4]))
-        s_ins = self.points.at(z[0])
+        s_ins = self.points.insertion(z)
         s = s_ins.copy()
         s[3:] -= z[1:4]
         arc = bc.propagate(m, s, -self.max_tof * 1.1, rtol=RTOL, atol=ATOL, events=self.events)
@@ -614,7 +629,7 @@ class _Problem:
         return 1.0 if e is None else float(z[1:4] @ z[1:4]) * 100.0
 
     def jac_fun(self, z):
-        g = np.zeros(5)
+        g = np.zeros(len(z))
         g[1:4] = 200.0 * z[1:4]
         return g
 
@@ -652,7 +667,8 @@ def _newton(pb, z, iterations=25, tol=CONSTRAINT_TOL, eqfun=None, weights=(1.0, 
     if pb.evaluate(z) is None:
         return None
     f = eqfun(z)
-    scale = np.array([1e-3, 1e-4, 1e-4, 1e-4, 1e-3])   # step per variable of the finite differences
+    # step per variable of the finite differences (a torus's second angle as its first)
+    scale = np.r_[[1e-3, 1e-4, 1e-4, 1e-4, 1e-3], [1e-3] * (z.size - 5)]
     for _ in range(iterations):
         if np.max(np.abs(f)) <= tol:
             return z
@@ -666,7 +682,7 @@ def _newton(pb, z, iterations=25, tol=CONSTRAINT_TOL, eqfun=None, weights=(1.0, 
             J[:, j] = (eqfun(zz) - f) / h
         # weights of the least-norm step: onto the parking orbit, moving the burn costs more than
         # moving the insertion point and the Sun's phase; in the continuation the reverse
-        w = np.asarray(weights, dtype=float)
+        w = np.r_[np.asarray(weights, dtype=float), [weights[0]] * (z.size - 5)]
         step = -(np.linalg.pinv(J / w) @ f) / w
         lam = 1.0
         for _ in range(12):
@@ -762,7 +778,8 @@ def _candidates(pb, sw, score, candidates, progress, label="candidate"):
     order = np.argsort(score)
     best, tried = None, []
     for k in order[: int(candidates)]:
-        z0 = np.concatenate([[sw["phase"][k]], sw["dv"][k], [sw["sun"][k]]])
+        ph = np.atleast_1d(sw["phase"][k])         # (a torus: its two angles; the second goes last)
+        z0 = np.concatenate([ph[:1], sw["dv"][k], [sw["sun"][k]], ph[1:]])
         if progress:
             progress(f"correcting {label} {len(tried) + 1} of {min(int(candidates), order.size)}...")
         out = _correct(pb, z0)
@@ -833,7 +850,47 @@ def design_low_energy(orbit, altitude_km, *, epoch=None, inclination_deg=None, m
     Belbruno & Miller 1993; Koon, Lo, Marsden & Ross 2001; Parker & Anderson 2013, ch. 3;
     Boudad, Howell & Davis 2020 (the model).
     """
-    system = orbit.system
+    return _design(orbit, altitude_km, epoch=epoch, inclination_deg=inclination_deg, max_tof_days=max_tof_days,
+                   min_tof_days=min_tof_days, sun_phases=sun_phases, candidates=candidates, progress=progress)
+
+
+def check_inputs(system, altitude_km, *, epoch=None, inclination_deg=None, max_tof_days=MAX_TOF_DAYS,
+                 min_tof_days=MIN_TOF_DAYS):
+    """Everything :func:`design_low_energy` refuses, checked before any work.
+
+    Parameters
+    ----------
+    system : System
+        The Earth-Moon system.
+    altitude_km, epoch, inclination_deg, max_tof_days, min_tof_days
+        As :func:`design_low_energy`.
+
+    Returns
+    -------
+    (float, float, float, float or None, BicircularSystem)
+        Altitude (km), the time-of-flight window (d), the inclination (rad, None: free) and the
+        model at the departure burn (the date's Sun phase when ``epoch`` is given).
+
+    Raises
+    ------
+    InputError
+        Another system, an altitude, window, inclination or date out of range.
+
+    Examples
+    --------
+    >>> from cr3bp.systems import system
+    >>> from cr3bp.transfers.low_energy import check_inputs
+    >>> check_inputs(system("earth-moon"), 200.0)[:4]
+    (200.0, 70.0, 130.0, None)
+    >>> check_inputs(system("earth-moon"), 200.0, inclination_deg=200.0)
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: inclination 200 deg; allowed: 0 deg to 180 deg
+
+    References
+    ----------
+    Common practice: a design's inputs checked before it starts.
+    """
     if getattr(system, "name", "") != "earth-moon":
         raise InputError(f"low-energy transfers are designed in the earth-moon system; got '{system.name}'")
     alt = finite_number("altitude_km", altitude_km)
@@ -849,20 +906,31 @@ def design_low_energy(orbit, altitude_km, *, epoch=None, inclination_deg=None, m
         if not 0.0 <= inc_d <= 180.0:
             raise InputError(f"inclination {inc_d:g} deg; allowed: 0 deg to 180 deg")
         inc = math.radians(inc_d)
-    model = bc.bicircular_system(system, epoch=epoch)
+    return alt, tmin_d, tmax_d, inc, bc.bicircular_system(system, epoch=epoch)
+
+
+def _design(orbit, altitude_km, *, epoch=None, inclination_deg=None, max_tof_days=MAX_TOF_DAYS,
+            min_tof_days=MIN_TOF_DAYS, sun_phases=None, candidates=CANDIDATES, progress=None, points=None):
+    """:func:`design_low_energy` for any target whose insertion points ``points`` gives (None:
+    the orbit's; a torus: :mod:`cr3bp.tori.low_energy`): the checks, the sweep, the correction."""
+    system = orbit.system
+    alt, tmin_d, tmax_d, inc, model = check_inputs(system, altitude_km, epoch=epoch, inclination_deg=inclination_deg,
+                                                   max_tof_days=max_tof_days, min_tof_days=min_tof_days)
     dep_phase = model.sun_phase if epoch is not None else None
     r_park = (system.primary.radius_km + alt) / system.length_km
     max_tof, min_tof = tmax_d / system.days(1.0), tmin_d / system.days(1.0)
     t_start = time.perf_counter()
     if progress:
         progress("sweeping insertion points, burns and Sun phases (bicircular model, backward)...")
+    if callable(points):      # (built only once the inputs are known good: a torus's takes a propagation)
+        points = points()
     sw = sweep(model, orbit, r_park, max_tof=max_tof, min_tof=min_tof, sun_phases=sun_phases,
-               departure_phase=dep_phase)
+               departure_phase=dep_phase, points=points)
     t_sweep = time.perf_counter() - t_start
     if sw["score"].size == 0:
         raise NoSolutionError(f"no trajectory of the sweep ({sw['count']} propagated) comes back to the Earth "
                               f"within {tmin_d:g}-{tmax_d:g} d; widen the time-of-flight window")
-    pb = _Problem(model, orbit, r_park, inc, max_tof, min_tof, dep_phase)
+    pb = _Problem(model, orbit, r_park, inc, max_tof, min_tof, dep_phase, points=points)
     best, tried = _candidates(pb, sw, sw["score"], candidates, progress)
     if best is None:
         raise NoSolutionError(f"none of the {len(tried)} best sweep candidates could be corrected onto a "

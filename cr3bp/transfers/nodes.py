@@ -663,7 +663,7 @@ def low_energy_ends(system, nodes, names, edge: dict, path: str):
     Raises
     ------
     InputError
-        The ends are not an Earth parking orbit and an Earth-Moon periodic orbit (low-energy;
+        The ends are not an Earth parking orbit and an Earth-Moon periodic orbit or torus (low-energy;
         'direct' and 'lunar-flyby': an Earth-Moon orbit, and a parking altitude the path can
         leave), or a launch date without the low-energy path or outside the ephemeris.
 
@@ -689,8 +689,8 @@ def low_energy_ends(system, nodes, names, edge: dict, path: str):
     if a is None or b is None:
         return None                               # reported on its own line
     if not (isinstance(a, ParkingNode) and a.body == "earth" and system.name == "earth-moon"
-            and isinstance(b, OrbitNode) and not b.is_torus):
-        raise InputError(f"path 'low-energy' leaves an Earth parking orbit for an Earth-Moon periodic orbit "
+            and isinstance(b, OrbitNode)):
+        raise InputError(f"path 'low-energy' leaves an Earth parking orbit for an Earth-Moon periodic orbit or torus "
                          f"(earth-moon system); not {a.kind} '{shown(a.name)}' -> {b.kind} '{shown(b.name)}'")
     if "launch" not in edge:
         return None
