@@ -925,11 +925,11 @@ def optimise(origin, target, *, system=None, impulses=3, max_tof=None, start="pa
     from .validate import quantity  # lazy: start-up (keeps cr3bp.api free of numpy)
     sysm = None
     for end in (origin, target):
-        if isinstance(end, PeriodicOrbit):
+        if isinstance(end, PeriodicOrbit) or type(end).__name__ == "Torus":
             sysm = end.system
     if sysm is None:
         if system is None:
-            raise InputError("give system= when neither end is a PeriodicOrbit")
+            raise InputError("give system= when neither end is a PeriodicOrbit or Torus")
         sysm = _as_system(system)
     if impulses not in IMPULSES:
         raise InputError(f"impulses = {impulses!r}; allowed: 2 or 3")
