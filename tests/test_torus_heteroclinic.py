@@ -228,3 +228,16 @@ def test_refusals(tori):
         cr3bp.connect("lyapunov L1 jacobi=3.15", "lyapunov L2 jacobi=3.15", system=EM, match="state")
     with pytest.raises(cr3bp.InputError, match="match"):
         cr3bp.connect(tori[0], tori[1], match="velocity")
+
+
+def test_figure_draws_both_tori(seam):
+    """``librate connect --optimise --plot`` between tori: each torus drawn through its burn."""
+    import matplotlib
+    matplotlib.use("Agg")
+    from cr3bp.plotting.transfers import plot_orbit_transfer
+    fig = plot_orbit_transfer(seam[1], n_per_coast=50)
+    labels = [ln.get_label() for ln in fig.axes[0].lines]
+    assert "departure torus (its trajectory through the burn)" in labels
+    assert "arrival torus (its trajectory through the burn)" in labels
+    import matplotlib.pyplot as plt
+    plt.close(fig)
