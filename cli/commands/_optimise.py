@@ -107,7 +107,9 @@ def emit(args, system, tr, why=""):
             f"({args.impulses} allowed)",
             f"CR3BP total dv {tr.dv_mps:.3f} m/s; start ({st.solution}: {st.method}"
             + why + f") {st.dv_mps:.3f} m/s; improvement "
-            f"{st.dv_mps - tr.dv_mps:.3f} m/s in {tr.iterations} SLSQP iterations",
+            f"{st.dv_mps - tr.dv_mps:.3f} m/s in {tr.iterations} SLSQP iterations"
+            + ("" if d["start"].get("flown_dv_mps") is None else
+               f"; the start flown from end to end (its step-offs counted) {d['start']['flown_dv_mps']:.3f} m/s"),
             f"CR3BP time of flight {tr.tof_days:.4f} {unit_d} (departure burn to insertion burn; cap "
             f"{d['max_tof_days']:.4f} {unit_d}); start {d['start']['tof_days']:.4f} {unit_d}",
             "active bounds: " + (", ".join(tr.active_bounds) or "none"),
