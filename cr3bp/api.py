@@ -670,7 +670,7 @@ def _parking(text, sysm):
 
 def connect(origin, target, *, system=None, section="x=1-mu", points=None, crossing=1, time=None,
             step_off=None, candidates=5, from_branch=None, to_branch=None, arrival_within=None,
-            progress=None, full=False, on_map=None):
+            progress=None, full=False, on_map=None, match="position"):
     """Legs between two periodic orbits, or a parking orbit and a periodic orbit, or with a
     quasi-periodic torus at one end or both (``librate connect``).
 
@@ -714,6 +714,11 @@ def connect(origin, target, *, system=None, section="x=1-mu", points=None, cross
     on_map : callable(PeriapsisMap), optional
         Parking-orbit leg: called with the periapsis map before the legs are searched, so a
         figure of it can show why none is found (``librate connect --map``).
+    match : {"position", "state"}
+        Two tori: match the in-section positions (default) or positions and velocities, a
+        heteroclinic connection where the two manifolds' cuts meet (tori of one Jacobi
+        constant; :func:`cr3bp.tori.connections.connect_torus_to_torus`). Other ends: only
+        ``"position"``.
 
     Returns
     -------
@@ -758,6 +763,7 @@ def connect(origin, target, *, system=None, section="x=1-mu", points=None, cross
     crossing = _whole("crossing", crossing, 1, 1000)
     if points is not None:
         points = _whole("points", points, 2, 100_000)
+    _one_of("match", match, ("position", "state"))
     t_max = 2 * math.pi
     if time is not None:
         from .validate import quantity  # lazy: start-up: keeps cr3bp.api free of numpy
@@ -784,6 +790,9 @@ def connect(origin, target, *, system=None, section="x=1-mu", points=None, cross
         return end if isinstance(end, PeriodicOrbit) else orbit(sysm, end)
 
     ta, tb = _torus_end(origin), _torus_end(target)
+    if match != "position" and not (ta and tb):
+        raise InputError(f"match {match!r} joins two tori (their manifolds' cuts are surfaces); between "
+                         "other ends the patch matches positions: match='position'")
     if ta or tb:
         if within_km is not None:
             raise InputError(f"arrival_within {arrival_within!r} measures the approach to an arrival periodic "
@@ -793,7 +802,7 @@ def connect(origin, target, *, system=None, section="x=1-mu", points=None, cross
                                       t_max, candidates, to_branch if pa else from_branch, progress, on_map)
             return (legs, [], pm) if full else legs
         legs = _connect_tori(origin, target, ta, tb, pa, pb, sysm, _orbit, section, points, step_off, t_max,
-                             candidates, from_branch, to_branch, crossing)
+                             candidates, from_branch, to_branch, crossing, match)
         return (legs, [], None) if full else legs
     tubes, pm = [], None
     if pa or pb:
@@ -852,7 +861,7 @@ def _torus_parking(end, parking, arrive, sysm, points, step_off, t_max, candidat
 
 
 def _connect_tori(origin, target, ta, tb, pa, pb, sysm, as_orbit, section, points, step_off, t_max,
-                  candidates, from_branch, to_branch, crossing):
+                  candidates, from_branch, to_branch, crossing, match="position"):
     """:func:`connect` with a torus at one end or both (:mod:`cr3bp.tori.connections`)."""
     from .tori import connections as tc  # lazy: heavy library (scipy, via cr3bp.tori)
     from .tori import request as treq  # lazy: heavy library (scipy, via cr3bp.tori)
@@ -868,7 +877,7 @@ def _connect_tori(origin, target, ta, tb, pa, pb, sysm, as_orbit, section, point
     kw = dict(n_points=points or 100, branch_a=from_branch or "interior", branch_b=to_branch or "interior",
               step_km=step_off, t_max=t_max)
     if ta and tb:
-        legs = tc.connect_torus_to_torus(a, b, str(section), **kw)
+        legs = tc.connect_torus_to_torus(a, b, str(section), match=match, **kw)
     elif ta:
         legs = tc.connect_torus_to_orbit(a, b, str(section), **kw)
     else:
@@ -878,13 +887,17 @@ def _connect_tori(origin, target, ta, tb, pa, pb, sysm, as_orbit, section, point
 
 def optimise(origin, target, *, system=None, impulses=3, max_tof=None, start="patch", section="x=1-mu",
              points=None, crossing=1, time=None, step_off=None, progress=None):
-    """The least-Δv transfer between two periodic orbits with two or three impulses
-    (``librate connect --optimise``).
+    """The least-Δv transfer between two periodic orbits, or two quasi-periodic tori, with two
+    or three impulses (``librate connect --optimise``).
 
     Parameters
     ----------
-    origin, target : PeriodicOrbit or str
-        The departure and arrival orbits (orbit requests as for :func:`orbit`).
+    origin, target : PeriodicOrbit, Torus or str
+        The departure and arrival orbits (orbit requests as for :func:`orbit`), or two tori
+        (from :func:`torus`, or torus requests as for :func:`torus`): then each end adds its
+        two torus angles to the unknowns, and the patch start is the heteroclinic connection
+        of :func:`connect` with ``match="state"`` where the manifolds' cuts meet (tori of one
+        Jacobi constant), else the position-matched patch; no sweep.
     system : System or str, optional
         Needed when neither end is a PeriodicOrbit.
     impulses : {2, 3}
@@ -910,9 +923,11 @@ def optimise(origin, target, *, system=None, impulses=3, max_tof=None, start="pa
     Raises
     ------
     InputError
-        A parking orbit at either end, an impulse count other than 2 or 3, a bad cap.
+        A parking orbit at either end, an impulse count other than 2 or 3, a bad cap, a torus
+        at one end only, ``start="sweep"`` between tori.
     NoSolutionError
-        No start: the tubes do not meet and no two-impulse leg of the sweep converged.
+        No start: the tubes do not meet and no two-impulse leg of the sweep converged (tori:
+        no patch converged).
 
     Examples
     --------
@@ -936,11 +951,11 @@ def optimise(origin, target, *, system=None, impulses=3, max_tof=None, start="pa
     from .validate import quantity  # lazy: start-up (keeps cr3bp.api free of numpy)
     sysm = None
     for end in (origin, target):
-        if isinstance(end, PeriodicOrbit):
+        if isinstance(end, PeriodicOrbit) or type(end).__name__ == "Torus":
             sysm = end.system
     if sysm is None:
         if system is None:
-            raise InputError("give system= when neither end is a PeriodicOrbit")
+            raise InputError("give system= when neither end is a PeriodicOrbit or Torus")
         sysm = _as_system(system)
     if impulses not in IMPULSES:
         raise InputError(f"impulses = {impulses!r}; allowed: 2 or 3")
@@ -952,6 +967,13 @@ def optimise(origin, target, *, system=None, impulses=3, max_tof=None, start="pa
     for end in (origin, target):
         if isinstance(end, str) and _parking(end, sysm):
             raise InputError(f"'{end}' is a parking orbit; optimise joins two periodic orbits")
+    ta, tb = _torus_end(origin), _torus_end(target)
+    if ta != tb:
+        raise InputError(f"optimise joins two periodic orbits or two tori; got a torus at the "
+                         f"{'departure' if ta else 'arrival'} end only")
+    if ta and start == "sweep":
+        raise InputError("start 'sweep' joins periodic orbits; between two tori the optimiser starts from "
+                         "their manifold patch (start='patch' or a Leg from cr3bp.connect)")
     cap = None if max_tof is None else quantity("max_tof", _text(max_tof), "time", sysm, sign="positive",
                                                 default_unit="TU")
     t_max = 2 * math.pi if time is None else quantity("time", _text(time), "time", sysm, sign="positive",
@@ -959,6 +981,9 @@ def optimise(origin, target, *, system=None, impulses=3, max_tof=None, start="pa
     crossing = _whole("crossing", crossing, 1, 1000)
     if points is not None:
         points = _whole("points", points, 2, 100_000)
+    if ta:
+        return _optimise_tori(origin, target, sysm, given, cap, impulses, section, points, t_max, step_off,
+                              progress)
     oa = origin if isinstance(origin, PeriodicOrbit) else orbit(sysm, origin)
     ob = target if isinstance(target, PeriodicOrbit) else orbit(sysm, target)
     first = None if given is None else start_from_leg(given)
@@ -970,6 +995,27 @@ def optimise(origin, target, *, system=None, impulses=3, max_tof=None, start="pa
         except (NoSolutionError, ConvergenceError):
             first = None              # the tubes gave no patch: the phase sweep starts instead
     return optimise_transfer(oa, ob, first, impulses=impulses, max_tof=cap, progress=progress)
+
+
+def _optimise_tori(origin, target, sysm, given, cap, impulses, section, points, t_max, step_off, progress):
+    """:func:`optimise` between two tori: from the heteroclinic patch where the manifolds' cuts
+    meet (``match="state"``), else from the position-matched patch."""
+    from .errors import ConvergenceError, NoSolutionError  # lazy: start-up (keeps cr3bp.api free of numpy)
+    from .tori import request as treq  # lazy: heavy library (scipy, via cr3bp.tori)
+    from .transfers.optimise import optimise_transfer, start_from_leg  # lazy: start-up (keeps cr3bp.api free of numpy)
+    a, b = (treq.solve(sysm, e) if isinstance(e, str) else e for e in (origin, target))
+    if given is None:
+        legs, why = None, ""
+        for match in ("state", "position"):
+            try:
+                legs = connect(a, b, section=section, points=points, time=t_max, step_off=step_off, match=match)
+                break
+            except (NoSolutionError, ConvergenceError) as e:
+                why = str(e)
+        if legs is None:
+            raise NoSolutionError(f"no manifold patch between the two tori to start from: {why}")
+        given = legs[0]
+    return optimise_transfer(a, b, start_from_leg(given), impulses=impulses, max_tof=cap, progress=progress)
 
 
 # ---- routes, export, scenarios ---------------------------------------------------------

@@ -766,7 +766,15 @@ def value_cases():
     add("connect-torus-parking-arrival-within", ["connect", EM, TQ2, "--to=parking moon 100km",
                                                  "--arrival-within=1000km"])
     add("connect-torus-parking-altitude", ["connect", EM, TQ2, "--to=parking moon -100km"])
-    add("connect-torus-optimise", ["connect", EM, TQ2, TQ1, "--optimise"])
+    tto = ["connect", EM, TQ2, TQ1, "--optimise"]       # two tori: refused before any torus is solved
+    add("connect-torus-optimise-torus-and-orbit", ["connect", EM, TQ2, "--to=halo L1 north az=10000km", "--optimise"])
+    add("connect-torus-optimise-start-sweep", tto + ["--start=sweep"])
+    add("connect-torus-optimise-crossing-2", tto + ["--crossing=2"])
+    add("connect-torus-optimise-section-velocity", tto + ["--section=vx=0"])
+    add("connect-torus-optimise-max-tof-0d", tto + ["--max-tof=0d"])
+    add("connect-torus-optimise-map", tto + ["--map={out}/m.png"])
+    add("connect-torus-optimise-epoch", tto + ["--epoch=2027-03-01T00:00:00Z"])
+    add("connect-torus-optimise-plot-suffix", tto + ["--plot={out}/d.jpg"])
     add("connect-torus-impulses-without-optimise", ["connect", EM, TQ2, TQ1, "--impulses=2"])
     add("connect-torus-arrival-within", ["connect", EM, TQ2, TQ1, "--arrival-within=1000km"])
     add("connect-torus-crossing-2", ["connect", EM, TQ2, TQ1, "--crossing=2"])

@@ -67,8 +67,6 @@ HEADERS = ["maneuver", "t_days", "dv_mps", "x_km", "y_km", "z_km"]
 
 
 def run(args, system, pa, pb, t_max):
-    import math
-
     from cr3bp import api
     from cr3bp.errors import ConvergenceError, NoSolutionError
     from . import _tube_options as to
@@ -92,6 +90,14 @@ def run(args, system, pa, pb, t_max):
             common.progress(args, f"{why_sweep}; starting from a phase sweep of two-impulse legs")
     tr = api.optimise(oa, ob, impulses=args.impulses, max_tof=cap, start="sweep" if start is None else start,
                       progress=lambda m: common.progress(args, "librate connect --optimise: " + m))
+    return emit(args, system, tr, "" if start is not None else f"; {why_sweep}")
+
+
+def emit(args, system, tr, why=""):
+    """The optimised transfer's table or JSON (two orbits, or two tori: ``_torus_connect``)."""
+    import math
+
+    from cr3bp.errors import NoSolutionError
     d = tr.to_dict()
     unit_d = "d" if system.dimensional else "TU"
     rows = [[m["name"], m["t_days"], m["dv_mps"], *m["position_km"]] for m in d["maneuvers"]]
@@ -100,13 +106,17 @@ def run(args, system, pa, pb, t_max):
     head = [f"{args.origin} -> {args.target}: {tr.solution} transfer, {len(tr.maneuvers)} impulses "
             f"({args.impulses} allowed)",
             f"CR3BP total dv {tr.dv_mps:.3f} m/s; start ({st.solution}: {st.method}"
-            + ("" if start is not None else f"; {why_sweep}") + f") {st.dv_mps:.3f} m/s; improvement "
-            f"{st.dv_mps - tr.dv_mps:.3f} m/s in {tr.iterations} SLSQP iterations",
+            + why + f") {st.dv_mps:.3f} m/s; improvement "
+            f"{st.dv_mps - tr.dv_mps:.3f} m/s in {tr.iterations} SLSQP iterations"
+            + ("" if d["start"].get("flown_dv_mps") is None else
+               f"; the start flown from end to end (its step-offs counted) {d['start']['flown_dv_mps']:.3f} m/s"),
             f"CR3BP time of flight {tr.tof_days:.4f} {unit_d} (departure burn to insertion burn; cap "
             f"{d['max_tof_days']:.4f} {unit_d}); start {d['start']['tof_days']:.4f} {unit_d}",
             "active bounds: " + (", ".join(tr.active_bounds) or "none"),
-            f"departure phase {tr.phase_from:.6f}, arrival phase {tr.phase_to:.6f} (fractions of each period "
-            "from the orbit's initial state)"]
+            _phases(tr)]
+    if "jacobi_from" in tr.details:
+        head.append(f"Jacobi constants at departure and insertion {tr.details['jacobi_from']:.10f} -> "
+                    f"{tr.details['jacobi_to']:.10f}")
     if not tr.optimised:
         head.append(f"not optimised: {tr.details.get('not_optimised', '')}")
     if pr.get("max_norm_on_coasts") is None:
@@ -132,3 +142,12 @@ def run(args, system, pa, pb, t_max):
         raise NoSolutionError("the transfer's delta-v is not finite")
     common.emit(args, payload=payload, headers=HEADERS, rows=rows, table=table, comments=head)
     return 0
+
+
+def _phases(tr):
+    if isinstance(tr.phase_from, tuple):
+        (sa, qa), (sb, qb) = tr.phase_from, tr.phase_to
+        return (f"departure phases {sa:.6f}, {qa:.6f}; arrival phases {sb:.6f}, {qb:.6f} (each torus: fraction of "
+                "its stroboscopic time from the invariance circle, circle angle in turns)")
+    return (f"departure phase {tr.phase_from:.6f}, arrival phase {tr.phase_to:.6f} (fractions of each period "
+            "from the orbit's initial state)")

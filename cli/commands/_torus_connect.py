@@ -20,8 +20,10 @@ def run(args, system, pa, pb, t_max):
     from .manifold import torus_request
     ta, tb = ends(args)
     if args.optimise:
-        raise InputError("--optimise designs transfers between periodic orbits; it does not take a torus "
-                         f"({args.origin if ta else args.target!r})")
+        if not (ta and tb):
+            raise InputError("--optimise joins two periodic orbits or two tori; "
+                             f"{args.origin if ta else args.target!r} is a torus and the other end is not")
+        return _optimise_tori(args, system, pa, pb, t_max)
     if pb is not None and args.path is not None:
         from . import _return
         return _return.run(args, system, pb)
@@ -153,6 +155,62 @@ def _parking(args, system, pa, pb, t_max):
                                "legs": [g.to_dict() for g in legs]},
                 headers=HEADERS, rows=rows, table=table, comments=head)
     return 0
+
+
+def _optimise_tori(args, system, pa, pb, t_max):
+    """--optimise between two tori: the heteroclinic patch (positions and velocities matched) where
+    the manifolds' cuts meet, else the position-matched patch, then the optimiser with both tori's
+    angles free (:func:`cr3bp.api.optimise`)."""
+    from cr3bp import api
+    from cr3bp.errors import ConvergenceError, InputError, NoSolutionError
+    from cr3bp.tori import request as treq
+    from . import _optimise
+    from .manifold import torus_request
+    cap = _optimise.check(args, system, pa, pb)
+    if args.start != "patch":
+        raise InputError(f"--start {args.start}: between two tori the optimiser starts from their manifold patch "
+                         "(--start patch)")
+    if args.epoch is not None:
+        raise InputError("--epoch dates a departure from a parking orbit; give it with --path")
+    from . import _departure as depcli
+    depcli.refuse_dated(args, "to --optimise (transfers between two tori)")
+    if args.min_flyby_altitude is not None:
+        raise InputError("--min-flyby-altitude goes with --path (a departure from a parking orbit)")
+    if args.crossing != 1:
+        raise InputError(f"--crossing {args.crossing}: connections with a torus use the first crossing "
+                         "of the section")
+    from cr3bp.tubes.sections import parse_section
+    sec = parse_section(args.section, system)
+    if sec.kind != "plane" or sec.coordinate > 2:
+        raise InputError(f"--section {args.section!r}: connections with a torus need a position plane such as "
+                         "x=1-mu or y=0")
+    if args.plot:
+        common.plot_file("--plot", args.plot)
+    spec_a, spec_b = torus_request(system, args.origin, args), torus_request(system, args.target, args)
+    say = (lambda m: common.progress(args, m, verbose_only=True))
+    common.progress(args, f"librate connect --optimise: solving the torus '{args.origin}'...")
+    a = treq.solve(system, spec_a, progress=say)
+    common.progress(args, f"librate connect --optimise: solving the torus '{args.target}'...")
+    b = treq.solve(system, spec_b, progress=say)
+    n = args.points or 100
+    fb, tb_ = args.from_branch or "interior", args.to_branch or "interior"
+    legs, why = None, ""
+    for match in ("state", "position"):
+        common.progress(args, f"librate connect --optimise: growing two manifolds of {n} trajectories to "
+                        f"{args.section}, matching the {'positions and velocities' if match == 'state' else 'positions'}...")
+        try:
+            legs = api.connect(a, b, section=args.section, points=n, time=t_max, step_off=args.step_off,
+                               candidates=args.candidates, from_branch=fb, to_branch=tb_, match=match)
+            break
+        except (NoSolutionError, ConvergenceError) as e:
+            why = str(e)
+            common.progress(args, f"no heteroclinic patch ({e}); starting from the position-matched patch"
+                            if match == "state" else str(e))
+    if legs is None:
+        raise NoSolutionError(f"no manifold patch between the two tori to start from: {why}")
+    tr = api.optimise(a, b, impulses=args.impulses, max_tof=cap, start=legs[0],
+                      progress=lambda m: common.progress(args, "librate connect --optimise: " + m))
+    return _optimise.emit(args, system, tr)
 
 
 def _emit_legs(args, system, legs, a, b, how):

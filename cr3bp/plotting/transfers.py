@@ -31,8 +31,14 @@ def _box(states, i, j, margin=MARGIN):
     return cu - span / 2, cu + span / 2, cv - span / 2, cv + span / 2
 
 
+#: Stroboscopic times of a torus trajectory drawn at a torus end.
+TORUS_SPANS = 4
+
+
 def plot_orbit_transfer(tr, n_per_coast=600):
-    """Two panels (x-y, x-z) of the transfer ``tr`` and its start; returns the figure.
+    """Two panels (x-y, x-z) of the transfer ``tr`` and its start; returns the figure. Between
+    two tori each is drawn as its trajectory through the burn's point over ``TORUS_SPANS``
+    stroboscopic times.
 
     Parameters
     ----------
@@ -71,15 +77,23 @@ def plot_orbit_transfer(tr, n_per_coast=600):
     _, states = tr.trajectory(n_per_coast)
     start = _start_states(tr)
     orbits = []
-    for o in (tr.orbit_from, tr.orbit_to):
-        T = float(o.period)
-        orbits.append(propagate(system, o.state, T, t_eval=np.linspace(0.0, T, 600)).states)
+    torus = hasattr(tr.orbit_from, "stroboscopic_time")
+    for o, ph in ((tr.orbit_from, tr.phase_from), (tr.orbit_to, tr.phase_to)):
+        if torus:       # a torus: its trajectory through the burn's point over TORUS_SPANS stroboscopic times
+            from ..transfers.optimise import _points   # lazy: keeps the plotting import light
+            x0 = _points(o).point(ph)[0]
+            T = TORUS_SPANS * float(o.stroboscopic_time)
+            orbits.append(propagate(system, x0, T, t_eval=np.linspace(0.0, T, 600 * TORUS_SPANS)).states)
+        else:
+            T = float(o.period)
+            orbits.append(propagate(system, o.state, T, t_eval=np.linspace(0.0, T, 600)).states)
+    what = "torus (its trajectory through the burn)" if torus else "orbit"
     fig, axes = new_figure(2, 1, size=(13.0, 6.0))
     axes = axes.ravel()
     for ax, view in zip(axes, ("xy", "xz")):
         i, j = {"xy": (0, 1), "xz": (0, 2)}[view]
-        ax.plot(orbits[0][:, i], orbits[0][:, j], color="0.2", lw=1.3, label="departure orbit")
-        ax.plot(orbits[1][:, i], orbits[1][:, j], color="0.6", lw=1.3, label="arrival orbit")
+        ax.plot(orbits[0][:, i], orbits[0][:, j], color="0.2", lw=1.3 - 0.6 * torus, label=f"departure {what}")
+        ax.plot(orbits[1][:, i], orbits[1][:, j], color="0.6", lw=1.3 - 0.6 * torus, label=f"arrival {what}")
         ax.plot(start[:, i], start[:, j], color="tab:purple", lw=1.0, ls="--",
                 label=f"start ({tr.start.solution}) {tr.start.dv_mps:.1f} m/s (CR3BP)")
         ax.plot(states[:, i], states[:, j], color="tab:blue", lw=1.4,

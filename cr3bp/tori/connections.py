@@ -38,6 +38,11 @@ CANDIDATES = 5
 GRAZE = 1.5
 #: Step halvings tried when a Newton step of the torus-to-torus patch does not lower the residual.
 BACKTRACK = 12
+#: What a torus-to-torus patch matches: the in-section positions, or positions and velocities.
+MATCHES = ("position", "state")
+#: Candidate pairs refined when the whole in-section state is matched (the cuts are surfaces in
+#: four dimensions: the nearest sampled pairs are farther from a meeting point).
+STATE_CANDIDATES = 10
 
 
 class _TorusEnd:
@@ -265,7 +270,7 @@ def _refine(t_end, o_end, x, names, T, To, torus_first, tol=PATCH_TOL):
 
 
 def connect_torus_to_torus(torus_a, torus_b, section, n_points=100, *, branch_a="interior",
-                           branch_b="interior", step_km=None, t_max=2 * math.pi):
+                           branch_b="interior", step_km=None, t_max=2 * math.pi, match="position"):
     """The cheapest patch connections from ``torus_a``'s unstable manifold to ``torus_b``'s
     stable manifold on ``section`` (a position plane ``x = c``, ``y = c`` or ``z = c``).
 
@@ -274,6 +279,14 @@ def connect_torus_to_torus(torus_a, torus_b, section, n_points=100, *, branch_a=
     method (minimum-norm update, forward-difference partials) on the four departure phases
     ``(tau_a, phi_a, tau_b, phi_b)`` (time along each stroboscopic period, circle angle at
     departure) until the positions match; the velocity jump there is the leg's Δv.
+
+    With ``match="state"`` (two tori of one Jacobi constant) the in-section velocities are
+    matched too: four equations in the four phases, a square system. In the spatial problem the
+    cut of each torus's manifold is a two-dimensional surface of the four-dimensional section
+    of one energy level, so two such surfaces meet at isolated points where they meet at all:
+    a heteroclinic connection (Δv at the patch zero to Newton's tolerance; the velocity across
+    the plane agrees through the common Jacobi constant). The pairs nearest in position and
+    velocity are refined; where none converges, NoSolutionError.
 
     Parameters
     ----------
@@ -289,6 +302,9 @@ def connect_torus_to_torus(torus_a, torus_b, section, n_points=100, *, branch_a=
         Step-off distance (default as for orbit tubes).
     t_max : float, optional
         Time limit per trajectory, TU.
+    match : {"position", "state"}, optional
+        Match the in-section positions (default) or positions and velocities (a heteroclinic
+        connection; ``details["match"]`` says which).
 
     Returns
     -------
@@ -339,11 +355,15 @@ def connect_torus_to_torus(torus_a, torus_b, section, n_points=100, *, branch_a=
     system = torus_a.system
     if torus_b.system.mu != system.mu:
         raise InputError("the two tori belong to different systems")
+    if match not in MATCHES:
+        raise InputError(f"match {match!r}; allowed: {', '.join(MATCHES)}")
     sec = parse_section(section, system) if isinstance(section, str) else section
     if sec.kind != "plane" or sec.coordinate > 2:
         raise InputError("torus connections need a position plane such as x=1-mu or y=0")
     stop = Stop(sec, 1, float(t_max))
     names = tuple("xyz"[c] for c in (0, 1, 2) if c != sec.coordinate)
+    if match == "state":
+        names = names + tuple("v" + n for n in names)
     ta = grow_tube(torus_a, "unstable", branch_a, n_points, stop, step_km=step_km)
     tb = grow_tube(torus_b, "stable", branch_b, n_points, stop, step_km=step_km)
     ia = np.nonzero(ta.reached("section"))[0]
@@ -354,7 +374,11 @@ def connect_torus_to_torus(torus_a, torus_b, section, n_points=100, *, branch_a=
     pa = np.array([_coords(ta.end_states[i], names) for i in ia])
     pb = np.array([_coords(tb.end_states[j], names) for j in ib])
     d = np.linalg.norm(pa[:, None, :] - pb[None, :, :], axis=2)
-    order = _spread_pairs(system, d, ta.end_states[ia], tb.end_states[ib], pa)
+    if match == "state":        # the plane crossed the same way (the normal velocity's sign)
+        k = sec.coordinate + 3
+        d[np.sign(ta.end_states[ia, k])[:, None] != np.sign(tb.end_states[ib, k])[None, :]] = np.inf
+    order = _spread_pairs(system, d, ta.end_states[ia], tb.end_states[ib], pa,
+                          STATE_CANDIDATES if match == "state" else CANDIDATES)
     end_a, end_b = _TorusEnd(ta, stop), _TorusEnd(tb, stop)
     Ta, Tb = torus_a.stroboscopic_time, torus_b.stroboscopic_time
     legs, reasons = [], []
@@ -371,13 +395,18 @@ def connect_torus_to_torus(torus_a, torus_b, section, n_points=100, *, branch_a=
                                     "torus-manifold",
                                     {"section": sec.label, "torus_tau": float(x[0]),
                                      "torus_circle_angle": float(x[1]), "arrival_torus_tau": float(x[2]),
-                                     "arrival_torus_circle_angle": float(x[3])}))
+                                     "arrival_torus_circle_angle": float(x[3]), "match": match,
+                                     # the departure points as (fraction of T, turns of the circle):
+                                     # the phases cr3bp.transfers.optimise starts from
+                                     "torus_phase_from": [float(x[0] / Ta), float(x[1] / (2 * math.pi))],
+                                     "torus_phase_to": [float(x[2] / Tb), float(x[3] / (2 * math.pi))]}))
     if not legs:
-        raise NoSolutionError("no torus-to-torus patch converged: " + "; ".join(reasons[:3]))
+        what = "heteroclinic (position and velocity)" if match == "state" else "torus-to-torus"
+        raise NoSolutionError(f"no {what} patch converged: " + "; ".join(reasons[:3]))
     return sorted(legs, key=lambda lg: lg.dv_mps)
 
 
-def _spread_pairs(system, d, ends_a, ends_b, pa):
+def _spread_pairs(system, d, ends_a, ends_b, pa, most=CANDIDATES):
     """Up to CANDIDATES pairs (rows of ``d``: departing crossings, columns: arriving), nearest
     first, leaving out crossings that graze a primary (within GRAZE body radii of its centre:
     Newton steps there fall into the body) and pairs whose departing crossing lies within twice
@@ -397,7 +426,7 @@ def _spread_pairs(system, d, ends_a, ends_b, pa):
             break
         if all(np.linalg.norm(pa[i] - pa[k]) > 2 * dd[i, j] for k, _ in out):
             out.append((i, j))
-        if len(out) >= CANDIDATES:
+        if len(out) >= most:
             break
     return out
 

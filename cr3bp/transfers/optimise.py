@@ -134,6 +134,80 @@ class _OrbitPoints:
         self.cache[ph] = out
         return out
 
+    dim = 1
+
+    def point(self, phase):
+        """(state (6,), d state / d phase (6, 1)); ``phase``: a number or a sequence of one."""
+        s, d = self.at(np.ravel(phase)[0])
+        return s, d[:, None]
+
+    def reduce(self, phase) -> float:
+        """The phase taken modulo 1 (the value reported)."""
+        return float(np.ravel(phase)[0]) % 1.0
+
+    def origin(self, phase):
+        """(a state, a time TU): propagating the state over the time reaches the point at ``phase``."""
+        return self.orbit.state, self.reduce(phase) * self.period
+
+
+class _TorusPoints:
+    """A quasi-periodic torus's state at a phase pair ``(s, q)`` and its derivatives:
+    ``W(s, q) = phi_{sT}(u(2 pi q))``, ``s`` the fraction of the stroboscopic time ``T`` and
+    ``q`` the circle angle in turns (the torus function of Olikara & Scheeres, AAS 12-361, 2012,
+    §II). ``dW/ds = T f(W)``, ``dW/dq = 2 pi Phi(sT, 0) u'(2 pi q)``; ``s`` is brought into
+    [0, 1) by ``W(s + k, q) = W(s, q + k rho / 2 pi)``."""
+
+    dim = 2
+
+    def __init__(self, torus):
+        from ..tori import circle        # lazy: import cycle (tori imports transfers for its legs)
+        self.orbit = torus
+        self.system = torus.system
+        self.period = float(torus.stroboscopic_time)
+        self.turn = float(torus.rotation) / (2 * math.pi)
+        self.circle = circle
+        self.du = circle.derivative(torus.circle)
+        self.cache = {}
+
+    def reduce(self, phase):
+        s, q = (float(v) for v in np.ravel(phase)[:2])
+        k = math.floor(s)
+        return (s - k, (q + k * self.turn) % 1.0)
+
+    def origin(self, phase):
+        s, q = self.reduce(phase)
+        return self.circle.evaluate(self.orbit.circle, [2 * math.pi * q])[0], s * self.period
+
+    def point(self, phase):
+        key = self.reduce(phase)
+        hit = self.cache.get(key)
+        if hit is not None:
+            return hit
+        s, q = key
+        u = self.circle.evaluate(self.orbit.circle, [2 * math.pi * q])[0]
+        du = self.circle.evaluate(self.du, [2 * math.pi * q])[0] * 2 * math.pi
+        if s > 0.0:
+            arc = propagate(self.system, u, s * self.period, stm=True, rtol=RTOL, atol=ATOL)
+            w, dq = np.array(arc.final_state), arc.stm @ du
+        else:
+            w, dq = np.array(u), du
+        out = (w, np.column_stack([self.period * acceleration(self.system.mu, w), dq]))
+        if len(self.cache) > 4096:
+            self.cache.clear()
+        self.cache[key] = out
+        return out
+
+
+def _points(end):
+    """A periodic orbit's or a torus's states as functions of phase."""
+    return _TorusPoints(end) if hasattr(end, "stroboscopic_time") else _OrbitPoints(end)
+
+
+def _phase(value):
+    """A phase as plain data: a float (orbit) or a list of two floats (torus: s, q)."""
+    v = np.ravel(np.asarray(value, dtype=float))
+    return float(v[0]) if v.size == 1 else [float(x) for x in v]
+
 
 # ---- the start ---------------------------------------------------------------------------------
 
@@ -145,7 +219,9 @@ class Start:
     ----------
     solution : "patch" (a manifold patch) or "first guess" (a two-impulse targeted leg)
     dv_mps : float                the start's own total Δv (CR3BP)
-    phase_from, phase_to : float  departure / arrival phase (fractions of each period)
+    phase_from, phase_to : float  departure / arrival phase (fractions of each period; at a
+                                  torus the pair ``(s, q)``: fraction of the stroboscopic time,
+                                  circle angle in turns)
     arcs : tuple of (state (6,), duration TU)  ballistic arcs in time order, an impulse
                                   between consecutive arcs
     method : str                  how the start was made, in words
@@ -189,7 +265,7 @@ class Start:
 
     def to_dict(self, system) -> dict:
         return {"solution": self.solution, "dv_mps": float(self.dv_mps), "tof_days": float(system.days(self.tof)),
-                "phase_from": float(self.phase_from), "phase_to": float(self.phase_to), "method": self.method}
+                "phase_from": _phase(self.phase_from), "phase_to": _phase(self.phase_to), "method": self.method}
 
 
 def start_from_leg(leg: Leg) -> Start:
@@ -235,8 +311,14 @@ def start_from_leg(leg: Leg) -> Start:
         raise InputError("the start leg carries no departure/arrival phases (only orbit-to-orbit "
                          "manifold patches do)")
     arcs = tuple((np.array(s, dtype=float), float(dur)) for _, s, dur in leg.segments if dur > 0)
-    return Start("patch", float(leg.dv_mps), float(d["phase_from"]), float(d["phase_to"]), arcs,
-                 f"manifold patch: {leg.method}")
+    how = f"manifold patch: {leg.method}"
+    if "torus_phase_from" in d:          # a torus-to-torus patch: (s, q) at each torus
+        ph = tuple(d["torus_phase_from"]), tuple(d["torus_phase_to"])
+        if d.get("match") == "state":
+            how = f"heteroclinic patch: {leg.method}, positions and velocities matched on {d.get('section')}"
+    else:
+        ph = float(d["phase_from"]), float(d["phase_to"])
+    return Start("patch", float(leg.dv_mps), *ph, arcs, how)
 
 
 def start_from_record(system, record: dict) -> Start:
@@ -437,18 +519,20 @@ class _Problem:
         self.pa, self.pb = pa, pb
         self.system = pa.system
         self.n, self.mid, self.max_tof, self.scale = n, mid, float(max_tof), float(scale)
-        self.nz = 2 + 7 * n
+        self.ka, self.kb = pa.dim, pb.dim          # phases per end: 1 at an orbit, 2 at a torus
+        self.k = self.ka + self.kb
+        self.nz = self.k + 7 * n
         self._key = None
         self.evaluations = 0
         unit = 1.0 / self.system.mps(1.0) if self.system.dimensional else 1e-3
         self.stall_floor = STALL_MPS * unit / self.scale
 
     def unpack(self, z):
-        n = self.n
-        return z[0], z[1], z[2:2 + 6 * n].reshape(n, 6), z[2 + 6 * n:]
+        n, k = self.n, self.k
+        return z[:self.ka], z[self.ka:k], z[k:k + 6 * n].reshape(n, 6), z[k + 6 * n:]
 
     def pack(self, ta, tb, xs, dts):
-        return np.concatenate([[ta, tb], np.ravel(xs), dts])
+        return np.concatenate([np.ravel(ta), np.ravel(tb), np.ravel(xs), dts])
 
     def evaluate(self, z):
         key = z.tobytes()
@@ -465,8 +549,8 @@ class _Problem:
                                        self.evaluations, [], z)
             ys[i], stms[i] = arc.final_state, arc.stm
         fy = np.array([acceleration(self.system.mu, y) for y in ys])
-        xa, fa = self.pa.at(ta)
-        xb, fb = self.pb.at(tb)
+        xa, fa = self.pa.point(ta)
+        xb, fb = self.pb.point(tb)
         self.evaluations += 1
         self._key, self._val = key, (xs, dts, ys, stms, fy, xa, fa, xb, fb)
         return self._val
@@ -491,15 +575,16 @@ class _Problem:
         xs, dts, ys, phi, fy, xa, fa, xb, fb = self.evaluate(z)
         n = self.n
         g = np.zeros(self.nz)
-        ix = lambda i: 2 + 6 * i
-        it = lambda i: 2 + 6 * n + i
+        ka, kk = self.ka, self.k
+        ix = lambda i: kk + 6 * i
+        it = lambda i: kk + 6 * n + i
         for name, dv, k in self.impulses(z):
             u = dv / math.sqrt(float(dv @ dv) + SMOOTH * SMOOTH)
             if name == "departure":
                 g[ix(0) + 3:ix(0) + 6] += u
-                g[0] -= u @ fa[3:]
+                g[:ka] -= u @ fa[3:]
             elif name == "insertion":
-                g[1] += u @ fb[3:]
+                g[ka:kk] += u @ fb[3:]
                 g[ix(n - 1):ix(n - 1) + 6] -= u @ phi[n - 1][3:, :]
                 g[it(n - 1)] -= u @ fy[n - 1][3:]
             else:
@@ -524,10 +609,11 @@ class _Problem:
         n = self.n
         rows = [3] + [self._rows(i).stop for i in range(n - 1)] + [3]
         J = np.zeros((sum(rows), self.nz))
-        ix = lambda i: 2 + 6 * i
-        it = lambda i: 2 + 6 * n + i
+        ka, kk = self.ka, self.k
+        ix = lambda i: kk + 6 * i
+        it = lambda i: kk + 6 * n + i
         J[0:3, ix(0):ix(0) + 3] = np.eye(3)
-        J[0:3, 0] = -fa[:3]
+        J[0:3, :ka] = -fa[:3]
         r = 3
         for i in range(n - 1):
             k = rows[i + 1]
@@ -537,7 +623,7 @@ class _Problem:
             r += k
         J[r:r + 3, ix(n - 1):ix(n - 1) + 6] = phi[n - 1][:3]
         J[r:r + 3, it(n - 1)] = fy[n - 1][:3]
-        J[r:r + 3, 1] = -fb[:3]
+        J[r:r + 3, ka:kk] = -fb[:3]
         return J
 
     def ineq(self, z):
@@ -545,11 +631,11 @@ class _Problem:
 
     def ineq_jac(self, z):
         J = np.zeros((1, self.nz))
-        J[0, 2 + 6 * self.n:] = -1.0
+        J[0, self.k + 6 * self.n:] = -1.0
         return J
 
     def bounds(self):
-        return ([(None, None)] * (2 + 6 * self.n)) + [(MIN_SEGMENT_TU, self.max_tof)] * self.n
+        return ([(None, None)] * (self.k + 6 * self.n)) + [(MIN_SEGMENT_TU, self.max_tof)] * self.n
 
 
 def _segment_counts(durations, n_total):
@@ -590,7 +676,9 @@ class OrbitTransfer:
                                    components), ``state_before`` (6,)
     tof : float                    TU, departure burn to insertion burn
     phase_from, phase_to : float   departure / arrival phase (fractions of each period from the
-                                   orbit's initial state)
+                                   orbit's initial state; at a torus end the pair ``(s, q)``:
+                                   fraction of the stroboscopic time from the invariance circle,
+                                   circle angle in turns)
     start : Start
     max_tof : float                the cap on the time of flight, TU
     impulses : int                 impulses allowed (2 or 3)
@@ -682,7 +770,7 @@ class OrbitTransfer:
             "improvement_mps": float(self.start.dv_mps - self.dv_mps),
             "iterations": int(self.iterations), "active_bounds": list(self.active_bounds),
             "max_tof_days": float(s.days(self.max_tof)), "impulses_allowed": int(self.impulses),
-            "phase_from": float(self.phase_from), "phase_to": float(self.phase_to),
+            "phase_from": _phase(self.phase_from), "phase_to": _phase(self.phase_to),
             "primer": _plain(self.primer),
             "position_frame": "rotating frame of the primaries, origin at the barycentre (CR3BP)",
             "details": _plain(self.details),
@@ -721,8 +809,8 @@ def _min_altitude_km(system, tr: OrbitTransfer) -> float:
 
 def _from_start(system, oa, ob, origin, target, start: Start, pa, pb, max_tof, impulses, why, details):
     """The start itself as a result (the optimiser could not improve on it)."""
-    sa, _ = pa.at(start.phase_from)
-    sb, _ = pb.at(start.phase_to)
+    sa, _ = pa.point(start.phase_from)
+    sb, _ = pb.point(start.phase_to)
     mans, t = [], 0.0
     names = ["departure"] + ["mid-course"] * (len(start.arcs) - 1) + ["insertion"]
     prev_end = sa
@@ -735,8 +823,8 @@ def _from_start(system, oa, ob, origin, target, start: Start, pa, pb, max_tof, i
     mans.append({"name": "insertion", "t": t, "position": np.array(prev_end[:3]),
                  "dv_vector": sb[3:] - prev_end[3:], "state_before": np.array(prev_end)})
     d = dict(details, not_optimised=why)
-    return OrbitTransfer(system, oa, ob, origin, target, start.solution, tuple(mans), t, start.phase_from,
-                         start.phase_to, start, max_tof, impulses, details.get("iterations", 0), (), {}, d)
+    return OrbitTransfer(system, oa, ob, origin, target, start.solution, tuple(mans), t, pa.reduce(start.phase_from),
+                         pb.reduce(start.phase_to), start, max_tof, impulses, details.get("iterations", 0), (), {}, d)
 
 
 def describe(orbit) -> str:
@@ -769,6 +857,9 @@ def describe(orbit) -> str:
     ----------
     Common practice.
     """
+    if hasattr(orbit, "stroboscopic_time"):
+        from ..tori.manifolds import describe as _t   # lazy: import cycle (tori imports transfers.leg)
+        return _t(orbit)
     from ..tubes.manifolds import describe as _d   # lazy: import cycle (tubes imports transfers.leg)
     return _d(orbit)
 
@@ -780,9 +871,11 @@ def optimise_transfer(orbit_from, orbit_to, start: Start | None = None, *, impul
 
     Parameters
     ----------
-    orbit_from, orbit_to : PeriodicOrbit (same system)
+    orbit_from, orbit_to : PeriodicOrbit or Torus (same system)
+                                   a quasi-periodic torus (:mod:`cr3bp.tori`) at an end adds
+                                   its two angles to the unknowns (:class:`_TorusPoints`)
     start : Start, optional        where to begin (:func:`start_from_leg`, :func:`sweep_start`);
-                                   default: the phase sweep
+                                   default: the phase sweep (two periodic orbits only)
     impulses : {2, 3}              departure and insertion, plus a mid-course impulse with 3
     max_tof : float, optional      cap on the time of flight, TU (default: 1.5 times the start's,
                                    and at least two periods of the longer orbit)
@@ -826,7 +919,11 @@ def optimise_transfer(orbit_from, orbit_to, start: Start | None = None, *, impul
     if impulses not in IMPULSES:
         raise InputError(f"impulses = {impulses!r}; allowed: 2 or 3")
     t_clock = time.perf_counter()
-    pa, pb = _OrbitPoints(orbit_from), _OrbitPoints(orbit_to)
+    pa, pb = _points(orbit_from), _points(orbit_to)
+    if start is None and (pa.dim > 1 or pb.dim > 1):
+        raise InputError("a transfer with a torus at either end starts from a manifold patch "
+                         "(cr3bp.tori.connections.connect_torus_to_torus); the phase sweep joins "
+                         "periodic orbits only")
     floor = DEFAULT_TOF_PERIODS * max(pa.period, pb.period)
     if max_tof is not None:
         max_tof = positive_number("max_tof (TU)", max_tof)
@@ -947,7 +1044,7 @@ def _polish(pbm: _Problem, z, iterations=20):
 
 def _build(system, oa, ob, origin, target, pbm: _Problem, z, start, max_tof, impulses, iterations, details):
     xs, dts, ys, phi, fy, xa, fa, xb, fb = pbm.evaluate(z)
-    ta, tb = float(z[0]) % 1.0, float(z[1]) % 1.0
+    ta, tb = pbm.pa.reduce(z[:pbm.ka]), pbm.pb.reduce(z[pbm.ka:pbm.k])
     n = pbm.n
     t_nodes = np.concatenate([[0.0], np.cumsum(dts)])
     mans = [{"name": "departure", "t": 0.0, "position": xa[:3].copy(), "dv_vector": xs[0, 3:] - xa[3:],
@@ -1014,8 +1111,8 @@ def closure_km(tr: OrbitTransfer, propagator=None) -> float:
         end = propagate(s, st, dt, rtol=RTOL, atol=ATOL).final_state if propagator is None else \
             np.asarray(propagator(s, st, dt))
         worst = max(worst, float(np.linalg.norm(end[:3] - np.asarray(nxt["position"]))))
-    sb = _OrbitPoints(tr.orbit_to).at(tr.phase_to)[0] if propagator is None else \
-        np.asarray(propagator(s, tr.orbit_to.state, tr.phase_to * tr.orbit_to.period))
+    pts = _points(tr.orbit_to)
+    sb = pts.point(tr.phase_to)[0] if propagator is None else np.asarray(propagator(s, *pts.origin(tr.phase_to)))
     worst = max(worst, float(np.linalg.norm(sb[:3] - np.asarray(tr.maneuvers[-1]["position"]))))
     return float(s.km(worst)) if s.dimensional else worst
 
