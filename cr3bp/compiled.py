@@ -50,8 +50,8 @@ SIGNATURES = {
         f"(int64, {_F1}, {_F1}, float64, float64, float64, float64, float64, float64, int64, "
         f"{_F2}, int64, {_F1}, boolean)"),
     "integrate_packed": (
-        f"{_F1}(int64, {_F1}, {_F1}, float64, float64, float64, float64, float64, float64, int64, "
-        f"{_F2}, int64, {_F1}, boolean, int64[::1])"),
+        f"optional({_F1})(int64, {_F1}, {_F1}, float64, float64, float64, float64, float64, "
+        f"float64, int64, {_F2}, int64, {_F1}, boolean, {_F1})"),
     "integrate_rows": (
         f"void(int64, {_F1}, {_F2}, float64, {_F1}, float64, float64, float64, int64, {_F2}, "
         f"int64, boolean, {_F2}, {_F1}, int64[::1], int64[::1], int64[::1], {_F2}, "

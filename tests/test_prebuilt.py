@@ -413,12 +413,15 @@ def test_propagate_unpacks_exactly_the_integrators_results(name, args):
     k = _current()
     (mode, mu, y0, t0, tf, rtol, atol, h0, mstep, nmax, tab, _m, t_eval, record) = args
     ref = k.integrate(mode, mu, y0.copy(), t0, tf, rtol, atol, h0, mstep, nmax, tab, -1, t_eval, record)
-    counts = np.empty(8, dtype=np.int64)
-    packed = k.integrate_packed(mode, mu, y0.copy(), t0, tf, rtol, atol, h0, mstep, nmax, tab, -1,
-                                t_eval, record, counts)
-    jit = dop853.integrate_packed(mode, mu, y0.copy(), t0, tf, rtol, atol, h0, mstep, nmax, tab, -1,
-                                  t_eval, record, counts)
-    assert packed.tobytes() == jit.tobytes()
+    packed, jit = [f(mode, mu, y0.copy(), t0, tf, rtol, atol, h0, mstep, nmax, tab, -1, t_eval,
+                     record, np.empty(0)) for f in (k.integrate_packed, dop853.integrate_packed)]
+    assert packed is not None and packed.tobytes() == jit.tobytes()
+    # the same results written into the caller's array when they fit (what propagate() passes)
+    for f in (k.integrate_packed, dop853.integrate_packed):
+        space = np.full(packed.size + 3, -7.0)
+        assert f(mode, mu, y0.copy(), t0, tf, rtol, atol, h0, mstep, nmax, tab, -1, t_eval,
+                 record, space) is None
+        assert space[:packed.size].tobytes() == packed.tobytes() and np.all(space[packed.size:] == -7.0)
     ev = {"STM, second x-z crossing": [events.plane("y", 0.0, terminal=True, count=2)],
           "impact": [events.impact(1, 0.002)]}.get(name, [])
     arc = propagate(EM, y0[:6], tf, stm=(mode == MODE_STM), rtol=rtol, atol=atol, events=ev,

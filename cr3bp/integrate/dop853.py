@@ -54,6 +54,9 @@ EPS = 2.220446049250313e-16   # double-precision unit round-off (dop853 UROUND)
 STALL_FACTOR = 10.0      # stop when 0.1 |h| <= |t| * EPS (dop853's "step size too small")
 LAST_STEP_STRETCH = 1.01 # take t_final if it is within 1 % beyond the next step (dop853)
 MAX_BRENT_ITERATIONS = 200
+RECORD_START = 32         # steps the history holds before it first grows (doubling)
+PACKED_HEAD = 8           # counts at the head of integrate_packed's array
+EVENTS_START = 16         # events kept before their storage first grows (doubling)
 
 _NS = N_STAGES            # 12 stages of the method
 _NX = N_STAGES_EXTENDED   # 16 stages with the FSAL stage and three for dense output
@@ -435,34 +438,68 @@ def integrate(mode, params, y0, t0, t_final, rtol, atol, first_step, max_step, m
     nev = events.shape[0]
     m_eval = t_eval.shape[0]
 
-    K = np.empty((_NX, n))
-    F = np.empty((_NP, n))
-    y = y0.copy()
-    ynew = np.empty(n)
-    ytmp = np.empty(n)
-    yout = np.empty(n)
-    w5 = np.empty(n)
-    w3 = np.empty(n)
-    buf = np.empty(6)
+    # The work arrays are views of one allocation, and the outputs a short call does not fill
+    # are empty views of it too: each np.empty is a call into numba's allocator, and a short
+    # propagation (one step) made twenty-two of them, about a third of the kernel's time
+    # (measured on this project's machine, prebuilt module). The event bookkeeping (hits,
+    # candidate event numbers) is held as floats there: small whole numbers, exact.
+    work = np.empty((_NX + _NP + 7) * n + 6 + 5 * nev)
+    o = 0
+    K = work[o:o + _NX * n].reshape(_NX, n)
+    o += _NX * n
+    F = work[o:o + _NP * n].reshape(_NP, n)
+    o += _NP * n
+    y = work[o:o + n]
+    o += n
+    ynew = work[o:o + n]
+    o += n
+    ytmp = work[o:o + n]
+    o += n
+    yout = work[o:o + n]
+    o += n
+    w5 = work[o:o + n]
+    o += n
+    w3 = work[o:o + n]
+    o += n
+    buf = work[o:o + 6]
+    o += 6
+    hits = work[o:o + nev]
+    o += nev
+    g_old = work[o:o + nev]
+    o += nev
+    g_new = work[o:o + nev]
+    o += nev
+    cand_t = work[o:o + nev]
+    o += nev
+    cand_k = work[o:o + nev]
+    y[:] = y0
+    for k in range(nev):
+        hits[k] = 0.0
 
-    cap = 256 if record else 1
-    ts = np.empty(cap)
-    ys = np.empty((cap, 6))
+    # step history: grown by doubling (_grow), from a size that a short arc does not outgrow
+    if record:
+        ts = np.empty(RECORD_START)
+        ys = np.empty((RECORD_START, 6))
+    else:
+        ts = work[:0]
+        ys = work[:0].reshape(0, 6)
     nrec = 0
-    ecap = 16 if max_events < 0 else max(max_events, 1)
-    ev_t = np.empty(ecap)
-    ev_y = np.empty((ecap, 6))
-    ev_k = np.empty(ecap, dtype=np.int64)
+    if nev == 0:                # no event can occur: nothing to store
+        ev_t = work[:0]
+        ev_y = work[:0].reshape(0, 6)
+    else:
+        ecap = EVENTS_START if max_events < 0 else max(max_events, 1)
+        ev_t = np.empty(ecap)
+        ev_y = np.empty((ecap, 6))
+    ev_k = np.empty(ev_t.shape[0], dtype=np.int64)
     n_ev = 0
     n_seen = 0
-    eval_y = np.empty((m_eval, 6))
+    if m_eval == 0:
+        eval_y = work[:0].reshape(0, 6)
+    else:
+        eval_y = np.empty((m_eval, 6))
     ie = 0
 
-    hits = np.zeros(nev, dtype=np.int64)
-    g_old = np.empty(nev)
-    g_new = np.empty(nev)
-    cand_t = np.empty(nev)
-    cand_k = np.empty(nev, dtype=np.int64)
     for k in range(nev):
         g_old[k] = event_g(int(events[k, 0]), int(events[k, 1]), events[k, 2], mu, y)
 
@@ -567,9 +604,9 @@ def integrate(mode, params, y0, t0, t_final, rtol, atol, first_step, max_step, m
                 cand_k[pos] = k
                 nc += 1
         for c in range(nc):
-            k = cand_k[c]
+            k = int(cand_k[c])
             tr = cand_t[c]
-            hits[k] += 1
+            hits[k] += 1.0
             n_seen += 1
             if max_events < 0 or n_ev < max_events:
                 if n_ev == ev_t.shape[0]:
@@ -582,7 +619,7 @@ def integrate(mode, params, y0, t0, t_final, rtol, atol, first_step, max_step, m
                 ev_y[n_ev, :] = buf
                 n_ev += 1
             kind = int(events[k, 0])
-            if kind != 0 or (events[k, 4] > 0.0 and hits[k] >= int(events[k, 5])):
+            if kind != 0 or (events[k, 4] > 0.0 and int(hits[k]) >= int(events[k, 5])):
                 stop_kind = kind
                 t_stop = tr
                 break
@@ -712,25 +749,46 @@ def integrate_rows(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_st
 
 @njit(cache=True)
 def integrate_packed(mode, params, y0, t0, t_final, rtol, atol, first_step, max_step, max_steps,
-                     events, max_events, t_eval, record, counts):
+                     events, max_events, t_eval, record, space):
     """:func:`integrate` with its results in one array: what :func:`cr3bp.integrate.propagate`
-    calls. The ahead-of-time build hands every returned array to Python at about 0.9 us each
-    (measured on this project's machine: 9 us for :func:`integrate`'s eight, 1.8 us for a call
-    returning none), so the arrays are copied into one.
+    calls. The results go into ``space`` (the caller's array) when they fit, and the call
+    returns None; else into a new array, returned.
 
-    ``counts`` (int64, 8) receives status, the recorded steps k, the events kept e, the events
-    seen, the ``t_eval`` outputs j, nfev, nsteps and rejected steps. Returns one float array:
-    ``[t_end, y_end (n), ts (k), ys (k x 6), ev_t (e), ev_y (e x 6), ev_k (e), eval_y (j x 6)]``
-    (the event indices as floats: exact, they are small whole numbers)."""
+    Why: the ahead-of-time build hands every returned array to Python at about 0.9 us each
+    (it unpickles the array's dtype at each call; measured on this project's machine: 9 us
+    for :func:`integrate`'s eight), so the arrays are copied into one, the counts too (an
+    array of counts passed in cost the caller its allocation and the call its unboxing), and
+    a short propagation, whose results fit the caller's small array, returns none at all
+    (about a third of the kernel call's instructions, counted with valgrind's callgrind).
+
+    Layout (one float array): ``[status, k, e, events seen, j, nfev, nsteps, rejected steps,
+    t_end, y_end (n), ts (k), ys (k x 6), ev_t (e), ev_y (e x 6), ev_k (e), eval_y (j x 6)]``
+    with k the recorded steps, e the events kept and j the ``t_eval`` outputs (the counts and
+    event indices as floats: exact, they are whole numbers far below 2**53)."""
     (status, t_end, y_end, ts, ys, ev_t, ev_y, ev_k, n_seen, eval_y, n_eval, nfev, nsteps,
      nrej) = integrate(mode, params, y0, t0, t_final, rtol, atol, first_step, max_step,
                        max_steps, events, max_events, t_eval, record)
     n = y_end.shape[0]
     k = ts.shape[0]
     e = ev_t.shape[0]
-    out = np.empty(1 + n + 7 * k + 8 * e + 6 * n_eval)
-    out[0] = t_end
-    o = 1
+    size = PACKED_HEAD + 1 + n + 7 * k + 8 * e + 6 * n_eval
+    if size <= space.shape[0]:
+        out = space
+        fresh = False
+    else:
+        out = np.empty(size)
+        fresh = True
+    out[0] = status
+    out[1] = k
+    out[2] = e
+    out[3] = n_seen
+    out[4] = n_eval
+    out[5] = nfev
+    out[6] = nsteps
+    out[7] = nrej
+    o = PACKED_HEAD
+    out[o] = t_end
+    o += 1
     out[o:o + n] = y_end
     o += n
     out[o:o + k] = ts
@@ -751,12 +809,6 @@ def integrate_packed(mode, params, y0, t0, t_final, rtol, atol, first_step, max_
     for i in range(n_eval):
         for c in range(6):
             out[o + 6 * i + c] = eval_y[i, c]
-    counts[0] = status
-    counts[1] = k
-    counts[2] = e
-    counts[3] = n_seen
-    counts[4] = n_eval
-    counts[5] = nfev
-    counts[6] = nsteps
-    counts[7] = nrej
-    return out
+    if fresh:
+        return out
+    return None

@@ -44,6 +44,12 @@ _PARAMS: dict = {}
 _TOL_LO, _TOL_HI = validate.RTOL_RANGE
 _HUGE = math.inf
 _new = object.__new__
+_HEAD = 8       # counts at the head of the packed result (dop853.PACKED_HEAD)
+# Length of the array propagate() hands the kernel for its results: 1 KiB, which numpy serves
+# from its cache of small blocks; it holds a state-only arc of up to 16 recorded steps (the
+# head, t_end, the state, 7 numbers a step) or an STM arc of up to 11; longer arcs come back in
+# an array of the kernel's (about 1 us more, against their >= 10 us of integration).
+_SPACE = 128
 
 
 @dataclass(frozen=True)
@@ -447,14 +453,13 @@ def propagate(system, state, t_final, stm=False, rtol=1e-12, atol=1e-12, events=
         _check_events_start(system, tab, s0)
     else:
         tab = _NO_EVENTS
-    direction = 1.0 if tf >= t0 else -1.0
     if t_eval is None:
         te = _NO_TIMES
         record = True
     else:
-        te = _t_eval(t_eval, t0, tf, direction)
+        te = _t_eval(t_eval, t0, tf, 1.0 if tf >= t0 else -1.0)
         record = False
-    mstep = _max_step(max_step)
+    mstep = _HUGE if max_step is None else _max_step(max_step)
     # fast path: a whole number of at least 1 needs no check
     nmax = max_steps if type(max_steps) is int and max_steps >= 1 else _max_steps(max_steps)
     h0 = -1.0 if first_step is None else abs(validate.finite_time("first_step", first_step))
@@ -469,26 +474,33 @@ def propagate(system, state, t_final, stm=False, rtol=1e-12, atol=1e-12, events=
     else:
         y0 = s0.copy()          # contiguous: the prebuilt kernel reads a strided view wrongly
 
-    counts = np.empty(8, dtype=np.int64)
+    # the results land in `space` when they fit (a short arc), else in an array returned
+    space = np.empty(_SPACE)
     out = _packed()(mode, params, y0, t0, tf, rtol, atol, h0, mstep, nmax, tab, -1, te, record,
-                    counts)
-    code, k, e, _seen, n_eval, nfev, nsteps, _nrej = counts.tolist()
+                    space)
+    if out is None:
+        out = space
+    # the counts, then t_end (dop853.integrate_packed's layout: _HEAD counts first)
+    code, k, e, _seen, n_eval, nfev, nsteps, _nrej, t_end = out[:_HEAD + 1].tolist()
+    code, k, e, n_eval, nfev, nsteps = int(code), int(k), int(e), int(n_eval), int(nfev), int(nsteps)
     n = y0.shape[0]
-    t_end = out.item(0)
-    y_end = out[1:1 + n]
+    o = _HEAD + 1
+    y_end = out[o:o + n]
     if code < 0:
         raise ConvergenceError(_failure_message(code, t_end, t0, tf, nsteps, nmax),
                                iterations=nsteps, last=np.array(y_end[:6]))
-    o = 1 + n + 7 * k
+    o += n
+    if record:
+        t_out = out[o:o + k]
+        s_out = out[o + k:o + 7 * k].reshape(k, 6)
+    o += 7 * k
     if e:
         ev_y = out[o + e:o + 7 * e].reshape(e, 6)
         hits = tuple(EventHit(int(j), events[int(j)].name, t, np.array(ev_y[i]))
                      for i, (t, j) in enumerate(zip(out[o:o + e].tolist(), out[o + 7 * e:o + 8 * e].tolist())))
     else:
         hits = ()
-    if record:
-        t_out, s_out = out[1 + n:1 + n + k], out[1 + n + k:o].reshape(k, 6)
-    else:
+    if not record:
         o += 8 * e
         t_out, s_out = te[:n_eval].copy(), out[o:o + 6 * n_eval].reshape(n_eval, 6)
     phi = y_end[6:].reshape(6, 6) if stm else None
