@@ -19,6 +19,17 @@ is ``W(2 pi a, 2 pi b)``, the torus function of :func:`cr3bp.tori.trajectory.sta
 ``a``; ``details["torus_phase_deg"]`` both angles), so :func:`cr3bp.transfers.departure.as_leg`
 and :func:`cr3bp.transfers.departure.closure_km` read it as they read a periodic orbit's.
 
+The flyby path to a torus (:func:`cr3bp.transfers.departure.design_flyby`, its public entry) is
+found by continuation from the torus's base orbit rather than by the scan alone: the periodic
+orbit the torus was grown from (:func:`base_orbit`) gets its own optimised flyby first; its
+unknowns, with the orbit's insertion phase as the stroboscopic phase ``a`` and
+``FLYBY_CIRCLE_STARTS`` circle angles ``b`` evenly spaced, are the starts on the torus, each made
+feasible (least-norm Newton) and optimised until the first-order conditions hold; the cheapest is
+kept (the first of equal costs). The scan runs only when no start is feasible (no base orbit, as
+for a Lissajous torus). The search runs on one BLAS thread, so the same torus gives the same
+transfer in any process at any thread count; the time of flight is bounded by the orbit's
+``FLYBY_MAX_TOF_DAYS``.
+
 Torus states at any phase come from ``PHASE_SAMPLES`` copies of the invariance circle carried
 along the stroboscopic time (one batch propagation); a state is the Fourier interpolant of the
 nearest earlier copy, propagated over the remainder (at most ``T / PHASE_SAMPLES``).
@@ -342,9 +353,9 @@ def design_torus_departure(torus, altitude_km: float = 200.0, *, path: str = "di
     min_flyby_altitude_km : float
         Least altitude of the lunar periapsis (flyby path; above 0 to 20 000 km).
     max_tof_days : float, optional
-        Longest time of flight, departure to insertion (1 to 400 d; default
-        :data:`cr3bp.transfers.departure.MAX_TOF_DAYS` on both paths: under the periodic
-        orbit's 10-day flyby bound the optimiser stalls on a torus).
+        Longest time of flight, departure to insertion (1 to 400 d; default, as to a periodic
+        orbit, :data:`cr3bp.transfers.departure.MAX_TOF_DAYS`, or
+        :data:`cr3bp.transfers.departure.FLYBY_MAX_TOF_DAYS` on the flyby path).
     guesses : int, optional
         First guesses optimised (default :data:`cr3bp.transfers.departure.GUESSES_OPTIMISED`).
 
