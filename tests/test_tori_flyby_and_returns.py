@@ -354,10 +354,16 @@ def test_scenario_flyby_to_a_torus_equals_the_library(torus_flyby, tmp_path):
     gives the library's flyby departure (design_torus_departure) number for number."""
     from cr3bp.catalog import Catalog
     from cr3bp.scenario import run as mission
+    from cr3bp.tori.departure import design_torus_departure
     p = tmp_path / "s.toml"
     p.write_text(FLYBY_SCENARIO)
     mission.run(mission.prepare(p), tmp_path / "out", catalog=Catalog(":memory:"), reduced=True)
     best = json.loads((tmp_path / "out" / "route-up.json").read_text())["best"]
-    # (the graph designs in a worker process; the flyby search runs on one BLAS thread from the
-    # same starts, so it gives the library's number: SAME_MPS)
-    assert best["dv_total_mps"] == pytest.approx(torus_flyby.dv_mps, abs=SAME_MPS)
+    # The run solves its torus through a catalogue, which reaches other last bits than the fixture's
+    # solve (the NRHO and the circle: the flyby designs were measured 0.84 m/s apart, a known
+    # weakness, docs/guide/departures.rst); the seam is the graph leg, in a worker process, against
+    # the library on the same torus: the flyby search runs on one BLAS thread from the same starts.
+    same = treq.solve(em(), NRHO_TORUS, catalog=Catalog(":memory:"))
+    lib = design_torus_departure(same, 200.0, path="lunar-flyby", min_flyby_altitude_km=100.0)
+    assert best["dv_total_mps"] == pytest.approx(lib.dv_mps, abs=SAME_MPS)
+    assert best["dv_total_mps"] == pytest.approx(torus_flyby.dv_mps, abs=SEAM_MPS)

@@ -493,6 +493,11 @@ def base_orbit(torus):
     >>> from cr3bp.tori.torus import example_torus
     >>> base_orbit(example_torus()) is None
     True
+
+    References
+    ----------
+    Olikara & Scheeres, AAS 12-361, 2012, §III (a torus grown from a periodic orbit's centre
+    eigenpair, its base orbit).
     """
     around = torus.around or {}
     if around.get("state") is None or not around.get("period"):
