@@ -1226,7 +1226,7 @@ def departure(target, parking="parking earth 200km", *, system="earth-moon", pat
         degrees), 0 to 180 deg (default: free).
     max_tof : str or float, optional
         Longest time of flight, departure to insertion (a float is in days), 1 d to 400 d;
-        default 150 d, or 10 d on the flyby path to a periodic orbit (where the cost keeps
+        default 150 d, or 10 d on the flyby path to an orbit or a torus (where the cost keeps
         falling slowly with longer flights: :data:`cr3bp.transfers.departure.FLYBY_MAX_TOF_DAYS`).
     min_flyby_altitude : str or float
         ``path="lunar-flyby"``: least flyby altitude over the Moon's mean radius (default
@@ -1317,8 +1317,8 @@ def _parking_transfer_inputs(target, parking, system, path, inclination, max_tof
                          "'parking earth 200km'")
     if not 100.0 <= pk[1] <= 50_000.0:
         raise InputError(f"parking altitude {pk[1]:g} km in {parking!r}; allowed: 100 km to 50000 km")
-    if max_tof is None:     # the design's defaults (FLYBY_MAX_TOF_DAYS, MAX_TOF_DAYS; a torus: 150 d)
-        tof = 10.0 if path == "lunar-flyby" and not _torus_end(target) else 150.0
+    if max_tof is None:     # the design's defaults (FLYBY_MAX_TOF_DAYS, MAX_TOF_DAYS), orbit or torus
+        tof = 10.0 if path == "lunar-flyby" else 150.0
     else:
         tof = float(max_tof) if isinstance(max_tof, (int, float)) else \
             sysm.days(quantity("max_tof", _text(max_tof), "time", sysm, sign="positive", default_unit="d"))

@@ -104,39 +104,45 @@ def count() -> int:
 
 
 def _openblas():
-    """``(get, set)`` of the OpenBLAS numpy loaded, or None."""
-    if "lib" in _BLAS:
-        return _BLAS["lib"]
-    found = None
+    """``(get, set)`` of every OpenBLAS loaded (numpy's and scipy's wheels each bring their own),
+    a list, possibly empty; looked for again when modules have been imported since (a library
+    comes with the module that loads it)."""
+    if _BLAS.get("modules") == len(sys.modules):
+        return _BLAS["libs"]
     try:
         with open("/proc/self/maps") as f:
-            paths = {line.split()[-1] for line in f if "openblas" in line.lower()}
+            paths = tuple(sorted({line.split()[-1] for line in f if "openblas" in line.lower()}))
     except OSError:
-        paths = set()
-    for p in sorted(paths):
+        paths = ()
+    _BLAS["modules"] = len(sys.modules)
+    if _BLAS.get("paths") == paths:
+        return _BLAS["libs"]
+    found = []
+    for p in paths:
         try:
             lib = ctypes.CDLL(p)
         except OSError:
             continue
+        pair = None
         for suffix in ("64_", ""):
             for prefix in ("scipy_openblas", "openblas"):
                 get = getattr(lib, f"{prefix}_get_num_threads{suffix}", None)
                 put = getattr(lib, f"{prefix}_set_num_threads{suffix}", None)
                 if get is not None and put is not None:
-                    found = (get, put)
+                    pair = (get, put)
                     break
-            if found:
+            if pair:
                 break
-        if found:
-            break
-    _BLAS["lib"] = found
+        if pair:
+            found.append(pair)
+    _BLAS["paths"], _BLAS["libs"] = paths, found
     return found
 
 
 @contextlib.contextmanager
 def serial(numba_threads: bool = True):
-    """One BLAS thread (and, with ``numba_threads``, one numba thread) inside the block, both
-    restored on exit. Linux only (the loaded libraries are read from ``/proc/self/maps``);
+    """One BLAS thread in every OpenBLAS loaded (numpy's and scipy's; and, with ``numba_threads``,
+    one numba thread) inside the block, all restored on exit. Linux only (the loaded libraries are read from ``/proc/self/maps``);
     elsewhere the BLAS part does nothing. numba is not imported for this: with
     ``numba_threads`` batch propagations inside the block run the prebuilt one-thread kernel
     (:func:`one_thread`), and numba, if it is loaded later, is limited where it runs.
@@ -170,15 +176,14 @@ def serial(numba_threads: bool = True):
        practice.
     """
     import numpy  # noqa: F401  # lazy: the BLAS library must be loaded to be found (kept beside its use)
-    blas = _openblas()
-    old_blas = old_numba = None
+    old_blas, old_numba = [], None
     with _LOCK:
-        if blas is not None:
+        for blas in _openblas():
             try:
-                old_blas = int(blas[0]())
+                old_blas.append((blas, int(blas[0]())))
                 blas[1](1)
             except Exception:       # a foreign BLAS build: leave it as it is
-                old_blas = None
+                pass
         try:
             # numba not loaded yet: nothing to limit (propagate_batch limits it if it loads it)
             if numba_threads and "numba" in sys.modules:
@@ -195,8 +200,8 @@ def serial(numba_threads: bool = True):
         with _LOCK:
             if numba_threads:
                 _DEPTH[0] -= 1
-            if old_blas is not None:
-                blas[1](old_blas)
+            for blas, n in old_blas:
+                blas[1](n)
             if old_numba is not None:
                 import numba   # lazy: heavy library
                 numba.set_num_threads(old_numba)

@@ -19,6 +19,17 @@ is ``W(2 pi a, 2 pi b)``, the torus function of :func:`cr3bp.tori.trajectory.sta
 ``a``; ``details["torus_phase_deg"]`` both angles), so :func:`cr3bp.transfers.departure.as_leg`
 and :func:`cr3bp.transfers.departure.closure_km` read it as they read a periodic orbit's.
 
+The flyby path to a torus (:func:`cr3bp.transfers.departure.design_flyby`, its public entry) is
+found by continuation from the torus's base orbit rather than by the scan alone: the periodic
+orbit the torus was grown from (:func:`base_orbit`) gets its own optimised flyby first; its
+unknowns, with the orbit's insertion phase as the stroboscopic phase ``a`` and
+``FLYBY_CIRCLE_STARTS`` circle angles ``b`` evenly spaced, are the starts on the torus, each made
+feasible (least-norm Newton) and optimised until the first-order conditions hold; the cheapest is
+kept (the first of equal costs). The scan runs only when no start is feasible (no base orbit, as
+for a Lissajous torus). The search runs on one BLAS thread, so the same torus gives the same
+transfer in any process at any thread count; the time of flight is bounded by the orbit's
+``FLYBY_MAX_TOF_DAYS``.
+
 Torus states at any phase come from ``PHASE_SAMPLES`` copies of the invariance circle carried
 along the stroboscopic time (one batch propagation); a state is the Fourier interpolant of the
 nearest earlier copy, propagated over the remainder (at most ``T / PHASE_SAMPLES``).
@@ -28,6 +39,7 @@ from __future__ import annotations
 
 import math
 import time
+import types
 
 import numpy as np
 from scipy.optimize import minimize
@@ -46,6 +58,9 @@ PHASE_SAMPLES = 32
 GUESS_A, GUESS_B = 16, 8
 #: Stroboscopic phases per stored circle copy in the flyby scan's samples (:meth:`TorusPoints.grid`).
 GRID_SUBSTEPS = 4
+#: Flyby starts continued from the base orbit's optimised flyby: the orbit's insertion phase as the
+#: stroboscopic phase, this many circle angles evenly spaced (module notes).
+FLYBY_CIRCLE_STARTS = 8
 
 
 class TorusPoints:
@@ -338,9 +353,9 @@ def design_torus_departure(torus, altitude_km: float = 200.0, *, path: str = "di
     min_flyby_altitude_km : float
         Least altitude of the lunar periapsis (flyby path; above 0 to 20 000 km).
     max_tof_days : float, optional
-        Longest time of flight, departure to insertion (1 to 400 d; default
-        :data:`cr3bp.transfers.departure.MAX_TOF_DAYS` on both paths: under the periodic
-        orbit's 10-day flyby bound the optimiser stalls on a torus).
+        Longest time of flight, departure to insertion (1 to 400 d; default, as to a periodic
+        orbit, :data:`cr3bp.transfers.departure.MAX_TOF_DAYS`, or
+        :data:`cr3bp.transfers.departure.FLYBY_MAX_TOF_DAYS` on the flyby path).
     guesses : int, optional
         First guesses optimised (default :data:`cr3bp.transfers.departure.GUESSES_OPTIMISED`).
 
@@ -399,9 +414,7 @@ def design_torus_departure(torus, altitude_km: float = 200.0, *, path: str = "di
     if inclination_deg is not None:
         inclination_deg = validate.number_in("inclination (deg)", inclination_deg, 0.0, 180.0)
     if max_tof_days is None:
-        # (not the periodic orbit's 10-day flyby bound: to a quasi-halo about the 9:2 NRHO the
-        # optimiser stalls under it, 3633.6 m/s and not optimised, measured 2026-12-03)
-        max_tof_days = dep.MAX_TOF_DAYS
+        max_tof_days = dep.FLYBY_MAX_TOF_DAYS if path == "lunar-flyby" else dep.MAX_TOF_DAYS
     max_tof_days = validate.number_in("maximum time of flight (d)", max_tof_days, 1.0, 400.0)
     if path not in dep.PATHS:
         raise InputError(f"path '{path}' to a torus; allowed: {', '.join(dep.PATHS)}")
@@ -412,9 +425,7 @@ def design_torus_departure(torus, altitude_km: float = 200.0, *, path: str = "di
     pb = _TorusProblem(torus, altitude_km, inclination_deg, max_tof_days / system.days(1.0), path,
                        min_flyby_altitude_km if path == "lunar-flyby" else None)
     if path == "lunar-flyby":
-        d = dep._design_flyby(pb, dep.FLYBY_GUESSES_OPTIMISED if guesses is None else int(guesses), t_start)
-        d.details["torus_phase_deg"] = [math.degrees(2 * math.pi * p) for p in d.details["insertion_phases"]]
-        return d
+        return _flyby(torus, pb, altitude_km, inclination_deg, min_flyby_altitude_km, max_tof_days, guesses)
     guesses = dep.GUESSES_OPTIMISED if guesses is None else int(guesses)
     rows = _guesses(pb)
     if not rows:
@@ -459,6 +470,64 @@ def design_torus_departure(torus, altitude_km: float = 200.0, *, path: str = "di
                   "insertion point and the insertion impulse; first guess from two-body Lambert arcs"})
 
 
+def base_orbit(torus):
+    """The periodic orbit ``torus`` was grown from (its state and period, from ``torus.around``), or
+    None when it has none (a Lissajous torus, a hand-made one).
+
+    Parameters
+    ----------
+    torus : cr3bp.tori.Torus
+
+    Returns
+    -------
+    types.SimpleNamespace or None
+        ``system``, ``state``, ``period``, ``family``, ``point``, ``branch``: enough for
+        :func:`cr3bp.transfers.departure.design_flyby`.
+
+    Raises
+    ------
+    None
+
+    Examples
+    --------
+    >>> from cr3bp.tori.torus import example_torus
+    >>> base_orbit(example_torus()) is None
+    True
+
+    References
+    ----------
+    Olikara & Scheeres, AAS 12-361, 2012, §III (a torus grown from a periodic orbit's centre
+    eigenpair, its base orbit).
+    """
+    around = torus.around or {}
+    if around.get("state") is None or not around.get("period"):
+        return None
+    return types.SimpleNamespace(system=torus.system, state=np.array(around["state"], dtype=float),
+                                 period=float(around["period"]), family=around.get("family", ""),
+                                 point=around.get("point", ""), branch=around.get("branch", ""))
+
+
+def _flyby(torus, pb, altitude_km, inclination_deg, min_flyby_altitude_km, max_tof_days, guesses):
+    """The lunar-flyby departure to ``torus`` (module notes, "The flyby path to a torus")."""
+    kw = {"inclination_deg": inclination_deg, "min_flyby_altitude_km": min_flyby_altitude_km,
+          "max_tof_days": max_tof_days, "guesses": guesses}
+    base = base_orbit(torus)
+    starts, base_mps = [], None
+    if base is not None:
+        try:
+            b = dep.design_flyby(base, altitude_km, **kw)
+        except NoSolutionError:
+            b = None
+        if b is not None:
+            base_mps = float(b.dv_mps)
+            x = np.asarray(b.details["shooting_unknowns"], dtype=float)
+            starts = [np.concatenate([x, [k / FLYBY_CIRCLE_STARTS]]) for k in range(FLYBY_CIRCLE_STARTS)]
+    d = dep.design_flyby(torus, altitude_km, points=pb.points, starts=starts, **kw)
+    d.details["torus_phase_deg"] = [math.degrees(2 * math.pi * p) for p in d.details["insertion_phases"]]
+    d.details["base_orbit_dv_mps"] = base_mps
+    return d
+
+
 def _build(pb, z, e, success, details):
     """The Departure of the unknowns ``z`` (the orbit design's build with the impulse at z[2:5])."""
     s = pb.system
@@ -483,4 +552,4 @@ def _build(pb, z, e, success, details):
     return d
 
 
-__all__ = ["TorusPoints", "design_torus_departure"]
+__all__ = ["TorusPoints", "base_orbit", "design_torus_departure"]

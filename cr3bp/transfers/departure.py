@@ -348,10 +348,10 @@ class _OrbitPoints:
 # ---- the transfer as a function of the unknowns -----------------------------------------
 
 class _Problem:
-    def __init__(self, orbit, altitude_km, inclination_deg, path, min_flyby_km, max_tof, pole=None):
+    def __init__(self, orbit, altitude_km, inclination_deg, path, min_flyby_km, max_tof, points=None, pole=None):
         s = orbit.system
         self.system, self.orbit, self.path = s, orbit, path
-        self.points = _OrbitPoints(orbit)
+        self.points = _OrbitPoints(orbit) if points is None else points
         self.r_park = (s.primary.radius_km + altitude_km) / s.length_km
         self.inc = None if inclination_deg is None else math.radians(inclination_deg)
         # the pole the inclination is held to: None, the model's z (the Moon's orbit plane);
@@ -798,17 +798,20 @@ class _FlybyShooting:
             bool(np.all(self.ineq(x) > -tol))
 
     def newton(self, x, tol=CONSTRAINT_TOL, iterations=40, max_step=0.05):
-        """Least-norm Newton steps on the equalities (and the flyby radius, held at least the
-        minimum), in the scaled variables: a feasible point near ``x``, or None."""
+        """Least-norm Newton steps on the equalities (and each broken bound, the flyby radius or the
+        time of flight, held at it), in the scaled variables: a feasible point near ``x``, or None."""
         x = np.array(x, dtype=float)
         for _ in range(iterations):
             if self.evaluate(x) is None:
                 return None
             c, J = self.eq(x), self.eq_jac(x)
             g = self.ineq(x)
-            if g[0] < 0.0:             # the flyby below the least radius: raise it to it
-                c = np.concatenate([c, g[:1]])
-                J = np.vstack([J, self.ineq_jac(x)[:1]])
+            # a bound broken (the flyby below the least radius, the flight longer than the
+            # bound): held at it, as one more equality
+            low = [k for k in range(2) if g[k] < 0.0]
+            if low:
+                c = np.concatenate([c, g[low]])
+                J = np.vstack([J, self.ineq_jac(x)[low]])
             if np.all(np.abs(c) < tol) and g[1] >= 0.0:
                 return x
             Js = J * self.scales
@@ -1094,12 +1097,12 @@ def _design(orbit, altitude_km, inclination_deg, pole, *, path, min_flyby_altitu
     """The design of :func:`design_departure` on checked inputs, the inclination held to
     ``pole`` (None: the model's z axis)."""
     system = orbit.system
-    t_start = time.perf_counter()
-    pb = _Problem(orbit, altitude_km, inclination_deg, path,
-                  min_flyby_altitude_km if path == "lunar-flyby" else None, max_tof_days / system.days(1.0),
-                  pole=pole)
     if path == "lunar-flyby":
-        return _design_flyby(pb, FLYBY_GUESSES_OPTIMISED if guesses is None else guesses, t_start)
+        return design_flyby(orbit, altitude_km, inclination_deg=inclination_deg,
+                            min_flyby_altitude_km=min_flyby_altitude_km, max_tof_days=max_tof_days, guesses=guesses,
+                            pole=pole)
+    t_start = time.perf_counter()
+    pb = _Problem(orbit, altitude_km, inclination_deg, path, None, max_tof_days / system.days(1.0), pole=pole)
     guesses = GUESSES_OPTIMISED if guesses is None else guesses
     rows = _direct_guesses(pb)
     if not rows:
@@ -1151,42 +1154,165 @@ def _design(orbit, altitude_km, inclination_deg, pole, *, path, min_flyby_altitu
                   "impulses; first guess from two-body Lambert arcs"})
 
 
-def _design_flyby(pb: _Problem, guesses: int, t_start: float) -> Departure:
-    """The lunar-flyby path: guesses of :func:`_flyby_guesses`, each made feasible and
-    optimised (:func:`_optimise_flyby`); the cheapest feasible one is built."""
+def design_flyby(target, altitude_km: float = 200.0, *, points=None, inclination_deg: float | None = None,
+                 min_flyby_altitude_km: float = 100.0, max_tof_days: float | None = None,
+                 guesses: int | None = None, starts=(), scan: bool | None = None, pole=None) -> Departure:
+    """The least-Δv lunar-flyby departure found from a circular Earth parking orbit to ``target``:
+    two coasts joined at the lunar periapsis, optimised until the first-order conditions hold
+    (module notes, "The flyby path").
+
+    The first guesses are ``starts`` (shooting unknowns, e.g. a neighbouring target's optimised
+    flyby continued to this one) and/or the scan of lunar periapsis states (:func:`_flyby_guesses`);
+    each is made feasible and optimised, and the cheapest feasible result is kept (of equal costs
+    the first, in the order: starts, then scan).
+
+    Parameters
+    ----------
+    target : PeriodicOrbit or cr3bp.tori.Torus
+        Target of the Earth–Moon system (the result's ``orbit``).
+    altitude_km : float
+        Parking-orbit altitude (100 to 50 000 km).
+    points : object, optional
+        The target's states at its insertion phases: ``nphase`` (phases per point), ``at``,
+        ``grid(n)`` and ``partials(phases)`` as :class:`cr3bp.tori.departure.TorusPoints` has
+        them. Default: the periodic orbit's (one phase, a fraction of the period).
+    inclination_deg : float, optional
+        Inclination of the parking orbit to the Moon's orbit plane (free when None).
+    min_flyby_altitude_km : float
+        Least altitude of the lunar periapsis (above 0 to 20 000 km).
+    max_tof_days : float, optional
+        Longest time of flight, departure to insertion (1 to 400 d; default
+        ``FLYBY_MAX_TOF_DAYS``).
+    guesses : int, optional
+        Scan guesses optimised (default ``FLYBY_GUESSES_OPTIMISED``).
+    starts : sequence of array_like, optional
+        Shooting unknowns ``[p (3), v_pre (3), v_post (3), phase, t2, t1, further phases]``
+        (:class:`_FlybyShooting`), as a flyby departure's ``details["shooting_unknowns"]``.
+    scan : bool, optional
+        Run the scan: always (True), never (False), or only when no start gives a feasible
+        transfer (None, the default).
+    pole : array_like, shape (3,), optional
+        The unit pole ``inclination_deg`` is measured from, on the rotating axes (default the
+        model's z axis; a dated departure's equator pole, :func:`design_departure`).
+
+    Returns
+    -------
+    Departure
+        Path ``"lunar-flyby"``; ``details["shooting_unknowns"]`` the optimised unknowns,
+        ``details["guesses"]`` every start tried (``origin``: ``start k`` or ``scan``); all
+        values CR3BP.
+
+    Raises
+    ------
+    InputError
+        Not the Earth–Moon system, a value out of range, or a start of the wrong length.
+    NoSolutionError
+        No start met the constraints.
+    ConvergenceError
+        The design does not close when propagated forward.
+
+    Examples
+    --------
+    Skipped under doctest (the optimisation takes seconds):
+
+    >>> from cr3bp import orbit
+    >>> nrho = orbit("earth-moon", "halo L2 south resonance=9:2")          # doctest: +SKIP
+    >>> d = design_flyby(nrho, 200.0)                                      # doctest: +SKIP
+    >>> d.optimised, [m["name"] for m in d.maneuvers]                      # doctest: +SKIP
+    (True, ['departure', 'flyby', 'insertion'])
+
+    Refused before any work:
+
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.torus import example_torus
+    >>> from cr3bp.transfers.departure import design_flyby
+    >>> design_flyby(example_torus(), 200.0, max_tof_days=0.5)
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: maximum time of flight (d) '0.5' is outside the allowed range [1, 400]
+
+    References
+    ----------
+    Kraft, DLR-FB 88-28, 1988 (SLSQP); Nocedal & Wright, *Numerical Optimization*, 2nd ed., 2006,
+    Theorem 12.1 (first-order conditions); Vallado 2013, §6.3 (tangential departure burn); Betts,
+    *Practical Methods for Optimal Control and Estimation Using Nonlinear Programming*, 2nd ed.,
+    2010, §4.4 (multiple shooting).
+    """
+    system = target.system
+    system.require_dimensional("a departure from a parking orbit")
+    names = [n.lower() for n in system.names]
+    if names[0] != "earth" or names[1] != "moon":
+        raise InputError(f"departures from a parking orbit need the earth-moon system, not {system.name}")
+    altitude_km = validate.number_in("parking altitude (km)", altitude_km, 100.0, 50_000.0)
+    if inclination_deg is not None:
+        inclination_deg = validate.number_in("inclination (deg)", inclination_deg, 0.0, 180.0)
+    max_tof_days = validate.number_in("maximum time of flight (d)",
+                                      FLYBY_MAX_TOF_DAYS if max_tof_days is None else max_tof_days, 1.0, 400.0)
+    min_flyby_altitude_km = validate.number_in("minimum flyby altitude (km)", min_flyby_altitude_km,
+                                               0.0, 20_000.0, open_lo=True)
+    t_start = time.perf_counter()
+    pb = _Problem(target, altitude_km, inclination_deg, "lunar-flyby", min_flyby_altitude_km,
+                  max_tof_days / system.days(1.0), points=points, pole=pole)
+    # the whole search on one BLAS thread (its small dense algebra gains nothing from more, and a
+    # threaded BLAS may round differently): the same numbers whatever the thread count
+    with serial(numba_threads=False):
+        return _design_flyby(pb, FLYBY_GUESSES_OPTIMISED if guesses is None else int(guesses), t_start,
+                             starts=list(starts), scan=scan)
+
+
+def _design_flyby(pb: _Problem, guesses: int, t_start: float, starts=(), scan=None) -> Departure:
+    """The lunar-flyby path: each of ``starts`` (shooting unknowns, tried in order) and, when
+    ``scan`` says so, the best ``guesses`` of :func:`_flyby_guesses`, each made feasible and
+    optimised (:func:`_optimise_flyby`); the cheapest feasible one is built (the first of equal
+    costs, so the order of the starts decides a tie)."""
     system = pb.system
     ms = _FlybyShooting(pb)
-    t_scan = time.perf_counter()
-    rows = _flyby_guesses(pb)
-    t_scan = time.perf_counter() - t_scan
     best, tried = None, []
-    for score, x0 in rows[:max(1, guesses)]:
+
+    def attempt(x0, origin, score=None):
+        nonlocal best
         res, e, x, kkt = _optimise_flyby(pb, x0, ms)
-        tried.append({"score": score, "feasible": e is not None,
+        tried.append({"origin": origin, "score": score, "feasible": e is not None,
                       "start_mps": None if res is None else float(system.mps(res["start_cost"])),
                       "result_mps": None if e is None else float(system.mps(e["cost"])),
                       "iterations": None if res is None else res["iterations"],
                       "first_order": kkt, "message": "no feasible start" if res is None else res["message"]})
         if e is not None and (best is None or e["cost"] < best[1]["cost"]):
             best = (x, e, kkt)
+
+    for k, x0 in enumerate(starts):
+        x0 = np.asarray(x0, dtype=float)
+        if x0.shape != (ms.n,):
+            raise InputError(f"flyby start {k} has {x0.size} unknowns; this target needs {ms.n}")
+        attempt(x0, f"start {k}")
+    rows, t_scan = [], 0.0
+    if scan or (scan is None and best is None):
+        t_scan = time.perf_counter()
+        rows = _flyby_guesses(pb)
+        t_scan = time.perf_counter() - t_scan
+        for score, x0 in rows[:max(1, guesses)]:
+            attempt(x0, "scan", score)
     if best is None:
         raise NoSolutionError(f"no lunar-flyby departure met the constraints (parking altitude "
                               f"{system.km(pb.r_park) - system.primary.radius_km:g} km, flyby at least "
-                              f"{system.km(pb.r_fb) - system.secondary.radius_km:g} km) from "
-                              f"{min(len(rows), max(1, guesses))} first guess(es) of {len(rows)}")
+                              f"{system.km(pb.r_fb) - system.secondary.radius_km:g} km) from {len(tried)} "
+                              f"start(s) ({len(starts)} given, {len(rows)} from the scan)")
     x, e, kkt = best
     z = np.concatenate([[x[9] % 1.0], e["dv_ins"]])
     return _build(pb, z, e, kkt["holds"], {
         "evaluations": ms.evaluations, "seconds": time.perf_counter() - t_start, "scan_seconds": t_scan,
         "constraint_residuals": np.abs(ms.eq(x)).tolist(), "guesses": tried,
         "insertion_phases": [float(p % 1.0) for p in ms.phases(x)],
+        "shooting_unknowns": [float(v) for v in x],
         "max_tof_days": float(system.days(pb.max_tof)), "bounds_hit": list(kkt["bounds_hit"]),
         "first_order": kkt,
         "method": "two coasts joined at the lunar periapsis (multiple shooting, gradients from the "
                   "coasts' state transition matrices): least-norm Newton to a feasible transfer, then "
                   "SLSQP on the total delta-v until the first-order (KKT) conditions hold; first guesses "
-                  "from a batch scan of periapsis states at the least flyby altitude, propagated back to "
-                  "the Earth and forward to the orbit"})
+                  + ("given (continued from a neighbouring target's optimised flyby)" if len(starts) else "")
+                  + (" and " if len(starts) and rows else "")
+                  + ("from a batch scan of periapsis states at the least flyby altitude, propagated back "
+                     "to the Earth and forward to the orbit" if rows else "")})
 
 
 def _repair(pb: _Problem, z):

@@ -477,7 +477,9 @@ def _solve_node(system, nid, text, is_torus, catalog=None, grown=None) -> dict:
         return {"state": np.asarray(t.circle[0], dtype=float), "period": float(t.stroboscopic_time),
                 "jacobi": float(t.jacobi), "family": t.family, "point": t.point,
                 "branch": t.branch, "torus": True, "circle": np.asarray(t.circle, dtype=float),
-                "rotation": float(t.rotation), "stability": dict(t.stability)}
+                "rotation": float(t.rotation), "stability": dict(t.stability),
+                # the orbit it was grown from: the start of a lunar-flyby departure to it
+                "around": {k: t.around[k] for k in ("state", "period") if k in (t.around or {})}}
     try:
         o = solve_request(system, text, catalog=catalog, grown=grown)
     except LibrateError as e:
@@ -578,12 +580,13 @@ def _orbit_from_plain(system, d: dict):
 
 def _torus_from_plain(system, d: dict):
     """The torus of a torus node's plain data (its invariance circle, stroboscopic time and
-    rotation; the geometry is not needed by its manifolds)."""
+    rotation, the state and period of the orbit it was grown from; the geometry is not needed by
+    its manifolds)."""
     from ..tori import Torus  # lazy: only for tori
     return Torus(system=system, circle=np.array(d["circle"], dtype=float), stroboscopic_time=float(d["period"]),
                  rotation=float(d["rotation"]), jacobi=float(d["jacobi"]), jacobi_spread=0.0,
                  invariance_error=0.0, family=d.get("family", ""), point=d.get("point", ""),
-                 branch=d.get("branch", ""))
+                 branch=d.get("branch", ""), around=dict(d.get("around") or {}))
 
 
 def _manifold_leg(system, task) -> Leg:

@@ -38,8 +38,10 @@ TOF_DEFINITIONS = {
 
 
 #: Version of the leg records (part of their catalogue key). 2: legs carry the time of flight
-#: to arrival (``tof_arrival_days``, ``arrival_distance_km``).
-LEG_FORMAT = 2
+#: to arrival (``tof_arrival_days``, ``arrival_distance_km``). 3: lunar-flyby legs to tori start
+#: from the base orbit's optimised flyby (cr3bp.tori.departure), and BLAS runs on one thread in
+#: the flyby search, so legs stored before are designed again.
+LEG_FORMAT = 3
 
 #: The leg record: the JSON-ready form of a :class:`Leg` in shooting form (:meth:`Leg.record`),
 #: which a graph task returns (:func:`cr3bp.transfers.graph.compute_leg`, in a pool or on a dask

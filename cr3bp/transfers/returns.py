@@ -74,7 +74,10 @@ def mirror_target(target):
     if hasattr(target, "circle"):
         u = np.asarray(target.circle, dtype=float)
         idx = (-np.arange(u.shape[0])) % u.shape[0]
-        return dataclasses.replace(target, circle=np.ascontiguousarray(MIRROR * u[idx]))
+        around = dict(target.around or {})
+        if around.get("state") is not None:     # the orbit it was grown from, mirrored with it
+            around["state"] = (MIRROR * np.asarray(around["state"], dtype=float)).tolist()
+        return dataclasses.replace(target, circle=np.ascontiguousarray(MIRROR * u[idx]), around=around)
     if hasattr(target, "state") and hasattr(target, "monodromy"):
         r = np.diag(MIRROR)
         mono = np.asarray(target.monodromy, dtype=float)
