@@ -180,3 +180,35 @@ def test_the_written_out_stages_are_the_methods():
     (Hairer, Norsett & Wanner 1993, section II.5: DOP853 has 12 stages, the last one FSAL)."""
     from cr3bp.integrate import coefficients
     assert lanes._STAGES_WRITTEN_OUT == coefficients.N_STAGES == 12
+
+
+def test_stabilised_step_control_is_as_accurate_as_scipys_for_less_work():
+    """The stabilised step control (dop853.STEP_BETA; Hairer, Norsett & Wanner 1993, section
+    II.4, and the BETA option of their code dop853) against scipy's DOP853 with its plain
+    controller (solve_ivp, same method and error estimate): on eight perturbed halo states over
+    5 TU at rtol = atol = 1e-11, the final-state error against scipy at its tightest tolerance
+    is about scipy's (measured 1.19e-9 against 1.16e-9 LU) for fewer right-hand-side
+    evaluations (measured 32 656 against 34 876)."""
+    from scipy.integrate import solve_ivp
+    mu = EM.mu
+
+    def f(t, s):
+        x, y, z, vx, vy, vz = s
+        r1 = ((x + mu) ** 2 + y * y + z * z) ** 1.5
+        r2 = ((x - 1.0 + mu) ** 2 + y * y + z * z) ** 1.5
+        return [vx, vy, vz, 2.0 * vy + x - (1.0 - mu) * (x + mu) / r1 - mu * (x - 1.0 + mu) / r2,
+                -2.0 * vx + y - (1.0 - mu) * y / r1 - mu * y / r2,
+                -(1.0 - mu) * z / r1 - mu * z / r2]
+    rng = np.random.default_rng(2026)
+    s = HALO + rng.normal(scale=1e-4, size=(8, 6))
+    ours = propagate_batch(EM, s, 5.0, rtol=1e-11, atol=1e-11)
+    err_ours = err_scipy = 0.0
+    nfev_scipy = 0
+    for i in range(8):
+        ref = solve_ivp(f, (0.0, 5.0), s[i], method="DOP853", rtol=2.3e-14, atol=1e-14).y[:, -1]
+        sp = solve_ivp(f, (0.0, 5.0), s[i], method="DOP853", rtol=1e-11, atol=1e-11)
+        err_scipy = max(err_scipy, np.max(np.abs(sp.y[:, -1] - ref)))
+        err_ours = max(err_ours, np.max(np.abs(ours.states[i] - ref)))
+        nfev_scipy += sp.nfev
+    assert err_ours <= 1.25 * err_scipy
+    assert ours.nfev.sum() < nfev_scipy

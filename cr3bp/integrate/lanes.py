@@ -399,6 +399,7 @@ def _run_block(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_steps,
     state = np.zeros(L, dtype=np.int64)
     last = np.zeros(L, dtype=np.bool_)
     rejected = np.zeros(L, dtype=np.bool_)
+    err_prev = np.zeros(L)
     nfev = np.zeros(L, dtype=np.int64)
     nsteps = np.zeros(L, dtype=np.int64)
     nrej = np.zeros(L, dtype=np.int64)
@@ -465,6 +466,7 @@ def _run_block(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_steps,
                     nfev[l] = 2
                     H[l] = h
                     rejected[l] = False
+                    err_prev[l] = _dp.PREV_ERROR_MIN
                     state[l] = _ACTIVE
                     active += 1
                 # top of the scalar integrator's loop
@@ -631,7 +633,10 @@ def _run_block(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_steps,
             if e == 0.0:
                 fac = _dp.MAX_FACTOR
             else:
-                fac = min(_dp.MAX_FACTOR, max(_dp.MIN_FACTOR, _dp.SAFETY * e ** _dp.ERROR_EXPONENT))
+                fac = min(_dp.MAX_FACTOR,
+                          max(_dp.MIN_FACTOR,
+                              _dp.SAFETY * e ** _dp.ERROR_EXPONENT * err_prev[l] ** _dp.STEP_BETA))
+            err_prev[l] = max(e, _dp.PREV_ERROR_MIN)
             if rejected[l]:
                 fac = min(fac, 1.0)
             rejected[l] = False

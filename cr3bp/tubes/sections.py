@@ -845,7 +845,8 @@ def crossings(system, states, section: Section, t_max: float, count: int = 1, *,
     >>> em = system("earth-moon")
     >>> sd = seeds.linear_lyapunov(em.mu, "L1", 0.01)
     >>> orbit = shooting.correct(em, sd.state, sd.half_period, sd.symmetry)
-    >>> cut = sections.crossings(em, [orbit.state], sections.hyperplane("y", 0.0), orbit.period, count=2)
+    >>> cut = sections.crossings(em, [orbit.state], sections.hyperplane("y", 0.0), 1.01 * orbit.period,
+    ...                         count=2)
     >>> cut.count.tolist()
     [1, 2]
     """
