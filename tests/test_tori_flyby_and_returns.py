@@ -326,8 +326,11 @@ def test_scenario_return_from_a_torus_equals_connect(ring_return, tmp_path):
     assert best["legs"][0]["kind"] == "parking"
     # the return's own numbers cross into the route JSON, the report and its figure
     back = route["return"]
-    for key in ("dv_mps", "departure_dv_mps", "insertion_dv_mps", "tof_days", "perigee_altitude_km"):
-        assert back[key] == pytest.approx(ring_return[key], rel=1e-9), key
+    assert back["dv_mps"] == pytest.approx(ring_return["dv_mps"], rel=1e-9)
+    # the split between the burns lies along a flat valley of the total: a torus solved in another
+    # order differs in its last digits and moves it by up to 7e-7 m/s (measured in CI, 1.1e-9 relative)
+    for key in ("departure_dv_mps", "insertion_dv_mps", "tof_days", "perigee_altitude_km"):
+        assert back[key] == pytest.approx(ring_return[key], rel=1e-8), key
     report = (tmp_path / "out" / "report.html").read_text()
     assert "Return to the parking orbit" in report
     assert f"{back['insertion_dv_mps']:.6g}"[:5] in report

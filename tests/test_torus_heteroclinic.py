@@ -100,7 +100,7 @@ def transfer(tori, patch):
 def seam(tori):
     """``librate connect --optimise --format json`` between the two torus requests and
     ``cr3bp.optimise`` between the same requests, each with the optimiser's iteration budget cut to
-    two rounds (the same code path; the full budget takes about two CPU minutes a run)."""
+    two rounds (the same code path; the full budget takes 1500 iterations)."""
     import io
     from contextlib import redirect_stdout
     from cr3bp.transfers import optimise

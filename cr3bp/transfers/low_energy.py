@@ -770,18 +770,19 @@ def _patches(model, s_dep, pre_ins, tof, n=SEGMENTS):
     return patches, float(model.system.km(dmax)), float(model.system.km(worst))
 
 
-def _candidates(pb, sw, score, candidates, progress, label="candidate"):
-    """Correct the best ``candidates`` of the sweep by ``score`` (:func:`_correct`); stop at a
-    burn under ``GOOD_ENOUGH_MPS``. Returns ((cost, z, evaluation, (optimised, iterations)) or
-    None, list of what each try gave)."""
+def _candidates(pb, sw, score, candidates, progress, label="candidate", skip=0):
+    """Correct the best ``candidates`` of the sweep by ``score`` (:func:`_correct`), after the
+    ``skip`` best; stop at a burn under ``GOOD_ENOUGH_MPS``. Returns ((cost, z, evaluation,
+    (optimised, iterations)) or None, list of what each try gave)."""
     system = pb.system
-    order = np.argsort(score)
+    order = np.argsort(score)[int(skip):]
     best, tried = None, []
     for k in order[: int(candidates)]:
         ph = np.atleast_1d(sw["phase"][k])         # (a torus: its two angles; the second goes last)
         z0 = np.concatenate([ph[:1], sw["dv"][k], [sw["sun"][k]], ph[1:]])
         if progress:
-            progress(f"correcting {label} {len(tried) + 1} of {min(int(candidates), order.size)}...")
+            progress(f"correcting {label} {int(skip) + len(tried) + 1} of "
+                     f"{int(skip) + min(int(candidates), order.size)}...")
         out = _correct(pb, z0)
         if out is None:
             tried.append({"start_score": float(score[k]), "feasible": False})
@@ -821,7 +822,7 @@ def design_low_energy(orbit, altitude_km, *, epoch=None, inclination_deg=None, m
     sun_phases : array_like, optional
         Sun phases at insertion (rad) swept (default ``SWEEP_SUN_PHASES`` over a full turn).
     candidates : int
-        Sweep candidates corrected.
+        Sweep candidates corrected (when none of them can be, the next as many).
 
     Returns
     -------
@@ -932,6 +933,11 @@ def _design(orbit, altitude_km, *, epoch=None, inclination_deg=None, max_tof_day
                               f"within {tmin_d:g}-{tmax_d:g} d; widen the time-of-flight window")
     pb = _Problem(model, orbit, r_park, inc, max_tof, min_tof, dep_phase, points=points)
     best, tried = _candidates(pb, sw, sw["score"], candidates, progress)
+    if best is None and sw["score"].size > int(candidates):
+        # none of the best could be corrected (measured: a date's own design, whose Sun phase is
+        # held, at 2027-03-20 with 6): as many again, the next best
+        best, more = _candidates(pb, sw, sw["score"], candidates, progress, skip=candidates)
+        tried += more
     if best is None:
         raise NoSolutionError(f"none of the {len(tried)} best sweep candidates could be corrected onto a "
                               f"{alt:g} km perigee within {tmin_d:g}-{tmax_d:g} d")
