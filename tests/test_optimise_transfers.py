@@ -190,3 +190,46 @@ def test_time_cap_binds_and_is_reported(em, nrho_transfer):
     assert tr.optimised and "max_tof" in tr.active_bounds      # measured: 598.4 m/s in 4.0 d
     assert tr.dv_mps >= nrho_transfer.dv_mps - 1e-6
     assert "max_tof" not in nrho_transfer.active_bounds
+
+
+def test_a_trial_point_inside_a_body_is_answered_not_raised(em):
+    """SLSQP's line search may try a node inside a primary (measured on one machine: the L1 -> L2
+    Lyapunov transfer above put one 978 km from the Earth's centre, and the optimisation ended in
+    a StateError). The functions SLSQP sees answer such a point with a large objective and large
+    defects, and the segment's propagation really refuses it."""
+    from cr3bp.errors import StateError
+    from cr3bp.transfers import optimise as opt
+    with pytest.raises(StateError, match="inside earth"):
+        cr3bp.propagate(em, [-em.mu + 1e-3, 0, 0, 0, 5.0, 0], 0.1)
+
+    class Stub:
+        nz = 3
+
+        def evaluate(self, z):
+            if z[0] > 1.0:
+                raise opt._Infeasible("inside", 0, [], z)
+
+        def fun(self, z):
+            self.evaluate(z)
+            return float(z @ z)
+
+        def jac(self, z):
+            self.evaluate(z)
+            return 2 * z
+
+        def eq(self, z):
+            self.evaluate(z)
+            return z[:2].copy()
+
+        def eq_jac(self, z):
+            self.evaluate(z)
+            return np.eye(2, 3)
+
+    pbm = Stub()
+    fun, jac, eq, eq_jac = opt._guarded(pbm, np.zeros(3))
+    bad = np.array([2.0, 0.0, 0.0])
+    assert fun(bad) == opt.INFEASIBLE_VALUE and np.all(eq(bad) == opt.INFEASIBLE_VALUE) and eq(bad).shape == (2,)
+    assert not np.any(jac(bad)) and eq_jac(bad).shape == (2, 3)
+    assert fun(np.ones(3) * 0.5) == pytest.approx(0.75)
+    assert opt._feasible(pbm, np.zeros(3)) and not opt._feasible(pbm, bad)
+    assert opt._polish(pbm, bad, or_else="kept") == "kept"

@@ -55,7 +55,7 @@ import numpy as np
 from scipy.optimize import minimize
 
 from ..dynamics import acceleration, jacobi
-from ..errors import ConvergenceError, InputError, NoSolutionError
+from ..errors import ConvergenceError, InputError, NoSolutionError, StateError
 from ..validate import positive_number
 from ..integrate import propagate
 from ..io.plain import plain as _plain
@@ -548,10 +548,13 @@ class _Problem:
         # costs more than these few short arcs on a loaded two-core machine (measured)
         ys, stms = np.empty((self.n, 6)), np.empty((self.n, 6, 6))
         for i in range(self.n):
-            arc = propagate(self.system, xs[i], float(dts[i]), stm=True, rtol=RTOL, atol=ATOL)
+            try:
+                arc = propagate(self.system, xs[i], float(dts[i]), stm=True, rtol=RTOL, atol=ATOL)
+            except StateError as e:          # a trial node inside a primary
+                raise _Infeasible(f"shooting segment {i + 1} starts inside a body: {e}", self.evaluations, [], z)
             if arc.status != "time" or not np.all(np.isfinite(arc.final_state)):
-                raise ConvergenceError(f"shooting segment {i + 1} failed to propagate ({arc.status})",
-                                       self.evaluations, [], z)
+                raise _Infeasible(f"shooting segment {i + 1} failed to propagate ({arc.status})",
+                                  self.evaluations, [], z)
             ys[i], stms[i] = arc.final_state, arc.stm
         fy = np.array([acceleration(self.system.mu, y) for y in ys])
         xa, fa = self.pa.point(ta)
@@ -641,6 +644,44 @@ class _Problem:
 
     def bounds(self):
         return ([(None, None)] * (self.k + 6 * self.n)) + [(MIN_SEGMENT_TU, self.max_tof)] * self.n
+
+
+class _Infeasible(ConvergenceError):
+    """A point of the unknowns whose segments cannot be flown (a node inside a primary, an arc
+    into one)."""
+
+
+#: The scaled objective and each defect reported at such a point to SLSQP, whose line search
+#: then steps back (measured: the L1 -> L2 Lyapunov transfer at C = 3.15 put a trial node 978 km
+#: from the Earth's centre, and the whole optimisation ended in a StateError).
+INFEASIBLE_VALUE = 1e6
+
+
+def _guarded(pbm, z0):
+    """SLSQP's functions of ``pbm`` with infeasible points answered by ``INFEASIBLE_VALUE`` (the
+    objective and every defect) and zero derivatives instead of an exception."""
+    m = pbm.eq(z0).size
+
+    def guard(f, bad):
+        def g(z):
+            try:
+                return f(z)
+            except _Infeasible:
+                return bad()
+        return g
+    fun = guard(pbm.fun, lambda: INFEASIBLE_VALUE)
+    jac = guard(pbm.jac, lambda: np.zeros(pbm.nz))
+    eq = guard(pbm.eq, lambda: np.full(m, INFEASIBLE_VALUE))
+    eq_jac = guard(pbm.eq_jac, lambda: np.zeros((m, pbm.nz)))
+    return fun, jac, eq, eq_jac
+
+
+def _feasible(pbm, z):
+    try:
+        pbm.evaluate(z)
+    except _Infeasible:
+        return False
+    return True
 
 
 def _segment_counts(durations, n_total):
@@ -1013,15 +1054,19 @@ def _solve(pbm: _Problem, z0):
     ``MAX_ITERATIONS``. Returns (z, iterations, message, converged)."""
     z, total, f_prev = z0, 0, pbm.fun(z0)
     message, converged = "", False
-    cons = [{"type": "eq", "fun": pbm.eq, "jac": pbm.eq_jac},
+    fun, jac, eq, eq_jac = _guarded(pbm, z0)
+    cons = [{"type": "eq", "fun": eq, "jac": eq_jac},
             {"type": "ineq", "fun": pbm.ineq, "jac": pbm.ineq_jac}]
     with serial(numba_threads=False):     # SLSQP's small dense algebra on one BLAS thread
         while total < MAX_ITERATIONS:
-            res = minimize(pbm.fun, z, jac=pbm.jac, method="SLSQP", bounds=pbm.bounds(), constraints=cons,
+            res = minimize(fun, z, jac=jac, method="SLSQP", bounds=pbm.bounds(), constraints=cons,
                            options={"maxiter": min(ROUND, MAX_ITERATIONS - total), "ftol": FTOL})
             total += int(res.nit)
             if not np.all(np.isfinite(res.x)):
                 message = "the optimiser left the finite numbers"
+                break
+            if not _feasible(pbm, res.x):
+                message = "the optimiser ended a round inside a body; the round before kept"
                 break
             z, message = res.x, str(res.message)
             closed = float(np.max(np.abs(pbm.eq(z)))) <= DEFECT_TOL * 1e3
@@ -1042,13 +1087,16 @@ def _polish(pbm: _Problem, z, iterations=20, tol=DEFECT_TOL, or_else=None):
     """Minimum-norm Newton steps on the defects alone (the objective held by staying close):
     the point with every defect within ``tol``, else ``or_else``."""
     z = z.copy()
-    for _ in range(iterations):
-        c = pbm.eq(z)
-        if np.max(np.abs(c)) <= tol:
-            return z
-        J = pbm.eq_jac(z)
-        z = z - np.linalg.lstsq(J, c, rcond=None)[0]
-    return z if np.max(np.abs(pbm.eq(z))) <= tol else or_else
+    try:
+        for _ in range(iterations):
+            c = pbm.eq(z)
+            if np.max(np.abs(c)) <= tol:
+                return z
+            J = pbm.eq_jac(z)
+            z = z - np.linalg.lstsq(J, c, rcond=None)[0]
+        return z if np.max(np.abs(pbm.eq(z))) <= tol else or_else
+    except _Infeasible:
+        return or_else
 
 
 def _build(system, oa, ob, origin, target, pbm: _Problem, z, start, max_tof, impulses, iterations, details):
