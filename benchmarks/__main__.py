@@ -12,7 +12,8 @@ text is one of:
 * anything else (or an empty text) is shown as information, not judged.
 
 ``seconds`` may be None for a row that was skipped (its target text says why). The command
-always exits 0: the table is a report, not a gate.
+exits 0 whatever the rows' verdicts (the table is a report, not a gate), and 1 when a benchmark
+module itself raised: its row says FAILED with the error, and the other modules still run.
 
 Each row also shows the machine's one-minute load average when its module started: on a
 shared machine a wall-time goal can be missed for want of a core, not of speed, and the reader
@@ -33,10 +34,15 @@ _RATIO = re.compile(r"^\s*(?:>=|at least)\s*([0-9.]+)\s*x\b", re.IGNORECASE)
 _NO_SLOWER = re.compile(r"^\s*no slower\b", re.IGNORECASE)
 _FASTER = re.compile(r"^\s*faster\b", re.IGNORECASE)
 _ABS = re.compile(r"^\s*<\s*([0-9.]+)\s*s\b")
+#: The target and verdict of a benchmark module whose run() raised.
+FAILED = "FAILED"
 
 
 def judge(seconds, baseline_seconds, target):
-    """(ratio, verdict) of one row; verdict is "MET", "NOT MET", "-" (not judged) or "skipped"."""
+    """(ratio, verdict) of one row; verdict is "MET", "NOT MET", "-" (not judged), "skipped" or
+    "FAILED" (the module raised)."""
+    if target == FAILED:
+        return None, FAILED
     if seconds is None:
         return None, "skipped"
     ratio = baseline_seconds / seconds if baseline_seconds and seconds > 0 else None
@@ -64,7 +70,7 @@ def main(argv=None) -> int:
     sys.path.insert(0, str(here.parent))
     names = sorted(m.name for m in pkgutil.iter_modules([str(here)]) if m.name.startswith("bench_"))
     only = (argv if argv is not None else sys.argv[1:])
-    rows = []
+    rows, failed = [], []
     for name in names:
         if only and not any(o in name for o in only):
             continue
@@ -72,8 +78,14 @@ def main(argv=None) -> int:
         mod = importlib.import_module(f"benchmarks.{name}")
         load = os.getloadavg()[0]
         print(f"running {name} (load {load:.1f}) ...", file=sys.stderr, flush=True)
-        for row in mod.run():
-            rows.append((name, load, *row))
+        try:
+            for row in mod.run():
+                rows.append((name, load, *row))
+        except Exception as e:           # a broken benchmark is a row of the report, and the exit code
+            failed.append(name)
+            rows.append((name, load, f"{name}: {type(e).__name__}: {str(e)[:200]}", None, None, None, FAILED))
+            print(f"  {name} FAILED: {type(e).__name__}: {e}", file=sys.stderr, flush=True)
+            continue
         print(f"  {name} done in {time.perf_counter() - t0:.1f} s", file=sys.stderr, flush=True)
     header = ("benchmark", "seconds", "baseline", "baseline s", "ratio", "target", "met", "load")
     table = []
@@ -89,6 +101,9 @@ def main(argv=None) -> int:
     print(f"\nTimes are medians of repeated runs on this machine ({os.cpu_count()} cores), after the "
           "first compile; the machine may be shared (the load column: its one-minute load average "
           "when the row's module started), so compare the ratios, which are measured in the same run.")
+    if failed:
+        print(f"FAILED (the benchmark itself raised): {', '.join(failed)}", file=sys.stderr)
+        return 1
     return 0
 
 

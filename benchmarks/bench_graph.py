@@ -96,7 +96,7 @@ def run():
     for _ in range(5):
         next(gen)
     t_nx = time.perf_counter() - t
-    ok = sum(1 for leg in built.legs if leg["status"] == "ok")
+    ok = sum(1 for leg in built.legs if leg.ok)
     return [
         *orbit_rows(em),
         *_forty(em),
