@@ -174,3 +174,22 @@ def test_local_dask_cluster_equals_serial(serial, capsys):
     assert rc == 0, err
     rc1, out1, err1 = run(capsys, "torus", "--system", EM, "--atlas", ATLAS, "--members", "2", "--format", "json")
     assert out == out1 and "dask scheduler 'local:2'" in err
+
+
+def test_a_family_that_cannot_be_computed_is_reported_and_nothing_is_stored(monkeypatch):
+    """Here (one process) so the stand-in reaches the task: request B fails after A is done."""
+    import cr3bp.api as api
+    from cr3bp.errors import NoSolutionError
+    real = api.torus
+
+    def fake(system, request, **kw):
+        if request == B:
+            raise NoSolutionError(f"stand-in: '{request}' not reached")
+        return real(system, request, **kw)
+    monkeypatch.setattr(api, "torus", fake)
+    cat = Catalog(":memory:")
+    seen = []
+    with pytest.raises(NoSolutionError, match="stand-in"):
+        cr3bp.torus_atlas(EM, ATLAS, members=1, catalog=cat, progress=lambda d, n, r, f: seen.append((r, f is None)))
+    assert seen == [(A, False), (B, True)]
+    assert cat.list_families() == []
