@@ -401,7 +401,8 @@ def _atlas_run(args):
     where = (f"on the dask scheduler '{scheduler}'" if scheduler else
              f"in {workers} worker processes" if workers and workers > 1 else "in this process")
     common.progress(args, f"librate torus: continuing {len(items)} {system.name} torus families {where} "
-                          f"({members} members after each first torus, holding the {args.hold})")
+                          f"({members} more {'torus' if members == 1 else 'tori'} after each first one, holding the "
+                          f"{args.hold})")
 
     def tick(done, total, request, fam):
         if fam is None:
