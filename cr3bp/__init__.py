@@ -11,7 +11,8 @@ One call per stage of a design (:mod:`cr3bp.api`)::
 ``route``, ``export``, ``run`` (a scenario file), ``torus``, ``shadow``, ``keep``, ``disperse``,
 ``refine`` (into the ephemeris model); ``propagate_state`` (one state followed), ``zvc`` (an
 energy level); ``catalog_list``, ``catalog_show``, ``catalog_remove`` (the orbit catalogue);
-``read_trajectory`` (a file written by ``export``, read back); ``atlas`` (many families).
+``read_trajectory`` (a file written by ``export``, read back); ``atlas`` (many families);
+``torus_atlas`` (many families of tori).
 
 Conventions (units, frame, Omega, Jacobi constant) are stated once in :mod:`cr3bp.systems`.
 
@@ -41,7 +42,7 @@ _LAZY = {
 #: the public face: one call per stage (cr3bp/api.py)
 STAGES = ("system", "points", "orbit", "family", "manifold", "section", "connect", "optimise", "route", "export",
           "run", "torus", "shadow", "keep", "disperse", "propagate_state", "zvc", "catalog_list", "catalog_show",
-          "catalog_remove", "read_trajectory", "atlas", "refine")
+          "catalog_remove", "read_trajectory", "atlas", "torus_atlas", "refine")
 _LAZY.update({name: "api" for name in STAGES})
 
 __all__ = list(STAGES) + ["CAUTION", "System", "system_names", "propagate", "propagate_batch", "Arc",

@@ -36,7 +36,7 @@ from .units import length
 
 __all__ = ["system", "points", "orbit", "orbit_request", "family", "manifold", "section", "connect", "optimise", "route",
            "trajectory", "export", "run", "torus", "shadow", "keep", "disperse", "propagate_state", "zvc",
-           "catalog_list", "catalog_show", "catalog_remove", "read_trajectory", "atlas", "shadow_along",
+           "catalog_list", "catalog_show", "catalog_remove", "read_trajectory", "atlas", "torus_atlas", "shadow_along",
            "departure", "return_transfer", "low_energy_transfer", "launch_window", "graph", "design_route",
            "refine"]
 
@@ -2212,16 +2212,7 @@ def torus(orbit=None, amplitude=None, *, around=None, hold="jacobi", lissajous=N
         if amplitude is None:
             raise InputError("after a system give the torus request, e.g. 'lissajous L2 ay=300000km az=150000km'")
         sysm = _as_system(orbit)
-        spec = treq.parse(str(amplitude))
-        treq.values(sysm, spec)
-        if spec.around:
-            from .orbits.request import parse_request  # lazy: start-up: keeps cr3bp.api free of numpy
-            from .orbits.targets import make_target  # lazy: start-up: keeps cr3bp.api free of numpy
-            ospec = parse_request(spec.around)
-            if ospec.family != "halo":
-                raise InputError(f"a quasi-halo torus is about a halo orbit (or NRHO); "
-                                 f"'{spec.around}' is a {ospec.family} orbit")
-            make_target(sysm, ospec.key, ospec.value)
+        spec = _torus_request_checked(sysm, amplitude)
         t = treq.solve(sysm, spec, catalog=catalog, progress=progress)
     elif by_system:
         from .orbits.request import parse_request  # lazy: start-up: keeps cr3bp.api free of numpy
@@ -3299,6 +3290,166 @@ def atlas(system, families, *, members=200, until=None, altitude=None, max_step=
         out.append(replace(fam, settings={**fam.settings, "catalog_id": fid}))
     return out
 
+
+# ---- torus atlas: many torus families in one call, one task each ------------------------
+
+#: The separator of the torus requests in one text (a comma is a space inside a torus request,
+#: cr3bp.tori.request.parse; a semicolon is in no request's words).
+TORUS_ATLAS_SEPARATOR = ";"
+
+
+def _torus_request_checked(sysm, text):
+    """A torus request parsed and its values checked (no solving): its TorusSpec."""
+    from .tori import request as treq  # lazy: start-up: keeps cr3bp.api free of numpy
+    spec = treq.parse(str(text))
+    treq.values(sysm, spec)
+    if spec.around:
+        from .orbits.request import parse_request  # lazy: start-up: keeps cr3bp.api free of numpy
+        from .orbits.targets import make_target  # lazy: start-up: keeps cr3bp.api free of numpy
+        ospec = parse_request(spec.around)
+        if ospec.family != "halo":
+            raise InputError(f"a quasi-halo torus is about a halo orbit (or NRHO); "
+                             f"'{spec.around}' is a {ospec.family} orbit")
+        make_target(sysm, ospec.key, ospec.value)
+    return spec
+
+
+def _torus_atlas_entries(sysm, tori):
+    """The torus atlas's requests (a list, or one text separated by semicolons), each checked."""
+    if isinstance(tori, str):
+        items = [s.strip() for s in tori.split(TORUS_ATLAS_SEPARATOR)]
+    else:
+        try:
+            items = [str(s).strip() for s in tori]
+        except TypeError:
+            raise InputError(f"tori {tori!r} must be a list of torus requests such as "
+                             "'quasi-halo around halo L1 north az=10000km amplitude=300km'") from None
+    if not items or any(not s for s in items):
+        raise InputError(f"tori {tori!r}: give one or more torus requests separated by semicolons, e.g. "
+                         "'quasi-halo around halo L1 north az=10000km amplitude=300km; lissajous L2 "
+                         "ay=30000km az=20000km'")
+    if len(items) > MAX_ATLAS_FAMILIES:
+        raise InputError(f"tori: {len(items)} requests; a torus atlas takes at most {MAX_ATLAS_FAMILIES}")
+    specs, seen = [], {}
+    for text in items:
+        spec = _torus_request_checked(sysm, text)
+        ident = (spec.family, spec.point, " ".join(spec.around.lower().split()),
+                 tuple(sorted((k, v.lower()) for k, v in spec.targets.items())))
+        if ident in seen:
+            raise InputError(f"torus request '{text}' repeats '{seen[ident]}'")
+        seen[ident] = text
+        specs.append(spec)
+    return items, specs
+
+
+def _catalog_records(cat):
+    """Every family record of a catalogue (in id order), as plain data to copy elsewhere."""
+    return [cat.family(f["id"]) for f in cat.list_families()]
+
+
+def _torus_atlas_grow(task):
+    """One torus family of a torus atlas (a task of the pool or of dask): :func:`torus` with
+    ``members``, kept in a catalogue in memory when the caller keeps a catalogue. Returns
+    ``(request, family, records, error)``: a request that cannot be solved comes back as its error."""
+    from .catalog import Catalog  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .errors import LibrateError
+    cat = Catalog(":memory:") if task["keep"] else None
+    try:
+        fam = torus(task["system"], task["request"], hold=task["hold"], members=task["members"], catalog=cat)
+    except LibrateError as e:
+        return task["request"], None, None, e
+    return task["request"], fam, (_catalog_records(cat) if cat is not None else None), None
+
+
+def torus_atlas(system, tori, *, members=5, hold="jacobi", workers=None, scheduler=None, progress=None,
+                catalog=None):
+    """Continue many families of tori at once, one task per family (``librate torus --atlas``).
+
+    Every request is parsed and its values checked before any torus is solved. The families
+    are continued here (``workers`` None or 1), over a process pool of ``workers`` processes,
+    or on a dask.distributed cluster (``scheduler``), one task per family; each family is the
+    one :func:`torus` gives for the request with ``members`` (bit for bit, wherever it is
+    computed: the torus numerics run on one thread, :mod:`cr3bp.threads`). With a catalogue,
+    each task keeps its records in a catalogue in memory and this process alone copies them
+    into ``catalog`` after every family is done, in the order of the requests: the same
+    records :func:`torus` with ``catalog`` keeps (a later single-family call reads them
+    back). The atlas computes every family afresh; it does not read the catalogue.
+
+    Parameters
+    ----------
+    system : System or str
+    tori : str or list of str
+        Torus requests (:mod:`cr3bp.tori.request`): a list, or one text with the requests
+        separated by semicolons (a comma is a space inside a torus request), at most
+        :data:`MAX_ATLAS_FAMILIES`, none repeated.
+    members : int
+        Tori continued after each family's first, 1..500 (as :func:`torus`; default 5).
+    hold : {"jacobi", "rotation", "period"}
+        Held along every family (default the Jacobi constant).
+    workers : int, optional
+        Processes (default: this one); with ``scheduler="local"`` the local cluster's size.
+    scheduler : str or distributed.Client, optional
+        A dask.distributed scheduler's address, ``"local"`` / ``"local:N"`` (a local cluster
+        started and stopped here), or a client.
+    progress : callable(done, total, request, family), optional
+        Called in this process as each family is done (in completion order; ``family`` None
+        for a request that could not be solved).
+    catalog : cr3bp.catalog.Catalog, optional
+        Keep every family in this catalogue (written only when every family is done).
+
+    Returns
+    -------
+    list of cr3bp.tori.family.TorusFamily
+        In the order of the requests.
+
+    Raises
+    ------
+    InputError
+        An empty, malformed or repeated request, more than :data:`MAX_ATLAS_FAMILIES`;
+        ``members``, ``hold`` or ``workers`` out of range; a malformed scheduler.
+    NoSolutionError, ConvergenceError
+        The first request (in request order) whose torus or family could not be computed,
+        after every task has ended; nothing is then kept in ``catalog``.
+
+    Examples
+    --------
+    >>> import cr3bp
+    >>> cr3bp.torus_atlas("earth-moon", "lissajous L1 ay=9000km az=9000km; liss L1 az=9000km ay=9000km")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: torus request 'liss L1 az=9000km ay=9000km' repeats 'lissajous L1 ay=9000km az=9000km'
+
+    References
+    ----------
+    Baresi, Olikara and Scheeres, J. Astronaut. Sci. 65, 2018 (continuation of tori, as
+    :func:`torus`); Rocklin, "Dask: parallel computation with blocked algorithms and task
+    scheduling", Proc. 14th Python in Science Conference (SciPy 2015).
+    """
+    from .transfers import tasks as tasks_mod  # lazy: start-up: keeps cr3bp.api free of numpy
+    system = _as_system(system)
+    items, specs = _torus_atlas_entries(system, tori)
+    members = _whole("members", members, 1, 500)
+    _one_of("hold", hold, ("jacobi", "rotation", "period"))
+    if workers is not None:
+        workers = _whole("workers", workers, 1, 256)
+    if scheduler is not None and isinstance(scheduler, str):
+        tasks_mod.check_scheduler(scheduler, workers)
+    jobs = [{"system": system, "request": text, "hold": hold, "members": members, "keep": catalog is not None}
+            for text in items]
+    results = tasks_mod.run_tasks(_torus_atlas_grow, jobs, 1 if workers is None and scheduler is None else workers,
+                                  scheduler, (lambda n, total, r: progress(n, total, r[0], r[1])) if progress else None, chunks_per_worker=len(jobs))
+    for _text, _fam, _recs, err in results:
+        if err is not None:
+            raise err
+    fams = [r[1] for r in results]
+    if catalog is not None and not getattr(catalog, "read_only", False):
+        for _text, _fam, recs, _err in results:
+            for rec in recs:
+                fid = catalog.begin_family(system, rec["family"], rec["point"], rec["branch"], rec["settings"])
+                catalog.add_members(fid, rec["members"])
+                if rec["complete"]:
+                    catalog.finish_family(fid, rec["bifurcations"], complete=True)
+    return fams
 
 
 def _piece_runner(workers, scheduler, source, apsis=False):

@@ -53,7 +53,8 @@ def test_the_shared_options_are_where_they_were():
     assert {n for n, _, _ in PLOT} >= {"orbit", "family", "propagate", "zvc", "graph", "route", "manifold",
                                        "section", "connect", "torus", "keep", "shadow", "refine"}
     assert {n for n, _, _ in CATALOG} == {"orbit", "family", "torus", "graph", "route", "catalog", "run"}
-    assert {n for n, _, _ in WORKERS} == {"graph", "route", "run", "keep", "family", "manifold", "section", "disperse"}
+    assert {n for n, _, _ in WORKERS} == {"graph", "route", "run", "keep", "family", "manifold", "section", "disperse",
+                                          "torus"}
 
 
 @pytest.mark.parametrize("name, leaf, action", PLOT, ids=[n for n, _, _ in PLOT])

@@ -77,6 +77,18 @@ def add_arguments(p):
                    "FILE, a standalone offline HTML page (.html or .htm; plotly.js written into it, "
                    "about 4.7 MB; nothing fetched from a network); the caution is in the page. One "
                    "torus: not with --members")
+    a = p.add_argument_group("atlas: many torus families in one run, one task per family")
+    a.add_argument("--atlas", metavar="LIST", help="continue these families of tori instead of one: torus "
+                   "requests (as --request) separated by semicolons (a comma is a space inside a request), "
+                   "e.g. 'quasi-halo around halo L1 north az=10000km amplitude=300km; quasi-halo around halo "
+                   "L2 north az=10000km amplitude=300km'; needs --members (each family: its first torus and "
+                   "N more), with --hold and --catalog; not with --request, --around, --family, --export, "
+                   "--plot or --html")
+    common.add_workers_option(a, "atlas: worker processes, one torus family per task (default: this process)")
+    a.add_argument("--scheduler", metavar="ADDRESS", help="atlas: continue the families on a dask.distributed "
+                   "scheduler (e.g. tcp://10.0.0.5:8786), or 'local:N' for a local cluster of N worker "
+                   "processes started and stopped here ('local': --workers processes, default 2); needs "
+                   "librate[cluster]")
     common.add_output_options(p)
 
 
@@ -143,6 +155,11 @@ def run(args):
     from cr3bp.orbits.request import parse_request
     from cr3bp.orbits.targets import make_target
     from cr3bp.units import length
+    if getattr(args, "atlas", None) is not None:
+        return _atlas_run(args)
+    if getattr(args, "workers", None) is not None or getattr(args, "scheduler", None) is not None:
+        raise InputError("--workers and --scheduler go with --atlas (one torus or family is computed in "
+                         "this process)")
     system = common.resolve_system(args)
     members = (validate.whole_number("--members", args.members, 1, 500)
                if args.members is not None else None)
@@ -346,6 +363,77 @@ def _run_family(args, system, start, members, what, cat=None):
                 table=_family_table(system, fam, what, headers, rows),
                 comments=[f"torus family from the {what}, {args.hold} held; distances and times "
                           "of the circular restricted three-body model"])
+    return 0
+
+
+#: Options of one torus that an atlas does not take (each family is named in --atlas).
+ATLAS_EXCLUDES = (("request", "--request"), ("around", "--around"), ("amplitude", "--amplitude"),
+                  ("family", "--family"), ("point", "--point"), ("ay", "--ay"), ("az", "--az"),
+                  ("export", "--export"), ("epoch", "--epoch"), ("span", "--span"), ("step", "--step"),
+                  ("export_format", "--export-format"), ("plot", "--plot"), ("html", "--html"))
+
+
+def _atlas_run(args):
+    """``librate torus --atlas``: cr3bp.api.torus_atlas, every option checked before any torus
+    is solved; one block per family, with the columns of ``librate torus --members``."""
+    from cr3bp import api, validate
+    from cr3bp.errors import InputError
+    for dest, flag in ATLAS_EXCLUDES:
+        if getattr(args, dest, None) is not None:
+            raise InputError(f"{flag} does not go with --atlas (name each torus family in the list, e.g. "
+                             "--atlas 'quasi-halo around halo L1 north az=10000km amplitude=300km; ...')")
+    if args.phase != "0,0":
+        raise InputError("--phase does not go with --atlas (it goes with --export)")
+    if args.members is None:
+        raise InputError("--atlas needs --members N (the tori continued after each family's first, 1..500)")
+    system = common.resolve_system(args)
+    items, _specs = api._torus_atlas_entries(system, args.atlas)
+    members = validate.whole_number("--members", args.members, 1, 500)
+    workers = common.workers(args)
+    scheduler = None
+    if args.scheduler is not None:
+        from cr3bp.transfers.tasks import check_scheduler
+        check_scheduler(args.scheduler, workers)
+        scheduler = args.scheduler.strip()
+    if args.out:
+        _check_output("--out", args.out)
+    cat = oo.open_catalog(args)
+    where = (f"on the dask scheduler '{scheduler}'" if scheduler else
+             f"in {workers} worker processes" if workers and workers > 1 else "in this process")
+    common.progress(args, f"librate torus: continuing {len(items)} {system.name} torus families {where} "
+                          f"({members} more {'torus' if members == 1 else 'tori'} after each first one, holding the "
+                          f"{args.hold})")
+
+    def tick(done, total, request, fam):
+        if fam is None:
+            common.progress(args, f"torus family {done}/{total} failed: '{request}'")
+            return
+        common.progress(args, f"torus family {done}/{total} done: '{request}', {len(fam.members)} tori; "
+                              f"stop: {fam.stop}")
+
+    fams = api.torus_atlas(system, items, members=members, hold=args.hold, workers=workers,
+                           scheduler=scheduler, progress=tick, catalog=cat)
+    if cat is not None:
+        common.progress(args, f"stored {len(fams)} torus families in the catalogue {cat.path}")
+    tables, csv_rows, payloads, comments, headers = [], [], [], [], None
+    for text, fam in zip(items, fams):
+        start = fam.members[0]
+        what = f"{start.family} torus '{text}'"
+        d = fam.to_dict()
+        d["members"] = [_with_amplitudes(system, m, t) for m, t in zip(d["members"], fam.members)]
+        d["model"] = start.to_dict()["model"]
+        d["system"] = system.name
+        d["start"] = what
+        d["request"] = text
+        payloads.append(d)
+        headers, rows = _family_rows(system, fam)
+        tables.append(_family_table(system, fam, what, headers, rows))
+        comments.append(f"torus family from the {what}, {args.hold} held; distances and times of the "
+                        "circular restricted three-body model")
+        csv_rows += [[text] + r for r in rows]
+    payload = {"system": system.name, "atlas": items, "hold": args.hold, "families": payloads}
+    common.emit(args, payload=payload, headers=["request"] + headers, rows=csv_rows, table="\n".join(tables),
+                comments=comments)
     return 0
 
 
