@@ -28,7 +28,7 @@ import sys
 from dataclasses import dataclass, replace
 from pathlib import Path
 
-from .errors import InputError
+from .errors import InputError, LibrateError
 from .vocabulary import TUBE_BRANCHES
 from . import units
 from .systems import System, system as _system
@@ -3352,7 +3352,6 @@ def _torus_atlas_grow(task):
     ``members``, kept in a catalogue in memory when the caller keeps a catalogue. Returns
     ``(request, family, records, error)``: a request that cannot be solved comes back as its error."""
     from .catalog import Catalog  # lazy: start-up: keeps cr3bp.api free of numpy
-    from .errors import LibrateError
     cat = Catalog(":memory:") if task["keep"] else None
     try:
         fam = torus(task["system"], task["request"], hold=task["hold"], members=task["members"], catalog=cat)
