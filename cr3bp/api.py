@@ -3330,11 +3330,21 @@ def _torus_atlas_entries(sysm, tori):
                          "ay=30000km az=20000km'")
     if len(items) > MAX_ATLAS_FAMILIES:
         raise InputError(f"tori: {len(items)} requests; a torus atlas takes at most {MAX_ATLAS_FAMILIES}")
+    from .orbits.request import parse_request  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .orbits.targets import make_target  # lazy: start-up: keeps cr3bp.api free of numpy
+    from .tori import request as treq  # lazy: start-up: keeps cr3bp.api free of numpy
     specs, seen = [], {}
     for text in items:
         spec = _torus_request_checked(sysm, text)
-        ident = (spec.family, spec.point, " ".join(spec.around.lower().split()),
-                 tuple(sorted((k, v.lower()) for k, v in spec.targets.items())))
+        # repeats compared by value, not by spelling ("10000km" and "1e4km" are one request)
+        around = None
+        if spec.around:
+            o = parse_request(spec.around)
+            t = make_target(sysm, o.key, o.value) if o.key else None
+            around = (o.family, o.point, o.branch, o.resonance, o.occurrence,
+                      None if t is None else (t.quantity, float(t.value)))
+        ident = (spec.family, spec.point, around,
+                 tuple(sorted((k, repr(v)) for k, v in treq.values(sysm, spec).items())))
         if ident in seen:
             raise InputError(f"torus request '{text}' repeats '{seen[ident]}'")
         seen[ident] = text

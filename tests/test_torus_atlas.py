@@ -119,6 +119,8 @@ MANY = "; ".join(f"lissajous L1 ay={k}000km az=9000km" for k in range(1, 66))
     (f"{A};", {}, ["one or more"]),
     ([], {}, ["one or more"]),
     (f"{A}; {A.replace('north', 'North')}", {}, ["repeats", A]),
+    (f"{A}; {A.replace('amplitude=300km', 'amplitude=0.3e3km')}", {}, ["repeats", A]),   # by value
+    (f"{A}; {A.replace('az=10000km', 'az=1e4km')}", {}, ["repeats", A]),                 # the orbit's, too
     (MANY, {}, ["65 requests", "at most 64"]),
     (f"{A}, {B}", {}, ["'quasi-halo' in the torus request is not KEY=VALUE"]),   # a comma is a space
     ("lissajous L4 ay=9000km az=9000km", {}, ["'L4'"]),
