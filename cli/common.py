@@ -121,6 +121,14 @@ def open_catalog(args):
     return Catalog(path)
 
 
+def add_scheduler_option(p, what: str):
+    """``--scheduler ADDRESS``: ``what`` (e.g. "atlas: grow the families") on a dask.distributed
+    scheduler or a local cluster started here."""
+    p.add_argument("--scheduler", metavar="ADDRESS", help=f"{what} on a dask.distributed scheduler (e.g. "
+                   "tcp://10.0.0.5:8786), or 'local:N' for a local cluster of N worker processes started and "
+                   "stopped here ('local': --workers processes, default 2); needs librate[cluster]")
+
+
 def add_workers_option(p, help_text: str = "worker processes (default: all cores; 1: no pool)"):
     p.add_argument("--workers", metavar="N", help=help_text)
 

@@ -2212,7 +2212,7 @@ def torus(orbit=None, amplitude=None, *, around=None, hold="jacobi", lissajous=N
         if amplitude is None:
             raise InputError("after a system give the torus request, e.g. 'lissajous L2 ay=300000km az=150000km'")
         sysm = _as_system(orbit)
-        spec = _torus_request_checked(sysm, amplitude)
+        spec = treq.checked(sysm, amplitude)
         t = treq.solve(sysm, spec, catalog=catalog, progress=progress)
     elif by_system:
         from .orbits.request import parse_request  # lazy: start-up: keeps cr3bp.api free of numpy
@@ -3142,22 +3142,28 @@ def read_trajectory(path, *, fmt=None):
 MAX_ATLAS_FAMILIES = 64
 
 
+def _atlas_items(given, name, sep, sep_words, kind, one, example, atlas):
+    """The requests of an atlas: a list, or one text split on ``sep``; none empty, at most
+    :data:`MAX_ATLAS_FAMILIES` (the messages name ``name``, the ``kind`` of request and examples)."""
+    if isinstance(given, str):
+        items = [s.strip() for s in given.split(sep)]
+    else:
+        try:
+            items = [str(s).strip() for s in given]
+        except TypeError:
+            raise InputError(f"{name} {given!r} must be a list of {kind} such as {one}") from None
+    if not items or any(not s for s in items):
+        raise InputError(f"{name} {given!r}: give one or more {kind} separated by {sep_words}, e.g. {example}")
+    if len(items) > MAX_ATLAS_FAMILIES:
+        raise InputError(f"{name}: {len(items)} requests; {atlas} takes at most {MAX_ATLAS_FAMILIES}")
+    return items
+
+
 def _atlas_entries(families):
     """The atlas's family requests (a list, or one text separated by commas), each checked."""
     from .orbits.request import parse_request  # lazy: start-up: keeps cr3bp.api free of numpy
-    if isinstance(families, str):
-        items = [s.strip() for s in families.split(",")]
-    else:
-        try:
-            items = [str(s).strip() for s in families]
-        except TypeError:
-            raise InputError(f"families {families!r} must be a list of family requests such as "
-                             "'halo L1 north'") from None
-    if not items or any(not s for s in items):
-        raise InputError(f"families {families!r}: give one or more family requests separated by commas, "
-                         "e.g. 'halo L1 north, lyapunov L2'")
-    if len(items) > MAX_ATLAS_FAMILIES:
-        raise InputError(f"families: {len(items)} requests; an atlas takes at most {MAX_ATLAS_FAMILIES}")
+    items = _atlas_items(families, "families", ",", "commas", "family requests", "'halo L1 north'",
+                         "'halo L1 north, lyapunov L2'", "an atlas")
     specs, seen = [], {}
     for text in items:
         spec = parse_request(text)
@@ -3298,44 +3304,18 @@ def atlas(system, families, *, members=200, until=None, altitude=None, max_step=
 TORUS_ATLAS_SEPARATOR = ";"
 
 
-def _torus_request_checked(sysm, text):
-    """A torus request parsed and its values checked (no solving): its TorusSpec."""
-    from .tori import request as treq  # lazy: start-up: keeps cr3bp.api free of numpy
-    spec = treq.parse(str(text))
-    treq.values(sysm, spec)
-    if spec.around:
-        from .orbits.request import parse_request  # lazy: start-up: keeps cr3bp.api free of numpy
-        from .orbits.targets import make_target  # lazy: start-up: keeps cr3bp.api free of numpy
-        ospec = parse_request(spec.around)
-        if ospec.family != "halo":
-            raise InputError(f"a quasi-halo torus is about a halo orbit (or NRHO); "
-                             f"'{spec.around}' is a {ospec.family} orbit")
-        make_target(sysm, ospec.key, ospec.value)
-    return spec
-
-
 def _torus_atlas_entries(sysm, tori):
     """The torus atlas's requests (a list, or one text separated by semicolons), each checked."""
-    if isinstance(tori, str):
-        items = [s.strip() for s in tori.split(TORUS_ATLAS_SEPARATOR)]
-    else:
-        try:
-            items = [str(s).strip() for s in tori]
-        except TypeError:
-            raise InputError(f"tori {tori!r} must be a list of torus requests such as "
-                             "'quasi-halo around halo L1 north az=10000km amplitude=300km'") from None
-    if not items or any(not s for s in items):
-        raise InputError(f"tori {tori!r}: give one or more torus requests separated by semicolons, e.g. "
+    items = _atlas_items(tori, "tori", TORUS_ATLAS_SEPARATOR, "semicolons", "torus requests",
+                         "'quasi-halo around halo L1 north az=10000km amplitude=300km'",
                          "'quasi-halo around halo L1 north az=10000km amplitude=300km; lissajous L2 "
-                         "ay=30000km az=20000km'")
-    if len(items) > MAX_ATLAS_FAMILIES:
-        raise InputError(f"tori: {len(items)} requests; a torus atlas takes at most {MAX_ATLAS_FAMILIES}")
+                         "ay=30000km az=20000km'", "a torus atlas")
     from .orbits.request import parse_request  # lazy: start-up: keeps cr3bp.api free of numpy
     from .orbits.targets import make_target  # lazy: start-up: keeps cr3bp.api free of numpy
     from .tori import request as treq  # lazy: start-up: keeps cr3bp.api free of numpy
     specs, seen = [], {}
     for text in items:
-        spec = _torus_request_checked(sysm, text)
+        spec = treq.checked(sysm, text)
         # repeats compared by value, not by spelling ("10000km" and "1e4km" are one request)
         around = None
         if spec.around:

@@ -45,10 +45,7 @@ def add_arguments(p):
                    "with --members, --until, --altitude, --max-step; not with --family, --point, --branch, "
                    "--ratio, --route, --method, --parameter, --step, --plots)")
     common.add_workers_option(a, "atlas: worker processes, one family per task (default: this process)")
-    a.add_argument("--scheduler", metavar="ADDRESS", help="atlas: grow the families on a dask.distributed "
-                   "scheduler (e.g. tcp://10.0.0.5:8786), or 'local:N' for a local cluster of N worker "
-                   "processes started and stopped here ('local': --workers processes, default 2); needs "
-                   "librate[cluster]")
+    common.add_scheduler_option(a, "atlas: grow the families")
     oo.add_catalog_option(p, "; the family is stored in it")
     common.add_plots_prefix_option(p, "write PREFIX-family.png (members coloured by Jacobi constant) and "
                                       "PREFIX-stability.png (stability indices vs Jacobi constant and period); "

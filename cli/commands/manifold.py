@@ -92,19 +92,8 @@ def run(args):
 
 def torus_request(system, text, args):
     """A torus from its request, every value checked before any work."""
-    from cr3bp.errors import InputError, shown
     from cr3bp.tori import request as treq
-    spec = treq.parse(text)
-    treq.values(system, spec)
-    if spec.around:
-        from cr3bp.orbits.request import parse_request
-        from cr3bp.orbits.targets import make_target
-        ospec = parse_request(spec.around)
-        if ospec.family != "halo":
-            raise InputError(f"a quasi-halo torus is about a halo orbit (or NRHO); '{shown(spec.around)}' is a "
-                             f"{ospec.family} orbit")
-        make_target(system, ospec.key, ospec.value)
-    return spec
+    return treq.checked(system, text)
 
 
 def _torus(args, system, stop, workers=None, scheduler=None):

@@ -85,10 +85,7 @@ def add_arguments(p):
                    "N more), with --hold and --catalog; not with --request, --around, --family, --export, "
                    "--plot or --html")
     common.add_workers_option(a, "atlas: worker processes, one torus family per task (default: this process)")
-    a.add_argument("--scheduler", metavar="ADDRESS", help="atlas: continue the families on a dask.distributed "
-                   "scheduler (e.g. tcp://10.0.0.5:8786), or 'local:N' for a local cluster of N worker "
-                   "processes started and stopped here ('local': --workers processes, default 2); needs "
-                   "librate[cluster]")
+    common.add_scheduler_option(a, "atlas: continue the families")
     common.add_output_options(p)
 
 

@@ -29,8 +29,6 @@ import numpy as np
 from .. import units
 from ..errors import InputError
 from ..io import export
-from ..orbits.request import parse_request
-from ..orbits.targets import make_target
 from ..tori import request as treq
 from ..tori import surface
 from ..tori.trajectory import sample
@@ -111,16 +109,7 @@ def spec_for(system, entry: dict):
     computing quasi-periodic orbits and their stability in the restricted three-body problem",
     AAS 12-361 (2012).
     """
-    spec = treq.parse(entry["torus"])
-    if system is not None:
-        treq.values(system, spec)
-        if spec.around:
-            ospec = parse_request(spec.around)
-            if ospec.family != "halo":
-                raise InputError(f"a quasi-halo torus is about a halo orbit (or NRHO); "
-                                 f"'{spec.around}' is a {ospec.family} orbit")
-            make_target(system, ospec.key, ospec.value)
-    return spec
+    return treq.parse(entry["torus"]) if system is None else treq.checked(system, entry["torus"])
 
 
 def solve(system, spec, catalog=None):

@@ -215,6 +215,52 @@ def _check_pairs(fam, targets):
         raise InputError(f"a {fam} torus is targeted by one of: {ok}; got {said}")
 
 
+def checked(system, text) -> TorusSpec:
+    """A torus request parsed and every value checked for ``system``, with no solving: the
+    targets (:func:`values`) and, for a quasi-halo torus, that its orbit is a halo orbit with
+    a valid target.
+
+    Parameters
+    ----------
+    system : System
+    text : str
+        The torus request.
+
+    Returns
+    -------
+    TorusSpec
+
+    Raises
+    ------
+    InputError
+        A bad request or value, or a quasi-halo torus about an orbit that is not a halo orbit.
+
+    Examples
+    --------
+    >>> from cr3bp import system
+    >>> from cr3bp.tori.request import checked
+    >>> checked(system("earth-moon"), "quasi-halo around halo L1 north az=10000km amplitude=300km").around
+    'halo L1 north az=10000km'
+    >>> checked(system("earth-moon"), "quasi-halo around lyapunov L1 ax=5000km amplitude=300km")
+    Traceback (most recent call last):
+    ...
+    cr3bp.errors.InputError: a quasi-halo torus is about a halo orbit (or NRHO); 'lyapunov L1 ax=5000km' is a lyapunov orbit
+
+    References
+    ----------
+    Common practice (every value checked before any work; module notes).
+    """
+    spec = parse(str(text))
+    values(system, spec)
+    if spec.around:
+        ospec = parse_request(spec.around)
+        if ospec.family != "halo":
+            raise InputError(f"a quasi-halo torus is about a halo orbit (or NRHO); '{shown(spec.around)}' is a "
+                             f"{ospec.family} orbit")
+        make_target(system, ospec.key, ospec.value)
+    return spec
+
+
 def values(system, spec: TorusSpec) -> dict:
     """The targets as numbers (LU, TU, nondimensional; frequency-ratio as rotation in rad).
 

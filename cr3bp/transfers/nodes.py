@@ -768,13 +768,7 @@ def orbit_node(name: str, system, orbit: str) -> OrbitNode:
     from ..tori.request import is_torus_request  # lazy: only for tori
     if is_torus_request(orbit):
         from ..tori import request as treq  # lazy: only for tori
-        tspec = treq.parse(orbit)        # InputError names the bad word
-        treq.values(system, tspec)
-        if tspec.around:
-            aspec = parse_request(tspec.around)
-            if aspec.family != "halo":
-                raise InputError(f"a quasi-halo torus is about a halo orbit (or NRHO); "
-                                 f"'{shown(tspec.around)}' is a {aspec.family} orbit")
+        treq.checked(system, orbit)      # InputError names the bad word or value
         return OrbitNode(name, system.name, orbit)
     spec = parse_request(orbit)          # InputError names the bad word
     if not spec.key:
