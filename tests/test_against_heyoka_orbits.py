@@ -39,3 +39,18 @@ def test_strongly_unstable_lyapunov_members_close_with_heyoka():
         ta = _integrator(o.system.mu, o.state)
         ta.propagate_until(o.period)
         assert float(np.linalg.norm(np.asarray(ta.state) - o.state)) < 1e-10
+
+
+def test_resonant_members_accepted_on_the_finer_measurement_close_with_heyoka():
+    """The Earth-Moon 3:2 resonant family (largest multiplier ~30-1 400) whose full-period error
+    at tolerance 1e-13 exceeds 1e-10 and is measured again at 1e-14 (shooting.FINE_RTOL): its
+    first orbit and its members close to < 1e-10 after one period with heyoka."""
+    from cr3bp.orbits import continuation, families
+    first, _ = families._resonant_first(cache.em(), 3, 2)
+    fam = families.grow_family(cache.em(), "resonant", resonance=(3, 2),
+                               stops=continuation.Stops(max_members=5))
+    assert len(fam.members) == 5
+    for o in (first,) + tuple(fam.members):
+        ta = _integrator(o.system.mu, o.state)
+        ta.propagate_until(o.period)
+        assert float(np.linalg.norm(np.asarray(ta.state) - o.state)) < 1e-10

@@ -43,11 +43,15 @@ STALL_TOL = 1e-10
 PERIODICITY_TOL = 1e-10
 #: For strongly unstable orbits (largest multiplier lambda > 100) a full-period propagation at
 #: tolerance 1e-13 cannot itself close to better than about 1e-13 * lambda (its local errors grow
-#: with the unstable mode). Such an orbit is accepted when its half-period residual is < 1e-11 and
-#: its measured full-period error is < INSTABILITY_ALLOWANCE * lambda; the orbit carries a
+#: with the unstable mode). The error is then measured again at FINE_RTOL; an orbit still over
+#: PERIODICITY_TOL is accepted when its half-period residual is < 1e-11 and that error is
+#: < INSTABILITY_ALLOWANCE * lambda; the orbit carries a
 #: ``periodicity_note`` saying so. tests/test_against_heyoka.py re-checks these orbits with an
 #: independent Taylor integrator at tolerance 1e-16, which closes them to < 1e-10.
 INSTABILITY_ALLOWANCE = 3e-13
+#: Tolerance of the second measurement of the full-period error, when the first (at RTOL) is
+#: not under PERIODICITY_TOL: the integrator's tightest (:func:`cr3bp.validate.tolerance`).
+FINE_RTOL = 1e-14
 MAX_ITER = 30
 RTOL = ATOL = 1e-13
 
@@ -745,6 +749,12 @@ def finish(system, sym, X, iterations, history, family="", point="", branch="",
     arc = propagate(system, s0, T, rtol=RTOL, atol=ATOL, events=geometry.EXTREME_EVENTS)
     err = float(np.linalg.norm(arc.final_state - s0))
     note = ""
+    if not err < PERIODICITY_TOL:
+        # The measurement's own error may be at fault: measured again at the integrator's
+        # tightest tolerance. On the Earth-Moon 3:2 resonant family (lambda ~ 1 030) the error
+        # at 1e-13 was 2.2-3.1e-10, at the edge of the allowance below, and 3.3e-11 at 1e-14.
+        fine = propagate(system, s0, T, rtol=FINE_RTOL, atol=FINE_RTOL)
+        err = float(np.linalg.norm(fine.final_state - s0))
     if not err < PERIODICITY_TOL:
         # A single propagation over one period amplifies its own local errors by up to the
         # largest multiplier lambda; above 1e-10 the measurement, not the orbit, may be at fault.
