@@ -1195,9 +1195,13 @@ def test_pool_workers_end_with_the_command(tmp_path, sig):
     """Ctrl-C (SIGINT to the process group) or SIGKILL during the leg stage: no worker survives,
     so a pipe reader such as 'tee' sees its end; Ctrl-C gives one line and status 130."""
     nodes = _many_nodes(tmp_path)
+    # started as a terminal starts a command, with Ctrl-C at its default: a shell runs a
+    # background command (a test run started with '&') with SIGINT ignored, and the ignored
+    # disposition is inherited across exec, so librate would never see the Ctrl-C
     p = subprocess.Popen([sys.executable, "-m", "librate_cli.main", "graph", "build", EM, f"--nodes={nodes}",
                           "--workers=2", "--no-catalog"], stdout=subprocess.PIPE, stderr=subprocess.PIPE,
-                         start_new_session=True, cwd=tmp_path)
+                         start_new_session=True, cwd=tmp_path,
+                         preexec_fn=lambda: signal.signal(signal.SIGINT, signal.SIG_DFL))
     workers = []
     deadline = time.time() + 90
     while time.time() < deadline and len(workers) < 2 and p.poll() is None:
