@@ -36,7 +36,7 @@ from . import coefficients as _coef
 from . import dop853 as _dp
 from . import modes as _modes
 from . import status as _status
-from .dop853 import dense_eval, dense_prepare, event_g, initial_step, locate_root
+from .dop853 import dense_eval, dense_prepare, event_g, initial_step, locate_root, step_powers
 from .dispatch import rhs
 
 #: Trajectories advanced together (four doubles fill one 256-bit vector register; eight give
@@ -360,6 +360,29 @@ def _error_lanes(K, H, Y, Ynew, rtol, atol, err):
 
 
 @njit(cache=True, error_model="numpy")
+def _power_lanes(err, PE, PB):
+    """:func:`cr3bp.integrate.dop853.step_powers` of every lane's error (groups of four written
+    out, so that the square roots run as vector instructions)."""
+    for g in range(0, LANES, 4):
+        e0 = err[g]
+        e1 = err[g + 1]
+        e2 = err[g + 2]
+        e3 = err[g + 3]
+        a0, b0 = step_powers(e0)
+        a1, b1 = step_powers(e1)
+        a2, b2 = step_powers(e2)
+        a3, b3 = step_powers(e3)
+        PE[g] = a0
+        PE[g + 1] = a1
+        PE[g + 2] = a2
+        PE[g + 3] = a3
+        PB[g] = b0
+        PB[g + 1] = b1
+        PB[g + 2] = b2
+        PB[g + 3] = b3
+
+
+@njit(cache=True, error_model="numpy")
 def _g_lane(kind, index, value, mu, Y, l):
     """:func:`cr3bp.integrate.dop853.event_g` of lane ``l`` of Y (same expressions)."""
     if kind == 0:
@@ -399,7 +422,9 @@ def _run_block(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_steps,
     state = np.zeros(L, dtype=np.int64)
     last = np.zeros(L, dtype=np.bool_)
     rejected = np.zeros(L, dtype=np.bool_)
-    err_prev = np.zeros(L)
+    prev_pow = np.zeros(L)      # max(err_prev, PREV_ERROR_MIN) ** STEP_BETA of each lane
+    PE = np.empty(L)            # err ** ERROR_EXPONENT of each lane's trial step
+    PB = np.empty(L)            # err ** STEP_BETA
     nfev = np.zeros(L, dtype=np.int64)
     nsteps = np.zeros(L, dtype=np.int64)
     nrej = np.zeros(L, dtype=np.int64)
@@ -466,7 +491,7 @@ def _run_block(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_steps,
                     nfev[l] = 2
                     H[l] = h
                     rejected[l] = False
-                    err_prev[l] = _dp.PREV_ERROR_MIN
+                    prev_pow[l] = _dp.PREV_POWER_MIN
                     state[l] = _ACTIVE
                     active += 1
                 # top of the scalar integrator's loop
@@ -505,6 +530,7 @@ def _run_block(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_steps,
         # ---- one trial step of all lanes (idle lanes compute on stale values, discarded)
         _step_lanes(stm, mu, Y, H, K, Ytmp, Ynew)
         _error_lanes(K, H, Y, Ynew, rtol, atol, err)
+        _power_lanes(err, PE, PB)
 
         # ---- each lane accepts or rejects its own step
         for l in range(L):
@@ -534,7 +560,7 @@ def _run_block(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_steps,
                 continue
             if e > 1.0:
                 nrej[l] += 1
-                h *= max(_dp.MIN_FACTOR, _dp.SAFETY * e ** _dp.ERROR_EXPONENT)
+                h *= max(_dp.MIN_FACTOR, _dp.SAFETY * PE[l])
                 H[l] = h
                 rejected[l] = True
                 continue
@@ -632,11 +658,10 @@ def _run_block(mode, params, y0s, t0, t_finals, rtol, atol, max_step, max_steps,
                 continue
             if e == 0.0:
                 fac = _dp.MAX_FACTOR
+                prev_pow[l] = _dp.PREV_POWER_MIN
             else:
-                fac = min(_dp.MAX_FACTOR,
-                          max(_dp.MIN_FACTOR,
-                              _dp.SAFETY * e ** _dp.ERROR_EXPONENT * err_prev[l] ** _dp.STEP_BETA))
-            err_prev[l] = max(e, _dp.PREV_ERROR_MIN)
+                fac = min(_dp.MAX_FACTOR, max(_dp.MIN_FACTOR, _dp.SAFETY * PE[l] * prev_pow[l]))
+                prev_pow[l] = max(PB[l], _dp.PREV_POWER_MIN)
             if rejected[l]:
                 fac = min(fac, 1.0)
             rejected[l] = False
