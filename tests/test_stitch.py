@@ -146,14 +146,10 @@ def test_retiming_recovers_the_ballistic_arc_through_the_nodes():
     assert res.continuity_lu < CONTINUITY_LU
 
 
-def test_one_leg_sun_earth_route_stitches_with_physical_tolerances():
-    """Regression: a one-leg Sun-Earth route (200 km LEO to an L1 halo along its stable
-    manifold, about 3.2 km/s and 200 days; common practice, from memory, as in
-    tests/test_against_common_practice_leo_halo.py) failed: the end state held whole made the
-    problem over-determined (6K + 3 equations on 6K + 1 unknowns), the optimiser could not run
-    ("More equality constraints than independent variables") and Newton stalled metres away
-    from a tolerance of 1e-11 LU. Now the tolerances are metres and mm/s, a trim impulse at the
-    end keeps the problem square, and the note says plainly whether it was optimised."""
+@pytest.fixture(scope="module")
+def sun_earth_leo_halo():
+    """(system, stitched route) of a one-leg Sun-Earth route: 200 km LEO to an L1 halo along its
+    stable manifold (stitched once for the tests that read it)."""
     import sys
     from pathlib import Path
     sys.path.insert(0, str(Path(__file__).parent))
@@ -165,7 +161,18 @@ def test_one_leg_sun_earth_route_stitches_with_physical_tolerances():
     orbit = halo_az(se, "L1", 2.4e-3)
     leg = parking_legs(orbit, "earth", 200.0, n_points=48, t_max=6.0)[0].record()
     leg["from_name"], leg["to_name"] = "leo", "halo"
-    res = stitch.stitch_route(se, [leg])
+    return se, stitch.stitch_route(se, [leg])
+
+
+def test_one_leg_sun_earth_route_stitches_with_physical_tolerances(sun_earth_leo_halo):
+    """Regression: a one-leg Sun-Earth route (200 km LEO to an L1 halo along its stable
+    manifold, about 3.2 km/s and 200 days; common practice, from memory, as in
+    tests/test_against_common_practice_leo_halo.py) failed: the end state held whole made the
+    problem over-determined (6K + 3 equations on 6K + 1 unknowns), the optimiser could not run
+    ("More equality constraints than independent variables") and Newton stalled metres away
+    from a tolerance of 1e-11 LU. Now the tolerances are metres and mm/s, a trim impulse at the
+    end keeps the problem square, and the note says plainly whether it was optimised."""
+    se, res = sun_earth_leo_halo
     assert res.continuity_lu * se.length_km * 1e3 < 10.0          # metres (stitch.CONTINUITY_LIMIT_M)
     assert res.note.startswith("optimised") or res.note.startswith("not optimised")
     assert res.optimised == res.note.startswith("optimised")
@@ -176,25 +183,14 @@ def test_one_leg_sun_earth_route_stitches_with_physical_tolerances():
     assert 3100.0 <= res.dv_total_mps <= 3300.0
 
 
-def test_stitched_output_follows_the_trajectory_newton_solved():
+def test_stitched_output_follows_the_trajectory_newton_solved(sun_earth_leo_halo):
     """Seam solve -> output: the stitcher's continuity equations use the end states of the same
     state-only propagation that draws the output and checks its jumps. They used the end states
     of the propagation with the STM, whose step control weighs 42 components: on this Sun-Earth
     LEO-to-halo leg those end states were 5-15 m from the state-only ones, so Newton met its
     1 cm tolerance on a trajectory the output did not follow, and the output's jumps were 5.9 m
     (and 15.3 m after a round-off change in the step control, over the 10 m promise)."""
-    import sys
-    from pathlib import Path
-    sys.path.insert(0, str(Path(__file__).parent))
-    from _orbit_fixtures import halo_az
-
-    from cr3bp import system
-    from cr3bp.tubes.parking import parking_legs
-    se = system("sun-earth")
-    orbit = halo_az(se, "L1", 2.4e-3)
-    leg = parking_legs(orbit, "earth", 200.0, n_points=48, t_max=6.0)[0].record()
-    leg["from_name"], leg["to_name"] = "leo", "halo"
-    res = stitch.stitch_route(se, [leg])
+    se, res = sun_earth_leo_halo
     # Newton stops under 1 cm (stitch.POSITION_TOL_M) or, stalled, under 10 m; here it reaches
     # the 1 cm tolerance, and the output's jumps are that solution's: 2.2 cm measured
     assert res.continuity_lu * se.length_km * 1e3 < 0.1
